@@ -1,0 +1,168 @@
+/**
+ * People and their study roles. A person is created on first sign-in from the identity
+ * provider's attributes; an administrator then gives them roles per study.
+ */
+import { and, asc, eq } from "drizzle-orm";
+import { appendAudit, type Actor } from "./audit.server";
+import { db, isoNow, newId, t, writeTransaction } from "./db/index.server";
+import type { StudyRole } from "./db/schema";
+
+export type Person = typeof t.people.$inferSelect;
+
+export interface VerifiedIdentity {
+  source: "saml" | "oidc";
+  /** Stable subject at the provider (SAML NameID or OIDC `sub`). */
+  externalId: string;
+  email: string;
+  displayName: string;
+  organisation: string | null;
+  /** From the provider's group attribute; sponsor providers never grant it. */
+  isAdmin: boolean;
+}
+
+export const actorOf = (p: { id: string; displayName: string }): Actor => ({ id: p.id, name: p.displayName });
+
+/**
+ * Finds the person by e-mail or creates them, refreshing name, organisation and the
+ * administrator flag from the identity provider, and records the sign-in in the audit trail.
+ */
+export async function recordSignIn(identity: VerifiedIdentity): Promise<Person> {
+  const email = identity.email.trim().toLowerCase();
+  return writeTransaction(async (tx) => {
+    const [existing] = await tx.select().from(t.people).where(eq(t.people.email, email)).limit(1);
+    const at = isoNow();
+    let person: Person;
+    if (existing) {
+      const changes = {
+        displayName: identity.displayName,
+        organisation: identity.organisation,
+        isAdmin: identity.isAdmin,
+        externalId: identity.externalId,
+        lastSignInAt: at,
+      };
+      await tx.update(t.people).set(changes).where(eq(t.people.id, existing.id));
+      person = { ...existing, ...changes };
+      if (existing.isAdmin !== identity.isAdmin) {
+        await appendAudit(
+          {
+            actor: actorOf(person),
+            action: "person.admin_flag",
+            entityType: "person",
+            entityId: person.id,
+            before: { isAdmin: existing.isAdmin },
+            after: { isAdmin: identity.isAdmin },
+            detail: "administrator flag taken from the identity provider's groups",
+          },
+          tx,
+        );
+      }
+    } else {
+      person = {
+        id: newId(),
+        email,
+        displayName: identity.displayName,
+        organisation: identity.organisation,
+        isAdmin: identity.isAdmin,
+        identitySource: identity.source,
+        externalId: identity.externalId,
+        createdAt: at,
+        lastSignInAt: at,
+      };
+      await tx.insert(t.people).values(person);
+      await appendAudit(
+        {
+          actor: actorOf(person),
+          action: "person.create",
+          entityType: "person",
+          entityId: person.id,
+          after: { email, displayName: person.displayName, organisation: person.organisation, isAdmin: person.isAdmin },
+          detail: `created at first sign-in through ${identity.source === "saml" ? "SAML single sign-on" : "OpenID Connect"}`,
+        },
+        tx,
+      );
+    }
+    await appendAudit(
+      { actor: actorOf(person), action: "auth.sign_in", entityType: "person", entityId: person.id, detail: identity.source },
+      tx,
+    );
+    return person;
+  });
+}
+
+export async function listPeople(): Promise<Person[]> {
+  return db.select().from(t.people).orderBy(asc(t.people.displayName));
+}
+
+export interface Membership {
+  id: string;
+  studyId: string;
+  studyCode: string;
+  personId: string;
+  role: StudyRole;
+}
+
+export async function listMemberships(): Promise<Membership[]> {
+  return db
+    .select({
+      id: t.studyMemberships.id,
+      studyId: t.studyMemberships.studyId,
+      studyCode: t.studies.code,
+      personId: t.studyMemberships.personId,
+      role: t.studyMemberships.role,
+    })
+    .from(t.studyMemberships)
+    .innerJoin(t.studies, eq(t.studies.id, t.studyMemberships.studyId))
+    .orderBy(asc(t.studies.code));
+}
+
+/** The person's role on one study, or null. */
+export async function studyRoleOf(personId: string, studyId: string): Promise<StudyRole | null> {
+  const [row] = await db
+    .select({ role: t.studyMemberships.role })
+    .from(t.studyMemberships)
+    .where(and(eq(t.studyMemberships.personId, personId), eq(t.studyMemberships.studyId, studyId)))
+    .limit(1);
+  return row?.role ?? null;
+}
+
+/**
+ * Gives a person a role on a study (replacing any role they had there) or, with `role: null`,
+ * removes them from the study. Audited with before and after.
+ */
+export async function setStudyRole(actor: Actor, studyId: string, personId: string, role: StudyRole | null): Promise<void> {
+  await writeTransaction(async (tx) => {
+    const [current] = await tx
+      .select()
+      .from(t.studyMemberships)
+      .where(and(eq(t.studyMemberships.personId, personId), eq(t.studyMemberships.studyId, studyId)))
+      .limit(1);
+    const before = current?.role ?? null;
+    if (before === role) return;
+    if (current) await tx.delete(t.studyMemberships).where(eq(t.studyMemberships.id, current.id));
+    if (role) {
+      await tx.insert(t.studyMemberships).values({ id: newId(), studyId, personId, role, grantedBy: actor.id });
+    }
+    await appendAudit(
+      {
+        actor,
+        action: role ? "membership.grant" : "membership.revoke",
+        entityType: "person",
+        entityId: personId,
+        studyId,
+        before: { role: before },
+        after: { role },
+      },
+      tx,
+    );
+  });
+}
+
+/** Who works on a study, by role. */
+export async function listStudyTeam(studyId: string): Promise<{ displayName: string; organisation: string | null; role: StudyRole }[]> {
+  return db
+    .select({ displayName: t.people.displayName, organisation: t.people.organisation, role: t.studyMemberships.role })
+    .from(t.studyMemberships)
+    .innerJoin(t.people, eq(t.people.id, t.studyMemberships.personId))
+    .where(eq(t.studyMemberships.studyId, studyId))
+    .orderBy(asc(t.studyMemberships.role), asc(t.people.displayName));
+}

@@ -1,0 +1,134 @@
+/**
+ * Sessions: a signed, httpOnly, SameSite=Lax cookie carries only a random session id; the
+ * session itself lives in the database so that signing out ends it everywhere and every app
+ * instance sharing the database sees the same sessions. A new id is issued at every sign-in
+ * (rotation). Sessions end after 30 minutes without a request or 12 hours after sign-in.
+ */
+import { randomBytes } from "node:crypto";
+import { eq, lt } from "drizzle-orm";
+import { createCookie, redirect } from "react-router";
+import { config, servedOverHttps } from "./config.server";
+import { db, isoNow, t } from "./db/index.server";
+
+export const IDLE_TIMEOUT_MS = 30 * 60 * 1000;
+export const ABSOLUTE_TIMEOUT_MS = 12 * 60 * 60 * 1000;
+/** How stale `lastSeenAt` may get before a request refreshes it (saves a write per request). */
+const TOUCH_AFTER_MS = 60 * 1000;
+
+export const sessionCookie = createCookie("plumbline_session", {
+  httpOnly: true,
+  sameSite: "lax",
+  secure: servedOverHttps,
+  path: "/",
+  secrets: [config.SESSION_SECRET],
+});
+
+interface SessionData {
+  signedInAt: string;
+  /** SAML NameID and SessionIndex, for single logout at the identity provider. */
+  nameId?: string;
+  sessionIndex?: string;
+}
+
+export interface CurrentUser {
+  id: string;
+  email: string;
+  displayName: string;
+  organisation: string | null;
+  isAdmin: boolean;
+  identitySource: "saml" | "oidc";
+  sessionId: string;
+  /** When this person last authenticated at their identity provider. */
+  signedInAt: string;
+  nameId?: string;
+  sessionIndex?: string;
+}
+
+async function readSessionId(request: Request): Promise<string | null> {
+  const value: unknown = await sessionCookie.parse(request.headers.get("Cookie"));
+  return typeof value === "string" && value.length > 0 ? value : null;
+}
+
+/**
+ * Starts a fresh session for a person who has just authenticated, ending any session the
+ * browser already had. Returns the Set-Cookie header value.
+ */
+export async function startSession(
+  request: Request,
+  personId: string,
+  saml?: { nameId?: string; sessionIndex?: string },
+): Promise<string> {
+  const previous = await readSessionId(request);
+  if (previous) await db.delete(t.sessions).where(eq(t.sessions.id, previous));
+  const id = randomBytes(32).toString("base64url");
+  const at = new Date();
+  const data: SessionData = { signedInAt: at.toISOString(), ...saml };
+  await db.insert(t.sessions).values({
+    id,
+    personId,
+    dataJson: JSON.stringify(data),
+    createdAt: at.toISOString(),
+    lastSeenAt: at.toISOString(),
+    expiresAt: new Date(at.getTime() + ABSOLUTE_TIMEOUT_MS).toISOString(),
+  });
+  // Housekeeping: sessions past their absolute limit are of no use to anyone.
+  await db.delete(t.sessions).where(lt(t.sessions.expiresAt, at.toISOString()));
+  return sessionCookie.serialize(id, { maxAge: ABSOLUTE_TIMEOUT_MS / 1000 });
+}
+
+/** The signed-in person, or null when there is no live session (expired sessions are ended). */
+export async function getCurrentUser(request: Request): Promise<CurrentUser | null> {
+  const id = await readSessionId(request);
+  if (!id) return null;
+  const [row] = await db
+    .select({ session: t.sessions, person: t.people })
+    .from(t.sessions)
+    .innerJoin(t.people, eq(t.people.id, t.sessions.personId))
+    .where(eq(t.sessions.id, id))
+    .limit(1);
+  if (!row) return null;
+  const now = Date.now();
+  const idleFor = now - Date.parse(row.session.lastSeenAt);
+  if (idleFor > IDLE_TIMEOUT_MS || now > Date.parse(row.session.expiresAt)) {
+    await db.delete(t.sessions).where(eq(t.sessions.id, id));
+    return null;
+  }
+  if (idleFor > TOUCH_AFTER_MS) {
+    await db.update(t.sessions).set({ lastSeenAt: isoNow() }).where(eq(t.sessions.id, id));
+  }
+  const data = JSON.parse(row.session.dataJson) as SessionData;
+  return {
+    id: row.person.id,
+    email: row.person.email,
+    displayName: row.person.displayName,
+    organisation: row.person.organisation,
+    isAdmin: row.person.isAdmin,
+    identitySource: row.person.identitySource,
+    sessionId: id,
+    signedInAt: data.signedInAt,
+    nameId: data.nameId,
+    sessionIndex: data.sessionIndex,
+  };
+}
+
+/** Sends anonymous visitors to the sign-in page, remembering where they were going. */
+export async function requireUser(request: Request): Promise<CurrentUser> {
+  const user = await getCurrentUser(request);
+  if (user) return user;
+  const url = new URL(request.url);
+  const returnTo = url.pathname + url.search;
+  throw redirect(`/sign-in?returnTo=${encodeURIComponent(returnTo)}`);
+}
+
+/** Ends the browser's session; returns the Set-Cookie header value that clears the cookie. */
+export async function endSession(request: Request): Promise<string> {
+  const id = await readSessionId(request);
+  if (id) await db.delete(t.sessions).where(eq(t.sessions.id, id));
+  return sessionCookie.serialize("", { maxAge: 0 });
+}
+
+/** Only same-site relative paths are followed after sign-in (no open redirects). */
+export function safeReturnTo(value: string | null | undefined): string {
+  if (!value || !value.startsWith("/") || value.startsWith("//") || value.startsWith("/\\")) return "/";
+  return value;
+}

@@ -1,0 +1,32 @@
+import { index, layout, prefix, route, type RouteConfig } from "@react-router/dev/routes";
+
+export default [
+  // Signing in and out (single sign-on through the staff SAML identity provider).
+  route("sign-in", "routes/sign-in.tsx"),
+  route("auth/saml/login", "routes/auth.saml.login.ts"),
+  route("auth/saml/acs", "routes/auth.saml.acs.ts"),
+  route("auth/saml/logout", "routes/auth.saml.logout.ts"),
+  route("sign-out", "routes/sign-out.ts"),
+  route("healthz", "routes/healthz.ts"),
+
+  layout("routes/shell.tsx", [
+    index("routes/home.tsx"),
+    ...prefix("studies/:studyId", [
+      layout("routes/study-layout.tsx", [
+        index("routes/study-overview.tsx"),
+        route("datasets", "routes/study-datasets.tsx"),
+        route("plans", "routes/study-plans.tsx"),
+        route("reruns", "routes/study-reruns.tsx"),
+        route("deviations", "routes/study-deviations.tsx"),
+        route("appendix", "routes/study-appendix.tsx"),
+        route("reports", "routes/study-reports.tsx"),
+      ]),
+    ]),
+    ...prefix("admin", [
+      route("studies", "routes/admin.studies.tsx"),
+      route("people", "routes/admin.people.tsx"),
+      route("audit", "routes/admin.audit.tsx"),
+    ]),
+  ]),
+  route("*", "routes/not-found.tsx"),
+] satisfies RouteConfig;

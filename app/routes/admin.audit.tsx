@@ -1,0 +1,155 @@
+import { Form } from "react-router";
+import { z } from "zod";
+import type { Route } from "./+types/admin.audit";
+import { PageHeader } from "~/components/page";
+import { StatusLabel } from "~/components/status";
+import { listAuditEvents, verifyAuditChain } from "~/.server/audit.server";
+import { requireAdmin } from "~/.server/permissions.server";
+import { listStudiesFor } from "~/.server/studies.server";
+
+export function meta() {
+  return [{ title: "Audit trail · Plumbline" }];
+}
+
+const Filter = z.object({
+  study: z.string().optional(),
+  action: z.string().trim().max(60).optional(),
+  actor: z.string().trim().max(120).optional(),
+  from: z.string().regex(/^\d{4}-\d{2}-\d{2}$/).optional().catch(undefined),
+  to: z.string().regex(/^\d{4}-\d{2}-\d{2}$/).optional().catch(undefined),
+});
+
+export async function loader({ request }: Route.LoaderArgs) {
+  const admin = await requireAdmin(request, "audit.read");
+  const params = Object.fromEntries(new URL(request.url).searchParams);
+  const filter = Filter.parse(Object.fromEntries(Object.entries(params).filter(([, v]) => v !== "")));
+  const [events, verdict, studies] = await Promise.all([
+    listAuditEvents({ studyId: filter.study, action: filter.action, actor: filter.actor, from: filter.from, to: filter.to, limit: 500 }),
+    verifyAuditChain(),
+    listStudiesFor(admin),
+  ]);
+  const codeOf = new Map(studies.map((s) => [s.id, s.code]));
+  return {
+    filter,
+    verdict,
+    studies: studies.map((s) => ({ id: s.id, code: s.code })),
+    events: events.map((e) => ({ ...e, studyCode: e.studyId ? (codeOf.get(e.studyId) ?? e.studyId) : null })),
+  };
+}
+
+function change(before: string | null, after: string | null): string {
+  if (!before && !after) return "";
+  if (!before) return `→ ${after}`;
+  return `${before} → ${after ?? "∅"}`;
+}
+
+export default function AuditTrail({ loaderData }: Route.ComponentProps) {
+  const { filter, verdict, events, studies } = loaderData;
+  return (
+    <main>
+      <PageHeader eyebrow="Administration" title="Audit trail" />
+      <section className="panel mb-4 flex flex-wrap items-center gap-3 p-3" aria-live="polite">
+        {verdict.intact ? (
+          <>
+            <StatusLabel status="within" word="Chain verified" />
+            <span className="num text-sm">
+              All {verdict.events} events link to their predecessors and match their hashes.
+            </span>
+          </>
+        ) : (
+          <>
+            <StatusLabel status="finding" word="Chain broken" />
+            <span className="text-sm">
+              The first broken link is event <span className="num font-semibold">{verdict.brokenAtSeq}</span>: {verdict.reason}. Every
+              event from there on can no longer be trusted as recorded; keep the database file for investigation.
+            </span>
+          </>
+        )}
+      </section>
+      <Form method="get" className="mb-4 flex flex-wrap items-end gap-3" aria-label="Filter the audit trail">
+        <div>
+          <label htmlFor="f-study" className="label">
+            Study
+          </label>
+          <select id="f-study" name="study" defaultValue={filter.study ?? ""} className="field w-40">
+            <option value="">Any</option>
+            {studies.map((s) => (
+              <option key={s.id} value={s.id}>
+                {s.code}
+              </option>
+            ))}
+          </select>
+        </div>
+        <div>
+          <label htmlFor="f-action" className="label">
+            Action starts with
+          </label>
+          <input id="f-action" name="action" defaultValue={filter.action ?? ""} className="field w-44" placeholder="auth." />
+        </div>
+        <div>
+          <label htmlFor="f-actor" className="label">
+            Who
+          </label>
+          <input id="f-actor" name="actor" defaultValue={filter.actor ?? ""} className="field w-44" />
+        </div>
+        <div>
+          <label htmlFor="f-from" className="label">
+            From (UTC date)
+          </label>
+          <input id="f-from" name="from" type="date" defaultValue={filter.from ?? ""} className="field w-40" />
+        </div>
+        <div>
+          <label htmlFor="f-to" className="label">
+            To (UTC date)
+          </label>
+          <input id="f-to" name="to" type="date" defaultValue={filter.to ?? ""} className="field w-40" />
+        </div>
+        <button type="submit" className="btn-quiet">
+          Filter
+        </button>
+      </Form>
+      <div className="overflow-x-auto">
+        <table className="data-table panel">
+          <thead>
+            <tr>
+              <th scope="col" className="text-right">
+                #
+              </th>
+              <th scope="col">When (UTC)</th>
+              <th scope="col">Who</th>
+              <th scope="col">Action</th>
+              <th scope="col">Record</th>
+              <th scope="col">Study</th>
+              <th scope="col">Change</th>
+              <th scope="col">Detail</th>
+            </tr>
+          </thead>
+          <tbody>
+            {events.map((e) => (
+              <tr key={e.seq}>
+                <td className="num text-right">{e.seq}</td>
+                <td className="num whitespace-nowrap">{e.at.slice(0, 19).replace("T", " ")}</td>
+                <td>{e.actorName}</td>
+                <td className="font-mono text-xs">{e.action}</td>
+                <td className="text-xs">
+                  {e.entityType}
+                  {e.entityId ? <span className="block font-mono text-ink-soft">{e.entityId.slice(0, 8)}</span> : null}
+                </td>
+                <td>{e.studyCode ?? "—"}</td>
+                <td className="max-w-xs break-words font-mono text-xs">{change(e.beforeJson, e.afterJson)}</td>
+                <td className="text-xs">{e.detail}</td>
+              </tr>
+            ))}
+            {events.length === 0 ? (
+              <tr>
+                <td colSpan={8} className="text-ink-soft">
+                  No events match these filters.
+                </td>
+              </tr>
+            ) : null}
+          </tbody>
+        </table>
+      </div>
+    </main>
+  );
+}
