@@ -26,6 +26,8 @@ const schema = z.object({
   SAML_SP_ISSUER: z.string().default("urn:plumbline:sp"),
   /** Allowed clock difference with the identity provider, in milliseconds. */
   SAML_CLOCK_SKEW_MS: z.coerce.number().int().min(0).max(60_000).default(5_000),
+  /** Identity-provider group whose members are Plumbline administrators. */
+  SAML_ADMIN_GROUP: z.string().min(1).default("plumbline-admins"),
   /** Largest request body accepted outside dataset uploads, in bytes. */
   MAX_BODY_BYTES: z.coerce.number().int().positive().default(1_048_576),
 });
