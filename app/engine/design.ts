@@ -1,0 +1,306 @@
+/**
+ * Variables and the design matrix: complete-case rows, continuous and categorical variables
+ * (treatment coding against a reference level), interaction columns, coefficient names.
+ */
+import { EngineError } from "./errors";
+import { isInteraction, type ModelSpec, type Term } from "./model-spec";
+import { isMissingCell, isNumericColumn, orderLevels, parseNumber, type DataTable } from "./data";
+
+export interface ContinuousVariable {
+  readonly kind: "continuous";
+  readonly name: string;
+  /** Value per used row. */
+  readonly values: Float64Array;
+  /** Mean over the rows used. */
+  readonly mean: number;
+}
+
+export interface CategoricalVariable {
+  readonly kind: "categorical";
+  readonly name: string;
+  /** Levels present in the rows used, in order (numeric or code-point); the reference is among them. */
+  readonly levels: readonly string[];
+  readonly reference: string;
+  readonly referenceIndex: number;
+  /** Level index (into `levels`) per used row. */
+  readonly codes: Int32Array;
+  /** Rows used per level. */
+  readonly counts: readonly number[];
+}
+
+export type Variable = ContinuousVariable | CategoricalVariable;
+
+/** One factor of a design column: a continuous variable, or the indicator of one level. */
+export interface ColumnFactor {
+  readonly variable: string;
+  readonly level?: number;
+}
+
+export interface DesignTerm {
+  /** Variable name, or an interaction's parts joined by " by ". */
+  readonly label: string;
+  readonly kind: "continuous" | "categorical" | "interaction";
+  readonly variables: readonly string[];
+  /** Indices of this term's columns in the design. */
+  readonly columns: readonly number[];
+}
+
+export interface Design {
+  readonly n: number;
+  readonly p: number;
+  readonly intercept: boolean;
+  readonly names: readonly string[];
+  /** Column-major n×p. */
+  readonly x: Float64Array;
+  readonly terms: readonly DesignTerm[];
+  /** Factors of each column (empty for the intercept). */
+  readonly columnFactors: readonly (readonly ColumnFactor[])[];
+}
+
+/** The rows that enter the fit and the variables read from them. */
+export interface PreparedData {
+  /** Index into the table of each used row. */
+  readonly used: Int32Array;
+  /** Data row numbers (1-based) of rows left out for a missing cell. */
+  readonly excludedRows: readonly number[];
+  readonly rowNumbers: readonly number[];
+  readonly response: Float64Array;
+  readonly weights: Float64Array | null;
+  readonly offset: Float64Array | null;
+  readonly ids: readonly (string | null)[];
+  readonly variables: ReadonlyMap<string, Variable>;
+}
+
+function mainTerms(spec: ModelSpec): { variable: string; categorical?: boolean; reference?: string }[] {
+  return spec.terms.filter((t): t is Exclude<Term, { interaction: string[] }> => !isInteraction(t));
+}
+
+/** Checks the columns exist, applies complete-case selection and reads every variable. */
+export function prepareData(spec: ModelSpec, table: DataTable): PreparedData {
+  const mains = mainTerms(spec);
+  const seenTerms = new Set<string>();
+  for (const t of mains) {
+    if (seenTerms.has(t.variable)) throw new EngineError(`term "${t.variable}" is listed twice`);
+    seenTerms.add(t.variable);
+  }
+  for (const t of spec.terms) {
+    if (!isInteraction(t)) continue;
+    const label = t.interaction.join(" by ");
+    if (new Set(t.interaction).size !== t.interaction.length) {
+      throw new EngineError(`interaction "${label}" names a variable twice`);
+    }
+    for (const v of t.interaction) {
+      if (!seenTerms.has(v)) {
+        throw new EngineError(`interaction "${label}" uses "${v}", which is not a main term; add it as a term`);
+      }
+    }
+    if (seenTerms.has(label)) throw new EngineError(`interaction "${label}" is listed twice`);
+    seenTerms.add(label);
+  }
+  if (spec.treatment !== undefined && !mains.some((t) => t.variable === spec.treatment)) {
+    throw new EngineError(`treatment "${spec.treatment}" is not one of the model's main terms`);
+  }
+  if (mains.some((t) => t.variable === spec.response)) {
+    throw new EngineError(`response "${spec.response}" is also listed as a term`);
+  }
+
+  const usedColumns = [spec.response, ...mains.map((t) => t.variable)];
+  if (spec.weights) usedColumns.push(spec.weights);
+  if (spec.offset) usedColumns.push(spec.offset);
+  const needed = spec.id ? [...usedColumns, spec.id] : usedColumns;
+  for (const name of needed) {
+    if (!(name in table.columns)) throw new EngineError(`column "${name}" is missing from the data`);
+  }
+  const distinct = [...new Set(usedColumns)];
+
+  const usedList: number[] = [];
+  const excludedRows: number[] = [];
+  for (let i = 0; i < table.nRows; i++) {
+    if (distinct.some((name) => isMissingCell(table.columns[name][i]))) excludedRows.push(table.rowNumbers[i]);
+    else usedList.push(i);
+  }
+  const used = Int32Array.from(usedList);
+
+  const readNumeric = (name: string, role: string): Float64Array => {
+    const cells = table.columns[name];
+    const out = new Float64Array(used.length);
+    for (let k = 0; k < used.length; k++) {
+      const v = parseNumber(cells[used[k]]);
+      if (v === null) {
+        throw new EngineError(
+          `${role} column "${name}" is not numeric: data row ${table.rowNumbers[used[k]]} has "${cells[used[k]]}"`,
+        );
+      }
+      out[k] = v;
+    }
+    return out;
+  };
+  // report the first non-numeric response cell among all rows, used or not
+  const responseCells = table.columns[spec.response];
+  for (let i = 0; i < table.nRows; i++) {
+    const cell = responseCells[i];
+    if (!isMissingCell(cell) && parseNumber(cell) === null) {
+      throw new EngineError(
+        `response column "${spec.response}" is not numeric: data row ${table.rowNumbers[i]} has "${cell}"`,
+      );
+    }
+  }
+  const response = readNumeric(spec.response, "response");
+  let weights: Float64Array | null = null;
+  if (spec.weights) {
+    weights = readNumeric(spec.weights, "weights");
+    for (let k = 0; k < weights.length; k++) {
+      if (!(weights[k] > 0)) {
+        throw new EngineError(
+          `weights column "${spec.weights}" has a zero or negative weight (${weights[k]}) at data row ${table.rowNumbers[used[k]]}; weights must be positive`,
+        );
+      }
+    }
+  }
+  const offset = spec.offset ? readNumeric(spec.offset, "offset") : null;
+  const ids = spec.id
+    ? Array.from(used, (i) => {
+        const cell = table.columns[spec.id as string][i];
+        return isMissingCell(cell) ? null : cell;
+      })
+    : Array.from(used, () => null);
+
+  const variables = new Map<string, Variable>();
+  for (const t of mains) {
+    const cells = table.columns[t.variable];
+    const numeric = isNumericColumn(cells);
+    if (numeric && t.categorical !== true) {
+      if (t.reference !== undefined) {
+        throw new EngineError(
+          `term "${t.variable}" has a reference level but its column is numeric; set "categorical": true to treat it as categorical`,
+        );
+      }
+      const values = new Float64Array(used.length);
+      let sum = 0;
+      for (let k = 0; k < used.length; k++) {
+        values[k] = parseNumber(cells[used[k]]) as number;
+        sum += values[k];
+      }
+      variables.set(t.variable, { kind: "continuous", name: t.variable, values, mean: sum / Math.max(1, used.length) });
+    } else {
+      const labels = Array.from(used, (i) => cells[i]);
+      const levels = orderLevels(labels);
+      const reference = t.reference ?? levels[0];
+      const referenceIndex = levels.indexOf(reference);
+      if (referenceIndex < 0) {
+        throw new EngineError(
+          `reference level "${reference}" of "${t.variable}" is not present in the rows used; levels: ${levels.join(", ")}`,
+        );
+      }
+      const index = new Map(levels.map((l, i) => [l, i]));
+      const codes = Int32Array.from(labels, (l) => index.get(l) as number);
+      const counts = levels.map(() => 0);
+      for (const c of codes) counts[c]++;
+      variables.set(t.variable, { kind: "categorical", name: t.variable, levels, reference, referenceIndex, codes, counts });
+    }
+  }
+  if (spec.treatment !== undefined && variables.get(spec.treatment)?.kind !== "categorical") {
+    throw new EngineError(`treatment "${spec.treatment}" must be a categorical term`);
+  }
+  return { used, excludedRows, rowNumbers: table.rowNumbers, response, weights, offset, ids, variables };
+}
+
+/** Non-reference level indices of a categorical variable, in level order. */
+export function contrastLevels(v: CategoricalVariable): number[] {
+  const out: number[] = [];
+  for (let i = 0; i < v.levels.length; i++) if (i !== v.referenceIndex) out.push(i);
+  return out;
+}
+
+interface ColumnPlan {
+  readonly name: string;
+  readonly factors: readonly ColumnFactor[];
+}
+
+/** Columns of a term: for an interaction, the product of its parts, the first part varying fastest. */
+export function termColumns(variables: readonly string[], lookup: ReadonlyMap<string, Variable>): ColumnPlan[] {
+  let combos: ColumnPlan[] = [{ name: "", factors: [] }];
+  variables.forEach((name, partIndex) => {
+    const v = lookup.get(name) as Variable;
+    const parts: ColumnPlan[] =
+      v.kind === "continuous"
+        ? [{ name, factors: [{ variable: name }] }]
+        : contrastLevels(v).map((level) => ({ name: `${name}=${v.levels[level]}`, factors: [{ variable: name, level }] }));
+    const next: ColumnPlan[] = [];
+    for (const part of parts) {
+      for (const combo of combos) {
+        next.push({
+          name: partIndex === 0 ? part.name : `${combo.name} by ${part.name}`,
+          factors: [...combo.factors, ...part.factors],
+        });
+      }
+    }
+    combos = next;
+  });
+  return combos;
+}
+
+/** Variables of each term in the specification, in order. */
+export function termVariables(spec: ModelSpec): string[][] {
+  return spec.terms.map((t) => (isInteraction(t) ? [...t.interaction] : [t.variable]));
+}
+
+/** Builds the design matrix for the rows used; `extraTerms` adds further terms (for tests). */
+export function buildDesign(
+  spec: ModelSpec,
+  data: PreparedData,
+  extraTerms: readonly (readonly string[])[] = [],
+): Design {
+  const n = data.used.length;
+  const names: string[] = [];
+  const factors: ColumnFactor[][] = [];
+  const terms: DesignTerm[] = [];
+  if (spec.intercept) {
+    names.push("Intercept");
+    factors.push([]);
+  }
+  for (const vars of [...termVariables(spec), ...extraTerms]) {
+    const plans = termColumns(vars, data.variables);
+    const first = names.length;
+    for (const plan of plans) {
+      names.push(plan.name);
+      factors.push([...plan.factors]);
+    }
+    const kind = vars.length > 1 ? "interaction" : (data.variables.get(vars[0]) as Variable).kind;
+    terms.push({ label: vars.join(" by "), kind, variables: [...vars], columns: plans.map((_, i) => first + i) });
+  }
+  const p = names.length;
+  const x = new Float64Array(n * p);
+  for (let j = 0; j < p; j++) fillColumn(x.subarray(j * n, (j + 1) * n), factors[j], data.variables);
+  return { n, p, intercept: spec.intercept, names, x, terms, columnFactors: factors };
+}
+
+function fillColumn(out: Float64Array, factors: readonly ColumnFactor[], lookup: ReadonlyMap<string, Variable>): void {
+  out.fill(1);
+  for (const f of factors) {
+    const v = lookup.get(f.variable) as Variable;
+    if (v.kind === "continuous") {
+      for (let i = 0; i < out.length; i++) out[i] *= v.values[i];
+    } else {
+      for (let i = 0; i < out.length; i++) if (v.codes[i] !== f.level) out[i] = 0;
+    }
+  }
+}
+
+/** A point at which to evaluate the design: a value per continuous variable, a level index per categorical one. */
+export type GridPoint = ReadonlyMap<string, number>;
+
+/** The design row (length p) at a grid point. */
+export function designRow(design: Design, lookup: ReadonlyMap<string, Variable>, point: GridPoint): Float64Array {
+  const row = new Float64Array(design.p);
+  design.columnFactors.forEach((fs, j) => {
+    let value = 1;
+    for (const f of fs) {
+      const v = lookup.get(f.variable) as Variable;
+      const at = point.get(f.variable) as number;
+      value *= v.kind === "continuous" ? at : at === f.level ? 1 : 0;
+    }
+    row[j] = value;
+  });
+  return row;
+}

@@ -1,0 +1,160 @@
+/**
+ * Observation-level diagnostics from the thin Q and R of √W X, in O(n·p²) without refits
+ * (Belsley, Kuh and Welsch 1980, Regression Diagnostics, chapter 2; Cook 1977).
+ * With prior weights the scaled quantities use the weighted residual √w·e.
+ */
+import type { LeastSquaresFit } from "./least-squares";
+
+export interface ObservationDiagnostics {
+  /** Hat-matrix diagonal h = Σₖ Q²ᵢₖ. */
+  readonly leverage: Float64Array;
+  /** r = √w e / (σ̂ √(1−h)). */
+  readonly studentizedInternal: Float64Array;
+  /** t = √w e / (σ̂₍ᵢ₎ √(1−h)). */
+  readonly studentizedExternal: Float64Array;
+  /** σ̂₍ᵢ₎² = ((n−p)σ̂² − w e²/(1−h)) / (n−p−1). */
+  readonly deletionSigma: Float64Array;
+  /** D = r² h / (p (1−h)). */
+  readonly cooksDistance: Float64Array;
+  /** DFFITS = t √(h/(1−h)). */
+  readonly dffits: Float64Array;
+  /** DFBETAS per coefficient: (R⁻¹qᵢ)ⱼ √w e/(1−h) / (σ̂₍ᵢ₎ √((X'WX)⁻¹)ⱼⱼ). */
+  readonly dfbetas: readonly Float64Array[];
+}
+
+/** Leverages above this are treated as 1 (the point fixes its own fitted value). */
+const LEVERAGE_ONE = 1 - 10 * Number.EPSILON;
+
+/** Hat-matrix diagonal from the thin Q (n×p column-major). */
+export function leverages(q: Float64Array, n: number, p: number): Float64Array {
+  const h = new Float64Array(n);
+  for (let k = 0; k < p; k++) {
+    const off = k * n;
+    for (let i = 0; i < n; i++) h[i] += q[off + i] * q[off + i];
+  }
+  for (let i = 0; i < n; i++) if (h[i] > LEVERAGE_ONE) h[i] = 1;
+  return h;
+}
+
+/** Every observation-level diagnostic of a least-squares fit. */
+export function observationDiagnostics(fit: LeastSquaresFit): ObservationDiagnostics {
+  const { n, p, q, rInverse, unscaledCovariance, sigma, dfResidual } = fit;
+  const e = fit.weightedResiduals;
+  const h = leverages(q, n, p);
+  const internal = new Float64Array(n);
+  const external = new Float64Array(n);
+  const deletionSigma = new Float64Array(n);
+  const cook = new Float64Array(n);
+  const dffits = new Float64Array(n);
+  const rowFactor = new Float64Array(n);
+  const rssTotal = dfResidual * sigma * sigma;
+  for (let i = 0; i < n; i++) {
+    const oneMinusH = 1 - h[i];
+    if (oneMinusH <= 0) {
+      internal[i] = external[i] = cook[i] = dffits[i] = rowFactor[i] = NaN;
+      deletionSigma[i] = dfResidual > 1 ? Math.sqrt(rssTotal / (dfResidual - 1)) : NaN;
+      continue;
+    }
+    const s2i = (rssTotal - (e[i] * e[i]) / oneMinusH) / (dfResidual - 1);
+    const si = Math.sqrt(Math.max(0, s2i));
+    deletionSigma[i] = si;
+    const r = e[i] / (sigma * Math.sqrt(oneMinusH));
+    const t = e[i] / (si * Math.sqrt(oneMinusH));
+    internal[i] = r;
+    external[i] = t;
+    cook[i] = (r * r * h[i]) / (p * oneMinusH);
+    dffits[i] = t * Math.sqrt(h[i] / oneMinusH);
+    rowFactor[i] = e[i] / (oneMinusH * si);
+  }
+  const dfbetas: Float64Array[] = [];
+  for (let j = 0; j < p; j++) {
+    // column j of Q R⁻ᵀ: Σ_{k≥j} Q[:,k] R⁻¹[j,k]
+    const col = new Float64Array(n);
+    for (let k = j; k < p; k++) {
+      const c = rInverse[k * p + j];
+      if (c === 0) continue;
+      const off = k * n;
+      for (let i = 0; i < n; i++) col[i] += q[off + i] * c;
+    }
+    const scale = 1 / Math.sqrt(unscaledCovariance[j * p + j]);
+    for (let i = 0; i < n; i++) col[i] *= rowFactor[i] * scale;
+    dfbetas.push(col);
+  }
+  return {
+    leverage: h,
+    studentizedInternal: internal,
+    studentizedExternal: external,
+    deletionSigma,
+    cooksDistance: cook,
+    dffits,
+    dfbetas,
+  };
+}
+
+/**
+ * Heteroscedasticity-consistent covariance matrices HC0–HC3 (White 1980; MacKinnon and White
+ * 1985; Long and Ervin 2000): R⁻¹ (Q' Ω Q) R⁻ᵀ with ωᵢ = ẽᵢ², ẽᵢ²·n/(n−p), ẽᵢ²/(1−hᵢ),
+ * ẽᵢ²/(1−hᵢ)², ẽ = √w e.
+ */
+export function robustCovariances(
+  fit: LeastSquaresFit,
+  leverage: Float64Array,
+): { HC0: Float64Array; HC1: Float64Array; HC2: Float64Array; HC3: Float64Array } {
+  const { n, p, q, rInverse } = fit;
+  const e = fit.weightedResiduals;
+  const w0 = new Float64Array(n);
+  const w2 = new Float64Array(n);
+  const w3 = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    const e2 = e[i] * e[i];
+    const m = 1 - leverage[i];
+    w0[i] = e2;
+    w2[i] = e2 / m;
+    w3[i] = e2 / (m * m);
+  }
+  const g0 = new Float64Array(p * p);
+  const g2 = new Float64Array(p * p);
+  const g3 = new Float64Array(p * p);
+  for (let a = 0; a < p; a++) {
+    const qa = a * n;
+    for (let b = a; b < p; b++) {
+      const qb = b * n;
+      let s0 = 0;
+      let s2 = 0;
+      let s3 = 0;
+      for (let i = 0; i < n; i++) {
+        const prod = q[qa + i] * q[qb + i];
+        s0 += prod * w0[i];
+        s2 += prod * w2[i];
+        s3 += prod * w3[i];
+      }
+      g0[b * p + a] = g0[a * p + b] = s0;
+      g2[b * p + a] = g2[a * p + b] = s2;
+      g3[b * p + a] = g3[a * p + b] = s3;
+    }
+  }
+  const hc0 = sandwich(rInverse, g0, p);
+  const hc1 = hc0.map((v) => (v * n) / (n - p));
+  return { HC0: hc0, HC1: hc1, HC2: sandwich(rInverse, g2, p), HC3: sandwich(rInverse, g3, p) };
+}
+
+/** A G Aᵀ for A = R⁻¹ upper triangular (p×p column-major), G symmetric. */
+function sandwich(a: Float64Array, g: Float64Array, p: number): Float64Array {
+  const ag = new Float64Array(p * p);
+  for (let i = 0; i < p; i++) {
+    for (let j = 0; j < p; j++) {
+      let s = 0;
+      for (let k = i; k < p; k++) s += a[k * p + i] * g[j * p + k];
+      ag[j * p + i] = s;
+    }
+  }
+  const out = new Float64Array(p * p);
+  for (let i = 0; i < p; i++) {
+    for (let j = 0; j < p; j++) {
+      let s = 0;
+      for (let k = j; k < p; k++) s += ag[k * p + i] * a[k * p + j];
+      out[j * p + i] = s;
+    }
+  }
+  return out;
+}

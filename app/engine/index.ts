@@ -1,0 +1,57 @@
+/**
+ * Public API of the Plumbline statistics engine: pure, deterministic functions from a model
+ * specification and parsed table cells to a full result. No I/O.
+ */
+import { toDataTable, type TableInput } from "./data";
+import { EngineError } from "./errors";
+import { fitLinearModel, type FitOptions, type LinearModelResult } from "./linear-model";
+import { parseModelSpec, type ModelSpec, type ModelSpecInput } from "./model-spec";
+
+export type ModelResult = LinearModelResult;
+
+/**
+ * Reruns a model: validates the specification, reads the table (complete cases), fits and
+ * computes every diagnostic. Throws EngineError with a one-line message on bad input.
+ */
+export function fitModel(spec: ModelSpec | ModelSpecInput | unknown, table: TableInput, options: FitOptions = {}): ModelResult {
+  const parsed = parseModelSpec(spec);
+  const data = toDataTable(table);
+  if (data.nRows === 0) throw new EngineError("the data has no rows");
+  if (parsed.family === "gaussian") return fitLinearModel(parsed, data, options);
+  throw new EngineError(`family "${parsed.family}" is not available in this engine version`);
+}
+
+export { EngineError } from "./errors";
+export { ENGINE_VERSION, RESULTS_CAUTION } from "./version";
+export { modelSpecSchema, parseModelSpec, CANONICAL_LINK } from "./model-spec";
+export type { ModelSpec, ModelSpecInput, Term, MainTerm, InteractionTerm, Family, Link } from "./model-spec";
+export { toDataTable, isMissingCell, parseNumber, orderLevels } from "./data";
+export type { TableInput, RowTable, ColumnTable, DataTable } from "./data";
+export type {
+  LinearModelResult,
+  FitOptions,
+  CoefficientRow,
+  FitSummary,
+  ObservationColumns,
+  AssumptionTests,
+  CovarianceType,
+  FitMethod,
+  VariableSummary,
+} from "./linear-model";
+export type { AdjustedMean, Contrast, MeansWeighting } from "./adjusted-means";
+export type { VifRow } from "./vif";
+export type { QqShape, QqReading } from "./qq-shape";
+export type { NormalityTest, AndersonDarlingTest } from "./normality";
+export type { BreuschPaganTest, FTest } from "./spread";
+export type { HomogeneityOfSlopes, SlopeTest } from "./specification-tests";
+export { fitWithWeightsColumn, fitWithEstimatedVariance, fitWithRobustErrors } from "./remedies";
+export type { VarianceModel } from "./remedies";
+export { toCliResult, stringifyResult } from "./cli-result";
+export { shapiroWilk, andersonDarling, lilliefors } from "./normality";
+export { breuschPagan, brownForsythe } from "./spread";
+export { readQqShape } from "./qq-shape";
+export { leastSquares } from "./least-squares";
+export type { LeastSquaresFit, LeastSquaresInput } from "./least-squares";
+export { observationDiagnostics } from "./diagnostics";
+export type { ObservationDiagnostics } from "./diagnostics";
+export * as distributions from "./distributions";

@@ -1,0 +1,150 @@
+/**
+ * Ordinary and weighted least squares through the Householder QR of the weighted design
+ * √W X (Golub and Van Loan 2013, section 5.3), with one step of iterative refinement of the
+ * coefficients on the residual (Björck 1996, Numerical Methods for Least Squares Problems, 2.9).
+ * The n×n hat matrix is never formed and X'X is never inverted.
+ */
+import { applyQt, crossInverse, formThinQ, householderQR, invertUpper, solveUpper, upperR } from "./qr";
+
+export interface LeastSquaresFit {
+  readonly n: number;
+  readonly p: number;
+  readonly coefficients: Float64Array;
+  /** R of √W X = QR (p×p, column-major, upper triangular). */
+  readonly r: Float64Array;
+  readonly rInverse: Float64Array;
+  /** (X'WX)⁻¹ = R⁻¹R⁻ᵀ, p×p column-major. */
+  readonly unscaledCovariance: Float64Array;
+  /** Thin Q of √W X (n×p, column-major). */
+  readonly q: Float64Array;
+  /** Xb + offset. */
+  readonly fitted: Float64Array;
+  /** y − fitted. */
+  readonly residuals: Float64Array;
+  /** √w (y − fitted); equal to the residuals without weights. */
+  readonly weightedResiduals: Float64Array;
+  readonly sqrtWeights: Float64Array | null;
+  /** Σ w e². */
+  readonly rss: number;
+  readonly dfResidual: number;
+  /** √(rss / dfResidual). */
+  readonly sigma: number;
+}
+
+export interface LeastSquaresInput {
+  /** Column-major n×p design (not modified). */
+  readonly x: Float64Array;
+  readonly n: number;
+  readonly p: number;
+  readonly y: Float64Array;
+  readonly weights?: Float64Array | null;
+  readonly offset?: Float64Array | null;
+}
+
+export type LeastSquaresOutcome =
+  | { readonly ok: true; readonly fit: LeastSquaresFit }
+  | { readonly ok: false; readonly aliased: readonly number[] };
+
+/** Fits y on X by (weighted) least squares; reports aliased columns instead of fitting around them. */
+export function leastSquares(input: LeastSquaresInput, tolerance?: number): LeastSquaresOutcome {
+  const { x, n, p, y } = input;
+  const sw = input.weights ? input.weights.map(Math.sqrt) : null;
+  const xw = new Float64Array(x);
+  if (sw) for (let j = 0; j < p; j++) for (let i = 0; i < n; i++) xw[j * n + i] *= sw[i];
+  const z = new Float64Array(n);
+  for (let i = 0; i < n; i++) z[i] = (y[i] - (input.offset ? input.offset[i] : 0)) * (sw ? sw[i] : 1);
+
+  const f = householderQR(xw, n, p, { inPlace: true, tolerance });
+  if (f.aliased.length > 0) return { ok: false, aliased: f.aliased };
+  const r = upperR(f);
+
+  const qty = new Float64Array(z);
+  applyQt(f, qty);
+  const b = qty.slice(0, p);
+  solveUpper(r, p, b);
+
+  // one refinement step: b += R⁻¹ (Q' (z − √W X b))[0..p)
+  const res = weightedResidual(x, n, p, b, z, sw);
+  applyQt(f, res);
+  const delta = res.slice(0, p);
+  solveUpper(r, p, delta);
+  for (let j = 0; j < p; j++) b[j] += delta[j];
+
+  const fitted = new Float64Array(n);
+  for (let j = 0; j < p; j++) {
+    const bj = b[j];
+    const off = j * n;
+    for (let i = 0; i < n; i++) fitted[i] += x[off + i] * bj;
+  }
+  const residuals = new Float64Array(n);
+  const weighted = new Float64Array(n);
+  let rss = 0;
+  for (let i = 0; i < n; i++) {
+    if (input.offset) fitted[i] += input.offset[i];
+    residuals[i] = y[i] - fitted[i];
+    weighted[i] = sw ? residuals[i] * sw[i] : residuals[i];
+    rss += weighted[i] * weighted[i];
+  }
+  const rInverse = invertUpper(r, p);
+  const unscaledCovariance = crossInverse(rInverse, p);
+  const q = formThinQ(f, true);
+  const dfResidual = n - p;
+  return {
+    ok: true,
+    fit: {
+      n,
+      p,
+      coefficients: b,
+      r,
+      rInverse,
+      unscaledCovariance,
+      q,
+      fitted,
+      residuals,
+      weightedResiduals: weighted,
+      sqrtWeights: sw,
+      rss,
+      dfResidual,
+      sigma: Math.sqrt(rss / dfResidual),
+    },
+  };
+}
+
+function weightedResidual(
+  x: Float64Array,
+  n: number,
+  p: number,
+  b: Float64Array,
+  z: Float64Array,
+  sw: Float64Array | null,
+): Float64Array {
+  const xb = new Float64Array(n);
+  for (let j = 0; j < p; j++) {
+    const bj = b[j];
+    const off = j * n;
+    for (let i = 0; i < n; i++) xb[i] += x[off + i] * bj;
+  }
+  const out = new Float64Array(n);
+  for (let i = 0; i < n; i++) out[i] = z[i] - (sw ? sw[i] : 1) * xb[i];
+  return out;
+}
+
+/**
+ * Residual sum of squares Σ w e² of a (weighted) least-squares fit, and its rank; used by the
+ * nested-model F tests. Aliased columns are dropped, as in a fit with pivoting.
+ */
+export function residualSumOfSquares(input: LeastSquaresInput): { rss: number; rank: number } {
+  const { x, n, p, y } = input;
+  const xw = new Float64Array(x);
+  const z = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    const s = input.weights ? Math.sqrt(input.weights[i]) : 1;
+    z[i] = (y[i] - (input.offset ? input.offset[i] : 0)) * s;
+    if (input.weights) for (let j = 0; j < p; j++) xw[j * n + i] *= s;
+  }
+  const f = householderQR(xw, n, p, { inPlace: true });
+  applyQt(f, z);
+  let rss = 0;
+  for (let i = f.rank; i < n; i++) rss += z[i] * z[i];
+  return { rss, rank: f.rank };
+}

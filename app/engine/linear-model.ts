@@ -1,0 +1,336 @@
+/**
+ * The linear model rerun: complete-case data, design, (weighted) least squares, inference,
+ * observation-level diagnostics, tests of assumptions, variance inflation and adjusted means.
+ */
+import { adjustedMeans, type AdjustedMean, type Contrast, type MeansWeighting } from "./adjusted-means";
+import { buildDesign, prepareData, type Design, type PreparedData, type Variable } from "./design";
+import { observationDiagnostics, robustCovariances, type ObservationDiagnostics } from "./diagnostics";
+import { fUpper, tQuantile, tTwoSided } from "./distributions";
+import { EngineError } from "./errors";
+import { leastSquares, type LeastSquaresFit } from "./least-squares";
+import type { ModelSpec } from "./model-spec";
+import { andersonDarling, lilliefors, shapiroWilk, type AndersonDarlingTest, type NormalityTest } from "./normality";
+import { readQqShape, type QqShape } from "./qq-shape";
+import { homogeneityOfSlopes, resetTest, type HomogeneityOfSlopes } from "./specification-tests";
+import { breuschPagan, brownForsythe, type BreuschPaganTest, type FTest } from "./spread";
+import { ENGINE_VERSION, RESULTS_CAUTION } from "./version";
+import { varianceInflation, type VifRow } from "./vif";
+import type { DataTable } from "./data";
+
+export type CovarianceType = "model" | "HC0" | "HC1" | "HC2" | "HC3";
+
+/** What produced a result: the planned fit or one of the remedies. */
+export interface FitMethod {
+  readonly kind: "planned" | "weighted" | "estimated-variance" | "robust";
+  /** A short description in plain words. */
+  readonly description: string;
+}
+
+export interface FitOptions {
+  /** How adjusted means average over other categorical factors (default equal). */
+  readonly meansWeighting?: MeansWeighting;
+  /** Standard errors of the coefficient table: model-based (default) or a robust type. */
+  readonly covariance?: CovarianceType;
+  /** Weights over the rows used, replacing the prior weights (remedies). */
+  readonly weightsOverride?: Float64Array;
+  readonly method?: FitMethod;
+}
+
+export interface CoefficientRow {
+  readonly name: string;
+  /** Label of the term the coefficient belongs to (null for the intercept). */
+  readonly term: string | null;
+  readonly estimate: number;
+  readonly se: number;
+  readonly statistic: number;
+  readonly p: number;
+  readonly lower: number;
+  readonly upper: number;
+}
+
+export interface FitSummary {
+  readonly sigma: number;
+  readonly rSquared: number;
+  readonly adjRSquared: number;
+  readonly fStatistic: number | null;
+  readonly fDf1: number;
+  readonly fDf2: number;
+  readonly fP: number | null;
+  /** Σ w e². */
+  readonly rss: number;
+  readonly logLikelihood: number;
+  readonly aic: number;
+}
+
+/** Observation-level values, one array entry per used row (NaN where undefined, e.g. leverage one). */
+export interface ObservationColumns {
+  /** 1-based data row in the source (header excluded). */
+  readonly row: number[];
+  readonly id: (string | null)[];
+  readonly response: number[];
+  /** Weights used in the fit (null when unweighted). */
+  readonly weight: number[] | null;
+  readonly fitted: number[];
+  /** e = y − ŷ. */
+  readonly residual: number[];
+  /** √w·e (equal to the residual when unweighted). */
+  readonly scaledResidual: number[];
+  readonly leverage: number[];
+  readonly studentizedInternal: number[];
+  readonly studentizedExternal: number[];
+  readonly cooksDistance: number[];
+  readonly dffits: number[];
+  /** DFBETAS, one array per coefficient (coefficient order). */
+  readonly dfbetas: number[][];
+  /** Component-plus-residual values per term. */
+  readonly partialResiduals: { readonly term: string; readonly values: number[] }[];
+}
+
+export interface VariableSummary {
+  readonly name: string;
+  readonly kind: "continuous" | "categorical";
+  readonly mean?: number;
+  readonly levels?: readonly string[];
+  readonly reference?: string;
+  readonly counts?: readonly number[];
+}
+
+export interface AssumptionTests {
+  readonly shapiroWilk: NormalityTest;
+  readonly andersonDarling: AndersonDarlingTest;
+  readonly lilliefors: NormalityTest;
+  readonly breuschPagan: BreuschPaganTest;
+  readonly reset: FTest;
+  readonly homogeneityOfSlopes?: HomogeneityOfSlopes;
+  readonly brownForsythe?: FTest;
+}
+
+/** The full result of a linear-model rerun (the headless command prints a projection of it). */
+export interface LinearModelResult {
+  readonly kind: "linear";
+  readonly engineVersion: string;
+  readonly caution: string;
+  readonly method: FitMethod;
+  readonly spec: ModelSpec;
+  readonly family: "gaussian";
+  readonly link: "identity";
+  readonly n: number;
+  readonly excluded: number;
+  readonly excludedRows: number[];
+  readonly rank: number;
+  readonly dfResidual: number;
+  readonly variables: VariableSummary[];
+  readonly terms: { readonly label: string; readonly kind: string; readonly coefficients: string[] }[];
+  readonly coefficients: CoefficientRow[];
+  /** Covariance of the coefficient table's estimates (model-based unless a robust type was asked). */
+  readonly covariance: number[][];
+  readonly covarianceType: CovarianceType;
+  readonly modelSE: number[];
+  readonly robustSE: { readonly HC0: number[]; readonly HC1: number[]; readonly HC2: number[]; readonly HC3: number[] };
+  readonly fit: FitSummary;
+  readonly observations: ObservationColumns;
+  readonly tests: AssumptionTests;
+  readonly vif: VifRow[];
+  readonly qqShape: QqShape;
+  readonly adjustedMeans: AdjustedMean[] | null;
+  readonly contrasts: Contrast[] | null;
+  readonly adjustedMeansWeighting: MeansWeighting | null;
+}
+
+/** What the tests and adjusted means read from a fitted model. */
+export interface LinearFitContext {
+  readonly spec: ModelSpec;
+  readonly data: PreparedData;
+  readonly design: Design;
+  readonly fit: LeastSquaresFit;
+  /** Weights used in the fit, or null. */
+  readonly weights: Float64Array | null;
+}
+
+function toMatrix(m: Float64Array, p: number): number[][] {
+  return Array.from({ length: p }, (_, i) => Array.from({ length: p }, (_, j) => m[j * p + i]));
+}
+
+function diagonalRoots(m: Float64Array, p: number): number[] {
+  return Array.from({ length: p }, (_, j) => Math.sqrt(m[j * p + j]));
+}
+
+function summarizeVariable(v: Variable): VariableSummary {
+  return v.kind === "continuous"
+    ? { name: v.name, kind: v.kind, mean: v.mean }
+    : { name: v.name, kind: v.kind, levels: v.levels, reference: v.reference, counts: v.counts };
+}
+
+/** Checks run before the fit: enough rows, a response that varies. */
+function checkEstimable(spec: ModelSpec, data: PreparedData, design: Design): void {
+  const n = design.n;
+  if (n <= design.p) {
+    throw new EngineError(
+      `${n} usable rows for ${design.p} coefficients: the model needs more usable rows than coefficients (${data.excludedRows.length} rows left out for missing cells)`,
+    );
+  }
+  const y = data.response;
+  let constant = true;
+  for (let i = 1; i < n; i++) if (y[i] !== y[0]) constant = false;
+  if (constant) throw new EngineError(`response "${spec.response}" is constant (every used row is ${y[0]}); there is nothing to model`);
+}
+
+/** Fits the linear model the specification describes (gaussian family, identity link). */
+export function fitLinearModel(spec: ModelSpec, table: DataTable, options: FitOptions = {}): LinearModelResult {
+  if (spec.family !== "gaussian") throw new EngineError(`family "${spec.family}" is not a linear model`);
+  if (spec.link !== undefined && spec.link !== "identity") {
+    throw new EngineError(`link "${spec.link}" is not available for the gaussian family; use "identity"`);
+  }
+  const data = prepareData(spec, table);
+  const design = buildDesign(spec, data);
+  checkEstimable(spec, data, design);
+  const weights = options.weightsOverride ?? data.weights;
+  const outcome = leastSquares({ x: design.x, n: design.n, p: design.p, y: data.response, weights, offset: data.offset });
+  if (!outcome.ok) {
+    const names = outcome.aliased.map((j) => `"${design.names[j]}"`).join(", ");
+    throw new EngineError(
+      `the design's columns are aliased: ${names} cannot be estimated apart from earlier columns; a planned model must be estimable as written`,
+    );
+  }
+  const fit = outcome.fit;
+  const ctx: LinearFitContext = { spec, data, design, fit, weights };
+  const diag = observationDiagnostics(fit);
+  return assembleResult(ctx, diag, options);
+}
+
+function assembleResult(ctx: LinearFitContext, diag: ObservationDiagnostics, options: FitOptions): LinearModelResult {
+  const { spec, data, design, fit, weights } = ctx;
+  const { n, p } = design;
+  const df = fit.dfResidual;
+  const sigma2 = fit.sigma * fit.sigma;
+  const modelCov = fit.unscaledCovariance.map((v) => v * sigma2);
+  const robust = robustCovariances(fit, diag.leverage);
+  const covarianceType = options.covariance ?? "model";
+  const cov = covarianceType === "model" ? modelCov : robust[covarianceType];
+  const q = tQuantile(0.975, df);
+  const termOf = new Map<number, string>();
+  for (const t of design.terms) for (const c of t.columns) termOf.set(c, t.label);
+  const coefficients: CoefficientRow[] = design.names.map((name, j) => {
+    const estimate = fit.coefficients[j];
+    const se = Math.sqrt(cov[j * p + j]);
+    const statistic = estimate / se;
+    return { name, term: termOf.get(j) ?? null, estimate, se, statistic, p: tTwoSided(statistic, df), lower: estimate - q * se, upper: estimate + q * se };
+  });
+
+  // R², F (weighted sums of squares of the fitted linear predictor, as is usual for weighted fits)
+  const w = weights;
+  let sw = 0;
+  let swf = 0;
+  const eta = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    eta[i] = fit.fitted[i] - (data.offset ? data.offset[i] : 0);
+    const wi = w ? w[i] : 1;
+    sw += wi;
+    swf += wi * eta[i];
+  }
+  const center = design.intercept ? swf / sw : 0;
+  let mss = 0;
+  for (let i = 0; i < n; i++) mss += (w ? w[i] : 1) * (eta[i] - center) ** 2;
+  const rss = fit.rss;
+  const dfInt = design.intercept ? 1 : 0;
+  const rSquared = mss / (mss + rss);
+  const adjRSquared = 1 - ((1 - rSquared) * (n - dfInt)) / df;
+  const fDf1 = p - dfInt;
+  const fStatistic = fDf1 > 0 ? mss / fDf1 / sigma2 : null;
+  let sumLogW = 0;
+  if (w) for (let i = 0; i < n; i++) sumLogW += Math.log(w[i]);
+  const logLikelihood = 0.5 * (sumLogW - n * (Math.log(2 * Math.PI) + 1 - Math.log(n) + Math.log(rss)));
+
+  const scaled = fit.weightedResiduals;
+  const tests: AssumptionTests = {
+    shapiroWilk: shapiroWilk(scaled),
+    andersonDarling: andersonDarling(scaled),
+    lilliefors: lilliefors(scaled),
+    breuschPagan: breuschPagan(scaled, design.x, n, p),
+    reset: resetTest(ctx),
+  };
+  const hos = homogeneityOfSlopes(ctx);
+  const treatment = spec.treatment ? data.variables.get(spec.treatment) : undefined;
+  const fullTests: AssumptionTests =
+    treatment && treatment.kind === "categorical"
+      ? {
+          ...tests,
+          ...(hos ? { homogeneityOfSlopes: hos } : {}),
+          brownForsythe: brownForsythe(scaled, treatment.codes, treatment.levels.length),
+        }
+      : tests;
+  const means = adjustedMeans(ctx, cov, robust.HC3, options.meansWeighting ?? "equal");
+
+  const partialResiduals = design.terms.map((t) => {
+    const values = new Float64Array(n);
+    for (const c of t.columns) {
+      const b = fit.coefficients[c];
+      for (let i = 0; i < n; i++) values[i] += b * design.x[c * n + i];
+    }
+    let mean = 0;
+    for (let i = 0; i < n; i++) mean += values[i];
+    mean /= n;
+    return { term: t.label, values: Array.from(values, (v, i) => v - mean + fit.residuals[i]) };
+  });
+
+  return {
+    kind: "linear",
+    engineVersion: ENGINE_VERSION,
+    caution: RESULTS_CAUTION,
+    method: options.method ?? { kind: "planned", description: "planned model, least squares" + (data.weights ? " with prior weights" : "") },
+    spec,
+    family: "gaussian",
+    link: "identity",
+    n,
+    excluded: data.excludedRows.length,
+    excludedRows: [...data.excludedRows],
+    rank: p,
+    dfResidual: df,
+    variables: [...data.variables.values()].map(summarizeVariable),
+    terms: design.terms.map((t) => ({ label: t.label, kind: t.kind, coefficients: t.columns.map((c) => design.names[c]) })),
+    coefficients,
+    covariance: toMatrix(cov, p),
+    covarianceType,
+    modelSE: diagonalRoots(modelCov, p),
+    robustSE: {
+      HC0: diagonalRoots(robust.HC0, p),
+      HC1: diagonalRoots(robust.HC1, p),
+      HC2: diagonalRoots(robust.HC2, p),
+      HC3: diagonalRoots(robust.HC3, p),
+    },
+    fit: {
+      sigma: fit.sigma,
+      rSquared,
+      adjRSquared,
+      fStatistic,
+      fDf1,
+      fDf2: df,
+      fP: fStatistic === null ? null : fUpper(fStatistic, fDf1, df),
+      rss,
+      logLikelihood,
+      aic: -2 * logLikelihood + 2 * (p + 1),
+    },
+    observations: {
+      row: Array.from(data.used, (i) => data.rowNumbers[i]),
+      id: [...data.ids],
+      response: Array.from(data.response),
+      weight: w ? Array.from(w) : null,
+      fitted: Array.from(fit.fitted),
+      residual: Array.from(fit.residuals),
+      scaledResidual: Array.from(scaled),
+      leverage: Array.from(diag.leverage),
+      studentizedInternal: Array.from(diag.studentizedInternal),
+      studentizedExternal: Array.from(diag.studentizedExternal),
+      cooksDistance: Array.from(diag.cooksDistance),
+      dffits: Array.from(diag.dffits),
+      dfbetas: diag.dfbetas.map((c) => Array.from(c)),
+      partialResiduals,
+    },
+    tests: fullTests,
+    vif: varianceInflation(design, fit.unscaledCovariance),
+    qqShape: readQqShape(diag.studentizedInternal),
+    adjustedMeans: means ? [...means.means] : null,
+    contrasts: means ? [...means.contrasts] : null,
+    adjustedMeansWeighting: means ? means.weighting : null,
+  };
+}
