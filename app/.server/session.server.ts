@@ -8,7 +8,7 @@ import { randomBytes } from "node:crypto";
 import { eq, lt } from "drizzle-orm";
 import { createCookie, redirect } from "react-router";
 import { config, servedOverHttps } from "./config.server";
-import { db, isoNow, t } from "./db/index.server";
+import { db, isoNow, t, writeTransaction } from "./db/index.server";
 
 export const IDLE_TIMEOUT_MS = 30 * 60 * 1000;
 export const ABSOLUTE_TIMEOUT_MS = 12 * 60 * 60 * 1000;
@@ -59,20 +59,22 @@ export async function startSession(
   saml?: { nameId?: string; sessionIndex?: string },
 ): Promise<string> {
   const previous = await readSessionId(request);
-  if (previous) await db.delete(t.sessions).where(eq(t.sessions.id, previous));
   const id = randomBytes(32).toString("base64url");
   const at = new Date();
   const data: SessionData = { signedInAt: at.toISOString(), ...saml };
-  await db.insert(t.sessions).values({
-    id,
-    personId,
-    dataJson: JSON.stringify(data),
-    createdAt: at.toISOString(),
-    lastSeenAt: at.toISOString(),
-    expiresAt: new Date(at.getTime() + ABSOLUTE_TIMEOUT_MS).toISOString(),
+  await writeTransaction(async (tx) => {
+    if (previous) await tx.delete(t.sessions).where(eq(t.sessions.id, previous));
+    await tx.insert(t.sessions).values({
+      id,
+      personId,
+      dataJson: JSON.stringify(data),
+      createdAt: at.toISOString(),
+      lastSeenAt: at.toISOString(),
+      expiresAt: new Date(at.getTime() + ABSOLUTE_TIMEOUT_MS).toISOString(),
+    });
+    // Housekeeping: sessions past their absolute limit are of no use to anyone.
+    await tx.delete(t.sessions).where(lt(t.sessions.expiresAt, at.toISOString()));
   });
-  // Housekeeping: sessions past their absolute limit are of no use to anyone.
-  await db.delete(t.sessions).where(lt(t.sessions.expiresAt, at.toISOString()));
   return sessionCookie.serialize(id, { maxAge: ABSOLUTE_TIMEOUT_MS / 1000 });
 }
 
@@ -90,11 +92,11 @@ export async function getCurrentUser(request: Request): Promise<CurrentUser | nu
   const now = Date.now();
   const idleFor = now - Date.parse(row.session.lastSeenAt);
   if (idleFor > IDLE_TIMEOUT_MS || now > Date.parse(row.session.expiresAt)) {
-    await db.delete(t.sessions).where(eq(t.sessions.id, id));
+    await writeTransaction((tx) => tx.delete(t.sessions).where(eq(t.sessions.id, id)));
     return null;
   }
   if (idleFor > TOUCH_AFTER_MS) {
-    await db.update(t.sessions).set({ lastSeenAt: isoNow() }).where(eq(t.sessions.id, id));
+    await writeTransaction((tx) => tx.update(t.sessions).set({ lastSeenAt: isoNow() }).where(eq(t.sessions.id, id)));
   }
   const data = JSON.parse(row.session.dataJson) as SessionData;
   return {
@@ -123,7 +125,7 @@ export async function requireUser(request: Request): Promise<CurrentUser> {
 /** Ends the browser's session; returns the Set-Cookie header value that clears the cookie. */
 export async function endSession(request: Request): Promise<string> {
   const id = await readSessionId(request);
-  if (id) await db.delete(t.sessions).where(eq(t.sessions.id, id));
+  if (id) await writeTransaction((tx) => tx.delete(t.sessions).where(eq(t.sessions.id, id)));
   return sessionCookie.serialize("", { maxAge: 0 });
 }
 

@@ -23,9 +23,8 @@ function localFilePath(url: string): string | null {
 export async function openDatabase(url: string, authToken?: string): Promise<{ client: Client; db: Database }> {
   const file = localFilePath(url);
   if (file) mkdirSync(path.dirname(path.resolve(file)), { recursive: true });
-  // The client keeps a small pool of connections: the busy timeout must be a client option so
-  // every pooled connection gets it (a PRAGMA would reach only one of them). WAL mode is a
-  // property of the database file and holds for every connection once set.
+  // The busy timeout must be a client option so every pooled connection gets it (a PRAGMA
+  // would reach only one of them). WAL mode is a property of the file: readers never wait.
   const client = createClient({ url, authToken, timeout: 10_000 });
   if (file) await client.execute("PRAGMA journal_mode = WAL");
   const db = drizzle(client, { schema });

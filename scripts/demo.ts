@@ -1,0 +1,70 @@
+/**
+ * `npm run demo`: starts Plumbline with its demo study on this machine, with the embedded
+ * SQLite database and the local fake identity provider, and prints where to go and who to be.
+ * Stop it with Ctrl-C.
+ */
+import { mkdirSync } from "node:fs";
+import path from "node:path";
+import { startSamlIdp } from "../idp-fake/saml/launch";
+import { startAppServer } from "./lib/app-server";
+
+const APP_PORT = Number(process.env.PORT ?? 5180);
+const IDP_PORT = Number(process.env.SAML_IDP_PORT ?? 7000);
+const APP_URL = process.env.APP_URL ?? `http://localhost:${APP_PORT}`;
+const DATA_DIR = path.resolve(process.env.DATA_DIR ?? "data");
+const SP_ISSUER = process.env.SAML_SP_ISSUER ?? "urn:plumbline:sp";
+const IDP_ISSUER = process.env.SAML_IDP_ISSUER ?? "urn:plumbline:idp-fake";
+
+mkdirSync(DATA_DIR, { recursive: true });
+
+const idp = await startSamlIdp({
+  port: IDP_PORT,
+  acsUrl: `${APP_URL}/auth/saml/acs`,
+  sloUrl: `${APP_URL}/auth/saml/logout`,
+  audience: SP_ISSUER,
+  issuer: IDP_ISSUER,
+  stateDir: path.join(DATA_DIR, "idp"),
+});
+
+const env: Record<string, string> = {
+  APP_URL,
+  DATA_DIR,
+  DATABASE_URL: process.env.DATABASE_URL ?? `file:${path.join(DATA_DIR, "plumbline.db")}`,
+  SAML_IDP_SSO_URL: idp.ssoUrl,
+  SAML_IDP_SLO_URL: idp.sloUrl,
+  SAML_IDP_ISSUER: IDP_ISSUER,
+  SAML_IDP_CERT_FILE: idp.certFile,
+  SAML_SP_ISSUER: SP_ISSUER,
+};
+Object.assign(process.env, env);
+
+// The seed imports the database module, which reads the settings above when it loads.
+const { seedDemoStudy, readDemoPeople } = await import("../app/.server/demo/seed.server");
+const outcome = await seedDemoStudy();
+
+const app = await startAppServer({ port: APP_PORT, host: "127.0.0.1", env, output: "inherit" });
+
+const people = readDemoPeople();
+console.log(`
+Plumbline is running at ${APP_URL}
+  Demo study: ${outcome.seeded ? "seeded" : `kept as it was (${outcome.reason})`}
+  Database:   ${env.DATABASE_URL}
+  Sign-in:    the fake identity provider at ${idp.baseUrl} lets you choose a demo person:
+${people.map((p) => `    ${p.displayName.padEnd(18)} ${(p.studyRole ?? "administrator").padEnd(16)} ${p.email}`).join("\n")}
+Press Ctrl-C to stop.`);
+
+let stopping = false;
+async function stop(): Promise<void> {
+  if (stopping) return;
+  stopping = true;
+  await Promise.allSettled([app.stop(), idp.stop()]);
+  process.exit(0);
+}
+process.on("SIGINT", () => void stop());
+process.on("SIGTERM", () => void stop());
+app.process.on("exit", (code) => {
+  if (!stopping) {
+    console.error(`The Plumbline server stopped unexpectedly (exit code ${code}).`);
+    void stop();
+  }
+});

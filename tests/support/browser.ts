@@ -1,0 +1,42 @@
+/**
+ * Debian's chromium driven by playwright-core (never a downloaded browser build), with the
+ * flags this closed network needs so Chromium does not try to reach outside services.
+ */
+import { mkdirSync } from "node:fs";
+import path from "node:path";
+import { chromium, type Browser, type Page } from "playwright-core";
+
+export const CHROMIUM = process.env.CHROMIUM_PATH ?? "/usr/bin/chromium";
+
+export function launchBrowser(): Promise<Browser> {
+  return chromium.launch({
+    executablePath: CHROMIUM,
+    headless: true,
+    args: [
+      "--no-sandbox",
+      "--disable-gpu",
+      "--disable-quic",
+      "--no-first-run",
+      "--disable-background-networking",
+      "--disable-component-update",
+      "--disable-sync",
+    ],
+  });
+}
+
+/** Screenshots land in test-results/screenshots (ignored by git) for people to look at. */
+export async function screenshot(page: Page, name: string): Promise<string> {
+  const dir = path.resolve("test-results/screenshots");
+  mkdirSync(dir, { recursive: true });
+  const file = path.join(dir, `${name}.png`);
+  await page.screenshot({ path: file, fullPage: true });
+  return file;
+}
+
+/** Signs in through the real SAML round trip: our sign-in page, the fake IdP's picker, back. */
+export async function signInAs(page: Page, appUrl: string, displayName: string): Promise<void> {
+  await page.goto(`${appUrl}/sign-in`);
+  await page.getByRole("button", { name: /sign in with single sign-on/i }).click();
+  await page.getByRole("button", { name: `Sign in as ${displayName}` }).click();
+  await page.waitForURL((url) => url.origin === new URL(appUrl).origin && url.pathname === "/", { timeout: 20_000 });
+}
