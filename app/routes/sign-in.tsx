@@ -50,7 +50,6 @@ const SIGNED_OUT: Record<"app" | "idp" | "partial", string> = {
 
 export default function SignIn({ loaderData }: Route.ComponentProps) {
   const { error, idp, returnTo, signedOut } = loaderData;
-  const loginHref = `/auth/saml/login?returnTo=${encodeURIComponent(returnTo)}`;
   return (
     <div className="flex min-h-screen flex-col">
       <main className="mx-auto flex w-full max-w-lg flex-1 flex-col justify-center gap-6 px-6 py-12">
@@ -86,9 +85,13 @@ export default function SignIn({ loaderData }: Route.ComponentProps) {
         <div className="panel space-y-3 px-4 py-4">
           <p className="text-sm">Staff of the study team sign in with their organisation's account.</p>
           <div className="flex flex-wrap items-center gap-3">
-            <a href={loginHref} className="btn no-underline hover:no-underline">
-              Sign in with single sign-on
-            </a>
+            {/* A plain form (a full page load): the next stop is the identity provider's own page. */}
+            <form method="get" action="/auth/saml/login">
+              <input type="hidden" name="returnTo" value={returnTo} />
+              <button type="submit" className="btn">
+                Sign in with single sign-on
+              </button>
+            </form>
             {!idp.answering ? (
               <a href={`/sign-in${returnTo === "/" ? "" : `?returnTo=${encodeURIComponent(returnTo)}`}`} className="btn-quiet no-underline hover:no-underline">
                 Check again

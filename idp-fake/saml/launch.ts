@@ -139,8 +139,10 @@ function passThrough(req: http.IncomingMessage, res: http.ServerResponse, upstre
 async function authnRequestField(upstreamPort: number, search: string): Promise<{ field: string | null; html: string; status: number }> {
   const res = await fetch(`http://127.0.0.1:${upstreamPort}/saml/sso${search}`);
   const html = await res.text();
-  const match = /name="_authnRequest"\s+type='hidden'\s+value='([A-Za-z0-9+/=]+)'/.exec(html);
-  return { field: match ? match[1] : null, html, status: res.status };
+  // The template HTML-escapes the value (base64 "=" arrives as "&#x3D;").
+  const match = /name="_authnRequest"\s+type='hidden'\s+value='([^']+)'/.exec(html);
+  const field = match ? match[1].replace(/&#x([0-9a-f]+);/gi, (_m, h: string) => String.fromCharCode(parseInt(h, 16))) : null;
+  return { field: field && /^[A-Za-z0-9+/]+=*$/.test(field) ? field : null, html, status: res.status };
 }
 
 export async function startSamlIdp(opts: SamlIdpOptions): Promise<RunningSamlIdp> {
