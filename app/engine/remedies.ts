@@ -5,13 +5,24 @@
  * residual variance per treatment arm; Carroll and Ruppert 1988, Transformation and Weighting in
  * Regression, chapter 3), and heteroscedasticity-consistent standard errors.
  */
-import type { DataTable } from "./data";
+import { toDataTable, type DataTable, type TableInput } from "./data";
 import { EngineError } from "./errors";
 import { fitLinearModel, type CovarianceType, type FitOptions, type LinearModelResult } from "./linear-model";
-import type { ModelSpec } from "./model-spec";
+import { parseModelSpec, type ModelSpec, type ModelSpecInput } from "./model-spec";
+
+function inputs(spec: ModelSpec | ModelSpecInput, table: TableInput | DataTable): { spec: ModelSpec; table: DataTable } {
+  const t = "nRows" in table && "names" in table ? (table as DataTable) : toDataTable(table as TableInput);
+  return { spec: parseModelSpec(spec), table: t };
+}
 
 /** The planned model refitted with prior weights from a column. */
-export function fitWithWeightsColumn(spec: ModelSpec, table: DataTable, column: string, options: FitOptions = {}): LinearModelResult {
+export function fitWithWeightsColumn(
+  specInput: ModelSpec | ModelSpecInput,
+  tableInput: TableInput | DataTable,
+  column: string,
+  options: FitOptions = {},
+): LinearModelResult {
+  const { spec, table } = inputs(specInput, tableInput);
   return fitLinearModel({ ...spec, weights: column }, table, {
     ...options,
     method: { kind: "weighted", description: `weighted least squares with weights from column "${column}"` },
@@ -26,11 +37,12 @@ export type VarianceModel = "fitted" | "treatment";
  * weights are scaled to mean one.
  */
 export function fitWithEstimatedVariance(
-  spec: ModelSpec,
-  table: DataTable,
+  specInput: ModelSpec | ModelSpecInput,
+  tableInput: TableInput | DataTable,
   model: VarianceModel,
   options: FitOptions = {},
 ): LinearModelResult {
+  const { spec, table } = inputs(specInput, tableInput);
   const planned = fitLinearModel(spec, table, options);
   const obs = planned.observations;
   const n = planned.n;
@@ -94,11 +106,12 @@ function rowIndex(table: DataTable, rowNumber: number): number {
 
 /** The planned model with heteroscedasticity-consistent standard errors in its coefficient table. */
 export function fitWithRobustErrors(
-  spec: ModelSpec,
-  table: DataTable,
+  specInput: ModelSpec | ModelSpecInput,
+  tableInput: TableInput | DataTable,
   type: Exclude<CovarianceType, "model"> = "HC3",
   options: FitOptions = {},
 ): LinearModelResult {
+  const { spec, table } = inputs(specInput, tableInput);
   return fitLinearModel(spec, table, {
     ...options,
     covariance: type,

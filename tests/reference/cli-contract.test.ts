@@ -1,0 +1,87 @@
+// The headless rerun command as a subprocess: one JSON object on stdout and exit 0, or exit 2
+// with one "error:" line on stderr. Values are checked against R (committed reference values).
+import { execFile } from "node:child_process";
+import { mkdtempSync, readFileSync, writeFileSync } from "node:fs";
+import { tmpdir } from "node:os";
+import { join } from "node:path";
+import { describe, expect, it } from "vitest";
+import { expectAllClose, expectClose } from "./compare";
+
+const ROOT = join(import.meta.dirname, "..", "..");
+const REF = join(ROOT, "tests", "reference");
+const TSX = join(ROOT, "node_modules", ".bin", "tsx");
+
+function runCli(args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
+  return new Promise((resolve) => {
+    execFile(TSX, [join(ROOT, "app", "cli.ts"), ...args], { cwd: ROOT }, (err, stdout, stderr) => {
+      const code = err ? (typeof err.code === "number" ? err.code : 1) : 0;
+      resolve({ code, stdout, stderr });
+    });
+  });
+}
+
+const scratch = mkdtempSync(join(tmpdir(), "plumbline-cli-"));
+function file(name: string, text: string): string {
+  const path = join(scratch, name);
+  writeFileSync(path, text);
+  return path;
+}
+
+const KEYS = ["n", "excluded", "rank", "dfResidual", "coefficients", "robustSE", "fit", "observations", "tests", "vif"];
+
+describe("headless rerun command", () => {
+  it("answers the contract on reference cases (R values, relative 1e-8 / p 1e-6)", async () => {
+    const cases = ["trial-ancova", "warpbreaks-interaction", "mtcars-missing"];
+    const runs = await Promise.all(
+      cases.map((c) => runCli(["fit", "--data", join(REF, "data", `${c}.csv`), "--model", join(REF, "models", `${c}.json`)])),
+    );
+    runs.forEach((run, k) => {
+      expect(run.code, run.stderr).toBe(0);
+      expect(run.stdout.trim().split("\n").length).toBe(1);
+      const out = JSON.parse(run.stdout);
+      const ref = JSON.parse(readFileSync(join(REF, "values", `${cases[k]}.json`), "utf8"));
+      for (const key of KEYS) expect(out, key).toHaveProperty(key);
+      for (const key of ["adjustedMeans", "contrasts"]) expect(out, key).toHaveProperty(key);
+      expect(out.tests).toHaveProperty("brownForsythe");
+      expect(Object.keys(out.coefficients[0])).toEqual(["name", "estimate", "se", "statistic", "p", "lower", "upper"]);
+      expect(Object.keys(out.observations[0])).toEqual([
+        "row", "id", "fitted", "residual", "leverage", "studentizedInternal", "studentizedExternal", "cooksDistance", "dffits", "dfbetas",
+      ]);
+      expect(out.n).toBe(ref.n);
+      expect(out.excluded).toBe(ref.excluded);
+      expect(out.observations.map((o: { row: number }) => o.row)).toEqual(ref.observations.row);
+      ref.coefficients.forEach((c: { estimate: number; p: number }, j: number) => {
+        expectClose(out.coefficients[j].estimate, c.estimate, 1e-8, `${cases[k]} estimate ${j}`);
+        expectClose(out.coefficients[j].p, c.p, 1e-6, `${cases[k]} p ${j}`);
+      });
+      expectAllClose(out.observations.map((o: { cooksDistance: number }) => o.cooksDistance), ref.observations.cooksDistance, 1e-8, "Cook's distance");
+      expectAllClose(out.robustSE.HC3, ref.robustSE.HC3, 1e-8, "HC3");
+      expectClose(out.tests.shapiroWilk.p, ref.tests.shapiroWilk.p, 1e-6, "Shapiro–Wilk p");
+    });
+  });
+
+  it("exits 2 with one error line on bad input", async () => {
+    const goodModel = file("model.json", JSON.stringify({ response: "y", terms: [{ variable: "x" }, { variable: "arm", reference: "A" }] }));
+    const goodData = "y,x,arm\n1.2,1,A\n2.3,2,B\n2.9,3,A\n4.4,4,B\n5.1,5,A\n";
+    const cases: { data: string; model?: string; expect: RegExp }[] = [
+      { data: "", expect: /^error: the data file is empty$/ },
+      { data: "y,x,arm\n1,2,A\n3,4\n", expect: /^error: data row 2 has 2 fields/ },
+      { data: "y,z,arm\n1,2,A\n3,4,B\n", expect: /^error: column "x" is missing from the data$/ },
+      { data: goodData.replace("2.9", "n/a"), expect: /^error: response column "y" is not numeric: data row 3 has "n\/a"$/ },
+      { data: goodData, model: JSON.stringify({ response: "y", terms: [{ variable: "arm", reference: "Placebo" }] }), expect: /levels: A, B$/ },
+      { data: goodData, model: "{ not json", expect: /^error: the model file is not valid JSON/ },
+    ];
+    const runs = await Promise.all(
+      cases.map((c, i) =>
+        runCli(["fit", "--data", file(`d${i}.csv`, c.data), "--model", c.model ? file(`m${i}.json`, c.model) : goodModel]),
+      ),
+    );
+    runs.forEach((run, i) => {
+      expect(run.code, run.stderr).toBe(2);
+      expect(run.stdout).toBe("");
+      const lines = run.stderr.trim().split("\n");
+      expect(lines.length).toBe(1);
+      expect(lines[0]).toMatch(cases[i].expect);
+    });
+  });
+});
