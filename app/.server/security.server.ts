@@ -62,7 +62,10 @@ export const securityMiddleware: MiddlewareFunction<Response> = async ({ request
     }
     const length = Number(request.headers.get("Content-Length") ?? "0");
     if (length > config.MAX_BODY_BYTES && !LARGE_BODY_PREFIXES.some((r) => r.test(path))) {
-      return plain(413, `The request body is ${length} bytes; the limit is ${config.MAX_BODY_BYTES} bytes.`);
+      const refusal = plain(413, `The request body is ${length} bytes; the limit is ${config.MAX_BODY_BYTES} bytes.`);
+      // The unread body is still on the wire: close the connection rather than reuse it.
+      refusal.headers.set("Connection", "close");
+      return refusal;
     }
   }
   const response = await next();

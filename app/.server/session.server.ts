@@ -117,8 +117,10 @@ export async function getCurrentUser(request: Request): Promise<CurrentUser | nu
 export async function requireUser(request: Request): Promise<CurrentUser> {
   const user = await getCurrentUser(request);
   if (user) return user;
+  // Client-side data requests arrive as `/path.data?_routes=…`: return to the page itself.
   const url = new URL(request.url);
-  const returnTo = url.pathname + url.search;
+  url.searchParams.delete("_routes");
+  const returnTo = url.pathname.replace(/\.data$/, "").replace(/^\/_root$/, "/") + url.search;
   throw redirect(`/sign-in?returnTo=${encodeURIComponent(returnTo)}`);
 }
 

@@ -37,10 +37,23 @@ export async function loader({ request }: Route.LoaderArgs) {
   };
 }
 
+/** `key: value` pairs of a recorded JSON object, each value cut to a readable length. */
+function pairs(json: string | null): string {
+  if (!json) return "∅";
+  const value: unknown = JSON.parse(json);
+  if (!value || typeof value !== "object" || Array.isArray(value)) return json;
+  return Object.entries(value)
+    .map(([k, v]) => {
+      const text = typeof v === "string" ? v : JSON.stringify(v);
+      return `${k}: ${text.length > 60 ? `${text.slice(0, 57)}…` : text}`;
+    })
+    .join("; ");
+}
+
 function change(before: string | null, after: string | null): string {
   if (!before && !after) return "";
-  if (!before) return `→ ${after}`;
-  return `${before} → ${after ?? "∅"}`;
+  if (!before) return pairs(after);
+  return `${pairs(before)} → ${pairs(after)}`;
 }
 
 export default function AuditTrail({ loaderData }: Route.ComponentProps) {

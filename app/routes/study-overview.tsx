@@ -37,7 +37,8 @@ export default function StudyOverview({ loaderData }: Route.ComponentProps) {
   ];
   return (
     <>
-      <PageHeader eyebrow={study.code} title={study.title} />
+      <PageHeader eyebrow="Study overview" title={study.code} />
+      <p className="-mt-2 mb-6 max-w-4xl text-base text-ink-soft">{study.title}</p>
       <div className="grid gap-6 lg:grid-cols-[1fr_20rem]">
         <section className="space-y-4">
           {duty ? (

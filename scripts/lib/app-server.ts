@@ -24,7 +24,9 @@ export async function startAppServer(opts: {
   output?: "inherit" | "pipe";
 }): Promise<RunningApp> {
   const root = opts.root ?? process.cwd();
-  const serveBin = require.resolve("@react-router/serve/bin.js", { paths: [root] });
+  // The package exports no subpaths, so find its bin script beside its package.json.
+  const servePackage = require.resolve("@react-router/serve/package.json", { paths: [root] });
+  const serveBin = path.join(path.dirname(servePackage), "bin.js");
   const host = opts.host ?? "127.0.0.1";
   const child = spawn(process.execPath, [serveBin, path.join(root, "build/server/index.js")], {
     cwd: root,
