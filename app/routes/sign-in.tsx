@@ -99,6 +99,9 @@ export default function SignIn({ loaderData }: Route.ComponentProps) {
             ) : null}
           </div>
         </div>
+        <p className="text-xs text-ink-soft">
+          Signing in opens the studies where an administrator has given you a role, and only those.
+        </p>
       </main>
       <footer className="border-t border-rule">
         <div className="mx-auto max-w-lg px-6 py-3">

@@ -7,9 +7,11 @@
  *   saml-idp (127.0.0.1, a free port) signs every response and assertion with the key pair kept in
  *   stateDir, exactly as it would without the front. The picker only fills in saml-idp's own
  *   sign-in form (POST /signin) for the chosen person; `?form=full` shows saml-idp's editable form.
+ *   The front also serves saml-idp's stylesheet without its web-font import, so nothing is
+ *   fetched from the internet.
  */
 import { spawn, execFileSync, type ChildProcess } from "node:child_process";
-import { createWriteStream, existsSync, mkdirSync, writeFileSync } from "node:fs";
+import { createWriteStream, existsSync, mkdirSync, readFileSync, writeFileSync } from "node:fs";
 import http from "node:http";
 import { createRequire } from "node:module";
 import type { AddressInfo } from "node:net";
@@ -119,11 +121,23 @@ async function waitUntilAnswering(url: string, child: ChildProcess, logFile: str
   throw new Error(`The fake identity provider did not answer at ${url} within ${timeoutMs} ms; see ${logFile}.`);
 }
 
-/** Passes one request through to saml-idp unchanged (cookies included, so its session holds). */
-function passThrough(req: http.IncomingMessage, res: http.ServerResponse, upstreamPort: number): void {
+/**
+ * Passes one request through to saml-idp unchanged (cookies included, so its session holds).
+ * When saml-idp fails a single logout (it keeps one shared "current person", so a logout for
+ * someone else who signed in earlier fails), the browser is sent back to `logoutFailed`
+ * instead of being left on saml-idp's error page.
+ */
+function passThrough(req: http.IncomingMessage, res: http.ServerResponse, upstreamPort: number, logoutFailed: string): void {
+  const isLogout = new URL(req.url ?? "/", "http://front").pathname === "/saml/slo";
   const upstream = http.request(
     { host: "127.0.0.1", port: upstreamPort, method: req.method, path: req.url, headers: req.headers },
     (up) => {
+      if (isLogout && (up.statusCode ?? 500) >= 400) {
+        up.resume();
+        res.writeHead(303, { Location: logoutFailed });
+        res.end();
+        return;
+      }
       res.writeHead(up.statusCode ?? 502, up.headers);
       up.pipe(res);
     },
@@ -157,6 +171,10 @@ export async function startSamlIdp(opts: SamlIdpOptions): Promise<RunningSamlIdp
   const log = createWriteStream(logFile, { flags: "a" });
 
   const bin = require.resolve("saml-idp/bin/run.js");
+  const stylesheet = readFileSync(path.join(path.dirname(bin), "..", "public", "css", "bootstrap.css"), "utf8").replace(
+    /@import url\([^)]*fonts\.googleapis\.com[^)]*\);?/g,
+    "",
+  );
   const child = spawn(
     process.execPath,
     [bin, "--host", "127.0.0.1", "--port", String(upstreamPort), "--issuer", opts.issuer,
@@ -171,8 +189,19 @@ export async function startSamlIdp(opts: SamlIdpOptions): Promise<RunningSamlIdp
   const appOrigin = new URL(opts.acsUrl).origin;
   const front = http.createServer((req, res) => {
     const url = new URL(req.url ?? "/", "http://front");
+    if (url.pathname === "/favicon.ico") {
+      res.writeHead(204);
+      res.end();
+      return;
+    }
+    if (req.method === "GET" && url.pathname === "/css/bootstrap.css") {
+      // saml-idp's stylesheet imports a web font from the internet; serve it without that line.
+      res.writeHead(200, { "Content-Type": "text/css; charset=utf-8" });
+      res.end(stylesheet);
+      return;
+    }
     const isPicker = req.method === "GET" && url.pathname === "/saml/sso" && url.searchParams.get("form") !== "full";
-    if (!isPicker) return passThrough(req, res, upstreamPort);
+    if (!isPicker) return passThrough(req, res, upstreamPort, `${appOrigin}/sign-in?signedOut=partial`);
     void (async () => {
       try {
         const hasRequest = url.searchParams.has("SAMLRequest");

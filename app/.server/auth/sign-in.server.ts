@@ -155,8 +155,8 @@ export async function signOut(request: Request): Promise<Response> {
   }
 }
 
-/** Ends every Plumbline session that came from this identity-provider session. */
-async function endSessionsOf(nameId: string, sessionIndex: string | undefined): Promise<number> {
+/** Ends every Plumbline session that came from this identity-provider session; returns whose they were. */
+async function endSessionsOf(nameId: string, sessionIndex: string | undefined): Promise<string[]> {
   const rows = await db
     .delete(t.sessions)
     .where(
@@ -165,7 +165,7 @@ async function endSessionsOf(nameId: string, sessionIndex: string | undefined): 
         : sql`json_extract(${t.sessions.dataJson}, '$.nameId') = ${nameId}`,
     )
     .returning({ personId: t.sessions.personId });
-  return rows.length;
+  return [...new Set(rows.map((r) => r.personId).filter((id): id is string => id !== null))];
 }
 
 /**
@@ -185,18 +185,23 @@ export async function handleSamlLogout(request: Request): Promise<Response> {
   }
   try {
     if (container.SAMLRequest) {
+      // node-saml accepts an unsigned logout request in the redirect binding; we do not, or
+      // anyone could end anyone's sessions with a crafted link.
+      if (request.method !== "POST" && !container.Signature) throw new Error("unsigned logout request");
       const result =
         request.method === "POST"
           ? await logout.validatePostRequestAsync(container)
           : await logout.validateRedirectAsync(container, url.search.slice(1));
       if (!result.profile) throw new Error("the logout request named nobody");
-      const ended = await endSessionsOf(result.profile.nameID, result.profile.sessionIndex);
-      await appendAudit({
-        actor: SYSTEM_ACTOR,
-        action: "auth.sign_out",
-        entityType: "sign_in",
-        detail: `single logout started by the identity provider for ${result.profile.nameID}: ${ended} session(s) ended`,
-      });
+      for (const personId of await endSessionsOf(result.profile.nameID, result.profile.sessionIndex)) {
+        await appendAudit({
+          actor: SYSTEM_ACTOR,
+          action: "auth.sign_out",
+          entityType: "person",
+          entityId: personId,
+          detail: "saml: single logout started by the identity provider",
+        });
+      }
       const answer = await logout.getLogoutResponseUrlAsync(result.profile, container.RelayState ?? "", {}, true);
       return redirect(answer);
     }
