@@ -54,12 +54,18 @@ export function ensureKeyPair(stateDir: string): { certFile: string; keyFile: st
   const certFile = path.join(stateDir, "idp-public-cert.pem");
   const keyFile = path.join(stateDir, "idp-private-key.pem");
   if (!existsSync(certFile) || !existsSync(keyFile)) {
-    execFileSync(
-      "openssl",
-      ["req", "-x509", "-newkey", "rsa:2048", "-nodes", "-subj", "/CN=Plumbline fake identity provider",
-        "-keyout", keyFile, "-out", certFile, "-days", "3650"],
-      { stdio: "ignore" },
-    );
+    try {
+      execFileSync(
+        "openssl",
+        ["req", "-x509", "-newkey", "rsa:2048", "-nodes", "-subj", "/CN=Plumbline fake identity provider",
+          "-keyout", keyFile, "-out", certFile, "-days", "3650"],
+        { stdio: "ignore" },
+      );
+    } catch (error) {
+      throw new Error(
+        `The fake identity provider could not make its key pair with openssl (${(error as Error).message}); install openssl (apt-get install openssl) and start it again.`,
+      );
+    }
   }
   return { certFile, keyFile };
 }
@@ -185,6 +191,11 @@ export async function startSamlIdp(opts: SamlIdpOptions): Promise<RunningSamlIdp
   child.stdout?.pipe(log);
   child.stderr?.pipe(log);
   const exited = new Promise<void>((resolve) => child.once("exit", () => resolve()));
+  // If this process ends without calling stop(), do not leave saml-idp running on its own.
+  const killChild = (): void => {
+    if (child.exitCode === null) child.kill("SIGTERM");
+  };
+  process.once("exit", killChild);
 
   const appOrigin = new URL(opts.acsUrl).origin;
   const front = http.createServer((req, res) => {
@@ -221,16 +232,26 @@ export async function startSamlIdp(opts: SamlIdpOptions): Promise<RunningSamlIdp
       }
     })();
   });
-  await new Promise<void>((resolve, reject) => {
-    front.once("error", reject);
-    front.listen(opts.port, host, () => resolve());
-  });
+  try {
+    await new Promise<void>((resolve, reject) => {
+      front.once("error", reject);
+      front.listen(opts.port, host, () => resolve());
+    });
+  } catch (error) {
+    killChild();
+    const inUse = (error as NodeJS.ErrnoException).code === "EADDRINUSE";
+    throw new Error(
+      inUse
+        ? `Port ${opts.port} on ${host} is already in use: stop what is using it or start the fake identity provider on another port.`
+        : `The fake identity provider could not listen on ${host}:${opts.port}: ${(error as Error).message}`,
+    );
+  }
 
   const baseUrl = `http://${host.includes(":") ? `[${host}]` : host}:${opts.port}`;
   try {
     await waitUntilAnswering(`http://127.0.0.1:${upstreamPort}/metadata`, child, logFile);
   } catch (error) {
-    child.kill("SIGTERM");
+    killChild();
     await new Promise<void>((r) => front.close(() => r()));
     throw error;
   }
@@ -245,6 +266,7 @@ export async function startSamlIdp(opts: SamlIdpOptions): Promise<RunningSamlIdp
     async stop() {
       if (stopped) return;
       stopped = true;
+      process.removeListener("exit", killChild);
       if (child.pid && child.exitCode === null) {
         process.kill(child.pid, "SIGTERM");
         const timer = setTimeout(() => child.exitCode === null && child.pid && process.kill(child.pid, "SIGKILL"), 3000);
