@@ -160,6 +160,10 @@ export const planVersions = sqliteTable(
     /** Incremented on every save; a save naming an older revision is refused (two editors). */
     revision: integer("revision").notNull().default(1),
     authorId: text("author_id").references(() => people.id),
+    /** Everyone who saved a change to this version; none of them may approve it. */
+    editorIdsJson: text("editor_ids_json").notNull().default("[]"),
+    /** Why the approver sent the version back, if they did. */
+    returnNote: text("return_note"),
     approvedBy: text("approved_by").references(() => people.id),
     approvedAt: text("approved_at"),
     createdAt: text("created_at").notNull().default(now),
@@ -194,6 +198,9 @@ export const reruns = sqliteTable(
     sensitivityKey: text("sensitivity_key"),
     parentRerunId: text("parent_rerun_id"),
     prespecified: integer("prespecified", { mode: "boolean" }).notNull().default(true),
+    /** How a sensitivity rerun differs from its primary: remedy, excluded rows, covariate set. */
+    optionsJson: text("options_json").notNull().default("{}"),
+    label: text("label"),
     status: text("status", { enum: ["queued", "running", "completed", "failed"] }).notNull().default("queued"),
     failureReason: text("failure_reason"),
     datasetSha256: text("dataset_sha256").notNull(),
