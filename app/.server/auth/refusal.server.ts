@@ -19,6 +19,8 @@ export const REFUSAL_MESSAGES = {
     "The identity provider did not send your e-mail address, which Plumbline needs to know who you are. Tell your administrator to release the e-mail attribute to Plumbline.",
   unavailable:
     "The sign-in service is not answering, so single sign-on could not start. Try again shortly or tell your administrator.",
+  misconfigured:
+    "Single sign-on is not set up correctly on this Plumbline, so sign-in cannot start. Tell your administrator; the server log names the setting to fix.",
   other:
     "Single sign-on did not complete. Try again; if it keeps failing, tell your administrator the time it happened.",
 } as const;

@@ -23,11 +23,16 @@ export interface SamlSetup {
   adminGroup: string;
 }
 
+/** Single sign-on cannot work with these settings; the message says which to fix. */
+export class SamlSetupError extends Error {
+  override name = "SamlSetupError";
+}
+
 function readTrustedCert(file: string): string {
   try {
     return readFileSync(file, "utf8");
   } catch {
-    throw new Error(
+    throw new SamlSetupError(
       `Plumbline cannot read the identity provider's signing certificate at ${file}: set SAML_IDP_CERT_FILE to the PEM file your identity provider publishes.`,
     );
   }

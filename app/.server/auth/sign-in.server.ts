@@ -13,7 +13,7 @@ import { db, t } from "../db/index.server";
 import { actorOf, recordSignIn, type Person, type VerifiedIdentity } from "../people.server";
 import { endSession, getCurrentUser, safeReturnTo, startSession } from "../session.server";
 import { isRefusalCode, REFUSAL_MESSAGES, SignInRefused, type RefusalCode } from "./refusal.server";
-import { NAME_ID_FORMAT, samlSetup } from "./saml-setup.server";
+import { NAME_ID_FORMAT, SamlSetupError, samlSetup } from "./saml-setup.server";
 import { SamlStrategy } from "./saml-strategy.server";
 
 export interface SamlSignIn {
@@ -105,6 +105,10 @@ export async function startSamlSignIn(request: Request): Promise<Response> {
     await auth().authenticate("saml", start);
   } catch (thrown) {
     if (thrown instanceof Response) return thrown;
+    if (thrown instanceof SamlSetupError) {
+      console.error(thrown.message);
+      return redirect("/sign-in?error=misconfigured");
+    }
     throw thrown;
   }
   throw new Error("The SAML strategy did not redirect to the identity provider.");
@@ -123,7 +127,8 @@ export async function finishSamlSignIn(request: Request): Promise<Response> {
     if (error instanceof SignInRefused) return refuseSignIn(error);
     if (error instanceof Response) throw error;
     const reason = error instanceof Error ? error.message : String(error);
-    return refuseSignIn(new SignInRefused("other", reason));
+    if (error instanceof SamlSetupError) console.error(reason);
+    return refuseSignIn(new SignInRefused(error instanceof SamlSetupError ? "misconfigured" : "other", reason));
   }
   const cookie = await startSession(request, signIn.person.id, { nameId: signIn.nameId, sessionIndex: signIn.sessionIndex });
   return redirect(signIn.returnTo, { headers: { "Set-Cookie": cookie } });
@@ -174,7 +179,6 @@ async function endSessionsOf(nameId: string, sessionIndex: string | undefined): 
  * logout the identity provider started, which ends the matching Plumbline sessions and answers it.
  */
 export async function handleSamlLogout(request: Request): Promise<Response> {
-  const { logout } = samlSetup();
   const url = new URL(request.url);
   let container: Record<string, string> = {};
   if (request.method === "POST") {
@@ -184,6 +188,7 @@ export async function handleSamlLogout(request: Request): Promise<Response> {
     container = Object.fromEntries(url.searchParams.entries());
   }
   try {
+    const { logout } = samlSetup();
     if (container.SAMLRequest) {
       // node-saml accepts an unsigned logout request in the redirect binding; we do not, or
       // anyone could end anyone's sessions with a crafted link.
