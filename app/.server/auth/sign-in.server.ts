@@ -47,13 +47,13 @@ export function identityFromProfile(profile: Profile, adminGroup: string): Verif
   };
 }
 
-let strategy: SamlStrategy<SamlSignIn> | null = null;
 let authenticator: Authenticator<SamlSignIn> | null = null;
 
+/** The remix-auth authenticator with the SAML strategy, built on first use. */
 function auth(): Authenticator<SamlSignIn> {
   if (authenticator) return authenticator;
   const setup = samlSetup();
-  strategy = new SamlStrategy<SamlSignIn>(
+  const strategy = new SamlStrategy<SamlSignIn>(
     { saml: setup.signIn, trustedCert: setup.trustedCert, idpIssuer: setup.idpIssuer },
     async ({ profile, relayState }) => {
       const person = await recordSignIn(identityFromProfile(profile, setup.adminGroup));
