@@ -1,6 +1,7 @@
 /**
  * Starts the local fake staff identity provider: the npm package `saml-idp` in its own child
- * process, behind a small front that adds a demo-person picker to its sign-in step.
+ * process (child.cjs, which also ends when this process ends), behind a small front that adds a
+ * demo-person picker to its sign-in step.
  *
  *   browser ──> front (port P, public) ──┬─ GET /saml/sso?SAMLRequest=… : the demo-person picker
  *                                        └─ everything else            : passed through to saml-idp
@@ -176,17 +177,17 @@ export async function startSamlIdp(opts: SamlIdpOptions): Promise<RunningSamlIdp
   const logFile = path.join(stateDir, "saml-idp.log");
   const log = createWriteStream(logFile, { flags: "a" });
 
-  const bin = require.resolve("saml-idp/bin/run.js");
-  const stylesheet = readFileSync(path.join(path.dirname(bin), "..", "public", "css", "bootstrap.css"), "utf8").replace(
+  const idpPackage = path.dirname(require.resolve("saml-idp/package.json"));
+  const stylesheet = readFileSync(path.join(idpPackage, "public", "css", "bootstrap.css"), "utf8").replace(
     /@import url\([^)]*fonts\.googleapis\.com[^)]*\);?/g,
     "",
   );
   const child = spawn(
     process.execPath,
-    [bin, "--host", "127.0.0.1", "--port", String(upstreamPort), "--issuer", opts.issuer,
+    [path.join(here, "child.cjs"), "--host", "127.0.0.1", "--port", String(upstreamPort), "--issuer", opts.issuer,
       "--acsUrl", opts.acsUrl, "--sloUrl", opts.sloUrl, "--audience", opts.audience,
       "--cert", certFile, "--key", keyFile, "--configFile", configFile],
-    { stdio: ["ignore", "pipe", "pipe"], env: { ...process.env, FORCE_COLOR: "0", HOST: "", PORT: "" } },
+    { stdio: ["pipe", "pipe", "pipe"], env: { ...process.env, FORCE_COLOR: "0", HOST: "", PORT: "" } },
   );
   child.stdout?.pipe(log);
   child.stderr?.pipe(log);
