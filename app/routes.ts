@@ -16,6 +16,8 @@ export default [
         index("routes/study-overview.tsx"),
         route("datasets", "routes/study-datasets.tsx"),
         route("plans", "routes/study-plans.tsx"),
+        route("plans/:versionId", "routes/study-plan-version.tsx"),
+        route("plans/:versionId/models/:modelId", "routes/study-planned-model.tsx"),
         route("reruns", "routes/study-reruns.tsx"),
         route("deviations", "routes/study-deviations.tsx"),
         route("appendix", "routes/study-appendix.tsx"),

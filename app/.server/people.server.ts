@@ -20,7 +20,10 @@ export interface VerifiedIdentity {
   isAdmin: boolean;
 }
 
-export const actorOf = (p: { id: string; displayName: string }): Actor => ({ id: p.id, name: p.displayName });
+/** A signed-in person acting: unlike the system actor, always has an id. */
+export type PersonActor = Actor & { id: string };
+
+export const actorOf = (p: { id: string; displayName: string }): PersonActor => ({ id: p.id, name: p.displayName });
 
 /**
  * Finds the person by e-mail or creates them, refreshing name, organisation and the

@@ -6,7 +6,7 @@
 import { AsyncLocalStorage } from "node:async_hooks";
 import type { CacheItem, CacheProvider } from "@node-saml/node-saml";
 import { and, eq, gt, lt } from "drizzle-orm";
-import { db, t } from "../db/index.server";
+import { db, t, writeTransaction } from "../db/index.server";
 
 /** Per validation: the request ids this validation itself removed from the table. */
 const claims = new AsyncLocalStorage<Set<string>>();
@@ -16,12 +16,10 @@ export class DatabaseCacheProvider implements CacheProvider {
 
   async saveAsync(key: string, value: string): Promise<CacheItem | null> {
     const now = Date.now();
-    await db.delete(t.samlRequests).where(lt(t.samlRequests.createdAt, now - this.expiryMs));
-    const rows = await db
-      .insert(t.samlRequests)
-      .values({ id: key, value, createdAt: now })
-      .onConflictDoNothing()
-      .returning();
+    const rows = await writeTransaction(async (tx) => {
+      await tx.delete(t.samlRequests).where(lt(t.samlRequests.createdAt, now - this.expiryMs));
+      return tx.insert(t.samlRequests).values({ id: key, value, createdAt: now }).onConflictDoNothing().returning();
+    });
     return rows.length ? { value: rows[0].value, createdAt: rows[0].createdAt } : null;
   }
 
@@ -36,7 +34,7 @@ export class DatabaseCacheProvider implements CacheProvider {
 
   async removeAsync(key: string | null): Promise<string | null> {
     if (!key) return null;
-    const rows = await db.delete(t.samlRequests).where(eq(t.samlRequests.id, key)).returning({ value: t.samlRequests.value });
+    const rows = await writeTransaction((tx) => tx.delete(t.samlRequests).where(eq(t.samlRequests.id, key)).returning({ value: t.samlRequests.value }));
     if (rows.length) claims.getStore()?.add(key);
     return rows[0]?.value ?? null;
   }

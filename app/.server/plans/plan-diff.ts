@@ -1,0 +1,90 @@
+/**
+ * A readable comparison of two plan versions: what was added, removed or changed, in the
+ * words a reviewer reads (covariates, reference arm, thresholds), not as a text diff.
+ */
+import { CHECK_BY_KEY } from "~/engine/checks";
+import type { PlannedModel } from "./planned-model";
+import { SENSITIVITY_LABELS } from "./planned-model";
+
+export interface PlanChange {
+  /** Where: "Plan" or the planned model's key and title. */
+  where: string;
+  what: string;
+}
+
+interface HeaderLike {
+  title: string;
+  sapName: string | null;
+  sapVersion: string | null;
+  sapDate: string | null;
+}
+
+function termText(m: PlannedModel): Map<string, string> {
+  const out = new Map<string, string>();
+  for (const t of m.spec.terms) {
+    if ("interaction" in t) out.set(t.interaction.join(" by "), "interaction");
+    else out.set(t.variable, t.categorical ? `categorical${t.reference ? `, reference ${t.reference}` : ""}` : "continuous");
+  }
+  return out;
+}
+
+function compareModel(a: PlannedModel, b: PlannedModel): string[] {
+  const out: string[] = [];
+  const field = (label: string, x: unknown, y: unknown) => {
+    const sx = x === undefined || x === null || x === "" ? "none" : String(x);
+    const sy = y === undefined || y === null || y === "" ? "none" : String(y);
+    if (sx !== sy) out.push(`${label}: ${sx} → ${sy}`);
+  };
+  field("Title", a.title, b.title);
+  field("Dataset", a.datasetName, b.datasetName);
+  field("Population", a.population ? `${a.population.column} = ${a.population.value}` : null, b.population ? `${b.population.column} = ${b.population.value}` : null);
+  field("Endpoint", a.spec.response, b.spec.response);
+  field("Family", a.spec.family, b.spec.family);
+  field("Link", a.spec.link, b.spec.link);
+  field("Treatment", a.spec.treatment, b.spec.treatment);
+  field("Weights", a.spec.weights, b.spec.weights);
+  field("Offset", a.spec.offset, b.spec.offset);
+  field("Subject id", a.spec.id, b.spec.id);
+  const ta = termText(a);
+  const tb = termText(b);
+  for (const [k, v] of tb) if (!ta.has(k)) out.push(`Term added: ${k} (${v})`);
+  for (const [k, v] of ta) if (!tb.has(k)) out.push(`Term removed: ${k} (${v})`);
+  for (const [k, v] of ta) if (tb.has(k) && tb.get(k) !== v) out.push(`Term ${k}: ${v} → ${tb.get(k)}`);
+  for (const cb of b.checks) {
+    const ca = a.checks.find((c) => c.key === cb.key);
+    const label = CHECK_BY_KEY.get(cb.key)?.label ?? cb.key;
+    if (!ca) out.push(`Check added: ${label}`);
+    else {
+      if (ca.enabled !== cb.enabled) out.push(`Check ${label}: ${ca.enabled ? "planned" : "not planned"} → ${cb.enabled ? "planned" : "not planned"}`);
+      if (ca.threshold !== cb.threshold) out.push(`Check ${label}: threshold ${ca.threshold} → ${cb.threshold}`);
+      if (ca.remedy !== cb.remedy) out.push(`Check ${label}: planned remedy changed`);
+    }
+  }
+  const sa = new Set(a.sensitivity.map((s) => s.kind));
+  const sb = new Set(b.sensitivity.map((s) => s.kind));
+  for (const k of sb) if (!sa.has(k)) out.push(`Sensitivity analysis added: ${SENSITIVITY_LABELS[k]}`);
+  for (const k of sa) if (!sb.has(k)) out.push(`Sensitivity analysis removed: ${SENSITIVITY_LABELS[k]}`);
+  return out;
+}
+
+export function comparePlanVersions(
+  before: { header: HeaderLike; models: PlannedModel[] },
+  after: { header: HeaderLike; models: PlannedModel[] },
+): PlanChange[] {
+  const changes: PlanChange[] = [];
+  const h = (label: string, x: string | null, y: string | null) => {
+    if ((x ?? "") !== (y ?? "")) changes.push({ where: "Plan", what: `${label}: ${x || "none"} → ${y || "none"}` });
+  };
+  h("Title", before.header.title, after.header.title);
+  h("SAP document", before.header.sapName, after.header.sapName);
+  h("SAP version", before.header.sapVersion, after.header.sapVersion);
+  h("SAP date", before.header.sapDate, after.header.sapDate);
+  for (const m of after.models) {
+    const old = before.models.find((o) => o.key === m.key);
+    const where = `${m.key} · ${m.title}`;
+    if (!old) changes.push({ where, what: "Planned model added" });
+    else for (const what of compareModel(old, m)) changes.push({ where, what });
+  }
+  for (const o of before.models) if (!after.models.some((m) => m.key === o.key)) changes.push({ where: `${o.key} · ${o.title}`, what: "Planned model removed" });
+  return changes;
+}

@@ -1,0 +1,43 @@
+/** Shapes a stored planned model for display (plain data for loaders). */
+import { CANONICAL_LINK } from "~/engine/model-spec";
+import { CHECK_BY_KEY } from "~/engine/checks";
+import type { PlannedModelView } from "~/components/planned-model-summary";
+import { SENSITIVITY_LABELS } from "./planned-model";
+import type { StoredPlannedModel } from "./plans.server";
+
+export function plannedModelView(m: StoredPlannedModel): PlannedModelView {
+  const main = m.spec.terms.filter((t): t is { variable: string; categorical?: boolean; reference?: string } => "variable" in t);
+  const treatment = main.find((t) => t.variable === m.spec.treatment);
+  return {
+    id: m.id,
+    key: m.key,
+    title: m.title,
+    datasetName: m.datasetName,
+    population: m.population,
+    response: m.spec.response,
+    family: m.spec.family,
+    link: m.spec.link ?? CANONICAL_LINK[m.spec.family],
+    treatment: m.spec.treatment ?? null,
+    reference: treatment?.reference ?? null,
+    covariates: main
+      .filter((t) => t.variable !== m.spec.treatment)
+      .map((t) => (t.categorical ? `${t.variable} (categorical${t.reference ? `, reference ${t.reference}` : ""})` : t.variable)),
+    interactions: m.spec.terms.flatMap((t) => ("interaction" in t ? [t.interaction.join(" by ")] : [])),
+    weights: m.spec.weights ?? null,
+    offset: m.spec.offset ?? null,
+    id_: m.spec.id ?? null,
+    checks: m.checks
+      .filter((c) => c.enabled)
+      .map((c) => {
+        const def = CHECK_BY_KEY.get(c.key);
+        return { key: c.key, label: def?.label ?? c.key, threshold: c.threshold, remedy: c.remedy, source: def?.source ?? "" };
+      }),
+    sensitivity: m.sensitivity.map((s) =>
+      s.kind === "alternative_covariates"
+        ? `${s.label ?? SENSITIVITY_LABELS[s.kind]}: ${(s.covariates ?? []).join(", ")}`
+        : s.kind === "variance_function"
+          ? `${SENSITIVITY_LABELS[s.kind]} (${s.varianceBy === "treatment" ? "variance per arm" : "variance depending on the fitted values"})`
+          : SENSITIVITY_LABELS[s.kind],
+    ),
+  };
+}

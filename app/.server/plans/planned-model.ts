@@ -1,0 +1,269 @@
+/**
+ * A planned model as the plan states it: which locked dataset it reads, the population, the
+ * model specification (the same object the headless rerun command reads), the checks with
+ * their thresholds, and the planned sensitivity analyses. Built from the editor's form and
+ * validated against the dataset's columns, so every error can be shown beside its field.
+ */
+import { z } from "zod";
+import { CHECKS, type CheckKey, type PlannedCheck } from "~/engine/checks";
+import { modelSpecSchema, type ModelSpec, type Term } from "~/engine/model-spec";
+import type { ColumnMeta } from "../datasets/catalog.server";
+
+export const SENSITIVITY_KINDS = ["robust_hc3", "variance_function", "exclude_influential", "alternative_covariates"] as const;
+export type SensitivityKind = (typeof SENSITIVITY_KINDS)[number];
+
+export const SENSITIVITY_LABELS: Record<SensitivityKind, string> = {
+  robust_hc3: "Robust (HC3) standard errors",
+  variance_function: "Weighted fit with an estimated variance function",
+  exclude_influential: "Excluding subjects flagged by the Cook's distance check",
+  alternative_covariates: "Alternative covariate set",
+};
+
+export const sensitivitySchema = z.object({
+  kind: z.enum(SENSITIVITY_KINDS),
+  /** variance_function: what the variance depends on. */
+  varianceBy: z.enum(["fitted", "treatment"]).optional(),
+  /** alternative_covariates: the covariates of the alternative set. */
+  covariates: z.array(z.string()).optional(),
+  label: z.string().optional(),
+});
+export type PlannedSensitivity = z.infer<typeof sensitivitySchema>;
+
+const checkKeys = CHECKS.map((c) => c.key) as [CheckKey, ...CheckKey[]];
+export const plannedCheckSchema = z.object({
+  key: z.enum(checkKeys),
+  enabled: z.boolean(),
+  threshold: z.number().positive(),
+  remedy: z.string().max(300),
+});
+
+export const populationSchema = z.object({ column: z.string().min(1), value: z.string().min(1) }).nullable();
+export type Population = z.infer<typeof populationSchema>;
+
+export const plannedModelSchema = z.object({
+  key: z.string(),
+  title: z.string(),
+  datasetName: z.string(),
+  population: populationSchema,
+  spec: modelSpecSchema,
+  checks: z.array(plannedCheckSchema),
+  sensitivity: z.array(sensitivitySchema),
+});
+export type PlannedModel = z.infer<typeof plannedModelSchema>;
+
+export type FieldErrors = Record<string, string>;
+
+/** The editor's fields, as posted. */
+export interface PlannedModelForm {
+  key: string;
+  title: string;
+  datasetName: string;
+  populationColumn: string;
+  populationValue: string;
+  response: string;
+  family: string;
+  link: string;
+  treatment: string;
+  treatmentReference: string;
+  covariates: { variable: string; categorical: boolean; reference: string }[];
+  interactions: string[][];
+  weights: string;
+  offset: string;
+  id: string;
+  checks: PlannedCheck[];
+  sensitivity: PlannedSensitivity[];
+}
+
+const str = (f: FormData, k: string): string => String(f.get(k) ?? "").trim();
+
+/** Reads the editor's form; field names are documented beside the inputs in the editor. */
+export function readPlannedModelForm(f: FormData): PlannedModelForm {
+  const covariates = f.getAll("covariate").map(String).filter(Boolean);
+  return {
+    key: str(f, "key"),
+    title: str(f, "title"),
+    datasetName: str(f, "datasetName"),
+    populationColumn: str(f, "populationColumn"),
+    populationValue: str(f, "populationValue"),
+    response: str(f, "response"),
+    family: str(f, "family") || "gaussian",
+    link: str(f, "link"),
+    treatment: str(f, "treatment"),
+    treatmentReference: str(f, "treatmentReference"),
+    covariates: covariates.map((variable) => ({
+      variable,
+      categorical: f.get(`categorical:${variable}`) === "on",
+      reference: str(f, `reference:${variable}`),
+    })),
+    interactions: f
+      .getAll("interaction")
+      .map(String)
+      .filter(Boolean)
+      .map((s) => s.split("|")),
+    weights: str(f, "weights"),
+    offset: str(f, "offset"),
+    id: str(f, "id"),
+    checks: CHECKS.map((c) => ({
+      key: c.key,
+      enabled: f.get(`check:${c.key}:enabled`) === "on",
+      threshold: Number(str(f, `check:${c.key}:threshold`) || c.defaultThreshold),
+      remedy: str(f, `check:${c.key}:remedy`) || c.defaultRemedy,
+    })),
+    sensitivity: SENSITIVITY_KINDS.filter((k) => f.get(`sensitivity:${k}`) === "on").map((kind) => ({
+      kind,
+      ...(kind === "variance_function" ? { varianceBy: str(f, "sensitivity:varianceBy") === "treatment" ? ("treatment" as const) : ("fitted" as const) } : {}),
+      ...(kind === "alternative_covariates"
+        ? { covariates: f.getAll("sensitivity:covariate").map(String).filter(Boolean), label: str(f, "sensitivity:label") || "Alternative covariate set" }
+        : {}),
+    })),
+  };
+}
+
+const KEY_RE = /^[a-z0-9][a-z0-9_-]{0,39}$/;
+
+/**
+ * Checks the form against the chosen dataset's columns and types and builds the planned model.
+ * Returns errors keyed by field name, each saying what to do.
+ */
+export function validatePlannedModel(
+  form: PlannedModelForm,
+  datasets: { name: string; columns: ColumnMeta[] }[],
+  takenKeys: string[],
+): { ok: true; model: PlannedModel } | { ok: false; errors: FieldErrors } {
+  const errors: FieldErrors = {};
+  if (!KEY_RE.test(form.key)) errors.key = "Use 1–40 lower-case letters, digits, - or _, starting with a letter or digit (e.g. primary).";
+  else if (takenKeys.includes(form.key)) errors.key = `Another planned model in this version already uses the key "${form.key}".`;
+  if (form.title.length < 3) errors.title = "Give the planned model a title, e.g. Primary efficacy.";
+  const dataset = datasets.find((d) => d.name === form.datasetName);
+  if (!dataset) {
+    errors.datasetName = datasets.length === 0 ? "No dataset of this study is locked yet: a data manager must lock one first." : "Choose the locked dataset this model reads.";
+    return { ok: false, errors };
+  }
+  const col = new Map(dataset.columns.map((c) => [c.name, c]));
+  const levelsOf = (name: string): string[] => col.get(name)?.levels?.map((l) => l.value) ?? [];
+  const need = (field: string, name: string, label: string): ColumnMeta | null => {
+    if (!name) {
+      errors[field] = `Choose the ${label}.`;
+      return null;
+    }
+    const c = col.get(name);
+    if (!c) errors[field] = `Column "${name}" is not in ${dataset.name}.`;
+    return c ?? null;
+  };
+
+  let population: Population = null;
+  if (form.populationColumn) {
+    const c = need("populationColumn", form.populationColumn, "population flag column");
+    if (c && !form.populationValue) errors.populationValue = `Choose the value of ${c.name} that defines the population.`;
+    else if (c && c.levels && !levelsOf(c.name).includes(form.populationValue))
+      errors.populationValue = `${c.name} has no value "${form.populationValue}"; its values are ${levelsOf(c.name).join(", ")}.`;
+    population = { column: form.populationColumn, value: form.populationValue };
+  }
+
+  const family = form.family === "binomial" || form.family === "poisson" ? form.family : "gaussian";
+  const response = need("response", form.response, "endpoint (response) column");
+  if (response && family === "gaussian" && response.type !== "number") errors.response = `${response.name} is ${response.type}, not numeric: a linear model needs a numeric endpoint.`;
+  if (response && family === "poisson" && response.type !== "number") errors.response = `${response.name} must hold counts for a Poisson model.`;
+  if (response && family === "binomial" && !(response.levels && response.levels.length === 2))
+    errors.response = `${response.name} must have exactly two values for a binomial model${response.levels ? ` (it has ${response.levels.length})` : ""}.`;
+
+  const terms: Term[] = [];
+  const mainVariables = new Set<string>();
+  if (form.treatment) {
+    const t = need("treatment", form.treatment, "treatment variable");
+    if (t) {
+      const levels = levelsOf(t.name);
+      if (levels.length < 2) errors.treatment = `${t.name} needs at least two arms; it has ${levels.length}.`;
+      else if (form.treatmentReference && !levels.includes(form.treatmentReference))
+        errors.treatmentReference = `"${form.treatmentReference}" is not an arm of ${t.name}; the arms are ${levels.join(", ")}.`;
+      else if (!form.treatmentReference) errors.treatmentReference = "Choose the reference arm (usually placebo).";
+      terms.push({ variable: t.name, categorical: true, reference: form.treatmentReference || undefined });
+      mainVariables.add(t.name);
+    }
+  }
+  for (const cv of form.covariates) {
+    const field = `covariate:${cv.variable}`;
+    const c = need(field, cv.variable, "covariate");
+    if (!c || mainVariables.has(cv.variable)) continue;
+    if (cv.variable === form.response) {
+      errors[field] = "The endpoint cannot also be a covariate.";
+      continue;
+    }
+    const categorical = cv.categorical || c.type !== "number";
+    if (categorical && cv.reference && c.levels && !levelsOf(c.name).includes(cv.reference))
+      errors[field] = `"${cv.reference}" is not a value of ${c.name}; its values are ${levelsOf(c.name).join(", ")}.`;
+    terms.push(categorical ? { variable: c.name, categorical: true, ...(cv.reference ? { reference: cv.reference } : {}) } : { variable: c.name });
+    mainVariables.add(c.name);
+  }
+  for (const parts of form.interactions) {
+    const missing = parts.filter((p) => !mainVariables.has(p));
+    if (parts.length < 2 || missing.length > 0) {
+      errors.interactions = `The interaction ${parts.join(" by ")} needs each of its variables as a main term${missing.length ? ` (missing: ${missing.join(", ")})` : ""}.`;
+      continue;
+    }
+    terms.push({ interaction: parts });
+  }
+  for (const [field, name, label] of [
+    ["weights", form.weights, "weights"],
+    ["offset", form.offset, "offset"],
+  ] as const) {
+    if (!name) continue;
+    const c = need(field, name, `${label} column`);
+    if (c && c.type !== "number") errors[field] = `${c.name} must be numeric to serve as ${label}.`;
+  }
+  if (form.id) need("id", form.id, "subject identifier column");
+
+  for (const ch of form.checks) {
+    if (!Number.isFinite(ch.threshold) || ch.threshold <= 0) errors[`check:${ch.key}:threshold`] = "Give a positive number.";
+  }
+  for (const s of form.sensitivity) {
+    if (s.kind === "alternative_covariates" && (!s.covariates || s.covariates.length === 0))
+      errors["sensitivity:covariate"] = "Choose the covariates of the alternative set.";
+    if (s.kind === "variance_function" && s.varianceBy === "treatment" && !form.treatment)
+      errors["sensitivity:varianceBy"] = "Variance per arm needs a treatment variable.";
+  }
+
+  if (Object.keys(errors).length > 0) return { ok: false, errors };
+  const spec: ModelSpec = modelSpecSchema.parse({
+    response: form.response,
+    family,
+    ...(form.link ? { link: form.link } : {}),
+    intercept: true,
+    terms,
+    ...(form.weights ? { weights: form.weights } : {}),
+    ...(form.offset ? { offset: form.offset } : {}),
+    ...(form.id ? { id: form.id } : {}),
+    ...(form.treatment ? { treatment: form.treatment } : {}),
+  });
+  return {
+    ok: true,
+    model: { key: form.key, title: form.title, datasetName: dataset.name, population, spec, checks: form.checks, sensitivity: form.sensitivity },
+  };
+}
+
+/** The editor's fields for an existing planned model (the inverse of readPlannedModelForm). */
+export function toForm(m: PlannedModel): PlannedModelForm {
+  const main = m.spec.terms.filter((t): t is Extract<Term, { variable: string }> => "variable" in t);
+  const treatmentTerm = main.find((t) => t.variable === m.spec.treatment);
+  return {
+    key: m.key,
+    title: m.title,
+    datasetName: m.datasetName,
+    populationColumn: m.population?.column ?? "",
+    populationValue: m.population?.value ?? "",
+    response: m.spec.response,
+    family: m.spec.family,
+    link: m.spec.link ?? "",
+    treatment: m.spec.treatment ?? "",
+    treatmentReference: treatmentTerm?.reference ?? "",
+    covariates: main
+      .filter((t) => t.variable !== m.spec.treatment)
+      .map((t) => ({ variable: t.variable, categorical: t.categorical ?? false, reference: t.reference ?? "" })),
+    interactions: m.spec.terms.flatMap((t) => ("interaction" in t ? [t.interaction] : [])),
+    weights: m.spec.weights ?? "",
+    offset: m.spec.offset ?? "",
+    id: m.spec.id ?? "",
+    checks: m.checks,
+    sensitivity: m.sensitivity,
+  };
+}
