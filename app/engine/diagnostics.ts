@@ -28,7 +28,15 @@ const LEVERAGE_ONE = 1 - 10 * Number.EPSILON;
 /** Hat-matrix diagonal from the thin Q (n×p column-major). */
 export function leverages(q: Float64Array, n: number, p: number): Float64Array {
   const h = new Float64Array(n);
-  for (let k = 0; k < p; k++) {
+  let k = 0;
+  for (; k + 3 < p; k += 4) {
+    const o0 = k * n, o1 = o0 + n, o2 = o1 + n, o3 = o2 + n;
+    for (let i = 0; i < n; i++) {
+      const a = q[o0 + i], b = q[o1 + i], c = q[o2 + i], d = q[o3 + i];
+      h[i] += a * a + b * b + c * c + d * d;
+    }
+  }
+  for (; k < p; k++) {
     const off = k * n;
     for (let i = 0; i < n; i++) h[i] += q[off + i] * q[off + i];
   }
@@ -66,19 +74,35 @@ export function observationDiagnostics(fit: LeastSquaresFit): ObservationDiagnos
     dffits[i] = t * Math.sqrt(h[i] / oneMinusH);
     rowFactor[i] = e[i] / (oneMinusH * si);
   }
+  // DFBETAS column j = (Q R⁻ᵀ)[:, j] · rowFactor / √Cⱼⱼ, with (Q R⁻ᵀ)[:, j] = Σ_{k≥j} Q[:, k] R⁻¹[j, k];
+  // rows in chunks so the chunk of Q stays in cache, four columns of Q per pass
   const dfbetas: Float64Array[] = [];
-  for (let j = 0; j < p; j++) {
-    // column j of Q R⁻ᵀ: Σ_{k≥j} Q[:,k] R⁻¹[j,k]
-    const col = new Float64Array(n);
-    for (let k = j; k < p; k++) {
-      const c = rInverse[k * p + j];
-      if (c === 0) continue;
-      const off = k * n;
-      for (let i = 0; i < n; i++) col[i] += q[off + i] * c;
+  for (let j = 0; j < p; j++) dfbetas.push(new Float64Array(n));
+  const CHUNK = 2048;
+  for (let r0 = 0; r0 < n; r0 += CHUNK) {
+    const r1 = Math.min(n, r0 + CHUNK);
+    for (let j = 0; j < p; j++) {
+      const col = dfbetas[j];
+      let k = j;
+      for (; k + 3 < p; k += 4) {
+        const c0 = rInverse[k * p + j];
+        const c1 = rInverse[(k + 1) * p + j];
+        const c2 = rInverse[(k + 2) * p + j];
+        const c3 = rInverse[(k + 3) * p + j];
+        const o0 = k * n;
+        const o1 = o0 + n;
+        const o2 = o1 + n;
+        const o3 = o2 + n;
+        for (let i = r0; i < r1; i++) col[i] += q[o0 + i] * c0 + q[o1 + i] * c1 + q[o2 + i] * c2 + q[o3 + i] * c3;
+      }
+      for (; k < p; k++) {
+        const c = rInverse[k * p + j];
+        const off = k * n;
+        for (let i = r0; i < r1; i++) col[i] += q[off + i] * c;
+      }
+      const scale = 1 / Math.sqrt(unscaledCovariance[j * p + j]);
+      for (let i = r0; i < r1; i++) col[i] *= rowFactor[i] * scale;
     }
-    const scale = 1 / Math.sqrt(unscaledCovariance[j * p + j]);
-    for (let i = 0; i < n; i++) col[i] *= rowFactor[i] * scale;
-    dfbetas.push(col);
   }
   return {
     leverage: h,
@@ -157,4 +181,72 @@ function sandwich(a: Float64Array, g: Float64Array, p: number): Float64Array {
     }
   }
   return out;
+}
+
+/**
+ * Partial (component-plus-residual) residuals per term (Larsen and McCleary 1972): the term's
+ * contribution Σ_{c∈term} b_c x_c, centred on its mean over the rows used, plus e.
+ */
+export function partialResiduals(
+  x: Float64Array,
+  n: number,
+  termColumns: readonly (readonly number[])[],
+  coefficients: Float64Array,
+  residuals: Float64Array,
+): Float64Array[] {
+  return termColumns.map((cols) => {
+    const values = new Float64Array(n);
+    let sum = 0;
+    if (cols.length === 1) {
+      const b = coefficients[cols[0]];
+      const off = cols[0] * n;
+      for (let i = 0; i < n; i++) {
+        const v = b * x[off + i];
+        values[i] = v;
+        sum += v;
+      }
+    } else {
+      for (const c of cols) {
+        const b = coefficients[c];
+        const off = c * n;
+        for (let i = 0; i < n; i++) values[i] += b * x[off + i];
+      }
+      for (let i = 0; i < n; i++) sum += values[i];
+    }
+    const mean = sum / n;
+    for (let i = 0; i < n; i++) values[i] += residuals[i] - mean;
+    return values;
+  });
+}
+
+/**
+ * Partial residuals per term from Q and R when the design is no longer held (large-data mode):
+ * √W X b restricted to a term's columns is Σₖ Q[:, k] Σ_{j∈term, j≥k} R[k, j] b_j.
+ */
+export function partialResidualsFromQR(fit: LeastSquaresFit, termColumns: readonly (readonly number[])[]): Float64Array[] {
+  const { n, p, q, r, coefficients, residuals, sqrtWeights } = fit;
+  return termColumns.map((cols) => {
+    const g = new Float64Array(p);
+    for (const j of cols) for (let k = 0; k <= j; k++) g[k] += r[j * p + k] * coefficients[j];
+    const values = new Float64Array(n);
+    let k = 0;
+    for (; k + 3 < p; k += 4) {
+      const g0 = g[k], g1 = g[k + 1], g2 = g[k + 2], g3 = g[k + 3];
+      if (g0 === 0 && g1 === 0 && g2 === 0 && g3 === 0) continue;
+      const o0 = k * n, o1 = o0 + n, o2 = o1 + n, o3 = o2 + n;
+      for (let i = 0; i < n; i++) values[i] += q[o0 + i] * g0 + q[o1 + i] * g1 + q[o2 + i] * g2 + q[o3 + i] * g3;
+    }
+    for (; k < p; k++) {
+      const gk = g[k];
+      if (gk === 0) continue;
+      const o = k * n;
+      for (let i = 0; i < n; i++) values[i] += q[o + i] * gk;
+    }
+    let sum = 0;
+    if (sqrtWeights) for (let i = 0; i < n; i++) values[i] /= sqrtWeights[i];
+    for (let i = 0; i < n; i++) sum += values[i];
+    const mean = sum / n;
+    for (let i = 0; i < n; i++) values[i] += residuals[i] - mean;
+    return values;
+  });
 }

@@ -55,3 +55,4 @@ export type { LeastSquaresFit, LeastSquaresInput } from "./least-squares";
 export { observationDiagnostics } from "./diagnostics";
 export type { ObservationDiagnostics } from "./diagnostics";
 export * as distributions from "./distributions";
+export { partialResiduals, partialResidualsFromQR, robustCovariances } from "./diagnostics";

@@ -3,8 +3,11 @@
  * √W X (Golub and Van Loan 2013, section 5.3), with one step of iterative refinement of the
  * coefficients on the residual (Björck 1996, Numerical Methods for Least Squares Problems, 2.9).
  * The n×n hat matrix is never formed and X'X is never inverted.
+ *
+ * With `overwriteDesign` (large-data mode) the design's own storage becomes Q: one n×p array
+ * less at peak, at the cost of the refinement step.
  */
-import { applyQt, crossInverse, formThinQ, householderQR, invertUpper, solveUpper, upperR } from "./qr";
+import { applyQt, crossInverse, formThinQ, householderQR, invertUpper, solveUpper, thinQtVector, upperR } from "./qr";
 
 export interface LeastSquaresFit {
   readonly n: number;
@@ -29,6 +32,8 @@ export interface LeastSquaresFit {
   readonly dfResidual: number;
   /** √(rss / dfResidual). */
   readonly sigma: number;
+  /** True when the design's storage was reused for Q (large-data mode): the design is gone. */
+  readonly designOverwritten: boolean;
 }
 
 export interface LeastSquaresInput {
@@ -41,40 +46,66 @@ export interface LeastSquaresInput {
   readonly offset?: Float64Array | null;
 }
 
+/** X b for column-major X (n×p), four columns per pass over the result. */
+export function multiply(x: Float64Array, n: number, p: number, b: ArrayLike<number>): Float64Array {
+  const out = new Float64Array(n);
+  let j = 0;
+  for (; j + 3 < p; j += 4) {
+    const b0 = b[j], b1 = b[j + 1], b2 = b[j + 2], b3 = b[j + 3];
+    const o0 = j * n, o1 = o0 + n, o2 = o1 + n, o3 = o2 + n;
+    for (let i = 0; i < n; i++) out[i] += x[o0 + i] * b0 + x[o1 + i] * b1 + x[o2 + i] * b2 + x[o3 + i] * b3;
+  }
+  for (; j < p; j++) {
+    const bj = b[j];
+    const o = j * n;
+    for (let i = 0; i < n; i++) out[i] += x[o + i] * bj;
+  }
+  return out;
+}
+
 export type LeastSquaresOutcome =
   | { readonly ok: true; readonly fit: LeastSquaresFit }
   | { readonly ok: false; readonly aliased: readonly number[] };
 
 /** Fits y on X by (weighted) least squares; reports aliased columns instead of fitting around them. */
-export function leastSquares(input: LeastSquaresInput, tolerance?: number): LeastSquaresOutcome {
+export function leastSquares(
+  input: LeastSquaresInput,
+  tolerance?: number,
+  options: { overwriteDesign?: boolean } = {},
+): LeastSquaresOutcome {
   const { x, n, p, y } = input;
+  const overwrite = options.overwriteDesign === true;
   const sw = input.weights ? input.weights.map(Math.sqrt) : null;
-  const xw = new Float64Array(x);
+  const xw = overwrite ? x : new Float64Array(x);
   if (sw) for (let j = 0; j < p; j++) for (let i = 0; i < n; i++) xw[j * n + i] *= sw[i];
   const z = new Float64Array(n);
   for (let i = 0; i < n; i++) z[i] = (y[i] - (input.offset ? input.offset[i] : 0)) * (sw ? sw[i] : 1);
 
-  const f = householderQR(xw, n, p, { inPlace: true, tolerance });
+  const qty = new Float64Array(z);
+  const f = householderQR(xw, n, p, { inPlace: true, tolerance, rhs: qty });
   if (f.aliased.length > 0) return { ok: false, aliased: f.aliased };
   const r = upperR(f);
-
-  const qty = new Float64Array(z);
-  applyQt(f, qty);
   const b = qty.slice(0, p);
   solveUpper(r, p, b);
+  const q = formThinQ(f, true);
 
-  // one refinement step: b += R⁻¹ (Q' (z − √W X b))[0..p)
-  const res = weightedResidual(x, n, p, b, z, sw);
-  applyQt(f, res);
-  const delta = res.slice(0, p);
-  solveUpper(r, p, delta);
-  for (let j = 0; j < p; j++) b[j] += delta[j];
-
-  const fitted = new Float64Array(n);
-  for (let j = 0; j < p; j++) {
-    const bj = b[j];
-    const off = j * n;
-    for (let i = 0; i < n; i++) fitted[i] += x[off + i] * bj;
+  let fitted: Float64Array;
+  if (overwrite) {
+    // large-data mode: √W X b = Q R b
+    const rb = new Float64Array(p);
+    for (let i = 0; i < p; i++) {
+      let s = 0;
+      for (let j = i; j < p; j++) s += r[j * p + i] * b[j];
+      rb[i] = s;
+    }
+    fitted = multiply(q, n, p, rb);
+    if (sw) for (let i = 0; i < n; i++) fitted[i] /= sw[i];
+  } else {
+    // one refinement step: b += R⁻¹ Q' (z − √W X b)
+    const delta = thinQtVector(q, n, p, weightedResidual(x, n, p, b, z, sw));
+    solveUpper(r, p, delta);
+    for (let j = 0; j < p; j++) b[j] += delta[j];
+    fitted = multiply(x, n, p, b);
   }
   const residuals = new Float64Array(n);
   const weighted = new Float64Array(n);
@@ -87,7 +118,6 @@ export function leastSquares(input: LeastSquaresInput, tolerance?: number): Leas
   }
   const rInverse = invertUpper(r, p);
   const unscaledCovariance = crossInverse(rInverse, p);
-  const q = formThinQ(f, true);
   const dfResidual = n - p;
   return {
     ok: true,
@@ -106,6 +136,7 @@ export function leastSquares(input: LeastSquaresInput, tolerance?: number): Leas
       rss,
       dfResidual,
       sigma: Math.sqrt(rss / dfResidual),
+      designOverwritten: overwrite,
     },
   };
 }
@@ -118,14 +149,9 @@ function weightedResidual(
   z: Float64Array,
   sw: Float64Array | null,
 ): Float64Array {
-  const xb = new Float64Array(n);
-  for (let j = 0; j < p; j++) {
-    const bj = b[j];
-    const off = j * n;
-    for (let i = 0; i < n; i++) xb[i] += x[off + i] * bj;
-  }
-  const out = new Float64Array(n);
-  for (let i = 0; i < n; i++) out[i] = z[i] - (sw ? sw[i] : 1) * xb[i];
+  const out = multiply(x, n, p, b);
+  if (sw) for (let i = 0; i < n; i++) out[i] = z[i] - sw[i] * out[i];
+  else for (let i = 0; i < n; i++) out[i] = z[i] - out[i];
   return out;
 }
 

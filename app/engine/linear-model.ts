@@ -4,7 +4,7 @@
  */
 import { adjustedMeans, type AdjustedMean, type Contrast, type MeansWeighting } from "./adjusted-means";
 import { buildDesign, prepareData, type Design, type PreparedData, type Variable } from "./design";
-import { observationDiagnostics, robustCovariances, type ObservationDiagnostics } from "./diagnostics";
+import { observationDiagnostics, partialResiduals, robustCovariances, type ObservationDiagnostics } from "./diagnostics";
 import { fUpper, tQuantile, tTwoSided } from "./distributions";
 import { EngineError } from "./errors";
 import { leastSquares, type LeastSquaresFit } from "./least-squares";
@@ -261,17 +261,8 @@ function assembleResult(ctx: LinearFitContext, diag: ObservationDiagnostics, opt
       : tests;
   const means = adjustedMeans(ctx, cov, robust.HC3, options.meansWeighting ?? "equal");
 
-  const partialResiduals = design.terms.map((t) => {
-    const values = new Float64Array(n);
-    for (const c of t.columns) {
-      const b = fit.coefficients[c];
-      for (let i = 0; i < n; i++) values[i] += b * design.x[c * n + i];
-    }
-    let mean = 0;
-    for (let i = 0; i < n; i++) mean += values[i];
-    mean /= n;
-    return { term: t.label, values: Array.from(values, (v, i) => v - mean + fit.residuals[i]) };
-  });
+  const partial = partialResiduals(design.x, n, design.terms.map((t) => t.columns), fit.coefficients, fit.residuals);
+  const partialResidualColumns = design.terms.map((t, k) => ({ term: t.label, values: Array.from(partial[k]) }));
 
   return {
     kind: "linear",
@@ -324,7 +315,7 @@ function assembleResult(ctx: LinearFitContext, diag: ObservationDiagnostics, opt
       cooksDistance: Array.from(diag.cooksDistance),
       dffits: Array.from(diag.dffits),
       dfbetas: diag.dfbetas.map((c) => Array.from(c)),
-      partialResiduals,
+      partialResiduals: partialResidualColumns,
     },
     tests: fullTests,
     vif: varianceInflation(design, fit.unscaledCovariance),

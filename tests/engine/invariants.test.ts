@@ -116,3 +116,35 @@ describe("Householder QR", () => {
     expect(f.aliased).toEqual([2]);
   });
 });
+
+describe("large-data mode (design storage reused for Q)", () => {
+  it("gives the same fit, diagnostics and partial residuals as the standard mode", async () => {
+    const { leastSquares, observationDiagnostics, partialResiduals, partialResidualsFromQR } = await import("~/engine");
+    const n = 300;
+    const p = 5;
+    const x = new Float64Array(n * p);
+    const y = new Float64Array(n);
+    const w = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      x[i] = 1;
+      for (let j = 1; j < p; j++) x[j * n + i] = Math.sin(i * (j + 0.3)) * j + Math.cos(i * 0.01 * j);
+      y[i] = 1 + x[n + i] - 0.5 * x[2 * n + i] + Math.sin(i * 7.7);
+      w[i] = 1 + (i % 3);
+    }
+    const terms = [[1], [2, 3], [4]];
+    const standard = leastSquares({ x, n, p, y, weights: w });
+    const lean = leastSquares({ x: new Float64Array(x), n, p, y, weights: w }, undefined, { overwriteDesign: true });
+    if (!standard.ok || !lean.ok) throw new Error("aliased");
+    const a = observationDiagnostics(standard.fit);
+    const b = observationDiagnostics(lean.fit);
+    const pa = partialResiduals(x, n, terms, standard.fit.coefficients, standard.fit.residuals);
+    const pb = partialResidualsFromQR(lean.fit, terms);
+    for (let j = 0; j < p; j++) expect(lean.fit.coefficients[j]).toBeCloseTo(standard.fit.coefficients[j], 11);
+    for (let i = 0; i < n; i++) {
+      expect(b.leverage[i]).toBeCloseTo(a.leverage[i], 12);
+      expect(b.cooksDistance[i]).toBeCloseTo(a.cooksDistance[i], 11);
+      expect(lean.fit.fitted[i]).toBeCloseTo(standard.fit.fitted[i], 10);
+      for (let t = 0; t < terms.length; t++) expect(pb[t][i]).toBeCloseTo(pa[t][i], 10);
+    }
+  });
+});
