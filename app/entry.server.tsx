@@ -5,7 +5,11 @@ import { isbot } from "isbot";
 import { renderToPipeableStream } from "react-dom/server";
 import { ServerRouter, type EntryContext } from "react-router";
 import { NonceContext } from "./components/nonce";
+import { startBackgroundWork } from "./.server/background.server";
 import { contentSecurityPolicy } from "./.server/security.server";
+
+// Reruns and other jobs run in this process, off the request that queued them.
+startBackgroundWork();
 
 export const streamTimeout = 10_000;
 

@@ -15,6 +15,8 @@ export const NAME_ID_FORMAT = "urn:oasis:names:tc:SAML:1.1:nameid-format:emailAd
 
 export interface SamlSetup {
   signIn: SAML;
+  /** Sign-in that asks the identity provider to authenticate again (ForceAuthn), before a signature. */
+  freshSignIn: SAML;
   logout: SAML;
   cache: DatabaseCacheProvider;
   /** PEM of the identity provider's signing certificate, the only one trusted. */
@@ -60,6 +62,7 @@ export function createSamlSetup(): SamlSetup {
   };
   return {
     signIn: new SAML({ ...common, validateInResponseTo: ValidateInResponseTo.always }),
+    freshSignIn: new SAML({ ...common, validateInResponseTo: ValidateInResponseTo.always, forceAuthn: true }),
     logout: new SAML({ ...common, validateInResponseTo: ValidateInResponseTo.ifPresent }),
     cache,
     trustedCert,

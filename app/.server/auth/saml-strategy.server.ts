@@ -18,6 +18,8 @@ import { withClaims } from "./saml-cache.server";
 
 export interface SamlStrategyOptions {
   saml: SAML;
+  /** Same settings with ForceAuthn: the identity provider must authenticate the person anew. */
+  freshSaml?: SAML;
   trustedCert: string;
   idpIssuer: string;
 }
@@ -97,7 +99,8 @@ export class SamlStrategy<User> extends Strategy<User, SamlVerifyParams> {
     if (request.method === "GET" || request.method === "HEAD") {
       const url = new URL(request.url);
       const relayState = url.searchParams.get("returnTo") ?? "/";
-      throw redirect(await this.options.saml.getAuthorizeUrlAsync(relayState, url.host, {}));
+      const saml = url.searchParams.get("fresh") === "1" && this.options.freshSaml ? this.options.freshSaml : this.options.saml;
+      throw redirect(await saml.getAuthorizeUrlAsync(relayState, url.host, {}));
     }
     const form = await request.formData();
     const samlResponse = form.get("SAMLResponse");

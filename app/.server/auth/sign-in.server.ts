@@ -54,7 +54,7 @@ function auth(): Authenticator<SamlSignIn> {
   if (authenticator) return authenticator;
   const setup = samlSetup();
   const strategy = new SamlStrategy<SamlSignIn>(
-    { saml: setup.signIn, trustedCert: setup.trustedCert, idpIssuer: setup.idpIssuer },
+    { saml: setup.signIn, freshSaml: setup.freshSignIn, trustedCert: setup.trustedCert, idpIssuer: setup.idpIssuer },
     async ({ profile, relayState }) => {
       const person = await recordSignIn(identityFromProfile(profile, setup.adminGroup));
       return { person, nameId: profile.nameID, sessionIndex: profile.sessionIndex, returnTo: safeReturnTo(relayState) };
@@ -100,7 +100,8 @@ export async function startSamlSignIn(request: Request): Promise<Response> {
   const returnTo = safeReturnTo(url.searchParams.get("returnTo"));
   const status = await identityProviderStatus();
   if (!status.answering) return redirect(`/sign-in?error=unavailable&returnTo=${encodeURIComponent(returnTo)}`);
-  const start = new Request(`${url.origin}${url.pathname}?returnTo=${encodeURIComponent(returnTo)}`, { method: "GET" });
+  const fresh = url.searchParams.get("fresh") === "1" ? "&fresh=1" : "";
+  const start = new Request(`${url.origin}${url.pathname}?returnTo=${encodeURIComponent(returnTo)}${fresh}`, { method: "GET" });
   try {
     await auth().authenticate("saml", start);
   } catch (thrown) {

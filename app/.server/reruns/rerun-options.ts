@@ -1,0 +1,27 @@
+/** How a rerun differs from the planned fit: the primary analysis or one of its sensitivity analyses. */
+import { z } from "zod";
+
+export const rerunOptionsSchema = z.discriminatedUnion("variant", [
+  z.object({ variant: z.literal("planned") }),
+  z.object({ variant: z.literal("robust_hc3") }),
+  z.object({ variant: z.literal("variance_function"), varianceBy: z.enum(["fitted", "treatment"]) }),
+  /** Subjects left out by row number (1-based data rows of the locked file). */
+  z.object({ variant: z.literal("exclude_rows"), rows: z.array(z.number().int().positive()).min(1), reason: z.string() }),
+  z.object({ variant: z.literal("alternative_covariates"), covariates: z.array(z.string()), label: z.string() }),
+]);
+export type RerunOptions = z.infer<typeof rerunOptionsSchema>;
+
+export function describeOptions(o: RerunOptions): string {
+  switch (o.variant) {
+    case "planned":
+      return "Primary analysis as planned";
+    case "robust_hc3":
+      return "Robust (HC3) standard errors";
+    case "variance_function":
+      return o.varianceBy === "treatment" ? "Weighted fit, variance per arm" : "Weighted fit, variance depending on the fitted values";
+    case "exclude_rows":
+      return `Excluding ${o.rows.length} subject${o.rows.length === 1 ? "" : "s"} (${o.reason})`;
+    case "alternative_covariates":
+      return `${o.label}: ${o.covariates.join(", ") || "treatment only"}`;
+  }
+}

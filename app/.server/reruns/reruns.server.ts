@@ -1,0 +1,337 @@
+/**
+ * Reruns: an approved planned model fitted to a locked dataset version by the engine, off the
+ * request in a background job. The stored result is canonical JSON; its SHA-256 is recorded,
+ * and because the input (dataset bytes, plan version, engine version, options) fully
+ * determines it, rerunning yields the same hash. A model that cannot be estimated as planned
+ * is kept as a failed rerun with the engine's reason and a finding of that kind.
+ */
+import { createHash } from "node:crypto";
+import { and, asc, desc, eq, inArray } from "drizzle-orm";
+import { data } from "react-router";
+import { evaluateChecks, type CheckOutcome } from "~/engine/checks";
+import { EngineError, ENGINE_VERSION, fitModel, fitWithEstimatedVariance, fitWithRobustErrors, RESULTS_CAUTION, type LinearModelResult, type ModelSpec, type Term } from "~/engine";
+import { appendAudit, canonicalJson, SYSTEM_ACTOR } from "../audit.server";
+import { loadLockedTable } from "../datasets/catalog.server";
+import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
+import { enqueueJob, registerJobHandler, type Job } from "../jobs/jobs.server";
+import type { PersonActor } from "../people.server";
+import type { Population } from "../plans/planned-model";
+import { getPlannedModel, type StoredPlannedModel } from "../plans/plans.server";
+import { describeOptions, rerunOptionsSchema, type RerunOptions } from "./rerun-options";
+
+export type Rerun = typeof t.reruns.$inferSelect;
+
+/** Everything a rerun stored: the engine's result, the plan's checks evaluated on it, and its inputs. */
+export interface RerunDocument {
+  engineVersion: string;
+  caution: string;
+  datasetSha256: string;
+  planVersionId: string;
+  plannedModel: { key: string; title: string };
+  options: RerunOptions;
+  description: string;
+  rows: { inFile: number; outsidePopulation: number; excludedByOption: number; missingCells: number; used: number };
+  population: Population;
+  result: LinearModelResult;
+  checks: CheckOutcome[];
+}
+
+export const RERUN_JOB = "rerun";
+
+interface ColumnTable {
+  columns: Record<string, string[]>;
+  rowNumbers: number[];
+}
+
+function filterRows(table: ColumnTable, keep: (i: number) => boolean): ColumnTable {
+  const idx: number[] = [];
+  for (let i = 0; i < table.rowNumbers.length; i++) if (keep(i)) idx.push(i);
+  const columns: Record<string, string[]> = {};
+  for (const [k, v] of Object.entries(table.columns)) columns[k] = idx.map((i) => v[i]);
+  return { columns, rowNumbers: idx.map((i) => table.rowNumbers[i]) };
+}
+
+/** The alternative covariate set: the treatment plus the chosen covariates, as the plan defines them. */
+function alternativeSpec(spec: ModelSpec, covariates: string[]): ModelSpec {
+  const main = spec.terms.filter((t): t is Extract<Term, { variable: string }> => "variable" in t);
+  const keep = new Set([...(spec.treatment ? [spec.treatment] : []), ...covariates]);
+  const terms: Term[] = [
+    ...main.filter((t) => keep.has(t.variable)),
+    ...covariates.filter((c) => !main.some((t) => t.variable === c)).map((variable) => ({ variable })),
+    ...spec.terms.filter((t): t is Extract<Term, { interaction: string[] }> => "interaction" in t && t.interaction.every((v) => keep.has(v))),
+  ];
+  return { ...spec, terms };
+}
+
+/** Fits the planned model (or its sensitivity variant) and evaluates the plan's checks. Pure apart from the inputs given. */
+export function computeRerun(model: StoredPlannedModel, table: ColumnTable, options: RerunOptions, meta: { datasetSha256: string; planVersionId: string }): RerunDocument {
+  const inFile = table.rowNumbers.length;
+  let working = table;
+  if (model.population) {
+    const cells = table.columns[model.population.column];
+    if (!cells) throw new EngineError(`column "${model.population.column}" (the population flag) is missing from the data`);
+    working = filterRows(table, (i) => cells[i].trim() === model.population!.value);
+  }
+  const inPopulation = working.rowNumbers.length;
+  if (options.variant === "exclude_rows") {
+    const drop = new Set(options.rows);
+    working = filterRows(working, (i) => !drop.has(working.rowNumbers[i]));
+  }
+  const excludedByOption = inPopulation - working.rowNumbers.length;
+  const spec = options.variant === "alternative_covariates" ? alternativeSpec(model.spec, options.covariates) : model.spec;
+  let result: LinearModelResult;
+  switch (options.variant) {
+    case "robust_hc3":
+      result = fitWithRobustErrors(spec, working, "HC3");
+      break;
+    case "variance_function":
+      result = fitWithEstimatedVariance(spec, working, options.varianceBy);
+      break;
+    default:
+      result = fitModel(spec, working);
+  }
+  return {
+    engineVersion: ENGINE_VERSION,
+    caution: RESULTS_CAUTION,
+    datasetSha256: meta.datasetSha256,
+    planVersionId: meta.planVersionId,
+    plannedModel: { key: model.key, title: model.title },
+    options,
+    description: describeOptions(options),
+    rows: { inFile, outsidePopulation: inFile - inPopulation, excludedByOption, missingCells: result.excluded, used: result.n },
+    population: model.population,
+    result,
+    checks: evaluateChecks(result, model.checks),
+  };
+}
+
+export function hashDocument(json: string): string {
+  return createHash("sha256").update(json).digest("hex");
+}
+
+/** Job handler: runs the rerun and stores its result, its findings, or why it failed. */
+export async function executeRerun(rerunId: string): Promise<void> {
+  const [rerun] = await db.select().from(t.reruns).where(eq(t.reruns.id, rerunId)).limit(1);
+  if (!rerun || rerun.status === "completed") return;
+  await writeTransaction((tx) => tx.update(t.reruns).set({ status: "running", startedAt: isoNow() }).where(eq(t.reruns.id, rerunId)));
+  const model = await getPlannedModel(rerun.plannedModelId);
+  const options = rerunOptionsSchema.parse(JSON.parse(rerun.optionsJson));
+  let doc: RerunDocument;
+  try {
+    const locked = await loadLockedTable(rerun.datasetVersionId);
+    if (locked.sha256 !== rerun.datasetSha256) throw new EngineError("the locked dataset's hash differs from the one recorded when the rerun was started");
+    doc = computeRerun(model, locked.table, options, { datasetSha256: locked.sha256, planVersionId: rerun.planVersionId });
+  } catch (e) {
+    if (!(e instanceof EngineError)) throw e;
+    const reason = e.message;
+    await writeTransaction(async (tx) => {
+      await tx.update(t.reruns).set({ status: "failed", failureReason: reason, engineVersion: ENGINE_VERSION, finishedAt: isoNow() }).where(eq(t.reruns.id, rerunId));
+      await tx.insert(t.findings).values({
+        id: newId(),
+        rerunId,
+        checkKey: "estimable",
+        kind: "not_estimable",
+        summary: `Not estimable as planned: ${reason}.`,
+      });
+      await appendAudit({ actor: SYSTEM_ACTOR, action: "rerun.fail", entityType: "rerun", entityId: rerunId, studyId: rerun.studyId, detail: reason }, tx);
+    });
+    return;
+  }
+  const json = canonicalJson(doc);
+  const hash = hashDocument(json);
+  await writeTransaction(async (tx) => {
+    await tx
+      .update(t.reruns)
+      .set({ status: "completed", resultJson: json, resultSha256: hash, engineVersion: doc.engineVersion, finishedAt: isoNow() })
+      .where(eq(t.reruns.id, rerunId));
+    if (rerun.kind === "primary") {
+      for (const c of doc.checks.filter((c) => c.outcome === "finding")) {
+        await tx.insert(t.findings).values({
+          id: newId(),
+          rerunId,
+          checkKey: c.key,
+          kind: "check",
+          statistic: c.statistic,
+          threshold: c.threshold,
+          summary: `${c.label}: ${c.summary}`,
+          detailJson: canonicalJson({ flaggedCount: c.flagged?.length ?? 0 }),
+        });
+      }
+    }
+    await appendAudit(
+      {
+        actor: SYSTEM_ACTOR,
+        action: "rerun.complete",
+        entityType: "rerun",
+        entityId: rerunId,
+        studyId: rerun.studyId,
+        after: { resultSha256: hash, findings: doc.checks.filter((c) => c.outcome === "finding").length },
+      },
+      tx,
+    );
+  });
+}
+
+/** A rerun job whose server stopped too often: the rerun is marked failed with the job's reason. */
+export async function failRerunOfJob(job: Job): Promise<void> {
+  const { rerunId } = JSON.parse(job.payloadJson) as { rerunId: string };
+  await writeTransaction(async (tx) => {
+    await tx.update(t.reruns).set({ status: "failed", failureReason: job.error ?? "interrupted", finishedAt: isoNow() }).where(eq(t.reruns.id, rerunId));
+    await appendAudit({ actor: SYSTEM_ACTOR, action: "rerun.fail", entityType: "rerun", entityId: rerunId, detail: job.error ?? "interrupted" }, tx);
+  });
+}
+
+registerJobHandler(RERUN_JOB, async (payload) => {
+  await executeRerun((payload as { rerunId: string }).rerunId);
+});
+
+export interface StartRerun {
+  plannedModelId: string;
+  datasetVersionId: string;
+  options: RerunOptions;
+  parentRerunId?: string | null;
+  prespecified?: boolean;
+}
+
+export async function startRerun(actor: PersonActor, studyId: string, input: StartRerun): Promise<string> {
+  const model = await getPlannedModel(input.plannedModelId);
+  const [pv] = await db
+    .select({ v: t.planVersions, studyId: t.analysisPlans.studyId })
+    .from(t.planVersions)
+    .innerJoin(t.analysisPlans, eq(t.analysisPlans.id, t.planVersions.planId))
+    .where(eq(t.planVersions.id, model.planVersionId))
+    .limit(1);
+  if (!pv || pv.studyId !== studyId) throw data({ message: "That planned model is not part of this study." }, { status: 404 });
+  if (pv.v.status !== "approved") throw data({ message: "Only planned models of an approved plan version can be rerun." }, { status: 409 });
+  const [dv] = await db
+    .select({ v: t.datasetVersions, d: t.datasets })
+    .from(t.datasetVersions)
+    .innerJoin(t.datasets, eq(t.datasets.id, t.datasetVersions.datasetId))
+    .where(eq(t.datasetVersions.id, input.datasetVersionId))
+    .limit(1);
+  if (!dv || dv.d.studyId !== studyId || dv.v.status !== "locked") throw data({ message: "Choose a locked version of this study's dataset." }, { status: 409 });
+  if (dv.d.name !== model.datasetName) throw data({ message: `The planned model reads ${model.datasetName}, not ${dv.d.name}.` }, { status: 409 });
+  const kind = input.options.variant === "planned" ? "primary" : "sensitivity";
+  return writeTransaction(async (tx) => {
+    const id = newId();
+    await tx.insert(t.reruns).values({
+      id,
+      studyId,
+      plannedModelId: model.id,
+      planVersionId: model.planVersionId,
+      datasetVersionId: dv.v.id,
+      kind,
+      sensitivityKey: kind === "sensitivity" ? input.options.variant : null,
+      parentRerunId: input.parentRerunId ?? null,
+      prespecified: input.prespecified ?? true,
+      optionsJson: canonicalJson(input.options),
+      label: describeOptions(input.options),
+      datasetSha256: dv.v.sha256,
+      startedBy: actor.id,
+    });
+    await enqueueJob(tx, RERUN_JOB, { rerunId: id });
+    await appendAudit(
+      {
+        actor,
+        action: "rerun.start",
+        entityType: "rerun",
+        entityId: id,
+        studyId,
+        after: { plannedModel: model.key, dataset: `${dv.d.name} v${dv.v.version}`, datasetSha256: dv.v.sha256, options: input.options, prespecified: input.prespecified ?? true },
+      },
+      tx,
+    );
+    return id;
+  });
+}
+
+export interface RerunListing {
+  id: string;
+  kind: "primary" | "sensitivity";
+  label: string | null;
+  status: Rerun["status"];
+  modelKey: string;
+  modelTitle: string;
+  datasetName: string;
+  datasetVersion: number;
+  planVersion: number;
+  createdAt: string;
+  startedBy: string | null;
+  findings: number;
+  signedAt: string | null;
+  parentRerunId: string | null;
+  prespecified: boolean;
+  resultSha256: string | null;
+}
+
+export async function listReruns(studyId: string): Promise<RerunListing[]> {
+  const rows = await db
+    .select({ r: t.reruns, m: t.plannedModels, dv: t.datasetVersions, d: t.datasets, pv: t.planVersions, who: t.people.displayName })
+    .from(t.reruns)
+    .innerJoin(t.plannedModels, eq(t.plannedModels.id, t.reruns.plannedModelId))
+    .innerJoin(t.datasetVersions, eq(t.datasetVersions.id, t.reruns.datasetVersionId))
+    .innerJoin(t.datasets, eq(t.datasets.id, t.datasetVersions.datasetId))
+    .innerJoin(t.planVersions, eq(t.planVersions.id, t.reruns.planVersionId))
+    .leftJoin(t.people, eq(t.people.id, t.reruns.startedBy))
+    .where(eq(t.reruns.studyId, studyId))
+    .orderBy(desc(t.reruns.createdAt));
+  const ids = rows.map((r) => r.r.id);
+  const counts = ids.length
+    ? await db.select({ rerunId: t.findings.rerunId }).from(t.findings).where(inArray(t.findings.rerunId, ids))
+    : [];
+  return rows.map(({ r, m, dv, d, pv, who }) => ({
+    id: r.id,
+    kind: r.kind,
+    label: r.label,
+    status: r.status,
+    modelKey: m.key,
+    modelTitle: m.title,
+    datasetName: d.name,
+    datasetVersion: dv.version,
+    planVersion: pv.version,
+    createdAt: r.createdAt,
+    startedBy: who,
+    findings: counts.filter((c) => c.rerunId === r.id).length,
+    signedAt: r.signedAt,
+    parentRerunId: r.parentRerunId,
+    prespecified: r.prespecified,
+    resultSha256: r.resultSha256,
+  }));
+}
+
+export async function getRerun(studyId: string, rerunId: string) {
+  const [row] = await db
+    .select({ r: t.reruns, m: t.plannedModels, dv: t.datasetVersions, d: t.datasets, pv: t.planVersions, who: t.people.displayName })
+    .from(t.reruns)
+    .innerJoin(t.plannedModels, eq(t.plannedModels.id, t.reruns.plannedModelId))
+    .innerJoin(t.datasetVersions, eq(t.datasetVersions.id, t.reruns.datasetVersionId))
+    .innerJoin(t.datasets, eq(t.datasets.id, t.datasetVersions.datasetId))
+    .innerJoin(t.planVersions, eq(t.planVersions.id, t.reruns.planVersionId))
+    .leftJoin(t.people, eq(t.people.id, t.reruns.startedBy))
+    .where(and(eq(t.reruns.id, rerunId), eq(t.reruns.studyId, studyId)))
+    .limit(1);
+  if (!row) throw data({ message: "There is no such rerun in this study." }, { status: 404 });
+  const doc = row.r.resultJson ? (JSON.parse(row.r.resultJson) as RerunDocument) : null;
+  return {
+    rerun: row.r,
+    model: { id: row.m.id, key: row.m.key, title: row.m.title },
+    dataset: { name: row.d.name, version: row.dv.version, sha256: row.dv.sha256, versionId: row.dv.id },
+    planVersion: { id: row.pv.id, version: row.pv.version, title: row.pv.title },
+    startedBy: row.who,
+    doc,
+  };
+}
+
+/** The sensitivity reruns started from a primary rerun, oldest first. */
+export async function sensitivityReruns(primaryId: string): Promise<Rerun[]> {
+  return db.select().from(t.reruns).where(eq(t.reruns.parentRerunId, primaryId)).orderBy(asc(t.reruns.createdAt));
+}
+
+/** Other completed reruns with the same inputs: "rerun again" proves the same hash. */
+export async function sameInputReruns(r: Rerun): Promise<{ id: string; resultSha256: string | null; createdAt: string }[]> {
+  const rows = await db
+    .select({ id: t.reruns.id, resultSha256: t.reruns.resultSha256, createdAt: t.reruns.createdAt, optionsJson: t.reruns.optionsJson, status: t.reruns.status })
+    .from(t.reruns)
+    .where(and(eq(t.reruns.plannedModelId, r.plannedModelId), eq(t.reruns.datasetVersionId, r.datasetVersionId)));
+  return rows.filter((x) => x.id !== r.id && x.optionsJson === r.optionsJson && x.status === "completed");
+}
