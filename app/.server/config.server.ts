@@ -30,6 +30,8 @@ const schema = z.object({
   SAML_ADMIN_GROUP: z.string().min(1).default("plumbline-admins"),
   /** Largest request body accepted outside dataset uploads, in bytes. */
   MAX_BODY_BYTES: z.coerce.number().int().positive().default(1_048_576),
+  /** Largest dataset file accepted by the upload route, in bytes (default 200 MB). */
+  DATASET_MAX_BYTES: z.coerce.number().int().positive().default(200_000_000),
 });
 
 export type Config = z.infer<typeof schema>;

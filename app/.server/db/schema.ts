@@ -100,7 +100,7 @@ export const datasetVersions = sqliteTable(
     id: text("id").primaryKey(),
     datasetId: text("dataset_id").notNull().references(() => datasets.id),
     version: integer("version").notNull(),
-    status: text("status", { enum: ["draft", "locked"] }).notNull().default("draft"),
+    status: text("status", { enum: ["draft", "locked", "superseded"] }).notNull().default("draft"),
     format: text("format", { enum: ["csv", "dataset-json"] }).notNull(),
     fileName: text("file_name").notNull(),
     byteSize: integer("byte_size").notNull(),

@@ -10,6 +10,7 @@ import { z } from "zod";
 import { appendAudit, SYSTEM_ACTOR } from "../audit.server";
 import { db, newId, t, writeTransaction } from "../db/index.server";
 import { STUDY_ROLES } from "../db/schema";
+import { seedDemoDataset } from "../datasets/demo-seed.server";
 import { DEMO_COMPOUND, DEMO_INDICATION, DEMO_SPONSOR, DEMO_STUDY_CODE, DEMO_STUDY_TITLE } from "./demo-study";
 
 const DemoPeopleFile = z.object({
@@ -37,7 +38,7 @@ export type SeedOutcome = { seeded: true; studyId: string } | { seeded: false; r
 export async function seedDemoStudy(people: DemoPerson[] = readDemoPeople()): Promise<SeedOutcome> {
   const [{ studies }] = await db.select({ studies: count() }).from(t.studies);
   if (studies > 0) return { seeded: false, reason: `the database already holds ${studies} stud${studies === 1 ? "y" : "ies"}` };
-  return writeTransaction(async (tx) => {
+  const outcome = await writeTransaction(async (tx): Promise<SeedOutcome> => {
     const studyId = newId();
     const study = {
       id: studyId,
@@ -77,4 +78,7 @@ export async function seedDemoStudy(people: DemoPerson[] = readDemoPeople()): Pr
     }
     return { seeded: true, studyId };
   });
+  // The data manager uploads and locks the demo dataset through the datasets service.
+  if (outcome.seeded) await seedDemoDataset(outcome.studyId);
+  return outcome;
 }

@@ -1,0 +1,662 @@
+/**
+ * The data manager's service: upload (check, screen, compare, store), screen decisions,
+ * column removal, lock, and the reads behind the datasets pages. Every change of state is
+ * one write transaction with its audit event.
+ */
+import { createHash } from "node:crypto";
+import { createReadStream } from "node:fs";
+import { open, readFile, writeFile } from "node:fs/promises";
+import { and, asc, desc, eq, inArray, isNull } from "drizzle-orm";
+import { stringify } from "csv-stringify/sync";
+import { appendAudit, type Actor } from "../audit.server";
+import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
+import type { ColumnMeta } from "./column-summary";
+import { readColumnsFileCached, writeColumnsFile, type ParsedColumns } from "./columns-file.server";
+import { summariseChanges, type ChangeSummary } from "./diff";
+import { formatOf, parseDatasetFile, type DatasetFormat, type ParseOptions } from "./parse.server";
+import { screenColumns } from "./screen";
+import {
+  absoluteStorePath,
+  blobRelativePath,
+  columnsRelativePath,
+  moveIntoStore,
+  newWorkPath,
+  removeQuietly,
+  sweepDatasetLeftovers,
+} from "./store.server";
+
+export type { ChangeSummary } from "./diff";
+export type DatasetVersionRow = typeof t.datasetVersions.$inferSelect;
+export type ScreenHitRow = typeof t.identifierScreenHits.$inferSelect;
+
+/** Dataset names: a letter, then letters, digits or underscores (as dataset names in a SAP). */
+export const DATASET_NAME = /^[A-Za-z][A-Za-z0-9_]{0,31}$/;
+
+export interface UploadRequest {
+  studyId: string;
+  datasetName: string;
+  fileName: string;
+  /** The uploaded bytes, already streamed to a work file (see newWorkPath). */
+  workPath: string;
+  byteSize: number;
+  sha256: string;
+  keyColumns?: string[];
+  numericColumns?: string[];
+}
+
+export type UploadResult =
+  | { ok: true; versionId: string; version: number; datasetId: string; hits: number; changes: ChangeSummary | null }
+  | { ok: false; problems: string[] };
+
+export type Progress = (phase: "parse" | "screen" | "store", fraction: number) => void;
+
+/** SHA-256 of a file, streamed. */
+export async function sha256OfFile(file: string): Promise<string> {
+  const hash = createHash("sha256");
+  for await (const chunk of createReadStream(file, { highWaterMark: 1 << 20 }) as AsyncIterable<Buffer>) hash.update(chunk);
+  return hash.digest("hex");
+}
+
+async function referencedStorePaths(): Promise<Set<string>> {
+  const rows = await db.select({ stored: t.datasetVersions.storedPath, parsed: t.datasetVersions.parsedPath }).from(t.datasetVersions);
+  return new Set(rows.flatMap((r) => [r.stored, r.parsed ?? ""]).filter(Boolean));
+}
+
+/** Removes what interrupted uploads left behind (see store.server.ts). */
+export async function sweepLeftovers(graceMs?: number): Promise<string[]> {
+  return sweepDatasetLeftovers(await referencedStorePaths(), graceMs);
+}
+
+async function latestLocked(datasetId: string): Promise<DatasetVersionRow | null> {
+  const [v] = await db
+    .select()
+    .from(t.datasetVersions)
+    .where(and(eq(t.datasetVersions.datasetId, datasetId), eq(t.datasetVersions.status, "locked")))
+    .orderBy(desc(t.datasetVersions.version))
+    .limit(1);
+  return v ?? null;
+}
+
+async function parsedOf(v: DatasetVersionRow): Promise<ParsedColumns> {
+  if (!v.parsedPath) throw new Error(`Version ${v.version} has no parsed columns in the store.`);
+  return readColumnsFileCached(absoluteStorePath(v.parsedPath));
+}
+
+/**
+ * Checks an uploaded file and, when it passes, stores it as the next draft version of the
+ * named dataset. On any problem nothing is stored: the work file is removed and the problems
+ * are returned (and recorded in the audit trail as a refused upload).
+ */
+export async function uploadDataset(actor: Actor, req: UploadRequest, progress: Progress = () => undefined): Promise<UploadResult> {
+  let columnsWork: string | null = null;
+  try {
+    await sweepLeftovers().catch(() => undefined);
+    const head = Buffer.alloc(64);
+    const fh = await open(req.workPath, "r");
+    await fh.read(head, 0, 64, 0).finally(() => fh.close());
+    const format: DatasetFormat = formatOf(req.fileName, head);
+    const options: ParseOptions = { keyColumns: req.keyColumns, numericColumns: req.numericColumns, onProgress: (f) => progress("parse", f) };
+    const outcome = await parseDatasetFile(req.workPath, req.fileName, format, options);
+    if (!outcome.ok) return await refuse(actor, req, outcome.problems);
+    const parsed = outcome.dataset;
+
+    const [existing] = await db
+      .select()
+      .from(t.datasets)
+      .where(and(eq(t.datasets.studyId, req.studyId), eq(t.datasets.name, req.datasetName)))
+      .limit(1);
+    if (existing) {
+      const [same] = await db
+        .select({ version: t.datasetVersions.version, status: t.datasetVersions.status })
+        .from(t.datasetVersions)
+        .where(and(eq(t.datasetVersions.datasetId, existing.id), eq(t.datasetVersions.sha256, req.sha256)))
+        .orderBy(desc(t.datasetVersions.version))
+        .limit(1);
+      if (same) {
+        return await refuse(actor, req, [
+          `${req.fileName} is byte for byte the same as version ${same.version} of ${req.datasetName} (${same.status}). Nothing changed, so no new version was made.`,
+        ]);
+      }
+    }
+    progress("screen", 0);
+    const hits = screenColumns(parsed.names.map((name, j) => ({ name, type: parsed.columns[j].type, cells: parsed.cells[j] })));
+    const previous = existing ? await latestLocked(existing.id) : null;
+    let changes: ChangeSummary | null = null;
+    if (previous) {
+      const before = await parsedOf(previous);
+      changes = summariseChanges(
+        { version: previous.version, names: before.names, cells: before.cells, keyColumns: JSON.parse(previous.keyColumnsJson) as string[] },
+        parsed,
+      );
+    }
+    progress("store", 0);
+    columnsWork = await newWorkPath("cols");
+    await writeColumnsFile(columnsWork, parsed);
+    const storedPath = blobRelativePath(req.sha256);
+    const parsedPath = columnsRelativePath(req.sha256);
+    await moveIntoStore(req.workPath, storedPath);
+    await moveIntoStore(columnsWork, parsedPath);
+    const saved = await writeTransaction(async (tx) => {
+      let datasetId = existing?.id;
+      if (!datasetId) {
+        datasetId = newId();
+        await tx.insert(t.datasets).values({ id: datasetId, studyId: req.studyId, name: req.datasetName, createdBy: actor.id });
+      }
+      const [last] = await tx
+        .select({ version: t.datasetVersions.version })
+        .from(t.datasetVersions)
+        .where(eq(t.datasetVersions.datasetId, datasetId))
+        .orderBy(desc(t.datasetVersions.version))
+        .limit(1);
+      const version = (last?.version ?? 0) + 1;
+      await tx
+        .update(t.datasetVersions)
+        .set({ status: "superseded" })
+        .where(and(eq(t.datasetVersions.datasetId, datasetId), eq(t.datasetVersions.status, "draft")));
+      const versionId = newId();
+      await tx.insert(t.datasetVersions).values({
+        id: versionId,
+        datasetId,
+        version,
+        status: "draft",
+        format,
+        fileName: req.fileName,
+        byteSize: req.byteSize,
+        sha256: req.sha256,
+        rowCount: parsed.rowNumbers.length,
+        columnsJson: JSON.stringify(parsed.columns),
+        keyColumnsJson: JSON.stringify(parsed.keyColumns),
+        storedPath,
+        parsedPath,
+        changeSummaryJson: changes ? JSON.stringify(changes) : null,
+        uploadedBy: actor.id,
+        uploadedAt: isoNow(),
+      });
+      for (const h of hits) {
+        await tx.insert(t.identifierScreenHits).values({
+          id: newId(),
+          datasetVersionId: versionId,
+          column: h.column,
+          rule: h.rule,
+          maskedExamplesJson: JSON.stringify({ label: h.ruleLabel, basis: h.basis, matches: h.matches, examples: h.maskedExamples }),
+        });
+      }
+      await appendAudit(
+        {
+          actor,
+          action: "dataset.upload",
+          entityType: "dataset_version",
+          entityId: versionId,
+          studyId: req.studyId,
+          after: {
+            dataset: req.datasetName,
+            version,
+            fileName: req.fileName,
+            format,
+            sha256: req.sha256,
+            byteSize: req.byteSize,
+            rows: parsed.rowNumbers.length,
+            columns: parsed.names.length,
+            keyColumns: parsed.keyColumns,
+            screenHits: hits.map((h) => `${h.column}: ${h.rule}`),
+            changes: changes ? { rowsAdded: changes.rowsAdded, rowsRemoved: changes.rowsRemoved, rowsChanged: changes.rowsChanged, columnsAdded: changes.columnsAdded, columnsRemoved: changes.columnsRemoved } : null,
+          },
+        },
+        tx,
+      );
+      return { versionId, version, datasetId };
+    });
+    progress("store", 1);
+    return { ok: true, ...saved, hits: hits.length, changes };
+  } finally {
+    await removeQuietly(req.workPath);
+    await removeQuietly(columnsWork);
+  }
+}
+
+async function refuse(actor: Actor, req: UploadRequest, problems: string[]): Promise<UploadResult> {
+  await appendAudit({
+    actor,
+    action: "dataset.upload_refused",
+    entityType: "dataset",
+    studyId: req.studyId,
+    after: { dataset: req.datasetName, fileName: req.fileName, sha256: req.sha256, byteSize: req.byteSize },
+    detail: problems.slice(0, 5).join("\n"),
+  });
+  return { ok: false, problems };
+}
+
+// ---------------------------------------------------------------------------------------------
+// Reads
+
+export interface ScreenHitView {
+  id: string;
+  column: string;
+  rule: string;
+  ruleLabel: string;
+  basis: "name" | "values";
+  matches: number;
+  maskedExamples: string[];
+  resolution: "removed" | "not_identifier" | null;
+  rationale: string | null;
+  resolvedBy: string | null;
+  resolvedAt: string | null;
+}
+
+export interface VersionSummary {
+  id: string;
+  version: number;
+  status: "draft" | "locked" | "superseded";
+  format: DatasetFormat;
+  fileName: string;
+  byteSize: number;
+  sha256: string;
+  rowCount: number;
+  columnCount: number;
+  uploadedBy: string | null;
+  uploadedAt: string;
+  lockedBy: string | null;
+  lockedAt: string | null;
+  unresolvedHits: number;
+  derivedFromVersion: number | null;
+  removedColumns: string[];
+  changes: ChangeSummary | null;
+}
+
+export interface DatasetListing {
+  id: string;
+  name: string;
+  versions: VersionSummary[];
+}
+
+async function peopleNames(ids: (string | null)[]): Promise<Map<string, string>> {
+  const wanted = [...new Set(ids.filter((x): x is string => Boolean(x)))];
+  if (wanted.length === 0) return new Map();
+  const rows = await db.select({ id: t.people.id, name: t.people.displayName }).from(t.people).where(inArray(t.people.id, wanted));
+  return new Map(rows.map((r) => [r.id, r.name]));
+}
+
+function summaryOf(v: DatasetVersionRow, names: Map<string, string>, unresolved: number, byId: Map<string, number>): VersionSummary {
+  return {
+    id: v.id,
+    version: v.version,
+    status: v.status,
+    format: v.format,
+    fileName: v.fileName,
+    byteSize: v.byteSize,
+    sha256: v.sha256,
+    rowCount: v.rowCount,
+    columnCount: (JSON.parse(v.columnsJson) as unknown[]).length,
+    uploadedBy: v.uploadedBy ? (names.get(v.uploadedBy) ?? null) : null,
+    uploadedAt: v.uploadedAt,
+    lockedBy: v.lockedBy ? (names.get(v.lockedBy) ?? null) : null,
+    lockedAt: v.lockedAt,
+    unresolvedHits: unresolved,
+    derivedFromVersion: v.derivedFromId ? (byId.get(v.derivedFromId) ?? null) : null,
+    removedColumns: v.removedColumnsJson ? (JSON.parse(v.removedColumnsJson) as string[]) : [],
+    changes: v.changeSummaryJson ? (JSON.parse(v.changeSummaryJson) as ChangeSummary) : null,
+  };
+}
+
+async function unresolvedCounts(versionIds: string[]): Promise<Map<string, number>> {
+  if (versionIds.length === 0) return new Map();
+  const rows = await db
+    .select({ v: t.identifierScreenHits.datasetVersionId })
+    .from(t.identifierScreenHits)
+    .where(and(inArray(t.identifierScreenHits.datasetVersionId, versionIds), isNull(t.identifierScreenHits.resolution)));
+  const counts = new Map<string, number>();
+  for (const r of rows) counts.set(r.v, (counts.get(r.v) ?? 0) + 1);
+  return counts;
+}
+
+/** The study's datasets, each with its versions, newest first. */
+export async function listDatasets(studyId: string): Promise<DatasetListing[]> {
+  const rows = await db
+    .select({ d: t.datasets, v: t.datasetVersions })
+    .from(t.datasets)
+    .leftJoin(t.datasetVersions, eq(t.datasetVersions.datasetId, t.datasets.id))
+    .where(eq(t.datasets.studyId, studyId))
+    .orderBy(asc(t.datasets.name), desc(t.datasetVersions.version));
+  const versions = rows.flatMap((r) => (r.v ? [r.v] : []));
+  const names = await peopleNames(versions.flatMap((v) => [v.uploadedBy, v.lockedBy]));
+  const unresolved = await unresolvedCounts(versions.map((v) => v.id));
+  const byId = new Map(versions.map((v) => [v.id, v.version]));
+  const out = new Map<string, DatasetListing>();
+  for (const { d, v } of rows) {
+    const entry = out.get(d.id) ?? { id: d.id, name: d.name, versions: [] };
+    out.set(d.id, entry);
+    if (v) entry.versions.push(summaryOf(v, names, unresolved.get(v.id) ?? 0, byId));
+  }
+  return [...out.values()];
+}
+
+export interface VersionDetail {
+  datasetId: string;
+  datasetName: string;
+  version: VersionSummary;
+  columns: ColumnMeta[];
+  keyColumns: string[];
+  hits: ScreenHitView[];
+  latestVersion: number;
+}
+
+async function versionInStudy(studyId: string, versionId: string): Promise<{ d: typeof t.datasets.$inferSelect; v: DatasetVersionRow } | null> {
+  const [row] = await db
+    .select({ d: t.datasets, v: t.datasetVersions })
+    .from(t.datasetVersions)
+    .innerJoin(t.datasets, eq(t.datasets.id, t.datasetVersions.datasetId))
+    .where(and(eq(t.datasetVersions.id, versionId), eq(t.datasets.studyId, studyId)))
+    .limit(1);
+  return row ?? null;
+}
+
+function hitView(h: ScreenHitRow, names: Map<string, string>): ScreenHitView {
+  const meta = JSON.parse(h.maskedExamplesJson) as { label: string; basis: "name" | "values"; matches: number; examples: string[] };
+  return {
+    id: h.id,
+    column: h.column,
+    rule: h.rule,
+    ruleLabel: meta.label,
+    basis: meta.basis,
+    matches: meta.matches,
+    maskedExamples: meta.examples,
+    resolution: h.resolution,
+    rationale: h.rationale,
+    resolvedBy: h.resolvedBy ? (names.get(h.resolvedBy) ?? null) : null,
+    resolvedAt: h.resolvedAt,
+  };
+}
+
+/** One version with its column summaries and screen hits, or null when it is not in this study. */
+export async function getVersionDetail(studyId: string, versionId: string): Promise<VersionDetail | null> {
+  const row = await versionInStudy(studyId, versionId);
+  if (!row) return null;
+  const { d, v } = row;
+  const hits = await db.select().from(t.identifierScreenHits).where(eq(t.identifierScreenHits.datasetVersionId, v.id)).orderBy(asc(t.identifierScreenHits.column));
+  const all = await db.select({ id: t.datasetVersions.id, version: t.datasetVersions.version }).from(t.datasetVersions).where(eq(t.datasetVersions.datasetId, d.id));
+  const names = await peopleNames([v.uploadedBy, v.lockedBy, ...hits.map((h) => h.resolvedBy)]);
+  const unresolved = hits.filter((h) => h.resolution === null).length;
+  return {
+    datasetId: d.id,
+    datasetName: d.name,
+    version: summaryOf(v, names, unresolved, new Map(all.map((a) => [a.id, a.version]))),
+    columns: JSON.parse(v.columnsJson) as ColumnMeta[],
+    keyColumns: JSON.parse(v.keyColumnsJson) as string[],
+    hits: hits.map((h) => hitView(h, names)),
+    latestVersion: Math.max(...all.map((a) => a.version)),
+  };
+}
+
+export interface RowsWindow {
+  total: number;
+  offset: number;
+  columns: string[];
+  rowNumbers: number[];
+  rows: string[][];
+}
+
+const sortCache = new Map<string, Uint32Array>();
+
+function sortOrder(versionId: string, parsed: ParsedColumns, meta: ColumnMeta[], column: string, descending: boolean): Uint32Array {
+  const key = `${versionId}\u0000${column}\u0000${descending}`;
+  const hit = sortCache.get(key);
+  if (hit) return hit;
+  const j = parsed.names.indexOf(column);
+  const cells = parsed.cells[j];
+  const n = cells.length;
+  const order = new Uint32Array(n);
+  for (let i = 0; i < n; i++) order[i] = i;
+  const sign = descending ? -1 : 1;
+  const missing = (c: string) => c === "" || c === "NA" || c === ".";
+  if (meta[j]?.type === "number") {
+    const values = new Float64Array(n);
+    for (let i = 0; i < n; i++) values[i] = missing(cells[i]) ? Number.NaN : Number(cells[i]);
+    order.sort((a, b) => {
+      const x = values[a];
+      const y = values[b];
+      if (Number.isNaN(x) || Number.isNaN(y)) return Number.isNaN(x) ? (Number.isNaN(y) ? a - b : 1) : -1;
+      return x === y ? a - b : sign * (x - y);
+    });
+  } else {
+    order.sort((a, b) => {
+      const x = cells[a];
+      const y = cells[b];
+      const mx = missing(x);
+      const my = missing(y);
+      if (mx || my) return mx ? (my ? a - b : 1) : -1;
+      return x === y ? a - b : x < y ? -sign : sign;
+    });
+  }
+  sortCache.set(key, order);
+  while (sortCache.size > 8) sortCache.delete(sortCache.keys().next().value as string);
+  return order;
+}
+
+/** A window of a version's rows for the preview table, optionally sorted by one column (missing last). */
+export async function readRowsWindow(
+  studyId: string,
+  versionId: string,
+  window: { offset: number; limit: number; sort?: { column: string; descending: boolean } | null },
+): Promise<RowsWindow | null> {
+  const row = await versionInStudy(studyId, versionId);
+  if (!row) return null;
+  const parsed = await parsedOf(row.v);
+  const meta = JSON.parse(row.v.columnsJson) as ColumnMeta[];
+  const total = parsed.rowNumbers.length;
+  const offset = Math.max(0, Math.min(window.offset, total));
+  const end = Math.min(total, offset + Math.max(0, Math.min(window.limit, 1000)));
+  const order = window.sort && parsed.names.includes(window.sort.column) ? sortOrder(row.v.id, parsed, meta, window.sort.column, window.sort.descending) : null;
+  const rows: string[][] = [];
+  const rowNumbers: number[] = [];
+  for (let k = offset; k < end; k++) {
+    const i = order ? order[k] : k;
+    rows.push(parsed.cells.map((c) => c[i]));
+    rowNumbers.push(parsed.rowNumbers[i]);
+  }
+  return { total, offset, columns: parsed.names, rowNumbers, rows };
+}
+
+// ---------------------------------------------------------------------------------------------
+// Screen decisions, removal, lock
+
+export type ActionResult<T = object> = ({ ok: true } & T) | { ok: false; message: string };
+
+async function hitInStudy(studyId: string, hitId: string) {
+  const [row] = await db
+    .select({ h: t.identifierScreenHits, v: t.datasetVersions, d: t.datasets })
+    .from(t.identifierScreenHits)
+    .innerJoin(t.datasetVersions, eq(t.datasetVersions.id, t.identifierScreenHits.datasetVersionId))
+    .innerJoin(t.datasets, eq(t.datasets.id, t.datasetVersions.datasetId))
+    .where(and(eq(t.identifierScreenHits.id, hitId), eq(t.datasets.studyId, studyId)))
+    .limit(1);
+  return row ?? null;
+}
+
+/** Records why a flagged column is not a direct identifier. */
+export async function recordNotIdentifier(actor: Actor, studyId: string, hitId: string, rationale: string): Promise<ActionResult> {
+  const text = rationale.trim();
+  if (text.length < 10) return { ok: false, message: "Say in a sentence why this column is not an identifier (at least 10 characters), for example: pseudonymous subject code assigned by the study." };
+  const row = await hitInStudy(studyId, hitId);
+  if (!row) return { ok: false, message: "That screen result is not in this study." };
+  if (row.v.status !== "draft") return { ok: false, message: `Version ${row.v.version} is ${row.v.status}; screen decisions are made on the current draft only.` };
+  if (row.h.resolution) return { ok: false, message: `This hit was already resolved (${row.h.resolution === "removed" ? "column removed" : "not an identifier"}).` };
+  await writeTransaction(async (tx) => {
+    await tx
+      .update(t.identifierScreenHits)
+      .set({ resolution: "not_identifier", rationale: text, resolvedBy: actor.id, resolvedAt: isoNow() })
+      .where(eq(t.identifierScreenHits.id, hitId));
+    await appendAudit(
+      {
+        actor,
+        action: "dataset.screen_decision",
+        entityType: "dataset_version",
+        entityId: row.v.id,
+        studyId,
+        before: { column: row.h.column, rule: row.h.rule, resolution: null },
+        after: { column: row.h.column, rule: row.h.rule, resolution: "not_identifier", rationale: text },
+      },
+      tx,
+    );
+  });
+  return { ok: true };
+}
+
+/** The version's file without one column, in the version's own format. */
+async function bytesWithout(v: DatasetVersionRow, parsed: ParsedColumns, column: string): Promise<Buffer> {
+  const keep = parsed.names.map((n, j) => (n === column ? -1 : j)).filter((j) => j >= 0);
+  if (v.format === "dataset-json") {
+    const doc = JSON.parse(await readFile(absoluteStorePath(v.storedPath), "utf8")) as { columns: { name: string }[]; rows: unknown[][] };
+    const at = doc.columns.findIndex((c) => c.name.trim() === column);
+    doc.columns = doc.columns.filter((_, i) => i !== at);
+    doc.rows = doc.rows.map((r) => r.filter((_, i) => i !== at));
+    return Buffer.from(JSON.stringify(doc), "utf8");
+  }
+  const n = parsed.rowNumbers.length;
+  const records: string[][] = [keep.map((j) => parsed.names[j])];
+  for (let i = 0; i < n; i++) records.push(keep.map((j) => parsed.cells[j][i]));
+  return Buffer.from(stringify(records, { record_delimiter: "\n" }), "utf8");
+}
+
+/**
+ * Removes a flagged column: writes a new draft version derived from this one without the
+ * column, records what was removed, and carries the other screen results over.
+ */
+export async function removeFlaggedColumn(actor: Actor, studyId: string, hitId: string): Promise<ActionResult<{ versionId: string; version: number }>> {
+  const row = await hitInStudy(studyId, hitId);
+  if (!row) return { ok: false, message: "That screen result is not in this study." };
+  const { v, h } = row;
+  if (v.status !== "draft") return { ok: false, message: `Version ${v.version} is ${v.status}; columns are removed from the current draft only.` };
+  const parsed = await parsedOf(v);
+  const meta = JSON.parse(v.columnsJson) as ColumnMeta[];
+  if (parsed.names.length === 1) return { ok: false, message: `"${h.column}" is the only column; a dataset without columns cannot be stored.` };
+  const key = JSON.parse(v.keyColumnsJson) as string[];
+  if (key.includes(h.column)) {
+    return { ok: false, message: `"${h.column}" is part of the dataset's key (${key.join(", ")}). Records could no longer be told apart; record why it is not an identifier instead, or replace it with a pseudonymous code and upload again.` };
+  }
+  const bytes = await bytesWithout(v, parsed, h.column);
+  const sha256 = createHash("sha256").update(bytes).digest("hex");
+  const j = parsed.names.indexOf(h.column);
+  const derived: ParsedColumns = {
+    names: parsed.names.filter((_, i) => i !== j),
+    cells: parsed.cells.filter((_, i) => i !== j),
+    rowNumbers: parsed.rowNumbers,
+  };
+  const blobWork = await newWorkPath("blob");
+  const colsWork = await newWorkPath("cols");
+  try {
+    await writeFile(blobWork, bytes);
+    await writeColumnsFile(colsWork, derived);
+    await moveIntoStore(blobWork, blobRelativePath(sha256));
+    await moveIntoStore(colsWork, columnsRelativePath(sha256));
+    const removed = [...(v.removedColumnsJson ? (JSON.parse(v.removedColumnsJson) as string[]) : []), h.column];
+    return await writeTransaction(async (tx) => {
+      const [last] = await tx
+        .select({ version: t.datasetVersions.version })
+        .from(t.datasetVersions)
+        .where(eq(t.datasetVersions.datasetId, v.datasetId))
+        .orderBy(desc(t.datasetVersions.version))
+        .limit(1);
+      const version = (last?.version ?? 0) + 1;
+      const versionId = newId();
+      const changes: ChangeSummary | null = v.changeSummaryJson
+        ? { ...(JSON.parse(v.changeSummaryJson) as ChangeSummary), columnsRemoved: [...(JSON.parse(v.changeSummaryJson) as ChangeSummary).columnsRemoved, h.column] }
+        : null;
+      await tx.update(t.datasetVersions).set({ status: "superseded" }).where(eq(t.datasetVersions.id, v.id));
+      await tx.insert(t.datasetVersions).values({
+        id: versionId,
+        datasetId: v.datasetId,
+        version,
+        status: "draft",
+        format: v.format,
+        fileName: v.fileName,
+        byteSize: bytes.length,
+        sha256,
+        rowCount: v.rowCount,
+        columnsJson: JSON.stringify(meta.filter((c) => c.name !== h.column)),
+        keyColumnsJson: v.keyColumnsJson,
+        storedPath: blobRelativePath(sha256),
+        parsedPath: columnsRelativePath(sha256),
+        derivedFromId: v.id,
+        removedColumnsJson: JSON.stringify(removed),
+        changeSummaryJson: changes ? JSON.stringify(changes) : null,
+        uploadedBy: actor.id,
+        uploadedAt: isoNow(),
+      });
+      await tx.update(t.identifierScreenHits).set({ resolution: "removed", resolvedBy: actor.id, resolvedAt: isoNow() }).where(eq(t.identifierScreenHits.id, h.id));
+      const others = await tx.select().from(t.identifierScreenHits).where(eq(t.identifierScreenHits.datasetVersionId, v.id));
+      for (const o of others) {
+        if (o.column === h.column) continue;
+        await tx.insert(t.identifierScreenHits).values({ ...o, id: newId(), datasetVersionId: versionId });
+      }
+      await appendAudit(
+        {
+          actor,
+          action: "dataset.column_remove",
+          entityType: "dataset_version",
+          entityId: versionId,
+          studyId,
+          before: { version: v.version, sha256: v.sha256, columns: parsed.names.length },
+          after: { version, sha256, derivedFrom: v.version, removedColumn: h.column, rule: h.rule, columns: derived.names.length },
+        },
+        tx,
+      );
+      return { ok: true as const, versionId, version };
+    });
+  } finally {
+    await removeQuietly(blobWork);
+    await removeQuietly(colsWork);
+  }
+}
+
+/** Locks a draft version: refused while a screen hit is unresolved or when the stored bytes no longer match their hash. */
+export async function lockVersion(actor: Actor, studyId: string, versionId: string): Promise<ActionResult<{ sha256: string }>> {
+  const row = await versionInStudy(studyId, versionId);
+  if (!row) return { ok: false, message: "That dataset version is not in this study." };
+  const { v, d } = row;
+  if (v.status !== "draft") return { ok: false, message: `Version ${v.version} of ${d.name} is ${v.status}; only the current draft can be locked.` };
+  const open = await db
+    .select({ column: t.identifierScreenHits.column })
+    .from(t.identifierScreenHits)
+    .where(and(eq(t.identifierScreenHits.datasetVersionId, v.id), isNull(t.identifierScreenHits.resolution)));
+  if (open.length > 0) {
+    const columns = [...new Set(open.map((o) => o.column))];
+    return { ok: false, message: `Resolve the identifier screen first: ${columns.map((c) => `"${c}"`).join(", ")} ${columns.length === 1 ? "is" : "are"} still flagged. Remove the column or record why it is not an identifier.` };
+  }
+  const actual = await sha256OfFile(absoluteStorePath(v.storedPath));
+  if (actual !== v.sha256) return { ok: false, message: `The stored file of version ${v.version} no longer matches its SHA-256 (${v.sha256}); the store was changed outside Plumbline. Upload the file again.` };
+  const lockedAt = isoNow();
+  return writeTransaction(async (tx) => {
+    const [current] = await tx.select({ status: t.datasetVersions.status }).from(t.datasetVersions).where(eq(t.datasetVersions.id, v.id));
+    if (current?.status !== "draft") return { ok: false as const, message: `Version ${v.version} was ${current?.status} meanwhile.` };
+    await tx.update(t.datasetVersions).set({ status: "locked", lockedBy: actor.id, lockedAt }).where(eq(t.datasetVersions.id, v.id));
+    await appendAudit(
+      {
+        actor,
+        action: "dataset.lock",
+        entityType: "dataset_version",
+        entityId: v.id,
+        studyId,
+        before: { status: "draft" },
+        after: { status: "locked", dataset: d.name, version: v.version, sha256: v.sha256, rows: v.rowCount, lockedAt },
+      },
+      tx,
+    );
+    return { ok: true as const, sha256: v.sha256 };
+  });
+}
+
+/**
+ * Uploads bytes that are already in hand (the demo seed, scripts): writes them to a work file
+ * and goes through the same checks as a browser upload.
+ */
+export async function uploadBytes(
+  actor: Actor,
+  input: Omit<UploadRequest, "workPath" | "byteSize" | "sha256"> & { bytes: Buffer | string },
+  progress?: Progress,
+): Promise<UploadResult> {
+  const bytes = typeof input.bytes === "string" ? Buffer.from(input.bytes, "utf8") : input.bytes;
+  const workPath = await newWorkPath("upload");
+  await writeFile(workPath, bytes);
+  const { bytes: _ignored, ...rest } = input;
+  return uploadDataset(actor, { ...rest, workPath, byteSize: bytes.length, sha256: createHash("sha256").update(bytes).digest("hex") }, progress);
+}
