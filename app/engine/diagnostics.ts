@@ -225,28 +225,43 @@ export function partialResiduals(
  */
 export function partialResidualsFromQR(fit: LeastSquaresFit, termColumns: readonly (readonly number[])[]): Float64Array[] {
   const { n, p, q, r, coefficients, residuals, sqrtWeights } = fit;
-  return termColumns.map((cols) => {
-    const g = new Float64Array(p);
-    for (const j of cols) for (let k = 0; k <= j; k++) g[k] += r[j * p + k] * coefficients[j];
-    const values = new Float64Array(n);
-    let k = 0;
-    for (; k + 3 < p; k += 4) {
-      const g0 = g[k], g1 = g[k + 1], g2 = g[k + 2], g3 = g[k + 3];
-      if (g0 === 0 && g1 === 0 && g2 === 0 && g3 === 0) continue;
-      const o0 = k * n, o1 = o0 + n, o2 = o1 + n, o3 = o2 + n;
-      for (let i = 0; i < n; i++) values[i] += q[o0 + i] * g0 + q[o1 + i] * g1 + q[o2 + i] * g2 + q[o3 + i] * g3;
+  const terms = termColumns.length;
+  // G[k, t] = Σ_{j∈t, j≥k} R[k, j] b_j; the term's weighted contribution is Q G[:, t]
+  const g = new Float64Array(p * terms);
+  const top = new Int32Array(terms);
+  termColumns.forEach((cols, t) => {
+    for (const j of cols) {
+      for (let k = 0; k <= j; k++) g[t * p + k] += r[j * p + k] * coefficients[j];
+      top[t] = Math.max(top[t], j + 1);
     }
-    for (; k < p; k++) {
-      const gk = g[k];
-      if (gk === 0) continue;
-      const o = k * n;
-      for (let i = 0; i < n; i++) values[i] += q[o + i] * gk;
+  });
+  const out = termColumns.map(() => new Float64Array(n));
+  const CHUNK = 2048;
+  for (let r0 = 0; r0 < n; r0 += CHUNK) {
+    const r1 = Math.min(n, r0 + CHUNK);
+    for (let t = 0; t < terms; t++) {
+      const values = out[t];
+      const go = t * p;
+      const kmax = top[t];
+      let k = 0;
+      for (; k + 3 < kmax; k += 4) {
+        const g0 = g[go + k], g1 = g[go + k + 1], g2 = g[go + k + 2], g3 = g[go + k + 3];
+        const o0 = k * n, o1 = o0 + n, o2 = o1 + n, o3 = o2 + n;
+        for (let i = r0; i < r1; i++) values[i] += q[o0 + i] * g0 + q[o1 + i] * g1 + q[o2 + i] * g2 + q[o3 + i] * g3;
+      }
+      for (; k < kmax; k++) {
+        const gk = g[go + k];
+        const o = k * n;
+        for (let i = r0; i < r1; i++) values[i] += q[o + i] * gk;
+      }
+      if (sqrtWeights) for (let i = r0; i < r1; i++) values[i] /= sqrtWeights[i];
     }
+  }
+  for (const values of out) {
     let sum = 0;
-    if (sqrtWeights) for (let i = 0; i < n; i++) values[i] /= sqrtWeights[i];
     for (let i = 0; i < n; i++) sum += values[i];
     const mean = sum / n;
     for (let i = 0; i < n; i++) values[i] += residuals[i] - mean;
-    return values;
-  });
+  }
+  return out;
 }
