@@ -1,0 +1,239 @@
+import type { ReactNode } from "react";
+import { fmt, fmtCi, fmtP } from "./format";
+import { StatusLabel } from "./status";
+
+interface Coefficient {
+  name: string;
+  estimate: number;
+  se: number;
+  statistic: number;
+  p: number;
+  lower: number;
+  upper: number;
+}
+
+export function CoefficientTable({ rows, covarianceType, df }: { rows: readonly Coefficient[]; covarianceType: string; df: number }) {
+  return (
+    <table className="data-table">
+      <caption className="mb-1 text-left text-xs text-ink-soft">
+        Estimates with {covarianceType === "model" ? "model-based" : covarianceType} standard errors; t on {df} residual degrees of freedom; 95% confidence intervals.
+      </caption>
+      <thead>
+        <tr>
+          <th scope="col">Coefficient</th>
+          <th scope="col" className="text-right">
+            Estimate
+          </th>
+          <th scope="col" className="text-right">
+            SE
+          </th>
+          <th scope="col" className="text-right">
+            t
+          </th>
+          <th scope="col" className="text-right">
+            p
+          </th>
+          <th scope="col" className="text-right">
+            95% CI
+          </th>
+        </tr>
+      </thead>
+      <tbody>
+        {rows.map((c) => (
+          <tr key={c.name}>
+            <th scope="row" className="text-left font-normal">
+              {c.name}
+            </th>
+            <td className="num text-right">{fmt(c.estimate)}</td>
+            <td className="num text-right">{fmt(c.se)}</td>
+            <td className="num text-right">{fmt(c.statistic, 2)}</td>
+            <td className="num text-right">{fmtP(c.p)}</td>
+            <td className="num text-right whitespace-nowrap">{fmtCi(c.lower, c.upper)}</td>
+          </tr>
+        ))}
+      </tbody>
+    </table>
+  );
+}
+
+interface Mean {
+  level: string;
+  estimate: number;
+  se: number;
+  lower: number;
+  upper: number;
+  hc3: { se: number; lower: number; upper: number };
+}
+
+export function AdjustedMeansTable({ rows, weighting }: { rows: readonly Mean[]; weighting: string | null }) {
+  return (
+    <table className="data-table">
+      <caption className="mb-1 text-left text-xs text-ink-soft">
+        Adjusted means: continuous covariates at their mean over the rows used; other factors weighted {weighting === "proportional" ? "by observed proportions" : "equally over their levels"}.
+      </caption>
+      <thead>
+        <tr>
+          <th scope="col">Arm</th>
+          <th scope="col" className="text-right">
+            Adjusted mean
+          </th>
+          <th scope="col" className="text-right">
+            SE
+          </th>
+          <th scope="col" className="text-right">
+            95% CI
+          </th>
+          <th scope="col" className="text-right">
+            HC3 95% CI
+          </th>
+        </tr>
+      </thead>
+      <tbody>
+        {rows.map((m) => (
+          <tr key={m.level}>
+            <th scope="row" className="text-left font-normal">
+              {m.level}
+            </th>
+            <td className="num text-right">{fmt(m.estimate)}</td>
+            <td className="num text-right">{fmt(m.se)}</td>
+            <td className="num text-right whitespace-nowrap">{fmtCi(m.lower, m.upper)}</td>
+            <td className="num text-right whitespace-nowrap">{fmtCi(m.hc3.lower, m.hc3.upper)}</td>
+          </tr>
+        ))}
+      </tbody>
+    </table>
+  );
+}
+
+interface ContrastRow {
+  label: string;
+  estimate: number;
+  se: number;
+  lower: number;
+  upper: number;
+  p: number;
+  hc3: { se: number; lower: number; upper: number; p: number };
+}
+
+export function ContrastsTable({ rows }: { rows: readonly ContrastRow[] }) {
+  return (
+    <table className="data-table">
+      <caption className="mb-1 text-left text-xs text-ink-soft">Treatment contrasts against the reference arm (difference in adjusted means).</caption>
+      <thead>
+        <tr>
+          <th scope="col">Contrast</th>
+          <th scope="col" className="text-right">
+            Difference
+          </th>
+          <th scope="col" className="text-right">
+            SE
+          </th>
+          <th scope="col" className="text-right">
+            95% CI
+          </th>
+          <th scope="col" className="text-right">
+            p
+          </th>
+          <th scope="col" className="text-right">
+            HC3 SE
+          </th>
+          <th scope="col" className="text-right">
+            HC3 95% CI
+          </th>
+          <th scope="col" className="text-right">
+            HC3 p
+          </th>
+        </tr>
+      </thead>
+      <tbody>
+        {rows.map((c) => (
+          <tr key={c.label}>
+            <th scope="row" className="text-left font-normal">
+              {c.label}
+            </th>
+            <td className="num text-right font-semibold">{fmt(c.estimate)}</td>
+            <td className="num text-right">{fmt(c.se)}</td>
+            <td className="num text-right whitespace-nowrap">{fmtCi(c.lower, c.upper)}</td>
+            <td className="num text-right">{fmtP(c.p)}</td>
+            <td className="num text-right">{fmt(c.hc3.se)}</td>
+            <td className="num text-right whitespace-nowrap">{fmtCi(c.hc3.lower, c.hc3.upper)}</td>
+            <td className="num text-right">{fmtP(c.hc3.p)}</td>
+          </tr>
+        ))}
+      </tbody>
+    </table>
+  );
+}
+
+export interface CheckCardData {
+  key: string;
+  label: string;
+  outcome: "within" | "finding" | "not_computed";
+  statistic: string;
+  threshold: string;
+  summary: string;
+  remedy: string;
+  flagged: { rank: number; value: number; who: string }[];
+  flaggedCount: number;
+}
+
+const OUTCOME: Record<CheckCardData["outcome"], { status: "within" | "finding" | "pending"; word: string }> = {
+  within: { status: "within", word: "Within plan" },
+  finding: { status: "finding", word: "Finding" },
+  not_computed: { status: "pending", word: "Not computed" },
+};
+
+/** One planned check: statistic, threshold, outcome in word and shape, and the figure that supports it. */
+export function CheckCard({ check, figure }: { check: CheckCardData; figure?: ReactNode }) {
+  const o = OUTCOME[check.outcome];
+  return (
+    <article className="panel" aria-labelledby={`check-${check.key}`}>
+      <header className="flex flex-wrap items-baseline justify-between gap-2 border-b border-rule px-4 py-2">
+        <h3 id={`check-${check.key}`} className="text-base font-semibold">
+          {check.label}
+        </h3>
+        <StatusLabel status={o.status} word={o.word} />
+      </header>
+      <div className="grid gap-4 p-4 lg:grid-cols-[minmax(0,18rem)_1fr]">
+        <div className="space-y-2 text-sm">
+          <dl className="grid grid-cols-[6rem_1fr] gap-x-2 gap-y-1">
+            <dt className="font-semibold text-ink-soft">Statistic</dt>
+            <dd className="num">{check.statistic}</dd>
+            <dt className="font-semibold text-ink-soft">Threshold</dt>
+            <dd className="num">{check.threshold}</dd>
+          </dl>
+          <p>{check.summary}</p>
+          {check.flagged.length > 0 ? (
+            <table className="data-table">
+              <caption className="text-left text-xs text-ink-soft">
+                Most extreme {Math.min(check.flagged.length, 10)} of {check.flaggedCount} flagged
+              </caption>
+              <thead>
+                <tr>
+                  <th scope="col">Rank</th>
+                  <th scope="col">Subject</th>
+                  <th scope="col" className="text-right">
+                    Value
+                  </th>
+                </tr>
+              </thead>
+              <tbody>
+                {check.flagged.map((f) => (
+                  <tr key={f.rank}>
+                    <td className="num">{f.rank}</td>
+                    <td>{f.who}</td>
+                    <td className="num text-right">{fmt(f.value)}</td>
+                  </tr>
+                ))}
+              </tbody>
+            </table>
+          ) : null}
+          <p className="text-xs text-ink-soft">
+            <span className="font-semibold">Planned remedy:</span> {check.remedy}
+          </p>
+        </div>
+        <div className="min-w-0">{figure}</div>
+      </div>
+    </article>
+  );
+}

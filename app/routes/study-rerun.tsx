@@ -1,0 +1,561 @@
+import { useEffect } from "react";
+import { Form, Link, redirect, useNavigation, useRevalidator } from "react-router";
+import { z } from "zod";
+import type { Route } from "./+types/study-rerun";
+import { Caution } from "~/components/caution";
+import { RerunFigure } from "~/components/figures/rerun-figure";
+import { SensitivityForest, type ForestRow } from "~/components/figures/sensitivity-forest";
+import { WhatIfPanel, type WhatIfInputs } from "~/components/figures/what-if-panel";
+import { fmt, fmtCi, fmtP, utc } from "~/components/format";
+import { FieldError, PageHeader } from "~/components/page";
+import { AdjustedMeansTable, CheckCard, CoefficientTable, ContrastsTable } from "~/components/rerun-results";
+import { StatusLabel } from "~/components/status";
+import { actorOf } from "~/.server/people.server";
+import { getPlannedModel } from "~/.server/plans/plans.server";
+import { SENSITIVITY_LABELS, type PlannedSensitivity } from "~/.server/plans/planned-model";
+import { ACTIONS, Assessment, assessFinding, canSign, CATEGORIES, FindingConflict, findingsOf, IMPACTS, recordDeviation, signaturesOf, signRerun } from "~/.server/reruns/findings.server";
+import type { RerunOptions } from "~/.server/reruns/rerun-options";
+import { reportedContrasts, rerunView } from "~/.server/reruns/rerun-view.server";
+import { getRerun, sameInputReruns, sensitivityReruns, startRerun, type RerunDocument } from "~/.server/reruns/reruns.server";
+import { requireStudy } from "~/.server/study-access.server";
+
+export function meta({ loaderData }: Route.MetaArgs) {
+  return [{ title: `Rerun ${loaderData?.model.key ?? ""} · ${loaderData?.code ?? ""} · Plumbline` }];
+}
+
+/** The options of a planned sensitivity analysis, given the primary rerun's result. */
+function optionsFor(s: PlannedSensitivity, primary: RerunDocument | null): RerunOptions | null {
+  switch (s.kind) {
+    case "robust_hc3":
+      return { variant: "robust_hc3" };
+    case "variance_function":
+      return { variant: "variance_function", varianceBy: s.varianceBy ?? "fitted" };
+    case "alternative_covariates":
+      return { variant: "alternative_covariates", covariates: s.covariates ?? [], label: s.label ?? "Alternative covariate set" };
+    case "exclude_influential": {
+      const rows = primary?.checks.find((c) => c.key === "cooks_distance")?.flagged?.map((f) => f.row) ?? [];
+      return rows.length ? { variant: "exclude_rows", rows: [...rows].sort((a, b) => a - b), reason: "flagged by the Cook's distance check" } : null;
+    }
+  }
+}
+
+export async function loader({ request, params }: Route.LoaderArgs) {
+  const { study, user, allowed } = await requireStudy(request, params.studyId, "rerun.view");
+  const r = await getRerun(study.id, params.rerunId);
+  const withIds = allowed.has("dataset.rows");
+  const planned = await getPlannedModel(r.rerun.plannedModelId);
+  const [findings, signatures, children, twins, verdict] = await Promise.all([
+    findingsOf(r.rerun.id),
+    signaturesOf(r.rerun.id),
+    r.rerun.kind === "primary" ? sensitivityReruns(r.rerun.id) : Promise.resolve([]),
+    sameInputReruns(r.rerun),
+    allowed.has("rerun.sign") ? canSign(user, r.rerun.id) : Promise.resolve(null),
+  ]);
+  const childDocs = children.map((c) => ({ row: c, doc: c.resultJson ? (JSON.parse(c.resultJson) as RerunDocument) : null }));
+  const comparison = r.doc
+    ? [
+        { id: r.rerun.id, label: "Primary analysis as planned", prespecified: true, primary: true, status: r.rerun.status, contrasts: reportedContrasts(r.doc) },
+        ...childDocs.map(({ row, doc }) => ({ id: row.id, label: row.label ?? "Sensitivity analysis", prespecified: row.prespecified, primary: false, status: row.status, contrasts: doc ? reportedContrasts(doc) : [], failure: row.failureReason })),
+      ]
+    : [];
+  const plannedSensitivity = planned.sensitivity.map((s) => {
+    const options = optionsFor(s, r.doc);
+    const label = options ? (s.kind === "alternative_covariates" ? `${s.label}: ${(s.covariates ?? []).join(", ")}` : SENSITIVITY_LABELS[s.kind]) : SENSITIVITY_LABELS[s.kind];
+    const done = options ? children.some((c) => c.optionsJson === JSON.stringify(options) || c.label === labelOf(options)) : false;
+    return { kind: s.kind, label, runnable: Boolean(options) && r.rerun.status === "completed" && !r.rerun.signedAt, done, note: options ? null : "No subject was flagged, so there is nothing to exclude." };
+  });
+  const whatIf: WhatIfInputs = { available: false, reason: "The what-if opens when the rerun has completed." };
+  return {
+    studyId: study.id,
+    code: study.code,
+    rerun: {
+      id: r.rerun.id,
+      kind: r.rerun.kind,
+      label: r.rerun.label,
+      status: r.rerun.status,
+      failureReason: r.rerun.failureReason,
+      datasetSha256: r.rerun.datasetSha256,
+      resultSha256: r.rerun.resultSha256,
+      engineVersion: r.rerun.engineVersion,
+      createdAt: r.rerun.createdAt,
+      finishedAt: r.rerun.finishedAt,
+      signedAt: r.rerun.signedAt,
+      prespecified: r.rerun.prespecified,
+      parentRerunId: r.rerun.parentRerunId,
+    },
+    model: r.model,
+    dataset: r.dataset,
+    planVersion: r.planVersion,
+    startedBy: r.startedBy,
+    view: r.doc ? rerunView(r.doc, withIds) : null,
+    findings: findings.map((f) => ({ id: f.id, kind: f.kind, summary: f.summary, statistic: f.statistic, threshold: f.threshold, assessment: f.assessment ? { category: f.assessment.category, impact: f.assessment.impact, action: f.assessment.action, rationale: f.assessment.rationale, by: f.assessment.recordedByName, at: f.assessment.recordedAt } : null })),
+    signatures: signatures.map((s) => ({ name: s.signerName, meaning: s.meaning, at: s.signedAt })),
+    comparison,
+    plannedSensitivity,
+    twins: twins.map((tw) => ({ id: tw.id, same: tw.resultSha256 === r.rerun.resultSha256, at: tw.createdAt })),
+    can: {
+      start: allowed.has("rerun.start") && !r.rerun.signedAt,
+      assess: allowed.has("finding.assess") && !r.rerun.signedAt,
+      sign: verdict,
+    },
+    whatIf,
+  };
+}
+
+function labelOf(o: RerunOptions): string {
+  return JSON.stringify(o);
+}
+
+const Intent = z.discriminatedUnion("intent", [
+  z.object({ intent: z.literal("again") }),
+  z.object({ intent: z.literal("sensitivity"), kind: z.enum(["robust_hc3", "variance_function", "exclude_influential", "alternative_covariates"]) }),
+  z.object({ intent: z.literal("assess"), findingId: z.string().min(1) }).passthrough(),
+  z.object({ intent: z.literal("deviation") }).passthrough(),
+  z.object({ intent: z.literal("sign") }),
+  z.object({ intent: z.literal("whatif-save"), rows: z.string().regex(/^\d+(,\d+)*$/, "Choose at least one subject.") }),
+]);
+
+type ActionResult = { error: string | null; fieldErrors: Record<string, string>; target?: string };
+
+export async function action({ request, params }: Route.ActionArgs): Promise<ActionResult | Response> {
+  const form = Object.fromEntries(await request.formData());
+  const parsed = Intent.safeParse(form);
+  if (!parsed.success) return { error: parsed.error.issues[0]?.message ?? "That request was not understood.", fieldErrors: {} };
+  const input = parsed.data;
+  const needed = input.intent === "sign" ? "rerun.sign" : input.intent === "assess" || input.intent === "deviation" ? "finding.assess" : "rerun.start";
+  const { study, user } = await requireStudy(request, params.studyId, needed);
+  const actor = actorOf(user);
+  const r = await getRerun(study.id, params.rerunId);
+  const primaryId = r.rerun.parentRerunId ?? r.rerun.id;
+  try {
+    switch (input.intent) {
+      case "again": {
+        const options = JSON.parse(r.rerun.optionsJson) as RerunOptions;
+        const id = await startRerun(actor, study.id, { plannedModelId: r.rerun.plannedModelId, datasetVersionId: r.rerun.datasetVersionId, options, parentRerunId: r.rerun.parentRerunId, prespecified: r.rerun.prespecified });
+        return redirect(`/studies/${study.id}/reruns/${id}`);
+      }
+      case "sensitivity": {
+        const planned = await getPlannedModel(r.rerun.plannedModelId);
+        const s = planned.sensitivity.find((x) => x.kind === input.kind);
+        const options = s ? optionsFor(s, r.doc) : null;
+        if (!options) return { error: "That sensitivity analysis is not in the plan for this model, or there is nothing to run.", fieldErrors: {} };
+        await startRerun(actor, study.id, { plannedModelId: r.rerun.plannedModelId, datasetVersionId: r.rerun.datasetVersionId, options, parentRerunId: primaryId, prespecified: true });
+        return { error: null, fieldErrors: {} };
+      }
+      case "whatif-save": {
+        const rows = input.rows.split(",").map(Number).sort((a, b) => a - b);
+        const planned = await getPlannedModel(r.rerun.plannedModelId);
+        const flagged = (r.doc?.checks.find((c) => c.key === "cooks_distance")?.flagged ?? []).map((f) => f.row).sort((a, b) => a - b);
+        const prespecified = planned.sensitivity.some((s) => s.kind === "exclude_influential") && JSON.stringify(rows) === JSON.stringify(flagged);
+        await startRerun(actor, study.id, {
+          plannedModelId: r.rerun.plannedModelId,
+          datasetVersionId: r.rerun.datasetVersionId,
+          options: { variant: "exclude_rows", rows, reason: prespecified ? "flagged by the Cook's distance check" : "chosen in the what-if, not pre-specified" },
+          parentRerunId: primaryId,
+          prespecified,
+        });
+        return { error: null, fieldErrors: {} };
+      }
+      case "assess":
+      case "deviation": {
+        const a = Assessment.safeParse(form);
+        if (!a.success) {
+          const fieldErrors: Record<string, string> = {};
+          for (const i of a.error.issues) fieldErrors[String(i.path[0])] ??= i.message;
+          return { error: null, fieldErrors, target: input.intent === "assess" ? input.findingId : "deviation" };
+        }
+        if (input.intent === "assess") await assessFinding(actor, study.id, input.findingId, a.data);
+        else await recordDeviation(actor, study.id, r.rerun.id, a.data);
+        return { error: null, fieldErrors: {} };
+      }
+      case "sign": {
+        const verdict = await canSign(user, r.rerun.id);
+        if (!verdict.ok && verdict.reauthenticate) {
+          const back = `/studies/${study.id}/reruns/${r.rerun.id}#sign-off`;
+          return redirect(`/auth/saml/login?fresh=1&returnTo=${encodeURIComponent(back)}`);
+        }
+        await signRerun({ ...actor, signedInAt: user.signedInAt }, study.id, r.rerun.id);
+        return { error: null, fieldErrors: {} };
+      }
+    }
+  } catch (e) {
+    if (e instanceof FindingConflict) return { error: e.message, fieldErrors: {} };
+    throw e;
+  }
+}
+
+const STATUS = {
+  queued: { status: "pending", word: "Queued" },
+  running: { status: "pending", word: "Running" },
+  completed: { status: "within", word: "Completed" },
+  failed: { status: "finding", word: "Failed" },
+} as const;
+
+function AssessmentForm({ intent, findingId, errors, busy }: { intent: "assess" | "deviation"; findingId?: string; errors: Record<string, string>; busy: boolean }) {
+  const id = findingId ?? "deviation";
+  return (
+    <Form method="post" className="grid gap-2 md:grid-cols-3" preventScrollReset>
+      <input type="hidden" name="intent" value={intent} />
+      {findingId ? <input type="hidden" name="findingId" value={findingId} /> : null}
+      {(
+        [
+          ["category", "Category", CATEGORIES],
+          ["impact", "Impact on the treatment conclusion", IMPACTS],
+          ["action", "Action taken", ACTIONS],
+        ] as const
+      ).map(([name, label, options]) => (
+        <div key={name}>
+          <label htmlFor={`${id}-${name}`} className="label">
+            {label}
+          </label>
+          <select id={`${id}-${name}`} name={name} className="field" defaultValue="" aria-invalid={errors[name] ? true : undefined}>
+            <option value="" disabled>
+              Choose…
+            </option>
+            {Object.entries(options).map(([v, l]) => (
+              <option key={v} value={v}>
+                {l}
+              </option>
+            ))}
+          </select>
+          <FieldError id={`${id}-${name}-error`} message={errors[name]} />
+        </div>
+      ))}
+      <div className="md:col-span-3">
+        <label htmlFor={`${id}-rationale`} className="label">
+          Rationale
+        </label>
+        <textarea id={`${id}-rationale`} name="rationale" rows={2} className="field" aria-invalid={errors.rationale ? true : undefined} />
+        <FieldError id={`${id}-rationale-error`} message={errors.rationale} />
+      </div>
+      <div>
+        <button type="submit" className="btn" disabled={busy}>
+          {intent === "assess" ? "Record the assessment" : "Record the deviation"}
+        </button>
+      </div>
+    </Form>
+  );
+}
+
+export default function RerunPage({ loaderData, actionData }: Route.ComponentProps) {
+  const { rerun, view, findings, can, studyId, comparison } = loaderData;
+  const navigation = useNavigation();
+  const revalidator = useRevalidator();
+  const busy = navigation.state !== "idle";
+  const running = rerun.status === "queued" || rerun.status === "running";
+  useEffect(() => {
+    if (!running) return;
+    const timer = setInterval(() => {
+      if (revalidator.state === "idle") void revalidator.revalidate();
+    }, 500);
+    return () => clearInterval(timer);
+  }, [running, revalidator]);
+  const errorsFor = (target: string) => (actionData && "target" in actionData && actionData.target === target ? actionData.fieldErrors : {});
+  const open = findings.filter((f) => !f.assessment).length;
+  const status = STATUS[rerun.status];
+  const forest: Record<string, ForestRow[]> = {};
+  for (const a of comparison) for (const c of a.contrasts) (forest[c.label] ??= []).push({ label: a.label, estimate: c.estimate, lower: c.lower, upper: c.upper, prespecified: a.prespecified, primary: a.primary });
+
+  return (
+    <>
+      <PageHeader eyebrow={`${loaderData.code} · rerun${rerun.kind === "sensitivity" ? " · sensitivity analysis" : ""}`} title={`${loaderData.model.key} · ${loaderData.model.title}`}>
+        <StatusLabel status={status.status} word={status.word} />
+        {rerun.signedAt ? <StatusLabel status="within" word="Signed" /> : null}
+      </PageHeader>
+      {actionData && "error" in actionData && actionData.error ? (
+        <p role="alert" className="mb-4 rounded-sm border border-finding bg-sheet p-3 text-sm text-finding">
+          {actionData.error}
+        </p>
+      ) : null}
+      {rerun.kind === "sensitivity" ? (
+        <p className="mb-4 text-sm">
+          {rerun.label}
+          {rerun.prespecified ? "" : " · not pre-specified"} · <Link to={`/studies/${studyId}/reruns/${rerun.parentRerunId}`}>back to the primary rerun</Link>
+        </p>
+      ) : null}
+
+      <section className="panel mb-6 grid gap-x-6 gap-y-1 p-4 text-sm md:grid-cols-2" aria-label="Provenance">
+        <p>
+          <span className="font-semibold text-ink-soft">Dataset </span>
+          {loaderData.dataset.name} v{loaderData.dataset.version} · SHA-256 <span className="font-mono text-xs break-all">{rerun.datasetSha256}</span>
+        </p>
+        <p>
+          <span className="font-semibold text-ink-soft">Plan </span>
+          <Link to={`/studies/${studyId}/plans/${loaderData.planVersion.id}`}>
+            {loaderData.planVersion.title} v{loaderData.planVersion.version}
+          </Link>
+        </p>
+        <p>
+          <span className="font-semibold text-ink-soft">Engine </span>
+          {rerun.engineVersion ?? "—"} · <span className="font-semibold text-ink-soft">Started </span>
+          {utc(rerun.createdAt)} by {loaderData.startedBy}
+        </p>
+        <p>
+          <span className="font-semibold text-ink-soft">Result SHA-256 </span>
+          <span className="font-mono text-xs break-all">{rerun.resultSha256 ?? "—"}</span>
+        </p>
+        {loaderData.twins.length > 0 ? (
+          <p className="md:col-span-2">
+            {loaderData.twins.map((tw) => (
+              <span key={tw.id} className="mr-3 inline-flex items-center gap-1">
+                <StatusLabel status={tw.same ? "within" : "finding"} word={tw.same ? "Same result hash" : "Different result hash"} />
+                <Link to={`/studies/${studyId}/reruns/${tw.id}`} className="text-xs">
+                  rerun of {utc(tw.at)}
+                </Link>
+              </span>
+            ))}
+          </p>
+        ) : null}
+        {can.start && rerun.status === "completed" ? (
+          <Form method="post" className="md:col-span-2">
+            <input type="hidden" name="intent" value="again" />
+            <button type="submit" className="btn-quiet mt-2" disabled={busy}>
+              Rerun again with the same inputs
+            </button>
+          </Form>
+        ) : null}
+      </section>
+
+      {running ? (
+        <section className="panel mb-6 p-6" aria-live="polite">
+          <StatusLabel status="pending" word={rerun.status === "queued" ? "Waiting for the worker" : "Fitting the model and running the checks"} />
+          <div className="mt-3 h-1.5 w-full overflow-hidden rounded-sm bg-rule">
+            <div className="h-full w-1/3 animate-pulse bg-accent" />
+          </div>
+        </section>
+      ) : null}
+
+      {rerun.status === "failed" ? (
+        <section className="panel mb-6 p-4">
+          <StatusLabel status="finding" word="Not estimable as planned" />
+          <p className="mt-2 text-sm">{rerun.failureReason}</p>
+          <p className="mt-1 text-xs text-ink-soft">The rerun is kept as failed with this reason; assess the finding below and record the deviation.</p>
+        </section>
+      ) : null}
+
+      {view ? (
+        <div className="space-y-6">
+          <section aria-labelledby="rows-h">
+            <h2 id="rows-h" className="mb-2">
+              Rows
+            </h2>
+            <p className="num text-sm">
+              {view.rows.inFile} rows in the file · {view.rows.outsidePopulation} outside the population
+              {view.population ? ` (${view.population.column} ≠ ${view.population.value})` : ""} · {view.rows.excludedByOption} excluded by this analysis ·{" "}
+              {view.rows.missingCells} left out for missing cells · <span className="font-semibold">{view.rows.used} used</span> · {view.rank} coefficients · residual SE {fmt(view.fit.sigma)} · R² {fmt(view.fit.rSquared)}
+            </p>
+          </section>
+          {view.contrasts.length > 0 ? (
+            <section className="panel p-4" aria-labelledby="effect-h">
+              <h2 id="effect-h" className="mb-2">
+                Treatment effect
+              </h2>
+              <ContrastsTable rows={view.contrasts} />
+              {view.adjustedMeans ? (
+                <div className="mt-4">
+                  <AdjustedMeansTable rows={view.adjustedMeans} weighting={view.adjustedMeansWeighting} />
+                </div>
+              ) : null}
+            </section>
+          ) : null}
+          <section className="panel p-4" aria-labelledby="coef-h">
+            <h2 id="coef-h" className="mb-2">
+              Coefficients
+            </h2>
+            <CoefficientTable rows={view.coefficients} covarianceType={view.covarianceType} df={view.dfResidual} />
+          </section>
+
+          <section aria-labelledby="checks-h" className="space-y-3">
+            <h2 id="checks-h">Checks of the plan</h2>
+            <p className="text-sm text-ink-soft">
+              {view.checks.filter((c) => c.outcome === "within").length} within plan · {view.checks.filter((c) => c.outcome === "finding").length} findings ·{" "}
+              {view.checks.filter((c) => c.outcome === "not_computed").length} not computed
+            </p>
+            {view.checks.map((c) => (
+              <CheckCard key={c.key} check={c} figure={<RerunFigure studyId={studyId} rerunId={rerun.id} figure={c.figure} term={view.continuousTerms[0]} />} />
+            ))}
+            <article className="panel p-4">
+              <h3 className="mb-2 text-base font-semibold">Partial residuals</h3>
+              <p className="mb-2 text-xs text-ink-soft">Linearity of each continuous covariate's effect: the points should follow the straight line without a bend.</p>
+              <div className="grid gap-4 lg:grid-cols-2">
+                {view.continuousTerms.map((term) => (
+                  <RerunFigure key={term} studyId={studyId} rerunId={rerun.id} figure="partial_residuals" term={term} />
+                ))}
+              </div>
+            </article>
+          </section>
+        </div>
+      ) : null}
+
+      {rerun.kind === "primary" && (view || rerun.status === "failed") ? (
+        <section id="findings" className="mt-8 space-y-3" aria-labelledby="findings-h">
+          <h2 id="findings-h">Findings and their assessment</h2>
+          {findings.length === 0 ? <p className="text-sm text-ink-soft">Every check ended within plan: there is nothing to assess.</p> : null}
+          {findings.map((f) => (
+            <article key={f.id} className="panel p-4">
+              <div className="mb-2 flex flex-wrap items-baseline justify-between gap-2">
+                <p className="font-medium">{f.summary}</p>
+                {f.assessment ? <StatusLabel status="within" word="Assessed" /> : <StatusLabel status="pending" word="Awaiting assessment" />}
+              </div>
+              {f.statistic ? (
+                <p className="num mb-2 text-xs text-ink-soft">
+                  {f.statistic} · threshold {f.threshold}
+                </p>
+              ) : null}
+              {f.assessment ? (
+                <p className="text-sm">
+                  {CATEGORIES[f.assessment.category]} · impact: {IMPACTS[f.assessment.impact].toLowerCase()} · action: {ACTIONS[f.assessment.action as keyof typeof ACTIONS].toLowerCase()} — {f.assessment.rationale}{" "}
+                  <span className="text-xs text-ink-soft">
+                    ({f.assessment.by}, {utc(f.assessment.at)})
+                  </span>
+                </p>
+              ) : null}
+              {can.assess ? (
+                <details className="mt-2" open={!f.assessment}>
+                  <summary className="cursor-pointer text-sm text-accent-dark">{f.assessment ? "Change the assessment" : "Assess this finding"}</summary>
+                  <div className="mt-2">
+                    <AssessmentForm intent="assess" findingId={f.id} errors={errorsFor(f.id)} busy={busy} />
+                  </div>
+                </details>
+              ) : null}
+            </article>
+          ))}
+          {can.assess ? (
+            <details className="panel p-4">
+              <summary className="cursor-pointer text-sm text-accent-dark">Record a deviation that no check produced</summary>
+              <div className="mt-2">
+                <AssessmentForm intent="deviation" errors={errorsFor("deviation")} busy={busy} />
+              </div>
+            </details>
+          ) : null}
+        </section>
+      ) : null}
+
+      {rerun.kind === "primary" && view ? (
+        <section className="mt-8 space-y-3" aria-labelledby="sens-h">
+          <h2 id="sens-h">Sensitivity analyses</h2>
+          <div className="panel p-4">
+            <ul className="space-y-2 text-sm">
+              {loaderData.plannedSensitivity.map((s) => (
+                <li key={s.kind} className="flex flex-wrap items-center justify-between gap-2">
+                  <span>
+                    {s.label} <span className="text-xs text-ink-soft">(planned)</span>
+                    {s.note ? <span className="block text-xs text-ink-soft">{s.note}</span> : null}
+                  </span>
+                  {s.done ? (
+                    <StatusLabel status="within" word="Run" />
+                  ) : can.start && s.runnable ? (
+                    <Form method="post">
+                      <input type="hidden" name="intent" value="sensitivity" />
+                      <input type="hidden" name="kind" value={s.kind} />
+                      <button type="submit" className="btn-quiet" disabled={busy}>
+                        Run it
+                      </button>
+                    </Form>
+                  ) : null}
+                </li>
+              ))}
+              {loaderData.plannedSensitivity.length === 0 ? <li className="text-ink-soft">The plan names no sensitivity analysis for this model.</li> : null}
+            </ul>
+          </div>
+          {comparison.length > 1 ? (
+            <div className="panel space-y-4 p-4">
+              {Object.entries(forest).map(([label, rows]) => (
+                <SensitivityForest key={label} rows={rows} contrastLabel={label} />
+              ))}
+              <table className="data-table">
+                <caption className="mb-1 text-left text-xs text-ink-soft">The treatment contrast across analyses (HC3 intervals for the robust-errors analysis).</caption>
+                <thead>
+                  <tr>
+                    <th scope="col">Analysis</th>
+                    <th scope="col">Contrast</th>
+                    <th scope="col" className="text-right">
+                      Difference
+                    </th>
+                    <th scope="col" className="text-right">
+                      95% CI
+                    </th>
+                    <th scope="col" className="text-right">
+                      p
+                    </th>
+                  </tr>
+                </thead>
+                <tbody>
+                  {comparison.flatMap((a) =>
+                    a.contrasts.length === 0
+                      ? [
+                          <tr key={a.id}>
+                            <td>
+                              <Link to={`/studies/${studyId}/reruns/${a.id}`}>{a.label}</Link>
+                            </td>
+                            <td colSpan={4} className="text-ink-soft">
+                              {a.status === "failed" ? `failed: ${"failure" in a ? a.failure : ""}` : a.status}
+                            </td>
+                          </tr>,
+                        ]
+                      : a.contrasts.map((c, i) => (
+                          <tr key={`${a.id}-${c.label}`}>
+                            <td>
+                              {i === 0 ? (
+                                <>
+                                  <Link to={`/studies/${studyId}/reruns/${a.id}`}>{a.label}</Link>
+                                  {a.primary ? " (primary)" : a.prespecified ? " (planned)" : " (not pre-specified)"}
+                                </>
+                              ) : null}
+                            </td>
+                            <td>{c.label}</td>
+                            <td className="num text-right">{fmt(c.estimate)}</td>
+                            <td className="num text-right whitespace-nowrap">{fmtCi(c.lower, c.upper)}</td>
+                            <td className="num text-right">{fmtP(c.p)}</td>
+                          </tr>
+                        )),
+                  )}
+                </tbody>
+              </table>
+            </div>
+          ) : null}
+          {can.start && !rerun.signedAt ? (
+            <div className="panel p-4">
+              <h3 className="mb-2 text-base font-semibold">What if the influential subjects were left out?</h3>
+              <WhatIfPanel inputs={loaderData.whatIf} />
+            </div>
+          ) : null}
+        </section>
+      ) : null}
+
+      {rerun.kind === "primary" && rerun.status !== "queued" && rerun.status !== "running" ? (
+        <section id="sign-off" className="mt-8 panel p-4" aria-labelledby="sign-h">
+          <h2 id="sign-h" className="mb-2">
+            Sign-off
+          </h2>
+          {loaderData.signatures.length > 0 ? (
+            loaderData.signatures.map((s) => (
+              <p key={s.at} className="text-sm">
+                <StatusLabel status="within" word="Signed" /> {s.name} · “{s.meaning}” · {utc(s.at)}. Published to the study's sponsor readers.
+              </p>
+            ))
+          ) : can.sign ? (
+            can.sign.ok || can.sign.reauthenticate ? (
+              <Form method="post" className="space-y-2">
+                <input type="hidden" name="intent" value="sign" />
+                <p className="text-sm">
+                  Signing records your name, the time and the meaning <span className="font-semibold">“Reviewed and approved”</span>, makes this rerun unchangeable and
+                  publishes it to the sponsor readers.
+                  {can.sign.ok ? "" : " You will be asked to sign in again first."}
+                </p>
+                <button type="submit" className="btn" disabled={busy}>
+                  Sign this rerun
+                </button>
+              </Form>
+            ) : (
+              <p className="text-sm">{can.sign.reason}</p>
+            )
+          ) : (
+            <p className="text-sm text-ink-soft">{open > 0 ? `${open} findings await assessment.` : "Awaiting a biostatistician's signature."}</p>
+          )}
+        </section>
+      ) : null}
+      <Caution className="mt-8" />
+    </>
+  );
+}
