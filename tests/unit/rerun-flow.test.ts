@@ -1,0 +1,210 @@
+/**
+ * The biostatistician's audit from plan to signature, through the services on a real SQLite
+ * file with the seeded demo study: plan, two-person approval, rerun as a background job,
+ * checks and findings, determinism, sensitivity analysis, assessment and sign-off.
+ * Treatment estimates are compared with R's lm on the same data (tests/demo/demo-findings.json,
+ * written by tests/demo/check-demo.R: R 4.2 stats::lm, lmtest::bptest, car::leveneTest).
+ */
+import { readFileSync } from "node:fs";
+import { beforeAll, describe, expect, it } from "vitest";
+import { useTempDatabase } from "../support/temp-db";
+
+useTempDatabase();
+const { seedDemoStudy } = await import("~/.server/demo/seed.server");
+const { db, t } = await import("~/.server/db/index.server");
+const plans = await import("~/.server/plans/plans.server");
+const { validatePlannedModel, readPlannedModelForm } = await import("~/.server/plans/planned-model");
+const { listLockedVersions } = await import("~/.server/datasets/catalog.server");
+const reruns = await import("~/.server/reruns/reruns.server");
+const findings = await import("~/.server/reruns/findings.server");
+const { runOneJob } = await import("~/.server/jobs/jobs.server");
+const { verifyAuditChain } = await import("~/.server/audit.server");
+const { eq } = await import("drizzle-orm");
+
+const R = JSON.parse(readFileSync("tests/demo/demo-findings.json", "utf8")) as {
+  ancova: { n: number; highVsPlacebo: { estimate: number; p: number }; lowVsPlacebo: { estimate: number; p: number }; breuschPaganModelP: number; brownForsytheArmP: number; shapiroWilkP: number; cooksMax: { subjid: string; cooksD: number } };
+};
+
+type Actor = { id: string; name: string };
+let studyId = "";
+let priya: Actor;
+let tomas: Actor;
+let versionId = "";
+let modelId = "";
+let datasetVersionId = "";
+
+async function person(email: string): Promise<Actor> {
+  const [p] = await db.select().from(t.people).where(eq(t.people.email, email));
+  return { id: p.id, name: p.displayName };
+}
+
+async function drain(): Promise<void> {
+  while (await runOneJob()) {
+    // run every queued job
+  }
+}
+
+function primaryForm(): FormData {
+  const f = new FormData();
+  for (const [k, v] of Object.entries({
+    key: "primary",
+    title: "Primary efficacy: change from baseline at week 12",
+    datasetName: "adeff",
+    populationColumn: "fasfl",
+    populationValue: "Y",
+    response: "chg",
+    family: "gaussian",
+    treatment: "arm",
+    treatmentReference: "Placebo",
+    id: "subjid",
+  }))
+    f.set(k, v);
+  for (const c of ["base", "stratum", "region", "sex", "age"]) f.append("covariate", c);
+  for (const c of ["cooks_distance", "leverage", "deletion_residual", "dfbetas_treatment", "dffits", "shapiro_wilk", "breusch_pagan", "brown_forsythe", "homogeneity_of_slopes", "reset", "gvif"]) f.set(`check:${c}:enabled`, "on");
+  f.set("sensitivity:robust_hc3", "on");
+  f.set("sensitivity:exclude_influential", "on");
+  f.set("sensitivity:variance_function", "on");
+  f.set("sensitivity:varianceBy", "treatment");
+  return f;
+}
+
+beforeAll(async () => {
+  const seeded = await seedDemoStudy();
+  if (!seeded.seeded) throw new Error("seed failed");
+  studyId = seeded.studyId;
+  priya = await person("priya.lindqvist@plumbline.example");
+  tomas = await person("tomas.berg@plumbline.example");
+  datasetVersionId = (await listLockedVersions(studyId))[0].versionId;
+});
+
+describe("analysis plan", () => {
+  it("validates a planned model against the dataset's columns, naming the field", async () => {
+    const locked = await listLockedVersions(studyId);
+    const datasets = locked.map((v) => ({ name: v.datasetName, columns: v.columns }));
+    const bad = primaryForm();
+    bad.set("treatmentReference", "Active");
+    bad.set("response", "arm");
+    bad.append("covariate", "nosuchcolumn");
+    const result = validatePlannedModel(readPlannedModelForm(bad), datasets, []);
+    expect(result.ok).toBe(false);
+    if (result.ok) return;
+    expect(result.errors.treatmentReference).toMatch(/"Active" is not an arm of arm; the arms are .*Placebo/);
+    expect(result.errors.response).toMatch(/arm is text, not numeric/);
+    expect(result.errors["covariate:nosuchcolumn"]).toMatch(/Column "nosuchcolumn" is not in adeff/);
+  });
+
+  it("is written by one biostatistician and approved only by another", async () => {
+    const created = await plans.createPlan(priya, studyId, { title: "Efficacy models", sapName: "Statistical analysis plan", sapVersion: "2.0", sapDate: "2026-10-01" });
+    versionId = created.versionId;
+    const locked = await listLockedVersions(studyId);
+    const v = validatePlannedModel(readPlannedModelForm(primaryForm()), locked.map((x) => ({ name: x.datasetName, columns: x.columns })), []);
+    if (!v.ok) throw new Error(JSON.stringify(v.errors));
+    modelId = await plans.savePlannedModel(priya, studyId, versionId, 1, null, v.model);
+    // A second editor working from the old revision is refused, not silently overwritten.
+    await expect(plans.savePlannedModel(tomas, studyId, versionId, 1, modelId, { ...v.model, title: "Overwritten" })).rejects.toThrow(/Someone else saved this plan version/);
+    await plans.submitForApproval(priya, studyId, versionId, 2);
+    await expect(plans.approvePlanVersion(priya, studyId, versionId)).rejects.toThrow(/two-person rule/);
+    await plans.approvePlanVersion(tomas, studyId, versionId);
+    const { version } = await plans.getPlanVersion(studyId, versionId);
+    expect(version.status).toBe("approved");
+    expect(version.approvedBy).toBe(tomas.id);
+    await expect(plans.savePlannedModel(priya, studyId, versionId, version.revision, modelId, v.model)).rejects.toThrow();
+  });
+});
+
+describe("rerun of the primary model", () => {
+  let rerunId = "";
+  let doc: import("~/.server/reruns/reruns.server").RerunDocument;
+
+  beforeAll(async () => {
+    rerunId = await reruns.startRerun(priya, studyId, { plannedModelId: modelId, datasetVersionId, options: { variant: "planned" } });
+    await drain();
+    const r = await reruns.getRerun(studyId, rerunId);
+    expect(r.rerun.status).toBe("completed");
+    doc = r.doc!;
+  });
+
+  it("uses the population's complete cases and matches R's lm treatment contrasts (relative 1e-5 of R's six printed digits)", () => {
+    expect(doc.rows.used).toBe(R.ancova.n);
+    const high = doc.result.contrasts!.find((c) => c.label.startsWith("Lorvanitide 120 mg"))!;
+    const low = doc.result.contrasts!.find((c) => c.label.startsWith("Lorvanitide 40 mg"))!;
+    expect(high.estimate).toBeCloseTo(R.ancova.highVsPlacebo.estimate, 3);
+    expect(low.estimate).toBeCloseTo(R.ancova.lowVsPlacebo.estimate, 3);
+    expect(Math.abs(low.p / R.ancova.lowVsPlacebo.p - 1)).toBeLessThan(1e-4);
+  });
+
+  it("ends the planted checks as findings, with the planted influential subject first", () => {
+    const by = new Map(doc.checks.map((c) => [c.key, c]));
+    expect(by.get("breusch_pagan")?.outcome).toBe("finding");
+    expect(by.get("brown_forsythe")?.outcome).toBe("finding");
+    expect(by.get("shapiro_wilk")?.outcome).toBe("finding");
+    expect(by.get("gvif")?.outcome).toBe("within");
+    const cooks = by.get("cooks_distance")!;
+    expect(cooks.outcome).toBe("finding");
+    expect(cooks.flagged![0].id).toBe(R.ancova.cooksMax.subjid);
+    expect(cooks.flagged![0].value).toBeCloseTo(R.ancova.cooksMax.cooksD, 5);
+    expect(by.get("brown_forsythe")!.value! / R.ancova.brownForsytheArmP).toBeCloseTo(1, 3);
+    expect(by.get("breusch_pagan")!.value! / R.ancova.breuschPaganModelP).toBeCloseTo(1, 3);
+  });
+
+  it("is deterministic: rerunning gives a byte-identical result and the same hash", async () => {
+    const again = await reruns.startRerun(priya, studyId, { plannedModelId: modelId, datasetVersionId, options: { variant: "planned" } });
+    await drain();
+    const [a, b] = await Promise.all([reruns.getRerun(studyId, rerunId), reruns.getRerun(studyId, again)]);
+    expect(b.rerun.resultSha256).toBe(a.rerun.resultSha256);
+    expect(b.rerun.resultJson).toBe(a.rerun.resultJson);
+  });
+
+  it("runs the planned exclusion of influential subjects beside the primary", async () => {
+    const rows = doc.checks.find((c) => c.key === "cooks_distance")!.flagged!.map((f) => f.row);
+    const id = await reruns.startRerun(priya, studyId, { plannedModelId: modelId, datasetVersionId, options: { variant: "exclude_rows", rows, reason: "flagged" }, parentRerunId: rerunId });
+    await drain();
+    const s = await reruns.getRerun(studyId, id);
+    expect(s.rerun.status).toBe("completed");
+    expect(s.doc!.rows.excludedByOption).toBe(rows.length);
+    expect(s.doc!.rows.used).toBe(doc.rows.used - rows.length);
+    expect((await reruns.sensitivityReruns(rerunId)).map((x) => x.id)).toContain(id);
+  });
+
+  it("is signed only after every finding is assessed, by someone who did not assess, with a fresh sign-in", async () => {
+    const fresh = new Date().toISOString();
+    expect((await findings.canSign({ id: tomas.id, signedInAt: fresh }, rerunId)).ok).toBe(false);
+    for (const f of await findings.findingsOf(rerunId)) {
+      await findings.assessFinding(priya, studyId, f.id, { category: "model_assumption", impact: "none", action: "planned_sensitivity", rationale: "The planned sensitivity analyses leave the treatment conclusion unchanged." });
+    }
+    expect(await findings.canSign({ id: priya.id, signedInAt: fresh }, rerunId)).toMatchObject({ ok: false, reason: expect.stringMatching(/two-person rule/) });
+    const stale = new Date(Date.now() - 6 * 60 * 1000).toISOString();
+    expect(await findings.canSign({ id: tomas.id, signedInAt: stale }, rerunId)).toMatchObject({ ok: false, reauthenticate: true });
+    await findings.signRerun({ ...tomas, signedInAt: fresh }, studyId, rerunId);
+    const r = await reruns.getRerun(studyId, rerunId);
+    expect(r.rerun.signedAt).not.toBeNull();
+    expect((await findings.signaturesOf(rerunId))[0]).toMatchObject({ signerName: "Tomas Berg", meaning: "Reviewed and approved" });
+    await expect(findings.recordDeviation(priya, studyId, rerunId, { category: "data", impact: "none", action: "none", rationale: "Too late to add anything now." })).rejects.toThrow(/signed/);
+    expect((await findings.deviationLog(studyId)).length).toBeGreaterThanOrEqual(4);
+  });
+});
+
+describe("a planned model that cannot be estimated as planned", () => {
+  it("is kept as a failed rerun with the engine's reason and a finding of that kind", async () => {
+    const { version } = await plans.getPlanVersion(studyId, versionId);
+    const next = await plans.startNextVersion(priya, studyId, version.id);
+    const m = (await plans.getPlanVersion(studyId, next)).models[0];
+    const broken = { ...m, spec: { ...m.spec, terms: [...m.spec.terms, { variable: "visit_week" }] } };
+    const pv = await plans.getPlanVersion(studyId, next);
+    await plans.savePlannedModel(priya, studyId, next, pv.version.revision, m.id, broken);
+    await plans.submitForApproval(priya, studyId, next, pv.version.revision + 1);
+    await plans.approvePlanVersion(tomas, studyId, next);
+    const id = await reruns.startRerun(priya, studyId, { plannedModelId: m.id, datasetVersionId, options: { variant: "planned" } });
+    await drain();
+    const r = await reruns.getRerun(studyId, id);
+    expect(r.rerun.status).toBe("failed");
+    expect(r.rerun.failureReason).toMatch(/visit_week/);
+    const fs = await findings.findingsOf(id);
+    expect(fs).toHaveLength(1);
+    expect(fs[0]).toMatchObject({ kind: "not_estimable", summary: expect.stringMatching(/^Not estimable as planned: .*visit_week/) });
+  });
+
+  it("leaves an intact audit chain behind all of this", async () => {
+    expect((await verifyAuditChain()).intact).toBe(true);
+  });
+});
