@@ -208,6 +208,7 @@ export async function parseCsv(filePath: string, fileName: string, options: Pars
       });
     }
   }
+  if (badEncoding) return { ok: false, problems: problems.result() };
   if (parseError) problems.add(parseError);
   const header = names as string[] | null;
   if (!header) {

@@ -33,7 +33,7 @@ export const SCREEN_RULES: ScreenRule[] = [
   {
     id: "address",
     label: "Street address or place smaller than a state",
-    byName: /^(.*_)?(address|addr|street|street_?address|city|town|county|zip|zip_?code|postcode|postal_?code)$/i,
+    byName: /^(?!.*(ip|mail|web|mac)_?addr)(.*_)?(address|addr|street|street_?address|city|town|county|zip|zip_?code|postcode|postal_?code)$/i,
     byValue: /\b\d{1,5}\s+([A-Z][a-z]+\s+){1,3}(Street|St|Avenue|Ave|Road|Rd|Lane|Ln|Drive|Dr|Boulevard|Blvd|Way|Court|Ct|Place|Pl)\b\.?/,
     hint: hasDigit,
   },
