@@ -3,7 +3,8 @@ import type { Route } from "./+types/study-deviations";
 import { utc } from "~/components/format";
 import { EmptyState, PageHeader } from "~/components/page";
 import { StatusLabel } from "~/components/status";
-import { ACTIONS, CATEGORIES, deviationLog, IMPACTS } from "~/.server/reruns/findings.server";
+import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
+import { deviationLog } from "~/.server/reruns/findings.server";
 import { requireStudy } from "~/.server/study-access.server";
 
 export function meta({ loaderData }: Route.MetaArgs) {

@@ -10,17 +10,9 @@ import { z } from "zod";
 import { appendAudit } from "../audit.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
 import type { PersonActor } from "../people.server";
+import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 
-export const CATEGORIES = { model_assumption: "Model assumption", data: "Data", specification: "Specification" } as const;
-export const IMPACTS = { none: "None", minor: "Minor", changes_conclusion: "Changes the conclusion" } as const;
-export const ACTIONS = {
-  none: "None",
-  planned_sensitivity: "Planned sensitivity analysis",
-  remedy_robust: "Remedy: robust errors",
-  remedy_weighted: "Remedy: weighted fit",
-  remedy_transformation: "Remedy: transformation",
-  remedy_exclusion: "Remedy: exclusion",
-} as const;
+export { ACTIONS, CATEGORIES, IMPACTS };
 
 export const Assessment = z.object({
   category: z.enum(Object.keys(CATEGORIES) as [keyof typeof CATEGORIES, ...(keyof typeof CATEGORIES)[]], { message: "Choose a category." }),
