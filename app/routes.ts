@@ -15,6 +15,9 @@ export default [
       layout("routes/study-layout.tsx", [
         index("routes/study-overview.tsx"),
         route("datasets", "routes/study-datasets.tsx"),
+        route("datasets/upload", "routes/study-datasets-upload.ts"),
+        route("datasets/:versionId", "routes/study-dataset-version.tsx"),
+        route("datasets/:versionId/rows", "routes/study-dataset-rows.ts"),
         route("plans", "routes/study-plans.tsx"),
         route("plans/:versionId", "routes/study-plan-version.tsx"),
         route("plans/:versionId/models/:modelId", "routes/study-planned-model.tsx"),

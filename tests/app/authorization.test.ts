@@ -22,10 +22,13 @@ const WHO: Who[] = ["anonymous", "admin", "data_manager", "biostatistician", "me
 // 200 allowed, 403 forbidden, 404 not found, "in" = redirected to sign-in, "home" = redirected to /.
 type Outcome = 200 | 403 | 404 | "in" | "home";
 /** Columns in WHO order: anonymous, admin, data manager, biostatistician, medical writer, sponsor reader. */
-const MATRIX: { file: string; path: string; expect: Outcome[] }[] = [
+const MATRIX: { file: string; path: string; expect: Outcome[]; resource?: true }[] = [
   { file: "home.tsx", path: "/", expect: ["in", 200, 200, 200, 200, 200] },
   { file: "study-overview.tsx", path: "/studies/:s", expect: ["in", 403, 200, 200, 200, 200] },
   { file: "study-datasets.tsx", path: "/studies/:s/datasets", expect: ["in", 403, 200, 200, 403, 403] },
+  { file: "study-datasets-upload.ts", path: "/studies/:s/datasets/upload", expect: ["in", 403, 200, 403, 403, 403], resource: true },
+  { file: "study-dataset-version.tsx", path: "/studies/:s/datasets/:v", expect: ["in", 403, 200, 200, 403, 403] },
+  { file: "study-dataset-rows.ts", path: "/studies/:s/datasets/:v/rows", expect: ["in", 403, 200, 200, 403, 403], resource: true },
   { file: "study-plans.tsx", path: "/studies/:s/plans", expect: ["in", 403, 403, 200, 200, 403] },
   { file: "study-reruns.tsx", path: "/studies/:s/reruns", expect: ["in", 403, 403, 200, 200, 403] },
   { file: "study-plan-version.tsx", path: "/studies/:s/plans/no-such-version", expect: ["in", 403, 403, 404, 404, 403] },
@@ -48,9 +51,13 @@ const COVERED_ELSEWHERE = ["shell.tsx", "auth.saml.login.ts", "auth.saml.acs.ts"
 
 const cookies = new Map<Who, string>();
 let studyId = "";
+/** The demo dataset's locked version (the seed uploads and locks adeff v1). */
+let versionId = "";
+const pathOf = (p: string) => p.replace(":s", studyId).replace(":v", versionId);
 
 beforeAll(async () => {
   studyId = await studyIdByCode(stack, "QMT-301");
+  versionId = String((await testDb(stack).execute("SELECT id FROM dataset_versions WHERE version = 1 LIMIT 1")).rows[0]?.id ?? "");
   for (const [who, email] of Object.entries(PEOPLE)) cookies.set(who as Who, await sessionCookieFor(stack, email));
 });
 
@@ -85,7 +92,7 @@ describe("every page route answers each role as DESIGN.md says", () => {
   for (const row of MATRIX) {
     for (const [i, who] of WHO.entries()) {
       it(`${row.path} as ${who} → ${row.expect[i]}`, async () => {
-        const path = row.path.replace(":s", studyId);
+        const path = pathOf(row.path);
         const res = await get(path, who);
         expect(outcomeOf(res, false)).toBe(row.expect[i]);
         if (res.status === 403) expect(await res.text()).toMatch(/you need the .+ role/);
@@ -94,12 +101,12 @@ describe("every page route answers each role as DESIGN.md says", () => {
   }
 
   it("client-side data requests get the same answers as documents", async () => {
-    for (const row of MATRIX.filter((r) => r.path.startsWith("/studies/:s/"))) {
+    for (const row of MATRIX.filter((r) => r.path.startsWith("/studies/:s/") && !r.resource)) {
       for (const [i, who] of WHO.entries()) {
-        const res = await get(row.path.replace(":s", studyId), who, true);
+        const res = await get(pathOf(row.path), who, true);
         const body = await res.text();
         expect(`${row.path} ${who} ${outcomeOf(res, true, body)}`).toBe(`${row.path} ${who} ${row.expect[i]}`);
-        if (row.expect[i] === "in") expect(body).toContain(`returnTo=${encodeURIComponent(row.path.replace(":s", studyId))}"`);
+        if (row.expect[i] === "in") expect(body).toContain(`returnTo=${encodeURIComponent(pathOf(row.path))}"`);
       }
     }
   });

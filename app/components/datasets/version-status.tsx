@@ -1,0 +1,8 @@
+import { StatusLabel } from "~/components/status";
+
+/** A version's state in words and shape (never colour alone). */
+export function VersionStatus({ status, unresolved }: { status: "draft" | "locked" | "superseded"; unresolved: number }) {
+  if (status === "locked") return <StatusLabel status="within" word="Locked" />;
+  if (status === "superseded") return <StatusLabel status="pending" word="Superseded" />;
+  return unresolved > 0 ? <StatusLabel status="finding" word={`Draft · ${unresolved} to screen`} /> : <StatusLabel status="pending" word="Draft · ready to lock" />;
+}
