@@ -57,7 +57,8 @@ const pathOf = (p: string) => p.replace(":s", studyId).replace(":v", versionId);
 
 beforeAll(async () => {
   studyId = await studyIdByCode(stack, "QMT-301");
-  versionId = String((await testDb(stack).execute("SELECT id FROM dataset_versions WHERE version = 1 LIMIT 1")).rows[0]?.id ?? "");
+  const adeff = "SELECT v.id FROM dataset_versions v JOIN datasets d ON d.id = v.dataset_id WHERE d.name = 'adeff' AND v.version = 1";
+  versionId = String((await testDb(stack).execute(adeff)).rows[0]?.id ?? "");
   for (const [who, email] of Object.entries(PEOPLE)) cookies.set(who as Who, await sessionCookieFor(stack, email));
 });
 

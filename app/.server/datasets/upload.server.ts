@@ -56,21 +56,21 @@ export async function receiveUpload(request: Request, maxBytes = config.DATASET_
         stream.resume();
         return;
       }
+      let truncated = false;
+      stream.on("limit", () => (truncated = true));
       writes.push(
         (async () => {
           workPath = await newWorkPath("upload");
           const hash = createHash("sha256");
           let size = 0;
           const out = createWriteStream(workPath);
-          let truncated = false;
-          stream.on("limit", () => (truncated = true));
           for await (const chunk of stream as AsyncIterable<Buffer>) {
             hash.update(chunk);
             size += chunk.length;
             if (!out.write(chunk)) await new Promise<void>((r) => out.once("drain", () => r()));
           }
           await new Promise<void>((r, j) => out.end((e?: Error | null) => (e ? j(e) : r())));
-          if (truncated) throw new UploadRefused(`${info.filename} is larger than the limit of ${formatBytes(maxBytes)}. Split the dataset or ask an administrator to raise DATASET_MAX_BYTES.`, 413);
+          if (truncated || (stream as { truncated?: boolean }).truncated) throw new UploadRefused(`${info.filename} is larger than the limit of ${formatBytes(maxBytes)}. Split the dataset or ask an administrator to raise DATASET_MAX_BYTES.`, 413);
           file = { fileName: info.filename.split(/[\\/]/).pop() as string, workPath, byteSize: size, sha256: hash.digest("hex") };
         })(),
       );
