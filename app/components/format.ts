@@ -2,7 +2,7 @@
 export function fmt(x: number | null | undefined, digits = 3): string {
   if (x === null || x === undefined || !Number.isFinite(x)) return "—";
   const a = Math.abs(x);
-  const s = a !== 0 && (a < 10 ** -digits || a >= 1e6) ? x.toExponential(2) : x.toFixed(digits);
+  const s = a !== 0 && (a < 1e-4 || a >= 1e6) ? x.toExponential(2) : x.toFixed(digits);
   return s.replace(/^-/, "−");
 }
 

@@ -70,8 +70,7 @@ function Select({ id, name, label, value, onChange, options, error, hint, placeh
         id={id}
         name={name}
         className="field"
-        value={value}
-        onChange={(e) => onChange?.(e.target.value)}
+        {...(onChange ? { value, onChange: (e: React.ChangeEvent<HTMLSelectElement>) => onChange(e.target.value) } : { defaultValue: value })}
         aria-invalid={error ? true : undefined}
         aria-describedby={error ? `${id}-error` : hint ? `${id}-hint` : undefined}
       >

@@ -206,7 +206,7 @@ export function CheckCard({ check, figure }: { check: CheckCardData; figure?: Re
           {check.flagged.length > 0 ? (
             <table className="data-table">
               <caption className="text-left text-xs text-ink-soft">
-                Most extreme {Math.min(check.flagged.length, 10)} of {check.flaggedCount} flagged
+                Most extreme {check.flagged.length} of {check.flaggedCount} flagged
               </caption>
               <thead>
                 <tr>

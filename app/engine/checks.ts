@@ -195,6 +195,9 @@ const fmt = (x: number, digits = 3): string => {
   return x.toFixed(digits);
 };
 
+/** A plan's threshold number as written: 4, 2, 0.05, 2.236. */
+const kText = (k: number): string => String(Number(k.toPrecision(4)));
+
 export const formatP = (p: number | null | undefined): string =>
   p === null || p === undefined || !Number.isFinite(p) ? "—" : p < 0.0001 ? "< 0.0001" : p.toFixed(4);
 
@@ -296,21 +299,21 @@ export function evaluateChecks(r: LinearModelResult, planned: readonly PlannedCh
     const k = pc.threshold;
     switch (pc.key) {
       case "cooks_distance":
-        out.push(observationCheck(def, pc, obs.cooksDistance, k / n, `${fmt(k, 2)}/n = ${fmt(k / n, 4)}`, false, r, "Cook's distance"));
+        out.push(observationCheck(def, pc, obs.cooksDistance, k / n, `${kText(k)}/n = ${fmt(k / n, 4)}`, false, r, "Cook's distance"));
         break;
       case "leverage":
-        out.push(observationCheck(def, pc, obs.leverage, (k * p) / n, `${fmt(k, 2)}·p/n = ${fmt((k * p) / n, 4)}`, false, r, "leverage"));
+        out.push(observationCheck(def, pc, obs.leverage, (k * p) / n, `${kText(k)}·p/n = ${fmt((k * p) / n, 4)}`, false, r, "leverage"));
         break;
       case "deletion_residual":
-        out.push(observationCheck(def, pc, obs.studentizedExternal, k, `|t| > ${fmt(k, 2)}`, true, r, "|deletion residual|"));
+        out.push(observationCheck(def, pc, obs.studentizedExternal, k, `|t| > ${kText(k)}`, true, r, "|deletion residual|"));
         break;
       case "dffits":
-        out.push(observationCheck(def, pc, obs.dffits, k * Math.sqrt(p / n), `${fmt(k, 2)}·√(p/n) = ${fmt(k * Math.sqrt(p / n), 4)}`, true, r, "|DFFITS|"));
+        out.push(observationCheck(def, pc, obs.dffits, k * Math.sqrt(p / n), `${kText(k)}·√(p/n) = ${fmt(k * Math.sqrt(p / n), 4)}`, true, r, "|DFFITS|"));
         break;
       case "dfbetas_treatment": {
         const idx = treatmentCoefficients(r);
         if (idx.length === 0) {
-          out.push({ ...pCheck(def, pc, undefined, ""), threshold: `${fmt(k, 2)}/√n`, summary: "Not computed: the model names no treatment." });
+          out.push({ ...pCheck(def, pc, undefined, ""), threshold: `${kText(k)}/√n`, summary: "Not computed: the model names no treatment." });
           break;
         }
         // Per subject, the largest |DFBETAS| over the treatment coefficients.
@@ -319,7 +322,7 @@ export function evaluateChecks(r: LinearModelResult, planned: readonly PlannedCh
           for (const j of idx) if (Math.abs(obs.dfbetas[j][i]) > Math.abs(m)) m = obs.dfbetas[j][i];
           return m;
         });
-        out.push(observationCheck(def, pc, worst, k / Math.sqrt(n), `${fmt(k, 2)}/√n = ${fmt(k / Math.sqrt(n), 4)}`, true, r, "|DFBETAS| on treatment"));
+        out.push(observationCheck(def, pc, worst, k / Math.sqrt(n), `${kText(k)}/√n = ${fmt(k / Math.sqrt(n), 4)}`, true, r, "|DFBETAS| on treatment"));
         break;
       }
       case "shapiro_wilk":

@@ -37,7 +37,7 @@ export function reportedContrasts(doc: RerunDocument): { label: string; estimate
 export function checkView(c: CheckOutcome, withSubjectIds: boolean) {
   return {
     ...c,
-    flagged: (c.flagged ?? []).slice(0, 10).map((f) => ({ rank: f.rank, value: f.value, who: withSubjectIds ? (f.id ?? `row ${f.row}`) : `subject ranked ${f.rank}` })),
+    flagged: (c.flagged ?? []).slice(0, 5).map((f) => ({ rank: f.rank, value: f.value, who: withSubjectIds ? (f.id ?? `row ${f.row}`) : `subject ranked ${f.rank}` })),
     flaggedCount: c.flagged?.length ?? 0,
   };
 }

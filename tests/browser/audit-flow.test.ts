@@ -1,0 +1,118 @@
+/**
+ * The biostatistician's audit in a real browser with the demo study: one biostatistician
+ * writes the plan, a second approves it, the first reruns the primary model, sees the planted
+ * findings, assesses them and runs a planned sensitivity analysis; the second signs.
+ */
+import type { Browser, Page } from "playwright-core";
+import { afterAll, beforeAll, describe, expect, inject, it } from "vitest";
+import { launchBrowser, screenshot, signInAs } from "../support/browser";
+
+const stack = inject("stack");
+let browser: Browser;
+
+beforeAll(async () => {
+  browser = await launchBrowser();
+});
+afterAll(async () => {
+  await browser?.close();
+});
+
+async function as(name: string): Promise<Page> {
+  const context = await browser.newContext({ viewport: { width: 1360, height: 900 } });
+  const page = await context.newPage();
+  await signInAs(page, stack.appUrl, name);
+  await page.getByRole("link", { name: "QMT-301" }).click();
+  await page.getByRole("navigation", { name: "Study sections" }).waitFor();
+  return page;
+}
+
+describe("from plan to signature", () => {
+  let planUrl = "";
+  let rerunUrl = "";
+
+  it("a biostatistician writes the plan with the primary model", async () => {
+    const page = await as("Priya Lindqvist");
+    await page.getByRole("link", { name: "Analysis plans" }).click();
+    await page.getByLabel("Title").fill("Efficacy models");
+    await page.getByLabel("SAP document").fill("Statistical analysis plan QMT-301");
+    await page.getByLabel("SAP version").fill("2.0");
+    await page.getByLabel("SAP date").fill("2026-10-01");
+    await page.getByRole("button", { name: "Start the plan" }).click();
+    await page.getByRole("link", { name: "Add a planned model" }).click();
+    // Submitting an empty form names the fields to fix.
+    await page.getByRole("button", { name: "Save planned model" }).click();
+    await page.getByText(/fields need attention/).waitFor();
+    expect(await page.getByText("Choose the endpoint (response) column.").count()).toBe(1);
+    await page.getByLabel("Key").fill("primary");
+    await page.getByLabel("Title").fill("Primary efficacy: change from baseline at week 12");
+    await page.getByLabel("Population flag").selectOption("fasfl");
+    await page.getByLabel("…equal to").selectOption("Y");
+    await page.getByLabel("Endpoint (response)").selectOption("chg");
+    await page.getByLabel("Treatment variable").selectOption("arm");
+    await page.getByLabel("Reference arm").selectOption("Placebo");
+    await page.getByLabel("Subject identifier").selectOption("subjid");
+    for (const c of ["base", "stratum", "region", "sex", "age"]) await page.locator(`#cov-${c}`).check();
+    await page.locator('input[name="sensitivity:exclude_influential"]').check();
+    await screenshot(page, "plan-editor");
+    await page.getByRole("button", { name: "Save planned model" }).click();
+    await page.getByRole("heading", { name: /primary\s*Primary efficacy/ }).waitFor();
+    await page.getByRole("button", { name: "Submit for approval" }).click();
+    await page.getByText("Awaiting approval").first().waitFor();
+    planUrl = page.url();
+    // The author cannot approve her own plan.
+    expect(await page.getByRole("button", { name: /Approve version/ }).count()).toBe(0);
+    await page.context().close();
+  });
+
+  it("a second biostatistician approves it", async () => {
+    const page = await as("Tomas Berg");
+    await page.goto(planUrl);
+    await page.getByRole("button", { name: "Approve version 1" }).click();
+    await page.getByText("Approved", { exact: true }).first().waitFor();
+    await screenshot(page, "plan-approved");
+    await page.context().close();
+  });
+
+  it("the first reruns the primary model, sees the planted findings and assesses them", async () => {
+    const page = await as("Priya Lindqvist");
+    await page.getByRole("link", { name: "Reruns" }).click();
+    await page.getByRole("button", { name: "Rerun" }).click();
+    await page.getByRole("heading", { name: "Checks of the plan" }).waitFor({ timeout: 10_000 });
+    rerunUrl = page.url().split("#")[0];
+    await screenshot(page, "rerun-results");
+    for (const check of ["Cook's distance", "Constant variance (Breusch–Pagan)", "Equal spread across arms (Brown–Forsythe)"]) {
+      const card = page.locator("article", { has: page.getByRole("heading", { name: check, exact: true }) });
+      expect(await card.getByText("Finding", { exact: true }).count()).toBe(1);
+    }
+    expect(await page.getByText("QMT301-0217").count()).toBeGreaterThan(0);
+    await page.getByRole("button", { name: "Run it" }).first().click();
+    await page.getByRole("link", { name: /Robust \(HC3\) standard errors/ }).first().waitFor({ timeout: 10_000 });
+    const assessButtons = page.getByRole("button", { name: "Record the assessment" });
+    const count = await assessButtons.count();
+    expect(count).toBeGreaterThan(2);
+    for (let i = 0; i < count; i++) {
+      const form = page.locator("form", { has: page.getByRole("button", { name: "Record the assessment" }) }).first();
+      await form.getByLabel("Category").selectOption("model_assumption");
+      await form.getByLabel("Impact on the treatment conclusion").selectOption("none");
+      await form.getByLabel("Action taken").selectOption("planned_sensitivity");
+      await form.getByLabel("Rationale").fill("The planned sensitivity analyses leave the treatment conclusion unchanged.");
+      await form.getByRole("button", { name: "Record the assessment" }).click();
+      await expect.poll(() => page.getByRole("button", { name: "Record the assessment" }).count()).toBe(count - i - 1);
+    }
+    expect(await page.getByText("You started this rerun or assessed its findings").count()).toBe(1);
+    await page.context().close();
+  });
+
+  it("the second biostatistician signs, and the deviation log lists every assessment", async () => {
+    const page = await as("Tomas Berg");
+    await page.goto(rerunUrl);
+    await page.getByRole("button", { name: "Sign this rerun" }).click();
+    await page.getByText(/Tomas Berg · “Reviewed and approved”/).waitFor();
+    await screenshot(page, "rerun-signed");
+    await page.getByRole("link", { name: "Deviation log" }).click();
+    await page.getByRole("heading", { name: "Deviation log" }).waitFor();
+    expect(await page.locator("tbody tr").count()).toBeGreaterThan(2);
+    await screenshot(page, "deviation-log");
+    await page.context().close();
+  });
+});
