@@ -6,19 +6,28 @@ import { toDataTable, type TableInput } from "./data";
 import { EngineError } from "./errors";
 import { fitLinearModel, type FitOptions, type LinearModelResult } from "./linear-model";
 import { parseModelSpec, type ModelSpec, type ModelSpecInput } from "./model-spec";
+import { fitGlmModel, type GlmOptions, type GlmResult } from "./glm/glm-model";
 
-export type ModelResult = LinearModelResult;
+/** A rerun's full result: linear (gaussian) or generalized linear model. */
+export type ModelResult = LinearModelResult | GlmResult;
 
 /**
  * Reruns a model: validates the specification, reads the table (complete cases), fits and
  * computes every diagnostic. Throws EngineError with a one-line message on bad input.
  */
-export function fitModel(spec: ModelSpec | ModelSpecInput | unknown, table: TableInput, options: FitOptions = {}): ModelResult {
+export function fitModel(spec: ModelSpec | ModelSpecInput | unknown, table: TableInput, options: FitOptions & GlmOptions = {}): ModelResult {
   const parsed = parseModelSpec(spec);
   const data = toDataTable(table);
   if (data.nRows === 0) throw new EngineError("the data has no rows");
   if (parsed.family === "gaussian") return fitLinearModel(parsed, data, options);
-  throw new EngineError(`family "${parsed.family}" is not available in this engine version`);
+  return fitGlmModel(parsed, data, options);
+}
+
+/** fitModel for a gaussian specification, typed as the linear result. */
+export function fitLinear(spec: ModelSpec | ModelSpecInput | unknown, table: TableInput, options: FitOptions = {}): LinearModelResult {
+  const result = fitModel(spec, table, options);
+  if (result.kind !== "linear") throw new EngineError("the specification is not a linear (gaussian) model");
+  return result;
 }
 
 export { EngineError } from "./errors";
@@ -56,3 +65,8 @@ export { observationDiagnostics } from "./diagnostics";
 export type { ObservationDiagnostics } from "./diagnostics";
 export * as distributions from "./distributions";
 export { partialResiduals, partialResidualsFromQR, robustCovariances } from "./diagnostics";
+export { fitGlmModel, SeparationError } from "./glm/glm-model";
+export type { GlmResult, GlmOptions, GlmCoefficientRow, GlmFitSummary, GlmObservationColumns, GlmChecks, RatioRow } from "./glm/glm-model";
+export type { MarginalEffects, MarginalMean, MarginalContrast } from "./glm/marginal-effects";
+export type { ProfileInterval } from "./glm/profile-intervals";
+export type { OverdispersionCheck, LikelihoodRatioTest, Calibration, BinnedResidual } from "./glm/glm-checks";

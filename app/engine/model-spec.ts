@@ -20,7 +20,7 @@ export const interactionTermSchema = z
 
 export const termSchema = z.union([mainTermSchema, interactionTermSchema]);
 
-export const familySchema = z.enum(["gaussian", "binomial", "poisson"]);
+export const familySchema = z.enum(["gaussian", "binomial", "poisson", "quasipoisson", "negative-binomial"]);
 export const linkSchema = z.enum(["identity", "log", "logit", "probit", "cloglog", "inverse", "sqrt"]);
 
 /**
@@ -44,6 +44,8 @@ export const modelSpecSchema = z
     id: z.string().min(1).optional(),
     /** The categorical main term that is the randomized treatment. */
     treatment: z.string().min(1).optional(),
+    /** Binomial family: the level of a two-level response column counted as the event (1). */
+    event: z.string().min(1).optional(),
   })
   .strict();
 
@@ -66,6 +68,8 @@ export const CANONICAL_LINK: Record<Family, Link> = {
   gaussian: "identity",
   binomial: "logit",
   poisson: "log",
+  quasipoisson: "log",
+  "negative-binomial": "log",
 };
 
 import { EngineError } from "./errors";

@@ -3,7 +3,7 @@
 // leave-one-out refits (Belsley, Kuh and Welsch 1980, section 2.1); Q has orthonormal columns
 // and QR = X; the output is byte-identical across runs.
 import { describe, expect, it } from "vitest";
-import { fitModel, stringifyResult, toCliResult } from "~/engine";
+import { fitLinear as fitModel, stringifyResult, toCliResult } from "~/engine";
 import { formThinQ, householderQR, upperR } from "~/engine/qr";
 
 // small invented data set (fixed numbers)

@@ -7,7 +7,7 @@
 // The figure of merit is the log relative error LRE = −log10(|est − cert| / |cert|)
 // (−log10 |est| when the certified value is 0), capped at 15.
 import { describe, expect, it } from "vitest";
-import { fitModel } from "~/engine";
+import { fitLinear as fitModel } from "~/engine";
 
 const LONGLEY = [
   // y, x1 (GNP deflator), x2 (GNP), x3 (unemployed), x4 (armed forces), x5 (population), x6 (year)

@@ -84,4 +84,31 @@ describe("headless rerun command", () => {
       expect(lines[0]).toMatch(cases[i].expect);
     });
   });
+
+  it("answers generalized linear models with their keys, and reports separation with exit 2", async () => {
+    const c = "glm-trial-responder";
+    const sepData = file(
+      "sep.csv",
+      "y,x\n" + Array.from({ length: 16 }, (_, i) => `${i >= 8 ? 1 : 0},${i}`).join("\n") + "\n",
+    );
+    const sepModel = file("sep.json", JSON.stringify({ response: "y", family: "binomial", terms: [{ variable: "x" }] }));
+    const [run, sep] = await Promise.all([
+      runCli(["fit", "--data", join(REF, "data", `${c}.csv`), "--model", join(REF, "models", `${c}.json`)]),
+      runCli(["fit", "--data", sepData, "--model", sepModel]),
+    ]);
+    expect(run.code, run.stderr).toBe(0);
+    const out = JSON.parse(run.stdout);
+    const ref = JSON.parse(readFileSync(join(REF, "values", `${c}.json`), "utf8"));
+    for (const key of ["deviance", "nullDeviance", "logLik", "aic", "dispersion", "iterations"]) expect(out.fit).toHaveProperty(key);
+    expect(Object.keys(out.observations[0])).toEqual([
+      "row", "id", "fitted", "residual", "pearson", "devianceResidual", "leverage", "studentizedInternal",
+      "studentizedExternal", "cooksDistance", "dfbetas", "quantileResidual",
+    ]);
+    expectClose(out.fit.deviance, ref.fit.deviance, 1e-6, "deviance");
+    expectAllClose(out.observations.map((o: { pearson: number }) => o.pearson), ref.observations.pearson, 1e-6, "Pearson", 1e-2);
+    expect(out.marginalEffects.contrasts.map((k: { measure: string }) => k.measure)).toEqual(["risk difference", "risk ratio", "odds ratio"]);
+    expect(sep.code).toBe(2);
+    expect(sep.stderr.trim().split("\n")).toHaveLength(1);
+    expect(sep.stderr).toMatch(/^error: complete separation: the estimates for "x" diverge/);
+  });
 });

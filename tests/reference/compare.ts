@@ -17,10 +17,16 @@ export function expectClose(actual: number | null | undefined, expected: number 
   expect(err <= tol * scale || err === 0, `${label}: ${a} vs R ${expected} (relative error ${(err / scale).toExponential(2)}, tolerance ${tol})`).toBe(true);
 }
 
-/** Elementwise agreement of two arrays; the floor is 1e-4 of the array's largest magnitude. */
-export function expectAllClose(actual: readonly (number | null)[], expected: readonly (number | null)[], tol: number, label: string): void {
+/** Elementwise agreement of two arrays; the floor is `floorFraction` (default 1e-4) of the array's largest magnitude. */
+export function expectAllClose(
+  actual: readonly (number | null)[],
+  expected: readonly (number | null)[],
+  tol: number,
+  label: string,
+  floorFraction = 1e-4,
+): void {
   expect(actual.length, `${label}: length`).toBe(expected.length);
   let maxAbs = 0;
   for (const v of expected) if (v !== null && Number.isFinite(v)) maxAbs = Math.max(maxAbs, Math.abs(v));
-  expected.forEach((e, i) => expectClose(actual[i], e, tol, `${label}[${i}]`, maxAbs * 1e-4));
+  expected.forEach((e, i) => expectClose(actual[i], e, tol, `${label}[${i}]`, maxAbs * floorFraction));
 }

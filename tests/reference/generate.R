@@ -297,3 +297,196 @@ run_case("invented-offset", data.frame(y = y, x1 = x1, x2 = x2, off = off),
   list(response = "y", family = "gaussian", terms = list(list(variable = "x1"), list(variable = "x2"),
        list(interaction = list("x1", "x2"))), offset = "off"),
   "invented data (R set.seed(7)); lm with offset")
+
+# ---- generalized linear models -------------------------------------------------------------
+# R's glm with its influence functions, MASS::glm.nb for the negative binomial, MASS's profile
+# intervals (confint), sandwich::vcovHC, car::vif, and emmeans counterfactual grids for the
+# standardized (g-computation) arm means and risk differences. IRLS is run for its full
+# iteration limit so that R's estimates are converged well past the 1e-6 comparison.
+
+glm_reference_values <- function(name, spec, d, source) {
+  prep <- prepare(spec, d)
+  dd <- prep$data
+  # epsilon below rounding: IRLS runs all maxit steps, so the last two iterates (whose weights R
+  # keeps for its QR) agree to machine precision
+  ctl <- glm.control(epsilon = 1e-16, maxit = 60)
+  fam <- spec$family
+  link <- if (is.null(spec$link)) NULL else spec$link
+  if (fam == "binomial" && !is.null(spec$event)) {
+    dd[[spec$response]] <- as.integer(dd[[spec$response]] == spec$event)
+  }
+  fit <- switch(fam,
+    binomial = glm(prep$formula, family = binomial(link = if (is.null(link)) "logit" else link), data = dd, control = ctl),
+    poisson = glm(prep$formula, family = poisson, data = dd, control = ctl),
+    quasipoisson = glm(prep$formula, family = quasipoisson, data = dd, control = ctl),
+    "negative-binomial" = glm.nb(prep$formula, data = dd, control = ctl))
+  X <- model.matrix(fit)
+  n <- nrow(X)
+  p <- ncol(X)
+  sm <- summary(fit)
+  cf <- sm$coefficients
+  wald <- confint.default(fit)
+  prof <- tryCatch(suppressMessages(confint(fit)), error = function(e) NULL)
+  phi <- sm$dispersion
+  h <- hatvalues(fit)
+  rp <- residuals(fit, type = "pearson")
+  rd <- residuals(fit, type = "deviance")
+  lr <- sign(rd) * sqrt(rd^2 + h * rp^2 / (1 - h))
+  # the likelihood residual of Williams (1987); divided by sqrt(phi) only where phi is estimated
+  studentized_external <- if (fam == "quasipoisson") lr / sqrt(phi) else lr
+  db <- dfbetas(fit)
+  partial <- residuals(fit, type = "partial")
+  coefficients <- lapply(seq_len(p), function(j) list(
+    rName = colnames(X)[j], estimate = cf[j, 1], se = cf[j, 2], statistic = cf[j, 3], p = cf[j, 4],
+    lower = wald[j, 1], upper = wald[j, 2],
+    profileLower = if (is.null(prof)) NA else prof[j, 1], profileUpper = if (is.null(prof)) NA else prof[j, 2]))
+  robust <- lapply(c(HC0 = "HC0", HC1 = "HC1", HC2 = "HC2", HC3 = "HC3"),
+                   function(t) num(sqrt(diag(vcovHC(fit, type = t)))))
+  ll <- if (fam == "quasipoisson") NA else num(logLik(fit))
+  fitstats <- list(deviance = deviance(fit), nullDeviance = fit$null.deviance, logLik = ll,
+                   aic = if (fam == "quasipoisson") NA else AIC(fit), dispersion = phi,
+                   pearsonChiSquare = sum(rp^2), dfResidual = fit$df.residual,
+                   theta = if (fam == "negative-binomial") fit$theta else NA,
+                   thetaSE = if (fam == "negative-binomial") fit$SE.theta else NA)
+  observations <- list(row = prep$rows, fitted = num(fitted(fit)), residual = num(residuals(fit, type = "response")),
+    pearson = num(rp), devianceResidual = num(rd), leverage = num(h),
+    studentizedInternal = num(rstandard(fit)), studentizedExternal = num(studentized_external),
+    cooksDistance = num(cooks.distance(fit)), dfbetas = lapply(seq_len(p), function(j) num(db[, j])),
+    partialResiduals = lapply(seq_len(ncol(partial)), function(j) num(partial[, j])))
+
+  test_kind <- if (fam == "quasipoisson") "F" else "Chisq"
+  # glm() with a fixed-theta negative.binomial family would estimate a dispersion in anova;
+  # the negative binomial likelihood has dispersion 1
+  nb_disp <- if (fam == "negative-binomial") 1 else NULL
+  lrt <- function(big) {
+    a <- anova(fit, big, test = test_kind)
+    stat <- if (fam == "quasipoisson") a$F[2] else a$Deviance[2]
+    list(statistic = stat, df = a$Df[2], p = a[2, ncol(a)])
+  }
+  refit <- function(f) if (fam == "negative-binomial") {
+    glm(f, family = negative.binomial(fit$theta), data = dd, control = ctl)
+  } else update(fit, f, data = dd, control = ctl)
+  mains <- prep$mains
+  cont <- Filter(function(t) is.numeric(dd[[t$variable]]) && !isTRUE(t$categorical), mains)
+  base_fit <- if (fam == "negative-binomial") refit(prep$formula) else fit
+  linearity <- lapply(cont, function(t) {
+    v <- t$variable
+    dd[[paste0(".sq.", v)]] <<- (dd[[v]] - mean(dd[[v]]))^2
+    big <- refit(update(prep$formula, as.formula(paste0(". ~ . + `.sq.", v, "`"))))
+    a <- anova(base_fit, big, test = test_kind, dispersion = nb_disp)
+    list(term = paste(v, "squared"), statistic = if (fam == "quasipoisson") a$F[2] else a$Deviance[2], df = a$Df[2], p = a[2, ncol(a)])
+  })
+  homogeneity <- NULL
+  marginal <- NULL
+  if (!is.null(spec$treatment)) {
+    arm <- spec$treatment
+    others <- setdiff(vapply(mains, function(t) t$variable, ""), arm)
+    if (length(others) > 0) {
+      one <- function(cvs) {
+        big <- refit(update(prep$formula, as.formula(paste(". ~ . +", paste0("`", arm, "`:`", cvs, "`", collapse = " + ")))))
+        a <- anova(base_fit, big, test = test_kind, dispersion = nb_disp)
+        list(statistic = if (fam == "quasipoisson") a$F[2] else a$Deviance[2], df = a$Df[2], p = a[2, ncol(a)])
+      }
+      homogeneity <- list(joint = one(others), byCovariate = lapply(others, function(cv) c(list(term = paste(arm, "by", cv)), one(cv))))
+    }
+    # standardized arm means and differences (emmeans counterfactual grid, Ge et al. delta method)
+    rg <- ref_grid(fit, counterfactuals = arm)
+    e <- emmeans(rg, arm)
+    s <- summary(e, infer = c(TRUE, FALSE))
+    est_col <- if ("prob" %in% names(s)) "prob" else if ("response" %in% names(s)) "response" else names(s)[2]
+    lev <- levels(dd[[arm]])
+    ref <- match(if (is.null(mains[[which(vapply(mains, function(t) t$variable == arm, TRUE))]]$reference)) lev[1]
+                 else mains[[which(vapply(mains, function(t) t$variable == arm, TRUE))]]$reference, lev)
+    ct <- summary(contrast(e, method = "trt.vs.ctrl", ref = ref, adjust = "none"), infer = c(TRUE, TRUE))
+    # the misspecification-robust variance of Ye, Shao, Yi and Zhao (2023), written out in R
+    y <- fit$y
+    preds <- sapply(lev, function(l) { nd <- dd; nd[[arm]] <- factor(l, levels = lev); contrasts(nd[[arm]]) <- contrasts(dd[[arm]]); predict(fit, nd, type = "response") })
+    pi <- as.numeric(table(dd[[arm]])[lev]) / n
+    K <- length(lev)
+    V <- matrix(0, K, K)
+    for (a in seq_len(K)) {
+      ia <- dd[[arm]] == lev[a]
+      V[a, a] <- var(y[ia] - preds[ia, a]) / pi[a] + 2 * cov(y[ia], preds[ia, a]) - var(preds[, a])
+      for (b in seq_len(K)) if (b != a) {
+        ib <- dd[[arm]] == lev[b]
+        V[a, b] <- cov(y[ia], preds[ia, b]) + cov(y[ib], preds[ib, a]) - cov(preds[, a], preds[, b])
+      }
+    }
+    V <- V / n
+    m <- colMeans(preds)
+    marginal <- list(
+      means = lapply(seq_len(K), function(a) list(level = lev[a], estimate = s[[est_col]][a], se = s$SE[a],
+                                                 lower = s$asymp.LCL[a], upper = s$asymp.UCL[a], robustSe = sqrt(V[a, a]))),
+      differences = lapply(seq_len(nrow(ct)), function(i) list(label = as.character(ct$contrast[i]), estimate = ct$estimate[i], se = ct$SE[i],
+                                                           p = ct$p.value[i])),
+      robustDifferenceSe = lapply(setdiff(seq_len(K), ref), function(a) sqrt(V[a, a] + V[ref, ref] - 2 * V[a, ref])),
+      robustLogRatioSe = lapply(setdiff(seq_len(K), ref), function(a) {
+        g <- rep(0, K); g[a] <- 1 / m[a]; g[ref] <- -1 / m[ref]; sqrt(drop(t(g) %*% V %*% g)) }))
+  }
+  vif_rows <- NA
+  if (length(attr(terms(fit), "term.labels")) >= 2) {
+    v <- suppressWarnings(suppressMessages(car::vif(fit, type = "terms")))
+    vif_rows <- if (is.matrix(v)) lapply(seq_len(nrow(v)), function(i) list(term = rownames(v)[i], gvif = v[i, 1], df = v[i, 2], adjusted = v[i, 3]))
+                else lapply(seq_along(v), function(i) list(term = names(v)[i], gvif = num(v[i]), df = 1, adjusted = sqrt(num(v[i]))))
+  }
+  writeLines(toJSON(spec, auto_unbox = TRUE, pretty = TRUE), file.path(root, "models", paste0(name, ".json")))
+  out <- list(case = name, source = source, data = paste0("data/", name, ".csv"), model = paste0("models/", name, ".json"),
+              rVersion = R.version.string, n = n, rank = fit$rank, excluded = nrow(d) - n,
+              coefficients = coefficients, robustSE = robust, fit = fitstats, observations = observations,
+              linearity = if (length(linearity) == 0) NA else linearity,
+              homogeneity = if (is.null(homogeneity)) NA else homogeneity,
+              vif = vif_rows, marginal = if (is.null(marginal)) NA else marginal)
+  writeLines(toJSON(out, auto_unbox = TRUE, digits = NA, na = "null", pretty = FALSE),
+             file.path(root, "values", paste0(name, ".json")))
+  cat("wrote", name, "\n")
+}
+
+run_glm_case <- function(name, df, spec, source) {
+  path <- write_case_data(df, name)
+  glm_reference_values(name, spec, read_case_data(path), source)
+}
+
+bw <- MASS::birthwt[, c("low", "age", "lwt", "race", "smoke")]
+bw$race <- c("white", "black", "other")[bw$race]
+run_glm_case("glm-birthwt-logit", bw,
+  list(response = "low", family = "binomial", terms = list(list(variable = "smoke", categorical = TRUE, reference = "0"),
+       list(variable = "age"), list(variable = "lwt"), list(variable = "race", reference = "white")), treatment = "smoke"),
+  "MASS::birthwt (Hosmer and Lemeshow); glm logit, emmeans counterfactuals")
+run_glm_case("glm-birthwt-probit", bw,
+  list(response = "low", family = "binomial", link = "probit", terms = list(list(variable = "smoke", categorical = TRUE, reference = "0"),
+       list(variable = "age"), list(variable = "lwt"), list(variable = "race", reference = "white")), treatment = "smoke"),
+  "MASS::birthwt; glm probit")
+run_glm_case("glm-warpbreaks-poisson", warpbreaks,
+  list(response = "breaks", family = "poisson", terms = list(list(variable = "wool"), list(variable = "tension", reference = "L")),
+       treatment = "tension"),
+  "R datasets::warpbreaks; glm Poisson with two categoricals, emmeans counterfactuals")
+run_glm_case("glm-warpbreaks-quasipoisson", warpbreaks,
+  list(response = "breaks", family = "quasipoisson", terms = list(list(variable = "wool"), list(variable = "tension", reference = "L"))),
+  "R datasets::warpbreaks; glm quasi-Poisson")
+ins <- MASS::Insurance
+ins <- data.frame(District = as.character(ins$District), Group = as.character(ins$Group), Age = as.character(ins$Age),
+                  Holders = ins$Holders, logHolders = log(ins$Holders), Claims = ins$Claims)
+run_glm_case("glm-insurance-offset", ins,
+  list(response = "Claims", family = "poisson", terms = list(list(variable = "District", categorical = TRUE), list(variable = "Group"),
+       list(variable = "Age")), offset = "logHolders"),
+  "MASS::Insurance; glm Poisson with log(holders) offset")
+run_glm_case("glm-quine-negbin", quine,
+  list(response = "Days", family = "negative-binomial", terms = list(list(variable = "Eth"), list(variable = "Sex"),
+       list(variable = "Age"), list(variable = "Lrn")), treatment = "Eth"),
+  "MASS::quine; MASS::glm.nb (theta by maximum likelihood)")
+set.seed(31)
+nr <- 240
+rarm <- rep(c("Placebo", "Active"), each = nr / 2)
+rbase <- round(rnorm(nr, 20, 5), 1)
+rsite <- sample(c("North", "South", "East"), nr, replace = TRUE)
+lp <- -1 + 0.9 * (rarm == "Active") + 0.08 * (rbase - 20) + ifelse(rsite == "East", 0.4, 0)
+resp <- ifelse(runif(nr) < plogis(lp), "responder", "non-responder")
+resp[c(5, 77)] <- NA
+run_glm_case("glm-trial-responder", data.frame(subject = sprintf("R%03d", 1:nr), arm = rarm, base = rbase, site = rsite, response = resp),
+  list(response = "response", family = "binomial", event = "responder", terms = list(list(variable = "arm", reference = "Placebo"),
+       list(variable = "base"), list(variable = "site")), id = "subject", treatment = "arm"),
+  "invented trial data (R set.seed(31)); glm logit with an event level, emmeans counterfactuals")
+run_glm_case("glm-trial-cloglog", data.frame(subject = sprintf("R%03d", 1:nr), arm = rarm, base = rbase, site = rsite, response = resp),
+  list(response = "response", family = "binomial", link = "cloglog", event = "responder", terms = list(list(variable = "arm", reference = "Placebo"),
+       list(variable = "base"), list(variable = "site")), id = "subject"),
+  "invented trial data (R set.seed(31)); glm complementary log-log")

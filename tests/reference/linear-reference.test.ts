@@ -6,7 +6,7 @@
 import { readFileSync, readdirSync } from "node:fs";
 import { join } from "node:path";
 import { describe, expect, it } from "vitest";
-import { fitModel, type LinearModelResult } from "~/engine";
+import { fitLinear as fitModel, type LinearModelResult } from "~/engine";
 import { readCsvText } from "~/engine-io/read-csv";
 import { expectAllClose, expectClose } from "./compare";
 

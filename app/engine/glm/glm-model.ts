@@ -1,0 +1,478 @@
+/**
+ * The generalized linear model rerun: binomial (logit, probit, cloglog), Poisson, quasi-Poisson
+ * and negative binomial (NB2, θ by maximum likelihood; Venables and Ripley 2002, 7.4) with log
+ * link; IRLS through the Householder QR; Wald and profile-likelihood inference; observation-level
+ * diagnostics at convergence from the weighted QR (Williams 1987; Pregibon 1981); checks of
+ * assumptions and marginal treatment effects.
+ */
+import type { DataTable } from "../data";
+import { buildDesign, prepareData, type Design, type PreparedData, type Variable } from "../design";
+import { observationDiagnostics, robustCovariances } from "../diagnostics";
+import { normalQuantile, normalUpper, tTwoSided } from "../distributions";
+import { EngineError } from "../errors";
+import type { FitMethod, VariableSummary } from "../linear-model";
+import { CANONICAL_LINK, type Link, type ModelSpec } from "../model-spec";
+import { readQqShape, type QqShape } from "../qq-shape";
+import { ENGINE_VERSION, RESULTS_CAUTION } from "../version";
+import { varianceInflation, type VifRow } from "../vif";
+import {
+  binnedResiduals,
+  calibration,
+  devianceGoodnessOfFit,
+  likelihoodRatio,
+  overdispersion,
+  type BinnedResidual,
+  type Calibration,
+  type ChiSquareCheck,
+  type LikelihoodRatioTest,
+  type OverdispersionCheck,
+} from "./glm-checks";
+import { checkGlmResponse, prepareGlmTable } from "./glm-data";
+import {
+  binomialFamily,
+  linkFunctions,
+  negativeBinomialFamily,
+  poissonFamily,
+  quasiPoissonFamily,
+  type GlmFamily,
+  type GlmFamilyName,
+  type LinkFunctions,
+} from "./families";
+import { irls, type IrlsFit } from "./irls";
+import { marginalEffects, type MarginalEffects } from "./marginal-effects";
+import { thetaMaximumLikelihood } from "./negative-binomial";
+import { profileIntervals, type ProfileInterval } from "./profile-intervals";
+import { quantileResiduals } from "./quantile-residuals";
+import { detectSeparation } from "./separation";
+
+/** Raised when a binary model shows separation: the planned model has no finite estimates. */
+export class SeparationError extends EngineError {
+  constructor(
+    message: string,
+    readonly kind: "complete" | "quasi-complete",
+    readonly coefficients: readonly string[],
+    readonly terms: readonly string[],
+  ) {
+    super(message);
+    this.name = "SeparationError";
+  }
+}
+
+export interface GlmCoefficientRow {
+  readonly name: string;
+  readonly term: string | null;
+  readonly estimate: number;
+  readonly se: number;
+  /** Wald z (t when the dispersion is estimated). */
+  readonly statistic: number;
+  readonly p: number;
+  /** 95% Wald interval. */
+  readonly lower: number;
+  readonly upper: number;
+}
+
+export interface RatioRow {
+  readonly name: string;
+  readonly ratio: number;
+  readonly lower: number;
+  readonly upper: number;
+}
+
+export interface GlmFitSummary {
+  readonly deviance: number;
+  readonly nullDeviance: number;
+  readonly logLik: number | null;
+  readonly aic: number | null;
+  readonly dispersion: number;
+  readonly iterations: number;
+  readonly converged: boolean;
+  readonly dfResidual: number;
+  readonly dfNull: number;
+  readonly pearsonChiSquare: number;
+  /** Negative binomial shape θ and its standard error. */
+  readonly theta?: number;
+  readonly thetaSE?: number;
+}
+
+export interface GlmObservationColumns {
+  readonly row: number[];
+  readonly id: (string | null)[];
+  readonly response: number[];
+  /** Fitted mean μ̂. */
+  readonly fitted: number[];
+  /** Response residual y − μ̂. */
+  readonly residual: number[];
+  readonly pearson: number[];
+  readonly devianceResidual: number[];
+  readonly workingResidual: number[];
+  readonly leverage: number[];
+  /** r_D / √(φ(1 − h)). */
+  readonly studentizedInternal: number[];
+  /** Likelihood residual sign(r_D)·√(r_D² + h·r_P²/(1 − h)) (÷ √φ̂ when estimated). */
+  readonly studentizedExternal: number[];
+  /** r_P² h / (φ p (1 − h)²). */
+  readonly cooksDistance: number[];
+  /** One-step DFBETAS, one array per coefficient. */
+  readonly dfbetas: number[][];
+  /** Partial residuals on the working (link) scale per term. */
+  readonly partialResiduals: { readonly term: string; readonly values: number[] }[];
+  /** Randomized quantile residuals (Dunn and Smyth 1996), fixed seed. */
+  readonly quantileResidual: number[];
+}
+
+export interface GlmChecks {
+  readonly overdispersion: OverdispersionCheck;
+  readonly devianceGoodnessOfFit: ChiSquareCheck;
+  /** Likelihood-ratio test of a quadratic term per continuous covariate. */
+  readonly linearity: readonly LikelihoodRatioTest[];
+  /** Likelihood-ratio tests of treatment-by-covariate interactions, per covariate and jointly. */
+  readonly homogeneityOfTreatmentEffect?: { readonly joint: LikelihoodRatioTest; readonly byCovariate: readonly LikelihoodRatioTest[] };
+  readonly calibration?: Calibration;
+}
+
+export interface GlmResult {
+  readonly kind: "glm";
+  readonly engineVersion: string;
+  readonly caution: string;
+  readonly method: FitMethod;
+  readonly spec: ModelSpec;
+  readonly family: GlmFamilyName;
+  readonly link: Link;
+  readonly n: number;
+  readonly excluded: number;
+  readonly excludedRows: number[];
+  readonly rank: number;
+  readonly dfResidual: number;
+  readonly variables: VariableSummary[];
+  readonly terms: { readonly label: string; readonly kind: string; readonly coefficients: string[] }[];
+  readonly coefficients: GlmCoefficientRow[];
+  readonly statisticName: "z" | "t";
+  readonly covariance: number[][];
+  readonly robustSE: { readonly HC0: number[]; readonly HC1: number[]; readonly HC2: number[]; readonly HC3: number[] };
+  readonly profileIntervals: ProfileInterval[] | null;
+  readonly ratioName: "odds ratio" | "rate ratio" | null;
+  readonly ratios: RatioRow[] | null;
+  readonly fit: GlmFitSummary;
+  readonly events: number;
+  readonly eventsPerVariable: number;
+  readonly observations: GlmObservationColumns;
+  readonly checks: GlmChecks;
+  readonly binnedResiduals: BinnedResidual[] | null;
+  readonly vif: VifRow[];
+  readonly qqShape: QqShape;
+  readonly marginalEffects: MarginalEffects | null;
+}
+
+export interface GlmOptions {
+  /** Profile-likelihood intervals (default: on up to 200 000 cells n·p). */
+  readonly profile?: boolean;
+}
+
+interface CoreFit {
+  readonly fit: IrlsFit;
+  readonly family: GlmFamily;
+  readonly theta?: { theta: number; se: number };
+}
+
+function familyOf(name: GlmFamilyName, theta?: number): GlmFamily {
+  switch (name) {
+    case "binomial":
+      return binomialFamily;
+    case "poisson":
+      return poissonFamily;
+    case "quasipoisson":
+      return quasiPoissonFamily;
+    case "negative-binomial":
+      return negativeBinomialFamily(theta ?? 1);
+  }
+}
+
+/** Fits the family on a design (for negative binomial, alternating IRLS and θ̂). */
+function fitCore(
+  x: Float64Array,
+  n: number,
+  p: number,
+  data: PreparedData,
+  familyName: GlmFamilyName,
+  link: LinkFunctions,
+  offset: Float64Array | null = data.offset,
+  fixedTheta?: number,
+): CoreFit {
+  const base = { x, n, p, y: data.response, weights: data.weights, offset, link };
+  if (familyName !== "negative-binomial") {
+    const family = familyOf(familyName);
+    return { fit: irls({ ...base, family }), family };
+  }
+  if (fixedTheta !== undefined) {
+    const family = negativeBinomialFamily(fixedTheta);
+    return { fit: irls({ ...base, family }), family, theta: { theta: fixedTheta, se: NaN } };
+  }
+  let fit = irls({ ...base, family: poissonFamily });
+  let est = thetaMaximumLikelihood(data.response, fit.mu, data.weights);
+  let family = negativeBinomialFamily(est.theta);
+  for (let outer = 0; outer < 100; outer++) {
+    fit = irls({ ...base, family, start: fit.coefficients });
+    const next = thetaMaximumLikelihood(data.response, fit.mu, data.weights);
+    const change = Math.abs(next.theta - est.theta) / est.theta;
+    est = next;
+    family = negativeBinomialFamily(est.theta);
+    if (change < 1e-10) break;
+  }
+  fit = irls({ ...base, family, start: fit.coefficients });
+  return { fit, family, theta: est };
+}
+
+function nameAliased(design: Design, aliased: readonly number[]): never {
+  const names = aliased.map((j) => `"${design.names[j]}"`).join(", ");
+  throw new EngineError(
+    `the design's columns are aliased: ${names} cannot be estimated apart from earlier columns; a planned model must be estimable as written`,
+  );
+}
+
+/** Fits the generalized linear model the specification describes. */
+export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOptions = {}): GlmResult {
+  const familyName = spec.family as GlmFamilyName;
+  const linkName = spec.link ?? CANONICAL_LINK[spec.family];
+  const allowed: Record<GlmFamilyName, Link[]> = {
+    binomial: ["logit", "probit", "cloglog"],
+    poisson: ["log"],
+    quasipoisson: ["log"],
+    "negative-binomial": ["log"],
+  };
+  if (!allowed[familyName].includes(linkName)) {
+    throw new EngineError(`link "${linkName}" is not available for the ${familyName} family; use ${allowed[familyName].join(", ")}`);
+  }
+  const link = linkFunctions(linkName);
+  const table = prepareGlmTable(spec, tableIn);
+  const data = prepareData(spec, table);
+  const design = buildDesign(spec, data);
+  const { n, p } = design;
+  if (n <= p) {
+    throw new EngineError(`${n} usable rows for ${p} coefficients: the model needs more usable rows than coefficients`);
+  }
+  checkGlmResponse(spec, data);
+  const core = fitCore(design.x, n, p, data, familyName, link);
+  const { fit, family } = core;
+  if (fit.aliased.length > 0) nameAliased(design, fit.aliased);
+
+  if (familyName === "binomial") {
+    const sep = detectSeparation(fit, design.x, n, p, data.response, data.offset, family, link);
+    if (sep) {
+      const names = sep.coefficients.filter((j) => !(design.intercept && j === 0)).map((j) => design.names[j]);
+      const termLabels = [...new Set(design.terms.filter((t) => t.columns.some((c) => sep.coefficients.includes(c))).map((t) => t.label))];
+      throw new SeparationError(
+        `${sep.kind} separation: ${termLabels.length > 0 ? `the estimates for ${termLabels.map((t) => `"${t}"`).join(", ")}` : "the estimates"} diverge (${sep.boundaryRows} rows have fitted probability 0 or 1), so the planned model has no finite maximum-likelihood estimate; consider a penalized (Firth) fit or merging levels as a documented deviation`,
+        sep.kind,
+        names,
+        termLabels,
+      );
+    }
+  }
+
+  const pw = data.weights;
+  const y = data.response;
+  const mu = fit.mu;
+  const wfit = fit.weighted;
+  const dfResidual = n - p;
+  let pearsonChiSquare = 0;
+  const pearson = new Float64Array(n);
+  const devRes = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    const w = pw ? pw[i] : 1;
+    pearson[i] = ((y[i] - mu[i]) * Math.sqrt(w)) / Math.sqrt(family.variance(mu[i]));
+    pearsonChiSquare += pearson[i] * pearson[i];
+    const d = family.deviance(y[i], mu[i], w);
+    devRes[i] = Math.sign(y[i] - mu[i]) * Math.sqrt(Math.max(0, d));
+  }
+  const dispersion = family.estimatedDispersion ? pearsonChiSquare / dfResidual : 1;
+  const cov = wfit.unscaledCovariance.map((v) => v * dispersion);
+  const estimatedPhi = family.estimatedDispersion;
+  const q = normalQuantile(0.975);
+  const termOf = new Map<number, string>();
+  for (const t of design.terms) for (const c of t.columns) termOf.set(c, t.label);
+  const coefficients: GlmCoefficientRow[] = design.names.map((name, j) => {
+    const estimate = fit.coefficients[j];
+    const se = Math.sqrt(cov[j * p + j]);
+    const statistic = estimate / se;
+    const pv = estimatedPhi ? tTwoSided(statistic, dfResidual) : 2 * normalUpper(Math.abs(statistic));
+    return { name, term: termOf.get(j) ?? null, estimate, se, statistic, p: pv, lower: estimate - q * se, upper: estimate + q * se };
+  });
+  const ratioName = linkName === "logit" ? "odds ratio" : linkName === "log" ? "rate ratio" : null;
+  const ratios = ratioName
+    ? coefficients.filter((c) => c.term !== null).map((c) => ({ name: c.name, ratio: Math.exp(c.estimate), lower: Math.exp(c.lower), upper: Math.exp(c.upper) }))
+    : null;
+
+  // null deviance: intercept-only model (with the offset), or η = offset without an intercept
+  let nullDeviance: number;
+  if (design.intercept) {
+    const ones = new Float64Array(n).fill(1);
+    const nullFit = fitCore(ones, n, 1, data, familyName, link, data.offset, core.theta?.theta);
+    nullDeviance = nullFit.fit.deviance;
+  } else {
+    nullDeviance = 0;
+    for (let i = 0; i < n; i++) nullDeviance += family.deviance(y[i], link.inverse(data.offset ? data.offset[i] : 0), pw ? pw[i] : 1);
+  }
+  let logLik: number | null = null;
+  if (!estimatedPhi) {
+    logLik = 0;
+    for (let i = 0; i < n; i++) logLik += family.logLikelihood(y[i], mu[i], pw ? pw[i] : 1);
+  }
+  const aic = logLik === null ? null : -2 * logLik + 2 * (p + (core.theta ? 1 : 0));
+
+  // observation-level diagnostics from the weighted QR at convergence
+  // DFBETAS as R's dfbetas for a glm: the one-step coefficient change of the weighted
+  // least-squares fit at convergence with the deviance residual as its weighted residual,
+  // scaled by the leave-one-out σ computed from those residuals
+  let devSs = 0;
+  for (let i = 0; i < n; i++) devSs += devRes[i] * devRes[i];
+  const lsDiag = observationDiagnostics({ ...wfit, weightedResiduals: devRes, sigma: Math.sqrt(devSs / dfResidual) });
+  const h = lsDiag.leverage;
+  const internal = new Float64Array(n);
+  const external = new Float64Array(n);
+  const cook = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    const m = 1 - h[i];
+    internal[i] = devRes[i] / Math.sqrt(dispersion * m);
+    const lr = Math.sign(devRes[i]) * Math.sqrt(devRes[i] * devRes[i] + (h[i] * pearson[i] * pearson[i]) / m);
+    external[i] = estimatedPhi ? lr / Math.sqrt(dispersion) : lr;
+    cook[i] = (pearson[i] * pearson[i] * h[i]) / (dispersion * p * m * m);
+  }
+  const robust = robustCovariances(wfit, h);
+  const working = new Float64Array(n);
+  for (let i = 0; i < n; i++) working[i] = (y[i] - mu[i]) / link.derivative(fit.eta[i]);
+  const partialResiduals = design.terms.map((t) => {
+    const values = new Float64Array(n);
+    for (const c of t.columns) for (let i = 0; i < n; i++) values[i] += fit.coefficients[c] * design.x[c * n + i];
+    const mean = values.reduce((s, v) => s + v, 0) / n;
+    return { term: t.label, values: Array.from(values, (v, i) => v - mean + working[i]) };
+  });
+  const quantile = quantileResiduals(y, mu, family);
+
+  // checks
+  const events = y.reduce((s, v) => s + v, 0);
+  const freeParameters = Math.max(1, p - (design.intercept ? 1 : 0));
+  const eventsPerVariable = (familyName === "binomial" ? Math.min(events, n - events) : events) / freeParameters;
+  const phiForTests = estimatedPhi ? dispersion : null;
+  const refit = (extra: string[][]): { deviance: number; rank: number } => {
+    const big = buildDesign(spec, data, extra);
+    const r = fitCore(big.x, n, big.p, data, familyName, link, data.offset, core.theta?.theta);
+    return { deviance: r.fit.deviance, rank: big.p - r.fit.aliased.length };
+  };
+  const linearity: LikelihoodRatioTest[] = [];
+  for (const t of design.terms) {
+    if (t.kind !== "continuous") continue;
+    const v = data.variables.get(t.variables[0]) as Extract<Variable, { kind: "continuous" }>;
+    const squared = buildDesign(spec, data);
+    const x2 = new Float64Array(n * (p + 1));
+    x2.set(squared.x);
+    for (let i = 0; i < n; i++) x2[p * n + i] = (v.values[i] - v.mean) ** 2;
+    const r = fitCore(x2, n, p + 1, data, familyName, link, data.offset, core.theta?.theta);
+    const df = r.fit.aliased.length > 0 ? 0 : 1;
+    linearity.push(likelihoodRatio(`${t.label} squared`, fit.deviance, r.fit.deviance, df, phiForTests, n - p - 1));
+  }
+  let homogeneity: GlmChecks["homogeneityOfTreatmentEffect"];
+  if (spec.treatment) {
+    const arm = spec.treatment;
+    const others = design.terms
+      .filter((t) => t.kind !== "interaction" && t.variables[0] !== arm)
+      .map((t) => t.variables[0])
+      .filter((c) => !design.terms.some((t) => t.kind === "interaction" && t.variables.length === 2 && t.variables.includes(c) && t.variables.includes(arm)));
+    if (others.length > 0) {
+      const byCovariate = others.map((c) => {
+        const r = refit([[arm, c]]);
+        return likelihoodRatio(`${arm} by ${c}`, fit.deviance, r.deviance, r.rank - p, phiForTests, n - r.rank);
+      });
+      const all = refit(others.map((c) => [arm, c]));
+      homogeneity = { joint: likelihoodRatio("all treatment interactions", fit.deviance, all.deviance, all.rank - p, phiForTests, n - all.rank), byCovariate };
+    }
+  }
+  const meanCount = mu.reduce((s, v) => s + v, 0) / n;
+  const checks: GlmChecks = {
+    overdispersion: overdispersion(pearsonChiSquare, dfResidual, familyName),
+    devianceGoodnessOfFit: devianceGoodnessOfFit(fit.deviance, dfResidual, familyName, meanCount),
+    linearity,
+    ...(homogeneity ? { homogeneityOfTreatmentEffect: homogeneity } : {}),
+    ...(familyName === "binomial" ? { calibration: calibration(y, mu) } : {}),
+  };
+
+  const wantProfile = options.profile ?? n * p <= 200_000;
+  const profile = wantProfile
+    ? profileIntervals(design, data, fit, (off, k) => {
+        const r = fitCore(k.x, n, k.p, data, familyName, link, off, core.theta?.theta);
+        return r.fit.deviance;
+      }, coefficients, dispersion, estimatedPhi, dfResidual)
+    : null;
+
+  const marginal =
+    spec.treatment && data.variables.get(spec.treatment)?.kind === "categorical"
+      ? marginalEffects(design, data, spec.treatment, fit.coefficients, cov, link, familyName === "binomial")
+      : null;
+
+  const summarize = (v: Variable): VariableSummary =>
+    v.kind === "continuous"
+      ? { name: v.name, kind: v.kind, mean: v.mean }
+      : { name: v.name, kind: v.kind, levels: v.levels, reference: v.reference, counts: v.counts };
+  const diag = (m: Float64Array) => Array.from({ length: p }, (_, j) => Math.sqrt(m[j * p + j]));
+
+  return {
+    kind: "glm",
+    engineVersion: ENGINE_VERSION,
+    caution: RESULTS_CAUTION,
+    method: { kind: "planned", description: `planned model, ${familyName} family with ${linkName} link, maximum likelihood by IRLS` },
+    spec,
+    family: familyName,
+    link: linkName,
+    n,
+    excluded: data.excludedRows.length,
+    excludedRows: [...data.excludedRows],
+    rank: p,
+    dfResidual,
+    variables: [...data.variables.values()].map(summarize),
+    terms: design.terms.map((t) => ({ label: t.label, kind: t.kind, coefficients: t.columns.map((c) => design.names[c]) })),
+    coefficients,
+    statisticName: estimatedPhi ? "t" : "z",
+    covariance: Array.from({ length: p }, (_, i) => Array.from({ length: p }, (_, j) => cov[j * p + i])),
+    robustSE: { HC0: diag(robust.HC0), HC1: diag(robust.HC1), HC2: diag(robust.HC2), HC3: diag(robust.HC3) },
+    profileIntervals: profile,
+    ratioName,
+    ratios,
+    fit: {
+      deviance: fit.deviance,
+      nullDeviance,
+      logLik,
+      aic,
+      dispersion,
+      iterations: fit.iterations,
+      converged: fit.converged,
+      dfResidual,
+      dfNull: n - (design.intercept ? 1 : 0),
+      pearsonChiSquare,
+      ...(core.theta ? { theta: core.theta.theta, thetaSE: core.theta.se } : {}),
+    },
+    events,
+    eventsPerVariable,
+    observations: {
+      row: Array.from(data.used, (i) => data.rowNumbers[i]),
+      id: [...data.ids],
+      response: Array.from(y),
+      fitted: Array.from(mu),
+      residual: Array.from(y, (v, i) => v - mu[i]),
+      pearson: Array.from(pearson),
+      devianceResidual: Array.from(devRes),
+      workingResidual: Array.from(working),
+      leverage: Array.from(h),
+      studentizedInternal: Array.from(internal),
+      studentizedExternal: Array.from(external),
+      cooksDistance: Array.from(cook),
+      dfbetas: lsDiag.dfbetas.map((c) => Array.from(c)),
+      partialResiduals,
+      quantileResidual: Array.from(quantile),
+    },
+    checks,
+    binnedResiduals: familyName === "binomial" ? binnedResiduals(y, mu) : null,
+    vif: varianceInflation(design, wfit.unscaledCovariance),
+    qqShape: readQqShape(quantile),
+    marginalEffects: marginal,
+  };
+}
+
