@@ -376,6 +376,26 @@ glm_reference_values <- function(name, spec, d, source) {
     a <- anova(base_fit, big, test = test_kind, dispersion = nb_disp)
     list(term = paste(v, "squared"), statistic = if (fam == "quasipoisson") a$F[2] else a$Deviance[2], df = a$Df[2], p = a[2, ncol(a)])
   })
+  smooths <- lapply(cont, function(t) {
+    v <- t$variable
+    pr <- partial[, match(v, colnames(partial))]
+    l <- lowess(dd[[v]], pr)
+    list(term = v, x = l$x, y = l$y)
+  })
+  hl <- NULL
+  if (fam == "binomial") {
+    # observed and expected events by tenths of the rows ordered by predicted risk
+    mu <- fitted(fit)
+    o <- order(mu, seq_along(mu))
+    g <- 10
+    stat <- 0
+    for (k in 0:(g - 1)) {
+      idx <- o[(floor(k * n / g) + 1):floor((k + 1) * n / g)]
+      O <- sum(fit$y[idx]); E <- sum(mu[idx]); m <- length(idx)
+      stat <- stat + (O - E)^2 / (E * (1 - E / m))
+    }
+    hl <- list(statistic = stat, df = g - 2, p = pchisq(stat, g - 2, lower.tail = FALSE))
+  }
   homogeneity <- NULL
   marginal <- NULL
   if (!is.null(spec$treatment)) {
@@ -398,6 +418,9 @@ glm_reference_values <- function(name, spec, d, source) {
     ref <- match(if (is.null(mains[[which(vapply(mains, function(t) t$variable == arm, TRUE))]]$reference)) lev[1]
                  else mains[[which(vapply(mains, function(t) t$variable == arm, TRUE))]]$reference, lev)
     ct <- summary(contrast(e, method = "trt.vs.ctrl", ref = ref, adjust = "none"), infer = c(TRUE, TRUE))
+    # log ratio of standardized means (risk or rate ratio) and log odds ratio by the delta method
+    lrr <- summary(contrast(regrid(e, transform = "log"), method = "trt.vs.ctrl", ref = ref, adjust = "none"))
+    lor <- if (fam == "binomial") summary(contrast(regrid(e, transform = "logit"), method = "trt.vs.ctrl", ref = ref, adjust = "none")) else NULL
     # the misspecification-robust variance of Ye, Shao, Yi and Zhao (2023), written out in R
     y <- fit$y
     preds <- sapply(lev, function(l) { nd <- dd; nd[[arm]] <- factor(l, levels = lev); contrasts(nd[[arm]]) <- contrasts(dd[[arm]]); predict(fit, nd, type = "response") })
@@ -419,6 +442,8 @@ glm_reference_values <- function(name, spec, d, source) {
                                                  lower = s$asymp.LCL[a], upper = s$asymp.UCL[a], robustSe = sqrt(V[a, a]))),
       differences = lapply(seq_len(nrow(ct)), function(i) list(label = as.character(ct$contrast[i]), estimate = ct$estimate[i], se = ct$SE[i],
                                                            p = ct$p.value[i])),
+      logRatio = lapply(seq_len(nrow(lrr)), function(i) list(estimate = lrr$estimate[i], se = lrr$SE[i])),
+      logOddsRatio = if (is.null(lor)) NA else lapply(seq_len(nrow(lor)), function(i) list(estimate = lor$estimate[i], se = lor$SE[i])),
       robustDifferenceSe = lapply(setdiff(seq_len(K), ref), function(a) sqrt(V[a, a] + V[ref, ref] - 2 * V[a, ref])),
       robustLogRatioSe = lapply(setdiff(seq_len(K), ref), function(a) {
         g <- rep(0, K); g[a] <- 1 / m[a]; g[ref] <- -1 / m[ref]; sqrt(drop(t(g) %*% V %*% g)) }))
@@ -434,6 +459,8 @@ glm_reference_values <- function(name, spec, d, source) {
               rVersion = R.version.string, n = n, rank = fit$rank, excluded = nrow(d) - n,
               coefficients = coefficients, robustSE = robust, fit = fitstats, observations = observations,
               linearity = if (length(linearity) == 0) NA else linearity,
+              smooths = if (length(smooths) == 0) NA else smooths,
+              hosmerLemeshow = if (is.null(hl)) NA else hl,
               homogeneity = if (is.null(homogeneity)) NA else homogeneity,
               vif = vif_rows, marginal = if (is.null(marginal)) NA else marginal)
   writeLines(toJSON(out, auto_unbox = TRUE, digits = NA, na = "null", pretty = FALSE),

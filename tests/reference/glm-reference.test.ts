@@ -34,7 +34,11 @@ interface RGlmCase {
   linearity: { term: string; statistic: number; df: number; p: number }[] | null;
   homogeneity: { joint: { statistic: number; df: number; p: number }; byCovariate: { term: string; statistic: number; df: number; p: number }[] } | null;
   vif: { term: string; gvif: number; df: number; adjusted: number }[] | null;
+  smooths: { term: string; x: number[]; y: number[] }[] | null;
+  hosmerLemeshow: { statistic: number; df: number; p: number } | null;
   marginal: {
+    logRatio: { estimate: number; se: number }[];
+    logOddsRatio: { estimate: number; se: number }[] | null;
     means: { level: string; estimate: number; se: number; lower: number; upper: number; robustSe: number }[];
     differences: { label: string; estimate: number; se: number; p: number }[];
     robustDifferenceSe: number[];
@@ -134,6 +138,20 @@ describe.each(cases.map((c) => [c.case, c] as const))("GLM reference case %s", (
     }
   });
 
+  it("LOWESS smooth of partial residuals (stats::lowess) and Hosmer–Lemeshow by tenths of predicted risk", () => {
+    (c.smooths ?? []).forEach((sm, i) => {
+      const ours = result.checks.linearitySmooth[i];
+      expect(ours.term).toBe(sm.term);
+      expectAllClose(ours.x, sm.x, TOL, `smooth x ${sm.term}`);
+      expectAllClose(ours.y, sm.y, TOL, `smooth y ${sm.term}`, FLOOR);
+    });
+    if (c.hosmerLemeshow) {
+      expectClose(result.checks.calibration?.statistic, c.hosmerLemeshow.statistic, TOL, "Hosmer–Lemeshow");
+      expect(result.checks.calibration?.df).toBe(c.hosmerLemeshow.df);
+      expectClose(result.checks.calibration?.p, c.hosmerLemeshow.p, PVAL, "Hosmer–Lemeshow p");
+    }
+  });
+
   it("generalized VIF (car::vif)", () => {
     if (!c.vif) return;
     c.vif.forEach((v, i) => expectClose(result.vif[i].gvif, v.gvif, TOL, `GVIF ${v.term}`));
@@ -163,5 +181,14 @@ describe.each(cases.map((c) => [c.case, c] as const))("GLM reference case %s", (
       });
     }
     m.robustLogRatioSe.forEach((se, i) => expectClose(ratios[i].robust.se, se, TOL, `log ratio Ye SE ${i}`));
+    m.logRatio.forEach((lr, i) => {
+      expectClose(Math.log(ratios[i].estimate), lr.estimate, TOL, `log ratio ${i}`);
+      expectClose(ratios[i].se, lr.se, TOL, `log ratio SE ${i}`);
+    });
+    const odds = ours.contrasts.filter((k) => k.measure === "odds ratio");
+    (m.logOddsRatio ?? []).forEach((lo, i) => {
+      expectClose(Math.log(odds[i].estimate), lo.estimate, TOL, `log odds ratio ${i}`);
+      expectClose(odds[i].se, lo.se, TOL, `log odds ratio SE ${i}`);
+    });
   });
 });

@@ -44,6 +44,7 @@ import { thetaMaximumLikelihood } from "./negative-binomial";
 import { profileIntervals, type ProfileInterval } from "./profile-intervals";
 import { quantileResiduals } from "./quantile-residuals";
 import { detectSeparation } from "./separation";
+import lowess from "@stdlib/stats-lowess";
 
 /** Raised when a binary model shows separation: the planned model has no finite estimates. */
 export class SeparationError extends EngineError {
@@ -125,6 +126,11 @@ export interface GlmChecks {
   readonly devianceGoodnessOfFit: ChiSquareCheck;
   /** Likelihood-ratio test of a quadratic term per continuous covariate. */
   readonly linearity: readonly LikelihoodRatioTest[];
+  /**
+   * LOWESS smooth (Cleveland 1979; f = 2/3, three robustness steps) of each continuous
+   * covariate's partial residuals on the link scale: a straight smooth means the term is linear.
+   */
+  readonly linearitySmooth: readonly { readonly term: string; readonly x: number[]; readonly y: number[] }[];
   /** Likelihood-ratio tests of treatment-by-covariate interactions, per covariate and jointly. */
   readonly homogeneityOfTreatmentEffect?: { readonly joint: LikelihoodRatioTest; readonly byCovariate: readonly LikelihoodRatioTest[] };
   readonly calibration?: Calibration;
@@ -386,11 +392,20 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
       homogeneity = { joint: likelihoodRatio("all treatment interactions", fit.deviance, all.deviance, all.rank - p, phiForTests, n - all.rank), byCovariate };
     }
   }
+  const linearitySmooth = design.terms
+    .map((t, k) => ({ t, k }))
+    .filter(({ t }) => t.kind === "continuous")
+    .map(({ t, k }) => {
+      const v = data.variables.get(t.variables[0]) as Extract<Variable, { kind: "continuous" }>;
+      const smooth = lowess(Array.from(v.values), partialResiduals[k].values);
+      return { term: t.label, x: smooth.x, y: smooth.y };
+    });
   const meanCount = mu.reduce((s, v) => s + v, 0) / n;
   const checks: GlmChecks = {
     overdispersion: overdispersion(pearsonChiSquare, dfResidual, familyName),
     devianceGoodnessOfFit: devianceGoodnessOfFit(fit.deviance, dfResidual, familyName, meanCount),
     linearity,
+    linearitySmooth,
     ...(homogeneity ? { homogeneityOfTreatmentEffect: homogeneity } : {}),
     ...(familyName === "binomial" ? { calibration: calibration(y, mu) } : {}),
   };
