@@ -60,6 +60,7 @@ export function toGlmCliResult(result: GlmResult): Record<string, unknown> {
     },
     events: result.events,
     eventsPerVariable: num(result.eventsPerVariable),
+    notes: result.notes,
     observations: o.row.map((row, i) => ({
       row,
       id: o.id[i],

@@ -75,8 +75,12 @@ export interface GlmCoefficientRow {
 export interface RatioRow {
   readonly name: string;
   readonly ratio: number;
+  /** 95% interval from the Wald interval of the coefficient. */
   readonly lower: number;
   readonly upper: number;
+  /** 95% interval from the profile-likelihood interval, when computed. */
+  readonly profileLower: number | null;
+  readonly profileUpper: number | null;
 }
 
 export interface GlmFitSummary {
@@ -167,6 +171,8 @@ export interface GlmResult {
   readonly vif: VifRow[];
   readonly qqShape: QqShape;
   readonly marginalEffects: MarginalEffects | null;
+  /** Plain-words notes on the fit (iteration limit reached, few events per variable). */
+  readonly notes: string[];
 }
 
 export interface GlmOptions {
@@ -303,10 +309,6 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     const pv = estimatedPhi ? tTwoSided(statistic, dfResidual) : 2 * normalUpper(Math.abs(statistic));
     return { name, term: termOf.get(j) ?? null, estimate, se, statistic, p: pv, lower: estimate - q * se, upper: estimate + q * se };
   });
-  const ratioName = linkName === "logit" ? "odds ratio" : linkName === "log" ? "rate ratio" : null;
-  const ratios = ratioName
-    ? coefficients.filter((c) => c.term !== null).map((c) => ({ name: c.name, ratio: Math.exp(c.estimate), lower: Math.exp(c.lower), upper: Math.exp(c.upper) }))
-    : null;
 
   // null deviance: intercept-only model (with the offset), or η = offset without an intercept
   let nullDeviance: number;
@@ -418,6 +420,29 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
       }, coefficients, dispersion, estimatedPhi, dfResidual)
     : null;
 
+  const ratioName = linkName === "logit" ? "odds ratio" : linkName === "log" ? "rate ratio" : null;
+  const expOrNull = (v: number | null | undefined) => (v === null || v === undefined ? null : Math.exp(v));
+  const ratios = ratioName
+    ? coefficients
+        .map((c, j) => ({ c, j }))
+        .filter(({ c }) => c.term !== null)
+        .map(({ c, j }) => ({
+          name: c.name,
+          ratio: Math.exp(c.estimate),
+          lower: Math.exp(c.lower),
+          upper: Math.exp(c.upper),
+          profileLower: expOrNull(profile?.[j].lower),
+          profileUpper: expOrNull(profile?.[j].upper),
+        }))
+    : null;
+  const notes: string[] = [];
+  if (!fit.converged) {
+    notes.push(`IRLS stopped at its limit of ${fit.iterations} iterations before the deviance settled; the estimates may not be the maximum-likelihood estimates.`);
+  }
+  if (eventsPerVariable < 10) {
+    notes.push(`Only ${eventsPerVariable.toFixed(1)} events per estimated coefficient (fewer than 10): estimates may be biased away from zero and intervals too narrow.`);
+  }
+
   const marginal =
     spec.treatment && data.variables.get(spec.treatment)?.kind === "categorical"
       ? marginalEffects(design, data, spec.treatment, fit.coefficients, cov, link, familyName === "binomial")
@@ -488,6 +513,7 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     vif: varianceInflation(design, wfit.unscaledCovariance),
     qqShape: readQqShape(quantile),
     marginalEffects: marginal,
+    notes,
   };
 }
 
