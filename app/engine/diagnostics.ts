@@ -78,7 +78,7 @@ export function observationDiagnostics(fit: LeastSquaresFit): ObservationDiagnos
   // rows in chunks so the chunk of Q stays in cache, four columns of Q per pass
   const dfbetas: Float64Array[] = [];
   for (let j = 0; j < p; j++) dfbetas.push(new Float64Array(n));
-  const CHUNK = 2048;
+  const CHUNK = 512;
   for (let r0 = 0; r0 < n; r0 += CHUNK) {
     const r1 = Math.min(n, r0 + CHUNK);
     for (let j = 0; j < p; j++) {
@@ -236,7 +236,7 @@ export function partialResidualsFromQR(fit: LeastSquaresFit, termColumns: readon
     }
   });
   const out = termColumns.map(() => new Float64Array(n));
-  const CHUNK = 2048;
+  const CHUNK = 512;
   for (let r0 = 0; r0 < n; r0 += CHUNK) {
     const r1 = Math.min(n, r0 + CHUNK);
     for (let t = 0; t < terms; t++) {

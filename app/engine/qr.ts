@@ -112,15 +112,15 @@ function loadBlock(qr: Float64Array, n: number, k0: number, k1: number, vbuf: Fl
 function blockTriangle(vbuf: Float64Array, n: number, k0: number, tau: Float64Array, from: number, to: number, t: Float64Array): void {
   t.fill(0);
   const rows = n - k0;
-  const gram = new Float64Array(BLOCK * BLOCK);
-  for (let r = 0; r < rows; r++) {
-    const o = r * BLOCK;
-    for (let a = 0; a < BLOCK; a++) {
-      const va = vbuf[o + a];
-      if (va === 0) continue;
-      for (let b = a; b < BLOCK; b++) gram[a * BLOCK + b] += va * vbuf[o + b];
-    }
+  // Gram matrix V'V (upper triangle), ten sums in one pass
+  let g00 = 0, g01 = 0, g02 = 0, g03 = 0, g11 = 0, g12 = 0, g13 = 0, g22 = 0, g23 = 0, g33 = 0;
+  for (let r = 0, o = 0; r < rows; r++, o += 4) {
+    const v0 = vbuf[o], v1 = vbuf[o + 1], v2 = vbuf[o + 2], v3 = vbuf[o + 3];
+    g00 += v0 * v0; g01 += v0 * v1; g02 += v0 * v2; g03 += v0 * v3;
+    g11 += v1 * v1; g12 += v1 * v2; g13 += v1 * v3;
+    g22 += v2 * v2; g23 += v2 * v3; g33 += v3 * v3;
   }
+  const gram = Float64Array.of(g00, g01, g02, g03, 0, g11, g12, g13, 0, 0, g22, g23, 0, 0, 0, g33);
   for (let i = 0; i < to - from; i++) {
     const ti = tau[from + i];
     t[i * BLOCK + i] = ti;
@@ -134,7 +134,7 @@ function blockTriangle(vbuf: Float64Array, n: number, k0: number, tau: Float64Ar
 }
 
 /** Rows per chunk in the block update, so that the chunk of V stays in cache while the columns stream by. */
-const ROW_CHUNK = 2048;
+const ROW_CHUNK = 1024;
 
 /**
  * target[k0:, from:to] ← (I − V T V')ᵀ target (transpose = true, applying Q' in the factorization)
