@@ -22,6 +22,7 @@ export default [
         route("plans/:versionId", "routes/study-plan-version.tsx"),
         route("plans/:versionId/models/:modelId", "routes/study-planned-model.tsx"),
         route("reruns", "routes/study-reruns.tsx"),
+        route("reruns/:rerunId/figures/:figure", "routes/study-rerun-figures.ts"),
         route("reruns/:rerunId", "routes/study-rerun.tsx"),
         route("deviations", "routes/study-deviations.tsx"),
         route("appendix", "routes/study-appendix.tsx"),

@@ -34,6 +34,7 @@ const MATRIX: { file: string; path: string; expect: Outcome[]; resource?: true }
   { file: "study-plan-version.tsx", path: "/studies/:s/plans/no-such-version", expect: ["in", 403, 403, 404, 404, 403] },
   { file: "study-planned-model.tsx", path: "/studies/:s/plans/no-such-version/models/new", expect: ["in", 403, 403, 404, 403, 403] },
   { file: "study-rerun.tsx", path: "/studies/:s/reruns/no-such-rerun", expect: ["in", 403, 403, 404, 404, 403] },
+  { file: "study-rerun-figures.ts", path: "/studies/:s/reruns/no-such-rerun/figures/qq", expect: ["in", 403, 403, 404, 404, 403] },
   { file: "study-deviations.tsx", path: "/studies/:s/deviations", expect: ["in", 403, 403, 200, 200, 403] },
   { file: "study-appendix.tsx", path: "/studies/:s/appendix", expect: ["in", 403, 403, 403, 200, 403] },
   { file: "study-reports.tsx", path: "/studies/:s/reports", expect: ["in", 403, 403, 200, 200, 200] },

@@ -1,0 +1,287 @@
+/**
+ * The rows behind each diagnostic figure of a rerun, shaped from the stored result (and, for
+ * the figures that plot covariates or arms, from the rerun's own table rows). The specifications
+ * that draw them live in app/components/figures/specs.ts; the same rows feed the browser and the
+ * appendix.
+ */
+import type {
+  FigureData,
+  InfluenceRow,
+  PointStatus,
+  QqRow,
+  SubjectRef,
+  Threshold,
+} from "~/components/figures/specs";
+import { BEYOND, WITHIN } from "~/components/figures/specs";
+import type { CheckKey, CheckOutcome, FigureKey } from "~/engine/checks";
+import { normalQuantile } from "~/engine/distributions";
+import type { LinearModelResult } from "~/engine";
+import type { RerunDocument } from "./reruns.server";
+
+/** Cells as text by column, with the 1-based data row of each row (the engine's table input). */
+export interface FigureTable {
+  columns: Record<string, string[]>;
+  rowNumbers: number[];
+}
+
+export interface FigureOptions {
+  /** The covariate of residuals_covariate and partial_residuals. */
+  term?: string;
+  /** Hover details name the subject (id and data row) only when true. */
+  withSubjectIds: boolean;
+  /**
+   * The rerun's rows (after rerunTable in what-if.server.ts): needed for residuals_covariate,
+   * partial_residuals and spread_by_arm, which plot covariate values and arms.
+   */
+  table?: FigureTable;
+  /** How to write a column's unit on an axis; default "units of NAME". */
+  units?: Record<string, string | null | undefined>;
+}
+
+/** A figure that cannot be drawn for this rerun; the message says why. */
+export class FigureUnavailableError extends Error {}
+
+/** Six significant digits: plenty for drawing and hover, a smaller answer for large reruns. */
+function round(v: number): number {
+  return Number.isFinite(v) ? Number(v.toPrecision(6)) : v;
+}
+
+/** A deterministic offset in [−1, 1] from the data row (strips must not move between renders). */
+export function jitterOf(row: number): number {
+  let h = Math.imul(row ^ 0x9e3779b9, 0x85ebca6b);
+  h ^= h >>> 13;
+  h = Math.imul(h, 0xc2b2ae35);
+  h ^= h >>> 16;
+  return ((h >>> 0) / 4294967295) * 2 - 1;
+}
+
+const INFLUENCE_CHECKS: readonly CheckKey[] = ["cooks_distance", "leverage", "deletion_residual", "dfbetas_treatment", "dffits"];
+
+/** Data rows flagged by any of the given checks. */
+function flaggedRows(doc: RerunDocument, keys: readonly CheckKey[]): Set<number> {
+  const out = new Set<number>();
+  for (const c of doc.checks) if (keys.includes(c.key)) for (const f of c.flagged ?? []) out.add(f.row);
+  return out;
+}
+
+function checkOf(doc: RerunDocument, key: CheckKey): CheckOutcome | undefined {
+  return doc.checks.find((c) => c.key === key && c.outcome !== "not_computed");
+}
+
+/**
+ * The threshold a check applied, read back from its stored wording ("4.00/n = 0.0089",
+ * "2.00·p/n = 0.0444", "|t| > 3.00"): the value after "=" or ">" is the bound itself.
+ */
+export function appliedThreshold(doc: RerunDocument, key: CheckKey): Threshold | null {
+  const c = checkOf(doc, key);
+  if (!c) return null;
+  const m = /(?:=|>)\s*(-?[\d.]+(?:e[-+]?\d+)?)\s*$/i.exec(c.threshold);
+  if (!m) return null;
+  const value = Number(m[1]);
+  if (!Number.isFinite(value)) return null;
+  return { value, label: c.threshold.replace(/(\d+)\.00(?=\D|$)/g, "$1") };
+}
+
+function unitOf(name: string, opts: FigureOptions): string {
+  return opts.units?.[name] ?? `units of ${name}`;
+}
+
+function base(r: LinearModelResult, opts: FigureOptions) {
+  return {
+    n: r.n,
+    withSubjectIds: opts.withSubjectIds,
+    response: r.spec.response,
+    responseUnit: unitOf(r.spec.response, opts),
+    weighted: r.observations.weight !== null,
+  };
+}
+
+function who(r: LinearModelResult, i: number, withIds: boolean): SubjectRef {
+  if (!withIds) return { subject: null, row: null };
+  const row = r.observations.row[i];
+  return { subject: r.observations.id[i] ?? `row ${row}`, row };
+}
+
+/** The residual the figures plot: √w·e with weights, e otherwise. */
+function residualOf(r: LinearModelResult, i: number): number {
+  return r.observations.scaledResidual[i];
+}
+
+/** Cells of a column for each used observation, matched by data row number. */
+function cellsFor(r: LinearModelResult, table: FigureTable | undefined, column: string, figure: FigureKey): string[] {
+  if (!table) throw new FigureUnavailableError(`the ${figure} figure needs the rerun's table rows`);
+  const cells = table.columns[column];
+  if (!cells) throw new FigureUnavailableError(`column "${column}" is not in the rerun's data`);
+  const index = new Map<number, number>();
+  table.rowNumbers.forEach((row, i) => index.set(row, i));
+  return r.observations.row.map((row) => {
+    const i = index.get(row);
+    if (i === undefined) throw new FigureUnavailableError(`data row ${row} of the rerun is missing from the table given; build it with rerunTable`);
+    return cells[i].trim();
+  });
+}
+
+function mainTermNames(r: LinearModelResult): string[] {
+  return r.spec.terms.flatMap((t) => ("variable" in t ? [t.variable] : []));
+}
+
+function requireTerm(r: LinearModelResult, term: string | undefined, continuousOnly: boolean): { name: string; kind: "continuous" | "categorical"; levels?: string[] } {
+  const names = mainTermNames(r);
+  if (!term) throw new FigureUnavailableError(`choose a covariate with ?term= (one of ${names.join(", ")})`);
+  const v = r.variables.find((x) => x.name === term);
+  if (!v || !names.includes(term)) throw new FigureUnavailableError(`"${term}" is not a main term of this model (terms: ${names.join(", ")})`);
+  if (continuousOnly && v.kind !== "continuous") throw new FigureUnavailableError(`partial residuals are drawn for continuous covariates; "${term}" is categorical`);
+  if (v.kind === "categorical") {
+    const levels = [...(v.levels ?? [])];
+    const ref = v.reference;
+    return { name: term, kind: "categorical", levels: ref ? [ref, ...levels.filter((l) => l !== ref)] : levels };
+  }
+  return { name: term, kind: "continuous" };
+}
+
+function interactionNote(r: LinearModelResult, term: string): string | undefined {
+  const inInteraction = r.spec.terms.some((t) => "interaction" in t && t.interaction.includes(term));
+  return inInteraction ? `${term} also enters an interaction; this plot shows its main-effect part only.` : undefined;
+}
+
+/** Blom plotting positions, Φ⁻¹((i − 0.375)/(n + 0.25)) for i = 1..n (Blom 1958, Statistical Estimates and Transformed Beta-Variables). */
+export function blomQuantiles(n: number): number[] {
+  return Array.from({ length: n }, (_, k) => normalQuantile((k + 1 - 0.375) / (n + 0.25)));
+}
+
+function quantileOfSorted(sorted: readonly number[], p: number): number {
+  // type 7 (linear interpolation between order statistics), Hyndman and Fan 1996
+  const h = (sorted.length - 1) * p;
+  const lo = Math.floor(h);
+  const hi = Math.min(sorted.length - 1, lo + 1);
+  return sorted[lo] + (h - lo) * (sorted[hi] - sorted[lo]);
+}
+
+/** How many influential subjects get their id written beside the point. */
+const LABELLED = 3;
+
+/** The rows of one figure of a rerun. Throws FigureUnavailableError when it cannot be drawn. */
+export function figureData(doc: RerunDocument, figure: FigureKey, opts: FigureOptions): FigureData {
+  const r = doc.result;
+  const obs = r.observations;
+  const n = r.n;
+  const b = base(r, opts);
+  const influential = flaggedRows(doc, INFLUENCE_CHECKS);
+  const statusOf = (i: number, keys: Set<number> = influential): PointStatus => (keys.has(obs.row[i]) ? BEYOND : WITHIN);
+
+  switch (figure) {
+    case "residuals_fitted": {
+      const rows = obs.row.map((_, i) => ({ ...who(r, i, opts.withSubjectIds), fitted: round(obs.fitted[i]), residual: round(residualOf(r, i)), status: statusOf(i) }));
+      return { figure, ...b, rows };
+    }
+    case "residuals_covariate": {
+      const t = requireTerm(r, opts.term, false);
+      const cells = cellsFor(r, opts.table, t.name, figure);
+      const rows = obs.row.map((row, i) => ({
+        ...who(r, i, opts.withSubjectIds),
+        x: t.kind === "continuous" ? round(Number(cells[i])) : cells[i],
+        residual: round(residualOf(r, i)),
+        jitter: round(jitterOf(row)),
+        status: statusOf(i),
+      }));
+      return { figure, ...b, term: t.name, termUnit: t.kind === "continuous" ? unitOf(t.name, opts) : "level", kind: t.kind, ...(t.levels ? { levels: t.levels } : {}), note: interactionNote(r, t.name), rows };
+    }
+    case "partial_residuals": {
+      const t = requireTerm(r, opts.term, true);
+      const partial = obs.partialResiduals.find((p) => p.term === t.name);
+      if (!partial) throw new FigureUnavailableError(`the rerun stored no partial residuals for "${t.name}"`);
+      const coef = r.coefficients.find((c) => c.term === t.name);
+      const cells = cellsFor(r, opts.table, t.name, figure);
+      const rows = obs.row.map((_, i) => ({
+        ...who(r, i, opts.withSubjectIds),
+        x: round(Number(cells[i])),
+        partial: round(partial.values[i]),
+        // the component b·x centred: partial residual minus the (raw) residual
+        component: round(partial.values[i] - obs.residual[i]),
+        status: statusOf(i),
+      }));
+      return { figure, ...b, term: t.name, termUnit: unitOf(t.name, opts), coefficient: coef?.estimate ?? NaN, note: interactionNote(r, t.name), rows };
+    }
+    case "qq": {
+      const order = obs.row.map((_, i) => i).filter((i) => Number.isFinite(obs.studentizedInternal[i]));
+      order.sort((a, c) => obs.studentizedInternal[a] - obs.studentizedInternal[c] || obs.row[a] - obs.row[c]);
+      const theoretical = blomQuantiles(order.length);
+      const sorted = order.map((i) => obs.studentizedInternal[i]);
+      // reference line through the first and third quartiles (Chambers, Cleveland, Kleiner and Tukey 1983, section 6.3)
+      const q1 = quantileOfSorted(sorted, 0.25);
+      const q3 = quantileOfSorted(sorted, 0.75);
+      const z1 = normalQuantile(0.25);
+      const z3 = normalQuantile(0.75);
+      const slope = (q3 - q1) / (z3 - z1);
+      const intercept = q1 - slope * z1;
+      const rows: QqRow[] = order.map((i, k) => ({ ...who(r, i, opts.withSubjectIds), theoretical: round(theoretical[k]), sample: round(sorted[k]), status: statusOf(i) }));
+      const note = order.length < n ? `${n - order.length} subjects with leverage one have no studentized residual and are not shown.` : undefined;
+      return { figure, ...b, reading: r.qqShape.reading, summary: r.qqShape.summary, line: { slope, intercept }, rows, note };
+    }
+    case "influence": {
+      const threshold = appliedThreshold(doc, "cooks_distance");
+      const byCook = new Set((checkOf(doc, "cooks_distance")?.flagged ?? []).map((f) => f.row));
+      const top = topBy(obs.cooksDistance, LABELLED, (i) => byCook.has(obs.row[i]));
+      const rows: InfluenceRow[] = obs.row.map((_, i) => ({
+        ...who(r, i, opts.withSubjectIds),
+        order: i + 1,
+        cooks: round(obs.cooksDistance[i]),
+        leverage: round(obs.leverage[i]),
+        dffits: round(obs.dffits[i]),
+        status: statusOf(i, threshold ? byCook : influential),
+        label: top.has(i) ? labelOf(r, i, opts.withSubjectIds, top) : null,
+      }));
+      return { figure, ...b, threshold, rows };
+    }
+    case "leverage_residual": {
+      const leverageThreshold = appliedThreshold(doc, "leverage");
+      const residualThreshold = appliedThreshold(doc, "deletion_residual");
+      const keys = flaggedRows(doc, ["leverage", "deletion_residual", "cooks_distance"]);
+      const top = topBy(obs.cooksDistance, LABELLED, (i) => keys.has(obs.row[i]));
+      const rows = obs.row.map((_, i) => ({
+        ...who(r, i, opts.withSubjectIds),
+        leverage: round(obs.leverage[i]),
+        deletionResidual: round(obs.studentizedExternal[i]),
+        cooks: round(obs.cooksDistance[i]),
+        status: statusOf(i, keys),
+        label: top.has(i) ? labelOf(r, i, opts.withSubjectIds, top) : null,
+      }));
+      return { figure, ...b, leverageThreshold, residualThreshold, rows };
+    }
+    case "spread_by_arm": {
+      const treatment = r.spec.treatment;
+      if (!treatment) throw new FigureUnavailableError("the model names no treatment, so there are no arms to compare");
+      const t = requireTerm(r, treatment, false);
+      const cells = cellsFor(r, opts.table, treatment, figure);
+      const bf = r.tests.brownForsythe;
+      const rows = obs.row.map((row, i) => ({ ...who(r, i, opts.withSubjectIds), arm: cells[i], residual: round(residualOf(r, i)), jitter: round(jitterOf(row)), status: statusOf(i) }));
+      return {
+        figure,
+        ...b,
+        treatment,
+        levels: t.levels ?? [],
+        test: bf && bf.p !== null && bf.statistic !== null ? { statistic: bf.statistic, p: bf.p } : null,
+        rows,
+      };
+    }
+  }
+}
+
+/** Indices of the `k` largest values among those passing `eligible`. */
+function topBy(values: readonly number[], k: number, eligible: (i: number) => boolean): Map<number, number> {
+  const idx = values.map((_, i) => i).filter((i) => eligible(i) && Number.isFinite(values[i]));
+  idx.sort((a, b) => values[b] - values[a] || a - b);
+  return new Map(idx.slice(0, k).map((i, rank) => [i, rank + 1]));
+}
+
+function labelOf(r: LinearModelResult, i: number, withIds: boolean, top: Map<number, number>): string {
+  return withIds ? (r.observations.id[i] ?? `row ${r.observations.row[i]}`) : `rank ${top.get(i)}`;
+}
+
+/** The continuous and categorical main terms a results page offers figures for. */
+export function figureTerms(doc: RerunDocument): { covariates: string[]; continuous: string[] } {
+  const r = doc.result;
+  const names = mainTermNames(r);
+  const continuous = names.filter((name) => r.variables.find((v) => v.name === name)?.kind === "continuous");
+  return { covariates: names.filter((name) => name !== r.spec.treatment), continuous };
+}

@@ -1,0 +1,195 @@
+/**
+ * Inputs of the influence what-if: the rerun's design rebuilt from its own rows, so the browser
+ * can recompute the treatment contrast without chosen subjects in closed form
+ * (app/engine/case-deletion.ts). Nothing is stored: a what-if becomes a result only when it is
+ * kept as a sensitivity rerun.
+ */
+import type { WhatIfCandidate, WhatIfInputs } from "~/components/figures/what-if-inputs";
+import { CHECK_BY_KEY, type CheckKey } from "~/engine/checks";
+import { toDataTable } from "~/engine/data";
+import { buildDesign, prepareData } from "~/engine/design";
+import { EngineError, RESULTS_CAUTION } from "~/engine";
+import { leastSquares } from "~/engine/least-squares";
+import type { RerunDocument } from "./reruns.server";
+
+/** The engine's table input: cells as text by column, 1-based data rows. */
+export interface RerunTable {
+  columns: Record<string, string[]>;
+  rowNumbers: number[];
+}
+
+/** Candidates shown in the panel: the most influential flagged subjects by Cook's distance. */
+export const WHAT_IF_CANDIDATES = 30;
+
+const INFLUENCE_CHECKS: readonly CheckKey[] = ["cooks_distance", "leverage", "deletion_residual", "dfbetas_treatment", "dffits"];
+
+function keepRows(table: RerunTable, keep: (i: number) => boolean): RerunTable {
+  const idx: number[] = [];
+  for (let i = 0; i < table.rowNumbers.length; i++) if (keep(i)) idx.push(i);
+  const columns: Record<string, string[]> = {};
+  for (const [k, v] of Object.entries(table.columns)) columns[k] = idx.map((i) => v[i]);
+  return { columns, rowNumbers: idx.map((i) => table.rowNumbers[i]) };
+}
+
+/**
+ * The rows a rerun read: the locked table filtered to the rerun's population, less the rows its
+ * options excluded (the same steps as computeRerun in reruns.server.ts). Rows with a missing
+ * cell stay; the engine leaves them out itself, as in the rerun.
+ */
+export function rerunTable(doc: RerunDocument, table: RerunTable): RerunTable {
+  let working = table;
+  const population = doc.population;
+  if (population) {
+    const cells = table.columns[population.column];
+    if (!cells) throw new EngineError(`column "${population.column}" (the population flag) is missing from the data`);
+    working = keepRows(table, (i) => cells[i].trim() === population.value);
+  }
+  if (doc.options.variant === "exclude_rows") {
+    const drop = new Set(doc.options.rows);
+    const rows = working.rowNumbers;
+    working = keepRows(working, (i) => !drop.has(rows[i]));
+  }
+  return working;
+}
+
+function unavailable(reason: string): WhatIfInputs {
+  return { available: false, reason, caution: RESULTS_CAUTION };
+}
+
+const relClose = (a: number, b: number, tol: number) => Math.abs(a - b) <= tol * Math.max(1, Math.abs(a), Math.abs(b));
+
+export interface WhatIfOptions {
+  /** The plan names exclusion of influential subjects among its sensitivity analyses. */
+  prespecifiedExclusion?: boolean;
+  /** Name subjects by id (staff); otherwise by rank only. Default true. */
+  withSubjectIds?: boolean;
+  /** The viewer may start reruns (the "keep as a sensitivity rerun" button). Default true. */
+  canSave?: boolean;
+}
+
+/**
+ * Builds the what-if inputs from a stored rerun and its rows (`rerunTable(doc, locked.table)`).
+ * Restricted to models without treatment interactions: there the contrast of adjusted means is
+ * the treatment coefficient itself, so its vector L does not move when subjects are left out
+ * (with interactions it depends on covariate means, which do).
+ */
+export function whatIfInputs(doc: RerunDocument, table: RerunTable, options: WhatIfOptions = {}): WhatIfInputs {
+  const r = doc.result;
+  const spec = r.spec;
+  const treatment = spec.treatment;
+  if (!treatment) return unavailable("The model names no treatment, so there is no treatment contrast to follow.");
+  if (spec.terms.some((t) => "interaction" in t && t.interaction.includes(treatment))) {
+    return unavailable(
+      "The model has treatment interactions: its adjusted-mean contrast depends on covariate means that change when subjects are left out, so the closed-form what-if is not offered. Use a sensitivity rerun excluding the subjects.",
+    );
+  }
+  const candidates = candidateRows(doc, options.withSubjectIds ?? true);
+  if (candidates.length === 0) return unavailable("No influence check of the plan flagged any subject.");
+
+  let data;
+  let design;
+  try {
+    data = prepareData(spec, toDataTable(table));
+    design = buildDesign(spec, data);
+  } catch (e) {
+    if (e instanceof EngineError) return unavailable(`The rerun's rows could not be read again: ${e.message}.`);
+    throw e;
+  }
+  const rows = data.used.length;
+  if (rows !== r.n || Array.from(data.used).some((u, k) => data.rowNumbers[u] !== r.observations.row[k])) {
+    return unavailable("The rows given do not match the rerun's rows; build them with rerunTable from the rerun's locked dataset version.");
+  }
+  const { n, p } = design;
+  const weights = r.observations.weight ? Float64Array.from(r.observations.weight) : null;
+  const outcome = leastSquares({ x: design.x, n, p, y: data.response, weights, offset: data.offset });
+  if (!outcome.ok) return unavailable("The design's columns are aliased; the what-if needs an estimable model.");
+  const fit = outcome.fit;
+  for (let j = 0; j < p; j++) {
+    if (!relClose(fit.coefficients[j], r.coefficients[j].estimate, 1e-8)) {
+      return unavailable("Refitting the rerun's rows does not reproduce its stored coefficients; the what-if is not offered.");
+    }
+  }
+
+  // contrast vectors: unit vectors on the treatment's indicator columns (no treatment interactions)
+  const tv = data.variables.get(treatment);
+  if (!tv || tv.kind !== "categorical") return unavailable(`The treatment "${treatment}" is not categorical.`);
+  const contrasts = tv.levels.flatMap((level, li) => {
+    if (li === tv.referenceIndex) return [];
+    const j = design.columnFactors.findIndex((fs) => fs.length === 1 && fs[0].variable === treatment && fs[0].level === li);
+    if (j < 0) return [];
+    const l = Array.from({ length: p }, (_, k) => (k === j ? 1 : 0));
+    return [{ label: `${level} vs ${tv.reference}`, l }];
+  });
+  for (const c of contrasts) {
+    const stored = r.contrasts?.find((s) => s.label === c.label);
+    const est = c.l.reduce((s: number, v: number, k: number) => s + v * fit.coefficients[k], 0);
+    if (stored && !relClose(stored.estimate, est, 1e-8)) {
+      return unavailable(`The stored contrast ${c.label} is not the treatment coefficient; the closed-form what-if does not apply.`);
+    }
+  }
+
+  // candidate rows of √W X and weighted residuals
+  const position = new Map<number, number>();
+  r.observations.row.forEach((row, k) => position.set(row, k));
+  const shaped: WhatIfCandidate[] = candidates.map((c) => {
+    const k = position.get(c.row) as number;
+    const sw = weights ? Math.sqrt(weights[k]) : 1;
+    const x = Array.from({ length: p }, (_, j) => design.x[j * n + k] * sw);
+    return { ...c, x, residual: fit.weightedResiduals[k] };
+  });
+
+  const unscaled: number[] = [];
+  for (let a = 0; a < p; a++) for (let b = 0; b < p; b++) unscaled.push(fit.unscaledCovariance[b * p + a]);
+
+  const notes: string[] = [];
+  if (weights) {
+    notes.push(
+      r.method.kind === "estimated-variance"
+        ? "The estimated weights are held at their values from all subjects; a sensitivity rerun re-estimates them."
+        : "Prior weights enter as √w-scaled rows.",
+    );
+  }
+  if (r.covarianceType !== "model") notes.push(`Standard errors here are model-based; the rerun reports ${r.covarianceType} errors.`);
+  const flaggedCount = new Set(doc.checks.filter((c) => INFLUENCE_CHECKS.includes(c.key)).flatMap((c) => (c.flagged ?? []).map((f) => f.row))).size;
+  if (flaggedCount > shaped.length) notes.push(`${flaggedCount} subjects were flagged; the ${shaped.length} with the largest Cook's distance are offered.`);
+
+  return {
+    available: true,
+    caution: RESULTS_CAUTION,
+    full: { n, p, coefficients: Array.from(fit.coefficients), unscaledCovariance: unscaled, rss: fit.rss },
+    coefficientNames: [...design.names],
+    contrasts,
+    candidates: shaped,
+    flaggedCount,
+    prespecifiedExclusion: options.prespecifiedExclusion ?? false,
+    canSave: options.canSave ?? true,
+    notes,
+  };
+}
+
+/** Subjects flagged by any influence check, by Cook's distance, at most WHAT_IF_CANDIDATES. */
+function candidateRows(doc: RerunDocument, withIds: boolean): Omit<WhatIfCandidate, "x" | "residual">[] {
+  const obs = doc.result.observations;
+  const byRow = new Map<number, string[]>();
+  for (const c of doc.checks) {
+    if (!INFLUENCE_CHECKS.includes(c.key)) continue;
+    const label = CHECK_BY_KEY.get(c.key)?.label ?? c.label;
+    for (const f of c.flagged ?? []) byRow.set(f.row, [...(byRow.get(f.row) ?? []), label]);
+  }
+  const position = new Map<number, number>();
+  obs.row.forEach((row, k) => position.set(row, k));
+  const list = [...byRow.entries()]
+    .map(([row, flaggedBy]) => ({ row, flaggedBy, k: position.get(row) }))
+    .filter((c): c is { row: number; flaggedBy: string[]; k: number } => c.k !== undefined)
+    .sort((a, b) => obs.cooksDistance[b.k] - obs.cooksDistance[a.k] || a.row - b.row)
+    .slice(0, WHAT_IF_CANDIDATES);
+  return list.map((c, i) => ({
+    row: c.row,
+    subject: withIds ? (obs.id[c.k] ?? `row ${c.row}`) : null,
+    rank: i + 1,
+    cooks: obs.cooksDistance[c.k],
+    leverage: obs.leverage[c.k],
+    deletionResidual: obs.studentizedExternal[c.k],
+    flaggedBy: c.flaggedBy,
+  }));
+}

@@ -1,0 +1,667 @@
+/**
+ * Vega-Lite specifications of a rerun's diagnostic figures and of the sensitivity comparison.
+ * Pure: no React, no DOM. The browser draws them with vega-embed; the appendix renders the same
+ * specifications to SVG and PNG on the server. Each builder takes rows already shaped on the
+ * server (app/.server/reruns/figure-data.server.ts) and returns a complete specification.
+ *
+ * Every figure's title names the plot and its subtitle states what a healthy picture looks like;
+ * axes carry units; hover details name the subject (id and data row) when the viewer may see them.
+ * Points beyond a planned threshold are open triangles, the others small open circles, so status
+ * is shape and word as well as colour.
+ */
+import type { TopLevelSpec } from "vega-lite";
+import type { FigureKey } from "~/engine/checks";
+
+/** The palette of DESIGN.md. */
+export const PALETTE = {
+  ink: "#1d2433",
+  inkSoft: "#4a5266",
+  paper: "#f7f5ef",
+  sheet: "#fffdf8",
+  rule: "#d9d4c7",
+  accent: "#9a6b1f",
+  within: "#2e6f5e",
+  finding: "#b4442a",
+  pending: "#5b6478",
+} as const;
+
+/** Point status words, used in legends and hover details. */
+export const BEYOND = "beyond a planned threshold";
+export const WITHIN = "within the thresholds";
+export type PointStatus = typeof BEYOND | typeof WITHIN;
+
+/** Rows from this size on are drawn with the canvas renderer and lighter points. */
+export const LARGE_N = 10_000;
+
+/** Who a point is: the subject id and the 1-based data row; both null when the viewer may not see subjects. */
+export interface SubjectRef {
+  subject: string | null;
+  row: number | null;
+}
+
+interface FigureBase {
+  n: number;
+  withSubjectIds: boolean;
+  /** Response column name and how its unit is written on axes ("points", or "units of chg"). */
+  response: string;
+  responseUnit: string;
+  /** True when residuals are the weighted ones, √w·(y − ŷ). */
+  weighted: boolean;
+  /** Extra words shown under the title (e.g. a caveat for interaction models). */
+  note?: string;
+}
+
+export interface ResidualsFittedRow extends SubjectRef {
+  fitted: number;
+  residual: number;
+  status: PointStatus;
+}
+export interface ResidualsFittedData extends FigureBase {
+  figure: "residuals_fitted";
+  rows: ResidualsFittedRow[];
+}
+
+export interface ResidualsCovariateRow extends SubjectRef {
+  /** Covariate value (continuous) or level (categorical). */
+  x: number | string;
+  residual: number;
+  /** Deterministic horizontal offset in [−1, 1] for strips of a categorical covariate. */
+  jitter: number;
+  status: PointStatus;
+}
+export interface ResidualsCovariateData extends FigureBase {
+  figure: "residuals_covariate";
+  term: string;
+  termUnit: string;
+  kind: "continuous" | "categorical";
+  /** Level order for a categorical covariate, reference first. */
+  levels?: string[];
+  rows: ResidualsCovariateRow[];
+}
+
+export interface PartialResidualRow extends SubjectRef {
+  x: number;
+  /** Component plus residual. */
+  partial: number;
+  /** The fitted component b·x, centred. */
+  component: number;
+  status: PointStatus;
+}
+export interface PartialResidualsData extends FigureBase {
+  figure: "partial_residuals";
+  term: string;
+  termUnit: string;
+  coefficient: number;
+  rows: PartialResidualRow[];
+}
+
+export interface QqRow extends SubjectRef {
+  /** Blom plotting position quantile Φ⁻¹((i − 0.375)/(n + 0.25)). */
+  theoretical: number;
+  /** Internally studentized residual, sorted. */
+  sample: number;
+  status: PointStatus;
+}
+export interface QqData extends FigureBase {
+  figure: "qq";
+  reading: string;
+  summary: string;
+  /** Reference line through the quartiles (Chambers, Cleveland, Kleiner and Tukey 1983). */
+  line: { slope: number; intercept: number };
+  rows: QqRow[];
+}
+
+export interface InfluenceRow extends SubjectRef {
+  /** Position of the subject in data order, 1..n. */
+  order: number;
+  cooks: number;
+  leverage: number;
+  dffits: number;
+  status: PointStatus;
+  /** Set for the few most influential subjects: drawn beside their point. */
+  label: string | null;
+}
+export interface Threshold {
+  value: number;
+  /** As the plan states it, e.g. "4/n = 0.0089". */
+  label: string;
+}
+export interface InfluenceData extends FigureBase {
+  figure: "influence";
+  threshold: Threshold | null;
+  rows: InfluenceRow[];
+}
+
+export interface LeverageResidualRow extends SubjectRef {
+  leverage: number;
+  deletionResidual: number;
+  cooks: number;
+  status: PointStatus;
+  label: string | null;
+}
+export interface LeverageResidualData extends FigureBase {
+  figure: "leverage_residual";
+  leverageThreshold: Threshold | null;
+  residualThreshold: Threshold | null;
+  rows: LeverageResidualRow[];
+}
+
+export interface SpreadRow extends SubjectRef {
+  arm: string;
+  residual: number;
+  jitter: number;
+  status: PointStatus;
+}
+export interface SpreadByArmData extends FigureBase {
+  figure: "spread_by_arm";
+  treatment: string;
+  /** Arms in order, reference first. */
+  levels: string[];
+  /** Brown–Forsythe test across arms, as the rerun computed it. */
+  test: { statistic: number; p: number } | null;
+  rows: SpreadRow[];
+}
+
+export type FigureData =
+  | ResidualsFittedData
+  | ResidualsCovariateData
+  | PartialResidualsData
+  | QqData
+  | InfluenceData
+  | LeverageResidualData
+  | SpreadByArmData;
+
+export interface SpecOptions {
+  /** Pixel width, or "container" to follow the frame (browser). Default 560. */
+  width?: number | "container";
+  /** Plot height in pixels (the title sits above). Default 230. */
+  height?: number;
+  /** Put the rows into the spec (default). Without, the spec reads the named dataset "rows". */
+  inlineRows?: boolean;
+  /** Server rendering: ARIA attributes off (a third smaller SVG). */
+  forPrint?: boolean;
+}
+
+type Json = Record<string, unknown>;
+
+/**
+ * The builders assemble plain objects; Vega-Lite's own compile() checks every one of them in
+ * tests/unit/figure-specs.test.ts, which is stricter than its TypeScript types can be here.
+ */
+function asSpec(spec: Json): TopLevelSpec {
+  return spec as unknown as TopLevelSpec;
+}
+
+/** Shared look: Noto Sans, ink text, rule-coloured axes, brass accents. */
+export function baseConfig(forPrint = false): Json {
+  return {
+    font: "Noto Sans",
+    background: PALETTE.sheet,
+    ...(forPrint ? { aria: false } : {}),
+    view: { stroke: PALETTE.rule },
+    title: { anchor: "start", color: PALETTE.ink, fontSize: 13, fontWeight: 600, subtitleColor: PALETTE.inkSoft, subtitleFontSize: 11, subtitlePadding: 3, offset: 8 },
+    axis: {
+      labelColor: PALETTE.inkSoft,
+      titleColor: PALETTE.ink,
+      titleFontWeight: 500,
+      titleFontSize: 11,
+      labelFontSize: 10,
+      domainColor: PALETTE.rule,
+      tickColor: PALETTE.rule,
+      gridColor: "#ece8dd",
+    },
+    legend: { labelColor: PALETTE.ink, titleColor: PALETTE.ink, labelFontSize: 10, titleFontSize: 10, labelLimit: 320, orient: "top", direction: "horizontal" },
+    point: { strokeWidth: 1 },
+  };
+}
+
+/** Breaks a sentence into lines of at most `max` characters (titles do not wrap by themselves). */
+export function wrapWords(text: string, max: number): string[] {
+  const lines: string[] = [];
+  let line = "";
+  for (const word of text.split(/\s+/).filter(Boolean)) {
+    if (line && line.length + 1 + word.length > max) {
+      lines.push(line);
+      line = word;
+    } else line = line ? `${line} ${word}` : word;
+  }
+  if (line) lines.push(line);
+  return lines;
+}
+
+function title(name: string, healthy: string, extra: string[], width: number | "container"): Json {
+  const chars = width === "container" ? 90 : Math.max(40, Math.floor(width / 6.2));
+  return { text: name, subtitle: [...wrapWords(`Healthy: ${healthy}`, chars), ...extra.flatMap((e) => wrapWords(e, chars))] };
+}
+
+function frame(d: { n: number }, opts: SpecOptions): Json {
+  return { width: opts.width ?? 560, height: opts.height ?? 230, config: baseConfig(opts.forPrint) };
+}
+
+function dataOf(rows: readonly object[], opts: SpecOptions): Json {
+  return opts.inlineRows === false ? { data: { name: "rows" } } : { datasets: { rows }, data: { name: "rows" } };
+}
+
+/** Hover details: the subject first (when it may be shown), then the plotted values. */
+function tooltip(d: FigureBase, fields: { field: string; title: string; format?: string; type?: "quantitative" | "nominal" }[]): Json[] {
+  const who: Json[] = d.withSubjectIds
+    ? [
+        { field: "subject", type: "nominal", title: "Subject" },
+        { field: "row", type: "quantitative", title: "Data row", format: "d" },
+      ]
+    : [];
+  return [
+    ...who,
+    ...fields.map((f) => ({ field: f.field, type: f.type ?? "quantitative", title: f.title, ...(f.type === "nominal" ? {} : { format: f.format ?? ".4~g" }) })),
+    { field: "status", type: "nominal", title: "Status" },
+  ];
+}
+
+function large(d: { n: number }): boolean {
+  return d.n >= LARGE_N;
+}
+
+/** Shape, colour and size by status: open triangles in the finding colour beyond a threshold. */
+function statusEncoding(d: { n: number }): Json {
+  return {
+    shape: { field: "status", type: "nominal", scale: { domain: [WITHIN, BEYOND], range: ["circle", "triangle-up"] }, legend: { title: "Subjects" } },
+    color: { field: "status", type: "nominal", scale: { domain: [WITHIN, BEYOND], range: [PALETTE.pending, PALETTE.finding] }, legend: { title: "Subjects" } },
+    size: { condition: { test: `datum.status === '${BEYOND}'`, value: 48 }, value: large(d) ? 6 : 16 },
+    opacity: { condition: { test: `datum.status === '${BEYOND}'`, value: 1 }, value: large(d) ? 0.35 : 0.7 },
+  };
+}
+
+function pointMark(): Json {
+  return { type: "point", filled: false, strokeWidth: 1.1 };
+}
+
+/** A layer of reference marks draws once, not once per subject. */
+const ONE = { values: [{}] };
+
+function zeroRule(axis: "x" | "y"): Json {
+  return { data: ONE, mark: { type: "rule", color: PALETTE.inkSoft, strokeDash: [4, 3], strokeWidth: 1 }, encoding: { [axis]: { datum: 0 } } };
+}
+
+function thresholdRule(axis: "x" | "y", t: Threshold, text: string): Json[] {
+  const label =
+    axis === "y"
+      ? { type: "text", color: PALETTE.finding, fontSize: 10, align: "right", baseline: "bottom", x: "width", dy: -3 }
+      : { type: "text", color: PALETTE.finding, fontSize: 10, align: "left", baseline: "top", y: 0, dx: 4, dy: 3 };
+  return [
+    { data: ONE, mark: { type: "rule", color: PALETTE.finding, strokeDash: [6, 3], strokeWidth: 1.2 }, encoding: { [axis]: { datum: t.value } } },
+    { data: ONE, mark: label, encoding: { [axis]: { datum: t.value }, text: { value: `${text} ${t.label}` } } },
+  ];
+}
+
+function residualWord(d: FigureBase): string {
+  return d.weighted ? "Weighted residual √w·(y − ŷ)" : `Residual, ${d.response} − fitted`;
+}
+
+function loessLayer(x: string, y: string, bandwidth = 0.5): Json {
+  return {
+    transform: [{ loess: y, on: x, bandwidth }],
+    mark: { type: "line", color: PALETTE.accent, strokeWidth: 2.2 },
+    encoding: { x: { field: x, type: "quantitative" }, y: { field: y, type: "quantitative" } },
+  };
+}
+
+export function residualsFittedSpec(d: ResidualsFittedData, opts: SpecOptions = {}): TopLevelSpec {
+  const width = opts.width ?? 560;
+  return asSpec({
+    $schema: "https://vega.github.io/schema/vega-lite/v6.json",
+    ...frame(d, opts),
+    title: title("Residuals against fitted values", "an even band around zero with a flat smoother; no funnel, no curve.", ["Brass line: loess smoother (span 0.5). Dashed: zero.", ...(d.note ? [d.note] : [])], width),
+    ...dataOf(d.rows, opts),
+    layer: [
+      zeroRule("y"),
+      {
+        mark: pointMark(),
+        encoding: {
+          x: { field: "fitted", type: "quantitative", title: `Fitted value of ${d.response} (${d.responseUnit})`, scale: { zero: false } },
+          y: { field: "residual", type: "quantitative", title: `${residualWord(d)} (${d.responseUnit})` },
+          ...statusEncoding(d),
+          tooltip: tooltip(d, [
+            { field: "fitted", title: "Fitted" },
+            { field: "residual", title: "Residual" },
+          ]),
+        },
+      },
+      loessLayer("fitted", "residual"),
+    ],
+  });
+}
+
+export function residualsCovariateSpec(d: ResidualsCovariateData, opts: SpecOptions = {}): TopLevelSpec {
+  const width = opts.width ?? 560;
+  const yAxis = { field: "residual", type: "quantitative", title: `${residualWord(d)} (${d.responseUnit})` };
+  const tip = tooltip(d, [
+    { field: "x", title: d.term, type: d.kind === "categorical" ? "nominal" : "quantitative" },
+    { field: "residual", title: "Residual" },
+  ]);
+  const extra = [...(d.note ? [d.note] : [])];
+  if (d.kind === "continuous") {
+    return asSpec({
+      $schema: "https://vega.github.io/schema/vega-lite/v6.json",
+      ...frame(d, opts),
+      title: title(`Residuals against ${d.term}`, "an even band around zero with a flat smoother; a curve suggests the wrong functional form.", ["Brass line: loess smoother (span 0.5). Dashed: zero.", ...extra], width),
+      ...dataOf(d.rows, opts),
+      layer: [
+        zeroRule("y"),
+        {
+          mark: pointMark(),
+          encoding: { x: { field: "x", type: "quantitative", title: `${d.term} (${d.termUnit})`, scale: { zero: false } }, y: yAxis, ...statusEncoding(d), tooltip: tip },
+        },
+        loessLayer("x", "residual"),
+      ],
+    });
+  }
+  const x = { field: "x", type: "nominal", title: `${d.term} (level)`, sort: d.levels, axis: { labelAngle: 0 } };
+  return asSpec({
+    $schema: "https://vega.github.io/schema/vega-lite/v6.json",
+    ...frame(d, opts),
+    title: title(`Residuals by ${d.term}`, "boxes centred on zero with similar heights at every level.", ["Boxes: quartiles and median; whiskers to 1.5 × IQR. Dashed: zero.", ...extra], width),
+    ...dataOf(d.rows, opts),
+    layer: [
+      zeroRule("y"),
+      {
+        mark: { type: "boxplot", extent: 1.5, outliers: false, size: 36, box: { fill: "#efeadf", stroke: PALETTE.ink, strokeWidth: 0.8 }, median: { color: PALETTE.ink, strokeWidth: 1.5 }, rule: { color: PALETTE.ink }, ticks: false },
+        encoding: { x, y: yAxis },
+      },
+      {
+        mark: pointMark(),
+        encoding: { x, xOffset: { field: "jitter", type: "quantitative", scale: { domain: [-2.2, 2.2] } }, y: yAxis, ...statusEncoding(d), tooltip: tip },
+      },
+    ],
+  });
+}
+
+export function partialResidualsSpec(d: PartialResidualsData, opts: SpecOptions = {}): TopLevelSpec {
+  const width = opts.width ?? 560;
+  const xEnc = { field: "x", type: "quantitative", title: `${d.term} (${d.termUnit})`, scale: { zero: false } };
+  return asSpec({
+    $schema: "https://vega.github.io/schema/vega-lite/v6.json",
+    ...frame(d, opts),
+    title: title(
+      `Partial residuals for ${d.term}`,
+      "the smoother follows the straight line of the fitted effect; a bend means the effect is not linear.",
+      ["Grey line: fitted linear effect. Brass line: loess smoother (span 0.5).", ...(d.note ? [d.note] : [])],
+      width,
+    ),
+    ...dataOf(d.rows, opts),
+    layer: [
+      {
+        mark: pointMark(),
+        encoding: {
+          x: xEnc,
+          y: { field: "partial", type: "quantitative", title: `Component plus residual (${d.responseUnit})` },
+          ...statusEncoding(d),
+          tooltip: tooltip(d, [
+            { field: "x", title: d.term },
+            { field: "partial", title: "Component + residual" },
+            { field: "component", title: "Fitted component" },
+          ]),
+        },
+      },
+      { mark: { type: "line", color: PALETTE.inkSoft, strokeWidth: 1.5 }, encoding: { x: xEnc, y: { field: "component", type: "quantitative" } } },
+      loessLayer("x", "partial"),
+    ],
+  });
+}
+
+export function qqSpec(d: QqData, opts: SpecOptions = {}): TopLevelSpec {
+  const width = opts.width ?? 560;
+  const first = d.rows[0]?.theoretical ?? -3;
+  const last = d.rows[d.rows.length - 1]?.theoretical ?? 3;
+  const line = [first, last].map((t) => ({ theoretical: t, sample: d.line.intercept + d.line.slope * t }));
+  return asSpec({
+    $schema: "https://vega.github.io/schema/vega-lite/v6.json",
+    ...frame(d, opts),
+    title: title(`Normal Q-Q plot: ${d.reading}`, "the points lie along the line from end to end.", [d.summary, "Line through the quartiles; Blom plotting positions.", ...(d.note ? [d.note] : [])], width),
+    ...dataOf(d.rows, opts),
+    layer: [
+      {
+        data: { values: line },
+        mark: { type: "line", color: PALETTE.accent, strokeWidth: 1.6 },
+        encoding: { x: { field: "theoretical", type: "quantitative" }, y: { field: "sample", type: "quantitative" } },
+      },
+      {
+        mark: pointMark(),
+        encoding: {
+          x: { field: "theoretical", type: "quantitative", title: "Normal quantile (standard normal units)" },
+          y: { field: "sample", type: "quantitative", title: "Studentized residual (units of σ̂)" },
+          ...statusEncoding(d),
+          tooltip: tooltip(d, [
+            { field: "theoretical", title: "Normal quantile" },
+            { field: "sample", title: "Studentized residual" },
+          ]),
+        },
+      },
+    ],
+  });
+}
+
+export function influenceSpec(d: InfluenceData, opts: SpecOptions = {}): TopLevelSpec {
+  const width = opts.width ?? 560;
+  const tip = tooltip(d, [
+    { field: "order", title: "Position in data order", format: "d" },
+    { field: "cooks", title: "Cook's distance" },
+    { field: "leverage", title: "Leverage" },
+    { field: "dffits", title: "DFFITS" },
+  ]);
+  const x = { field: "order", type: "quantitative", title: "Subject, in data order (position 1 to n)", scale: { domain: [0, d.n + 1], nice: false } };
+  const y = { field: "cooks", type: "quantitative", title: "Cook's distance (no unit)" };
+  return asSpec({
+    $schema: "https://vega.github.io/schema/vega-lite/v6.json",
+    ...frame(d, opts),
+    title: title(
+      "Influence by subject (Cook's distance)",
+      "every subject's bar well below the dashed threshold line; no single subject stands out.",
+      [d.threshold ? `Dashed line: the plan's threshold ${d.threshold.label}.` : "The plan sets no Cook's distance threshold.", ...(d.note ? [d.note] : [])],
+      width,
+    ),
+    ...dataOf(d.rows, opts),
+    layer: [
+      ...(large(d) ? [] : [{ mark: { type: "rule", color: PALETTE.rule, strokeWidth: 1 }, encoding: { x, y, y2: { datum: 0 } } }]),
+      { mark: pointMark(), encoding: { x, y, ...statusEncoding(d), tooltip: tip } },
+      ...(d.threshold ? thresholdRule("y", d.threshold, "threshold") : []),
+      {
+        transform: [{ filter: "datum.label != null" }],
+        mark: { type: "text", align: "left", dx: 6, dy: -2, fontSize: 10, color: PALETTE.finding },
+        encoding: { x, y, text: { field: "label", type: "nominal" } },
+      },
+    ],
+  });
+}
+
+export function leverageResidualSpec(d: LeverageResidualData, opts: SpecOptions = {}): TopLevelSpec {
+  const width = opts.width ?? 560;
+  // room on the right for the label of the point with the largest leverage
+  const maxLeverage = d.rows.reduce((m, r) => (Number.isFinite(r.leverage) && r.leverage > m ? r.leverage : m), d.leverageThreshold?.value ?? 0);
+  const x = { field: "leverage", type: "quantitative", title: "Leverage (hat value, no unit)", scale: { domain: [0, maxLeverage * 1.18], nice: false } };
+  const y = { field: "deletionResidual", type: "quantitative", title: "Deletion residual (units of σ̂₍ᵢ₎)" };
+  const status = statusEncoding(d);
+  const rules: Json[] = [];
+  if (d.leverageThreshold) rules.push({ data: ONE, mark: { type: "rule", color: PALETTE.finding, strokeDash: [6, 3], strokeWidth: 1.2 }, encoding: { x: { datum: d.leverageThreshold.value } } });
+  if (d.residualThreshold) {
+    for (const v of [d.residualThreshold.value, -d.residualThreshold.value]) {
+      rules.push({ data: ONE, mark: { type: "rule", color: PALETTE.finding, strokeDash: [6, 3], strokeWidth: 1.2 }, encoding: { y: { datum: v } } });
+    }
+  }
+  const lines = [
+    d.leverageThreshold ? `vertical: leverage ${d.leverageThreshold.label}` : null,
+    d.residualThreshold ? `horizontal: deletion residual ${d.residualThreshold.label.replace(/^\|t\|\s*>\s*/, "beyond ±")}` : null,
+  ].filter((s): s is string => s !== null);
+  return asSpec({
+    $schema: "https://vega.github.io/schema/vega-lite/v6.json",
+    ...frame(d, opts),
+    title: title(
+      "Leverage against deletion residual",
+      "points inside the dashed lines, none both far right and far from zero; point size is Cook's distance.",
+      [lines.length ? `Dashed lines, the plan's thresholds: ${lines.join("; ")}.` : "The plan sets no leverage or residual threshold.", ...(d.note ? [d.note] : [])],
+      width,
+    ),
+    ...dataOf(d.rows, opts),
+    layer: [
+      zeroRule("y"),
+      ...rules,
+      {
+        mark: pointMark(),
+        encoding: {
+          x,
+          y,
+          shape: status.shape,
+          color: status.color,
+          opacity: status.opacity,
+          size: { field: "cooks", type: "quantitative", title: "Cook's distance", scale: { range: [large(d) ? 4 : 10, 400], zero: true }, legend: { format: ".2~f", tickCount: 3 } },
+          tooltip: tooltip(d, [
+            { field: "leverage", title: "Leverage" },
+            { field: "deletionResidual", title: "Deletion residual" },
+            { field: "cooks", title: "Cook's distance" },
+          ]),
+        },
+      },
+      {
+        transform: [{ filter: "datum.label != null" }],
+        mark: { type: "text", align: "left", dx: 8, dy: -4, fontSize: 10, color: PALETTE.finding },
+        encoding: { x, y, text: { field: "label", type: "nominal" } },
+      },
+    ],
+  });
+}
+
+export function spreadByArmSpec(d: SpreadByArmData, opts: SpecOptions = {}): TopLevelSpec {
+  const width = opts.width ?? 560;
+  const x = { field: "arm", type: "nominal", title: `Treatment arm (${d.treatment})`, sort: d.levels, axis: { labelAngle: 0 } };
+  const y = { field: "residual", type: "quantitative", title: `${residualWord(d)} (${d.responseUnit})` };
+  const test = d.test ? `Brown–Forsythe across arms: F = ${d.test.statistic.toFixed(2)}, p ${d.test.p < 0.0001 ? "< 0.0001" : `= ${d.test.p.toFixed(4)}`}.` : "Brown–Forsythe test not computed.";
+  return asSpec({
+    $schema: "https://vega.github.io/schema/vega-lite/v6.json",
+    ...frame(d, opts),
+    title: title("Residual spread by arm", "boxes of similar height in every arm, each centred on zero.", [`${test} Boxes: quartiles and median; whiskers to 1.5 × IQR.`, ...(d.note ? [d.note] : [])], width),
+    ...dataOf(d.rows, opts),
+    layer: [
+      zeroRule("y"),
+      {
+        mark: { type: "boxplot", extent: 1.5, outliers: false, size: 44, box: { fill: "#efeadf", stroke: PALETTE.ink, strokeWidth: 0.8 }, median: { color: PALETTE.ink, strokeWidth: 1.5 }, rule: { color: PALETTE.ink }, ticks: false },
+        encoding: { x, y },
+      },
+      {
+        mark: pointMark(),
+        encoding: {
+          x,
+          xOffset: { field: "jitter", type: "quantitative", scale: { domain: [-2.2, 2.2] } },
+          y,
+          ...statusEncoding(d),
+          tooltip: tooltip(d, [
+            { field: "arm", title: "Arm", type: "nominal" },
+            { field: "residual", title: "Residual" },
+          ]),
+        },
+      },
+    ],
+  });
+}
+
+/** The specification of one diagnostic figure from its shaped data. */
+export function figureSpec(d: FigureData, opts: SpecOptions = {}): TopLevelSpec {
+  switch (d.figure) {
+    case "residuals_fitted":
+      return residualsFittedSpec(d, opts);
+    case "residuals_covariate":
+      return residualsCovariateSpec(d, opts);
+    case "partial_residuals":
+      return partialResidualsSpec(d, opts);
+    case "qq":
+      return qqSpec(d, opts);
+    case "influence":
+      return influenceSpec(d, opts);
+    case "leverage_residual":
+      return leverageResidualSpec(d, opts);
+    case "spread_by_arm":
+      return spreadByArmSpec(d, opts);
+  }
+}
+
+/** Every figure key, in results-page order. */
+export const FIGURE_KEYS: readonly FigureKey[] = ["residuals_fitted", "residuals_covariate", "partial_residuals", "qq", "influence", "leverage_residual", "spread_by_arm"];
+
+// ---- sensitivity comparison ------------------------------------------------------------------
+
+/** One analysis in the forest-style comparison of the treatment contrast. */
+export interface ForestRow {
+  label: string;
+  estimate: number;
+  lower: number;
+  upper: number;
+  prespecified: boolean;
+  primary: boolean;
+}
+
+export interface ForestPoint extends ForestRow {
+  /** The axis label: the analysis with "primary" or "not pre-specified" in words. */
+  axisLabel: string;
+  kind: "Primary analysis" | "Pre-specified sensitivity" | "Not pre-specified";
+  interval: string;
+}
+
+/** Shapes the rows (primary first) and writes each one's words. */
+export function forestPoints(rows: readonly ForestRow[], digits = 2): ForestPoint[] {
+  const ordered = [...rows.filter((r) => r.primary), ...rows.filter((r) => !r.primary)];
+  return ordered.map((r) => {
+    const kind = r.primary ? "Primary analysis" : r.prespecified ? "Pre-specified sensitivity" : "Not pre-specified";
+    const tag = r.primary ? " (primary)" : r.prespecified ? "" : " (not pre-specified)";
+    return { ...r, kind, axisLabel: `${r.label}${tag}`, interval: `${r.estimate.toFixed(digits)} (${r.lower.toFixed(digits)} to ${r.upper.toFixed(digits)})` };
+  });
+}
+
+/**
+ * Forest-style chart of the treatment contrast with its 95% CI per analysis: primary first and
+ * filled, pre-specified sensitivity analyses as open squares, analyses the plan did not name as
+ * open triangles and labelled "not pre-specified" on the axis. A brass band marks the primary CI.
+ */
+export function forestSpec(rows: readonly ForestRow[], contrastLabel: string, opts: SpecOptions & { unit?: string } = {}): TopLevelSpec {
+  const points = forestPoints(rows);
+  const width = opts.width ?? 560;
+  const primary = points.find((p) => p.primary);
+  const y = { field: "axisLabel", type: "nominal", title: null, sort: points.map((p) => p.axisLabel), axis: { labelLimit: 260, labelFontSize: 11, labelColor: PALETTE.ink } };
+  const x = { field: "estimate", type: "quantitative", title: `${contrastLabel}: difference in adjusted means${opts.unit ? ` (${opts.unit})` : ""}, 95% CI` };
+  const kinds = ["Primary analysis", "Pre-specified sensitivity", "Not pre-specified"];
+  return asSpec({
+    $schema: "https://vega.github.io/schema/vega-lite/v6.json",
+    width,
+    height: Math.max(60, points.length * 28),
+    config: baseConfig(opts.forPrint),
+    title: title(
+      `Treatment contrast across analyses: ${contrastLabel}`,
+      "every interval close to the primary one and on the same side of zero, so the conclusion does not hang on one analysis.",
+      [primary ? `Shaded band: the primary analysis's 95% CI. Dashed: no difference.` : "Dashed: no difference."],
+      width,
+    ),
+    datasets: { rows: points },
+    data: { name: "rows" },
+    layer: [
+      ...(primary
+        ? [{ data: { values: [{ lower: primary.lower, upper: primary.upper }] }, mark: { type: "rect", color: PALETTE.accent, opacity: 0.12 }, encoding: { x: { field: "lower", type: "quantitative" }, x2: { field: "upper" } } }]
+        : []),
+      zeroRule("x"),
+      { mark: { type: "rule", strokeWidth: 1.6, color: PALETTE.ink }, encoding: { y, x: { field: "lower", type: "quantitative", title: x.title }, x2: { field: "upper" } } },
+      {
+        mark: { type: "point", filled: false, strokeWidth: 1.6, size: 80 },
+        encoding: {
+          y,
+          x,
+          shape: { field: "kind", type: "nominal", scale: { domain: kinds, range: ["diamond", "square", "triangle-up"] }, legend: { title: null } },
+          color: { field: "kind", type: "nominal", scale: { domain: kinds, range: [PALETTE.ink, PALETTE.within, PALETTE.finding] }, legend: { title: null } },
+          fill: { field: "kind", type: "nominal", scale: { domain: kinds, range: [PALETTE.ink, "transparent", "transparent"] }, legend: null },
+          tooltip: [
+            { field: "label", type: "nominal", title: "Analysis" },
+            { field: "kind", type: "nominal", title: "Kind" },
+            { field: "estimate", type: "quantitative", title: "Estimate", format: ".3f" },
+            { field: "lower", type: "quantitative", title: "95% CI lower", format: ".3f" },
+            { field: "upper", type: "quantitative", title: "95% CI upper", format: ".3f" },
+          ],
+        },
+      },
+    ],
+  });
+}
