@@ -70,3 +70,5 @@ export type { GlmResult, GlmOptions, GlmCoefficientRow, GlmFitSummary, GlmObserv
 export type { MarginalEffects, MarginalMean, MarginalContrast } from "./glm/marginal-effects";
 export type { ProfileInterval } from "./glm/profile-intervals";
 export type { OverdispersionCheck, LikelihoodRatioTest, Calibration, BinnedResidual } from "./glm/glm-checks";
+export { fitWithObservationDiagnostics, LARGE_DESIGN_CELLS } from "./large-data";
+export type { CoreFitWithDiagnostics } from "./large-data";
