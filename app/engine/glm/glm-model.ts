@@ -220,10 +220,12 @@ function fitCore(
     return { fit: irls({ ...base, family }), family, theta: { theta: fixedTheta, se: NaN } };
   }
   let fit = irls({ ...base, family: poissonFamily });
+  let iterations = fit.iterations;
   let est = thetaMaximumLikelihood(data.response, fit.mu, data.weights);
   let family = negativeBinomialFamily(est.theta);
   for (let outer = 0; outer < 100; outer++) {
     fit = irls({ ...base, family, start: fit.coefficients });
+    iterations += fit.iterations;
     const next = thetaMaximumLikelihood(data.response, fit.mu, data.weights);
     const change = Math.abs(next.theta - est.theta) / est.theta;
     est = next;
@@ -231,7 +233,8 @@ function fitCore(
     if (change < 1e-10) break;
   }
   fit = irls({ ...base, family, start: fit.coefficients });
-  return { fit, family, theta: est };
+  // report the IRLS iterations of the whole alternation between the coefficients and θ
+  return { fit: { ...fit, iterations: iterations + fit.iterations }, family, theta: est };
 }
 
 function nameAliased(design: Design, aliased: readonly number[]): never {
