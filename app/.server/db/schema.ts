@@ -331,15 +331,32 @@ export const jobs = sqliteTable(
   (t) => [index("jobs_status").on(t.status)],
 );
 
-export const mailOutbox = sqliteTable("mail_outbox", {
-  id: text("id").primaryKey(),
-  recipient: text("recipient").notNull(),
-  subject: text("subject").notNull(),
-  textBody: text("text_body").notNull(),
-  htmlBody: text("html_body").notNull(),
-  status: text("status", { enum: ["queued", "sent", "failed"] }).notNull().default("queued"),
-  attempts: integer("attempts").notNull().default(0),
-  lastError: text("last_error"),
-  createdAt: text("created_at").notNull().default(now),
-  sentAt: text("sent_at"),
-});
+/**
+ * E-mail notifications, one row per recipient, written in the same transaction as the event they
+ * announce and sent by a background job. A message that could not be sent stays queued with its
+ * error and `nextAttemptAt`; it is tried again from then on, and ends as failed after the last try.
+ */
+export const mailOutbox = sqliteTable(
+  "mail_outbox",
+  {
+    id: text("id").primaryKey(),
+    recipient: text("recipient").notNull(),
+    subject: text("subject").notNull(),
+    textBody: text("text_body").notNull(),
+    htmlBody: text("html_body").notNull(),
+    status: text("status", { enum: ["queued", "sent", "failed"] }).notNull().default("queued"),
+    attempts: integer("attempts").notNull().default(0),
+    lastError: text("last_error"),
+    createdAt: text("created_at").notNull().default(now),
+    sentAt: text("sent_at"),
+    /** Which notification this is (plan_awaits_approval, rerun_awaits_signoff, report_published, appendix_exported). */
+    kind: text("kind"),
+    studyId: text("study_id").references(() => studies.id),
+    /** The page the message links back to (a path under APP_URL). */
+    linkPath: text("link_path"),
+    lastAttemptAt: text("last_attempt_at"),
+    /** When a queued message that failed is tried again; null while a send job for it is waiting. */
+    nextAttemptAt: text("next_attempt_at"),
+  },
+  (t) => [index("mail_outbox_status").on(t.status, t.nextAttemptAt)],
+);
