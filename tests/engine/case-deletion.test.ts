@@ -1,5 +1,5 @@
 // Closed-form case deletion (Cook and Weisberg 1982, section 3.6; Belsley, Kuh and Welsch 1980)
-// checked three ways: against explicit refits without the rows (the engine's own fitModel, on
+// checked three ways: against explicit refits without the rows (the engine's own fitLinear, on
 // invented seeded data, to 1e-9), against the DFBETAS relation for single rows, and against
 // R's lm refits (tests/reference/case-deletion/values.json, made by generate.R beside it).
 import { readFileSync } from "node:fs";
@@ -7,12 +7,12 @@ import { join } from "node:path";
 import { describe, expect, it } from "vitest";
 import { contrastOf, deleteCases, type DeletedCase, type FullFit } from "~/engine/case-deletion";
 import { defaultChecks, evaluateChecks } from "~/engine/checks";
-import { toDataTable, type ColumnTable } from "~/engine/data";
+import { toDataTable } from "~/engine/data";
 import { buildDesign, prepareData } from "~/engine/design";
-import { fitModel, type ModelSpecInput } from "~/engine";
+import { fitLinear, type ModelSpecInput } from "~/engine";
 import { leastSquares } from "~/engine/least-squares";
 import { readCsvText } from "~/engine-io/read-csv";
-import { rerunTable, whatIfInputs } from "~/.server/reruns/what-if.server";
+import { rerunTable, whatIfInputs, type RerunTable as ColumnTable } from "~/.server/reruns/what-if.server";
 import type { RerunDocument } from "~/.server/reruns/reruns.server";
 
 /** mulberry32 (public domain): the same stream on every machine. */
@@ -56,7 +56,7 @@ const SPEC: ModelSpecInput = { response: "y", terms: [{ variable: "arm" }, { var
 
 /** The full fit and every row's deletion case, built the way what-if.server.ts builds them. */
 function prepared(table: ColumnTable, weighted: boolean) {
-  const spec = fitModel(weighted ? { ...SPEC, weights: "w" } : SPEC, table).spec;
+  const spec = fitLinear(weighted ? { ...SPEC, weights: "w" } : SPEC, table).spec;
   const data = prepareData(spec, toDataTable(table));
   const design = buildDesign(spec, data);
   const { n, p } = design;
@@ -94,7 +94,7 @@ describe("closed-form case deletion equals an explicit refit without the rows", 
         const out = deleteCases(full, rows.map(caseOf));
         expect(out.ok).toBe(true);
         if (!out.ok) return;
-        const refit = fitModel(spec, without(table, rows));
+        const refit = fitLinear(spec, without(table, rows));
         expect(out.dfResidual).toBe(refit.dfResidual);
         refit.coefficients.forEach((c, j) => close(out.coefficients[j], c.estimate, 1e-9, `coefficient ${c.name}`));
         close(out.rss, refit.fit.rss, 1e-9, "RSS");
@@ -117,7 +117,7 @@ describe("closed-form case deletion equals an explicit refit without the rows", 
   it("for one row, (b − b₍ᵢ₎)/(σ̂₍ᵢ₎ √Cⱼⱼ) is the engine's DFBETAS (Belsley, Kuh and Welsch 1980, eq. 2.7)", () => {
     for (const weighted of [false, true]) {
       const { spec, full, caseOf } = prepared(table, weighted);
-      const r = fitModel(spec, table);
+      const r = fitLinear(spec, table);
       for (const i of [0, 7, 45, 89]) {
         const out = deleteCases(full, [caseOf(r.observations.row[i])]);
         if (!out.ok) throw new Error(out.reason);
@@ -140,7 +140,7 @@ describe("closed-form case deletion equals an explicit refit without the rows", 
 
   it("with nothing deleted gives the full fit", () => {
     const { spec, full } = prepared(table, true);
-    const r = fitModel(spec, table);
+    const r = fitLinear(spec, table);
     const out = deleteCases(full, []);
     if (!out.ok) throw new Error(out.reason);
     close(out.sigma, r.fit.sigma, 1e-12, "sigma");
@@ -164,7 +164,7 @@ describe("closed-form case deletion agrees with R's lm refits (tests/reference/c
   for (const c of ref.cases) {
     it(`${c.case} (${ref.source})`, () => {
       const s = c.weighted ? { ...spec, weights: "w" } : spec;
-      const r = fitModel(s, table);
+      const r = fitLinear(s, table);
       const data = prepareData(r.spec, toDataTable(table));
       const design = buildDesign(r.spec, data);
       const { n, p } = design;
@@ -199,7 +199,7 @@ describe("closed-form case deletion agrees with R's lm refits (tests/reference/c
 describe("what-if inputs from a stored rerun", () => {
   const table = inventedTable(90, 7);
   const doc = (spec: ModelSpecInput): RerunDocument => {
-    const result = fitModel(spec, table);
+    const result = fitLinear(spec, table);
     return {
       population: null,
       options: { variant: "planned" },
@@ -221,7 +221,7 @@ describe("what-if inputs from a stored rerun", () => {
     const chosen = inputs.candidates.slice(0, 2);
     const out = deleteCases(inputs.full, chosen);
     if (!out.ok) throw new Error(out.reason);
-    const refit = fitModel(SPEC, without(table, chosen.map((c) => c.row)));
+    const refit = fitLinear(SPEC, without(table, chosen.map((c) => c.row)));
     for (const [k, con] of inputs.contrasts.entries()) {
       const est = contrastOf(out, con.l);
       const stored = refit.contrasts?.[k];

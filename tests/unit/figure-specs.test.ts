@@ -9,7 +9,7 @@ import { blomQuantiles, figureData, FigureUnavailableError } from "~/.server/rer
 import type { RerunDocument } from "~/.server/reruns/reruns.server";
 import { rerunTable } from "~/.server/reruns/what-if.server";
 import { figureSpec, forestPoints, forestSpec, type FigureData, type QqData } from "~/components/figures/specs";
-import { fitModel } from "~/engine";
+import { fitLinear } from "~/engine";
 import { defaultChecks, evaluateChecks, type FigureKey } from "~/engine/checks";
 
 const ds = generateDemoDataset();
@@ -18,7 +18,7 @@ for (const c of ds.columns) columns[c] = ds.rows.map((r) => r[c]);
 const locked = { columns, rowNumbers: ds.rows.map((_, i) => i + 1) };
 const partial = { population: { column: "fasfl", value: "Y" }, options: { variant: "planned" } } as unknown as RerunDocument;
 const table = rerunTable(partial, locked);
-const result = fitModel(
+const result = fitLinear(
   { response: "chg", terms: [{ variable: "arm", reference: "Placebo" }, { variable: "base" }, { variable: "stratum" }, { variable: "region" }, { variable: "sex" }, { variable: "age" }], id: "subjid", treatment: "arm" },
   table,
 );
