@@ -315,11 +315,13 @@ glm_reference_values <- function(name, spec, d, source) {
   if (fam == "binomial" && !is.null(spec$event)) {
     dd[[spec$response]] <- as.integer(dd[[spec$response]] == spec$event)
   }
+  # prior weights (all one when the specification names none)
+  dd$.w <- if (is.null(spec$weights)) rep(1, nrow(dd)) else dd[[spec$weights]]
   fit <- switch(fam,
-    binomial = glm(prep$formula, family = binomial(link = if (is.null(link)) "logit" else link), data = dd, control = ctl),
-    poisson = glm(prep$formula, family = poisson, data = dd, control = ctl),
-    quasipoisson = glm(prep$formula, family = quasipoisson, data = dd, control = ctl),
-    "negative-binomial" = glm.nb(prep$formula, data = dd, control = ctl))
+    binomial = glm(prep$formula, family = binomial(link = if (is.null(link)) "logit" else link), data = dd, weights = .w, control = ctl),
+    poisson = glm(prep$formula, family = poisson, data = dd, weights = .w, control = ctl),
+    quasipoisson = glm(prep$formula, family = quasipoisson, data = dd, weights = .w, control = ctl),
+    "negative-binomial" = glm.nb(prep$formula, data = dd, weights = .w, control = ctl))
   X <- model.matrix(fit)
   n <- nrow(X)
   p <- ncol(X)
@@ -364,7 +366,7 @@ glm_reference_values <- function(name, spec, d, source) {
     list(statistic = stat, df = a$Df[2], p = a[2, ncol(a)])
   }
   refit <- function(f) if (fam == "negative-binomial") {
-    glm(f, family = negative.binomial(fit$theta), data = dd, control = ctl)
+    glm(f, family = negative.binomial(fit$theta), data = dd, weights = .w, control = ctl)
   } else update(fit, f, data = dd, control = ctl)
   mains <- prep$mains
   cont <- Filter(function(t) is.numeric(dd[[t$variable]]) && !isTRUE(t$categorical), mains)
@@ -517,3 +519,9 @@ run_glm_case("glm-trial-cloglog", data.frame(subject = sprintf("R%03d", 1:nr), a
   list(response = "response", family = "binomial", link = "cloglog", event = "responder", terms = list(list(variable = "arm", reference = "Placebo"),
        list(variable = "base"), list(variable = "site")), id = "subject"),
   "invented trial data (R set.seed(31)); glm complementary log-log")
+wb <- warpbreaks
+wb$w <- 1 + (seq_len(nrow(wb)) %% 3)
+run_glm_case("glm-warpbreaks-weighted", wb,
+  list(response = "breaks", family = "poisson", terms = list(list(variable = "wool"), list(variable = "tension", reference = "L")),
+       weights = "w"),
+  "R datasets::warpbreaks with invented prior weights; weighted glm Poisson")
