@@ -134,7 +134,7 @@ export default function Page({ loaderData, actionData }: Route.ComponentProps) {
           </p>
         ) : null}
         {v.changes ? <ChangeSummaryPanel changes={v.changes} version={v.version} /> : null}
-        <ScreenHits hits={detail.hits} canDecide={canScreen && v.status === "draft"} errors={actionData?.errors ?? {}} />
+        <ScreenHits hits={detail.hits} canDecide={canScreen && v.status === "draft"} errors={actionData?.errors ?? {}} keyColumns={detail.keyColumns} />
         <div className="grid gap-4 xl:grid-cols-[1fr_18rem]">
           <section aria-labelledby="preview" className="min-w-0">
             <h2 id="preview" className="mb-2">

@@ -23,7 +23,7 @@ type Row = { n: number; cells: string[] | null };
 export function PreviewTable({ rowsUrl, columns, total }: { rowsUrl: string; columns: ColumnMeta[]; total: number }) {
   const [sorting, setSorting] = useState<SortingState>([]);
   const pages = useRef(new Map<number, Window | "loading">());
-  const [, refresh] = useReducer((n: number) => n + 1, 0);
+  const [tick, refresh] = useReducer((n: number) => n + 1, 0);
   const [error, setError] = useState<string | null>(null);
   const sortKey = sorting[0] ? `&sort=${encodeURIComponent(sorting[0].id)}&desc=${sorting[0].desc ? 1 : 0}` : "";
   const parentRef = useRef<HTMLDivElement>(null);
@@ -63,19 +63,28 @@ export function PreviewTable({ rowsUrl, columns, total }: { rowsUrl: string; col
     for (let p = firstPage; p <= lastPage; p++) load(p);
   }, [firstPage, lastPage, load]);
 
-  // Only the rows in view go through the table model.
-  const visible: Row[] = items.map((item) => {
-    const page = pages.current.get(Math.floor(item.index / PAGE));
-    if (!page || page === "loading") return { n: item.index + 1, cells: null };
-    const k = item.index - page.offset;
-    return { n: page.rowNumbers[k], cells: page.rows[k] };
-  });
+  // Only the rows in view go through the table model; the array keeps its identity until the
+  // window or the loaded pages change (a new array each render would loop the table's updates).
+  const firstIndex = items[0]?.index ?? 0;
+  const lastIndex = items[items.length - 1]?.index ?? -1;
+  const visible: Row[] = useMemo(() => {
+    const out: Row[] = [];
+    for (let index = firstIndex; index <= lastIndex; index++) {
+      const page = pages.current.get(Math.floor(index / PAGE));
+      if (!page || page === "loading") out.push({ n: index + 1, cells: null });
+      else out.push({ n: page.rowNumbers[index - page.offset], cells: page.rows[index - page.offset] });
+    }
+    return out;
+    // eslint-disable-next-line react-hooks/exhaustive-deps -- pages is a ref; tick marks its changes
+  }, [firstIndex, lastIndex, tick, sortKey]);
 
   const defs = useMemo<ColumnDef<Row>[]>(
     () => [
       { id: "__row", header: "Row", enableSorting: false, cell: ({ row }) => row.original.n },
       ...columns.map<ColumnDef<Row>>((c, j) => ({
         id: c.name,
+        // An accessor makes the column sortable; the sorting itself happens on the server.
+        accessorFn: (row) => row.cells?.[j] ?? "",
         header: c.name,
         meta: { numeric: c.type === "number" },
         cell: ({ row }) => (row.original.cells ? row.original.cells[j] : "…"),
@@ -89,6 +98,7 @@ export function PreviewTable({ rowsUrl, columns, total }: { rowsUrl: string; col
     state: { sorting },
     onSortingChange: setSorting,
     manualSorting: true,
+    autoResetAll: false,
     enableMultiSort: false,
     sortDescFirst: false,
     getCoreRowModel: getCoreRowModel(),
@@ -105,7 +115,7 @@ export function PreviewTable({ rowsUrl, columns, total }: { rowsUrl: string; col
         </p>
       ) : null}
       <div ref={parentRef} className="h-[34rem] overflow-auto" tabIndex={0} aria-label="Rows of this dataset version; scroll to see more">
-        <div role="table" aria-rowcount={total + 1} aria-colcount={columns.length + 1} className="min-w-max text-sm" style={{ fontVariantNumeric: "tabular-nums" }}>
+        <div role="table" aria-label="Preview rows" aria-rowcount={total + 1} aria-colcount={columns.length + 1} className="min-w-max text-sm" style={{ fontVariantNumeric: "tabular-nums" }}>
           <div role="rowgroup" className="sticky top-0 z-10 bg-sheet">
             {table.getHeaderGroups().map((group) => (
               <div role="row" key={group.id} className="grid border-b border-ink/60" style={{ gridTemplateColumns: gridTemplate }}>

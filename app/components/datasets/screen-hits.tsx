@@ -7,7 +7,7 @@ import { formatTime } from "./format";
  * The identifier screen's hits. On a draft the data manager removes each flagged column or
  * records why it is not an identifier; locking waits until every hit is resolved.
  */
-export function ScreenHits({ hits, canDecide, errors }: { hits: ScreenHitView[]; canDecide: boolean; errors: Record<string, string> }) {
+export function ScreenHits({ hits, canDecide, errors, keyColumns }: { hits: ScreenHitView[]; canDecide: boolean; errors: Record<string, string>; keyColumns: string[] }) {
   const navigation = useNavigation();
   const busy = navigation.state !== "idle";
   if (hits.length === 0) {
@@ -76,9 +76,13 @@ export function ScreenHits({ hits, canDecide, errors }: { hits: ScreenHitView[];
                     <button type="submit" name="intent" value="not_identifier" className="btn" disabled={busy}>
                       Record: not an identifier
                     </button>
-                    <button type="submit" name="intent" value="remove_column" className="btn-quiet" disabled={busy}>
-                      Remove column {h.column}
-                    </button>
+                    {keyColumns.includes(h.column) ? (
+                      <span className="self-center text-xs text-ink-soft">Key column: it cannot be removed.</span>
+                    ) : (
+                      <button type="submit" name="intent" value="remove_column" className="btn-quiet" disabled={busy}>
+                        Remove column {h.column}
+                      </button>
+                    )}
                   </div>
                 </Form>
               ) : (
