@@ -1,13 +1,51 @@
-export interface ForestRow {
-  label: string;
-  estimate: number;
-  lower: number;
-  upper: number;
-  prespecified: boolean;
-  primary: boolean;
-}
+import { useMemo } from "react";
+import { forestPoints, forestSpec, type ForestRow } from "./specs";
+import { VegaChart } from "./vega-chart";
 
-/** The treatment estimate with its CI across analyses (placeholder until the charts land). */
+export type { ForestRow } from "./specs";
+
+const fmt = (v: number) => (Number.isFinite(v) ? v.toFixed(2) : "—");
+
+/**
+ * The treatment contrast with its 95% CI across analyses, primary first: a forest-style chart
+ * (Vega-Lite, drawn in the browser) beside a compact table with the same numbers, so the
+ * robustness of the conclusion is visible at a glance. Analyses the plan did not name say
+ * "not pre-specified" in words on the chart and in the table.
+ */
 export function SensitivityForest({ rows, contrastLabel }: { rows: ForestRow[]; contrastLabel: string }) {
-  return <div className="text-xs text-ink-soft" data-rows={rows.length} data-contrast={contrastLabel} />;
+  const spec = useMemo(() => forestSpec(rows, contrastLabel, { width: "container" }), [rows, contrastLabel]);
+  const points = forestPoints(rows);
+  if (rows.length === 0) return <p className="text-sm text-ink-soft">No completed analyses to compare yet.</p>;
+  const height = 150 + points.length * 28;
+  return (
+    <div className="grid gap-4 lg:grid-cols-[minmax(0,1fr)_auto]" data-contrast={contrastLabel}>
+      <div className="panel p-3">
+        <VegaChart spec={spec} height={height} label={`Treatment contrast ${contrastLabel} with 95% confidence intervals across ${points.length} analyses`} />
+      </div>
+      <table className="data-table self-start">
+        <caption className="mb-1 text-left text-xs text-ink-soft">{contrastLabel}: estimate and 95% CI</caption>
+        <thead>
+          <tr>
+            <th scope="col">Analysis</th>
+            <th scope="col" className="text-right">
+              Estimate (95% CI)
+            </th>
+          </tr>
+        </thead>
+        <tbody>
+          {points.map((p) => (
+            <tr key={p.axisLabel}>
+              <td>
+                <span className={p.primary ? "font-semibold" : ""}>{p.label}</span>
+                <span className="block text-xs text-ink-soft">{p.primary ? "Primary analysis" : p.prespecified ? "Pre-specified sensitivity" : "Not pre-specified"}</span>
+              </td>
+              <td className="num whitespace-nowrap text-right">
+                {fmt(p.estimate)} ({fmt(p.lower)} to {fmt(p.upper)})
+              </td>
+            </tr>
+          ))}
+        </tbody>
+      </table>
+    </div>
+  );
 }

@@ -33,7 +33,7 @@ export interface WhatIfContrast {
 }
 
 export type WhatIfInputs =
-  | { available: false; reason: string; caution: string }
+  | { available: false; reason: string; caution?: string }
   | {
       available: true;
       caution: string;
