@@ -131,8 +131,8 @@ describe("sensitivity comparison (forest-style)", () => {
   it("puts the primary first and says 'primary' and 'not pre-specified' in words", () => {
     const points = forestPoints(rows);
     expect(points[0].primary).toBe(true);
-    expect(points[0].axisLabel).toContain("(primary)");
-    expect(points.find((p) => !p.prespecified)?.axisLabel).toContain("(not pre-specified)");
+    expect(points[0].axisLabel).toMatch(/^Primary/);
+    expect(points.find((p) => !p.prespecified)?.axisLabel).toMatch(/^Not pre-specified: /);
   });
 
   it("compiles, with a healthy-picture subtitle, an axis title with the contrast and unit, and hover details naming the analysis", () => {

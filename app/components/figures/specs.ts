@@ -609,8 +609,9 @@ export function forestPoints(rows: readonly ForestRow[], digits = 2): ForestPoin
   const ordered = [...rows.filter((r) => r.primary), ...rows.filter((r) => !r.primary)];
   return ordered.map((r) => {
     const kind = r.primary ? "Primary analysis" : r.prespecified ? "Pre-specified sensitivity" : "Not pre-specified";
-    const tag = r.primary ? " (primary)" : r.prespecified ? "" : " (not pre-specified)";
-    return { ...r, kind, axisLabel: `${r.label}${tag}`, interval: `${r.estimate.toFixed(digits)} (${r.lower.toFixed(digits)} to ${r.upper.toFixed(digits)})` };
+    // the words come first, so a long analysis label is what gets shortened, never the words
+    const axisLabel = r.primary ? (/^primary\b/i.test(r.label) ? r.label : `Primary: ${r.label}`) : r.prespecified ? r.label : `Not pre-specified: ${r.label}`;
+    return { ...r, kind, axisLabel, interval: `${r.estimate.toFixed(digits)} (${r.lower.toFixed(digits)} to ${r.upper.toFixed(digits)})` };
   });
 }
 
@@ -623,7 +624,7 @@ export function forestSpec(rows: readonly ForestRow[], contrastLabel: string, op
   const points = forestPoints(rows);
   const width = opts.width ?? 560;
   const primary = points.find((p) => p.primary);
-  const y = { field: "axisLabel", type: "nominal", title: null, sort: points.map((p) => p.axisLabel), axis: { labelLimit: 260, labelFontSize: 11, labelColor: PALETTE.ink } };
+  const y = { field: "axisLabel", type: "nominal", title: null, sort: points.map((p) => p.axisLabel), axis: { labelLimit: 420, labelFontSize: 11, labelColor: PALETTE.ink } };
   const x = { field: "estimate", type: "quantitative", title: `${contrastLabel}: difference in adjusted means${opts.unit ? ` (${opts.unit})` : ""}, 95% CI` };
   const kinds = ["Primary analysis", "Pre-specified sensitivity", "Not pre-specified"];
   return asSpec({
