@@ -17,6 +17,7 @@ interface EditorDataset {
 
 interface CheckInfo {
   key: string;
+  models: "linear" | "glm" | "both";
   label: string;
   rule: string;
   source: string;
@@ -105,7 +106,7 @@ function Section({ title, children, note }: { title: string; note?: string; chil
  * The planned-model form: every term is picked from the dataset's columns (no formula
  * language). Field names are what `readPlannedModelForm` reads on the server.
  */
-export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue }: { initial: EditorForm; errors: Record<string, string>; datasets: EditorDataset[]; checkCatalogue: CheckInfo[] }) {
+export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, isNew }: { initial: EditorForm; errors: Record<string, string>; datasets: EditorDataset[]; checkCatalogue: CheckInfo[]; isNew: boolean }) {
   const [datasetName, setDatasetName] = useState(initial.datasetName || datasets[0]?.name || "");
   const [family, setFamily] = useState(initial.family || "gaussian");
   const [response, setResponse] = useState(initial.response);
@@ -285,9 +286,11 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue }
               <th scope="col">Planned remedy</th>
             </tr>
           </thead>
-          <tbody>
+          <tbody key={isNew ? family : "saved"}>
             {checkCatalogue.map((c) => {
-              const current = initial.checks.find((x) => x.key === c.key);
+              const applies = c.models === "both" || c.models === (family === "gaussian" ? "linear" : "glm");
+              // A new model starts with every check that applies to its family.
+              const current = isNew ? { ...(initial.checks.find((x) => x.key === c.key) ?? {}), enabled: applies } : initial.checks.find((x) => x.key === c.key);
               const err = errors[`check:${c.key}:threshold`];
               return (
                 <tr key={c.key}>
@@ -299,7 +302,7 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue }
                       {c.label}
                     </label>
                     <span className="block text-xs text-ink-soft">
-                      {c.rule}. Default from {c.source}.
+                      {c.rule}. Default from {c.source}.{c.models === "both" ? "" : c.models === "linear" ? " Linear models." : " Generalized linear models."}
                     </span>
                   </td>
                   <td>
@@ -334,6 +337,13 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue }
           <label className="flex items-center gap-2">
             <input type="checkbox" name="sensitivity:exclude_influential" defaultChecked={sens.has("exclude_influential")} /> Excluding the subjects flagged by the Cook's distance check
           </label>
+          <label className="flex items-center gap-2">
+            <input type="checkbox" name="sensitivity:quasi_poisson" defaultChecked={sens.has("quasi_poisson")} /> Counts: quasi-Poisson (dispersion estimated)
+          </label>
+          <label className="flex items-center gap-2">
+            <input type="checkbox" name="sensitivity:negative_binomial" defaultChecked={sens.has("negative_binomial")} /> Counts: negative binomial (NB2, θ by maximum likelihood)
+          </label>
+          <FieldError id="sens-family-error" message={errors["sensitivity:quasi_poisson"] ?? errors["sensitivity:negative_binomial"] ?? errors["sensitivity:robust_hc3"] ?? errors["sensitivity:variance_function"]} />
           <div>
             <label className="flex items-center gap-2">
               <input type="checkbox" name="sensitivity:alternative_covariates" defaultChecked={sens.has("alternative_covariates")} /> An alternative covariate set, named

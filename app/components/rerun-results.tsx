@@ -12,11 +12,12 @@ interface Coefficient {
   upper: number;
 }
 
-export function CoefficientTable({ rows, covarianceType, df }: { rows: readonly Coefficient[]; covarianceType: string; df: number }) {
+export function CoefficientTable({ rows, covarianceType, df, statisticName = "t" }: { rows: readonly Coefficient[]; covarianceType: string; df: number; statisticName?: "t" | "z" }) {
   return (
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
-        Estimates with {covarianceType === "model" ? "model-based" : covarianceType} standard errors; t on {df} residual degrees of freedom; 95% confidence intervals.
+        Estimates with {covarianceType === "model" ? "model-based" : covarianceType} standard errors;{" "}
+        {statisticName === "t" ? `t on ${df} residual degrees of freedom; 95% confidence intervals.` : "Wald z on the link scale; 95% Wald intervals."}
       </caption>
       <thead>
         <tr>
@@ -28,7 +29,7 @@ export function CoefficientTable({ rows, covarianceType, df }: { rows: readonly 
             SE
           </th>
           <th scope="col" className="text-right">
-            t
+            {statisticName}
           </th>
           <th scope="col" className="text-right">
             p
@@ -115,15 +116,20 @@ interface ContrastRow {
   hc3: { se: number; lower: number; upper: number; p: number };
 }
 
-export function ContrastsTable({ rows }: { rows: readonly ContrastRow[] }) {
+export function ContrastsTable({ rows, kind = "linear" }: { rows: readonly ContrastRow[]; kind?: "linear" | "glm" }) {
+  const robust = kind === "linear" ? "HC3" : "Robust";
   return (
     <table className="data-table">
-      <caption className="mb-1 text-left text-xs text-ink-soft">Treatment contrasts against the reference arm (difference in adjusted means).</caption>
+      <caption className="mb-1 text-left text-xs text-ink-soft">
+        {kind === "linear"
+          ? "Treatment contrasts against the reference arm (difference in adjusted means)."
+          : "Marginal treatment effects against the reference arm by standardization over the rows used (delta-method SE, Ge et al. 2011; robust SE valid under misspecification, Ye et al. 2023)."}
+      </caption>
       <thead>
         <tr>
           <th scope="col">Contrast</th>
           <th scope="col" className="text-right">
-            Difference
+            {kind === "linear" ? "Difference" : "Estimate"}
           </th>
           <th scope="col" className="text-right">
             SE
@@ -135,13 +141,13 @@ export function ContrastsTable({ rows }: { rows: readonly ContrastRow[] }) {
             p
           </th>
           <th scope="col" className="text-right">
-            HC3 SE
+            {robust} SE
           </th>
           <th scope="col" className="text-right">
-            HC3 95% CI
+            {robust} 95% CI
           </th>
           <th scope="col" className="text-right">
-            HC3 p
+            {robust} p
           </th>
         </tr>
       </thead>
@@ -158,6 +164,96 @@ export function ContrastsTable({ rows }: { rows: readonly ContrastRow[] }) {
             <td className="num text-right">{fmt(c.hc3.se)}</td>
             <td className="num text-right whitespace-nowrap">{fmtCi(c.hc3.lower, c.hc3.upper)}</td>
             <td className="num text-right">{fmtP(c.hc3.p)}</td>
+          </tr>
+        ))}
+      </tbody>
+    </table>
+  );
+}
+
+interface MarginalMean {
+  level: string;
+  estimate: number;
+  se: number;
+  lower: number;
+  upper: number;
+  robustSe: number;
+}
+
+export function MarginalMeansTable({ rows, family }: { rows: readonly MarginalMean[]; family: string }) {
+  return (
+    <table className="data-table">
+      <caption className="mb-1 text-left text-xs text-ink-soft">
+        Standardized {family === "binomial" ? "risk" : "expected count"} per arm: every subject's prediction under each arm, averaged over the rows used.
+      </caption>
+      <thead>
+        <tr>
+          <th scope="col">Arm</th>
+          <th scope="col" className="text-right">
+            {family === "binomial" ? "Risk" : "Mean count"}
+          </th>
+          <th scope="col" className="text-right">
+            SE
+          </th>
+          <th scope="col" className="text-right">
+            95% CI
+          </th>
+          <th scope="col" className="text-right">
+            Robust SE
+          </th>
+        </tr>
+      </thead>
+      <tbody>
+        {rows.map((m) => (
+          <tr key={m.level}>
+            <th scope="row">{m.level}</th>
+            <td className="num text-right">{fmt(m.estimate)}</td>
+            <td className="num text-right">{fmt(m.se)}</td>
+            <td className="num text-right whitespace-nowrap">{fmtCi(m.lower, m.upper)}</td>
+            <td className="num text-right">{fmt(m.robustSe)}</td>
+          </tr>
+        ))}
+      </tbody>
+    </table>
+  );
+}
+
+interface Ratio {
+  name: string;
+  ratio: number;
+  lower: number;
+  upper: number;
+  profileLower: number | null;
+  profileUpper: number | null;
+}
+
+export function RatioTable({ rows, ratioName }: { rows: readonly Ratio[]; ratioName: string }) {
+  return (
+    <table className="data-table">
+      <caption className="mb-1 text-left text-xs text-ink-soft">
+        {ratioName[0].toUpperCase() + ratioName.slice(1)}s (conditional on the covariates) with Wald and profile-likelihood 95% intervals.
+      </caption>
+      <thead>
+        <tr>
+          <th scope="col">Coefficient</th>
+          <th scope="col" className="text-right">
+            {ratioName}
+          </th>
+          <th scope="col" className="text-right">
+            Wald 95% CI
+          </th>
+          <th scope="col" className="text-right">
+            Profile 95% CI
+          </th>
+        </tr>
+      </thead>
+      <tbody>
+        {rows.map((r) => (
+          <tr key={r.name}>
+            <th scope="row">{r.name}</th>
+            <td className="num text-right">{fmt(r.ratio)}</td>
+            <td className="num text-right whitespace-nowrap">{fmtCi(r.lower, r.upper)}</td>
+            <td className="num text-right whitespace-nowrap">{r.profileLower === null || r.profileUpper === null ? "—" : fmtCi(r.profileLower, r.profileUpper)}</td>
           </tr>
         ))}
       </tbody>

@@ -3,7 +3,10 @@
  * check has a threshold with a default taken from common practice (the source is named), and
  * ends as "within" (within plan) or "finding". Pure: no I/O.
  */
+import type { GlmResult } from "./glm/glm-model";
 import type { LinearModelResult } from "./linear-model";
+
+type ModelResult = LinearModelResult | GlmResult;
 
 export type CheckKey =
   | "cooks_distance"
@@ -16,7 +19,11 @@ export type CheckKey =
   | "brown_forsythe"
   | "homogeneity_of_slopes"
   | "reset"
-  | "gvif";
+  | "gvif"
+  | "overdispersion"
+  | "events_per_variable"
+  | "linearity_glm"
+  | "treatment_homogeneity_glm";
 
 export interface CheckDefinition {
   key: CheckKey;
@@ -30,6 +37,8 @@ export interface CheckDefinition {
   /** The figure that supports the check on the results page. */
   figure: FigureKey;
   needsTreatment?: boolean;
+  /** Which models the check applies to. */
+  models: "linear" | "glm" | "both";
 }
 
 export type FigureKey =
@@ -44,6 +53,7 @@ export type FigureKey =
 export const CHECKS: readonly CheckDefinition[] = [
   {
     key: "cooks_distance",
+    models: "both",
     label: "Cook's distance",
     rule: "finding when any subject's Cook's distance exceeds k/n",
     defaultThreshold: 4,
@@ -53,6 +63,7 @@ export const CHECKS: readonly CheckDefinition[] = [
   },
   {
     key: "leverage",
+    models: "both",
     label: "Leverage",
     rule: "finding when any subject's leverage exceeds k·p/n",
     defaultThreshold: 2,
@@ -62,6 +73,7 @@ export const CHECKS: readonly CheckDefinition[] = [
   },
   {
     key: "deletion_residual",
+    models: "both",
     label: "Deletion residual",
     rule: "finding when any subject's |deletion residual| exceeds k",
     defaultThreshold: 3,
@@ -71,6 +83,7 @@ export const CHECKS: readonly CheckDefinition[] = [
   },
   {
     key: "dfbetas_treatment",
+    models: "both",
     label: "DFBETAS on the treatment effect",
     rule: "finding when any subject's |DFBETAS| on a treatment coefficient exceeds k/√n",
     defaultThreshold: 2,
@@ -81,6 +94,7 @@ export const CHECKS: readonly CheckDefinition[] = [
   },
   {
     key: "dffits",
+    models: "linear",
     label: "DFFITS",
     rule: "finding when any subject's |DFFITS| exceeds k·√(p/n)",
     defaultThreshold: 2,
@@ -90,6 +104,7 @@ export const CHECKS: readonly CheckDefinition[] = [
   },
   {
     key: "shapiro_wilk",
+    models: "linear",
     label: "Normality of residuals (Shapiro–Wilk)",
     rule: "finding when the Shapiro–Wilk p-value is below k; read with the Q-Q plot, since large samples reject tiny departures",
     defaultThreshold: 0.05,
@@ -99,6 +114,7 @@ export const CHECKS: readonly CheckDefinition[] = [
   },
   {
     key: "breusch_pagan",
+    models: "linear",
     label: "Constant variance (Breusch–Pagan)",
     rule: "finding when the studentized Breusch–Pagan p-value is below k",
     defaultThreshold: 0.05,
@@ -108,6 +124,7 @@ export const CHECKS: readonly CheckDefinition[] = [
   },
   {
     key: "brown_forsythe",
+    models: "linear",
     label: "Equal spread across arms (Brown–Forsythe)",
     rule: "finding when the Brown–Forsythe p-value across treatment arms is below k",
     defaultThreshold: 0.05,
@@ -118,6 +135,7 @@ export const CHECKS: readonly CheckDefinition[] = [
   },
   {
     key: "homogeneity_of_slopes",
+    models: "linear",
     label: "Homogeneity of slopes",
     rule: "finding when the joint F test of treatment-by-covariate interactions has p below k",
     defaultThreshold: 0.05,
@@ -128,6 +146,7 @@ export const CHECKS: readonly CheckDefinition[] = [
   },
   {
     key: "reset",
+    models: "linear",
     label: "Functional form (Ramsey RESET)",
     rule: "finding when the RESET p-value (powers 2 and 3 of the fitted values) is below k",
     defaultThreshold: 0.05,
@@ -137,12 +156,54 @@ export const CHECKS: readonly CheckDefinition[] = [
   },
   {
     key: "gvif",
+    models: "both",
     label: "Collinearity (GVIF)",
     rule: "finding when any term's GVIF^(1/(2·df)) exceeds k",
     defaultThreshold: Math.sqrt(5),
     source: "√5, i.e. VIF above 5 for a one-column term (Fox and Monette 1992 for the generalized form)",
     defaultRemedy: "Review the correlated covariates; the treatment estimate is usually unaffected",
     figure: "residuals_covariate",
+  },
+  {
+    key: "overdispersion",
+    label: "Overdispersion",
+    rule: "finding when the Pearson χ²/df ratio of a count model exceeds k",
+    defaultThreshold: 1.5,
+    source: "ratio above 1.5, a common screening bound (e.g. Hilbe 2011, Negative Binomial Regression, section 7.2)",
+    defaultRemedy: "Quasi-Poisson or negative binomial sensitivity analysis",
+    figure: "residuals_fitted",
+    models: "glm",
+  },
+  {
+    key: "events_per_variable",
+    label: "Events per variable",
+    rule: "finding when there are fewer than k events (or non-events, if rarer) per estimated coefficient",
+    defaultThreshold: 10,
+    source: "10 events per variable (Peduzzi et al. 1996)",
+    defaultRemedy: "Report the estimates with caution; consider a reduced covariate set",
+    figure: "influence",
+    models: "glm",
+  },
+  {
+    key: "linearity_glm",
+    label: "Linearity on the link scale",
+    rule: "finding when a likelihood-ratio test of an added quadratic term has p below k for any continuous covariate",
+    defaultThreshold: 0.05,
+    source: "Likelihood-ratio test of a quadratic term (e.g. Harrell 2015, Regression Modeling Strategies, section 2.4)",
+    defaultRemedy: "Inspect the partial-residual plots; consider a spline or transformation",
+    figure: "partial_residuals",
+    models: "glm",
+  },
+  {
+    key: "treatment_homogeneity_glm",
+    label: "Homogeneity of the treatment effect",
+    rule: "finding when the joint likelihood-ratio test of treatment-by-covariate interactions has p below k",
+    defaultThreshold: 0.05,
+    source: "Likelihood-ratio test of the interactions (standard practice for covariate-adjusted GLMs)",
+    defaultRemedy: "Report the interaction as a sensitivity analysis; the primary estimate stands as planned",
+    figure: "residuals_covariate",
+    needsTreatment: true,
+    models: "glm",
   },
 ];
 
@@ -156,8 +217,10 @@ export interface PlannedCheck {
   remedy: string;
 }
 
-export function defaultChecks(hasTreatment: boolean): PlannedCheck[] {
-  return CHECKS.filter((c) => hasTreatment || !c.needsTreatment).map((c) => ({
+/** The checks a new planned model starts with: every check that applies to its kind of model. */
+export function defaultChecks(hasTreatment: boolean, family = "gaussian"): PlannedCheck[] {
+  const kind = family === "gaussian" ? "linear" : "glm";
+  return CHECKS.filter((c) => (hasTreatment || !c.needsTreatment) && (c.models === "both" || c.models === kind)).map((c) => ({
     key: c.key,
     enabled: true,
     threshold: c.defaultThreshold,
@@ -222,7 +285,7 @@ function observationCheck(
   bound: number,
   thresholdText: string,
   useAbs: boolean,
-  r: LinearModelResult,
+  r: ModelResult,
   what: string,
 ): CheckOutcome {
   const obs = r.observations;
@@ -280,14 +343,28 @@ function pCheck(def: CheckDefinition, planned: PlannedCheck, test: { p: number |
 }
 
 /** The coefficient indices of the treatment term (its non-reference levels). */
-function treatmentCoefficients(r: LinearModelResult): number[] {
+function treatmentCoefficients(r: ModelResult): number[] {
   const t = r.spec.treatment;
   if (!t) return [];
   return r.coefficients.flatMap((c, i) => (c.term === t ? [i] : []));
 }
 
-/** Evaluates every enabled check of the plan on a linear-model result. */
-export function evaluateChecks(r: LinearModelResult, planned: readonly PlannedCheck[]): CheckOutcome[] {
+function notApplicable(def: CheckDefinition, pc: PlannedCheck, kind: "linear" | "glm"): CheckOutcome {
+  return {
+    key: def.key,
+    label: def.label,
+    outcome: "not_computed",
+    statistic: "not computed",
+    threshold: String(pc.threshold),
+    summary: kind === "glm" ? "Not computed: this check applies to linear models; the model is a generalized linear model." : "Not computed: this check applies to generalized linear models.",
+    remedy: pc.remedy,
+    figure: def.figure,
+    value: null,
+  };
+}
+
+/** Evaluates every enabled check of the plan on a rerun's result (linear or generalized linear). */
+export function evaluateChecks(r: ModelResult, planned: readonly PlannedCheck[]): CheckOutcome[] {
   const n = r.n;
   const p = r.rank;
   const obs = r.observations;
@@ -297,6 +374,18 @@ export function evaluateChecks(r: LinearModelResult, planned: readonly PlannedCh
     const def = CHECK_BY_KEY.get(pc.key);
     if (!def) continue;
     const k = pc.threshold;
+    if (def.models !== "both" && def.models !== r.kind) {
+      out.push(notApplicable(def, pc, r.kind));
+      continue;
+    }
+    if (r.kind === "glm") {
+      const glm = evaluateGlmCheck(def, pc, r);
+      if (glm) {
+        out.push(glm);
+        continue;
+      }
+    }
+    if (r.kind !== "linear" && def.models === "linear") continue;
     switch (pc.key) {
       case "cooks_distance":
         out.push(observationCheck(def, pc, obs.cooksDistance, k / n, `${kText(k)}/n = ${fmt(k / n, 4)}`, false, r, "Cook's distance"));
@@ -308,7 +397,8 @@ export function evaluateChecks(r: LinearModelResult, planned: readonly PlannedCh
         out.push(observationCheck(def, pc, obs.studentizedExternal, k, `|t| > ${kText(k)}`, true, r, "|deletion residual|"));
         break;
       case "dffits":
-        out.push(observationCheck(def, pc, obs.dffits, k * Math.sqrt(p / n), `${kText(k)}·√(p/n) = ${fmt(k * Math.sqrt(p / n), 4)}`, true, r, "|DFFITS|"));
+        if (r.kind !== "linear") break;
+        out.push(observationCheck(def, pc, r.observations.dffits, k * Math.sqrt(p / n), `${kText(k)}·√(p/n) = ${fmt(k * Math.sqrt(p / n), 4)}`, true, r, "|DFFITS|"));
         break;
       case "dfbetas_treatment": {
         const idx = treatmentCoefficients(r);
@@ -326,19 +416,19 @@ export function evaluateChecks(r: LinearModelResult, planned: readonly PlannedCh
         break;
       }
       case "shapiro_wilk":
-        out.push(pCheck(def, pc, r.tests.shapiroWilk, "W"));
+        out.push(pCheck(def, pc, r.kind === "linear" ? r.tests.shapiroWilk : undefined, "W"));
         break;
       case "breusch_pagan":
-        out.push(pCheck(def, pc, r.tests.breuschPagan, "BP"));
+        out.push(pCheck(def, pc, r.kind === "linear" ? r.tests.breuschPagan : undefined, "BP"));
         break;
       case "brown_forsythe":
-        out.push(pCheck(def, pc, r.tests.brownForsythe, "F"));
+        out.push(pCheck(def, pc, r.kind === "linear" ? r.tests.brownForsythe : undefined, "F"));
         break;
       case "homogeneity_of_slopes":
-        out.push(pCheck(def, pc, r.tests.homogeneityOfSlopes, "F"));
+        out.push(pCheck(def, pc, r.kind === "linear" ? r.tests.homogeneityOfSlopes : undefined, "F"));
         break;
       case "reset":
-        out.push(pCheck(def, pc, r.tests.reset, "F"));
+        out.push(pCheck(def, pc, r.kind === "linear" ? r.tests.reset : undefined, "F"));
         break;
       case "gvif": {
         const rows = r.vif;
@@ -364,4 +454,54 @@ export function evaluateChecks(r: LinearModelResult, planned: readonly PlannedCh
     }
   }
   return out;
+}
+
+/** The checks that read a generalized linear model's own results; null for the shared ones. */
+function evaluateGlmCheck(def: CheckDefinition, pc: PlannedCheck, r: GlmResult): CheckOutcome | null {
+  const k = pc.threshold;
+  const base = { key: def.key, label: def.label, remedy: pc.remedy, figure: def.figure };
+  switch (pc.key) {
+    case "overdispersion": {
+      const o = r.checks.overdispersion;
+      if (o.ratio === null) return { ...base, outcome: "not_computed", statistic: "not computed", threshold: `> ${kText(k)}`, summary: o.reading, value: null };
+      const finding = o.ratio > k;
+      return {
+        ...base,
+        outcome: finding ? "finding" : "within",
+        statistic: `Pearson χ²/df = ${fmt(o.ratio, 2)}${o.p !== null ? `, p ${o.p < 0.0001 ? "< 0.0001" : `= ${o.p.toFixed(4)}`}` : ""}`,
+        threshold: `> ${kText(k)}`,
+        summary: o.reading,
+        value: o.ratio,
+      };
+    }
+    case "events_per_variable": {
+      const finding = r.eventsPerVariable < k;
+      return {
+        ...base,
+        outcome: finding ? "finding" : "within",
+        statistic: `${fmt(r.eventsPerVariable, 1)} events per estimated coefficient (${r.events} events)`,
+        threshold: `< ${kText(k)}`,
+        summary: finding ? "Fewer events per coefficient than planned: estimates may be biased away from zero and intervals too narrow." : "Enough events per estimated coefficient.",
+        value: r.eventsPerVariable,
+      };
+    }
+    case "linearity_glm": {
+      const tests = r.checks.linearity.filter((t) => t.p !== null);
+      if (tests.length === 0) return { ...base, outcome: "not_computed", statistic: "not computed", threshold: `p < ${kText(k)}`, summary: "Not computed: the model has no continuous covariate.", value: null };
+      const worst = tests.reduce((a, b) => ((b.p ?? 1) < (a.p ?? 1) ? b : a));
+      const over = tests.filter((t) => (t.p ?? 1) < k);
+      return {
+        ...base,
+        outcome: over.length ? "finding" : "within",
+        statistic: `smallest p ${worst.p! < 0.0001 ? "< 0.0001" : `= ${worst.p!.toFixed(4)}`} (${worst.term}, LR χ² = ${fmt(worst.statistic ?? NaN, 2)})`,
+        threshold: `p < ${kText(k)}`,
+        summary: over.length ? `A quadratic term improves the fit for ${over.map((t) => t.term).join(", ")}: the effect may not be linear on the link scale.` : "No continuous covariate departs from linearity on the link scale.",
+        value: worst.p,
+      };
+    }
+    case "treatment_homogeneity_glm":
+      return pCheck(def, pc, r.checks.homogeneityOfTreatmentEffect?.joint, "LR χ²");
+    default:
+      return null;
+  }
 }

@@ -39,7 +39,7 @@ function blankForm(): PlannedModelForm {
     offset: "",
     id: "",
     checks: defaultChecks(true),
-    sensitivity: [{ kind: "robust_hc3" }],
+    sensitivity: [],
   };
 }
 
@@ -59,7 +59,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     isNew: !existing,
     form: existing ? toForm(existing) : blankForm(),
     datasets: await datasetChoices(study.id),
-    checkCatalogue: CHECKS.map((c) => ({ key: c.key, label: c.label, rule: c.rule, source: c.source, defaultThreshold: c.defaultThreshold, defaultRemedy: c.defaultRemedy })),
+    checkCatalogue: CHECKS.map((c) => ({ key: c.key, models: c.models, label: c.label, rule: c.rule, source: c.source, defaultThreshold: c.defaultThreshold, defaultRemedy: c.defaultRemedy })),
   };
 }
 
@@ -108,7 +108,7 @@ export default function PlannedModelPage({ loaderData, actionData }: Route.Compo
       ) : (
         <Form method="post" noValidate>
           <input type="hidden" name="revision" value={loaderData.revision} />
-          <PlannedModelEditor key={JSON.stringify(form)} initial={form} errors={errors} datasets={loaderData.datasets} checkCatalogue={loaderData.checkCatalogue} />
+          <PlannedModelEditor key={JSON.stringify(form)} isNew={loaderData.isNew && !actionData} initial={form} errors={errors} datasets={loaderData.datasets} checkCatalogue={loaderData.checkCatalogue} />
           <div className="mt-6 flex gap-3">
             <button type="submit" className="btn" disabled={navigation.state === "submitting"}>
               {navigation.state === "submitting" ? "Saving…" : "Save planned model"}

@@ -8,11 +8,11 @@ import { SensitivityForest, type ForestRow } from "~/components/figures/sensitiv
 import { WhatIfPanel, type WhatIfInputs } from "~/components/figures/what-if-panel";
 import { fmt, fmtCi, fmtP, utc } from "~/components/format";
 import { FieldError, PageHeader } from "~/components/page";
-import { AdjustedMeansTable, CheckCard, CoefficientTable, ContrastsTable } from "~/components/rerun-results";
+import { AdjustedMeansTable, CheckCard, CoefficientTable, ContrastsTable, MarginalMeansTable, RatioTable } from "~/components/rerun-results";
 import { StatusLabel } from "~/components/status";
 import { actorOf } from "~/.server/people.server";
 import { getPlannedModel } from "~/.server/plans/plans.server";
-import { SENSITIVITY_LABELS, type PlannedSensitivity } from "~/.server/plans/planned-model";
+import { SENSITIVITY_KINDS, SENSITIVITY_LABELS, type PlannedSensitivity } from "~/.server/plans/planned-model";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { Assessment, assessFinding, canSign, FindingConflict, findingsOf, recordDeviation, signaturesOf, signRerun } from "~/.server/reruns/findings.server";
 import type { RerunOptions } from "~/.server/reruns/rerun-options";
@@ -37,6 +37,10 @@ function optionsFor(s: PlannedSensitivity, primary: RerunDocument | null): Rerun
       const rows = primary?.checks.find((c) => c.key === "cooks_distance")?.flagged?.map((f) => f.row) ?? [];
       return rows.length ? { variant: "exclude_rows", rows: [...rows].sort((a, b) => a - b), reason: "flagged by the Cook's distance check" } : null;
     }
+    case "quasi_poisson":
+      return { variant: "family", family: "quasipoisson" };
+    case "negative_binomial":
+      return { variant: "family", family: "negative-binomial" };
   }
 }
 
@@ -109,7 +113,7 @@ function labelOf(o: RerunOptions): string {
 
 const Intent = z.discriminatedUnion("intent", [
   z.object({ intent: z.literal("again") }),
-  z.object({ intent: z.literal("sensitivity"), kind: z.enum(["robust_hc3", "variance_function", "exclude_influential", "alternative_covariates"]) }),
+  z.object({ intent: z.literal("sensitivity"), kind: z.enum(SENSITIVITY_KINDS) }),
   z.object({ intent: z.literal("assess"), findingId: z.string().min(1) }).passthrough(),
   z.object({ intent: z.literal("deviation") }).passthrough(),
   z.object({ intent: z.literal("sign") }),
@@ -343,18 +347,33 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
             <p className="num text-sm">
               {view.rows.inFile} rows in the file · {view.rows.outsidePopulation} outside the population
               {view.population ? ` (${view.population.column} ≠ ${view.population.value})` : ""} · {view.rows.excludedByOption} excluded by this analysis ·{" "}
-              {view.rows.missingCells} left out for missing cells · <span className="font-semibold">{view.rows.used} used</span> · {view.rank} coefficients · residual SE {fmt(view.fit.sigma)} · R² {fmt(view.fit.rSquared)}
+              {view.rows.missingCells} left out for missing cells · <span className="font-semibold">{view.rows.used} used</span> · {view.rank} coefficients ·{" "}
+              {view.kind === "linear"
+                ? `residual SE ${fmt(view.fit.sigma)} · R² ${fmt(view.fit.rSquared)}`
+                : `${view.family}, ${view.link} link · deviance ${fmt(view.glmFit.deviance, 2)} on ${view.glmFit.dfResidual} df · AIC ${fmt(view.glmFit.aic, 1)} · dispersion ${fmt(view.glmFit.dispersion)}${view.glmFit.theta !== undefined ? ` · θ ${fmt(view.glmFit.theta)}` : ""} · ${view.events} events`}
             </p>
+            {view.kind === "glm" && view.notes.length > 0 ? (
+              <ul className="mt-2 list-disc pl-5 text-sm">
+                {view.notes.map((n) => (
+                  <li key={n}>{n}</li>
+                ))}
+              </ul>
+            ) : null}
           </section>
           {view.contrasts.length > 0 ? (
             <section className="panel p-4" aria-labelledby="effect-h">
               <h2 id="effect-h" className="mb-2">
                 Treatment effect
               </h2>
-              <ContrastsTable rows={view.contrasts} />
-              {view.adjustedMeans ? (
+              <ContrastsTable rows={view.contrasts} kind={view.kind} />
+              {view.kind === "linear" && view.adjustedMeans ? (
                 <div className="mt-4">
                   <AdjustedMeansTable rows={view.adjustedMeans} weighting={view.adjustedMeansWeighting} />
+                </div>
+              ) : null}
+              {view.kind === "glm" && view.marginalMeans ? (
+                <div className="mt-4">
+                  <MarginalMeansTable rows={view.marginalMeans} family={view.family} />
                 </div>
               ) : null}
             </section>
@@ -363,7 +382,12 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
             <h2 id="coef-h" className="mb-2">
               Coefficients
             </h2>
-            <CoefficientTable rows={view.coefficients} covarianceType={view.covarianceType} df={view.dfResidual} />
+            <CoefficientTable rows={view.coefficients} covarianceType={view.kind === "linear" ? view.covarianceType : "model"} df={view.dfResidual} statisticName={view.statisticName} />
+            {view.kind === "glm" && view.ratios && view.ratioName ? (
+              <div className="mt-4">
+                <RatioTable rows={view.ratios} ratioName={view.ratioName} />
+              </div>
+            ) : null}
           </section>
 
           <section aria-labelledby="checks-h" className="space-y-3">

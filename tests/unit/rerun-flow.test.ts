@@ -22,6 +22,8 @@ const { verifyAuditChain } = await import("~/.server/audit.server");
 const { eq } = await import("drizzle-orm");
 
 const R = JSON.parse(readFileSync("tests/demo/demo-findings.json", "utf8")) as {
+  flares: { n: number; poissonPearsonChi2PerDf: number; negativeBinomialTheta: number; highVsPlaceboRateRatio: number };
+  responder: { n: number; events: number; eventsPerVariable: number };
   ancova: { n: number; highVsPlacebo: { estimate: number; p: number }; lowVsPlacebo: { estimate: number; p: number }; breuschPaganModelP: number; brownForsytheArmP: number; shapiroWilkP: number; cooksMax: { subjid: string; cooksD: number } };
 };
 
@@ -181,6 +183,64 @@ describe("rerun of the primary model", () => {
     expect((await findings.signaturesOf(rerunId))[0]).toMatchObject({ signerName: "Tomas Berg", meaning: "Reviewed and approved" });
     await expect(findings.recordDeviation(priya, studyId, rerunId, { category: "data", impact: "none", action: "none", rationale: "Too late to add anything now." })).rejects.toThrow(/signed/);
     expect((await findings.deviationLog(studyId)).length).toBeGreaterThanOrEqual(4);
+  });
+});
+
+describe("generalized linear planned models on the demo study", () => {
+  // R 4.2 stats::glm and MASS::glm.nb on the same data (tests/demo/check-demo.R).
+  let countsId = "";
+  let responderId = "";
+
+  beforeAll(async () => {
+    const locked = await listLockedVersions(studyId);
+    const catalogue = locked.map((x) => ({ name: x.datasetName, columns: x.columns }));
+    const { versionId: v } = await plans.createPlan(priya, studyId, { title: "Secondary endpoints", sapName: "Statistical analysis plan", sapVersion: "2.0", sapDate: "2026-10-01" });
+    const form = (fields: Record<string, string>, covariates: string[], sensitivity: string[]) => {
+      const f = new FormData();
+      for (const [k, val] of Object.entries({ datasetName: "adeff", populationColumn: "fasfl", populationValue: "Y", treatment: "arm", treatmentReference: "Placebo", id: "subjid", ...fields })) f.set(k, val);
+      for (const c of covariates) f.append("covariate", c);
+      for (const c of ["cooks_distance", "leverage", "overdispersion", "events_per_variable", "linearity_glm"]) f.set(`check:${c}:enabled`, "on");
+      for (const k of sensitivity) f.set(`sensitivity:${k}`, "on");
+      const parsed = validatePlannedModel(readPlannedModelForm(f), catalogue, []);
+      if (!parsed.ok) throw new Error(JSON.stringify(parsed.errors));
+      return parsed.model;
+    };
+    countsId = await plans.savePlannedModel(priya, studyId, v, 1, null, form({ key: "flares", title: "Flare rate", response: "flares", family: "poisson", offset: "logexp" }, ["stratum", "region"], ["negative_binomial", "quasi_poisson"]));
+    responderId = await plans.savePlannedModel(priya, studyId, v, 2, null, form({ key: "responder", title: "Responders at week 12", response: "resp", family: "binomial" }, ["base", "stratum", "region", "sex", "age"], []));
+    await plans.submitForApproval(priya, studyId, v, 3);
+    await plans.approvePlanVersion(tomas, studyId, v);
+  });
+
+  it("reports the planted overdispersion of the flare counts as a finding, at R's Pearson χ²/df", async () => {
+    const id = await reruns.startRerun(priya, studyId, { plannedModelId: countsId, datasetVersionId, options: { variant: "planned" } });
+    await drain();
+    const r = await reruns.getRerun(studyId, id);
+    expect(r.rerun.status).toBe("completed");
+    const od = r.doc!.checks.find((c) => c.key === "overdispersion")!;
+    expect(od.outcome).toBe("finding");
+    expect(od.value!).toBeCloseTo(R.flares.poissonPearsonChi2PerDf, 4);
+    expect(r.doc!.rows.used).toBe(R.flares.n);
+    // The planned negative binomial analysis, beside the primary: θ and the rate ratio as MASS::glm.nb finds them.
+    const nbId = await reruns.startRerun(priya, studyId, { plannedModelId: countsId, datasetVersionId, options: { variant: "family", family: "negative-binomial" }, parentRerunId: id });
+    await drain();
+    const nb = (await reruns.getRerun(studyId, nbId)).doc!.result;
+    if (nb.kind !== "glm") throw new Error("expected a GLM");
+    expect(nb.fit.theta!).toBeCloseTo(R.flares.negativeBinomialTheta, 3);
+    const high = nb.ratios!.find((x) => x.name === "arm=Lorvanitide 120 mg")!;
+    expect(high.ratio).toBeCloseTo(R.flares.highVsPlaceboRateRatio, 4);
+  });
+
+  it("counts the responder events per variable as R does, within plan", async () => {
+    const id = await reruns.startRerun(priya, studyId, { plannedModelId: responderId, datasetVersionId, options: { variant: "planned" } });
+    await drain();
+    const r = await reruns.getRerun(studyId, id);
+    expect(r.rerun.status).toBe("completed");
+    const epv = r.doc!.checks.find((c) => c.key === "events_per_variable")!;
+    expect(epv.outcome).toBe("within");
+    expect(epv.value!).toBeCloseTo(R.responder.eventsPerVariable, 4);
+    expect(r.doc!.checks.find((c) => c.key === "overdispersion")!.outcome).toBe("not_computed");
+    const rd = (await import("~/.server/reruns/rerun-view.server")).reportedContrasts(r.doc!);
+    expect(rd.every((c) => c.label.endsWith("(risk difference)"))).toBe(true);
   });
 });
 

@@ -9,7 +9,7 @@ import { CHECKS, type CheckKey, type PlannedCheck } from "~/engine/checks";
 import { modelSpecSchema, type ModelSpec, type Term } from "~/engine/model-spec";
 import type { ColumnMeta } from "../datasets/catalog.server";
 
-export const SENSITIVITY_KINDS = ["robust_hc3", "variance_function", "exclude_influential", "alternative_covariates"] as const;
+export const SENSITIVITY_KINDS = ["robust_hc3", "variance_function", "exclude_influential", "alternative_covariates", "quasi_poisson", "negative_binomial"] as const;
 export type SensitivityKind = (typeof SENSITIVITY_KINDS)[number];
 
 export const SENSITIVITY_LABELS: Record<SensitivityKind, string> = {
@@ -17,6 +17,8 @@ export const SENSITIVITY_LABELS: Record<SensitivityKind, string> = {
   variance_function: "Weighted fit with an estimated variance function",
   exclude_influential: "Excluding subjects flagged by the Cook's distance check",
   alternative_covariates: "Alternative covariate set",
+  quasi_poisson: "Quasi-Poisson (dispersion estimated)",
+  negative_binomial: "Negative binomial (NB2)",
 };
 
 export const sensitivitySchema = z.object({
@@ -164,8 +166,9 @@ export function validatePlannedModel(
   const response = need("response", form.response, "endpoint (response) column");
   if (response && family === "gaussian" && response.type !== "number") errors.response = `${response.name} is ${response.type}, not numeric: a linear model needs a numeric endpoint.`;
   if (response && family === "poisson" && response.type !== "number") errors.response = `${response.name} must hold counts for a Poisson model.`;
-  if (response && family === "binomial" && !(response.levels && response.levels.length === 2))
-    errors.response = `${response.name} must have exactly two values for a binomial model${response.levels ? ` (it has ${response.levels.length})` : ""}.`;
+  const zeroOne = response?.type === "number" && response.min !== undefined && response.max !== undefined && response.min >= 0 && response.max <= 1;
+  if (response && family === "binomial" && !zeroOne && !(response.levels && response.levels.length === 2))
+    errors.response = `${response.name} must be 0/1 or have exactly two values for a binomial model${response.levels ? ` (it has ${response.levels.length})` : ""}.`;
 
   const terms: Term[] = [];
   const mainVariables = new Set<string>();
@@ -217,6 +220,10 @@ export function validatePlannedModel(
     if (!Number.isFinite(ch.threshold) || ch.threshold <= 0) errors[`check:${ch.key}:threshold`] = "Give a positive number.";
   }
   for (const s of form.sensitivity) {
+    if ((s.kind === "quasi_poisson" || s.kind === "negative_binomial") && family !== "poisson")
+      errors[`sensitivity:${s.kind}`] = "Quasi-Poisson and negative binomial analyses apply to a Poisson model of counts.";
+    if ((s.kind === "robust_hc3" || s.kind === "variance_function") && family !== "gaussian")
+      errors[`sensitivity:${s.kind}`] = "This remedy applies to a linear model; for counts plan quasi-Poisson or negative binomial instead.";
     if (s.kind === "alternative_covariates" && (!s.covariates || s.covariates.length === 0))
       errors["sensitivity:covariate"] = "Choose the covariates of the alternative set.";
     if (s.kind === "variance_function" && s.varianceBy === "treatment" && !form.treatment)

@@ -8,6 +8,8 @@ export const rerunOptionsSchema = z.discriminatedUnion("variant", [
   /** Subjects left out by row number (1-based data rows of the locked file). */
   z.object({ variant: z.literal("exclude_rows"), rows: z.array(z.number().int().positive()).min(1), reason: z.string() }),
   z.object({ variant: z.literal("alternative_covariates"), covariates: z.array(z.string()), label: z.string() }),
+  /** Counts: the planned Poisson model refitted with another family for overdispersion. */
+  z.object({ variant: z.literal("family"), family: z.enum(["quasipoisson", "negative-binomial"]) }),
 ]);
 export type RerunOptions = z.infer<typeof rerunOptionsSchema>;
 
@@ -23,5 +25,7 @@ export function describeOptions(o: RerunOptions): string {
       return `Excluding ${o.rows.length} subject${o.rows.length === 1 ? "" : "s"} (${o.reason})`;
     case "alternative_covariates":
       return `${o.label}: ${o.covariates.join(", ") || "treatment only"}`;
+    case "family":
+      return o.family === "quasipoisson" ? "Quasi-Poisson (dispersion estimated)" : "Negative binomial (NB2, θ by maximum likelihood)";
   }
 }

@@ -16,22 +16,44 @@ export interface ContrastView {
   hc3: { se: number; lower: number; upper: number; p: number };
 }
 
+/**
+ * The treatment contrasts a rerun reports: differences in adjusted means for a linear model
+ * (with HC3 beside them), marginal (standardized) contrasts for a GLM (with the variance of
+ * Ye et al. 2023 beside them, in the same "hc3" slot: the robust alternative).
+ */
 export function contrastsOf(doc: RerunDocument): ContrastView[] {
-  return (doc.result.contrasts ?? []).map((c) => ({
-    label: c.label,
+  const r = doc.result;
+  if (r.kind === "linear") {
+    return (r.contrasts ?? []).map((c) => ({
+      label: c.label,
+      estimate: c.estimate,
+      se: c.se,
+      lower: c.lower,
+      upper: c.upper,
+      p: c.p,
+      hc3: { se: c.hc3.se, lower: c.hc3.lower, upper: c.hc3.upper, p: c.hc3.p },
+    }));
+  }
+  return (r.marginalEffects?.contrasts ?? []).map((c) => ({
+    label: `${c.level} vs ${c.reference} (${c.measure})`,
     estimate: c.estimate,
     se: c.se,
     lower: c.lower,
     upper: c.upper,
     p: c.p,
-    hc3: { se: c.hc3.se, lower: c.hc3.lower, upper: c.hc3.upper, p: c.hc3.p },
+    hc3: { se: c.robust.se, lower: c.robust.lower, upper: c.robust.upper, p: c.robust.p },
   }));
 }
 
-/** The contrast interval an analysis reports: HC3 for the robust-errors analysis, model-based otherwise. */
+/**
+ * The contrast interval an analysis reports: HC3 for the robust-errors analysis, model-based
+ * otherwise. For binary endpoints the risk difference is the headline measure.
+ */
 export function reportedContrasts(doc: RerunDocument): { label: string; estimate: number; lower: number; upper: number; p: number }[] {
   const robust = doc.options.variant === "robust_hc3";
-  return contrastsOf(doc).map((c) => ({ label: c.label, estimate: c.estimate, ...(robust ? { lower: c.hc3.lower, upper: c.hc3.upper, p: c.hc3.p } : { lower: c.lower, upper: c.upper, p: c.p }) }));
+  const all = contrastsOf(doc);
+  const headline = doc.result.kind === "glm" && doc.result.family === "binomial" ? all.filter((c) => c.label.endsWith("(risk difference)")) : all;
+  return headline.map((c) => ({ label: c.label, estimate: c.estimate, ...(robust ? { lower: c.hc3.lower, upper: c.hc3.upper, p: c.hc3.p } : { lower: c.lower, upper: c.upper, p: c.p }) }));
 }
 
 export function checkView(c: CheckOutcome, withSubjectIds: boolean) {
@@ -44,21 +66,18 @@ export function checkView(c: CheckOutcome, withSubjectIds: boolean) {
 
 export function rerunView(doc: RerunDocument, withSubjectIds: boolean) {
   const r = doc.result;
-  return {
+  const common = {
     description: doc.description,
     rows: doc.rows,
     population: doc.population,
     method: r.method.description,
+    family: r.family,
+    link: r.link,
     n: r.n,
     rank: r.rank,
     dfResidual: r.dfResidual,
-    covarianceType: r.covarianceType,
     coefficients: r.coefficients,
-    fit: r.fit,
-    adjustedMeans: r.adjustedMeans,
-    adjustedMeansWeighting: r.adjustedMeansWeighting,
     contrasts: contrastsOf(doc),
-    tests: r.tests,
     vif: r.vif,
     qqShape: r.qqShape,
     terms: r.terms,
@@ -66,6 +85,30 @@ export function rerunView(doc: RerunDocument, withSubjectIds: boolean) {
     checks: doc.checks.map((c) => checkView(c, withSubjectIds)),
     engineVersion: doc.engineVersion,
     caution: doc.caution,
+  };
+  if (r.kind === "linear") {
+    return {
+      ...common,
+      kind: "linear" as const,
+      statisticName: "t" as const,
+      covarianceType: r.covarianceType,
+      fit: r.fit,
+      adjustedMeans: r.adjustedMeans,
+      adjustedMeansWeighting: r.adjustedMeansWeighting,
+      tests: r.tests,
+    };
+  }
+  return {
+    ...common,
+    kind: "glm" as const,
+    statisticName: r.statisticName,
+    glmFit: r.fit,
+    ratioName: r.ratioName,
+    ratios: r.ratios,
+    events: r.events,
+    eventsPerVariable: r.eventsPerVariable,
+    marginalMeans: r.marginalEffects?.means ?? null,
+    notes: r.notes,
   };
 }
 

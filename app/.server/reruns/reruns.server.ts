@@ -9,7 +9,7 @@ import { createHash } from "node:crypto";
 import { and, asc, desc, eq, inArray } from "drizzle-orm";
 import { data } from "react-router";
 import { evaluateChecks, type CheckOutcome } from "~/engine/checks";
-import { EngineError, ENGINE_VERSION, fitModel, fitWithEstimatedVariance, fitWithRobustErrors, RESULTS_CAUTION, type LinearModelResult, type ModelSpec, type Term } from "~/engine";
+import { EngineError, ENGINE_VERSION, fitModel, fitWithEstimatedVariance, fitWithRobustErrors, RESULTS_CAUTION, type ModelResult, type ModelSpec, type Term } from "~/engine";
 import { appendAudit, canonicalJson, SYSTEM_ACTOR } from "../audit.server";
 import { loadLockedTable } from "../datasets/catalog.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
@@ -32,7 +32,7 @@ export interface RerunDocument {
   description: string;
   rows: { inFile: number; outsidePopulation: number; excludedByOption: number; missingCells: number; used: number };
   population: Population;
-  result: LinearModelResult;
+  result: ModelResult;
   checks: CheckOutcome[];
 }
 
@@ -78,8 +78,15 @@ export function computeRerun(model: StoredPlannedModel, table: ColumnTable, opti
     working = filterRows(working, (i) => !drop.has(working.rowNumbers[i]));
   }
   const excludedByOption = inPopulation - working.rowNumbers.length;
-  const spec = options.variant === "alternative_covariates" ? alternativeSpec(model.spec, options.covariates) : model.spec;
-  let result: LinearModelResult;
+  let spec = options.variant === "alternative_covariates" ? alternativeSpec(model.spec, options.covariates) : model.spec;
+  if (options.variant === "family") {
+    if (spec.family !== "poisson") throw new EngineError(`a ${options.family} analysis applies to a Poisson model of counts, not to a ${spec.family} model`);
+    spec = { ...spec, family: options.family };
+  }
+  if ((options.variant === "robust_hc3" || options.variant === "variance_function") && spec.family !== "gaussian") {
+    throw new EngineError(`the ${describeOptions(options).toLowerCase()} remedy applies to linear models, not to a ${spec.family} model`);
+  }
+  let result: ModelResult;
   switch (options.variant) {
     case "robust_hc3":
       result = fitWithRobustErrors(spec, working, "HC3");
