@@ -32,6 +32,13 @@ const schema = z.object({
   MAX_BODY_BYTES: z.coerce.number().int().positive().default(1_048_576),
   /** Largest dataset file accepted by the upload route, in bytes (default 200 MB). */
   DATASET_MAX_BYTES: z.coerce.number().int().positive().default(200_000_000),
+  /** SMTP server that e-mail notifications go through (no authentication; STARTTLS when the server offers it). */
+  SMTP_HOST: z.string().min(1).default("127.0.0.1"),
+  SMTP_PORT: z.coerce.number().int().min(1).max(65_535).default(2525),
+  /** Sender of every notification. */
+  MAIL_FROM: z.string().min(3).default("Plumbline <no-reply@plumbline.example>"),
+  /** Demo and tests only: the SMTP fake's inbox folder, shown on the administrator's outbox page. */
+  SMTP_FAKE_INBOX_DIR: z.string().optional(),
 });
 
 export type Config = z.infer<typeof schema>;

@@ -334,7 +334,7 @@ export const jobs = sqliteTable(
 /**
  * E-mail notifications, one row per recipient, written in the same transaction as the event they
  * announce and sent by a background job. A message that could not be sent stays queued with its
- * error and `nextAttemptAt`; it is tried again from then on, and ends as failed after the last try.
+ * error and `nextAttemptAt`; it is tried again then, and ends as failed after the last try.
  */
 export const mailOutbox = sqliteTable(
   "mail_outbox",
@@ -355,7 +355,7 @@ export const mailOutbox = sqliteTable(
     /** The page the message links back to (a path under APP_URL). */
     linkPath: text("link_path"),
     lastAttemptAt: text("last_attempt_at"),
-    /** When a queued message that failed is tried again; null while a send job for it is waiting. */
+    /** When a queued message is tried again; while its send job waits, a lease after which a lost job is replaced. */
     nextAttemptAt: text("next_attempt_at"),
   },
   (t) => [index("mail_outbox_status").on(t.status, t.nextAttemptAt)],

@@ -10,6 +10,7 @@ import { z } from "zod";
 import { appendAudit, canonicalJson } from "../audit.server";
 import type { PersonActor } from "../people.server";
 import { db, isoNow, newId, t, writeTransaction, type DbOrTx } from "../db/index.server";
+import { notifyPlanAwaitsApproval } from "../mail/notifications.server";
 import { plannedModelSchema, type PlannedModel } from "./planned-model";
 
 export type PlanVersion = typeof t.planVersions.$inferSelect;
@@ -190,6 +191,7 @@ export async function submitForApproval(actor: PersonActor, studyId: string, ver
     if (models.length === 0) throw new PlanConflict("Add at least one planned model before submitting the plan for approval.");
     await tx.update(t.planVersions).set({ status: "awaiting_approval", returnNote: null, updatedAt: isoNow() }).where(eq(t.planVersions.id, v.id));
     await appendAudit({ actor, action: "plan.submit", entityType: "plan_version", entityId: v.id, studyId, before: { status: "draft" }, after: { status: "awaiting_approval" } }, tx);
+    await notifyPlanAwaitsApproval(tx, { studyId, versionId: v.id, submittedBy: actor.id });
     return v;
   });
 }

@@ -4,11 +4,12 @@
  * assessed its findings, after every finding is assessed, within five minutes of a fresh
  * authentication at the identity provider; the signature publishes it to sponsor readers.
  */
-import { and, asc, desc, eq, inArray } from "drizzle-orm";
+import { and, asc, desc, eq, inArray, isNull } from "drizzle-orm";
 import { data } from "react-router";
 import { z } from "zod";
 import { appendAudit } from "../audit.server";
-import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
+import { db, isoNow, newId, t, writeTransaction, type DbOrTx } from "../db/index.server";
+import { notifyReportPublished, notifyRerunAwaitsSignOff } from "../mail/notifications.server";
 import type { PersonActor } from "../people.server";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 
@@ -70,7 +71,21 @@ export async function assessFinding(actor: PersonActor, studyId: string, finding
       },
       tx,
     );
+    if (!old && (await awaitsSignOff(tx, f.rerunId))) await notifyRerunAwaitsSignOff(tx, { studyId, rerunId: f.rerunId });
   });
+}
+
+/** A completed primary rerun whose every finding is assessed. */
+async function awaitsSignOff(tx: DbOrTx, rerunId: string): Promise<boolean> {
+  const [r] = await tx.select({ kind: t.reruns.kind, status: t.reruns.status }).from(t.reruns).where(eq(t.reruns.id, rerunId)).limit(1);
+  if (!r || r.kind !== "primary" || r.status !== "completed") return false;
+  const open = await tx
+    .select({ id: t.findings.id })
+    .from(t.findings)
+    .leftJoin(t.deviations, eq(t.deviations.findingId, t.findings.id))
+    .where(and(eq(t.findings.rerunId, rerunId), isNull(t.deviations.id)))
+    .limit(1);
+  return open.length === 0;
 }
 
 /** A deviation from the plan that no check produced, e.g. a covariate dropped because a level is empty. */
@@ -153,5 +168,6 @@ export async function signRerun(actor: PersonActor & { signedInAt: string }, stu
       { actor, action: "rerun.sign", entityType: "rerun", entityId: rerunId, studyId, after: { meaning: SIGNATURE_MEANING, signedAt: at, authenticatedAt: actor.signedInAt }, detail: "published to the study's sponsor readers" },
       tx,
     );
+    await notifyReportPublished(tx, { studyId, rerunId });
   });
 }
