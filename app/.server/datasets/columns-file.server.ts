@@ -2,13 +2,15 @@
  * The parsed form of a dataset version, kept beside its exact bytes so that reruns and the
  * preview never parse the file again.
  *
- * Layout: the line `PLCOLS1`, one line of JSON (row count, column names and the byte length
- * of each segment), then the row numbers as little-endian Int32, then one UTF-8 segment per
- * column holding its cells joined by U+0000 (validation refuses cells that contain U+0000).
- * Loading is one read and one `split` per column: about 0.3 s for 200 000 rows x 25 columns,
- * where JSON.parse of the same cells takes several times longer (measured with
- * scripts/bench-datasets.ts).
+ * Layout: the line `PLCOLS1`, one line of JSON (row count, and per column its name, encoding
+ * and segment length), then the row numbers as little-endian Int32, then per column either its
+ * cells joined by U+0000 (validation refuses cells that contain U+0000) or, for columns with
+ * few distinct values, those values joined by U+0000 followed by one 1- or 2-byte code per
+ * row. Loading is one read, one `split` per column and a table look-up for coded columns, so
+ * the strings of repeated values are shared instead of made again; scripts/bench-datasets.ts
+ * measures it.
  */
+import { isAscii } from "node:buffer";
 import { open, readFile } from "node:fs/promises";
 
 const MAGIC = "PLCOLS1\n";
@@ -22,24 +24,58 @@ export interface ParsedColumns {
   rowNumbers: number[];
 }
 
+interface ColumnEntry {
+  name: string;
+  /** Byte length of the column's text segment (plain: every cell; dict: the distinct values). */
+  bytes: number;
+  /** "dict": the distinct values, then one code per row (1 or 2 bytes, little-endian). */
+  encoding?: "plain" | "dict";
+  codeBytes?: 1 | 2;
+  /** True when the text segment is pure ASCII (read as latin1, which is faster). */
+  ascii?: boolean;
+}
+
 interface Header {
   rowCount: number;
-  columns: { name: string; bytes: number }[];
+  columns: ColumnEntry[];
+}
+
+/** Columns with at most this many distinct values are stored as a dictionary and codes. */
+const MAX_DICTIONARY = 65_535;
+
+function encodeColumn(name: string, column: string[]): { entry: ColumnEntry; parts: Buffer[] } {
+  const codes = new Map<string, number>();
+  for (const cell of column) {
+    if (!codes.has(cell)) {
+      codes.set(cell, codes.size);
+      if (codes.size > MAX_DICTIONARY || codes.size > column.length / 2) break;
+    }
+  }
+  if (codes.size <= MAX_DICTIONARY && codes.size <= column.length / 2) {
+    const text = Buffer.from([...codes.keys()].join(CELL_SEPARATOR), "utf8");
+    const codeBytes = codes.size <= 256 ? 1 : 2;
+    const packed = Buffer.alloc(column.length * codeBytes);
+    for (let i = 0; i < column.length; i++) {
+      const c = codes.get(column[i]) as number;
+      if (codeBytes === 1) packed[i] = c;
+      else packed.writeUInt16LE(c, 2 * i);
+    }
+    return { entry: { name, bytes: text.length, encoding: "dict", codeBytes, ascii: isAscii(text) }, parts: [text, packed] };
+  }
+  const text = Buffer.from(column.join(CELL_SEPARATOR), "utf8");
+  return { entry: { name, bytes: text.length, encoding: "plain", ascii: isAscii(text) }, parts: [text] };
 }
 
 /** Writes the parsed columns to `file` (a work file; the caller moves it into the store). */
 export async function writeColumnsFile(file: string, parsed: ParsedColumns): Promise<void> {
-  const segments = parsed.cells.map((column) => Buffer.from(column.join(CELL_SEPARATOR), "utf8"));
-  const header: Header = {
-    rowCount: parsed.rowNumbers.length,
-    columns: parsed.names.map((name, i) => ({ name, bytes: segments[i].length })),
-  };
+  const encoded = parsed.cells.map((column, j) => encodeColumn(parsed.names[j], column));
+  const header: Header = { rowCount: parsed.rowNumbers.length, columns: encoded.map((e) => e.entry) };
   const rowNumbers = Buffer.from(Int32Array.from(parsed.rowNumbers).buffer);
   const handle = await open(file, "w");
   try {
     await handle.write(MAGIC + JSON.stringify(header) + "\n");
     await handle.write(rowNumbers);
-    for (const segment of segments) await handle.write(segment);
+    for (const e of encoded) for (const part of e.parts) await handle.write(part);
     await handle.sync();
   } finally {
     await handle.close();
@@ -54,15 +90,26 @@ export async function readColumnsFile(file: string): Promise<ParsedColumns> {
   }
   const headerEnd = buf.indexOf(10, MAGIC.length);
   const header = JSON.parse(buf.toString("utf8", MAGIC.length, headerEnd)) as Header;
+  const n = header.rowCount;
   let offset = headerEnd + 1;
-  const rowNumbers = new Array<number>(header.rowCount);
-  for (let i = 0; i < header.rowCount; i++) rowNumbers[i] = buf.readInt32LE(offset + 4 * i);
-  offset += 4 * header.rowCount;
+  const rowNumbers = new Array<number>(n);
+  for (let i = 0; i < n; i++) rowNumbers[i] = buf.readInt32LE(offset + 4 * i);
+  offset += 4 * n;
   const cells: string[][] = [];
   for (const column of header.columns) {
-    const text = buf.toString("utf8", offset, offset + column.bytes);
-    cells.push(header.rowCount === 0 ? [] : text.split(CELL_SEPARATOR));
+    const text = buf.toString(column.ascii ? "latin1" : "utf8", offset, offset + column.bytes);
     offset += column.bytes;
+    if (column.encoding === "dict") {
+      const values = n === 0 ? [] : text.split(CELL_SEPARATOR);
+      const width = column.codeBytes ?? 1;
+      const out: string[] = [];
+      if (width === 1) for (let i = 0; i < n; i++) out.push(values[buf[offset + i]]);
+      else for (let i = 0; i < n; i++) out.push(values[buf.readUInt16LE(offset + 2 * i)]);
+      offset += n * width;
+      cells.push(out);
+    } else {
+      cells.push(n === 0 ? [] : text.split(CELL_SEPARATOR));
+    }
   }
   return { names: header.columns.map((c) => c.name), cells, rowNumbers };
 }
@@ -83,4 +130,10 @@ export function readColumnsFileCached(file: string): Promise<ParsedColumns> {
   loading.catch(() => cache.delete(file));
   while (cache.size > CACHE_ENTRIES) cache.delete(cache.keys().next().value as string);
   return loading;
+}
+
+/** Puts columns already in memory (just parsed and written) in the cache under their file. */
+export function primeColumnsCache(file: string, parsed: ParsedColumns): void {
+  cache.set(file, Promise.resolve(parsed));
+  while (cache.size > CACHE_ENTRIES) cache.delete(cache.keys().next().value as string);
 }

@@ -11,7 +11,7 @@ import { stringify } from "csv-stringify/sync";
 import { appendAudit, type Actor } from "../audit.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
 import type { ColumnMeta } from "./column-summary";
-import { readColumnsFileCached, writeColumnsFile, type ParsedColumns } from "./columns-file.server";
+import { primeColumnsCache, readColumnsFileCached, writeColumnsFile, type ParsedColumns } from "./columns-file.server";
 import { summariseChanges, type ChangeSummary } from "./diff";
 import { formatOf, parseDatasetFile, type DatasetFormat, type ParseOptions } from "./parse.server";
 import { screenColumns } from "./screen";
@@ -206,6 +206,8 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
       );
       return { versionId, version, datasetId };
     });
+    // The preview opens next: serve it from the columns already in memory.
+    primeColumnsCache(absoluteStorePath(parsedPath), { names: parsed.names, cells: parsed.cells, rowNumbers: parsed.rowNumbers });
     progress("store", 1);
     return { ok: true, ...saved, hits: hits.length, changes };
   } finally {

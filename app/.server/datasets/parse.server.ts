@@ -8,6 +8,7 @@
  */
 import { createReadStream } from "node:fs";
 import { readFile, stat } from "node:fs/promises";
+import { isUtf8 } from "node:buffer";
 import { parse as csvParser } from "csv-parse";
 import { isMissingCell, parseNumber } from "../../engine/data";
 import { CELL_SEPARATOR } from "./columns-file.server";
@@ -89,12 +90,6 @@ function locateBadUtf8(bytes: Buffer, startLine: number): { line: number; offset
   return { line, offset: i };
 }
 
-function countNewlines(text: string): number {
-  let n = 0;
-  for (let i = text.indexOf("\n"); i !== -1; i = text.indexOf("\n", i + 1)) n++;
-  return n;
-}
-
 function headerProblems(file: string, names: string[], problems: Problems): void {
   const seen = new Map<string, number>();
   names.forEach((name, i) => {
@@ -116,12 +111,10 @@ function cellProblems(file: string, column: string, row: number, cell: string, p
 export async function parseCsv(filePath: string, fileName: string, options: ParseOptions = {}): Promise<ParseOutcome> {
   const problems = new Problems();
   const total = (await stat(filePath)).size;
-  const decoder = new TextDecoder("utf-8", { fatal: true, ignoreBOM: false });
   let names: string[] | null = null;
   let cells: string[][] = [];
   const rowNumbers: number[] = [];
   let parser: ReturnType<typeof csvParser> | null = null;
-  let pending = "";
   let linesSeen = 1;
   let read = 0;
   let badEncoding = false;
@@ -149,7 +142,7 @@ export async function parseCsv(filePath: string, fileName: string, options: Pars
   };
 
   const startParser = (delimiter: string) => {
-    const p = csvParser({ delimiter, relax_column_count: true, skip_empty_lines: true, bom: false });
+    const p = csvParser({ delimiter, relax_column_count: true, skip_empty_lines: true, bom: true });
     p.on("data", onRecord);
     p.on("error", (e: Error & { code?: string; lines?: number }) => {
       parseError = `${fileName}: line ${e.lines ?? "?"}: ${e.message} Check the quotes on that line.`;
@@ -157,47 +150,65 @@ export async function parseCsv(filePath: string, fileName: string, options: Pars
     return p;
   };
 
-  const write = (text: string) =>
+  const write = (bytes: Buffer) =>
     new Promise<void>((resolve) => {
       if (!parser) return resolve();
-      if (!parser.write(text)) parser.once("drain", resolve);
+      if (!parser.write(bytes)) parser.once("drain", resolve);
       else resolve();
     });
 
+  // Bytes go to csv-parse as they are (it decodes each field once); UTF-8 is checked per chunk
+  // with the native validator, carrying an incomplete character over to the next chunk.
   const stream = createReadStream(filePath, { highWaterMark: 1 << 20 });
-  for await (const chunk of stream as AsyncIterable<Buffer>) {
-    let text: string;
-    try {
-      text = decoder.decode(chunk, { stream: true });
-    } catch {
+  let carry: Buffer = Buffer.alloc(0);
+  let head: Buffer[] = [];
+  for await (const raw of stream as AsyncIterable<Buffer>) {
+    let chunk = carry.length > 0 ? Buffer.concat([carry, raw]) : raw;
+    let cut = chunk.length;
+    // Back up over a character that continues into the next chunk (at most 3 bytes).
+    for (let k = 1; k <= 3 && k <= chunk.length; k++) {
+      const b = chunk[chunk.length - k];
+      if ((b & 0xc0) === 0x80) continue;
+      if (b >= 0xc0) {
+        const need = b >= 0xf0 ? 4 : b >= 0xe0 ? 3 : 2;
+        if (need > k) cut = chunk.length - k;
+      }
+      break;
+    }
+    carry = chunk.subarray(cut);
+    chunk = chunk.subarray(0, cut);
+    if (!isUtf8(chunk)) {
       const where = locateBadUtf8(chunk, linesSeen);
       problems.add(`${fileName}: line ${where.line} (byte ${read + where.offset + 1}) is not valid UTF-8. Save the file as UTF-8 and upload it again.`);
       badEncoding = true;
       break;
     }
+    for (let i = chunk.indexOf(10); i !== -1; i = chunk.indexOf(10, i + 1)) linesSeen++;
     read += chunk.length;
-    linesSeen += countNewlines(text);
     if (!parser) {
-      pending += text;
-      const eol = pending.indexOf("\n");
+      head.push(chunk);
+      const first = Buffer.concat(head);
+      const eol = first.indexOf(10);
       if (eol === -1 && read < total) continue;
-      parser = startParser(detectDelimiter(eol === -1 ? pending : pending.slice(0, eol)));
-      text = pending;
-      pending = "";
+      parser = startParser(detectDelimiter(first.toString("utf8", 0, eol === -1 ? first.length : eol)));
+      head = [];
+      chunk = first;
     }
-    await write(text);
+    await write(chunk);
     if (parseError) break;
     options.onProgress?.(read / Math.max(total, 1));
   }
   stream.destroy();
   if (!badEncoding) {
-    try {
-      decoder.decode();
-    } catch {
+    if (carry.length > 0) {
       problems.add(`${fileName}: the file ends inside a UTF-8 character (line ${linesSeen}). Save the file as UTF-8 and upload it again.`);
+      badEncoding = true;
     }
-    if (!parser && pending !== "") parser = startParser(detectDelimiter(pending.split("\n")[0]));
-    if (pending !== "") await write(pending);
+    if (!parser && head.length > 0) {
+      const first = Buffer.concat(head);
+      parser = startParser(detectDelimiter(first.toString("utf8").split("\n")[0]));
+      await write(first);
+    }
     const finished = parser as ReturnType<typeof csvParser> | null;
     if (finished) {
       await new Promise<void>((resolve) => {
