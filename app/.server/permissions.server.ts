@@ -44,7 +44,7 @@ export const STUDY_PERMISSIONS = {
 export type StudyAction = keyof typeof STUDY_PERMISSIONS;
 
 /** What only a global administrator may do. */
-export const ADMIN_ACTIONS = ["studies.manage", "people.manage", "audit.read", "apiClients.manage"] as const;
+export const ADMIN_ACTIONS = ["studies.manage", "people.manage", "audit.read", "apiClients.manage", "outbox.read"] as const;
 export type AdminAction = (typeof ADMIN_ACTIONS)[number];
 
 const ACTION_LABELS: Record<StudyAction | AdminAction, string> = {
@@ -69,6 +69,7 @@ const ACTION_LABELS: Record<StudyAction | AdminAction, string> = {
   "people.manage": "manage people and their study roles",
   "audit.read": "read the audit trail",
   "apiClients.manage": "manage API clients",
+  "outbox.read": "read the e-mail outbox",
 };
 
 export function roleMay(role: StudyRole | null, action: StudyAction): boolean {
@@ -120,9 +121,22 @@ export async function requireStudyPermission(
   signedIn?: CurrentUser,
 ): Promise<StudyAccess> {
   const user = signedIn ?? (await requireUser(request));
-  const role = await studyRoleOf(user.id, studyId);
+  return { user, ...(await requirePersonStudyPermission(user, studyId, action)) };
+}
+
+/**
+ * The study permission check for a person known other than by a browser session (an API
+ * token acts for its person): the same rule, from the same table, never more. Throws a 403
+ * naming the needed role.
+ */
+export async function requirePersonStudyPermission(
+  person: { id: string },
+  studyId: string,
+  action: StudyAction,
+): Promise<{ role: StudyRole | null; allowed: Set<StudyAction> }> {
+  const role = await studyRoleOf(person.id, studyId);
   if (!roleMay(role, action)) forbidden(action, neededRoles(action));
-  return { user, role, allowed: allowedActions(role) };
+  return { role, allowed: allowedActions(role) };
 }
 
 export async function requireAdmin(request: Request, action: AdminAction): Promise<CurrentUser> {
