@@ -33,6 +33,7 @@ export default [
       route("studies", "routes/admin.studies.tsx"),
       route("people", "routes/admin.people.tsx"),
       route("audit", "routes/admin.audit.tsx"),
+      route("outbox", "routes/admin.outbox.tsx"),
     ]),
   ]),
   route("*", "routes/not-found.tsx"),

@@ -5,11 +5,13 @@
  */
 import { mkdirSync } from "node:fs";
 import path from "node:path";
+import { startOidcFake } from "../idp-fake/oidc/launch";
 import { startSamlIdp } from "../idp-fake/saml/launch";
 import { startAppServer } from "./lib/app-server";
 
 const APP_PORT = Number(process.env.PORT ?? 5180);
 const IDP_PORT = Number(process.env.SAML_IDP_PORT ?? 7000);
+const OIDC_PORT = Number(process.env.OIDC_FAKE_PORT ?? 7100);
 const APP_URL = process.env.APP_URL ?? `http://localhost:${APP_PORT}`;
 const DATA_DIR = path.resolve(process.env.DATA_DIR ?? "data");
 const SP_ISSUER = process.env.SAML_SP_ISSUER ?? "urn:plumbline:sp";
@@ -25,6 +27,7 @@ const idp = await startSamlIdp({
   issuer: IDP_ISSUER,
   stateDir: path.join(DATA_DIR, "idp"),
 });
+const oidc = await startOidcFake({ port: OIDC_PORT, stateDir: path.join(DATA_DIR, "oidc"), appUrl: APP_URL });
 
 const env: Record<string, string> = {
   APP_URL,
@@ -35,6 +38,9 @@ const env: Record<string, string> = {
   SAML_IDP_ISSUER: IDP_ISSUER,
   SAML_IDP_CERT_FILE: idp.certFile,
   SAML_SP_ISSUER: SP_ISSUER,
+  OIDC_ISSUER: oidc.issuerUrl,
+  OIDC_CLIENT_ID: oidc.clientId,
+  OIDC_CLIENT_SECRET: oidc.clientSecret,
 };
 Object.assign(process.env, env);
 
@@ -50,14 +56,16 @@ Plumbline is running at ${APP_URL}
   Demo study: ${outcome.seeded ? "seeded" : `kept as it was (${outcome.reason})`}
   Database:   ${env.DATABASE_URL}
   Sign-in:    the fake identity provider at ${idp.baseUrl} lets you choose a demo person:
-${people.map((p) => `    ${p.displayName.padEnd(18)} ${(p.studyRole ?? "administrator").padEnd(16)} ${p.email}`).join("\n")}
+${people.map((p) => `    ${p.displayName.padEnd(18)} ${(p.studyRole ?? (p.groups.includes("plumbline-admins") ? "administrator" : "no study role")).padEnd(16)} ${p.email}${p.signIn === "oidc" ? "  (Sponsor sign-in)" : ""}`).join("\n")}
+  Sponsors:   "Sponsor sign-in" goes to the fake OpenID Connect provider at ${oidc.issuerUrl}; the
+              study is shared with Quillmoor Therapeutics, not with Harrowgate Biologics.
 Press Ctrl-C to stop.`);
 
 let stopping = false;
 async function stop(): Promise<void> {
   if (stopping) return;
   stopping = true;
-  await Promise.allSettled([app.stop(), idp.stop()]);
+  await Promise.allSettled([app.stop(), idp.stop(), oidc.stop()]);
   process.exit(0);
 }
 process.on("SIGINT", () => void stop());

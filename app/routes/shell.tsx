@@ -36,6 +36,9 @@ export default function Shell({ loaderData }: Route.ComponentProps) {
                 <NavLink to="/admin/audit" className={topLink}>
                   Audit trail
                 </NavLink>
+                <NavLink to="/admin/outbox" className={topLink}>
+                  E-mail outbox
+                </NavLink>
               </>
             ) : null}
           </nav>

@@ -42,6 +42,7 @@ const MATRIX: { file: string; path: string; expect: Outcome[]; resource?: true }
   { file: "admin.studies.tsx", path: "/admin/studies", expect: ["in", 200, 403, 403, 403, 403] },
   { file: "admin.people.tsx", path: "/admin/people", expect: ["in", 200, 403, 403, 403, 403] },
   { file: "admin.audit.tsx", path: "/admin/audit", expect: ["in", 200, 403, 403, 403, 403] },
+  { file: "admin.outbox.tsx", path: "/admin/outbox", expect: ["in", 200, 403, 403, 403, 403] },
   { file: "sign-in.tsx", path: "/sign-in", expect: [200, "home", "home", "home", "home", "home"] },
   { file: "healthz.ts", path: "/healthz", expect: [200, 200, 200, 200, 200, 200] },
   { file: "not-found.tsx", path: "/no/such/page", expect: [404, 404, 404, 404, 404, 404] },

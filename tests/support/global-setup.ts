@@ -8,11 +8,14 @@ import os from "node:os";
 import path from "node:path";
 import type { TestProject } from "vitest/node";
 import { startSamlIdp } from "../../idp-fake/saml/launch";
+import { startOidcFake } from "../../idp-fake/oidc/launch";
 import { freePort, startAppServer } from "../../scripts/lib/app-server";
 
 export interface Stack {
   appUrl: string;
   idpUrl: string;
+  /** The fake sponsor OpenID Connect provider (OIDC_ISSUER). */
+  oidcUrl: string;
   dbFile: string;
   dataDir: string;
   sessionSecret: string;
@@ -31,6 +34,7 @@ export default async function setup(project: TestProject): Promise<() => Promise
   }
   const dir = mkdtempSync(path.join(os.tmpdir(), "plumbline-test-"));
   const [appPort, idpPort] = [await freePort(), await freePort()];
+  const oidcPort = await freePort();
   const appUrl = `http://127.0.0.1:${appPort}`;
   const idp = await startSamlIdp({
     port: idpPort,
@@ -40,6 +44,7 @@ export default async function setup(project: TestProject): Promise<() => Promise
     issuer: "urn:plumbline:idp-fake",
     stateDir: path.join(dir, "idp"),
   });
+  const oidc = await startOidcFake({ port: oidcPort, stateDir: path.join(dir, "oidc"), appUrl });
   const dbFile = path.join(dir, "plumbline.db");
   const sessionSecret = "test-session-secret-0123456789abcdef";
   const env: Record<string, string> = {
@@ -52,14 +57,17 @@ export default async function setup(project: TestProject): Promise<() => Promise
     SAML_IDP_ISSUER: "urn:plumbline:idp-fake",
     SAML_IDP_CERT_FILE: idp.certFile,
     SAML_SP_ISSUER: "urn:plumbline:sp",
+    OIDC_ISSUER: oidc.issuerUrl,
+    OIDC_CLIENT_ID: oidc.clientId,
+    OIDC_CLIENT_SECRET: oidc.clientSecret,
   };
   Object.assign(process.env, env);
   const { seedDemoStudy } = await import("../../app/.server/demo/seed.server");
   await seedDemoStudy();
   const app = await startAppServer({ port: appPort, env });
-  project.provide("stack", { appUrl, idpUrl: idp.baseUrl, dbFile, dataDir: env.DATA_DIR, sessionSecret });
+  project.provide("stack", { appUrl, idpUrl: idp.baseUrl, oidcUrl: oidc.issuerUrl, dbFile, dataDir: env.DATA_DIR, sessionSecret });
   return async () => {
-    await Promise.allSettled([app.stop(), idp.stop()]);
+    await Promise.allSettled([app.stop(), idp.stop(), oidc.stop()]);
     rmSync(dir, { recursive: true, force: true });
   };
 }
