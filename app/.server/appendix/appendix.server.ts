@@ -1,0 +1,130 @@
+/**
+ * Exporting the Word appendix: the content model built from signed results, rendered to .docx,
+ * stored content-addressed under DATA_DIR (appendices/<aa>/<sha256>.docx) with its SHA-256 in
+ * the `appendices` table and an `appendix.export` audit event in the same transaction. The
+ * same signed reruns and narrative give the same bytes, so a second export has the same hash.
+ */
+import { createHash } from "node:crypto";
+import { existsSync } from "node:fs";
+import { mkdir, readFile, rename, writeFile } from "node:fs/promises";
+import path from "node:path";
+import { and, desc, eq } from "drizzle-orm";
+import { data } from "react-router";
+import { appendAudit, canonicalJson } from "../audit.server";
+import { config } from "../config.server";
+import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
+import { notifyAppendixExported } from "../mail/notifications.server";
+import type { PersonActor } from "../people.server";
+import { buildAppendixContent, type AppendixScope } from "./build-content.server";
+import { renderDocx } from "./docx.server";
+
+export type StoredAppendix = typeof t.appendices.$inferSelect;
+
+export const DOCX_TYPE = "application/vnd.openxmlformats-officedocument.wordprocessingml.document";
+
+export function appendixRelativePath(sha256: string): string {
+  return path.join("appendices", sha256.slice(0, 2), `${sha256}.docx`);
+}
+
+async function storeBytes(bytes: Buffer, sha256: string): Promise<string> {
+  const relative = appendixRelativePath(sha256);
+  const target = path.resolve(config.DATA_DIR, relative);
+  if (existsSync(target)) return relative;
+  await mkdir(path.dirname(target), { recursive: true });
+  const work = `${target}.${process.pid}.part`;
+  await writeFile(work, bytes);
+  await rename(work, target);
+  return relative;
+}
+
+/** Builds and renders the appendix without storing it (the same bytes an export stores). */
+export async function renderAppendix(studyId: string, scope: AppendixScope) {
+  const content = await buildAppendixContent(studyId, scope);
+  const bytes = await renderDocx(content);
+  return { content, bytes, sha256: createHash("sha256").update(bytes).digest("hex") };
+}
+
+/** Exports, stores and records the appendix; returns the stored row. */
+export async function exportAppendix(actor: PersonActor, studyId: string, scope: AppendixScope): Promise<StoredAppendix> {
+  const { content, bytes, sha256 } = await renderAppendix(studyId, scope);
+  const storedPath = await storeBytes(bytes, sha256);
+  return writeTransaction(async (tx) => {
+    const row: StoredAppendix = {
+      id: newId(),
+      studyId,
+      planVersionId: content.planVersionId,
+      rerunIdsJson: canonicalJson(content.rerunIds),
+      sha256,
+      storedPath,
+      byteSize: bytes.length,
+      exportedBy: actor.id,
+      exportedAt: isoNow(),
+    };
+    await tx.insert(t.appendices).values(row);
+    await appendAudit(
+      {
+        actor,
+        action: "appendix.export",
+        entityType: "appendix",
+        entityId: row.id,
+        studyId,
+        after: { sha256, byteSize: row.byteSize, planVersionId: row.planVersionId, rerunIds: content.rerunIds, scope: content.scope.kind },
+      },
+      tx,
+    );
+    await notifyAppendixExported(tx, { studyId, appendixId: row.id, rerunIds: content.rerunIds });
+    return row;
+  });
+}
+
+export interface AppendixListing extends StoredAppendix {
+  rerunIds: string[];
+  exportedByName: string | null;
+}
+
+export async function listAppendices(studyId: string): Promise<AppendixListing[]> {
+  const rows = await db
+    .select({ a: t.appendices, who: t.people.displayName })
+    .from(t.appendices)
+    .leftJoin(t.people, eq(t.people.id, t.appendices.exportedBy))
+    .where(eq(t.appendices.studyId, studyId))
+    .orderBy(desc(t.appendices.exportedAt));
+  return rows.map(({ a, who }) => ({ ...a, rerunIds: JSON.parse(a.rerunIdsJson) as string[], exportedByName: who }));
+}
+
+const notFound = () => data({ message: "There is no such appendix in this study. Export one from the appendix page first." }, { status: 404 });
+
+/** A stored export by id, or the newest export that contains the given rerun. */
+export async function findAppendix(studyId: string, by: { id: string } | { rerunId: string }): Promise<StoredAppendix> {
+  if ("id" in by) {
+    const [row] = await db.select().from(t.appendices).where(and(eq(t.appendices.id, by.id), eq(t.appendices.studyId, studyId))).limit(1);
+    if (!row) throw notFound();
+    return row;
+  }
+  const all = await listAppendices(studyId);
+  const hit = all.find((a) => a.rerunIds.includes(by.rerunId));
+  if (!hit) throw notFound();
+  return hit;
+}
+
+/** True when every rerun of the appendix is published (signed), so sponsor readers may read it. */
+export async function appendixIsPublished(a: StoredAppendix): Promise<boolean> {
+  const ids = JSON.parse(a.rerunIdsJson) as string[];
+  for (const id of ids) {
+    const [r] = await db.select({ publishedAt: t.reruns.publishedAt, studyId: t.reruns.studyId }).from(t.reruns).where(eq(t.reruns.id, id)).limit(1);
+    if (!r || !r.publishedAt || r.studyId !== a.studyId) return false;
+  }
+  return ids.length > 0;
+}
+
+/** The stored bytes, checked against the recorded SHA-256. */
+export async function appendixBytes(a: StoredAppendix): Promise<Buffer> {
+  const bytes = await readFile(path.resolve(config.DATA_DIR, a.storedPath));
+  const sha = createHash("sha256").update(bytes).digest("hex");
+  if (sha !== a.sha256) throw new Error(`The stored appendix ${a.id} no longer matches its recorded SHA-256; restore it from backup or export it again.`);
+  return bytes;
+}
+
+export function appendixFileName(a: StoredAppendix, studyCode: string): string {
+  return `${studyCode}-appendix-${a.exportedAt.slice(0, 10)}-${a.sha256.slice(0, 8)}.docx`;
+}

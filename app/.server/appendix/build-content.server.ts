@@ -1,0 +1,426 @@
+/**
+ * Builds the appendix content model from signed results: one signed primary rerun, or every
+ * signed primary rerun of a plan version, each with its plan, dataset provenance, tables,
+ * checks, figures, deviation log, signatures and sensitivity analyses, plus the medical
+ * writer's current narrative for each section. Nothing here can be edited in the appendix.
+ */
+import { and, asc, eq, isNotNull } from "drizzle-orm";
+import { data } from "react-router";
+import { BEYOND, figureSpec, forestSpec, type FigureData, type ForestRow } from "~/components/figures/specs";
+import { CHECK_BY_KEY, type CheckOutcome, type FigureKey } from "~/engine/checks";
+import { fmt, fmtCi, fmtP, utc } from "~/components/format";
+import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
+import { loadLockedTable, type ColumnMeta } from "../datasets/catalog.server";
+import { db, t } from "../db/index.server";
+import { getPlannedModel, getPlanVersion } from "../plans/plans.server";
+import { figureData, figureTerms, FigureUnavailableError } from "../reruns/figure-data.server";
+import { findingsOf, deviationLog, signaturesOf } from "../reruns/findings.server";
+import { contrastsOf, reportedContrasts } from "../reruns/rerun-view.server";
+import { getRerun, sensitivityReruns, type RerunDocument } from "../reruns/reruns.server";
+import { rerunTable } from "../reruns/what-if.server";
+import { getStudyOr404 } from "../studies.server";
+import { NARRATIVE_SECTIONS, SECTION_TITLES, type AppendixContent, type AppendixSection, type Block, type NarrativeSection } from "./content";
+import { methodsProse } from "./methods";
+import { currentNarratives, type Narrative } from "./narratives.server";
+
+export type AppendixScope = { kind: "rerun"; rerunId: string } | { kind: "plan_version"; planVersionId: string };
+
+/** Figure width and plot height in CSS pixels: fits the printed text width at 2× resolution. */
+const FIGURE_SIZE = { width: 560, height: 230 };
+
+/**
+ * Subject ids stay out of the appendix: it is read by sponsor readers, who see influential
+ * subjects by count and rank only. Removes "(subject X)", "(row N)" and "the most extreme is …".
+ */
+export function withoutSubjects(text: string): string {
+  return text
+    .replace(/;?\s*the most extreme is (subject \S+?|row \d+)(?=\.|$)/g, "")
+    .replace(/\s*\((subject [^)]*|row \d+)\)/g, "")
+    .trim();
+}
+
+const OUTCOME_WORDS = { within: "Within plan", finding: "Finding", not_computed: "Not computed" } as const;
+
+/** The outcome of a check in words, with the count of subjects beyond the threshold where there is one. */
+export function outcomeInWords(c: CheckOutcome, n: number): string {
+  if (c.outcome === "not_computed") return `Not computed. ${withoutSubjects(c.summary).replace(/^Not computed:?\s*/i, "")}`.trim();
+  const count = c.flagged?.length ?? 0;
+  if (c.flagged) return c.outcome === "finding" ? `Finding: ${count} of ${n} subjects beyond the threshold` : "Within plan: no subject beyond the threshold";
+  return `${OUTCOME_WORDS[c.outcome]}: ${withoutSubjects(c.summary).replace(/\.$/, "").replace(/^The test/, "the test")}`;
+}
+
+/** What each figure shows, for its caption and its alt text. */
+const FIGURE_WORDS: Record<FigureKey, { caption: string; shows: string; healthy: string; checks: string[] }> = {
+  residuals_fitted: { caption: "Residuals against fitted values", shows: "a scatter plot of each subject's residual against the fitted value, with a loess smoother and a dashed line at zero", healthy: "an even band around zero with a flat smoother, no funnel and no curve", checks: ["breusch_pagan"] },
+  qq: { caption: "Normal Q-Q plot of the studentized residuals", shows: "the sorted studentized residuals plotted against normal quantiles, with a reference line through the quartiles", healthy: "points close to the line, without an S-shape or bent tails", checks: ["shapiro_wilk"] },
+  influence: { caption: "Cook's distance by subject", shows: "each subject's Cook's distance in data order, with the planned threshold as a dashed line", healthy: "no subject far above the threshold line", checks: ["cooks_distance", "dfbetas_treatment", "dffits"] },
+  leverage_residual: { caption: "Deletion residuals against leverage", shows: "each subject's deletion residual against its leverage, with the planned thresholds as dashed lines", healthy: "no subject beyond both thresholds at once", checks: ["leverage", "deletion_residual"] },
+  spread_by_arm: { caption: "Residual spread by treatment arm", shows: "box plots of the residuals per arm with the subjects as points", healthy: "boxes of similar height centred on zero", checks: ["brown_forsythe"] },
+  residuals_covariate: { caption: "Residuals against a covariate", shows: "each subject's residual against the covariate", healthy: "an even band around zero", checks: ["gvif"] },
+  partial_residuals: { caption: "Partial residuals", shows: "the component-plus-residual values against the covariate, with the fitted linear effect and a loess smoother", healthy: "the smoother following the straight line of the fitted effect", checks: ["reset"] },
+};
+
+interface RerunPart {
+  rerunId: string;
+  modelKey: string;
+  modelTitle: string;
+  doc: RerunDocument;
+  dataset: { name: string; version: number; sha256: string; versionId: string };
+  resultSha256: string;
+  signedAt: string;
+  signatures: { signerName: string; meaning: string; signedAt: string; authenticatedAt: string }[];
+  findings: Awaited<ReturnType<typeof findingsOf>>;
+  otherDeviations: Awaited<ReturnType<typeof deviationLog>>;
+  sensitivity: { label: string; prespecified: boolean; doc: RerunDocument }[];
+  planned: Awaited<ReturnType<typeof getPlannedModel>>;
+  labels: Record<string, string | null>;
+  table: { columns: Record<string, string[]>; rowNumbers: number[] };
+}
+
+/** The signed primary reruns of the scope, in plan order; 404 or 409 with a sentence otherwise. */
+export async function signedRerunIds(studyId: string, scope: AppendixScope): Promise<{ planVersionId: string; rerunIds: string[] }> {
+  if (scope.kind === "rerun") {
+    const r = await getRerun(studyId, scope.rerunId);
+    if (r.rerun.kind !== "primary") throw data({ message: "Choose the primary rerun: its sensitivity analyses are part of its appendix." }, { status: 409 });
+    if (!r.rerun.signedAt) throw data({ message: "This rerun is not signed yet. Only signed reruns go into the appendix." }, { status: 409 });
+    return { planVersionId: r.rerun.planVersionId, rerunIds: [r.rerun.id] };
+  }
+  await getPlanVersion(studyId, scope.planVersionId);
+  const rows = await db
+    .select({ id: t.reruns.id })
+    .from(t.reruns)
+    .innerJoin(t.plannedModels, eq(t.plannedModels.id, t.reruns.plannedModelId))
+    .where(and(eq(t.reruns.studyId, studyId), eq(t.reruns.planVersionId, scope.planVersionId), eq(t.reruns.kind, "primary"), isNotNull(t.reruns.signedAt)))
+    .orderBy(asc(t.plannedModels.position), asc(t.reruns.signedAt));
+  if (rows.length === 0) throw data({ message: "This plan version has no signed rerun yet. Only signed reruns go into the appendix." }, { status: 409 });
+  return { planVersionId: scope.planVersionId, rerunIds: rows.map((r) => r.id) };
+}
+
+async function loadPart(studyId: string, rerunId: string): Promise<RerunPart> {
+  const r = await getRerun(studyId, rerunId);
+  if (!r.doc || !r.rerun.signedAt || !r.rerun.resultSha256) throw data({ message: "Only signed reruns go into the appendix." }, { status: 409 });
+  const [signatures, findings, log, children, planned, locked] = await Promise.all([
+    signaturesOf(rerunId),
+    findingsOf(rerunId),
+    deviationLog(studyId),
+    sensitivityReruns(rerunId),
+    getPlannedModel(r.rerun.plannedModelId),
+    loadLockedTable(r.dataset.versionId),
+  ]);
+  const labels = Object.fromEntries((locked.columns as ColumnMeta[]).map((c) => [c.name, c.label]));
+  return {
+    rerunId,
+    modelKey: r.model.key,
+    modelTitle: r.model.title,
+    doc: r.doc,
+    dataset: r.dataset,
+    resultSha256: r.rerun.resultSha256,
+    signedAt: r.rerun.signedAt,
+    signatures,
+    findings,
+    otherDeviations: log.filter((d) => d.rerun?.id === rerunId && !d.findingId),
+    sensitivity: children
+      .filter((c) => c.status === "completed" && c.resultJson && c.publishedAt)
+      .map((c) => ({ label: c.label ?? "Sensitivity analysis", prespecified: c.prespecified, doc: JSON.parse(c.resultJson!) as RerunDocument })),
+    planned,
+    labels,
+    table: rerunTable(r.doc, locked.table),
+  };
+}
+
+function counter() {
+  let table = 0;
+  let figure = 0;
+  return { table: () => ++table, figure: () => ++figure };
+}
+
+function narrativeBlock(section: NarrativeSection, n: Narrative | undefined): Block[] {
+  if (!n || !n.body.trim()) return [];
+  const paragraphs = n.body.split(/\n\s*\n/).map((p) => p.replace(/\s+/g, " ").trim()).filter(Boolean);
+  return [{ kind: "narrative", section, paragraphs, version: n.version, author: n.authorName, at: n.createdAt }];
+}
+
+const modelHeading = (p: RerunPart, many: boolean): Block[] => (many ? [{ kind: "heading", text: `${p.modelTitle} (${p.modelKey})` }] : []);
+
+function figureBlocks(p: RerunPart, next: ReturnType<typeof counter>): Block[] {
+  const blocks: Block[] = [];
+  const { continuous } = figureTerms(p.doc);
+  const covariates = continuous.filter((c) => c !== p.doc.result.spec.treatment);
+  const wanted: { figure: FigureKey; term?: string }[] = [
+    { figure: "residuals_fitted" },
+    { figure: "qq" },
+    { figure: "influence" },
+    { figure: "leverage_residual" },
+    ...(p.doc.result.spec.treatment ? [{ figure: "spread_by_arm" as const }] : []),
+    ...covariates.map((term) => ({ figure: "partial_residuals" as const, term })),
+  ];
+  for (const w of wanted) {
+    let d: FigureData;
+    try {
+      d = figureData(p.doc, w.figure, { term: w.term, withSubjectIds: false, table: p.table });
+    } catch (e) {
+      if (!(e instanceof FigureUnavailableError)) throw e;
+      blocks.push({ kind: "paragraph", text: `${FIGURE_WORDS[w.figure].caption}${w.term ? ` for ${w.term}` : ""}: not drawn, because ${e.message}.` });
+      continue;
+    }
+    const words = FIGURE_WORDS[w.figure];
+    const beyond = d.rows.filter((row) => row.status === BEYOND).length;
+    const related = p.doc.checks.filter((c) => words.checks.includes(c.key));
+    const checkWords = related.map((c) => `${c.label}: ${outcomeInWords(c, p.doc.result.n).toLowerCase()}`).join("; ");
+    const caption = `${words.caption}${w.term ? ` for ${p.labels[w.term] ? `${p.labels[w.term]} (${w.term})` : w.term}` : ""}, ${p.modelTitle}`;
+    const alt =
+      `${caption}: ${words.shows}, for ${p.doc.result.n} subjects. A healthy picture shows ${words.healthy}. ` +
+      `${beyond} subject${beyond === 1 ? " is" : "s are"} drawn as open triangles for being beyond a planned threshold.` +
+      (checkWords ? ` Related checks: ${checkWords}.` : "");
+    blocks.push({ kind: "figure", key: `${w.figure}${w.term ? `:${w.term}` : ""}:${p.rerunId}`, number: next.figure(), caption, alt, spec: figureSpec(d, { ...FIGURE_SIZE, forPrint: true }) });
+  }
+  return blocks;
+}
+
+/** Builds the whole appendix. `narratives` defaults to the current stored version of each section. */
+export async function buildAppendixContent(studyId: string, scope: AppendixScope, narratives?: Map<NarrativeSection, Narrative>): Promise<AppendixContent> {
+  const study = await getStudyOr404(studyId);
+  const { planVersionId, rerunIds } = await signedRerunIds(study.id, scope);
+  const plan = await getPlanVersion(study.id, planVersionId);
+  const parts: RerunPart[] = [];
+  for (const id of rerunIds) parts.push(await loadPart(study.id, id));
+  const notes = narratives ?? (await currentNarratives(study.id, planVersionId));
+  const many = parts.length > 1;
+  const next = counter();
+  const issuedAt = parts.flatMap((p) => p.signatures.map((s) => s.signedAt)).sort().at(-1) ?? parts[0].signedAt;
+  const caution = parts[0].doc.caution;
+  const pv = plan.version;
+  const planLine = `${pv.title}, version ${pv.version}${pv.approvedAt ? `, approved ${utc(pv.approvedAt)}${plan.approverName ? ` by ${plan.approverName}` : ""}` : ""}`;
+
+  const datasets = [...new Map(parts.map((p) => [p.dataset.versionId, p.dataset])).values()];
+  const facts: { label: string; value: string }[] = [
+    { label: "Study", value: `${study.code}: ${study.title}` },
+    { label: "Sponsor", value: study.sponsor },
+    { label: "Analysis plan", value: planLine },
+    ...(pv.sapName ? [{ label: "Statistical analysis plan", value: `${pv.sapName}${pv.sapVersion ? `, version ${pv.sapVersion}` : ""}${pv.sapDate ? `, ${pv.sapDate}` : ""}` }] : []),
+    ...datasets.flatMap((d) => [
+      { label: "Dataset", value: `${d.name}, locked version ${d.version}` },
+      { label: `SHA-256 of ${d.name} v${d.version}`, value: d.sha256 },
+    ]),
+    { label: "Statistics engine", value: `Plumbline engine ${[...new Set(parts.map((p) => p.doc.engineVersion))].join(", ")}` },
+    ...parts.map((p) => ({ label: `Result SHA-256, ${p.modelKey}`, value: p.resultSha256 })),
+    { label: "Date", value: `${utc(issuedAt)} (latest signature)` },
+    ...parts.flatMap((p) => p.signatures.map((s) => ({ label: many ? `Signed, ${p.modelKey}` : "Signed", value: `${s.signerName}, ${s.meaning.toLowerCase()}, ${utc(s.signedAt)}` }))),
+  ];
+
+  const sections: AppendixSection[] = [];
+  sections.push({ key: "caution", title: "Caution", blocks: [{ kind: "caution", text: caution }] });
+
+  sections.push({
+    key: "introduction",
+    title: SECTION_TITLES.introduction,
+    blocks: [
+      {
+        kind: "paragraph",
+        text:
+          `This appendix documents the rerun of ${many ? `${parts.length} planned models` : "the planned model"} of analysis plan version ${pv.version} on the locked data of study ${study.code}: ` +
+          "the statistical methods as planned, the results, the diagnostic checks the plan committed to, the diagnostic figures, the deviations from the plan with their assessments and signatures, and the sensitivity analyses. " +
+          "Every number comes from the signed results; the dataset and result hashes on the title page identify them.",
+      },
+      ...narrativeBlock("introduction", notes.get("introduction")),
+    ],
+  });
+
+  const methods: Block[] = [];
+  for (const p of parts) {
+    const prose = methodsProse({
+      title: p.planned.title,
+      datasetName: p.planned.datasetName,
+      population: p.planned.population,
+      spec: p.planned.spec,
+      checks: p.planned.checks,
+      sensitivity: p.planned.sensitivity,
+      labels: p.labels,
+      meansWeighting: p.doc.result.kind === "linear" ? p.doc.result.adjustedMeansWeighting : null,
+      sap: { name: pv.sapName, version: pv.sapVersion, date: pv.sapDate },
+    });
+    const rows = p.doc.rows;
+    methods.push(
+      ...modelHeading(p, many),
+      ...prose.paragraphs.map((text): Block => ({ kind: "paragraph", text })),
+      { kind: "bullets", items: prose.checks },
+      ...(prose.sensitivity.length ? [{ kind: "paragraph", text: "Sensitivity analyses pre-specified in the plan:" } as Block, { kind: "bullets", items: prose.sensitivity } as Block] : []),
+      {
+        kind: "paragraph",
+        text:
+          `Data provenance: ${p.dataset.name} locked version ${p.dataset.version} (SHA-256 ${p.dataset.sha256}). Of ${rows.inFile} records in the file, ${rows.outsidePopulation} were outside the analysis population, ` +
+          `${rows.excludedByOption} were excluded by the analysis options and ${rows.missingCells} had a missing value in a model term; ${rows.used} were analysed. ` +
+          `Computed by the Plumbline statistics engine ${p.doc.engineVersion}; result SHA-256 ${p.resultSha256}.`,
+      },
+    );
+  }
+  sections.push({ key: "methods", title: SECTION_TITLES.methods, blocks: [...methods, ...narrativeBlock("methods", notes.get("methods"))] });
+
+  const results: Block[] = [];
+  for (const p of parts) {
+    const r = p.doc.result;
+    const fitWords =
+      r.kind === "linear"
+        ? `${r.n} subjects analysed; residual degrees of freedom ${r.dfResidual}; residual standard deviation ${fmt(r.fit.sigma)}; R² ${fmt(r.fit.rSquared)} (adjusted ${fmt(r.fit.adjRSquared)}).`
+        : `${r.n} subjects analysed; residual degrees of freedom ${r.dfResidual}; ${r.method.description}.`;
+    results.push(...modelHeading(p, many), { kind: "paragraph", text: fitWords }, {
+      kind: "table",
+      key: `coefficients:${p.rerunId}`,
+      number: next.table(),
+      caption: `Estimated coefficients, ${p.modelTitle}`,
+      columns: [{ label: "Coefficient" }, { label: "Estimate", numeric: true }, { label: "SE", numeric: true }, { label: r.kind === "linear" ? "t" : "Statistic", numeric: true }, { label: "p", numeric: true }, { label: "95% CI", numeric: true }],
+      rows: r.coefficients.map((c) => [c.name, fmt(c.estimate), fmt(c.se), fmt(c.statistic, 2), fmtP(c.p), fmtCi(c.lower, c.upper)]),
+      note: r.kind === "linear" ? `Model-based standard errors; t on ${r.dfResidual} residual degrees of freedom.` : "Model-based standard errors, on the scale of the linear predictor.",
+    });
+    if (r.kind === "linear" && r.adjustedMeans) {
+      results.push({
+        kind: "table",
+        key: `adjusted-means:${p.rerunId}`,
+        number: next.table(),
+        caption: `Adjusted means of ${r.spec.response} by arm, ${p.modelTitle}`,
+        columns: [{ label: "Arm" }, { label: "Adjusted mean", numeric: true }, { label: "SE", numeric: true }, { label: "95% CI", numeric: true }],
+        rows: r.adjustedMeans.map((m) => [m.level, fmt(m.estimate), fmt(m.se), fmtCi(m.lower, m.upper)]),
+        note: `Covariates at their mean; categorical covariates weighted ${r.adjustedMeansWeighting === "proportional" ? "in proportion to their frequencies" : "equally"}.`,
+      });
+    }
+    const contrasts = contrastsOf(p.doc);
+    if (contrasts.length) {
+      results.push({
+        kind: "table",
+        key: `contrasts:${p.rerunId}`,
+        number: next.table(),
+        caption: `Treatment contrasts against the reference arm, ${p.modelTitle}`,
+        columns: [{ label: "Comparison" }, { label: "Difference", numeric: true }, { label: "SE", numeric: true }, { label: "95% CI", numeric: true }, { label: "p", numeric: true }],
+        rows: contrasts.map((c) => [c.label, fmt(c.estimate), fmt(c.se), fmtCi(c.lower, c.upper), fmtP(c.p)]),
+        note: r.kind === "linear" ? "Differences in adjusted means with model-based standard errors." : undefined,
+      });
+    }
+  }
+  sections.push({ key: "results", title: SECTION_TITLES.results, blocks: [...results, ...narrativeBlock("results", notes.get("results"))] });
+
+  const checks: Block[] = [];
+  for (const p of parts) {
+    checks.push(...modelHeading(p, many), {
+      kind: "table",
+      key: `checks:${p.rerunId}`,
+      number: next.table(),
+      caption: `Diagnostic checks of the plan and their outcome, ${p.modelTitle}`,
+      columns: [{ label: "Check" }, { label: "Statistic" }, { label: "Threshold" }, { label: "Outcome" }],
+      rows: p.doc.checks.map((c) => [c.label, withoutSubjects(c.statistic), c.threshold, outcomeInWords(c, p.doc.result.n)]),
+      note: "Subjects beyond a threshold are counted, not named. Thresholds as the plan states them (n subjects, p coefficients).",
+    });
+  }
+  sections.push({ key: "checks", title: SECTION_TITLES.checks, blocks: [...checks, ...narrativeBlock("checks", notes.get("checks"))] });
+
+  const figures: Block[] = [];
+  for (const p of parts) figures.push(...modelHeading(p, many), ...figureBlocks(p, next));
+  sections.push({ key: "figures", title: SECTION_TITLES.figures, blocks: [...figures, ...narrativeBlock("figures", notes.get("figures"))] });
+
+  const deviations: Block[] = [];
+  for (const p of parts) {
+    const rows = [
+      ...p.findings.map((f) => [
+        CHECK_BY_KEY.get(f.checkKey as never)?.label ?? (f.kind === "not_estimable" ? "Estimability" : f.checkKey),
+        withoutSubjects(f.summary),
+        f.assessment ? CATEGORIES[f.assessment.category] : "Not assessed",
+        f.assessment ? IMPACTS[f.assessment.impact] : "—",
+        f.assessment ? (ACTIONS[f.assessment.action as keyof typeof ACTIONS] ?? f.assessment.action) : "—",
+        f.assessment?.rationale ?? "—",
+        f.assessment ? `${f.assessment.recordedByName ?? "unknown"}, ${utc(f.assessment.recordedAt)}` : "—",
+      ]),
+      ...p.otherDeviations.map((d) => [
+        "Recorded deviation",
+        "No check produced this deviation.",
+        CATEGORIES[d.category],
+        IMPACTS[d.impact],
+        ACTIONS[d.action as keyof typeof ACTIONS] ?? d.action,
+        d.rationale,
+        `${d.recordedByName ?? "unknown"}, ${utc(d.recordedAt)}`,
+      ]),
+    ];
+    deviations.push(...modelHeading(p, many));
+    if (rows.length === 0) deviations.push({ kind: "paragraph", text: "No deviation from the plan was recorded for this rerun." });
+    else
+      deviations.push({
+        kind: "table",
+        key: `deviations:${p.rerunId}`,
+        number: next.table(),
+        caption: `Deviation log with assessments, ${p.modelTitle}`,
+        columns: [{ label: "Check" }, { label: "Finding" }, { label: "Category" }, { label: "Impact on the treatment conclusion" }, { label: "Action taken" }, { label: "Rationale" }, { label: "Assessed by" }],
+        rows,
+      });
+    deviations.push({
+      kind: "table",
+      key: `signatures:${p.rerunId}`,
+      number: next.table(),
+      caption: `Electronic signatures, ${p.modelTitle}`,
+      columns: [{ label: "Signer" }, { label: "Meaning" }, { label: "Signed" }, { label: "Authenticated" }],
+      rows: p.signatures.map((s) => [s.signerName, s.meaning, utc(s.signedAt), utc(s.authenticatedAt)]),
+      note: "Signing publishes the rerun and its sensitivity analyses to the study's sponsor readers.",
+    });
+  }
+  sections.push({ key: "deviations", title: SECTION_TITLES.deviations, blocks: [...deviations, ...narrativeBlock("deviations", notes.get("deviations"))] });
+
+  const sensitivity: Block[] = [];
+  for (const p of parts) {
+    sensitivity.push(...modelHeading(p, many));
+    const analyses = [{ label: "Primary analysis as planned", prespecified: true, primary: true, doc: p.doc }, ...p.sensitivity.map((s) => ({ ...s, primary: false }))];
+    if (analyses.length === 1) {
+      sensitivity.push({ kind: "paragraph", text: "No sensitivity analysis was run for this rerun." });
+      continue;
+    }
+    const labels = reportedContrasts(p.doc).map((c) => c.label);
+    const rows: string[][] = [];
+    for (const label of labels) {
+      for (const a of analyses) {
+        const c = reportedContrasts(a.doc).find((x) => x.label === label);
+        if (c) rows.push([a.label, a.primary ? "Primary" : a.prespecified ? "Pre-specified" : "Not pre-specified", label, fmt(c.estimate), fmtCi(c.lower, c.upper), fmtP(c.p)]);
+      }
+    }
+    sensitivity.push({
+      kind: "table",
+      key: `sensitivity:${p.rerunId}`,
+      number: next.table(),
+      caption: `Treatment contrasts across the analyses, ${p.modelTitle}`,
+      columns: [{ label: "Analysis" }, { label: "Kind" }, { label: "Comparison" }, { label: "Difference", numeric: true }, { label: "95% CI", numeric: true }, { label: "p", numeric: true }],
+      rows,
+      note: "Robust-error analyses report HC3 intervals; the others model-based intervals.",
+    });
+    for (const label of labels) {
+      const forest: ForestRow[] = analyses.flatMap((a) => {
+        const c = reportedContrasts(a.doc).find((x) => x.label === label);
+        return c ? [{ label: a.label, estimate: c.estimate, lower: c.lower, upper: c.upper, prespecified: a.prespecified, primary: a.primary }] : [];
+      });
+      const caption = `Treatment contrast ${label} across the analyses, ${p.modelTitle}`;
+      const primary = forest[0];
+      sensitivity.push({
+        kind: "figure",
+        key: `forest:${label}:${p.rerunId}`,
+        number: next.figure(),
+        caption,
+        alt:
+          `${caption}: the difference in adjusted means with its 95% confidence interval for each of ${forest.length} analyses, primary first, with a dashed line at no difference. ` +
+          `Primary ${fmt(primary.estimate, 2)} (${fmtCi(primary.lower, primary.upper, 2)}); ` +
+          forest.slice(1).map((f) => `${f.label} ${fmt(f.estimate, 2)} (${fmtCi(f.lower, f.upper, 2)})`).join("; ") +
+          ". Healthy: every interval close to the primary one and on the same side of zero.",
+        spec: forestSpec(forest, label, { width: FIGURE_SIZE.width, forPrint: true }),
+      });
+    }
+  }
+  sections.push({ key: "sensitivity", title: SECTION_TITLES.sensitivity, blocks: [...sensitivity, ...narrativeBlock("sensitivity", notes.get("sensitivity"))] });
+
+  return {
+    scope,
+    studyId: study.id,
+    planVersionId,
+    rerunIds,
+    title: `Statistical appendix: ${pv.title}, version ${pv.version}`,
+    runningHeader: `${study.code} · Statistical appendix · Plan version ${pv.version}`,
+    issuedAt,
+    caution,
+    titlePage: { studyCode: study.code, studyTitle: study.title, sponsor: study.sponsor, planVersion: planLine, facts },
+    sections,
+  };
+}
+
+export { NARRATIVE_SECTIONS };

@@ -1,0 +1,103 @@
+/**
+ * The methods section in plain statistical prose, written from the planned model as the
+ * approved plan version states it (and the rerun's own method description). Pure.
+ */
+import { CHECK_BY_KEY, type PlannedCheck } from "~/engine/checks";
+import { CANONICAL_LINK, type ModelSpec } from "~/engine/model-spec";
+import { SENSITIVITY_LABELS, type PlannedSensitivity, type Population } from "../plans/planned-model";
+
+export interface MethodsInput {
+  title: string;
+  datasetName: string;
+  population: Population;
+  spec: ModelSpec;
+  checks: PlannedCheck[];
+  sensitivity: PlannedSensitivity[];
+  /** Column labels of the locked dataset, by column name. */
+  labels: Record<string, string | null>;
+  meansWeighting: "equal" | "proportional" | null;
+  sap: { name: string | null; version: string | null; date: string | null };
+}
+
+const thresholdWords = (c: PlannedCheck): string => {
+  const def = CHECK_BY_KEY.get(c.key);
+  if (!def) return "";
+  const k = String(Number(c.threshold.toPrecision(4)));
+  return def.rule.replace(/\bk\b/g, k);
+};
+
+function named(col: string, labels: Record<string, string | null>): string {
+  const label = labels[col];
+  return label ? `${label} (${col})` : col;
+}
+
+function list(items: string[]): string {
+  if (items.length <= 1) return items.join("");
+  return `${items.slice(0, -1).join(", ")} and ${items[items.length - 1]}`;
+}
+
+/** Paragraphs and bullet lists of the methods section, in reading order. */
+export function methodsProse(m: MethodsInput): { paragraphs: string[]; checks: string[]; sensitivity: string[] } {
+  const s = m.spec;
+  const main = s.terms.filter((t): t is { variable: string; categorical?: boolean; reference?: string } => "variable" in t);
+  const treatment = main.find((t) => t.variable === s.treatment);
+  const covariates = main.filter((t) => t.variable !== s.treatment);
+  const interactions = s.terms.flatMap((t) => ("interaction" in t ? [t.interaction.join(" by ")] : []));
+  const paragraphs: string[] = [];
+
+  const sap = m.sap.name ? ` as pre-specified in ${m.sap.name}${m.sap.version ? ` version ${m.sap.version}` : ""}${m.sap.date ? ` (${m.sap.date})` : ""}` : "";
+  paragraphs.push(
+    `The planned model "${m.title}" was fitted to the locked dataset ${m.datasetName}${sap}. ` +
+      (m.population
+        ? `The analysis population consisted of the records with ${named(m.population.column, m.labels)} equal to "${m.population.value}".`
+        : "All records of the dataset formed the analysis population."),
+  );
+  paragraphs.push(
+    `The endpoint was ${named(s.response, m.labels)}. ` +
+      (s.family === "gaussian"
+        ? `It was analysed with a linear model (normal errors, identity link) estimated by ${s.weights ? `weighted least squares with prior weights from ${s.weights}` : "ordinary least squares"}`
+        : `It was analysed with a generalized linear model (${s.family} family, ${s.link ?? CANONICAL_LINK[s.family]} link) estimated by maximum likelihood${s.weights ? ` with prior weights from ${s.weights}` : ""}`) +
+      `${s.intercept === false ? " without an intercept" : ""}${s.offset ? `, with ${s.offset} entered as an offset` : ""}. ` +
+      "Records with a missing value in the endpoint or in any model term were left out (complete-case analysis).",
+  );
+  if (treatment) {
+    paragraphs.push(
+      `Treatment was entered as ${named(treatment.variable, m.labels)}, a categorical factor with ${treatment.reference ? `"${treatment.reference}"` : "its first level"} as the reference arm.` +
+        (covariates.length
+          ? ` The model adjusted for ${list(covariates.map((c) => `${named(c.variable, m.labels)} (${c.categorical ? `categorical${c.reference ? `, reference "${c.reference}"` : ""}` : "continuous"})`))}.`
+          : " No covariates were pre-specified.") +
+        (interactions.length ? ` Interactions pre-specified: ${list(interactions)}.` : ""),
+    );
+    paragraphs.push(
+      "Adjusted means of the endpoint per arm were computed from the fitted model with continuous covariates held at their mean over the records analysed" +
+        (m.meansWeighting === "proportional" ? " and categorical covariates averaged in proportion to their observed frequencies" : " and categorical covariates averaged with equal weight over their levels") +
+        " (population marginal means, Searle, Speed and Milliken 1980). Each arm was compared with the reference arm by the difference in adjusted means with a two-sided 95% confidence interval and p-value from the t distribution on the residual degrees of freedom.",
+    );
+  } else if (covariates.length) {
+    paragraphs.push(`The model's terms were ${list(covariates.map((c) => named(c.variable, m.labels)))}.`);
+  }
+  paragraphs.push(
+    "The plan committed to the diagnostic checks below, each with a threshold fixed before the data were seen. A check whose statistic crossed its threshold was recorded as a finding; every finding was assessed and documented as a deviation before the rerun was signed.",
+  );
+  const checks = m.checks
+    .filter((c) => c.enabled)
+    .map((c) => {
+      const def = CHECK_BY_KEY.get(c.key);
+      return `${def?.label ?? c.key}: ${thresholdWords(c)}. Source of the threshold: ${def?.source ?? "the plan"}. Planned remedy: ${c.remedy}.`;
+    });
+  const sensitivity = m.sensitivity.map((x): string => {
+    switch (x.kind) {
+      case "alternative_covariates":
+        return `${x.label ?? SENSITIVITY_LABELS[x.kind]}: the treatment with ${list(x.covariates ?? []) || "no covariates"}.`;
+      case "variance_function":
+        return `${SENSITIVITY_LABELS[x.kind]}, the variance ${x.varianceBy === "treatment" ? "estimated separately for each arm" : "modelled as a function of the fitted values"}.`;
+      case "robust_hc3":
+        return `${SENSITIVITY_LABELS[x.kind]}: the same estimates with heteroscedasticity-consistent standard errors (HC3, MacKinnon and White 1985).`;
+      case "exclude_influential":
+        return `${SENSITIVITY_LABELS[x.kind]}: the model refitted without the subjects whose Cook's distance exceeded the planned threshold.`;
+      default:
+        return `${SENSITIVITY_LABELS[(x as PlannedSensitivity).kind] ?? (x as PlannedSensitivity).kind}.`;
+    }
+  });
+  return { paragraphs, checks, sensitivity };
+}

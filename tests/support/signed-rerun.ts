@@ -1,0 +1,99 @@
+/**
+ * A signed primary rerun of the demo study made through the services, for server tests that
+ * need signed results (the appendix, reports): seed, plan with its checks and sensitivity
+ * analyses, two-person approval, rerun and its planned sensitivity analyses as background jobs,
+ * every finding assessed, and sign-off by a second biostatistician. Call `useTempDatabase()`
+ * first (this module imports the app's server modules only when called).
+ */
+export interface SignedRerun {
+  studyId: string;
+  planVersionId: string;
+  plannedModelId: string;
+  datasetVersionId: string;
+  rerunId: string;
+  sensitivityIds: string[];
+  people: Record<"priya" | "tomas" | "helen" | "sam", { id: string; name: string }>;
+}
+
+function primaryForm(): FormData {
+  const f = new FormData();
+  const fields = {
+    key: "primary",
+    title: "Primary efficacy: change from baseline at week 12",
+    datasetName: "adeff",
+    populationColumn: "fasfl",
+    populationValue: "Y",
+    response: "chg",
+    family: "gaussian",
+    treatment: "arm",
+    treatmentReference: "Placebo",
+    id: "subjid",
+  };
+  for (const [k, v] of Object.entries(fields)) f.set(k, v);
+  for (const c of ["base", "stratum", "region", "sex", "age"]) f.append("covariate", c);
+  for (const c of ["cooks_distance", "leverage", "deletion_residual", "dfbetas_treatment", "dffits", "shapiro_wilk", "breusch_pagan", "brown_forsythe", "homogeneity_of_slopes", "reset", "gvif"]) f.set(`check:${c}:enabled`, "on");
+  f.set("sensitivity:robust_hc3", "on");
+  f.set("sensitivity:exclude_influential", "on");
+  f.set("sensitivity:variance_function", "on");
+  f.set("sensitivity:varianceBy", "treatment");
+  return f;
+}
+
+export async function makeSignedRerun(): Promise<SignedRerun> {
+  const { seedDemoStudy } = await import("~/.server/demo/seed.server");
+  const { db, t } = await import("~/.server/db/index.server");
+  const plans = await import("~/.server/plans/plans.server");
+  const { validatePlannedModel, readPlannedModelForm } = await import("~/.server/plans/planned-model");
+  const { listLockedVersions } = await import("~/.server/datasets/catalog.server");
+  const reruns = await import("~/.server/reruns/reruns.server");
+  const findings = await import("~/.server/reruns/findings.server");
+  const { runOneJob } = await import("~/.server/jobs/jobs.server");
+  const { eq } = await import("drizzle-orm");
+
+  const seeded = await seedDemoStudy();
+  if (!seeded.seeded) throw new Error("The demo study could not be seeded into the test database.");
+  const studyId = seeded.studyId;
+  const person = async (email: string) => {
+    const [p] = await db.select().from(t.people).where(eq(t.people.email, email));
+    if (!p) throw new Error(`No demo person ${email}`);
+    return { id: p.id, name: p.displayName };
+  };
+  const people = {
+    priya: await person("priya.lindqvist@plumbline.example"),
+    tomas: await person("tomas.berg@plumbline.example"),
+    helen: await person("helen.achter@plumbline.example"),
+    sam: await person("sam.quill@quillmoor.example"),
+  };
+  const drain = async () => {
+    while (await runOneJob()) {
+      // run every queued job
+    }
+  };
+  const locked = await listLockedVersions(studyId);
+  const datasetVersionId = locked[0].versionId;
+  const { versionId } = await plans.createPlan(people.priya, studyId, { title: "Efficacy models", sapName: "Statistical analysis plan", sapVersion: "2.0", sapDate: "2026-10-01" });
+  const v = validatePlannedModel(readPlannedModelForm(primaryForm()), locked.map((x) => ({ name: x.datasetName, columns: x.columns })), []);
+  if (!v.ok) throw new Error(`The planned model does not validate: ${JSON.stringify(v.errors)}`);
+  const plannedModelId = await plans.savePlannedModel(people.priya, studyId, versionId, 1, null, v.model);
+  await plans.submitForApproval(people.priya, studyId, versionId, 2);
+  await plans.approvePlanVersion(people.tomas, studyId, versionId);
+
+  const rerunId = await reruns.startRerun(people.priya, studyId, { plannedModelId, datasetVersionId, options: { variant: "planned" } });
+  await drain();
+  const primary = await reruns.getRerun(studyId, rerunId);
+  if (primary.rerun.status !== "completed" || !primary.doc) throw new Error(`The primary rerun did not complete: ${primary.rerun.failureReason}`);
+  const flagged = (primary.doc.checks.find((c) => c.key === "cooks_distance")?.flagged ?? []).map((f) => f.row).sort((a, b) => a - b);
+  const variants = [
+    { variant: "robust_hc3" as const },
+    { variant: "variance_function" as const, varianceBy: "treatment" as const },
+    ...(flagged.length ? [{ variant: "exclude_rows" as const, rows: flagged, reason: "flagged by the Cook's distance check" }] : []),
+  ];
+  const sensitivityIds: string[] = [];
+  for (const options of variants) sensitivityIds.push(await reruns.startRerun(people.priya, studyId, { plannedModelId, datasetVersionId, options, parentRerunId: rerunId, prespecified: true }));
+  await drain();
+  for (const f of await findings.findingsOf(rerunId)) {
+    await findings.assessFinding(people.priya, studyId, f.id, { category: "model_assumption", impact: "none", action: "planned_sensitivity", rationale: "The planned sensitivity analyses leave the treatment conclusion unchanged." });
+  }
+  await findings.signRerun({ ...people.tomas, signedInAt: new Date().toISOString() }, studyId, rerunId);
+  return { studyId, planVersionId: versionId, plannedModelId, datasetVersionId, rerunId, sensitivityIds, people };
+}
