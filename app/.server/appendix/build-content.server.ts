@@ -403,7 +403,8 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
           `Primary ${fmt(primary.estimate, 2)} (${fmtCi(primary.lower, primary.upper, 2)}); ` +
           forest.slice(1).map((f) => `${f.label} ${fmt(f.estimate, 2)} (${fmtCi(f.lower, f.upper, 2)})`).join("; ") +
           ". Healthy: every interval close to the primary one and on the same side of zero.",
-        spec: forestSpec(forest, label, { width: FIGURE_SIZE.width, forPrint: true }),
+        // the analysis labels take about 270 px beside the plot: a narrower plot keeps the text legible in print
+        spec: forestSpec(forest, label, { width: 330, forPrint: true }),
       });
     }
   }

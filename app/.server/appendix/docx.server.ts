@@ -20,6 +20,7 @@ import {
   Header,
   HeadingLevel,
   ImageRun,
+  LineRuleType,
   Packer,
   PageBreak,
   PageNumber,
@@ -127,6 +128,7 @@ async function figureOf(b: Extract<Block, { kind: "figure" }>): Promise<Paragrap
     new Paragraph({
       keepNext: true,
       alignment: AlignmentType.CENTER,
+      spacing: { before: 240, after: 0, line: 240, lineRule: LineRuleType.AUTO },
       children: [new ImageRun({ type: "png", data: rendered.png, transformation: { width, height }, altText: { id: String(b.number), name: `Figure ${b.number}`, title: b.caption, description: b.alt } })],
     }),
     caption("Figure", b.number, b.caption),
@@ -232,7 +234,7 @@ export async function renderDocx(c: AppendixContent): Promise<Buffer> {
       features: { updateFields: false },
       styles: {
         default: {
-          document: { run: { font: FONT_FAMILY, size: 20, color: INK }, paragraph: { spacing: { after: 120, line: 276 } } },
+          document: { run: { font: FONT_FAMILY, size: 20, color: INK }, paragraph: { spacing: { after: 120, line: 276, lineRule: LineRuleType.AUTO } } },
         },
         paragraphStyles: [
           { id: "Title", name: "Title", basedOn: "Normal", next: "Normal", quickFormat: true, run: { font: FONT_FAMILY, size: 40, bold: true, color: INK }, paragraph: { spacing: { after: 200 } } },
@@ -240,7 +242,7 @@ export async function renderDocx(c: AppendixContent): Promise<Buffer> {
           heading("Heading1", "heading 1", 30, 360),
           heading("Heading2", "heading 2", 24, 240),
           { id: "Caption", name: "caption", basedOn: "Normal", next: "Normal", quickFormat: true, run: { font: FONT_FAMILY, size: 18, color: INK }, paragraph: { spacing: { before: 120, after: 80 } } },
-          { id: "TableText", name: "Table Text", basedOn: "Normal", run: { font: FONT_FAMILY, size: 17 }, paragraph: { spacing: { after: 0, line: 240 } } },
+          { id: "TableText", name: "Table Text", basedOn: "Normal", run: { font: FONT_FAMILY, size: 17 }, paragraph: { spacing: { after: 0, line: 240, lineRule: LineRuleType.AUTO } } },
           { id: "TableNote", name: "Table Note", basedOn: "Normal", run: { font: FONT_FAMILY, size: 16, color: SOFT }, paragraph: { spacing: { before: 60, after: 240 } } },
           { id: "NarrativeLabel", name: "Narrative Label", basedOn: "Normal", next: "Normal", run: { font: FONT_FAMILY, size: 16, italics: true, color: SOFT }, paragraph: { spacing: { before: 200, after: 60 } } },
           { id: "Header", name: "header", basedOn: "Normal", run: { font: FONT_FAMILY, size: 16 }, paragraph: { spacing: { after: 0 } } },
