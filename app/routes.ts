@@ -6,6 +6,9 @@ export default [
   route("auth/saml/login", "routes/auth.saml.login.ts"),
   route("auth/saml/acs", "routes/auth.saml.acs.ts"),
   route("auth/saml/logout", "routes/auth.saml.logout.ts"),
+  // Sponsor readers sign in through their organisation's OpenID Connect provider.
+  route("auth/oidc/login", "routes/auth.oidc.login.ts"),
+  route("auth/oidc/callback", "routes/auth.oidc.callback.ts"),
   route("sign-out", "routes/sign-out.ts"),
   route("healthz", "routes/healthz.ts"),
 

@@ -28,6 +28,10 @@ const schema = z.object({
   SAML_CLOCK_SKEW_MS: z.coerce.number().int().min(0).max(60_000).default(5_000),
   /** Identity-provider group whose members are Plumbline administrators. */
   SAML_ADMIN_GROUP: z.string().min(1).default("plumbline-admins"),
+  /** Sponsor readers' OpenID Connect provider: its issuer (discovery at /.well-known/openid-configuration) and our client there. */
+  OIDC_ISSUER: z.url().default("http://127.0.0.1:7100"),
+  OIDC_CLIENT_ID: z.string().min(1).default("plumbline"),
+  OIDC_CLIENT_SECRET: z.string().min(1).default("plumbline-demo-oidc-secret"),
   /** Largest request body accepted outside dataset uploads, in bytes. */
   MAX_BODY_BYTES: z.coerce.number().int().positive().default(1_048_576),
   /** Largest dataset file accepted by the upload route, in bytes (default 200 MB). */

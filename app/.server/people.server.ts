@@ -118,14 +118,22 @@ export async function listMemberships(): Promise<Membership[]> {
     .orderBy(asc(t.studies.code));
 }
 
-/** The person's role on one study, or null. */
+/**
+ * The person's role on one study, or null. A sponsor account (signed in through OpenID Connect)
+ * holds at most the sponsor reader role, and only while the study is shared with its
+ * organisation, whatever the membership table says.
+ */
 export async function studyRoleOf(personId: string, studyId: string): Promise<StudyRole | null> {
   const [row] = await db
-    .select({ role: t.studyMemberships.role })
+    .select({ role: t.studyMemberships.role, source: t.people.identitySource, organisation: t.people.organisation, sharedWith: t.studyShares.organisation })
     .from(t.studyMemberships)
+    .innerJoin(t.people, eq(t.people.id, t.studyMemberships.personId))
+    .leftJoin(t.studyShares, and(eq(t.studyShares.studyId, t.studyMemberships.studyId), eq(t.studyShares.organisation, t.people.organisation)))
     .where(and(eq(t.studyMemberships.personId, personId), eq(t.studyMemberships.studyId, studyId)))
     .limit(1);
-  return row?.role ?? null;
+  if (!row) return null;
+  if (row.source !== "oidc") return row.role;
+  return row.role === "sponsor_reader" && row.organisation !== null && row.sharedWith === row.organisation ? row.role : null;
 }
 
 /**

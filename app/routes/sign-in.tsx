@@ -99,6 +99,18 @@ export default function SignIn({ loaderData }: Route.ComponentProps) {
             ) : null}
           </div>
         </div>
+        <div className="panel space-y-3 border-l-4 border-l-accent px-4 py-4" aria-labelledby="sponsor-sign-in">
+          <h2 id="sponsor-sign-in" className="text-base font-semibold">
+            Sponsor sign-in
+          </h2>
+          <p className="text-sm">Readers at a sponsor organisation sign in with their own organisation's account to read the published reports of the studies shared with it.</p>
+          <form method="get" action="/auth/oidc/login">
+            <input type="hidden" name="returnTo" value={returnTo} />
+            <button type="submit" className="btn-quiet">
+              Sponsor sign-in
+            </button>
+          </form>
+        </div>
         <p className="text-xs text-ink-soft">
           Signing in opens the studies where an administrator has given you a role, and only those.
         </p>

@@ -1,5 +1,5 @@
 /**
- * The demo-person picker of the fake identity provider: one button per demo person. Each button
+ * The demo-person picker of the fake identity provider: one button per staff demo person. Each button
  * posts that person's attributes to saml-idp's own sign-in endpoint, the same fields its
  * editable form posts (every field, since saml-idp remembers the previous person's otherwise).
  */
@@ -12,11 +12,13 @@ export interface DemoPerson {
   organisation: string;
   groups: string[];
   studyRole: string | null;
+  /** Sponsor readers (`oidc`) sign in through the OpenID Connect fake, not here. */
+  signIn?: "saml" | "oidc";
 }
 
 export function demoPeople(file: string): DemoPerson[] {
   const parsed = JSON.parse(readFileSync(file, "utf8")) as { people: DemoPerson[] };
-  return parsed.people;
+  return parsed.people.filter((p) => p.signIn !== "oidc");
 }
 
 const esc = (s: string): string =>

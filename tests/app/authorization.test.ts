@@ -49,7 +49,7 @@ const MATRIX: { file: string; path: string; expect: Outcome[]; resource?: true }
 ];
 
 /** Routes that are not pages a role opens; each is tested on its own below or in tests/auth. */
-const COVERED_ELSEWHERE = ["shell.tsx", "auth.saml.login.ts", "auth.saml.acs.ts", "auth.saml.logout.ts", "sign-out.ts"];
+const COVERED_ELSEWHERE = ["shell.tsx", "auth.saml.login.ts", "auth.saml.acs.ts", "auth.saml.logout.ts", "auth.oidc.login.ts", "auth.oidc.callback.ts", "sign-out.ts"];
 
 const cookies = new Map<Who, string>();
 let studyId = "";

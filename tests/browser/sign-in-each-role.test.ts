@@ -1,10 +1,10 @@
 /**
- * A full sign-in through the fake SAML identity provider in a real browser for each demo
- * person, checking that each sees only the navigation their role may use.
+ * A full sign-in in a real browser for each demo person (staff through the fake SAML identity
+ * provider, the sponsor reader through the fake OpenID Connect provider), checking that each sees only the navigation their role may use.
  */
 import type { Browser } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, inject, it } from "vitest";
-import { launchBrowser, screenshot, signInAs } from "../support/browser";
+import { launchBrowser, screenshot, signInAs, signInAsSponsor } from "../support/browser";
 
 const stack = inject("stack");
 let browser: Browser;
@@ -18,12 +18,12 @@ afterAll(async () => {
 
 const STUDY_SECTIONS = ["Overview", "Datasets", "Analysis plans", "Reruns", "Deviation log", "Appendix", "Reports"];
 
-const CASES: { who: string; name: string; admin: boolean; sections: string[] | null }[] = [
+const CASES: { who: string; name: string; admin: boolean; sections: string[] | null; sponsor?: true }[] = [
   { who: "administrator", name: "Morgan Reyes", admin: true, sections: null },
   { who: "data manager", name: "Dana Okafor", admin: false, sections: ["Overview", "Datasets"] },
   { who: "biostatistician", name: "Priya Lindqvist", admin: false, sections: ["Overview", "Datasets", "Analysis plans", "Reruns", "Deviation log", "Reports"] },
   { who: "medical writer", name: "Helen Achter", admin: false, sections: ["Overview", "Analysis plans", "Reruns", "Deviation log", "Appendix", "Reports"] },
-  { who: "sponsor reader", name: "Sam Quill", admin: false, sections: ["Overview", "Reports"] },
+  { who: "sponsor reader", name: "Sam Quill", admin: false, sections: ["Overview", "Reports"], sponsor: true },
 ];
 
 describe("signing in through the fake identity provider", () => {
@@ -31,7 +31,7 @@ describe("signing in through the fake identity provider", () => {
     it(`the ${c.who} signs in and sees only their navigation`, async () => {
       const context = await browser.newContext({ viewport: { width: 1280, height: 800 } });
       const page = await context.newPage();
-      await signInAs(page, stack.appUrl, c.name);
+      await (c.sponsor ? signInAsSponsor : signInAs)(page, stack.appUrl, c.name);
       await expect.poll(() => page.getByText(c.name, { exact: true }).count()).toBeGreaterThan(0);
       const main = page.getByRole("navigation", { name: "Main" });
       for (const adminLink of ["Manage studies", "People and roles", "Audit trail"]) {

@@ -40,3 +40,11 @@ export async function signInAs(page: Page, appUrl: string, displayName: string):
   await page.getByRole("button", { name: `Sign in as ${displayName}` }).click();
   await page.waitForURL((url) => url.origin === new URL(appUrl).origin && url.pathname === "/", { timeout: 20_000 });
 }
+
+/** Signs a sponsor reader in through the OpenID Connect round trip: "Sponsor sign-in", the fake provider's picker, back. */
+export async function signInAsSponsor(page: Page, appUrl: string, displayName: string): Promise<void> {
+  await page.goto(`${appUrl}/sign-in`);
+  await page.getByRole("button", { name: "Sponsor sign-in" }).click();
+  await page.getByRole("button", { name: `Continue as ${displayName}` }).click();
+  await page.waitForURL((url) => url.origin === new URL(appUrl).origin && url.pathname === "/", { timeout: 20_000 });
+}

@@ -1,5 +1,5 @@
 /**
- * Why a SAML sign-in response was refused, in words a person can act on. The codes travel in
+ * Why a sign-in response (SAML, or a sponsor's OpenID Connect ID token) was refused, in words a person can act on. The codes travel in
  * the sign-in page's address (`/sign-in?error=CODE`); the reason goes to the audit trail.
  */
 export const REFUSAL_MESSAGES = {
@@ -17,6 +17,10 @@ export const REFUSAL_MESSAGES = {
     "The sign-in response came from an identity provider Plumbline is not set up to trust, so it was refused. Sign in again from this page; if this keeps happening, tell your administrator.",
   incomplete:
     "The identity provider did not send your e-mail address, which Plumbline needs to know who you are. Tell your administrator to release the e-mail attribute to Plumbline.",
+  "staff-account":
+    "That e-mail address belongs to a staff account, which signs in with single sign-on, not with sponsor sign-in. Use “Sign in with single sign-on”, or ask your administrator.",
+  "no-organisation":
+    "Your organisation's sign-in service did not say which organisation you belong to, and Plumbline needs it to show you the studies shared with your organisation. Tell your organisation's administrator to release the organisation claim to Plumbline.",
   unavailable:
     "The sign-in service is not answering, so single sign-on could not start. Try again shortly or tell your administrator.",
   misconfigured:

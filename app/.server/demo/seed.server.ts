@@ -22,6 +22,8 @@ const DemoPeopleFile = z.object({
       organisation: z.string(),
       groups: z.array(z.string()),
       studyRole: z.enum(STUDY_ROLES).nullable(),
+      /** Sponsor readers sign in through OpenID Connect, staff through SAML. */
+      signIn: z.enum(["saml", "oidc"]).default("saml"),
     }),
   ),
 });
@@ -59,7 +61,7 @@ export async function seedDemoStudy(people: DemoPerson[] = readDemoPeople()): Pr
         displayName: p.displayName,
         organisation: p.organisation,
         isAdmin: p.groups.includes("plumbline-admins"),
-        identitySource: "saml",
+        identitySource: p.signIn,
         externalId: p.email,
       });
       await appendAudit({ actor: SYSTEM_ACTOR, action: "person.create", entityType: "person", entityId: personId, after: { email: p.email }, detail: "demo seed" }, tx);
