@@ -7,6 +7,7 @@ import { mkdirSync } from "node:fs";
 import path from "node:path";
 import { startOidcFake } from "../idp-fake/oidc/launch";
 import { startSamlIdp } from "../idp-fake/saml/launch";
+import { startSmtpFake } from "../idp-fake/smtp/launch";
 import { startAppServer } from "./lib/app-server";
 
 const APP_PORT = Number(process.env.PORT ?? 5180);
@@ -16,6 +17,7 @@ const APP_URL = process.env.APP_URL ?? `http://localhost:${APP_PORT}`;
 const DATA_DIR = path.resolve(process.env.DATA_DIR ?? "data");
 const SP_ISSUER = process.env.SAML_SP_ISSUER ?? "urn:plumbline:sp";
 const IDP_ISSUER = process.env.SAML_IDP_ISSUER ?? "urn:plumbline:idp-fake";
+const SMTP_PORT = Number(process.env.SMTP_PORT ?? 2525);
 
 mkdirSync(DATA_DIR, { recursive: true });
 
@@ -28,6 +30,7 @@ const idp = await startSamlIdp({
   stateDir: path.join(DATA_DIR, "idp"),
 });
 const oidc = await startOidcFake({ port: OIDC_PORT, stateDir: path.join(DATA_DIR, "oidc"), appUrl: APP_URL });
+const smtp = await startSmtpFake({ port: SMTP_PORT, stateDir: path.join(DATA_DIR, "smtp") });
 
 const env: Record<string, string> = {
   APP_URL,
@@ -41,6 +44,9 @@ const env: Record<string, string> = {
   OIDC_ISSUER: oidc.issuerUrl,
   OIDC_CLIENT_ID: oidc.clientId,
   OIDC_CLIENT_SECRET: oidc.clientSecret,
+  SMTP_HOST: smtp.smtpHost,
+  SMTP_PORT: String(smtp.smtpPort),
+  SMTP_FAKE_INBOX_DIR: smtp.inboxDir,
 };
 Object.assign(process.env, env);
 
@@ -59,13 +65,15 @@ Plumbline is running at ${APP_URL}
 ${people.map((p) => `    ${p.displayName.padEnd(18)} ${(p.studyRole ?? (p.groups.includes("plumbline-admins") ? "administrator" : "no study role")).padEnd(16)} ${p.email}${p.signIn === "oidc" ? "  (Sponsor sign-in)" : ""}`).join("\n")}
   Sponsors:   "Sponsor sign-in" goes to the fake OpenID Connect provider at ${oidc.issuerUrl}; the
               study is shared with Quillmoor Therapeutics, not with Harrowgate Biologics.
+  E-mail:     notifications go to the SMTP fake at ${smtp.smtpHost}:${smtp.smtpPort}; the administrator's
+              outbox page (${APP_URL}/admin/outbox) shows what it received.
 Press Ctrl-C to stop.`);
 
 let stopping = false;
 async function stop(): Promise<void> {
   if (stopping) return;
   stopping = true;
-  await Promise.allSettled([app.stop(), idp.stop(), oidc.stop()]);
+  await Promise.allSettled([app.stop(), idp.stop(), oidc.stop(), smtp.stop()]);
   process.exit(0);
 }
 process.on("SIGINT", () => void stop());

@@ -1,7 +1,7 @@
 /**
- * Starts the stack the app and browser tests talk to: the fake SAML identity provider and the
- * built Plumbline server on free loopback ports, with a fresh database and data folder in a
- * temporary directory, seeded with the demo study. Stops both afterwards.
+ * Starts the stack the app and browser tests talk to: the fake SAML identity provider, the SMTP
+ * fake and the built Plumbline server on free loopback ports, with a fresh database and data
+ * folder in a temporary directory, seeded with the demo study. Stops them afterwards.
  */
 import { existsSync, mkdtempSync, rmSync } from "node:fs";
 import os from "node:os";
@@ -9,6 +9,7 @@ import path from "node:path";
 import type { TestProject } from "vitest/node";
 import { startSamlIdp } from "../../idp-fake/saml/launch";
 import { startOidcFake } from "../../idp-fake/oidc/launch";
+import { startSmtpFake } from "../../idp-fake/smtp/launch";
 import { freePort, startAppServer } from "../../scripts/lib/app-server";
 
 export interface Stack {
@@ -19,6 +20,8 @@ export interface Stack {
   dbFile: string;
   dataDir: string;
   sessionSecret: string;
+  /** The SMTP fake's state folder: read received messages with idp-fake/smtp/inbox.ts. */
+  smtpStateDir: string;
 }
 
 declare module "vitest" {
@@ -45,6 +48,8 @@ export default async function setup(project: TestProject): Promise<() => Promise
     stateDir: path.join(dir, "idp"),
   });
   const oidc = await startOidcFake({ port: oidcPort, stateDir: path.join(dir, "oidc"), appUrl });
+  const smtpStateDir = path.join(dir, "smtp");
+  const smtp = await startSmtpFake({ port: 0, stateDir: smtpStateDir });
   const dbFile = path.join(dir, "plumbline.db");
   const sessionSecret = "test-session-secret-0123456789abcdef";
   const env: Record<string, string> = {
@@ -60,14 +65,17 @@ export default async function setup(project: TestProject): Promise<() => Promise
     OIDC_ISSUER: oidc.issuerUrl,
     OIDC_CLIENT_ID: oidc.clientId,
     OIDC_CLIENT_SECRET: oidc.clientSecret,
+    SMTP_HOST: smtp.smtpHost,
+    SMTP_PORT: String(smtp.smtpPort),
+    SMTP_FAKE_INBOX_DIR: smtp.inboxDir,
   };
   Object.assign(process.env, env);
   const { seedDemoStudy } = await import("../../app/.server/demo/seed.server");
   await seedDemoStudy();
   const app = await startAppServer({ port: appPort, env });
-  project.provide("stack", { appUrl, idpUrl: idp.baseUrl, oidcUrl: oidc.issuerUrl, dbFile, dataDir: env.DATA_DIR, sessionSecret });
+  project.provide("stack", { appUrl, idpUrl: idp.baseUrl, oidcUrl: oidc.issuerUrl, dbFile, dataDir: env.DATA_DIR, sessionSecret, smtpStateDir });
   return async () => {
-    await Promise.allSettled([app.stop(), idp.stop(), oidc.stop()]);
+    await Promise.allSettled([app.stop(), idp.stop(), oidc.stop(), smtp.stop()]);
     rmSync(dir, { recursive: true, force: true });
   };
 }
