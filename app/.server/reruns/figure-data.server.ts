@@ -15,6 +15,7 @@ import type {
 import { BEYOND, WITHIN } from "~/components/figures/specs";
 import type { CheckKey, CheckOutcome, FigureKey } from "~/engine/checks";
 import { normalQuantile } from "~/engine/distributions";
+import { loessCurve, type SmoothPoint } from "~/engine/loess";
 import type { LinearModelResult } from "~/engine";
 import type { RerunDocument } from "./reruns.server";
 
@@ -157,12 +158,25 @@ function quantileOfSorted(sorted: readonly number[], p: number): number {
   return sorted[lo] + (h - lo) * (sorted[hi] - sorted[lo]);
 }
 
+/** The figures' smoother: loess, span 0.5, on a grid of 120 points, rounded like the rows. */
+function smoothOf(x: readonly number[], y: readonly number[]): SmoothPoint[] {
+  return loessCurve(x, y, 0.5, 120).map((p) => ({ x: round(p.x), y: round(p.y) }));
+}
+
+/** The linear-model result the figures are drawn from; GLM reruns have none of these figures yet. */
+function linearResult(doc: RerunDocument): LinearModelResult {
+  if (doc.result.kind !== "linear") throw new FigureUnavailableError("these diagnostic figures are drawn for linear models; this rerun is a generalized linear model");
+  return doc.result;
+}
+
 /** How many influential subjects get their id written beside the point. */
 const LABELLED = 3;
 
 /** The rows of one figure of a rerun. Throws FigureUnavailableError when it cannot be drawn. */
 export function figureData(doc: RerunDocument, figure: FigureKey, opts: FigureOptions): FigureData {
-  const r = doc.result;
+  const r = linearResult(doc);
+  // A rerun's result is linear or generalized linear; these figures read the linear result.
+  if (r.kind !== "linear") throw new FigureUnavailableError("this figure is drawn for linear models; generalized linear models show their own diagnostics");
   const obs = r.observations;
   const n = r.n;
   const b = base(r, opts);
@@ -172,7 +186,7 @@ export function figureData(doc: RerunDocument, figure: FigureKey, opts: FigureOp
   switch (figure) {
     case "residuals_fitted": {
       const rows = obs.row.map((_, i) => ({ ...who(r, i, opts.withSubjectIds), fitted: round(obs.fitted[i]), residual: round(residualOf(r, i)), status: statusOf(i) }));
-      return { figure, ...b, rows };
+      return { figure, ...b, rows, smooth: smoothOf(rows.map((p) => p.fitted), rows.map((p) => p.residual)) };
     }
     case "residuals_covariate": {
       const t = requireTerm(r, opts.term, false);
@@ -184,7 +198,8 @@ export function figureData(doc: RerunDocument, figure: FigureKey, opts: FigureOp
         jitter: round(jitterOf(row)),
         status: statusOf(i),
       }));
-      return { figure, ...b, term: t.name, termUnit: t.kind === "continuous" ? unitOf(t.name, opts) : "level", kind: t.kind, ...(t.levels ? { levels: t.levels } : {}), note: interactionNote(r, t.name), rows };
+      const smooth = t.kind === "continuous" ? smoothOf(rows.map((p) => p.x as number), rows.map((p) => p.residual)) : undefined;
+      return { figure, ...b, term: t.name, termUnit: t.kind === "continuous" ? unitOf(t.name, opts) : "level", kind: t.kind, ...(t.levels ? { levels: t.levels } : {}), note: interactionNote(r, t.name), rows, ...(smooth ? { smooth } : {}) };
     }
     case "partial_residuals": {
       const t = requireTerm(r, opts.term, true);
@@ -200,7 +215,8 @@ export function figureData(doc: RerunDocument, figure: FigureKey, opts: FigureOp
         component: round(partial.values[i] - obs.residual[i]),
         status: statusOf(i),
       }));
-      return { figure, ...b, term: t.name, termUnit: unitOf(t.name, opts), coefficient: coef?.estimate ?? NaN, note: interactionNote(r, t.name), rows };
+      const smooth = smoothOf(rows.map((p) => p.x), rows.map((p) => p.partial));
+      return { figure, ...b, term: t.name, termUnit: unitOf(t.name, opts), coefficient: coef?.estimate ?? NaN, note: interactionNote(r, t.name), rows, smooth };
     }
     case "qq": {
       const order = obs.row.map((_, i) => i).filter((i) => Number.isFinite(obs.studentizedInternal[i]));
@@ -281,6 +297,7 @@ function labelOf(r: LinearModelResult, i: number, withIds: boolean, top: Map<num
 /** The continuous and categorical main terms a results page offers figures for. */
 export function figureTerms(doc: RerunDocument): { covariates: string[]; continuous: string[] } {
   const r = doc.result;
+  if (r.kind !== "linear") return { covariates: [], continuous: [] };
   const names = mainTermNames(r);
   const continuous = names.filter((name) => r.variables.find((v) => v.name === name)?.kind === "continuous");
   return { covariates: names.filter((name) => name !== r.spec.treatment), continuous };

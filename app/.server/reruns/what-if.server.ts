@@ -8,7 +8,7 @@ import type { WhatIfCandidate, WhatIfInputs } from "~/components/figures/what-if
 import { CHECK_BY_KEY, type CheckKey } from "~/engine/checks";
 import { toDataTable } from "~/engine/data";
 import { buildDesign, prepareData } from "~/engine/design";
-import { EngineError, RESULTS_CAUTION } from "~/engine";
+import { EngineError, RESULTS_CAUTION, type LinearModelResult } from "~/engine";
 import { leastSquares } from "~/engine/least-squares";
 import type { RerunDocument } from "./reruns.server";
 
@@ -74,6 +74,7 @@ export interface WhatIfOptions {
  * (with interactions it depends on covariate means, which do).
  */
 export function whatIfInputs(doc: RerunDocument, table: RerunTable, options: WhatIfOptions = {}): WhatIfInputs {
+  if (doc.result.kind !== "linear") return unavailable("The closed-form what-if is offered for linear models; this rerun is a generalized linear model. Use a sensitivity rerun excluding the subjects.");
   const r = doc.result;
   const spec = r.spec;
   const treatment = spec.treatment;
@@ -83,7 +84,7 @@ export function whatIfInputs(doc: RerunDocument, table: RerunTable, options: Wha
       "The model has treatment interactions: its adjusted-mean contrast depends on covariate means that change when subjects are left out, so the closed-form what-if is not offered. Use a sensitivity rerun excluding the subjects.",
     );
   }
-  const candidates = candidateRows(doc, options.withSubjectIds ?? true);
+  const candidates = candidateRows({ ...doc, result: r }, options.withSubjectIds ?? true);
   if (candidates.length === 0) return unavailable("No influence check of the plan flagged any subject.");
 
   let data;
@@ -168,7 +169,7 @@ export function whatIfInputs(doc: RerunDocument, table: RerunTable, options: Wha
 }
 
 /** Subjects flagged by any influence check, by Cook's distance, at most WHAT_IF_CANDIDATES. */
-function candidateRows(doc: RerunDocument, withIds: boolean): Omit<WhatIfCandidate, "x" | "residual">[] {
+function candidateRows(doc: RerunDocument & { result: LinearModelResult }, withIds: boolean): Omit<WhatIfCandidate, "x" | "residual">[] {
   const obs = doc.result.observations;
   const byRow = new Map<number, string[]>();
   for (const c of doc.checks) {

@@ -19,14 +19,35 @@ export function figureUrl(studyId: string, rerunId: string, figure: FigureKey, t
 /**
  * One diagnostic figure of a rerun, drawn in the browser from data fetched from the figures
  * resource route, so the page paints before the charts. vega-embed is imported lazily, on the
- * client only; expressions run through Vega's interpreter (no eval, so the page's CSP holds);
- * from LARGE_N rows the canvas renderer keeps hover responsive.
+ * client only, when the frame comes near the viewport; expressions run through Vega's
+ * interpreter (no eval, so the page's CSP holds); from LARGE_N rows the canvas renderer keeps
+ * hover responsive.
  */
 export function RerunFigure({ studyId, rerunId, figure, term }: { studyId: string; rerunId: string; figure: FigureKey; term?: string }) {
+  const frame = useRef<HTMLDivElement>(null);
   const target = useRef<HTMLDivElement>(null);
   const [state, setState] = useState<State>({ kind: "loading" });
+  const [near, setNear] = useState(false);
+
+  // draw when the frame comes near the viewport: a results page with many figures stays responsive
+  useEffect(() => {
+    const el = frame.current;
+    if (!el || typeof IntersectionObserver === "undefined") {
+      setNear(true);
+      return;
+    }
+    const io = new IntersectionObserver((entries) => {
+      if (entries.some((e) => e.isIntersecting)) {
+        setNear(true);
+        io.disconnect();
+      }
+    }, { rootMargin: "400px 0px" });
+    io.observe(el);
+    return () => io.disconnect();
+  }, []);
 
   useEffect(() => {
+    if (!near) return;
     const abort = new AbortController();
     let finalize: (() => void) | undefined;
     setState({ kind: "loading" });
@@ -60,10 +81,10 @@ export function RerunFigure({ studyId, rerunId, figure, term }: { studyId: strin
       abort.abort();
       finalize?.();
     };
-  }, [studyId, rerunId, figure, term]);
+  }, [near, studyId, rerunId, figure, term]);
 
   return (
-    <div className="panel relative w-full overflow-hidden p-3" style={{ height: FIGURE_FRAME_HEIGHT }} data-figure={figure} data-term={term} data-state={state.kind}>
+    <div ref={frame} className="panel relative w-full overflow-hidden p-3" style={{ height: FIGURE_FRAME_HEIGHT }} data-figure={figure} data-term={term} data-state={state.kind}>
       <div ref={target} className="h-full w-full" />
       {state.kind === "loading" ? (
         <p className="absolute inset-0 flex items-center justify-center text-xs text-ink-soft" role="status">

@@ -11,6 +11,9 @@
  */
 import type { TopLevelSpec } from "vega-lite";
 import type { FigureKey } from "~/engine/checks";
+import type { SmoothPoint } from "~/engine/loess";
+
+export type { SmoothPoint } from "~/engine/loess";
 
 /** The palette of DESIGN.md. */
 export const PALETTE = {
@@ -59,6 +62,8 @@ export interface ResidualsFittedRow extends SubjectRef {
 export interface ResidualsFittedData extends FigureBase {
   figure: "residuals_fitted";
   rows: ResidualsFittedRow[];
+  /** Loess smoother of the residuals on the fitted values (span 0.5). */
+  smooth: SmoothPoint[];
 }
 
 export interface ResidualsCovariateRow extends SubjectRef {
@@ -77,6 +82,8 @@ export interface ResidualsCovariateData extends FigureBase {
   /** Level order for a categorical covariate, reference first. */
   levels?: string[];
   rows: ResidualsCovariateRow[];
+  /** Loess smoother (continuous covariates only). */
+  smooth?: SmoothPoint[];
 }
 
 export interface PartialResidualRow extends SubjectRef {
@@ -93,6 +100,8 @@ export interface PartialResidualsData extends FigureBase {
   termUnit: string;
   coefficient: number;
   rows: PartialResidualRow[];
+  /** Loess smoother of the partial residuals on the covariate. */
+  smooth: SmoothPoint[];
 }
 
 export interface QqRow extends SubjectRef {
@@ -266,8 +275,9 @@ function statusEncoding(d: { n: number }): Json {
   return {
     shape: { field: "status", type: "nominal", scale: { domain: [WITHIN, BEYOND], range: ["circle", "triangle-up"] }, legend: { title: "Subjects" } },
     color: { field: "status", type: "nominal", scale: { domain: [WITHIN, BEYOND], range: [PALETTE.pending, PALETTE.finding] }, legend: { title: "Subjects" } },
-    size: { condition: { test: `datum.status === '${BEYOND}'`, value: 48 }, value: large(d) ? 6 : 16 },
-    opacity: { condition: { test: `datum.status === '${BEYOND}'`, value: 1 }, value: large(d) ? 0.35 : 0.7 },
+    // ordinal scales, not conditions: no expression evaluated per point (Vega's CSP-safe interpreter is slow at 10 000 points)
+    size: { field: "status", type: "ordinal", scale: { domain: [WITHIN, BEYOND], range: [large(d) ? 6 : 16, 48] }, legend: { title: "Subjects" } },
+    opacity: { field: "status", type: "ordinal", scale: { domain: [WITHIN, BEYOND], range: [large(d) ? 0.35 : 0.7, 1] }, legend: { title: "Subjects" } },
   };
 }
 
@@ -297,11 +307,12 @@ function residualWord(d: FigureBase): string {
   return d.weighted ? "Weighted residual √w·(y − ŷ)" : `Residual, ${d.response} − fitted`;
 }
 
-function loessLayer(x: string, y: string, bandwidth = 0.5): Json {
+/** The smoother, computed on the server (app/engine/loess.ts) and drawn as a line. */
+function loessLayer(smooth: readonly SmoothPoint[]): Json {
   return {
-    transform: [{ loess: y, on: x, bandwidth }],
+    data: { values: smooth },
     mark: { type: "line", color: PALETTE.accent, strokeWidth: 2.2 },
-    encoding: { x: { field: x, type: "quantitative" }, y: { field: y, type: "quantitative" } },
+    encoding: { x: { field: "x", type: "quantitative" }, y: { field: "y", type: "quantitative" } },
   };
 }
 
@@ -326,7 +337,7 @@ export function residualsFittedSpec(d: ResidualsFittedData, opts: SpecOptions = 
           ]),
         },
       },
-      loessLayer("fitted", "residual"),
+      loessLayer(d.smooth),
     ],
   });
 }
@@ -351,7 +362,7 @@ export function residualsCovariateSpec(d: ResidualsCovariateData, opts: SpecOpti
           mark: pointMark(),
           encoding: { x: { field: "x", type: "quantitative", title: `${d.term} (${d.termUnit})`, scale: { zero: false } }, y: yAxis, ...statusEncoding(d), tooltip: tip },
         },
-        loessLayer("x", "residual"),
+        loessLayer(d.smooth ?? []),
       ],
     });
   }
@@ -403,7 +414,7 @@ export function partialResidualsSpec(d: PartialResidualsData, opts: SpecOptions 
         },
       },
       { mark: { type: "line", color: PALETTE.inkSoft, strokeWidth: 1.5 }, encoding: { x: xEnc, y: { field: "component", type: "quantitative" } } },
-      loessLayer("x", "partial"),
+      loessLayer(d.smooth),
     ],
   });
 }
@@ -477,7 +488,7 @@ export function leverageResidualSpec(d: LeverageResidualData, opts: SpecOptions 
   const width = opts.width ?? 560;
   // room on the right for the label of the point with the largest leverage
   const maxLeverage = d.rows.reduce((m, r) => (Number.isFinite(r.leverage) && r.leverage > m ? r.leverage : m), d.leverageThreshold?.value ?? 0);
-  const x = { field: "leverage", type: "quantitative", title: "Leverage (hat value, no unit)", scale: { domain: [0, maxLeverage * 1.18], nice: false } };
+  const x = { field: "leverage", type: "quantitative", title: "Leverage (hat value, no unit)", scale: { domain: [0, maxLeverage * 1.18], nice: false }, axis: { tickCount: 6, format: ".3~f" } };
   const y = { field: "deletionResidual", type: "quantitative", title: "Deletion residual (units of σ̂₍ᵢ₎)" };
   const status = statusEncoding(d);
   const rules: Json[] = [];
@@ -653,7 +664,7 @@ export function forestSpec(rows: readonly ForestRow[], contrastLabel: string, op
           x,
           shape: { field: "kind", type: "nominal", scale: { domain: kinds, range: ["diamond", "square", "triangle-up"] }, legend: { title: null } },
           color: { field: "kind", type: "nominal", scale: { domain: kinds, range: [PALETTE.ink, PALETTE.within, PALETTE.finding] }, legend: { title: null } },
-          fill: { field: "kind", type: "nominal", scale: { domain: kinds, range: [PALETTE.ink, "transparent", "transparent"] }, legend: null },
+          fill: { field: "kind", type: "nominal", scale: { domain: kinds, range: [PALETTE.ink, "transparent", "transparent"] }, legend: { title: null } },
           tooltip: [
             { field: "label", type: "nominal", title: "Analysis" },
             { field: "kind", type: "nominal", title: "Kind" },
