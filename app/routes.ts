@@ -30,6 +30,7 @@ export default [
         route("deviations", "routes/study-deviations.tsx"),
         route("appendix", "routes/study-appendix.tsx"),
         route("reports", "routes/study-reports.tsx"),
+        route("reports/:rerunId", "routes/study-report.tsx"),
       ]),
     ]),
     ...prefix("admin", [

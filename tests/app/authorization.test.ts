@@ -38,6 +38,7 @@ const MATRIX: { file: string; path: string; expect: Outcome[]; resource?: true }
   { file: "study-deviations.tsx", path: "/studies/:s/deviations", expect: ["in", 403, 403, 200, 200, 403] },
   { file: "study-appendix.tsx", path: "/studies/:s/appendix", expect: ["in", 403, 403, 403, 200, 403] },
   { file: "study-reports.tsx", path: "/studies/:s/reports", expect: ["in", 403, 403, 200, 200, 200] },
+  { file: "study-report.tsx", path: "/studies/:s/reports/no-such-rerun", expect: ["in", 403, 403, 404, 404, 404] },
   { file: "study-layout.tsx", path: "/studies/no-such-study", expect: ["in", 404, 404, 404, 404, 404] },
   { file: "admin.studies.tsx", path: "/admin/studies", expect: ["in", 200, 403, 403, 403, 403] },
   { file: "admin.people.tsx", path: "/admin/people", expect: ["in", 200, 403, 403, 403, 403] },
