@@ -13,5 +13,7 @@ export function useTempDatabase(): { dir: string; dbFile: string } {
   process.env.DATABASE_URL = `file:${dbFile}`;
   process.env.DATA_DIR = path.join(dir, "data");
   process.env.MIGRATIONS_DIR = path.resolve("drizzle");
+  // No mail leaves a unit test unless the test starts its own SMTP fake and says where it is.
+  process.env.SMTP_PORT ??= "9";
   return { dir, dbFile };
 }
