@@ -14,6 +14,7 @@ import { appendAudit, canonicalJson, SYSTEM_ACTOR } from "../audit.server";
 import { loadLockedTable } from "../datasets/catalog.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
 import { enqueueJob, registerJobHandler, type Job } from "../jobs/jobs.server";
+import { notifyRerunAwaitsSignOff } from "../mail/notifications.server";
 import type { PersonActor } from "../people.server";
 import type { Population } from "../plans/planned-model";
 import { getPlannedModel, type StoredPlannedModel } from "../plans/plans.server";
@@ -152,7 +153,10 @@ export async function executeRerun(rerunId: string): Promise<void> {
       .set({ status: "completed", resultJson: json, resultSha256: hash, engineVersion: doc.engineVersion, finishedAt: isoNow() })
       .where(eq(t.reruns.id, rerunId));
     if (rerun.kind === "primary") {
-      for (const c of doc.checks.filter((c) => c.outcome === "finding")) {
+      const found = doc.checks.filter((c) => c.outcome === "finding");
+      // Nothing to assess: the rerun awaits sign-off as soon as it completes.
+      if (found.length === 0) await notifyRerunAwaitsSignOff(tx, { studyId: rerun.studyId, rerunId });
+      for (const c of found) {
         await tx.insert(t.findings).values({
           id: newId(),
           rerunId,
