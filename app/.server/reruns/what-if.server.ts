@@ -163,6 +163,7 @@ export function whatIfInputs(doc: RerunDocument, table: RerunTable, options: Wha
     candidates: shaped,
     flaggedCount,
     prespecifiedExclusion: options.prespecifiedExclusion ?? false,
+    prespecifiedRows: (doc.checks.find((c) => c.key === "cooks_distance")?.flagged ?? []).map((f) => f.row).sort((a, b) => a - b),
     canSave: options.canSave ?? true,
     notes,
   };

@@ -46,6 +46,8 @@ export type WhatIfInputs =
       flaggedCount: number;
       /** Did the plan name exclusion of influential subjects as a sensitivity analysis? */
       prespecifiedExclusion: boolean;
+      /** The rows that planned exclusion leaves out: those the Cook's distance check flagged. */
+      prespecifiedRows: number[];
       /** May the viewer turn the selection into a sensitivity rerun? */
       canSave: boolean;
       /** Plain-words caveats (weights held fixed, model-based errors, ...). */

@@ -55,6 +55,10 @@ export function WhatIfPanel({ inputs }: { inputs: WhatIfInputs }) {
       return next;
     });
   const rowsField = [...selected].sort((a, b) => a - b).join(",");
+  // planned exclusion leaves out exactly the subjects the Cook's distance check flagged
+  const planned = inputs.prespecifiedRows;
+  const isPlanned = inputs.prespecifiedExclusion && planned.length > 0 && planned.length === selected.size && planned.every((r) => selected.has(r));
+  const plannedSelectable = planned.length > 0 && planned.every((r) => inputs.candidates.some((c) => c.row === r));
 
   return (
     <section className="panel p-4" aria-label="What-if for influential subjects">
@@ -155,14 +159,26 @@ export function WhatIfPanel({ inputs }: { inputs: WhatIfInputs }) {
               <button type="submit" className="btn" disabled={selected.size === 0 || !computed?.after.ok}>
                 Keep as a sensitivity rerun
               </button>
-              {inputs.prespecifiedExclusion ? (
-                <span className="text-xs text-ink-soft">The plan names exclusion of influential subjects as a sensitivity analysis.</span>
+              {isPlanned ? (
+                <span className="inline-flex items-center gap-1.5 text-xs">
+                  <StatusLabel status="within" word="Pre-specified" />
+                  <span className="text-ink-soft">these are the subjects the plan's exclusion of influential subjects names.</span>
+                </span>
               ) : (
                 <span className="inline-flex items-center gap-1.5 text-xs">
                   <StatusLabel status="pending" word="Not pre-specified" />
-                  <span className="text-ink-soft">the plan does not name exclusion of influential subjects; the rerun is labelled so.</span>
+                  <span className="text-ink-soft">
+                    {inputs.prespecifiedExclusion
+                      ? "the plan's exclusion leaves out exactly the subjects the Cook's distance check flagged; this selection differs, so the rerun is labelled so."
+                      : "the plan does not name exclusion of influential subjects; the rerun is labelled so."}
+                  </span>
                 </span>
               )}
+              {inputs.prespecifiedExclusion && plannedSelectable && !isPlanned ? (
+                <button type="button" className="btn-quiet" onClick={() => setSelected(new Set(planned))}>
+                  Tick the planned exclusion ({planned.length})
+                </button>
+              ) : null}
             </Form>
           ) : null}
           <Caution className="mt-3" />
