@@ -8,7 +8,7 @@ import { generateDemoDataset } from "~/.server/demo/demo-dataset";
 import { blomQuantiles, figureData, FigureUnavailableError } from "~/.server/reruns/figure-data.server";
 import type { RerunDocument } from "~/.server/reruns/reruns.server";
 import { rerunTable } from "~/.server/reruns/what-if.server";
-import { figureSpec, forestPoints, forestSpec, type FigureData, type QqData } from "~/components/figures/specs";
+import { figureSpec, forestPoints, forestSpec, rewrapTitle, type FigureData, type QqData } from "~/components/figures/specs";
 import { fitLinear } from "~/engine";
 import { defaultChecks, evaluateChecks, type FigureKey } from "~/engine/checks";
 
@@ -76,6 +76,14 @@ describe("diagnostic figure specifications", () => {
       expect(typeof first.row).toBe("number");
     });
   }
+
+  it("rewraps the subtitle for a narrow frame without losing a word", () => {
+    const spec = figureSpec(figureData(doc, "qq", { withSubjectIds: true, table }));
+    const narrow = titleOf(rewrapTitle(spec, 300));
+    const words = (lines: string[]) => lines.join(" ").split(/\s+/);
+    expect(words(narrow.subtitle)).toEqual(words(titleOf(spec).subtitle));
+    for (const line of narrow.subtitle) expect(line.length).toBeLessThanOrEqual(48);
+  });
 
   it("names no subject when the viewer may not see subjects", () => {
     const data = figureData(doc, "influence", { withSubjectIds: false, table });

@@ -1,10 +1,10 @@
 import { useEffect, useRef, useState } from "react";
 import type { TopLevelSpec } from "vega-lite";
 import type { FigureKey } from "~/engine/checks";
-import { LARGE_N, type FigureData } from "./specs";
+import { LARGE_N, rewrapTitle, type FigureData } from "./specs";
 
 /** The frame's height: fixed, so the page does not move when the chart arrives. */
-export const FIGURE_FRAME_HEIGHT = 420;
+export const FIGURE_FRAME_HEIGHT = 440;
 
 type FigureAnswer = { caution: string; spec: TopLevelSpec; data: FigureData } | { caution: string; message: string };
 
@@ -61,7 +61,8 @@ export function RerunFigure({ studyId, rerunId, figure, term }: { studyId: strin
       }
       const { default: embed } = await import("vega-embed");
       if (abort.signal.aborted || !target.current) return;
-      const spec = { ...body.spec, datasets: { rows: body.data.rows } } as TopLevelSpec;
+      // the server wrapped the subtitle for a typical width; wrap it again for this frame
+      const spec = { ...rewrapTitle(body.spec, target.current.clientWidth), datasets: { rows: body.data.rows } } as TopLevelSpec;
       const result = await embed(target.current, spec, {
         actions: false,
         ast: true,

@@ -238,6 +238,21 @@ export function wrapWords(text: string, max: number): string[] {
   return lines;
 }
 
+/** Wraps a spec's subtitle again for a frame `width` pixels wide (the browser knows the width). */
+export function rewrapTitle(spec: TopLevelSpec, width: number): TopLevelSpec {
+  const t = (spec as unknown as { title?: { text: string; subtitle?: string[] } }).title;
+  if (!t?.subtitle || !(width > 0)) return spec;
+  const chars = Math.max(40, Math.floor(width / 6.2));
+  // the server's lines are paragraphs split at spaces: rejoin each sentence group, then wrap
+  const paragraphs: string[] = [];
+  for (const line of t.subtitle) {
+    const last = paragraphs.length - 1;
+    if (last >= 0 && !/[.:;]$/.test(paragraphs[last])) paragraphs[last] = `${paragraphs[last]} ${line}`;
+    else paragraphs.push(line);
+  }
+  return { ...spec, title: { ...t, subtitle: paragraphs.flatMap((p) => wrapWords(p, chars)) } } as unknown as TopLevelSpec;
+}
+
 function title(name: string, healthy: string, extra: string[], width: number | "container"): Json {
   const chars = width === "container" ? 90 : Math.max(40, Math.floor(width / 6.2));
   return { text: name, subtitle: [...wrapWords(`Healthy: ${healthy}`, chars), ...extra.flatMap((e) => wrapWords(e, chars))] };
