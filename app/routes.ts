@@ -12,8 +12,26 @@ export default [
   route("sign-out", "routes/sign-out.ts"),
   route("healthz", "routes/healthz.ts"),
 
+  // The read-only JSON API for other systems: bearer tokens, OpenAPI document (app/.server/api).
+  ...prefix("api/v1", [
+    route("openapi.json", "routes/api.v1.openapi.ts"),
+    route("studies", "routes/api.v1.studies.ts"),
+    route("studies/:studyId", "routes/api.v1.study.ts"),
+    route("studies/:studyId/datasets", "routes/api.v1.datasets.ts"),
+    route("studies/:studyId/datasets/:datasetId/versions/:versionId", "routes/api.v1.dataset-version.ts"),
+    route("studies/:studyId/plan-versions", "routes/api.v1.plan-versions.ts"),
+    route("studies/:studyId/plan-versions/:versionId", "routes/api.v1.plan-version.ts"),
+    route("studies/:studyId/reruns", "routes/api.v1.reruns.ts"),
+    route("studies/:studyId/reruns/:rerunId", "routes/api.v1.rerun.ts"),
+    route("studies/:studyId/deviations", "routes/api.v1.deviations.ts"),
+    route("studies/:studyId/appendices", "routes/api.v1.appendices.ts"),
+    route("studies/:studyId/appendices/:appendixId/file", "routes/api.v1.appendix-file.ts"),
+    route("*", "routes/api.v1.not-found.ts"),
+  ]),
+
   layout("routes/shell.tsx", [
     index("routes/home.tsx"),
+    route("profile", "routes/profile.tsx"),
     ...prefix("studies/:studyId", [
       layout("routes/study-layout.tsx", [
         index("routes/study-overview.tsx"),
@@ -37,6 +55,7 @@ export default [
       route("studies", "routes/admin.studies.tsx"),
       route("people", "routes/admin.people.tsx"),
       route("audit", "routes/admin.audit.tsx"),
+      route("api-clients", "routes/admin.api-clients.tsx"),
       route("outbox", "routes/admin.outbox.tsx"),
     ]),
   ]),

@@ -36,6 +36,9 @@ export default function Shell({ loaderData }: Route.ComponentProps) {
                 <NavLink to="/admin/audit" className={topLink}>
                   Audit trail
                 </NavLink>
+                <NavLink to="/admin/api-clients" className={topLink}>
+                  API clients
+                </NavLink>
                 <NavLink to="/admin/outbox" className={topLink}>
                   E-mail outbox
                 </NavLink>
@@ -44,7 +47,9 @@ export default function Shell({ loaderData }: Route.ComponentProps) {
           </nav>
           <div className="ml-auto flex items-center gap-3 text-sm">
             <span>
-              <span className="font-medium">{user.displayName}</span>
+              <NavLink to="/profile" className="font-medium text-ink" title="Your profile and API tokens">
+                {user.displayName}
+              </NavLink>
               {user.isAdmin ? <span className="ml-1 text-xs text-ink-soft">(administrator)</span> : null}
             </span>
             <Form method="post" action="/sign-out">

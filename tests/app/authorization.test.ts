@@ -20,7 +20,8 @@ type Who = "anonymous" | keyof typeof PEOPLE;
 const WHO: Who[] = ["anonymous", "admin", "data_manager", "biostatistician", "medical_writer", "sponsor_reader"];
 
 // 200 allowed, 403 forbidden, 404 not found, "in" = redirected to sign-in, "home" = redirected to /.
-type Outcome = 200 | 403 | 404 | "in" | "home";
+// 401: the API's answer without a bearer token (session cookies never authenticate API requests).
+type Outcome = 200 | 401 | 403 | 404 | "in" | "home";
 /** Columns in WHO order: anonymous, admin, data manager, biostatistician, medical writer, sponsor reader. */
 const MATRIX: { file: string; path: string; expect: Outcome[]; resource?: true }[] = [
   { file: "home.tsx", path: "/", expect: ["in", 200, 200, 200, 200, 200] },
@@ -44,6 +45,22 @@ const MATRIX: { file: string; path: string; expect: Outcome[]; resource?: true }
   { file: "admin.people.tsx", path: "/admin/people", expect: ["in", 200, 403, 403, 403, 403] },
   { file: "admin.audit.tsx", path: "/admin/audit", expect: ["in", 200, 403, 403, 403, 403] },
   { file: "admin.outbox.tsx", path: "/admin/outbox", expect: ["in", 200, 403, 403, 403, 403] },
+  { file: "profile.tsx", path: "/profile", expect: ["in", 200, 200, 200, 200, 200] },
+  { file: "admin.api-clients.tsx", path: "/admin/api-clients", expect: ["in", 200, 403, 403, 403, 403] },
+  // The API: a browser session is no credential there, so every role's cookie gets 401 like anonymous.
+  { file: "api.v1.openapi.ts", path: "/api/v1/openapi.json", expect: [200, 200, 200, 200, 200, 200], resource: true },
+  { file: "api.v1.studies.ts", path: "/api/v1/studies", expect: [401, 401, 401, 401, 401, 401], resource: true },
+  { file: "api.v1.study.ts", path: "/api/v1/studies/:s", expect: [401, 401, 401, 401, 401, 401], resource: true },
+  { file: "api.v1.datasets.ts", path: "/api/v1/studies/:s/datasets", expect: [401, 401, 401, 401, 401, 401], resource: true },
+  { file: "api.v1.dataset-version.ts", path: "/api/v1/studies/:s/datasets/x/versions/:v", expect: [401, 401, 401, 401, 401, 401], resource: true },
+  { file: "api.v1.plan-versions.ts", path: "/api/v1/studies/:s/plan-versions", expect: [401, 401, 401, 401, 401, 401], resource: true },
+  { file: "api.v1.plan-version.ts", path: "/api/v1/studies/:s/plan-versions/x", expect: [401, 401, 401, 401, 401, 401], resource: true },
+  { file: "api.v1.reruns.ts", path: "/api/v1/studies/:s/reruns", expect: [401, 401, 401, 401, 401, 401], resource: true },
+  { file: "api.v1.rerun.ts", path: "/api/v1/studies/:s/reruns/x", expect: [401, 401, 401, 401, 401, 401], resource: true },
+  { file: "api.v1.deviations.ts", path: "/api/v1/studies/:s/deviations", expect: [401, 401, 401, 401, 401, 401], resource: true },
+  { file: "api.v1.appendices.ts", path: "/api/v1/studies/:s/appendices", expect: [401, 401, 401, 401, 401, 401], resource: true },
+  { file: "api.v1.appendix-file.ts", path: "/api/v1/studies/:s/appendices/x/file", expect: [401, 401, 401, 401, 401, 401], resource: true },
+  { file: "api.v1.not-found.ts", path: "/api/v1/no/such/endpoint", expect: [404, 404, 404, 404, 404, 404], resource: true },
   { file: "sign-in.tsx", path: "/sign-in", expect: [200, "home", "home", "home", "home", "home"] },
   { file: "healthz.ts", path: "/healthz", expect: [200, 200, 200, 200, 200, 200] },
   { file: "not-found.tsx", path: "/no/such/page", expect: [404, 404, 404, 404, 404, 404] },
@@ -100,6 +117,7 @@ describe("every page route answers each role as DESIGN.md says", () => {
         const res = await get(path, who);
         expect(outcomeOf(res, false)).toBe(row.expect[i]);
         if (res.status === 403) expect(await res.text()).toMatch(/you need the .+ role/);
+        if (res.status === 401) expect((await res.json()).error.code).toBe("unauthorized");
       });
     }
   }

@@ -1,0 +1,223 @@
+/**
+ * API: reruns with their status, results summary, checks, findings, signatures and
+ * sensitivity comparison. The guard is the report permission; people who may also read
+ * reruns (rerun.view) see every rerun, the others (sponsor readers) only published ones, as
+ * on the report pages. Subject identifiers are given only to roles that may see subject-level
+ * rows (dataset.rows); everyone else reads ranks and counts.
+ */
+import { and, desc, eq, inArray } from "drizzle-orm";
+import { db, t } from "../db/index.server";
+import { findingsOf, signaturesOf } from "../reruns/findings.server";
+import { checkView, reportedContrasts } from "../reruns/rerun-view.server";
+import { sensitivityReruns, type Rerun, type RerunDocument } from "../reruns/reruns.server";
+import { requireStudyForPrincipal } from "../study-access.server";
+import { subjectRedactor, type Redactor } from "./redact";
+import { ApiError } from "./respond.server";
+import type { Body, RerunAnswer, RerunsAnswer } from "./schemas";
+import type { ApiPrincipal } from "./tokens.server";
+
+type RerunOut = Body<typeof RerunAnswer>["rerun"];
+
+const finite = (x: number | null | undefined): number | null => (typeof x === "number" && Number.isFinite(x) ? x : null);
+
+/** Who may see what of a study's reruns, by the permission table. */
+async function rerunAccess(p: ApiPrincipal, studyId: string) {
+  const { study, allowed } = await requireStudyForPrincipal(p, studyId, "report.view");
+  return { study, everyRerun: allowed.has("rerun.view"), withSubjectIds: allowed.has("dataset.rows") };
+}
+
+async function rerunRows(studyId: string, only?: string) {
+  const rows = await db
+    .select({ r: t.reruns, m: t.plannedModels, dv: t.datasetVersions, d: t.datasets, pv: t.planVersions })
+    .from(t.reruns)
+    .innerJoin(t.plannedModels, eq(t.plannedModels.id, t.reruns.plannedModelId))
+    .innerJoin(t.datasetVersions, eq(t.datasetVersions.id, t.reruns.datasetVersionId))
+    .innerJoin(t.datasets, eq(t.datasets.id, t.datasetVersions.datasetId))
+    .innerJoin(t.planVersions, eq(t.planVersions.id, t.reruns.planVersionId))
+    .where(only ? and(eq(t.reruns.studyId, studyId), eq(t.reruns.id, only)) : eq(t.reruns.studyId, studyId))
+    .orderBy(desc(t.reruns.createdAt));
+  const ids = rows.map((r) => r.r.id);
+  const findingRows = ids.length ? await db.select({ rerunId: t.findings.rerunId }).from(t.findings).where(inArray(t.findings.rerunId, ids)) : [];
+  const counts = new Map<string, number>();
+  for (const f of findingRows) counts.set(f.rerunId, (counts.get(f.rerunId) ?? 0) + 1);
+  return rows.map(({ r, m, dv, d, pv }) => ({ row: r, out: rerunOut(r, m, dv, d, pv, counts.get(r.id) ?? 0) }));
+}
+
+function rerunOut(
+  r: Rerun,
+  m: typeof t.plannedModels.$inferSelect,
+  dv: typeof t.datasetVersions.$inferSelect,
+  d: typeof t.datasets.$inferSelect,
+  pv: typeof t.planVersions.$inferSelect,
+  findings: number,
+): RerunOut {
+  return {
+    id: r.id,
+    kind: r.kind,
+    label: r.label,
+    status: r.status,
+    failureReason: r.failureReason,
+    plannedModel: { id: m.id, key: m.key, title: m.title },
+    planVersion: { id: pv.id, version: pv.version },
+    dataset: { versionId: dv.id, name: d.name, version: dv.version, sha256: dv.sha256 },
+    engineVersion: r.engineVersion,
+    resultSha256: r.resultSha256,
+    parentRerunId: r.parentRerunId,
+    prespecified: r.prespecified,
+    findings,
+    createdAt: r.createdAt,
+    finishedAt: r.finishedAt,
+    signedAt: r.signedAt,
+    publishedAt: r.publishedAt,
+  };
+}
+
+export async function listStudyReruns(p: ApiPrincipal, studyId: string): Promise<Body<typeof RerunsAnswer>> {
+  const { study, everyRerun } = await rerunAccess(p, studyId);
+  const rows = await rerunRows(study.id);
+  return { reruns: rows.filter((r) => everyRerun || r.row.publishedAt !== null).map((r) => r.out) };
+}
+
+function resultsOut(doc: RerunDocument): NonNullable<Body<typeof RerunAnswer>["results"]> {
+  const r = doc.result;
+  const common = {
+    description: doc.description,
+    method: r.method.description,
+    family: r.family,
+    link: r.link,
+    n: r.n,
+    rank: r.rank,
+    dfResidual: finite(r.dfResidual),
+    rows: doc.rows,
+    coefficients: r.coefficients.map((c) => ({
+      name: c.name,
+      term: c.term,
+      estimate: finite(c.estimate),
+      se: finite(c.se),
+      statistic: finite(c.statistic),
+      p: finite(c.p),
+      lower: finite(c.lower),
+      upper: finite(c.upper),
+    })),
+  };
+  if (r.kind !== "linear") {
+    // Generalized linear models: deviance-based fit; marginal treatment effects are not in this summary yet.
+    return {
+      ...common,
+      covarianceType: null,
+      fit: { sigma: null, rSquared: null, adjRSquared: null, fStatistic: null, fP: null, aic: finite(r.fit.aic), deviance: finite(r.fit.deviance), dispersion: finite(r.fit.dispersion) },
+      adjustedMeans: null,
+      contrasts: null,
+    };
+  }
+  return {
+    ...common,
+    covarianceType: r.covarianceType,
+    fit: {
+      sigma: finite(r.fit.sigma),
+      rSquared: finite(r.fit.rSquared),
+      adjRSquared: finite(r.fit.adjRSquared),
+      fStatistic: finite(r.fit.fStatistic),
+      fP: finite(r.fit.fP),
+      aic: finite(r.fit.aic),
+      deviance: null,
+      dispersion: null,
+    },
+    adjustedMeans:
+      r.adjustedMeans?.map((a) => ({
+        level: a.level,
+        estimate: finite(a.estimate),
+        se: finite(a.se),
+        lower: finite(a.lower),
+        upper: finite(a.upper),
+        hc3: { se: finite(a.hc3.se), lower: finite(a.hc3.lower), upper: finite(a.hc3.upper) },
+      })) ?? null,
+    contrasts:
+      r.contrasts?.map((c) => ({
+        label: c.label,
+        level: c.level,
+        reference: c.reference,
+        estimate: finite(c.estimate),
+        se: finite(c.se),
+        statistic: finite(c.statistic),
+        p: finite(c.p),
+        lower: finite(c.lower),
+        upper: finite(c.upper),
+        hc3: { se: finite(c.hc3.se), statistic: finite(c.hc3.statistic), p: finite(c.hc3.p), lower: finite(c.hc3.lower), upper: finite(c.hc3.upper) },
+      })) ?? null,
+  };
+}
+
+function checksOut(doc: RerunDocument, withSubjectIds: boolean, redact: Redactor): Body<typeof RerunAnswer>["checks"] {
+  return doc.checks.map((c) => {
+    const v = checkView(c, withSubjectIds);
+    const top = (c.flagged ?? []).slice(0, 5);
+    return {
+      key: c.key,
+      label: c.label,
+      outcome: c.outcome,
+      statistic: withSubjectIds ? c.statistic : redact.text(c.statistic, c.key),
+      threshold: c.threshold,
+      summary: withSubjectIds ? c.summary : redact.text(c.summary, c.key),
+      remedy: c.remedy,
+      flaggedCount: v.flaggedCount,
+      flagged: top.map((f) => ({ rank: f.rank, value: finite(f.value), ...(withSubjectIds ? { subjectId: f.id ?? `row ${f.row}` } : {}) })),
+    };
+  });
+}
+
+const parseDoc = (r: Rerun): RerunDocument | null => (r.resultJson ? (JSON.parse(r.resultJson) as RerunDocument) : null);
+
+export async function getStudyRerun(p: ApiPrincipal, studyId: string, rerunId: string): Promise<Body<typeof RerunAnswer>> {
+  const { study, everyRerun, withSubjectIds } = await rerunAccess(p, studyId);
+  const [found] = await rerunRows(study.id, rerunId);
+  // An unpublished rerun does not exist for a reader who may see only published ones.
+  if (!found || (!everyRerun && found.row.publishedAt === null)) throw new ApiError("not_found", "There is no such rerun in this study.");
+  const doc = parseDoc(found.row);
+  const [findings, signatures, children] = await Promise.all([
+    findingsOf(rerunId),
+    signaturesOf(rerunId),
+    found.row.kind === "primary" ? sensitivityReruns(rerunId) : Promise.resolve([]),
+  ]);
+  const shownChildren = children.filter((c) => everyRerun || c.publishedAt !== null).map((c) => ({ row: c, doc: parseDoc(c) }));
+  const redact = subjectRedactor([doc, ...shownChildren.map((c) => c.doc)].filter((d): d is RerunDocument => d !== null));
+  const txt = (s: string, key?: string | null) => (withSubjectIds ? s : redact.text(s, key));
+  const body: Body<typeof RerunAnswer> = {
+    rerun: { ...found.out, label: found.out.label === null ? null : txt(found.out.label), failureReason: found.out.failureReason === null ? null : txt(found.out.failureReason) },
+    results: doc ? resultsOut(doc) : null,
+    checks: doc ? checksOut(doc, withSubjectIds, redact) : [],
+    findings: findings.map((f) => ({
+      id: f.id,
+      kind: f.kind,
+      checkKey: f.checkKey,
+      statistic: f.statistic === null ? null : txt(f.statistic, f.checkKey),
+      threshold: f.threshold,
+      summary: txt(f.summary, f.checkKey),
+      assessment: f.assessment
+        ? {
+            category: f.assessment.category,
+            impact: f.assessment.impact,
+            action: f.assessment.action,
+            rationale: txt(f.assessment.rationale, f.checkKey),
+            recordedBy: f.assessment.recordedByName,
+            recordedAt: f.assessment.recordedAt,
+          }
+        : null,
+    })),
+    signatures: signatures.map((s) => ({ signerName: s.signerName, meaning: s.meaning, signedAt: s.signedAt })),
+    sensitivity: shownChildren.map(({ row, doc: d }) => ({
+      id: row.id,
+      label: row.label === null ? null : txt(row.label),
+      status: row.status,
+      prespecified: row.prespecified,
+      contrasts: d ? reportedContrasts(d).map((c) => ({ label: c.label, estimate: finite(c.estimate), lower: finite(c.lower), upper: finite(c.upper), p: finite(c.p) })) : [],
+    })),
+  };
+  if (!withSubjectIds) {
+    const leaked = redact.leak(body);
+    if (leaked !== null) throw new Error(`A rerun answer for a reader without subject-level access still names a subject: ${leaked.slice(0, 80)}`);
+  }
+  return body;
+}
+
+

@@ -1,0 +1,340 @@
+/**
+ * The API's answers as Zod schemas: the route handlers are typed by them and the OpenAPI
+ * document (openapi.ts) is generated from them, so the two cannot disagree. Objects are
+ * strict (`additionalProperties: false` in the document): a field the document does not
+ * name is an error in the tests, which is how a leak of an undocumented field is caught.
+ */
+import { extendZodWithOpenApi, OpenAPIRegistry } from "@asteasolutions/zod-to-openapi";
+import { z } from "zod";
+import { CAUTION } from "~/components/caution";
+import { CHECKS, type CheckKey } from "~/engine/checks";
+import { modelSpecSchema } from "~/engine/model-spec";
+import { STUDY_ROLES } from "../db/schema";
+import { STUDY_PERMISSIONS, type StudyAction } from "../permissions.server";
+import { plannedCheckSchema, populationSchema, sensitivitySchema } from "../plans/planned-model";
+import { API_ERROR_CODES } from "./respond.server";
+
+extendZodWithOpenApi(z);
+
+export const registry = new OpenAPIRegistry();
+
+const STUDY_ACTIONS_LIST = Object.keys(STUDY_PERMISSIONS) as [StudyAction, ...StudyAction[]];
+
+const Caution = z.literal(CAUTION).describe("Shown with every answer: results support, but do not replace, qualified statistical and medical review.");
+/** A number from a stored result; null where it is not defined (e.g. a p-value of an aliased coefficient). */
+const Num = z.number().nullable();
+const Time = z.string().describe("ISO 8601 UTC time");
+const TimeOrNull = Time.nullable();
+const Sha256 = z.string().regex(/^[0-9a-f]{64}$/).describe("SHA-256, lowercase hex");
+
+/** An answer: the caution plus the endpoint's own fields. */
+function answer<S extends z.ZodRawShape>(name: string, shape: S) {
+  return registry.register(name, z.strictObject({ caution: Caution, ...shape }));
+}
+
+export const ErrorAnswer = answer("Error", {
+  error: z.strictObject({
+    code: z.enum(API_ERROR_CODES).describe("Stable: clients may branch on it"),
+    message: z.string().describe("What went wrong and what to do, in words for a person"),
+  }),
+});
+
+// Studies -------------------------------------------------------------------------------------
+
+const Study = registry.register(
+  "Study",
+  z.strictObject({
+    id: z.string(),
+    code: z.string(),
+    title: z.string(),
+    sponsor: z.string(),
+    compound: z.string().nullable(),
+    indication: z.string().nullable(),
+    phase: z.string().nullable(),
+    role: z.enum(STUDY_ROLES).describe("The token's person's role on this study"),
+    allowedActions: z.array(z.enum(STUDY_ACTIONS_LIST)).describe("What that role may do on this study"),
+  }),
+);
+
+export const StudiesAnswer = answer("StudiesAnswer", { studies: z.array(Study) });
+export const StudyAnswer = answer("StudyAnswer", { study: Study });
+
+// Datasets ------------------------------------------------------------------------------------
+
+const DatasetVersion = registry.register(
+  "DatasetVersion",
+  z.strictObject({
+    id: z.string(),
+    version: z.int(),
+    status: z.enum(["draft", "locked", "superseded"]),
+    format: z.enum(["csv", "dataset-json"]),
+    fileName: z.string(),
+    byteSize: z.int(),
+    sha256: Sha256.describe("SHA-256 of the exact bytes uploaded; fixed when the version is locked"),
+    rowCount: z.int(),
+    columnCount: z.int(),
+    uploadedBy: z.string().nullable(),
+    uploadedAt: Time,
+    lockedBy: z.string().nullable(),
+    lockedAt: TimeOrNull,
+    derivedFromVersion: z.int().nullable().describe("Set when this version was made from another by removing identifier columns"),
+    removedColumns: z.array(z.string()),
+  }),
+);
+
+const Column = registry.register(
+  "Column",
+  z.strictObject({
+    name: z.string(),
+    label: z.string().nullable(),
+    type: z.enum(["number", "text", "date", "datetime"]),
+    nonMissing: z.int(),
+    missing: z.int(),
+    min: Num.optional(),
+    max: Num.optional(),
+    mean: Num.optional(),
+    sd: Num.optional(),
+    earliest: z.string().optional(),
+    latest: z.string().optional(),
+    levels: z
+      .array(z.strictObject({ value: z.string(), count: z.int() }))
+      .optional()
+      .describe("Level counts of a text column with few distinct values; never given for subject identifier columns"),
+  }),
+);
+
+export const DatasetsAnswer = answer("DatasetsAnswer", {
+  datasets: z.array(z.strictObject({ id: z.string(), name: z.string(), versions: z.array(DatasetVersion) })),
+});
+
+export const DatasetVersionAnswer = answer("DatasetVersionAnswer", {
+  dataset: z.strictObject({ id: z.string(), name: z.string() }),
+  version: DatasetVersion,
+  keyColumns: z.array(z.string()).describe("Columns that identify a subject"),
+  columns: z.array(Column),
+});
+
+// Analysis plans ------------------------------------------------------------------------------
+
+const planVersionShape = {
+    id: z.string(),
+    planId: z.string(),
+    planName: z.string(),
+    version: z.int(),
+    title: z.string(),
+    status: z.enum(["draft", "awaiting_approval", "approved", "superseded"]),
+    sapName: z.string().nullable(),
+    sapVersion: z.string().nullable(),
+    sapDate: z.string().nullable(),
+    author: z.string().nullable(),
+    approvedBy: z.string().nullable(),
+    approvedAt: TimeOrNull,
+    createdAt: Time,
+    updatedAt: Time,
+};
+const PlanVersion = registry.register("PlanVersion", z.strictObject(planVersionShape));
+
+const PlannedModel = registry.register(
+  "PlannedModel",
+  z.strictObject({
+    id: z.string(),
+    key: z.string(),
+    title: z.string(),
+    datasetName: z.string(),
+    population: populationSchema,
+    spec: modelSpecSchema.describe("The model specification: the same object the headless rerun command reads"),
+    checks: z.array(plannedCheckSchema),
+    sensitivity: z.array(sensitivitySchema),
+  }),
+);
+
+export const PlanVersionsAnswer = answer("PlanVersionsAnswer", { planVersions: z.array(PlanVersion) });
+export const PlanVersionAnswer = answer("PlanVersionAnswer", {
+  planVersion: registry.register("PlanVersionDetail", z.strictObject({ ...planVersionShape, editors: z.array(z.string()).describe("Everyone who saved a change to this version") })),
+  plannedModels: z.array(PlannedModel),
+});
+
+// Reruns --------------------------------------------------------------------------------------
+
+const RerunStatus = z.enum(["queued", "running", "completed", "failed"]);
+
+const Rerun = registry.register(
+  "Rerun",
+  z.strictObject({
+    id: z.string(),
+    kind: z.enum(["primary", "sensitivity"]),
+    label: z.string().nullable(),
+    status: RerunStatus,
+    failureReason: z.string().nullable(),
+    plannedModel: z.strictObject({ id: z.string(), key: z.string(), title: z.string() }),
+    planVersion: z.strictObject({ id: z.string(), version: z.int() }),
+    dataset: z.strictObject({ versionId: z.string(), name: z.string(), version: z.int(), sha256: Sha256 }),
+    engineVersion: z.string().nullable(),
+    resultSha256: Sha256.nullable().describe("SHA-256 of the stored result; the same inputs always give the same hash"),
+    parentRerunId: z.string().nullable(),
+    prespecified: z.boolean(),
+    findings: z.int(),
+    createdAt: Time,
+    finishedAt: TimeOrNull,
+    signedAt: TimeOrNull,
+    publishedAt: TimeOrNull.describe("When the signature published it to the study's sponsor readers"),
+  }),
+);
+
+const Interval = { se: Num, lower: Num, upper: Num };
+
+const Results = registry.register(
+  "RerunResults",
+  z.strictObject({
+    description: z.string(),
+    method: z.string(),
+    family: z.string().describe("gaussian, binomial, poisson, quasipoisson or negative-binomial"),
+    link: z.string(),
+    covarianceType: z.enum(["model", "HC0", "HC1", "HC2", "HC3"]).nullable().describe("Linear models: the coefficient table's standard errors"),
+    n: z.int(),
+    rank: z.int(),
+    dfResidual: Num,
+    rows: z.strictObject({ inFile: z.int(), outsidePopulation: z.int(), excludedByOption: z.int(), missingCells: z.int(), used: z.int() }),
+    coefficients: z.array(z.strictObject({ name: z.string(), term: z.string().nullable(), estimate: Num, statistic: Num, p: Num, ...Interval })),
+    fit: z
+      .strictObject({ sigma: Num, rSquared: Num, adjRSquared: Num, fStatistic: Num, fP: Num, aic: Num, deviance: Num, dispersion: Num })
+      .describe("Linear models fill sigma to fP; generalized linear models deviance and dispersion"),
+    adjustedMeans: z
+      .array(z.strictObject({ level: z.string(), estimate: Num, ...Interval, hc3: z.strictObject(Interval) }))
+      .nullable()
+      .describe("Adjusted treatment means; null when the model names no treatment"),
+    contrasts: z
+      .array(
+        z.strictObject({
+          label: z.string(),
+          level: z.string(),
+          reference: z.string(),
+          estimate: Num,
+          statistic: Num,
+          p: Num,
+          ...Interval,
+          hc3: z.strictObject({ statistic: Num, p: Num, ...Interval }),
+        }),
+      )
+      .nullable()
+      .describe("Treatment contrasts against the reference arm, model-based and with HC3 errors"),
+  }),
+);
+
+const checkKeys = CHECKS.map((c) => c.key) as [CheckKey, ...CheckKey[]];
+
+const Check = registry.register(
+  "CheckOutcome",
+  z.strictObject({
+    key: z.enum(checkKeys),
+    label: z.string(),
+    outcome: z.enum(["within", "finding", "not_computed"]),
+    statistic: z.string(),
+    threshold: z.string(),
+    summary: z.string(),
+    remedy: z.string(),
+    flaggedCount: z.int(),
+    flagged: z
+      .array(
+        z.strictObject({
+          rank: z.int().describe("1 is the most extreme"),
+          value: Num,
+          subjectId: z.string().optional().describe("Only for roles that may see subject-level data"),
+        }),
+      )
+      .describe("The five most extreme flagged subjects"),
+  }),
+);
+
+const Assessment = z.strictObject({
+  category: z.enum(["model_assumption", "data", "specification"]),
+  impact: z.enum(["none", "minor", "changes_conclusion"]),
+  action: z.string(),
+  rationale: z.string(),
+  recordedBy: z.string().nullable(),
+  recordedAt: Time,
+});
+
+const Finding = registry.register(
+  "Finding",
+  z.strictObject({
+    id: z.string(),
+    kind: z.enum(["check", "not_estimable"]),
+    checkKey: z.string(),
+    statistic: z.string().nullable(),
+    threshold: z.string().nullable(),
+    summary: z.string(),
+    assessment: Assessment.nullable(),
+  }),
+);
+
+const ReportedContrast = z.strictObject({ label: z.string(), estimate: Num, lower: Num, upper: Num, p: Num });
+
+export const RerunsAnswer = answer("RerunsAnswer", {
+  reruns: z.array(Rerun).describe("Newest first. Sponsor readers get only published reruns."),
+});
+
+export const RerunAnswer = answer("RerunAnswer", {
+  rerun: Rerun,
+  results: Results.nullable().describe("Null until the rerun has completed"),
+  checks: z.array(Check),
+  findings: z.array(Finding),
+  signatures: z.array(z.strictObject({ signerName: z.string(), meaning: z.string(), signedAt: Time })),
+  sensitivity: z
+    .array(
+      z.strictObject({
+        id: z.string(),
+        label: z.string().nullable(),
+        status: RerunStatus,
+        prespecified: z.boolean(),
+        contrasts: z.array(ReportedContrast).describe("As the analysis reports them: HC3 intervals for the robust-errors analysis"),
+      }),
+    )
+    .describe("Sensitivity reruns beside a primary rerun, with their treatment contrasts"),
+});
+
+// Deviations ----------------------------------------------------------------------------------
+
+export const DeviationsAnswer = answer("DeviationsAnswer", {
+  deviations: z.array(
+    registry.register(
+      "Deviation",
+      z.strictObject({
+        id: z.string(),
+        category: z.enum(["model_assumption", "data", "specification"]),
+        impact: z.enum(["none", "minor", "changes_conclusion"]),
+        action: z.string(),
+        rationale: z.string(),
+        recordedBy: z.string().nullable(),
+        recordedAt: Time,
+        rerun: z.strictObject({ id: z.string(), label: z.string().nullable(), signedAt: TimeOrNull }).nullable(),
+        plannedModel: z.strictObject({ key: z.string(), title: z.string() }).nullable(),
+        finding: z
+          .strictObject({ id: z.string(), checkKey: z.string(), summary: z.string(), statistic: z.string().nullable(), threshold: z.string().nullable() })
+          .nullable(),
+      }),
+    ),
+  ),
+});
+
+// Appendices ----------------------------------------------------------------------------------
+
+export const AppendicesAnswer = answer("AppendicesAnswer", {
+  appendices: z.array(
+    registry.register(
+      "Appendix",
+      z.strictObject({
+        id: z.string(),
+        planVersionId: z.string().nullable(),
+        rerunIds: z.array(z.string()),
+        sha256: Sha256.describe("SHA-256 of the stored .docx file"),
+        byteSize: z.int(),
+        exportedBy: z.string().nullable(),
+        exportedAt: Time,
+        download: z.string().describe("Path of the file under this API"),
+      }),
+    ),
+  ),
+});
+
+export type Body<S extends z.ZodType> = Omit<z.output<S>, "caution">;
