@@ -10,6 +10,7 @@ import { fmt, fmtCi, fmtP, utc } from "~/components/format";
 import { FieldError, PageHeader } from "~/components/page";
 import { AdjustedMeansTable, CheckCard, CoefficientTable, ContrastsTable, MarginalMeansTable, RatioTable } from "~/components/rerun-results";
 import { StatusLabel } from "~/components/status";
+import { canonicalJson } from "~/.server/audit.server";
 import { actorOf } from "~/.server/people.server";
 import { getPlannedModel } from "~/.server/plans/plans.server";
 import { SENSITIVITY_KINDS, SENSITIVITY_LABELS, type PlannedSensitivity } from "~/.server/plans/planned-model";
@@ -66,7 +67,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const plannedSensitivity = planned.sensitivity.map((s) => {
     const options = optionsFor(s, r.doc);
     const label = options ? (s.kind === "alternative_covariates" ? `${s.label}: ${(s.covariates ?? []).join(", ")}` : SENSITIVITY_LABELS[s.kind]) : SENSITIVITY_LABELS[s.kind];
-    const done = options ? children.some((c) => c.optionsJson === JSON.stringify(options) || c.label === labelOf(options)) : false;
+    const done = options ? children.some((c) => c.optionsJson === canonicalJson(options)) : false;
     return { kind: s.kind, label, runnable: Boolean(options) && r.rerun.status === "completed" && !r.rerun.signedAt, done, note: options ? null : "No subject was flagged, so there is nothing to exclude." };
   });
   const whatIf: WhatIfInputs = { available: false, reason: "The what-if opens when the rerun has completed." };
@@ -105,10 +106,6 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     },
     whatIf,
   };
-}
-
-function labelOf(o: RerunOptions): string {
-  return JSON.stringify(o);
 }
 
 const Intent = z.discriminatedUnion("intent", [
