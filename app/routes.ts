@@ -47,6 +47,7 @@ export default [
         route("reruns/:rerunId", "routes/study-rerun.tsx"),
         route("deviations", "routes/study-deviations.tsx"),
         route("appendix", "routes/study-appendix.tsx"),
+        route("appendix/download", "routes/study-appendix-download.ts"),
         route("reports", "routes/study-reports.tsx"),
         route("reports/:rerunId", "routes/study-report.tsx"),
       ]),

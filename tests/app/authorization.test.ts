@@ -38,6 +38,7 @@ const MATRIX: { file: string; path: string; expect: Outcome[]; resource?: true }
   { file: "study-rerun-figures.ts", path: "/studies/:s/reruns/no-such-rerun/figures/qq", expect: ["in", 403, 403, 404, 404, 403] },
   { file: "study-deviations.tsx", path: "/studies/:s/deviations", expect: ["in", 403, 403, 200, 200, 403] },
   { file: "study-appendix.tsx", path: "/studies/:s/appendix", expect: ["in", 403, 403, 403, 200, 403] },
+  { file: "study-appendix-download.ts", path: "/studies/:s/appendix/download?id=no-such-appendix", expect: ["in", 403, 403, 404, 404, 404], resource: true },
   { file: "study-reports.tsx", path: "/studies/:s/reports", expect: ["in", 403, 403, 200, 200, 200] },
   { file: "study-report.tsx", path: "/studies/:s/reports/no-such-rerun", expect: ["in", 403, 403, 404, 404, 404] },
   { file: "study-layout.tsx", path: "/studies/no-such-study", expect: ["in", 404, 404, 404, 404, 404] },

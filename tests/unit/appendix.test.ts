@@ -18,6 +18,7 @@ useTempDatabase();
 const appendix = await import("~/.server/appendix/appendix.server");
 const { buildAppendixContent } = await import("~/.server/appendix/build-content.server");
 const narratives = await import("~/.server/appendix/narratives.server");
+const { specToSvg } = await import("~/.server/appendix/figures.server");
 const { getRerun } = await import("~/.server/reruns/reruns.server");
 const { db, t } = await import("~/.server/db/index.server");
 const { eq } = await import("drizzle-orm");
@@ -142,7 +143,13 @@ describe("the Word appendix of a signed rerun", () => {
     expect(media.length).toBe(expected.length);
     expect(documentXml).toMatch(/SEQ Figure/);
     expect(documentXml).toMatch(/SEQ Table/);
-  });
+    // every figure keeps its words: the title and axis labels are <text> in Noto Sans
+    for (const f of expected) {
+      const svg = await specToSvg(f.spec as never);
+      expect((svg.match(/<text\b/g) ?? []).length, f.caption).toBeGreaterThan(8);
+      expect(svg).toMatch(/font-family="Noto Sans"/);
+    }
+  }, 60_000);
 
   it("states the caution, the provenance on the title page, and the narrative", () => {
     const text = decode(cellText(documentXml));

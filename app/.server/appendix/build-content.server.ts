@@ -19,7 +19,7 @@ import { contrastsOf, reportedContrasts } from "../reruns/rerun-view.server";
 import { getRerun, sensitivityReruns, type RerunDocument } from "../reruns/reruns.server";
 import { rerunTable } from "../reruns/what-if.server";
 import { getStudyOr404 } from "../studies.server";
-import { NARRATIVE_SECTIONS, SECTION_TITLES, type AppendixContent, type AppendixSection, type Block, type NarrativeSection } from "./content";
+import { NARRATIVE_SECTIONS, SECTION_TITLES, type AppendixContent, type AppendixSection, type Block, type NarrativeSection } from "~/components/appendix-content";
 import { methodsProse } from "./methods";
 import { currentNarratives, type Narrative } from "./narratives.server";
 
@@ -425,3 +425,14 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
 }
 
 export { NARRATIVE_SECTIONS };
+
+/** The study's signed primary reruns, newest signature first, for choosing an appendix's scope. */
+export async function signedPrimaryReruns(studyId: string) {
+  const rows = await db
+    .select({ id: t.reruns.id, signedAt: t.reruns.signedAt, planVersionId: t.reruns.planVersionId, planVersion: t.planVersions.version, modelTitle: t.plannedModels.title })
+    .from(t.reruns)
+    .innerJoin(t.plannedModels, eq(t.plannedModels.id, t.reruns.plannedModelId))
+    .innerJoin(t.planVersions, eq(t.planVersions.id, t.reruns.planVersionId))
+    .where(and(eq(t.reruns.studyId, studyId), eq(t.reruns.kind, "primary"), isNotNull(t.reruns.signedAt)));
+  return rows.map((r) => ({ ...r, signedAt: r.signedAt ?? "" })).sort((a, b) => (a.signedAt < b.signedAt ? 1 : -1));
+}

@@ -6,7 +6,7 @@
  * (no system fonts, so the picture is the same on every machine).
  */
 import { createHash } from "node:crypto";
-import { Resvg } from "@resvg/resvg-js";
+import { Resvg, type ResvgRenderOptions } from "@resvg/resvg-js";
 import * as vega from "vega";
 import { compile, type TopLevelSpec } from "vega-lite";
 import { FONT_FAMILY, notoSans } from "./fonts.server";
@@ -35,14 +35,18 @@ export async function specToSvg(spec: TopLevelSpec): Promise<string> {
   }
 }
 
-/** SVG to PNG with the shipped Noto Sans faces; system fonts are not loaded. */
-export function svgToPng(svg: string, scale = PNG_SCALE): { png: Buffer; width: number; height: number } {
+/** resvg's options: the shipped Noto Sans faces only (resvg silently drops text when no font matches). */
+export function resvgOptions(scale = PNG_SCALE): ResvgRenderOptions {
   const fonts = notoSans();
-  const resvg = new Resvg(svg, {
+  return {
     fitTo: { mode: "zoom", value: scale },
     font: { loadSystemFonts: false, fontFiles: [fonts.regularPath, fonts.boldPath], defaultFontFamily: FONT_FAMILY, sansSerifFamily: FONT_FAMILY },
-  });
-  const image = resvg.render();
+  };
+}
+
+/** SVG to PNG with the shipped Noto Sans faces; system fonts are not loaded. */
+export function svgToPng(svg: string, scale = PNG_SCALE): { png: Buffer; width: number; height: number } {
+  const image = new Resvg(svg, resvgOptions(scale)).render();
   return { png: image.asPng(), width: image.width, height: image.height };
 }
 

@@ -2,7 +2,7 @@
  * The appendix as one content model: everything the Word file and the page's preview show, in
  * order. Two renderers read it (docx.server.ts for the .docx, the appendix page for HTML), so
  * the preview is the document. Everything but the narrative blocks comes from signed results.
- * Plain data: no functions, no classes, safe to send to the browser.
+ * Plain data, no server imports: the page imports it for the preview, the server for the export.
  */
 
 /** Sections a medical writer may add narrative paragraphs to, in document order. */

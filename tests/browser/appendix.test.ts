@@ -1,0 +1,59 @@
+/**
+ * The medical writer exports the Word appendix in a real browser. It relies on the signed rerun
+ * that tests/browser/audit-flow.test.ts leaves in the shared stack (that file runs earlier:
+ * the app project runs its files one at a time, in name order).
+ */
+import { createHash } from "node:crypto";
+import { readFileSync } from "node:fs";
+import JSZip from "jszip";
+import type { Browser } from "playwright-core";
+import { afterAll, beforeAll, describe, expect, inject, it } from "vitest";
+import { launchBrowser, screenshot, signInAs } from "../support/browser";
+
+const stack = inject("stack");
+let browser: Browser;
+
+beforeAll(async () => {
+  browser = await launchBrowser();
+});
+afterAll(async () => {
+  await browser?.close();
+});
+
+describe("the Word appendix", () => {
+  it("Helen Achter writes a narrative, exports the appendix of the signed rerun and downloads it", async () => {
+    const context = await browser.newContext({ viewport: { width: 1360, height: 900 }, acceptDownloads: true });
+    const page = await context.newPage();
+    await signInAs(page, stack.appUrl, "Helen Achter");
+    await page.getByRole("link", { name: "QMT-301" }).click();
+    await page.getByRole("navigation", { name: "Study sections" }).getByRole("link", { name: "Appendix" }).click();
+    await page.getByRole("heading", { name: "Word appendix" }).waitFor();
+    await page.getByRole("article", { name: "Preview of the appendix" }).waitFor();
+    expect(await page.locator("[data-figure-key] img").count()).toBeGreaterThanOrEqual(5);
+    expect(await page.locator('[data-table-key^="coefficients:"]').count()).toBe(1);
+
+    const results = page.locator('section[data-section="results"]');
+    await results.getByLabel(/Narrative for “Results”/).fill("The adjusted difference from placebo favours both doses.");
+    await results.getByRole("button", { name: "Save narrative" }).click();
+    await results.getByRole("status").filter({ hasText: /Saved as version \d+/ }).waitFor();
+    await results.locator('[data-narrative="results"]').getByText("favours both doses").waitFor();
+
+    await page.getByRole("button", { name: "Export the Word appendix" }).click();
+    const status = page.getByRole("status").filter({ hasText: "SHA-256" });
+    await status.waitFor({ timeout: 60_000 });
+    const shown = /SHA-256 ([0-9a-f]{64})/.exec((await status.textContent()) ?? "")?.[1];
+    expect(shown).toMatch(/^[0-9a-f]{64}$/);
+    await screenshot(page, "appendix-exported");
+
+    const [download] = await Promise.all([page.waitForEvent("download"), status.getByRole("link", { name: "Download the .docx" }).click()]);
+    expect(download.suggestedFilename()).toMatch(/^QMT-301-appendix-\d{4}-\d{2}-\d{2}-[0-9a-f]{8}\.docx$/);
+    const bytes = readFileSync((await download.path())!);
+    expect(createHash("sha256").update(bytes).digest("hex")).toBe(shown);
+    const xml = await (await JSZip.loadAsync(bytes)).file("word/document.xml")!.async("string");
+    expect(xml).toContain("Results support, but do not replace, qualified statistical and medical review.");
+    expect(xml).toContain("favours both doses");
+    await page.getByRole("heading", { name: "Previous exports" }).waitFor();
+    expect(await page.getByRole("cell", { name: shown! }).count()).toBeGreaterThanOrEqual(1);
+    await context.close();
+  }, 180_000);
+});
