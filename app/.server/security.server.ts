@@ -17,8 +17,8 @@ export function contentSecurityPolicy(nonce: string): string {
     "connect-src 'self'",
     "object-src 'none'",
     "base-uri 'self'",
-    // Sign-in forms post to the identity provider.
-    `form-action 'self' ${new URL(config.SAML_IDP_SSO_URL).origin}`,
+    // Sign-in forms go to the identity providers (a form's redirects count too): staff SAML, sponsor OpenID Connect.
+    `form-action 'self' ${new URL(config.SAML_IDP_SSO_URL).origin} ${new URL(config.OIDC_ISSUER).origin}`,
     "frame-ancestors 'none'",
   ].join("; ");
 }

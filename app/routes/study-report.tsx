@@ -4,7 +4,7 @@ import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { Caution } from "~/components/caution";
 import { fmt, fmtCi, fmtP, utc } from "~/components/format";
 import { PageHeader } from "~/components/page";
-import { AdjustedMeansTable, CheckCard, CoefficientTable, ContrastsTable } from "~/components/rerun-results";
+import { AdjustedMeansTable, CoefficientTable, ContrastsTable } from "~/components/rerun-results";
 import { StatusLabel } from "~/components/status";
 import { getReport } from "~/.server/reports/reports.server";
 import { requireStudy } from "~/.server/study-access.server";
@@ -19,6 +19,12 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const report = await getReport(study.id, params.rerunId);
   return { studyId: study.id, code: study.code, ...report };
 }
+
+const OUTCOME = {
+  within: { status: "within", word: "Within plan" },
+  finding: { status: "finding", word: "Finding" },
+  not_computed: { status: "pending", word: "Not computed" },
+} as const;
 
 const wordOf = <T extends Record<string, string>>(words: T, key: string): string => (key in words ? words[key as keyof T] : key);
 
@@ -119,9 +125,49 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
             {checks.filter((c) => c.outcome === "within").length} within plan · {checks.filter((c) => c.outcome === "finding").length} findings ·{" "}
             {checks.filter((c) => c.outcome === "not_computed").length} not computed. Subjects are named by rank only.
           </p>
-          {checks.map((c) => (
-            <CheckCard key={c.key} check={c} />
-          ))}
+          <div className="panel overflow-x-auto p-4">
+            <table className="data-table">
+              <caption className="mb-1 text-left text-xs text-ink-soft">Each check the plan commits to, with its statistic, the threshold as applied and its outcome.</caption>
+              <thead>
+                <tr>
+                  <th scope="col">Check</th>
+                  <th scope="col">Outcome</th>
+                  <th scope="col">Statistic</th>
+                  <th scope="col">Threshold</th>
+                  <th scope="col">Reading</th>
+                  <th scope="col">Flagged (rank: value)</th>
+                </tr>
+              </thead>
+              <tbody>
+                {checks.map((c) => (
+                  <tr key={c.key} className="align-top">
+                    <th scope="row" className="text-left font-medium">
+                      {c.label}
+                    </th>
+                    <td className="whitespace-nowrap">
+                      <StatusLabel status={OUTCOME[c.outcome].status} word={OUTCOME[c.outcome].word} />
+                    </td>
+                    <td className="num">{c.statistic}</td>
+                    <td className="num whitespace-nowrap">{c.threshold}</td>
+                    <td>
+                      {c.summary}
+                      <span className="block text-xs text-ink-soft">Planned remedy: {c.remedy}</span>
+                    </td>
+                    <td className="num">
+                      {c.flaggedCount > 0 ? (
+                        <>
+                          {c.flaggedCount} flagged
+                          <span className="block text-xs text-ink-soft">{c.flagged.map((f) => `${f.rank}: ${fmt(f.value)}`).join(" · ")}</span>
+                        </>
+                      ) : (
+                        "—"
+                      )}
+                    </td>
+                  </tr>
+                ))}
+              </tbody>
+            </table>
+          </div>
         </section>
 
         <section className="space-y-3" aria-labelledby="findings-h">
