@@ -9,6 +9,7 @@
  * The study these tests read (API-301) is made here through the services on the stack's
  * database, so the demo study stays as the other app tests expect it.
  */
+import { createHash } from "node:crypto";
 import { readdirSync } from "node:fs";
 import path from "node:path";
 import { Validator } from "@seriousme/openapi-schema-validator";
@@ -45,6 +46,7 @@ let datasetVersionId = "";
 let planVersionId = "";
 let signedRerunId = "";
 let unsignedRerunId = "";
+let appendixId = "";
 let subjectIds: string[] = [];
 const token: Partial<Record<Who, string>> = {};
 
@@ -139,6 +141,8 @@ async function makeApiStudy(): Promise<void> {
     await findings.assessFinding(priya, studyId, f.id, { category: "model_assumption", impact: "none", action: "planned_sensitivity", rationale: "The planned sensitivity analyses leave the treatment conclusion unchanged." });
   }
   await findings.signRerun({ ...who.second_biostatistician, signedInAt: new Date().toISOString() }, studyId, signedRerunId);
+  const { exportAppendix } = await import("~/.server/appendix/appendix.server");
+  appendixId = (await exportAppendix(who.medical_writer, studyId, { kind: "rerun", rerunId: signedRerunId })).id;
   unsignedRerunId = await reruns.startRerun(priya, studyId, { plannedModelId, datasetVersionId, options: { variant: "planned" } });
   await finish(unsignedRerunId);
 
@@ -327,6 +331,26 @@ describe("a token acts with its person's study roles, never more", () => {
     const res = await fetch(`${stack.appUrl}/api/v1/studies`, { method: "POST", headers: { Authorization: `Bearer ${token.biostatistician}` }, body: "{}" });
     expect(res.status).toBe(405);
     expect(((await res.json()) as { error: { code: string } }).error.code).toBe("method_not_allowed");
+  });
+});
+
+describe("appendix download", () => {
+  it("streams the stored .docx with its recorded SHA-256 to the medical writer and the sponsor reader, never to a data manager", async () => {
+    const list = await call("/api/v1/studies/{studyId}/appendices", "sponsor_reader");
+    const entry = (list.body.appendices as { id: string; sha256: string; download: string }[]).find((a) => a.id === appendixId)!;
+    expect(entry).toBeDefined();
+    for (const who of ["medical_writer", "sponsor_reader"] as const) {
+      const res = await fetch(`${stack.appUrl}${entry.download}`, { headers: { Authorization: `Bearer ${token[who]}` } });
+      expect(res.status).toBe(200);
+      expect(res.headers.get("Content-Type")).toBe("application/vnd.openxmlformats-officedocument.wordprocessingml.document");
+      expect(res.headers.get("X-Caution")).toBe(CAUTION);
+      const bytes = Buffer.from(await res.arrayBuffer());
+      expect(createHash("sha256").update(bytes).digest("hex")).toBe(entry.sha256);
+      expect(bytes.subarray(0, 2).toString()).toBe("PK");
+    }
+    const refused = await call("/api/v1/studies/{studyId}/appendices/{appendixId}/file", "data_manager", { appendixId });
+    expect(refused.status).toBe(403);
+    expect((await call("/api/v1/studies/{studyId}/appendices/{appendixId}/file", null, { appendixId })).status).toBe(401);
   });
 });
 

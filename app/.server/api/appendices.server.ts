@@ -1,54 +1,54 @@
 /**
- * API: the study's exported Word appendices (metadata and hash) and their files. People who
- * may read every rerun see every export; readers of published reports see the exports whose
- * reruns are all published.
+ * API: the study's exported Word appendices (metadata and hash) and their stored files, read
+ * from the appendix store with the same rule as the appendix download page: people who may
+ * read every rerun get every export; readers of published reports only exports whose reruns
+ * are all published.
  */
-import { desc, eq, inArray } from "drizzle-orm";
-import { db, t } from "../db/index.server";
+import { appendixBytes, appendixFileName, appendixIsPublished, DOCX_TYPE, findAppendix, listAppendices as storedAppendices } from "../appendix/appendix.server";
+import { CAUTION } from "~/components/caution";
 import { requireStudyForPrincipal } from "../study-access.server";
 import { ApiError } from "./respond.server";
 import type { AppendicesAnswer, Body } from "./schemas";
 import type { ApiPrincipal } from "./tokens.server";
 
-type AppendixRow = typeof t.appendices.$inferSelect;
-
-async function visibleAppendices(p: ApiPrincipal, studyId: string): Promise<{ studyId: string; rows: (AppendixRow & { exportedByName: string | null })[] }> {
-  const { study, allowed } = await requireStudyForPrincipal(p, studyId, "report.view");
-  const rows = await db
-    .select({ a: t.appendices, who: t.people.displayName })
-    .from(t.appendices)
-    .leftJoin(t.people, eq(t.people.id, t.appendices.exportedBy))
-    .where(eq(t.appendices.studyId, study.id))
-    .orderBy(desc(t.appendices.exportedAt));
-  const all = rows.map((r) => ({ ...r.a, exportedByName: r.who }));
-  if (allowed.has("rerun.view")) return { studyId: study.id, rows: all };
-  const ids = [...new Set(all.flatMap((a) => JSON.parse(a.rerunIdsJson) as string[]))];
-  const published = new Set(
-    ids.length ? (await db.select({ id: t.reruns.id, at: t.reruns.publishedAt }).from(t.reruns).where(inArray(t.reruns.id, ids))).filter((r) => r.at).map((r) => r.id) : [],
-  );
-  return { studyId: study.id, rows: all.filter((a) => (JSON.parse(a.rerunIdsJson) as string[]).every((id) => published.has(id))) };
-}
+const NOT_PUBLISHED = "There is no such appendix export in this study.";
 
 export async function listAppendices(p: ApiPrincipal, studyId: string): Promise<Body<typeof AppendicesAnswer>> {
-  const { studyId: id, rows } = await visibleAppendices(p, studyId);
+  const { study, allowed } = await requireStudyForPrincipal(p, studyId, "report.view");
+  const all = await storedAppendices(study.id);
+  const shown = [];
+  for (const a of all) if (allowed.has("rerun.view") || (await appendixIsPublished(a))) shown.push(a);
   return {
-    appendices: rows.map((a) => ({
+    appendices: shown.map((a) => ({
       id: a.id,
       planVersionId: a.planVersionId,
-      rerunIds: JSON.parse(a.rerunIdsJson) as string[],
+      rerunIds: a.rerunIds,
       sha256: a.sha256,
       byteSize: a.byteSize,
       exportedBy: a.exportedByName,
       exportedAt: a.exportedAt,
-      download: `/api/v1/studies/${id}/appendices/${a.id}/file`,
+      download: `/api/v1/studies/${study.id}/appendices/${a.id}/file`,
     })),
   };
 }
 
-/** The stored .docx of one export. */
+/** The exact stored .docx of one export (its SHA-256 checked by the store). */
 export async function appendixFile(p: ApiPrincipal, studyId: string, appendixId: string): Promise<Response> {
-  const { rows } = await visibleAppendices(p, studyId);
-  const found = rows.find((a) => a.id === appendixId);
-  if (!found) throw new ApiError("not_found", "There is no such appendix export in this study.");
-  throw new ApiError("not_found", "This Plumbline version lists appendix exports but does not serve their files yet; download it from the study's Appendix page.");
+  const { study, allowed } = await requireStudyForPrincipal(p, studyId, "report.view");
+  const a = await findAppendix(study.id, { id: appendixId });
+  // An export of an unpublished rerun does not exist for a reader who may see only published ones.
+  if (!allowed.has("rerun.view") && !(await appendixIsPublished(a))) throw new ApiError("not_found", NOT_PUBLISHED);
+  const bytes = await appendixBytes(a);
+  return new Response(new Uint8Array(bytes), {
+    headers: {
+      "Content-Type": DOCX_TYPE,
+      "Content-Length": String(bytes.length),
+      "Content-Disposition": `attachment; filename="${appendixFileName(a, study.code)}"`,
+      "Cache-Control": "private, no-store",
+      ETag: `"${a.sha256}"`,
+      "X-Content-SHA256": a.sha256,
+      // A file has no JSON body for the caution: it travels in a header (and is printed in the document).
+      "X-Caution": CAUTION,
+    },
+  });
 }

@@ -105,7 +105,8 @@ registry.registerPath({
   request: { params: z.object({ ...studyParams, appendixId: id("The appendix export's id") }) },
   responses: {
     200: {
-      description: "The exact stored file (its SHA-256 is the listing's sha256)",
+      description: "The exact stored file (its SHA-256 is the listing's sha256); the caution travels in the X-Caution header and is printed in the document",
+      headers: { "X-Caution": { schema: { type: "string" as const }, description: "The caution" }, "X-Content-SHA256": { schema: { type: "string" as const }, description: "SHA-256 of the file" } },
       content: { "application/vnd.openxmlformats-officedocument.wordprocessingml.document": { schema: { type: "string", contentMediaType: "application/vnd.openxmlformats-officedocument.wordprocessingml.document" } } },
     },
     ...errors,
