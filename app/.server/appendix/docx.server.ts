@@ -29,6 +29,7 @@ import {
   SimpleField,
   Table,
   TableCell,
+  TableLayoutType,
   TableRow,
   TextRun,
   WidthType,
@@ -101,17 +102,34 @@ function caption(kind: "Table" | "Figure", number: number, words: string): Parag
   });
 }
 
+/** Printable width in twips (A4 less both margins). */
+const TEXT_WIDTH_TWIPS = 11906 - 2 * MARGIN_TWIPS;
+
+/** Column widths in proportion to each column's longest text (within bounds), so names do not wrap needlessly. */
+function columnWidths(b: Extract<Block, { kind: "table" }>): number[] {
+  const weights = b.columns.map((c, i) => {
+    const longest = Math.max(c.label.length * 0.8, ...b.rows.map((r) => (r[i] ?? "").length));
+    return Math.min(Math.max(longest, 11), 48);
+  });
+  const total = weights.reduce((a, w) => a + w, 0);
+  return weights.map((w) => Math.round((w / total) * TEXT_WIDTH_TWIPS));
+}
+
 function tableOf(b: Extract<Block, { kind: "table" }>): (Paragraph | Table)[] {
   const numeric = b.columns.map((c) => Boolean(c.numeric));
+  const widths = columnWidths(b);
   const cell = (value: string, i: number, header: boolean) =>
     new TableCell({
       borders: cellBorders,
+      width: { size: widths[i], type: WidthType.DXA },
       shading: header ? { type: ShadingType.CLEAR, color: "auto", fill: HEAD_FILL } : undefined,
       margins: { top: 40, bottom: 40, left: 80, right: 80 },
       children: [new Paragraph({ alignment: numeric[i] ? AlignmentType.RIGHT : AlignmentType.LEFT, style: "TableText", children: [text(value, { bold: header })] })],
     });
   const table = new Table({
-    width: { size: 100, type: WidthType.PERCENTAGE },
+    width: { size: TEXT_WIDTH_TWIPS, type: WidthType.DXA },
+    columnWidths: widths,
+    layout: TableLayoutType.FIXED,
     rows: [
       new TableRow({ tableHeader: true, cantSplit: true, children: b.columns.map((c, i) => cell(c.label, i, true)) }),
       ...b.rows.map((r) => new TableRow({ cantSplit: true, children: r.map((v, i) => cell(v, i, false)) })),
