@@ -9,6 +9,7 @@ import JSZip from "jszip";
 import type { Browser } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, inject, it } from "vitest";
 import { launchBrowser, screenshot, signInAs } from "../support/browser";
+import { sessionCookieFor, studyIdByCode, testDb } from "../support/sessions";
 
 const stack = inject("stack");
 let browser: Browser;
@@ -43,6 +44,7 @@ describe("the Word appendix", () => {
     await status.waitFor({ timeout: 60_000 });
     const shown = /SHA-256 ([0-9a-f]{64})/.exec((await status.textContent()) ?? "")?.[1];
     expect(shown).toMatch(/^[0-9a-f]{64}$/);
+    await page.getByRole("cell", { name: shown! }).first().waitFor();
     await screenshot(page, "appendix-exported");
 
     const [download] = await Promise.all([page.waitForEvent("download"), status.getByRole("link", { name: "Download the .docx" }).click()]);
@@ -52,8 +54,25 @@ describe("the Word appendix", () => {
     const xml = await (await JSZip.loadAsync(bytes)).file("word/document.xml")!.async("string");
     expect(xml).toContain("Results support, but do not replace, qualified statistical and medical review.");
     expect(xml).toContain("favours both doses");
-    await page.getByRole("heading", { name: "Previous exports" }).waitFor();
-    expect(await page.getByRole("cell", { name: shown! }).count()).toBeGreaterThanOrEqual(1);
+    // the stored export is listed with its SHA-256 and downloads as the same bytes
+    const [again] = await Promise.all([page.waitForEvent("download"), page.getByRole("row").filter({ hasText: shown! }).first().getByRole("link", { name: /Download/ }).click()]);
+    expect(createHash("sha256").update(readFileSync((await again.path())!)).digest("hex")).toBe(shown);
     await context.close();
   }, 180_000);
+
+  it("serves the stored export to a sponsor reader of the published rerun, and refuses a data manager", async () => {
+    const studyId = await studyIdByCode(stack, "QMT-301");
+    const rs = await testDb(stack).execute({ sql: "SELECT sha256, rerun_ids_json FROM appendices WHERE study_id = ? ORDER BY exported_at DESC LIMIT 1", args: [studyId] });
+    const sha = String(rs.rows[0].sha256);
+    const rerunId = (JSON.parse(String(rs.rows[0].rerun_ids_json)) as string[])[0];
+    const url = `${stack.appUrl}/studies/${studyId}/appendix/download?rerun=${encodeURIComponent(rerunId)}`;
+    const sponsor = await fetch(url, { headers: { Cookie: await sessionCookieFor(stack, "sam.quill@quillmoor.example") } });
+    expect(sponsor.status).toBe(200);
+    expect(sponsor.headers.get("Content-Type")).toContain("wordprocessingml");
+    expect(createHash("sha256").update(Buffer.from(await sponsor.arrayBuffer())).digest("hex")).toBe(sha);
+    const dataManager = await fetch(url, { headers: { Cookie: await sessionCookieFor(stack, "dana.okafor@plumbline.example") } });
+    expect(dataManager.status).toBe(403);
+    const anonymous = await fetch(url, { redirect: "manual" });
+    expect(anonymous.status).toBe(302);
+  });
 });
