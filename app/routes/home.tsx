@@ -14,6 +14,8 @@ export async function loader({ request }: Route.LoaderArgs) {
   const studies = await listStudiesFor(user);
   return {
     isAdmin: user.isAdmin,
+    /** Sponsor readers see the studies shared with their organisation, not studies they were added to. */
+    sponsorOrganisation: user.identitySource === "oidc" ? (user.organisation ?? "your organisation") : null,
     firstName: user.displayName.split(" ")[0],
     studies: studies.map((s) => ({
       id: s.id,
@@ -28,7 +30,7 @@ export async function loader({ request }: Route.LoaderArgs) {
 }
 
 export default function Home({ loaderData }: Route.ComponentProps) {
-  const { studies, isAdmin, firstName } = loaderData;
+  const { studies, isAdmin, firstName, sponsorOrganisation } = loaderData;
   return (
     <main>
       <PageHeader eyebrow={`Signed in as ${firstName}`} title="Studies">
@@ -44,6 +46,11 @@ export default function Home({ loaderData }: Route.ComponentProps) {
             <p>
               Create a study on <Link to="/admin/studies">Manage studies</Link>, then give people their roles on{" "}
               <Link to="/admin/people">People and roles</Link>.
+            </p>
+          ) : sponsorOrganisation ? (
+            <p>
+              No study is shared with {sponsorOrganisation} yet. When a study team shares a study with your organisation, its
+              published reports appear here.
             </p>
           ) : (
             <p>

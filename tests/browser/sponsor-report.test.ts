@@ -82,6 +82,7 @@ describe("a sponsor reads the published report", () => {
   it("a reader of an organisation the study is not shared with sees no study", async () => {
     const page = await sponsor("Ines Varga");
     expect(await page.getByRole("link", { name: "QMT-301" }).count()).toBe(0);
+    await page.getByText("No study is shared with Harrowgate Biologics yet.").waitFor();
     await screenshot(page, "sponsor-other-organisation-home");
     const res = await page.goto(`${stack.appUrl}/studies/${studyId}/reports/${published}`);
     expect(res?.status()).toBe(403);
