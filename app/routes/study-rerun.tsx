@@ -2,7 +2,7 @@ import { useEffect } from "react";
 import { Form, Link, redirect, useNavigation, useRevalidator } from "react-router";
 import { z } from "zod";
 import type { Route } from "./+types/study-rerun";
-import { Caution } from "~/components/caution";
+import { CAUTION, Caution } from "~/components/caution";
 import { RerunFigure } from "~/components/figures/rerun-figure";
 import { SensitivityForest, type ForestRow } from "~/components/figures/sensitivity-forest";
 import { WhatIfPanel, type WhatIfInputs } from "~/components/figures/what-if-panel";
@@ -11,7 +11,9 @@ import { FieldError, PageHeader } from "~/components/page";
 import { AdjustedMeansTable, CheckCard, CoefficientTable, ContrastsTable, MarginalMeansTable, RatioTable } from "~/components/rerun-results";
 import { StatusLabel } from "~/components/status";
 import { canonicalJson } from "~/.server/audit.server";
+import { loadLockedTable } from "~/.server/datasets/catalog.server";
 import { actorOf } from "~/.server/people.server";
+import { rerunTable, whatIfInputs } from "~/.server/reruns/what-if.server";
 import { getPlannedModel } from "~/.server/plans/plans.server";
 import { SENSITIVITY_KINDS, SENSITIVITY_LABELS, type PlannedSensitivity } from "~/.server/plans/planned-model";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
@@ -70,7 +72,15 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     const done = options ? children.some((c) => c.optionsJson === canonicalJson(options)) : false;
     return { kind: s.kind, label, runnable: Boolean(options) && r.rerun.status === "completed" && !r.rerun.signedAt, done, note: options ? null : "No subject was flagged, so there is nothing to exclude." };
   });
-  const whatIf: WhatIfInputs = { available: false, reason: "The what-if opens when the rerun has completed." };
+  let whatIf: WhatIfInputs = { available: false, reason: "The what-if opens when the rerun has completed.", caution: CAUTION };
+  if (r.doc && r.rerun.kind === "primary" && allowed.has("rerun.start") && !r.rerun.signedAt) {
+    const locked = await loadLockedTable(r.rerun.datasetVersionId);
+    whatIf = whatIfInputs(r.doc, rerunTable(r.doc, locked.table), {
+      prespecifiedExclusion: planned.sensitivity.some((s) => s.kind === "exclude_influential"),
+      withSubjectIds: withIds,
+      canSave: true,
+    });
+  }
   return {
     studyId: study.id,
     code: study.code,

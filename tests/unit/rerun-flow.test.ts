@@ -128,6 +128,7 @@ describe("rerun of the primary model", () => {
 
   it("uses the population's complete cases and matches R's lm treatment contrasts (relative 1e-5 of R's six printed digits)", () => {
     expect(doc.rows.used).toBe(R.ancova.n);
+    if (doc.result.kind !== "linear") throw new Error("expected a linear model");
     const high = doc.result.contrasts!.find((c) => c.label.startsWith("Lorvanitide 120 mg"))!;
     const low = doc.result.contrasts!.find((c) => c.label.startsWith("Lorvanitide 40 mg"))!;
     expect(high.estimate).toBeCloseTo(R.ancova.highVsPlacebo.estimate, 3);
@@ -266,5 +267,17 @@ describe("a planned model that cannot be estimated as planned", () => {
 
   it("leaves an intact audit chain behind all of this", async () => {
     expect((await verifyAuditChain()).intact).toBe(true);
+  });
+});
+
+describe("what a viewer without access to subjects reads", () => {
+  it("names no subject in check texts", async () => {
+    const { rerunView } = await import("~/.server/reruns/rerun-view.server");
+    const all = await reruns.listReruns(studyId);
+    const primary = all.find((r) => r.kind === "primary" && r.status === "completed" && r.modelKey === "primary")!;
+    const { doc } = await reruns.getRerun(studyId, primary.id);
+    const hidden = JSON.stringify(rerunView(doc!, false));
+    expect(hidden).not.toMatch(/QMT301-\d{4}/);
+    expect(JSON.stringify(rerunView(doc!, true))).toContain("QMT301-0217");
   });
 });

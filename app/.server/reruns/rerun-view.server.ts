@@ -56,9 +56,17 @@ export function reportedContrasts(doc: RerunDocument): { label: string; estimate
   return headline.map((c) => ({ label: c.label, estimate: c.estimate, ...(robust ? { lower: c.hc3.lower, upper: c.hc3.upper, p: c.hc3.p } : { lower: c.lower, upper: c.upper, p: c.p }) }));
 }
 
-export function checkView(c: CheckOutcome, withSubjectIds: boolean) {
+/** Check texts name the most extreme subject; without the right to see subjects, they say "a subject". */
+function redactSubjects(text: string, ids: ReadonlySet<string>): string {
+  return text.replace(/subject (\S+?)(?=[),.;]|\s|$)/g, (whole, id: string) => (ids.has(id) ? "a subject" : whole));
+}
+
+export function checkView(c: CheckOutcome, withSubjectIds: boolean, subjectIds: ReadonlySet<string> = new Set()) {
+  const text = (t: string) => (withSubjectIds ? t : redactSubjects(t, subjectIds));
   return {
     ...c,
+    statistic: text(c.statistic),
+    summary: text(c.summary),
     flagged: (c.flagged ?? []).slice(0, 5).map((f) => ({ rank: f.rank, value: f.value, who: withSubjectIds ? (f.id ?? `row ${f.row}`) : `subject ranked ${f.rank}` })),
     flaggedCount: c.flagged?.length ?? 0,
   };
@@ -66,6 +74,7 @@ export function checkView(c: CheckOutcome, withSubjectIds: boolean) {
 
 export function rerunView(doc: RerunDocument, withSubjectIds: boolean) {
   const r = doc.result;
+  const subjectIds = new Set(r.observations.id.filter((id): id is string => id !== null));
   const common = {
     description: doc.description,
     rows: doc.rows,
@@ -82,7 +91,7 @@ export function rerunView(doc: RerunDocument, withSubjectIds: boolean) {
     qqShape: r.qqShape,
     terms: r.terms,
     continuousTerms: r.variables.filter((v) => v.kind === "continuous" && v.name !== r.spec.response).map((v) => v.name),
-    checks: doc.checks.map((c) => checkView(c, withSubjectIds)),
+    checks: doc.checks.map((c) => checkView(c, withSubjectIds, subjectIds)),
     engineVersion: doc.engineVersion,
     caution: doc.caution,
   };
