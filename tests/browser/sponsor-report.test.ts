@@ -4,13 +4,14 @@
  * results pages behind it are closed to him, and a reader of another organisation sees no
  * study at all.
  *
- * The signed rerun this reads is the one tests/browser/audit-flow.test.ts signs in the shared
- * test stack (the app project runs its files one at a time, in name order, so it runs first).
+ * The published rerun comes from tests/support/published-rerun-http.ts: the one
+ * tests/browser/audit-flow.test.ts signed in the shared stack when it ran first (the app project
+ * runs its files one at a time, in name order), or one it makes over HTTP when run alone.
  */
 import type { Browser, Page } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, inject, it } from "vitest";
 import { launchBrowser, screenshot, signInAsSponsor } from "../support/browser";
-import { studyIdByCode, testDb } from "../support/sessions";
+import { ensurePublishedRerun } from "../support/published-rerun-http";
 
 const stack = inject("stack");
 let browser: Browser;
@@ -19,10 +20,8 @@ let published = "";
 
 beforeAll(async () => {
   browser = await launchBrowser();
-  studyId = await studyIdByCode(stack, "QMT-301");
-  const rs = await testDb(stack).execute({ sql: "SELECT id FROM reruns WHERE study_id = ? AND kind = 'primary' AND published_at IS NOT NULL ORDER BY published_at DESC", args: [studyId] });
-  published = String(rs.rows[0]?.id ?? "");
-});
+  ({ studyId, rerunId: published } = await ensurePublishedRerun(stack));
+}, 120_000);
 afterAll(async () => {
   await browser?.close();
 });
@@ -35,10 +34,6 @@ async function sponsor(name: string): Promise<Page> {
 }
 
 describe("a sponsor reads the published report", () => {
-  it("needs the rerun signed by the audit flow", () => {
-    expect(published, "no published rerun in the test stack: run tests/browser/audit-flow.test.ts first, in the same run").not.toBe("");
-  });
-
   it("the fake provider lets a person choose which sponsor account signs in", async () => {
     const page = await browser.newPage({ viewport: { width: 1280, height: 800 } });
     await page.goto(`${stack.appUrl}/sign-in`);
