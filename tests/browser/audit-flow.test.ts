@@ -108,6 +108,15 @@ describe("from plan to signature", () => {
       expect(await card.getByText("Finding", { exact: true }).count()).toBe(1);
     }
     expect(await page.getByText("QMT301-0217").count()).toBeGreaterThan(0);
+    // What-if: leave out the planted influential subject and see the contrast move at once, in the page.
+    const whatIf = page.getByRole("region", { name: "What-if for influential subjects" });
+    await whatIf.getByLabel(/QMT301-0217/).check();
+    await whatIf.getByRole("columnheader", { name: "Without 1 ticked" }).waitFor();
+    await whatIf.scrollIntoViewIfNeeded();
+    await page.screenshot({ path: "test-results/screenshots/what-if.png", clip: (await whatIf.boundingBox()) ?? undefined });
+    await whatIf.getByRole("button", { name: "Keep as a sensitivity rerun" }).click();
+    await page.getByRole("link", { name: /Excluding 1 subject/ }).first().waitFor({ timeout: 10_000 });
+    expect(await page.getByText("(not pre-specified)").count()).toBeGreaterThan(0);
     await page.getByRole("button", { name: "Run it" }).first().click();
     await page.getByRole("link", { name: /Excluding \d+ subjects/ }).first().waitFor({ timeout: 10_000 });
     const open = () => page.getByRole("button", { name: "Record the assessment" }).count();
