@@ -166,13 +166,15 @@ export async function getReport(studyId: string, rerunId: string) {
     },
     checks: view.checks.map((c) => {
       const say = checkTexts(doc, c.key, redact);
+      // The stored texts, so that a flagged subject reads "the subject ranked k" as in the findings.
+      const stored = doc.checks.find((x) => x.key === c.key) ?? c;
       return {
         key: c.key,
         label: c.label,
         outcome: c.outcome,
-        statistic: say(c.statistic),
+        statistic: say(stored.statistic),
         threshold: c.threshold,
-        summary: say(c.summary),
+        summary: say(stored.summary),
         remedy: redact(c.remedy),
         flagged: c.flagged.map((f) => ({ rank: f.rank, value: f.value, who: `subject ranked ${f.rank}` })),
         flaggedCount: c.flaggedCount,
