@@ -207,10 +207,37 @@ describe("the Word appendix of a signed rerun", () => {
     expect(changed.sha256).not.toBe((await appendix.listAppendices(s.studyId))[0].sha256);
   });
 
-  it("exports all signed primary reruns of a plan version", async () => {
-    const byVersion = await buildAppendixContent(s.studyId, { kind: "plan_version", planVersionId: s.planVersionId });
-    expect(byVersion.rerunIds).toEqual([s.rerunId]);
-  });
+  it("exports all signed primary reruns of a plan version, a logistic model beside the linear one", async () => {
+    const plans = await import("~/.server/plans/plans.server");
+    const reruns = await import("~/.server/reruns/reruns.server");
+    const findings = await import("~/.server/reruns/findings.server");
+    const { runOneJob } = await import("~/.server/jobs/jobs.server");
+    const next = await plans.startNextVersion(s.people.priya, s.studyId, s.planVersionId);
+    const v2 = await plans.getPlanVersion(s.studyId, next);
+    const linear = v2.models[0];
+    const responder = { ...linear, key: "responder", title: "Responders at week 12", spec: { ...linear.spec, response: "resp", family: "binomial" as const }, checks: linear.checks.filter((c) => ["cooks_distance", "leverage"].includes(c.key)), sensitivity: [] };
+    const modelId = await plans.savePlannedModel(s.people.priya, s.studyId, next, v2.version.revision, null, responder);
+    await plans.submitForApproval(s.people.priya, s.studyId, next, v2.version.revision + 1);
+    await plans.approvePlanVersion(s.people.tomas, s.studyId, next);
+    const ids: string[] = [];
+    for (const plannedModelId of [linear.id, modelId]) ids.push(await reruns.startRerun(s.people.priya, s.studyId, { plannedModelId, datasetVersionId: s.datasetVersionId, options: { variant: "planned" } }));
+    while (await runOneJob()) {
+      // run the queued reruns
+    }
+    for (const id of ids) {
+      expect((await reruns.getRerun(s.studyId, id)).rerun.status).toBe("completed");
+      for (const f of await findings.findingsOf(id)) await findings.assessFinding(s.people.priya, s.studyId, f.id, { category: "model_assumption", impact: "none", action: "none", rationale: "Reviewed; the treatment conclusion is unchanged." });
+      await findings.signRerun({ ...s.people.tomas, signedInAt: new Date().toISOString() }, s.studyId, id);
+    }
+    const both = await appendix.renderAppendix(s.studyId, { kind: "plan_version", planVersionId: next });
+    expect(both.content.rerunIds).toEqual(ids);
+    writeFileSync(path.resolve("test-results", "appendix", "appendix-plan-version.docx"), both.bytes);
+    const xml = await (await JSZip.loadAsync(both.bytes)).file("word/document.xml")!.async("string");
+    const captions = tables(xml).map((x) => x.caption);
+    expect(captions.filter((c) => /Estimated coefficients/.test(c))).toHaveLength(2);
+    expect(captions.some((c) => /Estimated coefficients, Responders at week 12/.test(c))).toBe(true);
+    expect(decode(cellText(xml))).toMatch(/generalized linear model \(binomial family, logit link\)/);
+  }, 120_000);
 
   it("refuses a rerun that is not signed", async () => {
     await expect(buildAppendixContent(s.studyId, { kind: "rerun", rerunId: s.sensitivityIds[0] })).rejects.toMatchObject({ init: { status: 409 } });

@@ -290,9 +290,9 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
         key: `contrasts:${p.rerunId}`,
         number: next.table(),
         caption: `Treatment contrasts against the reference arm, ${p.modelTitle}`,
-        columns: [{ label: "Comparison" }, { label: "Difference", numeric: true }, { label: "SE", numeric: true }, { label: "95% CI", numeric: true }, { label: "p", numeric: true }],
+        columns: [{ label: "Comparison" }, { label: r.kind === "linear" ? "Difference" : "Estimate", numeric: true }, { label: "SE", numeric: true }, { label: "95% CI", numeric: true }, { label: "p", numeric: true }],
         rows: contrasts.map((c) => [c.label, fmt(c.estimate), fmt(c.se), fmtCi(c.lower, c.upper), fmtP(c.p)]),
-        note: r.kind === "linear" ? "Differences in adjusted means with model-based standard errors." : undefined,
+        note: r.kind === "linear" ? "Differences in adjusted means with model-based standard errors." : "Marginal (standardized) contrasts; ratios with intervals from the log scale.",
       });
     }
   }

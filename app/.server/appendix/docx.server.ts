@@ -105,14 +105,22 @@ function caption(kind: "Table" | "Figure", number: number, words: string): Parag
 /** Printable width in twips (A4 less both margins). */
 const TEXT_WIDTH_TWIPS = 11906 - 2 * MARGIN_TWIPS;
 
-/** Column widths in proportion to each column's longest text (within bounds), so names do not wrap needlessly. */
+/**
+ * Column widths: each column first gets room for its longest word (about 95 twips a character at
+ * 8.5 pt, plus the cell margins), then the rest of the line in proportion to √(longest text), so
+ * long prose columns do not starve short ones.
+ */
 function columnWidths(b: Extract<Block, { kind: "table" }>): number[] {
-  const weights = b.columns.map((c, i) => {
-    const longest = Math.max(c.label.length * 0.8, ...b.rows.map((r) => (r[i] ?? "").length));
-    return Math.min(Math.max(longest, 11), 48);
+  const cols = b.columns.map((c, i) => {
+    const cells = [c.label, ...b.rows.map((r) => r[i] ?? "")];
+    const longest = Math.max(c.label.length * 0.8, ...cells.slice(1).map((x) => x.length));
+    const longestWord = Math.max(...cells.flatMap((x) => x.split(/\s+/).map((w) => w.length)));
+    return { min: longestWord * 95 + 220, weight: Math.sqrt(Math.max(longest, 6)) };
   });
-  const total = weights.reduce((a, w) => a + w, 0);
-  return weights.map((w) => Math.round((w / total) * TEXT_WIDTH_TWIPS));
+  const minTotal = cols.reduce((a, c) => a + c.min, 0);
+  if (minTotal >= TEXT_WIDTH_TWIPS) return cols.map((c) => Math.floor((c.min / minTotal) * TEXT_WIDTH_TWIPS));
+  const weights = cols.reduce((a, c) => a + c.weight, 0);
+  return cols.map((c) => Math.floor(c.min + ((TEXT_WIDTH_TWIPS - minTotal) * c.weight) / weights));
 }
 
 function tableOf(b: Extract<Block, { kind: "table" }>): (Paragraph | Table)[] {

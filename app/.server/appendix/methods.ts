@@ -68,7 +68,11 @@ export function methodsProse(m: MethodsInput): { paragraphs: string[]; checks: s
           : " No covariates were pre-specified.") +
         (interactions.length ? ` Interactions pre-specified: ${list(interactions)}.` : ""),
     );
-    paragraphs.push(
+    if (s.family !== "gaussian") {
+      paragraphs.push(
+        "Each arm was compared with the reference arm by marginal (standardized) contrasts: the model's predicted response for every analysed subject was averaged with the subject assigned to each arm in turn, and the arms' averages were compared as differences and ratios with two-sided 95% confidence intervals.",
+      );
+    } else paragraphs.push(
       "Adjusted means of the endpoint per arm were computed from the fitted model with continuous covariates held at their mean over the records analysed" +
         (m.meansWeighting === "proportional" ? " and categorical covariates averaged in proportion to their observed frequencies" : " and categorical covariates averaged with equal weight over their levels") +
         " (population marginal means, Searle, Speed and Milliken 1980). Each arm was compared with the reference arm by the difference in adjusted means with a two-sided 95% confidence interval and p-value from the t distribution on the residual degrees of freedom.",
