@@ -197,6 +197,10 @@ describe("the Word appendix of a signed rerun", () => {
     const audit = await db.select().from(t.auditEvents).where(eq(t.auditEvents.action, "appendix.export"));
     expect(audit).toHaveLength(2);
     expect(audit[0].afterJson).toContain(first[0].sha256);
+    // the e-mail notice is queued in the export's own transaction, naming the study, never a subject
+    const mail = (await db.select().from(t.mailOutbox)).filter((m) => /Word appendix exported/.test(m.subject));
+    expect(mail.length).toBeGreaterThanOrEqual(2);
+    expect(mail[0].textBody).toContain(first[0].sha256);
   });
 
   it("changes when the narrative changes, and keeps every narrative version", async () => {
