@@ -171,6 +171,10 @@ describe("the Word appendix of a signed rerun", () => {
     expect(headers.join("")).toContain("QMT-301");
     expect(documentXml).toMatch(/<w:pStyle w:val="Heading1"\/>/);
     expect(documentXml).toMatch(/<w:tblHeader\/>/);
+    expect(documentXml).toMatch(/<w:tblStyle w:val="TableGrid"\/>/);
+    const styles = await zip.file("word/styles.xml")!.async("string");
+    expect(styles).toMatch(/<w:style w:type="table" w:styleId="TableGrid"><w:name w:val="Table Grid"\/>/);
+    expect(styles).toMatch(/<w:docDefaults>/);
   });
 
   it("embeds Noto Sans, regular and bold, as subsets", async () => {

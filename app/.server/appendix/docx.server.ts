@@ -102,6 +102,17 @@ function caption(kind: "Table" | "Figure", number: number, words: string): Parag
   });
 }
 
+/**
+ * Word's own "Table Grid" table style (style id TableGrid), written into the document so every
+ * reader knows it: thin rules above, below and between rows, none at the sides. docx takes it as
+ * "external styles" and keeps its own defaults and the paragraph styles below beside it.
+ */
+const TABLE_GRID_STYLES =
+  '<?xml version="1.0" encoding="UTF-8" standalone="yes"?><w:styles xmlns:w="http://schemas.openxmlformats.org/wordprocessingml/2006/main">' +
+  '<w:style w:type="table" w:styleId="TableGrid"><w:name w:val="Table Grid"/><w:uiPriority w:val="39"/>' +
+  `<w:tblPr><w:tblBorders><w:top w:val="single" w:sz="4" w:space="0" w:color="${RULE}"/><w:bottom w:val="single" w:sz="4" w:space="0" w:color="${RULE}"/><w:insideH w:val="single" w:sz="4" w:space="0" w:color="${RULE}"/></w:tblBorders>` +
+  '<w:tblCellMar><w:left w:w="80" w:type="dxa"/><w:right w:w="80" w:type="dxa"/></w:tblCellMar></w:tblPr></w:style></w:styles>';
+
 /** Printable width in twips (A4 less both margins). */
 const TEXT_WIDTH_TWIPS = 11906 - 2 * MARGIN_TWIPS;
 
@@ -135,6 +146,7 @@ function tableOf(b: Extract<Block, { kind: "table" }>): (Paragraph | Table)[] {
       children: [new Paragraph({ alignment: numeric[i] ? AlignmentType.RIGHT : AlignmentType.LEFT, style: "TableText", children: [text(value, { bold: header })] })],
     });
   const table = new Table({
+    style: "TableGrid",
     width: { size: TEXT_WIDTH_TWIPS, type: WidthType.DXA },
     columnWidths: widths,
     layout: TableLayoutType.FIXED,
@@ -205,7 +217,7 @@ function titlePage(c: AppendixContent): (Paragraph | Table)[] {
     new Paragraph({ style: "Subtitle", spacing: { before: 1200 }, children: [text(tp.studyCode)] }),
     new Paragraph({ heading: HeadingLevel.TITLE, children: [text(c.title)] }),
     new Paragraph({ spacing: { after: 360 }, children: [text(tp.studyTitle, { color: SOFT })] }),
-    new Table({ width: { size: 100, type: WidthType.PERCENTAGE }, rows: factRows }),
+    new Table({ style: "TableGrid", width: { size: 100, type: WidthType.PERCENTAGE }, rows: factRows }),
     new Paragraph({ spacing: { before: 360 }, children: [text("Caution. ", { bold: true }), text(c.caution)] }),
     new Paragraph({ children: [new PageBreak()] }),
   ];
@@ -258,6 +270,7 @@ export async function renderDocx(c: AppendixContent): Promise<Buffer> {
       revision: 1,
       fonts: [{ name: FONT_FAMILY, data: fonts.regular, bold: fonts.bold }],
       features: { updateFields: false },
+      externalStyles: TABLE_GRID_STYLES,
       styles: {
         default: {
           document: { run: { font: FONT_FAMILY, size: 20, color: INK }, paragraph: { spacing: { after: 120, line: 276, lineRule: LineRuleType.AUTO } } },
