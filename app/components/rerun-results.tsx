@@ -1,3 +1,4 @@
+import { Link } from "react-router";
 import type { ReactNode } from "react";
 import { fmt, fmtCi, fmtP } from "./format";
 import { StatusLabel } from "./status";
@@ -331,5 +332,73 @@ export function CheckCard({ check, figure }: { check: CheckCardData; figure?: Re
         <div className="min-w-0">{figure}</div>
       </div>
     </article>
+  );
+}
+
+export interface ComparedAnalysis {
+  id: string;
+  label: string;
+  primary: boolean;
+  prespecified: boolean;
+  status?: string;
+  failure?: string | null;
+  contrasts: { label: string; estimate: number; lower: number; upper: number; p: number }[];
+}
+
+/** The treatment contrast across the primary analysis and its sensitivity analyses. */
+export function SensitivityTable({ analyses, hrefOf }: { analyses: readonly ComparedAnalysis[]; hrefOf?: (id: string) => string }) {
+  const name = (a: ComparedAnalysis) => (hrefOf ? <Link to={hrefOf(a.id)}>{a.label}</Link> : a.label);
+  const tag = (a: ComparedAnalysis) => (a.primary ? " (primary)" : a.prespecified ? " (planned)" : " (not pre-specified)");
+  return (
+    <table className="data-table">
+      <caption className="mb-1 text-left text-xs text-ink-soft">The treatment contrast across analyses (HC3 intervals for the robust-errors analysis).</caption>
+      <thead>
+        <tr>
+          <th scope="col">Analysis</th>
+          <th scope="col">Contrast</th>
+          <th scope="col" className="text-right">
+            Estimate
+          </th>
+          <th scope="col" className="text-right">
+            95% CI
+          </th>
+          <th scope="col" className="text-right">
+            p
+          </th>
+        </tr>
+      </thead>
+      <tbody>
+        {analyses.flatMap((a) =>
+          a.contrasts.length === 0
+            ? [
+                <tr key={a.id}>
+                  <td>
+                    {name(a)}
+                    {tag(a)}
+                  </td>
+                  <td colSpan={4} className="text-ink-soft">
+                    {a.status === "failed" ? `failed: ${a.failure ?? "no reason recorded"}` : (a.status ?? "no result")}
+                  </td>
+                </tr>,
+              ]
+            : a.contrasts.map((c, i) => (
+                <tr key={`${a.id}-${c.label}`}>
+                  <td>
+                    {i === 0 ? (
+                      <>
+                        {name(a)}
+                        {tag(a)}
+                      </>
+                    ) : null}
+                  </td>
+                  <td>{c.label}</td>
+                  <td className="num text-right">{fmt(c.estimate)}</td>
+                  <td className="num text-right whitespace-nowrap">{fmtCi(c.lower, c.upper)}</td>
+                  <td className="num text-right">{fmtP(c.p)}</td>
+                </tr>
+              )),
+        )}
+      </tbody>
+    </table>
   );
 }

@@ -4,7 +4,7 @@ import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { Caution } from "~/components/caution";
 import { fmt, fmtCi, fmtP, utc } from "~/components/format";
 import { PageHeader } from "~/components/page";
-import { AdjustedMeansTable, CoefficientTable, ContrastsTable } from "~/components/rerun-results";
+import { AdjustedMeansTable, CoefficientTable, ContrastsTable, SensitivityTable } from "~/components/rerun-results";
 import { StatusLabel } from "~/components/status";
 import { getReport } from "~/.server/reports/reports.server";
 import { requireStudy } from "~/.server/study-access.server";
@@ -203,37 +203,7 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
             <h2 id="sens-h" className="mb-2">
               Sensitivity comparison
             </h2>
-            <table className="data-table">
-              <caption className="mb-1 text-left text-xs text-ink-soft">The treatment contrast across analyses (HC3 intervals for the robust-errors analysis).</caption>
-              <thead>
-                <tr>
-                  <th scope="col">Analysis</th>
-                  <th scope="col">Contrast</th>
-                  <th scope="col" className="text-right">
-                    Difference
-                  </th>
-                  <th scope="col" className="text-right">
-                    95% CI
-                  </th>
-                  <th scope="col" className="text-right">
-                    p
-                  </th>
-                </tr>
-              </thead>
-              <tbody>
-                {comparison.flatMap((a) =>
-                  a.contrasts.map((c, i) => (
-                    <tr key={`${a.id}-${c.label}`}>
-                      <td>{i === 0 ? `${a.label}${a.primary ? " (primary)" : a.prespecified ? " (planned)" : " (not pre-specified)"}` : null}</td>
-                      <td>{c.label}</td>
-                      <td className="num text-right">{fmt(c.estimate)}</td>
-                      <td className="num text-right whitespace-nowrap">{fmtCi(c.lower, c.upper)}</td>
-                      <td className="num text-right">{fmtP(c.p)}</td>
-                    </tr>
-                  )),
-                )}
-              </tbody>
-            </table>
+            <SensitivityTable analyses={comparison} />
           </section>
         ) : null}
 

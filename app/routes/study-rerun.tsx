@@ -8,7 +8,7 @@ import { SensitivityForest, type ForestRow } from "~/components/figures/sensitiv
 import { WhatIfPanel, type WhatIfInputs } from "~/components/figures/what-if-panel";
 import { fmt, fmtCi, fmtP, utc } from "~/components/format";
 import { FieldError, PageHeader } from "~/components/page";
-import { AdjustedMeansTable, CheckCard, CoefficientTable, ContrastsTable, MarginalMeansTable, RatioTable } from "~/components/rerun-results";
+import { AdjustedMeansTable, CheckCard, CoefficientTable, ContrastsTable, MarginalMeansTable, RatioTable, SensitivityTable } from "~/components/rerun-results";
 import { StatusLabel } from "~/components/status";
 import { canonicalJson } from "~/.server/audit.server";
 import { loadLockedTable } from "~/.server/datasets/catalog.server";
@@ -495,55 +495,7 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
               {Object.entries(forest).map(([label, rows]) => (
                 <SensitivityForest key={label} rows={rows} contrastLabel={label} />
               ))}
-              <table className="data-table">
-                <caption className="mb-1 text-left text-xs text-ink-soft">The treatment contrast across analyses (HC3 intervals for the robust-errors analysis).</caption>
-                <thead>
-                  <tr>
-                    <th scope="col">Analysis</th>
-                    <th scope="col">Contrast</th>
-                    <th scope="col" className="text-right">
-                      Difference
-                    </th>
-                    <th scope="col" className="text-right">
-                      95% CI
-                    </th>
-                    <th scope="col" className="text-right">
-                      p
-                    </th>
-                  </tr>
-                </thead>
-                <tbody>
-                  {comparison.flatMap((a) =>
-                    a.contrasts.length === 0
-                      ? [
-                          <tr key={a.id}>
-                            <td>
-                              <Link to={`/studies/${studyId}/reruns/${a.id}`}>{a.label}</Link>
-                            </td>
-                            <td colSpan={4} className="text-ink-soft">
-                              {a.status === "failed" ? `failed: ${"failure" in a ? a.failure : ""}` : a.status}
-                            </td>
-                          </tr>,
-                        ]
-                      : a.contrasts.map((c, i) => (
-                          <tr key={`${a.id}-${c.label}`}>
-                            <td>
-                              {i === 0 ? (
-                                <>
-                                  <Link to={`/studies/${studyId}/reruns/${a.id}`}>{a.label}</Link>
-                                  {a.primary ? " (primary)" : a.prespecified ? " (planned)" : " (not pre-specified)"}
-                                </>
-                              ) : null}
-                            </td>
-                            <td>{c.label}</td>
-                            <td className="num text-right">{fmt(c.estimate)}</td>
-                            <td className="num text-right whitespace-nowrap">{fmtCi(c.lower, c.upper)}</td>
-                            <td className="num text-right">{fmtP(c.p)}</td>
-                          </tr>
-                        )),
-                  )}
-                </tbody>
-              </table>
+              <SensitivityTable analyses={comparison} hrefOf={(id) => `/studies/${studyId}/reruns/${id}`} />
             </div>
           ) : null}
           {can.start && !rerun.signedAt ? (
