@@ -16,7 +16,7 @@ import { BEYOND, WITHIN } from "~/components/figures/specs";
 import type { CheckKey, CheckOutcome, FigureKey } from "~/engine/checks";
 import { normalQuantile } from "~/engine/distributions";
 import { loessCurve, type SmoothPoint } from "~/engine/loess";
-import type { LinearModelResult } from "~/engine";
+import type { ModelResult } from "~/engine";
 import type { RerunDocument } from "./reruns.server";
 
 /** Cells as text by column, with the 1-based data row of each row (the engine's table input). */
@@ -87,29 +87,38 @@ function unitOf(name: string, opts: FigureOptions): string {
   return opts.units?.[name] ?? `units of ${name}`;
 }
 
-function base(r: LinearModelResult, opts: FigureOptions) {
+function base(r: ModelResult, opts: FigureOptions) {
   return {
     n: r.n,
     withSubjectIds: opts.withSubjectIds,
     response: r.spec.response,
     responseUnit: unitOf(r.spec.response, opts),
-    weighted: r.observations.weight !== null,
+    weighted: r.kind === "linear" && r.observations.weight !== null,
   };
 }
 
-function who(r: LinearModelResult, i: number, withIds: boolean): SubjectRef {
+function who(r: ModelResult, i: number, withIds: boolean): SubjectRef {
   if (!withIds) return { subject: null, row: null };
   const row = r.observations.row[i];
   return { subject: r.observations.id[i] ?? `row ${row}`, row };
 }
 
-/** The residual the figures plot: √w·e with weights, e otherwise. */
-function residualOf(r: LinearModelResult, i: number): number {
-  return r.observations.scaledResidual[i];
+/**
+ * The residual the figures plot: √w·e with weights, e otherwise, for a linear model; for a GLM
+ * the randomized quantile residual (Dunn and Smyth 1996), which is standard normal under the
+ * model even for 0/1 and count outcomes, so the same "even band around zero" reading holds.
+ */
+function residualOf(r: ModelResult, i: number): number {
+  return r.kind === "linear" ? r.observations.scaledResidual[i] : r.observations.quantileResidual[i];
+}
+
+/** What the Q-Q plot orders: internally studentized residuals (linear) or quantile residuals (GLM). */
+function qqValues(r: ModelResult): number[] {
+  return r.kind === "linear" ? r.observations.studentizedInternal : r.observations.quantileResidual;
 }
 
 /** Cells of a column for each used observation, matched by data row number. */
-function cellsFor(r: LinearModelResult, table: FigureTable | undefined, column: string, figure: FigureKey): string[] {
+function cellsFor(r: ModelResult, table: FigureTable | undefined, column: string, figure: FigureKey): string[] {
   if (!table) throw new FigureUnavailableError(`the ${figure} figure needs the rerun's table rows`);
   const cells = table.columns[column];
   if (!cells) throw new FigureUnavailableError(`column "${column}" is not in the rerun's data`);
@@ -122,11 +131,11 @@ function cellsFor(r: LinearModelResult, table: FigureTable | undefined, column: 
   });
 }
 
-function mainTermNames(r: LinearModelResult): string[] {
+function mainTermNames(r: ModelResult): string[] {
   return r.spec.terms.flatMap((t) => ("variable" in t ? [t.variable] : []));
 }
 
-function requireTerm(r: LinearModelResult, term: string | undefined, continuousOnly: boolean): { name: string; kind: "continuous" | "categorical"; levels?: string[] } {
+function requireTerm(r: ModelResult, term: string | undefined, continuousOnly: boolean): { name: string; kind: "continuous" | "categorical"; levels?: string[] } {
   const names = mainTermNames(r);
   if (!term) throw new FigureUnavailableError(`choose a covariate with ?term= (one of ${names.join(", ")})`);
   const v = r.variables.find((x) => x.name === term);
@@ -140,7 +149,7 @@ function requireTerm(r: LinearModelResult, term: string | undefined, continuousO
   return { name: term, kind: "continuous" };
 }
 
-function interactionNote(r: LinearModelResult, term: string): string | undefined {
+function interactionNote(r: ModelResult, term: string): string | undefined {
   const inInteraction = r.spec.terms.some((t) => "interaction" in t && t.interaction.includes(term));
   return inInteraction ? `${term} also enters an interaction; this plot shows its main-effect part only.` : undefined;
 }
@@ -163,20 +172,12 @@ function smoothOf(x: readonly number[], y: readonly number[]): SmoothPoint[] {
   return loessCurve(x, y, 0.5, 120).map((p) => ({ x: round(p.x), y: round(p.y) }));
 }
 
-/** The linear-model result the figures are drawn from; GLM reruns have none of these figures yet. */
-function linearResult(doc: RerunDocument): LinearModelResult {
-  if (doc.result.kind !== "linear") throw new FigureUnavailableError("these diagnostic figures are drawn for linear models; this rerun is a generalized linear model");
-  return doc.result;
-}
-
 /** How many influential subjects get their id written beside the point. */
 const LABELLED = 3;
 
 /** The rows of one figure of a rerun. Throws FigureUnavailableError when it cannot be drawn. */
 export function figureData(doc: RerunDocument, figure: FigureKey, opts: FigureOptions): FigureData {
-  const r = linearResult(doc);
-  // A rerun's result is linear or generalized linear; these figures read the linear result.
-  if (r.kind !== "linear") throw new FigureUnavailableError("this figure is drawn for linear models; generalized linear models show their own diagnostics");
+  const r = doc.result;
   const obs = r.observations;
   const n = r.n;
   const b = base(r, opts);
@@ -212,17 +213,18 @@ export function figureData(doc: RerunDocument, figure: FigureKey, opts: FigureOp
         x: round(Number(cells[i])),
         partial: round(partial.values[i]),
         // the component b·x centred: partial residual minus the (raw) residual
-        component: round(partial.values[i] - obs.residual[i]),
+        component: round(partial.values[i] - (r.kind === "linear" ? r.observations.residual[i] : r.observations.workingResidual[i])),
         status: statusOf(i),
       }));
       const smooth = smoothOf(rows.map((p) => p.x), rows.map((p) => p.partial));
       return { figure, ...b, term: t.name, termUnit: unitOf(t.name, opts), coefficient: coef?.estimate ?? NaN, note: interactionNote(r, t.name), rows, smooth };
     }
     case "qq": {
-      const order = obs.row.map((_, i) => i).filter((i) => Number.isFinite(obs.studentizedInternal[i]));
-      order.sort((a, c) => obs.studentizedInternal[a] - obs.studentizedInternal[c] || obs.row[a] - obs.row[c]);
+      const values = qqValues(r);
+      const order = obs.row.map((_, i) => i).filter((i) => Number.isFinite(values[i]));
+      order.sort((a, c) => values[a] - values[c] || obs.row[a] - obs.row[c]);
       const theoretical = blomQuantiles(order.length);
-      const sorted = order.map((i) => obs.studentizedInternal[i]);
+      const sorted = order.map((i) => values[i]);
       // reference line through the first and third quartiles (Chambers, Cleveland, Kleiner and Tukey 1983, section 6.3)
       const q1 = quantileOfSorted(sorted, 0.25);
       const q3 = quantileOfSorted(sorted, 0.75);
@@ -243,7 +245,7 @@ export function figureData(doc: RerunDocument, figure: FigureKey, opts: FigureOp
         order: i + 1,
         cooks: round(obs.cooksDistance[i]),
         leverage: round(obs.leverage[i]),
-        dffits: round(obs.dffits[i]),
+        dffits: r.kind === "linear" ? round(r.observations.dffits[i]) : null,
         status: statusOf(i, threshold ? byCook : influential),
         label: top.has(i) ? labelOf(r, i, opts.withSubjectIds, top) : null,
       }));
@@ -269,7 +271,7 @@ export function figureData(doc: RerunDocument, figure: FigureKey, opts: FigureOp
       if (!treatment) throw new FigureUnavailableError("the model names no treatment, so there are no arms to compare");
       const t = requireTerm(r, treatment, false);
       const cells = cellsFor(r, opts.table, treatment, figure);
-      const bf = r.tests.brownForsythe;
+      const bf = r.kind === "linear" ? r.tests.brownForsythe : undefined;
       const rows = obs.row.map((row, i) => ({ ...who(r, i, opts.withSubjectIds), arm: cells[i], residual: round(residualOf(r, i)), jitter: round(jitterOf(row)), status: statusOf(i) }));
       return {
         figure,
@@ -290,7 +292,7 @@ function topBy(values: readonly number[], k: number, eligible: (i: number) => bo
   return new Map(idx.slice(0, k).map((i, rank) => [i, rank + 1]));
 }
 
-function labelOf(r: LinearModelResult, i: number, withIds: boolean, top: Map<number, number>): string {
+function labelOf(r: ModelResult, i: number, withIds: boolean, top: Map<number, number>): string {
   return withIds ? (r.observations.id[i] ?? `row ${r.observations.row[i]}`) : `rank ${top.get(i)}`;
 }
 

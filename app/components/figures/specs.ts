@@ -125,7 +125,8 @@ export interface InfluenceRow extends SubjectRef {
   order: number;
   cooks: number;
   leverage: number;
-  dffits: number;
+  /** Null for generalized linear models, which have no DFFITS. */
+  dffits: number | null;
   status: PointStatus;
   /** Set for the few most influential subjects: drawn beside their point. */
   label: string | null;
