@@ -72,6 +72,28 @@ function withFixedClockAndSeed<T>(at: Date, seed: number, work: () => T): T {
     static override now(): number {
       return fixed;
     }
+    // Zip entries store local time: read local as UTC so the bytes do not depend on the machine's TZ.
+    override getFullYear(): number {
+      return this.getUTCFullYear();
+    }
+    override getMonth(): number {
+      return this.getUTCMonth();
+    }
+    override getDate(): number {
+      return this.getUTCDate();
+    }
+    override getHours(): number {
+      return this.getUTCHours();
+    }
+    override getMinutes(): number {
+      return this.getUTCMinutes();
+    }
+    override getSeconds(): number {
+      return this.getUTCSeconds();
+    }
+    override getTimezoneOffset(): number {
+      return 0;
+    }
   }
   globalThis.Date = FixedDate as DateConstructor;
   Math.random = seeded(seed);
