@@ -90,9 +90,12 @@ for (const name of ["adeff", "adeff10k"]) {
   if (name === "adeff10k") {
     try {
       const { figureData } = await import("../app/.server/reruns/figure-data.server");
+      const { rerunTable } = await import("../app/.server/reruns/what-if.server");
+      const { loadLockedTable } = await import("../app/.server/datasets/catalog.server");
+      const table = rerunTable(r.doc!, (await loadLockedTable(dv.versionId)).table);
       for (const fig of ["influence", "leverage_residual", "qq", "residuals_fitted", "spread_by_arm", "residuals_covariate", "partial_residuals"] as const) {
         const s = performance.now();
-        const data = figureData(r.doc!, fig, { term: "base", withSubjectIds: true });
+        const data = figureData(r.doc!, fig, { term: "base", withSubjectIds: true, table });
         results.push(`  figure data ${fig.padEnd(20)} ${(performance.now() - s).toFixed(1)} ms, ${(JSON.stringify(data).length / 1e6).toFixed(2)} MB`);
       }
     } catch (e) {
