@@ -5,6 +5,7 @@ import { EmptyState, PageHeader } from "~/components/page";
 import { StatusLabel } from "~/components/status";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { deviationLog } from "~/.server/reruns/findings.server";
+import { withoutSubjectNames } from "~/.server/reruns/rerun-view.server";
 import { requireStudy } from "~/.server/study-access.server";
 
 export function meta({ loaderData }: Route.MetaArgs) {
@@ -12,7 +13,8 @@ export function meta({ loaderData }: Route.MetaArgs) {
 }
 
 export async function loader({ request, params }: Route.LoaderArgs) {
-  const { study } = await requireStudy(request, params.studyId, "deviation.view");
+  const { study, allowed } = await requireStudy(request, params.studyId, "deviation.view");
+  const named = allowed.has("dataset.rows");
   const url = new URL(request.url);
   const filter = {
     category: url.searchParams.get("category") || undefined,
@@ -36,7 +38,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
       rationale: d.rationale,
       by: d.recordedByName,
       at: d.recordedAt,
-      finding: d.finding,
+      finding: d.finding ? { ...d.finding, summary: named ? d.finding.summary : withoutSubjectNames(d.finding.summary) } : null,
       rerun: d.rerun,
       model: d.model,
     })),

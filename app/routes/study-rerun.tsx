@@ -19,7 +19,7 @@ import { SENSITIVITY_KINDS, SENSITIVITY_LABELS, type PlannedSensitivity } from "
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { Assessment, assessFinding, canSign, FindingConflict, findingsOf, recordDeviation, signaturesOf, signRerun } from "~/.server/reruns/findings.server";
 import type { RerunOptions } from "~/.server/reruns/rerun-options";
-import { reportedContrasts, rerunView } from "~/.server/reruns/rerun-view.server";
+import { reportedContrasts, rerunView, withoutSubjectNames } from "~/.server/reruns/rerun-view.server";
 import { getRerun, sameInputReruns, sensitivityReruns, startRerun, type RerunDocument } from "~/.server/reruns/reruns.server";
 import { requireStudy } from "~/.server/study-access.server";
 
@@ -104,7 +104,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     planVersion: r.planVersion,
     startedBy: r.startedBy,
     view: r.doc ? rerunView(r.doc, withIds) : null,
-    findings: findings.map((f) => ({ id: f.id, kind: f.kind, summary: f.summary, statistic: f.statistic, threshold: f.threshold, assessment: f.assessment ? { category: f.assessment.category, impact: f.assessment.impact, action: f.assessment.action, rationale: f.assessment.rationale, by: f.assessment.recordedByName, at: f.assessment.recordedAt } : null })),
+    findings: findings.map((f) => ({ id: f.id, kind: f.kind, summary: withIds ? f.summary : withoutSubjectNames(f.summary), statistic: f.statistic && !withIds ? withoutSubjectNames(f.statistic) : f.statistic, threshold: f.threshold, assessment: f.assessment ? { category: f.assessment.category, impact: f.assessment.impact, action: f.assessment.action, rationale: f.assessment.rationale, by: f.assessment.recordedByName, at: f.assessment.recordedAt } : null })),
     signatures: signatures.map((s) => ({ name: s.signerName, meaning: s.meaning, at: s.signedAt })),
     comparison,
     plannedSensitivity,

@@ -281,3 +281,16 @@ describe("what a viewer without access to subjects reads", () => {
     expect(JSON.stringify(rerunView(doc!, true))).toContain("QMT301-0217");
   });
 });
+
+describe("finding texts for the deviation log", () => {
+  it("say 'a subject' instead of the subject's code for viewers without access to subjects", async () => {
+    const { withoutSubjectNames } = await import("~/.server/reruns/rerun-view.server");
+    const log = await findings.deviationLog(studyId);
+    const texts = log.flatMap((d) => (d.finding ? [d.finding.summary] : []));
+    expect(texts.some((t) => /QMT301-\d{4}/.test(t))).toBe(true);
+    for (const t of texts) expect(withoutSubjectNames(t)).not.toMatch(/QMT301-\d{4}/);
+    expect(withoutSubjectNames("23 of 422 subjects exceed the threshold; the most extreme is subject QMT301-0217.")).toBe(
+      "23 of 422 subjects exceed the threshold; the most extreme is a subject.",
+    );
+  });
+});
