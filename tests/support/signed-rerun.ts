@@ -5,6 +5,8 @@
  * every finding assessed, and sign-off by a second biostatistician. Call `useTempDatabase()`
  * first (this module imports the app's server modules only when called).
  */
+
+import { demoPrimaryForm } from "./demo-forms";
 export interface SignedRerun {
   studyId: string;
   planVersionId: string;
@@ -13,30 +15,6 @@ export interface SignedRerun {
   rerunId: string;
   sensitivityIds: string[];
   people: Record<"priya" | "tomas" | "helen" | "sam", { id: string; name: string }>;
-}
-
-function primaryForm(): FormData {
-  const f = new FormData();
-  const fields = {
-    key: "primary",
-    title: "Primary efficacy: change from baseline at week 12",
-    datasetName: "adeff",
-    populationColumn: "fasfl",
-    populationValue: "Y",
-    response: "chg",
-    family: "gaussian",
-    treatment: "arm",
-    treatmentReference: "Placebo",
-    id: "subjid",
-  };
-  for (const [k, v] of Object.entries(fields)) f.set(k, v);
-  for (const c of ["base", "stratum", "region", "sex", "age"]) f.append("covariate", c);
-  for (const c of ["cooks_distance", "leverage", "deletion_residual", "dfbetas_treatment", "dffits", "shapiro_wilk", "breusch_pagan", "brown_forsythe", "homogeneity_of_slopes", "reset", "gvif"]) f.set(`check:${c}:enabled`, "on");
-  f.set("sensitivity:robust_hc3", "on");
-  f.set("sensitivity:exclude_influential", "on");
-  f.set("sensitivity:variance_function", "on");
-  f.set("sensitivity:varianceBy", "treatment");
-  return f;
 }
 
 export async function makeSignedRerun(): Promise<SignedRerun> {
@@ -72,7 +50,7 @@ export async function makeSignedRerun(): Promise<SignedRerun> {
   const locked = await listLockedVersions(studyId);
   const datasetVersionId = locked[0].versionId;
   const { versionId } = await plans.createPlan(people.priya, studyId, { title: "Efficacy models", sapName: "Statistical analysis plan", sapVersion: "2.0", sapDate: "2026-10-01" });
-  const v = validatePlannedModel(readPlannedModelForm(primaryForm()), locked.map((x) => ({ name: x.datasetName, columns: x.columns })), []);
+  const v = validatePlannedModel(readPlannedModelForm(demoPrimaryForm()), locked.map((x) => ({ name: x.datasetName, columns: x.columns })), []);
   if (!v.ok) throw new Error(`The planned model does not validate: ${JSON.stringify(v.errors)}`);
   const plannedModelId = await plans.savePlannedModel(people.priya, studyId, versionId, 1, null, v.model);
   await plans.submitForApproval(people.priya, studyId, versionId, 2);

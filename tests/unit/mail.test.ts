@@ -5,6 +5,7 @@
  * down the action still succeeds and the message waits, then goes out once the server is back;
  * and no message carries subject-level data.
  */
+import { demoPrimaryForm } from "../support/demo-forms";
 import { afterAll, beforeAll, describe, expect, it } from "vitest";
 import { readInbox, waitForMessage, type ReceivedMessage } from "../../idp-fake/smtp/inbox";
 import { startSmtpFake, type RunningSmtpFake } from "../../idp-fake/smtp/launch";
@@ -55,26 +56,6 @@ async function drain(): Promise<void> {
 const outbox = () => db.select().from(t.mailOutbox);
 const to = (email: string) => (m: ReceivedMessage) => m.envelopeTo.includes(email);
 
-function primaryForm(): FormData {
-  const f = new FormData();
-  for (const [k, v] of Object.entries({
-    key: "primary",
-    title: "Primary efficacy: change from baseline at week 12",
-    datasetName: "adeff",
-    populationColumn: "fasfl",
-    populationValue: "Y",
-    response: "chg",
-    family: "gaussian",
-    treatment: "arm",
-    treatmentReference: "Placebo",
-    id: "subjid",
-  }))
-    f.set(k, v);
-  for (const c of ["base", "stratum", "region", "sex", "age"]) f.append("covariate", c);
-  for (const c of ["cooks_distance", "shapiro_wilk", "breusch_pagan"]) f.set(`check:${c}:enabled`, "on");
-  return f;
-}
-
 beforeAll(async () => {
   const seeded = await seedDemoStudy();
   if (!seeded.seeded) throw new Error(`seed failed: ${seeded.reason}`);
@@ -93,7 +74,7 @@ describe("notification e-mail", () => {
     const created = await plans.createPlan(priya, studyId, { title: "Efficacy models", sapName: "Statistical analysis plan", sapVersion: "2.0", sapDate: "2026-10-01" });
     versionId = created.versionId;
     const locked = await listLockedVersions(studyId);
-    const v = validatePlannedModel(readPlannedModelForm(primaryForm()), locked.map((x) => ({ name: x.datasetName, columns: x.columns })), []);
+    const v = validatePlannedModel(readPlannedModelForm(demoPrimaryForm({ checks: ["cooks_distance", "shapiro_wilk", "breusch_pagan"], sensitivity: false })), locked.map((x) => ({ name: x.datasetName, columns: x.columns })), []);
     if (!v.ok) throw new Error(JSON.stringify(v.errors));
     await plans.savePlannedModel(priya, studyId, versionId, 1, null, v.model);
     await plans.submitForApproval(priya, studyId, versionId, 2);

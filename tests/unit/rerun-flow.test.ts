@@ -5,6 +5,7 @@
  * Treatment estimates are compared with R's lm on the same data (tests/demo/demo-findings.json,
  * written by tests/demo/check-demo.R: R 4.2 stats::lm, lmtest::bptest, car::leveneTest).
  */
+import { demoPrimaryForm } from "../support/demo-forms";
 import { readFileSync } from "node:fs";
 import { beforeAll, describe, expect, it } from "vitest";
 import { useTempDatabase } from "../support/temp-db";
@@ -46,30 +47,6 @@ async function drain(): Promise<void> {
   }
 }
 
-function primaryForm(): FormData {
-  const f = new FormData();
-  for (const [k, v] of Object.entries({
-    key: "primary",
-    title: "Primary efficacy: change from baseline at week 12",
-    datasetName: "adeff",
-    populationColumn: "fasfl",
-    populationValue: "Y",
-    response: "chg",
-    family: "gaussian",
-    treatment: "arm",
-    treatmentReference: "Placebo",
-    id: "subjid",
-  }))
-    f.set(k, v);
-  for (const c of ["base", "stratum", "region", "sex", "age"]) f.append("covariate", c);
-  for (const c of ["cooks_distance", "leverage", "deletion_residual", "dfbetas_treatment", "dffits", "shapiro_wilk", "breusch_pagan", "brown_forsythe", "homogeneity_of_slopes", "reset", "gvif"]) f.set(`check:${c}:enabled`, "on");
-  f.set("sensitivity:robust_hc3", "on");
-  f.set("sensitivity:exclude_influential", "on");
-  f.set("sensitivity:variance_function", "on");
-  f.set("sensitivity:varianceBy", "treatment");
-  return f;
-}
-
 beforeAll(async () => {
   const seeded = await seedDemoStudy();
   if (!seeded.seeded) throw new Error("seed failed");
@@ -83,7 +60,7 @@ describe("analysis plan", () => {
   it("validates a planned model against the dataset's columns, naming the field", async () => {
     const locked = await listLockedVersions(studyId);
     const datasets = locked.map((v) => ({ name: v.datasetName, columns: v.columns }));
-    const bad = primaryForm();
+    const bad = demoPrimaryForm();
     bad.set("treatmentReference", "Active");
     bad.set("response", "arm");
     bad.append("covariate", "nosuchcolumn");
@@ -99,7 +76,7 @@ describe("analysis plan", () => {
     const created = await plans.createPlan(priya, studyId, { title: "Efficacy models", sapName: "Statistical analysis plan", sapVersion: "2.0", sapDate: "2026-10-01" });
     versionId = created.versionId;
     const locked = await listLockedVersions(studyId);
-    const v = validatePlannedModel(readPlannedModelForm(primaryForm()), locked.map((x) => ({ name: x.datasetName, columns: x.columns })), []);
+    const v = validatePlannedModel(readPlannedModelForm(demoPrimaryForm()), locked.map((x) => ({ name: x.datasetName, columns: x.columns })), []);
     if (!v.ok) throw new Error(JSON.stringify(v.errors));
     modelId = await plans.savePlannedModel(priya, studyId, versionId, 1, null, v.model);
     // A second editor working from the old revision is refused, not silently overwritten.
