@@ -1,7 +1,7 @@
-import { data, Form, useNavigation } from "react-router";
+import { data, useNavigation } from "react-router";
 import { z } from "zod";
+import { TokenTable } from "~/components/token-table";
 import type { Route } from "./+types/admin.api-clients";
-import { utc } from "~/components/format";
 import { PageHeader } from "~/components/page";
 import { allTokens, revokeToken, statusOf } from "~/.server/api/tokens.server";
 import { REQUESTS_PER_MINUTE } from "~/.server/api/rate-limit.server";
@@ -42,8 +42,6 @@ export async function action({ request }: Route.ActionArgs) {
   return r.ok ? { ok: true, message: "Token revoked." } : data({ ok: false, message: r.message }, { status: 404 });
 }
 
-const STATUS_WORD = { active: "Active", expired: "Expired", revoked: "Revoked" } as const;
-
 export default function ApiClients({ loaderData, actionData }: Route.ComponentProps) {
   const { tokens, perMinute } = loaderData;
   const busy = useNavigation().state === "submitting";
@@ -64,55 +62,7 @@ export default function ApiClients({ loaderData, actionData }: Route.ComponentPr
         {active} active of {tokens.length} token{tokens.length === 1 ? "" : "s"}
       </p>
       <div className="overflow-x-auto">
-        <table className="data-table panel">
-          <thead>
-            <tr>
-              <th scope="col">Owner</th>
-              <th scope="col">Name</th>
-              <th scope="col">Starts with</th>
-              <th scope="col">Created</th>
-              <th scope="col">Expires</th>
-              <th scope="col">Last used</th>
-              <th scope="col">Status</th>
-              <th scope="col">
-                <span className="sr-only">Revoke</span>
-              </th>
-            </tr>
-          </thead>
-          <tbody>
-            {tokens.map((k) => (
-              <tr key={k.id}>
-                <td>
-                  <div className="font-medium">{k.owner}</div>
-                  <div className="text-xs text-ink-soft">{k.ownerEmail}</div>
-                </td>
-                <th scope="row">{k.name}</th>
-                <td className="font-mono text-xs">{k.prefix}…</td>
-                <td className="num whitespace-nowrap">{utc(k.createdAt)}</td>
-                <td className="num whitespace-nowrap">{utc(k.expiresAt)}</td>
-                <td className="num whitespace-nowrap">{k.lastUsedAt ? utc(k.lastUsedAt) : "never"}</td>
-                <td>{STATUS_WORD[k.status]}</td>
-                <td>
-                  {k.status === "active" ? (
-                    <Form method="post">
-                      <input type="hidden" name="tokenId" value={k.id} />
-                      <button type="submit" className="btn-quiet py-1" disabled={busy} aria-label={`Revoke ${k.owner}'s token ${k.name}`}>
-                        Revoke
-                      </button>
-                    </Form>
-                  ) : null}
-                </td>
-              </tr>
-            ))}
-            {tokens.length === 0 ? (
-              <tr>
-                <td colSpan={8} className="text-ink-soft">
-                  Nobody has created an API token yet.
-                </td>
-              </tr>
-            ) : null}
-          </tbody>
-        </table>
+        <TokenTable tokens={tokens} busy={busy} withOwner empty="Nobody has created an API token yet." />
       </div>
     </main>
   );

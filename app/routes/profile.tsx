@@ -1,6 +1,7 @@
 import { useEffect, useRef } from "react";
 import { data, Form, useNavigation } from "react-router";
 import { z } from "zod";
+import { TokenTable } from "~/components/token-table";
 import type { Route } from "./+types/profile";
 import { utc } from "~/components/format";
 import { FieldError, PageHeader } from "~/components/page";
@@ -60,8 +61,6 @@ export async function action({ request }: Route.ActionArgs) {
   );
 }
 
-const STATUS_WORD = { active: "Active", expired: "Expired", revoked: "Revoked" } as const;
-
 function NewTokenShown({ token, name, expiresAt }: { token: string; name: string; expiresAt: string }) {
   const field = useRef<HTMLInputElement>(null);
   useEffect(() => field.current?.select(), []);
@@ -111,53 +110,7 @@ export default function Profile({ loaderData, actionData }: Route.ComponentProps
               A token lets a program read what you may read in Plumbline, through the API, with your study roles and never more. Each
               token may make {perMinute} requests a minute. Revoke a token as soon as nothing uses it.
             </p>
-            <table className="data-table panel">
-              <thead>
-                <tr>
-                  <th scope="col">Name</th>
-                  <th scope="col">Starts with</th>
-                  <th scope="col">Created</th>
-                  <th scope="col">Expires</th>
-                  <th scope="col">Last used</th>
-                  <th scope="col">Status</th>
-                  <th scope="col">
-                    <span className="sr-only">Revoke</span>
-                  </th>
-                </tr>
-              </thead>
-              <tbody>
-                {tokens.map((k) => (
-                  <tr key={k.id}>
-                    <th scope="row" className="font-medium">
-                      {k.name}
-                    </th>
-                    <td className="font-mono text-xs">{k.prefix}…</td>
-                    <td className="num whitespace-nowrap">{utc(k.createdAt)}</td>
-                    <td className="num whitespace-nowrap">{utc(k.expiresAt)}</td>
-                    <td className="num whitespace-nowrap">{k.lastUsedAt ? utc(k.lastUsedAt) : "never"}</td>
-                    <td>{STATUS_WORD[k.status]}</td>
-                    <td>
-                      {k.status === "active" ? (
-                        <Form method="post">
-                          <input type="hidden" name="intent" value="revoke" />
-                          <input type="hidden" name="tokenId" value={k.id} />
-                          <button type="submit" className="btn-quiet py-1" disabled={busy} aria-label={`Revoke token ${k.name}`}>
-                            Revoke
-                          </button>
-                        </Form>
-                      ) : null}
-                    </td>
-                  </tr>
-                ))}
-                {tokens.length === 0 ? (
-                  <tr>
-                    <td colSpan={7} className="text-ink-soft">
-                      You have no API tokens.
-                    </td>
-                  </tr>
-                ) : null}
-              </tbody>
-            </table>
+            <TokenTable tokens={tokens} busy={busy} revokeIntent="revoke" empty="You have no API tokens." />
           </section>
           <section>
             <h2 className="mb-2">Your study roles</h2>
