@@ -36,6 +36,7 @@ const FIGURES: [FigureKey, string?][] = [
 ];
 
 interface Layer {
+  data?: unknown;
   mark?: unknown;
   encoding?: Record<string, { title?: unknown; field?: string } | Record<string, unknown>[] | undefined> & { tooltip?: { field: string; title: string }[] };
 }
@@ -64,7 +65,8 @@ describe("diagnostic figure specifications", () => {
       const axes = (vg.axes ?? []).filter((a) => a.title !== undefined);
       expect(axes.length).toBeGreaterThanOrEqual(2);
       for (const a of axes) expect(String(a.title)).toMatch(/\(.+\)/);
-      const withTooltip = layersOf(spec).filter((l) => l.encoding?.tooltip);
+      // the layers of subjects (the figure's rows, no data of their own) name the subject on hover
+      const withTooltip = layersOf(spec).filter((l) => l.encoding?.tooltip && !l.data);
       expect(withTooltip.length).toBeGreaterThan(0);
       for (const l of withTooltip) {
         const fields = (l.encoding?.tooltip ?? []).map((f) => f.field);

@@ -5,6 +5,8 @@
  * appendix.
  */
 import type {
+  DenseSummary,
+  DensityCell,
   FigureData,
   InfluenceRow,
   PointStatus,
@@ -12,12 +14,13 @@ import type {
   SubjectRef,
   Threshold,
 } from "~/components/figures/specs";
-import { BEYOND, WITHIN } from "~/components/figures/specs";
+import { BEYOND, DENSE_FROM, DENSE_POINTS, WITHIN } from "~/components/figures/specs";
 import type { CheckKey, CheckOutcome, FigureKey } from "~/engine/checks";
 import { normalQuantile } from "~/engine/distributions";
 import { loessCurve, type SmoothPoint } from "~/engine/loess";
 import type { ModelResult } from "~/engine";
 import type { RerunDocument } from "./reruns.server";
+import { axisBins, blockMaxima, boxSummaries, densityCells, qqKept } from "./figure-summaries.server";
 
 /** Cells as text by column, with the 1-based data row of each row (the engine's table input). */
 export interface FigureTable {
@@ -175,6 +178,44 @@ function smoothOf(x: readonly number[], y: readonly number[]): SmoothPoint[] {
 /** How many influential subjects get their id written beside the point. */
 const LABELLED = 3;
 
+/** The density grid of dense scatter figures: cells of about 12 × 10 pixels in a 560 × 230 plot. */
+const GRID = { nx: 48, ny: 24 };
+
+/** A dense influence figure's blocks of consecutive subjects: about one per pixel and a half. */
+const BLOCKS = 400;
+
+/** A dense Q-Q plot keeps this many order statistics at each end, and about this many in between. */
+const QQ_TAIL = 100;
+const QQ_MIDDLE = 400;
+
+/**
+ * Who a dense figure draws one by one: the subjects in `beyond` (by data row), largest Cook's
+ * distance first, at most DENSE_POINTS; the rest are summarised. Null below DENSE_FROM subjects,
+ * where every subject is drawn.
+ */
+function denseSelection(r: ModelResult, beyond: ReadonlySet<number>): { drawn: Set<number>; summary: DenseSummary } | null {
+  const n = r.n;
+  if (n < DENSE_FROM) return null;
+  const obs = r.observations;
+  const candidates = obs.row.map((_, i) => i).filter((i) => beyond.has(obs.row[i]));
+  candidates.sort((a, b) => (obs.cooksDistance[b] || 0) - (obs.cooksDistance[a] || 0) || a - b);
+  const drawn = new Set(candidates.slice(0, DENSE_POINTS));
+  return { drawn, summary: { total: n, beyond: candidates.length, drawn: drawn.size } };
+}
+
+/** The indices 0..n−1 in order, or only those drawn one by one. */
+function drawnIndices(n: number, dense: { drawn: Set<number> } | null): number[] {
+  const all = Array.from({ length: n }, (_, i) => i);
+  return dense ? all.filter((i) => dense.drawn.has(i)) : all;
+}
+
+/** The density cells of the subjects a dense scatter figure does not draw one by one. */
+function cellsOf(x: readonly number[], y: readonly number[], dense: { drawn: Set<number> } | null): DensityCell[] | undefined {
+  if (!dense) return undefined;
+  const rest = x.map((_, i) => i).filter((i) => !dense.drawn.has(i));
+  return densityCells(x, y, rest, { x: axisBins(x, GRID.nx), y: axisBins(y, GRID.ny) });
+}
+
 /** The rows of one figure of a rerun. Throws FigureUnavailableError when it cannot be drawn. */
 export function figureData(doc: RerunDocument, figure: FigureKey, opts: FigureOptions): FigureData {
   const r = doc.result;
@@ -183,41 +224,65 @@ export function figureData(doc: RerunDocument, figure: FigureKey, opts: FigureOp
   const b = base(r, opts);
   const influential = flaggedRows(doc, INFLUENCE_CHECKS);
   const statusOf = (i: number, keys: Set<number> = influential): PointStatus => (keys.has(obs.row[i]) ? BEYOND : WITHIN);
+  const residuals = obs.row.map((_, i) => residualOf(r, i));
 
   switch (figure) {
     case "residuals_fitted": {
-      const rows = obs.row.map((_, i) => ({ ...who(r, i, opts.withSubjectIds), fitted: round(obs.fitted[i]), residual: round(residualOf(r, i)), status: statusOf(i) }));
-      return { figure, ...b, rows, smooth: smoothOf(rows.map((p) => p.fitted), rows.map((p) => p.residual)) };
+      const dense = denseSelection(r, influential);
+      const rows = drawnIndices(n, dense).map((i) => ({ ...who(r, i, opts.withSubjectIds), fitted: round(obs.fitted[i]), residual: round(residuals[i]), status: statusOf(i) }));
+      const cells = cellsOf(obs.fitted, residuals, dense);
+      return { figure, ...b, ...(dense ? { dense: dense.summary, cells } : {}), rows, smooth: smoothOf(obs.fitted, residuals) };
     }
     case "residuals_covariate": {
       const t = requireTerm(r, opts.term, false);
       const cells = cellsFor(r, opts.table, t.name, figure);
-      const rows = obs.row.map((row, i) => ({
+      const continuous = t.kind === "continuous";
+      const values = continuous ? cells.map(Number) : [];
+      const dense = denseSelection(r, influential);
+      const rows = drawnIndices(n, dense).map((i) => ({
         ...who(r, i, opts.withSubjectIds),
-        x: t.kind === "continuous" ? round(Number(cells[i])) : cells[i],
-        residual: round(residualOf(r, i)),
-        jitter: round(jitterOf(row)),
+        x: continuous ? round(values[i]) : cells[i],
+        residual: round(residuals[i]),
+        jitter: round(jitterOf(obs.row[i])),
         status: statusOf(i),
       }));
-      const smooth = t.kind === "continuous" ? smoothOf(rows.map((p) => p.x as number), rows.map((p) => p.residual)) : undefined;
-      return { figure, ...b, term: t.name, termUnit: t.kind === "continuous" ? unitOf(t.name, opts) : "level", kind: t.kind, ...(t.levels ? { levels: t.levels } : {}), note: interactionNote(r, t.name), rows, ...(smooth ? { smooth } : {}) };
+      const common = { figure, ...b, term: t.name, termUnit: continuous ? unitOf(t.name, opts) : "level", kind: t.kind, note: interactionNote(r, t.name), rows, ...(dense ? { dense: dense.summary } : {}) };
+      if (continuous) return { ...common, ...(dense ? { cells: cellsOf(values, residuals, dense) } : {}), smooth: smoothOf(values, residuals) };
+      return { ...common, levels: t.levels ?? [], boxes: boxSummaries(t.levels ?? [], cells, residuals) };
     }
     case "partial_residuals": {
       const t = requireTerm(r, opts.term, true);
       const partial = obs.partialResiduals.find((p) => p.term === t.name);
       if (!partial) throw new FigureUnavailableError(`the rerun stored no partial residuals for "${t.name}"`);
       const coef = r.coefficients.find((c) => c.term === t.name);
-      const cells = cellsFor(r, opts.table, t.name, figure);
-      const rows = obs.row.map((_, i) => ({
+      const x = cellsFor(r, opts.table, t.name, figure).map(Number);
+      // the component b·x centred: partial residual minus the (raw) residual
+      const component = partial.values.map((v, i) => v - (r.kind === "linear" ? r.observations.residual[i] : r.observations.workingResidual[i]));
+      const dense = denseSelection(r, influential);
+      const rows = drawnIndices(n, dense).map((i) => ({
         ...who(r, i, opts.withSubjectIds),
-        x: round(Number(cells[i])),
+        x: round(x[i]),
         partial: round(partial.values[i]),
-        // the component b·x centred: partial residual minus the (raw) residual
-        component: round(partial.values[i] - (r.kind === "linear" ? r.observations.residual[i] : r.observations.workingResidual[i])),
+        component: round(component[i]),
         status: statusOf(i),
       }));
-      const smooth = smoothOf(rows.map((p) => p.x), rows.map((p) => p.partial));
-      return { figure, ...b, term: t.name, termUnit: unitOf(t.name, opts), coefficient: coef?.estimate ?? NaN, note: interactionNote(r, t.name), rows, smooth };
+      // the component is linear in x: its ends are the whole line
+      const ends = x.map((_, i) => i).filter((i) => Number.isFinite(x[i]) && Number.isFinite(component[i]));
+      const lo = ends.reduce((m, i) => (x[i] < x[m] ? i : m), ends[0]);
+      const hi = ends.reduce((m, i) => (x[i] > x[m] ? i : m), ends[0]);
+      const fittedLine = ends.length ? [lo, hi].map((i) => ({ x: round(x[i]), component: round(component[i]) })) : [];
+      return {
+        figure,
+        ...b,
+        term: t.name,
+        termUnit: unitOf(t.name, opts),
+        coefficient: coef?.estimate ?? NaN,
+        note: interactionNote(r, t.name),
+        rows,
+        fittedLine,
+        ...(dense ? { dense: dense.summary, cells: cellsOf(x, partial.values, dense) } : {}),
+        smooth: smoothOf(x, partial.values),
+      };
     }
     case "qq": {
       const values = qqValues(r);
@@ -232,31 +297,48 @@ export function figureData(doc: RerunDocument, figure: FigureKey, opts: FigureOp
       const z3 = normalQuantile(0.75);
       const slope = (q3 - q1) / (z3 - z1);
       const intercept = q1 - slope * z1;
-      const rows: QqRow[] = order.map((i, k) => ({ ...who(r, i, opts.withSubjectIds), theoretical: round(theoretical[k]), sample: round(sorted[k]), status: statusOf(i) }));
+      const dense = denseSelection(r, influential);
+      // a dense plot keeps the tails, the subjects drawn elsewhere one by one, and a regular thinning of the middle
+      const thinned = dense ? qqKept(order.length, QQ_TAIL, QQ_MIDDLE, new Set(order.flatMap((i, k) => (dense.drawn.has(i) ? [k] : [])))) : null;
+      const kept = thinned ? thinned.kept : order.map((_, k) => k);
+      const rows: QqRow[] = kept.map((k) => ({ ...who(r, order[k], opts.withSubjectIds), theoretical: round(theoretical[k]), sample: round(sorted[k]), status: statusOf(order[k]) }));
       const note = order.length < n ? `${n - order.length} subjects with leverage one have no studentized residual and are not shown.` : undefined;
-      return { figure, ...b, reading: r.qqShape.reading, summary: r.qqShape.summary, line: { slope, intercept }, rows, note };
+      return {
+        figure,
+        ...b,
+        reading: r.qqShape.reading,
+        summary: r.qqShape.summary,
+        line: { slope, intercept },
+        rows,
+        note,
+        ...(dense && thinned ? { dense: dense.summary, thinning: { tail: QQ_TAIL, step: thinned.step } } : {}),
+      };
     }
     case "influence": {
       const threshold = appliedThreshold(doc, "cooks_distance");
       const byCook = new Set((checkOf(doc, "cooks_distance")?.flagged ?? []).map((f) => f.row));
+      const keys = threshold ? byCook : influential;
       const top = topBy(obs.cooksDistance, LABELLED, (i) => byCook.has(obs.row[i]));
-      const rows: InfluenceRow[] = obs.row.map((_, i) => ({
+      const dense = denseSelection(r, keys);
+      const rows: InfluenceRow[] = drawnIndices(n, dense).map((i) => ({
         ...who(r, i, opts.withSubjectIds),
         order: i + 1,
         cooks: round(obs.cooksDistance[i]),
         leverage: round(obs.leverage[i]),
         dffits: r.kind === "linear" ? round(r.observations.dffits[i]) : null,
-        status: statusOf(i, threshold ? byCook : influential),
+        status: statusOf(i, keys),
         label: top.has(i) ? labelOf(r, i, opts.withSubjectIds, top) : null,
       }));
-      return { figure, ...b, threshold, rows };
+      const blocks = dense ? blockMaxima(obs.cooksDistance, obs.row.map((_, i) => i).filter((i) => !dense.drawn.has(i)), n, BLOCKS) : undefined;
+      return { figure, ...b, threshold, rows, ...(dense ? { dense: dense.summary, blocks } : {}) };
     }
     case "leverage_residual": {
       const leverageThreshold = appliedThreshold(doc, "leverage");
       const residualThreshold = appliedThreshold(doc, "deletion_residual");
       const keys = flaggedRows(doc, ["leverage", "deletion_residual", "cooks_distance"]);
       const top = topBy(obs.cooksDistance, LABELLED, (i) => keys.has(obs.row[i]));
-      const rows = obs.row.map((_, i) => ({
+      const dense = denseSelection(r, keys);
+      const rows = drawnIndices(n, dense).map((i) => ({
         ...who(r, i, opts.withSubjectIds),
         leverage: round(obs.leverage[i]),
         deletionResidual: round(obs.studentizedExternal[i]),
@@ -264,7 +346,7 @@ export function figureData(doc: RerunDocument, figure: FigureKey, opts: FigureOp
         status: statusOf(i, keys),
         label: top.has(i) ? labelOf(r, i, opts.withSubjectIds, top) : null,
       }));
-      return { figure, ...b, leverageThreshold, residualThreshold, rows };
+      return { figure, ...b, leverageThreshold, residualThreshold, rows, ...(dense ? { dense: dense.summary, cells: cellsOf(obs.leverage, obs.studentizedExternal, dense) } : {}) };
     }
     case "spread_by_arm": {
       const treatment = r.spec.treatment;
@@ -272,14 +354,18 @@ export function figureData(doc: RerunDocument, figure: FigureKey, opts: FigureOp
       const t = requireTerm(r, treatment, false);
       const cells = cellsFor(r, opts.table, treatment, figure);
       const bf = r.kind === "linear" ? r.tests.brownForsythe : undefined;
-      const rows = obs.row.map((row, i) => ({ ...who(r, i, opts.withSubjectIds), arm: cells[i], residual: round(residualOf(r, i)), jitter: round(jitterOf(row)), status: statusOf(i) }));
+      const dense = denseSelection(r, influential);
+      const rows = drawnIndices(n, dense).map((i) => ({ ...who(r, i, opts.withSubjectIds), arm: cells[i], residual: round(residuals[i]), jitter: round(jitterOf(obs.row[i])), status: statusOf(i) }));
+      const levels = t.levels ?? [];
       return {
         figure,
         ...b,
         treatment,
-        levels: t.levels ?? [],
+        levels,
         test: bf && bf.p !== null && bf.statistic !== null ? { statistic: bf.statistic, p: bf.p } : null,
         rows,
+        boxes: boxSummaries(levels, cells, residuals),
+        ...(dense ? { dense: dense.summary } : {}),
       };
     }
   }

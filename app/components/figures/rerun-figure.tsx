@@ -1,7 +1,7 @@
 import { useEffect, useRef, useState } from "react";
 import type { TopLevelSpec } from "vega-lite";
 import type { FigureKey } from "~/engine/checks";
-import { LARGE_N, rewrapTitle, type FigureData } from "./specs";
+import { CANVAS_FROM, rewrapTitle, type FigureData } from "./specs";
 
 /** The frame's height: fixed, so the page does not move when the chart arrives. */
 export const FIGURE_FRAME_HEIGHT = 440;
@@ -20,8 +20,9 @@ export function figureUrl(studyId: string, rerunId: string, figure: FigureKey, t
  * One diagnostic figure of a rerun, drawn in the browser from data fetched from the figures
  * resource route, so the page paints before the charts. vega-embed is imported lazily, on the
  * client only, when the frame comes near the viewport; expressions run through Vega's
- * interpreter (no eval, so the page's CSP holds); from LARGE_N rows the canvas renderer keeps
- * hover responsive.
+ * interpreter (no eval, so the page's CSP holds). From DENSE_FROM subjects the server sends a
+ * density and the few subjects worth naming instead of every point; from CANVAS_FROM drawn points
+ * the canvas renderer keeps hover responsive.
  */
 export function RerunFigure({ studyId, rerunId, figure, term }: { studyId: string; rerunId: string; figure: FigureKey; term?: string }) {
   const frame = useRef<HTMLDivElement>(null);
@@ -66,7 +67,7 @@ export function RerunFigure({ studyId, rerunId, figure, term }: { studyId: strin
       const result = await embed(target.current, spec, {
         actions: false,
         ast: true,
-        renderer: body.data.n >= LARGE_N ? "canvas" : "svg",
+        renderer: body.data.rows.length >= CANVAS_FROM ? "canvas" : "svg",
         tooltip: { theme: "light" },
       });
       if (abort.signal.aborted) result.finalize();

@@ -33,8 +33,59 @@ export const BEYOND = "beyond a planned threshold";
 export const WITHIN = "within the thresholds";
 export type PointStatus = typeof BEYOND | typeof WITHIN;
 
-/** Rows from this size on are drawn with the canvas renderer and lighter points. */
-export const LARGE_N = 10_000;
+/**
+ * From this many subjects on, a figure draws the subjects as a density (counts in the cells of a
+ * grid, or box summaries) and only the most influential subjects beyond a threshold one by one:
+ * thousands of overlapping points hide more than they show, and each one costs the browser time.
+ */
+export const DENSE_FROM = 5_000;
+
+/** The most subjects a dense figure draws one by one (the largest Cook's distances first). */
+export const DENSE_POINTS = 250;
+
+/** From this many drawn marks on, the browser draws with the canvas renderer instead of SVG. */
+export const CANVAS_FROM = 2_000;
+
+/** How a dense figure was thinned, for its subtitle. */
+export interface DenseSummary {
+  /** Subjects in the figure. */
+  total: number;
+  /** Of them, beyond a planned threshold. */
+  beyond: number;
+  /** Of those, drawn one by one. */
+  drawn: number;
+}
+
+/** One cell of a density layer: the subjects whose point falls in [x0, x1) × [y0, y1). */
+export interface DensityCell {
+  x0: number;
+  x1: number;
+  y0: number;
+  y1: number;
+  count: number;
+  /** The cell's edges in words, for hover ("1.2 to 1.4"). */
+  xRange: string;
+  yRange: string;
+}
+
+/** Tukey's box summary of one level's residuals, computed on the server. */
+export interface BoxSummary {
+  level: string;
+  n: number;
+  q1: number;
+  median: number;
+  q3: number;
+  /** Whisker ends: the most extreme values within 1.5 × IQR of the box. */
+  lower: number;
+  upper: number;
+}
+
+/** The largest Cook's distance among subjects at positions from..to (1-based) not drawn one by one. */
+export interface InfluenceBlock {
+  from: number;
+  to: number;
+  cooks: number;
+}
 
 /** Who a point is: the subject id and the 1-based data row; both null when the viewer may not see subjects. */
 export interface SubjectRef {
@@ -52,6 +103,8 @@ interface FigureBase {
   weighted: boolean;
   /** Extra words shown under the title (e.g. a caveat for interaction models). */
   note?: string;
+  /** Set when the figure has DENSE_FROM subjects or more: rows then hold only the subjects drawn one by one. */
+  dense?: DenseSummary;
 }
 
 export interface ResidualsFittedRow extends SubjectRef {
@@ -62,6 +115,8 @@ export interface ResidualsFittedRow extends SubjectRef {
 export interface ResidualsFittedData extends FigureBase {
   figure: "residuals_fitted";
   rows: ResidualsFittedRow[];
+  /** Dense figures: the subjects not drawn one by one. */
+  cells?: DensityCell[];
   /** Loess smoother of the residuals on the fitted values (span 0.5). */
   smooth: SmoothPoint[];
 }
@@ -82,6 +137,10 @@ export interface ResidualsCovariateData extends FigureBase {
   /** Level order for a categorical covariate, reference first. */
   levels?: string[];
   rows: ResidualsCovariateRow[];
+  /** Dense figures of a continuous covariate: the subjects not drawn one by one. */
+  cells?: DensityCell[];
+  /** Box summaries of every subject's residuals by level (categorical covariates only). */
+  boxes?: BoxSummary[];
   /** Loess smoother (continuous covariates only). */
   smooth?: SmoothPoint[];
 }
@@ -100,6 +159,10 @@ export interface PartialResidualsData extends FigureBase {
   termUnit: string;
   coefficient: number;
   rows: PartialResidualRow[];
+  /** The fitted component at the smallest and largest value of the covariate: a straight line. */
+  fittedLine: { x: number; component: number }[];
+  /** Dense figures: the subjects not drawn one by one. */
+  cells?: DensityCell[];
   /** Loess smoother of the partial residuals on the covariate. */
   smooth: SmoothPoint[];
 }
@@ -118,6 +181,8 @@ export interface QqData extends FigureBase {
   /** Reference line through the quartiles (Chambers, Cleveland, Kleiner and Tukey 1983). */
   line: { slope: number; intercept: number };
   rows: QqRow[];
+  /** Dense figures: how the sorted residuals were thinned (every step-th kept between the tails). */
+  thinning?: { tail: number; step: number };
 }
 
 export interface InfluenceRow extends SubjectRef {
@@ -140,6 +205,8 @@ export interface InfluenceData extends FigureBase {
   figure: "influence";
   threshold: Threshold | null;
   rows: InfluenceRow[];
+  /** Dense figures: the largest Cook's distance in blocks of consecutive subjects not drawn one by one. */
+  blocks?: InfluenceBlock[];
 }
 
 export interface LeverageResidualRow extends SubjectRef {
@@ -154,6 +221,8 @@ export interface LeverageResidualData extends FigureBase {
   leverageThreshold: Threshold | null;
   residualThreshold: Threshold | null;
   rows: LeverageResidualRow[];
+  /** Dense figures: the subjects not drawn one by one. */
+  cells?: DensityCell[];
 }
 
 export interface SpreadRow extends SubjectRef {
@@ -170,6 +239,8 @@ export interface SpreadByArmData extends FigureBase {
   /** Brown–Forsythe test across arms, as the rerun computed it. */
   test: { statistic: number; p: number } | null;
   rows: SpreadRow[];
+  /** Box summaries of every subject's residuals by arm. */
+  boxes: BoxSummary[];
 }
 
 export type FigureData =
@@ -282,19 +353,88 @@ function tooltip(d: FigureBase, fields: { field: string; title: string; format?:
   ];
 }
 
-function large(d: { n: number }): boolean {
-  return d.n >= LARGE_N;
+/** Many points (below DENSE_FROM): smaller and lighter, so overlaps still read. */
+function crowded(d: FigureBase): boolean {
+  return !d.dense && d.n >= CANVAS_FROM;
 }
 
-/** Shape, colour and size by status: open triangles in the finding colour beyond a threshold. */
-function statusEncoding(d: { n: number }): Json {
+/**
+ * Shape, colour and size by status: open triangles in the finding colour beyond a threshold.
+ * A dense figure's points (except the Q-Q plot's) are all beyond a threshold, so its legend has
+ * that one entry.
+ */
+function statusEncoding(d: FigureBase, beyondOnly = Boolean(d.dense)): Json {
+  const domain = beyondOnly ? [BEYOND] : [WITHIN, BEYOND];
+  const pick = (within: unknown, beyond: unknown) => (beyondOnly ? [beyond] : [within, beyond]);
+  const legend = { title: beyondOnly ? "Drawn one by one" : "Subjects" };
   return {
-    shape: { field: "status", type: "nominal", scale: { domain: [WITHIN, BEYOND], range: ["circle", "triangle-up"] }, legend: { title: "Subjects" } },
-    color: { field: "status", type: "nominal", scale: { domain: [WITHIN, BEYOND], range: [PALETTE.pending, PALETTE.finding] }, legend: { title: "Subjects" } },
-    // ordinal scales, not conditions: no expression evaluated per point (Vega's CSP-safe interpreter is slow at 10 000 points)
-    size: { field: "status", type: "ordinal", scale: { domain: [WITHIN, BEYOND], range: [large(d) ? 6 : 16, 48] }, legend: { title: "Subjects" } },
-    opacity: { field: "status", type: "ordinal", scale: { domain: [WITHIN, BEYOND], range: [large(d) ? 0.35 : 0.7, 1] }, legend: { title: "Subjects" } },
+    shape: { field: "status", type: "nominal", scale: { domain, range: pick("circle", "triangle-up") }, legend },
+    color: { field: "status", type: "nominal", scale: { domain, range: pick(PALETTE.pending, PALETTE.finding) }, legend },
+    // ordinal scales, not conditions: no expression evaluated per point (Vega's CSP-safe interpreter is slow with many points)
+    size: beyondOnly ? { value: 48 } : { field: "status", type: "ordinal", scale: { domain, range: [crowded(d) ? 8 : 16, 48] }, legend },
+    opacity: beyondOnly ? { value: 1 } : { field: "status", type: "ordinal", scale: { domain, range: [crowded(d) ? 0.45 : 0.7, 1] }, legend },
   };
+}
+
+/** The subtitle line of a dense figure: what the shading counts and who is drawn one by one. */
+function denseLine(d: FigureBase, what: string): string[] {
+  if (!d.dense) return [];
+  const { total, beyond, drawn } = d.dense;
+  const points =
+    beyond === 0
+      ? "no subject is beyond a planned threshold"
+      : drawn < beyond
+        ? `triangles: the ${count(drawn)} with the largest Cook's distance of the ${count(beyond)} subjects beyond a planned threshold`
+        : `triangles: the ${count(beyond)} subjects beyond a planned threshold`;
+  return [`${count(total)} subjects: ${what}; ${points}.`];
+}
+
+/** A count with thousands separated ("9,394"). */
+function count(v: number): string {
+  return v.toLocaleString("en-GB");
+}
+
+/**
+ * The density layer of a dense scatter figure: a cell per occupied grid square, shaded by how many
+ * subjects it holds (square-root scale, so a few subjects still show). Uses the fill channel, which
+ * the open points never use, so its scale and legend stay apart from the status ones.
+ */
+function cellsLayer(cells: readonly DensityCell[], xName: string, yName: string): Json {
+  return {
+    data: { values: cells },
+    mark: { type: "rect", strokeWidth: 0 },
+    encoding: {
+      x: { field: "x0", type: "quantitative" },
+      x2: { field: "x1" },
+      y: { field: "y0", type: "quantitative" },
+      y2: { field: "y1" },
+      fill: { field: "count", type: "quantitative", scale: { type: "sqrt", zero: true, range: ["#ebe6da", PALETTE.pending] }, legend: { title: "Subjects per cell", gradientLength: 110, tickCount: 3, format: "d" } },
+      tooltip: [
+        { field: "count", type: "quantitative", title: "Subjects in this cell", format: "d" },
+        { field: "xRange", type: "nominal", title: xName },
+        { field: "yRange", type: "nominal", title: yName },
+      ],
+    },
+  };
+}
+
+/** Box summaries drawn from the server's numbers: whisker rule, box from Q1 to Q3, median tick. */
+function boxLayers(boxes: readonly BoxSummary[], x: Json, yTitle: string, size: number): Json[] {
+  const y = (field: string) => ({ field, type: "quantitative", title: yTitle });
+  const tip = [
+    { field: "level", type: "nominal", title: "Level" },
+    { field: "n", type: "quantitative", title: "Subjects", format: "d" },
+    { field: "median", type: "quantitative", title: "Median", format: ".4~g" },
+    { field: "q1", type: "quantitative", title: "First quartile", format: ".4~g" },
+    { field: "q3", type: "quantitative", title: "Third quartile", format: ".4~g" },
+  ];
+  // the boxes carry the level under the points' field name, so both layers share one sorted x domain
+  const values = boxes.map((b) => ({ ...b, [String(x.field)]: b.level }));
+  return [
+    { data: { values }, mark: { type: "rule", color: PALETTE.ink }, encoding: { x, y: y("lower"), y2: { field: "upper" } } },
+    { data: { values }, mark: { type: "bar", size, fill: "#efeadf", stroke: PALETTE.ink, strokeWidth: 0.8 }, encoding: { x, y: y("q1"), y2: { field: "q3" }, tooltip: tip } },
+    { data: { values }, mark: { type: "tick", size, thickness: 1.5, color: PALETTE.ink }, encoding: { x, y: y("median") } },
+  ];
 }
 
 function pointMark(): Json {
@@ -337,9 +477,15 @@ export function residualsFittedSpec(d: ResidualsFittedData, opts: SpecOptions = 
   return asSpec({
     $schema: "https://vega.github.io/schema/vega-lite/v6.json",
     ...frame(d, opts),
-    title: title("Residuals against fitted values", "an even band around zero with a flat smoother; no funnel, no curve.", ["Brass line: loess smoother (span 0.5). Dashed: zero.", ...(d.note ? [d.note] : [])], width),
+    title: title(
+      "Residuals against fitted values",
+      "an even band around zero with a flat smoother; no funnel, no curve.",
+      ["Brass line: loess smoother (span 0.5), of every subject. Dashed: zero.", ...denseLine(d, "shading counts the subjects in each cell"), ...(d.note ? [d.note] : [])],
+      width,
+    ),
     ...dataOf(d.rows, opts),
     layer: [
+      ...(d.cells ? [cellsLayer(d.cells, "Fitted", "Residual")] : []),
       zeroRule("y"),
       {
         mark: pointMark(),
@@ -370,9 +516,15 @@ export function residualsCovariateSpec(d: ResidualsCovariateData, opts: SpecOpti
     return asSpec({
       $schema: "https://vega.github.io/schema/vega-lite/v6.json",
       ...frame(d, opts),
-      title: title(`Residuals against ${d.term}`, "an even band around zero with a flat smoother; a curve suggests the wrong functional form.", ["Brass line: loess smoother (span 0.5). Dashed: zero.", ...extra], width),
+      title: title(
+        `Residuals against ${d.term}`,
+        "an even band around zero with a flat smoother; a curve suggests the wrong functional form.",
+        ["Brass line: loess smoother (span 0.5), of every subject. Dashed: zero.", ...denseLine(d, "shading counts the subjects in each cell"), ...extra],
+        width,
+      ),
       ...dataOf(d.rows, opts),
       layer: [
+        ...(d.cells ? [cellsLayer(d.cells, d.term, "Residual")] : []),
         zeroRule("y"),
         {
           mark: pointMark(),
@@ -386,14 +538,16 @@ export function residualsCovariateSpec(d: ResidualsCovariateData, opts: SpecOpti
   return asSpec({
     $schema: "https://vega.github.io/schema/vega-lite/v6.json",
     ...frame(d, opts),
-    title: title(`Residuals by ${d.term}`, "boxes centred on zero with similar heights at every level.", ["Boxes: quartiles and median; whiskers to 1.5 × IQR. Dashed: zero.", ...extra], width),
+    title: title(
+      `Residuals by ${d.term}`,
+      "boxes centred on zero with similar heights at every level.",
+      ["Boxes: quartiles and median of every subject; whiskers to 1.5 × IQR. Dashed: zero.", ...denseLine(d, "the boxes summarise them all"), ...extra],
+      width,
+    ),
     ...dataOf(d.rows, opts),
     layer: [
       zeroRule("y"),
-      {
-        mark: { type: "boxplot", extent: 1.5, outliers: false, size: 36, box: { fill: "#efeadf", stroke: PALETTE.ink, strokeWidth: 0.8 }, median: { color: PALETTE.ink, strokeWidth: 1.5 }, rule: { color: PALETTE.ink }, ticks: false },
-        encoding: { x, y: yAxis },
-      },
+      ...boxLayers(d.boxes ?? [], x, yAxis.title, 36),
       {
         mark: pointMark(),
         encoding: { x, xOffset: { field: "jitter", type: "quantitative", scale: { domain: [-2.2, 2.2] } }, y: yAxis, ...statusEncoding(d), tooltip: tip },
@@ -411,11 +565,12 @@ export function partialResidualsSpec(d: PartialResidualsData, opts: SpecOptions 
     title: title(
       `Partial residuals for ${d.term}`,
       "the smoother follows the straight line of the fitted effect; a bend means the effect is not linear.",
-      ["Grey line: fitted linear effect. Brass line: loess smoother (span 0.5).", ...(d.note ? [d.note] : [])],
+      ["Grey line: fitted linear effect. Brass line: loess smoother (span 0.5), of every subject.", ...denseLine(d, "shading counts the subjects in each cell"), ...(d.note ? [d.note] : [])],
       width,
     ),
     ...dataOf(d.rows, opts),
     layer: [
+      ...(d.cells ? [cellsLayer(d.cells, d.term, "Component + residual")] : []),
       {
         mark: pointMark(),
         encoding: {
@@ -429,10 +584,23 @@ export function partialResidualsSpec(d: PartialResidualsData, opts: SpecOptions 
           ]),
         },
       },
-      { mark: { type: "line", color: PALETTE.inkSoft, strokeWidth: 1.5 }, encoding: { x: xEnc, y: { field: "component", type: "quantitative" } } },
+      { data: { values: d.fittedLine }, mark: { type: "line", color: PALETTE.inkSoft, strokeWidth: 1.5 }, encoding: { x: xEnc, y: { field: "component", type: "quantitative" } } },
       loessLayer(d.smooth),
     ],
   });
+}
+
+/** How a dense Q-Q plot was thinned, in words. */
+function qqThinningLine(d: QqData): string[] {
+  if (!d.dense || !d.thinning) return [];
+  const { tail, step } = d.thinning;
+  return [`${count(d.dense.total)} subjects: drawn are the ${tail} smallest and ${tail} largest residuals, every ${step === 1 ? "" : `${ordinal(step)} `}one in between and the subjects shown one by one in the other figures.`];
+}
+
+function ordinal(k: number): string {
+  const tens = k % 100;
+  const suffix = tens >= 11 && tens <= 13 ? "th" : ({ 1: "st", 2: "nd", 3: "rd" } as Record<number, string>)[k % 10] ?? "th";
+  return `${k}${suffix}`;
 }
 
 export function qqSpec(d: QqData, opts: SpecOptions = {}): TopLevelSpec {
@@ -443,7 +611,12 @@ export function qqSpec(d: QqData, opts: SpecOptions = {}): TopLevelSpec {
   return asSpec({
     $schema: "https://vega.github.io/schema/vega-lite/v6.json",
     ...frame(d, opts),
-    title: title(`Normal Q-Q plot: ${d.reading}`, "the points lie along the line from end to end.", [d.summary, "Line through the quartiles; Blom plotting positions.", ...(d.note ? [d.note] : [])], width),
+    title: title(
+      `Normal Q-Q plot: ${d.reading}`,
+      "the points lie along the line from end to end.",
+      [d.summary, "Line through the quartiles; Blom plotting positions.", ...qqThinningLine(d), ...(d.note ? [d.note] : [])],
+      width,
+    ),
     ...dataOf(d.rows, opts),
     layer: [
       {
@@ -456,7 +629,7 @@ export function qqSpec(d: QqData, opts: SpecOptions = {}): TopLevelSpec {
         encoding: {
           x: { field: "theoretical", type: "quantitative", title: "Normal quantile (standard normal units)" },
           y: { field: "sample", type: "quantitative", title: "Studentized residual (units of σ̂)" },
-          ...statusEncoding(d),
+          ...statusEncoding(d, false),
           tooltip: tooltip(d, [
             { field: "theoretical", title: "Normal quantile" },
             { field: "sample", title: "Studentized residual" },
@@ -483,17 +656,47 @@ export function influenceSpec(d: InfluenceData, opts: SpecOptions = {}): TopLeve
     title: title(
       "Influence by subject (Cook's distance)",
       "every subject's bar well below the dashed threshold line; no single subject stands out.",
-      [d.threshold ? `Dashed line: the plan's threshold ${d.threshold.label}.` : "The plan sets no Cook's distance threshold.", ...(d.note ? [d.note] : [])],
+      [
+        d.threshold ? `Dashed line: the plan's threshold ${d.threshold.label}.` : "The plan sets no Cook's distance threshold.",
+        ...denseLine(d, `grey bars show the largest Cook's distance in each run of ${d.blocks?.[0] ? count(d.blocks[0].to - d.blocks[0].from + 1) : "a few"} consecutive subjects`),
+        ...(d.note ? [d.note] : []),
+      ],
       width,
     ),
     ...dataOf(d.rows, opts),
     layer: [
-      ...(large(d) ? [] : [{ mark: { type: "rule", color: PALETTE.rule, strokeWidth: 1 }, encoding: { x, y, y2: { datum: 0 } } }]),
+      ...(d.blocks
+        ? [
+            {
+              data: { values: d.blocks },
+              mark: { type: "rect", color: PALETTE.rule },
+              encoding: {
+                x: { ...x, field: "from" },
+                x2: { field: "to" },
+                y: { ...y, field: "cooks" },
+                y2: { datum: 0 },
+                tooltip: [
+                  { field: "from", type: "quantitative", title: "From position", format: "d" },
+                  { field: "to", type: "quantitative", title: "To position", format: "d" },
+                  { field: "cooks", type: "quantitative", title: "Largest Cook's distance", format: ".4~g" },
+                ],
+              },
+            },
+          ]
+        : crowded(d)
+          ? []
+          : [{ mark: { type: "rule", color: PALETTE.rule, strokeWidth: 1 }, encoding: { x, y, y2: { datum: 0 } } }]),
       { mark: pointMark(), encoding: { x, y, ...statusEncoding(d), tooltip: tip } },
       ...(d.threshold ? thresholdRule("y", d.threshold, "threshold") : []),
+      // labels on the right of their point, or on the left near the right edge
       {
-        transform: [{ filter: "datum.label != null" }],
+        transform: [{ filter: `datum.label != null && datum.order <= ${Math.round(d.n * 0.8)}` }],
         mark: { type: "text", align: "left", dx: 6, dy: -2, fontSize: 10, color: PALETTE.finding },
+        encoding: { x, y, text: { field: "label", type: "nominal" } },
+      },
+      {
+        transform: [{ filter: `datum.label != null && datum.order > ${Math.round(d.n * 0.8)}` }],
+        mark: { type: "text", align: "right", dx: -6, dy: -2, fontSize: 10, color: PALETTE.finding },
         encoding: { x, y, text: { field: "label", type: "nominal" } },
       },
     ],
@@ -503,8 +706,8 @@ export function influenceSpec(d: InfluenceData, opts: SpecOptions = {}): TopLeve
 export function leverageResidualSpec(d: LeverageResidualData, opts: SpecOptions = {}): TopLevelSpec {
   const width = opts.width ?? 560;
   // room on the right for the label of the point with the largest leverage
-  const maxLeverage = d.rows.reduce((m, r) => (Number.isFinite(r.leverage) && r.leverage > m ? r.leverage : m), d.leverageThreshold?.value ?? 0);
-  const x = { field: "leverage", type: "quantitative", title: "Leverage (hat value, no unit)", scale: { domain: [0, maxLeverage * 1.18], nice: false }, axis: { tickCount: 6, format: ".3~f" } };
+  const maxLeverage = [...d.rows.map((r) => r.leverage), ...(d.cells ?? []).map((c) => c.x1)].reduce((m, v) => (Number.isFinite(v) && v > m ? v : m), d.leverageThreshold?.value ?? 0);
+  const x = { field: "leverage", type: "quantitative", title: "Leverage (hat value, no unit)", scale: { domain: [0, maxLeverage * 1.18], nice: false }, axis: { tickCount: 6, format: ".2~r" } };
   const y = { field: "deletionResidual", type: "quantitative", title: "Deletion residual (units of σ̂₍ᵢ₎)" };
   const status = statusEncoding(d);
   const rules: Json[] = [];
@@ -524,11 +727,16 @@ export function leverageResidualSpec(d: LeverageResidualData, opts: SpecOptions 
     title: title(
       "Leverage against deletion residual",
       "points inside the dashed lines, none both far right and far from zero; point size is Cook's distance.",
-      [lines.length ? `Dashed lines, the plan's thresholds: ${lines.join("; ")}.` : "The plan sets no leverage or residual threshold.", ...(d.note ? [d.note] : [])],
+      [
+        lines.length ? `Dashed lines, the plan's thresholds: ${lines.join("; ")}.` : "The plan sets no leverage or residual threshold.",
+        ...denseLine(d, "shading counts the subjects in each cell"),
+        ...(d.note ? [d.note] : []),
+      ],
       width,
     ),
     ...dataOf(d.rows, opts),
     layer: [
+      ...(d.cells ? [cellsLayer(d.cells, "Leverage", "Deletion residual")] : []),
       zeroRule("y"),
       ...rules,
       {
@@ -539,7 +747,7 @@ export function leverageResidualSpec(d: LeverageResidualData, opts: SpecOptions 
           shape: status.shape,
           color: status.color,
           opacity: status.opacity,
-          size: { field: "cooks", type: "quantitative", title: "Cook's distance", scale: { range: [large(d) ? 4 : 10, 400], zero: true }, legend: { format: ".2~f", tickCount: 3 } },
+          size: { field: "cooks", type: "quantitative", title: "Cook's distance", scale: { range: [crowded(d) ? 4 : 10, 400], zero: true }, legend: { format: ".2~r", tickCount: 3 } },
           tooltip: tooltip(d, [
             { field: "leverage", title: "Leverage" },
             { field: "deletionResidual", title: "Deletion residual" },
@@ -564,14 +772,16 @@ export function spreadByArmSpec(d: SpreadByArmData, opts: SpecOptions = {}): Top
   return asSpec({
     $schema: "https://vega.github.io/schema/vega-lite/v6.json",
     ...frame(d, opts),
-    title: title("Residual spread by arm", "boxes of similar height in every arm, each centred on zero.", [`${test} Boxes: quartiles and median; whiskers to 1.5 × IQR.`, ...(d.note ? [d.note] : [])], width),
+    title: title(
+      "Residual spread by arm",
+      "boxes of similar height in every arm, each centred on zero.",
+      [`${test} Boxes: quartiles and median of every subject; whiskers to 1.5 × IQR.`, ...denseLine(d, "the boxes summarise them all"), ...(d.note ? [d.note] : [])],
+      width,
+    ),
     ...dataOf(d.rows, opts),
     layer: [
       zeroRule("y"),
-      {
-        mark: { type: "boxplot", extent: 1.5, outliers: false, size: 44, box: { fill: "#efeadf", stroke: PALETTE.ink, strokeWidth: 0.8 }, median: { color: PALETTE.ink, strokeWidth: 1.5 }, rule: { color: PALETTE.ink }, ticks: false },
-        encoding: { x, y },
-      },
+      ...boxLayers(d.boxes, x, y.title, 44),
       {
         mark: pointMark(),
         encoding: {
