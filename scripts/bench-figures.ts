@@ -1,0 +1,377 @@
+/**
+ * `npm run bench:figures` (after `npm ci && npm run build`): how soon the rerun results page has
+ * its figures usable in headless Chromium, for the primary model rerun on 10 000 subjects (all in
+ * the analysis set, so the figures use the canvas renderer) and, for comparison, on the demo
+ * study's dataset of 450. Target: results page with all figures usable within 1.5 s for n = 10 000.
+ *
+ * It builds the benchmark study on a temporary SQLite file (scripts/lib/large-study.ts), starts
+ * the built server, signs the biostatistician in with a session made directly in the database,
+ * and drives Debian's chromium (or CHROMIUM_PATH, as tests/support/browser.ts does). Each time is
+ * the median of 3 page loads, each in a fresh page of a browser warmed by one untimed load, read
+ * in the page's clock (performance.now(), from navigation start):
+ *  - all figures: a 1280×12000 viewport, so every figure is near the viewport at once; time until
+ *    every figure is ready (polled each animation frame), the first figure, DOMContentLoaded,
+ *    first paint and the longest main-thread task (Long Tasks API);
+ *  - as a reader scrolls: a 1280×900 viewport; from the load event each figure is scrolled into
+ *    view in order, timing until it is ready, and the first figure from navigation start;
+ *  - hover (n = 10 000): the mouse moved off and onto a grid of points of one figure, time from a
+ *    move to the tooltip (vega-tooltip's #vg-tooltip-element gaining class "visible").
+ * Prints figures; asserts nothing.
+ */
+import { existsSync, mkdirSync } from "node:fs";
+import os from "node:os";
+import path from "node:path";
+import type { Browser, BrowserContext, Page } from "playwright-core";
+import { ensureKeyPair } from "../idp-fake/saml/launch";
+import { CHROMIUM, launchBrowser } from "../tests/support/browser";
+import { freePort, startAppServer, type RunningApp } from "./lib/app-server";
+import { buildLargeStudy, useTempDataDir, type BenchDataset } from "./lib/large-study";
+
+const TARGET_MS = 1500;
+const LOADS = 3;
+const TALL = { width: 1280, height: 12_000 };
+const READER = { width: 1280, height: 900 };
+/** Longest wait for one figure or one page (the open target is several seconds at 10 000). */
+const WAIT_MS = 120_000;
+
+/** What the page records about itself, installed before any of its scripts run. */
+interface Probe {
+  /** performance.now() each time a figure's data-state became "ready". */
+  readyAt: number[];
+  /** Durations of main-thread tasks longer than 50 ms. */
+  longTasks: number[];
+  /** timeStamp of the last mousemove event. */
+  moveAt: number | null;
+  /** performance.now() at the first animation frame after the tooltip became visible. */
+  tooltipShownAt: number | null;
+}
+
+declare global {
+  interface Window {
+    plumblineBench?: Probe;
+  }
+}
+
+function installProbe(): void {
+  const probe: Probe = { readyAt: [], longTasks: [], moveAt: null, tooltipShownAt: null };
+  window.plumblineBench = probe;
+  try {
+    new PerformanceObserver((list) => {
+      for (const e of list.getEntries()) probe.longTasks.push(e.duration);
+    }).observe({ type: "longtask", buffered: true });
+  } catch {
+    // no Long Tasks API: the longest task is reported as not measured
+  }
+  new MutationObserver((records) => {
+    const now = performance.now();
+    for (const r of records) if (r.target instanceof HTMLElement && r.target.dataset.state === "ready") probe.readyAt.push(now);
+  }).observe(document, { subtree: true, attributes: true, attributeFilter: ["data-state"] });
+  addEventListener("mousemove", (e) => (probe.moveAt = e.timeStamp), { capture: true, passive: true });
+}
+
+interface AllFiguresLoad {
+  allReadyMs: number;
+  firstReadyMs: number | null;
+  figures: number;
+  errors: string[];
+  domContentLoadedMs: number | null;
+  firstPaintMs: number | null;
+  longestTaskMs: number | null;
+  renderer: string;
+  /** Where the last figure's frame ends on the page, in px. */
+  lastFigureBottom: number;
+}
+
+interface ReaderLoad {
+  /** From navigation start until the first figure was ready, the reader scrolling from the load event on. */
+  firstReadyMs: number;
+  /** Where the first figure's frame starts on the first screen (px from the top of the viewport). */
+  firstTop: number;
+  viewportHeight: number;
+  /** Per figure, in page order: time from scrolling it into view until it was ready. */
+  afterScrollMs: { label: string; ms: number }[];
+}
+
+const median = (xs: number[]): number => {
+  const s = [...xs].sort((a, b) => a - b);
+  const m = Math.floor(s.length / 2);
+  return s.length % 2 ? s[m] : (s[m - 1] + s[m]) / 2;
+};
+const ms = (x: number | null): string => (x === null ? "not measured" : `${Math.round(x)} ms`);
+
+/** Runs `fn(arg)` in the page at every animation frame until it returns something other than false. */
+async function poll<R>(page: Page, fn: (arg: number) => R | false, arg = 0, timeout = WAIT_MS): Promise<R> {
+  const handle = await page.waitForFunction(fn, arg, { polling: "raf", timeout });
+  return (await handle.jsonValue()) as R; // waitForFunction resolves only on a truthy value
+}
+
+/** Waits in the page, each animation frame, until no figure is still loading. */
+function waitForAllFigures(page: Page): Promise<{ at: number; figures: number; errors: string[] }> {
+  return poll(page, () => {
+    const els = [...document.querySelectorAll<HTMLElement>("[data-figure]")];
+    if (els.length === 0 || els.some((el) => el.dataset.state === "loading")) return false;
+    const errors = els.filter((el) => el.dataset.state === "error").map((el) => `${el.dataset.figure}: ${el.textContent?.trim() ?? ""}`);
+    return { at: performance.now(), figures: els.length, errors };
+  });
+}
+
+async function loadAllFigures(context: BrowserContext, url: string): Promise<AllFiguresLoad> {
+  const page = await context.newPage();
+  try {
+    await page.goto(url, { waitUntil: "commit" });
+    const done = await waitForAllFigures(page);
+    const facts = await page.evaluate(() => {
+      const probe = window.plumblineBench;
+      const nav = performance.getEntriesByType("navigation")[0] as PerformanceNavigationTiming | undefined;
+      const paint = performance.getEntriesByName("first-paint")[0];
+      const first = document.querySelector("[data-figure] canvas, [data-figure] svg.marks");
+      return {
+        firstReadyMs: probe && probe.readyAt.length > 0 ? Math.min(...probe.readyAt) : null,
+        longestTaskMs: probe && probe.longTasks.length > 0 ? Math.max(...probe.longTasks) : null,
+        domContentLoadedMs: nav ? nav.domContentLoadedEventEnd : null,
+        firstPaintMs: paint ? paint.startTime : null,
+        renderer: first ? (first.tagName.toLowerCase() === "canvas" ? "canvas" : "svg") : "none",
+        lastFigureBottom: Math.max(...[...document.querySelectorAll("[data-figure]")].map((el) => el.getBoundingClientRect().bottom + scrollY)),
+      };
+    });
+    return { allReadyMs: done.at, figures: done.figures, errors: done.errors, ...facts };
+  } finally {
+    await page.close();
+  }
+}
+
+async function loadAsReader(context: BrowserContext, url: string): Promise<ReaderLoad> {
+  const page = await context.newPage();
+  try {
+    // the reader starts scrolling once the page has loaded
+    await page.goto(url, { waitUntil: "load" });
+    const firstTop = await page.evaluate(() => document.querySelector("[data-figure]")?.getBoundingClientRect().top ?? null);
+    if (firstTop === null) throw new Error("The results page shows no figure: is the rerun completed?");
+    const afterScrollMs: ReaderLoad["afterScrollMs"] = [];
+    const count = await page.locator("[data-figure]").count();
+    for (let i = 0; i < count; i++) {
+      const { label, at } = await page.evaluate((index) => {
+        const el = document.querySelectorAll<HTMLElement>("[data-figure]")[index];
+        el.scrollIntoView({ block: "center", behavior: "instant" });
+        // named after the check (or section) the figure belongs to: several checks share a kind of figure
+        const heading = el.closest("article")?.querySelector("h3")?.textContent?.trim() ?? el.dataset.figure ?? "?";
+        return { label: el.dataset.figure === "partial_residuals" ? `${heading}, ${el.dataset.term}` : heading, at: performance.now() };
+      }, i);
+      const ready = await poll(page, (index) => (document.querySelectorAll<HTMLElement>("[data-figure]")[index].dataset.state !== "loading" ? performance.now() : false), i);
+      afterScrollMs.push({ label, ms: ready - at });
+    }
+    const firstReadyMs = await page.evaluate(() => Math.min(...(window.plumblineBench?.readyAt ?? [])));
+    return { firstReadyMs, firstTop, viewportHeight: page.viewportSize()?.height ?? 0, afterScrollMs };
+  } finally {
+    await page.close();
+  }
+}
+
+interface HoverResult {
+  figure: string;
+  renderer: string;
+  moves: number;
+  samples: number[];
+}
+
+/** Moves the mouse across one drawn figure: off the figure (the tooltip hides), then onto the next point of a grid. */
+async function hover(context: BrowserContext, url: string): Promise<HoverResult> {
+  const page = await context.newPage();
+  try {
+    await page.goto(url, { waitUntil: "commit" });
+    await waitForAllFigures(page);
+    await page.waitForTimeout(500); // let the page settle after drawing
+    // residuals against fitted values: a scatter spread over the whole plot
+    const candidates = [page.locator('[data-figure="residuals_fitted"] canvas'), page.locator("[data-figure] canvas"), page.locator('[data-figure="residuals_fitted"] svg.marks'), page.locator("[data-figure] svg.marks")];
+    let drawn = candidates[0].first();
+    for (const c of candidates) {
+      if ((await c.count()) > 0) {
+        drawn = c.first();
+        break;
+      }
+    }
+    const renderer = await drawn.evaluate((el) => (el.tagName.toLowerCase() === "canvas" ? "canvas" : "svg"));
+    const figure = await drawn.evaluate((el) => el.closest<HTMLElement>("[data-figure]")?.dataset.figure ?? "?");
+    const box = await drawn.boundingBox();
+    if (!box) throw new Error("The figure chosen for the hover measurement has no box on the page.");
+    await page.evaluate(() => {
+      const probe = window.plumblineBench;
+      if (!probe) return;
+      let was = false;
+      new MutationObserver(() => {
+        const visible = document.getElementById("vg-tooltip-element")?.classList.contains("visible") ?? false;
+        if (visible && !was) requestAnimationFrame(() => (probe.tooltipShownAt = performance.now()));
+        was = visible;
+      }).observe(document.body, { subtree: true, childList: true, attributes: true, attributeFilter: ["class"] });
+    });
+    const samples: number[] = [];
+    let moves = 0;
+    const [rows, cols] = [8, 20];
+    for (let row = 1; row <= rows; row++) {
+      for (let col = 1; col <= cols; col++) {
+        await page.mouse.move(2, box.y + box.height / 2);
+        await poll(page, () => !document.getElementById("vg-tooltip-element")?.classList.contains("visible"), 0, 5000);
+        await page.evaluate(() => {
+          const probe = window.plumblineBench;
+          if (probe) probe.moveAt = probe.tooltipShownAt = null;
+        });
+        await page.mouse.move(box.x + (box.width * col) / (cols + 1), box.y + (box.height * row) / (rows + 1));
+        moves++;
+        const shown = await poll(
+          page,
+          () => {
+            const probe = window.plumblineBench;
+            return probe && probe.moveAt !== null && probe.tooltipShownAt !== null ? probe.tooltipShownAt - probe.moveAt : false;
+          },
+          0,
+          1000,
+        ).catch(() => null);
+        if (shown !== null) samples.push(shown);
+      }
+    }
+    return { figure, renderer, moves, samples };
+  } finally {
+    await page.close();
+  }
+}
+
+/** Every measurement for one rerun's page: the time until all figures are ready, and the printed lines. */
+async function measure(browser: Browser, cookie: { name: string; value: string }, appUrl: string, url: string, withHover: boolean): Promise<{ allMs: number; lines: string[] }> {
+  const tall = await browser.newContext({ viewport: TALL });
+  const reader = await browser.newContext({ viewport: READER });
+  try {
+    for (const c of [tall, reader]) {
+      await c.addCookies([{ ...cookie, url: appUrl }]);
+      await c.addInitScript(installProbe);
+    }
+    await loadAllFigures(tall, url); // untimed: warms the browser
+    const all: AllFiguresLoad[] = [];
+    for (let i = 0; i < LOADS; i++) all.push(await loadAllFigures(tall, url));
+    await loadAsReader(reader, url); // untimed
+    const read: ReaderLoad[] = [];
+    for (let i = 0; i < LOADS; i++) read.push(await loadAsReader(reader, url));
+
+    const nums = (xs: (number | null)[]) => xs.filter((x): x is number => x !== null);
+    const maybeMedian = (xs: (number | null)[]) => (nums(xs).length ? median(nums(xs)) : null);
+    const allMs = median(all.map((l) => l.allReadyMs));
+    const last = all[all.length - 1];
+    const lines = [
+      `  all figures (viewport ${TALL.width}×${TALL.height}, ${last.figures} figures, ${last.renderer} renderer, the last ending at ${Math.round(last.lastFigureBottom)} px):`,
+      `    every figure ready:   ${ms(allMs)}   (loads: ${all.map((l) => ms(l.allReadyMs)).join(", ")})`,
+      `    first figure ready:   ${ms(maybeMedian(all.map((l) => l.firstReadyMs)))}`,
+      `    DOMContentLoaded:     ${ms(maybeMedian(all.map((l) => l.domContentLoadedMs)))}   first paint: ${ms(maybeMedian(all.map((l) => l.firstPaintMs)))}`,
+      `    longest main-thread task: ${ms(maybeMedian(all.map((l) => l.longestTaskMs)))} (median of the loads' longest; longest of all ${ms(nums(all.map((l) => l.longestTaskMs)).length ? Math.max(...nums(all.map((l) => l.longestTaskMs))) : null)})`,
+    ];
+    if (last.lastFigureBottom > TALL.height + 400) lines.push(`    note: figures end below the viewport plus the 400 px drawing margin, so some were not near at once; make TALL taller`);
+    const errors = [...new Set(all.flatMap((l) => l.errors))];
+    if (errors.length) lines.push(`    figures that ended in an error: ${errors.join("; ")}`);
+
+    const labels = read[0].afterScrollMs.map((f) => f.label);
+    const perFigure = labels.map((label, i) => ({ label, ms: median(read.map((r) => r.afterScrollMs[i]?.ms ?? Number.NaN)) }));
+    lines.push(
+      `  as a reader scrolls (viewport ${READER.width}×${READER.height}):`,
+      `    first figure's frame starts at ${Math.round(read[0].firstTop)} px: ${read[0].firstTop < read[0].viewportHeight + 400 ? "near the first screen, so it draws without scrolling" : `more than 400 px below the first screen (${read[0].viewportHeight} px), so nothing draws until the reader scrolls`}`,
+      `    first figure ready:   ${ms(median(read.map((r) => r.firstReadyMs)))}   (loads: ${read.map((r) => ms(r.firstReadyMs)).join(", ")}; the reader scrolls to each figure in turn from the load event)`,
+      `    scrolled to a figure until it is ready: median ${ms(median(perFigure.map((f) => f.ms)))}, max ${ms(Math.max(...perFigure.map((f) => f.ms)))}`,
+      `    per figure, in page order: ${perFigure.map((f) => `${f.label} ${Math.round(f.ms)}`).join(", ")} ms`,
+    );
+
+    if (withHover) {
+      const h = await hover(tall, url);
+      lines.push(
+        h.samples.length
+          ? `  hover (${h.figure}, ${h.renderer}): mouse move to tooltip visible: median ${ms(median(h.samples))}, max ${ms(Math.max(...h.samples))} (${h.samples.length} of ${h.moves} moves showed one)`
+          : `  hover (${h.figure}, ${h.renderer}): no tooltip under the pointer in ${h.moves} moves`,
+      );
+    }
+    return { allMs, lines };
+  } finally {
+    await Promise.allSettled([tall.close(), reader.close()]);
+  }
+}
+
+// --- preconditions ----------------------------------------------------------------------------
+
+const root = process.cwd();
+if (!existsSync(path.join(root, "build/server/index.js"))) {
+  console.error("bench:figures needs the built server: run `npm run build` first (in the repository root).");
+  process.exit(1);
+}
+if (!existsSync(CHROMIUM)) {
+  console.error(`bench:figures needs Chromium at ${CHROMIUM}: install Debian's chromium (apt-get install chromium) or set CHROMIUM_PATH to a Chromium binary.`);
+  process.exit(1);
+}
+
+// --- the stack --------------------------------------------------------------------------------
+
+const temp = useTempDataDir("plumbline-bench-figures-");
+let app: RunningApp | null = null;
+let browser: Browser | null = null;
+async function stopAll(): Promise<void> {
+  await Promise.allSettled([browser?.close(), app?.stop()]);
+  temp.remove();
+}
+for (const signal of ["SIGINT", "SIGTERM"] as const) {
+  process.once(signal, () => {
+    void stopAll().then(() => process.exit(130));
+  });
+}
+
+try {
+  const appPort = await freePort();
+  const appUrl = `http://127.0.0.1:${appPort}`;
+  // The server reads the identity provider's certificate at start-up; nobody signs in through it here.
+  mkdirSync(path.join(temp.dir, "idp"));
+  const { certFile } = ensureKeyPair(path.join(temp.dir, "idp"));
+  const env: Record<string, string> = {
+    APP_URL: appUrl,
+    DATA_DIR: temp.dataDir,
+    DATABASE_URL: `file:${temp.dbFile}`,
+    SESSION_SECRET: "bench-session-secret-0123456789abcdef",
+    SAML_IDP_SSO_URL: "http://127.0.0.1:9/saml/sso",
+    SAML_IDP_SLO_URL: "http://127.0.0.1:9/saml/slo",
+    SAML_IDP_ISSUER: "urn:plumbline:idp-fake",
+    SAML_IDP_CERT_FILE: certFile,
+    SAML_SP_ISSUER: "urn:plumbline:sp",
+    OIDC_ISSUER: "http://127.0.0.1:9",
+    // No mail server: notifications of the plan approval stay queued and are retried later.
+    SMTP_HOST: "127.0.0.1",
+    SMTP_PORT: String(await freePort()),
+  };
+  Object.assign(process.env, env);
+
+  const study = await buildLargeStudy({ analysedOnly: true });
+  const reruns = await import("../app/.server/reruns/reruns.server");
+  const rerunIds: Record<BenchDataset, string> = { adeff: await study.rerun("adeff"), adeff10k: await study.rerun("adeff10k") };
+  const used: Record<BenchDataset, number> = { adeff: 0, adeff10k: 0 };
+  for (const name of ["adeff", "adeff10k"] as const) {
+    const r = await reruns.getRerun(study.studyId, rerunIds[name]);
+    if (!r.doc) throw new Error(`The benchmark rerun on ${name} did not complete: ${r.rerun.failureReason ?? r.rerun.status}`);
+    used[name] = r.doc.rows.used;
+  }
+  const { startSession, sessionCookie } = await import("../app/.server/session.server");
+  const setCookie = await startSession(new Request(appUrl), study.people.priya.id);
+  const [pair] = setCookie.split(";");
+  const cookie = { name: sessionCookie.name, value: pair.slice(pair.indexOf("=") + 1) };
+
+  app = await startAppServer({ port: appPort, env });
+  browser = await launchBrowser();
+
+  const out = [
+    "Plumbline figure benchmark: the rerun results page in headless Chromium",
+    `  machine: ${os.cpus().length} cores (${os.cpus()[0]?.model.trim() ?? "unknown CPU"}), Node ${process.version}, Chromium ${browser.version()}`,
+    "  command: npm run bench:figures",
+    `  target:  results page with all figures usable within ${TARGET_MS / 1000} s for n = 10 000`,
+    `  each time is the median of ${LOADS} page loads in a fresh page (browser warm after one untimed load), from navigation start`,
+  ];
+  console.log(out.join("\n"));
+  for (const name of ["adeff10k", "adeff"] as const) {
+    const url = `${appUrl}/studies/${study.studyId}/reruns/${rerunIds[name]}`;
+    const { allMs, lines } = await measure(browser, cookie, appUrl, url, name === "adeff10k");
+    const verdict = name === "adeff10k" ? `: all figures in ${ms(allMs)}, target ${TARGET_MS} ms ${allMs <= TARGET_MS ? "met" : "not met"}` : "";
+    console.log(`\nn = ${used[name].toLocaleString("en-GB").replace(/,/g, " ")} (dataset ${name})${verdict}\n${lines.join("\n")}`);
+  }
+} finally {
+  await stopAll();
+}
+process.exit(0);
