@@ -1,8 +1,8 @@
 /**
  * `npm run bench:figures` (after `npm ci && npm run build`): how soon the rerun results page has
  * its figures usable in headless Chromium, for the primary model rerun on 10 000 subjects (all in
- * the analysis set, so the figures use the canvas renderer) and, for comparison, on the demo
- * study's dataset of 450. Target: results page with all figures usable within 1.5 s for n = 10 000.
+ * the analysis set, so the rerun uses exactly 10 000) and, for comparison, on the demo study's
+ * dataset of 450. Target: results page with all figures usable within 1.5 s for n = 10 000.
  *
  * It builds the benchmark study on a temporary SQLite file (scripts/lib/large-study.ts), starts
  * the built server, signs the biostatistician in with a session made directly in the database,
