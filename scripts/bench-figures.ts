@@ -80,6 +80,10 @@ interface AllFiguresLoad {
   renderer: string;
   /** Where the last figure's frame ends on the page, in px. */
   lastFigureBottom: number;
+  /** The figure data requests: first sent, last answered, and the longest wait for a first byte. */
+  dataRequests: { count: number; firstStartMs: number; lastEndMs: number; longestWaitMs: number } | null;
+  /** When the largest script (the charting library) finished loading. */
+  chartScriptEndMs: number | null;
 }
 
 interface ReaderLoad {
@@ -132,6 +136,17 @@ async function loadAllFigures(context: BrowserContext, url: string): Promise<All
         firstPaintMs: paint ? paint.startTime : null,
         renderer: first ? (first.tagName.toLowerCase() === "canvas" ? "canvas" : "svg") : "none",
         lastFigureBottom: Math.max(...[...document.querySelectorAll("[data-figure]")].map((el) => el.getBoundingClientRect().bottom + scrollY)),
+        ...(() => {
+          const resources = performance.getEntriesByType("resource") as PerformanceResourceTiming[];
+          const data = resources.filter((r) => /\/figures\//.test(r.name));
+          const scripts = resources.filter((r) => r.initiatorType === "script" || /\.js$/.test(r.name)).sort((a, b) => b.decodedBodySize - a.decodedBodySize);
+          return {
+            dataRequests: data.length
+              ? { count: data.length, firstStartMs: Math.min(...data.map((r) => r.startTime)), lastEndMs: Math.max(...data.map((r) => r.responseEnd)), longestWaitMs: Math.max(...data.map((r) => r.responseStart - r.requestStart)) }
+              : null,
+            chartScriptEndMs: scripts[0] ? scripts[0].responseEnd : null,
+          };
+        })(),
       };
     });
     return { allReadyMs: done.at, figures: done.figures, errors: done.errors, ...facts };
@@ -260,6 +275,7 @@ async function measure(browser: Browser, cookie: { name: string; value: string }
       `    every figure ready:   ${ms(allMs)}   (loads: ${all.map((l) => ms(l.allReadyMs)).join(", ")})`,
       `    first figure ready:   ${ms(maybeMedian(all.map((l) => l.firstReadyMs)))}`,
       `    DOMContentLoaded:     ${ms(maybeMedian(all.map((l) => l.domContentLoadedMs)))}   first paint: ${ms(maybeMedian(all.map((l) => l.firstPaintMs)))}`,
+      `    figure data: ${last.dataRequests ? `${last.dataRequests.count} requests, first sent at ${ms(last.dataRequests.firstStartMs)}, last answered at ${ms(last.dataRequests.lastEndMs)}, longest wait for the server ${ms(last.dataRequests.longestWaitMs)}` : "no requests seen"}; largest script loaded at ${ms(last.chartScriptEndMs)}`,
       `    longest main-thread task: ${ms(maybeMedian(all.map((l) => l.longestTaskMs)))} (median of the loads' longest; longest of all ${ms(nums(all.map((l) => l.longestTaskMs)).length ? Math.max(...nums(all.map((l) => l.longestTaskMs))) : null)})`,
     ];
     if (last.lastFigureBottom > TALL.height + 400) lines.push(`    note: figures end below the viewport plus the 400 px drawing margin, so some were not near at once; make TALL taller`);

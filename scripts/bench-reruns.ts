@@ -22,7 +22,7 @@ try {
       times.push(performance.now() - start);
     }
     const r = await reruns.getRerun(study.studyId, id);
-    results.push(`${name.padEnd(9)} n used ${String(r.doc?.rows.used).padStart(6)}   queue to stored result: ${times.map((x) => `${x.toFixed(0)} ms`).join(", ")} (3 runs)   result JSON ${((r.rerun.resultJson?.length ?? 0) / 1e6).toFixed(2)} MB`);
+    results.push(`${name.padEnd(9)} n used ${String(r.doc?.rows.used).padStart(6)}   queue to stored result: ${times.map((x) => `${x.toFixed(0)} ms`).join(", ")} (3 runs)   result JSON ${(JSON.stringify(r.doc).length / 1e6).toFixed(2)} MB`);
     if (name === "adeff10k") {
       try {
         if (!r.doc) throw new Error(`the rerun did not complete: ${r.rerun.failureReason}`);

@@ -1,22 +1,24 @@
 /**
  * The data and Vega-Lite specification of one diagnostic figure of a rerun, fetched by the
  * results page after it paints: GET /studies/:studyId/reruns/:rerunId/figures/:figure?term=NAME.
- * Answers JSON { caution, spec, data }; the spec reads its rows from the dataset named "rows"
- * (data.rows), so they travel once.
+ * Answers JSON { caution, spec, data }: the spec is the figure's Vega-Lite compiled to Vega, and
+ * reads its rows from the dataset named "rows" (data.rows), so they travel once. Answers for a
+ * completed rerun are kept in memory (figure-answers.server.ts).
  */
 import { z } from "zod";
 import type { Route } from "./+types/study-rerun-figures";
 import { CAUTION } from "~/components/caution";
-import { FIGURE_KEYS, figureSpec } from "~/components/figures/specs";
+import { FIGURE_KEYS } from "~/components/figures/specs";
 import { loadLockedTable } from "~/.server/datasets/catalog.server";
-import { figureData, FigureUnavailableError, type FigureTable } from "~/.server/reruns/figure-data.server";
+import { figureAnswer } from "~/.server/reruns/figure-answers.server";
+import { FigureUnavailableError } from "~/.server/reruns/figure-data.server";
 import { getRerun } from "~/.server/reruns/reruns.server";
 import { rerunTable } from "~/.server/reruns/what-if.server";
 import { requireStudy } from "~/.server/study-access.server";
 import type { FigureKey } from "~/engine/checks";
 
 const figureSchema = z.enum(FIGURE_KEYS as [FigureKey, ...FigureKey[]]);
-/** Figures that plot covariate values or arms read the rerun's rows from the locked dataset. */
+/** Figures that plot covariate values or arms. */
 const NEEDS_TABLE: readonly FigureKey[] = ["residuals_covariate", "partial_residuals", "spread_by_arm"];
 
 const headers = { "Cache-Control": "private, no-store" };
@@ -32,12 +34,12 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const term = new URL(request.url).searchParams.get("term") ?? undefined;
   const { rerun, doc } = await getRerun(params.studyId, params.rerunId);
   if (!doc) return refuse(409, rerun.status === "failed" ? `This rerun failed (${rerun.failureReason ?? "no reason recorded"}); it has no figures.` : "This rerun has not finished yet; its figures appear when it completes.");
-  let table: FigureTable | undefined;
-  if (NEEDS_TABLE.includes(figure.data)) table = rerunTable(doc, (await loadLockedTable(rerun.datasetVersionId)).table);
+  // figures that plot covariate values or arms read the rerun's rows from the locked dataset
+  const table = async () => (NEEDS_TABLE.includes(figure.data) ? rerunTable(doc, (await loadLockedTable(rerun.datasetVersionId)).table) : undefined);
   try {
     // staff see who each point is; sponsor readers never reach this route (rerun.view), and would not
-    const data = figureData(doc, figure.data, { term, withSubjectIds: role !== "sponsor_reader", table });
-    return Response.json({ caution: CAUTION, spec: figureSpec(data, { width: "container", inlineRows: false }), data }, { headers });
+    const body = await figureAnswer({ rerunId: rerun.id, resultSha256: rerun.resultSha256, figure: figure.data, term, withSubjectIds: role !== "sponsor_reader" }, doc, table);
+    return new Response(body, { headers: { ...headers, "Content-Type": "application/json; charset=utf-8" } });
   } catch (e) {
     if (e instanceof FigureUnavailableError) return refuse(400, `This figure cannot be drawn: ${e.message}.`);
     throw e;

@@ -5,6 +5,8 @@ import type { Route } from "./+types/study-rerun";
 import { CAUTION, Caution } from "~/components/caution";
 import { RerunFigure } from "~/components/figures/rerun-figure";
 import { SensitivityForest, type ForestRow } from "~/components/figures/sensitivity-forest";
+import { forestSpec } from "~/components/figures/specs";
+import { toVega } from "~/.server/figures/compile.server";
 import { WhatIfPanel, type WhatIfInputs } from "~/components/figures/what-if-panel";
 import { fmt, fmtCi, fmtP, utc } from "~/components/format";
 import { FieldError, PageHeader } from "~/components/page";
@@ -20,7 +22,7 @@ import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { Assessment, assessFinding, canSign, FindingConflict, findingsOf, recordDeviation, signaturesOf, signRerun } from "~/.server/reruns/findings.server";
 import type { RerunOptions } from "~/.server/reruns/rerun-options";
 import { reportedContrasts, rerunView, withoutSubjectNames } from "~/.server/reruns/rerun-view.server";
-import { getRerun, sameInputReruns, sensitivityReruns, startRerun, type RerunDocument } from "~/.server/reruns/reruns.server";
+import { getRerun, rerunDocumentOf, sameInputReruns, sensitivityReruns, startRerun, type RerunDocument } from "~/.server/reruns/reruns.server";
 import { requireStudy } from "~/.server/study-access.server";
 
 export function meta({ loaderData }: Route.MetaArgs) {
@@ -59,13 +61,17 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     sameInputReruns(r.rerun),
     allowed.has("rerun.sign") ? canSign(user, r.rerun.id) : Promise.resolve(null),
   ]);
-  const childDocs = children.map((c) => ({ row: c, doc: c.resultJson ? (JSON.parse(c.resultJson) as RerunDocument) : null }));
+  const childDocs = children.map((c) => ({ row: c, doc: rerunDocumentOf(c) }));
   const comparison = r.doc
     ? [
         { id: r.rerun.id, label: "Primary analysis as planned", prespecified: true, primary: true, status: r.rerun.status, contrasts: reportedContrasts(r.doc) },
         ...childDocs.map(({ row, doc }) => ({ id: row.id, label: row.label ?? "Sensitivity analysis", prespecified: row.prespecified, primary: false, status: row.status, contrasts: doc ? reportedContrasts(doc) : [], failure: row.failureReason })),
       ]
     : [];
+  // one forest chart per treatment contrast, compiled here so the browser needs only Vega's runtime
+  const byContrast = new Map<string, ForestRow[]>();
+  for (const a of comparison) for (const c of a.contrasts) byContrast.set(c.label, [...(byContrast.get(c.label) ?? []), { label: a.label, estimate: c.estimate, lower: c.lower, upper: c.upper, prespecified: a.prespecified, primary: a.primary }]);
+  const forests = comparison.length > 1 ? [...byContrast].map(([label, rows]) => ({ label, rows, spec: toVega(forestSpec(rows, label, { width: "container" })) })) : [];
   const plannedSensitivity = planned.sensitivity.map((s) => {
     const options = optionsFor(s, r.doc);
     const label = options ? (s.kind === "alternative_covariates" ? `${s.label}: ${(s.covariates ?? []).join(", ")}` : SENSITIVITY_LABELS[s.kind]) : SENSITIVITY_LABELS[s.kind];
@@ -107,6 +113,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     findings: findings.map((f) => ({ id: f.id, kind: f.kind, summary: withIds ? f.summary : withoutSubjectNames(f.summary), statistic: f.statistic && !withIds ? withoutSubjectNames(f.statistic) : f.statistic, threshold: f.threshold, assessment: f.assessment ? { category: f.assessment.category, impact: f.assessment.impact, action: f.assessment.action, rationale: f.assessment.rationale, by: f.assessment.recordedByName, at: f.assessment.recordedAt } : null })),
     signatures: signatures.map((s) => ({ name: s.signerName, meaning: s.meaning, at: s.signedAt })),
     comparison,
+    forests,
     plannedSensitivity,
     twins: twins.map((tw) => ({ id: tw.id, same: tw.resultSha256 === r.rerun.resultSha256, at: tw.createdAt })),
     can: {
@@ -265,8 +272,6 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
   const errorsFor = (target: string) => (actionData && "target" in actionData && actionData.target === target ? actionData.fieldErrors : {});
   const open = findings.filter((f) => !f.assessment).length;
   const status = STATUS[rerun.status];
-  const forest: Record<string, ForestRow[]> = {};
-  for (const a of comparison) for (const c of a.contrasts) (forest[c.label] ??= []).push({ label: a.label, estimate: c.estimate, lower: c.lower, upper: c.upper, prespecified: a.prespecified, primary: a.primary });
 
   return (
     <>
@@ -404,7 +409,7 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
               {view.checks.filter((c) => c.outcome === "not_computed").length} not computed
             </p>
             {view.checks.map((c) => (
-              <CheckCard key={c.key} check={c} figure={<RerunFigure studyId={studyId} rerunId={rerun.id} figure={c.figure} term={view.continuousTerms[0]} />} />
+              <CheckCard key={c.key} check={c} figure={<RerunFigure studyId={studyId} rerunId={rerun.id} figure={c.figure} term={c.figure === "residuals_covariate" || c.figure === "partial_residuals" ? view.continuousTerms[0] : undefined} />} />
             ))}
             <article className="panel p-4">
               <h3 className="mb-2 text-base font-semibold">Partial residuals</h3>
@@ -492,8 +497,8 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
           </div>
           {comparison.length > 1 ? (
             <div className="panel space-y-4 p-4">
-              {Object.entries(forest).map(([label, rows]) => (
-                <SensitivityForest key={label} rows={rows} contrastLabel={label} />
+              {loaderData.forests.map((f) => (
+                <SensitivityForest key={f.label} rows={f.rows} contrastLabel={f.label} spec={f.spec} />
               ))}
               <SensitivityTable analyses={comparison} hrefOf={(id) => `/studies/${studyId}/reruns/${id}`} />
             </div>

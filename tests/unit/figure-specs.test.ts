@@ -38,11 +38,18 @@ const FIGURES: [FigureKey, string?][] = [
 interface Layer {
   data?: unknown;
   mark?: unknown;
-  encoding?: Record<string, { title?: unknown; field?: string } | Record<string, unknown>[] | undefined> & { tooltip?: { field: string; title: string }[] };
+  encoding?: Record<string, { title?: unknown; field?: string; value?: unknown } | Record<string, unknown>[] | undefined>;
 }
 
 function layersOf(spec: TopLevelSpec): Layer[] {
   return (spec as unknown as { layer: Layer[] }).layer;
+}
+
+/** A layer's hover table: deferred to usermeta.tooltips under the key the layer names (specs.ts, deferTooltips). */
+function tooltipOf(spec: TopLevelSpec, layer: Layer): { field: string; title: string }[] {
+  const key = (layer.encoding?.tooltip as unknown as { value?: string } | undefined)?.value;
+  const tips = (spec as unknown as { usermeta?: { tooltips: Record<string, { field: string; title: string }[]> } }).usermeta?.tooltips ?? {};
+  return key ? (tips[key] ?? []) : [];
 }
 
 function titleOf(spec: TopLevelSpec): { text: string; subtitle: string[] } {
@@ -66,10 +73,10 @@ describe("diagnostic figure specifications", () => {
       expect(axes.length).toBeGreaterThanOrEqual(2);
       for (const a of axes) expect(String(a.title)).toMatch(/\(.+\)/);
       // the layers of subjects (the figure's rows, no data of their own) name the subject on hover
-      const withTooltip = layersOf(spec).filter((l) => l.encoding?.tooltip && !l.data);
+      const withTooltip = layersOf(spec).filter((l) => tooltipOf(spec, l).length > 0 && !l.data);
       expect(withTooltip.length).toBeGreaterThan(0);
       for (const l of withTooltip) {
-        const fields = (l.encoding?.tooltip ?? []).map((f) => f.field);
+        const fields = tooltipOf(spec, l).map((f) => f.field);
         expect(fields.slice(0, 2)).toEqual(["subject", "row"]);
         expect(fields).toContain("status");
       }
@@ -90,7 +97,9 @@ describe("diagnostic figure specifications", () => {
   it("names no subject when the viewer may not see subjects", () => {
     const data = figureData(doc, "influence", { withSubjectIds: false, table });
     expect(data.rows.every((r) => r.subject === null && r.row === null)).toBe(true);
-    const fields = layersOf(figureSpec(data)).flatMap((l) => (l.encoding?.tooltip ?? []).map((f) => f.field));
+    const spec = figureSpec(data);
+    const fields = layersOf(spec).flatMap((l) => tooltipOf(spec, l).map((f) => f.field));
+    expect(fields).toContain("cooks");
     expect(fields).not.toContain("subject");
     expect(JSON.stringify(data)).not.toContain("QMT301-");
   });
@@ -152,7 +161,7 @@ describe("sensitivity comparison (forest-style)", () => {
     expect(titleOf(spec).subtitle.join(" ")).toMatch(/^Healthy: /);
     const axisTitles = (vg.axes ?? []).map((a) => a.title).filter(Boolean).map(String);
     expect(axisTitles.some((t) => t.includes(c.label) && t.includes("(points)"))).toBe(true);
-    const tip = layersOf(spec).flatMap((l) => (l.encoding?.tooltip ?? []).map((f) => f.field));
+    const tip = layersOf(spec).flatMap((l) => tooltipOf(spec, l).map((f) => f.field));
     expect(tip).toEqual(expect.arrayContaining(["label", "estimate", "lower", "upper"]));
   });
 });

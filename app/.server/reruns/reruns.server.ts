@@ -6,7 +6,8 @@
  * is kept as a failed rerun with the engine's reason and a finding of that kind.
  */
 import { createHash } from "node:crypto";
-import { and, asc, desc, eq, inArray } from "drizzle-orm";
+import { and, asc, desc, eq, getTableColumns, inArray } from "drizzle-orm";
+import { LRUCache } from "lru-cache";
 import { data } from "react-router";
 import { evaluateChecks, type CheckOutcome } from "~/engine/checks";
 import { EngineError, ENGINE_VERSION, fitModel, fitWithEstimatedVariance, fitWithRobustErrors, RESULTS_CAUTION, type ModelResult, type ModelSpec, type Term } from "~/engine";
@@ -310,9 +311,39 @@ export async function listReruns(studyId: string): Promise<RerunListing[]> {
   }));
 }
 
+/**
+ * Parsed results of completed reruns, keyed by rerun id and result hash: a stored result never
+ * changes, and parsing a 10 000-subject result (several MB) for each of a results page's figure
+ * requests took most of their time. Frozen, so no reader can change what the next one sees.
+ */
+const parsedResults = new LRUCache<string, RerunDocument>({ max: 16 });
+
+function deepFreeze<T>(value: T): T {
+  if (value && typeof value === "object" && !Object.isFrozen(value)) {
+    Object.freeze(value);
+    for (const v of Object.values(value)) deepFreeze(v);
+  }
+  return value;
+}
+
+/** The stored result of a rerun row, parsed once per result hash (read-only). */
+export function rerunDocumentOf(row: { id: string; resultJson: string | null; resultSha256: string | null }): RerunDocument | null {
+  if (!row.resultJson) return null;
+  const key = `${row.id}:${row.resultSha256 ?? ""}`;
+  const cached = parsedResults.get(key);
+  if (cached) return cached;
+  const doc = deepFreeze(JSON.parse(row.resultJson) as RerunDocument);
+  parsedResults.set(key, doc);
+  return doc;
+}
+
+/** Every column of a rerun but its stored result, which getRerun reads only when it has not parsed it yet. */
+const { resultJson: _resultJson, ...rerunWithoutResult } = getTableColumns(t.reruns);
+
+/** A rerun, its model, dataset version, plan version and who started it, with its parsed result (read-only; null until completed). */
 export async function getRerun(studyId: string, rerunId: string) {
   const [row] = await db
-    .select({ r: t.reruns, m: t.plannedModels, dv: t.datasetVersions, d: t.datasets, pv: t.planVersions, who: t.people.displayName })
+    .select({ r: rerunWithoutResult, m: t.plannedModels, dv: t.datasetVersions, d: t.datasets, pv: t.planVersions, who: t.people.displayName })
     .from(t.reruns)
     .innerJoin(t.plannedModels, eq(t.plannedModels.id, t.reruns.plannedModelId))
     .innerJoin(t.datasetVersions, eq(t.datasetVersions.id, t.reruns.datasetVersionId))
@@ -322,7 +353,15 @@ export async function getRerun(studyId: string, rerunId: string) {
     .where(and(eq(t.reruns.id, rerunId), eq(t.reruns.studyId, studyId)))
     .limit(1);
   if (!row) throw data({ message: "There is no such rerun in this study." }, { status: 404 });
-  const doc = row.r.resultJson ? (JSON.parse(row.r.resultJson) as RerunDocument) : null;
+  let doc: RerunDocument | null = null;
+  if (row.r.status === "completed" && row.r.resultSha256) {
+    doc = parsedResults.get(`${row.r.id}:${row.r.resultSha256}`) ?? null;
+    if (!doc) {
+      // a 10 000-subject result is several MB: read it only when it is not parsed yet
+      const [stored] = await db.select({ resultJson: t.reruns.resultJson }).from(t.reruns).where(eq(t.reruns.id, row.r.id));
+      doc = rerunDocumentOf({ id: row.r.id, resultSha256: row.r.resultSha256, resultJson: stored?.resultJson ?? null });
+    }
+  }
   return {
     rerun: row.r,
     model: { id: row.m.id, key: row.m.key, title: row.m.title },
@@ -339,7 +378,7 @@ export async function sensitivityReruns(primaryId: string): Promise<Rerun[]> {
 }
 
 /** Other completed reruns with the same inputs: "rerun again" proves the same hash. */
-export async function sameInputReruns(r: Rerun): Promise<{ id: string; resultSha256: string | null; createdAt: string }[]> {
+export async function sameInputReruns(r: Pick<Rerun, "id" | "plannedModelId" | "datasetVersionId" | "optionsJson">): Promise<{ id: string; resultSha256: string | null; createdAt: string }[]> {
   const rows = await db
     .select({ id: t.reruns.id, resultSha256: t.reruns.resultSha256, createdAt: t.reruns.createdAt, optionsJson: t.reruns.optionsJson, status: t.reruns.status })
     .from(t.reruns)

@@ -1,6 +1,5 @@
-import { useMemo } from "react";
-import { forestPoints, forestSpec, type ForestRow } from "./specs";
-import { VegaChart } from "./vega-chart";
+import { forestPoints, type ForestRow } from "./specs";
+import { VegaChart, type VegaSpecJson } from "./vega-chart";
 
 export type { ForestRow } from "./specs";
 
@@ -8,12 +7,11 @@ const fmt = (v: number) => (Number.isFinite(v) ? v.toFixed(2) : "—");
 
 /**
  * The treatment contrast with its 95% CI across analyses, primary first: a forest-style chart
- * (Vega-Lite, drawn in the browser) beside a compact table with the same numbers, so the
+ * (forestSpec in specs.ts, compiled to Vega by the loader, drawn in the browser) beside a compact table with the same numbers, so the
  * robustness of the conclusion is visible at a glance. Analyses the plan did not name say
  * "not pre-specified" in words on the chart and in the table.
  */
-export function SensitivityForest({ rows, contrastLabel }: { rows: ForestRow[]; contrastLabel: string }) {
-  const spec = useMemo(() => forestSpec(rows, contrastLabel, { width: "container" }), [rows, contrastLabel]);
+export function SensitivityForest({ rows, contrastLabel, spec }: { rows: ForestRow[]; contrastLabel: string; spec: VegaSpecJson }) {
   const points = forestPoints(rows);
   if (rows.length === 0) return <p className="text-sm text-ink-soft">No completed analyses to compare yet.</p>;
   const height = 150 + points.length * 28;

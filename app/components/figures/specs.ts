@@ -1,7 +1,7 @@
 /**
  * Vega-Lite specifications of a rerun's diagnostic figures and of the sensitivity comparison.
- * Pure: no React, no DOM. The browser draws them with vega-embed; the appendix renders the same
- * specifications to SVG and PNG on the server. Each builder takes rows already shaped on the
+ * Pure: no React, no DOM. The server compiles them to Vega for the browser to draw
+ * (draw-chart.ts); the appendix renders the same specifications to SVG and PNG on the server. Each builder takes rows already shaped on the
  * server (app/.server/reruns/figure-data.server.ts) and returns a complete specification.
  *
  * Every figure's title names the plot and its subtitle states what a healthy picture looks like;
@@ -43,8 +43,8 @@ export const DENSE_FROM = 5_000;
 /** The most subjects a dense figure draws one by one (the largest Cook's distances first). */
 export const DENSE_POINTS = 250;
 
-/** From this many drawn marks on, the browser draws with the canvas renderer instead of SVG. */
-export const CANVAS_FROM = 2_000;
+/** From this many subjects on (below DENSE_FROM), points are drawn smaller and lighter so overlaps still read. */
+export const CROWDED_FROM = 2_000;
 
 /** How a dense figure was thinned, for its subtitle. */
 export interface DenseSummary {
@@ -270,7 +270,41 @@ type Json = Record<string, unknown>;
  * tests/unit/figure-specs.test.ts, which is stricter than its TypeScript types can be here.
  */
 function asSpec(spec: Json): TopLevelSpec {
-  return spec as unknown as TopLevelSpec;
+  return deferTooltips(spec) as unknown as TopLevelSpec;
+}
+
+/** One line of a hover table: the datum's field, its title, and a d3-format pattern for numbers. */
+export interface TooltipField {
+  field: string;
+  title: string;
+  type?: string;
+  format?: string;
+}
+
+/** Where a figure keeps its hover tables, by key: usermeta.tooltips (read by draw-chart.ts). */
+export interface FigureUsermeta {
+  tooltips: Record<string, TooltipField[]>;
+}
+
+/**
+ * Hover tables are built when the pointer reaches a mark, not for every mark while drawing: each
+ * layer's tooltip list moves to usermeta.tooltips under a key, and the layer's tooltip becomes
+ * that key (a constant). Measured with `npm run bench:figures`, Vega's CSP-safe interpreter spent
+ * about a tenth of a results page's drawing time formatting tooltips nobody hovered. The
+ * browser's tooltip handler (draw-chart.ts) turns the key and the datum into the table; servers
+ * drawing to SVG or PNG ignore tooltips either way.
+ */
+function deferTooltips(spec: Json): Json {
+  const tooltips: Record<string, TooltipField[]> = {};
+  const layers = (spec.layer as Json[] | undefined) ?? [];
+  const layer = layers.map((l, k) => {
+    const encoding = l.encoding as Json | undefined;
+    if (!encoding || !Array.isArray(encoding.tooltip)) return l;
+    const key = `layer${k}`;
+    tooltips[key] = encoding.tooltip as TooltipField[];
+    return { ...l, encoding: { ...encoding, tooltip: { value: key } } };
+  });
+  return spec.layer ? { ...spec, layer, usermeta: { tooltips } satisfies FigureUsermeta } : spec;
 }
 
 /** Shared look: Noto Sans, ink text, rule-coloured axes, brass accents. */
@@ -310,8 +344,11 @@ export function wrapWords(text: string, max: number): string[] {
   return lines;
 }
 
-/** Wraps a spec's subtitle again for a frame `width` pixels wide (the browser knows the width). */
-export function rewrapTitle(spec: TopLevelSpec, width: number): TopLevelSpec {
+/**
+ * Wraps a spec's subtitle again for a frame `width` pixels wide (the browser knows the width).
+ * Works on the Vega-Lite spec and on its compiled Vega form, which keep the title alike.
+ */
+export function rewrapTitle<S extends object>(spec: S, width: number): S {
   const t = (spec as unknown as { title?: { text: string; subtitle?: string[] } }).title;
   if (!t?.subtitle || !(width > 0)) return spec;
   const chars = Math.max(40, Math.floor(width / 6.2));
@@ -322,7 +359,7 @@ export function rewrapTitle(spec: TopLevelSpec, width: number): TopLevelSpec {
     if (last >= 0 && !/[.:;]$/.test(paragraphs[last])) paragraphs[last] = `${paragraphs[last]} ${line}`;
     else paragraphs.push(line);
   }
-  return { ...spec, title: { ...t, subtitle: paragraphs.flatMap((p) => wrapWords(p, chars)) } } as unknown as TopLevelSpec;
+  return { ...spec, title: { ...t, subtitle: paragraphs.flatMap((p) => wrapWords(p, chars)) } };
 }
 
 function title(name: string, healthy: string, extra: string[], width: number | "container"): Json {
@@ -355,7 +392,7 @@ function tooltip(d: FigureBase, fields: { field: string; title: string; format?:
 
 /** Many points (below DENSE_FROM): smaller and lighter, so overlaps still read. */
 function crowded(d: FigureBase): boolean {
-  return !d.dense && d.n >= CANVAS_FROM;
+  return !d.dense && d.n >= CROWDED_FROM;
 }
 
 /**
@@ -402,7 +439,7 @@ function count(v: number): string {
 function cellsLayer(cells: readonly DensityCell[], xName: string, yName: string): Json {
   return {
     data: { values: cells },
-    mark: { type: "rect", strokeWidth: 0 },
+    mark: { type: "rect", strokeWidth: 0, ...NO_ARIA },
     encoding: {
       x: { field: "x0", type: "quantitative" },
       x2: { field: "x1" },
@@ -437,8 +474,16 @@ function boxLayers(boxes: readonly BoxSummary[], x: Json, yTitle: string, size: 
   ];
 }
 
+/**
+ * Marks drawn once per subject (or per cell) carry no ARIA description of their own: Vega-Lite
+ * would otherwise build a sentence for every one of hundreds of marks, most of a figure's drawing
+ * time, and read hundreds of points aloud one by one helps no one. The figure's frame names the
+ * plot, and the check card beside it states the statistic, threshold and flagged subjects in words.
+ */
+const NO_ARIA = { aria: false } as const;
+
 function pointMark(): Json {
-  return { type: "point", filled: false, strokeWidth: 1.1 };
+  return { type: "point", filled: false, strokeWidth: 1.1, ...NO_ARIA };
 }
 
 /** A layer of reference marks draws once, not once per subject. */
@@ -669,7 +714,7 @@ export function influenceSpec(d: InfluenceData, opts: SpecOptions = {}): TopLeve
         ? [
             {
               data: { values: d.blocks },
-              mark: { type: "rect", color: PALETTE.rule },
+              mark: { type: "rect", color: PALETTE.rule, ...NO_ARIA },
               encoding: {
                 x: { ...x, field: "from" },
                 x2: { field: "to" },
@@ -685,7 +730,7 @@ export function influenceSpec(d: InfluenceData, opts: SpecOptions = {}): TopLeve
           ]
         : crowded(d)
           ? []
-          : [{ mark: { type: "rule", color: PALETTE.rule, strokeWidth: 1 }, encoding: { x, y, y2: { datum: 0 } } }]),
+          : [{ mark: { type: "rule", color: PALETTE.rule, strokeWidth: 1, ...NO_ARIA }, encoding: { x, y, y2: { datum: 0 } } }]),
       { mark: pointMark(), encoding: { x, y, ...statusEncoding(d), tooltip: tip } },
       ...(d.threshold ? thresholdRule("y", d.threshold, "threshold") : []),
       // labels on the right of their point, or on the left near the right edge

@@ -1,23 +1,25 @@
 import { useEffect, useRef, useState } from "react";
-import type { TopLevelSpec } from "vega-lite";
+import type { Spec } from "vega";
+import { drawChart } from "./draw-chart";
+
+/** A compiled Vega specification as it arrives from a loader (serialized, so typed loosely). */
+export type VegaSpecJson = object;
 
 /**
- * A Vega-Lite chart drawn in the browser only: vega-embed is imported lazily when the component
- * mounts, expressions run through Vega's interpreter (no eval, so the page's CSP holds). The
- * frame keeps its height while the chart loads.
+ * A chart drawn in the browser only, from a specification compiled to Vega on the server
+ * (draw-chart.ts). The frame keeps its height while the chart loads.
  */
-export function VegaChart({ spec, height, renderer = "svg", label }: { spec: TopLevelSpec; height: number; renderer?: "svg" | "canvas"; label: string }) {
+export function VegaChart({ spec, height, renderer = "svg", label }: { spec: VegaSpecJson; height: number; renderer?: "svg" | "canvas"; label: string }) {
   const target = useRef<HTMLDivElement>(null);
   const [failed, setFailed] = useState<string | null>(null);
   useEffect(() => {
     let cancelled = false;
     let finalize: (() => void) | undefined;
-    import("vega-embed")
-      .then(async ({ default: embed }) => {
-        if (cancelled || !target.current) return;
-        const result = await embed(target.current, spec, { actions: false, ast: true, renderer, tooltip: { theme: "light" } });
-        if (cancelled) result.finalize();
-        else finalize = result.finalize;
+    if (!target.current) return;
+    drawChart(target.current, spec as Spec, renderer)
+      .then((remove) => {
+        if (cancelled) remove();
+        else finalize = remove;
       })
       .catch((e: unknown) => {
         if (!cancelled) setFailed(e instanceof Error ? e.message : "unknown error");

@@ -1,0 +1,37 @@
+/**
+ * The figures route's answers, kept for completed reruns: a stored result never changes, so a
+ * figure's JSON (data shaped from the result, specification compiled to Vega) is built once per
+ * result hash, figure, covariate and viewer kind, then served from memory. Bounded by size.
+ */
+import { LRUCache } from "lru-cache";
+import { CAUTION } from "~/components/caution";
+import { figureSpec } from "~/components/figures/specs";
+import type { FigureKey } from "~/engine/checks";
+import { toVega } from "../figures/compile.server";
+import { figureData, type FigureTable } from "./figure-data.server";
+import type { RerunDocument } from "./reruns.server";
+
+/** About 64 MB of answers (string length counts UTF-16 units; close enough for a bound). */
+const answers = new LRUCache<string, string>({ maxSize: 64 * 1024 * 1024, sizeCalculation: (body) => Math.max(1, body.length) });
+
+export interface FigureRequest {
+  rerunId: string;
+  resultSha256: string | null;
+  figure: FigureKey;
+  term?: string;
+  withSubjectIds: boolean;
+}
+
+/**
+ * The JSON body { caution, spec, data } of one figure. `table` is asked for only when the answer
+ * is not kept yet (it reads the locked dataset). Throws FigureUnavailableError like figureData.
+ */
+export async function figureAnswer(req: FigureRequest, doc: RerunDocument, table: () => Promise<FigureTable | undefined>): Promise<string> {
+  const key = JSON.stringify([req.rerunId, req.resultSha256, req.figure, req.term ?? null, req.withSubjectIds]);
+  const kept = answers.get(key);
+  if (kept) return kept;
+  const data = figureData(doc, req.figure, { term: req.term, withSubjectIds: req.withSubjectIds, table: await table() });
+  const body = JSON.stringify({ caution: CAUTION, spec: toVega(figureSpec(data, { width: "container", inlineRows: false })), data });
+  answers.set(key, body);
+  return body;
+}

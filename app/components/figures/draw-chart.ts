@@ -1,0 +1,68 @@
+/**
+ * Draws a Vega specification in the browser. The figures are written in Vega-Lite
+ * (app/components/figures/specs.ts) and compiled to Vega on the server, so the browser loads only
+ * Vega's runtime, its CSP-safe expression interpreter and the tooltip handler: measured with
+ * `npm run bench:figures`, vega-embed's bundle (which carries the Vega-Lite compiler) was 868 kB
+ * of script to parse, and compiling thirteen figures in the page cost more main-thread time than
+ * drawing them. The view is set up as vega-embed sets it up (interpreter, tooltip handler, hover).
+ */
+import type { Renderers, Spec } from "vega";
+import type { FigureUsermeta, TooltipField } from "./specs";
+
+type Library = {
+  vega: typeof import("vega");
+  Handler: typeof import("vega-tooltip").Handler;
+  expressionInterpreter: typeof import("vega-interpreter").expressionInterpreter;
+};
+
+let library: Promise<Library> | null = null;
+
+/** Starts loading the charting code (once); figures call it as soon as they mount. */
+export function loadChartLibrary(): Promise<Library> {
+  library ??= Promise.all([import("vega"), import("vega-tooltip"), import("vega-interpreter")]).then(([vega, tooltip, interpreter]) => ({
+    vega,
+    Handler: tooltip.Handler,
+    expressionInterpreter: interpreter.expressionInterpreter,
+  }));
+  return library;
+}
+
+/** Replaces the values of the named dataset of a compiled specification (the rows travel apart from the spec). */
+export function withDataset(spec: Spec, name: string, values: readonly object[]): Spec {
+  return { ...spec, data: (spec.data ?? []).map((d) => (d.name === name ? { ...d, values: values as object[] } : d)) } as Spec;
+}
+
+/**
+ * The hover table of a datum from a figure's deferred tooltip fields (specs.ts, deferTooltips),
+ * formatted as Vega-Lite would have: d3-format patterns through Vega's number locale.
+ */
+function tooltipContent(fields: readonly TooltipField[], datum: Record<string, unknown>, format: (pattern: string) => (v: number) => string): Record<string, string> {
+  const out: Record<string, string> = {};
+  for (const f of fields) {
+    const v = datum[f.field];
+    if (v === null || v === undefined) continue;
+    out[f.title] = typeof v === "number" && f.type !== "nominal" ? (Number.isFinite(v) ? format(f.format ?? ".4~g")(v) : "not computed") : String(v);
+  }
+  return out;
+}
+
+/** Draws `spec` into `container`; resolves to the function that removes the view. */
+export async function drawChart(container: HTMLElement, spec: Spec, renderer: Renderers): Promise<() => void> {
+  const { vega, Handler, expressionInterpreter } = await loadChartLibrary();
+  // ast: expressions are parsed, then run by the interpreter (no eval, so the page's CSP holds)
+  const runtime = vega.parse(spec, undefined, { ast: true });
+  const view = new vega.View(runtime, { renderer, expr: expressionInterpreter as never });
+  const show = new Handler({ theme: "light" }).call;
+  const deferred = (spec.usermeta as FigureUsermeta | undefined)?.tooltips ?? {};
+  // Vega's own number locale (memoized d3-format), which its typings do not declare
+  const locale = (vega as unknown as { defaultLocale(): { format(pattern: string): (v: number) => string } }).defaultLocale();
+  const format = (pattern: string) => locale.format(pattern);
+  view.tooltip(function (this: unknown, handler, event, item, value) {
+    const fields = typeof value === "string" ? deferred[value] : undefined;
+    const datum = (item as { datum?: Record<string, unknown> } | null)?.datum;
+    show.call(this, handler, event, item, fields && datum ? tooltipContent(fields, datum, format) : value);
+  });
+  view.hover();
+  await view.initialize(container).runAsync();
+  return () => view.finalize();
+}
