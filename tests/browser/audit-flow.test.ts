@@ -5,7 +5,7 @@
  */
 import type { Browser, Page } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, inject, it } from "vitest";
-import { launchBrowser, screenshot, signInAs } from "../support/browser";
+import { drawAllFigures, hoverForSubject, launchBrowser, screenshot, signInAs } from "../support/browser";
 
 const stack = inject("stack");
 let browser: Browser;
@@ -108,6 +108,15 @@ describe("from plan to signature", () => {
       expect(await card.getByText("Finding", { exact: true }).count()).toBe(1);
     }
     expect(await page.getByText("QMT301-0217").count()).toBeGreaterThan(0);
+    // every figure draws, and hovering a point names its subject and data row
+    const states = await drawAllFigures(page);
+    expect(states.length).toBeGreaterThanOrEqual(10);
+    expect(states.every((s) => s === "ready")).toBe(true);
+    const tip = await hoverForSubject(page, "residuals_fitted");
+    expect(tip).toMatch(/Subject\s+QMT301-\d{4}/);
+    expect(tip).toMatch(/Data row\s+\d+/);
+    expect(tip).toMatch(/Residual\s+−?\d/);
+    await screenshot(page, "rerun-results-figures");
     // What-if: leave out the planted influential subject and see the contrast move at once, in the page.
     const whatIf = page.getByRole("region", { name: "What-if for influential subjects" });
     await whatIf.getByLabel(/QMT301-0217/).check();

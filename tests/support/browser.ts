@@ -48,3 +48,39 @@ export async function signInAsSponsor(page: Page, appUrl: string, displayName: s
   await page.getByRole("button", { name: `Continue as ${displayName}` }).click();
   await page.waitForURL((url) => url.origin === new URL(appUrl).origin && url.pathname === "/", { timeout: 20_000 });
 }
+
+/**
+ * Scrolls every diagnostic figure of a results page into view in turn (they draw as they come
+ * near) and waits until each is drawn; returns the states in page order ("ready" or "error").
+ */
+export async function drawAllFigures(page: Page): Promise<string[]> {
+  const frames = page.locator("[data-figure]");
+  const count = await frames.count();
+  for (let i = 0; i < count; i++) {
+    await frames.nth(i).scrollIntoViewIfNeeded();
+    await page.waitForFunction((k) => document.querySelectorAll<HTMLElement>("[data-figure]")[k]?.dataset.state !== "loading", i, { timeout: 20_000 });
+  }
+  return frames.evaluateAll((els) => els.map((el) => (el as HTMLElement).dataset.state ?? "?"));
+}
+
+/**
+ * Moves the pointer over a drawn figure along a grid until the hover table shows a subject;
+ * returns its text, or null when no point was met.
+ */
+export async function hoverForSubject(page: Page, figure: string): Promise<string | null> {
+  const frame = page.locator(`[data-figure="${figure}"]`).first();
+  await frame.scrollIntoViewIfNeeded();
+  const box = await frame.locator("canvas").boundingBox();
+  if (!box) return null;
+  for (let row = 1; row < 24; row++) {
+    for (let col = 1; col < 48; col++) {
+      await page.mouse.move(box.x + (box.width * col) / 48, box.y + (box.height * row) / 24);
+      const text = await page.evaluate(() => {
+        const tip = document.getElementById("vg-tooltip-element");
+        return tip?.classList.contains("visible") && /Subject/.test(tip.textContent ?? "") ? (tip.innerText ?? null) : null;
+      });
+      if (text) return text;
+    }
+  }
+  return null;
+}
