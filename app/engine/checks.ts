@@ -48,7 +48,9 @@ export type FigureKey =
   | "residuals_fitted"
   | "spread_by_arm"
   | "residuals_covariate"
-  | "partial_residuals";
+  | "partial_residuals"
+  | "binned_residuals"
+  | "calibration";
 
 export const CHECKS: readonly CheckDefinition[] = [
   {

@@ -245,6 +245,14 @@ describe("the Word appendix of a signed rerun", () => {
     expect(captions.filter((c) => /Estimated coefficients/.test(c))).toHaveLength(2);
     expect(captions.some((c) => /Estimated coefficients, Responders at week 12/.test(c))).toBe(true);
     expect(decode(cellText(xml))).toMatch(/generalized linear model \(binomial family, logit link\)/);
+    // the binomial model's fit figures, for the logistic model only, with their counts in the alt text
+    const figures = both.content.sections.flatMap((x) => x.blocks).flatMap((b) => (b.kind === "figure" ? [b] : []));
+    const fitFigures = figures.filter((f) => /^(Binned residuals|Calibration by group of predicted risk),/.test(f.caption));
+    expect(fitFigures.map((f) => f.caption)).toEqual(["Binned residuals, Responders at week 12", "Calibration by group of predicted risk, Responders at week 12"]);
+    expect(fitFigures[0].alt).toMatch(/\d+ of \d+ bins lie outside their band/);
+    expect(fitFigures[1].alt).toMatch(/Hosmer–Lemeshow χ² = [\d.]+ on 8 df, p [=<] /);
+    const pictures = [...xml.matchAll(/<wp:docPr ([^>]*)\/?>/g)];
+    expect(pictures).toHaveLength(figures.length);
   }, 120_000);
 
   it("refuses a rerun that is not signed", async () => {

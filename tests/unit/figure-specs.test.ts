@@ -8,7 +8,7 @@ import { generateDemoDataset } from "~/.server/demo/demo-dataset";
 import { blomQuantiles, figureData, FigureUnavailableError } from "~/.server/reruns/figure-data.server";
 import type { RerunDocument } from "~/.server/reruns/reruns.server";
 import { rerunTable } from "~/.server/reruns/what-if.server";
-import { figureSpec, forestPoints, forestSpec, rewrapTitle, type FigureData, type QqData } from "~/components/figures/specs";
+import { figureSpec, forestPoints, forestSpec, plotsSubjects, rewrapTitle, type FigureData, type QqData } from "~/components/figures/specs";
 import { fitLinear } from "~/engine";
 import { defaultChecks, evaluateChecks, type FigureKey } from "~/engine/checks";
 
@@ -80,6 +80,7 @@ describe("diagnostic figure specifications", () => {
         expect(fields.slice(0, 2)).toEqual(["subject", "row"]);
         expect(fields).toContain("status");
       }
+      if (!plotsSubjects(data)) throw new Error(`${figure} should draw subjects`);
       const first = data.rows[0];
       expect(typeof first.subject).toBe("string");
       expect(typeof first.row).toBe("number");
@@ -96,6 +97,7 @@ describe("diagnostic figure specifications", () => {
 
   it("names no subject when the viewer may not see subjects", () => {
     const data = figureData(doc, "influence", { withSubjectIds: false, table });
+    if (!plotsSubjects(data)) throw new Error("influence should draw subjects");
     expect(data.rows.every((r) => r.subject === null && r.row === null)).toBe(true);
     const spec = figureSpec(data);
     const fields = layersOf(spec).flatMap((l) => tooltipOf(spec, l).map((f) => f.field));

@@ -6,7 +6,7 @@
  */
 import { and, asc, eq, isNotNull } from "drizzle-orm";
 import { data } from "react-router";
-import { BEYOND, figureSpec, forestSpec, type FigureData, type ForestRow } from "~/components/figures/specs";
+import { BEYOND, figureSpec, forestSpec, OUTSIDE_BAND, plotsSubjects, type FigureData, type ForestRow } from "~/components/figures/specs";
 import { CHECK_BY_KEY, type CheckOutcome, type FigureKey } from "~/engine/checks";
 import { fmt, fmtCi, fmtP, utc } from "~/components/format";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
@@ -58,7 +58,34 @@ const FIGURE_WORDS: Record<FigureKey, { caption: string; shows: string; healthy:
   spread_by_arm: { caption: "Residual spread by treatment arm", shows: "box plots of the residuals per arm with the subjects as points", healthy: "boxes of similar height centred on zero", checks: ["brown_forsythe"] },
   residuals_covariate: { caption: "Residuals against a covariate", shows: "each subject's residual against the covariate", healthy: "an even band around zero", checks: ["gvif"] },
   partial_residuals: { caption: "Partial residuals", shows: "the component-plus-residual values against the covariate, with the fitted linear effect and a loess smoother", healthy: "the smoother following the straight line of the fitted effect", checks: ["reset"] },
+  binned_residuals: {
+    caption: "Binned residuals",
+    shows: "the mean residual (observed minus fitted probability) of each bin of subjects with similar fitted probabilities against the bin's mean fitted probability, inside a band of two standard errors",
+    healthy: "about 95% of the bins inside the band and no pattern",
+    checks: [],
+  },
+  calibration: {
+    caption: "Calibration by group of predicted risk",
+    shows: "the observed proportion of events in each tenth of the subjects by predicted probability against the group's mean predicted probability, with the line observed = predicted",
+    healthy: "every point close to the line",
+    checks: [],
+  },
 };
+
+/** The alt text's sentence on what the figure marks: subjects beyond a threshold, bins outside their band, or the test. */
+function markedInWords(d: FigureData): string {
+  if (plotsSubjects(d)) {
+    const beyond = d.rows.filter((row) => row.status === BEYOND).length;
+    return `${beyond} subject${beyond === 1 ? " is" : "s are"} drawn as open triangles for being beyond a planned threshold.`;
+  }
+  if (d.figure === "binned_residuals") {
+    const outside = d.rows.filter((row) => row.status === OUTSIDE_BAND).length;
+    return `${outside} of ${d.rows.length} bins lie outside their band and are drawn as filled triangles.`;
+  }
+  const t = d.test;
+  const test = t.statistic !== null && Number.isFinite(t.statistic) && t.df !== null ? `Hosmer–Lemeshow χ² = ${fmt(t.statistic, 2)} on ${t.df} df, p ${t.p !== null && t.p < 0.0001 ? "< 0.0001" : `= ${fmtP(t.p)}`}.` : "The Hosmer–Lemeshow statistic was not computed.";
+  return `${d.rows.length} groups; point area shows each group's size. ${test} ${d.caution}`;
+}
 
 interface RerunPart {
   rerunId: string;
@@ -153,6 +180,7 @@ function figureBlocks(p: RerunPart, next: ReturnType<typeof counter>): Block[] {
     { figure: "leverage_residual" },
     ...(p.doc.result.spec.treatment ? [{ figure: "spread_by_arm" as const }] : []),
     ...covariates.map((term) => ({ figure: "partial_residuals" as const, term })),
+    ...(p.doc.result.kind === "glm" && p.doc.result.family === "binomial" ? [{ figure: "binned_residuals" as const }, { figure: "calibration" as const }] : []),
   ];
   for (const w of wanted) {
     let d: FigureData;
@@ -164,13 +192,12 @@ function figureBlocks(p: RerunPart, next: ReturnType<typeof counter>): Block[] {
       continue;
     }
     const words = FIGURE_WORDS[w.figure];
-    const beyond = d.rows.filter((row) => row.status === BEYOND).length;
     const related = p.doc.checks.filter((c) => words.checks.includes(c.key));
     const checkWords = related.map((c) => `${c.label}: ${outcomeInWords(c, p.doc.result.n).toLowerCase()}`).join("; ");
     const caption = `${words.caption}${w.term ? ` for ${p.labels[w.term] ? `${p.labels[w.term]} (${w.term})` : w.term}` : ""}, ${p.modelTitle}`;
     const alt =
       `${caption}: ${words.shows}, for ${p.doc.result.n} subjects. A healthy picture shows ${words.healthy}. ` +
-      `${beyond} subject${beyond === 1 ? " is" : "s are"} drawn as open triangles for being beyond a planned threshold.` +
+      markedInWords(d) +
       (checkWords ? ` Related checks: ${checkWords}.` : "");
     blocks.push({ kind: "figure", key: `${w.figure}${w.term ? `:${w.term}` : ""}:${p.rerunId}`, number: next.figure(), caption, alt, spec: figureSpec(d, { ...FIGURE_SIZE, forPrint: true }) });
   }

@@ -5,6 +5,8 @@
  * appendix.
  */
 import type {
+  BinnedResidualRow,
+  CalibrationRow,
   DenseSummary,
   DensityCell,
   FigureData,
@@ -14,11 +16,11 @@ import type {
   SubjectRef,
   Threshold,
 } from "~/components/figures/specs";
-import { BEYOND, DENSE_FROM, DENSE_POINTS, WITHIN } from "~/components/figures/specs";
+import { BEYOND, DENSE_FROM, DENSE_POINTS, INSIDE_BAND, OUTSIDE_BAND, WITHIN } from "~/components/figures/specs";
 import type { CheckKey, CheckOutcome, FigureKey } from "~/engine/checks";
 import { normalQuantile } from "~/engine/distributions";
 import { loessCurve, type SmoothPoint } from "~/engine/loess";
-import type { ModelResult } from "~/engine";
+import type { GlmResult, ModelResult } from "~/engine";
 import type { RerunDocument } from "./reruns.server";
 import { axisBins, blockMaxima, boxSummaries, densityCells, qqKept } from "./figure-summaries.server";
 
@@ -216,6 +218,25 @@ function cellsOf(x: readonly number[], y: readonly number[], dense: { drawn: Set
   return densityCells(x, y, rest, { x: axisBins(x, GRID.nx), y: axisBins(y, GRID.ny) });
 }
 
+const FAMILY_WORDS: Record<GlmResult["family"], string> = {
+  binomial: "binomial",
+  poisson: "Poisson",
+  quasipoisson: "quasi-Poisson",
+  "negative-binomial": "negative binomial",
+};
+
+/** The result of a binomial GLM rerun; otherwise FigureUnavailableError saying why `what` needs one. */
+function binomialResult(r: ModelResult, what: string): GlmResult {
+  const fits = r.kind === "linear" ? "a linear model" : `a ${FAMILY_WORDS[r.family]} model`;
+  if (r.kind !== "glm" || r.family !== "binomial") throw new FigureUnavailableError(`${what} is drawn for binomial models of a 0/1 response only, and this rerun fits ${fits}`);
+  return r;
+}
+
+/** The event a binomial model counts, in words: "resp = 1", or the named event level. */
+function eventOf(r: GlmResult): string {
+  return `${r.spec.response} = ${r.spec.event ?? "1"}`;
+}
+
 /** The rows of one figure of a rerun. Throws FigureUnavailableError when it cannot be drawn. */
 export function figureData(doc: RerunDocument, figure: FigureKey, opts: FigureOptions): FigureData {
   const r = doc.result;
@@ -367,6 +388,35 @@ export function figureData(doc: RerunDocument, figure: FigureKey, opts: FigureOp
         boxes: boxSummaries(levels, cells, residuals),
         ...(dense ? { dense: dense.summary } : {}),
       };
+    }
+    case "binned_residuals": {
+      const g = binomialResult(r, "the binned residual plot");
+      if (!g.binnedResiduals?.length) throw new FigureUnavailableError("the rerun stored no binned residuals; rerun it with the current engine");
+      // a bin is outside its band when |mean residual| exceeds 2 standard errors (Gelman and Hill 2007, section 5.6)
+      const rows: BinnedResidualRow[] = g.binnedResiduals.map((bin, k) => ({
+        bin: k + 1,
+        n: bin.n,
+        meanFitted: round(bin.meanFitted),
+        meanResidual: round(bin.meanResidual),
+        bound: round(bin.bound),
+        lower: round(-bin.bound),
+        status: Math.abs(bin.meanResidual) > bin.bound ? OUTSIDE_BAND : INSIDE_BAND,
+      }));
+      return { figure, ...b, withSubjectIds: false, event: eventOf(g), rows };
+    }
+    case "calibration": {
+      const g = binomialResult(r, "the calibration plot");
+      const c = g.checks.calibration;
+      if (!c?.groups.length) throw new FigureUnavailableError("the rerun stored no calibration groups; rerun it with the current engine");
+      const rows: CalibrationRow[] = c.groups.map((group, k) => ({
+        group: k + 1,
+        n: group.n,
+        meanPredicted: round(group.meanPredicted),
+        observed: group.observed,
+        expected: round(group.expected),
+        observedProportion: round(group.observed / group.n),
+      }));
+      return { figure, ...b, withSubjectIds: false, event: eventOf(g), rows, test: { statistic: c.statistic, df: c.df, p: c.p }, caution: c.caution };
     }
   }
 }

@@ -243,7 +243,57 @@ export interface SpreadByArmData extends FigureBase {
   boxes: BoxSummary[];
 }
 
-export type FigureData =
+/** Bin status words of the binned residual plot, used in its legend and hover details. */
+export const OUTSIDE_BAND = "outside its band";
+export const INSIDE_BAND = "inside its band";
+export type BinStatus = typeof OUTSIDE_BAND | typeof INSIDE_BAND;
+
+/** One bin of subjects of similar fitted probability (Gelman and Hill 2007, section 5.6). */
+export interface BinnedResidualRow {
+  /** 1-based, in order of fitted probability. */
+  bin: number;
+  /** Subjects in the bin. */
+  n: number;
+  meanFitted: number;
+  /** Mean of y − fitted probability: the observed minus the predicted proportion of events. */
+  meanResidual: number;
+  /** Two standard errors of the mean residual under the model, 2·√(p̄(1 − p̄)/n); the band is ±bound. */
+  bound: number;
+  /** −bound, the band's lower edge. */
+  lower: number;
+  status: BinStatus;
+}
+export interface BinnedResidualsData extends FigureBase {
+  figure: "binned_residuals";
+  /** The event in words, e.g. "resp = 1". */
+  event: string;
+  rows: BinnedResidualRow[];
+}
+
+/** One Hosmer–Lemeshow group: a tenth of the subjects by predicted probability. */
+export interface CalibrationRow {
+  /** 1-based, in order of predicted probability. */
+  group: number;
+  n: number;
+  meanPredicted: number;
+  /** Events observed and expected (sum of predicted probabilities) in the group. */
+  observed: number;
+  expected: number;
+  /** observed / n. */
+  observedProportion: number;
+}
+export interface CalibrationData extends FigureBase {
+  figure: "calibration";
+  event: string;
+  rows: CalibrationRow[];
+  /** The Hosmer–Lemeshow statistic on g − 2 df, as the rerun computed it. */
+  test: { statistic: number | null; df: number | null; p: number | null };
+  /** The engine's word of caution about the test. */
+  caution: string;
+}
+
+/** Figures that draw subjects one by one (their rows name the subject when the viewer may see it). */
+export type SubjectFigureData =
   | ResidualsFittedData
   | ResidualsCovariateData
   | PartialResidualsData
@@ -251,6 +301,16 @@ export type FigureData =
   | InfluenceData
   | LeverageResidualData
   | SpreadByArmData;
+
+/** Figures of a binomial model's fit, drawn from groups of subjects: their rows name no one. */
+export type GroupFigureData = BinnedResidualsData | CalibrationData;
+
+export type FigureData = SubjectFigureData | GroupFigureData;
+
+/** True when the figure's rows are subjects (not bins or groups of them). */
+export function plotsSubjects(d: FigureData): d is SubjectFigureData {
+  return d.figure !== "binned_residuals" && d.figure !== "calibration";
+}
 
 export interface SpecOptions {
   /** Pixel width, or "container" to follow the frame (browser). Default 560. */
@@ -844,6 +904,130 @@ export function spreadByArmSpec(d: SpreadByArmData, opts: SpecOptions = {}): Top
   });
 }
 
+/** A p-value in the figures' words: "= 0.1234" or "< 0.0001". */
+function pText(p: number): string {
+  return p < 0.0001 ? "< 0.0001" : `= ${p.toFixed(4)}`;
+}
+
+/**
+ * Binned residual plot (Gelman and Hill 2007, Data Analysis Using Regression and
+ * Multilevel/Hierarchical Models, section 5.6): the mean residual y − p̂ of each bin of subjects
+ * with similar fitted probabilities, against the bin's mean fitted probability, inside a band of
+ * ±2 standard errors. Bins outside their band are filled triangles in the finding colour, the
+ * others open circles.
+ */
+export function binnedResidualsSpec(d: BinnedResidualsData, opts: SpecOptions = {}): TopLevelSpec {
+  const width = opts.width ?? 560;
+  const bins = d.rows.length;
+  const outside = d.rows.filter((r) => r.status === OUTSIDE_BAND).length;
+  const sizes = d.rows.map((r) => r.n);
+  const perBin = bins ? (Math.min(...sizes) === Math.max(...sizes) ? `${sizes[0]}` : `${Math.min(...sizes)} or ${Math.max(...sizes)}`) : "0";
+  // about one bin in twenty lies outside its band by chance alone when the model holds
+  const expected = 0.05 * bins < 1 ? "fewer than one expected by chance" : `about ${Math.round(0.05 * bins)} expected by chance`;
+  const x = { field: "meanFitted", type: "quantitative", title: `Mean fitted probability of ${d.event} in the bin (probability, 0 to 1)`, scale: { zero: false } };
+  // short enough to fit beside the plot's height: a longer rotated title pushes the plot apart
+  const yTitle = "Mean of observed − fitted (proportion)";
+  const band = (field: string) => ({ mark: { type: "line", color: PALETTE.inkSoft, strokeWidth: 1, ...NO_ARIA }, encoding: { x, y: { field, type: "quantitative", title: yTitle } } });
+  const domain = [INSIDE_BAND, OUTSIDE_BAND];
+  const legend = { title: "Bins" };
+  return asSpec({
+    $schema: "https://vega.github.io/schema/vega-lite/v6.json",
+    ...frame(d, opts),
+    title: title(
+      "Binned residuals",
+      "about 95% of bins inside the band, no pattern (no curve, no run of bins on one side of zero).",
+      [
+        `${outside} of ${bins} bins lie outside their band (${expected}).`,
+        `Bins of ${perBin} subjects in order of fitted probability. Grey band: ±2 standard errors of the bin's mean, with SE² = p̄(1 − p̄)/n. Dashed: zero.`,
+        ...(d.note ? [d.note] : []),
+      ],
+      width,
+    ),
+    ...dataOf(d.rows, opts),
+    layer: [
+      { mark: { type: "area", color: PALETTE.rule, opacity: 0.45, ...NO_ARIA }, encoding: { x, y: { field: "lower", type: "quantitative", title: yTitle }, y2: { field: "bound" } } },
+      band("bound"),
+      band("lower"),
+      zeroRule("y"),
+      {
+        mark: { type: "point", strokeWidth: 1.4, size: 56, ...NO_ARIA },
+        encoding: {
+          x,
+          y: { field: "meanResidual", type: "quantitative", title: yTitle },
+          shape: { field: "status", type: "nominal", scale: { domain, range: ["circle", "triangle-up"] }, legend },
+          color: { field: "status", type: "nominal", scale: { domain, range: [PALETTE.ink, PALETTE.finding] }, legend },
+          // the triangles are filled, so the bins outside stand out in shape and weight as well as colour
+          fill: { field: "status", type: "nominal", scale: { domain, range: ["transparent", PALETTE.finding] }, legend },
+          tooltip: [
+            { field: "bin", type: "quantitative", title: "Bin", format: "d" },
+            { field: "n", type: "quantitative", title: "Subjects", format: "d" },
+            { field: "meanFitted", type: "quantitative", title: "Mean fitted probability", format: ".4~g" },
+            { field: "meanResidual", type: "quantitative", title: "Mean residual", format: ".4~g" },
+            { field: "bound", type: "quantitative", title: "Band, ±", format: ".4~g" },
+            { field: "status", type: "nominal", title: "Status" },
+          ],
+        },
+      },
+    ],
+  });
+}
+
+/**
+ * Calibration plot: the observed proportion of events in each Hosmer–Lemeshow group (Hosmer and
+ * Lemeshow 1980) against the group's mean predicted probability, with the line observed =
+ * predicted; point area is proportional to the group's size.
+ */
+export function calibrationSpec(d: CalibrationData, opts: SpecOptions = {}): TopLevelSpec {
+  const width = opts.width ?? 560;
+  const values = d.rows.flatMap((r) => [r.meanPredicted, r.observedProportion]).filter(Number.isFinite);
+  const lo = Math.max(0, Math.floor(((values.length ? Math.min(...values) : 0) - 0.02) * 20) / 20);
+  const hi = Math.min(1, Math.ceil(((values.length ? Math.max(...values) : 1) + 0.02) * 20) / 20);
+  const scale = { domain: [lo, hi], nice: false, zero: false };
+  // the legend shows the group sizes there are (equal groups differ by one subject at most)
+  const sizes = [...new Set(d.rows.map((r) => r.n))].sort((a, b) => a - b);
+  const x = { field: "meanPredicted", type: "quantitative", title: `Mean predicted probability of ${d.event} in the group (probability, 0 to 1)`, scale };
+  const y = { field: "observedProportion", type: "quantitative", title: "Observed proportion of events (0 to 1)", scale };
+  const t = d.test;
+  const test =
+    t.statistic !== null && Number.isFinite(t.statistic) && t.df !== null && t.p !== null
+      ? `Hosmer–Lemeshow χ² = ${t.statistic.toFixed(2)} on ${t.df} df, p ${pText(t.p)}.`
+      : "Hosmer–Lemeshow statistic not computed.";
+  return asSpec({
+    $schema: "https://vega.github.io/schema/vega-lite/v6.json",
+    ...frame(d, opts),
+    title: title(
+      "Calibration by group of predicted risk",
+      "the points lie on the line observed = predicted in every group, with no bend away from it at either end.",
+      [`${test} ${d.caution}`, `Points: the test's ${d.rows.length} groups, tenths of the subjects in order of predicted probability; point area: subjects in the group. Brass line: observed = predicted.`, ...(d.note ? [d.note] : [])],
+      width,
+    ),
+    ...dataOf(d.rows, opts),
+    layer: [
+      {
+        data: { values: [{ meanPredicted: lo, observedProportion: lo }, { meanPredicted: hi, observedProportion: hi }] },
+        mark: { type: "line", color: PALETTE.accent, strokeWidth: 1.6, ...NO_ARIA },
+        encoding: { x, y },
+      },
+      {
+        mark: { type: "point", filled: false, color: PALETTE.ink, strokeWidth: 1.4, ...NO_ARIA },
+        encoding: {
+          x,
+          y,
+          size: { field: "n", type: "quantitative", title: "Subjects in the group", scale: { zero: true, range: [0, 320] }, legend: { format: "d", values: sizes } },
+          tooltip: [
+            { field: "group", type: "quantitative", title: "Group", format: "d" },
+            { field: "n", type: "quantitative", title: "Subjects", format: "d" },
+            { field: "meanPredicted", type: "quantitative", title: "Mean predicted probability", format: ".4~g" },
+            { field: "observedProportion", type: "quantitative", title: "Observed proportion", format: ".4~g" },
+            { field: "observed", type: "quantitative", title: "Events observed", format: "d" },
+            { field: "expected", type: "quantitative", title: "Events expected", format: ".4~g" },
+          ],
+        },
+      },
+    ],
+  });
+}
+
 /** The specification of one diagnostic figure from its shaped data. */
 export function figureSpec(d: FigureData, opts: SpecOptions = {}): TopLevelSpec {
   switch (d.figure) {
@@ -861,11 +1045,25 @@ export function figureSpec(d: FigureData, opts: SpecOptions = {}): TopLevelSpec 
       return leverageResidualSpec(d, opts);
     case "spread_by_arm":
       return spreadByArmSpec(d, opts);
+    case "binned_residuals":
+      return binnedResidualsSpec(d, opts);
+    case "calibration":
+      return calibrationSpec(d, opts);
   }
 }
 
 /** Every figure key, in results-page order. */
-export const FIGURE_KEYS: readonly FigureKey[] = ["residuals_fitted", "residuals_covariate", "partial_residuals", "qq", "influence", "leverage_residual", "spread_by_arm"];
+export const FIGURE_KEYS: readonly FigureKey[] = [
+  "residuals_fitted",
+  "residuals_covariate",
+  "partial_residuals",
+  "qq",
+  "influence",
+  "leverage_residual",
+  "spread_by_arm",
+  "binned_residuals",
+  "calibration",
+];
 
 // ---- sensitivity comparison ------------------------------------------------------------------
 
