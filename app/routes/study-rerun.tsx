@@ -421,6 +421,22 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
               </div>
             </article>
           </section>
+
+          {view.kind === "glm" && view.family === "binomial" ? (
+            <section className="panel p-4" aria-labelledby="binomial-fit-h">
+              <h2 id="binomial-fit-h" className="mb-2">
+                Fit of the binomial model
+              </h2>
+              <p className="mb-2 text-xs text-ink-soft">
+                Whether the predicted probabilities match what happened: the mean residual of subjects with similar fitted probabilities, and the observed against the predicted
+                proportion in ten groups of equal size by predicted risk (the Hosmer–Lemeshow groups).
+              </p>
+              <div className="grid gap-4 lg:grid-cols-2">
+                <RerunFigure studyId={studyId} rerunId={rerun.id} figure="binned_residuals" />
+                <RerunFigure studyId={studyId} rerunId={rerun.id} figure="calibration" />
+              </div>
+            </section>
+          ) : null}
         </div>
       ) : null}
 

@@ -112,6 +112,8 @@ describe("from plan to signature", () => {
     const states = await drawAllFigures(page);
     expect(states.length).toBeGreaterThanOrEqual(10);
     expect(states.every((s) => s === "ready")).toBe(true);
+    // a linear model has no binomial fit figures
+    expect(await page.getByRole("region", { name: "Fit of the binomial model" }).count()).toBe(0);
     const tip = await hoverForSubject(page, "residuals_fitted");
     expect(tip).toMatch(/Subject\s+QMT301-\d{4}/);
     expect(tip).toMatch(/Data row\s+\d+/);
@@ -153,6 +155,26 @@ describe("from plan to signature", () => {
       await page.getByLabel("Approved planned model").selectOption(value ?? "");
       await page.getByRole("button", { name: "Rerun" }).click();
       await page.getByRole("heading", { name: "Checks of the plan" }).waitFor({ timeout: 15_000 });
+      const fit = page.getByRole("region", { name: "Fit of the binomial model" });
+      if (key === "responder") {
+        // the binomial model's own figures: binned residuals and calibration by tenth of predicted risk
+        for (const figure of ["binned_residuals", "calibration"]) {
+          const frame = fit.locator(`[data-figure="${figure}"]`);
+          await frame.scrollIntoViewIfNeeded();
+          await expect.poll(() => frame.getAttribute("data-state"), { timeout: 20_000 }).toBe("ready");
+        }
+        expect(await fit.locator('[data-figure="binned_residuals"] [role="img"]').getAttribute("aria-label")).toMatch(/^Binned residuals\. Healthy: about 95% of bins inside the band.* \d+ of \d+ bins lie outside their band/);
+        expect(await fit.locator('[data-figure="calibration"] [role="img"]').getAttribute("aria-label")).toMatch(/Hosmer–Lemeshow χ² = [\d.]+ on 8 df/);
+        const tip = await hoverForSubject(page, "binned_residuals");
+        expect(tip).toMatch(/Mean residual\s+−?\d/);
+        await page.mouse.move(0, 0);
+        await fit.scrollIntoViewIfNeeded();
+        await page.screenshot({ path: "test-results/screenshots/rerun-results-binomial-fit.png", clip: (await fit.boundingBox()) ?? undefined });
+        await screenshot(page, "rerun-results-binomial");
+      } else {
+        expect(await fit.count()).toBe(0);
+        expect(await page.locator('[data-figure="binned_residuals"], [data-figure="calibration"]').count()).toBe(0);
+      }
       if (key === "flares") {
         const card = page.locator("article", { has: page.getByRole("heading", { name: "Overdispersion", exact: true }) });
         expect(await card.getByText("Finding", { exact: true }).count()).toBe(1);

@@ -924,7 +924,7 @@ export function binnedResidualsSpec(d: BinnedResidualsData, opts: SpecOptions = 
   const perBin = bins ? (Math.min(...sizes) === Math.max(...sizes) ? `${sizes[0]}` : `${Math.min(...sizes)} or ${Math.max(...sizes)}`) : "0";
   // about one bin in twenty lies outside its band by chance alone when the model holds
   const expected = 0.05 * bins < 1 ? "fewer than one expected by chance" : `about ${Math.round(0.05 * bins)} expected by chance`;
-  const x = { field: "meanFitted", type: "quantitative", title: `Mean fitted probability of ${d.event} in the bin (probability, 0 to 1)`, scale: { zero: false } };
+  const x = { field: "meanFitted", type: "quantitative", title: `Mean fitted probability of ${d.event} in the bin (probability, 0 to 1)`, scale: { zero: false }, axis: { tickCount: 6 } };
   // short enough to fit beside the plot's height: a longer rotated title pushes the plot apart
   const yTitle = "Mean of observed − fitted (proportion)";
   const band = (field: string) => ({ mark: { type: "line", color: PALETTE.inkSoft, strokeWidth: 1, ...NO_ARIA }, encoding: { x, y: { field, type: "quantitative", title: yTitle } } });
@@ -938,7 +938,8 @@ export function binnedResidualsSpec(d: BinnedResidualsData, opts: SpecOptions = 
       "about 95% of bins inside the band, no pattern (no curve, no run of bins on one side of zero).",
       [
         `${outside} of ${bins} bins lie outside their band (${expected}).`,
-        `Bins of ${perBin} subjects in order of fitted probability. Grey band: ±2 standard errors of the bin's mean, with SE² = p̄(1 − p̄)/n. Dashed: zero.`,
+        // the formula has no spaces, so it never breaks across lines
+        `Bins of ${perBin} subjects by fitted probability. Grey band: ±2 standard errors, SE² = p̄(1−p̄)/n. Dashed: zero.`,
         ...(d.note ? [d.note] : []),
       ],
       width,
@@ -983,9 +984,10 @@ export function calibrationSpec(d: CalibrationData, opts: SpecOptions = {}): Top
   const lo = Math.max(0, Math.floor(((values.length ? Math.min(...values) : 0) - 0.02) * 20) / 20);
   const hi = Math.min(1, Math.ceil(((values.length ? Math.max(...values) : 1) + 0.02) * 20) / 20);
   const scale = { domain: [lo, hi], nice: false, zero: false };
-  // the legend shows the group sizes there are (equal groups differ by one subject at most)
+  // the group sizes there are, in words (equal groups differ by one subject at most)
   const sizes = [...new Set(d.rows.map((r) => r.n))].sort((a, b) => a - b);
-  const x = { field: "meanPredicted", type: "quantitative", title: `Mean predicted probability of ${d.event} in the group (probability, 0 to 1)`, scale };
+  const sizeWords = sizes.length <= 2 ? sizes.join(" or ") : `${sizes[0]} to ${sizes[sizes.length - 1]}`;
+  const x = { field: "meanPredicted", type: "quantitative", title: `Mean predicted probability of ${d.event} in the group (probability, 0 to 1)`, scale, axis: { tickCount: 6 } };
   const y = { field: "observedProportion", type: "quantitative", title: "Observed proportion of events (0 to 1)", scale };
   const t = d.test;
   const test =
@@ -997,8 +999,9 @@ export function calibrationSpec(d: CalibrationData, opts: SpecOptions = {}): Top
     ...frame(d, opts),
     title: title(
       "Calibration by group of predicted risk",
-      "the points lie on the line observed = predicted in every group, with no bend away from it at either end.",
-      [`${test} ${d.caution}`, `Points: the test's ${d.rows.length} groups, tenths of the subjects in order of predicted probability; point area: subjects in the group. Brass line: observed = predicted.`, ...(d.note ? [d.note] : [])],
+      "every point on the brass line observed = predicted, with no bend at either end.",
+      // short, and the sizes in words instead of a legend: the results page's frame is of fixed height
+      [`${test} ${d.caution}`, `Points: the ${d.rows.length} groups of the test, ${sizeWords} subjects each, area by size.`, ...(d.note ? [d.note] : [])],
       width,
     ),
     ...dataOf(d.rows, opts),
@@ -1013,7 +1016,7 @@ export function calibrationSpec(d: CalibrationData, opts: SpecOptions = {}): Top
         encoding: {
           x,
           y,
-          size: { field: "n", type: "quantitative", title: "Subjects in the group", scale: { zero: true, range: [0, 320] }, legend: { format: "d", values: sizes } },
+          size: { field: "n", type: "quantitative", title: "Subjects in the group", scale: { zero: true, range: [0, 320] }, legend: null },
           tooltip: [
             { field: "group", type: "quantitative", title: "Group", format: "d" },
             { field: "n", type: "quantitative", title: "Subjects", format: "d" },
