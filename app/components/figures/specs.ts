@@ -988,7 +988,9 @@ export function calibrationSpec(d: CalibrationData, opts: SpecOptions = {}): Top
   const sizes = [...new Set(d.rows.map((r) => r.n))].sort((a, b) => a - b);
   const sizeWords = sizes.length <= 2 ? sizes.join(" or ") : `${sizes[0]} to ${sizes[sizes.length - 1]}`;
   const x = { field: "meanPredicted", type: "quantitative", title: `Mean predicted probability of ${d.event} in the group (probability, 0 to 1)`, scale, axis: { tickCount: 6 } };
-  const y = { field: "observedProportion", type: "quantitative", title: "Observed proportion of events (0 to 1)", scale };
+  // a short rotated title: servers without a canvas estimate text widths generously, and a title
+  // longer than the plot's height would push the plot away from its subtitle
+  const y = { field: "observedProportion", type: "quantitative", title: "Observed proportion (0 to 1)", scale };
   const t = d.test;
   const test =
     t.statistic !== null && Number.isFinite(t.statistic) && t.df !== null && t.p !== null
