@@ -219,6 +219,52 @@ export function MarginalMeansTable({ rows, family }: { rows: readonly MarginalMe
   );
 }
 
+interface CalibrationGroup {
+  n: number;
+  meanPredicted: number;
+  observed: number;
+  expected: number;
+}
+
+/** The Hosmer–Lemeshow groups behind the calibration figure: observed against expected events per group of predicted risk. */
+export function CalibrationTable({ groups }: { groups: readonly CalibrationGroup[] }) {
+  return (
+    <table className="data-table">
+      <caption className="mb-1 text-left text-xs text-ink-soft">Hosmer–Lemeshow groups, lowest predicted risk first: events observed and expected under the model.</caption>
+      <thead>
+        <tr>
+          <th scope="col">Group</th>
+          <th scope="col" className="text-right">
+            Subjects
+          </th>
+          <th scope="col" className="text-right">
+            Mean predicted risk
+          </th>
+          <th scope="col" className="text-right">
+            Observed events
+          </th>
+          <th scope="col" className="text-right">
+            Expected events
+          </th>
+        </tr>
+      </thead>
+      <tbody>
+        {groups.map((g, k) => (
+          <tr key={k}>
+            <th scope="row" className="num">
+              {k + 1}
+            </th>
+            <td className="num text-right">{g.n}</td>
+            <td className="num text-right">{fmt(g.meanPredicted)}</td>
+            <td className="num text-right">{g.observed}</td>
+            <td className="num text-right">{fmt(g.expected, 1)}</td>
+          </tr>
+        ))}
+      </tbody>
+    </table>
+  );
+}
+
 interface Ratio {
   name: string;
   ratio: number;

@@ -10,7 +10,7 @@ import { toVega } from "~/.server/figures/compile.server";
 import { WhatIfPanel, type WhatIfInputs } from "~/components/figures/what-if-panel";
 import { fmt, fmtCi, fmtP, utc } from "~/components/format";
 import { FieldError, PageHeader } from "~/components/page";
-import { AdjustedMeansTable, CheckCard, CoefficientTable, ContrastsTable, MarginalMeansTable, RatioTable, SensitivityTable } from "~/components/rerun-results";
+import { AdjustedMeansTable, CalibrationTable, CheckCard, CoefficientTable, ContrastsTable, MarginalMeansTable, RatioTable, SensitivityTable } from "~/components/rerun-results";
 import { StatusLabel } from "~/components/status";
 import { canonicalJson } from "~/.server/audit.server";
 import { loadLockedTable } from "~/.server/datasets/catalog.server";
@@ -435,6 +435,11 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
                 <RerunFigure studyId={studyId} rerunId={rerun.id} figure="binned_residuals" />
                 <RerunFigure studyId={studyId} rerunId={rerun.id} figure="calibration" />
               </div>
+              {view.calibrationGroups ? (
+                <div className="mt-4 max-w-2xl overflow-x-auto">
+                  <CalibrationTable groups={view.calibrationGroups} />
+                </div>
+              ) : null}
             </section>
           ) : null}
         </div>

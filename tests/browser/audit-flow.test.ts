@@ -165,6 +165,8 @@ describe("from plan to signature", () => {
         }
         expect(await fit.locator('[data-figure="binned_residuals"] [role="img"]').getAttribute("aria-label")).toMatch(/^Binned residuals\. Healthy: about 95% of bins inside the band.* \d+ of \d+ bins lie outside their band/);
         expect(await fit.locator('[data-figure="calibration"] [role="img"]').getAttribute("aria-label")).toMatch(/Hosmer–Lemeshow χ² = [\d.]+ on 8 df/);
+        // the groups behind the calibration figure, as a table beside it
+        expect(await fit.getByRole("table").locator("tbody tr").count()).toBe(10);
         const tip = await hoverForSubject(page, "binned_residuals");
         expect(tip).toMatch(/Mean residual\s+−?\d/);
         await page.mouse.move(0, 0);

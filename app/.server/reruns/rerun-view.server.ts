@@ -126,6 +126,8 @@ export function rerunView(doc: RerunDocument, withSubjectIds: boolean) {
     events: r.events,
     eventsPerVariable: r.eventsPerVariable,
     marginalMeans: r.marginalEffects?.means ?? null,
+    /** Hosmer–Lemeshow groups of a binomial model (the calibration figure's table). */
+    calibrationGroups: r.checks.calibration?.groups ?? null,
     notes: r.notes,
   };
 }
