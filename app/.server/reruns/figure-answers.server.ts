@@ -31,7 +31,7 @@ export async function figureAnswer(req: FigureRequest, doc: RerunDocument, table
   const kept = answers.get(key);
   if (kept) return kept;
   const data = figureData(doc, req.figure, { term: req.term, withSubjectIds: req.withSubjectIds, table: await table() });
-  const body = JSON.stringify({ caution: CAUTION, spec: toVega(figureSpec(data, { width: "container", inlineRows: false })), data });
+  const body = JSON.stringify({ caution: CAUTION, spec: toVega(figureSpec(data, { width: "container", height: "container", inlineRows: false })), data });
   answers.set(key, body);
   return body;
 }

@@ -315,8 +315,12 @@ export function plotsSubjects(d: FigureData): d is SubjectFigureData {
 export interface SpecOptions {
   /** Pixel width, or "container" to follow the frame (browser). Default 560. */
   width?: number | "container";
-  /** Plot height in pixels (the title sits above). Default 230. */
-  height?: number;
+  /**
+   * Plot height in pixels (the title sits above). Default 230. "container": the whole figure,
+   * title and legends included, fits the frame's height (browser), so a longer subtitle makes
+   * the plot shorter instead of pushing the axis out of the frame.
+   */
+  height?: number | "container";
   /** Put the rows into the spec (default). Without, the spec reads the named dataset "rows". */
   inlineRows?: boolean;
   /** Server rendering: ARIA attributes off (a third smaller SVG). */
@@ -505,7 +509,13 @@ function cellsLayer(cells: readonly DensityCell[], xName: string, yName: string)
       x2: { field: "x1" },
       y: { field: "y0", type: "quantitative" },
       y2: { field: "y1" },
-      fill: { field: "count", type: "quantitative", scale: { type: "sqrt", zero: true, range: ["#ebe6da", PALETTE.pending] }, legend: { title: "Subjects per cell", gradientLength: 110, tickCount: 3, format: "d" } },
+      // the legend names the ends only: sqrt-spaced middle labels crowd each other
+      fill: {
+        field: "count",
+        type: "quantitative",
+        scale: { type: "sqrt", zero: true, range: ["#ebe6da", PALETTE.pending] },
+        legend: { title: "Subjects per cell", gradientLength: 110, values: [1, Math.max(1, ...cells.map((c) => c.count))], format: "d" },
+      },
       tooltip: [
         { field: "count", type: "quantitative", title: "Subjects in this cell", format: "d" },
         { field: "xRange", type: "nominal", title: xName },
