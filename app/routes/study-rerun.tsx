@@ -15,7 +15,7 @@ import { StatusLabel } from "~/components/status";
 import { canonicalJson } from "~/.server/audit.server";
 import { loadLockedTable } from "~/.server/datasets/catalog.server";
 import { actorOf } from "~/.server/people.server";
-import { rerunTable, whatIfInputs } from "~/.server/reruns/what-if.server";
+import { keptWhatIfInputs, rerunTable } from "~/.server/reruns/what-if.server";
 import { getPlannedModel } from "~/.server/plans/plans.server";
 import { SENSITIVITY_KINDS, SENSITIVITY_LABELS, type PlannedSensitivity } from "~/.server/plans/planned-model";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
@@ -80,8 +80,8 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   });
   let whatIf: WhatIfInputs = { available: false, reason: "The what-if opens when the rerun has completed.", caution: CAUTION };
   if (r.doc && r.rerun.kind === "primary" && allowed.has("rerun.start") && !r.rerun.signedAt) {
-    const locked = await loadLockedTable(r.rerun.datasetVersionId);
-    whatIf = whatIfInputs(r.doc, rerunTable(r.doc, locked.table), {
+    const doc = r.doc;
+    whatIf = await keptWhatIfInputs(r.rerun, doc, async () => rerunTable(doc, (await loadLockedTable(r.rerun.datasetVersionId)).table), {
       prespecifiedExclusion: planned.sensitivity.some((s) => s.kind === "exclude_influential"),
       withSubjectIds: withIds,
       canSave: true,

@@ -10,6 +10,7 @@ import { toDataTable } from "~/engine/data";
 import { buildDesign, prepareData } from "~/engine/design";
 import { EngineError, RESULTS_CAUTION, type LinearModelResult } from "~/engine";
 import { leastSquares } from "~/engine/least-squares";
+import { LRUCache } from "lru-cache";
 import type { RerunDocument } from "./reruns.server";
 
 /** The engine's table input: cells as text by column, 1-based data rows. */
@@ -65,6 +66,22 @@ export interface WhatIfOptions {
   withSubjectIds?: boolean;
   /** The viewer may start reruns (the "keep as a sensitivity rerun" button). Default true. */
   canSave?: boolean;
+}
+
+/** What-if inputs of completed reruns by result hash and options: building them refits the model (30–90 ms at 10 000 subjects). */
+const kept = new LRUCache<string, WhatIfInputs>({ max: 32 });
+
+/**
+ * The what-if inputs of a completed rerun, built once per result hash and options; `table` is
+ * asked for only when they are not kept yet (it reads the locked dataset).
+ */
+export async function keptWhatIfInputs(rerun: { id: string; resultSha256: string | null }, doc: RerunDocument, table: () => Promise<RerunTable>, options: WhatIfOptions = {}): Promise<WhatIfInputs> {
+  const key = JSON.stringify([rerun.id, rerun.resultSha256, options.prespecifiedExclusion ?? false, options.withSubjectIds ?? true, options.canSave ?? true]);
+  const hit = kept.get(key);
+  if (hit) return hit;
+  const inputs = whatIfInputs(doc, await table(), options);
+  kept.set(key, inputs);
+  return inputs;
 }
 
 /**
