@@ -56,10 +56,8 @@ let turn: Promise<unknown> = Promise.resolve();
 let sliceStart = 0;
 const SLICE_MS = 50;
 
-/** Yields to the browser: scheduler.yield() where the browser has it (no timer clamping), else a timer. */
 function nextTask(): Promise<void> {
-  const scheduler = (globalThis as { scheduler?: { yield?: () => Promise<void> } }).scheduler;
-  return scheduler?.yield ? scheduler.yield() : new Promise((resolve) => setTimeout(resolve, 0));
+  return new Promise((resolve) => setTimeout(resolve, 0));
 }
 
 /** Draws `spec` into `container` when its turn comes; resolves to the function that removes the view. */
