@@ -11,7 +11,8 @@
  */
 import { execFileSync, spawnSync } from "node:child_process";
 import { describe, expect, it } from "vitest";
-import { compile, type TopLevelSpec } from "vega-lite";
+import { expectWellFormedFigure, titleOf } from "../support/figure-checks";
+import { compile } from "vega-lite";
 import { useTempDatabase } from "../support/temp-db";
 
 useTempDatabase();
@@ -50,10 +51,6 @@ const doc = computeRerun(plannedModel("responder", "resp", "binomial"), locked.t
 const table = rerunTable(doc, locked.table);
 const binned = figureData(doc, "binned_residuals", { withSubjectIds: true, table }) as BinnedResidualsData;
 const calibration = figureData(doc, "calibration", { withSubjectIds: true, table }) as CalibrationData;
-
-function titleOf(spec: TopLevelSpec): { text: string; subtitle: string[] } {
-  return (spec as unknown as { title: { text: string; subtitle: string[] } }).title;
-}
 
 /**
  * R 4.x, stats::glm on the demo CSV with the full analysis set, then the engine's definitions
@@ -170,15 +167,7 @@ describe("fit figures of a binomial rerun", () => {
 
   for (const d of [binned, calibration]) {
     it(`${d.figure}: the specification compiles (Vega-Lite compile()), says what healthy looks like and has axis titles with units in brackets`, () => {
-      const spec = figureSpec(d, { forPrint: true });
-      const vg = compile(spec).spec;
-      expect(vg.marks?.length ?? 0).toBeGreaterThan(0);
-      const t = titleOf(spec);
-      expect(t.text.length).toBeGreaterThan(5);
-      expect(t.subtitle.join(" ")).toMatch(/^Healthy: /);
-      const axes = (vg.axes ?? []).filter((a) => a.title !== undefined);
-      expect(axes.length).toBeGreaterThanOrEqual(2);
-      for (const a of axes) expect(String(a.title)).toMatch(/\(.+\)/);
+      expectWellFormedFigure(figureSpec(d, { forPrint: true }));
       // the browser's form too: rows read from the named dataset, width from the frame
       expect(() => compile(figureSpec(d, { width: "container", inlineRows: false }))).not.toThrow();
     });

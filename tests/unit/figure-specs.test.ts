@@ -3,6 +3,7 @@
 // like, titled axes and hover details naming the subject. Built on the demo study's primary
 // model (chg ~ arm + base + stratum + region + sex + age on the full analysis set).
 import { describe, expect, it } from "vitest";
+import { expectWellFormedFigure, titleOf } from "../support/figure-checks";
 import { compile, type TopLevelSpec } from "vega-lite";
 import { generateDemoDataset } from "~/.server/demo/demo-dataset";
 import { blomQuantiles, figureData, FigureUnavailableError } from "~/.server/reruns/figure-data.server";
@@ -52,10 +53,6 @@ function tooltipOf(spec: TopLevelSpec, layer: Layer): { field: string; title: st
   return key ? (tips[key] ?? []) : [];
 }
 
-function titleOf(spec: TopLevelSpec): { text: string; subtitle: string[] } {
-  return (spec as unknown as { title: { text: string; subtitle: string[] } }).title;
-}
-
 describe("diagnostic figure specifications", () => {
   for (const [figure, term] of FIGURES) {
     const name = `${figure}${term ? ` (${term})` : ""}`;
@@ -63,15 +60,7 @@ describe("diagnostic figure specifications", () => {
       const data: FigureData = figureData(doc, figure, { term, withSubjectIds: true, table });
       expect(data.rows.length).toBe(result.n);
       const spec = figureSpec(data, { forPrint: true });
-      const vg = compile(spec).spec;
-      expect(vg.marks?.length ?? 0).toBeGreaterThan(0);
-      const t = titleOf(spec);
-      expect(t.text.length).toBeGreaterThan(5);
-      expect(t.subtitle.join(" ")).toMatch(/^Healthy: /);
-      // the compiled axes carry titles with units in brackets
-      const axes = (vg.axes ?? []).filter((a) => a.title !== undefined);
-      expect(axes.length).toBeGreaterThanOrEqual(2);
-      for (const a of axes) expect(String(a.title)).toMatch(/\(.+\)/);
+      expectWellFormedFigure(spec);
       // the layers of subjects (the figure's rows, no data of their own) name the subject on hover
       const withTooltip = layersOf(spec).filter((l) => tooltipOf(spec, l).length > 0 && !l.data);
       expect(withTooltip.length).toBeGreaterThan(0);

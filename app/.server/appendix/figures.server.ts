@@ -8,7 +8,8 @@
 import { createHash } from "node:crypto";
 import { Resvg, type ResvgRenderOptions } from "@resvg/resvg-js";
 import * as vega from "vega";
-import { compile, type TopLevelSpec } from "vega-lite";
+import type { TopLevelSpec } from "vega-lite";
+import { toVega } from "../figures/compile.server";
 import { FONT_FAMILY, notoSans } from "./fonts.server";
 
 export interface RenderedFigure {
@@ -25,8 +26,7 @@ export const PNG_SCALE = 2;
 /** Vega-Lite to SVG. aria off (smaller SVG; the appendix carries its own alt text). */
 export async function specToSvg(spec: TopLevelSpec): Promise<string> {
   const withFont = { ...spec, config: { ...(spec.config ?? {}), font: FONT_FAMILY, aria: false } } as TopLevelSpec;
-  // Vega-Lite's warnings about merged legends are not problems of the figure: keep them out of the log.
-  const compiled = compile(withFont, { logger: vega.logger(vega.Error) }).spec;
+  const compiled = toVega(withFont);
   const view = new vega.View(vega.parse(compiled), { renderer: "none" });
   try {
     return await view.toSVG();

@@ -4,6 +4,7 @@
  * that draw them live in app/components/figures/specs.ts; the same rows feed the browser and the
  * appendix.
  */
+import { quantileSorted } from "d3-array";
 import type {
   BinnedResidualRow,
   CalibrationRow,
@@ -22,7 +23,7 @@ import { normalQuantile } from "~/engine/distributions";
 import { loessCurve, type SmoothPoint } from "~/engine/loess";
 import type { GlmResult, ModelResult } from "~/engine";
 import type { RerunDocument } from "./reruns.server";
-import { axisBins, blockMaxima, boxSummaries, densityCells, qqKept } from "./figure-summaries.server";
+import { axisBins, blockMaxima, boxSummaries, densityCells, qqKept, round } from "./figure-summaries.server";
 
 /** Cells as text by column, with the 1-based data row of each row (the engine's table input). */
 export interface FigureTable {
@@ -47,10 +48,6 @@ export interface FigureOptions {
 /** A figure that cannot be drawn for this rerun; the message says why. */
 export class FigureUnavailableError extends Error {}
 
-/** Six significant digits: plenty for drawing and hover, a smaller answer for large reruns. */
-function round(v: number): number {
-  return Number.isFinite(v) ? Number(v.toPrecision(6)) : v;
-}
 
 /** A deterministic offset in [−1, 1] from the data row (strips must not move between renders). */
 export function jitterOf(row: number): number {
@@ -164,12 +161,9 @@ export function blomQuantiles(n: number): number[] {
   return Array.from({ length: n }, (_, k) => normalQuantile((k + 1 - 0.375) / (n + 0.25)));
 }
 
-function quantileOfSorted(sorted: readonly number[], p: number): number {
-  // type 7 (linear interpolation between order statistics), Hyndman and Fan 1996
-  const h = (sorted.length - 1) * p;
-  const lo = Math.floor(h);
-  const hi = Math.min(sorted.length - 1, lo + 1);
-  return sorted[lo] + (h - lo) * (sorted[hi] - sorted[lo]);
+/** Type 7 quantile (linear interpolation between order statistics, Hyndman and Fan 1996), as the box summaries. */
+function quantileOfSorted(sorted: number[], p: number): number {
+  return quantileSorted(sorted, p) ?? NaN;
 }
 
 /** The figures' smoother: loess, span 0.5, on a grid of 120 points, rounded like the rows. */

@@ -7,8 +7,8 @@
 import { extent, quantileSorted } from "d3-array";
 import type { BoxSummary, DensityCell, InfluenceBlock } from "~/components/figures/specs";
 
-/** Six significant digits, as the figures' rows. */
-function round(v: number): number {
+/** Six significant digits: plenty for drawing and hover, a smaller answer for large reruns (every figure's numbers). */
+export function round(v: number): number {
   return Number.isFinite(v) ? Number(v.toPrecision(6)) : v;
 }
 

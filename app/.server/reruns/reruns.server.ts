@@ -318,6 +318,8 @@ export async function listReruns(studyId: string): Promise<RerunListing[]> {
  */
 const parsedResults = new LRUCache<string, RerunDocument>({ max: 16 });
 
+const resultKey = (id: string, resultSha256: string | null) => `${id}:${resultSha256 ?? ""}`;
+
 function deepFreeze<T>(value: T): T {
   if (value && typeof value === "object" && !Object.isFrozen(value)) {
     Object.freeze(value);
@@ -329,7 +331,7 @@ function deepFreeze<T>(value: T): T {
 /** The stored result of a rerun row, parsed once per result hash (read-only). */
 export function rerunDocumentOf(row: { id: string; resultJson: string | null; resultSha256: string | null }): RerunDocument | null {
   if (!row.resultJson) return null;
-  const key = `${row.id}:${row.resultSha256 ?? ""}`;
+  const key = resultKey(row.id, row.resultSha256);
   const cached = parsedResults.get(key);
   if (cached) return cached;
   const doc = deepFreeze(JSON.parse(row.resultJson) as RerunDocument);
@@ -355,7 +357,7 @@ export async function getRerun(studyId: string, rerunId: string) {
   if (!row) throw data({ message: "There is no such rerun in this study." }, { status: 404 });
   let doc: RerunDocument | null = null;
   if (row.r.status === "completed" && row.r.resultSha256) {
-    doc = parsedResults.get(`${row.r.id}:${row.r.resultSha256}`) ?? null;
+    doc = parsedResults.get(resultKey(row.r.id, row.r.resultSha256)) ?? null;
     if (!doc) {
       // a 10 000-subject result is several MB: read it only when it is not parsed yet
       const [stored] = await db.select({ resultJson: t.reruns.resultJson }).from(t.reruns).where(eq(t.reruns.id, row.r.id));
