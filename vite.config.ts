@@ -5,4 +5,6 @@ import { defineConfig } from "vite";
 export default defineConfig({
   plugins: [tailwindcss(), reactRouter()],
   resolve: { tsconfigPaths: true },
+  // the figure worker (app/components/figures/figure-worker.ts) loads Vega as a separate chunk
+  worker: { format: "es" },
 });

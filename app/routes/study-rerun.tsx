@@ -3,7 +3,8 @@ import { Form, Link, redirect, useNavigation, useRevalidator } from "react-route
 import { z } from "zod";
 import type { Route } from "./+types/study-rerun";
 import { CAUTION, Caution } from "~/components/caution";
-import { RerunFigure } from "~/components/figures/rerun-figure";
+import { figureUrl, RerunFigure } from "~/components/figures/rerun-figure";
+import { FigureFramesReady, FigureWorkerStart } from "~/components/figures/figure-worker-start";
 import { SensitivityForest, type ForestRow } from "~/components/figures/sensitivity-forest";
 import { forestSpec } from "~/components/figures/specs";
 import { toVega } from "~/.server/figures/compile.server";
@@ -20,6 +21,7 @@ import { getPlannedModel } from "~/.server/plans/plans.server";
 import { SENSITIVITY_KINDS, SENSITIVITY_LABELS, type PlannedSensitivity } from "~/.server/plans/planned-model";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { Assessment, assessFinding, canSign, FindingConflict, findingsOf, recordDeviation, signaturesOf, signRerun } from "~/.server/reruns/findings.server";
+import type { FigureKey } from "~/engine/checks";
 import type { RerunOptions } from "~/.server/reruns/rerun-options";
 import { reportedContrasts, rerunView, withoutSubjectNames } from "~/.server/reruns/rerun-view.server";
 import { getRerun, rerunDocumentOf, sameInputReruns, sensitivityReruns, startRerun, type RerunDocument } from "~/.server/reruns/reruns.server";
@@ -256,6 +258,21 @@ function AssessmentForm({ intent, findingId, errors, busy }: { intent: "assess" 
   );
 }
 
+type PageView = NonNullable<Route.ComponentProps["loaderData"]["view"]>;
+
+/** The covariate a check's figure is drawn for, when the figure is by covariate. */
+const checkTerm = (view: PageView, figure: FigureKey) => (figure === "residuals_covariate" || figure === "partial_residuals" ? view.continuousTerms[0] : undefined);
+
+/** The results page's figure addresses in page order (keep in step with the figures below), for the figure worker to fetch early. */
+function pageFigureUrls(view: PageView, studyId: string, rerunId: string): string[] {
+  const figures: { figure: FigureKey; term?: string }[] = [
+    ...view.checks.map((c) => ({ figure: c.figure, term: checkTerm(view, c.figure) })),
+    ...view.continuousTerms.map((term) => ({ figure: "partial_residuals" as const, term })),
+    ...(view.kind === "glm" && view.family === "binomial" ? [{ figure: "binned_residuals" as const }, { figure: "calibration" as const }] : []),
+  ];
+  return [...new Set(figures.map((f) => figureUrl(studyId, rerunId, f.figure, f.term)))];
+}
+
 export default function RerunPage({ loaderData, actionData }: Route.ComponentProps) {
   const { rerun, view, findings, can, studyId, comparison } = loaderData;
   const navigation = useNavigation();
@@ -352,6 +369,7 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
 
       {view ? (
         <div className="space-y-6">
+          <FigureWorkerStart figures={pageFigureUrls(view, studyId, rerun.id)} />
           <section aria-labelledby="rows-h">
             <h2 id="rows-h" className="mb-2">
               Rows
@@ -409,7 +427,7 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
               {view.checks.filter((c) => c.outcome === "not_computed").length} not computed
             </p>
             {view.checks.map((c) => (
-              <CheckCard key={c.key} check={c} figure={<RerunFigure studyId={studyId} rerunId={rerun.id} figure={c.figure} term={c.figure === "residuals_covariate" || c.figure === "partial_residuals" ? view.continuousTerms[0] : undefined} />} />
+              <CheckCard key={c.key} check={c} figure={<RerunFigure studyId={studyId} rerunId={rerun.id} figure={c.figure} term={checkTerm(view, c.figure)} />} />
             ))}
             <article className="panel p-4">
               <h3 className="mb-2 text-base font-semibold">Partial residuals</h3>
@@ -442,6 +460,8 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
               ) : null}
             </section>
           ) : null}
+          {/* after the last figure frame: the worker started above draws them while the page's scripts load */}
+          <FigureFramesReady />
         </div>
       ) : null}
 

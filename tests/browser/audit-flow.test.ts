@@ -112,6 +112,8 @@ describe("from plan to signature", () => {
     const states = await drawAllFigures(page);
     expect(states.length).toBeGreaterThanOrEqual(10);
     expect(states.every((s) => s === "ready")).toBe(true);
+    // drawn off the main thread, by the figure worker the page's HTML starts (figure-worker-start.tsx)
+    expect(await page.evaluate(() => performance.getEntriesByType("resource").some((r) => /\/figure-worker-[\w-]+\.js$/.test(r.name)))).toBe(true);
     // a linear model has no binomial fit figures
     expect(await page.getByRole("region", { name: "Fit of the binomial model" }).count()).toBe(0);
     const tip = await hoverForSubject(page, "residuals_fitted");

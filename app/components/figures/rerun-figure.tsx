@@ -1,17 +1,14 @@
 import { useEffect, useRef, useState } from "react";
-import { preload } from "react-dom";
-import type { Spec } from "vega";
 import type { FigureKey } from "~/engine/checks";
-import { drawChart, loadChartLibrary, withDataset } from "./draw-chart";
-import { rewrapTitle, type FigureData } from "./specs";
+import { drawChart, loadChartLibrary } from "./draw-chart";
+import { fetchAnswer, FigureRefused, figureBitmap, showBitmap, whenAllDrawn } from "./figure-bitmaps";
+import { figureLabel, FRAME_URL_ATTRIBUTE, specForFrame, TARGET_ATTRIBUTE } from "./frame-spec";
 
 /** The frame's height: fixed, so the page does not move when the chart arrives. */
 export const FIGURE_FRAME_HEIGHT = 440;
 
-/** The figures route's answer: the figure compiled to Vega, reading its rows from the dataset "rows". */
-type FigureAnswer = { caution: string; spec: Spec; data: FigureData } | { caution: string; message: string };
-
 type State = { kind: "loading" } | { kind: "ready"; label: string } | { kind: "error"; message: string };
+type Size = { width: number; height: number };
 
 /** Where the results page fetches a figure from. */
 export function figureUrl(studyId: string, rerunId: string, figure: FigureKey, term?: string): string {
@@ -19,113 +16,101 @@ export function figureUrl(studyId: string, rerunId: string, figure: FigureKey, t
   return term ? `${base}?term=${encodeURIComponent(term)}` : base;
 }
 
-/**
- * One request per figure address for the page's lifetime: several checks show the same figure
- * (Cook's distance, DFBETAS and DFFITS all show influence by subject), and the first request
- * reuses the preload the server's HTML started.
- */
-const answers = new Map<string, Promise<FigureAnswer | { caution: string; message: string }>>();
-
-function fetchAnswer(url: string): Promise<FigureAnswer | { caution: string; message: string }> {
-  let pending = answers.get(url);
-  if (!pending) {
-    pending = fetch(url)
-      .then(async (res) => {
-        const body = (await res.json().catch(() => null)) as FigureAnswer | null;
-        if (res.ok && body && "spec" in body) return body;
-        // a refusal is not kept: the next mount (after the reader fixes the cause) asks again
-        answers.delete(url);
-        return { caution: body?.caution ?? "", message: body && "message" in body ? body.message : `The figure could not be loaded (HTTP ${res.status}). Reload the page to try again.` };
-      })
-      .catch(() => {
-        answers.delete(url);
-        return { caution: "", message: "The figure could not be loaded. Check the connection and reload the page." };
-      });
-    answers.set(url, pending);
-  }
-  return pending;
-}
-
-/** The figure's name and its healthy-picture sentence, for the frame's accessible name. */
-function labelOf(spec: Spec): string {
-  const title = (spec as { title?: { text?: unknown; subtitle?: unknown } }).title;
-  const text = typeof title?.text === "string" ? title.text : "Diagnostic figure";
-  const subtitle = Array.isArray(title?.subtitle) ? title.subtitle.join(" ") : "";
-  return `${text}. ${subtitle}`.trim();
+/** Lets the pointer's last position reach a view drawn under it, so its hover details show without another move. */
+function replayPointer(container: HTMLElement, at: { x: number; y: number } | null): void {
+  const canvas = container.querySelector("canvas");
+  if (!canvas || !at) return;
+  const init = { clientX: at.x, clientY: at.y, bubbles: true };
+  canvas.dispatchEvent(new PointerEvent("pointermove", init));
+  canvas.dispatchEvent(new MouseEvent("mousemove", init));
 }
 
 /**
- * One diagnostic figure of a rerun, drawn in the browser from data fetched from the figures
- * resource route, so the page paints before the charts. The server's HTML already asks the
- * browser to preload the figure's data (React's preload), and the charting code starts loading
- * when the figure mounts (draw-chart.ts); the figure is drawn when its frame comes near the
- * viewport. From DENSE_FROM subjects the server sends a density and the subjects worth naming
- * instead of every point.
+ * One diagnostic figure of a rerun, drawn from data fetched from the figures resource route, so
+ * the page paints before the charts. From DENSE_FROM subjects the server sends a density and the
+ * subjects worth naming instead of every point.
  *
- * Figures draw on canvas: measured with `npm run bench:figures`, thirteen SVG figures spent
- * about a fifth more main-thread time in the browser's own layout and painting. A canvas has no
- * marks for assistive technology, so the frame carries the figure's title and healthy-picture
- * sentence as its accessible name; the check card beside it states the numbers in words.
+ * The figure is first drawn in a worker and shown as a picture (figure-bitmaps.ts); the results
+ * page starts that worker from its HTML (FigureWorkerStart). When the pointer comes to the
+ * figure, a live Vega view with hover details is drawn in its place, with the same pixels.
+ * Without a worker the live view is drawn at once. Figures draw on canvas: measured
+ * with `npm run bench:figures`, thirteen SVG figures spent about a fifth more main-thread time in
+ * the browser's own layout and painting. A canvas has no marks for assistive technology, so the
+ * frame carries the figure's title and healthy-picture sentence as its accessible name; the
+ * check card beside it states the numbers in words.
  */
 export function RerunFigure({ studyId, rerunId, figure, term }: { studyId: string; rerunId: string; figure: FigureKey; term?: string }) {
   const url = figureUrl(studyId, rerunId, figure, term);
-  // a hint in the server's HTML: the data is on its way while the page's scripts load
-  preload(url, { as: "fetch", crossOrigin: "anonymous" });
-  const frame = useRef<HTMLDivElement>(null);
   const target = useRef<HTMLDivElement>(null);
+  const pointer = useRef<{ x: number; y: number } | null>(null);
   const [state, setState] = useState<State>({ kind: "loading" });
-  const [near, setNear] = useState(false);
-  const [answer, setAnswer] = useState<FigureAnswer | null>(null);
+  const [size, setSize] = useState<Size | null>(null);
+  const [live, setLive] = useState(false);
 
-  // the data and the charting code, fetched at once
+  // the frame's size now and after the window is resized (a live view follows the window itself)
   useEffect(() => {
-    void loadChartLibrary().catch(() => undefined); // a failure shows when the figure is drawn
-    let cancelled = false;
-    setAnswer(null);
-    setState({ kind: "loading" });
-    void fetchAnswer(url).then((body) => {
-      if (cancelled) return;
-      if ("spec" in body) setAnswer(body);
-      else setState({ kind: "error", message: body.message });
+    const el = target.current;
+    if (!el) return;
+    const measure = () => setSize((s) => (s && s.width === el.clientWidth && s.height === el.clientHeight ? s : { width: el.clientWidth, height: el.clientHeight }));
+    measure();
+    if (typeof ResizeObserver === "undefined") return;
+    let timer: ReturnType<typeof setTimeout> | undefined;
+    const observer = new ResizeObserver(() => {
+      clearTimeout(timer);
+      timer = setTimeout(measure, 150);
     });
+    observer.observe(el);
+    return () => {
+      observer.disconnect();
+      clearTimeout(timer);
+    };
+  }, []);
+
+  // the picture, drawn in the worker at the frame's size
+  useEffect(() => {
+    const el = target.current;
+    if (live || !size || !el || size.width === 0) return;
+    let cancelled = false;
+    figureBitmap(url, size.width, size.height).then(
+      (drawn) => {
+        if (cancelled) return;
+        showBitmap(el, drawn);
+        setState({ kind: "ready", label: drawn.label });
+        // the live view's code, ready for the first hover (its data is fetched when the pointer comes)
+        whenAllDrawn(() => void loadChartLibrary().catch(() => undefined));
+      },
+      (e: unknown) => {
+        if (cancelled) return;
+        if (e instanceof FigureRefused) setState({ kind: "error", message: e.message });
+        else setLive(true); // no worker here, or it failed: draw on the page
+      },
+    );
     return () => {
       cancelled = true;
     };
-  }, [url]);
+  }, [url, size, live]);
 
-  // draw when the frame comes near the viewport: a results page with many figures stays responsive
+  // the live view, when the pointer comes (or when there is no worker)
   useEffect(() => {
-    const el = frame.current;
-    if (!el || typeof IntersectionObserver === "undefined") {
-      setNear(true);
-      return;
-    }
-    const io = new IntersectionObserver((entries) => {
-      if (entries.some((e) => e.isIntersecting)) {
-        setNear(true);
-        io.disconnect();
-      }
-    }, { rootMargin: "400px 0px" });
-    io.observe(el);
-    return () => io.disconnect();
-  }, []);
-
-  useEffect(() => {
-    if (!near || !answer || !("spec" in answer) || !target.current) return;
+    const el = target.current;
+    if (!live || !el) return;
     let cancelled = false;
     let finalize: (() => void) | undefined;
-    // the server wrapped the subtitle for a typical width; wrap it again for this frame
-    const spec = withDataset(rewrapTitle(answer.spec, target.current.clientWidth), "rows", answer.data.rows);
-    (async () => {
-      // a canvas does not redraw when a font arrives: wait for the page's fonts first
-      await document.fonts?.ready;
-      if (cancelled || !target.current) return;
-      const remove = await drawChart(target.current, spec, "canvas");
-      if (cancelled) remove();
-      else {
-        finalize = remove;
-        setState({ kind: "ready", label: labelOf(spec) });
-      }
+    void (async () => {
+      const answer = await fetchAnswer(url);
+      if (cancelled) return;
+      if (!("spec" in answer)) return setState({ kind: "error", message: answer.message });
+      const spec = specForFrame(answer, el.clientWidth);
+      // drawn beside the picture, which goes once the view has drawn the same pixels over it
+      const host = document.createElement("div");
+      host.className = "absolute inset-0";
+      el.append(host);
+      const remove = await drawChart(host, spec, "canvas");
+      if (cancelled) return remove();
+      finalize = remove;
+      for (const child of [...el.children]) if (child !== host) child.remove();
+      setState({ kind: "ready", label: figureLabel(spec) });
+      replayPointer(host, pointer.current);
     })().catch((e: unknown) => {
       if (!cancelled) setState({ kind: "error", message: e instanceof Error ? `The figure could not be drawn: ${e.message}` : "The figure could not be drawn." });
     });
@@ -133,12 +118,28 @@ export function RerunFigure({ studyId, rerunId, figure, term }: { studyId: strin
       cancelled = true;
       finalize?.();
     };
-  }, [near, answer]);
+  }, [url, live]);
 
+  const frameAttributes = { [FRAME_URL_ATTRIBUTE]: url };
   return (
-    <div ref={frame} className="panel relative w-full overflow-hidden p-3" style={{ height: FIGURE_FRAME_HEIGHT }} data-figure={figure} data-term={term} data-state={state.kind}>
+    <div
+      className="panel relative w-full overflow-hidden p-3"
+      style={{ height: FIGURE_FRAME_HEIGHT }}
+      data-figure={figure}
+      data-term={term}
+      data-state={state.kind}
+      {...frameAttributes}
+      onPointerEnter={(e) => {
+        pointer.current = { x: e.clientX, y: e.clientY };
+        if (state.kind === "ready") setLive(true);
+      }}
+      onPointerMove={(e) => {
+        pointer.current = { x: e.clientX, y: e.clientY };
+        if (state.kind === "ready" && !live) setLive(true);
+      }}
+    >
       <div className="h-full w-full" role="img" aria-label={state.kind === "ready" ? state.label : "Diagnostic figure, loading"}>
-        <div ref={target} className="h-full w-full" />
+        <div ref={target} className="relative h-full w-full" {...{ [TARGET_ATTRIBUTE]: "" }} />
       </div>
       {state.kind === "loading" ? (
         <p className="absolute inset-0 flex items-center justify-center text-xs text-ink-soft" role="status">

@@ -1,0 +1,94 @@
+/**
+ * Draws the results page's diagnostic figures off the page's main thread: a dedicated worker
+ * fetches each figure from the figures route, runs Vega headless on an OffscreenCanvas and
+ * answers an ImageBitmap, which the page shows (figure-bitmaps.ts).
+ *
+ * Why: measured with `npm run bench:figures`, a results page of thirteen figures spent about
+ * 0.5 s of main-thread time running Vega's dataflow and painting, after the page's own
+ * hydration, so all figures of a 10 000-subject rerun took 1.4–1.7 s. Here the drawing runs on
+ * another core while the page hydrates; the page starts this worker while its HTML is still
+ * being read (figure-worker-start.tsx). The page makes a live Vega view (hover details) only when
+ * the pointer comes to a figure (rerun-figure.tsx), and that view draws the same pixels: same
+ * specification, size, fonts and pixel ratio.
+ *
+ * Vega has no worker mode of its own: it makes its canvases, including the one it measures text
+ * with, through document.createElement, so the worker gives it a document that makes
+ * OffscreenCanvases. That must be in place before Vega's modules evaluate, hence the dynamic
+ * imports.
+ */
+import type { Spec } from "vega";
+import regular from "@fontsource/noto-sans/files/noto-sans-latin-400-normal.woff2?url";
+import semibold from "@fontsource/noto-sans/files/noto-sans-latin-600-normal.woff2?url";
+import bold from "@fontsource/noto-sans/files/noto-sans-latin-700-normal.woff2?url";
+import { figureLabel, specForFrame, type DrawAnswer, type DrawRequest, type FigureAnswer, type FigureRefusal, type PrefetchRequest } from "./frame-spec";
+
+interface WorkerScope {
+  document?: unknown;
+  fonts?: FontFaceSet;
+  postMessage(message: DrawAnswer, transfer?: Transferable[]): void;
+  onmessage: ((event: MessageEvent<DrawRequest | PrefetchRequest>) => void) | null;
+}
+const scope = globalThis as unknown as WorkerScope;
+
+scope.document ??= { createElement: (tag: string) => (tag === "canvas" ? new OffscreenCanvas(1, 1) : null) };
+
+/** The faces the figures draw in (specs.ts: text 400, titles 600, Vega's axis titles bold). */
+async function loadFonts(): Promise<void> {
+  const faces = [new FontFace("Noto Sans", `url(${regular})`, { weight: "400" }), new FontFace("Noto Sans", `url(${semibold})`, { weight: "600" }), new FontFace("Noto Sans", `url(${bold})`, { weight: "700" })];
+  await Promise.all(
+    faces.map(async (face) => {
+      scope.fonts?.add(await face.load());
+    }),
+  );
+}
+
+const library = Promise.all([import("vega"), import("vega-interpreter"), loadFonts()]);
+
+/** Each figure address is fetched once (two frames may show one figure at different sizes). */
+const answers = new Map<string, Promise<FigureAnswer | FigureRefusal>>();
+
+function fetchAnswer(url: string): Promise<FigureAnswer | FigureRefusal> {
+  let pending = answers.get(url);
+  if (!pending) {
+    pending = fetch(url).then(async (res) => {
+      const body = (await res.json().catch(() => null)) as FigureAnswer | FigureRefusal | null;
+      if (res.ok && body && "spec" in body) return body;
+      answers.delete(url);
+      return { caution: body?.caution ?? "", message: body && "message" in body ? body.message : `The figure could not be loaded (HTTP ${res.status}). Reload the page to try again.` };
+    });
+    pending.catch(() => answers.delete(url));
+    answers.set(url, pending);
+  }
+  return pending;
+}
+
+/** The figure at a fixed size: the page's figures take the size of their frame (Vega's containerSize), which a worker has not got. */
+function sized(spec: Spec, width: number, height: number): Spec {
+  const fixed: Record<string, number> = { width, height };
+  return { ...spec, signals: (spec.signals ?? []).map((s) => (s.name in fixed ? { name: s.name, value: fixed[s.name] } : s)) } as Spec;
+}
+
+async function draw(req: DrawRequest): Promise<void> {
+  const answer = await fetchAnswer(req.url).catch(() => ({ caution: "", message: "The figure could not be loaded. Check the connection and reload the page." }));
+  if (!("spec" in answer)) return scope.postMessage({ key: req.key, error: answer.message, refused: true });
+  const spec = specForFrame(answer, req.width);
+  const [vega, { expressionInterpreter }] = await library;
+  const view = new vega.View(vega.parse(sized(spec, req.width, req.height), undefined, { ast: true }), { renderer: "none", expr: expressionInterpreter as never });
+  try {
+    const canvas = (await view.toCanvas(req.scale)) as unknown as OffscreenCanvas;
+    const bitmap = canvas.transferToImageBitmap();
+    scope.postMessage({ key: req.key, bitmap, width: bitmap.width / req.scale, height: bitmap.height / req.scale, label: figureLabel(spec) }, [bitmap]);
+  } finally {
+    view.finalize();
+  }
+}
+
+// one figure at a time, in the order the page asked (page order: the first screen's figures first);
+// the data of all of them is asked for at once
+let turn: Promise<unknown> = Promise.resolve();
+
+scope.onmessage = ({ data }) => {
+  if ("prefetch" in data) return void fetchAnswer(data.prefetch).catch(() => undefined);
+  void fetchAnswer(data.url).catch(() => undefined);
+  turn = turn.then(() => draw(data).catch((e: unknown) => scope.postMessage({ key: data.key, error: e instanceof Error ? e.message : String(e), refused: false })));
+};

@@ -1,0 +1,61 @@
+/**
+ * What the results page and its figure worker share: the figures route's answer, how a figure's
+ * specification is made ready for a frame, and the messages between page and worker. Pure.
+ */
+import type { Spec } from "vega";
+import { rewrapTitle, type FigureData } from "./specs";
+
+/** The figures route's answer: the figure compiled to Vega, reading its rows from the dataset "rows". */
+export type FigureAnswer = { caution: string; spec: Spec; data: FigureData };
+/** The figures route's refusal (or a failed request), in words for the reader. */
+export type FigureRefusal = { caution: string; message: string };
+
+/** Replaces the values of the named dataset of a compiled specification (the rows travel apart from the spec). */
+export function withDataset(spec: Spec, name: string, values: readonly object[]): Spec {
+  return { ...spec, data: (spec.data ?? []).map((d) => (d.name === name ? { ...d, values: values as object[] } : d)) } as Spec;
+}
+
+/** The specification to draw in a frame `width` px wide: the subtitle wrapped again for it, the rows in place. */
+export function specForFrame(answer: FigureAnswer, width: number): Spec {
+  return withDataset(rewrapTitle(answer.spec, width), "rows", answer.data.rows);
+}
+
+/** The figure's name and its healthy-picture sentence, for the frame's accessible name. */
+export function figureLabel(spec: Spec): string {
+  const title = (spec as { title?: { text?: unknown; subtitle?: unknown } }).title;
+  const text = typeof title?.text === "string" ? title.text : "Diagnostic figure";
+  const subtitle = Array.isArray(title?.subtitle) ? title.subtitle.join(" ") : "";
+  return `${text}. ${subtitle}`.trim();
+}
+
+/**
+ * One figure drawn once per address, frame size (CSS px) and pixel ratio. The page's early start
+ * (figure-worker-start.tsx) writes the same key in its own words: keep the two alike.
+ */
+export function bitmapKey(url: string, width: number, height: number, scale: number): string {
+  return `${url} ${width}x${height}@${scale}`;
+}
+
+/** Page to worker: draw the figure at `url` for a frame of this size. */
+export interface DrawRequest {
+  key: string;
+  url: string;
+  width: number;
+  height: number;
+  scale: number;
+}
+
+/** Page to worker: fetch the figure at `url` now, its frame's size comes later. */
+export interface PrefetchRequest {
+  prefetch: string;
+}
+
+/** Worker to page: the picture and the frame's accessible name, or why there is none. */
+export type DrawAnswer =
+  | { key: string; bitmap: ImageBitmap; width: number; height: number; label: string }
+  /** `refused`: the figures route answered with a reason for the reader; otherwise the drawing failed. */
+  | { key: string; error: string; refused: boolean };
+
+/** The frames' markers in the page (rerun-figure.tsx), read before the page hydrates. */
+export const FRAME_URL_ATTRIBUTE = "data-figure-url";
+export const TARGET_ATTRIBUTE = "data-figure-target";
