@@ -23,7 +23,7 @@ declare global {
  * The first runs where the results page begins: it starts the figure worker, which loads Vega
  * and fetches every figure while the page's HTML is still being read.
  */
-function startWorker(url: string, figures: string[]): void {
+export function startWorker(url: string, figures: string[]): void {
   try {
     if (typeof OffscreenCanvas === "undefined" || typeof FontFace === "undefined" || typeof Worker === "undefined") return;
     const worker = new Worker(url, { type: "module", name: "figures" });
@@ -43,7 +43,7 @@ function startWorker(url: string, figures: string[]): void {
  * The second runs after the last figure frame: it asks the worker for each frame at the frame's
  * size. The key is frame-spec.ts's bitmapKey, written out again.
  */
-function askForFrames(frameAttribute: string, targetAttribute: string): void {
+export function askForFrames(frameAttribute: string, targetAttribute: string): void {
   const early = window.plumblineFigures;
   if (!early) return;
   const scale = window.devicePixelRatio || 1;
