@@ -116,6 +116,7 @@ function drawingWorker(): Worker | null {
     for (const w of waiting.values()) w.reject(new DrawingUnavailable("The figure worker stopped."));
     waiting.clear();
     worker?.terminate();
+    worker = null; // later figures are drawn on the page too
   };
   return worker;
 }
