@@ -11,30 +11,12 @@
  * (rerun-figure.tsx).
  */
 import workerUrl from "./figure-worker.ts?worker&url";
-import { bitmapKey, FRAME_URL_ATTRIBUTE, TARGET_ATTRIBUTE, type DrawAnswer, type DrawRequest, type FigureAnswer, type FigureRefusal } from "./frame-spec";
+import { bitmapKey, keptAnswer, FRAME_URL_ATTRIBUTE, TARGET_ATTRIBUTE, type DrawAnswer, type DrawRequest, type FigureAnswer, type FigureRefusal } from "./frame-spec";
 
 /** One request per figure address for the page's lifetime, for the live views (the worker fetches its own). */
 const answers = new Map<string, Promise<FigureAnswer | FigureRefusal>>();
 
-export function fetchAnswer(url: string): Promise<FigureAnswer | FigureRefusal> {
-  let pending = answers.get(url);
-  if (!pending) {
-    pending = fetch(url)
-      .then(async (res) => {
-        const body = (await res.json().catch(() => null)) as FigureAnswer | FigureRefusal | null;
-        if (res.ok && body && "spec" in body) return body;
-        // a refusal is not kept: the next mount (after the reader fixes the cause) asks again
-        answers.delete(url);
-        return { caution: body?.caution ?? "", message: body && "message" in body ? body.message : `The figure could not be loaded (HTTP ${res.status}). Reload the page to try again.` };
-      })
-      .catch(() => {
-        answers.delete(url);
-        return { caution: "", message: "The figure could not be loaded. Check the connection and reload the page." };
-      });
-    answers.set(url, pending);
-  }
-  return pending;
-}
+export const fetchAnswer = (url: string): Promise<FigureAnswer | FigureRefusal> => keptAnswer(answers, url);
 
 export interface FigureBitmap {
   bitmap: ImageBitmap;

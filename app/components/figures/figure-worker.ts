@@ -20,7 +20,7 @@ import type { Spec } from "vega";
 import regular from "@fontsource/noto-sans/files/noto-sans-latin-400-normal.woff2?url";
 import semibold from "@fontsource/noto-sans/files/noto-sans-latin-600-normal.woff2?url";
 import bold from "@fontsource/noto-sans/files/noto-sans-latin-700-normal.woff2?url";
-import { figureLabel, specForFrame, type DrawAnswer, type DrawRequest, type FigureAnswer, type FigureRefusal, type PrefetchRequest } from "./frame-spec";
+import { figureLabel, keptAnswer, specForFrame, type DrawAnswer, type DrawRequest, type FigureAnswer, type FigureRefusal, type PrefetchRequest } from "./frame-spec";
 
 interface WorkerScope {
   document?: unknown;
@@ -47,21 +47,6 @@ const library = Promise.all([import("vega"), import("vega-interpreter"), loadFon
 /** Each figure address is fetched once (two frames may show one figure at different sizes). */
 const answers = new Map<string, Promise<FigureAnswer | FigureRefusal>>();
 
-function fetchAnswer(url: string): Promise<FigureAnswer | FigureRefusal> {
-  let pending = answers.get(url);
-  if (!pending) {
-    pending = fetch(url).then(async (res) => {
-      const body = (await res.json().catch(() => null)) as FigureAnswer | FigureRefusal | null;
-      if (res.ok && body && "spec" in body) return body;
-      answers.delete(url);
-      return { caution: body?.caution ?? "", message: body && "message" in body ? body.message : `The figure could not be loaded (HTTP ${res.status}). Reload the page to try again.` };
-    });
-    pending.catch(() => answers.delete(url));
-    answers.set(url, pending);
-  }
-  return pending;
-}
-
 /** The figure at a fixed size: the page's figures take the size of their frame (Vega's containerSize), which a worker has not got. */
 function sized(spec: Spec, width: number, height: number): Spec {
   const fixed: Record<string, number> = { width, height };
@@ -69,7 +54,7 @@ function sized(spec: Spec, width: number, height: number): Spec {
 }
 
 async function draw(req: DrawRequest): Promise<void> {
-  const answer = await fetchAnswer(req.url).catch(() => ({ caution: "", message: "The figure could not be loaded. Check the connection and reload the page." }));
+  const answer = await keptAnswer(answers, req.url);
   if (!("spec" in answer)) return scope.postMessage({ key: req.key, error: answer.message, refused: true });
   const spec = specForFrame(answer, req.width);
   const [vega, { expressionInterpreter }] = await library;
@@ -88,7 +73,7 @@ async function draw(req: DrawRequest): Promise<void> {
 let turn: Promise<unknown> = Promise.resolve();
 
 scope.onmessage = ({ data }) => {
-  if ("prefetch" in data) return void fetchAnswer(data.prefetch).catch(() => undefined);
-  void fetchAnswer(data.url).catch(() => undefined);
+  if ("prefetch" in data) return void keptAnswer(answers, data.prefetch);
+  void keptAnswer(answers, data.url);
   turn = turn.then(() => draw(data).catch((e: unknown) => scope.postMessage({ key: data.key, error: e instanceof Error ? e.message : String(e), refused: false })));
 };

@@ -10,6 +10,30 @@ export type FigureAnswer = { caution: string; spec: Spec; data: FigureData };
 /** The figures route's refusal (or a failed request), in words for the reader. */
 export type FigureRefusal = { caution: string; message: string };
 
+/**
+ * Fetches a figure from the figures route, once per address while the answer is kept: a refusal
+ * or a failed request is not kept, so the next ask (after the reader fixes the cause) tries again.
+ * Never rejects; a failure is a refusal in words.
+ */
+export function keptAnswer(kept: Map<string, Promise<FigureAnswer | FigureRefusal>>, url: string): Promise<FigureAnswer | FigureRefusal> {
+  let pending = kept.get(url);
+  if (!pending) {
+    pending = fetch(url)
+      .then(async (res): Promise<FigureAnswer | FigureRefusal> => {
+        const body = (await res.json().catch(() => null)) as FigureAnswer | FigureRefusal | null;
+        if (res.ok && body && "spec" in body) return body;
+        kept.delete(url);
+        return { caution: body?.caution ?? "", message: body && "message" in body ? body.message : `The figure could not be loaded (HTTP ${res.status}). Reload the page to try again.` };
+      })
+      .catch(() => {
+        kept.delete(url);
+        return { caution: "", message: "The figure could not be loaded. Check the connection and reload the page." };
+      });
+    kept.set(url, pending);
+  }
+  return pending;
+}
+
 /** Replaces the values of the named dataset of a compiled specification (the rows travel apart from the spec). */
 export function withDataset(spec: Spec, name: string, values: readonly object[]): Spec {
   return { ...spec, data: (spec.data ?? []).map((d) => (d.name === name ? { ...d, values: values as object[] } : d)) } as Spec;
