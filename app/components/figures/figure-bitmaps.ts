@@ -11,7 +11,7 @@
  * (rerun-figure.tsx).
  */
 import workerUrl from "./figure-worker.ts?worker&url";
-import { bitmapKey, keptAnswer, FRAME_URL_ATTRIBUTE, TARGET_ATTRIBUTE, type DrawAnswer, type DrawRequest, type FigureAnswer, type FigureRefusal } from "./frame-spec";
+import { bitmapKey, keptAnswer, type DrawAnswer, type DrawRequest, type FigureAnswer, type FigureRefusal } from "./frame-spec";
 
 /** One request per figure address for the page's lifetime, for the live views (the worker fetches its own). */
 const answers = new Map<string, Promise<FigureAnswer | FigureRefusal>>();
@@ -129,10 +129,6 @@ export function showBitmap(container: HTMLElement, drawn: FigureBitmap): void {
   container.replaceChildren(canvas);
 }
 
-export { FRAME_URL_ATTRIBUTE, TARGET_ATTRIBUTE };
-
-// take over the worker the page's HTML started as soon as this module runs, so its pictures are not held in a queue
-if (typeof window !== "undefined" && window.plumblineFigures) drawingWorker();
 
 // take over the worker the page's HTML started as soon as this module runs, so its pictures are not held in a queue
 if (typeof window !== "undefined" && window.plumblineFigures) drawingWorker();

@@ -1,4 +1,4 @@
-import { useEffect, useRef, useState } from "react";
+import { useEffect, useRef, useState, type PointerEvent as ReactPointerEvent } from "react";
 import type { FigureKey } from "~/engine/checks";
 import { drawChart, loadChartLibrary } from "./draw-chart";
 import { fetchAnswer, FigureRefused, figureBitmap, showBitmap, whenAllDrawn } from "./figure-bitmaps";
@@ -20,9 +20,8 @@ export function figureUrl(studyId: string, rerunId: string, figure: FigureKey, t
 function replayPointer(container: HTMLElement, at: { x: number; y: number } | null): void {
   const canvas = container.querySelector("canvas");
   if (!canvas || !at) return;
-  const init = { clientX: at.x, clientY: at.y, bubbles: true };
-  canvas.dispatchEvent(new PointerEvent("pointermove", init));
-  canvas.dispatchEvent(new MouseEvent("mousemove", init));
+  // Vega shows hover details on pointermove (vega-scenegraph's TooltipShowEvent)
+  canvas.dispatchEvent(new PointerEvent("pointermove", { clientX: at.x, clientY: at.y, bubbles: true }));
 }
 
 /**
@@ -120,6 +119,11 @@ export function RerunFigure({ studyId, rerunId, figure, term }: { studyId: strin
     };
   }, [url, live]);
 
+  // where the pointer is, for the live view to show hover details there at once
+  const pointerCame = (e: ReactPointerEvent) => {
+    pointer.current = { x: e.clientX, y: e.clientY };
+    if (state.kind === "ready") setLive(true);
+  };
   const frameAttributes = { [FRAME_URL_ATTRIBUTE]: url };
   return (
     <div
@@ -129,14 +133,8 @@ export function RerunFigure({ studyId, rerunId, figure, term }: { studyId: strin
       data-term={term}
       data-state={state.kind}
       {...frameAttributes}
-      onPointerEnter={(e) => {
-        pointer.current = { x: e.clientX, y: e.clientY };
-        if (state.kind === "ready") setLive(true);
-      }}
-      onPointerMove={(e) => {
-        pointer.current = { x: e.clientX, y: e.clientY };
-        if (state.kind === "ready" && !live) setLive(true);
-      }}
+      onPointerEnter={pointerCame}
+      onPointerMove={pointerCame}
     >
       <div className="h-full w-full" role="img" aria-label={state.kind === "ready" ? state.label : "Diagnostic figure, loading"}>
         <div ref={target} className="relative h-full w-full" {...{ [TARGET_ATTRIBUTE]: "" }} />
