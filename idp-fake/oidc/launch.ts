@@ -9,6 +9,7 @@ import { createRequire } from "node:module";
 import path from "node:path";
 import { fileURLToPath, pathToFileURL } from "node:url";
 import type { OidcFakeOptions } from "./server";
+import { ownChild } from "../owned-child";
 
 export interface StartOidcFakeOptions {
   port: number;
@@ -57,11 +58,7 @@ export async function startOidcFake(opts: StartOidcFakeOptions): Promise<Running
   });
   child.stdout?.pipe(log);
   child.stderr?.pipe(log);
-  const exited = new Promise<void>((resolve) => child.once("exit", () => resolve()));
-  const killChild = (): void => {
-    if (child.exitCode === null) child.kill("SIGTERM");
-  };
-  process.once("exit", killChild);
+  const owned = ownChild(child);
 
   const issuerUrl = `http://${options.host.includes(":") ? `[${options.host}]` : options.host}:${options.port}`;
   const deadline = Date.now() + 20_000;
@@ -78,7 +75,7 @@ export async function startOidcFake(opts: StartOidcFakeOptions): Promise<Running
       // not listening yet
     }
     if (Date.now() > deadline) {
-      killChild();
+      owned.kill();
       throw new Error(`The fake OpenID Connect provider did not answer at ${issuerUrl} within 20 s; see ${logFile}.`);
     }
     await new Promise((r) => setTimeout(r, 150));
@@ -92,13 +89,7 @@ export async function startOidcFake(opts: StartOidcFakeOptions): Promise<Running
     async stop() {
       if (stopped) return;
       stopped = true;
-      process.removeListener("exit", killChild);
-      if (child.pid && child.exitCode === null) {
-        process.kill(child.pid, "SIGTERM");
-        const timer = setTimeout(() => child.exitCode === null && child.pid && process.kill(child.pid, "SIGKILL"), 3000);
-        await exited;
-        clearTimeout(timer);
-      }
+      await owned.stop();
       log.end();
     },
   };

@@ -19,6 +19,7 @@ import type { AddressInfo } from "node:net";
 import path from "node:path";
 import { fileURLToPath } from "node:url";
 import { demoPeople, pickerPage, type DemoPerson } from "./picker";
+import { ownChild } from "../owned-child";
 
 export interface SamlIdpOptions {
   /** Public port of the identity provider (the front). */
@@ -191,12 +192,7 @@ export async function startSamlIdp(opts: SamlIdpOptions): Promise<RunningSamlIdp
   );
   child.stdout?.pipe(log);
   child.stderr?.pipe(log);
-  const exited = new Promise<void>((resolve) => child.once("exit", () => resolve()));
-  // If this process ends without calling stop(), do not leave saml-idp running on its own.
-  const killChild = (): void => {
-    if (child.exitCode === null) child.kill("SIGTERM");
-  };
-  process.once("exit", killChild);
+  const owned = ownChild(child);
 
   const appOrigin = new URL(opts.acsUrl).origin;
   const front = http.createServer((req, res) => {
@@ -239,7 +235,7 @@ export async function startSamlIdp(opts: SamlIdpOptions): Promise<RunningSamlIdp
       front.listen(opts.port, host, () => resolve());
     });
   } catch (error) {
-    killChild();
+    owned.kill();
     const inUse = (error as NodeJS.ErrnoException).code === "EADDRINUSE";
     throw new Error(
       inUse
@@ -252,7 +248,7 @@ export async function startSamlIdp(opts: SamlIdpOptions): Promise<RunningSamlIdp
   try {
     await waitUntilAnswering(`http://127.0.0.1:${upstreamPort}/metadata`, child, logFile);
   } catch (error) {
-    killChild();
+    owned.kill();
     await new Promise<void>((r) => front.close(() => r()));
     throw error;
   }
@@ -267,13 +263,7 @@ export async function startSamlIdp(opts: SamlIdpOptions): Promise<RunningSamlIdp
     async stop() {
       if (stopped) return;
       stopped = true;
-      process.removeListener("exit", killChild);
-      if (child.pid && child.exitCode === null) {
-        process.kill(child.pid, "SIGTERM");
-        const timer = setTimeout(() => child.exitCode === null && child.pid && process.kill(child.pid, "SIGKILL"), 3000);
-        await exited;
-        clearTimeout(timer);
-      }
+      await owned.stop();
       front.closeAllConnections();
       await new Promise<void>((r) => front.close(() => r()));
       log.end();

@@ -10,6 +10,7 @@ import path from "node:path";
 import { createInterface } from "node:readline";
 import { fileURLToPath, pathToFileURL } from "node:url";
 import { inboxDirOf } from "./inbox";
+import { ownChild } from "../owned-child";
 
 export interface SmtpFakeOptions {
   /** SMTP port to listen on; 0 for a free one. */
@@ -42,20 +43,16 @@ export async function startSmtpFake(opts: SmtpFakeOptions): Promise<RunningSmtpF
     ["--import", tsx, path.join(here, "child.ts"), "--port", String(opts.port), "--host", host, "--state-dir", stateDir],
     { stdio: ["pipe", "pipe", "pipe"], env: { ...process.env, FORCE_COLOR: "0" } },
   );
-  const exited = new Promise<void>((resolve) => child.once("exit", () => resolve()));
   let stderr = "";
   child.stderr.setEncoding("utf8");
   child.stderr.on("data", (s: string) => {
     stderr += s;
   });
-  const killChild = (): void => {
-    if (child.exitCode === null) child.kill("SIGTERM");
-  };
-  process.once("exit", killChild);
+  const owned = ownChild(child);
 
   const smtpPort = await new Promise<number>((resolve, reject) => {
     const timer = setTimeout(() => {
-      killChild();
+      owned.kill();
       reject(new Error(`The SMTP fake did not start listening within 20 s. ${stderr.trim()}`));
     }, 20_000);
     const lines = createInterface({ input: child.stdout });
@@ -84,13 +81,7 @@ export async function startSmtpFake(opts: SmtpFakeOptions): Promise<RunningSmtpF
     async stop() {
       if (stopped) return;
       stopped = true;
-      process.removeListener("exit", killChild);
-      if (child.pid && child.exitCode === null) {
-        process.kill(child.pid, "SIGTERM");
-        const timer = setTimeout(() => child.exitCode === null && child.pid && process.kill(child.pid, "SIGKILL"), 3000);
-        await exited;
-        clearTimeout(timer);
-      }
+      await owned.stop();
     },
   };
 }
