@@ -1,6 +1,6 @@
 import { z } from "zod";
 import type { Route } from "./+types/study-appendix-download";
-import { appendixBytes, appendixFileName, appendixIsPublished, DOCX_TYPE, findAppendix } from "~/.server/appendix/appendix.server";
+import { appendixDownload, appendixIsPublished, findAppendix } from "~/.server/appendix/appendix.server";
 import { requireStudy } from "~/.server/study-access.server";
 
 const Query = z.union([z.object({ id: z.string().min(1) }), z.object({ rerun: z.string().min(1) })]);
@@ -19,15 +19,5 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   if (!allowed.has("rerun.view") && !(await appendixIsPublished(a))) {
     throw Response.json({ message: "This appendix covers a rerun that is not published to sponsor readers." }, { status: 404 });
   }
-  const bytes = await appendixBytes(a);
-  return new Response(new Uint8Array(bytes), {
-    headers: {
-      "Content-Type": DOCX_TYPE,
-      "Content-Length": String(bytes.length),
-      "Content-Disposition": `attachment; filename="${appendixFileName(a, study.code)}"`,
-      "Cache-Control": "private, no-store",
-      ETag: `"${a.sha256}"`,
-      "X-Content-SHA256": a.sha256,
-    },
-  });
+  return appendixDownload(a, study.code);
 }

@@ -4,8 +4,7 @@
  * read every rerun get every export; readers of published reports only exports whose reruns
  * are all published.
  */
-import { appendixBytes, appendixFileName, appendixIsPublished, DOCX_TYPE, findAppendix, listAppendices as storedAppendices } from "../appendix/appendix.server";
-import { CAUTION } from "~/components/caution";
+import { appendixDownload, appendixIsPublished, findAppendix, listAppendices as storedAppendices } from "../appendix/appendix.server";
 import { requireStudyForPrincipal } from "../study-access.server";
 import { ApiError } from "./respond.server";
 import type { AppendicesAnswer, Body } from "./schemas";
@@ -38,17 +37,5 @@ export async function appendixFile(p: ApiPrincipal, studyId: string, appendixId:
   const a = await findAppendix(study.id, { id: appendixId });
   // An export of an unpublished rerun does not exist for a reader who may see only published ones.
   if (!allowed.has("rerun.view") && !(await appendixIsPublished(a))) throw new ApiError("not_found", NOT_PUBLISHED);
-  const bytes = await appendixBytes(a);
-  return new Response(new Uint8Array(bytes), {
-    headers: {
-      "Content-Type": DOCX_TYPE,
-      "Content-Length": String(bytes.length),
-      "Content-Disposition": `attachment; filename="${appendixFileName(a, study.code)}"`,
-      "Cache-Control": "private, no-store",
-      ETag: `"${a.sha256}"`,
-      "X-Content-SHA256": a.sha256,
-      // A file has no JSON body for the caution: it travels in a header (and is printed in the document).
-      "X-Caution": CAUTION,
-    },
-  });
+  return appendixDownload(a, study.code);
 }

@@ -10,6 +10,7 @@ import { mkdir, readFile, rename, writeFile } from "node:fs/promises";
 import path from "node:path";
 import { and, desc, eq } from "drizzle-orm";
 import { data } from "react-router";
+import { CAUTION } from "~/components/caution";
 import { appendAudit, canonicalJson } from "../audit.server";
 import { config } from "../config.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
@@ -127,4 +128,24 @@ export async function appendixBytes(a: StoredAppendix): Promise<Buffer> {
 
 export function appendixFileName(a: StoredAppendix, studyCode: string): string {
   return `${studyCode}-appendix-${a.exportedAt.slice(0, 10)}-${a.sha256.slice(0, 8)}.docx`;
+}
+
+/**
+ * The stored file as a download, for the download page and the API alike: exactly the recorded
+ * bytes, named for the study, with the SHA-256 as ETag and in a header of its own. A file has no
+ * JSON body for the caution, so it travels in a header too (and is printed in the document).
+ */
+export async function appendixDownload(a: StoredAppendix, studyCode: string): Promise<Response> {
+  const bytes = await appendixBytes(a);
+  return new Response(new Uint8Array(bytes), {
+    headers: {
+      "Content-Type": DOCX_TYPE,
+      "Content-Length": String(bytes.length),
+      "Content-Disposition": `attachment; filename="${appendixFileName(a, studyCode)}"`,
+      "Cache-Control": "private, no-store",
+      ETag: `"${a.sha256}"`,
+      "X-Content-SHA256": a.sha256,
+      "X-Caution": CAUTION,
+    },
+  });
 }
