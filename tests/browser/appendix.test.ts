@@ -1,7 +1,9 @@
 /**
- * The medical writer exports the Word appendix in a real browser. It relies on the signed rerun
- * that tests/browser/audit-flow.test.ts leaves in the shared stack (that file runs earlier:
- * the app project runs its files one at a time, in name order).
+ * The medical writer exports the Word appendix in a real browser, of a signed rerun from
+ * tests/support/published-rerun-http.ts: the one tests/browser/audit-flow.test.ts signed in the
+ * shared stack when it ran first, or one made over HTTP when this file runs before it (vitest
+ * runs the app project's files one at a time, but in its own order: files that failed last
+ * time first).
  */
 import { createHash } from "node:crypto";
 import { readFileSync } from "node:fs";
@@ -9,12 +11,14 @@ import JSZip from "jszip";
 import type { Browser } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, inject, it } from "vitest";
 import { launchBrowser, screenshot, signInAs } from "../support/browser";
+import { ensurePublishedRerun } from "../support/published-rerun-http";
 import { sessionCookieFor, studyIdByCode, testDb } from "../support/sessions";
 
 const stack = inject("stack");
 let browser: Browser;
 
 beforeAll(async () => {
+  await ensurePublishedRerun(stack);
   browser = await launchBrowser();
 });
 afterAll(async () => {

@@ -5,8 +5,9 @@
  * study at all.
  *
  * The published rerun comes from tests/support/published-rerun-http.ts: the one
- * tests/browser/audit-flow.test.ts signed in the shared stack when it ran first (the app project
- * runs its files one at a time, in name order), or one it makes over HTTP when run alone.
+ * tests/browser/audit-flow.test.ts signed in the shared stack when it ran first, or one it makes
+ * over HTTP when it runs before it or alone (the app project runs its files one at a time, in
+ * vitest's order).
  */
 import type { Browser, Page } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, inject, it } from "vitest";
