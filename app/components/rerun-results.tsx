@@ -326,6 +326,12 @@ const OUTCOME: Record<CheckCardData["outcome"], { status: "within" | "finding" |
   not_computed: { status: "pending", word: "Not computed" },
 };
 
+/** How the planned checks came out, in words: "9 within plan · 2 findings · 0 not computed". */
+export function checkTally(checks: readonly { outcome: CheckCardData["outcome"] }[]): string {
+  const count = (outcome: CheckCardData["outcome"]) => checks.filter((c) => c.outcome === outcome).length;
+  return `${count("within")} within plan · ${count("finding")} findings · ${count("not_computed")} not computed`;
+}
+
 /** One planned check: statistic, threshold, outcome in word and shape, and the figure that supports it. */
 export function CheckCard({ check, figure }: { check: CheckCardData; figure?: ReactNode }) {
   const o = OUTCOME[check.outcome];

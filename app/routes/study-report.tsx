@@ -4,7 +4,7 @@ import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { Caution } from "~/components/caution";
 import { fmt, fmtCi, fmtP, utc } from "~/components/format";
 import { PageHeader } from "~/components/page";
-import { AdjustedMeansTable, CoefficientTable, ContrastsTable, SensitivityTable } from "~/components/rerun-results";
+import { AdjustedMeansTable, checkTally, CoefficientTable, ContrastsTable, SensitivityTable } from "~/components/rerun-results";
 import { StatusLabel } from "~/components/status";
 import { getReport } from "~/.server/reports/reports.server";
 import { requireStudy } from "~/.server/study-access.server";
@@ -122,8 +122,7 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
         <section aria-labelledby="checks-h" className="space-y-3">
           <h2 id="checks-h">Checks of the plan</h2>
           <p className="text-sm text-ink-soft">
-            {checks.filter((c) => c.outcome === "within").length} within plan · {checks.filter((c) => c.outcome === "finding").length} findings ·{" "}
-            {checks.filter((c) => c.outcome === "not_computed").length} not computed. Subjects are named by rank only.
+            {checkTally(checks)}. Subjects are named by rank only.
           </p>
           <div className="panel overflow-x-auto p-4">
             <table className="data-table">

@@ -11,7 +11,7 @@ import { toVega } from "~/.server/figures/compile.server";
 import { WhatIfPanel, type WhatIfInputs } from "~/components/figures/what-if-panel";
 import { fmt, fmtCi, fmtP, utc } from "~/components/format";
 import { FieldError, PageHeader } from "~/components/page";
-import { AdjustedMeansTable, CalibrationTable, CheckCard, CoefficientTable, ContrastsTable, MarginalMeansTable, RatioTable, SensitivityTable } from "~/components/rerun-results";
+import { AdjustedMeansTable, CalibrationTable, CheckCard, checkTally, CoefficientTable, ContrastsTable, MarginalMeansTable, RatioTable, SensitivityTable } from "~/components/rerun-results";
 import { StatusLabel } from "~/components/status";
 import { canonicalJson } from "~/.server/audit.server";
 import { loadLockedTable } from "~/.server/datasets/catalog.server";
@@ -423,8 +423,7 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
           <section aria-labelledby="checks-h" className="space-y-3">
             <h2 id="checks-h">Checks of the plan</h2>
             <p className="text-sm text-ink-soft">
-              {view.checks.filter((c) => c.outcome === "within").length} within plan · {view.checks.filter((c) => c.outcome === "finding").length} findings ·{" "}
-              {view.checks.filter((c) => c.outcome === "not_computed").length} not computed
+              {checkTally(view.checks)}
             </p>
             {view.checks.map((c) => (
               <CheckCard key={c.key} check={c} figure={<RerunFigure studyId={studyId} rerunId={rerun.id} figure={c.figure} term={checkTerm(view, c.figure)} />} />
