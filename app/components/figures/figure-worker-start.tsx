@@ -72,7 +72,9 @@ export function FigureWorkerStart({ figures }: { figures: string[] }) {
   return <InlineScript source={`(${startWorker.toString()})(${JSON.stringify(workerUrl)}, ${JSON.stringify(figures)});`} />;
 }
 
+const FRAMES_READY = `(${askForFrames.toString()})(${JSON.stringify(FRAME_URL_ATTRIBUTE)}, ${JSON.stringify(TARGET_ATTRIBUTE)});`;
+
 /** Placed after the results page's last figure frame. */
 export function FigureFramesReady() {
-  return <InlineScript source={`(${askForFrames.toString()})(${JSON.stringify(FRAME_URL_ATTRIBUTE)}, ${JSON.stringify(TARGET_ATTRIBUTE)});`} />;
+  return <InlineScript source={FRAMES_READY} />;
 }
