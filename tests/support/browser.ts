@@ -50,8 +50,8 @@ export async function signInAsSponsor(page: Page, appUrl: string, displayName: s
 }
 
 /**
- * Scrolls every diagnostic figure of a results page into view in turn (they draw as they come
- * near) and waits until each is drawn; returns the states in page order ("ready" or "error").
+ * Scrolls every diagnostic figure of a results page into view in turn, as a reader would, and
+ * waits until each is drawn; returns the states in page order ("ready" or "error").
  */
 export async function drawAllFigures(page: Page): Promise<string[]> {
   const frames = page.locator("[data-figure]");
