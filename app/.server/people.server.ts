@@ -192,17 +192,42 @@ export async function studyRoleOf(personId: string, studyId: string): Promise<St
 
 /**
  * Gives a person a role on a study (replacing any role they had there) or, with `role: null`,
- * removes them from the study. Audited with before and after.
+ * removes them from the study. Audited with before and after. Refuses (`RoleChangeRefused`) an
+ * unknown person or study (404) and a grant to oneself (403, audited).
  */
+export class RoleChangeRefused extends Error {
+  constructor(
+    readonly status: 400 | 403 | 404,
+    message: string,
+  ) {
+    super(message);
+    this.name = "RoleChangeRefused";
+  }
+}
+
 export async function setStudyRole(actor: Actor, studyId: string, personId: string, role: StudyRole | null): Promise<void> {
-  await writeTransaction(async (tx) => {
+  const outcome = await writeTransaction(async (tx): Promise<"self-grant" | "done"> => {
+    const [person] = await tx.select({ id: t.people.id }).from(t.people).where(eq(t.people.id, personId)).limit(1);
+    if (!person) throw new RoleChangeRefused(404, `There is no person with id ${personId.slice(0, 80)}; reload the page and choose someone from the list.`);
+    const [study] = await tx.select({ id: t.studies.id }).from(t.studies).where(eq(t.studies.id, studyId)).limit(1);
+    if (!study) throw new RoleChangeRefused(404, `There is no study with id ${studyId.slice(0, 80)}; reload the page and choose a study from the list.`);
+    if (role !== null && actor.id === personId) {
+      // Segregation of duties: nobody gives themselves a study role (an administrator could
+      // otherwise grant himself the biostatistician role and approve a plan). Another
+      // administrator grants it. Removing one's own role is allowed.
+      await appendAudit(
+        { actor, action: "membership.self_grant_refused", entityType: "person", entityId: personId, studyId, after: { role }, detail: "another administrator must grant this role" },
+        tx,
+      );
+      return "self-grant" as const;
+    }
     const [current] = await tx
       .select()
       .from(t.studyMemberships)
       .where(and(eq(t.studyMemberships.personId, personId), eq(t.studyMemberships.studyId, studyId)))
       .limit(1);
     const before = current?.role ?? null;
-    if (before === role) return;
+    if (before === role) return "done";
     if (current) await tx.delete(t.studyMemberships).where(eq(t.studyMemberships.id, current.id));
     if (role) {
       await tx.insert(t.studyMemberships).values({ id: newId(), studyId, personId, role, grantedBy: actor.id });
@@ -219,7 +244,11 @@ export async function setStudyRole(actor: Actor, studyId: string, personId: stri
       },
       tx,
     );
+    return "done";
   });
+  if (outcome === "self-grant") {
+    throw new RoleChangeRefused(403, "You cannot give yourself a role on a study: another administrator must grant it (segregation of duties). The attempt is recorded in the audit trail.");
+  }
 }
 
 /** Who works on a study, by role. */
