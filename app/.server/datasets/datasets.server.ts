@@ -15,6 +15,8 @@ import { primeColumnsCache, readColumnsFileCached, writeColumnsFile, type Parsed
 import { summariseChanges, type ChangeSummary } from "./diff";
 import { formatOf, parseDatasetFile, type DatasetFormat, type ParseOptions } from "./parse.server";
 import { screenColumns } from "./screen";
+import { isStorageError } from "../storage-errors.server";
+import { auditUploadRefusal, storageRefusal } from "./upload.server";
 import {
   absoluteStorePath,
   blobRelativePath,
@@ -89,6 +91,7 @@ async function parsedOf(v: DatasetVersionRow): Promise<ParsedColumns> {
  */
 export async function uploadDataset(actor: Actor, req: UploadRequest, progress: Progress = () => undefined): Promise<UploadResult> {
   let columnsWork: string | null = null;
+  const placed: string[] = [];
   try {
     await sweepLeftovers().catch(() => undefined);
     const head = Buffer.alloc(64);
@@ -134,8 +137,8 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
     await writeColumnsFile(columnsWork, parsed);
     const storedPath = blobRelativePath(req.sha256);
     const parsedPath = columnsRelativePath(req.sha256);
-    await moveIntoStore(req.workPath, storedPath);
-    await moveIntoStore(columnsWork, parsedPath);
+    if (await moveIntoStore(req.workPath, storedPath)) placed.push(storedPath);
+    if (await moveIntoStore(columnsWork, parsedPath)) placed.push(parsedPath);
     const saved = await writeTransaction(async (tx) => {
       let datasetId = existing?.id;
       if (!datasetId) {
@@ -210,6 +213,10 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
     primeColumnsCache(absoluteStorePath(parsedPath), { names: parsed.names, cells: parsed.cells, rowNumbers: parsed.rowNumbers });
     progress("store", 1);
     return { ok: true, ...saved, hits: hits.length, changes };
+  } catch (e) {
+    // Any failure (a reader that gave up, a full disk, a failed commit) is a refusal with nothing stored.
+    await removeUnreferenced(placed);
+    return await refuse(actor, req, [failureMessage(e, req.fileName)]);
   } finally {
     await removeQuietly(req.workPath);
     await removeQuietly(columnsWork);
@@ -217,15 +224,24 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
 }
 
 async function refuse(actor: Actor, req: UploadRequest, problems: string[]): Promise<UploadResult> {
-  await appendAudit({
-    actor,
-    action: "dataset.upload_refused",
-    entityType: "dataset",
-    studyId: req.studyId,
-    after: { dataset: req.datasetName, fileName: req.fileName, sha256: req.sha256, byteSize: req.byteSize },
-    detail: problems.slice(0, 5).join("\n"),
-  });
+  await auditUploadRefusal(actor, req.studyId, { dataset: req.datasetName, fileName: req.fileName, sha256: req.sha256, byteSize: req.byteSize }, problems);
   return { ok: false, problems };
+}
+
+/** The message of an upload that failed by an exception rather than a refusal of the reader. */
+function failureMessage(e: unknown, fileName: string): string {
+  if (isStorageError(e)) return storageRefusal(e, fileName).message;
+  console.error(`Upload of ${fileName} failed:`, e);
+  const why = e instanceof Error ? e.message : String(e);
+  return `Plumbline could not read ${fileName}: ${why}. Nothing was stored. Check the file (or save it again from its source) and upload it again.`;
+}
+
+/** Store files this upload put in place, unless another version refers to them meanwhile. */
+async function removeUnreferenced(placed: string[]): Promise<void> {
+  if (placed.length === 0) return;
+  const referenced = await referencedStorePaths().catch(() => null);
+  if (!referenced) return; // the sweep removes them later
+  for (const relative of placed) if (!referenced.has(relative)) await removeQuietly(absoluteStorePath(relative));
 }
 
 // ---------------------------------------------------------------------------------------------

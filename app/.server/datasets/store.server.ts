@@ -42,16 +42,18 @@ export async function newWorkPath(suffix: string): Promise<string> {
 
 /**
  * Moves a finished work file to its place in the store. The store is content-addressed: when
- * the target exists it already holds these very bytes, and the work file is dropped.
+ * the target exists it already holds these very bytes, and the work file is dropped. True when
+ * this call put a new file in the store (which the caller removes again if its upload fails).
  */
-export async function moveIntoStore(workPath: string, relative: string): Promise<void> {
+export async function moveIntoStore(workPath: string, relative: string): Promise<boolean> {
   const target = absoluteStorePath(relative);
   await mkdir(path.dirname(target), { recursive: true });
   if (existsSync(target)) {
     await rm(workPath, { force: true });
-    return;
+    return false;
   }
   await rename(workPath, target);
+  return true;
 }
 
 export async function removeQuietly(file: string | null | undefined): Promise<void> {
