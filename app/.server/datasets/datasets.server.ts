@@ -10,6 +10,7 @@ import { and, asc, desc, eq, inArray, isNull } from "drizzle-orm";
 import { stringify } from "csv-stringify/sync";
 import { appendAudit, type Actor } from "../audit.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
+import { withCategoricalHints } from "./categorical-hint";
 import type { ColumnMeta } from "./column-summary";
 import { primeColumnsCache, readColumnsFileCached, writeColumnsFile, type ParsedColumns } from "./columns-file.server";
 import { summariseChanges, type ChangeSummary } from "./diff";
@@ -336,7 +337,8 @@ export interface VersionDetail {
   datasetId: string;
   datasetName: string;
   version: VersionSummary;
-  columns: ColumnMeta[];
+  /** With `looksCategorical` where a numeric column looks like codes (categorical-hint.ts). */
+  columns: (ColumnMeta & { looksCategorical?: string })[];
   keyColumns: string[];
   hits: ScreenHitView[];
   latestVersion: number;
@@ -382,7 +384,7 @@ export async function getVersionDetail(studyId: string, versionId: string): Prom
     datasetId: d.id,
     datasetName: d.name,
     version: summaryOf(v, names, unresolved, new Map(all.map((a) => [a.id, a.version]))),
-    columns: JSON.parse(v.columnsJson) as ColumnMeta[],
+    columns: withCategoricalHints(JSON.parse(v.columnsJson) as ColumnMeta[]),
     keyColumns: JSON.parse(v.keyColumnsJson) as string[],
     hits: hits.map((h) => hitView(h, names)),
     latestVersion: Math.max(...all.map((a) => a.version)),
