@@ -120,7 +120,13 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
       }
     }
     progress("screen", 0);
-    const hits = screenColumns(parsed.names.map((name, j) => ({ name, type: parsed.columns[j].type, cells: parsed.cells[j] })));
+    const hits = screenColumns(
+      parsed.names.map((name, j) => {
+        // `format` is set by readers of files that declare one (SAS formats of transport files).
+        const meta = parsed.columns[j] as ColumnMeta & { format?: string | null };
+        return { name, type: meta.type, cells: parsed.cells[j], label: meta.label, format: meta.format ?? null };
+      }),
+    );
     const previous = existing ? await latestLocked(existing.id) : null;
     let changes: ChangeSummary | null = null;
     if (previous) {
