@@ -6,6 +6,8 @@ export interface EditorColumn {
   label: string | null;
   type: "number" | "text" | "date" | "datetime";
   levels?: { value: string; count: number }[];
+  /** Why a numeric column looks categorical; such a covariate needs an explicit choice. */
+  looksCategorical?: string;
 }
 
 interface EditorDataset {
@@ -36,7 +38,8 @@ export interface EditorForm {
   link: string;
   treatment: string;
   treatmentReference: string;
-  covariates: { variable: string; categorical: boolean; reference: string }[];
+  /** null: no explicit choice (a numeric column is then continuous unless it looks categorical). */
+  covariates: { variable: string; categorical: boolean | null; reference: string }[];
   interactions: string[][];
   weights: string;
   offset: string;
@@ -137,11 +140,11 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
 
   const toggleCovariate = (name: string, on: boolean) => {
     const next = new Map(covariates);
-    if (on) next.set(name, { variable: name, categorical: col(name)?.type !== "number", reference: "" });
+    if (on) next.set(name, { variable: name, categorical: col(name)?.type !== "number" ? true : null, reference: "" });
     else next.delete(name);
     setCovariates(next);
   };
-  const setCovariate = (name: string, patch: Partial<{ categorical: boolean; reference: string }>) => {
+  const setCovariate = (name: string, patch: Partial<{ categorical: boolean | null; reference: string }>) => {
     const next = new Map(covariates);
     const c = next.get(name);
     if (c) next.set(name, { ...c, ...patch });
@@ -199,7 +202,10 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
         </div>
       </Section>
 
-      <Section title="Pre-specified covariates" note="Tick each covariate the SAP names. Numeric columns are continuous unless marked categorical.">
+      <Section
+        title="Pre-specified covariates"
+        note="Tick each covariate the SAP names. Numeric columns are continuous unless marked categorical; a numeric column that looks categorical (codes, flags, groups) needs your choice either way."
+      >
         <table className="data-table">
           <thead>
             <tr>
@@ -226,16 +232,38 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
                     {c.label ? <span className="block text-xs text-ink-soft">{c.label}</span> : null}
                     <FieldError id={`cov-${c.name}-error`} message={err} />
                   </td>
-                  <td className="text-xs">{c.type}</td>
+                  <td className="text-xs">
+                    {c.type}
+                    {c.looksCategorical ? (
+                      <span className="block text-ink-soft" title={`Looks categorical: ${c.looksCategorical}`}>
+                        looks categorical ({c.looksCategorical})
+                      </span>
+                    ) : null}
+                  </td>
                   <td>
-                    {chosen && c.type === "number" ? (
-                      <input type="checkbox" aria-label={`Treat ${c.name} as categorical`} name={`categorical:${c.name}`} checked={chosen.categorical} onChange={(e) => setCovariate(c.name, { categorical: e.target.checked })} />
+                    {chosen && c.type === "number" && c.looksCategorical ? (
+                      <select
+                        aria-label={`How ${c.name} enters the model`}
+                        name={`as:${c.name}`}
+                        className="field w-auto py-1"
+                        aria-required="true"
+                        value={chosen.categorical === null ? "" : chosen.categorical ? "categorical" : "continuous"}
+                        onChange={(e) => setCovariate(c.name, { categorical: e.target.value === "" ? null : e.target.value === "categorical" })}
+                        aria-invalid={err ? true : undefined}
+                        aria-describedby={err ? `cov-${c.name}-error` : undefined}
+                      >
+                        <option value="">Choose…</option>
+                        <option value="categorical">Categorical</option>
+                        <option value="continuous">Continuous</option>
+                      </select>
+                    ) : chosen && c.type === "number" ? (
+                      <input type="checkbox" aria-label={`Treat ${c.name} as categorical`} name={`categorical:${c.name}`} checked={chosen.categorical === true} onChange={(e) => setCovariate(c.name, { categorical: e.target.checked ? true : null })} />
                     ) : chosen ? (
                       <span className="text-xs text-ink-soft">always</span>
                     ) : null}
                   </td>
                   <td>
-                    {chosen && (chosen.categorical || c.type !== "number") ? (
+                    {chosen && (chosen.categorical === true || c.type !== "number") ? (
                       <select aria-label={`Reference level of ${c.name}`} name={`reference:${c.name}`} className="field w-auto py-1" value={chosen.reference} onChange={(e) => setCovariate(c.name, { reference: e.target.value })}>
                         <option value="">First level</option>
                         {(c.levels ?? []).map((l) => (

@@ -4,6 +4,7 @@ import { PageHeader } from "~/components/page";
 import { PlannedModelEditor } from "~/components/planned-model-editor";
 import { CHECKS, defaultChecks } from "~/engine/checks";
 import { listLockedVersions } from "~/.server/datasets/catalog.server";
+import { withCategoricalHints } from "~/.server/datasets/categorical-hint";
 import { actorOf } from "~/.server/people.server";
 import { readPlannedModelForm, toForm, validatePlannedModel, type PlannedModelForm } from "~/.server/plans/planned-model";
 import { getPlanVersion, PlanConflict, savePlannedModel } from "~/.server/plans/plans.server";
@@ -18,7 +19,7 @@ async function datasetChoices(studyId: string) {
   const locked = await listLockedVersions(studyId);
   const latest = new Map<string, (typeof locked)[number]>();
   for (const v of locked) if ((latest.get(v.datasetName)?.version ?? 0) < v.version) latest.set(v.datasetName, v);
-  return [...latest.values()].map((v) => ({ name: v.datasetName, version: v.version, rowCount: v.rowCount, columns: v.columns }));
+  return [...latest.values()].map((v) => ({ name: v.datasetName, version: v.version, rowCount: v.rowCount, columns: withCategoricalHints(v.columns) }));
 }
 
 function blankForm(): PlannedModelForm {

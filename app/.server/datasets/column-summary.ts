@@ -3,6 +3,7 @@
  * Missing cells are empty, `NA` or `.`, as the engine reads them (app/engine/data.ts).
  */
 import { isMissingCell, orderLevels, parseNumber } from "../../engine/data";
+import { MAX_CODED_LEVELS } from "./categorical-hint";
 
 export type ColumnType = "number" | "text" | "date" | "datetime";
 
@@ -16,7 +17,11 @@ export interface ColumnMeta {
   max?: number;
   mean?: number;
   sd?: number;
-  /** Level counts, when the column is text with at most MAX_LEVELS distinct values. */
+  /**
+   * Level counts: of a text column with at most MAX_LEVELS distinct values, and of a numeric
+   * column of whole numbers with at most MAX_CODED_LEVELS distinct values (numeric codes; see
+   * categorical-hint.ts).
+   */
   levels?: { value: string; count: number }[];
   /** Earliest and latest value of a date or datetime column (ISO 8601 text). */
   earliest?: string;
@@ -70,12 +75,21 @@ export function summariseColumn(name: string, label: string | null, type: Column
     let m2 = 0;
     let min = Infinity;
     let max = -Infinity;
+    // Distinct whole numbers, by their text as the engine reads levels, until a fraction or too many.
+    let codes: Map<string, number> | null = new Map();
     for (const cell of cells) {
       if (isMissingCell(cell)) {
         missing++;
         continue;
       }
       const x = parseNumber(cell) as number;
+      if (codes) {
+        if (!Number.isInteger(x)) codes = null;
+        else {
+          codes.set(cell, (codes.get(cell) ?? 0) + 1);
+          if (codes.size > MAX_CODED_LEVELS) codes = null;
+        }
+      }
       n++;
       const d = x - mean;
       mean += d / n;
@@ -85,6 +99,10 @@ export function summariseColumn(name: string, label: string | null, type: Column
     }
     meta.nonMissing = n;
     if (n > 0) Object.assign(meta, { min, max, mean, sd: n > 1 ? Math.sqrt(m2 / (n - 1)) : undefined });
+    if (codes && codes.size >= 2) {
+      const counted = codes;
+      meta.levels = orderLevels(counted.keys()).map((value) => ({ value, count: counted.get(value) as number }));
+    }
   } else {
     const counts = new Map<string, number>();
     let tooMany = false;

@@ -10,6 +10,7 @@ import { and, asc, desc, eq, inArray, isNull } from "drizzle-orm";
 import { stringify } from "csv-stringify/sync";
 import { appendAudit, type Actor } from "../audit.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
+import { withCategoricalHints } from "./categorical-hint";
 import type { ColumnMeta } from "./column-summary";
 import { primeColumnsCache, readColumnsFileCached, writeColumnsFile, type ParsedColumns } from "./columns-file.server";
 import { summariseChanges, type ChangeSummary } from "./diff";
@@ -122,7 +123,13 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
       }
     }
     progress("screen", 0);
-    const hits = screenColumns(parsed.names.map((name, j) => ({ name, type: parsed.columns[j].type, cells: parsed.cells[j] })));
+    const hits = screenColumns(
+      parsed.names.map((name, j) => {
+        // `format` is set by readers of files that declare one (SAS formats of transport files).
+        const meta = parsed.columns[j] as ColumnMeta & { format?: string | null };
+        return { name, type: meta.type, cells: parsed.cells[j], label: meta.label, format: meta.format ?? null };
+      }),
+    );
     const previous = existing ? await latestLocked(existing.id) : null;
     let changes: ChangeSummary | null = null;
     if (previous) {
@@ -352,7 +359,8 @@ export interface VersionDetail {
   datasetId: string;
   datasetName: string;
   version: VersionSummary;
-  columns: ColumnMeta[];
+  /** With `looksCategorical` where a numeric column looks like codes (categorical-hint.ts). */
+  columns: (ColumnMeta & { looksCategorical?: string })[];
   keyColumns: string[];
   hits: ScreenHitView[];
   latestVersion: number;
@@ -398,7 +406,7 @@ export async function getVersionDetail(studyId: string, versionId: string): Prom
     datasetId: d.id,
     datasetName: d.name,
     version: summaryOf(v, names, unresolved, new Map(all.map((a) => [a.id, a.version]))),
-    columns: JSON.parse(v.columnsJson) as ColumnMeta[],
+    columns: withCategoricalHints(JSON.parse(v.columnsJson) as ColumnMeta[]),
     keyColumns: JSON.parse(v.keyColumnsJson) as string[],
     hits: hits.map((h) => hitView(h, names)),
     latestVersion: Math.max(...all.map((a) => a.version)),

@@ -5,6 +5,9 @@
  * elements of dates (except year) directly related to a person, telephone and fax numbers,
  * e-mail addresses, social security and other national numbers, medical record, health plan
  * and account numbers, IP addresses, URLs, and any other unique identifying number or code.
+ * Ages over 89 are identifiers too (164.514(b)(2)(i)(C)): a numeric age column is flagged when
+ * any value is over 89. Dates stored as SAS day or second numbers (transport files) are read by
+ * their DATE or DATETIME format and screened as dates.
  * A hit is a prompt for the data manager, who removes the column or records why it is not an
  * identifier (a pseudonymous subject code, for example).
  */
@@ -18,6 +21,11 @@ export interface ScreenRule {
   byValue?: RegExp;
   /** Quick test that must pass before the value pattern is tried. */
   hint?: (value: string) => boolean;
+  /**
+   * Share of the column's non-empty cells that must match before the column is flagged by its
+   * values (default: any one cell). Patterns that also fit ordinary codes ask for most cells.
+   */
+  minShare?: number;
 }
 
 const hasDigit = (v: string) => /\d/.test(v);
@@ -48,8 +56,18 @@ export const SCREEN_RULES: ScreenRule[] = [
     id: "phone",
     label: "Telephone or fax number",
     byName: /^(.*_)?(phone|phone_?number|telephone|tel|mobile|cell|fax)$/i,
-    byValue: /(^|[^\d])(\+\d{1,3}[\s.-]?)?(\(\d{2,4}\)\s?|\d{2,4}[\s.-])\d{3,4}[\s.-]\d{3,4}($|[^\d])/,
-    hint: hasDigit,
+    // The whole value is a number as people write one: optional "+" or "00", digits in groups with
+    // spaces, dots, dashes, slashes or brackets, optional extension; 10 to 15 digits (E.164 allows
+    // 15; national numbers with their area code have at least 10). A study's subject identifier
+    // (01-701-1015: study, site, subject) has fewer digits, and a column is flagged only when most
+    // of its values are numbers like this, so one odd code does not make a column a phone column.
+    byValue: /^(tel:\s*)?(\+|00)?\(?\d{1,5}\)?([\s.\-/]*\(?\d{1,8}\)?)+(\s*(x|ext\.?|extension)\s*\d{1,5})?$/i,
+    hint: (v) => {
+      if (v.length > 40) return false;
+      const digits = v.replace(/(x|ext\.?|extension)\s*\d{1,5}$/i, "").replace(/\D/g, "").length;
+      return digits >= 10 && digits <= 15;
+    },
+    minShare: 0.5,
   },
   {
     id: "email",
@@ -129,26 +147,98 @@ export function maskValue(value: string): string {
 
 const MAX_EXAMPLES = 3;
 
-/** Screens every column by name and by all of its values. */
-export function screenColumns(columns: { name: string; type: ColumnType; cells: readonly string[] }[]): ScreenHit[] {
+/** The rule for ages over 89 (Safe Harbor aggregates them into "90 or older"). */
+export const AGE_RULE = { id: "age_over_89", label: "Age over 89 (Safe Harbor: ages over 89 are identifiers)" } as const;
+export const OLDEST_SHOWN_AGE = 89;
+/** An age by its name (AGE, age_years, age_at_consent) or its label ("Age", "Age at baseline (years)"). */
+const AGE_NAME = /^(.*_)?age(_?(yrs?|years?|at_?\w+))?$/i;
+const AGE_LABEL = /^\s*age\b(?!.*\b(group|grouping|category|unit|units|band|range|class)\b)/i;
+
+/** SAS formats that make a number a date (days since 1960-01-01) or a date-time (seconds since then). */
+const SAS_DATETIME_FORMAT = /^(DATETIME|E8601DT|IS8601DT|B8601DT|DTDATE|DTYYMMDD|NLDATM|MDYAMPM)/i;
+const SAS_DATE_FORMAT = /^(DATE|DAY|DDMMYY|MMDDYY|YYMMDD|YYMMN|YYMON|YYQ|MONYY|MONNAME|WEEKDATE|WEEKDATX|WORDDATE|WORDDATX|NLDATE|EURDF|E8601DA|IS8601DA|B8601DA|JULIAN|MMYY|YYMM)/i;
+const SAS_EPOCH_MS = Date.UTC(1960, 0, 1);
+
+/** How a numeric column's cells should be read for the screen: as SAS dates, date-times, or numbers. */
+export function sasDateKind(format: string | null | undefined): "date" | "datetime" | null {
+  if (!format) return null;
+  const f = format.trim();
+  if (SAS_DATETIME_FORMAT.test(f)) return "datetime";
+  if (SAS_DATE_FORMAT.test(f)) return "date";
+  return null;
+}
+
+/** A SAS date (days since 1960-01-01) or date-time (seconds) as ISO 8601 text; "" when not a number. */
+export function sasNumberToIso(cell: string, kind: "date" | "datetime"): string {
+  const x = Number(cell);
+  if (cell.trim() === "" || !Number.isFinite(x)) return "";
+  const when = new Date(SAS_EPOCH_MS + (kind === "date" ? Math.floor(x) * 86_400_000 : Math.round(x * 1000)));
+  if (Number.isNaN(when.getTime())) return "";
+  const iso = when.toISOString();
+  return kind === "date" ? iso.slice(0, 10) : iso.slice(0, 19);
+}
+
+export interface ScreenColumn {
+  name: string;
+  type: ColumnType;
+  cells: readonly string[];
+  label?: string | null;
+  /** The column's display format, when the file declares one (SAS formats in transport files). */
+  format?: string | null;
+}
+
+const isNumeric = (type: string) => type === "number" || type === "integer";
+
+function ageHit(col: ScreenColumn): ScreenHit | null {
+  if (!isNumeric(col.type)) return null;
+  if (!AGE_NAME.test(col.name) && !(col.label && AGE_LABEL.test(col.label))) return null;
+  let matches = 0;
+  const examples: string[] = [];
+  for (const cell of col.cells) {
+    const x = Number(cell);
+    if (cell.trim() === "" || !Number.isFinite(x) || x <= OLDEST_SHOWN_AGE) continue;
+    matches++;
+    if (examples.length < MAX_EXAMPLES) examples.push(maskValue(cell.trim()));
+  }
+  return matches === 0 ? null : { column: col.name, rule: AGE_RULE.id, ruleLabel: AGE_RULE.label, basis: "values", matches, maskedExamples: examples };
+}
+
+/**
+ * Screens every column by name and by all of its values. Text, date and date-time columns are
+ * screened by value; a numeric column by value only when its format says it holds SAS dates,
+ * and, when it is an age, for ages over 89.
+ */
+export function screenColumns(columns: ScreenColumn[]): ScreenHit[] {
   const hits: ScreenHit[] = [];
   for (const col of columns) {
+    const sasDates = isNumeric(col.type) ? sasDateKind(col.format) : null;
+    const byValue = !isNumeric(col.type) || sasDates !== null;
     // Count each distinct value once: most text columns have few levels.
     const distinct = new Map<string, number>();
-    if (col.type !== "number") {
-      for (const cell of col.cells) if (cell !== "") distinct.set(cell, (distinct.get(cell) ?? 0) + 1);
+    let nonEmpty = 0;
+    if (byValue) {
+      for (const raw of col.cells) {
+        const cell = sasDates ? sasNumberToIso(raw, sasDates) : raw;
+        if (cell === "") continue;
+        nonEmpty++;
+        distinct.set(cell, (distinct.get(cell) ?? 0) + 1);
+      }
     }
     for (const rule of SCREEN_RULES) {
       const nameHit = rule.byName?.test(col.name) ?? false;
       let matches = 0;
       const examples: string[] = [];
-      if (rule.byValue && col.type !== "number") {
+      if (rule.byValue && byValue) {
         const pattern = rule.byValue;
         for (const [value, count] of distinct) {
           if (rule.hint && !rule.hint(value)) continue;
           if (!pattern.test(value)) continue;
           matches += count;
           if (examples.length < MAX_EXAMPLES) examples.push(maskValue(value));
+        }
+        if (rule.minShare !== undefined && matches <= rule.minShare * nonEmpty) {
+          matches = 0;
+          examples.length = 0;
         }
       }
       if (!nameHit && matches === 0) continue;
@@ -160,6 +250,8 @@ export function screenColumns(columns: { name: string; type: ColumnType; cells: 
       }
       hits.push({ column: col.name, rule: rule.id, ruleLabel: rule.label, basis: nameHit ? "name" : "values", matches, maskedExamples: examples });
     }
+    const age = ageHit(col);
+    if (age) hits.push(age);
   }
   return hits;
 }

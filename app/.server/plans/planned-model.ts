@@ -8,6 +8,7 @@ import { z } from "zod";
 import { CHECKS, type CheckKey, type PlannedCheck } from "~/engine/checks";
 import { modelSpecSchema, type ModelSpec, type Term } from "~/engine/model-spec";
 import type { ColumnMeta } from "../datasets/catalog.server";
+import { categoricalHints } from "../datasets/categorical-hint";
 
 export const SENSITIVITY_KINDS = ["robust_hc3", "variance_function", "exclude_influential", "alternative_covariates", "quasi_poisson", "negative_binomial"] as const;
 export type SensitivityKind = (typeof SENSITIVITY_KINDS)[number];
@@ -70,7 +71,8 @@ export interface PlannedModelForm {
   link: string;
   treatment: string;
   treatmentReference: string;
-  covariates: { variable: string; categorical: boolean; reference: string }[];
+  /** `categorical` is null when the editor made no explicit choice (see categorical-hint.ts). */
+  covariates: { variable: string; categorical: boolean | null; reference: string }[];
   interactions: string[][];
   weights: string;
   offset: string;
@@ -80,6 +82,18 @@ export interface PlannedModelForm {
 }
 
 const str = (f: FormData, k: string): string => String(f.get(k) ?? "").trim();
+
+/**
+ * How a numeric covariate enters the model: `as:<column>` is "categorical" or "continuous" (the
+ * editor's explicit choice for a column that looks categorical); a ticked `categorical:<column>`
+ * box means categorical; neither is no choice (null).
+ */
+function choiceOf(f: FormData, variable: string): boolean | null {
+  const as = str(f, `as:${variable}`);
+  if (as === "categorical" || f.get(`categorical:${variable}`) === "on") return true;
+  if (as === "continuous") return false;
+  return null;
+}
 
 /** Reads the editor's form; field names are documented beside the inputs in the editor. */
 export function readPlannedModelForm(f: FormData): PlannedModelForm {
@@ -97,7 +111,7 @@ export function readPlannedModelForm(f: FormData): PlannedModelForm {
     treatmentReference: str(f, "treatmentReference"),
     covariates: covariates.map((variable) => ({
       variable,
-      categorical: f.get(`categorical:${variable}`) === "on",
+      categorical: choiceOf(f, variable),
       reference: str(f, `reference:${variable}`),
     })),
     interactions: f
@@ -145,6 +159,7 @@ export function validatePlannedModel(
     return { ok: false, errors };
   }
   const col = new Map(dataset.columns.map((c) => [c.name, c]));
+  const looksCategorical = categoricalHints(dataset.columns);
   const levelsOf = (name: string): string[] => col.get(name)?.levels?.map((l) => l.value) ?? [];
   const need = (field: string, name: string, label: string): ColumnMeta | null => {
     if (!name) {
@@ -198,10 +213,22 @@ export function validatePlannedModel(
       errors[field] = "The endpoint cannot also be a covariate.";
       continue;
     }
-    const categorical = cv.categorical || c.type !== "number";
+    const hint = c.type === "number" ? looksCategorical.get(c.name) : undefined;
+    if (hint && cv.categorical === null) {
+      // Reported beside the field; the term still counts as a main term for the interactions.
+      errors[field] = `${c.name} looks categorical (${hint}): choose whether it enters the model as categorical or continuous.`;
+    }
+    const categorical = cv.categorical === true || c.type !== "number";
     if (categorical && cv.reference && c.levels && !levelsOf(c.name).includes(cv.reference))
       errors[field] = `"${cv.reference}" is not a value of ${c.name}; its values are ${levelsOf(c.name).join(", ")}.`;
-    terms.push(categorical ? { variable: c.name, categorical: true, ...(cv.reference ? { reference: cv.reference } : {}) } : { variable: c.name });
+    // An explicit "continuous" is kept as categorical: false, so the plan says it was chosen.
+    terms.push(
+      categorical
+        ? { variable: c.name, categorical: true, ...(cv.reference ? { reference: cv.reference } : {}) }
+        : cv.categorical === false
+          ? { variable: c.name, categorical: false }
+          : { variable: c.name },
+    );
     mainVariables.add(c.name);
   }
   for (const parts of form.interactions) {
@@ -271,7 +298,7 @@ export function toForm(m: PlannedModel): PlannedModelForm {
     treatmentReference: treatmentTerm?.reference ?? "",
     covariates: main
       .filter((t) => t.variable !== m.spec.treatment)
-      .map((t) => ({ variable: t.variable, categorical: t.categorical ?? false, reference: t.reference ?? "" })),
+      .map((t) => ({ variable: t.variable, categorical: t.categorical ?? null, reference: t.reference ?? "" })),
     interactions: m.spec.terms.flatMap((t) => ("interaction" in t ? [t.interaction] : [])),
     weights: m.spec.weights ?? "",
     offset: m.spec.offset ?? "",

@@ -4,7 +4,7 @@ import { formatCount, formatStat } from "./format";
 const TYPE_WORD: Record<ColumnMeta["type"], string> = { number: "number", text: "text", date: "date", datetime: "date-time" };
 
 /** One compact block per column: type, counts, then the range or the levels. */
-export function ColumnSummaries({ columns, keyColumns }: { columns: ColumnMeta[]; keyColumns: string[] }) {
+export function ColumnSummaries({ columns, keyColumns }: { columns: (ColumnMeta & { looksCategorical?: string })[]; keyColumns: string[] }) {
   return (
     <section aria-labelledby="column-summaries" className="panel">
       <h2 id="column-summaries" className="border-b border-rule px-3 py-2 text-base">
@@ -18,8 +18,13 @@ export function ColumnSummaries({ columns, keyColumns }: { columns: ColumnMeta[]
                 {c.name}
                 {keyColumns.includes(c.name) ? <span className="ml-1.5 text-xs font-medium uppercase tracking-wide text-accent-dark">key</span> : null}
               </span>
-              <span className="text-xs text-ink-soft">{TYPE_WORD[c.type]}</span>
+              <span className="text-xs text-ink-soft">{TYPE_WORD[c.type] ?? c.type}</span>
             </div>
+            {c.looksCategorical ? (
+              <p className="text-xs font-medium text-accent-dark">
+                Looks categorical: {c.looksCategorical}. A plan using it as a term must say categorical or continuous.
+              </p>
+            ) : null}
             {c.label ? <p className="text-xs text-ink-soft">{c.label}</p> : null}
             <p className="num text-xs">
               {formatCount(c.nonMissing)} present · {formatCount(c.missing)} missing
