@@ -4,7 +4,6 @@
  * one write transaction with its audit event.
  */
 import { createHash } from "node:crypto";
-import { createReadStream } from "node:fs";
 import { open, readFile, writeFile } from "node:fs/promises";
 import { and, asc, desc, eq, inArray, isNull } from "drizzle-orm";
 import { stringify } from "csv-stringify/sync";
@@ -12,12 +11,13 @@ import { appendAudit, type Actor } from "../audit.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
 import { withCategoricalHints } from "./categorical-hint";
 import type { ColumnMeta } from "./column-summary";
-import { primeColumnsCache, readColumnsFileCached, writeColumnsFile, type ParsedColumns } from "./columns-file.server";
+import { primeArrowColumnsCache, textOf, writeArrowColumns, type StoredColumns } from "./arrow-columns.server";
 import { summariseChanges, type ChangeSummary } from "./diff";
 import { formatOf, parseDatasetFile, type DatasetFormat, type ParseOptions } from "./parse.server";
 import { screenColumns } from "./screen";
 import { isStorageError } from "../storage-errors.server";
 import { auditUploadRefusal, storageRefusal } from "./upload.server";
+import { storedColumnsFromParsed, storedColumnsOf } from "./stored-columns.server";
 import {
   absoluteStorePath,
   blobRelativePath,
@@ -25,10 +25,12 @@ import {
   moveIntoStore,
   newWorkPath,
   removeQuietly,
+  sha256OfFile,
   sweepDatasetLeftovers,
 } from "./store.server";
 
 export type { ChangeSummary } from "./diff";
+export { sha256OfFile } from "./store.server";
 export type DatasetVersionRow = typeof t.datasetVersions.$inferSelect;
 export type ScreenHitRow = typeof t.identifierScreenHits.$inferSelect;
 
@@ -53,13 +55,6 @@ export type UploadResult =
 
 export type Progress = (phase: "parse" | "screen" | "store", fraction: number) => void;
 
-/** SHA-256 of a file, streamed. */
-export async function sha256OfFile(file: string): Promise<string> {
-  const hash = createHash("sha256");
-  for await (const chunk of createReadStream(file, { highWaterMark: 1 << 20 }) as AsyncIterable<Buffer>) hash.update(chunk);
-  return hash.digest("hex");
-}
-
 async function referencedStorePaths(): Promise<Set<string>> {
   const rows = await db.select({ stored: t.datasetVersions.storedPath, parsed: t.datasetVersions.parsedPath }).from(t.datasetVersions);
   return new Set(rows.flatMap((r) => [r.stored, r.parsed ?? ""]).filter(Boolean));
@@ -80,9 +75,8 @@ async function latestLocked(datasetId: string): Promise<DatasetVersionRow | null
   return v ?? null;
 }
 
-async function parsedOf(v: DatasetVersionRow): Promise<ParsedColumns> {
-  if (!v.parsedPath) throw new Error(`Version ${v.version} has no parsed columns in the store.`);
-  return readColumnsFileCached(absoluteStorePath(v.parsedPath));
+function parsedOf(v: DatasetVersionRow): Promise<StoredColumns> {
+  return storedColumnsOf(v);
 }
 
 /**
@@ -130,18 +124,20 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
         return { name, type: meta.type, cells: parsed.cells[j], label: meta.label, format: meta.format ?? null };
       }),
     );
+    const stored = storedColumnsFromParsed(parsed);
     const previous = existing ? await latestLocked(existing.id) : null;
     let changes: ChangeSummary | null = null;
     if (previous) {
+      // Both sides as the stored typed columns give them, so "1.50" and "1.5" are the same value.
       const before = await parsedOf(previous);
       changes = summariseChanges(
-        { version: previous.version, names: before.names, cells: before.cells, keyColumns: JSON.parse(previous.keyColumnsJson) as string[] },
-        parsed,
+        { version: previous.version, names: before.names, cells: before.columns.map(textOf), keyColumns: JSON.parse(previous.keyColumnsJson) as string[] },
+        { names: parsed.names, cells: stored.columns.map(textOf), keyColumns: parsed.keyColumns },
       );
     }
     progress("store", 0);
-    columnsWork = await newWorkPath("cols");
-    await writeColumnsFile(columnsWork, parsed);
+    columnsWork = await newWorkPath("arrow");
+    await writeArrowColumns(columnsWork, stored);
     const storedPath = blobRelativePath(req.sha256);
     const parsedPath = columnsRelativePath(req.sha256);
     if (await moveIntoStore(req.workPath, storedPath)) placed.push(storedPath);
@@ -217,7 +213,7 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
       return { versionId, version, datasetId };
     });
     // The preview opens next: serve it from the columns already in memory.
-    primeColumnsCache(absoluteStorePath(parsedPath), { names: parsed.names, cells: parsed.cells, rowNumbers: parsed.rowNumbers });
+    primeArrowColumnsCache(absoluteStorePath(parsedPath), stored);
     progress("store", 1);
     return { ok: true, ...saved, hits: hits.length, changes };
   } catch (e) {
@@ -423,20 +419,17 @@ export interface RowsWindow {
 
 const sortCache = new Map<string, Uint32Array>();
 
-function sortOrder(versionId: string, parsed: ParsedColumns, meta: ColumnMeta[], column: string, descending: boolean): Uint32Array {
+function sortOrder(versionId: string, parsed: StoredColumns, column: string, descending: boolean): Uint32Array {
   const key = `${versionId}\u0000${column}\u0000${descending}`;
   const hit = sortCache.get(key);
   if (hit) return hit;
-  const j = parsed.names.indexOf(column);
-  const cells = parsed.cells[j];
+  const cells = parsed.columns[parsed.names.indexOf(column)];
   const n = cells.length;
   const order = new Uint32Array(n);
   for (let i = 0; i < n; i++) order[i] = i;
   const sign = descending ? -1 : 1;
-  const missing = (c: string) => c === "" || c === "NA" || c === ".";
-  if (meta[j]?.type === "number") {
-    const values = new Float64Array(n);
-    for (let i = 0; i < n; i++) values[i] = missing(cells[i]) ? Number.NaN : Number(cells[i]);
+  if (cells instanceof Float64Array) {
+    const values = cells;
     order.sort((a, b) => {
       const x = values[a];
       const y = values[b];
@@ -447,9 +440,7 @@ function sortOrder(versionId: string, parsed: ParsedColumns, meta: ColumnMeta[],
     order.sort((a, b) => {
       const x = cells[a];
       const y = cells[b];
-      const mx = missing(x);
-      const my = missing(y);
-      if (mx || my) return mx ? (my ? a - b : 1) : -1;
+      if (x === null || y === null) return x === null ? (y === null ? a - b : 1) : -1;
       return x === y ? a - b : x < y ? -sign : sign;
     });
   }
@@ -467,16 +458,16 @@ export async function readRowsWindow(
   const row = await versionInStudy(studyId, versionId);
   if (!row) return null;
   const parsed = await parsedOf(row.v);
-  const meta = JSON.parse(row.v.columnsJson) as ColumnMeta[];
   const total = parsed.rowNumbers.length;
   const offset = Math.max(0, Math.min(window.offset, total));
   const end = Math.min(total, offset + Math.max(0, Math.min(window.limit, 1000)));
-  const order = window.sort && parsed.names.includes(window.sort.column) ? sortOrder(row.v.id, parsed, meta, window.sort.column, window.sort.descending) : null;
+  const order = window.sort && parsed.names.includes(window.sort.column) ? sortOrder(row.v.id, parsed, window.sort.column, window.sort.descending) : null;
   const rows: string[][] = [];
   const rowNumbers: number[] = [];
+  const cell = (c: StoredColumns["columns"][number], i: number): string => (c instanceof Float64Array ? (Number.isNaN(c[i]) ? "" : String(c[i])) : (c[i] ?? ""));
   for (let k = offset; k < end; k++) {
     const i = order ? order[k] : k;
-    rows.push(parsed.cells.map((c) => c[i]));
+    rows.push(parsed.columns.map((c) => cell(c, i)));
     rowNumbers.push(parsed.rowNumbers[i]);
   }
   return { total, offset, columns: parsed.names, rowNumbers, rows };
@@ -528,7 +519,7 @@ export async function recordNotIdentifier(actor: Actor, studyId: string, hitId: 
 }
 
 /** The version's file without one column, in the version's own format. */
-async function bytesWithout(v: DatasetVersionRow, parsed: ParsedColumns, column: string): Promise<Buffer> {
+async function bytesWithout(v: DatasetVersionRow, parsed: StoredColumns, column: string): Promise<Buffer> {
   const keep = parsed.names.map((n, j) => (n === column ? -1 : j)).filter((j) => j >= 0);
   if (v.format === "dataset-json") {
     const doc = JSON.parse(await readFile(absoluteStorePath(v.storedPath), "utf8")) as { columns: { name: string }[]; rows: unknown[][] };
@@ -538,8 +529,9 @@ async function bytesWithout(v: DatasetVersionRow, parsed: ParsedColumns, column:
     return Buffer.from(JSON.stringify(doc), "utf8");
   }
   const n = parsed.rowNumbers.length;
+  const cells = parsed.columns.map(textOf);
   const records: string[][] = [keep.map((j) => parsed.names[j])];
-  for (let i = 0; i < n; i++) records.push(keep.map((j) => parsed.cells[j][i]));
+  for (let i = 0; i < n; i++) records.push(keep.map((j) => cells[j][i]));
   return Buffer.from(stringify(records, { record_delimiter: "\n" }), "utf8");
 }
 
@@ -562,16 +554,18 @@ export async function removeFlaggedColumn(actor: Actor, studyId: string, hitId: 
   const bytes = await bytesWithout(v, parsed, h.column);
   const sha256 = createHash("sha256").update(bytes).digest("hex");
   const j = parsed.names.indexOf(h.column);
-  const derived: ParsedColumns = {
+  const derived: StoredColumns = {
     names: parsed.names.filter((_, i) => i !== j),
-    cells: parsed.cells.filter((_, i) => i !== j),
+    columns: parsed.columns.filter((_, i) => i !== j),
     rowNumbers: parsed.rowNumbers,
+    columnMeta: parsed.columnMeta.filter((_, i) => i !== j),
+    dataset: parsed.dataset,
   };
   const blobWork = await newWorkPath("blob");
-  const colsWork = await newWorkPath("cols");
+  const colsWork = await newWorkPath("arrow");
   try {
     await writeFile(blobWork, bytes);
-    await writeColumnsFile(colsWork, derived);
+    await writeArrowColumns(colsWork, derived);
     await moveIntoStore(blobWork, blobRelativePath(sha256));
     await moveIntoStore(colsWork, columnsRelativePath(sha256));
     const removed = [...(v.removedColumnsJson ? (JSON.parse(v.removedColumnsJson) as string[]) : []), h.column];
