@@ -6,6 +6,7 @@
 // ovarian, colon) and invented trial-shaped data with strata, ties, weights, an offset and
 // clusters; they are committed. Agreement: relative 1e-6 (elements smaller than 1e-4 of a
 // column's largest magnitude are held to 1e-6 of that 1e-4).
+import { execFile } from "node:child_process";
 import { readFileSync, readdirSync } from "node:fs";
 import { join } from "node:path";
 import { describe, expect, it } from "vitest";
@@ -15,6 +16,15 @@ import { coxCliAnswer } from "~/engine/survival/cox-result";
 import { expectAllClose, expectClose } from "./compare";
 
 const ROOT = join(import.meta.dirname, "survival");
+const REPO = join(import.meta.dirname, "..", "..");
+
+function runCli(args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
+  return new Promise((resolve) => {
+    execFile(join(REPO, "node_modules", ".bin", "tsx"), [join(REPO, "app", "cli.ts"), ...args], { cwd: REPO }, (err, stdout, stderr) => {
+      resolve({ code: err ? (typeof err.code === "number" ? err.code : 1) : 0, stdout, stderr });
+    });
+  });
+}
 const TOL = 1e-6;
 
 interface RTest {
@@ -141,22 +151,36 @@ describe.each(cases.map((c) => [c.case, c] as const))("Cox model %s against R's 
 });
 
 describe("Cox model: monotone likelihood and the headless answer", () => {
-  it("reports a treatment arm without events as monotone likelihood instead of fitting it (R's coxph drifts to a log hazard ratio near −28)", () => {
-    const r = JSON.parse(read("values/monotone-no-events-in-arm.json")) as { rEstimate: number[] };
-    expect(r.rEstimate[0]).toBeLessThan(-15);
-    const spec: unknown = JSON.parse(read("models/monotone-no-events-in-arm.json"));
-    const table = readCsvText(read("data/monotone-no-events-in-arm.csv"));
-    let error: unknown = null;
+  function attempt(name: string): unknown {
     try {
-      fitCoxModel(spec, table);
+      fitCoxModel(JSON.parse(read(`models/${name}.json`)), readCsvText(read(`data/${name}.csv`)));
     } catch (err) {
-      error = err;
+      return err;
     }
+    return null;
+  }
+
+  it("reports a treatment arm without events as monotone likelihood instead of fitting it (R's coxph: 'coefficient may be infinite', estimate near −28)", () => {
+    const r = JSON.parse(read("values/monotone-no-events-in-arm.json")) as { rWarning: string; rEstimate: number[] };
+    expect(r.rWarning).toMatch(/infinite/);
+    expect(r.rEstimate[0]).toBeLessThan(-15);
+    const error = attempt("monotone-no-events-in-arm");
     expect(error).toBeInstanceOf(MonotoneLikelihoodError);
     const e = error as MonotoneLikelihoodError;
     expect(e.terms).toEqual(["TRTP"]);
     expect(e.message).toMatch(/monotone likelihood/);
     expect(e.message).toMatch(/"TRTP=Active" towards −∞/);
+  });
+
+  it("reports a continuous covariate that ranks every event first in its risk set (R's coxph does not converge, estimate near +19)", () => {
+    const r = JSON.parse(read("values/monotone-marker-ordering.json")) as { rWarning: string; rEstimate: number[] };
+    expect(r.rWarning).toMatch(/converge/);
+    expect(r.rEstimate[1]).toBeGreaterThan(10);
+    const error = attempt("monotone-marker-ordering");
+    expect(error).toBeInstanceOf(MonotoneLikelihoodError);
+    const e = error as MonotoneLikelihoodError;
+    expect(e.terms).toContain("MARKER");
+    expect(e.message).toMatch(/"MARKER" towards \+∞/);
   });
 
   it("answers with the documented keys and the caution", () => {
@@ -173,5 +197,21 @@ describe("Cox model: monotone likelihood and the headless answer", () => {
     expect(Object.keys(fit)).toEqual(expect.arrayContaining(["logLik", "logLikNull", "events", "concordance", "iterations"]));
     const obs = (answer.observations as Record<string, unknown>[])[0];
     expect(Object.keys(obs)).toEqual(["row", "id", "martingale", "deviance", "score", "dfbeta", "dfbetas"]);
+  });
+
+  it("the headless command answers a Cox model on stdout and reports monotone likelihood as one error line (exit 2)", async () => {
+    const c = cases.find((k) => k.case === "ovarian-strata-identity") as RCoxCase;
+    const [ok, bad] = await Promise.all([
+      runCli(["fit", "--data", join(ROOT, c.data), "--model", join(ROOT, c.model)]),
+      runCli(["fit", "--data", join(ROOT, "data/monotone-no-events-in-arm.csv"), "--model", join(ROOT, "models/monotone-no-events-in-arm.json")]),
+    ]);
+    expect(ok.code, ok.stderr).toBe(0);
+    const answer = JSON.parse(ok.stdout) as { coefficients: { estimate: number }[]; tests: { proportionalHazards: { global: RTest } } };
+    c.coefficients.forEach((r, j) => expectClose(answer.coefficients[j].estimate, r.estimate, TOL, `CLI ${r.rName}`));
+    expectTest(answer.tests.proportionalHazards.global, c.tests.proportionalHazards.global, "CLI PH global");
+    expect(bad.code).toBe(2);
+    expect(bad.stdout).toBe("");
+    expect(bad.stderr).toMatch(/^error: monotone likelihood: .*"TRTP=Active" towards −∞/);
+    expect(bad.stderr.trim().split("\n").length).toBe(1);
   });
 });

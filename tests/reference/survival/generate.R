@@ -269,3 +269,24 @@ mfit <- withCallingHandlers(
 writeLines(toJSON(list(case = "monotone-no-events-in-arm", rWarning = warned, rEstimate = num(coef(mfit))),
                   auto_unbox = TRUE, digits = NA, pretty = FALSE),
            file.path(root, "values", "monotone-no-events-in-arm.json"))
+
+# ---- monotone likelihood along a continuous covariate: every event has the largest MARKER of
+# those still at risk, so its log hazard ratio runs to +∞ (R's coxph warns that it may be infinite)
+set.seed(9203)
+k <- 30
+ordered_case <- data.frame(USUBJID = sprintf("ORD-%03d", seq_len(k)), AVAL = sort(round(runif(k, 5, 400))), stringsAsFactors = FALSE)
+ordered_case$AVAL <- ordered_case$AVAL + seq_len(k) / 10
+ordered_case$CNSR <- rbinom(k, 1, 0.3)
+ordered_case$MARKER <- round(rev(seq_len(k)) + rnorm(k, 0, 0.1), 2)
+ordered_case$TRTP <- sample(c("Placebo", "Active"), k, replace = TRUE)
+invisible(write_case_data(ordered_case, "monotone-marker-ordering"))
+ord_spec <- list(family = "cox", response = "AVAL", status = list(column = "CNSR", event = I(0)),
+  terms = list(list(variable = "TRTP", reference = "Placebo"), list(variable = "MARKER")), treatment = "TRTP")
+writeLines(toJSON(ord_spec, auto_unbox = TRUE, pretty = TRUE), file.path(root, "models", "monotone-marker-ordering.json"))
+warned <- character(0)
+ofit <- withCallingHandlers(
+  coxph(Surv(AVAL, CNSR == 0) ~ relevel(factor(TRTP), ref = "Placebo") + MARKER, data = ordered_case),
+  warning = function(w) { warned <<- c(warned, conditionMessage(w)); invokeRestart("muffleWarning") })
+writeLines(toJSON(list(case = "monotone-marker-ordering", rWarning = warned, rEstimate = num(coef(ofit))),
+                  auto_unbox = TRUE, digits = NA, pretty = FALSE),
+           file.path(root, "values", "monotone-marker-ordering.json"))
