@@ -62,6 +62,8 @@ run_case <- function(name, source, df, spec) {
   }
   d$.time <- d[[spec$response]]
   d$.event <- as.integer(as.character(d[[spec$status$column]]) %in% as.character(unlist(spec$status$event)))
+  # the times coxph, survfit and survdiff work with after merging near-ties (aeqSurv, their default)
+  d$.time <- as.matrix(aeqSurv(Surv(d$.time, d$.event)))[, 1]
   rhs <- paste0("`", mains, "`", collapse = " + ")
   if (length(spec$strata) > 0) rhs <- paste0(rhs, " + strata(", paste0("`", unlist(spec$strata), "`", collapse = ", "), ")")
   if (!is.null(spec$offset)) rhs <- paste0(rhs, " + offset(`", spec$offset, "`)")
@@ -194,6 +196,16 @@ run_case("veteran-breslow-rank", "survival::veteran (VA lung cancer trial; Kalbf
   family = "cox", response = "time", status = list(column = "status", event = I(1)),
   terms = list(list(variable = "trt", categorical = TRUE), list(variable = "celltype", reference = "squamous"), list(variable = "karno"), list(variable = "age")),
   treatment = "trt", ties = "breslow", proportionalHazards = list(transform = "rank")))
+
+# times that differ only in the tenth significant digit count as tied (R's aeqSurv, on by default)
+vet_near <- survival::veteran
+vet_near$celltype <- as.character(vet_near$celltype)
+nudge <- seq(2, nrow(vet_near), by = 3)
+vet_near$time[nudge] <- vet_near$time[nudge] * (1 + 3e-10)
+run_case("veteran-near-ties", "survival::veteran, every third time multiplied by 1 + 3e-10 (this script)", vet_near, list(
+  family = "cox", response = "time", status = list(column = "status", event = I(1)),
+  terms = list(list(variable = "trt", categorical = TRUE), list(variable = "karno")),
+  treatment = "trt", ties = "efron", proportionalHazards = list(transform = "km")))
 
 ov_df <- survival::ovarian
 run_case("ovarian-strata-identity", "survival::ovarian (ovarian cancer trial; Edmonson et al. 1979)", ov_df, list(
