@@ -93,4 +93,16 @@ describe("time-to-event specification and data checks", () => {
     expect(b.fit.events).toBe(8);
     expect(b.coefficients[0].estimate).toBeCloseTo(a.coefficients[0].estimate, 12);
   });
+
+  it("names the row of an event at time 0 when the plan asks for the log time transform", () => {
+    const t = table({ AVAL: ["0", "8", "8", "12", "15", "20", "22", "30", "31", "40", "41", "50"] });
+    expect(message(() => fitCoxModel({ ...base, proportionalHazards: { transform: "log" } }, t))).toMatch(/data row 1 has an event at time 0/);
+    expect(fitCoxModel(base, t).fit.events).toBe(8);
+  });
+
+  it("gives the same answer text for the same inputs", async () => {
+    const { coxCliAnswer } = await import("~/engine/survival/cox-result");
+    const spec = { ...base, strata: ["S"] };
+    expect(coxCliAnswer(spec, table())).toBe(coxCliAnswer(spec, table()));
+  });
 });

@@ -268,6 +268,14 @@ export function fitCoxModel(specInput: CoxSpec | unknown, tableInput: TableInput
     robustScore = chiSquare(inverseQuadraticForm(crossProduct(nullScore), p, u), p);
   }
 
+  if (spec.proportionalHazards.transform === "log") {
+    const k = data.status.findIndex((d, i) => d === 1 && !(data.time[i] > 0));
+    if (k >= 0) {
+      throw new EngineError(
+        `the log time transform of the proportional-hazards test needs positive event times: data row ${prepared.rowNumbers[prepared.used[k]]} has an event at time ${data.time[k]}; plan the "km", "rank" or "identity" transform instead`,
+      );
+    }
+  }
   const ph = proportionalHazardsTest(data, fitSweep, design.terms, spec.proportionalHazards.transform);
   const eta = linearPredictor(data, beta);
   const conc = concordance(eta, data.time, data.status, data.stratum, data.weight);
