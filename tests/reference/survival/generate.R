@@ -134,6 +134,7 @@ run_case <- function(name, source, df, spec) {
   out <- list(
     case = name,
     source = source,
+    oracle = paste0("R ", getRversion(), ", survival ", packageVersion("survival")),
     data = paste0("data/", name, ".csv"),
     model = paste0("models/", name, ".json"),
     n = fit$n,
