@@ -72,7 +72,7 @@ run_case <- function(name, source, df, spec) {
   ties <- if (is.null(spec$ties)) "efron" else spec$ties
   args <- list(form, data = d, ties = ties, control = ctrl, x = TRUE, model = TRUE)
   if (!is.null(spec$weights)) {
-    d$.w <- d[[spec$weights]]
+    d$.w <- as.numeric(d[[spec$weights]]) # double: cox.zph's C code refuses integer weights
     args$weights <- quote(.w)
     args$data <- d
   }
@@ -258,6 +258,14 @@ run_case("trial-breslow-cluster", "invented (seeded) trial-shaped data, this scr
   terms = list(list(variable = "TRTP", reference = "Placebo"), list(variable = "AGE"), list(variable = "BASE"), list(variable = "STRAT2")),
   treatment = "TRTP", strata = I("STRAT1"), ties = "breslow", cluster = "SITE", id = "USUBJID",
   proportionalHazards = list(transform = "identity")))
+
+trial_w <- trial
+trial_w$FREQ <- rep_len(c(1, 2, 3, 1, 2), nrow(trial_w))
+run_case("trial-whole-weights-cluster", "invented (seeded) trial-shaped data, this script; whole-number case weights", trial_w, list(
+  family = "cox", response = "AVAL", status = list(column = "CNSR", event = I(0)),
+  terms = list(list(variable = "TRTP", reference = "Placebo"), list(variable = "BASE")),
+  treatment = "TRTP", strata = I("STRAT2"), ties = "efron", weights = "FREQ", offset = "OFF", cluster = "SITE", id = "USUBJID",
+  proportionalHazards = list(transform = "rank")))
 
 # ---- monotone likelihood: no events at all in the active arm, so its log hazard ratio runs to −∞
 set.seed(4417)
