@@ -62,6 +62,30 @@ function statusMatcher(spec: CoxSpec): (cell: string) => boolean {
   };
 }
 
+/** Relative and absolute tolerance under which two distinct times count as tied: √(double epsilon). */
+const TIE_TOLERANCE = Math.sqrt(2.220446049250313e-16);
+
+/**
+ * Times that differ only by rounding (0.1 + 0.2 against 0.3) count as tied: distinct sorted
+ * times whose gap is at most the tolerance, absolutely or relative to the mean |time|, take the
+ * first time of their run, the rule of R's survival package (aeqSurv, on by default in coxph,
+ * survfit and survdiff) so that the same data give the same risk sets.
+ */
+export function mergeNearTies(times: Float64Array): Float64Array {
+  const unique = [...new Set(times)].sort((a, b) => a - b);
+  if (unique.length < 2) return times;
+  const mean = unique.reduce((s, v) => s + Math.abs(v), 0) / unique.length;
+  const replace = new Map<number, number>();
+  let cut = unique[0];
+  for (let k = 1; k < unique.length; k++) {
+    const gap = unique[k] - unique[k - 1];
+    if (gap <= TIE_TOLERANCE || gap / mean <= TIE_TOLERANCE) replace.set(unique[k], cut);
+    else cut = unique[k];
+  }
+  if (replace.size === 0) return times;
+  return times.map((t) => replace.get(t) ?? t);
+}
+
 /** Reads and checks the data of a Cox model; throws EngineError naming the column and row. */
 export function prepareCoxData(spec: CoxSpec, table: DataTable): PreparedCox {
   const extra = [spec.status.column, ...spec.strata, ...(spec.cluster ? [spec.cluster] : [])];
@@ -102,7 +126,7 @@ export function prepareCoxData(spec: CoxSpec, table: DataTable): PreparedCox {
   if (n === 0) throw new EngineError("no rows are left after leaving out rows with a missing cell");
   const rowOf = (k: number) => kept.rowNumbers[prepared.used[k]];
 
-  const time = prepared.response;
+  const time = mergeNearTies(prepared.response);
   for (let k = 0; k < n; k++) {
     if (time[k] < 0) throw new EngineError(`time column "${spec.response}" has a negative time (${time[k]}) at data row ${rowOf(k)}`);
   }

@@ -40,9 +40,9 @@ export interface CoxCoefficientRow {
   readonly estimate: number;
   /** Model-based standard error (inverse information). */
   readonly se: number;
-  /** Sandwich standard error (clustered when the plan names a cluster). */
+  /** Sandwich standard error (clustered when the plan names a cluster, else per row). */
   readonly robustSe: number;
-  /** Wald z, p and 95% interval; on the robust standard error when a cluster is named. */
+  /** Wald z, p and 95% interval; on the robust standard error when `robust`. */
   readonly statistic: number;
   readonly p: number;
   readonly lower: number;
@@ -104,7 +104,7 @@ export interface CoxResult {
   /** Model-based covariance (row arrays). */
   readonly covariance: number[][];
   readonly robustCovariance: number[][];
-  /** True when the plan names a cluster: Wald inference then uses the robust covariance. */
+  /** True when the plan names a cluster or the case weights are not whole numbers (as R's coxph): Wald inference then uses the robust covariance. */
   readonly robust: boolean;
   readonly fit: {
     readonly logLik: number;
@@ -117,10 +117,10 @@ export interface CoxResult {
   };
   readonly tests: {
     readonly likelihoodRatio: ChiSquareTest;
-    /** On the robust covariance when a cluster is named (as R's coxph). */
+    /** On the robust covariance when `robust` (as R's coxph). */
     readonly wald: ChiSquareTest;
     readonly score: ChiSquareTest;
-    /** Robust score test, when a cluster is named. */
+    /** Robust score test, when `robust`. */
     readonly robustScore: ChiSquareTest | null;
     readonly logRank: LogRankTest | null;
     readonly proportionalHazards: ProportionalHazardsTest;
@@ -236,7 +236,9 @@ export function fitCoxModel(specInput: CoxSpec | unknown, tableInput: TableInput
   const dfbetas = dfbeta.map((col, j) => col.map((v) => v / seModel[j]));
   // sandwich: D'D with D the weighted DFBETA rows, summed within clusters
   const robustVar = crossProduct(collapse(timesMatrix(res.score, variance, data, true), data.cluster));
-  const robust = data.cluster !== null;
+  // as R's coxph: the sandwich carries the inference when a cluster is named or the case weights
+  // are not whole numbers (sampling weights, for which the model-based variance is wrong)
+  const robust = data.cluster !== null || (data.weighted && data.weight.some((w) => w !== Math.floor(w)));
 
   const q = normalQuantile(0.975);
   const coefficients: CoxCoefficientRow[] = design.names.map((name, j) => {
@@ -255,7 +257,8 @@ export function fitCoxModel(specInput: CoxSpec | unknown, tableInput: TableInput
   const scoreStatistic = inverseQuadraticForm(nr.initial.info, p, nr.initial.score);
   let robustScore: ChiSquareTest | null = null;
   if (robust) {
-    // R's robust score test: the clustered score residuals at β = 0
+    // robust score test: the (clustered) weighted score residuals at β = 0, the offset kept in
+    // the linear predictor (R's coxph evaluates them at 0 and so drops an offset there)
     const nullSweep = sweep(data, linearPredictor(data, new Float64Array(p)), spec.ties, true);
     const nullScore = collapse(
       coxResiduals(data, nullSweep).score.map((col) => col.map((v, i) => v * data.weight[i])),
@@ -265,6 +268,14 @@ export function fitCoxModel(specInput: CoxSpec | unknown, tableInput: TableInput
     robustScore = chiSquare(inverseQuadraticForm(crossProduct(nullScore), p, u), p);
   }
 
+  if (spec.proportionalHazards.transform === "log") {
+    const k = data.status.findIndex((d, i) => d === 1 && !(data.time[i] > 0));
+    if (k >= 0) {
+      throw new EngineError(
+        `the log time transform of the proportional-hazards test needs positive event times: data row ${prepared.rowNumbers[prepared.used[k]]} has an event at time ${data.time[k]}; plan the "km", "rank" or "identity" transform instead`,
+      );
+    }
+  }
   const ph = proportionalHazardsTest(data, fitSweep, design.terms, spec.proportionalHazards.transform);
   const eta = linearPredictor(data, beta);
   const conc = concordance(eta, data.time, data.status, data.stratum, data.weight);
