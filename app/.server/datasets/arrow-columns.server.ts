@@ -17,6 +17,7 @@
  * In memory a stored version is `StoredColumns`: numbers as Float64Array with NaN for missing,
  * text as arrays of strings with null for missing: the typed table the engine is moving to.
  */
+import { isAscii } from "node:buffer";
 import { open, readFile } from "node:fs/promises";
 import {
   Dictionary,
@@ -133,10 +134,12 @@ function dictionaryData(cells: readonly (string | null)[]): Data<Dictionary<Utf8
     }
     codes[i] = c;
   }
+  // One encode of all values; per-value byte lengths are needed only when some are not ASCII.
+  const joined = values.join("");
+  const bytes = Buffer.from(joined, "utf8");
+  const ascii = bytes.length === joined.length;
   const offsets = new Int32Array(values.length + 1);
-  for (let k = 0; k < values.length; k++) offsets[k + 1] = offsets[k] + Buffer.byteLength(values[k], "utf8");
-  const bytes = Buffer.allocUnsafe(offsets[values.length]);
-  for (let k = 0; k < values.length; k++) bytes.write(values[k], offsets[k], "utf8");
+  for (let k = 0; k < values.length; k++) offsets[k + 1] = offsets[k] + (ascii ? values[k].length : Buffer.byteLength(values[k], "utf8"));
   const dictionary = makeVector(makeData({ type: new Utf8(), length: values.length, valueOffsets: offsets, data: new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.length) }));
   const { bitmap, nulls } = validityOf(n, (i) => cells[i] === null);
   return makeData({
@@ -214,7 +217,15 @@ function utf8Strings(data: Data): string[] {
   const bytes = data.values as Uint8Array;
   const buf = Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength);
   const out = new Array<string>(data.length);
-  for (let k = 0; k < data.length; k++) out[k] = buf.toString("utf8", offsets[data.offset + k], offsets[data.offset + k + 1]);
+  const start = offsets[data.offset];
+  const end = offsets[data.offset + data.length];
+  if (isAscii(buf.subarray(start, end))) {
+    const whole = buf.toString("latin1", start, end);
+    // ASCII: one decode, then slices (latin1 equals UTF-8 on ASCII bytes).
+    for (let k = 0; k < data.length; k++) out[k] = whole.slice(offsets[data.offset + k] - start, offsets[data.offset + k + 1] - start);
+  } else {
+    for (let k = 0; k < data.length; k++) out[k] = buf.toString("utf8", offsets[data.offset + k], offsets[data.offset + k + 1]);
+  }
   return out;
 }
 
