@@ -118,7 +118,8 @@ function float64Data(values: Float64Array): Data<Float64> {
   return makeData({ type: new Float64(), length: values.length, nullCount: nulls, nullBitmap: nulls > 0 ? bitmap : undefined, data: values });
 }
 
-function dictionaryData(cells: readonly (string | null)[]): Data<Dictionary<Utf8, Int32>> {
+/** `id`: the dictionary id, the column's position, so that the same columns always give the same bytes. */
+function dictionaryData(cells: readonly (string | null)[], id: number): Data<Dictionary<Utf8, Int32>> {
   const n = cells.length;
   const codes = new Int32Array(n);
   const lookup = new Map<string, number>();
@@ -143,7 +144,7 @@ function dictionaryData(cells: readonly (string | null)[]): Data<Dictionary<Utf8
   const dictionary = makeVector(makeData({ type: new Utf8(), length: values.length, valueOffsets: offsets, data: new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.length) }));
   const { bitmap, nulls } = validityOf(n, (i) => cells[i] === null);
   return makeData({
-    type: new Dictionary(new Utf8(), new Int32()),
+    type: new Dictionary(new Utf8(), new Int32(), id),
     length: n,
     nullCount: nulls,
     nullBitmap: nulls > 0 ? bitmap : undefined,
@@ -165,7 +166,7 @@ export function encodeArrowColumns(stored: StoredColumns): Uint8Array {
   stored.names.forEach((name, j) => {
     const column = stored.columns[j];
     if (column.length !== n) throw new Error(`Column "${name}" has ${column.length} cells, expected ${n}; the columns were not stored.`);
-    const data: Data = column instanceof Float64Array ? float64Data(column) : dictionaryData(column);
+    const data: Data = column instanceof Float64Array ? float64Data(column) : dictionaryData(column, j);
     const meta = stored.columnMeta[j] ?? { name };
     const fieldMeta = new Map<string, string>([[COLUMN_META_KEY, JSON.stringify(meta)]]);
     if (typeof meta.label === "string" && meta.label !== "") fieldMeta.set("label", meta.label);
