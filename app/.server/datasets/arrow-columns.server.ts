@@ -236,8 +236,9 @@ function readStrings(chunks: readonly Data[], n: number): (string | null)[] {
   for (const data of chunks) {
     if (data.type.typeId === Type.Dictionary) {
       const dictionary = (data.dictionary as unknown as { data: Data[] }).data.flatMap(utf8Strings);
-      const codes = data.values as Int32Array;
-      for (let i = 0; i < data.length; i++) out[at + i] = isValid(data, i) ? dictionary[codes[data.offset + i]] : null;
+      const codes = (data.values as Int32Array).subarray(data.offset, data.offset + data.length);
+      if (data.nullCount === 0) for (let i = 0; i < codes.length; i++) out[at + i] = dictionary[codes[i]];
+      else for (let i = 0; i < codes.length; i++) out[at + i] = isValid(data, i) ? dictionary[codes[i]] : null;
     } else {
       const strings = utf8Strings(data);
       for (let i = 0; i < data.length; i++) out[at + i] = isValid(data, i) ? strings[i] : null;
