@@ -57,11 +57,16 @@ export const COLUMN_META_KEY = "plumbline:column";
 export const DATASET_META_KEY = "plumbline:dataset";
 export const ROW_NUMBERS_KEY = "plumbline:row-numbers";
 
+/** Digits after a leading zero ("007", "-01.5"): a code written with digits, which a number would not keep. */
+const LEADING_ZERO = /^\s*[+-]?0\d/;
+
 /**
  * Turns parsed cell text into typed columns: a column whose metadata says `type: "number"`
- * becomes a Float64Array (missing cells NaN); every other column, and a numeric column with a
- * cell that is not a number (which the file checks do not let through), stays text with
- * missing cells (empty, `NA`, `.`) as null.
+ * becomes a Float64Array (missing cells NaN). Every other column stays text with missing cells
+ * (empty, `NA`, `.`) as null, and so does a numeric column that a Float64 would change: one
+ * with a cell that is not a number (which the file checks do not let through) or with a
+ * zero-padded cell such as "0012" (a code, whose zeros identify it). Other formatting of
+ * numbers ("1.50", "1e3") is not kept: the value is.
  */
 export function typedColumnOf(cells: readonly string[], meta: object | undefined): TypedColumn {
   const n = cells.length;
@@ -73,7 +78,7 @@ export function typedColumnOf(cells: readonly string[], meta: object | undefined
       if (isMissingCell(cell)) values[i] = Number.NaN;
       else {
         const v = parseNumber(cell);
-        if (v === null) ok = false;
+        if (v === null || LEADING_ZERO.test(cell)) ok = false;
         else values[i] = v;
       }
     }
