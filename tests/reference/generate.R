@@ -357,26 +357,28 @@ glm_reference_values <- function(name, spec, d, source) {
     partialResiduals = lapply(seq_len(ncol(partial)), function(j) num(partial[, j])))
 
   test_kind <- if (fam == "quasipoisson") "F" else "Chisq"
-  # glm() with a fixed-theta negative.binomial family would estimate a dispersion in anova;
-  # the negative binomial likelihood has dispersion 1
-  nb_disp <- if (fam == "negative-binomial") 1 else NULL
-  lrt <- function(big) {
+  # Nested-model tests against a larger model: anova.glm (for quasi-Poisson its F test takes the
+  # dispersion and residual df of the larger model), and for the negative binomial
+  # MASS::anova.negbin, which re-estimates theta in the larger model (likelihood-ratio statistic
+  # from the two log-likelihoods, each at its own theta).
+  nested <- function(big) {
+    if (fam == "negative-binomial") {
+      a <- anova(fit, big)
+      return(list(statistic = num(a[2, "LR stat."]), df = num(a[2, "   df"]), p = num(a[2, "Pr(Chi)"])))
+    }
     a <- anova(fit, big, test = test_kind)
-    stat <- if (fam == "quasipoisson") a$F[2] else a$Deviance[2]
-    list(statistic = stat, df = a$Df[2], p = a[2, ncol(a)])
+    list(statistic = if (fam == "quasipoisson") a$F[2] else a$Deviance[2], df = a$Df[2], p = a[2, ncol(a)])
   }
   refit <- function(f) if (fam == "negative-binomial") {
-    glm(f, family = negative.binomial(fit$theta), data = dd, weights = .w, control = ctl)
+    glm.nb(f, data = dd, weights = .w, control = ctl)
   } else update(fit, f, data = dd, control = ctl)
   mains <- prep$mains
   cont <- Filter(function(t) is.numeric(dd[[t$variable]]) && !isTRUE(t$categorical), mains)
-  base_fit <- if (fam == "negative-binomial") refit(prep$formula) else fit
   linearity <- lapply(cont, function(t) {
     v <- t$variable
     dd[[paste0(".sq.", v)]] <<- (dd[[v]] - mean(dd[[v]]))^2
     big <- refit(update(prep$formula, as.formula(paste0(". ~ . + `.sq.", v, "`"))))
-    a <- anova(base_fit, big, test = test_kind, dispersion = nb_disp)
-    list(term = paste(v, "squared"), statistic = if (fam == "quasipoisson") a$F[2] else a$Deviance[2], df = a$Df[2], p = a[2, ncol(a)])
+    c(list(term = paste(v, "squared")), nested(big))
   })
   smooths <- lapply(cont, function(t) {
     v <- t$variable
@@ -405,9 +407,7 @@ glm_reference_values <- function(name, spec, d, source) {
     others <- setdiff(vapply(mains, function(t) t$variable, ""), arm)
     if (length(others) > 0) {
       one <- function(cvs) {
-        big <- refit(update(prep$formula, as.formula(paste(". ~ . +", paste0("`", arm, "`:`", cvs, "`", collapse = " + ")))))
-        a <- anova(base_fit, big, test = test_kind, dispersion = nb_disp)
-        list(statistic = if (fam == "quasipoisson") a$F[2] else a$Deviance[2], df = a$Df[2], p = a[2, ncol(a)])
+        nested(refit(update(prep$formula, as.formula(paste(". ~ . +", paste0("`", arm, "`:`", cvs, "`", collapse = " + "))))))
       }
       homogeneity <- list(joint = one(others), byCovariate = lapply(others, function(cv) c(list(term = paste(arm, "by", cv)), one(cv))))
     }
@@ -423,7 +423,11 @@ glm_reference_values <- function(name, spec, d, source) {
     # log ratio of standardized means (risk or rate ratio) and log odds ratio by the delta method
     lrr <- summary(contrast(regrid(e, transform = "log"), method = "trt.vs.ctrl", ref = ref, adjust = "none"))
     lor <- if (fam == "binomial") summary(contrast(regrid(e, transform = "logit"), method = "trt.vs.ctrl", ref = ref, adjust = "none")) else NULL
-    # the misspecification-robust variance of Ye, Shao, Yi and Zhao (2023), written out in R
+    # the misspecification-robust variance of Ye, Shao, Yi and Zhao (2023), written out in R; it
+    # rests on the residuals averaging to zero within each arm, which a canonical link with an
+    # intercept and no prior weights guarantees (logit binomial, log Poisson and quasi-Poisson)
+    ye_applies <- ((fam == "binomial" && (is.null(link) || link == "logit")) || fam %in% c("poisson", "quasipoisson")) &&
+      is.null(spec$weights) && !isFALSE(spec$intercept)
     y <- fit$y
     preds <- sapply(lev, function(l) { nd <- dd; nd[[arm]] <- factor(l, levels = lev); contrasts(nd[[arm]]) <- contrasts(dd[[arm]]); predict(fit, nd, type = "response") })
     pi <- as.numeric(table(dd[[arm]])[lev]) / n
@@ -441,13 +445,14 @@ glm_reference_values <- function(name, spec, d, source) {
     m <- colMeans(preds)
     marginal <- list(
       means = lapply(seq_len(K), function(a) list(level = lev[a], estimate = s[[est_col]][a], se = s$SE[a],
-                                                 lower = s$asymp.LCL[a], upper = s$asymp.UCL[a], robustSe = sqrt(V[a, a]))),
+                                                 lower = s$asymp.LCL[a], upper = s$asymp.UCL[a], robustSe = if (ye_applies) sqrt(V[a, a]) else NA)),
       differences = lapply(seq_len(nrow(ct)), function(i) list(label = as.character(ct$contrast[i]), estimate = ct$estimate[i], se = ct$SE[i],
                                                            p = ct$p.value[i])),
       logRatio = lapply(seq_len(nrow(lrr)), function(i) list(estimate = lrr$estimate[i], se = lrr$SE[i])),
       logOddsRatio = if (is.null(lor)) NA else lapply(seq_len(nrow(lor)), function(i) list(estimate = lor$estimate[i], se = lor$SE[i])),
-      robustDifferenceSe = lapply(setdiff(seq_len(K), ref), function(a) sqrt(V[a, a] + V[ref, ref] - 2 * V[a, ref])),
-      robustLogRatioSe = lapply(setdiff(seq_len(K), ref), function(a) {
+      robustApplies = ye_applies,
+      robustDifferenceSe = if (!ye_applies) NA else lapply(setdiff(seq_len(K), ref), function(a) sqrt(V[a, a] + V[ref, ref] - 2 * V[a, ref])),
+      robustLogRatioSe = if (!ye_applies) NA else lapply(setdiff(seq_len(K), ref), function(a) {
         g <- rep(0, K); g[a] <- 1 / m[a]; g[ref] <- -1 / m[ref]; sqrt(drop(t(g) %*% V %*% g)) }))
   }
   vif_rows <- NA
@@ -525,3 +530,13 @@ run_glm_case("glm-warpbreaks-weighted", wb,
   list(response = "breaks", family = "poisson", terms = list(list(variable = "wool"), list(variable = "tension", reference = "L")),
        weights = "w"),
   "R datasets::warpbreaks with invented prior weights; weighted glm Poisson")
+ep <- MASS::epil[MASS::epil$period == 4, c("subject", "y", "trt", "base", "age")]
+ep$trt <- as.character(ep$trt)
+run_glm_case("glm-epil-quasipoisson", ep,
+  list(response = "y", family = "quasipoisson", terms = list(list(variable = "trt", reference = "placebo"),
+       list(variable = "base"), list(variable = "age")), id = "subject", treatment = "trt"),
+  "MASS::epil (Thall and Vail 1990), fourth period; glm quasi-Poisson, anova.glm F tests, emmeans counterfactuals")
+run_glm_case("glm-epil-negbin", ep,
+  list(response = "y", family = "negative-binomial", terms = list(list(variable = "trt", reference = "placebo"),
+       list(variable = "base"), list(variable = "age")), id = "subject", treatment = "trt"),
+  "MASS::epil (Thall and Vail 1990), fourth period; MASS::glm.nb, anova.negbin with theta re-estimated")
