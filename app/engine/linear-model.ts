@@ -14,7 +14,7 @@ import { readQqShape, type QqShape } from "./qq-shape";
 import { homogeneityOfSlopes, resetTest, type HomogeneityOfSlopes } from "./specification-tests";
 import { breuschPagan, brownForsythe, type BreuschPaganTest, type FTest } from "./spread";
 import { ENGINE_VERSION, RESULTS_CAUTION } from "./version";
-import { varianceInflation, type VifRow } from "./vif";
+import { predictorVarianceInflation, varianceInflation, type PredictorVifRow, type VifRow } from "./vif";
 import type { DataTable } from "./data";
 
 export type CovarianceType = "model" | "HC0" | "HC1" | "HC2" | "HC3";
@@ -131,6 +131,8 @@ export interface LinearModelResult {
   readonly observations: ObservationColumns;
   readonly tests: AssumptionTests;
   readonly vif: VifRow[];
+  /** Predictor-wise GVIF (each variable with its interactions; read by the collinearity check). */
+  readonly vifByPredictor: PredictorVifRow[];
   readonly qqShape: QqShape;
   readonly adjustedMeans: AdjustedMean[] | null;
   readonly contrasts: Contrast[] | null;
@@ -319,6 +321,7 @@ function assembleResult(ctx: LinearFitContext, diag: ObservationDiagnostics, opt
     },
     tests: fullTests,
     vif: varianceInflation(design, fit.unscaledCovariance),
+    vifByPredictor: predictorVarianceInflation(design, fit.unscaledCovariance),
     qqShape: readQqShape(diag.studentizedInternal),
     adjustedMeans: means ? [...means.means] : null,
     contrasts: means ? [...means.contrasts] : null,

@@ -193,6 +193,20 @@ reference_values <- function(name, spec, d, source, means_weighting = "equal") {
       vif_rows <- lapply(seq_along(v), function(i) list(term = names(v)[i], gvif = num(v[i]), df = 1, adjusted = sqrt(num(v[i]))))
     }
   }
+  # predictor-wise GVIF (each variable with the terms of the variables it interacts with);
+  # car gives it for unweighted linear models only
+  vif_predictor_rows <- NULL
+  if (n_terms >= 2 && is.null(w)) {
+    model_vars <- unique(c(vapply(prep$mains, function(t) t$variable, "")))
+    v <- suppressWarnings(suppressMessages(car::vif(fit, type = "predictor")))
+    rows <- if (is.data.frame(v)) {
+      lapply(seq_len(nrow(v)), function(i) list(predictor = rownames(v)[i], gvif = v[i, 1], df = v[i, 2], adjusted = v[i, 3]))
+    } else {
+      preds <- all.vars(formula(fit)[-2])
+      lapply(seq_along(v), function(i) list(predictor = preds[i], gvif = num(v[i]), df = 1, adjusted = sqrt(num(v[i]))))
+    }
+    vif_predictor_rows <- Filter(function(r) r$predictor %in% model_vars, rows)
+  }
 
   spec$reset_skip <- NULL
   model_path <- file.path(root, "models", paste0(name, ".json"))
@@ -202,6 +216,7 @@ reference_values <- function(name, spec, d, source, means_weighting = "equal") {
               n = n, rank = fit$rank, dfResidual = fit$df.residual, excluded = nrow(d) - n,
               coefficients = coefficients, robustSE = robust, fit = fitstats, observations = observations,
               tests = tests, vif = if (is.null(vif_rows)) NA else vif_rows,
+              vifByPredictor = if (is.null(vif_predictor_rows)) NA else vif_predictor_rows,
               adjustedMeans = if (is.null(adjusted)) NA else adjusted)
   writeLines(toJSON(out, auto_unbox = TRUE, digits = NA, na = "null", pretty = FALSE),
              file.path(root, "values", paste0(name, ".json")))
@@ -297,6 +312,14 @@ run_case("invented-offset", data.frame(y = y, x1 = x1, x2 = x2, off = off),
   list(response = "y", family = "gaussian", terms = list(list(variable = "x1"), list(variable = "x2"),
        list(interaction = list("x1", "x2"))), offset = "off"),
   "invented data (R set.seed(7)); lm with offset")
+
+# 10. treatment by an uncentred baseline (mean about 50): the term-wise GVIF of the arm is large
+# without any collinearity; the predictor-wise GVIF is not (car::vif(type = "predictor"))
+run_case("trial-arm-by-baseline", trial,
+  list(response = "chg", family = "gaussian", terms = list(list(variable = "arm", reference = "Placebo"),
+       list(variable = "base"), list(variable = "age"), list(variable = "sex"), list(interaction = list("arm", "base"))),
+       id = "subject", treatment = "arm"),
+  "invented trial data (R set.seed(20261202)); lm with an arm-by-baseline interaction, car::vif by term and by predictor")
 
 # ---- generalized linear models -------------------------------------------------------------
 # R's glm with its influence functions, MASS::glm.nb for the negative binomial, MASS's profile

@@ -7,6 +7,7 @@ import { readFileSync, readdirSync } from "node:fs";
 import { join } from "node:path";
 import { describe, expect, it } from "vitest";
 import { fitLinear as fitModel, type LinearModelResult } from "~/engine";
+import { defaultChecks, evaluateChecks } from "~/engine/checks";
 import { readCsvText } from "~/engine-io/read-csv";
 import { expectAllClose, expectClose } from "./compare";
 
@@ -42,6 +43,7 @@ interface RCase {
   };
   tests: Record<string, RTest & { byCovariate?: (RTest & { covariate: string })[] }>;
   vif: { term: string; gvif: number; df: number; adjusted: number }[] | null;
+  vifByPredictor: { predictor: string; gvif: number; df: number; adjusted: number }[] | null;
   adjustedMeans: {
     means: { level: string; estimate: number; se: number; lower: number; upper: number }[];
     contrasts: { label: string; estimate: number; se: number; statistic: number; p: number; lower: number; upper: number }[];
@@ -160,6 +162,19 @@ describe.each(cases.map((c) => [c.case, c] as const))("reference case %s", (_nam
     });
   });
 
+  it('predictor-wise GVIF (car::vif(type = "predictor")) and the collinearity check that reads it', () => {
+    if (!c.vifByPredictor) return;
+    expect(result.vifByPredictor.map((v) => v.predictor)).toEqual(c.vifByPredictor.map((v) => v.predictor));
+    c.vifByPredictor.forEach((v, i) => {
+      expectClose(result.vifByPredictor[i].gvif, v.gvif, EST, `predictor GVIF ${v.predictor}`);
+      expect(result.vifByPredictor[i].df).toBe(v.df);
+      expectClose(result.vifByPredictor[i].adjusted, v.adjusted, EST, `predictor GVIF^(1/2df) ${v.predictor}`);
+    });
+    const gvif = evaluateChecks(result, defaultChecks(result.spec.treatment !== undefined)).find((k) => k.key === "gvif");
+    const threshold = Math.sqrt(5);
+    expect(gvif?.outcome).toBe(c.vifByPredictor.some((v) => v.adjusted > threshold) ? "finding" : "within");
+  });
+
   it("adjusted means and contrasts against the reference arm, model-based and HC3 (emmeans)", () => {
     const am = c.adjustedMeans;
     if (!am) {
@@ -193,5 +208,18 @@ describe.each(cases.map((c) => [c.case, c] as const))("reference case %s", (_nam
       expectClose(ours.hc3.p, h.p, PVAL, `HC3 contrast p ${k.label}`);
       expectClose(ours.hc3.upper, h.upper, EST, `HC3 contrast upper ${k.label}`);
     });
+  });
+});
+
+describe("collinearity check on a treatment by uncentred baseline interaction (reference: car::vif, case trial-arm-by-baseline)", () => {
+  const c = cases.find((k) => k.case === "trial-arm-by-baseline");
+  it("the term-wise GVIF of the arm is severe in R, the predictor-wise one is not, and the check follows the latter", () => {
+    expect(c).toBeDefined();
+    if (!c?.vif || !c.vifByPredictor) throw new Error("reference case lacks GVIF values");
+    const threshold = Math.sqrt(5);
+    expect(c.vif.find((v) => v.term === "arm")?.adjusted).toBeGreaterThan(threshold);
+    expect(c.vifByPredictor.every((v) => v.adjusted < threshold)).toBe(true);
+    const result = rerun(c);
+    expect(evaluateChecks(result, defaultChecks(true)).find((k) => k.key === "gvif")?.outcome).toBe("within");
   });
 });

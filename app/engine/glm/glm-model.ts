@@ -14,7 +14,7 @@ import type { FitMethod, VariableSummary } from "../linear-model";
 import { CANONICAL_LINK, type Link, type ModelSpec } from "../model-spec";
 import { readQqShape, type QqShape } from "../qq-shape";
 import { ENGINE_VERSION, RESULTS_CAUTION } from "../version";
-import { varianceInflation, type VifRow } from "../vif";
+import { predictorVarianceInflation, varianceInflation, type PredictorVifRow, type VifRow } from "../vif";
 import {
   binnedResiduals,
   calibration,
@@ -169,6 +169,8 @@ export interface GlmResult {
   readonly checks: GlmChecks;
   readonly binnedResiduals: BinnedResidual[] | null;
   readonly vif: VifRow[];
+  /** Predictor-wise GVIF (each variable with its interactions; read by the collinearity check). */
+  readonly vifByPredictor: PredictorVifRow[];
   readonly qqShape: QqShape;
   readonly marginalEffects: MarginalEffects | null;
   /** Plain-words notes on the fit (iteration limit reached, few events per variable). */
@@ -542,6 +544,7 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     checks,
     binnedResiduals: familyName === "binomial" ? binnedResiduals(y, mu) : null,
     vif: varianceInflation(design, wfit.unscaledCovariance),
+    vifByPredictor: predictorVarianceInflation(design, wfit.unscaledCovariance),
     qqShape: readQqShape(quantile),
     marginalEffects: marginal,
     notes,
