@@ -2,7 +2,7 @@
  * The linear model rerun: complete-case data, design, (weighted) least squares, inference,
  * observation-level diagnostics, tests of assumptions, variance inflation and adjusted means.
  */
-import { adjustedMeans, type AdjustedMean, type Contrast, type MeansWeighting } from "./adjusted-means";
+import { adjustedMeans, type AdjustedMean, type AdjustedMeansGrid, type Contrast, type MeansWeighting } from "./adjusted-means";
 import { buildDesign, prepareData, type Design, type PreparedData, type Variable } from "./design";
 import { observationDiagnostics, partialResiduals, robustCovariances, type ObservationDiagnostics } from "./diagnostics";
 import { fUpper, tQuantile, tTwoSided } from "./distributions";
@@ -137,6 +137,8 @@ export interface LinearModelResult {
   readonly adjustedMeans: AdjustedMean[] | null;
   readonly contrasts: Contrast[] | null;
   readonly adjustedMeansWeighting: MeansWeighting | null;
+  /** Covariate values and cell weights the adjusted means average over. */
+  readonly adjustedMeansGrid?: AdjustedMeansGrid | null;
 }
 
 /** What the tests and adjusted means read from a fitted model. */
@@ -326,5 +328,6 @@ function assembleResult(ctx: LinearFitContext, diag: ObservationDiagnostics, opt
     adjustedMeans: means ? [...means.means] : null,
     contrasts: means ? [...means.contrasts] : null,
     adjustedMeansWeighting: means ? means.weighting : null,
+    adjustedMeansGrid: means ? means.grid : null,
   };
 }

@@ -179,8 +179,20 @@ reference_values <- function(name, spec, d, source, means_weighting = "equal") {
     }
     model_based <- emm_summary(NULL)
     hc3 <- emm_summary(vcovHC(fit, type = "HC3"))
+    # the grid emmeans averages over: covariates at their means, cells of the other factors
+    # with equal weights or weights proportional to their frequencies over all arms
+    g <- ref_grid(fit)@grid
+    cont_names <- vapply(cont, function(t) t$variable, "")
+    grid_covariates <- lapply(intersect(cont_names, names(g)), function(v) list(variable = v, value = unique(g[[v]])))
+    other_factors <- setdiff(vapply(Filter(function(t) is.factor(dd[[t$variable]]), prep$mains), function(t) t$variable, ""), arm)
+    grid_cells <- if (length(other_factors) == 0) list(list(levels = character(0), weight = 1)) else {
+      agg <- aggregate(g$.wgt., by = g[other_factors], FUN = sum)
+      wts <- if (means_weighting == "proportional") agg$x / sum(agg$x) else rep(1 / nrow(agg), nrow(agg))
+      lapply(seq_len(nrow(agg)), function(i) list(levels = I(vapply(other_factors, function(f) as.character(agg[[f]][i]), "")), weight = wts[i]))
+    }
     adjusted <- list(weighting = means_weighting, means = model_based$means, contrasts = model_based$contrasts,
-                     hc3Means = hc3$means, hc3Contrasts = hc3$contrasts)
+                     hc3Means = hc3$means, hc3Contrasts = hc3$contrasts,
+                     grid = list(covariates = grid_covariates, factors = I(other_factors), cells = grid_cells))
   } else adjusted <- NULL
 
   n_terms <- length(attr(terms(fit), "term.labels"))
@@ -217,6 +229,7 @@ reference_values <- function(name, spec, d, source, means_weighting = "equal") {
               coefficients = coefficients, robustSE = robust, fit = fitstats, observations = observations,
               tests = tests, vif = if (is.null(vif_rows)) NA else vif_rows,
               vifByPredictor = if (is.null(vif_predictor_rows)) NA else vif_predictor_rows,
+              vcov = lapply(seq_len(ncol(vcov(fit))), function(i) num(vcov(fit)[i, ])),
               adjustedMeans = if (is.null(adjusted)) NA else adjusted)
   writeLines(toJSON(out, auto_unbox = TRUE, digits = NA, na = "null", pretty = FALSE),
              file.path(root, "values", paste0(name, ".json")))
@@ -492,7 +505,8 @@ glm_reference_values <- function(name, spec, d, source) {
               smooths = if (length(smooths) == 0) NA else smooths,
               hosmerLemeshow = if (is.null(hl)) NA else hl,
               homogeneity = if (is.null(homogeneity)) NA else homogeneity,
-              vif = vif_rows, marginal = if (is.null(marginal)) NA else marginal)
+              vif = vif_rows, marginal = if (is.null(marginal)) NA else marginal,
+              vcov = lapply(seq_len(ncol(vcov(fit))), function(i) num(vcov(fit)[i, ])))
   writeLines(toJSON(out, auto_unbox = TRUE, digits = NA, na = "null", pretty = FALSE),
              file.path(root, "values", paste0(name, ".json")))
   cat("wrote", name, "\n")

@@ -34,6 +34,8 @@ interface RGlmCase {
   linearity: { term: string; statistic: number; df: number; p: number }[] | null;
   homogeneity: { joint: { statistic: number; df: number; p: number }; byCovariate: { term: string; statistic: number; df: number; p: number }[] } | null;
   vif: { term: string; gvif: number; df: number; adjusted: number }[] | null;
+  /** stats::vcov (summary.glm's dispersion), by rows. */
+  vcov: number[][];
   smooths: { term: string; x: number[]; y: number[] }[] | null;
   hosmerLemeshow: { statistic: number; df: number; p: number } | null;
   marginal: {
@@ -152,6 +154,11 @@ describe.each(cases.map((c) => [c.case, c] as const))("GLM reference case %s", (
       expect(result.checks.calibration?.df).toBe(c.hosmerLemeshow.df);
       expectClose(result.checks.calibration?.p, c.hosmerLemeshow.p, PVAL, "Hosmer–Lemeshow p");
     }
+  });
+
+  it("coefficient covariance matrix (stats::vcov)", () => {
+    expect(result.covariance.length).toBe(c.vcov.length);
+    c.vcov.forEach((row, i) => expectAllClose(result.covariance[i], row, TOL, `vcov row ${i}`));
   });
 
   it("generalized VIF (car::vif)", () => {

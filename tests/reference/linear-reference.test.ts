@@ -44,11 +44,15 @@ interface RCase {
   tests: Record<string, RTest & { byCovariate?: (RTest & { covariate: string })[] }>;
   vif: { term: string; gvif: number; df: number; adjusted: number }[] | null;
   vifByPredictor: { predictor: string; gvif: number; df: number; adjusted: number }[] | null;
+  /** stats::vcov, by rows. */
+  vcov: number[][];
   adjustedMeans: {
     means: { level: string; estimate: number; se: number; lower: number; upper: number }[];
     contrasts: { label: string; estimate: number; se: number; statistic: number; p: number; lower: number; upper: number }[];
     hc3Means: { level: string; estimate: number; se: number; lower: number; upper: number }[];
     hc3Contrasts: { label: string; estimate: number; se: number; statistic: number; p: number; lower: number; upper: number }[];
+    /** emmeans::ref_grid: covariate values and the weights of the other factors' cells. */
+    grid: { covariates: { variable: string; value: number }[]; factors: string[]; cells: { levels: string[]; weight: number }[] };
   } | null;
 }
 
@@ -173,6 +177,25 @@ describe.each(cases.map((c) => [c.case, c] as const))("reference case %s", (_nam
     const gvif = evaluateChecks(result, defaultChecks(result.spec.treatment !== undefined)).find((k) => k.key === "gvif");
     const threshold = Math.sqrt(5);
     expect(gvif?.outcome).toBe(c.vifByPredictor.some((v) => v.adjusted > threshold) ? "finding" : "within");
+  });
+
+  it("coefficient covariance matrix (stats::vcov)", () => {
+    expect(result.covariance.length).toBe(c.vcov.length);
+    c.vcov.forEach((row, i) => expectAllClose(result.covariance[i], row, EST, `vcov row ${i}`));
+  });
+
+  it("adjusted-means grid: covariate values and cell weights (emmeans::ref_grid)", () => {
+    const g = c.adjustedMeans?.grid;
+    if (!g) return;
+    const ours = result.adjustedMeansGrid;
+    expect(ours).toBeTruthy();
+    if (!ours) return;
+    expect(ours.covariates.map((v) => v.variable)).toEqual(g.covariates.map((v) => v.variable));
+    g.covariates.forEach((v, i) => expectClose(ours.covariates[i].value, v.value, EST, `grid value of ${v.variable}`));
+    expect(ours.factors).toEqual(g.factors);
+    const weightOf = new Map(ours.cells.map((cell) => [cell.levels.join("|"), cell.weight]));
+    expect(ours.cells.filter((cell) => cell.weight > 0).length).toBe(g.cells.filter((cell) => cell.weight > 0).length);
+    g.cells.forEach((cell) => expectClose(weightOf.get(cell.levels.join("|")), cell.weight, EST, `weight of cell ${cell.levels.join(", ")}`));
   });
 
   it("adjusted means and contrasts against the reference arm, model-based and HC3 (emmeans)", () => {
