@@ -31,7 +31,8 @@ const KEYS = ["n", "excluded", "rank", "dfResidual", "coefficients", "covariance
 
 describe("headless rerun command", () => {
   it("answers the contract on reference cases (R values, relative 1e-8 / p 1e-6)", async () => {
-    const cases = ["trial-ancova", "warpbreaks-interaction", "mtcars-missing"];
+    // strong-effect: p-values near 1e-28 must reach the JSON as R computes them, not as 0
+    const cases = ["trial-ancova", "warpbreaks-interaction", "mtcars-missing", "strong-effect"];
     const runs = await Promise.all(
       cases.map((c) => runCli(["fit", "--data", join(REF, "data", `${c}.csv`), "--model", join(REF, "models", `${c}.json`)])),
     );

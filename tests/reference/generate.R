@@ -334,6 +334,19 @@ run_case("trial-arm-by-baseline", trial,
        id = "subject", treatment = "arm"),
   "invented trial data (R set.seed(20261202)); lm with an arm-by-baseline interaction, car::vif by term and by predictor")
 
+# 11. clear effects on many rows: t about 10 to 20 on about 1200 df, so t² < df and p-values far
+# below 1e-15 must come out as R computes them (2 * pt(-|t|, df)), not as one minus a number near
+# one (invented; seeded)
+set.seed(11)
+ns <- 1200
+s_arm <- rep(c("Control", "Active"), each = ns / 2)
+s_x <- round(runif(ns, 0, 10), 2)
+s_y <- round(1 + 0.45 * (s_arm == "Active") + 0.05 * s_x + rnorm(ns, 0, 0.5), 4)
+run_case("strong-effect", data.frame(subject = sprintf("E%02d", seq_len(ns)), arm = s_arm, x = s_x, y = s_y),
+  list(response = "y", family = "gaussian", terms = list(list(variable = "arm", reference = "Control"), list(variable = "x")),
+       id = "subject", treatment = "arm"),
+  "invented data (R set.seed(11)); lm with p-values far below 1e-15 (summary.lm, emmeans)")
+
 # ---- generalized linear models -------------------------------------------------------------
 # R's glm with its influence functions, MASS::glm.nb for the negative binomial, MASS's profile
 # intervals (confint), sandwich::vcovHC, car::vif, and emmeans counterfactual grids for the
@@ -577,3 +590,13 @@ run_glm_case("glm-epil-negbin", ep,
   list(response = "y", family = "negative-binomial", terms = list(list(variable = "trt", reference = "placebo"),
        list(variable = "base"), list(variable = "age")), id = "subject", treatment = "trt"),
   "MASS::epil (Thall and Vail 1990), fourth period; MASS::glm.nb, anova.negbin with theta re-estimated")
+# a rate ratio of ten: Wald p-values near 1e-200 (summary.glm: 2 * pnorm(-|z|)); invented, seeded
+set.seed(12)
+np_ <- 80
+p_arm <- rep(c("Control", "Active"), each = np_ / 2)
+p_x <- round(rnorm(np_), 2)
+p_y <- rpois(np_, exp(log(6) + log(10) * (p_arm == "Active") + 0.2 * p_x))
+run_glm_case("glm-strong-effect", data.frame(subject = sprintf("P%02d", seq_len(np_)), arm = p_arm, x = p_x, y = p_y),
+  list(response = "y", family = "poisson", terms = list(list(variable = "arm", reference = "Control"), list(variable = "x")),
+       id = "subject", treatment = "arm"),
+  "invented data (R set.seed(12)); glm Poisson with Wald p-values near 1e-200")
