@@ -13,7 +13,8 @@ export interface ContrastView {
   lower: number;
   upper: number;
   p: number;
-  hc3: { se: number; lower: number; upper: number; p: number };
+  /** Null where the robust alternative does not apply (Ye et al. for a non-canonical GLM). */
+  hc3: { se: number; lower: number; upper: number; p: number } | null;
 }
 
 /**
@@ -41,7 +42,7 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
     lower: c.lower,
     upper: c.upper,
     p: c.p,
-    hc3: { se: c.robust.se, lower: c.robust.lower, upper: c.robust.upper, p: c.robust.p },
+    hc3: c.robust ? { se: c.robust.se, lower: c.robust.lower, upper: c.robust.upper, p: c.robust.p } : null,
   }));
 }
 
@@ -53,7 +54,7 @@ export function reportedContrasts(doc: RerunDocument): { label: string; estimate
   const robust = doc.options.variant === "robust_hc3";
   const all = contrastsOf(doc);
   const headline = doc.result.kind === "glm" && doc.result.family === "binomial" ? all.filter((c) => c.label.endsWith("(risk difference)")) : all;
-  return headline.map((c) => ({ label: c.label, estimate: c.estimate, ...(robust ? { lower: c.hc3.lower, upper: c.hc3.upper, p: c.hc3.p } : { lower: c.lower, upper: c.upper, p: c.p }) }));
+  return headline.map((c) => ({ label: c.label, estimate: c.estimate, ...(robust && c.hc3 ? { lower: c.hc3.lower, upper: c.hc3.upper, p: c.hc3.p } : { lower: c.lower, upper: c.upper, p: c.p }) }));
 }
 
 /** Check texts name the most extreme subject; without the right to see subjects, they say "a subject". */
