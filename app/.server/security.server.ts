@@ -81,14 +81,41 @@ async function enforceBodyLimit(request: Request, limit: number): Promise<Respon
     if (done) break;
     seen += value.byteLength;
     if (seen > limit) {
-      // Stop reading, but do not cancel: cancelling destroys the connection before the answer is sent.
-      reader.releaseLock();
-      return bodyTooLarge(`The request body is more than ${limit} bytes; the limit is ${limit} bytes.`);
+      // No "Connection: close" here: the server would close at once, with the client's bytes unread.
+      void discardRest(reader);
+      return plain(413, `The request body is more than ${limit} bytes; the limit is ${limit} bytes.`);
     }
     chunks.push(value);
   }
   replaceBody(request, Buffer.concat(chunks));
   return null;
+}
+
+/**
+ * After a refusal, reads and drops what the client is still sending for a short while (at most
+ * LINGER_MS or LINGER_BYTES), so the 413 reaches a client that reads its answer only once it has
+ * sent everything: closing a connection with unread bytes resets it, and the answer is lost.
+ * Nothing is kept. A client still sending after that loses its connection.
+ */
+const LINGER_MS = 2_000;
+const LINGER_BYTES = 64 * 1024 * 1024;
+
+async function discardRest(reader: ReadableStreamDefaultReader<Uint8Array>): Promise<void> {
+  const until = Date.now() + LINGER_MS;
+  let dropped = 0;
+  const timer = setTimeout(() => void reader.cancel().catch(() => undefined), LINGER_MS);
+  try {
+    while (Date.now() < until && dropped < LINGER_BYTES) {
+      const { done, value } = await reader.read();
+      if (done) return;
+      dropped += value.byteLength;
+    }
+    await reader.cancel();
+  } catch {
+    // the client went away: nothing more to drop
+  } finally {
+    clearTimeout(timer);
+  }
 }
 
 /**
