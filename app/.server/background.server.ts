@@ -4,11 +4,10 @@
  */
 import { startJobWorker } from "./jobs/jobs.server";
 import { startMailRetries } from "./mail/outbox.server";
-import { failRerunOfJob, RERUN_JOB } from "./reruns/reruns.server";
+// Registers the rerun job's handler and failure hook.
+import "./reruns/reruns.server";
 
 export function startBackgroundWork(): void {
-  startJobWorker(async (job) => {
-    if (job.kind === RERUN_JOB) await failRerunOfJob(job);
-  });
+  startJobWorker();
   startMailRetries();
 }
