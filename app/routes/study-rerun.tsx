@@ -16,7 +16,7 @@ import { StatusLabel } from "~/components/status";
 import { canonicalJson } from "~/.server/audit.server";
 import { loadLockedTable } from "~/.server/datasets/catalog.server";
 import { actorOf } from "~/.server/people.server";
-import { keptWhatIfInputs, rerunTable } from "~/.server/reruns/what-if.server";
+import { exclusionProblem, keptWhatIfInputs, rerunTable } from "~/.server/reruns/what-if.server";
 import { getPlannedModel } from "~/.server/plans/plans.server";
 import { SENSITIVITY_KINDS, SENSITIVITY_LABELS, type PlannedSensitivity } from "~/.server/plans/planned-model";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
@@ -165,6 +165,8 @@ export async function action({ request, params }: Route.ActionArgs): Promise<Act
       }
       case "whatif-save": {
         const rows = input.rows.split(",").map(Number).sort((a, b) => a - b);
+        const problem = r.doc ? exclusionProblem(r.doc, rows) : "The what-if opens when the rerun has completed.";
+        if (problem) return { error: problem, fieldErrors: { rows: problem } };
         const planned = await getPlannedModel(r.rerun.plannedModelId);
         const flagged = (r.doc?.checks.find((c) => c.key === "cooks_distance")?.flagged ?? []).map((f) => f.row).sort((a, b) => a - b);
         const prespecified = planned.sensitivity.some((s) => s.kind === "exclude_influential") && JSON.stringify(rows) === JSON.stringify(flagged);
