@@ -151,3 +151,18 @@ describe("dataset lock is an electronic signature", () => {
     await page.context().close();
   });
 });
+
+describe("segregation of duties", () => {
+  it("an administrator who gives himself a study role is refused on the page, and the refusal is audited", async () => {
+    const page = await signedIn("Morgan Reyes");
+    await page.goto(`${stack.appUrl}/admin/people`);
+    await page.getByLabel("Role of Morgan Reyes on QMT-301").selectOption("biostatistician");
+    await page.getByRole("button", { name: "Save role of Morgan Reyes on QMT-301" }).click();
+    await page.getByRole("alert").filter({ hasText: /another administrator must grant it/ }).waitFor();
+    await screenshot(page, "self-grant-refused");
+    const morgan = await personId(stack, "morgan.reyes@plumbline.example");
+    expect(await one("SELECT count(*) FROM study_memberships WHERE person_id = ? AND study_id = ?", [morgan, studyId])).toBe("0");
+    expect(Number(await one("SELECT count(*) FROM audit_events WHERE action = 'membership.self_grant_refused' AND actor_id = ?", [morgan]))).toBeGreaterThan(0);
+    await page.context().close();
+  });
+});
