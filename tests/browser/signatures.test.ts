@@ -156,7 +156,7 @@ describe("segregation of duties", () => {
   it("an administrator who gives himself a study role is refused on the page, and the refusal is audited", async () => {
     const page = await signedIn("Morgan Reyes");
     await page.goto(`${stack.appUrl}/admin/people`);
-    await page.getByLabel("Role of Morgan Reyes on QMT-301").selectOption("biostatistician");
+    await page.getByLabel("Role of Morgan Reyes on QMT-301", { exact: true }).selectOption("biostatistician");
     await page.getByRole("button", { name: "Save role of Morgan Reyes on QMT-301" }).click();
     await page.getByRole("alert").filter({ hasText: /another administrator must grant it/ }).waitFor();
     await screenshot(page, "self-grant-refused");
