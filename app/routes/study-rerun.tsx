@@ -26,6 +26,8 @@ import type { RerunOptions } from "~/.server/reruns/rerun-options";
 import { reportedContrasts, rerunView, withoutSubjectNames } from "~/.server/reruns/rerun-view.server";
 import { getRerun, rerunDocumentOf, sameInputReruns, sensitivityReruns, startRerun, type RerunDocument } from "~/.server/reruns/reruns.server";
 import { requireStudy } from "~/.server/study-access.server";
+import { reauthenticationPath, reauthNotice, SIGNATURE_MEANINGS } from "~/.server/signatures.server";
+import { ReauthNotice, SigningExplainer } from "~/components/signing";
 
 export function meta({ loaderData }: Route.MetaArgs) {
   return [{ title: `Rerun ${loaderData?.model.key ?? ""} · ${loaderData?.code ?? ""} · Plumbline` }];
@@ -123,6 +125,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
       assess: allowed.has("finding.assess") && !r.rerun.signedAt,
       sign: verdict,
     },
+    signing: { meaning: SIGNATURE_MEANINGS.rerun, notice: reauthNotice(request) },
     whatIf,
   };
 }
@@ -194,8 +197,7 @@ export async function action({ request, params }: Route.ActionArgs): Promise<Act
       case "sign": {
         const verdict = await canSign(user, r.rerun.id);
         if (!verdict.ok && verdict.reauthenticate) {
-          const back = `/studies/${study.id}/reruns/${r.rerun.id}#sign-off`;
-          return redirect(`/auth/saml/login?fresh=1&returnTo=${encodeURIComponent(back)}`);
+          return redirect(reauthenticationPath(`/studies/${study.id}/reruns/${r.rerun.id}#sign-off`));
         }
         await signRerun({ ...actor, signedInAt: user.signedInAt }, study.id, r.rerun.id);
         return { error: null, fieldErrors: {} };
@@ -559,6 +561,7 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
           <h2 id="sign-h" className="mb-2">
             Sign-off
           </h2>
+          {loaderData.signatures.length === 0 && !can.sign?.ok && !can.sign?.reauthenticate ? <ReauthNotice notice={loaderData.signing.notice} /> : null}
           {loaderData.signatures.length > 0 ? (
             loaderData.signatures.map((s) => (
               <p key={s.at} className="text-sm">
@@ -569,11 +572,9 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
             can.sign.ok || can.sign.reauthenticate ? (
               <Form method="post" className="space-y-2">
                 <input type="hidden" name="intent" value="sign" />
-                <p className="text-sm">
-                  Signing records your name, the time and the meaning <span className="font-semibold">“Reviewed and approved”</span>, makes this rerun unchangeable and
-                  publishes it to the sponsor readers.
-                  {can.sign.ok ? "" : " You will be asked to sign in again first."}
-                </p>
+                <ReauthNotice notice={loaderData.signing.notice} />
+                <SigningExplainer act="Signing" meaning={loaderData.signing.meaning} fresh={can.sign.ok} />
+                <p className="text-sm">Signing makes this rerun unchangeable and publishes it to the sponsor readers.</p>
                 <button type="submit" className="btn" disabled={busy}>
                   Sign this rerun
                 </button>

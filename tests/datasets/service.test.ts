@@ -89,7 +89,7 @@ describe("screen, removal, lock and versions", () => {
     const rules = detail?.hits.map((h) => `${h.column}:${h.rule}`).sort();
     expect(rules).toEqual(["brthdt:date", "contact:email", "usubjid:subject_code"]);
     expect(detail?.hits.find((h) => h.rule === "email")?.maskedExamples[0]).toBe("a••@e••••••.o••");
-    const refused = await svc.lockVersion(dana, studyId, draftId);
+    const refused = await svc.lockVersion({ ...dana, signedInAt: new Date().toISOString() }, studyId, draftId);
     expect(refused.ok).toBe(false);
     if (!refused.ok) expect(refused.message).toMatch(/Resolve the identifier screen first: "usubjid", "contact", "brthdt" are still flagged/);
   });
@@ -115,7 +115,7 @@ describe("screen, removal, lock and versions", () => {
     const short = await svc.recordNotIdentifier(dana, studyId, subj?.id ?? "", "code");
     expect(short.ok).toBe(false);
     expect((await svc.recordNotIdentifier(dana, studyId, subj?.id ?? "", "Pseudonymous subject code")).ok).toBe(true);
-    const locked = await svc.lockVersion(dana, studyId, b.versionId);
+    const locked = await svc.lockVersion({ ...dana, signedInAt: new Date().toISOString() }, studyId, b.versionId);
     expect(locked.ok).toBe(true);
     const { table, typed } = await catalog.loadLockedTable(b.versionId);
     expect(table.columns).toEqual({ usubjid: ["S-1", "S-2"], age: ["55", "45"] });

@@ -82,8 +82,8 @@ describe("analysis plan", () => {
     // A second editor working from the old revision is refused, not silently overwritten.
     await expect(plans.savePlannedModel(tomas, studyId, versionId, 1, modelId, { ...v.model, title: "Overwritten" })).rejects.toThrow(/Someone else saved this plan version/);
     await plans.submitForApproval(priya, studyId, versionId, 2);
-    await expect(plans.approvePlanVersion(priya, studyId, versionId)).rejects.toThrow(/two-person rule/);
-    await plans.approvePlanVersion(tomas, studyId, versionId);
+    await expect(plans.approvePlanVersion({ ...priya, signedInAt: new Date().toISOString() }, studyId, versionId)).rejects.toThrow(/two-person rule/);
+    await plans.approvePlanVersion({ ...tomas, signedInAt: new Date().toISOString() }, studyId, versionId);
     const { version } = await plans.getPlanVersion(studyId, versionId);
     expect(version.status).toBe("approved");
     expect(version.approvedBy).toBe(tomas.id);
@@ -188,7 +188,7 @@ describe("generalized linear planned models on the demo study", () => {
     countsId = await plans.savePlannedModel(priya, studyId, v, 1, null, form({ key: "flares", title: "Flare rate", response: "flares", family: "poisson", offset: "logexp" }, ["stratum", "region"], ["negative_binomial", "quasi_poisson"]));
     responderId = await plans.savePlannedModel(priya, studyId, v, 2, null, form({ key: "responder", title: "Responders at week 12", response: "resp", family: "binomial" }, ["base", "stratum", "region", "sex", "age"], []));
     await plans.submitForApproval(priya, studyId, v, 3);
-    await plans.approvePlanVersion(tomas, studyId, v);
+    await plans.approvePlanVersion({ ...tomas, signedInAt: new Date().toISOString() }, studyId, v);
   });
 
   it("reports the planted overdispersion of the flare counts as a finding, at R's Pearson χ²/df", async () => {
@@ -233,7 +233,7 @@ describe("a planned model that cannot be estimated as planned", () => {
     const pv = await plans.getPlanVersion(studyId, next);
     await plans.savePlannedModel(priya, studyId, next, pv.version.revision, m.id, broken);
     await plans.submitForApproval(priya, studyId, next, pv.version.revision + 1);
-    await plans.approvePlanVersion(tomas, studyId, next);
+    await plans.approvePlanVersion({ ...tomas, signedInAt: new Date().toISOString() }, studyId, next);
     const id = await reruns.startRerun(priya, studyId, { plannedModelId: m.id, datasetVersionId, options: { variant: "planned" } });
     await drain();
     const r = await reruns.getRerun(studyId, id);
