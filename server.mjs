@@ -3,8 +3,7 @@
  * files and a request log, as `react-router-serve` runs it, plus the headers static files need
  * as much as pages do. `react-router-serve` answers static files before any route middleware
  * runs (app/.server/security.server.ts never sees them) and offers no way to add headers to
- * them, so Plumbline starts its own: every answer, static or not, carries
- * `X-Content-Type-Options: nosniff`.
+ * them, so Plumbline starts its own: static files carry `X-Content-Type-Options: nosniff` too.
  *
  * Usage: node server.mjs build/server/index.js (PORT, HOST as for react-router-serve).
  */
@@ -21,15 +20,13 @@ const build = await import(url.pathToFileURL(buildPath).href);
 
 const app = express();
 app.disable("x-powered-by");
-app.use((_req, res, next) => {
-  res.setHeader("X-Content-Type-Options", "nosniff");
-  next();
-});
 app.use(compression());
+// The app's own answers get nosniff from the security middleware; static files here.
+const setHeaders = (res) => res.setHeader("X-Content-Type-Options", "nosniff");
 // Fingerprinted build output never changes under its name; other files may.
-app.use(path.posix.join(build.publicPath, "assets"), express.static(path.join(build.assetsBuildDirectory, "assets"), { immutable: true, maxAge: "1y" }));
-app.use(build.publicPath, express.static(build.assetsBuildDirectory));
-app.use(express.static("public", { maxAge: "1h" }));
+app.use(path.posix.join(build.publicPath, "assets"), express.static(path.join(build.assetsBuildDirectory, "assets"), { immutable: true, maxAge: "1y", setHeaders }));
+app.use(build.publicPath, express.static(build.assetsBuildDirectory, { setHeaders }));
+app.use(express.static("public", { maxAge: "1h", setHeaders }));
 app.use(morgan("tiny"));
 app.all("*", createRequestHandler({ build, mode: process.env.NODE_ENV }));
 
