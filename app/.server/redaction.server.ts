@@ -15,7 +15,7 @@ import { inArray } from "drizzle-orm";
 import type { CheckOutcome } from "~/engine/checks";
 import { loadLockedTable } from "./datasets/catalog.server";
 import { db, t } from "./db/index.server";
-import { rerunDocumentOf, type RerunDocument } from "./reruns/reruns.server";
+import type { RerunDocument } from "./reruns/reruns.server";
 
 export const WITHHELD = "(id withheld)";
 
@@ -177,6 +177,8 @@ export async function redactionFor(seesSubjects: boolean, reruns: readonly { doc
 /** The same, for reruns known by id (a deviation log, a list). */
 export async function redactionForReruns(seesSubjects: boolean, rerunIds: readonly string[]): Promise<Redaction> {
   if (seesSubjects) return IDENTITY;
+  // loaded when called: the reruns module sends notifications, which are redacted here
+  const { rerunDocumentOf } = await import("./reruns/reruns.server");
   const unique = [...new Set(rerunIds)];
   const rows = unique.length
     ? await db
