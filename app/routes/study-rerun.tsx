@@ -71,7 +71,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const comparison = r.doc
     ? [
         { id: r.rerun.id, label: "Primary analysis as planned", prespecified: true, primary: true, status: r.rerun.status, contrasts: reportedContrasts(r.doc) },
-        ...childDocs.map(({ row, doc }) => ({ id: row.id, label: row.label ?? "Sensitivity analysis", prespecified: row.prespecified, primary: false, status: row.status, contrasts: doc ? reportedContrasts(doc) : [], failure: row.failureReason })),
+        ...childDocs.map(({ row, doc }) => ({ id: row.id, label: redact.text(row.label ?? "Sensitivity analysis"), prespecified: row.prespecified, primary: false, status: row.status, contrasts: doc ? reportedContrasts(doc) : [], failure: redact.maybe(row.failureReason) })),
       ]
     : [];
   // one forest chart per treatment contrast, compiled here so the browser needs only Vega's runtime
