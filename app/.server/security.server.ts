@@ -1,6 +1,7 @@
 /**
  * The security baseline every response gets: headers, CSRF protection by Origin check on
  * every state-changing request, and a request body limit. Runs as the root route middleware.
+ * Static files never reach it: server.mjs gives them nosniff.
  */
 import type { MiddlewareFunction } from "react-router";
 import { config, servedOverHttps } from "./config.server";
@@ -157,6 +158,9 @@ export const securityMiddleware: MiddlewareFunction<Response> = async ({ request
   const h = response.headers;
   if (!h.has("Content-Security-Policy")) h.set("Content-Security-Policy", "default-src 'none'; frame-ancestors 'none'");
   h.set("X-Content-Type-Options", "nosniff");
+  // Pages are personal and many show subject-level rows (dataset preview, results, figures):
+  // no cache keeps any answer unless its route says otherwise (the OpenAPI document).
+  if (!h.has("Cache-Control")) h.set("Cache-Control", "private, no-store");
   h.set("Referrer-Policy", "same-origin");
   h.set("X-Frame-Options", "DENY");
   h.set("Cross-Origin-Opener-Policy", "same-origin");

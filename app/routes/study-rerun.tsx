@@ -23,7 +23,9 @@ import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { Assessment, assessFinding, canSign, FindingConflict, findingsOf, recordDeviation, signaturesOf, signRerun } from "~/.server/reruns/findings.server";
 import type { FigureKey } from "~/engine/checks";
 import type { RerunOptions } from "~/.server/reruns/rerun-options";
-import { reportedContrasts, rerunView, withoutSubjectNames } from "~/.server/reruns/rerun-view.server";
+import { reportedContrasts, rerunView } from "~/.server/reruns/rerun-view.server";
+import { seesSubjects } from "~/.server/permissions.server";
+import { redactionFor } from "~/.server/redaction.server";
 import { getRerun, rerunDocumentOf, sameInputReruns, sensitivityReruns, startRerun, type RerunDocument } from "~/.server/reruns/reruns.server";
 import { requireStudy } from "~/.server/study-access.server";
 import { reauthenticationPath, reauthNotice, SIGNATURE_MEANINGS } from "~/.server/signatures.server";
@@ -54,9 +56,10 @@ function optionsFor(s: PlannedSensitivity, primary: RerunDocument | null): Rerun
 }
 
 export async function loader({ request, params }: Route.LoaderArgs) {
-  const { study, user, allowed } = await requireStudy(request, params.studyId, "rerun.view");
+  const access = await requireStudy(request, params.studyId, "rerun.view");
+  const { study, user, allowed } = access;
   const r = await getRerun(study.id, params.rerunId);
-  const withIds = allowed.has("dataset.rows");
+  const withIds = seesSubjects(access);
   const planned = await getPlannedModel(r.rerun.plannedModelId);
   const [findings, signatures, children, twins, verdict] = await Promise.all([
     findingsOf(r.rerun.id),
@@ -66,10 +69,11 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     allowed.has("rerun.sign") ? canSign(user, r.rerun.id) : Promise.resolve(null),
   ]);
   const childDocs = children.map((c) => ({ row: c, doc: rerunDocumentOf(c) }));
+  const redact = await redactionFor(withIds, [{ doc: r.doc, datasetVersionId: r.rerun.datasetVersionId }, ...childDocs.map((c) => ({ doc: c.doc, datasetVersionId: c.row.datasetVersionId }))]);
   const comparison = r.doc
     ? [
         { id: r.rerun.id, label: "Primary analysis as planned", prespecified: true, primary: true, status: r.rerun.status, contrasts: reportedContrasts(r.doc) },
-        ...childDocs.map(({ row, doc }) => ({ id: row.id, label: row.label ?? "Sensitivity analysis", prespecified: row.prespecified, primary: false, status: row.status, contrasts: doc ? reportedContrasts(doc) : [], failure: row.failureReason })),
+        ...childDocs.map(({ row, doc }) => ({ id: row.id, label: redact.text(row.label ?? "Sensitivity analysis"), prespecified: row.prespecified, primary: false, status: row.status, contrasts: doc ? reportedContrasts(doc) : [], failure: redact.maybe(row.failureReason) })),
       ]
     : [];
   // one forest chart per treatment contrast, compiled here so the browser needs only Vega's runtime
@@ -91,15 +95,15 @@ export async function loader({ request, params }: Route.LoaderArgs) {
       canSave: true,
     });
   }
-  return {
+  const answer = {
     studyId: study.id,
     code: study.code,
     rerun: {
       id: r.rerun.id,
       kind: r.rerun.kind,
-      label: r.rerun.label,
+      label: redact.maybe(r.rerun.label),
       status: r.rerun.status,
-      failureReason: r.rerun.failureReason,
+      failureReason: redact.maybe(r.rerun.failureReason),
       datasetSha256: r.rerun.datasetSha256,
       resultSha256: r.rerun.resultSha256,
       engineVersion: r.rerun.engineVersion,
@@ -113,8 +117,8 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     dataset: r.dataset,
     planVersion: r.planVersion,
     startedBy: r.startedBy,
-    view: r.doc ? rerunView(r.doc, withIds) : null,
-    findings: findings.map((f) => ({ id: f.id, kind: f.kind, summary: withIds ? f.summary : withoutSubjectNames(f.summary), statistic: f.statistic && !withIds ? withoutSubjectNames(f.statistic) : f.statistic, threshold: f.threshold, assessment: f.assessment ? { category: f.assessment.category, impact: f.assessment.impact, action: f.assessment.action, rationale: f.assessment.rationale, by: f.assessment.recordedByName, at: f.assessment.recordedAt } : null })),
+    view: r.doc ? rerunView(r.doc, redact) : null,
+    findings: findings.map((f) => ({ id: f.id, kind: f.kind, summary: redact.text(f.summary, f.checkKey), statistic: redact.maybe(f.statistic, f.checkKey), threshold: f.threshold, assessment: f.assessment ? { category: f.assessment.category, impact: f.assessment.impact, action: f.assessment.action, rationale: redact.text(f.assessment.rationale, f.checkKey), by: f.assessment.recordedByName, at: f.assessment.recordedAt } : null })),
     signatures: signatures.map((s) => ({ name: s.signerName, meaning: s.meaning, at: s.signedAt })),
     comparison,
     forests,
@@ -128,6 +132,8 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     signing: { meaning: SIGNATURE_MEANINGS.rerun, notice: reauthNotice(request) },
     whatIf,
   };
+  // never kept by a cache: the security middleware answers every page with no-store
+  return redact.assertClean(answer, "A results page");
 }
 
 const Intent = z.discriminatedUnion("intent", [
