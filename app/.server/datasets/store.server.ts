@@ -58,6 +58,11 @@ export async function removeQuietly(file: string | null | undefined): Promise<vo
   if (file) await rm(file, { force: true }).catch(() => undefined);
 }
 
+/** Removes one store file (a path relative to DATA_DIR, as stored in the database). */
+export async function removeFromStore(relative: string): Promise<void> {
+  await removeQuietly(absoluteStorePath(relative));
+}
+
 function processAlive(pid: number): boolean {
   if (pid === process.pid) return true;
   try {

@@ -20,7 +20,7 @@ type Row = { n: number; cells: string[] | null };
  * in windows of 200 as they scroll into view; sorting (one column, missing values last) is done
  * on the server, so 200 000 rows stay smooth.
  */
-export function PreviewTable({ rowsUrl, columns, total }: { rowsUrl: string; columns: ColumnMeta[]; total: number }) {
+export function PreviewTable({ rowsUrl, columns, total, masked = [] }: { rowsUrl: string; columns: ColumnMeta[]; total: number; masked?: string[] }) {
   const [sorting, setSorting] = useState<SortingState>([]);
   const pages = useRef(new Map<number, Window | "loading">());
   const [tick, refresh] = useReducer((n: number) => n + 1, 0);
@@ -85,12 +85,14 @@ export function PreviewTable({ rowsUrl, columns, total }: { rowsUrl: string; col
         id: c.name,
         // An accessor makes the column sortable; the sorting itself happens on the server.
         accessorFn: (row) => row.cells?.[j] ?? "",
-        header: c.name,
-        meta: { numeric: c.type === "number" },
+        // A masked column (flagged by the identifier screen) is not sortable: the order would show its values.
+        enableSorting: !masked.includes(c.name),
+        header: masked.includes(c.name) ? `${c.name} (masked)` : c.name,
+        meta: { numeric: c.type === "number" && !masked.includes(c.name) },
         cell: ({ row }) => (row.original.cells ? row.original.cells[j] : "…"),
       })),
     ],
-    [columns],
+    [columns, masked],
   );
   const table = useReactTable({
     data: visible,
@@ -128,6 +130,7 @@ export function PreviewTable({ rowsUrl, columns, total }: { rowsUrl: string; col
                       key={header.id}
                       aria-sort={sorted === "asc" ? "ascending" : sorted === "desc" ? "descending" : "none"}
                       className={`truncate px-2 py-1.5 text-xs font-semibold uppercase tracking-wide text-ink-soft ${numeric ? "text-right" : ""}`}
+                      title={masked.includes(header.column.id) ? "Masked until the identifier screen's hit on this column is resolved as not an identifier" : undefined}
                     >
                       {header.column.getCanSort() ? (
                         <button type="button" onClick={header.column.getToggleSortingHandler()} className="uppercase hover:text-ink" title={`Sort by ${header.column.id}`}>
