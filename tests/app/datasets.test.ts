@@ -84,6 +84,9 @@ describe("only data managers upload, screen and lock", () => {
     const lock = await post(`${base()}/${versionId}`, "biostatistician", { intent: "lock" });
     expect(lock.status).toBe(403);
     expect(await lock.text()).toMatch(/To lock a dataset version you need the data manager role/);
+    const purge = await post(`${base()}/${versionId}`, "biostatistician", { intent: "purge", confirm: "yes" });
+    expect(purge.status).toBe(403);
+    expect(await purge.text()).toMatch(/To purge superseded dataset versions you need the data manager role/);
   });
 });
 
@@ -104,6 +107,11 @@ describe("uploading over HTTP", () => {
     const html = await page.text();
     expect(html).toContain("adhttp · version 1");
     expect(html).toContain("Unique identifying number or code");
+    // The flagged subject code reaches the preview masked, and sorting by it is not offered.
+    const rows = await get(`${base()}/${last.result?.versionId}/rows?offset=0&limit=3&sort=usubjid&desc=1`, "data_manager");
+    const w = (await rows.json()) as { masked: string[]; rows: string[][] };
+    expect(w.masked).toEqual(["usubjid"]);
+    expect(w.rows.map((r) => r[0])).toEqual(["S-#", "S-#", "S-#"]);
   });
 
   it("refuses a ragged file with its message, storing no dataset, version or file", async () => {

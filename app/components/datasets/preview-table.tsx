@@ -28,10 +28,12 @@ export function PreviewTable({ rowsUrl, columns, total, masked = [] }: { rowsUrl
   const sortKey = sorting[0] ? `&sort=${encodeURIComponent(sorting[0].id)}&desc=${sorting[0].desc ? 1 : 0}` : "";
   const parentRef = useRef<HTMLDivElement>(null);
 
+  // Rows are fetched again when the sort changes or when a screen decision unmasks a column.
+  const maskKey = masked.join("\u0000");
   useEffect(() => {
     pages.current = new Map();
     refresh();
-  }, [sortKey]);
+  }, [sortKey, maskKey]);
 
   const load = useCallback(
     (page: number) => {
@@ -76,7 +78,7 @@ export function PreviewTable({ rowsUrl, columns, total, masked = [] }: { rowsUrl
     }
     return out;
     // eslint-disable-next-line react-hooks/exhaustive-deps -- pages is a ref; tick marks its changes
-  }, [firstIndex, lastIndex, tick, sortKey]);
+  }, [firstIndex, lastIndex, tick, sortKey, maskKey]);
 
   const defs = useMemo<ColumnDef<Row>[]>(
     () => [
