@@ -54,7 +54,9 @@ export function PreviewTable({ rowsUrl, columns, total, masked = [] }: { rowsUrl
           setError(e.message);
         });
     },
-    [rowsUrl, sortKey],
+    // maskKey: a new callback makes the page effect below fetch the visible pages again.
+    // eslint-disable-next-line react-hooks/exhaustive-deps
+    [rowsUrl, sortKey, maskKey],
   );
 
   const virtualizer = useVirtualizer({ count: total, getScrollElement: () => parentRef.current, estimateSize: () => ROW_HEIGHT, overscan: 20 });
