@@ -207,7 +207,7 @@ export function validatePlannedModel(
       errors[field] = "The endpoint cannot also be a covariate.";
       continue;
     }
-    const hint = c.type === "number" ? looksCategorical.get(c.name) : undefined;
+    const hint = looksCategorical.get(c.name); // numeric columns only
     if (hint && cv.categorical === null) {
       // Reported beside the field; the term still counts as a main term for the interactions.
       errors[field] = `${c.name} looks categorical (${hint}): choose whether it enters the model as categorical or continuous.`;
