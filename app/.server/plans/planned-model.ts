@@ -8,7 +8,7 @@ import { z } from "zod";
 import { CHECKS, type CheckKey, type PlannedCheck } from "~/engine/checks";
 import { modelSpecSchema, type ModelSpec, type Term } from "~/engine/model-spec";
 import type { ColumnMeta } from "../datasets/catalog.server";
-import { categoricalHints } from "../datasets/categorical-hint";
+import { categoricalHints, isNumericType } from "../datasets/categorical-hint";
 
 export const SENSITIVITY_KINDS = ["robust_hc3", "variance_function", "exclude_influential", "alternative_covariates", "quasi_poisson", "negative_binomial"] as const;
 export type SensitivityKind = (typeof SENSITIVITY_KINDS)[number];
@@ -212,7 +212,7 @@ export function validatePlannedModel(
       // Reported beside the field; the term still counts as a main term for the interactions.
       errors[field] = `${c.name} looks categorical (${hint}): choose whether it enters the model as categorical or continuous.`;
     }
-    const categorical = cv.categorical === true || c.type !== "number";
+    const categorical = cv.categorical === true || !isNumericType(c.type);
     if (categorical && cv.reference && c.levels && !levelsOf(c.name).includes(cv.reference))
       errors[field] = `"${cv.reference}" is not a value of ${c.name}; its values are ${levelsOf(c.name).join(", ")}.`;
     // An explicit "continuous" is kept as categorical: false, so the plan says it was chosen.
