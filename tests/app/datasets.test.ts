@@ -114,6 +114,17 @@ describe("uploading over HTTP", () => {
     expect(w.rows.map((r) => r[0])).toEqual(["S-#", "S-#", "S-#"]);
   });
 
+  it("shows a numeric-coded site group as looking categorical on the version page", async () => {
+    const lines = ["usubjid,sitegr1,base"];
+    for (let i = 1; i <= 40; i++) lines.push(`01-${[701, 703, 704, 708][i % 4]}-${1000 + i},${[701, 703, 704, 708][i % 4]},${(40 + i * 0.7).toFixed(1)}`);
+    const res = await upload("data_manager", "adsite", lines.join("\n") + "\n");
+    const last = JSON.parse((await res.text()).trim().split("\n").pop() as string) as { result: { ok: boolean; versionId: string } };
+    expect(last.result.ok).toBe(true);
+    const html = await (await get(`${base()}/${last.result.versionId}`, "data_manager")).text();
+    expect(html).toContain("Looks categorical: <!-- -->4 distinct whole-number values");
+    expect(html).not.toContain("Telephone or fax number");
+  });
+
   it("refuses a ragged file with its message, storing no dataset, version or file", async () => {
     const before = [await count("SELECT count(*) AS n FROM datasets"), await count("SELECT count(*) AS n FROM dataset_versions")];
     const res = await upload("data_manager", "adbad", "usubjid,age\nS1,40\nS2\n", "adbad.csv");
