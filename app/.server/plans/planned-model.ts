@@ -253,6 +253,11 @@ export function validatePlannedModel(
       errors[`sensitivity:${s.kind}`] = "This remedy applies to a linear model; for counts plan quasi-Poisson or negative binomial instead.";
     if (s.kind === "alternative_covariates" && (!s.covariates || s.covariates.length === 0))
       errors["sensitivity:covariate"] = "Choose the covariates of the alternative set.";
+    // An alternative covariate outside the main model enters as the column's type; for a column
+    // that looks categorical that would be a silent choice, so the main model must make it.
+    const unchosen = s.kind === "alternative_covariates" ? (s.covariates ?? []).filter((v) => looksCategorical.has(v) && !mainVariables.has(v)) : [];
+    if (unchosen.length > 0)
+      errors["sensitivity:covariate"] = `${unchosen.join(", ")} ${unchosen.length === 1 ? "looks" : "look"} categorical and ${unchosen.length === 1 ? "is" : "are"} not in the main model, so nothing says categorical or continuous: add ${unchosen.length === 1 ? "it" : "them"} as a covariate with that choice, or leave ${unchosen.length === 1 ? "it" : "them"} out of the alternative set.`;
     if (s.kind === "variance_function" && s.varianceBy === "treatment" && !form.treatment)
       errors["sensitivity:varianceBy"] = "Variance per arm needs a treatment variable.";
   }
