@@ -8,7 +8,8 @@ import { PreviewTable } from "~/components/datasets/preview-table";
 import { ScreenHits } from "~/components/datasets/screen-hits";
 import { VersionStatus } from "~/components/datasets/version-status";
 import { PageHeader } from "~/components/page";
-import { getVersionDetail, lockVersion, recordNotIdentifier, removeFlaggedColumn } from "~/.server/datasets/datasets.server";
+import { getVersionDetail, lockVersion, purgeRefusal, purgeVersion, recordNotIdentifier, removeFlaggedColumn } from "~/.server/datasets/datasets.server";
+import { PurgeVersion } from "~/components/datasets/purge-version";
 import { actorOf } from "~/.server/people.server";
 import { requireStudy } from "~/.server/study-access.server";
 import { freshness, reauthenticationPath, reauthNotice, recordedSignature, SIGNATURE_MEANINGS, SignatureRefused } from "~/.server/signatures.server";
@@ -31,6 +32,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     canLock: allowed.has("dataset.lock"),
     signing: { meaning: SIGNATURE_MEANINGS.dataset, fresh: freshness(user).ok, notice: reauthNotice(request) },
     lockSignature: detail.version.lockedAt ? await recordedSignature("dataset.lock", detail.version.id) : null,
+    canPurge: allowed.has("dataset.purge") && purgeRefusal(detail.version) === null,
   };
 }
 
@@ -38,14 +40,19 @@ const Intent = z.discriminatedUnion("intent", [
   z.object({ intent: z.literal("not_identifier"), hitId: z.string().min(1), rationale: z.string().max(2000) }),
   z.object({ intent: z.literal("remove_column"), hitId: z.string().min(1) }),
   z.object({ intent: z.literal("lock") }),
+  z.object({ intent: z.literal("purge"), confirm: z.literal("yes").optional() }),
 ]);
 
 export async function action({ request, params }: Route.ActionArgs) {
   const form = Intent.safeParse(Object.fromEntries(await request.formData()));
   if (!form.success) throw data({ message: "Unknown request: choose one of the buttons on the page." }, { status: 400 });
   const f = form.data;
-  const { user, study } = await requireStudy(request, params.studyId, f.intent === "lock" ? "dataset.lock" : "dataset.screen");
+  const { user, study } = await requireStudy(request, params.studyId, f.intent === "lock" ? "dataset.lock" : f.intent === "purge" ? "dataset.purge" : "dataset.screen");
   const actor = actorOf(user);
+  if (f.intent === "purge") {
+    const r = await purgeVersion(actor, study.id, params.versionId, f.confirm === "yes");
+    return { errors: r.ok ? ({} as Record<string, string>) : { purge: r.message }, message: null };
+  }
   if (f.intent === "not_identifier") {
     const r = await recordNotIdentifier(actor, study.id, f.hitId, f.rationale);
     return r.ok ? { errors: {} as Record<string, string>, message: null } : { errors: { [f.hitId]: r.message }, message: null };
@@ -65,7 +72,7 @@ export async function action({ request, params }: Route.ActionArgs) {
 }
 
 export default function Page({ loaderData, actionData }: Route.ComponentProps) {
-  const { studyId, code, detail, canRows, canScreen, canLock } = loaderData;
+  const { studyId, code, detail, canRows, canScreen, canLock, canPurge } = loaderData;
   const v = detail.version;
   const navigation = useNavigation();
   const base = `/studies/${studyId}/datasets`;
@@ -81,7 +88,7 @@ export default function Page({ loaderData, actionData }: Route.ComponentProps) {
           <div>
             <dt className="label">State</dt>
             <dd>
-              <VersionStatus status={v.status} unresolved={v.unresolvedHits} />
+              <VersionStatus status={v.status} unresolved={v.unresolvedHits} purged={Boolean(v.purgedAt)} />
             </dd>
           </div>
           <div>
@@ -138,8 +145,10 @@ export default function Page({ loaderData, actionData }: Route.ComponentProps) {
       {v.status === "superseded" ? (
         <p className="mb-4 text-sm" role="status">
           This version was superseded by version {detail.latestVersion}; it can no longer be screened or locked.
+          {v.purgedAt ? ` Its stored file and parsed columns were purged by ${v.purgedBy ?? "–"}, ${formatTime(v.purgedAt)}; the record of the version stays.` : ""}
         </p>
       ) : null}
+      {canPurge ? <PurgeVersion version={v.version} error={actionData?.errors?.purge} /> : null}
       <div className="space-y-6">
         {v.derivedFromVersion ? (
           <p className="text-sm">
@@ -153,8 +162,10 @@ export default function Page({ loaderData, actionData }: Route.ComponentProps) {
             <h2 id="preview" className="mb-2">
               Preview <span className="num text-sm font-normal text-ink-soft">({formatCount(v.rowCount)} rows; select a column heading to sort)</span>
             </h2>
-            {canRows ? (
-              <PreviewTable rowsUrl={`${base}/${v.id}/rows`} columns={detail.columns} total={v.rowCount} />
+            {v.purgedAt ? (
+              <p className="text-sm text-ink-soft">The rows of this version were purged.</p>
+            ) : canRows ? (
+              <PreviewTable rowsUrl={`${base}/${v.id}/rows`} columns={detail.columns} total={v.rowCount} masked={detail.maskedColumns} />
             ) : (
               <p className="text-sm text-ink-soft">Your role does not show subject-level rows.</p>
             )}

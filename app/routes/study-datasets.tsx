@@ -68,7 +68,7 @@ export default function Page({ loaderData }: Route.ComponentProps) {
                         <Link to={`${base}/${v.id}`}>v{v.version}</Link>
                       </td>
                       <td>
-                        <VersionStatus status={v.status} unresolved={v.unresolvedHits} />
+                        <VersionStatus status={v.status} unresolved={v.unresolvedHits} purged={Boolean(v.purgedAt)} />
                       </td>
                       <td>
                         {v.fileName} <span className="num text-xs text-ink-soft">{formatBytes(v.byteSize)}</span>

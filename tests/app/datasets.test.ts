@@ -84,6 +84,9 @@ describe("only data managers upload, screen and lock", () => {
     const lock = await post(`${base()}/${versionId}`, "biostatistician", { intent: "lock" });
     expect(lock.status).toBe(403);
     expect(await lock.text()).toMatch(/To lock a dataset version you need the data manager role/);
+    const purge = await post(`${base()}/${versionId}`, "biostatistician", { intent: "purge", confirm: "yes" });
+    expect(purge.status).toBe(403);
+    expect(await purge.text()).toMatch(/To purge superseded dataset versions you need the data manager role/);
   });
 });
 
@@ -104,6 +107,22 @@ describe("uploading over HTTP", () => {
     const html = await page.text();
     expect(html).toContain("adhttp · version 1");
     expect(html).toContain("Unique identifying number or code");
+    // The flagged subject code reaches the preview masked, and sorting by it is not offered.
+    const rows = await get(`${base()}/${last.result?.versionId}/rows?offset=0&limit=3&sort=usubjid&desc=1`, "data_manager");
+    const w = (await rows.json()) as { masked: string[]; rows: string[][] };
+    expect(w.masked).toEqual(["usubjid"]);
+    expect(w.rows.map((r) => r[0])).toEqual(["S-#", "S-#", "S-#"]);
+  });
+
+  it("shows a numeric-coded site group as looking categorical on the version page", async () => {
+    const lines = ["usubjid,sitegr1,base"];
+    for (let i = 1; i <= 40; i++) lines.push(`01-${[701, 703, 704, 708][i % 4]}-${1000 + i},${[701, 703, 704, 708][i % 4]},${(40 + i * 0.7).toFixed(1)}`);
+    const res = await upload("data_manager", "adsite", lines.join("\n") + "\n");
+    const last = JSON.parse((await res.text()).trim().split("\n").pop() as string) as { result: { ok: boolean; versionId: string } };
+    expect(last.result.ok).toBe(true);
+    const html = await (await get(`${base()}/${last.result.versionId}`, "data_manager")).text();
+    expect(html).toContain("Looks categorical: <!-- -->4 distinct whole-number values");
+    expect(html).not.toContain("Telephone or fax number");
   });
 
   it("refuses a ragged file with its message, storing no dataset, version or file", async () => {

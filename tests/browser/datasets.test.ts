@@ -11,7 +11,7 @@ import type { Browser, Page } from "playwright-core";
 import { afterAll, afterEach, beforeAll, describe, expect, inject, it } from "vitest";
 import { demoDatasetCsv, generateDemoDataset } from "~/.server/demo/demo-dataset";
 import { launchBrowser, screenshot, signInAs } from "../support/browser";
-import { studyIdByCode } from "../support/sessions";
+import { studyIdByCode, testDb } from "../support/sessions";
 
 const stack = inject("stack");
 let browser: Browser;
@@ -107,11 +107,18 @@ describe("the data manager's datasets", () => {
     await uploadFile("adsl.json");
     await waitForVersionPage("adsl · version 1");
     await page.getByText("Unique identifying number or code").waitFor();
+    // Flagged columns are masked in the preview until resolved, like the screen's examples.
+    const preview = page.getByRole("table", { name: "Preview rows" });
+    await page.getByRole("columnheader", { name: "BRTHDT (masked)" }).waitFor();
+    await preview.getByRole("cell", { name: "####-##-##" }).first().waitFor();
+    expect(await preview.getByRole("cell", { name: /^19\d\d-\d\d-\d\d$/ }).count()).toBe(0);
+    expect(await preview.getByRole("cell", { name: "QMT301-0001" }).count()).toBe(0);
     await screenshot(page, "datasets-json-screen");
     const usubjid = page.locator("li", { hasText: "USUBJID" }).filter({ hasText: "Unique identifying" });
     await usubjid.getByLabel("Why it is not an identifier").fill("Pseudonymous subject code assigned by the study");
     await usubjid.getByRole("button", { name: "Record: not an identifier" }).click();
     await page.getByText("“Pseudonymous subject code assigned by the study”").waitFor();
+    await preview.getByRole("cell", { name: "QMT301-0001" }).waitFor();
     await page.locator("li", { hasText: "BRTHDT" }).first().getByRole("button", { name: "Remove column BRTHDT" }).click();
     await waitForVersionPage("adsl · version 2");
     await page.getByText("Derived from version 1 by removing “BRTHDT”").waitFor();
@@ -119,6 +126,19 @@ describe("the data manager's datasets", () => {
     await page.getByRole("button", { name: "Lock version 2" }).waitFor({ state: "detached" });
     await page.getByRole("definition").filter({ hasText: /^Locked$/ }).waitFor();
     await screenshot(page, "datasets-json-locked");
+  });
+
+  it("purges the superseded, never-locked version 1 only after the confirmation box is ticked", async () => {
+    const rs = await testDb(stack).execute("SELECT v.id FROM dataset_versions v JOIN datasets d ON d.id = v.dataset_id WHERE d.name = 'adsl' AND v.version = 1");
+    await page.goto(`${datasetsUrl()}/${String(rs.rows[0].id)}`);
+    const purge = page.getByRole("region", { name: "Purge version 1" });
+    await purge.getByRole("button", { name: "Purge version 1" }).click();
+    await purge.getByRole("alert").filter({ hasText: "Confirm that version 1 of adsl and its stored file are to be removed for good" }).waitFor();
+    await purge.getByLabel("I understand that the file of version 1 is removed for good.").check();
+    await purge.getByRole("button", { name: "Purge version 1" }).click();
+    await page.getByText(/Its stored file and parsed columns were purged by Dana Okafor/).waitFor();
+    await page.getByText("The rows of this version were purged.").waitFor();
+    await screenshot(page, "datasets-version-purged");
   });
 
   it("uploads a changed demo CSV and sees what changed against the locked version, then locks it", async () => {
@@ -136,9 +156,9 @@ describe("the data manager's datasets", () => {
     await expect.poll(() => ageHeader.getAttribute("aria-sort")).toBe("ascending");
     // Ascending age: the youngest demo subjects are 18 (the generator's lower bound).
     await expect.poll(() => page.getByRole("table", { name: "Preview rows" }).getByRole("row").nth(1).getByRole("cell").nth(6).textContent()).toBe("18");
+    // The rationale recorded on version 1 is carried forward: same column, same category.
     const subjid = page.locator("li", { hasText: "subjid" }).filter({ hasText: "Unique identifying" });
-    await subjid.getByLabel("Why it is not an identifier").fill("Pseudonymous subject code assigned by the study");
-    await subjid.getByRole("button", { name: "Record: not an identifier" }).click();
+    await subjid.getByText(/Dana Okafor, .* carried forward from version 1/).waitFor();
     await page.getByRole("button", { name: "Lock version 2" }).click();
     await page.getByRole("button", { name: "Lock version 2" }).waitFor({ state: "detached" });
     await page.getByRole("definition").filter({ hasText: /^Locked$/ }).waitFor();

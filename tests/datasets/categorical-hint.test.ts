@@ -68,6 +68,17 @@ describe("plan editor: a column that looks categorical needs an explicit choice"
     expect(result.errors["covariate:base"]).toBeUndefined();
   });
 
+  it("refuses an alternative covariate set that would bring in such a column with no choice made", () => {
+    const f = new FormData();
+    for (const [k, v] of Object.entries({ key: "primary", title: "Primary efficacy", datasetName: "adeff", response: "chg", family: "gaussian", treatment: "arm", treatmentReference: "Placebo" })) f.set(k, v);
+    f.append("covariate", "base");
+    f.set("sensitivity:alternative_covariates", "on");
+    f.append("sensitivity:covariate", "sitegr1");
+    const result = validatePlannedModel(readPlannedModelForm(f), datasets, []);
+    expect(result.ok).toBe(false);
+    if (!result.ok) expect(result.errors["sensitivity:covariate"]).toMatch(/^sitegr1 looks categorical and is not in the main model/);
+  });
+
   it("keeps the explicit choice in the stored terms", () => {
     const asCategorical = validatePlannedModel(form({ "as:sitegr1": "categorical", "reference:sitegr1": "703" }), datasets, []);
     expect(asCategorical.ok && asCategorical.model.spec.terms.find((t) => "variable" in t && t.variable === "sitegr1")).toEqual({ variable: "sitegr1", categorical: true, reference: "703" });

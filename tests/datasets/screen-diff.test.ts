@@ -77,6 +77,10 @@ describe("identifier screen", () => {
   it("screens SAS date numbers of transport files as dates, by their DATE or DATETIME format", () => {
     // 1960-01-01 is day 0 (SAS); haven::read_xpt gives the same dates for CDISC's ADSL.
     expect(sasNumberToIso("0", "date")).toBe("1960-01-01");
+    // TRTSDT (format DATE9) of the first subjects of CDISC's public pilot ADSL transport file, as
+    // haven::read_xpt reads them: 01-701-1015, -1023, -1028, -1033.
+    expect(["19725", "19210", "19558", "19800"].map((d) => sasNumberToIso(d, "date"))).toEqual(["2014-01-02", "2012-08-05", "2013-07-19", "2014-03-18"]);
+    expect(screenColumns([col("TRTSDT", ["19725"], "number", { format: "DATE9" })]).map((h) => h.rule)).toEqual(["date"]);
     expect(sasNumberToIso("19724", "date")).toBe("2014-01-01"); // R: as.Date(19724, origin = "1960-01-01")
     expect(sasNumberToIso("1704067200", "datetime")).toBe("2013-12-31T00:00:00"); // R: as.POSIXct(1704067200, origin = "1960-01-01", tz = "UTC")
     const hits = screenColumns([col("TRTSDT", ["19723", "19730", ""], "number", { format: "DATE9." }), col("TRTSDTM", ["1704067200"], "number", { format: "DATETIME20." }), col("DOSE", ["19723"], "number", { format: "8.2" })]);

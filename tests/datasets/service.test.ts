@@ -147,3 +147,90 @@ describe("screen, removal, lock and versions", () => {
     }
   });
 });
+
+describe("carried-forward resolutions, masking, net changes and purge", () => {
+  let v4 = "";
+  let v5 = "";
+  let v6 = "";
+
+  it("carries a 'not an identifier' resolution forward to the next version (same column and category), with its author and date", async () => {
+    const listing = await svc.listDatasets(studyId);
+    const versions = listing.find((d) => d.name === "adsl")?.versions ?? [];
+    v4 = versions.find((v) => v.version === 4)?.id ?? "";
+    const v3 = versions.find((v) => v.version === 3)?.id ?? "";
+    const before = (await svc.getVersionDetail(studyId, v3))?.hits.find((h) => h.column === "usubjid");
+    const detail = await svc.getVersionDetail(studyId, v4);
+    const hit = detail?.hits.find((h) => h.column === "usubjid");
+    expect(hit).toMatchObject({ rule: "subject_code", resolution: "not_identifier", rationale: "Pseudonymous subject code", resolvedBy: dana.name, resolvedAt: before?.resolvedAt, carriedFromVersion: 3 });
+    expect(detail?.version.unresolvedHits).toBe(0);
+  });
+
+  it("masks flagged columns in the preview rows until resolved, and does not sort by them", async () => {
+    const up = await svc.uploadBytes(dana, {
+      studyId,
+      datasetName: "adsl",
+      fileName: "adsl-v5.csv",
+      bytes: csv(["usubjid,age,sex,contact_no", "S-2,46,F,(555) 010-2030", "S-3,91,M,+1 555 010 4477"]),
+    });
+    expect(up.ok).toBe(true);
+    if (!up.ok) return;
+    v5 = up.versionId;
+    const detail = await svc.getVersionDetail(studyId, v5);
+    expect(detail?.hits.map((h) => `${h.column}:${h.rule}:${h.resolution ?? "open"}`).sort()).toEqual(["age:age_over_89:open", "contact_no:phone:open", "usubjid:subject_code:not_identifier"]);
+    expect(detail?.maskedColumns.sort()).toEqual(["age", "contact_no"]);
+    const rows = await svc.readRowsWindow(studyId, v5, { offset: 0, limit: 10, sort: { column: "contact_no", descending: true } });
+    expect(rows?.masked.sort()).toEqual(["age", "contact_no"]);
+    expect(rows?.rows).toEqual([
+      ["S-2", "##", "F", "(###) ###-####"],
+      ["S-3", "##", "M", "+# ### ### ####"],
+    ]);
+    const ageHit = detail?.hits.find((h) => h.column === "age");
+    expect((await svc.recordNotIdentifier(dana, studyId, ageHit?.id ?? "", "Ages are capped at 90 before the data reach the study team")).ok).toBe(true);
+    const after = await svc.readRowsWindow(studyId, v5, { offset: 0, limit: 10 });
+    expect(after?.rows.map((r) => r[1])).toEqual(["46", "91"]);
+    expect(after?.masked).toEqual(["contact_no"]);
+  });
+
+  it("reports net column changes for a derived version (a column added then removed is neither)", async () => {
+    const hit = (await svc.getVersionDetail(studyId, v5))?.hits.find((h) => h.column === "contact_no");
+    const removed = await svc.removeFlaggedColumn(dana, studyId, hit?.id ?? "");
+    expect(removed.ok).toBe(true);
+    if (!removed.ok) return;
+    v6 = removed.versionId;
+    const detail = await svc.getVersionDetail(studyId, v6);
+    expect(detail?.version.changes).toMatchObject({ againstVersion: 3, columnsAdded: ["sex"], columnsRemoved: [] });
+  });
+
+  it("purges a superseded, never-locked version after confirmation, audited, removing only files no other version holds", async () => {
+    // The same bytes as version 4 under another dataset name share its stored files.
+    const v4row = (await db.select().from(t.datasetVersions)).find((v) => v.id === v4);
+    const v5row = (await db.select().from(t.datasetVersions)).find((v) => v.id === v5);
+    if (!v4row || !v5row) throw new Error("versions missing");
+    const copy = await svc.uploadBytes(dana, { studyId, datasetName: "adsl_copy", fileName: "adsl-v2.csv", bytes: csv(["usubjid,age,sex", "S-2,46,F", "S-3,30,M"]) });
+    expect(copy.ok).toBe(true);
+
+    const unconfirmed = await svc.purgeVersion(dana, studyId, v5, false);
+    expect(unconfirmed).toEqual({ ok: false, message: "Confirm that version 5 of adsl and its stored file are to be removed for good (tick the box), then purge." });
+    const lockedOne = (await svc.listDatasets(studyId)).find((d) => d.name === "adsl")?.versions.find((v) => v.version === 3)?.id ?? "";
+    expect(await svc.purgeVersion(dana, studyId, lockedOne, true)).toEqual({ ok: false, message: "Version 3 is locked; only a superseded version can be purged." });
+    expect(await svc.purgeVersion(dana, studyId, v6, true)).toEqual({ ok: false, message: "Version 6 is draft; only a superseded version can be purged." });
+
+    const purged = await svc.purgeVersion(dana, studyId, v5, true);
+    expect(purged).toEqual({ ok: true, removedFiles: [v5row.storedPath, v5row.parsedPath] });
+    expect(existsSync(path.join(dir, "data", v5row.storedPath))).toBe(false);
+    expect(existsSync(path.join(dir, "data", v5row.parsedPath ?? ""))).toBe(false);
+    expect((await svc.getVersionDetail(studyId, v5))?.version).toMatchObject({ status: "superseded", purgedBy: dana.name });
+    expect(await svc.readRowsWindow(studyId, v5, { offset: 0, limit: 10 })).toBeNull();
+    expect(await svc.purgeVersion(dana, studyId, v5, true)).toEqual({ ok: false, message: "Version 5 was already purged." });
+
+    const shared = await svc.purgeVersion(dana, studyId, v4, true);
+    expect(shared).toEqual({ ok: true, removedFiles: [] });
+    expect(existsSync(path.join(dir, "data", v4row.storedPath))).toBe(true);
+
+    const events = await dbClient.execute("SELECT action, entity_id, after_json FROM audit_events WHERE action = 'dataset.purge' ORDER BY seq");
+    expect(events.rows.map((r) => r.entity_id)).toEqual([v5, v4]);
+    expect(JSON.parse(String(events.rows[1].after_json))).toMatchObject({ dataset: "adsl", version: 4, removedFiles: [], keptFiles: [v4row.storedPath, v4row.parsedPath] });
+    // The version 6 that was derived from version 5 still reads.
+    expect((await svc.readRowsWindow(studyId, v6, { offset: 0, limit: 10 }))?.rows.length).toBe(2);
+  });
+});

@@ -27,7 +27,8 @@ const CODE_LABEL = /\b(flag|group|grouping|code|category)\b/i;
 
 type HintInput = Pick<ColumnMeta, "name" | "label" | "type" | "levels">;
 
-const isNumeric = (type: string) => type === "number" || type === "integer";
+/** Numeric column types (readers that declare integers may add an "integer" type). */
+export const isNumericType = (type: string): boolean => type === "number" || type === "integer";
 
 /**
  * Why each numeric column of a dataset looks categorical, by column name; columns not in the
@@ -37,7 +38,7 @@ export function categoricalHints(columns: readonly HintInput[]): Map<string, str
   const names = new Set(columns.map((c) => c.name));
   const out = new Map<string, string>();
   for (const c of columns) {
-    if (!isNumeric(c.type)) continue;
+    if (!isNumericType(c.type)) continue;
     const twin = /N$/i.test(c.name) && names.has(c.name.slice(0, -1)) ? c.name.slice(0, -1) : null;
     if (c.levels && c.levels.length >= 2 && c.levels.length <= MAX_CODED_LEVELS) out.set(c.name, `${c.levels.length} distinct whole-number values`);
     else if (CODE_NAME.test(c.name)) out.set(c.name, "its name says flag, group or code");

@@ -5,7 +5,7 @@
  */
 import { createHash } from "node:crypto";
 import { open, readFile, writeFile } from "node:fs/promises";
-import { and, asc, desc, eq, inArray, isNull } from "drizzle-orm";
+import { and, asc, desc, eq, inArray, isNull, ne, or } from "drizzle-orm";
 import { stringify } from "csv-stringify/sync";
 import { appendAudit, type Actor } from "../audit.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
@@ -15,7 +15,7 @@ import { primeArrowColumnsCache, textOf, writeArrowColumns, type StoredColumns }
 import { summariseChanges, type ChangeSummary } from "./diff";
 import { formatOf, parseDatasetFile, type DatasetFormat, type ParseOptions } from "./parse.server";
 import { requireFreshSignIn, signatureEvidence, type Signer } from "../signatures.server";
-import { screenColumns } from "./screen";
+import { maskValue, screenColumns } from "./screen";
 import { isStorageError } from "../storage-errors.server";
 import { auditUploadRefusal, storageRefusal } from "./upload.server";
 import { storedColumnsFromParsed, storedColumnsOf } from "./stored-columns.server";
@@ -25,6 +25,7 @@ import {
   columnsRelativePath,
   moveIntoStore,
   newWorkPath,
+  removeFromStore,
   removeQuietly,
   sha256OfFile,
   sweepDatasetLeftovers,
@@ -56,8 +57,12 @@ export type UploadResult =
 
 export type Progress = (phase: "parse" | "screen" | "store", fraction: number) => void;
 
+/** Store files some version still needs (a purged version needs none). */
 async function referencedStorePaths(): Promise<Set<string>> {
-  const rows = await db.select({ stored: t.datasetVersions.storedPath, parsed: t.datasetVersions.parsedPath }).from(t.datasetVersions);
+  const rows = await db
+    .select({ stored: t.datasetVersions.storedPath, parsed: t.datasetVersions.parsedPath })
+    .from(t.datasetVersions)
+    .where(isNull(t.datasetVersions.purgedAt));
   return new Set(rows.flatMap((r) => [r.stored, r.parsed ?? ""]).filter(Boolean));
 }
 
@@ -77,6 +82,7 @@ async function latestLocked(datasetId: string): Promise<DatasetVersionRow | null
 }
 
 function parsedOf(v: DatasetVersionRow): Promise<StoredColumns> {
+  if (v.purgedAt) throw new Error(`Version ${v.version} was purged on ${v.purgedAt}; its files are no longer stored.`);
   return storedColumnsOf(v);
 }
 
@@ -108,7 +114,7 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
       const [same] = await db
         .select({ version: t.datasetVersions.version, status: t.datasetVersions.status })
         .from(t.datasetVersions)
-        .where(and(eq(t.datasetVersions.datasetId, existing.id), eq(t.datasetVersions.sha256, req.sha256)))
+        .where(and(eq(t.datasetVersions.datasetId, existing.id), eq(t.datasetVersions.sha256, req.sha256), isNull(t.datasetVersions.purgedAt)))
         .orderBy(desc(t.datasetVersions.version))
         .limit(1);
       if (same) {
@@ -126,6 +132,7 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
       }),
     );
     const stored = storedColumnsFromParsed(parsed);
+    const carried = existing ? await resolutionsToCarry(existing.id) : new Map<string, CarriedResolution>();
     const previous = existing ? await latestLocked(existing.id) : null;
     let changes: ChangeSummary | null = null;
     if (previous) {
@@ -179,13 +186,19 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
         uploadedBy: actor.id,
         uploadedAt: isoNow(),
       });
+      const carriedForward: string[] = [];
       for (const h of hits) {
+        const earlier = carried.get(carryKey(h.column, h.rule));
+        if (earlier) carriedForward.push(`${h.column}: ${h.rule} (from version ${earlier.version})`);
         await tx.insert(t.identifierScreenHits).values({
           id: newId(),
           datasetVersionId: versionId,
           column: h.column,
           rule: h.rule,
           maskedExamplesJson: JSON.stringify({ label: h.ruleLabel, basis: h.basis, matches: h.matches, examples: h.maskedExamples }),
+          ...(earlier
+            ? { resolution: "not_identifier" as const, rationale: earlier.rationale, resolvedBy: earlier.resolvedBy, resolvedAt: earlier.resolvedAt, carriedFromId: earlier.originId }
+            : {}),
         });
       }
       await appendAudit(
@@ -206,6 +219,7 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
             columns: parsed.names.length,
             keyColumns: parsed.keyColumns,
             screenHits: hits.map((h) => `${h.column}: ${h.rule}`),
+            screenResolutionsCarriedForward: carriedForward,
             changes: changes ? { rowsAdded: changes.rowsAdded, rowsRemoved: changes.rowsRemoved, rowsChanged: changes.rowsChanged, columnsAdded: changes.columnsAdded, columnsRemoved: changes.columnsRemoved } : null,
           },
         },
@@ -225,6 +239,38 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
     await removeQuietly(req.workPath);
     await removeQuietly(columnsWork);
   }
+}
+
+interface CarriedResolution {
+  /** The hit where the resolution was first recorded (its author and date are kept). */
+  originId: string;
+  version: number;
+  rationale: string | null;
+  resolvedBy: string | null;
+  resolvedAt: string | null;
+}
+
+const carryKey = (column: string, rule: string) => `${column}\u0000${rule}`;
+
+/**
+ * "Not an identifier" resolutions of the dataset's earlier versions, by column name and screen
+ * category, newest first wins: a new version's hit with the same column and category starts
+ * resolved, keeping the original author, date and reason (shown as carried forward).
+ */
+async function resolutionsToCarry(datasetId: string): Promise<Map<string, CarriedResolution>> {
+  const rows = await db
+    .select({ h: t.identifierScreenHits, version: t.datasetVersions.version })
+    .from(t.identifierScreenHits)
+    .innerJoin(t.datasetVersions, eq(t.datasetVersions.id, t.identifierScreenHits.datasetVersionId))
+    .where(and(eq(t.datasetVersions.datasetId, datasetId), eq(t.identifierScreenHits.resolution, "not_identifier")))
+    .orderBy(desc(t.datasetVersions.version));
+  const out = new Map<string, CarriedResolution>();
+  for (const { h, version } of rows) {
+    const k = carryKey(h.column, h.rule);
+    if (out.has(k)) continue;
+    out.set(k, { originId: h.carriedFromId ?? h.id, version, rationale: h.rationale, resolvedBy: h.resolvedBy, resolvedAt: h.resolvedAt });
+  }
+  return out;
 }
 
 async function refuse(actor: Actor, req: UploadRequest, problems: string[]): Promise<UploadResult> {
@@ -263,6 +309,8 @@ export interface ScreenHitView {
   rationale: string | null;
   resolvedBy: string | null;
   resolvedAt: string | null;
+  /** The version where this resolution was first recorded, when it was carried forward. */
+  carriedFromVersion: number | null;
 }
 
 export interface VersionSummary {
@@ -279,6 +327,9 @@ export interface VersionSummary {
   uploadedAt: string;
   lockedBy: string | null;
   lockedAt: string | null;
+  /** Set when the version's files were purged (superseded and never locked). */
+  purgedBy: string | null;
+  purgedAt: string | null;
   unresolvedHits: number;
   derivedFromVersion: number | null;
   removedColumns: string[];
@@ -313,6 +364,8 @@ function summaryOf(v: DatasetVersionRow, names: Map<string, string>, unresolved:
     uploadedAt: v.uploadedAt,
     lockedBy: v.lockedBy ? (names.get(v.lockedBy) ?? null) : null,
     lockedAt: v.lockedAt,
+    purgedBy: v.purgedBy ? (names.get(v.purgedBy) ?? null) : null,
+    purgedAt: v.purgedAt,
     unresolvedHits: unresolved,
     derivedFromVersion: v.derivedFromId ? (byId.get(v.derivedFromId) ?? null) : null,
     removedColumns: v.removedColumnsJson ? (JSON.parse(v.removedColumnsJson) as string[]) : [],
@@ -340,7 +393,7 @@ export async function listDatasets(studyId: string): Promise<DatasetListing[]> {
     .where(eq(t.datasets.studyId, studyId))
     .orderBy(asc(t.datasets.name), desc(t.datasetVersions.version));
   const versions = rows.flatMap((r) => (r.v ? [r.v] : []));
-  const names = await peopleNames(versions.flatMap((v) => [v.uploadedBy, v.lockedBy]));
+  const names = await peopleNames(versions.flatMap((v) => [v.uploadedBy, v.lockedBy, v.purgedBy]));
   const unresolved = await unresolvedCounts(versions.map((v) => v.id));
   const byId = new Map(versions.map((v) => [v.id, v.version]));
   const out = new Map<string, DatasetListing>();
@@ -360,6 +413,8 @@ export interface VersionDetail {
   columns: (ColumnMeta & { looksCategorical?: string })[];
   keyColumns: string[];
   hits: ScreenHitView[];
+  /** Columns the preview shows masked until their screen hits are resolved as not identifiers. */
+  maskedColumns: string[];
   latestVersion: number;
 }
 
@@ -373,7 +428,7 @@ async function versionInStudy(studyId: string, versionId: string): Promise<{ d: 
   return row ?? null;
 }
 
-function hitView(h: ScreenHitRow, names: Map<string, string>): ScreenHitView {
+function hitView(h: ScreenHitRow, names: Map<string, string>, originVersions: Map<string, number>): ScreenHitView {
   const meta = JSON.parse(h.maskedExamplesJson) as { label: string; basis: "name" | "values"; matches: number; examples: string[] };
   return {
     id: h.id,
@@ -387,7 +442,20 @@ function hitView(h: ScreenHitRow, names: Map<string, string>): ScreenHitView {
     rationale: h.rationale,
     resolvedBy: h.resolvedBy ? (names.get(h.resolvedBy) ?? null) : null,
     resolvedAt: h.resolvedAt,
+    carriedFromVersion: h.carriedFromId ? (originVersions.get(h.carriedFromId) ?? null) : null,
   };
+}
+
+/** Version numbers of the hits that carried-forward resolutions came from. */
+async function originVersionsOf(hits: ScreenHitRow[]): Promise<Map<string, number>> {
+  const ids = [...new Set(hits.flatMap((h) => (h.carriedFromId ? [h.carriedFromId] : [])))];
+  if (ids.length === 0) return new Map();
+  const rows = await db
+    .select({ id: t.identifierScreenHits.id, version: t.datasetVersions.version })
+    .from(t.identifierScreenHits)
+    .innerJoin(t.datasetVersions, eq(t.datasetVersions.id, t.identifierScreenHits.datasetVersionId))
+    .where(inArray(t.identifierScreenHits.id, ids));
+  return new Map(rows.map((r) => [r.id, r.version]));
 }
 
 /** One version with its column summaries and screen hits, or null when it is not in this study. */
@@ -397,15 +465,17 @@ export async function getVersionDetail(studyId: string, versionId: string): Prom
   const { d, v } = row;
   const hits = await db.select().from(t.identifierScreenHits).where(eq(t.identifierScreenHits.datasetVersionId, v.id)).orderBy(asc(t.identifierScreenHits.column));
   const all = await db.select({ id: t.datasetVersions.id, version: t.datasetVersions.version }).from(t.datasetVersions).where(eq(t.datasetVersions.datasetId, d.id));
-  const names = await peopleNames([v.uploadedBy, v.lockedBy, ...hits.map((h) => h.resolvedBy)]);
+  const names = await peopleNames([v.uploadedBy, v.lockedBy, v.purgedBy, ...hits.map((h) => h.resolvedBy)]);
   const unresolved = hits.filter((h) => h.resolution === null).length;
+  const origins = await originVersionsOf(hits);
   return {
     datasetId: d.id,
     datasetName: d.name,
     version: summaryOf(v, names, unresolved, new Map(all.map((a) => [a.id, a.version]))),
     columns: withCategoricalHints(JSON.parse(v.columnsJson) as ColumnMeta[]),
     keyColumns: JSON.parse(v.keyColumnsJson) as string[],
-    hits: hits.map((h) => hitView(h, names)),
+    hits: hits.map((h) => hitView(h, names, origins)),
+    maskedColumns: maskedColumnsOf(hits),
     latestVersion: Math.max(...all.map((a) => a.version)),
   };
 }
@@ -414,8 +484,20 @@ export interface RowsWindow {
   total: number;
   offset: number;
   columns: string[];
+  /** Columns whose cells are masked (maskValue) because the identifier screen flagged them. */
+  masked: string[];
   rowNumbers: number[];
   rows: string[][];
+}
+
+/**
+ * Columns shown masked in the preview: flagged by the identifier screen and not resolved as
+ * "not an identifier" (an open hit, or a column the data manager removed in a later version).
+ */
+function maskedColumnsOf(hits: Pick<ScreenHitRow, "column" | "resolution">[]): string[] {
+  const cleared = new Map<string, boolean>();
+  for (const h of hits) cleared.set(h.column, (cleared.get(h.column) ?? true) && h.resolution === "not_identifier");
+  return [...cleared].filter(([, ok]) => !ok).map(([c]) => c);
 }
 
 const sortCache = new Map<string, Uint32Array>();
@@ -457,21 +539,29 @@ export async function readRowsWindow(
   window: { offset: number; limit: number; sort?: { column: string; descending: boolean } | null },
 ): Promise<RowsWindow | null> {
   const row = await versionInStudy(studyId, versionId);
-  if (!row) return null;
+  if (!row || row.v.purgedAt) return null;
   const parsed = await parsedOf(row.v);
+  const hits = await db
+    .select({ column: t.identifierScreenHits.column, resolution: t.identifierScreenHits.resolution })
+    .from(t.identifierScreenHits)
+    .where(eq(t.identifierScreenHits.datasetVersionId, row.v.id));
+  const masked = maskedColumnsOf(hits);
+  const maskAt = parsed.names.map((n) => masked.includes(n));
   const total = parsed.rowNumbers.length;
   const offset = Math.max(0, Math.min(window.offset, total));
   const end = Math.min(total, offset + Math.max(0, Math.min(window.limit, 1000)));
-  const order = window.sort && parsed.names.includes(window.sort.column) ? sortOrder(row.v.id, parsed, window.sort.column, window.sort.descending) : null;
+  // Sorting by a masked column would show the order of its values: it is not offered.
+  const sortable = window.sort && parsed.names.includes(window.sort.column) && !masked.includes(window.sort.column);
+  const order = sortable && window.sort ? sortOrder(row.v.id, parsed, window.sort.column, window.sort.descending) : null;
   const rows: string[][] = [];
   const rowNumbers: number[] = [];
   const cell = (c: StoredColumns["columns"][number], i: number): string => (c instanceof Float64Array ? (Number.isNaN(c[i]) ? "" : String(c[i])) : (c[i] ?? ""));
   for (let k = offset; k < end; k++) {
     const i = order ? order[k] : k;
-    rows.push(parsed.columns.map((c) => cell(c, i)));
+    rows.push(parsed.columns.map((c, j) => (maskAt[j] ? maskValue(cell(c, i)) : cell(c, i))));
     rowNumbers.push(parsed.rowNumbers[i]);
   }
-  return { total, offset, columns: parsed.names, rowNumbers, rows };
+  return { total, offset, columns: parsed.names, masked, rowNumbers, rows };
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -570,6 +660,17 @@ export async function removeFlaggedColumn(actor: Actor, studyId: string, hitId: 
     await moveIntoStore(blobWork, blobRelativePath(sha256));
     await moveIntoStore(colsWork, columnsRelativePath(sha256));
     const removed = [...(v.removedColumnsJson ? (JSON.parse(v.removedColumnsJson) as string[]) : []), h.column];
+    // Net changes against the latest locked version, compared afresh: a column the upload added
+    // and the screen then removed is neither added nor removed.
+    const locked = await latestLocked(v.datasetId);
+    let changes: ChangeSummary | null = null;
+    if (locked) {
+      const before = await parsedOf(locked);
+      changes = summariseChanges(
+        { version: locked.version, names: before.names, cells: before.columns.map(textOf), keyColumns: JSON.parse(locked.keyColumnsJson) as string[] },
+        { names: derived.names, cells: derived.columns.map(textOf), keyColumns: key },
+      );
+    }
     return await writeTransaction(async (tx) => {
       const [last] = await tx
         .select({ version: t.datasetVersions.version })
@@ -579,9 +680,6 @@ export async function removeFlaggedColumn(actor: Actor, studyId: string, hitId: 
         .limit(1);
       const version = (last?.version ?? 0) + 1;
       const versionId = newId();
-      const changes: ChangeSummary | null = v.changeSummaryJson
-        ? { ...(JSON.parse(v.changeSummaryJson) as ChangeSummary), columnsRemoved: [...(JSON.parse(v.changeSummaryJson) as ChangeSummary).columnsRemoved, h.column] }
-        : null;
       await tx.update(t.datasetVersions).set({ status: "superseded" }).where(eq(t.datasetVersions.id, v.id));
       await tx.insert(t.datasetVersions).values({
         id: versionId,
@@ -669,6 +767,62 @@ export async function lockVersion(actor: Signer, studyId: string, versionId: str
     );
     return { ok: true as const, sha256: v.sha256 };
   });
+}
+
+/** Whether a version may be purged: superseded, never locked, not purged yet; else why not. */
+export function purgeRefusal(v: Pick<DatasetVersionRow, "version" | "status" | "lockedAt" | "purgedAt">): string | null {
+  if (v.purgedAt) return `Version ${v.version} was already purged.`;
+  if (v.status !== "superseded") return `Version ${v.version} is ${v.status}; only a superseded version can be purged.`;
+  if (v.lockedAt) return `Version ${v.version} was locked once; a locked version's bytes are kept for good.`;
+  return null;
+}
+
+/**
+ * Purges a superseded version that was never locked: removes its stored bytes and parsed
+ * columns (each only when no other unpurged version refers to the same file) and keeps its row,
+ * screen results and audit history, marked purged. Asks for an explicit confirmation.
+ */
+export async function purgeVersion(actor: Actor, studyId: string, versionId: string, confirmed: boolean): Promise<ActionResult<{ removedFiles: string[] }>> {
+  const row = await versionInStudy(studyId, versionId);
+  if (!row) return { ok: false, message: "That dataset version is not in this study." };
+  const { v, d } = row;
+  const refusal = purgeRefusal(v);
+  if (refusal) return { ok: false, message: refusal };
+  if (!confirmed) return { ok: false, message: `Confirm that version ${v.version} of ${d.name} and its stored file are to be removed for good (tick the box), then purge.` };
+  const purgedAt = isoNow();
+  const outcome = await writeTransaction(async (tx) => {
+    const [current] = await tx.select().from(t.datasetVersions).where(eq(t.datasetVersions.id, v.id));
+    const again = current ? purgeRefusal(current) : "The version is gone.";
+    if (again) return { ok: false as const, message: again };
+    const paths = [v.storedPath, ...(v.parsedPath ? [v.parsedPath] : [])];
+    // Content-addressed: another version (of any dataset) with the same bytes shares the files.
+    const others = await tx
+      .select({ stored: t.datasetVersions.storedPath, parsed: t.datasetVersions.parsedPath })
+      .from(t.datasetVersions)
+      .where(
+        and(ne(t.datasetVersions.id, v.id), isNull(t.datasetVersions.purgedAt), or(inArray(t.datasetVersions.storedPath, paths), inArray(t.datasetVersions.parsedPath, paths))),
+      );
+    const stillUsed = new Set(others.flatMap((o) => [o.stored, o.parsed ?? ""]));
+    const removable = paths.filter((p) => !stillUsed.has(p));
+    await tx.update(t.datasetVersions).set({ purgedAt, purgedBy: actor.id }).where(eq(t.datasetVersions.id, v.id));
+    await appendAudit(
+      {
+        actor,
+        action: "dataset.purge",
+        entityType: "dataset_version",
+        entityId: v.id,
+        studyId,
+        before: { status: v.status, storedPath: v.storedPath, parsedPath: v.parsedPath },
+        after: { dataset: d.name, version: v.version, sha256: v.sha256, byteSize: v.byteSize, removedFiles: removable, keptFiles: paths.filter((p) => !removable.includes(p)), purgedAt },
+      },
+      tx,
+    );
+    return { ok: true as const, removedFiles: removable };
+  });
+  // Files go only after the record says so; a crash in between leaves unreferenced files that
+  // the next sweep removes.
+  if (outcome.ok) for (const p of outcome.removedFiles) await removeFromStore(p);
+  return outcome;
 }
 
 /**

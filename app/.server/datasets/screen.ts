@@ -63,8 +63,13 @@ export const SCREEN_RULES: ScreenRule[] = [
     // of its values are numbers like this, so one odd code does not make a column a phone column.
     byValue: /^(tel:\s*)?(\+|00)?\(?\d{1,5}\)?([\s.\-/]*\(?\d{1,8}\)?)+(\s*(x|ext\.?|extension)\s*\d{1,5})?$/i,
     hint: (v) => {
-      if (v.length > 40) return false;
-      const digits = v.replace(/(x|ext\.?|extension)\s*\d{1,5}$/i, "").replace(/\D/g, "").length;
+      if (v.length < 10 || v.length > 40) return false;
+      const main = /[xtn]\.?\s*\d{1,5}$/i.test(v) ? v.replace(/(x|ext\.?|extension)\s*\d{1,5}$/i, "") : v;
+      let digits = 0;
+      for (let i = 0; i < main.length; i++) {
+        const c = main.charCodeAt(i);
+        if (c >= 48 && c <= 57) digits++;
+      }
       return digits >= 10 && digits <= 15;
     },
     minShare: 0.5,

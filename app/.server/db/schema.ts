@@ -127,6 +127,9 @@ export const datasetVersions = sqliteTable(
     uploadedAt: text("uploaded_at").notNull().default(now),
     lockedBy: text("locked_by").references(() => people.id),
     lockedAt: text("locked_at"),
+    /** Set when a superseded, never-locked version's files were purged (the row stays for the record). */
+    purgedBy: text("purged_by").references(() => people.id),
+    purgedAt: text("purged_at"),
   },
   (t) => [uniqueIndex("dataset_versions_dataset_version").on(t.datasetId, t.version)],
 );
@@ -141,6 +144,8 @@ export const identifierScreenHits = sqliteTable("identifier_screen_hits", {
   rationale: text("rationale"),
   resolvedBy: text("resolved_by").references(() => people.id),
   resolvedAt: text("resolved_at"),
+  /** Set when the resolution was carried forward from an earlier version: the hit first resolved. */
+  carriedFromId: text("carried_from_id"),
 });
 
 export const analysisPlans = sqliteTable("analysis_plans", {

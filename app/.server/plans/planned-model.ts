@@ -8,7 +8,7 @@ import { z } from "zod";
 import { CHECKS, type CheckKey, type PlannedCheck } from "~/engine/checks";
 import { modelSpecSchema, type ModelSpec, type Term } from "~/engine/model-spec";
 import type { ColumnMeta } from "../datasets/catalog.server";
-import { categoricalHints } from "../datasets/categorical-hint";
+import { categoricalHints, isNumericType } from "../datasets/categorical-hint";
 
 export const SENSITIVITY_KINDS = ["robust_hc3", "variance_function", "exclude_influential", "alternative_covariates", "quasi_poisson", "negative_binomial"] as const;
 export type SensitivityKind = (typeof SENSITIVITY_KINDS)[number];
@@ -213,12 +213,12 @@ export function validatePlannedModel(
       errors[field] = "The endpoint cannot also be a covariate.";
       continue;
     }
-    const hint = c.type === "number" ? looksCategorical.get(c.name) : undefined;
+    const hint = looksCategorical.get(c.name); // numeric columns only
     if (hint && cv.categorical === null) {
       // Reported beside the field; the term still counts as a main term for the interactions.
       errors[field] = `${c.name} looks categorical (${hint}): choose whether it enters the model as categorical or continuous.`;
     }
-    const categorical = cv.categorical === true || c.type !== "number";
+    const categorical = cv.categorical === true || !isNumericType(c.type);
     if (categorical && cv.reference && c.levels && !levelsOf(c.name).includes(cv.reference))
       errors[field] = `"${cv.reference}" is not a value of ${c.name}; its values are ${levelsOf(c.name).join(", ")}.`;
     // An explicit "continuous" is kept as categorical: false, so the plan says it was chosen.
@@ -259,6 +259,11 @@ export function validatePlannedModel(
       errors[`sensitivity:${s.kind}`] = "This remedy applies to a linear model; for counts plan quasi-Poisson or negative binomial instead.";
     if (s.kind === "alternative_covariates" && (!s.covariates || s.covariates.length === 0))
       errors["sensitivity:covariate"] = "Choose the covariates of the alternative set.";
+    // An alternative covariate outside the main model enters as the column's type; for a column
+    // that looks categorical that would be a silent choice, so the main model must make it.
+    const unchosen = s.kind === "alternative_covariates" ? (s.covariates ?? []).filter((v) => looksCategorical.has(v) && !mainVariables.has(v)) : [];
+    if (unchosen.length > 0)
+      errors["sensitivity:covariate"] = `${unchosen.join(", ")} ${unchosen.length === 1 ? "looks" : "look"} categorical and ${unchosen.length === 1 ? "is" : "are"} not in the main model, so nothing says categorical or continuous: add ${unchosen.length === 1 ? "it" : "them"} as a covariate with that choice, or leave ${unchosen.length === 1 ? "it" : "them"} out of the alternative set.`;
     if (s.kind === "variance_function" && s.varianceBy === "treatment" && !form.treatment)
       errors["sensitivity:varianceBy"] = "Variance per arm needs a treatment variable.";
   }

@@ -20,7 +20,7 @@ type Row = { n: number; cells: string[] | null };
  * in windows of 200 as they scroll into view; sorting (one column, missing values last) is done
  * on the server, so 200 000 rows stay smooth.
  */
-export function PreviewTable({ rowsUrl, columns, total }: { rowsUrl: string; columns: ColumnMeta[]; total: number }) {
+export function PreviewTable({ rowsUrl, columns, total, masked = [] }: { rowsUrl: string; columns: ColumnMeta[]; total: number; masked?: string[] }) {
   const [sorting, setSorting] = useState<SortingState>([]);
   const pages = useRef(new Map<number, Window | "loading">());
   const [tick, refresh] = useReducer((n: number) => n + 1, 0);
@@ -28,10 +28,12 @@ export function PreviewTable({ rowsUrl, columns, total }: { rowsUrl: string; col
   const sortKey = sorting[0] ? `&sort=${encodeURIComponent(sorting[0].id)}&desc=${sorting[0].desc ? 1 : 0}` : "";
   const parentRef = useRef<HTMLDivElement>(null);
 
+  // Rows are fetched again when the sort changes or when a screen decision unmasks a column.
+  const maskKey = masked.join("\u0000");
   useEffect(() => {
     pages.current = new Map();
     refresh();
-  }, [sortKey]);
+  }, [sortKey, maskKey]);
 
   const load = useCallback(
     (page: number) => {
@@ -52,7 +54,9 @@ export function PreviewTable({ rowsUrl, columns, total }: { rowsUrl: string; col
           setError(e.message);
         });
     },
-    [rowsUrl, sortKey],
+    // maskKey: a new callback makes the page effect below fetch the visible pages again.
+    // eslint-disable-next-line react-hooks/exhaustive-deps
+    [rowsUrl, sortKey, maskKey],
   );
 
   const virtualizer = useVirtualizer({ count: total, getScrollElement: () => parentRef.current, estimateSize: () => ROW_HEIGHT, overscan: 20 });
@@ -76,7 +80,7 @@ export function PreviewTable({ rowsUrl, columns, total }: { rowsUrl: string; col
     }
     return out;
     // eslint-disable-next-line react-hooks/exhaustive-deps -- pages is a ref; tick marks its changes
-  }, [firstIndex, lastIndex, tick, sortKey]);
+  }, [firstIndex, lastIndex, tick, sortKey, maskKey]);
 
   const defs = useMemo<ColumnDef<Row>[]>(
     () => [
@@ -85,12 +89,14 @@ export function PreviewTable({ rowsUrl, columns, total }: { rowsUrl: string; col
         id: c.name,
         // An accessor makes the column sortable; the sorting itself happens on the server.
         accessorFn: (row) => row.cells?.[j] ?? "",
-        header: c.name,
-        meta: { numeric: c.type === "number" },
+        // A masked column (flagged by the identifier screen) is not sortable: the order would show its values.
+        enableSorting: !masked.includes(c.name),
+        header: masked.includes(c.name) ? `${c.name} (masked)` : c.name,
+        meta: { numeric: c.type === "number" && !masked.includes(c.name) },
         cell: ({ row }) => (row.original.cells ? row.original.cells[j] : "…"),
       })),
     ],
-    [columns],
+    [columns, masked],
   );
   const table = useReactTable({
     data: visible,
@@ -128,6 +134,7 @@ export function PreviewTable({ rowsUrl, columns, total }: { rowsUrl: string; col
                       key={header.id}
                       aria-sort={sorted === "asc" ? "ascending" : sorted === "desc" ? "descending" : "none"}
                       className={`truncate px-2 py-1.5 text-xs font-semibold uppercase tracking-wide text-ink-soft ${numeric ? "text-right" : ""}`}
+                      title={masked.includes(header.column.id) ? "Masked until the identifier screen's hit on this column is resolved as not an identifier" : undefined}
                     >
                       {header.column.getCanSort() ? (
                         <button type="button" onClick={header.column.getToggleSortingHandler()} className="uppercase hover:text-ink" title={`Sort by ${header.column.id}`}>

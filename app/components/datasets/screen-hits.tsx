@@ -48,6 +48,7 @@ export function ScreenHits({ hits, canDecide, errors, keyColumns }: { hits: Scre
                   <p className="mt-0.5 text-xs">“{h.rationale}”</p>
                   <p className="text-xs text-ink-soft">
                     {h.resolvedBy ?? "–"}, {formatTime(h.resolvedAt)}
+                    {h.carriedFromVersion !== null ? ` · carried forward from version ${h.carriedFromVersion} (same column and category)` : ""}
                   </p>
                 </div>
               ) : h.resolution === "removed" ? (
