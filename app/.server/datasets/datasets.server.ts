@@ -5,7 +5,7 @@
  */
 import { createHash } from "node:crypto";
 import { createReadStream } from "node:fs";
-import { open, readFile, writeFile } from "node:fs/promises";
+import { readFile, writeFile } from "node:fs/promises";
 import { and, asc, desc, eq, inArray, isNull } from "drizzle-orm";
 import { stringify } from "csv-stringify/sync";
 import { appendAudit, type Actor } from "../audit.server";
@@ -13,7 +13,7 @@ import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
 import type { ColumnMeta } from "./column-summary";
 import { primeColumnsCache, readColumnsFileCached, writeColumnsFile, type ParsedColumns } from "./columns-file.server";
 import { summariseChanges, type ChangeSummary } from "./diff";
-import { formatOf, parseDatasetFile, type DatasetFormat, type ParseOptions } from "./parse.server";
+import { firstBytesOf, formatOf, parseDatasetFile, type DatasetFormat, type ParseOptions } from "./parse.server";
 import { screenColumns } from "./screen";
 import {
   absoluteStorePath,
@@ -42,6 +42,8 @@ export interface UploadRequest {
   sha256: string;
   keyColumns?: string[];
   numericColumns?: string[];
+  /** Columns to read by their values rather than their declared type, and why (recorded in the audit trail). */
+  readByValues?: { columns: string[]; reason: string };
 }
 
 export type UploadResult =
@@ -91,11 +93,13 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
   let columnsWork: string | null = null;
   try {
     await sweepLeftovers().catch(() => undefined);
-    const head = Buffer.alloc(64);
-    const fh = await open(req.workPath, "r");
-    await fh.read(head, 0, 64, 0).finally(() => fh.close());
-    const format: DatasetFormat = formatOf(req.fileName, head);
-    const options: ParseOptions = { keyColumns: req.keyColumns, numericColumns: req.numericColumns, onProgress: (f) => progress("parse", f) };
+    const format: DatasetFormat = formatOf(req.fileName, await firstBytesOf(req.workPath));
+    const options: ParseOptions = {
+      keyColumns: req.keyColumns,
+      numericColumns: req.numericColumns,
+      readByValues: req.readByValues?.columns,
+      onProgress: (f) => progress("parse", f),
+    };
     const outcome = await parseDatasetFile(req.workPath, req.fileName, format, options);
     if (!outcome.ok) return await refuse(actor, req, outcome.problems);
     const parsed = outcome.dataset;
@@ -198,6 +202,9 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
             rows: parsed.rowNumbers.length,
             columns: parsed.names.length,
             keyColumns: parsed.keyColumns,
+            keySource: parsed.keySource,
+            ...(req.readByValues && req.readByValues.columns.length > 0 ? { readByValues: req.readByValues } : {}),
+            warnings: parsed.columns.flatMap((c) => c.warnings ?? []).slice(0, 20),
             screenHits: hits.map((h) => `${h.column}: ${h.rule}`),
             changes: changes ? { rowsAdded: changes.rowsAdded, rowsRemoved: changes.rowsRemoved, rowsChanged: changes.rowsChanged, columnsAdded: changes.columnsAdded, columnsRemoved: changes.columnsRemoved } : null,
           },
@@ -503,20 +510,33 @@ export async function recordNotIdentifier(actor: Actor, studyId: string, hitId: 
   return { ok: true };
 }
 
-/** The version's file without one column, in the version's own format. */
-async function bytesWithout(v: DatasetVersionRow, parsed: ParsedColumns, column: string): Promise<Buffer> {
+/**
+ * The version's file without one column: Dataset-JSON stays Dataset-JSON (in its JSON or
+ * NDJSON form); CSV and XPORT become CSV (Plumbline writes no transport files).
+ */
+async function bytesWithout(v: DatasetVersionRow, parsed: ParsedColumns, column: string): Promise<{ bytes: Buffer; format: DatasetFormat; fileName: string }> {
   const keep = parsed.names.map((n, j) => (n === column ? -1 : j)).filter((j) => j >= 0);
   if (v.format === "dataset-json") {
-    const doc = JSON.parse(await readFile(absoluteStorePath(v.storedPath), "utf8")) as { columns: { name: string }[]; rows: unknown[][] };
-    const at = doc.columns.findIndex((c) => c.name.trim() === column);
+    const text = await readFile(absoluteStorePath(v.storedPath), "utf8");
+    const drop = (columns: { name: string }[]) => columns.findIndex((c) => c.name.trim() === column);
+    if (/\.ndjson$/i.test(v.fileName)) {
+      const [first, ...rest] = text.split(/\r?\n/).filter((l) => l.trim() !== "");
+      const meta = JSON.parse(first) as { columns: { name: string }[] };
+      const at = drop(meta.columns);
+      meta.columns = meta.columns.filter((_, i) => i !== at);
+      const rows = rest.map((l) => JSON.stringify((JSON.parse(l) as unknown[]).filter((_, i) => i !== at)));
+      return { bytes: Buffer.from([JSON.stringify(meta), ...rows].join("\n") + "\n", "utf8"), format: "dataset-json", fileName: v.fileName };
+    }
+    const doc = JSON.parse(text) as { columns: { name: string }[]; rows: unknown[][] };
+    const at = drop(doc.columns);
     doc.columns = doc.columns.filter((_, i) => i !== at);
     doc.rows = doc.rows.map((r) => r.filter((_, i) => i !== at));
-    return Buffer.from(JSON.stringify(doc), "utf8");
+    return { bytes: Buffer.from(JSON.stringify(doc), "utf8"), format: "dataset-json", fileName: v.fileName };
   }
   const n = parsed.rowNumbers.length;
   const records: string[][] = [keep.map((j) => parsed.names[j])];
   for (let i = 0; i < n; i++) records.push(keep.map((j) => parsed.cells[j][i]));
-  return Buffer.from(stringify(records, { record_delimiter: "\n" }), "utf8");
+  return { bytes: Buffer.from(stringify(records, { record_delimiter: "\n" }), "utf8"), format: "csv", fileName: v.fileName.replace(/\.[^.]*$/, "") + ".csv" };
 }
 
 /**
@@ -535,7 +555,7 @@ export async function removeFlaggedColumn(actor: Actor, studyId: string, hitId: 
   if (key.includes(h.column)) {
     return { ok: false, message: `"${h.column}" is part of the dataset's key (${key.join(", ")}). Records could no longer be told apart; record why it is not an identifier instead, or replace it with a pseudonymous code and upload again.` };
   }
-  const bytes = await bytesWithout(v, parsed, h.column);
+  const { bytes, format: derivedFormat, fileName: derivedFileName } = await bytesWithout(v, parsed, h.column);
   const sha256 = createHash("sha256").update(bytes).digest("hex");
   const j = parsed.names.indexOf(h.column);
   const derived: ParsedColumns = {
@@ -569,8 +589,8 @@ export async function removeFlaggedColumn(actor: Actor, studyId: string, hitId: 
         datasetId: v.datasetId,
         version,
         status: "draft",
-        format: v.format,
-        fileName: v.fileName,
+        format: derivedFormat,
+        fileName: derivedFileName,
         byteSize: bytes.length,
         sha256,
         rowCount: v.rowCount,

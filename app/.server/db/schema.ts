@@ -101,7 +101,7 @@ export const datasetVersions = sqliteTable(
     datasetId: text("dataset_id").notNull().references(() => datasets.id),
     version: integer("version").notNull(),
     status: text("status", { enum: ["draft", "locked", "superseded"] }).notNull().default("draft"),
-    format: text("format", { enum: ["csv", "dataset-json"] }).notNull(),
+    format: text("format", { enum: ["csv", "dataset-json", "xpt"] }).notNull(),
     fileName: text("file_name").notNull(),
     byteSize: integer("byte_size").notNull(),
     sha256: text("sha256").notNull(),
