@@ -85,7 +85,13 @@ export function PreviewTable({ rowsUrl, columns, total }: { rowsUrl: string; col
         id: c.name,
         // An accessor makes the column sortable; the sorting itself happens on the server.
         accessorFn: (row) => row.cells?.[j] ?? "",
-        header: c.name,
+        // The label the file gives (Dataset-JSON, XPORT) under the name.
+        header: () => (
+          <span className="block" title={c.label ?? undefined}>
+            {c.name}
+            {c.label ? <span className="block truncate text-[0.7rem] font-normal normal-case tracking-normal">{c.label}</span> : null}
+          </span>
+        ),
         meta: { numeric: c.type === "number" },
         cell: ({ row }) => (row.original.cells ? row.original.cells[j] : "…"),
       })),
