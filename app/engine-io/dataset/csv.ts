@@ -9,7 +9,7 @@ import { parse as csvParser } from "csv-parse";
 import { isMissingCell, parseNumber } from "../../engine/data";
 import { DEFAULT_LIMITS, type ReadLimits } from "./limits";
 import { count, Problems } from "./problems";
-import { checkCell, checkNames, type ReadColumn, type ReadOptions, type ReadOutcome } from "./table";
+import { checkCell, checkNames, trimName, type ReadColumn, type ReadOptions, type ReadOutcome } from "./table";
 import { decimalCommaCells, inferValueType, mostlyNumbersWarning } from "./typing";
 
 /** Which of comma, semicolon and tab separates the header line's fields (outside quotes). */
@@ -71,7 +71,7 @@ export async function readCsv(source: AsyncIterable<Buffer>, totalBytes: number,
 
   const onRecord = (record: string[]) => {
     if (names === null) {
-      names = record.map((n) => n.trim());
+      names = record.map(trimName);
       checkNames(fileName, names, limits, problems);
       cells = names.map(() => []);
       return;

@@ -9,7 +9,7 @@
 import { isMissingCell, parseNumber } from "../../engine/data";
 import { DEFAULT_LIMITS, type ReadLimits } from "./limits";
 import { count, Problems } from "./problems";
-import { checkCell, checkNames, type ReadColumn, type ReadOptions, type ReadOutcome, type ValueType } from "./table";
+import { checkCell, checkNames, trimName, type ReadColumn, type ReadOptions, type ReadOutcome, type ValueType } from "./table";
 import { inferValueType, isIsoTime, isoPrecision, precisionCounts } from "./typing";
 
 /** Dataset-JSON v1.1 data types (CDISC Dataset-JSON v1.1 specification). */
@@ -132,7 +132,7 @@ export function readDatasetJsonText(text: string, fileName: string, options: Rea
     if (typeof col.dataType === "string" && !JSON_TYPES.includes(dataType)) {
       problems.add(not(`columns[${i}] ("${String(col.name)}") has dataType "${col.dataType}"; allowed are ${JSON_TYPES.join(", ")}`));
     }
-    const name = typeof col.name === "string" ? col.name.trim() : "";
+    const name = typeof col.name === "string" ? trimName(col.name) : "";
     names.push(name);
     dataTypes.push(dataType);
     const column: ReadColumn = { name, label: typeof col.label === "string" ? col.label : null, valueType: valueTypeOf(dataType), declaredType: String(col.dataType) };

@@ -67,6 +67,14 @@ export interface ReadOptions {
 }
 
 /**
+ * A column name without surrounding spaces. Not String.prototype.trim, which also removes a
+ * byte-order mark (U+FEFF) and would hide a file that starts with two of them.
+ */
+export function trimName(name: string): string {
+  return name.replace(/^[ \t\r\n]+|[ \t\r\n]+$/g, "");
+}
+
+/**
  * Checks column names: present, not too long, free of byte-order marks and control characters,
  * and unique without regard to case (analysis software treats AGE and age as one column).
  */
