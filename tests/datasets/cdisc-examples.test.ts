@@ -5,7 +5,8 @@
  * haven::read_xpt (reference JSON written by tests/fixtures/cdisc/generate-xpt-reference.R).
  */
 import { execFile } from "node:child_process";
-import { readFileSync } from "node:fs";
+import { mkdtempSync, readFileSync, writeFileSync } from "node:fs";
+import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { describe, expect, it } from "vitest";
 import { parseDatasetFile, type ParsedDataset } from "~/.server/datasets/parse.server";
@@ -184,3 +185,20 @@ describe("inspect on every example file", () => {
     expect(run.stderr).toMatch(/^error: adsl\.json is Dataset-JSON version 1\.0\.0; .*Convert the file to Dataset-JSON v1\.1/);
   });
 });
+
+describe("fit on the example files", () => {
+  it("fits the same model to adsl.xpt, adsl.json and adsl.ndjson with identical results (one typing for every format)", async () => {
+    const scratch = mkdtempSync(join(tmpdir(), "plumbline-cdisc-"));
+    const model = join(scratch, "adsl-weight-model.json");
+    writeFileSync(model, JSON.stringify({ response: "WEIGHTBL", terms: [{ variable: "HEIGHTBL" }, { variable: "SEX", reference: "F" }, { variable: "AGE" }], id: "USUBJID" }));
+    const runs = await Promise.all(["adsl.xpt", "adsl.json", "adsl.ndjson"].map((f) => runCli(["fit", "--data", join(CDISC, f), "--model", model])));
+    for (const run of runs) expect(run.code, run.stderr).toBe(0);
+    const [xpt, json, nd] = runs.map((r) => JSON.parse(r.stdout) as { n: number; excluded: number; coefficients: { name: string; estimate: number }[] });
+    // 254 subjects, one without a baseline weight (CDISC's file).
+    expect(xpt.n).toBe(253);
+    expect(xpt.coefficients.map((c) => c.name)).toEqual(json.coefficients.map((c) => c.name));
+    expect(xpt.coefficients).toEqual(json.coefficients);
+    expect(nd.coefficients).toEqual(json.coefficients);
+  });
+});
+

@@ -64,8 +64,8 @@ describe("headless rerun command", () => {
     const goodModel = file("model.json", JSON.stringify({ response: "y", terms: [{ variable: "x" }, { variable: "arm", reference: "A" }] }));
     const goodData = "y,x,arm\n1.2,1,A\n2.3,2,B\n2.9,3,A\n4.4,4,B\n5.1,5,A\n";
     const cases: { data: string; model?: string; expect: RegExp }[] = [
-      { data: "", expect: /^error: the data file is empty$/ },
-      { data: "y,x,arm\n1,2,A\n3,4\n", expect: /^error: data row 2 has 2 fields/ },
+      { data: "", expect: /^error: The file d0\.csv is empty\.$/ },
+      { data: "y,x,arm\n1,2,A\n3,4\n", expect: /^error: d1\.csv: row 2 has 2 fields where the header has 3 columns/ },
       { data: "y,z,arm\n1,2,A\n3,4,B\n", expect: /^error: column "x" is missing from the data$/ },
       { data: goodData.replace("2.9", "n/a"), expect: /^error: response column "y" is not numeric: data row 3 has "n\/a"$/ },
       { data: goodData, model: JSON.stringify({ response: "y", terms: [{ variable: "arm", reference: "Placebo" }] }), expect: /levels: A, B$/ },
