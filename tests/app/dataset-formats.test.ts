@@ -94,6 +94,19 @@ describe("hostile files through the web upload", () => {
     expect(tmpFiles()).toEqual([]);
   });
 
+  it("an 8.9 MB CSV with 1,000,000 columns is refused within seconds and nothing is stored (it ran the server out of memory)", async () => {
+    const names = Array.from({ length: 1_000_000 }, (_, i) => `c${i}`);
+    const text = names.join(",") + "\n" + names.map(() => "1").join(",") + "\n";
+    const started = performance.now();
+    const { result } = await upload("wide.csv", text, { datasetName: "adwide" });
+    expect(performance.now() - started).toBeLessThan(10_000);
+    expect(result).toEqual({ ok: false, problems: [expect.stringMatching(/^wide\.csv: the header line is longer than 1,048,576 bytes, the limit\..*DATASET_MAX_HEADER_BYTES\.$/)] });
+    expect(await rows("SELECT id FROM datasets WHERE name = 'adwide'")).toHaveLength(0);
+    expect(tmpFiles()).toEqual([]);
+    // The server is still answering.
+    expect((await fetch(`${base()}`, { headers: { Cookie: cookie } })).status).toBe(200);
+  });
+
   it("an empty file is named as empty", async () => {
     const { result } = await upload("empty.csv", "", { datasetName: "adempty" });
     expect(result).toEqual({ ok: false, problems: ["The file empty.csv is empty."] });
