@@ -49,4 +49,13 @@ describe("transport files in the browser", () => {
     await page.getByText("XPORT").first().waitFor();
     await screenshot(page, "dataset-xpt-preview-labels");
   });
+
+  it("an empty file is named as empty (not 'choose a file')", async () => {
+    await page.goto(`${stack.appUrl}/studies/${studyId}/datasets`);
+    await page.getByLabel("File").setInputFiles({ name: "empty.csv", mimeType: "text/csv", buffer: Buffer.alloc(0) });
+    await page.getByRole("button", { name: "Upload and check" }).click();
+    const alert = page.getByRole("alert").filter({ hasText: "Nothing was stored" });
+    await alert.waitFor();
+    expect(await alert.textContent()).toContain("The file empty.csv is empty.");
+  });
 });
