@@ -68,6 +68,7 @@ export default function Page({ loaderData, actionData }: Route.ComponentProps) {
           All datasets
         </Link>
       </PageHeader>
+      {v.datasetLabel ? <p className="-mt-2 mb-4 text-sm text-ink-soft">{v.datasetLabel}</p> : null}
       <div className="mb-6 grid gap-4 lg:grid-cols-[1fr_auto]">
         <dl className="num grid grid-cols-2 gap-x-6 gap-y-1 text-sm sm:grid-cols-4">
           <div>

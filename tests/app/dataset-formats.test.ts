@@ -46,8 +46,10 @@ describe("formats through the web upload", () => {
     const { result } = await upload("adsl.xpt", readFileSync(path.join(CDISC, "adsl.xpt")), { datasetName: "adslxpt", keyColumns: "" });
     expect(result.ok, JSON.stringify(result)).toBe(true);
     if (!result.ok) return;
-    const [v] = await rows("SELECT format, row_count, key_columns_json, columns_json FROM dataset_versions WHERE id = ?", [result.versionId]);
+    const [v] = await rows("SELECT format, row_count, key_columns_json, columns_json, dataset_label FROM dataset_versions WHERE id = ?", [result.versionId]);
     expect(v.format).toBe("xpt");
+    // The dataset label as R's haven::read_xpt reads it (tests/fixtures/cdisc/xpt-reference/adsl.json).
+    expect(v.dataset_label).toBe("Subject-Level Analysis Dataset");
     expect(v.row_count).toBe(254);
     expect(JSON.parse(String(v.key_columns_json))).toEqual(["USUBJID"]);
     const columns = JSON.parse(String(v.columns_json)) as { name: string; label: string; type: string; format?: string; declaredType?: string }[];
@@ -56,6 +58,7 @@ describe("formats through the web upload", () => {
     const html = await page.text();
     expect(html).toContain("Unique Subject Identifier");
     expect(html).toContain("XPORT");
+    expect(html).toContain("Subject-Level Analysis Dataset");
   });
 
   it("keeps the key dm.json declares (STUDYID, USUBJID) when the key field is left empty", async () => {

@@ -168,6 +168,7 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
         byteSize: req.byteSize,
         sha256: req.sha256,
         rowCount: parsed.rowNumbers.length,
+        datasetLabel: parsed.datasetLabel ?? null,
         columnsJson: JSON.stringify(parsed.columns),
         keyColumnsJson: JSON.stringify(parsed.keyColumns),
         storedPath,
@@ -197,6 +198,7 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
             version,
             fileName: req.fileName,
             format,
+            datasetLabel: parsed.datasetLabel ?? null,
             sha256: req.sha256,
             byteSize: req.byteSize,
             rows: parsed.rowNumbers.length,
@@ -262,6 +264,8 @@ export interface VersionSummary {
   sha256: string;
   rowCount: number;
   columnCount: number;
+  /** Dataset label the file declares (Dataset-JSON, XPORT); null for CSV. */
+  datasetLabel?: string | null;
   uploadedBy: string | null;
   uploadedAt: string;
   lockedBy: string | null;
@@ -292,6 +296,7 @@ function summaryOf(v: DatasetVersionRow, names: Map<string, string>, unresolved:
     status: v.status,
     format: v.format,
     fileName: v.fileName,
+    datasetLabel: v.datasetLabel ?? null,
     byteSize: v.byteSize,
     sha256: v.sha256,
     rowCount: v.rowCount,
@@ -594,6 +599,7 @@ export async function removeFlaggedColumn(actor: Actor, studyId: string, hitId: 
         byteSize: bytes.length,
         sha256,
         rowCount: v.rowCount,
+        datasetLabel: v.datasetLabel,
         columnsJson: JSON.stringify(meta.filter((c) => c.name !== h.column)),
         keyColumnsJson: v.keyColumnsJson,
         storedPath: blobRelativePath(sha256),

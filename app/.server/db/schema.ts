@@ -106,6 +106,8 @@ export const datasetVersions = sqliteTable(
     byteSize: integer("byte_size").notNull(),
     sha256: text("sha256").notNull(),
     rowCount: integer("row_count").notNull(),
+    /** The dataset label the file declares (Dataset-JSON, XPORT); null for CSV. */
+    datasetLabel: text("dataset_label"),
     /** Column metadata and summaries: name, label, type, missing counts, ranges, levels. */
     columnsJson: text("columns_json").notNull(),
     keyColumnsJson: text("key_columns_json").notNull().default("[]"),
