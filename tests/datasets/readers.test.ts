@@ -167,6 +167,8 @@ describe("Dataset-JSON declared types", () => {
     expect(o.dataset.columns[1]).toMatchObject({ name: "AVAL", declaredType: "integer", valueType: "number", readByValues: true, type: "number" });
     expect(o.dataset.cells[1][3]).toBe("3.5");
     expect(o.dataset.keyColumns).toEqual(["USUBJID"]);
+    const csvFile = await parseCsv(file("subjid,age\nS1,40\n", "a.csv"), "a.csv", { readByValues: ["age"] });
+    expect(problems(csvFile)[0]).toMatch(/^a\.csv: reading columns by their values applies to Dataset-JSON files/);
     const unknown = await parseDatasetJson(file(doc(rows), "adlb.json"), "adlb.json", { readByValues: ["AVALX"] });
     expect(problems(unknown)[0]).toMatch(/^adlb\.json: the column "AVALX" to read by its values is not in the file\./);
   });

@@ -5,12 +5,9 @@
  * the key and the column summaries. Every problem names the file, the column and the row, and
  * says what to do; a file with any problem is refused whole.
  */
-import { createReadStream } from "node:fs";
-import { stat } from "node:fs/promises";
 import { config } from "../config.server";
 import { DEFAULT_LIMITS, type ReadLimits } from "../../engine-io/dataset/limits";
 import { firstBytesOf, formatOf, readDatasetFile, type ColumnReadMeta, type DatasetFormat, type ReadOptions, type ReadOutcome, type ReadTable } from "../../engine-io/dataset/read";
-import { readCsv } from "../../engine-io/dataset/csv";
 import { summaryType } from "../../engine-io/dataset/typing";
 import { summariseColumn, type ColumnMeta } from "./column-summary";
 import { findKey } from "./keys";
@@ -93,13 +90,8 @@ async function guarded(fileName: string, read: () => Promise<ReadOutcome>): Prom
 }
 
 /** Reads and checks a CSV file. */
-export async function parseCsv(filePath: string, fileName: string, options: ParseOptions = {}): Promise<ParseOutcome> {
-  const read = await guarded(fileName, async () => {
-    const size = (await stat(filePath)).size;
-    if (size === 0) return { ok: false, problems: [`The file ${fileName} is empty.`] };
-    return readCsv(createReadStream(filePath, { highWaterMark: 1 << 20 }), size, fileName, readOptions(options));
-  });
-  return finish(fileName, read, options);
+export function parseCsv(filePath: string, fileName: string, options: ParseOptions = {}): Promise<ParseOutcome> {
+  return parseDatasetFile(filePath, fileName, "csv", options);
 }
 
 /** Reads and checks a CDISC Dataset-JSON v1.1 file (JSON or NDJSON form). */
@@ -108,6 +100,12 @@ export function parseDatasetJson(filePath: string, fileName: string, options: Pa
 }
 
 export async function parseDatasetFile(filePath: string, fileName: string, format: DatasetFormat, options: ParseOptions = {}): Promise<ParseOutcome> {
+  if (format !== "dataset-json" && (options.readByValues?.length ?? 0) > 0) {
+    return {
+      ok: false,
+      problems: [`${fileName}: reading columns by their values applies to Dataset-JSON files, whose columns declare a data type; ${format === "csv" ? "CSV" : "XPORT"} columns are read by their values already. Leave "Read by their values" empty.`],
+    };
+  }
   const read = await guarded(fileName, () => readDatasetFile(filePath, fileName, format, readOptions(options)));
   return finish(fileName, read, options);
 }
