@@ -79,7 +79,7 @@ function finish(file: string, read: ReadOutcome, options: ParseOptions): ParseOu
   };
 }
 
-/** Reads a file the route could not take apart: any failure becomes a refusal naming the file. */
+/** Any unexpected failure of a reader becomes a refusal naming the file (so an audited refusal, never a 500). */
 async function guarded(fileName: string, read: () => Promise<ReadOutcome>): Promise<ReadOutcome> {
   try {
     return await read();
