@@ -37,7 +37,6 @@ export const DISPLAY_NAME_MAX = 200;
  * characters (whole code points). Falls back to the e-mail address when nothing is left.
  */
 export function cleanDisplayName(raw: string, email: string): string {
-  // eslint-disable-next-line no-control-regex
   const text = raw.replace(/[\u0000-\u001f\u007f-\u009f\u200b-\u200f\u2028-\u202e\u2066-\u2069]/g, " ").replace(/\s+/g, " ").trim();
   const cut = [...text].slice(0, DISPLAY_NAME_MAX).join("").trim();
   return cut.length > 0 ? cut : email;
