@@ -37,7 +37,6 @@ export const DISPLAY_NAME_MAX = 200;
  * characters (whole code points). Falls back to the e-mail address when nothing is left.
  */
 export function cleanDisplayName(raw: string, email: string): string {
-  // eslint-disable-next-line no-control-regex
   const text = raw.replace(/[\u0000-\u001f\u007f-\u009f\u200b-\u200f\u2028-\u202e\u2066-\u2069]/g, " ").replace(/\s+/g, " ").trim();
   const cut = [...text].slice(0, DISPLAY_NAME_MAX).join("").trim();
   return cut.length > 0 ? cut : email;
@@ -47,7 +46,7 @@ export function cleanDisplayName(raw: string, email: string): string {
  * The account a verified identity belongs to. A sponsor account (OpenID Connect) is the pair
  * (issuer, subject): a token with a known e-mail but another subject, or from another issuer,
  * is refused rather than given the account. An account made before issuers were recorded is
- * bound to the issuer when the subject matches. Staff accounts (SAML, whose NameID is the
+ * bound to the issuer when the subject matches, or when nobody has signed in to it yet. Staff accounts (SAML, whose NameID is the
  * e-mail address) are found by e-mail as before, and get the issuer recorded.
  */
 async function accountOf(tx: DbOrTx, identity: VerifiedIdentity, email: string): Promise<Person | undefined> {
@@ -65,8 +64,10 @@ async function accountOf(tx: DbOrTx, identity: VerifiedIdentity, email: string):
     return bySubject;
   }
   if (!byEmail) return undefined;
-  const legacySameSubject = byEmail.identityIssuer === null && byEmail.identitySource === "oidc" && byEmail.externalId === identity.externalId;
-  if (legacySameSubject) return byEmail;
+  // Accounts without a recorded issuer: bound when the subject matches, or when nobody ever
+  // signed in to them (made in advance, e.g. by the demo seed, with a placeholder subject).
+  const unbound = byEmail.identityIssuer === null && byEmail.identitySource === "oidc";
+  if (unbound && (byEmail.externalId === identity.externalId || byEmail.lastSignInAt === null)) return byEmail;
   throw new SignInRefused(
     "subject-mismatch",
     `the e-mail address ${email} is bound to subject ${byEmail.externalId} at ${byEmail.identityIssuer ?? "an earlier provider"}, not to subject ${identity.externalId} at ${identity.issuer}`,

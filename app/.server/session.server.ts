@@ -156,7 +156,6 @@ export async function endSession(request: Request): Promise<string> {
  * backslash cannot point elsewhere; control characters are refused outright.
  */
 export function safeReturnTo(value: string | null | undefined): string {
-  // eslint-disable-next-line no-control-regex
   if (!value || !value.startsWith("/") || /[\u0000-\u001f\u007f\\]/.test(value)) return "/";
   const base = new URL(config.APP_URL);
   let url: URL;

@@ -147,12 +147,17 @@ describe("sponsor sign-in through the fake OpenID Connect provider", () => {
   it("an account made before issuers were recorded is bound at its next sign-in only when the subject matches", async () => {
     await db.insert(t.people).values([
       { id: "legacy-1", email: "old.reader@quillmoor.example", displayName: "Old Reader", identitySource: "oidc", externalId: "legacy-sub", organisation: "Quillmoor Therapeutics" },
-      { id: "legacy-2", email: "other.reader@quillmoor.example", displayName: "Other Reader", identitySource: "oidc", externalId: "legacy-sub-2", organisation: "Quillmoor Therapeutics" },
+      { id: "legacy-2", email: "other.reader@quillmoor.example", displayName: "Other Reader", identitySource: "oidc", externalId: "legacy-sub-2", organisation: "Quillmoor Therapeutics", lastSignInAt: "2026-11-01T10:00:00.000Z" },
+      // Made in advance (as the demo seed does), never signed in to: its placeholder subject is replaced at the first sign-in.
+      { id: "legacy-3", email: "new.reader@quillmoor.example", displayName: "New Reader", identitySource: "oidc", externalId: "new.reader@quillmoor.example", organisation: "Quillmoor Therapeutics" },
     ]);
     const claims = { iss: fake.issuerUrl, email: "old.reader@quillmoor.example", name: "Old Reader", organisation: "Quillmoor Therapeutics" };
     const person = await recordSponsorSignIn({ ...claims, sub: "legacy-sub" });
     expect(person).toMatchObject({ id: "legacy-1", identityIssuer: fake.issuerUrl });
     await expect(recordSponsorSignIn({ ...claims, email: "other.reader@quillmoor.example", sub: "someone-else" })).rejects.toMatchObject({ code: "subject-mismatch" });
+    expect(await recordSponsorSignIn({ ...claims, email: "new.reader@quillmoor.example", sub: "new-sub" })).toMatchObject({ id: "legacy-3", identityIssuer: fake.issuerUrl, externalId: "new-sub" });
+    // From then on it is bound: another subject is refused.
+    await expect(recordSponsorSignIn({ ...claims, email: "new.reader@quillmoor.example", sub: "other-sub" })).rejects.toMatchObject({ code: "subject-mismatch" });
   });
 
   it("the callback refuses the takeover with a clear message and an audit event", async () => {

@@ -152,6 +152,64 @@ describe("dataset lock is an electronic signature", () => {
   });
 });
 
+describe("rerun sign-off", () => {
+  let rerunPath = "";
+
+  beforeAll(async () => {
+    // An unsigned primary rerun with every finding assessed by Priya, made over HTTP as people make it.
+    const priya = await sessionCookieFor(stack, PRIYA);
+    const base = `/studies/${studyId}`;
+    const planUrl = await post(priya, `${base}/plans`, [["title", "Sign-off test plan"], ["sapName", "SAP for the sign-off test"], ["sapVersion", "1.0"], ["sapDate", "2026-11-03"]]);
+    const versionId = planUrl.split("/").pop() ?? "";
+    await post(priya, `${base}/plans/${versionId}/models/new`, [
+      ["revision", "1"], ["key", "primary"], ["title", "Primary efficacy"], ["datasetName", "adeff"], ["populationColumn", "fasfl"], ["populationValue", "Y"],
+      ["response", "chg"], ["family", "gaussian"], ["treatment", "arm"], ["treatmentReference", "Placebo"], ["id", "subjid"], ["covariate", "base"],
+      ["check:cooks_distance:enabled", "on"],
+    ]);
+    const plannedModelId = await one("SELECT id FROM planned_models WHERE plan_version_id = ?", [versionId]);
+    await post(priya, `${base}/plans/${versionId}`, [["intent", "submit"], ["revision", await one("SELECT revision FROM plan_versions WHERE id = ?", [versionId])]]);
+    await post(await sessionCookieFor(stack, TOMAS), `${base}/plans/${versionId}`, [["intent", "approve"]]);
+    const datasetVersionId = await one("SELECT v.id FROM dataset_versions v JOIN datasets d ON d.id = v.dataset_id WHERE d.study_id = ? AND d.name = 'adeff' AND v.status = 'locked' ORDER BY v.version", [studyId]);
+    const rerunUrl = await post(priya, `${base}/reruns`, [["plannedModelId", plannedModelId], ["datasetVersionId", datasetVersionId]]);
+    const rerunId = rerunUrl.split("/").pop() ?? "";
+    const deadline = Date.now() + 90_000;
+    while ((await one("SELECT status FROM reruns WHERE id = ?", [rerunId])) !== "completed") {
+      if (Date.now() > deadline) throw new Error(`Rerun ${rerunId} did not complete within 90 s.`);
+      await new Promise((r) => setTimeout(r, 250));
+    }
+    const findings = await testDb(stack).execute({ sql: "SELECT id FROM findings WHERE rerun_id = ?", args: [rerunId] });
+    for (const f of findings.rows) {
+      await post(priya, `${base}/reruns/${rerunId}`, [
+        ["intent", "assess"], ["findingId", String(f.id)], ["category", "model_assumption"], ["impact", "none"], ["action", "planned_sensitivity"],
+        ["rationale", "Checked against the planned sensitivity analyses; the conclusion stands."],
+      ]);
+    }
+    rerunPath = `${base}/reruns/${rerunId}`;
+  }, 120_000);
+
+  it("the author picked at the identity provider cannot sign in the approver's place; the approver finishes in one press", async () => {
+    const page = await signedIn("Tomas Berg");
+    await ageSignIn(TOMAS);
+    await page.goto(`${stack.appUrl}${rerunPath}#sign-off`);
+    await expect.poll(() => page.getByTestId("signing-explainer").textContent()).toMatch(/Signing is your electronic signature.*“Reviewed and approved”.*sends you to the sign-in service/);
+    await page.getByRole("button", { name: "Sign this rerun" }).click();
+    await pickAtIdp(page, "Priya Lindqvist");
+    expect(new URL(page.url()).searchParams.get("reauth")).toBe("different-person");
+    await expect.poll(() => page.getByRole("alert").filter({ hasText: /confirmed a different person/ }).count()).toBe(1);
+    expect(await one("SELECT count(*) FROM signatures WHERE rerun_id = ?", [rerunPath.split("/").pop() ?? ""])).toBe("0");
+    await page.getByRole("button", { name: "Sign this rerun" }).click();
+    await pickAtIdp(page, "Tomas Berg");
+    expect(new URL(page.url()).searchParams.get("reauth")).toBe("done");
+    await page.getByRole("button", { name: "Sign this rerun" }).click();
+    await page.getByText(/Tomas Berg · “Reviewed and approved”/).waitFor();
+    await screenshot(page, "signature-rerun-signed");
+    const [signature] = (await testDb(stack).execute({ sql: "SELECT signer_name, signed_at, authenticated_at FROM signatures WHERE rerun_id = ?", args: [rerunPath.split("/").pop() ?? ""] })).rows;
+    expect(signature.signer_name).toBe("Tomas Berg");
+    expect(Date.parse(String(signature.signed_at)) - Date.parse(String(signature.authenticated_at))).toBeLessThan(5 * 60 * 1000);
+    await page.context().close();
+  }, 90_000);
+});
+
 describe("segregation of duties", () => {
   it("an administrator who gives himself a study role is refused on the page, and the refusal is audited", async () => {
     const page = await signedIn("Morgan Reyes");

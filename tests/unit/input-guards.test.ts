@@ -42,7 +42,6 @@ describe("display names from identity providers", () => {
     const person = await recordSignIn({ source: "saml", externalId: "ada@plumbline.example", issuer: "idp", email: "ada@plumbline.example", displayName: long, organisation: null, isAdmin: true });
     expect(person.displayName.length).toBeLessThanOrEqual(DISPLAY_NAME_MAX);
     expect(person.displayName.startsWith("Ada Lovelace x")).toBe(true);
-    // eslint-disable-next-line no-control-regex
     expect(person.displayName).not.toMatch(/[\u0000-\u001f\u202e]/);
     const [stored] = await db.select().from(t.people).where(eq(t.people.id, person.id));
     expect(stored.displayName).toBe(person.displayName);
