@@ -105,7 +105,7 @@ async function enforceBodyLimit(request: Request, limit: number): Promise<Respon
  * sent everything: closing a connection with unread bytes resets it, and the answer is lost.
  * Nothing is kept. A client still sending after that loses its connection.
  */
-const LINGER_MS = 2_000;
+export const LINGER_MS = 2_000;
 const LINGER_BYTES = 64 * 1024 * 1024;
 
 async function discardRest(reader: ReadableStreamDefaultReader<Uint8Array>): Promise<void> {

@@ -5,7 +5,7 @@ import { Caution } from "~/components/caution";
 import { utc } from "~/components/format";
 import { EmptyState, FieldError, PageHeader } from "~/components/page";
 import { actorOf } from "~/.server/people.server";
-import { exportAppendix, listAppendices } from "~/.server/appendix/appendix.server";
+import { AppendixRefused, exportAppendix, listAppendices } from "~/.server/appendix/appendix.server";
 import { buildAppendixContent, signedPrimaryReruns, type AppendixScope } from "~/.server/appendix/build-content.server";
 import { NARRATIVE_SECTIONS, SECTION_TITLES, type AppendixContent, type Block, type NarrativeSection } from "~/components/appendix-content";
 import { renderFigure } from "~/.server/appendix/figures.server";
@@ -64,8 +64,13 @@ export async function action({ request, params }: Route.ActionArgs): Promise<Act
     return { ok: true, section: n.data.section, message: version ? `Saved as version ${version}.` : "Nothing to save yet." };
   }
   const scope: AppendixScope = input.scope === "rerun" ? { kind: "rerun", rerunId: input.id } : { kind: "plan_version", planVersionId: input.id };
-  const row = await exportAppendix(actorOf(user), study.id, scope);
-  return { ok: true, message: `Exported. SHA-256 ${row.sha256}.`, exported: { id: row.id, sha256: row.sha256 } };
+  try {
+    const row = await exportAppendix(actorOf(user), study.id, scope);
+    return { ok: true, message: `Exported. SHA-256 ${row.sha256}.`, exported: { id: row.id, sha256: row.sha256 } };
+  } catch (e) {
+    if (e instanceof AppendixRefused) return { ok: false, message: e.message };
+    throw e;
+  }
 }
 
 function PreviewBlock({ b, images }: { b: Block; images: Record<string, string> }) {
@@ -269,6 +274,10 @@ export default function Page({ loaderData, actionData }: Route.ComponentProps) {
                   Download the .docx
                 </a>{" "}
                 <span className="num block break-all text-xs text-ink-soft">SHA-256 {actionData.exported.sha256}</span>
+              </p>
+            ) : actionData && !actionData.ok && !actionData.section && actionData.message ? (
+              <p role="alert" className="text-sm text-finding">
+                {actionData.message}
               </p>
             ) : null}
           </section>

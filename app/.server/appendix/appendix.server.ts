@@ -4,9 +4,8 @@
  * the `appendices` table and an `appendix.export` audit event in the same transaction. The
  * same signed reruns and narrative give the same bytes, so a second export has the same hash.
  */
-import { createHash } from "node:crypto";
-import { existsSync } from "node:fs";
-import { mkdir, readFile, rename, writeFile } from "node:fs/promises";
+import { createHash, randomBytes } from "node:crypto";
+import { mkdir, readFile, rename, rm, stat, writeFile } from "node:fs/promises";
 import path from "node:path";
 import { and, desc, eq } from "drizzle-orm";
 import { data } from "react-router";
@@ -15,6 +14,7 @@ import { appendAudit, canonicalJson } from "../audit.server";
 import { config } from "../config.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
 import { notifyAppendixExported } from "../mail/notifications.server";
+import { describeStorageError, isStorageError, STORAGE_ADVICE } from "../storage-errors.server";
 import type { PersonActor } from "../people.server";
 import { buildAppendixContent, type AppendixScope } from "./build-content.server";
 import { renderDocx } from "./docx.server";
@@ -27,15 +27,38 @@ export function appendixRelativePath(sha256: string): string {
   return path.join("appendices", sha256.slice(0, 2), `${sha256}.docx`);
 }
 
-async function storeBytes(bytes: Buffer, sha256: string): Promise<string> {
-  const relative = appendixRelativePath(sha256);
+/** An export that could not be stored: the data folder is full or not writable. Nothing was kept. */
+export class AppendixRefused extends Error {
+  readonly status = 507;
+}
+
+/**
+ * Writes the bytes to a work file of their own beside the target and renames it into place;
+ * on any error the work file is removed and the error passes on. True when this call put a new
+ * file in place. A target that exists but is not these bytes' file (a folder, a truncated
+ * file) is replaced, or the rename fails and says so.
+ */
+async function storeBytes(bytes: Buffer, relative: string): Promise<boolean> {
   const target = path.resolve(config.DATA_DIR, relative);
-  if (existsSync(target)) return relative;
+  const existing = await stat(target).catch(() => null);
+  if (existing?.isFile() && existing.size === bytes.length) return false;
   await mkdir(path.dirname(target), { recursive: true });
-  const work = `${target}.${process.pid}.part`;
-  await writeFile(work, bytes);
-  await rename(work, target);
-  return relative;
+  const work = `${target}.${process.pid}.${randomBytes(6).toString("hex")}.part`;
+  try {
+    await writeFile(work, bytes, { flag: "wx" });
+    await rename(work, target);
+  } catch (e) {
+    await rm(work, { force: true }).catch(() => undefined);
+    throw e;
+  }
+  return true;
+}
+
+/** Records a refused export in the audit trail; a failure to record it (full disk) is only logged. */
+async function auditRefusal(actor: PersonActor, studyId: string, scope: AppendixScope, reason: string): Promise<void> {
+  await appendAudit({ actor, action: "appendix.export_refused", entityType: "appendix", studyId, after: { scope: scope.kind }, detail: reason }).catch((e: unknown) =>
+    console.error("Could not record a refused appendix export in the audit trail:", e instanceof Error ? e.message : e),
+  );
 }
 
 /** Builds and renders the appendix without storing it (the same bytes an export stores). */
@@ -45,37 +68,55 @@ export async function renderAppendix(studyId: string, scope: AppendixScope) {
   return { content, bytes, sha256: createHash("sha256").update(bytes).digest("hex") };
 }
 
-/** Exports, stores and records the appendix; returns the stored row. */
+/**
+ * Exports, stores and records the appendix; returns the stored row. When the file or its record
+ * cannot be written (full or read-only data folder) it throws AppendixRefused, having removed
+ * what it wrote: no file without its record, no record without its file.
+ */
 export async function exportAppendix(actor: PersonActor, studyId: string, scope: AppendixScope): Promise<StoredAppendix> {
   const { content, bytes, sha256 } = await renderAppendix(studyId, scope);
-  const storedPath = await storeBytes(bytes, sha256);
-  return writeTransaction(async (tx) => {
-    const row: StoredAppendix = {
-      id: newId(),
-      studyId,
-      planVersionId: content.planVersionId,
-      rerunIdsJson: canonicalJson(content.rerunIds),
-      sha256,
-      storedPath,
-      byteSize: bytes.length,
-      exportedBy: actor.id,
-      exportedAt: isoNow(),
-    };
-    await tx.insert(t.appendices).values(row);
-    await appendAudit(
-      {
-        actor,
-        action: "appendix.export",
-        entityType: "appendix",
-        entityId: row.id,
+  const storedPath = appendixRelativePath(sha256);
+  let placed = false;
+  try {
+    placed = await storeBytes(bytes, storedPath);
+    return await writeTransaction(async (tx) => {
+      const row: StoredAppendix = {
+        id: newId(),
         studyId,
-        after: { sha256, byteSize: row.byteSize, planVersionId: row.planVersionId, rerunIds: content.rerunIds, scope: content.scope.kind },
-      },
-      tx,
-    );
-    await notifyAppendixExported(tx, { studyId, appendixId: row.id, rerunIds: content.rerunIds });
-    return row;
-  });
+        planVersionId: content.planVersionId,
+        rerunIdsJson: canonicalJson(content.rerunIds),
+        sha256,
+        storedPath,
+        byteSize: bytes.length,
+        exportedBy: actor.id,
+        exportedAt: isoNow(),
+      };
+      await tx.insert(t.appendices).values(row);
+      await appendAudit(
+        {
+          actor,
+          action: "appendix.export",
+          entityType: "appendix",
+          entityId: row.id,
+          studyId,
+          after: { sha256, byteSize: row.byteSize, planVersionId: row.planVersionId, rerunIds: content.rerunIds, scope: content.scope.kind },
+        },
+        tx,
+      );
+      await notifyAppendixExported(tx, { studyId, appendixId: row.id, rerunIds: content.rerunIds });
+      return row;
+    });
+  } catch (e) {
+    if (placed) {
+      // Keep a file an earlier export's record points to; drop one only this export wrote.
+      const [other] = await db.select({ id: t.appendices.id }).from(t.appendices).where(eq(t.appendices.storedPath, storedPath)).limit(1).catch(() => [{ id: "unknown" }]);
+      if (!other) await rm(path.resolve(config.DATA_DIR, storedPath), { force: true }).catch(() => undefined);
+    }
+    const reason = `The appendix could not be stored: ${isStorageError(e) ? describeStorageError(e) : e instanceof Error ? e.message : String(e)}. ${STORAGE_ADVICE}`;
+    await auditRefusal(actor, studyId, scope, reason);
+    if (isStorageError(e) || /SQLITE_(FULL|IOERR|READONLY|CANTOPEN)/.test(String((e as { code?: unknown })?.code ?? (e as Error)?.message))) throw new AppendixRefused(reason);
+    throw e;
+  }
 }
 
 export interface AppendixListing extends StoredAppendix {

@@ -14,6 +14,7 @@ import type { ReadableStream as WebReadableStream } from "node:stream/web";
 import busboy from "busboy";
 import { appendAudit, type Actor } from "../audit.server";
 import { config } from "../config.server";
+import { LINGER_MS } from "../security.server";
 import { describeStorageError, isStorageError, STORAGE_ADVICE } from "../storage-errors.server";
 import { newWorkPath, removeQuietly } from "./store.server";
 
@@ -35,6 +36,21 @@ export function formatBytes(n: number): string {
   if (n >= 1_000_000) return `${(n / 1_000_000).toFixed(n % 1_000_000 === 0 ? 0 : 1)} MB`;
   if (n >= 1_000) return `${(n / 1_000).toFixed(0)} kB`;
   return `${n} bytes`;
+}
+
+/**
+ * After a refusal, drops what the client is still sending for a while, so it receives the
+ * refusal rather than a broken connection (destroying the body closes the connection before
+ * the answer goes out); a client still sending after LINGER_MS loses its connection.
+ */
+function discardRest(body: Readable): void {
+  if (body.destroyed || body.readableEnded) return;
+  const timer = setTimeout(() => body.destroy(), LINGER_MS);
+  timer.unref();
+  body.once("close", () => clearTimeout(timer));
+  body.once("end", () => clearTimeout(timer));
+  body.on("error", () => undefined);
+  body.resume();
 }
 
 /** The refusal of a file over the limit; exactly `maxBytes` bytes is still within it. */
@@ -127,7 +143,7 @@ export async function receiveUpload(request: Request, maxBytes = config.DATASET_
     await done;
   } catch (e) {
     body.unpipe(parser);
-    body.destroy();
+    discardRest(body);
     parser.destroy();
     // Let the file write settle (destroying the parser ends it) before removing its work file.
     await Promise.allSettled(writes);

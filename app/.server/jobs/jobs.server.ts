@@ -104,9 +104,12 @@ function workerGone(lockedBy: string | null): boolean {
  */
 export async function recoverInterruptedJobs(): Promise<Job[]> {
   const cutoff = Date.now() - STALE_MS;
+  const orphaned = (j: Job) => !j.heartbeatAt || Date.parse(j.heartbeatAt) < cutoff || workerGone(j.lockedBy);
+  // A read first: the periodic pass takes the write lock only when there is something to recover.
+  if (!(await db.select().from(t.jobs).where(eq(t.jobs.status, "running"))).some(orphaned)) return [];
   const failed = await writeTransaction(async (tx) => {
     const running = await tx.select().from(t.jobs).where(eq(t.jobs.status, "running"));
-    const stale = running.filter((j) => !j.heartbeatAt || Date.parse(j.heartbeatAt) < cutoff || workerGone(j.lockedBy));
+    const stale = running.filter(orphaned);
     const out: Job[] = [];
     for (const j of stale) {
       if (j.attempts >= MAX_ATTEMPTS) {
