@@ -1,7 +1,8 @@
 /**
- * Reads a CSV file's text into the engine's column table: RFC 4180 through csv-parse (quotes,
- * embedded commas and line breaks, UTF-8 with or without byte-order mark). Row numbers are
- * 1-based data rows, header excluded.
+ * Reads CSV text already in memory into the engine's column table: RFC 4180 through csv-parse
+ * (quotes, embedded commas and line breaks, UTF-8 with or without byte-order mark). Row numbers
+ * are 1-based data rows, header excluded. For the engine's tests on small reference files;
+ * dataset files (uploads and the headless command) go through app/engine-io/dataset/.
  */
 import { parse } from "csv-parse/sync";
 import type { ColumnTable } from "~/engine/data";

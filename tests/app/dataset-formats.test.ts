@@ -69,6 +69,18 @@ describe("formats through the web upload", () => {
     expect(JSON.parse(String(v.key_columns_json))).toEqual(["STUDYID", "USUBJID"]);
   });
 
+  it("shows the reading notes on the version page: text cells among numbers, decimal commas", async () => {
+    const lines = ["usubjid;crp;aval"];
+    for (let i = 1; i <= 30; i++) lines.push(`S-${i};${i === 12 ? "ND" : i};${i},25`);
+    const { result } = await upload("notes.csv", lines.join("\n") + "\n", { datasetName: "adnotes" });
+    expect(result.ok, JSON.stringify(result)).toBe(true);
+    if (!result.ok) return;
+    const html = (await (await fetch(`${base()}/${result.versionId}`, { headers: { Cookie: cookie } })).text()).replaceAll("<!-- -->", "");
+    expect(html).toContain("Reading notes");
+    expect(html).toContain("notes.csv: column &quot;crp&quot; is mostly numbers, but 1 cell holds text, so it was read as text: row 12 &quot;ND&quot;.");
+    expect(html).toContain("Decimal commas read as decimal points: aval.");
+  });
+
   it("reads the NDJSON form of Dataset-JSON v1.1", async () => {
     const { result } = await upload("adsl.ndjson", readFileSync(path.join(CDISC, "adsl.ndjson")), { datasetName: "adslnd" });
     expect(result.ok, JSON.stringify(result)).toBe(true);

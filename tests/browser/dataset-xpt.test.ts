@@ -1,5 +1,5 @@
 /**
- * A data manager uploads CDISC's public transport file adsl.xpt (tests/fixtures/cdisc/, see its
+ * A data manager uploads CDISC's public example files (tests/fixtures/cdisc/, see its
  * README for the source) in a real browser and sees the column labels the file carries in the
  * preview's headings.
  */
@@ -58,4 +58,36 @@ describe("transport files in the browser", () => {
     await alert.waitFor();
     expect(await alert.textContent()).toContain("The file empty.csv is empty.");
   });
+
+  it("every other CDISC example loads through the form with its labels and key; the v1.0 file gets its one message", async () => {
+    const files: { file: string; name: string; label: string; key: string }[] = [
+      { file: "adsl.json", name: "cdadsljson", label: "Subject Reference Start Date/Time", key: "USUBJID" },
+      { file: "adsl.ndjson", name: "cdadslnd", label: "Date of First Exposure to Treatment", key: "USUBJID" },
+      { file: "dm.json", name: "cddm", label: "Date/Time of Birth", key: "STUDYID, USUBJID" },
+      { file: "ae.json", name: "cdae", label: "Start Date/Time of Adverse Event", key: "STUDYID, USUBJID, AEDECOD, AESTDTC, AELNKID" },
+      { file: "adae.xpt", name: "cdadae", label: "Analysis Start Date", key: "USUBJID, AESEQ" },
+      { file: "dm.xpt", name: "cddmxpt", label: "Date/Time of Birth", key: "USUBJID" },
+    ];
+    for (const f of files) {
+      await page.goto(`${stack.appUrl}/studies/${studyId}/datasets`);
+      await page.getByLabel("File").setInputFiles(path.join(CDISC, f.file));
+      await page.getByLabel("Dataset name").fill(f.name);
+      await page.getByRole("button", { name: "Upload and check" }).click();
+      await page.getByRole("heading", { name: `${f.name} · version 1` }).waitFor({ timeout: 30_000 });
+      await page.getByRole("columnheader").filter({ hasText: f.label }).first().waitFor();
+      const key = page.locator("dt", { hasText: /^Key$/ }).locator("xpath=following-sibling::dd");
+      expect((await key.textContent())?.trim(), f.file).toBe(f.key);
+    }
+    await page.goto(`${stack.appUrl}/studies/${studyId}/datasets`);
+    await page.getByLabel("File").setInputFiles(path.join(CDISC, "v1.0", "adsl.json"));
+    await page.getByLabel("Dataset name").fill("cdv10");
+    await page.getByRole("button", { name: "Upload and check" }).click();
+    const alert = page.getByRole("alert").filter({ hasText: "Nothing was stored" });
+    await alert.waitFor();
+    expect(await alert.locator("li").allTextContents()).toEqual([
+      "adsl.json is Dataset-JSON version 1.0.0; Plumbline reads version 1.1, whose structure differs. Convert the file to Dataset-JSON v1.1 (or export the dataset again as v1.1) and upload that.",
+    ]);
+    await screenshot(page, "dataset-cdisc-v1.0-refused");
+  });
 });
+
