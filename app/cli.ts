@@ -10,6 +10,8 @@ import { readFileSync } from "node:fs";
 import { readCsvText } from "./engine-io/read-csv";
 import { EngineError, fitModel, stringifyResult, toCliResult } from "./engine";
 import type { MeansWeighting } from "./engine";
+import { isCoxSpec } from "./engine/survival/cox-spec";
+import { coxCliAnswer } from "./engine/survival/cox-result";
 
 const USAGE = "usage: cli fit --data FILE.csv --model MODEL.json [--means equal|proportional]";
 
@@ -53,6 +55,10 @@ function main(): number {
       throw new EngineError(`the model file is not valid JSON: ${err instanceof Error ? err.message : String(err)}`);
     }
     const table = readCsvText(readText(args.data, "data"));
+    if (isCoxSpec(spec)) {
+      process.stdout.write(coxCliAnswer(spec, table) + "\n");
+      return 0;
+    }
     const result = fitModel(spec, table, { meansWeighting: args.means });
     process.stdout.write(stringifyResult(toCliResult(result)) + "\n");
     return 0;

@@ -19,6 +19,7 @@ import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { fileURLToPath } from "node:url";
 import { fitWithObservationDiagnostics, LARGE_DESIGN_CELLS } from "../app/engine";
+import { benchCox } from "./bench-cox";
 
 interface Measurement {
   seconds: number;
@@ -156,6 +157,7 @@ function main(): void {
   console.log("");
   console.log(`large-data mode (design storage reused for Q) above ${LARGE_DESIGN_CELLS.toLocaleString("en")} cells n·p`);
   console.log("targets: engine/R at most 0.5 at n = 200 000, p = 25; peak RSS within 1536 MiB at n = 1 000 000, p = 50");
+  benchCox(withR);
 }
 
 main();

@@ -1,12 +1,16 @@
 /**
- * Starts this server process's background work: the job worker with every job handler
- * registered. Called once from the server entry.
+ * Starts this server process's background work: the migration of dataset columns stored in the
+ * former format (once), and the job worker with every job handler registered. Called once from
+ * the server entry.
  */
+import { migrateStoredColumns } from "./datasets/stored-columns.server";
 import { startJobWorker } from "./jobs/jobs.server";
 import { startMailRetries } from "./mail/outbox.server";
 import { failRerunOfJob, RERUN_JOB } from "./reruns/reruns.server";
 
 export function startBackgroundWork(): void {
+  // A version read before this pass reaches it is migrated on demand (stored-columns.server.ts).
+  migrateStoredColumns().catch((e: unknown) => console.error("Dataset columns migration:", e instanceof Error ? e.message : e));
   startJobWorker(async (job) => {
     if (job.kind === RERUN_JOB) await failRerunOfJob(job);
   });

@@ -4,6 +4,7 @@
  */
 import type { MiddlewareFunction } from "react-router";
 import { config, servedOverHttps } from "./config.server";
+import { sessionCookie } from "./session.server";
 
 /** Documents allow only their own scripts carrying this response's nonce; nothing else loads. */
 export function contentSecurityPolicy(nonce: string): string {
@@ -45,8 +46,14 @@ function sameOrigin(request: Request): boolean {
       return false;
     }
   }
-  // Non-browser clients with a bearer token carry no ambient credentials.
-  return request.headers.get("Authorization")?.startsWith("Bearer ") ?? false;
+  // Non-browser clients with a bearer token carry no ambient credentials. A request that also
+  // carries the session cookie could act through the session, so it is never let through here.
+  return (request.headers.get("Authorization")?.startsWith("Bearer ") ?? false) && !carriesSessionCookie(request);
+}
+
+/** Whether the request carries Plumbline's session cookie (by name; whether it is valid does not matter here). */
+function carriesSessionCookie(request: Request): boolean {
+  return (request.headers.get("Cookie") ?? "").split(";").some((part) => part.trim().startsWith(`${sessionCookie.name}=`));
 }
 
 function plain(status: number, message: string): Response {

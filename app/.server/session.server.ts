@@ -131,8 +131,22 @@ export async function endSession(request: Request): Promise<string> {
   return sessionCookie.serialize("", { maxAge: 0 });
 }
 
-/** Only same-site relative paths are followed after sign-in (no open redirects). */
+/**
+ * Only paths of this application are followed after sign-in (no open redirects). The value is
+ * parsed as a browser would, against the application's own origin, so tricks such as a tab or
+ * newline after the first slash (which browsers drop, turning `/\t/host` into `//host`) or a
+ * backslash cannot point elsewhere; control characters are refused outright.
+ */
 export function safeReturnTo(value: string | null | undefined): string {
-  if (!value || !value.startsWith("/") || value.startsWith("//") || value.startsWith("/\\")) return "/";
-  return value;
+  // eslint-disable-next-line no-control-regex
+  if (!value || !value.startsWith("/") || /[\u0000-\u001f\u007f\\]/.test(value)) return "/";
+  const base = new URL(config.APP_URL);
+  let url: URL;
+  try {
+    url = new URL(value, base);
+  } catch {
+    return "/";
+  }
+  if (url.origin !== base.origin) return "/";
+  return `${url.pathname}${url.search}${url.hash}`;
 }

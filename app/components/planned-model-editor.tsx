@@ -192,7 +192,7 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
       <Section title="Endpoint and model">
         <div className="grid gap-3 md:grid-cols-3">
           <Select id="pm-response" name="response" label="Endpoint (response)" value={response} onChange={setResponse} options={colOptions()} placeholder="Choose a column" error={errors.response} />
-          <Select id="pm-family" name="family" label="Family" value={family} onChange={setFamily} options={[{ value: "gaussian", label: "Gaussian (linear model)" }, { value: "binomial", label: "Binomial (responder)" }, { value: "poisson", label: "Poisson (counts)" }]} />
+          <Select id="pm-family" name="family" label="Family" value={family} onChange={setFamily} error={errors.family} options={[{ value: "gaussian", label: "Gaussian (linear model)" }, { value: "binomial", label: "Binomial (responder)" }, { value: "poisson", label: "Poisson (counts)" }]} />
           <Select id="pm-link" name="link" label="Link" value={LINKS[family]?.includes(initial.link) ? initial.link : ""} options={(LINKS[family] ?? []).map((l) => ({ value: l, label: l }))} placeholder="Canonical" />
         </div>
         <div className="mt-3 grid gap-3 md:grid-cols-3">

@@ -1,4 +1,4 @@
-import { Form } from "react-router";
+import { data, Form } from "react-router";
 import { z } from "zod";
 import type { Route } from "./+types/admin.audit";
 import { PageHeader } from "~/components/page";
@@ -12,9 +12,9 @@ export function meta() {
 }
 
 const Filter = z.object({
-  study: z.string().optional(),
-  action: z.string().trim().max(60).optional(),
-  actor: z.string().trim().max(120).optional(),
+  study: z.string().max(80, "The study filter names no study; choose one from the list.").optional(),
+  action: z.string().trim().max(60, "“Action starts with” takes at most 60 characters.").optional(),
+  actor: z.string().trim().max(120, "“Who” takes at most 120 characters.").optional(),
   from: z.string().regex(/^\d{4}-\d{2}-\d{2}$/).optional().catch(undefined),
   to: z.string().regex(/^\d{4}-\d{2}-\d{2}$/).optional().catch(undefined),
 });
@@ -22,7 +22,11 @@ const Filter = z.object({
 export async function loader({ request }: Route.LoaderArgs) {
   const admin = await requireAdmin(request, "audit.read");
   const params = Object.fromEntries(new URL(request.url).searchParams);
-  const filter = Filter.parse(Object.fromEntries(Object.entries(params).filter(([, v]) => v !== "")));
+  const parsed = Filter.safeParse(Object.fromEntries(Object.entries(params).filter(([, v]) => v !== "")));
+  if (!parsed.success) {
+    throw data({ message: `The audit filter was not applied: ${parsed.error.issues.map((i) => i.message).join(" ")} Shorten it and filter again.` }, { status: 400 });
+  }
+  const filter = parsed.data;
   const [events, verdict, studies] = await Promise.all([
     listAuditEvents({ studyId: filter.study, action: filter.action, actor: filter.actor, from: filter.from, to: filter.to, limit: 500 }),
     verifyAuditChain(),

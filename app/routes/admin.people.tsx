@@ -1,8 +1,8 @@
-import { useFetcher } from "react-router";
+import { data, useFetcher } from "react-router";
 import { z } from "zod";
 import type { Route } from "./+types/admin.people";
 import { PageHeader } from "~/components/page";
-import { actorOf, listMemberships, listPeople, setStudyRole } from "~/.server/people.server";
+import { actorOf, listMemberships, listPeople, RoleChangeRefused, setStudyRole } from "~/.server/people.server";
 import { requireAdmin, ROLE_LABELS, STUDY_ROLES } from "~/.server/permissions.server";
 import { listStudiesFor } from "~/.server/studies.server";
 
@@ -39,9 +39,14 @@ const SetRole = z.object({
 export async function action({ request }: Route.ActionArgs) {
   const admin = await requireAdmin(request, "people.manage");
   const parsed = SetRole.safeParse(Object.fromEntries(await request.formData()));
-  if (!parsed.success) return { ok: false as const, message: "Choose a person, a study and a role." };
+  if (!parsed.success) return data({ ok: false as const, message: "Choose a person, a study and a role." }, { status: 400 });
   const { personId, studyId, role } = parsed.data;
-  await setStudyRole(actorOf(admin), studyId, personId, role === "" ? null : role);
+  try {
+    await setStudyRole(actorOf(admin), studyId, personId, role === "" ? null : role);
+  } catch (e) {
+    if (e instanceof RoleChangeRefused) return data({ ok: false as const, message: e.message }, { status: e.status });
+    throw e;
+  }
   return { ok: true as const, message: "Saved." };
 }
 
@@ -72,6 +77,11 @@ function RoleCell({ person, study, current, roles }: { person: Data["people"][nu
       <span className="w-12 text-xs text-within" role="status">
         {fetcher.state === "idle" && fetcher.data?.ok ? "Saved" : ""}
       </span>
+      {fetcher.state === "idle" && fetcher.data && !fetcher.data.ok ? (
+        <span className="max-w-56 text-xs text-finding" role="alert">
+          {fetcher.data.message}
+        </span>
+      ) : null}
     </fetcher.Form>
   );
 }
@@ -83,7 +93,8 @@ export default function AdminPeople({ loaderData }: Route.ComponentProps) {
       <PageHeader eyebrow="Administration" title="People and roles" />
       <p className="mb-4 max-w-prose text-sm text-ink-soft">
         People appear here after their first sign-in. Roles are per study: choose one for each study a person works on. The
-        administrator flag comes from the identity provider's groups and cannot be set here.
+        administrator flag comes from the identity provider's groups and cannot be set here. Nobody gives themselves a
+        role: another administrator grants yours.
       </p>
       <div className="overflow-x-auto">
         <table className="data-table panel">

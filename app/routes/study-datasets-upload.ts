@@ -8,7 +8,7 @@ import { z } from "zod";
 import type { Route } from "./+types/study-datasets-upload";
 import { config } from "~/.server/config.server";
 import { DATASET_NAME, uploadDataset, type UploadResult } from "~/.server/datasets/datasets.server";
-import { receiveUpload, UploadRefused } from "~/.server/datasets/upload.server";
+import { auditUploadRefusal, receiveUpload, UploadRefused } from "~/.server/datasets/upload.server";
 import { removeQuietly } from "~/.server/datasets/store.server";
 import { actorOf } from "~/.server/people.server";
 import { requireStudy } from "~/.server/study-access.server";
@@ -44,8 +44,9 @@ export async function action({ request, params }: Route.ActionArgs) {
   try {
     received = await receiveUpload(request);
   } catch (e) {
-    if (e instanceof UploadRefused) return refusal([e.message], e.status);
-    throw e;
+    if (!(e instanceof UploadRefused)) throw e;
+    await auditUploadRefusal(actorOf(user), study.id, {}, [e.message]);
+    return refusal([e.message], e.status);
   }
   const { file } = received;
   const fields = Fields.safeParse(received.fields);

@@ -129,8 +129,40 @@ describe("sponsor sign-in through the fake OpenID Connect provider", () => {
   });
 
   it("a sponsor provider cannot sign in as a staff account with the same e-mail", async () => {
-    const claims = { sub: "x", email: "priya.lindqvist@plumbline.example", name: "Priya", organisation: "Quillmoor Therapeutics" };
+    const claims = { iss: fake.issuerUrl, sub: "x", email: "priya.lindqvist@plumbline.example", name: "Priya", organisation: "Quillmoor Therapeutics" };
     await expect(recordSponsorSignIn(claims)).rejects.toMatchObject({ code: "staff-account" });
+  });
+
+  it("a token with a known e-mail but another subject, or another issuer, does not take the account over (refused, audited)", async () => {
+    await signInAs("Sam Quill");
+    const [sam] = await db.select().from(t.people).where(eq(t.people.email, "sam.quill@quillmoor.example"));
+    expect(sam).toMatchObject({ identityIssuer: fake.issuerUrl, externalId: "sponsor-sponsor-reader" });
+    const intruder = { sub: "intruder-7", email: "Sam.Quill@quillmoor.example", name: "Not Sam", organisation: "Harrowgate Biologics" };
+    await expect(recordSponsorSignIn({ ...intruder, iss: fake.issuerUrl })).rejects.toMatchObject({ code: "subject-mismatch" });
+    await expect(recordSponsorSignIn({ ...intruder, sub: "sponsor-sponsor-reader", iss: "https://other-provider.example" })).rejects.toMatchObject({ code: "subject-mismatch" });
+    const [after] = await db.select().from(t.people).where(eq(t.people.id, sam.id));
+    expect(after).toMatchObject({ displayName: "Sam Quill", organisation: "Quillmoor Therapeutics", externalId: "sponsor-sponsor-reader" });
+  });
+
+  it("an account made before issuers were recorded is bound at its next sign-in only when the subject matches", async () => {
+    await db.insert(t.people).values([
+      { id: "legacy-1", email: "old.reader@quillmoor.example", displayName: "Old Reader", identitySource: "oidc", externalId: "legacy-sub", organisation: "Quillmoor Therapeutics" },
+      { id: "legacy-2", email: "other.reader@quillmoor.example", displayName: "Other Reader", identitySource: "oidc", externalId: "legacy-sub-2", organisation: "Quillmoor Therapeutics" },
+    ]);
+    const claims = { iss: fake.issuerUrl, email: "old.reader@quillmoor.example", name: "Old Reader", organisation: "Quillmoor Therapeutics" };
+    const person = await recordSponsorSignIn({ ...claims, sub: "legacy-sub" });
+    expect(person).toMatchObject({ id: "legacy-1", identityIssuer: fake.issuerUrl });
+    await expect(recordSponsorSignIn({ ...claims, email: "other.reader@quillmoor.example", sub: "someone-else" })).rejects.toMatchObject({ code: "subject-mismatch" });
+  });
+
+  it("the callback refuses the takeover with a clear message and an audit event", async () => {
+    // Sam's account is bound to the fake's subject; make it look bound to another subject.
+    await db.update(t.people).set({ externalId: "sponsor-sam-elsewhere" }).where(eq(t.people.email, "sam.quill@quillmoor.example"));
+    const { res } = await signInAs("Sam Quill");
+    expect(res.headers.get("Location")).toBe("/sign-in?error=subject-mismatch");
+    expect(res.headers.getSetCookie().some((c) => c.startsWith("plumbline_session="))).toBe(false);
+    expect((await auditDetails("auth.sign_in_refused")).some((d) => d.startsWith("subject-mismatch:"))).toBe(true);
+    await db.update(t.people).set({ externalId: "sponsor-sponsor-reader" }).where(eq(t.people.email, "sam.quill@quillmoor.example"));
   });
 
   it("claims without an organisation or with an unverified e-mail are refused", async () => {

@@ -97,8 +97,9 @@ describe("screen, removal, lock and versions", () => {
     expect((await svc.recordNotIdentifier(dana, studyId, subj?.id ?? "", "Pseudonymous subject code")).ok).toBe(true);
     const locked = await svc.lockVersion(dana, studyId, b.versionId);
     expect(locked.ok).toBe(true);
-    const { table } = await catalog.loadLockedTable(b.versionId);
+    const { table, typed } = await catalog.loadLockedTable(b.versionId);
     expect(table.columns).toEqual({ usubjid: ["S-1", "S-2"], age: ["55", "45"] });
+    expect(typed.columns).toEqual({ usubjid: ["S-1", "S-2"], age: new Float64Array([55, 45]) });
   });
 
   it("summarises a changed upload against the locked version by key", async () => {
@@ -119,7 +120,11 @@ describe("screen, removal, lock and versions", () => {
     const tmp = path.join(dir, "data", "datasets", "tmp");
     expect(existsSync(tmp) ? readdirSync(tmp) : []).toEqual([]);
     const rows = await db.select().from(t.datasetVersions);
-    for (const v of rows) expect(v.storedPath.endsWith(v.sha256)).toBe(true);
+    for (const v of rows) {
+      expect(v.storedPath.endsWith(v.sha256)).toBe(true);
+      expect(v.parsedPath).toBe(path.join("datasets", "columns", v.sha256.slice(0, 2), `${v.sha256}.arrow`));
+      expect(existsSync(path.join(dir, "data", v.parsedPath!))).toBe(true);
+    }
   });
 });
 

@@ -53,6 +53,15 @@ export class TokenBuckets {
     return { allowed: false, limit: this.capacity, remaining: 0, retryAfter: Math.max(1, Math.ceil((1 - b.tokens) / this.refillPerMs / 1000)) };
   }
 
+  /** What `take` would decide now, without taking anything. */
+  peek(key: string): RateDecision {
+    const now = this.clock();
+    const b = this.buckets.get(key);
+    const tokens = b ? Math.min(this.capacity, b.tokens + (now - b.updatedAt) * this.refillPerMs) : this.capacity;
+    if (tokens >= 1) return { allowed: true, limit: this.capacity, remaining: Math.floor(tokens), retryAfter: 0 };
+    return { allowed: false, limit: this.capacity, remaining: 0, retryAfter: Math.max(1, Math.ceil((1 - tokens) / this.refillPerMs / 1000)) };
+  }
+
   /** Forgets buckets that have refilled completely: they behave exactly like a new one. */
   private sweep(now: number): void {
     if (this.buckets.size < 1000) return;
@@ -64,3 +73,20 @@ export class TokenBuckets {
 
 /** This process's buckets, one per API token. */
 export const apiRateLimit = new TokenBuckets();
+
+/**
+ * Failed token attempts, throttled so that nobody can try token after token: each token
+ * prefix (the marker and the first eight characters, what people see of a token) may fail
+ * `FAILED_ATTEMPTS_PER_MINUTE` times a minute, and all failures together
+ * `FAILED_ATTEMPTS_ALL_PER_MINUTE` times; beyond that, answers are 429 with Retry-After. A
+ * prefix that is over its limit is refused before its token is even looked up. The
+ * application server does not see the client's network address (React Router's request
+ * carries none, and a forwarded-for header can be forged), so failures are counted by
+ * what the request presents, not by where it comes from.
+ */
+export const FAILED_ATTEMPTS_PER_MINUTE = 10;
+export const FAILED_ATTEMPTS_ALL_PER_MINUTE = 300;
+export const failedTokenAttempts = {
+  byPrefix: new TokenBuckets(FAILED_ATTEMPTS_PER_MINUTE, FAILED_ATTEMPTS_PER_MINUTE),
+  all: new TokenBuckets(FAILED_ATTEMPTS_ALL_PER_MINUTE, FAILED_ATTEMPTS_ALL_PER_MINUTE),
+};

@@ -6,8 +6,8 @@
  * page on another site cannot make a signed-in browser call the API (no CSRF by design).
  */
 import { CAUTION } from "~/components/caution";
-import { apiRateLimit, type RateDecision } from "./rate-limit.server";
-import { verifyToken, type ApiPrincipal } from "./tokens.server";
+import { apiRateLimit, FAILED_ATTEMPTS_PER_MINUTE, failedTokenAttempts, type RateDecision } from "./rate-limit.server";
+import { tokenPrefixOf, verifyToken, type ApiPrincipal } from "./tokens.server";
 
 export const API_ERROR_CODES = ["unauthorized", "forbidden", "not_found", "rate_limited", "bad_request", "method_not_allowed", "internal_error"] as const;
 export type ApiErrorCode = (typeof API_ERROR_CODES)[number];
@@ -83,8 +83,22 @@ export async function authenticate(request: Request): Promise<ApiPrincipal> {
       challenge,
     );
   }
+  const prefix = `prefix:${tokenPrefixOf(match[1])}`;
+  const tooMany = (retryAfter: number): ApiError =>
+    new ApiError(
+      "rate_limited",
+      `Too many requests with a wrong API token (at most ${FAILED_ATTEMPTS_PER_MINUTE} a minute); wait ${retryAfter} s, then check that the token was copied whole or create a new one on your profile page.`,
+      { "Retry-After": String(retryAfter) },
+    );
+  const blocked = failedTokenAttempts.byPrefix.peek(prefix);
+  if (!blocked.allowed) throw tooMany(blocked.retryAfter);
   const check = await verifyToken(match[1]);
-  if (!check.ok) throw new ApiError("unauthorized", check.message, { ...challenge, "WWW-Authenticate": 'Bearer realm="plumbline", error="invalid_token"' });
+  if (!check.ok) {
+    const byPrefix = failedTokenAttempts.byPrefix.take(prefix);
+    const all = failedTokenAttempts.all.take("all");
+    if (!byPrefix.allowed || !all.allowed) throw tooMany(Math.max(byPrefix.retryAfter, all.retryAfter));
+    throw new ApiError("unauthorized", check.message, { ...challenge, "WWW-Authenticate": 'Bearer realm="plumbline", error="invalid_token"' });
+  }
   return check.principal;
 }
 

@@ -16,6 +16,8 @@ export type ApiTokenRow = typeof t.apiTokens.$inferSelect;
 export const TOKEN_PREFIX = "plb_";
 /** Characters of the token kept for display: the marker and eight random characters. */
 const DISPLAY_LENGTH = TOKEN_PREFIX.length + 8;
+/** The part of a token people see (the marker and eight characters): failed attempts are counted by it. */
+export const tokenPrefixOf = (token: string): string => token.slice(0, DISPLAY_LENGTH);
 export const EXPIRY_DAYS = [7, 30, 90] as const;
 /** Active tokens one person may hold at once. */
 export const MAX_ACTIVE_TOKENS = 10;

@@ -93,5 +93,6 @@ export function identityFromClaims(claims: JWTPayload): VerifiedIdentity {
   if (claims.email_verified === false) throw new SignInRefused("incomplete", "the provider says the e-mail address is not verified", email);
   const organisation = text(claims.organisation);
   if (!organisation) throw new SignInRefused("no-organisation", "the ID token carried no organisation claim", email);
-  return { source: "oidc", externalId: claims.sub, email, displayName: text(claims.name) ?? email, organisation, isAdmin: false };
+  if (!claims.iss) throw new SignInRefused("incomplete", "the ID token carried no issuer", email);
+  return { source: "oidc", externalId: claims.sub, issuer: claims.iss, email, displayName: text(claims.name) ?? email, organisation, isAdmin: false };
 }

@@ -19,6 +19,8 @@ export const REFUSAL_MESSAGES = {
     "The identity provider did not send your e-mail address, which Plumbline needs to know who you are. Tell your administrator to release the e-mail attribute to Plumbline.",
   "staff-account":
     "That e-mail address belongs to a staff account, which signs in with single sign-on, not with sponsor sign-in. Use “Sign in with single sign-on”, or ask your administrator.",
+  "subject-mismatch":
+    "That e-mail address already belongs to a Plumbline account that signs in as another person at your organisation's sign-in service (or at another organisation's), so Plumbline refused the sign-in to keep that account safe. Ask your administrator to check the account.",
   "no-organisation":
     "Your organisation's sign-in service did not say which organisation you belong to, and Plumbline needs it to show you the studies shared with your organisation. Tell your organisation's administrator to release the organisation claim to Plumbline.",
   unavailable:

@@ -31,7 +31,7 @@ function values(profile: Profile, name: string): string[] {
 }
 
 /** The person the verified assertion describes, from its NameID and attributes. */
-export function identityFromProfile(profile: Profile, adminGroup: string): VerifiedIdentity {
+export function identityFromProfile(profile: Profile, adminGroup: string, idpIssuer: string): VerifiedIdentity {
   const email = values(profile, "email")[0] ?? values(profile, "mail")[0] ?? (profile.nameID?.includes("@") ? profile.nameID : undefined);
   if (!email || !profile.nameID) {
     throw new SignInRefused("incomplete", "the assertion carried no e-mail address or NameID", profile.nameID ?? null);
@@ -40,6 +40,7 @@ export function identityFromProfile(profile: Profile, adminGroup: string): Verif
   return {
     source: "saml",
     externalId: profile.nameID,
+    issuer: idpIssuer,
     email,
     displayName: values(profile, "displayName")[0] ?? email,
     organisation: values(profile, "organisation")[0] ?? null,
@@ -56,7 +57,7 @@ function auth(): Authenticator<SamlSignIn> {
   const strategy = new SamlStrategy<SamlSignIn>(
     { saml: setup.signIn, freshSaml: setup.freshSignIn, trustedCert: setup.trustedCert, idpIssuer: setup.idpIssuer },
     async ({ profile, relayState }) => {
-      const person = await recordSignIn(identityFromProfile(profile, setup.adminGroup));
+      const person = await recordSignIn(identityFromProfile(profile, setup.adminGroup, setup.idpIssuer));
       return { person, nameId: profile.nameID, sessionIndex: profile.sessionIndex, returnTo: safeReturnTo(relayState) };
     },
   );

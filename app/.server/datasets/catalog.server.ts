@@ -6,10 +6,11 @@
 import { and, asc, eq } from "drizzle-orm";
 import { db, t } from "../db/index.server";
 import type { ColumnMeta } from "./column-summary";
-import { readColumnsFileCached } from "./columns-file.server";
-import { absoluteStorePath } from "./store.server";
+import { textOf, type StoredColumns, type TypedColumn } from "./arrow-columns.server";
+import { storedColumnsOf } from "./stored-columns.server";
 
 export type { ColumnMeta } from "./column-summary";
+export type { TypedColumn } from "./arrow-columns.server";
 
 export interface LockedVersion {
   datasetId: string;
@@ -22,8 +23,19 @@ export interface LockedVersion {
   columns: ColumnMeta[];
 }
 
-/** The engine's ColumnTable input: cells as text (missing = "", "NA" or "."), 1-based data row numbers. */
+/** Typed columns by name: numbers as Float64Array (NaN for missing), text and dates as strings (null for missing). */
+export interface TypedTable {
+  columns: Record<string, TypedColumn>;
+  rowNumbers: number[];
+}
+
 export interface LockedTable {
+  /** As stored, read straight from the Arrow file: no cell text is parsed. */
+  typed: TypedTable;
+  /**
+   * The engine's ColumnTable input as it is today: cells as text (missing = ""), made from the
+   * typed columns one column at a time, on first use of that column.
+   */
   table: { columns: Record<string, string[]>; rowNumbers: number[] };
   sha256: string;
   columns: ColumnMeta[];
@@ -60,9 +72,22 @@ export async function loadLockedTable(versionId: string): Promise<LockedTable> {
   if (!v || v.status !== "locked") {
     throw new DatasetNotFoundError(`There is no locked dataset version with the id "${versionId}". Lock the version first, then rerun.`);
   }
-  if (!v.parsedPath) throw new Error(`Dataset version ${v.version} has no parsed columns in the store; upload the file again.`);
-  const parsed = await readColumnsFileCached(absoluteStorePath(v.parsedPath));
+  const stored = await storedColumnsOf(v);
+  const typed: Record<string, TypedColumn> = {};
+  stored.names.forEach((name, i) => (typed[name] = stored.columns[i]));
+  return {
+    typed: { columns: typed, rowNumbers: stored.rowNumbers },
+    table: { columns: textColumns(stored), rowNumbers: stored.rowNumbers },
+    sha256: v.sha256,
+    columns: JSON.parse(v.columnsJson) as ColumnMeta[],
+  };
+}
+
+/** Cell-text columns that are made from the typed ones only when a caller reads them. */
+function textColumns(stored: StoredColumns): Record<string, string[]> {
   const columns: Record<string, string[]> = {};
-  parsed.names.forEach((name, i) => (columns[name] = parsed.cells[i]));
-  return { table: { columns, rowNumbers: parsed.rowNumbers }, sha256: v.sha256, columns: JSON.parse(v.columnsJson) as ColumnMeta[] };
+  stored.names.forEach((name, i) => {
+    Object.defineProperty(columns, name, { enumerable: true, configurable: true, get: () => textOf(stored.columns[i]) });
+  });
+  return columns;
 }

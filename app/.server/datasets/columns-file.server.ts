@@ -1,6 +1,8 @@
 /**
- * The parsed form of a dataset version, kept beside its exact bytes so that reruns and the
- * preview never parse the file again.
+ * The former parsed form of a dataset version (`<sha256>.cols`), replaced by the Arrow IPC file
+ * of arrow-columns.server.ts. Kept only so that versions stored before the change can be
+ * migrated at start-up (columns-migration.server.ts); the writer stays for the migration's test,
+ * which makes a store the way earlier releases did.
  *
  * Layout: the line `PLCOLS1`, one line of JSON (row count, and per column its name, encoding
  * and segment length), then the row numbers as little-endian Int32, then per column either its
@@ -8,7 +10,7 @@
  * few distinct values, those values joined by U+0000 followed by one 1- or 2-byte code per
  * row. Loading is one read, one `split` per column and a table look-up for coded columns, so
  * the strings of repeated values are shared instead of made again; scripts/bench-datasets.ts
- * measures it.
+ * measured it.
  */
 import { isAscii } from "node:buffer";
 import { open, readFile } from "node:fs/promises";
@@ -66,8 +68,8 @@ function encodeColumn(name: string, column: string[]): { entry: ColumnEntry; par
   return { entry: { name, bytes: text.length, encoding: "plain", ascii: isAscii(text) }, parts: [text] };
 }
 
-/** Writes the parsed columns to `file` (a work file; the caller moves it into the store). */
-export async function writeColumnsFile(file: string, parsed: ParsedColumns): Promise<void> {
+/** Writes parsed columns in the former format (only tests make such files now). */
+export async function writeLegacyColumnsFile(file: string, parsed: ParsedColumns): Promise<void> {
   const encoded = parsed.cells.map((column, j) => encodeColumn(parsed.names[j], column));
   const header: Header = { rowCount: parsed.rowNumbers.length, columns: encoded.map((e) => e.entry) };
   const rowNumbers = Buffer.from(Int32Array.from(parsed.rowNumbers).buffer);
@@ -82,8 +84,8 @@ export async function writeColumnsFile(file: string, parsed: ParsedColumns): Pro
   }
 }
 
-/** Reads a columns file written by `writeColumnsFile`. */
-export async function readColumnsFile(file: string): Promise<ParsedColumns> {
+/** Reads a columns file in the former format. */
+export async function readLegacyColumnsFile(file: string): Promise<ParsedColumns> {
   const buf = await readFile(file);
   if (buf.toString("latin1", 0, MAGIC.length) !== MAGIC) {
     throw new Error(`${file} is not a Plumbline columns file; the store may be damaged.`);
@@ -112,28 +114,4 @@ export async function readColumnsFile(file: string): Promise<ParsedColumns> {
     }
   }
   return { names: header.columns.map((c) => c.name), cells, rowNumbers };
-}
-
-/** A small cache of recently read columns files (locked content never changes). */
-const cache = new Map<string, Promise<ParsedColumns>>();
-const CACHE_ENTRIES = 2;
-
-export function readColumnsFileCached(file: string): Promise<ParsedColumns> {
-  const hit = cache.get(file);
-  if (hit) {
-    cache.delete(file);
-    cache.set(file, hit);
-    return hit;
-  }
-  const loading = readColumnsFile(file);
-  cache.set(file, loading);
-  loading.catch(() => cache.delete(file));
-  while (cache.size > CACHE_ENTRIES) cache.delete(cache.keys().next().value as string);
-  return loading;
-}
-
-/** Puts columns already in memory (just parsed and written) in the cache under their file. */
-export function primeColumnsCache(file: string, parsed: ParsedColumns): void {
-  cache.set(file, Promise.resolve(parsed));
-  while (cache.size > CACHE_ENTRIES) cache.delete(cache.keys().next().value as string);
 }

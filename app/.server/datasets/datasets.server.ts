@@ -4,30 +4,34 @@
  * one write transaction with its audit event.
  */
 import { createHash } from "node:crypto";
-import { createReadStream } from "node:fs";
 import { open, readFile, writeFile } from "node:fs/promises";
-import { and, asc, desc, eq, inArray, isNull, ne, or } from "drizzle-orm";
+import { and, asc, desc, eq, inArray, isNull, ne } from "drizzle-orm";
 import { stringify } from "csv-stringify/sync";
 import { appendAudit, type Actor } from "../audit.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
 import { withCategoricalHints } from "./categorical-hint";
 import type { ColumnMeta } from "./column-summary";
-import { primeColumnsCache, readColumnsFileCached, writeColumnsFile, type ParsedColumns } from "./columns-file.server";
+import { primeArrowColumnsCache, textOf, writeArrowColumns, type StoredColumns } from "./arrow-columns.server";
 import { summariseChanges, type ChangeSummary } from "./diff";
 import { formatOf, parseDatasetFile, type DatasetFormat, type ParseOptions } from "./parse.server";
 import { maskValue, screenColumns } from "./screen";
+import { isStorageError } from "../storage-errors.server";
+import { auditUploadRefusal, storageRefusal } from "./upload.server";
+import { storedColumnsFromParsed, storedColumnsOf } from "./stored-columns.server";
 import {
   absoluteStorePath,
   blobRelativePath,
   columnsRelativePath,
   moveIntoStore,
   newWorkPath,
-  removeFromStore,
+  deleteVersionFiles,
   removeQuietly,
+  sha256OfFile,
   sweepDatasetLeftovers,
 } from "./store.server";
 
 export type { ChangeSummary } from "./diff";
+export { sha256OfFile } from "./store.server";
 export type DatasetVersionRow = typeof t.datasetVersions.$inferSelect;
 export type ScreenHitRow = typeof t.identifierScreenHits.$inferSelect;
 
@@ -51,13 +55,6 @@ export type UploadResult =
   | { ok: false; problems: string[] };
 
 export type Progress = (phase: "parse" | "screen" | "store", fraction: number) => void;
-
-/** SHA-256 of a file, streamed. */
-export async function sha256OfFile(file: string): Promise<string> {
-  const hash = createHash("sha256");
-  for await (const chunk of createReadStream(file, { highWaterMark: 1 << 20 }) as AsyncIterable<Buffer>) hash.update(chunk);
-  return hash.digest("hex");
-}
 
 /** Store files some version still needs (a purged version needs none). */
 async function referencedStorePaths(): Promise<Set<string>> {
@@ -83,10 +80,9 @@ async function latestLocked(datasetId: string): Promise<DatasetVersionRow | null
   return v ?? null;
 }
 
-async function parsedOf(v: DatasetVersionRow): Promise<ParsedColumns> {
-  if (v.purgedAt) throw new Error(`Version ${v.version} was purged on ${v.purgedAt}; its files are no longer stored.`);
-  if (!v.parsedPath) throw new Error(`Version ${v.version} has no parsed columns in the store.`);
-  return readColumnsFileCached(absoluteStorePath(v.parsedPath));
+function parsedOf(v: DatasetVersionRow): Promise<StoredColumns> {
+  if (v.purgedAt) return Promise.reject(new Error(`Version ${v.version} was purged on ${v.purgedAt}; its files are no longer stored.`));
+  return storedColumnsOf(v);
 }
 
 /**
@@ -96,6 +92,7 @@ async function parsedOf(v: DatasetVersionRow): Promise<ParsedColumns> {
  */
 export async function uploadDataset(actor: Actor, req: UploadRequest, progress: Progress = () => undefined): Promise<UploadResult> {
   let columnsWork: string | null = null;
+  const placed: string[] = [];
   try {
     await sweepLeftovers().catch(() => undefined);
     const head = Buffer.alloc(64);
@@ -134,22 +131,24 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
       }),
     );
     const carried = existing ? await resolutionsToCarry(existing.id) : new Map<string, CarriedResolution>();
+    const stored = storedColumnsFromParsed(parsed);
     const previous = existing ? await latestLocked(existing.id) : null;
     let changes: ChangeSummary | null = null;
     if (previous) {
+      // Both sides as the stored typed columns give them, so "1.50" and "1.5" are the same value.
       const before = await parsedOf(previous);
       changes = summariseChanges(
-        { version: previous.version, names: before.names, cells: before.cells, keyColumns: JSON.parse(previous.keyColumnsJson) as string[] },
-        parsed,
+        { version: previous.version, names: before.names, cells: before.columns.map(textOf), keyColumns: JSON.parse(previous.keyColumnsJson) as string[] },
+        { names: parsed.names, cells: stored.columns.map(textOf), keyColumns: parsed.keyColumns },
       );
     }
     progress("store", 0);
-    columnsWork = await newWorkPath("cols");
-    await writeColumnsFile(columnsWork, parsed);
+    columnsWork = await newWorkPath("arrow");
+    await writeArrowColumns(columnsWork, stored);
     const storedPath = blobRelativePath(req.sha256);
     const parsedPath = columnsRelativePath(req.sha256);
-    await moveIntoStore(req.workPath, storedPath);
-    await moveIntoStore(columnsWork, parsedPath);
+    if (await moveIntoStore(req.workPath, storedPath)) placed.push(storedPath);
+    if (await moveIntoStore(columnsWork, parsedPath)) placed.push(parsedPath);
     const saved = await writeTransaction(async (tx) => {
       let datasetId = existing?.id;
       if (!datasetId) {
@@ -228,9 +227,13 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
       return { versionId, version, datasetId };
     });
     // The preview opens next: serve it from the columns already in memory.
-    primeColumnsCache(absoluteStorePath(parsedPath), { names: parsed.names, cells: parsed.cells, rowNumbers: parsed.rowNumbers });
+    primeArrowColumnsCache(absoluteStorePath(parsedPath), stored);
     progress("store", 1);
     return { ok: true, ...saved, hits: hits.length, changes };
+  } catch (e) {
+    // Any failure (a reader that gave up, a full disk, a failed commit) is a refusal with nothing stored.
+    await removeUnreferenced(placed);
+    return await refuse(actor, req, [failureMessage(e, req.fileName)]);
   } finally {
     await removeQuietly(req.workPath);
     await removeQuietly(columnsWork);
@@ -270,15 +273,24 @@ async function resolutionsToCarry(datasetId: string): Promise<Map<string, Carrie
 }
 
 async function refuse(actor: Actor, req: UploadRequest, problems: string[]): Promise<UploadResult> {
-  await appendAudit({
-    actor,
-    action: "dataset.upload_refused",
-    entityType: "dataset",
-    studyId: req.studyId,
-    after: { dataset: req.datasetName, fileName: req.fileName, sha256: req.sha256, byteSize: req.byteSize },
-    detail: problems.slice(0, 5).join("\n"),
-  });
+  await auditUploadRefusal(actor, req.studyId, { dataset: req.datasetName, fileName: req.fileName, sha256: req.sha256, byteSize: req.byteSize }, problems);
   return { ok: false, problems };
+}
+
+/** The message of an upload that failed by an exception rather than a refusal of the reader. */
+function failureMessage(e: unknown, fileName: string): string {
+  if (isStorageError(e)) return storageRefusal(e, fileName).message;
+  console.error(`Upload of ${fileName} failed:`, e);
+  const why = e instanceof Error ? e.message : String(e);
+  return `Plumbline could not read ${fileName}: ${why}. Nothing was stored. Check the file (or save it again from its source) and upload it again.`;
+}
+
+/** Store files this upload put in place, unless another version refers to them meanwhile. */
+async function removeUnreferenced(placed: string[]): Promise<void> {
+  if (placed.length === 0) return;
+  const referenced = await referencedStorePaths().catch(() => null);
+  if (!referenced) return; // the sweep removes them later
+  for (const relative of placed) if (!referenced.has(relative)) await removeQuietly(absoluteStorePath(relative));
 }
 
 // ---------------------------------------------------------------------------------------------
@@ -489,20 +501,17 @@ function maskedColumnsOf(hits: Pick<ScreenHitRow, "column" | "resolution">[]): s
 
 const sortCache = new Map<string, Uint32Array>();
 
-function sortOrder(versionId: string, parsed: ParsedColumns, meta: ColumnMeta[], column: string, descending: boolean): Uint32Array {
+function sortOrder(versionId: string, parsed: StoredColumns, column: string, descending: boolean): Uint32Array {
   const key = `${versionId}\u0000${column}\u0000${descending}`;
   const hit = sortCache.get(key);
   if (hit) return hit;
-  const j = parsed.names.indexOf(column);
-  const cells = parsed.cells[j];
+  const cells = parsed.columns[parsed.names.indexOf(column)];
   const n = cells.length;
   const order = new Uint32Array(n);
   for (let i = 0; i < n; i++) order[i] = i;
   const sign = descending ? -1 : 1;
-  const missing = (c: string) => c === "" || c === "NA" || c === ".";
-  if (meta[j]?.type === "number") {
-    const values = new Float64Array(n);
-    for (let i = 0; i < n; i++) values[i] = missing(cells[i]) ? Number.NaN : Number(cells[i]);
+  if (cells instanceof Float64Array) {
+    const values = cells;
     order.sort((a, b) => {
       const x = values[a];
       const y = values[b];
@@ -513,9 +522,7 @@ function sortOrder(versionId: string, parsed: ParsedColumns, meta: ColumnMeta[],
     order.sort((a, b) => {
       const x = cells[a];
       const y = cells[b];
-      const mx = missing(x);
-      const my = missing(y);
-      if (mx || my) return mx ? (my ? a - b : 1) : -1;
+      if (x === null || y === null) return x === null ? (y === null ? a - b : 1) : -1;
       return x === y ? a - b : x < y ? -sign : sign;
     });
   }
@@ -533,7 +540,6 @@ export async function readRowsWindow(
   const row = await versionInStudy(studyId, versionId);
   if (!row || row.v.purgedAt) return null;
   const parsed = await parsedOf(row.v);
-  const meta = JSON.parse(row.v.columnsJson) as ColumnMeta[];
   const hits = await db
     .select({ column: t.identifierScreenHits.column, resolution: t.identifierScreenHits.resolution })
     .from(t.identifierScreenHits)
@@ -545,12 +551,13 @@ export async function readRowsWindow(
   const end = Math.min(total, offset + Math.max(0, Math.min(window.limit, 1000)));
   // Sorting by a masked column would show the order of its values: it is not offered.
   const sortable = window.sort && parsed.names.includes(window.sort.column) && !masked.includes(window.sort.column);
-  const order = sortable && window.sort ? sortOrder(row.v.id, parsed, meta, window.sort.column, window.sort.descending) : null;
+  const order = sortable && window.sort ? sortOrder(row.v.id, parsed, window.sort.column, window.sort.descending) : null;
   const rows: string[][] = [];
   const rowNumbers: number[] = [];
+  const cell = (c: StoredColumns["columns"][number], i: number): string => (c instanceof Float64Array ? (Number.isNaN(c[i]) ? "" : String(c[i])) : (c[i] ?? ""));
   for (let k = offset; k < end; k++) {
     const i = order ? order[k] : k;
-    rows.push(parsed.cells.map((c, j) => (maskAt[j] ? maskValue(c[i]) : c[i])));
+    rows.push(parsed.columns.map((c, j) => (maskAt[j] ? maskValue(cell(c, i)) : cell(c, i))));
     rowNumbers.push(parsed.rowNumbers[i]);
   }
   return { total, offset, columns: parsed.names, masked, rowNumbers, rows };
@@ -602,7 +609,7 @@ export async function recordNotIdentifier(actor: Actor, studyId: string, hitId: 
 }
 
 /** The version's file without one column, in the version's own format. */
-async function bytesWithout(v: DatasetVersionRow, parsed: ParsedColumns, column: string): Promise<Buffer> {
+async function bytesWithout(v: DatasetVersionRow, parsed: StoredColumns, column: string): Promise<Buffer> {
   const keep = parsed.names.map((n, j) => (n === column ? -1 : j)).filter((j) => j >= 0);
   if (v.format === "dataset-json") {
     const doc = JSON.parse(await readFile(absoluteStorePath(v.storedPath), "utf8")) as { columns: { name: string }[]; rows: unknown[][] };
@@ -612,8 +619,9 @@ async function bytesWithout(v: DatasetVersionRow, parsed: ParsedColumns, column:
     return Buffer.from(JSON.stringify(doc), "utf8");
   }
   const n = parsed.rowNumbers.length;
+  const cells = parsed.columns.map(textOf);
   const records: string[][] = [keep.map((j) => parsed.names[j])];
-  for (let i = 0; i < n; i++) records.push(keep.map((j) => parsed.cells[j][i]));
+  for (let i = 0; i < n; i++) records.push(keep.map((j) => cells[j][i]));
   return Buffer.from(stringify(records, { record_delimiter: "\n" }), "utf8");
 }
 
@@ -636,16 +644,18 @@ export async function removeFlaggedColumn(actor: Actor, studyId: string, hitId: 
   const bytes = await bytesWithout(v, parsed, h.column);
   const sha256 = createHash("sha256").update(bytes).digest("hex");
   const j = parsed.names.indexOf(h.column);
-  const derived: ParsedColumns = {
+  const derived: StoredColumns = {
     names: parsed.names.filter((_, i) => i !== j),
-    cells: parsed.cells.filter((_, i) => i !== j),
+    columns: parsed.columns.filter((_, i) => i !== j),
     rowNumbers: parsed.rowNumbers,
+    columnMeta: parsed.columnMeta.filter((_, i) => i !== j),
+    dataset: parsed.dataset,
   };
   const blobWork = await newWorkPath("blob");
-  const colsWork = await newWorkPath("cols");
+  const colsWork = await newWorkPath("arrow");
   try {
     await writeFile(blobWork, bytes);
-    await writeColumnsFile(colsWork, derived);
+    await writeArrowColumns(colsWork, derived);
     await moveIntoStore(blobWork, blobRelativePath(sha256));
     await moveIntoStore(colsWork, columnsRelativePath(sha256));
     const removed = [...(v.removedColumnsJson ? (JSON.parse(v.removedColumnsJson) as string[]) : []), h.column];
@@ -656,8 +666,8 @@ export async function removeFlaggedColumn(actor: Actor, studyId: string, hitId: 
     if (locked) {
       const before = await parsedOf(locked);
       changes = summariseChanges(
-        { version: locked.version, names: before.names, cells: before.cells, keyColumns: JSON.parse(locked.keyColumnsJson) as string[] },
-        { names: derived.names, cells: derived.cells, keyColumns: key },
+        { version: locked.version, names: before.names, cells: before.columns.map(textOf), keyColumns: JSON.parse(locked.keyColumnsJson) as string[] },
+        { names: derived.names, cells: derived.columns.map(textOf), keyColumns: key },
       );
     }
     return await writeTransaction(async (tx) => {
@@ -763,7 +773,7 @@ export function purgeRefusal(v: Pick<DatasetVersionRow, "version" | "status" | "
 
 /**
  * Purges a superseded version that was never locked: removes its stored bytes and parsed
- * columns (each only when no other unpurged version refers to the same file) and keeps its row,
+ * columns (only when no other unpurged version holds the same bytes) and keeps its row,
  * screen results and audit history, marked purged. Asks for an explicit confirmation.
  */
 export async function purgeVersion(actor: Actor, studyId: string, versionId: string, confirmed: boolean): Promise<ActionResult<{ removedFiles: string[] }>> {
@@ -780,14 +790,12 @@ export async function purgeVersion(actor: Actor, studyId: string, versionId: str
     if (again) return { ok: false as const, message: again };
     const paths = [v.storedPath, ...(v.parsedPath ? [v.parsedPath] : [])];
     // Content-addressed: another version (of any dataset) with the same bytes shares the files.
-    const others = await tx
-      .select({ stored: t.datasetVersions.storedPath, parsed: t.datasetVersions.parsedPath })
+    const sharing = await tx
+      .select({ id: t.datasetVersions.id })
       .from(t.datasetVersions)
-      .where(
-        and(ne(t.datasetVersions.id, v.id), isNull(t.datasetVersions.purgedAt), or(inArray(t.datasetVersions.storedPath, paths), inArray(t.datasetVersions.parsedPath, paths))),
-      );
-    const stillUsed = new Set(others.flatMap((o) => [o.stored, o.parsed ?? ""]));
-    const removable = paths.filter((p) => !stillUsed.has(p));
+      .where(and(ne(t.datasetVersions.id, v.id), isNull(t.datasetVersions.purgedAt), eq(t.datasetVersions.sha256, v.sha256)))
+      .limit(1);
+    const removable = sharing.length > 0 ? [] : paths;
     await tx.update(t.datasetVersions).set({ purgedAt, purgedBy: actor.id }).where(eq(t.datasetVersions.id, v.id));
     await appendAudit(
       {
@@ -805,7 +813,7 @@ export async function purgeVersion(actor: Actor, studyId: string, versionId: str
   });
   // Files go only after the record says so; a crash in between leaves unreferenced files that
   // the next sweep removes.
-  if (outcome.ok) for (const p of outcome.removedFiles) await removeFromStore(p);
+  if (outcome.ok && outcome.removedFiles.length > 0) await deleteVersionFiles(v);
   return outcome;
 }
 

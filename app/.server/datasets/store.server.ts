@@ -2,7 +2,8 @@
  * Where dataset files live under DATA_DIR:
  *
  *   datasets/blobs/<aa>/<sha256>          the exact bytes of an uploaded file, named by their SHA-256
- *   datasets/columns/<aa>/<sha256>.cols   the parsed columns of those bytes (columns-file.server.ts)
+ *   datasets/columns/<aa>/<sha256>.arrow  the typed columns of those bytes, Arrow IPC (arrow-columns.server.ts)
+ *   datasets/columns/<aa>/<sha256>.cols   the same in the former format, until migrated at start-up
  *   datasets/tmp/                         work files of uploads in progress
  *
  * An upload writes only into tmp/ and renames into the store once the file has passed every
@@ -10,8 +11,8 @@
  * leaves at most a work file in tmp/ (or, between rename and commit, an unreferenced store
  * file), and `sweepDatasetLeftovers` removes both the next time uploads start.
  */
-import { randomBytes } from "node:crypto";
-import { existsSync } from "node:fs";
+import { createHash, randomBytes } from "node:crypto";
+import { createReadStream, existsSync } from "node:fs";
 import { mkdir, readdir, rename, rm, stat } from "node:fs/promises";
 import path from "node:path";
 import { config } from "../config.server";
@@ -25,11 +26,23 @@ export function absoluteStorePath(relative: string): string {
   return path.resolve(config.DATA_DIR, relative);
 }
 
+/** SHA-256 of a file, streamed. */
+export async function sha256OfFile(file: string): Promise<string> {
+  const hash = createHash("sha256");
+  for await (const chunk of createReadStream(file, { highWaterMark: 1 << 20 }) as AsyncIterable<Buffer>) hash.update(chunk);
+  return hash.digest("hex");
+}
+
 export function blobRelativePath(sha256: string): string {
   return path.join("datasets", "blobs", sha256.slice(0, 2), sha256);
 }
 
 export function columnsRelativePath(sha256: string): string {
+  return path.join("datasets", "columns", sha256.slice(0, 2), `${sha256}.arrow`);
+}
+
+/** Where earlier releases kept the parsed columns (columns-file.server.ts); read only to migrate. */
+export function legacyColumnsRelativePath(sha256: string): string {
   return path.join("datasets", "columns", sha256.slice(0, 2), `${sha256}.cols`);
 }
 
@@ -42,25 +55,32 @@ export async function newWorkPath(suffix: string): Promise<string> {
 
 /**
  * Moves a finished work file to its place in the store. The store is content-addressed: when
- * the target exists it already holds these very bytes, and the work file is dropped.
+ * the target exists it already holds these very bytes, and the work file is dropped. True when
+ * this call put a new file in the store (which the caller removes again if its upload fails).
  */
-export async function moveIntoStore(workPath: string, relative: string): Promise<void> {
+export async function moveIntoStore(workPath: string, relative: string): Promise<boolean> {
   const target = absoluteStorePath(relative);
   await mkdir(path.dirname(target), { recursive: true });
   if (existsSync(target)) {
     await rm(workPath, { force: true });
-    return;
+    return false;
   }
   await rename(workPath, target);
+  return true;
 }
 
 export async function removeQuietly(file: string | null | undefined): Promise<void> {
   if (file) await rm(file, { force: true }).catch(() => undefined);
 }
 
-/** Removes one store file (a path relative to DATA_DIR, as stored in the database). */
-export async function removeFromStore(relative: string): Promise<void> {
-  await removeQuietly(absoluteStorePath(relative));
+/**
+ * Deletes a version's files from the store: its original bytes and its columns (Arrow, and the
+ * former format if still there). The store is content-addressed, so the caller makes sure no
+ * other version refers to the same SHA-256 before calling this.
+ */
+export async function deleteVersionFiles(v: { sha256: string; storedPath: string; parsedPath: string | null }): Promise<void> {
+  const files = new Set([v.storedPath, v.parsedPath ?? "", columnsRelativePath(v.sha256), legacyColumnsRelativePath(v.sha256)].filter(Boolean));
+  for (const relative of files) await rm(absoluteStorePath(relative), { force: true });
 }
 
 function processAlive(pid: number): boolean {

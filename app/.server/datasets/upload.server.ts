@@ -9,9 +9,12 @@
 import { createHash } from "node:crypto";
 import { createWriteStream } from "node:fs";
 import { Readable } from "node:stream";
+import { pipeline } from "node:stream/promises";
 import type { ReadableStream as WebReadableStream } from "node:stream/web";
 import busboy from "busboy";
+import { appendAudit, type Actor } from "../audit.server";
 import { config } from "../config.server";
+import { describeStorageError, isStorageError, STORAGE_ADVICE } from "../storage-errors.server";
 import { newWorkPath, removeQuietly } from "./store.server";
 
 export interface ReceivedUpload {
@@ -34,46 +37,85 @@ export function formatBytes(n: number): string {
   return `${n} bytes`;
 }
 
-/** Streams the request's form to disk. The caller owns (and must remove) the work file. */
+/** The refusal of a file over the limit; exactly `maxBytes` bytes is still within it. */
+function tooLarge(fileName: string, maxBytes: number): UploadRefused {
+  return new UploadRefused(`${fileName} is larger than the limit of ${formatBytes(maxBytes)}. Split the dataset or ask an administrator to raise DATASET_MAX_BYTES.`, 413);
+}
+
+/** A write to the work file (or its folder) failed: the disk, not the file, is the problem. */
+export function storageRefusal(e: unknown, what = "the uploaded file"): UploadRefused {
+  return new UploadRefused(`Plumbline could not store ${what}: ${describeStorageError(e)}. ${STORAGE_ADVICE}`, 507);
+}
+
+/** Records a refused upload in the audit trail; a failure to record it (full disk) is only logged. */
+export async function auditUploadRefusal(
+  actor: Actor,
+  studyId: string,
+  after: { dataset?: string; fileName?: string; sha256?: string; byteSize?: number },
+  problems: string[],
+): Promise<void> {
+  await appendAudit({ actor, action: "dataset.upload_refused", entityType: "dataset", studyId, after, detail: problems.slice(0, 5).join("\n") }).catch((e: unknown) =>
+    console.error("Could not record a refused upload in the audit trail:", e instanceof Error ? e.message : e),
+  );
+}
+
+/**
+ * Streams the request's form to disk. The caller owns (and must remove) the work file. Every
+ * failure (too large, cut off, a write error of the disk) is an UploadRefused, and by then
+ * the work file is gone.
+ */
 export async function receiveUpload(request: Request, maxBytes = config.DATASET_MAX_BYTES): Promise<ReceivedUpload> {
   const type = request.headers.get("Content-Type") ?? "";
   if (!type.startsWith("multipart/form-data") || !request.body) {
     throw new UploadRefused("Send the dataset as a multipart form (the upload form does this).", 400);
   }
   const declared = Number(request.headers.get("Content-Length") ?? "0");
-  if (declared > maxBytes + 64 * 1024) {
-    throw new UploadRefused(`The file is larger than the limit of ${formatBytes(maxBytes)}. Split the dataset or ask an administrator to raise DATASET_MAX_BYTES.`, 413);
-  }
+  if (declared > maxBytes + 64 * 1024) throw tooLarge("The file", maxBytes);
   const fields: Record<string, string> = {};
   let file: ReceivedUpload["file"] = null;
   let workPath: string | null = null;
-  const parser = busboy({ headers: { "content-type": type }, limits: { files: 1, fileSize: maxBytes, fields: 20, fieldSize: 10_000 } });
+  // One byte over the limit: busboy marks a part truncated when it reaches `fileSize` exactly.
+  const parser = busboy({ headers: { "content-type": type }, limits: { files: 1, fileSize: maxBytes + 1, fields: 20, fieldSize: 10_000 } });
+  const writes: Promise<void>[] = [];
   const done = new Promise<void>((resolve, reject) => {
-    const writes: Promise<void>[] = [];
     parser.on("field", (name, value) => (fields[name] = value));
     parser.on("file", (name, stream, info) => {
-      if (name !== "file" || file || !info.filename) {
+      if (name !== "file" || file || writes.length > 0 || !info.filename) {
         stream.resume();
         return;
       }
-      let truncated = false;
-      stream.on("limit", () => (truncated = true));
-      writes.push(
-        (async () => {
+      const write = (async () => {
+        const fileName = info.filename.split(/[\\/]/).pop() as string;
+        try {
           workPath = await newWorkPath("upload");
-          const hash = createHash("sha256");
-          let size = 0;
-          const out = createWriteStream(workPath);
-          for await (const chunk of stream as AsyncIterable<Buffer>) {
-            hash.update(chunk);
-            size += chunk.length;
-            if (!out.write(chunk)) await new Promise<void>((r) => out.once("drain", () => r()));
-          }
-          await new Promise<void>((r, j) => out.end((e?: Error | null) => (e ? j(e) : r())));
-          if (truncated || (stream as { truncated?: boolean }).truncated) throw new UploadRefused(`${info.filename} is larger than the limit of ${formatBytes(maxBytes)}. Split the dataset or ask an administrator to raise DATASET_MAX_BYTES.`, 413);
-          file = { fileName: info.filename.split(/[\\/]/).pop() as string, workPath, byteSize: size, sha256: hash.digest("hex") };
-        })(),
-      );
+        } catch (e) {
+          stream.resume();
+          throw storageRefusal(e);
+        }
+        const hash = createHash("sha256");
+        let size = 0;
+        try {
+          // pipeline listens for errors on every stage: a full disk or a vanished folder rejects here.
+          await pipeline(
+            stream,
+            async function* (source: AsyncIterable<Buffer>) {
+              for await (const chunk of source) {
+                hash.update(chunk);
+                size += chunk.length;
+                yield chunk;
+              }
+            },
+            createWriteStream(workPath, { flags: "wx" }),
+          );
+        } catch (e) {
+          throw isStorageError(e) ? storageRefusal(e) : e;
+        }
+        if (size > maxBytes) throw tooLarge(fileName, maxBytes);
+        file = { fileName, workPath, byteSize: size, sha256: hash.digest("hex") };
+      })();
+      writes.push(write);
+      // A failed write ends the upload at once, without waiting for the rest of the body.
+      write.catch(reject);
     });
     parser.on("error", reject);
     parser.on("close", () => Promise.all(writes).then(() => resolve(), reject));
@@ -84,7 +126,11 @@ export async function receiveUpload(request: Request, maxBytes = config.DATASET_
   try {
     await done;
   } catch (e) {
+    body.unpipe(parser);
     body.destroy();
+    parser.destroy();
+    // Let the file write settle (destroying the parser ends it) before removing its work file.
+    await Promise.allSettled(writes);
     await removeQuietly(workPath);
     if (e instanceof UploadRefused) throw e;
     throw new UploadRefused("The upload was interrupted before the whole file arrived. Nothing was stored; upload the file again.", 400);

@@ -22,10 +22,17 @@ export const people = sqliteTable("people", {
   isAdmin: integer("is_admin", { mode: "boolean" }).notNull().default(false),
   /** Where the person signs in: the staff SAML provider or a sponsor's OpenID Connect provider. */
   identitySource: text("identity_source", { enum: ["saml", "oidc"] }).notNull().default("saml"),
+  /** The subject at the identity provider (SAML NameID or OpenID Connect `sub`). */
   externalId: text("external_id").notNull(),
+  /**
+   * The identity provider that vouches for `externalId` (SAML IdP entity id or OpenID Connect
+   * issuer). A person is the pair (issuer, subject); null only for accounts made before it was
+   * recorded, bound at their next sign-in when the subject matches.
+   */
+  identityIssuer: text("identity_issuer"),
   createdAt: text("created_at").notNull().default(now),
   lastSignInAt: text("last_sign_in_at"),
-});
+}, (t) => [uniqueIndex("people_identity").on(t.identityIssuer, t.externalId)]);
 
 export const sessions = sqliteTable("sessions", {
   id: text("id").primaryKey(),

@@ -57,6 +57,9 @@ export type PlannedModel = z.infer<typeof plannedModelSchema>;
 export type FieldErrors = Record<string, string>;
 
 /** The editor's fields, as posted. */
+/** The model families the editor offers; anything else is refused, never stored as another family. */
+export const MODEL_FAMILIES = ["gaussian", "binomial", "poisson"] as const;
+
 export interface PlannedModelForm {
   key: string;
   title: string;
@@ -177,7 +180,10 @@ export function validatePlannedModel(
     population = { column: form.populationColumn, value: form.populationValue };
   }
 
-  const family = form.family === "binomial" || form.family === "poisson" ? form.family : "gaussian";
+  const family = MODEL_FAMILIES.find((f) => f === form.family) ?? "gaussian";
+  if (!MODEL_FAMILIES.some((f) => f === form.family)) {
+    errors.family = `"${form.family.slice(0, 40)}" is not a model family Plumbline fits; choose ${MODEL_FAMILIES.join(", ")}.`;
+  }
   const response = need("response", form.response, "endpoint (response) column");
   if (response && family === "gaussian" && response.type !== "number") errors.response = `${response.name} is ${response.type}, not numeric: a linear model needs a numeric endpoint.`;
   if (response && family === "poisson" && response.type !== "number") errors.response = `${response.name} must hold counts for a Poisson model.`;

@@ -28,11 +28,21 @@ export interface StoredPlannedModel extends PlannedModel {
   position: number;
 }
 
+/** A YYYY-MM-DD text that names a real day (2026-02-31 does not): the date read back gives the same text. */
+export function isCalendarDate(value: string): boolean {
+  const at = new Date(`${value}T00:00:00Z`);
+  return !Number.isNaN(at.getTime()) && at.toISOString().slice(0, 10) === value;
+}
+
 export const PlanHeader = z.object({
   title: z.string().trim().min(3, "Give the plan a title, e.g. Statistical analysis plan, efficacy models.").max(200),
   sapName: z.string().trim().min(2, "Name the SAP document this plan implements.").max(200),
   sapVersion: z.string().trim().min(1, "Give the SAP document's version, e.g. 2.0.").max(40),
-  sapDate: z.string().trim().regex(/^\d{4}-\d{2}-\d{2}$/, "Give the SAP's date as YYYY-MM-DD."),
+  sapDate: z
+    .string()
+    .trim()
+    .regex(/^\d{4}-\d{2}-\d{2}$/, "Give the SAP's date as YYYY-MM-DD.")
+    .refine(isCalendarDate, "That date does not exist in the calendar (check the day of the month); give the SAP's date as YYYY-MM-DD."),
 });
 export type PlanHeader = z.infer<typeof PlanHeader>;
 
