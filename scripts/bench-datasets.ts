@@ -89,7 +89,7 @@ try {
 
   const detail = await svc.getVersionDetail("s-bench", result.versionId);
   for (const hit of detail?.hits ?? []) await svc.recordNotIdentifier(actor, "s-bench", hit.id, "Benchmark data: invented values, no person behind them.");
-  const locked = await svc.lockVersion(actor, "s-bench", result.versionId);
+  const locked = await svc.lockVersion({ ...actor, signedInAt: new Date().toISOString() }, "s-bench", result.versionId);
   if (!locked.ok) throw new Error(locked.message);
   clearInterval(sampler);
 

@@ -6,13 +6,12 @@
 import { migrateStoredColumns } from "./datasets/stored-columns.server";
 import { startJobWorker } from "./jobs/jobs.server";
 import { startMailRetries } from "./mail/outbox.server";
-import { failRerunOfJob, RERUN_JOB } from "./reruns/reruns.server";
+// Registers the rerun job's handler and failure hook.
+import "./reruns/reruns.server";
 
 export function startBackgroundWork(): void {
   // A version read before this pass reaches it is migrated on demand (stored-columns.server.ts).
   migrateStoredColumns().catch((e: unknown) => console.error("Dataset columns migration:", e instanceof Error ? e.message : e));
-  startJobWorker(async (job) => {
-    if (job.kind === RERUN_JOB) await failRerunOfJob(job);
-  });
+  startJobWorker();
   startMailRetries();
 }

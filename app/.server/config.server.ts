@@ -15,6 +15,10 @@ const schema = z.object({
   MIGRATIONS_DIR: z.string().default("./drizzle"),
   /** Folder for stored files (locked dataset bytes, appendices). */
   DATA_DIR: z.string().default("./data"),
+  /** Key of the audit trail's keyed hashes (HMAC), at least 32 characters; kept outside the database. Overrides AUDIT_KEY_FILE. */
+  AUDIT_KEY: z.string().min(32, "the audit key needs at least 32 characters").optional(),
+  /** File holding the audit key; created (with a random key) when missing. Default: DATA_DIR/keys/audit-hmac.key. */
+  AUDIT_KEY_FILE: z.string().min(1).optional(),
   /** Secret that signs the session cookie; at least 32 characters outside local development. */
   SESSION_SECRET: z.string().min(16).default("plumbline-local-development-secret"),
   /** SAML identity provider: single sign-on URL, single logout URL, issuer and signing certificate (PEM file). */

@@ -78,6 +78,16 @@ export function roleMay(role: StudyRole | null, action: StudyAction): boolean {
   return role !== null && (STUDY_PERMISSIONS[action] as readonly StudyRole[]).includes(role);
 }
 
+/**
+ * The one decision on subject-level data: whether a person with this study access may see
+ * subject ids and subject-level rows. True only for roles with `dataset.rows`; every page,
+ * figure answer, export, e-mail and API answer asks here and redacts through
+ * redaction.server.ts otherwise.
+ */
+export function seesSubjects(access: { role: StudyRole | null }): boolean {
+  return roleMay(access.role, "dataset.rows");
+}
+
 /** The study actions a role may take, for navigation that shows each role only what it may use. */
 export function allowedActions(role: StudyRole | null): Set<StudyAction> {
   return new Set((Object.keys(STUDY_PERMISSIONS) as StudyAction[]).filter((a) => roleMay(role, a)));

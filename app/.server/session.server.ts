@@ -5,7 +5,7 @@
  * (rotation). Sessions end after 30 minutes without a request or 12 hours after sign-in.
  */
 import { randomBytes } from "node:crypto";
-import { eq, lt } from "drizzle-orm";
+import { and, eq, gt, lt } from "drizzle-orm";
 import { createCookie, redirect } from "react-router";
 import { config, servedOverHttps } from "./config.server";
 import { db, isoNow, t, writeTransaction } from "./db/index.server";
@@ -76,6 +76,24 @@ export async function startSession(
     await tx.delete(t.sessions).where(lt(t.sessions.expiresAt, at.toISOString()));
   });
   return sessionCookie.serialize(id, { maxAge: ABSOLUTE_TIMEOUT_MS / 1000 });
+}
+
+/**
+ * Records a fresh authentication of the same person in their existing session (a sign-in
+ * before signing): the session keeps its id and gets a new `signedInAt`. Returns false when
+ * that session is gone or belongs to someone else (then a new session is started instead).
+ */
+export async function confirmSignIn(sessionId: string, personId: string, saml: { nameId?: string; sessionIndex?: string }): Promise<boolean> {
+  const at = isoNow();
+  const data: SessionData = { signedInAt: at, ...saml };
+  const rows = await writeTransaction((tx) =>
+    tx
+      .update(t.sessions)
+      .set({ dataJson: JSON.stringify(data), lastSeenAt: at })
+      .where(and(eq(t.sessions.id, sessionId), eq(t.sessions.personId, personId), gt(t.sessions.expiresAt, at)))
+      .returning({ id: t.sessions.id }),
+  );
+  return rows.length === 1;
 }
 
 /** The signed-in person, or null when there is no live session (expired sessions are ended). */

@@ -114,7 +114,7 @@ interface ContrastRow {
   lower: number;
   upper: number;
   p: number;
-  hc3: { se: number; lower: number; upper: number; p: number };
+  hc3: { se: number; lower: number; upper: number; p: number } | null;
 }
 
 export function ContrastsTable({ rows, kind = "linear" }: { rows: readonly ContrastRow[]; kind?: "linear" | "glm" }) {
@@ -162,9 +162,9 @@ export function ContrastsTable({ rows, kind = "linear" }: { rows: readonly Contr
             <td className="num text-right">{fmt(c.se)}</td>
             <td className="num text-right whitespace-nowrap">{fmtCi(c.lower, c.upper)}</td>
             <td className="num text-right">{fmtP(c.p)}</td>
-            <td className="num text-right">{fmt(c.hc3.se)}</td>
-            <td className="num text-right whitespace-nowrap">{fmtCi(c.hc3.lower, c.hc3.upper)}</td>
-            <td className="num text-right">{fmtP(c.hc3.p)}</td>
+            <td className="num text-right">{fmt(c.hc3?.se)}</td>
+            <td className="num text-right whitespace-nowrap">{c.hc3 ? fmtCi(c.hc3.lower, c.hc3.upper) : "does not apply"}</td>
+            <td className="num text-right">{fmtP(c.hc3?.p)}</td>
           </tr>
         ))}
       </tbody>
@@ -178,7 +178,7 @@ interface MarginalMean {
   se: number;
   lower: number;
   upper: number;
-  robustSe: number;
+  robustSe: number | null;
 }
 
 export function MarginalMeansTable({ rows, family }: { rows: readonly MarginalMean[]; family: string }) {

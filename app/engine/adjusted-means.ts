@@ -39,8 +39,21 @@ export interface Contrast extends ContrastInterval {
   readonly hc3: ContrastInterval;
 }
 
+/** The grid the adjusted means average over: covariates fixed, cells of the other factors weighted. */
+export interface AdjustedMeansGrid {
+  /** Continuous covariates, each held at its mean over the rows used. */
+  readonly covariates: readonly { readonly variable: string; readonly value: number }[];
+  /** Mean offset added to every adjusted mean (null without an offset). */
+  readonly offset: number | null;
+  /** The other categorical variables, in the order of each cell's levels. */
+  readonly factors: readonly string[];
+  /** Every combination of their levels with its weight (weights sum to one). */
+  readonly cells: readonly { readonly levels: readonly string[]; readonly weight: number }[];
+}
+
 export interface AdjustedMeans {
   readonly weighting: MeansWeighting;
+  readonly grid: AdjustedMeansGrid;
   readonly means: readonly AdjustedMean[];
   readonly contrasts: readonly Contrast[];
 }
@@ -141,5 +154,13 @@ export function adjustedMeans(
       hc3: withT(interval(est, l, hc3)),
     });
   });
-  return { weighting, means, contrasts };
+  const grid: AdjustedMeansGrid = {
+    covariates: [...data.variables.values()]
+      .filter((v): v is Extract<Variable, { kind: "continuous" }> => v.kind === "continuous")
+      .map((v) => ({ variable: v.name, value: v.mean })),
+    offset: data.offset ? offsetMean : null,
+    factors: others.map((f) => f.name),
+    cells: cells.map((c) => ({ levels: c.levels.map((l, i) => others[i].levels[l]), weight: c.weight / totalWeight })),
+  };
+  return { weighting, grid, means, contrasts };
 }

@@ -160,9 +160,10 @@ export const CHECKS: readonly CheckDefinition[] = [
     key: "gvif",
     models: "both",
     label: "Collinearity (GVIF)",
-    rule: "finding when any term's GVIF^(1/(2·df)) exceeds k",
+    rule: "finding when any variable's predictor-wise GVIF^(1/(2·df)) exceeds k",
     defaultThreshold: Math.sqrt(5),
-    source: "√5, i.e. VIF above 5 for a one-column term (Fox and Monette 1992 for the generalized form)",
+    source:
+      "√5, i.e. VIF above 5 for a one-column term (Fox and Monette 1992 for the generalized form; per variable with its interactions, as car::vif(type = \"predictor\"), so that an uncentred covariate in an interaction does not read as collinearity)",
     defaultRemedy: "Review the correlated covariates; the treatment estimate is usually unaffected",
     figure: "residuals_covariate",
   },
@@ -433,7 +434,9 @@ export function evaluateChecks(r: ModelResult, planned: readonly PlannedCheck[])
         out.push(pCheck(def, pc, r.kind === "linear" ? r.tests.reset : undefined, "F"));
         break;
       case "gvif": {
-        const rows = r.vif;
+        // predictor-wise: the term-wise value of a treatment that interacts with an uncentred
+        // covariate is large without any collinearity
+        const rows = r.vifByPredictor.map((v) => ({ term: v.predictor, adjusted: v.adjusted }));
         if (rows.length === 0) {
           out.push({ ...pCheck(def, pc, undefined, ""), threshold: `> ${fmt(k)}`, summary: "Not computed: fewer than two terms." });
           break;

@@ -1,12 +1,24 @@
 /**
  * The headless rerun command's JSON answer: a projection of the full result (the contract
- * validation scripts rely on). Numbers that are undefined (NaN) print as null.
+ * validation scripts rely on). Numbers that are undefined (NaN) print as null. p-values are
+ * carried as computed (down to about 1e-300), never rounded or floored.
+ *
+ * Every row with a standard error says on which scale it is (`seScale`):
+ * - "response": the outcome's own scale (linear models, standardized means, risk differences);
+ * - "link (<link>)": a GLM coefficient on its link scale (log odds for logit, log rate for log);
+ * - "log": a ratio (risk, odds or rate ratio) whose SE, statistic and p are those of the log
+ *   ratio, with the estimate and interval given back on the ratio scale.
  */
 import type { LinearModelResult } from "./linear-model";
 import type { GlmResult } from "./glm/glm-model";
 
 function num(v: number | null | undefined): number | null {
   return v === null || v === undefined || !Number.isFinite(v) ? null : v;
+}
+
+/** The coefficient covariance matrix with its row and column names. */
+function covarianceOf(names: readonly string[], matrix: readonly (readonly number[])[], type: string) {
+  return { type, names: [...names], matrix: matrix.map((row) => row.map(num)) };
 }
 
 export interface CliObservation {
@@ -20,6 +32,21 @@ export interface CliObservation {
   readonly cooksDistance: number | null;
   readonly dffits: number | null;
   readonly dfbetas: (number | null)[];
+}
+
+/** Standardized means and contrasts with the grid they average over and the scale of each SE. */
+function glmMarginalEffects(result: GlmResult, m: NonNullable<GlmResult["marginalEffects"]>) {
+  return {
+    treatment: m.treatment,
+    grid: {
+      kind: "rows",
+      n: result.n,
+      description: "every analysed row predicted with the treatment set to each arm in turn, averaged with equal weight per row",
+    },
+    robustVariance: m.robustVariance,
+    means: m.means.map((x) => ({ ...x, seScale: "response" })),
+    contrasts: m.contrasts.map((x) => ({ ...x, seScale: x.measure === "risk difference" ? "response" : "log" })),
+  };
 }
 
 /** Projects a generalized linear model result onto the command's JSON keys. */
@@ -42,7 +69,13 @@ export function toGlmCliResult(result: GlmResult): Record<string, unknown> {
       p: num(c.p),
       lower: num(c.lower),
       upper: num(c.upper),
+      seScale: `link (${result.link})`,
     })),
+    covariance: covarianceOf(
+      result.coefficients.map((c) => c.name),
+      result.covariance,
+      result.family === "quasipoisson" ? "model-based, scaled by the estimated dispersion" : "model-based",
+    ),
     statisticName: result.statisticName,
     profileIntervals: result.profileIntervals,
     ratioName: result.ratioName,
@@ -79,7 +112,7 @@ export function toGlmCliResult(result: GlmResult): Record<string, unknown> {
     binnedResiduals: result.binnedResiduals,
     vif: result.vif.map((v) => ({ term: v.term, gvif: num(v.gvif), df: v.df, adjusted: num(v.adjusted) })),
     qqShape: { reading: result.qqShape.reading, summary: result.qqShape.summary },
-    ...(result.marginalEffects ? { marginalEffects: result.marginalEffects } : {}),
+    ...(result.marginalEffects ? { marginalEffects: glmMarginalEffects(result, result.marginalEffects) } : {}),
   };
 }
 
@@ -116,7 +149,13 @@ export function toCliResult(result: LinearModelResult | GlmResult): Record<strin
       p: num(c.p),
       lower: num(c.lower),
       upper: num(c.upper),
+      seScale: "response",
     })),
+    covariance: covarianceOf(
+      result.coefficients.map((c) => c.name),
+      result.covariance,
+      result.covarianceType === "model" ? "model-based" : result.covarianceType,
+    ),
     robustSE: {
       HC0: result.robustSE.HC0.map(num),
       HC1: result.robustSE.HC1.map(num),
@@ -129,14 +168,17 @@ export function toCliResult(result: LinearModelResult | GlmResult): Record<strin
       adjRSquared: num(result.fit.adjRSquared),
       fStatistic: num(result.fit.fStatistic),
       fP: num(result.fit.fP),
+      logLik: num(result.fit.logLikelihood),
+      aic: num(result.fit.aic),
     },
     observations,
     tests: result.tests,
     vif: result.vif.map((v) => ({ term: v.term, gvif: num(v.gvif), df: v.df, adjusted: num(v.adjusted) })),
     qqShape: { reading: result.qqShape.reading, summary: result.qqShape.summary },
   };
-  if (result.adjustedMeans) out.adjustedMeans = result.adjustedMeans;
-  if (result.contrasts) out.contrasts = result.contrasts;
+  if (result.adjustedMeans) out.adjustedMeans = result.adjustedMeans.map((m) => ({ ...m, seScale: "response" }));
+  if (result.adjustedMeansGrid) out.adjustedMeansGrid = { weighting: result.adjustedMeansWeighting, ...result.adjustedMeansGrid };
+  if (result.contrasts) out.contrasts = result.contrasts.map((c) => ({ ...c, seScale: "response" }));
   return out;
 }
 

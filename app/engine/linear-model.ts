@@ -2,7 +2,7 @@
  * The linear model rerun: complete-case data, design, (weighted) least squares, inference,
  * observation-level diagnostics, tests of assumptions, variance inflation and adjusted means.
  */
-import { adjustedMeans, type AdjustedMean, type Contrast, type MeansWeighting } from "./adjusted-means";
+import { adjustedMeans, type AdjustedMean, type AdjustedMeansGrid, type Contrast, type MeansWeighting } from "./adjusted-means";
 import { buildDesign, prepareData, type Design, type PreparedData, type Variable } from "./design";
 import { observationDiagnostics, partialResiduals, robustCovariances, type ObservationDiagnostics } from "./diagnostics";
 import { fUpper, tQuantile, tTwoSided } from "./distributions";
@@ -14,7 +14,7 @@ import { readQqShape, type QqShape } from "./qq-shape";
 import { homogeneityOfSlopes, resetTest, type HomogeneityOfSlopes } from "./specification-tests";
 import { breuschPagan, brownForsythe, type BreuschPaganTest, type FTest } from "./spread";
 import { ENGINE_VERSION, RESULTS_CAUTION } from "./version";
-import { varianceInflation, type VifRow } from "./vif";
+import { predictorVarianceInflation, varianceInflation, type PredictorVifRow, type VifRow } from "./vif";
 import type { DataTable } from "./data";
 
 export type CovarianceType = "model" | "HC0" | "HC1" | "HC2" | "HC3";
@@ -131,10 +131,14 @@ export interface LinearModelResult {
   readonly observations: ObservationColumns;
   readonly tests: AssumptionTests;
   readonly vif: VifRow[];
+  /** Predictor-wise GVIF (each variable with its interactions; read by the collinearity check). */
+  readonly vifByPredictor: PredictorVifRow[];
   readonly qqShape: QqShape;
   readonly adjustedMeans: AdjustedMean[] | null;
   readonly contrasts: Contrast[] | null;
   readonly adjustedMeansWeighting: MeansWeighting | null;
+  /** Covariate values and cell weights the adjusted means average over. */
+  readonly adjustedMeansGrid?: AdjustedMeansGrid | null;
 }
 
 /** What the tests and adjusted means read from a fitted model. */
@@ -319,9 +323,11 @@ function assembleResult(ctx: LinearFitContext, diag: ObservationDiagnostics, opt
     },
     tests: fullTests,
     vif: varianceInflation(design, fit.unscaledCovariance),
+    vifByPredictor: predictorVarianceInflation(design, fit.unscaledCovariance),
     qqShape: readQqShape(diag.studentizedInternal),
     adjustedMeans: means ? [...means.means] : null,
     contrasts: means ? [...means.contrasts] : null,
     adjustedMeansWeighting: means ? means.weighting : null,
+    adjustedMeansGrid: means ? means.grid : null,
   };
 }

@@ -3,7 +3,7 @@ import { z } from "zod";
 import type { Route } from "./+types/admin.audit";
 import { PageHeader } from "~/components/page";
 import { StatusLabel } from "~/components/status";
-import { listAuditEvents, verifyAuditChain } from "~/.server/audit.server";
+import { auditKeySource, listAuditEvents, verifyAuditChain } from "~/.server/audit.server";
 import { requireAdmin } from "~/.server/permissions.server";
 import { listStudiesFor } from "~/.server/studies.server";
 
@@ -36,6 +36,7 @@ export async function loader({ request }: Route.LoaderArgs) {
   return {
     filter,
     verdict,
+    keySource: auditKeySource,
     studies: studies.map((s) => ({ id: s.id, code: s.code })),
     events: events.map((e) => ({ ...e, studyCode: e.studyId ? (codeOf.get(e.studyId) ?? e.studyId) : null })),
   };
@@ -61,7 +62,7 @@ function change(before: string | null, after: string | null): string {
 }
 
 export default function AuditTrail({ loaderData }: Route.ComponentProps) {
-  const { filter, verdict, events, studies } = loaderData;
+  const { filter, verdict, events, studies, keySource } = loaderData;
   return (
     <main>
       <PageHeader eyebrow="Administration" title="Audit trail" />
@@ -70,7 +71,7 @@ export default function AuditTrail({ loaderData }: Route.ComponentProps) {
           <>
             <StatusLabel status="within" word="Chain verified" />
             <span className="num text-sm">
-              All {verdict.events} events link to their predecessors and match their hashes.
+              All {verdict.events} events link to their predecessors and match their hashes and keyed hashes.
             </span>
           </>
         ) : (
@@ -83,6 +84,33 @@ export default function AuditTrail({ loaderData }: Route.ComponentProps) {
           </>
         )}
       </section>
+      {verdict.head ? (
+        <section className="panel mb-4 p-3 text-sm" aria-labelledby="head-h">
+          <h2 id="head-h" className="mb-1 text-base">
+            Head of the chain
+          </h2>
+          <p className="mb-2">
+            Record this keyed hash with its time somewhere outside Plumbline (a signed e-mail, the study file). A later check that no longer reaches this head
+            means the trail was cut short or rewritten after it.
+          </p>
+          <dl className="grid grid-cols-[max-content_1fr] gap-x-4 gap-y-1">
+            <dt className="font-semibold">Event</dt>
+            <dd className="num" data-testid="head-seq">
+              {verdict.head.seq}
+            </dd>
+            <dt className="font-semibold">Recorded at</dt>
+            <dd className="num" data-testid="head-at">
+              {verdict.head.at}
+            </dd>
+            <dt className="font-semibold">Keyed hash (HMAC-SHA256)</dt>
+            <dd className="num break-all font-mono" data-testid="head-mac">
+              {verdict.head.mac ?? "none: this event carries no keyed hash"}
+            </dd>
+            <dt className="font-semibold">Audit key</dt>
+            <dd className="break-all">{keySource}</dd>
+          </dl>
+        </section>
+      ) : null}
       <Form method="get" className="mb-4 flex flex-wrap items-end gap-3" aria-label="Filter the audit trail">
         <div>
           <label htmlFor="f-study" className="label">

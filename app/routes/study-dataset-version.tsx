@@ -12,13 +12,15 @@ import { getVersionDetail, lockVersion, purgeRefusal, purgeVersion, recordNotIde
 import { PurgeVersion } from "~/components/datasets/purge-version";
 import { actorOf } from "~/.server/people.server";
 import { requireStudy } from "~/.server/study-access.server";
+import { freshness, reauthenticationPath, reauthNotice, recordedSignature, SIGNATURE_MEANINGS, SignatureRefused } from "~/.server/signatures.server";
+import { ReauthNotice, SigningExplainer } from "~/components/signing";
 
 export function meta({ loaderData }: Route.MetaArgs) {
   return [{ title: loaderData ? `${loaderData.detail.datasetName} v${loaderData.detail.version.version} · ${loaderData.code} · Plumbline` : "Dataset · Plumbline" }];
 }
 
 export async function loader({ request, params }: Route.LoaderArgs) {
-  const { study, allowed } = await requireStudy(request, params.studyId, "dataset.view");
+  const { study, allowed, user } = await requireStudy(request, params.studyId, "dataset.view");
   const detail = await getVersionDetail(study.id, params.versionId);
   if (!detail) throw data({ message: `There is no dataset version "${params.versionId}" in this study.` }, { status: 404 });
   return {
@@ -29,6 +31,8 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     canScreen: allowed.has("dataset.screen"),
     canLock: allowed.has("dataset.lock"),
     canPurge: allowed.has("dataset.purge") && purgeRefusal(detail.version) === null,
+    signing: { meaning: SIGNATURE_MEANINGS.dataset, fresh: freshness(user).ok, notice: reauthNotice(request) },
+    lockSignature: detail.version.lockedAt ? await recordedSignature("dataset.lock", detail.version.id) : null,
   };
 }
 
@@ -58,8 +62,13 @@ export async function action({ request, params }: Route.ActionArgs) {
     if (r.ok) return redirect(`/studies/${study.id}/datasets/${r.versionId}`);
     return { errors: { [f.hitId]: r.message }, message: null };
   }
-  const r = await lockVersion(actor, study.id, params.versionId);
-  return { errors: {} as Record<string, string>, message: r.ok ? null : r.message };
+  try {
+    const r = await lockVersion({ ...actor, signedInAt: user.signedInAt }, study.id, params.versionId);
+    return { errors: {} as Record<string, string>, message: r.ok ? null : r.message };
+  } catch (e) {
+    if (e instanceof SignatureRefused && e.reauthenticate) return redirect(reauthenticationPath(`/studies/${study.id}/datasets/${params.versionId}#lock`));
+    throw e;
+  }
 }
 
 export default function Page({ loaderData, actionData }: Route.ComponentProps) {
@@ -110,11 +119,15 @@ export default function Page({ loaderData, actionData }: Route.ComponentProps) {
           </div>
           <div>
             <dt className="label">Locked</dt>
-            <dd className="text-xs">{v.lockedAt ? `${v.lockedBy ?? "–"}, ${formatTime(v.lockedAt)}` : "not yet"}</dd>
+            <dd className="text-xs" data-testid="dataset-lock">
+              {v.lockedAt ? `${loaderData.lockSignature?.signedBy ?? v.lockedBy ?? "–"}, ${formatTime(v.lockedAt)}${loaderData.lockSignature ? ` · “${loaderData.lockSignature.meaning}”` : ""}` : "not yet"}
+            </dd>
           </div>
         </dl>
         {canLock && v.status === "draft" ? (
-          <Form method="post" className="self-start">
+          <Form method="post" className="self-start" id="lock">
+            <ReauthNotice notice={loaderData.signing.notice} />
+            <SigningExplainer act="Locking" meaning={loaderData.signing.meaning} fresh={loaderData.signing.fresh} />
             <button type="submit" name="intent" value="lock" className="btn" disabled={v.unresolvedHits > 0 || navigation.state !== "idle"} aria-describedby="lock-hint">
               Lock version {v.version}
             </button>

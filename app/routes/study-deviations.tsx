@@ -5,7 +5,8 @@ import { EmptyState, PageHeader } from "~/components/page";
 import { StatusLabel } from "~/components/status";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { deviationLog } from "~/.server/reruns/findings.server";
-import { withoutSubjectNames } from "~/.server/reruns/rerun-view.server";
+import { seesSubjects } from "~/.server/permissions.server";
+import { redactionForReruns } from "~/.server/redaction.server";
 import { requireStudy } from "~/.server/study-access.server";
 
 export function meta({ loaderData }: Route.MetaArgs) {
@@ -13,8 +14,8 @@ export function meta({ loaderData }: Route.MetaArgs) {
 }
 
 export async function loader({ request, params }: Route.LoaderArgs) {
-  const { study, allowed } = await requireStudy(request, params.studyId, "deviation.view");
-  const named = allowed.has("dataset.rows");
+  const access = await requireStudy(request, params.studyId, "deviation.view");
+  const { study } = access;
   const url = new URL(request.url);
   const filter = {
     category: url.searchParams.get("category") || undefined,
@@ -23,7 +24,8 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   };
   const all = await deviationLog(study.id);
   const entries = await deviationLog(study.id, filter);
-  return {
+  const redact = await redactionForReruns(seesSubjects(access), entries.flatMap((d) => (d.rerun ? [d.rerun.id] : [])));
+  const answer = {
     studyId: study.id,
     code: study.code,
     filter,
@@ -35,14 +37,15 @@ export async function loader({ request, params }: Route.LoaderArgs) {
       impact: d.impact,
       impactLabel: IMPACTS[d.impact],
       action: ACTIONS[d.action as keyof typeof ACTIONS] ?? d.action,
-      rationale: d.rationale,
+      rationale: redact.text(d.rationale, d.finding?.checkKey),
       by: d.recordedByName,
       at: d.recordedAt,
-      finding: d.finding ? { ...d.finding, summary: named ? d.finding.summary : withoutSubjectNames(d.finding.summary) } : null,
-      rerun: d.rerun,
+      finding: d.finding ? { ...d.finding, summary: redact.text(d.finding.summary, d.finding.checkKey), statistic: redact.maybe(d.finding.statistic, d.finding.checkKey) } : null,
+      rerun: d.rerun ? { ...d.rerun, label: redact.maybe(d.rerun.label) } : null,
       model: d.model,
     })),
   };
+  return redact.assertClean(answer, "The deviation log");
 }
 
 export default function DeviationLog({ loaderData }: Route.ComponentProps) {

@@ -21,6 +21,8 @@ import {
   updatePlanHeader,
 } from "~/.server/plans/plans.server";
 import { requireStudy } from "~/.server/study-access.server";
+import { freshness, reauthenticationPath, reauthNotice, recordedSignature, SIGNATURE_MEANINGS, SignatureRefused } from "~/.server/signatures.server";
+import { ReauthNotice, SigningExplainer } from "~/components/signing";
 
 export function meta({ loaderData }: Route.MetaArgs) {
   return [{ title: `${loaderData?.version.title ?? "Plan"} v${loaderData?.version.version ?? ""} · Plumbline` }];
@@ -52,6 +54,8 @@ export async function loader({ request, params }: Route.LoaderArgs) {
       approveBlocked: pv.version.authorId === user.id || editors.includes(user.id),
       nextVersion: allowed.has("plan.author") && pv.version.status === "approved",
     },
+    signing: { meaning: SIGNATURE_MEANINGS.plan, fresh: freshness(user).ok, notice: reauthNotice(request) },
+    approval: pv.version.approvedAt ? await recordedSignature("plan.approve", pv.version.id) : null,
   };
 }
 
@@ -91,7 +95,7 @@ export async function action({ request, params }: Route.ActionArgs) {
         await removePlannedModel(actor, study.id, params.versionId, input.revision, input.modelId);
         break;
       case "approve":
-        await approvePlanVersion(actor, study.id, params.versionId);
+        await approvePlanVersion({ ...actor, signedInAt: user.signedInAt }, study.id, params.versionId);
         break;
       case "return":
         await returnPlanVersion(actor, study.id, params.versionId, input.note);
@@ -103,6 +107,7 @@ export async function action({ request, params }: Route.ActionArgs) {
     }
   } catch (e) {
     if (e instanceof PlanConflict) return { error: e.message, fieldErrors: {} as Record<string, string> };
+    if (e instanceof SignatureRefused && e.reauthenticate) return redirect(reauthenticationPath(`/studies/${study.id}/plans/${params.versionId}#approval`));
     throw e;
   }
   return { error: null, fieldErrors: {} as Record<string, string> };
@@ -143,7 +148,11 @@ export default function PlanVersionPage({ loaderData, actionData }: Route.Compon
               <dt className="font-semibold text-ink-soft">Edited by</dt>
               <dd>{loaderData.editors.join(", ") || "—"}</dd>
               <dt className="font-semibold text-ink-soft">Approved</dt>
-              <dd>{v.approvedAt ? `${loaderData.approverName} · ${v.approvedAt.slice(0, 16).replace("T", " ")} UTC` : "not yet"}</dd>
+              <dd data-testid="plan-approval">
+                {v.approvedAt
+                  ? `${loaderData.approval?.signedBy ?? loaderData.approverName} · ${v.approvedAt.slice(0, 16).replace("T", " ")} UTC${loaderData.approval?.meaning ? ` · “${loaderData.approval.meaning}”` : ""}`
+                  : "not yet"}
+              </dd>
             </dl>
           </section>
 
@@ -257,13 +266,15 @@ export default function PlanVersionPage({ loaderData, actionData }: Route.Compon
             </>
           ) : null}
           {can.approve ? (
-            <section className="panel p-4">
+            <section id="approval" className="panel p-4">
               <h2 className="mb-2 text-base">Approval</h2>
+              <ReauthNotice notice={loaderData.signing.notice} />
               {can.approveBlocked ? (
                 <p className="text-sm">You wrote or edited this version, so a second biostatistician must approve it (two-person rule).</p>
               ) : (
                 <>
                   <Form method="post" className="mb-4">
+                    <SigningExplainer act="Approving" meaning={loaderData.signing.meaning} fresh={loaderData.signing.fresh} />
                     <input type="hidden" name="intent" value="approve" />
                     <button type="submit" className="btn" disabled={busy}>
                       Approve version {v.version}

@@ -3,7 +3,8 @@
  * results page after it paints: GET /studies/:studyId/reruns/:rerunId/figures/:figure?term=NAME.
  * Answers JSON { caution, spec, data }: the spec is the figure's Vega-Lite compiled to Vega, and
  * reads its rows from the dataset named "rows" (data.rows), so they travel once. Answers for a
- * completed rerun are kept in memory (figure-answers.server.ts).
+ * completed rerun are kept in memory (figure-answers.server.ts). Points carry their subject and
+ * data row only for people who see subjects; never stored by a cache.
  */
 import { z } from "zod";
 import type { Route } from "./+types/study-rerun-figures";
@@ -14,6 +15,7 @@ import { figureAnswer } from "~/.server/reruns/figure-answers.server";
 import { FigureUnavailableError } from "~/.server/reruns/figure-data.server";
 import { getRerun } from "~/.server/reruns/reruns.server";
 import { rerunTable } from "~/.server/reruns/what-if.server";
+import { seesSubjects } from "~/.server/permissions.server";
 import { requireStudy } from "~/.server/study-access.server";
 import type { FigureKey } from "~/engine/checks";
 
@@ -28,7 +30,7 @@ function refuse(status: number, message: string): Response {
 }
 
 export async function loader({ request, params }: Route.LoaderArgs) {
-  const { role } = await requireStudy(request, params.studyId, "rerun.view");
+  const access = await requireStudy(request, params.studyId, "rerun.view");
   const figure = figureSchema.safeParse(params.figure);
   if (!figure.success) return refuse(404, `There is no figure "${params.figure}". Figures: ${FIGURE_KEYS.join(", ")}.`);
   const term = new URL(request.url).searchParams.get("term") ?? undefined;
@@ -37,8 +39,8 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   // figures that plot covariate values or arms read the rerun's rows from the locked dataset
   const table = async () => (NEEDS_TABLE.includes(figure.data) ? rerunTable(doc, (await loadLockedTable(rerun.datasetVersionId)).table) : undefined);
   try {
-    // staff see who each point is; sponsor readers never reach this route (rerun.view), and would not
-    const body = await figureAnswer({ rerunId: rerun.id, resultSha256: rerun.resultSha256, figure: figure.data, term, withSubjectIds: role !== "sponsor_reader" }, doc, table);
+    // who each point is, only for people who may see subjects (the one decision, permissions.server.ts)
+    const body = await figureAnswer({ rerunId: rerun.id, resultSha256: rerun.resultSha256, figure: figure.data, term, withSubjectIds: seesSubjects(access) }, doc, table);
     return new Response(body, { headers: { ...headers, "Content-Type": "application/json; charset=utf-8" } });
   } catch (e) {
     if (e instanceof FigureUnavailableError) return refuse(400, `This figure cannot be drawn: ${e.message}.`);

@@ -16,16 +16,20 @@ import { StatusLabel } from "~/components/status";
 import { canonicalJson } from "~/.server/audit.server";
 import { loadLockedTable } from "~/.server/datasets/catalog.server";
 import { actorOf } from "~/.server/people.server";
-import { keptWhatIfInputs, rerunTable } from "~/.server/reruns/what-if.server";
+import { exclusionProblem, keptWhatIfInputs, rerunTable } from "~/.server/reruns/what-if.server";
 import { getPlannedModel } from "~/.server/plans/plans.server";
 import { SENSITIVITY_KINDS, SENSITIVITY_LABELS, type PlannedSensitivity } from "~/.server/plans/planned-model";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { Assessment, assessFinding, canSign, FindingConflict, findingsOf, recordDeviation, signaturesOf, signRerun } from "~/.server/reruns/findings.server";
 import type { FigureKey } from "~/engine/checks";
 import type { RerunOptions } from "~/.server/reruns/rerun-options";
-import { reportedContrasts, rerunView, withoutSubjectNames } from "~/.server/reruns/rerun-view.server";
+import { reportedContrasts, rerunView } from "~/.server/reruns/rerun-view.server";
+import { seesSubjects } from "~/.server/permissions.server";
+import { redactionFor } from "~/.server/redaction.server";
 import { getRerun, rerunDocumentOf, sameInputReruns, sensitivityReruns, startRerun, type RerunDocument } from "~/.server/reruns/reruns.server";
 import { requireStudy } from "~/.server/study-access.server";
+import { reauthenticationPath, reauthNotice, SIGNATURE_MEANINGS } from "~/.server/signatures.server";
+import { ReauthNotice, SigningExplainer } from "~/components/signing";
 
 export function meta({ loaderData }: Route.MetaArgs) {
   return [{ title: `Rerun ${loaderData?.model.key ?? ""} · ${loaderData?.code ?? ""} · Plumbline` }];
@@ -52,9 +56,10 @@ function optionsFor(s: PlannedSensitivity, primary: RerunDocument | null): Rerun
 }
 
 export async function loader({ request, params }: Route.LoaderArgs) {
-  const { study, user, allowed } = await requireStudy(request, params.studyId, "rerun.view");
+  const access = await requireStudy(request, params.studyId, "rerun.view");
+  const { study, user, allowed } = access;
   const r = await getRerun(study.id, params.rerunId);
-  const withIds = allowed.has("dataset.rows");
+  const withIds = seesSubjects(access);
   const planned = await getPlannedModel(r.rerun.plannedModelId);
   const [findings, signatures, children, twins, verdict] = await Promise.all([
     findingsOf(r.rerun.id),
@@ -64,10 +69,11 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     allowed.has("rerun.sign") ? canSign(user, r.rerun.id) : Promise.resolve(null),
   ]);
   const childDocs = children.map((c) => ({ row: c, doc: rerunDocumentOf(c) }));
+  const redact = await redactionFor(withIds, [{ doc: r.doc, datasetVersionId: r.rerun.datasetVersionId }, ...childDocs.map((c) => ({ doc: c.doc, datasetVersionId: c.row.datasetVersionId }))]);
   const comparison = r.doc
     ? [
         { id: r.rerun.id, label: "Primary analysis as planned", prespecified: true, primary: true, status: r.rerun.status, contrasts: reportedContrasts(r.doc) },
-        ...childDocs.map(({ row, doc }) => ({ id: row.id, label: row.label ?? "Sensitivity analysis", prespecified: row.prespecified, primary: false, status: row.status, contrasts: doc ? reportedContrasts(doc) : [], failure: row.failureReason })),
+        ...childDocs.map(({ row, doc }) => ({ id: row.id, label: redact.text(row.label ?? "Sensitivity analysis"), prespecified: row.prespecified, primary: false, status: row.status, contrasts: doc ? reportedContrasts(doc) : [], failure: redact.maybe(row.failureReason) })),
       ]
     : [];
   // one forest chart per treatment contrast, compiled here so the browser needs only Vega's runtime
@@ -89,15 +95,15 @@ export async function loader({ request, params }: Route.LoaderArgs) {
       canSave: true,
     });
   }
-  return {
+  const answer = {
     studyId: study.id,
     code: study.code,
     rerun: {
       id: r.rerun.id,
       kind: r.rerun.kind,
-      label: r.rerun.label,
+      label: redact.maybe(r.rerun.label),
       status: r.rerun.status,
-      failureReason: r.rerun.failureReason,
+      failureReason: redact.maybe(r.rerun.failureReason),
       datasetSha256: r.rerun.datasetSha256,
       resultSha256: r.rerun.resultSha256,
       engineVersion: r.rerun.engineVersion,
@@ -111,8 +117,8 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     dataset: r.dataset,
     planVersion: r.planVersion,
     startedBy: r.startedBy,
-    view: r.doc ? rerunView(r.doc, withIds) : null,
-    findings: findings.map((f) => ({ id: f.id, kind: f.kind, summary: withIds ? f.summary : withoutSubjectNames(f.summary), statistic: f.statistic && !withIds ? withoutSubjectNames(f.statistic) : f.statistic, threshold: f.threshold, assessment: f.assessment ? { category: f.assessment.category, impact: f.assessment.impact, action: f.assessment.action, rationale: f.assessment.rationale, by: f.assessment.recordedByName, at: f.assessment.recordedAt } : null })),
+    view: r.doc ? rerunView(r.doc, redact) : null,
+    findings: findings.map((f) => ({ id: f.id, kind: f.kind, summary: redact.text(f.summary, f.checkKey), statistic: redact.maybe(f.statistic, f.checkKey), threshold: f.threshold, assessment: f.assessment ? { category: f.assessment.category, impact: f.assessment.impact, action: f.assessment.action, rationale: redact.text(f.assessment.rationale, f.checkKey), by: f.assessment.recordedByName, at: f.assessment.recordedAt } : null })),
     signatures: signatures.map((s) => ({ name: s.signerName, meaning: s.meaning, at: s.signedAt })),
     comparison,
     forests,
@@ -123,8 +129,11 @@ export async function loader({ request, params }: Route.LoaderArgs) {
       assess: allowed.has("finding.assess") && !r.rerun.signedAt,
       sign: verdict,
     },
+    signing: { meaning: SIGNATURE_MEANINGS.rerun, notice: reauthNotice(request) },
     whatIf,
   };
+  // never kept by a cache: the security middleware answers every page with no-store
+  return redact.assertClean(answer, "A results page");
 }
 
 const Intent = z.discriminatedUnion("intent", [
@@ -165,6 +174,8 @@ export async function action({ request, params }: Route.ActionArgs): Promise<Act
       }
       case "whatif-save": {
         const rows = input.rows.split(",").map(Number).sort((a, b) => a - b);
+        const problem = r.doc ? exclusionProblem(r.doc, rows) : "The what-if opens when the rerun has completed.";
+        if (problem) return { error: problem, fieldErrors: { rows: problem } };
         const planned = await getPlannedModel(r.rerun.plannedModelId);
         const flagged = (r.doc?.checks.find((c) => c.key === "cooks_distance")?.flagged ?? []).map((f) => f.row).sort((a, b) => a - b);
         const prespecified = planned.sensitivity.some((s) => s.kind === "exclude_influential") && JSON.stringify(rows) === JSON.stringify(flagged);
@@ -192,8 +203,7 @@ export async function action({ request, params }: Route.ActionArgs): Promise<Act
       case "sign": {
         const verdict = await canSign(user, r.rerun.id);
         if (!verdict.ok && verdict.reauthenticate) {
-          const back = `/studies/${study.id}/reruns/${r.rerun.id}#sign-off`;
-          return redirect(`/auth/saml/login?fresh=1&returnTo=${encodeURIComponent(back)}`);
+          return redirect(reauthenticationPath(`/studies/${study.id}/reruns/${r.rerun.id}#sign-off`));
         }
         await signRerun({ ...actor, signedInAt: user.signedInAt }, study.id, r.rerun.id);
         return { error: null, fieldErrors: {} };
@@ -557,6 +567,7 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
           <h2 id="sign-h" className="mb-2">
             Sign-off
           </h2>
+          {loaderData.signatures.length === 0 && !can.sign?.ok && !can.sign?.reauthenticate ? <ReauthNotice notice={loaderData.signing.notice} /> : null}
           {loaderData.signatures.length > 0 ? (
             loaderData.signatures.map((s) => (
               <p key={s.at} className="text-sm">
@@ -567,11 +578,9 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
             can.sign.ok || can.sign.reauthenticate ? (
               <Form method="post" className="space-y-2">
                 <input type="hidden" name="intent" value="sign" />
-                <p className="text-sm">
-                  Signing records your name, the time and the meaning <span className="font-semibold">“Reviewed and approved”</span>, makes this rerun unchangeable and
-                  publishes it to the sponsor readers.
-                  {can.sign.ok ? "" : " You will be asked to sign in again first."}
-                </p>
+                <ReauthNotice notice={loaderData.signing.notice} />
+                <SigningExplainer act="Signing" meaning={loaderData.signing.meaning} fresh={can.sign.ok} />
+                <p className="text-sm">Signing makes this rerun unchangeable and publishes it to the sponsor readers.</p>
                 <button type="submit" className="btn" disabled={busy}>
                   Sign this rerun
                 </button>

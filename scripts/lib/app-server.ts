@@ -1,10 +1,9 @@
 /**
- * Starts the built Plumbline server (`react-router-serve build/server/index.js`) as a child
+ * Starts the built Plumbline server (`node server.mjs build/server/index.js`) as a child
  * process and waits until it answers /healthz. The server binary is started directly (not
  * through npm) so that stopping it by its own pid really stops it.
  */
 import { spawn, type ChildProcess } from "node:child_process";
-import { createRequire } from "node:module";
 import path from "node:path";
 
 export interface RunningApp {
@@ -12,8 +11,6 @@ export interface RunningApp {
   process: ChildProcess;
   stop(): Promise<void>;
 }
-
-const require = createRequire(import.meta.url);
 
 export async function startAppServer(opts: {
   port: number;
@@ -24,11 +21,8 @@ export async function startAppServer(opts: {
   output?: "inherit" | "pipe";
 }): Promise<RunningApp> {
   const root = opts.root ?? process.cwd();
-  // The package exports no subpaths, so find its bin script beside its package.json.
-  const servePackage = require.resolve("@react-router/serve/package.json", { paths: [root] });
-  const serveBin = path.join(path.dirname(servePackage), "bin.js");
   const host = opts.host ?? "127.0.0.1";
-  const child = spawn(process.execPath, [serveBin, path.join(root, "build/server/index.js")], {
+  const child = spawn(process.execPath, [path.join(root, "server.mjs"), path.join(root, "build/server/index.js")], {
     cwd: root,
     env: { ...process.env, NODE_ENV: "production", ...opts.env, PORT: String(opts.port), HOST: host },
     stdio: opts.output === "inherit" ? "inherit" : ["ignore", "pipe", "pipe"],

@@ -104,7 +104,7 @@ export async function buildLargeStudy(opts: LargeStudyOptions = {}): Promise<Lar
   if (!up.ok) throw new Error(`The large dataset was refused: ${up.problems.join(" ")}`);
   const detail = await datasets.getVersionDetail(studyId, up.versionId);
   for (const hit of detail?.hits ?? []) await datasets.recordNotIdentifier(people.dana, studyId, hit.id, "Pseudonymous subject code for the benchmark.");
-  const locked = await datasets.lockVersion(people.dana, studyId, up.versionId);
+  const locked = await datasets.lockVersion({ ...people.dana, signedInAt: new Date().toISOString() }, studyId, up.versionId);
   if (!locked.ok) throw new Error(`The large dataset could not be locked: ${locked.message}`);
 
   const versions = await listLockedVersions(studyId);
@@ -129,7 +129,7 @@ export async function buildLargeStudy(opts: LargeStudyOptions = {}): Promise<Lar
     plannedModelIds[name] = await plans.savePlannedModel(people.priya, studyId, versionId, revision++, null, v.model);
   }
   await plans.submitForApproval(people.priya, studyId, versionId, revision);
-  await plans.approvePlanVersion(people.tomas, studyId, versionId);
+  await plans.approvePlanVersion({ ...people.tomas, signedInAt: new Date().toISOString() }, studyId, versionId);
 
   const rerun = async (name: BenchDataset): Promise<string> => {
     const id = await reruns.startRerun(people.priya, studyId, { plannedModelId: plannedModelIds[name], datasetVersionId: datasetVersionIds[name], options: { variant: "planned" } });

@@ -18,7 +18,7 @@ Object.assign(process.env, {
   SAML_SP_ISSUER: "urn:plumbline:sp",
   SAML_IDP_CERT_FILE: trusted.certFile,
 });
-const { finishSamlSignIn, handleSamlLogout } = await import("../../app/.server/auth/sign-in.server");
+const { bindRequest, finishSamlSignIn, handleSamlLogout } = await import("../../app/.server/auth/sign-in.server");
 const { samlSetup } = await import("../../app/.server/auth/saml-setup.server");
 const { getCurrentUser } = await import("../../app/.server/session.server");
 const { listAuditEvents } = await import("../../app/.server/audit.server");
@@ -28,7 +28,8 @@ const dana = { email: "dana.okafor@plumbline.example", displayName: "Dana Okafor
 async function signedInCookie(): Promise<string> {
   const inResponseTo = authnRequestId(await samlSetup().signIn.getAuthorizeUrlAsync("/", "127.0.0.1:5997", {}));
   const response = await signedResponse({ signer: trusted, issuer: "urn:plumbline:idp-fake", audience: "urn:plumbline:sp", acsUrl: `${APP}/auth/saml/acs`, inResponseTo, user: dana });
-  return cookiePair((await finishSamlSignIn(acsPost(APP, response))).headers.get("Set-Cookie"));
+  const bound = cookiePair(await bindRequest({ id: inResponseTo, reauth: null }));
+  return cookiePair((await finishSamlSignIn(acsPost(APP, response, "/", bound))).headers.get("Set-Cookie"));
 }
 
 /** The identity provider's side: a logout request in the redirect binding, signed when given the key. */

@@ -25,7 +25,7 @@ Object.assign(process.env, {
   SAML_CLOCK_SKEW_MS: "2000",
 });
 
-const { finishSamlSignIn, signInPage, startSamlSignIn } = await import("../../app/.server/auth/sign-in.server");
+const { bindRequest, finishSamlSignIn, signInPage, startSamlSignIn } = await import("../../app/.server/auth/sign-in.server");
 const { samlSetup } = await import("../../app/.server/auth/saml-setup.server");
 const { REFUSAL_MESSAGES } = await import("../../app/.server/auth/refusal.server");
 const { listAuditEvents } = await import("../../app/.server/audit.server");
@@ -46,10 +46,18 @@ const morgan: TestUser = {
   groups: ["staff", "plumbline-admins"],
 };
 
-/** Starts a sign-in as the login route does and returns the AuthnRequest id it remembered. */
+/** This browser's binding to the last request it started (the cookie the login route sets). */
+let boundCookie = "";
+
+/** Starts a sign-in as the login route does and returns the AuthnRequest id it remembered; this browser is bound to it. */
 async function freshRequestId(): Promise<string> {
-  return authnRequestId(await samlSetup().signIn.getAuthorizeUrlAsync("/", "127.0.0.1:5999", {}));
+  const id = authnRequestId(await samlSetup().signIn.getAuthorizeUrlAsync("/", "127.0.0.1:5999", {}));
+  boundCookie = cookiePair(await bindRequest({ id, reauth: null }));
+  return id;
 }
+
+/** The browser's post of a response to our ACS, with its cookie. */
+const acs = (samlResponse: string, relayState = "/"): Request => acsPost(APP, samlResponse, relayState, boundCookie);
 
 async function goodResponse(user: TestUser, inResponseTo?: string): Promise<string> {
   return signedResponse({
@@ -81,9 +89,19 @@ afterEach(() => {
   vi.useRealTimers();
 });
 
+describe("a response this browser did not ask for (login CSRF)", () => {
+  it("is refused without the cookie of the browser that started the sign-in, or with another request's", async () => {
+    const samlResponse = await goodResponse(priya);
+    await expectRefused(await finishSamlSignIn(acsPost(APP, samlResponse)), "not-this-browser", /which this browser did not start/);
+    const otherBrowser = cookiePair(await bindRequest({ id: "_another-request", reauth: null }));
+    const samlResponse2 = await goodResponse(priya);
+    await expectRefused(await finishSamlSignIn(acsPost(APP, samlResponse2, "/", otherBrowser)), "not-this-browser", /which this browser did not start/);
+  });
+});
+
 describe("a good response", () => {
   it("signs the person in, creating them from the attributes, administrator from the groups", async () => {
-    const response = await finishSamlSignIn(acsPost(APP, await goodResponse(morgan), "/admin/people"));
+    const response = await finishSamlSignIn(acs(await goodResponse(morgan), "/admin/people"));
     expect(response.status).toBe(302);
     expect(response.headers.get("Location")).toBe("/admin/people");
     const cookie = cookiePair(response.headers.get("Set-Cookie"));
@@ -104,7 +122,7 @@ describe("a good response", () => {
   });
 
   it("a single group arrives as one value; without plumbline-admins there is no administrator flag", async () => {
-    const response = await finishSamlSignIn(acsPost(APP, await goodResponse(priya), "//elsewhere.example/"));
+    const response = await finishSamlSignIn(acs(await goodResponse(priya), "//elsewhere.example/"));
     expect(response.headers.get("Location")).toBe("/");
     const user = await getCurrentUser(new Request(`${APP}/`, { headers: { Cookie: cookiePair(response.headers.get("Set-Cookie")) } }));
     expect(user).toMatchObject({ email: priya.email, displayName: "Priya Lindqvist", isAdmin: false });
@@ -116,7 +134,7 @@ describe("refused responses", () => {
     const xml = Buffer.from(await goodResponse(priya), "base64").toString("utf8");
     const altered = xml.replace("Priya Lindqvist", "Mallory Lindqvist");
     expect(altered).not.toBe(xml);
-    const response = await finishSamlSignIn(acsPost(APP, Buffer.from(altered).toString("base64")));
+    const response = await finishSamlSignIn(acs(Buffer.from(altered).toString("base64")));
     await expectRefused(response, "tampered", /Invalid document signature/);
   });
 
@@ -129,7 +147,7 @@ describe("refused responses", () => {
       inResponseTo: await freshRequestId(),
       user: morgan,
     });
-    const response = await finishSamlSignIn(acsPost(APP, forged));
+    const response = await finishSamlSignIn(acs(forged));
     await expectRefused(response, "foreign-signed", /untrusted key/);
     const [event] = await listAuditEvents({ action: "auth.sign_in_refused", limit: 1 });
     expect(event.actorName).toBe(`${morgan.email} (not signed in)`);
@@ -137,13 +155,13 @@ describe("refused responses", () => {
 
   it("replayed: the same response a second time", async () => {
     const samlResponse = await goodResponse(priya);
-    expect((await finishSamlSignIn(acsPost(APP, samlResponse))).headers.get("Location")).toBe("/");
-    await expectRefused(await finishSamlSignIn(acsPost(APP, samlResponse)), "replayed", /InResponseTo is not valid/);
+    expect((await finishSamlSignIn(acs(samlResponse))).headers.get("Location")).toBe("/");
+    await expectRefused(await finishSamlSignIn(acs(samlResponse)), "replayed", /InResponseTo is not valid/);
   });
 
   it("replayed: two copies at once, only one is accepted", async () => {
     const samlResponse = await goodResponse(priya);
-    const results = await Promise.all([1, 2, 3].map(() => finishSamlSignIn(acsPost(APP, samlResponse))));
+    const results = await Promise.all([1, 2, 3].map(() => finishSamlSignIn(acs(samlResponse))));
     const accepted = results.filter((r) => r.headers.get("Set-Cookie"));
     expect(accepted).toHaveLength(1);
     for (const r of results.filter((x) => !x.headers.get("Set-Cookie"))) {
@@ -153,7 +171,7 @@ describe("refused responses", () => {
 
   it("replayed: a response that answers no request made here", async () => {
     const unsolicited = await signedResponse({ signer: trusted, issuer: IDP_ISSUER, audience: SP, acsUrl: `${APP}/auth/saml/acs`, user: priya });
-    await expectRefused(await finishSamlSignIn(acsPost(APP, unsolicited)), "replayed", /InResponseTo is missing/);
+    await expectRefused(await finishSamlSignIn(acs(unsolicited)), "replayed", /InResponseTo is missing/);
   });
 
   it("expired: issued ten minutes ago with a two-minute lifetime", async () => {
@@ -170,7 +188,7 @@ describe("refused responses", () => {
       lifetimeInSeconds: 120,
     });
     vi.useRealTimers();
-    await expectRefused(await finishSamlSignIn(acsPost(APP, old)), "expired", /expired|subject confirmation/i);
+    await expectRefused(await finishSamlSignIn(acs(old)), "expired", /expired|subject confirmation/i);
   });
 
   it("wrong audience: addressed to another application", async () => {
@@ -182,7 +200,7 @@ describe("refused responses", () => {
       inResponseTo: await freshRequestId(),
       user: priya,
     });
-    await expectRefused(await finishSamlSignIn(acsPost(APP, other)), "wrong-audience", /audience mismatch/);
+    await expectRefused(await finishSamlSignIn(acs(other)), "wrong-audience", /audience mismatch/);
   });
 
   it("wrong issuer: signed with the trusted key but naming another identity provider", async () => {
@@ -194,7 +212,7 @@ describe("refused responses", () => {
       inResponseTo: await freshRequestId(),
       user: priya,
     });
-    await expectRefused(await finishSamlSignIn(acsPost(APP, other)), "wrong-issuer", /urn:another-provider:idp/);
+    await expectRefused(await finishSamlSignIn(acs(other)), "wrong-issuer", /urn:another-provider:idp/);
   });
 
   it("other: a post without any SAMLResponse", async () => {

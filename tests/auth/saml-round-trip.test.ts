@@ -42,6 +42,7 @@ Object.assign(process.env, {
 });
 const { finishSamlSignIn, handleSamlLogout, signInPage, signOut, startSamlSignIn } = await import("../../app/.server/auth/sign-in.server");
 const { getCurrentUser } = await import("../../app/.server/session.server");
+const { listAuditEvents } = await import("../../app/.server/audit.server");
 
 afterAll(async () => {
   await idp.stop();
@@ -94,14 +95,14 @@ const post = (url: string, fields: Map<string, string> | Record<string, string>,
   });
 
 /** Our ACS, given the identity provider's auto-posting response page. */
-async function deliverToAcs(html: string): Promise<Response> {
+async function deliverToAcs(html: string, cookie: string): Promise<Response> {
   const { action, fields } = formFields(html, `${APP}/auth/saml/acs`);
   expect(action).toBe(`${APP}/auth/saml/acs`);
   expect(fields.get("SAMLResponse")).toMatch(/^[A-Za-z0-9+/]+=*$/);
   return finishSamlSignIn(
     new Request(action, {
       method: "POST",
-      headers: { "Content-Type": "application/x-www-form-urlencoded" },
+      headers: { "Content-Type": "application/x-www-form-urlencoded", Cookie: cookie },
       body: new URLSearchParams([...fields]).toString(),
     }),
   );
@@ -137,7 +138,7 @@ describe("round trip through the fake identity provider", () => {
     jar.take(signedIn);
     expect(signedIn.status).toBe(200);
 
-    const acs = await deliverToAcs(await signedIn.text());
+    const acs = await deliverToAcs(await signedIn.text(), cookiePair(start.headers.get("Set-Cookie")));
     expect(acs.headers.get("Location")).toBe("/studies");
     const appCookie = cookiePair(acs.headers.get("Set-Cookie"));
     const user = await getCurrentUser(new Request(`${APP}/`, { headers: { Cookie: appCookie } }));
@@ -176,9 +177,65 @@ describe("round trip through the fake identity provider", () => {
     const { fields } = formFields(adminForm, "/signin");
     expect(fields.get("groups")).toContain("plumbline-admins");
     const signedIn = await post(`${idp.baseUrl}/signin`, fields, jar);
-    const acs = await deliverToAcs(await signedIn.text());
+    const acs = await deliverToAcs(await signedIn.text(), cookiePair(start.headers.get("Set-Cookie")));
     expect(acs.headers.get("Location")).toBe("/");
     const user = await getCurrentUser(new Request(`${APP}/`, { headers: { Cookie: cookiePair(acs.headers.get("Set-Cookie")) } }));
     expect(user).toMatchObject({ email: "morgan.reyes@plumbline.example", displayName: "Morgan Reyes", isAdmin: true });
+  });
+
+  /** Login through the picker as the person with this key; `cookie` is what the browser holds for the app. */
+  async function pickerSignIn(personKey: string, opts: { fresh?: boolean; appCookie?: string; returnTo?: string } = {}): Promise<{ acs: Response; bound: string }> {
+    const returnTo = opts.returnTo ?? "/";
+    const start = await startSamlSignIn(
+      new Request(`${APP}/auth/saml/login?returnTo=${encodeURIComponent(returnTo)}${opts.fresh ? "&fresh=1" : ""}`, { headers: opts.appCookie ? { Cookie: opts.appCookie } : {} }),
+    );
+    const bound = cookiePair(start.headers.get("Set-Cookie"));
+    expect(bound).toMatch(/^plumbline_saml_request=/);
+    const picker = await fetch(start.headers.get("Location") ?? "");
+    const html = await picker.text();
+    const form = new RegExp(`<form method="post" action="/signin" data-person="${personKey}">([\\s\\S]*?)</form>`).exec(html)?.[0] ?? "";
+    const { fields } = formFields(form, "/signin");
+    const signedIn = await post(`${idp.baseUrl}/signin`, fields);
+    return { acs: await deliverToAcs(await signedIn.text(), [opts.appCookie, bound].filter(Boolean).join("; ")), bound };
+  }
+
+  it("a response delivered to a browser that did not start its sign-in is refused (login CSRF)", async () => {
+    const start = await startSamlSignIn(new Request(`${APP}/auth/saml/login?returnTo=/`));
+    const picker = await (await fetch(start.headers.get("Location") ?? "")).text();
+    const form = /<form method="post" action="\/signin" data-person="data-manager">([\s\S]*?)<\/form>/.exec(picker)?.[0] ?? "";
+    const signedIn = await post(`${idp.baseUrl}/signin`, formFields(form, "/signin").fields);
+    // The attacker's own response, posted from the victim's browser: no binding cookie there.
+    const html = await signedIn.text();
+    const acs = await deliverToAcs(html, "");
+    expect(acs.headers.get("Location")).toBe("/sign-in?error=not-this-browser");
+    expect(acs.headers.getSetCookie().some((c) => c.startsWith("plumbline_session="))).toBe(false);
+    // Another request's binding does not fit either.
+    const other = await startSamlSignIn(new Request(`${APP}/auth/saml/login?returnTo=/`));
+    const again = await deliverToAcs(html, cookiePair(other.headers.get("Set-Cookie")));
+    expect(again.headers.get("Location")).toMatch(/^\/sign-in\?error=(not-this-browser|replayed)$/);
+  });
+
+  it("a fresh sign-in before signing must be the same person: another person is refused and audited, the session stays", async () => {
+    const { acs } = await pickerSignIn("second-biostatistician");
+    const tomasCookie = cookiePair(acs.headers.get("Set-Cookie"));
+    const before = await getCurrentUser(new Request(`${APP}/`, { headers: { Cookie: tomasCookie } }));
+    expect(before?.email).toBe("tomas.berg@plumbline.example");
+
+    const back = "/studies/s1/reruns/r1#sign-off";
+    const refused = await pickerSignIn("biostatistician", { fresh: true, appCookie: tomasCookie, returnTo: back });
+    expect(refused.acs.headers.get("Location")).toBe("/studies/s1/reruns/r1?reauth=different-person#sign-off");
+    expect(refused.acs.headers.getSetCookie().some((c) => c.startsWith("plumbline_session="))).toBe(false);
+    const after = await getCurrentUser(new Request(`${APP}/`, { headers: { Cookie: tomasCookie } }));
+    expect(after).toMatchObject({ id: before?.id, email: "tomas.berg@plumbline.example", sessionId: before?.sessionId, signedInAt: before?.signedInAt });
+    const [event] = await listAuditEvents({ action: "auth.reauth_refused", limit: 1 });
+    expect(event).toMatchObject({ actorId: before?.id, entityId: before?.id });
+    expect(event.detail).toMatch(/priya\.lindqvist@plumbline\.example, not the person signed in/);
+
+    await new Promise((r) => setTimeout(r, 5));
+    const confirmed = await pickerSignIn("second-biostatistician", { fresh: true, appCookie: tomasCookie, returnTo: back });
+    expect(confirmed.acs.headers.get("Location")).toBe("/studies/s1/reruns/r1?reauth=done#sign-off");
+    const fresh = await getCurrentUser(new Request(`${APP}/`, { headers: { Cookie: tomasCookie } }));
+    expect(fresh).toMatchObject({ id: before?.id, sessionId: before?.sessionId });
+    expect(Date.parse(fresh?.signedInAt ?? "")).toBeGreaterThan(Date.parse(before?.signedInAt ?? ""));
   });
 });

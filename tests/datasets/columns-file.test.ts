@@ -71,8 +71,10 @@ describe("Arrow columns file", () => {
     expect(textOf(back.columns[2]).slice(0, 3)).toEqual(["Placebo", "Dose 1", ""]);
   });
 
-  it("keeps a numeric column with a text cell as text rather than lose the cell", () => {
+  it("keeps a numeric column as text when a number would lose a cell: a text cell, or a zero-padded code", () => {
     expect(typedColumnOf(["1", "two", ""], { type: "number" })).toEqual(["1", "two", null]);
+    expect(typedColumnOf(["0012", "0105", "NA"], { type: "number" })).toEqual(["0012", "0105", null]);
+    expect(typedColumnOf(["0.5", "-0.25", "10"], { type: "number" })).toEqual(new Float64Array([0.5, -0.25, 10]));
     expect(typedColumnOf(["1", "2", ""], { type: "text" })).toEqual(["1", "2", null]);
   });
 

@@ -143,6 +143,15 @@ describe("migration of the former columns files", () => {
     expect(await rerunResult()).toBe(before);
   });
 
+  it("rebuilds an Arrow file that has gone missing from the store on the next read", async () => {
+    const arrow = path.join(dataDir, columnsRelativePath(sha256));
+    const kept = readFileSync(arrow);
+    rmSync(arrow);
+    const locked = await catalog.loadLockedTable(versionId);
+    expect(locked.table.columns.subjid[0]).toBe("QMT301-0001");
+    expect(readFileSync(arrow)).toEqual(kept);
+  });
+
   it("refuses to rebuild from original bytes that no longer match their SHA-256, and says so", async () => {
     await formerStore({ withCols: false });
     const v = await version();

@@ -46,6 +46,26 @@ describe("demo dataset", () => {
     expect(events.rows.map((r) => r.action)).toEqual(["dataset.upload", "dataset.screen_decision", "dataset.lock"]);
   });
 
+  it("serves preview windows from the typed columns: numbers sorted as numbers, missing cells last", async () => {
+    const [v] = await catalog.listLockedVersions(studyId);
+    const chgMissing = v.columns.find((c) => c.name === "chg")?.missing ?? 0;
+    expect(chgMissing).toBeGreaterThan(0);
+    const w = await svc.readRowsWindow(studyId, v.versionId, { offset: 0, limit: 1000, sort: { column: "chg", descending: false } });
+    if (!w) throw new Error("no window");
+    const chg = w.rows.map((r) => r[w.columns.indexOf("chg")]);
+    expect(chg).toHaveLength(450);
+    expect(chg.slice(450 - chgMissing)).toEqual(Array(chgMissing).fill(""));
+    const values = chg.slice(0, 450 - chgMissing).map(Number);
+    expect(values.every((x, i) => Number.isFinite(x) && (i === 0 || values[i - 1] <= x))).toBe(true);
+    // The same cells as the original file, in the order of a numeric (not a text) sort.
+    const file = demoDatasetCsv().split("\n").filter(Boolean).map((l) => l.split(","));
+    const at = file[0].indexOf("chg");
+    const fromFile = file.slice(1).map((r) => r[at]).filter((c) => c !== "" && c !== "NA").map(Number).sort((a, b) => a - b);
+    expect(values).toEqual(fromFile);
+    const byArm = await svc.readRowsWindow(studyId, v.versionId, { offset: 0, limit: 3, sort: { column: "arm", descending: true } });
+    expect(byArm?.rows.map((r) => r[byArm.columns.indexOf("arm")])).toEqual(Array(3).fill("Placebo"));
+  });
+
   it("refuses the same bytes again, naming the version", async () => {
     const again = await svc.uploadBytes(dana, { studyId, datasetName: "adeff", fileName: "adeff.csv", bytes: demoDatasetCsv() });
     expect(again.ok).toBe(false);
@@ -69,7 +89,7 @@ describe("screen, removal, lock and versions", () => {
     const rules = detail?.hits.map((h) => `${h.column}:${h.rule}`).sort();
     expect(rules).toEqual(["brthdt:date", "contact:email", "usubjid:subject_code"]);
     expect(detail?.hits.find((h) => h.rule === "email")?.maskedExamples[0]).toBe("a••@e••••••.o••");
-    const refused = await svc.lockVersion(dana, studyId, draftId);
+    const refused = await svc.lockVersion({ ...dana, signedInAt: new Date().toISOString() }, studyId, draftId);
     expect(refused.ok).toBe(false);
     if (!refused.ok) expect(refused.message).toMatch(/Resolve the identifier screen first: "usubjid", "contact", "brthdt" are still flagged/);
   });
@@ -95,7 +115,7 @@ describe("screen, removal, lock and versions", () => {
     const short = await svc.recordNotIdentifier(dana, studyId, subj?.id ?? "", "code");
     expect(short.ok).toBe(false);
     expect((await svc.recordNotIdentifier(dana, studyId, subj?.id ?? "", "Pseudonymous subject code")).ok).toBe(true);
-    const locked = await svc.lockVersion(dana, studyId, b.versionId);
+    const locked = await svc.lockVersion({ ...dana, signedInAt: new Date().toISOString() }, studyId, b.versionId);
     expect(locked.ok).toBe(true);
     const { table, typed } = await catalog.loadLockedTable(b.versionId);
     expect(table.columns).toEqual({ usubjid: ["S-1", "S-2"], age: ["55", "45"] });

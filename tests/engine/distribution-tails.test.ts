@@ -16,7 +16,7 @@ interface Tails {
   normal: (Case & { z: number })[];
 }
 
-const tails = JSON.parse(readFileSync("tests/reference/values/distribution-tails.json", "utf8")) as Tails;
+const tails = JSON.parse(readFileSync("tests/reference/tails/distribution-tails.json", "utf8")) as Tails;
 const TOLERANCE = 1e-12;
 
 

@@ -27,11 +27,12 @@ function file(name: string, text: string): string {
   return path;
 }
 
-const KEYS = ["n", "excluded", "rank", "dfResidual", "coefficients", "robustSE", "fit", "observations", "tests", "vif"];
+const KEYS = ["n", "excluded", "rank", "dfResidual", "coefficients", "covariance", "robustSE", "fit", "observations", "tests", "vif"];
 
 describe("headless rerun command", () => {
   it("answers the contract on reference cases (R values, relative 1e-8 / p 1e-6)", async () => {
-    const cases = ["trial-ancova", "warpbreaks-interaction", "mtcars-missing"];
+    // strong-effect: p-values near 1e-28 must reach the JSON as R computes them, not as 0
+    const cases = ["trial-ancova", "warpbreaks-interaction", "mtcars-missing", "strong-effect"];
     const runs = await Promise.all(
       cases.map((c) => runCli(["fit", "--data", join(REF, "data", `${c}.csv`), "--model", join(REF, "models", `${c}.json`)])),
     );
@@ -41,9 +42,27 @@ describe("headless rerun command", () => {
       const out = JSON.parse(run.stdout);
       const ref = JSON.parse(readFileSync(join(REF, "values", `${cases[k]}.json`), "utf8"));
       for (const key of KEYS) expect(out, key).toHaveProperty(key);
-      for (const key of ["adjustedMeans", "contrasts"]) expect(out, key).toHaveProperty(key);
+      for (const key of ["adjustedMeans", "adjustedMeansGrid", "contrasts"]) expect(out, key).toHaveProperty(key);
       expect(out.tests).toHaveProperty("brownForsythe");
-      expect(Object.keys(out.coefficients[0])).toEqual(["name", "estimate", "se", "statistic", "p", "lower", "upper"]);
+      expect(Object.keys(out.coefficients[0])).toEqual(["name", "estimate", "se", "statistic", "p", "lower", "upper", "seScale"]);
+      expect(out.coefficients.every((c: { seScale: string }) => c.seScale === "response")).toBe(true);
+      expect(out.contrasts.every((c: { seScale: string }) => c.seScale === "response")).toBe(true);
+      // log-likelihood and AIC (stats::logLik, AIC), the covariance matrix (stats::vcov) and the
+      // grid the adjusted means average over (emmeans::ref_grid)
+      expectClose(out.fit.logLik, ref.fit.logLik, 1e-8, `${cases[k]} logLik`);
+      expectClose(out.fit.aic, ref.fit.aic, 1e-8, `${cases[k]} AIC`);
+      expect(out.covariance.names).toEqual(out.coefficients.map((c: { name: string }) => c.name));
+      ref.vcov.forEach((row: number[], i: number) => expectAllClose(out.covariance.matrix[i], row, 1e-8, `${cases[k]} vcov row ${i}`));
+      expect(out.adjustedMeansGrid.weighting).toBe(ref.adjustedMeans.weighting);
+      ref.adjustedMeans.grid.covariates.forEach((v: { variable: string; value: number }, i: number) =>
+        expectClose(out.adjustedMeansGrid.covariates[i].value, v.value, 1e-8, `${cases[k]} grid ${v.variable}`),
+      );
+      expectAllClose(
+        out.adjustedMeansGrid.cells.map((cell: { weight: number }) => cell.weight).sort(),
+        ref.adjustedMeans.grid.cells.map((cell: { weight: number }) => cell.weight).sort(),
+        1e-8,
+        `${cases[k]} grid weights`,
+      );
       expect(Object.keys(out.observations[0])).toEqual([
         "row", "id", "fitted", "residual", "leverage", "studentizedInternal", "studentizedExternal", "cooksDistance", "dffits", "dfbetas",
       ]);
@@ -107,6 +126,12 @@ describe("headless rerun command", () => {
     expectClose(out.fit.deviance, ref.fit.deviance, 1e-6, "deviance");
     expectAllClose(out.observations.map((o: { pearson: number }) => o.pearson), ref.observations.pearson, 1e-6, "Pearson", 1e-2);
     expect(out.marginalEffects.contrasts.map((k: { measure: string }) => k.measure)).toEqual(["risk difference", "risk ratio", "odds ratio"]);
+    // the scale of each SE: coefficients on the link scale, ratios on the log scale
+    expect(out.coefficients.every((k: { seScale: string }) => k.seScale === "link (logit)")).toBe(true);
+    expect(out.marginalEffects.contrasts.map((k: { seScale: string }) => k.seScale)).toEqual(["response", "log", "log"]);
+    expect(out.marginalEffects.grid).toMatchObject({ kind: "rows", n: ref.n });
+    expect(out.marginalEffects.robustVariance).toEqual({ applies: true });
+    ref.vcov.forEach((row: number[], i: number) => expectAllClose(out.covariance.matrix[i], row, 1e-6, `vcov row ${i}`));
     expect(sep.code).toBe(2);
     expect(sep.stderr.trim().split("\n")).toHaveLength(1);
     expect(sep.stderr).toMatch(/^error: complete separation: the estimates for "x" diverge/);

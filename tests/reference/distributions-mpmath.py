@@ -1,5 +1,5 @@
 """Adds a 50-digit mpmath value beside each of R's tail probabilities in
-tests/reference/values/distribution-tails.json (written by distributions.R).
+tests/reference/tails/distribution-tails.json (written by distributions.R).
 
 Run from the repository root after the R script:  python3 tests/reference/distributions-mpmath.py
 """
@@ -7,7 +7,7 @@ import json
 import mpmath as mp
 
 mp.mp.dps = 50
-PATH = "tests/reference/values/distribution-tails.json"
+PATH = "tests/reference/tails/distribution-tails.json"
 
 
 def t_upper(t, df):

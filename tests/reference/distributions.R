@@ -10,6 +10,7 @@
 
 suppressPackageStartupMessages(library(jsonlite))
 root <- "tests/reference"
+dir.create(file.path(root, "tails"), showWarnings = FALSE)
 keep <- function(p) is.finite(p) && p >= 1e-300
 
 t_cases <- list()
@@ -40,4 +41,4 @@ out <- list(
   source = paste("R", getRversion(), "stats::pt, pf, pchisq, pnorm with lower.tail = FALSE"),
   t = t_cases, f = f_cases, chisq = chisq_cases, normal = normal_cases)
 writeLines(toJSON(out, auto_unbox = TRUE, digits = NA, pretty = FALSE),
-           file.path(root, "values", "distribution-tails.json"))
+           file.path(root, "tails", "distribution-tails.json"))

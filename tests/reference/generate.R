@@ -179,8 +179,20 @@ reference_values <- function(name, spec, d, source, means_weighting = "equal") {
     }
     model_based <- emm_summary(NULL)
     hc3 <- emm_summary(vcovHC(fit, type = "HC3"))
+    # the grid emmeans averages over: covariates at their means, cells of the other factors
+    # with equal weights or weights proportional to their frequencies over all arms
+    g <- ref_grid(fit)@grid
+    cont_names <- vapply(cont, function(t) t$variable, "")
+    grid_covariates <- lapply(intersect(cont_names, names(g)), function(v) list(variable = v, value = unique(g[[v]])))
+    other_factors <- setdiff(vapply(Filter(function(t) is.factor(dd[[t$variable]]), prep$mains), function(t) t$variable, ""), arm)
+    grid_cells <- if (length(other_factors) == 0) list(list(levels = character(0), weight = 1)) else {
+      agg <- aggregate(g$.wgt., by = g[other_factors], FUN = sum)
+      wts <- if (means_weighting == "proportional") agg$x / sum(agg$x) else rep(1 / nrow(agg), nrow(agg))
+      lapply(seq_len(nrow(agg)), function(i) list(levels = I(vapply(other_factors, function(f) as.character(agg[[f]][i]), "")), weight = wts[i]))
+    }
     adjusted <- list(weighting = means_weighting, means = model_based$means, contrasts = model_based$contrasts,
-                     hc3Means = hc3$means, hc3Contrasts = hc3$contrasts)
+                     hc3Means = hc3$means, hc3Contrasts = hc3$contrasts,
+                     grid = list(covariates = grid_covariates, factors = I(other_factors), cells = grid_cells))
   } else adjusted <- NULL
 
   n_terms <- length(attr(terms(fit), "term.labels"))
@@ -193,6 +205,20 @@ reference_values <- function(name, spec, d, source, means_weighting = "equal") {
       vif_rows <- lapply(seq_along(v), function(i) list(term = names(v)[i], gvif = num(v[i]), df = 1, adjusted = sqrt(num(v[i]))))
     }
   }
+  # predictor-wise GVIF (each variable with the terms of the variables it interacts with);
+  # car gives it for unweighted linear models only
+  vif_predictor_rows <- NULL
+  if (n_terms >= 2 && is.null(w)) {
+    model_vars <- unique(c(vapply(prep$mains, function(t) t$variable, "")))
+    v <- suppressWarnings(suppressMessages(car::vif(fit, type = "predictor")))
+    rows <- if (is.data.frame(v)) {
+      lapply(seq_len(nrow(v)), function(i) list(predictor = rownames(v)[i], gvif = v[i, 1], df = v[i, 2], adjusted = v[i, 3]))
+    } else {
+      preds <- all.vars(formula(fit)[-2])
+      lapply(seq_along(v), function(i) list(predictor = preds[i], gvif = num(v[i]), df = 1, adjusted = sqrt(num(v[i]))))
+    }
+    vif_predictor_rows <- Filter(function(r) r$predictor %in% model_vars, rows)
+  }
 
   spec$reset_skip <- NULL
   model_path <- file.path(root, "models", paste0(name, ".json"))
@@ -202,6 +228,8 @@ reference_values <- function(name, spec, d, source, means_weighting = "equal") {
               n = n, rank = fit$rank, dfResidual = fit$df.residual, excluded = nrow(d) - n,
               coefficients = coefficients, robustSE = robust, fit = fitstats, observations = observations,
               tests = tests, vif = if (is.null(vif_rows)) NA else vif_rows,
+              vifByPredictor = if (is.null(vif_predictor_rows)) NA else vif_predictor_rows,
+              vcov = lapply(seq_len(ncol(vcov(fit))), function(i) num(vcov(fit)[i, ])),
               adjustedMeans = if (is.null(adjusted)) NA else adjusted)
   writeLines(toJSON(out, auto_unbox = TRUE, digits = NA, na = "null", pretty = FALSE),
              file.path(root, "values", paste0(name, ".json")))
@@ -298,6 +326,27 @@ run_case("invented-offset", data.frame(y = y, x1 = x1, x2 = x2, off = off),
        list(interaction = list("x1", "x2"))), offset = "off"),
   "invented data (R set.seed(7)); lm with offset")
 
+# 10. treatment by an uncentred baseline (mean about 50): the term-wise GVIF of the arm is large
+# without any collinearity; the predictor-wise GVIF is not (car::vif(type = "predictor"))
+run_case("trial-arm-by-baseline", trial,
+  list(response = "chg", family = "gaussian", terms = list(list(variable = "arm", reference = "Placebo"),
+       list(variable = "base"), list(variable = "age"), list(variable = "sex"), list(interaction = list("arm", "base"))),
+       id = "subject", treatment = "arm"),
+  "invented trial data (R set.seed(20261202)); lm with an arm-by-baseline interaction, car::vif by term and by predictor")
+
+# 11. clear effects on many rows: t about 10 to 20 on about 1200 df, so t² < df and p-values far
+# below 1e-15 must come out as R computes them (2 * pt(-|t|, df)), not as one minus a number near
+# one (invented; seeded)
+set.seed(11)
+ns <- 1200
+s_arm <- rep(c("Control", "Active"), each = ns / 2)
+s_x <- round(runif(ns, 0, 10), 2)
+s_y <- round(1 + 0.45 * (s_arm == "Active") + 0.05 * s_x + rnorm(ns, 0, 0.5), 4)
+run_case("strong-effect", data.frame(subject = sprintf("E%02d", seq_len(ns)), arm = s_arm, x = s_x, y = s_y),
+  list(response = "y", family = "gaussian", terms = list(list(variable = "arm", reference = "Control"), list(variable = "x")),
+       id = "subject", treatment = "arm"),
+  "invented data (R set.seed(11)); lm with p-values far below 1e-15 (summary.lm, emmeans)")
+
 # ---- generalized linear models -------------------------------------------------------------
 # R's glm with its influence functions, MASS::glm.nb for the negative binomial, MASS's profile
 # intervals (confint), sandwich::vcovHC, car::vif, and emmeans counterfactual grids for the
@@ -357,26 +406,28 @@ glm_reference_values <- function(name, spec, d, source) {
     partialResiduals = lapply(seq_len(ncol(partial)), function(j) num(partial[, j])))
 
   test_kind <- if (fam == "quasipoisson") "F" else "Chisq"
-  # glm() with a fixed-theta negative.binomial family would estimate a dispersion in anova;
-  # the negative binomial likelihood has dispersion 1
-  nb_disp <- if (fam == "negative-binomial") 1 else NULL
-  lrt <- function(big) {
+  # Nested-model tests against a larger model: anova.glm (for quasi-Poisson its F test takes the
+  # dispersion and residual df of the larger model), and for the negative binomial
+  # MASS::anova.negbin, which re-estimates theta in the larger model (likelihood-ratio statistic
+  # from the two log-likelihoods, each at its own theta).
+  nested <- function(big) {
+    if (fam == "negative-binomial") {
+      a <- anova(fit, big)
+      return(list(statistic = num(a[2, "LR stat."]), df = num(a[2, "   df"]), p = num(a[2, "Pr(Chi)"])))
+    }
     a <- anova(fit, big, test = test_kind)
-    stat <- if (fam == "quasipoisson") a$F[2] else a$Deviance[2]
-    list(statistic = stat, df = a$Df[2], p = a[2, ncol(a)])
+    list(statistic = if (fam == "quasipoisson") a$F[2] else a$Deviance[2], df = a$Df[2], p = a[2, ncol(a)])
   }
   refit <- function(f) if (fam == "negative-binomial") {
-    glm(f, family = negative.binomial(fit$theta), data = dd, weights = .w, control = ctl)
+    glm.nb(f, data = dd, weights = .w, control = ctl)
   } else update(fit, f, data = dd, control = ctl)
   mains <- prep$mains
   cont <- Filter(function(t) is.numeric(dd[[t$variable]]) && !isTRUE(t$categorical), mains)
-  base_fit <- if (fam == "negative-binomial") refit(prep$formula) else fit
   linearity <- lapply(cont, function(t) {
     v <- t$variable
     dd[[paste0(".sq.", v)]] <<- (dd[[v]] - mean(dd[[v]]))^2
     big <- refit(update(prep$formula, as.formula(paste0(". ~ . + `.sq.", v, "`"))))
-    a <- anova(base_fit, big, test = test_kind, dispersion = nb_disp)
-    list(term = paste(v, "squared"), statistic = if (fam == "quasipoisson") a$F[2] else a$Deviance[2], df = a$Df[2], p = a[2, ncol(a)])
+    c(list(term = paste(v, "squared")), nested(big))
   })
   smooths <- lapply(cont, function(t) {
     v <- t$variable
@@ -405,9 +456,7 @@ glm_reference_values <- function(name, spec, d, source) {
     others <- setdiff(vapply(mains, function(t) t$variable, ""), arm)
     if (length(others) > 0) {
       one <- function(cvs) {
-        big <- refit(update(prep$formula, as.formula(paste(". ~ . +", paste0("`", arm, "`:`", cvs, "`", collapse = " + ")))))
-        a <- anova(base_fit, big, test = test_kind, dispersion = nb_disp)
-        list(statistic = if (fam == "quasipoisson") a$F[2] else a$Deviance[2], df = a$Df[2], p = a[2, ncol(a)])
+        nested(refit(update(prep$formula, as.formula(paste(". ~ . +", paste0("`", arm, "`:`", cvs, "`", collapse = " + "))))))
       }
       homogeneity <- list(joint = one(others), byCovariate = lapply(others, function(cv) c(list(term = paste(arm, "by", cv)), one(cv))))
     }
@@ -423,7 +472,11 @@ glm_reference_values <- function(name, spec, d, source) {
     # log ratio of standardized means (risk or rate ratio) and log odds ratio by the delta method
     lrr <- summary(contrast(regrid(e, transform = "log"), method = "trt.vs.ctrl", ref = ref, adjust = "none"))
     lor <- if (fam == "binomial") summary(contrast(regrid(e, transform = "logit"), method = "trt.vs.ctrl", ref = ref, adjust = "none")) else NULL
-    # the misspecification-robust variance of Ye, Shao, Yi and Zhao (2023), written out in R
+    # the misspecification-robust variance of Ye, Shao, Yi and Zhao (2023), written out in R; it
+    # rests on the residuals averaging to zero within each arm, which a canonical link with an
+    # intercept and no prior weights guarantees (logit binomial, log Poisson and quasi-Poisson)
+    ye_applies <- ((fam == "binomial" && (is.null(link) || link == "logit")) || fam %in% c("poisson", "quasipoisson")) &&
+      is.null(spec$weights) && !isFALSE(spec$intercept)
     y <- fit$y
     preds <- sapply(lev, function(l) { nd <- dd; nd[[arm]] <- factor(l, levels = lev); contrasts(nd[[arm]]) <- contrasts(dd[[arm]]); predict(fit, nd, type = "response") })
     pi <- as.numeric(table(dd[[arm]])[lev]) / n
@@ -441,13 +494,14 @@ glm_reference_values <- function(name, spec, d, source) {
     m <- colMeans(preds)
     marginal <- list(
       means = lapply(seq_len(K), function(a) list(level = lev[a], estimate = s[[est_col]][a], se = s$SE[a],
-                                                 lower = s$asymp.LCL[a], upper = s$asymp.UCL[a], robustSe = sqrt(V[a, a]))),
+                                                 lower = s$asymp.LCL[a], upper = s$asymp.UCL[a], robustSe = if (ye_applies) sqrt(V[a, a]) else NA)),
       differences = lapply(seq_len(nrow(ct)), function(i) list(label = as.character(ct$contrast[i]), estimate = ct$estimate[i], se = ct$SE[i],
                                                            p = ct$p.value[i])),
       logRatio = lapply(seq_len(nrow(lrr)), function(i) list(estimate = lrr$estimate[i], se = lrr$SE[i])),
       logOddsRatio = if (is.null(lor)) NA else lapply(seq_len(nrow(lor)), function(i) list(estimate = lor$estimate[i], se = lor$SE[i])),
-      robustDifferenceSe = lapply(setdiff(seq_len(K), ref), function(a) sqrt(V[a, a] + V[ref, ref] - 2 * V[a, ref])),
-      robustLogRatioSe = lapply(setdiff(seq_len(K), ref), function(a) {
+      robustApplies = ye_applies,
+      robustDifferenceSe = if (!ye_applies) NA else lapply(setdiff(seq_len(K), ref), function(a) sqrt(V[a, a] + V[ref, ref] - 2 * V[a, ref])),
+      robustLogRatioSe = if (!ye_applies) NA else lapply(setdiff(seq_len(K), ref), function(a) {
         g <- rep(0, K); g[a] <- 1 / m[a]; g[ref] <- -1 / m[ref]; sqrt(drop(t(g) %*% V %*% g)) }))
   }
   vif_rows <- NA
@@ -464,7 +518,8 @@ glm_reference_values <- function(name, spec, d, source) {
               smooths = if (length(smooths) == 0) NA else smooths,
               hosmerLemeshow = if (is.null(hl)) NA else hl,
               homogeneity = if (is.null(homogeneity)) NA else homogeneity,
-              vif = vif_rows, marginal = if (is.null(marginal)) NA else marginal)
+              vif = vif_rows, marginal = if (is.null(marginal)) NA else marginal,
+              vcov = lapply(seq_len(ncol(vcov(fit))), function(i) num(vcov(fit)[i, ])))
   writeLines(toJSON(out, auto_unbox = TRUE, digits = NA, na = "null", pretty = FALSE),
              file.path(root, "values", paste0(name, ".json")))
   cat("wrote", name, "\n")
@@ -525,3 +580,23 @@ run_glm_case("glm-warpbreaks-weighted", wb,
   list(response = "breaks", family = "poisson", terms = list(list(variable = "wool"), list(variable = "tension", reference = "L")),
        weights = "w"),
   "R datasets::warpbreaks with invented prior weights; weighted glm Poisson")
+ep <- MASS::epil[MASS::epil$period == 4, c("subject", "y", "trt", "base", "age")]
+ep$trt <- as.character(ep$trt)
+run_glm_case("glm-epil-quasipoisson", ep,
+  list(response = "y", family = "quasipoisson", terms = list(list(variable = "trt", reference = "placebo"),
+       list(variable = "base"), list(variable = "age")), id = "subject", treatment = "trt"),
+  "MASS::epil (Thall and Vail 1990), fourth period; glm quasi-Poisson, anova.glm F tests, emmeans counterfactuals")
+run_glm_case("glm-epil-negbin", ep,
+  list(response = "y", family = "negative-binomial", terms = list(list(variable = "trt", reference = "placebo"),
+       list(variable = "base"), list(variable = "age")), id = "subject", treatment = "trt"),
+  "MASS::epil (Thall and Vail 1990), fourth period; MASS::glm.nb, anova.negbin with theta re-estimated")
+# a rate ratio of ten: Wald p-values near 1e-200 (summary.glm: 2 * pnorm(-|z|)); invented, seeded
+set.seed(12)
+np_ <- 80
+p_arm <- rep(c("Control", "Active"), each = np_ / 2)
+p_x <- round(rnorm(np_), 2)
+p_y <- rpois(np_, exp(log(6) + log(10) * (p_arm == "Active") + 0.2 * p_x))
+run_glm_case("glm-strong-effect", data.frame(subject = sprintf("P%02d", seq_len(np_)), arm = p_arm, x = p_x, y = p_y),
+  list(response = "y", family = "poisson", terms = list(list(variable = "arm", reference = "Control"), list(variable = "x")),
+       id = "subject", treatment = "arm"),
+  "invented data (R set.seed(12)); glm Poisson with Wald p-values near 1e-200")

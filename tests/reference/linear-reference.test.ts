@@ -7,6 +7,7 @@ import { readFileSync, readdirSync } from "node:fs";
 import { join } from "node:path";
 import { describe, expect, it } from "vitest";
 import { fitLinear as fitModel, type LinearModelResult } from "~/engine";
+import { defaultChecks, evaluateChecks } from "~/engine/checks";
 import { readCsvText } from "~/engine-io/read-csv";
 import { expectAllClose, expectClose } from "./compare";
 
@@ -42,11 +43,16 @@ interface RCase {
   };
   tests: Record<string, RTest & { byCovariate?: (RTest & { covariate: string })[] }>;
   vif: { term: string; gvif: number; df: number; adjusted: number }[] | null;
+  vifByPredictor: { predictor: string; gvif: number; df: number; adjusted: number }[] | null;
+  /** stats::vcov, by rows. */
+  vcov: number[][];
   adjustedMeans: {
     means: { level: string; estimate: number; se: number; lower: number; upper: number }[];
     contrasts: { label: string; estimate: number; se: number; statistic: number; p: number; lower: number; upper: number }[];
     hc3Means: { level: string; estimate: number; se: number; lower: number; upper: number }[];
     hc3Contrasts: { label: string; estimate: number; se: number; statistic: number; p: number; lower: number; upper: number }[];
+    /** emmeans::ref_grid: covariate values and the weights of the other factors' cells. */
+    grid: { covariates: { variable: string; value: number }[]; factors: string[]; cells: { levels: string[]; weight: number }[] };
   } | null;
 }
 
@@ -160,6 +166,38 @@ describe.each(cases.map((c) => [c.case, c] as const))("reference case %s", (_nam
     });
   });
 
+  it('predictor-wise GVIF (car::vif(type = "predictor")) and the collinearity check that reads it', () => {
+    if (!c.vifByPredictor) return;
+    expect(result.vifByPredictor.map((v) => v.predictor)).toEqual(c.vifByPredictor.map((v) => v.predictor));
+    c.vifByPredictor.forEach((v, i) => {
+      expectClose(result.vifByPredictor[i].gvif, v.gvif, EST, `predictor GVIF ${v.predictor}`);
+      expect(result.vifByPredictor[i].df).toBe(v.df);
+      expectClose(result.vifByPredictor[i].adjusted, v.adjusted, EST, `predictor GVIF^(1/2df) ${v.predictor}`);
+    });
+    const gvif = evaluateChecks(result, defaultChecks(result.spec.treatment !== undefined)).find((k) => k.key === "gvif");
+    const threshold = Math.sqrt(5);
+    expect(gvif?.outcome).toBe(c.vifByPredictor.some((v) => v.adjusted > threshold) ? "finding" : "within");
+  });
+
+  it("coefficient covariance matrix (stats::vcov)", () => {
+    expect(result.covariance.length).toBe(c.vcov.length);
+    c.vcov.forEach((row, i) => expectAllClose(result.covariance[i], row, EST, `vcov row ${i}`));
+  });
+
+  it("adjusted-means grid: covariate values and cell weights (emmeans::ref_grid)", () => {
+    const g = c.adjustedMeans?.grid;
+    if (!g) return;
+    const ours = result.adjustedMeansGrid;
+    expect(ours).toBeTruthy();
+    if (!ours) return;
+    expect(ours.covariates.map((v) => v.variable)).toEqual(g.covariates.map((v) => v.variable));
+    g.covariates.forEach((v, i) => expectClose(ours.covariates[i].value, v.value, EST, `grid value of ${v.variable}`));
+    expect(ours.factors).toEqual(g.factors);
+    const weightOf = new Map(ours.cells.map((cell) => [cell.levels.join("|"), cell.weight]));
+    expect(ours.cells.filter((cell) => cell.weight > 0).length).toBe(g.cells.filter((cell) => cell.weight > 0).length);
+    g.cells.forEach((cell) => expectClose(weightOf.get(cell.levels.join("|")), cell.weight, EST, `weight of cell ${cell.levels.join(", ")}`));
+  });
+
   it("adjusted means and contrasts against the reference arm, model-based and HC3 (emmeans)", () => {
     const am = c.adjustedMeans;
     if (!am) {
@@ -193,5 +231,18 @@ describe.each(cases.map((c) => [c.case, c] as const))("reference case %s", (_nam
       expectClose(ours.hc3.p, h.p, PVAL, `HC3 contrast p ${k.label}`);
       expectClose(ours.hc3.upper, h.upper, EST, `HC3 contrast upper ${k.label}`);
     });
+  });
+});
+
+describe("collinearity check on a treatment by uncentred baseline interaction (reference: car::vif, case trial-arm-by-baseline)", () => {
+  const c = cases.find((k) => k.case === "trial-arm-by-baseline");
+  it("the term-wise GVIF of the arm is severe in R, the predictor-wise one is not, and the check follows the latter", () => {
+    expect(c).toBeDefined();
+    if (!c?.vif || !c.vifByPredictor) throw new Error("reference case lacks GVIF values");
+    const threshold = Math.sqrt(5);
+    expect(c.vif.find((v) => v.term === "arm")?.adjusted).toBeGreaterThan(threshold);
+    expect(c.vifByPredictor.every((v) => v.adjusted < threshold)).toBe(true);
+    const result = rerun(c);
+    expect(evaluateChecks(result, defaultChecks(true)).find((k) => k.key === "gvif")?.outcome).toBe("within");
   });
 });

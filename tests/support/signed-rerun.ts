@@ -54,7 +54,7 @@ export async function makeSignedRerun(): Promise<SignedRerun> {
   if (!v.ok) throw new Error(`The planned model does not validate: ${JSON.stringify(v.errors)}`);
   const plannedModelId = await plans.savePlannedModel(people.priya, studyId, versionId, 1, null, v.model);
   await plans.submitForApproval(people.priya, studyId, versionId, 2);
-  await plans.approvePlanVersion(people.tomas, studyId, versionId);
+  await plans.approvePlanVersion({ ...people.tomas, signedInAt: new Date().toISOString() }, studyId, versionId);
 
   const rerunId = await reruns.startRerun(people.priya, studyId, { plannedModelId, datasetVersionId, options: { variant: "planned" } });
   await drain();

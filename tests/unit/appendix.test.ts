@@ -226,7 +226,7 @@ describe("the Word appendix of a signed rerun", () => {
     const responder = { ...linear, key: "responder", title: "Responders at week 12", spec: { ...linear.spec, response: "resp", family: "binomial" as const }, checks: linear.checks.filter((c) => ["cooks_distance", "leverage"].includes(c.key)), sensitivity: [] };
     const modelId = await plans.savePlannedModel(s.people.priya, s.studyId, next, v2.version.revision, null, responder);
     await plans.submitForApproval(s.people.priya, s.studyId, next, v2.version.revision + 1);
-    await plans.approvePlanVersion(s.people.tomas, s.studyId, next);
+    await plans.approvePlanVersion({ ...s.people.tomas, signedInAt: new Date().toISOString() }, s.studyId, next);
     const ids: string[] = [];
     for (const plannedModelId of [linear.id, modelId]) ids.push(await reruns.startRerun(s.people.priya, s.studyId, { plannedModelId, datasetVersionId: s.datasetVersionId, options: { variant: "planned" } }));
     while (await runOneJob()) {

@@ -101,7 +101,7 @@ describe("notification e-mail", () => {
   });
 
   it("waits in the outbox while SMTP is down: the action succeeds, the message is tried again and sent once the server is back", async () => {
-    await plans.approvePlanVersion(tomas, studyId, versionId);
+    await plans.approvePlanVersion({ ...tomas, signedInAt: new Date().toISOString() }, studyId, versionId);
     const datasetVersionId = (await listLockedVersions(studyId))[0].versionId;
     const model = (await plans.getPlanVersion(studyId, versionId)).models[0];
     rerunId = await reruns.startRerun(priya, studyId, { plannedModelId: model.id, datasetVersionId, options: { variant: "planned" } });

@@ -82,8 +82,8 @@ describe("analysis plan", () => {
     // A second editor working from the old revision is refused, not silently overwritten.
     await expect(plans.savePlannedModel(tomas, studyId, versionId, 1, modelId, { ...v.model, title: "Overwritten" })).rejects.toThrow(/Someone else saved this plan version/);
     await plans.submitForApproval(priya, studyId, versionId, 2);
-    await expect(plans.approvePlanVersion(priya, studyId, versionId)).rejects.toThrow(/two-person rule/);
-    await plans.approvePlanVersion(tomas, studyId, versionId);
+    await expect(plans.approvePlanVersion({ ...priya, signedInAt: new Date().toISOString() }, studyId, versionId)).rejects.toThrow(/two-person rule/);
+    await plans.approvePlanVersion({ ...tomas, signedInAt: new Date().toISOString() }, studyId, versionId);
     const { version } = await plans.getPlanVersion(studyId, versionId);
     expect(version.status).toBe("approved");
     expect(version.approvedBy).toBe(tomas.id);
@@ -188,7 +188,7 @@ describe("generalized linear planned models on the demo study", () => {
     countsId = await plans.savePlannedModel(priya, studyId, v, 1, null, form({ key: "flares", title: "Flare rate", response: "flares", family: "poisson", offset: "logexp" }, ["stratum", "region"], ["negative_binomial", "quasi_poisson"]));
     responderId = await plans.savePlannedModel(priya, studyId, v, 2, null, form({ key: "responder", title: "Responders at week 12", response: "resp", family: "binomial" }, ["base", "stratum", "region", "sex", "age"], []));
     await plans.submitForApproval(priya, studyId, v, 3);
-    await plans.approvePlanVersion(tomas, studyId, v);
+    await plans.approvePlanVersion({ ...tomas, signedInAt: new Date().toISOString() }, studyId, v);
   });
 
   it("reports the planted overdispersion of the flare counts as a finding, at R's Pearson χ²/df", async () => {
@@ -233,7 +233,7 @@ describe("a planned model that cannot be estimated as planned", () => {
     const pv = await plans.getPlanVersion(studyId, next);
     await plans.savePlannedModel(priya, studyId, next, pv.version.revision, m.id, broken);
     await plans.submitForApproval(priya, studyId, next, pv.version.revision + 1);
-    await plans.approvePlanVersion(tomas, studyId, next);
+    await plans.approvePlanVersion({ ...tomas, signedInAt: new Date().toISOString() }, studyId, next);
     const id = await reruns.startRerun(priya, studyId, { plannedModelId: m.id, datasetVersionId, options: { variant: "planned" } });
     await drain();
     const r = await reruns.getRerun(studyId, id);
@@ -252,24 +252,24 @@ describe("a planned model that cannot be estimated as planned", () => {
 describe("what a viewer without access to subjects reads", () => {
   it("names no subject in check texts", async () => {
     const { rerunView } = await import("~/.server/reruns/rerun-view.server");
+    const { redaction } = await import("~/.server/redaction.server");
     const all = await reruns.listReruns(studyId);
     const primary = all.find((r) => r.kind === "primary" && r.status === "completed" && r.modelKey === "primary")!;
     const { doc } = await reruns.getRerun(studyId, primary.id);
-    const hidden = JSON.stringify(rerunView(doc!, false));
+    const hidden = JSON.stringify(rerunView(doc!, redaction(false, [doc])));
     expect(hidden).not.toMatch(/QMT301-\d{4}/);
-    expect(JSON.stringify(rerunView(doc!, true))).toContain("QMT301-0217");
+    expect(JSON.stringify(rerunView(doc!, redaction(true, [doc])))).toContain("QMT301-0217");
   });
 });
 
 describe("finding texts for the deviation log", () => {
-  it("say 'a subject' instead of the subject's code for viewers without access to subjects", async () => {
-    const { withoutSubjectNames } = await import("~/.server/reruns/rerun-view.server");
+  it("name subjects by rank instead of by code for viewers without access to subjects", async () => {
+    const { redactionForReruns } = await import("~/.server/redaction.server");
     const log = await findings.deviationLog(studyId);
-    const texts = log.flatMap((d) => (d.finding ? [d.finding.summary] : []));
-    expect(texts.some((t) => /QMT301-\d{4}/.test(t))).toBe(true);
-    for (const t of texts) expect(withoutSubjectNames(t)).not.toMatch(/QMT301-\d{4}/);
-    expect(withoutSubjectNames("23 of 422 subjects exceed the threshold; the most extreme is subject QMT301-0217.")).toBe(
-      "23 of 422 subjects exceed the threshold; the most extreme is a subject.",
-    );
+    const redact = await redactionForReruns(false, log.flatMap((d) => (d.rerun ? [d.rerun.id] : [])));
+    const texts = log.flatMap((d) => (d.finding ? [{ key: d.finding.checkKey, text: d.finding.summary }, { key: d.finding.checkKey, text: d.finding.statistic ?? "" }] : []));
+    expect(texts.some((t) => /QMT301-\d{4}/.test(t.text))).toBe(true);
+    for (const t of texts) expect(redact.text(t.text, t.key)).not.toMatch(/QMT301-\d{4}/);
+    expect(texts.some((t) => /ranked 1/.test(redact.text(t.text, t.key)))).toBe(true);
   });
 });

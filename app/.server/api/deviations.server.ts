@@ -1,32 +1,30 @@
 /**
  * API: the study's deviation log. People who may read the log (deviation.view) get all of it;
  * readers of published reports get the deviations of published reruns only. Subject
- * identifiers are given only to roles that may see subject-level rows.
+ * identifiers are given only to people who see subjects (`seesSubjects`, redaction.server.ts).
  */
 import { inArray } from "drizzle-orm";
 import { db, t } from "../db/index.server";
 import { deviationLog } from "../reruns/findings.server";
-import type { RerunDocument } from "../reruns/reruns.server";
 import { requireStudyForPrincipal } from "../study-access.server";
-import { subjectRedactor } from "./redact";
+import { seesSubjects } from "../permissions.server";
+import { redactionForReruns } from "../redaction.server";
 import type { Body, DeviationsAnswer } from "./schemas";
 import type { ApiPrincipal } from "./tokens.server";
 
 export async function listDeviations(p: ApiPrincipal, studyId: string): Promise<Body<typeof DeviationsAnswer>> {
-  const { study, allowed } = await requireStudyForPrincipal(p, studyId, "report.view");
+  const access = await requireStudyForPrincipal(p, studyId, "report.view");
+  const { study, allowed } = access;
   const everything = allowed.has("deviation.view");
-  const withSubjectIds = allowed.has("dataset.rows");
   const log = await deviationLog(study.id);
   const rerunIds = [...new Set(log.flatMap((d) => (d.rerun ? [d.rerun.id] : [])))];
   const reruns = rerunIds.length
-    ? await db.select({ id: t.reruns.id, publishedAt: t.reruns.publishedAt, resultJson: t.reruns.resultJson }).from(t.reruns).where(inArray(t.reruns.id, rerunIds))
+    ? await db.select({ id: t.reruns.id, publishedAt: t.reruns.publishedAt }).from(t.reruns).where(inArray(t.reruns.id, rerunIds))
     : [];
   const published = new Set(reruns.filter((r) => r.publishedAt !== null).map((r) => r.id));
   const shown = log.filter((d) => everything || (d.rerun !== null && published.has(d.rerun.id)));
-  const redact = subjectRedactor(
-    reruns.filter((r) => r.resultJson && shown.some((d) => d.rerun?.id === r.id)).map((r) => JSON.parse(r.resultJson!) as RerunDocument),
-  );
-  const txt = (s: string, key?: string | null) => (withSubjectIds ? s : redact.text(s, key));
+  const redact = await redactionForReruns(seesSubjects(access), shown.flatMap((d) => (d.rerun ? [d.rerun.id] : [])));
+  const txt = (s: string, key?: string | null) => redact.text(s, key);
   const body: Body<typeof DeviationsAnswer> = {
     deviations: shown.map((d) => ({
       id: d.id,
@@ -49,9 +47,5 @@ export async function listDeviations(p: ApiPrincipal, studyId: string): Promise<
         : null,
     })),
   };
-  if (!withSubjectIds) {
-    const leaked = redact.leak(body);
-    if (leaked !== null) throw new Error(`A deviation log for a reader without subject-level access still names a subject: ${leaked.slice(0, 80)}`);
-  }
-  return body;
+  return redact.assertClean(body, "A deviation log");
 }

@@ -2,8 +2,8 @@
  * API: reruns with their status, results summary, checks, findings, signatures and
  * sensitivity comparison. The guard is the report permission; people who may also read
  * reruns (rerun.view) see every rerun, the others (sponsor readers) only published ones, as
- * on the report pages. Subject identifiers are given only to roles that may see subject-level
- * rows (dataset.rows); everyone else reads ranks and counts.
+ * on the report pages. Subject identifiers are given only to people who see subjects
+ * (`seesSubjects`); everyone else reads ranks and counts (redaction.server.ts).
  */
 import { and, desc, eq, inArray } from "drizzle-orm";
 import { db, t } from "../db/index.server";
@@ -11,7 +11,8 @@ import { findingsOf, signaturesOf } from "../reruns/findings.server";
 import { checkView, reportedContrasts } from "../reruns/rerun-view.server";
 import { sensitivityReruns, type Rerun, type RerunDocument } from "../reruns/reruns.server";
 import { requireStudyForPrincipal } from "../study-access.server";
-import { subjectRedactor, type Redactor } from "./redact";
+import { seesSubjects } from "../permissions.server";
+import { redactionFor, type Redaction } from "../redaction.server";
 import { ApiError } from "./respond.server";
 import type { Body, RerunAnswer, RerunsAnswer } from "./schemas";
 import type { ApiPrincipal } from "./tokens.server";
@@ -22,8 +23,8 @@ const finite = (x: number | null | undefined): number | null => (typeof x === "n
 
 /** Who may see what of a study's reruns, by the permission table. */
 async function rerunAccess(p: ApiPrincipal, studyId: string) {
-  const { study, allowed } = await requireStudyForPrincipal(p, studyId, "report.view");
-  return { study, everyRerun: allowed.has("rerun.view"), withSubjectIds: allowed.has("dataset.rows") };
+  const access = await requireStudyForPrincipal(p, studyId, "report.view");
+  return { study: access.study, everyRerun: access.allowed.has("rerun.view"), withSubjectIds: seesSubjects(access) };
 }
 
 async function rerunRows(studyId: string, only?: string) {
@@ -148,20 +149,19 @@ function resultsOut(doc: RerunDocument): NonNullable<Body<typeof RerunAnswer>["r
   };
 }
 
-function checksOut(doc: RerunDocument, withSubjectIds: boolean, redact: Redactor): Body<typeof RerunAnswer>["checks"] {
+function checksOut(doc: RerunDocument, redact: Redaction): Body<typeof RerunAnswer>["checks"] {
   return doc.checks.map((c) => {
-    const v = checkView(c, withSubjectIds);
-    const top = (c.flagged ?? []).slice(0, 5);
+    const v = checkView(c, redact);
     return {
       key: c.key,
       label: c.label,
       outcome: c.outcome,
-      statistic: withSubjectIds ? c.statistic : redact.text(c.statistic, c.key),
+      statistic: v.statistic,
       threshold: c.threshold,
-      summary: withSubjectIds ? c.summary : redact.text(c.summary, c.key),
-      remedy: c.remedy,
+      summary: v.summary,
+      remedy: v.remedy,
       flaggedCount: v.flaggedCount,
-      flagged: top.map((f) => ({ rank: f.rank, value: finite(f.value), ...(withSubjectIds ? { subjectId: f.id ?? `row ${f.row}` } : {}) })),
+      flagged: v.flagged.map((f) => ({ rank: f.rank, value: finite(f.value), ...(redact.seesSubjects ? { subjectId: f.who } : {}) })),
     };
   });
 }
@@ -180,12 +180,15 @@ export async function getStudyRerun(p: ApiPrincipal, studyId: string, rerunId: s
     found.row.kind === "primary" ? sensitivityReruns(rerunId) : Promise.resolve([]),
   ]);
   const shownChildren = children.filter((c) => everyRerun || c.publishedAt !== null).map((c) => ({ row: c, doc: parseDoc(c) }));
-  const redact = subjectRedactor([doc, ...shownChildren.map((c) => c.doc)].filter((d): d is RerunDocument => d !== null));
-  const txt = (s: string, key?: string | null) => (withSubjectIds ? s : redact.text(s, key));
+  const redact = await redactionFor(withSubjectIds, [
+    { doc, datasetVersionId: found.row.datasetVersionId },
+    ...shownChildren.map((c) => ({ doc: c.doc, datasetVersionId: c.row.datasetVersionId })),
+  ]);
+  const txt = (s: string, key?: string | null) => redact.text(s, key);
   const body: Body<typeof RerunAnswer> = {
     rerun: { ...found.out, label: found.out.label === null ? null : txt(found.out.label), failureReason: found.out.failureReason === null ? null : txt(found.out.failureReason) },
     results: doc ? resultsOut(doc) : null,
-    checks: doc ? checksOut(doc, withSubjectIds, redact) : [],
+    checks: doc ? checksOut(doc, redact) : [],
     findings: findings.map((f) => ({
       id: f.id,
       kind: f.kind,
@@ -213,11 +216,7 @@ export async function getStudyRerun(p: ApiPrincipal, studyId: string, rerunId: s
       contrasts: d ? reportedContrasts(d).map((c) => ({ label: c.label, estimate: finite(c.estimate), lower: finite(c.lower), upper: finite(c.upper), p: finite(c.p) })) : [],
     })),
   };
-  if (!withSubjectIds) {
-    const leaked = redact.leak(body);
-    if (leaked !== null) throw new Error(`A rerun answer for a reader without subject-level access still names a subject: ${leaked.slice(0, 80)}`);
-  }
-  return body;
+  return redact.assertClean(body, "A rerun answer");
 }
 
 

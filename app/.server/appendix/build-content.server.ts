@@ -20,6 +20,7 @@ import { getRerun, sensitivityReruns, type RerunDocument } from "../reruns/rerun
 import { rerunTable } from "../reruns/what-if.server";
 import { getStudyOr404 } from "../studies.server";
 import { NARRATIVE_SECTIONS, SECTION_TITLES, type AppendixContent, type AppendixSection, type Block, type NarrativeSection } from "~/components/appendix-content";
+import { redaction, type Redaction } from "../redaction.server";
 import { methodsProse } from "./methods";
 import { currentNarratives, type Narrative } from "./narratives.server";
 
@@ -28,25 +29,14 @@ export type AppendixScope = { kind: "rerun"; rerunId: string } | { kind: "plan_v
 /** Figure width and plot height in CSS pixels: fits the printed text width at 2× resolution. */
 const FIGURE_SIZE = { width: 560, height: 230 };
 
-/**
- * Subject ids stay out of the appendix: it is read by sponsor readers, who see influential
- * subjects by count and rank only. Removes "(subject X)", "(row N)" and "the most extreme is …".
- */
-export function withoutSubjects(text: string): string {
-  return text
-    .replace(/;?\s*the most extreme is (subject \S+?|row \d+)(?=\.|$)/g, "")
-    .replace(/\s*\((subject [^)]*|row \d+)\)/g, "")
-    .trim();
-}
-
 const OUTCOME_WORDS = { within: "Within plan", finding: "Finding", not_computed: "Not computed" } as const;
 
 /** The outcome of a check in words, with the count of subjects beyond the threshold where there is one. */
-export function outcomeInWords(c: CheckOutcome, n: number): string {
-  if (c.outcome === "not_computed") return `Not computed. ${withoutSubjects(c.summary).replace(/^Not computed:?\s*/i, "")}`.trim();
+export function outcomeInWords(c: CheckOutcome, n: number, redact: Redaction): string {
+  if (c.outcome === "not_computed") return `Not computed. ${redact.countOnly(c.summary).replace(/^Not computed:?\s*/i, "")}`.trim();
   const count = c.flagged?.length ?? 0;
   if (c.flagged) return c.outcome === "finding" ? `Finding: ${count} of ${n} subjects beyond the threshold` : "Within plan: no subject beyond the threshold";
-  return `${OUTCOME_WORDS[c.outcome]}: ${withoutSubjects(c.summary).replace(/\.$/, "").replace(/^The test/, "the test")}`;
+  return `${OUTCOME_WORDS[c.outcome]}: ${redact.countOnly(c.summary).replace(/\.$/, "").replace(/^The test/, "the test")}`;
 }
 
 /** What each figure shows, for its caption and its alt text. */
@@ -102,6 +92,11 @@ interface RerunPart {
   planned: Awaited<ReturnType<typeof getPlannedModel>>;
   labels: Record<string, string | null>;
   table: { columns: Record<string, string[]>; rowNumbers: number[] };
+  /**
+   * Subject ids stay out of the appendix: it is read by sponsor readers, who see influential
+   * subjects by count and rank only (redaction.server.ts, for a viewer who does not see subjects).
+   */
+  redact: Redaction;
 }
 
 /** The signed primary reruns of the scope, in plan order; 404 or 409 with a sentence otherwise. */
@@ -135,6 +130,11 @@ async function loadPart(studyId: string, rerunId: string): Promise<RerunPart> {
     loadLockedTable(r.dataset.versionId),
   ]);
   const labels = Object.fromEntries((locked.columns as ColumnMeta[]).map((c) => [c.name, c.label]));
+  const sensitivity = children
+    .filter((c) => c.status === "completed" && c.resultJson && c.publishedAt)
+    .map((c) => ({ label: c.label ?? "Sensitivity analysis", prespecified: c.prespecified, doc: JSON.parse(c.resultJson!) as RerunDocument }));
+  const idColumn = r.doc.result.spec.id;
+  const redact = redaction(false, [r.doc, ...sensitivity.map((x) => x.doc)], idColumn ? (locked.table.columns[idColumn] ?? []) : []);
   return {
     rerunId,
     modelKey: r.model.key,
@@ -146,12 +146,11 @@ async function loadPart(studyId: string, rerunId: string): Promise<RerunPart> {
     signatures,
     findings,
     otherDeviations: log.filter((d) => d.rerun?.id === rerunId && !d.findingId),
-    sensitivity: children
-      .filter((c) => c.status === "completed" && c.resultJson && c.publishedAt)
-      .map((c) => ({ label: c.label ?? "Sensitivity analysis", prespecified: c.prespecified, doc: JSON.parse(c.resultJson!) as RerunDocument })),
+    sensitivity: sensitivity.map((x) => ({ ...x, label: redact.text(x.label) })),
     planned,
     labels,
     table: rerunTable(r.doc, locked.table),
+    redact,
   };
 }
 
@@ -193,7 +192,7 @@ function figureBlocks(p: RerunPart, next: ReturnType<typeof counter>): Block[] {
     }
     const words = FIGURE_WORDS[w.figure];
     const related = p.doc.checks.filter((c) => words.checks.includes(c.key));
-    const checkWords = related.map((c) => `${c.label}: ${outcomeInWords(c, p.doc.result.n).toLowerCase()}`).join("; ");
+    const checkWords = related.map((c) => `${c.label}: ${outcomeInWords(c, p.doc.result.n, p.redact).toLowerCase()}`).join("; ");
     const caption = `${words.caption}${w.term ? ` for ${p.labels[w.term] ? `${p.labels[w.term]} (${w.term})` : w.term}` : ""}, ${p.modelTitle}`;
     const alt =
       `${caption}: ${words.shows}, for ${p.doc.result.n} subjects. A healthy picture shows ${words.healthy}. ` +
@@ -333,7 +332,7 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
       number: next.table(),
       caption: `Diagnostic checks of the plan and their outcome, ${p.modelTitle}`,
       columns: [{ label: "Check" }, { label: "Statistic" }, { label: "Threshold" }, { label: "Outcome" }],
-      rows: p.doc.checks.map((c) => [c.label, withoutSubjects(c.statistic), c.threshold, outcomeInWords(c, p.doc.result.n)]),
+      rows: p.doc.checks.map((c) => [c.label, p.redact.countOnly(c.statistic), c.threshold, outcomeInWords(c, p.doc.result.n, p.redact)]),
       note: "Subjects beyond a threshold are counted, not named. Thresholds as the plan states them (n subjects, p coefficients).",
     });
   }
@@ -348,11 +347,11 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
     const rows = [
       ...p.findings.map((f) => [
         CHECK_BY_KEY.get(f.checkKey as never)?.label ?? (f.kind === "not_estimable" ? "Estimability" : f.checkKey),
-        withoutSubjects(f.summary),
+        p.redact.countOnly(f.summary),
         f.assessment ? CATEGORIES[f.assessment.category] : "Not assessed",
         f.assessment ? IMPACTS[f.assessment.impact] : "—",
         f.assessment ? (ACTIONS[f.assessment.action as keyof typeof ACTIONS] ?? f.assessment.action) : "—",
-        f.assessment?.rationale ?? "—",
+        f.assessment ? p.redact.text(f.assessment.rationale, f.checkKey) : "—",
         f.assessment ? `${f.assessment.recordedByName ?? "unknown"}, ${utc(f.assessment.recordedAt)}` : "—",
       ]),
       ...p.otherDeviations.map((d) => [
@@ -361,7 +360,7 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
         CATEGORIES[d.category],
         IMPACTS[d.impact],
         ACTIONS[d.action as keyof typeof ACTIONS] ?? d.action,
-        d.rationale,
+        p.redact.text(d.rationale),
         `${d.recordedByName ?? "unknown"}, ${utc(d.recordedAt)}`,
       ]),
     ];
@@ -437,6 +436,8 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
   }
   sections.push({ key: "sensitivity", title: SECTION_TITLES.sensitivity, blocks: [...sensitivity, ...narrativeBlock("sensitivity", notes.get("sensitivity"))] });
 
+  // Everything but the medical writer's own narrative is checked for subject ids before it leaves.
+  for (const p of parts) p.redact.assertClean([facts, sections.map((x) => x.blocks.filter((b) => b.kind !== "narrative"))], "The appendix");
   return {
     scope,
     studyId: study.id,

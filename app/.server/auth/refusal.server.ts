@@ -9,6 +9,8 @@ export const REFUSAL_MESSAGES = {
     "The sign-in response was signed with a key Plumbline does not trust: it did not come from your organisation's identity provider. Sign in again from this page; if this keeps happening, tell your administrator.",
   replayed:
     "That sign-in response was already used, or it does not answer a sign-in started here, so Plumbline refused it. Start again with the button below.",
+  "not-this-browser":
+    "That sign-in response answers a sign-in that was not started in this browser, or it took longer than fifteen minutes, so Plumbline refused it: a sign-in started elsewhere could sign you in as someone else. Start again with the button below.",
   expired:
     "The sign-in response is outside its validity period: it expired, or the clocks of the sign-in service and Plumbline disagree. Sign in again; if it keeps happening, tell your administrator about the clock difference.",
   "wrong-audience":

@@ -10,6 +10,8 @@ import { db, t, writeTransaction } from "../db/index.server";
 
 /** Per validation: the request ids this validation itself removed from the table. */
 const claims = new AsyncLocalStorage<Set<string>>();
+/** Per sign-in start: the request ids it saved (so the browser that started it can be bound to them). */
+const saves = new AsyncLocalStorage<Set<string>>();
 
 export class DatabaseCacheProvider implements CacheProvider {
   constructor(readonly expiryMs: number) {}
@@ -20,6 +22,7 @@ export class DatabaseCacheProvider implements CacheProvider {
       await tx.delete(t.samlRequests).where(lt(t.samlRequests.createdAt, now - this.expiryMs));
       return tx.insert(t.samlRequests).values({ id: key, value, createdAt: now }).onConflictDoNothing().returning();
     });
+    if (rows.length) saves.getStore()?.add(key);
     return rows.length ? { value: rows[0].value, createdAt: rows[0].createdAt } : null;
   }
 
@@ -49,4 +52,14 @@ export async function withClaims<T>(work: () => Promise<T>): Promise<{ result: T
   const claimed = new Set<string>();
   const result = await claims.run(claimed, work);
   return { result, claimed };
+}
+
+/** Runs the start of a sign-in and reports the request ids it saved (whether it returned or threw). */
+export async function withSavedIds<T>(work: () => Promise<T>): Promise<{ outcome: { value: T } | { thrown: unknown }; saved: Set<string> }> {
+  const saved = new Set<string>();
+  try {
+    return { outcome: { value: await saves.run(saved, work) }, saved };
+  } catch (thrown) {
+    return { outcome: { thrown }, saved };
+  }
 }

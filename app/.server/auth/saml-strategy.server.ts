@@ -28,6 +28,8 @@ export interface SamlVerifyParams {
   profile: Profile;
   /** RelayState as it came back (unverified: treat as a hint, e.g. a return path). */
   relayState: string | null;
+  /** The id of our request this response answered (checked: we made it and it was outstanding). */
+  requestId: string;
   request: Request;
 }
 
@@ -108,11 +110,11 @@ export class SamlStrategy<User> extends Strategy<User, SamlVerifyParams> {
     if (typeof samlResponse !== "string" || samlResponse.length === 0) {
       throw new SignInRefused("other", "the request carried no SAMLResponse");
     }
-    const profile = await this.validate(samlResponse);
-    return this.verify({ profile, relayState: typeof relayState === "string" ? relayState : null, request });
+    const { profile, requestId } = await this.validate(samlResponse);
+    return this.verify({ profile, requestId, relayState: typeof relayState === "string" ? relayState : null, request });
   }
 
-  private async validate(samlResponse: string): Promise<Profile> {
+  private async validate(samlResponse: string): Promise<{ profile: Profile; requestId: string }> {
     const xml = Buffer.from(samlResponse, "base64").toString("utf8");
     const seen = await peek(xml);
     const refuse = (code: ConstructorParameters<typeof SignInRefused>[0], reason: string): SignInRefused =>
@@ -139,6 +141,6 @@ export class SamlStrategy<User> extends Strategy<User, SamlVerifyParams> {
         throw refuse("wrong-issuer", `issuer ${JSON.stringify(issuer)}, expected ${JSON.stringify(this.options.idpIssuer)}`);
       }
     }
-    return profile;
+    return { profile, requestId: seen.inResponseTo };
   }
 }

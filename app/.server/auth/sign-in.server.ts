@@ -5,15 +5,18 @@
  */
 import type { Profile } from "@node-saml/node-saml";
 import { sql } from "drizzle-orm";
-import { redirect } from "react-router";
+import { eq } from "drizzle-orm";
+import { createCookie, redirect } from "react-router";
 import { Authenticator } from "remix-auth";
 import { appendAudit, SYSTEM_ACTOR, type Actor } from "../audit.server";
-import { config } from "../config.server";
+import { config, servedOverHttps } from "../config.server";
 import { db, t } from "../db/index.server";
 import { actorOf, recordSignIn, type Person, type VerifiedIdentity } from "../people.server";
-import { endSession, getCurrentUser, safeReturnTo, startSession } from "../session.server";
+import { confirmSignIn, endSession, getCurrentUser, safeReturnTo, startSession } from "../session.server";
+import { withReauthOutcome } from "../signatures.server";
 import { isRefusalCode, REFUSAL_MESSAGES, SignInRefused, type RefusalCode } from "./refusal.server";
-import { NAME_ID_FORMAT, SamlSetupError, samlSetup } from "./saml-setup.server";
+import { withSavedIds } from "./saml-cache.server";
+import { NAME_ID_FORMAT, REQUEST_ID_LIFETIME_MS, SamlSetupError, samlSetup } from "./saml-setup.server";
 import { SamlStrategy } from "./saml-strategy.server";
 
 export interface SamlSignIn {
@@ -21,6 +24,53 @@ export interface SamlSignIn {
   nameId: string;
   sessionIndex?: string;
   returnTo: string;
+  /** Set when this was a fresh sign-in confirming the person of an existing session (before signing). */
+  reauth: { sessionId: string } | null;
+}
+
+/**
+ * Binds a SAML request to the browser that started it (login CSRF): the request id, and for a
+ * fresh sign-in before signing the session it must confirm, in a signed, short-lived cookie.
+ * The assertion consumer service accepts only a response to the request named in this
+ * browser's cookie. The identity provider posts the response from its own site, so over HTTPS
+ * the cookie is SameSite=None (and Secure); over plain HTTP (local use, where the identity
+ * provider is on the same site) it is Lax.
+ */
+const requestCookie = createCookie("plumbline_saml_request", {
+  httpOnly: true,
+  path: "/auth/saml",
+  sameSite: servedOverHttps ? "none" : "lax",
+  secure: servedOverHttps,
+  maxAge: Math.floor(REQUEST_ID_LIFETIME_MS / 1000),
+  secrets: [config.SESSION_SECRET],
+});
+
+export interface RequestBinding {
+  id: string;
+  reauth: { personId: string; sessionId: string } | null;
+}
+
+/** The Set-Cookie value that binds this browser to a request it starts (exported for tests that start requests themselves). */
+export function bindRequest(binding: RequestBinding): Promise<string> {
+  return requestCookie.serialize(binding);
+}
+
+function isBinding(value: unknown): value is RequestBinding {
+  if (!value || typeof value !== "object") return false;
+  const v = value as Record<string, unknown>;
+  const reauth = v.reauth as Record<string, unknown> | null | undefined;
+  return typeof v.id === "string" && (reauth === null || (typeof reauth === "object" && typeof reauth?.personId === "string" && typeof reauth?.sessionId === "string"));
+}
+
+/** A fresh sign-in before signing that the identity provider answered for another person. */
+class DifferentPerson extends Error {
+  constructor(
+    readonly personId: string,
+    readonly claimedNameId: string,
+    readonly returnTo: string,
+  ) {
+    super(`re-authentication as ${claimedNameId} for another person's session`);
+  }
 }
 
 /** A single-valued attribute arrives as a string, a multi-valued one as an array (or a string when it has one value). */
@@ -56,9 +106,21 @@ function auth(): Authenticator<SamlSignIn> {
   const setup = samlSetup();
   const strategy = new SamlStrategy<SamlSignIn>(
     { saml: setup.signIn, freshSaml: setup.freshSignIn, trustedCert: setup.trustedCert, idpIssuer: setup.idpIssuer },
-    async ({ profile, relayState }) => {
-      const person = await recordSignIn(identityFromProfile(profile, setup.adminGroup, setup.idpIssuer));
-      return { person, nameId: profile.nameID, sessionIndex: profile.sessionIndex, returnTo: safeReturnTo(relayState) };
+    async ({ profile, requestId, relayState, request }) => {
+      const bound: unknown = await requestCookie.parse(request.headers.get("Cookie"));
+      if (!isBinding(bound) || bound.id !== requestId) {
+        throw new SignInRefused("not-this-browser", `the response answers request ${requestId}, which this browser did not start (or its cookie expired)`, profile.nameID ?? null, requestId);
+      }
+      const identity = identityFromProfile(profile, setup.adminGroup, setup.idpIssuer);
+      const returnTo = safeReturnTo(relayState);
+      if (bound.reauth) {
+        // A fresh sign-in must confirm the person already signed in: same identity provider, same subject.
+        const [signedIn] = await db.select().from(t.people).where(eq(t.people.id, bound.reauth.personId)).limit(1);
+        const same = signedIn?.identitySource === "saml" && signedIn.externalId === identity.externalId && (signedIn.identityIssuer ?? identity.issuer) === identity.issuer;
+        if (!same) throw new DifferentPerson(bound.reauth.personId, identity.externalId, returnTo);
+      }
+      const person = await recordSignIn(identity);
+      return { person, nameId: profile.nameID, sessionIndex: profile.sessionIndex, returnTo, reauth: bound.reauth ? { sessionId: bound.reauth.sessionId } : null };
     },
   );
   authenticator = new Authenticator<SamlSignIn>().use(strategy);
@@ -101,18 +163,23 @@ export async function startSamlSignIn(request: Request): Promise<Response> {
   const returnTo = safeReturnTo(url.searchParams.get("returnTo"));
   const status = await identityProviderStatus();
   if (!status.answering) return redirect(`/sign-in?error=unavailable&returnTo=${encodeURIComponent(returnTo)}`);
-  const fresh = url.searchParams.get("fresh") === "1" ? "&fresh=1" : "";
-  const start = new Request(`${url.origin}${url.pathname}?returnTo=${encodeURIComponent(returnTo)}${fresh}`, { method: "GET" });
-  try {
-    await auth().authenticate("saml", start);
-  } catch (thrown) {
-    if (thrown instanceof Response) return thrown;
-    if (thrown instanceof SamlSetupError) {
-      console.error(thrown.message);
-      return redirect("/sign-in?error=misconfigured");
-    }
-    throw thrown;
+  const fresh = url.searchParams.get("fresh") === "1";
+  // A fresh sign-in of someone signed in confirms that person (before a signature); otherwise it is an ordinary sign-in.
+  const current = fresh ? await getCurrentUser(request) : null;
+  const start = new Request(`${url.origin}${url.pathname}?returnTo=${encodeURIComponent(returnTo)}${fresh ? "&fresh=1" : ""}`, { method: "GET" });
+  const { outcome, saved } = await withSavedIds(() => auth().authenticate("saml", start));
+  const thrown = "thrown" in outcome ? outcome.thrown : null;
+  if (thrown instanceof Response) {
+    const [id] = saved;
+    if (!id) throw new Error("The SAML strategy redirected without saving its request id.");
+    thrown.headers.append("Set-Cookie", await bindRequest({ id, reauth: current ? { personId: current.id, sessionId: current.sessionId } : null }));
+    return thrown;
   }
+  if (thrown instanceof SamlSetupError) {
+    console.error(thrown.message);
+    return redirect("/sign-in?error=misconfigured");
+  }
+  if (thrown) throw thrown;
   throw new Error("The SAML strategy did not redirect to the identity provider.");
 }
 
@@ -126,14 +193,47 @@ export async function finishSamlSignIn(request: Request): Promise<Response> {
   try {
     signIn = await auth().authenticate("saml", request);
   } catch (error) {
+    if (error instanceof DifferentPerson) return refuseDifferentPerson(error);
     if (error instanceof SignInRefused) return refuseSignIn(error);
     if (error instanceof Response) throw error;
     const reason = error instanceof Error ? error.message : String(error);
     if (error instanceof SamlSetupError) console.error(reason);
     return refuseSignIn(new SignInRefused(error instanceof SamlSetupError ? "misconfigured" : "other", reason));
   }
-  const cookie = await startSession(request, signIn.person.id, { nameId: signIn.nameId, sessionIndex: signIn.sessionIndex });
-  return redirect(signIn.returnTo, { headers: { "Set-Cookie": cookie } });
+  // The request is answered: its binding cookie is of no further use (sent after the session cookie).
+  const cleared = await requestCookie.serialize("", { maxAge: 0 });
+  const headers = new Headers();
+  const saml = { nameId: signIn.nameId, sessionIndex: signIn.sessionIndex };
+  if (signIn.reauth && (await confirmSignIn(signIn.reauth.sessionId, signIn.person.id, saml))) {
+    await appendAudit({
+      actor: actorOf(signIn.person),
+      action: "auth.reauthenticate",
+      entityType: "person",
+      entityId: signIn.person.id,
+      detail: "fresh sign-in at the identity provider confirmed the same person (before signing)",
+    });
+    headers.append("Set-Cookie", cleared);
+    return redirect(withReauthOutcome(signIn.returnTo, "done"), { headers });
+  }
+  headers.append("Set-Cookie", await startSession(request, signIn.person.id, saml));
+  headers.append("Set-Cookie", cleared);
+  return redirect(signIn.returnTo, { headers });
+}
+
+/**
+ * A fresh sign-in answered for another person than the one signed in: refused and audited,
+ * and the existing session stays exactly as it was (still signed in as before, not fresh).
+ */
+async function refuseDifferentPerson(refusal: DifferentPerson): Promise<Response> {
+  const [person] = await db.select({ id: t.people.id, displayName: t.people.displayName }).from(t.people).where(eq(t.people.id, refusal.personId)).limit(1);
+  await appendAudit({
+    actor: person ? actorOf(person) : SYSTEM_ACTOR,
+    action: "auth.reauth_refused",
+    entityType: "person",
+    entityId: refusal.personId,
+    detail: `the identity provider confirmed ${refusal.claimedNameId.slice(0, 200)}, not the person signed in; the session was kept unchanged`,
+  });
+  return redirect(withReauthOutcome(refusal.returnTo, "different-person"));
 }
 
 /**

@@ -14,6 +14,7 @@ import type { ColumnMeta } from "./column-summary";
 import { primeArrowColumnsCache, textOf, writeArrowColumns, type StoredColumns } from "./arrow-columns.server";
 import { summariseChanges, type ChangeSummary } from "./diff";
 import { formatOf, parseDatasetFile, type DatasetFormat, type ParseOptions } from "./parse.server";
+import { requireFreshSignIn, signatureEvidence, type Signer } from "../signatures.server";
 import { maskValue, screenColumns } from "./screen";
 import { isStorageError } from "../storage-errors.server";
 import { auditUploadRefusal, storageRefusal } from "./upload.server";
@@ -726,8 +727,12 @@ export async function removeFlaggedColumn(actor: Actor, studyId: string, hitId: 
   }
 }
 
-/** Locks a draft version: refused while a screen hit is unresolved or when the stored bytes no longer match their hash. */
-export async function lockVersion(actor: Actor, studyId: string, versionId: string): Promise<ActionResult<{ sha256: string }>> {
+/**
+ * Locks a draft version: refused while a screen hit is unresolved or when the stored bytes no
+ * longer match their hash. Locking is an electronic signature (`signatures.server.ts`): it
+ * needs a fresh sign-in (else `SignatureRefused`) and records its meaning, name and time.
+ */
+export async function lockVersion(actor: Signer, studyId: string, versionId: string): Promise<ActionResult<{ sha256: string }>> {
   const row = await versionInStudy(studyId, versionId);
   if (!row) return { ok: false, message: "That dataset version is not in this study." };
   const { v, d } = row;
@@ -740,6 +745,7 @@ export async function lockVersion(actor: Actor, studyId: string, versionId: stri
     const columns = [...new Set(open.map((o) => o.column))];
     return { ok: false, message: `Resolve the identifier screen first: ${columns.map((c) => `"${c}"`).join(", ")} ${columns.length === 1 ? "is" : "are"} still flagged. Remove the column or record why it is not an identifier.` };
   }
+  requireFreshSignIn(actor);
   const actual = await sha256OfFile(absoluteStorePath(v.storedPath));
   if (actual !== v.sha256) return { ok: false, message: `The stored file of version ${v.version} no longer matches its SHA-256 (${v.sha256}); the store was changed outside Plumbline. Upload the file again.` };
   const lockedAt = isoNow();
@@ -755,7 +761,7 @@ export async function lockVersion(actor: Actor, studyId: string, versionId: stri
         entityId: v.id,
         studyId,
         before: { status: "draft" },
-        after: { status: "locked", dataset: d.name, version: v.version, sha256: v.sha256, rows: v.rowCount, lockedAt },
+        after: { status: "locked", dataset: d.name, version: v.version, sha256: v.sha256, rows: v.rowCount, lockedAt, signature: signatureEvidence("dataset", actor, lockedAt) },
       },
       tx,
     );

@@ -25,7 +25,7 @@ export async function seedDemoDataset(studyId: string): Promise<{ versionId: str
     const done = await recordNotIdentifier(actor, studyId, hit.id, DEMO_SUBJECT_CODE_RATIONALE);
     if (!done.ok) throw new Error(done.message);
   }
-  const locked = await lockVersion(actor, studyId, uploaded.versionId);
+  const locked = await lockVersion({ ...actor, signedInAt: new Date().toISOString() }, studyId, uploaded.versionId);
   if (!locked.ok) throw new Error(locked.message);
   return { versionId: uploaded.versionId, sha256: locked.sha256 };
 }

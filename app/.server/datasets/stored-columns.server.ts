@@ -8,7 +8,8 @@
  * `.cols` file removed. Each step can be interrupted and repeated: a rerun of the migration
  * finds the Arrow file already in place and only finishes the remaining steps. The original
  * bytes and their SHA-256 are never touched. Runs once at start-up for every such version, and
- * on demand when a version is read before the start-up pass reached it.
+ * on demand when a version is read before the start-up pass reached it (or when its Arrow file
+ * has gone missing). The same columns always give the same Arrow bytes.
  */
 import { existsSync } from "node:fs";
 import { eq, isNull, like, or } from "drizzle-orm";
@@ -39,8 +40,9 @@ export function storedColumnsFromParsed<P extends ParsedForStore>(parsed: P): St
   return { names, columns: cells.map((c, j) => typedColumnOf(c, columnMeta[j])), rowNumbers, columnMeta, dataset: dataset as Record<string, unknown> };
 }
 
-function isLegacy(v: VersionRow): boolean {
-  return v.parsedPath === null || v.parsedPath.endsWith(".cols");
+/** True when the version's Arrow file is still to be written: a former `.cols` path, or none in place. */
+function needsArrow(v: VersionRow): boolean {
+  return v.parsedPath === null || !v.parsedPath.endsWith(".arrow") || !existsSync(absoluteStorePath(v.parsedPath));
 }
 
 /** The cell text of a version in the former store: its `.cols` file, else its original bytes parsed again. */
@@ -123,8 +125,11 @@ export async function migrateStoredColumns(): Promise<{ migrated: number; failed
   return { migrated, failed };
 }
 
-/** The typed columns of a version, migrating it first when it is still in the former format. */
+/**
+ * The typed columns of a version, migrating it first when it is still in the former format (or
+ * rebuilding its Arrow file from the original bytes when that file has gone missing).
+ */
 export async function storedColumnsOf(v: VersionRow): Promise<StoredColumns> {
-  const relative = isLegacy(v) ? await migrateVersionColumns(v) : (v.parsedPath as string);
+  const relative = needsArrow(v) ? await migrateVersionColumns(v) : (v.parsedPath as string);
   return readArrowColumnsCached(absoluteStorePath(relative));
 }

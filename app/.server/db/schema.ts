@@ -308,6 +308,8 @@ export const auditEvents = sqliteTable(
     detail: text("detail"),
     prevHash: text("prev_hash").notNull(),
     hash: text("hash").notNull(),
+    /** HMAC-SHA256 with the audit key (kept outside the database) over the previous event's mac and this hash: see audit.server.ts. */
+    mac: text("mac"),
   },
   (t) => [index("audit_events_study").on(t.studyId), index("audit_events_action").on(t.action)],
 );

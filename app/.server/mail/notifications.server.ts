@@ -3,11 +3,15 @@
  * it announces and only queues rows in the outbox (outbox.server.ts sends them). The words are
  * study-level only: study code and title, plan and model titles, versions, counts and the names
  * of the staff involved. No subject identifier, data row, flagged case or estimate is ever put
- * in a message: the link leads to the page, where the reader's own permissions apply.
+ * in a message: the link leads to the page, where the reader's own permissions apply. Messages
+ * about a rerun are checked for its subject ids before they are queued (redaction.server.ts):
+ * e-mail leaves the app's permission checks, so it is held to the rule of readers without subjects.
  */
 import { and, eq, inArray } from "drizzle-orm";
 import { t, type DbOrTx } from "../db/index.server";
 import type { StudyRole } from "../db/schema";
+import { redaction } from "../redaction.server";
+import type { RerunDocument } from "../reruns/reruns.server";
 import { composeMessage } from "./compose";
 import { appLink, queueMail } from "./outbox.server";
 
@@ -54,6 +58,12 @@ async function nameOf(tx: DbOrTx, personId: string | null): Promise<string> {
   if (!personId) return "Someone";
   const [p] = await tx.select({ name: t.people.displayName }).from(t.people).where(eq(t.people.id, personId)).limit(1);
   return p?.name ?? "Someone";
+}
+
+/** Refuses a message about a rerun that names one of its subjects. */
+function checkedForSubjects<T>(message: T, resultJson: string | null): T {
+  const doc = resultJson ? (JSON.parse(resultJson) as RerunDocument) : null;
+  return redaction(false, [doc]).assertClean(message, "A notification");
 }
 
 const utc = (iso: string): string => `${iso.slice(0, 16).replace("T", " ")} UTC`;
@@ -131,7 +141,7 @@ export async function notifyRerunAwaitsSignOff(tx: DbOrTx, input: { studyId: str
     studyId: input.studyId,
     linkPath,
     recipients,
-    message: composeMessage({
+    message: checkedForSubjects(composeMessage({
       subject: `${study.code}: rerun of “${row.m.title}” awaits sign-off`,
       heading: `A rerun of “${row.m.title}” awaits sign-off`,
       paragraphs: [
@@ -147,7 +157,7 @@ export async function notifyRerunAwaitsSignOff(tx: DbOrTx, input: { studyId: str
       ],
       link: { url: appLink(linkPath), label: "Open the rerun" },
       reason: `You receive this as a biostatistician on ${study.code} who may sign this rerun.`,
-    }),
+    }), row.r.resultJson),
   });
 }
 
@@ -169,7 +179,7 @@ export async function notifyReportPublished(tx: DbOrTx, input: { studyId: string
     studyId: input.studyId,
     linkPath,
     recipients: await sponsorReaders(tx, input.studyId),
-    message: composeMessage({
+    message: checkedForSubjects(composeMessage({
       subject: `${study.code}: a signed report is published`,
       heading: `The report of “${row.m.title}” is published`,
       paragraphs: [
@@ -184,7 +194,7 @@ export async function notifyReportPublished(tx: DbOrTx, input: { studyId: string
       ],
       link: { url: appLink(linkPath), label: "Read the report" },
       reason: `You receive this as a sponsor reader of ${study.code}.`,
-    }),
+    }), row.r.resultJson),
   });
 }
 

@@ -4,6 +4,7 @@
  * Any change after that is a new version, compared field by field with the one before.
  * Saves carry the revision they were made on; a save on an older revision is refused.
  */
+import { requireFreshSignIn, signatureEvidence, type Signer } from "../signatures.server";
 import { and, asc, desc, eq, inArray } from "drizzle-orm";
 import { data } from "react-router";
 import { z } from "zod";
@@ -212,14 +213,19 @@ async function awaiting(tx: DbOrTx, studyId: string, versionId: string) {
   return version;
 }
 
-/** Approval by a second biostatistician: neither the author nor anyone who edited the version. */
-export async function approvePlanVersion(actor: PersonActor, studyId: string, versionId: string) {
+/**
+ * Approval by a second biostatistician: neither the author nor anyone who edited the version.
+ * Approval is an electronic signature (`signatures.server.ts`): it needs a fresh sign-in (else
+ * `SignatureRefused`) and records its meaning, the approver's name and the time.
+ */
+export async function approvePlanVersion(actor: Signer, studyId: string, versionId: string) {
   return writeTransaction(async (tx) => {
     const v = await awaiting(tx, studyId, versionId);
     const editors = JSON.parse(v.editorIdsJson) as string[];
     if (v.authorId === actor.id || editors.includes(actor.id)) {
       throw new PlanConflict("You wrote or edited this version, so you cannot approve it: a second biostatistician who did neither must approve it (two-person rule).");
     }
+    requireFreshSignIn(actor);
     const at = isoNow();
     await tx.update(t.planVersions).set({ status: "approved", approvedBy: actor.id, approvedAt: at }).where(eq(t.planVersions.id, v.id));
     const older = await tx
@@ -231,7 +237,7 @@ export async function approvePlanVersion(actor: PersonActor, studyId: string, ve
       await tx.update(t.planVersions).set({ status: "superseded" }).where(eq(t.planVersions.id, o.id));
       await appendAudit({ actor, action: "plan.supersede", entityType: "plan_version", entityId: o.id, studyId, before: { status: "approved" }, after: { status: "superseded", by: v.id } }, tx);
     }
-    await appendAudit({ actor, action: "plan.approve", entityType: "plan_version", entityId: v.id, studyId, before: { status: "awaiting_approval" }, after: { status: "approved", approvedAt: at } }, tx);
+    await appendAudit({ actor, action: "plan.approve", entityType: "plan_version", entityId: v.id, studyId, before: { status: "awaiting_approval" }, after: { status: "approved", approvedAt: at, signature: signatureEvidence("plan", actor, at) } }, tx);
   });
 }
 

@@ -4,17 +4,15 @@
  * tables, the check outcomes, the findings with their assessments, the other deviations, the
  * sensitivity comparison, the signatures and the appendix, and never a subject-level row or a
  * subject id: influential subjects appear by count and rank only, and any subject id found in a
- * text (a check's statistic, a rationale someone typed) is withheld.
+ * text (a check's statistic, a rationale someone typed) is withheld (redaction.server.ts).
  */
 import { and, desc, eq, isNotNull, isNull } from "drizzle-orm";
 import { data } from "react-router";
-import { loadLockedTable } from "../datasets/catalog.server";
 import { db, t } from "../db/index.server";
 import { deviationLog, findingsOf, signaturesOf } from "../reruns/findings.server";
 import { reportedContrasts, rerunView } from "../reruns/rerun-view.server";
-import { getRerun, sensitivityReruns, type RerunDocument } from "../reruns/reruns.server";
-
-export const WITHHELD = "(id withheld)";
+import { redactionFor } from "../redaction.server";
+import { getRerun, rerunDocumentOf, sensitivityReruns, type RerunDocument } from "../reruns/reruns.server";
 
 export interface ReportListing {
   id: string;
@@ -59,54 +57,6 @@ export async function listReports(studyId: string): Promise<ReportListing[]> {
   );
 }
 
-/**
- * Replaces every known subject id in a text. Ids made of letters, digits, "_" and "-" are
- * matched as whole words (so "QMT301-0217" is found, and a number inside a statistic is left
- * alone); any other id is matched as it is written.
- */
-export function subjectIdRedactor(ids: Iterable<string>): (text: string) => string {
-  const words = new Set<string>();
-  const other: string[] = [];
-  for (const raw of ids) {
-    const id = raw.trim();
-    if (id.length === 0) continue;
-    if (/^[\p{L}\p{N}_-]+$/u.test(id)) words.add(id);
-    else other.push(id);
-  }
-  other.sort((a, b) => b.length - a.length);
-  return (text) => {
-    let out = text.replace(/[\p{L}\p{N}_-]+/gu, (w) => (words.has(w) ? WITHHELD : w));
-    for (const id of other) out = out.split(id).join(WITHHELD);
-    return out.replace(/subject \(id withheld\)/g, "a subject");
-  };
-}
-
-/** Every subject id the rerun's data holds: the rows it used and, when the locked file is at hand, every row's id. */
-async function subjectIds(doc: RerunDocument, datasetVersionId: string): Promise<Set<string>> {
-  const ids = new Set<string>();
-  for (const id of doc.result.observations.id) if (id) ids.add(id);
-  const idColumn = doc.result.spec.id;
-  if (idColumn) {
-    try {
-      const { table } = await loadLockedTable(datasetVersionId);
-      for (const id of table.columns[idColumn] ?? []) if (id) ids.add(id);
-    } catch {
-      // The ids of the rows used are enough to keep the report clean.
-    }
-  }
-  return ids;
-}
-
-/** A check's texts with each flagged subject named by rank ("the subject ranked 1"), then every other id withheld. */
-function checkTexts(doc: RerunDocument, key: string, redact: (s: string) => string): (s: string) => string {
-  const flagged = doc.checks.find((c) => c.key === key)?.flagged ?? [];
-  return (s) => {
-    let out = s;
-    for (const f of flagged) if (f.id) out = out.split(`subject ${f.id}`).join(`the subject ranked ${f.rank}`);
-    return redact(out);
-  };
-}
-
 export async function getReport(studyId: string, rerunId: string) {
   const notFound = () => data({ message: "There is no published report with this id in this study." }, { status: 404 });
   let r: Awaited<ReturnType<typeof getRerun>>;
@@ -117,8 +67,6 @@ export async function getReport(studyId: string, rerunId: string) {
   }
   if (!r.rerun.publishedAt || !r.doc) throw notFound();
   const doc = r.doc;
-  const redact = subjectIdRedactor(await subjectIds(doc, r.dataset.versionId));
-  const view = rerunView(doc, false);
   const primaryId = r.rerun.parentRerunId ?? r.rerun.id;
   const [findings, signatures, children, deviations, appendix] = await Promise.all([
     findingsOf(primaryId),
@@ -128,6 +76,10 @@ export async function getReport(studyId: string, rerunId: string) {
     latestAppendix(studyId, primaryId),
   ]);
   const published = children.filter((c) => c.publishedAt && c.resultJson);
+  // A report is for sponsor readers, whoever opens it: it never names a subject.
+  const redaction = await redactionFor(false, [{ doc, datasetVersionId: r.dataset.versionId }, ...published.map((c) => ({ doc: rerunDocumentOf(c), datasetVersionId: c.datasetVersionId }))]);
+  const redact = (s: string) => redaction.text(s);
+  const view = rerunView(doc, redaction);
   const comparison = [
     { id: r.rerun.id, label: r.rerun.kind === "primary" ? "Primary analysis as planned" : redact(r.rerun.label ?? "Sensitivity analysis"), prespecified: true, primary: true, contrasts: reportedContrasts(doc) },
     ...published.map((c) => ({
@@ -135,10 +87,10 @@ export async function getReport(studyId: string, rerunId: string) {
       label: redact(c.label ?? "Sensitivity analysis"),
       prespecified: c.prespecified,
       primary: false,
-      contrasts: reportedContrasts(JSON.parse(c.resultJson ?? "{}") as RerunDocument),
+      contrasts: reportedContrasts(rerunDocumentOf(c) as RerunDocument),
     })),
   ];
-  return {
+  const report = {
     rerun: {
       id: r.rerun.id,
       kind: r.rerun.kind,
@@ -164,34 +116,26 @@ export async function getReport(studyId: string, rerunId: string) {
       adjustedMeansWeighting: "adjustedMeansWeighting" in view ? view.adjustedMeansWeighting : null,
       contrasts: view.contrasts,
     },
-    checks: view.checks.map((c) => {
-      const say = checkTexts(doc, c.key, redact);
-      // The stored texts, so that a flagged subject reads "the subject ranked k" as in the findings.
-      const stored = doc.checks.find((x) => x.key === c.key) ?? c;
-      return {
-        key: c.key,
-        label: c.label,
-        outcome: c.outcome,
-        statistic: say(stored.statistic),
-        threshold: c.threshold,
-        summary: say(stored.summary),
-        remedy: redact(c.remedy),
-        flagged: c.flagged.map((f) => ({ rank: f.rank, value: f.value, who: `subject ranked ${f.rank}` })),
-        flaggedCount: c.flaggedCount,
-      };
-    }),
-    findings: findings.map((f) => {
-      const say = checkTexts(doc, f.checkKey, redact);
-      return {
-        id: f.id,
-        summary: say(f.summary),
-        statistic: f.statistic ? say(f.statistic) : null,
-        threshold: f.threshold,
-        assessment: f.assessment
-          ? { category: f.assessment.category, impact: f.assessment.impact, action: f.assessment.action, rationale: redact(f.assessment.rationale), by: f.assessment.recordedByName, at: f.assessment.recordedAt }
-          : null,
-      };
-    }),
+    checks: view.checks.map((c) => ({
+      key: c.key,
+      label: c.label,
+      outcome: c.outcome,
+      statistic: c.statistic,
+      threshold: c.threshold,
+      summary: c.summary,
+      remedy: c.remedy,
+      flagged: c.flagged,
+      flaggedCount: c.flaggedCount,
+    })),
+    findings: findings.map((f) => ({
+      id: f.id,
+      summary: redaction.text(f.summary, f.checkKey),
+      statistic: redaction.maybe(f.statistic, f.checkKey),
+      threshold: f.threshold,
+      assessment: f.assessment
+        ? { category: f.assessment.category, impact: f.assessment.impact, action: f.assessment.action, rationale: redaction.text(f.assessment.rationale, f.checkKey), by: f.assessment.recordedByName, at: f.assessment.recordedAt }
+        : null,
+    })),
     otherDeviations: deviations
       .filter((d) => d.finding === null && d.rerun?.id === primaryId)
       .map((d) => ({ id: d.id, category: d.category, impact: d.impact, action: d.action, rationale: redact(d.rationale), by: d.recordedByName, at: d.recordedAt })),
@@ -200,6 +144,7 @@ export async function getReport(studyId: string, rerunId: string) {
     appendix,
     caution: doc.caution,
   };
+  return redaction.assertClean(report, "A report");
 }
 
 export type Report = Awaited<ReturnType<typeof getReport>>;

@@ -1,13 +1,15 @@
 /**
  * The figures route's answers, kept for completed reruns: a stored result never changes, so a
  * figure's JSON (data shaped from the result, specification compiled to Vega) is built once per
- * result hash, figure, covariate and viewer kind, then served from memory. Bounded by size.
+ * result hash, figure, covariate and viewer kind, then served from memory. Bounded by size. An
+ * answer for a viewer without subjects is checked for subject ids before it is kept.
  */
 import { LRUCache } from "lru-cache";
 import { CAUTION } from "~/components/caution";
 import { figureSpec } from "~/components/figures/specs";
 import type { FigureKey } from "~/engine/checks";
 import { toVega } from "../figures/compile.server";
+import { redaction } from "../redaction.server";
 import { figureData, type FigureTable } from "./figure-data.server";
 import type { RerunDocument } from "./reruns.server";
 
@@ -31,7 +33,9 @@ export async function figureAnswer(req: FigureRequest, doc: RerunDocument, table
   const kept = answers.get(key);
   if (kept) return kept;
   const data = figureData(doc, req.figure, { term: req.term, withSubjectIds: req.withSubjectIds, table: await table() });
-  const body = JSON.stringify({ caution: CAUTION, spec: toVega(figureSpec(data, { width: "container", height: "container", inlineRows: false })), data });
+  const answer = { caution: CAUTION, spec: toVega(figureSpec(data, { width: "container", height: "container", inlineRows: false })), data };
+  redaction(req.withSubjectIds, [doc]).assertClean(answer, `The ${req.figure} figure`);
+  const body = JSON.stringify(answer);
   answers.set(key, body);
   return body;
 }

@@ -1,8 +1,8 @@
 /**
  * Findings, their assessments (each recorded as a deviation), deviations without a finding,
  * and the sign-off. A rerun is signed by a biostatistician who neither started it nor
- * assessed its findings, after every finding is assessed, within five minutes of a fresh
- * authentication at the identity provider; the signature publishes it to sponsor readers.
+ * assessed its findings, after every finding is assessed, under the signing rule of
+ * `signatures.server.ts` (fresh sign-in, meaning, name and time); the signature publishes it to sponsor readers.
  */
 import { and, asc, desc, eq, inArray, isNull } from "drizzle-orm";
 import { data } from "react-router";
@@ -11,6 +11,7 @@ import { appendAudit } from "../audit.server";
 import { db, isoNow, newId, t, writeTransaction, type DbOrTx } from "../db/index.server";
 import { notifyReportPublished, notifyRerunAwaitsSignOff } from "../mail/notifications.server";
 import type { PersonActor } from "../people.server";
+import { freshness, SIGNATURE_MEANINGS, type Signer } from "../signatures.server";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 
 export { ACTIONS, CATEGORIES, IMPACTS };
@@ -23,9 +24,7 @@ export const Assessment = z.object({
 });
 export type Assessment = z.infer<typeof Assessment>;
 
-export const SIGNATURE_MEANING = "Reviewed and approved";
-/** How recent the signer's authentication at the identity provider must be. */
-export const FRESH_SIGN_IN_MS = 5 * 60 * 1000;
+const SIGNATURE_MEANING = SIGNATURE_MEANINGS.rerun;
 
 export type Finding = typeof t.findings.$inferSelect;
 export type Deviation = typeof t.deviations.$inferSelect;
@@ -148,13 +147,10 @@ export async function canSign(person: { id: string; signedInAt: string }, rerunI
   if (r.startedBy === person.id || assessors.has(person.id)) {
     return { ok: false, reason: "You started this rerun or assessed its findings, so a second biostatistician must sign it (two-person rule)." };
   }
-  if (Date.now() - Date.parse(person.signedInAt) > FRESH_SIGN_IN_MS) {
-    return { ok: false, reauthenticate: true, reason: "Signing needs a fresh sign-in: you last authenticated more than 5 minutes ago." };
-  }
-  return { ok: true };
+  return freshness(person);
 }
 
-export async function signRerun(actor: PersonActor & { signedInAt: string }, studyId: string, rerunId: string): Promise<void> {
+export async function signRerun(actor: Signer, studyId: string, rerunId: string): Promise<void> {
   await openRerun(studyId, rerunId);
   const verdict = await canSign({ id: actor.id, signedInAt: actor.signedInAt }, rerunId);
   if (!verdict.ok) throw new FindingConflict(verdict.reason);

@@ -1,9 +1,11 @@
 /**
  * What a results page shows of a stored rerun: tables and check outcomes, without the
- * observation-level arrays (the figures fetch those from their own resource route). Subject
- * ids are kept only for people who may see subject-level data; others get ranks and counts.
+ * observation-level arrays (the figures fetch those from their own resource route). Texts and
+ * flagged subjects go through the viewer's redaction (redaction.server.ts): subject ids only for
+ * people who may see subject-level data, ranks and counts for the others.
  */
 import type { CheckOutcome } from "~/engine/checks";
+import type { Redaction } from "../redaction.server";
 import type { RerunDocument } from "./reruns.server";
 
 export interface ContrastView {
@@ -13,7 +15,8 @@ export interface ContrastView {
   lower: number;
   upper: number;
   p: number;
-  hc3: { se: number; lower: number; upper: number; p: number };
+  /** Null where the robust alternative does not apply (Ye et al. for a non-canonical GLM). */
+  hc3: { se: number; lower: number; upper: number; p: number } | null;
 }
 
 /**
@@ -41,7 +44,7 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
     lower: c.lower,
     upper: c.upper,
     p: c.p,
-    hc3: { se: c.robust.se, lower: c.robust.lower, upper: c.robust.upper, p: c.robust.p },
+    hc3: c.robust ? { se: c.robust.se, lower: c.robust.lower, upper: c.robust.upper, p: c.robust.p } : null,
   }));
 }
 
@@ -53,39 +56,25 @@ export function reportedContrasts(doc: RerunDocument): { label: string; estimate
   const robust = doc.options.variant === "robust_hc3";
   const all = contrastsOf(doc);
   const headline = doc.result.kind === "glm" && doc.result.family === "binomial" ? all.filter((c) => c.label.endsWith("(risk difference)")) : all;
-  return headline.map((c) => ({ label: c.label, estimate: c.estimate, ...(robust ? { lower: c.hc3.lower, upper: c.hc3.upper, p: c.hc3.p } : { lower: c.lower, upper: c.upper, p: c.p }) }));
+  return headline.map((c) => ({ label: c.label, estimate: c.estimate, ...(robust && c.hc3 ? { lower: c.hc3.lower, upper: c.hc3.upper, p: c.hc3.p } : { lower: c.lower, upper: c.upper, p: c.p }) }));
 }
 
-/** Check texts name the most extreme subject; without the right to see subjects, they say "a subject". */
-function redactSubjects(text: string, ids: ReadonlySet<string>): string {
-  return text.replace(/subject (\S+?)(?=[),.;]|\s|$)/g, (whole, id: string) => (ids.has(id) ? "a subject" : whole));
-}
-
-/**
- * For texts stored without their rerun at hand (finding summaries in the deviation log): every
- * "subject <code>" our generated texts write becomes "a subject". Rationales people type are
- * theirs and are shown as written.
- */
-export function withoutSubjectNames(text: string): string {
-  return text.replace(/subject (\S*\d\S*?)(?=[),.;]|\s|$)/g, "a subject");
-}
-
-export function checkView(c: CheckOutcome, withSubjectIds: boolean, subjectIds: ReadonlySet<string> = new Set()) {
-  const text = (t: string) => (withSubjectIds ? t : redactSubjects(t, subjectIds));
+/** A check as a results page shows it: texts and flagged subjects through the viewer's redaction. */
+export function checkView(c: CheckOutcome, redact: Redaction) {
   return {
     ...c,
-    statistic: text(c.statistic),
-    summary: text(c.summary),
-    flagged: (c.flagged ?? []).slice(0, 5).map((f) => ({ rank: f.rank, value: f.value, who: withSubjectIds ? (f.id ?? `row ${f.row}`) : `subject ranked ${f.rank}` })),
+    statistic: redact.text(c.statistic, c.key),
+    summary: redact.text(c.summary, c.key),
+    remedy: redact.text(c.remedy, c.key),
+    flagged: redact.flagged(c),
     flaggedCount: c.flagged?.length ?? 0,
   };
 }
 
-export function rerunView(doc: RerunDocument, withSubjectIds: boolean) {
+export function rerunView(doc: RerunDocument, redact: Redaction) {
   const r = doc.result;
-  const subjectIds = new Set(r.observations.id.filter((id): id is string => id !== null));
   const common = {
-    description: doc.description,
+    description: redact.text(doc.description),
     rows: doc.rows,
     population: doc.population,
     method: r.method.description,
@@ -100,7 +89,7 @@ export function rerunView(doc: RerunDocument, withSubjectIds: boolean) {
     qqShape: r.qqShape,
     terms: r.terms,
     continuousTerms: r.variables.filter((v) => v.kind === "continuous" && v.name !== r.spec.response).map((v) => v.name),
-    checks: doc.checks.map((c) => checkView(c, withSubjectIds, subjectIds)),
+    checks: doc.checks.map((c) => checkView(c, redact)),
     engineVersion: doc.engineVersion,
     caution: doc.caution,
   };

@@ -14,12 +14,13 @@ import { EngineError, ENGINE_VERSION, fitModel, fitWithEstimatedVariance, fitWit
 import { appendAudit, canonicalJson, SYSTEM_ACTOR } from "../audit.server";
 import { loadLockedTable } from "../datasets/catalog.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
-import { enqueueJob, registerJobHandler, type Job } from "../jobs/jobs.server";
+import { enqueueJob, registerJobFailureHook, registerJobHandler, type Job } from "../jobs/jobs.server";
 import { notifyRerunAwaitsSignOff } from "../mail/notifications.server";
 import type { PersonActor } from "../people.server";
 import type { Population } from "../plans/planned-model";
 import { getPlannedModel, type StoredPlannedModel } from "../plans/plans.server";
 import { describeOptions, rerunOptionsSchema, type RerunOptions } from "./rerun-options";
+import { exclusionProblem } from "./what-if.server";
 
 export type Rerun = typeof t.reruns.$inferSelect;
 
@@ -124,7 +125,12 @@ export async function executeRerun(rerunId: string): Promise<void> {
   if (!rerun || rerun.status === "completed") return;
   await writeTransaction((tx) => tx.update(t.reruns).set({ status: "running", startedAt: isoNow() }).where(eq(t.reruns.id, rerunId)));
   const model = await getPlannedModel(rerun.plannedModelId);
-  const options = rerunOptionsSchema.parse(JSON.parse(rerun.optionsJson));
+  const parsedOptions = rerunOptionsSchema.safeParse(JSON.parse(rerun.optionsJson));
+  if (!parsedOptions.success) {
+    const issue = parsedOptions.error.issues[0];
+    throw new Error(`its options are not valid (${issue.path.join(".") || "options"}: ${issue.message})`);
+  }
+  const options = parsedOptions.data;
   let doc: RerunDocument;
   try {
     const locked = await loadLockedTable(rerun.datasetVersionId);
@@ -184,18 +190,29 @@ export async function executeRerun(rerunId: string): Promise<void> {
   });
 }
 
-/** A rerun job whose server stopped too often: the rerun is marked failed with the job's reason. */
-export async function failRerunOfJob(job: Job): Promise<void> {
-  const { rerunId } = JSON.parse(job.payloadJson) as { rerunId: string };
+/**
+ * A rerun job that failed for any reason (its server stopped too often, an unexpected error,
+ * invalid input): the rerun is marked failed with the reason, shown on its results page. A
+ * rerun that already ended keeps its outcome.
+ */
+export async function failRerunOfJob(job: Job, reason: string): Promise<void> {
+  const rerunId = (JSON.parse(job.payloadJson) as { rerunId?: unknown } | null)?.rerunId;
+  if (typeof rerunId !== "string") return;
+  const failureReason = `The rerun could not be completed: ${reason}`;
   await writeTransaction(async (tx) => {
-    await tx.update(t.reruns).set({ status: "failed", failureReason: job.error ?? "interrupted", finishedAt: isoNow() }).where(eq(t.reruns.id, rerunId));
-    await appendAudit({ actor: SYSTEM_ACTOR, action: "rerun.fail", entityType: "rerun", entityId: rerunId, detail: job.error ?? "interrupted" }, tx);
+    const [r] = await tx.select({ status: t.reruns.status, studyId: t.reruns.studyId }).from(t.reruns).where(eq(t.reruns.id, rerunId)).limit(1);
+    if (!r || r.status === "completed" || r.status === "failed") return;
+    await tx.update(t.reruns).set({ status: "failed", failureReason, finishedAt: isoNow() }).where(eq(t.reruns.id, rerunId));
+    await appendAudit({ actor: SYSTEM_ACTOR, action: "rerun.fail", entityType: "rerun", entityId: rerunId, studyId: r.studyId, detail: failureReason }, tx);
   });
 }
 
 registerJobHandler(RERUN_JOB, async (payload) => {
-  await executeRerun((payload as { rerunId: string }).rerunId);
+  const rerunId = (payload as { rerunId?: unknown } | null)?.rerunId;
+  if (typeof rerunId !== "string") throw new Error("the job names no rerun");
+  await executeRerun(rerunId);
 });
+registerJobFailureHook(RERUN_JOB, failRerunOfJob);
 
 export interface StartRerun {
   plannedModelId: string;
@@ -205,7 +222,31 @@ export interface StartRerun {
   prespecified?: boolean;
 }
 
+/**
+ * Refuses options a job could not run (the same schema the job reads them with), and an
+ * exclusion of rows the rerun it varies did not analyse; nothing is queued then.
+ */
+async function refuseInvalidOptions(studyId: string, input: StartRerun): Promise<RerunOptions> {
+  const parsed = rerunOptionsSchema.safeParse(input.options);
+  if (!parsed.success) {
+    const issue = parsed.error.issues[0];
+    throw data({ message: `The rerun's options are not valid (${issue.path.join(".") || "options"}: ${issue.message}). Nothing was started.` }, { status: 400 });
+  }
+  const options = parsed.data;
+  if (options.variant === "exclude_rows") {
+    const [parent] = input.parentRerunId
+      ? await db.select().from(t.reruns).where(and(eq(t.reruns.id, input.parentRerunId), eq(t.reruns.studyId, studyId))).limit(1)
+      : [];
+    const doc = parent ? rerunDocumentOf(parent) : null;
+    if (!doc) throw data({ message: "Subjects are excluded from a completed primary rerun; start the exclusion from its results page." }, { status: 400 });
+    const problem = exclusionProblem(doc, options.rows);
+    if (problem) throw data({ message: `${problem} Nothing was started.` }, { status: 400 });
+  }
+  return options;
+}
+
 export async function startRerun(actor: PersonActor, studyId: string, input: StartRerun): Promise<string> {
+  await refuseInvalidOptions(studyId, input);
   const model = await getPlannedModel(input.plannedModelId);
   const [pv] = await db
     .select({ v: t.planVersions, studyId: t.analysisPlans.studyId })

@@ -53,6 +53,27 @@ export function rerunTable(doc: RerunDocument, table: RerunTable): RerunTable {
   return working;
 }
 
+/**
+ * Why a list of rows cannot be excluded from a rerun, or null when it can: every row must be
+ * one of the subjects the rerun analysed (1-based data rows of the locked file), each once,
+ * and at least one must stay. Checked before a sensitivity rerun is queued, so an exclusion
+ * never names rows that would change nothing (and is never labelled by a wrong count).
+ */
+export function exclusionProblem(doc: RerunDocument, rows: readonly number[]): string | null {
+  if (rows.length === 0) return "Choose at least one subject to exclude.";
+  const analysed = new Set(doc.result.observations.row);
+  const seen = new Set<number>();
+  for (const row of rows) {
+    if (!Number.isInteger(row) || !analysed.has(row)) {
+      return `Row ${row} is not one of the ${analysed.size} subjects this rerun analysed (rows are numbered from 1 in the locked file). Choose subjects from the what-if list.`;
+    }
+    if (seen.has(row)) return `Row ${row} is named twice; name each subject once.`;
+    seen.add(row);
+  }
+  if (seen.size >= analysed.size) return "Excluding every subject leaves nothing to fit; keep at least one subject.";
+  return null;
+}
+
 function unavailable(reason: string): WhatIfInputs {
   return { available: false, reason, caution: RESULTS_CAUTION };
 }

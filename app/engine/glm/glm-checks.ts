@@ -86,7 +86,11 @@ export function devianceGoodnessOfFit(deviance: number, df: number, family: stri
   return { statistic: deviance, df, p: chiSquareUpper(deviance, df) };
 }
 
-/** Likelihood-ratio statistic from two deviances; χ², or F when the dispersion is estimated. */
+/**
+ * Likelihood-ratio statistic of a model against a larger one from two deviances (or −2 log-
+ * likelihoods, for the negative binomial with θ fitted in each); χ², or F when the dispersion is
+ * estimated, with the larger model's dispersion and residual df (as R's anova.glm).
+ */
 export function likelihoodRatio(
   term: string,
   devSmall: number,

@@ -14,7 +14,7 @@ import type { FitMethod, VariableSummary } from "../linear-model";
 import { CANONICAL_LINK, type Link, type ModelSpec } from "../model-spec";
 import { readQqShape, type QqShape } from "../qq-shape";
 import { ENGINE_VERSION, RESULTS_CAUTION } from "../version";
-import { varianceInflation, type VifRow } from "../vif";
+import { predictorVarianceInflation, varianceInflation, type PredictorVifRow, type VifRow } from "../vif";
 import {
   binnedResiduals,
   calibration,
@@ -39,7 +39,7 @@ import {
   type LinkFunctions,
 } from "./families";
 import { irls, type IrlsFit } from "./irls";
-import { marginalEffects, type MarginalEffects } from "./marginal-effects";
+import { marginalEffects, robustVarianceApplicability, type MarginalEffects } from "./marginal-effects";
 import { thetaMaximumLikelihood } from "./negative-binomial";
 import { profileIntervals, type ProfileInterval } from "./profile-intervals";
 import { quantileResiduals } from "./quantile-residuals";
@@ -169,6 +169,8 @@ export interface GlmResult {
   readonly checks: GlmChecks;
   readonly binnedResiduals: BinnedResidual[] | null;
   readonly vif: VifRow[];
+  /** Predictor-wise GVIF (each variable with its interactions; read by the collinearity check). */
+  readonly vifByPredictor: PredictorVifRow[];
   readonly qqShape: QqShape;
   readonly marginalEffects: MarginalEffects | null;
   /** Plain-words notes on the fit (iteration limit reached, few events per variable). */
@@ -363,11 +365,34 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
   const events = y.reduce((s, v) => s + v, 0);
   const freeParameters = Math.max(1, p - (design.intercept ? 1 : 0));
   const eventsPerVariable = (familyName === "binomial" ? Math.min(events, n - events) : events) / freeParameters;
-  const phiForTests = estimatedPhi ? dispersion : null;
-  const refit = (extra: string[][]): { deviance: number; rank: number } => {
+  // Nested-model tests compare this model with a larger one fitted on the same rows, as R's
+  // anova.glm and MASS's anova.negbin do: with an estimated dispersion (quasi-Poisson) the F test
+  // takes the dispersion and its degrees of freedom from the larger model; for the negative
+  // binomial θ is re-estimated in the larger model and the statistic is twice the difference of
+  // the log-likelihoods, each at its own θ.
+  const isNegBin = familyName === "negative-binomial";
+  const minusTwoLogLik = (r: CoreFit): number => {
+    let ll = 0;
+    for (let i = 0; i < n; i++) ll += r.family.logLikelihood(y[i], r.fit.mu[i], pw ? pw[i] : 1);
+    return -2 * ll;
+  };
+  const smallCriterion = isNegBin ? minusTwoLogLik(core) : fit.deviance;
+  const larger = (x: Float64Array, columns: number): { criterion: number; rank: number; dispersion: number | null } => {
+    const r = fitCore(x, n, columns, data, familyName, link, data.offset);
+    const rank = columns - r.fit.aliased.length;
+    let largerDispersion: number | null = null;
+    if (estimatedPhi) {
+      let chi = 0;
+      for (let i = 0; i < n; i++) chi += ((pw ? pw[i] : 1) * (y[i] - r.fit.mu[i]) ** 2) / r.family.variance(r.fit.mu[i]);
+      largerDispersion = chi / (n - rank);
+    }
+    return { criterion: isNegBin ? minusTwoLogLik(r) : r.fit.deviance, rank, dispersion: largerDispersion };
+  };
+  const nested = (term: string, big: { criterion: number; rank: number; dispersion: number | null }) =>
+    likelihoodRatio(term, smallCriterion, big.criterion, big.rank - p, big.dispersion, n - big.rank);
+  const refit = (extra: string[][]) => {
     const big = buildDesign(spec, data, extra);
-    const r = fitCore(big.x, n, big.p, data, familyName, link, data.offset, core.theta?.theta);
-    return { deviance: r.fit.deviance, rank: big.p - r.fit.aliased.length };
+    return larger(big.x, big.p);
   };
   const linearity: LikelihoodRatioTest[] = [];
   for (const t of design.terms) {
@@ -377,9 +402,7 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     const x2 = new Float64Array(n * (p + 1));
     x2.set(squared.x);
     for (let i = 0; i < n; i++) x2[p * n + i] = (v.values[i] - v.mean) ** 2;
-    const r = fitCore(x2, n, p + 1, data, familyName, link, data.offset, core.theta?.theta);
-    const df = r.fit.aliased.length > 0 ? 0 : 1;
-    linearity.push(likelihoodRatio(`${t.label} squared`, fit.deviance, r.fit.deviance, df, phiForTests, n - p - 1));
+    linearity.push(nested(`${t.label} squared`, larger(x2, p + 1)));
   }
   let homogeneity: GlmChecks["homogeneityOfTreatmentEffect"];
   if (spec.treatment) {
@@ -390,11 +413,9 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
       .filter((c) => !design.terms.some((t) => t.kind === "interaction" && t.variables.length === 2 && t.variables.includes(c) && t.variables.includes(arm)));
     if (others.length > 0) {
       const byCovariate = others.map((c) => {
-        const r = refit([[arm, c]]);
-        return likelihoodRatio(`${arm} by ${c}`, fit.deviance, r.deviance, r.rank - p, phiForTests, n - r.rank);
+        return nested(`${arm} by ${c}`, refit([[arm, c]]));
       });
-      const all = refit(others.map((c) => [arm, c]));
-      homogeneity = { joint: likelihoodRatio("all treatment interactions", fit.deviance, all.deviance, all.rank - p, phiForTests, n - all.rank), byCovariate };
+      homogeneity = { joint: nested("all treatment interactions", refit(others.map((c) => [arm, c]))), byCovariate };
     }
   }
   const linearitySmooth = design.terms
@@ -448,7 +469,16 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
 
   const marginal =
     spec.treatment && data.variables.get(spec.treatment)?.kind === "categorical"
-      ? marginalEffects(design, data, spec.treatment, fit.coefficients, cov, link, familyName === "binomial")
+      ? marginalEffects(
+          design,
+          data,
+          spec.treatment,
+          fit.coefficients,
+          cov,
+          link,
+          familyName === "binomial",
+          robustVarianceApplicability(familyName, linkName, design.intercept, pw !== null),
+        )
       : null;
 
   const summarize = (v: Variable): VariableSummary =>
@@ -514,6 +544,7 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     checks,
     binnedResiduals: familyName === "binomial" ? binnedResiduals(y, mu) : null,
     vif: varianceInflation(design, wfit.unscaledCovariance),
+    vifByPredictor: predictorVarianceInflation(design, wfit.unscaledCovariance),
     qqShape: readQqShape(quantile),
     marginalEffects: marginal,
     notes,

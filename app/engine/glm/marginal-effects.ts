@@ -6,9 +6,17 @@
  * - delta method with the model-based covariance of the coefficients, covariates held fixed
  *   (Ge, Durham, Meyer, Xie and Flournoy 2011, Drug Information Journal 45, 481–493);
  * - the variance that stays valid when the working model is wrong (Ye, Shao, Yi and Zhao 2023,
- *   Statistical Theory and Related Fields 7, 159–163):
+ *   "Toward better practice of covariate adjustment in analyzing randomized clinical trials",
+ *   Journal of the American Statistical Association 118(544), 2370–2382; the authors and title
+ *   were checked against the paper's preprint, the volume and pages are recalled from memory and
+ *   were not checked against the paper here):
  *   V_aa = var_a(y − μ̂_a)/π_a + 2 cov_a(y, μ̂_a) − var(μ̂_a),
  *   V_ab = cov_a(y, μ̂_b) + cov_b(y, μ̂_a) − cov(μ̂_a, μ̂_b), all divided by n.
+ *   It is valid only when the fitted model's residuals average to zero within each arm, which the
+ *   score equations guarantee for a canonical link (logit binomial, log Poisson or quasi-Poisson)
+ *   with an intercept, the treatment term and no prior weights. For other links, the negative
+ *   binomial (whose log link is not canonical) or weighted fits it is not reported and the result
+ *   says why (`robustVariance`).
  * Contrasts against the reference arm: risk difference, risk ratio and odds ratio for binary
  * endpoints, rate ratio for counts; ratios on the log scale by the delta method.
  */
@@ -23,8 +31,8 @@ export interface MarginalMean {
   readonly se: number;
   readonly lower: number;
   readonly upper: number;
-  /** Standard error valid under misspecification (Ye et al. 2023). */
-  readonly robustSe: number;
+  /** Standard error valid under misspecification (Ye et al. 2023); null where it does not apply. */
+  readonly robustSe: number | null;
 }
 
 export interface MarginalInterval {
@@ -40,12 +48,40 @@ export interface MarginalContrast extends MarginalInterval {
   readonly level: string;
   readonly reference: string;
   readonly estimate: number;
-  /** The same contrast with the variance of Ye et al. (2023). */
-  readonly robust: MarginalInterval;
+  /** The same contrast with the variance of Ye et al. (2023); null where it does not apply. */
+  readonly robust: MarginalInterval | null;
+}
+
+/** Whether the variance of Ye et al. applies to this fit, and if not, why. */
+export type RobustVarianceApplicability = { readonly applies: true } | { readonly applies: false; readonly reason: string };
+
+/**
+ * The variance of Ye et al. needs residuals that average to zero within each arm: a canonical
+ * link with an intercept (the treatment term is in every model that has a treatment) and no
+ * prior weights.
+ */
+export function robustVarianceApplicability(family: string, link: string, intercept: boolean, weighted: boolean): RobustVarianceApplicability {
+  const canonical = (family === "binomial" && link === "logit") || ((family === "poisson" || family === "quasipoisson") && link === "log");
+  const why = !canonical
+    ? family === "negative-binomial"
+      ? "the negative binomial's log link is not its canonical link"
+      : `the ${link} link is not the canonical link of the ${family} family`
+    : !intercept
+      ? "the model has no intercept"
+      : weighted
+        ? "the fit has prior weights"
+        : null;
+  if (why === null) return { applies: true };
+  return {
+    applies: false,
+    reason: `The misspecification-robust variance of Ye et al. (2023) does not apply: ${why}, so the residuals need not average to zero within each arm.`,
+  };
 }
 
 export interface MarginalEffects {
   readonly treatment: string;
+  /** Whether the robust (Ye et al.) standard errors are given. */
+  readonly robustVariance: RobustVarianceApplicability;
   readonly means: readonly MarginalMean[];
   readonly contrasts: readonly MarginalContrast[];
 }
@@ -61,6 +97,7 @@ export function marginalEffects(
   covariance: Float64Array,
   link: LinkFunctions,
   binary: boolean,
+  robustVariance: RobustVarianceApplicability,
 ): MarginalEffects {
   const treatment = data.variables.get(treatmentName) as CategoricalVariable;
   const { n, p } = design;
@@ -138,7 +175,7 @@ export function marginalEffects(
   const meanRows: MarginalMean[] = treatment.levels.map((level, a) => {
     const unit = Array.from({ length: K }, (_, b) => (b === a ? 1 : 0));
     const se = quad(ge, unit);
-    return { level, estimate: means[a], se, lower: means[a] - Z * se, upper: means[a] + Z * se, robustSe: quad(ye, unit) };
+    return { level, estimate: means[a], se, lower: means[a] - Z * se, upper: means[a] + Z * se, robustSe: robustVariance.applies ? quad(ye, unit) : null };
   });
   const ref = treatment.referenceIndex;
   const contrasts: MarginalContrast[] = [];
@@ -175,9 +212,9 @@ export function marginalEffects(
         reference: treatment.reference,
         estimate: m.estimate,
         ...model,
-        robust: interval(m.estimate, quad(ye, m.grad), m.log),
+        robust: robustVariance.applies ? interval(m.estimate, quad(ye, m.grad), m.log) : null,
       });
     }
   });
-  return { treatment: treatmentName, means: meanRows, contrasts };
+  return { treatment: treatmentName, robustVariance, means: meanRows, contrasts };
 }
