@@ -30,9 +30,9 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     canRows: allowed.has("dataset.rows"),
     canScreen: allowed.has("dataset.screen"),
     canLock: allowed.has("dataset.lock"),
-    canPurge: allowed.has("dataset.purge") && purgeRefusal(detail.version) === null,
     signing: { meaning: SIGNATURE_MEANINGS.dataset, fresh: freshness(user).ok, notice: reauthNotice(request) },
     lockSignature: detail.version.lockedAt ? await recordedSignature("dataset.lock", detail.version.id) : null,
+    canPurge: allowed.has("dataset.purge") && purgeRefusal(detail.version) === null,
   };
 }
 

@@ -90,7 +90,7 @@ beforeAll(async () => {
   if (!v.ok) throw new Error(JSON.stringify(v.errors));
   plannedModelId = await plans.savePlannedModel(priya, studyId, planVersionId, 1, null, v.model);
   await plans.submitForApproval(priya, studyId, planVersionId, 2);
-  await plans.approvePlanVersion(who.second_biostatistician, studyId, planVersionId);
+  await plans.approvePlanVersion({ ...who.second_biostatistician, signedInAt: new Date().toISOString() }, studyId, planVersionId);
 
   const finish = async (id: string) => {
     for (let i = 0; i < 600; i++) {

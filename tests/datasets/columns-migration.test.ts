@@ -82,7 +82,7 @@ beforeAll(async () => {
   if (!v.ok) throw new Error(JSON.stringify(v.errors));
   modelId = await plans.savePlannedModel(priya, studyId, planVersion, 1, null, v.model);
   await plans.submitForApproval(priya, studyId, planVersion, 2);
-  await plans.approvePlanVersion(tomas, studyId, planVersion);
+  await plans.approvePlanVersion({ ...tomas, signedInAt: new Date().toISOString() }, studyId, planVersion);
 });
 
 describe("migration of the former columns files", () => {

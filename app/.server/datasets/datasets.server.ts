@@ -82,7 +82,7 @@ async function latestLocked(datasetId: string): Promise<DatasetVersionRow | null
 }
 
 function parsedOf(v: DatasetVersionRow): Promise<StoredColumns> {
-  if (v.purgedAt) return Promise.reject(new Error(`Version ${v.version} was purged on ${v.purgedAt}; its files are no longer stored.`));
+  if (v.purgedAt) throw new Error(`Version ${v.version} was purged on ${v.purgedAt}; its files are no longer stored.`);
   return storedColumnsOf(v);
 }
 
@@ -131,8 +131,8 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
         return { name, type: meta.type, cells: parsed.cells[j], label: meta.label, format: meta.format ?? null };
       }),
     );
-    const carried = existing ? await resolutionsToCarry(existing.id) : new Map<string, CarriedResolution>();
     const stored = storedColumnsFromParsed(parsed);
+    const carried = existing ? await resolutionsToCarry(existing.id) : new Map<string, CarriedResolution>();
     const previous = existing ? await latestLocked(existing.id) : null;
     let changes: ChangeSummary | null = null;
     if (previous) {
