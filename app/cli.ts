@@ -1,39 +1,49 @@
 /**
- * Headless rerun command.
+ * Headless command.
  *
- *   npm run --silent cli -- fit --data FILE.csv --model MODEL.json [--means equal|proportional]
+ *   npm run --silent cli -- fit --data FILE --model MODEL.json [--means equal|proportional]
+ *   npm run --silent cli -- inspect --data FILE
  *
- * Prints one JSON object on stdout and exits 0; on bad input prints one line starting with
- * "error:" on stderr and exits 2.
+ * FILE is CSV (.csv), CDISC Dataset-JSON v1.1 (.json, .ndjson) or XPORT version 5 (.xpt), read
+ * and typed by the same readers as the web upload. `fit` prints one JSON result; `inspect`
+ * prints one JSON object describing the file (format, rows, columns with label and type, key,
+ * problems). Both exit 0; on bad input they print one line starting with "error:" on stderr
+ * and exit 2.
  */
 import { readFileSync } from "node:fs";
-import { readCsvText } from "./engine-io/read-csv";
+import { limitsFromEnv } from "./engine-io/dataset/limits";
+import { firstBytesOf, formatOf, readDatasetFile, type ReadTable, type ValueType } from "./engine-io/dataset/read";
+import { findKey } from "./.server/datasets/keys";
 import { EngineError, fitModel, stringifyResult, toCliResult } from "./engine";
 import type { MeansWeighting } from "./engine";
 import { isCoxSpec } from "./engine/survival/cox-spec";
 import { coxCliAnswer } from "./engine/survival/cox-result";
 
-const USAGE = "usage: cli fit --data FILE.csv --model MODEL.json [--means equal|proportional]";
+const USAGE = "usage: cli fit --data FILE --model MODEL.json [--means equal|proportional] | cli inspect --data FILE (FILE: .csv, .json, .ndjson or .xpt)";
 
 class UsageError extends Error {}
 
-function parseArgs(argv: string[]): { data: string; model: string; means: MeansWeighting } {
+type Args = { command: "fit"; data: string; model: string; means: MeansWeighting } | { command: "inspect"; data: string };
+
+function parseArgs(argv: string[]): Args {
   const [command, ...rest] = argv;
-  if (command !== "fit") throw new UsageError(command ? `unknown command "${command}"; ${USAGE}` : USAGE);
+  if (command !== "fit" && command !== "inspect") throw new UsageError(command ? `unknown command "${command}"; ${USAGE}` : USAGE);
+  const allowed = command === "fit" ? ["--data", "--model", "--means"] : ["--data"];
   const values: Record<string, string> = {};
   for (let i = 0; i < rest.length; i++) {
     const flag = rest[i];
-    if (!["--data", "--model", "--means"].includes(flag)) throw new UsageError(`unknown option "${flag}"; ${USAGE}`);
+    if (!allowed.includes(flag)) throw new UsageError(`unknown option "${flag}"; ${USAGE}`);
     const value = rest[i + 1];
     if (value === undefined) throw new UsageError(`option ${flag} needs a value; ${USAGE}`);
     values[flag.slice(2)] = value;
     i++;
   }
   if (!values.data) throw new UsageError(`missing --data; ${USAGE}`);
+  if (command === "inspect") return { command, data: values.data };
   if (!values.model) throw new UsageError(`missing --model; ${USAGE}`);
   const means = values.means ?? "equal";
   if (means !== "equal" && means !== "proportional") throw new UsageError(`--means must be "equal" or "proportional"`);
-  return { data: values.data, model: values.model, means };
+  return { command, data: values.data, model: values.model, means };
 }
 
 function readText(path: string, what: string): string {
@@ -44,9 +54,49 @@ function readText(path: string, what: string): string {
   }
 }
 
-function main(): number {
+/** Reads a dataset file of any supported format; throws EngineError with the problems when it cannot. */
+async function readData(path: string): Promise<ReadTable> {
+  const name = path.split(/[\\/]/).pop() as string;
+  let head: Buffer;
+  try {
+    head = await firstBytesOf(path);
+  } catch {
+    throw new EngineError(`cannot read the data file "${path}"`);
+  }
+  const outcome = await readDatasetFile(path, name, formatOf(name, head), { limits: limitsFromEnv(process.env) });
+  if (!outcome.ok) throw new EngineError(outcome.problems.join(" "));
+  return outcome.table;
+}
+
+interface Inspection {
+  format: ReadTable["format"];
+  rows: number;
+  columns: { name: string; label: string | null; type: ValueType }[];
+  key: string[];
+  problems: { severity: "error" | "warning"; message: string }[];
+}
+
+function inspect(table: ReadTable, fileName: string): Inspection {
+  const problems: Inspection["problems"] = table.columns.flatMap((c) => (c.warnings ?? []).map((message) => ({ severity: "warning" as const, message })));
+  const key = findKey(fileName, table.names, table.cells, table.rowNumbers, table.declaredKey, table.declaredKey !== null);
+  if (!key.ok) problems.push(...key.problems.map((message) => ({ severity: "error" as const, message })));
+  return {
+    format: table.format,
+    rows: table.rowNumbers.length,
+    columns: table.columns.map((c) => ({ name: c.name, label: c.label, type: c.valueType })),
+    key: key.ok ? key.columns : [],
+    problems,
+  };
+}
+
+async function main(): Promise<number> {
   try {
     const args = parseArgs(process.argv.slice(2));
+    if (args.command === "inspect") {
+      const table = await readData(args.data);
+      process.stdout.write(JSON.stringify(inspect(table, args.data.split(/[\\/]/).pop() as string)) + "\n");
+      return 0;
+    }
     const modelText = readText(args.model, "model");
     let spec: unknown;
     try {
@@ -54,12 +104,14 @@ function main(): number {
     } catch (err) {
       throw new EngineError(`the model file is not valid JSON: ${err instanceof Error ? err.message : String(err)}`);
     }
-    const table = readCsvText(readText(args.data, "data"));
+    const table = await readData(args.data);
+    const columns: Record<string, string[]> = {};
+    table.names.forEach((name, j) => (columns[name] = table.cells[j]));
     if (isCoxSpec(spec)) {
-      process.stdout.write(coxCliAnswer(spec, table) + "\n");
+      process.stdout.write(coxCliAnswer(spec, { columns, rowNumbers: table.rowNumbers }) + "\n");
       return 0;
     }
-    const result = fitModel(spec, table, { meansWeighting: args.means });
+    const result = fitModel(spec, { columns, rowNumbers: table.rowNumbers }, { meansWeighting: args.means });
     process.stdout.write(stringifyResult(toCliResult(result)) + "\n");
     return 0;
   } catch (err) {
@@ -73,4 +125,4 @@ function main(): number {
   }
 }
 
-process.exitCode = main();
+process.exitCode = await main();

@@ -40,6 +40,10 @@ const schema = z.object({
   MAX_BODY_BYTES: z.coerce.number().int().positive().default(1_048_576),
   /** Largest dataset file accepted by the upload route, in bytes (default 200 MB). */
   DATASET_MAX_BYTES: z.coerce.number().int().positive().default(200_000_000),
+  /** Most columns a dataset file may have; wider files are refused before they are read. */
+  DATASET_MAX_COLUMNS: z.coerce.number().int().positive().default(2_000),
+  /** Largest header line of a CSV dataset file, in bytes (default 1 MiB). */
+  DATASET_MAX_HEADER_BYTES: z.coerce.number().int().positive().default(1_048_576),
   /** SMTP server that e-mail notifications go through (no authentication; STARTTLS when the server offers it). */
   SMTP_HOST: z.string().min(1).default("127.0.0.1"),
   SMTP_PORT: z.coerce.number().int().min(1).max(65_535).default(2525),

@@ -5,6 +5,7 @@ import { ChangeSummaryPanel } from "~/components/datasets/change-summary";
 import { ColumnSummaries } from "~/components/datasets/column-summaries";
 import { formatBytes, formatCount, formatTime } from "~/components/datasets/format";
 import { PreviewTable } from "~/components/datasets/preview-table";
+import { ReadWarnings } from "~/components/datasets/read-warnings";
 import { ScreenHits } from "~/components/datasets/screen-hits";
 import { VersionStatus } from "~/components/datasets/version-status";
 import { PageHeader } from "~/components/page";
@@ -83,6 +84,7 @@ export default function Page({ loaderData, actionData }: Route.ComponentProps) {
           All datasets
         </Link>
       </PageHeader>
+      {v.datasetLabel ? <p className="-mt-2 mb-4 text-sm text-ink-soft">{v.datasetLabel}</p> : null}
       <div className="mb-6 grid gap-4 lg:grid-cols-[1fr_auto]">
         <dl className="num grid grid-cols-2 gap-x-6 gap-y-1 text-sm sm:grid-cols-4">
           <div>
@@ -94,7 +96,7 @@ export default function Page({ loaderData, actionData }: Route.ComponentProps) {
           <div>
             <dt className="label">File</dt>
             <dd>
-              {v.fileName} ({v.format === "csv" ? "CSV" : "Dataset-JSON"}, {formatBytes(v.byteSize)})
+              {v.fileName} ({v.format === "csv" ? "CSV" : v.format === "xpt" ? "XPORT" : "Dataset-JSON"}, {formatBytes(v.byteSize)})
             </dd>
           </div>
           <div>
@@ -155,6 +157,7 @@ export default function Page({ loaderData, actionData }: Route.ComponentProps) {
             Derived from version {v.derivedFromVersion} by removing {v.removedColumns.map((c) => `“${c}”`).join(", ")} (identifier screen).
           </p>
         ) : null}
+        <ReadWarnings columns={detail.columns} />
         {v.changes ? <ChangeSummaryPanel changes={v.changes} version={v.version} /> : null}
         <ScreenHits hits={detail.hits} canDecide={canScreen && v.status === "draft"} errors={actionData?.errors ?? {}} keyColumns={detail.keyColumns} />
         <div className="grid gap-4 xl:grid-cols-[1fr_18rem]">

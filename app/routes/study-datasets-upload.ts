@@ -19,7 +19,7 @@ export type UploadEvent =
 
 export async function loader({ request, params }: Route.LoaderArgs) {
   await requireStudy(request, params.studyId, "dataset.upload");
-  return Response.json({ maxBytes: config.DATASET_MAX_BYTES, formats: ["csv", "dataset-json"] });
+  return Response.json({ maxBytes: config.DATASET_MAX_BYTES, formats: ["csv", "dataset-json", "xpt"] });
 }
 
 const nameList = z
@@ -27,11 +27,18 @@ const nameList = z
   .optional()
   .transform((v) => (v ?? "").split(/[,;\s]+/).map((s) => s.trim()).filter(Boolean));
 
-const Fields = z.object({
-  datasetName: z.string().trim().regex(DATASET_NAME, "Name the dataset with a letter followed by letters, digits or underscores (at most 32), for example adeff."),
-  keyColumns: nameList,
-  numericColumns: nameList,
-});
+const Fields = z
+  .object({
+    datasetName: z.string().trim().regex(DATASET_NAME, "Name the dataset with a letter followed by letters, digits or underscores (at most 32), for example adeff."),
+    // An empty key field names no key: the file's declared key (or a detected one) applies.
+    keyColumns: nameList.transform((v) => (v.length > 0 ? v : undefined)),
+    numericColumns: nameList,
+    readByValues: nameList,
+    readByValuesReason: z.string().trim().max(2000, "Keep the reason under 2,000 characters.").optional(),
+  })
+  .refine((f) => f.readByValues.length === 0 || (f.readByValuesReason ?? "").length >= 10, {
+    message: "Say why the columns named under \"Read by their values\" should be read that way (at least 10 characters); the reason goes into the audit trail.",
+  });
 
 function refusal(problems: string[], status: number): Response {
   const result: UploadResult = { ok: false, problems };
@@ -52,13 +59,20 @@ export async function action({ request, params }: Route.ActionArgs) {
   const fields = Fields.safeParse(received.fields);
   if (!file || !fields.success) {
     await removeQuietly(file?.workPath);
-    return refusal([!file ? "Choose a CSV or Dataset-JSON file to upload." : fields.error!.issues[0].message], 400);
+    return refusal([!file ? "Choose a CSV, Dataset-JSON or XPORT (.xpt) file to upload." : fields.error!.issues[0].message], 400);
   }
   const actor = actorOf(user);
   const run = (progress?: (e: UploadEvent) => void) =>
     uploadDataset(
       actor,
-      { studyId: study.id, datasetName: fields.data.datasetName, ...file, keyColumns: fields.data.keyColumns, numericColumns: fields.data.numericColumns },
+      {
+        studyId: study.id,
+        datasetName: fields.data.datasetName,
+        ...file,
+        keyColumns: fields.data.keyColumns,
+        numericColumns: fields.data.numericColumns,
+        readByValues: fields.data.readByValues.length > 0 ? { columns: fields.data.readByValues, reason: fields.data.readByValuesReason ?? "" } : undefined,
+      },
       (phase, fraction) => progress?.({ type: "progress", phase, fraction }),
     );
   if (!(request.headers.get("Accept") ?? "").includes("application/x-ndjson")) {

@@ -94,7 +94,7 @@ describe("CSV refusals name the file, column and row", () => {
 
   it("no data rows", async () => {
     expect(problems(await csv("id,age\n"))).toEqual(["adeff.csv has a header row but no data rows. Upload the file with its data."]);
-    expect(problems(await csv(""))).toEqual(["adeff.csv is empty: it has no header row and no data rows."]);
+    expect(problems(await csv(""))).toEqual(["The file adeff.csv is empty."]);
   });
 
   it("duplicate keys", async () => {
@@ -166,7 +166,10 @@ describe("Dataset-JSON v1.1", () => {
     delete noRows.rows;
     expect(problems(await dj(JSON.stringify(noRows)))).toEqual(['adsl.json does not follow Dataset-JSON v1.1: the required attribute "rows" is missing.']);
     expect(problems(await dj(datasetJson({ datasetJSONVersion: "1.0.0" })))).toEqual([
-      'adsl.json does not follow Dataset-JSON v1.1: "datasetJSONVersion" is "1.0.0"; Plumbline reads version 1.1.',
+      "adsl.json is Dataset-JSON version 1.0.0; Plumbline reads version 1.1, whose structure differs. Convert the file to Dataset-JSON v1.1 (or export the dataset again as v1.1) and upload that.",
+    ]);
+    expect(problems(await dj(datasetJson({ datasetJSONVersion: "2.0" })))).toEqual([
+      'adsl.json does not follow Dataset-JSON v1.1: "datasetJSONVersion" is "2.0"; Plumbline reads version 1.1.',
     ]);
     expect(problems(await dj(datasetJson({ records: 5 })))).toEqual(['adsl.json does not follow Dataset-JSON v1.1: "records" says 5 rows but "rows" holds 2.']);
     expect(problems(await dj("[1,2]"))).toEqual(["adsl.json does not follow Dataset-JSON v1.1: the file must hold one JSON object."]);
@@ -179,7 +182,7 @@ describe("Dataset-JSON v1.1", () => {
 
   it("refuses text in a column declared numeric, ragged rows and duplicate keys", async () => {
     expect(problems(await dj(datasetJson({}, [["S1", "forty", "1.5", null]])))).toEqual([
-      'adsl.json: column "AGE", row 1: "forty" is not a whole number, but the column is declared numeric (integer). Correct the value or use null for missing.',
+      `adsl.json: 1 cell in column "AGE" declared integer is not a number; first: row 1 'forty'. Correct the file, or read this column by its values (upload option, with a reason for the audit trail).`,
     ]);
     expect(problems(await dj(datasetJson({}, [["S1", 40, "1.5"]])))).toEqual(['adsl.json: row 1 has 3 values where "columns" lists 4. Export the file again.']);
     expect(problems(await dj(datasetJson({}, [["S1", 40, "1.5", null], ["S1", 41, "1.5", null]])))).toEqual([

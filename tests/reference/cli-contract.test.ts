@@ -83,8 +83,8 @@ describe("headless rerun command", () => {
     const goodModel = file("model.json", JSON.stringify({ response: "y", terms: [{ variable: "x" }, { variable: "arm", reference: "A" }] }));
     const goodData = "y,x,arm\n1.2,1,A\n2.3,2,B\n2.9,3,A\n4.4,4,B\n5.1,5,A\n";
     const cases: { data: string; model?: string; expect: RegExp }[] = [
-      { data: "", expect: /^error: the data file is empty$/ },
-      { data: "y,x,arm\n1,2,A\n3,4\n", expect: /^error: data row 2 has 2 fields/ },
+      { data: "", expect: /^error: The file d0\.csv is empty\.$/ },
+      { data: "y,x,arm\n1,2,A\n3,4\n", expect: /^error: d1\.csv: row 2 has 2 fields where the header has 3 columns/ },
       { data: "y,z,arm\n1,2,A\n3,4,B\n", expect: /^error: column "x" is missing from the data$/ },
       { data: goodData.replace("2.9", "n/a"), expect: /^error: response column "y" is not numeric: data row 3 has "n\/a"$/ },
       { data: goodData, model: JSON.stringify({ response: "y", terms: [{ variable: "arm", reference: "Placebo" }] }), expect: /levels: A, B$/ },
@@ -136,4 +136,34 @@ describe("headless rerun command", () => {
     expect(sep.stderr.trim().split("\n")).toHaveLength(1);
     expect(sep.stderr).toMatch(/^error: complete separation: the estimates for "x" diverge/);
   });
+
+  it("inspect describes a CSV file: decimal commas read as numbers, a warning naming text cells among numbers, the detected key", async () => {
+    const lines = ["usubjid;visit;aval;crp"];
+    for (let i = 1; i <= 30; i++) lines.push(`S-${i};W1;${i},5;${i === 7 ? "<5" : i * 2}`);
+    const run = await runCli(["inspect", "--data", file("semi.csv", lines.join("\n") + "\n")]);
+    expect(run.code, run.stderr).toBe(0);
+    expect(JSON.parse(run.stdout)).toEqual({
+      format: "csv",
+      rows: 30,
+      columns: [
+        { name: "usubjid", label: null, type: "text" },
+        { name: "visit", label: null, type: "text" },
+        { name: "aval", label: null, type: "number" },
+        { name: "crp", label: null, type: "text" },
+      ],
+      key: ["usubjid"],
+      problems: [
+        {
+          severity: "warning",
+          message: 'semi.csv: column "crp" is mostly numbers, but 1 cell holds text, so it was read as text: row 7 "<5". Correct it (or leave missing values empty) and upload again to read the column as numbers.',
+        },
+      ],
+    });
+    const bad = await runCli(["inspect", "--data", file("ragged.csv", "a,b\n1,2\n3\n4,5,6\n")]);
+    expect(bad.code).toBe(2);
+    expect(bad.stdout).toBe("");
+    expect(bad.stderr.trim().split("\n")).toHaveLength(1);
+    expect(bad.stderr).toMatch(/^error: ragged\.csv: row 2 has 1 field where the header has 2 columns\./);
+  });
 });
+

@@ -67,7 +67,7 @@ const DatasetVersion = registry.register(
     id: z.string(),
     version: z.int(),
     status: z.enum(["draft", "locked", "superseded"]),
-    format: z.enum(["csv", "dataset-json"]),
+    format: z.enum(["csv", "dataset-json", "xpt"]),
     fileName: z.string(),
     byteSize: z.int(),
     sha256: Sha256.describe("SHA-256 of the exact bytes uploaded; fixed when the version is locked"),

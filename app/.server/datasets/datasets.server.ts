@@ -13,7 +13,7 @@ import { withCategoricalHints } from "./categorical-hint";
 import type { ColumnMeta } from "./column-summary";
 import { primeArrowColumnsCache, textOf, writeArrowColumns, type StoredColumns } from "./arrow-columns.server";
 import { summariseChanges, type ChangeSummary } from "./diff";
-import { formatOf, parseDatasetFile, type DatasetFormat, type ParseOptions } from "./parse.server";
+import { firstBytesOf, formatOf, parseDatasetFile, type DatasetFormat, type ParseOptions } from "./parse.server";
 import { requireFreshSignIn, signatureEvidence, type Signer } from "../signatures.server";
 import { maskValue, screenColumns } from "./screen";
 import { isStorageError } from "../storage-errors.server";
@@ -49,6 +49,8 @@ export interface UploadRequest {
   sha256: string;
   keyColumns?: string[];
   numericColumns?: string[];
+  /** Columns to read by their values rather than their declared type, and why (recorded in the audit trail). */
+  readByValues?: { columns: string[]; reason: string };
 }
 
 export type UploadResult =
@@ -96,11 +98,13 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
   const placed: string[] = [];
   try {
     await sweepLeftovers().catch(() => undefined);
-    const head = Buffer.alloc(64);
-    const fh = await open(req.workPath, "r");
-    await fh.read(head, 0, 64, 0).finally(() => fh.close());
-    const format: DatasetFormat = formatOf(req.fileName, head);
-    const options: ParseOptions = { keyColumns: req.keyColumns, numericColumns: req.numericColumns, onProgress: (f) => progress("parse", f) };
+    const format: DatasetFormat = formatOf(req.fileName, await firstBytesOf(req.workPath));
+    const options: ParseOptions = {
+      keyColumns: req.keyColumns,
+      numericColumns: req.numericColumns,
+      readByValues: req.readByValues?.columns,
+      onProgress: (f) => progress("parse", f),
+    };
     const outcome = await parseDatasetFile(req.workPath, req.fileName, format, options);
     if (!outcome.ok) return await refuse(actor, req, outcome.problems);
     const parsed = outcome.dataset;
@@ -178,6 +182,7 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
         byteSize: req.byteSize,
         sha256: req.sha256,
         rowCount: parsed.rowNumbers.length,
+        datasetLabel: parsed.datasetLabel ?? null,
         columnsJson: JSON.stringify(parsed.columns),
         keyColumnsJson: JSON.stringify(parsed.keyColumns),
         storedPath,
@@ -213,11 +218,15 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
             version,
             fileName: req.fileName,
             format,
+            datasetLabel: parsed.datasetLabel ?? null,
             sha256: req.sha256,
             byteSize: req.byteSize,
             rows: parsed.rowNumbers.length,
             columns: parsed.names.length,
             keyColumns: parsed.keyColumns,
+            keySource: parsed.keySource,
+            ...(req.readByValues && req.readByValues.columns.length > 0 ? { readByValues: req.readByValues } : {}),
+            warnings: parsed.columns.flatMap((c) => c.warnings ?? []).slice(0, 20),
             screenHits: hits.map((h) => `${h.column}: ${h.rule}`),
             screenResolutionsCarriedForward: carriedForward,
             changes: changes ? { rowsAdded: changes.rowsAdded, rowsRemoved: changes.rowsRemoved, rowsChanged: changes.rowsChanged, columnsAdded: changes.columnsAdded, columnsRemoved: changes.columnsRemoved } : null,
@@ -323,6 +332,8 @@ export interface VersionSummary {
   sha256: string;
   rowCount: number;
   columnCount: number;
+  /** Dataset label the file declares (Dataset-JSON, XPORT); null for CSV. */
+  datasetLabel?: string | null;
   uploadedBy: string | null;
   uploadedAt: string;
   lockedBy: string | null;
@@ -356,6 +367,7 @@ function summaryOf(v: DatasetVersionRow, names: Map<string, string>, unresolved:
     status: v.status,
     format: v.format,
     fileName: v.fileName,
+    datasetLabel: v.datasetLabel ?? null,
     byteSize: v.byteSize,
     sha256: v.sha256,
     rowCount: v.rowCount,
@@ -609,21 +621,34 @@ export async function recordNotIdentifier(actor: Actor, studyId: string, hitId: 
   return { ok: true };
 }
 
-/** The version's file without one column, in the version's own format. */
-async function bytesWithout(v: DatasetVersionRow, parsed: StoredColumns, column: string): Promise<Buffer> {
+/**
+ * The version's file without one column: Dataset-JSON stays Dataset-JSON (in its JSON or
+ * NDJSON form); CSV and XPORT become CSV (Plumbline writes no transport files).
+ */
+async function bytesWithout(v: DatasetVersionRow, parsed: StoredColumns, column: string): Promise<{ bytes: Buffer; format: DatasetFormat; fileName: string }> {
   const keep = parsed.names.map((n, j) => (n === column ? -1 : j)).filter((j) => j >= 0);
   if (v.format === "dataset-json") {
-    const doc = JSON.parse(await readFile(absoluteStorePath(v.storedPath), "utf8")) as { columns: { name: string }[]; rows: unknown[][] };
-    const at = doc.columns.findIndex((c) => c.name.trim() === column);
+    const text = await readFile(absoluteStorePath(v.storedPath), "utf8");
+    const drop = (columns: { name: string }[]) => columns.findIndex((c) => c.name.trim() === column);
+    if (/\.ndjson$/i.test(v.fileName)) {
+      const [first, ...rest] = text.split(/\r?\n/).filter((l) => l.trim() !== "");
+      const meta = JSON.parse(first) as { columns: { name: string }[] };
+      const at = drop(meta.columns);
+      meta.columns = meta.columns.filter((_, i) => i !== at);
+      const rows = rest.map((l) => JSON.stringify((JSON.parse(l) as unknown[]).filter((_, i) => i !== at)));
+      return { bytes: Buffer.from([JSON.stringify(meta), ...rows].join("\n") + "\n", "utf8"), format: "dataset-json", fileName: v.fileName };
+    }
+    const doc = JSON.parse(text) as { columns: { name: string }[]; rows: unknown[][] };
+    const at = drop(doc.columns);
     doc.columns = doc.columns.filter((_, i) => i !== at);
     doc.rows = doc.rows.map((r) => r.filter((_, i) => i !== at));
-    return Buffer.from(JSON.stringify(doc), "utf8");
+    return { bytes: Buffer.from(JSON.stringify(doc), "utf8"), format: "dataset-json", fileName: v.fileName };
   }
   const n = parsed.rowNumbers.length;
   const cells = parsed.columns.map(textOf);
   const records: string[][] = [keep.map((j) => parsed.names[j])];
   for (let i = 0; i < n; i++) records.push(keep.map((j) => cells[j][i]));
-  return Buffer.from(stringify(records, { record_delimiter: "\n" }), "utf8");
+  return { bytes: Buffer.from(stringify(records, { record_delimiter: "\n" }), "utf8"), format: "csv", fileName: v.fileName.replace(/\.[^.]*$/, "") + ".csv" };
 }
 
 /**
@@ -642,7 +667,7 @@ export async function removeFlaggedColumn(actor: Actor, studyId: string, hitId: 
   if (key.includes(h.column)) {
     return { ok: false, message: `"${h.column}" is part of the dataset's key (${key.join(", ")}). Records could no longer be told apart; record why it is not an identifier instead, or replace it with a pseudonymous code and upload again.` };
   }
-  const bytes = await bytesWithout(v, parsed, h.column);
+  const { bytes, format: derivedFormat, fileName: derivedFileName } = await bytesWithout(v, parsed, h.column);
   const sha256 = createHash("sha256").update(bytes).digest("hex");
   const j = parsed.names.indexOf(h.column);
   const derived: StoredColumns = {
@@ -686,11 +711,12 @@ export async function removeFlaggedColumn(actor: Actor, studyId: string, hitId: 
         datasetId: v.datasetId,
         version,
         status: "draft",
-        format: v.format,
-        fileName: v.fileName,
+        format: derivedFormat,
+        fileName: derivedFileName,
         byteSize: bytes.length,
         sha256,
         rowCount: v.rowCount,
+        datasetLabel: v.datasetLabel,
         columnsJson: JSON.stringify(meta.filter((c) => c.name !== h.column)),
         keyColumnsJson: v.keyColumnsJson,
         storedPath: blobRelativePath(sha256),

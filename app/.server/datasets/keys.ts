@@ -31,7 +31,12 @@ function missingIn(cells: string[]): number {
   return -1;
 }
 
-export function findKey(file: string, names: string[], cells: string[][], rowNumbers: number[], explicit: string[] | null): KeyOutcome {
+/**
+ * `declared`: the key comes from the file itself (Dataset-JSON keySequence), where a key
+ * column may be empty in some records (CDISC's own examples declare such keys); only its
+ * uniqueness is then required.
+ */
+export function findKey(file: string, names: string[], cells: string[][], rowNumbers: number[], explicit: string[] | null, declared = false): KeyOutcome {
   const col = (name: string) => cells[names.indexOf(name)];
   if (explicit && explicit.length > 0) {
     const unknown = explicit.filter((k) => !names.includes(k));
@@ -39,7 +44,7 @@ export function findKey(file: string, names: string[], cells: string[][], rowNum
       return { ok: false, problems: [`${file}: the key column${unknown.length > 1 ? "s" : ""} ${unknown.map((k) => `"${k}"`).join(", ")} ${unknown.length > 1 ? "are" : "is"} not in the file. Its columns are: ${names.join(", ")}.`] };
     }
     const problems: string[] = [];
-    for (const k of explicit) {
+    for (const k of declared ? [] : explicit) {
       const at = missingIn(col(k));
       if (at !== -1) problems.push(`${file}: key column "${k}", row ${rowNumbers[at]}: the key is missing. Every record needs its key.`);
     }

@@ -108,11 +108,13 @@ export const datasetVersions = sqliteTable(
     datasetId: text("dataset_id").notNull().references(() => datasets.id),
     version: integer("version").notNull(),
     status: text("status", { enum: ["draft", "locked", "superseded"] }).notNull().default("draft"),
-    format: text("format", { enum: ["csv", "dataset-json"] }).notNull(),
+    format: text("format", { enum: ["csv", "dataset-json", "xpt"] }).notNull(),
     fileName: text("file_name").notNull(),
     byteSize: integer("byte_size").notNull(),
     sha256: text("sha256").notNull(),
     rowCount: integer("row_count").notNull(),
+    /** The dataset label the file declares (Dataset-JSON, XPORT); null for CSV. */
+    datasetLabel: text("dataset_label"),
     /** Column metadata and summaries: name, label, type, missing counts, ranges, levels. */
     columnsJson: text("columns_json").notNull(),
     keyColumnsJson: text("key_columns_json").notNull().default("[]"),

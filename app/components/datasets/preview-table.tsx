@@ -91,7 +91,13 @@ export function PreviewTable({ rowsUrl, columns, total, masked = [] }: { rowsUrl
         accessorFn: (row) => row.cells?.[j] ?? "",
         // A masked column (flagged by the identifier screen) is not sortable: the order would show its values.
         enableSorting: !masked.includes(c.name),
-        header: masked.includes(c.name) ? `${c.name} (masked)` : c.name,
+        // The label the file gives (Dataset-JSON, XPORT) under the name.
+        header: () => (
+          <span className="block" title={c.label ?? undefined}>
+            {masked.includes(c.name) ? `${c.name} (masked)` : c.name}
+            {c.label ? <span className="block truncate text-[0.7rem] font-normal normal-case tracking-normal">{c.label}</span> : null}
+          </span>
+        ),
         meta: { numeric: c.type === "number" && !masked.includes(c.name) },
         cell: ({ row }) => (row.original.cells ? row.original.cells[j] : "…"),
       })),

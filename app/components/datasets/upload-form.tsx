@@ -53,8 +53,13 @@ export function UploadForm({ action, maxBytes, datasetNames, versionUrl }: { act
     const form = e.currentTarget;
     const data = new FormData(form);
     const file = data.get("file");
-    if (!(file instanceof File) || file.size === 0) {
-      setProblems(["Choose a CSV or Dataset-JSON file to upload."]);
+    if (!(file instanceof File) || file.name === "") {
+      setProblems(["Choose a CSV, Dataset-JSON or XPORT (.xpt) file to upload."]);
+      setPhase("failed");
+      return;
+    }
+    if (file.size === 0) {
+      setProblems([`The file ${file.name} is empty.`]);
       setPhase("failed");
       return;
     }
@@ -127,9 +132,9 @@ export function UploadForm({ action, maxBytes, datasetNames, versionUrl }: { act
         <label htmlFor="file" className="label">
           File
         </label>
-        <input id="file" name="file" type="file" required accept=".csv,.tsv,.txt,.json,text/csv,application/json" className="field" aria-describedby="file-hint" onChange={(e) => onFile(e.currentTarget.files?.[0])} disabled={busy} />
+        <input id="file" name="file" type="file" required accept=".xpt,.json,.ndjson,.csv,.tsv,.txt,text/csv,application/json" className="field" aria-describedby="file-hint" onChange={(e) => onFile(e.currentTarget.files?.[0])} disabled={busy} />
         <p id="file-hint" className="mt-1 text-xs text-ink-soft">
-          CSV (comma, semicolon or tab; UTF-8) or CDISC Dataset-JSON 1.1; at most {formatBytes(maxBytes)}.
+          XPORT transport file (.xpt, version 5), CDISC Dataset-JSON 1.1 (.json or .ndjson) or CSV (comma, semicolon or tab; UTF-8); at most {formatBytes(maxBytes)}.
         </p>
       </div>
       <div>
@@ -166,13 +171,28 @@ export function UploadForm({ action, maxBytes, datasetNames, versionUrl }: { act
             <label htmlFor="keyColumns" className="label">
               Key columns
             </label>
-            <input id="keyColumns" name="keyColumns" className="field" placeholder="detected when empty, e.g. usubjid" disabled={busy} />
+            <input id="keyColumns" name="keyColumns" className="field" placeholder="when empty: the key the file declares, else detected; e.g. usubjid" disabled={busy} />
           </div>
           <div>
             <label htmlFor="numericColumns" className="label">
               Columns that must be numeric (CSV)
             </label>
             <input id="numericColumns" name="numericColumns" className="field" placeholder="e.g. age, base, chg" disabled={busy} />
+          </div>
+          <div>
+            <label htmlFor="readByValues" className="label">
+              Read by their values, not their declared type (Dataset-JSON)
+            </label>
+            <input id="readByValues" name="readByValues" className="field" placeholder="e.g. avgdd" aria-describedby="readByValues-hint" disabled={busy} />
+            <p id="readByValues-hint" className="mt-1 text-xs text-ink-soft">
+              For a column whose values do not match its declared type, e.g. decimals in a column declared integer.
+            </p>
+          </div>
+          <div>
+            <label htmlFor="readByValuesReason" className="label">
+              Reason for reading them by their values (recorded in the audit trail)
+            </label>
+            <textarea id="readByValuesReason" name="readByValuesReason" rows={2} className="field" disabled={busy} />
           </div>
         </div>
       </details>

@@ -1,0 +1,1 @@
+ALTER TABLE `dataset_versions` ADD `dataset_label` text;
