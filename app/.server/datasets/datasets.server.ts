@@ -5,7 +5,7 @@
  */
 import { createHash } from "node:crypto";
 import { open, readFile, writeFile } from "node:fs/promises";
-import { and, asc, desc, eq, inArray, isNull, ne, or } from "drizzle-orm";
+import { and, asc, desc, eq, inArray, isNull, ne } from "drizzle-orm";
 import { stringify } from "csv-stringify/sync";
 import { appendAudit, type Actor } from "../audit.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
@@ -25,7 +25,7 @@ import {
   columnsRelativePath,
   moveIntoStore,
   newWorkPath,
-  removeFromStore,
+  deleteVersionFiles,
   removeQuietly,
   sha256OfFile,
   sweepDatasetLeftovers,
@@ -805,7 +805,7 @@ export function purgeRefusal(v: Pick<DatasetVersionRow, "version" | "status" | "
 
 /**
  * Purges a superseded version that was never locked: removes its stored bytes and parsed
- * columns (each only when no other unpurged version refers to the same file) and keeps its row,
+ * columns (only when no other unpurged version holds the same bytes) and keeps its row,
  * screen results and audit history, marked purged. Asks for an explicit confirmation.
  */
 export async function purgeVersion(actor: Actor, studyId: string, versionId: string, confirmed: boolean): Promise<ActionResult<{ removedFiles: string[] }>> {
@@ -822,14 +822,12 @@ export async function purgeVersion(actor: Actor, studyId: string, versionId: str
     if (again) return { ok: false as const, message: again };
     const paths = [v.storedPath, ...(v.parsedPath ? [v.parsedPath] : [])];
     // Content-addressed: another version (of any dataset) with the same bytes shares the files.
-    const others = await tx
-      .select({ stored: t.datasetVersions.storedPath, parsed: t.datasetVersions.parsedPath })
+    const sharing = await tx
+      .select({ id: t.datasetVersions.id })
       .from(t.datasetVersions)
-      .where(
-        and(ne(t.datasetVersions.id, v.id), isNull(t.datasetVersions.purgedAt), or(inArray(t.datasetVersions.storedPath, paths), inArray(t.datasetVersions.parsedPath, paths))),
-      );
-    const stillUsed = new Set(others.flatMap((o) => [o.stored, o.parsed ?? ""]));
-    const removable = paths.filter((p) => !stillUsed.has(p));
+      .where(and(ne(t.datasetVersions.id, v.id), isNull(t.datasetVersions.purgedAt), eq(t.datasetVersions.sha256, v.sha256)))
+      .limit(1);
+    const removable = sharing.length > 0 ? [] : paths;
     await tx.update(t.datasetVersions).set({ purgedAt, purgedBy: actor.id }).where(eq(t.datasetVersions.id, v.id));
     await appendAudit(
       {
@@ -847,7 +845,7 @@ export async function purgeVersion(actor: Actor, studyId: string, versionId: str
   });
   // Files go only after the record says so; a crash in between leaves unreferenced files that
   // the next sweep removes.
-  if (outcome.ok) for (const p of outcome.removedFiles) await removeFromStore(p);
+  if (outcome.ok && outcome.removedFiles.length > 0) await deleteVersionFiles(v);
   return outcome;
 }
 

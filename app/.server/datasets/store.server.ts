@@ -83,11 +83,6 @@ export async function deleteVersionFiles(v: { sha256: string; storedPath: string
   for (const relative of files) await rm(absoluteStorePath(relative), { force: true });
 }
 
-/** Removes one store file (a path relative to DATA_DIR, as stored in the database). */
-export async function removeFromStore(relative: string): Promise<void> {
-  await removeQuietly(absoluteStorePath(relative));
-}
-
 function processAlive(pid: number): boolean {
   if (pid === process.pid) return true;
   try {
