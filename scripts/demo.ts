@@ -61,6 +61,7 @@ console.log(`
 Plumbline is running at ${APP_URL}
   Demo study: ${outcome.seeded ? "seeded" : `kept as it was (${outcome.reason})`}
   Database:   ${env.DATABASE_URL}
+  Audit key:  ${process.env.AUDIT_KEY ? "from AUDIT_KEY" : path.resolve(process.env.AUDIT_KEY_FILE ?? path.join(DATA_DIR, "keys", "audit-hmac.key"))} (keys the audit trail's hashes; keep a copy)
   Sign-in:    the fake identity provider at ${idp.baseUrl} lets you choose a demo person:
 ${people.map((p) => `    ${p.displayName.padEnd(18)} ${(p.studyRole ?? (p.groups.includes("plumbline-admins") ? "administrator" : "no study role")).padEnd(16)} ${p.email}${p.signIn === "oidc" ? "  (Sponsor sign-in)" : ""}`).join("\n")}
   Sponsors:   "Sponsor sign-in" goes to the fake OpenID Connect provider at ${oidc.issuerUrl}; the

@@ -217,7 +217,7 @@ describe("the data behind the answers names subjects (so the checks below can fa
     expect(withIds.filter(Boolean).length).toBeGreaterThanOrEqual(5);
     expect(namedIn(await (await get(`${s()}/deviations`, "biostatistician")).text()).length).toBeGreaterThan(0);
     expect(namedIn(await (await get(`/api/v1/studies/${studyId}/reruns/${signedRerunId}`, "biostatistician", true)).text()).length).toBeGreaterThan(0);
-  });
+  }, 120_000);
 });
 
 describe("roles without dataset.rows receive no subject id and no subject-level row", () => {
@@ -233,7 +233,7 @@ describe("roles without dataset.rows receive no subject id and no subject-level 
           expect(namedIn(body), `${at} names subjects`).toEqual([]);
         }
       }
-    });
+    }, 120_000);
   }
 
   it("medical_writer: every figure answer of every rerun has no subject id and no data row", async () => {
@@ -249,7 +249,7 @@ describe("roles without dataset.rows receive no subject id and no subject-level 
       expect(namedIn(body), `${url} names subjects`).toEqual([]);
       expect(subjectRowsIn(JSON.parse(body)).slice(0, 2), `${url} has subject-level points`).toEqual([]);
     }
-  });
+  }, 120_000);
 
   for (const who of ["medical_writer", "sponsor_reader"] as const) {
     it(`${who}: every API answer`, async () => {
@@ -261,7 +261,7 @@ describe("roles without dataset.rows receive no subject id and no subject-level 
         expect(namedIn(body), `${url} names subjects`).toEqual([]);
         expect(subjectRowsIn(JSON.parse(body)), `${url} has subject-level entries`).toEqual([]);
       }
-    });
+    }, 120_000);
 
     it(`${who}: the exported Word appendix, from the page and from the API`, async () => {
       for (const [url, api] of [[`${s()}/appendix/download?id=${appendixId}`, false], [`/api/v1/studies/${studyId}/appendices/${appendixId}/file`, true]] as const) {
@@ -271,7 +271,7 @@ describe("roles without dataset.rows receive no subject id and no subject-level 
         expect(text).toContain("Source records of");
         expect(namedIn(text), `${url} names subjects`).toEqual([]);
       }
-    });
+    }, 120_000);
   }
 
   it("the stored notifications name no subject", async () => {

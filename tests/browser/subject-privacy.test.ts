@@ -66,7 +66,7 @@ describe("subject ids in a medical writer's browser", () => {
     expect(namedIn(html).length).toBeGreaterThan(0);
     expect([...figureBodies.values()].filter((b) => namedIn(b).length > 0).length).toBeGreaterThanOrEqual(3);
     await context.close();
-  });
+  }, 120_000);
 
   it("Helen Achter's results page, figure answers and hover details name no subject", async () => {
     const { context, html, figureBodies } = await openResults("Helen Achter");
@@ -75,5 +75,5 @@ describe("subject ids in a medical writer's browser", () => {
     expect(html).toContain("ranked");
     for (const [url, body] of figureBodies) expect(namedIn(body), url).toEqual([]);
     await context.close();
-  });
+  }, 120_000);
 });
