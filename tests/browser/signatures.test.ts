@@ -7,22 +7,48 @@
  * 21 CFR Part 11 (11.50 signature manifestations, 11.200 signature components) is the source
  * of the rules checked.
  */
+import path from "node:path";
 import type { Browser, Page } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, inject, it } from "vitest";
 import { launchBrowser, screenshot, signInAs } from "../support/browser";
 import { personId, sessionCookieFor, studyIdByCode, testDb } from "../support/sessions";
 
 const stack = inject("stack");
+// The study of this file is made through the services on the stack's database, so the plans,
+// reruns and signatures made here never change what other browser tests find in QMT-301.
+process.env.DATABASE_URL = `file:${stack.dbFile}`;
+process.env.DATA_DIR = stack.dataDir;
+process.env.MIGRATIONS_DIR = path.resolve("drizzle");
 const PRIYA = "priya.lindqvist@plumbline.example";
 const TOMAS = "tomas.berg@plumbline.example";
 const DANA = "dana.okafor@plumbline.example";
 let browser: Browser;
 let studyId = "";
+let demoStudyId = "";
+
+/** A study of its own (SIG-301) with the demo dataset locked and the people this file signs in as. */
+async function signatureStudy(): Promise<string> {
+  const { createStudy } = await import("~/.server/studies.server");
+  const { setStudyRole } = await import("~/.server/people.server");
+  const { seedDemoDataset } = await import("~/.server/datasets/demo-seed.server");
+  const person = async (email: string) => {
+    const id = await personId(stack, email);
+    return { id, name: await one("SELECT display_name FROM people WHERE id = ?", [id]), organisation: null };
+  };
+  const admin = await person("morgan.reyes@plumbline.example");
+  const created = await createStudy(admin, { code: "SIG-301", title: "Signatures in the browser", sponsor: "Quillmoor Therapeutics", compound: null, indication: null, phase: "3" });
+  if (!created.ok) throw new Error(JSON.stringify(created.fieldErrors));
+  const id = created.study.id;
+  for (const [email, role] of [[PRIYA, "biostatistician"], [TOMAS, "biostatistician"], [DANA, "data_manager"]] as const) await setStudyRole(admin, id, (await person(email)).id, role);
+  await seedDemoDataset(id);
+  return id;
+}
 
 beforeAll(async () => {
   browser = await launchBrowser();
-  studyId = await studyIdByCode(stack, "QMT-301");
-});
+  demoStudyId = await studyIdByCode(stack, "QMT-301");
+  studyId = await signatureStudy();
+}, 120_000);
 afterAll(async () => {
   await browser?.close();
 });
@@ -219,7 +245,7 @@ describe("segregation of duties", () => {
     await page.getByRole("alert").filter({ hasText: /another administrator must grant it/ }).waitFor();
     await screenshot(page, "self-grant-refused");
     const morgan = await personId(stack, "morgan.reyes@plumbline.example");
-    expect(await one("SELECT count(*) FROM study_memberships WHERE person_id = ? AND study_id = ?", [morgan, studyId])).toBe("0");
+    expect(await one("SELECT count(*) FROM study_memberships WHERE person_id = ? AND study_id = ?", [morgan, demoStudyId])).toBe("0");
     expect(Number(await one("SELECT count(*) FROM audit_events WHERE action = 'membership.self_grant_refused' AND actor_id = ?", [morgan]))).toBeGreaterThan(0);
     await page.context().close();
   });

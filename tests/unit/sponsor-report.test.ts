@@ -34,8 +34,8 @@ async function cookieFor(personId: string): Promise<string> {
 beforeAll(async () => {
   signed = await makeSignedRerun();
   // Sam signs in through OpenID Connect (the demo study is shared with Quillmoor Therapeutics); Ines's organisation has no share.
-  const sam = await recordSponsorSignIn({ sub: "sponsor-sponsor-reader", email: "sam.quill@quillmoor.example", name: "Sam Quill", organisation: "Quillmoor Therapeutics" });
-  const ines = await recordSponsorSignIn({ sub: "sponsor-other", email: "ines.varga@harrowgate-bio.example", name: "Ines Varga", organisation: "Harrowgate Biologics" });
+  const sam = await recordSponsorSignIn({ iss: "http://127.0.0.1:7100", sub: "sponsor-sponsor-reader", email: "sam.quill@quillmoor.example", name: "Sam Quill", organisation: "Quillmoor Therapeutics" });
+  const ines = await recordSponsorSignIn({ iss: "http://127.0.0.1:7100", sub: "sponsor-other", email: "ines.varga@harrowgate-bio.example", name: "Ines Varga", organisation: "Harrowgate Biologics" });
   samCookie = await cookieFor(sam.id);
   inesCookie = await cookieFor(ines.id);
   // A completed rerun nobody signed: not a report.
