@@ -19,7 +19,7 @@ interface EditorDataset {
 
 interface CheckInfo {
   key: string;
-  models: "linear" | "glm" | "both";
+  models: "linear" | "glm" | "both" | "cox";
   label: string;
   rule: string;
   source: string;
