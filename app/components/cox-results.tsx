@@ -69,9 +69,7 @@ export function coxCheckFigure(
 ): { figure: FigureKey; term?: string } | null {
   const first = view.figures.find((f) => f.figure === figure);
   if (figure === "schoenfeld") {
-    const treatment = view.coefficients.find(
-      (c) => view.treatment && c.name.startsWith(`${view.treatment}: `),
-    );
+    const treatment = view.coefficients.find((c) => view.treatment !== null && c.term === view.treatment);
     return first ? { figure, term: treatment?.name ?? first.term } : null;
   }
   return first ?? null;

@@ -24,7 +24,7 @@ export function coxRerunView(doc: RerunDocument, r: CoxResult, withSubjectIds: b
     treatment: r.spec.treatment ?? null,
     strata: r.strata,
     robust: r.robust,
-    coefficients: r.coefficients.map((c) => ({ name: c.name, estimate: c.estimate, se: r.robust ? c.robustSe : c.se, statistic: c.statistic, p: c.p, lower: c.lower, upper: c.upper })),
+    coefficients: r.coefficients.map((c) => ({ name: c.name, term: c.term, estimate: c.estimate, se: r.robust ? c.robustSe : c.se, statistic: c.statistic, p: c.p, lower: c.lower, upper: c.upper })),
     ratios: r.ratios,
     fit: r.fit,
     tests: [

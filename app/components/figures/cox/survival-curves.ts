@@ -1,19 +1,20 @@
 /**
  * Kaplan–Meier curves by arm with the numbers at risk beneath them, and log(−log S) against
- * log time by arm (parallel lines when the hazards are proportional).
+ * log time by arm (parallel lines when the hazards are proportional). specs.ts imports this
+ * module for its dispatch, so nothing of specs.ts is read when this module loads.
  */
 import type { TopLevelSpec } from "vega-lite";
 import { asSpec, dataOf, frame, NO_ARIA, PALETTE, title, type SpecOptions } from "../specs";
 import type { KaplanMeierData, LogMinusLogData } from "./cox-figure-types";
 
 /** Arm colours: ink for the first (usually the reference), brass, then the status-free greys. */
-const ARM_COLOURS = [PALETTE.ink, PALETTE.accent, "#5b6478", "#8a8f9c", "#b39b6b"];
+const armColours = () => [PALETTE.ink, PALETTE.accent, "#5b6478", "#8a8f9c", "#b39b6b"];
 const ARM_DASHES = [[1, 0], [6, 3], [2, 2], [8, 2, 2, 2], [4, 4]];
 
 function armEncoding(arms: readonly string[], treatment: string | null): Record<string, unknown> {
   const legend = { title: treatment ?? "All subjects" };
   return {
-    color: { field: "arm", type: "nominal", scale: { domain: arms, range: ARM_COLOURS.slice(0, arms.length) }, legend },
+    color: { field: "arm", type: "nominal", scale: { domain: arms, range: armColours().slice(0, arms.length) }, legend },
     strokeDash: { field: "arm", type: "nominal", scale: { domain: arms, range: ARM_DASHES.slice(0, arms.length) }, legend },
   };
 }
