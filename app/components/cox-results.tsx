@@ -30,6 +30,7 @@ export interface CoxView {
   robust: boolean;
   coefficients: {
     name: string;
+    term: string;
     estimate: number;
     se: number;
     statistic: number;
