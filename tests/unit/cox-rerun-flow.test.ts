@@ -11,6 +11,7 @@ import { beforeAll, describe, expect, it } from "vitest";
 import { COX_CHECK_KEYS, coxCsv, coxForm, coxReference } from "../support/cox-dataset";
 import { useTempDatabase } from "../support/temp-db";
 import { expectClose } from "../reference/compare";
+import { expectWellFormedFigure } from "../support/figure-checks";
 
 useTempDatabase();
 const { seedDemoStudy } = await import("~/.server/demo/seed.server");
@@ -24,6 +25,9 @@ const { figureData } = await import("~/.server/reruns/figure-data.server");
 const { rerunView } = await import("~/.server/reruns/rerun-view.server");
 const { rerunTable } = await import("~/.server/reruns/what-if.server");
 const { loadLockedTable } = await import("~/.server/datasets/catalog.server");
+const { coxFigureList } = await import("~/.server/reruns/cox-figure-data.server");
+const { figureSpec } = await import("~/components/figures/specs");
+const { toVega } = await import("~/.server/figures/compile.server");
 const { runOneJob } = await import("~/.server/jobs/jobs.server");
 const { actorOf } = await import("~/.server/people.server");
 const { eq } = await import("drizzle-orm");
@@ -217,5 +221,18 @@ describe("rerunning a stratified Cox model", () => {
     if (infl.figure !== "cox_influence") throw new Error("wrong figure");
     expect(infl.coefficients).toEqual(["TRTP=Active"]);
     expect(() => figureData(doc, "qq", { withSubjectIds: false })).toThrow(/Cox model/);
+  });
+
+  it("compiles every Cox figure with a title stating the question and the healthy picture, axes with units", async () => {
+    if (doc.result.kind !== "cox") throw new Error("not a Cox result");
+    const table = rerunTable(doc, (await loadLockedTable(tteVersionId)).table);
+    const list = coxFigureList(doc.result);
+    expect(list.map((f) => f.figure)).toEqual(["kaplan_meier", "log_minus_log", ...doc.result.coefficients.map(() => "schoenfeld"), "martingale_covariate", "martingale_covariate", "cox_influence"]);
+    for (const f of list) {
+      const spec = figureSpec(figureData(doc, f.figure, { term: f.term, withSubjectIds: false, table }), { forPrint: true });
+      const t = expectWellFormedFigure(spec);
+      expect(t.text).toMatch(/\?/);
+      expect(() => toVega(spec)).not.toThrow();
+    }
   });
 });

@@ -29,13 +29,13 @@ export function kaplanMeierSpec(d: KaplanMeierData, opts: SpecOptions = {}): Top
   const atRiskRows = d.atRisk.map((a) => ({ ...a, y: -band * (d.arms.indexOf(a.arm) + 1) }));
   const armLabels = d.arms.map((arm, k) => ({ arm, y: -band * (k + 1) }));
   const x = { field: "time", type: "quantitative", title: `Time (${d.responseUnit})`, scale: { nice: false, zero: true } };
-  const y = { field: "estimate", type: "quantitative", title: "Proportion without the event", scale: { domain: [bottom, 1.02], nice: false }, axis: { values: [0, 0.25, 0.5, 0.75, 1], format: ".0%" } };
+  const y = { field: "estimate", type: "quantitative", title: "Proportion without the event (share of the arm)", scale: { domain: [bottom, 1.02], nice: false }, axis: { values: [0, 0.25, 0.5, 0.75, 1], format: ".0%" } };
   const test = d.logRank ? `${d.logRank.stratified ? "Stratified log-rank" : "Log-rank"} χ² = ${d.logRank.statistic.toFixed(2)} on ${d.logRank.df} df, ${pText(d.logRank.p)}.` : "No arms to compare.";
   return asSpec({
     $schema: "https://vega.github.io/schema/vega-lite/v6.json",
     ...frame(d, opts),
     title: title(
-      "How many remain event-free over time, by arm (Kaplan–Meier)",
+      "Do the arms differ in how long subjects stay event-free? Kaplan–Meier curves by arm",
       "curves that separate early and stay apart without crossing; the shaded 95% bands narrow where many remain at risk.",
       [`Numbers below the axis: subjects still at risk at each time. ${test}`],
       width,
