@@ -28,6 +28,9 @@ const { loadLockedTable } = await import("~/.server/datasets/catalog.server");
 const { coxFigureList } = await import("~/.server/reruns/cox-figure-data.server");
 const { figureSpec } = await import("~/components/figures/specs");
 const { toVega } = await import("~/.server/figures/compile.server");
+const findings = await import("~/.server/reruns/findings.server");
+const { buildAppendixContent } = await import("~/.server/appendix/build-content.server");
+const { getReport } = await import("~/.server/reports/reports.server");
 const { runOneJob } = await import("~/.server/jobs/jobs.server");
 const { actorOf } = await import("~/.server/people.server");
 const { eq } = await import("drizzle-orm");
@@ -234,5 +237,39 @@ describe("rerunning a stratified Cox model", () => {
       expect(t.text).toMatch(/\?/);
       expect(() => toVega(spec)).not.toThrow();
     }
+  });
+
+  it("after assessment and a second biostatistician's signature, the appendix carries the Cox tables, checks and figures without subject ids", async () => {
+    for (const f of await findings.findingsOf(rerunId)) {
+      await findings.assessFinding(priya, studyId, f.id, { category: "model_assumption", impact: "none", action: "none", rationale: "Judged on the figure; the treatment conclusion is unchanged." });
+    }
+    await findings.signRerun({ ...tomas, signedInAt: new Date().toISOString() }, studyId, rerunId);
+    const content = await buildAppendixContent(studyId, { kind: "rerun", rerunId });
+    const blocks = content.sections.flatMap((x) => x.blocks);
+    const table = (key: string) => blocks.find((b) => b.kind === "table" && b.key === key);
+    const coefficients = table(`coefficients:${rerunId}`);
+    if (coefficients?.kind !== "table") throw new Error("no coefficient table");
+    expect(coefficients.columns.map((c) => c.label)).toContain("Hazard ratio");
+    expect(coefficients.rows[0][0]).toBe("TRTP=Active");
+    expect(Number(coefficients.rows[0][5])).toBeCloseTo(R.coefficients[0].ratio, 3);
+    const tests = table(`cox-tests:${rerunId}`);
+    if (tests?.kind !== "table") throw new Error("no tests table");
+    expect(tests.rows.map((r) => r[0])).toContain("Proportional hazards: global");
+    const checks = table(`checks:${rerunId}`);
+    if (checks?.kind !== "table") throw new Error("no checks table");
+    expect(checks.rows.map((r) => r[0])).toEqual(doc.checks.map((c) => c.label));
+    const figures = blocks.filter((b) => b.kind === "figure").map((b) => (b.kind === "figure" ? b.key.split(":")[0] : ""));
+    expect(figures).toEqual(expect.arrayContaining(["kaplan_meier", "log_minus_log", "schoenfeld", "martingale_covariate", "cox_influence"]));
+    const methods = content.sections.find((x) => x.key === "methods")!.blocks.map((b) => (b.kind === "paragraph" ? b.text : "")).join(" ");
+    expect(methods).toMatch(/Cox proportional hazards model .*Breslow's method .*stratified by STRAT1/);
+    expect(JSON.stringify(content)).not.toMatch(/INV-\d{4}/);
+  });
+
+  it("the signed rerun's sponsor report carries hazard ratios and the proportional-hazards test, naming subjects by rank only", async () => {
+    const report = await getReport(studyId, rerunId);
+    expect(report.results.cox?.ratios[0].name).toBe("TRTP=Active");
+    expect(report.results.cox?.proportionalHazards.rows.at(-1)?.term).toBe("Global");
+    expect(JSON.stringify(report)).not.toMatch(/INV-\d{4}/);
+    expect(report.caution).toMatch(/do not replace/);
   });
 });
