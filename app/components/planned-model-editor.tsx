@@ -196,7 +196,7 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
         <div className="grid gap-3 md:grid-cols-3">
           <Select id="pm-response" name="response" label={family === "cox" ? "Follow-up time (event or censoring)" : "Endpoint (response)"} value={response} onChange={setResponse} options={colOptions()} placeholder="Choose a column" error={errors.response} />
           <Select id="pm-family" name="family" label="Family" value={family} onChange={setFamily} error={errors.family} options={[{ value: "gaussian", label: "Gaussian (linear model)" }, { value: "binomial", label: "Binomial (responder)" }, { value: "poisson", label: "Poisson (counts)" }, { value: "cox", label: "Time to event (Cox proportional hazards)" }]} />
-          <Select id="pm-link" name="link" label="Link" value={LINKS[family]?.includes(initial.link) ? initial.link : ""} options={(LINKS[family] ?? []).map((l) => ({ value: l, label: l }))} placeholder="Canonical" />
+          {family === "cox" ? <p className="self-end pb-2 text-xs text-ink-soft">Log hazard ratios by partial likelihood; no link to choose.</p> : <Select id="pm-link" name="link" label="Link" value={LINKS[family]?.includes(initial.link) ? initial.link : ""} options={(LINKS[family] ?? []).map((l) => ({ value: l, label: l }))} placeholder="Canonical" />}
         </div>
         <div className="mt-3 grid gap-3 md:grid-cols-3">
           <Select id="pm-treatment" name="treatment" label="Treatment variable" value={treatment} onChange={(v) => { setTreatment(v); setReference(""); }} options={colOptions(categoricalColumns)} placeholder="No treatment term" error={errors.treatment} />
@@ -335,7 +335,7 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
                       {c.label}
                     </label>
                     <span className="block text-xs text-ink-soft">
-                      {c.rule}. Default from {c.source}.{c.models === "both" ? "" : c.models === "linear" ? " Linear models." : " Generalized linear models."}
+                      {c.rule}. Default from {c.source}.{c.models === "both" ? "" : c.models === "linear" ? " Linear models." : c.models === "cox" ? " Time-to-event (Cox) models." : " Generalized linear models."}
                     </span>
                   </td>
                   <td>

@@ -9,7 +9,7 @@ import { copyFileSync, mkdtempSync } from "node:fs";
 import os from "node:os";
 import path from "node:path";
 import type { Browser, Page } from "playwright-core";
-import { afterAll, beforeAll, describe, expect, inject, it } from "vitest";
+import { afterAll, afterEach, beforeAll, describe, expect, inject, it } from "vitest";
 import { drawAllFigures, launchBrowser, screenshot, signInAs } from "../support/browser";
 import { COX_DATA_FILE } from "../support/cox-dataset";
 
@@ -24,10 +24,15 @@ beforeAll(async () => {
 afterAll(async () => {
   await browser?.close();
 });
+let current: Page | null = null;
+afterEach(async (ctx) => {
+  if (ctx.task.result?.state === "fail" && current && !current.isClosed()) await screenshot(current, `cox-failed-${ctx.task.name.slice(0, 30).replace(/\W+/g, "-")}`);
+});
 
 async function as(name: string): Promise<Page> {
   const context = await browser.newContext({ viewport: { width: 1360, height: 900 } });
   const page = await context.newPage();
+  current = page;
   page.setDefaultTimeout(15_000);
   await signInAs(page, stack.appUrl, name);
   await page.getByRole("link", { name: "QMT-301" }).click();
@@ -45,13 +50,14 @@ describe("a stratified Cox model from plan to appendix", () => {
     await page.getByLabel("File").setInputFiles(path.join(dir, "adtte.csv"));
     await page.getByRole("button", { name: "Upload and check" }).click();
     await page.getByRole("heading", { name: "adtte · version 1" }).waitFor({ timeout: 30_000 });
-    for (let guard = 0; guard < 10; guard++) {
-      const open = page.getByRole("button", { name: "Record: not an identifier" });
-      if ((await open.count()) === 0) break;
-      const item = page.locator("li", { has: open.first() }).first();
-      await item.getByLabel("Why it is not an identifier").fill("Invented subject and site codes of generated test data");
-      await open.first().click();
-      await expect.poll(() => page.getByRole("button", { name: "Record: not an identifier" }).count()).toBeLessThan(await open.count() + 1);
+    // the invented subject and site codes are screened as possible identifiers: record why they are not
+    const reasons = page.getByLabel("Why it is not an identifier");
+    for (let guard = 0; guard < 10 && (await reasons.count()) > 0; guard++) {
+      const before = await reasons.count();
+      await screenshot(page, "cox-dataset-screen");
+      await reasons.first().fill("Invented test data: generated subject codes and ages, no real people");
+      await page.getByRole("button", { name: "Record: not an identifier" }).first().click();
+      await expect.poll(() => reasons.count()).toBeLessThan(before);
     }
     await page.getByRole("button", { name: "Lock version 1" }).click();
     await page.getByRole("button", { name: "Lock version 1" }).waitFor({ state: "detached" });
@@ -79,7 +85,7 @@ describe("a stratified Cox model from plan to appendix", () => {
     for (const c of ["AGE", "BASE", "STRAT2"]) await page.locator(`#cov-${c}`).check();
     // no status column yet: the error stands beside the field
     await page.getByRole("button", { name: "Save planned model" }).click();
-    await page.getByText(/fields need attention/).waitFor();
+    await page.getByText(/needs? attention/).first().waitFor();
     await page.getByText("Choose the column that says whether the event happened (e.g. CNSR).").waitFor();
     await page.getByLabel("Status column").selectOption("CNSR");
     await page.locator('input[name="eventValue"][value="0"]').check();
