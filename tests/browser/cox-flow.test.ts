@@ -119,7 +119,7 @@ describe("a stratified Cox model from plan to appendix", () => {
     await page.getByRole("button", { name: "Rerun" }).click();
     await page.getByRole("heading", { name: "Checks of the plan" }).waitFor({ timeout: 30_000 });
     rerunUrl = page.url().split("#")[0];
-    await page.getByRole("heading", { name: "Hazard ratios" }).waitFor();
+    await page.getByRole("heading", { name: "Hazard ratios", exact: true }).waitFor();
     const ph = page.getByRole("table").filter({ hasText: "Test of proportional hazards per term and global" });
     expect(await ph.getByRole("rowheader", { name: "Global" }).count()).toBe(1);
     expect(await ph.getByRole("rowheader", { name: "TRTP" }).count()).toBe(1);
