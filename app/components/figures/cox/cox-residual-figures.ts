@@ -27,9 +27,9 @@ export function schoenfeldSpec(d: SchoenfeldData, opts: SpecOptions = {}): TopLe
     $schema: "https://vega.github.io/schema/vega-lite/v6.json",
     ...frame(d, opts),
     title: title(
-      `Does the effect of ${d.term} change over time? Scaled Schoenfeld residuals`,
+      `Does the effect of ${d.term} change over time?`,
       "the brass smoother flat along the dashed line of the fitted log hazard ratio; a trend means the effect grows or fades with time.",
-      [`One point per event. Dashed: the fitted log hazard ratio ${d.coefficient.toFixed(3)}. ${test}`],
+      [`Scaled Schoenfeld residuals, one point per event. Dashed: the fitted log hazard ratio ${d.coefficient.toFixed(3)}. ${test}`],
       width,
     ),
     ...dataOf(d.rows, opts),
@@ -48,9 +48,9 @@ export function martingaleCovariateSpec(d: MartingaleCovariateData, opts: SpecOp
     $schema: "https://vega.github.io/schema/vega-lite/v6.json",
     ...frame(d, opts),
     title: title(
-      `Is the log hazard linear in ${d.term}? Martingale residuals against ${d.term}`,
+      `Is the log hazard linear in ${d.term}?`,
       "the brass smoother flat around zero across the covariate's range; a bend shows where a straight-line effect misfits.",
-      [`One point per subject (events near +1, censored below 0). Dashed: zero. ${test}`],
+      [`Martingale residuals against ${d.term}, one point per subject (events near +1, censored below 0). Dashed: zero. ${test}`],
       width,
     ),
     ...dataOf(d.rows, opts),
@@ -70,16 +70,16 @@ export function coxInfluenceSpec(d: CoxInfluenceData, opts: SpecOptions = {}): T
     $schema: "https://vega.github.io/schema/vega-lite/v6.json",
     ...frame(d, opts),
     title: title(
-      "Does any one subject move the treatment effect? DFBETAS by subject",
+      "Does any one subject move the treatment effect?",
       "every bar inside the dashed lines; no single subject shifts the log hazard ratio by much of its standard error.",
-      [d.threshold ? `Dashed lines: the plan's threshold ±${d.threshold.label}.` : "The plan sets no DFBETAS threshold.", `Coefficient: ${d.coefficients.join(", ")}; the larger in size where there are several.`],
+      [`DFBETAS by subject. ${d.threshold ? `Dashed lines: the plan's threshold ±${d.threshold.label}.` : "The plan sets no DFBETAS threshold."}`, `Coefficient: ${d.coefficients.join(", ")}; the larger in size where there are several.`],
       width,
     ),
     ...dataOf(d.rows, opts),
     layer: [
       { mark: { type: "rule", color: PALETTE.rule, strokeWidth: 1, ...NO_ARIA }, encoding: { x, y, y2: { datum: 0 } } },
       { mark: pointMark(), encoding: { x, y, ...statusMarks(), tooltip: tooltip(d, [{ field: "order", title: "Position in data order", format: "d" }, { field: "dfbetas", title: "DFBETAS" }]) } },
-      ...(d.threshold ? [...thresholdRule("y", d.threshold, "threshold"), ...thresholdRule("y", { value: -d.threshold.value, label: `−${d.threshold.label}` }, "")] : []),
+      ...(d.threshold ? [...thresholdRule("y", d.threshold, "threshold"), ...thresholdRule("y", { value: -d.threshold.value, label: `−(${d.threshold.label})` }, "")] : []),
       zeroRule("y"),
       {
         transform: [{ filter: "datum.label != null" }],

@@ -35,9 +35,9 @@ export function kaplanMeierSpec(d: KaplanMeierData, opts: SpecOptions = {}): Top
     $schema: "https://vega.github.io/schema/vega-lite/v6.json",
     ...frame(d, opts),
     title: title(
-      "Do the arms differ in how long subjects stay event-free? Kaplan–Meier curves by arm",
+      "How long do subjects stay event-free in each arm?",
       "curves that separate early and stay apart without crossing; the shaded 95% bands narrow where many remain at risk.",
-      [`Numbers below the axis: subjects still at risk at each time. ${test}`],
+      [`Kaplan–Meier curves by arm. Numbers below the axis: subjects still at risk at each time. ${test}`],
       width,
     ),
     ...dataOf(d.rows, opts),
@@ -70,7 +70,7 @@ export function kaplanMeierSpec(d: KaplanMeierData, opts: SpecOptions = {}): Top
       },
       {
         data: { values: armLabels },
-        mark: { type: "text", fontSize: 9, align: "left", baseline: "bottom", dy: -5, x: 2, fontWeight: 600 },
+        mark: { type: "text", fontSize: 9, align: "right", baseline: "middle", x: { expr: "width - 2" }, fontWeight: 600 },
         encoding: { y: { field: "y", type: "quantitative" }, text: { field: "arm", type: "nominal" }, color: armEncoding(d.arms, d.treatment).color },
       },
     ],
@@ -83,9 +83,9 @@ export function logMinusLogSpec(d: LogMinusLogData, opts: SpecOptions = {}): Top
     $schema: "https://vega.github.io/schema/vega-lite/v6.json",
     ...frame(d, opts),
     title: title(
-      "Do the arms' hazards keep a constant ratio? log(−log S) against log time",
+      "Do the arms' hazards keep a constant ratio?",
       "roughly parallel lines, a constant vertical gap between arms; lines that converge or cross suggest the hazards are not proportional.",
-      ["Each step of each arm's Kaplan–Meier curve where 0 < S < 1 and time > 0."],
+      ["log(−log S) against log time. Each step of each arm's Kaplan–Meier curve where 0 < S < 1 and time > 0."],
       width,
     ),
     ...dataOf(d.rows, opts),
