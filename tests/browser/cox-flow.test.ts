@@ -125,6 +125,9 @@ describe("a stratified Cox model from plan to appendix", () => {
     expect(await ph.getByRole("rowheader", { name: "TRTP" }).count()).toBe(1);
     await page.getByRole("heading", { name: "Proportional hazards (Grambsch–Therneau)" }).waitFor();
     await screenshot(page, "cox-rerun-results");
+    const top = await page.getByRole("region", { name: "Hazard ratios", exact: true }).boundingBox();
+    const phCard = await page.locator("article", { has: page.getByRole("heading", { name: "Proportional hazards (Grambsch–Therneau)" }) }).boundingBox();
+    if (top && phCard) await page.screenshot({ path: "test-results/screenshots/cox-tables.png", clip: { x: top.x, y: top.y, width: top.width, height: phCard.y + phCard.height - top.y } });
     const states = await drawAllFigures(page);
     expect(states.length).toBeGreaterThanOrEqual(9);
     expect(states.every((s) => s === "ready")).toBe(true);
