@@ -218,6 +218,12 @@ describe("rerunning a stratified Cox model", () => {
     if (mart.figure !== "martingale_covariate") throw new Error("wrong figure");
     expect(mart.rows.length).toBe(doc.result.n);
     expect(mart.smooth.length).toBeGreaterThan(10);
+    // every continuous covariate carries its own test of an added square, not only the worst one
+    for (const term of ["AGE", "BASE"]) {
+      const m = figureData(doc, "martingale_covariate", { term, withSubjectIds: false, table });
+      if (m.figure !== "martingale_covariate") throw new Error("wrong figure");
+      expect(m.test?.statistic, term).toBeGreaterThanOrEqual(0);
+    }
     const lml = figureData(doc, "log_minus_log", { withSubjectIds: false });
     expect(lml.rows.length).toBeGreaterThan(10);
     const infl = figureData(doc, "cox_influence", { withSubjectIds: false });

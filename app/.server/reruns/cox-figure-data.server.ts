@@ -117,15 +117,14 @@ export function coxFigureData(doc: RerunDocument, r: CoxResult, figure: FigureKe
       if (!cells) throw new FigureUnavailableError(`column "${term}" is not in the rerun's data`);
       const at = new Map(opts.table.rowNumbers.map((row, i) => [row, i]));
       const x = obs.row.map((row) => Number(cells[at.get(row) ?? -1]?.trim()));
-      const check = doc.checks.find((c) => c.key === "functional_form_cox");
-      const statistic = check?.statistic.match(new RegExp(`\\(${term.replace(/[.*+?^${}()|[\]\\]/g, "\\$&")}, LR χ² = ([\\d.]+)\\)`));
+      const test = doc.coxFunctionalForm?.find((f) => f.term === term) ?? null;
       const influential = flaggedRows(doc, "dfbetas_treatment_cox");
       return {
         figure,
         ...base,
         term,
         termUnit: opts.units?.[term] ?? `units of ${term}`,
-        test: statistic ? { statistic: Number(statistic[1]), p: check?.value ?? null } : null,
+        test: test ? { statistic: test.statistic, p: test.p } : null,
         rows: obs.row.map((row, i) => ({ ...who(r, i, opts.withSubjectIds), x: round(x[i]), martingale: round(obs.martingale[i]), status: influential.has(row) ? BEYOND : WITHIN })),
         smooth: smooth(x, obs.martingale),
       };
@@ -148,6 +147,7 @@ export function coxFigureData(doc: RerunDocument, r: CoxResult, figure: FigureKe
         dfbetas: round(worst[i]),
         status: flagged.has(row) ? BEYOND : WITHIN,
         label: top.includes(i) ? (opts.withSubjectIds ? (obs.id[i] ?? `row ${row}`) : `rank ${top.indexOf(i) + 1}`) : null,
+        labelRank: top.includes(i) ? top.indexOf(i) + 1 : null,
       }));
       return { figure, ...base, coefficients: idx.map((j) => r.coefficients[j].name), threshold, rows };
     }

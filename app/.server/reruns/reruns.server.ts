@@ -12,7 +12,7 @@ import { data } from "react-router";
 import { evaluateChecks, type CheckOutcome } from "~/engine/checks";
 import { evaluateCoxChecks } from "~/engine/survival/cox-checks";
 import { fitCoxModel, type CoxResult } from "~/engine/survival/cox-model";
-import { coxFunctionalForm } from "~/engine/survival/functional-form";
+import { coxFunctionalForm, type FunctionalFormTest } from "~/engine/survival/functional-form";
 import { EngineError, ENGINE_VERSION, fitModel, fitWithEstimatedVariance, fitWithRobustErrors, RESULTS_CAUTION, type ModelResult, type ModelSpec, type Term } from "~/engine";
 import { appendAudit, canonicalJson, SYSTEM_ACTOR } from "../audit.server";
 import { loadLockedTable } from "../datasets/catalog.server";
@@ -40,6 +40,8 @@ export interface RerunDocument {
   /** Linear, generalized linear or Cox (`kind` "cox"): narrow on `result.kind`. */
   result: ModelResult | CoxResult;
   checks: CheckOutcome[];
+  /** Cox reruns: the likelihood-ratio test of an added square per continuous covariate (the functional-form check and figures read it). */
+  coxFunctionalForm?: FunctionalFormTest[];
 }
 
 export const RERUN_JOB = "rerun";
@@ -103,7 +105,8 @@ export function computeRerun(model: StoredPlannedModel, table: ColumnTable, opti
     }
     const coxSpec = options.variant === "alternative_covariates" ? alternativeSpec(model.spec, options.covariates) : model.spec;
     const result = fitCoxModel(coxSpec, working);
-    return doc(result, evaluateCoxChecks(result, model.checks, coxFunctionalForm(coxSpec, working, result)));
+    const functionalForm = coxFunctionalForm(coxSpec, working, result);
+    return { ...doc(result, evaluateCoxChecks(result, model.checks, functionalForm)), coxFunctionalForm: functionalForm };
   }
   const planned = model.spec;
   let spec = options.variant === "alternative_covariates" ? alternativeSpec(planned, options.covariates) : planned;

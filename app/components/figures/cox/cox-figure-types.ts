@@ -82,6 +82,8 @@ export interface CoxInfluenceRow extends SubjectRef {
   dfbetas: number;
   status: PointStatus;
   label: string | null;
+  /** 1 for the most extreme labelled subject (labels are staggered by it so they do not overlap). */
+  labelRank: number | null;
 }
 
 export interface CoxInfluenceData extends FigureBase {

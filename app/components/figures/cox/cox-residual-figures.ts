@@ -81,11 +81,12 @@ export function coxInfluenceSpec(d: CoxInfluenceData, opts: SpecOptions = {}): T
       { mark: pointMark(), encoding: { x, y, ...statusMarks(), tooltip: tooltip(d, [{ field: "order", title: "Position in data order", format: "d" }, { field: "dfbetas", title: "DFBETAS" }]) } },
       ...(d.threshold ? [...thresholdRule("y", d.threshold, "threshold"), ...thresholdRule("y", { value: -d.threshold.value, label: `−(${d.threshold.label})` }, "")] : []),
       zeroRule("y"),
-      {
-        transform: [{ filter: "datum.label != null" }],
-        mark: { type: "text", align: "left", dx: 6, dy: -2, fontSize: 10, color: PALETTE.finding },
+      // labels of the three most extreme subjects, staggered so that neighbours do not overlap
+      ...[1, 2, 3].map((rank) => ({
+        transform: [{ filter: `datum.labelRank == ${rank}` }],
+        mark: { type: "text", align: "left", dx: 6, dy: -2 + (rank - 1) * 11 * (rank % 2 === 0 ? -1 : 1), fontSize: 10, color: PALETTE.finding },
         encoding: { x, y, text: { field: "label", type: "nominal" } },
-      },
+      })),
     ],
   });
 }
