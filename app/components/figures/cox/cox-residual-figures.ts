@@ -34,7 +34,7 @@ export function schoenfeldSpec(d: SchoenfeldData, opts: SpecOptions = {}): TopLe
     ),
     ...dataOf(d.rows, opts),
     layer: [
-      { mark: pointMark(), encoding: { x: { field: "time", type: "quantitative", title: `Event time (${d.responseUnit})` }, y: { field: "scaled", type: "quantitative", title: `Scaled Schoenfeld residual for ${d.term} (log hazard ratio scale)` }, ...statusMarks(), tooltip: tooltip(d, [{ field: "time", title: "Event time" }, { field: "scaled", title: "Scaled residual" }]) } },
+      { mark: pointMark(), encoding: { x: { field: "time", type: "quantitative", title: `Event time (${d.responseUnit})` }, y: { field: "scaled", type: "quantitative", title: "Scaled Schoenfeld residual (log HR scale)" }, ...statusMarks(), tooltip: tooltip(d, [{ field: "time", title: "Event time" }, { field: "scaled", title: "Scaled residual" }]) } },
       { data: ONE, mark: { type: "rule", color: PALETTE.ink, strokeDash: [6, 3], strokeWidth: 1.2 }, encoding: { y: { datum: d.coefficient } } },
       loessLayer(d.smooth),
     ],
