@@ -6,11 +6,7 @@ import { CHECK_BY_KEY, type PlannedCheck } from "~/engine/checks";
 import { CANONICAL_LINK, type ModelSpec } from "~/engine/model-spec";
 import type { CoxSpec } from "~/engine/survival/cox-spec";
 import { coxMethodsParagraphs } from "./cox-methods";
-import {
-  SENSITIVITY_LABELS,
-  type PlannedSensitivity,
-  type Population,
-} from "../plans/planned-model";
+import { SENSITIVITY_LABELS, type PlannedSensitivity, type Population } from "../plans/planned-model";
 
 export interface MethodsInput {
   title: string;
@@ -43,36 +39,22 @@ function list(items: string[]): string {
 }
 
 /** Paragraphs and bullet lists of the methods section, in reading order. */
-export function methodsProse(m: MethodsInput): {
-  paragraphs: string[];
-  checks: string[];
-  sensitivity: string[];
-} {
+export function methodsProse(m: MethodsInput): { paragraphs: string[]; checks: string[]; sensitivity: string[] } {
   const s = m.spec;
-  const main = s.terms.filter(
-    (t): t is { variable: string; categorical?: boolean; reference?: string } =>
-      "variable" in t,
-  );
+  const main = s.terms.filter((t): t is { variable: string; categorical?: boolean; reference?: string } => "variable" in t);
   const treatment = main.find((t) => t.variable === s.treatment);
   const covariates = main.filter((t) => t.variable !== s.treatment);
-  const interactions = s.terms.flatMap((t) =>
-    "interaction" in t ? [t.interaction.join(" by ")] : [],
-  );
+  const interactions = s.terms.flatMap((t) => ("interaction" in t ? [t.interaction.join(" by ")] : []));
   const paragraphs: string[] = [];
 
-  const sap = m.sap.name
-    ? ` as pre-specified in ${m.sap.name}${m.sap.version ? ` version ${m.sap.version}` : ""}${m.sap.date ? ` (${m.sap.date})` : ""}`
-    : "";
+  const sap = m.sap.name ? ` as pre-specified in ${m.sap.name}${m.sap.version ? ` version ${m.sap.version}` : ""}${m.sap.date ? ` (${m.sap.date})` : ""}` : "";
   paragraphs.push(
     `The planned model "${m.title}" was fitted to the locked dataset ${m.datasetName}${sap}. ` +
       (m.population
         ? `The analysis population consisted of the records with ${named(m.population.column, m.labels)} equal to "${m.population.value}".`
         : "All records of the dataset formed the analysis population."),
   );
-  if (s.family === "cox")
-    paragraphs.push(
-      ...coxMethodsParagraphs(s, (col) => named(col, m.labels), list),
-    );
+  if (s.family === "cox") paragraphs.push(...coxMethodsParagraphs(s, (col) => named(col, m.labels), list));
   else {
     paragraphs.push(
       `The endpoint was ${named(s.response, m.labels)}. ` +
@@ -88,26 +70,19 @@ export function methodsProse(m: MethodsInput): {
           (covariates.length
             ? ` The model adjusted for ${list(covariates.map((c) => `${named(c.variable, m.labels)} (${c.categorical ? `categorical${c.reference ? `, reference "${c.reference}"` : ""}` : "continuous"})`))}.`
             : " No covariates were pre-specified.") +
-          (interactions.length
-            ? ` Interactions pre-specified: ${list(interactions)}.`
-            : ""),
+          (interactions.length ? ` Interactions pre-specified: ${list(interactions)}.` : ""),
       );
       if (s.family !== "gaussian") {
         paragraphs.push(
           "Each arm was compared with the reference arm by marginal (standardized) contrasts: the model's predicted response for every analysed subject was averaged with the subject assigned to each arm in turn, and the arms' averages were compared as differences and ratios with two-sided 95% confidence intervals.",
         );
-      } else
-        paragraphs.push(
-          "Adjusted means of the endpoint per arm were computed from the fitted model with continuous covariates held at their mean over the records analysed" +
-            (m.meansWeighting === "proportional"
-              ? " and categorical covariates averaged in proportion to their observed frequencies"
-              : " and categorical covariates averaged with equal weight over their levels") +
-            " (population marginal means, Searle, Speed and Milliken 1980). Each arm was compared with the reference arm by the difference in adjusted means with a two-sided 95% confidence interval and p-value from the t distribution on the residual degrees of freedom.",
-        );
-    } else if (covariates.length) {
-      paragraphs.push(
-        `The model's terms were ${list(covariates.map((c) => named(c.variable, m.labels)))}.`,
+      } else paragraphs.push(
+        "Adjusted means of the endpoint per arm were computed from the fitted model with continuous covariates held at their mean over the records analysed" +
+          (m.meansWeighting === "proportional" ? " and categorical covariates averaged in proportion to their observed frequencies" : " and categorical covariates averaged with equal weight over their levels") +
+          " (population marginal means, Searle, Speed and Milliken 1980). Each arm was compared with the reference arm by the difference in adjusted means with a two-sided 95% confidence interval and p-value from the t distribution on the residual degrees of freedom.",
       );
+    } else if (covariates.length) {
+      paragraphs.push(`The model's terms were ${list(covariates.map((c) => named(c.variable, m.labels)))}.`);
     }
   }
   paragraphs.push(
