@@ -1,5 +1,6 @@
 import { useMemo, useState } from "react";
 import { FieldError } from "./page";
+import { SurvivalSection, type SurvivalFields } from "./planned-model-survival";
 
 export interface EditorColumn {
   name: string;
@@ -19,7 +20,7 @@ interface EditorDataset {
 
 interface CheckInfo {
   key: string;
-  models: "linear" | "glm" | "both";
+  models: "linear" | "glm" | "both" | "cox";
   label: string;
   rule: string;
   source: string;
@@ -46,6 +47,8 @@ export interface EditorForm {
   id: string;
   checks: { key: string; enabled: boolean; threshold: number; remedy: string }[];
   sensitivity: { kind: string; varianceBy?: string; covariates?: string[]; label?: string }[];
+  /** Time-to-event fields (family "cox"). */
+  survival?: SurvivalFields;
 }
 
 const LINKS: Record<string, string[]> = {
@@ -191,9 +194,9 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
 
       <Section title="Endpoint and model">
         <div className="grid gap-3 md:grid-cols-3">
-          <Select id="pm-response" name="response" label="Endpoint (response)" value={response} onChange={setResponse} options={colOptions()} placeholder="Choose a column" error={errors.response} />
-          <Select id="pm-family" name="family" label="Family" value={family} onChange={setFamily} error={errors.family} options={[{ value: "gaussian", label: "Gaussian (linear model)" }, { value: "binomial", label: "Binomial (responder)" }, { value: "poisson", label: "Poisson (counts)" }]} />
-          <Select id="pm-link" name="link" label="Link" value={LINKS[family]?.includes(initial.link) ? initial.link : ""} options={(LINKS[family] ?? []).map((l) => ({ value: l, label: l }))} placeholder="Canonical" />
+          <Select id="pm-response" name="response" label={family === "cox" ? "Follow-up time (event or censoring)" : "Endpoint (response)"} value={response} onChange={setResponse} options={colOptions()} placeholder="Choose a column" error={errors.response} />
+          <Select id="pm-family" name="family" label="Family" value={family} onChange={setFamily} error={errors.family} options={[{ value: "gaussian", label: "Gaussian (linear model)" }, { value: "binomial", label: "Binomial (responder)" }, { value: "poisson", label: "Poisson (counts)" }, { value: "cox", label: "Time to event (Cox proportional hazards)" }]} />
+          {family === "cox" ? <p className="self-end pb-2 text-xs text-ink-soft">Log hazard ratios by partial likelihood; no link to choose.</p> : <Select id="pm-link" name="link" label="Link" value={LINKS[family]?.includes(initial.link) ? initial.link : ""} options={(LINKS[family] ?? []).map((l) => ({ value: l, label: l }))} placeholder="Canonical" />}
         </div>
         <div className="mt-3 grid gap-3 md:grid-cols-3">
           <Select id="pm-treatment" name="treatment" label="Treatment variable" value={treatment} onChange={(v) => { setTreatment(v); setReference(""); }} options={colOptions(categoricalColumns)} placeholder="No treatment term" error={errors.treatment} />
@@ -201,6 +204,8 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
           <Select id="pm-id" name="id" label="Subject identifier" value={initial.id} options={colOptions()} placeholder="None" error={errors.id} hint="Shown beside influential subjects." />
         </div>
       </Section>
+
+      {family === "cox" ? <SurvivalSection initial={initial.survival} columns={columns} exclude={[response, treatment]} errors={errors} /> : null}
 
       <Section
         title="Pre-specified covariates"
@@ -316,7 +321,7 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
           </thead>
           <tbody key={isNew ? family : "saved"}>
             {checkCatalogue.map((c) => {
-              const applies = c.models === "both" || c.models === (family === "gaussian" ? "linear" : "glm");
+              const applies = family === "cox" ? c.models === "cox" : c.models === "both" || c.models === (family === "gaussian" ? "linear" : "glm");
               // A new model starts with every check that applies to its family.
               const current = isNew ? { ...(initial.checks.find((x) => x.key === c.key) ?? {}), enabled: applies } : initial.checks.find((x) => x.key === c.key);
               const err = errors[`check:${c.key}:threshold`];
@@ -330,7 +335,7 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
                       {c.label}
                     </label>
                     <span className="block text-xs text-ink-soft">
-                      {c.rule}. Default from {c.source}.{c.models === "both" ? "" : c.models === "linear" ? " Linear models." : " Generalized linear models."}
+                      {c.rule}. Default from {c.source}.{c.models === "both" ? "" : c.models === "linear" ? " Linear models." : c.models === "cox" ? " Time-to-event (Cox) models." : " Generalized linear models."}
                     </span>
                   </td>
                   <td>

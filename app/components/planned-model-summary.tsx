@@ -17,6 +17,8 @@ export interface PlannedModelView {
   id_: string | null;
   checks: { key: string; label: string; threshold: number; remedy: string; source: string }[];
   sensitivity: string[];
+  /** Time-to-event models: status, strata, ties and the PH test time scale, in words. */
+  survival?: [string, string][];
 }
 
 const num = (x: number) => (Number.isInteger(x) ? String(x) : x.toPrecision(4).replace(/0+$/, ""));
@@ -34,6 +36,7 @@ export function PlannedModelSummary({ m, actions }: { m: PlannedModelView; actio
     ["Weights", m.weights ?? "none"],
     ["Offset", m.offset ?? "none"],
     ["Subject id", m.id_ ?? "none"],
+    ...(m.survival ?? []),
   ];
   return (
     <article className="panel" aria-labelledby={`model-${m.id}`}>

@@ -5,6 +5,7 @@
  */
 import type { GlmResult } from "./glm/glm-model";
 import type { LinearModelResult } from "./linear-model";
+import { COX_CHECKS } from "./survival/cox-check-catalogue";
 
 type ModelResult = LinearModelResult | GlmResult;
 
@@ -23,7 +24,12 @@ export type CheckKey =
   | "overdispersion"
   | "events_per_variable"
   | "linearity_glm"
-  | "treatment_homogeneity_glm";
+  | "treatment_homogeneity_glm"
+  // time-to-event (Cox) models: app/engine/survival/cox-check-catalogue.ts
+  | "proportional_hazards"
+  | "functional_form_cox"
+  | "dfbetas_treatment_cox"
+  | "events_per_coefficient";
 
 export interface CheckDefinition {
   key: CheckKey;
@@ -37,8 +43,8 @@ export interface CheckDefinition {
   /** The figure that supports the check on the results page. */
   figure: FigureKey;
   needsTreatment?: boolean;
-  /** Which models the check applies to. */
-  models: "linear" | "glm" | "both";
+  /** Which models the check applies to ("both": linear and generalized linear). */
+  models: "linear" | "glm" | "both" | "cox";
 }
 
 export type FigureKey =
@@ -50,7 +56,13 @@ export type FigureKey =
   | "residuals_covariate"
   | "partial_residuals"
   | "binned_residuals"
-  | "calibration";
+  | "calibration"
+  // time-to-event (Cox) figures: app/components/figures/cox/
+  | "schoenfeld"
+  | "martingale_covariate"
+  | "kaplan_meier"
+  | "log_minus_log"
+  | "cox_influence";
 
 export const CHECKS: readonly CheckDefinition[] = [
   {
@@ -208,6 +220,7 @@ export const CHECKS: readonly CheckDefinition[] = [
     needsTreatment: true,
     models: "glm",
   },
+  ...COX_CHECKS,
 ];
 
 export const CHECK_BY_KEY: ReadonlyMap<CheckKey, CheckDefinition> = new Map(CHECKS.map((c) => [c.key, c]));
@@ -222,8 +235,8 @@ export interface PlannedCheck {
 
 /** The checks a new planned model starts with: every check that applies to its kind of model. */
 export function defaultChecks(hasTreatment: boolean, family = "gaussian"): PlannedCheck[] {
-  const kind = family === "gaussian" ? "linear" : "glm";
-  return CHECKS.filter((c) => (hasTreatment || !c.needsTreatment) && (c.models === "both" || c.models === kind)).map((c) => ({
+  const kind = family === "gaussian" ? "linear" : family === "cox" ? "cox" : "glm";
+  return CHECKS.filter((c) => (hasTreatment || !c.needsTreatment) && ((c.models === "both" && kind !== "cox") || c.models === kind)).map((c) => ({
     key: c.key,
     enabled: true,
     threshold: c.defaultThreshold,
@@ -377,6 +390,7 @@ export function evaluateChecks(r: ModelResult, planned: readonly PlannedCheck[])
     const def = CHECK_BY_KEY.get(pc.key);
     if (!def) continue;
     const k = pc.threshold;
+    if (def.models === "cox") continue;
     if (def.models !== "both" && def.models !== r.kind) {
       out.push(notApplicable(def, pc, r.kind));
       continue;

@@ -1,4 +1,5 @@
 import { Link } from "react-router";
+import { CoxReportTables } from "~/components/cox-results";
 import type { Route } from "./+types/study-report";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { Caution } from "~/components/caution";
@@ -116,8 +117,16 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
           <h2 id="coef-h" className="mb-2">
             Coefficients
           </h2>
-          <CoefficientTable rows={results.coefficients} covarianceType={results.covarianceType} df={results.dfResidual} />
+          <CoefficientTable rows={results.coefficients} covarianceType={results.covarianceType} df={results.dfResidual ?? 0} statisticName={results.cox ? "z" : undefined} />
         </section>
+        {results.cox ? (
+          <section className="panel p-4" aria-labelledby="hr-h">
+            <h2 id="hr-h" className="mb-2">
+              Hazard ratios and tests
+            </h2>
+            <CoxReportTables cox={results.cox} robust={results.cox.robust} />
+          </section>
+        ) : null}
 
         <section aria-labelledby="checks-h" className="space-y-3">
           <h2 id="checks-h">Checks of the plan</h2>

@@ -13,6 +13,7 @@ import { FIGURE_KEYS } from "~/components/figures/specs";
 import { loadLockedTable } from "~/.server/datasets/catalog.server";
 import { figureAnswer } from "~/.server/reruns/figure-answers.server";
 import { FigureUnavailableError } from "~/.server/reruns/figure-data.server";
+import { COX_NEEDS_TABLE } from "~/.server/reruns/cox-figure-data.server";
 import { getRerun } from "~/.server/reruns/reruns.server";
 import { rerunTable } from "~/.server/reruns/what-if.server";
 import { seesSubjects } from "~/.server/permissions.server";
@@ -21,7 +22,7 @@ import type { FigureKey } from "~/engine/checks";
 
 const figureSchema = z.enum(FIGURE_KEYS as [FigureKey, ...FigureKey[]]);
 /** Figures that plot covariate values or arms. */
-const NEEDS_TABLE: readonly FigureKey[] = ["residuals_covariate", "partial_residuals", "spread_by_arm"];
+const NEEDS_TABLE: readonly FigureKey[] = ["residuals_covariate", "partial_residuals", "spread_by_arm", ...COX_NEEDS_TABLE];
 
 const headers = { "Cache-Control": "private, no-store" };
 

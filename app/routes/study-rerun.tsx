@@ -13,6 +13,7 @@ import { fmt, fmtCi, fmtP, utc } from "~/components/format";
 import { FieldError, PageHeader } from "~/components/page";
 import { AdjustedMeansTable, CalibrationTable, CheckCard, checkTally, CoefficientTable, ContrastsTable, MarginalMeansTable, RatioTable, SensitivityTable } from "~/components/rerun-results";
 import { StatusLabel } from "~/components/status";
+import { coxPageFigures, CoxResults } from "~/components/cox-results";
 import { canonicalJson } from "~/.server/audit.server";
 import { loadLockedTable } from "~/.server/datasets/catalog.server";
 import { actorOf } from "~/.server/people.server";
@@ -268,13 +269,15 @@ function AssessmentForm({ intent, findingId, errors, busy }: { intent: "assess" 
   );
 }
 
-type PageView = NonNullable<Route.ComponentProps["loaderData"]["view"]>;
+type AnyView = NonNullable<Route.ComponentProps["loaderData"]["view"]>;
+type PageView = Exclude<AnyView, { kind: "cox" }>;
 
 /** The covariate a check's figure is drawn for, when the figure is by covariate. */
 const checkTerm = (view: PageView, figure: FigureKey) => (figure === "residuals_covariate" || figure === "partial_residuals" ? view.continuousTerms[0] : undefined);
 
 /** The results page's figure addresses in page order (keep in step with the figures below), for the figure worker to fetch early. */
-function pageFigureUrls(view: PageView, studyId: string, rerunId: string): string[] {
+function pageFigureUrls(view: AnyView, studyId: string, rerunId: string): string[] {
+  if (view.kind === "cox") return [...new Set(coxPageFigures(view).map((f) => figureUrl(studyId, rerunId, f.figure, f.term)))];
   const figures: { figure: FigureKey; term?: string }[] = [
     ...view.checks.map((c) => ({ figure: c.figure, term: checkTerm(view, c.figure) })),
     ...view.continuousTerms.map((term) => ({ figure: "partial_residuals" as const, term })),
@@ -377,7 +380,13 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
         </section>
       ) : null}
 
-      {view ? (
+      {view?.kind === "cox" ? (
+        <div className="space-y-6">
+          <FigureWorkerStart figures={pageFigureUrls(view, studyId, rerun.id)} />
+          <CoxResults view={view} studyId={studyId} rerunId={rerun.id} />
+          <FigureFramesReady />
+        </div>
+      ) : view ? (
         <div className="space-y-6">
           <FigureWorkerStart figures={pageFigureUrls(view, studyId, rerun.id)} />
           <section aria-labelledby="rows-h">

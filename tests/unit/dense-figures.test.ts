@@ -50,7 +50,7 @@ function largeDoc(): RerunDocument {
 
 const doc = largeDoc() as RerunDocument & { table: { columns: Record<string, string[]>; rowNumbers: number[] } };
 const table = doc.table;
-const r = doc.result;
+const r = doc.result.kind === "linear" ? doc.result : (() => { throw new Error("the dense test document is a linear rerun"); })();
 const opts = { withSubjectIds: true, table };
 
 /** Data rows flagged by any influence check: what the scatter figures mark as beyond a threshold. */

@@ -80,6 +80,26 @@ export async function listStudyReruns(p: ApiPrincipal, studyId: string): Promise
 }
 
 function resultsOut(doc: RerunDocument): NonNullable<Body<typeof RerunAnswer>["results"]> {
+  if (doc.result.kind === "cox") {
+    // Cox models: log hazard ratios (robust SE when the fit is robust); the full answer is the headless command's
+    const c = doc.result;
+    const nothing = { sigma: null, rSquared: null, adjRSquared: null, fStatistic: null, fP: null, aic: null, deviance: null, dispersion: null };
+    return {
+      description: doc.description,
+      method: `Cox proportional hazards (partial likelihood, ${c.ties} ties${c.strata.length ? `, ${c.strata.length} strata` : ""})`,
+      family: "cox",
+      link: "log",
+      covarianceType: null,
+      n: c.n,
+      rank: c.coefficients.length,
+      dfResidual: null,
+      rows: doc.rows,
+      coefficients: c.coefficients.map((x) => ({ name: x.name, term: x.term, estimate: finite(x.estimate), se: finite(c.robust ? x.robustSe : x.se), statistic: finite(x.statistic), p: finite(x.p), lower: finite(x.lower), upper: finite(x.upper) })),
+      fit: nothing,
+      adjustedMeans: null,
+      contrasts: null,
+    };
+  }
   const r = doc.result;
   const common = {
     description: doc.description,

@@ -9,6 +9,7 @@ import { z } from "zod";
 import { CAUTION } from "~/components/caution";
 import { CHECKS, type CheckKey } from "~/engine/checks";
 import { modelSpecSchema } from "~/engine/model-spec";
+import { coxSpecSchema } from "~/engine/survival/cox-spec";
 import { STUDY_ROLES } from "../db/schema";
 import { STUDY_PERMISSIONS, type StudyAction } from "../permissions.server";
 import { plannedCheckSchema, populationSchema, sensitivitySchema } from "../plans/planned-model";
@@ -142,7 +143,7 @@ const PlannedModel = registry.register(
     title: z.string(),
     datasetName: z.string(),
     population: populationSchema,
-    spec: modelSpecSchema.describe("The model specification: the same object the headless rerun command reads"),
+    spec: z.union([modelSpecSchema, coxSpecSchema]).describe("The model specification: the same object the headless rerun command reads"),
     checks: z.array(plannedCheckSchema),
     sensitivity: z.array(sensitivitySchema),
   }),
@@ -188,7 +189,7 @@ const Results = registry.register(
   z.strictObject({
     description: z.string(),
     method: z.string(),
-    family: z.string().describe("gaussian, binomial, poisson, quasipoisson or negative-binomial"),
+    family: z.string().describe("gaussian, binomial, poisson, quasipoisson, negative-binomial or cox (time to event)"),
     link: z.string(),
     covarianceType: z.enum(["model", "HC0", "HC1", "HC2", "HC3"]).nullable().describe("Linear models: the coefficient table's standard errors"),
     n: z.int(),

@@ -22,6 +22,8 @@ import { getStudyOr404 } from "../studies.server";
 import { NARRATIVE_SECTIONS, SECTION_TITLES, type AppendixContent, type AppendixSection, type Block, type NarrativeSection } from "~/components/appendix-content";
 import { redaction, type Redaction } from "../redaction.server";
 import { methodsProse } from "./methods";
+import { COX_FIGURE_WORDS, coxResultBlocks, coxMarkedInWords } from "./cox-content";
+import { coxFigureList } from "../reruns/cox-figure-data.server";
 import { currentNarratives, type Narrative } from "./narratives.server";
 
 export type AppendixScope = { kind: "rerun"; rerunId: string } | { kind: "plan_version"; planVersionId: string };
@@ -60,10 +62,12 @@ const FIGURE_WORDS: Record<FigureKey, { caption: string; shows: string; healthy:
     healthy: "every point close to the line",
     checks: [],
   },
+  ...COX_FIGURE_WORDS,
 };
 
 /** The alt text's sentence on what the figure marks: subjects beyond a threshold, bins outside their band, or the test. */
 function markedInWords(d: FigureData): string {
+  if (d.figure === "kaplan_meier" || d.figure === "log_minus_log") return coxMarkedInWords(d);
   if (plotsSubjects(d)) {
     const beyond = d.rows.filter((row) => row.status === BEYOND).length;
     return `${beyond} subject${beyond === 1 ? " is" : "s are"} drawn as open triangles for being beyond a planned threshold.`;
@@ -172,7 +176,7 @@ function figureBlocks(p: RerunPart, next: ReturnType<typeof counter>): Block[] {
   const blocks: Block[] = [];
   const { continuous } = figureTerms(p.doc);
   const covariates = continuous.filter((c) => c !== p.doc.result.spec.treatment);
-  const wanted: { figure: FigureKey; term?: string }[] = [
+  const wanted: { figure: FigureKey; term?: string }[] = p.doc.result.kind === "cox" ? coxFigureList(p.doc.result) : [
     { figure: "residuals_fitted" },
     { figure: "qq" },
     { figure: "influence" },
@@ -284,6 +288,10 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
 
   const results: Block[] = [];
   for (const p of parts) {
+    if (p.doc.result.kind === "cox") {
+      results.push(...modelHeading(p, many), ...coxResultBlocks(p.doc.result, p.rerunId, p.modelTitle, next));
+      continue;
+    }
     const r = p.doc.result;
     const fitWords =
       r.kind === "linear"

@@ -4,13 +4,15 @@
  */
 import { CHECK_BY_KEY, type PlannedCheck } from "~/engine/checks";
 import { CANONICAL_LINK, type ModelSpec } from "~/engine/model-spec";
+import type { CoxSpec } from "~/engine/survival/cox-spec";
+import { coxMethodsParagraphs } from "./cox-methods";
 import { SENSITIVITY_LABELS, type PlannedSensitivity, type Population } from "../plans/planned-model";
 
 export interface MethodsInput {
   title: string;
   datasetName: string;
   population: Population;
-  spec: ModelSpec;
+  spec: ModelSpec | CoxSpec;
   checks: PlannedCheck[];
   sensitivity: PlannedSensitivity[];
   /** Column labels of the locked dataset, by column name. */
@@ -52,33 +54,36 @@ export function methodsProse(m: MethodsInput): { paragraphs: string[]; checks: s
         ? `The analysis population consisted of the records with ${named(m.population.column, m.labels)} equal to "${m.population.value}".`
         : "All records of the dataset formed the analysis population."),
   );
-  paragraphs.push(
-    `The endpoint was ${named(s.response, m.labels)}. ` +
-      (s.family === "gaussian"
-        ? `It was analysed with a linear model (normal errors, identity link) estimated by ${s.weights ? `weighted least squares with prior weights from ${s.weights}` : "ordinary least squares"}`
-        : `It was analysed with a generalized linear model (${s.family} family, ${s.link ?? CANONICAL_LINK[s.family]} link) estimated by maximum likelihood${s.weights ? ` with prior weights from ${s.weights}` : ""}`) +
-      `${s.intercept === false ? " without an intercept" : ""}${s.offset ? `, with ${s.offset} entered as an offset` : ""}. ` +
-      "Records with a missing value in the endpoint or in any model term were left out (complete-case analysis).",
-  );
-  if (treatment) {
+  if (s.family === "cox") paragraphs.push(...coxMethodsParagraphs(s, (col) => named(col, m.labels), list));
+  else {
     paragraphs.push(
-      `Treatment was entered as ${named(treatment.variable, m.labels)}, a categorical factor with ${treatment.reference ? `"${treatment.reference}"` : "its first level"} as the reference arm.` +
-        (covariates.length
-          ? ` The model adjusted for ${list(covariates.map((c) => `${named(c.variable, m.labels)} (${c.categorical ? `categorical${c.reference ? `, reference "${c.reference}"` : ""}` : "continuous"})`))}.`
-          : " No covariates were pre-specified.") +
-        (interactions.length ? ` Interactions pre-specified: ${list(interactions)}.` : ""),
+      `The endpoint was ${named(s.response, m.labels)}. ` +
+        (s.family === "gaussian"
+          ? `It was analysed with a linear model (normal errors, identity link) estimated by ${s.weights ? `weighted least squares with prior weights from ${s.weights}` : "ordinary least squares"}`
+          : `It was analysed with a generalized linear model (${s.family} family, ${s.link ?? CANONICAL_LINK[s.family]} link) estimated by maximum likelihood${s.weights ? ` with prior weights from ${s.weights}` : ""}`) +
+        `${s.intercept === false ? " without an intercept" : ""}${s.offset ? `, with ${s.offset} entered as an offset` : ""}. ` +
+        "Records with a missing value in the endpoint or in any model term were left out (complete-case analysis).",
     );
-    if (s.family !== "gaussian") {
+    if (treatment) {
       paragraphs.push(
-        "Each arm was compared with the reference arm by marginal (standardized) contrasts: the model's predicted response for every analysed subject was averaged with the subject assigned to each arm in turn, and the arms' averages were compared as differences and ratios with two-sided 95% confidence intervals.",
+        `Treatment was entered as ${named(treatment.variable, m.labels)}, a categorical factor with ${treatment.reference ? `"${treatment.reference}"` : "its first level"} as the reference arm.` +
+          (covariates.length
+            ? ` The model adjusted for ${list(covariates.map((c) => `${named(c.variable, m.labels)} (${c.categorical ? `categorical${c.reference ? `, reference "${c.reference}"` : ""}` : "continuous"})`))}.`
+            : " No covariates were pre-specified.") +
+          (interactions.length ? ` Interactions pre-specified: ${list(interactions)}.` : ""),
       );
-    } else paragraphs.push(
-      "Adjusted means of the endpoint per arm were computed from the fitted model with continuous covariates held at their mean over the records analysed" +
-        (m.meansWeighting === "proportional" ? " and categorical covariates averaged in proportion to their observed frequencies" : " and categorical covariates averaged with equal weight over their levels") +
-        " (population marginal means, Searle, Speed and Milliken 1980). Each arm was compared with the reference arm by the difference in adjusted means with a two-sided 95% confidence interval and p-value from the t distribution on the residual degrees of freedom.",
-    );
-  } else if (covariates.length) {
-    paragraphs.push(`The model's terms were ${list(covariates.map((c) => named(c.variable, m.labels)))}.`);
+      if (s.family !== "gaussian") {
+        paragraphs.push(
+          "Each arm was compared with the reference arm by marginal (standardized) contrasts: the model's predicted response for every analysed subject was averaged with the subject assigned to each arm in turn, and the arms' averages were compared as differences and ratios with two-sided 95% confidence intervals.",
+        );
+      } else paragraphs.push(
+        "Adjusted means of the endpoint per arm were computed from the fitted model with continuous covariates held at their mean over the records analysed" +
+          (m.meansWeighting === "proportional" ? " and categorical covariates averaged in proportion to their observed frequencies" : " and categorical covariates averaged with equal weight over their levels") +
+          " (population marginal means, Searle, Speed and Milliken 1980). Each arm was compared with the reference arm by the difference in adjusted means with a two-sided 95% confidence interval and p-value from the t distribution on the residual degrees of freedom.",
+      );
+    } else if (covariates.length) {
+      paragraphs.push(`The model's terms were ${list(covariates.map((c) => named(c.variable, m.labels)))}.`);
+    }
   }
   paragraphs.push(
     "The plan committed to the diagnostic checks below, each with a threshold fixed before the data were seen. A check whose statistic crossed its threshold was recorded as a finding; every finding was assessed and documented as a deviation before the rerun was signed.",

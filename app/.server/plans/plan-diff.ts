@@ -19,6 +19,23 @@ interface HeaderLike {
   sapDate: string | null;
 }
 
+/** Time-to-event fields in reviewers' words (status, event values, strata, ties, time scale). */
+function survivalDiff(a: PlannedModel["spec"], b: PlannedModel["spec"]): string[] {
+  const words = (s: PlannedModel["spec"]): [string, string][] =>
+    s.family === "cox"
+      ? [
+          ["Status", `${s.status.column} (event: ${s.status.event.join(", ")})`],
+          ["Strata", s.strata.join(", ") || "none"],
+          ["Ties", s.ties],
+          ["Proportional-hazards time scale", s.proportionalHazards.transform],
+        ]
+      : [];
+  const wa = new Map(words(a));
+  const out: string[] = [];
+  for (const [k, v] of words(b)) if (wa.get(k) !== v) out.push(`${k}: ${wa.get(k) ?? "none"} → ${v}`);
+  return out;
+}
+
 function termText(m: PlannedModel): Map<string, string> {
   const out = new Map<string, string>();
   for (const t of m.spec.terms) {
@@ -40,7 +57,8 @@ function compareModel(a: PlannedModel, b: PlannedModel): string[] {
   field("Population", a.population ? `${a.population.column} = ${a.population.value}` : null, b.population ? `${b.population.column} = ${b.population.value}` : null);
   field("Endpoint", a.spec.response, b.spec.response);
   field("Family", a.spec.family, b.spec.family);
-  field("Link", a.spec.link, b.spec.link);
+  field("Link", "link" in a.spec ? a.spec.link : undefined, "link" in b.spec ? b.spec.link : undefined);
+  if (a.spec.family === "cox" || b.spec.family === "cox") for (const line of survivalDiff(a.spec, b.spec)) out.push(line);
   field("Treatment", a.spec.treatment, b.spec.treatment);
   field("Weights", a.spec.weights, b.spec.weights);
   field("Offset", a.spec.offset, b.spec.offset);

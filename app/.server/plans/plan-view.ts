@@ -1,9 +1,20 @@
 /** Shapes a stored planned model for display (plain data for loaders). */
 import { CANONICAL_LINK } from "~/engine/model-spec";
+import type { CoxSpec } from "~/engine/survival/cox-spec";
 import { CHECK_BY_KEY } from "~/engine/checks";
 import type { PlannedModelView } from "~/components/planned-model-summary";
 import { SENSITIVITY_LABELS } from "./planned-model";
 import type { StoredPlannedModel } from "./plans.server";
+
+/** A time-to-event model's own fields in words. */
+function survivalWords(s: CoxSpec): [string, string][] {
+  return [
+    ["Status", `${s.status.column}; event when ${s.status.event.join(" or ")}`],
+    ["Strata", s.strata.length ? s.strata.join(", ") : "none"],
+    ["Ties", s.ties === "efron" ? "Efron" : "Breslow"],
+    ["PH test time scale", { km: "Kaplan–Meier", rank: "rank", identity: "time", log: "log time" }[s.proportionalHazards.transform]],
+  ];
+}
 
 export function plannedModelView(m: StoredPlannedModel): PlannedModelView {
   const main = m.spec.terms.filter((t): t is { variable: string; categorical?: boolean; reference?: string } => "variable" in t);
@@ -16,7 +27,8 @@ export function plannedModelView(m: StoredPlannedModel): PlannedModelView {
     population: m.population,
     response: m.spec.response,
     family: m.spec.family,
-    link: m.spec.link ?? CANONICAL_LINK[m.spec.family],
+    link: m.spec.family === "cox" ? "log hazard ratio (partial likelihood)" : (m.spec.link ?? CANONICAL_LINK[m.spec.family]),
+    ...(m.spec.family === "cox" ? { survival: survivalWords(m.spec) } : {}),
     treatment: m.spec.treatment ?? null,
     reference: treatment?.reference ?? null,
     covariates: main

@@ -9,6 +9,8 @@ import { CHECKS, type CheckKey, type PlannedCheck } from "~/engine/checks";
 import { modelSpecSchema, type ModelSpec, type Term } from "~/engine/model-spec";
 import type { ColumnMeta } from "../datasets/catalog.server";
 import { categoricalHints, isNumericType } from "../datasets/categorical-hint";
+import { coxSpecSchema, type CoxSpec } from "~/engine/survival/cox-spec";
+import { readSurvivalForm, survivalFormOf, validateSurvival, type SurvivalForm } from "./cox-planned-model";
 
 export const SENSITIVITY_KINDS = ["robust_hc3", "variance_function", "exclude_influential", "alternative_covariates", "quasi_poisson", "negative_binomial"] as const;
 export type SensitivityKind = (typeof SENSITIVITY_KINDS)[number];
@@ -48,7 +50,8 @@ export const plannedModelSchema = z.object({
   title: z.string(),
   datasetName: z.string(),
   population: populationSchema,
-  spec: modelSpecSchema,
+  /** A linear or generalized linear model, or a time-to-event (Cox) model: narrow on `spec.family === "cox"`. */
+  spec: z.union([modelSpecSchema, coxSpecSchema]),
   checks: z.array(plannedCheckSchema),
   sensitivity: z.array(sensitivitySchema),
 });
@@ -58,7 +61,7 @@ export type FieldErrors = Record<string, string>;
 
 /** The editor's fields, as posted. */
 /** The model families the editor offers; anything else is refused, never stored as another family. */
-export const MODEL_FAMILIES = ["gaussian", "binomial", "poisson"] as const;
+export const MODEL_FAMILIES = ["gaussian", "binomial", "poisson", "cox"] as const;
 
 export interface PlannedModelForm {
   key: string;
@@ -79,6 +82,8 @@ export interface PlannedModelForm {
   id: string;
   checks: PlannedCheck[];
   sensitivity: PlannedSensitivity[];
+  /** Time-to-event fields, read when the family is "cox" (cox-planned-model.ts). */
+  survival?: SurvivalForm;
 }
 
 const str = (f: FormData, k: string): string => String(f.get(k) ?? "").trim();
@@ -128,6 +133,7 @@ export function readPlannedModelForm(f: FormData): PlannedModelForm {
       threshold: Number(str(f, `check:${c.key}:threshold`) || c.defaultThreshold),
       remedy: str(f, `check:${c.key}:remedy`) || c.defaultRemedy,
     })),
+    ...(str(f, "family") === "cox" ? { survival: readSurvivalForm(f) } : {}),
     sensitivity: SENSITIVITY_KINDS.filter((k) => f.get(`sensitivity:${k}`) === "on").map((kind) => ({
       kind,
       ...(kind === "variance_function" ? { varianceBy: str(f, "sensitivity:varianceBy") === "treatment" ? ("treatment" as const) : ("fitted" as const) } : {}),
@@ -255,6 +261,8 @@ export function validatePlannedModel(
   for (const s of form.sensitivity) {
     if ((s.kind === "quasi_poisson" || s.kind === "negative_binomial") && family !== "poisson")
       errors[`sensitivity:${s.kind}`] = "Quasi-Poisson and negative binomial analyses apply to a Poisson model of counts.";
+    if (s.kind === "exclude_influential" && family === "cox")
+      errors[`sensitivity:${s.kind}`] = "Excluding subjects flagged by Cook's distance applies to linear and generalized linear models.";
     if ((s.kind === "robust_hc3" || s.kind === "variance_function") && family !== "gaussian")
       errors[`sensitivity:${s.kind}`] = "This remedy applies to a linear model; for counts plan quasi-Poisson or negative binomial instead.";
     if (s.kind === "alternative_covariates" && (!s.covariates || s.covariates.length === 0))
@@ -268,6 +276,12 @@ export function validatePlannedModel(
       errors["sensitivity:varianceBy"] = "Variance per arm needs a treatment variable.";
   }
 
+  if (family === "cox") {
+    const cox = validateSurvival(form, terms, dataset, errors);
+    if (!cox) return { ok: false, errors };
+    const checks = form.checks.map((c) => (CHECKS.find((d) => d.key === c.key)?.models === "cox" ? c : { ...c, enabled: false }));
+    return { ok: true, model: { key: form.key, title: form.title, datasetName: dataset.name, population, spec: cox, checks, sensitivity: form.sensitivity } };
+  }
   if (Object.keys(errors).length > 0) return { ok: false, errors };
   const spec: ModelSpec = modelSpecSchema.parse({
     response: form.response,
@@ -288,6 +302,7 @@ export function validatePlannedModel(
 
 /** The editor's fields for an existing planned model (the inverse of readPlannedModelForm). */
 export function toForm(m: PlannedModel): PlannedModelForm {
+  if (m.spec.family === "cox") return coxToForm(m, m.spec);
   const main = m.spec.terms.filter((t): t is Extract<Term, { variable: string }> => "variable" in t);
   const treatmentTerm = main.find((t) => t.variable === m.spec.treatment);
   return {
@@ -310,5 +325,33 @@ export function toForm(m: PlannedModel): PlannedModelForm {
     id: m.spec.id ?? "",
     checks: m.checks,
     sensitivity: m.sensitivity,
+  };
+}
+
+/** toForm for a time-to-event model. */
+function coxToForm(m: PlannedModel, spec: CoxSpec): PlannedModelForm {
+  const main = spec.terms.filter((t): t is Extract<Term, { variable: string }> => "variable" in t);
+  const treatmentTerm = main.find((t) => t.variable === spec.treatment);
+  return {
+    key: m.key,
+    title: m.title,
+    datasetName: m.datasetName,
+    populationColumn: m.population?.column ?? "",
+    populationValue: m.population?.value ?? "",
+    response: spec.response,
+    family: "cox",
+    link: "",
+    treatment: spec.treatment ?? "",
+    treatmentReference: treatmentTerm?.reference ?? "",
+    covariates: main
+      .filter((t) => t.variable !== spec.treatment)
+      .map((t) => ({ variable: t.variable, categorical: t.categorical ?? null, reference: t.reference ?? "" })),
+    interactions: spec.terms.flatMap((t) => ("interaction" in t ? [t.interaction] : [])),
+    weights: spec.weights ?? "",
+    offset: spec.offset ?? "",
+    id: spec.id ?? "",
+    checks: m.checks,
+    sensitivity: m.sensitivity,
+    survival: survivalFormOf(spec),
   };
 }

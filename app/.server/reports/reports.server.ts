@@ -109,12 +109,14 @@ export async function getReport(studyId: string, rerunId: string) {
       method: view.method,
       rows: view.rows,
       n: view.n,
-      dfResidual: view.dfResidual,
+      dfResidual: "dfResidual" in view ? view.dfResidual : null,
       covarianceType: "covarianceType" in view ? view.covarianceType : "model",
       coefficients: view.coefficients.map((c) => ({ name: c.name, estimate: c.estimate, se: c.se, statistic: c.statistic, p: c.p, lower: c.lower, upper: c.upper })),
       adjustedMeans: "adjustedMeans" in view && view.adjustedMeans ? view.adjustedMeans : null,
       adjustedMeansWeighting: "adjustedMeansWeighting" in view ? view.adjustedMeansWeighting : null,
-      contrasts: view.contrasts,
+      contrasts: "contrasts" in view ? view.contrasts : [],
+      /** Time-to-event models: hazard ratios, the model's tests and the proportional-hazards test (no subject-level data). */
+      cox: view.kind === "cox" ? { robust: view.robust, ratios: view.ratios, tests: view.tests, proportionalHazards: view.proportionalHazards, events: view.fit.events, concordance: view.fit.concordance } : null,
     },
     checks: view.checks.map((c) => ({
       key: c.key,

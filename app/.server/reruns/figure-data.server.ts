@@ -23,6 +23,7 @@ import { normalQuantile } from "~/engine/distributions";
 import { loessCurve, type SmoothPoint } from "~/engine/loess";
 import type { GlmResult, ModelResult } from "~/engine";
 import type { RerunDocument } from "./reruns.server";
+import { coxFigureData } from "./cox-figure-data.server";
 import { axisBins, blockMaxima, boxSummaries, densityCells, qqKept, round } from "./figure-summaries.server";
 
 /** Cells as text by column, with the 1-based data row of each row (the engine's table input). */
@@ -233,6 +234,7 @@ function eventOf(r: GlmResult): string {
 
 /** The rows of one figure of a rerun. Throws FigureUnavailableError when it cannot be drawn. */
 export function figureData(doc: RerunDocument, figure: FigureKey, opts: FigureOptions): FigureData {
+  if (doc.result.kind === "cox") return coxFigureData(doc, doc.result, figure, opts);
   const r = doc.result;
   const obs = r.observations;
   const n = r.n;
@@ -412,6 +414,8 @@ export function figureData(doc: RerunDocument, figure: FigureKey, opts: FigureOp
       }));
       return { figure, ...b, withSubjectIds: false, event: eventOf(g), rows, test: { statistic: c.statistic, df: c.df, p: c.p }, caution: c.caution };
     }
+    default:
+      throw new FigureUnavailableError(`the ${figure} figure is drawn for time-to-event (Cox) models only`);
   }
 }
 

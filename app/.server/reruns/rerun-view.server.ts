@@ -7,6 +7,7 @@
 import type { CheckOutcome } from "~/engine/checks";
 import type { Redaction } from "../redaction.server";
 import type { RerunDocument } from "./reruns.server";
+import { coxReportedContrasts, coxRerunView } from "./cox-rerun-view.server";
 
 export interface ContrastView {
   label: string;
@@ -26,6 +27,8 @@ export interface ContrastView {
  */
 export function contrastsOf(doc: RerunDocument): ContrastView[] {
   const r = doc.result;
+  // a Cox model reports hazard ratios instead (coxRerunView, coxReportedContrasts)
+  if (r.kind === "cox") return [];
   if (r.kind === "linear") {
     return (r.contrasts ?? []).map((c) => ({
       label: c.label,
@@ -53,6 +56,7 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
  * otherwise. For binary endpoints the risk difference is the headline measure.
  */
 export function reportedContrasts(doc: RerunDocument): { label: string; estimate: number; lower: number; upper: number; p: number }[] {
+  if (doc.result.kind === "cox") return coxReportedContrasts(doc.result);
   const robust = doc.options.variant === "robust_hc3";
   const all = contrastsOf(doc);
   const headline = doc.result.kind === "glm" && doc.result.family === "binomial" ? all.filter((c) => c.label.endsWith("(risk difference)")) : all;
@@ -72,6 +76,7 @@ export function checkView(c: CheckOutcome, redact: Redaction) {
 }
 
 export function rerunView(doc: RerunDocument, redact: Redaction) {
+  if (doc.result.kind === "cox") return coxRerunView(doc, doc.result, redact);
   const r = doc.result;
   const common = {
     description: redact.text(doc.description),

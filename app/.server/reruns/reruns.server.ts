@@ -10,6 +10,9 @@ import { and, asc, desc, eq, getTableColumns, inArray } from "drizzle-orm";
 import { LRUCache } from "lru-cache";
 import { data } from "react-router";
 import { evaluateChecks, type CheckOutcome } from "~/engine/checks";
+import { evaluateCoxChecks } from "~/engine/survival/cox-checks";
+import { fitCoxModel, type CoxResult } from "~/engine/survival/cox-model";
+import { coxFunctionalForm, type FunctionalFormTest } from "~/engine/survival/functional-form";
 import { EngineError, ENGINE_VERSION, fitModel, fitWithEstimatedVariance, fitWithRobustErrors, RESULTS_CAUTION, type ModelResult, type ModelSpec, type Term } from "~/engine";
 import { appendAudit, canonicalJson, SYSTEM_ACTOR } from "../audit.server";
 import { loadLockedTable } from "../datasets/catalog.server";
@@ -35,8 +38,11 @@ export interface RerunDocument {
   description: string;
   rows: { inFile: number; outsidePopulation: number; excludedByOption: number; missingCells: number; used: number };
   population: Population;
-  result: ModelResult;
+  /** Linear, generalized linear or Cox (`kind` "cox"): narrow on `result.kind`. */
+  result: ModelResult | CoxResult;
   checks: CheckOutcome[];
+  /** Cox reruns: the likelihood-ratio test of an added square per continuous covariate (the functional-form check and figures read it). */
+  coxFunctionalForm?: FunctionalFormTest[];
 }
 
 export const RERUN_JOB = "rerun";
@@ -55,7 +61,7 @@ function filterRows(table: ColumnTable, keep: (i: number) => boolean): ColumnTab
 }
 
 /** The alternative covariate set: the treatment plus the chosen covariates, as the plan defines them. */
-function alternativeSpec(spec: ModelSpec, covariates: string[]): ModelSpec {
+function alternativeSpec<S extends Pick<ModelSpec, "terms" | "treatment">>(spec: S, covariates: string[]): S {
   const main = spec.terms.filter((t): t is Extract<Term, { variable: string }> => "variable" in t);
   const keep = new Set([...(spec.treatment ? [spec.treatment] : []), ...covariates]);
   const terms: Term[] = [
@@ -81,7 +87,30 @@ export function computeRerun(model: StoredPlannedModel, table: ColumnTable, opti
     working = filterRows(working, (i) => !drop.has(working.rowNumbers[i]));
   }
   const excludedByOption = inPopulation - working.rowNumbers.length;
-  let spec = options.variant === "alternative_covariates" ? alternativeSpec(model.spec, options.covariates) : model.spec;
+  const doc = (result: ModelResult | CoxResult, checks: CheckOutcome[]): RerunDocument => ({
+    engineVersion: ENGINE_VERSION,
+    caution: RESULTS_CAUTION,
+    datasetSha256: meta.datasetSha256,
+    planVersionId: meta.planVersionId,
+    plannedModel: { key: model.key, title: model.title },
+    options,
+    description: describeOptions(options),
+    rows: { inFile, outsidePopulation: inFile - inPopulation, excludedByOption, missingCells: result.excluded, used: result.n },
+    population: model.population,
+    result,
+    checks,
+  });
+  if (model.spec.family === "cox") {
+    if (options.variant !== "planned" && options.variant !== "exclude_rows" && options.variant !== "alternative_covariates") {
+      throw new EngineError(`the ${describeOptions(options).toLowerCase()} analysis does not apply to a time-to-event (Cox) model`);
+    }
+    const coxSpec = options.variant === "alternative_covariates" ? alternativeSpec(model.spec, options.covariates) : model.spec;
+    const result = fitCoxModel(coxSpec, working);
+    const functionalForm = coxFunctionalForm(coxSpec, working, result);
+    return { ...doc(result, evaluateCoxChecks(result, model.checks, functionalForm)), coxFunctionalForm: functionalForm };
+  }
+  const planned = model.spec;
+  let spec = options.variant === "alternative_covariates" ? alternativeSpec(planned, options.covariates) : planned;
   if (options.variant === "family") {
     if (spec.family !== "poisson") throw new EngineError(`a ${options.family} analysis applies to a Poisson model of counts, not to a ${spec.family} model`);
     spec = { ...spec, family: options.family };
@@ -100,19 +129,7 @@ export function computeRerun(model: StoredPlannedModel, table: ColumnTable, opti
     default:
       result = fitModel(spec, working);
   }
-  return {
-    engineVersion: ENGINE_VERSION,
-    caution: RESULTS_CAUTION,
-    datasetSha256: meta.datasetSha256,
-    planVersionId: meta.planVersionId,
-    plannedModel: { key: model.key, title: model.title },
-    options,
-    description: describeOptions(options),
-    rows: { inFile, outsidePopulation: inFile - inPopulation, excludedByOption, missingCells: result.excluded, used: result.n },
-    population: model.population,
-    result,
-    checks: evaluateChecks(result, model.checks),
-  };
+  return doc(result, evaluateChecks(result, model.checks));
 }
 
 export function hashDocument(json: string): string {

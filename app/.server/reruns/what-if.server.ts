@@ -112,6 +112,7 @@ export async function keptWhatIfInputs(rerun: { id: string; resultSha256: string
  * (with interactions it depends on covariate means, which do).
  */
 export function whatIfInputs(doc: RerunDocument, table: RerunTable, options: WhatIfOptions = {}): WhatIfInputs {
+  if (doc.result.kind === "cox") return unavailable("The closed-form what-if is offered for linear models; this rerun is a time-to-event (Cox) model. Use a sensitivity rerun excluding the subjects.");
   if (doc.result.kind !== "linear") return unavailable("The closed-form what-if is offered for linear models; this rerun is a generalized linear model. Use a sensitivity rerun excluding the subjects.");
   const r = doc.result;
   const spec = r.spec;

@@ -14,6 +14,7 @@ import type { FigureKey } from "~/engine/checks";
 import type { SmoothPoint } from "~/engine/loess";
 
 export type { SmoothPoint } from "~/engine/loess";
+import { COX_FIGURE_KEYS, coxFigureSpec, type CoxFigureData, type CoxSubjectFigureData } from "./cox";
 
 /** The palette of DESIGN.md. */
 export const PALETTE = {
@@ -93,7 +94,7 @@ export interface SubjectRef {
   row: number | null;
 }
 
-interface FigureBase {
+export interface FigureBase {
   n: number;
   withSubjectIds: boolean;
   /** Response column name and how its unit is written on axes ("points", or "units of chg"). */
@@ -305,11 +306,11 @@ export type SubjectFigureData =
 /** Figures of a binomial model's fit, drawn from groups of subjects: their rows name no one. */
 export type GroupFigureData = BinnedResidualsData | CalibrationData;
 
-export type FigureData = SubjectFigureData | GroupFigureData;
+export type FigureData = SubjectFigureData | GroupFigureData | CoxFigureData;
 
 /** True when the figure's rows are subjects (not bins or groups of them). */
-export function plotsSubjects(d: FigureData): d is SubjectFigureData {
-  return d.figure !== "binned_residuals" && d.figure !== "calibration";
+export function plotsSubjects(d: FigureData): d is SubjectFigureData | CoxSubjectFigureData {
+  return d.figure !== "binned_residuals" && d.figure !== "calibration" && d.figure !== "kaplan_meier" && d.figure !== "log_minus_log";
 }
 
 export interface SpecOptions {
@@ -333,7 +334,7 @@ type Json = Record<string, unknown>;
  * The builders assemble plain objects; Vega-Lite's own compile() checks every one of them in
  * tests/unit/figure-specs.test.ts, which is stricter than its TypeScript types can be here.
  */
-function asSpec(spec: Json): TopLevelSpec {
+export function asSpec(spec: Json): TopLevelSpec {
   return deferTooltips(spec) as unknown as TopLevelSpec;
 }
 
@@ -426,21 +427,21 @@ export function rewrapTitle<S extends object>(spec: S, width: number): S {
   return { ...spec, title: { ...t, subtitle: paragraphs.flatMap((p) => wrapWords(p, chars)) } };
 }
 
-function title(name: string, healthy: string, extra: string[], width: number | "container"): Json {
+export function title(name: string, healthy: string, extra: string[], width: number | "container"): Json {
   const chars = width === "container" ? 90 : Math.max(40, Math.floor(width / 6.2));
   return { text: name, subtitle: [...wrapWords(`Healthy: ${healthy}`, chars), ...extra.flatMap((e) => wrapWords(e, chars))] };
 }
 
-function frame(d: { n: number }, opts: SpecOptions): Json {
+export function frame(d: { n: number }, opts: SpecOptions): Json {
   return { width: opts.width ?? 560, height: opts.height ?? 230, config: baseConfig(opts.forPrint) };
 }
 
-function dataOf(rows: readonly object[], opts: SpecOptions): Json {
+export function dataOf(rows: readonly object[], opts: SpecOptions): Json {
   return opts.inlineRows === false ? { data: { name: "rows" } } : { datasets: { rows }, data: { name: "rows" } };
 }
 
 /** Hover details: the subject first (when it may be shown), then the plotted values. */
-function tooltip(d: FigureBase, fields: { field: string; title: string; format?: string; type?: "quantitative" | "nominal" }[]): Json[] {
+export function tooltip(d: FigureBase, fields: { field: string; title: string; format?: string; type?: "quantitative" | "nominal" }[]): Json[] {
   const who: Json[] = d.withSubjectIds
     ? [
         { field: "subject", type: "nominal", title: "Subject" },
@@ -550,20 +551,20 @@ function boxLayers(boxes: readonly BoxSummary[], x: Json, yTitle: string, size: 
  * time, and read hundreds of points aloud one by one helps no one. The figure's frame names the
  * plot, and the check card beside it states the statistic, threshold and flagged subjects in words.
  */
-const NO_ARIA = { aria: false } as const;
+export const NO_ARIA = { aria: false } as const;
 
-function pointMark(): Json {
+export function pointMark(): Json {
   return { type: "point", filled: false, strokeWidth: 1.1, ...NO_ARIA };
 }
 
 /** A layer of reference marks draws once, not once per subject. */
-const ONE = { values: [{}] };
+export const ONE = { values: [{}] };
 
-function zeroRule(axis: "x" | "y"): Json {
+export function zeroRule(axis: "x" | "y"): Json {
   return { data: ONE, mark: { type: "rule", color: PALETTE.inkSoft, strokeDash: [4, 3], strokeWidth: 1 }, encoding: { [axis]: { datum: 0 } } };
 }
 
-function thresholdRule(axis: "x" | "y", t: Threshold, text: string): Json[] {
+export function thresholdRule(axis: "x" | "y", t: Threshold, text: string): Json[] {
   const label =
     axis === "y"
       ? { type: "text", color: PALETTE.finding, fontSize: 10, align: "right", baseline: "bottom", x: "width", dy: -3 }
@@ -579,7 +580,7 @@ function residualWord(d: FigureBase): string {
 }
 
 /** The smoother, computed on the server (app/engine/loess.ts) and drawn as a line. */
-function loessLayer(smooth: readonly SmoothPoint[]): Json {
+export function loessLayer(smooth: readonly SmoothPoint[]): Json {
   return {
     data: { values: smooth },
     mark: { type: "line", color: PALETTE.accent, strokeWidth: 2.2 },
@@ -1064,6 +1065,8 @@ export function figureSpec(d: FigureData, opts: SpecOptions = {}): TopLevelSpec 
       return binnedResidualsSpec(d, opts);
     case "calibration":
       return calibrationSpec(d, opts);
+    default:
+      return coxFigureSpec(d, opts);
   }
 }
 
@@ -1078,6 +1081,7 @@ export const FIGURE_KEYS: readonly FigureKey[] = [
   "spread_by_arm",
   "binned_residuals",
   "calibration",
+  ...COX_FIGURE_KEYS,
 ];
 
 // ---- sensitivity comparison ------------------------------------------------------------------

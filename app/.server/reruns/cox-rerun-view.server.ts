@@ -1,0 +1,55 @@
+/**
+ * What a results page shows of a Cox rerun: coefficients (log hazard ratios), hazard ratios
+ * with intervals, the model's tests, the proportional-hazards test per term and global, the
+ * checks, and which figures to draw. No observation-level arrays; subject ids in check texts
+ * only for people who may see subject-level data (checkView, as for the other kinds).
+ */
+import type { CoxResult } from "~/engine/survival/cox-model";
+import type { Redaction } from "../redaction.server";
+import { coxFigureList } from "./cox-figure-data.server";
+import { checkView } from "./rerun-view.server";
+import type { RerunDocument } from "./reruns.server";
+
+const TRANSFORM_WORDS = { km: "Kaplan–Meier", rank: "rank", identity: "time", log: "log time" } as const;
+
+export function coxRerunView(doc: RerunDocument, r: CoxResult, redact: Redaction) {
+  const t = r.tests;
+  return {
+    kind: "cox" as const,
+    description: doc.description,
+    rows: doc.rows,
+    population: doc.population,
+    method: `Cox proportional hazards model by partial likelihood (${r.ties === "efron" ? "Efron" : "Breslow"} ties${r.strata.length ? `, stratified by ${r.spec.strata.join(", ")}` : ""}); Wald ${r.robust ? "robust (sandwich) " : ""}95% intervals.`,
+    n: r.n,
+    treatment: r.spec.treatment ?? null,
+    strata: r.strata,
+    robust: r.robust,
+    coefficients: r.coefficients.map((c) => ({ name: c.name, term: c.term, estimate: c.estimate, se: r.robust ? c.robustSe : c.se, statistic: c.statistic, p: c.p, lower: c.lower, upper: c.upper })),
+    ratios: r.ratios,
+    fit: r.fit,
+    tests: [
+      { name: "Likelihood ratio", ...t.likelihoodRatio },
+      { name: r.robust ? "Wald (robust)" : "Wald", ...t.wald },
+      { name: "Score (log-rank)", ...t.score },
+      ...(t.robustScore ? [{ name: "Robust score", ...t.robustScore }] : []),
+      ...(t.logRank ? [{ name: r.strata.length ? "Log-rank by arm, stratified" : "Log-rank by arm", statistic: t.logRank.statistic, df: t.logRank.df, p: t.logRank.p }] : []),
+    ],
+    proportionalHazards: {
+      transform: TRANSFORM_WORDS[t.proportionalHazards.transform],
+      rows: [...t.proportionalHazards.terms.map((x) => ({ term: x.term, statistic: x.statistic, df: x.df, p: x.p })), { term: "Global", ...t.proportionalHazards.global }],
+    },
+    notes: r.notes,
+    figures: coxFigureList(r),
+    checks: doc.checks.map((c) => checkView(c, redact)),
+    engineVersion: doc.engineVersion,
+    caution: doc.caution,
+  };
+}
+
+export type CoxRerunView = ReturnType<typeof coxRerunView>;
+
+/** The treatment hazard ratios a Cox analysis reports (for the comparison of analyses). */
+export function coxReportedContrasts(r: CoxResult): { label: string; estimate: number; lower: number; upper: number; p: number }[] {
+  const t = r.spec.treatment;
+  return r.coefficients.flatMap((c, j) => (c.term === t ? [{ label: `${c.name} (hazard ratio)`, estimate: r.ratios[j].ratio, lower: r.ratios[j].lower, upper: r.ratios[j].upper, p: c.p }] : []));
+}
