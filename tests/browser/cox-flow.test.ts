@@ -12,15 +12,38 @@ import type { Browser, Page } from "playwright-core";
 import { afterAll, afterEach, beforeAll, describe, expect, inject, it } from "vitest";
 import { drawAllFigures, launchBrowser, screenshot, signInAs } from "../support/browser";
 import { COX_DATA_FILE } from "../support/cox-dataset";
+import { personId } from "../support/sessions";
 
 const stack = inject("stack");
+// The study of this file (TTE-301) is made through the services on the stack's database, so its
+// dataset, plan and signed rerun never change what other browser tests find in QMT-301.
+process.env.DATABASE_URL = `file:${stack.dbFile}`;
+process.env.DATA_DIR = stack.dataDir;
+process.env.MIGRATIONS_DIR = path.resolve("drizzle");
+const STUDY = "TTE-301";
+
+async function timeToEventStudy(): Promise<void> {
+  const { createStudy } = await import("~/.server/studies.server");
+  const { setStudyRole } = await import("~/.server/people.server");
+  const admin = { id: await personId(stack, "morgan.reyes@plumbline.example"), name: "Morgan Reyes", organisation: null };
+  const created = await createStudy(admin, { code: STUDY, title: "Time-to-event endpoints", sponsor: "Quillmoor Therapeutics", compound: null, indication: null, phase: "3" });
+  if (!created.ok) throw new Error(JSON.stringify(created.fieldErrors));
+  const roles = [
+    ["dana.okafor@plumbline.example", "data_manager"],
+    ["priya.lindqvist@plumbline.example", "biostatistician"],
+    ["tomas.berg@plumbline.example", "biostatistician"],
+    ["helen.achter@plumbline.example", "medical_writer"],
+  ] as const;
+  for (const [email, role] of roles) await setStudyRole(admin, created.study.id, await personId(stack, email), role);
+}
 let browser: Browser;
 const dir = mkdtempSync(path.join(os.tmpdir(), "plumbline-cox-"));
 
 beforeAll(async () => {
   copyFileSync(COX_DATA_FILE, path.join(dir, "adtte.csv"));
+  await timeToEventStudy();
   browser = await launchBrowser();
-});
+}, 120_000);
 afterAll(async () => {
   await browser?.close();
 });
@@ -35,7 +58,7 @@ async function as(name: string): Promise<Page> {
   current = page;
   page.setDefaultTimeout(15_000);
   await signInAs(page, stack.appUrl, name);
-  await page.getByRole("link", { name: "QMT-301" }).click();
+  await page.getByRole("link", { name: STUDY }).click();
   await page.getByRole("navigation", { name: "Study sections" }).waitFor();
   return page;
 }
@@ -69,7 +92,7 @@ describe("a stratified Cox model from plan to appendix", () => {
     const page = await as("Priya Lindqvist");
     await page.getByRole("link", { name: "Analysis plans" }).click();
     await page.getByLabel("Title").fill("Time-to-event models");
-    await page.getByLabel("SAP document").fill("Statistical analysis plan QMT-301");
+    await page.getByLabel("SAP document").fill("Statistical analysis plan TTE-301");
     await page.getByLabel("SAP version").fill("2.1");
     await page.getByLabel("SAP date").fill("2026-10-15");
     await page.getByRole("button", { name: "Start the plan" }).click();
