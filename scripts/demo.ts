@@ -32,12 +32,24 @@ const idp = await startSamlIdp({
 const oidc = await startOidcFake({ port: OIDC_PORT, stateDir: path.join(DATA_DIR, "oidc"), appUrl: APP_URL });
 const smtp = await startSmtpFake({ port: SMTP_PORT, stateDir: path.join(DATA_DIR, "smtp") });
 
+/**
+ * The browser reaches the fake identity provider by the app's host name (it listens on
+ * 127.0.0.1): over plain HTTP the cookie that binds a sign-in to its browser is SameSite=Lax, so
+ * the provider's POST back must come from the same site as APP_URL (localhost and 127.0.0.1 are
+ * different sites).
+ */
+const onAppSite = (url: string): string => {
+  const u = new URL(url);
+  u.hostname = new URL(APP_URL).hostname;
+  return u.toString();
+};
+
 const env: Record<string, string> = {
   APP_URL,
   DATA_DIR,
   DATABASE_URL: process.env.DATABASE_URL ?? `file:${path.join(DATA_DIR, "plumbline.db")}`,
-  SAML_IDP_SSO_URL: idp.ssoUrl,
-  SAML_IDP_SLO_URL: idp.sloUrl,
+  SAML_IDP_SSO_URL: onAppSite(idp.ssoUrl),
+  SAML_IDP_SLO_URL: onAppSite(idp.sloUrl),
   SAML_IDP_ISSUER: IDP_ISSUER,
   SAML_IDP_CERT_FILE: idp.certFile,
   SAML_SP_ISSUER: SP_ISSUER,
@@ -62,7 +74,7 @@ Plumbline is running at ${APP_URL}
   Demo study: ${outcome.seeded ? "seeded" : `kept as it was (${outcome.reason})`}
   Database:   ${env.DATABASE_URL}
   Audit key:  ${process.env.AUDIT_KEY ? "from AUDIT_KEY" : path.resolve(process.env.AUDIT_KEY_FILE ?? path.join(DATA_DIR, "keys", "audit-hmac.key"))} (keys the audit trail's hashes; keep a copy)
-  Sign-in:    the fake identity provider at ${idp.baseUrl} lets you choose a demo person:
+  Sign-in:    the fake identity provider at ${onAppSite(idp.baseUrl)} lets you choose a demo person:
 ${people.map((p) => `    ${p.displayName.padEnd(18)} ${(p.studyRole ?? (p.groups.includes("plumbline-admins") ? "administrator" : "no study role")).padEnd(16)} ${p.email}${p.signIn === "oidc" ? "  (Sponsor sign-in)" : ""}`).join("\n")}
   Sponsors:   "Sponsor sign-in" goes to the fake OpenID Connect provider at ${oidc.issuerUrl}; the
               study is shared with Quillmoor Therapeutics, not with Harrowgate Biologics.
