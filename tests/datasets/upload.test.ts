@@ -74,6 +74,36 @@ describe("receiving an upload", () => {
     }
   });
 
+  it("refuses at once, without an unhandled stream error, when the folder fails while the file is still arriving", async () => {
+    const tmp = path.join(dir, "data", "datasets", "tmp");
+    rmSync(tmp, { recursive: true, force: true });
+    mkdirSync(path.dirname(tmp), { recursive: true });
+    writeFileSync(tmp, "not a folder");
+    // The file part starts and the body stays open: the refusal destroys the parser in the middle
+    // of the part, whose stream then errors (busboy: "Unexpected end of file"). Unheard, that error
+    // ended the server process.
+    const head = '--XX\r\nContent-Disposition: form-data; name="file"; filename="adeff.csv"\r\nContent-Type: text/csv\r\n\r\nsubjid,age\n';
+    const body = new ReadableStream<Uint8Array>({ start: (c) => c.enqueue(new TextEncoder().encode(head)) });
+    const request = new Request("http://localhost/studies/s/datasets/upload", {
+      method: "POST",
+      body,
+      headers: { "Content-Type": "multipart/form-data; boundary=XX" },
+      duplex: "half",
+    } as RequestInit);
+    const unheard: unknown[] = [];
+    const listen = (e: unknown) => unheard.push(e);
+    process.on("uncaughtException", listen);
+    try {
+      const err = await receiveUpload(request, 1000).catch((e: unknown) => e);
+      await new Promise((r) => setTimeout(r, 50));
+      expect((err as InstanceType<typeof UploadRefused>).status).toBe(507);
+      expect(unheard).toEqual([]);
+    } finally {
+      process.off("uncaughtException", listen);
+      rmSync(tmp, { force: true });
+    }
+  });
+
   it("survives a full disk: the upload is refused, the process lives on and no work file is left", () => {
     const data = path.join(dir, "full-disk");
     // The kernel's file-size limit (RLIMIT_FSIZE) makes every write past 1 MB fail with EFBIG, as a full disk fails with ENOSPC.

@@ -96,6 +96,10 @@ export async function receiveUpload(request: Request, maxBytes = config.DATASET_
   const done = new Promise<void>((resolve, reject) => {
     parser.on("field", (name, value) => (fields[name] = value));
     parser.on("file", (name, stream, info) => {
+      // A part's stream errors when the parser is destroyed under it (a refusal ends the upload
+      // early): without a listener that error would end the process. The refusal is reported by
+      // the write below or by the parser.
+      stream.on("error", () => undefined);
       if (name !== "file" || file || writes.length > 0 || !info.filename) {
         stream.resume();
         return;
