@@ -376,7 +376,17 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
           <label className="flex items-center gap-2">
             <input type="checkbox" name="sensitivity:negative_binomial" defaultChecked={sens.has("negative_binomial")} /> Counts: negative binomial (NB2, θ by maximum likelihood)
           </label>
-          <FieldError id="sens-family-error" message={errors["sensitivity:quasi_poisson"] ?? errors["sensitivity:negative_binomial"] ?? errors["sensitivity:robust_hc3"] ?? errors["sensitivity:variance_function"]} />
+          {family === "cox" ? (
+            <>
+              <label className="flex items-center gap-2">
+                <input type="checkbox" name="sensitivity:cox_robust_subject" defaultChecked={sens.has("cox_robust_subject")} /> Time to event: robust (sandwich) standard errors, clustered by the subject identifier
+              </label>
+              <label className="flex items-center gap-2">
+                <input type="checkbox" name="sensitivity:cox_unstratified" defaultChecked={sens.has("cox_unstratified")} /> Time to event: unstratified (one baseline hazard for all subjects)
+              </label>
+            </>
+          ) : null}
+          <FieldError id="sens-family-error" message={errors["sensitivity:quasi_poisson"] ?? errors["sensitivity:negative_binomial"] ?? errors["sensitivity:robust_hc3"] ?? errors["sensitivity:variance_function"] ?? errors["sensitivity:cox_robust_subject"] ?? errors["sensitivity:cox_unstratified"] ?? errors["sensitivity:exclude_influential"]} />
           <div>
             <label className="flex items-center gap-2">
               <input type="checkbox" name="sensitivity:alternative_covariates" defaultChecked={sens.has("alternative_covariates")} /> An alternative covariate set, named

@@ -53,6 +53,9 @@ function optionsFor(s: PlannedSensitivity, primary: RerunDocument | null): Rerun
       return { variant: "family", family: "quasipoisson" };
     case "negative_binomial":
       return { variant: "family", family: "negative-binomial" };
+    case "cox_robust_subject":
+    case "cox_unstratified":
+      return { variant: s.kind };
   }
 }
 

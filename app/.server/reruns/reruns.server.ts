@@ -12,6 +12,7 @@ import { data } from "react-router";
 import { evaluateChecks, type CheckOutcome } from "~/engine/checks";
 import { evaluateCoxChecks } from "~/engine/survival/cox-checks";
 import { fitCoxModel, type CoxResult } from "~/engine/survival/cox-model";
+import type { CoxSpec } from "~/engine/survival/cox-spec";
 import { coxFunctionalForm, type FunctionalFormTest } from "~/engine/survival/functional-form";
 import { EngineError, ENGINE_VERSION, fitModel, fitWithEstimatedVariance, fitWithRobustErrors, RESULTS_CAUTION, type ModelResult, type ModelSpec, type Term } from "~/engine";
 import { appendAudit, canonicalJson, SYSTEM_ACTOR } from "../audit.server";
@@ -72,6 +73,24 @@ function alternativeSpec<S extends Pick<ModelSpec, "terms" | "treatment">>(spec:
   return { ...spec, terms };
 }
 
+/** The Cox specification a rerun fits: the planned one, or the sensitivity analysis's variant of it. */
+function coxVariantSpec(planned: CoxSpec, options: RerunOptions): CoxSpec {
+  switch (options.variant) {
+    case "planned":
+    case "exclude_rows":
+      return planned;
+    case "alternative_covariates":
+      return alternativeSpec(planned, options.covariates);
+    case "cox_robust_subject":
+      if (!planned.id) throw new EngineError("robust errors clustered by subject need the subject identifier column in the planned model");
+      return { ...planned, cluster: planned.id };
+    case "cox_unstratified":
+      return { ...planned, strata: [] };
+    default:
+      throw new EngineError(`the ${describeOptions(options).toLowerCase()} analysis does not apply to a time-to-event (Cox) model`);
+  }
+}
+
 /** Fits the planned model (or its sensitivity variant) and evaluates the plan's checks. Pure apart from the inputs given. */
 export function computeRerun(model: StoredPlannedModel, table: ColumnTable, options: RerunOptions, meta: { datasetSha256: string; planVersionId: string }): RerunDocument {
   const inFile = table.rowNumbers.length;
@@ -101,10 +120,7 @@ export function computeRerun(model: StoredPlannedModel, table: ColumnTable, opti
     checks,
   });
   if (model.spec.family === "cox") {
-    if (options.variant !== "planned" && options.variant !== "exclude_rows" && options.variant !== "alternative_covariates") {
-      throw new EngineError(`the ${describeOptions(options).toLowerCase()} analysis does not apply to a time-to-event (Cox) model`);
-    }
-    const coxSpec = options.variant === "alternative_covariates" ? alternativeSpec(model.spec, options.covariates) : model.spec;
+    const coxSpec = coxVariantSpec(model.spec, options);
     const result = fitCoxModel(coxSpec, working);
     const functionalForm = coxFunctionalForm(coxSpec, working, result);
     return { ...doc(result, evaluateCoxChecks(result, model.checks, functionalForm)), coxFunctionalForm: functionalForm };
