@@ -270,6 +270,7 @@ export function CoxResults({
           covarianceType={view.robust ? "robust (sandwich)" : "model"}
           df={0}
           statisticName="z"
+          scale="the scale of the log hazard ratio"
         />
         <div className="mt-4 grid gap-4 lg:grid-cols-2">
           <ChiSquareTable
