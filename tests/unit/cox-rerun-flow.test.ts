@@ -292,6 +292,8 @@ describe("the Cox model's planned sensitivity analyses", () => {
     const f = coxForm();
     f.set("sensitivity:cox_robust_subject", "on");
     f.set("sensitivity:cox_unstratified", "on");
+    f.set("sensitivity:cox_rmst", "on");
+    f.set("sensitivity:tau", String(S.rmst.tau));
     return f;
   };
 
@@ -299,7 +301,8 @@ describe("the Cox model's planned sensitivity analyses", () => {
     const created = await plans.createPlan(priya, studyId, { title: "Time-to-event sensitivity", sapName: "SAP", sapVersion: "1.1", sapDate: "2026-10-02" });
     const v = validatePlannedModel(readPlannedModelForm(sensitivityForm()), await lockedColumns(), []);
     if (!v.ok) throw new Error(JSON.stringify(v.errors));
-    expect(v.model.sensitivity.map((s) => s.kind)).toEqual(["cox_robust_subject", "cox_unstratified"]);
+    expect(v.model.sensitivity.map((s) => s.kind)).toEqual(["cox_robust_subject", "cox_unstratified", "cox_rmst"]);
+    expect(v.model.sensitivity[2].tau).toBe(S.rmst.tau);
     modelId = await plans.savePlannedModel(priya, studyId, created.versionId, 1, null, v.model);
     await plans.submitForApproval(priya, studyId, created.versionId, 2);
     await plans.approvePlanVersion({ ...tomas, signedInAt: new Date().toISOString() }, studyId, created.versionId);
@@ -307,8 +310,8 @@ describe("the Cox model's planned sensitivity analyses", () => {
     await drain();
   });
 
-  async function runVariant(variant: "cox_robust_subject" | "cox_unstratified") {
-    const id = await reruns.startRerun(priya, studyId, { plannedModelId: modelId, datasetVersionId: tteVersionId, options: { variant }, parentRerunId: primaryId, prespecified: true });
+  async function runVariant(options: { variant: "cox_robust_subject" } | { variant: "cox_unstratified" } | { variant: "cox_rmst"; tau: number }) {
+    const id = await reruns.startRerun(priya, studyId, { plannedModelId: modelId, datasetVersionId: tteVersionId, options, parentRerunId: primaryId, prespecified: true });
     await drain();
     const got = await reruns.getRerun(studyId, id);
     expect(got.rerun.status, got.rerun.failureReason ?? "").toBe("completed");
@@ -335,10 +338,20 @@ describe("the Cox model's planned sensitivity analyses", () => {
     const r3 = validatePlannedModel(readPlannedModelForm(linear), await lockedColumns(), []);
     expect(r3.ok).toBe(false);
     if (!r3.ok) expect(r3.errors["sensitivity:cox_robust_subject"]).toMatch(/time-to-event \(Cox\) model/);
+    const farHorizon = sensitivityForm();
+    farHorizon.set("sensitivity:tau", "5000");
+    const r4 = validatePlannedModel(readPlannedModelForm(farHorizon), await lockedColumns(), []);
+    expect(r4.ok).toBe(false);
+    if (!r4.ok) expect(r4.errors["sensitivity:tau"]).toMatch(/τ = 5000 is beyond the longest follow-up time in adtte \(392\)/);
+    const noHorizon = sensitivityForm();
+    noHorizon.set("sensitivity:tau", "");
+    const r5 = validatePlannedModel(readPlannedModelForm(noHorizon), await lockedColumns(), []);
+    expect(r5.ok).toBe(false);
+    if (!r5.ok) expect(r5.errors["sensitivity:tau"]).toMatch(/Give the horizon τ/);
   });
 
   it("robust errors clustered by subject: the treatment's robust SE of R's coxph(..., cluster = USUBJID), same estimate", async () => {
-    const { doc, result } = await runVariant("cox_robust_subject");
+    const { doc, result } = await runVariant({ variant: "cox_robust_subject" });
     expect(result.robust).toBe(true);
     const trt = result.coefficients[0];
     expect(trt.name).toBe("TRTP=Active");
@@ -356,13 +369,13 @@ describe("the Cox model's planned sensitivity analyses", () => {
   });
 
   it("unstratified: the estimates of R's coxph without strata(), compared with the primary as hazard ratios", async () => {
-    const { result } = await runVariant("cox_unstratified");
+    const { result } = await runVariant({ variant: "cox_unstratified" });
     expect(result.strata).toEqual([]);
     const trt = result.coefficients[0];
     expectClose(trt.estimate, S.unstratified.estimate, TOL, "log hazard ratio without strata");
     expectClose(trt.se, S.unstratified.se, TOL, "SE without strata");
     expectClose(result.ratios[0].ratio, S.unstratified.ratio, TOL, "hazard ratio without strata");
-    const children = await reruns.sensitivityReruns(primaryId);
+    const children = (await reruns.sensitivityReruns(primaryId)).slice(0, 2);
     expect(children.map((c) => c.label)).toEqual(["Robust (sandwich) standard errors, clustered by subject", "Unstratified (one baseline hazard for all subjects)"]);
     const contrasts = children.map((c) => {
       const d = reruns.rerunDocumentOf(c);
@@ -375,5 +388,27 @@ describe("the Cox model's planned sensitivity analyses", () => {
     const spec = JSON.stringify(forestSpec(contrasts.map((c, i) => ({ label: children[i].label ?? "", estimate: c[0].estimate, lower: c[0].lower, upper: c[0].upper, prespecified: true, primary: false })), contrasts[0][0].label));
     expect(spec).toMatch(/"type":"log"/);
     expect(spec).toMatch(/same side of one/);
+  });
+
+  it("restricted mean survival time to τ: each arm's area and SE of R's survfit rmean, compared as a difference", async () => {
+    const { doc } = await runVariant({ variant: "cox_rmst", tau: S.rmst.tau });
+    const rm = doc.restrictedMean;
+    if (!rm) throw new Error("no restricted mean");
+    expect(rm.map((d) => `${d.level} vs ${d.reference}`)).toEqual(["Active vs Placebo"]);
+    const active = S.rmst.arms.find((a) => a.level === "Active")!;
+    const placebo = S.rmst.arms.find((a) => a.level === "Placebo")!;
+    expectClose(rm[0].arm.mean, active.rmean, TOL, "Active restricted mean (R survfit rmean)");
+    expectClose(rm[0].arm.se, active.se, TOL, "Active SE of the restricted mean");
+    expectClose(rm[0].referenceArm.mean, placebo.rmean, TOL, "Placebo restricted mean");
+    expectClose(rm[0].referenceArm.se, placebo.se, TOL, "Placebo SE of the restricted mean");
+    expectClose(rm[0].se, Math.hypot(active.se, placebo.se), TOL, "SE of the difference");
+    const [c] = reportedContrasts(doc);
+    expect(c.label).toBe(`Active vs Placebo (restricted mean survival difference to τ = ${S.rmst.tau})`);
+    expectClose(c.estimate, active.rmean - placebo.rmean, TOL, "compared difference");
+    const reader = rerunView(doc, redaction(false, [doc]));
+    if (reader.kind !== "cox") throw new Error("not a Cox view");
+    expect(reader.restrictedMean?.[0].difference).toBe(rm[0].difference);
+    expect(reader.caution).toMatch(/do not replace/);
+    expect(JSON.stringify(reader)).not.toMatch(/INV-\d{4}/);
   });
 });

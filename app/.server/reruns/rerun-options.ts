@@ -15,6 +15,8 @@ export const rerunOptionsSchema = z.discriminatedUnion("variant", [
   z.object({ variant: z.literal("cox_robust_subject") }),
   /** Time to event: the planned Cox model without its strata (one baseline hazard). */
   z.object({ variant: z.literal("cox_unstratified") }),
+  /** Time to event: the difference in restricted mean survival time between arms up to the horizon τ. */
+  z.object({ variant: z.literal("cox_rmst"), tau: z.number().positive() }),
 ]);
 export type RerunOptions = z.infer<typeof rerunOptionsSchema>;
 
@@ -36,5 +38,7 @@ export function describeOptions(o: RerunOptions): string {
       return SENSITIVITY_LABELS.cox_robust_subject;
     case "cox_unstratified":
       return SENSITIVITY_LABELS.cox_unstratified;
+    case "cox_rmst":
+      return `${SENSITIVITY_LABELS.cox_rmst} to τ = ${o.tau}`;
   }
 }

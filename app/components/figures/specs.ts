@@ -1128,7 +1128,7 @@ export function forestSpec(rows: readonly ForestRow[], contrastLabel: string, op
   const ratio = /ratio\)$/.test(contrastLabel);
   const x = ratio
     ? { field: "estimate", type: "quantitative", title: `${contrastLabel}, 95% CI (log scale)`, scale: { type: "log" } }
-    : { field: "estimate", type: "quantitative", title: `${contrastLabel}: difference in adjusted means${opts.unit ? ` (${opts.unit})` : ""}, 95% CI` };
+    : { field: "estimate", type: "quantitative", title: `${contrastLabel}${/restricted mean/.test(contrastLabel) ? "" : ": difference in adjusted means"}${opts.unit ? ` (${opts.unit})` : ""}, 95% CI` };
   const noEffect = ratio ? { data: ONE, mark: { type: "rule", color: PALETTE.inkSoft, strokeDash: [4, 3], strokeWidth: 1 }, encoding: { x: { datum: 1 } } } : zeroRule("x");
   const kinds = ["Primary analysis", "Pre-specified sensitivity", "Not pre-specified"];
   return asSpec({

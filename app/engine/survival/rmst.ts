@@ -79,3 +79,21 @@ export function restrictedMeanDifference(
   const p = se > 0 ? 2 * normalUpper(Math.abs(difference) / se) : difference === 0 ? 1 : 0;
   return { tau, level: arms.level, reference: reference.level, arm: a, referenceArm: r, difference, se, lower: difference - z * se, upper: difference + z * se, p: Math.min(1, p) };
 }
+
+/**
+ * Each non-reference arm against the reference: `arm[i]` is observation i's arm (time and status
+ * aligned with it), `levels` the arms in the model's order.
+ */
+export function restrictedMeanByArm(
+  time: readonly number[],
+  status: readonly number[],
+  arm: readonly string[],
+  levels: readonly string[],
+  reference: string,
+  tau: number,
+): RestrictedMeanDifference[] {
+  if (!levels.includes(reference)) throw new EngineError(`the reference arm "${reference}" is not among the treatment's levels (${levels.join(", ")})`);
+  const rowsOf = (level: string) => arm.flatMap((a, i) => (a === level ? [i] : []));
+  const ref = { level: reference, rows: rowsOf(reference) };
+  return levels.filter((l) => l !== reference).map((level) => restrictedMeanDifference({ level, rows: rowsOf(level) }, ref, time, status, tau));
+}
