@@ -13,6 +13,18 @@ import {
   type CheckCardData,
 } from "./rerun-results";
 
+interface RestrictedMeanRow {
+  tau: number;
+  level: string;
+  reference: string;
+  arm: { mean: number; se: number };
+  referenceArm: { mean: number; se: number };
+  difference: number;
+  lower: number;
+  upper: number;
+  p: number;
+}
+
 export interface CoxView {
   kind: "cox";
   method: string;
@@ -59,6 +71,8 @@ export interface CoxView {
     rows: { term: string; statistic: number; df: number; p: number }[];
   };
   notes: readonly string[];
+  /** The restricted-mean analysis only: each arm against the reference to τ. */
+  restrictedMean: readonly RestrictedMeanRow[] | null;
   figures: { figure: FigureKey; term?: string }[];
   checks: (CheckCardData & { figure: FigureKey })[];
 }
@@ -127,6 +141,52 @@ export function ChiSquareTable({
         ))}
       </tbody>
     </table>
+  );
+}
+
+/** The restricted mean survival time analysis: each arm's area under its Kaplan–Meier curve to τ and the difference. */
+function RestrictedMeanSection({ rows }: { rows: NonNullable<CoxView["restrictedMean"]> }) {
+  return (
+    <section className="panel p-4" aria-labelledby="rmst-h">
+      <h2 id="rmst-h" className="mb-2">
+        Restricted mean survival time
+      </h2>
+      <table className="data-table">
+        <caption className="mb-1 text-left text-xs text-ink-soft">
+          Area under each arm&apos;s Kaplan–Meier curve up to τ (time units of the data), with its Greenwood-type SE; the difference with a Wald 95% interval. Above 0 means longer event-free time than the reference.
+        </caption>
+        <thead>
+          <tr>
+            <th scope="col">Comparison</th>
+            <th scope="col" className="text-right">τ</th>
+            <th scope="col" className="text-right">Arm (SE)</th>
+            <th scope="col" className="text-right">Reference (SE)</th>
+            <th scope="col" className="text-right">Difference</th>
+            <th scope="col" className="text-right">95% CI</th>
+            <th scope="col" className="text-right">p</th>
+          </tr>
+        </thead>
+        <tbody>
+          {rows.map((d) => (
+            <tr key={d.level}>
+              <th scope="row" className="text-left font-normal">
+                {d.level} vs {d.reference}
+              </th>
+              <td className="num text-right">{fmt(d.tau)}</td>
+              <td className="num text-right whitespace-nowrap">
+                {fmt(d.arm.mean)} ({fmt(d.arm.se)})
+              </td>
+              <td className="num text-right whitespace-nowrap">
+                {fmt(d.referenceArm.mean)} ({fmt(d.referenceArm.se)})
+              </td>
+              <td className="num text-right">{fmt(d.difference)}</td>
+              <td className="num text-right whitespace-nowrap">{fmtCi(d.lower, d.upper)}</td>
+              <td className="num text-right">{fmtP(d.p)}</td>
+            </tr>
+          ))}
+        </tbody>
+      </table>
+    </section>
   );
 }
 
@@ -254,6 +314,8 @@ export function CoxResults({
         ) : null}
       </section>
 
+      {view.restrictedMean ? <RestrictedMeanSection rows={view.restrictedMean} /> : null}
+
       <section className="panel p-4" aria-labelledby="hr-h">
         <h2 id="hr-h" className="mb-2">
           Hazard ratios
@@ -270,6 +332,7 @@ export function CoxResults({
           covarianceType={view.robust ? "robust (sandwich)" : "model"}
           df={0}
           statisticName="z"
+          scale="the scale of the log hazard ratio"
         />
         <div className="mt-4 grid gap-4 lg:grid-cols-2">
           <ChiSquareTable

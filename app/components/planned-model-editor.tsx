@@ -46,7 +46,7 @@ export interface EditorForm {
   offset: string;
   id: string;
   checks: { key: string; enabled: boolean; threshold: number; remedy: string }[];
-  sensitivity: { kind: string; varianceBy?: string; covariates?: string[]; label?: string }[];
+  sensitivity: { kind: string; varianceBy?: string; covariates?: string[]; label?: string; tau?: number }[];
   /** Time-to-event fields (family "cox"). */
   survival?: SurvivalFields;
 }
@@ -376,7 +376,24 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
           <label className="flex items-center gap-2">
             <input type="checkbox" name="sensitivity:negative_binomial" defaultChecked={sens.has("negative_binomial")} /> Counts: negative binomial (NB2, θ by maximum likelihood)
           </label>
-          <FieldError id="sens-family-error" message={errors["sensitivity:quasi_poisson"] ?? errors["sensitivity:negative_binomial"] ?? errors["sensitivity:robust_hc3"] ?? errors["sensitivity:variance_function"]} />
+          {family === "cox" ? (
+            <>
+              <label className="flex items-center gap-2">
+                <input type="checkbox" name="sensitivity:cox_robust_subject" defaultChecked={sens.has("cox_robust_subject")} /> Time to event: robust (sandwich) standard errors, clustered by the subject identifier
+              </label>
+              <label className="flex items-center gap-2">
+                <input type="checkbox" name="sensitivity:cox_unstratified" defaultChecked={sens.has("cox_unstratified")} /> Time to event: unstratified (one baseline hazard for all subjects)
+              </label>
+              <div className="flex flex-wrap items-center gap-2">
+                <label className="flex items-center gap-2">
+                  <input type="checkbox" name="sensitivity:cox_rmst" defaultChecked={sens.has("cox_rmst")} /> Time to event: restricted mean survival time difference between arms, up to the horizon τ =
+                </label>
+                <input aria-label="Horizon τ of the restricted mean, in the units of the follow-up time" name="sensitivity:tau" inputMode="decimal" className="field num w-24 py-1" defaultValue={sens.get("cox_rmst")?.tau ?? ""} aria-invalid={errors["sensitivity:tau"] ? true : undefined} aria-describedby={errors["sensitivity:tau"] ? "sens-tau-error" : undefined} />
+                <FieldError id="sens-tau-error" message={errors["sensitivity:tau"]} />
+              </div>
+            </>
+          ) : null}
+          <FieldError id="sens-family-error" message={errors["sensitivity:quasi_poisson"] ?? errors["sensitivity:negative_binomial"] ?? errors["sensitivity:robust_hc3"] ?? errors["sensitivity:variance_function"] ?? errors["sensitivity:cox_robust_subject"] ?? errors["sensitivity:cox_unstratified"] ?? errors["sensitivity:exclude_influential"]} />
           <div>
             <label className="flex items-center gap-2">
               <input type="checkbox" name="sensitivity:alternative_covariates" defaultChecked={sens.has("alternative_covariates")} /> An alternative covariate set, named

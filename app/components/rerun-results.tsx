@@ -13,12 +13,13 @@ interface Coefficient {
   upper: number;
 }
 
-export function CoefficientTable({ rows, covarianceType, df, statisticName = "t" }: { rows: readonly Coefficient[]; covarianceType: string; df: number; statisticName?: "t" | "z" }) {
+/** `scale` names what the estimates measure for a z statistic ("the link scale" unless given). */
+export function CoefficientTable({ rows, covarianceType, df, statisticName = "t", scale = "the link scale" }: { rows: readonly Coefficient[]; covarianceType: string; df: number; statisticName?: "t" | "z"; scale?: string }) {
   return (
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         Estimates with {covarianceType === "model" ? "model-based" : covarianceType} standard errors;{" "}
-        {statisticName === "t" ? `t on ${df} residual degrees of freedom; 95% confidence intervals.` : "Wald z on the link scale; 95% Wald intervals."}
+        {statisticName === "t" ? `t on ${df} residual degrees of freedom; 95% confidence intervals.` : `Wald z on ${scale}; 95% Wald intervals.`}
       </caption>
       <thead>
         <tr>

@@ -23,7 +23,7 @@ import { SENSITIVITY_KINDS, SENSITIVITY_LABELS, type PlannedSensitivity } from "
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { Assessment, assessFinding, canSign, FindingConflict, findingsOf, recordDeviation, signaturesOf, signRerun } from "~/.server/reruns/findings.server";
 import type { FigureKey } from "~/engine/checks";
-import type { RerunOptions } from "~/.server/reruns/rerun-options";
+import { describeOptions, type RerunOptions } from "~/.server/reruns/rerun-options";
 import { reportedContrasts, rerunView } from "~/.server/reruns/rerun-view.server";
 import { seesSubjects } from "~/.server/permissions.server";
 import { redactionFor } from "~/.server/redaction.server";
@@ -53,6 +53,11 @@ function optionsFor(s: PlannedSensitivity, primary: RerunDocument | null): Rerun
       return { variant: "family", family: "quasipoisson" };
     case "negative_binomial":
       return { variant: "family", family: "negative-binomial" };
+    case "cox_robust_subject":
+    case "cox_unstratified":
+      return { variant: s.kind };
+    case "cox_rmst":
+      return s.tau ? { variant: "cox_rmst", tau: s.tau } : null;
   }
 }
 
@@ -83,7 +88,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const forests = comparison.length > 1 ? [...byContrast].map(([label, rows]) => ({ label, rows, spec: toVega(forestSpec(rows, label, { width: "container" })) })) : [];
   const plannedSensitivity = planned.sensitivity.map((s) => {
     const options = optionsFor(s, r.doc);
-    const label = options ? (s.kind === "alternative_covariates" ? `${s.label}: ${(s.covariates ?? []).join(", ")}` : SENSITIVITY_LABELS[s.kind]) : SENSITIVITY_LABELS[s.kind];
+    const label = options ? (s.kind === "alternative_covariates" ? `${s.label}: ${(s.covariates ?? []).join(", ")}` : options.variant === "cox_rmst" ? describeOptions(options) : SENSITIVITY_LABELS[s.kind]) : SENSITIVITY_LABELS[s.kind];
     const done = options ? children.some((c) => c.optionsJson === canonicalJson(options)) : false;
     return { kind: s.kind, label, runnable: Boolean(options) && r.rerun.status === "completed" && !r.rerun.signedAt, done, note: options ? null : "No subject was flagged, so there is nothing to exclude." };
   });

@@ -19,6 +19,17 @@ export const coxReference = () =>
     survival: { level: string; stratum: string | null; time: number[]; estimate: number[]; lower: (number | null)[]; upper: (number | null)[]; atRisk: number[] }[];
   };
 
+type TreatmentReference = { estimate: number; se: number; ratio: number; ratioLower: number; ratioUpper: number; p: number; naiveSe?: number };
+
+/** R's answers for the Cox sensitivity analyses of the same data (tests/reference/survival/generate-sensitivity.R). */
+export const coxSensitivityReference = () =>
+  JSON.parse(readFileSync(path.resolve("tests/reference/survival/values/trial-breslow-cluster-sensitivity.json"), "utf8")) as {
+    oracle: string;
+    robustSubject: TreatmentReference & { naiveSe: number };
+    unstratified: TreatmentReference;
+    rmst: { tau: number; arms: { level: string; rmean: number; se: number }[] };
+  };
+
 export const COX_CHECK_KEYS = ["proportional_hazards", "functional_form_cox", "dfbetas_treatment_cox", "events_per_coefficient"];
 
 /** Time to event AVAL (CNSR = 0 an event), treatment TRTP against Placebo, AGE, BASE and STRAT2, stratified by STRAT1, Breslow ties. */

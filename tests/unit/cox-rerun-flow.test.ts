@@ -5,10 +5,11 @@
  * determinism, and the figures' data. Estimates and the Kaplan–Meier curves are compared with
  * R's survival package (coxph, survfit) on the same invented data
  * (tests/reference/survival/values/trial-breslow-cluster.json, written by
- * tests/reference/survival/generate.R; the cluster there changes only the standard errors).
+ * tests/reference/survival/generate.R; the cluster there changes only the standard errors), and
+ * the sensitivity analyses with R's answers written by tests/reference/survival/generate-sensitivity.R.
  */
 import { beforeAll, describe, expect, it } from "vitest";
-import { COX_CHECK_KEYS, coxCsv, coxForm, coxReference } from "../support/cox-dataset";
+import { COX_CHECK_KEYS, coxCsv, coxForm, coxReference, coxSensitivityReference } from "../support/cox-dataset";
 import { useTempDatabase } from "../support/temp-db";
 import { expectClose } from "../reference/compare";
 import { expectWellFormedFigure } from "../support/figure-checks";
@@ -22,12 +23,12 @@ const { listLockedVersions } = await import("~/.server/datasets/catalog.server")
 const datasets = await import("~/.server/datasets/datasets.server");
 const reruns = await import("~/.server/reruns/reruns.server");
 const { figureData } = await import("~/.server/reruns/figure-data.server");
-const { rerunView } = await import("~/.server/reruns/rerun-view.server");
+const { rerunView, reportedContrasts } = await import("~/.server/reruns/rerun-view.server");
 const { redaction } = await import("~/.server/redaction.server");
 const { rerunTable } = await import("~/.server/reruns/what-if.server");
 const { loadLockedTable } = await import("~/.server/datasets/catalog.server");
 const { coxFigureList } = await import("~/.server/reruns/cox-figure-data.server");
-const { figureSpec } = await import("~/components/figures/specs");
+const { figureSpec, forestSpec } = await import("~/components/figures/specs");
 const { toVega } = await import("~/.server/figures/compile.server");
 const findings = await import("~/.server/reruns/findings.server");
 const { buildAppendixContent } = await import("~/.server/appendix/build-content.server");
@@ -278,5 +279,136 @@ describe("rerunning a stratified Cox model", () => {
     expect(report.results.cox?.proportionalHazards.rows.at(-1)?.term).toBe("Global");
     expect(JSON.stringify(report)).not.toMatch(/INV-\d{4}/);
     expect(report.caution).toMatch(/do not replace/);
+  });
+});
+
+describe("the Cox model's planned sensitivity analyses", () => {
+  // R's coxph on the same invented data (tests/reference/survival/values/trial-breslow-cluster-sensitivity.json,
+  // written by tests/reference/survival/generate-sensitivity.R)
+  const S = coxSensitivityReference();
+  let primaryId = "";
+  let modelId = "";
+  const sensitivityForm = () => {
+    const f = coxForm();
+    f.set("sensitivity:cox_robust_subject", "on");
+    f.set("sensitivity:cox_unstratified", "on");
+    f.set("sensitivity:cox_rmst", "on");
+    f.set("sensitivity:tau", String(S.rmst.tau));
+    return f;
+  };
+
+  beforeAll(async () => {
+    const created = await plans.createPlan(priya, studyId, { title: "Time-to-event sensitivity", sapName: "SAP", sapVersion: "1.1", sapDate: "2026-10-02" });
+    const v = validatePlannedModel(readPlannedModelForm(sensitivityForm()), await lockedColumns(), []);
+    if (!v.ok) throw new Error(JSON.stringify(v.errors));
+    expect(v.model.sensitivity.map((s) => s.kind)).toEqual(["cox_robust_subject", "cox_unstratified", "cox_rmst"]);
+    expect(v.model.sensitivity[2].tau).toBe(S.rmst.tau);
+    modelId = await plans.savePlannedModel(priya, studyId, created.versionId, 1, null, v.model);
+    await plans.submitForApproval(priya, studyId, created.versionId, 2);
+    await plans.approvePlanVersion({ ...tomas, signedInAt: new Date().toISOString() }, studyId, created.versionId);
+    primaryId = await reruns.startRerun(priya, studyId, { plannedModelId: modelId, datasetVersionId: tteVersionId, options: { variant: "planned" } });
+    await drain();
+  });
+
+  async function runVariant(options: { variant: "cox_robust_subject" } | { variant: "cox_unstratified" } | { variant: "cox_rmst"; tau: number }) {
+    const id = await reruns.startRerun(priya, studyId, { plannedModelId: modelId, datasetVersionId: tteVersionId, options, parentRerunId: primaryId, prespecified: true });
+    await drain();
+    const got = await reruns.getRerun(studyId, id);
+    expect(got.rerun.status, got.rerun.failureReason ?? "").toBe("completed");
+    if (got.doc?.result.kind !== "cox") throw new Error("not a Cox result");
+    return { id, doc: got.doc, result: got.doc.result };
+  }
+
+  it("refuses them for a model that is not time-to-event, and the unstratified one for a model without strata", async () => {
+    const noStrata = sensitivityForm();
+    noStrata.delete("stratum");
+    const r1 = validatePlannedModel(readPlannedModelForm(noStrata), await lockedColumns(), []);
+    expect(r1.ok).toBe(false);
+    if (!r1.ok) expect(r1.errors["sensitivity:cox_unstratified"]).toMatch(/no strata/);
+    const noId = sensitivityForm();
+    noId.set("id", "");
+    const r2 = validatePlannedModel(readPlannedModelForm(noId), await lockedColumns(), []);
+    expect(r2.ok).toBe(false);
+    if (!r2.ok) expect(r2.errors["sensitivity:cox_robust_subject"]).toMatch(/subject identifier column/);
+    const linear = sensitivityForm();
+    linear.set("family", "gaussian");
+    linear.set("response", "BASE");
+    linear.delete("covariate");
+    linear.append("covariate", "AGE");
+    const r3 = validatePlannedModel(readPlannedModelForm(linear), await lockedColumns(), []);
+    expect(r3.ok).toBe(false);
+    if (!r3.ok) expect(r3.errors["sensitivity:cox_robust_subject"]).toMatch(/time-to-event \(Cox\) model/);
+    const farHorizon = sensitivityForm();
+    farHorizon.set("sensitivity:tau", "5000");
+    const r4 = validatePlannedModel(readPlannedModelForm(farHorizon), await lockedColumns(), []);
+    expect(r4.ok).toBe(false);
+    if (!r4.ok) expect(r4.errors["sensitivity:tau"]).toMatch(/τ = 5000 is beyond the longest follow-up time in adtte \(392\)/);
+    const noHorizon = sensitivityForm();
+    noHorizon.set("sensitivity:tau", "");
+    const r5 = validatePlannedModel(readPlannedModelForm(noHorizon), await lockedColumns(), []);
+    expect(r5.ok).toBe(false);
+    if (!r5.ok) expect(r5.errors["sensitivity:tau"]).toMatch(/Give the horizon τ/);
+  });
+
+  it("robust errors clustered by subject: the treatment's robust SE of R's coxph(..., cluster = USUBJID), same estimate", async () => {
+    const { doc, result } = await runVariant({ variant: "cox_robust_subject" });
+    expect(result.robust).toBe(true);
+    const trt = result.coefficients[0];
+    expect(trt.name).toBe("TRTP=Active");
+    expectClose(trt.estimate, S.robustSubject.estimate, TOL, "log hazard ratio");
+    expectClose(trt.robustSe!, S.robustSubject.se, TOL, "robust SE (R coxph cluster = USUBJID)");
+    expectClose(trt.se, S.robustSubject.naiveSe, TOL, "model-based SE");
+    expectClose(result.ratios[0].lower, S.robustSubject.ratioLower, TOL, "hazard ratio lower limit (robust)");
+    expectClose(result.ratios[0].upper, S.robustSubject.ratioUpper, TOL, "hazard ratio upper limit (robust)");
+    expect(doc.description).toBe("Robust (sandwich) standard errors, clustered by subject");
+    // the view a reader without dataset.rows gets names no subject
+    const reader = rerunView(doc, redaction(false, [doc]));
+    expect(reader.caution).toMatch(/do not replace/);
+    expect(reader.method).toMatch(/robust \(sandwich\)/);
+    expect(JSON.stringify(reader)).not.toMatch(/INV-\d{4}/);
+  });
+
+  it("unstratified: the estimates of R's coxph without strata(), compared with the primary as hazard ratios", async () => {
+    const { result } = await runVariant({ variant: "cox_unstratified" });
+    expect(result.strata).toEqual([]);
+    const trt = result.coefficients[0];
+    expectClose(trt.estimate, S.unstratified.estimate, TOL, "log hazard ratio without strata");
+    expectClose(trt.se, S.unstratified.se, TOL, "SE without strata");
+    expectClose(result.ratios[0].ratio, S.unstratified.ratio, TOL, "hazard ratio without strata");
+    const children = (await reruns.sensitivityReruns(primaryId)).slice(0, 2);
+    expect(children.map((c) => c.label)).toEqual(["Robust (sandwich) standard errors, clustered by subject", "Unstratified (one baseline hazard for all subjects)"]);
+    const contrasts = children.map((c) => {
+      const d = reruns.rerunDocumentOf(c);
+      if (!d) throw new Error(`${c.label} has no result`);
+      return reportedContrasts(d);
+    });
+    expect(contrasts.map((c) => c[0].label)).toEqual(["TRTP=Active (hazard ratio)", "TRTP=Active (hazard ratio)"]);
+    expectClose(contrasts[0][0].upper, S.robustSubject.ratioUpper, TOL, "compared interval of the robust analysis");
+    expectClose(contrasts[1][0].estimate, S.unstratified.ratio, TOL, "compared hazard ratio of the unstratified analysis");
+    const spec = JSON.stringify(forestSpec(contrasts.map((c, i) => ({ label: children[i].label ?? "", estimate: c[0].estimate, lower: c[0].lower, upper: c[0].upper, prespecified: true, primary: false })), contrasts[0][0].label));
+    expect(spec).toMatch(/"type":"log"/);
+    expect(spec).toMatch(/same side of one/);
+  });
+
+  it("restricted mean survival time to τ: each arm's area and SE of R's survfit rmean, compared as a difference", async () => {
+    const { doc } = await runVariant({ variant: "cox_rmst", tau: S.rmst.tau });
+    const rm = doc.restrictedMean;
+    if (!rm) throw new Error("no restricted mean");
+    expect(rm.map((d) => `${d.level} vs ${d.reference}`)).toEqual(["Active vs Placebo"]);
+    const active = S.rmst.arms.find((a) => a.level === "Active")!;
+    const placebo = S.rmst.arms.find((a) => a.level === "Placebo")!;
+    expectClose(rm[0].arm.mean, active.rmean, TOL, "Active restricted mean (R survfit rmean)");
+    expectClose(rm[0].arm.se, active.se, TOL, "Active SE of the restricted mean");
+    expectClose(rm[0].referenceArm.mean, placebo.rmean, TOL, "Placebo restricted mean");
+    expectClose(rm[0].referenceArm.se, placebo.se, TOL, "Placebo SE of the restricted mean");
+    expectClose(rm[0].se, Math.hypot(active.se, placebo.se), TOL, "SE of the difference");
+    const [c] = reportedContrasts(doc);
+    expect(c.label).toBe(`Active vs Placebo (restricted mean survival difference to τ = ${S.rmst.tau})`);
+    expectClose(c.estimate, active.rmean - placebo.rmean, TOL, "compared difference");
+    const reader = rerunView(doc, redaction(false, [doc]));
+    if (reader.kind !== "cox") throw new Error("not a Cox view");
+    expect(reader.restrictedMean?.[0].difference).toBe(rm[0].difference);
+    expect(reader.caution).toMatch(/do not replace/);
+    expect(JSON.stringify(reader)).not.toMatch(/INV-\d{4}/);
   });
 });

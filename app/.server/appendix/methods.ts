@@ -104,6 +104,12 @@ export function methodsProse(m: MethodsInput): { paragraphs: string[]; checks: s
         return `${SENSITIVITY_LABELS[x.kind]}: the same estimates with heteroscedasticity-consistent standard errors (HC3, MacKinnon and White 1985).`;
       case "exclude_influential":
         return `${SENSITIVITY_LABELS[x.kind]}: the model refitted without the subjects whose Cook's distance exceeded the planned threshold.`;
+      case "cox_robust_subject":
+        return `${SENSITIVITY_LABELS[x.kind]}: the same log hazard ratios with the sandwich variance summed over each subject's rows (Lin and Wei 1989).`;
+      case "cox_rmst":
+        return `${SENSITIVITY_LABELS[x.kind]} up to τ = ${x.tau}: the area under each arm's Kaplan–Meier curve to τ, the difference with the Greenwood-type variance of each area and a Wald 95% interval.`;
+      case "cox_unstratified":
+        return `${SENSITIVITY_LABELS[x.kind]}: the Cox model refitted without its strata.`;
       default:
         return `${SENSITIVITY_LABELS[(x as PlannedSensitivity).kind] ?? (x as PlannedSensitivity).kind}.`;
     }

@@ -49,7 +49,9 @@ export function plannedModelView(m: StoredPlannedModel): PlannedModelView {
         ? `${s.label ?? SENSITIVITY_LABELS[s.kind]}: ${(s.covariates ?? []).join(", ")}`
         : s.kind === "variance_function"
           ? `${SENSITIVITY_LABELS[s.kind]} (${s.varianceBy === "treatment" ? "variance per arm" : "variance depending on the fitted values"})`
-          : SENSITIVITY_LABELS[s.kind],
+          : s.kind === "cox_rmst"
+            ? `${SENSITIVITY_LABELS[s.kind]} to τ = ${s.tau}`
+            : SENSITIVITY_LABELS[s.kind],
     ),
   };
 }

@@ -12,7 +12,7 @@ import { categoricalHints, isNumericType } from "../datasets/categorical-hint";
 import { coxSpecSchema, type CoxSpec } from "~/engine/survival/cox-spec";
 import { readSurvivalForm, survivalFormOf, validateSurvival, type SurvivalForm } from "./cox-planned-model";
 
-export const SENSITIVITY_KINDS = ["robust_hc3", "variance_function", "exclude_influential", "alternative_covariates", "quasi_poisson", "negative_binomial"] as const;
+export const SENSITIVITY_KINDS = ["robust_hc3", "variance_function", "exclude_influential", "alternative_covariates", "quasi_poisson", "negative_binomial", "cox_robust_subject", "cox_unstratified", "cox_rmst"] as const;
 export type SensitivityKind = (typeof SENSITIVITY_KINDS)[number];
 
 export const SENSITIVITY_LABELS: Record<SensitivityKind, string> = {
@@ -22,7 +22,13 @@ export const SENSITIVITY_LABELS: Record<SensitivityKind, string> = {
   alternative_covariates: "Alternative covariate set",
   quasi_poisson: "Quasi-Poisson (dispersion estimated)",
   negative_binomial: "Negative binomial (NB2)",
+  cox_robust_subject: "Robust (sandwich) standard errors, clustered by subject",
+  cox_unstratified: "Unstratified (one baseline hazard for all subjects)",
+  cox_rmst: "Restricted mean survival time difference between arms",
 };
+
+/** Sensitivity analyses that apply to a time-to-event (Cox) model only. */
+export const COX_ONLY_SENSITIVITY: readonly SensitivityKind[] = ["cox_robust_subject", "cox_unstratified", "cox_rmst"];
 
 export const sensitivitySchema = z.object({
   kind: z.enum(SENSITIVITY_KINDS),
@@ -30,6 +36,8 @@ export const sensitivitySchema = z.object({
   varianceBy: z.enum(["fitted", "treatment"]).optional(),
   /** alternative_covariates: the covariates of the alternative set. */
   covariates: z.array(z.string()).optional(),
+  /** cox_rmst: the horizon τ of the restricted mean, in the time column's units. */
+  tau: z.number().positive().optional(),
   label: z.string().optional(),
 });
 export type PlannedSensitivity = z.infer<typeof sensitivitySchema>;
@@ -140,6 +148,7 @@ export function readPlannedModelForm(f: FormData): PlannedModelForm {
       ...(kind === "alternative_covariates"
         ? { covariates: f.getAll("sensitivity:covariate").map(String).filter(Boolean), label: str(f, "sensitivity:label") || "Alternative covariate set" }
         : {}),
+      ...(kind === "cox_rmst" ? { tau: Number(str(f, "sensitivity:tau") || Number.NaN) } : {}),
     })),
   };
 }
@@ -265,6 +274,18 @@ export function validatePlannedModel(
       errors[`sensitivity:${s.kind}`] = "Excluding subjects flagged by Cook's distance applies to linear and generalized linear models.";
     if ((s.kind === "robust_hc3" || s.kind === "variance_function") && family !== "gaussian")
       errors[`sensitivity:${s.kind}`] = "This remedy applies to a linear model; for counts plan quasi-Poisson or negative binomial instead.";
+    if (COX_ONLY_SENSITIVITY.includes(s.kind) && family !== "cox")
+      errors[`sensitivity:${s.kind}`] = "This analysis applies to a time-to-event (Cox) model.";
+    if (s.kind === "cox_robust_subject" && family === "cox" && !form.id)
+      errors[`sensitivity:${s.kind}`] = "Robust errors clustered by subject need the subject identifier column: choose it above.";
+    if (s.kind === "cox_unstratified" && family === "cox" && (form.survival?.strata.length ?? 0) === 0)
+      errors[`sensitivity:${s.kind}`] = "The model has no strata, so an unstratified analysis would repeat the primary one: add the strata or untick this.";
+    if (s.kind === "cox_rmst" && family === "cox") {
+      const time = dataset.columns.find((c) => c.name === form.response);
+      if (!form.treatment) errors["sensitivity:tau"] = "A restricted mean survival time difference compares the treatment arms: choose the treatment above.";
+      else if (!Number.isFinite(s.tau) || (s.tau ?? 0) <= 0) errors["sensitivity:tau"] = "Give the horizon τ of the restricted mean as a positive number in the units of the follow-up time.";
+      else if (time?.max !== undefined && (s.tau ?? 0) > time.max) errors["sensitivity:tau"] = `The horizon τ = ${s.tau} is beyond the longest follow-up time in ${dataset.name} (${time.max}); choose a horizon within follow-up.`;
+    }
     if (s.kind === "alternative_covariates" && (!s.covariates || s.covariates.length === 0))
       errors["sensitivity:covariate"] = "Choose the covariates of the alternative set.";
     // An alternative covariate outside the main model enters as the column's type; for a column

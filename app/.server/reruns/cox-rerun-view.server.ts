@@ -5,6 +5,7 @@
  * only for people who may see subject-level data (checkView, as for the other kinds).
  */
 import type { CoxResult } from "~/engine/survival/cox-model";
+import type { RestrictedMeanDifference } from "~/engine/survival/rmst";
 import type { Redaction } from "../redaction.server";
 import { coxFigureList } from "./cox-figure-data.server";
 import { checkView } from "./rerun-view.server";
@@ -39,6 +40,7 @@ export function coxRerunView(doc: RerunDocument, r: CoxResult, redact: Redaction
       rows: [...t.proportionalHazards.terms.map((x) => ({ term: x.term, statistic: x.statistic, df: x.df, p: x.p })), { term: "Global", ...t.proportionalHazards.global }],
     },
     notes: r.notes,
+    restrictedMean: doc.restrictedMean ?? null,
     figures: coxFigureList(r),
     checks: doc.checks.map((c) => checkView(c, redact)),
     engineVersion: doc.engineVersion,
@@ -52,4 +54,9 @@ export type CoxRerunView = ReturnType<typeof coxRerunView>;
 export function coxReportedContrasts(r: CoxResult): { label: string; estimate: number; lower: number; upper: number; p: number }[] {
   const t = r.spec.treatment;
   return r.coefficients.flatMap((c, j) => (c.term === t ? [{ label: `${c.name} (hazard ratio)`, estimate: r.ratios[j].ratio, lower: r.ratios[j].lower, upper: r.ratios[j].upper, p: c.p }] : []));
+}
+
+/** The restricted mean survival time differences of the restricted-mean analysis (for the comparison of analyses). */
+export function restrictedMeanContrasts(rm: readonly RestrictedMeanDifference[]): { label: string; estimate: number; lower: number; upper: number; p: number }[] {
+  return rm.map((d) => ({ label: `${d.level} vs ${d.reference} (restricted mean survival difference to τ = ${d.tau})`, estimate: d.difference, lower: d.lower, upper: d.upper, p: d.p }));
 }

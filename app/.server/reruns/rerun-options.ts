@@ -1,5 +1,6 @@
 /** How a rerun differs from the planned fit: the primary analysis or one of its sensitivity analyses. */
 import { z } from "zod";
+import { SENSITIVITY_LABELS } from "../plans/planned-model";
 
 export const rerunOptionsSchema = z.discriminatedUnion("variant", [
   z.object({ variant: z.literal("planned") }),
@@ -10,6 +11,12 @@ export const rerunOptionsSchema = z.discriminatedUnion("variant", [
   z.object({ variant: z.literal("alternative_covariates"), covariates: z.array(z.string()), label: z.string() }),
   /** Counts: the planned Poisson model refitted with another family for overdispersion. */
   z.object({ variant: z.literal("family"), family: z.enum(["quasipoisson", "negative-binomial"]) }),
+  /** Time to event: the planned Cox model with the robust (sandwich) variance, clustered by the subject id. */
+  z.object({ variant: z.literal("cox_robust_subject") }),
+  /** Time to event: the planned Cox model without its strata (one baseline hazard). */
+  z.object({ variant: z.literal("cox_unstratified") }),
+  /** Time to event: the difference in restricted mean survival time between arms up to the horizon τ. */
+  z.object({ variant: z.literal("cox_rmst"), tau: z.number().positive() }),
 ]);
 export type RerunOptions = z.infer<typeof rerunOptionsSchema>;
 
@@ -27,5 +34,11 @@ export function describeOptions(o: RerunOptions): string {
       return `${o.label}: ${o.covariates.join(", ") || "treatment only"}`;
     case "family":
       return o.family === "quasipoisson" ? "Quasi-Poisson (dispersion estimated)" : "Negative binomial (NB2, θ by maximum likelihood)";
+    case "cox_robust_subject":
+      return SENSITIVITY_LABELS.cox_robust_subject;
+    case "cox_unstratified":
+      return SENSITIVITY_LABELS.cox_unstratified;
+    case "cox_rmst":
+      return `${SENSITIVITY_LABELS.cox_rmst} to τ = ${o.tau}`;
   }
 }

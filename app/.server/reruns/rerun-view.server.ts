@@ -7,7 +7,7 @@
 import type { CheckOutcome } from "~/engine/checks";
 import type { Redaction } from "../redaction.server";
 import type { RerunDocument } from "./reruns.server";
-import { coxReportedContrasts, coxRerunView } from "./cox-rerun-view.server";
+import { coxReportedContrasts, coxRerunView, restrictedMeanContrasts } from "./cox-rerun-view.server";
 
 export interface ContrastView {
   label: string;
@@ -56,7 +56,7 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
  * otherwise. For binary endpoints the risk difference is the headline measure.
  */
 export function reportedContrasts(doc: RerunDocument): { label: string; estimate: number; lower: number; upper: number; p: number }[] {
-  if (doc.result.kind === "cox") return coxReportedContrasts(doc.result);
+  if (doc.result.kind === "cox") return doc.restrictedMean ? restrictedMeanContrasts(doc.restrictedMean) : coxReportedContrasts(doc.result);
   const robust = doc.options.variant === "robust_hc3";
   const all = contrastsOf(doc);
   const headline = doc.result.kind === "glm" && doc.result.family === "binomial" ? all.filter((c) => c.label.endsWith("(risk difference)")) : all;

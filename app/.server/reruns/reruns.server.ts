@@ -12,6 +12,8 @@ import { data } from "react-router";
 import { evaluateChecks, type CheckOutcome } from "~/engine/checks";
 import { evaluateCoxChecks } from "~/engine/survival/cox-checks";
 import { fitCoxModel, type CoxResult } from "~/engine/survival/cox-model";
+import type { CoxSpec } from "~/engine/survival/cox-spec";
+import { restrictedMeanByArm, type RestrictedMeanDifference } from "~/engine/survival/rmst";
 import { coxFunctionalForm, type FunctionalFormTest } from "~/engine/survival/functional-form";
 import { EngineError, ENGINE_VERSION, fitModel, fitWithEstimatedVariance, fitWithRobustErrors, RESULTS_CAUTION, type ModelResult, type ModelSpec, type Term } from "~/engine";
 import { appendAudit, canonicalJson, SYSTEM_ACTOR } from "../audit.server";
@@ -43,6 +45,8 @@ export interface RerunDocument {
   checks: CheckOutcome[];
   /** Cox reruns: the likelihood-ratio test of an added square per continuous covariate (the functional-form check and figures read it). */
   coxFunctionalForm?: FunctionalFormTest[];
+  /** Cox reruns of the restricted-mean analysis: each arm against the reference, to the horizon τ. */
+  restrictedMean?: RestrictedMeanDifference[];
 }
 
 export const RERUN_JOB = "rerun";
@@ -70,6 +74,38 @@ function alternativeSpec<S extends Pick<ModelSpec, "terms" | "treatment">>(spec:
     ...spec.terms.filter((t): t is Extract<Term, { interaction: string[] }> => "interaction" in t && t.interaction.every((v) => keep.has(v))),
   ];
   return { ...spec, terms };
+}
+
+/** The Cox specification a rerun fits: the planned one, or the sensitivity analysis's variant of it. */
+function coxVariantSpec(planned: CoxSpec, options: RerunOptions): CoxSpec {
+  switch (options.variant) {
+    case "planned":
+    case "exclude_rows":
+    case "cox_rmst":
+      return planned;
+    case "alternative_covariates":
+      return alternativeSpec(planned, options.covariates);
+    case "cox_robust_subject":
+      if (!planned.id) throw new EngineError("robust errors clustered by subject need the subject identifier column in the planned model");
+      return { ...planned, cluster: planned.id };
+    case "cox_unstratified":
+      return { ...planned, strata: [] };
+    default:
+      throw new EngineError(`the ${describeOptions(options).toLowerCase()} analysis does not apply to a time-to-event (Cox) model`);
+  }
+}
+
+/** The restricted mean survival time difference by arm, on the subjects the Cox model used. */
+function restrictedMeanOf(spec: CoxSpec, working: ColumnTable, result: CoxResult, tau: number): RestrictedMeanDifference[] {
+  const treatment = spec.treatment;
+  const cells = treatment ? working.columns[treatment] : undefined;
+  if (!treatment || !cells) throw new EngineError("a restricted mean survival time difference needs the treatment column");
+  const indexOf = new Map(working.rowNumbers.map((r, i) => [r, i]));
+  const arm = result.observations.row.map((r) => cells[indexOf.get(r) as number].trim());
+  const levels = result.survival.filter((s) => s.stratum === null && s.level !== null).map((s) => s.level as string);
+  const term = spec.terms.find((x) => "variable" in x && x.variable === treatment);
+  const reference = (term && "reference" in term && term.reference) || levels[0];
+  return restrictedMeanByArm(result.observations.time, result.observations.status, arm, levels, reference, tau);
 }
 
 /** Fits the planned model (or its sensitivity variant) and evaluates the plan's checks. Pure apart from the inputs given. */
@@ -101,13 +137,11 @@ export function computeRerun(model: StoredPlannedModel, table: ColumnTable, opti
     checks,
   });
   if (model.spec.family === "cox") {
-    if (options.variant !== "planned" && options.variant !== "exclude_rows" && options.variant !== "alternative_covariates") {
-      throw new EngineError(`the ${describeOptions(options).toLowerCase()} analysis does not apply to a time-to-event (Cox) model`);
-    }
-    const coxSpec = options.variant === "alternative_covariates" ? alternativeSpec(model.spec, options.covariates) : model.spec;
+    const coxSpec = coxVariantSpec(model.spec, options);
     const result = fitCoxModel(coxSpec, working);
     const functionalForm = coxFunctionalForm(coxSpec, working, result);
-    return { ...doc(result, evaluateCoxChecks(result, model.checks, functionalForm)), coxFunctionalForm: functionalForm };
+    const restrictedMean = options.variant === "cox_rmst" ? restrictedMeanOf(coxSpec, working, result, options.tau) : undefined;
+    return { ...doc(result, evaluateCoxChecks(result, model.checks, functionalForm)), coxFunctionalForm: functionalForm, ...(restrictedMean ? { restrictedMean } : {}) };
   }
   const planned = model.spec;
   let spec = options.variant === "alternative_covariates" ? alternativeSpec(planned, options.covariates) : planned;

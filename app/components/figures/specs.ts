@@ -1124,7 +1124,12 @@ export function forestSpec(rows: readonly ForestRow[], contrastLabel: string, op
   const width = opts.width ?? 560;
   const primary = points.find((p) => p.primary);
   const y = { field: "axisLabel", type: "nominal", title: null, sort: points.map((p) => p.axisLabel), axis: { labelLimit: 420, labelFontSize: 11, labelColor: PALETTE.ink } };
-  const x = { field: "estimate", type: "quantitative", title: `${contrastLabel}: difference in adjusted means${opts.unit ? ` (${opts.unit})` : ""}, 95% CI` };
+  // a ratio (hazard, odds, risk or rate ratio) is compared on the log scale, no effect at one
+  const ratio = /ratio\)$/.test(contrastLabel);
+  const x = ratio
+    ? { field: "estimate", type: "quantitative", title: `${contrastLabel}, 95% CI (log scale)`, scale: { type: "log" } }
+    : { field: "estimate", type: "quantitative", title: `${contrastLabel}${/restricted mean/.test(contrastLabel) ? "" : ": difference in adjusted means"}${opts.unit ? ` (${opts.unit})` : ""}, 95% CI` };
+  const noEffect = ratio ? { data: ONE, mark: { type: "rule", color: PALETTE.inkSoft, strokeDash: [4, 3], strokeWidth: 1 }, encoding: { x: { datum: 1 } } } : zeroRule("x");
   const kinds = ["Primary analysis", "Pre-specified sensitivity", "Not pre-specified"];
   return asSpec({
     $schema: "https://vega.github.io/schema/vega-lite/v6.json",
@@ -1133,8 +1138,8 @@ export function forestSpec(rows: readonly ForestRow[], contrastLabel: string, op
     config: baseConfig(opts.forPrint),
     title: title(
       `Treatment contrast across analyses: ${contrastLabel}`,
-      "every interval close to the primary one and on the same side of zero, so the conclusion does not hang on one analysis.",
-      [primary ? `Shaded band: the primary analysis's 95% CI. Dashed: no difference.` : "Dashed: no difference."],
+      `every interval close to the primary one and on the same side of ${ratio ? "one" : "zero"}, so the conclusion does not hang on one analysis.`,
+      [primary ? `Shaded band: the primary analysis's 95% CI. Dashed: ${ratio ? "ratio of one, " : ""}no difference.` : `Dashed: ${ratio ? "ratio of one, " : ""}no difference.`],
       width,
     ),
     datasets: { rows: points },
@@ -1143,8 +1148,8 @@ export function forestSpec(rows: readonly ForestRow[], contrastLabel: string, op
       ...(primary
         ? [{ data: { values: [{ lower: primary.lower, upper: primary.upper }] }, mark: { type: "rect", color: PALETTE.accent, opacity: 0.12 }, encoding: { x: { field: "lower", type: "quantitative" }, x2: { field: "upper" } } }]
         : []),
-      zeroRule("x"),
-      { mark: { type: "rule", strokeWidth: 1.6, color: PALETTE.ink }, encoding: { y, x: { field: "lower", type: "quantitative", title: x.title }, x2: { field: "upper" } } },
+      noEffect,
+      { mark: { type: "rule", strokeWidth: 1.6, color: PALETTE.ink }, encoding: { y, x: { field: "lower", type: "quantitative", title: x.title, ...(ratio ? { scale: { type: "log" } } : {}) }, x2: { field: "upper" } } },
       {
         mark: { type: "point", filled: false, strokeWidth: 1.6, size: 80 },
         encoding: {
