@@ -379,7 +379,7 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
           {family === "cox" ? (
             <>
               <label className="flex items-center gap-2">
-                <input type="checkbox" name="sensitivity:cox_robust_subject" defaultChecked={sens.has("cox_robust_subject")} /> Time to event: robust (sandwich) standard errors, clustered by the subject identifier
+                <input type="checkbox" name="sensitivity:cox_robust_subject" defaultChecked={sens.has("cox_robust_subject")} /> Time to event: robust (sandwich) standard errors, clustered by subject
               </label>
               <label className="flex items-center gap-2">
                 <input type="checkbox" name="sensitivity:cox_unstratified" defaultChecked={sens.has("cox_unstratified")} /> Time to event: unstratified (one baseline hazard for all subjects)

@@ -404,7 +404,7 @@ export function SensitivityTable({ analyses, hrefOf }: { analyses: readonly Comp
   const tag = (a: ComparedAnalysis) => (a.primary ? " (primary)" : a.prespecified ? " (planned)" : " (not pre-specified)");
   return (
     <table className="data-table">
-      <caption className="mb-1 text-left text-xs text-ink-soft">The treatment contrast across analyses (HC3 intervals for the robust-errors analysis).</caption>
+      <caption className="mb-1 text-left text-xs text-ink-soft">The treatment contrast across analyses (HC3 intervals for the robust-errors analysis of a linear model, sandwich intervals for a Cox model clustered by subject; hazard ratios and restricted mean differences as labelled).</caption>
       <thead>
         <tr>
           <th scope="col">Analysis</th>

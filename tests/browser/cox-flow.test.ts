@@ -114,6 +114,9 @@ describe("a stratified Cox model from plan to appendix", () => {
     await page.locator('input[name="eventValue"][value="0"]').check();
     await page.locator('input[name="stratum"][value="STRAT1"]').check();
     await page.getByLabel("Tied event times").selectOption("breslow");
+    // a planned sensitivity analysis of time-to-event models only: the restricted mean to τ = 180
+    await page.locator('input[name="sensitivity:cox_rmst"]').check();
+    await page.getByLabel("Horizon τ of the restricted mean, in the units of the follow-up time").fill("180");
     for (const key of ["proportional_hazards", "functional_form_cox", "dfbetas_treatment_cox", "events_per_coefficient"]) expect(await page.locator(`#chk-${key}`).isChecked()).toBe(true);
     expect(await page.locator("#chk-cooks_distance").isChecked()).toBe(false);
     await screenshot(page, "cox-plan-editor");
@@ -172,6 +175,15 @@ describe("a stratified Cox model from plan to appendix", () => {
       await expect.poll(open).toBeLessThan(before);
     }
     expect(await open()).toBe(0);
+    // the planned restricted-mean analysis runs as a rerun of its own and shows its table, with the caution
+    const rmst = page.getByRole("listitem").filter({ hasText: "Restricted mean survival time difference between arms to τ = 180" });
+    await rmst.getByRole("button", { name: "Run it" }).click();
+    await rmst.getByText("Run", { exact: true }).waitFor({ timeout: 30_000 });
+    await page.getByRole("link", { name: "Restricted mean survival time difference between arms to τ = 180" }).first().click();
+    await page.getByRole("heading", { name: "Restricted mean survival time", exact: true }).waitFor({ timeout: 30_000 });
+    expect(await page.getByRole("rowheader", { name: "Active vs Placebo" }).count()).toBe(1);
+    await page.getByText(/do not replace/).first().waitFor();
+    await screenshot(page, "cox-rmst-results");
     await page.context().close();
   }, 120_000);
 

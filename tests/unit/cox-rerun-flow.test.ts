@@ -19,6 +19,7 @@ const { seedDemoStudy } = await import("~/.server/demo/seed.server");
 const { db, t } = await import("~/.server/db/index.server");
 const plans = await import("~/.server/plans/plans.server");
 const { validatePlannedModel, readPlannedModelForm } = await import("~/.server/plans/planned-model");
+const { comparePlanVersions } = await import("~/.server/plans/plan-diff");
 const { listLockedVersions } = await import("~/.server/datasets/catalog.server");
 const datasets = await import("~/.server/datasets/datasets.server");
 const reruns = await import("~/.server/reruns/reruns.server");
@@ -348,6 +349,14 @@ describe("the Cox model's planned sensitivity analyses", () => {
     const r5 = validatePlannedModel(readPlannedModelForm(noHorizon), await lockedColumns(), []);
     expect(r5.ok).toBe(false);
     if (!r5.ok) expect(r5.errors["sensitivity:tau"]).toMatch(/Give the horizon τ/);
+    // a changed horizon is a plan change a reviewer reads
+    const a = validatePlannedModel(readPlannedModelForm(sensitivityForm()), await lockedColumns(), []);
+    const shorter = sensitivityForm();
+    shorter.set("sensitivity:tau", "120");
+    const b = validatePlannedModel(readPlannedModelForm(shorter), await lockedColumns(), []);
+    if (!a.ok || !b.ok) throw new Error("valid forms refused");
+    const header = { title: "T", sapName: null, sapVersion: null, sapDate: null };
+    expect(comparePlanVersions({ header, models: [a.model] }, { header, models: [b.model] }).map((c) => c.what)).toEqual([`Restricted mean survival time difference between arms: horizon τ ${S.rmst.tau} → 120`]);
   });
 
   it("robust errors clustered by subject: the treatment's robust SE of R's coxph(..., cluster = USUBJID), same estimate", async () => {

@@ -288,7 +288,7 @@ export const RerunAnswer = answer("RerunAnswer", {
         label: z.string().nullable(),
         status: RerunStatus,
         prespecified: z.boolean(),
-        contrasts: z.array(ReportedContrast).describe("As the analysis reports them: HC3 intervals for the robust-errors analysis"),
+        contrasts: z.array(ReportedContrast).describe("As the analysis reports them: HC3 intervals for the robust-errors analysis, sandwich intervals for the Cox analysis clustered by subject"),
       }),
     )
     .describe("Sensitivity reruns beside a primary rerun, with their treatment contrasts"),

@@ -82,6 +82,9 @@ function compareModel(a: PlannedModel, b: PlannedModel): string[] {
   const sb = new Set(b.sensitivity.map((s) => s.kind));
   for (const k of sb) if (!sa.has(k)) out.push(`Sensitivity analysis added: ${SENSITIVITY_LABELS[k]}`);
   for (const k of sa) if (!sb.has(k)) out.push(`Sensitivity analysis removed: ${SENSITIVITY_LABELS[k]}`);
+  const tauA = a.sensitivity.find((s) => s.kind === "cox_rmst")?.tau;
+  const tauB = b.sensitivity.find((s) => s.kind === "cox_rmst")?.tau;
+  if (tauA !== undefined && tauB !== undefined && tauA !== tauB) out.push(`${SENSITIVITY_LABELS.cox_rmst}: horizon τ ${tauA} → ${tauB}`);
   return out;
 }
 

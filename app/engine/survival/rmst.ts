@@ -4,7 +4,9 @@
  *   Var = Σ_{event times t ≤ τ} A(t)² · d / (n (n − d)),  A(t) = ∫_t^τ Ŝ(u) du,
  * (a time where every subject at risk has the event adds nothing), and the difference between
  * two arms with its standard error √(Var₁ + Var₂), Wald 95% interval and two-sided p.
- * No npm package computes this; it is a few lines on top of our Kaplan–Meier curve.
+ * Each arm's curve pools the strata and ignores case weights (the unadjusted comparison the
+ * analysis is planned as). No npm package computes this; it is a few lines on top of our
+ * Kaplan–Meier curve.
  */
 import { normalQuantile, normalUpper } from "../distributions";
 import { EngineError } from "../errors";
