@@ -23,7 +23,7 @@ type TreatmentReference = { estimate: number; se: number; ratio: number; ratioLo
 
 /** R's answers for the Cox sensitivity analyses of the same data (tests/reference/survival/generate-sensitivity.R). */
 export const coxSensitivityReference = () =>
-  JSON.parse(readFileSync(path.resolve("tests/reference/survival/values/trial-breslow-cluster-sensitivity.json"), "utf8")) as {
+  JSON.parse(readFileSync(path.resolve("tests/reference/survival/sensitivity/trial-breslow-cluster.json"), "utf8")) as {
     oracle: string;
     robustSubject: TreatmentReference & { naiveSe: number };
     unstratified: TreatmentReference;

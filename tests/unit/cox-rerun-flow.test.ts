@@ -284,7 +284,7 @@ describe("rerunning a stratified Cox model", () => {
 });
 
 describe("the Cox model's planned sensitivity analyses", () => {
-  // R's coxph on the same invented data (tests/reference/survival/values/trial-breslow-cluster-sensitivity.json,
+  // R's coxph on the same invented data (tests/reference/survival/sensitivity/trial-breslow-cluster.json,
   // written by tests/reference/survival/generate-sensitivity.R)
   const S = coxSensitivityReference();
   let primaryId = "";

@@ -8,7 +8,7 @@
 #     the Kaplan–Meier curve (survfit's `rmean`).
 #
 # Run from the repository root:  Rscript tests/reference/survival/generate-sensitivity.R
-# Writes values/trial-breslow-cluster-sensitivity.json.
+# Writes sensitivity/trial-breslow-cluster.json (beside values/, which holds only the fitted reference cases).
 
 suppressPackageStartupMessages({
   library(jsonlite)
@@ -53,4 +53,4 @@ values <- list(
   unstratified = treatment_row(unstratified),
   rmst = list(tau = tau, arms = rmst)
 )
-writeLines(toJSON(values, auto_unbox = TRUE, pretty = TRUE, digits = NA), file.path(root, "values", "trial-breslow-cluster-sensitivity.json"))
+writeLines(toJSON(values, auto_unbox = TRUE, pretty = TRUE, digits = NA), file.path(root, "sensitivity", "trial-breslow-cluster.json"))
