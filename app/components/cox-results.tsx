@@ -197,12 +197,11 @@ export function HazardRatioTable({
   ratios: CoxView["ratios"];
   robust: boolean;
 }) {
-  const view = { ratios, robust };
   return (
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         Hazard ratio exp(β) with its 95%{" "}
-        {view.robust ? "robust (sandwich) " : ""}Wald interval; below 1 means
+        {robust ? "robust (sandwich) " : ""}Wald interval; below 1 means
         fewer events than the reference.
       </caption>
       <thead>
@@ -217,7 +216,7 @@ export function HazardRatioTable({
         </tr>
       </thead>
       <tbody>
-        {view.ratios.map((r) => (
+        {ratios.map((r) => (
           <tr key={r.name}>
             <th scope="row" className="text-left font-normal">
               {r.name}
@@ -230,6 +229,20 @@ export function HazardRatioTable({
         ))}
       </tbody>
     </table>
+  );
+}
+
+/** The model's tests and the proportional-hazards test per term and global, side by side. */
+function CoxTestTables({ tests, proportionalHazards }: { tests: CoxView["tests"]; proportionalHazards: CoxView["proportionalHazards"] }) {
+  return (
+    <div className="grid gap-4 lg:grid-cols-2">
+      <ChiSquareTable caption="Tests of the model against no covariate effect." rows={tests} first="Test" />
+      <ChiSquareTable
+        caption={`Test of proportional hazards per term and global (Grambsch and Therneau 1994; time scale: ${proportionalHazards.transform}).`}
+        rows={proportionalHazards.rows.map((r) => ({ ...r, name: r.term }))}
+        first="Term"
+      />
+    </div>
   );
 }
 
@@ -248,21 +261,7 @@ export function CoxReportTables({
   return (
     <div className="space-y-4">
       <HazardRatioTable ratios={cox.ratios} robust={robust} />
-      <div className="grid gap-4 lg:grid-cols-2">
-        <ChiSquareTable
-          caption="Tests of the model against no covariate effect."
-          rows={cox.tests}
-          first="Test"
-        />
-        <ChiSquareTable
-          caption={`Test of proportional hazards per term and global (Grambsch and Therneau 1994; time scale: ${cox.proportionalHazards.transform}).`}
-          rows={cox.proportionalHazards.rows.map((r) => ({
-            ...r,
-            name: r.term,
-          }))}
-          first="Term"
-        />
-      </div>
+      <CoxTestTables tests={cox.tests} proportionalHazards={cox.proportionalHazards} />
     </div>
   );
 }
@@ -334,20 +333,8 @@ export function CoxResults({
           statisticName="z"
           scale="the scale of the log hazard ratio"
         />
-        <div className="mt-4 grid gap-4 lg:grid-cols-2">
-          <ChiSquareTable
-            caption="Tests of the model against no covariate effect."
-            rows={view.tests}
-            first="Test"
-          />
-          <ChiSquareTable
-            caption={`Test of proportional hazards per term and global (Grambsch and Therneau 1994; time scale: ${view.proportionalHazards.transform}).`}
-            rows={view.proportionalHazards.rows.map((r) => ({
-              ...r,
-              name: r.term,
-            }))}
-            first="Term"
-          />
+        <div className="mt-4">
+          <CoxTestTables tests={view.tests} proportionalHazards={view.proportionalHazards} />
         </div>
       </section>
 

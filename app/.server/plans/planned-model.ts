@@ -323,45 +323,16 @@ export function validatePlannedModel(
 
 /** The editor's fields for an existing planned model (the inverse of readPlannedModelForm). */
 export function toForm(m: PlannedModel): PlannedModelForm {
-  if (m.spec.family === "cox") return coxToForm(m, m.spec);
-  const main = m.spec.terms.filter((t): t is Extract<Term, { variable: string }> => "variable" in t);
-  const treatmentTerm = main.find((t) => t.variable === m.spec.treatment);
-  return {
-    key: m.key,
-    title: m.title,
-    datasetName: m.datasetName,
-    populationColumn: m.population?.column ?? "",
-    populationValue: m.population?.value ?? "",
-    response: m.spec.response,
-    family: m.spec.family,
-    link: m.spec.link ?? "",
-    treatment: m.spec.treatment ?? "",
-    treatmentReference: treatmentTerm?.reference ?? "",
-    covariates: main
-      .filter((t) => t.variable !== m.spec.treatment)
-      .map((t) => ({ variable: t.variable, categorical: t.categorical ?? null, reference: t.reference ?? "" })),
-    interactions: m.spec.terms.flatMap((t) => ("interaction" in t ? [t.interaction] : [])),
-    weights: m.spec.weights ?? "",
-    offset: m.spec.offset ?? "",
-    id: m.spec.id ?? "",
-    checks: m.checks,
-    sensitivity: m.sensitivity,
-  };
-}
-
-/** toForm for a time-to-event model. */
-function coxToForm(m: PlannedModel, spec: CoxSpec): PlannedModelForm {
+  const spec = m.spec;
   const main = spec.terms.filter((t): t is Extract<Term, { variable: string }> => "variable" in t);
   const treatmentTerm = main.find((t) => t.variable === spec.treatment);
-  return {
+  const shared = {
     key: m.key,
     title: m.title,
     datasetName: m.datasetName,
     populationColumn: m.population?.column ?? "",
     populationValue: m.population?.value ?? "",
     response: spec.response,
-    family: "cox",
-    link: "",
     treatment: spec.treatment ?? "",
     treatmentReference: treatmentTerm?.reference ?? "",
     covariates: main
@@ -373,6 +344,8 @@ function coxToForm(m: PlannedModel, spec: CoxSpec): PlannedModelForm {
     id: spec.id ?? "",
     checks: m.checks,
     sensitivity: m.sensitivity,
-    survival: survivalFormOf(spec),
   };
+  return spec.family === "cox"
+    ? { ...shared, family: "cox", link: "", survival: survivalFormOf(spec) }
+    : { ...shared, family: spec.family, link: spec.link ?? "" };
 }
