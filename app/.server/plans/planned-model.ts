@@ -9,7 +9,7 @@ import { CHECKS, type CheckKey, type PlannedCheck } from "~/engine/checks";
 import { modelSpecSchema, type ModelSpec, type Term } from "~/engine/model-spec";
 import type { ColumnMeta } from "../datasets/catalog.server";
 import { categoricalHints, isNumericType } from "../datasets/categorical-hint";
-import { coxSpecSchema, type CoxSpec } from "~/engine/survival/cox-spec";
+import { coxSpecSchema } from "~/engine/survival/cox-spec";
 import { readSurvivalForm, survivalFormOf, validateSurvival, type SurvivalForm } from "./cox-planned-model";
 
 export const SENSITIVITY_KINDS = ["robust_hc3", "variance_function", "exclude_influential", "alternative_covariates", "quasi_poisson", "negative_binomial", "cox_robust_subject", "cox_unstratified", "cox_rmst"] as const;
