@@ -8,7 +8,7 @@
  */
 import { designRow, type CategoricalVariable, type Variable } from "./design";
 import { tQuantile, tTwoSided } from "./distributions";
-import type { LinearFitContext } from "./linear-model";
+import type { LinearFitContext } from "./linear-fit-context";
 
 export type MeansWeighting = "equal" | "proportional";
 

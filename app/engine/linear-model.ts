@@ -7,7 +7,8 @@ import { buildDesign, prepareData, type Design, type PreparedData, type Variable
 import { observationDiagnostics, partialResiduals, robustCovariances, type ObservationDiagnostics } from "./diagnostics";
 import { fUpper, tQuantile, tTwoSided } from "./distributions";
 import { EngineError } from "./errors";
-import { leastSquares, type LeastSquaresFit } from "./least-squares";
+import { leastSquares } from "./least-squares";
+import type { LinearFitContext } from "./linear-fit-context";
 import type { ModelSpec } from "./model-spec";
 import { andersonDarling, lilliefors, shapiroWilk, type AndersonDarlingTest, type NormalityTest } from "./normality";
 import { readQqShape, type QqShape } from "./qq-shape";
@@ -139,16 +140,6 @@ export interface LinearModelResult {
   readonly adjustedMeansWeighting: MeansWeighting | null;
   /** Covariate values and cell weights the adjusted means average over. */
   readonly adjustedMeansGrid?: AdjustedMeansGrid | null;
-}
-
-/** What the tests and adjusted means read from a fitted model. */
-export interface LinearFitContext {
-  readonly spec: ModelSpec;
-  readonly data: PreparedData;
-  readonly design: Design;
-  readonly fit: LeastSquaresFit;
-  /** Weights used in the fit, or null. */
-  readonly weights: Float64Array | null;
 }
 
 function toMatrix(m: Float64Array, p: number): number[][] {
