@@ -139,6 +139,7 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
     const out: string[][] = [];
     for (let i = 0; i < vars.length; i++) for (let j = i + 1; j < vars.length; j++) out.push([vars[i], vars[j]]);
     return out;
+    // eslint-disable-next-line react-hooks/exhaustive-deps -- keyed by the names included, not the array's identity
   }, [treatment, included.join("|")]);
 
   const toggleCovariate = (name: string, on: boolean) => {

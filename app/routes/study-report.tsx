@@ -3,7 +3,7 @@ import { CoxReportTables } from "~/components/cox-results";
 import type { Route } from "./+types/study-report";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { Caution } from "~/components/caution";
-import { fmt, fmtCi, fmtP, utc } from "~/components/format";
+import { fmt, utc } from "~/components/format";
 import { PageHeader } from "~/components/page";
 import { AdjustedMeansTable, checkTally, CoefficientTable, ContrastsTable, SensitivityTable } from "~/components/rerun-results";
 import { StatusLabel } from "~/components/status";

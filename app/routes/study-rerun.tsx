@@ -9,7 +9,7 @@ import { SensitivityForest, type ForestRow } from "~/components/figures/sensitiv
 import { forestSpec } from "~/components/figures/specs";
 import { toVega } from "~/.server/figures/compile.server";
 import { WhatIfPanel, type WhatIfInputs } from "~/components/figures/what-if-panel";
-import { fmt, fmtCi, fmtP, utc } from "~/components/format";
+import { fmt, utc } from "~/components/format";
 import { FieldError, PageHeader } from "~/components/page";
 import { AdjustedMeansTable, CalibrationTable, CheckCard, checkTally, CoefficientTable, ContrastsTable, MarginalMeansTable, RatioTable, SensitivityTable } from "~/components/rerun-results";
 import { StatusLabel } from "~/components/status";
