@@ -32,6 +32,13 @@ const engineZone = {
   except: ["app/engine", ...ENGINE_PACKAGES.map((name) => `node_modules/${name}`)],
   message: "The engine imports nothing outside app/engine (DEVELOPERS.md): pass what it needs in as data.",
 };
+// The dataset readers: file I/O, but of the app only the engine (no database, no server, no UI).
+const engineIoZone = {
+  target: "app/engine-io",
+  from: "app",
+  except: ["engine", "engine-io"],
+  message: "The dataset readers import only the engine and packages (DEVELOPERS.md).",
+};
 const routeZones = [
   {
     target: [SERVER_DIR, SERVER_FILES],
@@ -52,7 +59,7 @@ const componentZones = (serverExceptions = []) => [
 ];
 const layerRule = (serverExceptions) => [
   "error",
-  { basePath: root, zones: [engineZone, ...routeZones, ...componentZones(serverExceptions)] },
+  { basePath: root, zones: [engineZone, engineIoZone, ...routeZones, ...componentZones(serverExceptions)] },
 ];
 
 // Known exceptions, to be removed by issue 19 item 3 (shared types moved to a home both layers may

@@ -82,6 +82,19 @@ describe("the engine imports nothing outside app/engine", () => {
   });
 });
 
+describe("the dataset readers import only the engine of the app", () => {
+  it("refuses the server and components, allows the engine, Node and packages", async () => {
+    const file = "app/engine-io/lint-fixture.ts";
+    for (const source of ["~/.server/db/index.server", "~/components/format", "../routes/study-rerun"]) {
+      expect(await ruleIds(file, `import * as m from "${source}";\nexport const x = m;\n`), source).toEqual([
+        "import-x/no-restricted-paths",
+      ]);
+    }
+    const code = `import { readFile } from "node:fs/promises";\nimport { parse } from "csv-parse/sync";\nimport { toDataTable } from "~/engine/data";\nexport const used = [readFile, parse, toDataTable];\n`;
+    expect(await ruleIds(file, code)).toEqual([]);
+  });
+});
+
 describe("components import no .server module", () => {
   it("refuses app/.server and any *.server file, type-only imports included", async () => {
     for (const source of [
