@@ -172,7 +172,7 @@ export default defineConfig(
     },
   },
   {
-    files: ["**/*.tsx"],
+    files: ["app/**/*.{ts,tsx}"],
     plugins: { "react-hooks": reactHooks },
     rules: { "react-hooks/rules-of-hooks": "error", "react-hooks/exhaustive-deps": "error" },
   },
