@@ -23,5 +23,7 @@ if [ ${#missing[@]} -gt 0 ]; then
 fi
 
 npm ci --no-audit --no-fund
+# Layer rules and lint first: a violation fails the run before the tests start.
+npm run lint
 npm run build
 npx vitest run
