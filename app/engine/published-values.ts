@@ -88,6 +88,6 @@ export function describePublished(v: PublishedValue, reference?: string): string
     case "mean":
       return `adjusted mean ${v.level}`;
     case "coefficient":
-      return `coefficient ${v.term.map((p) => (p.level === undefined ? p.variable : `${p.variable} ${p.level}`)).join(" with ")}`;
+      return `coefficient ${v.term.map((p) => (p.level === undefined ? p.variable : `${p.variable}: ${p.level}`)).join(" × ")}`;
   }
 }
