@@ -91,3 +91,8 @@ export function describePublished(v: PublishedValue, reference?: string): string
       return `coefficient ${v.term.map((p) => (p.level === undefined ? p.variable : `${p.variable}: ${p.level}`)).join(" × ")}`;
   }
 }
+
+/** One published value in reviewers' words: "contrast High vs Placebo, estimate printed as -2.35". */
+export function publishedInWords(v: PublishedValue, reference?: string): string {
+  return `${describePublished(v, reference)}, ${STATISTIC_WORDS[v.statistic]} printed as ${v.value}`;
+}
