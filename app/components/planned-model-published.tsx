@@ -87,7 +87,7 @@ export function PublishedValuesSection({ initial, family, arms, reference, terms
             <li key={r.id}>
               <fieldset className="rounded-sm border border-rule p-3">
                 <legend className="px-1 text-xs font-semibold">Published value {i + 1}</legend>
-                <div className="grid gap-3 md:grid-cols-3 lg:grid-cols-6">
+                <div className="grid gap-3 sm:grid-cols-2 lg:grid-cols-3">
                   <Choice id={`${id}-quantity`} name={`published:${i}:quantity`} label="Quantity" value={r.quantity} onChange={(v) => set(r.id, { quantity: v, level: "", variable: "", statistic: v === "mean" && r.statistic === "p" ? "estimate" : r.statistic })} options={QUANTITIES} error={e("quantity")} />
                   {r.quantity === "coefficient" ? (
                     <>

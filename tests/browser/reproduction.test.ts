@@ -29,6 +29,7 @@ let studyId = "";
 let planPath = "";
 /** The High vs Placebo difference as a report would print it (2 decimals, half away from zero). */
 let printedHigh = "";
+let rerunPath = "";
 
 async function one(sql: string, args: (string | number)[]): Promise<string> {
   const rs = await testDb(stack).execute({ sql, args });
@@ -151,6 +152,7 @@ describe("published values reproduced, or not, by the rerun", () => {
     await page.getByLabel("Approved planned model").selectOption(value ?? "");
     await page.getByRole("button", { name: "Rerun" }).click();
     await page.getByRole("heading", { name: "Checks of the plan" }).waitFor({ timeout: 30_000 });
+    rerunPath = new URL(page.url()).pathname;
     const card = page.getByRole("article", { name: "Reproduction of the published values" });
     await card.waitFor();
     await card.getByText("1 of 2 published values reproduced.").waitFor();
@@ -172,5 +174,45 @@ describe("published values reproduced, or not, by the rerun", () => {
     await page.screenshot({ path: "test-results/screenshots/reproduction-card.png", clip: (await card.boundingBox()) ?? undefined });
     await screenshot(page, "reproduction-rerun");
     await page.context().close();
+  }, 120_000);
+
+  it("assessed and signed, the appendix and the API answer carry the check and its values", async () => {
+    const rerunId = rerunPath.split("/").pop() ?? "";
+    const rs = await testDb(stack).execute({ sql: "SELECT id, check_key FROM findings WHERE rerun_id = ?", args: [rerunId] });
+    expect(rs.rows.map((r) => r.check_key)).toContain("reproduction");
+    const priya = await sessionCookieFor(stack, PRIYA);
+    for (const r of rs.rows) {
+      await post(priya, rerunPath, [["intent", "assess"], ["findingId", String(r.id)], ["category", "data"], ["impact", "none"], ["action", "none"], ["rationale", "The report's 40 mg estimate was mistyped; the rerun agrees with the analysis datasets."]]);
+    }
+    await post(await sessionCookieFor(stack, TOMAS), rerunPath, [["intent", "sign"]]);
+    expect(await one("SELECT signed_at IS NOT NULL FROM reruns WHERE id = ?", [rerunId])).toBe("1");
+
+    const { buildAppendixContent } = await import("~/.server/appendix/build-content.server");
+    const content = await buildAppendixContent(studyId, { kind: "rerun", rerunId });
+    const tables = content.sections.flatMap((s) => s.blocks).filter((b) => b.kind === "table");
+    const checks = tables.find((b) => b.key === `checks:${rerunId}`);
+    expect(checks?.rows.find((r) => r[0] === "Reproduction of the published values")?.[3]).toBe("Not reproduced (finding)");
+    const values = tables.find((b) => b.key === `reproduction:${rerunId}`);
+    expect(values?.rows.map((r) => [r[1], r[3], r[4].split(":")[0]])).toEqual([
+      [printedHigh, printedHigh, "Reproduced"],
+      ["99.99", expect.stringMatching(/^-?\d+\.\d{2}$/), "Not reproduced"],
+    ]);
+    expect(values?.note).toMatch(/half away from zero/);
+    const deviations = tables.find((b) => b.key === `deviations:${rerunId}`);
+    expect(deviations?.rows.some((r) => r[0] === "Reproduction of the published values")).toBe(true);
+
+    const { getStudyRerun } = await import("~/.server/api/reruns.server");
+    const { RerunAnswer } = await import("~/.server/api/schemas");
+    const person = { id: await personId(stack, PRIYA), displayName: "Priya Lindqvist", email: PRIYA, organisation: null };
+    const body = await getStudyRerun({ tokenId: "test", person }, studyId, rerunId);
+    expect(body.checks.find((c) => c.key === "reproduction")).toMatchObject({ outcome: "finding", statistic: "1 of 2 published values reproduced" });
+    expect(body.reproduction?.values.map((v) => [v.published.value, v.outcome])).toEqual([
+      [printedHigh, "reproduced"],
+      ["99.99", "not_reproduced"],
+    ]);
+    // the answer is what the API document says it is (strict objects)
+    const { CAUTION } = await import("~/components/caution");
+    const checked = RerunAnswer.safeParse({ caution: CAUTION, ...body });
+    expect(checked.error?.issues ?? []).toEqual([]);
   }, 120_000);
 });
