@@ -97,3 +97,41 @@ describe("reproduction check against R's fit of an invented trial", () => {
     expect(b.reproduction.values.filter((v) => v.outcome === "not_reproduced").map((v) => v.printed)).toEqual([R.mistyped.printed]);
   }, 60_000);
 });
+
+describe("values found by structure on other committed reference cases (R values written by tests/reference/generate.R)", () => {
+  const REF = join(ROOT, "tests", "reference");
+  const refCase = (name: string) => ({
+    spec: parseModelSpec(JSON.parse(readFileSync(join(REF, "models", `${name}.json`), "utf8"))),
+    table: readCsvText(readFileSync(join(REF, "data", `${name}.csv`), "utf8")),
+    r: JSON.parse(readFileSync(join(REF, "values", `${name}.json`), "utf8")),
+  });
+  const printed = (x: number, d: number) => (Math.sign(x) * Math.floor(Math.abs(x) * 10 ** d + 0.5 + 1e-9)) / 10 ** d;
+
+  it("an interaction coefficient by its parts, in either order (warpbreaks: R's woolB:tensionM)", () => {
+    const { spec, table, r } = refCase("warpbreaks-interaction");
+    const rCoef = (r.coefficients as { rName: string; estimate: number; p: number }[]).find((c) => c.rName === "woolB:tensionM")!;
+    const result = fitLinear(spec, table);
+    const term = [{ variable: "tension", level: "M" }, { variable: "wool", level: "B" }];
+    const rep = checkReproduction(result, [
+      { quantity: "coefficient", term, statistic: "estimate", value: printed(rCoef.estimate, 3).toFixed(3) },
+      { quantity: "coefficient", term, statistic: "p", value: printed(rCoef.p, 4).toFixed(4) },
+      { quantity: "coefficient", term: [{ variable: "wool", level: "B" }, { variable: "tension", level: "H" }], statistic: "estimate", value: printed(rCoef.estimate, 3).toFixed(3) }, // another cell's value
+    ]);
+    expect(rep.values.map((v) => v.outcome)).toEqual(["reproduced", "reproduced", "not_reproduced"]);
+  });
+
+  it("a binomial model's marginal risk difference names its measure (R: glm with emmeans counterfactual means)", async () => {
+    const { spec, table, r } = refCase("glm-trial-responder");
+    const { fitModel } = await import("~/engine");
+    const result = fitModel(spec, table);
+    const diff = r.marginal.differences[0] as { estimate: number; se: number };
+    const rep = checkReproduction(result, [
+      { quantity: "contrast", level: "Active", measure: "risk difference", statistic: "estimate", value: printed(diff.estimate, 3).toFixed(3) },
+      { quantity: "contrast", level: "Active", measure: "risk difference", statistic: "se", value: printed(diff.se, 4).toFixed(4) },
+      { quantity: "mean", level: "Placebo", statistic: "estimate", value: printed(r.marginal.means[1].estimate, 3).toFixed(3) },
+      { quantity: "contrast", level: "Active", statistic: "estimate", value: "0.276" },
+    ]);
+    expect(rep.values.map((v) => v.outcome)).toEqual(["reproduced", "reproduced", "reproduced", "not_reproduced"]);
+    expect(rep.values[3].reason).toMatch(/name the measure printed \(risk difference, risk ratio, odds ratio\)/);
+  });
+});
