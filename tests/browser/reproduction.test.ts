@@ -2,7 +2,8 @@
  * The reproduction check in a real browser: a biostatistician enters the values a study report
  * printed in the planned-model editor (an empty value is refused beside its field), a second
  * approves the plan, the first reruns it and sees each value reproduced or not, with the check
- * among the checks of the plan and its finding awaiting assessment. The correctly printed value
+ * among the checks of the plan and its finding awaiting assessment; once assessed and signed, the
+ * report, the appendix and the API answer carry it too. The correctly printed value
  * is the engine's own High vs Placebo difference rounded as printed (the rounding and the engine
  * are checked against R in tests/reference/reproduction-reference.test.ts); the other is mistyped.
  */
@@ -186,6 +187,14 @@ describe("published values reproduced, or not, by the rerun", () => {
     }
     await post(await sessionCookieFor(stack, TOMAS), rerunPath, [["intent", "sign"]]);
     expect(await one("SELECT signed_at IS NOT NULL FROM reruns WHERE id = ?", [rerunId])).toBe("1");
+
+    // the signed report shows the check with its values
+    const page = await as("Tomas Berg");
+    await page.goto(`${stack.appUrl}/studies/${studyId}/reports/${rerunId}`);
+    const card = page.getByRole("article", { name: "Reproduction of the published values" });
+    await card.getByText("1 of 2 published values reproduced.").waitFor();
+    await screenshot(page, "reproduction-report");
+    await page.context().close();
 
     const { buildAppendixContent } = await import("~/.server/appendix/build-content.server");
     const content = await buildAppendixContent(studyId, { kind: "rerun", rerunId });
