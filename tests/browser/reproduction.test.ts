@@ -8,6 +8,8 @@
  * are checked against R in tests/reference/reproduction-reference.test.ts); the other is mistyped.
  */
 import path from "node:path";
+import Ajv2020 from "ajv/dist/2020.js";
+import addFormats from "ajv-formats";
 import type { Browser, Page } from "playwright-core";
 import { afterAll, afterEach, beforeAll, describe, expect, inject, it } from "vitest";
 import { launchBrowser, screenshot, signInAs } from "../support/browser";
@@ -219,9 +221,16 @@ describe("published values reproduced, or not, by the rerun", () => {
       [printedHigh, "reproduced"],
       ["99.99", "not_reproduced"],
     ]);
-    // the answer is what the API document says it is (strict objects)
+    // the answer is what the API schema and the served OpenAPI document say it is (strict objects)
     const { CAUTION } = await import("~/components/caution");
-    const checked = RerunAnswer.safeParse({ caution: CAUTION, ...body });
+    const answer = { caution: CAUTION, ...body };
+    const checked = RerunAnswer.safeParse(answer);
     expect(checked.error?.issues ?? []).toEqual([]);
+    const document = await (await fetch(`${stack.appUrl}/api/v1/openapi.json`)).json();
+    const ajv = new Ajv2020({ strict: false, allErrors: true });
+    addFormats(ajv);
+    ajv.addSchema(document, "openapi.json");
+    const validate = ajv.compile({ $ref: "openapi.json#/paths/~1api~1v1~1studies~1{studyId}~1reruns~1{rerunId}/get/responses/200/content/application~1json/schema" });
+    expect(validate(JSON.parse(JSON.stringify(answer))), JSON.stringify(validate.errors)).toBe(true);
   }, 120_000);
 });

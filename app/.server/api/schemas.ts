@@ -276,25 +276,24 @@ export const RerunsAnswer = answer("RerunsAnswer", {
   reruns: z.array(Rerun).describe("Newest first. Sponsor readers get only published reruns."),
 });
 
-const Reproduction = registry.register(
-  "Reproduction",
-  z.strictObject({
-    outcome: z.enum(["reproduced", "not_reproduced"]),
-    rule: z.string().describe("The rounding rule applied"),
-    values: z.array(
-      z.strictObject({
-        published: publishedValueSchema,
-        quantity: z.string().describe("The quantity in words, naming the rerun's coefficient or contrast"),
-        printed: z.string().describe("The value as the study report printed it"),
-        decimals: z.int(),
-        rerunValue: Num.describe("As computed; null when the rerun has no such quantity"),
-        rerunRounded: z.string().nullable().describe("The rerun's value rounded to the printed decimals, half away from zero"),
-        outcome: z.enum(["reproduced", "not_reproduced"]),
-        reason: z.string(),
-      }),
-    ),
-  }),
-);
+// Inlined, not registered: a registered schema made nullable is written as allOf [$ref, null],
+// which no null satisfies.
+const Reproduction = z.strictObject({
+  outcome: z.enum(["reproduced", "not_reproduced"]),
+  rule: z.string().describe("The rounding rule applied"),
+  values: z.array(
+    z.strictObject({
+      published: publishedValueSchema,
+      quantity: z.string().describe("The quantity in words, naming the rerun's coefficient or contrast"),
+      printed: z.string().describe("The value as the study report printed it"),
+      decimals: z.int(),
+      rerunValue: Num.describe("As computed; null when the rerun has no such quantity"),
+      rerunRounded: z.string().nullable().describe("The rerun's value rounded to the printed decimals, half away from zero"),
+      outcome: z.enum(["reproduced", "not_reproduced"]),
+      reason: z.string(),
+    }),
+  ),
+});
 
 export const RerunAnswer = answer("RerunAnswer", {
   rerun: Rerun,
