@@ -200,6 +200,8 @@ describe("published values reproduced, or not, by the rerun", () => {
 
     const { buildAppendixContent } = await import("~/.server/appendix/build-content.server");
     const content = await buildAppendixContent(studyId, { kind: "rerun", rerunId });
+    const paragraphs = content.sections.flatMap((s) => s.blocks).flatMap((b) => (b.kind === "paragraph" ? [b.text] : []));
+    expect(paragraphs.some((t) => t.startsWith("The plan listed 2 values printed in the clinical study report"))).toBe(true);
     const tables = content.sections.flatMap((s) => s.blocks).filter((b) => b.kind === "table");
     const checks = tables.find((b) => b.key === `checks:${rerunId}`);
     expect(checks?.rows.find((r) => r[0] === "Reproduction of the published values")?.[3]).toBe("Not reproduced (finding)");
