@@ -16,6 +16,9 @@ export interface ReproductionCardData {
 const WORD = { reproduced: "Reproduced", not_reproduced: "Not reproduced" } as const;
 const STATUS = { reproduced: "within", not_reproduced: "finding" } as const;
 
+/** Printed numbers with a true minus sign, as the results tables print them. */
+const minus = (text: string) => text.replace(/(^|[\s(<>])-(?=\.?\d)/g, "$1−");
+
 /** The rerun's value with enough digits to see why it rounds as it does. */
 const unrounded = (x: number | null, decimals: number) => (x === null ? "—" : fmt(x, Math.min(Math.max(decimals + 3, 4), 12)));
 
@@ -58,13 +61,13 @@ export function ReproductionCard({ check }: { check: ReproductionCardData }) {
                   <th scope="row" className="text-left font-normal">
                     {v.quantity}
                   </th>
-                  <td className="num text-right">{v.printed.replace(/^(<|>)?\s*-/, "$1−")}</td>
+                  <td className="num text-right">{minus(v.printed)}</td>
                   <td className="num text-right">{v.decimals}</td>
                   <td className="num text-right">{unrounded(v.rerunValue, v.decimals)}</td>
-                  <td className="num text-right">{v.rerunRounded === null ? "—" : v.rerunRounded.replace(/^-/, "−")}</td>
+                  <td className="num text-right">{v.rerunRounded === null ? "—" : minus(v.rerunRounded)}</td>
                   <td>
                     <StatusLabel status={STATUS[v.outcome]} word={WORD[v.outcome]} />
-                    <span className="block text-xs text-ink-soft">{v.reason}</span>
+                    <span className="block text-xs text-ink-soft">{minus(v.reason)}</span>
                   </td>
                 </tr>
               ))}
