@@ -48,7 +48,11 @@ export function readPublishedForm(f: FormData): PublishedRowForm[] {
   }));
 }
 
-/** The editor's rows for stored values (the inverse of validatePublished). Interaction coefficients are kept as their first part's row only in JSON; the editor shows main terms. */
+/**
+ * The editor's rows for stored values (the inverse of validatePublished). The editor offers the
+ * coefficients of main terms; an interaction's coefficient can be named in the model JSON the
+ * headless command reads, not in a stored plan.
+ */
 export function publishedFormOf(values: readonly PublishedValue[] | undefined): PublishedRowForm[] {
   return (values ?? []).map((v) => ({
     quantity: v.quantity,
