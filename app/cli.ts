@@ -18,6 +18,7 @@ import { EngineError, fitModel, stringifyResult, toCliResult } from "./engine";
 import type { MeansWeighting } from "./engine";
 import { isCoxSpec } from "./engine/survival/cox-spec";
 import { coxCliAnswer } from "./engine/survival/cox-result";
+import { checkReproduction } from "./engine/reproduction";
 
 const USAGE = "usage: cli fit --data FILE --model MODEL.json [--means equal|proportional] | cli inspect --data FILE (FILE: .csv, .json, .ndjson or .xpt)";
 
@@ -112,7 +113,9 @@ async function main(): Promise<number> {
       return 0;
     }
     const result = fitModel(spec, { columns, rowNumbers: table.rowNumbers }, { meansWeighting: args.means });
-    process.stdout.write(stringifyResult(toCliResult(result)) + "\n");
+    // the model's "published" values, when given, are checked against the fit (reproduction.ts)
+    const published = result.spec.published ?? [];
+    process.stdout.write(stringifyResult({ ...toCliResult(result), ...(published.length > 0 ? { reproduction: checkReproduction(result, published) } : {}) }) + "\n");
     return 0;
   } catch (err) {
     if (err instanceof EngineError || err instanceof UsageError) {

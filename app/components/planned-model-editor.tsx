@@ -1,6 +1,7 @@
 import { useMemo, useState } from "react";
 import { FieldError } from "./page";
 import { SurvivalSection, type SurvivalFields } from "./planned-model-survival";
+import { PublishedValuesSection, type PublishedFields } from "./planned-model-published";
 
 export interface EditorColumn {
   name: string;
@@ -49,6 +50,8 @@ export interface EditorForm {
   sensitivity: { kind: string; varianceBy?: string; covariates?: string[]; label?: string; tau?: number }[];
   /** Time-to-event fields (family "cox"). */
   survival?: SurvivalFields;
+  /** Values the study report printed, for the reproduction check (linear and generalized linear models). */
+  published?: PublishedFields[];
 }
 
 const LINKS: Record<string, string[]> = {
@@ -309,6 +312,17 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
           <Select id="pm-offset" name="offset" label="Offset" value={initial.offset} options={colOptions((c) => c.type === "number")} placeholder="None" error={errors.offset} hint="For counts: the log of exposure time." />
         </div>
       </Section>
+
+      {family === "cox" ? null : (
+        <PublishedValuesSection
+          initial={initial.published ?? []}
+          family={family}
+          arms={levels(treatment).map((l) => l.value)}
+          reference={reference}
+          terms={[...(treatment ? [treatment] : []), ...included].map((v) => ({ variable: v, categorical: v === treatment || covariates.get(v)?.categorical === true || col(v)?.type !== "number", levels: levels(v).map((l) => l.value) }))}
+          errors={errors}
+        />
+      )}
 
       <Section title="Checks" note="Each check ends as within plan or as a finding. Defaults come from common practice; the source is given. Edit a threshold where the SAP states another.">
         <table className="data-table">

@@ -1,4 +1,5 @@
 import { z } from "zod";
+import { publishedValueSchema } from "./published-values";
 
 /** A main-effect term: one variable, continuous or categorical. */
 export const mainTermSchema = z
@@ -46,6 +47,8 @@ export const modelSpecSchema = z
     treatment: z.string().min(1).optional(),
     /** Binomial family: the level of a two-level response column counted as the event (1). */
     event: z.string().min(1).optional(),
+    /** Values a clinical study report printed, which the rerun must reproduce (reproduction.ts). */
+    published: z.array(publishedValueSchema).optional(),
   })
   .strict();
 

@@ -41,6 +41,7 @@ function blankForm(): PlannedModelForm {
     id: "",
     checks: defaultChecks(true),
     sensitivity: [],
+    published: [],
   };
 }
 

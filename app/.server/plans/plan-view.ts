@@ -2,6 +2,7 @@
 import { CANONICAL_LINK } from "~/engine/model-spec";
 import type { CoxSpec } from "~/engine/survival/cox-spec";
 import { CHECK_BY_KEY } from "~/engine/checks";
+import { publishedInWords } from "~/engine/published-values";
 import type { PlannedModelView } from "~/components/planned-model-summary";
 import { SENSITIVITY_LABELS } from "./planned-model";
 import type { StoredPlannedModel } from "./plans.server";
@@ -53,5 +54,6 @@ export function plannedModelView(m: StoredPlannedModel): PlannedModelView {
             ? `${SENSITIVITY_LABELS[s.kind]} to τ = ${s.tau}`
             : SENSITIVITY_LABELS[s.kind],
     ),
+    published: m.spec.family === "cox" ? [] : (m.spec.published ?? []).map((v) => publishedInWords(v, treatment?.reference)),
   };
 }

@@ -11,6 +11,7 @@ import type { ColumnMeta } from "../datasets/catalog.server";
 import { categoricalHints, isNumericType } from "../datasets/categorical-hint";
 import { coxSpecSchema } from "~/engine/survival/cox-spec";
 import { readSurvivalForm, survivalFormOf, validateSurvival, type SurvivalForm } from "./cox-planned-model";
+import { publishedFormOf, readPublishedForm, validatePublished, type PublishedRowForm } from "./published-planned-values";
 
 export const SENSITIVITY_KINDS = ["robust_hc3", "variance_function", "exclude_influential", "alternative_covariates", "quasi_poisson", "negative_binomial", "cox_robust_subject", "cox_unstratified", "cox_rmst"] as const;
 export type SensitivityKind = (typeof SENSITIVITY_KINDS)[number];
@@ -92,6 +93,8 @@ export interface PlannedModelForm {
   sensitivity: PlannedSensitivity[];
   /** Time-to-event fields, read when the family is "cox" (cox-planned-model.ts). */
   survival?: SurvivalForm;
+  /** Values the study report printed, for the reproduction check (published-planned-values.ts). */
+  published: PublishedRowForm[];
 }
 
 const str = (f: FormData, k: string): string => String(f.get(k) ?? "").trim();
@@ -142,6 +145,7 @@ export function readPlannedModelForm(f: FormData): PlannedModelForm {
       remedy: str(f, `check:${c.key}:remedy`) || c.defaultRemedy,
     })),
     ...(str(f, "family") === "cox" ? { survival: readSurvivalForm(f) } : {}),
+    published: readPublishedForm(f),
     sensitivity: SENSITIVITY_KINDS.filter((k) => f.get(`sensitivity:${k}`) === "on").map((kind) => ({
       kind,
       ...(kind === "variance_function" ? { varianceBy: str(f, "sensitivity:varianceBy") === "treatment" ? ("treatment" as const) : ("fitted" as const) } : {}),
@@ -297,6 +301,18 @@ export function validatePlannedModel(
       errors["sensitivity:varianceBy"] = "Variance per arm needs a treatment variable.";
   }
 
+  const published = validatePublished(
+    form.published,
+    {
+      family,
+      treatment: form.treatment,
+      reference: form.treatmentReference,
+      mainTerms: terms.flatMap((t) => ("variable" in t ? [{ variable: t.variable, categorical: t.categorical === true }] : [])),
+      columns: col,
+    },
+    errors,
+  );
+
   if (family === "cox") {
     const cox = validateSurvival(form, terms, dataset, errors);
     if (!cox) return { ok: false, errors };
@@ -314,6 +330,7 @@ export function validatePlannedModel(
     ...(form.offset ? { offset: form.offset } : {}),
     ...(form.id ? { id: form.id } : {}),
     ...(form.treatment ? { treatment: form.treatment } : {}),
+    ...(published.length > 0 ? { published } : {}),
   });
   return {
     ok: true,
@@ -344,6 +361,7 @@ export function toForm(m: PlannedModel): PlannedModelForm {
     id: spec.id ?? "",
     checks: m.checks,
     sensitivity: m.sensitivity,
+    published: spec.family === "cox" ? [] : publishedFormOf(spec.published),
   };
   return spec.family === "cox"
     ? { ...shared, family: "cox", link: "", survival: survivalFormOf(spec) }
