@@ -16,6 +16,7 @@ const root = import.meta.dirname;
 // app/engine, and every Node built-in (the engine does no I/O), is refused.
 const ENGINE_PACKAGES = [
   "zod",
+  "decimal.js",
   "jstat",
   "@stdlib/math-base-special-betainc",
   "@stdlib/math-base-special-gammainc",
