@@ -9,12 +9,24 @@
 # Covariance structures in nlme terms: unstructured = corSymm + varIdent by visit; compound
 # symmetry = corCompSymm (heterogeneous: + varIdent); AR(1) = corAR1 on the visit position
 # (+ varIdent); Toeplitz = corARMA(p = visits - 1) on the visit position (+ varIdent).
-# gls is run with tight tolerances (tolerance 1e-12, msTol 1e-14, msMaxIter 2000).
+# gls is run with tight tolerances (tolerance 1e-12, msTol 1e-14, msMaxIter 2000). Where gls still
+# stops short of the maximum (its log-likelihood below the maximum by up to 1e-7, enough to move
+# estimates by 1e-5), the values are settled by direct computation: the same (restricted)
+# log-likelihood written out here (checked equal to nlme's logLik at nlme's estimate), maximized
+# from nlme's estimate by Newton steps on numDeriv's Richardson-extrapolated gradient and Hessian.
+# The direct computation also gives: normalized residuals as the inverse lower Cholesky factor of
+# each subject's covariance applied to its residuals (nlme's own agree for every structure but
+# compound symmetry, whose corStruct uses another square root); ML standard errors from
+# (X'V^-1 X)^-1 (nlme multiplies them by sqrt(N/(N - p))); and exact Satterthwaite df,
+# 2 v^2 / (g' W g) with W the inverse observed information and g the gradient of v = l'C l, for
+# emmeans' own linear functions (emmeans' gls df use nlme's apVar, a coarser finite-difference
+# Hessian; its values are kept as emmeansDf).
 
 suppressPackageStartupMessages({
   library(jsonlite)
   library(nlme)
   library(emmeans)
+  library(numDeriv)
 })
 
 RNGkind("Mersenne-Twister", "Inversion", "Rejection")
@@ -72,6 +84,94 @@ write.csv(trial, file.path(root, "data", "trial.csv"), row.names = FALSE, na = "
 dir.create("tests/fixtures", showWarnings = FALSE)
 write.csv(trial, "tests/fixtures/mmrm-trial.csv", row.names = FALSE, na = "")
 
+
+# ---- direct computation -----------------------------------------------------------------------
+# the (restricted) log-likelihood as a function of the visits' covariance S, subjects grouped by
+# their set of observed visits
+make_direct <- function(X, y, subject, pos, method) {
+  N <- nrow(X); p <- ncol(X)
+  rows <- split(seq_len(N), subject)
+  rows <- lapply(rows, function(r) r[order(pos[r])])
+  key <- vapply(rows, function(r) paste(pos[r], collapse = ","), "")
+  groups <- lapply(split(rows, key), function(g) list(pos = pos[g[[1]]], idx = do.call(rbind, g)))
+  fit_at <- function(S) {
+    A <- matrix(0, p, p); b <- numeric(p); logdet <- 0
+    for (g in groups) {
+      V <- S[g$pos, g$pos, drop = FALSE]
+      U <- chol(V)
+      Vi <- chol2inv(U)
+      logdet <- logdet + nrow(g$idx) * 2 * sum(log(diag(U)))
+      m <- length(g$pos)
+      for (a in seq_len(m)) for (c in seq_len(m)) {
+        Xa <- X[g$idx[, a], , drop = FALSE]
+        A <- A + Vi[a, c] * crossprod(Xa, X[g$idx[, c], , drop = FALSE])
+        b <- b + Vi[a, c] * crossprod(Xa, y[g$idx[, c]])
+      }
+    }
+    C <- solve(A)
+    beta <- drop(C %*% b)
+    r <- drop(y - X %*% beta)
+    quad <- 0
+    for (g in groups) {
+      Vi <- chol2inv(chol(S[g$pos, g$pos, drop = FALSE]))
+      R <- matrix(r[g$idx], nrow = nrow(g$idx))
+      quad <- quad + sum((R %*% Vi) * R)
+    }
+    ll <- if (method == "ml") -0.5 * (N * log(2 * pi) + logdet + quad) else
+      -0.5 * ((N - p) * log(2 * pi) + logdet + as.numeric(determinant(A)$modulus) + quad)
+    list(logLik = ll, beta = beta, C = C, r = r)
+  }
+  normalized <- function(S, r) {
+    out <- numeric(N)
+    for (rr in rows) out[rr] <- backsolve(chol(S[pos[rr], pos[rr], drop = FALSE]), r[rr], transpose = TRUE)
+    out
+  }
+  list(fit_at = fit_at, normalized = normalized)
+}
+
+# Σ(θ) per structure (any parameterization serves: the maximum does not depend on it)
+sigma_map <- function(structure, T) {
+  het <- grepl("heterogeneous", structure)
+  base <- sub("-heterogeneous", "", structure)
+  nv <- if (het) T else 1
+  sds <- function(th) rep_len(exp(th[seq_len(nv)]), T)
+  lag <- abs(outer(seq_len(T), seq_len(T), "-"))
+  switch(base,
+    "unstructured" = list(
+      to = function(S) { L <- t(chol(S)); diag(L) <- log(diag(L)); L[lower.tri(L, diag = TRUE)] },
+      from = function(th) { L <- matrix(0, T, T); L[lower.tri(L, diag = TRUE)] <- th; diag(L) <- exp(diag(L)); L %*% t(L) }),
+    "compound-symmetry" = list(
+      to = function(S) { sd <- sqrt(diag(S)); R <- S / outer(sd, sd); c(log(if (het) sd else mean(sd)), atanh(mean(R[upper.tri(R)]))) },
+      from = function(th) { sd <- sds(th); R <- matrix(tanh(th[nv + 1]), T, T); diag(R) <- 1; R * outer(sd, sd) }),
+    "ar1" = list(
+      to = function(S) { sd <- sqrt(diag(S)); c(log(if (het) sd else mean(sd)), atanh(S[1, 2] / (sd[1] * sd[2]))) },
+      from = function(th) { sd <- sds(th); tanh(th[nv + 1])^lag * outer(sd, sd) }),
+    "toeplitz" = list(
+      to = function(S) { sd <- sqrt(diag(S)); R <- S / outer(sd, sd); c(log(if (het) sd else mean(sd)), R[1, -1]) },
+      from = function(th) { sd <- sds(th); R <- matrix(c(1, th[nv + seq_len(T - 1)])[lag + 1], T, T); R * outer(sd, sd) })
+  )
+}
+
+polish <- function(dc, map, S0) {
+  f <- function(th) {
+    S <- map$from(th)
+    if (inherits(try(chol(S), silent = TRUE), "try-error")) return(-1e300)
+    dc$fit_at(S)$logLik
+  }
+  th <- map$to(S0)
+  start <- f(th)
+  for (it in 1:8) {
+    g <- grad(f, th)
+    H <- hessian(f, th)
+    step <- -solve(H, g)
+    th_new <- th + step
+    if (f(th_new) < f(th) - 1e-12) break
+    th <- th_new
+    if (max(abs(step)) < 1e-11) break
+  }
+  list(theta = th, f = f, gain = f(th) - start)
+}
+
 # ---- fitting ----------------------------------------------------------------------------------
 structure_args <- function(structure, pos, subject, visit, ord) {
   het <- grepl("heterogeneous", structure)
@@ -113,28 +213,56 @@ run_case <- function(name, file, spec, formula, emm = TRUE) {
   fit <- do.call("gls", list(model = formula, data = d, correlation = args$correlation, weights = args$weights, method = method, control = ctrl))
   # the marginal covariance of a subject observed at every visit
   full <- names(which(table(d[[rep$subject]]) == length(ord)))[1]
-  vc <- getVarCov(fit, individual = full)
+  vc <- unclass(getVarCov(fit, individual = full))[seq_along(ord), seq_along(ord)]
+  X <- model.matrix(formula, d)
+  y <- d[[spec$response]]
+  dc <- make_direct(X, y, as.character(d[[rep$subject]]), d$.POS, rep$method)
+  at_nlme <- dc$fit_at(vc)
+  stopifnot(abs(at_nlme$logLik - num(logLik(fit))) < 1e-8 * abs(at_nlme$logLik))
+  map <- sigma_map(rep$covariance, length(ord))
+  pol <- polish(dc, map, vc)
+  S <- map$from(pol$theta)
+  best <- dc$fit_at(S)
+  if (rep$covariance != "compound-symmetry" && rep$covariance != "compound-symmetry-heterogeneous") {
+    nlme_norm <- num(residuals(fit, type = "normalized"))
+    stopifnot(max(abs(nlme_norm - dc$normalized(vc, at_nlme$r))) < 1e-8)
+  }
+  K <- attr(logLik(fit), "df") - ncol(X)
   out <- list(
-    source = sprintf("R %s, nlme %s, emmeans %s: gls(method = \"%s\")", getRversion(), packageVersion("nlme"), packageVersion("emmeans"), method),
-    coefficients = lapply(seq_along(coef(fit)), function(j) list(name = names(coef(fit))[j], estimate = num(coef(fit)[j]), se = num(sqrt(diag(vcov(fit)))[j]))),
-    logLik = num(logLik(fit)),
-    aic = num(AIC(fit)),
+    source = sprintf("R %s, nlme %s, emmeans %s, numDeriv %s: gls(method = \"%s\"), settled by direct computation (log-likelihood gain over gls %.3g)",
+      getRversion(), packageVersion("nlme"), packageVersion("emmeans"), packageVersion("numDeriv"), method, pol$gain),
+    nlmeLogLik = num(logLik(fit)),
+    coefficients = lapply(seq_along(best$beta), function(j) list(name = colnames(X)[j], estimate = best$beta[j], se = sqrt(best$C[j, j]))),
+    logLik = best$logLik,
+    aic = -2 * best$logLik + 2 * attr(logLik(fit), "df"),
     parameterCount = attr(logLik(fit), "df"),
-    covariance = lapply(seq_len(nrow(vc)), function(i) num(vc[i, ])),
-    fitted = num(fitted(fit)),
-    residual = num(residuals(fit, type = "response")),
-    normalizedResidual = num(residuals(fit, type = "normalized"))
+    covariance = lapply(seq_len(nrow(S)), function(i) num(S[i, ])),
+    fitted = num(X %*% best$beta),
+    residual = best$r,
+    normalizedResidual = dc$normalized(S, best$r)
   )
   if (emm && !is.null(spec$treatment)) {
     e <- emmeans(fit, as.formula(paste("~", spec$treatment, "|", rep$visit)), data = d, mode = "satterthwaite")
-    s <- as.data.frame(summary(e))
-    out$means <- lapply(seq_len(nrow(s)), function(i) list(
-      level = as.character(s[[spec$treatment]][i]), visit = as.character(s[[rep$visit]][i]),
-      estimate = s$emmean[i], se = s$SE[i], df = s$df[i]))
-    ctr <- as.data.frame(summary(contrast(e, "trt.vs.ctrl")))
-    out$contrasts <- lapply(seq_len(nrow(ctr)), function(i) list(
-      label = as.character(ctr$contrast[i]), visit = as.character(ctr[[rep$visit]][i]),
-      estimate = ctr$estimate[i], se = ctr$SE[i], df = ctr$df[i]))
+    ce <- contrast(e, "trt.vs.ctrl")
+    # exact Satterthwaite df of emmeans' own linear functions at the settled estimate
+    W <- solve(-hessian(pol$f, pol$theta))
+    satt <- function(L) {
+      vfun <- function(th) { C <- dc$fit_at(map$from(th))$C; rowSums((L %*% C) * L) }
+      G <- jacobian(vfun, pol$theta)
+      v <- vfun(pol$theta)
+      2 * v^2 / rowSums((G %*% W) * G)
+    }
+    one <- function(em, extra) {
+      s <- as.data.frame(summary(em))
+      L <- em@linfct
+      est <- drop(L %*% best$beta)
+      se <- sqrt(rowSums((L %*% best$C) * L))
+      df <- satt(L)
+      lapply(seq_len(nrow(s)), function(i) c(extra(s, i), list(visit = as.character(s[[rep$visit]][i]),
+        estimate = est[i], se = se[i], df = df[i], emmeansDf = s$df[i])))
+    }
+    out$means <- one(e, function(s, i) list(level = as.character(s[[spec$treatment]][i])))
+    out$contrasts <- one(ce, function(s, i) list(label = as.character(s$contrast[i])))
   }
   writeLines(toJSON(out, auto_unbox = TRUE, digits = NA, pretty = TRUE), file.path(root, "values", paste0(name, ".json")))
   cat(name, "logLik", num(logLik(fit)), "\n")
