@@ -10,6 +10,7 @@ import { EngineError } from "../errors";
 import { chiSquareUpper, tQuantile, tTwoSided } from "../distributions";
 import type { MeansWeighting } from "../adjusted-means";
 import { ENGINE_VERSION, RESULTS_CAUTION } from "../version";
+import { cholesky } from "../survival/symmetric";
 import { fitCovariance, startingCovariance, type CovarianceFit } from "./covariance-fit";
 import { NotPositiveDefinite, type LikelihoodProblem } from "./likelihood";
 import { residualColumns } from "./normalized-residuals";
@@ -163,8 +164,9 @@ function attemptFit(problem: LikelihoodProblem, name: CovarianceStructureName, s
     const fit = fitCovariance(problem, name, sigma0);
     if (!fit.converged) return { fit, reason: fit.reason ?? "did not converge", iterations: fit.iterations };
     const k = fit.theta.length;
-    for (let i = 0; i < k; i++) {
-      if (!(fit.hessian[i * k + i] < 0)) return { fit, reason: "the information matrix is not positive definite at the estimate", iterations: fit.iterations };
+    // a flat direction (a parameter the data cannot inform) leaves a pivot at rounding level
+    if (!("l" in cholesky(fit.hessian.map((v) => -v), k, 1e-7))) {
+      return { fit, reason: "the information matrix is singular at the estimate (some covariance parameter is not estimable)", iterations: fit.iterations };
     }
     return { fit, reason: null, iterations: fit.iterations };
   } catch (err) {
