@@ -18,6 +18,8 @@ import { EngineError, fitModel, stringifyResult, toCliResult } from "./engine";
 import type { MeansWeighting } from "./engine";
 import { isCoxSpec } from "./engine/survival/cox-spec";
 import { coxCliAnswer } from "./engine/survival/cox-result";
+import { isRepeatedSpec } from "./engine/repeated/repeated-spec";
+import { repeatedCliAnswer } from "./engine/repeated/repeated-result";
 
 const USAGE = "usage: cli fit --data FILE --model MODEL.json [--means equal|proportional] | cli inspect --data FILE (FILE: .csv, .json, .ndjson or .xpt)";
 
@@ -107,6 +109,10 @@ async function main(): Promise<number> {
     const table = await readData(args.data);
     const columns: Record<string, string[]> = {};
     table.names.forEach((name, j) => (columns[name] = table.cells[j]));
+    if (isRepeatedSpec(spec)) {
+      process.stdout.write(repeatedCliAnswer(spec, { columns, rowNumbers: table.rowNumbers }, { meansWeighting: args.means }) + "\n");
+      return 0;
+    }
     if (isCoxSpec(spec)) {
       process.stdout.write(coxCliAnswer(spec, { columns, rowNumbers: table.rowNumbers }) + "\n");
       return 0;

@@ -14,6 +14,7 @@
 // that); Satterthwaite df 1e-4 relative against the direct computation (both use numerical
 // Hessians). emmeans' own df (from nlme's apVar, a coarser finite-difference Hessian, up to 3%
 // off here) are checked at 5e-2 only, as a check that the grid is emmeans'.
+import { execFile } from "node:child_process";
 import { readFileSync, readdirSync } from "node:fs";
 import { join } from "node:path";
 import { describe, expect, it } from "vitest";
@@ -107,5 +108,53 @@ describe.each(names)("nlme::gls reference %s", (name) => {
       expectClose(ours?.df, c.df, DF_TOL, `contrast df ${label} ${c.visit}`);
       expectClose(ours?.df, c.emmeansDf, EMMEANS_DF_TOL, `contrast df ${label} ${c.visit} (emmeans)`);
     }
+  });
+});
+
+describe("headless command with a repeated-measures model", () => {
+  const ROOT_DIR = join(import.meta.dirname, "..", "..");
+  const run = (args: string[]) =>
+    new Promise<{ code: number; stdout: string; stderr: string }>((resolve) => {
+      execFile(join(ROOT_DIR, "node_modules", ".bin", "tsx"), [join(ROOT_DIR, "app", "cli.ts"), ...args], { cwd: ROOT_DIR }, (err, stdout, stderr) => {
+        resolve({ code: err ? (typeof err.code === "number" ? err.code : 1) : 0, stdout, stderr });
+      });
+    });
+
+  it("prints the documented keys with R's values (fixture tests/fixtures/mmrm-trial.csv)", async () => {
+    const name = "trial-unstructured-reml";
+    const { values } = load(name);
+    const out = await run(["fit", "--data", join(ROOT_DIR, "tests", "fixtures", "mmrm-trial.csv"), "--model", join(ROOT, "models", `${name}.json`)]);
+    expect(out.code, out.stderr).toBe(0);
+    const answer = JSON.parse(out.stdout) as {
+      caution: string;
+      covariance: { structure: string; converged: boolean; iterations: number; logLik: number; aic: number; matrix: number[][]; correlation: number[][]; visits: string[] };
+      coefficients: { name: string; estimate: number; se: number; df: number }[];
+      adjustedMeans: { means: { level: string; visit: string }[]; contrasts: { visit: string }[] };
+      observations: { row: number; id: string; visit: string; fitted: number; residual: number; normalizedResidual: number }[];
+      subjects: { id: string; cooksDistance: number; treatmentChange: number[] }[];
+    };
+    expect(answer.caution).toMatch(/qualified statistical and medical review/);
+    expect(answer.covariance.structure).toBe("unstructured");
+    expect(answer.covariance.converged).toBe(true);
+    expect(answer.covariance.visits).toEqual(["Week 2", "Week 4", "Week 8", "Week 12", "Week 16"]);
+    expectClose(answer.covariance.logLik, values.logLik, TOL, "logLik");
+    expectAllClose(answer.covariance.matrix.flat(), values.covariance.flat(), TOL, "covariance");
+    expect(answer.covariance.correlation[2][2]).toBeCloseTo(1, 12);
+    answer.coefficients.forEach((c, j) => {
+      expectClose(c.se, values.coefficients[j].se, TOL, `${c.name} SE`);
+      expect(c.df).toBeGreaterThan(0);
+    });
+    expect(answer.adjustedMeans.means.length).toBe(15);
+    expect(answer.adjustedMeans.contrasts.every((c) => typeof c.visit === "string")).toBe(true);
+    expect(Object.keys(answer.observations[0])).toEqual(["row", "id", "visit", "fitted", "residual", "normalizedResidual"]);
+    expectAllClose(answer.observations.map((o) => o.normalizedResidual), values.normalizedResidual, TOL, "normalized residual");
+    expect(Object.keys(answer.subjects[0])).toEqual(["id", "cooksDistance", "treatmentChange"]);
+    expect(answer.subjects[0].treatmentChange.length).toBe(2);
+  });
+
+  it("refuses a bad repeated key with one error line and exit 2", async () => {
+    const out = await run(["fit", "--data", join(ROOT_DIR, "tests", "fixtures", "mmrm-trial.csv"), "--model", join(ROOT_DIR, "tests", "fixtures", "mmrm-bad-structure.json")]);
+    expect(out.code).toBe(2);
+    expect(out.stderr).toMatch(/^error: repeated-measures model specification is not valid at "repeated.covariance"/);
   });
 });
