@@ -20,6 +20,7 @@ import { join } from "node:path";
 import { fileURLToPath } from "node:url";
 import { fitWithObservationDiagnostics, LARGE_DESIGN_CELLS } from "../app/engine";
 import { benchCox } from "./bench-cox";
+import { benchMmrm } from "./bench-mmrm";
 
 interface Measurement {
   seconds: number;
@@ -158,6 +159,7 @@ function main(): void {
   console.log(`large-data mode (design storage reused for Q) above ${LARGE_DESIGN_CELLS.toLocaleString("en")} cells n·p`);
   console.log("targets: engine/R at most 0.5 at n = 200 000, p = 25; peak RSS within 1536 MiB at n = 1 000 000, p = 50");
   benchCox(withR);
+  benchMmrm(withR);
 }
 
 main();
