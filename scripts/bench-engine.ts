@@ -11,7 +11,9 @@
  * runs the same work in R in the same run (lm, then hat values, Cook's distance, deletion
  * residuals and DFBETAS from one lm.influence) and prints the ratio of the times. Times are the
  * best of three runs up to n = 200 000 (one run above), for both. Above LARGE_DESIGN_CELLS design
- * cells the engine reuses the design's storage for Q (large-data mode).
+ * cells the engine reuses the design's storage for Q (large-data mode). Then one line each for a
+ * Cox model (bench-cox.ts) and a repeated-measures model (bench-mmrm.ts: 2 000 subjects × 6
+ * visits, unstructured, Satterthwaite, every diagnostic, beside nlme::gls, which takes minutes).
  */
 import { execFileSync, spawnSync } from "node:child_process";
 import { mkdtempSync, writeFileSync } from "node:fs";

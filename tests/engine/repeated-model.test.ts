@@ -2,7 +2,8 @@
 // (tests/reference/repeated-reference.test.ts): the fallback list, the exactness of the subject
 // influence (against a refit without the subject at the same covariance), the likelihood-ratio
 // test of the structure against unstructured (R's logLik values from the reference files), the
-// residual-df option, the tests' numerator df, counts per visit and arm, and input errors.
+// residual-df option, the tests' numerator df, counts and residual summaries per visit and arm,
+// the likelihood's sums by visit pattern against subject by subject, and input errors.
 import { readFileSync } from "node:fs";
 import { join } from "node:path";
 import { describe, expect, it } from "vitest";
@@ -190,5 +191,20 @@ describe("likelihood sums", () => {
       const scale = Math.max(...Array.from(g2, Math.abs));
       g1.forEach((v, i) => expect(Math.abs(v - g2[i])).toBeLessThan(1e-9 * scale));
     }
+  });
+});
+
+describe("normalized residuals by visit and arm", () => {
+  it("summarize the per-record values of each cell", () => {
+    const r = fitRepeatedModel(model("trial-unstructured-reml"), trial);
+    const o = r.observations;
+    for (const cell of r.residualsByCell) {
+      const values = o.normalizedResidual.filter((_, i) => o.visit[i] === cell.visit && trial.columns.ARM[o.row[i] - 1] === cell.level);
+      expect(cell.records).toBe(values.length);
+      const mean = values.reduce((s, v) => s + v, 0) / values.length;
+      expect(cell.mean).toBeCloseTo(mean, 12);
+      expect(cell.sd).toBeCloseTo(Math.sqrt(values.reduce((s, v) => s + (v - mean) ** 2, 0) / (values.length - 1)), 12);
+    }
+    expect(r.residualsByCell.length).toBe(15);
   });
 });

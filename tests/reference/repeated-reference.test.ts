@@ -39,6 +39,7 @@ interface RCase {
   normalizedResidual: number[];
   means?: { level: string; visit: string; estimate: number; se: number; df: number; emmeansDf: number }[];
   contrasts?: { label: string; visit: string; estimate: number; se: number; df: number; emmeansDf: number }[];
+  pairwise?: { label: string; visit: string; estimate: number; se: number; df: number; emmeansDf: number }[];
 }
 
 const names = readdirSync(join(ROOT, "values"))
@@ -107,6 +108,19 @@ describe.each(names)("nlme::gls reference %s", (name) => {
       expectClose(ours?.se, c.se, TOL, `contrast SE ${label} ${c.visit}`);
       expectClose(ours?.df, c.df, DF_TOL, `contrast df ${label} ${c.visit}`);
       expectClose(ours?.df, c.emmeansDf, EMMEANS_DF_TOL, `contrast df ${label} ${c.visit} (emmeans)`);
+    }
+    // emmeans' revpairwise: every pair, later level minus earlier; the engine's pairwise list
+    // holds the pairs without the reference arm
+    const between = (values.pairwise ?? []).filter((x) => !x.label.includes(" - Placebo") && !x.label.includes(" - Male") && !x.label.startsWith("Male"));
+    expect(between.length).toBe(name.startsWith("trial") ? 5 : 0);
+    expect(am?.pairwise.length).toBe(between.length);
+    for (const c of between) {
+      const label = c.label.replace(" - ", " vs ");
+      const ours = am?.pairwise.find((x) => x.label === label && x.visit === c.visit);
+      expect(ours, `${label} at ${c.visit}`).toBeDefined();
+      expectClose(ours?.estimate, c.estimate, TOL, `pairwise ${label} ${c.visit}`, 1e-3);
+      expectClose(ours?.se, c.se, TOL, `pairwise SE ${label} ${c.visit}`);
+      expectClose(ours?.df, c.df, DF_TOL, `pairwise df ${label} ${c.visit}`);
     }
   });
 });

@@ -84,7 +84,21 @@ export function maximizeByNewton(objective: Objective, start: Float64Array, maxI
   if (!first) throw new Error("the starting values are outside the domain");
   let current = first;
   const k = theta.length;
+  const history: number[] = [];
   for (let iteration = 1; iteration <= maxIterations; iteration++) {
+    history.push(current.value);
+    // ten steps that together gain nothing: a direction the data do not inform
+    if (history.length > 10 && current.value - history[history.length - 11] <= 1e-10 * Math.max(1, Math.abs(current.value))) {
+      return {
+        theta,
+        value: current.value,
+        gradient: current.gradient,
+        hessian: numericHessian(objective, theta),
+        iterations: iteration - 1,
+        converged: false,
+        reason: "the likelihood stopped rising without converging (some covariance parameter is not estimable)",
+      };
+    }
     const hessian = numericHessian(objective, theta);
     let lambda = 0;
     let accepted = false;

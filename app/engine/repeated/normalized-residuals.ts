@@ -34,3 +34,48 @@ export function residualColumns(problem: LikelihoodProblem, beta: Float64Array, 
   });
   return { fitted, residual, normalizedResidual };
 }
+
+/** Normalized residuals summarized per visit and arm (records, mean, SD), for spread checks by cell. */
+export interface ResidualCell {
+  readonly visit: string;
+  readonly level: string | null;
+  readonly records: number;
+  readonly mean: number;
+  /** Sample SD (n − 1); NaN with fewer than two records. */
+  readonly sd: number;
+}
+
+export function residualsByCell(
+  normalized: Float64Array,
+  rowPosition: Int32Array,
+  visits: readonly string[],
+  arms: { readonly levels: readonly string[]; readonly codes: Int32Array } | null,
+): ResidualCell[] {
+  const levels = arms ? arms.levels.length : 1;
+  const count = new Float64Array(visits.length * levels);
+  const sum = new Float64Array(visits.length * levels);
+  for (let i = 0; i < normalized.length; i++) {
+    const cell = rowPosition[i] * levels + (arms ? arms.codes[i] : 0);
+    count[cell]++;
+    sum[cell] += normalized[i];
+  }
+  const squares = new Float64Array(visits.length * levels);
+  for (let i = 0; i < normalized.length; i++) {
+    const cell = rowPosition[i] * levels + (arms ? arms.codes[i] : 0);
+    squares[cell] += (normalized[i] - sum[cell] / count[cell]) ** 2;
+  }
+  const out: ResidualCell[] = [];
+  visits.forEach((visit, v) => {
+    for (let a = 0; a < levels; a++) {
+      const cell = v * levels + a;
+      out.push({
+        visit,
+        level: arms ? arms.levels[a] : null,
+        records: count[cell],
+        mean: count[cell] > 0 ? sum[cell] / count[cell] : NaN,
+        sd: count[cell] > 1 ? Math.sqrt(squares[cell] / (count[cell] - 1)) : NaN,
+      });
+    }
+  });
+  return out;
+}

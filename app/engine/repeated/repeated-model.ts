@@ -13,7 +13,7 @@ import { ENGINE_VERSION, RESULTS_CAUTION } from "../version";
 import { cholesky } from "../survival/symmetric";
 import { fitCovariance, startingCovariance, type CovarianceFit } from "./covariance-fit";
 import { NotPositiveDefinite, type LikelihoodProblem } from "./likelihood";
-import { residualColumns } from "./normalized-residuals";
+import { residualColumns, residualsByCell, type ResidualCell } from "./normalized-residuals";
 import { prepareRepeatedData, type RepeatedData } from "./repeated-data";
 import { parseRepeatedSpec, type CovarianceStructureName, type RepeatedDf, type RepeatedMethod, type RepeatedSpec } from "./repeated-spec";
 import { fTest, satterthwaite, type DenominatorDf, type FTestResult } from "./satterthwaite";
@@ -134,6 +134,8 @@ export interface RepeatedResult {
   readonly tests: { readonly treatment: RepeatedTest | null; readonly treatmentByVisit: RepeatedTest | null; readonly notes: string[] };
   readonly structureTest: StructureTest | null;
   readonly counts: { readonly visit: string; readonly level: string | null; readonly subjects: number }[];
+  /** Normalized residuals per visit and arm. */
+  readonly residualsByCell: ResidualCell[];
   readonly observations: RepeatedObservationColumns;
   readonly influence: {
     readonly method: string;
@@ -343,6 +345,7 @@ export function fitRepeatedModel(specInput: unknown, table: TableInput, options:
     tests: { treatment: treatmentTest, treatmentByVisit: interactionTest, notes: testNotes },
     structureTest,
     counts,
+    residualsByCell: residualsByCell(res.normalizedResidual, rd.rowPosition, visitLevels, arms),
     observations: {
       row: Array.from(rd.data.used, (i) => rd.data.rowNumbers[i]),
       id: Array.from(rd.rowSubject, (s) => rd.subjects[s].id),

@@ -80,6 +80,7 @@ export function toRepeatedCliResult(result: RepeatedResult): Record<string, unkn
     tests: { treatment: test(result.tests.treatment), treatmentByVisit: test(result.tests.treatmentByVisit), notes: result.tests.notes },
     structureTest: result.structureTest,
     counts: result.counts,
+    residualsByCell: result.residualsByCell.map((c) => ({ ...c, mean: num(c.mean), sd: num(c.sd) })),
     observations: o.row.map((row, i) => ({
       row,
       id: o.id[i],

@@ -263,6 +263,7 @@ run_case <- function(name, file, spec, formula, emm = TRUE) {
     }
     out$means <- one(e, function(s, i) list(level = as.character(s[[spec$treatment]][i])))
     out$contrasts <- one(ce, function(s, i) list(label = as.character(s$contrast[i])))
+    out$pairwise <- one(contrast(e, "revpairwise"), function(s, i) list(label = as.character(s$contrast[i])))
   }
   writeLines(toJSON(out, auto_unbox = TRUE, digits = NA, pretty = TRUE), file.path(root, "values", paste0(name, ".json")))
   cat(name, "logLik", num(logLik(fit)), "\n")
