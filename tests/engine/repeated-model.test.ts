@@ -168,8 +168,9 @@ describe("input errors", () => {
     const m = model("trial-unstructured-reml");
     expect(() => fitRepeatedModel({ ...m, terms: [{ variable: "ARM" }, { variable: "BASE" }] }, trial)).toThrow(/visit column "AVISIT" must also be a main term/);
   });
-  it("says Kenward–Roger is not available", () => {
-    expect(() => fitRepeatedModel(withRepeated("trial-unstructured-reml", { df: "kenward-roger" }), trial)).toThrow(EngineError);
+  it("asks for REML with Kenward–Roger", () => {
+    expect(() => fitRepeatedModel(withRepeated("trial-unstructured-ml", { df: "kenward-roger" }), trial)).toThrow(EngineError);
+    expect(() => fitRepeatedModel(withRepeated("trial-unstructured-ml", { df: "kenward-roger" }), trial)).toThrow(/need a REML fit/);
   });
 });
 

@@ -172,3 +172,57 @@ describe("headless command with a repeated-measures model", () => {
     expect(out.stderr).toMatch(/^error: repeated-measures model specification is not valid at "repeated.covariance"/);
   });
 });
+
+// Kenward–Roger: pbkrtest (vcovAdj, get_Lb_ddf, KRmodcomp) and emmeans (lmer.df = "kenward-roger")
+// on lme4's random-intercept fit, which is the compound-symmetry model; lmer's REML log-likelihood
+// equals the settled compound-symmetry value to 3e-12 (generate-kenward-roger.R). Agreement 1e-5
+// relative for estimates, adjusted SEs, df and the F test (no numerical derivatives on either side).
+describe("Kenward–Roger against pbkrtest (compound symmetry as a random intercept)", () => {
+  const kr = JSON.parse(readFileSync(join(ROOT, "values-kenward-roger", "trial-compound-symmetry-reml.json"), "utf8")) as {
+    coefficients: { name: string; estimate: number; se: number; df: number }[];
+    treatmentByVisit: { statistic: number; numeratorDf: number; denominatorDf: number };
+    means: { level: string; visit: string; estimate: number; se: number; df: number }[];
+    contrasts: { label: string; visit: string; estimate: number; se: number; df: number }[];
+  };
+  const { spec, table } = load("trial-compound-symmetry-reml");
+  const withKr = { ...(spec as { repeated: object }), repeated: { ...(spec as { repeated: object }).repeated, df: "kenward-roger" } };
+  const result = fitRepeatedModel(withKr, table);
+
+  it("adjusted covariance and df of every coefficient", () => {
+    expect(result.coefficientCovarianceType).toBe("Kenward–Roger adjusted");
+    kr.coefficients.forEach((c, j) => {
+      expectClose(result.coefficients[j].estimate, c.estimate, TOL, `${c.name} estimate`, 1e-3);
+      expectClose(result.coefficients[j].se, c.se, TOL, `${c.name} adjusted SE`);
+      expectClose(result.coefficients[j].df, c.df, TOL, `${c.name} df`);
+    });
+  });
+
+  it("the treatment-by-visit F test (KRmodcomp)", () => {
+    const t = result.tests.treatmentByVisit;
+    expect(t?.numeratorDf).toBe(kr.treatmentByVisit.numeratorDf);
+    expectClose(t?.statistic, kr.treatmentByVisit.statistic, TOL, "F");
+    expectClose(t?.denominatorDf, kr.treatmentByVisit.denominatorDf, TOL, "denominator df");
+  });
+
+  it("visit means and contrasts (emmeans)", () => {
+    for (const m of kr.means) {
+      const ours = result.adjustedMeans?.means.find((x) => x.level === m.level && x.visit === m.visit);
+      expectClose(ours?.estimate, m.estimate, TOL, `mean ${m.level} ${m.visit}`);
+      expectClose(ours?.se, m.se, TOL, `mean SE ${m.level} ${m.visit}`);
+      expectClose(ours?.df, m.df, TOL, `mean df ${m.level} ${m.visit}`);
+    }
+    for (const c of kr.contrasts) {
+      const label = c.label.replace(" - ", " vs ");
+      const ours = result.adjustedMeans?.contrasts.find((x) => x.label === label && x.visit === c.visit);
+      expectClose(ours?.estimate, c.estimate, TOL, `contrast ${label} ${c.visit}`, 1e-3);
+      expectClose(ours?.se, c.se, TOL, `contrast SE ${label} ${c.visit}`);
+      expectClose(ours?.df, c.df, TOL, `contrast df ${label} ${c.visit}`);
+    }
+  });
+
+  it("is refused for a structure that is not linear in its parameters", () => {
+    const { spec: ar1 } = load("trial-ar1-reml");
+    const s = { ...(ar1 as { repeated: object }), repeated: { ...(ar1 as { repeated: object }).repeated, df: "kenward-roger" } };
+    expect(() => fitRepeatedModel(s, table)).toThrow(/Kenward–Roger degrees of freedom are available for the unstructured, compound-symmetry and Toeplitz structures, not for "ar1"/);
+  });
+});

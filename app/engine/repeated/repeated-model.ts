@@ -18,6 +18,7 @@ import { prepareRepeatedData, type RepeatedData } from "./repeated-data";
 import { parseRepeatedSpec, type CovarianceStructureName, type RepeatedDf, type RepeatedMethod, type RepeatedSpec } from "./repeated-spec";
 import { fTest, satterthwaite, type DenominatorDf, type FTestResult } from "./satterthwaite";
 import { subjectInfluence } from "./subject-influence";
+import { kenwardRoger, linearBasis, type KenwardRoger } from "./kenward-roger";
 import { treatmentByVisitRows, visitMeanVectors, type VisitGrid } from "./visit-means";
 
 export interface StructureAttempt {
@@ -121,8 +122,9 @@ export interface RepeatedResult {
   readonly subjectCount: number;
   readonly covariance: VisitCovariance;
   readonly coefficients: RepeatedCoefficient[];
-  /** Model-based covariance of β̂, rows and columns in coefficient order. */
+  /** Covariance of β̂ behind the SEs (Kenward–Roger's adjusted one with that df method), rows and columns in coefficient order. */
   readonly coefficientCovariance: number[][];
+  readonly coefficientCovarianceType: "model-based" | "Kenward–Roger adjusted";
   readonly adjustedMeans: {
     readonly treatment: string;
     readonly weighting: MeansWeighting;
@@ -216,13 +218,26 @@ export function fitRepeatedModel(specInput: unknown, table: TableInput, options:
   const parameterCount = p + fit.parameterCount;
   const nEff = method === "reml" ? design.n - p : design.n;
 
-  const sat = satterthwaite(problem, fit);
+  let kr: KenwardRoger | null = null;
+  if (spec.repeated.df === "kenward-roger") {
+    const basis = linearBasis(fit.structure, t);
+    if (!basis) {
+      throw new EngineError(
+        `Kenward–Roger degrees of freedom are available for the unstructured, compound-symmetry and Toeplitz structures, not for "${fit.structure}"`,
+      );
+    }
+    kr = kenwardRoger(problem, fit, basis);
+  }
+  const sat = spec.repeated.df === "satterthwaite" ? satterthwaite(problem, fit) : null;
   const residualDf = design.n - p;
-  const dfOf = (l: Float64Array) => (spec.repeated.df === "residual" ? residualDf : sat.df(l));
-  const denominator: DenominatorDf = spec.repeated.df === "residual" ? { kind: "residual", df: residualDf } : { kind: "satterthwaite", df: sat.df };
+  const dfOf = (l: Float64Array) => (kr ? kr.df([l]) : sat ? sat.df(l) : residualDf);
+  const denominator: DenominatorDf = sat ? { kind: "satterthwaite", df: sat.df } : { kind: "residual", df: residualDf };
+  const runTest = (rows: readonly Float64Array[]) => (kr ? kr.fTest(rows, beta) : fTest(rows, beta, betaCovariance, denominator));
+  /** Covariance behind every SE: Kenward–Roger's adjusted one when asked for, else (X'V⁻¹X)⁻¹. */
+  const inferenceCovariance = kr ? kr.adjustedCovariance : betaCovariance;
   const seOf = (l: Float64Array) => {
     let v = 0;
-    for (let i = 0; i < p; i++) for (let j = 0; j < p; j++) v += l[i] * betaCovariance[i * p + j] * l[j];
+    for (let i = 0; i < p; i++) for (let j = 0; j < p; j++) v += l[i] * inferenceCovariance[i * p + j] * l[j];
     return Math.sqrt(v);
   };
   const estimateOf = (l: Float64Array) => l.reduce((s, v, j) => s + v * beta[j], 0);
@@ -263,13 +278,14 @@ export function fitRepeatedModel(specInput: unknown, table: TableInput, options:
   const interactionRows = treatmentByVisitRows(rd);
   const treatmentTest: RepeatedTest | null =
     vectors && vectors.treatmentRows.length > 0
-      ? { hypothesis: "treatment differences averaged over visits (equal weight per visit) are all zero", ...fTest(vectors.treatmentRows, beta, betaCovariance, denominator) }
+      ? { hypothesis: "treatment differences averaged over visits (equal weight per visit) are all zero", ...runTest(vectors.treatmentRows) }
       : null;
   const interactionTest: RepeatedTest | null = interactionRows
-    ? { hypothesis: "treatment differences are the same at every visit (treatment-by-visit coefficients all zero)", ...fTest(interactionRows, beta, betaCovariance, denominator) }
+    ? { hypothesis: "treatment differences are the same at every visit (treatment-by-visit coefficients all zero)", ...runTest(interactionRows) }
     : null;
   if (!spec.treatment) testNotes.push("no treatment is named, so there are no treatment tests");
   else if (!interactionRows) testNotes.push("the model has no treatment-by-visit term, so there is no treatment-by-visit test");
+  if (kr) testNotes.push("F tests are Kenward–Roger's scaled Wald tests on the adjusted covariance, with their denominator df");
   if (spec.repeated.df === "satterthwaite") {
     testNotes.push("F tests with more than one numerator df take the denominator df of Fai and Cornelius (1996) from the Satterthwaite df of the eigen-directions");
   }
@@ -340,7 +356,8 @@ export function fitRepeatedModel(specInput: unknown, table: TableInput, options:
       correlation: rows(correlation, t),
     },
     coefficients,
-    coefficientCovariance: rows(betaCovariance, p),
+    coefficientCovariance: rows(inferenceCovariance, p),
+    coefficientCovarianceType: kr ? "Kenward–Roger adjusted" : "model-based",
     adjustedMeans,
     tests: { treatment: treatmentTest, treatmentByVisit: interactionTest, notes: testNotes },
     structureTest,

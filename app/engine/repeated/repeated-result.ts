@@ -63,7 +63,7 @@ export function toRepeatedCliResult(result: RepeatedResult): Record<string, unkn
     },
     coefficients: result.coefficients.map((x) => ({ name: x.name, ...interval(x), statistic: num(x.statistic), p: num(x.p) })),
     coefficientCovariance: {
-      type: "model-based",
+      type: result.coefficientCovarianceType,
       names: result.coefficients.map((x) => x.name),
       matrix: result.coefficientCovariance.map((row) => row.map(num)),
     },

@@ -64,8 +64,8 @@ export function parseRepeatedSpec(value: unknown): RepeatedSpec {
   if (spec.link !== undefined && spec.link !== "identity") throw new EngineError(`a repeated-measures model needs the identity link, not "${spec.link}"`);
   if (spec.weights) throw new EngineError("a repeated-measures model does not take prior weights");
   if (spec.offset) throw new EngineError("a repeated-measures model does not take an offset");
-  if (spec.repeated.df === "kenward-roger") {
-    throw new EngineError("Kenward–Roger degrees of freedom are not available in this engine version; use \"satterthwaite\" or \"residual\"");
+  if (spec.repeated.df === "kenward-roger" && spec.repeated.method !== "reml") {
+    throw new EngineError("Kenward–Roger degrees of freedom need a REML fit (\"method\": \"reml\")");
   }
   return spec;
 }
