@@ -8,7 +8,8 @@
  * and typed by the same readers as the web upload. `fit` prints one JSON result; `inspect`
  * prints one JSON object describing the file (format, rows, columns with label and type, key,
  * problems). Both exit 0; on bad input they print one line starting with "error:" on stderr
- * and exit 2.
+ * and exit 2. A model with a `"repeated"` key is a repeated-measures model (MMRM), one with
+ * `"family": "cox"` a time-to-event model; any other is linear or generalized linear.
  */
 import { readFileSync } from "node:fs";
 import { limitsFromEnv } from "./engine-io/dataset/limits";
