@@ -3,7 +3,8 @@
 // influence (against a refit without the subject at the same covariance), the likelihood-ratio
 // test of the structure against unstructured (R's logLik values from the reference files), the
 // residual-df option, the tests' numerator df, counts and residual summaries per visit and arm,
-// the likelihood's sums by visit pattern against subject by subject, and input errors.
+// the likelihood's sums by visit pattern against subject by subject, determinism, visit order
+// and input errors.
 import { readFileSync } from "node:fs";
 import { join } from "node:path";
 import { describe, expect, it } from "vitest";
@@ -207,5 +208,23 @@ describe("normalized residuals by visit and arm", () => {
       expect(cell.sd).toBeCloseTo(Math.sqrt(values.reduce((s, v) => s + (v - mean) ** 2, 0) / (values.length - 1)), 12);
     }
     expect(r.residualsByCell.length).toBe(15);
+  });
+});
+
+describe("determinism and visit order", () => {
+  it("gives byte-identical JSON for the same input", async () => {
+    const { toRepeatedCliResult } = await import("~/engine/repeated/repeated-result");
+    const { stringifyResult } = await import("~/engine/cli-result");
+    const a = stringifyResult(toRepeatedCliResult(fitRepeatedModel(model("orthodont-ar1-reml"), orthodont)));
+    const b = stringifyResult(toRepeatedCliResult(fitRepeatedModel(model("orthodont-ar1-reml"), orthodont)));
+    expect(a).toBe(b);
+  });
+
+  it("orders visits by the order column, and names a visit with two order values", () => {
+    const r = fitRepeatedModel(model("trial-ar1-reml"), trial);
+    expect(r.covariance.visits).toEqual(["Week 2", "Week 4", "Week 8", "Week 12", "Week 16"]);
+    const cols = { ...trial.columns, AVISITN: trial.columns.AVISITN.map((v, i) => (i === 6 && v === "4" ? "5" : v)) };
+    expect(trial.columns.AVISITN[6]).toBe("4");
+    expect(() => fitRepeatedModel(model("trial-ar1-reml"), { columns: cols })).toThrow(/visit "Week 4" has two values of "AVISITN" \(4 and 5; data row 7\)/);
   });
 });
