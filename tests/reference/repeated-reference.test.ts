@@ -175,12 +175,15 @@ describe("headless command with a repeated-measures model", () => {
 
 // Kenward–Roger: pbkrtest (vcovAdj, get_Lb_ddf, KRmodcomp) and emmeans (lmer.df = "kenward-roger")
 // on lme4's random-intercept fit, which is the compound-symmetry model; lmer's REML log-likelihood
-// equals the settled compound-symmetry value to 3e-12 (generate-kenward-roger.R). Agreement 1e-5
+// equals the settled compound-symmetry value to 3e-12 (generate-lmer.R). Agreement 1e-5
 // relative for estimates, adjusted SEs, df and the F test (no numerical derivatives on either side).
-describe("Kenward–Roger against pbkrtest (compound symmetry as a random intercept)", () => {
-  const kr = JSON.parse(readFileSync(join(ROOT, "values-kenward-roger", "trial-compound-symmetry-reml.json"), "utf8")) as {
+// The Satterthwaite F test of several rows against lmerTest's contestMD on the same fit (its
+// Hessian by numDeriv, ours by finite differences: df at 1e-4).
+describe("lme4 random-intercept fit (compound symmetry): Kenward–Roger (pbkrtest) and Satterthwaite F (lmerTest)", () => {
+  const kr = JSON.parse(readFileSync(join(ROOT, "values-lmer", "trial-compound-symmetry-reml.json"), "utf8")) as {
     coefficients: { name: string; estimate: number; se: number; df: number }[];
     treatmentByVisit: { statistic: number; numeratorDf: number; denominatorDf: number };
+    satterthwaiteTreatmentByVisit: { statistic: number; numeratorDf: number; denominatorDf: number };
     means: { level: string; visit: string; estimate: number; se: number; df: number }[];
     contrasts: { label: string; visit: string; estimate: number; se: number; df: number }[];
   };
@@ -218,6 +221,14 @@ describe("Kenward–Roger against pbkrtest (compound symmetry as a random interc
       expectClose(ours?.se, c.se, TOL, `contrast SE ${label} ${c.visit}`);
       expectClose(ours?.df, c.df, TOL, `contrast df ${label} ${c.visit}`);
     }
+  });
+
+  it("Satterthwaite F test of several rows (lmerTest contestMD, Fai and Cornelius; df 1e-4)", () => {
+    const sat = kr.satterthwaiteTreatmentByVisit;
+    const t = fitRepeatedModel(spec, table).tests.treatmentByVisit;
+    expect(t?.numeratorDf).toBe(sat.numeratorDf);
+    expectClose(t?.statistic, sat.statistic, TOL, "F");
+    expectClose(t?.denominatorDf, sat.denominatorDf, DF_TOL, "denominator df");
   });
 
   it("is refused for a structure that is not linear in its parameters", () => {

@@ -1,10 +1,11 @@
-# Kenward–Roger reference values for the repeated-measures engine, from pbkrtest (Debian
-# r-cran-pbkrtest) on an lme4 fit (r-cran-lme4) with a random intercept per subject, which is the
-# compound-symmetry model (positive within-subject correlation) fitted by REML; emmeans with
-# lmer.df = "kenward-roger" for the visit means and contrasts.
+# Reference values for the repeated-measures engine from an lme4 fit (Debian r-cran-lme4) with a
+# random intercept per subject, which is the compound-symmetry model (positive within-subject
+# correlation) fitted by REML: Kenward–Roger from pbkrtest (r-cran-pbkrtest) and emmeans with
+# lmer.df = "kenward-roger"; Satterthwaite F tests of several rows from lmerTest's contestMD
+# (r-cran-lmertest; the denominator df of Fai and Cornelius from the eigen-directions of LCL').
 #
-# Run from the repository root:  Rscript tests/reference/repeated/generate-kenward-roger.R
-# Reads data/trial.csv (made by generate.R) and writes values-kenward-roger/trial-compound-symmetry-reml.json.
+# Run from the repository root:  Rscript tests/reference/repeated/generate-lmer.R
+# Reads data/trial.csv (made by generate.R) and writes values-lmer/trial-compound-symmetry-reml.json.
 # lmer is run with tight tolerances; its REML log-likelihood is checked against the settled
 # compound-symmetry value of values/trial-compound-symmetry-reml.json.
 
@@ -13,9 +14,10 @@ suppressPackageStartupMessages({
   library(lme4)
   library(pbkrtest)
   library(emmeans)
+  library(lmerTest)
 })
 root <- "tests/reference/repeated"
-dir.create(file.path(root, "values-kenward-roger"), showWarnings = FALSE)
+dir.create(file.path(root, "values-lmer"), showWarnings = FALSE)
 d <- read.csv(file.path(root, "data", "trial.csv"), stringsAsFactors = FALSE)
 d$ARM <- factor(d$ARM, levels = c("Placebo", "Dose 10 mg", "Dose 20 mg"))
 d$AVISIT <- factor(d$AVISIT, levels = sort(unique(d$AVISIT), method = "radix"))
@@ -30,6 +32,11 @@ X <- getME(full, "X")
 p <- ncol(X)
 coef_df <- vapply(seq_len(p), function(j) { L <- matrix(0, 1, p); L[j] <- 1; get_Lb_ddf(full, L) }, 0)
 kr <- KRmodcomp(full, reduced)
+# Satterthwaite F test of the treatment-by-visit coefficients (unit rows on those columns)
+inter <- grep("^ARM.*:AVISIT", colnames(X))
+L <- matrix(0, length(inter), p)
+L[cbind(seq_along(inter), inter)] <- 1
+sat <- lmerTest::contestMD(lmerTest::as_lmerModLmerTest(full), L, ddf = "Satterthwaite")
 e <- emmeans(full, ~ ARM | AVISIT, lmer.df = "kenward-roger")
 s <- as.data.frame(summary(e))
 ce <- as.data.frame(summary(contrast(e, "trt.vs.ctrl")))
@@ -39,7 +46,8 @@ out <- list(
   coefficients = lapply(seq_len(p), function(j) list(name = colnames(X)[j], estimate = unname(fixef(full)[j]), se = sqrt(as.matrix(adj)[j, j]), df = coef_df[j])),
   treatmentByVisit = list(statistic = kr$stats$Fstat, numeratorDf = kr$stats$ndf, denominatorDf = kr$stats$ddf),
   means = lapply(seq_len(nrow(s)), function(i) list(level = as.character(s$ARM[i]), visit = as.character(s$AVISIT[i]), estimate = s$emmean[i], se = s$SE[i], df = s$df[i])),
-  contrasts = lapply(seq_len(nrow(ce)), function(i) list(label = as.character(ce$contrast[i]), visit = as.character(ce$AVISIT[i]), estimate = ce$estimate[i], se = ce$SE[i], df = ce$df[i]))
+  contrasts = lapply(seq_len(nrow(ce)), function(i) list(label = as.character(ce$contrast[i]), visit = as.character(ce$AVISIT[i]), estimate = ce$estimate[i], se = ce$SE[i], df = ce$df[i])),
+  satterthwaiteTreatmentByVisit = list(statistic = sat$`F value`, numeratorDf = sat$NumDF, denominatorDf = sat$DenDF)
 )
-writeLines(toJSON(out, auto_unbox = TRUE, digits = NA, pretty = TRUE), file.path(root, "values-kenward-roger", "trial-compound-symmetry-reml.json"))
+writeLines(toJSON(out, auto_unbox = TRUE, digits = NA, pretty = TRUE), file.path(root, "values-lmer", "trial-compound-symmetry-reml.json"))
 cat("gap", gap, "\n")
