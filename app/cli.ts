@@ -8,7 +8,8 @@
  * and typed by the same readers as the web upload. `fit` prints one JSON result; `inspect`
  * prints one JSON object describing the file (format, rows, columns with label and type, key,
  * problems). Both exit 0; on bad input they print one line starting with "error:" on stderr
- * and exit 2.
+ * and exit 2. A model with a `"repeated"` key is a repeated-measures model (MMRM), one with
+ * `"family": "cox"` a time-to-event model; any other is linear or generalized linear.
  */
 import { readFileSync } from "node:fs";
 import { limitsFromEnv } from "./engine-io/dataset/limits";
@@ -19,6 +20,8 @@ import type { MeansWeighting } from "./engine";
 import { isCoxSpec } from "./engine/survival/cox-spec";
 import { coxCliAnswer } from "./engine/survival/cox-result";
 import { checkReproduction } from "./engine/reproduction";
+import { isRepeatedSpec } from "./engine/repeated/repeated-spec";
+import { repeatedCliAnswer } from "./engine/repeated/repeated-result";
 
 const USAGE = "usage: cli fit --data FILE --model MODEL.json [--means equal|proportional] | cli inspect --data FILE (FILE: .csv, .json, .ndjson or .xpt)";
 
@@ -108,6 +111,10 @@ async function main(): Promise<number> {
     const table = await readData(args.data);
     const columns: Record<string, string[]> = {};
     table.names.forEach((name, j) => (columns[name] = table.cells[j]));
+    if (isRepeatedSpec(spec)) {
+      process.stdout.write(repeatedCliAnswer(spec, { columns, rowNumbers: table.rowNumbers }, { meansWeighting: args.means }) + "\n");
+      return 0;
+    }
     if (isCoxSpec(spec)) {
       process.stdout.write(coxCliAnswer(spec, { columns, rowNumbers: table.rowNumbers }) + "\n");
       return 0;
