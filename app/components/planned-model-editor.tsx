@@ -1,6 +1,7 @@
 import { useMemo, useState } from "react";
 import { FieldError } from "./page";
 import { SurvivalSection, type SurvivalFields } from "./planned-model-survival";
+import { interactionName } from "~/engine/coefficient-names";
 
 export interface EditorColumn {
   name: string;
@@ -295,7 +296,7 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
                 return (
                   <label key={k} className="inline-flex items-center gap-1.5 text-sm">
                     <input type="checkbox" name="interaction" value={k} checked={interactions.has(k)} onChange={(e) => { const next = new Set(interactions); if (e.target.checked) next.add(k); else next.delete(k); setInteractions(next); }} />
-                    {pair.join(" by ")}
+                    {interactionName(pair)}
                   </label>
                 );
               })}

@@ -206,7 +206,7 @@ describe("generalized linear planned models on the demo study", () => {
     const nb = (await reruns.getRerun(studyId, nbId)).doc!.result;
     if (nb.kind !== "glm") throw new Error("expected a GLM");
     expect(nb.fit.theta!).toBeCloseTo(R.flares.negativeBinomialTheta, 3);
-    const high = nb.ratios!.find((x) => x.name === "arm=Lorvanitide 120 mg")!;
+    const high = nb.ratios!.find((x) => x.name === "arm: Lorvanitide 120 mg")!;
     expect(high.ratio).toBeCloseTo(R.flares.highVsPlaceboRateRatio, 4);
   });
 

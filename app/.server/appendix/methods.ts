@@ -2,6 +2,7 @@
  * The methods section in plain statistical prose, written from the planned model as the
  * approved plan version states it (and the rerun's own method description). Pure.
  */
+import { interactionName } from "~/engine/coefficient-names";
 import { CHECK_BY_KEY, type PlannedCheck } from "~/engine/checks";
 import { CANONICAL_LINK, type ModelSpec } from "~/engine/model-spec";
 import type { CoxSpec } from "~/engine/survival/cox-spec";
@@ -44,7 +45,7 @@ export function methodsProse(m: MethodsInput): { paragraphs: string[]; checks: s
   const main = s.terms.filter((t): t is { variable: string; categorical?: boolean; reference?: string } => "variable" in t);
   const treatment = main.find((t) => t.variable === s.treatment);
   const covariates = main.filter((t) => t.variable !== s.treatment);
-  const interactions = s.terms.flatMap((t) => ("interaction" in t ? [t.interaction.join(" by ")] : []));
+  const interactions = s.terms.flatMap((t) => ("interaction" in t ? [interactionName(t.interaction)] : []));
   const paragraphs: string[] = [];
 
   const sap = m.sap.name ? ` as pre-specified in ${m.sap.name}${m.sap.version ? ` version ${m.sap.version}` : ""}${m.sap.date ? ` (${m.sap.date})` : ""}` : "";
