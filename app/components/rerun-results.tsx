@@ -116,6 +116,18 @@ interface ContrastRow {
   upper: number;
   p: number;
   hc3: { se: number; lower: number; upper: number; p: number } | null;
+  /** "log" for a ratio, whose SEs are those of the log ratio. */
+  seScale?: "response" | "log";
+}
+
+/** An SE cell: a ratio's SE is that of its logarithm, and says so. */
+function SeCell({ se, scale }: { se: number | null | undefined; scale?: "response" | "log" }) {
+  return (
+    <td className="num text-right whitespace-nowrap">
+      {fmt(se)}
+      {scale === "log" && se !== null && se !== undefined ? <span className="text-xs text-ink-soft"> (log)</span> : null}
+    </td>
+  );
 }
 
 export function ContrastsTable({ rows, kind = "linear" }: { rows: readonly ContrastRow[]; kind?: "linear" | "glm" }) {
@@ -125,7 +137,7 @@ export function ContrastsTable({ rows, kind = "linear" }: { rows: readonly Contr
       <caption className="mb-1 text-left text-xs text-ink-soft">
         {kind === "linear"
           ? "Treatment contrasts against the reference arm (difference in adjusted means)."
-          : "Marginal treatment effects against the reference arm by standardization over the rows used (delta-method SE, Ge et al. 2011; robust SE valid under misspecification, Ye et al. 2023)."}
+          : "Marginal treatment effects against the reference arm by standardization over the rows used (delta-method SE, Ge et al. 2011; robust SE valid under misspecification, Ye et al. 2023). A ratio's SE, marked (log), is that of the log ratio; its estimate and interval are ratios."}
       </caption>
       <thead>
         <tr>
@@ -160,10 +172,10 @@ export function ContrastsTable({ rows, kind = "linear" }: { rows: readonly Contr
               {c.label}
             </th>
             <td className="num text-right font-semibold">{fmt(c.estimate)}</td>
-            <td className="num text-right">{fmt(c.se)}</td>
+            <SeCell se={c.se} scale={c.seScale} />
             <td className="num text-right whitespace-nowrap">{fmtCi(c.lower, c.upper)}</td>
             <td className="num text-right">{fmtP(c.p)}</td>
-            <td className="num text-right">{fmt(c.hc3?.se)}</td>
+            <SeCell se={c.hc3?.se} scale={c.seScale} />
             <td className="num text-right whitespace-nowrap">{c.hc3 ? fmtCi(c.hc3.lower, c.hc3.upper) : "does not apply"}</td>
             <td className="num text-right">{fmtP(c.hc3?.p)}</td>
           </tr>

@@ -245,7 +245,7 @@ describe("the Word appendix of a signed rerun", () => {
     const captions = tables(xml).map((x) => x.caption);
     expect(captions.filter((c) => /Estimated coefficients/.test(c))).toHaveLength(2);
     expect(captions.some((c) => /Estimated coefficients, Responders at week 12/.test(c))).toBe(true);
-    expect(decode(cellText(xml))).toMatch(/generalized linear model \(binomial family, logit link\)/);
+    expect(decode(cellText(xml))).toMatch(/generalized linear model \(binomial distribution, logit link\)/);
     // the binomial model's fit figures, for the logistic model only, with their counts in the alt text
     const figures = both.content.sections.flatMap((x) => x.blocks).flatMap((b) => (b.kind === "figure" ? [b] : []));
     const fitFigures = figures.filter((f) => /^(Binned residuals|Calibration by group of predicted risk),/.test(f.caption));

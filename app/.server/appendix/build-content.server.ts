@@ -9,6 +9,8 @@ import { data } from "react-router";
 import { BEYOND, figureSpec, forestSpec, OUTSIDE_BAND, plotsSubjects, type FigureData, type ForestRow } from "~/components/figures/specs";
 import { CHECK_BY_KEY, type CheckOutcome, type FigureKey } from "~/engine/checks";
 import { fmt, fmtCi, fmtP, utc } from "~/components/format";
+import { fitFactsOf, fitStatisticRows } from "~/components/fit-statistics";
+import { familyWithLink } from "~/engine/family-names";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { loadLockedTable, type ColumnMeta } from "../datasets/catalog.server";
 import { db, t } from "../db/index.server";
@@ -293,11 +295,14 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
       continue;
     }
     const r = p.doc.result;
-    const fitWords =
-      r.kind === "linear"
-        ? `${r.n} subjects analysed; residual degrees of freedom ${r.dfResidual}; residual standard deviation ${fmt(r.fit.sigma)}; R² ${fmt(r.fit.rSquared)} (adjusted ${fmt(r.fit.adjRSquared)}).`
-        : `${r.n} subjects analysed; residual degrees of freedom ${r.dfResidual}; ${r.method.description}.`;
-    results.push(...modelHeading(p, many), { kind: "paragraph", text: fitWords }, {
+    results.push(...modelHeading(p, many), { kind: "paragraph", text: `${r.n} subjects analysed; ${familyWithLink(r.family, r.link)}.` }, {
+      kind: "table",
+      key: `fit:${p.rerunId}`,
+      number: next.table(),
+      caption: `Fit of the model, ${p.modelTitle}`,
+      columns: [{ label: "Quantity" }, { label: "Value" }],
+      rows: fitStatisticRows(fitFactsOf(r)).map((row) => [row.label, row.value]),
+    }, {
       kind: "table",
       key: `coefficients:${p.rerunId}`,
       number: next.table(),
@@ -325,8 +330,11 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
         number: next.table(),
         caption: `Treatment contrasts against the reference arm, ${p.modelTitle}`,
         columns: [{ label: "Comparison" }, { label: r.kind === "linear" ? "Difference" : "Estimate", numeric: true }, { label: "SE", numeric: true }, { label: "95% CI", numeric: true }, { label: "p", numeric: true }],
-        rows: contrasts.map((c) => [c.label, fmt(c.estimate), fmt(c.se), fmtCi(c.lower, c.upper), fmtP(c.p)]),
-        note: r.kind === "linear" ? "Differences in adjusted means with model-based standard errors." : "Marginal (standardized) contrasts; ratios with intervals from the log scale.",
+        rows: contrasts.map((c) => [c.label, fmt(c.estimate), `${fmt(c.se)}${c.seScale === "log" ? " (log)" : ""}`, fmtCi(c.lower, c.upper), fmtP(c.p)]),
+        note:
+          r.kind === "linear"
+            ? "Differences in adjusted means with model-based standard errors."
+            : "Marginal (standardized) contrasts. A ratio's SE, marked (log), is that of the log ratio; its estimate and interval are ratios, the interval computed on the log scale.",
       });
     }
   }

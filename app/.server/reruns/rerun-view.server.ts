@@ -5,6 +5,8 @@
  * people who may see subject-level data, ranks and counts for the others.
  */
 import type { CheckOutcome } from "~/engine/checks";
+import { familyWithLink } from "~/engine/family-names";
+import { fitFactsOf, fitStatisticRows } from "~/components/fit-statistics";
 import type { Redaction } from "../redaction.server";
 import type { RerunDocument } from "./reruns.server";
 import { coxReportedContrasts, coxRerunView, restrictedMeanContrasts } from "./cox-rerun-view.server";
@@ -18,6 +20,8 @@ export interface ContrastView {
   p: number;
   /** Null where the robust alternative does not apply (Ye et al. for a non-canonical GLM). */
   hc3: { se: number; lower: number; upper: number; p: number } | null;
+  /** "log" for a ratio: its SEs are those of the log ratio (the estimate and interval are ratios). */
+  seScale: "response" | "log";
 }
 
 /**
@@ -38,6 +42,7 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
       upper: c.upper,
       p: c.p,
       hc3: { se: c.hc3.se, lower: c.hc3.lower, upper: c.hc3.upper, p: c.hc3.p },
+      seScale: "response" as const,
     }));
   }
   return (r.marginalEffects?.contrasts ?? []).map((c) => ({
@@ -48,6 +53,7 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
     upper: c.upper,
     p: c.p,
     hc3: c.robust ? { se: c.robust.se, lower: c.robust.lower, upper: c.robust.upper, p: c.robust.p } : null,
+    seScale: c.measure === "risk difference" ? ("response" as const) : ("log" as const),
   }));
 }
 
@@ -85,6 +91,10 @@ export function rerunView(doc: RerunDocument, redact: Redaction) {
     method: r.method.description,
     family: r.family,
     link: r.link,
+    /** "Normal (identity link)", "Binomial (logit link)". */
+    familyLabel: familyWithLink(r.family, r.link),
+    /** The fit statistics as labelled rows (fit-statistics.ts). */
+    fitStatistics: fitStatisticRows(fitFactsOf(r)),
     n: r.n,
     rank: r.rank,
     dfResidual: r.dfResidual,
