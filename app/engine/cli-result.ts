@@ -11,6 +11,7 @@
  */
 import type { LinearModelResult } from "./linear-model";
 import type { GlmResult } from "./glm/glm-model";
+import { familyWithLink } from "./family-names";
 
 function num(v: number | null | undefined): number | null {
   return v === null || v === undefined || !Number.isFinite(v) ? null : v;
@@ -57,6 +58,7 @@ export function toGlmCliResult(result: GlmResult): Record<string, unknown> {
     caution: result.caution,
     family: result.family,
     link: result.link,
+    familyLabel: familyWithLink(result.family, result.link),
     n: result.n,
     excluded: result.excluded,
     rank: result.rank,
@@ -137,6 +139,7 @@ export function toCliResult(result: LinearModelResult | GlmResult): Record<strin
     caution: result.caution,
     family: result.family,
     link: result.link,
+    familyLabel: familyWithLink(result.family, result.link),
     n: result.n,
     excluded: result.excluded,
     rank: result.rank,

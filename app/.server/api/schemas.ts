@@ -191,6 +191,7 @@ const Results = registry.register(
     method: z.string(),
     family: z.string().describe("gaussian, binomial, poisson, quasipoisson, negative-binomial or cox (time to event)"),
     link: z.string(),
+    familyLabel: z.string().describe('The family and link in words: "Normal (identity link)", "Binomial (logit link)", "Cox proportional hazards"'),
     covarianceType: z.enum(["model", "HC0", "HC1", "HC2", "HC3"]).nullable().describe("Linear models: the coefficient table's standard errors"),
     n: z.int(),
     rank: z.int(),
@@ -232,6 +233,17 @@ const Check = registry.register(
     outcome: z.enum(["within", "finding", "not_computed"]),
     statistic: z.string(),
     threshold: z.string(),
+    numbers: z
+      .strictObject({
+        measure: z.string().describe('What `statistic` is: "Shapiro–Wilk statistic", "largest Cook\'s distance"'),
+        statistic: Num,
+        df: z.array(Num).nullable().describe("Degrees of freedom of a test statistic: one for χ², two for F"),
+        threshold: z.number().describe("The bound as applied (4/n worked out), or the planned level for a p-value"),
+        compares: z.enum(["statistic above", "statistic below", "p below"]).describe("What is compared with the threshold, and which side is a finding"),
+        p: Num,
+      })
+      .nullable()
+      .describe("The numbers behind the texts; null for results stored before they were recorded"),
     summary: z.string(),
     remedy: z.string(),
     flaggedCount: z.int(),
