@@ -331,6 +331,18 @@ export interface CheckCardData {
   remedy: string;
   flagged: { rank: number; value: number; who: string }[];
   flaggedCount: number;
+  /** The statistic's formula where its name alone does not say it (the collinearity check). */
+  formula?: { name: string; symbol: string; exponent: string; words: string } | null;
+}
+
+/** A check's formula in proper notation, with what it means. */
+export function CheckFormulaNote({ formula }: { formula: NonNullable<CheckCardData["formula"]> }) {
+  return (
+    <p className="text-xs text-ink-soft">
+      <span className="font-semibold">{formula.name}</span> = {formula.symbol}
+      <sup>{formula.exponent}</sup>: {formula.words}.
+    </p>
+  );
 }
 
 const OUTCOME: Record<CheckCardData["outcome"], { status: "within" | "finding" | "pending"; word: string }> = {
@@ -365,6 +377,7 @@ export function CheckCard({ check, figure }: { check: CheckCardData; figure?: Re
             <dd className="num">{check.threshold}</dd>
           </dl>
           <p>{check.summary}</p>
+          {check.formula ? <CheckFormulaNote formula={check.formula} /> : null}
           {check.flagged.length > 0 ? (
             <table className="data-table">
               <caption className="text-left text-xs text-ink-soft">

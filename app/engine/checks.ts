@@ -46,6 +46,16 @@ export interface CheckDefinition {
   needsTreatment?: boolean;
   /** Which models the check applies to ("both": linear and generalized linear). */
   models: "linear" | "glm" | "both" | "cox";
+  /** The statistic's formula where its name alone does not say it: a symbol raised to a power, and the same in words. */
+  formula?: CheckFormula;
+}
+
+/** A formula shown beside a check: `symbol` to the power `exponent` (set as a superscript), and what it means. */
+export interface CheckFormula {
+  name: string;
+  symbol: string;
+  exponent: string;
+  words: string;
 }
 
 export type FigureKey =
@@ -179,6 +189,13 @@ export const CHECKS: readonly CheckDefinition[] = [
       "√5, i.e. a variance inflation factor above 5 for a one-column term (Fox and Monette 1992 for the generalized form; per variable together with its interactions, so that an uncentred covariate in an interaction does not read as collinearity)",
     defaultRemedy: "Review the correlated covariates; the treatment estimate is usually unaffected",
     figure: "residuals_covariate",
+    formula: {
+      name: "Variance inflation, SE scale",
+      symbol: "GVIF",
+      exponent: "1/(2df)",
+      words:
+        "the generalized variance inflation factor of a variable with its interactions (Fox and Monette 1992) raised to the power 1/(2df), df being its number of coefficients: for a one-coefficient term, the factor by which collinearity widens the standard error",
+    },
   },
   {
     key: "overdispersion",

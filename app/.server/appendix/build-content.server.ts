@@ -349,7 +349,13 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
       caption: `Diagnostic checks of the plan and their outcome, ${p.modelTitle}`,
       columns: [{ label: "Check" }, { label: "Statistic" }, { label: "Threshold" }, { label: "Outcome" }],
       rows: p.doc.checks.map((c) => [c.label, p.redact.countOnly(c.statistic), c.threshold, outcomeInWords(c, p.doc.result.n, p.redact)]),
-      note: "Subjects beyond a threshold are counted, not named. Thresholds as the plan states them (n subjects, p coefficients).",
+      note: [
+        "Subjects beyond a threshold are counted, not named. Thresholds as the plan states them (n subjects, p coefficients).",
+        ...p.doc.checks.flatMap((c) => {
+          const f = CHECK_BY_KEY.get(c.key)?.formula;
+          return f ? [`${f.name}: ${f.words}.`] : [];
+        }),
+      ].join(" "),
     });
   }
   sections.push({ key: "checks", title: SECTION_TITLES.checks, blocks: [...checks, ...narrativeBlock("checks", notes.get("checks"))] });

@@ -4,7 +4,7 @@
  * flagged subjects go through the viewer's redaction (redaction.server.ts): subject ids only for
  * people who may see subject-level data, ranks and counts for the others.
  */
-import type { CheckOutcome } from "~/engine/checks";
+import { CHECK_BY_KEY, type CheckOutcome } from "~/engine/checks";
 import { familyWithLink } from "~/engine/family-names";
 import { fitFactsOf, fitStatisticRows } from "~/components/fit-statistics";
 import type { Redaction } from "../redaction.server";
@@ -78,6 +78,7 @@ export function checkView(c: CheckOutcome, redact: Redaction) {
     remedy: redact.text(c.remedy, c.key),
     flagged: redact.flagged(c),
     flaggedCount: c.flagged?.length ?? 0,
+    formula: CHECK_BY_KEY.get(c.key)?.formula ?? null,
   };
 }
 
