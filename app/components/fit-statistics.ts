@@ -48,18 +48,18 @@ export interface GlmFitFacts {
   readonly n: number;
 }
 
-const dfWords = (df: number): string => `${df} degree${df === 1 ? "" : "s"} of freedom`;
+const dfWords = (df: number, residual = false): string => `(${df} ${residual ? "residual " : ""}degree${df === 1 ? "" : "s"} of freedom)`;
 
 /** The rows of the fit statistics table, in reading order. */
 export function fitStatisticRows(f: LinearFitFacts | GlmFitFacts): FitStatisticRow[] {
   if (f.kind === "linear") {
     return [
       { label: "Distribution and link", value: `${familyWithLink("gaussian", "identity")}, ${f.weighted ? "weighted" : "ordinary"} least squares` },
-      { label: "Residual standard deviation", value: `${fmt(f.sigma)} on ${dfWords(f.dfResidual)}` },
-      { label: "R² (adjusted)", value: `${fmt(f.rSquared)} (${fmt(f.adjRSquared)})` },
+      { label: "Residual standard deviation", value: `${fmt(f.sigma)} ${dfWords(f.dfResidual, true)}` },
+      { label: "Share of variance explained, R²", value: `${fmt(f.rSquared)}; adjusted for the number of terms ${fmt(f.adjRSquared)}` },
       {
-        label: "All terms against the intercept alone",
-        value: f.fStatistic === null ? "not computed" : `F statistic ${fmt(f.fStatistic, 2)} on ${f.fDf1} and ${f.fDf2} degrees of freedom, p ${pWords(f.fP)}`,
+        label: "All terms together against the intercept alone",
+        value: f.fStatistic === null ? "not computed" : `F(${f.fDf1}, ${f.fDf2}) = ${fmt(f.fStatistic, 2)}, p ${pWords(f.fP)}`,
       },
       { label: "Log-likelihood", value: fmt(f.logLikelihood, 2) },
       { label: "Akaike information criterion", value: fmt(f.aic, 1) },
@@ -68,8 +68,9 @@ export function fitStatisticRows(f: LinearFitFacts | GlmFitFacts): FitStatisticR
   const estimated = f.family === "quasipoisson";
   const rows: FitStatisticRow[] = [
     { label: "Distribution and link", value: `${familyWithLink(f.family, f.link)}, maximum likelihood${estimated ? " (quasi-likelihood)" : ""}` },
-    { label: "Residual deviance", value: `${fmt(f.deviance, 2)} on ${dfWords(f.dfResidual)}` },
-    { label: "Null deviance (intercept only)", value: `${fmt(f.nullDeviance, 2)} on ${dfWords(f.dfNull)}` },
+    { label: "Deviance of the model", value: `${fmt(f.deviance, 2)} ${dfWords(f.dfResidual, true)}` },
+    { label: "Deviance of the intercept-only model", value: `${fmt(f.nullDeviance, 2)} ${dfWords(f.dfNull, true)}` },
+    { label: "Share of the deviance explained", value: f.nullDeviance > 0 ? `${fmt(100 * (1 - f.deviance / f.nullDeviance), 1)}%` : "—" },
     { label: "Log-likelihood", value: f.logLik === null ? "not defined for a quasi-likelihood" : fmt(f.logLik, 2) },
     { label: "Akaike information criterion", value: f.aic === null ? "not defined for a quasi-likelihood" : fmt(f.aic, 1) },
     { label: "Dispersion", value: estimated ? `${fmt(f.dispersion)}, estimated (Pearson χ² over residual degrees of freedom)` : `${fmt(f.dispersion)}, fixed by the family` },
@@ -80,7 +81,7 @@ export function fitStatisticRows(f: LinearFitFacts | GlmFitFacts): FitStatisticR
       ? { label: "Subjects with and without the event", value: `${f.events} with, ${f.n - f.events} without` }
       : { label: "Total count", value: `${fmt(f.events, 0)} over ${f.n} subjects` },
   );
-  rows.push({ label: "Iterations of the fit", value: `${f.iterations}${f.converged ? ", converged" : ", stopped at the limit before converging"}` });
+  rows.push({ label: "Iteratively reweighted least squares", value: f.converged ? `converged in ${f.iterations} iterations` : `stopped at its limit of ${f.iterations} iterations before converging` });
   return rows;
 }
 

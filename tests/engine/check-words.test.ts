@@ -75,7 +75,8 @@ describe("linear model checks (trial-ancova)", () => {
     const rows = fitStatisticRows(fitFactsOf(r));
     expect(rows[0]).toEqual({ label: "Distribution and link", value: "Normal (identity link), ordinary least squares" });
     expect(rows.map((x) => x.label)).toContain("Akaike information criterion");
-    expect(rows.map((x) => x.value).join(" ")).not.toMatch(/gaussian|\bon \d+ df\b/);
+    expect(rows.map((x) => `${x.label} ${x.value}`).join(" ")).not.toMatch(/gaussian|\bon \d+ (df|degrees of freedom)\b|Residual standard error|F-statistic/);
+    expect(rows.find((x) => x.label === "All terms together against the intercept alone")!.value).toMatch(/^F\(5, 141\) = \d+\.\d{2}, p [=<] /);
   });
 });
 
@@ -106,7 +107,8 @@ describe("generalized linear model checks", () => {
     const r = load("glm-warpbreaks-poisson");
     const rows = fitStatisticRows(fitFactsOf(r));
     expect(rows[0].value).toBe("Poisson (log link), maximum likelihood");
-    expect(rows.find((x) => x.label === "Residual deviance")!.value).toMatch(/^\d+\.\d{2} on \d+ degrees of freedom$/);
+    expect(rows.find((x) => x.label === "Deviance of the model")!.value).toMatch(/^\d+\.\d{2} \(\d+ residual degrees of freedom\)$/);
+    expect(rows.map((x) => `${x.label} ${x.value}`).join(" ")).not.toMatch(/Residual deviance|Null deviance|\bon \d+ degrees of freedom/);
     expect(rows.find((x) => x.label === "Dispersion")!.value).toBe("1.000, fixed by the family");
     const over = byKey(evaluateChecks(r, defaultChecks(true, "poisson"))).get("overdispersion")!;
     expect(over.statistic).toMatch(/^dispersion ratio \(Pearson χ² per residual degree of freedom\) \d+\.\d{2}, p [=<] /);
