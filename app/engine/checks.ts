@@ -100,7 +100,7 @@ export const CHECKS: readonly CheckDefinition[] = [
     key: "deletion_residual",
     models: "both",
     label: "Deletion residual",
-    rule: "finding when any subject's deletion residual is beyond ±k",
+    rule: "finding when any subject's deletion residual t is beyond ±k (|t| > k)",
     defaultThreshold: 3,
     source: "|t| > 3, a common screening bound for outlying responses",
     defaultRemedy: "Review the flagged subjects; sensitivity analysis excluding them",
@@ -501,7 +501,7 @@ export function evaluateChecks(r: ModelResult, planned: readonly PlannedCheck[])
         out.push(observationCheck(def, pc, obs.leverage, (k * p) / n, `${kText(k)}·p/n = ${fmt((k * p) / n, 4)}`, false, r, "leverage"));
         break;
       case "deletion_residual":
-        out.push(observationCheck(def, pc, obs.studentizedExternal, k, `beyond ±${kText(k)}`, true, r, "deletion residual"));
+        out.push(observationCheck(def, pc, obs.studentizedExternal, k, `|t| > ${kText(k)}`, true, r, "deletion residual"));
         break;
       case "dffits":
         if (r.kind !== "linear") break;

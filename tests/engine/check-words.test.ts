@@ -46,7 +46,7 @@ describe("linear model checks (trial-ancova)", () => {
       expect(c.statistic, key).not.toMatch(/absolute [^(]*−/);
       expect(c.numbers!.statistic, key).toBeCloseTo(Math.abs(c.value as number), 12);
     }
-    expect(checks.get("deletion_residual")!.threshold).toBe("beyond ±3");
+    expect(checks.get("deletion_residual")!.threshold).toBe("|t| > 3");
   });
 
   it("names collinearity by what it measures, with its formula in a note", () => {
