@@ -6,7 +6,7 @@ import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { Caution } from "~/components/caution";
 import { fmt, fmtCi, fmtP, utc } from "~/components/format";
 import { PageHeader } from "~/components/page";
-import { AdjustedMeansTable, checkTally, CoefficientTable, ContrastsTable, SensitivityTable } from "~/components/rerun-results";
+import { AdjustedMeansTable, CheckFormulaNote, checkTally, CoefficientTable, ContrastsTable, SensitivityTable } from "~/components/rerun-results";
 import { StatusLabel } from "~/components/status";
 import { getReport } from "~/.server/reports/reports.server";
 import { requireStudy } from "~/.server/study-access.server";
@@ -165,6 +165,7 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
                     <td className="num whitespace-nowrap">{c.threshold}</td>
                     <td>
                       {c.summary}
+                      {c.formula ? <CheckFormulaNote formula={c.formula} /> : null}
                       <span className="block text-xs text-ink-soft">Planned remedy: {c.remedy}</span>
                     </td>
                     <td className="num">

@@ -133,6 +133,7 @@ export async function getReport(studyId: string, rerunId: string) {
       remedy: c.remedy,
       flagged: c.flagged,
       flaggedCount: c.flaggedCount,
+      formula: c.formula,
     })),
     findings: findings.map((f) => ({
       id: f.id,
