@@ -239,25 +239,33 @@ interface CalibrationGroup {
   expected: number;
 }
 
-/** The Hosmer–Lemeshow groups behind the calibration figure: observed against expected events per group of predicted risk. */
+/**
+ * The groups of predicted risk behind the calibration figure (Hosmer and Lemeshow's grouping):
+ * per group, the events the model expects beside the events seen, and the gap between them.
+ */
 export function CalibrationTable({ groups }: { groups: readonly CalibrationGroup[] }) {
   return (
     <table className="data-table">
-      <caption className="mb-1 text-left text-xs text-ink-soft">Hosmer–Lemeshow groups, lowest predicted risk first: events observed and expected under the model.</caption>
+      <caption className="mb-1 text-left text-xs text-ink-soft">
+        Subjects in {groups.length} groups of equal size by predicted risk, lowest risk first: does the model expect as many events as happened in each group?
+      </caption>
       <thead>
         <tr>
-          <th scope="col">Group</th>
+          <th scope="col">Risk group</th>
           <th scope="col" className="text-right">
             Subjects
           </th>
           <th scope="col" className="text-right">
-            Mean predicted risk
+            Predicted risk (mean)
           </th>
           <th scope="col" className="text-right">
-            Observed events
+            Events expected
           </th>
           <th scope="col" className="text-right">
-            Expected events
+            Events seen
+          </th>
+          <th scope="col" className="text-right">
+            Seen − expected
           </th>
         </tr>
       </thead>
@@ -269,8 +277,9 @@ export function CalibrationTable({ groups }: { groups: readonly CalibrationGroup
             </th>
             <td className="num text-right">{g.n}</td>
             <td className="num text-right">{fmt(g.meanPredicted)}</td>
-            <td className="num text-right">{g.observed}</td>
             <td className="num text-right">{fmt(g.expected, 1)}</td>
+            <td className="num text-right">{g.observed}</td>
+            <td className="num text-right">{fmt(g.observed - g.expected, 1)}</td>
           </tr>
         ))}
       </tbody>

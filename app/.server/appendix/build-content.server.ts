@@ -307,7 +307,7 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
       key: `coefficients:${p.rerunId}`,
       number: next.table(),
       caption: `Estimated coefficients, ${p.modelTitle}`,
-      columns: [{ label: "Coefficient" }, { label: "Estimate", numeric: true }, { label: "SE", numeric: true }, { label: r.kind === "linear" ? "t" : "Statistic", numeric: true }, { label: "p", numeric: true }, { label: "95% CI", numeric: true }],
+      columns: [{ label: "Coefficient" }, { label: "Estimate", numeric: true }, { label: "SE", numeric: true }, { label: r.kind === "linear" ? "t" : `Wald ${r.statisticName}`, numeric: true }, { label: "p", numeric: true }, { label: "95% CI", numeric: true }],
       rows: r.coefficients.map((c) => [c.name, fmt(c.estimate), fmt(c.se), fmt(c.statistic, 2), fmtP(c.p), fmtCi(c.lower, c.upper)]),
       note: r.kind === "linear" ? `Model-based standard errors; t on ${r.dfResidual} residual degrees of freedom.` : "Model-based standard errors, on the scale of the linear predictor.",
     });
