@@ -465,7 +465,8 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     notes.push(`IRLS stopped at its limit of ${fit.iterations} iterations before the deviance settled; the estimates may not be the maximum-likelihood estimates.`);
   }
   if (eventsPerVariable < 10) {
-    notes.push(`Only ${eventsPerVariable.toFixed(1)} events per estimated coefficient (fewer than 10): estimates may be biased away from zero and intervals too narrow.`);
+    const smaller = familyName === "binomial" && n - events < events ? "non-events (the smaller class)" : familyName === "binomial" ? "events (the smaller class)" : "events";
+    notes.push(`Only ${eventsPerVariable.toFixed(1)} ${smaller} per estimated coefficient (fewer than 10): estimates may be biased away from zero and intervals too narrow.`);
   }
 
   const marginal =
