@@ -197,7 +197,16 @@ const Results = registry.register(
     rank: z.int(),
     dfResidual: Num,
     rows: z.strictObject({ inFile: z.int(), outsidePopulation: z.int(), excludedByOption: z.int(), missingCells: z.int(), used: z.int() }),
-    coefficients: z.array(z.strictObject({ name: z.string(), term: z.string().nullable(), estimate: Num, statistic: Num, p: Num, ...Interval })),
+    coefficients: z.array(
+      z.strictObject({
+        name: z.string().describe('"Intercept", a variable, "VAR: LEVEL" for a level of a factor; interaction parts joined by " × " ("arm: High dose × base")'),
+        term: z.string().nullable(),
+        estimate: Num,
+        statistic: Num,
+        p: Num,
+        ...Interval,
+      }),
+    ),
     fit: z
       .strictObject({ sigma: Num, rSquared: Num, adjRSquared: Num, fStatistic: Num, fP: Num, aic: Num, deviance: Num, dispersion: Num })
       .describe("Linear models fill sigma to fP; generalized linear models deviance and dispersion"),
