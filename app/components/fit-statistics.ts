@@ -67,7 +67,7 @@ export function fitStatisticRows(f: LinearFitFacts | GlmFitFacts): FitStatisticR
   }
   const estimated = f.family === "quasipoisson";
   const rows: FitStatisticRow[] = [
-    { label: "Distribution and link", value: `${familyWithLink(f.family, f.link)}, maximum likelihood${estimated ? " (quasi-likelihood)" : ""}` },
+    { label: "Distribution and link", value: `${familyWithLink(f.family, f.link)}, ${estimated ? "quasi-likelihood" : "maximum likelihood"}` },
     { label: "Deviance of the model", value: `${fmt(f.deviance, 2)} ${dfWords(f.dfResidual, true)}` },
     { label: "Deviance of the intercept-only model", value: `${fmt(f.nullDeviance, 2)} ${dfWords(f.dfNull, true)}` },
     { label: "Share of the deviance explained", value: f.nullDeviance > 0 ? `${fmt(100 * (1 - f.deviance / f.nullDeviance), 1)}%` : "—" },

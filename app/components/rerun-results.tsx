@@ -279,7 +279,7 @@ export function CalibrationTable({ groups }: { groups: readonly CalibrationGroup
             <td className="num text-right">{fmt(g.meanPredicted)}</td>
             <td className="num text-right">{fmt(g.expected, 1)}</td>
             <td className="num text-right">{g.observed}</td>
-            <td className="num text-right">{fmt(g.observed - g.expected, 1)}</td>
+            <td className="num text-right">{fmt(Math.abs(g.observed - g.expected) < 0.05 ? 0 : g.observed - g.expected, 1)}</td>
           </tr>
         ))}
       </tbody>
