@@ -16,9 +16,13 @@
  * (d3-array's quantileSorted). The slopes of the Q-Q points in each tail relative to the middle
  * use Blom's (1958) plotting positions.
  *
- * When the moments depart from normal only because of one residual (without it they are within
- * their limits, and the quantile measures are within theirs), the reading is "one extreme
- * residual": one subject to look at, not a skewed distribution.
+ * The reading, in order: close to normal when the moments and the quantile measures are within
+ * their limits; "one extreme residual" when the moments depart only because of one residual
+ * (without it they are within their limits, and the quantile measures are within theirs): one
+ * subject to look at, not a skewed distribution; skewed when the quantiles say so, or the moments
+ * with and without the most extreme residual agree on it; otherwise the tails (quantiles, then
+ * kurtosis without and with the most extreme residual). A skewness carried by one residual is
+ * said in the summary.
  */
 import { quantileSorted } from "d3-array";
 import { normalDensity, normalQuantile } from "./distributions";
@@ -139,14 +143,19 @@ function moments(values: ArrayLike<number>): { skewness: number; excessKurtosis:
 
 type Shape = "close to normal" | "right-skewed" | "left-skewed" | "heavier tails" | "lighter tails";
 
-/** The moment reading: skewness first, then tails, against twice their standard errors (with floors). */
-function momentShape(m: { skewness: number; excessKurtosis: number }, n: number): Shape {
-  const skewLimit = Math.max(2 * Math.sqrt(6 / n), 0.3);
+/** The tails by the excess kurtosis alone, against twice its standard error (with a floor). */
+function tailsOf(m: { excessKurtosis: number }, n: number): Shape {
   const kurtosisLimit = Math.max(2 * Math.sqrt(24 / n), 0.6);
-  if (Math.abs(m.skewness) > skewLimit) return m.skewness > 0 ? "right-skewed" : "left-skewed";
   if (m.excessKurtosis > kurtosisLimit) return "heavier tails";
   if (m.excessKurtosis < -kurtosisLimit) return "lighter tails";
   return "close to normal";
+}
+
+/** The moment reading: skewness first, then tails, against twice their standard errors (with floors). */
+function momentShape(m: { skewness: number; excessKurtosis: number }, n: number): Shape {
+  const skewLimit = Math.max(2 * Math.sqrt(6 / n), 0.3);
+  if (Math.abs(m.skewness) > skewLimit) return m.skewness > 0 ? "right-skewed" : "left-skewed";
+  return tailsOf(m, n);
 }
 
 /** The quantile reading: Kelly's skewness and Moors' tail weight against twice their standard errors under normality (with floors). */
@@ -180,21 +189,32 @@ export function readQqShape(residuals: ArrayLike<number>): QqShape {
   const upperTailRatio = n >= 8 ? slope(theoretical, values, n - tail, n) / middle : NaN;
 
   let reading: QqReading = "close to normal";
+  let skewFromOne = false;
   if (n >= 8) {
     const byMoments = momentShape(all, n);
+    const withoutOne = momentShape(without, n - 1);
     const byQuantiles = quantileShape(kelly, moors, n);
-    if (byMoments !== "close to normal" && byQuantiles === "close to normal" && momentShape(without, n - 1) === "close to normal") reading = "one extreme residual";
-    else reading = byMoments !== "close to normal" ? byMoments : byQuantiles;
+    const skewed = (x: QqReading) => x === "right-skewed" || x === "left-skewed";
+    if (byMoments === "close to normal" && byQuantiles === "close to normal") reading = "close to normal";
+    else if (withoutOne === "close to normal" && byQuantiles === "close to normal") reading = "one extreme residual";
+    // skewness only when the quantiles show it, or the moments show it with and without the most
+    // extreme residual, the same way (dropping one end of symmetric heavy tails leaves a lean)
+    else if (skewed(byQuantiles)) reading = byQuantiles;
+    else if (skewed(withoutOne) && withoutOne === byMoments) reading = withoutOne;
+    // otherwise the tails, as the quantiles or the kurtosis (without, then with, the most extreme residual) read them
+    else reading = [byQuantiles, tailsOf(without, n - 1), tailsOf(all, n)].find((x) => x !== "close to normal") ?? byMoments;
+    skewFromOne = skewed(byMoments) && !skewed(reading) && reading !== "one extreme residual";
   }
   const fmt = (v: number) => (Number.isFinite(v) ? v.toFixed(2).replace(/^-/, "−") : "n/a");
   const quantileWords = `quantile skewness ${fmt(kelly)} (Kelly; 0 for a normal), tail weight ${fmt(moors)} (Moors; ${NORMAL_TAIL_WEIGHT.toFixed(2)} for a normal)`;
+  const fromOne = skewFromOne ? ` The skewness of ${fmt(all.skewness)} comes from one residual (${fmt(extreme)}): ${fmt(without.skewness)} without it.` : "";
   const summaries: Record<QqReading, string> = {
     "close to normal": `The points follow the line; skewness ${fmt(all.skewness)} and excess kurtosis ${fmt(all.excessKurtosis)} are within what chance gives for ${n} residuals, as are the ${quantileWords}.`,
     "one extreme residual": `One extreme residual (${fmt(extreme)}); otherwise close to normal: skewness ${fmt(all.skewness)} with all ${n} residuals and ${fmt(without.skewness)} without that one, excess kurtosis ${fmt(all.excessKurtosis)} and ${fmt(without.excessKurtosis)}; ${quantileWords}.`,
     "right-skewed": `The upper end bends away above the line: a long right tail (skewness ${fmt(all.skewness)}; without the most extreme residual ${fmt(without.skewness)}; ${quantileWords}).`,
     "left-skewed": `The lower end bends away below the line: a long left tail (skewness ${fmt(all.skewness)}; without the most extreme residual ${fmt(without.skewness)}; ${quantileWords}).`,
-    "heavier tails": `Both ends bend away from the line, outward: more extreme residuals than a normal gives (excess kurtosis ${fmt(all.excessKurtosis)}; without the most extreme residual ${fmt(without.excessKurtosis)}; ${quantileWords}).`,
-    "lighter tails": `Both ends bend toward the line's centre: fewer extreme residuals than a normal gives (excess kurtosis ${fmt(all.excessKurtosis)}; ${quantileWords}).`,
+    "heavier tails": `Both ends bend away from the line, outward: more extreme residuals than a normal gives (excess kurtosis ${fmt(all.excessKurtosis)}; without the most extreme residual ${fmt(without.excessKurtosis)}; ${quantileWords}).${fromOne}`,
+    "lighter tails": `Both ends bend toward the line's centre: fewer extreme residuals than a normal gives (excess kurtosis ${fmt(all.excessKurtosis)}; ${quantileWords}).${fromOne}`,
   };
   return {
     reading,

@@ -80,6 +80,15 @@ describe("the Q-Q reading", () => {
     expect(r.summary).toMatch(/^One extreme residual \(−6\.61\); otherwise close to normal/);
   });
 
+  it("reads heavy tails with one far residual as heavier tails, saying the skewness comes from that one residual", () => {
+    const values = blom(422, (p) => tQuantile(p, 5));
+    values[421] = 9;
+    const r = readQqShape(values);
+    expect(r.skewness).toBeGreaterThan(0.3);
+    expect(r.reading).toBe("heavier tails");
+    expect(r.summary).toMatch(/The skewness of 0\.\d\d comes from one residual \(9\.00\): −?0\.\d\d without it\./);
+  });
+
   it("reads exponential scores as right-skewed and their mirror image as left-skewed, with or without the most extreme", () => {
     const right = readQqShape(blom(200, exponential));
     expect(right.reading).toBe("right-skewed");
