@@ -331,10 +331,10 @@ function subject(o: { id: string | null; row: number }): string {
 /** "p = 0.0123" or "p < 0.0001". */
 export const pWords = (p: number): string => (p < 0.0001 ? "p < 0.0001" : `p = ${p.toFixed(4)}`);
 
-/** "(χ² on 3 degrees of freedom)", "(F on 2 and 490 degrees of freedom)". */
+/** "(χ² with 3 degrees of freedom)", "(F with 2 and 490 degrees of freedom)". */
 export function distributionWords(kind: "χ²" | "F", df: readonly number[]): string {
   const d = df.map((x) => kText(x));
-  return `(${kind} on ${d.join(" and ")} degree${d.length === 1 && d[0] === "1" ? "" : "s"} of freedom)`;
+  return `(${kind} with ${d.join(" and ")} degree${d.length === 1 && d[0] === "1" ? "" : "s"} of freedom)`;
 }
 
 /**
@@ -381,7 +381,7 @@ function observationCheck(
   };
 }
 
-/** A test's statistic and p-value as a check reads them; `distribution` names the reference distribution and its degrees of freedom. */
+/** A test's statistic and p-value as a check reads them (`reason` when it could not be computed). */
 interface TestReading {
   p: number | null;
   statistic: number | null;

@@ -33,8 +33,8 @@ describe("linear model checks (trial-ancova)", () => {
   it("names each test and its statistic in words, with the reference distribution, never as 'W = ' or 'BP = '", () => {
     const sw = checks.get("shapiro_wilk")!;
     expect(sw.statistic).toMatch(/^Shapiro–Wilk statistic 0\.\d{3}, p [=<] /);
-    expect(checks.get("breusch_pagan")!.statistic).toMatch(/^Breusch–Pagan statistic \d+\.\d{3} \(χ² on \d+ degrees of freedom\), p [=<] /);
-    expect(checks.get("reset")!.statistic).toMatch(/^RESET statistic \d+\.\d{3} \(F on 2 and \d+ degrees of freedom\), p [=<] /);
+    expect(checks.get("breusch_pagan")!.statistic).toMatch(/^Breusch–Pagan statistic \d+\.\d{3} \(χ² with \d+ degrees of freedom\), p [=<] /);
+    expect(checks.get("reset")!.statistic).toMatch(/^RESET statistic \d+\.\d{3} \(F with 2 and \d+ degrees of freedom\), p [=<] /);
     for (const c of checks.values()) expect(c.statistic, c.key).not.toMatch(/\b(W|BP|F|LR χ²) = /);
   });
 
@@ -96,7 +96,7 @@ describe("generalized linear model checks", () => {
     const c = byKey(evaluateChecks(r, defaultChecks(true, "binomial"))).get("treatment_homogeneity_glm")!;
     expect(c.label).toBe("Same treatment effect across covariate values (treatment × every covariate)");
     expect(c.label).not.toBe(CHECK_BY_KEY.get("homogeneity_of_slopes")!.label);
-    expect(c.statistic).toMatch(/^Likelihood-ratio statistic of the treatment interactions \d+\.\d{3} \(χ² on \d+ degrees of freedom\), p [=<] /);
+    expect(c.statistic).toMatch(/^Likelihood-ratio statistic of the treatment interactions \d+\.\d{3} \(χ² with \d+ degrees of freedom\), p [=<] /);
   });
 
   it("writes families with their link as the trade does, and the dispersion check in words", () => {

@@ -168,7 +168,7 @@ describe("rerunning a stratified Cox model", () => {
     const stored = await db.select().from(t.findings).where(eq(t.findings.rerunId, rerunId));
     expect(stored.map((f) => f.checkKey).sort()).toEqual(doc.checks.filter((c) => c.outcome === "finding").map((c) => c.key).sort());
     const ff = doc.checks.find((c) => c.key === "functional_form_cox")!;
-    expect(ff.statistic).toMatch(/likelihood-ratio statistic \d+\.\d{2} \(χ² on 1 degree of freedom\)/);
+    expect(ff.statistic).toMatch(/likelihood-ratio statistic \d+\.\d{2} \(χ² with 1 degree of freedom\)/);
     expect(influence.statistic).toMatch(/^largest absolute DFBETAS on the treatment effect \d/);
     expect(influence.numbers).toMatchObject({ compares: "statistic above" });
   });
