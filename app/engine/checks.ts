@@ -464,6 +464,15 @@ export function findingSummary(label: string, summary: string): string {
   return starts(`${label}:`) || starts(`${label} `) ? text : `${label}: ${text}`;
 }
 
+/** A finding's summary for a table whose own column already names the check: the label dropped from its start. */
+export function summaryAfterLabel(label: string, summary: string): string {
+  const text = withoutRepeatedLabel(summary);
+  const prefix = `${label}: `;
+  if (!text.toLowerCase().startsWith(prefix.toLowerCase())) return text;
+  const rest = text.slice(prefix.length);
+  return rest.charAt(0).toUpperCase() + rest.slice(1);
+}
+
 /** A stored finding summary with a label said twice at its start ("X: X: …") said once. */
 export function withoutRepeatedLabel(summary: string): string {
   return summary.replace(/^([^:]{1,120}):\s+\1:\s+/i, "$1: ");

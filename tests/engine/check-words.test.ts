@@ -12,7 +12,7 @@ import { readFileSync } from "node:fs";
 import { join } from "node:path";
 import { describe, expect, it } from "vitest";
 import { fitModel, parseModelSpec, toDataTable } from "~/engine";
-import { CHECK_BY_KEY, defaultChecks, evaluateChecks, findingSummary, withoutRepeatedLabel, type CheckOutcome } from "~/engine/checks";
+import { CHECK_BY_KEY, defaultChecks, evaluateChecks, findingSummary, summaryAfterLabel, withoutRepeatedLabel, type CheckOutcome } from "~/engine/checks";
 import { familyWithLink } from "~/engine/family-names";
 import { interactionName, levelName } from "~/engine/coefficient-names";
 import { readCsvText } from "~/engine-io/read-csv";
@@ -127,5 +127,9 @@ describe("names and summaries", () => {
     expect(findingSummary("Overdispersion", "Overdispersion: the counts vary.")).toBe("Overdispersion: the counts vary.");
     expect(withoutRepeatedLabel("Overdispersion: Overdispersion: the counts vary about 2.3 times")).toBe("Overdispersion: the counts vary about 2.3 times");
     expect(withoutRepeatedLabel("Cook's distance: 3 of 150 subjects exceed the threshold.")).toBe("Cook's distance: 3 of 150 subjects exceed the threshold.");
+    // a table with a Check column: the summary without the label, once or twice
+    expect(summaryAfterLabel("Overdispersion", "Overdispersion: Overdispersion: the counts vary")).toBe("The counts vary");
+    expect(summaryAfterLabel("Cook's distance", "Cook's distance: 3 of 150 subjects exceed the threshold.")).toBe("3 of 150 subjects exceed the threshold.");
+    expect(summaryAfterLabel("", "Not estimable as planned: the design is singular.")).toBe("Not estimable as planned: the design is singular.");
   });
 });

@@ -7,7 +7,7 @@
 import { and, asc, eq, isNotNull } from "drizzle-orm";
 import { data } from "react-router";
 import { BEYOND, figureSpec, forestSpec, OUTSIDE_BAND, plotsSubjects, type FigureData, type ForestRow } from "~/components/figures/specs";
-import { CHECK_BY_KEY, type CheckOutcome, type FigureKey } from "~/engine/checks";
+import { CHECK_BY_KEY, summaryAfterLabel, type CheckOutcome, type FigureKey } from "~/engine/checks";
 import { fmt, fmtCi, fmtP, utc } from "~/components/format";
 import { fitFactsOf, fitStatisticRows } from "~/components/fit-statistics";
 import { familyWithLink } from "~/engine/family-names";
@@ -369,7 +369,8 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
     const rows = [
       ...p.findings.map((f) => [
         CHECK_BY_KEY.get(f.checkKey as never)?.label ?? (f.kind === "not_estimable" ? "Estimability" : f.checkKey),
-        p.redact.countOnly(f.summary),
+        // the Check column names the check: the finding says what it found, without the label again
+        p.redact.countOnly(summaryAfterLabel(CHECK_BY_KEY.get(f.checkKey as never)?.label ?? "", f.summary)),
         f.assessment ? CATEGORIES[f.assessment.category] : "Not assessed",
         f.assessment ? IMPACTS[f.assessment.impact] : "—",
         f.assessment ? (ACTIONS[f.assessment.action as keyof typeof ACTIONS] ?? f.assessment.action) : "—",
