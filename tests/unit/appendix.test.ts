@@ -143,6 +143,15 @@ describe("the Word appendix of a signed rerun", () => {
     for (const id of ids) expect(documentXml.includes(id), `subject ${id} named in the appendix`).toBe(false);
   });
 
+  it("logs each deviation once: the Finding column does not repeat the check named in the Check column", () => {
+    const log = tables(documentXml).find((x) => /Deviation log with assessments/.test(x.caption))!;
+    expect(log.rows.length).toBeGreaterThan(1);
+    for (const row of log.rows.slice(1)) {
+      expect(row[1].startsWith(`${row[0]}:`), row.join(" | ")).toBe(false);
+      expect(row[1]).not.toMatch(/^([^:]+): \1:/);
+    }
+  });
+
   it("carries the figures as pictures with alt text, and numbered captions", async () => {
     const pictures = [...documentXml.matchAll(/<wp:docPr ([^>]*)\/?>/g)].map((m) => m[1]);
     const expected = content.sections.flatMap((x) => x.blocks).filter((b) => b.kind === "figure");
