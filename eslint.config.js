@@ -17,6 +17,7 @@ const root = import.meta.dirname;
 const ENGINE_PACKAGES = [
   "zod",
   "decimal.js",
+  "d3-array",
   "jstat",
   "@stdlib/math-base-special-betainc",
   "@stdlib/math-base-special-gammainc",

@@ -2,6 +2,7 @@
  * Variables and the design matrix: complete-case rows, continuous and categorical variables
  * (treatment coding against a reference level), interaction columns, coefficient names.
  */
+import { INTERCEPT_NAME, interactionName, levelName } from "./coefficient-names";
 import { EngineError } from "./errors";
 import { isInteraction, type ModelSpec, type Term } from "./model-spec";
 import { isMissingCell, isNumericColumn, orderLevels, parseNumber, type DataTable } from "./data";
@@ -37,7 +38,7 @@ export interface ColumnFactor {
 }
 
 export interface DesignTerm {
-  /** Variable name, or an interaction's parts joined by " by ". */
+  /** Variable name, or an interaction's parts joined by " × " (coefficient-names.ts). */
   readonly label: string;
   readonly kind: "continuous" | "categorical" | "interaction";
   readonly variables: readonly string[];
@@ -85,7 +86,7 @@ export function prepareData(spec: ModelSpec, table: DataTable): PreparedData {
   }
   for (const t of spec.terms) {
     if (!isInteraction(t)) continue;
-    const label = t.interaction.join(" by ");
+    const label = interactionName(t.interaction);
     if (new Set(t.interaction).size !== t.interaction.length) {
       throw new EngineError(`interaction "${label}" names a variable twice`);
     }
@@ -225,12 +226,12 @@ export function termColumns(variables: readonly string[], lookup: ReadonlyMap<st
     const parts: ColumnPlan[] =
       v.kind === "continuous"
         ? [{ name, factors: [{ variable: name }] }]
-        : contrastLevels(v).map((level) => ({ name: `${name}=${v.levels[level]}`, factors: [{ variable: name, level }] }));
+        : contrastLevels(v).map((level) => ({ name: levelName(name, v.levels[level]), factors: [{ variable: name, level }] }));
     const next: ColumnPlan[] = [];
     for (const part of parts) {
       for (const combo of combos) {
         next.push({
-          name: partIndex === 0 ? part.name : `${combo.name} by ${part.name}`,
+          name: partIndex === 0 ? part.name : interactionName([combo.name, part.name]),
           factors: [...combo.factors, ...part.factors],
         });
       }
@@ -256,7 +257,7 @@ export function buildDesign(
   const factors: ColumnFactor[][] = [];
   const terms: DesignTerm[] = [];
   if (spec.intercept) {
-    names.push("Intercept");
+    names.push(INTERCEPT_NAME);
     factors.push([]);
   }
   for (const vars of [...termVariables(spec), ...extraTerms]) {
@@ -267,7 +268,7 @@ export function buildDesign(
       factors.push([...plan.factors]);
     }
     const kind = vars.length > 1 ? "interaction" : (data.variables.get(vars[0]) as Variable).kind;
-    terms.push({ label: vars.join(" by "), kind, variables: [...vars], columns: plans.map((_, i) => first + i) });
+    terms.push({ label: interactionName(vars), kind, variables: [...vars], columns: plans.map((_, i) => first + i) });
   }
   const p = names.length;
   const x = new Float64Array(n * p);

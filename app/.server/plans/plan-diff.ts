@@ -2,6 +2,7 @@
  * A readable comparison of two plan versions: what was added, removed or changed, in the
  * words a reviewer reads (covariates, reference arm, thresholds), not as a text diff.
  */
+import { interactionName } from "~/engine/coefficient-names";
 import { CHECK_BY_KEY } from "~/engine/checks";
 import { publishedInWords } from "~/engine/published-values";
 import type { PlannedModel } from "./planned-model";
@@ -40,7 +41,7 @@ function survivalDiff(a: PlannedModel["spec"], b: PlannedModel["spec"]): string[
 function termText(m: PlannedModel): Map<string, string> {
   const out = new Map<string, string>();
   for (const t of m.spec.terms) {
-    if ("interaction" in t) out.set(t.interaction.join(" by "), "interaction");
+    if ("interaction" in t) out.set(interactionName(t.interaction), "interaction");
     else out.set(t.variable, t.categorical ? `categorical${t.reference ? `, reference ${t.reference}` : ""}` : "continuous");
   }
   return out;

@@ -7,6 +7,7 @@
 import { z } from "zod";
 import { CHECKS, type CheckKey, type PlannedCheck } from "~/engine/checks";
 import { modelSpecSchema, type ModelSpec, type Term } from "~/engine/model-spec";
+import { interactionName } from "~/engine/coefficient-names";
 import type { ColumnMeta } from "../datasets/catalog.server";
 import { categoricalHints, isNumericType } from "../datasets/categorical-hint";
 import { coxSpecSchema } from "~/engine/survival/cox-spec";
@@ -253,7 +254,7 @@ export function validatePlannedModel(
   for (const parts of form.interactions) {
     const missing = parts.filter((p) => !mainVariables.has(p));
     if (parts.length < 2 || missing.length > 0) {
-      errors.interactions = `The interaction ${parts.join(" by ")} needs each of its variables as a main term${missing.length ? ` (missing: ${missing.join(", ")})` : ""}.`;
+      errors.interactions = `The interaction ${interactionName(parts)} needs each of its variables as a main term${missing.length ? ` (missing: ${missing.join(", ")})` : ""}.`;
       continue;
     }
     terms.push({ interaction: parts });

@@ -4,8 +4,10 @@
  * flagged subjects go through the viewer's redaction (redaction.server.ts): subject ids only for
  * people who may see subject-level data, ranks and counts for the others.
  */
-import type { CheckOutcome } from "~/engine/checks";
 import { reproductionAsCheck } from "~/engine/reproduction";
+import { CHECK_BY_KEY, type CheckOutcome } from "~/engine/checks";
+import { familyWithLink } from "~/engine/family-names";
+import { fitFactsOf, fitStatisticRows } from "~/components/fit-statistics";
 import type { Redaction } from "../redaction.server";
 import type { RerunDocument } from "./reruns.server";
 import { coxReportedContrasts, coxRerunView, restrictedMeanContrasts } from "./cox-rerun-view.server";
@@ -19,6 +21,8 @@ export interface ContrastView {
   p: number;
   /** Null where the robust alternative does not apply (Ye et al. for a non-canonical GLM). */
   hc3: { se: number; lower: number; upper: number; p: number } | null;
+  /** "log" for a ratio: its SEs are those of the log ratio (the estimate and interval are ratios). */
+  seScale: "response" | "log";
 }
 
 /**
@@ -39,6 +43,7 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
       upper: c.upper,
       p: c.p,
       hc3: { se: c.hc3.se, lower: c.hc3.lower, upper: c.hc3.upper, p: c.hc3.p },
+      seScale: "response" as const,
     }));
   }
   return (r.marginalEffects?.contrasts ?? []).map((c) => ({
@@ -49,6 +54,7 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
     upper: c.upper,
     p: c.p,
     hc3: c.robust ? { se: c.robust.se, lower: c.robust.lower, upper: c.robust.upper, p: c.robust.p } : null,
+    seScale: c.measure === "risk difference" ? ("response" as const) : ("log" as const),
   }));
 }
 
@@ -73,6 +79,7 @@ export function checkView(c: CheckOutcome, redact: Redaction) {
     remedy: redact.text(c.remedy, c.key),
     flagged: redact.flagged(c),
     flaggedCount: c.flagged?.length ?? 0,
+    formula: CHECK_BY_KEY.get(c.key)?.formula ?? null,
   };
 }
 
@@ -100,6 +107,10 @@ export function rerunView(doc: RerunDocument, redact: Redaction) {
     method: r.method.description,
     family: r.family,
     link: r.link,
+    /** "Normal (identity link)", "Binomial (logit link)". */
+    familyLabel: familyWithLink(r.family, r.link),
+    /** The fit statistics as labelled rows (fit-statistics.ts). */
+    fitStatistics: fitStatisticRows(fitFactsOf(r)),
     n: r.n,
     rank: r.rank,
     dfResidual: r.dfResidual,
