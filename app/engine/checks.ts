@@ -40,8 +40,8 @@ export interface CheckDefinition {
   /** Where the default comes from. */
   source: string;
   defaultRemedy: string;
-  /** The figure that supports the check on the results page. */
-  figure: FigureKey;
+  /** The figure that supports the check on the results page (its module in app/figures lists the check), or none. */
+  figure: FigureKey | null;
   needsTreatment?: boolean;
   /** Which models the check applies to ("both": linear and generalized linear). */
   models: "linear" | "glm" | "both" | "cox";
@@ -55,9 +55,13 @@ export type FigureKey =
   | "spread_by_arm"
   | "residuals_covariate"
   | "partial_residuals"
+  | "dfbetas"
+  | "dffits"
+  | "gvif"
+  | "slopes_by_arm"
   | "binned_residuals"
   | "calibration"
-  // time-to-event (Cox) figures: app/components/figures/cox/
+  // time-to-event (Cox) figures: app/figures/cox/
   | "schoenfeld"
   | "martingale_covariate"
   | "kaplan_meier"
@@ -103,7 +107,7 @@ export const CHECKS: readonly CheckDefinition[] = [
     defaultThreshold: 2,
     source: "2/√n (Belsley, Kuh and Welsch 1980)",
     defaultRemedy: "Sensitivity analysis excluding the flagged subjects",
-    figure: "influence",
+    figure: "dfbetas",
     needsTreatment: true,
   },
   {
@@ -114,7 +118,7 @@ export const CHECKS: readonly CheckDefinition[] = [
     defaultThreshold: 2,
     source: "2√(p/n) (Belsley, Kuh and Welsch 1980)",
     defaultRemedy: "Review the flagged subjects",
-    figure: "influence",
+    figure: "dffits",
   },
   {
     key: "shapiro_wilk",
@@ -155,7 +159,7 @@ export const CHECKS: readonly CheckDefinition[] = [
     defaultThreshold: 0.05,
     source: "Standard ANCOVA assumption check (e.g. EMA guideline on adjustment for baseline covariates, 2015)",
     defaultRemedy: "Report the interaction as a sensitivity analysis; the primary estimate stands as planned",
-    figure: "residuals_covariate",
+    figure: "slopes_by_arm",
     needsTreatment: true,
   },
   {
@@ -177,7 +181,7 @@ export const CHECKS: readonly CheckDefinition[] = [
     source:
       "√5, i.e. VIF above 5 for a one-column term (Fox and Monette 1992 for the generalized form; per variable with its interactions, as car::vif(type = \"predictor\"), so that an uncentred covariate in an interaction does not read as collinearity)",
     defaultRemedy: "Review the correlated covariates; the treatment estimate is usually unaffected",
-    figure: "residuals_covariate",
+    figure: "gvif",
   },
   {
     key: "overdispersion",
@@ -196,7 +200,7 @@ export const CHECKS: readonly CheckDefinition[] = [
     defaultThreshold: 10,
     source: "10 events per variable (Peduzzi et al. 1996)",
     defaultRemedy: "Report the estimates with caution; consider a reduced covariate set",
-    figure: "influence",
+    figure: null,
     models: "glm",
   },
   {
@@ -216,7 +220,7 @@ export const CHECKS: readonly CheckDefinition[] = [
     defaultThreshold: 0.05,
     source: "Likelihood-ratio test of the interactions (standard practice for covariate-adjusted GLMs)",
     defaultRemedy: "Report the interaction as a sensitivity analysis; the primary estimate stands as planned",
-    figure: "residuals_covariate",
+    figure: "slopes_by_arm",
     needsTreatment: true,
     models: "glm",
   },
@@ -262,7 +266,7 @@ export interface CheckOutcome {
   threshold: string;
   summary: string;
   remedy: string;
-  figure: FigureKey;
+  figure: FigureKey | null;
   flagged?: FlaggedObservation[];
   value?: number | null;
 }

@@ -6,7 +6,7 @@
 import { Resvg } from "@resvg/resvg-js";
 import { describe, expect, it } from "vitest";
 import { resvgOptions, specToSvg, svgToPng } from "~/.server/appendix/figures.server";
-import { forestSpec } from "~/components/figures/specs";
+import { forestSpec } from "~/figures/forest";
 
 /** Dark pixels (ink) in the top `rows` rows of an RGBA image on a light background. */
 function inkInTopRows(svg: string, rows: number, withFonts: boolean): number {

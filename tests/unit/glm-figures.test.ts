@@ -10,9 +10,9 @@ useTempDatabase();
 const { seedDemoStudy } = await import("~/.server/demo/seed.server");
 const { loadLockedTable, listLockedVersions } = await import("~/.server/datasets/catalog.server");
 const { computeRerun } = await import("~/.server/reruns/reruns.server");
-const { figureData } = await import("~/.server/reruns/figure-data.server");
+const { figureData } = await import("~/figures/registry");
 const { rerunTable } = await import("~/.server/reruns/what-if.server");
-const { figureSpec } = await import("~/components/figures/specs");
+const { figureSpec } = await import("~/figures/registry");
 const { defaultChecks } = await import("~/engine/checks");
 
 describe("figures of a generalized linear model", () => {

@@ -5,6 +5,7 @@
  * people who may see subject-level data, ranks and counts for the others.
  */
 import type { CheckOutcome } from "~/engine/checks";
+import { figureModule, figureOfCheck } from "~/figures/registry";
 import type { Redaction } from "../redaction.server";
 import type { RerunDocument } from "./reruns.server";
 import { coxReportedContrasts, coxRerunView, restrictedMeanContrasts } from "./cox-rerun-view.server";
@@ -72,12 +73,15 @@ export function checkView(c: CheckOutcome, redact: Redaction) {
     remedy: redact.text(c.remedy, c.key),
     flagged: redact.flagged(c),
     flaggedCount: c.flagged?.length ?? 0,
+    // the figure's module decides which check it supports; a check not computed has none
+    figure: figureOfCheck(c),
   };
 }
 
 export function rerunView(doc: RerunDocument, redact: Redaction) {
   if (doc.result.kind === "cox") return coxRerunView(doc, doc.result, redact);
   const r = doc.result;
+  const continuousTerms = r.variables.filter((v) => v.kind === "continuous" && v.name !== r.spec.response).map((v) => v.name);
   const common = {
     description: redact.text(doc.description),
     rows: doc.rows,
@@ -93,8 +97,12 @@ export function rerunView(doc: RerunDocument, redact: Redaction) {
     vif: r.vif,
     qqShape: r.qqShape,
     terms: r.terms,
-    continuousTerms: r.variables.filter((v) => v.kind === "continuous" && v.name !== r.spec.response).map((v) => v.name),
-    checks: doc.checks.map((c) => checkView(c, redact)),
+    continuousTerms,
+    checks: doc.checks.map((c) => {
+      const v = checkView(c, redact);
+      // a figure drawn per covariate is shown with the first continuous covariate
+      return { ...v, figureTerm: v.figure && figureModule(v.figure).perTerm === "continuous" ? continuousTerms[0] : undefined };
+    }),
     engineVersion: doc.engineVersion,
     caution: doc.caution,
   };
