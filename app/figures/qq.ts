@@ -59,7 +59,7 @@ export function qqSpec(d: QqData, opts: SpecOptions = {}): TopLevelSpec {
     $schema: SCHEMA,
     ...frame(d, opts),
     title: title(
-      `Do the residuals follow the normal line? ${d.reading.charAt(0).toUpperCase()}${d.reading.slice(1)}`,
+      `Do the residuals follow the normal line? Reading: ${d.reading}`,
       "the points lie along the line from end to end.",
       [
         d.summary,

@@ -36,7 +36,7 @@ export interface SlopesByArmData extends FigureBase {
   slopes: ArmSlope[];
   /** The model's common slope, drawn through the mean of every subject. */
   common: { slope: number; ends: { x: number; y: number }[] };
-  /** The plan's joint test of the treatment-by-covariate interactions, as the rerun computed it. */
+  /** The test of this covariate's interaction with the treatment, as the rerun computed it. */
   test: { name: string; p: number } | null;
   rows: SlopeRow[];
 }
@@ -85,7 +85,7 @@ export function slopesByArmSpec(d: SlopesByArmData, opts: SpecOptions = {}): Top
       "the arms' lines run parallel to each other and to the model's common slope.",
       [
         `Lines: each arm's own least-squares slope (${slopeWords}); grey: the model's common slope ${d.common.slope.toPrecision(3)}.${d.glm ? ` On the link scale, ${linkScale(d)}.` : ""}`,
-        d.test ? `${d.test.name}: p ${pText(d.test.p)}.` : "The joint test of the interactions was not computed.",
+        d.test ? `${d.test.name}: p ${pText(d.test.p)}.` : `No test of ${d.treatment} × ${d.term} was computed.`,
         ...(d.note ? [d.note] : []),
       ],
       width,
@@ -142,13 +142,14 @@ export const slopesByArm = defineFigure<SlopesByArmData>({
     const lo = Math.min(...ok.map((i) => x[i]));
     const hi = Math.max(...ok.map((i) => x[i]));
     const common = { slope: round(coef), ends: [lo, hi].map((v) => ({ x: round(v), y: round(my + coef * (v - mx)) })) };
-    const lin = r.kind === "linear" ? r.tests.homogeneityOfSlopes : undefined;
-    const glm = r.kind === "glm" ? r.checks.homogeneityOfTreatmentEffect?.joint : undefined;
+    // the test of this covariate's slopes by arm, as the rerun computed it (the check itself tests them jointly)
+    const lin = r.kind === "linear" ? r.tests.homogeneityOfSlopes?.byCovariate.find((c) => c.covariate === t.name) : undefined;
+    const glm = r.kind === "glm" ? r.checks.homogeneityOfTreatmentEffect?.byCovariate.find((c) => c.term === `${treatment} by ${t.name}`) : undefined;
     const test =
       lin && lin.p !== null
-        ? { name: "Joint F test of the treatment-by-covariate slopes", p: lin.p }
+        ? { name: `F test of the ${treatment} × ${t.name} slopes`, p: lin.p }
         : glm && glm.p !== null && Number.isFinite(glm.p)
-          ? { name: "Joint likelihood-ratio test of the treatment-by-covariate interactions", p: glm.p }
+          ? { name: `Likelihood-ratio test of ${treatment} × ${t.name}`, p: glm.p }
           : null;
     const rows = ok.map((i) => ({ ...who(r, i, opts.withSubjectIds), arm: armOf[i], x: round(x[i]), partial: round(partial.values[i]), status: statusOf(i) }));
     return { figure: "slopes_by_arm", ...b, treatment, term: t.name, termUnit: unitOf(t.name, opts), arms, slopes, common, test, rows };

@@ -37,7 +37,7 @@ describe("server-rendered figures", () => {
     const svg = await specToSvg(spec);
     const texts = svg.match(/<text\b/g) ?? [];
     expect(texts.length).toBeGreaterThan(10);
-    expect(svg).toContain("Treatment contrast across analyses");
+    expect(svg).toContain("Does the treatment conclusion hold in every analysis?");
     expect(svg).toMatch(/font-family="Noto Sans"/);
   });
 

@@ -163,7 +163,7 @@ describe("fit figures of a binomial rerun", () => {
     expect(calibration.test.statistic!).toBeCloseTo(R.hl.statistic, 6);
     expect(calibration.test.p!).toBeCloseTo(R.hl.p, 6);
     const subtitle = titleOf(figureSpec(calibration)).subtitle.join(" ");
-    expect(subtitle).toContain(`Hosmer–Lemeshow χ² = ${R.hl.statistic.toFixed(2)} on ${R.hl.df} df`);
+    expect(subtitle).toContain(`Hosmer–Lemeshow statistic ${R.hl.statistic.toFixed(2)} on ${R.hl.df} degrees of freedom`);
     expect(subtitle).toContain("little power in small samples");
   });
 
