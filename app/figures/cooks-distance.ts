@@ -1,11 +1,11 @@
 /**
  * Cook's distance by subject: does any single subject move the whole fit? Each subject is a point
  * in data order (no needles), the plan's threshold a dashed line named in the subtitle (not on the
- * plot, where it would meet the subjects' names), and the most influential flagged subjects named
- * beside their points, staggered so the names do not overlap.
+ * plot, where it would meet the points' marks), and the most influential flagged subjects numbered
+ * at their points and named in a ranked list beside the plot, so no two names overlap.
  */
 import type { TopLevelSpec } from "vega-lite";
-import { rankedLabels, asSpec, count, dataOf, denseLine, frame, markedSubjects, NO_ARIA, PALETTE, pointMark, SCHEMA, statusEncoding, title, tooltip } from "./shared/look";
+import { rankedList, rankMarks, asSpec, count, dataOf, denseLine, frame, markedSubjects, NO_ARIA, PALETTE, pointMark, SCHEMA, statusEncoding, title, tooltip } from "./shared/look";
 import { defineFigure } from "./shared/module";
 import { appliedThreshold, checkOf, denseSelection, drawnIndices, LABELLED, labelOf, subjectsOf, topBy, who } from "./shared/source";
 import { blockMaxima, round } from "./shared/summaries";
@@ -54,7 +54,7 @@ export function influenceSpec(d: InfluenceData, opts: SpecOptions = {}): TopLeve
       "Does any single subject move the whole fit?",
       "every subject well below the dashed line; no single subject stands out.",
       [
-        `Points: Cook's distance of each subject.${d.threshold ? ` Dashed line: the plan's threshold ${d.threshold.label}.` : " The plan sets no Cook's distance threshold."} Named: the most influential subjects beyond it.`,
+        `Points: Cook's distance of each subject.${d.threshold ? ` Dashed line: the plan's threshold ${d.threshold.label}.` : " The plan sets no Cook's distance threshold."} Numbered: the most influential subjects beyond it, named in the list beside the plot.`,
         ...denseLine(d, `grey bars show the largest Cook's distance in each run of ${d.blocks?.[0] ? count(d.blocks[0].to - d.blocks[0].from + 1) : "a few"} consecutive subjects`),
         ...(d.note ? [d.note] : []),
       ],
@@ -85,7 +85,15 @@ export function influenceSpec(d: InfluenceData, opts: SpecOptions = {}): TopLeve
         ? [{ data: { values: [{}] }, mark: { type: "rule", color: PALETTE.finding, strokeDash: [6, 3], strokeWidth: 1.2 }, encoding: { y: { datum: d.threshold.value } } }]
         : []),
       { mark: pointMark(), encoding: { x, y, ...statusEncoding(d), tooltip: tip } },
-      ...rankedLabels(x, y, d.n),
+      ...rankMarks(x, y, d.n),
+      rankedList(
+        ["Most influential", "beyond the threshold:"],
+        d.rows
+          .filter((r) => r.labelRank != null)
+          .sort((a, b) => (a.labelRank ?? 0) - (b.labelRank ?? 0))
+          .map((r) => `${r.label} (${r.cooks.toPrecision(3)})`),
+        "No subject beyond the threshold.",
+      ),
     ],
   });
 }
@@ -116,7 +124,7 @@ export const cooksDistance = defineFigure<InfluenceData>({
   spec: influenceSpec,
   words: {
     caption: "Cook's distance by subject",
-    shows: "each subject's Cook's distance as a point in data order, with the planned threshold as a dashed line and the most influential subjects named",
+    shows: "each subject's Cook's distance as a point in data order, with the planned threshold as a dashed line and the most influential subjects numbered and listed beside the plot",
     healthy: "no subject far above the threshold line",
   },
   marked: (d) => markedSubjects(d.rows),

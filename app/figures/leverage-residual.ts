@@ -6,7 +6,7 @@
  * first.
  */
 import type { TopLevelSpec } from "vega-lite";
-import { asSpec, cellsLayer, count, crowded, dataOf, denseLine, frame, NO_ARIA, PALETTE, SCHEMA, title, tooltip, zeroRule, type Json } from "./shared/look";
+import { asSpec, rankedList, cellsLayer, count, crowded, dataOf, denseLine, frame, NO_ARIA, PALETTE, SCHEMA, title, tooltip, zeroRule, type Json } from "./shared/look";
 import { defineFigure } from "./shared/module";
 import { appliedThreshold, cellsOf, denseSelection, drawnIndices, flaggedRows, labelOf, subjectsOf, topBy, who } from "./shared/source";
 import { round } from "./shared/summaries";
@@ -101,11 +101,6 @@ export function leverageResidualSpec(d: LeverageResidualData, opts: SpecOptions 
   if (rt !== null) rules.push(rule("y", rt), rule("y", -rt));
   const domain = [...ZONES];
   const legend = { title: "Subjects beyond" };
-  const list = [
-    d.ranked.length ? "Beyond a threshold," : "No subject beyond",
-    d.ranked.length ? "most influential first:" : "a threshold.",
-    ...d.ranked.map((r) => `${r.rank}. ${r.label} (${r.zone === "high leverage and large residual" ? "both" : r.zone})`),
-  ];
   const lines = [
     d.leverageThreshold ? `leverage ${d.leverageThreshold.label}` : null,
     d.residualThreshold ? `deletion residual ${d.residualThreshold.label.replace(/^\|t\|\s*>\s*/, "beyond ±")}` : null,
@@ -147,11 +142,7 @@ export function leverageResidualSpec(d: LeverageResidualData, opts: SpecOptions 
         },
       },
       // the ranked list, beside the plot on the right (the plot narrows to make room)
-      {
-        data: { values: [{ list }] },
-        mark: { type: "text", align: "left", baseline: "top", x: { expr: "width + 14" }, y: 0, fontSize: 10, lineHeight: 14, color: PALETTE.ink, ...NO_ARIA },
-        encoding: { text: { field: "list", type: "nominal" } },
-      },
+      rankedList(["Beyond a threshold,", "most influential first:"], d.ranked.map((r) => `${r.label} (${r.zone === "high leverage and large residual" ? "both" : r.zone})`), "No subject beyond a threshold."),
     ],
   });
 }

@@ -6,7 +6,7 @@
 import type { TopLevelSpec } from "vega-lite";
 import { asSpec, cellsLayer, dataOf, denseLine, frame, loessLayer, markedSubjects, PALETTE, pointMark, SCHEMA, statusEncoding, title, tooltip } from "./shared/look";
 import { defineFigure } from "./shared/module";
-import { linkScale } from "./shared/residual-words";
+import { linkScale, linkUnit } from "./shared/residual-words";
 import { cellsFor, cellsOf, denseSelection, drawnIndices, FigureUnavailableError, interactionNote, requireTerm, smoothOf, subjectsOf, unitOf, who } from "./shared/source";
 import { round } from "./shared/summaries";
 import type { DensityCell, FigureBase, PointStatus, SmoothPoint, SpecOptions, SubjectRef } from "./shared/types";
@@ -36,7 +36,7 @@ export interface PartialResidualsData extends FigureBase {
 export function partialResidualsSpec(d: PartialResidualsData, opts: SpecOptions = {}): TopLevelSpec {
   const width = opts.width ?? 560;
   const xEnc = { field: "x", type: "quantitative", title: `${d.term} (${d.termUnit})`, scale: { zero: false } };
-  const yTitle = d.glm ? `Component plus working residual, link scale (${linkScale(d)})` : `Component plus residual (${d.responseUnit})`;
+  const yTitle = d.glm ? `Component + working residual (${linkUnit(d)})` : `Component plus residual (${d.responseUnit})`;
   return asSpec({
     $schema: SCHEMA,
     ...frame(d, opts),

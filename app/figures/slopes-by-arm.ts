@@ -9,7 +9,7 @@
 import type { TopLevelSpec } from "vega-lite";
 import { asSpec, dataOf, frame, NO_ARIA, PALETTE, pText, SCHEMA, title, tooltip, type Json } from "./shared/look";
 import { defineFigure } from "./shared/module";
-import { linkScale } from "./shared/residual-words";
+import { linkScale, linkUnit } from "./shared/residual-words";
 import { cellsFor, FigureUnavailableError, requireTerm, subjectsOf, unitOf, who } from "./shared/source";
 import { round } from "./shared/summaries";
 import type { FigureBase, PointStatus, SpecOptions, SubjectRef } from "./shared/types";
@@ -36,6 +36,12 @@ export interface SlopesByArmData extends FigureBase {
   slopes: ArmSlope[];
   /** The model's common slope, drawn through the mean of every subject. */
   common: { slope: number; ends: { x: number; y: number }[] };
+  /**
+   * GLM only: the vertical range shown, the middle 90% of the subjects' values widened to hold the
+   * lines (working residuals of a 0/1 or count endpoint reach far out and would flatten the lines);
+   * `outside` counts the subjects beyond it, which the subtitle states.
+   */
+  window?: { domain: [number, number]; outside: number };
   /** The test of this covariate's interaction with the treatment, as the rerun computed it. */
   test: { name: string; p: number } | null;
   rows: SlopeRow[];
@@ -67,13 +73,13 @@ function leastSquares(x: readonly number[], y: readonly number[]): { slope: numb
 export function slopesByArmSpec(d: SlopesByArmData, opts: SpecOptions = {}): TopLevelSpec {
   const width = opts.width ?? 560;
   const x = { field: "x", type: "quantitative", title: `${d.term} (${d.termUnit})`, scale: { zero: false } };
-  const yTitle = d.glm ? `Component plus working residual (${linkScale(d)})` : `Component plus residual (${d.responseUnit})`;
-  const y = { field: "partial", type: "quantitative", title: yTitle };
+  const yTitle = d.glm ? `Component + working residual (${linkUnit(d)})` : `Component plus residual (${d.responseUnit})`;
+  const y = { field: "partial", type: "quantitative", title: yTitle, ...(d.window ? { scale: { domain: d.window.domain, nice: false } } : {}) };
   const arms = d.arms;
   const colour = { field: "arm", type: "nominal", scale: { domain: arms, range: ARM_COLOURS.slice(0, arms.length) }, legend: { title: `Arm (${d.treatment})` } };
   const lines: Json[] = d.slopes.map((s) => ({
     data: { values: s.ends.map((e) => ({ ...e, arm: s.arm })) },
-    mark: { type: "line", strokeWidth: 2.2, strokeDash: ARM_DASHES[arms.indexOf(s.arm) % ARM_DASHES.length], ...NO_ARIA },
+    mark: { type: "line", strokeWidth: 2.8, strokeDash: ARM_DASHES[arms.indexOf(s.arm) % ARM_DASHES.length], ...NO_ARIA },
     encoding: { x: { field: "x", type: "quantitative" }, y: { field: "y", type: "quantitative" }, color: colour },
   }));
   const slopeWords = d.slopes.map((s) => `${s.arm} ${s.slope.toPrecision(3)}`).join(", ");
@@ -86,6 +92,7 @@ export function slopesByArmSpec(d: SlopesByArmData, opts: SpecOptions = {}): Top
       [
         `Lines: each arm's own least-squares slope (${slopeWords}); grey: the model's common slope ${d.common.slope.toPrecision(3)}.${d.glm ? ` On the link scale, ${linkScale(d)}.` : ""}`,
         d.test ? `${d.test.name}: p ${pText(d.test.p)}.` : `No test of ${d.treatment} × ${d.term} was computed.`,
+        ...(d.window ? [`The axis shows the middle 90% of the subjects; ${d.window.outside} beyond it are not drawn (the lines use every subject).`] : []),
         ...(d.note ? [d.note] : []),
       ],
       width,
@@ -93,7 +100,7 @@ export function slopesByArmSpec(d: SlopesByArmData, opts: SpecOptions = {}): Top
     ...dataOf(d.rows, opts),
     layer: [
       {
-        mark: { type: "point", filled: false, strokeWidth: 1, opacity: 0.55, size: 18, ...NO_ARIA },
+        mark: { type: "point", filled: false, strokeWidth: 1, opacity: 0.4, size: 16, ...NO_ARIA },
         encoding: {
           x,
           y,
@@ -117,6 +124,18 @@ export const slopesByArm = defineFigure<SlopesByArmData>({
   checks: ["homogeneity_of_slopes", "treatment_homogeneity_glm"],
   perTerm: "continuous",
   needsTable: true,
+  // the covariate whose slopes differ most between the arms (smallest p of its own test)
+  defaultTerm(source) {
+    const r = source.result;
+    const tests =
+      r.kind === "linear"
+        ? (r.tests.homogeneityOfSlopes?.byCovariate ?? []).map((c) => ({ term: c.covariate, p: c.p }))
+        : r.kind === "glm"
+          ? (r.checks.homogeneityOfTreatmentEffect?.byCovariate ?? []).map((c) => ({ term: c.term.replace(/^.* by /, ""), p: c.p }))
+          : [];
+    const ranked = tests.filter((t) => t.p !== null && Number.isFinite(t.p)).sort((a, c) => (a.p ?? 1) - (c.p ?? 1));
+    return ranked[0]?.term;
+  },
   data(source, opts) {
     const { r, b, statusOf } = subjectsOf(source, "slopes_by_arm", opts);
     const treatment = r.spec.treatment;
@@ -152,7 +171,19 @@ export const slopesByArm = defineFigure<SlopesByArmData>({
           ? { name: `Likelihood-ratio test of ${treatment} × ${t.name}`, p: glm.p }
           : null;
     const rows = ok.map((i) => ({ ...who(r, i, opts.withSubjectIds), arm: armOf[i], x: round(x[i]), partial: round(partial.values[i]), status: statusOf(i) }));
-    return { figure: "slopes_by_arm", ...b, treatment, term: t.name, termUnit: unitOf(t.name, opts), arms, slopes, common, test, rows };
+    let window: SlopesByArmData["window"];
+    if (r.kind === "glm") {
+      const sorted = ok.map((i) => partial.values[i]).sort((a, c) => a - c);
+      const q = (p: number) => sorted[Math.min(sorted.length - 1, Math.max(0, Math.round(p * (sorted.length - 1))))];
+      const ends = [...slopes.flatMap((s) => s.ends.map((e) => e.y)), ...common.ends.map((e) => e.y)];
+      const lo = Math.min(q(0.05), ...ends);
+      const hi = Math.max(q(0.95), ...ends);
+      const pad = (hi - lo) * 0.08 || 1;
+      const domain: [number, number] = [round(lo - pad), round(hi + pad)];
+      window = { domain, outside: ok.filter((i) => partial.values[i] < domain[0] || partial.values[i] > domain[1]).length };
+    }
+    const shown = window ? rows.filter((row) => row.partial >= window.domain[0] && row.partial <= window.domain[1]) : rows;
+    return { figure: "slopes_by_arm", ...b, treatment, term: t.name, termUnit: unitOf(t.name, opts), arms, slopes, common, test, rows: shown, ...(window ? { window } : {}) };
   },
   spec: slopesByArmSpec,
   words: {

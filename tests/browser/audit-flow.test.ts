@@ -171,8 +171,8 @@ describe("from plan to signature", { timeout: 90_000 }, () => {
           await frame.scrollIntoViewIfNeeded();
           await expect.poll(() => frame.getAttribute("data-state"), { timeout: 20_000 }).toBe("ready");
         }
-        expect(await fit.locator('[data-figure="binned_residuals"] [role="img"]').getAttribute("aria-label")).toMatch(/^Binned residuals\. Healthy: about 95% of bins inside the band.* \d+ of \d+ bins lie outside their band/);
-        expect(await fit.locator('[data-figure="calibration"] [role="img"]').getAttribute("aria-label")).toMatch(/Hosmer–Lemeshow χ² = [\d.]+ on 8 df/);
+        expect(await fit.locator('[data-figure="binned_residuals"] [role="img"]').getAttribute("aria-label")).toMatch(/^Do observed proportions follow the fitted probabilities\?\. Healthy: about 95% of bins inside the band.* \d+ of \d+ bins lie outside their band/);
+        expect(await fit.locator('[data-figure="calibration"] [role="img"]').getAttribute("aria-label")).toMatch(/Hosmer–Lemeshow statistic [\d.]+ on 8 degrees of freedom/);
         // the groups behind the calibration figure, as a table beside it
         expect(await fit.getByRole("table").locator("tbody tr").count()).toBe(10);
         const tip = await hoverForSubject(page, "binned_residuals");

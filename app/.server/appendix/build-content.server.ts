@@ -143,7 +143,12 @@ function appendixFigures(p: RerunPart): { figure: FigureKey; term?: string }[] {
   const ofChecks = [...new Set(p.doc.checks.map((c) => figureOfCheck(c)).filter((f): f is FigureKey => f !== null && !first.includes(f) && f !== "partial_residuals"))];
   return [
     ...first.map((figure) => ({ figure })),
-    ...ofChecks.flatMap((figure) => (figureModule(figure).perTerm === "continuous" ? (covariates[0] ? [{ figure, term: covariates[0] }] : []) : [{ figure }])),
+    ...ofChecks.flatMap((figure) => {
+      const m = figureModule(figure);
+      if (m.perTerm !== "continuous") return [{ figure }];
+      const term = m.defaultTerm?.(p.doc) ?? covariates[0];
+      return term ? [{ figure, term }] : [];
+    }),
     ...(r.spec.treatment && !ofChecks.includes("spread_by_arm") ? [{ figure: "spread_by_arm" as const }] : []),
     ...covariates.map((term) => ({ figure: "partial_residuals" as const, term })),
     ...(r.kind === "glm" && r.family === "binomial" ? [{ figure: "binned_residuals" as const }, { figure: "calibration" as const }] : []),

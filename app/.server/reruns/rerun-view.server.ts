@@ -100,8 +100,9 @@ export function rerunView(doc: RerunDocument, redact: Redaction) {
     continuousTerms,
     checks: doc.checks.map((c) => {
       const v = checkView(c, redact);
-      // a figure drawn per covariate is shown with the first continuous covariate
-      return { ...v, figureTerm: v.figure && figureModule(v.figure).perTerm === "continuous" ? continuousTerms[0] : undefined };
+      // a figure drawn per covariate is shown with the covariate its module picks, or the first continuous one
+      const m = v.figure ? figureModule(v.figure) : null;
+      return { ...v, figureTerm: m?.perTerm === "continuous" ? (m.defaultTerm?.(doc) ?? continuousTerms[0]) : undefined };
     }),
     engineVersion: doc.engineVersion,
     caution: doc.caution,

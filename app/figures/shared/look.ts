@@ -305,18 +305,28 @@ export function pText(p: number): string {
 }
 
 /**
- * Names beside the few most extreme points (field `label`, ranked by `labelRank` 1..3): right of
- * the point, or left of it in the last fifth of the axis, each rank at its own height so names of
- * neighbouring points do not overlap.
+ * Marks the few most extreme points with their rank (field `labelRank`), a short number that
+ * cannot run into its neighbours' names, beside the point: right of it, or left in the last fifth
+ * of the axis. The names go in the ranked list beside the plot (rankedList).
  */
-export function rankedLabels(x: Json, y: Json, n: number, ranks = 3): Json[] {
-  const dy = [-7, 9, -19, 21];
+export function rankMarks(x: Json, y: Json, n: number): Json[] {
   const cut = Math.round(n * 0.8);
-  return Array.from({ length: ranks }, (_, k) => k + 1).flatMap((rank) =>
-    (["left", "right"] as const).map((align) => ({
-      transform: [{ filter: `datum.labelRank == ${rank} && datum.order ${align === "left" ? "<=" : ">"} ${cut}` }],
-      mark: { type: "text", align, dx: align === "left" ? 7 : -7, dy: dy[rank - 1] ?? 0, fontSize: 10, color: PALETTE.finding, ...NO_ARIA },
-      encoding: { x, y, text: { field: "label", type: "nominal" } },
-    })),
-  );
+  return (["left", "right"] as const).map((align) => ({
+    transform: [{ filter: `datum.labelRank != null && datum.order ${align === "left" ? "<=" : ">"} ${cut}` }],
+    mark: { type: "text", align, dx: align === "left" ? 6 : -6, dy: -6, fontSize: 10, fontWeight: 600, color: PALETTE.finding, ...NO_ARIA },
+    encoding: { x, y, text: { field: "labelRank", type: "nominal" } },
+  }));
+}
+
+/**
+ * A ranked list drawn beside the plot, on its right (the plot narrows to make room, as Vega fits
+ * the whole figure to the frame): a heading of two lines, then "1. name (detail)" per entry.
+ */
+export function rankedList(heading: [string, string], entries: readonly string[], empty: string): Json {
+  const list = entries.length ? [...heading, ...entries.map((e, k) => `${k + 1}. ${e}`)] : [empty];
+  return {
+    data: { values: [{ list }] },
+    mark: { type: "text", align: "left", baseline: "top", x: { expr: "width + 14" }, y: 0, fontSize: 10, lineHeight: 14, color: PALETTE.ink, ...NO_ARIA },
+    encoding: { text: { field: "list", type: "nominal" } },
+  };
 }

@@ -26,6 +26,8 @@ export interface FigureModule<D extends { figure: FigureKey } = { figure: Figure
   informs?: readonly CheckKey[];
   /** "continuous": drawn per continuous covariate chosen with ?term=; "coefficient": per coefficient. */
   perTerm?: "continuous" | "coefficient";
+  /** The covariate a check's card shows when the figure is drawn per covariate (default: the first continuous one). */
+  defaultTerm?(source: FigureSource): string | undefined;
   /** Reads covariate values or arms from the rerun's rows (the locked dataset). */
   needsTable?: boolean;
   /** The figure's rows from a rerun; throws FigureUnavailableError (with a reason) when it cannot be drawn. */

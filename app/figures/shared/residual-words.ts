@@ -20,11 +20,17 @@ export function residualName(d: FigureBase): string {
   return d.glm ? "Randomized quantile residual" : d.weighted ? "Weighted residual" : "Residual";
 }
 
+const LINK_UNITS: Record<string, string> = { logit: "log odds", log: "log of the mean", probit: "probit of the probability", cloglog: "complementary log-log", identity: "response scale" };
+
+/** The link scale's unit, short enough for an axis: "log odds", "log of the mean". */
+export function linkUnit(d: FigureBase): string {
+  const link = d.glm?.link ?? "identity";
+  return LINK_UNITS[link] ?? link;
+}
+
 /** The link scale in words: "log odds (logit link)", "log of the mean (log link)". */
 export function linkScale(d: FigureBase): string {
-  const link = d.glm?.link ?? "identity";
-  const words: Record<string, string> = { logit: "log odds", log: "log of the mean", probit: "probit of the probability", cloglog: "complementary log-log", identity: "response scale" };
-  return `${words[link] ?? link} (${link} link)`;
+  return `${linkUnit(d)} (${d.glm?.link ?? "identity"} link)`;
 }
 
 /** The fitted value's axis: the mean (probability for a 0/1 endpoint) of a GLM, the response of a linear model. */

@@ -1,10 +1,10 @@
 /**
  * The look of a signed influence measure by subject (DFBETAS, DFFITS): each subject a point in data
  * order between the plan's ± bounds (dashed), the band between them lightly shaded, subjects beyond
- * a bound as open triangles and the most extreme of them named, staggered so names do not overlap.
+ * a bound as open triangles and the most extreme of them numbered and named in a list beside the plot.
  */
 import type { TopLevelSpec } from "vega-lite";
-import { rankedLabels, asSpec, dataOf, denseLine, frame, NO_ARIA, PALETTE, pointMark, SCHEMA, statusEncoding, title, tooltip, zeroRule, type Json } from "./look";
+import { rankedList, rankMarks, asSpec, dataOf, denseLine, frame, NO_ARIA, PALETTE, pointMark, SCHEMA, statusEncoding, title, tooltip, zeroRule, type Json } from "./look";
 import { BEYOND, WITHIN, type FigureBase, type PointStatus, type SpecOptions, type SubjectRef, type Threshold } from "./types";
 import type { ModelResult } from "~/engine";
 import { drawnIndices, denseSelection, LABELLED, labelOf, topBy, who, type FigureOptions } from "./source";
@@ -74,7 +74,7 @@ export function signedBySubjectSpec(d: SignedBySubject, question: string, health
       question,
       healthy,
       [
-        d.threshold ? `Dashed lines: the plan's bound ±${d.threshold.label}; shaded between them. Named: the most extreme subjects beyond it.` : "The check was not computed, so no bound is drawn.",
+        d.threshold ? `Dashed lines: the plan's bound ±${d.threshold.label}; shaded between them. Numbered: the most extreme subjects beyond it, named in the list beside the plot.` : "The check was not computed, so no bound is drawn.",
         ...(several ? [`One point per subject and coefficient: ${d.series.join(", ")}.`] : []),
         ...extra,
         ...denseLine(d, "only the subjects beyond a bound are drawn"),
@@ -99,7 +99,15 @@ export function signedBySubjectSpec(d: SignedBySubject, question: string, health
           ]),
         },
       },
-      ...rankedLabels(x, y, d.n),
+      ...rankMarks(x, y, d.n),
+      rankedList(
+        ["Most extreme", "beyond the bound:"],
+        d.rows
+          .filter((r) => r.labelRank != null)
+          .sort((a, b) => (a.labelRank ?? 0) - (b.labelRank ?? 0))
+          .map((r) => `${r.label} (${r.value.toFixed(3)})`),
+        "No subject beyond the bound.",
+      ),
     ],
   });
 }
