@@ -23,7 +23,8 @@ import { qq, type QqData } from "./qq";
 import { residualsCovariate, type ResidualsCovariateData } from "./residuals-covariate";
 import { residualsFitted, type ResidualsFittedData } from "./residuals-fitted";
 import type { FigureModule } from "./shared/module";
-import { FigureUnavailableError, type FigureOptions, type FigureSource } from "./shared/source";
+import { figureTerms, FigureUnavailableError, type FigureOptions, type FigureSource } from "./shared/source";
+import { coxFigureList } from "./cox/cox-figure-data";
 import type { SpecOptions } from "./shared/types";
 import { slopesByArm, type SlopesByArmData } from "./slopes-by-arm";
 import { spreadByArm, type SpreadByArmData } from "./spread-by-arm";
@@ -104,4 +105,30 @@ export function figureSpec(d: FigureData, opts: SpecOptions = {}): TopLevelSpec 
 /** True when the figure's rows are subjects (not bins, groups, curves or variables). */
 export function plotsSubjects(d: FigureData): d is SubjectFigureData | CoxSubjectFigureData {
   return !["binned_residuals", "calibration", "gvif", "kaplan_meier", "log_minus_log"].includes(d.figure);
+}
+
+/**
+ * The figures of a rerun in reading order, for the appendix and the sponsor report: the residual
+ * and influence views, each computed check's own figure (drawn for the covariate its module picks),
+ * the spread by arm, the partial residuals of each covariate, and a binomial model's fit figures.
+ */
+export function figureListOf(source: FigureSource): { figure: FigureKey; term?: string }[] {
+  const r = source.result;
+  if (r.kind === "cox") return coxFigureList(r);
+  const { continuous } = figureTerms(source);
+  const covariates = continuous.filter((c) => c !== r.spec.treatment);
+  const first: FigureKey[] = ["residuals_fitted", "qq", "influence", "leverage_residual"];
+  const ofChecks = [...new Set(source.checks.map((c) => figureOfCheck(c)).filter((f): f is FigureKey => f !== null && !first.includes(f) && f !== "partial_residuals"))];
+  return [
+    ...first.map((figure) => ({ figure })),
+    ...ofChecks.flatMap((figure) => {
+      const m = figureModule(figure);
+      if (m.perTerm !== "continuous") return [{ figure }];
+      const term = m.defaultTerm?.(source) ?? covariates[0];
+      return term ? [{ figure, term }] : [];
+    }),
+    ...(r.spec.treatment && !ofChecks.includes("spread_by_arm") ? [{ figure: "spread_by_arm" as const }] : []),
+    ...covariates.map((term) => ({ figure: "partial_residuals" as const, term })),
+    ...(r.kind === "glm" && r.family === "binomial" ? [{ figure: "binned_residuals" as const }, { figure: "calibration" as const }] : []),
+  ];
 }

@@ -180,6 +180,7 @@ describe("from plan to signature", { timeout: 90_000 }, () => {
         await page.mouse.move(0, 0);
         await fit.scrollIntoViewIfNeeded();
         await page.screenshot({ path: "test-results/screenshots/rerun-results-binomial-fit.png", clip: (await fit.boundingBox()) ?? undefined });
+        expect((await drawAllFigures(page)).every((s) => s === "ready")).toBe(true);
         await screenshot(page, "rerun-results-binomial");
       } else {
         expect(await fit.count()).toBe(0);
@@ -188,6 +189,8 @@ describe("from plan to signature", { timeout: 90_000 }, () => {
       if (key === "flares") {
         const card = page.locator("article", { has: page.getByRole("heading", { name: "Overdispersion", exact: true }) });
         expect(await card.getByText("Finding", { exact: true }).count()).toBe(1);
+        // every figure of the count model draws, each check with its own figure or none
+        expect((await drawAllFigures(page)).every((s) => s === "ready")).toBe(true);
         await screenshot(page, "rerun-results-counts");
       }
     }

@@ -128,6 +128,11 @@ describe("a sponsor reader is refused everything but reports", () => {
     expect(r.comparison.length).toBe(1 + signed.sensitivityIds.length);
     expect(r.signatures.map((s) => s.name)).toEqual(["Tomas Berg"]);
     expect(r.caution).toBe("Results support, but do not replace, qualified statistical and medical review.");
+    // the diagnostic figures, drawn on the server: each check's own figure, subjects by rank (the JSON above holds their SVG text)
+    const figures = (report as { figures: { key: string; svg: string | null; alt: string }[] }).figures;
+    expect(figures.map((f) => f.key)).toEqual(expect.arrayContaining(["residuals_fitted", "qq", "influence", "leverage_residual", "dfbetas"]));
+    expect(figures.every((f) => f.svg === null || f.svg.startsWith("<svg"))).toBe(true);
+    expect(figures.find((f) => f.key === "influence")?.svg).toMatch(/rank 1/);
   });
 
   it("a rationale that names a subject is shown with the id withheld", async () => {

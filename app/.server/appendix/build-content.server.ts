@@ -6,10 +6,9 @@
  */
 import { and, asc, eq, isNotNull } from "drizzle-orm";
 import { data } from "react-router";
-import { checksOfFigure, figureData, figureModule, figureOfCheck, figureSpec, type FigureData } from "~/figures/registry";
+import { checksOfFigure, figureData, figureListOf, figureModule, figureSpec, type FigureData } from "~/figures/registry";
 import { contrastWords, forestAlt, forestPoints, forestSpec, type ForestRow } from "~/figures/forest";
-import { figureTerms, FigureUnavailableError } from "~/figures/shared/source";
-import { coxFigureList } from "~/figures/cox/cox-figure-data";
+import { FigureUnavailableError } from "~/figures/shared/source";
 import { CHECK_BY_KEY, type CheckOutcome, type FigureKey } from "~/engine/checks";
 import { fmt, fmtCi, fmtP, utc } from "~/components/format";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
@@ -133,31 +132,9 @@ function narrativeBlock(section: NarrativeSection, n: Narrative | undefined): Bl
 
 const modelHeading = (p: RerunPart, many: boolean): Block[] => (many ? [{ kind: "heading", text: `${p.modelTitle} (${p.modelKey})` }] : []);
 
-/** The figures of a rerun in the appendix: the residual and influence views, each computed check's own figure, then the per-covariate and group figures. */
-function appendixFigures(p: RerunPart): { figure: FigureKey; term?: string }[] {
-  const r = p.doc.result;
-  if (r.kind === "cox") return coxFigureList(r);
-  const { continuous } = figureTerms(p.doc);
-  const covariates = continuous.filter((c) => c !== r.spec.treatment);
-  const first: FigureKey[] = ["residuals_fitted", "qq", "influence", "leverage_residual"];
-  const ofChecks = [...new Set(p.doc.checks.map((c) => figureOfCheck(c)).filter((f): f is FigureKey => f !== null && !first.includes(f) && f !== "partial_residuals"))];
-  return [
-    ...first.map((figure) => ({ figure })),
-    ...ofChecks.flatMap((figure) => {
-      const m = figureModule(figure);
-      if (m.perTerm !== "continuous") return [{ figure }];
-      const term = m.defaultTerm?.(p.doc) ?? covariates[0];
-      return term ? [{ figure, term }] : [];
-    }),
-    ...(r.spec.treatment && !ofChecks.includes("spread_by_arm") ? [{ figure: "spread_by_arm" as const }] : []),
-    ...covariates.map((term) => ({ figure: "partial_residuals" as const, term })),
-    ...(r.kind === "glm" && r.family === "binomial" ? [{ figure: "binned_residuals" as const }, { figure: "calibration" as const }] : []),
-  ];
-}
-
 function figureBlocks(p: RerunPart, next: ReturnType<typeof counter>): Block[] {
   const blocks: Block[] = [];
-  for (const w of appendixFigures(p)) {
+  for (const w of figureListOf(p.doc)) {
     const m = figureModule(w.figure);
     let d: FigureData;
     try {

@@ -13,6 +13,7 @@ import { deviationLog, findingsOf, signaturesOf } from "../reruns/findings.serve
 import { reportedContrasts, rerunView } from "../reruns/rerun-view.server";
 import { redactionFor } from "../redaction.server";
 import { getRerun, rerunDocumentOf, sensitivityReruns, type RerunDocument } from "../reruns/reruns.server";
+import { reportFigures } from "./report-figures.server";
 
 export interface ReportListing {
   id: string;
@@ -68,12 +69,14 @@ export async function getReport(studyId: string, rerunId: string) {
   if (!r.rerun.publishedAt || !r.doc) throw notFound();
   const doc = r.doc;
   const primaryId = r.rerun.parentRerunId ?? r.rerun.id;
-  const [findings, signatures, children, deviations, appendix] = await Promise.all([
+  const [findings, signatures, children, deviations, appendix, figures] = await Promise.all([
     findingsOf(primaryId),
     signaturesOf(primaryId),
     r.rerun.kind === "primary" ? sensitivityReruns(r.rerun.id) : Promise.resolve([]),
     deviationLog(studyId),
     latestAppendix(studyId, primaryId),
+    // the diagnostic figures, influential subjects by rank (the answer below is checked for ids as a whole)
+    reportFigures(r.rerun.id, r.rerun.resultSha256, doc, r.dataset.versionId, r.model.title),
   ]);
   const published = children.filter((c) => c.publishedAt && c.resultJson);
   // A report is for sponsor readers, whoever opens it: it never names a subject.
@@ -142,6 +145,7 @@ export async function getReport(studyId: string, rerunId: string) {
       .filter((d) => d.finding === null && d.rerun?.id === primaryId)
       .map((d) => ({ id: d.id, category: d.category, impact: d.impact, action: d.action, rationale: redact(d.rationale), by: d.recordedByName, at: d.recordedAt })),
     comparison,
+    figures,
     signatures: signatures.map((s) => ({ name: s.signerName, meaning: s.meaning, at: s.signedAt })),
     appendix,
     caution: doc.caution,
