@@ -133,7 +133,9 @@ export const slopesByArm = defineFigure<SlopesByArmData>({
         : r.kind === "glm"
           ? (r.checks.homogeneityOfTreatmentEffect?.byCovariate ?? []).map((c) => ({ term: c.term.replace(/^.* by /, ""), p: c.p }))
           : [];
-    const ranked = tests.filter((t) => t.p !== null && Number.isFinite(t.p)).sort((a, c) => (a.p ?? 1) - (c.p ?? 1));
+    // slopes are drawn for continuous covariates only
+    const continuous = new Set(r.kind === "cox" ? [] : r.variables.filter((v) => v.kind === "continuous").map((v) => v.name));
+    const ranked = tests.filter((t) => continuous.has(t.term) && t.p !== null && Number.isFinite(t.p)).sort((a, c) => (a.p ?? 1) - (c.p ?? 1));
     return ranked[0]?.term;
   },
   data(source, opts) {

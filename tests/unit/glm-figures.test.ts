@@ -41,6 +41,15 @@ describe("figures of a generalized linear model", () => {
       const spec = figureSpec(data, {});
       expect(() => compile(spec as Parameters<typeof compile>[0])).not.toThrow();
     }
+    // the slopes figure picks a continuous covariate (stratum is categorical)
+    const { figureModule } = await import("~/figures/registry");
+    expect(figureModule("slopes_by_arm").defaultTerm?.(doc)).toBe("age");
+    // each check's own figure draws for a count model too
+    for (const figure of ["dfbetas", "gvif", "slopes_by_arm"] as const) {
+      const data = figureData(doc, figure, { term: "age", withSubjectIds: false, table });
+      expect(data.rows.length).toBeGreaterThan(0);
+      expect(() => compile(figureSpec(data, {}) as Parameters<typeof compile>[0])).not.toThrow();
+    }
     const fitted = figureData(doc, "residuals_fitted", { withSubjectIds: false, table });
     if (doc.result.kind !== "glm" || fitted.figure !== "residuals_fitted") throw new Error("unexpected");
     expect(fitted.rows[0].residual).toBeCloseTo(doc.result.observations.quantileResidual[0], 5);
