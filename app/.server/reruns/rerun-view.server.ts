@@ -101,8 +101,11 @@ export function rerunView(doc: RerunDocument, redact: Redaction) {
     checks: doc.checks.map((c) => {
       const v = checkView(c, redact);
       // a figure drawn per covariate is shown with the covariate its module picks, or the first continuous one
+      // (none when the model has no continuous covariate: then the check has no figure)
       const m = v.figure ? figureModule(v.figure) : null;
-      return { ...v, figureTerm: m?.perTerm === "continuous" ? (m.defaultTerm?.(doc) ?? continuousTerms[0]) : undefined };
+      if (m?.perTerm !== "continuous") return { ...v, figureTerm: undefined };
+      const figureTerm = m.defaultTerm?.(doc) ?? continuousTerms.find((t) => t !== r.spec.offset && t !== r.spec.weights);
+      return { ...v, figure: figureTerm ? v.figure : null, figureTerm };
     }),
     engineVersion: doc.engineVersion,
     caution: doc.caution,
