@@ -80,7 +80,7 @@ export function qqSpec(d: QqData, opts: SpecOptions = {}): TopLevelSpec {
         mark: pointMark(),
         encoding: {
           x: { field: "theoretical", type: "quantitative", title: "Standard normal quantile (Blom positions)" },
-          y: { field: "sample", type: "quantitative", title: d.glm ? `${residual} (standard normal units)` : `${residual} (units of σ̂)` },
+          y: { field: "sample", type: "quantitative", title: d.glm ? `${residual} (z)` : `${residual} (units of σ̂)` },
           ...statusEncoding(d, false),
           tooltip: tooltip(d, [
             { field: "theoretical", title: "Normal quantile" },

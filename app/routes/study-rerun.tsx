@@ -449,6 +449,7 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
             {view.checks.map((c) => (
               <CheckCard key={c.key} check={c} figure={c.figure ? <RerunFigure studyId={studyId} rerunId={rerun.id} figure={c.figure} term={c.figureTerm} /> : undefined} />
             ))}
+{view.continuousTerms.length > 0 ? (
             <article className="panel p-4">
               <h3 className="mb-2 text-base font-semibold">Partial residuals</h3>
               <p className="mb-2 text-xs text-ink-soft">Linearity of each continuous covariate's effect: the points should follow the straight line without a bend.</p>
@@ -458,6 +459,7 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
                 ))}
               </div>
             </article>
+            ) : null}
           </section>
 
           {view.kind === "glm" && view.family === "binomial" ? (

@@ -121,11 +121,11 @@ describe("the checks' own figures (trial-ancova, R's lm)", () => {
 describe("residual figures of a binary GLM (glm-trial-responder)", () => {
   it("name the randomized quantile residual on every residual axis, and the link scale on the component-plus-residual plot", () => {
     const fitted = axisTitles(figureSpec(figureData(binary, "residuals_fitted", { withSubjectIds: false })));
-    expect(fitted).toContain("Randomized quantile residual (standard normal units)");
+    expect(fitted).toContain("Randomized quantile residual (z)");
     expect(fitted).toContain("Fitted probability of the event (0 to 1)");
     expect(fitted.join(" ")).not.toMatch(/− fitted/);
     const qq = figureSpec(figureData(binary, "qq", { withSubjectIds: false }));
-    expect(axisTitles(qq)).toContain("Randomized quantile residual (standard normal units)");
+    expect(axisTitles(qq)).toContain("Randomized quantile residual (z)");
     const partial = axisTitles(figureSpec(figureData(binary, "partial_residuals", { term: "base", withSubjectIds: false, table: binary.table })));
     expect(partial).toContain("Component + working residual (log odds)");
     const title = JSON.stringify(figureSpec(figureData(binary, "partial_residuals", { term: "base", withSubjectIds: false, table: binary.table })));

@@ -128,11 +128,17 @@ describe("a sponsor reader is refused everything but reports", () => {
     expect(r.comparison.length).toBe(1 + signed.sensitivityIds.length);
     expect(r.signatures.map((s) => s.name)).toEqual(["Tomas Berg"]);
     expect(r.caution).toBe("Results support, but do not replace, qualified statistical and medical review.");
-    // the diagnostic figures, drawn on the server: each check's own figure, subjects by rank (the JSON above holds their SVG text)
-    const figures = (report as { figures: { key: string; svg: string | null; alt: string }[] }).figures;
-    expect(figures.map((f) => f.key)).toEqual(expect.arrayContaining(["residuals_fitted", "qq", "influence", "leverage_residual", "dfbetas"]));
-    expect(figures.every((f) => f.svg === null || f.svg.startsWith("<svg"))).toBe(true);
-    expect(figures.find((f) => f.key === "influence")?.svg).toMatch(/rank 1/);
+    // the diagnostic figures, drawn on the server as pictures, each check's own figure among them
+    const figures = (report as { figures: { key: string; src: string | null; alt: string; width: number }[] }).figures;
+    expect(figures.map((f) => f.key)).toEqual(expect.arrayContaining(["residuals_fitted", "qq", "influence", "leverage_residual", "dfbetas", "gvif"]));
+    expect(figures.every((f) => f.src === null || (f.src.startsWith("data:image/png;base64,") && f.width > 500))).toBe(true);
+    // the pictures' text names subjects by rank: the same figure's SVG, drawn for the report's viewer
+    const { renderFigure } = await import("~/.server/appendix/figures.server");
+    const { figureData, figureSpec } = await import("~/figures/registry");
+    const doc = JSON.parse(stored);
+    const svg = (await renderFigure(figureSpec(figureData(doc, "influence", { withSubjectIds: false }), { width: 560, height: 230, forPrint: true }))).svg;
+    expect(svg).toMatch(/rank 1/);
+    expect(svg).not.toMatch(/QMT301-/);
   });
 
   it("a rationale that names a subject is shown with the id withheld", async () => {

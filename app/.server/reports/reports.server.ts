@@ -69,19 +69,19 @@ export async function getReport(studyId: string, rerunId: string) {
   if (!r.rerun.publishedAt || !r.doc) throw notFound();
   const doc = r.doc;
   const primaryId = r.rerun.parentRerunId ?? r.rerun.id;
-  const [findings, signatures, children, deviations, appendix, figures] = await Promise.all([
+  const [findings, signatures, children, deviations, appendix] = await Promise.all([
     findingsOf(primaryId),
     signaturesOf(primaryId),
     r.rerun.kind === "primary" ? sensitivityReruns(r.rerun.id) : Promise.resolve([]),
     deviationLog(studyId),
     latestAppendix(studyId, primaryId),
-    // the diagnostic figures, influential subjects by rank (the answer below is checked for ids as a whole)
-    reportFigures(r.rerun.id, r.rerun.resultSha256, doc, r.dataset.versionId, r.model.title),
   ]);
   const published = children.filter((c) => c.publishedAt && c.resultJson);
   // A report is for sponsor readers, whoever opens it: it never names a subject.
   const redaction = await redactionFor(false, [{ doc, datasetVersionId: r.dataset.versionId }, ...published.map((c) => ({ doc: rerunDocumentOf(c), datasetVersionId: c.datasetVersionId }))]);
   const redact = (s: string) => redaction.text(s);
+  // the diagnostic figures, influential subjects by rank (each figure's text checked for ids before it becomes a picture)
+  const figures = await reportFigures(r.rerun.id, r.rerun.resultSha256, doc, r.dataset.versionId, r.model.title, redaction);
   const view = rerunView(doc, redaction);
   const comparison = [
     { id: r.rerun.id, label: r.rerun.kind === "primary" ? "Primary analysis as planned" : redact(r.rerun.label ?? "Sensitivity analysis"), prespecified: true, primary: true, contrasts: reportedContrasts(doc) },

@@ -7,7 +7,7 @@ export interface ReportFigureData {
   key: string;
   caption: string;
   alt: string;
-  svg: string | null;
+  src: string | null;
   width: number;
   height: number;
   reason: string | null;
@@ -19,8 +19,8 @@ export function ReportFigures({ figures }: { figures: readonly ReportFigureData[
     <div className="grid gap-4 lg:grid-cols-2">
       {figures.map((f) => (
         <figure key={f.key} className="panel min-w-0 p-3" data-report-figure={f.key}>
-          {f.svg ? (
-            <img src={`data:image/svg+xml;charset=utf-8,${encodeURIComponent(f.svg)}`} alt={f.alt} width={f.width} height={f.height} className="h-auto w-full" loading="lazy" decoding="async" />
+          {f.src ? (
+            <img src={f.src} alt={f.alt} width={f.width} height={f.height} className="h-auto w-full" loading="lazy" decoding="async" />
           ) : (
             <p className="text-sm text-ink-soft">Not drawn: {f.reason}.</p>
           )}

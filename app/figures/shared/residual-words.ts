@@ -10,7 +10,8 @@ import type { FigureBase } from "./types";
 
 /** The residual of the residual plots (against fitted values, a covariate, or by arm), with its unit. */
 export function residualAxis(d: FigureBase): string {
-  if (d.glm) return "Randomized quantile residual (standard normal units)";
+  // "z": standard normal units; short, so the rotated title fits beside a 230-pixel plot
+  if (d.glm) return "Randomized quantile residual (z)";
   if (d.weighted) return `Weighted residual √w·(y − ŷ) (${d.responseUnit})`;
   return `Residual, ${d.response} − fitted (${d.responseUnit})`;
 }
