@@ -91,7 +91,7 @@ export function influenceSpec(d: InfluenceData, opts: SpecOptions = {}): TopLeve
         d.rows
           .filter((r) => r.labelRank != null)
           .sort((a, b) => (a.labelRank ?? 0) - (b.labelRank ?? 0))
-          .map((r) => `${r.label} (${r.cooks.toPrecision(3)})`),
+          .map((r) => (d.withSubjectIds ? `${r.label} (${r.cooks.toPrecision(3)})` : r.cooks.toPrecision(3))),
         "No subject beyond the threshold.",
       ),
     ],

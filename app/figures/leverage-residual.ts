@@ -142,7 +142,10 @@ export function leverageResidualSpec(d: LeverageResidualData, opts: SpecOptions 
         },
       },
       // the ranked list, beside the plot on the right (the plot narrows to make room)
-      rankedList(["Beyond a threshold,", "most influential first:"], d.ranked.map((r) => `${r.label} (${r.zone === "high leverage and large residual" ? "both" : r.zone})`), "No subject beyond a threshold."),
+      rankedList(["Beyond a threshold,", "most influential first:"], d.ranked.map((r) => {
+        const zone = r.zone === "high leverage and large residual" ? "both" : r.zone;
+        return d.withSubjectIds ? `${r.label} (${zone})` : zone;
+      }), "No subject beyond a threshold."),
     ],
   });
 }

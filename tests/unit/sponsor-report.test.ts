@@ -137,7 +137,7 @@ describe("a sponsor reader is refused everything but reports", () => {
     const { figureData, figureSpec } = await import("~/figures/registry");
     const doc = JSON.parse(stored);
     const svg = (await renderFigure(figureSpec(figureData(doc, "influence", { withSubjectIds: false }), { width: 560, height: 230, forPrint: true }))).svg;
-    expect(svg).toMatch(/rank 1/);
+    expect(svg).toMatch(/Most influential/);
     expect(svg).not.toMatch(/QMT301-/);
   });
 

@@ -9,7 +9,7 @@
 import { LRUCache } from "lru-cache";
 import { figureData, figureListOf, figureModule, figureSpec } from "~/figures/registry";
 import { FigureUnavailableError } from "~/figures/shared/source";
-import { PNG_SCALE, renderFigure } from "../appendix/figures.server";
+import { specToSvg, svgToPng } from "../appendix/figures.server";
 import { loadLockedTable } from "../datasets/catalog.server";
 import type { Redaction } from "../redaction.server";
 import type { RerunDocument } from "../reruns/reruns.server";
@@ -47,10 +47,12 @@ export async function reportFigures(rerunId: string, resultSha256: string | null
     const key = `${w.figure}${w.term ? `:${w.term}` : ""}`;
     try {
       const d = figureData(doc, w.figure, { term: w.term, withSubjectIds: false, table });
-      const picture = await renderFigure(figureSpec(d, { width: 560, height: 230, forPrint: true }));
-      redaction.assertClean(picture.svg, `The ${w.figure} figure of a report`);
+      const svg = await specToSvg(figureSpec(d, { width: 560, height: 230, forPrint: true }));
+      redaction.assertClean(svg, `The ${w.figure} figure of a report`);
+      // one pixel per CSS pixel: a report holds a dozen figures, and the page carries them inline
+      const picture = svgToPng(svg, 1);
       const alt = `${caption}: ${m.words.shows}, for ${doc.result.n} subjects. A healthy picture shows ${m.words.healthy}. ${m.marked(d)}`;
-      out.push({ key, caption, alt, src: `data:image/png;base64,${picture.png.toString("base64")}`, width: picture.width / PNG_SCALE, height: picture.height / PNG_SCALE, reason: null });
+      out.push({ key, caption, alt, src: `data:image/png;base64,${picture.png.toString("base64")}`, width: picture.width, height: picture.height, reason: null });
     } catch (e) {
       if (!(e instanceof FigureUnavailableError)) throw e;
       out.push({ key, caption, alt: caption, src: null, width: 0, height: 0, reason: e.message });

@@ -20,7 +20,7 @@ export function ReportFigures({ figures }: { figures: readonly ReportFigureData[
       {figures.map((f) => (
         <figure key={f.key} className="panel min-w-0 p-3" data-report-figure={f.key}>
           {f.src ? (
-            <img src={f.src} alt={f.alt} width={f.width} height={f.height} className="h-auto w-full" loading="lazy" decoding="async" />
+            <img src={f.src} alt={f.alt} width={f.width} height={f.height} className="h-auto w-full" />
           ) : (
             <p className="text-sm text-ink-soft">Not drawn: {f.reason}.</p>
           )}

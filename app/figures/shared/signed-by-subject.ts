@@ -54,6 +54,18 @@ export function signedRows(r: ModelResult, values: { series: string; values: rea
   );
 }
 
+/**
+ * The bound in words the figure fonts can draw: the shipped Noto Sans faces have no radical sign,
+ * so "2/√n = 0.0974" is written "0.0974 (2 over the square root of n)".
+ */
+function boundWords(t: Threshold): string {
+  const formula = t.label.replace(/\s*=.*$/, "");
+  const words = formula
+    .replace(/^(\S+?)·√\(([^)]*)\)$/, "$1 times the square root of $2")
+    .replace(/^(\S+?)\/√(\w+)$/, "$1 over the square root of $2");
+  return words.includes("√") ? String(t.value) : `${t.value} (${words})`;
+}
+
 export function signedBySubjectSpec(d: SignedBySubject, question: string, healthy: string, extra: string[], opts: SpecOptions = {}): TopLevelSpec {
   const width = opts.width ?? 560;
   const values = d.rows.map((r) => Math.abs(r.value)).filter(Number.isFinite);
@@ -74,7 +86,7 @@ export function signedBySubjectSpec(d: SignedBySubject, question: string, health
       question,
       healthy,
       [
-        d.threshold ? `Dashed lines: the plan's bound ±${d.threshold.label}; shaded between them. Numbered: the most extreme subjects beyond it, named in the list beside the plot.` : "The check was not computed, so no bound is drawn.",
+        d.threshold ? `Dashed lines: the plan's bound ±${boundWords(d.threshold)}; shaded between them. Numbered: the most extreme subjects beyond it, listed beside the plot.` : "The check was not computed, so no bound is drawn.",
         ...(several ? [`One point per subject and coefficient: ${d.series.join(", ")}.`] : []),
         ...extra,
         ...denseLine(d, "only the subjects beyond a bound are drawn"),
@@ -105,7 +117,7 @@ export function signedBySubjectSpec(d: SignedBySubject, question: string, health
         d.rows
           .filter((r) => r.labelRank != null)
           .sort((a, b) => (a.labelRank ?? 0) - (b.labelRank ?? 0))
-          .map((r) => `${r.label} (${r.value.toFixed(3)})`),
+          .map((r) => (d.withSubjectIds ? `${r.label} (${r.value.toFixed(3)})` : r.value.toFixed(3))),
         "No subject beyond the bound.",
       ),
     ],
