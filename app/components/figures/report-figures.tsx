@@ -1,7 +1,7 @@
 /**
  * The diagnostic figures of a sponsor report: pictures rendered on the server
  * (app/.server/reports/report-figures.server.ts), influential subjects by rank only, each with its
- * caption and alt text. Two a row on wide screens; each keeps its size while it loads.
+ * caption and alt text, one a row so their labels stay legible; each keeps its size while it loads.
  */
 export interface ReportFigureData {
   key: string;
@@ -16,7 +16,7 @@ export interface ReportFigureData {
 export function ReportFigures({ figures }: { figures: readonly ReportFigureData[] }) {
   if (figures.length === 0) return null;
   return (
-    <div className="grid gap-4 lg:grid-cols-2">
+    <div className="grid gap-4">
       {figures.map((f) => (
         <figure key={f.key} className="panel min-w-0 p-3" data-report-figure={f.key}>
           {f.src ? (
