@@ -26,7 +26,7 @@ try {
     if (name === "adeff10k") {
       try {
         if (!r.doc) throw new Error(`the rerun did not complete: ${r.rerun.failureReason}`);
-        const { figureData } = await import("../app/.server/reruns/figure-data.server");
+        const { figureData } = await import("../app/figures/registry");
         const { rerunTable } = await import("../app/.server/reruns/what-if.server");
         const { loadLockedTable } = await import("../app/.server/datasets/catalog.server");
         const table = rerunTable(r.doc, (await loadLockedTable(study.datasetVersionIds[name])).table);

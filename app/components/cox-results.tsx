@@ -74,7 +74,7 @@ export interface CoxView {
   /** The restricted-mean analysis only: each arm against the reference to τ. */
   restrictedMean: readonly RestrictedMeanRow[] | null;
   figures: { figure: FigureKey; term?: string }[];
-  checks: (CheckCardData & { figure: FigureKey })[];
+  checks: (CheckCardData & { figure: FigureKey | null })[];
 }
 
 /** The figure a Cox check is shown with: the first treatment coefficient's Schoenfeld plot for the PH check, the first covariate's martingale plot. */
@@ -95,7 +95,7 @@ export function coxPageFigures(
   view: CoxView,
 ): { figure: FigureKey; term?: string }[] {
   return [
-    ...view.checks.flatMap((c) => coxCheckFigure(view, c.figure) ?? []),
+    ...view.checks.flatMap((c) => (c.figure ? (coxCheckFigure(view, c.figure) ?? []) : [])),
     ...view.figures,
   ];
 }
@@ -342,7 +342,7 @@ export function CoxResults({
         <h2 id="checks-h">Checks of the plan</h2>
         <p className="text-sm text-ink-soft">{checkTally(view.checks)}</p>
         {view.checks.map((c) => {
-          const f = coxCheckFigure(view, c.figure);
+          const f = c.figure ? coxCheckFigure(view, c.figure) : null;
           return (
             <CheckCard
               key={c.key}

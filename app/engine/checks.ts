@@ -41,8 +41,8 @@ export interface CheckDefinition {
   /** Where the default comes from. */
   source: string;
   defaultRemedy: string;
-  /** The figure that supports the check on the results page. */
-  figure: FigureKey;
+  /** The figure that supports the check on the results page (its module in app/figures lists the check), or none. */
+  figure: FigureKey | null;
   needsTreatment?: boolean;
   /** Which models the check applies to ("both": linear and generalized linear). */
   models: "linear" | "glm" | "both" | "cox";
@@ -66,9 +66,13 @@ export type FigureKey =
   | "spread_by_arm"
   | "residuals_covariate"
   | "partial_residuals"
+  | "dfbetas"
+  | "dffits"
+  | "gvif"
+  | "slopes_by_arm"
   | "binned_residuals"
   | "calibration"
-  // time-to-event (Cox) figures: app/components/figures/cox/
+  // time-to-event (Cox) figures: app/figures/cox/
   | "schoenfeld"
   | "martingale_covariate"
   | "kaplan_meier"
@@ -114,7 +118,7 @@ export const CHECKS: readonly CheckDefinition[] = [
     defaultThreshold: 2,
     source: "2/√n (Belsley, Kuh and Welsch 1980)",
     defaultRemedy: "Sensitivity analysis excluding the flagged subjects",
-    figure: "influence",
+    figure: "dfbetas",
     needsTreatment: true,
   },
   {
@@ -125,7 +129,7 @@ export const CHECKS: readonly CheckDefinition[] = [
     defaultThreshold: 2,
     source: "2√(p/n) (Belsley, Kuh and Welsch 1980)",
     defaultRemedy: "Review the flagged subjects",
-    figure: "influence",
+    figure: "dffits",
   },
   {
     key: "shapiro_wilk",
@@ -166,7 +170,7 @@ export const CHECKS: readonly CheckDefinition[] = [
     defaultThreshold: 0.05,
     source: "Standard ANCOVA assumption check (e.g. EMA guideline on adjustment for baseline covariates, 2015)",
     defaultRemedy: "Report the interaction as a sensitivity analysis; the primary estimate stands as planned",
-    figure: "residuals_covariate",
+    figure: "slopes_by_arm",
     needsTreatment: true,
   },
   {
@@ -188,7 +192,7 @@ export const CHECKS: readonly CheckDefinition[] = [
     source:
       "√5, i.e. a variance inflation factor above 5 for a one-column term (Fox and Monette 1992 for the generalized form; per variable together with its interactions, so that an uncentred covariate in an interaction does not read as collinearity)",
     defaultRemedy: "Review the correlated covariates; the treatment estimate is usually unaffected",
-    figure: "residuals_covariate",
+    figure: "gvif",
     formula: {
       name: "Variance inflation, SE scale",
       symbol: "GVIF",
@@ -214,7 +218,7 @@ export const CHECKS: readonly CheckDefinition[] = [
     defaultThreshold: 10,
     source: "10 events per variable (Peduzzi et al. 1996)",
     defaultRemedy: "Report the estimates with caution; consider a reduced covariate set",
-    figure: "influence",
+    figure: null,
     models: "glm",
   },
   {
@@ -234,7 +238,7 @@ export const CHECKS: readonly CheckDefinition[] = [
     defaultThreshold: 0.05,
     source: "Likelihood-ratio test of the interactions (standard practice for covariate-adjusted GLMs)",
     defaultRemedy: "Report the interaction as a sensitivity analysis; the primary estimate stands as planned",
-    figure: "residuals_covariate",
+    figure: "slopes_by_arm",
     needsTreatment: true,
     models: "glm",
   },
@@ -294,7 +298,7 @@ export interface CheckOutcome {
   threshold: string;
   summary: string;
   remedy: string;
-  figure: FigureKey;
+  figure: FigureKey | null;
   flagged?: FlaggedObservation[];
   value?: number | null;
   /** The numbers behind `statistic` and `threshold`, absent in results stored before they were recorded. */

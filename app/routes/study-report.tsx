@@ -10,6 +10,7 @@ import { AdjustedMeansTable, CheckFormulaNote, checkTally, CoefficientTable, Con
 import { ReproductionCard } from "~/components/reproduction-results";
 import { StatusLabel } from "~/components/status";
 import { getReport } from "~/.server/reports/reports.server";
+import { ReportFigures } from "~/components/figures/report-figures";
 import { requireStudy } from "~/.server/study-access.server";
 
 export function meta({ loaderData }: Route.MetaArgs) {
@@ -186,6 +187,14 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
           </div>
           {reproduction ? <ReproductionCard check={reproduction} /> : null}
         </section>
+
+        {loaderData.figures.length > 0 ? (
+          <section className="space-y-3" aria-labelledby="figures-h">
+            <h2 id="figures-h">Diagnostic figures</h2>
+            <p className="text-sm text-ink-soft">Influential subjects are shown by rank, never by identifier.</p>
+            <ReportFigures figures={loaderData.figures} />
+          </section>
+        ) : null}
 
         <section className="space-y-3" aria-labelledby="findings-h">
           <h2 id="findings-h">Findings and their assessment</h2>

@@ -9,11 +9,10 @@
 import { z } from "zod";
 import type { Route } from "./+types/study-rerun-figures";
 import { CAUTION } from "~/components/caution";
-import { FIGURE_KEYS } from "~/components/figures/specs";
+import { FIGURE_KEYS, figureModule } from "~/figures/registry";
+import { FigureUnavailableError } from "~/figures/shared/source";
 import { loadLockedTable } from "~/.server/datasets/catalog.server";
 import { figureAnswer } from "~/.server/reruns/figure-answers.server";
-import { FigureUnavailableError } from "~/.server/reruns/figure-data.server";
-import { COX_NEEDS_TABLE } from "~/.server/reruns/cox-figure-data.server";
 import { getRerun } from "~/.server/reruns/reruns.server";
 import { rerunTable } from "~/.server/reruns/what-if.server";
 import { seesSubjects } from "~/.server/permissions.server";
@@ -21,8 +20,6 @@ import { requireStudy } from "~/.server/study-access.server";
 import type { FigureKey } from "~/engine/checks";
 
 const figureSchema = z.enum(FIGURE_KEYS as [FigureKey, ...FigureKey[]]);
-/** Figures that plot covariate values or arms. */
-const NEEDS_TABLE: readonly FigureKey[] = ["residuals_covariate", "partial_residuals", "spread_by_arm", ...COX_NEEDS_TABLE];
 
 const headers = { "Cache-Control": "private, no-store" };
 
@@ -38,7 +35,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const { rerun, doc } = await getRerun(params.studyId, params.rerunId);
   if (!doc) return refuse(409, rerun.status === "failed" ? `This rerun failed (${rerun.failureReason ?? "no reason recorded"}); it has no figures.` : "This rerun has not finished yet; its figures appear when it completes.");
   // figures that plot covariate values or arms read the rerun's rows from the locked dataset
-  const table = async () => (NEEDS_TABLE.includes(figure.data) ? rerunTable(doc, (await loadLockedTable(rerun.datasetVersionId)).table) : undefined);
+  const table = async () => (figureModule(figure.data).needsTable ? rerunTable(doc, (await loadLockedTable(rerun.datasetVersionId)).table) : undefined);
   try {
     // who each point is, only for people who may see subjects (the one decision, permissions.server.ts)
     const body = await figureAnswer({ rerunId: rerun.id, resultSha256: rerun.resultSha256, figure: figure.data, term, withSubjectIds: seesSubjects(access) }, doc, table);

@@ -6,7 +6,7 @@ import { CAUTION, Caution } from "~/components/caution";
 import { figureUrl, RerunFigure } from "~/components/figures/rerun-figure";
 import { FigureFramesReady, FigureWorkerStart } from "~/components/figures/figure-worker-start";
 import { SensitivityForest, type ForestRow } from "~/components/figures/sensitivity-forest";
-import { forestSpec } from "~/components/figures/specs";
+import { forestSpec } from "~/figures/forest";
 import { toVega } from "~/.server/figures/compile.server";
 import { WhatIfPanel, type WhatIfInputs } from "~/components/figures/what-if-panel";
 import { utc } from "~/components/format";
@@ -277,16 +277,12 @@ function AssessmentForm({ intent, findingId, errors, busy }: { intent: "assess" 
 }
 
 type AnyView = NonNullable<Route.ComponentProps["loaderData"]["view"]>;
-type PageView = Exclude<AnyView, { kind: "cox" }>;
-
-/** The covariate a check's figure is drawn for, when the figure is by covariate. */
-const checkTerm = (view: PageView, figure: FigureKey) => (figure === "residuals_covariate" || figure === "partial_residuals" ? view.continuousTerms[0] : undefined);
 
 /** The results page's figure addresses in page order (keep in step with the figures below), for the figure worker to fetch early. */
 function pageFigureUrls(view: AnyView, studyId: string, rerunId: string): string[] {
   if (view.kind === "cox") return [...new Set(coxPageFigures(view).map((f) => figureUrl(studyId, rerunId, f.figure, f.term)))];
   const figures: { figure: FigureKey; term?: string }[] = [
-    ...view.checks.map((c) => ({ figure: c.figure, term: checkTerm(view, c.figure) })),
+    ...view.checks.flatMap((c) => (c.figure ? [{ figure: c.figure, term: c.figureTerm }] : [])),
     ...view.continuousTerms.map((term) => ({ figure: "partial_residuals" as const, term })),
     ...(view.kind === "glm" && view.family === "binomial" ? [{ figure: "binned_residuals" as const }, { figure: "calibration" as const }] : []),
   ];
@@ -453,8 +449,9 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
             </p>
             {view.reproduction ? <ReproductionCard check={view.reproduction} /> : null}
             {view.checks.map((c) => (
-              <CheckCard key={c.key} check={c} figure={<RerunFigure studyId={studyId} rerunId={rerun.id} figure={c.figure} term={checkTerm(view, c.figure)} />} />
+              <CheckCard key={c.key} check={c} figure={c.figure ? <RerunFigure studyId={studyId} rerunId={rerun.id} figure={c.figure} term={c.figureTerm} /> : undefined} />
             ))}
+{view.continuousTerms.length > 0 ? (
             <article className="panel p-4">
               <h3 className="mb-2 text-base font-semibold">Partial residuals</h3>
               <p className="mb-2 text-xs text-ink-soft">Linearity of each continuous covariate's effect: the points should follow the straight line without a bend.</p>
@@ -464,6 +461,7 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
                 ))}
               </div>
             </article>
+            ) : null}
           </section>
 
           {view.kind === "glm" && view.family === "binomial" ? (

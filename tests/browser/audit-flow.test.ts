@@ -171,8 +171,8 @@ describe("from plan to signature", { timeout: 90_000 }, () => {
           await frame.scrollIntoViewIfNeeded();
           await expect.poll(() => frame.getAttribute("data-state"), { timeout: 20_000 }).toBe("ready");
         }
-        expect(await fit.locator('[data-figure="binned_residuals"] [role="img"]').getAttribute("aria-label")).toMatch(/^Binned residuals\. Healthy: about 95% of bins inside the band.* \d+ of \d+ bins lie outside their band/);
-        expect(await fit.locator('[data-figure="calibration"] [role="img"]').getAttribute("aria-label")).toMatch(/Hosmer–Lemeshow χ² = [\d.]+ on 8 df/);
+        expect(await fit.locator('[data-figure="binned_residuals"] [role="img"]').getAttribute("aria-label")).toMatch(/^Do observed proportions follow the fitted probabilities\?\. Healthy: about 95% of bins inside the band.* \d+ of \d+ bins lie outside their band/);
+        expect(await fit.locator('[data-figure="calibration"] [role="img"]').getAttribute("aria-label")).toMatch(/Hosmer–Lemeshow statistic [\d.]+ on 8 degrees of freedom/);
         // the groups behind the calibration figure, as a table beside it
         expect(await fit.getByRole("table").locator("tbody tr").count()).toBe(10);
         const tip = await hoverForSubject(page, "binned_residuals");
@@ -180,6 +180,7 @@ describe("from plan to signature", { timeout: 90_000 }, () => {
         await page.mouse.move(0, 0);
         await fit.scrollIntoViewIfNeeded();
         await page.screenshot({ path: "test-results/screenshots/rerun-results-binomial-fit.png", clip: (await fit.boundingBox()) ?? undefined });
+        expect((await drawAllFigures(page)).every((s) => s === "ready")).toBe(true);
         await screenshot(page, "rerun-results-binomial");
       } else {
         expect(await fit.count()).toBe(0);
@@ -188,7 +189,11 @@ describe("from plan to signature", { timeout: 90_000 }, () => {
       if (key === "flares") {
         const card = page.locator("article", { has: page.getByRole("heading", { name: "Overdispersion", exact: true }) });
         expect(await card.getByText("Finding", { exact: true }).count()).toBe(1);
+        // every figure of the count model draws, each check with its own figure or none
+        await drawAllFigures(page);
         await screenshot(page, "rerun-results-counts");
+        const notDrawn = await page.locator("[data-figure]").evaluateAll((els) => els.filter((el) => (el as HTMLElement).dataset.state !== "ready").map((el) => `${(el as HTMLElement).dataset.figure}: ${el.textContent}`));
+        expect(notDrawn).toEqual([]);
       }
     }
     await page.context().close();

@@ -6,7 +6,7 @@
 import { Resvg } from "@resvg/resvg-js";
 import { describe, expect, it } from "vitest";
 import { resvgOptions, specToSvg, svgToPng } from "~/.server/appendix/figures.server";
-import { forestSpec } from "~/components/figures/specs";
+import { forestSpec } from "~/figures/forest";
 
 /** Dark pixels (ink) in the top `rows` rows of an RGBA image on a light background. */
 function inkInTopRows(svg: string, rows: number, withFonts: boolean): number {
@@ -37,7 +37,7 @@ describe("server-rendered figures", () => {
     const svg = await specToSvg(spec);
     const texts = svg.match(/<text\b/g) ?? [];
     expect(texts.length).toBeGreaterThan(10);
-    expect(svg).toContain("Treatment contrast across analyses");
+    expect(svg).toContain("Does the treatment conclusion hold in every analysis?");
     expect(svg).toMatch(/font-family="Noto Sans"/);
   });
 

@@ -273,7 +273,7 @@ describe("the Word appendix of a signed rerun", () => {
     const fitFigures = figures.filter((f) => /^(Binned residuals|Calibration by group of predicted risk),/.test(f.caption));
     expect(fitFigures.map((f) => f.caption)).toEqual(["Binned residuals, Responders at week 12", "Calibration by group of predicted risk, Responders at week 12"]);
     expect(fitFigures[0].alt).toMatch(/\d+ of \d+ bins lie outside their band/);
-    expect(fitFigures[1].alt).toMatch(/Hosmer–Lemeshow χ² = [\d.]+ on 8 df, p [=<] /);
+    expect(fitFigures[1].alt).toMatch(/Hosmer–Lemeshow statistic [\d.]+ on 8 degrees of freedom, p [=<] /);
     const pictures = [...xml.matchAll(/<wp:docPr ([^>]*)\/?>/g)];
     expect(pictures).toHaveLength(figures.length);
   }, 120_000);

@@ -20,12 +20,14 @@ const { seedDemoStudy } = await import("~/.server/demo/seed.server");
 const { demoDatasetCsv } = await import("~/.server/demo/demo-dataset");
 const { loadLockedTable, listLockedVersions } = await import("~/.server/datasets/catalog.server");
 const { computeRerun } = await import("~/.server/reruns/reruns.server");
-const { figureData, FigureUnavailableError } = await import("~/.server/reruns/figure-data.server");
+const { figureData } = await import("~/figures/registry");
+const { FigureUnavailableError } = await import("~/figures/shared/source");
 const { rerunTable } = await import("~/.server/reruns/what-if.server");
-const { figureSpec, FIGURE_KEYS, INSIDE_BAND, OUTSIDE_BAND } = await import("~/components/figures/specs");
+const { figureSpec, FIGURE_KEYS } = await import("~/figures/registry");
+const { INSIDE_BAND, OUTSIDE_BAND } = await import("~/figures/shared/types");
 const { defaultChecks } = await import("~/engine/checks");
-type BinnedResidualsData = import("~/components/figures/specs").BinnedResidualsData;
-type CalibrationData = import("~/components/figures/specs").CalibrationData;
+type BinnedResidualsData = import("~/figures/binned-residuals").BinnedResidualsData;
+type CalibrationData = import("~/figures/calibration").CalibrationData;
 
 const seeded = await seedDemoStudy();
 if (!seeded.seeded) throw new Error(seeded.reason);
@@ -105,7 +107,7 @@ function fromR(): FromR {
 }
 
 /**
- * The rows keep six significant digits (figure-data.server.ts, round): half a unit in the sixth
+ * The rows keep six significant digits (app/figures/shared/summaries.ts, round): half a unit in the sixth
  * digit, plus 1e-9 for the two fits' convergence.
  */
 function expectSix(actual: number, expected: number, what: string): void {
@@ -161,7 +163,7 @@ describe("fit figures of a binomial rerun", () => {
     expect(calibration.test.statistic!).toBeCloseTo(R.hl.statistic, 6);
     expect(calibration.test.p!).toBeCloseTo(R.hl.p, 6);
     const subtitle = titleOf(figureSpec(calibration)).subtitle.join(" ");
-    expect(subtitle).toContain(`Hosmer–Lemeshow χ² = ${R.hl.statistic.toFixed(2)} on ${R.hl.df} df`);
+    expect(subtitle).toContain(`Hosmer–Lemeshow statistic ${R.hl.statistic.toFixed(2)} on ${R.hl.df} degrees of freedom`);
     expect(subtitle).toContain("little power in small samples");
   });
 

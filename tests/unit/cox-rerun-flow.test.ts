@@ -23,13 +23,14 @@ const { comparePlanVersions } = await import("~/.server/plans/plan-diff");
 const { listLockedVersions } = await import("~/.server/datasets/catalog.server");
 const datasets = await import("~/.server/datasets/datasets.server");
 const reruns = await import("~/.server/reruns/reruns.server");
-const { figureData } = await import("~/.server/reruns/figure-data.server");
+const { figureData } = await import("~/figures/registry");
 const { rerunView, reportedContrasts } = await import("~/.server/reruns/rerun-view.server");
 const { redaction } = await import("~/.server/redaction.server");
 const { rerunTable } = await import("~/.server/reruns/what-if.server");
 const { loadLockedTable } = await import("~/.server/datasets/catalog.server");
-const { coxFigureList } = await import("~/.server/reruns/cox-figure-data.server");
-const { figureSpec, forestSpec } = await import("~/components/figures/specs");
+const { coxFigureList } = await import("~/figures/cox/cox-figure-data");
+const { figureSpec } = await import("~/figures/registry");
+const { forestSpec } = await import("~/figures/forest");
 const { toVega } = await import("~/.server/figures/compile.server");
 const findings = await import("~/.server/reruns/findings.server");
 const { buildAppendixContent } = await import("~/.server/appendix/build-content.server");
@@ -398,7 +399,7 @@ describe("the Cox model's planned sensitivity analyses", () => {
     expectClose(contrasts[1][0].estimate, S.unstratified.ratio, TOL, "compared hazard ratio of the unstratified analysis");
     const spec = JSON.stringify(forestSpec(contrasts.map((c, i) => ({ label: children[i].label ?? "", estimate: c[0].estimate, lower: c[0].lower, upper: c[0].upper, prespecified: true, primary: false })), contrasts[0][0].label));
     expect(spec).toMatch(/"type":"log"/);
-    expect(spec).toMatch(/same side of one/);
+    expect(spec).toMatch(/same side of 1/);
   });
 
   it("restricted mean survival time to τ: each arm's area and SE of R's survfit rmean, compared as a difference", async () => {

@@ -7,22 +7,17 @@ import { execFileSync, spawnSync } from "node:child_process";
 import { describe, expect, it } from "vitest";
 import { compile } from "vega-lite";
 import { generateDemoDataset } from "~/.server/demo/demo-dataset";
-import { figureData } from "~/.server/reruns/figure-data.server";
-import { axisBins, boxSummaries, densityCells, qqKept } from "~/.server/reruns/figure-summaries.server";
+import { axisBins, boxSummaries, densityCells, qqKept } from "~/figures/shared/summaries";
 import type { RerunDocument } from "~/.server/reruns/reruns.server";
 import { rerunTable } from "~/.server/reruns/what-if.server";
-import {
-  BEYOND,
-  DENSE_FROM,
-  DENSE_POINTS,
-  figureSpec,
-  type InfluenceData,
-  type LeverageResidualData,
-  type PartialResidualsData,
-  type QqData,
-  type ResidualsFittedData,
-  type SpreadByArmData,
-} from "~/components/figures/specs";
+import { figureData, figureSpec } from "~/figures/registry";
+import { BEYOND, DENSE_FROM, DENSE_POINTS } from "~/figures/shared/types";
+import type { InfluenceData } from "~/figures/cooks-distance";
+import type { LeverageResidualData } from "~/figures/leverage-residual";
+import type { PartialResidualsData } from "~/figures/partial-residuals";
+import type { QqData } from "~/figures/qq";
+import type { ResidualsFittedData } from "~/figures/residuals-fitted";
+import type { SpreadByArmData } from "~/figures/spread-by-arm";
 import { fitLinear } from "~/engine";
 import { defaultChecks, evaluateChecks } from "~/engine/checks";
 

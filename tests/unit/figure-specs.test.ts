@@ -6,10 +6,13 @@ import { describe, expect, it } from "vitest";
 import { expectWellFormedFigure, titleOf } from "../support/figure-checks";
 import { compile, type TopLevelSpec } from "vega-lite";
 import { generateDemoDataset } from "~/.server/demo/demo-dataset";
-import { blomQuantiles, figureData, FigureUnavailableError } from "~/.server/reruns/figure-data.server";
+import { blomQuantiles, FigureUnavailableError } from "~/figures/shared/source";
 import type { RerunDocument } from "~/.server/reruns/reruns.server";
 import { rerunTable } from "~/.server/reruns/what-if.server";
-import { figureSpec, forestPoints, forestSpec, plotsSubjects, rewrapTitle, type FigureData, type QqData } from "~/components/figures/specs";
+import { figureData, figureSpec, plotsSubjects, type FigureData } from "~/figures/registry";
+import { forestPoints, forestSpec } from "~/figures/forest";
+import { rewrapTitle } from "~/figures/shared/look";
+import type { QqData } from "~/figures/qq";
 import { fitLinear } from "~/engine";
 import { defaultChecks, evaluateChecks, type FigureKey } from "~/engine/checks";
 

@@ -14,7 +14,7 @@ const { seedDemoStudy } = await import("~/.server/demo/seed.server");
 const { generateDemoDataset } = await import("~/.server/demo/demo-dataset");
 const { loadLockedTable, listLockedVersions } = await import("~/.server/datasets/catalog.server");
 const { computeRerun } = await import("~/.server/reruns/reruns.server");
-const { figureData } = await import("~/.server/reruns/figure-data.server");
+const { figureData } = await import("~/figures/registry");
 const { rerunTable } = await import("~/.server/reruns/what-if.server");
 const { defaultChecks } = await import("~/engine/checks");
 

@@ -10,9 +10,9 @@ useTempDatabase();
 const { seedDemoStudy } = await import("~/.server/demo/seed.server");
 const { loadLockedTable, listLockedVersions } = await import("~/.server/datasets/catalog.server");
 const { computeRerun } = await import("~/.server/reruns/reruns.server");
-const { figureData } = await import("~/.server/reruns/figure-data.server");
+const { figureData } = await import("~/figures/registry");
 const { rerunTable } = await import("~/.server/reruns/what-if.server");
-const { figureSpec } = await import("~/components/figures/specs");
+const { figureSpec } = await import("~/figures/registry");
 const { defaultChecks } = await import("~/engine/checks");
 
 describe("figures of a generalized linear model", () => {
@@ -40,6 +40,15 @@ describe("figures of a generalized linear model", () => {
       expect(data.rows.length).toBe(doc.result.n);
       const spec = figureSpec(data, {});
       expect(() => compile(spec as Parameters<typeof compile>[0])).not.toThrow();
+    }
+    // the slopes figure picks a continuous covariate (stratum is categorical)
+    const { figureModule } = await import("~/figures/registry");
+    expect(figureModule("slopes_by_arm").defaultTerm?.(doc)).toBe("age");
+    // each check's own figure draws for a count model too
+    for (const figure of ["dfbetas", "gvif", "slopes_by_arm"] as const) {
+      const data = figureData(doc, figure, { term: "age", withSubjectIds: false, table });
+      expect(data.rows.length).toBeGreaterThan(0);
+      expect(() => compile(figureSpec(data, {}) as Parameters<typeof compile>[0])).not.toThrow();
     }
     const fitted = figureData(doc, "residuals_fitted", { withSubjectIds: false, table });
     if (doc.result.kind !== "glm" || fitted.figure !== "residuals_fitted") throw new Error("unexpected");

@@ -133,6 +133,17 @@ describe("a sponsor reader is refused everything but reports", () => {
     expect([results.kind, results.statisticName]).toEqual(["linear", "t"]);
     expect(results.fitStatistics?.[0]).toMatchObject({ label: "Distribution and link", value: expect.stringMatching(/^Normal \(identity link\)/) });
     expect(results.coefficients.map((c) => c.name).filter((n) => n.includes("="))).toEqual([]);
+    // the diagnostic figures, drawn on the server as pictures, each check's own figure among them
+    const figures = (report as { figures: { key: string; src: string | null; alt: string; width: number }[] }).figures;
+    expect(figures.map((f) => f.key)).toEqual(expect.arrayContaining(["residuals_fitted", "qq", "influence", "leverage_residual", "dfbetas", "gvif"]));
+    expect(figures.every((f) => f.src === null || (f.src.startsWith("data:image/png;base64,") && f.width > 500))).toBe(true);
+    // the pictures' text names subjects by rank: the same figure's SVG, drawn for the report's viewer
+    const { renderFigure } = await import("~/.server/appendix/figures.server");
+    const { figureData, figureSpec } = await import("~/figures/registry");
+    const doc = JSON.parse(stored);
+    const svg = (await renderFigure(figureSpec(figureData(doc, "influence", { withSubjectIds: false }), { width: 560, height: 230, forPrint: true }))).svg;
+    expect(svg).toMatch(/Most influential/);
+    expect(svg).not.toMatch(/QMT301-/);
   });
 
   it("a rationale that names a subject is shown with the id withheld", async () => {

@@ -6,8 +6,10 @@
  */
 import { and, asc, eq, isNotNull } from "drizzle-orm";
 import { data } from "react-router";
-import { BEYOND, figureSpec, forestSpec, OUTSIDE_BAND, plotsSubjects, type FigureData, type ForestRow } from "~/components/figures/specs";
-import { CHECK_BY_KEY, summaryAfterLabel, type CheckOutcome, type FigureKey } from "~/engine/checks";
+import { checksOfFigure, figureData, figureListOf, figureModule, figureSpec, type FigureData } from "~/figures/registry";
+import { contrastWords, forestAlt, forestPoints, forestSpec, type ForestRow } from "~/figures/forest";
+import { FigureUnavailableError } from "~/figures/shared/source";
+import { CHECK_BY_KEY, summaryAfterLabel, type CheckOutcome } from "~/engine/checks";
 import { fmt, fmtCi, fmtP, utc } from "~/components/format";
 import { fitFactsOf, fitStatisticRows } from "~/components/fit-statistics";
 import { familyWithLink } from "~/engine/family-names";
@@ -15,7 +17,6 @@ import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { loadLockedTable, type ColumnMeta } from "../datasets/catalog.server";
 import { db, t } from "../db/index.server";
 import { getPlannedModel, getPlanVersion } from "../plans/plans.server";
-import { figureData, figureTerms, FigureUnavailableError } from "../reruns/figure-data.server";
 import { findingsOf, deviationLog, signaturesOf } from "../reruns/findings.server";
 import { contrastsOf, reportedContrasts } from "../reruns/rerun-view.server";
 import { getRerun, sensitivityReruns, type RerunDocument } from "../reruns/reruns.server";
@@ -24,8 +25,7 @@ import { getStudyOr404 } from "../studies.server";
 import { NARRATIVE_SECTIONS, SECTION_TITLES, type AppendixContent, type AppendixSection, type Block, type NarrativeSection } from "~/components/appendix-content";
 import { redaction, type Redaction } from "../redaction.server";
 import { methodsProse } from "./methods";
-import { COX_FIGURE_WORDS, coxResultBlocks, coxMarkedInWords } from "./cox-content";
-import { coxFigureList } from "../reruns/cox-figure-data.server";
+import { coxResultBlocks } from "./cox-content";
 import { currentNarratives, type Narrative } from "./narratives.server";
 import { REPRODUCTION_FINDING_LABEL, reproductionBlocks, reproductionCheckRows } from "./reproduction-content";
 
@@ -42,46 +42,6 @@ export function outcomeInWords(c: CheckOutcome, n: number, redact: Redaction): s
   const count = c.flagged?.length ?? 0;
   if (c.flagged) return c.outcome === "finding" ? `Finding: ${count} of ${n} subjects beyond the threshold` : "Within plan: no subject beyond the threshold";
   return `${OUTCOME_WORDS[c.outcome]}: ${redact.countOnly(c.summary).replace(/\.$/, "").replace(/^The test/, "the test")}`;
-}
-
-/** What each figure shows, for its caption and its alt text. */
-const FIGURE_WORDS: Record<FigureKey, { caption: string; shows: string; healthy: string; checks: string[] }> = {
-  residuals_fitted: { caption: "Residuals against fitted values", shows: "a scatter plot of each subject's residual against the fitted value, with a loess smoother and a dashed line at zero", healthy: "an even band around zero with a flat smoother, no funnel and no curve", checks: ["breusch_pagan"] },
-  qq: { caption: "Normal Q-Q plot of the studentized residuals", shows: "the sorted studentized residuals plotted against normal quantiles, with a reference line through the quartiles", healthy: "points close to the line, without an S-shape or bent tails", checks: ["shapiro_wilk"] },
-  influence: { caption: "Cook's distance by subject", shows: "each subject's Cook's distance in data order, with the planned threshold as a dashed line", healthy: "no subject far above the threshold line", checks: ["cooks_distance", "dfbetas_treatment", "dffits"] },
-  leverage_residual: { caption: "Deletion residuals against leverage", shows: "each subject's deletion residual against its leverage, with the planned thresholds as dashed lines", healthy: "no subject beyond both thresholds at once", checks: ["leverage", "deletion_residual"] },
-  spread_by_arm: { caption: "Residual spread by treatment arm", shows: "box plots of the residuals per arm with the subjects as points", healthy: "boxes of similar height centred on zero", checks: ["brown_forsythe"] },
-  residuals_covariate: { caption: "Residuals against a covariate", shows: "each subject's residual against the covariate", healthy: "an even band around zero", checks: ["gvif"] },
-  partial_residuals: { caption: "Partial residuals", shows: "the component-plus-residual values against the covariate, with the fitted linear effect and a loess smoother", healthy: "the smoother following the straight line of the fitted effect", checks: ["reset"] },
-  binned_residuals: {
-    caption: "Binned residuals",
-    shows: "the mean residual (observed minus fitted probability) of each bin of subjects with similar fitted probabilities against the bin's mean fitted probability, inside a band of two standard errors",
-    healthy: "about 95% of the bins inside the band and no pattern",
-    checks: [],
-  },
-  calibration: {
-    caption: "Calibration by group of predicted risk",
-    shows: "the observed proportion of events in each tenth of the subjects by predicted probability against the group's mean predicted probability, with the line observed = predicted",
-    healthy: "every point close to the line",
-    checks: [],
-  },
-  ...COX_FIGURE_WORDS,
-};
-
-/** The alt text's sentence on what the figure marks: subjects beyond a threshold, bins outside their band, or the test. */
-function markedInWords(d: FigureData): string {
-  if (d.figure === "kaplan_meier" || d.figure === "log_minus_log") return coxMarkedInWords(d);
-  if (plotsSubjects(d)) {
-    const beyond = d.rows.filter((row) => row.status === BEYOND).length;
-    return `${beyond} subject${beyond === 1 ? " is" : "s are"} drawn as open triangles for being beyond a planned threshold.`;
-  }
-  if (d.figure === "binned_residuals") {
-    const outside = d.rows.filter((row) => row.status === OUTSIDE_BAND).length;
-    return `${outside} of ${d.rows.length} bins lie outside their band and are drawn as filled triangles.`;
-  }
-  const t = d.test;
-  const test = t.statistic !== null && Number.isFinite(t.statistic) && t.df !== null ? `Hosmer–Lemeshow χ² = ${fmt(t.statistic, 2)} on ${t.df} df, p ${t.p !== null && t.p < 0.0001 ? "< 0.0001" : `= ${fmtP(t.p)}`}.` : "The Hosmer–Lemeshow statistic was not computed.";
-  return `${d.rows.length} groups; point area shows each group's size. ${test} ${d.caution}`;
 }
 
 interface RerunPart {
@@ -177,37 +137,32 @@ const modelHeading = (p: RerunPart, many: boolean): Block[] => (many ? [{ kind: 
 
 function figureBlocks(p: RerunPart, next: ReturnType<typeof counter>): Block[] {
   const blocks: Block[] = [];
-  const { continuous } = figureTerms(p.doc);
-  const covariates = continuous.filter((c) => c !== p.doc.result.spec.treatment);
-  const wanted: { figure: FigureKey; term?: string }[] = p.doc.result.kind === "cox" ? coxFigureList(p.doc.result) : [
-    { figure: "residuals_fitted" },
-    { figure: "qq" },
-    { figure: "influence" },
-    { figure: "leverage_residual" },
-    ...(p.doc.result.spec.treatment ? [{ figure: "spread_by_arm" as const }] : []),
-    ...covariates.map((term) => ({ figure: "partial_residuals" as const, term })),
-    ...(p.doc.result.kind === "glm" && p.doc.result.family === "binomial" ? [{ figure: "binned_residuals" as const }, { figure: "calibration" as const }] : []),
-  ];
-  for (const w of wanted) {
+  for (const w of figureListOf(p.doc)) {
+    const m = figureModule(w.figure);
     let d: FigureData;
     try {
       d = figureData(p.doc, w.figure, { term: w.term, withSubjectIds: false, table: p.table });
     } catch (e) {
       if (!(e instanceof FigureUnavailableError)) throw e;
-      blocks.push({ kind: "paragraph", text: `${FIGURE_WORDS[w.figure].caption}${w.term ? ` for ${w.term}` : ""}: not drawn, because ${e.message}.` });
+      blocks.push({ kind: "paragraph", text: `${m.words.caption}${w.term ? ` for ${w.term}` : ""}: not drawn, because ${e.message}.` });
       continue;
     }
-    const words = FIGURE_WORDS[w.figure];
-    const related = p.doc.checks.filter((c) => words.checks.includes(c.key));
+    const related = p.doc.checks.filter((c) => checksOfFigure(w.figure).includes(c.key));
     const checkWords = related.map((c) => `${c.label}: ${outcomeInWords(c, p.doc.result.n, p.redact).toLowerCase()}`).join("; ");
-    const caption = `${words.caption}${w.term ? ` for ${p.labels[w.term] ? `${p.labels[w.term]} (${w.term})` : w.term}` : ""}, ${p.modelTitle}`;
+    const caption = `${m.words.caption}${w.term ? ` for ${p.labels[w.term] ? `${p.labels[w.term]} (${w.term})` : w.term}` : ""}, ${p.modelTitle}`;
     const alt =
-      `${caption}: ${words.shows}, for ${p.doc.result.n} subjects. A healthy picture shows ${words.healthy}. ` +
-      markedInWords(d) +
+      `${caption}: ${m.words.shows}, for ${p.doc.result.n} subjects. A healthy picture shows ${m.words.healthy}. ` +
+      m.marked(d) +
       (checkWords ? ` Related checks: ${checkWords}.` : "");
     blocks.push({ kind: "figure", key: `${w.figure}${w.term ? `:${w.term}` : ""}:${p.rerunId}`, number: next.figure(), caption, alt, spec: figureSpec(d, { ...FIGURE_SIZE, forPrint: true }) });
   }
   return blocks;
+}
+
+/** The estimate column's heading of the sensitivity table: "Ratio" for ratios, "Difference" for differences. */
+function sensitivityHeading(labels: readonly string[]): string {
+  const headings = new Set(labels.map((l) => contrastWords(l).heading));
+  return headings.size === 1 ? [...headings][0] : "Estimate";
 }
 
 /** Builds the whole appendix. `narratives` defaults to the current stored version of each section. */
@@ -432,7 +387,8 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
       key: `sensitivity:${p.rerunId}`,
       number: next.table(),
       caption: `Treatment contrasts across the analyses, ${p.modelTitle}`,
-      columns: [{ label: "Analysis" }, { label: "Kind" }, { label: "Comparison" }, { label: "Difference", numeric: true }, { label: "95% CI", numeric: true }, { label: "p", numeric: true }],
+      // a ratio is headed "Ratio", a difference "Difference" (both, when the table mixes them, "Estimate")
+      columns: [{ label: "Analysis" }, { label: "Kind" }, { label: "Comparison" }, { label: sensitivityHeading(labels), numeric: true }, { label: "95% CI", numeric: true }, { label: "p", numeric: true }],
       rows,
       note: "Robust-error analyses report HC3 intervals; the others model-based intervals.",
     });
@@ -442,19 +398,14 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
         return c ? [{ label: a.label, estimate: c.estimate, lower: c.lower, upper: c.upper, prespecified: a.prespecified, primary: a.primary }] : [];
       });
       const caption = `Treatment contrast ${label} across the analyses, ${p.modelTitle}`;
-      const primary = forest[0];
       sensitivity.push({
         kind: "figure",
         key: `forest:${label}:${p.rerunId}`,
         number: next.figure(),
         caption,
-        alt:
-          `${caption}: the difference in adjusted means with its 95% confidence interval for each of ${forest.length} analyses, primary first, with a dashed line at no difference. ` +
-          `Primary ${fmt(primary.estimate, 2)} (${fmtCi(primary.lower, primary.upper, 2)}); ` +
-          forest.slice(1).map((f) => `${f.label} ${fmt(f.estimate, 2)} (${fmtCi(f.lower, f.upper, 2)})`).join("; ") +
-          ". Healthy: every interval close to the primary one and on the same side of zero.",
-        // the analysis labels take about 270 px beside the plot: a narrower plot keeps the text legible in print
-        spec: forestSpec(forest, label, { width: 330, forPrint: true }),
+        alt: forestAlt(caption, label, forestPoints(forest).map((f) => ({ label: f.label, estimate: fmt(f.estimate, 2), interval: fmtCi(f.lower, f.upper, 2) }))),
+        // the analysis labels, wrapped, take about 210 px beside the plot: a narrower plot keeps the text legible in print
+        spec: forestSpec(forest, label, { width: 360, forPrint: true }),
       });
     }
   }

@@ -1,54 +1,12 @@
 /**
  * The time-to-event (Cox) parts of the appendix and the sponsor report: the results tables
- * (log hazard ratios, hazard ratios, the model's tests, the proportional-hazards test), and
- * the words of each Cox figure for its caption and alt text. No subject ids. Pure.
+ * (log hazard ratios, hazard ratios, the model's tests, the proportional-hazards test). The
+ * words of each Cox figure live in its module (app/figures/cox/). No subject ids. Pure.
  */
 import type { Block } from "~/components/appendix-content";
-import type { KaplanMeierData, LogMinusLogData } from "~/components/figures/cox";
 import { fmt, fmtCi, fmtP } from "~/components/format";
 import type { CoxResult } from "~/engine/survival/cox-model";
 import { coxModelTests } from "../reruns/cox-rerun-view.server";
-
-export const COX_FIGURE_WORDS = {
-  kaplan_meier: {
-    caption: "Kaplan–Meier curves by arm with numbers at risk",
-    shows: "the proportion of subjects still free of the event over time in each arm, with 95% Greenwood bands and the numbers at risk below the axis",
-    healthy: "curves that separate and stay apart without crossing",
-    checks: ["events_per_coefficient"],
-  },
-  log_minus_log: {
-    caption: "log(−log S) against log time by arm",
-    shows: "the log of minus the log of each arm's Kaplan–Meier estimate against log time",
-    healthy: "roughly parallel lines, a constant gap between arms",
-    checks: ["proportional_hazards"],
-  },
-  schoenfeld: {
-    caption: "Scaled Schoenfeld residuals against time",
-    shows: "one point per event: the scaled Schoenfeld residual of the coefficient against the event time, with a loess smoother and the fitted log hazard ratio as a dashed line",
-    healthy: "a smoother flat along the dashed line, no trend with time",
-    checks: ["proportional_hazards"],
-  },
-  martingale_covariate: {
-    caption: "Martingale residuals against the covariate",
-    shows: "each subject's martingale residual against the covariate, with a loess smoother and a dashed line at zero",
-    healthy: "a smoother flat around zero across the covariate's range",
-    checks: ["functional_form_cox"],
-  },
-  cox_influence: {
-    caption: "DFBETAS on the treatment log hazard ratio by subject",
-    shows: "each subject's DFBETAS on the treatment coefficient in data order, with the planned threshold as dashed lines",
-    healthy: "every subject inside the dashed lines",
-    checks: ["dfbetas_treatment_cox"],
-  },
-};
-
-/** The alt text's sentence on a survival-curve figure: the arms and the log-rank test. */
-export function coxMarkedInWords(d: KaplanMeierData | LogMinusLogData): string {
-  const arms = `${d.arms.length} arm${d.arms.length === 1 ? "" : "s"} (${d.arms.join(", ")})`;
-  if (d.figure === "log_minus_log") return `${arms}.`;
-  const t = d.logRank;
-  return `${arms}. ${t ? `${t.stratified ? "Stratified log-rank" : "Log-rank"} χ² = ${fmt(t.statistic, 2)} on ${t.df} df, p ${t.p < 0.0001 ? "< 0.0001" : `= ${fmtP(t.p)}`}.` : ""}`.trim();
-}
 
 /** The results tables of a Cox rerun, numbered by `next`. */
 export function coxResultBlocks(r: CoxResult, rerunId: string, modelTitle: string, next: { table: () => number }): Block[] {

@@ -13,6 +13,7 @@ import { deviationLog, findingsOf, signaturesOf } from "../reruns/findings.serve
 import { reportedContrasts, rerunView } from "../reruns/rerun-view.server";
 import { redactionFor } from "../redaction.server";
 import { getRerun, rerunDocumentOf, sensitivityReruns, type RerunDocument } from "../reruns/reruns.server";
+import { reportFigures } from "./report-figures.server";
 
 export interface ReportListing {
   id: string;
@@ -79,6 +80,8 @@ export async function getReport(studyId: string, rerunId: string) {
   // A report is for sponsor readers, whoever opens it: it never names a subject.
   const redaction = await redactionFor(false, [{ doc, datasetVersionId: r.dataset.versionId }, ...published.map((c) => ({ doc: rerunDocumentOf(c), datasetVersionId: c.datasetVersionId }))]);
   const redact = (s: string) => redaction.text(s);
+  // the diagnostic figures, influential subjects by rank (each figure's text checked for ids before it becomes a picture)
+  const figures = await reportFigures(r.rerun.id, r.rerun.resultSha256, doc, r.dataset.versionId, r.model.title, redaction);
   const view = rerunView(doc, redaction);
   const comparison = [
     { id: r.rerun.id, label: r.rerun.kind === "primary" ? "Primary analysis as planned" : redact(r.rerun.label ?? "Sensitivity analysis"), prespecified: true, primary: true, contrasts: reportedContrasts(doc) },
@@ -150,6 +153,7 @@ export async function getReport(studyId: string, rerunId: string) {
       .filter((d) => d.finding === null && d.rerun?.id === primaryId)
       .map((d) => ({ id: d.id, category: d.category, impact: d.impact, action: d.action, rationale: redact(d.rationale), by: d.recordedByName, at: d.recordedAt })),
     comparison,
+    figures,
     signatures: signatures.map((s) => ({ name: s.signerName, meaning: s.meaning, at: s.signedAt })),
     appendix,
     caution: doc.caution,

@@ -7,7 +7,7 @@
 import type { CoxResult } from "~/engine/survival/cox-model";
 import type { RestrictedMeanDifference } from "~/engine/survival/rmst";
 import type { Redaction } from "../redaction.server";
-import { coxFigureList } from "./cox-figure-data.server";
+import { coxFigureList } from "~/figures/cox/cox-figure-data";
 import { checkView } from "./rerun-view.server";
 import type { RerunDocument } from "./reruns.server";
 

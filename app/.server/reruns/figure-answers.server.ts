@@ -6,11 +6,11 @@
  */
 import { LRUCache } from "lru-cache";
 import { CAUTION } from "~/components/caution";
-import { figureSpec } from "~/components/figures/specs";
+import { figureData, figureSpec } from "~/figures/registry";
+import type { FigureTable } from "~/figures/shared/source";
 import type { FigureKey } from "~/engine/checks";
 import { toVega } from "../figures/compile.server";
 import { redaction } from "../redaction.server";
-import { figureData, type FigureTable } from "./figure-data.server";
 import type { RerunDocument } from "./reruns.server";
 
 /** About 64 MB of answers (string length counts UTF-16 units; close enough for a bound). */

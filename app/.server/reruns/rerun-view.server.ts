@@ -8,6 +8,7 @@ import { reproductionAsCheck } from "~/engine/reproduction";
 import { CHECK_BY_KEY, type CheckOutcome } from "~/engine/checks";
 import { familyWithLink } from "~/engine/family-names";
 import { fitFactsOf, fitStatisticRows } from "~/components/fit-statistics";
+import { figureModule, figureOfCheck } from "~/figures/registry";
 import type { Redaction } from "../redaction.server";
 import type { RerunDocument } from "./reruns.server";
 import { coxReportedContrasts, coxRerunView, restrictedMeanContrasts } from "./cox-rerun-view.server";
@@ -79,6 +80,8 @@ export function checkView(c: CheckOutcome, redact: Redaction) {
     remedy: redact.text(c.remedy, c.key),
     flagged: redact.flagged(c),
     flaggedCount: c.flagged?.length ?? 0,
+    // the figure's module decides which check it supports; a check not computed has none
+    figure: figureOfCheck(c),
     formula: CHECK_BY_KEY.get(c.key)?.formula ?? null,
   };
 }
@@ -100,6 +103,7 @@ export function reproductionView(doc: RerunDocument) {
 export function rerunView(doc: RerunDocument, redact: Redaction) {
   if (doc.result.kind === "cox") return coxRerunView(doc, doc.result, redact);
   const r = doc.result;
+  const continuousTerms = r.variables.filter((v) => v.kind === "continuous" && v.name !== r.spec.response).map((v) => v.name);
   const common = {
     description: redact.text(doc.description),
     rows: doc.rows,
@@ -119,8 +123,16 @@ export function rerunView(doc: RerunDocument, redact: Redaction) {
     vif: r.vif,
     qqShape: r.qqShape,
     terms: r.terms,
-    continuousTerms: r.variables.filter((v) => v.kind === "continuous" && v.name !== r.spec.response).map((v) => v.name),
-    checks: doc.checks.map((c) => checkView(c, redact)),
+    continuousTerms,
+    checks: doc.checks.map((c) => {
+      const v = checkView(c, redact);
+      // a figure drawn per covariate is shown with the covariate its module picks, or the first continuous one
+      // (none when the model has no continuous covariate: then the check has no figure)
+      const m = v.figure ? figureModule(v.figure) : null;
+      if (m?.perTerm !== "continuous") return { ...v, figureTerm: undefined };
+      const figureTerm = m.defaultTerm?.(doc) ?? continuousTerms.find((t) => t !== r.spec.offset && t !== r.spec.weights);
+      return { ...v, figure: figureTerm ? v.figure : null, figureTerm };
+    }),
     reproduction: reproductionView(doc),
     engineVersion: doc.engineVersion,
     caution: doc.caution,

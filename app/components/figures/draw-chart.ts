@@ -7,7 +7,7 @@
  * drawing them. The view is set up as vega-embed sets it up (interpreter, tooltip handler, hover).
  */
 import type { Renderers, Spec } from "vega";
-import type { FigureUsermeta, TooltipField } from "./specs";
+import type { FigureUsermeta, TooltipField } from "~/figures/shared/look";
 
 type Library = {
   vega: typeof import("vega");

@@ -3,7 +3,8 @@
  * specification is made ready for a frame, and the messages between page and worker. Pure.
  */
 import type { Spec } from "vega";
-import { rewrapTitle, type FigureData } from "./specs";
+import type { FigureData } from "~/figures/registry";
+import { rewrapTitle } from "~/figures/shared/look";
 
 /** The figures route's answer: the figure compiled to Vega, reading its rows from the dataset "rows". */
 export type FigureAnswer = { caution: string; spec: Spec; data: FigureData };

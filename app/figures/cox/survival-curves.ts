@@ -4,7 +4,8 @@
  * module for its dispatch, so nothing of specs.ts is read when this module loads.
  */
 import type { TopLevelSpec } from "vega-lite";
-import { asSpec, dataOf, frame, NO_ARIA, PALETTE, title, type SpecOptions } from "../specs";
+import { asSpec, dataOf, frame, NO_ARIA, PALETTE, title} from "../shared/look";
+import type { SpecOptions } from "../shared/types";
 import type { KaplanMeierData, LogMinusLogData } from "./cox-figure-types";
 
 /** Arm colours: ink for the first (usually the reference), brass, then the status-free greys. */

@@ -5,7 +5,7 @@
  * which order statistics a Q-Q plot keeps. Pure functions; figure-data.server.ts applies them.
  */
 import { extent, quantileSorted } from "d3-array";
-import type { BoxSummary, DensityCell, InfluenceBlock } from "~/components/figures/specs";
+import type { BoxSummary, DensityCell, InfluenceBlock } from "./types";
 
 /** Six significant digits: plenty for drawing and hover, a smaller answer for large reruns (every figure's numbers). */
 export function round(v: number): number {

@@ -2,7 +2,7 @@
  * The rows behind the time-to-event (Cox) figures, shaped on the server
  * (app/.server/reruns/cox-figure-data.server.ts) and drawn by the builders beside this file.
  */
-import type { FigureBase, PointStatus, SmoothPoint, SubjectRef, Threshold } from "../specs";
+import type { FigureBase, PointStatus, SmoothPoint, SubjectRef, Threshold } from "../shared/types";
 
 export interface ChiSquareText {
   statistic: number;

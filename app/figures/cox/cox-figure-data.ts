@@ -1,17 +1,16 @@
 /**
  * The rows behind the time-to-event (Cox) figures of a rerun, shaped from the stored result
  * (and, for martingale residuals against a covariate, from the rerun's own table rows). The
- * specifications that draw them live in app/components/figures/cox/.
+ * specifications that draw them live beside this file.
  */
-import type { CoxFigureData, CoxInfluenceRow, SurvivalStep } from "~/components/figures/cox";
-import { BEYOND, WITHIN, type SubjectRef } from "~/components/figures/specs";
+import type { CoxFigureData, CoxInfluenceRow, SurvivalStep } from "./cox-figure-types";
+import { BEYOND, WITHIN, type SubjectRef } from "../shared/types";
 import type { CheckKey, FigureKey } from "~/engine/checks";
 import { loessCurve } from "~/engine/loess";
 import type { CoxResult } from "~/engine/survival/cox-model";
 import { continuousCoxTerms } from "~/engine/survival/functional-form";
-import { round } from "./figure-summaries.server";
-import { appliedThreshold, FigureUnavailableError, type FigureOptions } from "./figure-data.server";
-import type { RerunDocument } from "./reruns.server";
+import { round } from "../shared/summaries";
+import { appliedThreshold, FigureUnavailableError, type FigureOptions, type FigureSource } from "../shared/source";
 
 /** The Cox figures that plot covariate values read the rerun's rows. */
 export const COX_NEEDS_TABLE: readonly FigureKey[] = ["martingale_covariate"];
@@ -22,7 +21,7 @@ function who(r: CoxResult, i: number, withIds: boolean): SubjectRef {
   return { subject: r.observations.id[i] ?? `row ${row}`, row };
 }
 
-function flaggedRows(doc: RerunDocument, key: CheckKey): Set<number> {
+function flaggedRows(doc: FigureSource, key: CheckKey): Set<number> {
   return new Set((doc.checks.find((c) => c.key === key)?.flagged ?? []).map((f) => f.row));
 }
 
@@ -45,7 +44,7 @@ function armCurves(r: CoxResult) {
 }
 
 /** The rows of one Cox figure of a rerun. Throws FigureUnavailableError when it cannot be drawn. */
-export function coxFigureData(doc: RerunDocument, r: CoxResult, figure: FigureKey, opts: FigureOptions): CoxFigureData {
+export function coxFigureData(doc: FigureSource, r: CoxResult, figure: FigureKey, opts: FigureOptions): CoxFigureData {
   const unit = opts.units?.[r.spec.response] ?? `units of ${r.spec.response}`;
   const base = { n: r.n, withSubjectIds: opts.withSubjectIds, response: r.spec.response, responseUnit: unit, weighted: false };
   const obs = r.observations;

@@ -5,7 +5,8 @@
  * linear in it), and each subject's DFBETAS on the treatment log hazard ratio.
  */
 import type { TopLevelSpec } from "vega-lite";
-import { asSpec, dataOf, frame, loessLayer, NO_ARIA, ONE, PALETTE, pointMark, thresholdRule, title, tooltip, zeroRule, type SpecOptions } from "../specs";
+import { asSpec, dataOf, frame, loessLayer, NO_ARIA, ONE, PALETTE, pointMark, thresholdRule, title, tooltip, zeroRule} from "../shared/look";
+import type { SpecOptions } from "../shared/types";
 import type { CoxInfluenceData, MartingaleCovariateData, SchoenfeldData } from "./cox-figure-types";
 
 const pText = (p: number | null) => (p === null || !Number.isFinite(p) ? "p not computed" : p < 0.0001 ? "p < 0.0001" : `p = ${p.toFixed(4)}`);
