@@ -99,31 +99,11 @@ export const KNOWN_CYCLES = [
   },
   {
     reason:
-      "figure-data dispatches Cox figures to cox-figure-data, which reuses figure-data's appliedThreshold and FigureUnavailableError (read when called). " +
-      "To fix: those two in a module of their own.",
-    imports: {
-      "app/.server/reruns/figure-data.server.ts": ["./cox-figure-data.server"],
-      "app/.server/reruns/cox-figure-data.server.ts": ["./figure-data.server"],
-    },
-  },
-  {
-    reason:
       "rerun-view hands Cox documents to cox-rerun-view, which reuses rerun-view's checkView (read when called). " +
       "To fix: checkView in a module of its own (issue 19 item 1 reworks these views).",
     imports: {
       "app/.server/reruns/rerun-view.server.ts": ["./cox-rerun-view.server"],
       "app/.server/reruns/cox-rerun-view.server.ts": ["./rerun-view.server"],
-    },
-  },
-  {
-    reason:
-      "specs.ts dispatches to the Cox figure builders, which use its shared parts (frame, palette, marks; functions read when called, DEVELOPERS.md). " +
-      "To fix: the shared parts in a module of their own, after the results figure redesign.",
-    imports: {
-      "app/components/figures/specs.ts": ["./cox"],
-      "app/components/figures/cox/index.ts": ["./cox-residual-figures"],
-      "app/components/figures/cox/cox-residual-figures.ts": ["../specs"],
-      "app/components/figures/cox/survival-curves.ts": ["../specs"],
     },
   },
 ];

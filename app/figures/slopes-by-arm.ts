@@ -6,6 +6,7 @@
  * least-squares slope through them, and the model's common slope. Parallel lines mean the
  * model's single slope serves every arm.
  */
+import { INTERACTION_JOIN } from "~/engine/coefficient-names";
 import type { TopLevelSpec } from "vega-lite";
 import { asSpec, dataOf, frame, NO_ARIA, PALETTE, pText, SCHEMA, title, tooltip, type Json } from "./shared/look";
 import { defineFigure } from "./shared/module";
@@ -131,7 +132,7 @@ export const slopesByArm = defineFigure<SlopesByArmData>({
       r.kind === "linear"
         ? (r.tests.homogeneityOfSlopes?.byCovariate ?? []).map((c) => ({ term: c.covariate, p: c.p }))
         : r.kind === "glm"
-          ? (r.checks.homogeneityOfTreatmentEffect?.byCovariate ?? []).map((c) => ({ term: c.term.replace(/^.* by /, ""), p: c.p }))
+          ? (r.checks.homogeneityOfTreatmentEffect?.byCovariate ?? []).map((c) => ({ term: c.term.split(INTERACTION_JOIN).pop() ?? c.term, p: c.p }))
           : [];
     // slopes are drawn for continuous covariates only
     const continuous = new Set(r.kind === "cox" ? [] : r.variables.filter((v) => v.kind === "continuous").map((v) => v.name));
