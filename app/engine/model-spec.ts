@@ -1,4 +1,6 @@
 import { z } from "zod";
+import { populationSchema } from "./population";
+import { multiplicitySchema } from "./multiplicity";
 
 /** A main-effect term: one variable, continuous or categorical. */
 export const mainTermSchema = z
@@ -19,6 +21,10 @@ export const interactionTermSchema = z
   .strict();
 
 export const termSchema = z.union([mainTermSchema, interactionTermSchema]);
+
+export const meansWeightingSchema = z.enum(["equal", "proportional"]);
+export const contrastsSchema = z.enum(["reference", "pairwise"]);
+export type ContrastSet = z.infer<typeof contrastsSchema>;
 
 export const familySchema = z.enum(["gaussian", "binomial", "poisson", "quasipoisson", "negative-binomial"]);
 export const linkSchema = z.enum(["identity", "log", "logit", "probit", "cloglog", "inverse", "sqrt"]);
@@ -46,6 +52,14 @@ export const modelSpecSchema = z
     treatment: z.string().min(1).optional(),
     /** Binomial family: the level of a two-level response column counted as the event (1). */
     event: z.string().min(1).optional(),
+    /** The analysis population: conditions every analysed row meets (population.ts). */
+    population: populationSchema.optional(),
+    /** How adjusted means average over the other categorical factors (default equal). */
+    means: meansWeightingSchema.optional(),
+    /** Treatment contrasts: each arm against the reference (default) or all pairs of arms. */
+    contrasts: contrastsSchema.optional(),
+    /** Multiplicity adjustment of the treatment contrasts' p-values (default none). */
+    multiplicity: multiplicitySchema.optional(),
   })
   .strict();
 
