@@ -16,6 +16,14 @@ export const MULTIPLICITY_NAMES: Record<Multiplicity, string> = {
   hochberg: "Hochberg (step-up)",
 };
 
+/** The contrast sets in words. */
+export const CONTRAST_SET_NAMES = { reference: "each arm against the reference arm", pairwise: "every pair of arms" } as const;
+/** The adjusted-means weightings in words. */
+export const MEANS_WEIGHTING_NAMES = {
+  equal: "other categorical factors averaged with equal weight over their levels",
+  proportional: "other categorical factors averaged in proportion to their observed frequencies",
+} as const;
+
 /** Adjusted p-values in the order given; NaN stays NaN and is not counted in the family. */
 export function adjustPValues(p: readonly number[], method: Multiplicity): number[] {
   const idx = p.map((_, i) => i).filter((i) => Number.isFinite(p[i]));

@@ -54,6 +54,11 @@ export function describeCondition(c: PopulationCondition): string {
   return c.min !== undefined ? `${c.column} at least ${c.min}` : `${c.column} at most ${c.max}`;
 }
 
+/** Every condition in words, joined; "all rows" without conditions. */
+export function describePopulation(conditions: readonly PopulationCondition[] | undefined): string {
+  return conditions && conditions.length > 0 ? conditions.map(describeCondition).join("; ") : "all rows";
+}
+
 function matchesValue(cell: string, value: PopulationValue): boolean {
   const text = cell.trim();
   if (text === String(value).trim()) return true;

@@ -31,6 +31,7 @@ import { getRerun, rerunDocumentOf, sameInputReruns, sensitivityReruns, startRer
 import { requireStudy } from "~/.server/study-access.server";
 import { reauthenticationPath, reauthNotice, SIGNATURE_MEANINGS } from "~/.server/signatures.server";
 import { ReauthNotice, SigningExplainer } from "~/components/signing";
+import { populationNote } from "~/components/population-note";
 
 export function meta({ loaderData }: Route.MetaArgs) {
   return [{ title: `Rerun ${loaderData?.model.key ?? ""} · ${loaderData?.code ?? ""} · Plumbline` }];
@@ -400,7 +401,7 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
             </h2>
             <p className="num text-sm">
               {view.rows.inFile} rows in the file · {view.rows.outsidePopulation} outside the population
-              {view.population ? ` (${view.population.column} ≠ ${view.population.value})` : ""} · {view.rows.excludedByOption} excluded by this analysis ·{" "}
+              {populationNote(view.population)} · {view.rows.excludedByOption} excluded by this analysis ·{" "}
               {view.rows.missingCells} left out for missing cells · <span className="font-semibold">{view.rows.used} used</span> · {view.rank} coefficients ·{" "}
               {view.kind === "linear"
                 ? `residual SE ${fmt(view.fit.sigma)} · R² ${fmt(view.fit.rSquared)}`

@@ -11,7 +11,7 @@ import { readFileSync } from "node:fs";
 import { join } from "node:path";
 import { describe, expect, it } from "vitest";
 import { readCsvText } from "~/engine-io/read-csv";
-import { fitModel, type ModelSpecInput } from "~/engine";
+import { fitModel, toDataTable, type ModelSpecInput } from "~/engine";
 import { selectPopulation } from "~/engine/population";
 import { adjustPValues } from "~/engine/multiplicity";
 import { expectAllClose, expectClose } from "./compare";
@@ -47,7 +47,7 @@ interface RLinear {
   results: { means: "equal" | "proportional"; contrasts: "reference" | "pairwise"; adjustedMeans: { level: string[]; estimate: number[]; se: number[] }; model: RContrasts; hc3: RContrasts }[];
 }
 
-const table = readCsvText(readFileSync(join(ROOT, "data", "long-trial.csv"), "utf8"));
+const table = toDataTable(readCsvText(readFileSync(join(ROOT, "data", "long-trial.csv"), "utf8")));
 const linearSpec = JSON.parse(readFileSync(join(ROOT, "models", "long-ancova.json"), "utf8")) as ModelSpecInput & { population: never };
 const linearRef = JSON.parse(readFileSync(join(ROOT, "values", "long-ancova.json"), "utf8")) as RLinear;
 const glmSpec = JSON.parse(readFileSync(join(ROOT, "models", "long-responder.json"), "utf8"));

@@ -12,7 +12,7 @@ import { modelSpecSchema } from "~/engine/model-spec";
 import { coxSpecSchema } from "~/engine/survival/cox-spec";
 import { STUDY_ROLES } from "../db/schema";
 import { STUDY_PERMISSIONS, type StudyAction } from "../permissions.server";
-import { plannedCheckSchema, populationSchema, sensitivitySchema } from "../plans/planned-model";
+import { plannedCheckSchema, sensitivitySchema } from "../plans/planned-model";
 import { API_ERROR_CODES } from "./respond.server";
 
 extendZodWithOpenApi(z);
@@ -142,7 +142,6 @@ const PlannedModel = registry.register(
     key: z.string(),
     title: z.string(),
     datasetName: z.string(),
-    population: populationSchema,
     spec: z.union([modelSpecSchema, coxSpecSchema]).describe("The model specification: the same object the headless rerun command reads"),
     checks: z.array(plannedCheckSchema),
     sensitivity: z.array(sensitivitySchema),

@@ -4,6 +4,7 @@
  * checks, figures, deviation log, signatures and sensitivity analyses, plus the medical
  * writer's current narrative for each section. Nothing here can be edited in the appendix.
  */
+import { populationOf } from "../plans/planned-model";
 import { and, asc, eq, isNotNull } from "drizzle-orm";
 import { data } from "react-router";
 import { BEYOND, figureSpec, forestSpec, OUTSIDE_BAND, plotsSubjects, type FigureData, type ForestRow } from "~/components/figures/specs";
@@ -261,7 +262,7 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
     const prose = methodsProse({
       title: p.planned.title,
       datasetName: p.planned.datasetName,
-      population: p.planned.population,
+      population: populationOf(p.planned),
       spec: p.planned.spec,
       checks: p.planned.checks,
       sensitivity: p.planned.sensitivity,

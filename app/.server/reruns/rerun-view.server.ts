@@ -4,6 +4,7 @@
  * flagged subjects go through the viewer's redaction (redaction.server.ts): subject ids only for
  * people who may see subject-level data, ranks and counts for the others.
  */
+import { populationStepsOf } from "./rerun-population";
 import type { CheckOutcome } from "~/engine/checks";
 import type { Redaction } from "../redaction.server";
 import type { RerunDocument } from "./reruns.server";
@@ -81,7 +82,7 @@ export function rerunView(doc: RerunDocument, redact: Redaction) {
   const common = {
     description: redact.text(doc.description),
     rows: doc.rows,
-    population: doc.population,
+    population: populationStepsOf(doc),
     method: r.method.description,
     family: r.family,
     link: r.link,
