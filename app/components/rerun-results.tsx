@@ -1,4 +1,5 @@
 import { Link } from "react-router";
+import { MULTIPLICITY_WORDS, type TreatmentEffectPlan } from "./treatment-effect";
 import type { ReactNode } from "react";
 import { fmt, fmtCi, fmtP } from "./format";
 import { StatusLabel } from "./status";
@@ -115,17 +116,21 @@ interface ContrastRow {
   lower: number;
   upper: number;
   p: number;
-  hc3: { se: number; lower: number; upper: number; p: number } | null;
+  pAdjusted?: number;
+  hc3: { se: number; lower: number; upper: number; p: number; pAdjusted?: number } | null;
 }
 
-export function ContrastsTable({ rows, kind = "linear" }: { rows: readonly ContrastRow[]; kind?: "linear" | "glm" }) {
+export function ContrastsTable({ rows, kind = "linear", plan }: { rows: readonly ContrastRow[]; kind?: "linear" | "glm"; plan?: Pick<TreatmentEffectPlan, "contrastSet" | "multiplicity"> }) {
   const robust = kind === "linear" ? "HC3" : "Robust";
+  const against = plan?.contrastSet === "pairwise" ? "between every pair of arms" : "against the reference arm";
+  const adjusted = plan && plan.multiplicity !== "none" ? MULTIPLICITY_WORDS[plan.multiplicity] : null;
   return (
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         {kind === "linear"
-          ? "Treatment contrasts against the reference arm (difference in adjusted means)."
-          : "Marginal treatment effects against the reference arm by standardization over the rows used (delta-method SE, Ge et al. 2011; robust SE valid under misspecification, Ye et al. 2023)."}
+          ? `Treatment contrasts ${against} (difference in adjusted means).`
+          : `Marginal treatment effects ${against} by standardization over the rows used (delta-method SE, Ge et al. 2011; robust SE valid under misspecification, Ye et al. 2023).`}
+        {adjusted ? ` Adjusted p: ${adjusted} method, within each family of contrasts${kind === "glm" ? " of one measure" : ""}.` : ""}
       </caption>
       <thead>
         <tr>
@@ -142,6 +147,11 @@ export function ContrastsTable({ rows, kind = "linear" }: { rows: readonly Contr
           <th scope="col" className="text-right">
             p
           </th>
+          {adjusted ? (
+            <th scope="col" className="text-right">
+              p adjusted ({adjusted})
+            </th>
+          ) : null}
           <th scope="col" className="text-right">
             {robust} SE
           </th>
@@ -151,6 +161,11 @@ export function ContrastsTable({ rows, kind = "linear" }: { rows: readonly Contr
           <th scope="col" className="text-right">
             {robust} p
           </th>
+          {adjusted ? (
+            <th scope="col" className="text-right">
+              {robust} p adjusted
+            </th>
+          ) : null}
         </tr>
       </thead>
       <tbody>
@@ -163,9 +178,11 @@ export function ContrastsTable({ rows, kind = "linear" }: { rows: readonly Contr
             <td className="num text-right">{fmt(c.se)}</td>
             <td className="num text-right whitespace-nowrap">{fmtCi(c.lower, c.upper)}</td>
             <td className="num text-right">{fmtP(c.p)}</td>
+            {adjusted ? <td className="num text-right">{fmtP(c.pAdjusted)}</td> : null}
             <td className="num text-right">{fmt(c.hc3?.se)}</td>
             <td className="num text-right whitespace-nowrap">{c.hc3 ? fmtCi(c.hc3.lower, c.hc3.upper) : "does not apply"}</td>
             <td className="num text-right">{fmtP(c.hc3?.p)}</td>
+            {adjusted ? <td className="num text-right">{fmtP(c.hc3?.pAdjusted)}</td> : null}
           </tr>
         ))}
       </tbody>

@@ -1,4 +1,5 @@
 import { Link } from "react-router";
+import { TreatmentEffectNote } from "~/components/treatment-effect";
 import { CoxReportTables } from "~/components/cox-results";
 import type { Route } from "./+types/study-report";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
@@ -105,7 +106,8 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
             <h2 id="effect-h" className="mb-2">
               Treatment effect
             </h2>
-            <ContrastsTable rows={results.contrasts} />
+            <ContrastsTable rows={results.contrasts} plan={results.treatmentEffect ?? undefined} />
+            {results.treatmentEffect ? <TreatmentEffectNote plan={results.treatmentEffect} /> : null}
             {results.adjustedMeans ? (
               <div className="mt-4">
                 <AdjustedMeansTable rows={results.adjustedMeans} weighting={results.adjustedMeansWeighting} />

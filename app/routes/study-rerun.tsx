@@ -32,6 +32,7 @@ import { requireStudy } from "~/.server/study-access.server";
 import { reauthenticationPath, reauthNotice, SIGNATURE_MEANINGS } from "~/.server/signatures.server";
 import { ReauthNotice, SigningExplainer } from "~/components/signing";
 import { populationNote } from "~/components/population-note";
+import { TreatmentEffectNote } from "~/components/treatment-effect";
 
 export function meta({ loaderData }: Route.MetaArgs) {
   return [{ title: `Rerun ${loaderData?.model.key ?? ""} · ${loaderData?.code ?? ""} · Plumbline` }];
@@ -420,7 +421,8 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
               <h2 id="effect-h" className="mb-2">
                 Treatment effect
               </h2>
-              <ContrastsTable rows={view.contrasts} kind={view.kind} />
+              <ContrastsTable rows={view.contrasts} kind={view.kind} plan={view.treatmentEffect} />
+              <TreatmentEffectNote plan={view.treatmentEffect} />
               {view.kind === "linear" && view.adjustedMeans ? (
                 <div className="mt-4">
                   <AdjustedMeansTable rows={view.adjustedMeans} weighting={view.adjustedMeansWeighting} />

@@ -16,7 +16,10 @@ import { db, t } from "../db/index.server";
 import { getPlannedModel, getPlanVersion } from "../plans/plans.server";
 import { figureData, figureTerms, FigureUnavailableError } from "../reruns/figure-data.server";
 import { findingsOf, deviationLog, signaturesOf } from "../reruns/findings.server";
-import { contrastsOf, reportedContrasts } from "../reruns/rerun-view.server";
+import { contrastsOf, reportedContrasts, treatmentEffectOf } from "../reruns/rerun-view.server";
+import { populationStepsOf } from "../reruns/rerun-population";
+import { populationNote } from "~/components/population-note";
+import { MULTIPLICITY_WORDS, treatmentTestWords } from "~/components/treatment-effect";
 import { getRerun, sensitivityReruns, type RerunDocument } from "../reruns/reruns.server";
 import { rerunTable } from "../reruns/what-if.server";
 import { getStudyOr404 } from "../studies.server";
@@ -279,7 +282,7 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
       {
         kind: "paragraph",
         text:
-          `Data provenance: ${p.dataset.name} locked version ${p.dataset.version} (SHA-256 ${p.dataset.sha256}). Of ${rows.inFile} records in the file, ${rows.outsidePopulation} were outside the analysis population, ` +
+          `Data provenance: ${p.dataset.name} locked version ${p.dataset.version} (SHA-256 ${p.dataset.sha256}). Of ${rows.inFile} records in the file, ${rows.outsidePopulation} were outside the analysis population${populationNote(populationStepsOf(p.doc))}, ` +
           `${rows.excludedByOption} were excluded by the analysis options and ${rows.missingCells} had a missing value in a model term; ${rows.used} were analysed. ` +
           `Computed by the Plumbline statistics engine ${p.doc.engineVersion}; result SHA-256 ${p.resultSha256}.`,
       },
@@ -319,15 +322,28 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
       });
     }
     const contrasts = contrastsOf(p.doc);
+    const effect = treatmentEffectOf(p.doc);
     if (contrasts.length) {
+      const adjusted = effect.multiplicity !== "none" ? MULTIPLICITY_WORDS[effect.multiplicity] : null;
       results.push({
         kind: "table",
         key: `contrasts:${p.rerunId}`,
         number: next.table(),
-        caption: `Treatment contrasts against the reference arm, ${p.modelTitle}`,
-        columns: [{ label: "Comparison" }, { label: r.kind === "linear" ? "Difference" : "Estimate", numeric: true }, { label: "SE", numeric: true }, { label: "95% CI", numeric: true }, { label: "p", numeric: true }],
-        rows: contrasts.map((c) => [c.label, fmt(c.estimate), fmt(c.se), fmtCi(c.lower, c.upper), fmtP(c.p)]),
-        note: r.kind === "linear" ? "Differences in adjusted means with model-based standard errors." : "Marginal (standardized) contrasts; ratios with intervals from the log scale.",
+        caption: `Treatment contrasts ${effect.contrastSet === "pairwise" ? "between every pair of arms" : "against the reference arm"}, ${p.modelTitle}`,
+        columns: [
+          { label: "Comparison" },
+          { label: r.kind === "linear" ? "Difference" : "Estimate", numeric: true },
+          { label: "SE", numeric: true },
+          { label: "95% CI", numeric: true },
+          { label: r.kind === "linear" ? "t" : "z", numeric: true },
+          { label: "p", numeric: true },
+          ...(adjusted ? [{ label: `p adjusted (${adjusted})`, numeric: true }] : []),
+        ],
+        rows: contrasts.map((c) => [c.label, fmt(c.estimate), fmt(c.se), fmtCi(c.lower, c.upper), fmt(c.statistic), fmtP(c.p), ...(adjusted ? [fmtP(c.pAdjusted)] : [])]),
+        note:
+          (r.kind === "linear" ? "Differences in adjusted means with model-based standard errors." : "Marginal (standardized) contrasts; ratios with intervals and statistics from the log scale.") +
+          (adjusted ? ` p-values adjusted for multiplicity by the ${adjusted} method${r.kind === "glm" ? " within each measure" : ""}.` : " p-values not adjusted for multiplicity.") +
+          (effect.test ? ` ${treatmentTestWords(effect.test)}` : ""),
       });
     }
   }

@@ -6,6 +6,7 @@
  */
 import { populationStepsOf } from "./rerun-population";
 import type { CheckOutcome } from "~/engine/checks";
+import type { TreatmentEffectPlan } from "~/components/treatment-effect";
 import type { Redaction } from "../redaction.server";
 import type { RerunDocument } from "./reruns.server";
 import { coxReportedContrasts, coxRerunView, restrictedMeanContrasts } from "./cox-rerun-view.server";
@@ -16,9 +17,26 @@ export interface ContrastView {
   se: number;
   lower: number;
   upper: number;
+  statistic: number;
   p: number;
+  /** p adjusted for multiplicity (absent without a method). */
+  pAdjusted?: number;
   /** Null where the robust alternative does not apply (Ye et al. for a non-canonical GLM). */
-  hc3: { se: number; lower: number; upper: number; p: number } | null;
+  hc3: { se: number; lower: number; upper: number; statistic: number; p: number; pAdjusted?: number } | null;
+}
+
+/** The plan's contrast set and multiplicity method, and the overall test of the treatment term. */
+export function treatmentEffectOf(doc: RerunDocument): TreatmentEffectPlan {
+  const r = doc.result;
+  if (r.kind === "cox") return { contrastSet: "reference", multiplicity: "none", test: null };
+  const contrastSet = r.spec.contrasts ?? "reference";
+  const multiplicity = r.spec.multiplicity ?? "none";
+  if (r.kind === "linear") {
+    const t = r.tests.treatment;
+    return { contrastSet, multiplicity, test: t ? { name: "F", ...t } : null };
+  }
+  const t = r.checks.treatment;
+  return { contrastSet, multiplicity, test: t ? { name: "χ²", ...t } : null };
 }
 
 /**
@@ -37,8 +55,10 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
       se: c.se,
       lower: c.lower,
       upper: c.upper,
+      statistic: c.statistic,
       p: c.p,
-      hc3: { se: c.hc3.se, lower: c.hc3.lower, upper: c.hc3.upper, p: c.hc3.p },
+      ...(c.pAdjusted !== undefined ? { pAdjusted: c.pAdjusted } : {}),
+      hc3: { se: c.hc3.se, lower: c.hc3.lower, upper: c.hc3.upper, statistic: c.hc3.statistic, p: c.hc3.p, ...(c.hc3.pAdjusted !== undefined ? { pAdjusted: c.hc3.pAdjusted } : {}) },
     }));
   }
   return (r.marginalEffects?.contrasts ?? []).map((c) => ({
@@ -47,8 +67,12 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
     se: c.se,
     lower: c.lower,
     upper: c.upper,
+    statistic: c.statistic,
     p: c.p,
-    hc3: c.robust ? { se: c.robust.se, lower: c.robust.lower, upper: c.robust.upper, p: c.robust.p } : null,
+    ...(c.pAdjusted !== undefined ? { pAdjusted: c.pAdjusted } : {}),
+    hc3: c.robust
+      ? { se: c.robust.se, lower: c.robust.lower, upper: c.robust.upper, statistic: c.robust.statistic, p: c.robust.p, ...(c.robust.pAdjusted !== undefined ? { pAdjusted: c.robust.pAdjusted } : {}) }
+      : null,
   }));
 }
 
@@ -91,6 +115,7 @@ export function rerunView(doc: RerunDocument, redact: Redaction) {
     dfResidual: r.dfResidual,
     coefficients: r.coefficients,
     contrasts: contrastsOf(doc),
+    treatmentEffect: treatmentEffectOf(doc),
     vif: r.vif,
     qqShape: r.qqShape,
     terms: r.terms,
