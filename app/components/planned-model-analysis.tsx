@@ -11,7 +11,7 @@ const CHOICES = {
     ["proportional", "In proportion to the observed frequencies"],
   ],
   contrasts: [
-    ["reference", "Each arm against the reference arm"],
+    ["reference", "Each arm versus the reference"],
     ["pairwise", "Every pair of arms"],
   ],
   multiplicity: [
