@@ -75,7 +75,7 @@ export function PopulationSection({ initial, columns, errors }: { initial: Popul
                     </select>
                   </div>
                   <div className="self-end">
-                    <button type="button" className="btn" onClick={() => setRows(rows.filter((x) => x.key !== r.key))}>
+                    <button type="button" className="btn-quiet" onClick={() => setRows(rows.filter((x) => x.key !== r.key))}>
                       Remove condition {i + 1}
                     </button>
                   </div>

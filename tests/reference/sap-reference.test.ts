@@ -151,3 +151,16 @@ describe("headless command reads the same model object", () => {
     expect(g.excludedByPopulation).toBe(glmRef.excluded);
   }, 60_000);
 });
+
+describe("a time-to-event model takes the population array too", () => {
+  it("fits the Cox model to the rows the condition keeps (survival::coxph on survival::colon deaths)", async () => {
+    const ref = JSON.parse(readFileSync(join(ROOT, "values", "colon-deaths.json"), "utf8"));
+    const run = await runCli(["fit", "--data", join(import.meta.dirname, "survival", "data", "colon-cluster-log.csv"), "--model", join(ROOT, "models", "colon-deaths.json")]);
+    expect(run.code, run.stderr).toBe(0);
+    const out = JSON.parse(run.stdout);
+    expect(out.excludedByPopulation).toBe(ref.excluded);
+    expect(out.n).toBe(ref.n);
+    expectAllClose(out.coefficients.map((c: { estimate: number }) => c.estimate), ref.coefficients.estimate, 1e-6, "Cox estimates");
+    expectAllClose(out.coefficients.map((c: { se: number }) => c.se), ref.coefficients.se, 1e-6, "Cox SE");
+  }, 60_000);
+});

@@ -165,3 +165,25 @@ write_json(list(
   contrasts = "pairwise", multiplicity = "hochberg"
 ), file.path(root, "models", "long-responder.json"), auto_unbox = TRUE, pretty = TRUE, digits = NA)
 cat("wrote", file.path(root, "values"), "\n")
+
+# ---- time to event: a Cox model on one of two records per patient, chosen by a population
+# condition (survival::colon, recurrence and death rows; the committed copy of the survival
+# reference data, so both read the same cells)
+suppressPackageStartupMessages(library(survival))
+colon <- read.csv("tests/reference/survival/data/colon-cluster-log.csv", comment.char = "#", stringsAsFactors = FALSE)
+deaths <- colon[colon$etype == 2, ]
+deaths$rx <- relevel(factor(deaths$rx), ref = "Obs")
+cfit <- coxph(Surv(time, status) ~ rx + factor(sex) + age + nodes, data = deaths, ties = "efron", control = coxph.control(eps = 1e-12))
+write_json(list(
+  case = "colon-deaths",
+  source = "survival::coxph on survival::colon rows with etype = 2 (death), Efron ties",
+  n = cfit$n,
+  excluded = nrow(colon) - nrow(deaths),
+  coefficients = list(name = names(coef(cfit)), estimate = num(coef(cfit)), se = num(sqrt(diag(vcov(cfit)))))
+), file.path(root, "values", "colon-deaths.json"), digits = NA, auto_unbox = TRUE, pretty = TRUE)
+write_json(list(
+  family = "cox", response = "time", status = list(column = "status", event = list(1)),
+  terms = list(list(variable = "rx", reference = "Obs"), list(variable = "sex", categorical = TRUE), list(variable = "age"), list(variable = "nodes")),
+  treatment = "rx", id = "id", ties = "efron",
+  population = list(list(column = "etype", `in` = list(2)))
+), file.path(root, "models", "colon-deaths.json"), auto_unbox = TRUE, pretty = TRUE, digits = NA)
