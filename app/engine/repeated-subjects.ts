@@ -24,9 +24,8 @@ export function refuseRepeatedSubjects(table: DataTable, idColumn: string, used:
     for (let m = 0; m < used.length; m++) if (ids[used[m]].trim() === id) rows.push(used[m]);
     const separating = table.names.filter((name) => name !== idColumn && new Set(rows.map((r) => table.columns[name][r].trim())).size > 1);
     const shown = separating.slice(0, 4).map((name) => `${name} (${[...new Set(rows.map((r) => table.columns[name][r].trim()))].slice(0, 4).join(", ")})`);
-    const where = rows.slice(0, 5).map((r) => table.rowNumbers[r]).join(", ");
     throw new EngineError(
-      `subject "${id}" (${idColumn}) appears in ${rows.length} analysed rows (data rows ${where}${rows.length > 5 ? ", …" : ""}), but this model analyses one row per subject: ` +
+      `subject "${id}" (${idColumn}) appears in ${rows.length} analysed rows, but this model analyses one row per subject: ` +
         (shown.length > 0
           ? `add population conditions on the columns that separate its records, ${shown.join(", ")}${separating.length > 4 ? ` and ${separating.length - 4} more` : ""}`
           : "its records are identical in every column; remove the duplicates from the dataset"),
