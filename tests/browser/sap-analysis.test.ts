@@ -6,7 +6,7 @@
  * arms and Holm's adjustment (errors shown beside the fields first); a second approves it; the
  * first reruns it and the page shows R's values (tests/reference/sap/generate.R: lm, emmeans,
  * car::Anova, p.adjust). Then the page, the API answer and the headless command, fed the planned
- * model's specification as the API gives it, agree.
+ * model's specification as the API gives it, agree, and so does the Word appendix once signed.
  */
 import { execFile } from "node:child_process";
 import { copyFileSync, mkdtempSync, readFileSync, writeFileSync } from "node:fs";
@@ -260,5 +260,29 @@ describe("a long dataset's primary analysis as the SAP states it", () => {
       const shown = pageValues[k].cells.slice(0, 5);
       expect(shown).toEqual([fmt(c.estimate), fmt(c.se), fmtCi(c.lower, c.upper), fmtP(c.p), fmtP(c.pAdjusted)]);
     });
+
+    // the Word appendix of the signed rerun: the same contrasts, the method named
+    const findings = await import("~/.server/reruns/findings.server");
+    for (const f of await findings.findingsOf(rerunId)) {
+      await findings.assessFinding(priya, studyId, f.id, { category: "model_assumption", impact: "none", action: "none", rationale: "Invented data; the treatment conclusion is unchanged." });
+    }
+    const tomas = { id: await personId(stack, "tomas.berg@plumbline.example"), name: "Tomas Berg", organisation: null, signedInAt: new Date().toISOString() };
+    await findings.signRerun(tomas, studyId, rerunId);
+    const { buildAppendixContent } = await import("~/.server/appendix/build-content.server");
+    const content = await buildAppendixContent(studyId, { kind: "rerun", rerunId });
+    const blocks = content.sections.flatMap((x) => x.blocks);
+    const table = blocks.find((b) => b.kind === "table" && b.key === `contrasts:${rerunId}`);
+    if (!table || table.kind !== "table") throw new Error("the appendix has no contrasts table");
+    expect(table.caption).toMatch(/between every pair of arms/);
+    expect(table.columns.map((c) => c.label)).toContain("p adjusted (Holm)");
+    expect(table.note).toMatch(/Holm method/);
+    expect(table.note).toContain(pageTest);
+    table.rows.forEach((row, k) => {
+      expect(row[0]).toBe(R.label[k]);
+      expect([row[1], row[2], row[3], row[5], row[6]]).toEqual(pageValues[k].cells.slice(0, 5));
+    });
+    const methods = blocks.filter((b) => b.kind === "paragraph").map((b) => (b.kind === "paragraph" ? b.text : "")).join(" ");
+    expect(methods).toMatch(/Holm \(step-down\) method \(Holm 1979\)/);
+    expect(methods).toContain("AGE from 18 to 75");
   }, 120_000);
 });
