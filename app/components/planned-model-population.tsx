@@ -16,7 +16,7 @@ export interface PopulationConditionFields {
   max: string;
 }
 
-/** A column with at most this many levels offers them as tick boxes (PICK_LEVELS_UP_TO on the server). */
+/** A column with at most this many levels offers them as tick boxes; others are typed. */
 const PICK_UP_TO = 20;
 
 const KIND_WORDS: Record<PopulationConditionFields["kind"], string> = { in: "is one of", notIn: "is none of", range: "lies within" };

@@ -3,6 +3,7 @@
  * contrasts were made, the multiplicity method, and the overall test of the treatment term
  * (F for a linear model, likelihood-ratio χ² for a generalized linear model).
  */
+import { CONTRAST_SET_NAMES } from "~/engine/multiplicity";
 import { fmt, fmtP } from "./format";
 
 export type TreatmentTestView =
@@ -33,7 +34,7 @@ export function treatmentTestWords(t: TreatmentTestView): string {
 export function TreatmentEffectNote({ plan }: { plan: TreatmentEffectPlan }) {
   return (
     <p className="num mt-2 text-sm">
-      {plan.test ? treatmentTestWords(plan.test) : null} Contrasts: {plan.contrastSet === "pairwise" ? "every pair of arms" : "each arm against the reference arm"}. Multiplicity adjustment:{" "}
+      {plan.test ? treatmentTestWords(plan.test) : null} Contrasts: {CONTRAST_SET_NAMES[plan.contrastSet]}. Multiplicity adjustment:{" "}
       {plan.multiplicity === "none" ? "none (p-values unadjusted)" : `${MULTIPLICITY_WORDS[plan.multiplicity]}, adjusted p beside the unadjusted p`}.
     </p>
   );

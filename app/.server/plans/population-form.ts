@@ -1,8 +1,8 @@
 /**
  * The editor's population conditions: each names a column and either the values a row must have
- * (`in`), the values it must not have (`notIn`), or a numeric range. Values are ticked from the
- * column's levels where it has few and typed (comma-separated) otherwise; they are checked against
- * the locked version's columns. The engine's `selectPopulation` applies the result.
+ * (`in`), the values it must not have (`notIn`), or a numeric range. Values come ticked or typed
+ * (comma-separated; planned-model-population.tsx decides which the editor offers) and are checked
+ * against the locked version's columns. The engine's `selectPopulation` applies the result.
  */
 import type { PopulationCondition, PopulationValue } from "~/engine/population";
 import type { ColumnMeta } from "../datasets/catalog.server";
@@ -10,8 +10,6 @@ import { isNumericType } from "../datasets/categorical-hint";
 
 /** Conditions the editor offers at most. */
 export const MAX_POPULATION_CONDITIONS = 12;
-/** A column with at most this many levels offers them as tick boxes. */
-export const PICK_LEVELS_UP_TO = 20;
 
 export type PopulationKind = "in" | "notIn" | "range";
 
