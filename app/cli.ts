@@ -11,7 +11,8 @@
  * and typed by the same readers as the web upload. `fit` prints one JSON result; `inspect`
  * prints one JSON object describing the file (format, rows, columns with label and type, key,
  * problems). Both exit 0; on bad input they print one line starting with "error:" on stderr
- * and exit 2.
+ * and exit 2. A model with a `"repeated"` key is a repeated-measures model (MMRM), one with
+ * `"family": "cox"` a time-to-event model; any other is linear or generalized linear.
  */
 import { readFileSync } from "node:fs";
 import { limitsFromEnv } from "./engine-io/dataset/limits";
@@ -23,6 +24,9 @@ import { selectPopulation } from "./engine/population";
 import { isCoxSpec, parseCoxSpec } from "./engine/survival/cox-spec";
 import { fitCoxModel } from "./engine/survival/cox-model";
 import { toCoxCliResult } from "./engine/survival/cox-result";
+import { checkReproduction } from "./engine/reproduction";
+import { isRepeatedSpec } from "./engine/repeated/repeated-spec";
+import { repeatedCliAnswer } from "./engine/repeated/repeated-result";
 
 const USAGE = "usage: cli fit --data FILE --model MODEL.json [--means equal|proportional] | cli inspect --data FILE (FILE: .csv, .json, .ndjson or .xpt)";
 
@@ -112,6 +116,10 @@ async function main(): Promise<number> {
     const table = await readData(args.data);
     const columns: Record<string, string[]> = {};
     table.names.forEach((name, j) => (columns[name] = table.cells[j]));
+    if (isRepeatedSpec(spec)) {
+      process.stdout.write(repeatedCliAnswer(spec, { columns, rowNumbers: table.rowNumbers }, { meansWeighting: args.means ?? "equal" }) + "\n");
+      return 0;
+    }
     const parsed = isCoxSpec(spec) ? parseCoxSpec(spec) : parseModelSpec(spec);
     const population = selectPopulation({ columns, rowNumbers: table.rowNumbers }, parsed.population);
     const populationFacts = { excludedByPopulation: population.excluded, population: population.byCondition };
@@ -121,7 +129,11 @@ async function main(): Promise<number> {
       return 0;
     }
     const result = fitModel(parsed, population.table, args.means ? { meansWeighting: args.means } : {});
-    process.stdout.write(stringifyResult({ ...toCliResult(result), ...populationFacts }) + "\n");
+    // the model's "published" values, when given, are checked against the fit (reproduction.ts)
+    const published = result.spec.published ?? [];
+    process.stdout.write(
+      stringifyResult({ ...toCliResult(result), ...populationFacts, ...(published.length > 0 ? { reproduction: checkReproduction(result, published) } : {}) }) + "\n",
+    );
     return 0;
   } catch (err) {
     if (err instanceof EngineError || err instanceof UsageError) {

@@ -11,7 +11,9 @@
  * runs the same work in R in the same run (lm, then hat values, Cook's distance, deletion
  * residuals and DFBETAS from one lm.influence) and prints the ratio of the times. Times are the
  * best of three runs up to n = 200 000 (one run above), for both. Above LARGE_DESIGN_CELLS design
- * cells the engine reuses the design's storage for Q (large-data mode).
+ * cells the engine reuses the design's storage for Q (large-data mode). Then one line each for a
+ * Cox model (bench-cox.ts) and a repeated-measures model (bench-mmrm.ts: 2 000 subjects × 6
+ * visits, unstructured, Satterthwaite, every diagnostic, beside nlme::gls, which takes minutes).
  */
 import { execFileSync, spawnSync } from "node:child_process";
 import { mkdtempSync, writeFileSync } from "node:fs";
@@ -20,6 +22,7 @@ import { join } from "node:path";
 import { fileURLToPath } from "node:url";
 import { fitWithObservationDiagnostics, LARGE_DESIGN_CELLS } from "../app/engine";
 import { benchCox } from "./bench-cox";
+import { benchMmrm } from "./bench-mmrm";
 
 interface Measurement {
   seconds: number;
@@ -158,6 +161,7 @@ function main(): void {
   console.log(`large-data mode (design storage reused for Q) above ${LARGE_DESIGN_CELLS.toLocaleString("en")} cells n·p`);
   console.log("targets: engine/R at most 0.5 at n = 200 000, p = 25; peak RSS within 1536 MiB at n = 1 000 000, p = 50");
   benchCox(withR);
+  benchMmrm(withR);
 }
 
 main();

@@ -6,7 +6,7 @@
 set -euo pipefail
 cd "$(dirname "$0")/.."
 
-debian_packages=(chromium libreoffice-writer-nogui r-base-core r-cran-car r-cran-lmtest r-cran-sandwich r-cran-nortest r-cran-emmeans r-cran-mass r-cran-survival r-cran-haven)
+debian_packages=(chromium libreoffice-writer-nogui r-base-core r-cran-car r-cran-lmtest r-cran-sandwich r-cran-nortest r-cran-emmeans r-cran-mass r-cran-survival r-cran-haven r-cran-nlme r-cran-numderiv r-cran-lme4 r-cran-pbkrtest r-cran-lmertest)
 missing=()
 for p in "${debian_packages[@]}"; do
   dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed" || missing+=("$p")
@@ -23,5 +23,7 @@ if [ ${#missing[@]} -gt 0 ]; then
 fi
 
 npm ci --no-audit --no-fund
+# Layer rules and lint first: a violation fails the run before the tests start.
+npm run lint
 npm run build
 npx vitest run

@@ -3,6 +3,7 @@ import { FieldError } from "./page";
 import { SurvivalSection, type SurvivalFields } from "./planned-model-survival";
 import { PopulationSection, type PopulationConditionFields } from "./planned-model-population";
 import { TreatmentEffectSection } from "./planned-model-analysis";
+import { PublishedValuesSection, type PublishedFields } from "./planned-model-published";
 
 export interface EditorColumn {
   name: string;
@@ -54,6 +55,8 @@ export interface EditorForm {
   multiplicity: string;
   /** Time-to-event fields (family "cox"). */
   survival?: SurvivalFields;
+  /** Values the study report printed, for the reproduction check (linear and generalized linear models). */
+  published?: PublishedFields[];
 }
 
 const LINKS: Record<string, string[]> = {
@@ -142,6 +145,7 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
     const out: string[][] = [];
     for (let i = 0; i < vars.length; i++) for (let j = i + 1; j < vars.length; j++) out.push([vars[i], vars[j]]);
     return out;
+    // eslint-disable-next-line react-hooks/exhaustive-deps -- keyed by the names included, not the array's identity
   }, [treatment, included.join("|")]);
 
   const toggleCovariate = (name: string, on: boolean) => {
@@ -311,6 +315,17 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
           <Select id="pm-offset" name="offset" label="Offset" value={initial.offset} options={colOptions((c) => c.type === "number")} placeholder="None" error={errors.offset} hint="For counts: the log of exposure time." />
         </div>
       </Section>
+
+      {family === "cox" ? null : (
+        <PublishedValuesSection
+          initial={initial.published ?? []}
+          family={family}
+          arms={levels(treatment).map((l) => l.value)}
+          reference={reference}
+          terms={[...(treatment ? [treatment] : []), ...included].map((v) => ({ variable: v, categorical: v === treatment || covariates.get(v)?.categorical === true || col(v)?.type !== "number", levels: levels(v).map((l) => l.value) }))}
+          errors={errors}
+        />
+      )}
 
       <Section title="Checks" note="Each check ends as within plan or as a finding. Defaults come from common practice; the source is given. Edit a threshold where the SAP states another.">
         <table className="data-table">

@@ -22,6 +22,8 @@ export interface PlannedModelView {
   sensitivity: string[];
   /** Time-to-event models: status, strata, ties and the PH test time scale, in words. */
   survival?: [string, string][];
+  /** Values the study report printed, which a rerun must reproduce, in words. */
+  published?: string[];
 }
 
 const num = (x: number) => (Number.isInteger(x) ? String(x) : x.toPrecision(4).replace(/0+$/, ""));
@@ -103,6 +105,16 @@ export function PlannedModelSummary({ m, actions }: { m: PlannedModelView; actio
             ) : (
               <p className="text-ink-soft">None planned.</p>
             )}
+            {m.published?.length ? (
+              <>
+                <p className="label mt-3">Published values to reproduce</p>
+                <ul className="list-disc pl-5">
+                  {m.published.map((s) => (
+                    <li key={s}>{s}</li>
+                  ))}
+                </ul>
+              </>
+            ) : null}
           </div>
         </div>
       </div>

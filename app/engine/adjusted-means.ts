@@ -11,7 +11,7 @@
  */
 import { designRow, type CategoricalVariable, type Variable } from "./design";
 import { tQuantile, tTwoSided } from "./distributions";
-import type { LinearFitContext } from "./linear-model";
+import type { LinearFitContext } from "./linear-fit-context";
 import type { ContrastSet } from "./model-spec";
 import { adjustPValues, type Multiplicity } from "./multiplicity";
 

@@ -79,3 +79,20 @@ export type { CoxSpec, CoxSpecInput, Ties, TimeTransform } from "./survival/cox-
 export { toCoxCliResult } from "./survival/cox-result";
 export type { ProportionalHazardsTest, ChiSquareTest } from "./survival/proportional-hazards";
 export type { LogRankTest } from "./survival/log-rank";
+export { fitRepeatedModel } from "./repeated/repeated-model";
+export type {
+  RepeatedResult,
+  RepeatedOptions,
+  RepeatedCoefficient,
+  VisitCovariance,
+  VisitMean,
+  VisitContrast,
+  RepeatedTest,
+  StructureTest,
+  StructureAttempt,
+  RepeatedObservationColumns,
+  SubjectRow,
+} from "./repeated/repeated-model";
+export { repeatedSpecSchema, parseRepeatedSpec, isRepeatedSpec, covarianceStructureSchema } from "./repeated/repeated-spec";
+export type { RepeatedSpec, RepeatedSpecInput, CovarianceStructureName, RepeatedDf, RepeatedMethod } from "./repeated/repeated-spec";
+export { toRepeatedCliResult } from "./repeated/repeated-result";

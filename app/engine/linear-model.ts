@@ -7,7 +7,8 @@ import { buildDesign, prepareData, type Design, type PreparedData, type Variable
 import { observationDiagnostics, partialResiduals, robustCovariances, type ObservationDiagnostics } from "./diagnostics";
 import { fUpper, tQuantile, tTwoSided } from "./distributions";
 import { EngineError } from "./errors";
-import { leastSquares, type LeastSquaresFit } from "./least-squares";
+import { leastSquares } from "./least-squares";
+import type { LinearFitContext } from "./linear-fit-context";
 import type { ContrastSet, ModelSpec } from "./model-spec";
 import type { Multiplicity } from "./multiplicity";
 import { andersonDarling, lilliefors, shapiroWilk, type AndersonDarlingTest, type NormalityTest } from "./normality";
@@ -146,16 +147,6 @@ export interface LinearModelResult {
   /** The plan's contrast set and multiplicity method (absent in results stored before they were planned). */
   readonly contrastSet?: ContrastSet | null;
   readonly multiplicity?: Multiplicity | null;
-}
-
-/** What the tests and adjusted means read from a fitted model. */
-export interface LinearFitContext {
-  readonly spec: ModelSpec;
-  readonly data: PreparedData;
-  readonly design: Design;
-  readonly fit: LeastSquaresFit;
-  /** Weights used in the fit, or null. */
-  readonly weights: Float64Array | null;
 }
 
 function toMatrix(m: Float64Array, p: number): number[][] {

@@ -1,6 +1,7 @@
 import { z } from "zod";
 import { populationSchema } from "./population";
 import { multiplicitySchema } from "./multiplicity";
+import { publishedValueSchema } from "./published-values";
 
 /** A main-effect term: one variable, continuous or categorical. */
 export const mainTermSchema = z
@@ -60,6 +61,8 @@ export const modelSpecSchema = z
     contrasts: contrastsSchema.optional(),
     /** Multiplicity adjustment of the treatment contrasts' p-values (default none). */
     multiplicity: multiplicitySchema.optional(),
+    /** Values a clinical study report printed, which the rerun must reproduce (reproduction.ts). */
+    published: z.array(publishedValueSchema).optional(),
   })
   .strict();
 

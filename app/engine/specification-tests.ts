@@ -7,7 +7,7 @@
 import { buildDesign, type ContinuousVariable } from "./design";
 import { fUpper } from "./distributions";
 import { residualSumOfSquares } from "./least-squares";
-import type { LinearFitContext } from "./linear-model";
+import type { LinearFitContext } from "./linear-fit-context";
 import type { FTest } from "./spread";
 
 /** F test of a larger model against the fitted one, from their residual sums of squares and ranks. */

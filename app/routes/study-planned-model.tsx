@@ -43,6 +43,7 @@ function blankForm(): PlannedModelForm {
     id: "",
     checks: defaultChecks(true),
     sensitivity: [],
+    published: [],
   };
 }
 

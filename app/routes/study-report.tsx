@@ -4,9 +4,10 @@ import { CoxReportTables } from "~/components/cox-results";
 import type { Route } from "./+types/study-report";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { Caution } from "~/components/caution";
-import { fmt, fmtCi, fmtP, utc } from "~/components/format";
+import { fmt, utc } from "~/components/format";
 import { PageHeader } from "~/components/page";
 import { AdjustedMeansTable, checkTally, CoefficientTable, ContrastsTable, SensitivityTable } from "~/components/rerun-results";
+import { ReproductionCard } from "~/components/reproduction-results";
 import { StatusLabel } from "~/components/status";
 import { getReport } from "~/.server/reports/reports.server";
 import { requireStudy } from "~/.server/study-access.server";
@@ -42,7 +43,7 @@ function Assessment({ a }: { a: { category: string; impact: string; action: stri
 }
 
 export default function ReportPage({ loaderData }: Route.ComponentProps) {
-  const { rerun, results, checks, findings, otherDeviations, comparison, signatures, appendix, studyId } = loaderData;
+  const { rerun, results, checks, findings, otherDeviations, comparison, signatures, appendix, studyId, reproduction } = loaderData;
   const appendixUrl = `/studies/${studyId}/appendix/download?rerun=${rerun.primaryId}`;
   return (
     <>
@@ -133,7 +134,7 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
         <section aria-labelledby="checks-h" className="space-y-3">
           <h2 id="checks-h">Checks of the plan</h2>
           <p className="text-sm text-ink-soft">
-            {checkTally(checks)}. Subjects are named by rank only.
+            {checkTally([...checks, ...(reproduction ? [{ outcome: reproduction.checkOutcome }] : [])])}. Subjects are named by rank only.
           </p>
           <div className="panel overflow-x-auto p-4">
             <table className="data-table">
@@ -178,6 +179,7 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
               </tbody>
             </table>
           </div>
+          {reproduction ? <ReproductionCard check={reproduction} /> : null}
         </section>
 
         <section className="space-y-3" aria-labelledby="findings-h">

@@ -9,10 +9,11 @@ import { SensitivityForest, type ForestRow } from "~/components/figures/sensitiv
 import { forestSpec } from "~/components/figures/specs";
 import { toVega } from "~/.server/figures/compile.server";
 import { WhatIfPanel, type WhatIfInputs } from "~/components/figures/what-if-panel";
-import { fmt, fmtCi, fmtP, utc } from "~/components/format";
+import { fmt, utc } from "~/components/format";
 import { FieldError, PageHeader } from "~/components/page";
 import { AdjustedMeansTable, CalibrationTable, CheckCard, checkTally, CoefficientTable, ContrastsTable, MarginalMeansTable, RatioTable, SensitivityTable } from "~/components/rerun-results";
 import { StatusLabel } from "~/components/status";
+import { ReproductionCard } from "~/components/reproduction-results";
 import { coxPageFigures, CoxResults } from "~/components/cox-results";
 import { canonicalJson } from "~/.server/audit.server";
 import { loadLockedTable } from "~/.server/datasets/catalog.server";
@@ -450,8 +451,9 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
           <section aria-labelledby="checks-h" className="space-y-3">
             <h2 id="checks-h">Checks of the plan</h2>
             <p className="text-sm text-ink-soft">
-              {checkTally(view.checks)}
+              {checkTally([...view.checks, ...(view.reproduction ? [{ outcome: view.reproduction.checkOutcome }] : [])])}
             </p>
+            {view.reproduction ? <ReproductionCard check={view.reproduction} /> : null}
             {view.checks.map((c) => (
               <CheckCard key={c.key} check={c} figure={<RerunFigure studyId={studyId} rerunId={rerun.id} figure={c.figure} term={checkTerm(view, c.figure)} />} />
             ))}

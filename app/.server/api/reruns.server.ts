@@ -10,7 +10,7 @@ import { and, desc, eq, inArray } from "drizzle-orm";
 import { db, t } from "../db/index.server";
 import { findingsOf, signaturesOf } from "../reruns/findings.server";
 import { checkView, reportedContrasts, treatmentEffectOf } from "../reruns/rerun-view.server";
-import { sensitivityReruns, type Rerun, type RerunDocument } from "../reruns/reruns.server";
+import { reproductionCheckOf, sensitivityReruns, type Rerun, type RerunDocument } from "../reruns/reruns.server";
 import { requireStudyForPrincipal } from "../study-access.server";
 import { seesSubjects } from "../permissions.server";
 import { redactionFor, type Redaction } from "../redaction.server";
@@ -191,7 +191,9 @@ function contrastNumbers(c: { se: number; statistic: number; p: number; pAdjuste
 }
 
 function checksOut(doc: RerunDocument, redact: Redaction): Body<typeof RerunAnswer>["checks"] {
-  return doc.checks.map((c) => {
+  const reproduction = reproductionCheckOf(doc);
+  const extra = reproduction ? [{ ...reproduction, flaggedCount: 0, flagged: [] }] : [];
+  return [...extra, ...doc.checks.map((c) => {
     const v = checkView(c, redact);
     return {
       key: c.key,
@@ -204,7 +206,7 @@ function checksOut(doc: RerunDocument, redact: Redaction): Body<typeof RerunAnsw
       flaggedCount: v.flaggedCount,
       flagged: v.flagged.map((f) => ({ rank: f.rank, value: finite(f.value), ...(redact.seesSubjects ? { subjectId: f.who } : {}) })),
     };
-  });
+  })];
 }
 
 const parseDoc = (r: Rerun): RerunDocument | null => (r.resultJson ? (JSON.parse(r.resultJson) as RerunDocument) : null);
@@ -230,6 +232,7 @@ export async function getStudyRerun(p: ApiPrincipal, studyId: string, rerunId: s
     rerun: { ...found.out, label: found.out.label === null ? null : txt(found.out.label), failureReason: found.out.failureReason === null ? null : txt(found.out.failureReason) },
     results: doc ? resultsOut(doc) : null,
     checks: doc ? checksOut(doc, redact) : [],
+    reproduction: doc?.reproduction ? { ...doc.reproduction, values: doc.reproduction.values.map((v) => ({ ...v, rerunValue: finite(v.rerunValue) })) } : null,
     findings: findings.map((f) => ({
       id: f.id,
       kind: f.kind,

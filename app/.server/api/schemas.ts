@@ -9,6 +9,7 @@ import { z } from "zod";
 import { CAUTION } from "~/components/caution";
 import { CHECKS, type CheckKey } from "~/engine/checks";
 import { modelSpecSchema } from "~/engine/model-spec";
+import { publishedValueSchema } from "~/engine/published-values";
 import { coxSpecSchema } from "~/engine/survival/cox-spec";
 import { STUDY_ROLES } from "../db/schema";
 import { STUDY_PERMISSIONS, type StudyAction } from "../permissions.server";
@@ -247,7 +248,7 @@ const checkKeys = CHECKS.map((c) => c.key) as [CheckKey, ...CheckKey[]];
 const Check = registry.register(
   "CheckOutcome",
   z.strictObject({
-    key: z.enum(checkKeys),
+    key: z.enum([...checkKeys, "reproduction"]).describe('"reproduction": the reproduction check of the published values (its values in the answer\'s `reproduction`)'),
     label: z.string(),
     outcome: z.enum(["within", "finding", "not_computed"]),
     statistic: z.string(),
@@ -295,10 +296,30 @@ export const RerunsAnswer = answer("RerunsAnswer", {
   reruns: z.array(Rerun).describe("Newest first. Sponsor readers get only published reruns."),
 });
 
+// Inlined, not registered: a registered schema made nullable is written as allOf [$ref, null],
+// which no null satisfies.
+const Reproduction = z.strictObject({
+  outcome: z.enum(["reproduced", "not_reproduced"]),
+  rule: z.string().describe("The rounding rule applied"),
+  values: z.array(
+    z.strictObject({
+      published: publishedValueSchema,
+      quantity: z.string().describe("The quantity in words, naming the rerun's coefficient or contrast"),
+      printed: z.string().describe("The value as the study report printed it"),
+      decimals: z.int(),
+      rerunValue: Num.describe("As computed; null when the rerun has no such quantity"),
+      rerunRounded: z.string().nullable().describe("The rerun's value rounded to the printed decimals, half away from zero"),
+      outcome: z.enum(["reproduced", "not_reproduced"]),
+      reason: z.string(),
+    }),
+  ),
+});
+
 export const RerunAnswer = answer("RerunAnswer", {
   rerun: Rerun,
   results: Results.nullable().describe("Null until the rerun has completed"),
-  checks: z.array(Check),
+  checks: z.array(Check).describe('The checks of the plan; the reproduction check ("reproduction") is among them when the plan gives published values'),
+  reproduction: Reproduction.nullable().describe("Each published value against the rerun; null when the plan gives none or the rerun has not completed"),
   findings: z.array(Finding),
   signatures: z.array(z.strictObject({ signerName: z.string(), meaning: z.string(), signedAt: Time })),
   sensitivity: z

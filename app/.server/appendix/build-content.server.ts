@@ -29,6 +29,7 @@ import { methodsProse } from "./methods";
 import { COX_FIGURE_WORDS, coxResultBlocks, coxMarkedInWords } from "./cox-content";
 import { coxFigureList } from "../reruns/cox-figure-data.server";
 import { currentNarratives, type Narrative } from "./narratives.server";
+import { REPRODUCTION_FINDING_LABEL, reproductionBlocks, reproductionCheckRows } from "./reproduction-content";
 
 export type AppendixScope = { kind: "rerun"; rerunId: string } | { kind: "plan_version"; planVersionId: string };
 
@@ -357,9 +358,9 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
       number: next.table(),
       caption: `Diagnostic checks of the plan and their outcome, ${p.modelTitle}`,
       columns: [{ label: "Check" }, { label: "Statistic" }, { label: "Threshold" }, { label: "Outcome" }],
-      rows: p.doc.checks.map((c) => [c.label, p.redact.countOnly(c.statistic), c.threshold, outcomeInWords(c, p.doc.result.n, p.redact)]),
+      rows: [...p.doc.checks.map((c) => [c.label, p.redact.countOnly(c.statistic), c.threshold, outcomeInWords(c, p.doc.result.n, p.redact)]), ...reproductionCheckRows(p.doc)],
       note: "Subjects beyond a threshold are counted, not named. Thresholds as the plan states them (n subjects, p coefficients).",
-    });
+    }, ...reproductionBlocks(p.doc, p.rerunId, p.modelTitle, next.table));
   }
   sections.push({ key: "checks", title: SECTION_TITLES.checks, blocks: [...checks, ...narrativeBlock("checks", notes.get("checks"))] });
 
@@ -371,7 +372,7 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
   for (const p of parts) {
     const rows = [
       ...p.findings.map((f) => [
-        CHECK_BY_KEY.get(f.checkKey as never)?.label ?? (f.kind === "not_estimable" ? "Estimability" : f.checkKey),
+        CHECK_BY_KEY.get(f.checkKey as never)?.label ?? (f.kind === "not_estimable" ? "Estimability" : f.checkKey === "reproduction" ? REPRODUCTION_FINDING_LABEL : f.checkKey),
         p.redact.countOnly(f.summary),
         f.assessment ? CATEGORIES[f.assessment.category] : "Not assessed",
         f.assessment ? IMPACTS[f.assessment.impact] : "—",

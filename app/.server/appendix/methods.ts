@@ -105,6 +105,12 @@ export function methodsProse(m: MethodsInput): { paragraphs: string[]; checks: s
   paragraphs.push(
     "The plan committed to the diagnostic checks below, each with a threshold fixed before the data were seen. A check whose statistic crossed its threshold was recorded as a finding; every finding was assessed and documented as a deviation before the rerun was signed.",
   );
+  const published = s.family === "cox" ? 0 : (s.published?.length ?? 0);
+  if (published > 0) {
+    paragraphs.push(
+      `The plan listed ${published === 1 ? "one value" : `${published} values`} printed in the clinical study report for this model. The rerun's own value for each was rounded to the number of decimals printed, half away from zero, and compared with the printed value (a p-value printed as a bound, such as "<0.001", was reproduced when the rerun's p-value was below it). A value not reproduced was a finding of the reproduction check, assessed like the findings of the diagnostic checks.`,
+    );
+  }
   const checks = m.checks
     .filter((c) => c.enabled)
     .map((c) => {

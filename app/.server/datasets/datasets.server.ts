@@ -4,7 +4,7 @@
  * one write transaction with its audit event.
  */
 import { createHash } from "node:crypto";
-import { open, readFile, writeFile } from "node:fs/promises";
+import { readFile, writeFile } from "node:fs/promises";
 import { and, asc, desc, eq, inArray, isNull, ne } from "drizzle-orm";
 import { stringify } from "csv-stringify/sync";
 import { appendAudit, type Actor } from "../audit.server";

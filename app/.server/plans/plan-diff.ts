@@ -4,6 +4,7 @@
  */
 import { describePopulation } from "~/engine/population";
 import { CHECK_BY_KEY } from "~/engine/checks";
+import { publishedInWords } from "~/engine/published-values";
 import type { PlannedModel } from "./planned-model";
 import { SENSITIVITY_LABELS } from "./planned-model";
 
@@ -90,6 +91,11 @@ function compareModel(a: PlannedModel, b: PlannedModel): string[] {
   const tauA = a.sensitivity.find((s) => s.kind === "cox_rmst")?.tau;
   const tauB = b.sensitivity.find((s) => s.kind === "cox_rmst")?.tau;
   if (tauA !== undefined && tauB !== undefined && tauA !== tauB) out.push(`${SENSITIVITY_LABELS.cox_rmst}: horizon τ ${tauA} → ${tauB}`);
+  const published = (m: PlannedModel) => (m.spec.family === "cox" ? [] : (m.spec.published ?? []).map((v) => publishedInWords(v)));
+  const pa = published(a);
+  const pb = published(b);
+  for (const v of pb) if (!pa.includes(v)) out.push(`Published value added: ${v}`);
+  for (const v of pa) if (!pb.includes(v)) out.push(`Published value removed: ${v}`);
   return out;
 }
 

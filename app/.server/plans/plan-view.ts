@@ -4,6 +4,7 @@ import type { CoxSpec } from "~/engine/survival/cox-spec";
 import { CHECK_BY_KEY } from "~/engine/checks";
 import { CONTRAST_SET_NAMES, MEANS_WEIGHTING_NAMES, MULTIPLICITY_NAMES } from "~/engine/multiplicity";
 import { describePopulation } from "~/engine/population";
+import { publishedInWords } from "~/engine/published-values";
 import type { PlannedModelView } from "~/components/planned-model-summary";
 import { SENSITIVITY_LABELS } from "./planned-model";
 import type { StoredPlannedModel } from "./plans.server";
@@ -64,5 +65,6 @@ export function plannedModelView(m: StoredPlannedModel): PlannedModelView {
             ? `${SENSITIVITY_LABELS[s.kind]} to τ = ${s.tau}`
             : SENSITIVITY_LABELS[s.kind],
     ),
+    published: m.spec.family === "cox" ? [] : (m.spec.published ?? []).map((v) => publishedInWords(v, treatment?.reference)),
   };
 }

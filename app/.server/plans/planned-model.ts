@@ -14,6 +14,7 @@ import type { ColumnMeta } from "../datasets/catalog.server";
 import { categoricalHints, isNumericType } from "../datasets/categorical-hint";
 import { coxSpecSchema } from "~/engine/survival/cox-spec";
 import { readSurvivalForm, survivalFormOf, validateSurvival, type SurvivalForm } from "./cox-planned-model";
+import { publishedFormOf, readPublishedForm, validatePublished, type PublishedRowForm } from "./published-planned-values";
 
 export const SENSITIVITY_KINDS = ["robust_hc3", "variance_function", "exclude_influential", "alternative_covariates", "quasi_poisson", "negative_binomial", "cox_robust_subject", "cox_unstratified", "cox_rmst"] as const;
 export type SensitivityKind = (typeof SENSITIVITY_KINDS)[number];
@@ -115,6 +116,8 @@ export interface PlannedModelForm {
   multiplicity: string;
   /** Time-to-event fields, read when the family is "cox" (cox-planned-model.ts). */
   survival?: SurvivalForm;
+  /** Values the study report printed, for the reproduction check (published-planned-values.ts). */
+  published: PublishedRowForm[];
 }
 
 const str = (f: FormData, k: string): string => String(f.get(k) ?? "").trim();
@@ -167,6 +170,7 @@ export function readPlannedModelForm(f: FormData): PlannedModelForm {
       remedy: str(f, `check:${c.key}:remedy`) || c.defaultRemedy,
     })),
     ...(str(f, "family") === "cox" ? { survival: readSurvivalForm(f) } : {}),
+    published: readPublishedForm(f),
     sensitivity: SENSITIVITY_KINDS.filter((k) => f.get(`sensitivity:${k}`) === "on").map((kind) => ({
       kind,
       ...(kind === "variance_function" ? { varianceBy: str(f, "sensitivity:varianceBy") === "treatment" ? ("treatment" as const) : ("fitted" as const) } : {}),
@@ -315,6 +319,18 @@ export function validatePlannedModel(
       errors["sensitivity:varianceBy"] = "Variance per arm needs a treatment variable.";
   }
 
+  const published = validatePublished(
+    form.published,
+    {
+      family,
+      treatment: form.treatment,
+      reference: form.treatmentReference,
+      mainTerms: terms.flatMap((t) => ("variable" in t ? [{ variable: t.variable, categorical: t.categorical === true }] : [])),
+      columns: col,
+    },
+    errors,
+  );
+
   if (family === "cox") {
     const cox = validateSurvival(form, terms, dataset, errors);
     if (!cox || Object.keys(errors).length > 0) return { ok: false, errors };
@@ -346,6 +362,7 @@ export function validatePlannedModel(
     ...(means.data && means.data !== "equal" ? { means: means.data } : {}),
     ...(contrasts.data && contrasts.data !== "reference" ? { contrasts: contrasts.data } : {}),
     ...(multiplicity.data && multiplicity.data !== "none" ? { multiplicity: multiplicity.data } : {}),
+    ...(published.length > 0 ? { published } : {}),
   });
   return {
     ok: true,
@@ -375,6 +392,7 @@ export function toForm(m: PlannedModel): PlannedModelForm {
     id: spec.id ?? "",
     checks: m.checks,
     sensitivity: m.sensitivity,
+    published: spec.family === "cox" ? [] : publishedFormOf(spec.published),
   };
   return spec.family === "cox"
     ? { ...shared, family: "cox", link: "", means: "equal", contrasts: "reference", multiplicity: "none", survival: survivalFormOf(spec) }

@@ -119,6 +119,8 @@ export async function getReport(studyId: string, rerunId: string) {
       /** Time-to-event models: hazard ratios, the model's tests and the proportional-hazards test (no subject-level data). */
       cox: view.kind === "cox" ? { robust: view.robust, ratios: view.ratios, tests: view.tests, proportionalHazards: view.proportionalHazards, events: view.fit.events, concordance: view.fit.concordance } : null,
     },
+    /** The reproduction check of the published values, when the plan gives them (reproduction-results.tsx). */
+    reproduction: "reproduction" in view ? view.reproduction : null,
     checks: view.checks.map((c) => ({
       key: c.key,
       label: c.label,

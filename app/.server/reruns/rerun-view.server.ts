@@ -7,6 +7,7 @@
 import { populationStepsOf } from "./rerun-population";
 import type { CheckOutcome } from "~/engine/checks";
 import type { TreatmentEffectPlan } from "~/components/treatment-effect";
+import { reproductionAsCheck } from "~/engine/reproduction";
 import type { Redaction } from "../redaction.server";
 import type { RerunDocument } from "./reruns.server";
 import { coxReportedContrasts, coxRerunView, restrictedMeanContrasts } from "./cox-rerun-view.server";
@@ -100,6 +101,20 @@ export function checkView(c: CheckOutcome, redact: Redaction) {
   };
 }
 
+/** The reproduction check as the results page shows it (reproduction-results.tsx); null when the plan gives no published values. */
+export function reproductionView(doc: RerunDocument) {
+  if (!doc.reproduction) return null;
+  const check = reproductionAsCheck(doc.reproduction);
+  return {
+    outcome: doc.reproduction.outcome,
+    rule: doc.reproduction.rule,
+    label: check.label,
+    statistic: check.statistic,
+    checkOutcome: check.outcome,
+    values: doc.reproduction.values.map(({ published: _published, ...v }) => v),
+  };
+}
+
 export function rerunView(doc: RerunDocument, redact: Redaction) {
   if (doc.result.kind === "cox") return coxRerunView(doc, doc.result, redact);
   const r = doc.result;
@@ -121,6 +136,7 @@ export function rerunView(doc: RerunDocument, redact: Redaction) {
     terms: r.terms,
     continuousTerms: r.variables.filter((v) => v.kind === "continuous" && v.name !== r.spec.response).map((v) => v.name),
     checks: doc.checks.map((c) => checkView(c, redact)),
+    reproduction: reproductionView(doc),
     engineVersion: doc.engineVersion,
     caution: doc.caution,
   };

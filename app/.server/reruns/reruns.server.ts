@@ -11,6 +11,7 @@ import { LRUCache } from "lru-cache";
 import { data } from "react-router";
 import { evaluateChecks, type CheckOutcome } from "~/engine/checks";
 import { evaluateCoxChecks } from "~/engine/survival/cox-checks";
+import { checkReproduction, reproductionAsCheck, type ReproductionResult } from "~/engine/reproduction";
 import { fitCoxModel, type CoxResult } from "~/engine/survival/cox-model";
 import type { CoxSpec } from "~/engine/survival/cox-spec";
 import { restrictedMeanByArm, type RestrictedMeanDifference } from "~/engine/survival/rmst";
@@ -52,6 +53,13 @@ export interface RerunDocument {
   coxFunctionalForm?: FunctionalFormTest[];
   /** Cox reruns of the restricted-mean analysis: each arm against the reference, to the horizon τ. */
   restrictedMean?: RestrictedMeanDifference[];
+  /** The planned analysis of a model whose plan gives published values: the reproduction check (reproduction.ts). */
+  reproduction?: ReproductionResult;
+}
+
+/** The reproduction check as one of the rerun's checks (key "reproduction"), when the plan gives published values. */
+export function reproductionCheckOf(doc: RerunDocument) {
+  return doc.reproduction ? reproductionAsCheck(doc.reproduction) : null;
 }
 
 export const RERUN_JOB = "rerun";
@@ -165,7 +173,8 @@ export function computeRerun(model: StoredPlannedModel, table: ColumnTable, opti
     default:
       result = fitModel(spec, working);
   }
-  return doc(result, evaluateChecks(result, model.checks));
+  const published = options.variant === "planned" ? (spec.published ?? []) : [];
+  return { ...doc(result, evaluateChecks(result, model.checks)), ...(published.length > 0 ? { reproduction: checkReproduction(result, published) } : {}) };
 }
 
 export function hashDocument(json: string): string {
@@ -214,8 +223,9 @@ export async function executeRerun(rerunId: string): Promise<void> {
       .where(eq(t.reruns.id, rerunId));
     if (rerun.kind === "primary") {
       const found = doc.checks.filter((c) => c.outcome === "finding");
+      const notReproduced = reproductionCheckOf(doc)?.outcome === "finding";
       // Nothing to assess: the rerun awaits sign-off as soon as it completes.
-      if (found.length === 0) await notifyRerunAwaitsSignOff(tx, { studyId: rerun.studyId, rerunId });
+      if (found.length === 0 && !notReproduced) await notifyRerunAwaitsSignOff(tx, { studyId: rerun.studyId, rerunId });
       for (const c of found) {
         await tx.insert(t.findings).values({
           id: newId(),
@@ -228,6 +238,10 @@ export async function executeRerun(rerunId: string): Promise<void> {
           detailJson: canonicalJson({ flaggedCount: c.flagged?.length ?? 0 }),
         });
       }
+      const reproduction = reproductionCheckOf(doc);
+      if (reproduction?.outcome === "finding") {
+        await tx.insert(t.findings).values({ id: newId(), rerunId, checkKey: reproduction.key, kind: "check", statistic: reproduction.statistic, threshold: reproduction.threshold, summary: `${reproduction.label}: ${reproduction.summary}`, detailJson: canonicalJson({ flaggedCount: 0 }) });
+      }
     }
     await appendAudit(
       {
@@ -236,7 +250,7 @@ export async function executeRerun(rerunId: string): Promise<void> {
         entityType: "rerun",
         entityId: rerunId,
         studyId: rerun.studyId,
-        after: { resultSha256: hash, findings: doc.checks.filter((c) => c.outcome === "finding").length },
+        after: { resultSha256: hash, findings: doc.checks.filter((c) => c.outcome === "finding").length + (reproductionCheckOf(doc)?.outcome === "finding" ? 1 : 0) },
       },
       tx,
     );

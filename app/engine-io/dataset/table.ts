@@ -94,7 +94,6 @@ export function checkNames(file: string, names: string[], limits: ReadLimits, pr
       problems.add(`${file}: the name of column ${i + 1} holds a byte-order mark (U+FEFF)${i === 0 ? ": the file starts with two byte-order marks" : ""}. Save the file again as UTF-8 with at most one byte-order mark.`);
       return;
     }
-    // eslint-disable-next-line no-control-regex
     if (/[\u0000-\u001f\u007f]/.test(name)) {
       problems.add(`${file}: the name of column ${i + 1} ("${shown.replace(/[\u0000-\u001f\u007f]/g, "?")}") holds a control character. Rename the column.`);
       return;
