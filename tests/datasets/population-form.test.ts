@@ -6,6 +6,7 @@
 import { describe, expect, it } from "vitest";
 import type { ColumnMeta } from "~/.server/datasets/catalog.server";
 import { populationFormOf, readPopulationForm, validatePopulation } from "~/.server/plans/population-form";
+import { legacyPopulationSchema, plannedModelSchema, populationOf, withLegacyPopulation } from "~/.server/plans/planned-model";
 
 const col = (name: string, type: ColumnMeta["type"], levels?: string[]): ColumnMeta => ({
   name,
@@ -69,5 +70,23 @@ describe("population conditions from the editor", () => {
 
   it("reads the single flag = value fields of older scripts as one condition", () => {
     expect(readPopulationForm(form([["populationColumn", "EFFFL"], ["populationValue", "Y"]]))).toEqual([{ column: "EFFFL", kind: "in", values: ["Y"], min: "", max: "" }]);
+  });
+});
+
+describe("plans stored before population conditions", () => {
+  it("carry their one column = value into the specification as an in condition, as plans.server.ts reads them", () => {
+    const spec = { response: "chg", family: "gaussian", terms: [{ variable: "arm", categorical: true }], treatment: "arm" };
+    const stored = plannedModelSchema.parse({
+      key: "primary",
+      title: "Primary",
+      datasetName: "adeff",
+      spec: withLegacyPopulation(spec as never, legacyPopulationSchema.parse({ column: "fasfl", value: "Y" })),
+      checks: [],
+      sensitivity: [],
+    });
+    expect(populationOf(stored)).toEqual([{ column: "fasfl", in: ["Y"] }]);
+    // a specification that already states its population keeps it
+    expect(withLegacyPopulation({ population: [{ column: "EFFFL", in: ["Y"] }] }, { column: "fasfl", value: "Y" }).population).toEqual([{ column: "EFFFL", in: ["Y"] }]);
+    expect(withLegacyPopulation({}, null)).toEqual({});
   });
 });
