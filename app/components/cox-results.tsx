@@ -119,10 +119,10 @@ export function ChiSquareTable({
         <tr>
           <th scope="col">{first}</th>
           <th scope="col" className="text-right">
-            χ²
+            Statistic (χ²)
           </th>
           <th scope="col" className="text-right">
-            df
+            Degrees of freedom
           </th>
           <th scope="col" className="text-right">
             p

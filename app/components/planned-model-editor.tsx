@@ -4,6 +4,8 @@ import { SurvivalSection, type SurvivalFields } from "./planned-model-survival";
 import { PopulationSection, type PopulationConditionFields } from "./planned-model-population";
 import { TreatmentEffectSection } from "./planned-model-analysis";
 import { PublishedValuesSection, type PublishedFields } from "./planned-model-published";
+import { interactionName } from "~/engine/coefficient-names";
+import { linkWords } from "~/engine/family-names";
 
 export interface EditorColumn {
   name: string;
@@ -201,8 +203,8 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
       <Section title="Endpoint and model">
         <div className="grid gap-3 md:grid-cols-3">
           <Select id="pm-response" name="response" label={family === "cox" ? "Follow-up time (event or censoring)" : "Endpoint (response)"} value={response} onChange={setResponse} options={colOptions()} placeholder="Choose a column" error={errors.response} />
-          <Select id="pm-family" name="family" label="Family" value={family} onChange={setFamily} error={errors.family} options={[{ value: "gaussian", label: "Gaussian (linear model)" }, { value: "binomial", label: "Binomial (responder)" }, { value: "poisson", label: "Poisson (counts)" }, { value: "cox", label: "Time to event (Cox proportional hazards)" }]} />
-          {family === "cox" ? <p className="self-end pb-2 text-xs text-ink-soft">Log hazard ratios by partial likelihood; no link to choose.</p> : <Select id="pm-link" name="link" label="Link" value={LINKS[family]?.includes(initial.link) ? initial.link : ""} options={(LINKS[family] ?? []).map((l) => ({ value: l, label: l }))} placeholder="Canonical" />}
+          <Select id="pm-family" name="family" label="Family" value={family} onChange={setFamily} error={errors.family} options={[{ value: "gaussian", label: "Normal (linear model)" }, { value: "binomial", label: "Binomial (responder)" }, { value: "poisson", label: "Poisson (counts)" }, { value: "cox", label: "Time to event (Cox proportional hazards)" }]} />
+          {family === "cox" ? <p className="self-end pb-2 text-xs text-ink-soft">Log hazard ratios by partial likelihood; no link to choose.</p> : <Select id="pm-link" name="link" label="Link" value={LINKS[family]?.includes(initial.link) ? initial.link : ""} options={(LINKS[family] ?? []).map((l) => ({ value: l, label: linkWords(l) }))} placeholder="Canonical" />}
         </div>
         <div className="mt-3 grid gap-3 md:grid-cols-3">
           <Select id="pm-treatment" name="treatment" label="Treatment variable" value={treatment} onChange={(v) => { setTreatment(v); setReference(""); }} options={colOptions(categoricalColumns)} placeholder="No treatment term" error={errors.treatment} />
@@ -302,7 +304,7 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
                 return (
                   <label key={k} className="inline-flex items-center gap-1.5 text-sm">
                     <input type="checkbox" name="interaction" value={k} checked={interactions.has(k)} onChange={(e) => { const next = new Set(interactions); if (e.target.checked) next.add(k); else next.delete(k); setInteractions(next); }} />
-                    {pair.join(" by ")}
+                    {interactionName(pair)}
                   </label>
                 );
               })}

@@ -1,4 +1,4 @@
-
+import { familyWithLink, familyWords } from "~/engine/family-names";
 export interface PlannedModelView {
   id: string;
   key: string;
@@ -34,7 +34,7 @@ export function PlannedModelSummary({ m, actions }: { m: PlannedModelView; actio
     ["Dataset", m.datasetName],
     ["Population", m.population],
     ["Endpoint", m.response],
-    ["Family and link", `${m.family}, ${m.link}`],
+    ["Distribution and link", m.family === "cox" ? `${familyWords("cox")}: ${m.link}` : familyWithLink(m.family, m.link)],
     ["Treatment", m.treatment ? `${m.treatment} (reference ${m.reference ?? "first level"})` : "none"],
     ["Covariates", m.covariates.length ? m.covariates.join("; ") : "none"],
     ["Interactions", m.interactions.length ? m.interactions.join("; ") : "none"],

@@ -118,6 +118,18 @@ interface ContrastRow {
   p: number;
   pAdjusted?: number;
   hc3: { se: number; lower: number; upper: number; p: number; pAdjusted?: number } | null;
+  /** "log" for a ratio, whose SEs are those of the log ratio. */
+  seScale?: "response" | "log";
+}
+
+/** An SE cell: a ratio's SE is that of its logarithm, and says so. */
+function SeCell({ se, scale }: { se: number | null | undefined; scale?: "response" | "log" }) {
+  return (
+    <td className="num text-right whitespace-nowrap">
+      {fmt(se)}
+      {scale === "log" && se !== null && se !== undefined ? <span className="text-xs text-ink-soft"> (log)</span> : null}
+    </td>
+  );
 }
 
 export function ContrastsTable({ rows, kind = "linear", plan }: { rows: readonly ContrastRow[]; kind?: "linear" | "glm"; plan?: Pick<TreatmentEffectPlan, "contrastSet" | "multiplicity"> }) {
@@ -129,7 +141,7 @@ export function ContrastsTable({ rows, kind = "linear", plan }: { rows: readonly
       <caption className="mb-1 text-left text-xs text-ink-soft">
         {kind === "linear"
           ? `Treatment contrasts ${against} (difference in adjusted means).`
-          : `Marginal treatment effects ${against} by standardization over the rows used (delta-method SE, Ge et al. 2011; robust SE valid under misspecification, Ye et al. 2023).`}
+          : `Marginal treatment effects ${against} by standardization over the rows used (delta-method SE, Ge et al. 2011; robust SE valid under misspecification, Ye et al. 2023). A ratio's SE, marked (log), is that of the log ratio; its estimate and interval are ratios.`}
         {adjusted ? ` Adjusted p: ${adjusted} method, within each family of contrasts${kind === "glm" ? " of one measure" : ""}.` : ""}
       </caption>
       <thead>
@@ -175,11 +187,11 @@ export function ContrastsTable({ rows, kind = "linear", plan }: { rows: readonly
               {c.label}
             </th>
             <td className="num text-right font-semibold">{fmt(c.estimate)}</td>
-            <td className="num text-right">{fmt(c.se)}</td>
+            <SeCell se={c.se} scale={c.seScale} />
             <td className="num text-right whitespace-nowrap">{fmtCi(c.lower, c.upper)}</td>
             <td className="num text-right">{fmtP(c.p)}</td>
             {adjusted ? <td className="num text-right">{fmtP(c.pAdjusted)}</td> : null}
-            <td className="num text-right">{fmt(c.hc3?.se)}</td>
+            <SeCell se={c.hc3?.se} scale={c.seScale} />
             <td className="num text-right whitespace-nowrap">{c.hc3 ? fmtCi(c.hc3.lower, c.hc3.upper) : "does not apply"}</td>
             <td className="num text-right">{fmtP(c.hc3?.p)}</td>
             {adjusted ? <td className="num text-right">{fmtP(c.hc3?.pAdjusted)}</td> : null}
@@ -244,25 +256,33 @@ interface CalibrationGroup {
   expected: number;
 }
 
-/** The Hosmer–Lemeshow groups behind the calibration figure: observed against expected events per group of predicted risk. */
+/**
+ * The groups of predicted risk behind the calibration figure (Hosmer and Lemeshow's grouping):
+ * per group, the events the model expects beside the events seen, and the gap between them.
+ */
 export function CalibrationTable({ groups }: { groups: readonly CalibrationGroup[] }) {
   return (
     <table className="data-table">
-      <caption className="mb-1 text-left text-xs text-ink-soft">Hosmer–Lemeshow groups, lowest predicted risk first: events observed and expected under the model.</caption>
+      <caption className="mb-1 text-left text-xs text-ink-soft">
+        Subjects in {groups.length} groups of equal size by predicted risk, lowest risk first: does the model expect as many events as happened in each group?
+      </caption>
       <thead>
         <tr>
-          <th scope="col">Group</th>
+          <th scope="col">Risk group</th>
           <th scope="col" className="text-right">
             Subjects
           </th>
           <th scope="col" className="text-right">
-            Mean predicted risk
+            Predicted risk (mean)
           </th>
           <th scope="col" className="text-right">
-            Observed events
+            Events expected
           </th>
           <th scope="col" className="text-right">
-            Expected events
+            Events seen
+          </th>
+          <th scope="col" className="text-right">
+            Seen − expected
           </th>
         </tr>
       </thead>
@@ -274,8 +294,9 @@ export function CalibrationTable({ groups }: { groups: readonly CalibrationGroup
             </th>
             <td className="num text-right">{g.n}</td>
             <td className="num text-right">{fmt(g.meanPredicted)}</td>
-            <td className="num text-right">{g.observed}</td>
             <td className="num text-right">{fmt(g.expected, 1)}</td>
+            <td className="num text-right">{g.observed}</td>
+            <td className="num text-right">{fmt(Math.abs(g.observed - g.expected) < 0.05 ? 0 : g.observed - g.expected, 1)}</td>
           </tr>
         ))}
       </tbody>
@@ -336,6 +357,18 @@ export interface CheckCardData {
   remedy: string;
   flagged: { rank: number; value: number; who: string }[];
   flaggedCount: number;
+  /** The statistic's formula where its name alone does not say it (the collinearity check). */
+  formula?: { name: string; symbol: string; exponent: string; words: string } | null;
+}
+
+/** A check's formula in proper notation, with what it means. */
+export function CheckFormulaNote({ formula }: { formula: NonNullable<CheckCardData["formula"]> }) {
+  return (
+    <p className="text-xs text-ink-soft">
+      <span className="font-semibold">{formula.name}</span> = {formula.symbol}
+      <sup>{formula.exponent}</sup>: {formula.words}.
+    </p>
+  );
 }
 
 const OUTCOME: Record<CheckCardData["outcome"], { status: "within" | "finding" | "pending"; word: string }> = {
@@ -370,6 +403,7 @@ export function CheckCard({ check, figure }: { check: CheckCardData; figure?: Re
             <dd className="num">{check.threshold}</dd>
           </dl>
           <p>{check.summary}</p>
+          {check.formula ? <CheckFormulaNote formula={check.formula} /> : null}
           {check.flagged.length > 0 ? (
             <table className="data-table">
               <caption className="text-left text-xs text-ink-soft">

@@ -5,6 +5,7 @@
  */
 import type { GlmResult } from "./glm/glm-model";
 import type { LinearModelResult } from "./linear-model";
+import { INTERCEPT_NAME } from "./coefficient-names";
 import { COX_CHECKS } from "./survival/cox-check-catalogue";
 
 type ModelResult = LinearModelResult | GlmResult;
@@ -45,6 +46,16 @@ export interface CheckDefinition {
   needsTreatment?: boolean;
   /** Which models the check applies to ("both": linear and generalized linear). */
   models: "linear" | "glm" | "both" | "cox";
+  /** The statistic's formula where its name alone does not say it: a symbol raised to a power, and the same in words. */
+  formula?: CheckFormula;
+}
+
+/** A formula shown beside a check: `symbol` to the power `exponent` (set as a superscript), and what it means. */
+export interface CheckFormula {
+  name: string;
+  symbol: string;
+  exponent: string;
+  words: string;
 }
 
 export type FigureKey =
@@ -89,7 +100,7 @@ export const CHECKS: readonly CheckDefinition[] = [
     key: "deletion_residual",
     models: "both",
     label: "Deletion residual",
-    rule: "finding when any subject's |deletion residual| exceeds k",
+    rule: "finding when any subject's deletion residual t is beyond ±k (|t| > k)",
     defaultThreshold: 3,
     source: "|t| > 3, a common screening bound for outlying responses",
     defaultRemedy: "Review the flagged subjects; sensitivity analysis excluding them",
@@ -150,8 +161,8 @@ export const CHECKS: readonly CheckDefinition[] = [
   {
     key: "homogeneity_of_slopes",
     models: "linear",
-    label: "Homogeneity of slopes",
-    rule: "finding when the joint F test of treatment-by-covariate interactions has p below k",
+    label: "Same covariate slopes in every arm (treatment × continuous covariates)",
+    rule: "finding when the joint F test of the treatment × continuous covariate interactions has p below k: a covariate's slope may differ between arms",
     defaultThreshold: 0.05,
     source: "Standard ANCOVA assumption check (e.g. EMA guideline on adjustment for baseline covariates, 2015)",
     defaultRemedy: "Report the interaction as a sensitivity analysis; the primary estimate stands as planned",
@@ -171,13 +182,20 @@ export const CHECKS: readonly CheckDefinition[] = [
   {
     key: "gvif",
     models: "both",
-    label: "Collinearity (GVIF)",
-    rule: "finding when any variable's predictor-wise GVIF^(1/(2·df)) exceeds k",
+    label: "Collinearity (variance inflation, SE scale)",
+    rule: "finding when any variable's variance inflation on the SE scale exceeds k (the generalized variance inflation factor raised to the power 1 / (2 df), df the variable's coefficients)",
     defaultThreshold: Math.sqrt(5),
     source:
-      "√5, i.e. VIF above 5 for a one-column term (Fox and Monette 1992 for the generalized form; per variable with its interactions, as car::vif(type = \"predictor\"), so that an uncentred covariate in an interaction does not read as collinearity)",
+      "√5, i.e. a variance inflation factor above 5 for a one-column term (Fox and Monette 1992 for the generalized form; per variable together with its interactions, so that an uncentred covariate in an interaction does not read as collinearity)",
     defaultRemedy: "Review the correlated covariates; the treatment estimate is usually unaffected",
     figure: "residuals_covariate",
+    formula: {
+      name: "Variance inflation, SE scale",
+      symbol: "GVIF",
+      exponent: "1/(2df)",
+      words:
+        "the generalized variance inflation factor of a variable with its interactions (Fox and Monette 1992) raised to the power 1/(2df), df being its number of coefficients: for a one-coefficient term, the factor by which collinearity widens the standard error",
+    },
   },
   {
     key: "overdispersion",
@@ -192,7 +210,7 @@ export const CHECKS: readonly CheckDefinition[] = [
   {
     key: "events_per_variable",
     label: "Events per variable",
-    rule: "finding when there are fewer than k events (or non-events, if rarer) per estimated coefficient",
+    rule: "finding when the smaller outcome class (events, or non-events if rarer) has fewer than k subjects per estimated coefficient",
     defaultThreshold: 10,
     source: "10 events per variable (Peduzzi et al. 1996)",
     defaultRemedy: "Report the estimates with caution; consider a reduced covariate set",
@@ -211,8 +229,8 @@ export const CHECKS: readonly CheckDefinition[] = [
   },
   {
     key: "treatment_homogeneity_glm",
-    label: "Homogeneity of the treatment effect",
-    rule: "finding when the joint likelihood-ratio test of treatment-by-covariate interactions has p below k",
+    label: "Same treatment effect across covariate values (treatment × every covariate)",
+    rule: "finding when the joint likelihood-ratio test of the treatment's interactions with every covariate (continuous and categorical) has p below k: the treatment effect may depend on a covariate",
     defaultThreshold: 0.05,
     source: "Likelihood-ratio test of the interactions (standard practice for covariate-adjusted GLMs)",
     defaultRemedy: "Report the interaction as a sensitivity analysis; the primary estimate stands as planned",
@@ -252,6 +270,20 @@ export interface FlaggedObservation {
   value: number;
 }
 
+/** A check's numbers, for machines: what the statistic is, its value, the threshold as applied, and the p-value of a test. */
+export interface CheckNumbers {
+  /** What `statistic` is, in words ("Shapiro–Wilk statistic", "largest Cook's distance"). */
+  measure: string;
+  statistic: number | null;
+  /** Degrees of freedom of a test statistic (one for χ², two for F), or null. */
+  df: number[] | null;
+  /** The bound the check compares with: the worked-out threshold (4/n = 0.0095), or the planned level for a p-value. */
+  threshold: number;
+  /** Whether the statistic or the p-value is compared with the threshold, and which side is a finding. */
+  compares: "statistic above" | "statistic below" | "p below";
+  p: number | null;
+}
+
 export interface CheckOutcome {
   key: CheckKey;
   label: string;
@@ -265,6 +297,8 @@ export interface CheckOutcome {
   figure: FigureKey;
   flagged?: FlaggedObservation[];
   value?: number | null;
+  /** The numbers behind `statistic` and `threshold`, absent in results stored before they were recorded. */
+  numbers?: CheckNumbers;
 }
 
 const fmt = (x: number, digits = 3): string => {
@@ -294,6 +328,20 @@ function subject(o: { id: string | null; row: number }): string {
   return o.id ? `subject ${o.id}` : `row ${o.row}`;
 }
 
+/** "p = 0.0123" or "p < 0.0001". */
+export const pWords = (p: number): string => (p < 0.0001 ? "p < 0.0001" : `p = ${p.toFixed(4)}`);
+
+/** "(χ² with 3 degrees of freedom)", "(F with 2 and 490 degrees of freedom)". */
+export function distributionWords(kind: "χ²" | "F", df: readonly number[]): string {
+  const d = df.map((x) => kText(x));
+  return `(${kind} with ${d.join(" and ")} degree${d.length === 1 && d[0] === "1" ? "" : "s"} of freedom)`;
+}
+
+/**
+ * A check over subjects. `what` names the statistic ("Cook's distance"); with `useAbs` the size
+ * is read without its sign and the text says "largest absolute …", printing the absolute value and
+ * the sign in words.
+ */
 function observationCheck(
   def: CheckDefinition,
   planned: PlannedCheck,
@@ -313,11 +361,13 @@ function observationCheck(
   });
   const max = maxIndex >= 0 ? values[maxIndex] : NaN;
   const who = maxIndex >= 0 ? subject({ id: obs.id[maxIndex], row: obs.row[maxIndex] }) : "";
+  const measure = `largest ${useAbs ? "absolute " : ""}${what}`;
+  const sign = useAbs && Number.isFinite(max) && max !== 0 ? (max < 0 ? ", negative" : ", positive") : "";
   return {
     key: def.key,
     label: def.label,
     outcome: list.length > 0 ? "finding" : "within",
-    statistic: `largest ${what} ${fmt(max)}${who ? ` (${who})` : ""}`,
+    statistic: `${measure} ${fmt(useAbs ? Math.abs(max) : max)}${sign}${who ? ` (${who})` : ""}`,
     threshold: thresholdText,
     summary:
       list.length > 0
@@ -327,10 +377,28 @@ function observationCheck(
     figure: def.figure,
     flagged: list,
     value: max,
+    numbers: { measure, statistic: Number.isFinite(max) ? (useAbs ? Math.abs(max) : max) : null, df: null, threshold: bound, compares: "statistic above", p: null },
   };
 }
 
-function pCheck(def: CheckDefinition, planned: PlannedCheck, test: { p: number | null; statistic: number | null; reason?: string } | undefined, statName: string): CheckOutcome {
+/** A test's statistic and p-value as a check reads them (`reason` when it could not be computed). */
+interface TestReading {
+  p: number | null;
+  statistic: number | null;
+  reason?: string;
+}
+
+/**
+ * A check that is a test: the finding is a p-value below the planned level. `measure` names the
+ * statistic in words ("Shapiro–Wilk statistic"); `distribution` says what it is referred to.
+ */
+function pCheck(
+  def: CheckDefinition,
+  planned: PlannedCheck,
+  test: TestReading | undefined,
+  measure: string,
+  distribution?: { kind: "χ²" | "F"; df: number[] },
+): CheckOutcome {
   if (!test || test.p === null || test.statistic === null) {
     return {
       key: def.key,
@@ -345,18 +413,23 @@ function pCheck(def: CheckDefinition, planned: PlannedCheck, test: { p: number |
     };
   }
   const finding = test.p < planned.threshold;
+  const df = distribution && distribution.df.every((d) => Number.isFinite(d)) ? distribution.df : null;
   return {
     key: def.key,
     label: def.label,
     outcome: finding ? "finding" : "within",
-    statistic: `${statName} = ${fmt(test.statistic)}, p ${test.p < 0.0001 ? "< 0.0001" : `= ${test.p.toFixed(4)}`}`,
+    statistic: `${measure} ${fmt(test.statistic)}${distribution && df ? ` ${distributionWords(distribution.kind, df)}` : ""}, ${pWords(test.p)}`,
     threshold: `p < ${planned.threshold}`,
     summary: finding ? `The test rejects at the planned level.` : `The test does not reject at the planned level.`,
     remedy: planned.remedy,
     figure: def.figure,
     value: test.p,
+    numbers: { measure, statistic: test.statistic, df, threshold: planned.threshold, compares: "p below", p: test.p },
   };
 }
+
+/** The degrees of freedom of an F test as the engine stores them. */
+const fDf = (t: { df1: number | null; df2: number | null } | null | undefined) => (t && t.df1 !== null && t.df2 !== null ? { kind: "F" as const, df: [t.df1, t.df2] } : undefined);
 
 /** The coefficient indices of the treatment term (its non-reference levels). */
 function treatmentCoefficients(r: ModelResult): number[] {
@@ -377,6 +450,32 @@ function notApplicable(def: CheckDefinition, pc: PlannedCheck, kind: "linear" | 
     figure: def.figure,
     value: null,
   };
+}
+
+/**
+ * A finding's one-line summary: the check's label, then what the check found, without saying the
+ * label twice when the check's own words already begin with it ("Overdispersion: Overdispersion:
+ * …" reads "Overdispersion: …"). Applied again to a stored summary it changes nothing more than the
+ * repeat, so summaries stored before are shown the same way.
+ */
+export function findingSummary(label: string, summary: string): string {
+  const text = summary.trim();
+  const starts = (prefix: string) => text.toLowerCase().startsWith(prefix.toLowerCase());
+  return starts(`${label}:`) || starts(`${label} `) ? text : `${label}: ${text}`;
+}
+
+/** A finding's summary for a table whose own column already names the check: the label dropped from its start. */
+export function summaryAfterLabel(label: string, summary: string): string {
+  const text = withoutRepeatedLabel(summary);
+  const prefix = `${label}: `;
+  if (!text.toLowerCase().startsWith(prefix.toLowerCase())) return text;
+  const rest = text.slice(prefix.length);
+  return rest.charAt(0).toUpperCase() + rest.slice(1);
+}
+
+/** A stored finding summary with a label said twice at its start ("X: X: …") said once. */
+export function withoutRepeatedLabel(summary: string): string {
+  return summary.replace(/^([^:]{1,120}):\s+\1:\s+/i, "$1: ");
 }
 
 /** Evaluates every enabled check of the plan on a rerun's result (linear or generalized linear). */
@@ -411,11 +510,11 @@ export function evaluateChecks(r: ModelResult, planned: readonly PlannedCheck[])
         out.push(observationCheck(def, pc, obs.leverage, (k * p) / n, `${kText(k)}·p/n = ${fmt((k * p) / n, 4)}`, false, r, "leverage"));
         break;
       case "deletion_residual":
-        out.push(observationCheck(def, pc, obs.studentizedExternal, k, `|t| > ${kText(k)}`, true, r, "|deletion residual|"));
+        out.push(observationCheck(def, pc, obs.studentizedExternal, k, `|t| > ${kText(k)}`, true, r, "deletion residual"));
         break;
       case "dffits":
         if (r.kind !== "linear") break;
-        out.push(observationCheck(def, pc, r.observations.dffits, k * Math.sqrt(p / n), `${kText(k)}·√(p/n) = ${fmt(k * Math.sqrt(p / n), 4)}`, true, r, "|DFFITS|"));
+        out.push(observationCheck(def, pc, r.observations.dffits, k * Math.sqrt(p / n), `${kText(k)}·√(p/n) = ${fmt(k * Math.sqrt(p / n), 4)}`, true, r, "DFFITS"));
         break;
       case "dfbetas_treatment": {
         const idx = treatmentCoefficients(r);
@@ -429,24 +528,32 @@ export function evaluateChecks(r: ModelResult, planned: readonly PlannedCheck[])
           for (const j of idx) if (Math.abs(obs.dfbetas[j][i]) > Math.abs(m)) m = obs.dfbetas[j][i];
           return m;
         });
-        out.push(observationCheck(def, pc, worst, k / Math.sqrt(n), `${kText(k)}/√n = ${fmt(k / Math.sqrt(n), 4)}`, true, r, "|DFBETAS| on treatment"));
+        out.push(observationCheck(def, pc, worst, k / Math.sqrt(n), `${kText(k)}/√n = ${fmt(k / Math.sqrt(n), 4)}`, true, r, "DFBETAS on the treatment effect"));
         break;
       }
       case "shapiro_wilk":
-        out.push(pCheck(def, pc, r.kind === "linear" ? r.tests.shapiroWilk : undefined, "W"));
+        out.push(pCheck(def, pc, r.kind === "linear" ? r.tests.shapiroWilk : undefined, "Shapiro–Wilk statistic"));
         break;
-      case "breusch_pagan":
-        out.push(pCheck(def, pc, r.kind === "linear" ? r.tests.breuschPagan : undefined, "BP"));
+      case "breusch_pagan": {
+        const t = r.kind === "linear" ? r.tests.breuschPagan : undefined;
+        out.push(pCheck(def, pc, t, "Breusch–Pagan statistic", t && t.df !== null ? { kind: "χ²", df: [t.df] } : undefined));
         break;
-      case "brown_forsythe":
-        out.push(pCheck(def, pc, r.kind === "linear" ? r.tests.brownForsythe : undefined, "F"));
+      }
+      case "brown_forsythe": {
+        const t = r.kind === "linear" ? r.tests.brownForsythe : undefined;
+        out.push(pCheck(def, pc, t, "Brown–Forsythe statistic", fDf(t)));
         break;
-      case "homogeneity_of_slopes":
-        out.push(pCheck(def, pc, r.kind === "linear" ? r.tests.homogeneityOfSlopes : undefined, "F"));
+      }
+      case "homogeneity_of_slopes": {
+        const t = r.kind === "linear" ? r.tests.homogeneityOfSlopes : undefined;
+        out.push(pCheck(def, pc, t ?? undefined, "Statistic for equal slopes across arms", fDf(t)));
         break;
-      case "reset":
-        out.push(pCheck(def, pc, r.kind === "linear" ? r.tests.reset : undefined, "F"));
+      }
+      case "reset": {
+        const t = r.kind === "linear" ? r.tests.reset : undefined;
+        out.push(pCheck(def, pc, t, "RESET statistic", fDf(t)));
         break;
+      }
       case "gvif": {
         // predictor-wise: the term-wise value of a treatment that interacts with an uncentred
         // covariate is large without any collinearity
@@ -461,18 +568,28 @@ export function evaluateChecks(r: ModelResult, planned: readonly PlannedCheck[])
           key: def.key,
           label: def.label,
           outcome: over.length > 0 ? "finding" : "within",
-          statistic: `largest GVIF^(1/(2·df)) ${fmt(worst.adjusted)} (${worst.term})`,
+          statistic: `largest variance inflation on the SE scale ${fmt(worst.adjusted)} (${worst.term})`,
           threshold: `> ${fmt(k)}`,
           summary: over.length > 0 ? `${over.map((v) => v.term).join(", ")} exceed the threshold.` : "No term exceeds the threshold.",
           remedy: pc.remedy,
           figure: def.figure,
           value: worst.adjusted,
+          numbers: { measure: "largest variance inflation on the SE scale", statistic: worst.adjusted, df: null, threshold: k, compares: "statistic above", p: null },
         });
         break;
       }
     }
   }
   return out;
+}
+
+/**
+ * What a nested-model statistic of a GLM is referred to: χ² on the added columns, or F on them and
+ * the larger model's residual df when the dispersion is estimated (glm-checks.ts likelihoodRatio).
+ */
+function lrDistribution(r: GlmResult, df: number | null): { kind: "χ²" | "F"; df: number[] } | undefined {
+  if (df === null) return undefined;
+  return r.family === "quasipoisson" ? { kind: "F", df: [df, r.dfResidual - df] } : { kind: "χ²", df: [df] };
 }
 
 /** The checks that read a generalized linear model's own results; null for the shared ones. */
@@ -484,24 +601,36 @@ function evaluateGlmCheck(def: CheckDefinition, pc: PlannedCheck, r: GlmResult):
       const o = r.checks.overdispersion;
       if (o.ratio === null) return { ...base, outcome: "not_computed", statistic: "not computed", threshold: `> ${kText(k)}`, summary: o.reading, value: null };
       const finding = o.ratio > k;
+      const measure = "dispersion ratio (Pearson χ² per residual degree of freedom)";
       return {
         ...base,
         outcome: finding ? "finding" : "within",
-        statistic: `Pearson χ²/df = ${fmt(o.ratio, 2)}${o.p !== null ? `, p ${o.p < 0.0001 ? "< 0.0001" : `= ${o.p.toFixed(4)}`}` : ""}`,
+        statistic: `${measure} ${fmt(o.ratio, 2)}${o.p !== null ? `, ${pWords(o.p)}` : ""}`,
         threshold: `> ${kText(k)}`,
         summary: o.reading,
         value: o.ratio,
+        numbers: { measure, statistic: o.ratio, df: o.df !== null ? [o.df] : null, threshold: k, compares: "statistic above", p: o.p },
       };
     }
     case "events_per_variable": {
       const finding = r.eventsPerVariable < k;
+      const coefficients = Math.max(1, r.coefficients.filter((c) => c.name !== INTERCEPT_NAME).length);
+      // binomial: the smaller of the two outcome classes counts (glm-model.ts); counts: the events
+      const nonEvents = r.family === "binomial" ? r.n - r.events : null;
+      const smaller = nonEvents !== null && nonEvents < r.events ? "non-events" : "events";
+      const classes =
+        nonEvents === null
+          ? `${fmt(r.events, 0)} events, ${coefficients} coefficients besides the intercept`
+          : `${smaller === "non-events" ? `${nonEvents} non-events against ${r.events} events` : `${r.events} events against ${nonEvents} non-events`}, ${coefficients} coefficients besides the intercept`;
+      const measure = nonEvents === null ? "events per estimated coefficient" : `${smaller} (the smaller class) per estimated coefficient`;
       return {
         ...base,
         outcome: finding ? "finding" : "within",
-        statistic: `${fmt(r.eventsPerVariable, 1)} events per estimated coefficient (${r.events} events)`,
+        statistic: `${fmt(r.eventsPerVariable, 1)} ${measure} (${classes})`,
         threshold: `< ${kText(k)}`,
-        summary: finding ? "Fewer events per coefficient than planned: estimates may be biased away from zero and intervals too narrow." : "Enough events per estimated coefficient.",
+        summary: finding ? `Fewer ${smaller} per coefficient than planned: estimates may be biased away from zero and intervals too narrow.` : `Enough ${smaller} per estimated coefficient.`,
         value: r.eventsPerVariable,
+        numbers: { measure, statistic: r.eventsPerVariable, df: null, threshold: k, compares: "statistic below", p: null },
       };
     }
     case "linearity_glm": {
@@ -509,17 +638,21 @@ function evaluateGlmCheck(def: CheckDefinition, pc: PlannedCheck, r: GlmResult):
       if (tests.length === 0) return { ...base, outcome: "not_computed", statistic: "not computed", threshold: `p < ${kText(k)}`, summary: "Not computed: the model has no continuous covariate.", value: null };
       const worst = tests.reduce((a, b) => ((b.p ?? 1) < (a.p ?? 1) ? b : a));
       const over = tests.filter((t) => (t.p ?? 1) < k);
+      const dist = lrDistribution(r, worst.df);
       return {
         ...base,
         outcome: over.length ? "finding" : "within",
-        statistic: `smallest p ${worst.p! < 0.0001 ? "< 0.0001" : `= ${worst.p!.toFixed(4)}`} (${worst.term}, LR χ² = ${fmt(worst.statistic ?? NaN, 2)})`,
+        statistic: `smallest ${pWords(worst.p!)} (${worst.term}: likelihood-ratio statistic ${fmt(worst.statistic ?? NaN, 2)}${dist ? ` ${distributionWords(dist.kind, dist.df)}` : ""})`,
         threshold: `p < ${kText(k)}`,
         summary: over.length ? `A quadratic term improves the fit for ${over.map((t) => t.term).join(", ")}: the effect may not be linear on the link scale.` : "No continuous covariate departs from linearity on the link scale.",
         value: worst.p,
+        numbers: { measure: `likelihood-ratio statistic of the quadratic term, ${worst.term}`, statistic: worst.statistic, df: dist?.df ?? null, threshold: k, compares: "p below", p: worst.p },
       };
     }
-    case "treatment_homogeneity_glm":
-      return pCheck(def, pc, r.checks.homogeneityOfTreatmentEffect?.joint, "LR χ²");
+    case "treatment_homogeneity_glm": {
+      const joint = r.checks.homogeneityOfTreatmentEffect?.joint;
+      return pCheck(def, pc, joint, "Likelihood-ratio statistic of the treatment interactions", lrDistribution(r, joint?.df ?? null));
+    }
     default:
       return null;
   }

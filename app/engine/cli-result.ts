@@ -11,6 +11,8 @@
  */
 import type { LinearModelResult } from "./linear-model";
 import type { GlmResult } from "./glm/glm-model";
+import { familyWithLink } from "./family-names";
+import type { QqShape } from "./qq-shape";
 
 function num(v: number | null | undefined): number | null {
   return v === null || v === undefined || !Number.isFinite(v) ? null : v;
@@ -32,6 +34,23 @@ export interface CliObservation {
   readonly cooksDistance: number | null;
   readonly dffits: number | null;
   readonly dfbetas: (number | null)[];
+}
+
+/** The Q-Q reading with the numbers behind it (results stored before the quantile measures have only the reading and summary). */
+function qqShapeOut(q: QqShape) {
+  return {
+    reading: q.reading,
+    summary: q.summary,
+    skewness: num(q.skewness),
+    excessKurtosis: num(q.excessKurtosis),
+    ...(q.withoutMostExtreme
+      ? {
+          withoutMostExtreme: { residual: num(q.withoutMostExtreme.residual), skewness: num(q.withoutMostExtreme.skewness), excessKurtosis: num(q.withoutMostExtreme.excessKurtosis) },
+          quantileSkewness: num(q.quantileSkewness),
+          quantileTailWeight: num(q.quantileTailWeight),
+        }
+      : {}),
+  };
 }
 
 /** Standardized means and contrasts with the grid they average over and the scale of each SE. */
@@ -57,6 +76,7 @@ export function toGlmCliResult(result: GlmResult): Record<string, unknown> {
     caution: result.caution,
     family: result.family,
     link: result.link,
+    familyLabel: familyWithLink(result.family, result.link),
     n: result.n,
     excluded: result.excluded,
     rank: result.rank,
@@ -111,7 +131,7 @@ export function toGlmCliResult(result: GlmResult): Record<string, unknown> {
     tests: result.checks,
     binnedResiduals: result.binnedResiduals,
     vif: result.vif.map((v) => ({ term: v.term, gvif: num(v.gvif), df: v.df, adjusted: num(v.adjusted) })),
-    qqShape: { reading: result.qqShape.reading, summary: result.qqShape.summary },
+    qqShape: qqShapeOut(result.qqShape),
     ...(result.marginalEffects ? { marginalEffects: glmMarginalEffects(result, result.marginalEffects) } : {}),
     ...(result.marginalEffects
       ? {
@@ -156,6 +176,7 @@ export function toCliResult(result: LinearModelResult | GlmResult): Record<strin
     caution: result.caution,
     family: result.family,
     link: result.link,
+    familyLabel: familyWithLink(result.family, result.link),
     n: result.n,
     excluded: result.excluded,
     rank: result.rank,
@@ -193,7 +214,7 @@ export function toCliResult(result: LinearModelResult | GlmResult): Record<strin
     observations,
     tests: result.tests,
     vif: result.vif.map((v) => ({ term: v.term, gvif: num(v.gvif), df: v.df, adjusted: num(v.adjusted) })),
-    qqShape: { reading: result.qqShape.reading, summary: result.qqShape.summary },
+    qqShape: qqShapeOut(result.qqShape),
   };
   if (result.adjustedMeans) out.adjustedMeans = result.adjustedMeans.map((m) => ({ ...m, seScale: "response" }));
   if (result.adjustedMeansGrid) out.adjustedMeansGrid = { weighting: result.adjustedMeansWeighting, ...result.adjustedMeansGrid };

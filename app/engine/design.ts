@@ -2,6 +2,7 @@
  * Variables and the design matrix: complete-case rows, continuous and categorical variables
  * (treatment coding against a reference level), interaction columns, coefficient names.
  */
+import { INTERCEPT_NAME, interactionName, levelName } from "./coefficient-names";
 import { EngineError } from "./errors";
 import { refuseRepeatedSubjects } from "./repeated-subjects";
 import { isInteraction, type ModelSpec, type Term } from "./model-spec";
@@ -38,7 +39,7 @@ export interface ColumnFactor {
 }
 
 export interface DesignTerm {
-  /** Variable name, or an interaction's parts joined by " by ". */
+  /** Variable name, or an interaction's parts joined by " × " (coefficient-names.ts). */
   readonly label: string;
   readonly kind: "continuous" | "categorical" | "interaction";
   readonly variables: readonly string[];
@@ -86,7 +87,7 @@ export function prepareData(spec: ModelSpec, table: DataTable, options: { readon
   }
   for (const t of spec.terms) {
     if (!isInteraction(t)) continue;
-    const label = t.interaction.join(" by ");
+    const label = interactionName(t.interaction);
     if (new Set(t.interaction).size !== t.interaction.length) {
       throw new EngineError(`interaction "${label}" names a variable twice`);
     }
@@ -228,12 +229,12 @@ export function termColumns(variables: readonly string[], lookup: ReadonlyMap<st
     const parts: ColumnPlan[] =
       v.kind === "continuous"
         ? [{ name, factors: [{ variable: name }] }]
-        : contrastLevels(v).map((level) => ({ name: `${name}=${v.levels[level]}`, factors: [{ variable: name, level }] }));
+        : contrastLevels(v).map((level) => ({ name: levelName(name, v.levels[level]), factors: [{ variable: name, level }] }));
     const next: ColumnPlan[] = [];
     for (const part of parts) {
       for (const combo of combos) {
         next.push({
-          name: partIndex === 0 ? part.name : `${combo.name} by ${part.name}`,
+          name: partIndex === 0 ? part.name : interactionName([combo.name, part.name]),
           factors: [...combo.factors, ...part.factors],
         });
       }
@@ -259,7 +260,7 @@ export function buildDesign(
   const factors: ColumnFactor[][] = [];
   const terms: DesignTerm[] = [];
   if (spec.intercept) {
-    names.push("Intercept");
+    names.push(INTERCEPT_NAME);
     factors.push([]);
   }
   for (const vars of [...termVariables(spec), ...extraTerms]) {
@@ -270,7 +271,7 @@ export function buildDesign(
       factors.push([...plan.factors]);
     }
     const kind = vars.length > 1 ? "interaction" : (data.variables.get(vars[0]) as Variable).kind;
-    terms.push({ label: vars.join(" by "), kind, variables: [...vars], columns: plans.map((_, i) => first + i) });
+    terms.push({ label: interactionName(vars), kind, variables: [...vars], columns: plans.map((_, i) => first + i) });
   }
   const p = names.length;
   const x = new Float64Array(n * p);

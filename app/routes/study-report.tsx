@@ -1,12 +1,13 @@
 import { Link } from "react-router";
 import { TreatmentEffectNote } from "~/components/treatment-effect";
 import { CoxReportTables } from "~/components/cox-results";
+import { FitStatisticsTable } from "~/components/fit-statistics-table";
 import type { Route } from "./+types/study-report";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { Caution } from "~/components/caution";
 import { fmt, utc } from "~/components/format";
 import { PageHeader } from "~/components/page";
-import { AdjustedMeansTable, checkTally, CoefficientTable, ContrastsTable, SensitivityTable } from "~/components/rerun-results";
+import { AdjustedMeansTable, CheckFormulaNote, checkTally, CoefficientTable, ContrastsTable, SensitivityTable } from "~/components/rerun-results";
 import { ReproductionCard } from "~/components/reproduction-results";
 import { StatusLabel } from "~/components/status";
 import { getReport } from "~/.server/reports/reports.server";
@@ -101,13 +102,18 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
             {results.rows.inFile} rows in the file · {results.rows.outsidePopulation} outside the population · {results.rows.excludedByOption} excluded by this analysis ·{" "}
             {results.rows.missingCells} left out for missing cells · <span className="font-semibold">{results.rows.used} used</span>
           </p>
+          {results.fitStatistics ? (
+            <div className="mt-3 overflow-x-auto">
+              <FitStatisticsTable rows={results.fitStatistics} />
+            </div>
+          ) : null}
         </section>
         {results.contrasts.length > 0 ? (
           <section className="panel p-4" aria-labelledby="effect-h">
             <h2 id="effect-h" className="mb-2">
               Treatment effect
             </h2>
-            <ContrastsTable rows={results.contrasts} plan={results.treatmentEffect ?? undefined} />
+            <ContrastsTable rows={results.contrasts} kind={results.kind === "glm" ? "glm" : "linear"} plan={results.treatmentEffect ?? undefined} />
             {results.treatmentEffect ? <TreatmentEffectNote plan={results.treatmentEffect} /> : null}
             {results.adjustedMeans ? (
               <div className="mt-4">
@@ -120,7 +126,7 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
           <h2 id="coef-h" className="mb-2">
             Coefficients
           </h2>
-          <CoefficientTable rows={results.coefficients} covarianceType={results.covarianceType} df={results.dfResidual ?? 0} statisticName={results.cox ? "z" : undefined} />
+          <CoefficientTable rows={results.coefficients} covarianceType={results.covarianceType} df={results.dfResidual ?? 0} statisticName={results.statisticName} />
         </section>
         {results.cox ? (
           <section className="panel p-4" aria-labelledby="hr-h">
@@ -162,6 +168,7 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
                     <td className="num whitespace-nowrap">{c.threshold}</td>
                     <td>
                       {c.summary}
+                      {c.formula ? <CheckFormulaNote formula={c.formula} /> : null}
                       <span className="block text-xs text-ink-soft">Planned remedy: {c.remedy}</span>
                     </td>
                     <td className="num">

@@ -9,11 +9,12 @@ import { SensitivityForest, type ForestRow } from "~/components/figures/sensitiv
 import { forestSpec } from "~/components/figures/specs";
 import { toVega } from "~/.server/figures/compile.server";
 import { WhatIfPanel, type WhatIfInputs } from "~/components/figures/what-if-panel";
-import { fmt, utc } from "~/components/format";
+import { utc } from "~/components/format";
 import { FieldError, PageHeader } from "~/components/page";
 import { AdjustedMeansTable, CalibrationTable, CheckCard, checkTally, CoefficientTable, ContrastsTable, MarginalMeansTable, RatioTable, SensitivityTable } from "~/components/rerun-results";
 import { StatusLabel } from "~/components/status";
 import { ReproductionCard } from "~/components/reproduction-results";
+import { FitStatisticsTable } from "~/components/fit-statistics-table";
 import { coxPageFigures, CoxResults } from "~/components/cox-results";
 import { canonicalJson } from "~/.server/audit.server";
 import { loadLockedTable } from "~/.server/datasets/catalog.server";
@@ -399,16 +400,16 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
           <FigureWorkerStart figures={pageFigureUrls(view, studyId, rerun.id)} />
           <section aria-labelledby="rows-h">
             <h2 id="rows-h" className="mb-2">
-              Rows
+              Rows and fit
             </h2>
             <p className="num text-sm">
               {view.rows.inFile} rows in the file · {view.rows.outsidePopulation} outside the population
               {populationNote(view.population)} · {view.rows.excludedByOption} excluded by this analysis ·{" "}
-              {view.rows.missingCells} left out for missing cells · <span className="font-semibold">{view.rows.used} used</span> · {view.rank} coefficients ·{" "}
-              {view.kind === "linear"
-                ? `residual SE ${fmt(view.fit.sigma)} · R² ${fmt(view.fit.rSquared)}`
-                : `${view.family}, ${view.link} link · deviance ${fmt(view.glmFit.deviance, 2)} on ${view.glmFit.dfResidual} df · AIC ${fmt(view.glmFit.aic, 1)} · dispersion ${fmt(view.glmFit.dispersion)}${view.glmFit.theta !== undefined ? ` · θ ${fmt(view.glmFit.theta)}` : ""} · ${view.events} events`}
+              {view.rows.missingCells} left out for missing cells · <span className="font-semibold">{view.rows.used} used</span> · {view.rank} coefficients estimated
             </p>
+            <div className="mt-3 overflow-x-auto">
+              <FitStatisticsTable rows={view.fitStatistics} />
+            </div>
             {view.kind === "glm" && view.notes.length > 0 ? (
               <ul className="mt-2 list-disc pl-5 text-sm">
                 {view.notes.map((n) => (

@@ -263,6 +263,17 @@ describe("a token acts with its person's study roles, never more", () => {
     const results = body.results as { contrasts: { label: string; estimate: number; p: number }[]; coefficients: { name: string; estimate: number }[] };
     expect(results.contrasts.map((c) => [c.label, c.estimate, c.p])).toEqual(stored.result.contrasts.map((c) => [c.label, c.estimate, c.p]));
     expect(results.coefficients.map((c) => c.estimate)).toEqual(stored.result.coefficients.map((c) => c.estimate));
+    // names as "VAR: LEVEL", the family in words, and every computed check with its numbers beside its texts
+    expect((body.results as { coefficients: { name: string }[] }).coefficients.map((c) => c.name).filter((n) => n.includes("="))).toEqual([]);
+    expect((body.results as { coefficients: { name: string; term: string | null }[] }).coefficients.some((c) => c.term !== null && c.name.startsWith(`${c.term}: `))).toBe(true);
+    expect((body.results as { familyLabel: string }).familyLabel).toBe("Normal (identity link)");
+    const checks = body.checks as { key: string; outcome: string; statistic: string; numbers: { statistic: number | null; threshold: number; compares: string; p: number | null } | null }[];
+    for (const c of checks.filter((x) => x.outcome !== "not_computed")) {
+      expect(c.numbers, c.key).not.toBeNull();
+      expect(typeof c.numbers!.threshold, c.key).toBe("number");
+      if (c.numbers!.compares === "p below") expect(typeof c.numbers!.p, c.key).toBe("number");
+      expect(c.statistic, c.key).not.toMatch(/\b(W|BP) = /);
+    }
     expect((body.rerun as { publishedAt: string | null }).publishedAt).not.toBeNull();
     expect((body.signatures as unknown[]).length).toBe(1);
     expect((body.sensitivity as unknown[]).length).toBe(1);

@@ -73,9 +73,9 @@ describe("level order", () => {
   it("numeric order when every level is a number, otherwise code-point order", () => {
     const rows = ["10", "9", "100", "9", "10", "100", "10"].map((d, i) => ({ y: String(i * 1.3 + (i % 2)), d }));
     const r = fitModel({ response: "y", terms: [{ variable: "d", categorical: true }] }, rows);
-    expect(r.coefficients.map((c) => c.name)).toEqual(["Intercept", "d=10", "d=100"]);
+    expect(r.coefficients.map((c) => c.name)).toEqual(["Intercept", "d: 10", "d: 100"]);
     const rows2 = ["b", "B", "a", "b", "B", "a"].map((g, i) => ({ y: String(i + (i % 3)), g }));
     const r2 = fitModel({ response: "y", terms: [{ variable: "g" }] }, rows2);
-    expect(r2.coefficients.map((c) => c.name)).toEqual(["Intercept", "g=a", "g=b"]);
+    expect(r2.coefficients.map((c) => c.name)).toEqual(["Intercept", "g: a", "g: b"]);
   });
 });

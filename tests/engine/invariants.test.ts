@@ -47,7 +47,7 @@ describe("invariants of the linear fit", () => {
       const x = Number(rows[i].x);
       const z = Number(rows[i].z);
       const coef = Object.fromEntries(loo.coefficients.map((c) => [c.name, c.estimate]));
-      const predI = coef.Intercept + coef.x * x + coef.z * z + (coef[`g=${rows[i].g}`] ?? 0);
+      const predI = coef.Intercept + coef.x * x + coef.z * z + (coef[`g: ${rows[i].g}`] ?? 0);
       const h = o.leverage[i];
       const e = o.residual[i];
       expect(o.studentizedExternal[i]).toBeCloseTo(e / (sigmaI * Math.sqrt(1 - h)), 10);
@@ -60,7 +60,7 @@ describe("invariants of the linear fit", () => {
       let ss = 0;
       for (let k = 0; k < n; k++) {
         const r = rows[k];
-        const pred = coef.Intercept + coef.x * Number(r.x) + coef.z * Number(r.z) + (coef[`g=${r.g}`] ?? 0);
+        const pred = coef.Intercept + coef.x * Number(r.x) + coef.z * Number(r.z) + (coef[`g: ${r.g}`] ?? 0);
         ss += (o.fitted[k] - pred) ** 2;
       }
       expect(o.cooksDistance[i]).toBeCloseTo(ss / (p * sigma * sigma), 10);

@@ -107,7 +107,7 @@ describe("subject influence", () => {
       // coefficients are the arm and arm-by-visit columns at Week 16
       const change = r.subjects[s].treatmentChange[0];
       const names = r.coefficients.map((c) => c.name);
-      const l: number[] = names.map((nm) => (nm === "ARM=Dose 10 mg" || nm === "ARM=Dose 10 mg by AVISIT=Week 16" ? 1 : 0));
+      const l: number[] = names.map((nm) => (nm === "ARM: Dose 10 mg" || nm === "ARM: Dose 10 mg × AVISIT: Week 16" ? 1 : 0));
       const expected = l.reduce((acc, v, j) => acc + v * d[j], 0);
       expect(change).toBeCloseTo(expected, 8);
     }

@@ -5,7 +5,7 @@ import { mkdtempSync, readFileSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { describe, expect, it } from "vitest";
-import { expectAllClose, expectClose } from "./compare";
+import { expectAllClose, expectClose, ourCoefficientName } from "./compare";
 
 const ROOT = join(import.meta.dirname, "..", "..");
 const REF = join(ROOT, "tests", "reference");
@@ -36,6 +36,8 @@ describe("headless rerun command", () => {
     const runs = await Promise.all(
       cases.map((c) => runCli(["fit", "--data", join(REF, "data", `${c}.csv`), "--model", join(REF, "models", `${c}.json`)])),
     );
+    const interaction = JSON.parse(runs[cases.indexOf("warpbreaks-interaction")].stdout) as { coefficients: { name: string }[] };
+    expect(interaction.coefficients.map((c) => c.name)).toEqual(["Intercept", "wool: B", "tension: H", "tension: M", "wool: B × tension: H", "wool: B × tension: M"]);
     runs.forEach((run, k) => {
       expect(run.code, run.stderr).toBe(0);
       expect(run.stdout.trim().split("\n").length).toBe(1);
@@ -52,6 +54,10 @@ describe("headless rerun command", () => {
       expectClose(out.fit.logLik, ref.fit.logLik, 1e-8, `${cases[k]} logLik`);
       expectClose(out.fit.aic, ref.fit.aic, 1e-8, `${cases[k]} AIC`);
       expect(out.covariance.names).toEqual(out.coefficients.map((c: { name: string }) => c.name));
+      // coefficient names: "VAR: LEVEL", interaction parts joined by " × " (R's names mapped, not copied)
+      const model = JSON.parse(readFileSync(join(REF, "models", `${cases[k]}.json`), "utf8")) as { terms: { variable?: string }[] };
+      const variables = model.terms.flatMap((t) => (t.variable ? [t.variable] : []));
+      expect(out.coefficients.map((c: { name: string }) => c.name)).toEqual(ref.coefficients.map((c: { rName: string }) => ourCoefficientName(c.rName, variables)));
       ref.vcov.forEach((row: number[], i: number) => expectAllClose(out.covariance.matrix[i], row, 1e-8, `${cases[k]} vcov row ${i}`));
       expect(out.adjustedMeansGrid.weighting).toBe(ref.adjustedMeans.weighting);
       ref.adjustedMeans.grid.covariates.forEach((v: { variable: string; value: number }, i: number) =>

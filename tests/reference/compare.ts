@@ -30,3 +30,21 @@ export function expectAllClose(
   for (const v of expected) if (v !== null && Number.isFinite(v)) maxAbs = Math.max(maxAbs, Math.abs(v));
   expected.forEach((e, i) => expectClose(actual[i], e, tol, `${label}[${i}]`, maxAbs * floorFraction));
 }
+
+/**
+ * Plumbline's name for a coefficient R calls `rName`: R pastes a factor's name and level
+ * ("woolB") and joins interaction parts with ":" ("woolB:tensionH"); Plumbline writes
+ * "wool: B × tension: H" (app/engine/coefficient-names.ts). `variables` are the model's
+ * main-term variables; the longest that starts a part (and is shorter than it) is the factor.
+ */
+export function ourCoefficientName(rName: string, variables: readonly string[]): string {
+  if (rName === "(Intercept)") return "Intercept";
+  const byLength = [...variables].sort((a, b) => b.length - a.length);
+  return rName
+    .split(":")
+    .map((part) => {
+      const factor = byLength.find((f) => part.startsWith(f) && part.length > f.length);
+      return factor ? `${factor}: ${part.slice(factor.length)}` : part;
+    })
+    .join(" × ");
+}

@@ -96,6 +96,12 @@ describe("the Word appendix of a signed rerun", () => {
       expect(num(row[1])).toBeCloseTo(r.adjustedMeans![i].estimate, 3);
       expect(num(row[2])).toBeCloseTo(r.adjustedMeans![i].se, 3);
     });
+    // the fit in a labelled table of our own, the family as the trade writes it
+    const fit = tables(documentXml).find((x) => /Fit of the model/.test(x.caption))!;
+    expect(fit.rows[0]).toEqual(["Quantity", "Value"]);
+    expect(fit.rows[1][0]).toBe("Distribution and link");
+    expect(fit.rows[1][1]).toMatch(/^Normal \(identity link\), (ordinary|weighted) least squares$/);
+    expect(fit.rows.map((row) => row[0])).toEqual(expect.arrayContaining(["Residual standard deviation", "Log-likelihood", "Akaike information criterion"]));
     const contrasts = tables(documentXml).find((x) => /Treatment contrasts against the reference arm/.test(x.caption))!;
     expect(contrasts.rows.slice(1)).toHaveLength(r.contrasts!.length);
     contrasts.rows.slice(1).forEach((row, i) => {
@@ -124,13 +130,26 @@ describe("the Word appendix of a signed rerun", () => {
         const pTest = /, p [=<]/.test(row[1]);
         const printed = pTest ? /, p (?:= )?([<\d.]+)/.exec(row[1])?.[1] : /(-?\d+\.\d+(?:e[-+]?\d+)?)/.exec(row[1])?.[1];
         expect(printed, `${c.label}: ${row[1]}`).toBeDefined();
-        if (printed && !printed.startsWith("<")) expect(Math.abs(Number(printed) - c.value)).toBeLessThan(pTest ? 0.00006 : 0.0006);
+        // an absolute value ("largest absolute deletion residual") is printed as one
+        const shown = pTest ? c.value : (c.numbers?.statistic ?? c.value);
+        if (printed && !printed.startsWith("<")) expect(Math.abs(Number(printed) - shown)).toBeLessThan(pTest ? 0.00006 : 0.0006);
       }
       if (c.flagged?.length) expect(row[3]).toContain(`${c.flagged.length} of ${doc.result.n} subjects`);
+      // each test by its name with its statistic in words, never a program's "W = …" or bars around a signed number
+      expect(row[1]).not.toMatch(/\b(W|BP|F) = |\|[^|]*\|/);
     });
     const ids = doc.result.observations.id.filter((x): x is string => Boolean(x));
     expect(ids.length).toBeGreaterThan(0);
     for (const id of ids) expect(documentXml.includes(id), `subject ${id} named in the appendix`).toBe(false);
+  });
+
+  it("logs each deviation once: the Finding column does not repeat the check named in the Check column", () => {
+    const log = tables(documentXml).find((x) => /Deviation log with assessments/.test(x.caption))!;
+    expect(log.rows.length).toBeGreaterThan(1);
+    for (const row of log.rows.slice(1)) {
+      expect(row[1].startsWith(`${row[0]}:`), row.join(" | ")).toBe(false);
+      expect(row[1]).not.toMatch(/^([^:]+): \1:/);
+    }
   });
 
   it("carries the figures as pictures with alt text, and numbered captions", async () => {
@@ -245,7 +264,10 @@ describe("the Word appendix of a signed rerun", () => {
     const captions = tables(xml).map((x) => x.caption);
     expect(captions.filter((c) => /Estimated coefficients/.test(c))).toHaveLength(2);
     expect(captions.some((c) => /Estimated coefficients, Responders at week 12/.test(c))).toBe(true);
-    expect(decode(cellText(xml))).toMatch(/generalized linear model \(binomial family, logit link\)/);
+    expect(decode(cellText(xml))).toMatch(/generalized linear model \(binomial distribution, logit link\)/);
+    const binomialFit = tables(xml).find((x) => /Fit of the model, Responders at week 12/.test(x.caption))!;
+    expect(binomialFit.rows[1]).toEqual(["Distribution and link", "Binomial (logit link), maximum likelihood"]);
+    expect(binomialFit.rows.map((row) => row.join(" ")).join(" ")).not.toMatch(/binomial, logit|Residual deviance|Null deviance/);
     // the binomial model's fit figures, for the logistic model only, with their counts in the alt text
     const figures = both.content.sections.flatMap((x) => x.blocks).flatMap((b) => (b.kind === "figure" ? [b] : []));
     const fitFigures = figures.filter((f) => /^(Binned residuals|Calibration by group of predicted risk),/.test(f.caption));

@@ -153,7 +153,7 @@ describe("rerunning a stratified Cox model", () => {
   it("estimates the log hazard ratios and hazard ratios of R's coxph", () => {
     const r = doc.result;
     if (r.kind !== "cox") throw new Error("not a Cox result");
-    expect(r.coefficients.map((c) => c.name)).toEqual(["TRTP=Active", "AGE", "BASE", "STRAT2=R2", "STRAT2=R3"]);
+    expect(r.coefficients.map((c) => c.name)).toEqual(["TRTP: Active", "AGE", "BASE", "STRAT2: R2", "STRAT2: R3"]);
     r.coefficients.forEach((c, j) => expectClose(c.estimate, R.coefficients[j].estimate, TOL, `${c.name} (R ${R.coefficients[j].rName})`));
     r.ratios.forEach((h, j) => expectClose(h.ratio, R.coefficients[j].ratio, TOL, `${h.name} hazard ratio`));
   });
@@ -168,7 +168,9 @@ describe("rerunning a stratified Cox model", () => {
     const stored = await db.select().from(t.findings).where(eq(t.findings.rerunId, rerunId));
     expect(stored.map((f) => f.checkKey).sort()).toEqual(doc.checks.filter((c) => c.outcome === "finding").map((c) => c.key).sort());
     const ff = doc.checks.find((c) => c.key === "functional_form_cox")!;
-    expect(ff.statistic).toMatch(/LR χ² = /);
+    expect(ff.statistic).toMatch(/likelihood-ratio statistic \d+\.\d{2} \(χ² with 1 degree of freedom\)/);
+    expect(influence.statistic).toMatch(/^largest absolute DFBETAS on the treatment effect \d/);
+    expect(influence.numbers).toMatchObject({ compares: "statistic above" });
   });
 
   it("stores the same bytes when rerun with the same inputs", async () => {
@@ -213,7 +215,7 @@ describe("rerunning a stratified Cox model", () => {
 
   it("draws the residual figures of each coefficient and covariate", async () => {
     const table = rerunTable(doc, (await loadLockedTable(tteVersionId)).table);
-    const sch = figureData(doc, "schoenfeld", { term: "TRTP=Active", withSubjectIds: false });
+    const sch = figureData(doc, "schoenfeld", { term: "TRTP: Active", withSubjectIds: false });
     if (sch.figure !== "schoenfeld") throw new Error("wrong figure");
     expect(sch.rows.length).toBe(doc.result.kind === "cox" ? doc.result.fit.events : -1);
     expect(sch.rows.every((r) => r.subject === null)).toBe(true);
@@ -231,7 +233,7 @@ describe("rerunning a stratified Cox model", () => {
     expect(lml.rows.length).toBeGreaterThan(10);
     const infl = figureData(doc, "cox_influence", { withSubjectIds: false });
     if (infl.figure !== "cox_influence") throw new Error("wrong figure");
-    expect(infl.coefficients).toEqual(["TRTP=Active"]);
+    expect(infl.coefficients).toEqual(["TRTP: Active"]);
     expect(() => figureData(doc, "qq", { withSubjectIds: false })).toThrow(/Cox model/);
   });
 
@@ -259,7 +261,7 @@ describe("rerunning a stratified Cox model", () => {
     const coefficients = table(`coefficients:${rerunId}`);
     if (coefficients?.kind !== "table") throw new Error("no coefficient table");
     expect(coefficients.columns.map((c) => c.label)).toContain("Hazard ratio");
-    expect(coefficients.rows[0][0]).toBe("TRTP=Active");
+    expect(coefficients.rows[0][0]).toBe("TRTP: Active");
     expect(Number(coefficients.rows[0][5])).toBeCloseTo(R.coefficients[0].ratio, 3);
     const tests = table(`cox-tests:${rerunId}`);
     if (tests?.kind !== "table") throw new Error("no tests table");
@@ -276,7 +278,7 @@ describe("rerunning a stratified Cox model", () => {
 
   it("the signed rerun's sponsor report carries hazard ratios and the proportional-hazards test, naming subjects by rank only", async () => {
     const report = await getReport(studyId, rerunId);
-    expect(report.results.cox?.ratios[0].name).toBe("TRTP=Active");
+    expect(report.results.cox?.ratios[0].name).toBe("TRTP: Active");
     expect(report.results.cox?.proportionalHazards.rows.at(-1)?.term).toBe("Global");
     expect(JSON.stringify(report)).not.toMatch(/INV-\d{4}/);
     expect(report.caution).toMatch(/do not replace/);
@@ -363,7 +365,7 @@ describe("the Cox model's planned sensitivity analyses", () => {
     const { doc, result } = await runVariant({ variant: "cox_robust_subject" });
     expect(result.robust).toBe(true);
     const trt = result.coefficients[0];
-    expect(trt.name).toBe("TRTP=Active");
+    expect(trt.name).toBe("TRTP: Active");
     expectClose(trt.estimate, S.robustSubject.estimate, TOL, "log hazard ratio");
     expectClose(trt.robustSe!, S.robustSubject.se, TOL, "robust SE (R coxph cluster = USUBJID)");
     expectClose(trt.se, S.robustSubject.naiveSe, TOL, "model-based SE");
@@ -391,7 +393,7 @@ describe("the Cox model's planned sensitivity analyses", () => {
       if (!d) throw new Error(`${c.label} has no result`);
       return reportedContrasts(d);
     });
-    expect(contrasts.map((c) => c[0].label)).toEqual(["TRTP=Active (hazard ratio)", "TRTP=Active (hazard ratio)"]);
+    expect(contrasts.map((c) => c[0].label)).toEqual(["TRTP: Active (hazard ratio)", "TRTP: Active (hazard ratio)"]);
     expectClose(contrasts[0][0].upper, S.robustSubject.ratioUpper, TOL, "compared interval of the robust analysis");
     expectClose(contrasts[1][0].estimate, S.unstratified.ratio, TOL, "compared hazard ratio of the unstratified analysis");
     const spec = JSON.stringify(forestSpec(contrasts.map((c, i) => ({ label: children[i].label ?? "", estimate: c[0].estimate, lower: c[0].lower, upper: c[0].upper, prespecified: true, primary: false })), contrasts[0][0].label));

@@ -199,6 +199,12 @@ describe("generalized linear planned models on the demo study", () => {
     const od = r.doc!.checks.find((c) => c.key === "overdispersion")!;
     expect(od.outcome).toBe("finding");
     expect(od.value!).toBeCloseTo(R.flares.poissonPearsonChi2PerDf, 4);
+    expect(od.numbers).toMatchObject({ compares: "statistic above", threshold: 1.5 });
+    expect(od.numbers!.statistic!).toBeCloseTo(R.flares.poissonPearsonChi2PerDf, 4);
+    // the deviation log and the findings say the check's label once
+    const [stored] = (await findings.findingsOf(id)).filter((f) => f.checkKey === "overdispersion");
+    expect(stored.summary).toMatch(/^Overdispersion: The counts vary about /);
+    expect(stored.summary).not.toMatch(/Overdispersion: Overdispersion/);
     expect(r.doc!.rows.used).toBe(R.flares.n);
     // The planned negative binomial analysis, beside the primary: θ and the rate ratio as MASS::glm.nb finds them.
     const nbId = await reruns.startRerun(priya, studyId, { plannedModelId: countsId, datasetVersionId, options: { variant: "family", family: "negative-binomial" }, parentRerunId: id });
@@ -206,7 +212,7 @@ describe("generalized linear planned models on the demo study", () => {
     const nb = (await reruns.getRerun(studyId, nbId)).doc!.result;
     if (nb.kind !== "glm") throw new Error("expected a GLM");
     expect(nb.fit.theta!).toBeCloseTo(R.flares.negativeBinomialTheta, 3);
-    const high = nb.ratios!.find((x) => x.name === "arm=Lorvanitide 120 mg")!;
+    const high = nb.ratios!.find((x) => x.name === "arm: Lorvanitide 120 mg")!;
     expect(high.ratio).toBeCloseTo(R.flares.highVsPlaceboRateRatio, 4);
   });
 

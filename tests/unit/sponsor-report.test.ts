@@ -128,6 +128,11 @@ describe("a sponsor reader is refused everything but reports", () => {
     expect(r.comparison.length).toBe(1 + signed.sensitivityIds.length);
     expect(r.signatures.map((s) => s.name)).toEqual(["Tomas Berg"]);
     expect(r.caution).toBe("Results support, but do not replace, qualified statistical and medical review.");
+    // the report speaks our words: fit statistics in a labelled table, the family as the trade writes it, t for a linear model
+    const results = (report as { results: { kind: string; statisticName: string; fitStatistics: { label: string; value: string }[] | null; coefficients: { name: string }[] } }).results;
+    expect([results.kind, results.statisticName]).toEqual(["linear", "t"]);
+    expect(results.fitStatistics?.[0]).toMatchObject({ label: "Distribution and link", value: expect.stringMatching(/^Normal \(identity link\)/) });
+    expect(results.coefficients.map((c) => c.name).filter((n) => n.includes("="))).toEqual([]);
   });
 
   it("a rationale that names a subject is shown with the id withheld", async () => {

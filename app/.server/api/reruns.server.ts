@@ -7,6 +7,7 @@
  */
 import { populationStepsOf } from "../reruns/rerun-population";
 import { and, desc, eq, inArray } from "drizzle-orm";
+import { familyWithLink } from "~/engine/family-names";
 import { db, t } from "../db/index.server";
 import { findingsOf, signaturesOf } from "../reruns/findings.server";
 import { checkView, reportedContrasts, treatmentEffectOf } from "../reruns/rerun-view.server";
@@ -90,6 +91,7 @@ function resultsOut(doc: RerunDocument): NonNullable<Body<typeof RerunAnswer>["r
       method: `Cox proportional hazards (partial likelihood, ${c.ties} ties${c.strata.length ? `, ${c.strata.length} strata` : ""})`,
       family: "cox",
       link: "log",
+      familyLabel: familyWithLink("cox", "log"),
       covarianceType: null,
       n: c.n,
       rank: c.coefficients.length,
@@ -109,6 +111,7 @@ function resultsOut(doc: RerunDocument): NonNullable<Body<typeof RerunAnswer>["r
     method: r.method.description,
     family: r.family,
     link: r.link,
+    familyLabel: familyWithLink(r.family, r.link),
     n: r.n,
     rank: r.rank,
     dfResidual: finite(r.dfResidual),
@@ -192,7 +195,7 @@ function contrastNumbers(c: { se: number; statistic: number; p: number; pAdjuste
 
 function checksOut(doc: RerunDocument, redact: Redaction): Body<typeof RerunAnswer>["checks"] {
   const reproduction = reproductionCheckOf(doc);
-  const extra = reproduction ? [{ ...reproduction, flaggedCount: 0, flagged: [] }] : [];
+  const extra = reproduction ? [{ ...reproduction, numbers: null, flaggedCount: 0, flagged: [] }] : [];
   return [...extra, ...doc.checks.map((c) => {
     const v = checkView(c, redact);
     return {
@@ -201,6 +204,7 @@ function checksOut(doc: RerunDocument, redact: Redaction): Body<typeof RerunAnsw
       outcome: c.outcome,
       statistic: v.statistic,
       threshold: c.threshold,
+      numbers: c.numbers ? { ...c.numbers, statistic: finite(c.numbers.statistic), df: c.numbers.df?.map((d) => finite(d)) ?? null, p: finite(c.numbers.p) } : null,
       summary: v.summary,
       remedy: v.remedy,
       flaggedCount: v.flaggedCount,

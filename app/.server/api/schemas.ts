@@ -191,6 +191,7 @@ const Results = registry.register(
     method: z.string(),
     family: z.string().describe("gaussian, binomial, poisson, quasipoisson, negative-binomial or cox (time to event)"),
     link: z.string(),
+    familyLabel: z.string().describe('The family and link in words: "Normal (identity link)", "Binomial (logit link)", "Cox proportional hazards"'),
     covarianceType: z.enum(["model", "HC0", "HC1", "HC2", "HC3"]).nullable().describe("Linear models: the coefficient table's standard errors"),
     n: z.int(),
     rank: z.int(),
@@ -213,7 +214,16 @@ const Results = registry.register(
       })
       .nullable()
       .describe("The plan's contrasts and multiplicity method with the overall treatment test; null for time-to-event models"),
-    coefficients: z.array(z.strictObject({ name: z.string(), term: z.string().nullable(), estimate: Num, statistic: Num, p: Num, ...Interval })),
+    coefficients: z.array(
+      z.strictObject({
+        name: z.string().describe('"Intercept", a variable, "VAR: LEVEL" for a level of a factor; interaction parts joined by " × " ("arm: High dose × base")'),
+        term: z.string().nullable(),
+        estimate: Num,
+        statistic: Num,
+        p: Num,
+        ...Interval,
+      }),
+    ),
     fit: z
       .strictObject({ sigma: Num, rSquared: Num, adjRSquared: Num, fStatistic: Num, fP: Num, aic: Num, deviance: Num, dispersion: Num })
       .describe("Linear models fill sigma to fP; generalized linear models deviance and dispersion"),
@@ -253,6 +263,17 @@ const Check = registry.register(
     outcome: z.enum(["within", "finding", "not_computed"]),
     statistic: z.string(),
     threshold: z.string(),
+    numbers: z
+      .strictObject({
+        measure: z.string().describe('What `statistic` is: "Shapiro–Wilk statistic", "largest Cook\'s distance"'),
+        statistic: Num,
+        df: z.array(Num).nullable().describe("Degrees of freedom of a test statistic: one for χ², two for F"),
+        threshold: z.number().describe("The bound as applied (4/n worked out), or the planned level for a p-value"),
+        compares: z.enum(["statistic above", "statistic below", "p below"]).describe("What is compared with the threshold, and which side is a finding"),
+        p: Num,
+      })
+      .nullable()
+      .describe("The numbers behind the texts; null for results stored before they were recorded"),
     summary: z.string(),
     remedy: z.string(),
     flaggedCount: z.int(),

@@ -8,8 +8,10 @@ import { populationOf } from "../plans/planned-model";
 import { and, asc, eq, isNotNull } from "drizzle-orm";
 import { data } from "react-router";
 import { BEYOND, figureSpec, forestSpec, OUTSIDE_BAND, plotsSubjects, type FigureData, type ForestRow } from "~/components/figures/specs";
-import { CHECK_BY_KEY, type CheckOutcome, type FigureKey } from "~/engine/checks";
+import { CHECK_BY_KEY, summaryAfterLabel, type CheckOutcome, type FigureKey } from "~/engine/checks";
 import { fmt, fmtCi, fmtP, utc } from "~/components/format";
+import { fitFactsOf, fitStatisticRows } from "~/components/fit-statistics";
+import { familyWithLink } from "~/engine/family-names";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { loadLockedTable, type ColumnMeta } from "../datasets/catalog.server";
 import { db, t } from "../db/index.server";
@@ -298,16 +300,19 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
       continue;
     }
     const r = p.doc.result;
-    const fitWords =
-      r.kind === "linear"
-        ? `${r.n} subjects analysed; residual degrees of freedom ${r.dfResidual}; residual standard deviation ${fmt(r.fit.sigma)}; R² ${fmt(r.fit.rSquared)} (adjusted ${fmt(r.fit.adjRSquared)}).`
-        : `${r.n} subjects analysed; residual degrees of freedom ${r.dfResidual}; ${r.method.description}.`;
-    results.push(...modelHeading(p, many), { kind: "paragraph", text: fitWords }, {
+    results.push(...modelHeading(p, many), { kind: "paragraph", text: `${r.n} subjects analysed; ${familyWithLink(r.family, r.link)}.` }, {
+      kind: "table",
+      key: `fit:${p.rerunId}`,
+      number: next.table(),
+      caption: `Fit of the model, ${p.modelTitle}`,
+      columns: [{ label: "Quantity" }, { label: "Value" }],
+      rows: fitStatisticRows(fitFactsOf(r)).map((row) => [row.label, row.value]),
+    }, {
       kind: "table",
       key: `coefficients:${p.rerunId}`,
       number: next.table(),
       caption: `Estimated coefficients, ${p.modelTitle}`,
-      columns: [{ label: "Coefficient" }, { label: "Estimate", numeric: true }, { label: "SE", numeric: true }, { label: r.kind === "linear" ? "t" : "Statistic", numeric: true }, { label: "p", numeric: true }, { label: "95% CI", numeric: true }],
+      columns: [{ label: "Coefficient" }, { label: "Estimate", numeric: true }, { label: "SE", numeric: true }, { label: r.kind === "linear" ? "t" : `Wald ${r.statisticName}`, numeric: true }, { label: "p", numeric: true }, { label: "95% CI", numeric: true }],
       rows: r.coefficients.map((c) => [c.name, fmt(c.estimate), fmt(c.se), fmt(c.statistic, 2), fmtP(c.p), fmtCi(c.lower, c.upper)]),
       note: r.kind === "linear" ? `Model-based standard errors; t on ${r.dfResidual} residual degrees of freedom.` : "Model-based standard errors, on the scale of the linear predictor.",
     });
@@ -340,9 +345,9 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
           { label: "p", numeric: true },
           ...(adjusted ? [{ label: `p adjusted (${adjusted})`, numeric: true }] : []),
         ],
-        rows: contrasts.map((c) => [c.label, fmt(c.estimate), fmt(c.se), fmtCi(c.lower, c.upper), fmt(c.statistic), fmtP(c.p), ...(adjusted ? [fmtP(c.pAdjusted)] : [])]),
+        rows: contrasts.map((c) => [c.label, fmt(c.estimate), `${fmt(c.se)}${c.seScale === "log" ? " (log)" : ""}`, fmtCi(c.lower, c.upper), fmt(c.statistic), fmtP(c.p), ...(adjusted ? [fmtP(c.pAdjusted)] : [])]),
         note:
-          (r.kind === "linear" ? "Differences in adjusted means with model-based standard errors." : "Marginal (standardized) contrasts; ratios with intervals and statistics from the log scale.") +
+          (r.kind === "linear" ? "Differences in adjusted means with model-based standard errors." : "Marginal (standardized) contrasts. A ratio's SE, marked (log), and its statistic are those of the log ratio; its estimate and interval are ratios, the interval computed on the log scale.") +
           (adjusted ? ` p-values adjusted for multiplicity by the ${adjusted} method${r.kind === "glm" ? " within each measure" : ""}.` : " p-values not adjusted for multiplicity.") +
           (effect.test ? ` ${treatmentTestWords(effect.test)}` : ""),
       });
@@ -359,7 +364,13 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
       caption: `Diagnostic checks of the plan and their outcome, ${p.modelTitle}`,
       columns: [{ label: "Check" }, { label: "Statistic" }, { label: "Threshold" }, { label: "Outcome" }],
       rows: [...p.doc.checks.map((c) => [c.label, p.redact.countOnly(c.statistic), c.threshold, outcomeInWords(c, p.doc.result.n, p.redact)]), ...reproductionCheckRows(p.doc)],
-      note: "Subjects beyond a threshold are counted, not named. Thresholds as the plan states them (n subjects, p coefficients).",
+      note: [
+        "Subjects beyond a threshold are counted, not named. Thresholds as the plan states them (n subjects, p coefficients).",
+        ...p.doc.checks.flatMap((c) => {
+          const f = CHECK_BY_KEY.get(c.key)?.formula;
+          return f ? [`${f.name}: ${f.words}.`] : [];
+        }),
+      ].join(" "),
     }, ...reproductionBlocks(p.doc, p.rerunId, p.modelTitle, next.table));
   }
   sections.push({ key: "checks", title: SECTION_TITLES.checks, blocks: [...checks, ...narrativeBlock("checks", notes.get("checks"))] });
@@ -373,7 +384,8 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
     const rows = [
       ...p.findings.map((f) => [
         CHECK_BY_KEY.get(f.checkKey as never)?.label ?? (f.kind === "not_estimable" ? "Estimability" : f.checkKey === "reproduction" ? REPRODUCTION_FINDING_LABEL : f.checkKey),
-        p.redact.countOnly(f.summary),
+        // the Check column names the check: the finding says what it found, without the label again
+        p.redact.countOnly(summaryAfterLabel(CHECK_BY_KEY.get(f.checkKey as never)?.label ?? "", f.summary)),
         f.assessment ? CATEGORIES[f.assessment.category] : "Not assessed",
         f.assessment ? IMPACTS[f.assessment.impact] : "—",
         f.assessment ? (ACTIONS[f.assessment.action as keyof typeof ACTIONS] ?? f.assessment.action) : "—",

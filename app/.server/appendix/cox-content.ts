@@ -7,6 +7,7 @@ import type { Block } from "~/components/appendix-content";
 import type { KaplanMeierData, LogMinusLogData } from "~/components/figures/cox";
 import { fmt, fmtCi, fmtP } from "~/components/format";
 import type { CoxResult } from "~/engine/survival/cox-model";
+import { coxModelTests } from "../reruns/cox-rerun-view.server";
 
 export const COX_FIGURE_WORDS = {
   kaplan_meier: {
@@ -74,12 +75,9 @@ export function coxResultBlocks(r: CoxResult, rerunId: string, modelTitle: strin
       key: `cox-tests:${rerunId}`,
       number: next.table(),
       caption: `Tests of the model and of proportional hazards, ${modelTitle}`,
-      columns: [{ label: "Test" }, { label: "χ²", numeric: true }, { label: "df", numeric: true }, { label: "p", numeric: true }],
+      columns: [{ label: "Test" }, { label: "Statistic (χ²)", numeric: true }, { label: "Degrees of freedom", numeric: true }, { label: "p", numeric: true }],
       rows: [
-        chi("Likelihood ratio", t.likelihoodRatio),
-        chi(r.robust ? "Wald (robust)" : "Wald", t.wald),
-        chi("Score", t.score),
-        ...(t.logRank ? [chi(r.strata.length ? "Log-rank by arm, stratified" : "Log-rank by arm", t.logRank)] : []),
+        ...coxModelTests(r).map((x) => chi(x.name, x)),
         ...t.proportionalHazards.terms.map((x) => chi(`Proportional hazards: ${x.term}`, x)),
         chi("Proportional hazards: global", t.proportionalHazards.global),
       ],

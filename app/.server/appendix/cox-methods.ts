@@ -1,4 +1,5 @@
 /** The methods prose of a time-to-event (Cox) model, in plain statistical words. Pure. */
+import { interactionName } from "~/engine/coefficient-names";
 import type { CoxSpec } from "~/engine/survival/cox-spec";
 
 const TIME_SCALE = { km: "the Kaplan–Meier transform of time", rank: "the rank of time", identity: "time itself", log: "log time" } as const;
@@ -7,7 +8,7 @@ export function coxMethodsParagraphs(s: CoxSpec, named: (col: string) => string,
   const main = s.terms.filter((t): t is { variable: string; categorical?: boolean; reference?: string } => "variable" in t);
   const treatment = main.find((t) => t.variable === s.treatment);
   const covariates = main.filter((t) => t.variable !== s.treatment);
-  const interactions = s.terms.flatMap((t) => ("interaction" in t ? [t.interaction.join(" by ")] : []));
+  const interactions = s.terms.flatMap((t) => ("interaction" in t ? [interactionName(t.interaction)] : []));
   const out: string[] = [];
   out.push(
     `The endpoint was the time to event ${named(s.response)}, with ${named(s.status.column)} equal to ${list(s.status.event.map((v) => `"${v}"`))} marking an event and every other value a censored time. ` +

@@ -2,6 +2,8 @@
  * The methods section in plain statistical prose, written from the planned model as the
  * approved plan version states it (and the rerun's own method description). Pure.
  */
+import { interactionName } from "~/engine/coefficient-names";
+import { familyWords, linkWords } from "~/engine/family-names";
 import { CHECK_BY_KEY, type PlannedCheck } from "~/engine/checks";
 import { CANONICAL_LINK, type ModelSpec } from "~/engine/model-spec";
 import type { CoxSpec } from "~/engine/survival/cox-spec";
@@ -47,7 +49,7 @@ export function methodsProse(m: MethodsInput): { paragraphs: string[]; checks: s
   const main = s.terms.filter((t): t is { variable: string; categorical?: boolean; reference?: string } => "variable" in t);
   const treatment = main.find((t) => t.variable === s.treatment);
   const covariates = main.filter((t) => t.variable !== s.treatment);
-  const interactions = s.terms.flatMap((t) => ("interaction" in t ? [t.interaction.join(" by ")] : []));
+  const interactions = s.terms.flatMap((t) => ("interaction" in t ? [interactionName(t.interaction)] : []));
   const paragraphs: string[] = [];
 
   const sap = m.sap.name ? ` as pre-specified in ${m.sap.name}${m.sap.version ? ` version ${m.sap.version}` : ""}${m.sap.date ? ` (${m.sap.date})` : ""}` : "";
@@ -63,7 +65,7 @@ export function methodsProse(m: MethodsInput): { paragraphs: string[]; checks: s
       `The endpoint was ${named(s.response, m.labels)}. ` +
         (s.family === "gaussian"
           ? `It was analysed with a linear model (normal errors, identity link) estimated by ${s.weights ? `weighted least squares with prior weights from ${s.weights}` : "ordinary least squares"}`
-          : `It was analysed with a generalized linear model (${s.family} family, ${s.link ?? CANONICAL_LINK[s.family]} link) estimated by maximum likelihood${s.weights ? ` with prior weights from ${s.weights}` : ""}`) +
+          : `It was analysed with a generalized linear model (${familyWords(s.family).toLowerCase()} distribution, ${linkWords(s.link ?? CANONICAL_LINK[s.family])} link) estimated by maximum likelihood${s.weights ? ` with prior weights from ${s.weights}` : ""}`) +
         `${s.intercept === false ? " without an intercept" : ""}${s.offset ? `, with ${s.offset} entered as an offset` : ""}. ` +
         "Records with a missing value in the endpoint or in any model term were left out (complete-case analysis).",
     );

@@ -3,6 +3,7 @@
  * words a reviewer reads (covariates, reference arm, thresholds), not as a text diff.
  */
 import { describePopulation } from "~/engine/population";
+import { interactionName } from "~/engine/coefficient-names";
 import { CHECK_BY_KEY } from "~/engine/checks";
 import { publishedInWords } from "~/engine/published-values";
 import type { PlannedModel } from "./planned-model";
@@ -41,7 +42,7 @@ function survivalDiff(a: PlannedModel["spec"], b: PlannedModel["spec"]): string[
 function termText(m: PlannedModel): Map<string, string> {
   const out = new Map<string, string>();
   for (const t of m.spec.terms) {
-    if ("interaction" in t) out.set(t.interaction.join(" by "), "interaction");
+    if ("interaction" in t) out.set(interactionName(t.interaction), "interaction");
     else out.set(t.variable, t.categorical ? `categorical${t.reference ? `, reference ${t.reference}` : ""}` : "continuous");
   }
   return out;

@@ -1,4 +1,5 @@
 /** Shapes a stored planned model for display (plain data for loaders). */
+import { interactionName } from "~/engine/coefficient-names";
 import { CANONICAL_LINK } from "~/engine/model-spec";
 import type { CoxSpec } from "~/engine/survival/cox-spec";
 import { CHECK_BY_KEY } from "~/engine/checks";
@@ -46,7 +47,7 @@ export function plannedModelView(m: StoredPlannedModel): PlannedModelView {
     covariates: main
       .filter((t) => t.variable !== m.spec.treatment)
       .map((t) => (t.categorical ? `${t.variable} (categorical${t.reference ? `, reference ${t.reference}` : ""})` : t.variable)),
-    interactions: m.spec.terms.flatMap((t) => ("interaction" in t ? [t.interaction.join(" by ")] : [])),
+    interactions: m.spec.terms.flatMap((t) => ("interaction" in t ? [interactionName(t.interaction)] : [])),
     weights: m.spec.weights ?? null,
     offset: m.spec.offset ?? null,
     id_: m.spec.id ?? null,

@@ -10,6 +10,7 @@ import { contrastsSchema, meansWeightingSchema, modelSpecSchema, type ModelSpec,
 import { multiplicitySchema } from "~/engine/multiplicity";
 import { populationFromLegacy, type PopulationCondition } from "~/engine/population";
 import { populationFormOf, readPopulationForm, validatePopulation, type PopulationConditionForm } from "./population-form";
+import { interactionName } from "~/engine/coefficient-names";
 import type { ColumnMeta } from "../datasets/catalog.server";
 import { categoricalHints, isNumericType } from "../datasets/categorical-hint";
 import { coxSpecSchema } from "~/engine/survival/cox-spec";
@@ -271,7 +272,7 @@ export function validatePlannedModel(
   for (const parts of form.interactions) {
     const missing = parts.filter((p) => !mainVariables.has(p));
     if (parts.length < 2 || missing.length > 0) {
-      errors.interactions = `The interaction ${parts.join(" by ")} needs each of its variables as a main term${missing.length ? ` (missing: ${missing.join(", ")})` : ""}.`;
+      errors.interactions = `The interaction ${interactionName(parts)} needs each of its variables as a main term${missing.length ? ` (missing: ${missing.join(", ")})` : ""}.`;
       continue;
     }
     terms.push({ interaction: parts });

@@ -111,6 +111,11 @@ export async function getReport(studyId: string, rerunId: string) {
       n: view.n,
       dfResidual: "dfResidual" in view ? view.dfResidual : null,
       covarianceType: "covarianceType" in view ? view.covarianceType : "model",
+      /** "linear", "glm" or "cox": which words the tables use (t or z, differences or ratios). */
+      kind: view.kind,
+      statisticName: view.kind === "glm" ? view.statisticName : view.kind === "cox" ? ("z" as const) : ("t" as const),
+      /** The fit statistics as labelled rows; null for a Cox model (its tests are in `cox`). */
+      fitStatistics: "fitStatistics" in view ? view.fitStatistics : null,
       coefficients: view.coefficients.map((c) => ({ name: c.name, estimate: c.estimate, se: c.se, statistic: c.statistic, p: c.p, lower: c.lower, upper: c.upper })),
       adjustedMeans: "adjustedMeans" in view && view.adjustedMeans ? view.adjustedMeans : null,
       adjustedMeansWeighting: "adjustedMeansWeighting" in view ? view.adjustedMeansWeighting : null,
@@ -131,6 +136,7 @@ export async function getReport(studyId: string, rerunId: string) {
       remedy: c.remedy,
       flagged: c.flagged,
       flaggedCount: c.flaggedCount,
+      formula: c.formula,
     })),
     findings: findings.map((f) => ({
       id: f.id,

@@ -14,6 +14,18 @@ import type { RerunDocument } from "./reruns.server";
 
 const TRANSFORM_WORDS = { km: "Kaplan–Meier", rank: "rank", identity: "time", log: "log time" } as const;
 
+/** The tests of a Cox model against no covariate effect, named in words (page, report and appendix). */
+export function coxModelTests(r: CoxResult): { name: string; statistic: number; df: number; p: number }[] {
+  const t = r.tests;
+  return [
+    { name: "Likelihood-ratio test", ...t.likelihoodRatio },
+    { name: r.robust ? "Wald test, robust (sandwich) covariance" : "Wald test", ...t.wald },
+    { name: "Score test", ...t.score },
+    ...(t.robustScore ? [{ name: "Score test, robust (sandwich) covariance", ...t.robustScore }] : []),
+    ...(t.logRank ? [{ name: r.strata.length ? "Log-rank test of the arms, stratified" : "Log-rank test of the arms", statistic: t.logRank.statistic, df: t.logRank.df, p: t.logRank.p }] : []),
+  ];
+}
+
 export function coxRerunView(doc: RerunDocument, r: CoxResult, redact: Redaction) {
   const t = r.tests;
   return {
@@ -29,13 +41,7 @@ export function coxRerunView(doc: RerunDocument, r: CoxResult, redact: Redaction
     coefficients: r.coefficients.map((c) => ({ name: c.name, term: c.term, estimate: c.estimate, se: r.robust ? c.robustSe : c.se, statistic: c.statistic, p: c.p, lower: c.lower, upper: c.upper })),
     ratios: r.ratios,
     fit: r.fit,
-    tests: [
-      { name: "Likelihood ratio", ...t.likelihoodRatio },
-      { name: r.robust ? "Wald (robust)" : "Wald", ...t.wald },
-      { name: "Score (log-rank)", ...t.score },
-      ...(t.robustScore ? [{ name: "Robust score", ...t.robustScore }] : []),
-      ...(t.logRank ? [{ name: r.strata.length ? "Log-rank by arm, stratified" : "Log-rank by arm", statistic: t.logRank.statistic, df: t.logRank.df, p: t.logRank.p }] : []),
-    ],
+    tests: coxModelTests(r),
     proportionalHazards: {
       transform: TRANSFORM_WORDS[t.proportionalHazards.transform],
       rows: [...t.proportionalHazards.terms.map((x) => ({ term: x.term, statistic: x.statistic, df: x.df, p: x.p })), { term: "Global", ...t.proportionalHazards.global }],

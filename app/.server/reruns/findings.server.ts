@@ -13,6 +13,7 @@ import { notifyReportPublished, notifyRerunAwaitsSignOff } from "../mail/notific
 import type { PersonActor } from "../people.server";
 import { freshness, SIGNATURE_MEANINGS, type Signer } from "../signatures.server";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
+import { withoutRepeatedLabel } from "~/engine/checks";
 
 export { ACTIONS, CATEGORIES, IMPACTS };
 
@@ -37,7 +38,7 @@ export async function findingsOf(rerunId: string) {
     .leftJoin(t.people, eq(t.people.id, t.deviations.recordedBy))
     .where(eq(t.findings.rerunId, rerunId))
     .orderBy(asc(t.findings.createdAt));
-  return rows.map((r) => ({ ...r.f, assessment: r.d ? { ...r.d, recordedByName: r.who } : null }));
+  return rows.map((r) => ({ ...r.f, summary: withoutRepeatedLabel(r.f.summary), assessment: r.d ? { ...r.d, recordedByName: r.who } : null }));
 }
 
 async function openRerun(studyId: string, rerunId: string) {
@@ -119,7 +120,7 @@ export async function deviationLog(studyId: string, filter: DeviationFilter = {}
     .map((r) => ({
       ...r.d,
       recordedByName: r.who,
-      finding: r.f ? { id: r.f.id, checkKey: r.f.checkKey, summary: r.f.summary, statistic: r.f.statistic, threshold: r.f.threshold } : null,
+      finding: r.f ? { id: r.f.id, checkKey: r.f.checkKey, summary: withoutRepeatedLabel(r.f.summary), statistic: r.f.statistic, threshold: r.f.threshold } : null,
       rerun: r.r ? { id: r.r.id, label: r.r.label, signedAt: r.r.signedAt } : null,
       model: r.m ? { key: r.m.key, title: r.m.title } : null,
     }));

@@ -5,9 +5,11 @@
  * people who may see subject-level data, ranks and counts for the others.
  */
 import { populationStepsOf } from "./rerun-population";
-import type { CheckOutcome } from "~/engine/checks";
 import type { TreatmentEffectPlan } from "~/components/treatment-effect";
 import { reproductionAsCheck } from "~/engine/reproduction";
+import { CHECK_BY_KEY, type CheckOutcome } from "~/engine/checks";
+import { familyWithLink } from "~/engine/family-names";
+import { fitFactsOf, fitStatisticRows } from "~/components/fit-statistics";
 import type { Redaction } from "../redaction.server";
 import type { RerunDocument } from "./reruns.server";
 import { coxReportedContrasts, coxRerunView, restrictedMeanContrasts } from "./cox-rerun-view.server";
@@ -24,6 +26,8 @@ export interface ContrastView {
   pAdjusted?: number;
   /** Null where the robust alternative does not apply (Ye et al. for a non-canonical GLM). */
   hc3: { se: number; lower: number; upper: number; statistic: number; p: number; pAdjusted?: number } | null;
+  /** "log" for a ratio: its SEs are those of the log ratio (the estimate and interval are ratios). */
+  seScale: "response" | "log";
 }
 
 /** The plan's contrast set and multiplicity method, and the overall test of the treatment term. */
@@ -60,6 +64,7 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
       p: c.p,
       ...(c.pAdjusted !== undefined ? { pAdjusted: c.pAdjusted } : {}),
       hc3: { se: c.hc3.se, lower: c.hc3.lower, upper: c.hc3.upper, statistic: c.hc3.statistic, p: c.hc3.p, ...(c.hc3.pAdjusted !== undefined ? { pAdjusted: c.hc3.pAdjusted } : {}) },
+      seScale: "response" as const,
     }));
   }
   return (r.marginalEffects?.contrasts ?? []).map((c) => ({
@@ -74,6 +79,7 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
     hc3: c.robust
       ? { se: c.robust.se, lower: c.robust.lower, upper: c.robust.upper, statistic: c.robust.statistic, p: c.robust.p, ...(c.robust.pAdjusted !== undefined ? { pAdjusted: c.robust.pAdjusted } : {}) }
       : null,
+    seScale: c.measure === "risk difference" ? ("response" as const) : ("log" as const),
   }));
 }
 
@@ -98,6 +104,7 @@ export function checkView(c: CheckOutcome, redact: Redaction) {
     remedy: redact.text(c.remedy, c.key),
     flagged: redact.flagged(c),
     flaggedCount: c.flagged?.length ?? 0,
+    formula: CHECK_BY_KEY.get(c.key)?.formula ?? null,
   };
 }
 
@@ -125,6 +132,10 @@ export function rerunView(doc: RerunDocument, redact: Redaction) {
     method: r.method.description,
     family: r.family,
     link: r.link,
+    /** "Normal (identity link)", "Binomial (logit link)". */
+    familyLabel: familyWithLink(r.family, r.link),
+    /** The fit statistics as labelled rows (fit-statistics.ts). */
+    fitStatistics: fitStatisticRows(fitFactsOf(r)),
     n: r.n,
     rank: r.rank,
     dfResidual: r.dfResidual,

@@ -9,7 +9,7 @@ import { createHash } from "node:crypto";
 import { and, asc, desc, eq, getTableColumns, inArray } from "drizzle-orm";
 import { LRUCache } from "lru-cache";
 import { data } from "react-router";
-import { evaluateChecks, type CheckOutcome } from "~/engine/checks";
+import { evaluateChecks, findingSummary, type CheckOutcome } from "~/engine/checks";
 import { evaluateCoxChecks } from "~/engine/survival/cox-checks";
 import { checkReproduction, reproductionAsCheck, type ReproductionResult } from "~/engine/reproduction";
 import { fitCoxModel, type CoxResult } from "~/engine/survival/cox-model";
@@ -234,7 +234,7 @@ export async function executeRerun(rerunId: string): Promise<void> {
           kind: "check",
           statistic: c.statistic,
           threshold: c.threshold,
-          summary: `${c.label}: ${c.summary}`,
+          summary: findingSummary(c.label, c.summary),
           detailJson: canonicalJson({ flaggedCount: c.flagged?.length ?? 0 }),
         });
       }

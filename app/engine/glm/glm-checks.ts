@@ -67,13 +67,13 @@ export function overdispersion(
   const name = family === "negative-binomial" ? "the negative binomial model" : "a Poisson model";
   let reading: string;
   if (family === "quasipoisson") {
-    reading = `The dispersion is estimated (Pearson χ²/df = ${ratio.toFixed(2)}); standard errors are scaled by its square root.`;
+    reading = `The dispersion is estimated (Pearson χ² per residual degree of freedom ${ratio.toFixed(2)}); standard errors are scaled by its square root.`;
   } else if (p < 0.05 && ratio > 1) {
-    reading = `Overdispersion: the counts vary about ${ratio.toFixed(1)} times as much as ${name} allows (Pearson χ²/df = ${ratio.toFixed(2)}, p = ${p.toPrecision(2)}); model-based standard errors are too small.`;
+    reading = `The counts vary about ${ratio.toFixed(1)} times as much as ${name} allows (Pearson χ² per residual degree of freedom ${ratio.toFixed(2)}, p = ${p.toPrecision(2)}); model-based standard errors are too small.`;
   } else if (ratio < 1 && chiSquareUpper(pearsonChiSquare, df) > 0.95) {
-    reading = `Underdispersion: the counts vary less than ${name} allows (Pearson χ²/df = ${ratio.toFixed(2)}).`;
+    reading = `The counts vary less than ${name} allows, which is underdispersion (Pearson χ² per residual degree of freedom ${ratio.toFixed(2)}).`;
   } else {
-    reading = `No sign of overdispersion (Pearson χ²/df = ${ratio.toFixed(2)}, p = ${p.toPrecision(2)}).`;
+    reading = `No sign of overdispersion (Pearson χ² per residual degree of freedom ${ratio.toFixed(2)}, p = ${p.toPrecision(2)}).`;
   }
   return { statistic: pearsonChiSquare, df, p, ratio, reading };
 }

@@ -11,6 +11,7 @@ import { observationDiagnostics, robustCovariances } from "../diagnostics";
 import { chiSquareUpper, normalQuantile, normalUpper, tTwoSided } from "../distributions";
 import { treatmentTestProblem, type TreatmentChiSquareTest } from "../treatment-test";
 import { EngineError } from "../errors";
+import { interactionName } from "../coefficient-names";
 import type { FitMethod, VariableSummary } from "../linear-model";
 import { CANONICAL_LINK, type Link, type ModelSpec } from "../model-spec";
 import { readQqShape, type QqShape } from "../qq-shape";
@@ -433,7 +434,7 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
       .filter((c) => !design.terms.some((t) => t.kind === "interaction" && t.variables.length === 2 && t.variables.includes(c) && t.variables.includes(arm)));
     if (others.length > 0) {
       const byCovariate = others.map((c) => {
-        return nested(`${arm} by ${c}`, refit([[arm, c]]));
+        return nested(interactionName([arm, c]), refit([[arm, c]]));
       });
       homogeneity = { joint: nested("all treatment interactions", refit(others.map((c) => [arm, c]))), byCovariate };
     }
@@ -486,7 +487,8 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     notes.push(`IRLS stopped at its limit of ${fit.iterations} iterations before the deviance settled; the estimates may not be the maximum-likelihood estimates.`);
   }
   if (eventsPerVariable < 10) {
-    notes.push(`Only ${eventsPerVariable.toFixed(1)} events per estimated coefficient (fewer than 10): estimates may be biased away from zero and intervals too narrow.`);
+    const smaller = familyName === "binomial" && n - events < events ? "non-events (the smaller class)" : familyName === "binomial" ? "events (the smaller class)" : "events";
+    notes.push(`Only ${eventsPerVariable.toFixed(1)} ${smaller} per estimated coefficient (fewer than 10): estimates may be biased away from zero and intervals too narrow.`);
   }
 
   const marginal =

@@ -3,7 +3,7 @@
  * functional form of continuous covariates, influence on the treatment log hazard ratio, and
  * events per coefficient. Each ends as within plan, finding or not computed. Pure: no I/O.
  */
-import { CHECK_BY_KEY, formatP, type CheckDefinition, type CheckOutcome, type FlaggedObservation, type PlannedCheck } from "../checks";
+import { CHECK_BY_KEY, distributionWords, formatP, type CheckDefinition, type CheckOutcome, type FlaggedObservation, type PlannedCheck } from "../checks";
 import type { CoxResult } from "./cox-model";
 import type { FunctionalFormTest } from "./functional-form";
 
@@ -38,7 +38,7 @@ function proportionalHazards(def: CheckDefinition, pc: PlannedCheck, r: CoxResul
     key: def.key,
     label: def.label,
     outcome: finding ? "finding" : "within",
-    statistic: `global χ² = ${fmt(g.statistic, 2)} on ${g.df} df, ${pText(g.p)}${worst ? `; smallest term p ${formatP(worst.p)} (${worst.term})` : ""}`,
+    statistic: `global Grambsch–Therneau statistic ${fmt(g.statistic, 2)} ${distributionWords("χ²", [g.df])}, ${pText(g.p)}${worst ? `; smallest term p ${formatP(worst.p)} (${worst.term})` : ""}`,
     threshold: `p < ${kText(k)}`,
     summary: finding
       ? `The hazards may not be proportional${rejected.length ? ` for ${rejected.map((t) => t.term).join(", ")}` : " (global test)"}; judge the size of the departure on the scaled Schoenfeld plot, since large trials reject trivial departures.`
@@ -46,6 +46,7 @@ function proportionalHazards(def: CheckDefinition, pc: PlannedCheck, r: CoxResul
     remedy: pc.remedy,
     figure: def.figure,
     value: g.p,
+    numbers: { measure: "global Grambsch–Therneau statistic", statistic: g.statistic, df: [g.df], threshold: k, compares: "p below", p: g.p },
   };
 }
 
@@ -62,7 +63,7 @@ function functionalForm(def: CheckDefinition, pc: PlannedCheck, tests: readonly 
     key: def.key,
     label: def.label,
     outcome: over.length ? "finding" : "within",
-    statistic: `smallest p ${formatP(worst.p)} (${worst.term}, LR χ² = ${fmt(worst.statistic, 2)})`,
+    statistic: `smallest ${pText(worst.p)} (${worst.term}: likelihood-ratio statistic ${fmt(worst.statistic, 2)} ${distributionWords("χ²", [1])})`,
     threshold: `p < ${kText(k)}`,
     summary: over.length
       ? `A squared term improves the fit for ${over.map((t) => t.term).join(", ")}: the log hazard may not be linear in ${over.length > 1 ? "these covariates" : "this covariate"}.`
@@ -70,6 +71,7 @@ function functionalForm(def: CheckDefinition, pc: PlannedCheck, tests: readonly 
     remedy: pc.remedy,
     figure: def.figure,
     value: worst.p,
+    numbers: { measure: `likelihood-ratio statistic of the squared term, ${worst.term}`, statistic: worst.statistic, df: [1], threshold: k, compares: "p below", p: worst.p },
   };
 }
 
@@ -101,13 +103,17 @@ function influence(def: CheckDefinition, pc: PlannedCheck, r: CoxResult): CheckO
     key: def.key,
     label: def.label,
     outcome: flagged.length ? "finding" : "within",
-    statistic: maxIndex >= 0 ? `largest |DFBETAS| on treatment ${fmt(Math.abs(worst[maxIndex]))} (${who({ id: obs.id[maxIndex], row: obs.row[maxIndex] })})` : "largest |DFBETAS| on treatment —",
+    statistic:
+      maxIndex >= 0
+        ? `largest absolute DFBETAS on the treatment effect ${fmt(Math.abs(worst[maxIndex]))}${worst[maxIndex] < 0 ? ", negative" : worst[maxIndex] > 0 ? ", positive" : ""} (${who({ id: obs.id[maxIndex], row: obs.row[maxIndex] })})`
+        : "largest absolute DFBETAS on the treatment effect —",
     threshold,
     summary: flagged.length ? `${flagged.length} of ${n} subjects exceed the threshold; the most extreme is ${who(flagged[0])}.` : "No subject exceeds the threshold.",
     remedy: pc.remedy,
     figure: def.figure,
     flagged,
     value: maxIndex >= 0 ? worst[maxIndex] : null,
+    numbers: { measure: "largest absolute DFBETAS on the treatment effect", statistic: maxIndex >= 0 ? Math.abs(worst[maxIndex]) : null, df: null, threshold: bound, compares: "statistic above", p: null },
   };
 }
 
@@ -125,6 +131,7 @@ function eventsPerCoefficient(def: CheckDefinition, pc: PlannedCheck, r: CoxResu
     remedy: pc.remedy,
     figure: def.figure,
     value: epc,
+    numbers: { measure: "events per estimated coefficient", statistic: epc, df: null, threshold: k, compares: "statistic below", p: null },
   };
 }
 

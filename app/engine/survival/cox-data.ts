@@ -4,6 +4,7 @@
  * rows sorted by stratum and time with the blocks of tied times the risk-set sweep walks.
  */
 import { isMissingCell, parseNumber, type DataTable } from "../data";
+import { levelName } from "../coefficient-names";
 import { buildDesign, prepareData, type Design, type PreparedData } from "../design";
 import { EngineError } from "../errors";
 import type { ModelSpec } from "../model-spec";
@@ -143,7 +144,7 @@ export function prepareCoxData(spec: CoxSpec, table: DataTable): PreparedCox {
     );
   }
 
-  const labelOf = (k: number) => spec.strata.map((s) => `${s}=${kept.columns[s][prepared.used[k]].trim()}`).join(", ");
+  const labelOf = (k: number) => spec.strata.map((s) => levelName(s, kept.columns[s][prepared.used[k]].trim())).join(", ");
   const labels = [...new Set(Array.from({ length: n }, (_, k) => labelOf(k)))].sort();
   const labelIndex = new Map(labels.map((l, i) => [l, i]));
   const stratum = Int32Array.from({ length: n }, (_, k) => labelIndex.get(labelOf(k)) as number);
