@@ -2,6 +2,9 @@
  * Headless command.
  *
  *   npm run --silent cli -- fit --data FILE --model MODEL.json [--means equal|proportional]
+ *
+ * The model's `population` conditions select the rows first (app/engine/population.ts, as a
+ * rerun does); `--means` overrides the model's `means`.
  *   npm run --silent cli -- inspect --data FILE
  *
  * FILE is CSV (.csv), CDISC Dataset-JSON v1.1 (.json, .ndjson) or XPORT version 5 (.xpt), read
@@ -15,10 +18,12 @@ import { readFileSync } from "node:fs";
 import { limitsFromEnv } from "./engine-io/dataset/limits";
 import { firstBytesOf, formatOf, readDatasetFile, type ReadTable, type ValueType } from "./engine-io/dataset/read";
 import { findKey } from "./.server/datasets/keys";
-import { EngineError, fitModel, stringifyResult, toCliResult } from "./engine";
+import { EngineError, fitModel, parseModelSpec, stringifyResult, toCliResult } from "./engine";
 import type { MeansWeighting } from "./engine";
-import { isCoxSpec } from "./engine/survival/cox-spec";
-import { coxCliAnswer } from "./engine/survival/cox-result";
+import { selectPopulation } from "./engine/population";
+import { isCoxSpec, parseCoxSpec } from "./engine/survival/cox-spec";
+import { fitCoxModel } from "./engine/survival/cox-model";
+import { toCoxCliResult } from "./engine/survival/cox-result";
 import { checkReproduction } from "./engine/reproduction";
 import { isRepeatedSpec } from "./engine/repeated/repeated-spec";
 import { repeatedCliAnswer } from "./engine/repeated/repeated-result";
@@ -27,7 +32,7 @@ const USAGE = "usage: cli fit --data FILE --model MODEL.json [--means equal|prop
 
 class UsageError extends Error {}
 
-type Args = { command: "fit"; data: string; model: string; means: MeansWeighting } | { command: "inspect"; data: string };
+type Args = { command: "fit"; data: string; model: string; means: MeansWeighting | null } | { command: "inspect"; data: string };
 
 function parseArgs(argv: string[]): Args {
   const [command, ...rest] = argv;
@@ -45,8 +50,8 @@ function parseArgs(argv: string[]): Args {
   if (!values.data) throw new UsageError(`missing --data; ${USAGE}`);
   if (command === "inspect") return { command, data: values.data };
   if (!values.model) throw new UsageError(`missing --model; ${USAGE}`);
-  const means = values.means ?? "equal";
-  if (means !== "equal" && means !== "proportional") throw new UsageError(`--means must be "equal" or "proportional"`);
+  const means = values.means ?? null;
+  if (means !== null && means !== "equal" && means !== "proportional") throw new UsageError(`--means must be "equal" or "proportional"`);
   return { command, data: values.data, model: values.model, means };
 }
 
@@ -112,17 +117,23 @@ async function main(): Promise<number> {
     const columns: Record<string, string[]> = {};
     table.names.forEach((name, j) => (columns[name] = table.cells[j]));
     if (isRepeatedSpec(spec)) {
-      process.stdout.write(repeatedCliAnswer(spec, { columns, rowNumbers: table.rowNumbers }, { meansWeighting: args.means }) + "\n");
+      process.stdout.write(repeatedCliAnswer(spec, { columns, rowNumbers: table.rowNumbers }, { meansWeighting: args.means ?? "equal" }) + "\n");
       return 0;
     }
-    if (isCoxSpec(spec)) {
-      process.stdout.write(coxCliAnswer(spec, { columns, rowNumbers: table.rowNumbers }) + "\n");
+    const parsed = isCoxSpec(spec) ? parseCoxSpec(spec) : parseModelSpec(spec);
+    const population = selectPopulation({ columns, rowNumbers: table.rowNumbers }, parsed.population);
+    const populationFacts = { excludedByPopulation: population.excluded, population: population.byCondition };
+    if (parsed.family === "cox") {
+      const answer = toCoxCliResult(fitCoxModel(parsed, population.table));
+      process.stdout.write(stringifyResult({ ...answer, ...populationFacts }) + "\n");
       return 0;
     }
-    const result = fitModel(spec, { columns, rowNumbers: table.rowNumbers }, { meansWeighting: args.means });
+    const result = fitModel(parsed, population.table, args.means ? { meansWeighting: args.means } : {});
     // the model's "published" values, when given, are checked against the fit (reproduction.ts)
     const published = result.spec.published ?? [];
-    process.stdout.write(stringifyResult({ ...toCliResult(result), ...(published.length > 0 ? { reproduction: checkReproduction(result, published) } : {}) }) + "\n");
+    process.stdout.write(
+      stringifyResult({ ...toCliResult(result), ...populationFacts, ...(published.length > 0 ? { reproduction: checkReproduction(result, published) } : {}) }) + "\n",
+    );
     return 0;
   } catch (err) {
     if (err instanceof EngineError || err instanceof UsageError) {

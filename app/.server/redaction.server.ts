@@ -81,6 +81,9 @@ const IDENTITY: Redaction = {
  * The redaction for one viewer: `seesSubjects` from permissions.server.ts, the reruns whose
  * subjects the answer may mention, and further ids (the locked dataset's id column).
  */
+/** `subject "…"` as the engine's messages name a subject. */
+const QUOTED_SUBJECT = /\b([Ss])ubject "[^"]*"/g;
+
 export function redaction(seesSubjects: boolean, docs: readonly (RerunDocument | null)[], moreIds: Iterable<string> = []): Redaction {
   if (seesSubjects) return IDENTITY;
   const ids = new Set<string>();
@@ -128,7 +131,9 @@ export function redaction(seesSubjects: boolean, docs: readonly (RerunDocument |
     return Boolean(afterWordTest?.test(s) || bareTest?.test(s));
   };
   const text = (value: string, checkKey?: string | null) => {
-    let out = value.replace(WORDS, (m, before: string | undefined, word: string) => {
+    // a subject the engine names in quotes (a refusal of a failed rerun, whose ids were never stored) is withheld whatever its id
+    let out = value.replace(QUOTED_SUBJECT, (_m, s: string) => `${s === "S" ? "A" : "a"} subject`);
+    out = out.replace(WORDS, (m, before: string | undefined, word: string) => {
       if (!namesWord(before, word)) return m;
       return before !== undefined ? replacement(before[0], word, checkKey) : WITHHELD;
     });

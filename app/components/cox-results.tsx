@@ -3,6 +3,7 @@
  * intervals, the model's tests, the proportional-hazards test per term and global, the plan's
  * checks with their figures, and the survival and residual figures.
  */
+import { populationNote, type PopulationStepView } from "./population-note";
 import type { FigureKey } from "~/engine/checks";
 import { RerunFigure } from "./figures/rerun-figure";
 import { fmt, fmtCi, fmtP } from "./format";
@@ -36,7 +37,7 @@ export interface CoxView {
     missingCells: number;
     used: number;
   };
-  population: { column: string; value: string } | null;
+  population: PopulationStepView[];
   treatment: string | null;
   strata: readonly string[];
   robust: boolean;
@@ -293,9 +294,7 @@ export function CoxResults({
         <p className="num text-sm">
           {view.rows.inFile} rows in the file · {view.rows.outsidePopulation}{" "}
           outside the population
-          {view.population
-            ? ` (${view.population.column} ≠ ${view.population.value})`
-            : ""}{" "}
+          {populationNote(view.population)}{" "}
           · {view.rows.excludedByOption} excluded by this analysis ·{" "}
           {view.rows.missingCells} left out for missing cells ·{" "}
           <span className="font-semibold">{view.rows.used} used</span> ·{" "}

@@ -1,6 +1,8 @@
 import { useMemo, useState } from "react";
 import { FieldError } from "./page";
 import { SurvivalSection, type SurvivalFields } from "./planned-model-survival";
+import { PopulationSection, type PopulationConditionFields } from "./planned-model-population";
+import { TreatmentEffectSection } from "./planned-model-analysis";
 import { PublishedValuesSection, type PublishedFields } from "./planned-model-published";
 import { interactionName } from "~/engine/coefficient-names";
 import { linkWords } from "~/engine/family-names";
@@ -35,8 +37,7 @@ export interface EditorForm {
   key: string;
   title: string;
   datasetName: string;
-  populationColumn: string;
-  populationValue: string;
+  population: PopulationConditionFields[];
   response: string;
   family: string;
   link: string;
@@ -50,6 +51,10 @@ export interface EditorForm {
   id: string;
   checks: { key: string; enabled: boolean; threshold: number; remedy: string }[];
   sensitivity: { kind: string; varianceBy?: string; covariates?: string[]; label?: string; tau?: number }[];
+  /** Adjusted-means weighting, contrasts and multiplicity (linear and generalized linear models). */
+  means: string;
+  contrasts: string;
+  multiplicity: string;
   /** Time-to-event fields (family "cox"). */
   survival?: SurvivalFields;
   /** Values the study report printed, for the reproduction check (linear and generalized linear models). */
@@ -123,8 +128,6 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
   const [response, setResponse] = useState(initial.response);
   const [treatment, setTreatment] = useState(initial.treatment);
   const [reference, setReference] = useState(initial.treatmentReference);
-  const [populationColumn, setPopulationColumn] = useState(initial.populationColumn);
-  const [populationValue, setPopulationValue] = useState(initial.populationValue);
   const [covariates, setCovariates] = useState(() => new Map(initial.covariates.map((c) => [c.variable, c])));
   const [interactions, setInteractions] = useState(() => new Set(initial.interactions.map((i) => i.join("|"))));
   const sens = new Map(initial.sensitivity.map((s) => [s.kind, s]));
@@ -193,9 +196,8 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
             error={errors.datasetName}
             hint="A rerun reads any locked version of this dataset."
           />
-          <Select id="pm-pop-col" name="populationColumn" label="Population flag" value={populationColumn} onChange={(v) => { setPopulationColumn(v); setPopulationValue(""); }} options={colOptions(categoricalColumns)} placeholder="All rows" error={errors.populationColumn} />
-          <Select id="pm-pop-val" name="populationValue" label="…equal to" value={populationValue} onChange={setPopulationValue} options={levels(populationColumn)} placeholder={populationColumn ? "Choose a value" : "—"} error={errors.populationValue} />
         </div>
+        <PopulationSection key={datasetName} initial={datasetName === initial.datasetName ? initial.population : []} columns={columns} errors={errors} />
       </Section>
 
       <Section title="Endpoint and model">
@@ -207,8 +209,9 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
         <div className="mt-3 grid gap-3 md:grid-cols-3">
           <Select id="pm-treatment" name="treatment" label="Treatment variable" value={treatment} onChange={(v) => { setTreatment(v); setReference(""); }} options={colOptions(categoricalColumns)} placeholder="No treatment term" error={errors.treatment} />
           <Select id="pm-reference" name="treatmentReference" label="Reference arm" value={reference} onChange={setReference} options={levels(treatment)} placeholder={treatment ? "Choose the reference arm" : "—"} error={errors.treatmentReference} />
-          <Select id="pm-id" name="id" label="Subject identifier" value={initial.id} options={colOptions()} placeholder="None" error={errors.id} hint="Shown beside influential subjects." />
+          <Select id="pm-id" name="id" label="Subject identifier" value={initial.id} options={colOptions()} placeholder="None" error={errors.id} hint="Shown beside influential subjects; a subject in two analysed rows is refused." />
         </div>
+        {family === "cox" ? null : <TreatmentEffectSection initial={initial} errors={errors} />}
       </Section>
 
       {family === "cox" ? <SurvivalSection initial={initial.survival} columns={columns} exclude={[response, treatment]} errors={errors} /> : null}

@@ -4,7 +4,10 @@ export interface PlannedModelView {
   key: string;
   title: string;
   datasetName: string;
-  population: { column: string; value: string } | null;
+  /** The population conditions in words ("all rows" without any). */
+  population: string;
+  /** Adjusted-means weighting, contrasts and multiplicity in words (models with a treatment). */
+  analysis?: [string, string][];
   response: string;
   family: string;
   link: string;
@@ -29,7 +32,7 @@ const num = (x: number) => (Number.isInteger(x) ? String(x) : x.toPrecision(4).r
 export function PlannedModelSummary({ m, actions }: { m: PlannedModelView; actions?: React.ReactNode }) {
   const facts: [string, string][] = [
     ["Dataset", m.datasetName],
-    ["Population", m.population ? `${m.population.column} = ${m.population.value}` : "All rows"],
+    ["Population", m.population],
     ["Endpoint", m.response],
     ["Distribution and link", m.family === "cox" ? `${familyWords("cox")}: ${m.link}` : familyWithLink(m.family, m.link)],
     ["Treatment", m.treatment ? `${m.treatment} (reference ${m.reference ?? "first level"})` : "none"],
@@ -38,6 +41,7 @@ export function PlannedModelSummary({ m, actions }: { m: PlannedModelView; actio
     ["Weights", m.weights ?? "none"],
     ["Offset", m.offset ?? "none"],
     ["Subject id", m.id_ ?? "none"],
+    ...(m.analysis ?? []),
     ...(m.survival ?? []),
   ];
   return (

@@ -1,4 +1,5 @@
 import { Link } from "react-router";
+import { MULTIPLICITY_WORDS, type TreatmentEffectPlan } from "./treatment-effect";
 import type { ReactNode } from "react";
 import { fmt, fmtCi, fmtP } from "./format";
 import { StatusLabel } from "./status";
@@ -115,7 +116,8 @@ interface ContrastRow {
   lower: number;
   upper: number;
   p: number;
-  hc3: { se: number; lower: number; upper: number; p: number } | null;
+  pAdjusted?: number;
+  hc3: { se: number; lower: number; upper: number; p: number; pAdjusted?: number } | null;
   /** "log" for a ratio, whose SEs are those of the log ratio. */
   seScale?: "response" | "log";
 }
@@ -130,14 +132,17 @@ function SeCell({ se, scale }: { se: number | null | undefined; scale?: "respons
   );
 }
 
-export function ContrastsTable({ rows, kind = "linear" }: { rows: readonly ContrastRow[]; kind?: "linear" | "glm" }) {
+export function ContrastsTable({ rows, kind = "linear", plan }: { rows: readonly ContrastRow[]; kind?: "linear" | "glm"; plan?: Pick<TreatmentEffectPlan, "contrastSet" | "multiplicity"> }) {
   const robust = kind === "linear" ? "HC3" : "Robust";
+  const against = plan?.contrastSet === "pairwise" ? "between every pair of arms" : "against the reference arm";
+  const adjusted = plan && plan.multiplicity !== "none" ? MULTIPLICITY_WORDS[plan.multiplicity] : null;
   return (
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         {kind === "linear"
-          ? "Treatment contrasts against the reference arm (difference in adjusted means)."
-          : "Marginal treatment effects against the reference arm by standardization over the rows used (delta-method SE, Ge et al. 2011; robust SE valid under misspecification, Ye et al. 2023). A ratio's SE, marked (log), is that of the log ratio; its estimate and interval are ratios."}
+          ? `Treatment contrasts ${against} (difference in adjusted means).`
+          : `Marginal treatment effects ${against} by standardization over the rows used (delta-method SE, Ge et al. 2011; robust SE valid under misspecification, Ye et al. 2023). A ratio's SE, marked (log), is that of the log ratio; its estimate and interval are ratios.`}
+        {adjusted ? ` Adjusted p: ${adjusted} method, within each family of contrasts${kind === "glm" ? " of one measure" : ""}.` : ""}
       </caption>
       <thead>
         <tr>
@@ -154,6 +159,11 @@ export function ContrastsTable({ rows, kind = "linear" }: { rows: readonly Contr
           <th scope="col" className="text-right">
             p
           </th>
+          {adjusted ? (
+            <th scope="col" className="text-right">
+              p adjusted ({adjusted})
+            </th>
+          ) : null}
           <th scope="col" className="text-right">
             {robust} SE
           </th>
@@ -163,6 +173,11 @@ export function ContrastsTable({ rows, kind = "linear" }: { rows: readonly Contr
           <th scope="col" className="text-right">
             {robust} p
           </th>
+          {adjusted ? (
+            <th scope="col" className="text-right">
+              {robust} p adjusted
+            </th>
+          ) : null}
         </tr>
       </thead>
       <tbody>
@@ -175,9 +190,11 @@ export function ContrastsTable({ rows, kind = "linear" }: { rows: readonly Contr
             <SeCell se={c.se} scale={c.seScale} />
             <td className="num text-right whitespace-nowrap">{fmtCi(c.lower, c.upper)}</td>
             <td className="num text-right">{fmtP(c.p)}</td>
+            {adjusted ? <td className="num text-right">{fmtP(c.pAdjusted)}</td> : null}
             <SeCell se={c.hc3?.se} scale={c.seScale} />
             <td className="num text-right whitespace-nowrap">{c.hc3 ? fmtCi(c.hc3.lower, c.hc3.upper) : "does not apply"}</td>
             <td className="num text-right">{fmtP(c.hc3?.p)}</td>
+            {adjusted ? <td className="num text-right">{fmtP(c.hc3?.pAdjusted)}</td> : null}
           </tr>
         ))}
       </tbody>

@@ -5,12 +5,33 @@
  * covariates at their mean over the rows used and averaged over the levels of the other
  * categorical factors, equally (the default) or in proportion to their observed frequencies.
  * Standard errors √(L'VL) with V the model-based or the HC3 covariance; t on the residual df.
+ * Contrasts are each arm against the reference, or every pair of arms (the reference against
+ * each arm first, then the other pairs, later level against earlier); their p-values may be
+ * adjusted for multiplicity within that family (multiplicity.ts).
  */
 import { designRow, type CategoricalVariable, type Variable } from "./design";
 import { tQuantile, tTwoSided } from "./distributions";
 import type { LinearFitContext } from "./linear-fit-context";
+import type { ContrastSet } from "./model-spec";
+import { adjustPValues, type Multiplicity } from "./multiplicity";
 
 export type MeansWeighting = "equal" | "proportional";
+
+/** What the plan asks of the treatment contrasts. */
+export interface ContrastPlan {
+  readonly set: ContrastSet;
+  readonly multiplicity: Multiplicity;
+}
+
+/** The pairs (level index, compared-with index) of a contrast set, reference comparisons first. */
+export function contrastPairs(levels: number, reference: number, set: ContrastSet): [number, number][] {
+  const pairs: [number, number][] = [];
+  for (let i = 0; i < levels; i++) if (i !== reference) pairs.push([i, reference]);
+  if (set === "pairwise") {
+    for (let a = 0; a < levels; a++) for (let b = a + 1; b < levels; b++) if (a !== reference && b !== reference) pairs.push([b, a]);
+  }
+  return pairs;
+}
 
 export interface Interval {
   readonly se: number;
@@ -28,6 +49,8 @@ export interface AdjustedMean extends Interval {
 export interface ContrastInterval extends Interval {
   readonly statistic: number;
   readonly p: number;
+  /** p adjusted for multiplicity within the plan's family of contrasts (absent without a method). */
+  readonly pAdjusted?: number;
 }
 
 export interface Contrast extends ContrastInterval {
@@ -56,6 +79,8 @@ export interface AdjustedMeans {
   readonly grid: AdjustedMeansGrid;
   readonly means: readonly AdjustedMean[];
   readonly contrasts: readonly Contrast[];
+  readonly contrastSet: ContrastSet;
+  readonly multiplicity: Multiplicity;
 }
 
 function quadratic(l: Float64Array, v: Float64Array, p: number): number {
@@ -74,6 +99,7 @@ export function adjustedMeans(
   covariance: Float64Array,
   hc3: Float64Array,
   weighting: MeansWeighting = "equal",
+  plan: ContrastPlan = { set: "reference", multiplicity: "none" },
 ): AdjustedMeans | null {
   const { spec, data, design, fit } = ctx;
   if (!spec.treatment) return null;
@@ -136,24 +162,27 @@ export function adjustedMeans(
     return { level, estimate: est, ...interval(est, lVectors[i], covariance), hc3: interval(est, lVectors[i], hc3) };
   });
   const ref = treatment.referenceIndex;
-  const contrasts: Contrast[] = [];
-  treatment.levels.forEach((level, i) => {
-    if (i === ref) return;
-    const l = lVectors[i].map((v, j) => v - lVectors[ref][j]);
+  const raw = contrastPairs(treatment.levels.length, ref, plan.set).map(([i, j]) => {
+    const l = lVectors[i].map((v, k) => v - lVectors[j][k]);
     const est = estimateOf(l);
     const withT = (iv: Interval): ContrastInterval => {
       const statistic = est / iv.se;
       return { ...iv, statistic, p: tTwoSided(statistic, df) };
     };
-    contrasts.push({
-      label: `${level} vs ${treatment.reference}`,
-      level,
-      reference: treatment.reference,
+    return {
+      label: `${treatment.levels[i]} vs ${treatment.levels[j]}`,
+      level: treatment.levels[i],
+      reference: treatment.levels[j],
       estimate: est,
       ...withT(interval(est, l, covariance)),
       hc3: withT(interval(est, l, hc3)),
-    });
+    };
   });
+  const adjusted = plan.multiplicity === "none" ? null : adjustPValues(raw.map((c) => c.p), plan.multiplicity);
+  const adjustedHc3 = plan.multiplicity === "none" ? null : adjustPValues(raw.map((c) => c.hc3.p), plan.multiplicity);
+  const contrasts: Contrast[] = raw.map((c, k) =>
+    adjusted && adjustedHc3 ? { ...c, pAdjusted: adjusted[k], hc3: { ...c.hc3, pAdjusted: adjustedHc3[k] } } : c,
+  );
   const grid: AdjustedMeansGrid = {
     covariates: [...data.variables.values()]
       .filter((v): v is Extract<Variable, { kind: "continuous" }> => v.kind === "continuous")
@@ -162,5 +191,5 @@ export function adjustedMeans(
     factors: others.map((f) => f.name),
     cells: cells.map((c) => ({ levels: c.levels.map((l, i) => others[i].levels[l]), weight: c.weight / totalWeight })),
   };
-  return { weighting, grid, means, contrasts };
+  return { weighting, grid, means, contrasts, contrastSet: plan.set, multiplicity: plan.multiplicity };
 }

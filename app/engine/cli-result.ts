@@ -133,6 +133,25 @@ export function toGlmCliResult(result: GlmResult): Record<string, unknown> {
     vif: result.vif.map((v) => ({ term: v.term, gvif: num(v.gvif), df: v.df, adjusted: num(v.adjusted) })),
     qqShape: qqShapeOut(result.qqShape),
     ...(result.marginalEffects ? { marginalEffects: glmMarginalEffects(result, result.marginalEffects) } : {}),
+    ...(result.marginalEffects
+      ? {
+          multiplicity: result.marginalEffects.multiplicity ?? "none",
+          contrasts: result.marginalEffects.contrasts.map((c) => ({
+            label: `${c.level} vs ${c.reference} (${c.measure})`,
+            level: c.level,
+            reference: c.reference,
+            measure: c.measure,
+            estimate: num(c.estimate),
+            se: num(c.se),
+            lower: num(c.lower),
+            upper: num(c.upper),
+            statistic: num(c.statistic),
+            p: num(c.p),
+            ...(c.pAdjusted !== undefined ? { pAdjusted: num(c.pAdjusted) } : {}),
+            seScale: c.measure === "risk difference" ? "response" : "log",
+          })),
+        }
+      : {}),
   };
 }
 
@@ -199,7 +218,11 @@ export function toCliResult(result: LinearModelResult | GlmResult): Record<strin
   };
   if (result.adjustedMeans) out.adjustedMeans = result.adjustedMeans.map((m) => ({ ...m, seScale: "response" }));
   if (result.adjustedMeansGrid) out.adjustedMeansGrid = { weighting: result.adjustedMeansWeighting, ...result.adjustedMeansGrid };
-  if (result.contrasts) out.contrasts = result.contrasts.map((c) => ({ ...c, seScale: "response" }));
+  if (result.contrasts) {
+    out.contrasts = result.contrasts.map((c) => ({ ...c, seScale: "response" }));
+    out.contrastSet = result.contrastSet ?? "reference";
+    out.multiplicity = result.multiplicity ?? "none";
+  }
   return out;
 }
 

@@ -4,6 +4,7 @@
  */
 import { INTERCEPT_NAME, interactionName, levelName } from "./coefficient-names";
 import { EngineError } from "./errors";
+import { refuseRepeatedSubjects } from "./repeated-subjects";
 import { isInteraction, type ModelSpec, type Term } from "./model-spec";
 import { isMissingCell, isNumericColumn, orderLevels, parseNumber, type DataTable } from "./data";
 
@@ -77,7 +78,7 @@ function mainTerms(spec: ModelSpec): { variable: string; categorical?: boolean; 
 }
 
 /** Checks the columns exist, applies complete-case selection and reads every variable. */
-export function prepareData(spec: ModelSpec, table: DataTable): PreparedData {
+export function prepareData(spec: ModelSpec, table: DataTable, options: { readonly oneRowPerSubject?: boolean } = {}): PreparedData {
   const mains = mainTerms(spec);
   const seenTerms = new Set<string>();
   for (const t of mains) {
@@ -121,6 +122,8 @@ export function prepareData(spec: ModelSpec, table: DataTable): PreparedData {
     else usedList.push(i);
   }
   const used = Int32Array.from(usedList);
+  // single-record models (the default); the Cox model checks its own rows
+  if (spec.id && (options.oneRowPerSubject ?? true)) refuseRepeatedSubjects(table, spec.id, used);
 
   const readNumeric = (name: string, role: string): Float64Array => {
     const cells = table.columns[name];

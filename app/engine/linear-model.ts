@@ -9,7 +9,8 @@ import { fUpper, tQuantile, tTwoSided } from "./distributions";
 import { EngineError } from "./errors";
 import { leastSquares } from "./least-squares";
 import type { LinearFitContext } from "./linear-fit-context";
-import type { ModelSpec } from "./model-spec";
+import type { ContrastSet, ModelSpec } from "./model-spec";
+import type { Multiplicity } from "./multiplicity";
 import { andersonDarling, lilliefors, shapiroWilk, type AndersonDarlingTest, type NormalityTest } from "./normality";
 import { readQqShape, type QqShape } from "./qq-shape";
 import { homogeneityOfSlopes, resetTest, type HomogeneityOfSlopes } from "./specification-tests";
@@ -17,6 +18,7 @@ import { breuschPagan, brownForsythe, type BreuschPaganTest, type FTest } from "
 import { ENGINE_VERSION, RESULTS_CAUTION } from "./version";
 import { predictorVarianceInflation, varianceInflation, type PredictorVifRow, type VifRow } from "./vif";
 import type { DataTable } from "./data";
+import { treatmentTestProblem, waldF, type TreatmentFTest } from "./treatment-test";
 
 export type CovarianceType = "model" | "HC0" | "HC1" | "HC2" | "HC3";
 
@@ -28,7 +30,7 @@ export interface FitMethod {
 }
 
 export interface FitOptions {
-  /** How adjusted means average over other categorical factors (default equal). */
+  /** How adjusted means average over other categorical factors (default: the specification's `means`, else equal). */
   readonly meansWeighting?: MeansWeighting;
   /** Standard errors of the coefficient table: model-based (default) or a robust type. */
   readonly covariance?: CovarianceType;
@@ -104,6 +106,8 @@ export interface AssumptionTests {
   readonly reset: FTest;
   readonly homogeneityOfSlopes?: HomogeneityOfSlopes;
   readonly brownForsythe?: FTest;
+  /** Overall F test of the treatment term (treatment-test.ts). */
+  readonly treatment?: TreatmentFTest;
 }
 
 /** The full result of a linear-model rerun (the headless command prints a projection of it). */
@@ -140,6 +144,9 @@ export interface LinearModelResult {
   readonly adjustedMeansWeighting: MeansWeighting | null;
   /** Covariate values and cell weights the adjusted means average over. */
   readonly adjustedMeansGrid?: AdjustedMeansGrid | null;
+  /** The plan's contrast set and multiplicity method (absent in results stored before they were planned). */
+  readonly contrastSet?: ContrastSet | null;
+  readonly multiplicity?: Multiplicity | null;
 }
 
 function toMatrix(m: Float64Array, p: number): number[][] {
@@ -246,15 +253,26 @@ function assembleResult(ctx: LinearFitContext, diag: ObservationDiagnostics, opt
   };
   const hos = homogeneityOfSlopes(ctx);
   const treatment = spec.treatment ? data.variables.get(spec.treatment) : undefined;
+  const treatmentTerm = spec.treatment ? design.terms.find((t) => t.kind !== "interaction" && t.variables[0] === spec.treatment) : undefined;
+  const treatmentProblem = spec.treatment ? treatmentTestProblem(spec.treatment, design.terms.filter((t) => t.kind === "interaction").map((t) => t.variables)) : null;
+  const treatmentTest: TreatmentFTest | undefined = treatmentTerm
+    ? treatmentProblem
+      ? { term: treatmentTerm.label, statistic: null, df1: treatmentTerm.columns.length, df2: df, p: null, reason: treatmentProblem }
+      : waldF(treatmentTerm.label, fit.coefficients, modelCov, p, treatmentTerm.columns, df)
+    : undefined;
   const fullTests: AssumptionTests =
     treatment && treatment.kind === "categorical"
       ? {
           ...tests,
           ...(hos ? { homogeneityOfSlopes: hos } : {}),
           brownForsythe: brownForsythe(scaled, treatment.codes, treatment.levels.length),
+          ...(treatmentTest ? { treatment: treatmentTest } : {}),
         }
       : tests;
-  const means = adjustedMeans(ctx, cov, robust.HC3, options.meansWeighting ?? "equal");
+  const means = adjustedMeans(ctx, cov, robust.HC3, options.meansWeighting ?? spec.means ?? "equal", {
+    set: spec.contrasts ?? "reference",
+    multiplicity: spec.multiplicity ?? "none",
+  });
 
   const partial = partialResiduals(design.x, n, design.terms.map((t) => t.columns), fit.coefficients, fit.residuals);
   const partialResidualColumns = design.terms.map((t, k) => ({ term: t.label, values: Array.from(partial[k]) }));
@@ -320,5 +338,7 @@ function assembleResult(ctx: LinearFitContext, diag: ObservationDiagnostics, opt
     contrasts: means ? [...means.contrasts] : null,
     adjustedMeansWeighting: means ? means.weighting : null,
     adjustedMeansGrid: means ? means.grid : null,
+    contrastSet: means ? means.contrastSet : null,
+    multiplicity: means ? means.multiplicity : null,
   };
 }

@@ -1,4 +1,6 @@
 import { z } from "zod";
+import { populationSchema } from "./population";
+import { multiplicitySchema } from "./multiplicity";
 import { publishedValueSchema } from "./published-values";
 
 /** A main-effect term: one variable, continuous or categorical. */
@@ -20,6 +22,10 @@ export const interactionTermSchema = z
   .strict();
 
 export const termSchema = z.union([mainTermSchema, interactionTermSchema]);
+
+export const meansWeightingSchema = z.enum(["equal", "proportional"]);
+export const contrastsSchema = z.enum(["reference", "pairwise"]);
+export type ContrastSet = z.infer<typeof contrastsSchema>;
 
 export const familySchema = z.enum(["gaussian", "binomial", "poisson", "quasipoisson", "negative-binomial"]);
 export const linkSchema = z.enum(["identity", "log", "logit", "probit", "cloglog", "inverse", "sqrt"]);
@@ -47,6 +53,14 @@ export const modelSpecSchema = z
     treatment: z.string().min(1).optional(),
     /** Binomial family: the level of a two-level response column counted as the event (1). */
     event: z.string().min(1).optional(),
+    /** The analysis population: conditions every analysed row meets (population.ts). */
+    population: populationSchema.optional(),
+    /** How adjusted means average over the other categorical factors (default equal). */
+    means: meansWeightingSchema.optional(),
+    /** Treatment contrasts: each arm against the reference (default) or all pairs of arms. */
+    contrasts: contrastsSchema.optional(),
+    /** Multiplicity adjustment of the treatment contrasts' p-values (default none). */
+    multiplicity: multiplicitySchema.optional(),
     /** Values a clinical study report printed, which the rerun must reproduce (reproduction.ts). */
     published: z.array(publishedValueSchema).optional(),
   })

@@ -1,4 +1,5 @@
 import { Link } from "react-router";
+import { TreatmentEffectNote } from "~/components/treatment-effect";
 import { CoxReportTables } from "~/components/cox-results";
 import { FitStatisticsTable } from "~/components/fit-statistics-table";
 import type { Route } from "./+types/study-report";
@@ -113,7 +114,8 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
             <h2 id="effect-h" className="mb-2">
               Treatment effect
             </h2>
-            <ContrastsTable rows={results.contrasts} kind={results.kind === "glm" ? "glm" : "linear"} />
+            <ContrastsTable rows={results.contrasts} kind={results.kind === "glm" ? "glm" : "linear"} plan={results.treatmentEffect ?? undefined} />
+            {results.treatmentEffect ? <TreatmentEffectNote plan={results.treatmentEffect} /> : null}
             {results.adjustedMeans ? (
               <div className="mt-4">
                 <AdjustedMeansTable rows={results.adjustedMeans} weighting={results.adjustedMeansWeighting} />

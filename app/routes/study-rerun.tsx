@@ -33,6 +33,8 @@ import { getRerun, rerunDocumentOf, sameInputReruns, sensitivityReruns, startRer
 import { requireStudy } from "~/.server/study-access.server";
 import { reauthenticationPath, reauthNotice, SIGNATURE_MEANINGS } from "~/.server/signatures.server";
 import { ReauthNotice, SigningExplainer } from "~/components/signing";
+import { populationNote } from "~/components/population-note";
+import { TreatmentEffectNote } from "~/components/treatment-effect";
 
 export function meta({ loaderData }: Route.MetaArgs) {
   return [{ title: `Rerun ${loaderData?.model.key ?? ""} · ${loaderData?.code ?? ""} · Plumbline` }];
@@ -398,7 +400,7 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
             </h2>
             <p className="num text-sm">
               {view.rows.inFile} rows in the file · {view.rows.outsidePopulation} outside the population
-              {view.population ? ` (${view.population.column} ≠ ${view.population.value})` : ""} · {view.rows.excludedByOption} excluded by this analysis ·{" "}
+              {populationNote(view.population)} · {view.rows.excludedByOption} excluded by this analysis ·{" "}
               {view.rows.missingCells} left out for missing cells · <span className="font-semibold">{view.rows.used} used</span> · {view.rank} coefficients estimated
             </p>
             <div className="mt-3 overflow-x-auto">
@@ -417,7 +419,8 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
               <h2 id="effect-h" className="mb-2">
                 Treatment effect
               </h2>
-              <ContrastsTable rows={view.contrasts} kind={view.kind} />
+              <ContrastsTable rows={view.contrasts} kind={view.kind} plan={view.treatmentEffect} />
+              <TreatmentEffectNote plan={view.treatmentEffect} />
               {view.kind === "linear" && view.adjustedMeans ? (
                 <div className="mt-4">
                   <AdjustedMeansTable rows={view.adjustedMeans} weighting={view.adjustedMeansWeighting} />

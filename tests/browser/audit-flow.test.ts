@@ -47,8 +47,9 @@ describe("from plan to signature", { timeout: 90_000 }, () => {
     expect(await page.getByText("Choose the endpoint (response) column.").count()).toBe(1);
     await page.getByLabel("Key").fill("primary");
     await page.getByLabel("Title").fill("Primary efficacy: change from baseline at week 12");
-    await page.getByLabel("Population flag").selectOption("fasfl");
-    await page.getByLabel("…equal to").selectOption("Y");
+    await page.getByRole("button", { name: "Add a population condition" }).click();
+    await page.locator("#pm-pop-0-column").selectOption("fasfl");
+    await page.locator('input[name="population:0:value"][value="Y"]').check();
     await page.getByLabel("Endpoint (response)").selectOption("chg");
     await page.getByLabel("Treatment variable").selectOption("arm");
     await page.getByLabel("Reference arm").selectOption("Placebo");
@@ -66,8 +67,9 @@ describe("from plan to signature", { timeout: 90_000 }, () => {
       await page.getByRole("link", { name: "Add a planned model" }).click();
       await page.getByLabel("Key").fill(m.key);
       await page.getByLabel("Title").fill(m.title);
-      await page.getByLabel("Population flag").selectOption("fasfl");
-      await page.getByLabel("…equal to").selectOption("Y");
+      await page.getByRole("button", { name: "Add a population condition" }).click();
+      await page.locator("#pm-pop-0-column").selectOption("fasfl");
+      await page.locator('input[name="population:0:value"][value="Y"]').check();
       await page.getByLabel("Endpoint (response)").selectOption(m.response);
       await page.getByLabel("Family").selectOption(m.family);
       await page.getByLabel("Treatment variable").selectOption("arm");

@@ -42,8 +42,7 @@ function plannedModel(key: string, response: string, family: "binomial" | "poiss
     key,
     title: key,
     datasetName: "adeff",
-    population: { column: "fasfl", value: "Y" },
-    spec: { response, family, intercept: true, id: "subjid", treatment: "arm", terms: [{ variable: "arm", reference: "Placebo" }, ...COVARIATES.map((variable) => ({ variable }))], ...extra },
+    spec: { population: [{ column: "fasfl", in: ["Y"] }], response, family, intercept: true, id: "subjid", treatment: "arm", terms: [{ variable: "arm", reference: "Placebo" }, ...COVARIATES.map((variable) => ({ variable }))], ...extra },
     checks: defaultChecks(true, family),
     sensitivity: [],
   };

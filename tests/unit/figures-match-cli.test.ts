@@ -33,7 +33,7 @@ describe("figures and the headless command agree", () => {
     if (!seeded.seeded) throw new Error(seeded.reason);
     const [v] = await listLockedVersions(seeded.studyId);
     const locked = await loadLockedTable(v.versionId);
-    const model = { id: "m", position: 0, key: "primary", title: "Primary", datasetName: "adeff", population: { column: "fasfl", value: "Y" }, spec, checks: defaultChecks(true), sensitivity: [] };
+    const model = { id: "m", position: 0, key: "primary", title: "Primary", datasetName: "adeff", spec: { ...spec, population: [{ column: "fasfl", in: ["Y"] }] }, checks: defaultChecks(true), sensitivity: [] };
     const doc = computeRerun(model, locked.table, { variant: "planned" }, { datasetSha256: locked.sha256, planVersionId: "p" });
     const table = rerunTable(doc, locked.table);
     const influence = figureData(doc, "influence", { withSubjectIds: true, table });

@@ -27,8 +27,7 @@ describe("figures of a generalized linear model", () => {
       key: "flares",
       title: "Flare rate",
       datasetName: "adeff",
-      population: { column: "fasfl", value: "Y" },
-      spec: { response: "flares", family: "poisson" as const, intercept: true, offset: "logexp", id: "subjid", treatment: "arm", terms: [{ variable: "arm", categorical: true, reference: "Placebo" }, { variable: "stratum" }, { variable: "age" }] },
+      spec: { population: [{ column: "fasfl", in: ["Y"] }], response: "flares", family: "poisson" as const, intercept: true, offset: "logexp", id: "subjid", treatment: "arm", terms: [{ variable: "arm", categorical: true, reference: "Placebo" }, { variable: "stratum" }, { variable: "age" }] },
       checks: defaultChecks(true, "poisson"),
       sensitivity: [],
     };

@@ -40,6 +40,13 @@ describe("subject redaction", () => {
     expect(r.text("the most extreme is row 7.", "leverage")).toBe("the most extreme is a subject.");
   });
 
+  it("withholds a subject the engine names in quotes, even one of a failed rerun whose ids were never stored", () => {
+    const failed = redaction(false, [null]);
+    const reason = 'subject "LNG-017" (USUBJID) appears in 3 analysed rows, but this model analyses one row per subject: add population conditions on the columns that separate its records, AVISITN (0, 12, 24)';
+    expect(failed.text(reason)).toBe("a subject (USUBJID) appears in 3 analysed rows, but this model analyses one row per subject: add population conditions on the columns that separate its records, AVISITN (0, 12, 24)");
+    expect(redaction(true, [null]).text(reason)).toBe(reason);
+  });
+
   it("drops the naming clauses for the appendix's count-only wording", () => {
     expect(r.countOnly("largest Cook's distance 0.322 (subject QMT301-0217)")).toBe("largest Cook's distance 0.322");
     expect(r.countOnly("2 of 300 subjects exceed the threshold; the most extreme is subject QMT301-0021.")).toBe("2 of 300 subjects exceed the threshold.");

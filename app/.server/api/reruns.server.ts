@@ -5,11 +5,12 @@
  * on the report pages. Subject identifiers are given only to people who see subjects
  * (`seesSubjects`); everyone else reads ranks and counts (redaction.server.ts).
  */
+import { populationStepsOf } from "../reruns/rerun-population";
 import { and, desc, eq, inArray } from "drizzle-orm";
 import { familyWithLink } from "~/engine/family-names";
 import { db, t } from "../db/index.server";
 import { findingsOf, signaturesOf } from "../reruns/findings.server";
-import { checkView, reportedContrasts } from "../reruns/rerun-view.server";
+import { checkView, reportedContrasts, treatmentEffectOf } from "../reruns/rerun-view.server";
 import { reproductionCheckOf, sensitivityReruns, type Rerun, type RerunDocument } from "../reruns/reruns.server";
 import { requireStudyForPrincipal } from "../study-access.server";
 import { seesSubjects } from "../permissions.server";
@@ -98,6 +99,8 @@ function resultsOut(doc: RerunDocument): NonNullable<Body<typeof RerunAnswer>["r
       rows: doc.rows,
       coefficients: c.coefficients.map((x) => ({ name: x.name, term: x.term, estimate: finite(x.estimate), se: finite(c.robust ? x.robustSe : x.se), statistic: finite(x.statistic), p: finite(x.p), lower: finite(x.lower), upper: finite(x.upper) })),
       fit: nothing,
+      population: populationStepsOf(doc),
+      treatmentEffect: null,
       adjustedMeans: null,
       contrasts: null,
     };
@@ -113,6 +116,8 @@ function resultsOut(doc: RerunDocument): NonNullable<Body<typeof RerunAnswer>["r
     rank: r.rank,
     dfResidual: finite(r.dfResidual),
     rows: doc.rows,
+    population: populationStepsOf(doc),
+    treatmentEffect: treatmentEffectOf(doc),
     coefficients: r.coefficients.map((c) => ({
       name: c.name,
       term: c.term,
@@ -125,13 +130,21 @@ function resultsOut(doc: RerunDocument): NonNullable<Body<typeof RerunAnswer>["r
     })),
   };
   if (r.kind !== "linear") {
-    // Generalized linear models: deviance-based fit; marginal treatment effects are not in this summary yet.
+    // Generalized linear models: deviance-based fit and the marginal (standardized) contrasts.
     return {
       ...common,
       covarianceType: null,
       fit: { sigma: null, rSquared: null, adjRSquared: null, fStatistic: null, fP: null, aic: finite(r.fit.aic), deviance: finite(r.fit.deviance), dispersion: finite(r.fit.dispersion) },
       adjustedMeans: null,
-      contrasts: null,
+      contrasts:
+        r.marginalEffects?.contrasts.map((c) => ({
+          label: `${c.level} vs ${c.reference} (${c.measure})`,
+          level: c.level,
+          reference: c.reference,
+          estimate: finite(c.estimate),
+          ...contrastNumbers(c),
+          hc3: c.robust ? contrastNumbers(c.robust) : null,
+        })) ?? null,
     };
   }
   return {
@@ -162,13 +175,21 @@ function resultsOut(doc: RerunDocument): NonNullable<Body<typeof RerunAnswer>["r
         level: c.level,
         reference: c.reference,
         estimate: finite(c.estimate),
-        se: finite(c.se),
-        statistic: finite(c.statistic),
-        p: finite(c.p),
-        lower: finite(c.lower),
-        upper: finite(c.upper),
-        hc3: { se: finite(c.hc3.se), statistic: finite(c.hc3.statistic), p: finite(c.hc3.p), lower: finite(c.hc3.lower), upper: finite(c.hc3.upper) },
+        ...contrastNumbers(c),
+        hc3: contrastNumbers(c.hc3),
       })) ?? null,
+  };
+}
+
+/** A contrast's interval, statistic and p (adjusted p when the plan names a method). */
+function contrastNumbers(c: { se: number; statistic: number; p: number; pAdjusted?: number; lower: number; upper: number }) {
+  return {
+    se: finite(c.se),
+    statistic: finite(c.statistic),
+    p: finite(c.p),
+    ...(c.pAdjusted !== undefined ? { pAdjusted: finite(c.pAdjusted) } : {}),
+    lower: finite(c.lower),
+    upper: finite(c.upper),
   };
 }
 

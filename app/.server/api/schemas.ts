@@ -13,7 +13,7 @@ import { publishedValueSchema } from "~/engine/published-values";
 import { coxSpecSchema } from "~/engine/survival/cox-spec";
 import { STUDY_ROLES } from "../db/schema";
 import { STUDY_PERMISSIONS, type StudyAction } from "../permissions.server";
-import { plannedCheckSchema, populationSchema, sensitivitySchema } from "../plans/planned-model";
+import { plannedCheckSchema, sensitivitySchema } from "../plans/planned-model";
 import { API_ERROR_CODES } from "./respond.server";
 
 extendZodWithOpenApi(z);
@@ -143,7 +143,6 @@ const PlannedModel = registry.register(
     key: z.string(),
     title: z.string(),
     datasetName: z.string(),
-    population: populationSchema,
     spec: z.union([modelSpecSchema, coxSpecSchema]).describe("The model specification: the same object the headless rerun command reads"),
     checks: z.array(plannedCheckSchema),
     sensitivity: z.array(sensitivitySchema),
@@ -198,6 +197,23 @@ const Results = registry.register(
     rank: z.int(),
     dfResidual: Num,
     rows: z.strictObject({ inFile: z.int(), outsidePopulation: z.int(), excludedByOption: z.int(), missingCells: z.int(), used: z.int() }),
+    population: z
+      .array(z.strictObject({ condition: z.string(), removed: z.int().nullable().describe("Null for reruns stored before rows were counted per condition") }))
+      .describe("The population conditions in the plan's order, each with the rows it removed (a row is counted by the first condition it fails); empty: every row"),
+    treatmentEffect: z
+      .strictObject({
+        contrastSet: z.enum(["reference", "pairwise"]),
+        multiplicity: z.enum(["none", "bonferroni", "holm", "hochberg"]),
+        test: z
+          .union([
+            z.strictObject({ name: z.literal("F"), term: z.string(), statistic: Num, df1: z.int(), df2: z.int(), p: Num, reason: z.string().optional() }),
+            z.strictObject({ name: z.literal("χ²"), term: z.string(), statistic: Num, df: z.int(), p: Num, reason: z.string().optional() }),
+          ])
+          .nullable()
+          .describe("Overall test of the treatment term: F for linear models, likelihood-ratio χ² for generalized linear models"),
+      })
+      .nullable()
+      .describe("The plan's contrasts and multiplicity method with the overall treatment test; null for time-to-event models"),
     coefficients: z.array(
       z.strictObject({
         name: z.string().describe('"Intercept", a variable, "VAR: LEVEL" for a level of a factor; interaction parts joined by " × " ("arm: High dose × base")'),
@@ -224,12 +240,16 @@ const Results = registry.register(
           estimate: Num,
           statistic: Num,
           p: Num,
+          pAdjusted: Num.optional().describe("p adjusted for multiplicity by the plan's method; absent when the plan names none"),
           ...Interval,
-          hc3: z.strictObject({ statistic: Num, p: Num, ...Interval }),
+          hc3: z
+            .strictObject({ statistic: Num, p: Num, pAdjusted: Num.optional(), ...Interval })
+            .nullable()
+            .describe("Linear models: HC3 errors; generalized linear models: the variance of Ye et al. (2023), null where it does not apply"),
         }),
       )
       .nullable()
-      .describe("Treatment contrasts against the reference arm, model-based and with HC3 errors"),
+      .describe("Treatment contrasts (against the reference arm or between every pair of arms, as planned), model-based and with robust errors; generalized linear models give marginal contrasts labelled with their measure"),
   }),
 );
 

@@ -4,6 +4,7 @@
  * checks, figures, deviation log, signatures and sensitivity analyses, plus the medical
  * writer's current narrative for each section. Nothing here can be edited in the appendix.
  */
+import { populationOf } from "../plans/planned-model";
 import { and, asc, eq, isNotNull } from "drizzle-orm";
 import { data } from "react-router";
 import { checksOfFigure, figureData, figureListOf, figureModule, figureSpec, type FigureData } from "~/figures/registry";
@@ -18,7 +19,10 @@ import { loadLockedTable, type ColumnMeta } from "../datasets/catalog.server";
 import { db, t } from "../db/index.server";
 import { getPlannedModel, getPlanVersion } from "../plans/plans.server";
 import { findingsOf, deviationLog, signaturesOf } from "../reruns/findings.server";
-import { contrastsOf, reportedContrasts } from "../reruns/rerun-view.server";
+import { contrastsOf, reportedContrasts, treatmentEffectOf } from "../reruns/rerun-view.server";
+import { populationStepsOf } from "../reruns/rerun-population";
+import { populationNote } from "~/components/population-note";
+import { MULTIPLICITY_WORDS, treatmentTestWords } from "~/components/treatment-effect";
 import { getRerun, sensitivityReruns, type RerunDocument } from "../reruns/reruns.server";
 import { rerunTable } from "../reruns/what-if.server";
 import { getStudyOr404 } from "../studies.server";
@@ -219,7 +223,7 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
     const prose = methodsProse({
       title: p.planned.title,
       datasetName: p.planned.datasetName,
-      population: p.planned.population,
+      population: populationOf(p.planned),
       spec: p.planned.spec,
       checks: p.planned.checks,
       sensitivity: p.planned.sensitivity,
@@ -236,7 +240,7 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
       {
         kind: "paragraph",
         text:
-          `Data provenance: ${p.dataset.name} locked version ${p.dataset.version} (SHA-256 ${p.dataset.sha256}). Of ${rows.inFile} records in the file, ${rows.outsidePopulation} were outside the analysis population, ` +
+          `Data provenance: ${p.dataset.name} locked version ${p.dataset.version} (SHA-256 ${p.dataset.sha256}). Of ${rows.inFile} records in the file, ${rows.outsidePopulation} were outside the analysis population${populationNote(populationStepsOf(p.doc))}, ` +
           `${rows.excludedByOption} were excluded by the analysis options and ${rows.missingCells} had a missing value in a model term; ${rows.used} were analysed. ` +
           `Computed by the Plumbline statistics engine ${p.doc.engineVersion}; result SHA-256 ${p.resultSha256}.`,
       },
@@ -279,18 +283,28 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
       });
     }
     const contrasts = contrastsOf(p.doc);
+    const effect = treatmentEffectOf(p.doc);
     if (contrasts.length) {
+      const adjusted = effect.multiplicity !== "none" ? MULTIPLICITY_WORDS[effect.multiplicity] : null;
       results.push({
         kind: "table",
         key: `contrasts:${p.rerunId}`,
         number: next.table(),
-        caption: `Treatment contrasts against the reference arm, ${p.modelTitle}`,
-        columns: [{ label: "Comparison" }, { label: r.kind === "linear" ? "Difference" : "Estimate", numeric: true }, { label: "SE", numeric: true }, { label: "95% CI", numeric: true }, { label: "p", numeric: true }],
-        rows: contrasts.map((c) => [c.label, fmt(c.estimate), `${fmt(c.se)}${c.seScale === "log" ? " (log)" : ""}`, fmtCi(c.lower, c.upper), fmtP(c.p)]),
+        caption: `Treatment contrasts ${effect.contrastSet === "pairwise" ? "between every pair of arms" : "against the reference arm"}, ${p.modelTitle}`,
+        columns: [
+          { label: "Comparison" },
+          { label: r.kind === "linear" ? "Difference" : "Estimate", numeric: true },
+          { label: "SE", numeric: true },
+          { label: "95% CI", numeric: true },
+          { label: r.kind === "linear" ? "t" : "z", numeric: true },
+          { label: "p", numeric: true },
+          ...(adjusted ? [{ label: `p adjusted (${adjusted})`, numeric: true }] : []),
+        ],
+        rows: contrasts.map((c) => [c.label, fmt(c.estimate), `${fmt(c.se)}${c.seScale === "log" ? " (log)" : ""}`, fmtCi(c.lower, c.upper), fmt(c.statistic), fmtP(c.p), ...(adjusted ? [fmtP(c.pAdjusted)] : [])]),
         note:
-          r.kind === "linear"
-            ? "Differences in adjusted means with model-based standard errors."
-            : "Marginal (standardized) contrasts. A ratio's SE, marked (log), is that of the log ratio; its estimate and interval are ratios, the interval computed on the log scale.",
+          (r.kind === "linear" ? "Differences in adjusted means with model-based standard errors." : "Marginal (standardized) contrasts. A ratio's SE, marked (log), and its statistic are those of the log ratio; its estimate and interval are ratios, the interval computed on the log scale.") +
+          (adjusted ? ` p-values adjusted for multiplicity by the ${adjusted} method${r.kind === "glm" ? " within each measure" : ""}.` : " p-values not adjusted for multiplicity.") +
+          (effect.test ? ` ${treatmentTestWords(effect.test)}` : ""),
       });
     }
   }

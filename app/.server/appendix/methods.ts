@@ -8,12 +8,15 @@ import { CHECK_BY_KEY, type PlannedCheck } from "~/engine/checks";
 import { CANONICAL_LINK, type ModelSpec } from "~/engine/model-spec";
 import type { CoxSpec } from "~/engine/survival/cox-spec";
 import { coxMethodsParagraphs } from "./cox-methods";
-import { SENSITIVITY_LABELS, type PlannedSensitivity, type Population } from "../plans/planned-model";
+import { MULTIPLICITY_NAMES } from "~/engine/multiplicity";
+import { describeCondition, type PopulationCondition } from "~/engine/population";
+import { SENSITIVITY_LABELS, type PlannedSensitivity } from "../plans/planned-model";
 
 export interface MethodsInput {
   title: string;
   datasetName: string;
-  population: Population;
+  /** The population conditions (empty: every record). */
+  population: readonly PopulationCondition[];
   spec: ModelSpec | CoxSpec;
   checks: PlannedCheck[];
   sensitivity: PlannedSensitivity[];
@@ -52,8 +55,8 @@ export function methodsProse(m: MethodsInput): { paragraphs: string[]; checks: s
   const sap = m.sap.name ? ` as pre-specified in ${m.sap.name}${m.sap.version ? ` version ${m.sap.version}` : ""}${m.sap.date ? ` (${m.sap.date})` : ""}` : "";
   paragraphs.push(
     `The planned model "${m.title}" was fitted to the locked dataset ${m.datasetName}${sap}. ` +
-      (m.population
-        ? `The analysis population consisted of the records with ${named(m.population.column, m.labels)} equal to "${m.population.value}".`
+      (m.population.length > 0
+        ? `The analysis population consisted of the records meeting every one of these conditions: ${list(m.population.map((c) => describeCondition({ ...c, column: named(c.column, m.labels) })))}.`
         : "All records of the dataset formed the analysis population."),
   );
   if (s.family === "cox") paragraphs.push(...coxMethodsParagraphs(s, (col) => named(col, m.labels), list));
@@ -74,14 +77,28 @@ export function methodsProse(m: MethodsInput): { paragraphs: string[]; checks: s
             : " No covariates were pre-specified.") +
           (interactions.length ? ` Interactions pre-specified: ${list(interactions)}.` : ""),
       );
+      const pairwise = s.contrasts === "pairwise";
+      const compared = pairwise ? "Every pair of arms was compared" : "Each arm was compared with the reference arm";
+      const multiplicity = s.multiplicity ?? "none";
+      const adjustment =
+        multiplicity === "none"
+          ? " No adjustment for multiplicity was pre-specified."
+          : ` The p-values of the treatment contrasts were adjusted for multiplicity by the ${MULTIPLICITY_NAMES[multiplicity]} method${multiplicity === "holm" ? " (Holm 1979)" : multiplicity === "hochberg" ? " (Hochberg 1988)" : ""} within the family of ${pairwise ? "pairwise" : "reference-arm"} contrasts${s.family !== "gaussian" ? " of each measure" : ""}; adjusted p-values are reported beside the unadjusted ones.`;
+      const overall = interactions.some((i) => i.split(" by ").includes(treatment.variable))
+        ? ""
+        : s.family === "gaussian"
+          ? " The treatment term as a whole was tested by the F test of its coefficients (equal to the partial F test of dropping the term)."
+          : " The treatment term as a whole was tested by the likelihood-ratio χ² test of the model against the model without it.";
       if (s.family !== "gaussian") {
         paragraphs.push(
-          "Each arm was compared with the reference arm by marginal (standardized) contrasts: the model's predicted response for every analysed subject was averaged with the subject assigned to each arm in turn, and the arms' averages were compared as differences and ratios with two-sided 95% confidence intervals.",
+          `${compared} by marginal (standardized) contrasts: the model's predicted response for every analysed subject was averaged with the subject assigned to each arm in turn, and the arms' averages were compared as differences and ratios with two-sided 95% confidence intervals.` + overall + adjustment,
         );
       } else paragraphs.push(
         "Adjusted means of the endpoint per arm were computed from the fitted model with continuous covariates held at their mean over the records analysed" +
           (m.meansWeighting === "proportional" ? " and categorical covariates averaged in proportion to their observed frequencies" : " and categorical covariates averaged with equal weight over their levels") +
-          " (population marginal means, Searle, Speed and Milliken 1980). Each arm was compared with the reference arm by the difference in adjusted means with a two-sided 95% confidence interval and p-value from the t distribution on the residual degrees of freedom.",
+          ` (population marginal means, Searle, Speed and Milliken 1980). ${compared} by the difference in adjusted means with a two-sided 95% confidence interval and p-value from the t distribution on the residual degrees of freedom.` +
+          overall +
+          adjustment,
       );
     } else if (covariates.length) {
       paragraphs.push(`The model's terms were ${list(covariates.map((c) => named(c.variable, m.labels)))}.`);

@@ -2,6 +2,7 @@
  * A readable comparison of two plan versions: what was added, removed or changed, in the
  * words a reviewer reads (covariates, reference arm, thresholds), not as a text diff.
  */
+import { describePopulation } from "~/engine/population";
 import { interactionName } from "~/engine/coefficient-names";
 import { CHECK_BY_KEY } from "~/engine/checks";
 import { publishedInWords } from "~/engine/published-values";
@@ -56,7 +57,11 @@ function compareModel(a: PlannedModel, b: PlannedModel): string[] {
   };
   field("Title", a.title, b.title);
   field("Dataset", a.datasetName, b.datasetName);
-  field("Population", a.population ? `${a.population.column} = ${a.population.value}` : null, b.population ? `${b.population.column} = ${b.population.value}` : null);
+  field("Population", describePopulation(a.spec.population), describePopulation(b.spec.population));
+  const analysis = (s: PlannedModel["spec"]) => (s.family === "cox" ? { means: undefined, contrasts: undefined, multiplicity: undefined } : s);
+  field("Adjusted-means weighting", analysis(a.spec).means ?? "equal", analysis(b.spec).means ?? "equal");
+  field("Treatment contrasts", analysis(a.spec).contrasts ?? "reference", analysis(b.spec).contrasts ?? "reference");
+  field("Multiplicity adjustment", analysis(a.spec).multiplicity ?? "none", analysis(b.spec).multiplicity ?? "none");
   field("Endpoint", a.spec.response, b.spec.response);
   field("Family", a.spec.family, b.spec.family);
   field("Link", "link" in a.spec ? a.spec.link : undefined, "link" in b.spec ? b.spec.link : undefined);

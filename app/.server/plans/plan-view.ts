@@ -3,6 +3,8 @@ import { interactionName } from "~/engine/coefficient-names";
 import { CANONICAL_LINK } from "~/engine/model-spec";
 import type { CoxSpec } from "~/engine/survival/cox-spec";
 import { CHECK_BY_KEY } from "~/engine/checks";
+import { CONTRAST_SET_NAMES, MEANS_WEIGHTING_NAMES, MULTIPLICITY_NAMES } from "~/engine/multiplicity";
+import { describePopulation } from "~/engine/population";
 import { publishedInWords } from "~/engine/published-values";
 import type { PlannedModelView } from "~/components/planned-model-summary";
 import { SENSITIVITY_LABELS } from "./planned-model";
@@ -26,7 +28,16 @@ export function plannedModelView(m: StoredPlannedModel): PlannedModelView {
     key: m.key,
     title: m.title,
     datasetName: m.datasetName,
-    population: m.population,
+    population: describePopulation(m.spec.population),
+    ...(m.spec.family !== "cox" && m.spec.treatment
+      ? {
+          analysis: [
+            ["Adjusted means", MEANS_WEIGHTING_NAMES[m.spec.means ?? "equal"]],
+            ["Treatment contrasts", CONTRAST_SET_NAMES[m.spec.contrasts ?? "reference"]],
+            ["Multiplicity", MULTIPLICITY_NAMES[m.spec.multiplicity ?? "none"]],
+          ] satisfies [string, string][],
+        }
+      : {}),
     response: m.spec.response,
     family: m.spec.family,
     link: m.spec.family === "cox" ? "log hazard ratio (partial likelihood)" : (m.spec.link ?? CANONICAL_LINK[m.spec.family]),

@@ -6,7 +6,10 @@
  */
 import { z } from "zod";
 import { CHECKS, type CheckKey, type PlannedCheck } from "~/engine/checks";
-import { modelSpecSchema, type ModelSpec, type Term } from "~/engine/model-spec";
+import { contrastsSchema, meansWeightingSchema, modelSpecSchema, type ModelSpec, type Term } from "~/engine/model-spec";
+import { multiplicitySchema } from "~/engine/multiplicity";
+import { populationFromLegacy, type PopulationCondition } from "~/engine/population";
+import { populationFormOf, readPopulationForm, validatePopulation, type PopulationConditionForm } from "./population-form";
 import { interactionName } from "~/engine/coefficient-names";
 import type { ColumnMeta } from "../datasets/catalog.server";
 import { categoricalHints, isNumericType } from "../datasets/categorical-hint";
@@ -52,14 +55,30 @@ export const plannedCheckSchema = z.object({
   remedy: z.string().max(300),
 });
 
-export const populationSchema = z.object({ column: z.string().min(1), value: z.string().min(1) }).nullable();
-export type Population = z.infer<typeof populationSchema>;
+/** The population of plans stored before conditions (one column equal to one value); translated on read. */
+export const legacyPopulationSchema = z.object({ column: z.string().min(1), value: z.string().min(1) }).nullable();
+export type LegacyPopulation = z.infer<typeof legacyPopulationSchema>;
+
+/** The model's population conditions (empty: every row). They live in the specification, as the headless command reads them. */
+export function populationOf(m: { spec: { population?: PopulationCondition[] } }): PopulationCondition[] {
+  return m.spec.population ?? [];
+}
+
+/** A stored planned model's specification with an old single-condition population carried into it. */
+export function withLegacyPopulation<S extends { population?: PopulationCondition[] }>(spec: S, legacy: LegacyPopulation): S {
+  return legacy && !spec.population ? { ...spec, population: populationFromLegacy(legacy) } : spec;
+}
+
+export const ANALYSIS_CHOICES = {
+  means: meansWeightingSchema.options,
+  contrasts: contrastsSchema.options,
+  multiplicity: multiplicitySchema.options,
+} as const;
 
 export const plannedModelSchema = z.object({
   key: z.string(),
   title: z.string(),
   datasetName: z.string(),
-  population: populationSchema,
   /** A linear or generalized linear model, or a time-to-event (Cox) model: narrow on `spec.family === "cox"`. */
   spec: z.union([modelSpecSchema, coxSpecSchema]),
   checks: z.array(plannedCheckSchema),
@@ -77,8 +96,8 @@ export interface PlannedModelForm {
   key: string;
   title: string;
   datasetName: string;
-  populationColumn: string;
-  populationValue: string;
+  /** Population conditions, all of which an analysed row meets (population-form.ts). */
+  population: PopulationConditionForm[];
   response: string;
   family: string;
   link: string;
@@ -92,6 +111,10 @@ export interface PlannedModelForm {
   id: string;
   checks: PlannedCheck[];
   sensitivity: PlannedSensitivity[];
+  /** Adjusted-means weighting, contrast set and multiplicity method (linear and generalized linear models). */
+  means: string;
+  contrasts: string;
+  multiplicity: string;
   /** Time-to-event fields, read when the family is "cox" (cox-planned-model.ts). */
   survival?: SurvivalForm;
   /** Values the study report printed, for the reproduction check (published-planned-values.ts). */
@@ -119,8 +142,10 @@ export function readPlannedModelForm(f: FormData): PlannedModelForm {
     key: str(f, "key"),
     title: str(f, "title"),
     datasetName: str(f, "datasetName"),
-    populationColumn: str(f, "populationColumn"),
-    populationValue: str(f, "populationValue"),
+    population: readPopulationForm(f),
+    means: str(f, "means") || "equal",
+    contrasts: str(f, "contrasts") || "reference",
+    multiplicity: str(f, "multiplicity") || "none",
     response: str(f, "response"),
     family: str(f, "family") || "gaussian",
     link: str(f, "link"),
@@ -191,14 +216,7 @@ export function validatePlannedModel(
     return c ?? null;
   };
 
-  let population: Population = null;
-  if (form.populationColumn) {
-    const c = need("populationColumn", form.populationColumn, "population flag column");
-    if (c && !form.populationValue) errors.populationValue = `Choose the value of ${c.name} that defines the population.`;
-    else if (c && c.levels && !levelsOf(c.name).includes(form.populationValue))
-      errors.populationValue = `${c.name} has no value "${form.populationValue}"; its values are ${levelsOf(c.name).join(", ")}.`;
-    population = { column: form.populationColumn, value: form.populationValue };
-  }
+  const population = validatePopulation(form.population, dataset, errors);
 
   const family = MODEL_FAMILIES.find((f) => f === form.family) ?? "gaussian";
   if (!MODEL_FAMILIES.some((f) => f === form.family)) {
@@ -316,10 +334,19 @@ export function validatePlannedModel(
 
   if (family === "cox") {
     const cox = validateSurvival(form, terms, dataset, errors);
-    if (!cox) return { ok: false, errors };
+    if (!cox || Object.keys(errors).length > 0) return { ok: false, errors };
     const checks = form.checks.map((c) => (CHECKS.find((d) => d.key === c.key)?.models === "cox" ? c : { ...c, enabled: false }));
-    return { ok: true, model: { key: form.key, title: form.title, datasetName: dataset.name, population, spec: cox, checks, sensitivity: form.sensitivity } };
+    const spec = population.length > 0 ? { ...cox, population } : cox;
+    return { ok: true, model: { key: form.key, title: form.title, datasetName: dataset.name, spec, checks, sensitivity: form.sensitivity } };
   }
+  const means = meansWeightingSchema.safeParse(form.means);
+  const contrasts = contrastsSchema.safeParse(form.contrasts);
+  const multiplicity = multiplicitySchema.safeParse(form.multiplicity);
+  if (!means.success) errors.means = `Choose how adjusted means are weighted: ${ANALYSIS_CHOICES.means.join(" or ")}.`;
+  if (!contrasts.success) errors.contrasts = `Choose the treatment contrasts: ${ANALYSIS_CHOICES.contrasts.join(" or ")}.`;
+  if (!multiplicity.success) errors.multiplicity = `Choose the multiplicity adjustment: ${ANALYSIS_CHOICES.multiplicity.join(", ")}.`;
+  if (!form.treatment && contrasts.success && contrasts.data === "pairwise") errors.contrasts = "Contrasts between arms need a treatment variable: choose it above, or keep contrasts against the reference arm.";
+  if (!form.treatment && multiplicity.success && multiplicity.data !== "none") errors.multiplicity = "A multiplicity adjustment applies to the treatment contrasts: choose the treatment above, or choose no adjustment.";
   if (Object.keys(errors).length > 0) return { ok: false, errors };
   const spec: ModelSpec = modelSpecSchema.parse({
     response: form.response,
@@ -331,11 +358,16 @@ export function validatePlannedModel(
     ...(form.offset ? { offset: form.offset } : {}),
     ...(form.id ? { id: form.id } : {}),
     ...(form.treatment ? { treatment: form.treatment } : {}),
+    ...(population.length > 0 ? { population } : {}),
+    // defaults are left out, so a plan that chooses none stores the specification it stored before
+    ...(means.data && means.data !== "equal" ? { means: means.data } : {}),
+    ...(contrasts.data && contrasts.data !== "reference" ? { contrasts: contrasts.data } : {}),
+    ...(multiplicity.data && multiplicity.data !== "none" ? { multiplicity: multiplicity.data } : {}),
     ...(published.length > 0 ? { published } : {}),
   });
   return {
     ok: true,
-    model: { key: form.key, title: form.title, datasetName: dataset.name, population, spec, checks: form.checks, sensitivity: form.sensitivity },
+    model: { key: form.key, title: form.title, datasetName: dataset.name, spec, checks: form.checks, sensitivity: form.sensitivity },
   };
 }
 
@@ -348,8 +380,7 @@ export function toForm(m: PlannedModel): PlannedModelForm {
     key: m.key,
     title: m.title,
     datasetName: m.datasetName,
-    populationColumn: m.population?.column ?? "",
-    populationValue: m.population?.value ?? "",
+    population: populationFormOf(spec.population),
     response: spec.response,
     treatment: spec.treatment ?? "",
     treatmentReference: treatmentTerm?.reference ?? "",
@@ -365,6 +396,6 @@ export function toForm(m: PlannedModel): PlannedModelForm {
     published: spec.family === "cox" ? [] : publishedFormOf(spec.published),
   };
   return spec.family === "cox"
-    ? { ...shared, family: "cox", link: "", survival: survivalFormOf(spec) }
-    : { ...shared, family: spec.family, link: spec.link ?? "" };
+    ? { ...shared, family: "cox", link: "", means: "equal", contrasts: "reference", multiplicity: "none", survival: survivalFormOf(spec) }
+    : { ...shared, family: spec.family, link: spec.link ?? "", means: spec.means ?? "equal", contrasts: spec.contrasts ?? "reference", multiplicity: spec.multiplicity ?? "none" };
 }

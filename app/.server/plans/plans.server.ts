@@ -12,7 +12,7 @@ import { appendAudit, canonicalJson } from "../audit.server";
 import type { PersonActor } from "../people.server";
 import { db, isoNow, newId, t, writeTransaction, type DbOrTx } from "../db/index.server";
 import { notifyPlanAwaitsApproval } from "../mail/notifications.server";
-import { plannedModelSchema, type PlannedModel } from "./planned-model";
+import { legacyPopulationSchema, plannedModelSchema, withLegacyPopulation, type PlannedModel } from "./planned-model";
 
 export type PlanVersion = typeof t.planVersions.$inferSelect;
 export type PlanStatus = PlanVersion["status"];
@@ -57,8 +57,8 @@ function toStored(row: typeof t.plannedModels.$inferSelect): StoredPlannedModel 
       key: row.key,
       title: row.title,
       datasetName: row.datasetName,
-      population: row.populationJson ? JSON.parse(row.populationJson) : null,
-      spec: JSON.parse(row.specJson),
+      // plans stored before population conditions kept one column = value beside the specification
+      spec: withLegacyPopulation(JSON.parse(row.specJson), legacyPopulationSchema.parse(row.populationJson ? JSON.parse(row.populationJson) : null)),
       checks: JSON.parse(row.checksJson),
       sensitivity: JSON.parse(row.sensitivityJson),
     }),
@@ -161,7 +161,7 @@ export async function savePlannedModel(
       key: model.key,
       title: model.title,
       datasetName: model.datasetName,
-      populationJson: model.population ? canonicalJson(model.population) : null,
+      populationJson: null,
       specJson: canonicalJson(model.spec),
       checksJson: canonicalJson(model.checks),
       sensitivityJson: canonicalJson(model.sensitivity),
@@ -278,7 +278,7 @@ export async function startNextVersion(actor: PersonActor, studyId: string, vers
         key: m.key,
         title: m.title,
         datasetName: m.datasetName,
-        populationJson: m.population ? canonicalJson(m.population) : null,
+        populationJson: null,
         specJson: canonicalJson(m.spec),
         checksJson: canonicalJson(m.checks),
         sensitivityJson: canonicalJson(m.sensitivity),

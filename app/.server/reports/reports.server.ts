@@ -123,6 +123,7 @@ export async function getReport(studyId: string, rerunId: string) {
       adjustedMeans: "adjustedMeans" in view && view.adjustedMeans ? view.adjustedMeans : null,
       adjustedMeansWeighting: "adjustedMeansWeighting" in view ? view.adjustedMeansWeighting : null,
       contrasts: "contrasts" in view ? view.contrasts : [],
+      treatmentEffect: "treatmentEffect" in view ? view.treatmentEffect : null,
       /** Time-to-event models: hazard ratios, the model's tests and the proportional-hazards test (no subject-level data). */
       cox: view.kind === "cox" ? { robust: view.robust, ratios: view.ratios, tests: view.tests, proportionalHazards: view.proportionalHazards, events: view.fit.events, concordance: view.fit.concordance } : null,
     },

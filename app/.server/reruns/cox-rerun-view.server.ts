@@ -4,6 +4,7 @@
  * checks, and which figures to draw. No observation-level arrays; subject ids in check texts
  * only for people who may see subject-level data (checkView, as for the other kinds).
  */
+import { populationStepsOf } from "./rerun-population";
 import type { CoxResult } from "~/engine/survival/cox-model";
 import type { RestrictedMeanDifference } from "~/engine/survival/rmst";
 import type { Redaction } from "../redaction.server";
@@ -31,7 +32,7 @@ export function coxRerunView(doc: RerunDocument, r: CoxResult, redact: Redaction
     kind: "cox" as const,
     description: doc.description,
     rows: doc.rows,
-    population: doc.population,
+    population: populationStepsOf(doc),
     method: `Cox proportional hazards model by partial likelihood (${r.ties === "efron" ? "Efron" : "Breslow"} ties${r.strata.length ? `, stratified by ${r.spec.strata.join(", ")}` : ""}); Wald ${r.robust ? "robust (sandwich) " : ""}95% intervals.`,
     n: r.n,
     treatment: r.spec.treatment ?? null,

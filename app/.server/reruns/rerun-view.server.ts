@@ -4,6 +4,8 @@
  * flagged subjects go through the viewer's redaction (redaction.server.ts): subject ids only for
  * people who may see subject-level data, ranks and counts for the others.
  */
+import { populationStepsOf } from "./rerun-population";
+import type { TreatmentEffectPlan } from "~/components/treatment-effect";
 import { reproductionAsCheck } from "~/engine/reproduction";
 import { CHECK_BY_KEY, type CheckOutcome } from "~/engine/checks";
 import { familyWithLink } from "~/engine/family-names";
@@ -19,11 +21,28 @@ export interface ContrastView {
   se: number;
   lower: number;
   upper: number;
+  statistic: number;
   p: number;
+  /** p adjusted for multiplicity (absent without a method). */
+  pAdjusted?: number;
   /** Null where the robust alternative does not apply (Ye et al. for a non-canonical GLM). */
-  hc3: { se: number; lower: number; upper: number; p: number } | null;
+  hc3: { se: number; lower: number; upper: number; statistic: number; p: number; pAdjusted?: number } | null;
   /** "log" for a ratio: its SEs are those of the log ratio (the estimate and interval are ratios). */
   seScale: "response" | "log";
+}
+
+/** The plan's contrast set and multiplicity method, and the overall test of the treatment term. */
+export function treatmentEffectOf(doc: RerunDocument): TreatmentEffectPlan {
+  const r = doc.result;
+  if (r.kind === "cox") return { contrastSet: "reference", multiplicity: "none", test: null };
+  const contrastSet = r.spec.contrasts ?? "reference";
+  const multiplicity = r.spec.multiplicity ?? "none";
+  if (r.kind === "linear") {
+    const t = r.tests.treatment;
+    return { contrastSet, multiplicity, test: t ? { name: "F", ...t } : null };
+  }
+  const t = r.checks.treatment;
+  return { contrastSet, multiplicity, test: t ? { name: "χ²", ...t } : null };
 }
 
 /**
@@ -42,8 +61,10 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
       se: c.se,
       lower: c.lower,
       upper: c.upper,
+      statistic: c.statistic,
       p: c.p,
-      hc3: { se: c.hc3.se, lower: c.hc3.lower, upper: c.hc3.upper, p: c.hc3.p },
+      ...(c.pAdjusted !== undefined ? { pAdjusted: c.pAdjusted } : {}),
+      hc3: { se: c.hc3.se, lower: c.hc3.lower, upper: c.hc3.upper, statistic: c.hc3.statistic, p: c.hc3.p, ...(c.hc3.pAdjusted !== undefined ? { pAdjusted: c.hc3.pAdjusted } : {}) },
       seScale: "response" as const,
     }));
   }
@@ -53,8 +74,12 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
     se: c.se,
     lower: c.lower,
     upper: c.upper,
+    statistic: c.statistic,
     p: c.p,
-    hc3: c.robust ? { se: c.robust.se, lower: c.robust.lower, upper: c.robust.upper, p: c.robust.p } : null,
+    ...(c.pAdjusted !== undefined ? { pAdjusted: c.pAdjusted } : {}),
+    hc3: c.robust
+      ? { se: c.robust.se, lower: c.robust.lower, upper: c.robust.upper, statistic: c.robust.statistic, p: c.robust.p, ...(c.robust.pAdjusted !== undefined ? { pAdjusted: c.robust.pAdjusted } : {}) }
+      : null,
     seScale: c.measure === "risk difference" ? ("response" as const) : ("log" as const),
   }));
 }
@@ -107,7 +132,7 @@ export function rerunView(doc: RerunDocument, redact: Redaction) {
   const common = {
     description: redact.text(doc.description),
     rows: doc.rows,
-    population: doc.population,
+    population: populationStepsOf(doc),
     method: r.method.description,
     family: r.family,
     link: r.link,
@@ -120,6 +145,7 @@ export function rerunView(doc: RerunDocument, redact: Redaction) {
     dfResidual: r.dfResidual,
     coefficients: r.coefficients,
     contrasts: contrastsOf(doc),
+    treatmentEffect: treatmentEffectOf(doc),
     vif: r.vif,
     qqShape: r.qqShape,
     terms: r.terms,

@@ -23,7 +23,9 @@ import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
 import { enqueueJob, registerJobFailureHook, registerJobHandler, type Job } from "../jobs/jobs.server";
 import { notifyRerunAwaitsSignOff } from "../mail/notifications.server";
 import type { PersonActor } from "../people.server";
-import type { Population } from "../plans/planned-model";
+import { populationOf } from "../plans/planned-model";
+import { selectPopulation, type PopulationStep } from "~/engine/population";
+import type { DocumentPopulation } from "./rerun-population";
 import { getPlannedModel, type StoredPlannedModel } from "../plans/plans.server";
 import { describeOptions, rerunOptionsSchema, type RerunOptions } from "./rerun-options";
 import { exclusionProblem } from "./what-if.server";
@@ -40,7 +42,10 @@ export interface RerunDocument {
   options: RerunOptions;
   description: string;
   rows: { inFile: number; outsidePopulation: number; excludedByOption: number; missingCells: number; used: number };
-  population: Population;
+  /** The population conditions (documents stored before conditions hold one column = value, or null). */
+  population: DocumentPopulation;
+  /** Rows removed by each population condition, in the plan's order (absent in older documents). */
+  populationSteps?: PopulationStep[];
   /** Linear, generalized linear or Cox (`kind` "cox"): narrow on `result.kind`. */
   result: ModelResult | CoxResult;
   checks: CheckOutcome[];
@@ -119,12 +124,8 @@ function restrictedMeanOf(spec: CoxSpec, working: ColumnTable, result: CoxResult
 /** Fits the planned model (or its sensitivity variant) and evaluates the plan's checks. Pure apart from the inputs given. */
 export function computeRerun(model: StoredPlannedModel, table: ColumnTable, options: RerunOptions, meta: { datasetSha256: string; planVersionId: string }): RerunDocument {
   const inFile = table.rowNumbers.length;
-  let working = table;
-  if (model.population) {
-    const cells = table.columns[model.population.column];
-    if (!cells) throw new EngineError(`column "${model.population.column}" (the population flag) is missing from the data`);
-    working = filterRows(table, (i) => cells[i].trim() === model.population!.value);
-  }
+  const population = selectPopulation(table, populationOf(model));
+  let working = population.table;
   const inPopulation = working.rowNumbers.length;
   if (options.variant === "exclude_rows") {
     const drop = new Set(options.rows);
@@ -140,7 +141,8 @@ export function computeRerun(model: StoredPlannedModel, table: ColumnTable, opti
     options,
     description: describeOptions(options),
     rows: { inFile, outsidePopulation: inFile - inPopulation, excludedByOption, missingCells: result.excluded, used: result.n },
-    population: model.population,
+    population: populationOf(model),
+    populationSteps: [...population.byCondition],
     result,
     checks,
   });

@@ -12,6 +12,8 @@ import { EngineError, RESULTS_CAUTION, type LinearModelResult } from "~/engine";
 import { leastSquares } from "~/engine/least-squares";
 import { LRUCache } from "lru-cache";
 import type { RerunDocument } from "./reruns.server";
+import { selectPopulation } from "~/engine/population";
+import { conditionsOfDocument } from "./rerun-population";
 
 /** The engine's table input: cells as text by column, 1-based data rows. */
 export interface RerunTable {
@@ -38,13 +40,7 @@ function keepRows(table: RerunTable, keep: (i: number) => boolean): RerunTable {
  * cell stay; the engine leaves them out itself, as in the rerun.
  */
 export function rerunTable(doc: RerunDocument, table: RerunTable): RerunTable {
-  let working = table;
-  const population = doc.population;
-  if (population) {
-    const cells = table.columns[population.column];
-    if (!cells) throw new EngineError(`column "${population.column}" (the population flag) is missing from the data`);
-    working = keepRows(table, (i) => cells[i].trim() === population.value);
-  }
+  let working = selectPopulation(table, conditionsOfDocument(doc.population)).table;
   if (doc.options.variant === "exclude_rows") {
     const drop = new Set(doc.options.rows);
     const rows = working.rowNumbers;

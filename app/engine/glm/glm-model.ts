@@ -8,7 +8,8 @@
 import type { DataTable } from "../data";
 import { buildDesign, prepareData, type Design, type PreparedData, type Variable } from "../design";
 import { observationDiagnostics, robustCovariances } from "../diagnostics";
-import { normalQuantile, normalUpper, tTwoSided } from "../distributions";
+import { chiSquareUpper, normalQuantile, normalUpper, tTwoSided } from "../distributions";
+import { treatmentTestProblem, type TreatmentChiSquareTest } from "../treatment-test";
 import { EngineError } from "../errors";
 import { interactionName } from "../coefficient-names";
 import type { FitMethod, VariableSummary } from "../linear-model";
@@ -139,6 +140,8 @@ export interface GlmChecks {
   /** Likelihood-ratio tests of treatment-by-covariate interactions, per covariate and jointly. */
   readonly homogeneityOfTreatmentEffect?: { readonly joint: LikelihoodRatioTest; readonly byCovariate: readonly LikelihoodRatioTest[] };
   readonly calibration?: Calibration;
+  /** Likelihood-ratio χ² of the treatment term (treatment-test.ts). */
+  readonly treatment?: TreatmentChiSquareTest;
 }
 
 export interface GlmResult {
@@ -405,6 +408,23 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     for (let i = 0; i < n; i++) x2[p * n + i] = (v.values[i] - v.mean) ** 2;
     linearity.push(nested(`${t.label} squared`, larger(x2, p + 1)));
   }
+  // The overall test of the treatment term: the model against the model without it, refitted on
+  // the same rows (θ re-estimated for the negative binomial; for quasi-Poisson the deviance
+  // difference is scaled by this model's dispersion, as R's anova.glm(test = "Chisq") does).
+  const treatmentLikelihoodRatio = (arm: string): TreatmentChiSquareTest | undefined => {
+    const term = design.terms.find((t) => t.kind !== "interaction" && t.variables[0] === arm);
+    if (!term) return undefined;
+    const problem = treatmentTestProblem(arm, design.terms.filter((t) => t.kind === "interaction").map((t) => t.variables));
+    const df = term.columns.length;
+    if (problem) return { term: term.label, statistic: null, df, p: null, reason: problem };
+    const keep = Array.from({ length: p }, (_, j) => j).filter((j) => !term.columns.includes(j));
+    const xr = new Float64Array(n * keep.length);
+    keep.forEach((j, k) => xr.set(design.x.subarray(j * n, (j + 1) * n), k * n));
+    const reduced = fitCore(xr, n, keep.length, data, familyName, link, data.offset);
+    const difference = isNegBin ? minusTwoLogLik(reduced) - smallCriterion : reduced.fit.deviance - fit.deviance;
+    const statistic = estimatedPhi ? difference / dispersion : difference;
+    return { term: term.label, statistic, df, p: chiSquareUpper(statistic, df) };
+  };
   let homogeneity: GlmChecks["homogeneityOfTreatmentEffect"];
   if (spec.treatment) {
     const arm = spec.treatment;
@@ -419,6 +439,7 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
       homogeneity = { joint: nested("all treatment interactions", refit(others.map((c) => [arm, c]))), byCovariate };
     }
   }
+  const treatmentTest = spec.treatment ? treatmentLikelihoodRatio(spec.treatment) : undefined;
   const linearitySmooth = design.terms
     .map((t, k) => ({ t, k }))
     .filter(({ t }) => t.kind === "continuous")
@@ -434,6 +455,7 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     linearity,
     linearitySmooth,
     ...(homogeneity ? { homogeneityOfTreatmentEffect: homogeneity } : {}),
+    ...(treatmentTest ? { treatment: treatmentTest } : {}),
     ...(familyName === "binomial" ? { calibration: calibration(y, mu) } : {}),
   };
 
@@ -480,6 +502,7 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
           link,
           familyName === "binomial",
           robustVarianceApplicability(familyName, linkName, design.intercept, pw !== null),
+          { set: spec.contrasts ?? "reference", multiplicity: spec.multiplicity ?? "none" },
         )
       : null;
 

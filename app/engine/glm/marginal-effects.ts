@@ -17,12 +17,16 @@
  *   with an intercept, the treatment term and no prior weights. For other links, the negative
  *   binomial (whose log link is not canonical) or weighted fits it is not reported and the result
  *   says why (`robustVariance`).
- * Contrasts against the reference arm: risk difference, risk ratio and odds ratio for binary
- * endpoints, rate ratio for counts; ratios on the log scale by the delta method.
+ * Contrasts against the reference arm, or between every pair of arms (`contrastPairs` in
+ * adjusted-means.ts): risk difference, risk ratio and odds ratio for binary endpoints, rate ratio
+ * for counts; ratios on the log scale by the delta method. A multiplicity method adjusts the
+ * p-values within each measure's family of contrasts.
  */
 import { designRow, type CategoricalVariable, type Design, type PreparedData, type Variable } from "../design";
 import { normalQuantile, normalUpper } from "../distributions";
 import type { LinkFunctions } from "./families";
+import { contrastPairs, type ContrastPlan } from "../adjusted-means";
+import { adjustPValues } from "../multiplicity";
 
 export interface MarginalMean {
   readonly level: string;
@@ -41,6 +45,8 @@ export interface MarginalInterval {
   readonly p: number;
   readonly lower: number;
   readonly upper: number;
+  /** p adjusted for multiplicity within the measure's family of contrasts (absent without a method). */
+  readonly pAdjusted?: number;
 }
 
 export interface MarginalContrast extends MarginalInterval {
@@ -84,6 +90,8 @@ export interface MarginalEffects {
   readonly robustVariance: RobustVarianceApplicability;
   readonly means: readonly MarginalMean[];
   readonly contrasts: readonly MarginalContrast[];
+  readonly contrastSet?: ContrastPlan["set"];
+  readonly multiplicity?: ContrastPlan["multiplicity"];
 }
 
 const Z = normalQuantile(0.975);
@@ -98,6 +106,7 @@ export function marginalEffects(
   link: LinkFunctions,
   binary: boolean,
   robustVariance: RobustVarianceApplicability,
+  plan: ContrastPlan = { set: "reference", multiplicity: "none" },
 ): MarginalEffects {
   const treatment = data.variables.get(treatmentName) as CategoricalVariable;
   const { n, p } = design;
@@ -177,8 +186,7 @@ export function marginalEffects(
     const se = quad(ge, unit);
     return { level, estimate: means[a], se, lower: means[a] - Z * se, upper: means[a] + Z * se, robustSe: robustVariance.applies ? quad(ye, unit) : null };
   });
-  const ref = treatment.referenceIndex;
-  const contrasts: MarginalContrast[] = [];
+  const raw: MarginalContrast[] = [];
   const interval = (estimate: number, se: number, log: boolean): MarginalInterval => {
     const centre = log ? Math.log(estimate) : estimate;
     const statistic = centre / se;
@@ -186,8 +194,8 @@ export function marginalEffects(
     const upper = centre + Z * se;
     return { se, statistic, p: 2 * normalUpper(Math.abs(statistic)), lower: log ? Math.exp(lower) : lower, upper: log ? Math.exp(upper) : upper };
   };
-  treatment.levels.forEach((level, a) => {
-    if (a === ref) return;
+  for (const [a, ref] of contrastPairs(K, treatment.referenceIndex, plan.set)) {
+    const level = treatment.levels[a];
     const ma = means[a];
     const mr = means[ref];
     const measures: { measure: MarginalContrast["measure"]; estimate: number; grad: number[]; log: boolean }[] = [];
@@ -206,15 +214,32 @@ export function marginalEffects(
     }
     for (const m of measures) {
       const model = interval(m.estimate, quad(ge, m.grad), m.log);
-      contrasts.push({
+      raw.push({
         measure: m.measure,
         level,
-        reference: treatment.reference,
+        reference: treatment.levels[ref],
         estimate: m.estimate,
         ...model,
         robust: robustVariance.applies ? interval(m.estimate, quad(ye, m.grad), m.log) : null,
       });
     }
-  });
-  return { treatment: treatmentName, robustVariance, means: meanRows, contrasts };
+  }
+  const contrasts = plan.multiplicity === "none" ? raw : adjustByMeasure(raw, plan.multiplicity);
+  return { treatment: treatmentName, robustVariance, means: meanRows, contrasts, contrastSet: plan.set, multiplicity: plan.multiplicity };
+}
+
+/** Adjusted p-values within each measure's family (model-based and robust separately). */
+function adjustByMeasure(raw: MarginalContrast[], method: ContrastPlan["multiplicity"]): MarginalContrast[] {
+  const out = [...raw];
+  for (const measure of new Set(raw.map((c) => c.measure))) {
+    const idx = raw.map((c, i) => (c.measure === measure ? i : -1)).filter((i) => i >= 0);
+    const model = adjustPValues(idx.map((i) => raw[i].p), method);
+    const robustRows = idx.map((i) => raw[i].robust);
+    const robust = robustRows.every((r) => r !== null) ? adjustPValues(robustRows.map((r) => (r as MarginalInterval).p), method) : null;
+    idx.forEach((i, k) => {
+      const r = raw[i].robust;
+      out[i] = { ...raw[i], pAdjusted: model[k], robust: r && robust ? { ...r, pAdjusted: robust[k] } : r };
+    });
+  }
+  return out;
 }

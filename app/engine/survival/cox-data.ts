@@ -120,7 +120,7 @@ export function prepareCoxData(spec: CoxSpec, table: DataTable): PreparedCox {
     ...(spec.id ? { id: spec.id } : {}),
     ...(spec.treatment ? { treatment: spec.treatment } : {}),
   };
-  const prepared = prepareData(designSpec, kept);
+  const prepared = prepareData(designSpec, kept, { oneRowPerSubject: false });
   const design = buildDesign(designSpec, prepared);
   const n = design.n;
   const p = design.p;

@@ -7,6 +7,7 @@
 import { z } from "zod";
 import { EngineError } from "../errors";
 import { termSchema } from "../model-spec";
+import { populationSchema } from "../population";
 
 export const tiesSchema = z.enum(["efron", "breslow"]);
 export const timeTransformSchema = z.enum(["km", "rank", "identity", "log"]);
@@ -37,6 +38,8 @@ export const coxSpecSchema = z
     cluster: z.string().min(1).optional(),
     /** Subject identifier column, echoed per observation. */
     id: z.string().min(1).optional(),
+    /** The analysis population: conditions every analysed row meets (population.ts). */
+    population: populationSchema.optional(),
     proportionalHazards: z.object({ transform: timeTransformSchema.default("km") }).strict().default({ transform: "km" }),
   })
   .strict();
