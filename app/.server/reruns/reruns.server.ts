@@ -26,6 +26,7 @@ import type { Population } from "../plans/planned-model";
 import { getPlannedModel, type StoredPlannedModel } from "../plans/plans.server";
 import { describeOptions, rerunOptionsSchema, type RerunOptions } from "./rerun-options";
 import { exclusionProblem } from "./what-if.server";
+import { withSandwichErrors } from "~/engine/glm/sandwich-errors";
 
 export type Rerun = typeof t.reruns.$inferSelect;
 
@@ -149,13 +150,19 @@ export function computeRerun(model: StoredPlannedModel, table: ColumnTable, opti
     if (spec.family !== "poisson") throw new EngineError(`a ${options.family} analysis applies to a Poisson model of counts, not to a ${spec.family} model`);
     spec = { ...spec, family: options.family };
   }
-  if ((options.variant === "robust_hc3" || options.variant === "variance_function") && spec.family !== "gaussian") {
+  if (options.variant === "variance_function" && spec.family !== "gaussian") {
     throw new EngineError(`the ${describeOptions(options).toLowerCase()} remedy applies to linear models, not to a ${spec.family} model`);
   }
   let result: ModelResult;
   switch (options.variant) {
     case "robust_hc3":
-      result = fitWithRobustErrors(spec, working, "HC3");
+      if (spec.family === "gaussian") {
+        result = fitWithRobustErrors(spec, working, "HC3");
+      } else {
+        const glm = fitModel(spec, working);
+        if (glm.kind !== "glm") throw new EngineError("robust errors of a generalized linear model need its fit");
+        result = withSandwichErrors(glm, "HC3");
+      }
       break;
     case "variance_function":
       result = fitWithEstimatedVariance(spec, working, options.varianceBy);
