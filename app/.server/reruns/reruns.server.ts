@@ -26,6 +26,7 @@ import type { Population } from "../plans/planned-model";
 import { getPlannedModel, type StoredPlannedModel } from "../plans/plans.server";
 import { describeOptions, rerunOptionsSchema, type RerunOptions } from "./rerun-options";
 import { exclusionProblem } from "./what-if.server";
+import { plannedSensitivityOptions } from "./planned-sensitivity";
 import { withSandwichErrors } from "~/engine/glm/sandwich-errors";
 
 export type Rerun = typeof t.reruns.$inferSelect;
@@ -245,7 +246,57 @@ export async function executeRerun(rerunId: string): Promise<void> {
       },
       tx,
     );
+    // the plan's sensitivity analyses run with the primary: queued as jobs of their own once it completed
+    if (rerun.kind === "primary") {
+      for (const options of plannedSensitivityOptions(model, doc)) {
+        await insertRerun(tx, SYSTEM_ACTOR, {
+          studyId: rerun.studyId,
+          plannedModelId: rerun.plannedModelId,
+          planVersionId: rerun.planVersionId,
+          datasetVersionId: rerun.datasetVersionId,
+          datasetSha256: rerun.datasetSha256,
+          startedBy: rerun.startedBy,
+          options,
+          parentRerunId: rerunId,
+          prespecified: true,
+          audit: { plannedModel: model.key, queuedWith: rerunId },
+        });
+      }
+    }
   });
+}
+
+type Tx = Parameters<Parameters<typeof writeTransaction>[0]>[0];
+
+/** Records a rerun, queues its job and audits its start, inside the caller's transaction. */
+async function insertRerun(
+  tx: Tx,
+  actor: PersonActor | typeof SYSTEM_ACTOR,
+  r: { studyId: string; plannedModelId: string; planVersionId: string; datasetVersionId: string; datasetSha256: string; startedBy: string | null; options: RerunOptions; parentRerunId: string | null; prespecified: boolean; audit: Record<string, unknown> },
+): Promise<string> {
+  const id = newId();
+  const kind = r.options.variant === "planned" ? "primary" : "sensitivity";
+  await tx.insert(t.reruns).values({
+    id,
+    studyId: r.studyId,
+    plannedModelId: r.plannedModelId,
+    planVersionId: r.planVersionId,
+    datasetVersionId: r.datasetVersionId,
+    kind,
+    sensitivityKey: kind === "sensitivity" ? r.options.variant : null,
+    parentRerunId: r.parentRerunId,
+    prespecified: r.prespecified,
+    optionsJson: canonicalJson(r.options),
+    label: describeOptions(r.options),
+    datasetSha256: r.datasetSha256,
+    startedBy: r.startedBy,
+  });
+  await enqueueJob(tx, RERUN_JOB, { rerunId: id });
+  await appendAudit(
+    { actor, action: "rerun.start", entityType: "rerun", entityId: id, studyId: r.studyId, after: { ...r.audit, datasetSha256: r.datasetSha256, options: r.options, prespecified: r.prespecified } },
+    tx,
+  );
+  return id;
 }
 
 /**
@@ -322,38 +373,20 @@ export async function startRerun(actor: PersonActor, studyId: string, input: Sta
     .limit(1);
   if (!dv || dv.d.studyId !== studyId || dv.v.status !== "locked") throw data({ message: "Choose a locked version of this study's dataset." }, { status: 409 });
   if (dv.d.name !== model.datasetName) throw data({ message: `The planned model reads ${model.datasetName}, not ${dv.d.name}.` }, { status: 409 });
-  const kind = input.options.variant === "planned" ? "primary" : "sensitivity";
-  return writeTransaction(async (tx) => {
-    const id = newId();
-    await tx.insert(t.reruns).values({
-      id,
+  return writeTransaction((tx) =>
+    insertRerun(tx, actor, {
       studyId,
       plannedModelId: model.id,
       planVersionId: model.planVersionId,
       datasetVersionId: dv.v.id,
-      kind,
-      sensitivityKey: kind === "sensitivity" ? input.options.variant : null,
-      parentRerunId: input.parentRerunId ?? null,
-      prespecified: input.prespecified ?? true,
-      optionsJson: canonicalJson(input.options),
-      label: describeOptions(input.options),
       datasetSha256: dv.v.sha256,
       startedBy: actor.id,
-    });
-    await enqueueJob(tx, RERUN_JOB, { rerunId: id });
-    await appendAudit(
-      {
-        actor,
-        action: "rerun.start",
-        entityType: "rerun",
-        entityId: id,
-        studyId,
-        after: { plannedModel: model.key, dataset: `${dv.d.name} v${dv.v.version}`, datasetSha256: dv.v.sha256, options: input.options, prespecified: input.prespecified ?? true },
-      },
-      tx,
-    );
-    return id;
-  });
+      options: input.options,
+      parentRerunId: input.parentRerunId ?? null,
+      prespecified: input.prespecified ?? true,
+      audit: { plannedModel: model.key, dataset: `${dv.d.name} v${dv.v.version}` },
+    }),
+  );
 }
 
 export interface RerunListing {
