@@ -142,7 +142,7 @@ const TEXT_WIDTH_TWIPS = 11906 - 2 * MARGIN_TWIPS;
 const CHAR_TWIPS = 95;
 const CELL_TWIPS = 220;
 /** A prose column is never narrower than this many characters. */
-const PROSE_MIN_CHARS = 28;
+const PROSE_MIN_CHARS = 24;
 /** Other columns of a table with prose take at most this many characters a line before wrapping. */
 const SHORT_MAX_CHARS = 20;
 
@@ -170,7 +170,15 @@ export function columnWidths(b: Pick<Extract<Block, { kind: "table" }>, "columns
     const proseMin = cols.map((c) => (c.prose ? Math.max(c.min, width(PROSE_MIN_CHARS)) : 0));
     const shortTotal = short.reduce((a, w) => a + w, 0);
     const proseTotal = proseMin.reduce((a, w) => a + w, 0);
-    if (shortTotal + proseTotal > TEXT_WIDTH_TWIPS) return fit(cols.map((c, i) => (c.prose ? proseMin[i] : c.min)));
+    if (shortTotal + proseTotal > TEXT_WIDTH_TWIPS) {
+      // the short columns give way first, down to their longest word; only then does everything shrink
+      const mins = cols.map((c) => (c.prose ? 0 : c.min));
+      const minTotal = mins.reduce((a, w) => a + w, 0);
+      const room = TEXT_WIDTH_TWIPS - proseTotal - minTotal;
+      if (room < 0) return fit(cols.map((c, i) => (c.prose ? proseMin[i] : c.min)));
+      const share = room / Math.max(1, shortTotal - minTotal);
+      return cols.map((c, i) => (c.prose ? proseMin[i] : Math.floor(mins[i] + (short[i] - mins[i]) * share)));
+    }
     const rest = TEXT_WIDTH_TWIPS - shortTotal - proseTotal;
     const proseWeights = cols.reduce((a, c) => a + (c.prose ? c.weight : 0), 0);
     return cols.map((c, i) => (c.prose ? Math.floor(proseMin[i] + (rest * c.weight) / proseWeights) : short[i]));
