@@ -3,6 +3,7 @@
  * intervals, the model's tests, the proportional-hazards test per term and global, the plan's
  * checks with their figures, and the survival and residual figures.
  */
+import { TableScroll } from "./table-scroll";
 import type { FigureKey } from "~/engine/checks";
 import { RerunFigure } from "./figures/rerun-figure";
 import { fmt, fmtCi, fmtP } from "./format";
@@ -110,6 +111,7 @@ export function ChiSquareTable({
   first: string;
 }) {
   return (
+    <TableScroll label={caption}>
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         {caption}
@@ -141,6 +143,7 @@ export function ChiSquareTable({
         ))}
       </tbody>
     </table>
+    </TableScroll>
   );
 }
 
@@ -151,6 +154,7 @@ function RestrictedMeanSection({ rows }: { rows: NonNullable<CoxView["restricted
       <h2 id="rmst-h" className="mb-2">
         Restricted mean survival time
       </h2>
+      <TableScroll label="Restricted mean survival time by arm">
       <table className="data-table">
         <caption className="mb-1 text-left text-xs text-ink-soft">
           Area under each arm&apos;s Kaplan–Meier curve up to τ (time units of the data), with its Greenwood-type SE; the difference with a Wald 95% interval. Above 0 means longer event-free time than the reference.
@@ -186,6 +190,7 @@ function RestrictedMeanSection({ rows }: { rows: NonNullable<CoxView["restricted
           ))}
         </tbody>
       </table>
+      </TableScroll>
     </section>
   );
 }
@@ -198,6 +203,7 @@ export function HazardRatioTable({
   robust: boolean;
 }) {
   return (
+    <TableScroll label="Hazard ratios">
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         Hazard ratio exp(β) with its 95%{" "}
@@ -229,6 +235,7 @@ export function HazardRatioTable({
         ))}
       </tbody>
     </table>
+    </TableScroll>
   );
 }
 

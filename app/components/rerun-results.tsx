@@ -2,6 +2,7 @@ import { Link } from "react-router";
 import type { ReactNode } from "react";
 import { fmt, fmtCi, fmtP } from "./format";
 import { StatusLabel } from "./status";
+import { TableScroll } from "./table-scroll";
 
 interface Coefficient {
   name: string;
@@ -16,6 +17,7 @@ interface Coefficient {
 /** `scale` names what the estimates measure for a z statistic ("the link scale" unless given). */
 export function CoefficientTable({ rows, covarianceType, df, statisticName = "t", scale = "the link scale" }: { rows: readonly Coefficient[]; covarianceType: string; df: number; statisticName?: "t" | "z"; scale?: string }) {
   return (
+    <TableScroll label="Coefficients">
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         Estimates with {covarianceType === "model" ? "model-based" : covarianceType} standard errors;{" "}
@@ -56,6 +58,7 @@ export function CoefficientTable({ rows, covarianceType, df, statisticName = "t"
         ))}
       </tbody>
     </table>
+    </TableScroll>
   );
 }
 
@@ -70,6 +73,7 @@ interface Mean {
 
 export function AdjustedMeansTable({ rows, weighting }: { rows: readonly Mean[]; weighting: string | null }) {
   return (
+    <TableScroll label="Adjusted means">
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         Adjusted means: continuous covariates at their mean over the rows used; other factors weighted {weighting === "proportional" ? "by observed proportions" : "equally over their levels"}.
@@ -105,6 +109,7 @@ export function AdjustedMeansTable({ rows, weighting }: { rows: readonly Mean[];
         ))}
       </tbody>
     </table>
+    </TableScroll>
   );
 }
 
@@ -121,6 +126,7 @@ interface ContrastRow {
 export function ContrastsTable({ rows, kind = "linear" }: { rows: readonly ContrastRow[]; kind?: "linear" | "glm" }) {
   const robust = kind === "linear" ? "HC3" : "Robust";
   return (
+    <TableScroll label="Treatment contrasts">
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         {kind === "linear"
@@ -170,6 +176,7 @@ export function ContrastsTable({ rows, kind = "linear" }: { rows: readonly Contr
         ))}
       </tbody>
     </table>
+    </TableScroll>
   );
 }
 
@@ -184,6 +191,7 @@ interface MarginalMean {
 
 export function MarginalMeansTable({ rows, family }: { rows: readonly MarginalMean[]; family: string }) {
   return (
+    <TableScroll label="Standardized means by arm">
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         Standardized {family === "binomial" ? "risk" : "expected count"} per arm: every subject's prediction under each arm, averaged over the rows used.
@@ -217,6 +225,7 @@ export function MarginalMeansTable({ rows, family }: { rows: readonly MarginalMe
         ))}
       </tbody>
     </table>
+    </TableScroll>
   );
 }
 
@@ -230,6 +239,7 @@ interface CalibrationGroup {
 /** The Hosmer–Lemeshow groups behind the calibration figure: observed against expected events per group of predicted risk. */
 export function CalibrationTable({ groups }: { groups: readonly CalibrationGroup[] }) {
   return (
+    <TableScroll label="Calibration groups">
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">Hosmer–Lemeshow groups, lowest predicted risk first: events observed and expected under the model.</caption>
       <thead>
@@ -263,6 +273,7 @@ export function CalibrationTable({ groups }: { groups: readonly CalibrationGroup
         ))}
       </tbody>
     </table>
+    </TableScroll>
   );
 }
 
@@ -277,6 +288,7 @@ interface Ratio {
 
 export function RatioTable({ rows, ratioName }: { rows: readonly Ratio[]; ratioName: string }) {
   return (
+    <TableScroll label={`${ratioName[0].toUpperCase()}${ratioName.slice(1)}s`}>
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         {ratioName[0].toUpperCase() + ratioName.slice(1)}s (conditional on the covariates) with Wald and profile-likelihood 95% intervals.
@@ -306,6 +318,7 @@ export function RatioTable({ rows, ratioName }: { rows: readonly Ratio[]; ratioN
         ))}
       </tbody>
     </table>
+    </TableScroll>
   );
 }
 
@@ -345,7 +358,7 @@ export function CheckCard({ check, figure }: { check: CheckCardData; figure?: Re
         <StatusLabel status={o.status} word={o.word} />
       </header>
       <div className="grid gap-4 p-4 lg:grid-cols-[minmax(0,18rem)_1fr]">
-        <div className="space-y-2 text-sm">
+        <div className="min-w-0 space-y-2 text-sm">
           <dl className="grid grid-cols-[6rem_1fr] gap-x-2 gap-y-1">
             <dt className="font-semibold text-ink-soft">Statistic</dt>
             <dd className="num">{check.statistic}</dd>
@@ -354,6 +367,7 @@ export function CheckCard({ check, figure }: { check: CheckCardData; figure?: Re
           </dl>
           <p>{check.summary}</p>
           {check.flagged.length > 0 ? (
+            <TableScroll label={`Flagged subjects, ${check.label}`}>
             <table className="data-table">
               <caption className="text-left text-xs text-ink-soft">
                 Most extreme {check.flagged.length} of {check.flaggedCount} flagged
@@ -377,6 +391,7 @@ export function CheckCard({ check, figure }: { check: CheckCardData; figure?: Re
                 ))}
               </tbody>
             </table>
+            </TableScroll>
           ) : null}
           <p className="text-xs text-ink-soft">
             <span className="font-semibold">Planned remedy:</span> {check.remedy}
@@ -403,6 +418,7 @@ export function SensitivityTable({ analyses, hrefOf }: { analyses: readonly Comp
   const name = (a: ComparedAnalysis) => (hrefOf ? <Link to={hrefOf(a.id)}>{a.label}</Link> : a.label);
   const tag = (a: ComparedAnalysis) => (a.primary ? " (primary)" : a.prespecified ? " (planned)" : " (not pre-specified)");
   return (
+    <TableScroll label="Treatment contrast across analyses">
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">The treatment contrast across analyses (HC3 intervals for the robust-errors analysis of a linear model, sandwich intervals for a Cox model clustered by subject; hazard ratios and restricted mean differences as labelled).</caption>
       <thead>
@@ -453,5 +469,6 @@ export function SensitivityTable({ analyses, hrefOf }: { analyses: readonly Comp
         )}
       </tbody>
     </table>
+    </TableScroll>
   );
 }

@@ -12,6 +12,7 @@ import { renderFigure } from "~/.server/appendix/figures.server";
 import { NarrativeInput, narrativeHistory, saveNarrative } from "~/.server/appendix/narratives.server";
 import { getPlanVersion } from "~/.server/plans/plans.server";
 import { requireStudy } from "~/.server/study-access.server";
+import { TableScroll } from "~/components/table-scroll";
 
 export function meta({ loaderData }: Route.MetaArgs) {
   return [{ title: `Appendix · ${loaderData?.code ?? "Study"} · Plumbline` }];
@@ -109,7 +110,7 @@ function PreviewBlock({ b, images }: { b: Block; images: Record<string, string> 
       );
     case "table":
       return (
-        <div className="overflow-x-auto">
+        <TableScroll label={`Table ${b.number}`}>
           <table className="data-table" data-table-key={b.key}>
             <caption className="mb-1 text-left text-sm">
               <span className="font-semibold">Table {b.number}.</span> {b.caption}
@@ -136,7 +137,7 @@ function PreviewBlock({ b, images }: { b: Block; images: Record<string, string> 
             </tbody>
           </table>
           {b.note ? <p className="mt-1 text-xs text-ink-soft">{b.note}</p> : null}
-        </div>
+        </TableScroll>
       );
     case "figure":
       return (

@@ -7,6 +7,7 @@ import { fmt, fmtCi, fmtP, utc } from "~/components/format";
 import { PageHeader } from "~/components/page";
 import { AdjustedMeansTable, checkTally, CoefficientTable, ContrastsTable, SensitivityTable } from "~/components/rerun-results";
 import { StatusLabel } from "~/components/status";
+import { TableScroll } from "~/components/table-scroll";
 import { getReport } from "~/.server/reports/reports.server";
 import { requireStudy } from "~/.server/study-access.server";
 
@@ -133,7 +134,8 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
           <p className="text-sm text-ink-soft">
             {checkTally(checks)}. Subjects are named by rank only.
           </p>
-          <div className="panel overflow-x-auto p-4">
+          <div className="panel p-4">
+            <TableScroll label="Checks of the plan">
             <table className="data-table">
               <caption className="mb-1 text-left text-xs text-ink-soft">Each check the plan commits to, with its statistic, the threshold as applied and its outcome.</caption>
               <thead>
@@ -175,6 +177,7 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
                 ))}
               </tbody>
             </table>
+            </TableScroll>
           </div>
         </section>
 
