@@ -6,7 +6,7 @@ import type { ReactNode } from "react";
  */
 export function TableScroll({ label, children, className = "" }: { label: string; children: ReactNode; className?: string }) {
   return (
-    <div role="region" aria-label={label} tabIndex={0} className={`max-w-full overflow-x-auto focus-visible:outline-2 focus-visible:outline-accent ${className}`}>
+    <div role="region" aria-label={label} tabIndex={0} className={`relative max-w-full overflow-x-auto focus-visible:outline-2 focus-visible:outline-accent ${className}`}>
       {children}
     </div>
   );

@@ -20,6 +20,7 @@ export async function loader({ request }: Route.LoaderArgs) {
   return {
     filter,
     paging,
+    sizes: [...AUDIT_PAGE_SIZES],
     verdict,
     keySource: auditKeySource,
     studies: studies.map((s) => ({ id: s.id, code: s.code })),
@@ -36,7 +37,7 @@ function hrefOf(filter: Record<string, string | undefined>, extra: Record<string
 }
 
 /** Links to the first, previous, next and last page, and the page size; the current page is marked for assistive technology. */
-function Pager({ filter, paging, position }: { filter: Record<string, string | undefined>; paging: { page: number; pages: number; size: number; total: number; first: number; last: number }; position: "top" | "bottom" }) {
+function Pager({ filter, paging, sizes, position }: { filter: Record<string, string | undefined>; sizes: number[]; paging: { page: number; pages: number; size: number; total: number; first: number; last: number }; position: "top" | "bottom" }) {
   const { page, pages, size } = paging;
   const link = (to: number, label: string, rel?: string) =>
     to < 1 || to > pages || to === page ? (
@@ -51,7 +52,7 @@ function Pager({ filter, paging, position }: { filter: Record<string, string | u
   return (
     <nav aria-label={`Audit trail pages${position === "bottom" ? " (end of the list)" : ""}`} className="my-3 flex flex-wrap items-center justify-between gap-3 text-sm">
       <p className="num" aria-live={position === "top" ? "polite" : undefined}>
-        {paging.total === 0 ? "No events" : `Events ${paging.first}–${paging.last} of ${paging.total}`} · page {page} of {pages}
+        {`${paging.total === 0 ? "No events" : `Events ${paging.first}–${paging.last} of ${paging.total}`} · page ${page} of ${pages}`}
       </p>
       <ul className="flex flex-wrap items-center gap-1">
         <li>{link(1, "First")}</li>
@@ -67,7 +68,7 @@ function Pager({ filter, paging, position }: { filter: Record<string, string | u
       {position === "top" ? (
         <p className="flex items-center gap-1">
           <span className="text-ink-soft">Per page:</span>
-          {AUDIT_PAGE_SIZES.map((n) =>
+          {sizes.map((n) =>
             n === size ? (
               <span key={n} aria-current="true" className="num px-1 font-semibold">
                 {n}
@@ -104,7 +105,7 @@ function change(before: string | null, after: string | null): string {
 }
 
 export default function AuditTrail({ loaderData }: Route.ComponentProps) {
-  const { filter, verdict, events, studies, keySource, paging } = loaderData;
+  const { filter, verdict, events, studies, keySource, paging, sizes } = loaderData;
   return (
     <main>
       <PageHeader eyebrow="Administration" title="Audit trail" />
@@ -191,7 +192,7 @@ export default function AuditTrail({ loaderData }: Route.ComponentProps) {
           </label>
           <input id="f-to" name="to" type="date" defaultValue={filter.to ?? ""} className="field w-40" />
         </div>
-        {paging.size !== AUDIT_PAGE_SIZES[0] ? <input type="hidden" name="size" value={paging.size} /> : null}
+        {paging.size !== sizes[0] ? <input type="hidden" name="size" value={paging.size} /> : null}
         <button type="submit" className="btn-quiet">
           Filter
         </button>
@@ -200,7 +201,7 @@ export default function AuditTrail({ loaderData }: Route.ComponentProps) {
           Export as CSV ({paging.total} events, with chain hashes)
         </a>
       </Form>
-      <Pager filter={filter} paging={paging} position="top" />
+      <Pager filter={filter} paging={paging} sizes={sizes} position="top" />
       <div className="overflow-x-auto" role="region" aria-label="Audit events" tabIndex={0}>
         <table className="data-table panel">
           <thead>
@@ -243,7 +244,7 @@ export default function AuditTrail({ loaderData }: Route.ComponentProps) {
           </tbody>
         </table>
       </div>
-      {paging.pages > 1 ? <Pager filter={filter} paging={paging} position="bottom" /> : null}
+      {paging.pages > 1 ? <Pager filter={filter} paging={paging} sizes={sizes} position="bottom" /> : null}
     </main>
   );
 }

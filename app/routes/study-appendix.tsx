@@ -79,7 +79,7 @@ function PreviewBlock({ b, images }: { b: Block; images: Record<string, string> 
     case "heading":
       return <h3 className="mt-4 text-base font-semibold">{b.text}</h3>;
     case "paragraph":
-      return <p className="max-w-prose">{b.text}</p>;
+      return <p className="max-w-prose [overflow-wrap:anywhere]">{b.text}</p>;
     case "bullets":
       return (
         <ul className="max-w-prose list-disc space-y-1 pl-5">
@@ -189,6 +189,7 @@ function Preview({ content, images, narratives, canNarrate, result, busy }: { co
         <p className="text-xs font-semibold uppercase tracking-wide text-accent">{tp.studyCode}</p>
         <h2 className="text-xl">{content.title}</h2>
         <p className="text-sm text-ink-soft">{tp.studyTitle}</p>
+        <TableScroll label="Facts of the appendix">
         <table className="data-table">
           <tbody>
             {tp.facts.map((f) => (
@@ -201,6 +202,7 @@ function Preview({ content, images, narratives, canNarrate, result, busy }: { co
             ))}
           </tbody>
         </table>
+        </TableScroll>
       </section>
       {content.sections.map((s) => (
         <section key={s.key} className="space-y-3 text-sm" data-section={s.key}>
@@ -288,6 +290,7 @@ export default function Page({ loaderData, actionData }: Route.ComponentProps) {
             {exports.length === 0 ? (
               <p className="text-sm text-ink-soft">No export yet.</p>
             ) : (
+              <TableScroll label="Previous exports">
               <table className="data-table panel">
                 <thead>
                   <tr>
@@ -316,6 +319,7 @@ export default function Page({ loaderData, actionData }: Route.ComponentProps) {
                   ))}
                 </tbody>
               </table>
+              </TableScroll>
             )}
           </section>
 

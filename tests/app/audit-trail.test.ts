@@ -60,15 +60,17 @@ const rowsOf = (html: string) => [...html.matchAll(/<tr><td class="num text-righ
 
 describe("audit trail paging", () => {
   it("shows one page of the newest events with links to the others, the current page marked", async () => {
-    const total = Number((await testDb(stack).execute("SELECT count(*) AS n FROM audit_events")).rows[0].n);
-    expect(total).toBeGreaterThan(50);
+    const count = async () => Number((await testDb(stack).execute("SELECT count(*) AS n FROM audit_events")).rows[0].n);
+    // more than one page of 50: each export is an audited event of its own
+    while ((await count()) <= 60) await (await fetch(`${stack.appUrl}/admin/audit/export.csv?action=none.`, { headers: { Cookie: cookie } })).text();
+    const total = await count();
     const first = await auditPage();
     const seqs = rowsOf(first);
     expect(seqs).toHaveLength(50);
     expect(seqs).toEqual([...seqs].sort((a, b) => b - a));
     expect(first).toMatch(/<nav aria-label="Audit trail pages"/);
     expect(first).toMatch(/<span aria-current="page"[^>]*>1<\/span>/);
-    expect(first).toMatch(/href="\/admin\/audit\?page=2&amp;size=50" rel="next"/);
+    expect(first).toMatch(/<a [^>]*href="\/admin\/audit\?page=2&amp;size=50"[^>]*>Next<\/a>/);
     const second = await auditPage("?page=2&size=50");
     const next = rowsOf(second);
     expect(next[0]).toBe(seqs[49] - 1);

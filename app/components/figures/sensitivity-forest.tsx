@@ -1,3 +1,4 @@
+import { TableScroll } from "../table-scroll";
 import { forestPoints, type ForestRow } from "./specs";
 import { VegaChart, type VegaSpecJson } from "./vega-chart";
 
@@ -20,7 +21,8 @@ export function SensitivityForest({ rows, contrastLabel, spec }: { rows: ForestR
       <div className="panel p-3">
         <VegaChart spec={spec} height={height} label={`Treatment contrast ${contrastLabel} with 95% confidence intervals across ${points.length} analyses`} />
       </div>
-      <table className="data-table self-start">
+      <TableScroll label={`${contrastLabel}: estimate and 95% CI`} className="self-start">
+      <table className="data-table">
         <caption className="mb-1 text-left text-xs text-ink-soft">{contrastLabel}: estimate and 95% CI</caption>
         <thead>
           <tr>
@@ -44,6 +46,7 @@ export function SensitivityForest({ rows, contrastLabel, spec }: { rows: ForestR
           ))}
         </tbody>
       </table>
+      </TableScroll>
     </div>
   );
 }
