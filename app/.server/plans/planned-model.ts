@@ -28,8 +28,6 @@ export const SENSITIVITY_LABELS: Record<SensitivityKind, string> = {
   cox_rmst: "Restricted mean survival time difference between arms",
 };
 
-/** Sensitivity analyses that apply to a time-to-event (Cox) model only. */
-export const COX_ONLY_SENSITIVITY: readonly SensitivityKind[] = ["cox_robust_subject", "cox_unstratified", "cox_rmst"];
 
 export const sensitivitySchema = z.object({
   kind: z.enum(SENSITIVITY_KINDS),
