@@ -203,7 +203,7 @@ export function HazardRatioTable({
   robust: boolean;
 }) {
   return (
-    <TableScroll label="Hazard ratios">
+    <TableScroll label="Hazard ratio table">
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         Hazard ratio exp(β) with its 95%{" "}

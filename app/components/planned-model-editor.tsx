@@ -354,7 +354,7 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
         </table>
       </Section>
 
-      <Section title="Planned sensitivity analyses" note="Each is run beside the primary analysis so its effect on the treatment estimate is visible at a glance.">
+      <Section title="Planned sensitivity analyses" note="Each runs by itself once the primary analysis has completed, and sits beside it so its effect on the treatment estimate is visible at a glance.">
         <div className="space-y-2 text-sm">
           {offered("robust_hc3") ? (
             <label className="flex items-center gap-2">

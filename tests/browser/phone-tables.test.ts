@@ -146,6 +146,9 @@ describe("tables on a phone, 390 px wide", () => {
     await contrasts.evaluate((el) => (el.scrollLeft = 0));
     await page.getByRole("heading", { name: "Treatment effect", exact: true }).scrollIntoViewIfNeeded();
     await screenshot(page, "phone-results");
+    await page.screenshot({ path: "test-results/screenshots/phone-results-view.png" });
+    await page.getByRole("heading", { name: "Sensitivity analyses", exact: true }).scrollIntoViewIfNeeded();
+    await page.screenshot({ path: "test-results/screenshots/phone-results-sensitivity-view.png" });
     await page.context().close();
   }, 120_000);
 
@@ -156,6 +159,7 @@ describe("tables on a phone, 390 px wide", () => {
     expect(await tablesFit(page)).toBeGreaterThan(0);
     await page.getByText(/Deviation log with assessments/).first().scrollIntoViewIfNeeded();
     await screenshot(page, "phone-appendix-preview");
+    await page.screenshot({ path: "test-results/screenshots/phone-appendix-preview-view.png" });
     await page.context().close();
   }, 120_000);
 
@@ -165,6 +169,8 @@ describe("tables on a phone, 390 px wide", () => {
     await page.getByRole("heading", { name: "Checks of the plan" }).waitFor();
     expect(await tablesFit(page)).toBeGreaterThan(0);
     await screenshot(page, "phone-sponsor-report");
+    await page.getByRole("heading", { name: "Checks of the plan" }).scrollIntoViewIfNeeded();
+    await page.screenshot({ path: "test-results/screenshots/phone-sponsor-report-view.png" });
     await page.context().close();
   }, 60_000);
 
@@ -179,6 +185,8 @@ describe("tables on a phone, 390 px wide", () => {
     await page.getByRole("navigation", { name: "Audit trail pages", exact: true }).getByRole("link", { name: "Next" }).click();
     await page.getByText(/page 2 of \d+/).first().waitFor();
     await screenshot(page, "phone-audit-trail");
+    await page.getByRole("region", { name: "Audit events" }).scrollIntoViewIfNeeded();
+    await page.screenshot({ path: "test-results/screenshots/phone-audit-trail-view.png" });
     await page.context().close();
   }, 60_000);
 });
