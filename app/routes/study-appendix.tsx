@@ -128,7 +128,7 @@ function PreviewBlock({ b, images }: { b: Block; images: Record<string, string> 
               {b.rows.map((r, i) => (
                 <tr key={i}>
                   {r.map((v, j) => (
-                    <td key={j} className={b.columns[j]?.numeric ? "num whitespace-nowrap text-right" : ""}>
+                    <td key={j} className={b.columns[j]?.numeric ? "num whitespace-nowrap text-right" : b.columns[j]?.prose ? "min-w-64" : ""}>
                       {v}
                     </td>
                   ))}

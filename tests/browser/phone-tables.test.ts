@@ -185,6 +185,8 @@ describe("tables on a phone, 390 px wide", () => {
     await page.getByRole("navigation", { name: "Audit trail pages", exact: true }).getByRole("link", { name: "Next" }).click();
     await page.getByText(/page 2 of \d+/).first().waitFor();
     await screenshot(page, "phone-audit-trail");
+    await page.getByRole("navigation", { name: "Audit trail pages", exact: true }).scrollIntoViewIfNeeded();
+    await page.screenshot({ path: "test-results/screenshots/phone-audit-trail-pager-view.png" });
     await page.getByRole("region", { name: "Audit events" }).scrollIntoViewIfNeeded();
     await page.screenshot({ path: "test-results/screenshots/phone-audit-trail-view.png" });
     await page.context().close();
