@@ -153,6 +153,9 @@ export async function action({ request, params }: Route.ActionArgs): Promise<Act
         const s = planned.sensitivity.find((x) => x.kind === input.kind);
         const options = s ? optionsFor(s, r.doc) : null;
         if (!options) return { error: "That sensitivity analysis is not in the plan for this model, or there is nothing to run.", fieldErrors: {} };
+        // queued with the primary when it completed: run again only one that failed
+        const same = (await sensitivityReruns(primaryId)).filter((c) => c.optionsJson === canonicalJson(options) && c.status !== "failed");
+        if (same.length > 0) return { error: "That sensitivity analysis has already run, or is running, for this rerun.", fieldErrors: {} };
         await startRerun(actor, study.id, { plannedModelId: r.rerun.plannedModelId, datasetVersionId: r.rerun.datasetVersionId, options, parentRerunId: primaryId, prespecified: true });
         return { error: null, fieldErrors: {} };
       }
@@ -526,7 +529,7 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
                     {s.childId ? <Link to={`/studies/${studyId}/reruns/${s.childId}`}>{s.label}</Link> : s.label} <span className="text-xs text-ink-soft">(planned)</span>
                     {s.note ? <span className="block text-xs text-ink-soft">{s.note}</span> : null}
                   </span>
-                  {s.status ? (
+                  {s.status && !(s.status === "failed" && can.start && s.runnable) ? (
                     <StatusLabel status={STATUS[s.status].status} word={STATUS[s.status].word} />
                   ) : running ? (
                     <StatusLabel status="pending" word="Runs after the primary" />
