@@ -56,6 +56,7 @@ export default [
       route("studies", "routes/admin.studies.tsx"),
       route("people", "routes/admin.people.tsx"),
       route("audit", "routes/admin.audit.tsx"),
+      route("audit/export.csv", "routes/admin.audit-export.ts"),
       route("api-clients", "routes/admin.api-clients.tsx"),
       route("outbox", "routes/admin.outbox.tsx"),
     ]),

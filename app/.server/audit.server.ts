@@ -19,7 +19,7 @@
  * by the operator never keys unkeyed events, so removing the keyed hashes cannot launder an edit.
  */
 import { createHash, createHmac, timingSafeEqual } from "node:crypto";
-import { and, asc, desc, eq, gte, isNull, like, lte, type SQL } from "drizzle-orm";
+import { and, asc, count, desc, eq, gte, isNull, like, lte, type SQL } from "drizzle-orm";
 import { loadAuditKey } from "./audit-key.server";
 import { db, isoNow, t, writeTransaction, type DbOrTx } from "./db/index.server";
 
@@ -220,20 +220,29 @@ export interface AuditFilter {
   from?: string;
   to?: string;
   limit?: number;
+  /** Events to skip (newest first), for paging. */
+  offset?: number;
 }
 
-/** Newest first, with optional filters (action prefix, actor name fragment, date range). */
-export async function listAuditEvents(filter: AuditFilter = {}): Promise<StoredEvent[]> {
+function whereOf(filter: Omit<AuditFilter, "limit" | "offset">): SQL | undefined {
   const where: SQL[] = [];
   if (filter.studyId) where.push(eq(t.auditEvents.studyId, filter.studyId));
   if (filter.action) where.push(like(t.auditEvents.action, `${filter.action}%`));
   if (filter.actor) where.push(like(t.auditEvents.actorName, `%${filter.actor}%`));
   if (filter.from) where.push(gte(t.auditEvents.at, filter.from));
   if (filter.to) where.push(lte(t.auditEvents.at, `${filter.to}\uffff`));
-  return db
-    .select()
-    .from(t.auditEvents)
-    .where(where.length ? and(...where) : undefined)
-    .orderBy(desc(t.auditEvents.seq))
-    .limit(filter.limit ?? 200);
+  return where.length ? and(...where) : undefined;
+}
+
+/** Newest first, with optional filters (action prefix, actor name fragment, date range); `limit` null for every match. */
+export async function listAuditEvents(filter: Omit<AuditFilter, "limit"> & { limit?: number | null } = {}): Promise<StoredEvent[]> {
+  const query = db.select().from(t.auditEvents).where(whereOf(filter)).orderBy(desc(t.auditEvents.seq));
+  if (filter.limit === null) return query;
+  return query.limit(filter.limit ?? 200).offset(filter.offset ?? 0);
+}
+
+/** How many events match the filters (for paging). */
+export async function countAuditEvents(filter: AuditFilter = {}): Promise<number> {
+  const [row] = await db.select({ n: count() }).from(t.auditEvents).where(whereOf(filter));
+  return row?.n ?? 0;
 }

@@ -23,6 +23,8 @@ export interface TableColumn {
   label: string;
   /** Numbers are right-aligned with tabular figures. */
   numeric?: boolean;
+  /** Running text (a rationale, a finding): wraps, and gets the line's room left after the other columns. */
+  prose?: boolean;
 }
 
 export type Block =

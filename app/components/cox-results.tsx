@@ -4,6 +4,7 @@
  * checks with their figures, and the survival and residual figures.
  */
 import { populationNote, type PopulationStepView } from "./population-note";
+import { TableScroll } from "./table-scroll";
 import type { FigureKey } from "~/engine/checks";
 import { RerunFigure } from "./figures/rerun-figure";
 import { fmt, fmtCi, fmtP } from "./format";
@@ -111,6 +112,7 @@ export function ChiSquareTable({
   first: string;
 }) {
   return (
+    <TableScroll label={caption}>
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         {caption}
@@ -142,6 +144,7 @@ export function ChiSquareTable({
         ))}
       </tbody>
     </table>
+    </TableScroll>
   );
 }
 
@@ -152,6 +155,7 @@ function RestrictedMeanSection({ rows }: { rows: NonNullable<CoxView["restricted
       <h2 id="rmst-h" className="mb-2">
         Restricted mean survival time
       </h2>
+      <TableScroll label="Restricted mean survival time by arm">
       <table className="data-table">
         <caption className="mb-1 text-left text-xs text-ink-soft">
           Area under each arm&apos;s Kaplan–Meier curve up to τ (time units of the data), with its Greenwood-type SE; the difference with a Wald 95% interval. Above 0 means longer event-free time than the reference.
@@ -187,6 +191,7 @@ function RestrictedMeanSection({ rows }: { rows: NonNullable<CoxView["restricted
           ))}
         </tbody>
       </table>
+      </TableScroll>
     </section>
   );
 }
@@ -199,6 +204,7 @@ export function HazardRatioTable({
   robust: boolean;
 }) {
   return (
+    <TableScroll label="Hazard ratio table">
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         Hazard ratio exp(β) with its 95%{" "}
@@ -230,6 +236,7 @@ export function HazardRatioTable({
         ))}
       </tbody>
     </table>
+    </TableScroll>
   );
 }
 

@@ -6,6 +6,7 @@ import { TreatmentEffectSection } from "./planned-model-analysis";
 import { PublishedValuesSection, type PublishedFields } from "./planned-model-published";
 import { interactionName } from "~/engine/coefficient-names";
 import { linkWords } from "~/engine/family-names";
+import { checkApplies, sensitivityApplies, type SensitivityKind } from "~/engine/family-applicability";
 
 export interface EditorColumn {
   name: string;
@@ -24,7 +25,7 @@ interface EditorDataset {
 }
 
 interface CheckInfo {
-  key: string;
+  key: Parameters<typeof checkApplies>[0]["key"];
   models: "linear" | "glm" | "both" | "cox";
   label: string;
   rule: string;
@@ -131,6 +132,8 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
   const [covariates, setCovariates] = useState(() => new Map(initial.covariates.map((c) => [c.variable, c])));
   const [interactions, setInteractions] = useState(() => new Set(initial.interactions.map((i) => i.join("|"))));
   const sens = new Map(initial.sensitivity.map((s) => [s.kind, s]));
+  /** Only the checks and sensitivity analyses that apply to the family are offered (family-applicability.ts). */
+  const offered = (kind: SensitivityKind) => sensitivityApplies(kind, family);
 
   const dataset = datasets.find((d) => d.name === datasetName);
   const columns = dataset?.columns ?? [];
@@ -339,11 +342,10 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
               <th scope="col">Planned remedy</th>
             </tr>
           </thead>
-          <tbody key={isNew ? family : "saved"}>
-            {checkCatalogue.map((c) => {
-              const applies = family === "cox" ? c.models === "cox" : c.models === "both" || c.models === (family === "gaussian" ? "linear" : "glm");
-              // A new model starts with every check that applies to its family.
-              const current = isNew ? { ...(initial.checks.find((x) => x.key === c.key) ?? {}), enabled: applies } : initial.checks.find((x) => x.key === c.key);
+          <tbody key={family}>
+            {checkCatalogue.filter((c) => checkApplies(c, family, Boolean(treatment))).map((c) => {
+              // A new model, or one given another family, starts with every check that applies to its family.
+              const current = isNew || family !== initial.family ? { ...(initial.checks.find((x) => x.key === c.key) ?? {}), enabled: true } : initial.checks.find((x) => x.key === c.key);
               const err = errors[`check:${c.key}:threshold`];
               return (
                 <tr key={c.key}>
@@ -372,11 +374,14 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
         </table>
       </Section>
 
-      <Section title="Planned sensitivity analyses" note="Each is run beside the primary analysis so its effect on the treatment estimate is visible at a glance.">
+      <Section title="Planned sensitivity analyses" note="Each runs by itself once the primary analysis has completed, and sits beside it so its effect on the treatment estimate is visible at a glance.">
         <div className="space-y-2 text-sm">
-          <label className="flex items-center gap-2">
-            <input type="checkbox" name="sensitivity:robust_hc3" defaultChecked={sens.has("robust_hc3")} /> Robust (HC3) standard errors
-          </label>
+          {offered("robust_hc3") ? (
+            <label className="flex items-center gap-2">
+              <input type="checkbox" name="sensitivity:robust_hc3" defaultChecked={sens.has("robust_hc3")} /> Robust (HC3) standard errors{family === "gaussian" ? "" : " (sandwich covariance of the coefficients)"}
+            </label>
+          ) : null}
+          {offered("variance_function") ? (
           <div className="flex flex-wrap items-center gap-2">
             <label className="flex items-center gap-2">
               <input type="checkbox" name="sensitivity:variance_function" defaultChecked={sens.has("variance_function")} /> Weighted fit with an estimated variance function, depending on
@@ -387,16 +392,23 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
             </select>
             <FieldError id="sens-var-error" message={errors["sensitivity:varianceBy"]} />
           </div>
-          <label className="flex items-center gap-2">
-            <input type="checkbox" name="sensitivity:exclude_influential" defaultChecked={sens.has("exclude_influential")} /> Excluding the subjects flagged by the Cook's distance check
-          </label>
-          <label className="flex items-center gap-2">
-            <input type="checkbox" name="sensitivity:quasi_poisson" defaultChecked={sens.has("quasi_poisson")} /> Counts: quasi-Poisson (dispersion estimated)
-          </label>
-          <label className="flex items-center gap-2">
-            <input type="checkbox" name="sensitivity:negative_binomial" defaultChecked={sens.has("negative_binomial")} /> Counts: negative binomial (NB2, θ by maximum likelihood)
-          </label>
-          {family === "cox" ? (
+          ) : null}
+          {offered("exclude_influential") ? (
+            <label className="flex items-center gap-2">
+              <input type="checkbox" name="sensitivity:exclude_influential" defaultChecked={sens.has("exclude_influential")} /> Excluding the subjects flagged by the Cook's distance check
+            </label>
+          ) : null}
+          {offered("quasi_poisson") ? (
+            <>
+              <label className="flex items-center gap-2">
+                <input type="checkbox" name="sensitivity:quasi_poisson" defaultChecked={sens.has("quasi_poisson")} /> Counts: quasi-Poisson (dispersion estimated)
+              </label>
+              <label className="flex items-center gap-2">
+                <input type="checkbox" name="sensitivity:negative_binomial" defaultChecked={sens.has("negative_binomial")} /> Counts: negative binomial (NB2, θ by maximum likelihood)
+              </label>
+            </>
+          ) : null}
+          {offered("cox_rmst") ? (
             <>
               <label className="flex items-center gap-2">
                 <input type="checkbox" name="sensitivity:cox_robust_subject" defaultChecked={sens.has("cox_robust_subject")} /> Time to event: robust (sandwich) standard errors, clustered by subject

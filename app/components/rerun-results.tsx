@@ -3,6 +3,7 @@ import { MULTIPLICITY_WORDS, type TreatmentEffectPlan } from "./treatment-effect
 import type { ReactNode } from "react";
 import { fmt, fmtCi, fmtP } from "./format";
 import { StatusLabel } from "./status";
+import { TableScroll } from "./table-scroll";
 
 interface Coefficient {
   name: string;
@@ -17,6 +18,7 @@ interface Coefficient {
 /** `scale` names what the estimates measure for a z statistic ("the link scale" unless given). */
 export function CoefficientTable({ rows, covarianceType, df, statisticName = "t", scale = "the link scale" }: { rows: readonly Coefficient[]; covarianceType: string; df: number; statisticName?: "t" | "z"; scale?: string }) {
   return (
+    <TableScroll label="Coefficients">
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         Estimates with {covarianceType === "model" ? "model-based" : covarianceType} standard errors;{" "}
@@ -57,6 +59,7 @@ export function CoefficientTable({ rows, covarianceType, df, statisticName = "t"
         ))}
       </tbody>
     </table>
+    </TableScroll>
   );
 }
 
@@ -71,6 +74,7 @@ interface Mean {
 
 export function AdjustedMeansTable({ rows, weighting }: { rows: readonly Mean[]; weighting: string | null }) {
   return (
+    <TableScroll label="Adjusted means">
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         Adjusted means: continuous covariates at their mean over the rows used; other factors weighted {weighting === "proportional" ? "by observed proportions" : "equally over their levels"}.
@@ -106,6 +110,7 @@ export function AdjustedMeansTable({ rows, weighting }: { rows: readonly Mean[];
         ))}
       </tbody>
     </table>
+    </TableScroll>
   );
 }
 
@@ -137,6 +142,7 @@ export function ContrastsTable({ rows, kind = "linear", plan }: { rows: readonly
   const against = plan?.contrastSet === "pairwise" ? "between every pair of arms" : "against the reference arm";
   const adjusted = plan && plan.multiplicity !== "none" ? MULTIPLICITY_WORDS[plan.multiplicity] : null;
   return (
+    <TableScroll label="Treatment contrasts">
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         {kind === "linear"
@@ -199,6 +205,7 @@ export function ContrastsTable({ rows, kind = "linear", plan }: { rows: readonly
         ))}
       </tbody>
     </table>
+    </TableScroll>
   );
 }
 
@@ -213,6 +220,7 @@ interface MarginalMean {
 
 export function MarginalMeansTable({ rows, family }: { rows: readonly MarginalMean[]; family: string }) {
   return (
+    <TableScroll label="Standardized means by arm">
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         Standardized {family === "binomial" ? "risk" : "expected count"} per arm: every subject's prediction under each arm, averaged over the rows used.
@@ -246,6 +254,7 @@ export function MarginalMeansTable({ rows, family }: { rows: readonly MarginalMe
         ))}
       </tbody>
     </table>
+    </TableScroll>
   );
 }
 
@@ -262,6 +271,7 @@ interface CalibrationGroup {
  */
 export function CalibrationTable({ groups }: { groups: readonly CalibrationGroup[] }) {
   return (
+    <TableScroll label="Calibration groups">
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         Subjects in {groups.length} groups of equal size by predicted risk, lowest risk first: does the model expect as many events as happened in each group?
@@ -301,6 +311,7 @@ export function CalibrationTable({ groups }: { groups: readonly CalibrationGroup
         ))}
       </tbody>
     </table>
+    </TableScroll>
   );
 }
 
@@ -315,6 +326,7 @@ interface Ratio {
 
 export function RatioTable({ rows, ratioName }: { rows: readonly Ratio[]; ratioName: string }) {
   return (
+    <TableScroll label={`${ratioName[0].toUpperCase()}${ratioName.slice(1)}s`}>
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">
         {ratioName[0].toUpperCase() + ratioName.slice(1)}s (conditional on the covariates) with Wald and profile-likelihood 95% intervals.
@@ -344,6 +356,7 @@ export function RatioTable({ rows, ratioName }: { rows: readonly Ratio[]; ratioN
         ))}
       </tbody>
     </table>
+    </TableScroll>
   );
 }
 
@@ -395,7 +408,7 @@ export function CheckCard({ check, figure }: { check: CheckCardData; figure?: Re
         <StatusLabel status={o.status} word={o.word} />
       </header>
       <div className="grid gap-4 p-4 lg:grid-cols-[minmax(0,18rem)_1fr]">
-        <div className="space-y-2 text-sm">
+        <div className="min-w-0 space-y-2 text-sm">
           <dl className="grid grid-cols-[6rem_1fr] gap-x-2 gap-y-1">
             <dt className="font-semibold text-ink-soft">Statistic</dt>
             <dd className="num">{check.statistic}</dd>
@@ -405,6 +418,7 @@ export function CheckCard({ check, figure }: { check: CheckCardData; figure?: Re
           <p>{check.summary}</p>
           {check.formula ? <CheckFormulaNote formula={check.formula} /> : null}
           {check.flagged.length > 0 ? (
+            <TableScroll label={`Flagged subjects, ${check.label}`}>
             <table className="data-table">
               <caption className="text-left text-xs text-ink-soft">
                 Most extreme {check.flagged.length} of {check.flaggedCount} flagged
@@ -428,6 +442,7 @@ export function CheckCard({ check, figure }: { check: CheckCardData; figure?: Re
                 ))}
               </tbody>
             </table>
+            </TableScroll>
           ) : null}
           <p className="text-xs text-ink-soft">
             <span className="font-semibold">Planned remedy:</span> {check.remedy}
@@ -454,6 +469,7 @@ export function SensitivityTable({ analyses, hrefOf }: { analyses: readonly Comp
   const name = (a: ComparedAnalysis) => (hrefOf ? <Link to={hrefOf(a.id)}>{a.label}</Link> : a.label);
   const tag = (a: ComparedAnalysis) => (a.primary ? " (primary)" : a.prespecified ? " (planned)" : " (not pre-specified)");
   return (
+    <TableScroll label="Treatment contrast across analyses">
     <table className="data-table">
       <caption className="mb-1 text-left text-xs text-ink-soft">The treatment contrast across analyses (HC3 intervals for the robust-errors analysis of a linear model, sandwich intervals for a Cox model clustered by subject; hazard ratios and restricted mean differences as labelled).</caption>
       <thead>
@@ -504,5 +520,6 @@ export function SensitivityTable({ analyses, hrefOf }: { analyses: readonly Comp
         )}
       </tbody>
     </table>
+    </TableScroll>
   );
 }

@@ -7,6 +7,7 @@ import type { GlmResult } from "./glm/glm-model";
 import type { LinearModelResult } from "./linear-model";
 import { INTERCEPT_NAME } from "./coefficient-names";
 import { COX_CHECKS } from "./survival/cox-check-catalogue";
+import { checkApplies } from "./family-applicability";
 
 type ModelResult = LinearModelResult | GlmResult;
 
@@ -257,8 +258,7 @@ export interface PlannedCheck {
 
 /** The checks a new planned model starts with: every check that applies to its kind of model. */
 export function defaultChecks(hasTreatment: boolean, family = "gaussian"): PlannedCheck[] {
-  const kind = family === "gaussian" ? "linear" : family === "cox" ? "cox" : "glm";
-  return CHECKS.filter((c) => (hasTreatment || !c.needsTreatment) && ((c.models === "both" && kind !== "cox") || c.models === kind)).map((c) => ({
+  return CHECKS.filter((c) => checkApplies(c, family, hasTreatment)).map((c) => ({
     key: c.key,
     enabled: true,
     threshold: c.defaultThreshold,
@@ -494,6 +494,8 @@ export function evaluateChecks(r: ModelResult, planned: readonly PlannedCheck[])
     if (!def) continue;
     const k = pc.threshold;
     if (def.models === "cox") continue;
+    // a check the family cannot have (overdispersion of a 0/1 response) is not offered, so not evaluated
+    if (def.models === r.kind && !checkApplies(def, r.spec.family)) continue;
     if (def.models !== "both" && def.models !== r.kind) {
       out.push(notApplicable(def, pc, r.kind));
       continue;

@@ -1,9 +1,9 @@
-import { data, Form } from "react-router";
-import { z } from "zod";
+import { Form, Link } from "react-router";
 import type { Route } from "./+types/admin.audit";
 import { PageHeader } from "~/components/page";
 import { StatusLabel } from "~/components/status";
-import { auditKeySource, listAuditEvents, verifyAuditChain } from "~/.server/audit.server";
+import { auditKeySource, verifyAuditChain } from "~/.server/audit.server";
+import { AUDIT_PAGE_SIZES, auditPage, readAuditQuery } from "~/.server/audit-trail.server";
 import { requireAdmin } from "~/.server/permissions.server";
 import { listStudiesFor } from "~/.server/studies.server";
 
@@ -11,35 +11,78 @@ export function meta() {
   return [{ title: "Audit trail · Plumbline" }];
 }
 
-const Filter = z.object({
-  study: z.string().max(80, "The study filter names no study; choose one from the list.").optional(),
-  action: z.string().trim().max(60, "“Action starts with” takes at most 60 characters.").optional(),
-  actor: z.string().trim().max(120, "“Who” takes at most 120 characters.").optional(),
-  from: z.string().regex(/^\d{4}-\d{2}-\d{2}$/).optional().catch(undefined),
-  to: z.string().regex(/^\d{4}-\d{2}-\d{2}$/).optional().catch(undefined),
-});
-
 export async function loader({ request }: Route.LoaderArgs) {
   const admin = await requireAdmin(request, "audit.read");
-  const params = Object.fromEntries(new URL(request.url).searchParams);
-  const parsed = Filter.safeParse(Object.fromEntries(Object.entries(params).filter(([, v]) => v !== "")));
-  if (!parsed.success) {
-    throw data({ message: `The audit filter was not applied: ${parsed.error.issues.map((i) => i.message).join(" ")} Shorten it and filter again.` }, { status: 400 });
-  }
-  const filter = parsed.data;
-  const [events, verdict, studies] = await Promise.all([
-    listAuditEvents({ studyId: filter.study, action: filter.action, actor: filter.actor, from: filter.from, to: filter.to, limit: 500 }),
-    verifyAuditChain(),
-    listStudiesFor(admin),
-  ]);
+  const query = readAuditQuery(new URL(request.url));
+  const [{ events, paging }, verdict, studies] = await Promise.all([auditPage(query), verifyAuditChain(), listStudiesFor(admin)]);
   const codeOf = new Map(studies.map((s) => [s.id, s.code]));
+  const { page: _page, size: _size, ...filter } = query;
   return {
     filter,
+    paging,
+    sizes: [...AUDIT_PAGE_SIZES],
     verdict,
     keySource: auditKeySource,
     studies: studies.map((s) => ({ id: s.id, code: s.code })),
     events: events.map((e) => ({ ...e, studyCode: e.studyId ? (codeOf.get(e.studyId) ?? e.studyId) : null })),
   };
+}
+
+/** The query string of the page with these filters, page and size (empty values left out). */
+function hrefOf(filter: Record<string, string | undefined>, extra: Record<string, string | number>, path = "/admin/audit"): string {
+  const params = new URLSearchParams();
+  for (const [k, v] of Object.entries({ ...filter, ...extra })) if (v !== undefined && v !== "") params.set(k, String(v));
+  const qs = params.toString();
+  return qs ? `${path}?${qs}` : path;
+}
+
+/** Links to the first, previous, next and last page, and the page size; the current page is marked for assistive technology. */
+function Pager({ filter, paging, sizes, position }: { filter: Record<string, string | undefined>; sizes: number[]; paging: { page: number; pages: number; size: number; total: number; first: number; last: number }; position: "top" | "bottom" }) {
+  const { page, pages, size } = paging;
+  const link = (to: number, label: string, rel?: string) =>
+    to < 1 || to > pages || to === page ? (
+      <span className="px-2 py-1 text-ink-soft" aria-disabled="true">
+        {label}
+      </span>
+    ) : (
+      <Link to={hrefOf(filter, { page: to, size })} rel={rel} className="px-2 py-1">
+        {label}
+      </Link>
+    );
+  return (
+    <nav aria-label={`Audit trail pages${position === "bottom" ? " (end of the list)" : ""}`} className="my-3 flex flex-wrap items-center justify-between gap-3 text-sm">
+      <p className="num" aria-live={position === "top" ? "polite" : undefined}>
+        {`${paging.total === 0 ? "No events" : `Events ${paging.first}–${paging.last} of ${paging.total}`} · page ${page} of ${pages}`}
+      </p>
+      <ul className="flex flex-wrap items-center gap-1">
+        <li>{link(1, "First")}</li>
+        <li>{link(page - 1, "Previous", "prev")}</li>
+        <li>
+          <span aria-current="page" className="num px-2 py-1 font-semibold">
+            {page}
+          </span>
+        </li>
+        <li>{link(page + 1, "Next", "next")}</li>
+        <li>{link(pages, "Last")}</li>
+      </ul>
+      {position === "top" ? (
+        <p className="flex items-center gap-1">
+          <span className="text-ink-soft">Per page:</span>
+          {sizes.map((n) =>
+            n === size ? (
+              <span key={n} aria-current="true" className="num px-1 font-semibold">
+                {n}
+              </span>
+            ) : (
+              <Link key={n} to={hrefOf(filter, { size: n })} className="num px-1" aria-label={`${n} events per page`}>
+                {n}
+              </Link>
+            ),
+          )}
+        </p>
+      ) : null}
+    </nav>
+  );
 }
 
 /** `key: value` pairs of a recorded JSON object, each value cut to a readable length. */
@@ -62,7 +105,7 @@ function change(before: string | null, after: string | null): string {
 }
 
 export default function AuditTrail({ loaderData }: Route.ComponentProps) {
-  const { filter, verdict, events, studies, keySource } = loaderData;
+  const { filter, verdict, events, studies, keySource, paging, sizes } = loaderData;
   return (
     <main>
       <PageHeader eyebrow="Administration" title="Audit trail" />
@@ -149,11 +192,17 @@ export default function AuditTrail({ loaderData }: Route.ComponentProps) {
           </label>
           <input id="f-to" name="to" type="date" defaultValue={filter.to ?? ""} className="field w-40" />
         </div>
+        {paging.size !== sizes[0] ? <input type="hidden" name="size" value={paging.size} /> : null}
         <button type="submit" className="btn-quiet">
           Filter
         </button>
+        {/* a plain link: the export is a file download, audited on the server */}
+        <a href={hrefOf(filter, {}, "/admin/audit/export.csv")} className="btn-quiet no-underline hover:no-underline" download>
+          Export as CSV ({paging.total} events, with chain hashes)
+        </a>
       </Form>
-      <div className="overflow-x-auto">
+      <Pager filter={filter} paging={paging} sizes={sizes} position="top" />
+      <div className="overflow-x-auto" role="region" aria-label="Audit events" tabIndex={0}>
         <table className="data-table panel">
           <thead>
             <tr>
@@ -195,6 +244,7 @@ export default function AuditTrail({ loaderData }: Route.ComponentProps) {
           </tbody>
         </table>
       </div>
+      {paging.pages > 1 ? <Pager filter={filter} paging={paging} sizes={sizes} position="bottom" /> : null}
     </main>
   );
 }

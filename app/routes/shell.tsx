@@ -17,11 +17,11 @@ export default function Shell({ loaderData }: Route.ComponentProps) {
   return (
     <div className="flex min-h-screen flex-col">
       <header className="border-b border-rule bg-sheet">
-        <div className="mx-auto flex max-w-7xl items-center gap-6 px-6 py-2.5">
+        <div className="mx-auto flex max-w-7xl flex-wrap items-center gap-x-6 gap-y-2 px-6 py-2.5">
           <NavLink to="/" className="no-underline hover:no-underline" aria-label="Plumbline: your studies">
             <Logo />
           </NavLink>
-          <nav aria-label="Main" className="flex items-center gap-1">
+          <nav aria-label="Main" className="flex flex-wrap items-center gap-1">
             <NavLink to="/" end className={topLink}>
               Studies
             </NavLink>

@@ -12,6 +12,7 @@ import { renderFigure } from "~/.server/appendix/figures.server";
 import { NarrativeInput, narrativeHistory, saveNarrative } from "~/.server/appendix/narratives.server";
 import { getPlanVersion } from "~/.server/plans/plans.server";
 import { requireStudy } from "~/.server/study-access.server";
+import { TableScroll } from "~/components/table-scroll";
 
 export function meta({ loaderData }: Route.MetaArgs) {
   return [{ title: `Appendix · ${loaderData?.code ?? "Study"} · Plumbline` }];
@@ -78,7 +79,7 @@ function PreviewBlock({ b, images }: { b: Block; images: Record<string, string> 
     case "heading":
       return <h3 className="mt-4 text-base font-semibold">{b.text}</h3>;
     case "paragraph":
-      return <p className="max-w-prose">{b.text}</p>;
+      return <p className="max-w-prose [overflow-wrap:anywhere]">{b.text}</p>;
     case "bullets":
       return (
         <ul className="max-w-prose list-disc space-y-1 pl-5">
@@ -109,7 +110,7 @@ function PreviewBlock({ b, images }: { b: Block; images: Record<string, string> 
       );
     case "table":
       return (
-        <div className="overflow-x-auto">
+        <TableScroll label={`Table ${b.number}`}>
           <table className="data-table" data-table-key={b.key}>
             <caption className="mb-1 text-left text-sm">
               <span className="font-semibold">Table {b.number}.</span> {b.caption}
@@ -127,7 +128,7 @@ function PreviewBlock({ b, images }: { b: Block; images: Record<string, string> 
               {b.rows.map((r, i) => (
                 <tr key={i}>
                   {r.map((v, j) => (
-                    <td key={j} className={b.columns[j]?.numeric ? "num whitespace-nowrap text-right" : ""}>
+                    <td key={j} className={b.columns[j]?.numeric ? "num whitespace-nowrap text-right" : b.columns[j]?.prose ? "min-w-64" : ""}>
                       {v}
                     </td>
                   ))}
@@ -136,7 +137,7 @@ function PreviewBlock({ b, images }: { b: Block; images: Record<string, string> 
             </tbody>
           </table>
           {b.note ? <p className="mt-1 text-xs text-ink-soft">{b.note}</p> : null}
-        </div>
+        </TableScroll>
       );
     case "figure":
       return (
@@ -188,6 +189,7 @@ function Preview({ content, images, narratives, canNarrate, result, busy }: { co
         <p className="text-xs font-semibold uppercase tracking-wide text-accent">{tp.studyCode}</p>
         <h2 className="text-xl">{content.title}</h2>
         <p className="text-sm text-ink-soft">{tp.studyTitle}</p>
+        <TableScroll label="Facts of the appendix">
         <table className="data-table">
           <tbody>
             {tp.facts.map((f) => (
@@ -200,6 +202,7 @@ function Preview({ content, images, narratives, canNarrate, result, busy }: { co
             ))}
           </tbody>
         </table>
+        </TableScroll>
       </section>
       {content.sections.map((s) => (
         <section key={s.key} className="space-y-3 text-sm" data-section={s.key}>
@@ -287,6 +290,7 @@ export default function Page({ loaderData, actionData }: Route.ComponentProps) {
             {exports.length === 0 ? (
               <p className="text-sm text-ink-soft">No export yet.</p>
             ) : (
+              <TableScroll label="Previous exports">
               <table className="data-table panel">
                 <thead>
                   <tr>
@@ -315,6 +319,7 @@ export default function Page({ loaderData, actionData }: Route.ComponentProps) {
                   ))}
                 </tbody>
               </table>
+              </TableScroll>
             )}
           </section>
 

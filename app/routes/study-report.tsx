@@ -10,6 +10,7 @@ import { PageHeader } from "~/components/page";
 import { AdjustedMeansTable, CheckFormulaNote, checkTally, CoefficientTable, ContrastsTable, SensitivityTable } from "~/components/rerun-results";
 import { ReproductionCard } from "~/components/reproduction-results";
 import { StatusLabel } from "~/components/status";
+import { TableScroll } from "~/components/table-scroll";
 import { getReport } from "~/.server/reports/reports.server";
 import { ReportFigures } from "~/components/figures/report-figures";
 import { requireStudy } from "~/.server/study-access.server";
@@ -143,7 +144,8 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
           <p className="text-sm text-ink-soft">
             {checkTally([...checks, ...(reproduction ? [{ outcome: reproduction.checkOutcome }] : [])])}. Subjects are named by rank only.
           </p>
-          <div className="panel overflow-x-auto p-4">
+          <div className="panel p-4">
+            <TableScroll label="Checks of the plan">
             <table className="data-table">
               <caption className="mb-1 text-left text-xs text-ink-soft">Each check the plan commits to, with its statistic, the threshold as applied and its outcome.</caption>
               <thead>
@@ -186,6 +188,7 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
                 ))}
               </tbody>
             </table>
+            </TableScroll>
           </div>
           {reproduction ? <ReproductionCard check={reproduction} /> : null}
         </section>

@@ -21,15 +21,16 @@ import { loadLockedTable } from "~/.server/datasets/catalog.server";
 import { actorOf } from "~/.server/people.server";
 import { exclusionProblem, keptWhatIfInputs, rerunTable } from "~/.server/reruns/what-if.server";
 import { getPlannedModel } from "~/.server/plans/plans.server";
-import { SENSITIVITY_KINDS, SENSITIVITY_LABELS, type PlannedSensitivity } from "~/.server/plans/planned-model";
+import { SENSITIVITY_KINDS, SENSITIVITY_LABELS } from "~/.server/plans/planned-model";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
 import { Assessment, assessFinding, canSign, FindingConflict, findingsOf, recordDeviation, signaturesOf, signRerun } from "~/.server/reruns/findings.server";
 import type { FigureKey } from "~/engine/checks";
 import { describeOptions, type RerunOptions } from "~/.server/reruns/rerun-options";
+import { optionsFor } from "~/.server/reruns/planned-sensitivity";
 import { reportedContrasts, rerunView } from "~/.server/reruns/rerun-view.server";
 import { seesSubjects } from "~/.server/permissions.server";
 import { redactionFor } from "~/.server/redaction.server";
-import { getRerun, rerunDocumentOf, sameInputReruns, sensitivityReruns, startRerun, type RerunDocument } from "~/.server/reruns/reruns.server";
+import { getRerun, rerunDocumentOf, sameInputReruns, sensitivityReruns, startRerun } from "~/.server/reruns/reruns.server";
 import { requireStudy } from "~/.server/study-access.server";
 import { reauthenticationPath, reauthNotice, SIGNATURE_MEANINGS } from "~/.server/signatures.server";
 import { ReauthNotice, SigningExplainer } from "~/components/signing";
@@ -38,31 +39,6 @@ import { TreatmentEffectNote } from "~/components/treatment-effect";
 
 export function meta({ loaderData }: Route.MetaArgs) {
   return [{ title: `Rerun ${loaderData?.model.key ?? ""} · ${loaderData?.code ?? ""} · Plumbline` }];
-}
-
-/** The options of a planned sensitivity analysis, given the primary rerun's result. */
-function optionsFor(s: PlannedSensitivity, primary: RerunDocument | null): RerunOptions | null {
-  switch (s.kind) {
-    case "robust_hc3":
-      return { variant: "robust_hc3" };
-    case "variance_function":
-      return { variant: "variance_function", varianceBy: s.varianceBy ?? "fitted" };
-    case "alternative_covariates":
-      return { variant: "alternative_covariates", covariates: s.covariates ?? [], label: s.label ?? "Alternative covariate set" };
-    case "exclude_influential": {
-      const rows = primary?.checks.find((c) => c.key === "cooks_distance")?.flagged?.map((f) => f.row) ?? [];
-      return rows.length ? { variant: "exclude_rows", rows: [...rows].sort((a, b) => a - b), reason: "flagged by the Cook's distance check" } : null;
-    }
-    case "quasi_poisson":
-      return { variant: "family", family: "quasipoisson" };
-    case "negative_binomial":
-      return { variant: "family", family: "negative-binomial" };
-    case "cox_robust_subject":
-    case "cox_unstratified":
-      return { variant: s.kind };
-    case "cox_rmst":
-      return s.tau ? { variant: "cox_rmst", tau: s.tau } : null;
-  }
 }
 
 export async function loader({ request, params }: Route.LoaderArgs) {
@@ -93,8 +69,10 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const plannedSensitivity = planned.sensitivity.map((s) => {
     const options = optionsFor(s, r.doc);
     const label = options ? (s.kind === "alternative_covariates" ? `${s.label}: ${(s.covariates ?? []).join(", ")}` : options.variant === "cox_rmst" ? describeOptions(options) : SENSITIVITY_LABELS[s.kind]) : SENSITIVITY_LABELS[s.kind];
-    const done = options ? children.some((c) => c.optionsJson === canonicalJson(options)) : false;
-    return { kind: s.kind, label, runnable: Boolean(options) && r.rerun.status === "completed" && !r.rerun.signedAt, done, note: options ? null : "No subject was flagged, so there is nothing to exclude." };
+    // queued with the primary when it completed (reruns.server.ts); the newest run of these options shows its progress
+    const child = options ? children.filter((c) => c.optionsJson === canonicalJson(options)).at(-1) : undefined;
+    const note = options ? null : s.kind === "exclude_influential" ? "No subject was flagged, so there is nothing to exclude." : "Nothing to run for this analysis.";
+    return { kind: s.kind, label, runnable: Boolean(options) && r.rerun.status === "completed" && !r.rerun.signedAt, done: Boolean(child), status: child?.status ?? null, childId: child?.id ?? null, note };
   });
   let whatIf: WhatIfInputs = { available: false, reason: "The what-if opens when the rerun has completed.", caution: CAUTION };
   if (r.doc && r.rerun.kind === "primary" && allowed.has("rerun.start") && !r.rerun.signedAt) {
@@ -179,6 +157,9 @@ export async function action({ request, params }: Route.ActionArgs): Promise<Act
         const s = planned.sensitivity.find((x) => x.kind === input.kind);
         const options = s ? optionsFor(s, r.doc) : null;
         if (!options) return { error: "That sensitivity analysis is not in the plan for this model, or there is nothing to run.", fieldErrors: {} };
+        // queued with the primary when it completed: run again only one that failed
+        const same = (await sensitivityReruns(primaryId)).filter((c) => c.optionsJson === canonicalJson(options) && c.status !== "failed");
+        if (same.length > 0) return { error: "That sensitivity analysis has already run, or is running, for this rerun.", fieldErrors: {} };
         await startRerun(actor, study.id, { plannedModelId: r.rerun.plannedModelId, datasetVersionId: r.rerun.datasetVersionId, options, parentRerunId: primaryId, prespecified: true });
         return { error: null, fieldErrors: {} };
       }
@@ -297,13 +278,15 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
   const revalidator = useRevalidator();
   const busy = navigation.state !== "idle";
   const running = rerun.status === "queued" || rerun.status === "running";
+  // the planned sensitivity analyses run after the primary: keep polling while any of them is under way
+  const sensitivityRunning = loaderData.plannedSensitivity.some((s) => s.status === "queued" || s.status === "running");
   useEffect(() => {
-    if (!running) return;
+    if (!running && !sensitivityRunning) return;
     const timer = setInterval(() => {
       if (revalidator.state === "idle") void revalidator.revalidate();
-    }, 500);
+    }, running ? 500 : 1000);
     return () => clearInterval(timer);
-  }, [running, revalidator]);
+  }, [running, sensitivityRunning, revalidator]);
   const errorsFor = (target: string) => (actionData && "target" in actionData && actionData.target === target ? actionData.fieldErrors : {});
   const open = findings.filter((f) => !f.assessment).length;
   const status = STATUS[rerun.status];
@@ -437,7 +420,7 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
             <h2 id="coef-h" className="mb-2">
               Coefficients
             </h2>
-            <CoefficientTable rows={view.coefficients} covarianceType={view.kind === "linear" ? view.covarianceType : "model"} df={view.dfResidual} statisticName={view.statisticName} />
+            <CoefficientTable rows={view.coefficients} covarianceType={view.covarianceType} df={view.dfResidual} statisticName={view.statisticName} />
             {view.kind === "glm" && view.ratios && view.ratioName ? (
               <div className="mt-4">
                 <RatioTable rows={view.ratios} ratioName={view.ratioName} />
@@ -540,15 +523,20 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
         <section className="mt-8 space-y-3" aria-labelledby="sens-h">
           <h2 id="sens-h">Sensitivity analyses</h2>
           <div className="panel p-4">
-            <ul className="space-y-2 text-sm">
+            {loaderData.plannedSensitivity.length > 0 ? (
+              <p className="mb-2 text-xs text-ink-soft">The plan's sensitivity analyses run by themselves once the primary analysis has completed, each as a rerun of its own.</p>
+            ) : null}
+            <ul className="space-y-2 text-sm" aria-live="polite">
               {loaderData.plannedSensitivity.map((s) => (
                 <li key={s.kind} className="flex flex-wrap items-center justify-between gap-2">
                   <span>
-                    {s.label} <span className="text-xs text-ink-soft">(planned)</span>
+                    {s.childId ? <Link to={`/studies/${studyId}/reruns/${s.childId}`}>{s.label}</Link> : s.label} <span className="text-xs text-ink-soft">(planned)</span>
                     {s.note ? <span className="block text-xs text-ink-soft">{s.note}</span> : null}
                   </span>
-                  {s.done ? (
-                    <StatusLabel status="within" word="Run" />
+                  {s.status && !(s.status === "failed" && can.start && s.runnable) ? (
+                    <StatusLabel status={STATUS[s.status].status} word={STATUS[s.status].word} />
+                  ) : running ? (
+                    <StatusLabel status="pending" word="Runs after the primary" />
                   ) : can.start && s.runnable ? (
                     <Form method="post">
                       <input type="hidden" name="intent" value="sensitivity" />

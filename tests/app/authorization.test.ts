@@ -45,6 +45,7 @@ const MATRIX: { file: string; path: string; expect: Outcome[]; resource?: true }
   { file: "admin.studies.tsx", path: "/admin/studies", expect: ["in", 200, 403, 403, 403, 403] },
   { file: "admin.people.tsx", path: "/admin/people", expect: ["in", 200, 403, 403, 403, 403] },
   { file: "admin.audit.tsx", path: "/admin/audit", expect: ["in", 200, 403, 403, 403, 403] },
+  { file: "admin.audit-export.ts", path: "/admin/audit/export.csv", expect: ["in", 200, 403, 403, 403, 403], resource: true },
   { file: "admin.outbox.tsx", path: "/admin/outbox", expect: ["in", 200, 403, 403, 403, 403] },
   { file: "profile.tsx", path: "/profile", expect: ["in", 200, 200, 200, 200, 200] },
   { file: "admin.api-clients.tsx", path: "/admin/api-clients", expect: ["in", 200, 403, 403, 403, 403] },

@@ -64,7 +64,7 @@ export async function ensurePublishedRerun(stack: Stack): Promise<{ studyId: str
     if (Date.now() > deadline) throw new Error(`Rerun ${rerunId} did not complete within 60 s.`);
     await new Promise((r) => setTimeout(r, 250));
   }
-  await post(stack, priya, `${base}/reruns/${rerunId}`, [["intent", "sensitivity"], ["kind", "robust_hc3"]]);
+  // the planned robust-errors analysis is queued by itself once the primary has completed
   while ((await one(stack, "SELECT count(*) FROM reruns WHERE parent_rerun_id = ? AND status = 'completed'", [rerunId])) !== "1") {
     if (Date.now() > deadline) throw new Error(`The robust-errors analysis of rerun ${rerunId} did not complete within 60 s.`);
     await new Promise((r) => setTimeout(r, 250));

@@ -60,15 +60,9 @@ export async function makeSignedRerun(): Promise<SignedRerun> {
   await drain();
   const primary = await reruns.getRerun(studyId, rerunId);
   if (primary.rerun.status !== "completed" || !primary.doc) throw new Error(`The primary rerun did not complete: ${primary.rerun.failureReason}`);
-  const flagged = (primary.doc.checks.find((c) => c.key === "cooks_distance")?.flagged ?? []).map((f) => f.row).sort((a, b) => a - b);
-  const variants = [
-    { variant: "robust_hc3" as const },
-    { variant: "variance_function" as const, varianceBy: "treatment" as const },
-    ...(flagged.length ? [{ variant: "exclude_rows" as const, rows: flagged, reason: "flagged by the Cook's distance check" }] : []),
-  ];
-  const sensitivityIds: string[] = [];
-  for (const options of variants) sensitivityIds.push(await reruns.startRerun(people.priya, studyId, { plannedModelId, datasetVersionId, options, parentRerunId: rerunId, prespecified: true }));
-  await drain();
+  // the plan's sensitivity analyses were queued when the primary completed, and ran in the same drain
+  const sensitivityIds = (await reruns.sensitivityReruns(rerunId)).map((r) => r.id);
+  if (sensitivityIds.length === 0) throw new Error("The planned sensitivity analyses were not queued with the primary rerun.");
   for (const f of await findings.findingsOf(rerunId)) {
     await findings.assessFinding(people.priya, studyId, f.id, { category: "model_assumption", impact: "none", action: "planned_sensitivity", rationale: "The planned sensitivity analyses leave the treatment conclusion unchanged." });
   }

@@ -170,6 +170,11 @@ function sensitivityHeading(labels: readonly string[]): string {
 }
 
 /** Builds the whole appendix. `narratives` defaults to the current stored version of each section. */
+/** Category, impact on the treatment conclusion and action taken, in one cell of the deviation log. */
+function assessmentWords(category: keyof typeof CATEGORIES, impact: keyof typeof IMPACTS, action: string): string {
+  return `${CATEGORIES[category]}; impact: ${IMPACTS[impact].toLowerCase()}; action: ${(ACTIONS[action as keyof typeof ACTIONS] ?? action).toLowerCase()}`;
+}
+
 export async function buildAppendixContent(studyId: string, scope: AppendixScope, narratives?: Map<NarrativeSection, Narrative>): Promise<AppendixContent> {
   const study = await getStudyOr404(studyId);
   const { planVersionId, rerunIds } = await signedRerunIds(study.id, scope);
@@ -277,13 +282,15 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
         key: `adjusted-means:${p.rerunId}`,
         number: next.table(),
         caption: `Adjusted means of ${r.spec.response} by arm, ${p.modelTitle}`,
-        columns: [{ label: "Arm" }, { label: "Adjusted mean", numeric: true }, { label: "SE", numeric: true }, { label: "95% CI", numeric: true }],
-        rows: r.adjustedMeans.map((m) => [m.level, fmt(m.estimate), fmt(m.se), fmtCi(m.lower, m.upper)]),
-        note: `Covariates at their mean; categorical covariates weighted ${r.adjustedMeansWeighting === "proportional" ? "in proportion to their frequencies" : "equally"}.`,
+        columns: [{ label: "Arm" }, { label: "Adjusted mean", numeric: true }, { label: "SE", numeric: true }, { label: "95% CI", numeric: true }, { label: "HC3 95% CI", numeric: true }],
+        rows: r.adjustedMeans.map((m) => [m.level, fmt(m.estimate), fmt(m.se), fmtCi(m.lower, m.upper), fmtCi(m.hc3.lower, m.hc3.upper)]),
+        note: `Covariates at their mean; categorical covariates weighted ${r.adjustedMeansWeighting === "proportional" ? "in proportion to their frequencies" : "equally"}. HC3: heteroscedasticity-consistent (sandwich) standard errors.`,
       });
     }
     const contrasts = contrastsOf(p.doc);
     const effect = treatmentEffectOf(p.doc);
+    // named as on the results page: HC3 for a linear model, the robust (Ye et al.) variance for a GLM's marginal contrasts
+    const robust = r.kind === "linear" ? "HC3" : "Robust";
     if (contrasts.length) {
       const adjusted = effect.multiplicity !== "none" ? MULTIPLICITY_WORDS[effect.multiplicity] : null;
       results.push({
@@ -299,12 +306,29 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
           { label: r.kind === "linear" ? "t" : "z", numeric: true },
           { label: "p", numeric: true },
           ...(adjusted ? [{ label: `p adjusted (${adjusted})`, numeric: true }] : []),
+          { label: `${robust} SE`, numeric: true },
+          { label: `${robust} 95% CI`, numeric: true },
+          { label: `${robust} p`, numeric: true },
         ],
-        rows: contrasts.map((c) => [c.label, fmt(c.estimate), `${fmt(c.se)}${c.seScale === "log" ? " (log)" : ""}`, fmtCi(c.lower, c.upper), fmt(c.statistic), fmtP(c.p), ...(adjusted ? [fmtP(c.pAdjusted)] : [])]),
+        rows: contrasts.map((c) => [c.label, fmt(c.estimate), `${fmt(c.se)}${c.seScale === "log" ? " (log)" : ""}`, fmtCi(c.lower, c.upper), fmt(c.statistic), fmtP(c.p), ...(adjusted ? [fmtP(c.pAdjusted)] : []), c.hc3 ? fmt(c.hc3.se) : "—", c.hc3 ? fmtCi(c.hc3.lower, c.hc3.upper) : "does not apply", c.hc3 ? fmtP(c.hc3.p) : "—"]),
         note:
-          (r.kind === "linear" ? "Differences in adjusted means with model-based standard errors." : "Marginal (standardized) contrasts. A ratio's SE, marked (log), and its statistic are those of the log ratio; its estimate and interval are ratios, the interval computed on the log scale.") +
+          (r.kind === "linear"
+            ? "Differences in adjusted means with model-based and HC3 heteroscedasticity-consistent (sandwich) standard errors."
+            : "Marginal (standardized) contrasts with delta-method standard errors (Ge et al. 2011) and the robust standard errors valid under misspecification (Ye et al. 2023). A ratio's SE, marked (log), and its statistic are those of the log ratio; its estimate and interval are ratios, the interval computed on the log scale.") +
           (adjusted ? ` p-values adjusted for multiplicity by the ${adjusted} method${r.kind === "glm" ? " within each measure" : ""}.` : " p-values not adjusted for multiplicity.") +
           (effect.test ? ` ${treatmentTestWords(effect.test)}` : ""),
+      });
+    }
+    if (r.kind === "glm" && r.ratios && r.ratioName) {
+      const ratioName = r.ratioName;
+      results.push({
+        kind: "table",
+        key: `ratios:${p.rerunId}`,
+        number: next.table(),
+        caption: `${ratioName[0].toUpperCase()}${ratioName.slice(1)}s conditional on the covariates, ${p.modelTitle}`,
+        columns: [{ label: "Coefficient" }, { label: ratioName[0].toUpperCase() + ratioName.slice(1), numeric: true }, { label: "Wald 95% CI", numeric: true }, { label: "Profile 95% CI", numeric: true }],
+        rows: r.ratios.map((x) => [x.name, fmt(x.ratio), fmtCi(x.lower, x.upper), x.profileLower == null || x.profileUpper == null ? "—" : fmtCi(x.profileLower, x.profileUpper)]),
+        note: "Exponentiated coefficients with Wald and profile-likelihood 95% intervals; each holds the other covariates fixed, unlike the marginal contrasts above.",
       });
     }
   }
@@ -341,18 +365,14 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
         CHECK_BY_KEY.get(f.checkKey as never)?.label ?? (f.kind === "not_estimable" ? "Estimability" : f.checkKey === "reproduction" ? REPRODUCTION_FINDING_LABEL : f.checkKey),
         // the Check column names the check: the finding says what it found, without the label again
         p.redact.countOnly(summaryAfterLabel(CHECK_BY_KEY.get(f.checkKey as never)?.label ?? "", f.summary)),
-        f.assessment ? CATEGORIES[f.assessment.category] : "Not assessed",
-        f.assessment ? IMPACTS[f.assessment.impact] : "—",
-        f.assessment ? (ACTIONS[f.assessment.action as keyof typeof ACTIONS] ?? f.assessment.action) : "—",
+        f.assessment ? assessmentWords(f.assessment.category, f.assessment.impact, f.assessment.action) : "Not assessed",
         f.assessment ? p.redact.text(f.assessment.rationale, f.checkKey) : "—",
         f.assessment ? `${f.assessment.recordedByName ?? "unknown"}, ${utc(f.assessment.recordedAt)}` : "—",
       ]),
       ...p.otherDeviations.map((d) => [
         "Recorded deviation",
         "No check produced this deviation.",
-        CATEGORIES[d.category],
-        IMPACTS[d.impact],
-        ACTIONS[d.action as keyof typeof ACTIONS] ?? d.action,
+        assessmentWords(d.category, d.impact, d.action),
         p.redact.text(d.rationale),
         `${d.recordedByName ?? "unknown"}, ${utc(d.recordedAt)}`,
       ]),
@@ -365,8 +385,9 @@ export async function buildAppendixContent(studyId: string, scope: AppendixScope
         key: `deviations:${p.rerunId}`,
         number: next.table(),
         caption: `Deviation log with assessments, ${p.modelTitle}`,
-        columns: [{ label: "Check" }, { label: "Finding" }, { label: "Category" }, { label: "Impact on the treatment conclusion" }, { label: "Action taken" }, { label: "Rationale" }, { label: "Assessed by" }],
+        columns: [{ label: "Check" }, { label: "Finding", prose: true }, { label: "Assessment" }, { label: "Rationale", prose: true }, { label: "Assessed by" }],
         rows,
+        note: "Assessment: category; impact on the treatment conclusion; action taken.",
       });
     deviations.push({
       kind: "table",

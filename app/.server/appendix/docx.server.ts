@@ -138,20 +138,53 @@ const TABLE_GRID_STYLES =
 /** Printable width in twips (A4 less both margins). */
 const TEXT_WIDTH_TWIPS = 11906 - 2 * MARGIN_TWIPS;
 
+/** About 95 twips a character at 8.5 pt, plus the cell margins. */
+const CHAR_TWIPS = 95;
+const CELL_TWIPS = 220;
+/** A prose column is never narrower than this many characters. */
+const PROSE_MIN_CHARS = 24;
+/** Other columns of a table with prose take at most this many characters a line before wrapping. */
+const SHORT_MAX_CHARS = 20;
+
 /**
- * Column widths: each column first gets room for its longest word (about 95 twips a character at
- * 8.5 pt, plus the cell margins), then the rest of the line in proportion to √(longest text), so
- * long prose columns do not starve short ones.
+ * Column widths: each column first gets room for its longest word, then the rest of the line in
+ * proportion to √(longest text), so long prose columns do not starve short ones. A table with
+ * prose columns (`prose`) gives the other columns their text up to SHORT_MAX_CHARS a line and the
+ * prose columns everything left, at least PROSE_MIN_CHARS each: the rationale of a deviation then
+ * reads as a paragraph instead of one word a line.
  */
-function columnWidths(b: Extract<Block, { kind: "table" }>): number[] {
+export function columnWidths(b: Pick<Extract<Block, { kind: "table" }>, "columns" | "rows">): number[] {
+  const width = (chars: number) => chars * CHAR_TWIPS + CELL_TWIPS;
   const cols = b.columns.map((c, i) => {
     const cells = [c.label, ...b.rows.map((r) => r[i] ?? "")];
     const longest = Math.max(c.label.length * 0.8, ...cells.slice(1).map((x) => x.length));
     const longestWord = Math.max(...cells.flatMap((x) => x.split(/\s+/).map((w) => w.length)));
-    return { min: longestWord * 95 + 220, weight: Math.sqrt(Math.max(longest, 6)) };
+    return { prose: Boolean(c.prose), longest, min: width(longestWord), weight: Math.sqrt(Math.max(longest, 6)) };
   });
+  const fit = (mins: number[]) => {
+    const total = mins.reduce((a, m) => a + m, 0);
+    return mins.map((m) => Math.floor((m / total) * TEXT_WIDTH_TWIPS));
+  };
+  if (cols.some((c) => c.prose)) {
+    const short = cols.map((c) => (c.prose ? 0 : Math.max(c.min, width(Math.min(c.longest, SHORT_MAX_CHARS)))));
+    const proseMin = cols.map((c) => (c.prose ? Math.max(c.min, width(PROSE_MIN_CHARS)) : 0));
+    const shortTotal = short.reduce((a, w) => a + w, 0);
+    const proseTotal = proseMin.reduce((a, w) => a + w, 0);
+    if (shortTotal + proseTotal > TEXT_WIDTH_TWIPS) {
+      // the short columns give way first, down to their longest word; only then does everything shrink
+      const mins = cols.map((c) => (c.prose ? 0 : c.min));
+      const minTotal = mins.reduce((a, w) => a + w, 0);
+      const room = TEXT_WIDTH_TWIPS - proseTotal - minTotal;
+      if (room < 0) return fit(cols.map((c, i) => (c.prose ? proseMin[i] : c.min)));
+      const share = room / Math.max(1, shortTotal - minTotal);
+      return cols.map((c, i) => (c.prose ? proseMin[i] : Math.floor(mins[i] + (short[i] - mins[i]) * share)));
+    }
+    const rest = TEXT_WIDTH_TWIPS - shortTotal - proseTotal;
+    const proseWeights = cols.reduce((a, c) => a + (c.prose ? c.weight : 0), 0);
+    return cols.map((c, i) => (c.prose ? Math.floor(proseMin[i] + (rest * c.weight) / proseWeights) : short[i]));
+  }
   const minTotal = cols.reduce((a, c) => a + c.min, 0);
-  if (minTotal >= TEXT_WIDTH_TWIPS) return cols.map((c) => Math.floor((c.min / minTotal) * TEXT_WIDTH_TWIPS));
+  if (minTotal >= TEXT_WIDTH_TWIPS) return fit(cols.map((c) => c.min));
   const weights = cols.reduce((a, c) => a + c.weight, 0);
   return cols.map((c) => Math.floor(c.min + ((TEXT_WIDTH_TWIPS - minTotal) * c.weight) / weights));
 }

@@ -17,8 +17,9 @@ import { coxSpecSchema } from "~/engine/survival/cox-spec";
 import { readSurvivalForm, survivalFormOf, validateSurvival, type SurvivalForm } from "./cox-planned-model";
 import { publishedFormOf, readPublishedForm, validatePublished, type PublishedRowForm } from "./published-planned-values";
 
-export const SENSITIVITY_KINDS = ["robust_hc3", "variance_function", "exclude_influential", "alternative_covariates", "quasi_poisson", "negative_binomial", "cox_robust_subject", "cox_unstratified", "cox_rmst"] as const;
-export type SensitivityKind = (typeof SENSITIVITY_KINDS)[number];
+import { checkApplies, SENSITIVITY_KINDS, sensitivityProblem, type SensitivityKind } from "~/engine/family-applicability";
+
+export { SENSITIVITY_KINDS, type SensitivityKind };
 
 export const SENSITIVITY_LABELS: Record<SensitivityKind, string> = {
   robust_hc3: "Robust (HC3) standard errors",
@@ -32,8 +33,6 @@ export const SENSITIVITY_LABELS: Record<SensitivityKind, string> = {
   cox_rmst: "Restricted mean survival time difference between arms",
 };
 
-/** Sensitivity analyses that apply to a time-to-event (Cox) model only. */
-export const COX_ONLY_SENSITIVITY: readonly SensitivityKind[] = ["cox_robust_subject", "cox_unstratified", "cox_rmst"];
 
 export const sensitivitySchema = z.object({
   kind: z.enum(SENSITIVITY_KINDS),
@@ -291,14 +290,8 @@ export function validatePlannedModel(
     if (!Number.isFinite(ch.threshold) || ch.threshold <= 0) errors[`check:${ch.key}:threshold`] = "Give a positive number.";
   }
   for (const s of form.sensitivity) {
-    if ((s.kind === "quasi_poisson" || s.kind === "negative_binomial") && family !== "poisson")
-      errors[`sensitivity:${s.kind}`] = "Quasi-Poisson and negative binomial analyses apply to a Poisson model of counts.";
-    if (s.kind === "exclude_influential" && family === "cox")
-      errors[`sensitivity:${s.kind}`] = "Excluding subjects flagged by Cook's distance applies to linear and generalized linear models.";
-    if ((s.kind === "robust_hc3" || s.kind === "variance_function") && family !== "gaussian")
-      errors[`sensitivity:${s.kind}`] = "This remedy applies to a linear model; for counts plan quasi-Poisson or negative binomial instead.";
-    if (COX_ONLY_SENSITIVITY.includes(s.kind) && family !== "cox")
-      errors[`sensitivity:${s.kind}`] = "This analysis applies to a time-to-event (Cox) model.";
+    const problem = sensitivityProblem(s.kind, family);
+    if (problem) errors[`sensitivity:${s.kind}`] = problem;
     if (s.kind === "cox_robust_subject" && family === "cox" && !form.id)
       errors[`sensitivity:${s.kind}`] = "Robust errors clustered by subject need the subject identifier column: choose it above.";
     if (s.kind === "cox_unstratified" && family === "cox" && (form.survival?.strata.length ?? 0) === 0)
@@ -335,9 +328,8 @@ export function validatePlannedModel(
   if (family === "cox") {
     const cox = validateSurvival(form, terms, dataset, errors);
     if (!cox || Object.keys(errors).length > 0) return { ok: false, errors };
-    const checks = form.checks.map((c) => (CHECKS.find((d) => d.key === c.key)?.models === "cox" ? c : { ...c, enabled: false }));
     const spec = population.length > 0 ? { ...cox, population } : cox;
-    return { ok: true, model: { key: form.key, title: form.title, datasetName: dataset.name, spec, checks, sensitivity: form.sensitivity } };
+    return { ok: true, model: { key: form.key, title: form.title, datasetName: dataset.name, spec, checks: applicableChecks(form.checks, "cox", Boolean(form.treatment)), sensitivity: form.sensitivity } };
   }
   const means = meansWeightingSchema.safeParse(form.means);
   const contrasts = contrastsSchema.safeParse(form.contrasts);
@@ -367,8 +359,16 @@ export function validatePlannedModel(
   });
   return {
     ok: true,
-    model: { key: form.key, title: form.title, datasetName: dataset.name, spec, checks: form.checks, sensitivity: form.sensitivity },
+    model: { key: form.key, title: form.title, datasetName: dataset.name, spec, checks: applicableChecks(form.checks, family, Boolean(form.treatment)), sensitivity: form.sensitivity },
   };
+}
+
+/** A check the model's family cannot have is stored as not planned (the editor does not offer it; family-applicability.ts). */
+function applicableChecks(checks: PlannedCheck[], family: string, hasTreatment: boolean): PlannedCheck[] {
+  return checks.map((c) => {
+    const def = CHECKS.find((d) => d.key === c.key);
+    return def && checkApplies(def, family, hasTreatment) ? c : { ...c, enabled: false };
+  });
 }
 
 /** The editor's fields for an existing planned model (the inverse of readPlannedModelForm). */

@@ -179,6 +179,8 @@ export function rerunView(doc: RerunDocument, redact: Redaction) {
     ...common,
     kind: "glm" as const,
     statisticName: r.statisticName,
+    /** The robust-errors analysis reads the coefficients with the sandwich (HC3) covariance. */
+    covarianceType: r.method.kind === "robust" ? "HC3" : "model",
     glmFit: r.fit,
     ratioName: r.ratioName,
     ratios: r.ratios,

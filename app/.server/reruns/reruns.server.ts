@@ -29,6 +29,8 @@ import type { DocumentPopulation } from "./rerun-population";
 import { getPlannedModel, type StoredPlannedModel } from "../plans/plans.server";
 import { describeOptions, rerunOptionsSchema, type RerunOptions } from "./rerun-options";
 import { exclusionProblem } from "./what-if.server";
+import { plannedSensitivityOptions } from "./planned-sensitivity";
+import { withSandwichErrors } from "~/engine/glm/sandwich-errors";
 
 export type Rerun = typeof t.reruns.$inferSelect;
 
@@ -159,13 +161,19 @@ export function computeRerun(model: StoredPlannedModel, table: ColumnTable, opti
     if (spec.family !== "poisson") throw new EngineError(`a ${options.family} analysis applies to a Poisson model of counts, not to a ${spec.family} model`);
     spec = { ...spec, family: options.family };
   }
-  if ((options.variant === "robust_hc3" || options.variant === "variance_function") && spec.family !== "gaussian") {
+  if (options.variant === "variance_function" && spec.family !== "gaussian") {
     throw new EngineError(`the ${describeOptions(options).toLowerCase()} remedy applies to linear models, not to a ${spec.family} model`);
   }
   let result: ModelResult;
   switch (options.variant) {
     case "robust_hc3":
-      result = fitWithRobustErrors(spec, working, "HC3");
+      if (spec.family === "gaussian") {
+        result = fitWithRobustErrors(spec, working, "HC3");
+      } else {
+        const glm = fitModel(spec, working);
+        if (glm.kind !== "glm") throw new EngineError("robust errors of a generalized linear model need its fit");
+        result = withSandwichErrors(glm, "HC3");
+      }
       break;
     case "variance_function":
       result = fitWithEstimatedVariance(spec, working, options.varianceBy);
@@ -254,7 +262,57 @@ export async function executeRerun(rerunId: string): Promise<void> {
       },
       tx,
     );
+    // the plan's sensitivity analyses run with the primary: queued as jobs of their own once it completed
+    if (rerun.kind === "primary") {
+      for (const options of plannedSensitivityOptions(model, doc)) {
+        await insertRerun(tx, SYSTEM_ACTOR, {
+          studyId: rerun.studyId,
+          plannedModelId: rerun.plannedModelId,
+          planVersionId: rerun.planVersionId,
+          datasetVersionId: rerun.datasetVersionId,
+          datasetSha256: rerun.datasetSha256,
+          startedBy: rerun.startedBy,
+          options,
+          parentRerunId: rerunId,
+          prespecified: true,
+          audit: { plannedModel: model.key, queuedWith: rerunId },
+        });
+      }
+    }
   });
+}
+
+type Tx = Parameters<Parameters<typeof writeTransaction>[0]>[0];
+
+/** Records a rerun, queues its job and audits its start, inside the caller's transaction. */
+async function insertRerun(
+  tx: Tx,
+  actor: PersonActor | typeof SYSTEM_ACTOR,
+  r: { studyId: string; plannedModelId: string; planVersionId: string; datasetVersionId: string; datasetSha256: string; startedBy: string | null; options: RerunOptions; parentRerunId: string | null; prespecified: boolean; audit: Record<string, unknown> },
+): Promise<string> {
+  const id = newId();
+  const kind = r.options.variant === "planned" ? "primary" : "sensitivity";
+  await tx.insert(t.reruns).values({
+    id,
+    studyId: r.studyId,
+    plannedModelId: r.plannedModelId,
+    planVersionId: r.planVersionId,
+    datasetVersionId: r.datasetVersionId,
+    kind,
+    sensitivityKey: kind === "sensitivity" ? r.options.variant : null,
+    parentRerunId: r.parentRerunId,
+    prespecified: r.prespecified,
+    optionsJson: canonicalJson(r.options),
+    label: describeOptions(r.options),
+    datasetSha256: r.datasetSha256,
+    startedBy: r.startedBy,
+  });
+  await enqueueJob(tx, RERUN_JOB, { rerunId: id });
+  await appendAudit(
+    { actor, action: "rerun.start", entityType: "rerun", entityId: id, studyId: r.studyId, after: { ...r.audit, datasetSha256: r.datasetSha256, options: r.options, prespecified: r.prespecified } },
+    tx,
+  );
+  return id;
 }
 
 /**
@@ -331,38 +389,20 @@ export async function startRerun(actor: PersonActor, studyId: string, input: Sta
     .limit(1);
   if (!dv || dv.d.studyId !== studyId || dv.v.status !== "locked") throw data({ message: "Choose a locked version of this study's dataset." }, { status: 409 });
   if (dv.d.name !== model.datasetName) throw data({ message: `The planned model reads ${model.datasetName}, not ${dv.d.name}.` }, { status: 409 });
-  const kind = input.options.variant === "planned" ? "primary" : "sensitivity";
-  return writeTransaction(async (tx) => {
-    const id = newId();
-    await tx.insert(t.reruns).values({
-      id,
+  return writeTransaction((tx) =>
+    insertRerun(tx, actor, {
       studyId,
       plannedModelId: model.id,
       planVersionId: model.planVersionId,
       datasetVersionId: dv.v.id,
-      kind,
-      sensitivityKey: kind === "sensitivity" ? input.options.variant : null,
-      parentRerunId: input.parentRerunId ?? null,
-      prespecified: input.prespecified ?? true,
-      optionsJson: canonicalJson(input.options),
-      label: describeOptions(input.options),
       datasetSha256: dv.v.sha256,
       startedBy: actor.id,
-    });
-    await enqueueJob(tx, RERUN_JOB, { rerunId: id });
-    await appendAudit(
-      {
-        actor,
-        action: "rerun.start",
-        entityType: "rerun",
-        entityId: id,
-        studyId,
-        after: { plannedModel: model.key, dataset: `${dv.d.name} v${dv.v.version}`, datasetSha256: dv.v.sha256, options: input.options, prespecified: input.prespecified ?? true },
-      },
-      tx,
-    );
-    return id;
-  });
+      options: input.options,
+      parentRerunId: input.parentRerunId ?? null,
+      prespecified: input.prespecified ?? true,
+      audit: { plannedModel: model.key, dataset: `${dv.d.name} v${dv.v.version}` },
+    }),
+  );
 }
 
 export interface RerunListing {

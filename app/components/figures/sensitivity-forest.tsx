@@ -1,4 +1,5 @@
 import { contrastWords, forestPoints, type ForestRow } from "~/figures/forest";
+import { TableScroll } from "../table-scroll";
 import { VegaChart, type VegaSpecJson } from "./vega-chart";
 
 export type { ForestRow } from "~/figures/forest";
@@ -23,6 +24,7 @@ export function SensitivityForest({ rows, contrastLabel, spec }: { rows: ForestR
       <div className="panel w-full p-3">
         <VegaChart spec={spec} height={height} label={`Treatment contrast ${contrastLabel} with 95% confidence intervals across ${points.length} analyses`} />
       </div>
+      <TableScroll label={`${contrastLabel}: ${words.ratio ? "ratio" : "estimate"} and 95% CI`} className="self-start">
       <table className="data-table">
         <caption className="mb-1 text-left text-xs text-ink-soft">
           {contrastLabel}: {words.ratio ? "ratio" : "estimate"} and 95% CI
@@ -49,6 +51,7 @@ export function SensitivityForest({ rows, contrastLabel, spec }: { rows: ForestR
           ))}
         </tbody>
       </table>
+      </TableScroll>
     </div>
   );
 }
