@@ -126,6 +126,18 @@ export function isNumericColumn(cells: TypedColumn): boolean {
   return true;
 }
 
+/**
+ * A plain array of the numbers (for results, which are JSON). A counted loop: `Array.from` on a
+ * typed array goes through the iterator protocol and measured about ten times slower on
+ * 200 000 values, which over the result's dozens of columns was a large share of a fit.
+ */
+export function toNumbers(values: ArrayLike<number>): number[] {
+  const n = values.length;
+  const out = new Array<number>(n);
+  for (let i = 0; i < n; i++) out[i] = values[i];
+  return out;
+}
+
 /** Compares two strings by Unicode code point (not UTF-16 unit). */
 export function compareCodePoints(a: string, b: string): number {
   const ia = a[Symbol.iterator]();

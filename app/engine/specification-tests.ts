@@ -8,7 +8,7 @@
 import { fillDesignColumn, termColumns, type ContinuousVariable } from "./design";
 import { fUpper } from "./distributions";
 import type { LinearFitContext } from "./linear-model";
-import { appendColumns } from "./qr-update";
+import { appendColumns, fitWithReduced, reduceColumns } from "./qr-update";
 import type { FTest } from "./spread";
 
 /** F test of a larger model against the fitted one, from their residual sums of squares and ranks. */
@@ -92,15 +92,19 @@ export function homogeneityOfSlopes(ctx: LinearFitContext): HomogeneityOfSlopes 
     };
   }
   const n = design.n;
-  // one buffer for the joint test's columns; each covariate's test uses its front
+  // every interaction column is made and reduced against the fit once; each covariate's test
+  // factors its own columns, the joint test all of them
   const plans = covariates.map((c) => termColumns([treatment, c], data.variables));
-  const joint = plans.flat();
-  const buffer = new Float64Array(n * joint.length);
-  const run = (columns: typeof joint): FTest => {
-    columns.forEach((plan, j) => fillDesignColumn(buffer.subarray(j * n, (j + 1) * n), plan.factors, data.variables));
-    const r = appendColumns(fit, buffer, columns.length);
-    return nestedFTest(fit.rss, design.p, r.rss, r.rank, n);
-  };
-  const byCovariate = covariates.map((c, i) => ({ covariate: c, ...run(plans[i]) }));
-  return { ...run(joint), byCovariate };
+  const all = plans.flat();
+  const buffer = new Float64Array(n * all.length);
+  all.forEach((plan, j) => fillDesignColumn(buffer.subarray(j * n, (j + 1) * n), plan.factors, data.variables));
+  const reduced = reduceColumns(fit, buffer, all.length);
+  const test = (r: { rss: number; rank: number }): FTest => nestedFTest(fit.rss, design.p, r.rss, r.rank, n);
+  let first = 0;
+  const byCovariate = covariates.map((c, i) => {
+    const columns = plans[i].map((_, j) => first + j);
+    first += columns.length;
+    return { covariate: c, ...test(fitWithReduced(reduced, columns)) };
+  });
+  return { ...test(fitWithReduced(reduced)), byCovariate };
 }
