@@ -1,0 +1,59 @@
+/**
+ * Compute threads: work that would hold the web process's event loop for long (reruns and
+ * their sensitivity variants) runs in worker threads through tinypool, one fewer than the
+ * machine's cores (at least one), so requests, the job heartbeat and the rest keep being
+ * served while a large model is fitted.
+ *
+ * The threads run the built entry `compute-worker.js` beside the server build
+ * (build/server/, made by `npm run build`). Where it is not there, as when the modules are
+ * imported from source by the tests or the dev server, a task runs in this process instead:
+ * same code, same result, only on the event loop.
+ */
+import { existsSync } from "node:fs";
+import { availableParallelism } from "node:os";
+import path from "node:path";
+import { fileURLToPath } from "node:url";
+import Tinypool from "tinypool";
+import { rerunTask, type RerunTaskInput, type RerunTaskOutput } from "./rerun-task";
+
+const WORKER_FILE = "compute-worker.js";
+
+/** The built worker entry next to this module's built form, or null when running from source. */
+function builtWorkerFile(): string | null {
+  const here = path.dirname(fileURLToPath(import.meta.url));
+  const file = path.join(here, WORKER_FILE);
+  return existsSync(file) ? file : null;
+}
+
+/** Threads for compute: the machine's cores less one for the web process, at least one. */
+export function computeThreads(): number {
+  return Math.max(1, availableParallelism() - 1);
+}
+
+let pool: Tinypool | null | undefined;
+
+function computePool(): Tinypool | null {
+  if (pool !== undefined) return pool;
+  const filename = builtWorkerFile();
+  pool = filename
+    ? new Tinypool({ filename, minThreads: 0, maxThreads: computeThreads(), idleTimeout: 10 * 60_000 })
+    : null;
+  return pool;
+}
+
+/** True when tasks run in worker threads (the built server), false when in this process. */
+export function computesInThreads(): boolean {
+  return computePool() !== null;
+}
+
+/** Runs a rerun's computation in a compute thread (or here, from source). */
+export function runRerunTask(input: RerunTaskInput): Promise<RerunTaskOutput> {
+  const p = computePool();
+  return p ? (p.run(input, { name: "rerun" }) as Promise<RerunTaskOutput>) : rerunTask(input);
+}
+
+/** Stops the threads (tests and scripts that end their process cleanly). */
+export async function stopComputePool(): Promise<void> {
+  if (pool) await pool.destroy();
+  pool = undefined;
+}
