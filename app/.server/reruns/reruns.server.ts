@@ -124,12 +124,15 @@ export async function failRerunOfJob(job: Job, reason: string): Promise<void> {
   });
 }
 
-registerJobHandler(RERUN_JOB, async (payload) => {
-  const rerunId = (payload as { rerunId?: unknown } | null)?.rerunId;
-  if (typeof rerunId !== "string") throw new Error("the job names no rerun");
-  await executeRerun(rerunId);
-});
-registerJobFailureHook(RERUN_JOB, failRerunOfJob);
+/** Registers the rerun job's handler and failure hook (called where the job worker starts). */
+export function registerRerunJobs(): void {
+  registerJobHandler(RERUN_JOB, async (payload) => {
+    const rerunId = (payload as { rerunId?: unknown } | null)?.rerunId;
+    if (typeof rerunId !== "string") throw new Error("the job names no rerun");
+    await executeRerun(rerunId);
+  });
+  registerJobFailureHook(RERUN_JOB, failRerunOfJob);
+}
 
 export interface StartRerun {
   plannedModelId: string;
