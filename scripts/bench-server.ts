@@ -90,20 +90,22 @@ try {
 
   // sessions as sign-in makes them (the session row, its id in the signed cookie), and a token each
   const cookie = createCookie("plumbline_session", { secrets: [sessionSecret] });
+  // two biostatisticians of the study (a person may hold at most 10 tokens)
   const person = study.people.priya;
   const clients: { cookie: string; token: string }[] = [];
   for (let i = 0; i < SESSIONS; i++) {
+    const who = i % 2 === 0 ? study.people.priya : study.people.tomas;
     const id = randomBytes(32).toString("base64url");
     const now = new Date();
     await db.insert(t.sessions).values({
       id,
-      personId: person.id,
+      personId: who.id,
       dataJson: JSON.stringify({ signedInAt: now.toISOString() }),
       createdAt: now.toISOString(),
       lastSeenAt: now.toISOString(),
       expiresAt: new Date(now.getTime() + 3600_000).toISOString(),
     });
-    const token = await createToken(person, { name: `bench session ${i + 1}`, days: 7 });
+    const token = await createToken(who, { name: `bench session ${i + 1}`, days: 7 });
     if (!token.ok) throw new Error(token.message);
     clients.push({ cookie: (await cookie.serialize(id)).split(";")[0], token: token.token });
   }

@@ -18,11 +18,14 @@ import { rerunTask, type RerunTaskInput, type RerunTaskOutput } from "./rerun-ta
 
 const WORKER_FILE = "compute-worker.js";
 
-/** The built worker entry next to this module's built form, or null when running from source. */
+/**
+ * The built worker entry in the server build's folder (this module's built chunk is there or
+ * in its assets/ folder), or null when running from source.
+ */
 function builtWorkerFile(): string | null {
   const here = path.dirname(fileURLToPath(import.meta.url));
-  const file = path.join(here, WORKER_FILE);
-  return existsSync(file) ? file : null;
+  const file = [path.join(here, WORKER_FILE), path.join(here, "..", WORKER_FILE)].find((f) => existsSync(f));
+  return file ?? null;
 }
 
 /** Threads for compute: the machine's cores less one for the web process, at least one. */
