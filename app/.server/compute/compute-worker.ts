@@ -4,3 +4,4 @@
  * nothing that opens the database.
  */
 export { rerunTask as rerun } from "./rerun-task";
+export { renderDocx as appendix } from "../appendix/docx.server";

@@ -1,6 +1,6 @@
 /**
  * Compute threads: work that would hold the web process's event loop for long (reruns and
- * their sensitivity variants) runs in worker threads through tinypool, one fewer than the
+ * their sensitivity variants, rendering the Word appendix) runs in worker threads through tinypool, one fewer than the
  * machine's cores (at least one), so requests, the job heartbeat and the rest keep being
  * served while a large model is fitted.
  *
@@ -14,6 +14,8 @@ import { availableParallelism } from "node:os";
 import path from "node:path";
 import { fileURLToPath } from "node:url";
 import Tinypool from "tinypool";
+import type { AppendixContent } from "~/components/appendix-content";
+import { renderDocx } from "../appendix/docx.server";
 import { rerunTask, type RerunTaskInput, type RerunTaskOutput } from "./rerun-task";
 
 const WORKER_FILE = "compute-worker.js";
@@ -53,6 +55,15 @@ export function computesInThreads(): boolean {
 export function runRerunTask(input: RerunTaskInput): Promise<RerunTaskOutput> {
   const p = computePool();
   return p ? (p.run(input, { name: "rerun" }) as Promise<RerunTaskOutput>) : rerunTask(input);
+}
+
+/** Renders the Word appendix of a content model in a compute thread (or here, from source). */
+export async function renderDocxTask(content: AppendixContent): Promise<Buffer> {
+  const p = computePool();
+  if (!p) return renderDocx(content);
+  // a Buffer crosses the thread boundary as a Uint8Array
+  const bytes = (await p.run(content, { name: "appendix" })) as Uint8Array;
+  return Buffer.from(bytes.buffer, bytes.byteOffset, bytes.byteLength);
 }
 
 /** Stops the threads (tests and scripts that end their process cleanly). */
