@@ -1,6 +1,6 @@
 /**
  * Compute threads: work that would hold the web process's event loop for long (reruns and
- * their sensitivity variants, rendering the Word appendix) runs in worker threads through tinypool, one fewer than the
+ * their sensitivity variants, the what-if's refit, rendering the Word appendix) runs in worker threads through tinypool, one fewer than the
  * machine's cores (at least one), so requests, the job heartbeat and the rest keep being
  * served while a large model is fitted.
  *
@@ -16,7 +16,9 @@ import { fileURLToPath } from "node:url";
 import Tinypool from "tinypool";
 import type { AppendixContent } from "~/components/appendix-content";
 import { renderDocx } from "../appendix/docx.server";
+import type { WhatIfInputs } from "~/components/figures/what-if-inputs";
 import { rerunTask, type RerunTaskInput, type RerunTaskOutput } from "./rerun-task";
+import { whatIfTask, type WhatIfTaskInput } from "./what-if-task";
 
 const WORKER_FILE = "compute-worker.js";
 
@@ -46,15 +48,16 @@ function computePool(): Tinypool | null {
   return pool;
 }
 
-/** True when tasks run in worker threads (the built server), false when in this process. */
-export function computesInThreads(): boolean {
-  return computePool() !== null;
-}
-
 /** Runs a rerun's computation in a compute thread (or here, from source). */
 export function runRerunTask(input: RerunTaskInput): Promise<RerunTaskOutput> {
   const p = computePool();
   return p ? (p.run(input, { name: "rerun" }) as Promise<RerunTaskOutput>) : rerunTask(input);
+}
+
+/** Builds a rerun's what-if inputs in a compute thread (or here, from source). */
+export function runWhatIfTask(input: WhatIfTaskInput): Promise<WhatIfInputs> {
+  const p = computePool();
+  return p ? (p.run(input, { name: "whatIf" }) as Promise<WhatIfInputs>) : whatIfTask(input);
 }
 
 /** Renders the Word appendix of a content model in a compute thread (or here, from source). */
