@@ -32,37 +32,42 @@ function builtWorkerFile(): string | null {
   return file ?? null;
 }
 
-/** Threads for compute: the machine's cores less one for the web process, at least one. */
+/** Threads per pool: the machine's cores less one for the web process, at least one. */
 export function computeThreads(): number {
   return Math.max(1, availableParallelism() - 1);
 }
 
-let pool: Tinypool | null | undefined;
+/**
+ * Two pools: reruns (background jobs, which may take minutes) and requests that someone waits
+ * for (the what-if on the results page, the appendix export), so that those never queue behind
+ * a large rerun.
+ */
+type PoolKind = "jobs" | "requests";
+const pools = new Map<PoolKind, Tinypool | null>();
 
-function computePool(): Tinypool | null {
-  if (pool !== undefined) return pool;
+function computePool(kind: PoolKind): Tinypool | null {
+  if (pools.has(kind)) return pools.get(kind) ?? null;
   const filename = builtWorkerFile();
-  pool = filename
-    ? new Tinypool({ filename, minThreads: 0, maxThreads: computeThreads(), idleTimeout: 10 * 60_000 })
-    : null;
+  const pool = filename ? new Tinypool({ filename, minThreads: 0, maxThreads: computeThreads(), idleTimeout: 10 * 60_000 }) : null;
+  pools.set(kind, pool);
   return pool;
 }
 
 /** Runs a rerun's computation in a compute thread (or here, from source). */
 export function runRerunTask(input: RerunTaskInput): Promise<RerunTaskOutput> {
-  const p = computePool();
+  const p = computePool("jobs");
   return p ? (p.run(input, { name: "rerun" }) as Promise<RerunTaskOutput>) : rerunTask(input);
 }
 
 /** Builds a rerun's what-if inputs in a compute thread (or here, from source). */
 export function runWhatIfTask(input: WhatIfTaskInput): Promise<WhatIfInputs> {
-  const p = computePool();
+  const p = computePool("requests");
   return p ? (p.run(input, { name: "whatIf" }) as Promise<WhatIfInputs>) : whatIfTask(input);
 }
 
 /** Renders the Word appendix of a content model in a compute thread (or here, from source). */
 export async function renderDocxTask(content: AppendixContent): Promise<Buffer> {
-  const p = computePool();
+  const p = computePool("requests");
   if (!p) return renderDocx(content);
   // a Buffer crosses the thread boundary as a Uint8Array
   const bytes = (await p.run(content, { name: "appendix" })) as Uint8Array;
@@ -70,7 +75,7 @@ export async function renderDocxTask(content: AppendixContent): Promise<Buffer> 
 }
 
 /** Stops the threads (tests and scripts that end their process cleanly). */
-export async function stopComputePool(): Promise<void> {
-  if (pool) await pool.destroy();
-  pool = undefined;
+export async function stopComputePools(): Promise<void> {
+  for (const pool of pools.values()) if (pool) await pool.destroy();
+  pools.clear();
 }
