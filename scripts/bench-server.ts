@@ -183,7 +183,10 @@ try {
         if ((status === "completed" || status === "failed") && !finishedAt) finishedAt = performance.now();
       });
   }, 250);
-  const during = await drive(() => finishedAt > 0);
+  const during = await drive(() => finishedAt > 0).catch((e: unknown) => {
+    const server = app?.process.exitCode !== null ? `the server exited (code ${app?.process.exitCode}, signal ${app?.process.signalCode})` : "the server is running";
+    throw new Error(`a request failed during the rerun (${e instanceof Error ? e.message : e}); ${server}. Server output:\n${app?.log().slice(-3000)}`);
+  });
   clearInterval(poll);
   const [row] = await db.select({ status: t.reruns.status, failureReason: t.reruns.failureReason }).from(t.reruns).where(eq(t.reruns.id, rerunId));
 

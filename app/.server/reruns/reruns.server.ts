@@ -237,9 +237,10 @@ export interface RerunListing {
   resultSha256: string | null;
 }
 
+/** The study's reruns for listing (never their stored results: one of a large rerun is hundreds of MB). */
 export async function listReruns(studyId: string): Promise<RerunListing[]> {
   const rows = await db
-    .select({ r: t.reruns, m: t.plannedModels, dv: t.datasetVersions, d: t.datasets, pv: t.planVersions, who: t.people.displayName })
+    .select({ r: rerunWithoutResult, m: t.plannedModels, dv: t.datasetVersions, d: t.datasets, pv: t.planVersions, who: t.people.displayName })
     .from(t.reruns)
     .innerJoin(t.plannedModels, eq(t.plannedModels.id, t.reruns.plannedModelId))
     .innerJoin(t.datasetVersions, eq(t.datasetVersions.id, t.reruns.datasetVersionId))
