@@ -21,6 +21,7 @@
 import { createHash, createHmac, timingSafeEqual } from "node:crypto";
 import { and, asc, count, desc, eq, gte, isNull, like, lte, type SQL } from "drizzle-orm";
 import { loadAuditKey } from "./audit-key.server";
+import { canonicalJson } from "./canonical-json";
 import { db, isoNow, t, writeTransaction, type DbOrTx } from "./db/index.server";
 
 export const GENESIS_HASH = "0".repeat(64);
@@ -44,15 +45,7 @@ export interface AuditInput {
   detail?: string | null;
 }
 
-/** JSON with object keys sorted at every depth: the same content always gives the same text. */
-export function canonicalJson(value: unknown): string {
-  return JSON.stringify(value, (_key, v: unknown) => {
-    if (v && typeof v === "object" && !Array.isArray(v)) {
-      return Object.fromEntries(Object.entries(v as Record<string, unknown>).sort(([a], [b]) => (a < b ? -1 : a > b ? 1 : 0)));
-    }
-    return v;
-  });
-}
+export { canonicalJson };
 
 type StoredEvent = typeof t.auditEvents.$inferSelect;
 

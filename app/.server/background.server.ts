@@ -5,11 +5,17 @@
  */
 import { migrateStoredColumns } from "./datasets/stored-columns.server";
 import { startJobWorker } from "./jobs/jobs.server";
-import { startMailRetries } from "./mail/outbox.server";
-// Registers the rerun job's handler and failure hook.
-import "./reruns/reruns.server";
+import { registerMailJobs, startMailRetries } from "./mail/outbox.server";
+import { registerRerunJobs } from "./reruns/reruns.server";
+
+/** Registers every job kind's handler (and failure hook) with this process's job worker. */
+export function registerJobHandlers(): void {
+  registerRerunJobs();
+  registerMailJobs();
+}
 
 export function startBackgroundWork(): void {
+  registerJobHandlers();
   // A version read before this pass reaches it is migrated on demand (stored-columns.server.ts).
   migrateStoredColumns().catch((e: unknown) => console.error("Dataset columns migration:", e instanceof Error ? e.message : e));
   startJobWorker();

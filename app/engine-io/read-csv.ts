@@ -5,11 +5,11 @@
  * dataset files (uploads and the headless command) go through app/engine-io/dataset/.
  */
 import { parse } from "csv-parse/sync";
-import type { ColumnTable } from "~/engine/data";
+import type { TextColumnTable } from "~/engine/data";
 import { EngineError } from "~/engine/errors";
 
 /** Parses CSV text with a header row; throws EngineError naming the problem. */
-export function readCsvText(text: string): ColumnTable {
+export function readCsvText(text: string): TextColumnTable {
   if (text.replace(/^\uFEFF/, "").trim() === "") throw new EngineError("the data file is empty");
   let records: string[][];
   try {

@@ -6,7 +6,7 @@ import { INTERCEPT_NAME, interactionName, levelName } from "./coefficient-names"
 import { EngineError } from "./errors";
 import { refuseRepeatedSubjects } from "./repeated-subjects";
 import { isInteraction, type ModelSpec, type Term } from "./model-spec";
-import { isMissingCell, isNumericColumn, orderLevels, parseNumber, type DataTable } from "./data";
+import { cellText, isMissingAt, isMissingCell, isNumericColumn, orderLevels, parseNumber, type DataTable, type TypedColumn } from "./data";
 
 export interface ContinuousVariable {
   readonly kind: "continuous";
@@ -115,21 +115,29 @@ export function prepareData(spec: ModelSpec, table: DataTable, options: { readon
   }
   const distinct = [...new Set(usedColumns)];
 
-  const usedList: number[] = [];
+  // complete cases: one pass per column over a row mask
+  const missing = new Uint8Array(table.nRows);
+  for (const name of distinct) markMissing(table.columns[name], missing);
+  let usedCount = 0;
+  for (let i = 0; i < table.nRows; i++) if (missing[i] === 0) usedCount++;
+  const used = new Int32Array(usedCount);
   const excludedRows: number[] = [];
-  for (let i = 0; i < table.nRows; i++) {
-    if (distinct.some((name) => isMissingCell(table.columns[name][i]))) excludedRows.push(table.rowNumbers[i]);
-    else usedList.push(i);
+  for (let i = 0, k = 0; i < table.nRows; i++) {
+    if (missing[i] === 0) used[k++] = i;
+    else excludedRows.push(table.rowNumbers[i]);
   }
-  const used = Int32Array.from(usedList);
   // single-record models (the default); the Cox model checks its own rows
   if (spec.id && (options.oneRowPerSubject ?? true)) refuseRepeatedSubjects(table, spec.id, used);
 
   const readNumeric = (name: string, role: string): Float64Array => {
     const cells = table.columns[name];
     const out = new Float64Array(used.length);
+    if (cells instanceof Float64Array) {
+      for (let k = 0; k < used.length; k++) out[k] = cells[used[k]];
+      return out;
+    }
     for (let k = 0; k < used.length; k++) {
-      const v = parseNumber(cells[used[k]]);
+      const v = parseNumber(cells[used[k]] as string);
       if (v === null) {
         throw new EngineError(
           `${role} column "${name}" is not numeric: data row ${table.rowNumbers[used[k]]} has "${cells[used[k]]}"`,
@@ -141,12 +149,14 @@ export function prepareData(spec: ModelSpec, table: DataTable, options: { readon
   };
   // report the first non-numeric response cell among all rows, used or not
   const responseCells = table.columns[spec.response];
-  for (let i = 0; i < table.nRows; i++) {
-    const cell = responseCells[i];
-    if (!isMissingCell(cell) && parseNumber(cell) === null) {
-      throw new EngineError(
-        `response column "${spec.response}" is not numeric: data row ${table.rowNumbers[i]} has "${cell}"`,
-      );
+  if (!(responseCells instanceof Float64Array)) {
+    for (let i = 0; i < table.nRows; i++) {
+      const cell = responseCells[i];
+      if (!isMissingCell(cell) && parseNumber(cell as string) === null) {
+        throw new EngineError(
+          `response column "${spec.response}" is not numeric: data row ${table.rowNumbers[i]} has "${cell}"`,
+        );
+      }
     }
   }
   const response = readNumeric(spec.response, "response");
@@ -162,12 +172,9 @@ export function prepareData(spec: ModelSpec, table: DataTable, options: { readon
     }
   }
   const offset = spec.offset ? readNumeric(spec.offset, "offset") : null;
-  const ids = spec.id
-    ? Array.from(used, (i) => {
-        const cell = table.columns[spec.id as string][i];
-        return isMissingCell(cell) ? null : cell;
-      })
-    : Array.from(used, () => null);
+  const idCells = spec.id ? table.columns[spec.id] : null;
+  const ids = new Array<string | null>(used.length);
+  for (let k = 0; k < used.length; k++) ids[k] = idCells && !isMissingAt(idCells, used[k]) ? cellText(idCells, used[k]) : null;
 
   const variables = new Map<string, Variable>();
   for (const t of mains) {
@@ -179,15 +186,12 @@ export function prepareData(spec: ModelSpec, table: DataTable, options: { readon
           `term "${t.variable}" has a reference level but its column is numeric; set "categorical": true to treat it as categorical`,
         );
       }
-      const values = new Float64Array(used.length);
+      const values = readNumeric(t.variable, "term");
       let sum = 0;
-      for (let k = 0; k < used.length; k++) {
-        values[k] = parseNumber(cells[used[k]]) as number;
-        sum += values[k];
-      }
+      for (let k = 0; k < used.length; k++) sum += values[k];
       variables.set(t.variable, { kind: "continuous", name: t.variable, values, mean: sum / Math.max(1, used.length) });
     } else {
-      const labels = Array.from(used, (i) => cells[i]);
+      const { labels, codes: firstSeen } = distinctLabels(cells, used);
       const levels = orderLevels(labels);
       const reference = t.reference ?? levels[0];
       const referenceIndex = levels.indexOf(reference);
@@ -197,9 +201,14 @@ export function prepareData(spec: ModelSpec, table: DataTable, options: { readon
         );
       }
       const index = new Map(levels.map((l, i) => [l, i]));
-      const codes = Int32Array.from(labels, (l) => index.get(l) as number);
+      const remap = Int32Array.from(labels, (l) => index.get(l) as number);
+      const codes = new Int32Array(used.length);
       const counts = levels.map(() => 0);
-      for (const c of codes) counts[c]++;
+      for (let k = 0; k < used.length; k++) {
+        const c = remap[firstSeen[k]];
+        codes[k] = c;
+        counts[c]++;
+      }
       variables.set(t.variable, { kind: "categorical", name: t.variable, levels, reference, referenceIndex, codes, counts });
     }
   }
@@ -209,6 +218,51 @@ export function prepareData(spec: ModelSpec, table: DataTable, options: { readon
   return { used, excludedRows, rowNumbers: table.rowNumbers, response, weights, offset, ids, variables };
 }
 
+/** Sets mask[i] for every missing row of the column. */
+function markMissing(column: TypedColumn, mask: Uint8Array): void {
+  if (column instanceof Float64Array) {
+    for (let i = 0; i < column.length; i++) if (column[i] !== column[i]) mask[i] = 1;
+  } else {
+    for (let i = 0; i < column.length; i++) if (isMissingCell(column[i])) mask[i] = 1;
+  }
+}
+
+/**
+ * The distinct labels of the used rows in order of first appearance, and each used row's index
+ * into them. A typed numeric column is grouped by value (its label is the number's text), so no
+ * text is made per row.
+ */
+function distinctLabels(column: TypedColumn, used: Int32Array): { labels: string[]; codes: Int32Array } {
+  const codes = new Int32Array(used.length);
+  const labels: string[] = [];
+  if (column instanceof Float64Array) {
+    const seen = new Map<number, number>();
+    for (let k = 0; k < used.length; k++) {
+      const v = column[used[k]];
+      let c = seen.get(v);
+      if (c === undefined) {
+        c = labels.length;
+        seen.set(v, c);
+        labels.push(String(v));
+      }
+      codes[k] = c;
+    }
+    return { labels, codes };
+  }
+  const seen = new Map<string, number>();
+  for (let k = 0; k < used.length; k++) {
+    const v = column[used[k]] as string;
+    let c = seen.get(v);
+    if (c === undefined) {
+      c = labels.length;
+      seen.set(v, c);
+      labels.push(v);
+    }
+    codes[k] = c;
+  }
+  return { labels, codes };
+}
+
 /** Non-reference level indices of a categorical variable, in level order. */
 export function contrastLevels(v: CategoricalVariable): number[] {
   const out: number[] = [];
@@ -216,7 +270,7 @@ export function contrastLevels(v: CategoricalVariable): number[] {
   return out;
 }
 
-interface ColumnPlan {
+export interface ColumnPlan {
   readonly name: string;
   readonly factors: readonly ColumnFactor[];
 }
@@ -275,11 +329,12 @@ export function buildDesign(
   }
   const p = names.length;
   const x = new Float64Array(n * p);
-  for (let j = 0; j < p; j++) fillColumn(x.subarray(j * n, (j + 1) * n), factors[j], data.variables);
+  for (let j = 0; j < p; j++) fillDesignColumn(x.subarray(j * n, (j + 1) * n), factors[j], data.variables);
   return { n, p, intercept: spec.intercept, names, x, terms, columnFactors: factors };
 }
 
-function fillColumn(out: Float64Array, factors: readonly ColumnFactor[], lookup: ReadonlyMap<string, Variable>): void {
+/** Writes one design column (the product of its factors) over the used rows. */
+export function fillDesignColumn(out: Float64Array, factors: readonly ColumnFactor[], lookup: ReadonlyMap<string, Variable>): void {
   out.fill(1);
   for (const f of factors) {
     const v = lookup.get(f.variable) as Variable;

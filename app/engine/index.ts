@@ -34,8 +34,8 @@ export { EngineError } from "./errors";
 export { ENGINE_VERSION, RESULTS_CAUTION } from "./version";
 export { modelSpecSchema, parseModelSpec, CANONICAL_LINK } from "./model-spec";
 export type { ModelSpec, ModelSpecInput, Term, MainTerm, InteractionTerm, Family, Link } from "./model-spec";
-export { toDataTable, isMissingCell, parseNumber, orderLevels } from "./data";
-export type { TableInput, RowTable, ColumnTable, DataTable } from "./data";
+export { toDataTable, isMissingCell, isMissingAt, cellText, selectRows, parseNumber, orderLevels } from "./data";
+export type { TableInput, RowTable, ColumnTable, TextColumnTable, TypedColumn, DataTable } from "./data";
 export type {
   LinearModelResult,
   FitOptions,

@@ -17,7 +17,7 @@ import { homogeneityOfSlopes, resetTest, type HomogeneityOfSlopes } from "./spec
 import { breuschPagan, brownForsythe, type BreuschPaganTest, type FTest } from "./spread";
 import { ENGINE_VERSION, RESULTS_CAUTION } from "./version";
 import { predictorVarianceInflation, varianceInflation, type PredictorVifRow, type VifRow } from "./vif";
-import type { DataTable } from "./data";
+import { toNumbers, type DataTable } from "./data";
 import { treatmentTestProblem, waldF, type TreatmentFTest } from "./treatment-test";
 
 export type CovarianceType = "model" | "HC0" | "HC1" | "HC2" | "HC3";
@@ -275,7 +275,7 @@ function assembleResult(ctx: LinearFitContext, diag: ObservationDiagnostics, opt
   });
 
   const partial = partialResiduals(design.x, n, design.terms.map((t) => t.columns), fit.coefficients, fit.residuals);
-  const partialResidualColumns = design.terms.map((t, k) => ({ term: t.label, values: Array.from(partial[k]) }));
+  const partialResidualColumns = design.terms.map((t, k) => ({ term: t.label, values: toNumbers(partial[k]) }));
 
   return {
     kind: "linear",
@@ -317,17 +317,17 @@ function assembleResult(ctx: LinearFitContext, diag: ObservationDiagnostics, opt
     observations: {
       row: Array.from(data.used, (i) => data.rowNumbers[i]),
       id: [...data.ids],
-      response: Array.from(data.response),
-      weight: w ? Array.from(w) : null,
-      fitted: Array.from(fit.fitted),
-      residual: Array.from(fit.residuals),
-      scaledResidual: Array.from(scaled),
-      leverage: Array.from(diag.leverage),
-      studentizedInternal: Array.from(diag.studentizedInternal),
-      studentizedExternal: Array.from(diag.studentizedExternal),
-      cooksDistance: Array.from(diag.cooksDistance),
-      dffits: Array.from(diag.dffits),
-      dfbetas: diag.dfbetas.map((c) => Array.from(c)),
+      response: toNumbers(data.response),
+      weight: w ? toNumbers(w) : null,
+      fitted: toNumbers(fit.fitted),
+      residual: toNumbers(fit.residuals),
+      scaledResidual: toNumbers(scaled),
+      leverage: toNumbers(diag.leverage),
+      studentizedInternal: toNumbers(diag.studentizedInternal),
+      studentizedExternal: toNumbers(diag.studentizedExternal),
+      cooksDistance: toNumbers(diag.cooksDistance),
+      dffits: toNumbers(diag.dffits),
+      dfbetas: diag.dfbetas.map((c) => toNumbers(c)),
       partialResiduals: partialResidualColumns,
     },
     tests: fullTests,

@@ -10,7 +10,7 @@
  */
 import { z } from "zod";
 import { EngineError } from "./errors";
-import { isMissingCell, parseNumber } from "./data";
+import { cellText, isMissingAt, parseNumber, selectRows, type TypedColumn } from "./data";
 
 const valueSchema = z.union([z.string().min(1), z.number()]);
 
@@ -42,7 +42,8 @@ export interface PopulationSelection<T> {
 }
 
 interface Columns {
-  readonly columns: Readonly<Record<string, readonly string[]>>;
+  /** Typed as stored (numbers as Float64Array with NaN for missing) or cell text. */
+  readonly columns: Readonly<Record<string, TypedColumn>>;
   readonly rowNumbers: readonly number[];
 }
 
@@ -59,8 +60,12 @@ export function describePopulation(conditions: readonly PopulationCondition[] | 
   return conditions && conditions.length > 0 ? conditions.map(describeCondition).join("; ") : "all rows";
 }
 
-function matchesValue(cell: string, value: PopulationValue): boolean {
-  const text = cell.trim();
+function matchesValue(column: TypedColumn, i: number, value: PopulationValue): boolean {
+  if (column instanceof Float64Array) {
+    const b = typeof value === "number" ? value : parseNumber(value);
+    return b !== null && column[i] === b;
+  }
+  const text = cellText(column, i).trim();
   if (text === String(value).trim()) return true;
   const a = parseNumber(text);
   const b = typeof value === "number" ? value : parseNumber(value);
@@ -68,14 +73,14 @@ function matchesValue(cell: string, value: PopulationValue): boolean {
 }
 
 /** A test of one row against one condition; throws EngineError for a range on a non-number. */
-function tester(c: PopulationCondition, cells: readonly string[], rowNumbers: readonly number[]): (i: number) => boolean {
-  if ("in" in c) return (i) => !isMissingCell(cells[i]) && c.in.some((v) => matchesValue(cells[i], v));
-  if ("notIn" in c) return (i) => isMissingCell(cells[i]) || !c.notIn.some((v) => matchesValue(cells[i], v));
+function tester(c: PopulationCondition, cells: TypedColumn, rowNumbers: readonly number[]): (i: number) => boolean {
+  if ("in" in c) return (i) => !isMissingAt(cells, i) && c.in.some((v) => matchesValue(cells, i, v));
+  if ("notIn" in c) return (i) => isMissingAt(cells, i) || !c.notIn.some((v) => matchesValue(cells, i, v));
   return (i) => {
-    if (isMissingCell(cells[i])) return false;
-    const v = parseNumber(cells[i]);
+    if (isMissingAt(cells, i)) return false;
+    const v = cells instanceof Float64Array ? cells[i] : parseNumber(cellText(cells, i));
     if (v === null) {
-      throw new EngineError(`population condition "${describeCondition(c)}": column "${c.column}" is not numeric (data row ${rowNumbers[i]} has "${cells[i]}")`);
+      throw new EngineError(`population condition "${describeCondition(c)}": column "${c.column}" is not numeric (data row ${rowNumbers[i]} has "${cellText(cells, i)}")`);
     }
     return (c.min === undefined || v >= c.min) && (c.max === undefined || v <= c.max);
   };
@@ -96,8 +101,8 @@ export function selectPopulation<T extends Columns>(table: T, conditions: readon
     if (failed < 0) keep.push(i);
     else removed[failed]++;
   }
-  const columns: Record<string, string[]> = {};
-  for (const [name, cells] of Object.entries(table.columns)) columns[name] = keep.map((i) => cells[i]);
+  const columns: Record<string, TypedColumn> = {};
+  for (const [name, cells] of Object.entries(table.columns)) columns[name] = selectRows(cells, keep);
   const selected = { ...table, columns, rowNumbers: keep.map((i) => table.rowNumbers[i]) };
   return {
     table: selected,

@@ -45,13 +45,15 @@ export function householderQR(
   a: Float64Array,
   n: number,
   p: number,
-  options: { tolerance?: number; inPlace?: boolean; rhs?: Float64Array } = {},
+  options: { tolerance?: number; inPlace?: boolean; rhs?: Float64Array; originalNorms?: Float64Array } = {},
 ): HouseholderQR {
   const tol = options.tolerance ?? ALIAS_TOLERANCE;
   const w = options.inPlace ? a : new Float64Array(a);
   const rhs = options.rhs;
-  const originalNorm = new Float64Array(p);
-  for (let j = 0; j < p; j++) originalNorm[j] = columnNorm(w, n, j * n, 0);
+  // the norms the aliasing test compares with: the columns' own, unless they were already
+  // reduced by earlier columns (columns appended to a factorization, qr-update.ts)
+  const originalNorm = options.originalNorms ?? new Float64Array(p);
+  if (!options.originalNorms) for (let j = 0; j < p; j++) originalNorm[j] = columnNorm(w, n, j * n, 0);
   const tau = new Float64Array(Math.min(n, p));
   const kept: number[] = [];
   const aliased: number[] = [];
@@ -210,7 +212,7 @@ function applyBlock(
   }
 }
 
-function columnNorm(w: Float64Array, n: number, offset: number, from: number): number {
+export function columnNorm(w: Float64Array, n: number, offset: number, from: number): number {
   let ss = 0;
   for (let i = from; i < n; i++) {
     const v = w[offset + i];

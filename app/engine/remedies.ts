@@ -5,7 +5,7 @@
  * residual variance per treatment arm; Carroll and Ruppert 1988, Transformation and Weighting in
  * Regression, chapter 3), and heteroscedasticity-consistent standard errors.
  */
-import { toDataTable, type DataTable, type TableInput } from "./data";
+import { cellText, toDataTable, type DataTable, type TableInput } from "./data";
 import { EngineError } from "./errors";
 import { fitLinearModel, type CovarianceType, type FitOptions, type LinearModelResult } from "./linear-model";
 import { parseModelSpec, type ModelSpec, type ModelSpecInput } from "./model-spec";
@@ -70,7 +70,7 @@ export function fitWithEstimatedVariance(
     const arm = spec.treatment;
     const cells = table.columns[arm];
     const sums = new Map<string, { s: number; k: number }>();
-    const labels = obs.row.map((_, i) => cells[rowIndex(table, obs.row[i])]);
+    const labels = obs.row.map((_, i) => cellText(cells, rowIndex(table, obs.row[i])));
     labels.forEach((l, i) => {
       const g = sums.get(l) ?? { s: 0, k: 0 };
       g.s += e2[i];

@@ -5,7 +5,7 @@
  * subject and the columns whose values tell its records apart (for example a visit).
  */
 import { EngineError } from "./errors";
-import type { DataTable } from "./data";
+import { cellText, type DataTable } from "./data";
 
 /** Throws EngineError for the first subject found in more than one of the rows `used`. */
 export function refuseRepeatedSubjects(table: DataTable, idColumn: string, used: ArrayLike<number>): void {
@@ -13,7 +13,7 @@ export function refuseRepeatedSubjects(table: DataTable, idColumn: string, used:
   const first = new Map<string, number>();
   for (let k = 0; k < used.length; k++) {
     const i = used[k];
-    const id = ids[i].trim();
+    const id = cellText(ids, i).trim();
     if (id === "") continue;
     const seen = first.get(id);
     if (seen === undefined) {
@@ -21,9 +21,9 @@ export function refuseRepeatedSubjects(table: DataTable, idColumn: string, used:
       continue;
     }
     const rows: number[] = [];
-    for (let m = 0; m < used.length; m++) if (ids[used[m]].trim() === id) rows.push(used[m]);
-    const separating = table.names.filter((name) => name !== idColumn && new Set(rows.map((r) => table.columns[name][r].trim())).size > 1);
-    const shown = separating.slice(0, 4).map((name) => `${name} (${[...new Set(rows.map((r) => table.columns[name][r].trim()))].slice(0, 4).join(", ")})`);
+    for (let m = 0; m < used.length; m++) if (cellText(ids, used[m]).trim() === id) rows.push(used[m]);
+    const separating = table.names.filter((name) => name !== idColumn && new Set(rows.map((r) => cellText(table.columns[name], r).trim())).size > 1);
+    const shown = separating.slice(0, 4).map((name) => `${name} (${[...new Set(rows.map((r) => cellText(table.columns[name], r).trim()))].slice(0, 4).join(", ")})`);
     throw new EngineError(
       `subject "${id}" (${idColumn}) appears in ${rows.length} analysed rows, but this model analyses one row per subject: ` +
         (shown.length > 0

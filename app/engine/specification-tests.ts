@@ -2,12 +2,13 @@
  * Tests of the model's specification by nested F tests: Ramsey's RESET (Ramsey 1969; powers 2
  * and 3 of the fitted values added to the design) and homogeneity of regression slopes
  * (treatment-by-covariate interactions added, per continuous covariate and jointly; the
- * standard check of the ANCOVA assumption).
+ * standard check of the ANCOVA assumption). The added columns are appended to the planned fit's
+ * factorization (qr-update.ts), not refitted with the whole design.
  */
-import { buildDesign, type ContinuousVariable } from "./design";
+import { fillDesignColumn, termColumns, type ContinuousVariable } from "./design";
 import { fUpper } from "./distributions";
-import { residualSumOfSquares } from "./least-squares";
 import type { LinearFitContext } from "./linear-fit-context";
+import { appendColumns, fitWithReduced, reduceColumns } from "./qr-update";
 import type { FTest } from "./spread";
 
 /** F test of a larger model against the fitted one, from their residual sums of squares and ranks. */
@@ -37,14 +38,13 @@ export function resetTest(ctx: LinearFitContext): FTest {
   for (let i = 0; i < n; i++) ss += (eta[i] - mean) ** 2;
   const sd = Math.sqrt(ss / Math.max(1, n - 1));
   if (!(sd > 0)) return { statistic: null, df1: null, df2: null, p: null, reason: "the fitted values are constant" };
-  const x = new Float64Array(n * (p + 2));
-  x.set(design.x);
+  const added = new Float64Array(n * 2);
   for (let i = 0; i < n; i++) {
     const z = (eta[i] - mean) / sd;
-    x[p * n + i] = z * z;
-    x[(p + 1) * n + i] = z * z * z;
+    added[i] = z * z;
+    added[n + i] = z * z * z;
   }
-  const big = residualSumOfSquares({ x, n, p: p + 2, y: ctx.data.response, weights: ctx.weights, offset });
+  const big = appendColumns(fit, added, 2);
   if (big.rank < p + 2) {
     return {
       statistic: null,
@@ -92,12 +92,19 @@ export function homogeneityOfSlopes(ctx: LinearFitContext): HomogeneityOfSlopes 
     };
   }
   const n = design.n;
-  const run = (extra: string[][]): FTest => {
-    const big = buildDesign(spec, data, extra);
-    const r = residualSumOfSquares({ x: big.x, n, p: big.p, y: data.response, weights: ctx.weights, offset: data.offset });
-    return nestedFTest(fit.rss, design.p, r.rss, r.rank, n);
-  };
-  const byCovariate = covariates.map((c) => ({ covariate: c, ...run([[treatment, c]]) }));
-  const joint = run(covariates.map((c) => [treatment, c]));
-  return { ...joint, byCovariate };
+  // every interaction column is made and reduced against the fit once; each covariate's test
+  // factors its own columns, the joint test all of them
+  const plans = covariates.map((c) => termColumns([treatment, c], data.variables));
+  const all = plans.flat();
+  const buffer = new Float64Array(n * all.length);
+  all.forEach((plan, j) => fillDesignColumn(buffer.subarray(j * n, (j + 1) * n), plan.factors, data.variables));
+  const reduced = reduceColumns(fit, buffer, all.length);
+  const test = (r: { rss: number; rank: number }): FTest => nestedFTest(fit.rss, design.p, r.rss, r.rank, n);
+  let first = 0;
+  const byCovariate = covariates.map((c, i) => {
+    const columns = plans[i].map((_, j) => first + j);
+    first += columns.length;
+    return { covariate: c, ...test(fitWithReduced(reduced, columns)) };
+  });
+  return { ...test(fitWithReduced(reduced)), byCovariate };
 }

@@ -17,9 +17,9 @@ import { ReproductionCard } from "~/components/reproduction-results";
 import { FitStatisticsTable } from "~/components/fit-statistics-table";
 import { coxPageFigures, CoxResults } from "~/components/cox-results";
 import { canonicalJson } from "~/.server/audit.server";
-import { loadLockedTable } from "~/.server/datasets/catalog.server";
 import { actorOf } from "~/.server/people.server";
-import { exclusionProblem, keptWhatIfInputs, rerunTable } from "~/.server/reruns/what-if.server";
+import { exclusionProblem } from "~/.server/reruns/what-if.server";
+import { keptWhatIfInputsOf } from "~/.server/reruns/what-if-inputs.server";
 import { getPlannedModel } from "~/.server/plans/plans.server";
 import { SENSITIVITY_KINDS, SENSITIVITY_LABELS } from "~/.server/plans/planned-model";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
@@ -77,7 +77,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   let whatIf: WhatIfInputs = { available: false, reason: "The what-if opens when the rerun has completed.", caution: CAUTION };
   if (r.doc && r.rerun.kind === "primary" && allowed.has("rerun.start") && !r.rerun.signedAt) {
     const doc = r.doc;
-    whatIf = await keptWhatIfInputs(r.rerun, doc, async () => rerunTable(doc, (await loadLockedTable(r.rerun.datasetVersionId)).table), {
+    whatIf = await keptWhatIfInputsOf(r.rerun, doc, {
       prespecifiedExclusion: planned.sensitivity.some((s) => s.kind === "exclude_influential"),
       withSubjectIds: withIds,
       canSave: true,

@@ -9,6 +9,8 @@ import path from "node:path";
 export interface RunningApp {
   url: string;
   process: ChildProcess;
+  /** The last 8 000 characters the server wrote (with output "pipe"). */
+  log(): string;
   stop(): Promise<void>;
 }
 
@@ -49,6 +51,7 @@ export async function startAppServer(opts: {
   return {
     url,
     process: child,
+    log: () => log,
     stop: () =>
       new Promise<void>((resolve) => {
         if (child.exitCode !== null) return resolve();

@@ -69,6 +69,7 @@ export async function buildLargeStudy(opts: LargeStudyOptions = {}): Promise<Lar
   const { readPlannedModelForm, validatePlannedModel } = await import("../../app/.server/plans/planned-model");
   const reruns = await import("../../app/.server/reruns/reruns.server");
   const { runOneJob } = await import("../../app/.server/jobs/jobs.server");
+  (await import("../../app/.server/background.server")).registerJobHandlers();
 
   const seeded = await seedDemoStudy();
   if (!seeded.seeded) throw new Error(`The demo study could not be seeded: ${seeded.reason}`);

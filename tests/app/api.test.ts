@@ -98,6 +98,7 @@ async function makeApiStudy(): Promise<void> {
   const reruns = await import("~/.server/reruns/reruns.server");
   const findings = await import("~/.server/reruns/findings.server");
   const { runOneJob } = await import("~/.server/jobs/jobs.server");
+  (await import("~/.server/background.server")).registerJobHandlers();
   const { createToken } = await import("~/.server/api/tokens.server");
   const person = async (email: string) => {
     const [p] = await db.select().from(t.people).where(eq(t.people.email, email));

@@ -65,6 +65,7 @@ beforeAll(async () => {
   const reruns = await import("~/.server/reruns/reruns.server");
   const findings = await import("~/.server/reruns/findings.server");
   const { runOneJob } = await import("~/.server/jobs/jobs.server");
+  (await import("~/.server/background.server")).registerJobHandlers();
   const { createToken } = await import("~/.server/api/tokens.server");
   const { exportAppendix } = await import("~/.server/appendix/appendix.server");
   const person = async (email: string) => {

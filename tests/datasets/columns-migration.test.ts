@@ -21,6 +21,7 @@ const { validatePlannedModel, readPlannedModelForm } = await import("~/.server/p
 const catalog = await import("~/.server/datasets/catalog.server");
 const reruns = await import("~/.server/reruns/reruns.server");
 const { runOneJob } = await import("~/.server/jobs/jobs.server");
+(await import("~/.server/background.server")).registerJobHandlers();
 const { canonicalJson } = await import("~/.server/audit.server");
 const { parseDatasetFile } = await import("~/.server/datasets/parse.server");
 const { readLegacyColumnsFile, writeLegacyColumnsFile } = await import("~/.server/datasets/columns-file.server");

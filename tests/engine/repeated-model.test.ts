@@ -10,7 +10,7 @@ import { join } from "node:path";
 import { describe, expect, it } from "vitest";
 import { readCsvText } from "~/engine-io/read-csv";
 import { EngineError } from "~/engine/errors";
-import { toDataTable, type ColumnTable } from "~/engine/data";
+import { cellText, selectRows, toDataTable, type ColumnTable } from "~/engine/data";
 import { fitRepeatedModel } from "~/engine/repeated/repeated-model";
 import { evaluateLikelihood } from "~/engine/repeated/likelihood";
 import { prepareRepeatedData } from "~/engine/repeated/repeated-data";
@@ -34,10 +34,10 @@ function filterRows(table: ColumnTable, keep: (row: Record<string, string>) => b
   const n = table.columns[names[0]].length;
   const idx: number[] = [];
   for (let i = 0; i < n; i++) {
-    const row = Object.fromEntries(names.map((c) => [c, table.columns[c][i]]));
+    const row = Object.fromEntries(names.map((c) => [c, cellText(table.columns[c], i)]));
     if (keep(row)) idx.push(i);
   }
-  return { columns: Object.fromEntries(names.map((c) => [c, idx.map((i) => table.columns[c][i])])) };
+  return { columns: Object.fromEntries(names.map((c) => [c, selectRows(table.columns[c], idx)])) };
 }
 
 describe("fallback structures", () => {

@@ -13,6 +13,7 @@ useTempDatabase();
 const { db, dbClient, t, writeTransaction, newId } = await import("~/.server/db/index.server");
 const reruns = await import("~/.server/reruns/reruns.server");
 const { runOneJob, enqueueJob } = await import("~/.server/jobs/jobs.server");
+(await import("~/.server/background.server")).registerJobHandlers();
 const { eq } = await import("drizzle-orm");
 
 let s: SignedRerun;

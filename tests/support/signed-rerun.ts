@@ -26,6 +26,7 @@ export async function makeSignedRerun(): Promise<SignedRerun> {
   const reruns = await import("~/.server/reruns/reruns.server");
   const findings = await import("~/.server/reruns/findings.server");
   const { runOneJob } = await import("~/.server/jobs/jobs.server");
+  (await import("~/.server/background.server")).registerJobHandlers();
   const { eq } = await import("drizzle-orm");
 
   const seeded = await seedDemoStudy();

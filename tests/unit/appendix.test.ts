@@ -239,6 +239,7 @@ describe("the Word appendix of a signed rerun", () => {
     const reruns = await import("~/.server/reruns/reruns.server");
     const findings = await import("~/.server/reruns/findings.server");
     const { runOneJob } = await import("~/.server/jobs/jobs.server");
+    (await import("~/.server/background.server")).registerJobHandlers();
     const next = await plans.startNextVersion(s.people.priya, s.studyId, s.planVersionId);
     const v2 = await plans.getPlanVersion(s.studyId, next);
     const linear = v2.models[0];

@@ -36,6 +36,7 @@ const findings = await import("~/.server/reruns/findings.server");
 const { buildAppendixContent } = await import("~/.server/appendix/build-content.server");
 const { getReport } = await import("~/.server/reports/reports.server");
 const { runOneJob } = await import("~/.server/jobs/jobs.server");
+(await import("~/.server/background.server")).registerJobHandlers();
 const { actorOf } = await import("~/.server/people.server");
 const { eq } = await import("drizzle-orm");
 

@@ -29,6 +29,7 @@ const { listLockedVersions } = await import("~/.server/datasets/catalog.server")
 const reruns = await import("~/.server/reruns/reruns.server");
 const findings = await import("~/.server/reruns/findings.server");
 const { runOneJob } = await import("~/.server/jobs/jobs.server");
+(await import("~/.server/background.server")).registerJobHandlers();
 const { queueDueRetries, retryDelayMs } = await import("~/.server/mail/outbox.server");
 const { notifyAppendixExported } = await import("~/.server/mail/notifications.server");
 const { CAUTION } = await import("~/components/caution");

@@ -19,6 +19,7 @@ const { listLockedVersions } = await import("~/.server/datasets/catalog.server")
 const reruns = await import("~/.server/reruns/reruns.server");
 const findings = await import("~/.server/reruns/findings.server");
 const { runOneJob } = await import("~/.server/jobs/jobs.server");
+(await import("~/.server/background.server")).registerJobHandlers();
 const { verifyAuditChain } = await import("~/.server/audit.server");
 const { eq, inArray } = await import("drizzle-orm");
 

@@ -17,6 +17,7 @@ const { db, t } = await import("~/.server/db/index.server");
 const { eq } = await import("drizzle-orm");
 const reruns = await import("~/.server/reruns/reruns.server");
 const { runOneJob } = await import("~/.server/jobs/jobs.server");
+(await import("~/.server/background.server")).registerJobHandlers();
 
 type Module = { loader?: (args: never) => Promise<unknown>; action?: (args: never) => Promise<unknown> };
 const route = async (name: string): Promise<Module> => (await import(`../../app/routes/${name}`)) as Module;

@@ -17,7 +17,7 @@ import { notifyAppendixExported } from "../mail/notifications.server";
 import { describeStorageError, isStorageError, STORAGE_ADVICE } from "../storage-errors.server";
 import type { PersonActor } from "../people.server";
 import { buildAppendixContent, type AppendixScope } from "./build-content.server";
-import { renderDocx } from "./docx.server";
+import { renderDocxTask } from "../compute/pool.server";
 
 export type StoredAppendix = typeof t.appendices.$inferSelect;
 
@@ -64,7 +64,8 @@ async function auditRefusal(actor: PersonActor, studyId: string, scope: Appendix
 /** Builds and renders the appendix without storing it (the same bytes an export stores). */
 export async function renderAppendix(studyId: string, scope: AppendixScope) {
   const content = await buildAppendixContent(studyId, scope);
-  const bytes = await renderDocx(content);
+  // rendering (figures drawn, fonts subset, the package zipped) runs in a compute thread
+  const bytes = await renderDocxTask(content);
   return { content, bytes, sha256: createHash("sha256").update(bytes).digest("hex") };
 }
 

@@ -7,7 +7,7 @@ import { and, asc, eq } from "drizzle-orm";
 import { db, t } from "../db/index.server";
 import type { ColumnMeta } from "./column-summary";
 import { textOf, type StoredColumns, type TypedColumn } from "./arrow-columns.server";
-import { storedColumnsOf } from "./stored-columns.server";
+import { columnsFileOf, storedColumnsOf } from "./stored-columns.server";
 
 export type { ColumnMeta } from "./column-summary";
 export type { TypedColumn } from "./arrow-columns.server";
@@ -81,6 +81,18 @@ export async function loadLockedTable(versionId: string): Promise<LockedTable> {
     sha256: v.sha256,
     columns: JSON.parse(v.columnsJson) as ColumnMeta[],
   };
+}
+
+/**
+ * The Arrow columns file of a locked version (absolute path) and its SHA-256, for work that
+ * reads the columns in another thread. Throws DatasetNotFoundError as loadLockedTable does.
+ */
+export async function lockedColumnsFile(versionId: string): Promise<{ file: string; sha256: string }> {
+  const [v] = await db.select().from(t.datasetVersions).where(eq(t.datasetVersions.id, versionId)).limit(1);
+  if (!v || v.status !== "locked") {
+    throw new DatasetNotFoundError(`There is no locked dataset version with the id "${versionId}". Lock the version first, then rerun.`);
+  }
+  return { file: await columnsFileOf(v), sha256: v.sha256 };
 }
 
 /** Cell-text columns that are made from the typed ones only when a caller reads them. */

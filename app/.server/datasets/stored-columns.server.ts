@@ -130,6 +130,11 @@ export async function migrateStoredColumns(): Promise<{ migrated: number; failed
  * rebuilding its Arrow file from the original bytes when that file has gone missing).
  */
 export async function storedColumnsOf(v: VersionRow): Promise<StoredColumns> {
+  return readArrowColumnsCached(await columnsFileOf(v));
+}
+
+/** The absolute path of a version's Arrow columns file, migrating the version first when needed. */
+export async function columnsFileOf(v: VersionRow): Promise<string> {
   const relative = needsArrow(v) ? await migrateVersionColumns(v) : (v.parsedPath as string);
-  return readArrowColumnsCached(absoluteStorePath(relative));
+  return absoluteStorePath(relative);
 }

@@ -103,9 +103,12 @@ export async function deliverQueued(outboxId: string, now: () => Date = () => ne
 
 const MailJob = z.object({ outboxId: z.string().min(1) });
 
-registerJobHandler(MAIL_JOB, async (payload) => {
-  await deliverQueued(MailJob.parse(payload).outboxId);
-});
+/** Registers the mail job's handler (called where the job worker starts). */
+export function registerMailJobs(): void {
+  registerJobHandler(MAIL_JOB, async (payload) => {
+    await deliverQueued(MailJob.parse(payload).outboxId);
+  });
+}
 
 /**
  * Queues a send job for every message whose next try is due (or whose send job was lost).

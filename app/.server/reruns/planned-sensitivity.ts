@@ -9,7 +9,7 @@ import type { RerunOptions } from "./rerun-options";
 import type { RerunDocument } from "./reruns.server";
 
 /** The options of a planned sensitivity analysis, given the primary rerun's result; null when there is nothing to run. */
-export function optionsFor(s: PlannedSensitivity, primary: RerunDocument | null): RerunOptions | null {
+export function optionsFor(s: PlannedSensitivity, primary: Pick<RerunDocument, "checks"> | null): RerunOptions | null {
   switch (s.kind) {
     case "robust_hc3":
       return { variant: "robust_hc3" };
@@ -38,7 +38,7 @@ export function optionsFor(s: PlannedSensitivity, primary: RerunDocument | null)
  * those that apply to the model's family and have something to run. What-if analyses that are
  * not pre-specified stay manual.
  */
-export function plannedSensitivityOptions(model: Pick<PlannedModel, "spec" | "sensitivity">, primary: RerunDocument): RerunOptions[] {
+export function plannedSensitivityOptions(model: Pick<PlannedModel, "spec" | "sensitivity">, primary: Pick<RerunDocument, "checks">): RerunOptions[] {
   return model.sensitivity.flatMap((s) => {
     if (!sensitivityApplies(s.kind, model.spec.family)) return [];
     const options = optionsFor(s, primary);

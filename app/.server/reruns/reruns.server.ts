@@ -5,188 +5,33 @@
  * determines it, rerunning yields the same hash. A model that cannot be estimated as planned
  * is kept as a failed rerun with the engine's reason and a finding of that kind.
  */
-import { createHash } from "node:crypto";
 import { and, asc, desc, eq, getTableColumns, inArray } from "drizzle-orm";
 import { LRUCache } from "lru-cache";
 import { data } from "react-router";
-import { evaluateChecks, findingSummary, type CheckOutcome } from "~/engine/checks";
-import { evaluateCoxChecks } from "~/engine/survival/cox-checks";
-import { checkReproduction, reproductionAsCheck, type ReproductionResult } from "~/engine/reproduction";
-import { fitCoxModel, type CoxResult } from "~/engine/survival/cox-model";
-import type { CoxSpec } from "~/engine/survival/cox-spec";
-import { restrictedMeanByArm, type RestrictedMeanDifference } from "~/engine/survival/rmst";
-import { coxFunctionalForm, type FunctionalFormTest } from "~/engine/survival/functional-form";
-import { EngineError, ENGINE_VERSION, fitModel, fitWithEstimatedVariance, fitWithRobustErrors, RESULTS_CAUTION, type ModelResult, type ModelSpec, type Term } from "~/engine";
+import { findingSummary } from "~/engine/checks";
+import { EngineError, ENGINE_VERSION } from "~/engine";
 import { appendAudit, canonicalJson, SYSTEM_ACTOR } from "../audit.server";
-import { loadLockedTable } from "../datasets/catalog.server";
+import { runRerunTask } from "../compute/pool.server";
+import { sha256Hex } from "../compute/rerun-task";
+import { lockedColumnsFile } from "../datasets/catalog.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
 import { enqueueJob, registerJobFailureHook, registerJobHandler, type Job } from "../jobs/jobs.server";
 import { notifyRerunAwaitsSignOff } from "../mail/notifications.server";
 import type { PersonActor } from "../people.server";
-import { populationOf } from "../plans/planned-model";
-import { selectPopulation, type PopulationStep } from "~/engine/population";
-import type { DocumentPopulation } from "./rerun-population";
-import { getPlannedModel, type StoredPlannedModel } from "../plans/plans.server";
+import { getPlannedModel } from "../plans/plans.server";
+import { reproductionCheckOf, type RerunDocument } from "./compute-rerun";
 import { describeOptions, rerunOptionsSchema, type RerunOptions } from "./rerun-options";
 import { exclusionProblem } from "./what-if.server";
 import { plannedSensitivityOptions } from "./planned-sensitivity";
-import { withSandwichErrors } from "~/engine/glm/sandwich-errors";
 
-export type Rerun = typeof t.reruns.$inferSelect;
-
-/** Everything a rerun stored: the engine's result, the plan's checks evaluated on it, and its inputs. */
-export interface RerunDocument {
-  engineVersion: string;
-  caution: string;
-  datasetSha256: string;
-  planVersionId: string;
-  plannedModel: { key: string; title: string };
-  options: RerunOptions;
-  description: string;
-  rows: { inFile: number; outsidePopulation: number; excludedByOption: number; missingCells: number; used: number };
-  /** The population conditions (documents stored before conditions hold one column = value, or null). */
-  population: DocumentPopulation;
-  /** Rows removed by each population condition, in the plan's order (absent in older documents). */
-  populationSteps?: PopulationStep[];
-  /** Linear, generalized linear or Cox (`kind` "cox"): narrow on `result.kind`. */
-  result: ModelResult | CoxResult;
-  checks: CheckOutcome[];
-  /** Cox reruns: the likelihood-ratio test of an added square per continuous covariate (the functional-form check and figures read it). */
-  coxFunctionalForm?: FunctionalFormTest[];
-  /** Cox reruns of the restricted-mean analysis: each arm against the reference, to the horizon τ. */
-  restrictedMean?: RestrictedMeanDifference[];
-  /** The planned analysis of a model whose plan gives published values: the reproduction check (reproduction.ts). */
-  reproduction?: ReproductionResult;
-}
-
-/** The reproduction check as one of the rerun's checks (key "reproduction"), when the plan gives published values. */
-export function reproductionCheckOf(doc: RerunDocument) {
-  return doc.reproduction ? reproductionAsCheck(doc.reproduction) : null;
-}
+export { computeRerun, reproductionCheckOf, type RerunDocument, type RerunTable } from "./compute-rerun";
 
 export const RERUN_JOB = "rerun";
 
-interface ColumnTable {
-  columns: Record<string, string[]>;
-  rowNumbers: number[];
-}
-
-function filterRows(table: ColumnTable, keep: (i: number) => boolean): ColumnTable {
-  const idx: number[] = [];
-  for (let i = 0; i < table.rowNumbers.length; i++) if (keep(i)) idx.push(i);
-  const columns: Record<string, string[]> = {};
-  for (const [k, v] of Object.entries(table.columns)) columns[k] = idx.map((i) => v[i]);
-  return { columns, rowNumbers: idx.map((i) => table.rowNumbers[i]) };
-}
-
-/** The alternative covariate set: the treatment plus the chosen covariates, as the plan defines them. */
-function alternativeSpec<S extends Pick<ModelSpec, "terms" | "treatment">>(spec: S, covariates: string[]): S {
-  const main = spec.terms.filter((t): t is Extract<Term, { variable: string }> => "variable" in t);
-  const keep = new Set([...(spec.treatment ? [spec.treatment] : []), ...covariates]);
-  const terms: Term[] = [
-    ...main.filter((t) => keep.has(t.variable)),
-    ...covariates.filter((c) => !main.some((t) => t.variable === c)).map((variable) => ({ variable })),
-    ...spec.terms.filter((t): t is Extract<Term, { interaction: string[] }> => "interaction" in t && t.interaction.every((v) => keep.has(v))),
-  ];
-  return { ...spec, terms };
-}
-
-/** The Cox specification a rerun fits: the planned one, or the sensitivity analysis's variant of it. */
-function coxVariantSpec(planned: CoxSpec, options: RerunOptions): CoxSpec {
-  switch (options.variant) {
-    case "planned":
-    case "exclude_rows":
-    case "cox_rmst":
-      return planned;
-    case "alternative_covariates":
-      return alternativeSpec(planned, options.covariates);
-    case "cox_robust_subject":
-      if (!planned.id) throw new EngineError("robust errors clustered by subject need the subject identifier column in the planned model");
-      return { ...planned, cluster: planned.id };
-    case "cox_unstratified":
-      return { ...planned, strata: [] };
-    default:
-      throw new EngineError(`the ${describeOptions(options).toLowerCase()} analysis does not apply to a time-to-event (Cox) model`);
-  }
-}
-
-/** The restricted mean survival time difference by arm, on the subjects the Cox model used. */
-function restrictedMeanOf(spec: CoxSpec, working: ColumnTable, result: CoxResult, tau: number): RestrictedMeanDifference[] {
-  const treatment = spec.treatment;
-  const cells = treatment ? working.columns[treatment] : undefined;
-  if (!treatment || !cells) throw new EngineError("a restricted mean survival time difference needs the treatment column");
-  const indexOf = new Map(working.rowNumbers.map((r, i) => [r, i]));
-  const arm = result.observations.row.map((r) => cells[indexOf.get(r) as number].trim());
-  const levels = result.survival.filter((s) => s.stratum === null && s.level !== null).map((s) => s.level as string);
-  const term = spec.terms.find((x) => "variable" in x && x.variable === treatment);
-  const reference = (term && "reference" in term && term.reference) || levels[0];
-  return restrictedMeanByArm(result.observations.time, result.observations.status, arm, levels, reference, tau);
-}
-
-/** Fits the planned model (or its sensitivity variant) and evaluates the plan's checks. Pure apart from the inputs given. */
-export function computeRerun(model: StoredPlannedModel, table: ColumnTable, options: RerunOptions, meta: { datasetSha256: string; planVersionId: string }): RerunDocument {
-  const inFile = table.rowNumbers.length;
-  const population = selectPopulation(table, populationOf(model));
-  let working = population.table;
-  const inPopulation = working.rowNumbers.length;
-  if (options.variant === "exclude_rows") {
-    const drop = new Set(options.rows);
-    working = filterRows(working, (i) => !drop.has(working.rowNumbers[i]));
-  }
-  const excludedByOption = inPopulation - working.rowNumbers.length;
-  const doc = (result: ModelResult | CoxResult, checks: CheckOutcome[]): RerunDocument => ({
-    engineVersion: ENGINE_VERSION,
-    caution: RESULTS_CAUTION,
-    datasetSha256: meta.datasetSha256,
-    planVersionId: meta.planVersionId,
-    plannedModel: { key: model.key, title: model.title },
-    options,
-    description: describeOptions(options),
-    rows: { inFile, outsidePopulation: inFile - inPopulation, excludedByOption, missingCells: result.excluded, used: result.n },
-    population: populationOf(model),
-    populationSteps: [...population.byCondition],
-    result,
-    checks,
-  });
-  if (model.spec.family === "cox") {
-    const coxSpec = coxVariantSpec(model.spec, options);
-    const result = fitCoxModel(coxSpec, working);
-    const functionalForm = coxFunctionalForm(coxSpec, working, result);
-    const restrictedMean = options.variant === "cox_rmst" ? restrictedMeanOf(coxSpec, working, result, options.tau) : undefined;
-    return { ...doc(result, evaluateCoxChecks(result, model.checks, functionalForm)), coxFunctionalForm: functionalForm, ...(restrictedMean ? { restrictedMean } : {}) };
-  }
-  const planned = model.spec;
-  let spec = options.variant === "alternative_covariates" ? alternativeSpec(planned, options.covariates) : planned;
-  if (options.variant === "family") {
-    if (spec.family !== "poisson") throw new EngineError(`a ${options.family} analysis applies to a Poisson model of counts, not to a ${spec.family} model`);
-    spec = { ...spec, family: options.family };
-  }
-  if (options.variant === "variance_function" && spec.family !== "gaussian") {
-    throw new EngineError(`the ${describeOptions(options).toLowerCase()} remedy applies to linear models, not to a ${spec.family} model`);
-  }
-  let result: ModelResult;
-  switch (options.variant) {
-    case "robust_hc3":
-      if (spec.family === "gaussian") {
-        result = fitWithRobustErrors(spec, working, "HC3");
-      } else {
-        const glm = fitModel(spec, working);
-        if (glm.kind !== "glm") throw new EngineError("robust errors of a generalized linear model need its fit");
-        result = withSandwichErrors(glm, "HC3");
-      }
-      break;
-    case "variance_function":
-      result = fitWithEstimatedVariance(spec, working, options.varianceBy);
-      break;
-    default:
-      result = fitModel(spec, working);
-  }
-  const published = options.variant === "planned" ? (spec.published ?? []) : [];
-  return { ...doc(result, evaluateChecks(result, model.checks)), ...(published.length > 0 ? { reproduction: checkReproduction(result, published) } : {}) };
-}
+export type Rerun = typeof t.reruns.$inferSelect;
 
 export function hashDocument(json: string): string {
-  return createHash("sha256").update(json).digest("hex");
+  return sha256Hex(json);
 }
 
 /** Job handler: runs the rerun and stores its result, its findings, or why it failed. */
@@ -201,14 +46,18 @@ export async function executeRerun(rerunId: string): Promise<void> {
     throw new Error(`its options are not valid (${issue.path.join(".") || "options"}: ${issue.message})`);
   }
   const options = parsedOptions.data;
-  let doc: RerunDocument;
+  // the computation runs in a compute thread (pool.server.ts): this process keeps serving
+  let outcome: Awaited<ReturnType<typeof runRerunTask>>;
   try {
-    const locked = await loadLockedTable(rerun.datasetVersionId);
+    const locked = await lockedColumnsFile(rerun.datasetVersionId);
     if (locked.sha256 !== rerun.datasetSha256) throw new EngineError("the locked dataset's hash differs from the one recorded when the rerun was started");
-    doc = computeRerun(model, locked.table, options, { datasetSha256: locked.sha256, planVersionId: rerun.planVersionId });
+    outcome = await runRerunTask({ model, columnsFile: locked.file, options, meta: { datasetSha256: locked.sha256, planVersionId: rerun.planVersionId } });
   } catch (e) {
     if (!(e instanceof EngineError)) throw e;
-    const reason = e.message;
+    outcome = { ok: false, engineError: e.message };
+  }
+  if (!outcome.ok) {
+    const reason = outcome.engineError;
     await writeTransaction(async (tx) => {
       await tx.update(t.reruns).set({ status: "failed", failureReason: reason, engineVersion: ENGINE_VERSION, finishedAt: isoNow() }).where(eq(t.reruns.id, rerunId));
       await tx.insert(t.findings).values({
@@ -222,8 +71,8 @@ export async function executeRerun(rerunId: string): Promise<void> {
     });
     return;
   }
-  const json = canonicalJson(doc);
-  const hash = hashDocument(json);
+  const { json, sha256: hash } = outcome;
+  const doc = { engineVersion: outcome.engineVersion, checks: outcome.checks, reproduction: outcome.reproduction };
   await writeTransaction(async (tx) => {
     await tx
       .update(t.reruns)
@@ -332,12 +181,15 @@ export async function failRerunOfJob(job: Job, reason: string): Promise<void> {
   });
 }
 
-registerJobHandler(RERUN_JOB, async (payload) => {
-  const rerunId = (payload as { rerunId?: unknown } | null)?.rerunId;
-  if (typeof rerunId !== "string") throw new Error("the job names no rerun");
-  await executeRerun(rerunId);
-});
-registerJobFailureHook(RERUN_JOB, failRerunOfJob);
+/** Registers the rerun job's handler and failure hook (called where the job worker starts). */
+export function registerRerunJobs(): void {
+  registerJobHandler(RERUN_JOB, async (payload) => {
+    const rerunId = (payload as { rerunId?: unknown } | null)?.rerunId;
+    if (typeof rerunId !== "string") throw new Error("the job names no rerun");
+    await executeRerun(rerunId);
+  });
+  registerJobFailureHook(RERUN_JOB, failRerunOfJob);
+}
 
 export interface StartRerun {
   plannedModelId: string;
@@ -424,9 +276,10 @@ export interface RerunListing {
   resultSha256: string | null;
 }
 
+/** The study's reruns for listing (never their stored results: one of a large rerun is hundreds of MB). */
 export async function listReruns(studyId: string): Promise<RerunListing[]> {
   const rows = await db
-    .select({ r: t.reruns, m: t.plannedModels, dv: t.datasetVersions, d: t.datasets, pv: t.planVersions, who: t.people.displayName })
+    .select({ r: rerunWithoutResult, m: t.plannedModels, dv: t.datasetVersions, d: t.datasets, pv: t.planVersions, who: t.people.displayName })
     .from(t.reruns)
     .innerJoin(t.plannedModels, eq(t.plannedModels.id, t.reruns.plannedModelId))
     .innerJoin(t.datasetVersions, eq(t.datasetVersions.id, t.reruns.datasetVersionId))

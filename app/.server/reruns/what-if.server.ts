@@ -6,7 +6,7 @@
  */
 import type { WhatIfCandidate, WhatIfInputs } from "~/components/figures/what-if-inputs";
 import { CHECK_BY_KEY, type CheckKey } from "~/engine/checks";
-import { toDataTable } from "~/engine/data";
+import { selectRows, toDataTable, type ColumnTable, type TypedColumn } from "~/engine/data";
 import { buildDesign, prepareData } from "~/engine/design";
 import { EngineError, RESULTS_CAUTION, type LinearModelResult } from "~/engine";
 import { leastSquares } from "~/engine/least-squares";
@@ -15,9 +15,9 @@ import type { RerunDocument } from "./reruns.server";
 import { selectPopulation } from "~/engine/population";
 import { conditionsOfDocument } from "./rerun-population";
 
-/** The engine's table input: cells as text by column, 1-based data rows. */
-export interface RerunTable {
-  columns: Record<string, string[]>;
+/** The engine's table input: cells as text by column (or typed columns, `C`), 1-based data rows. */
+export interface RerunTable<C extends TypedColumn = string[]> {
+  columns: Record<string, C>;
   rowNumbers: number[];
 }
 
@@ -26,11 +26,11 @@ export const WHAT_IF_CANDIDATES = 30;
 
 const INFLUENCE_CHECKS: readonly CheckKey[] = ["cooks_distance", "leverage", "deletion_residual", "dfbetas_treatment", "dffits"];
 
-function keepRows(table: RerunTable, keep: (i: number) => boolean): RerunTable {
+function keepRows<C extends TypedColumn>(table: RerunTable<C>, keep: (i: number) => boolean): RerunTable<C> {
   const idx: number[] = [];
   for (let i = 0; i < table.rowNumbers.length; i++) if (keep(i)) idx.push(i);
-  const columns: Record<string, string[]> = {};
-  for (const [k, v] of Object.entries(table.columns)) columns[k] = idx.map((i) => v[i]);
+  const columns: Record<string, C> = {};
+  for (const [k, v] of Object.entries(table.columns)) columns[k] = selectRows(v, idx) as C;
   return { columns, rowNumbers: idx.map((i) => table.rowNumbers[i]) };
 }
 
@@ -39,7 +39,7 @@ function keepRows(table: RerunTable, keep: (i: number) => boolean): RerunTable {
  * options excluded (the same steps as computeRerun in reruns.server.ts). Rows with a missing
  * cell stay; the engine leaves them out itself, as in the rerun.
  */
-export function rerunTable(doc: RerunDocument, table: RerunTable): RerunTable {
+export function rerunTable<C extends TypedColumn = string[]>(doc: RerunDocument, table: RerunTable<C>): RerunTable<C> {
   let working = selectPopulation(table, conditionsOfDocument(doc.population)).table;
   if (doc.options.variant === "exclude_rows") {
     const drop = new Set(doc.options.rows);
@@ -93,10 +93,15 @@ const kept = new LRUCache<string, WhatIfInputs>({ max: 32 });
  * asked for only when they are not kept yet (it reads the locked dataset).
  */
 export async function keptWhatIfInputs(rerun: { id: string; resultSha256: string | null }, doc: RerunDocument, table: () => Promise<RerunTable>, options: WhatIfOptions = {}): Promise<WhatIfInputs> {
+  return keptOrBuilt(rerun, options, async () => whatIfInputs(doc, await table(), options));
+}
+
+/** What-if inputs kept by result hash and options, else made by `build` (here, or in a compute thread) and kept. */
+export async function keptOrBuilt(rerun: { id: string; resultSha256: string | null }, options: WhatIfOptions, build: () => Promise<WhatIfInputs>): Promise<WhatIfInputs> {
   const key = JSON.stringify([rerun.id, rerun.resultSha256, options.prespecifiedExclusion ?? false, options.withSubjectIds ?? true, options.canSave ?? true]);
   const hit = kept.get(key);
   if (hit) return hit;
-  const inputs = whatIfInputs(doc, await table(), options);
+  const inputs = await build();
   kept.set(key, inputs);
   return inputs;
 }
@@ -107,7 +112,7 @@ export async function keptWhatIfInputs(rerun: { id: string; resultSha256: string
  * the treatment coefficient itself, so its vector L does not move when subjects are left out
  * (with interactions it depends on covariate means, which do).
  */
-export function whatIfInputs(doc: RerunDocument, table: RerunTable, options: WhatIfOptions = {}): WhatIfInputs {
+export function whatIfInputs(doc: RerunDocument, table: ColumnTable, options: WhatIfOptions = {}): WhatIfInputs {
   if (doc.result.kind === "cox") return unavailable("The closed-form what-if is offered for linear models; this rerun is a time-to-event (Cox) model. Use a sensitivity rerun excluding the subjects.");
   if (doc.result.kind !== "linear") return unavailable("The closed-form what-if is offered for linear models; this rerun is a generalized linear model. Use a sensitivity rerun excluding the subjects.");
   const r = doc.result;

@@ -2,26 +2,41 @@
  * Response checks of the generalized linear models: a binary response is 0/1 or a two-level
  * column with its event level named; counts are non-negative integers; offsets are finite.
  */
-import { isMissingCell, orderLevels, parseNumber, type DataTable } from "../data";
+import { cellText, isMissingAt, isMissingCell, orderLevels, parseNumber, type DataTable, type TypedColumn } from "../data";
 import type { PreparedData } from "../design";
 import { EngineError } from "../errors";
 import type { ModelSpec } from "../model-spec";
 
 const NON_FINITE = /^[+-]?(inf|infinity|nan)$/i;
 
-/** Rewrites a two-level binomial response as 0/1 text (the event level as 1); checks offsets. */
+/** The distinct non-missing labels of a column (numbers as their text), in order of first appearance. */
+function presentLabels(cells: TypedColumn): string[] {
+  const seen = new Set<string>();
+  if (cells instanceof Float64Array) {
+    const values = new Set<number>();
+    for (let i = 0; i < cells.length; i++) if (!Number.isNaN(cells[i])) values.add(cells[i]);
+    for (const v of values) seen.add(String(v));
+    return [...seen];
+  }
+  for (const c of cells) if (!isMissingCell(c)) seen.add(c as string);
+  return [...seen];
+}
+
+/** Rewrites a two-level binomial response as 0/1 (the event level as 1); checks offsets. */
 export function prepareGlmTable(spec: ModelSpec, table: DataTable): DataTable {
   if (spec.offset && spec.offset in table.columns) {
     const cells = table.columns[spec.offset];
-    cells.forEach((cell, i) => {
-      if (NON_FINITE.test(cell.trim())) {
-        throw new EngineError(`offset column "${spec.offset}" has a non-finite value ("${cell}") at data row ${table.rowNumbers[i]}`);
-      }
-    });
+    if (!(cells instanceof Float64Array)) {
+      cells.forEach((cell, i) => {
+        if (cell !== null && NON_FINITE.test(cell.trim())) {
+          throw new EngineError(`offset column "${spec.offset}" has a non-finite value ("${cell}") at data row ${table.rowNumbers[i]}`);
+        }
+      });
+    }
   }
   if (spec.family !== "binomial" || !(spec.response in table.columns)) return table;
   const cells = table.columns[spec.response];
-  const levels = orderLevels(cells.filter((c) => !isMissingCell(c)));
+  const levels = orderLevels(presentLabels(cells));
   if (levels.length > 2) {
     throw new EngineError(`binary response "${spec.response}" has more than two levels: ${levels.join(", ")}`);
   }
@@ -35,7 +50,8 @@ export function prepareGlmTable(spec: ModelSpec, table: DataTable): DataTable {
   if (!levels.includes(spec.event)) {
     throw new EngineError(`event level "${spec.event}" is not present in "${spec.response}"; levels: ${levels.join(", ")}`);
   }
-  const mapped = cells.map((c) => (isMissingCell(c) ? c : c === spec.event ? "1" : "0"));
+  const mapped = new Float64Array(table.nRows);
+  for (let i = 0; i < table.nRows; i++) mapped[i] = isMissingAt(cells, i) ? Number.NaN : cellText(cells, i) === spec.event ? 1 : 0;
   return { ...table, columns: { ...table.columns, [spec.response]: mapped } };
 }
 

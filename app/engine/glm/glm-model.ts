@@ -5,7 +5,7 @@
  * diagnostics at convergence from the weighted QR (Williams 1987; Pregibon 1981); checks of
  * assumptions and marginal treatment effects.
  */
-import type { DataTable } from "../data";
+import { toNumbers, type DataTable } from "../data";
 import { buildDesign, prepareData, type Design, type PreparedData, type Variable } from "../design";
 import { observationDiagnostics, robustCovariances } from "../diagnostics";
 import { chiSquareUpper, normalQuantile, normalUpper, tTwoSided } from "../distributions";
@@ -445,7 +445,7 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     .filter(({ t }) => t.kind === "continuous")
     .map(({ t, k }) => {
       const v = data.variables.get(t.variables[0]) as Extract<Variable, { kind: "continuous" }>;
-      const smooth = lowess(Array.from(v.values), partialResiduals[k].values);
+      const smooth = lowess(toNumbers(v.values), partialResiduals[k].values);
       return { term: t.label, x: smooth.x, y: smooth.y };
     });
   const meanCount = mu.reduce((s, v) => s + v, 0) / n;
@@ -552,19 +552,19 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     observations: {
       row: Array.from(data.used, (i) => data.rowNumbers[i]),
       id: [...data.ids],
-      response: Array.from(y),
-      fitted: Array.from(mu),
+      response: toNumbers(y),
+      fitted: toNumbers(mu),
       residual: Array.from(y, (v, i) => v - mu[i]),
-      pearson: Array.from(pearson),
-      devianceResidual: Array.from(devRes),
-      workingResidual: Array.from(working),
-      leverage: Array.from(h),
-      studentizedInternal: Array.from(internal),
-      studentizedExternal: Array.from(external),
-      cooksDistance: Array.from(cook),
-      dfbetas: lsDiag.dfbetas.map((c) => Array.from(c)),
+      pearson: toNumbers(pearson),
+      devianceResidual: toNumbers(devRes),
+      workingResidual: toNumbers(working),
+      leverage: toNumbers(h),
+      studentizedInternal: toNumbers(internal),
+      studentizedExternal: toNumbers(external),
+      cooksDistance: toNumbers(cook),
+      dfbetas: lsDiag.dfbetas.map((c) => toNumbers(c)),
       partialResiduals,
-      quantileResidual: Array.from(quantile),
+      quantileResidual: toNumbers(quantile),
     },
     checks,
     binnedResiduals: familyName === "binomial" ? binnedResiduals(y, mu) : null,

@@ -5,7 +5,7 @@
  * otherwise from the visit levels' order.
  */
 import { EngineError } from "../errors";
-import { isMissingCell, orderLevels, parseNumber, type DataTable } from "../data";
+import { cellText, isMissingAt, orderLevels, parseNumber, type DataTable } from "../data";
 import { buildDesign, prepareData, type CategoricalVariable, type Design, type PreparedData } from "../design";
 import { isInteraction, type ModelSpec } from "../model-spec";
 import type { RepeatedSpec } from "./repeated-spec";
@@ -62,9 +62,9 @@ export function prepareRepeatedData(spec: RepeatedSpec, table: DataTable): Repea
     for (let k = 0; k < n; k++) {
       const i = data.used[k];
       const level = visitVariable.levels[visitVariable.codes[k]];
-      const v = parseNumber(cells[i] ?? "");
+      const v = cells instanceof Float64Array ? (Number.isNaN(cells[i]) ? null : cells[i]) : parseNumber(cellText(cells, i));
       if (v === null) {
-        throw new EngineError(`visit order column "${repeated.visitOrder}" is not numeric: data row ${table.rowNumbers[i]} has "${cells[i]}"`);
+        throw new EngineError(`visit order column "${repeated.visitOrder}" is not numeric: data row ${table.rowNumbers[i]} has "${cellText(cells, i)}"`);
       }
       const seen = valueOf.get(level);
       if (seen !== undefined && seen !== v) {
@@ -91,8 +91,8 @@ export function prepareRepeatedData(spec: RepeatedSpec, table: DataTable): Repea
   const rowPosition = new Int32Array(n);
   for (let k = 0; k < n; k++) {
     const i = data.used[k];
-    const cell = subjectCells[i];
-    if (isMissingCell(cell)) throw new EngineError(`subject column "${repeated.subject}" is empty at data row ${table.rowNumbers[i]}`);
+    const cell = cellText(subjectCells, i);
+    if (isMissingAt(subjectCells, i)) throw new EngineError(`subject column "${repeated.subject}" is empty at data row ${table.rowNumbers[i]}`);
     let s = subjectIndex.get(cell);
     if (s === undefined) {
       s = members.length;

@@ -3,7 +3,7 @@
  * and cluster; the design (treatment coding, no intercept: the baseline hazard absorbs it);
  * rows sorted by stratum and time with the blocks of tied times the risk-set sweep walks.
  */
-import { isMissingCell, parseNumber, type DataTable } from "../data";
+import { cellText, isMissingAt, parseNumber, selectRows, type DataTable, type TypedColumn } from "../data";
 import { levelName } from "../coefficient-names";
 import { buildDesign, prepareData, type Design, type PreparedData } from "../design";
 import { EngineError } from "../errors";
@@ -52,11 +52,15 @@ export interface PreparedCox {
   readonly excludedRows: number[];
 }
 
-function statusMatcher(spec: CoxSpec): (cell: string) => boolean {
+function statusMatcher(spec: CoxSpec, column: TypedColumn): (i: number) => boolean {
   const texts = new Set(spec.status.event.map((v) => String(v).trim()));
   const numbers = spec.status.event.map((v) => (typeof v === "number" ? v : parseNumber(v))).filter((v): v is number => v !== null);
-  return (cell) => {
-    const t = cell.trim();
+  if (column instanceof Float64Array) {
+    // a typed number is its own value; its text is the shortest round-trip form
+    return (i) => numbers.includes(column[i]) || texts.has(String(column[i]));
+  }
+  return (i) => {
+    const t = (column[i] ?? "").trim();
     if (texts.has(t)) return true;
     const v = parseNumber(t);
     return v !== null && numbers.includes(v);
@@ -103,11 +107,11 @@ export function prepareCoxData(spec: CoxSpec, table: DataTable): PreparedCox {
   const keep: number[] = [];
   const excludedEarly: number[] = [];
   for (let i = 0; i < table.nRows; i++) {
-    if (extra.some((name) => isMissingCell(table.columns[name][i]))) excludedEarly.push(table.rowNumbers[i]);
+    if (extra.some((name) => isMissingAt(table.columns[name], i))) excludedEarly.push(table.rowNumbers[i]);
     else keep.push(i);
   }
-  const columns: Record<string, string[]> = {};
-  for (const name of table.names) columns[name] = keep.map((i) => table.columns[name][i]);
+  const columns: Record<string, TypedColumn> = {};
+  for (const name of table.names) columns[name] = keep.length === table.nRows ? table.columns[name] : selectRows(table.columns[name], keep);
   const kept: DataTable = { names: table.names, columns, nRows: keep.length, rowNumbers: keep.map((i) => table.rowNumbers[i]) };
 
   const designSpec: ModelSpec = {
@@ -131,11 +135,11 @@ export function prepareCoxData(spec: CoxSpec, table: DataTable): PreparedCox {
   for (let k = 0; k < n; k++) {
     if (time[k] < 0) throw new EngineError(`time column "${spec.response}" has a negative time (${time[k]}) at data row ${rowOf(k)}`);
   }
-  const isEvent = statusMatcher(spec);
+  const isEvent = statusMatcher(spec, kept.columns[spec.status.column]);
   const status = new Uint8Array(n);
   let events = 0;
   for (let k = 0; k < n; k++) {
-    status[k] = isEvent(kept.columns[spec.status.column][prepared.used[k]]) ? 1 : 0;
+    status[k] = isEvent(prepared.used[k]) ? 1 : 0;
     events += status[k];
   }
   if (events === 0) {
@@ -144,7 +148,7 @@ export function prepareCoxData(spec: CoxSpec, table: DataTable): PreparedCox {
     );
   }
 
-  const labelOf = (k: number) => spec.strata.map((s) => levelName(s, kept.columns[s][prepared.used[k]].trim())).join(", ");
+  const labelOf = (k: number) => spec.strata.map((s) => levelName(s, cellText(kept.columns[s], prepared.used[k]).trim())).join(", ");
   const labels = [...new Set(Array.from({ length: n }, (_, k) => labelOf(k)))].sort();
   const labelIndex = new Map(labels.map((l, i) => [l, i]));
   const stratum = Int32Array.from({ length: n }, (_, k) => labelIndex.get(labelOf(k)) as number);
@@ -170,7 +174,7 @@ export function prepareCoxData(spec: CoxSpec, table: DataTable): PreparedCox {
     blocks.push({ stratum: stratum[order[s]], time: time[order[s]], start: s, end: e, deaths });
     s = e;
   }
-  const cluster = spec.cluster ? Array.from(prepared.used, (i) => kept.columns[spec.cluster as string][i].trim()) : null;
+  const cluster = spec.cluster ? Array.from(prepared.used, (i) => cellText(kept.columns[spec.cluster as string], i).trim()) : null;
 
   return {
     data: {

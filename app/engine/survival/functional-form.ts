@@ -6,7 +6,7 @@
  */
 import { chiSquareUpper } from "../distributions";
 import { EngineError } from "../errors";
-import type { ColumnTable } from "../data";
+import type { ColumnTable, TypedColumn } from "../data";
 import { fitCoxModel, type CoxResult } from "./cox-model";
 import type { CoxSpec } from "./cox-spec";
 
@@ -23,16 +23,23 @@ export function continuousCoxTerms(r: CoxResult): string[] {
   return r.terms.filter((t) => t.kind === "continuous").map((t) => t.label);
 }
 
+/** The square of each number of a column; other cells as they are. */
+function squareColumn(cells: TypedColumn): TypedColumn {
+  if (cells instanceof Float64Array) return cells.map((v) => v * v);
+  return cells.map((c) => {
+    if (c === null) return c;
+    const v = Number(c.trim());
+    return c.trim() === "" || !Number.isFinite(v) ? c : String(v * v);
+  });
+}
+
 /** One test per continuous main term (in model order). */
 export function coxFunctionalForm(spec: CoxSpec, table: ColumnTable, fitted: CoxResult): FunctionalFormTest[] {
   return continuousCoxTerms(fitted).map((term) => {
     const cells = table.columns[term];
     let name = `${term} squared`;
     while (name in table.columns) name = `${name}_`;
-    const squared = cells.map((c) => {
-      const v = Number(c.trim());
-      return c.trim() === "" || !Number.isFinite(v) ? c : String(v * v);
-    });
+    const squared = squareColumn(cells);
     try {
       const bigger = fitCoxModel({ ...spec, terms: [...spec.terms, { variable: name }] }, { columns: { ...table.columns, [name]: squared }, rowNumbers: table.rowNumbers });
       const statistic = Math.max(0, 2 * (bigger.fit.logLik - fitted.fit.logLik));

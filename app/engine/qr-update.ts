@@ -1,0 +1,123 @@
+/**
+ * Columns appended to a fitted least-squares model without refitting it: the nested-model tests
+ * (RESET, homogeneity of slopes) add a few columns Z to the design X of the planned fit. With the
+ * fit's thin Q of √W X, the added columns are reduced to their part orthogonal to X
+ * (Z⊥ = (I − QQ')√W Z by classical Gram–Schmidt, a second time for a column that lost most of
+ * its norm, which keeps Z⊥ orthogonal to Q to working precision: Giraud, Langou and Rozložník 2005), then only Z⊥ is factored (Householder,
+ * qr.ts). Columns reduced once serve several nested models (each covariate's slopes, then all). This is the column-appending QR update of Golub and Van Loan (Matrix Computations,
+ * 4th ed., section 6.5.2) in its Gram–Schmidt form: the work is O(n·p·k) for k added columns
+ * instead of a new O(n·(p+k)²) factorization, and no copy of the n×p design is made.
+ *
+ * A column counts as aliased with the model exactly as in a full factorization: when its
+ * remaining norm is at most the tolerance times its own norm (R's dqrdc2 rule, qr.ts).
+ */
+import type { LeastSquaresFit } from "./least-squares";
+import { ALIAS_TOLERANCE, columnNorm, householderQR } from "./qr";
+
+export interface AppendedFit {
+  /** Σ w e² of the larger model. */
+  readonly rss: number;
+  /** Rank of the larger model: the fit's p plus the added columns kept. */
+  readonly rank: number;
+}
+
+/** Rows per chunk: a chunk of Q and of the added columns stays in cache while they are combined. */
+const CHUNK = 256;
+
+/**
+ * Removes from the columns `cols` of z (n rows) their projection on the columns of q (n×p): C = Q'Z,
+ * then Z −= Q C, a chunk of rows at a time (Q is read from memory once per pass, not once per
+ * added column).
+ */
+function projectOut(q: Float64Array, n: number, p: number, z: Float64Array, cols: readonly number[]): void {
+  const k = cols.length;
+  const c = new Float64Array(p * k);
+  for (let r0 = 0; r0 < n; r0 += CHUNK) {
+    const r1 = Math.min(n, r0 + CHUNK);
+    for (let a = 0; a < k; a++) {
+      const za = cols[a] * n;
+      for (let j = 0; j < p; j++) {
+        const qj = j * n;
+        let s = 0;
+        for (let i = r0; i < r1; i++) s += q[qj + i] * z[za + i];
+        c[a * p + j] += s;
+      }
+    }
+  }
+  for (let r0 = 0; r0 < n; r0 += CHUNK) {
+    const r1 = Math.min(n, r0 + CHUNK);
+    for (let a = 0; a < k; a++) {
+      const za = cols[a] * n;
+      for (let j = 0; j < p; j++) {
+        const qj = j * n;
+        const cj = c[a * p + j];
+        for (let i = r0; i < r1; i++) z[za + i] -= q[qj + i] * cj;
+      }
+    }
+  }
+}
+
+/** Added columns reduced against a fit: Z⊥, the norms of √W Z, and the fit's residuals orthogonal to Q. */
+export interface ReducedColumns {
+  readonly n: number;
+  readonly p: number;
+  /** n×k column-major, orthogonal to the fit's Q. */
+  readonly z: Float64Array;
+  readonly k: number;
+  readonly norms: Float64Array;
+  readonly residuals: Float64Array;
+}
+
+/** Weights and reduces the k columns of `z` (column-major n×k, unweighted; overwritten) against the fit. */
+export function reduceColumns(fit: LeastSquaresFit, z: Float64Array, k: number): ReducedColumns {
+  const { n, p, q } = fit;
+  const sw = fit.sqrtWeights;
+  const work = z.subarray(0, n * k);
+  const norms = new Float64Array(k);
+  for (let c = 0; c < k; c++) {
+    if (sw) for (let i = 0, o = c * n; i < n; i++) work[o + i] *= sw[i];
+    norms[c] = columnNorm(work, n, c * n, 0);
+  }
+  const every = Array.from({ length: k }, (_, c) => c);
+  projectOut(q, n, p, work, every);
+  // a second pass for the columns that lost most of their norm to Q, where the first leaves
+  // them measurably off orthogonal (the criterion of Daniel, Gragg, Kaufman and Stewart 1976)
+  const again = every.filter((c) => columnNorm(work, n, c * n, 0) < Math.SQRT1_2 * norms[c]);
+  if (again.length > 0) projectOut(q, n, p, work, again);
+  // the planned fit's residuals, kept exactly orthogonal to Q as well
+  const e = new Float64Array(fit.weightedResiduals);
+  projectOut(q, n, p, e, [0]);
+  return { n, p, z: work, k, norms, residuals: e };
+}
+
+/**
+ * The residual sum of squares and rank of the fit with some of the reduced columns appended
+ * (`columns`, in order; all of them when omitted, which factors `reduced.z` in place: call it last).
+ */
+export function fitWithReduced(reduced: ReducedColumns, columns?: readonly number[], tolerance = ALIAS_TOLERANCE): AppendedFit {
+  const { n, p } = reduced;
+  let z = reduced.z;
+  let norms = reduced.norms;
+  if (columns) {
+    z = new Float64Array(n * columns.length);
+    norms = new Float64Array(columns.length);
+    columns.forEach((c, j) => {
+      z.set(reduced.z.subarray(c * n, (c + 1) * n), j * n);
+      norms[j] = reduced.norms[c];
+    });
+  }
+  const k = columns ? columns.length : reduced.k;
+  const e = new Float64Array(reduced.residuals);
+  const f = householderQR(z, n, k, { inPlace: true, tolerance, rhs: e, originalNorms: norms });
+  let rss = 0;
+  for (let i = f.rank; i < n; i++) rss += e[i] * e[i];
+  return { rss, rank: p + f.rank };
+}
+
+/**
+ * The residual sum of squares and rank of the fit with the k columns of `z` (column-major n×k,
+ * unweighted, overwritten) appended to its design.
+ */
+export function appendColumns(fit: LeastSquaresFit, z: Float64Array, k: number, tolerance = ALIAS_TOLERANCE): AppendedFit {
+  return fitWithReduced(reduceColumns(fit, z, k), undefined, tolerance);
+}

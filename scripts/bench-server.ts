@@ -1,0 +1,202 @@
+/**
+ * `npm run bench:server`: is the web process still responsive while a large rerun runs?
+ * (A benchmark that prints figures; it asserts nothing.)
+ *
+ * Builds a study on a temporary SQLite file through the real services (the demo study, a locked
+ * dataset of 1 000 000 invented subjects made by the demo generator, an approved plan), starts
+ * the built server (`npm run build` first) with the fake identity providers and mail server, and
+ * makes 20 signed-in sessions (session cookies, as sign-in makes them) each with an API token.
+ * Each session then requests pages (study overview, rerun list) and, at most once a second,
+ * the API's rerun list, one request at a time with a 100 ms pause (so the load is bounded),
+ * first for 10 s with nothing else running (baseline), then while the server's job worker
+ * runs the 1 000 000-row primary rerun, until it has completed. Prints p50, p95 and max latency
+ * of each phase, pages and API apart, the rerun's duration, and the load average.
+ *
+ *   npm run bench:server                     1 000 000 subjects
+ *   npm run bench:server -- --subjects 200000
+ *
+ * Target (issue): p95 under 200 ms during the rerun, 20 sessions on loopback.
+ */
+import { randomBytes } from "node:crypto";
+import { existsSync, mkdirSync } from "node:fs";
+import os from "node:os";
+import path from "node:path";
+import { startOidcFake } from "../idp-fake/oidc/launch";
+import { startSamlIdp } from "../idp-fake/saml/launch";
+import { startSmtpFake } from "../idp-fake/smtp/launch";
+import { freePort, startAppServer } from "./lib/app-server";
+import { buildLargeStudy, useTempDataDir } from "./lib/large-study";
+
+const SESSIONS = 20;
+const BASELINE_MS = 10_000;
+const PAUSE_MS = 100;
+const arg = (name: string) => {
+  const i = process.argv.indexOf(name);
+  return i >= 0 ? process.argv[i + 1] : undefined;
+};
+const subjects = Number(arg("--subjects") ?? 1_000_000);
+
+const root = process.cwd();
+if (!existsSync(path.join(root, "build/server/index.js"))) throw new Error("bench:server measures the built server: run `npm run build` first.");
+
+const load = () => os.loadavg().map((v) => v.toFixed(2)).join(" ");
+const temp = useTempDataDir("plumbline-bench-server-");
+mkdirSync(temp.dataDir, { recursive: true });
+const [appPort, idpPort, oidcPort] = [await freePort(), await freePort(), await freePort()];
+const appUrl = `http://127.0.0.1:${appPort}`;
+const idp = await startSamlIdp({
+  port: idpPort,
+  acsUrl: `${appUrl}/auth/saml/acs`,
+  sloUrl: `${appUrl}/auth/saml/logout`,
+  audience: "urn:plumbline:sp",
+  issuer: "urn:plumbline:idp-fake",
+  stateDir: path.join(temp.dir, "idp"),
+});
+const oidc = await startOidcFake({ port: oidcPort, stateDir: path.join(temp.dir, "oidc"), appUrl });
+const smtp = await startSmtpFake({ port: 0, stateDir: path.join(temp.dir, "smtp") });
+const sessionSecret = randomBytes(24).toString("hex");
+const env: Record<string, string> = {
+  APP_URL: appUrl,
+  DATA_DIR: temp.dataDir,
+  DATABASE_URL: `file:${temp.dbFile}`,
+  SESSION_SECRET: sessionSecret,
+  SAML_IDP_SSO_URL: idp.ssoUrl,
+  SAML_IDP_SLO_URL: idp.sloUrl,
+  SAML_IDP_ISSUER: "urn:plumbline:idp-fake",
+  SAML_IDP_CERT_FILE: idp.certFile,
+  SAML_SP_ISSUER: "urn:plumbline:sp",
+  OIDC_ISSUER: oidc.issuerUrl,
+  OIDC_CLIENT_ID: oidc.clientId,
+  OIDC_CLIENT_SECRET: oidc.clientSecret,
+  SMTP_HOST: smtp.smtpHost,
+  SMTP_PORT: String(smtp.smtpPort),
+  SMTP_FAKE_INBOX_DIR: smtp.inboxDir,
+  DATASET_MAX_BYTES: String(2_000_000_000),
+};
+Object.assign(process.env, env);
+
+let app: Awaited<ReturnType<typeof startAppServer>> | null = null;
+try {
+  console.log(`Plumbline server benchmark: ${subjects.toLocaleString("en")} subjects, ${SESSIONS} sessions (${os.availableParallelism()} cores, Node ${process.version})`);
+  const built = performance.now();
+  const study = await buildLargeStudy({ subjects, analysedOnly: true });
+  console.log(`study built in ${((performance.now() - built) / 1000).toFixed(0)} s`);
+
+  const { db, t } = await import("../app/.server/db/index.server");
+  const { eq } = await import("drizzle-orm");
+  const { createCookie } = await import("react-router");
+  const { createToken } = await import("../app/.server/api/tokens.server");
+  const reruns = await import("../app/.server/reruns/reruns.server");
+
+  // sessions as sign-in makes them (the session row, its id in the signed cookie), and a token each
+  const cookie = createCookie("plumbline_session", { secrets: [sessionSecret] });
+  // two biostatisticians of the study (a person may hold at most 10 tokens)
+  const person = study.people.priya;
+  const clients: { cookie: string; token: string }[] = [];
+  for (let i = 0; i < SESSIONS; i++) {
+    const who = i % 2 === 0 ? study.people.priya : study.people.tomas;
+    const id = randomBytes(32).toString("base64url");
+    const now = new Date();
+    await db.insert(t.sessions).values({
+      id,
+      personId: who.id,
+      dataJson: JSON.stringify({ signedInAt: now.toISOString() }),
+      createdAt: now.toISOString(),
+      lastSeenAt: now.toISOString(),
+      expiresAt: new Date(now.getTime() + 3600_000).toISOString(),
+    });
+    const token = await createToken(who, { name: `bench session ${i + 1}`, days: 7 });
+    if (!token.ok) throw new Error(token.message);
+    clients.push({ cookie: (await cookie.serialize(id)).split(";")[0], token: token.token });
+  }
+
+  app = await startAppServer({ port: appPort, env });
+  const base = app.url;
+  const pages = [`/studies/${study.studyId}`, `/studies/${study.studyId}/reruns`];
+  const api = `/api/v1/studies/${study.studyId}/reruns`;
+
+  interface Sample {
+    kind: "page" | "api";
+    ms: number;
+    status: number;
+  }
+  const timed = async (kind: Sample["kind"], url: string, headers: Record<string, string>): Promise<Sample> => {
+    const start = performance.now();
+    const res = await fetch(base + url, { headers });
+    await res.arrayBuffer();
+    return { kind, ms: performance.now() - start, status: res.status };
+  };
+  const drive = async (until: () => boolean): Promise<Sample[]> => {
+    const samples: Sample[] = [];
+    await Promise.all(
+      clients.map(async (c, i) => {
+        let k = i;
+        let lastApi = 0;
+        while (!until()) {
+          if (performance.now() - lastApi >= 1000) {
+            lastApi = performance.now();
+            samples.push(await timed("api", api, { Authorization: `Bearer ${c.token}` }));
+          } else {
+            samples.push(await timed("page", pages[k++ % pages.length], { Cookie: c.cookie }));
+          }
+          await new Promise((r) => setTimeout(r, PAUSE_MS));
+        }
+      }),
+    );
+    return samples;
+  };
+  const quantile = (xs: number[], q: number) => {
+    const s = [...xs].sort((a, b) => a - b);
+    return s.length === 0 ? NaN : s[Math.min(s.length - 1, Math.ceil(q * s.length) - 1)];
+  };
+  const report = (label: string, samples: Sample[]) => {
+    for (const kind of ["page", "api"] as const) {
+      const xs = samples.filter((s) => s.kind === kind).map((s) => s.ms);
+      const bad = samples.filter((s) => s.kind === kind && s.status !== 200).length;
+      console.log(
+        `  ${label.padEnd(16)} ${kind.padEnd(5)} ${String(xs.length).padStart(6)} requests   p50 ${quantile(xs, 0.5).toFixed(0).padStart(5)} ms   p95 ${quantile(xs, 0.95).toFixed(0).padStart(5)} ms   max ${Math.max(...xs).toFixed(0).padStart(6)} ms${bad ? `   (${bad} not 200)` : ""}`,
+      );
+    }
+  };
+
+  // warm the server's routes once, then the baseline
+  await drive(((end) => () => performance.now() > end)(performance.now() + 2000));
+  const baselineEnd = performance.now() + BASELINE_MS;
+  console.log(`load average before: ${load()}`);
+  const baseline = await drive(() => performance.now() > baselineEnd);
+
+  const rerunId = await reruns.startRerun(person, study.studyId, {
+    plannedModelId: study.plannedModelIds.adeff10k,
+    datasetVersionId: study.datasetVersionIds.adeff10k,
+    options: { variant: "planned" },
+  });
+  const started = performance.now();
+  let status = "queued";
+  let finishedAt = 0;
+  const poll = setInterval(() => {
+    void db
+      .select({ status: t.reruns.status })
+      .from(t.reruns)
+      .where(eq(t.reruns.id, rerunId))
+      .then(([r]) => {
+        status = r?.status ?? status;
+        if ((status === "completed" || status === "failed") && !finishedAt) finishedAt = performance.now();
+      });
+  }, 250);
+  const during = await drive(() => finishedAt > 0).catch((e: unknown) => {
+    const server = app?.process.exitCode !== null ? `the server exited (code ${app?.process.exitCode}, signal ${app?.process.signalCode})` : "the server is running";
+    throw new Error(`a request failed during the rerun (${e instanceof Error ? e.message : e}); ${server}. Server output:\n${app?.log().slice(-3000)}`);
+  });
+  clearInterval(poll);
+  const [row] = await db.select({ status: t.reruns.status, failureReason: t.reruns.failureReason }).from(t.reruns).where(eq(t.reruns.id, rerunId));
+
+  console.log(`load average after: ${load()}`);
+  console.log(`rerun of ${subjects.toLocaleString("en")} subjects: ${row?.status}${row?.failureReason ? ` (${row.failureReason})` : ""}, ${((finishedAt - started) / 1000).toFixed(1)} s from queue to stored result`);
+  report("baseline", baseline);
+  report("during rerun", during);
+  console.log("target: p95 under 200 ms during the rerun");
+} finally {
+  await Promise.allSettled([app?.stop(), idp.stop(), oidc.stop(), smtp.stop()]);
+  temp.remove();
+}
+process.exit(0);
