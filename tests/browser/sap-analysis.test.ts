@@ -212,7 +212,7 @@ describe("a long dataset's primary analysis as the SAP states it", () => {
     await page.getByText(`${ref.n} used`).waitFor();
     await page.getByText(`EFFFL in Y: ${ref.population.removed[0]} removed`).waitFor();
     await page.getByText(/do not replace/).first().waitFor();
-    const effect = page.getByRole("region", { name: "Treatment effect" });
+    const effect = page.getByRole("region", { name: "Treatment effect", exact: true });
     await page.screenshot({ path: "test-results/screenshots/sap-treatment-effect.png", clip: (await effect.boundingBox()) ?? undefined });
     await screenshot(page, "sap-rerun-results");
     await page.context().close();

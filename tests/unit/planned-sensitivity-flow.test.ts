@@ -19,6 +19,7 @@ const { listLockedVersions } = await import("~/.server/datasets/catalog.server")
 const reruns = await import("~/.server/reruns/reruns.server");
 const { reportedContrasts, contrastsOf } = await import("~/.server/reruns/rerun-view.server");
 const { runOneJob } = await import("~/.server/jobs/jobs.server");
+(await import("~/.server/background.server")).registerJobHandlers();
 const { eq } = await import("drizzle-orm");
 
 let studyId = "";

@@ -49,7 +49,8 @@ export function prepareRepeatedData(spec: RepeatedSpec, table: DataTable): Repea
     id: repeated.subject,
     terms: spec.terms.map((t) => (!isInteraction(t) && t.variable === repeated.visit ? { ...t, categorical: true } : t)),
   };
-  const data = prepareData(linearSpec, table);
+  // several records per subject, one per visit: the point of the model
+  const data = prepareData(linearSpec, table, { oneRowPerSubject: false });
   const visitVariable = data.variables.get(repeated.visit) as CategoricalVariable;
   const n = data.used.length;
   if (n === 0) throw new EngineError("no row has every cell the model needs");
