@@ -53,8 +53,8 @@ export function PlannedModelSummary({ m, actions }: { m: PlannedModelView; actio
         </h3>
         {actions}
       </header>
-      <div className="grid gap-4 p-4 lg:grid-cols-[minmax(0,22rem)_1fr]">
-        <dl className="grid grid-cols-[8rem_1fr] gap-x-3 gap-y-1 text-sm">
+      <div className="grid gap-4 p-4 2xl:grid-cols-[minmax(0,22rem)_1fr]">
+        <dl className="grid content-start grid-cols-[8rem_1fr] gap-x-3 gap-y-1 text-sm">
           {facts.map(([k, v]) => (
             <div key={k} className="contents">
               <dt className="font-semibold text-ink-soft">{k}</dt>

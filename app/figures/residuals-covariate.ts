@@ -107,6 +107,6 @@ export const residualsCovariate = defineFigure<ResidualsCovariateData>({
     return { ...common, levels: t.levels ?? [], boxes: boxSummaries(t.levels ?? [], cells, residuals) };
   },
   spec: residualsCovariateSpec,
-  words: { caption: "Residuals against a covariate", shows: "each subject's residual against the covariate", healthy: "an even band around zero" },
+  words: { caption: "Level and spread of the residuals across a covariate", shows: "each subject's residual against the covariate", healthy: "an even band around zero" },
   marked: (d) => markedSubjects(d.rows),
 });

@@ -65,7 +65,7 @@ export const residualsFitted = defineFigure<ResidualsFittedData>({
   },
   spec: residualsFittedSpec,
   words: {
-    caption: "Residuals against fitted values",
+    caption: "Level and spread of the residuals across fitted values",
     shows: "a scatter plot of each subject's residual against the fitted value, with a loess smoother and a dashed line at zero",
     healthy: "an even band around zero with a flat smoother, no funnel and no curve",
   },

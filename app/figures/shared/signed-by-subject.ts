@@ -63,7 +63,9 @@ function boundWords(t: Threshold): string {
   const words = formula
     .replace(/^(\S+?)·√\(([^)]*)\)$/, "$1 times the square root of $2")
     .replace(/^(\S+?)\/√(\w+)$/, "$1 over the square root of $2");
-  return words.includes("√") ? String(t.value) : `${t.value} (${words})`;
+  // the bound as the check prints it (4 significant digits), not the full double
+  const value = Number(t.value.toPrecision(4));
+  return words.includes("√") ? String(value) : `${value} (${words})`;
 }
 
 export function signedBySubjectSpec(d: SignedBySubject, question: string, healthy: string, extra: string[], opts: SpecOptions = {}): TopLevelSpec {
