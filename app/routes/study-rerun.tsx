@@ -1,14 +1,12 @@
 import { useEffect } from "react";
-import { Form, Link, redirect, useNavigation, useRevalidator } from "react-router";
+import { Form, Link, useNavigation, useRevalidator } from "react-router";
 import { z } from "zod";
 import type { Route } from "./+types/study-rerun";
-import { CAUTION, Caution } from "~/components/caution";
+import { Caution } from "~/components/caution";
 import { figureUrl, RerunFigure } from "~/components/figures/rerun-figure";
 import { FigureFramesReady, FigureWorkerStart } from "~/components/figures/figure-worker-start";
-import { SensitivityForest, type ForestRow } from "~/components/figures/sensitivity-forest";
-import { forestSpec } from "~/figures/forest";
-import { toVega } from "~/.server/figures/compile.server";
-import { WhatIfPanel, type WhatIfInputs } from "~/components/figures/what-if-panel";
+import { SensitivityForest } from "~/components/figures/sensitivity-forest";
+import { WhatIfPanel } from "~/components/figures/what-if-panel";
 import { utc } from "~/components/format";
 import { FieldError, PageHeader } from "~/components/page";
 import { AdjustedMeansTable, CalibrationTable, CheckCard, checkTally, CoefficientTable, ContrastsTable, MarginalMeansTable, RatioTable, SensitivityTable } from "~/components/rerun-results";
@@ -16,23 +14,12 @@ import { StatusLabel } from "~/components/status";
 import { ReproductionCard } from "~/components/reproduction-results";
 import { FitStatisticsTable } from "~/components/fit-statistics-table";
 import { coxPageFigures, CoxResults } from "~/components/cox-results";
-import { canonicalJson } from "~/.server/audit.server";
-import { actorOf } from "~/.server/people.server";
-import { exclusionProblem } from "~/.server/reruns/what-if.server";
-import { keptWhatIfInputsOf } from "~/.server/reruns/what-if-inputs.server";
-import { getPlannedModel } from "~/.server/plans/plans.server";
-import { SENSITIVITY_KINDS, SENSITIVITY_LABELS } from "~/.server/plans/planned-model";
+import { SENSITIVITY_KINDS } from "~/.server/plans/planned-model";
+import { resultsPage } from "~/.server/reruns/results-page.server";
+import { recordAssessment, rerunAgain, runPlannedSensitivity, saveWhatIf, signResults, type ResultsActionResult } from "~/.server/reruns/results-actions.server";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
-import { Assessment, assessFinding, canSign, FindingConflict, findingsOf, recordDeviation, signaturesOf, signRerun } from "~/.server/reruns/findings.server";
 import type { FigureKey } from "~/engine/checks";
-import { describeOptions, type RerunOptions } from "~/.server/reruns/rerun-options";
-import { optionsFor } from "~/.server/reruns/planned-sensitivity";
-import { reportedContrasts, rerunView } from "~/.server/reruns/rerun-view.server";
-import { seesSubjects } from "~/.server/permissions.server";
-import { redactionFor } from "~/.server/redaction.server";
-import { getRerun, rerunDocumentOf, sameInputReruns, sensitivityReruns, startRerun } from "~/.server/reruns/reruns.server";
 import { requireStudy } from "~/.server/study-access.server";
-import { reauthenticationPath, reauthNotice, SIGNATURE_MEANINGS } from "~/.server/signatures.server";
 import { ReauthNotice, SigningExplainer } from "~/components/signing";
 import { populationNote } from "~/components/population-note";
 import { TreatmentEffectNote } from "~/components/treatment-effect";
@@ -43,85 +30,7 @@ export function meta({ loaderData }: Route.MetaArgs) {
 
 export async function loader({ request, params }: Route.LoaderArgs) {
   const access = await requireStudy(request, params.studyId, "rerun.view");
-  const { study, user, allowed } = access;
-  const r = await getRerun(study.id, params.rerunId);
-  const withIds = seesSubjects(access);
-  const planned = await getPlannedModel(r.rerun.plannedModelId);
-  const [findings, signatures, children, twins, verdict] = await Promise.all([
-    findingsOf(r.rerun.id),
-    signaturesOf(r.rerun.id),
-    r.rerun.kind === "primary" ? sensitivityReruns(r.rerun.id) : Promise.resolve([]),
-    sameInputReruns(r.rerun),
-    allowed.has("rerun.sign") ? canSign(user, r.rerun.id) : Promise.resolve(null),
-  ]);
-  const childDocs = children.map((c) => ({ row: c, doc: rerunDocumentOf(c) }));
-  const redact = await redactionFor(withIds, [{ doc: r.doc, datasetVersionId: r.rerun.datasetVersionId }, ...childDocs.map((c) => ({ doc: c.doc, datasetVersionId: c.row.datasetVersionId }))]);
-  const comparison = r.doc
-    ? [
-        { id: r.rerun.id, label: "Primary analysis as planned", prespecified: true, primary: true, status: r.rerun.status, contrasts: reportedContrasts(r.doc) },
-        ...childDocs.map(({ row, doc }) => ({ id: row.id, label: redact.text(row.label ?? "Sensitivity analysis"), prespecified: row.prespecified, primary: false, status: row.status, contrasts: doc ? reportedContrasts(doc) : [], failure: redact.maybe(row.failureReason) })),
-      ]
-    : [];
-  // one forest chart per treatment contrast, compiled here so the browser needs only Vega's runtime
-  const byContrast = new Map<string, ForestRow[]>();
-  for (const a of comparison) for (const c of a.contrasts) byContrast.set(c.label, [...(byContrast.get(c.label) ?? []), { label: a.label, estimate: c.estimate, lower: c.lower, upper: c.upper, prespecified: a.prespecified, primary: a.primary }]);
-  const forests = comparison.length > 1 ? [...byContrast].map(([label, rows]) => ({ label, rows, spec: toVega(forestSpec(rows, label, { width: "container" })) })) : [];
-  const plannedSensitivity = planned.sensitivity.map((s) => {
-    const options = optionsFor(s, r.doc);
-    const label = options ? (s.kind === "alternative_covariates" ? `${s.label}: ${(s.covariates ?? []).join(", ")}` : options.variant === "cox_rmst" ? describeOptions(options) : SENSITIVITY_LABELS[s.kind]) : SENSITIVITY_LABELS[s.kind];
-    // queued with the primary when it completed (reruns.server.ts); the newest run of these options shows its progress
-    const child = options ? children.filter((c) => c.optionsJson === canonicalJson(options)).at(-1) : undefined;
-    const note = options ? null : s.kind === "exclude_influential" ? "No subject was flagged, so there is nothing to exclude." : "Nothing to run for this analysis.";
-    return { kind: s.kind, label, runnable: Boolean(options) && r.rerun.status === "completed" && !r.rerun.signedAt, done: Boolean(child), status: child?.status ?? null, childId: child?.id ?? null, note };
-  });
-  let whatIf: WhatIfInputs = { available: false, reason: "The what-if opens when the rerun has completed.", caution: CAUTION };
-  if (r.doc && r.rerun.kind === "primary" && allowed.has("rerun.start") && !r.rerun.signedAt) {
-    const doc = r.doc;
-    whatIf = await keptWhatIfInputsOf(r.rerun, doc, {
-      prespecifiedExclusion: planned.sensitivity.some((s) => s.kind === "exclude_influential"),
-      withSubjectIds: withIds,
-      canSave: true,
-    });
-  }
-  const answer = {
-    studyId: study.id,
-    code: study.code,
-    rerun: {
-      id: r.rerun.id,
-      kind: r.rerun.kind,
-      label: redact.maybe(r.rerun.label),
-      status: r.rerun.status,
-      failureReason: redact.maybe(r.rerun.failureReason),
-      datasetSha256: r.rerun.datasetSha256,
-      resultSha256: r.rerun.resultSha256,
-      engineVersion: r.rerun.engineVersion,
-      createdAt: r.rerun.createdAt,
-      finishedAt: r.rerun.finishedAt,
-      signedAt: r.rerun.signedAt,
-      prespecified: r.rerun.prespecified,
-      parentRerunId: r.rerun.parentRerunId,
-    },
-    model: r.model,
-    dataset: r.dataset,
-    planVersion: r.planVersion,
-    startedBy: r.startedBy,
-    view: r.doc ? rerunView(r.doc, redact) : null,
-    findings: findings.map((f) => ({ id: f.id, kind: f.kind, summary: redact.text(f.summary, f.checkKey), statistic: redact.maybe(f.statistic, f.checkKey), threshold: f.threshold, assessment: f.assessment ? { category: f.assessment.category, impact: f.assessment.impact, action: f.assessment.action, rationale: redact.text(f.assessment.rationale, f.checkKey), by: f.assessment.recordedByName, at: f.assessment.recordedAt } : null })),
-    signatures: signatures.map((s) => ({ name: s.signerName, meaning: s.meaning, at: s.signedAt })),
-    comparison,
-    forests,
-    plannedSensitivity,
-    twins: twins.map((tw) => ({ id: tw.id, same: tw.resultSha256 === r.rerun.resultSha256, at: tw.createdAt })),
-    can: {
-      start: allowed.has("rerun.start") && !r.rerun.signedAt,
-      assess: allowed.has("finding.assess") && !r.rerun.signedAt,
-      sign: verdict,
-    },
-    signing: { meaning: SIGNATURE_MEANINGS.rerun, notice: reauthNotice(request) },
-    whatIf,
-  };
-  // never kept by a cache: the security middleware answers every page with no-store
-  return redact.assertClean(answer, "A results page");
+  return resultsPage(request, access, params.rerunId);
 }
 
 const Intent = z.discriminatedUnion("intent", [
@@ -133,76 +42,26 @@ const Intent = z.discriminatedUnion("intent", [
   z.object({ intent: z.literal("whatif-save"), rows: z.string().regex(/^\d+(,\d+)*$/, "Choose at least one subject.") }),
 ]);
 
-type ActionResult = { error: string | null; fieldErrors: Record<string, string>; target?: string };
-
-export async function action({ request, params }: Route.ActionArgs): Promise<ActionResult | Response> {
+export async function action({ request, params }: Route.ActionArgs): Promise<ResultsActionResult | Response> {
   const form = Object.fromEntries(await request.formData());
   const parsed = Intent.safeParse(form);
   if (!parsed.success) return { error: parsed.error.issues[0]?.message ?? "That request was not understood.", fieldErrors: {} };
   const input = parsed.data;
   const needed = input.intent === "sign" ? "rerun.sign" : input.intent === "assess" || input.intent === "deviation" ? "finding.assess" : "rerun.start";
-  const { study, user } = await requireStudy(request, params.studyId, needed);
-  const actor = actorOf(user);
-  const r = await getRerun(study.id, params.rerunId);
-  const primaryId = r.rerun.parentRerunId ?? r.rerun.id;
-  try {
-    switch (input.intent) {
-      case "again": {
-        const options = JSON.parse(r.rerun.optionsJson) as RerunOptions;
-        const id = await startRerun(actor, study.id, { plannedModelId: r.rerun.plannedModelId, datasetVersionId: r.rerun.datasetVersionId, options, parentRerunId: r.rerun.parentRerunId, prespecified: r.rerun.prespecified });
-        return redirect(`/studies/${study.id}/reruns/${id}`);
-      }
-      case "sensitivity": {
-        const planned = await getPlannedModel(r.rerun.plannedModelId);
-        const s = planned.sensitivity.find((x) => x.kind === input.kind);
-        const options = s ? optionsFor(s, r.doc) : null;
-        if (!options) return { error: "That sensitivity analysis is not in the plan for this model, or there is nothing to run.", fieldErrors: {} };
-        // queued with the primary when it completed: run again only one that failed
-        const same = (await sensitivityReruns(primaryId)).filter((c) => c.optionsJson === canonicalJson(options) && c.status !== "failed");
-        if (same.length > 0) return { error: "That sensitivity analysis has already run, or is running, for this rerun.", fieldErrors: {} };
-        await startRerun(actor, study.id, { plannedModelId: r.rerun.plannedModelId, datasetVersionId: r.rerun.datasetVersionId, options, parentRerunId: primaryId, prespecified: true });
-        return { error: null, fieldErrors: {} };
-      }
-      case "whatif-save": {
-        const rows = input.rows.split(",").map(Number).sort((a, b) => a - b);
-        const problem = r.doc ? exclusionProblem(r.doc, rows) : "The what-if opens when the rerun has completed.";
-        if (problem) return { error: problem, fieldErrors: { rows: problem } };
-        const planned = await getPlannedModel(r.rerun.plannedModelId);
-        const flagged = (r.doc?.checks.find((c) => c.key === "cooks_distance")?.flagged ?? []).map((f) => f.row).sort((a, b) => a - b);
-        const prespecified = planned.sensitivity.some((s) => s.kind === "exclude_influential") && JSON.stringify(rows) === JSON.stringify(flagged);
-        await startRerun(actor, study.id, {
-          plannedModelId: r.rerun.plannedModelId,
-          datasetVersionId: r.rerun.datasetVersionId,
-          options: { variant: "exclude_rows", rows, reason: prespecified ? "flagged by the Cook's distance check" : "chosen in the what-if, not pre-specified" },
-          parentRerunId: primaryId,
-          prespecified,
-        });
-        return { error: null, fieldErrors: {} };
-      }
-      case "assess":
-      case "deviation": {
-        const a = Assessment.safeParse(form);
-        if (!a.success) {
-          const fieldErrors: Record<string, string> = {};
-          for (const i of a.error.issues) fieldErrors[String(i.path[0])] ??= i.message;
-          return { error: null, fieldErrors, target: input.intent === "assess" ? input.findingId : "deviation" };
-        }
-        if (input.intent === "assess") await assessFinding(actor, study.id, input.findingId, a.data);
-        else await recordDeviation(actor, study.id, r.rerun.id, a.data);
-        return { error: null, fieldErrors: {} };
-      }
-      case "sign": {
-        const verdict = await canSign(user, r.rerun.id);
-        if (!verdict.ok && verdict.reauthenticate) {
-          return redirect(reauthenticationPath(`/studies/${study.id}/reruns/${r.rerun.id}#sign-off`));
-        }
-        await signRerun({ ...actor, signedInAt: user.signedInAt }, study.id, r.rerun.id);
-        return { error: null, fieldErrors: {} };
-      }
-    }
-  } catch (e) {
-    if (e instanceof FindingConflict) return { error: e.message, fieldErrors: {} };
-    throw e;
+  const access = await requireStudy(request, params.studyId, needed);
+  switch (input.intent) {
+    case "again":
+      return rerunAgain(access, params.rerunId);
+    case "sensitivity":
+      return runPlannedSensitivity(access, params.rerunId, input.kind);
+    case "whatif-save":
+      return saveWhatIf(access, params.rerunId, input.rows);
+    case "assess":
+      return recordAssessment(access, params.rerunId, form, input.findingId);
+    case "deviation":
+      return recordAssessment(access, params.rerunId, form);
+    case "sign":
+      return signResults(access, params.rerunId);
   }
 }
 

@@ -4,9 +4,12 @@
  * the rerun job, which queues them when the primary completes, and by the results page.
  */
 import { sensitivityApplies } from "~/engine/family-applicability";
-import type { PlannedModel, PlannedSensitivity } from "../plans/planned-model";
-import type { RerunOptions } from "./rerun-options";
+import { SENSITIVITY_LABELS, type PlannedModel, type PlannedSensitivity } from "../plans/planned-model";
+import { describeOptions, type RerunOptions } from "./rerun-options";
 import type { RerunDocument } from "./reruns.server";
+
+/** Why the pre-specified exclusion leaves its rows out (the planned analysis, or a what-if choosing exactly its rows). */
+export const COOKS_EXCLUSION_REASON = "flagged by the Cook's distance check";
 
 /** The options of a planned sensitivity analysis, given the primary rerun's result; null when there is nothing to run. */
 export function optionsFor(s: PlannedSensitivity, primary: Pick<RerunDocument, "checks"> | null): RerunOptions | null {
@@ -19,7 +22,7 @@ export function optionsFor(s: PlannedSensitivity, primary: Pick<RerunDocument, "
       return { variant: "alternative_covariates", covariates: s.covariates ?? [], label: s.label ?? "Alternative covariate set" };
     case "exclude_influential": {
       const rows = primary?.checks.find((c) => c.key === "cooks_distance")?.flagged?.map((f) => f.row) ?? [];
-      return rows.length ? { variant: "exclude_rows", rows: [...rows].sort((a, b) => a - b), reason: "flagged by the Cook's distance check" } : null;
+      return rows.length ? { variant: "exclude_rows", rows: [...rows].sort((a, b) => a - b), reason: COOKS_EXCLUSION_REASON } : null;
     }
     case "quasi_poisson":
       return { variant: "family", family: "quasipoisson" };
@@ -44,4 +47,22 @@ export function plannedSensitivityOptions(model: Pick<PlannedModel, "spec" | "se
     const options = optionsFor(s, primary);
     return options ? [options] : [];
   });
+}
+
+/** A planned sensitivity analysis as the results page names it, given the options it runs with (null: nothing to run). */
+export function sensitivityLabel(s: PlannedSensitivity, options: RerunOptions | null): string {
+  if (!options) return SENSITIVITY_LABELS[s.kind];
+  if (s.kind === "alternative_covariates") return `${s.label}: ${(s.covariates ?? []).join(", ")}`;
+  return options.variant === "cox_rmst" ? describeOptions(options) : SENSITIVITY_LABELS[s.kind];
+}
+
+/**
+ * The what-if's exclusion as a rerun: pre-specified only when the plan names the exclusion of
+ * influential subjects and the rows chosen are exactly those the Cook's distance check flagged.
+ * `rows` sorted ascending.
+ */
+export function whatIfExclusion(model: Pick<PlannedModel, "sensitivity">, primary: Pick<RerunDocument, "checks"> | null, rows: number[]): { options: RerunOptions; prespecified: boolean } {
+  const flagged = (primary?.checks.find((c) => c.key === "cooks_distance")?.flagged ?? []).map((f) => f.row).sort((a, b) => a - b);
+  const prespecified = model.sensitivity.some((s) => s.kind === "exclude_influential") && JSON.stringify(rows) === JSON.stringify(flagged);
+  return { options: { variant: "exclude_rows", rows, reason: prespecified ? COOKS_EXCLUSION_REASON : "chosen in the what-if, not pre-specified" }, prespecified };
 }
