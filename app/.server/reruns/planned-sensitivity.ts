@@ -11,6 +11,16 @@ import type { RerunDocument } from "./reruns.server";
 /** Why the pre-specified exclusion leaves its rows out (the planned analysis, or a what-if choosing exactly its rows). */
 export const COOKS_EXCLUSION_REASON = "flagged by the Cook's distance check";
 
+/** The rows the primary rerun's Cook's distance check flagged, ascending. */
+function cooksFlaggedRows(primary: Pick<RerunDocument, "checks"> | null): number[] {
+  return (primary?.checks.find((c) => c.key === "cooks_distance")?.flagged ?? []).map((f) => f.row).sort((a, b) => a - b);
+}
+
+/** Whether the plan names the exclusion of influential subjects among a model's sensitivity analyses. */
+export function plansInfluentialExclusion(model: Pick<PlannedModel, "sensitivity">): boolean {
+  return model.sensitivity.some((s) => s.kind === "exclude_influential");
+}
+
 /** The options of a planned sensitivity analysis, given the primary rerun's result; null when there is nothing to run. */
 export function optionsFor(s: PlannedSensitivity, primary: Pick<RerunDocument, "checks"> | null): RerunOptions | null {
   switch (s.kind) {
@@ -21,8 +31,8 @@ export function optionsFor(s: PlannedSensitivity, primary: Pick<RerunDocument, "
     case "alternative_covariates":
       return { variant: "alternative_covariates", covariates: s.covariates ?? [], label: s.label ?? "Alternative covariate set" };
     case "exclude_influential": {
-      const rows = primary?.checks.find((c) => c.key === "cooks_distance")?.flagged?.map((f) => f.row) ?? [];
-      return rows.length ? { variant: "exclude_rows", rows: [...rows].sort((a, b) => a - b), reason: COOKS_EXCLUSION_REASON } : null;
+      const rows = cooksFlaggedRows(primary);
+      return rows.length ? { variant: "exclude_rows", rows, reason: COOKS_EXCLUSION_REASON } : null;
     }
     case "quasi_poisson":
       return { variant: "family", family: "quasipoisson" };
@@ -62,7 +72,6 @@ export function sensitivityLabel(s: PlannedSensitivity, options: RerunOptions | 
  * `rows` sorted ascending.
  */
 export function whatIfExclusion(model: Pick<PlannedModel, "sensitivity">, primary: Pick<RerunDocument, "checks"> | null, rows: number[]): { options: RerunOptions; prespecified: boolean } {
-  const flagged = (primary?.checks.find((c) => c.key === "cooks_distance")?.flagged ?? []).map((f) => f.row).sort((a, b) => a - b);
-  const prespecified = model.sensitivity.some((s) => s.kind === "exclude_influential") && JSON.stringify(rows) === JSON.stringify(flagged);
+  const prespecified = plansInfluentialExclusion(model) && JSON.stringify(rows) === JSON.stringify(cooksFlaggedRows(primary));
   return { options: { variant: "exclude_rows", rows, reason: prespecified ? COOKS_EXCLUSION_REASON : "chosen in the what-if, not pre-specified" }, prespecified };
 }

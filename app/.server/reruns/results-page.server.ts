@@ -15,7 +15,7 @@ import { redactionFor } from "../redaction.server";
 import { reauthNotice, SIGNATURE_MEANINGS } from "../signatures.server";
 import type { Study } from "../studies.server";
 import { canSign, findingsOf, signaturesOf } from "./findings.server";
-import { optionsFor, sensitivityLabel } from "./planned-sensitivity";
+import { optionsFor, plansInfluentialExclusion, sensitivityLabel } from "./planned-sensitivity";
 import { reportedContrasts, rerunView } from "./rerun-view.server";
 import { getRerun, rerunDocumentOf, sameInputReruns, sensitivityReruns } from "./reruns.server";
 import { keptWhatIfInputsOf } from "./what-if-inputs.server";
@@ -55,7 +55,7 @@ export async function resultsPage(request: Request, access: StudyAccess & { stud
   if (r.doc && r.rerun.kind === "primary" && allowed.has("rerun.start") && !r.rerun.signedAt) {
     const doc = r.doc;
     whatIf = await keptWhatIfInputsOf(r.rerun, doc, {
-      prespecifiedExclusion: planned.sensitivity.some((s) => s.kind === "exclude_influential"),
+      prespecifiedExclusion: plansInfluentialExclusion(planned),
       withSubjectIds: withIds,
       canSave: true,
     });
