@@ -4,9 +4,22 @@
  * the rerun job, which queues them when the primary completes, and by the results page.
  */
 import { sensitivityApplies } from "~/engine/family-applicability";
-import type { PlannedModel, PlannedSensitivity } from "../plans/planned-model";
-import type { RerunOptions } from "./rerun-options";
+import { SENSITIVITY_LABELS, type PlannedModel, type PlannedSensitivity } from "../plans/planned-model";
+import { describeOptions, type RerunOptions } from "./rerun-options";
 import type { RerunDocument } from "./reruns.server";
+
+/** Why the pre-specified exclusion leaves its rows out (the planned analysis, or a what-if choosing exactly its rows). */
+export const COOKS_EXCLUSION_REASON = "flagged by the Cook's distance check";
+
+/** The rows the primary rerun's Cook's distance check flagged, ascending. */
+function cooksFlaggedRows(primary: Pick<RerunDocument, "checks"> | null): number[] {
+  return (primary?.checks.find((c) => c.key === "cooks_distance")?.flagged ?? []).map((f) => f.row).sort((a, b) => a - b);
+}
+
+/** Whether the plan names the exclusion of influential subjects among a model's sensitivity analyses. */
+export function plansInfluentialExclusion(model: Pick<PlannedModel, "sensitivity">): boolean {
+  return model.sensitivity.some((s) => s.kind === "exclude_influential");
+}
 
 /** The options of a planned sensitivity analysis, given the primary rerun's result; null when there is nothing to run. */
 export function optionsFor(s: PlannedSensitivity, primary: Pick<RerunDocument, "checks"> | null): RerunOptions | null {
@@ -18,8 +31,8 @@ export function optionsFor(s: PlannedSensitivity, primary: Pick<RerunDocument, "
     case "alternative_covariates":
       return { variant: "alternative_covariates", covariates: s.covariates ?? [], label: s.label ?? "Alternative covariate set" };
     case "exclude_influential": {
-      const rows = primary?.checks.find((c) => c.key === "cooks_distance")?.flagged?.map((f) => f.row) ?? [];
-      return rows.length ? { variant: "exclude_rows", rows: [...rows].sort((a, b) => a - b), reason: "flagged by the Cook's distance check" } : null;
+      const rows = cooksFlaggedRows(primary);
+      return rows.length ? { variant: "exclude_rows", rows, reason: COOKS_EXCLUSION_REASON } : null;
     }
     case "quasi_poisson":
       return { variant: "family", family: "quasipoisson" };
@@ -44,4 +57,21 @@ export function plannedSensitivityOptions(model: Pick<PlannedModel, "spec" | "se
     const options = optionsFor(s, primary);
     return options ? [options] : [];
   });
+}
+
+/** A planned sensitivity analysis as the results page names it, given the options it runs with (null: nothing to run). */
+export function sensitivityLabel(s: PlannedSensitivity, options: RerunOptions | null): string {
+  if (!options) return SENSITIVITY_LABELS[s.kind];
+  if (s.kind === "alternative_covariates") return `${s.label}: ${(s.covariates ?? []).join(", ")}`;
+  return options.variant === "cox_rmst" ? describeOptions(options) : SENSITIVITY_LABELS[s.kind];
+}
+
+/**
+ * The what-if's exclusion as a rerun: pre-specified only when the plan names the exclusion of
+ * influential subjects and the rows chosen are exactly those the Cook's distance check flagged.
+ * `rows` sorted ascending.
+ */
+export function whatIfExclusion(model: Pick<PlannedModel, "sensitivity">, primary: Pick<RerunDocument, "checks"> | null, rows: number[]): { options: RerunOptions; prespecified: boolean } {
+  const prespecified = plansInfluentialExclusion(model) && JSON.stringify(rows) === JSON.stringify(cooksFlaggedRows(primary));
+  return { options: { variant: "exclude_rows", rows, reason: prespecified ? COOKS_EXCLUSION_REASON : "chosen in the what-if, not pre-specified" }, prespecified };
 }

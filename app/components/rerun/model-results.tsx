@@ -1,0 +1,34 @@
+import { CoxResults, type CoxView } from "../cox-results";
+import { FigureFramesReady, FigureWorkerStart } from "../figures/figure-worker-start";
+import { BinomialFitSection } from "./binomial-fit-section";
+import { ChecksSection } from "./checks-section";
+import { CoefficientsSection } from "./coefficients-section";
+import { pageFigureUrls } from "./page-figures";
+import type { ModelResultsView } from "./results-view";
+import { RowsAndFit } from "./rows-and-fit";
+import { TreatmentEffectSection } from "./treatment-effect-section";
+
+/** A completed rerun's results: a Cox model's, or a linear model's or GLM's sections in page order. */
+export function ModelResults({ view, studyId, rerunId }: { view: ModelResultsView | CoxView; studyId: string; rerunId: string }) {
+  if (view.kind === "cox") {
+    return (
+      <div className="space-y-6">
+        <FigureWorkerStart figures={pageFigureUrls(view, studyId, rerunId)} />
+        <CoxResults view={view} studyId={studyId} rerunId={rerunId} />
+        <FigureFramesReady />
+      </div>
+    );
+  }
+  return (
+    <div className="space-y-6">
+      <FigureWorkerStart figures={pageFigureUrls(view, studyId, rerunId)} />
+      <RowsAndFit view={view} />
+      <TreatmentEffectSection view={view} />
+      <CoefficientsSection view={view} />
+      <ChecksSection view={view} studyId={studyId} rerunId={rerunId} />
+      <BinomialFitSection view={view} studyId={studyId} rerunId={rerunId} />
+      {/* after the last figure frame: the worker started above draws them while the page's scripts load */}
+      <FigureFramesReady />
+    </div>
+  );
+}
