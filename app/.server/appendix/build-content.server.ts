@@ -11,10 +11,10 @@ import { checksOfFigure, figureData, figureListOf, figureModule, figureSpec, typ
 import { contrastWords, forestAlt, forestPoints, forestSpec, type ForestRow } from "~/figures/forest";
 import { FigureUnavailableError } from "~/figures/shared/source";
 import { CHECK_BY_KEY, summaryAfterLabel, type CheckOutcome } from "~/engine/checks";
-import { fmt, fmtCi, fmtP, utc } from "~/components/format";
+import { fmt, fmtCi, fmtP, utc } from "~/shared/format";
 import { fitFactsOf, fitStatisticRows } from "~/components/fit-statistics";
 import { familyWithLink } from "~/engine/family-names";
-import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
+import { ACTIONS, CATEGORIES, IMPACTS } from "~/shared/assessment-terms";
 import { loadLockedTable, type ColumnMeta } from "../datasets/catalog.server";
 import { db, t } from "../db/index.server";
 import { getPlannedModel, getPlanVersion } from "../plans/plans.server";
@@ -26,7 +26,7 @@ import { MULTIPLICITY_WORDS, treatmentTestWords } from "~/components/treatment-e
 import { getRerun, sensitivityReruns, type RerunDocument } from "../reruns/reruns.server";
 import { rerunTable } from "../reruns/what-if.server";
 import { getStudyOr404 } from "../studies.server";
-import { NARRATIVE_SECTIONS, SECTION_TITLES, type AppendixContent, type AppendixSection, type Block, type NarrativeSection } from "~/components/appendix-content";
+import { NARRATIVE_SECTIONS, SECTION_TITLES, type AppendixContent, type AppendixSection, type Block, type NarrativeSection } from "~/shared/appendix-content";
 import { redaction, type Redaction } from "../redaction.server";
 import { methodsProse } from "./methods";
 import { coxResultBlocks } from "./cox-content";

@@ -36,7 +36,7 @@ import {
   type ISectionOptions,
 } from "docx";
 import type { TopLevelSpec } from "vega-lite";
-import { allText, type AppendixContent, type Block } from "~/components/appendix-content";
+import { allText, type AppendixContent, type Block } from "~/shared/appendix-content";
 import { renderFigure } from "./figures.server";
 import { FONT_FAMILY, subsetNotoSans } from "./fonts.server";
 

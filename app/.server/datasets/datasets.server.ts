@@ -11,6 +11,7 @@ import { appendAudit, type Actor } from "../audit.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
 import { withCategoricalHints } from "./categorical-hint";
 import type { ColumnMeta } from "./column-summary";
+import type { ScreenHitView } from "../../shared/datasets";
 import { primeArrowColumnsCache, textOf, writeArrowColumns, type StoredColumns } from "./arrow-columns.server";
 import { summariseChanges, type ChangeSummary } from "./diff";
 import { firstBytesOf, formatOf, parseDatasetFile, type DatasetFormat, type ParseOptions } from "./parse.server";
@@ -305,22 +306,6 @@ async function removeUnreferenced(placed: string[]): Promise<void> {
 
 // ---------------------------------------------------------------------------------------------
 // Reads
-
-export interface ScreenHitView {
-  id: string;
-  column: string;
-  rule: string;
-  ruleLabel: string;
-  basis: "name" | "values";
-  matches: number;
-  maskedExamples: string[];
-  resolution: "removed" | "not_identifier" | null;
-  rationale: string | null;
-  resolvedBy: string | null;
-  resolvedAt: string | null;
-  /** The version where this resolution was first recorded, when it was carried forward. */
-  carriedFromVersion: number | null;
-}
 
 export interface VersionSummary {
   id: string;
