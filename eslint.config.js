@@ -93,17 +93,6 @@ export const COMPONENTS_IMPORTING_SERVER_TYPES = {};
 export const KNOWN_CYCLES = [
   {
     reason:
-      "redaction loads reruns.server when called (await import) to read rerun documents; reruns and plans send notifications, which are redacted. " +
-      "To fix: rerun documents read from a module of their own (issue 19 item 2, one home for the rerun query).",
-    imports: {
-      "app/.server/redaction.server.ts": ["./reruns/reruns.server"],
-      "app/.server/mail/notifications.server.ts": ["../redaction.server"],
-      "app/.server/reruns/reruns.server.ts": ["../mail/notifications.server"],
-      "app/.server/plans/plans.server.ts": ["../mail/notifications.server"],
-    },
-  },
-  {
-    reason:
       "rerun-view hands Cox documents to cox-rerun-view, which reuses rerun-view's checkView (read when called). " +
       "To fix: checkView in a module of its own (issue 19 item 1 reworks these views).",
     imports: {
