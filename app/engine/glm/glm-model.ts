@@ -372,67 +372,29 @@ function fitNotes(fit: IrlsFit, familyName: GlmFamilyName, n: number, events: nu
   return notes;
 }
 
-/** Fits the generalized linear model the specification describes. */
-export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOptions = {}): GlmResult {
-  const { familyName, linkName, link } = familyAndLink(spec);
-  const table = prepareGlmTable(spec, tableIn);
-  const data = prepareData(spec, table);
-  const design = buildDesign(spec, data);
+/** What the GLM fit needs to check its assumptions and test the treatment term. */
+interface CheckInputs {
+  readonly spec: ModelSpec;
+  readonly data: PreparedData;
+  readonly design: Design;
+  readonly core: CoreFit;
+  readonly familyName: GlmFamilyName;
+  readonly link: LinkFunctions;
+  readonly estimatedPhi: boolean;
+  readonly dispersion: number;
+  readonly pearsonChiSquare: number;
+  readonly partialResiduals: readonly { term: string; values: number[] }[];
+}
+
+/** The checks of a GLM fit: overdispersion, deviance goodness of fit, linearity, homogeneity of the treatment effect, the treatment test, calibration. */
+function glmChecks(inputs: CheckInputs): GlmChecks {
+  const { spec, data, design, core, familyName, link, estimatedPhi, dispersion, pearsonChiSquare, partialResiduals } = inputs;
   const { n, p } = design;
-  if (n <= p) {
-    throw new EngineError(`${n} usable rows for ${p} coefficients: the model needs more usable rows than coefficients`);
-  }
-  checkGlmResponse(spec, data);
-  const core = fitCore(design.x, n, p, data, familyName, link);
-  const { fit, family } = core;
-  if (fit.aliased.length > 0) nameAliased(design, fit.aliased);
-
-  if (familyName === "binomial") refuseSeparation(fit, design, data, family, link);
-
-  const pw = data.weights;
+  const { fit } = core;
   const y = data.response;
+  const pw = data.weights;
   const mu = fit.mu;
-  const wfit = fit.weighted;
   const dfResidual = n - p;
-  const { pearson, devRes, pearsonChiSquare } = residualsOf(y, mu, pw, family);
-  const dispersion = family.estimatedDispersion ? pearsonChiSquare / dfResidual : 1;
-  const cov = wfit.unscaledCovariance.map((v) => v * dispersion);
-  const estimatedPhi = family.estimatedDispersion;
-  const coefficients = waldRows(design, fit.coefficients, cov, estimatedPhi, dfResidual);
-
-  // null deviance: intercept-only model (with the offset), or η = offset without an intercept
-  let nullDeviance: number;
-  if (design.intercept) {
-    const ones = new Float64Array(n).fill(1);
-    const nullFit = fitCore(ones, n, 1, data, familyName, link, data.offset, core.theta?.theta);
-    nullDeviance = nullFit.fit.deviance;
-  } else {
-    nullDeviance = 0;
-    for (let i = 0; i < n; i++) nullDeviance += family.deviance(y[i], link.inverse(data.offset ? data.offset[i] : 0), pw ? pw[i] : 1);
-  }
-  let logLik: number | null = null;
-  if (!estimatedPhi) {
-    logLik = 0;
-    for (let i = 0; i < n; i++) logLik += family.logLikelihood(y[i], mu[i], pw ? pw[i] : 1);
-  }
-  const aic = logLik === null ? null : -2 * logLik + 2 * (p + (core.theta ? 1 : 0));
-
-  const { lsDiag, h, internal, external, cook } = influenceOf(wfit, devRes, pearson, dispersion, estimatedPhi, p);
-  const robust = robustCovariances(wfit, h);
-  const working = new Float64Array(n);
-  for (let i = 0; i < n; i++) working[i] = (y[i] - mu[i]) / link.derivative(fit.eta[i]);
-  const partialResiduals = design.terms.map((t) => {
-    const values = new Float64Array(n);
-    for (const c of t.columns) for (let i = 0; i < n; i++) values[i] += fit.coefficients[c] * design.x[c * n + i];
-    const mean = values.reduce((s, v) => s + v, 0) / n;
-    return { term: t.label, values: Array.from(values, (v, i) => v - mean + working[i]) };
-  });
-  const quantile = quantileResiduals(y, mu, family);
-
-  // checks
-  const events = y.reduce((s, v) => s + v, 0);
-  const freeParameters = Math.max(1, p - (design.intercept ? 1 : 0));
-  const eventsPerVariable = (familyName === "binomial" ? Math.min(events, n - events) : events) / freeParameters;
   // Nested-model tests compare this model with a larger one fitted on the same rows, as R's
   // anova.glm and MASS's anova.negbin do: with an estimated dispersion (quasi-Poisson) the F test
   // takes the dispersion and its degrees of freedom from the larger model; for the negative
@@ -522,6 +484,71 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     ...(treatmentTest ? { treatment: treatmentTest } : {}),
     ...(familyName === "binomial" ? { calibration: calibration(y, mu) } : {}),
   };
+  return checks;
+}
+
+/** Fits the generalized linear model the specification describes. */
+export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOptions = {}): GlmResult {
+  const { familyName, linkName, link } = familyAndLink(spec);
+  const table = prepareGlmTable(spec, tableIn);
+  const data = prepareData(spec, table);
+  const design = buildDesign(spec, data);
+  const { n, p } = design;
+  if (n <= p) {
+    throw new EngineError(`${n} usable rows for ${p} coefficients: the model needs more usable rows than coefficients`);
+  }
+  checkGlmResponse(spec, data);
+  const core = fitCore(design.x, n, p, data, familyName, link);
+  const { fit, family } = core;
+  if (fit.aliased.length > 0) nameAliased(design, fit.aliased);
+
+  if (familyName === "binomial") refuseSeparation(fit, design, data, family, link);
+
+  const pw = data.weights;
+  const y = data.response;
+  const mu = fit.mu;
+  const wfit = fit.weighted;
+  const dfResidual = n - p;
+  const { pearson, devRes, pearsonChiSquare } = residualsOf(y, mu, pw, family);
+  const dispersion = family.estimatedDispersion ? pearsonChiSquare / dfResidual : 1;
+  const cov = wfit.unscaledCovariance.map((v) => v * dispersion);
+  const estimatedPhi = family.estimatedDispersion;
+  const coefficients = waldRows(design, fit.coefficients, cov, estimatedPhi, dfResidual);
+
+  // null deviance: intercept-only model (with the offset), or η = offset without an intercept
+  let nullDeviance: number;
+  if (design.intercept) {
+    const ones = new Float64Array(n).fill(1);
+    const nullFit = fitCore(ones, n, 1, data, familyName, link, data.offset, core.theta?.theta);
+    nullDeviance = nullFit.fit.deviance;
+  } else {
+    nullDeviance = 0;
+    for (let i = 0; i < n; i++) nullDeviance += family.deviance(y[i], link.inverse(data.offset ? data.offset[i] : 0), pw ? pw[i] : 1);
+  }
+  let logLik: number | null = null;
+  if (!estimatedPhi) {
+    logLik = 0;
+    for (let i = 0; i < n; i++) logLik += family.logLikelihood(y[i], mu[i], pw ? pw[i] : 1);
+  }
+  const aic = logLik === null ? null : -2 * logLik + 2 * (p + (core.theta ? 1 : 0));
+
+  const { lsDiag, h, internal, external, cook } = influenceOf(wfit, devRes, pearson, dispersion, estimatedPhi, p);
+  const robust = robustCovariances(wfit, h);
+  const working = new Float64Array(n);
+  for (let i = 0; i < n; i++) working[i] = (y[i] - mu[i]) / link.derivative(fit.eta[i]);
+  const partialResiduals = design.terms.map((t) => {
+    const values = new Float64Array(n);
+    for (const c of t.columns) for (let i = 0; i < n; i++) values[i] += fit.coefficients[c] * design.x[c * n + i];
+    const mean = values.reduce((s, v) => s + v, 0) / n;
+    return { term: t.label, values: Array.from(values, (v, i) => v - mean + working[i]) };
+  });
+  const quantile = quantileResiduals(y, mu, family);
+
+  // checks
+  const events = y.reduce((s, v) => s + v, 0);
+  const freeParameters = Math.max(1, p - (design.intercept ? 1 : 0));
+  const eventsPerVariable = (familyName === "binomial" ? Math.min(events, n - events) : events) / freeParameters;
+  const checks = glmChecks({ spec, data, design, core, familyName, link, estimatedPhi, dispersion, pearsonChiSquare, partialResiduals });
 
   const wantProfile = options.profile ?? n * p <= 200_000;
   const profile = wantProfile
