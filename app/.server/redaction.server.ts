@@ -15,7 +15,8 @@ import { inArray } from "drizzle-orm";
 import type { CheckOutcome } from "~/engine/checks";
 import { loadLockedTable } from "./datasets/catalog.server";
 import { db, t } from "./db/index.server";
-import type { RerunDocument } from "./reruns/reruns.server";
+import type { RerunDocument } from "./reruns/compute-rerun";
+import { rerunDocumentOf } from "./reruns/rerun-rows.server";
 
 export const WITHHELD = "(id withheld)";
 
@@ -201,8 +202,6 @@ export async function redactionFor(seesSubjects: boolean, reruns: readonly { doc
 /** The same, for reruns known by id (a deviation log, a list). */
 export async function redactionForReruns(seesSubjects: boolean, rerunIds: readonly string[]): Promise<Redaction> {
   if (seesSubjects) return IDENTITY;
-  // loaded when called: the reruns module sends notifications, which are redacted here
-  const { rerunDocumentOf } = await import("./reruns/reruns.server");
   const unique = [...new Set(rerunIds)];
   const rows = unique.length
     ? await db

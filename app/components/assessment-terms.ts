@@ -1,11 +1,3 @@
-/** The words of an assessment: category, impact on the treatment conclusion, action taken. */
-export const CATEGORIES = { model_assumption: "Model assumption", data: "Data", specification: "Specification" } as const;
-export const IMPACTS = { none: "None", minor: "Minor", changes_conclusion: "Changes the conclusion" } as const;
-export const ACTIONS = {
-  none: "None",
-  planned_sensitivity: "Planned sensitivity analysis",
-  remedy_robust: "Remedy: robust errors",
-  remedy_weighted: "Remedy: weighted fit",
-  remedy_transformation: "Remedy: transformation",
-  remedy_exclusion: "Remedy: exclusion",
-} as const;
+// Moved to app/shared/assessment-terms.ts (issue 19 item 3). This re-export keeps the import path
+// of the results route, reworked in parallel; import from ~/shared.
+export * from "~/shared/assessment-terms";

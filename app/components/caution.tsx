@@ -1,5 +1,7 @@
-/** The caution every results screen, export and API answer carries. */
-export const CAUTION = "Results support, but do not replace, qualified statistical and medical review.";
+import { CAUTION } from "~/shared/caution";
+
+// The text lives in app/shared/caution.ts; re-exported for the results route, reworked in parallel.
+export { CAUTION };
 
 export function Caution({ className = "" }: { className?: string }) {
   return (

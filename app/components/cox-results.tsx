@@ -7,7 +7,7 @@ import { populationNote, type PopulationStepView } from "./population-note";
 import { TableScroll } from "./table-scroll";
 import type { FigureKey } from "~/engine/checks";
 import { RerunFigure } from "./figures/rerun-figure";
-import { fmt, fmtCi, fmtP } from "./format";
+import { fmt, fmtCi, fmtP } from "~/shared/format";
 import {
   CheckCard,
   checkTally,

@@ -6,7 +6,7 @@
 import { familyWithLink } from "~/engine/family-names";
 import type { GlmResult } from "~/engine/glm/glm-model";
 import type { LinearModelResult } from "~/engine/linear-model";
-import { fmt, fmtP } from "./format";
+import { fmt, fmtP } from "~/shared/format";
 
 export interface FitStatisticRow {
   readonly label: string;

@@ -2,7 +2,7 @@
  * The reproduction check on the results page and the report: each published value beside the
  * rerun's value, rounded as printed, with its outcome in word and shape.
  */
-import { fmt } from "./format";
+import { fmt } from "~/shared/format";
 import { StatusLabel } from "./status";
 
 export interface ReproductionCardData {

@@ -2,11 +2,13 @@
  * Status is never colour alone: each carries a word and a shape (filled square within plan,
  * open triangle finding, open circle pending).
  */
-export type Status = "within" | "finding" | "pending";
+import { CHECK_OUTCOME, type Status } from "~/shared/status-words";
+
+export type { Status };
 
 const LOOK: Record<Status, { word: string; color: string }> = {
-  within: { word: "Within plan", color: "#2e6f5e" },
-  finding: { word: "Finding", color: "#b4442a" },
+  within: { word: CHECK_OUTCOME.within.word, color: "#2e6f5e" },
+  finding: { word: CHECK_OUTCOME.finding.word, color: "#b4442a" },
   pending: { word: "Pending", color: "#5b6478" },
 };
 

@@ -1,5 +1,5 @@
 import { Form } from "react-router";
-import { utc } from "./format";
+import { utc } from "~/shared/format";
 
 export interface TokenRow {
   id: string;

@@ -4,7 +4,7 @@
  * (F for a linear model, likelihood-ratio χ² for a generalized linear model).
  */
 import { CONTRAST_SET_NAMES } from "~/engine/multiplicity";
-import { fmt, fmtP } from "./format";
+import { fmt, fmtP } from "~/shared/format";
 
 export type TreatmentTestView =
   | { readonly name: "F"; readonly term: string; readonly statistic: number | null; readonly df1: number; readonly df2: number; readonly p: number | null; readonly reason?: string }

@@ -23,6 +23,54 @@ function covarianceOf(names: readonly string[], matrix: readonly (readonly numbe
   return { type, names: [...names], matrix: matrix.map((row) => row.map(num)) };
 }
 
+/** The keys both answers open with: versions, caution, family and link, counts. */
+function headOf(result: LinearModelResult | GlmResult) {
+  return {
+    engineVersion: result.engineVersion,
+    caution: result.caution,
+    family: result.family,
+    link: result.link,
+    familyLabel: familyWithLink(result.family, result.link),
+    n: result.n,
+    excluded: result.excluded,
+    rank: result.rank,
+    dfResidual: result.dfResidual,
+  };
+}
+
+type Coefficient = LinearModelResult["coefficients"][number] | GlmResult["coefficients"][number];
+
+/** The coefficient rows, each saying on which scale its SE is. */
+function coefficientsOut(coefficients: readonly Coefficient[], seScale: string) {
+  return coefficients.map((c) => ({
+    name: c.name,
+    estimate: num(c.estimate),
+    se: num(c.se),
+    statistic: num(c.statistic),
+    p: num(c.p),
+    lower: num(c.lower),
+    upper: num(c.upper),
+    seScale,
+  }));
+}
+
+type Influence = Pick<LinearModelResult["observations"], "leverage" | "studentizedInternal" | "studentizedExternal" | "cooksDistance">;
+
+/** Observation i's leverage, studentized residuals and Cook's distance. */
+function influenceOf(o: Influence, i: number) {
+  return {
+    leverage: num(o.leverage[i]),
+    studentizedInternal: num(o.studentizedInternal[i]),
+    studentizedExternal: num(o.studentizedExternal[i]),
+    cooksDistance: num(o.cooksDistance[i]),
+  };
+}
+
+/** Variance inflation per term. */
+function vifOut(vif: LinearModelResult["vif"] | GlmResult["vif"]) {
+  return vif.map((v) => ({ term: v.term, gvif: num(v.gvif), df: v.df, adjusted: num(v.adjusted) }));
+}
+
 export interface CliObservation {
   readonly row: number;
   readonly id: string | null;
@@ -72,25 +120,8 @@ function glmMarginalEffects(result: GlmResult, m: NonNullable<GlmResult["margina
 export function toGlmCliResult(result: GlmResult): Record<string, unknown> {
   const o = result.observations;
   return {
-    engineVersion: result.engineVersion,
-    caution: result.caution,
-    family: result.family,
-    link: result.link,
-    familyLabel: familyWithLink(result.family, result.link),
-    n: result.n,
-    excluded: result.excluded,
-    rank: result.rank,
-    dfResidual: result.dfResidual,
-    coefficients: result.coefficients.map((c) => ({
-      name: c.name,
-      estimate: num(c.estimate),
-      se: num(c.se),
-      statistic: num(c.statistic),
-      p: num(c.p),
-      lower: num(c.lower),
-      upper: num(c.upper),
-      seScale: `link (${result.link})`,
-    })),
+    ...headOf(result),
+    coefficients: coefficientsOut(result.coefficients, `link (${result.link})`),
     covariance: covarianceOf(
       result.coefficients.map((c) => c.name),
       result.covariance,
@@ -121,16 +152,13 @@ export function toGlmCliResult(result: GlmResult): Record<string, unknown> {
       residual: num(o.residual[i]),
       pearson: num(o.pearson[i]),
       devianceResidual: num(o.devianceResidual[i]),
-      leverage: num(o.leverage[i]),
-      studentizedInternal: num(o.studentizedInternal[i]),
-      studentizedExternal: num(o.studentizedExternal[i]),
-      cooksDistance: num(o.cooksDistance[i]),
+      ...influenceOf(o, i),
       dfbetas: o.dfbetas.map((c) => num(c[i])),
       quantileResidual: num(o.quantileResidual[i]),
     })),
     tests: result.checks,
     binnedResiduals: result.binnedResiduals,
-    vif: result.vif.map((v) => ({ term: v.term, gvif: num(v.gvif), df: v.df, adjusted: num(v.adjusted) })),
+    vif: vifOut(result.vif),
     qqShape: qqShapeOut(result.qqShape),
     ...(result.marginalEffects ? { marginalEffects: glmMarginalEffects(result, result.marginalEffects) } : {}),
     ...(result.marginalEffects
@@ -164,33 +192,13 @@ export function toCliResult(result: LinearModelResult | GlmResult): Record<strin
     id: o.id[i],
     fitted: num(o.fitted[i]),
     residual: num(o.residual[i]),
-    leverage: num(o.leverage[i]),
-    studentizedInternal: num(o.studentizedInternal[i]),
-    studentizedExternal: num(o.studentizedExternal[i]),
-    cooksDistance: num(o.cooksDistance[i]),
+    ...influenceOf(o, i),
     dffits: num(o.dffits[i]),
     dfbetas: o.dfbetas.map((c) => num(c[i])),
   }));
   const out: Record<string, unknown> = {
-    engineVersion: result.engineVersion,
-    caution: result.caution,
-    family: result.family,
-    link: result.link,
-    familyLabel: familyWithLink(result.family, result.link),
-    n: result.n,
-    excluded: result.excluded,
-    rank: result.rank,
-    dfResidual: result.dfResidual,
-    coefficients: result.coefficients.map((c) => ({
-      name: c.name,
-      estimate: num(c.estimate),
-      se: num(c.se),
-      statistic: num(c.statistic),
-      p: num(c.p),
-      lower: num(c.lower),
-      upper: num(c.upper),
-      seScale: "response",
-    })),
+    ...headOf(result),
+    coefficients: coefficientsOut(result.coefficients, "response"),
     covariance: covarianceOf(
       result.coefficients.map((c) => c.name),
       result.covariance,
@@ -213,7 +221,7 @@ export function toCliResult(result: LinearModelResult | GlmResult): Record<strin
     },
     observations,
     tests: result.tests,
-    vif: result.vif.map((v) => ({ term: v.term, gvif: num(v.gvif), df: v.df, adjusted: num(v.adjusted) })),
+    vif: vifOut(result.vif),
     qqShape: qqShapeOut(result.qqShape),
   };
   if (result.adjustedMeans) out.adjustedMeans = result.adjustedMeans.map((m) => ({ ...m, seScale: "response" }));

@@ -1,5 +1,5 @@
 import type { Route } from "./+types/admin.audit-export";
-import { CAUTION } from "~/components/caution";
+import { CAUTION } from "~/shared/caution";
 import { exportAuditCsv, readAuditQuery } from "~/.server/audit-trail.server";
 import { actorOf } from "~/.server/people.server";
 import { requireAdmin } from "~/.server/permissions.server";

@@ -1,5 +1,5 @@
 import type { Route } from "./+types/admin.outbox";
-import { utc } from "~/components/format";
+import { utc } from "~/shared/format";
 import { EmptyState, PageHeader } from "~/components/page";
 import { StatusLabel, type Status } from "~/components/status";
 import { fakeInbox } from "~/.server/mail/fake-inbox.server";

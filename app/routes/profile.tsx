@@ -3,7 +3,7 @@ import { data, Form, useNavigation } from "react-router";
 import { z } from "zod";
 import { TokenTable } from "~/components/token-table";
 import type { Route } from "./+types/profile";
-import { utc } from "~/components/format";
+import { utc } from "~/shared/format";
 import { FieldError, PageHeader } from "~/components/page";
 import { createToken, EXPIRY_DAYS, NewToken, revokeToken, statusOf, tokensOf } from "~/.server/api/tokens.server";
 import { REQUESTS_PER_MINUTE } from "~/.server/api/rate-limit.server";

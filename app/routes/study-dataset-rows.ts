@@ -5,7 +5,7 @@
 import { data } from "react-router";
 import { z } from "zod";
 import type { Route } from "./+types/study-dataset-rows";
-import { readRowsWindow } from "~/.server/datasets/datasets.server";
+import { readRowsWindow } from "~/.server/datasets/dataset-reads.server";
 import { requireStudy } from "~/.server/study-access.server";
 
 const Query = z.object({

@@ -5,7 +5,7 @@ import { VersionStatus } from "~/components/datasets/version-status";
 import { formatBytes, formatCount, formatTime } from "~/components/datasets/format";
 import { EmptyState, PageHeader } from "~/components/page";
 import { config } from "~/.server/config.server";
-import { listDatasets } from "~/.server/datasets/datasets.server";
+import { listDatasets } from "~/.server/datasets/dataset-reads.server";
 import { requireStudy } from "~/.server/study-access.server";
 
 export function meta({ loaderData }: Route.MetaArgs) {

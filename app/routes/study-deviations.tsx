@@ -1,9 +1,9 @@
 import { Form, Link } from "react-router";
 import type { Route } from "./+types/study-deviations";
-import { utc } from "~/components/format";
+import { utc } from "~/shared/format";
 import { EmptyState, PageHeader } from "~/components/page";
 import { StatusLabel } from "~/components/status";
-import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
+import { ACTIONS, CATEGORIES, IMPACTS } from "~/shared/assessment-terms";
 import { deviationLog } from "~/.server/reruns/findings.server";
 import { seesSubjects } from "~/.server/permissions.server";
 import { redactionForReruns } from "~/.server/redaction.server";

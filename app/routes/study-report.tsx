@@ -3,13 +3,14 @@ import { TreatmentEffectNote } from "~/components/treatment-effect";
 import { CoxReportTables } from "~/components/cox-results";
 import { FitStatisticsTable } from "~/components/fit-statistics-table";
 import type { Route } from "./+types/study-report";
-import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
+import { ACTIONS, CATEGORIES, IMPACTS } from "~/shared/assessment-terms";
 import { Caution } from "~/components/caution";
-import { fmt, utc } from "~/components/format";
+import { fmt, utc } from "~/shared/format";
 import { PageHeader } from "~/components/page";
 import { AdjustedMeansTable, CheckFormulaNote, checkTally, CoefficientTable, ContrastsTable, SensitivityTable } from "~/components/rerun-results";
 import { ReproductionCard } from "~/components/reproduction-results";
 import { StatusLabel } from "~/components/status";
+import { CHECK_OUTCOME } from "~/shared/status-words";
 import { TableScroll } from "~/components/table-scroll";
 import { getReport } from "~/.server/reports/reports.server";
 import { ReportFigures } from "~/components/figures/report-figures";
@@ -25,12 +26,6 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const report = await getReport(study.id, params.rerunId);
   return { studyId: study.id, code: study.code, ...report };
 }
-
-const OUTCOME = {
-  within: { status: "within", word: "Within plan" },
-  finding: { status: "finding", word: "Finding" },
-  not_computed: { status: "pending", word: "Not computed" },
-} as const;
 
 const wordOf = <T extends Record<string, string>>(words: T, key: string): string => (key in words ? words[key as keyof T] : key);
 
@@ -165,7 +160,7 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
                       {c.label}
                     </th>
                     <td className="whitespace-nowrap">
-                      <StatusLabel status={OUTCOME[c.outcome].status} word={OUTCOME[c.outcome].word} />
+                      <StatusLabel status={CHECK_OUTCOME[c.outcome].status} word={CHECK_OUTCOME[c.outcome].word} />
                     </td>
                     <td className="num">{c.statistic}</td>
                     <td className="num whitespace-nowrap">{c.threshold}</td>

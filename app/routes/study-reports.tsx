@@ -1,7 +1,7 @@
 import { Link } from "react-router";
 import type { Route } from "./+types/study-reports";
 import { Caution } from "~/components/caution";
-import { utc } from "~/components/format";
+import { utc } from "~/shared/format";
 import { EmptyState, PageHeader } from "~/components/page";
 import { listReports } from "~/.server/reports/reports.server";
 import { requireStudy } from "~/.server/study-access.server";

@@ -8,7 +8,7 @@
  */
 import { z } from "zod";
 import type { Route } from "./+types/study-rerun-figures";
-import { CAUTION } from "~/components/caution";
+import { CAUTION } from "~/shared/caution";
 import { FIGURE_KEYS, figureModule } from "~/figures/registry";
 import { FigureUnavailableError } from "~/figures/shared/source";
 import { loadLockedTable } from "~/.server/datasets/catalog.server";

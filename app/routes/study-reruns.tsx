@@ -4,6 +4,7 @@ import { z } from "zod";
 import type { Route } from "./+types/study-reruns";
 import { EmptyState, PageHeader } from "~/components/page";
 import { StatusLabel } from "~/components/status";
+import { RERUN_STATUS, type StatusWord } from "~/shared/status-words";
 import { listLockedVersions } from "~/.server/datasets/catalog.server";
 import { actorOf } from "~/.server/people.server";
 import { approvedModels } from "~/.server/plans/plans.server";
@@ -41,12 +42,7 @@ export async function action({ request, params }: Route.ActionArgs) {
   return redirect(`/studies/${study.id}/reruns/${id}`);
 }
 
-const STATUS: Record<string, { status: "within" | "finding" | "pending"; word: string }> = {
-  queued: { status: "pending", word: "Queued" },
-  running: { status: "pending", word: "Running" },
-  completed: { status: "within", word: "Completed" },
-  failed: { status: "finding", word: "Failed" },
-};
+const STATUS: Record<string, StatusWord> = RERUN_STATUS;
 
 export default function Reruns({ loaderData, actionData }: Route.ComponentProps) {
   const { reruns, choices, canStart, studyId, code } = loaderData;

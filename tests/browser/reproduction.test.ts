@@ -224,7 +224,7 @@ describe("published values reproduced, or not, by the rerun", () => {
       ["99.99", "not_reproduced"],
     ]);
     // the answer is what the API schema and the served OpenAPI document say it is (strict objects)
-    const { CAUTION } = await import("~/components/caution");
+    const { CAUTION } = await import("~/shared/caution");
     const answer = { caution: CAUTION, ...body };
     const checked = RerunAnswer.safeParse(answer);
     expect(checked.error?.issues ?? []).toEqual([]);

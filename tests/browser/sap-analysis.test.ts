@@ -14,7 +14,7 @@ import os from "node:os";
 import path from "node:path";
 import type { Browser, Page } from "playwright-core";
 import { afterAll, afterEach, beforeAll, describe, expect, inject, it } from "vitest";
-import { fmt, fmtCi, fmtP } from "~/components/format";
+import { fmt, fmtCi, fmtP } from "~/shared/format";
 import { launchBrowser, screenshot, signInAs } from "../support/browser";
 import { personId } from "../support/sessions";
 

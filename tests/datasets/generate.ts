@@ -2,16 +2,7 @@
  * Invented test and benchmark datasets, generated reproducibly (mulberry32 from a fixed seed):
  * a subject code, an arm, numbers, dates and a few text columns.
  */
-function mulberry32(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+import { mulberry32 } from "~/engine/seeded-uniform";
 
 export const WIDE_COLUMNS = [
   "usubjid", "arm", "sex", "region", "age", "base", "wk4", "wk8", "wk12", "chg",

@@ -5,6 +5,7 @@
 import { readFileSync } from "node:fs";
 import { join } from "node:path";
 import { describe, expect, it } from "vitest";
+import { mulberry32 } from "~/engine/seeded-uniform";
 import { contrastOf, deleteCases, type DeletedCase, type FullFit } from "~/engine/case-deletion";
 import { defaultChecks, evaluateChecks } from "~/engine/checks";
 import { toDataTable } from "~/engine/data";
@@ -16,16 +17,7 @@ import { rerunTable, whatIfInputs, type RerunTable as ColumnTable } from "~/.ser
 import type { RerunDocument } from "~/.server/reruns/reruns.server";
 
 /** mulberry32 (public domain): the same stream on every machine. */
-function uniform(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+const uniform = mulberry32;
 
 /** Invented trial: three arms, baseline, age, sex, positive weights; one planted outlier. */
 function inventedTable(n: number, seed: number): ColumnTable {

@@ -18,7 +18,10 @@ interface KnownCycle {
   imports: Record<string, string[]>;
 }
 const configModule = pathToFileURL(path.join(root, "eslint.config.js")).href;
-const { KNOWN_CYCLES } = (await import(configModule)) as { KNOWN_CYCLES: KnownCycle[] };
+const { KNOWN_CYCLES, COMPONENTS_IMPORTING_SERVER_TYPES } = (await import(configModule)) as {
+  KNOWN_CYCLES: KnownCycle[];
+  COMPONENTS_IMPORTING_SERVER_TYPES: Record<string, string[]>;
+};
 
 /** The rule ids ESLint reports for `code` as if it were the file at `file` (relative to the root). */
 async function ruleIds(file: string, code: string): Promise<(string | null)[]> {
@@ -117,20 +120,34 @@ describe("components import no .server module", () => {
     expect(await ruleIds("app/components/lint-fixture.tsx", code)).toEqual([]);
   });
 
-  it("lets a listed exception import only the server module listed for it (issue 19 item 3)", async () => {
+  it("holds the dataset components that imported server types to the full rule (issue 19 item 3)", async () => {
+    expect(COMPONENTS_IMPORTING_SERVER_TYPES).toEqual({});
     const file = "app/components/datasets/column-summaries.tsx";
     expect(
       await ruleIds(
         file,
         `import type { ColumnMeta } from "~/.server/datasets/column-summary";\nexport type C = ColumnMeta;\n`,
       ),
-    ).toEqual([]);
-    expect(
-      await ruleIds(
-        file,
-        `import type { DbOrTx } from "~/.server/db/index.server";\nexport type D = DbOrTx;\n`,
-      ),
     ).toEqual(["import-x/no-restricted-paths"]);
+    expect(
+      await ruleIds(file, `import type { ColumnMeta } from "~/shared/datasets";\nexport type C = ColumnMeta;\n`),
+    ).toEqual([]);
+  });
+});
+
+describe("app/shared imports of the app only itself and the engine", () => {
+  it("refuses a server module, a component and a route", async () => {
+    for (const source of ["~/.server/db/index.server", "~/components/caution", "~/routes/study-rerun"]) {
+      expect(
+        await ruleIds("app/shared/lint-fixture.ts", `import * as m from "${source}";\nexport const x = m;\n`),
+        source,
+      ).toEqual(["import-x/no-restricted-paths"]);
+    }
+  });
+
+  it("allows the engine's types and its own files", async () => {
+    const code = `import { fmt } from "~/shared/format";\nimport type { CheckOutcome } from "~/engine/checks";\nexport const f = fmt;\nexport type C = CheckOutcome;\n`;
+    expect(await ruleIds("app/shared/lint-fixture.ts", code)).toEqual([]);
   });
 });
 

@@ -16,7 +16,7 @@ const { buildAppendixContent } = await import("~/.server/appendix/build-content.
 const { renderDocx } = await import("~/.server/appendix/docx.server");
 const { getRerun } = await import("~/.server/reruns/reruns.server");
 const { contrastsOf } = await import("~/.server/reruns/rerun-view.server");
-const { fmt, fmtCi, fmtP } = await import("~/components/format");
+const { fmt, fmtCi, fmtP } = await import("~/shared/format");
 
 type Content = Awaited<ReturnType<typeof buildAppendixContent>>;
 

@@ -32,7 +32,7 @@ const { runOneJob } = await import("~/.server/jobs/jobs.server");
 (await import("~/.server/background.server")).registerJobHandlers();
 const { queueDueRetries, retryDelayMs } = await import("~/.server/mail/outbox.server");
 const { notifyAppendixExported } = await import("~/.server/mail/notifications.server");
-const { CAUTION } = await import("~/components/caution");
+const { CAUTION } = await import("~/shared/caution");
 const { eq } = await import("drizzle-orm");
 
 type Actor = { id: string; name: string };

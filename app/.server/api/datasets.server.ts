@@ -1,5 +1,5 @@
 /** API: a study's datasets, their versions and hashes, and column metadata. Never rows. */
-import { getVersionDetail, listDatasets, type VersionSummary } from "../datasets/datasets.server";
+import { getVersionDetail, listDatasets, type VersionSummary } from "../datasets/dataset-reads.server";
 import { requireStudyForPrincipal } from "../study-access.server";
 import { ApiError } from "./respond.server";
 import type { Body, DatasetsAnswer, DatasetVersionAnswer } from "./schemas";

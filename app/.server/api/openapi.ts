@@ -5,7 +5,7 @@
  */
 import { OpenApiGeneratorV31, type RouteConfig } from "@asteasolutions/zod-to-openapi";
 import { z } from "zod";
-import { CAUTION } from "~/components/caution";
+import { CAUTION } from "~/shared/caution";
 import { REQUESTS_PER_MINUTE } from "./rate-limit.server";
 import {
   AppendicesAnswer,

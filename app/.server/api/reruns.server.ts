@@ -11,6 +11,7 @@ import { familyWithLink } from "~/engine/family-names";
 import { db, t } from "../db/index.server";
 import { findingsOf, signaturesOf } from "../reruns/findings.server";
 import { checkView, reportedContrasts, treatmentEffectOf } from "../reruns/rerun-view.server";
+import { rerunRows, storedRerunDocument, type RerunRow } from "../reruns/rerun-rows.server";
 import { reproductionCheckOf, sensitivityReruns, type Rerun, type RerunDocument } from "../reruns/reruns.server";
 import { requireStudyForPrincipal } from "../study-access.server";
 import { seesSubjects } from "../permissions.server";
@@ -29,31 +30,16 @@ async function rerunAccess(p: ApiPrincipal, studyId: string) {
   return { study: access.study, everyRerun: access.allowed.has("rerun.view"), withSubjectIds: seesSubjects(access) };
 }
 
-async function rerunRows(studyId: string, only?: string) {
-  const rows = await db
-    .select({ r: t.reruns, m: t.plannedModels, dv: t.datasetVersions, d: t.datasets, pv: t.planVersions })
-    .from(t.reruns)
-    .innerJoin(t.plannedModels, eq(t.plannedModels.id, t.reruns.plannedModelId))
-    .innerJoin(t.datasetVersions, eq(t.datasetVersions.id, t.reruns.datasetVersionId))
-    .innerJoin(t.datasets, eq(t.datasets.id, t.datasetVersions.datasetId))
-    .innerJoin(t.planVersions, eq(t.planVersions.id, t.reruns.planVersionId))
-    .where(only ? and(eq(t.reruns.studyId, studyId), eq(t.reruns.id, only)) : eq(t.reruns.studyId, studyId))
-    .orderBy(desc(t.reruns.createdAt));
+async function rerunsOfStudy(studyId: string, only?: string) {
+  const rows = await rerunRows(only ? and(eq(t.reruns.studyId, studyId), eq(t.reruns.id, only)) : eq(t.reruns.studyId, studyId), desc(t.reruns.createdAt));
   const ids = rows.map((r) => r.r.id);
   const findingRows = ids.length ? await db.select({ rerunId: t.findings.rerunId }).from(t.findings).where(inArray(t.findings.rerunId, ids)) : [];
   const counts = new Map<string, number>();
   for (const f of findingRows) counts.set(f.rerunId, (counts.get(f.rerunId) ?? 0) + 1);
-  return rows.map(({ r, m, dv, d, pv }) => ({ row: r, out: rerunOut(r, m, dv, d, pv, counts.get(r.id) ?? 0) }));
+  return rows.map((row) => ({ row: row.r, out: rerunOut(row, counts.get(row.r.id) ?? 0) }));
 }
 
-function rerunOut(
-  r: Rerun,
-  m: typeof t.plannedModels.$inferSelect,
-  dv: typeof t.datasetVersions.$inferSelect,
-  d: typeof t.datasets.$inferSelect,
-  pv: typeof t.planVersions.$inferSelect,
-  findings: number,
-): RerunOut {
+function rerunOut({ r, m, dv, d, pv }: RerunRow, findings: number): RerunOut {
   return {
     id: r.id,
     kind: r.kind,
@@ -77,7 +63,7 @@ function rerunOut(
 
 export async function listStudyReruns(p: ApiPrincipal, studyId: string): Promise<Body<typeof RerunsAnswer>> {
   const { study, everyRerun } = await rerunAccess(p, studyId);
-  const rows = await rerunRows(study.id);
+  const rows = await rerunsOfStudy(study.id);
   return { reruns: rows.filter((r) => everyRerun || r.row.publishedAt !== null).map((r) => r.out) };
 }
 
@@ -217,10 +203,10 @@ const parseDoc = (r: Rerun): RerunDocument | null => (r.resultJson ? (JSON.parse
 
 export async function getStudyRerun(p: ApiPrincipal, studyId: string, rerunId: string): Promise<Body<typeof RerunAnswer>> {
   const { study, everyRerun, withSubjectIds } = await rerunAccess(p, studyId);
-  const [found] = await rerunRows(study.id, rerunId);
+  const [found] = await rerunsOfStudy(study.id, rerunId);
   // An unpublished rerun does not exist for a reader who may see only published ones.
   if (!found || (!everyRerun && found.row.publishedAt === null)) throw new ApiError("not_found", "There is no such rerun in this study.");
-  const doc = parseDoc(found.row);
+  const doc = await storedRerunDocument(found.row);
   const [findings, signatures, children] = await Promise.all([
     findingsOf(rerunId),
     signaturesOf(rerunId),

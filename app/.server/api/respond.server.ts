@@ -5,7 +5,7 @@
  * Only a bearer token authenticates an API request. Session cookies are ignored here, so a
  * page on another site cannot make a signed-in browser call the API (no CSRF by design).
  */
-import { CAUTION } from "~/components/caution";
+import { CAUTION } from "~/shared/caution";
 import { apiRateLimit, FAILED_ATTEMPTS_PER_MINUTE, failedTokenAttempts, type RateDecision } from "./rate-limit.server";
 import { tokenPrefixOf, verifyToken, type ApiPrincipal } from "./tokens.server";
 

@@ -6,7 +6,7 @@
  */
 import { extendZodWithOpenApi, OpenAPIRegistry } from "@asteasolutions/zod-to-openapi";
 import { z } from "zod";
-import { CAUTION } from "~/components/caution";
+import { CAUTION } from "~/shared/caution";
 import { CHECKS, type CheckKey } from "~/engine/checks";
 import { modelSpecSchema } from "~/engine/model-spec";
 import { publishedValueSchema } from "~/engine/published-values";

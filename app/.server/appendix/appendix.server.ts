@@ -9,7 +9,7 @@ import { mkdir, readFile, rename, rm, stat, writeFile } from "node:fs/promises";
 import path from "node:path";
 import { and, desc, eq } from "drizzle-orm";
 import { data } from "react-router";
-import { CAUTION } from "~/components/caution";
+import { CAUTION } from "~/shared/caution";
 import { appendAudit, canonicalJson } from "../audit.server";
 import { config } from "../config.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";

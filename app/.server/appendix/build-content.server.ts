@@ -11,10 +11,11 @@ import { checksOfFigure, figureData, figureListOf, figureModule, figureSpec, typ
 import { contrastWords, forestAlt, forestPoints, forestSpec, type ForestRow } from "~/figures/forest";
 import { FigureUnavailableError } from "~/figures/shared/source";
 import { CHECK_BY_KEY, summaryAfterLabel, type CheckOutcome } from "~/engine/checks";
-import { fmt, fmtCi, fmtP, utc } from "~/components/format";
+import { fmt, fmtCi, fmtP, utc } from "~/shared/format";
 import { fitFactsOf, fitStatisticRows } from "~/components/fit-statistics";
 import { familyWithLink } from "~/engine/family-names";
-import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
+import { ACTIONS, CATEGORIES, IMPACTS } from "~/shared/assessment-terms";
+import { CHECK_OUTCOME } from "~/shared/status-words";
 import { loadLockedTable, type ColumnMeta } from "../datasets/catalog.server";
 import { db, t } from "../db/index.server";
 import { getPlannedModel, getPlanVersion } from "../plans/plans.server";
@@ -26,7 +27,7 @@ import { MULTIPLICITY_WORDS, treatmentTestWords } from "~/components/treatment-e
 import { getRerun, sensitivityReruns, type RerunDocument } from "../reruns/reruns.server";
 import { rerunTable } from "../reruns/what-if.server";
 import { getStudyOr404 } from "../studies.server";
-import { NARRATIVE_SECTIONS, SECTION_TITLES, type AppendixContent, type AppendixSection, type Block, type NarrativeSection } from "~/components/appendix-content";
+import { NARRATIVE_SECTIONS, SECTION_TITLES, type AppendixContent, type AppendixSection, type Block, type NarrativeSection } from "~/shared/appendix-content";
 import { redaction, type Redaction } from "../redaction.server";
 import { methodsProse } from "./methods";
 import { coxResultBlocks } from "./cox-content";
@@ -38,14 +39,13 @@ export type AppendixScope = { kind: "rerun"; rerunId: string } | { kind: "plan_v
 /** Figure width and plot height in CSS pixels: fits the printed text width at 2× resolution. */
 const FIGURE_SIZE = { width: 560, height: 230 };
 
-const OUTCOME_WORDS = { within: "Within plan", finding: "Finding", not_computed: "Not computed" } as const;
 
 /** The outcome of a check in words, with the count of subjects beyond the threshold where there is one. */
 export function outcomeInWords(c: CheckOutcome, n: number, redact: Redaction): string {
   if (c.outcome === "not_computed") return `Not computed. ${redact.countOnly(c.summary).replace(/^Not computed:?\s*/i, "")}`.trim();
   const count = c.flagged?.length ?? 0;
-  if (c.flagged) return c.outcome === "finding" ? `Finding: ${count} of ${n} subjects beyond the threshold` : "Within plan: no subject beyond the threshold";
-  return `${OUTCOME_WORDS[c.outcome]}: ${redact.countOnly(c.summary).replace(/\.$/, "").replace(/^The test/, "the test")}`;
+  if (c.flagged) return c.outcome === "finding" ? `${CHECK_OUTCOME.finding.word}: ${count} of ${n} subjects beyond the threshold` : `${CHECK_OUTCOME.within.word}: no subject beyond the threshold`;
+  return `${CHECK_OUTCOME[c.outcome].word}: ${redact.countOnly(c.summary).replace(/\.$/, "").replace(/^The test/, "the test")}`;
 }
 
 interface RerunPart {

@@ -3,8 +3,8 @@
  * (log hazard ratios, hazard ratios, the model's tests, the proportional-hazards test). The
  * words of each Cox figure live in its module (app/figures/cox/). No subject ids. Pure.
  */
-import type { Block } from "~/components/appendix-content";
-import { fmt, fmtCi, fmtP } from "~/components/format";
+import type { Block } from "~/shared/appendix-content";
+import { fmt, fmtCi, fmtP } from "~/shared/format";
 import type { CoxResult } from "~/engine/survival/cox-model";
 import { coxModelTests } from "../reruns/cox-rerun-view.server";
 

@@ -36,7 +36,8 @@ import {
   type ISectionOptions,
 } from "docx";
 import type { TopLevelSpec } from "vega-lite";
-import { allText, type AppendixContent, type Block } from "~/components/appendix-content";
+import { allText, type AppendixContent, type Block } from "~/shared/appendix-content";
+import { mulberry32 } from "~/engine/seeded-uniform";
 import { renderFigure } from "./figures.server";
 import { FONT_FAMILY, subsetNotoSans } from "./fonts.server";
 
@@ -47,17 +48,6 @@ const HEAD_FILL = "EFEADF";
 /** Printable width of an A4 page with 2.2 cm margins, in pixels at 96 dpi (docx sizes pictures in pixels). */
 const TEXT_WIDTH_PX = 630;
 const MARGIN_TWIPS = 1247;
-
-/** mulberry32: a small seeded generator (Tommy Ettinger's public-domain design). */
-function seeded(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let x = Math.imul(a ^ (a >>> 15), 1 | a);
-    x = (x + Math.imul(x ^ (x >>> 7), 61 | x)) ^ x;
-    return ((x ^ (x >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 /** Runs `work` with `new Date()`/`Date.now()` fixed at `at` and Math.random seeded; restores both. */
 function withFixedClockAndSeed<T>(at: Date, seed: number, work: () => T): T {
@@ -96,7 +86,7 @@ function withFixedClockAndSeed<T>(at: Date, seed: number, work: () => T): T {
     }
   }
   globalThis.Date = FixedDate as DateConstructor;
-  Math.random = seeded(seed);
+  Math.random = mulberry32(seed);
   try {
     return work();
   } finally {

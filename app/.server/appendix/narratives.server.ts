@@ -8,7 +8,7 @@ import { z } from "zod";
 import { appendAudit } from "../audit.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
 import type { PersonActor } from "../people.server";
-import { NARRATIVE_SECTIONS, type NarrativeSection } from "~/components/appendix-content";
+import { NARRATIVE_SECTIONS, type NarrativeSection } from "~/shared/appendix-content";
 
 export interface Narrative {
   id: string;

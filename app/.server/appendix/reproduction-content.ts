@@ -2,8 +2,8 @@
  * The reproduction check in the appendix: a row among the checks of the plan, and a table of
  * each published value against the rerun's value rounded as printed, with the rounding rule.
  */
-import type { Block } from "~/components/appendix-content";
-import { fmt } from "~/components/format";
+import type { Block } from "~/shared/appendix-content";
+import { fmt } from "~/shared/format";
 import { reproductionAsCheck, REPRODUCTION_CHECK_LABEL } from "~/engine/reproduction";
 import type { RerunDocument } from "../reruns/reruns.server";
 

@@ -14,7 +14,7 @@ import { availableParallelism } from "node:os";
 import path from "node:path";
 import { fileURLToPath } from "node:url";
 import Tinypool from "tinypool";
-import type { AppendixContent } from "~/components/appendix-content";
+import type { AppendixContent } from "~/shared/appendix-content";
 import { renderDocx } from "../appendix/docx.server";
 import type { WhatIfInputs } from "~/components/figures/what-if-inputs";
 import { rerunTask, type RerunTaskInput, type RerunTaskOutput } from "./rerun-task";

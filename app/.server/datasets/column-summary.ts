@@ -3,30 +3,10 @@
  * Missing cells are empty, `NA` or `.`, as the engine reads them (app/engine/data.ts).
  */
 import { isMissingCell, orderLevels, parseNumber } from "../../engine/data";
+import type { ColumnMeta, ColumnType } from "../../shared/datasets";
 import { MAX_CODED_LEVELS } from "./categorical-hint";
 
-export type ColumnType = "number" | "text" | "date" | "datetime";
-
-export interface ColumnMeta {
-  name: string;
-  label: string | null;
-  type: ColumnType;
-  nonMissing: number;
-  missing: number;
-  min?: number;
-  max?: number;
-  mean?: number;
-  sd?: number;
-  /**
-   * Level counts: of a text column with at most MAX_LEVELS distinct values, and of a numeric
-   * column of whole numbers with at most MAX_CODED_LEVELS distinct values (numeric codes; see
-   * categorical-hint.ts).
-   */
-  levels?: { value: string; count: number }[];
-  /** Earliest and latest value of a date or datetime column (ISO 8601 text). */
-  earliest?: string;
-  latest?: string;
-}
+export type { ColumnMeta, ColumnType };
 
 export const MAX_LEVELS = 50;
 

@@ -7,7 +7,9 @@ import { eq } from "drizzle-orm";
 import { db, t } from "../db/index.server";
 import { actorOf } from "../people.server";
 import { demoDatasetCsv } from "../demo/demo-dataset";
-import { getVersionDetail, lockVersion, recordNotIdentifier, uploadBytes } from "./datasets.server";
+import { lockVersion, recordNotIdentifier } from "./dataset-decisions.server";
+import { getVersionDetail } from "./dataset-reads.server";
+import { uploadBytes } from "./datasets.server";
 
 export const DEMO_DATA_MANAGER_EMAIL = "dana.okafor@plumbline.example";
 export const DEMO_SUBJECT_CODE_RATIONALE =

@@ -2,18 +2,9 @@
  * What changed between two versions of a dataset: columns added and removed, and rows added,
  * removed and changed, matched by the dataset's key.
  */
-export interface ChangeSummary {
-  againstVersion: number;
-  keyColumns: string[];
-  columnsAdded: string[];
-  columnsRemoved: string[];
-  rowsAdded: number;
-  rowsRemoved: number;
-  rowsChanged: number;
-  rowsUnchanged: number;
-  /** A few keys of each kind, to show what the counts mean. */
-  examples: { added: string[]; removed: string[]; changed: { key: string; columns: string[] }[] };
-}
+import type { ChangeSummary } from "../../shared/datasets";
+
+export type { ChangeSummary };
 
 export interface Comparable {
   names: string[];

@@ -19,6 +19,7 @@ import {
   DEMO_SEVERE_CUTOFF,
   DEMO_STRATA,
 } from "./demo-study";
+import { mulberry32 } from "../../engine/seeded-uniform";
 
 export const DEMO_DEFAULT_SEED = 301_301;
 export const DEMO_SUBJECT_COUNT = 450;
@@ -33,21 +34,6 @@ export interface DemoDataset {
 
 /** A uniform source on [0, 1). */
 type Uniform = () => number;
-
-/**
- * mulberry32 (Tommy Ettinger, public domain): 32-bit integer arithmetic only, so the stream is
- * identical on every platform and engine, unlike Math.random.
- */
-function mulberry32(seed: number): Uniform {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 /**
  * Standard normal draws by the polar form of the Box–Muller transform (Marsaglia and Bray, 1964).

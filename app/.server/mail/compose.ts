@@ -7,7 +7,7 @@
  * What goes in is study-level only (codes, titles, versions, counts, names of staff); callers
  * never pass subject identifiers or data rows.
  */
-import { CAUTION } from "~/components/caution";
+import { CAUTION } from "~/shared/caution";
 
 export interface MessageContent {
   subject: string;

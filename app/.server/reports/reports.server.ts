@@ -12,6 +12,7 @@ import { db, t } from "../db/index.server";
 import { deviationLog, findingsOf, signaturesOf } from "../reruns/findings.server";
 import { reportedContrasts, rerunView } from "../reruns/rerun-view.server";
 import { redactionFor } from "../redaction.server";
+import { rerunRows } from "../reruns/rerun-rows.server";
 import { getRerun, rerunDocumentOf, sensitivityReruns, type RerunDocument } from "../reruns/reruns.server";
 import { reportFigures } from "./report-figures.server";
 
@@ -30,15 +31,10 @@ export interface ReportListing {
 
 /** The study's published primary reruns, newest first. */
 export async function listReports(studyId: string): Promise<ReportListing[]> {
-  const rows = await db
-    .select({ r: t.reruns, m: t.plannedModels, dv: t.datasetVersions, d: t.datasets, pv: t.planVersions })
-    .from(t.reruns)
-    .innerJoin(t.plannedModels, eq(t.plannedModels.id, t.reruns.plannedModelId))
-    .innerJoin(t.datasetVersions, eq(t.datasetVersions.id, t.reruns.datasetVersionId))
-    .innerJoin(t.datasets, eq(t.datasets.id, t.datasetVersions.datasetId))
-    .innerJoin(t.planVersions, eq(t.planVersions.id, t.reruns.planVersionId))
-    .where(and(eq(t.reruns.studyId, studyId), eq(t.reruns.kind, "primary"), isNotNull(t.reruns.publishedAt), isNull(t.reruns.parentRerunId)))
-    .orderBy(desc(t.reruns.publishedAt));
+  const rows = await rerunRows(
+    and(eq(t.reruns.studyId, studyId), eq(t.reruns.kind, "primary"), isNotNull(t.reruns.publishedAt), isNull(t.reruns.parentRerunId)),
+    desc(t.reruns.publishedAt),
+  );
   return Promise.all(
     rows.map(async ({ r, m, dv, d, pv }) => {
       const [signatures, findings, children] = await Promise.all([signaturesOf(r.id), findingsOf(r.id), sensitivityReruns(r.id)]);

@@ -5,7 +5,7 @@
  * answer for a viewer without subjects is checked for subject ids before it is kept.
  */
 import { LRUCache } from "lru-cache";
-import { CAUTION } from "~/components/caution";
+import { CAUTION } from "~/shared/caution";
 import { figureData, figureSpec } from "~/figures/registry";
 import type { FigureTable } from "~/figures/shared/source";
 import type { FigureKey } from "~/engine/checks";

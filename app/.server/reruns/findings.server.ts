@@ -12,7 +12,7 @@ import { db, isoNow, newId, t, writeTransaction, type DbOrTx } from "../db/index
 import { notifyReportPublished, notifyRerunAwaitsSignOff } from "../mail/notifications.server";
 import type { PersonActor } from "../people.server";
 import { freshness, SIGNATURE_MEANINGS, type Signer } from "../signatures.server";
-import { ACTIONS, CATEGORIES, IMPACTS } from "~/components/assessment-terms";
+import { ACTIONS, CATEGORIES, IMPACTS } from "~/shared/assessment-terms";
 import { withoutRepeatedLabel } from "~/engine/checks";
 
 export { ACTIONS, CATEGORIES, IMPACTS };

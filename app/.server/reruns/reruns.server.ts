@@ -5,8 +5,7 @@
  * determines it, rerunning yields the same hash. A model that cannot be estimated as planned
  * is kept as a failed rerun with the engine's reason and a finding of that kind.
  */
-import { and, asc, desc, eq, getTableColumns, inArray } from "drizzle-orm";
-import { LRUCache } from "lru-cache";
+import { and, asc, desc, eq, inArray } from "drizzle-orm";
 import { data } from "react-router";
 import { findingSummary } from "~/engine/checks";
 import { EngineError, ENGINE_VERSION } from "~/engine";
@@ -19,12 +18,14 @@ import { enqueueJob, registerJobFailureHook, registerJobHandler, type Job } from
 import { notifyRerunAwaitsSignOff } from "../mail/notifications.server";
 import type { PersonActor } from "../people.server";
 import { getPlannedModel } from "../plans/plans.server";
-import { reproductionCheckOf, type RerunDocument } from "./compute-rerun";
+import { reproductionCheckOf } from "./compute-rerun";
 import { describeOptions, rerunOptionsSchema, type RerunOptions } from "./rerun-options";
 import { exclusionProblem } from "./what-if.server";
 import { plannedSensitivityOptions } from "./planned-sensitivity";
+import { rerunDocumentOf, rerunRows } from "./rerun-rows.server";
 
 export { computeRerun, reproductionCheckOf, type RerunDocument, type RerunTable } from "./compute-rerun";
+export { getRerun, rerunDocumentOf } from "./rerun-rows.server";
 
 export const RERUN_JOB = "rerun";
 
@@ -278,16 +279,7 @@ export interface RerunListing {
 
 /** The study's reruns for listing (never their stored results: one of a large rerun is hundreds of MB). */
 export async function listReruns(studyId: string): Promise<RerunListing[]> {
-  const rows = await db
-    .select({ r: rerunWithoutResult, m: t.plannedModels, dv: t.datasetVersions, d: t.datasets, pv: t.planVersions, who: t.people.displayName })
-    .from(t.reruns)
-    .innerJoin(t.plannedModels, eq(t.plannedModels.id, t.reruns.plannedModelId))
-    .innerJoin(t.datasetVersions, eq(t.datasetVersions.id, t.reruns.datasetVersionId))
-    .innerJoin(t.datasets, eq(t.datasets.id, t.datasetVersions.datasetId))
-    .innerJoin(t.planVersions, eq(t.planVersions.id, t.reruns.planVersionId))
-    .leftJoin(t.people, eq(t.people.id, t.reruns.startedBy))
-    .where(eq(t.reruns.studyId, studyId))
-    .orderBy(desc(t.reruns.createdAt));
+  const rows = await rerunRows(eq(t.reruns.studyId, studyId), desc(t.reruns.createdAt));
   const ids = rows.map((r) => r.r.id);
   const counts = ids.length
     ? await db.select({ rerunId: t.findings.rerunId }).from(t.findings).where(inArray(t.findings.rerunId, ids))
@@ -310,69 +302,6 @@ export async function listReruns(studyId: string): Promise<RerunListing[]> {
     prespecified: r.prespecified,
     resultSha256: r.resultSha256,
   }));
-}
-
-/**
- * Parsed results of completed reruns, keyed by rerun id and result hash: a stored result never
- * changes, and parsing a 10 000-subject result (several MB) for each of a results page's figure
- * requests took most of their time. Frozen, so no reader can change what the next one sees.
- */
-const parsedResults = new LRUCache<string, RerunDocument>({ max: 16 });
-
-const resultKey = (id: string, resultSha256: string | null) => `${id}:${resultSha256 ?? ""}`;
-
-function deepFreeze<T>(value: T): T {
-  if (value && typeof value === "object" && !Object.isFrozen(value)) {
-    Object.freeze(value);
-    for (const v of Object.values(value)) deepFreeze(v);
-  }
-  return value;
-}
-
-/** The stored result of a rerun row, parsed once per result hash (read-only). */
-export function rerunDocumentOf(row: { id: string; resultJson: string | null; resultSha256: string | null }): RerunDocument | null {
-  if (!row.resultJson) return null;
-  const key = resultKey(row.id, row.resultSha256);
-  const cached = parsedResults.get(key);
-  if (cached) return cached;
-  const doc = deepFreeze(JSON.parse(row.resultJson) as RerunDocument);
-  parsedResults.set(key, doc);
-  return doc;
-}
-
-/** Every column of a rerun but its stored result, which getRerun reads only when it has not parsed it yet. */
-const { resultJson: _resultJson, ...rerunWithoutResult } = getTableColumns(t.reruns);
-
-/** A rerun, its model, dataset version, plan version and who started it, with its parsed result (read-only; null until completed). */
-export async function getRerun(studyId: string, rerunId: string) {
-  const [row] = await db
-    .select({ r: rerunWithoutResult, m: t.plannedModels, dv: t.datasetVersions, d: t.datasets, pv: t.planVersions, who: t.people.displayName })
-    .from(t.reruns)
-    .innerJoin(t.plannedModels, eq(t.plannedModels.id, t.reruns.plannedModelId))
-    .innerJoin(t.datasetVersions, eq(t.datasetVersions.id, t.reruns.datasetVersionId))
-    .innerJoin(t.datasets, eq(t.datasets.id, t.datasetVersions.datasetId))
-    .innerJoin(t.planVersions, eq(t.planVersions.id, t.reruns.planVersionId))
-    .leftJoin(t.people, eq(t.people.id, t.reruns.startedBy))
-    .where(and(eq(t.reruns.id, rerunId), eq(t.reruns.studyId, studyId)))
-    .limit(1);
-  if (!row) throw data({ message: "There is no such rerun in this study." }, { status: 404 });
-  let doc: RerunDocument | null = null;
-  if (row.r.status === "completed" && row.r.resultSha256) {
-    doc = parsedResults.get(resultKey(row.r.id, row.r.resultSha256)) ?? null;
-    if (!doc) {
-      // a 10 000-subject result is several MB: read it only when it is not parsed yet
-      const [stored] = await db.select({ resultJson: t.reruns.resultJson }).from(t.reruns).where(eq(t.reruns.id, row.r.id));
-      doc = rerunDocumentOf({ id: row.r.id, resultSha256: row.r.resultSha256, resultJson: stored?.resultJson ?? null });
-    }
-  }
-  return {
-    rerun: row.r,
-    model: { id: row.m.id, key: row.m.key, title: row.m.title },
-    dataset: { name: row.d.name, version: row.dv.version, sha256: row.dv.sha256, versionId: row.dv.id },
-    planVersion: { id: row.pv.id, version: row.pv.version, title: row.pv.title },
-    startedBy: row.who,
-    doc,
-  };
 }
 
 /** The sensitivity reruns started from a primary rerun, oldest first. */

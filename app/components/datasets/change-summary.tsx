@@ -1,4 +1,4 @@
-import type { ChangeSummary } from "~/.server/datasets/diff";
+import type { ChangeSummary } from "~/shared/datasets";
 import { formatCount } from "./format";
 
 /** What changed against the previous locked version, counted by key. */

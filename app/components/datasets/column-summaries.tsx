@@ -1,4 +1,4 @@
-import type { ColumnMeta } from "~/.server/datasets/column-summary";
+import type { ColumnMeta } from "~/shared/datasets";
 import { formatCount, formatStat } from "./format";
 
 const TYPE_WORD: Record<ColumnMeta["type"], string> = { number: "number", text: "text", date: "date", datetime: "date-time" };

@@ -1,7 +1,7 @@
 import { useCallback, useEffect, useMemo, useReducer, useRef, useState } from "react";
 import { flexRender, getCoreRowModel, useReactTable, type ColumnDef, type SortingState } from "@tanstack/react-table";
 import { useVirtualizer } from "@tanstack/react-virtual";
-import type { ColumnMeta } from "~/.server/datasets/column-summary";
+import type { ColumnMeta } from "~/shared/datasets";
 
 const PAGE = 200;
 const ROW_HEIGHT = 28;

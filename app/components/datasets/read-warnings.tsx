@@ -1,4 +1,4 @@
-import type { ColumnMeta } from "~/.server/datasets/column-summary";
+import type { ColumnMeta } from "~/shared/datasets";
 import type { ColumnReadMeta } from "~/engine-io/dataset/table";
 
 /**

@@ -1,5 +1,5 @@
 import { Form, useNavigation } from "react-router";
-import type { ScreenHitView } from "~/.server/datasets/datasets.server";
+import type { ScreenHitView } from "~/shared/datasets";
 import { StatusLabel } from "~/components/status";
 import { formatTime } from "./format";
 

@@ -250,8 +250,8 @@ function nameAliased(design: Design, aliased: readonly number[]): never {
   );
 }
 
-/** Fits the generalized linear model the specification describes. */
-export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOptions = {}): GlmResult {
+/** The family and link the specification names, refused when the family does not offer the link. */
+function familyAndLink(spec: ModelSpec): { familyName: GlmFamilyName; linkName: Link; link: LinkFunctions } {
   const familyName = spec.family as GlmFamilyName;
   const linkName = spec.link ?? CANONICAL_LINK[spec.family];
   const allowed: Record<GlmFamilyName, Link[]> = {
@@ -263,38 +263,28 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
   if (!allowed[familyName].includes(linkName)) {
     throw new EngineError(`link "${linkName}" is not available for the ${familyName} family; use ${allowed[familyName].join(", ")}`);
   }
-  const link = linkFunctions(linkName);
-  const table = prepareGlmTable(spec, tableIn);
-  const data = prepareData(spec, table);
-  const design = buildDesign(spec, data);
+  return { familyName, linkName, link: linkFunctions(linkName) };
+}
+
+/** Refuses a binomial fit whose estimates diverge (complete or quasi-complete separation). */
+function refuseSeparation(fit: IrlsFit, design: Design, data: PreparedData, family: GlmFamily, link: LinkFunctions): void {
   const { n, p } = design;
-  if (n <= p) {
-    throw new EngineError(`${n} usable rows for ${p} coefficients: the model needs more usable rows than coefficients`);
+  const sep = detectSeparation(fit, design.x, n, p, data.response, data.offset, family, link);
+  if (sep) {
+    const names = sep.coefficients.filter((j) => !(design.intercept && j === 0)).map((j) => design.names[j]);
+    const termLabels = [...new Set(design.terms.filter((t) => t.columns.some((c) => sep.coefficients.includes(c))).map((t) => t.label))];
+    throw new SeparationError(
+      `${sep.kind} separation: ${termLabels.length > 0 ? `the estimates for ${termLabels.map((t) => `"${t}"`).join(", ")}` : "the estimates"} diverge (${sep.boundaryRows} rows have fitted probability 0 or 1), so the planned model has no finite maximum-likelihood estimate; consider a penalized (Firth) fit or merging levels as a documented deviation`,
+      sep.kind,
+      names,
+      termLabels,
+    );
   }
-  checkGlmResponse(spec, data);
-  const core = fitCore(design.x, n, p, data, familyName, link);
-  const { fit, family } = core;
-  if (fit.aliased.length > 0) nameAliased(design, fit.aliased);
+}
 
-  if (familyName === "binomial") {
-    const sep = detectSeparation(fit, design.x, n, p, data.response, data.offset, family, link);
-    if (sep) {
-      const names = sep.coefficients.filter((j) => !(design.intercept && j === 0)).map((j) => design.names[j]);
-      const termLabels = [...new Set(design.terms.filter((t) => t.columns.some((c) => sep.coefficients.includes(c))).map((t) => t.label))];
-      throw new SeparationError(
-        `${sep.kind} separation: ${termLabels.length > 0 ? `the estimates for ${termLabels.map((t) => `"${t}"`).join(", ")}` : "the estimates"} diverge (${sep.boundaryRows} rows have fitted probability 0 or 1), so the planned model has no finite maximum-likelihood estimate; consider a penalized (Firth) fit or merging levels as a documented deviation`,
-        sep.kind,
-        names,
-        termLabels,
-      );
-    }
-  }
-
-  const pw = data.weights;
-  const y = data.response;
-  const mu = fit.mu;
-  const wfit = fit.weighted;
-  const dfResidual = n - p;
+/** Pearson and deviance residuals, and the Pearson χ² they sum to. */
+function residualsOf(y: Float64Array, mu: Float64Array, pw: Float64Array | null, family: GlmFamily) {
+  const n = y.length;
   let pearsonChiSquare = 0;
   const pearson = new Float64Array(n);
   const devRes = new Float64Array(n);
@@ -305,41 +295,33 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     const d = family.deviance(y[i], mu[i], w);
     devRes[i] = Math.sign(y[i] - mu[i]) * Math.sqrt(Math.max(0, d));
   }
-  const dispersion = family.estimatedDispersion ? pearsonChiSquare / dfResidual : 1;
-  const cov = wfit.unscaledCovariance.map((v) => v * dispersion);
-  const estimatedPhi = family.estimatedDispersion;
+  return { pearson, devRes, pearsonChiSquare };
+}
+
+/** Wald rows: t tests with an estimated dispersion, z tests otherwise; 95% intervals on the normal quantile. */
+function waldRows(design: Design, estimates: ArrayLike<number>, cov: ArrayLike<number>, estimatedPhi: boolean, dfResidual: number): GlmCoefficientRow[] {
+  const p = design.p;
   const q = normalQuantile(0.975);
   const termOf = new Map<number, string>();
   for (const t of design.terms) for (const c of t.columns) termOf.set(c, t.label);
-  const coefficients: GlmCoefficientRow[] = design.names.map((name, j) => {
-    const estimate = fit.coefficients[j];
+  return design.names.map((name, j) => {
+    const estimate = estimates[j];
     const se = Math.sqrt(cov[j * p + j]);
     const statistic = estimate / se;
     const pv = estimatedPhi ? tTwoSided(statistic, dfResidual) : 2 * normalUpper(Math.abs(statistic));
     return { name, term: termOf.get(j) ?? null, estimate, se, statistic, p: pv, lower: estimate - q * se, upper: estimate + q * se };
   });
+}
 
-  // null deviance: intercept-only model (with the offset), or η = offset without an intercept
-  let nullDeviance: number;
-  if (design.intercept) {
-    const ones = new Float64Array(n).fill(1);
-    const nullFit = fitCore(ones, n, 1, data, familyName, link, data.offset, core.theta?.theta);
-    nullDeviance = nullFit.fit.deviance;
-  } else {
-    nullDeviance = 0;
-    for (let i = 0; i < n; i++) nullDeviance += family.deviance(y[i], link.inverse(data.offset ? data.offset[i] : 0), pw ? pw[i] : 1);
-  }
-  let logLik: number | null = null;
-  if (!estimatedPhi) {
-    logLik = 0;
-    for (let i = 0; i < n; i++) logLik += family.logLikelihood(y[i], mu[i], pw ? pw[i] : 1);
-  }
-  const aic = logLik === null ? null : -2 * logLik + 2 * (p + (core.theta ? 1 : 0));
-
-  // observation-level diagnostics from the weighted QR at convergence
-  // DFBETAS as R's dfbetas for a glm: the one-step coefficient change of the weighted
-  // least-squares fit at convergence with the deviance residual as its weighted residual,
-  // scaled by the leave-one-out σ computed from those residuals
+/**
+ * Observation-level diagnostics from the weighted QR at convergence. DFBETAS as R's dfbetas for
+ * a glm: the one-step coefficient change of the weighted least-squares fit at convergence with
+ * the deviance residual as its weighted residual, scaled by the leave-one-out σ computed from
+ * those residuals.
+ */
+function influenceOf(wfit: IrlsFit["weighted"], devRes: Float64Array, pearson: Float64Array, dispersion: number, estimatedPhi: boolean, p: number) {
+  const n = devRes.length;
+  const dfResidual = n - p;
   let devSs = 0;
   for (let i = 0; i < n; i++) devSs += devRes[i] * devRes[i];
   const lsDiag = observationDiagnostics({ ...wfit, weightedResiduals: devRes, sigma: Math.sqrt(devSs / dfResidual) });
@@ -354,21 +336,65 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     external[i] = estimatedPhi ? lr / Math.sqrt(dispersion) : lr;
     cook[i] = (pearson[i] * pearson[i] * h[i]) / (dispersion * p * m * m);
   }
-  const robust = robustCovariances(wfit, h);
-  const working = new Float64Array(n);
-  for (let i = 0; i < n; i++) working[i] = (y[i] - mu[i]) / link.derivative(fit.eta[i]);
-  const partialResiduals = design.terms.map((t) => {
-    const values = new Float64Array(n);
-    for (const c of t.columns) for (let i = 0; i < n; i++) values[i] += fit.coefficients[c] * design.x[c * n + i];
-    const mean = values.reduce((s, v) => s + v, 0) / n;
-    return { term: t.label, values: Array.from(values, (v, i) => v - mean + working[i]) };
-  });
-  const quantile = quantileResiduals(y, mu, family);
+  return { lsDiag, h, internal, external, cook };
+}
 
-  // checks
-  const events = y.reduce((s, v) => s + v, 0);
-  const freeParameters = Math.max(1, p - (design.intercept ? 1 : 0));
-  const eventsPerVariable = (familyName === "binomial" ? Math.min(events, n - events) : events) / freeParameters;
+/** Odds ratios (logit) or rate ratios (log) of the terms' coefficients, with Wald and profile intervals. */
+function ratioRows(linkName: Link, coefficients: readonly GlmCoefficientRow[], profile: ReturnType<typeof profileIntervals> | null) {
+  const ratioName: GlmResult["ratioName"] = linkName === "logit" ? "odds ratio" : linkName === "log" ? "rate ratio" : null;
+  const expOrNull = (v: number | null | undefined) => (v === null || v === undefined ? null : Math.exp(v));
+  const ratios = ratioName
+    ? coefficients
+        .map((c, j) => ({ c, j }))
+        .filter(({ c }) => c.term !== null)
+        .map(({ c, j }) => ({
+          name: c.name,
+          ratio: Math.exp(c.estimate),
+          lower: Math.exp(c.lower),
+          upper: Math.exp(c.upper),
+          profileLower: expOrNull(profile?.[j].lower),
+          profileUpper: expOrNull(profile?.[j].upper),
+        }))
+    : null;
+  return { ratioName, ratios };
+}
+
+/** Notes on the fit: IRLS stopped at its limit, too few events per coefficient. */
+function fitNotes(fit: IrlsFit, familyName: GlmFamilyName, n: number, events: number, eventsPerVariable: number): string[] {
+  const notes: string[] = [];
+  if (!fit.converged) {
+    notes.push(`IRLS stopped at its limit of ${fit.iterations} iterations before the deviance settled; the estimates may not be the maximum-likelihood estimates.`);
+  }
+  if (eventsPerVariable < 10) {
+    const smaller = familyName === "binomial" && n - events < events ? "non-events (the smaller class)" : familyName === "binomial" ? "events (the smaller class)" : "events";
+    notes.push(`Only ${eventsPerVariable.toFixed(1)} ${smaller} per estimated coefficient (fewer than 10): estimates may be biased away from zero and intervals too narrow.`);
+  }
+  return notes;
+}
+
+/** What the GLM fit needs to check its assumptions and test the treatment term. */
+interface CheckInputs {
+  readonly spec: ModelSpec;
+  readonly data: PreparedData;
+  readonly design: Design;
+  readonly core: CoreFit;
+  readonly familyName: GlmFamilyName;
+  readonly link: LinkFunctions;
+  readonly estimatedPhi: boolean;
+  readonly dispersion: number;
+  readonly pearsonChiSquare: number;
+  readonly partialResiduals: readonly { term: string; values: number[] }[];
+}
+
+/** The checks of a GLM fit: overdispersion, deviance goodness of fit, linearity, homogeneity of the treatment effect, the treatment test, calibration. */
+function glmChecks(inputs: CheckInputs): GlmChecks {
+  const { spec, data, design, core, familyName, link, estimatedPhi, dispersion, pearsonChiSquare, partialResiduals } = inputs;
+  const { n, p } = design;
+  const { fit } = core;
+  const y = data.response;
+  const pw = data.weights;
+  const mu = fit.mu;
+  const dfResidual = n - p;
   // Nested-model tests compare this model with a larger one fitted on the same rows, as R's
   // anova.glm and MASS's anova.negbin do: with an estimated dispersion (quasi-Poisson) the F test
   // takes the dispersion and its degrees of freedom from the larger model; for the negative
@@ -458,6 +484,71 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     ...(treatmentTest ? { treatment: treatmentTest } : {}),
     ...(familyName === "binomial" ? { calibration: calibration(y, mu) } : {}),
   };
+  return checks;
+}
+
+/** Fits the generalized linear model the specification describes. */
+export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOptions = {}): GlmResult {
+  const { familyName, linkName, link } = familyAndLink(spec);
+  const table = prepareGlmTable(spec, tableIn);
+  const data = prepareData(spec, table);
+  const design = buildDesign(spec, data);
+  const { n, p } = design;
+  if (n <= p) {
+    throw new EngineError(`${n} usable rows for ${p} coefficients: the model needs more usable rows than coefficients`);
+  }
+  checkGlmResponse(spec, data);
+  const core = fitCore(design.x, n, p, data, familyName, link);
+  const { fit, family } = core;
+  if (fit.aliased.length > 0) nameAliased(design, fit.aliased);
+
+  if (familyName === "binomial") refuseSeparation(fit, design, data, family, link);
+
+  const pw = data.weights;
+  const y = data.response;
+  const mu = fit.mu;
+  const wfit = fit.weighted;
+  const dfResidual = n - p;
+  const { pearson, devRes, pearsonChiSquare } = residualsOf(y, mu, pw, family);
+  const dispersion = family.estimatedDispersion ? pearsonChiSquare / dfResidual : 1;
+  const cov = wfit.unscaledCovariance.map((v) => v * dispersion);
+  const estimatedPhi = family.estimatedDispersion;
+  const coefficients = waldRows(design, fit.coefficients, cov, estimatedPhi, dfResidual);
+
+  // null deviance: intercept-only model (with the offset), or η = offset without an intercept
+  let nullDeviance: number;
+  if (design.intercept) {
+    const ones = new Float64Array(n).fill(1);
+    const nullFit = fitCore(ones, n, 1, data, familyName, link, data.offset, core.theta?.theta);
+    nullDeviance = nullFit.fit.deviance;
+  } else {
+    nullDeviance = 0;
+    for (let i = 0; i < n; i++) nullDeviance += family.deviance(y[i], link.inverse(data.offset ? data.offset[i] : 0), pw ? pw[i] : 1);
+  }
+  let logLik: number | null = null;
+  if (!estimatedPhi) {
+    logLik = 0;
+    for (let i = 0; i < n; i++) logLik += family.logLikelihood(y[i], mu[i], pw ? pw[i] : 1);
+  }
+  const aic = logLik === null ? null : -2 * logLik + 2 * (p + (core.theta ? 1 : 0));
+
+  const { lsDiag, h, internal, external, cook } = influenceOf(wfit, devRes, pearson, dispersion, estimatedPhi, p);
+  const robust = robustCovariances(wfit, h);
+  const working = new Float64Array(n);
+  for (let i = 0; i < n; i++) working[i] = (y[i] - mu[i]) / link.derivative(fit.eta[i]);
+  const partialResiduals = design.terms.map((t) => {
+    const values = new Float64Array(n);
+    for (const c of t.columns) for (let i = 0; i < n; i++) values[i] += fit.coefficients[c] * design.x[c * n + i];
+    const mean = values.reduce((s, v) => s + v, 0) / n;
+    return { term: t.label, values: Array.from(values, (v, i) => v - mean + working[i]) };
+  });
+  const quantile = quantileResiduals(y, mu, family);
+
+  // checks
+  const events = y.reduce((s, v) => s + v, 0);
+  const freeParameters = Math.max(1, p - (design.intercept ? 1 : 0));
+  const eventsPerVariable = (familyName === "binomial" ? Math.min(events, n - events) : events) / freeParameters;
+  const checks = glmChecks({ spec, data, design, core, familyName, link, estimatedPhi, dispersion, pearsonChiSquare, partialResiduals });
 
   const wantProfile = options.profile ?? n * p <= 200_000;
   const profile = wantProfile
@@ -467,29 +558,8 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
       }, coefficients, dispersion, estimatedPhi, dfResidual)
     : null;
 
-  const ratioName = linkName === "logit" ? "odds ratio" : linkName === "log" ? "rate ratio" : null;
-  const expOrNull = (v: number | null | undefined) => (v === null || v === undefined ? null : Math.exp(v));
-  const ratios = ratioName
-    ? coefficients
-        .map((c, j) => ({ c, j }))
-        .filter(({ c }) => c.term !== null)
-        .map(({ c, j }) => ({
-          name: c.name,
-          ratio: Math.exp(c.estimate),
-          lower: Math.exp(c.lower),
-          upper: Math.exp(c.upper),
-          profileLower: expOrNull(profile?.[j].lower),
-          profileUpper: expOrNull(profile?.[j].upper),
-        }))
-    : null;
-  const notes: string[] = [];
-  if (!fit.converged) {
-    notes.push(`IRLS stopped at its limit of ${fit.iterations} iterations before the deviance settled; the estimates may not be the maximum-likelihood estimates.`);
-  }
-  if (eventsPerVariable < 10) {
-    const smaller = familyName === "binomial" && n - events < events ? "non-events (the smaller class)" : familyName === "binomial" ? "events (the smaller class)" : "events";
-    notes.push(`Only ${eventsPerVariable.toFixed(1)} ${smaller} per estimated coefficient (fewer than 10): estimates may be biased away from zero and intervals too narrow.`);
-  }
+  const { ratioName, ratios } = ratioRows(linkName, coefficients, profile);
+  const notes = fitNotes(fit, familyName, n, events, eventsPerVariable);
 
   const marginal =
     spec.treatment && data.variables.get(spec.treatment)?.kind === "categorical"

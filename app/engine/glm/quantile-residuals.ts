@@ -5,21 +5,11 @@
  * generator (mulberry32), so a rerun reproduces them byte for byte.
  */
 import { normalQuantile } from "../distributions";
+import { mulberry32 } from "../seeded-uniform";
 import type { GlmFamily } from "./families";
 
 /** Seed of the generator; fixed so that results are reproducible. */
 export const QUANTILE_RESIDUAL_SEED = 20261202;
-
-function mulberry32(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 /** One randomized quantile residual per observation. */
 export function quantileResiduals(y: Float64Array, mu: Float64Array, family: GlmFamily, seed = QUANTILE_RESIDUAL_SEED): Float64Array {

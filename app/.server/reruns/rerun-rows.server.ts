@@ -1,0 +1,86 @@
+/**
+ * Reading reruns: the one query of a rerun with its planned model, dataset version, dataset,
+ * plan version and who started it, and the stored result parsed once per result hash. The
+ * listings, the results and report pages, the API and the redaction read reruns through here.
+ */
+import { and, eq, getTableColumns, type SQL } from "drizzle-orm";
+import { LRUCache } from "lru-cache";
+import { data } from "react-router";
+import { db, t } from "../db/index.server";
+import type { RerunDocument } from "./compute-rerun";
+
+/** Every column of a rerun but its stored result (one of a large rerun is hundreds of MB). */
+const { resultJson: _resultJson, ...rerunWithoutResult } = getTableColumns(t.reruns);
+
+/**
+ * The reruns that meet `where` (on the five tables), in `order`, each with its planned model
+ * (`m`), dataset version (`dv`), dataset (`d`), plan version (`pv`) and starter's name (`who`);
+ * never their stored results (read those with `storedRerunDocument`).
+ */
+export function rerunRows(where: SQL | undefined, ...order: SQL[]) {
+  return db
+    .select({ r: rerunWithoutResult, m: t.plannedModels, dv: t.datasetVersions, d: t.datasets, pv: t.planVersions, who: t.people.displayName })
+    .from(t.reruns)
+    .innerJoin(t.plannedModels, eq(t.plannedModels.id, t.reruns.plannedModelId))
+    .innerJoin(t.datasetVersions, eq(t.datasetVersions.id, t.reruns.datasetVersionId))
+    .innerJoin(t.datasets, eq(t.datasets.id, t.datasetVersions.datasetId))
+    .innerJoin(t.planVersions, eq(t.planVersions.id, t.reruns.planVersionId))
+    .leftJoin(t.people, eq(t.people.id, t.reruns.startedBy))
+    .where(where)
+    .orderBy(...order);
+}
+
+export type RerunRow = Awaited<ReturnType<typeof rerunRows>>[number];
+
+/**
+ * Parsed results of completed reruns, keyed by rerun id and result hash: a stored result never
+ * changes, and parsing a 10 000-subject result (several MB) for each of a results page's figure
+ * requests took most of their time. Frozen, so no reader can change what the next one sees.
+ */
+const parsedResults = new LRUCache<string, RerunDocument>({ max: 16 });
+
+const resultKey = (id: string, resultSha256: string | null) => `${id}:${resultSha256 ?? ""}`;
+
+function deepFreeze<T>(value: T): T {
+  if (value && typeof value === "object" && !Object.isFrozen(value)) {
+    Object.freeze(value);
+    for (const v of Object.values(value)) deepFreeze(v);
+  }
+  return value;
+}
+
+/** The stored result of a rerun row, parsed once per result hash (read-only). */
+export function rerunDocumentOf(row: { id: string; resultJson: string | null; resultSha256: string | null }): RerunDocument | null {
+  if (!row.resultJson) return null;
+  const key = resultKey(row.id, row.resultSha256);
+  const cached = parsedResults.get(key);
+  if (cached) return cached;
+  const doc = deepFreeze(JSON.parse(row.resultJson) as RerunDocument);
+  parsedResults.set(key, doc);
+  return doc;
+}
+
+/** The stored result of a rerun read without it (`rerunRows`): from the cache, or read and parsed once. */
+export async function storedRerunDocument(row: { id: string; resultSha256: string | null }): Promise<RerunDocument | null> {
+  if (!row.resultSha256) return null;
+  const cached = parsedResults.get(resultKey(row.id, row.resultSha256));
+  if (cached) return cached;
+  // a 10 000-subject result is several MB: read it only when it is not parsed yet
+  const [stored] = await db.select({ resultJson: t.reruns.resultJson }).from(t.reruns).where(eq(t.reruns.id, row.id));
+  return rerunDocumentOf({ id: row.id, resultSha256: row.resultSha256, resultJson: stored?.resultJson ?? null });
+}
+
+/** A rerun, its model, dataset version, plan version and who started it, with its parsed result (read-only; null until completed). */
+export async function getRerun(studyId: string, rerunId: string) {
+  const [row] = await rerunRows(and(eq(t.reruns.id, rerunId), eq(t.reruns.studyId, studyId))).limit(1);
+  if (!row) throw data({ message: "There is no such rerun in this study." }, { status: 404 });
+  const doc = row.r.status === "completed" ? await storedRerunDocument(row.r) : null;
+  return {
+    rerun: row.r,
+    model: { id: row.m.id, key: row.m.key, title: row.m.title },
+    dataset: { name: row.d.name, version: row.dv.version, sha256: row.dv.sha256, versionId: row.dv.id },
+    planVersion: { id: row.pv.id, version: row.pv.version, title: row.pv.title },
+    startedBy: row.who,
+    doc,
+  };
+}
