@@ -1,7 +1,8 @@
 import { Link } from "react-router";
 import { MULTIPLICITY_WORDS, type TreatmentEffectPlan } from "./treatment-effect";
 import type { ReactNode } from "react";
-import { fmt, fmtCi, fmtP } from "./format";
+import { fmt, fmtCi, fmtP } from "~/shared/format";
+import { CHECK_OUTCOME, type StatusWord } from "~/shared/status-words";
 import { StatusLabel } from "./status";
 import { TableScroll } from "./table-scroll";
 
@@ -384,11 +385,7 @@ export function CheckFormulaNote({ formula }: { formula: NonNullable<CheckCardDa
   );
 }
 
-const OUTCOME: Record<CheckCardData["outcome"], { status: "within" | "finding" | "pending"; word: string }> = {
-  within: { status: "within", word: "Within plan" },
-  finding: { status: "finding", word: "Finding" },
-  not_computed: { status: "pending", word: "Not computed" },
-};
+const OUTCOME: Record<CheckCardData["outcome"], StatusWord> = CHECK_OUTCOME;
 
 /** How the planned checks came out, in words: "9 within plan · 2 findings · 0 not computed". */
 export function checkTally(checks: readonly { outcome: CheckCardData["outcome"] }[]): string {

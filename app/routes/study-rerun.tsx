@@ -10,7 +10,7 @@ import { ModelResults } from "~/components/rerun/model-results";
 import { Provenance } from "~/components/rerun/provenance";
 import { RunFailure } from "~/components/rerun/run-failure";
 import { RunProgress } from "~/components/rerun/run-progress";
-import { RUN_STATUS } from "~/components/rerun/run-status";
+import { RERUN_STATUS } from "~/shared/status-words";
 import { SensitivitySection } from "~/components/rerun/sensitivity-section";
 import { SignOff } from "~/components/rerun/sign-off";
 import { SENSITIVITY_KINDS } from "~/.server/plans/planned-model";
@@ -76,7 +76,7 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
   }, [running, sensitivityRunning, revalidator]);
   const errorsFor = (target: string) => (actionData && "target" in actionData && actionData.target === target ? actionData.fieldErrors : {});
   const open = findings.filter((f) => !f.assessment).length;
-  const status = RUN_STATUS[rerun.status];
+  const status = RERUN_STATUS[rerun.status];
 
   return (
     <>

@@ -115,8 +115,8 @@ describe("components import no .server module", () => {
     }
   });
 
-  it("allows components, the engine's types and packages", async () => {
-    const code = `import { fmt } from "~/components/format";\nimport type { CheckOutcome } from "~/engine/checks";\nexport const f = fmt;\nexport type C = CheckOutcome;\n`;
+  it("allows shared code, the engine's types and packages", async () => {
+    const code = `import { fmt } from "~/shared/format";\nimport type { CheckOutcome } from "~/engine/checks";\nexport const f = fmt;\nexport type C = CheckOutcome;\n`;
     expect(await ruleIds("app/components/lint-fixture.tsx", code)).toEqual([]);
   });
 

@@ -2,7 +2,7 @@
  * The appendix page as one answer: the signed primary reruns and plan versions to choose from,
  * the chosen scope's content with its figures as images, the narratives, and previous exports.
  */
-import { NARRATIVE_SECTIONS, type NarrativeSection } from "~/components/appendix-content";
+import { NARRATIVE_SECTIONS, type NarrativeSection } from "~/shared/appendix-content";
 import type { StudyAccess } from "../permissions.server";
 import type { Study } from "../studies.server";
 import { listAppendices } from "./appendix.server";

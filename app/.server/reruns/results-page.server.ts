@@ -3,7 +3,7 @@
  * and signatures, the plan's sensitivity analyses with their reruns, the comparison and its forest
  * charts, and the what-if's inputs, every text through the viewer's redaction.
  */
-import { CAUTION } from "~/components/caution";
+import { CAUTION } from "~/shared/caution";
 import type { WhatIfInputs } from "~/components/figures/what-if-inputs";
 import type { ForestRow } from "~/figures/forest";
 import { forestSpec } from "~/figures/forest";

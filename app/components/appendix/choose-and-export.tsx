@@ -1,5 +1,5 @@
 import { Form } from "react-router";
-import { utc } from "../format";
+import { utc } from "~/shared/format";
 
 /** Which signed reruns the appendix covers, the export button, and the export's answer. */
 export function ChooseAndExport({

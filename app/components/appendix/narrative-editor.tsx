@@ -1,5 +1,5 @@
 import { Form } from "react-router";
-import { SECTION_TITLES, type NarrativeSection } from "../appendix-content";
+import { SECTION_TITLES, type NarrativeSection } from "~/shared/appendix-content";
 import { FieldError } from "../page";
 
 /** What the page's action answered a narrative's save (or any other intent: then no `section`). */

@@ -1,4 +1,4 @@
-import type { Block } from "../appendix-content";
+import type { Block } from "~/shared/appendix-content";
 import { TableScroll } from "../table-scroll";
 
 /** One block of the appendix's content model as HTML, as the Word file holds it. */

@@ -1,4 +1,4 @@
-import type { AppendixContent, NarrativeSection } from "../appendix-content";
+import type { AppendixContent, NarrativeSection } from "~/shared/appendix-content";
 import { TableScroll } from "../table-scroll";
 import { NarrativeEditor, type NarrativeResult } from "./narrative-editor";
 import { PreviewBlock } from "./preview-block";

@@ -1,4 +1,4 @@
-import { utc } from "../format";
+import { utc } from "~/shared/format";
 import { TableScroll } from "../table-scroll";
 
 /** The appendix exports kept for the study, each with its hash and file. */

@@ -1,5 +1,5 @@
 import { Form } from "react-router";
-import { ACTIONS, CATEGORIES, IMPACTS } from "../assessment-terms";
+import { ACTIONS, CATEGORIES, IMPACTS } from "~/shared/assessment-terms";
 import { FieldError } from "../page";
 
 /** The form that assesses a finding (`findingId`) or records a deviation no check produced. */

@@ -1,5 +1,5 @@
-import { ACTIONS, CATEGORIES, IMPACTS } from "../assessment-terms";
-import { utc } from "../format";
+import { ACTIONS, CATEGORIES, IMPACTS } from "~/shared/assessment-terms";
+import { utc } from "~/shared/format";
 import { StatusLabel } from "../status";
 import { AssessmentForm } from "./assessment-form";
 

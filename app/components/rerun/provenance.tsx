@@ -1,5 +1,5 @@
 import { Form, Link } from "react-router";
-import { utc } from "../format";
+import { utc } from "~/shared/format";
 import { StatusLabel } from "../status";
 
 /** Where a rerun's result comes from: dataset, plan, engine, who started it, its hash and those of reruns of the same inputs. */

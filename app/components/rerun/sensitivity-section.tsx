@@ -5,13 +5,13 @@ import type { VegaSpecJson } from "../figures/vega-chart";
 import { WhatIfPanel, type WhatIfInputs } from "../figures/what-if-panel";
 import { SensitivityTable, type ComparedAnalysis } from "../rerun-results";
 import { StatusLabel } from "../status";
-import { RUN_STATUS, type RunStatus } from "./run-status";
+import { RERUN_STATUS } from "~/shared/status-words";
 
 export interface PlannedSensitivityView {
   kind: string;
   label: string;
   runnable: boolean;
-  status: RunStatus | null;
+  status: keyof typeof RERUN_STATUS | null;
   childId: string | null;
   note: string | null;
 }
@@ -53,7 +53,7 @@ export function SensitivitySection({
                 {s.note ? <span className="block text-xs text-ink-soft">{s.note}</span> : null}
               </span>
               {s.status && !(s.status === "failed" && canStart && s.runnable) ? (
-                <StatusLabel status={RUN_STATUS[s.status].status} word={RUN_STATUS[s.status].word} />
+                <StatusLabel status={RERUN_STATUS[s.status].status} word={RERUN_STATUS[s.status].word} />
               ) : running ? (
                 <StatusLabel status="pending" word="Runs after the primary" />
               ) : canStart && s.runnable ? (

@@ -1,5 +1,5 @@
 import { Form } from "react-router";
-import { utc } from "../format";
+import { utc } from "~/shared/format";
 import { ReauthNotice, SigningExplainer } from "../signing";
 import { StatusLabel } from "../status";
 
