@@ -34,7 +34,10 @@ const engineZone = {
   // a package may resolve to its types under @types (d3-array does)
   except: [
     "app/engine",
-    ...ENGINE_PACKAGES.flatMap((name) => [`node_modules/${name}`, `node_modules/@types/${name.replace(/^@(.*)\/(.*)$/, "$1__$2")}`]),
+    ...ENGINE_PACKAGES.flatMap((name) => [
+      `node_modules/${name}`,
+      `node_modules/@types/${name.replace(/^@(.*)\/(.*)$/, "$1__$2")}`,
+    ]),
   ],
   message: "The engine imports nothing outside app/engine (DEVELOPERS.md): pass what it needs in as data.",
 };

@@ -24,7 +24,14 @@ app.use(compression());
 // The app's own answers get nosniff from the security middleware; static files here.
 const setHeaders = (res) => res.setHeader("X-Content-Type-Options", "nosniff");
 // Fingerprinted build output never changes under its name; other files may.
-app.use(path.posix.join(build.publicPath, "assets"), express.static(path.join(build.assetsBuildDirectory, "assets"), { immutable: true, maxAge: "1y", setHeaders }));
+app.use(
+  path.posix.join(build.publicPath, "assets"),
+  express.static(path.join(build.assetsBuildDirectory, "assets"), {
+    immutable: true,
+    maxAge: "1y",
+    setHeaders,
+  }),
+);
 app.use(build.publicPath, express.static(build.assetsBuildDirectory, { setHeaders }));
 app.use(express.static("public", { maxAge: "1h", setHeaders }));
 app.use(morgan("tiny"));

@@ -12,7 +12,11 @@ export default defineConfig({
     projects: [
       {
         extends: true,
-        test: { name: "unit", include: ["tests/**/*.test.ts"], exclude: ["tests/app/**", "tests/browser/**", "**/node_modules/**"] },
+        test: {
+          name: "unit",
+          include: ["tests/**/*.test.ts"],
+          exclude: ["tests/app/**", "tests/browser/**", "**/node_modules/**"],
+        },
       },
       {
         extends: true,

@@ -16,7 +16,13 @@
  */
 import { readFileSync } from "node:fs";
 import { limitsFromEnv } from "./engine-io/dataset/limits";
-import { firstBytesOf, formatOf, readDatasetFile, type ReadTable, type ValueType } from "./engine-io/dataset/read";
+import {
+  firstBytesOf,
+  formatOf,
+  readDatasetFile,
+  type ReadTable,
+  type ValueType,
+} from "./engine-io/dataset/read";
 import { findKey } from "./.server/datasets/keys";
 import { EngineError, fitModel, parseModelSpec, stringifyResult, toCliResult } from "./engine";
 import type { MeansWeighting } from "./engine";
@@ -28,15 +34,19 @@ import { checkReproduction } from "./engine/reproduction";
 import { isRepeatedSpec } from "./engine/repeated/repeated-spec";
 import { repeatedCliAnswer } from "./engine/repeated/repeated-result";
 
-const USAGE = "usage: cli fit --data FILE --model MODEL.json [--means equal|proportional] | cli inspect --data FILE (FILE: .csv, .json, .ndjson or .xpt)";
+const USAGE =
+  "usage: cli fit --data FILE --model MODEL.json [--means equal|proportional] | cli inspect --data FILE (FILE: .csv, .json, .ndjson or .xpt)";
 
 class UsageError extends Error {}
 
-type Args = { command: "fit"; data: string; model: string; means: MeansWeighting | null } | { command: "inspect"; data: string };
+type Args =
+  | { command: "fit"; data: string; model: string; means: MeansWeighting | null }
+  | { command: "inspect"; data: string };
 
 function parseArgs(argv: string[]): Args {
   const [command, ...rest] = argv;
-  if (command !== "fit" && command !== "inspect") throw new UsageError(command ? `unknown command "${command}"; ${USAGE}` : USAGE);
+  if (command !== "fit" && command !== "inspect")
+    throw new UsageError(command ? `unknown command "${command}"; ${USAGE}` : USAGE);
   const allowed = command === "fit" ? ["--data", "--model", "--means"] : ["--data"];
   const values: Record<string, string> = {};
   for (let i = 0; i < rest.length; i++) {
@@ -51,7 +61,8 @@ function parseArgs(argv: string[]): Args {
   if (command === "inspect") return { command, data: values.data };
   if (!values.model) throw new UsageError(`missing --model; ${USAGE}`);
   const means = values.means ?? null;
-  if (means !== null && means !== "equal" && means !== "proportional") throw new UsageError(`--means must be "equal" or "proportional"`);
+  if (means !== null && means !== "equal" && means !== "proportional")
+    throw new UsageError(`--means must be "equal" or "proportional"`);
   return { command, data: values.data, model: values.model, means };
 }
 
@@ -72,7 +83,9 @@ async function readData(path: string): Promise<ReadTable> {
   } catch {
     throw new EngineError(`cannot read the data file "${path}"`);
   }
-  const outcome = await readDatasetFile(path, name, formatOf(name, head), { limits: limitsFromEnv(process.env) });
+  const outcome = await readDatasetFile(path, name, formatOf(name, head), {
+    limits: limitsFromEnv(process.env),
+  });
   if (!outcome.ok) throw new EngineError(outcome.problems.join(" "));
   return outcome.table;
 }
@@ -86,8 +99,17 @@ interface Inspection {
 }
 
 function inspect(table: ReadTable, fileName: string): Inspection {
-  const problems: Inspection["problems"] = table.columns.flatMap((c) => (c.warnings ?? []).map((message) => ({ severity: "warning" as const, message })));
-  const key = findKey(fileName, table.names, table.cells, table.rowNumbers, table.declaredKey, table.declaredKey !== null);
+  const problems: Inspection["problems"] = table.columns.flatMap((c) =>
+    (c.warnings ?? []).map((message) => ({ severity: "warning" as const, message })),
+  );
+  const key = findKey(
+    fileName,
+    table.names,
+    table.cells,
+    table.rowNumbers,
+    table.declaredKey,
+    table.declaredKey !== null,
+  );
   if (!key.ok) problems.push(...key.problems.map((message) => ({ severity: "error" as const, message })));
   return {
     format: table.format,
@@ -111,13 +133,21 @@ async function main(): Promise<number> {
     try {
       spec = JSON.parse(modelText);
     } catch (err) {
-      throw new EngineError(`the model file is not valid JSON: ${err instanceof Error ? err.message : String(err)}`);
+      throw new EngineError(
+        `the model file is not valid JSON: ${err instanceof Error ? err.message : String(err)}`,
+      );
     }
     const table = await readData(args.data);
     const columns: Record<string, string[]> = {};
     table.names.forEach((name, j) => (columns[name] = table.cells[j]));
     if (isRepeatedSpec(spec)) {
-      process.stdout.write(repeatedCliAnswer(spec, { columns, rowNumbers: table.rowNumbers }, { meansWeighting: args.means ?? "equal" }) + "\n");
+      process.stdout.write(
+        repeatedCliAnswer(
+          spec,
+          { columns, rowNumbers: table.rowNumbers },
+          { meansWeighting: args.means ?? "equal" },
+        ) + "\n",
+      );
       return 0;
     }
     const parsed = isCoxSpec(spec) ? parseCoxSpec(spec) : parseModelSpec(spec);
@@ -132,7 +162,11 @@ async function main(): Promise<number> {
     // the model's "published" values, when given, are checked against the fit (reproduction.ts)
     const published = result.spec.published ?? [];
     process.stdout.write(
-      stringifyResult({ ...toCliResult(result), ...populationFacts, ...(published.length > 0 ? { reproduction: checkReproduction(result, published) } : {}) }) + "\n",
+      stringifyResult({
+        ...toCliResult(result),
+        ...populationFacts,
+        ...(published.length > 0 ? { reproduction: checkReproduction(result, published) } : {}),
+      }) + "\n",
     );
     return 0;
   } catch (err) {

@@ -24,7 +24,8 @@ export default function handleRequest(
   return new Promise<Response>((resolve, reject) => {
     let shellRendered = false;
     const userAgent = request.headers.get("user-agent");
-    const readyOption = (userAgent && isbot(userAgent)) || routerContext.isSpaMode ? "onAllReady" : "onShellReady";
+    const readyOption =
+      (userAgent && isbot(userAgent)) || routerContext.isSpaMode ? "onAllReady" : "onShellReady";
     const { pipe, abort } = renderToPipeableStream(
       <NonceContext.Provider value={nonce}>
         <ServerRouter context={routerContext} url={request.url} nonce={nonce} />
@@ -36,7 +37,12 @@ export default function handleRequest(
           const body = new PassThrough();
           responseHeaders.set("Content-Type", "text/html; charset=utf-8");
           responseHeaders.set("Content-Security-Policy", contentSecurityPolicy(nonce));
-          resolve(new Response(createReadableStreamFromReadable(body), { headers: responseHeaders, status: responseStatusCode }));
+          resolve(
+            new Response(createReadableStreamFromReadable(body), {
+              headers: responseHeaders,
+              status: responseStatusCode,
+            }),
+          );
           pipe(body);
         },
         onShellError(error: unknown) {

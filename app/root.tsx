@@ -1,4 +1,13 @@
-import { isRouteErrorResponse, Links, Meta, Outlet, Scripts, ScrollRestoration, useNavigation, useRouteError } from "react-router";
+import {
+  isRouteErrorResponse,
+  Links,
+  Meta,
+  Outlet,
+  Scripts,
+  ScrollRestoration,
+  useNavigation,
+  useRouteError,
+} from "react-router";
 import type { Route } from "./+types/root";
 import "./app.css";
 import { ErrorPage } from "./components/error-page";
@@ -7,10 +16,15 @@ import { securityMiddleware } from "./.server/security.server";
 
 export const middleware: Route.MiddlewareFunction[] = [securityMiddleware];
 
-export const links: Route.LinksFunction = () => [{ rel: "icon", href: "/favicon.svg", type: "image/svg+xml" }];
+export const links: Route.LinksFunction = () => [
+  { rel: "icon", href: "/favicon.svg", type: "image/svg+xml" },
+];
 
 export function meta(): Route.MetaDescriptors {
-  return [{ title: "Plumbline" }, { name: "description", content: "Audit of pre-specified regression models on locked clinical data" }];
+  return [
+    { title: "Plumbline" },
+    { name: "description", content: "Audit of pre-specified regression models on locked clinical data" },
+  ];
 }
 
 export function Layout({ children }: { children: React.ReactNode }) {
@@ -38,8 +52,14 @@ function PendingBar() {
   const busy = navigation.state !== "idle";
   return (
     <div aria-hidden={!busy} className="pointer-events-none fixed inset-x-0 top-0 z-50 h-0.5">
-      <div className={`h-full bg-accent transition-all duration-500 ${busy ? "w-2/3 opacity-100" : "w-full opacity-0"}`} />
-      {busy ? <span className="sr-only" role="status">Loading</span> : null}
+      <div
+        className={`h-full bg-accent transition-all duration-500 ${busy ? "w-2/3 opacity-100" : "w-full opacity-0"}`}
+      />
+      {busy ? (
+        <span className="sr-only" role="status">
+          Loading
+        </span>
+      ) : null}
     </div>
   );
 }
@@ -56,9 +76,11 @@ export default function App() {
 export function ErrorBoundary() {
   const error = useRouteError();
   if (isRouteErrorResponse(error)) {
-    const detail = typeof error.data === "object" && error.data && "message" in error.data ? String(error.data.message) : undefined;
+    const detail =
+      typeof error.data === "object" && error.data && "message" in error.data
+        ? String(error.data.message)
+        : undefined;
     return <ErrorPage status={error.status} detail={detail} />;
   }
   return <ErrorPage status={500} />;
 }
-

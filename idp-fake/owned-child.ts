@@ -27,7 +27,10 @@ export function ownChild(child: ChildProcess): OwnedChild {
       process.removeListener("exit", kill);
       if (child.pid && child.exitCode === null) {
         process.kill(child.pid, "SIGTERM");
-        const timer = setTimeout(() => child.exitCode === null && child.pid && process.kill(child.pid, "SIGKILL"), 3000);
+        const timer = setTimeout(
+          () => child.exitCode === null && child.pid && process.kill(child.pid, "SIGKILL"),
+          3000,
+        );
         await exited;
         clearTimeout(timer);
       }

@@ -18,7 +18,15 @@ function invented(n: number): Record<string, string[]> {
     s = (s * 1103515245 + 12345) % 2147483648;
     return (s + 0.5) / 2147483648;
   };
-  const cols: Record<string, string[]> = { AVAL: [], CNSR: [], TRTP: [], AGE: [], BASE: [], SCORE: [], STRAT1: [] };
+  const cols: Record<string, string[]> = {
+    AVAL: [],
+    CNSR: [],
+    TRTP: [],
+    AGE: [],
+    BASE: [],
+    SCORE: [],
+    STRAT1: [],
+  };
   for (let i = 0; i < n; i++) {
     const arm = u() < 0.5 ? "Placebo" : "Active";
     const age = 40 + u() * 40;
@@ -57,7 +65,12 @@ export function benchCox(withR: boolean, n = 100_000): void {
     family: "cox",
     response: "AVAL",
     status: { column: "CNSR", event: [0] },
-    terms: [{ variable: "TRTP", reference: "Placebo" }, { variable: "AGE" }, { variable: "BASE" }, { variable: "SCORE" }],
+    terms: [
+      { variable: "TRTP", reference: "Placebo" },
+      { variable: "AGE" },
+      { variable: "BASE" },
+      { variable: "SCORE" },
+    ],
     treatment: "TRTP",
     strata: ["STRAT1"],
   };
@@ -70,16 +83,24 @@ export function benchCox(withR: boolean, n = 100_000): void {
     const dir = mkdtempSync(join(tmpdir(), "plumbline-bench-cox-"));
     const csv = join(dir, "cox.csv");
     const names = Object.keys(columns);
-    writeFileSync(csv, [names.join(","), ...columns.AVAL.map((_, i) => names.map((k) => columns[k][i]).join(","))].join("\n") + "\n");
+    writeFileSync(
+      csv,
+      [names.join(","), ...columns.AVAL.map((_, i) => names.map((k) => columns[k][i]).join(","))].join("\n") +
+        "\n",
+    );
     writeFileSync(join(dir, "cox.R"), R_SCRIPT);
     const out = spawnSync("Rscript", [join(dir, "cox.R"), csv], { encoding: "utf8" });
     const v = Number(out.stdout.trim().split("\n").pop());
     rSeconds = out.status === 0 && Number.isFinite(v) ? v : null;
   }
   console.log("");
-  console.log(`Cox model with every diagnostic, n = ${n.toLocaleString("en")}, ${result.coefficients.length} coefficients, 2 strata, ${result.fit.events.toLocaleString("en")} events:`);
+  console.log(
+    `Cox model with every diagnostic, n = ${n.toLocaleString("en")}, ${result.coefficients.length} coefficients, 2 strata, ${result.fit.events.toLocaleString("en")} events:`,
+  );
   console.log(
     `  engine ${seconds.toFixed(2)} s` +
-      (rSeconds === null ? "" : `; R (coxph, residuals, cox.zph, survfit, survdiff) ${rSeconds.toFixed(2)} s; engine/R ${(seconds / rSeconds).toFixed(2)}`),
+      (rSeconds === null
+        ? ""
+        : `; R (coxph, residuals, cox.zph, survfit, survdiff) ${rSeconds.toFixed(2)} s; engine/R ${(seconds / rSeconds).toFixed(2)}`),
   );
 }

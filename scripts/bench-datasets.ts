@@ -26,7 +26,9 @@ if (loadOnly !== -1) {
   const locked = await loadLockedTable(versionId);
   const ms = performance.now() - t0;
   const n = locked.table.rowNumbers.length;
-  process.stdout.write(JSON.stringify({ ms, rows: n, columns: Object.keys(locked.table.columns).length }) + "\n");
+  process.stdout.write(
+    JSON.stringify({ ms, rows: n, columns: Object.keys(locked.table.columns).length }) + "\n",
+  );
   process.exit(0);
 }
 
@@ -42,7 +44,8 @@ const sampler = setInterval(() => (peak = Math.max(peak, process.memoryUsage().r
 try {
   const csvPath = path.join(dir, "adbench.csv");
   const out = createWriteStream(csvPath);
-  for (const line of wideCsvLines(rows)) if (!out.write(line + "\n")) await new Promise<void>((r) => out.once("drain", () => r()));
+  for (const line of wideCsvLines(rows))
+    if (!out.write(line + "\n")) await new Promise<void>((r) => out.once("drain", () => r()));
   await new Promise<void>((r) => out.end(() => r()));
   const bytes = statSync(csvPath).size;
   const rssBefore = process.memoryUsage().rss;
@@ -50,8 +53,15 @@ try {
   const { db, t } = await import("../app/.server/db/index.server");
   const { receiveUpload } = await import("../app/.server/datasets/upload.server");
   const svc = await import("../app/.server/datasets/datasets.server");
-  await db.insert(t.people).values({ id: "p-bench", email: "bench@plumbline.example", displayName: "Benchmark", externalId: "bench" });
-  await db.insert(t.studies).values({ id: "s-bench", code: "BENCH-1", title: "Benchmark study", sponsor: "Invented sponsor" });
+  await db.insert(t.people).values({
+    id: "p-bench",
+    email: "bench@plumbline.example",
+    displayName: "Benchmark",
+    externalId: "bench",
+  });
+  await db
+    .insert(t.studies)
+    .values({ id: "s-bench", code: "BENCH-1", title: "Benchmark study", sponsor: "Invented sponsor" });
   const actor = { id: "p-bench", name: "Benchmark" };
 
   // The multipart request a browser would send, streamed from the file.
@@ -75,27 +85,53 @@ try {
   const tReceived = performance.now();
   let parseStart = 0;
   let parseEnd = 0;
-  const result = await svc.uploadDataset(actor, { studyId: "s-bench", datasetName: "adbench", ...received.file!, keyColumns: [] }, (phase, fraction) => {
-    if (phase === "parse" && parseStart === 0) parseStart = performance.now();
-    if (phase !== "parse" && parseEnd === 0) parseEnd = performance.now();
-    void fraction;
-  });
+  const result = await svc.uploadDataset(
+    actor,
+    { studyId: "s-bench", datasetName: "adbench", ...received.file!, keyColumns: [] },
+    (phase, fraction) => {
+      if (phase === "parse" && parseStart === 0) parseStart = performance.now();
+      if (phase !== "parse" && parseEnd === 0) parseEnd = performance.now();
+      void fraction;
+    },
+  );
   if (!result.ok) throw new Error(`The benchmark file was refused: ${result.problems.join(" ")}`);
   const preview = await svc.readRowsWindow("s-bench", result.versionId, { offset: 0, limit: 200 });
   const tPreview = performance.now();
-  const sorted = await svc.readRowsWindow("s-bench", result.versionId, { offset: 100_000 % rows, limit: 200, sort: { column: "base", descending: false } });
+  const sorted = await svc.readRowsWindow("s-bench", result.versionId, {
+    offset: 100_000 % rows,
+    limit: 200,
+    sort: { column: "base", descending: false },
+  });
   const tSorted = performance.now();
   if (!preview || !sorted) throw new Error("The preview could not be read.");
 
   const detail = await svc.getVersionDetail("s-bench", result.versionId);
-  for (const hit of detail?.hits ?? []) await svc.recordNotIdentifier(actor, "s-bench", hit.id, "Benchmark data: invented values, no person behind them.");
-  const locked = await svc.lockVersion({ ...actor, signedInAt: new Date().toISOString() }, "s-bench", result.versionId);
+  for (const hit of detail?.hits ?? [])
+    await svc.recordNotIdentifier(
+      actor,
+      "s-bench",
+      hit.id,
+      "Benchmark data: invented values, no person behind them.",
+    );
+  const locked = await svc.lockVersion(
+    { ...actor, signedInAt: new Date().toISOString() },
+    "s-bench",
+    result.versionId,
+  );
   if (!locked.ok) throw new Error(locked.message);
   clearInterval(sampler);
 
-  const child = spawnSync(process.execPath, ["--import", "tsx", "scripts/bench-datasets.ts", "--load", result.versionId], { env: process.env, encoding: "utf8" });
+  const child = spawnSync(
+    process.execPath,
+    ["--import", "tsx", "scripts/bench-datasets.ts", "--load", result.versionId],
+    { env: process.env, encoding: "utf8" },
+  );
   if (child.status !== 0) throw new Error(`Loading the locked version failed: ${child.stderr}`);
-  const load = JSON.parse(child.stdout.trim().split("\n").pop() as string) as { ms: number; rows: number; columns: number };
+  const load = JSON.parse(child.stdout.trim().split("\n").pop() as string) as {
+    ms: number;
+    rows: number;
+    columns: number;
+  };
 
   const mb = bytes / 1e6;
   const s = (ms: number) => `${(ms / 1000).toFixed(2)} s`;

@@ -166,10 +166,14 @@ function haveR(): boolean {
 }
 
 function runR(script: string, file: string, c: Case, reps: number): number | null {
-  const out = spawnSync("Rscript", [script, file, String(c.n), String(c.covariates), String(reps), c.treatment ? "1" : "0"], {
-    encoding: "utf8",
-    maxBuffer: 1 << 20,
-  });
+  const out = spawnSync(
+    "Rscript",
+    [script, file, String(c.n), String(c.covariates), String(reps), c.treatment ? "1" : "0"],
+    {
+      encoding: "utf8",
+      maxBuffer: 1 << 20,
+    },
+  );
   if (out.status !== 0) {
     console.error(out.stderr.trim().split("\n").slice(-3).join("\n"));
     return null;
@@ -209,34 +213,64 @@ function main(): void {
   writeFileSync(rScript, R_SCRIPT);
   const self = fileURLToPath(import.meta.url);
   const node = (extra: string[]) =>
-    spawnSync(process.execPath, [...process.execArgv, "--max-old-space-size=8192", self, ...extra], { encoding: "utf8", maxBuffer: 1 << 20 });
-  const load = () => loadavg().map((v) => v.toFixed(2)).join(" ");
-  console.log("Plumbline engine benchmark: fitModel on typed columns (the rerun path), every diagnostic and test");
-  console.log(withR ? "reference: R in the same run (lm, lm.influence, cooks.distance, rstudent, dffits, dfbetas, bptest, resettest, vif; slope F tests by anova)" : "reference: Rscript not found, engine only");
+    spawnSync(process.execPath, [...process.execArgv, "--max-old-space-size=8192", self, ...extra], {
+      encoding: "utf8",
+      maxBuffer: 1 << 20,
+    });
+  const load = () =>
+    loadavg()
+      .map((v) => v.toFixed(2))
+      .join(" ");
+  console.log(
+    "Plumbline engine benchmark: fitModel on typed columns (the rerun path), every diagnostic and test",
+  );
+  console.log(
+    withR
+      ? "reference: R in the same run (lm, lm.influence, cooks.distance, rstudent, dffits, dfbetas, bptest, resettest, vif; slope F tests by anova)"
+      : "reference: Rscript not found, engine only",
+  );
   console.log(`load average at start: ${load()}`);
   console.log("");
-  console.log(["n".padStart(10), "model".padStart(34), ...["engine s", "peak RSS MiB", "R s", "engine/R"].map((h) => h.padStart(14))].join(""));
+  console.log(
+    [
+      "n".padStart(10),
+      "model".padStart(34),
+      ...["engine s", "peak RSS MiB", "R s", "engine/R"].map((h) => h.padStart(14)),
+    ].join(""),
+  );
   for (const c of cases) {
     const reps = c.n <= 200_000 ? 3 : 1;
     const child = node(["--one", String(c.n), String(c.covariates), c.treatment ? "1" : "0", String(reps)]);
     if (child.status !== 0) {
-      console.log(`${String(c.n).padStart(10)}${label(c).padStart(34)}  engine run failed: ${child.stderr.trim().split("\n").pop()}`);
+      console.log(
+        `${String(c.n).padStart(10)}${label(c).padStart(34)}  engine run failed: ${child.stderr.trim().split("\n").pop()}`,
+      );
       continue;
     }
     const m = JSON.parse(child.stdout.trim()) as Measurement;
     let r: number | null = null;
     if (withR) {
       const file = join(dir, "data.bin");
-      if (node(["--write", String(c.n), String(c.covariates), file]).status === 0) r = runR(rScript, file, c, reps);
+      if (node(["--write", String(c.n), String(c.covariates), file]).status === 0)
+        r = runR(rScript, file, c, reps);
       rmSync(file, { force: true });
     }
-    const cells = [m.seconds.toFixed(2), m.peakMiB.toFixed(0), r === null ? "-" : r.toFixed(2), r === null ? "-" : (m.seconds / r).toFixed(2)];
-    console.log([String(c.n).padStart(10), label(c).padStart(34), ...cells.map((x) => x.padStart(14))].join(""));
+    const cells = [
+      m.seconds.toFixed(2),
+      m.peakMiB.toFixed(0),
+      r === null ? "-" : r.toFixed(2),
+      r === null ? "-" : (m.seconds / r).toFixed(2),
+    ];
+    console.log(
+      [String(c.n).padStart(10), label(c).padStart(34), ...cells.map((x) => x.padStart(14))].join(""),
+    );
   }
   rmSync(dir, { recursive: true, force: true });
   console.log("");
   console.log(`load average at end: ${load()}`);
-  console.log("targets: engine/R at most 0.5 at n = 200 000 (p = 25, and treatment + 8 covariates); peak RSS within 1536 MiB at n = 1 000 000, p = 50");
+  console.log(
+    "targets: engine/R at most 0.5 at n = 200 000 (p = 25, and treatment + 8 covariates); peak RSS within 1536 MiB at n = 1 000 000, p = 50",
+  );
   benchCox(withR);
   benchMmrm(withR);
 }

@@ -64,7 +64,8 @@ function installProbe(): void {
   }
   new MutationObserver((records) => {
     const now = performance.now();
-    for (const r of records) if (r.target instanceof HTMLElement && r.target.dataset.state === "ready") probe.readyAt.push(now);
+    for (const r of records)
+      if (r.target instanceof HTMLElement && r.target.dataset.state === "ready") probe.readyAt.push(now);
   }).observe(document, { subtree: true, attributes: true, attributeFilter: ["data-state"] });
   addEventListener("mousemove", (e) => (probe.moveAt = e.timeStamp), { capture: true, passive: true });
 }
@@ -114,7 +115,9 @@ function waitForAllFigures(page: Page): Promise<{ at: number; figures: number; e
   return poll(page, () => {
     const els = [...document.querySelectorAll<HTMLElement>("[data-figure]")];
     if (els.length === 0 || els.some((el) => el.dataset.state === "loading")) return false;
-    const errors = els.filter((el) => el.dataset.state === "error").map((el) => `${el.dataset.figure}: ${el.textContent?.trim() ?? ""}`);
+    const errors = els
+      .filter((el) => el.dataset.state === "error")
+      .map((el) => `${el.dataset.figure}: ${el.textContent?.trim() ?? ""}`);
     return { at: performance.now(), figures: els.length, errors };
   });
 }
@@ -135,14 +138,25 @@ async function loadAllFigures(context: BrowserContext, url: string): Promise<All
         domContentLoadedMs: nav ? nav.domContentLoadedEventEnd : null,
         firstPaintMs: paint ? paint.startTime : null,
         renderer: first ? (first.tagName.toLowerCase() === "canvas" ? "canvas" : "svg") : "none",
-        lastFigureBottom: Math.max(...[...document.querySelectorAll("[data-figure]")].map((el) => el.getBoundingClientRect().bottom + scrollY)),
+        lastFigureBottom: Math.max(
+          ...[...document.querySelectorAll("[data-figure]")].map(
+            (el) => el.getBoundingClientRect().bottom + scrollY,
+          ),
+        ),
         ...(() => {
           const resources = performance.getEntriesByType("resource") as PerformanceResourceTiming[];
           const data = resources.filter((r) => /\/figures\//.test(r.name));
-          const scripts = resources.filter((r) => r.initiatorType === "script" || /\.js$/.test(r.name)).sort((a, b) => b.decodedBodySize - a.decodedBodySize);
+          const scripts = resources
+            .filter((r) => r.initiatorType === "script" || /\.js$/.test(r.name))
+            .sort((a, b) => b.decodedBodySize - a.decodedBodySize);
           return {
             dataRequests: data.length
-              ? { count: data.length, firstStartMs: Math.min(...data.map((r) => r.startTime)), lastEndMs: Math.max(...data.map((r) => r.responseEnd)), longestWaitMs: Math.max(...data.map((r) => r.responseStart - r.requestStart)) }
+              ? {
+                  count: data.length,
+                  firstStartMs: Math.min(...data.map((r) => r.startTime)),
+                  lastEndMs: Math.max(...data.map((r) => r.responseEnd)),
+                  longestWaitMs: Math.max(...data.map((r) => r.responseStart - r.requestStart)),
+                }
               : null,
             chartScriptEndMs: scripts[0] ? scripts[0].responseEnd : null,
           };
@@ -160,7 +174,9 @@ async function loadAsReader(context: BrowserContext, url: string): Promise<Reade
   try {
     // the reader starts scrolling once the page has loaded
     await page.goto(url, { waitUntil: "load" });
-    const firstTop = await page.evaluate(() => document.querySelector("[data-figure]")?.getBoundingClientRect().top ?? null);
+    const firstTop = await page.evaluate(
+      () => document.querySelector("[data-figure]")?.getBoundingClientRect().top ?? null,
+    );
     if (firstTop === null) throw new Error("The results page shows no figure: is the rerun completed?");
     const afterScrollMs: ReaderLoad["afterScrollMs"] = [];
     const count = await page.locator("[data-figure]").count();
@@ -169,10 +185,21 @@ async function loadAsReader(context: BrowserContext, url: string): Promise<Reade
         const el = document.querySelectorAll<HTMLElement>("[data-figure]")[index];
         el.scrollIntoView({ block: "center", behavior: "instant" });
         // named after the check (or section) the figure belongs to: several checks share a kind of figure
-        const heading = el.closest("article")?.querySelector("h3")?.textContent?.trim() ?? el.dataset.figure ?? "?";
-        return { label: el.dataset.figure === "partial_residuals" ? `${heading}, ${el.dataset.term}` : heading, at: performance.now() };
+        const heading =
+          el.closest("article")?.querySelector("h3")?.textContent?.trim() ?? el.dataset.figure ?? "?";
+        return {
+          label: el.dataset.figure === "partial_residuals" ? `${heading}, ${el.dataset.term}` : heading,
+          at: performance.now(),
+        };
       }, i);
-      const ready = await poll(page, (index) => (document.querySelectorAll<HTMLElement>("[data-figure]")[index].dataset.state !== "loading" ? performance.now() : false), i);
+      const ready = await poll(
+        page,
+        (index) =>
+          document.querySelectorAll<HTMLElement>("[data-figure]")[index].dataset.state !== "loading"
+            ? performance.now()
+            : false,
+        i,
+      );
       afterScrollMs.push({ label, ms: ready - at });
     }
     const firstReadyMs = await page.evaluate(() => Math.min(...(window.plumblineBench?.readyAt ?? [])));
@@ -197,7 +224,12 @@ async function hover(context: BrowserContext, url: string): Promise<HoverResult>
     await waitForAllFigures(page);
     await page.waitForTimeout(500); // let the page settle after drawing
     // residuals against fitted values: a scatter spread over the whole plot
-    const candidates = [page.locator('[data-figure="residuals_fitted"] canvas'), page.locator("[data-figure] canvas"), page.locator('[data-figure="residuals_fitted"] svg.marks'), page.locator("[data-figure] svg.marks")];
+    const candidates = [
+      page.locator('[data-figure="residuals_fitted"] canvas'),
+      page.locator("[data-figure] canvas"),
+      page.locator('[data-figure="residuals_fitted"] svg.marks'),
+      page.locator("[data-figure] svg.marks"),
+    ];
     let drawn = candidates[0].first();
     for (const c of candidates) {
       if ((await c.count()) > 0) {
@@ -206,7 +238,9 @@ async function hover(context: BrowserContext, url: string): Promise<HoverResult>
       }
     }
     const renderer = await drawn.evaluate((el) => (el.tagName.toLowerCase() === "canvas" ? "canvas" : "svg"));
-    const figure = await drawn.evaluate((el) => el.closest<HTMLElement>("[data-figure]")?.dataset.figure ?? "?");
+    const figure = await drawn.evaluate(
+      (el) => el.closest<HTMLElement>("[data-figure]")?.dataset.figure ?? "?",
+    );
     const box = await drawn.boundingBox();
     if (!box) throw new Error("The figure chosen for the hover measurement has no box on the page.");
     await page.evaluate(() => {
@@ -217,7 +251,12 @@ async function hover(context: BrowserContext, url: string): Promise<HoverResult>
         const visible = document.getElementById("vg-tooltip-element")?.classList.contains("visible") ?? false;
         if (visible && !was) requestAnimationFrame(() => (probe.tooltipShownAt = performance.now()));
         was = visible;
-      }).observe(document.body, { subtree: true, childList: true, attributes: true, attributeFilter: ["class"] });
+      }).observe(document.body, {
+        subtree: true,
+        childList: true,
+        attributes: true,
+        attributeFilter: ["class"],
+      });
     });
     const samples: number[] = [];
     let moves = 0;
@@ -225,18 +264,28 @@ async function hover(context: BrowserContext, url: string): Promise<HoverResult>
     for (let row = 1; row <= rows; row++) {
       for (let col = 1; col <= cols; col++) {
         await page.mouse.move(2, box.y + box.height / 2);
-        await poll(page, () => !document.getElementById("vg-tooltip-element")?.classList.contains("visible"), 0, 5000);
+        await poll(
+          page,
+          () => !document.getElementById("vg-tooltip-element")?.classList.contains("visible"),
+          0,
+          5000,
+        );
         await page.evaluate(() => {
           const probe = window.plumblineBench;
           if (probe) probe.moveAt = probe.tooltipShownAt = null;
         });
-        await page.mouse.move(box.x + (box.width * col) / (cols + 1), box.y + (box.height * row) / (rows + 1));
+        await page.mouse.move(
+          box.x + (box.width * col) / (cols + 1),
+          box.y + (box.height * row) / (rows + 1),
+        );
         moves++;
         const shown = await poll(
           page,
           () => {
             const probe = window.plumblineBench;
-            return probe && probe.moveAt !== null && probe.tooltipShownAt !== null ? probe.tooltipShownAt - probe.moveAt : false;
+            return probe && probe.moveAt !== null && probe.tooltipShownAt !== null
+              ? probe.tooltipShownAt - probe.moveAt
+              : false;
           },
           0,
           1000,
@@ -251,7 +300,13 @@ async function hover(context: BrowserContext, url: string): Promise<HoverResult>
 }
 
 /** Every measurement for one rerun's page: the time until all figures are ready, and the printed lines. */
-async function measure(browser: Browser, cookie: { name: string; value: string }, appUrl: string, url: string, withHover: boolean): Promise<{ allMs: number; lines: string[] }> {
+async function measure(
+  browser: Browser,
+  cookie: { name: string; value: string },
+  appUrl: string,
+  url: string,
+  withHover: boolean,
+): Promise<{ allMs: number; lines: string[] }> {
   const tall = await browser.newContext({ viewport: TALL });
   const reader = await browser.newContext({ viewport: READER });
   try {
@@ -278,12 +333,18 @@ async function measure(browser: Browser, cookie: { name: string; value: string }
       `    figure data: ${last.dataRequests ? `${last.dataRequests.count} requests from the page, first sent at ${ms(last.dataRequests.firstStartMs)}, last answered at ${ms(last.dataRequests.lastEndMs)}, longest wait for the server ${ms(last.dataRequests.longestWaitMs)}` : "fetched by the figure worker (its requests are not in the page's resource timing)"}; largest script loaded at ${ms(last.chartScriptEndMs)}`,
       `    longest main-thread task: ${ms(maybeMedian(all.map((l) => l.longestTaskMs)))} (median of the loads' longest; longest of all ${ms(nums(all.map((l) => l.longestTaskMs)).length ? Math.max(...nums(all.map((l) => l.longestTaskMs))) : null)})`,
     ];
-    if (last.lastFigureBottom > TALL.height) lines.push(`    note: figures end below the viewport, so a reader could not see them all at once; make TALL taller`);
+    if (last.lastFigureBottom > TALL.height)
+      lines.push(
+        `    note: figures end below the viewport, so a reader could not see them all at once; make TALL taller`,
+      );
     const errors = [...new Set(all.flatMap((l) => l.errors))];
     if (errors.length) lines.push(`    figures that ended in an error: ${errors.join("; ")}`);
 
     const labels = read[0].afterScrollMs.map((f) => f.label);
-    const perFigure = labels.map((label, i) => ({ label, ms: median(read.map((r) => r.afterScrollMs[i]?.ms ?? Number.NaN)) }));
+    const perFigure = labels.map((label, i) => ({
+      label,
+      ms: median(read.map((r) => r.afterScrollMs[i]?.ms ?? Number.NaN)),
+    }));
     lines.push(
       `  as a reader scrolls (viewport ${READER.width}×${READER.height}):`,
       `    first figure's frame starts at ${Math.round(read[0].firstTop)} px (the first screen is ${read[0].viewportHeight} px); figures are drawn whether or not they are in view`,
@@ -314,7 +375,9 @@ if (!existsSync(path.join(root, "build/server/index.js"))) {
   process.exit(1);
 }
 if (!existsSync(CHROMIUM)) {
-  console.error(`bench:figures needs Chromium at ${CHROMIUM}: install Debian's chromium (apt-get install chromium) or set CHROMIUM_PATH to a Chromium binary.`);
+  console.error(
+    `bench:figures needs Chromium at ${CHROMIUM}: install Debian's chromium (apt-get install chromium) or set CHROMIUM_PATH to a Chromium binary.`,
+  );
   process.exit(1);
 }
 
@@ -358,11 +421,17 @@ try {
 
   const study = await buildLargeStudy({ analysedOnly: true });
   const reruns = await import("../app/.server/reruns/reruns.server");
-  const rerunIds: Record<BenchDataset, string> = { adeff: await study.rerun("adeff"), adeff10k: await study.rerun("adeff10k") };
+  const rerunIds: Record<BenchDataset, string> = {
+    adeff: await study.rerun("adeff"),
+    adeff10k: await study.rerun("adeff10k"),
+  };
   const used: Record<BenchDataset, number> = { adeff: 0, adeff10k: 0 };
   for (const name of ["adeff", "adeff10k"] as const) {
     const r = await reruns.getRerun(study.studyId, rerunIds[name]);
-    if (!r.doc) throw new Error(`The benchmark rerun on ${name} did not complete: ${r.rerun.failureReason ?? r.rerun.status}`);
+    if (!r.doc)
+      throw new Error(
+        `The benchmark rerun on ${name} did not complete: ${r.rerun.failureReason ?? r.rerun.status}`,
+      );
     used[name] = r.doc.rows.used;
   }
   const { startSession, sessionCookie } = await import("../app/.server/session.server");
@@ -384,8 +453,13 @@ try {
   for (const name of ["adeff10k", "adeff"] as const) {
     const url = `${appUrl}/studies/${study.studyId}/reruns/${rerunIds[name]}`;
     const { allMs, lines } = await measure(browser, cookie, appUrl, url, name === "adeff10k");
-    const verdict = name === "adeff10k" ? `: all figures in ${ms(allMs)}, target ${TARGET_MS} ms ${allMs <= TARGET_MS ? "met" : "not met"}` : "";
-    console.log(`\nn = ${used[name].toLocaleString("en-GB").replace(/,/g, " ")} (dataset ${name})${verdict}\n${lines.join("\n")}`);
+    const verdict =
+      name === "adeff10k"
+        ? `: all figures in ${ms(allMs)}, target ${TARGET_MS} ms ${allMs <= TARGET_MS ? "met" : "not met"}`
+        : "";
+    console.log(
+      `\nn = ${used[name].toLocaleString("en-GB").replace(/,/g, " ")} (dataset ${name})${verdict}\n${lines.join("\n")}`,
+    );
   }
 } finally {
   await stopAll();

@@ -65,7 +65,13 @@ export function benchMmrm(withR: boolean, subjects = 2_000): void {
       { interaction: ["BASE", "AVISIT"] },
     ],
     treatment: "ARM",
-    repeated: { subject: "USUBJID", visit: "AVISIT", visitOrder: "AVISITN", covariance: "unstructured", df: "satterthwaite" },
+    repeated: {
+      subject: "USUBJID",
+      visit: "AVISIT",
+      visitOrder: "AVISITN",
+      covariance: "unstructured",
+      df: "satterthwaite",
+    },
   };
   fitRepeatedModel(spec, { columns: invented(60) }); // warm-up: the compiler's one-time cost
   const start = process.hrtime.bigint();
@@ -76,7 +82,11 @@ export function benchMmrm(withR: boolean, subjects = 2_000): void {
     const dir = mkdtempSync(join(tmpdir(), "plumbline-bench-mmrm-"));
     const csv = join(dir, "mmrm.csv");
     const names = Object.keys(columns);
-    writeFileSync(csv, [names.join(","), ...columns.CHG.map((_, i) => names.map((k) => columns[k][i]).join(","))].join("\n") + "\n");
+    writeFileSync(
+      csv,
+      [names.join(","), ...columns.CHG.map((_, i) => names.map((k) => columns[k][i]).join(","))].join("\n") +
+        "\n",
+    );
     writeFileSync(join(dir, "mmrm.R"), R_SCRIPT);
     const out = spawnSync("Rscript", [join(dir, "mmrm.R"), csv], { encoding: "utf8" });
     const v = Number(out.stdout.trim().split("\n").pop());
@@ -87,7 +97,10 @@ export function benchMmrm(withR: boolean, subjects = 2_000): void {
     `MMRM, unstructured ${VISITS} visits, REML, Satterthwaite, every diagnostic: ${subjects.toLocaleString("en")} subjects, ${result.n.toLocaleString("en")} records, ${result.coefficients.length} coefficients, ${result.covariance.iterations} Newton iterations:`,
   );
   console.log(
-    `  engine ${seconds.toFixed(2)} s` + (rSeconds === null ? "" : `; R (nlme::gls, normalized residuals) ${rSeconds.toFixed(2)} s; engine/R ${(seconds / rSeconds).toFixed(2)}`),
+    `  engine ${seconds.toFixed(2)} s` +
+      (rSeconds === null
+        ? ""
+        : `; R (nlme::gls, normalized residuals) ${rSeconds.toFixed(2)} s; engine/R ${(seconds / rSeconds).toFixed(2)}`),
   );
 }
 

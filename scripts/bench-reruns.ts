@@ -22,7 +22,9 @@ try {
       times.push(performance.now() - start);
     }
     const r = await reruns.getRerun(study.studyId, id);
-    results.push(`${name.padEnd(9)} n used ${String(r.doc?.rows.used).padStart(6)}   queue to stored result: ${times.map((x) => `${x.toFixed(0)} ms`).join(", ")} (3 runs)   result JSON ${(JSON.stringify(r.doc).length / 1e6).toFixed(2)} MB`);
+    results.push(
+      `${name.padEnd(9)} n used ${String(r.doc?.rows.used).padStart(6)}   queue to stored result: ${times.map((x) => `${x.toFixed(0)} ms`).join(", ")} (3 runs)   result JSON ${(JSON.stringify(r.doc).length / 1e6).toFixed(2)} MB`,
+    );
     if (name === "adeff10k") {
       try {
         if (!r.doc) throw new Error(`the rerun did not complete: ${r.rerun.failureReason}`);
@@ -30,17 +32,29 @@ try {
         const { rerunTable } = await import("../app/.server/reruns/what-if.server");
         const { loadLockedTable } = await import("../app/.server/datasets/catalog.server");
         const table = rerunTable(r.doc, (await loadLockedTable(study.datasetVersionIds[name])).table);
-        for (const fig of ["influence", "leverage_residual", "qq", "residuals_fitted", "spread_by_arm", "residuals_covariate", "partial_residuals"] as const) {
+        for (const fig of [
+          "influence",
+          "leverage_residual",
+          "qq",
+          "residuals_fitted",
+          "spread_by_arm",
+          "residuals_covariate",
+          "partial_residuals",
+        ] as const) {
           const s = performance.now();
           const data = figureData(r.doc, fig, { term: "base", withSubjectIds: true, table });
-          results.push(`  figure data ${fig.padEnd(20)} ${(performance.now() - s).toFixed(1)} ms, ${(JSON.stringify(data).length / 1e6).toFixed(2)} MB`);
+          results.push(
+            `  figure data ${fig.padEnd(20)} ${(performance.now() - s).toFixed(1)} ms, ${(JSON.stringify(data).length / 1e6).toFixed(2)} MB`,
+          );
         }
       } catch (e) {
         results.push(`  figure data: not measured (${e instanceof Error ? e.message : e})`);
       }
     }
   }
-  console.log(`Plumbline rerun benchmark (${os.cpus().length} cores, Node ${process.version})\n${results.join("\n")}`);
+  console.log(
+    `Plumbline rerun benchmark (${os.cpus().length} cores, Node ${process.version})\n${results.join("\n")}`,
+  );
 } finally {
   temp.remove();
 }

@@ -37,9 +37,14 @@ const arg = (name: string) => {
 const subjects = Number(arg("--subjects") ?? 1_000_000);
 
 const root = process.cwd();
-if (!existsSync(path.join(root, "build/server/index.js"))) throw new Error("bench:server measures the built server: run `npm run build` first.");
+if (!existsSync(path.join(root, "build/server/index.js")))
+  throw new Error("bench:server measures the built server: run `npm run build` first.");
 
-const load = () => os.loadavg().map((v) => v.toFixed(2)).join(" ");
+const load = () =>
+  os
+    .loadavg()
+    .map((v) => v.toFixed(2))
+    .join(" ");
 const temp = useTempDataDir("plumbline-bench-server-");
 mkdirSync(temp.dataDir, { recursive: true });
 const [appPort, idpPort, oidcPort] = [await freePort(), await freePort(), await freePort()];
@@ -77,7 +82,9 @@ Object.assign(process.env, env);
 
 let app: Awaited<ReturnType<typeof startAppServer>> | null = null;
 try {
-  console.log(`Plumbline server benchmark: ${subjects.toLocaleString("en")} subjects, ${SESSIONS} sessions (${os.availableParallelism()} cores, Node ${process.version})`);
+  console.log(
+    `Plumbline server benchmark: ${subjects.toLocaleString("en")} subjects, ${SESSIONS} sessions (${os.availableParallelism()} cores, Node ${process.version})`,
+  );
   const built = performance.now();
   const study = await buildLargeStudy({ subjects, analysedOnly: true });
   console.log(`study built in ${((performance.now() - built) / 1000).toFixed(0)} s`);
@@ -120,7 +127,11 @@ try {
     ms: number;
     status: number;
   }
-  const timed = async (kind: Sample["kind"], url: string, headers: Record<string, string>): Promise<Sample> => {
+  const timed = async (
+    kind: Sample["kind"],
+    url: string,
+    headers: Record<string, string>,
+  ): Promise<Sample> => {
     const start = performance.now();
     const res = await fetch(base + url, { headers });
     await res.arrayBuffer();
@@ -154,13 +165,22 @@ try {
       const xs = samples.filter((s) => s.kind === kind).map((s) => s.ms);
       const bad = samples.filter((s) => s.kind === kind && s.status !== 200).length;
       console.log(
-        `  ${label.padEnd(16)} ${kind.padEnd(5)} ${String(xs.length).padStart(6)} requests   p50 ${quantile(xs, 0.5).toFixed(0).padStart(5)} ms   p95 ${quantile(xs, 0.95).toFixed(0).padStart(5)} ms   max ${Math.max(...xs).toFixed(0).padStart(6)} ms${bad ? `   (${bad} not 200)` : ""}`,
+        `  ${label.padEnd(16)} ${kind.padEnd(5)} ${String(xs.length).padStart(6)} requests   p50 ${quantile(xs, 0.5).toFixed(0).padStart(5)} ms   p95 ${quantile(xs, 0.95).toFixed(0).padStart(5)} ms   max ${Math.max(
+          ...xs,
+        )
+          .toFixed(0)
+          .padStart(6)} ms${bad ? `   (${bad} not 200)` : ""}`,
       );
     }
   };
 
   // warm the server's routes once, then the baseline
-  await drive(((end) => () => performance.now() > end)(performance.now() + 2000));
+  await drive(
+    (
+      (end) => () =>
+        performance.now() > end
+    )(performance.now() + 2000),
+  );
   const baselineEnd = performance.now() + BASELINE_MS;
   console.log(`load average before: ${load()}`);
   const baseline = await drive(() => performance.now() > baselineEnd);
@@ -184,14 +204,24 @@ try {
       });
   }, 250);
   const during = await drive(() => finishedAt > 0).catch((e: unknown) => {
-    const server = app?.process.exitCode !== null ? `the server exited (code ${app?.process.exitCode}, signal ${app?.process.signalCode})` : "the server is running";
-    throw new Error(`a request failed during the rerun (${e instanceof Error ? e.message : e}); ${server}. Server output:\n${app?.log().slice(-3000)}`);
+    const server =
+      app?.process.exitCode !== null
+        ? `the server exited (code ${app?.process.exitCode}, signal ${app?.process.signalCode})`
+        : "the server is running";
+    throw new Error(
+      `a request failed during the rerun (${e instanceof Error ? e.message : e}); ${server}. Server output:\n${app?.log().slice(-3000)}`,
+    );
   });
   clearInterval(poll);
-  const [row] = await db.select({ status: t.reruns.status, failureReason: t.reruns.failureReason }).from(t.reruns).where(eq(t.reruns.id, rerunId));
+  const [row] = await db
+    .select({ status: t.reruns.status, failureReason: t.reruns.failureReason })
+    .from(t.reruns)
+    .where(eq(t.reruns.id, rerunId));
 
   console.log(`load average after: ${load()}`);
-  console.log(`rerun of ${subjects.toLocaleString("en")} subjects: ${row?.status}${row?.failureReason ? ` (${row.failureReason})` : ""}, ${((finishedAt - started) / 1000).toFixed(1)} s from queue to stored result`);
+  console.log(
+    `rerun of ${subjects.toLocaleString("en")} subjects: ${row?.status}${row?.failureReason ? ` (${row.failureReason})` : ""}, ${((finishedAt - started) / 1000).toFixed(1)} s from queue to stored result`,
+  );
   report("baseline", baseline);
   report("during rerun", during);
   console.log("target: p95 under 200 ms during the rerun");

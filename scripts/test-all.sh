@@ -23,7 +23,8 @@ if [ ${#missing[@]} -gt 0 ]; then
 fi
 
 npm ci --no-audit --no-fund
-# Layer rules and lint first: a violation fails the run before the tests start.
+# Layer rules, lint and formatting first: a violation fails the run before the tests start.
 npm run lint
+npm run format:check
 npm run build
 npx vitest run

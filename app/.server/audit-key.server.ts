@@ -22,7 +22,10 @@ const MIN_LENGTH = 32;
 
 function checked(text: string, where: string): Buffer {
   const key = Buffer.from(text.trim(), "utf8");
-  if (key.length < MIN_LENGTH) throw new Error(`The audit key in ${where} has ${key.length} characters; it needs at least ${MIN_LENGTH}. Put a long random value there (for example \`openssl rand -hex 32\`).`);
+  if (key.length < MIN_LENGTH)
+    throw new Error(
+      `The audit key in ${where} has ${key.length} characters; it needs at least ${MIN_LENGTH}. Put a long random value there (for example \`openssl rand -hex 32\`).`,
+    );
   return key;
 }
 
@@ -31,7 +34,12 @@ export function auditKeyFile(): string {
 }
 
 export function loadAuditKey(): AuditKey {
-  if (config.AUDIT_KEY) return { key: checked(config.AUDIT_KEY, "AUDIT_KEY"), source: "the environment (AUDIT_KEY)", created: false };
+  if (config.AUDIT_KEY)
+    return {
+      key: checked(config.AUDIT_KEY, "AUDIT_KEY"),
+      source: "the environment (AUDIT_KEY)",
+      created: false,
+    };
   const file = auditKeyFile();
   try {
     return { key: checked(readFileSync(file, "utf8"), file), source: file, created: false };
@@ -47,7 +55,8 @@ export function loadAuditKey(): AuditKey {
   try {
     linkSync(work, file);
   } catch (e) {
-    if ((e as NodeJS.ErrnoException).code === "EEXIST") return { key: checked(readFileSync(file, "utf8"), file), source: file, created: false };
+    if ((e as NodeJS.ErrnoException).code === "EEXIST")
+      return { key: checked(readFileSync(file, "utf8"), file), source: file, created: false };
     throw e;
   } finally {
     rmSync(work, { force: true });

@@ -53,7 +53,8 @@ export function eventMac(key: Buffer, prevMac: string, seq: number, hash: string
   return createHmac("sha256", key).update(`${prevMac}\n${seq}\n${hash}`).digest("hex");
 }
 
-const sameHex = (a: string | null, b: string) => a !== null && a.length === b.length && timingSafeEqual(Buffer.from(a), Buffer.from(b));
+const sameHex = (a: string | null, b: string) =>
+  a !== null && a.length === b.length && timingSafeEqual(Buffer.from(a), Buffer.from(b));
 
 /** The fields an event's hash covers: everything but its own hash. */
 function hashedContent(e: Omit<StoredEvent, "hash" | "mac">): string {
@@ -73,7 +74,9 @@ function hashedContent(e: Omit<StoredEvent, "hash" | "mac">): string {
 }
 
 export function eventHash(prevHash: string, e: Omit<StoredEvent, "hash" | "prevHash" | "mac">): string {
-  return createHash("sha256").update(`${prevHash}\n${hashedContent({ ...e, prevHash })}`).digest("hex");
+  return createHash("sha256")
+    .update(`${prevHash}\n${hashedContent({ ...e, prevHash })}`)
+    .digest("hex");
 }
 
 async function appendWithin(tx: DbOrTx, input: AuditInput): Promise<StoredEvent> {
@@ -98,7 +101,12 @@ async function appendWithin(tx: DbOrTx, input: AuditInput): Promise<StoredEvent>
   const prevHash = last?.hash ?? GENESIS_HASH;
   const hash = eventHash(prevHash, draft);
   // after an event without a keyed hash the chain is broken anyway: keep keying from the stored value
-  const event: StoredEvent = { ...draft, prevHash, hash, mac: eventMac(auditKey.key, last ? (last.mac ?? "") : GENESIS_HASH, draft.seq, hash) };
+  const event: StoredEvent = {
+    ...draft,
+    prevHash,
+    hash,
+    mac: eventMac(auditKey.key, last ? (last.mac ?? "") : GENESIS_HASH, draft.seq, hash),
+  };
   await tx.insert(t.auditEvents).values(event);
   return event;
 }
@@ -124,7 +132,11 @@ export type ChainVerdict =
 
 /** The last event of the trail. */
 export async function auditHead(): Promise<ChainHead | null> {
-  const [last] = await db.select({ seq: t.auditEvents.seq, at: t.auditEvents.at, mac: t.auditEvents.mac }).from(t.auditEvents).orderBy(desc(t.auditEvents.seq)).limit(1);
+  const [last] = await db
+    .select({ seq: t.auditEvents.seq, at: t.auditEvents.at, mac: t.auditEvents.mac })
+    .from(t.auditEvents)
+    .orderBy(desc(t.auditEvents.seq))
+    .limit(1);
   return last ?? null;
 }
 
@@ -135,7 +147,11 @@ export async function verifyAuditChain(): Promise<ChainVerdict> {
   return { ...found, head } as ChainVerdict;
 }
 
-async function walkChain(key: Buffer): Promise<{ intact: true; events: number } | { intact: false; events: number; brokenAtSeq: number; reason: string }> {
+async function walkChain(
+  key: Buffer,
+): Promise<
+  { intact: true; events: number } | { intact: false; events: number; brokenAtSeq: number; reason: string }
+> {
   const pageSize = 5000;
   let prevHash = GENESIS_HASH;
   let prevMac = GENESIS_HASH;
@@ -151,21 +167,47 @@ async function walkChain(key: Buffer): Promise<{ intact: true; events: number } 
     for (const e of page) {
       count++;
       if (e.seq !== expectedSeq) {
-        return { intact: false, events: count, brokenAtSeq: expectedSeq, reason: `event ${expectedSeq} is missing` };
+        return {
+          intact: false,
+          events: count,
+          brokenAtSeq: expectedSeq,
+          reason: `event ${expectedSeq} is missing`,
+        };
       }
       if (e.prevHash !== prevHash) {
-        return { intact: false, events: count, brokenAtSeq: e.seq, reason: "it does not point at the previous event's hash" };
+        return {
+          intact: false,
+          events: count,
+          brokenAtSeq: e.seq,
+          reason: "it does not point at the previous event's hash",
+        };
       }
       const { hash, prevHash: _stored, ...rest } = e;
       const { mac: _mac, ...content } = rest;
       if (eventHash(prevHash, content) !== hash) {
-        return { intact: false, events: count, brokenAtSeq: e.seq, reason: "its content no longer matches its hash" };
+        return {
+          intact: false,
+          events: count,
+          brokenAtSeq: e.seq,
+          reason: "its content no longer matches its hash",
+        };
       }
       if (e.mac === null) {
-        return { intact: false, events: count, brokenAtSeq: e.seq, reason: "it carries no keyed hash (HMAC), so it was added or rewritten outside Plumbline" };
+        return {
+          intact: false,
+          events: count,
+          brokenAtSeq: e.seq,
+          reason: "it carries no keyed hash (HMAC), so it was added or rewritten outside Plumbline",
+        };
       }
       if (!sameHex(e.mac, eventMac(key, prevMac, e.seq, hash))) {
-        return { intact: false, events: count, brokenAtSeq: e.seq, reason: "its keyed hash (HMAC) does not match: it was changed and re-hashed without the audit key, or the audit key is not the one the trail was kept with" };
+        return {
+          intact: false,
+          events: count,
+          brokenAtSeq: e.seq,
+          reason:
+            "its keyed hash (HMAC) does not match: it was changed and re-hashed without the audit key, or the audit key is not the one the trail was kept with",
+        };
       }
       prevHash = hash;
       prevMac = e.mac;
@@ -182,7 +224,11 @@ async function walkChain(key: Buffer): Promise<{ intact: true; events: number } 
  */
 async function keyUnkeyedEvents(key: Buffer): Promise<void> {
   await writeTransaction(async (tx) => {
-    const unkeyed = await tx.select({ seq: t.auditEvents.seq }).from(t.auditEvents).where(isNull(t.auditEvents.mac)).limit(1);
+    const unkeyed = await tx
+      .select({ seq: t.auditEvents.seq })
+      .from(t.auditEvents)
+      .where(isNull(t.auditEvents.mac))
+      .limit(1);
     if (unkeyed.length === 0) return;
     const events = await tx.select().from(t.auditEvents).orderBy(asc(t.auditEvents.seq));
     let prevHash = GENESIS_HASH;
@@ -192,7 +238,8 @@ async function keyUnkeyedEvents(key: Buffer): Promise<void> {
       // a broken plain link stays broken: nothing from there on is vouched for with the key
       if (e.seq !== i + 1 || stored !== prevHash || eventHash(prevHash, content) !== hash) return;
       const expected = eventMac(key, prevMac, e.seq, hash);
-      if (mac === null) await tx.update(t.auditEvents).set({ mac: expected }).where(eq(t.auditEvents.seq, e.seq));
+      if (mac === null)
+        await tx.update(t.auditEvents).set({ mac: expected }).where(eq(t.auditEvents.seq, e.seq));
       else if (mac !== expected) return;
       prevHash = hash;
       prevMac = expected;
@@ -228,7 +275,9 @@ function whereOf(filter: Omit<AuditFilter, "limit" | "offset">): SQL | undefined
 }
 
 /** Newest first, with optional filters (action prefix, actor name fragment, date range); `limit` null for every match. */
-export async function listAuditEvents(filter: Omit<AuditFilter, "limit"> & { limit?: number | null } = {}): Promise<StoredEvent[]> {
+export async function listAuditEvents(
+  filter: Omit<AuditFilter, "limit"> & { limit?: number | null } = {},
+): Promise<StoredEvent[]> {
   const query = db.select().from(t.auditEvents).where(whereOf(filter)).orderBy(desc(t.auditEvents.seq));
   if (filter.limit === null) return query;
   return query.limit(filter.limit ?? 200).offset(filter.offset ?? 0);

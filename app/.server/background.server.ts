@@ -17,7 +17,9 @@ export function registerJobHandlers(): void {
 export function startBackgroundWork(): void {
   registerJobHandlers();
   // A version read before this pass reaches it is migrated on demand (stored-columns.server.ts).
-  migrateStoredColumns().catch((e: unknown) => console.error("Dataset columns migration:", e instanceof Error ? e.message : e));
+  migrateStoredColumns().catch((e: unknown) =>
+    console.error("Dataset columns migration:", e instanceof Error ? e.message : e),
+  );
   startJobWorker();
   startMailRetries();
 }

@@ -26,7 +26,10 @@ export interface VerifiedIdentity {
 /** A signed-in person acting: unlike the system actor, always has an id. */
 export type PersonActor = Actor & { id: string };
 
-export const actorOf = (p: { id: string; displayName: string }): PersonActor => ({ id: p.id, name: p.displayName });
+export const actorOf = (p: { id: string; displayName: string }): PersonActor => ({
+  id: p.id,
+  name: p.displayName,
+});
 
 /** The longest display name kept from an identity provider; longer names are cut. */
 export const DISPLAY_NAME_MAX = 200;
@@ -37,7 +40,10 @@ export const DISPLAY_NAME_MAX = 200;
  * characters (whole code points). Falls back to the e-mail address when nothing is left.
  */
 export function cleanDisplayName(raw: string, email: string): string {
-  const text = raw.replace(/[\u0000-\u001f\u007f-\u009f\u200b-\u200f\u2028-\u202e\u2066-\u2069]/g, " ").replace(/\s+/g, " ").trim();
+  const text = raw
+    .replace(/[\u0000-\u001f\u007f-\u009f\u200b-\u200f\u2028-\u202e\u2066-\u2069]/g, " ")
+    .replace(/\s+/g, " ")
+    .trim();
   const cut = [...text].slice(0, DISPLAY_NAME_MAX).join("").trim();
   return cut.length > 0 ? cut : email;
 }
@@ -59,7 +65,11 @@ async function accountOf(tx: DbOrTx, identity: VerifiedIdentity, email: string):
     .limit(1);
   if (bySubject) {
     if (byEmail && byEmail.id !== bySubject.id) {
-      throw new SignInRefused("subject-mismatch", `the e-mail address ${email} belongs to another account than subject ${identity.externalId} at ${identity.issuer}`, email);
+      throw new SignInRefused(
+        "subject-mismatch",
+        `the e-mail address ${email} belongs to another account than subject ${identity.externalId} at ${identity.issuer}`,
+        email,
+      );
     }
     return bySubject;
   }
@@ -67,7 +77,8 @@ async function accountOf(tx: DbOrTx, identity: VerifiedIdentity, email: string):
   // Accounts without a recorded issuer: bound when the subject matches, or when nobody ever
   // signed in to them (made in advance, e.g. by the demo seed, with a placeholder subject).
   const unbound = byEmail.identityIssuer === null && byEmail.identitySource === "oidc";
-  if (unbound && (byEmail.externalId === identity.externalId || byEmail.lastSignInAt === null)) return byEmail;
+  if (unbound && (byEmail.externalId === identity.externalId || byEmail.lastSignInAt === null))
+    return byEmail;
   throw new SignInRefused(
     "subject-mismatch",
     `the e-mail address ${email} is bound to subject ${byEmail.externalId} at ${byEmail.identityIssuer ?? "an earlier provider"}, not to subject ${identity.externalId} at ${identity.issuer}`,
@@ -133,14 +144,25 @@ export async function recordSignIn(identity: VerifiedIdentity): Promise<Person> 
           action: "person.create",
           entityType: "person",
           entityId: person.id,
-          after: { email, displayName: person.displayName, organisation: person.organisation, isAdmin: person.isAdmin },
+          after: {
+            email,
+            displayName: person.displayName,
+            organisation: person.organisation,
+            isAdmin: person.isAdmin,
+          },
           detail: `created at first sign-in through ${identity.source === "saml" ? "SAML single sign-on" : "OpenID Connect"}`,
         },
         tx,
       );
     }
     await appendAudit(
-      { actor: actorOf(person), action: "auth.sign_in", entityType: "person", entityId: person.id, detail: identity.source },
+      {
+        actor: actorOf(person),
+        action: "auth.sign_in",
+        entityType: "person",
+        entityId: person.id,
+        detail: identity.source,
+      },
       tx,
     );
     return person;
@@ -180,15 +202,28 @@ export async function listMemberships(): Promise<Membership[]> {
  */
 export async function studyRoleOf(personId: string, studyId: string): Promise<StudyRole | null> {
   const [row] = await db
-    .select({ role: t.studyMemberships.role, source: t.people.identitySource, organisation: t.people.organisation, sharedWith: t.studyShares.organisation })
+    .select({
+      role: t.studyMemberships.role,
+      source: t.people.identitySource,
+      organisation: t.people.organisation,
+      sharedWith: t.studyShares.organisation,
+    })
     .from(t.studyMemberships)
     .innerJoin(t.people, eq(t.people.id, t.studyMemberships.personId))
-    .leftJoin(t.studyShares, and(eq(t.studyShares.studyId, t.studyMemberships.studyId), eq(t.studyShares.organisation, t.people.organisation)))
+    .leftJoin(
+      t.studyShares,
+      and(
+        eq(t.studyShares.studyId, t.studyMemberships.studyId),
+        eq(t.studyShares.organisation, t.people.organisation),
+      ),
+    )
     .where(and(eq(t.studyMemberships.personId, personId), eq(t.studyMemberships.studyId, studyId)))
     .limit(1);
   if (!row) return null;
   if (row.source !== "oidc") return row.role;
-  return row.role === "sponsor_reader" && row.organisation !== null && row.sharedWith === row.organisation ? row.role : null;
+  return row.role === "sponsor_reader" && row.organisation !== null && row.sharedWith === row.organisation
+    ? row.role
+    : null;
 }
 
 /**
@@ -206,18 +241,47 @@ export class RoleChangeRefused extends Error {
   }
 }
 
-export async function setStudyRole(actor: Actor, studyId: string, personId: string, role: StudyRole | null): Promise<void> {
+export async function setStudyRole(
+  actor: Actor,
+  studyId: string,
+  personId: string,
+  role: StudyRole | null,
+): Promise<void> {
   const outcome = await writeTransaction(async (tx): Promise<"self-grant" | "done"> => {
-    const [person] = await tx.select({ id: t.people.id }).from(t.people).where(eq(t.people.id, personId)).limit(1);
-    if (!person) throw new RoleChangeRefused(404, `There is no person with id ${personId.slice(0, 80)}; reload the page and choose someone from the list.`);
-    const [study] = await tx.select({ id: t.studies.id }).from(t.studies).where(eq(t.studies.id, studyId)).limit(1);
-    if (!study) throw new RoleChangeRefused(404, `There is no study with id ${studyId.slice(0, 80)}; reload the page and choose a study from the list.`);
+    const [person] = await tx
+      .select({ id: t.people.id })
+      .from(t.people)
+      .where(eq(t.people.id, personId))
+      .limit(1);
+    if (!person)
+      throw new RoleChangeRefused(
+        404,
+        `There is no person with id ${personId.slice(0, 80)}; reload the page and choose someone from the list.`,
+      );
+    const [study] = await tx
+      .select({ id: t.studies.id })
+      .from(t.studies)
+      .where(eq(t.studies.id, studyId))
+      .limit(1);
+    if (!study)
+      throw new RoleChangeRefused(
+        404,
+        `There is no study with id ${studyId.slice(0, 80)}; reload the page and choose a study from the list.`,
+      );
     if (role !== null && actor.id === personId) {
       // Segregation of duties: nobody gives themselves a study role (an administrator could
       // otherwise grant himself the biostatistician role and approve a plan). Another
       // administrator grants it. Removing one's own role is allowed.
       await appendAudit(
-        { actor, action: "membership.self_grant_refused", entityType: "person", entityId: personId, studyId, after: { role }, detail: "another administrator must grant this role" },
+        {
+          actor,
+          action: "membership.self_grant_refused",
+          entityType: "person",
+          entityId: personId,
+          studyId,
+          after: { role },
+          detail: "another administrator must grant this role",
+        },
         tx,
       );
       return "self-grant" as const;
@@ -231,7 +295,9 @@ export async function setStudyRole(actor: Actor, studyId: string, personId: stri
     if (before === role) return "done";
     if (current) await tx.delete(t.studyMemberships).where(eq(t.studyMemberships.id, current.id));
     if (role) {
-      await tx.insert(t.studyMemberships).values({ id: newId(), studyId, personId, role, grantedBy: actor.id });
+      await tx
+        .insert(t.studyMemberships)
+        .values({ id: newId(), studyId, personId, role, grantedBy: actor.id });
     }
     await appendAudit(
       {
@@ -248,14 +314,23 @@ export async function setStudyRole(actor: Actor, studyId: string, personId: stri
     return "done";
   });
   if (outcome === "self-grant") {
-    throw new RoleChangeRefused(403, "You cannot give yourself a role on a study: another administrator must grant it (segregation of duties). The attempt is recorded in the audit trail.");
+    throw new RoleChangeRefused(
+      403,
+      "You cannot give yourself a role on a study: another administrator must grant it (segregation of duties). The attempt is recorded in the audit trail.",
+    );
   }
 }
 
 /** Who works on a study, by role. */
-export async function listStudyTeam(studyId: string): Promise<{ displayName: string; organisation: string | null; role: StudyRole }[]> {
+export async function listStudyTeam(
+  studyId: string,
+): Promise<{ displayName: string; organisation: string | null; role: StudyRole }[]> {
   return db
-    .select({ displayName: t.people.displayName, organisation: t.people.organisation, role: t.studyMemberships.role })
+    .select({
+      displayName: t.people.displayName,
+      organisation: t.people.organisation,
+      role: t.studyMemberships.role,
+    })
     .from(t.studyMemberships)
     .innerJoin(t.people, eq(t.people.id, t.studyMemberships.personId))
     .where(eq(t.studyMemberships.studyId, studyId))

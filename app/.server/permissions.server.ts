@@ -45,7 +45,13 @@ export const STUDY_PERMISSIONS = {
 export type StudyAction = keyof typeof STUDY_PERMISSIONS;
 
 /** What only a global administrator may do. */
-export const ADMIN_ACTIONS = ["studies.manage", "people.manage", "audit.read", "apiClients.manage", "outbox.read"] as const;
+export const ADMIN_ACTIONS = [
+  "studies.manage",
+  "people.manage",
+  "audit.read",
+  "apiClients.manage",
+  "outbox.read",
+] as const;
 export type AdminAction = (typeof ADMIN_ACTIONS)[number];
 
 const ACTION_LABELS: Record<StudyAction | AdminAction, string> = {
@@ -111,7 +117,8 @@ function forbidden(action: StudyAction | AdminAction, needed: string): never {
 
 function neededRoles(action: StudyAction): string {
   const names = (STUDY_PERMISSIONS[action] as readonly StudyRole[]).map((r) => ROLE_LABELS[r].toLowerCase());
-  const list = names.length === 1 ? names[0] : `${names.slice(0, -1).join(", ")} or ${names[names.length - 1]}`;
+  const list =
+    names.length === 1 ? names[0] : `${names.slice(0, -1).join(", ")} or ${names[names.length - 1]}`;
   return `the ${list} role on this study`;
 }
 

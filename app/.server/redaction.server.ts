@@ -73,7 +73,8 @@ const IDENTITY: Redaction = {
   text: (v) => v,
   maybe: (v) => v,
   countOnly: (v) => v,
-  flagged: (c) => (c.flagged ?? []).slice(0, 5).map((f) => ({ rank: f.rank, value: f.value, who: f.id ?? `row ${f.row}` })),
+  flagged: (c) =>
+    (c.flagged ?? []).slice(0, 5).map((f) => ({ rank: f.rank, value: f.value, who: f.id ?? `row ${f.row}` })),
   leak: () => null,
   assertClean: (v) => v,
 };
@@ -85,7 +86,11 @@ const IDENTITY: Redaction = {
 /** `subject "…"` as the engine's messages name a subject. */
 const QUOTED_SUBJECT = /\b([Ss])ubject "[^"]*"/g;
 
-export function redaction(seesSubjects: boolean, docs: readonly (RerunDocument | null)[], moreIds: Iterable<string> = []): Redaction {
+export function redaction(
+  seesSubjects: boolean,
+  docs: readonly (RerunDocument | null)[],
+  moreIds: Iterable<string> = [],
+): Redaction {
   if (seesSubjects) return IDENTITY;
   const ids = new Set<string>();
   const rankOf = new Map<string, Map<string, number>>();
@@ -111,12 +116,16 @@ export function redaction(seesSubjects: boolean, docs: readonly (RerunDocument |
   // as written, longest first, so one that is a prefix of another never leaves a tail behind.
   const wordIds = new Set<string>();
   const otherIds: string[] = [];
-  for (const id of ids) (WORD_ID.test(id) ? wordIds.add(id) : otherIds.push(id));
+  for (const id of ids) WORD_ID.test(id) ? wordIds.add(id) : otherIds.push(id);
   otherIds.sort((a, b) => b.length - a.length);
   const alternatives = (list: string[]) => list.map(escape).join("|");
-  const otherAfterWord = otherIds.length ? new RegExp(`\\b([Ss])ubject (${alternatives(otherIds)})(?![A-Za-z0-9_-])`, "g") : null;
+  const otherAfterWord = otherIds.length
+    ? new RegExp(`\\b([Ss])ubject (${alternatives(otherIds)})(?![A-Za-z0-9_-])`, "g")
+    : null;
   const otherBareList = otherIds.filter(findableBare);
-  const otherBare = otherBareList.length ? new RegExp(`(?<![A-Za-z0-9_-])(${alternatives(otherBareList)})(?![A-Za-z0-9_-])`, "g") : null;
+  const otherBare = otherBareList.length
+    ? new RegExp(`(?<![A-Za-z0-9_-])(${alternatives(otherBareList)})(?![A-Za-z0-9_-])`, "g")
+    : null;
   const row = /\b([Rr])ow (\d+)\b/g;
   const replacement = (s: string, who: string, checkKey?: string | null) => {
     const rank = checkKey ? rankOf.get(checkKey)?.get(who) : undefined;
@@ -124,9 +133,12 @@ export function redaction(seesSubjects: boolean, docs: readonly (RerunDocument |
     return s === "S" || s === "R" ? words[0].toUpperCase() + words.slice(1) : words;
   };
   /** A word that is a subject id: after "subject", or on its own when it cannot be taken for a figure. */
-  const namesWord = (before: string | undefined, word: string) => wordIds.has(word) && (before !== undefined || findableBare(word));
+  const namesWord = (before: string | undefined, word: string) =>
+    wordIds.has(word) && (before !== undefined || findableBare(word));
   // without the g flag, so that test() keeps no position between calls
-  const [afterWordTest, bareTest] = [otherAfterWord, otherBare].map((re) => (re ? new RegExp(re.source) : null));
+  const [afterWordTest, bareTest] = [otherAfterWord, otherBare].map((re) =>
+    re ? new RegExp(re.source) : null,
+  );
   const names = (s: string) => {
     for (const m of s.matchAll(WORDS)) if (namesWord(m[1], m[2])) return true;
     return Boolean(afterWordTest?.test(s) || bareTest?.test(s));
@@ -138,7 +150,8 @@ export function redaction(seesSubjects: boolean, docs: readonly (RerunDocument |
       if (!namesWord(before, word)) return m;
       return before !== undefined ? replacement(before[0], word, checkKey) : WITHHELD;
     });
-    if (otherAfterWord) out = out.replace(otherAfterWord, (_m, s: string, id: string) => replacement(s, id, checkKey));
+    if (otherAfterWord)
+      out = out.replace(otherAfterWord, (_m, s: string, id: string) => replacement(s, id, checkKey));
     out = out.replace(row, (_m, s: string, n: string) => replacement(s, `row ${n}`, checkKey));
     return otherBare ? out.replace(otherBare, WITHHELD) : out;
   };
@@ -163,11 +176,17 @@ export function redaction(seesSubjects: boolean, docs: readonly (RerunDocument |
     text,
     maybe: (v, key) => (v === null ? null : text(v, key)),
     countOnly: (v) => text(withoutNamingClauses(v)),
-    flagged: (c) => (c.flagged ?? []).slice(0, 5).map((f) => ({ rank: f.rank, value: f.value, who: `subject ranked ${f.rank}` })),
+    flagged: (c) =>
+      (c.flagged ?? [])
+        .slice(0, 5)
+        .map((f) => ({ rank: f.rank, value: f.value, who: `subject ranked ${f.rank}` })),
     leak,
     assertClean(value, what) {
       const leaked = leak(value);
-      if (leaked !== null) throw new Error(`${what} for a viewer without subject-level access still names a subject: ${leaked.slice(0, 80)}`);
+      if (leaked !== null)
+        throw new Error(
+          `${what} for a viewer without subject-level access still names a subject: ${leaked.slice(0, 80)}`,
+        );
       return value;
     },
   };
@@ -187,7 +206,10 @@ async function datasetIds(doc: RerunDocument, datasetVersionId: string): Promise
 }
 
 /** A redaction for answers about these reruns, with every id of their locked datasets. */
-export async function redactionFor(seesSubjects: boolean, reruns: readonly { doc: RerunDocument | null; datasetVersionId: string }[]): Promise<Redaction> {
+export async function redactionFor(
+  seesSubjects: boolean,
+  reruns: readonly { doc: RerunDocument | null; datasetVersionId: string }[],
+): Promise<Redaction> {
   if (seesSubjects) return IDENTITY;
   const more: string[] = [];
   const seen = new Set<string>();
@@ -196,18 +218,33 @@ export async function redactionFor(seesSubjects: boolean, reruns: readonly { doc
     seen.add(r.datasetVersionId);
     more.push(...(await datasetIds(r.doc, r.datasetVersionId)));
   }
-  return redaction(false, reruns.map((r) => r.doc), more);
+  return redaction(
+    false,
+    reruns.map((r) => r.doc),
+    more,
+  );
 }
 
 /** The same, for reruns known by id (a deviation log, a list). */
-export async function redactionForReruns(seesSubjects: boolean, rerunIds: readonly string[]): Promise<Redaction> {
+export async function redactionForReruns(
+  seesSubjects: boolean,
+  rerunIds: readonly string[],
+): Promise<Redaction> {
   if (seesSubjects) return IDENTITY;
   const unique = [...new Set(rerunIds)];
   const rows = unique.length
     ? await db
-        .select({ id: t.reruns.id, resultJson: t.reruns.resultJson, resultSha256: t.reruns.resultSha256, datasetVersionId: t.reruns.datasetVersionId })
+        .select({
+          id: t.reruns.id,
+          resultJson: t.reruns.resultJson,
+          resultSha256: t.reruns.resultSha256,
+          datasetVersionId: t.reruns.datasetVersionId,
+        })
         .from(t.reruns)
         .where(inArray(t.reruns.id, unique))
     : [];
-  return redactionFor(false, rows.map((r) => ({ doc: rerunDocumentOf(r), datasetVersionId: r.datasetVersionId })));
+  return redactionFor(
+    false,
+    rows.map((r) => ({ doc: rerunDocumentOf(r), datasetVersionId: r.datasetVersionId })),
+  );
 }

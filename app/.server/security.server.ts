@@ -49,12 +49,16 @@ function sameOrigin(request: Request): boolean {
   }
   // Non-browser clients with a bearer token carry no ambient credentials. A request that also
   // carries the session cookie could act through the session, so it is never let through here.
-  return (request.headers.get("Authorization")?.startsWith("Bearer ") ?? false) && !carriesSessionCookie(request);
+  return (
+    (request.headers.get("Authorization")?.startsWith("Bearer ") ?? false) && !carriesSessionCookie(request)
+  );
 }
 
 /** Whether the request carries Plumbline's session cookie (by name; whether it is valid does not matter here). */
 function carriesSessionCookie(request: Request): boolean {
-  return (request.headers.get("Cookie") ?? "").split(";").some((part) => part.trim().startsWith(`${sessionCookie.name}=`));
+  return (request.headers.get("Cookie") ?? "")
+    .split(";")
+    .some((part) => part.trim().startsWith(`${sessionCookie.name}=`));
 }
 
 function plain(status: number, message: string): Response {
@@ -78,7 +82,9 @@ async function enforceBodyLimit(request: Request, limit: number): Promise<Respon
   if (declared !== null) {
     // Node's HTTP parser delivers exactly the declared number of bytes, never more.
     const length = Number(declared);
-    return length > limit ? bodyTooLarge(`The request body is ${length} bytes; the limit is ${limit} bytes.`) : null;
+    return length > limit
+      ? bodyTooLarge(`The request body is ${length} bytes; the limit is ${limit} bytes.`)
+      : null;
   }
   if (!request.body) return null;
   const reader = request.body.getReader();
@@ -132,11 +138,17 @@ async function discardRest(reader: ReadableStreamDefaultReader<Uint8Array>): Pro
  * answers its body readers from the bytes in memory.
  */
 function replaceBody(request: Request, bytes: Uint8Array): void {
-  const copy = new Request(request.url, { method: request.method, headers: request.headers, body: bytes as BodyInit, signal: request.signal });
+  const copy = new Request(request.url, {
+    method: request.method,
+    headers: request.headers,
+    body: bytes as BodyInit,
+    signal: request.signal,
+  });
   const readers = ["arrayBuffer", "blob", "bytes", "formData", "json", "text", "clone"] as const;
   for (const name of readers) {
     const method = (copy as unknown as Record<string, () => unknown>)[name];
-    if (typeof method === "function") Object.defineProperty(request, name, { value: method.bind(copy), configurable: true });
+    if (typeof method === "function")
+      Object.defineProperty(request, name, { value: method.bind(copy), configurable: true });
   }
   Object.defineProperty(request, "body", { get: () => copy.body, configurable: true });
   Object.defineProperty(request, "bodyUsed", { get: () => copy.bodyUsed, configurable: true });
@@ -147,7 +159,10 @@ export const securityMiddleware: MiddlewareFunction<Response> = async ({ request
   const path = url.pathname.replace(/\.data$/, "");
   if (!SAFE_METHODS.has(request.method)) {
     if (!CROSS_SITE_POSTS.includes(path) && !sameOrigin(request)) {
-      return plain(403, "This form was sent from another site, so Plumbline refused it. Reload the page and try again.");
+      return plain(
+        403,
+        "This form was sent from another site, so Plumbline refused it. Reload the page and try again.",
+      );
     }
     if (!LARGE_BODY_PREFIXES.some((r) => r.test(path))) {
       const tooLarge = await enforceBodyLimit(request, config.MAX_BODY_BYTES);
@@ -156,7 +171,8 @@ export const securityMiddleware: MiddlewareFunction<Response> = async ({ request
   }
   const response = await next();
   const h = response.headers;
-  if (!h.has("Content-Security-Policy")) h.set("Content-Security-Policy", "default-src 'none'; frame-ancestors 'none'");
+  if (!h.has("Content-Security-Policy"))
+    h.set("Content-Security-Policy", "default-src 'none'; frame-ancestors 'none'");
   h.set("X-Content-Type-Options", "nosniff");
   // Pages are personal and many show subject-level rows (dataset preview, results, figures):
   // no cache keeps any answer unless its route says otherwise (the OpenAPI document).

@@ -83,14 +83,20 @@ export async function startSession(
  * before signing): the session keeps its id and gets a new `signedInAt`. Returns false when
  * that session is gone or belongs to someone else (then a new session is started instead).
  */
-export async function confirmSignIn(sessionId: string, personId: string, saml: { nameId?: string; sessionIndex?: string }): Promise<boolean> {
+export async function confirmSignIn(
+  sessionId: string,
+  personId: string,
+  saml: { nameId?: string; sessionIndex?: string },
+): Promise<boolean> {
   const at = isoNow();
   const data: SessionData = { signedInAt: at, ...saml };
   const rows = await writeTransaction((tx) =>
     tx
       .update(t.sessions)
       .set({ dataJson: JSON.stringify(data), lastSeenAt: at })
-      .where(and(eq(t.sessions.id, sessionId), eq(t.sessions.personId, personId), gt(t.sessions.expiresAt, at)))
+      .where(
+        and(eq(t.sessions.id, sessionId), eq(t.sessions.personId, personId), gt(t.sessions.expiresAt, at)),
+      )
       .returning({ id: t.sessions.id }),
   );
   return rows.length === 1;
@@ -114,7 +120,9 @@ export async function getCurrentUser(request: Request): Promise<CurrentUser | nu
     return null;
   }
   if (idleFor > TOUCH_AFTER_MS) {
-    await writeTransaction((tx) => tx.update(t.sessions).set({ lastSeenAt: isoNow() }).where(eq(t.sessions.id, id)));
+    await writeTransaction((tx) =>
+      tx.update(t.sessions).set({ lastSeenAt: isoNow() }).where(eq(t.sessions.id, id)),
+    );
   }
   const data = JSON.parse(row.session.dataJson) as SessionData;
   return {

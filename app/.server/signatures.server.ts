@@ -56,7 +56,12 @@ export function requireFreshSignIn(signer: Signer): void {
 
 /** What the audit trail records of a signature (beside the act's own before and after). */
 export function signatureEvidence(kind: SignatureKind, signer: Signer, signedAt: string) {
-  return { meaning: SIGNATURE_MEANINGS[kind], signedBy: signer.name, signedAt, authenticatedAt: signer.signedInAt };
+  return {
+    meaning: SIGNATURE_MEANINGS[kind],
+    signedBy: signer.name,
+    signedAt,
+    authenticatedAt: signer.signedInAt,
+  };
 }
 
 export interface RecordedSignature {
@@ -70,16 +75,32 @@ export interface RecordedSignature {
  * The signature recorded with an act (`plan.approve`, `dataset.lock`) in the audit trail, or
  * null for acts recorded before approvals and locks were signatures.
  */
-export async function recordedSignature(action: "plan.approve" | "dataset.lock", entityId: string): Promise<RecordedSignature | null> {
+export async function recordedSignature(
+  action: "plan.approve" | "dataset.lock",
+  entityId: string,
+): Promise<RecordedSignature | null> {
   const [row] = await db
     .select({ after: t.auditEvents.afterJson })
     .from(t.auditEvents)
     .where(and(eq(t.auditEvents.action, action), eq(t.auditEvents.entityId, entityId)))
     .orderBy(desc(t.auditEvents.seq))
     .limit(1);
-  const signature = row?.after ? (JSON.parse(row.after) as { signature?: Partial<RecordedSignature> }).signature : undefined;
-  if (!signature || typeof signature.meaning !== "string" || typeof signature.signedBy !== "string" || typeof signature.signedAt !== "string") return null;
-  return { meaning: signature.meaning, signedBy: signature.signedBy, signedAt: signature.signedAt, authenticatedAt: String(signature.authenticatedAt ?? "") };
+  const signature = row?.after
+    ? (JSON.parse(row.after) as { signature?: Partial<RecordedSignature> }).signature
+    : undefined;
+  if (
+    !signature ||
+    typeof signature.meaning !== "string" ||
+    typeof signature.signedBy !== "string" ||
+    typeof signature.signedAt !== "string"
+  )
+    return null;
+  return {
+    meaning: signature.meaning,
+    signedBy: signature.signedBy,
+    signedAt: signature.signedAt,
+    authenticatedAt: String(signature.authenticatedAt ?? ""),
+  };
 }
 
 /**

@@ -20,10 +20,16 @@ export async function syncSponsorMemberships(person: Person): Promise<SponsorAcc
   const organisation = person.organisation;
   return writeTransaction(async (tx) => {
     const shared = organisation
-      ? await tx.select({ studyId: t.studyShares.studyId }).from(t.studyShares).where(eq(t.studyShares.organisation, organisation))
+      ? await tx
+          .select({ studyId: t.studyShares.studyId })
+          .from(t.studyShares)
+          .where(eq(t.studyShares.organisation, organisation))
       : [];
     const sharedIds = new Set(shared.map((s) => s.studyId));
-    const current = await tx.select().from(t.studyMemberships).where(eq(t.studyMemberships.personId, person.id));
+    const current = await tx
+      .select()
+      .from(t.studyMemberships)
+      .where(eq(t.studyMemberships.personId, person.id));
     const change: SponsorAccessChange = { granted: [], revoked: [] };
     const actor = actorOf(person);
     for (const m of current) {
@@ -46,10 +52,14 @@ export async function syncSponsorMemberships(person: Person): Promise<SponsorAcc
         tx,
       );
     }
-    const kept = new Set(current.filter((m) => m.role === "sponsor_reader" && sharedIds.has(m.studyId)).map((m) => m.studyId));
+    const kept = new Set(
+      current.filter((m) => m.role === "sponsor_reader" && sharedIds.has(m.studyId)).map((m) => m.studyId),
+    );
     for (const studyId of sharedIds) {
       if (kept.has(studyId)) continue;
-      await tx.insert(t.studyMemberships).values({ id: newId(), studyId, personId: person.id, role: "sponsor_reader" });
+      await tx
+        .insert(t.studyMemberships)
+        .values({ id: newId(), studyId, personId: person.id, role: "sponsor_reader" });
       change.granted.push(studyId);
       await appendAudit(
         {

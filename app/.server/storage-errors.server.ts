@@ -27,9 +27,11 @@ export function describeStorageError(e: unknown): string {
   const code = storageErrorCode(e);
   if (code && FULL.has(code)) return `the data folder is full (${code})`;
   if (code && READ_ONLY.has(code)) return `the data folder is not writable (${code})`;
-  if (code && NOT_A_FOLDER.has(code)) return `a folder inside the data folder is missing or is not a folder (${code})`;
+  if (code && NOT_A_FOLDER.has(code))
+    return `a folder inside the data folder is missing or is not a folder (${code})`;
   return `writing to the data folder failed (${code ?? (e instanceof Error ? e.message : String(e))})`;
 }
 
 /** The sentence that ends every storage refusal. */
-export const STORAGE_ADVICE = "Nothing was stored. Ask an administrator to check the free space and permissions of DATA_DIR, then try again.";
+export const STORAGE_ADVICE =
+  "Nothing was stored. Ask an administrator to check the free space and permissions of DATA_DIR, then try again.";

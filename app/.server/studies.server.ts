@@ -23,7 +23,10 @@ export async function listStudiesFor(person: { id: string; isAdmin: boolean }): 
   const rows = await db
     .select({ study: t.studies, role: t.studyMemberships.role, members: memberCounts.members })
     .from(t.studies)
-    .leftJoin(t.studyMemberships, and(eq(t.studyMemberships.studyId, t.studies.id), eq(t.studyMemberships.personId, person.id)))
+    .leftJoin(
+      t.studyMemberships,
+      and(eq(t.studyMemberships.studyId, t.studies.id), eq(t.studyMemberships.personId, person.id)),
+    )
     .leftJoin(memberCounts, eq(memberCounts.studyId, t.studies.id))
     .orderBy(asc(t.studies.code));
   return rows
@@ -44,24 +47,58 @@ export const NewStudy = z.object({
     .trim()
     .min(2, "Give the study code, for example ABC-301.")
     .max(40, "Keep the study code under 40 characters.")
-    .regex(/^[A-Za-z0-9][A-Za-z0-9._-]*$/, "Use letters, digits, dots, dashes or underscores in the study code."),
+    .regex(
+      /^[A-Za-z0-9][A-Za-z0-9._-]*$/,
+      "Use letters, digits, dots, dashes or underscores in the study code.",
+    ),
   title: z.string().trim().min(3, "Give the study title.").max(300, "Keep the title under 300 characters."),
   sponsor: z.string().trim().min(2, "Name the sponsor.").max(200),
-  compound: z.string().trim().max(200).optional().transform((v) => v || null),
-  indication: z.string().trim().max(200).optional().transform((v) => v || null),
-  phase: z.string().trim().max(20).optional().transform((v) => v || null),
+  compound: z
+    .string()
+    .trim()
+    .max(200)
+    .optional()
+    .transform((v) => v || null),
+  indication: z
+    .string()
+    .trim()
+    .max(200)
+    .optional()
+    .transform((v) => v || null),
+  phase: z
+    .string()
+    .trim()
+    .max(20)
+    .optional()
+    .transform((v) => v || null),
 });
 export type NewStudy = z.infer<typeof NewStudy>;
 
-export type CreateStudyResult = { ok: true; study: Study } | { ok: false; fieldErrors: Record<string, string> };
+export type CreateStudyResult =
+  { ok: true; study: Study } | { ok: false; fieldErrors: Record<string, string> };
 
 export async function createStudy(actor: Actor, input: NewStudy): Promise<CreateStudyResult> {
   return writeTransaction(async (tx) => {
-    const [clash] = await tx.select({ id: t.studies.id }).from(t.studies).where(eq(t.studies.code, input.code)).limit(1);
-    if (clash) return { ok: false, fieldErrors: { code: `A study with the code ${input.code} already exists.` } };
+    const [clash] = await tx
+      .select({ id: t.studies.id })
+      .from(t.studies)
+      .where(eq(t.studies.code, input.code))
+      .limit(1);
+    if (clash)
+      return { ok: false, fieldErrors: { code: `A study with the code ${input.code} already exists.` } };
     const study: Study = { id: newId(), ...input, createdBy: actor.id, createdAt: new Date().toISOString() };
     await tx.insert(t.studies).values(study);
-    await appendAudit({ actor, action: "study.create", entityType: "study", entityId: study.id, studyId: study.id, after: input }, tx);
+    await appendAudit(
+      {
+        actor,
+        action: "study.create",
+        entityType: "study",
+        entityId: study.id,
+        studyId: study.id,
+        after: input,
+      },
+      tx,
+    );
     return { ok: true, study };
   });
 }

@@ -8,12 +8,7 @@ import { TableScroll } from "./table-scroll";
 import type { FigureKey } from "~/engine/checks";
 import { RerunFigure } from "./figures/rerun-figure";
 import { fmt, fmtCi, fmtP } from "~/shared/format";
-import {
-  CheckCard,
-  checkTally,
-  CoefficientTable,
-  type CheckCardData,
-} from "./rerun-results";
+import { CheckCard, checkTally, CoefficientTable, type CheckCardData } from "./rerun-results";
 
 interface RestrictedMeanRow {
   tau: number;
@@ -93,9 +88,7 @@ export function coxCheckFigure(
 }
 
 /** The figure addresses of a Cox results page, in page order. */
-export function coxPageFigures(
-  view: CoxView,
-): { figure: FigureKey; term?: string }[] {
+export function coxPageFigures(view: CoxView): { figure: FigureKey; term?: string }[] {
   return [
     ...view.checks.flatMap((c) => (c.figure ? (coxCheckFigure(view, c.figure) ?? []) : [])),
     ...view.figures,
@@ -113,37 +106,35 @@ export function ChiSquareTable({
 }) {
   return (
     <TableScroll label={caption}>
-    <table className="data-table">
-      <caption className="mb-1 text-left text-xs text-ink-soft">
-        {caption}
-      </caption>
-      <thead>
-        <tr>
-          <th scope="col">{first}</th>
-          <th scope="col" className="text-right">
-            Statistic (χ²)
-          </th>
-          <th scope="col" className="text-right">
-            Degrees of freedom
-          </th>
-          <th scope="col" className="text-right">
-            p
-          </th>
-        </tr>
-      </thead>
-      <tbody>
-        {rows.map((t) => (
-          <tr key={t.name}>
-            <th scope="row" className="text-left font-normal">
-              {t.name}
+      <table className="data-table">
+        <caption className="mb-1 text-left text-xs text-ink-soft">{caption}</caption>
+        <thead>
+          <tr>
+            <th scope="col">{first}</th>
+            <th scope="col" className="text-right">
+              Statistic (χ²)
             </th>
-            <td className="num text-right">{fmt(t.statistic, 2)}</td>
-            <td className="num text-right">{t.df}</td>
-            <td className="num text-right">{fmtP(t.p)}</td>
+            <th scope="col" className="text-right">
+              Degrees of freedom
+            </th>
+            <th scope="col" className="text-right">
+              p
+            </th>
           </tr>
-        ))}
-      </tbody>
-    </table>
+        </thead>
+        <tbody>
+          {rows.map((t) => (
+            <tr key={t.name}>
+              <th scope="row" className="text-left font-normal">
+                {t.name}
+              </th>
+              <td className="num text-right">{fmt(t.statistic, 2)}</td>
+              <td className="num text-right">{t.df}</td>
+              <td className="num text-right">{fmtP(t.p)}</td>
+            </tr>
+          ))}
+        </tbody>
+      </table>
     </TableScroll>
   );
 }
@@ -156,92 +147,103 @@ function RestrictedMeanSection({ rows }: { rows: NonNullable<CoxView["restricted
         Restricted mean survival time
       </h2>
       <TableScroll label="Restricted mean survival time by arm">
-      <table className="data-table">
-        <caption className="mb-1 text-left text-xs text-ink-soft">
-          Area under each arm&apos;s Kaplan–Meier curve up to τ (time units of the data), with its Greenwood-type SE; the difference with a Wald 95% interval. Above 0 means longer event-free time than the reference.
-        </caption>
-        <thead>
-          <tr>
-            <th scope="col">Comparison</th>
-            <th scope="col" className="text-right">τ</th>
-            <th scope="col" className="text-right">Arm (SE)</th>
-            <th scope="col" className="text-right">Reference (SE)</th>
-            <th scope="col" className="text-right">Difference</th>
-            <th scope="col" className="text-right">95% CI</th>
-            <th scope="col" className="text-right">p</th>
-          </tr>
-        </thead>
-        <tbody>
-          {rows.map((d) => (
-            <tr key={d.level}>
-              <th scope="row" className="text-left font-normal">
-                {d.level} vs {d.reference}
+        <table className="data-table">
+          <caption className="mb-1 text-left text-xs text-ink-soft">
+            Area under each arm&apos;s Kaplan–Meier curve up to τ (time units of the data), with its
+            Greenwood-type SE; the difference with a Wald 95% interval. Above 0 means longer event-free time
+            than the reference.
+          </caption>
+          <thead>
+            <tr>
+              <th scope="col">Comparison</th>
+              <th scope="col" className="text-right">
+                τ
               </th>
-              <td className="num text-right">{fmt(d.tau)}</td>
-              <td className="num text-right whitespace-nowrap">
-                {fmt(d.arm.mean)} ({fmt(d.arm.se)})
-              </td>
-              <td className="num text-right whitespace-nowrap">
-                {fmt(d.referenceArm.mean)} ({fmt(d.referenceArm.se)})
-              </td>
-              <td className="num text-right">{fmt(d.difference)}</td>
-              <td className="num text-right whitespace-nowrap">{fmtCi(d.lower, d.upper)}</td>
-              <td className="num text-right">{fmtP(d.p)}</td>
+              <th scope="col" className="text-right">
+                Arm (SE)
+              </th>
+              <th scope="col" className="text-right">
+                Reference (SE)
+              </th>
+              <th scope="col" className="text-right">
+                Difference
+              </th>
+              <th scope="col" className="text-right">
+                95% CI
+              </th>
+              <th scope="col" className="text-right">
+                p
+              </th>
             </tr>
-          ))}
-        </tbody>
-      </table>
+          </thead>
+          <tbody>
+            {rows.map((d) => (
+              <tr key={d.level}>
+                <th scope="row" className="text-left font-normal">
+                  {d.level} vs {d.reference}
+                </th>
+                <td className="num text-right">{fmt(d.tau)}</td>
+                <td className="num text-right whitespace-nowrap">
+                  {fmt(d.arm.mean)} ({fmt(d.arm.se)})
+                </td>
+                <td className="num text-right whitespace-nowrap">
+                  {fmt(d.referenceArm.mean)} ({fmt(d.referenceArm.se)})
+                </td>
+                <td className="num text-right">{fmt(d.difference)}</td>
+                <td className="num text-right whitespace-nowrap">{fmtCi(d.lower, d.upper)}</td>
+                <td className="num text-right">{fmtP(d.p)}</td>
+              </tr>
+            ))}
+          </tbody>
+        </table>
       </TableScroll>
     </section>
   );
 }
 
-export function HazardRatioTable({
-  ratios,
-  robust,
-}: {
-  ratios: CoxView["ratios"];
-  robust: boolean;
-}) {
+export function HazardRatioTable({ ratios, robust }: { ratios: CoxView["ratios"]; robust: boolean }) {
   return (
     <TableScroll label="Hazard ratio table">
-    <table className="data-table">
-      <caption className="mb-1 text-left text-xs text-ink-soft">
-        Hazard ratio exp(β) with its 95%{" "}
-        {robust ? "robust (sandwich) " : ""}Wald interval; below 1 means
-        fewer events than the reference.
-      </caption>
-      <thead>
-        <tr>
-          <th scope="col">Coefficient</th>
-          <th scope="col" className="text-right">
-            Hazard ratio
-          </th>
-          <th scope="col" className="text-right">
-            95% CI
-          </th>
-        </tr>
-      </thead>
-      <tbody>
-        {ratios.map((r) => (
-          <tr key={r.name}>
-            <th scope="row" className="text-left font-normal">
-              {r.name}
+      <table className="data-table">
+        <caption className="mb-1 text-left text-xs text-ink-soft">
+          Hazard ratio exp(β) with its 95% {robust ? "robust (sandwich) " : ""}Wald interval; below 1 means
+          fewer events than the reference.
+        </caption>
+        <thead>
+          <tr>
+            <th scope="col">Coefficient</th>
+            <th scope="col" className="text-right">
+              Hazard ratio
             </th>
-            <td className="num text-right">{fmt(r.ratio)}</td>
-            <td className="num text-right whitespace-nowrap">
-              {fmtCi(r.lower, r.upper)}
-            </td>
+            <th scope="col" className="text-right">
+              95% CI
+            </th>
           </tr>
-        ))}
-      </tbody>
-    </table>
+        </thead>
+        <tbody>
+          {ratios.map((r) => (
+            <tr key={r.name}>
+              <th scope="row" className="text-left font-normal">
+                {r.name}
+              </th>
+              <td className="num text-right">{fmt(r.ratio)}</td>
+              <td className="num text-right whitespace-nowrap">{fmtCi(r.lower, r.upper)}</td>
+            </tr>
+          ))}
+        </tbody>
+      </table>
     </TableScroll>
   );
 }
 
 /** The model's tests and the proportional-hazards test per term and global, side by side. */
-function CoxTestTables({ tests, proportionalHazards }: { tests: CoxView["tests"]; proportionalHazards: CoxView["proportionalHazards"] }) {
+function CoxTestTables({
+  tests,
+  proportionalHazards,
+}: {
+  tests: CoxView["tests"];
+  proportionalHazards: CoxView["proportionalHazards"];
+}) {
   return (
     <div className="grid gap-4 lg:grid-cols-2">
       <ChiSquareTable caption="Tests of the model against no covariate effect." rows={tests} first="Test" />
@@ -274,15 +276,7 @@ export function CoxReportTables({
   );
 }
 
-export function CoxResults({
-  view,
-  studyId,
-  rerunId,
-}: {
-  view: CoxView;
-  studyId: string;
-  rerunId: string;
-}) {
+export function CoxResults({ view, studyId, rerunId }: { view: CoxView; studyId: string; rerunId: string }) {
   const figure = (f: { figure: FigureKey; term?: string }) => (
     <RerunFigure
       key={`${f.figure}:${f.term ?? ""}`}
@@ -299,14 +293,12 @@ export function CoxResults({
           Rows
         </h2>
         <p className="num text-sm">
-          {view.rows.inFile} rows in the file · {view.rows.outsidePopulation}{" "}
-          outside the population
-          {populationNote(view.population)}{" "}
-          · {view.rows.excludedByOption} excluded by this analysis ·{" "}
+          {view.rows.inFile} rows in the file · {view.rows.outsidePopulation} outside the population
+          {populationNote(view.population)} · {view.rows.excludedByOption} excluded by this analysis ·{" "}
           {view.rows.missingCells} left out for missing cells ·{" "}
-          <span className="font-semibold">{view.rows.used} used</span> ·{" "}
-          {view.fit.events} events · {fmt(view.fit.eventsPerCoefficient, 1)}{" "}
-          events per coefficient · concordance {fmt(view.fit.concordance)}
+          <span className="font-semibold">{view.rows.used} used</span> · {view.fit.events} events ·{" "}
+          {fmt(view.fit.eventsPerCoefficient, 1)} events per coefficient · concordance{" "}
+          {fmt(view.fit.concordance)}
           {view.strata.length ? ` · ${view.strata.length} strata` : ""}
         </p>
         <p className="mt-1 text-xs text-ink-soft">{view.method}</p>
@@ -349,13 +341,7 @@ export function CoxResults({
         <p className="text-sm text-ink-soft">{checkTally(view.checks)}</p>
         {view.checks.map((c) => {
           const f = c.figure ? coxCheckFigure(view, c.figure) : null;
-          return (
-            <CheckCard
-              key={c.key}
-              check={c}
-              figure={f ? figure(f) : undefined}
-            />
-          );
+          return <CheckCard key={c.key} check={c} figure={f ? figure(f) : undefined} />;
         })}
       </section>
 
@@ -364,13 +350,10 @@ export function CoxResults({
           Survival by arm and the model's residuals
         </h2>
         <p className="mb-2 text-xs text-ink-soft">
-          Kaplan–Meier curves and log(−log S) by arm; scaled Schoenfeld
-          residuals per coefficient; martingale residuals per continuous
-          covariate; influence on the treatment effect.
+          Kaplan–Meier curves and log(−log S) by arm; scaled Schoenfeld residuals per coefficient; martingale
+          residuals per continuous covariate; influence on the treatment effect.
         </p>
-        <div className="grid gap-4 lg:grid-cols-2">
-          {view.figures.map(figure)}
-        </div>
+        <div className="grid gap-4 lg:grid-cols-2">{view.figures.map(figure)}</div>
       </section>
     </>
   );

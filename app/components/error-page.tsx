@@ -11,7 +11,10 @@ const COPY: Record<number, { title: string; body: string }> = {
     title: "Nothing here",
     body: "There is no page at this address. The study or record may have been mistyped, or you followed an old link.",
   },
-  413: { title: "That request was too large", body: "Send a smaller request, or use the dataset upload form for large files." },
+  413: {
+    title: "That request was too large",
+    body: "Send a smaller request, or use the dataset upload form for large files.",
+  },
   500: {
     title: "Plumbline could not finish that request",
     body: "Nothing you saved was lost. Try again in a moment; if it keeps happening, tell your Plumbline administrator the time it happened.",

@@ -1,10 +1,20 @@
 import type { ReactNode } from "react";
 
-export function PageHeader({ title, eyebrow, children }: { title: string; eyebrow?: string; children?: ReactNode }) {
+export function PageHeader({
+  title,
+  eyebrow,
+  children,
+}: {
+  title: string;
+  eyebrow?: string;
+  children?: ReactNode;
+}) {
   return (
     <header className="mb-6 flex flex-wrap items-end justify-between gap-4 border-b border-rule pb-4">
       <div>
-        {eyebrow ? <p className="text-xs font-semibold uppercase tracking-wide text-ink-soft">{eyebrow}</p> : null}
+        {eyebrow ? (
+          <p className="text-xs font-semibold uppercase tracking-wide text-ink-soft">{eyebrow}</p>
+        ) : null}
         <h1>{title}</h1>
       </div>
       {children ? <div className="flex items-center gap-2">{children}</div> : null}

@@ -28,7 +28,13 @@ const LEGENDS: Record<keyof typeof CHOICES, string> = {
   multiplicity: "Multiplicity adjustment of the contrasts' p-values",
 };
 
-export function TreatmentEffectSection({ initial, errors }: { initial: { means: string; contrasts: string; multiplicity: string }; errors: Record<string, string> }) {
+export function TreatmentEffectSection({
+  initial,
+  errors,
+}: {
+  initial: { means: string; contrasts: string; multiplicity: string };
+  errors: Record<string, string>;
+}) {
   return (
     <div className="mt-4 grid gap-3 md:grid-cols-3">
       {(Object.keys(CHOICES) as (keyof typeof CHOICES)[]).map((field) => (
@@ -37,7 +43,12 @@ export function TreatmentEffectSection({ initial, errors }: { initial: { means: 
           <div className="space-y-1">
             {CHOICES[field].map(([value, words]) => (
               <label key={value} className="flex items-center gap-2 text-sm">
-                <input type="radio" name={field} value={value} defaultChecked={(initial[field] || CHOICES[field][0][0]) === value} />
+                <input
+                  type="radio"
+                  name={field}
+                  value={value}
+                  defaultChecked={(initial[field] || CHOICES[field][0][0]) === value}
+                />
                 {words}
               </label>
             ))}

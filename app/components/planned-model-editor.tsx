@@ -68,7 +68,17 @@ const LINKS: Record<string, string[]> = {
   poisson: ["log"],
 };
 
-function Select({ id, name, label, value, onChange, options, error, hint, placeholder }: {
+function Select({
+  id,
+  name,
+  label,
+  value,
+  onChange,
+  options,
+  error,
+  hint,
+  placeholder,
+}: {
   id: string;
   name: string;
   label: string;
@@ -88,7 +98,9 @@ function Select({ id, name, label, value, onChange, options, error, hint, placeh
         id={id}
         name={name}
         className="field"
-        {...(onChange ? { value, onChange: (e: React.ChangeEvent<HTMLSelectElement>) => onChange(e.target.value) } : { defaultValue: value })}
+        {...(onChange
+          ? { value, onChange: (e: React.ChangeEvent<HTMLSelectElement>) => onChange(e.target.value) }
+          : { defaultValue: value })}
         aria-invalid={error ? true : undefined}
         aria-describedby={error ? `${id}-error` : hint ? `${id}-hint` : undefined}
       >
@@ -123,14 +135,28 @@ function Section({ title, children, note }: { title: string; note?: string; chil
  * The planned-model form: every term is picked from the dataset's columns (no formula
  * language). Field names are what `readPlannedModelForm` reads on the server.
  */
-export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, isNew }: { initial: EditorForm; errors: Record<string, string>; datasets: EditorDataset[]; checkCatalogue: CheckInfo[]; isNew: boolean }) {
+export function PlannedModelEditor({
+  initial,
+  errors,
+  datasets,
+  checkCatalogue,
+  isNew,
+}: {
+  initial: EditorForm;
+  errors: Record<string, string>;
+  datasets: EditorDataset[];
+  checkCatalogue: CheckInfo[];
+  isNew: boolean;
+}) {
   const [datasetName, setDatasetName] = useState(initial.datasetName || datasets[0]?.name || "");
   const [family, setFamily] = useState(initial.family || "gaussian");
   const [response, setResponse] = useState(initial.response);
   const [treatment, setTreatment] = useState(initial.treatment);
   const [reference, setReference] = useState(initial.treatmentReference);
   const [covariates, setCovariates] = useState(() => new Map(initial.covariates.map((c) => [c.variable, c])));
-  const [interactions, setInteractions] = useState(() => new Set(initial.interactions.map((i) => i.join("|"))));
+  const [interactions, setInteractions] = useState(
+    () => new Set(initial.interactions.map((i) => i.join("|"))),
+  );
   const sens = new Map(initial.sensitivity.map((s) => [s.kind, s]));
   /** Only the checks and sensitivity analyses that apply to the family are offered (family-applicability.ts). */
   const offered = (kind: SensitivityKind) => sensitivityApplies(kind, family);
@@ -139,23 +165,35 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
   const columns = dataset?.columns ?? [];
   const col = (name: string) => columns.find((c) => c.name === name);
   const colOptions = (filter: (c: EditorColumn) => boolean = () => true) =>
-    columns.filter(filter).map((c) => ({ value: c.name, label: c.label ? `${c.name} · ${c.label}` : c.name }));
-  const levels = (name: string) => (col(name)?.levels ?? []).map((l) => ({ value: l.value, label: `${l.value} (n = ${l.count})` }));
-  const categoricalColumns = (c: EditorColumn) => Boolean(c.levels && c.levels.length >= 2 && c.levels.length <= 12);
+    columns
+      .filter(filter)
+      .map((c) => ({ value: c.name, label: c.label ? `${c.name} · ${c.label}` : c.name }));
+  const levels = (name: string) =>
+    (col(name)?.levels ?? []).map((l) => ({ value: l.value, label: `${l.value} (n = ${l.count})` }));
+  const categoricalColumns = (c: EditorColumn) =>
+    Boolean(c.levels && c.levels.length >= 2 && c.levels.length <= 12);
 
-  const candidateCovariates = columns.filter((c) => c.name !== response && c.name !== treatment && c.type !== "date" && c.type !== "datetime");
+  const candidateCovariates = columns.filter(
+    (c) => c.name !== response && c.name !== treatment && c.type !== "date" && c.type !== "datetime",
+  );
   const included = [...covariates.keys()].filter((v) => candidateCovariates.some((c) => c.name === v));
   const interactionChoices = useMemo(() => {
     const vars = [...(treatment ? [treatment] : []), ...included];
     const out: string[][] = [];
-    for (let i = 0; i < vars.length; i++) for (let j = i + 1; j < vars.length; j++) out.push([vars[i], vars[j]]);
+    for (let i = 0; i < vars.length; i++)
+      for (let j = i + 1; j < vars.length; j++) out.push([vars[i], vars[j]]);
     return out;
     // eslint-disable-next-line react-hooks/exhaustive-deps -- keyed by the names included, not the array's identity
   }, [treatment, included.join("|")]);
 
   const toggleCovariate = (name: string, on: boolean) => {
     const next = new Map(covariates);
-    if (on) next.set(name, { variable: name, categorical: col(name)?.type !== "number" ? true : null, reference: "" });
+    if (on)
+      next.set(name, {
+        variable: name,
+        categorical: col(name)?.type !== "number" ? true : null,
+        reference: "",
+      });
     else next.delete(name);
     setCovariates(next);
   };
@@ -174,14 +212,30 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
             <label htmlFor="pm-key" className="label">
               Key
             </label>
-            <input id="pm-key" name="key" defaultValue={initial.key} className="field font-mono" placeholder="primary" aria-invalid={errors.key ? true : undefined} aria-describedby="pm-key-error" />
+            <input
+              id="pm-key"
+              name="key"
+              defaultValue={initial.key}
+              className="field font-mono"
+              placeholder="primary"
+              aria-invalid={errors.key ? true : undefined}
+              aria-describedby="pm-key-error"
+            />
             <FieldError id="pm-key-error" message={errors.key} />
           </div>
           <div>
             <label htmlFor="pm-title" className="label">
               Title
             </label>
-            <input id="pm-title" name="title" defaultValue={initial.title} className="field" placeholder="Primary efficacy: change from baseline at week 12" aria-invalid={errors.title ? true : undefined} aria-describedby="pm-title-error" />
+            <input
+              id="pm-title"
+              name="title"
+              defaultValue={initial.title}
+              className="field"
+              placeholder="Primary efficacy: change from baseline at week 12"
+              aria-invalid={errors.title ? true : undefined}
+              aria-describedby="pm-title-error"
+            />
             <FieldError id="pm-title-error" message={errors.title} />
           </div>
         </div>
@@ -195,29 +249,109 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
             label="Locked dataset"
             value={datasetName}
             onChange={setDatasetName}
-            options={datasets.map((d) => ({ value: d.name, label: `${d.name} (locked v${d.version}, ${d.rowCount} rows)` }))}
+            options={datasets.map((d) => ({
+              value: d.name,
+              label: `${d.name} (locked v${d.version}, ${d.rowCount} rows)`,
+            }))}
             error={errors.datasetName}
             hint="A rerun reads any locked version of this dataset."
           />
         </div>
-        <PopulationSection key={datasetName} initial={datasetName === initial.datasetName ? initial.population : []} columns={columns} errors={errors} />
+        <PopulationSection
+          key={datasetName}
+          initial={datasetName === initial.datasetName ? initial.population : []}
+          columns={columns}
+          errors={errors}
+        />
       </Section>
 
       <Section title="Endpoint and model">
         <div className="grid gap-3 md:grid-cols-3">
-          <Select id="pm-response" name="response" label={family === "cox" ? "Follow-up time (event or censoring)" : "Endpoint (response)"} value={response} onChange={setResponse} options={colOptions()} placeholder="Choose a column" error={errors.response} />
-          <Select id="pm-family" name="family" label="Family" value={family} onChange={setFamily} error={errors.family} options={[{ value: "gaussian", label: "Normal (linear model)" }, { value: "binomial", label: "Binomial (responder)" }, { value: "poisson", label: "Poisson (counts)" }, { value: "cox", label: "Time to event (Cox proportional hazards)" }]} />
-          {family === "cox" ? <p className="self-end pb-2 text-xs text-ink-soft">Log hazard ratios by partial likelihood; no link to choose.</p> : <Select id="pm-link" name="link" label="Link" value={LINKS[family]?.includes(initial.link) ? initial.link : ""} options={(LINKS[family] ?? []).map((l) => ({ value: l, label: linkWords(l) }))} placeholder="Canonical" />}
+          <Select
+            id="pm-response"
+            name="response"
+            label={family === "cox" ? "Follow-up time (event or censoring)" : "Endpoint (response)"}
+            value={response}
+            onChange={setResponse}
+            options={colOptions()}
+            placeholder="Choose a column"
+            error={errors.response}
+          />
+          <Select
+            id="pm-family"
+            name="family"
+            label="Family"
+            value={family}
+            onChange={setFamily}
+            error={errors.family}
+            options={[
+              { value: "gaussian", label: "Normal (linear model)" },
+              { value: "binomial", label: "Binomial (responder)" },
+              { value: "poisson", label: "Poisson (counts)" },
+              { value: "cox", label: "Time to event (Cox proportional hazards)" },
+            ]}
+          />
+          {family === "cox" ? (
+            <p className="self-end pb-2 text-xs text-ink-soft">
+              Log hazard ratios by partial likelihood; no link to choose.
+            </p>
+          ) : (
+            <Select
+              id="pm-link"
+              name="link"
+              label="Link"
+              value={LINKS[family]?.includes(initial.link) ? initial.link : ""}
+              options={(LINKS[family] ?? []).map((l) => ({ value: l, label: linkWords(l) }))}
+              placeholder="Canonical"
+            />
+          )}
         </div>
         <div className="mt-3 grid gap-3 md:grid-cols-3">
-          <Select id="pm-treatment" name="treatment" label="Treatment variable" value={treatment} onChange={(v) => { setTreatment(v); setReference(""); }} options={colOptions(categoricalColumns)} placeholder="No treatment term" error={errors.treatment} />
-          <Select id="pm-reference" name="treatmentReference" label="Reference arm" value={reference} onChange={setReference} options={levels(treatment)} placeholder={treatment ? "Choose the reference arm" : "—"} error={errors.treatmentReference} />
-          <Select id="pm-id" name="id" label="Subject identifier" value={initial.id} options={colOptions()} placeholder="None" error={errors.id} hint="Shown beside influential subjects; a subject in two analysed rows is refused." />
+          <Select
+            id="pm-treatment"
+            name="treatment"
+            label="Treatment variable"
+            value={treatment}
+            onChange={(v) => {
+              setTreatment(v);
+              setReference("");
+            }}
+            options={colOptions(categoricalColumns)}
+            placeholder="No treatment term"
+            error={errors.treatment}
+          />
+          <Select
+            id="pm-reference"
+            name="treatmentReference"
+            label="Reference arm"
+            value={reference}
+            onChange={setReference}
+            options={levels(treatment)}
+            placeholder={treatment ? "Choose the reference arm" : "—"}
+            error={errors.treatmentReference}
+          />
+          <Select
+            id="pm-id"
+            name="id"
+            label="Subject identifier"
+            value={initial.id}
+            options={colOptions()}
+            placeholder="None"
+            error={errors.id}
+            hint="Shown beside influential subjects; a subject in two analysed rows is refused."
+          />
         </div>
         {family === "cox" ? null : <TreatmentEffectSection initial={initial} errors={errors} />}
       </Section>
 
-      {family === "cox" ? <SurvivalSection initial={initial.survival} columns={columns} exclude={[response, treatment]} errors={errors} /> : null}
+      {family === "cox" ? (
+        <SurvivalSection
+          initial={initial.survival}
+          columns={columns}
+          exclude={[response, treatment]}
+          errors={errors}
+        />
+      ) : null}
 
       <Section
         title="Pre-specified covariates"
@@ -240,7 +374,14 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
               return (
                 <tr key={c.name}>
                   <td>
-                    <input type="checkbox" id={`cov-${c.name}`} name="covariate" value={c.name} checked={Boolean(chosen)} onChange={(e) => toggleCovariate(c.name, e.target.checked)} />
+                    <input
+                      type="checkbox"
+                      id={`cov-${c.name}`}
+                      name="covariate"
+                      value={c.name}
+                      checked={Boolean(chosen)}
+                      onChange={(e) => toggleCovariate(c.name, e.target.checked)}
+                    />
                   </td>
                   <td>
                     <label htmlFor={`cov-${c.name}`} className="font-medium">
@@ -252,7 +393,10 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
                   <td className="text-xs">
                     {c.type}
                     {c.looksCategorical ? (
-                      <span className="block text-ink-soft" title={`Looks categorical: ${c.looksCategorical}`}>
+                      <span
+                        className="block text-ink-soft"
+                        title={`Looks categorical: ${c.looksCategorical}`}
+                      >
                         looks categorical ({c.looksCategorical})
                       </span>
                     ) : null}
@@ -264,8 +408,14 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
                         name={`as:${c.name}`}
                         className="field w-auto py-1"
                         aria-required="true"
-                        value={chosen.categorical === null ? "" : chosen.categorical ? "categorical" : "continuous"}
-                        onChange={(e) => setCovariate(c.name, { categorical: e.target.value === "" ? null : e.target.value === "categorical" })}
+                        value={
+                          chosen.categorical === null ? "" : chosen.categorical ? "categorical" : "continuous"
+                        }
+                        onChange={(e) =>
+                          setCovariate(c.name, {
+                            categorical: e.target.value === "" ? null : e.target.value === "categorical",
+                          })
+                        }
                         aria-invalid={err ? true : undefined}
                         aria-describedby={err ? `cov-${c.name}-error` : undefined}
                       >
@@ -274,14 +424,28 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
                         <option value="continuous">Continuous</option>
                       </select>
                     ) : chosen && c.type === "number" ? (
-                      <input type="checkbox" aria-label={`Treat ${c.name} as categorical`} name={`categorical:${c.name}`} checked={chosen.categorical === true} onChange={(e) => setCovariate(c.name, { categorical: e.target.checked ? true : null })} />
+                      <input
+                        type="checkbox"
+                        aria-label={`Treat ${c.name} as categorical`}
+                        name={`categorical:${c.name}`}
+                        checked={chosen.categorical === true}
+                        onChange={(e) =>
+                          setCovariate(c.name, { categorical: e.target.checked ? true : null })
+                        }
+                      />
                     ) : chosen ? (
                       <span className="text-xs text-ink-soft">always</span>
                     ) : null}
                   </td>
                   <td>
                     {chosen && (chosen.categorical === true || c.type !== "number") ? (
-                      <select aria-label={`Reference level of ${c.name}`} name={`reference:${c.name}`} className="field w-auto py-1" value={chosen.reference} onChange={(e) => setCovariate(c.name, { reference: e.target.value })}>
+                      <select
+                        aria-label={`Reference level of ${c.name}`}
+                        name={`reference:${c.name}`}
+                        className="field w-auto py-1"
+                        value={chosen.reference}
+                        onChange={(e) => setCovariate(c.name, { reference: e.target.value })}
+                      >
                         <option value="">First level</option>
                         {(c.levels ?? []).map((l) => (
                           <option key={l.value} value={l.value}>
@@ -306,7 +470,18 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
                 const k = pair.join("|");
                 return (
                   <label key={k} className="inline-flex items-center gap-1.5 text-sm">
-                    <input type="checkbox" name="interaction" value={k} checked={interactions.has(k)} onChange={(e) => { const next = new Set(interactions); if (e.target.checked) next.add(k); else next.delete(k); setInteractions(next); }} />
+                    <input
+                      type="checkbox"
+                      name="interaction"
+                      value={k}
+                      checked={interactions.has(k)}
+                      onChange={(e) => {
+                        const next = new Set(interactions);
+                        if (e.target.checked) next.add(k);
+                        else next.delete(k);
+                        setInteractions(next);
+                      }}
+                    />
                     {interactionName(pair)}
                   </label>
                 );
@@ -316,8 +491,25 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
           <FieldError id="pm-interactions-error" message={errors.interactions} />
         </div>
         <div className="mt-4 grid gap-3 md:grid-cols-2">
-          <Select id="pm-weights" name="weights" label="Prior weights" value={initial.weights} options={colOptions((c) => c.type === "number")} placeholder="None" error={errors.weights} />
-          <Select id="pm-offset" name="offset" label="Offset" value={initial.offset} options={colOptions((c) => c.type === "number")} placeholder="None" error={errors.offset} hint="For counts: the log of exposure time." />
+          <Select
+            id="pm-weights"
+            name="weights"
+            label="Prior weights"
+            value={initial.weights}
+            options={colOptions((c) => c.type === "number")}
+            placeholder="None"
+            error={errors.weights}
+          />
+          <Select
+            id="pm-offset"
+            name="offset"
+            label="Offset"
+            value={initial.offset}
+            options={colOptions((c) => c.type === "number")}
+            placeholder="None"
+            error={errors.offset}
+            hint="For counts: the log of exposure time."
+          />
         </div>
       </Section>
 
@@ -327,12 +519,20 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
           family={family}
           arms={levels(treatment).map((l) => l.value)}
           reference={reference}
-          terms={[...(treatment ? [treatment] : []), ...included].map((v) => ({ variable: v, categorical: v === treatment || covariates.get(v)?.categorical === true || col(v)?.type !== "number", levels: levels(v).map((l) => l.value) }))}
+          terms={[...(treatment ? [treatment] : []), ...included].map((v) => ({
+            variable: v,
+            categorical:
+              v === treatment || covariates.get(v)?.categorical === true || col(v)?.type !== "number",
+            levels: levels(v).map((l) => l.value),
+          }))}
           errors={errors}
         />
       )}
 
-      <Section title="Checks" note="Each check ends as within plan or as a finding. Defaults come from common practice; the source is given. Edit a threshold where the SAP states another.">
+      <Section
+        title="Checks"
+        note="Each check ends as within plan or as a finding. Defaults come from common practice; the source is given. Edit a threshold where the SAP states another."
+      >
         <table className="data-table">
           <thead>
             <tr>
@@ -343,98 +543,204 @@ export function PlannedModelEditor({ initial, errors, datasets, checkCatalogue, 
             </tr>
           </thead>
           <tbody key={family}>
-            {checkCatalogue.filter((c) => checkApplies(c, family, Boolean(treatment))).map((c) => {
-              // A new model, or one given another family, starts with every check that applies to its family.
-              const current = isNew || family !== initial.family ? { ...(initial.checks.find((x) => x.key === c.key) ?? {}), enabled: true } : initial.checks.find((x) => x.key === c.key);
-              const err = errors[`check:${c.key}:threshold`];
-              return (
-                <tr key={c.key}>
-                  <td>
-                    <input type="checkbox" id={`chk-${c.key}`} name={`check:${c.key}:enabled`} defaultChecked={current?.enabled ?? false} />
-                  </td>
-                  <td>
-                    <label htmlFor={`chk-${c.key}`} className="font-medium">
-                      {c.label}
-                    </label>
-                    <span className="block text-xs text-ink-soft">
-                      {c.rule}. Default from {c.source}.{c.models === "both" ? "" : c.models === "linear" ? " Linear models." : c.models === "cox" ? " Time-to-event (Cox) models." : " Generalized linear models."}
-                    </span>
-                  </td>
-                  <td>
-                    <input aria-label={`Threshold for ${c.label}`} name={`check:${c.key}:threshold`} inputMode="decimal" className="field num w-24" defaultValue={String(Number((current?.threshold ?? c.defaultThreshold).toPrecision(6)))} aria-invalid={err ? true : undefined} />
-                    <FieldError id={`chk-${c.key}-error`} message={err} />
-                  </td>
-                  <td>
-                    <input aria-label={`Planned remedy for ${c.label}`} name={`check:${c.key}:remedy`} className="field text-xs" defaultValue={current?.remedy ?? c.defaultRemedy} />
-                  </td>
-                </tr>
-              );
-            })}
+            {checkCatalogue
+              .filter((c) => checkApplies(c, family, Boolean(treatment)))
+              .map((c) => {
+                // A new model, or one given another family, starts with every check that applies to its family.
+                const current =
+                  isNew || family !== initial.family
+                    ? { ...(initial.checks.find((x) => x.key === c.key) ?? {}), enabled: true }
+                    : initial.checks.find((x) => x.key === c.key);
+                const err = errors[`check:${c.key}:threshold`];
+                return (
+                  <tr key={c.key}>
+                    <td>
+                      <input
+                        type="checkbox"
+                        id={`chk-${c.key}`}
+                        name={`check:${c.key}:enabled`}
+                        defaultChecked={current?.enabled ?? false}
+                      />
+                    </td>
+                    <td>
+                      <label htmlFor={`chk-${c.key}`} className="font-medium">
+                        {c.label}
+                      </label>
+                      <span className="block text-xs text-ink-soft">
+                        {c.rule}. Default from {c.source}.
+                        {c.models === "both"
+                          ? ""
+                          : c.models === "linear"
+                            ? " Linear models."
+                            : c.models === "cox"
+                              ? " Time-to-event (Cox) models."
+                              : " Generalized linear models."}
+                      </span>
+                    </td>
+                    <td>
+                      <input
+                        aria-label={`Threshold for ${c.label}`}
+                        name={`check:${c.key}:threshold`}
+                        inputMode="decimal"
+                        className="field num w-24"
+                        defaultValue={String(
+                          Number((current?.threshold ?? c.defaultThreshold).toPrecision(6)),
+                        )}
+                        aria-invalid={err ? true : undefined}
+                      />
+                      <FieldError id={`chk-${c.key}-error`} message={err} />
+                    </td>
+                    <td>
+                      <input
+                        aria-label={`Planned remedy for ${c.label}`}
+                        name={`check:${c.key}:remedy`}
+                        className="field text-xs"
+                        defaultValue={current?.remedy ?? c.defaultRemedy}
+                      />
+                    </td>
+                  </tr>
+                );
+              })}
           </tbody>
         </table>
       </Section>
 
-      <Section title="Planned sensitivity analyses" note="Each runs by itself once the primary analysis has completed, and sits beside it so its effect on the treatment estimate is visible at a glance.">
+      <Section
+        title="Planned sensitivity analyses"
+        note="Each runs by itself once the primary analysis has completed, and sits beside it so its effect on the treatment estimate is visible at a glance."
+      >
         <div className="space-y-2 text-sm">
           {offered("robust_hc3") ? (
             <label className="flex items-center gap-2">
-              <input type="checkbox" name="sensitivity:robust_hc3" defaultChecked={sens.has("robust_hc3")} /> Robust (HC3) standard errors{family === "gaussian" ? "" : " (sandwich covariance of the coefficients)"}
+              <input type="checkbox" name="sensitivity:robust_hc3" defaultChecked={sens.has("robust_hc3")} />{" "}
+              Robust (HC3) standard errors
+              {family === "gaussian" ? "" : " (sandwich covariance of the coefficients)"}
             </label>
           ) : null}
           {offered("variance_function") ? (
-          <div className="flex flex-wrap items-center gap-2">
-            <label className="flex items-center gap-2">
-              <input type="checkbox" name="sensitivity:variance_function" defaultChecked={sens.has("variance_function")} /> Weighted fit with an estimated variance function, depending on
-            </label>
-            <select aria-label="What the variance depends on" name="sensitivity:varianceBy" className="field w-auto py-1" defaultValue={sens.get("variance_function")?.varianceBy ?? "fitted"}>
-              <option value="fitted">the fitted values</option>
-              <option value="treatment">the treatment arm</option>
-            </select>
-            <FieldError id="sens-var-error" message={errors["sensitivity:varianceBy"]} />
-          </div>
+            <div className="flex flex-wrap items-center gap-2">
+              <label className="flex items-center gap-2">
+                <input
+                  type="checkbox"
+                  name="sensitivity:variance_function"
+                  defaultChecked={sens.has("variance_function")}
+                />{" "}
+                Weighted fit with an estimated variance function, depending on
+              </label>
+              <select
+                aria-label="What the variance depends on"
+                name="sensitivity:varianceBy"
+                className="field w-auto py-1"
+                defaultValue={sens.get("variance_function")?.varianceBy ?? "fitted"}
+              >
+                <option value="fitted">the fitted values</option>
+                <option value="treatment">the treatment arm</option>
+              </select>
+              <FieldError id="sens-var-error" message={errors["sensitivity:varianceBy"]} />
+            </div>
           ) : null}
           {offered("exclude_influential") ? (
             <label className="flex items-center gap-2">
-              <input type="checkbox" name="sensitivity:exclude_influential" defaultChecked={sens.has("exclude_influential")} /> Excluding the subjects flagged by the Cook's distance check
+              <input
+                type="checkbox"
+                name="sensitivity:exclude_influential"
+                defaultChecked={sens.has("exclude_influential")}
+              />{" "}
+              Excluding the subjects flagged by the Cook's distance check
             </label>
           ) : null}
           {offered("quasi_poisson") ? (
             <>
               <label className="flex items-center gap-2">
-                <input type="checkbox" name="sensitivity:quasi_poisson" defaultChecked={sens.has("quasi_poisson")} /> Counts: quasi-Poisson (dispersion estimated)
+                <input
+                  type="checkbox"
+                  name="sensitivity:quasi_poisson"
+                  defaultChecked={sens.has("quasi_poisson")}
+                />{" "}
+                Counts: quasi-Poisson (dispersion estimated)
               </label>
               <label className="flex items-center gap-2">
-                <input type="checkbox" name="sensitivity:negative_binomial" defaultChecked={sens.has("negative_binomial")} /> Counts: negative binomial (NB2, θ by maximum likelihood)
+                <input
+                  type="checkbox"
+                  name="sensitivity:negative_binomial"
+                  defaultChecked={sens.has("negative_binomial")}
+                />{" "}
+                Counts: negative binomial (NB2, θ by maximum likelihood)
               </label>
             </>
           ) : null}
           {offered("cox_rmst") ? (
             <>
               <label className="flex items-center gap-2">
-                <input type="checkbox" name="sensitivity:cox_robust_subject" defaultChecked={sens.has("cox_robust_subject")} /> Time to event: robust (sandwich) standard errors, clustered by subject
+                <input
+                  type="checkbox"
+                  name="sensitivity:cox_robust_subject"
+                  defaultChecked={sens.has("cox_robust_subject")}
+                />{" "}
+                Time to event: robust (sandwich) standard errors, clustered by subject
               </label>
               <label className="flex items-center gap-2">
-                <input type="checkbox" name="sensitivity:cox_unstratified" defaultChecked={sens.has("cox_unstratified")} /> Time to event: unstratified (one baseline hazard for all subjects)
+                <input
+                  type="checkbox"
+                  name="sensitivity:cox_unstratified"
+                  defaultChecked={sens.has("cox_unstratified")}
+                />{" "}
+                Time to event: unstratified (one baseline hazard for all subjects)
               </label>
               <div className="flex flex-wrap items-center gap-2">
                 <label className="flex items-center gap-2">
-                  <input type="checkbox" name="sensitivity:cox_rmst" defaultChecked={sens.has("cox_rmst")} /> Time to event: restricted mean survival time difference between arms, up to the horizon τ =
+                  <input type="checkbox" name="sensitivity:cox_rmst" defaultChecked={sens.has("cox_rmst")} />{" "}
+                  Time to event: restricted mean survival time difference between arms, up to the horizon τ =
                 </label>
-                <input aria-label="Horizon τ of the restricted mean, in the units of the follow-up time" name="sensitivity:tau" inputMode="decimal" className="field num w-24 py-1" defaultValue={sens.get("cox_rmst")?.tau ?? ""} aria-invalid={errors["sensitivity:tau"] ? true : undefined} aria-describedby={errors["sensitivity:tau"] ? "sens-tau-error" : undefined} />
+                <input
+                  aria-label="Horizon τ of the restricted mean, in the units of the follow-up time"
+                  name="sensitivity:tau"
+                  inputMode="decimal"
+                  className="field num w-24 py-1"
+                  defaultValue={sens.get("cox_rmst")?.tau ?? ""}
+                  aria-invalid={errors["sensitivity:tau"] ? true : undefined}
+                  aria-describedby={errors["sensitivity:tau"] ? "sens-tau-error" : undefined}
+                />
                 <FieldError id="sens-tau-error" message={errors["sensitivity:tau"]} />
               </div>
             </>
           ) : null}
-          <FieldError id="sens-family-error" message={errors["sensitivity:quasi_poisson"] ?? errors["sensitivity:negative_binomial"] ?? errors["sensitivity:robust_hc3"] ?? errors["sensitivity:variance_function"] ?? errors["sensitivity:cox_robust_subject"] ?? errors["sensitivity:cox_unstratified"] ?? errors["sensitivity:exclude_influential"]} />
+          <FieldError
+            id="sens-family-error"
+            message={
+              errors["sensitivity:quasi_poisson"] ??
+              errors["sensitivity:negative_binomial"] ??
+              errors["sensitivity:robust_hc3"] ??
+              errors["sensitivity:variance_function"] ??
+              errors["sensitivity:cox_robust_subject"] ??
+              errors["sensitivity:cox_unstratified"] ??
+              errors["sensitivity:exclude_influential"]
+            }
+          />
           <div>
             <label className="flex items-center gap-2">
-              <input type="checkbox" name="sensitivity:alternative_covariates" defaultChecked={sens.has("alternative_covariates")} /> An alternative covariate set, named
-              <input aria-label="Name of the alternative covariate set" name="sensitivity:label" className="field w-64 py-1" defaultValue={sens.get("alternative_covariates")?.label ?? "Minimal adjustment"} />
+              <input
+                type="checkbox"
+                name="sensitivity:alternative_covariates"
+                defaultChecked={sens.has("alternative_covariates")}
+              />{" "}
+              An alternative covariate set, named
+              <input
+                aria-label="Name of the alternative covariate set"
+                name="sensitivity:label"
+                className="field w-64 py-1"
+                defaultValue={sens.get("alternative_covariates")?.label ?? "Minimal adjustment"}
+              />
             </label>
             <div className="mt-1 flex flex-wrap gap-x-4 pl-6">
               {candidateCovariates.map((c) => (
                 <label key={c.name} className="inline-flex items-center gap-1 text-xs">
-                  <input type="checkbox" name="sensitivity:covariate" value={c.name} defaultChecked={sens.get("alternative_covariates")?.covariates?.includes(c.name) ?? false} />
+                  <input
+                    type="checkbox"
+                    name="sensitivity:covariate"
+                    value={c.name}
+                    defaultChecked={sens.get("alternative_covariates")?.covariates?.includes(c.name) ?? false}
+                  />
                   {c.name}
                 </label>
               ))}

@@ -19,21 +19,37 @@ export interface PopulationConditionFields {
 /** A column with at most this many levels offers them as tick boxes; others are typed. */
 const PICK_UP_TO = 20;
 
-const KIND_WORDS: Record<PopulationConditionFields["kind"], string> = { in: "is one of", notIn: "is none of", range: "lies within" };
+const KIND_WORDS: Record<PopulationConditionFields["kind"], string> = {
+  in: "is one of",
+  notIn: "is none of",
+  range: "lies within",
+};
 
 let nextKey = 0;
 const keyed = (c: PopulationConditionFields) => ({ ...c, key: nextKey++ });
 
-export function PopulationSection({ initial, columns, errors }: { initial: PopulationConditionFields[]; columns: EditorColumn[]; errors: Record<string, string> }) {
+export function PopulationSection({
+  initial,
+  columns,
+  errors,
+}: {
+  initial: PopulationConditionFields[];
+  columns: EditorColumn[];
+  errors: Record<string, string>;
+}) {
   const [rows, setRows] = useState(() => initial.map(keyed));
   const col = (name: string) => columns.find((c) => c.name === name);
-  const update = (key: number, patch: Partial<PopulationConditionFields>) => setRows(rows.map((r) => (r.key === key ? { ...r, ...patch } : r)));
+  const update = (key: number, patch: Partial<PopulationConditionFields>) =>
+    setRows(rows.map((r) => (r.key === key ? { ...r, ...patch } : r)));
   return (
     <div className="mt-3">
       <p className="label" id="pm-pop-h">
         Population
       </p>
-      <p className="mb-2 text-xs text-ink-soft">A row is analysed when it meets every condition (for a long dataset: the analysis flag, the parameter and the visit). Without conditions every row is analysed.</p>
+      <p className="mb-2 text-xs text-ink-soft">
+        A row is analysed when it meets every condition (for a long dataset: the analysis flag, the parameter
+        and the visit). Without conditions every row is analysed.
+      </p>
       {rows.length === 0 ? <p className="text-sm">All rows.</p> : null}
       <ol className="space-y-3" aria-labelledby="pm-pop-h">
         {rows.map((r, i) => {
@@ -52,7 +68,15 @@ export function PopulationSection({ initial, columns, errors }: { initial: Popul
                     <label htmlFor={`${id}-column`} className="label">
                       Column
                     </label>
-                    <select id={`${id}-column`} name={`population:${i}:column`} className="field" value={r.column} onChange={(e) => update(r.key, { column: e.target.value, values: [] })} aria-invalid={errors[`population:${i}:column`] ? true : undefined} aria-describedby={`${id}-column-error`}>
+                    <select
+                      id={`${id}-column`}
+                      name={`population:${i}:column`}
+                      className="field"
+                      value={r.column}
+                      onChange={(e) => update(r.key, { column: e.target.value, values: [] })}
+                      aria-invalid={errors[`population:${i}:column`] ? true : undefined}
+                      aria-describedby={`${id}-column-error`}
+                    >
                       <option value="">Choose a column</option>
                       {columns.map((x) => (
                         <option key={x.name} value={x.name}>
@@ -66,7 +90,15 @@ export function PopulationSection({ initial, columns, errors }: { initial: Popul
                     <label htmlFor={`${id}-kind`} className="label">
                       Condition
                     </label>
-                    <select id={`${id}-kind`} name={`population:${i}:kind`} className="field" value={r.kind} onChange={(e) => update(r.key, { kind: e.target.value as PopulationConditionFields["kind"] })}>
+                    <select
+                      id={`${id}-kind`}
+                      name={`population:${i}:kind`}
+                      className="field"
+                      value={r.kind}
+                      onChange={(e) =>
+                        update(r.key, { kind: e.target.value as PopulationConditionFields["kind"] })
+                      }
+                    >
                       {(Object.keys(KIND_WORDS) as PopulationConditionFields["kind"][]).map((k) => (
                         <option key={k} value={k}>
                           {KIND_WORDS[k]}
@@ -75,7 +107,11 @@ export function PopulationSection({ initial, columns, errors }: { initial: Popul
                     </select>
                   </div>
                   <div className="self-end">
-                    <button type="button" className="btn-quiet" onClick={() => setRows(rows.filter((x) => x.key !== r.key))}>
+                    <button
+                      type="button"
+                      className="btn-quiet"
+                      onClick={() => setRows(rows.filter((x) => x.key !== r.key))}
+                    >
                       Remove condition {i + 1}
                     </button>
                   </div>
@@ -86,13 +122,29 @@ export function PopulationSection({ initial, columns, errors }: { initial: Popul
                       <label htmlFor={`${id}-min`} className="label">
                         From (lowest value kept)
                       </label>
-                      <input id={`${id}-min`} name={`population:${i}:min`} inputMode="decimal" className="field num w-32" defaultValue={r.min} aria-invalid={rangeError ? true : undefined} aria-describedby={`${id}-range-error`} />
+                      <input
+                        id={`${id}-min`}
+                        name={`population:${i}:min`}
+                        inputMode="decimal"
+                        className="field num w-32"
+                        defaultValue={r.min}
+                        aria-invalid={rangeError ? true : undefined}
+                        aria-describedby={`${id}-range-error`}
+                      />
                     </div>
                     <div>
                       <label htmlFor={`${id}-max`} className="label">
                         To (highest value kept)
                       </label>
-                      <input id={`${id}-max`} name={`population:${i}:max`} inputMode="decimal" className="field num w-32" defaultValue={r.max} aria-invalid={rangeError ? true : undefined} aria-describedby={`${id}-range-error`} />
+                      <input
+                        id={`${id}-max`}
+                        name={`population:${i}:max`}
+                        inputMode="decimal"
+                        className="field num w-32"
+                        defaultValue={r.max}
+                        aria-invalid={rangeError ? true : undefined}
+                        aria-describedby={`${id}-range-error`}
+                      />
                     </div>
                     <FieldError id={`${id}-range-error`} message={rangeError} />
                   </div>
@@ -107,7 +159,13 @@ export function PopulationSection({ initial, columns, errors }: { initial: Popul
                             name={`population:${i}:value`}
                             value={l.value}
                             checked={r.values.includes(l.value)}
-                            onChange={(e) => update(r.key, { values: e.target.checked ? [...r.values, l.value] : r.values.filter((v) => v !== l.value) })}
+                            onChange={(e) =>
+                              update(r.key, {
+                                values: e.target.checked
+                                  ? [...r.values, l.value]
+                                  : r.values.filter((v) => v !== l.value),
+                              })
+                            }
                           />
                           {l.value} <span className="num text-xs text-ink-soft">(n = {l.count})</span>
                         </label>
@@ -120,7 +178,14 @@ export function PopulationSection({ initial, columns, errors }: { initial: Popul
                     <label htmlFor={`${id}-text`} className="label">
                       Values of {r.column || "the column"}, separated by commas
                     </label>
-                    <input id={`${id}-text`} name={`population:${i}:text`} className="field" defaultValue={r.values.join(", ")} aria-invalid={valuesError ? true : undefined} aria-describedby={`${id}-values-error`} />
+                    <input
+                      id={`${id}-text`}
+                      name={`population:${i}:text`}
+                      className="field"
+                      defaultValue={r.values.join(", ")}
+                      aria-invalid={valuesError ? true : undefined}
+                      aria-describedby={`${id}-values-error`}
+                    />
                     <FieldError id={`${id}-values-error`} message={valuesError} />
                   </div>
                 )}
@@ -129,7 +194,11 @@ export function PopulationSection({ initial, columns, errors }: { initial: Popul
           );
         })}
       </ol>
-      <button type="button" className="btn mt-2" onClick={() => setRows([...rows, keyed({ column: "", kind: "in", values: [], min: "", max: "" })])}>
+      <button
+        type="button"
+        className="btn mt-2"
+        onClick={() => setRows([...rows, keyed({ column: "", kind: "in", values: [], min: "", max: "" })])}
+      >
         Add a population condition
       </button>
     </div>

@@ -34,7 +34,10 @@ export function PlannedModelSummary({ m, actions }: { m: PlannedModelView; actio
     ["Dataset", m.datasetName],
     ["Population", m.population],
     ["Endpoint", m.response],
-    ["Distribution and link", m.family === "cox" ? `${familyWords("cox")}: ${m.link}` : familyWithLink(m.family, m.link)],
+    [
+      "Distribution and link",
+      m.family === "cox" ? `${familyWords("cox")}: ${m.link}` : familyWithLink(m.family, m.link),
+    ],
     ["Treatment", m.treatment ? `${m.treatment} (reference ${m.reference ?? "first level"})` : "none"],
     ["Covariates", m.covariates.length ? m.covariates.join("; ") : "none"],
     ["Interactions", m.interactions.length ? m.interactions.join("; ") : "none"],
@@ -64,7 +67,9 @@ export function PlannedModelSummary({ m, actions }: { m: PlannedModelView; actio
         </dl>
         <div className="min-w-0 space-y-3">
           <table className="data-table">
-            <caption className="mb-1 text-left text-xs font-semibold uppercase tracking-wide text-ink-soft">Planned checks</caption>
+            <caption className="mb-1 text-left text-xs font-semibold uppercase tracking-wide text-ink-soft">
+              Planned checks
+            </caption>
             <thead>
               <tr>
                 <th scope="col">Check</th>
@@ -121,4 +126,3 @@ export function PlannedModelSummary({ m, actions }: { m: PlannedModelView; actio
     </article>
   );
 }
-

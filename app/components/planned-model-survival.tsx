@@ -15,9 +15,25 @@ export interface SurvivalFields {
   transform: string;
 }
 
-const EMPTY: SurvivalFields = { statusColumn: "", eventValues: [], strata: [], ties: "efron", transform: "km" };
+const EMPTY: SurvivalFields = {
+  statusColumn: "",
+  eventValues: [],
+  strata: [],
+  ties: "efron",
+  transform: "km",
+};
 
-export function SurvivalSection({ initial = EMPTY, columns, exclude, errors }: { initial?: SurvivalFields; columns: EditorColumn[]; exclude: string[]; errors: Record<string, string> }) {
+export function SurvivalSection({
+  initial = EMPTY,
+  columns,
+  exclude,
+  errors,
+}: {
+  initial?: SurvivalFields;
+  columns: EditorColumn[];
+  exclude: string[];
+  errors: Record<string, string>;
+}) {
   const [status, setStatus] = useState(initial.statusColumn);
   const [events, setEvents] = useState(() => new Set(initial.eventValues));
   const coded = columns.filter((c) => c.levels && c.levels.length >= 2 && c.levels.length <= 12);
@@ -27,8 +43,9 @@ export function SurvivalSection({ initial = EMPTY, columns, exclude, errors }: {
     <fieldset className="panel p-4">
       <legend className="px-1 text-sm font-semibold">Time to event</legend>
       <p className="mb-3 text-xs text-ink-soft">
-        Which rows had the event, how tied event times are handled, and the strata (separate baseline hazards, usually the randomization factors). ADaM time-to-event data code censoring as CNSR = 1, so the
-        event is 0.
+        Which rows had the event, how tied event times are handled, and the strata (separate baseline hazards,
+        usually the randomization factors). ADaM time-to-event data code censoring as CNSR = 1, so the event
+        is 0.
       </p>
       <div className="grid gap-3 md:grid-cols-3">
         <div>
@@ -58,7 +75,9 @@ export function SurvivalSection({ initial = EMPTY, columns, exclude, errors }: {
         </div>
         <fieldset aria-describedby={errors.eventValue ? "pm-event-error" : undefined}>
           <legend className="label">Values meaning the event happened</legend>
-          {statusLevels.length === 0 ? <p className="text-xs text-ink-soft">Choose the status column first.</p> : null}
+          {statusLevels.length === 0 ? (
+            <p className="text-xs text-ink-soft">Choose the status column first.</p>
+          ) : null}
           <div className="flex flex-wrap gap-x-4">
             {statusLevels.map((l) => (
               <label key={l.value} className="inline-flex items-center gap-1.5 text-sm">
@@ -74,7 +93,8 @@ export function SurvivalSection({ initial = EMPTY, columns, exclude, errors }: {
                     setEvents(next);
                   }}
                 />
-                <span className="num">{l.value}</span> <span className="text-xs text-ink-soft">(n = {l.count})</span>
+                <span className="num">{l.value}</span>{" "}
+                <span className="text-xs text-ink-soft">(n = {l.count})</span>
               </label>
             ))}
           </div>
@@ -85,7 +105,13 @@ export function SurvivalSection({ initial = EMPTY, columns, exclude, errors }: {
             <label htmlFor="pm-ties" className="label">
               Tied event times
             </label>
-            <select id="pm-ties" name="ties" className="field" defaultValue={initial.ties} aria-invalid={errors.ties ? true : undefined}>
+            <select
+              id="pm-ties"
+              name="ties"
+              className="field"
+              defaultValue={initial.ties}
+              aria-invalid={errors.ties ? true : undefined}
+            >
               <option value="efron">Efron (default)</option>
               <option value="breslow">Breslow</option>
             </select>
@@ -95,7 +121,13 @@ export function SurvivalSection({ initial = EMPTY, columns, exclude, errors }: {
             <label htmlFor="pm-ph" className="label">
               Time scale of the proportional-hazards test
             </label>
-            <select id="pm-ph" name="phTransform" className="field" defaultValue={initial.transform} aria-invalid={errors.phTransform ? true : undefined}>
+            <select
+              id="pm-ph"
+              name="phTransform"
+              className="field"
+              defaultValue={initial.transform}
+              aria-invalid={errors.phTransform ? true : undefined}
+            >
               <option value="km">Kaplan–Meier (default)</option>
               <option value="rank">Rank of time</option>
               <option value="identity">Time</option>
@@ -110,7 +142,12 @@ export function SurvivalSection({ initial = EMPTY, columns, exclude, errors }: {
         <div className="flex flex-wrap gap-x-5 gap-y-1">
           {strataChoices.map((c) => (
             <label key={c.name} className="inline-flex items-center gap-1.5 text-sm">
-              <input type="checkbox" name="stratum" value={c.name} defaultChecked={initial.strata.includes(c.name)} />
+              <input
+                type="checkbox"
+                name="stratum"
+                value={c.name}
+                defaultChecked={initial.strata.includes(c.name)}
+              />
               {c.name}
               {c.label ? <span className="text-xs text-ink-soft">{c.label}</span> : null}
             </label>

@@ -10,7 +10,15 @@ export interface ReproductionCardData {
   rule: string;
   label: string;
   statistic: string;
-  values: { quantity: string; printed: string; decimals: number; rerunValue: number | null; rerunRounded: string | null; outcome: "reproduced" | "not_reproduced"; reason: string }[];
+  values: {
+    quantity: string;
+    printed: string;
+    decimals: number;
+    rerunValue: number | null;
+    rerunRounded: string | null;
+    outcome: "reproduced" | "not_reproduced";
+    reason: string;
+  }[];
 }
 
 const WORD = { reproduced: "Reproduced", not_reproduced: "Not reproduced" } as const;
@@ -20,7 +28,8 @@ const STATUS = { reproduced: "within", not_reproduced: "finding" } as const;
 const minus = (text: string) => text.replace(/(^|[\s(<>])-(?=\.?\d)/g, "$1−");
 
 /** The rerun's value with enough digits to see why it rounds as it does. */
-const unrounded = (x: number | null, decimals: number) => (x === null ? "—" : fmt(x, Math.min(Math.max(decimals + 3, 4), 12)));
+const unrounded = (x: number | null, decimals: number) =>
+  x === null ? "—" : fmt(x, Math.min(Math.max(decimals + 3, 4), 12));
 
 export function ReproductionCard({ check }: { check: ReproductionCardData }) {
   return (
@@ -36,7 +45,9 @@ export function ReproductionCard({ check }: { check: ReproductionCardData }) {
         <p className="text-xs text-ink-soft">{check.rule}</p>
         <div className="overflow-x-auto">
           <table className="data-table">
-            <caption className="mb-1 text-left text-xs text-ink-soft">Each value the study report printed, against the rerun's value rounded to the same decimals.</caption>
+            <caption className="mb-1 text-left text-xs text-ink-soft">
+              Each value the study report printed, against the rerun's value rounded to the same decimals.
+            </caption>
             <thead>
               <tr>
                 <th scope="col">Quantity</th>

@@ -17,8 +17,12 @@ export function StatusShape({ status, size = 12 }: { status: Status; size?: numb
   return (
     <svg width={size} height={size} viewBox="0 0 12 12" aria-hidden="true" className="shrink-0">
       {status === "within" ? <rect x="1" y="1" width="10" height="10" fill={color} /> : null}
-      {status === "finding" ? <path d="M6 1.2 11 10.8H1z" fill="none" stroke={color} strokeWidth="1.6" /> : null}
-      {status === "pending" ? <circle cx="6" cy="6" r="4.6" fill="none" stroke={color} strokeWidth="1.6" /> : null}
+      {status === "finding" ? (
+        <path d="M6 1.2 11 10.8H1z" fill="none" stroke={color} strokeWidth="1.6" />
+      ) : null}
+      {status === "pending" ? (
+        <circle cx="6" cy="6" r="4.6" fill="none" stroke={color} strokeWidth="1.6" />
+      ) : null}
     </svg>
   );
 }

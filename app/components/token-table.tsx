@@ -20,7 +20,19 @@ const STATUS_WORD = { active: "Active", expired: "Expired", revoked: "Revoked" }
  * the owner column, everybody's (administrators' API clients page). The revoke form posts
  * `tokenId`, plus `intent` when given.
  */
-export function TokenTable({ tokens, busy, withOwner = false, revokeIntent, empty }: { tokens: readonly TokenRow[]; busy: boolean; withOwner?: boolean; revokeIntent?: string; empty: string }) {
+export function TokenTable({
+  tokens,
+  busy,
+  withOwner = false,
+  revokeIntent,
+  empty,
+}: {
+  tokens: readonly TokenRow[];
+  busy: boolean;
+  withOwner?: boolean;
+  revokeIntent?: string;
+  empty: string;
+}) {
   return (
     <table className="data-table panel">
       <thead>
@@ -59,7 +71,12 @@ export function TokenTable({ tokens, busy, withOwner = false, revokeIntent, empt
                 <Form method="post">
                   {revokeIntent ? <input type="hidden" name="intent" value={revokeIntent} /> : null}
                   <input type="hidden" name="tokenId" value={k.id} />
-                  <button type="submit" className="btn-quiet py-1" disabled={busy} aria-label={withOwner ? `Revoke ${k.owner}'s token ${k.name}` : `Revoke token ${k.name}`}>
+                  <button
+                    type="submit"
+                    className="btn-quiet py-1"
+                    disabled={busy}
+                    aria-label={withOwner ? `Revoke ${k.owner}'s token ${k.name}` : `Revoke token ${k.name}`}
+                  >
                     Revoke
                   </button>
                 </Form>

@@ -7,8 +7,23 @@ import { CONTRAST_SET_NAMES } from "~/engine/multiplicity";
 import { fmt, fmtP } from "~/shared/format";
 
 export type TreatmentTestView =
-  | { readonly name: "F"; readonly term: string; readonly statistic: number | null; readonly df1: number; readonly df2: number; readonly p: number | null; readonly reason?: string }
-  | { readonly name: "χ²"; readonly term: string; readonly statistic: number | null; readonly df: number; readonly p: number | null; readonly reason?: string };
+  | {
+      readonly name: "F";
+      readonly term: string;
+      readonly statistic: number | null;
+      readonly df1: number;
+      readonly df2: number;
+      readonly p: number | null;
+      readonly reason?: string;
+    }
+  | {
+      readonly name: "χ²";
+      readonly term: string;
+      readonly statistic: number | null;
+      readonly df: number;
+      readonly p: number | null;
+      readonly reason?: string;
+    };
 
 export interface TreatmentEffectPlan {
   readonly contrastSet: "reference" | "pairwise";
@@ -34,8 +49,12 @@ export function treatmentTestWords(t: TreatmentTestView): string {
 export function TreatmentEffectNote({ plan }: { plan: TreatmentEffectPlan }) {
   return (
     <p className="num mt-2 text-sm">
-      {plan.test ? treatmentTestWords(plan.test) : null} Contrasts: {CONTRAST_SET_NAMES[plan.contrastSet]}. Multiplicity adjustment:{" "}
-      {plan.multiplicity === "none" ? "none (p-values unadjusted)" : `${MULTIPLICITY_WORDS[plan.multiplicity]}, adjusted p beside the unadjusted p`}.
+      {plan.test ? treatmentTestWords(plan.test) : null} Contrasts: {CONTRAST_SET_NAMES[plan.contrastSet]}.
+      Multiplicity adjustment:{" "}
+      {plan.multiplicity === "none"
+        ? "none (p-values unadjusted)"
+        : `${MULTIPLICITY_WORDS[plan.multiplicity]}, adjusted p beside the unadjusted p`}
+      .
     </p>
   );
 }

@@ -28,7 +28,8 @@ export function contrastPairs(levels: number, reference: number, set: ContrastSe
   const pairs: [number, number][] = [];
   for (let i = 0; i < levels; i++) if (i !== reference) pairs.push([i, reference]);
   if (set === "pairwise") {
-    for (let a = 0; a < levels; a++) for (let b = a + 1; b < levels; b++) if (a !== reference && b !== reference) pairs.push([b, a]);
+    for (let a = 0; a < levels; a++)
+      for (let b = a + 1; b < levels; b++) if (a !== reference && b !== reference) pairs.push([b, a]);
   }
   return pairs;
 }
@@ -120,7 +121,8 @@ export function adjustedMeans(
   let cells: { levels: number[]; weight: number }[] = [{ levels: [], weight: 1 }];
   for (const f of others) {
     const next: typeof cells = [];
-    for (let l = 0; l < f.levels.length; l++) for (const c of cells) next.push({ levels: [...c.levels, l], weight: 1 });
+    for (let l = 0; l < f.levels.length; l++)
+      for (const c of cells) next.push({ levels: [...c.levels, l], weight: 1 });
     cells = next;
   }
   if (weighting === "proportional" && others.length > 0) {
@@ -159,7 +161,12 @@ export function adjustedMeans(
   };
   const means = treatment.levels.map((level, i) => {
     const est = estimateOf(lVectors[i]) + offsetMean;
-    return { level, estimate: est, ...interval(est, lVectors[i], covariance), hc3: interval(est, lVectors[i], hc3) };
+    return {
+      level,
+      estimate: est,
+      ...interval(est, lVectors[i], covariance),
+      hc3: interval(est, lVectors[i], hc3),
+    };
   });
   const ref = treatment.referenceIndex;
   const raw = contrastPairs(treatment.levels.length, ref, plan.set).map(([i, j]) => {
@@ -178,10 +185,24 @@ export function adjustedMeans(
       hc3: withT(interval(est, l, hc3)),
     };
   });
-  const adjusted = plan.multiplicity === "none" ? null : adjustPValues(raw.map((c) => c.p), plan.multiplicity);
-  const adjustedHc3 = plan.multiplicity === "none" ? null : adjustPValues(raw.map((c) => c.hc3.p), plan.multiplicity);
+  const adjusted =
+    plan.multiplicity === "none"
+      ? null
+      : adjustPValues(
+          raw.map((c) => c.p),
+          plan.multiplicity,
+        );
+  const adjustedHc3 =
+    plan.multiplicity === "none"
+      ? null
+      : adjustPValues(
+          raw.map((c) => c.hc3.p),
+          plan.multiplicity,
+        );
   const contrasts: Contrast[] = raw.map((c, k) =>
-    adjusted && adjustedHc3 ? { ...c, pAdjusted: adjusted[k], hc3: { ...c.hc3, pAdjusted: adjustedHc3[k] } } : c,
+    adjusted && adjustedHc3
+      ? { ...c, pAdjusted: adjusted[k], hc3: { ...c.hc3, pAdjusted: adjustedHc3[k] } }
+      : c,
   );
   const grid: AdjustedMeansGrid = {
     covariates: [...data.variables.values()]
@@ -189,7 +210,10 @@ export function adjustedMeans(
       .map((v) => ({ variable: v.name, value: v.mean })),
     offset: data.offset ? offsetMean : null,
     factors: others.map((f) => f.name),
-    cells: cells.map((c) => ({ levels: c.levels.map((l, i) => others[i].levels[l]), weight: c.weight / totalWeight })),
+    cells: cells.map((c) => ({
+      levels: c.levels.map((l, i) => others[i].levels[l]),
+      weight: c.weight / totalWeight,
+    })),
   };
   return { weighting, grid, means, contrasts, contrastSet: plan.set, multiplicity: plan.multiplicity };
 }

@@ -87,9 +87,11 @@ export function deleteCases(full: FullFit, cases: readonly DeletedCase[]): Delet
   const m = cases.length;
   const c = full.unscaledCovariance;
   const df = n - m - p;
-  if (df <= 0) return { ok: false, reason: `leaving out ${m} subjects leaves ${n - m} rows for ${p} coefficients` };
+  if (df <= 0)
+    return { ok: false, reason: `leaving out ${m} subjects leaves ${n - m} rows for ${p} coefficients` };
   for (const k of cases) {
-    if (k.x.length !== p) throw new Error(`a deleted case has ${k.x.length} design values; the fit has ${p} coefficients`);
+    if (k.x.length !== p)
+      throw new Error(`a deleted case has ${k.x.length} design values; the fit has ${p} coefficients`);
   }
   // U = C X_S' (p×m), H_SS = X_S U (m×m)
   const u = new Float64Array(p * m);
@@ -116,7 +118,8 @@ export function deleteCases(full: FullFit, cases: readonly DeletedCase[]): Delet
   if (!g) {
     return {
       ok: false,
-      reason: "without these subjects the remaining rows no longer determine every coefficient (for example an arm or a level left without subjects)",
+      reason:
+        "without these subjects the remaining rows no longer determine every coefficient (for example an arm or a level left without subjects)",
     };
   }
   // z = (I − H_SS)⁻¹ e_S
@@ -144,7 +147,15 @@ export function deleteCases(full: FullFit, cases: readonly DeletedCase[]): Delet
       if (b !== a) cov[b * p + a] += s;
     }
   }
-  return { ok: true, m, coefficients, unscaledCovariance: cov, rss, dfResidual: df, sigma: Math.sqrt(rss / df) };
+  return {
+    ok: true,
+    m,
+    coefficients,
+    unscaledCovariance: cov,
+    rss,
+    dfResidual: df,
+    sigma: Math.sqrt(rss / df),
+  };
 }
 
 export interface ContrastEstimate {
@@ -159,7 +170,12 @@ export interface ContrastEstimate {
 
 /** L'b with SE σ̂ √(L'CL), a t interval and two-sided p on the residual df. */
 export function contrastOf(
-  fit: { readonly coefficients: ArrayLike<number>; readonly unscaledCovariance: ArrayLike<number>; readonly sigma: number; readonly dfResidual: number },
+  fit: {
+    readonly coefficients: ArrayLike<number>;
+    readonly unscaledCovariance: ArrayLike<number>;
+    readonly sigma: number;
+    readonly dfResidual: number;
+  },
   l: readonly number[],
   level = 0.95,
 ): ContrastEstimate {
@@ -175,7 +191,15 @@ export function contrastOf(
   const se = fit.sigma * Math.sqrt(Math.max(0, quad));
   const q = tQuantile(0.5 + level / 2, fit.dfResidual);
   const statistic = estimate / se;
-  return { estimate, se, lower: estimate - q * se, upper: estimate + q * se, statistic, p: tTwoSided(statistic, fit.dfResidual), df: fit.dfResidual };
+  return {
+    estimate,
+    se,
+    lower: estimate - q * se,
+    upper: estimate + q * se,
+    statistic,
+    p: tTwoSided(statistic, fit.dfResidual),
+    df: fit.dfResidual,
+  };
 }
 
 /** The full fit itself as a deletion outcome of nothing (the what-if's "all subjects" line). */

@@ -169,7 +169,8 @@ export const CHECKS: readonly CheckDefinition[] = [
     label: "Same covariate slopes in every arm (treatment × continuous covariates)",
     rule: "finding when the joint F test of the treatment × continuous covariate interactions has p below k: a covariate's slope may differ between arms",
     defaultThreshold: 0.05,
-    source: "Standard ANCOVA assumption check (e.g. EMA guideline on adjustment for baseline covariates, 2015)",
+    source:
+      "Standard ANCOVA assumption check (e.g. EMA guideline on adjustment for baseline covariates, 2015)",
     defaultRemedy: "Report the interaction as a sensitivity analysis; the primary estimate stands as planned",
     figure: "slopes_by_arm",
     needsTreatment: true,
@@ -207,7 +208,8 @@ export const CHECKS: readonly CheckDefinition[] = [
     label: "Overdispersion",
     rule: "finding when the Pearson χ²/df ratio of a count model exceeds k",
     defaultThreshold: 1.5,
-    source: "ratio above 1.5, a common screening bound (e.g. Hilbe 2011, Negative Binomial Regression, section 7.2)",
+    source:
+      "ratio above 1.5, a common screening bound (e.g. Hilbe 2011, Negative Binomial Regression, section 7.2)",
     defaultRemedy: "Quasi-Poisson or negative binomial sensitivity analysis",
     figure: "residuals_fitted",
     models: "glm",
@@ -227,7 +229,8 @@ export const CHECKS: readonly CheckDefinition[] = [
     label: "Linearity on the link scale",
     rule: "finding when a likelihood-ratio test of an added quadratic term has p below k for any continuous covariate",
     defaultThreshold: 0.05,
-    source: "Likelihood-ratio test of a quadratic term (e.g. Harrell 2015, Regression Modeling Strategies, section 2.4)",
+    source:
+      "Likelihood-ratio test of a quadratic term (e.g. Harrell 2015, Regression Modeling Strategies, section 2.4)",
     defaultRemedy: "Inspect the partial-residual plots; consider a spline or transformation",
     figure: "partial_residuals",
     models: "glm",
@@ -318,7 +321,13 @@ const kText = (k: number): string => String(Number(k.toPrecision(4)));
 export const formatP = (p: number | null | undefined): string =>
   p === null || p === undefined || !Number.isFinite(p) ? "—" : p < 0.0001 ? "< 0.0001" : p.toFixed(4);
 
-function flagged(values: number[], rows: number[], ids: (string | null)[], bound: number, useAbs: boolean): FlaggedObservation[] {
+function flagged(
+  values: number[],
+  rows: number[],
+  ids: (string | null)[],
+  bound: number,
+  useAbs: boolean,
+): FlaggedObservation[] {
   const out: { row: number; id: string | null; value: number }[] = [];
   values.forEach((v, i) => {
     const m = useAbs ? Math.abs(v) : v;
@@ -361,7 +370,8 @@ function observationCheck(
   let maxIndex = -1;
   values.forEach((v, i) => {
     const m = useAbs ? Math.abs(v) : v;
-    if (Number.isFinite(m) && (maxIndex < 0 || m > (useAbs ? Math.abs(values[maxIndex]) : values[maxIndex]))) maxIndex = i;
+    if (Number.isFinite(m) && (maxIndex < 0 || m > (useAbs ? Math.abs(values[maxIndex]) : values[maxIndex])))
+      maxIndex = i;
   });
   const max = maxIndex >= 0 ? values[maxIndex] : NaN;
   const who = maxIndex >= 0 ? subject({ id: obs.id[maxIndex], row: obs.row[maxIndex] }) : "";
@@ -381,7 +391,14 @@ function observationCheck(
     figure: def.figure,
     flagged: list,
     value: max,
-    numbers: { measure, statistic: Number.isFinite(max) ? (useAbs ? Math.abs(max) : max) : null, df: null, threshold: bound, compares: "statistic above", p: null },
+    numbers: {
+      measure,
+      statistic: Number.isFinite(max) ? (useAbs ? Math.abs(max) : max) : null,
+      df: null,
+      threshold: bound,
+      compares: "statistic above",
+      p: null,
+    },
   };
 }
 
@@ -424,16 +441,26 @@ function pCheck(
     outcome: finding ? "finding" : "within",
     statistic: `${measure} ${fmt(test.statistic)}${distribution && df ? ` ${distributionWords(distribution.kind, df)}` : ""}, ${pWords(test.p)}`,
     threshold: `p < ${planned.threshold}`,
-    summary: finding ? `The test rejects at the planned level.` : `The test does not reject at the planned level.`,
+    summary: finding
+      ? `The test rejects at the planned level.`
+      : `The test does not reject at the planned level.`,
     remedy: planned.remedy,
     figure: def.figure,
     value: test.p,
-    numbers: { measure, statistic: test.statistic, df, threshold: planned.threshold, compares: "p below", p: test.p },
+    numbers: {
+      measure,
+      statistic: test.statistic,
+      df,
+      threshold: planned.threshold,
+      compares: "p below",
+      p: test.p,
+    },
   };
 }
 
 /** The degrees of freedom of an F test as the engine stores them. */
-const fDf = (t: { df1: number | null; df2: number | null } | null | undefined) => (t && t.df1 !== null && t.df2 !== null ? { kind: "F" as const, df: [t.df1, t.df2] } : undefined);
+const fDf = (t: { df1: number | null; df2: number | null } | null | undefined) =>
+  t && t.df1 !== null && t.df2 !== null ? { kind: "F" as const, df: [t.df1, t.df2] } : undefined;
 
 /** The coefficient indices of the treatment term (its non-reference levels). */
 function treatmentCoefficients(r: ModelResult): number[] {
@@ -449,7 +476,10 @@ function notApplicable(def: CheckDefinition, pc: PlannedCheck, kind: "linear" | 
     outcome: "not_computed",
     statistic: "not computed",
     threshold: String(pc.threshold),
-    summary: kind === "glm" ? "Not computed: this check applies to linear models; the model is a generalized linear model." : "Not computed: this check applies to generalized linear models.",
+    summary:
+      kind === "glm"
+        ? "Not computed: this check applies to linear models; the model is a generalized linear model."
+        : "Not computed: this check applies to generalized linear models.",
     remedy: pc.remedy,
     figure: def.figure,
     value: null,
@@ -510,22 +540,70 @@ export function evaluateChecks(r: ModelResult, planned: readonly PlannedCheck[])
     if (r.kind !== "linear" && def.models === "linear") continue;
     switch (pc.key) {
       case "cooks_distance":
-        out.push(observationCheck(def, pc, obs.cooksDistance, k / n, `${kText(k)}/n = ${fmt(k / n, 4)}`, false, r, "Cook's distance"));
+        out.push(
+          observationCheck(
+            def,
+            pc,
+            obs.cooksDistance,
+            k / n,
+            `${kText(k)}/n = ${fmt(k / n, 4)}`,
+            false,
+            r,
+            "Cook's distance",
+          ),
+        );
         break;
       case "leverage":
-        out.push(observationCheck(def, pc, obs.leverage, (k * p) / n, `${kText(k)}·p/n = ${fmt((k * p) / n, 4)}`, false, r, "leverage"));
+        out.push(
+          observationCheck(
+            def,
+            pc,
+            obs.leverage,
+            (k * p) / n,
+            `${kText(k)}·p/n = ${fmt((k * p) / n, 4)}`,
+            false,
+            r,
+            "leverage",
+          ),
+        );
         break;
       case "deletion_residual":
-        out.push(observationCheck(def, pc, obs.studentizedExternal, k, `|t| > ${kText(k)}`, true, r, "deletion residual"));
+        out.push(
+          observationCheck(
+            def,
+            pc,
+            obs.studentizedExternal,
+            k,
+            `|t| > ${kText(k)}`,
+            true,
+            r,
+            "deletion residual",
+          ),
+        );
         break;
       case "dffits":
         if (r.kind !== "linear") break;
-        out.push(observationCheck(def, pc, r.observations.dffits, k * Math.sqrt(p / n), `${kText(k)}·√(p/n) = ${fmt(k * Math.sqrt(p / n), 4)}`, true, r, "DFFITS"));
+        out.push(
+          observationCheck(
+            def,
+            pc,
+            r.observations.dffits,
+            k * Math.sqrt(p / n),
+            `${kText(k)}·√(p/n) = ${fmt(k * Math.sqrt(p / n), 4)}`,
+            true,
+            r,
+            "DFFITS",
+          ),
+        );
         break;
       case "dfbetas_treatment": {
         const idx = treatmentCoefficients(r);
         if (idx.length === 0) {
-          out.push({ ...pCheck(def, pc, undefined, ""), threshold: `${kText(k)}/√n`, summary: "Not computed: the model names no treatment." });
+          out.push({
+            ...pCheck(def, pc, undefined, ""),
+            threshold: `${kText(k)}/√n`,
+            summary: "Not computed: the model names no treatment.",
+          });
           break;
         }
         // Per subject, the largest |DFBETAS| over the treatment coefficients.
@@ -534,15 +612,36 @@ export function evaluateChecks(r: ModelResult, planned: readonly PlannedCheck[])
           for (const j of idx) if (Math.abs(obs.dfbetas[j][i]) > Math.abs(m)) m = obs.dfbetas[j][i];
           return m;
         });
-        out.push(observationCheck(def, pc, worst, k / Math.sqrt(n), `${kText(k)}/√n = ${fmt(k / Math.sqrt(n), 4)}`, true, r, "DFBETAS on the treatment effect"));
+        out.push(
+          observationCheck(
+            def,
+            pc,
+            worst,
+            k / Math.sqrt(n),
+            `${kText(k)}/√n = ${fmt(k / Math.sqrt(n), 4)}`,
+            true,
+            r,
+            "DFBETAS on the treatment effect",
+          ),
+        );
         break;
       }
       case "shapiro_wilk":
-        out.push(pCheck(def, pc, r.kind === "linear" ? r.tests.shapiroWilk : undefined, "Shapiro–Wilk statistic"));
+        out.push(
+          pCheck(def, pc, r.kind === "linear" ? r.tests.shapiroWilk : undefined, "Shapiro–Wilk statistic"),
+        );
         break;
       case "breusch_pagan": {
         const t = r.kind === "linear" ? r.tests.breuschPagan : undefined;
-        out.push(pCheck(def, pc, t, "Breusch–Pagan statistic", t && t.df !== null ? { kind: "χ²", df: [t.df] } : undefined));
+        out.push(
+          pCheck(
+            def,
+            pc,
+            t,
+            "Breusch–Pagan statistic",
+            t && t.df !== null ? { kind: "χ²", df: [t.df] } : undefined,
+          ),
+        );
         break;
       }
       case "brown_forsythe": {
@@ -565,7 +664,11 @@ export function evaluateChecks(r: ModelResult, planned: readonly PlannedCheck[])
         // covariate is large without any collinearity
         const rows = r.vifByPredictor.map((v) => ({ term: v.predictor, adjusted: v.adjusted }));
         if (rows.length === 0) {
-          out.push({ ...pCheck(def, pc, undefined, ""), threshold: `> ${fmt(k)}`, summary: "Not computed: fewer than two terms." });
+          out.push({
+            ...pCheck(def, pc, undefined, ""),
+            threshold: `> ${fmt(k)}`,
+            summary: "Not computed: fewer than two terms.",
+          });
           break;
         }
         const worst = rows.reduce((a, b) => (b.adjusted > a.adjusted ? b : a));
@@ -576,11 +679,21 @@ export function evaluateChecks(r: ModelResult, planned: readonly PlannedCheck[])
           outcome: over.length > 0 ? "finding" : "within",
           statistic: `largest variance inflation on the SE scale ${fmt(worst.adjusted)} (${worst.term})`,
           threshold: `> ${fmt(k)}`,
-          summary: over.length > 0 ? `${over.map((v) => v.term).join(", ")} exceed the threshold.` : "No term exceeds the threshold.",
+          summary:
+            over.length > 0
+              ? `${over.map((v) => v.term).join(", ")} exceed the threshold.`
+              : "No term exceeds the threshold.",
           remedy: pc.remedy,
           figure: def.figure,
           value: worst.adjusted,
-          numbers: { measure: "largest variance inflation on the SE scale", statistic: worst.adjusted, df: null, threshold: k, compares: "statistic above", p: null },
+          numbers: {
+            measure: "largest variance inflation on the SE scale",
+            statistic: worst.adjusted,
+            df: null,
+            threshold: k,
+            compares: "statistic above",
+            p: null,
+          },
         });
         break;
       }
@@ -605,7 +718,15 @@ function evaluateGlmCheck(def: CheckDefinition, pc: PlannedCheck, r: GlmResult):
   switch (pc.key) {
     case "overdispersion": {
       const o = r.checks.overdispersion;
-      if (o.ratio === null) return { ...base, outcome: "not_computed", statistic: "not computed", threshold: `> ${kText(k)}`, summary: o.reading, value: null };
+      if (o.ratio === null)
+        return {
+          ...base,
+          outcome: "not_computed",
+          statistic: "not computed",
+          threshold: `> ${kText(k)}`,
+          summary: o.reading,
+          value: null,
+        };
       const finding = o.ratio > k;
       const measure = "dispersion ratio (Pearson χ² per residual degree of freedom)";
       return {
@@ -615,7 +736,14 @@ function evaluateGlmCheck(def: CheckDefinition, pc: PlannedCheck, r: GlmResult):
         threshold: `> ${kText(k)}`,
         summary: o.reading,
         value: o.ratio,
-        numbers: { measure, statistic: o.ratio, df: o.df !== null ? [o.df] : null, threshold: k, compares: "statistic above", p: o.p },
+        numbers: {
+          measure,
+          statistic: o.ratio,
+          df: o.df !== null ? [o.df] : null,
+          threshold: k,
+          compares: "statistic above",
+          p: o.p,
+        },
       };
     }
     case "events_per_variable": {
@@ -628,20 +756,40 @@ function evaluateGlmCheck(def: CheckDefinition, pc: PlannedCheck, r: GlmResult):
         nonEvents === null
           ? `${fmt(r.events, 0)} events, ${coefficients} coefficients besides the intercept`
           : `${smaller === "non-events" ? `${nonEvents} non-events against ${r.events} events` : `${r.events} events against ${nonEvents} non-events`}, ${coefficients} coefficients besides the intercept`;
-      const measure = nonEvents === null ? "events per estimated coefficient" : `${smaller} (the smaller class) per estimated coefficient`;
+      const measure =
+        nonEvents === null
+          ? "events per estimated coefficient"
+          : `${smaller} (the smaller class) per estimated coefficient`;
       return {
         ...base,
         outcome: finding ? "finding" : "within",
         statistic: `${fmt(r.eventsPerVariable, 1)} ${measure} (${classes})`,
         threshold: `< ${kText(k)}`,
-        summary: finding ? `Fewer ${smaller} per coefficient than planned: estimates may be biased away from zero and intervals too narrow.` : `Enough ${smaller} per estimated coefficient.`,
+        summary: finding
+          ? `Fewer ${smaller} per coefficient than planned: estimates may be biased away from zero and intervals too narrow.`
+          : `Enough ${smaller} per estimated coefficient.`,
         value: r.eventsPerVariable,
-        numbers: { measure, statistic: r.eventsPerVariable, df: null, threshold: k, compares: "statistic below", p: null },
+        numbers: {
+          measure,
+          statistic: r.eventsPerVariable,
+          df: null,
+          threshold: k,
+          compares: "statistic below",
+          p: null,
+        },
       };
     }
     case "linearity_glm": {
       const tests = r.checks.linearity.filter((t) => t.p !== null);
-      if (tests.length === 0) return { ...base, outcome: "not_computed", statistic: "not computed", threshold: `p < ${kText(k)}`, summary: "Not computed: the model has no continuous covariate.", value: null };
+      if (tests.length === 0)
+        return {
+          ...base,
+          outcome: "not_computed",
+          statistic: "not computed",
+          threshold: `p < ${kText(k)}`,
+          summary: "Not computed: the model has no continuous covariate.",
+          value: null,
+        };
       const worst = tests.reduce((a, b) => ((b.p ?? 1) < (a.p ?? 1) ? b : a));
       const over = tests.filter((t) => (t.p ?? 1) < k);
       const dist = lrDistribution(r, worst.df);
@@ -650,14 +798,29 @@ function evaluateGlmCheck(def: CheckDefinition, pc: PlannedCheck, r: GlmResult):
         outcome: over.length ? "finding" : "within",
         statistic: `smallest ${pWords(worst.p!)} (${worst.term}: likelihood-ratio statistic ${fmt(worst.statistic ?? NaN, 2)}${dist ? ` ${distributionWords(dist.kind, dist.df)}` : ""})`,
         threshold: `p < ${kText(k)}`,
-        summary: over.length ? `A quadratic term improves the fit for ${over.map((t) => t.term).join(", ")}: the effect may not be linear on the link scale.` : "No continuous covariate departs from linearity on the link scale.",
+        summary: over.length
+          ? `A quadratic term improves the fit for ${over.map((t) => t.term).join(", ")}: the effect may not be linear on the link scale.`
+          : "No continuous covariate departs from linearity on the link scale.",
         value: worst.p,
-        numbers: { measure: `likelihood-ratio statistic of the quadratic term, ${worst.term}`, statistic: worst.statistic, df: dist?.df ?? null, threshold: k, compares: "p below", p: worst.p },
+        numbers: {
+          measure: `likelihood-ratio statistic of the quadratic term, ${worst.term}`,
+          statistic: worst.statistic,
+          df: dist?.df ?? null,
+          threshold: k,
+          compares: "p below",
+          p: worst.p,
+        },
       };
     }
     case "treatment_homogeneity_glm": {
       const joint = r.checks.homogeneityOfTreatmentEffect?.joint;
-      return pCheck(def, pc, joint, "Likelihood-ratio statistic of the treatment interactions", lrDistribution(r, joint?.df ?? null));
+      return pCheck(
+        def,
+        pc,
+        joint,
+        "Likelihood-ratio statistic of the treatment interactions",
+        lrDistribution(r, joint?.df ?? null),
+      );
     }
     default:
       return null;

@@ -54,7 +54,10 @@ function coefficientsOut(coefficients: readonly Coefficient[], seScale: string) 
   }));
 }
 
-type Influence = Pick<LinearModelResult["observations"], "leverage" | "studentizedInternal" | "studentizedExternal" | "cooksDistance">;
+type Influence = Pick<
+  LinearModelResult["observations"],
+  "leverage" | "studentizedInternal" | "studentizedExternal" | "cooksDistance"
+>;
 
 /** Observation i's leverage, studentized residuals and Cook's distance. */
 function influenceOf(o: Influence, i: number) {
@@ -93,7 +96,11 @@ function qqShapeOut(q: QqShape) {
     excessKurtosis: num(q.excessKurtosis),
     ...(q.withoutMostExtreme
       ? {
-          withoutMostExtreme: { residual: num(q.withoutMostExtreme.residual), skewness: num(q.withoutMostExtreme.skewness), excessKurtosis: num(q.withoutMostExtreme.excessKurtosis) },
+          withoutMostExtreme: {
+            residual: num(q.withoutMostExtreme.residual),
+            skewness: num(q.withoutMostExtreme.skewness),
+            excessKurtosis: num(q.withoutMostExtreme.excessKurtosis),
+          },
           quantileSkewness: num(q.quantileSkewness),
           quantileTailWeight: num(q.quantileTailWeight),
         }
@@ -108,11 +115,15 @@ function glmMarginalEffects(result: GlmResult, m: NonNullable<GlmResult["margina
     grid: {
       kind: "rows",
       n: result.n,
-      description: "every analysed row predicted with the treatment set to each arm in turn, averaged with equal weight per row",
+      description:
+        "every analysed row predicted with the treatment set to each arm in turn, averaged with equal weight per row",
     },
     robustVariance: m.robustVariance,
     means: m.means.map((x) => ({ ...x, seScale: "response" })),
-    contrasts: m.contrasts.map((x) => ({ ...x, seScale: x.measure === "risk difference" ? "response" : "log" })),
+    contrasts: m.contrasts.map((x) => ({
+      ...x,
+      seScale: x.measure === "risk difference" ? "response" : "log",
+    })),
   };
 }
 
@@ -140,7 +151,9 @@ export function toGlmCliResult(result: GlmResult): Record<string, unknown> {
       dispersion: num(result.fit.dispersion),
       iterations: result.fit.iterations,
       converged: result.fit.converged,
-      ...(result.fit.theta !== undefined ? { theta: num(result.fit.theta), thetaSE: num(result.fit.thetaSE) } : {}),
+      ...(result.fit.theta !== undefined
+        ? { theta: num(result.fit.theta), thetaSE: num(result.fit.thetaSE) }
+        : {}),
     },
     events: result.events,
     eventsPerVariable: num(result.eventsPerVariable),
@@ -160,7 +173,9 @@ export function toGlmCliResult(result: GlmResult): Record<string, unknown> {
     binnedResiduals: result.binnedResiduals,
     vif: vifOut(result.vif),
     qqShape: qqShapeOut(result.qqShape),
-    ...(result.marginalEffects ? { marginalEffects: glmMarginalEffects(result, result.marginalEffects) } : {}),
+    ...(result.marginalEffects
+      ? { marginalEffects: glmMarginalEffects(result, result.marginalEffects) }
+      : {}),
     ...(result.marginalEffects
       ? {
           multiplicity: result.marginalEffects.multiplicity ?? "none",
@@ -224,8 +239,10 @@ export function toCliResult(result: LinearModelResult | GlmResult): Record<strin
     vif: vifOut(result.vif),
     qqShape: qqShapeOut(result.qqShape),
   };
-  if (result.adjustedMeans) out.adjustedMeans = result.adjustedMeans.map((m) => ({ ...m, seScale: "response" }));
-  if (result.adjustedMeansGrid) out.adjustedMeansGrid = { weighting: result.adjustedMeansWeighting, ...result.adjustedMeansGrid };
+  if (result.adjustedMeans)
+    out.adjustedMeans = result.adjustedMeans.map((m) => ({ ...m, seScale: "response" }));
+  if (result.adjustedMeansGrid)
+    out.adjustedMeansGrid = { weighting: result.adjustedMeansWeighting, ...result.adjustedMeansGrid };
   if (result.contrasts) {
     out.contrasts = result.contrasts.map((c) => ({ ...c, seScale: "response" }));
     out.contrastSet = result.contrastSet ?? "reference";
@@ -236,5 +253,7 @@ export function toCliResult(result: LinearModelResult | GlmResult): Record<strin
 
 /** JSON text of a value, with non-finite numbers written as null. */
 export function stringifyResult(value: unknown): string {
-  return JSON.stringify(value, (_key, v: unknown) => (typeof v === "number" && !Number.isFinite(v) ? null : v));
+  return JSON.stringify(value, (_key, v: unknown) =>
+    typeof v === "number" && !Number.isFinite(v) ? null : v,
+  );
 }

@@ -6,7 +6,16 @@ import { INTERCEPT_NAME, interactionName, levelName } from "./coefficient-names"
 import { EngineError } from "./errors";
 import { refuseRepeatedSubjects } from "./repeated-subjects";
 import { isInteraction, type ModelSpec, type Term } from "./model-spec";
-import { cellText, isMissingAt, isMissingCell, isNumericColumn, orderLevels, parseNumber, type DataTable, type TypedColumn } from "./data";
+import {
+  cellText,
+  isMissingAt,
+  isMissingCell,
+  isNumericColumn,
+  orderLevels,
+  parseNumber,
+  type DataTable,
+  type TypedColumn,
+} from "./data";
 
 export interface ContinuousVariable {
   readonly kind: "continuous";
@@ -78,7 +87,11 @@ function mainTerms(spec: ModelSpec): { variable: string; categorical?: boolean; 
 }
 
 /** Checks the columns exist, applies complete-case selection and reads every variable. */
-export function prepareData(spec: ModelSpec, table: DataTable, options: { readonly oneRowPerSubject?: boolean } = {}): PreparedData {
+export function prepareData(
+  spec: ModelSpec,
+  table: DataTable,
+  options: { readonly oneRowPerSubject?: boolean } = {},
+): PreparedData {
   const mains = mainTerms(spec);
   const seenTerms = new Set<string>();
   for (const t of mains) {
@@ -93,7 +106,9 @@ export function prepareData(spec: ModelSpec, table: DataTable, options: { readon
     }
     for (const v of t.interaction) {
       if (!seenTerms.has(v)) {
-        throw new EngineError(`interaction "${label}" uses "${v}", which is not a main term; add it as a term`);
+        throw new EngineError(
+          `interaction "${label}" uses "${v}", which is not a main term; add it as a term`,
+        );
       }
     }
     if (seenTerms.has(label)) throw new EngineError(`interaction "${label}" is listed twice`);
@@ -174,7 +189,8 @@ export function prepareData(spec: ModelSpec, table: DataTable, options: { readon
   const offset = spec.offset ? readNumeric(spec.offset, "offset") : null;
   const idCells = spec.id ? table.columns[spec.id] : null;
   const ids = new Array<string | null>(used.length);
-  for (let k = 0; k < used.length; k++) ids[k] = idCells && !isMissingAt(idCells, used[k]) ? cellText(idCells, used[k]) : null;
+  for (let k = 0; k < used.length; k++)
+    ids[k] = idCells && !isMissingAt(idCells, used[k]) ? cellText(idCells, used[k]) : null;
 
   const variables = new Map<string, Variable>();
   for (const t of mains) {
@@ -189,7 +205,12 @@ export function prepareData(spec: ModelSpec, table: DataTable, options: { readon
       const values = readNumeric(t.variable, "term");
       let sum = 0;
       for (let k = 0; k < used.length; k++) sum += values[k];
-      variables.set(t.variable, { kind: "continuous", name: t.variable, values, mean: sum / Math.max(1, used.length) });
+      variables.set(t.variable, {
+        kind: "continuous",
+        name: t.variable,
+        values,
+        mean: sum / Math.max(1, used.length),
+      });
     } else {
       const { labels, codes: firstSeen } = distinctLabels(cells, used);
       const levels = orderLevels(labels);
@@ -209,7 +230,15 @@ export function prepareData(spec: ModelSpec, table: DataTable, options: { readon
         codes[k] = c;
         counts[c]++;
       }
-      variables.set(t.variable, { kind: "categorical", name: t.variable, levels, reference, referenceIndex, codes, counts });
+      variables.set(t.variable, {
+        kind: "categorical",
+        name: t.variable,
+        levels,
+        reference,
+        referenceIndex,
+        codes,
+        counts,
+      });
     }
   }
   if (spec.treatment !== undefined && variables.get(spec.treatment)?.kind !== "categorical") {
@@ -276,14 +305,20 @@ export interface ColumnPlan {
 }
 
 /** Columns of a term: for an interaction, the product of its parts, the first part varying fastest. */
-export function termColumns(variables: readonly string[], lookup: ReadonlyMap<string, Variable>): ColumnPlan[] {
+export function termColumns(
+  variables: readonly string[],
+  lookup: ReadonlyMap<string, Variable>,
+): ColumnPlan[] {
   let combos: ColumnPlan[] = [{ name: "", factors: [] }];
   variables.forEach((name, partIndex) => {
     const v = lookup.get(name) as Variable;
     const parts: ColumnPlan[] =
       v.kind === "continuous"
         ? [{ name, factors: [{ variable: name }] }]
-        : contrastLevels(v).map((level) => ({ name: levelName(name, v.levels[level]), factors: [{ variable: name, level }] }));
+        : contrastLevels(v).map((level) => ({
+            name: levelName(name, v.levels[level]),
+            factors: [{ variable: name, level }],
+          }));
     const next: ColumnPlan[] = [];
     for (const part of parts) {
       for (const combo of combos) {
@@ -325,7 +360,12 @@ export function buildDesign(
       factors.push([...plan.factors]);
     }
     const kind = vars.length > 1 ? "interaction" : (data.variables.get(vars[0]) as Variable).kind;
-    terms.push({ label: interactionName(vars), kind, variables: [...vars], columns: plans.map((_, i) => first + i) });
+    terms.push({
+      label: interactionName(vars),
+      kind,
+      variables: [...vars],
+      columns: plans.map((_, i) => first + i),
+    });
   }
   const p = names.length;
   const x = new Float64Array(n * p);
@@ -334,7 +374,11 @@ export function buildDesign(
 }
 
 /** Writes one design column (the product of its factors) over the used rows. */
-export function fillDesignColumn(out: Float64Array, factors: readonly ColumnFactor[], lookup: ReadonlyMap<string, Variable>): void {
+export function fillDesignColumn(
+  out: Float64Array,
+  factors: readonly ColumnFactor[],
+  lookup: ReadonlyMap<string, Variable>,
+): void {
   out.fill(1);
   for (const f of factors) {
     const v = lookup.get(f.variable) as Variable;
@@ -350,7 +394,11 @@ export function fillDesignColumn(out: Float64Array, factors: readonly ColumnFact
 export type GridPoint = ReadonlyMap<string, number>;
 
 /** The design row (length p) at a grid point. */
-export function designRow(design: Design, lookup: ReadonlyMap<string, Variable>, point: GridPoint): Float64Array {
+export function designRow(
+  design: Design,
+  lookup: ReadonlyMap<string, Variable>,
+  point: GridPoint,
+): Float64Array {
   const row = new Float64Array(design.p);
   design.columnFactors.forEach((fs, j) => {
     let value = 1;

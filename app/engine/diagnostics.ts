@@ -30,9 +30,15 @@ export function leverages(q: Float64Array, n: number, p: number): Float64Array {
   const h = new Float64Array(n);
   let k = 0;
   for (; k + 3 < p; k += 4) {
-    const o0 = k * n, o1 = o0 + n, o2 = o1 + n, o3 = o2 + n;
+    const o0 = k * n,
+      o1 = o0 + n,
+      o2 = o1 + n,
+      o3 = o2 + n;
     for (let i = 0; i < n; i++) {
-      const a = q[o0 + i], b = q[o1 + i], c = q[o2 + i], d = q[o3 + i];
+      const a = q[o0 + i],
+        b = q[o1 + i],
+        c = q[o2 + i],
+        d = q[o3 + i];
       h[i] += a * a + b * b + c * c + d * d;
     }
   }
@@ -93,7 +99,8 @@ export function observationDiagnostics(fit: LeastSquaresFit): ObservationDiagnos
         const o1 = o0 + n;
         const o2 = o1 + n;
         const o3 = o2 + n;
-        for (let i = r0; i < r1; i++) col[i] += q[o0 + i] * c0 + q[o1 + i] * c1 + q[o2 + i] * c2 + q[o3 + i] * c3;
+        for (let i = r0; i < r1; i++)
+          col[i] += q[o0 + i] * c0 + q[o1 + i] * c1 + q[o2 + i] * c2 + q[o3 + i] * c3;
       }
       for (; k < p; k++) {
         const c = rInverse[k * p + j];
@@ -236,7 +243,10 @@ export function partialResiduals(
  * Partial residuals per term from Q and R when the design is no longer held (large-data mode):
  * √W X b restricted to a term's columns is Σₖ Q[:, k] Σ_{j∈term, j≥k} R[k, j] b_j.
  */
-export function partialResidualsFromQR(fit: LeastSquaresFit, termColumns: readonly (readonly number[])[]): Float64Array[] {
+export function partialResidualsFromQR(
+  fit: LeastSquaresFit,
+  termColumns: readonly (readonly number[])[],
+): Float64Array[] {
   const { n, p, q, r, coefficients, residuals, sqrtWeights } = fit;
   const terms = termColumns.length;
   // G[k, t] = Σ_{j∈t, j≥k} R[k, j] b_j; the term's weighted contribution is Q G[:, t]
@@ -258,9 +268,16 @@ export function partialResidualsFromQR(fit: LeastSquaresFit, termColumns: readon
       const kmax = top[t];
       let k = 0;
       for (; k + 3 < kmax; k += 4) {
-        const g0 = g[go + k], g1 = g[go + k + 1], g2 = g[go + k + 2], g3 = g[go + k + 3];
-        const o0 = k * n, o1 = o0 + n, o2 = o1 + n, o3 = o2 + n;
-        for (let i = r0; i < r1; i++) values[i] += q[o0 + i] * g0 + q[o1 + i] * g1 + q[o2 + i] * g2 + q[o3 + i] * g3;
+        const g0 = g[go + k],
+          g1 = g[go + k + 1],
+          g2 = g[go + k + 2],
+          g3 = g[go + k + 3];
+        const o0 = k * n,
+          o1 = o0 + n,
+          o2 = o1 + n,
+          o3 = o2 + n;
+        for (let i = r0; i < r1; i++)
+          values[i] += q[o0 + i] * g0 + q[o1 + i] * g1 + q[o2 + i] * g2 + q[o3 + i] * g3;
       }
       for (; k < kmax; k++) {
         const gk = g[go + k];

@@ -102,8 +102,7 @@ export function tCdf(t: number, df: number): number {
 }
 
 function tDensity(t: number, df: number): number {
-  const logC =
-    jStat.gammaln((df + 1) / 2) - jStat.gammaln(df / 2) - 0.5 * Math.log(df * Math.PI);
+  const logC = jStat.gammaln((df + 1) / 2) - jStat.gammaln(df / 2) - 0.5 * Math.log(df * Math.PI);
   return Math.exp(logC - ((df + 1) / 2) * Math.log1p((t * t) / df));
 }
 

@@ -6,7 +6,17 @@
 import type { CheckDefinition } from "./checks";
 
 /** The sensitivity analyses a plan can name (stored in planned models; rerun-options.ts runs them). */
-export const SENSITIVITY_KINDS = ["robust_hc3", "variance_function", "exclude_influential", "alternative_covariates", "quasi_poisson", "negative_binomial", "cox_robust_subject", "cox_unstratified", "cox_rmst"] as const;
+export const SENSITIVITY_KINDS = [
+  "robust_hc3",
+  "variance_function",
+  "exclude_influential",
+  "alternative_covariates",
+  "quasi_poisson",
+  "negative_binomial",
+  "cox_robust_subject",
+  "cox_unstratified",
+  "cox_rmst",
+] as const;
 export type SensitivityKind = (typeof SENSITIVITY_KINDS)[number];
 
 /**
@@ -17,7 +27,8 @@ export type AnyFamily = "gaussian" | "binomial" | "poisson" | "quasipoisson" | "
 
 type ModelKind = "linear" | "glm" | "cox";
 
-const kindOf = (family: string): ModelKind => (family === "gaussian" ? "linear" : family === "cox" ? "cox" : "glm");
+const kindOf = (family: string): ModelKind =>
+  family === "gaussian" ? "linear" : family === "cox" ? "cox" : "glm";
 
 const COUNT_FAMILIES: readonly string[] = ["poisson", "quasipoisson", "negative-binomial"];
 
@@ -30,7 +41,11 @@ const CHECK_FAMILIES: Partial<Record<CheckDefinition["key"], readonly string[]>>
 };
 
 /** Whether a check of the catalogue applies to a model of this family (and with or without a treatment term). */
-export function checkApplies(def: Pick<CheckDefinition, "key" | "models" | "needsTreatment">, family: string, hasTreatment = true): boolean {
+export function checkApplies(
+  def: Pick<CheckDefinition, "key" | "models" | "needsTreatment">,
+  family: string,
+  hasTreatment = true,
+): boolean {
   const kind = kindOf(family);
   if (def.needsTreatment && !hasTreatment) return false;
   const byKind = kind === "cox" ? def.models === "cox" : def.models === "both" || def.models === kind;

@@ -15,7 +15,11 @@ export type ModelResult = LinearModelResult | GlmResult;
  * Reruns a model: validates the specification, reads the table (complete cases), fits and
  * computes every diagnostic. Throws EngineError with a one-line message on bad input.
  */
-export function fitModel(spec: ModelSpec | ModelSpecInput | unknown, table: TableInput, options: FitOptions & GlmOptions = {}): ModelResult {
+export function fitModel(
+  spec: ModelSpec | ModelSpecInput | unknown,
+  table: TableInput,
+  options: FitOptions & GlmOptions = {},
+): ModelResult {
   const parsed = parseModelSpec(spec);
   const data = toDataTable(table);
   if (data.nRows === 0) throw new EngineError("the data has no rows");
@@ -24,7 +28,11 @@ export function fitModel(spec: ModelSpec | ModelSpecInput | unknown, table: Tabl
 }
 
 /** fitModel for a gaussian specification, typed as the linear result. */
-export function fitLinear(spec: ModelSpec | ModelSpecInput | unknown, table: TableInput, options: FitOptions = {}): LinearModelResult {
+export function fitLinear(
+  spec: ModelSpec | ModelSpecInput | unknown,
+  table: TableInput,
+  options: FitOptions = {},
+): LinearModelResult {
   const result = fitModel(spec, table, options);
   if (result.kind !== "linear") throw new EngineError("the specification is not a linear (gaussian) model");
   return result;
@@ -34,7 +42,15 @@ export { EngineError } from "./errors";
 export { ENGINE_VERSION, RESULTS_CAUTION } from "./version";
 export { modelSpecSchema, parseModelSpec, CANONICAL_LINK } from "./model-spec";
 export type { ModelSpec, ModelSpecInput, Term, MainTerm, InteractionTerm, Family, Link } from "./model-spec";
-export { toDataTable, isMissingCell, isMissingAt, cellText, selectRows, parseNumber, orderLevels } from "./data";
+export {
+  toDataTable,
+  isMissingCell,
+  isMissingAt,
+  cellText,
+  selectRows,
+  parseNumber,
+  orderLevels,
+} from "./data";
 export type { TableInput, RowTable, ColumnTable, TextColumnTable, TypedColumn, DataTable } from "./data";
 export type {
   LinearModelResult,
@@ -66,14 +82,29 @@ export type { ObservationDiagnostics } from "./diagnostics";
 export * as distributions from "./distributions";
 export { partialResiduals, partialResidualsFromQR, robustCovariances } from "./diagnostics";
 export { fitGlmModel, SeparationError } from "./glm/glm-model";
-export type { GlmResult, GlmOptions, GlmCoefficientRow, GlmFitSummary, GlmObservationColumns, GlmChecks, RatioRow } from "./glm/glm-model";
+export type {
+  GlmResult,
+  GlmOptions,
+  GlmCoefficientRow,
+  GlmFitSummary,
+  GlmObservationColumns,
+  GlmChecks,
+  RatioRow,
+} from "./glm/glm-model";
 export type { MarginalEffects, MarginalMean, MarginalContrast } from "./glm/marginal-effects";
 export type { ProfileInterval } from "./glm/profile-intervals";
 export type { OverdispersionCheck, LikelihoodRatioTest, Calibration, BinnedResidual } from "./glm/glm-checks";
 export { fitWithObservationDiagnostics, LARGE_DESIGN_CELLS } from "./large-data";
 export type { CoreFitWithDiagnostics } from "./large-data";
 export { fitCoxModel, MonotoneLikelihoodError } from "./survival/cox-model";
-export type { CoxResult, CoxCoefficientRow, HazardRatioRow, CoxObservationColumns, SchoenfeldRow, SurvivalByGroup } from "./survival/cox-model";
+export type {
+  CoxResult,
+  CoxCoefficientRow,
+  HazardRatioRow,
+  CoxObservationColumns,
+  SchoenfeldRow,
+  SurvivalByGroup,
+} from "./survival/cox-model";
 export { coxSpecSchema, parseCoxSpec, isCoxSpec } from "./survival/cox-spec";
 export type { CoxSpec, CoxSpecInput, Ties, TimeTransform } from "./survival/cox-spec";
 export { toCoxCliResult } from "./survival/cox-result";
@@ -93,6 +124,17 @@ export type {
   RepeatedObservationColumns,
   SubjectRow,
 } from "./repeated/repeated-model";
-export { repeatedSpecSchema, parseRepeatedSpec, isRepeatedSpec, covarianceStructureSchema } from "./repeated/repeated-spec";
-export type { RepeatedSpec, RepeatedSpecInput, CovarianceStructureName, RepeatedDf, RepeatedMethod } from "./repeated/repeated-spec";
+export {
+  repeatedSpecSchema,
+  parseRepeatedSpec,
+  isRepeatedSpec,
+  covarianceStructureSchema,
+} from "./repeated/repeated-spec";
+export type {
+  RepeatedSpec,
+  RepeatedSpecInput,
+  CovarianceStructureName,
+  RepeatedDf,
+  RepeatedMethod,
+} from "./repeated/repeated-spec";
 export { toRepeatedCliResult } from "./repeated/repeated-result";

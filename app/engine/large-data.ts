@@ -5,7 +5,12 @@
  * residuals read the design); above it the design's own storage becomes Q, saving one n×p array
  * at peak, and partial residuals are rebuilt from Q and R.
  */
-import { observationDiagnostics, partialResiduals, partialResidualsFromQR, type ObservationDiagnostics } from "./diagnostics";
+import {
+  observationDiagnostics,
+  partialResiduals,
+  partialResidualsFromQR,
+  type ObservationDiagnostics,
+} from "./diagnostics";
 import { leastSquares, type LeastSquaresFit, type LeastSquaresInput } from "./least-squares";
 
 /** Above this many design cells (n·p) the design's storage is reused for Q. */

@@ -7,7 +7,16 @@
  * With `overwriteDesign` (large-data mode) the design's own storage becomes Q: one n×p array
  * less at peak, at the cost of the refinement step.
  */
-import { applyQt, crossInverse, formThinQ, householderQR, invertUpper, solveUpper, thinQtVector, upperR } from "./qr";
+import {
+  applyQt,
+  crossInverse,
+  formThinQ,
+  householderQR,
+  invertUpper,
+  solveUpper,
+  thinQtVector,
+  upperR,
+} from "./qr";
 
 export interface LeastSquaresFit {
   readonly n: number;
@@ -51,8 +60,14 @@ export function multiply(x: Float64Array, n: number, p: number, b: ArrayLike<num
   const out = new Float64Array(n);
   let j = 0;
   for (; j + 3 < p; j += 4) {
-    const b0 = b[j], b1 = b[j + 1], b2 = b[j + 2], b3 = b[j + 3];
-    const o0 = j * n, o1 = o0 + n, o2 = o1 + n, o3 = o2 + n;
+    const b0 = b[j],
+      b1 = b[j + 1],
+      b2 = b[j + 2],
+      b3 = b[j + 3];
+    const o0 = j * n,
+      o1 = o0 + n,
+      o2 = o1 + n,
+      o3 = o2 + n;
     for (let i = 0; i < n; i++) out[i] += x[o0 + i] * b0 + x[o1 + i] * b1 + x[o2 + i] * b2 + x[o3 + i] * b3;
   }
   for (; j < p; j++) {

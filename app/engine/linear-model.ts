@@ -2,16 +2,33 @@
  * The linear model rerun: complete-case data, design, (weighted) least squares, inference,
  * observation-level diagnostics, tests of assumptions, variance inflation and adjusted means.
  */
-import { adjustedMeans, type AdjustedMean, type AdjustedMeansGrid, type Contrast, type MeansWeighting } from "./adjusted-means";
+import {
+  adjustedMeans,
+  type AdjustedMean,
+  type AdjustedMeansGrid,
+  type Contrast,
+  type MeansWeighting,
+} from "./adjusted-means";
 import { buildDesign, prepareData, type Design, type PreparedData, type Variable } from "./design";
-import { observationDiagnostics, partialResiduals, robustCovariances, type ObservationDiagnostics } from "./diagnostics";
+import {
+  observationDiagnostics,
+  partialResiduals,
+  robustCovariances,
+  type ObservationDiagnostics,
+} from "./diagnostics";
 import { fUpper, tQuantile, tTwoSided } from "./distributions";
 import { EngineError } from "./errors";
 import { leastSquares } from "./least-squares";
 import type { LinearFitContext } from "./linear-fit-context";
 import type { ContrastSet, ModelSpec } from "./model-spec";
 import type { Multiplicity } from "./multiplicity";
-import { andersonDarling, lilliefors, shapiroWilk, type AndersonDarlingTest, type NormalityTest } from "./normality";
+import {
+  andersonDarling,
+  lilliefors,
+  shapiroWilk,
+  type AndersonDarlingTest,
+  type NormalityTest,
+} from "./normality";
 import { readQqShape, type QqShape } from "./qq-shape";
 import { homogeneityOfSlopes, resetTest, type HomogeneityOfSlopes } from "./specification-tests";
 import { breuschPagan, brownForsythe, type BreuschPaganTest, type FTest } from "./spread";
@@ -131,7 +148,12 @@ export interface LinearModelResult {
   readonly covariance: number[][];
   readonly covarianceType: CovarianceType;
   readonly modelSE: number[];
-  readonly robustSE: { readonly HC0: number[]; readonly HC1: number[]; readonly HC2: number[]; readonly HC3: number[] };
+  readonly robustSE: {
+    readonly HC0: number[];
+    readonly HC1: number[];
+    readonly HC2: number[];
+    readonly HC3: number[];
+  };
   readonly fit: FitSummary;
   readonly observations: ObservationColumns;
   readonly tests: AssumptionTests;
@@ -174,11 +196,18 @@ function checkEstimable(spec: ModelSpec, data: PreparedData, design: Design): vo
   const y = data.response;
   let constant = true;
   for (let i = 1; i < n; i++) if (y[i] !== y[0]) constant = false;
-  if (constant) throw new EngineError(`response "${spec.response}" is constant (every used row is ${y[0]}); there is nothing to model`);
+  if (constant)
+    throw new EngineError(
+      `response "${spec.response}" is constant (every used row is ${y[0]}); there is nothing to model`,
+    );
 }
 
 /** Fits the linear model the specification describes (gaussian family, identity link). */
-export function fitLinearModel(spec: ModelSpec, table: DataTable, options: FitOptions = {}): LinearModelResult {
+export function fitLinearModel(
+  spec: ModelSpec,
+  table: DataTable,
+  options: FitOptions = {},
+): LinearModelResult {
   if (spec.family !== "gaussian") throw new EngineError(`family "${spec.family}" is not a linear model`);
   if (spec.link !== undefined && spec.link !== "identity") {
     throw new EngineError(`link "${spec.link}" is not available for the gaussian family; use "identity"`);
@@ -187,7 +216,14 @@ export function fitLinearModel(spec: ModelSpec, table: DataTable, options: FitOp
   const design = buildDesign(spec, data);
   checkEstimable(spec, data, design);
   const weights = options.weightsOverride ?? data.weights;
-  const outcome = leastSquares({ x: design.x, n: design.n, p: design.p, y: data.response, weights, offset: data.offset });
+  const outcome = leastSquares({
+    x: design.x,
+    n: design.n,
+    p: design.p,
+    y: data.response,
+    weights,
+    offset: data.offset,
+  });
   if (!outcome.ok) {
     const names = outcome.aliased.map((j) => `"${design.names[j]}"`).join(", ");
     throw new EngineError(
@@ -200,7 +236,11 @@ export function fitLinearModel(spec: ModelSpec, table: DataTable, options: FitOp
   return assembleResult(ctx, diag, options);
 }
 
-function assembleResult(ctx: LinearFitContext, diag: ObservationDiagnostics, options: FitOptions): LinearModelResult {
+function assembleResult(
+  ctx: LinearFitContext,
+  diag: ObservationDiagnostics,
+  options: FitOptions,
+): LinearModelResult {
   const { spec, data, design, fit, weights } = ctx;
   const { n, p } = design;
   const df = fit.dfResidual;
@@ -216,7 +256,16 @@ function assembleResult(ctx: LinearFitContext, diag: ObservationDiagnostics, opt
     const estimate = fit.coefficients[j];
     const se = Math.sqrt(cov[j * p + j]);
     const statistic = estimate / se;
-    return { name, term: termOf.get(j) ?? null, estimate, se, statistic, p: tTwoSided(statistic, df), lower: estimate - q * se, upper: estimate + q * se };
+    return {
+      name,
+      term: termOf.get(j) ?? null,
+      estimate,
+      se,
+      statistic,
+      p: tTwoSided(statistic, df),
+      lower: estimate - q * se,
+      upper: estimate + q * se,
+    };
   });
 
   // R², F (weighted sums of squares of the fitted linear predictor, as is usual for weighted fits)
@@ -253,11 +302,25 @@ function assembleResult(ctx: LinearFitContext, diag: ObservationDiagnostics, opt
   };
   const hos = homogeneityOfSlopes(ctx);
   const treatment = spec.treatment ? data.variables.get(spec.treatment) : undefined;
-  const treatmentTerm = spec.treatment ? design.terms.find((t) => t.kind !== "interaction" && t.variables[0] === spec.treatment) : undefined;
-  const treatmentProblem = spec.treatment ? treatmentTestProblem(spec.treatment, design.terms.filter((t) => t.kind === "interaction").map((t) => t.variables)) : null;
+  const treatmentTerm = spec.treatment
+    ? design.terms.find((t) => t.kind !== "interaction" && t.variables[0] === spec.treatment)
+    : undefined;
+  const treatmentProblem = spec.treatment
+    ? treatmentTestProblem(
+        spec.treatment,
+        design.terms.filter((t) => t.kind === "interaction").map((t) => t.variables),
+      )
+    : null;
   const treatmentTest: TreatmentFTest | undefined = treatmentTerm
     ? treatmentProblem
-      ? { term: treatmentTerm.label, statistic: null, df1: treatmentTerm.columns.length, df2: df, p: null, reason: treatmentProblem }
+      ? {
+          term: treatmentTerm.label,
+          statistic: null,
+          df1: treatmentTerm.columns.length,
+          df2: df,
+          p: null,
+          reason: treatmentProblem,
+        }
       : waldF(treatmentTerm.label, fit.coefficients, modelCov, p, treatmentTerm.columns, df)
     : undefined;
   const fullTests: AssumptionTests =
@@ -274,14 +337,26 @@ function assembleResult(ctx: LinearFitContext, diag: ObservationDiagnostics, opt
     multiplicity: spec.multiplicity ?? "none",
   });
 
-  const partial = partialResiduals(design.x, n, design.terms.map((t) => t.columns), fit.coefficients, fit.residuals);
-  const partialResidualColumns = design.terms.map((t, k) => ({ term: t.label, values: toNumbers(partial[k]) }));
+  const partial = partialResiduals(
+    design.x,
+    n,
+    design.terms.map((t) => t.columns),
+    fit.coefficients,
+    fit.residuals,
+  );
+  const partialResidualColumns = design.terms.map((t, k) => ({
+    term: t.label,
+    values: toNumbers(partial[k]),
+  }));
 
   return {
     kind: "linear",
     engineVersion: ENGINE_VERSION,
     caution: RESULTS_CAUTION,
-    method: options.method ?? { kind: "planned", description: "planned model, least squares" + (data.weights ? " with prior weights" : "") },
+    method: options.method ?? {
+      kind: "planned",
+      description: "planned model, least squares" + (data.weights ? " with prior weights" : ""),
+    },
     spec,
     family: "gaussian",
     link: "identity",
@@ -291,7 +366,11 @@ function assembleResult(ctx: LinearFitContext, diag: ObservationDiagnostics, opt
     rank: p,
     dfResidual: df,
     variables: [...data.variables.values()].map(summarizeVariable),
-    terms: design.terms.map((t) => ({ label: t.label, kind: t.kind, coefficients: t.columns.map((c) => design.names[c]) })),
+    terms: design.terms.map((t) => ({
+      label: t.label,
+      kind: t.kind,
+      coefficients: t.columns.map((c) => design.names[c]),
+    })),
     coefficients,
     covariance: toMatrix(cov, p),
     covarianceType,

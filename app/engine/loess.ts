@@ -24,7 +24,14 @@ function tricube(u: number): number {
 }
 
 /** Local linear fit at x0 over the window [lo, hi] of sorted xs with robustness weights. */
-function localFit(xs: Float64Array, ys: Float64Array, rw: Float64Array, lo: number, hi: number, x0: number): number {
+function localFit(
+  xs: Float64Array,
+  ys: Float64Array,
+  rw: Float64Array,
+  lo: number,
+  hi: number,
+  x0: number,
+): number {
   const maxDist = Math.max(x0 - xs[lo], xs[hi] - x0) || 1;
   let sw = 0;
   let sx = 0;
@@ -53,7 +60,13 @@ function localFit(xs: Float64Array, ys: Float64Array, rw: Float64Array, lo: numb
  * The loess curve of y on x at `gridSize` evenly spaced x values over the data's range.
  * Non-finite pairs are ignored. Returns an empty curve for fewer than 3 points.
  */
-export function loessCurve(x: ArrayLike<number>, y: ArrayLike<number>, span = 0.5, gridSize = 120, iterations = 2): SmoothPoint[] {
+export function loessCurve(
+  x: ArrayLike<number>,
+  y: ArrayLike<number>,
+  span = 0.5,
+  gridSize = 120,
+  iterations = 2,
+): SmoothPoint[] {
   const idx: number[] = [];
   for (let i = 0; i < x.length; i++) if (Number.isFinite(x[i]) && Number.isFinite(y[i])) idx.push(i);
   idx.sort((a, b) => x[a] - x[b] || a - b);

@@ -17,7 +17,10 @@ export const MULTIPLICITY_NAMES: Record<Multiplicity, string> = {
 };
 
 /** The contrast sets in words. */
-export const CONTRAST_SET_NAMES = { reference: "each arm against the reference arm", pairwise: "every pair of arms" } as const;
+export const CONTRAST_SET_NAMES = {
+  reference: "each arm against the reference arm",
+  pairwise: "every pair of arms",
+} as const;
 /** The adjusted-means weightings in words. */
 export const MEANS_WEIGHTING_NAMES = {
   equal: "other categorical factors averaged with equal weight over their levels",

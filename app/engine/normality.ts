@@ -148,7 +148,11 @@ function logNormalCdf(z: number): number {
 /** Anderson–Darling test of normality with estimated mean and variance, n ≥ 8. */
 export function andersonDarling(values: ArrayLike<number>): AndersonDarlingTest {
   const n = values.length;
-  if (n < 8) return { ...notComputed(`Anderson–Darling needs at least 8 residuals (there are ${n})`), modifiedStatistic: null };
+  if (n < 8)
+    return {
+      ...notComputed(`Anderson–Darling needs at least 8 residuals (there are ${n})`),
+      modifiedStatistic: null,
+    };
   const x = sorted(values);
   const { mean, sd } = meanSd(x);
   if (!(sd > 0)) return { ...notComputed("the residuals are all equal"), modifiedStatistic: null };
@@ -196,9 +200,12 @@ export function lilliefors(values: ArrayLike<number>): NormalityTest {
   if (p > 0.1) {
     const kk = (Math.sqrt(n) - 0.01 + 0.85 / Math.sqrt(n)) * k;
     if (kk <= 0.302) p = 1;
-    else if (kk <= 0.5) p = 2.76773 - 19.828315 * kk + 80.709644 * kk ** 2 - 138.55152 * kk ** 3 + 81.218052 * kk ** 4;
-    else if (kk <= 0.9) p = -4.901232 + 40.662806 * kk - 97.490286 * kk ** 2 + 94.029866 * kk ** 3 - 32.355711 * kk ** 4;
-    else if (kk <= 1.31) p = 6.198765 - 19.558097 * kk + 23.186922 * kk ** 2 - 12.234627 * kk ** 3 + 2.423045 * kk ** 4;
+    else if (kk <= 0.5)
+      p = 2.76773 - 19.828315 * kk + 80.709644 * kk ** 2 - 138.55152 * kk ** 3 + 81.218052 * kk ** 4;
+    else if (kk <= 0.9)
+      p = -4.901232 + 40.662806 * kk - 97.490286 * kk ** 2 + 94.029866 * kk ** 3 - 32.355711 * kk ** 4;
+    else if (kk <= 1.31)
+      p = 6.198765 - 19.558097 * kk + 23.186922 * kk ** 2 - 12.234627 * kk ** 3 + 2.423045 * kk ** 4;
     else p = 0;
   }
   return { statistic: k, p };

@@ -20,8 +20,12 @@ export const populationConditionSchema = z.union([
   z
     .object({ column: z.string().min(1), min: z.number().optional(), max: z.number().optional() })
     .strict()
-    .refine((c) => c.min !== undefined || c.max !== undefined, { message: "a range condition needs min, max or both" })
-    .refine((c) => c.min === undefined || c.max === undefined || c.min <= c.max, { message: "min must not exceed max" }),
+    .refine((c) => c.min !== undefined || c.max !== undefined, {
+      message: "a range condition needs min, max or both",
+    })
+    .refine((c) => c.min === undefined || c.max === undefined || c.min <= c.max, {
+      message: "min must not exceed max",
+    }),
 ]);
 export const populationSchema = z.array(populationConditionSchema);
 
@@ -73,25 +77,37 @@ function matchesValue(column: TypedColumn, i: number, value: PopulationValue): b
 }
 
 /** A test of one row against one condition; throws EngineError for a range on a non-number. */
-function tester(c: PopulationCondition, cells: TypedColumn, rowNumbers: readonly number[]): (i: number) => boolean {
+function tester(
+  c: PopulationCondition,
+  cells: TypedColumn,
+  rowNumbers: readonly number[],
+): (i: number) => boolean {
   if ("in" in c) return (i) => !isMissingAt(cells, i) && c.in.some((v) => matchesValue(cells, i, v));
   if ("notIn" in c) return (i) => isMissingAt(cells, i) || !c.notIn.some((v) => matchesValue(cells, i, v));
   return (i) => {
     if (isMissingAt(cells, i)) return false;
     const v = cells instanceof Float64Array ? cells[i] : parseNumber(cellText(cells, i));
     if (v === null) {
-      throw new EngineError(`population condition "${describeCondition(c)}": column "${c.column}" is not numeric (data row ${rowNumbers[i]} has "${cellText(cells, i)}")`);
+      throw new EngineError(
+        `population condition "${describeCondition(c)}": column "${c.column}" is not numeric (data row ${rowNumbers[i]} has "${cellText(cells, i)}")`,
+      );
     }
     return (c.min === undefined || v >= c.min) && (c.max === undefined || v <= c.max);
   };
 }
 
 /** Keeps the rows that meet every condition; counts the others by the first condition they fail. */
-export function selectPopulation<T extends Columns>(table: T, conditions: readonly PopulationCondition[] | undefined): PopulationSelection<T> {
+export function selectPopulation<T extends Columns>(
+  table: T,
+  conditions: readonly PopulationCondition[] | undefined,
+): PopulationSelection<T> {
   if (!conditions || conditions.length === 0) return { table, excluded: 0, byCondition: [] };
   const tests = conditions.map((c) => {
     const cells = table.columns[c.column];
-    if (!cells) throw new EngineError(`column "${c.column}" of the population condition "${describeCondition(c)}" is missing from the data`);
+    if (!cells)
+      throw new EngineError(
+        `column "${c.column}" of the population condition "${describeCondition(c)}" is missing from the data`,
+      );
     return tester(c, cells, table.rowNumbers);
   });
   const removed = conditions.map(() => 0);
@@ -112,6 +128,8 @@ export function selectPopulation<T extends Columns>(table: T, conditions: readon
 }
 
 /** The population of plans stored before conditions: one column equal to one value. */
-export function populationFromLegacy(legacy: { column: string; value: string } | null | undefined): PopulationCondition[] {
+export function populationFromLegacy(
+  legacy: { column: string; value: string } | null | undefined,
+): PopulationCondition[] {
   return legacy ? [{ column: legacy.column, in: [legacy.value] }] : [];
 }

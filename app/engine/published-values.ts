@@ -22,46 +22,58 @@ export const PRINTED_NUMBER = /^(?:[<>]\s*)?[-−+]?(?:\d+(?:\.\d*)?|\.\d+)$/;
 const printedValue = z
   .string()
   .trim()
-  .regex(PRINTED_NUMBER, 'Write the value as printed, e.g. -2.35, 0.041 or <0.001 (digits with a decimal point; no exponent or thousands separator).');
+  .regex(
+    PRINTED_NUMBER,
+    "Write the value as printed, e.g. -2.35, 0.041 or <0.001 (digits with a decimal point; no exponent or thousands separator).",
+  );
 
 /** One part of a coefficient's term: a continuous variable, or a level of a categorical one. */
-export const coefficientPartSchema = z.object({ variable: z.string().min(1), level: z.string().min(1).optional() }).strict();
+export const coefficientPartSchema = z
+  .object({ variable: z.string().min(1), level: z.string().min(1).optional() })
+  .strict();
 
-export const publishedValueSchema = z.discriminatedUnion("quantity", [
-  z
-    .object({
-      quantity: z.literal("contrast"),
-      /** The arm compared. */
-      level: z.string().min(1),
-      /** The arm it is compared with; the plan's reference arm when absent. */
-      reference: z.string().min(1).optional(),
-      /** Generalized linear models report several measures per contrast: name the one printed. */
-      measure: z.enum(CONTRAST_MEASURES).optional(),
-      statistic: z.enum(PUBLISHED_STATISTICS),
-      value: printedValue,
-    })
-    .strict(),
-  z
-    .object({
-      quantity: z.literal("mean"),
-      /** The arm whose adjusted (or, for a generalized linear model, standardized) mean was printed. */
-      level: z.string().min(1),
-      statistic: z.enum(["estimate", "se", "lower", "upper"]),
-      value: printedValue,
-    })
-    .strict(),
-  z
-    .object({
-      quantity: z.literal("coefficient"),
-      /** The term by its parts: one for a main term, two or three for an interaction, in the plan's order. */
-      term: z.array(coefficientPartSchema).min(1).max(3),
-      statistic: z.enum(PUBLISHED_STATISTICS),
-      value: printedValue,
-    })
-    .strict(),
-]).superRefine((v, ctx) => {
-  if (v.statistic !== "p" && /^\s*[<>]/.test(v.value)) ctx.addIssue({ code: "custom", path: ["value"], message: `Only a p-value may be printed as a bound ("<0.001"); give the ${v.statistic === "se" ? "SE" : v.statistic} as printed.` });
-});
+export const publishedValueSchema = z
+  .discriminatedUnion("quantity", [
+    z
+      .object({
+        quantity: z.literal("contrast"),
+        /** The arm compared. */
+        level: z.string().min(1),
+        /** The arm it is compared with; the plan's reference arm when absent. */
+        reference: z.string().min(1).optional(),
+        /** Generalized linear models report several measures per contrast: name the one printed. */
+        measure: z.enum(CONTRAST_MEASURES).optional(),
+        statistic: z.enum(PUBLISHED_STATISTICS),
+        value: printedValue,
+      })
+      .strict(),
+    z
+      .object({
+        quantity: z.literal("mean"),
+        /** The arm whose adjusted (or, for a generalized linear model, standardized) mean was printed. */
+        level: z.string().min(1),
+        statistic: z.enum(["estimate", "se", "lower", "upper"]),
+        value: printedValue,
+      })
+      .strict(),
+    z
+      .object({
+        quantity: z.literal("coefficient"),
+        /** The term by its parts: one for a main term, two or three for an interaction, in the plan's order. */
+        term: z.array(coefficientPartSchema).min(1).max(3),
+        statistic: z.enum(PUBLISHED_STATISTICS),
+        value: printedValue,
+      })
+      .strict(),
+  ])
+  .superRefine((v, ctx) => {
+    if (v.statistic !== "p" && /^\s*[<>]/.test(v.value))
+      ctx.addIssue({
+        code: "custom",
+        path: ["value"],
+        message: `Only a p-value may be printed as a bound ("<0.001"); give the ${v.statistic === "se" ? "SE" : v.statistic} as printed.`,
+      });
+  });
 
 export type PublishedValue = z.infer<typeof publishedValueSchema>;
 export type PublishedQuantity = PublishedValue["quantity"];

@@ -27,14 +27,24 @@
 import { quantileSorted } from "d3-array";
 import { normalDensity, normalQuantile } from "./distributions";
 
-export type QqReading = "close to normal" | "one extreme residual" | "right-skewed" | "left-skewed" | "heavier tails" | "lighter tails";
+export type QqReading =
+  | "close to normal"
+  | "one extreme residual"
+  | "right-skewed"
+  | "left-skewed"
+  | "heavier tails"
+  | "lighter tails";
 
 export interface QqShape {
   readonly reading: QqReading;
   readonly skewness: number;
   readonly excessKurtosis: number;
   /** Moment skewness and excess kurtosis without the residual farthest from the median. */
-  readonly withoutMostExtreme: { readonly residual: number; readonly skewness: number; readonly excessKurtosis: number };
+  readonly withoutMostExtreme: {
+    readonly residual: number;
+    readonly skewness: number;
+    readonly excessKurtosis: number;
+  };
   /** Kelly's decile skewness (0 for a normal). */
   readonly quantileSkewness: number;
   /** Moors' octile tail weight (1.233 for a normal). */
@@ -98,7 +108,10 @@ const moorsOf = (q: readonly number[]) => (q[5] - q[3] + (q[2] - q[0])) / (q[4] 
 
 /** Standard errors of Kelly's skewness and Moors' tail weight for n normal values. */
 export function quantileMeasureStandardErrors(n: number): { skewness: number; tailWeight: number } {
-  return { skewness: quantileMeasureSE(KELLY_PS, kellyOf, n), tailWeight: quantileMeasureSE(MOORS_PS, moorsOf, n) };
+  return {
+    skewness: quantileMeasureSE(KELLY_PS, kellyOf, n),
+    tailWeight: quantileMeasureSE(MOORS_PS, moorsOf, n),
+  };
 }
 
 function slope(x: Float64Array, y: Float64Array, from: number, to: number): number {
@@ -169,7 +182,9 @@ function quantileShape(kelly: number, moors: number, n: number): Shape {
 
 /** Reads the Q-Q shape of a set of residuals (at least 8 for a reading other than "close to normal"). */
 export function readQqShape(residuals: ArrayLike<number>): QqShape {
-  const values = Float64Array.from(residuals).filter((v) => Number.isFinite(v)).sort();
+  const values = Float64Array.from(residuals)
+    .filter((v) => Number.isFinite(v))
+    .sort();
   const n = values.length;
   const all = moments(values);
   const median = n > 0 ? (quantileSorted(values as unknown as number[], 0.5) as number) : NaN;
@@ -184,7 +199,12 @@ export function readQqShape(residuals: ArrayLike<number>): QqShape {
   const theoretical = new Float64Array(n);
   for (let i = 0; i < n; i++) theoretical[i] = normalQuantile((i + 1 - 0.375) / (n + 0.25));
   const tail = Math.max(2, Math.floor(n / 10));
-  const middle = slope(theoretical, values, Math.floor(n / 4), Math.max(Math.floor(n / 4) + 2, Math.ceil((3 * n) / 4)));
+  const middle = slope(
+    theoretical,
+    values,
+    Math.floor(n / 4),
+    Math.max(Math.floor(n / 4) + 2, Math.ceil((3 * n) / 4)),
+  );
   const lowerTailRatio = n >= 8 ? slope(theoretical, values, 0, tail) / middle : NaN;
   const upperTailRatio = n >= 8 ? slope(theoretical, values, n - tail, n) / middle : NaN;
 
@@ -196,18 +216,24 @@ export function readQqShape(residuals: ArrayLike<number>): QqShape {
     const byQuantiles = quantileShape(kelly, moors, n);
     const skewed = (x: QqReading) => x === "right-skewed" || x === "left-skewed";
     if (byMoments === "close to normal" && byQuantiles === "close to normal") reading = "close to normal";
-    else if (withoutOne === "close to normal" && byQuantiles === "close to normal") reading = "one extreme residual";
+    else if (withoutOne === "close to normal" && byQuantiles === "close to normal")
+      reading = "one extreme residual";
     // skewness only when the quantiles show it, or the moments show it with and without the most
     // extreme residual, the same way (dropping one end of symmetric heavy tails leaves a lean)
     else if (skewed(byQuantiles)) reading = byQuantiles;
     else if (skewed(withoutOne) && withoutOne === byMoments) reading = withoutOne;
     // otherwise the tails, as the quantiles or the kurtosis (without, then with, the most extreme residual) read them
-    else reading = [byQuantiles, tailsOf(without, n - 1), tailsOf(all, n)].find((x) => x !== "close to normal") ?? byMoments;
+    else
+      reading =
+        [byQuantiles, tailsOf(without, n - 1), tailsOf(all, n)].find((x) => x !== "close to normal") ??
+        byMoments;
     skewFromOne = skewed(byMoments) && !skewed(reading) && reading !== "one extreme residual";
   }
   const fmt = (v: number) => (Number.isFinite(v) ? v.toFixed(2).replace(/^-/, "−") : "n/a");
   const quantileWords = `quantile skewness ${fmt(kelly)} (Kelly; 0 for a normal), tail weight ${fmt(moors)} (Moors; ${NORMAL_TAIL_WEIGHT.toFixed(2)} for a normal)`;
-  const fromOne = skewFromOne ? ` The skewness of ${fmt(all.skewness)} comes from one residual (${fmt(extreme)}): ${fmt(without.skewness)} without it.` : "";
+  const fromOne = skewFromOne
+    ? ` The skewness of ${fmt(all.skewness)} comes from one residual (${fmt(extreme)}): ${fmt(without.skewness)} without it.`
+    : "";
   const summaries: Record<QqReading, string> = {
     "close to normal": `The points follow the line; skewness ${fmt(all.skewness)} and excess kurtosis ${fmt(all.excessKurtosis)} are within what chance gives for ${n} residuals, as are the ${quantileWords}.`,
     "one extreme residual": `One extreme residual (${fmt(extreme)}); otherwise close to normal: skewness ${fmt(all.skewness)} with all ${n} residuals and ${fmt(without.skewness)} without that one, excess kurtosis ${fmt(all.excessKurtosis)} and ${fmt(without.excessKurtosis)}; ${quantileWords}.`,
@@ -220,7 +246,11 @@ export function readQqShape(residuals: ArrayLike<number>): QqShape {
     reading,
     skewness: all.skewness,
     excessKurtosis: all.excessKurtosis,
-    withoutMostExtreme: { residual: extreme, skewness: without.skewness, excessKurtosis: without.excessKurtosis },
+    withoutMostExtreme: {
+      residual: extreme,
+      skewness: without.skewness,
+      excessKurtosis: without.excessKurtosis,
+    },
     quantileSkewness: kelly,
     quantileTailWeight: moors,
     lowerTailRatio,

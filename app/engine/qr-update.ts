@@ -94,7 +94,11 @@ export function reduceColumns(fit: LeastSquaresFit, z: Float64Array, k: number):
  * The residual sum of squares and rank of the fit with some of the reduced columns appended
  * (`columns`, in order; all of them when omitted, which factors `reduced.z` in place: call it last).
  */
-export function fitWithReduced(reduced: ReducedColumns, columns?: readonly number[], tolerance = ALIAS_TOLERANCE): AppendedFit {
+export function fitWithReduced(
+  reduced: ReducedColumns,
+  columns?: readonly number[],
+  tolerance = ALIAS_TOLERANCE,
+): AppendedFit {
   const { n, p } = reduced;
   let z = reduced.z;
   let norms = reduced.norms;
@@ -118,6 +122,11 @@ export function fitWithReduced(reduced: ReducedColumns, columns?: readonly numbe
  * The residual sum of squares and rank of the fit with the k columns of `z` (column-major n×k,
  * unweighted, overwritten) appended to its design.
  */
-export function appendColumns(fit: LeastSquaresFit, z: Float64Array, k: number, tolerance = ALIAS_TOLERANCE): AppendedFit {
+export function appendColumns(
+  fit: LeastSquaresFit,
+  z: Float64Array,
+  k: number,
+  tolerance = ALIAS_TOLERANCE,
+): AppendedFit {
   return fitWithReduced(reduceColumns(fit, z, k), undefined, tolerance);
 }

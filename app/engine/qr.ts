@@ -111,16 +111,43 @@ function loadBlock(qr: Float64Array, n: number, k0: number, k1: number, vbuf: Fl
 }
 
 /** Upper triangular T with H_k0 … H_k1−1 = I − V T V' (LAPACK dlarft, forward, columnwise). */
-function blockTriangle(vbuf: Float64Array, n: number, k0: number, tau: Float64Array, from: number, to: number, t: Float64Array): void {
+function blockTriangle(
+  vbuf: Float64Array,
+  n: number,
+  k0: number,
+  tau: Float64Array,
+  from: number,
+  to: number,
+  t: Float64Array,
+): void {
   t.fill(0);
   const rows = n - k0;
   // Gram matrix V'V (upper triangle), ten sums in one pass
-  let g00 = 0, g01 = 0, g02 = 0, g03 = 0, g11 = 0, g12 = 0, g13 = 0, g22 = 0, g23 = 0, g33 = 0;
+  let g00 = 0,
+    g01 = 0,
+    g02 = 0,
+    g03 = 0,
+    g11 = 0,
+    g12 = 0,
+    g13 = 0,
+    g22 = 0,
+    g23 = 0,
+    g33 = 0;
   for (let r = 0, o = 0; r < rows; r++, o += 4) {
-    const v0 = vbuf[o], v1 = vbuf[o + 1], v2 = vbuf[o + 2], v3 = vbuf[o + 3];
-    g00 += v0 * v0; g01 += v0 * v1; g02 += v0 * v2; g03 += v0 * v3;
-    g11 += v1 * v1; g12 += v1 * v2; g13 += v1 * v3;
-    g22 += v2 * v2; g23 += v2 * v3; g33 += v3 * v3;
+    const v0 = vbuf[o],
+      v1 = vbuf[o + 1],
+      v2 = vbuf[o + 2],
+      v3 = vbuf[o + 3];
+    g00 += v0 * v0;
+    g01 += v0 * v1;
+    g02 += v0 * v2;
+    g03 += v0 * v3;
+    g11 += v1 * v1;
+    g12 += v1 * v2;
+    g13 += v1 * v3;
+    g22 += v2 * v2;
+    g23 += v2 * v3;
+    g33 += v3 * v3;
   }
   const gram = Float64Array.of(g00, g01, g02, g03, 0, g11, g12, g13, 0, 0, g22, g23, 0, 0, 0, g33);
   for (let i = 0; i < to - from; i++) {
@@ -163,29 +190,53 @@ function applyBlock(
       const two = c + 1 < count;
       const a = (from + c) * n;
       const b = two ? a + n : a;
-      let a0 = 0, a1 = 0, a2 = 0, a3 = 0, b0 = 0, b1 = 0, b2 = 0, b3 = 0;
+      let a0 = 0,
+        a1 = 0,
+        a2 = 0,
+        a3 = 0,
+        b0 = 0,
+        b1 = 0,
+        b2 = 0,
+        b3 = 0;
       for (let i = r0, r = (r0 - k0) * 4; i < r1; i++, r += 4) {
-        const v0 = vbuf[r], v1 = vbuf[r + 1], v2 = vbuf[r + 2], v3 = vbuf[r + 3];
+        const v0 = vbuf[r],
+          v1 = vbuf[r + 1],
+          v2 = vbuf[r + 2],
+          v3 = vbuf[r + 3];
         const xa = target[a + i];
         const xb = target[b + i];
-        a0 += v0 * xa; a1 += v1 * xa; a2 += v2 * xa; a3 += v3 * xa;
-        b0 += v0 * xb; b1 += v1 * xb; b2 += v2 * xb; b3 += v3 * xb;
+        a0 += v0 * xa;
+        a1 += v1 * xa;
+        a2 += v2 * xa;
+        a3 += v3 * xa;
+        b0 += v0 * xb;
+        b1 += v1 * xb;
+        b2 += v2 * xb;
+        b3 += v3 * xb;
       }
       const o = c * 4;
-      w[o] += a0; w[o + 1] += a1; w[o + 2] += a2; w[o + 3] += a3;
+      w[o] += a0;
+      w[o + 1] += a1;
+      w[o + 2] += a2;
+      w[o + 3] += a3;
       if (two) {
-        w[o + 4] += b0; w[o + 5] += b1; w[o + 6] += b2; w[o + 7] += b3;
+        w[o + 4] += b0;
+        w[o + 5] += b1;
+        w[o + 6] += b2;
+        w[o + 7] += b3;
       }
     }
   }
   // U = M W with M = Tᵀ or T
   const m = new Float64Array(16);
-  for (let r = 0; r < 4; r++) for (let c = 0; c < 4; c++) m[r * 4 + c] = transpose ? t[c * 4 + r] : t[r * 4 + c];
+  for (let r = 0; r < 4; r++)
+    for (let c = 0; c < 4; c++) m[r * 4 + c] = transpose ? t[c * 4 + r] : t[r * 4 + c];
   const u = new Float64Array(4 * count);
   for (let c = 0; c < count; c++) {
     const o = c * 4;
     for (let r = 0; r < 4; r++) {
-      u[o + r] = m[r * 4] * w[o] + m[r * 4 + 1] * w[o + 1] + m[r * 4 + 2] * w[o + 2] + m[r * 4 + 3] * w[o + 3];
+      u[o + r] =
+        m[r * 4] * w[o] + m[r * 4 + 1] * w[o + 1] + m[r * 4 + 2] * w[o + 2] + m[r * 4 + 3] * w[o + 3];
     }
   }
   // target −= V U
@@ -194,12 +245,21 @@ function applyBlock(
     for (let c = 0; c < count; c += 2) {
       const o = c * 4;
       const a = (from + c) * n;
-      const ua0 = u[o], ua1 = u[o + 1], ua2 = u[o + 2], ua3 = u[o + 3];
+      const ua0 = u[o],
+        ua1 = u[o + 1],
+        ua2 = u[o + 2],
+        ua3 = u[o + 3];
       if (c + 1 < count) {
         const b = a + n;
-        const ub0 = u[o + 4], ub1 = u[o + 5], ub2 = u[o + 6], ub3 = u[o + 7];
+        const ub0 = u[o + 4],
+          ub1 = u[o + 5],
+          ub2 = u[o + 6],
+          ub3 = u[o + 7];
         for (let i = r0, r = (r0 - k0) * 4; i < r1; i++, r += 4) {
-          const v0 = vbuf[r], v1 = vbuf[r + 1], v2 = vbuf[r + 2], v3 = vbuf[r + 3];
+          const v0 = vbuf[r],
+            v1 = vbuf[r + 1],
+            v2 = vbuf[r + 2],
+            v3 = vbuf[r + 3];
           target[a + i] -= v0 * ua0 + v1 * ua1 + v2 * ua2 + v3 * ua3;
           target[b + i] -= v0 * ub0 + v1 * ub1 + v2 * ub2 + v3 * ub3;
         }
@@ -316,8 +376,14 @@ export function thinQtVector(q: Float64Array, n: number, r: number, v: Float64Ar
   const out = new Float64Array(r);
   let k = 0;
   for (; k + 3 < r; k += 4) {
-    const o0 = k * n, o1 = o0 + n, o2 = o1 + n, o3 = o2 + n;
-    let s0 = 0, s1 = 0, s2 = 0, s3 = 0;
+    const o0 = k * n,
+      o1 = o0 + n,
+      o2 = o1 + n,
+      o3 = o2 + n;
+    let s0 = 0,
+      s1 = 0,
+      s2 = 0,
+      s3 = 0;
     for (let i = 0; i < n; i++) {
       const vi = v[i];
       s0 += q[o0 + i] * vi;

@@ -10,7 +10,10 @@ import { EngineError } from "./errors";
 import { fitLinearModel, type CovarianceType, type FitOptions, type LinearModelResult } from "./linear-model";
 import { parseModelSpec, type ModelSpec, type ModelSpecInput } from "./model-spec";
 
-function inputs(spec: ModelSpec | ModelSpecInput, table: TableInput | DataTable): { spec: ModelSpec; table: DataTable } {
+function inputs(
+  spec: ModelSpec | ModelSpecInput,
+  table: TableInput | DataTable,
+): { spec: ModelSpec; table: DataTable } {
   const t = "nRows" in table && "names" in table ? (table as DataTable) : toDataTable(table as TableInput);
   return { spec: parseModelSpec(spec), table: t };
 }
@@ -66,7 +69,8 @@ export function fitWithEstimatedVariance(
     for (let i = 0; i < n; i++) variance[i] = Math.exp(my + b * (x[i] - mx));
     description = `weighted least squares with weights from the estimated variance function log e² = a + b·fitted (b = ${b.toPrecision(4)})`;
   } else {
-    if (!spec.treatment) throw new EngineError("a variance per treatment arm needs the model's treatment to be named");
+    if (!spec.treatment)
+      throw new EngineError("a variance per treatment arm needs the model's treatment to be named");
     const arm = spec.treatment;
     const cells = table.columns[arm];
     const sums = new Map<string, { s: number; k: number }>();
@@ -115,6 +119,9 @@ export function fitWithRobustErrors(
   return fitLinearModel(spec, table, {
     ...options,
     covariance: type,
-    method: { kind: "robust", description: `least squares with ${type} heteroscedasticity-consistent standard errors` },
+    method: {
+      kind: "robust",
+      description: `least squares with ${type} heteroscedasticity-consistent standard errors`,
+    },
   });
 }

@@ -22,8 +22,16 @@ export function refuseRepeatedSubjects(table: DataTable, idColumn: string, used:
     }
     const rows: number[] = [];
     for (let m = 0; m < used.length; m++) if (cellText(ids, used[m]).trim() === id) rows.push(used[m]);
-    const separating = table.names.filter((name) => name !== idColumn && new Set(rows.map((r) => cellText(table.columns[name], r).trim())).size > 1);
-    const shown = separating.slice(0, 4).map((name) => `${name} (${[...new Set(rows.map((r) => cellText(table.columns[name], r).trim()))].slice(0, 4).join(", ")})`);
+    const separating = table.names.filter(
+      (name) =>
+        name !== idColumn && new Set(rows.map((r) => cellText(table.columns[name], r).trim())).size > 1,
+    );
+    const shown = separating
+      .slice(0, 4)
+      .map(
+        (name) =>
+          `${name} (${[...new Set(rows.map((r) => cellText(table.columns[name], r).trim()))].slice(0, 4).join(", ")})`,
+      );
     throw new EngineError(
       `subject "${id}" (${idColumn}) appears in ${rows.length} analysed rows, but this model analyses one row per subject: ` +
         (shown.length > 0

@@ -76,19 +76,35 @@ export interface ReproductionResult {
 }
 
 /** Compares one printed value with the rerun's value. */
-export function compareToPrinted(printedText: string, rerunValue: number): { outcome: ReproductionOutcome; rounded: string; reason: string } {
+export function compareToPrinted(
+  printedText: string,
+  rerunValue: number,
+): { outcome: ReproductionOutcome; rounded: string; reason: string } {
   const printed = parsePrinted(printedText);
-  if (!printed) return { outcome: "not_reproduced", rounded: "", reason: `"${printedText}" is not a printed number` };
-  if (!Number.isFinite(rerunValue)) return { outcome: "not_reproduced", rounded: "—", reason: "the rerun could not compute this value" };
+  if (!printed)
+    return { outcome: "not_reproduced", rounded: "", reason: `"${printedText}" is not a printed number` };
+  if (!Number.isFinite(rerunValue))
+    return { outcome: "not_reproduced", rounded: "—", reason: "the rerun could not compute this value" };
   if (printed.bound) {
     const limit = new Decimal(printed.number);
-    const ok = printed.bound === "<" ? limit.gt(rerunValue.toPrecision(SIGNIFICANT_DIGITS)) : limit.lt(rerunValue.toPrecision(SIGNIFICANT_DIGITS));
+    const ok =
+      printed.bound === "<"
+        ? limit.gt(rerunValue.toPrecision(SIGNIFICANT_DIGITS))
+        : limit.lt(rerunValue.toPrecision(SIGNIFICANT_DIGITS));
     const shown = Number(rerunValue.toPrecision(4)).toString();
-    return { outcome: ok ? "reproduced" : "not_reproduced", rounded: shown, reason: `the rerun's value ${shown} is ${ok ? "" : "not "}${printed.bound === "<" ? "below" : "above"} ${printed.number}` };
+    return {
+      outcome: ok ? "reproduced" : "not_reproduced",
+      rounded: shown,
+      reason: `the rerun's value ${shown} is ${ok ? "" : "not "}${printed.bound === "<" ? "below" : "above"} ${printed.number}`,
+    };
   }
   const rounded = roundHalfAwayFromZero(rerunValue, printed.decimals);
   const ok = new Decimal(rounded).eq(printed.number);
-  return { outcome: ok ? "reproduced" : "not_reproduced", rounded, reason: ok ? `rounds to ${rounded}` : `rounds to ${rounded}, printed ${printed.number}` };
+  return {
+    outcome: ok ? "reproduced" : "not_reproduced",
+    rounded,
+    reason: ok ? `rounds to ${rounded}` : `rounds to ${rounded}, printed ${printed.number}`,
+  };
 }
 
 type Found = { value: number; name: string } | { missing: string };
@@ -103,20 +119,34 @@ function contrastOf(r: ModelResult, v: Extract<PublishedValue, { quantity: "cont
   const reference = v.reference ?? treatmentReference(r);
   const what = describePublished(v, reference);
   if (r.kind === "linear") {
-    if (v.measure) return { missing: `${what}: a measure applies to generalized linear models; a linear model's contrast is a difference in adjusted means` };
+    if (v.measure)
+      return {
+        missing: `${what}: a measure applies to generalized linear models; a linear model's contrast is a difference in adjusted means`,
+      };
     const c = (r.contrasts ?? []).find((x) => x.level === v.level && x.reference === reference);
-    return c ? { value: c[STAT_OF[v.statistic]], name: c.label } : { missing: `the rerun reports no ${what}` };
+    return c
+      ? { value: c[STAT_OF[v.statistic]], name: c.label }
+      : { missing: `the rerun reports no ${what}` };
   }
-  const all = (r.marginalEffects?.contrasts ?? []).filter((x) => x.level === v.level && x.reference === reference);
-  if (!v.measure) return { missing: `${what}: name the measure printed (${[...new Set(all.map((x) => x.measure))].join(", ") || "the rerun reports none"})` };
+  const all = (r.marginalEffects?.contrasts ?? []).filter(
+    (x) => x.level === v.level && x.reference === reference,
+  );
+  if (!v.measure)
+    return {
+      missing: `${what}: name the measure printed (${[...new Set(all.map((x) => x.measure))].join(", ") || "the rerun reports none"})`,
+    };
   const c = all.find((x) => x.measure === v.measure);
-  return c ? { value: c[STAT_OF[v.statistic]], name: `${c.level} vs ${c.reference} (${c.measure})` } : { missing: `the rerun reports no ${what}` };
+  return c
+    ? { value: c[STAT_OF[v.statistic]], name: `${c.level} vs ${c.reference} (${c.measure})` }
+    : { missing: `the rerun reports no ${what}` };
 }
 
 function meanOf(r: ModelResult, v: Extract<PublishedValue, { quantity: "mean" }>): Found {
   const rows = r.kind === "linear" ? (r.adjustedMeans ?? []) : (r.marginalEffects?.means ?? []);
   const m = rows.find((x) => x.level === v.level);
-  return m ? { value: m[v.statistic], name: `${r.kind === "linear" ? "adjusted" : "standardized"} mean ${m.level}` } : { missing: `the rerun reports no ${describePublished(v)}` };
+  return m
+    ? { value: m[v.statistic], name: `${r.kind === "linear" ? "adjusted" : "standardized"} mean ${m.level}` }
+    : { missing: `the rerun reports no ${describePublished(v)}` };
 }
 
 /**
@@ -128,7 +158,9 @@ function meanOf(r: ModelResult, v: Extract<PublishedValue, { quantity: "mean" }>
 function coefficientOf(r: ModelResult, v: Extract<PublishedValue, { quantity: "coefficient" }>): Found {
   const what = describePublished(v);
   const wanted = v.term.map((p) => p.variable);
-  const k = termVariables(r.spec).findIndex((vars) => vars.length === wanted.length && vars.every((x) => wanted.includes(x)));
+  const k = termVariables(r.spec).findIndex(
+    (vars) => vars.length === wanted.length && vars.every((x) => wanted.includes(x)),
+  );
   if (k < 0) return { missing: `the model has no term ${wanted.join(" × ")}` };
   let index = 0;
   let stride = 1;
@@ -137,16 +169,23 @@ function coefficientOf(r: ModelResult, v: Extract<PublishedValue, { quantity: "c
     const summary = r.variables.find((x) => x.name === variable);
     if (summary?.kind === "categorical") {
       const levels = (summary.levels ?? []).filter((l) => l !== summary.reference);
-      if (part.level === undefined) return { missing: `${what}: ${variable} is categorical, name its level (${levels.join(", ")})` };
+      if (part.level === undefined)
+        return { missing: `${what}: ${variable} is categorical, name its level (${levels.join(", ")})` };
       const at = levels.indexOf(part.level);
-      if (at < 0) return { missing: `${what}: ${variable} has no coefficient for "${part.level}" (${part.level === summary.reference ? "it is the reference level" : `its levels are ${levels.join(", ")}`})` };
+      if (at < 0)
+        return {
+          missing: `${what}: ${variable} has no coefficient for "${part.level}" (${part.level === summary.reference ? "it is the reference level" : `its levels are ${levels.join(", ")}`})`,
+        };
       index += at * stride;
       stride *= levels.length;
-    } else if (part.level !== undefined) return { missing: `${what}: ${variable} is continuous and has no levels` };
+    } else if (part.level !== undefined)
+      return { missing: `${what}: ${variable} is continuous and has no levels` };
   }
   const name = r.terms[k]?.coefficients[index];
   const row = r.coefficients.find((c) => c.name === name);
-  return row ? { value: row[STAT_OF[v.statistic]], name: `coefficient ${row.name}` } : { missing: `the rerun has no estimate for ${what}` };
+  return row
+    ? { value: row[STAT_OF[v.statistic]], name: `coefficient ${row.name}` }
+    : { missing: `the rerun has no estimate for ${what}` };
 }
 
 function valueOf(r: ModelResult, v: PublishedValue): Found {
@@ -166,12 +205,34 @@ export function checkReproduction(r: ModelResult, published: readonly PublishedV
     const found = valueOf(r, v);
     const decimals = parsePrinted(v.value)?.decimals ?? 0;
     if ("missing" in found) {
-      return { published: v, quantity: describePublished(v, treatmentReference(r)), printed: v.value, decimals, rerunValue: null, rerunRounded: null, outcome: "not_reproduced", reason: found.missing };
+      return {
+        published: v,
+        quantity: describePublished(v, treatmentReference(r)),
+        printed: v.value,
+        decimals,
+        rerunValue: null,
+        rerunRounded: null,
+        outcome: "not_reproduced",
+        reason: found.missing,
+      };
     }
     const c = compareToPrinted(v.value, found.value);
-    return { published: v, quantity: `${found.name}, ${v.statistic === "estimate" ? "estimate" : v.statistic === "se" ? "SE" : v.statistic === "p" ? "p" : `${v.statistic} 95% CI bound`}`, printed: v.value, decimals, rerunValue: Number.isFinite(found.value) ? found.value : null, rerunRounded: c.rounded, outcome: c.outcome, reason: c.reason };
+    return {
+      published: v,
+      quantity: `${found.name}, ${v.statistic === "estimate" ? "estimate" : v.statistic === "se" ? "SE" : v.statistic === "p" ? "p" : `${v.statistic} 95% CI bound`}`,
+      printed: v.value,
+      decimals,
+      rerunValue: Number.isFinite(found.value) ? found.value : null,
+      rerunRounded: c.rounded,
+      outcome: c.outcome,
+      reason: c.reason,
+    };
   });
-  return { outcome: values.every((x) => x.outcome === "reproduced") ? "reproduced" : "not_reproduced", rule: ROUNDING_RULE, values };
+  return {
+    outcome: values.every((x) => x.outcome === "reproduced") ? "reproduced" : "not_reproduced",
+    rule: ROUNDING_RULE,
+    values,
+  };
 }
 
 export const REPRODUCTION_CHECK_LABEL = "Reproduction of the published values";
@@ -192,6 +253,7 @@ export function reproductionAsCheck(rep: ReproductionResult) {
       failed.length === 0
         ? "The rerun reproduces every published value at the decimals printed."
         : `Not reproduced: ${failed.map((v) => `${v.quantity} printed ${v.printed} (${v.reason})`).join("; ")}.`,
-    remedy: "Compare the published analysis program with the plan (population, coding, covariates, weighting) and correct the report or record why it differs",
+    remedy:
+      "Compare the published analysis program with the plan (population, coding, covariates, weighting) and correct the report or record why it differs",
   };
 }

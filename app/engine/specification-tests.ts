@@ -15,9 +15,17 @@ import type { FTest } from "./spread";
 export function nestedFTest(rss0: number, rank0: number, rss1: number, rank1: number, n: number): FTest {
   const df1 = rank1 - rank0;
   const df2 = n - rank1;
-  if (df1 < 1) return { statistic: null, df1: null, df2: null, p: null, reason: "the added columns are aliased with the model" };
-  if (df2 < 1) return { statistic: null, df1, df2, p: null, reason: "no residual degrees of freedom are left" };
-  const statistic = ((rss0 - rss1) / df1) / (rss1 / df2);
+  if (df1 < 1)
+    return {
+      statistic: null,
+      df1: null,
+      df2: null,
+      p: null,
+      reason: "the added columns are aliased with the model",
+    };
+  if (df2 < 1)
+    return { statistic: null, df1, df2, p: null, reason: "no residual degrees of freedom are left" };
+  const statistic = (rss0 - rss1) / df1 / (rss1 / df2);
   return { statistic, df1, df2, p: fUpper(statistic, df1, df2) };
 }
 
@@ -37,7 +45,8 @@ export function resetTest(ctx: LinearFitContext): FTest {
   let ss = 0;
   for (let i = 0; i < n; i++) ss += (eta[i] - mean) ** 2;
   const sd = Math.sqrt(ss / Math.max(1, n - 1));
-  if (!(sd > 0)) return { statistic: null, df1: null, df2: null, p: null, reason: "the fitted values are constant" };
+  if (!(sd > 0))
+    return { statistic: null, df1: null, df2: null, p: null, reason: "the fitted values are constant" };
   const added = new Float64Array(n * 2);
   for (let i = 0; i < n; i++) {
     const z = (eta[i] - mean) / sd;
@@ -51,7 +60,8 @@ export function resetTest(ctx: LinearFitContext): FTest {
       df1: null,
       df2: null,
       p: null,
-      reason: "powers of the fitted values are collinear with the design (e.g. only categorical terms), so RESET has nothing to test",
+      reason:
+        "powers of the fitted values are collinear with the design (e.g. only categorical terms), so RESET has nothing to test",
     };
   }
   return nestedFTest(fit.rss, p, big.rss, big.rank, n);
@@ -77,7 +87,11 @@ export function homogeneityOfSlopes(ctx: LinearFitContext): HomogeneityOfSlopes 
     .filter(
       (c) =>
         !design.terms.some(
-          (t) => t.kind === "interaction" && t.variables.length === 2 && t.variables.includes(c) && t.variables.includes(treatment),
+          (t) =>
+            t.kind === "interaction" &&
+            t.variables.length === 2 &&
+            t.variables.includes(c) &&
+            t.variables.includes(treatment),
         ),
     )
     .filter((c) => (data.variables.get(c) as ContinuousVariable).kind === "continuous");
@@ -97,7 +111,9 @@ export function homogeneityOfSlopes(ctx: LinearFitContext): HomogeneityOfSlopes 
   const plans = covariates.map((c) => termColumns([treatment, c], data.variables));
   const all = plans.flat();
   const buffer = new Float64Array(n * all.length);
-  all.forEach((plan, j) => fillDesignColumn(buffer.subarray(j * n, (j + 1) * n), plan.factors, data.variables));
+  all.forEach((plan, j) =>
+    fillDesignColumn(buffer.subarray(j * n, (j + 1) * n), plan.factors, data.variables),
+  );
   const reduced = reduceColumns(fit, buffer, all.length);
   const test = (r: { rss: number; rank: number }): FTest => nestedFTest(fit.rss, design.p, r.rss, r.rank, n);
   let first = 0;

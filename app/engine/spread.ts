@@ -25,7 +25,12 @@ export interface FTest {
  * Koenker's studentized Breusch–Pagan statistic n·R² of the regression of ẽ² on the model's
  * regressors Z (column-major n×k, with its intercept), ẽ = √w·e; df = rank(Z) − 1.
  */
-export function breuschPagan(residuals: ArrayLike<number>, z: Float64Array, n: number, k: number): BreuschPaganTest {
+export function breuschPagan(
+  residuals: ArrayLike<number>,
+  z: Float64Array,
+  n: number,
+  k: number,
+): BreuschPaganTest {
   if (k < 2) {
     return { statistic: null, df: null, p: null, reason: "the model has no regressor besides the intercept" };
   }
@@ -41,7 +46,8 @@ export function breuschPagan(residuals: ArrayLike<number>, z: Float64Array, n: n
     u[i] -= mean;
     total += u[i] * u[i];
   }
-  if (!(total > 0)) return { statistic: null, df: null, p: null, reason: "the squared residuals do not vary" };
+  if (!(total > 0))
+    return { statistic: null, df: null, p: null, reason: "the squared residuals do not vary" };
   const { rss, rank } = residualSumOfSquares({ x: z, n, p: k, y: u });
   const statistic = (n * (total - rss)) / total;
   const df = rank - 1;
@@ -64,8 +70,10 @@ export function brownForsythe(residuals: ArrayLike<number>, groups: Int32Array, 
   const present = byGroup.filter((g) => g.length > 0);
   const k = present.length;
   const total = groups.length;
-  if (k < 2) return { statistic: null, df1: null, df2: null, p: null, reason: "fewer than two treatment arms" };
-  if (total - k < 1) return { statistic: null, df1: null, df2: null, p: null, reason: "no arm has two or more rows" };
+  if (k < 2)
+    return { statistic: null, df1: null, df2: null, p: null, reason: "fewer than two treatment arms" };
+  if (total - k < 1)
+    return { statistic: null, df1: null, df2: null, p: null, reason: "no arm has two or more rows" };
   const deviations = present.map((g) => {
     const m = median(g);
     return g.map((v) => Math.abs(v - m));

@@ -63,7 +63,10 @@ function submatrix(r: Float64Array, k: number, idx: readonly number[]): Float64A
 }
 
 /** Correlation matrix of the coefficient estimates without the intercept, and the column map. */
-function coefficientCorrelation(design: Design, unscaledCovariance: Float64Array): { corr: Float64Array; cols: number[]; k: number } {
+function coefficientCorrelation(
+  design: Design,
+  unscaledCovariance: Float64Array,
+): { corr: Float64Array; cols: number[]; k: number } {
   const p = design.p;
   const cols = Array.from({ length: p }, (_, j) => j).filter((j) => !(design.intercept && j === 0));
   const k = cols.length;
@@ -84,7 +87,10 @@ function coefficientCorrelation(design: Design, unscaledCovariance: Float64Array
 function blockGvif(corr: Float64Array, k: number, inside: readonly number[], full: number): number {
   const outside = Array.from({ length: k }, (_, i) => i).filter((i) => !inside.includes(i));
   if (outside.length === 0) return 1;
-  const logG = logDet(submatrix(corr, k, inside), inside.length) + logDet(submatrix(corr, k, outside), outside.length) - full;
+  const logG =
+    logDet(submatrix(corr, k, inside), inside.length) +
+    logDet(submatrix(corr, k, outside), outside.length) -
+    full;
   return Math.exp(logG);
 }
 
@@ -93,21 +99,30 @@ export function varianceInflation(design: Design, unscaledCovariance: Float64Arr
   const { corr, cols, k } = coefficientCorrelation(design, unscaledCovariance);
   const full = logDet(corr, k);
   return design.terms.map((term) => {
-    const gvif = blockGvif(corr, k, term.columns.map((c) => cols.indexOf(c)), full);
+    const gvif = blockGvif(
+      corr,
+      k,
+      term.columns.map((c) => cols.indexOf(c)),
+      full,
+    );
     const df = term.columns.length;
     return { term: term.label, gvif, df, adjusted: Math.pow(gvif, 1 / (2 * df)) };
   });
 }
 
 /** Predictor-wise GVIF, one row per variable of the model, in the order the terms first name them. */
-export function predictorVarianceInflation(design: Design, unscaledCovariance: Float64Array): PredictorVifRow[] {
+export function predictorVarianceInflation(
+  design: Design,
+  unscaledCovariance: Float64Array,
+): PredictorVifRow[] {
   const { corr, cols, k } = coefficientCorrelation(design, unscaledCovariance);
   const full = logDet(corr, k);
   const predictors: string[] = [];
   for (const t of design.terms) for (const v of t.variables) if (!predictors.includes(v)) predictors.push(v);
   return predictors.map((predictor) => {
     const related = new Set<string>([predictor]);
-    for (const t of design.terms) if (t.variables.includes(predictor)) t.variables.forEach((v) => related.add(v));
+    for (const t of design.terms)
+      if (t.variables.includes(predictor)) t.variables.forEach((v) => related.add(v));
     // the block: every term all of whose variables are related to this predictor
     const inside = design.terms
       .filter((t) => t.variables.every((v) => related.has(v)))
@@ -115,6 +130,12 @@ export function predictorVarianceInflation(design: Design, unscaledCovariance: F
       .filter((i) => i >= 0);
     const gvif = blockGvif(corr, k, inside, full);
     const df = inside.length;
-    return { predictor, interactsWith: [...related].filter((v) => v !== predictor), gvif, df, adjusted: Math.pow(gvif, 1 / (2 * df)) };
+    return {
+      predictor,
+      interactsWith: [...related].filter((v) => v !== predictor),
+      gvif,
+      df,
+      adjusted: Math.pow(gvif, 1 / (2 * df)),
+    };
   });
 }

@@ -44,13 +44,29 @@ export function binnedResidualsSpec(d: BinnedResidualsData, opts: SpecOptions = 
   const bins = d.rows.length;
   const outside = d.rows.filter((r) => r.status === OUTSIDE_BAND).length;
   const sizes = d.rows.map((r) => r.n);
-  const perBin = bins ? (Math.min(...sizes) === Math.max(...sizes) ? `${sizes[0]}` : `${Math.min(...sizes)} or ${Math.max(...sizes)}`) : "0";
+  const perBin = bins
+    ? Math.min(...sizes) === Math.max(...sizes)
+      ? `${sizes[0]}`
+      : `${Math.min(...sizes)} or ${Math.max(...sizes)}`
+    : "0";
   // about one bin in twenty lies outside its band by chance alone when the model holds
-  const expected = 0.05 * bins < 1 ? "fewer than one expected by chance" : `about ${Math.round(0.05 * bins)} expected by chance`;
-  const x = { field: "meanFitted", type: "quantitative", title: `Mean fitted probability of ${d.event} in the bin (probability, 0 to 1)`, scale: { zero: false }, axis: { tickCount: 6 } };
+  const expected =
+    0.05 * bins < 1
+      ? "fewer than one expected by chance"
+      : `about ${Math.round(0.05 * bins)} expected by chance`;
+  const x = {
+    field: "meanFitted",
+    type: "quantitative",
+    title: `Mean fitted probability of ${d.event} in the bin (probability, 0 to 1)`,
+    scale: { zero: false },
+    axis: { tickCount: 6 },
+  };
   // short enough to fit beside the plot's height: a longer rotated title pushes the plot apart
   const yTitle = "Mean of observed − fitted (proportion)";
-  const band = (field: string) => ({ mark: { type: "line", color: PALETTE.inkSoft, strokeWidth: 1, ...NO_ARIA }, encoding: { x, y: { field, type: "quantitative", title: yTitle } } });
+  const band = (field: string) => ({
+    mark: { type: "line", color: PALETTE.inkSoft, strokeWidth: 1, ...NO_ARIA },
+    encoding: { x, y: { field, type: "quantitative", title: yTitle } },
+  });
   const domain = [INSIDE_BAND, OUTSIDE_BAND];
   const legend = { title: "Bins" };
   return asSpec({
@@ -69,7 +85,10 @@ export function binnedResidualsSpec(d: BinnedResidualsData, opts: SpecOptions = 
     ),
     ...dataOf(d.rows, opts),
     layer: [
-      { mark: { type: "area", color: PALETTE.rule, opacity: 0.45, ...NO_ARIA }, encoding: { x, y: { field: "lower", type: "quantitative", title: yTitle }, y2: { field: "bound" } } },
+      {
+        mark: { type: "area", color: PALETTE.rule, opacity: 0.45, ...NO_ARIA },
+        encoding: { x, y: { field: "lower", type: "quantitative", title: yTitle }, y2: { field: "bound" } },
+      },
       band("bound"),
       band("lower"),
       zeroRule("y"),
@@ -78,10 +97,25 @@ export function binnedResidualsSpec(d: BinnedResidualsData, opts: SpecOptions = 
         encoding: {
           x,
           y: { field: "meanResidual", type: "quantitative", title: yTitle },
-          shape: { field: "status", type: "nominal", scale: { domain, range: ["circle", "triangle-up"] }, legend },
-          color: { field: "status", type: "nominal", scale: { domain, range: [PALETTE.ink, PALETTE.finding] }, legend },
+          shape: {
+            field: "status",
+            type: "nominal",
+            scale: { domain, range: ["circle", "triangle-up"] },
+            legend,
+          },
+          color: {
+            field: "status",
+            type: "nominal",
+            scale: { domain, range: [PALETTE.ink, PALETTE.finding] },
+            legend,
+          },
           // the triangles are filled, so the bins outside stand out in shape and weight as well as colour
-          fill: { field: "status", type: "nominal", scale: { domain, range: ["transparent", PALETTE.finding] }, legend },
+          fill: {
+            field: "status",
+            type: "nominal",
+            scale: { domain, range: ["transparent", PALETTE.finding] },
+            legend,
+          },
           tooltip: [
             { field: "bin", type: "quantitative", title: "Bin", format: "d" },
             { field: "n", type: "quantitative", title: "Subjects", format: "d" },
@@ -102,7 +136,10 @@ export const binnedResiduals = defineFigure<BinnedResidualsData>({
   data(source, opts) {
     const r = modelResult(source, "binned_residuals");
     const g = binomialResult(r, "the binned residual plot");
-    if (!g.binnedResiduals?.length) throw new FigureUnavailableError("the rerun stored no binned residuals; rerun it with the current engine");
+    if (!g.binnedResiduals?.length)
+      throw new FigureUnavailableError(
+        "the rerun stored no binned residuals; rerun it with the current engine",
+      );
     // a bin is outside its band when |mean residual| exceeds 2 standard errors (Gelman and Hill 2007, section 5.6)
     const rows: BinnedResidualRow[] = g.binnedResiduals.map((bin, k) => ({
       bin: k + 1,
@@ -118,7 +155,8 @@ export const binnedResiduals = defineFigure<BinnedResidualsData>({
   spec: binnedResidualsSpec,
   words: {
     caption: "Binned residuals",
-    shows: "the mean residual (observed minus fitted probability) of each bin of subjects with similar fitted probabilities against the bin's mean fitted probability, inside a band of two standard errors",
+    shows:
+      "the mean residual (observed minus fitted probability) of each bin of subjects with similar fitted probabilities against the bin's mean fitted probability, inside a band of two standard errors",
     healthy: "about 95% of the bins inside the band and no pattern",
   },
   marked(d) {

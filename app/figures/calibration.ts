@@ -53,10 +53,21 @@ export function calibrationSpec(d: CalibrationData, opts: SpecOptions = {}): Top
   // the group sizes there are, in words (equal groups differ by one subject at most)
   const sizes = [...new Set(d.rows.map((r) => r.n))].sort((a, b) => a - b);
   const sizeWords = sizes.length <= 2 ? sizes.join(" or ") : `${sizes[0]} to ${sizes[sizes.length - 1]}`;
-  const x = { field: "meanPredicted", type: "quantitative", title: `Mean predicted probability of ${d.event} in the group (probability, 0 to 1)`, scale, axis: { tickCount: 6 } };
+  const x = {
+    field: "meanPredicted",
+    type: "quantitative",
+    title: `Mean predicted probability of ${d.event} in the group (probability, 0 to 1)`,
+    scale,
+    axis: { tickCount: 6 },
+  };
   // a short rotated title: servers without a canvas estimate text widths generously, and a title
   // longer than the plot's height would push the plot away from its subtitle
-  const y = { field: "observedProportion", type: "quantitative", title: "Observed proportion (0 to 1)", scale };
+  const y = {
+    field: "observedProportion",
+    type: "quantitative",
+    title: "Observed proportion (0 to 1)",
+    scale,
+  };
   const test = hlText(d);
   return asSpec({
     $schema: SCHEMA,
@@ -65,13 +76,22 @@ export function calibrationSpec(d: CalibrationData, opts: SpecOptions = {}): Top
       "Does predicted risk match observed risk in every group?",
       "every point on the brass line observed = predicted, with no bend at either end.",
       // short, and the sizes in words instead of a legend: the results page's frame is of fixed height
-      [`${test} ${d.caution}`, `Points: the ${d.rows.length} groups of the test, ${sizeWords} subjects each, area by size.`, ...(d.note ? [d.note] : [])],
+      [
+        `${test} ${d.caution}`,
+        `Points: the ${d.rows.length} groups of the test, ${sizeWords} subjects each, area by size.`,
+        ...(d.note ? [d.note] : []),
+      ],
       width,
     ),
     ...dataOf(d.rows, opts),
     layer: [
       {
-        data: { values: [{ meanPredicted: lo, observedProportion: lo }, { meanPredicted: hi, observedProportion: hi }] },
+        data: {
+          values: [
+            { meanPredicted: lo, observedProportion: lo },
+            { meanPredicted: hi, observedProportion: hi },
+          ],
+        },
         mark: { type: "line", color: PALETTE.accent, strokeWidth: 1.6, ...NO_ARIA },
         encoding: { x, y },
       },
@@ -80,12 +100,28 @@ export function calibrationSpec(d: CalibrationData, opts: SpecOptions = {}): Top
         encoding: {
           x,
           y,
-          size: { field: "n", type: "quantitative", title: "Subjects in the group", scale: { zero: true, range: [0, 320] }, legend: null },
+          size: {
+            field: "n",
+            type: "quantitative",
+            title: "Subjects in the group",
+            scale: { zero: true, range: [0, 320] },
+            legend: null,
+          },
           tooltip: [
             { field: "group", type: "quantitative", title: "Group", format: "d" },
             { field: "n", type: "quantitative", title: "Subjects", format: "d" },
-            { field: "meanPredicted", type: "quantitative", title: "Mean predicted probability", format: ".4~g" },
-            { field: "observedProportion", type: "quantitative", title: "Observed proportion", format: ".4~g" },
+            {
+              field: "meanPredicted",
+              type: "quantitative",
+              title: "Mean predicted probability",
+              format: ".4~g",
+            },
+            {
+              field: "observedProportion",
+              type: "quantitative",
+              title: "Observed proportion",
+              format: ".4~g",
+            },
             { field: "observed", type: "quantitative", title: "Events observed", format: "d" },
             { field: "expected", type: "quantitative", title: "Events expected", format: ".4~g" },
           ],
@@ -102,7 +138,10 @@ export const calibration = defineFigure<CalibrationData>({
     const r = modelResult(source, "calibration");
     const g = binomialResult(r, "the calibration plot");
     const c = g.checks.calibration;
-    if (!c?.groups.length) throw new FigureUnavailableError("the rerun stored no calibration groups; rerun it with the current engine");
+    if (!c?.groups.length)
+      throw new FigureUnavailableError(
+        "the rerun stored no calibration groups; rerun it with the current engine",
+      );
     const rows: CalibrationRow[] = c.groups.map((group, k) => ({
       group: k + 1,
       n: group.n,
@@ -111,12 +150,21 @@ export const calibration = defineFigure<CalibrationData>({
       expected: round(group.expected),
       observedProportion: round(group.observed / group.n),
     }));
-    return { figure: "calibration", ...base(g, opts), withSubjectIds: false, event: eventOf(g), rows, test: { statistic: c.statistic, df: c.df, p: c.p }, caution: c.caution };
+    return {
+      figure: "calibration",
+      ...base(g, opts),
+      withSubjectIds: false,
+      event: eventOf(g),
+      rows,
+      test: { statistic: c.statistic, df: c.df, p: c.p },
+      caution: c.caution,
+    };
   },
   spec: calibrationSpec,
   words: {
     caption: "Calibration by group of predicted risk",
-    shows: "the observed proportion of events in each tenth of the subjects by predicted probability against the group's mean predicted probability, with the line observed = predicted",
+    shows:
+      "the observed proportion of events in each tenth of the subjects by predicted probability against the group's mean predicted probability, with the line observed = predicted",
     healthy: "every point close to the line",
   },
   marked(d) {

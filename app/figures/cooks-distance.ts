@@ -5,11 +5,44 @@
  * at their points and named in a ranked list beside the plot, so no two names overlap.
  */
 import type { TopLevelSpec } from "vega-lite";
-import { rankedList, rankMarks, asSpec, count, dataOf, denseLine, frame, markedSubjects, NO_ARIA, PALETTE, pointMark, SCHEMA, statusEncoding, title, tooltip } from "./shared/look";
+import {
+  rankedList,
+  rankMarks,
+  asSpec,
+  count,
+  dataOf,
+  denseLine,
+  frame,
+  markedSubjects,
+  NO_ARIA,
+  PALETTE,
+  pointMark,
+  SCHEMA,
+  statusEncoding,
+  title,
+  tooltip,
+} from "./shared/look";
 import { defineFigure } from "./shared/module";
-import { appliedThreshold, checkOf, denseSelection, drawnIndices, LABELLED, labelOf, subjectsOf, topBy, who } from "./shared/source";
+import {
+  appliedThreshold,
+  checkOf,
+  denseSelection,
+  drawnIndices,
+  LABELLED,
+  labelOf,
+  subjectsOf,
+  topBy,
+  who,
+} from "./shared/source";
 import { blockMaxima, round } from "./shared/summaries";
-import type { FigureBase, InfluenceBlock, PointStatus, SpecOptions, SubjectRef, Threshold } from "./shared/types";
+import type {
+  FigureBase,
+  InfluenceBlock,
+  PointStatus,
+  SpecOptions,
+  SubjectRef,
+  Threshold,
+} from "./shared/types";
 
 export interface InfluenceRow extends SubjectRef {
   /** Position of the subject in data order, 1..n. */
@@ -43,10 +76,24 @@ export function influenceSpec(d: InfluenceData, opts: SpecOptions = {}): TopLeve
     { field: "leverage", title: "Leverage" },
     ...(d.rows.some((r) => r.dffits !== null) ? [{ field: "dffits", title: "DFFITS" }] : []),
   ]);
-  const x = { field: "order", type: "quantitative", title: "Subject, in data order (position 1 to n)", scale: { domain: [0, d.n + 1], nice: false } };
+  const x = {
+    field: "order",
+    type: "quantitative",
+    title: "Subject, in data order (position 1 to n)",
+    scale: { domain: [0, d.n + 1], nice: false },
+  };
   // head room above the largest point for its name
-  const top = Math.max(d.threshold?.value ?? 0, ...d.rows.map((r) => r.cooks).filter(Number.isFinite), ...(d.blocks ?? []).map((b) => b.cooks));
-  const y = { field: "cooks", type: "quantitative", title: "Cook's distance (no unit)", scale: { domain: [0, top > 0 ? top * 1.18 : 1], nice: false } };
+  const top = Math.max(
+    d.threshold?.value ?? 0,
+    ...d.rows.map((r) => r.cooks).filter(Number.isFinite),
+    ...(d.blocks ?? []).map((b) => b.cooks),
+  );
+  const y = {
+    field: "cooks",
+    type: "quantitative",
+    title: "Cook's distance (no unit)",
+    scale: { domain: [0, top > 0 ? top * 1.18 : 1], nice: false },
+  };
   return asSpec({
     $schema: SCHEMA,
     ...frame(d, opts),
@@ -55,7 +102,10 @@ export function influenceSpec(d: InfluenceData, opts: SpecOptions = {}): TopLeve
       "every subject well below the dashed line; no single subject stands out.",
       [
         `Points: Cook's distance of each subject.${d.threshold ? ` Dashed line: the plan's threshold ${d.threshold.label}.` : " The plan sets no Cook's distance threshold."} Numbered: the most influential subjects beyond it, named in the list beside the plot.`,
-        ...denseLine(d, `grey bars show the largest Cook's distance in each run of ${d.blocks?.[0] ? count(d.blocks[0].to - d.blocks[0].from + 1) : "a few"} consecutive subjects`),
+        ...denseLine(
+          d,
+          `grey bars show the largest Cook's distance in each run of ${d.blocks?.[0] ? count(d.blocks[0].to - d.blocks[0].from + 1) : "a few"} consecutive subjects`,
+        ),
         ...(d.note ? [d.note] : []),
       ],
       width,
@@ -82,7 +132,13 @@ export function influenceSpec(d: InfluenceData, opts: SpecOptions = {}): TopLeve
           ]
         : []),
       ...(d.threshold
-        ? [{ data: { values: [{}] }, mark: { type: "rule", color: PALETTE.finding, strokeDash: [6, 3], strokeWidth: 1.2 }, encoding: { y: { datum: d.threshold.value } } }]
+        ? [
+            {
+              data: { values: [{}] },
+              mark: { type: "rule", color: PALETTE.finding, strokeDash: [6, 3], strokeWidth: 1.2 },
+              encoding: { y: { datum: d.threshold.value } },
+            },
+          ]
         : []),
       { mark: pointMark(), encoding: { x, y, ...statusEncoding(d), tooltip: tip } },
       ...rankMarks(x, y, d.n),
@@ -118,13 +174,21 @@ export const cooksDistance = defineFigure<InfluenceData>({
       label: top.has(i) ? labelOf(r, i, opts.withSubjectIds, top) : null,
       labelRank: top.get(i) ?? null,
     }));
-    const blocks = dense ? blockMaxima(obs.cooksDistance, obs.row.map((_, i) => i).filter((i) => !dense.drawn.has(i)), n, BLOCKS) : undefined;
+    const blocks = dense
+      ? blockMaxima(
+          obs.cooksDistance,
+          obs.row.map((_, i) => i).filter((i) => !dense.drawn.has(i)),
+          n,
+          BLOCKS,
+        )
+      : undefined;
     return { figure: "influence", ...b, threshold, rows, ...(dense ? { dense: dense.summary, blocks } : {}) };
   },
   spec: influenceSpec,
   words: {
     caption: "Cook's distance by subject",
-    shows: "each subject's Cook's distance as a point in data order, with the planned threshold as a dashed line and the most influential subjects numbered and listed beside the plot",
+    shows:
+      "each subject's Cook's distance as a point in data order, with the planned threshold as a dashed line and the most influential subjects numbered and listed beside the plot",
     healthy: "no subject far above the threshold line",
   },
   marked: (d) => markedSubjects(d.rows),

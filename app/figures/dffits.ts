@@ -28,9 +28,19 @@ export const dffits = defineFigure<DffitsData>({
   checks: ["dffits"],
   data(source, opts) {
     const r = modelResult(source, "dffits");
-    if (r.kind !== "linear") throw new FigureUnavailableError("DFFITS is drawn for linear models; this rerun fits a generalized linear model");
+    if (r.kind !== "linear")
+      throw new FigureUnavailableError(
+        "DFFITS is drawn for linear models; this rerun fits a generalized linear model",
+      );
     const threshold = appliedThreshold(source, "dffits");
-    return { figure: "dffits", ...base(r, opts), measure: "DFFITS", threshold, series: ["DFFITS"], rows: signedRows(r, [{ series: "DFFITS", values: r.observations.dffits }], threshold, opts) };
+    return {
+      figure: "dffits",
+      ...base(r, opts),
+      measure: "DFFITS",
+      threshold,
+      series: ["DFFITS"],
+      rows: signedRows(r, [{ series: "DFFITS", values: r.observations.dffits }], threshold, opts),
+    };
   },
   spec: dffitsSpec,
   words: {

@@ -33,11 +33,23 @@ export function isRatio(contrastLabel: string): boolean {
 }
 
 /** The contrast's kind in words: "ratio" or "difference" (a restricted mean's difference, or of adjusted means). */
-export function contrastWords(contrastLabel: string): { ratio: boolean; kind: string; noEffect: string; heading: "Ratio" | "Difference" } {
+export function contrastWords(contrastLabel: string): {
+  ratio: boolean;
+  kind: string;
+  noEffect: string;
+  heading: "Ratio" | "Difference";
+} {
   const ratio = isRatio(contrastLabel);
   return ratio
     ? { ratio, kind: "ratio", noEffect: "1", heading: "Ratio" }
-    : { ratio, kind: /restricted mean/.test(contrastLabel) ? "difference in restricted mean" : "difference in adjusted means", noEffect: "0", heading: "Difference" };
+    : {
+        ratio,
+        kind: /restricted mean/.test(contrastLabel)
+          ? "difference in restricted mean"
+          : "difference in adjusted means",
+        noEffect: "0",
+        heading: "Difference",
+      };
 }
 
 /** Analysis labels wrap at this many characters, so no label is cut short beside the plot. */
@@ -47,14 +59,33 @@ const LABEL_CHARS = 34;
 export function forestPoints(rows: readonly ForestRow[], digits = 2): ForestPoint[] {
   const ordered = [...rows.filter((r) => r.primary), ...rows.filter((r) => !r.primary)];
   return ordered.map((r) => {
-    const kind = r.primary ? "Primary analysis" : r.prespecified ? "Pre-specified sensitivity" : "Not pre-specified";
+    const kind = r.primary
+      ? "Primary analysis"
+      : r.prespecified
+        ? "Pre-specified sensitivity"
+        : "Not pre-specified";
     // the words come first, so a long analysis label is what gets wrapped, never the words
-    const axisLabel = r.primary ? (/^primary\b/i.test(r.label) ? r.label : `Primary: ${r.label}`) : r.prespecified ? r.label : `Not pre-specified: ${r.label}`;
-    return { ...r, kind, axisLabel: wrapWords(axisLabel, LABEL_CHARS).join("\n"), interval: `${r.estimate.toFixed(digits)} (${r.lower.toFixed(digits)} to ${r.upper.toFixed(digits)})` };
+    const axisLabel = r.primary
+      ? /^primary\b/i.test(r.label)
+        ? r.label
+        : `Primary: ${r.label}`
+      : r.prespecified
+        ? r.label
+        : `Not pre-specified: ${r.label}`;
+    return {
+      ...r,
+      kind,
+      axisLabel: wrapWords(axisLabel, LABEL_CHARS).join("\n"),
+      interval: `${r.estimate.toFixed(digits)} (${r.lower.toFixed(digits)} to ${r.upper.toFixed(digits)})`,
+    };
   });
 }
 
-export function forestSpec(rows: readonly ForestRow[], contrastLabel: string, opts: SpecOptions & { unit?: string } = {}): TopLevelSpec {
+export function forestSpec(
+  rows: readonly ForestRow[],
+  contrastLabel: string,
+  opts: SpecOptions & { unit?: string } = {},
+): TopLevelSpec {
   const points = forestPoints(rows);
   const width = opts.width ?? 560;
   const primary = points.find((p) => p.primary);
@@ -66,7 +97,13 @@ export function forestSpec(rows: readonly ForestRow[], contrastLabel: string, op
     title: null,
     sort: points.map((p) => p.axisLabel),
     // each label on as many lines as it needs (the server has no canvas to measure text, so widths are estimated generously)
-    axis: { labelExpr: "split(datum.value, '\\n')", labelLimit: 0, labelFontSize: 11, labelColor: PALETTE.ink, labelLineHeight: 13 },
+    axis: {
+      labelExpr: "split(datum.value, '\\n')",
+      labelLimit: 0,
+      labelFontSize: 11,
+      labelColor: PALETTE.ink,
+      labelLineHeight: 13,
+    },
   };
   const scale = words.ratio ? { type: "log", nice: false, padding: 12 } : { zero: false, padding: 12 };
   const xTitle = words.ratio
@@ -84,27 +121,64 @@ export function forestSpec(rows: readonly ForestRow[], contrastLabel: string, op
     title: title(
       "Does the treatment conclusion hold in every analysis?",
       `every interval close to the primary one and on the same side of ${words.noEffect}, so the conclusion does not hang on one analysis.`,
-      [`${contrastLabel}: ${words.ratio ? "the ratio" : `the ${words.kind}`} with its 95% CI per analysis.${primary ? " Shaded band: the primary analysis's 95% CI." : ""} ${noEffect}.`],
+      [
+        `${contrastLabel}: ${words.ratio ? "the ratio" : `the ${words.kind}`} with its 95% CI per analysis.${primary ? " Shaded band: the primary analysis's 95% CI." : ""} ${noEffect}.`,
+      ],
       width,
     ),
     datasets: { rows: points },
     data: { name: "rows" },
     layer: [
-      ...(primary ? [{ data: { values: [{ lower: primary.lower, upper: primary.upper }] }, mark: { type: "rect", color: PALETTE.accent, opacity: 0.12 }, encoding: { x: x("lower"), x2: { field: "upper" } } }] : []),
-      { data: { values: [{ at: words.ratio ? 1 : 0 }] }, mark: { type: "rule", color: PALETTE.inkSoft, strokeDash: [4, 3], strokeWidth: 1 }, encoding: { x: x("at") } },
-      { mark: { type: "rule", strokeWidth: 1.6, color: PALETTE.ink }, encoding: { y, x: x("lower"), x2: { field: "upper" } } },
+      ...(primary
+        ? [
+            {
+              data: { values: [{ lower: primary.lower, upper: primary.upper }] },
+              mark: { type: "rect", color: PALETTE.accent, opacity: 0.12 },
+              encoding: { x: x("lower"), x2: { field: "upper" } },
+            },
+          ]
+        : []),
+      {
+        data: { values: [{ at: words.ratio ? 1 : 0 }] },
+        mark: { type: "rule", color: PALETTE.inkSoft, strokeDash: [4, 3], strokeWidth: 1 },
+        encoding: { x: x("at") },
+      },
+      {
+        mark: { type: "rule", strokeWidth: 1.6, color: PALETTE.ink },
+        encoding: { y, x: x("lower"), x2: { field: "upper" } },
+      },
       {
         mark: { type: "point", filled: false, strokeWidth: 1.6, size: 80 },
         encoding: {
           y,
           x: x("estimate"),
-          shape: { field: "kind", type: "nominal", scale: { domain: kinds, range: ["diamond", "square", "triangle-up"] }, legend },
-          color: { field: "kind", type: "nominal", scale: { domain: kinds, range: [PALETTE.ink, PALETTE.within, PALETTE.finding] }, legend },
-          fill: { field: "kind", type: "nominal", scale: { domain: kinds, range: [PALETTE.ink, "transparent", "transparent"] }, legend },
+          shape: {
+            field: "kind",
+            type: "nominal",
+            scale: { domain: kinds, range: ["diamond", "square", "triangle-up"] },
+            legend,
+          },
+          color: {
+            field: "kind",
+            type: "nominal",
+            scale: { domain: kinds, range: [PALETTE.ink, PALETTE.within, PALETTE.finding] },
+            legend,
+          },
+          fill: {
+            field: "kind",
+            type: "nominal",
+            scale: { domain: kinds, range: [PALETTE.ink, "transparent", "transparent"] },
+            legend,
+          },
           tooltip: [
             { field: "label", type: "nominal", title: "Analysis" },
             { field: "kind", type: "nominal", title: "Kind" },
-            { field: "estimate", type: "quantitative", title: words.ratio ? "Ratio" : "Estimate", format: ".3f" },
+            {
+              field: "estimate",
+              type: "quantitative",
+              title: words.ratio ? "Ratio" : "Estimate",
+              format: ".3f",
+            },
             { field: "lower", type: "quantitative", title: "95% CI lower", format: ".3f" },
             { field: "upper", type: "quantitative", title: "95% CI upper", format: ".3f" },
           ],
@@ -116,7 +190,11 @@ export function forestSpec(rows: readonly ForestRow[], contrastLabel: string, op
 }
 
 /** Caption words and alt text of a forest figure in the appendix. */
-export function forestAlt(caption: string, contrastLabel: string, points: readonly { label: string; estimate: string; interval: string }[]): string {
+export function forestAlt(
+  caption: string,
+  contrastLabel: string,
+  points: readonly { label: string; estimate: string; interval: string }[],
+): string {
   const w = contrastWords(contrastLabel);
   const [first, ...rest] = points;
   return (

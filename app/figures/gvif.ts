@@ -8,7 +8,14 @@ import { asSpec, dataOf, frame, NO_ARIA, PALETTE, SCHEMA, title } from "./shared
 import { defineFigure } from "./shared/module";
 import { appliedThreshold, base, FigureUnavailableError, modelResult } from "./shared/source";
 import { round } from "./shared/summaries";
-import { BEYOND, WITHIN, type FigureBase, type PointStatus, type SpecOptions, type Threshold } from "./shared/types";
+import {
+  BEYOND,
+  WITHIN,
+  type FigureBase,
+  type PointStatus,
+  type SpecOptions,
+  type Threshold,
+} from "./shared/types";
 
 export interface GvifRow {
   predictor: string;
@@ -30,9 +37,21 @@ export interface GvifData extends FigureBase {
 
 export function gvifSpec(d: GvifData, opts: SpecOptions = {}): TopLevelSpec {
   const width = opts.width ?? 560;
-  const max = Math.max(d.threshold?.value ?? 0, ...d.rows.map((r) => r.adjusted).filter(Number.isFinite)) * 1.25 || 1;
-  const y = { field: "predictor", type: "nominal", title: null, sort: d.rows.map((r) => r.predictor), axis: { labelLimit: 200, labelFontSize: 11, labelColor: PALETTE.ink } };
-  const x = { field: "adjusted", type: "quantitative", title: "Variance inflation, standard-error scale (1 = none)", scale: { domain: [0, max], nice: false } };
+  const max =
+    Math.max(d.threshold?.value ?? 0, ...d.rows.map((r) => r.adjusted).filter(Number.isFinite)) * 1.25 || 1;
+  const y = {
+    field: "predictor",
+    type: "nominal",
+    title: null,
+    sort: d.rows.map((r) => r.predictor),
+    axis: { labelLimit: 200, labelFontSize: 11, labelColor: PALETTE.ink },
+  };
+  const x = {
+    field: "adjusted",
+    type: "quantitative",
+    title: "Variance inflation, standard-error scale (1 = none)",
+    scale: { domain: [0, max], nice: false },
+  };
   const domain = [WITHIN, BEYOND];
   return asSpec({
     $schema: SCHEMA,
@@ -54,7 +73,12 @@ export function gvifSpec(d: GvifData, opts: SpecOptions = {}): TopLevelSpec {
         encoding: {
           y,
           x,
-          fill: { field: "status", type: "nominal", scale: { domain, range: ["#d8e3df", "#efc9bd"] }, legend: { title: "Variables" } },
+          fill: {
+            field: "status",
+            type: "nominal",
+            scale: { domain, range: ["#d8e3df", "#efc9bd"] },
+            legend: { title: "Variables" },
+          },
           tooltip: [
             { field: "predictor", type: "nominal", title: "Variable" },
             { field: "interactsWith", type: "nominal", title: "Interacts with" },
@@ -65,9 +89,24 @@ export function gvifSpec(d: GvifData, opts: SpecOptions = {}): TopLevelSpec {
           ],
         },
       },
-      { mark: { type: "text", align: "left", dx: 4, fontSize: 10, color: PALETTE.ink, ...NO_ARIA }, encoding: { y, x, text: { field: "text", type: "nominal" } } },
-      ...(d.threshold ? [{ data: { values: [{}] }, mark: { type: "rule", color: PALETTE.finding, strokeDash: [6, 3], strokeWidth: 1.2 }, encoding: { x: { datum: d.threshold.value } } }] : []),
-      { data: { values: [{}] }, mark: { type: "rule", color: PALETTE.inkSoft, strokeWidth: 1 }, encoding: { x: { datum: 1 } } },
+      {
+        mark: { type: "text", align: "left", dx: 4, fontSize: 10, color: PALETTE.ink, ...NO_ARIA },
+        encoding: { y, x, text: { field: "text", type: "nominal" } },
+      },
+      ...(d.threshold
+        ? [
+            {
+              data: { values: [{}] },
+              mark: { type: "rule", color: PALETTE.finding, strokeDash: [6, 3], strokeWidth: 1.2 },
+              encoding: { x: { datum: d.threshold.value } },
+            },
+          ]
+        : []),
+      {
+        data: { values: [{}] },
+        mark: { type: "rule", color: PALETTE.inkSoft, strokeWidth: 1 },
+        encoding: { x: { datum: 1 } },
+      },
     ],
   });
 }
@@ -77,7 +116,10 @@ export const gvif = defineFigure<GvifData>({
   checks: ["gvif"],
   data(source, opts) {
     const r = modelResult(source, "gvif");
-    if (r.vifByPredictor.length === 0) throw new FigureUnavailableError("the model has fewer than two terms, so there is no variance inflation to show");
+    if (r.vifByPredictor.length === 0)
+      throw new FigureUnavailableError(
+        "the model has fewer than two terms, so there is no variance inflation to show",
+      );
     const threshold = appliedThreshold(source, "gvif");
     const rows: GvifRow[] = r.vifByPredictor.map((v) => {
       const beyond = threshold !== null && v.adjusted > threshold.value;
@@ -96,11 +138,14 @@ export const gvif = defineFigure<GvifData>({
   spec: gvifSpec,
   words: {
     caption: "Variance inflation by variable",
-    shows: "one bar per variable: the factor by which its standard error is inflated by correlation with the other covariates, with the planned threshold as a dashed line",
+    shows:
+      "one bar per variable: the factor by which its standard error is inflated by correlation with the other covariates, with the planned threshold as a dashed line",
     healthy: "every bar short of the threshold",
   },
   marked(d) {
     const over = d.rows.filter((r) => r.status === BEYOND);
-    return over.length ? `Beyond the threshold: ${over.map((r) => `${r.predictor} (${r.adjusted.toFixed(2)})`).join(", ")}.` : "No variable is beyond the threshold.";
+    return over.length
+      ? `Beyond the threshold: ${over.map((r) => `${r.predictor} (${r.adjusted.toFixed(2)})`).join(", ")}.`
+      : "No variable is beyond the threshold.";
   },
 });

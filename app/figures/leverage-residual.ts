@@ -6,14 +6,52 @@
  * first.
  */
 import type { TopLevelSpec } from "vega-lite";
-import { asSpec, rankedList, cellsLayer, count, crowded, dataOf, denseLine, frame, NO_ARIA, PALETTE, SCHEMA, title, tooltip, zeroRule, type Json } from "./shared/look";
+import {
+  asSpec,
+  rankedList,
+  cellsLayer,
+  count,
+  crowded,
+  dataOf,
+  denseLine,
+  frame,
+  NO_ARIA,
+  PALETTE,
+  SCHEMA,
+  title,
+  tooltip,
+  zeroRule,
+  type Json,
+} from "./shared/look";
 import { defineFigure } from "./shared/module";
-import { appliedThreshold, cellsOf, denseSelection, drawnIndices, flaggedRows, labelOf, subjectsOf, topBy, who } from "./shared/source";
+import {
+  appliedThreshold,
+  cellsOf,
+  denseSelection,
+  drawnIndices,
+  flaggedRows,
+  labelOf,
+  subjectsOf,
+  topBy,
+  who,
+} from "./shared/source";
 import { round } from "./shared/summaries";
-import type { DensityCell, FigureBase, PointStatus, SpecOptions, SubjectRef, Threshold } from "./shared/types";
+import type {
+  DensityCell,
+  FigureBase,
+  PointStatus,
+  SpecOptions,
+  SubjectRef,
+  Threshold,
+} from "./shared/types";
 
 /** The zones of the plane, by the thresholds a subject exceeds. */
-export const ZONES = ["within both thresholds", "high leverage", "large residual", "high leverage and large residual"] as const;
+export const ZONES = [
+  "within both thresholds",
+  "high leverage",
+  "large residual",
+  "high leverage and large residual",
+] as const;
 export type Zone = (typeof ZONES)[number];
 
 export interface LeverageResidualRow extends SubjectRef {
@@ -56,31 +94,76 @@ const COLOURS: Record<Zone, string> = {
 function zoneOf(leverage: number, residual: number, lev: Threshold | null, res: Threshold | null): Zone {
   const high = lev !== null && leverage > lev.value;
   const large = res !== null && Math.abs(residual) > res.value;
-  return high && large ? "high leverage and large residual" : high ? "high leverage" : large ? "large residual" : "within both thresholds";
+  return high && large
+    ? "high leverage and large residual"
+    : high
+      ? "high leverage"
+      : large
+        ? "large residual"
+        : "within both thresholds";
 }
 
 export function leverageResidualSpec(d: LeverageResidualData, opts: SpecOptions = {}): TopLevelSpec {
   const width = opts.width ?? 560;
   const finite = (v: number) => Number.isFinite(v);
   const levs = [...d.rows.map((r) => r.leverage), ...(d.cells ?? []).map((c) => c.x1)].filter(finite);
-  const ress = [...d.rows.map((r) => r.deletionResidual), ...(d.cells ?? []).flatMap((c) => [c.y0, c.y1])].filter(finite);
+  const ress = [
+    ...d.rows.map((r) => r.deletionResidual),
+    ...(d.cells ?? []).flatMap((c) => [c.y0, c.y1]),
+  ].filter(finite);
   const lt = d.leverageThreshold?.value ?? null;
   const rt = d.residualThreshold?.value ?? null;
   const xMax = Math.max(lt ?? 0, ...levs) * 1.12 || 1;
   const yMax = Math.max(rt ?? 0, ...ress.map(Math.abs)) * 1.15 || 1;
-  const x = { field: "leverage", type: "quantitative", title: "Leverage (hat value, no unit)", scale: { domain: [0, xMax], nice: false }, axis: { tickCount: 6, format: ".2~r" } };
-  const y = { field: "deletionResidual", type: "quantitative", title: "Deletion residual (units of σ̂₍ᵢ₎)", scale: { domain: [-yMax, yMax], nice: false } };
+  const x = {
+    field: "leverage",
+    type: "quantitative",
+    title: "Leverage (hat value, no unit)",
+    scale: { domain: [0, xMax], nice: false },
+    axis: { tickCount: 6, format: ".2~r" },
+  };
+  const y = {
+    field: "deletionResidual",
+    type: "quantitative",
+    title: "Deletion residual (units of σ̂₍ᵢ₎)",
+    scale: { domain: [-yMax, yMax], nice: false },
+  };
   const zoneRect = (x0: number, x1: number, y0: number, y1: number, fill: string): Json => ({
     data: { values: [{ x0, x1, y0, y1 }] },
     mark: { type: "rect", fill, opacity: 0.13, ...NO_ARIA },
-    encoding: { x: { field: "x0", type: "quantitative", scale: x.scale }, x2: { field: "x1" }, y: { field: "y0", type: "quantitative", scale: y.scale }, y2: { field: "y1" } },
+    encoding: {
+      x: { field: "x0", type: "quantitative", scale: x.scale },
+      x2: { field: "x1" },
+      y: { field: "y0", type: "quantitative", scale: y.scale },
+      y2: { field: "y1" },
+    },
   });
   const rects: Json[] = [];
   const labels: Json[] = [];
-  const zoneLabel = (px: number, py: number, text: string, align: "left" | "right", baseline: "top" | "bottom"): Json => ({
+  const zoneLabel = (
+    px: number,
+    py: number,
+    text: string,
+    align: "left" | "right",
+    baseline: "top" | "bottom",
+  ): Json => ({
     data: { values: [{ px, py }] },
-    mark: { type: "text", align, baseline, dx: align === "left" ? 4 : -4, dy: baseline === "top" ? 3 : -3, fontSize: 10, fontWeight: 600, color: PALETTE.inkSoft, ...NO_ARIA },
-    encoding: { x: { field: "px", type: "quantitative", scale: x.scale }, y: { field: "py", type: "quantitative", scale: y.scale }, text: { value: text } },
+    mark: {
+      type: "text",
+      align,
+      baseline,
+      dx: align === "left" ? 4 : -4,
+      dy: baseline === "top" ? 3 : -3,
+      fontSize: 10,
+      fontWeight: 600,
+      color: PALETTE.inkSoft,
+      ...NO_ARIA,
+    },
+    encoding: {
+      x: { field: "px", type: "quantitative", scale: x.scale },
+      y: { field: "py", type: "quantitative", scale: y.scale },
+      text: { value: text },
+    },
   });
   const c = d.zoneCounts;
   if (lt !== null) {
@@ -88,22 +171,36 @@ export function leverageResidualSpec(d: LeverageResidualData, opts: SpecOptions 
     labels.push(zoneLabel(xMax, 0, `High leverage: ${count(c["high leverage"])}`, "right", "bottom"));
   }
   if (rt !== null) {
-    rects.push(zoneRect(0, lt ?? xMax, rt, yMax, PALETTE.accent), zoneRect(0, lt ?? xMax, -yMax, -rt, PALETTE.accent));
+    rects.push(
+      zoneRect(0, lt ?? xMax, rt, yMax, PALETTE.accent),
+      zoneRect(0, lt ?? xMax, -yMax, -rt, PALETTE.accent),
+    );
     labels.push(zoneLabel(0, yMax, `Large residual: ${count(c["large residual"])}`, "left", "top"));
   }
   if (lt !== null && rt !== null) {
-    rects.push(zoneRect(lt, xMax, rt, yMax, PALETTE.finding), zoneRect(lt, xMax, -yMax, -rt, PALETTE.finding));
-    labels.push(zoneLabel(xMax, yMax, `Both: ${count(c["high leverage and large residual"])}`, "right", "top"));
+    rects.push(
+      zoneRect(lt, xMax, rt, yMax, PALETTE.finding),
+      zoneRect(lt, xMax, -yMax, -rt, PALETTE.finding),
+    );
+    labels.push(
+      zoneLabel(xMax, yMax, `Both: ${count(c["high leverage and large residual"])}`, "right", "top"),
+    );
   }
   const rules: Json[] = [];
-  const rule = (axis: "x" | "y", v: number): Json => ({ data: { values: [{}] }, mark: { type: "rule", color: PALETTE.inkSoft, strokeDash: [5, 3], strokeWidth: 1, ...NO_ARIA }, encoding: { [axis]: { datum: v } } });
+  const rule = (axis: "x" | "y", v: number): Json => ({
+    data: { values: [{}] },
+    mark: { type: "rule", color: PALETTE.inkSoft, strokeDash: [5, 3], strokeWidth: 1, ...NO_ARIA },
+    encoding: { [axis]: { datum: v } },
+  });
   if (lt !== null) rules.push(rule("x", lt));
   if (rt !== null) rules.push(rule("y", rt), rule("y", -rt));
   const domain = [...ZONES];
   const legend = { title: "Subjects beyond" };
   const lines = [
     d.leverageThreshold ? `leverage ${d.leverageThreshold.label}` : null,
-    d.residualThreshold ? `deletion residual ${d.residualThreshold.label.replace(/^\|t\|\s*>\s*/, "beyond ±")}` : null,
+    d.residualThreshold
+      ? `deletion residual ${d.residualThreshold.label.replace(/^\|t\|\s*>\s*/, "beyond ±")}`
+      : null,
   ].filter((s): s is string => s !== null);
   return asSpec({
     $schema: SCHEMA,
@@ -112,7 +209,9 @@ export function leverageResidualSpec(d: LeverageResidualData, opts: SpecOptions 
       "Which subjects are unusual in covariates, in response, or both?",
       "every subject in the plain middle zone; none in the corner zones where both thresholds are passed.",
       [
-        lines.length ? `Zones by the plan's thresholds: ${lines.join("; ")}. Shape: which thresholds a subject passes.` : "The plan sets no leverage or residual threshold.",
+        lines.length
+          ? `Zones by the plan's thresholds: ${lines.join("; ")}. Shape: which thresholds a subject passes.`
+          : "The plan sets no leverage or residual threshold.",
         ...denseLine(d, "shading counts the subjects in each cell"),
         ...(d.note ? [d.note] : []),
       ],
@@ -130,9 +229,24 @@ export function leverageResidualSpec(d: LeverageResidualData, opts: SpecOptions 
         encoding: {
           x,
           y,
-          shape: { field: "zone", type: "nominal", scale: { domain, range: domain.map((z) => SHAPES[z]) }, legend },
-          color: { field: "zone", type: "nominal", scale: { domain, range: domain.map((z) => COLOURS[z]) }, legend },
-          size: { field: "zone", type: "ordinal", scale: { domain, range: [crowded(d) ? 8 : 16, 44, 44, 56] }, legend },
+          shape: {
+            field: "zone",
+            type: "nominal",
+            scale: { domain, range: domain.map((z) => SHAPES[z]) },
+            legend,
+          },
+          color: {
+            field: "zone",
+            type: "nominal",
+            scale: { domain, range: domain.map((z) => COLOURS[z]) },
+            legend,
+          },
+          size: {
+            field: "zone",
+            type: "ordinal",
+            scale: { domain, range: [crowded(d) ? 8 : 16, 44, 44, 56] },
+            legend,
+          },
           tooltip: tooltip(d, [
             { field: "leverage", title: "Leverage" },
             { field: "deletionResidual", title: "Deletion residual" },
@@ -142,10 +256,14 @@ export function leverageResidualSpec(d: LeverageResidualData, opts: SpecOptions 
         },
       },
       // the ranked list, beside the plot on the right (the plot narrows to make room)
-      rankedList(["Beyond a threshold,", "most influential first:"], d.ranked.map((r) => {
-        const zone = r.zone === "high leverage and large residual" ? "both" : r.zone;
-        return d.withSubjectIds ? `${r.label} (${zone})` : zone;
-      }), "No subject beyond a threshold."),
+      rankedList(
+        ["Beyond a threshold,", "most influential first:"],
+        d.ranked.map((r) => {
+          const zone = r.zone === "high leverage and large residual" ? "both" : r.zone;
+          return d.withSubjectIds ? `${r.label} (${zone})` : zone;
+        }),
+        "No subject beyond a threshold.",
+      ),
     ],
   });
 }
@@ -158,11 +276,20 @@ export const leverageResidual = defineFigure<LeverageResidualData>({
     const leverageThreshold = appliedThreshold(source, "leverage");
     const residualThreshold = appliedThreshold(source, "deletion_residual");
     const keys = flaggedRows(source, ["leverage", "deletion_residual", "cooks_distance"]);
-    const zones = obs.row.map((_, i) => zoneOf(obs.leverage[i], obs.studentizedExternal[i], leverageThreshold, residualThreshold));
+    const zones = obs.row.map((_, i) =>
+      zoneOf(obs.leverage[i], obs.studentizedExternal[i], leverageThreshold, residualThreshold),
+    );
     const zoneCounts = Object.fromEntries(ZONES.map((z) => [z, 0])) as Record<Zone, number>;
     for (const z of zones) zoneCounts[z]++;
     const top = topBy(obs.cooksDistance, RANKED, (i) => zones[i] !== "within both thresholds");
-    const ranked = [...top].sort((a, c) => a[1] - c[1]).map(([i, rank]) => ({ rank, label: labelOf(r, i, opts.withSubjectIds, top), zone: zones[i], cooks: round(obs.cooksDistance[i]) }));
+    const ranked = [...top]
+      .sort((a, c) => a[1] - c[1])
+      .map(([i, rank]) => ({
+        rank,
+        label: labelOf(r, i, opts.withSubjectIds, top),
+        zone: zones[i],
+        cooks: round(obs.cooksDistance[i]),
+      }));
     const dense = denseSelection(r, keys);
     const rows = drawnIndices(n, dense).map((i) => ({
       ...who(r, i, opts.withSubjectIds),
@@ -181,13 +308,16 @@ export const leverageResidual = defineFigure<LeverageResidualData>({
       rows,
       zoneCounts,
       ranked,
-      ...(dense ? { dense: dense.summary, cells: cellsOf(obs.leverage, obs.studentizedExternal, dense) } : {}),
+      ...(dense
+        ? { dense: dense.summary, cells: cellsOf(obs.leverage, obs.studentizedExternal, dense) }
+        : {}),
     };
   },
   spec: leverageResidualSpec,
   words: {
     caption: "Leverage and deletion residual zones",
-    shows: "each subject's deletion residual against its leverage, in zones divided by the planned thresholds with the count of subjects in each, and a ranked list of the subjects beyond a threshold",
+    shows:
+      "each subject's deletion residual against its leverage, in zones divided by the planned thresholds with the count of subjects in each, and a ranked list of the subjects beyond a threshold",
     healthy: "no subject in the zone beyond both thresholds",
   },
   marked(d) {

@@ -4,12 +4,45 @@
  * axis and subtitle say so.
  */
 import type { TopLevelSpec } from "vega-lite";
-import { asSpec, cellsLayer, dataOf, denseLine, frame, loessLayer, markedSubjects, PALETTE, pointMark, SCHEMA, statusEncoding, title, tooltip } from "./shared/look";
+import {
+  asSpec,
+  cellsLayer,
+  dataOf,
+  denseLine,
+  frame,
+  loessLayer,
+  markedSubjects,
+  PALETTE,
+  pointMark,
+  SCHEMA,
+  statusEncoding,
+  title,
+  tooltip,
+} from "./shared/look";
 import { defineFigure } from "./shared/module";
 import { linkScale, linkUnit } from "./shared/residual-words";
-import { cellsFor, cellsOf, denseSelection, drawnIndices, FigureUnavailableError, interactionNote, requireTerm, smoothOf, subjectsOf, unitOf, who } from "./shared/source";
+import {
+  cellsFor,
+  cellsOf,
+  denseSelection,
+  drawnIndices,
+  FigureUnavailableError,
+  interactionNote,
+  requireTerm,
+  smoothOf,
+  subjectsOf,
+  unitOf,
+  who,
+} from "./shared/source";
 import { round } from "./shared/summaries";
-import type { DensityCell, FigureBase, PointStatus, SmoothPoint, SpecOptions, SubjectRef } from "./shared/types";
+import type {
+  DensityCell,
+  FigureBase,
+  PointStatus,
+  SmoothPoint,
+  SpecOptions,
+  SubjectRef,
+} from "./shared/types";
 
 export interface PartialResidualRow extends SubjectRef {
   x: number;
@@ -35,8 +68,15 @@ export interface PartialResidualsData extends FigureBase {
 
 export function partialResidualsSpec(d: PartialResidualsData, opts: SpecOptions = {}): TopLevelSpec {
   const width = opts.width ?? 560;
-  const xEnc = { field: "x", type: "quantitative", title: `${d.term} (${d.termUnit})`, scale: { zero: false } };
-  const yTitle = d.glm ? `Component + working residual (${linkUnit(d)})` : `Component plus residual (${d.responseUnit})`;
+  const xEnc = {
+    field: "x",
+    type: "quantitative",
+    title: `${d.term} (${d.termUnit})`,
+    scale: { zero: false },
+  };
+  const yTitle = d.glm
+    ? `Component + working residual (${linkUnit(d)})`
+    : `Component plus residual (${d.responseUnit})`;
   return asSpec({
     $schema: SCHEMA,
     ...frame(d, opts),
@@ -66,7 +106,11 @@ export function partialResidualsSpec(d: PartialResidualsData, opts: SpecOptions 
           ]),
         },
       },
-      { data: { values: d.fittedLine }, mark: { type: "line", color: PALETTE.inkSoft, strokeWidth: 1.5 }, encoding: { x: xEnc, y: { field: "component", type: "quantitative" } } },
+      {
+        data: { values: d.fittedLine },
+        mark: { type: "line", color: PALETTE.inkSoft, strokeWidth: 1.5 },
+        encoding: { x: xEnc, y: { field: "component", type: "quantitative" } },
+      },
       loessLayer(d.smooth),
     ],
   });
@@ -85,7 +129,9 @@ export const partialResiduals = defineFigure<PartialResidualsData>({
     const coef = r.coefficients.find((c) => c.term === t.name);
     const x = cellsFor(r, opts.table, t.name, "partial_residuals").map(Number);
     // the component b·x centred: partial residual minus the (raw) residual
-    const component = partial.values.map((v, i) => v - (r.kind === "linear" ? r.observations.residual[i] : r.observations.workingResidual[i]));
+    const component = partial.values.map(
+      (v, i) => v - (r.kind === "linear" ? r.observations.residual[i] : r.observations.workingResidual[i]),
+    );
     const dense = denseSelection(r, influential);
     const rows = drawnIndices(n, dense).map((i) => ({
       ...who(r, i, opts.withSubjectIds),
@@ -98,7 +144,9 @@ export const partialResiduals = defineFigure<PartialResidualsData>({
     const ends = x.map((_, i) => i).filter((i) => Number.isFinite(x[i]) && Number.isFinite(component[i]));
     const lo = ends.reduce((m, i) => (x[i] < x[m] ? i : m), ends[0]);
     const hi = ends.reduce((m, i) => (x[i] > x[m] ? i : m), ends[0]);
-    const fittedLine = ends.length ? [lo, hi].map((i) => ({ x: round(x[i]), component: round(component[i]) })) : [];
+    const fittedLine = ends.length
+      ? [lo, hi].map((i) => ({ x: round(x[i]), component: round(component[i]) }))
+      : [];
     return {
       figure: "partial_residuals",
       ...b,
@@ -115,7 +163,8 @@ export const partialResiduals = defineFigure<PartialResidualsData>({
   spec: partialResidualsSpec,
   words: {
     caption: "Partial residuals",
-    shows: "the component-plus-residual values against the covariate, with the fitted linear effect and a loess smoother",
+    shows:
+      "the component-plus-residual values against the covariate, with the fitted linear effect and a loess smoother",
     healthy: "the smoother following the straight line of the fitted effect",
   },
   marked: (d) => markedSubjects(d.rows),

@@ -5,7 +5,19 @@
  * under the model even for a 0/1 endpoint, where raw residuals could never be.
  */
 import type { TopLevelSpec } from "vega-lite";
-import { asSpec, count, dataOf, frame, markedSubjects, PALETTE, pointMark, SCHEMA, statusEncoding, title, tooltip } from "./shared/look";
+import {
+  asSpec,
+  count,
+  dataOf,
+  frame,
+  markedSubjects,
+  PALETTE,
+  pointMark,
+  SCHEMA,
+  statusEncoding,
+  title,
+  tooltip,
+} from "./shared/look";
 import { defineFigure } from "./shared/module";
 import { blomQuantiles, denseSelection, qqValues, subjectsOf, who } from "./shared/source";
 import { qqKept, round } from "./shared/summaries";
@@ -39,15 +51,19 @@ const QQ_MIDDLE = 400;
 function qqThinningLine(d: QqData): string[] {
   if (!d.dense || !d.thinning) return [];
   const { tail, step } = d.thinning;
-  return [`${count(d.dense.total)} subjects: drawn are the ${tail} smallest and ${tail} largest residuals, every ${step === 1 ? "" : `${ordinal(step)} `}one in between and the subjects shown one by one in the other figures.`];
+  return [
+    `${count(d.dense.total)} subjects: drawn are the ${tail} smallest and ${tail} largest residuals, every ${step === 1 ? "" : `${ordinal(step)} `}one in between and the subjects shown one by one in the other figures.`,
+  ];
 }
 
 function ordinal(k: number): string {
   const tens = k % 100;
-  const suffix = tens >= 11 && tens <= 13 ? "th" : ({ 1: "st", 2: "nd", 3: "rd" } as Record<number, string>)[k % 10] ?? "th";
+  const suffix =
+    tens >= 11 && tens <= 13
+      ? "th"
+      : (({ 1: "st", 2: "nd", 3: "rd" } as Record<number, string>)[k % 10] ?? "th");
   return `${k}${suffix}`;
 }
-
 
 export function qqSpec(d: QqData, opts: SpecOptions = {}): TopLevelSpec {
   const width = opts.width ?? 560;
@@ -63,7 +79,9 @@ export function qqSpec(d: QqData, opts: SpecOptions = {}): TopLevelSpec {
       "the points lie along the line from end to end.",
       [
         d.summary,
-        d.glm ? "Randomized quantile residuals (Dunn and Smyth 1996), seeded; line through the quartiles; Blom plotting positions." : "Line through the quartiles; Blom plotting positions.",
+        d.glm
+          ? "Randomized quantile residuals (Dunn and Smyth 1996), seeded; line through the quartiles; Blom plotting positions."
+          : "Line through the quartiles; Blom plotting positions.",
         ...qqThinningLine(d),
         ...(d.note ? [d.note] : []),
       ],
@@ -74,13 +92,24 @@ export function qqSpec(d: QqData, opts: SpecOptions = {}): TopLevelSpec {
       {
         data: { values: line },
         mark: { type: "line", color: PALETTE.accent, strokeWidth: 1.6 },
-        encoding: { x: { field: "theoretical", type: "quantitative" }, y: { field: "sample", type: "quantitative" } },
+        encoding: {
+          x: { field: "theoretical", type: "quantitative" },
+          y: { field: "sample", type: "quantitative" },
+        },
       },
       {
         mark: pointMark(),
         encoding: {
-          x: { field: "theoretical", type: "quantitative", title: "Standard normal quantile (Blom positions)" },
-          y: { field: "sample", type: "quantitative", title: d.glm ? `${residual} (z)` : `${residual} (units of σ̂)` },
+          x: {
+            field: "theoretical",
+            type: "quantitative",
+            title: "Standard normal quantile (Blom positions)",
+          },
+          y: {
+            field: "sample",
+            type: "quantitative",
+            title: d.glm ? `${residual} (z)` : `${residual} (units of σ̂)`,
+          },
           ...statusEncoding(d, false),
           tooltip: tooltip(d, [
             { field: "theoretical", title: "Normal quantile" },
@@ -111,10 +140,25 @@ export const qq = defineFigure<QqData>({
     const intercept = q1 - slope * z1;
     const dense = denseSelection(r, influential);
     // a dense plot keeps the tails, the subjects drawn elsewhere one by one, and a regular thinning of the middle
-    const thinned = dense ? qqKept(order.length, QQ_TAIL, QQ_MIDDLE, new Set(order.flatMap((i, k) => (dense.drawn.has(i) ? [k] : [])))) : null;
+    const thinned = dense
+      ? qqKept(
+          order.length,
+          QQ_TAIL,
+          QQ_MIDDLE,
+          new Set(order.flatMap((i, k) => (dense.drawn.has(i) ? [k] : []))),
+        )
+      : null;
     const kept = thinned ? thinned.kept : order.map((_, k) => k);
-    const rows: QqRow[] = kept.map((k) => ({ ...who(r, order[k], opts.withSubjectIds), theoretical: round(theoretical[k]), sample: round(sorted[k]), status: statusOf(order[k]) }));
-    const note = order.length < n ? `${n - order.length} subjects with leverage one have no studentized residual and are not shown.` : undefined;
+    const rows: QqRow[] = kept.map((k) => ({
+      ...who(r, order[k], opts.withSubjectIds),
+      theoretical: round(theoretical[k]),
+      sample: round(sorted[k]),
+      status: statusOf(order[k]),
+    }));
+    const note =
+      order.length < n
+        ? `${n - order.length} subjects with leverage one have no studentized residual and are not shown.`
+        : undefined;
     return {
       figure: "qq",
       ...b,
@@ -129,7 +173,8 @@ export const qq = defineFigure<QqData>({
   spec: qqSpec,
   words: {
     caption: "Normal quantile plot of the residuals",
-    shows: "the sorted residuals (studentized for a linear model, randomized quantile residuals for a generalized linear model) plotted against standard normal quantiles, with a reference line through the quartiles",
+    shows:
+      "the sorted residuals (studentized for a linear model, randomized quantile residuals for a generalized linear model) plotted against standard normal quantiles, with a reference line through the quartiles",
     healthy: "points close to the line, without an S-shape or bent tails",
   },
   marked: (d) => markedSubjects(d.rows),

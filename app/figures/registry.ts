@@ -118,7 +118,13 @@ export function figureListOf(source: FigureSource): { figure: FigureKey; term?: 
   const { continuous } = figureTerms(source);
   const covariates = continuous.filter((c) => c !== r.spec.treatment);
   const first: FigureKey[] = ["residuals_fitted", "qq", "influence", "leverage_residual"];
-  const ofChecks = [...new Set(source.checks.map((c) => figureOfCheck(c)).filter((f): f is FigureKey => f !== null && !first.includes(f) && f !== "partial_residuals"))];
+  const ofChecks = [
+    ...new Set(
+      source.checks
+        .map((c) => figureOfCheck(c))
+        .filter((f): f is FigureKey => f !== null && !first.includes(f) && f !== "partial_residuals"),
+    ),
+  ];
   return [
     ...first.map((figure) => ({ figure })),
     ...ofChecks.flatMap((figure) => {
@@ -127,8 +133,12 @@ export function figureListOf(source: FigureSource): { figure: FigureKey; term?: 
       const term = m.defaultTerm?.(source) ?? covariates[0];
       return term ? [{ figure, term }] : [];
     }),
-    ...(r.spec.treatment && !ofChecks.includes("spread_by_arm") ? [{ figure: "spread_by_arm" as const }] : []),
+    ...(r.spec.treatment && !ofChecks.includes("spread_by_arm")
+      ? [{ figure: "spread_by_arm" as const }]
+      : []),
     ...covariates.map((term) => ({ figure: "partial_residuals" as const, term })),
-    ...(r.kind === "glm" && r.family === "binomial" ? [{ figure: "binned_residuals" as const }, { figure: "calibration" as const }] : []),
+    ...(r.kind === "glm" && r.family === "binomial"
+      ? [{ figure: "binned_residuals" as const }, { figure: "calibration" as const }]
+      : []),
   ];
 }

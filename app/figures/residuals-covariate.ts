@@ -1,11 +1,46 @@
 /** Residuals against one covariate: does the spread stay level and even across its range or levels? */
 import type { TopLevelSpec } from "vega-lite";
-import { asSpec, boxLayers, cellsLayer, dataOf, denseLine, frame, loessLayer, markedSubjects, pointMark, SCHEMA, statusEncoding, title, tooltip, zeroRule } from "./shared/look";
+import {
+  asSpec,
+  boxLayers,
+  cellsLayer,
+  dataOf,
+  denseLine,
+  frame,
+  loessLayer,
+  markedSubjects,
+  pointMark,
+  SCHEMA,
+  statusEncoding,
+  title,
+  tooltip,
+  zeroRule,
+} from "./shared/look";
 import { defineFigure } from "./shared/module";
 import { residualAxis, residualName } from "./shared/residual-words";
-import { cellsFor, cellsOf, denseSelection, drawnIndices, interactionNote, jitterOf, requireTerm, smoothOf, subjectsOf, unitOf, who } from "./shared/source";
+import {
+  cellsFor,
+  cellsOf,
+  denseSelection,
+  drawnIndices,
+  interactionNote,
+  jitterOf,
+  requireTerm,
+  smoothOf,
+  subjectsOf,
+  unitOf,
+  who,
+} from "./shared/source";
 import { boxSummaries, round } from "./shared/summaries";
-import type { BoxSummary, DensityCell, FigureBase, PointStatus, SmoothPoint, SpecOptions, SubjectRef } from "./shared/types";
+import type {
+  BoxSummary,
+  DensityCell,
+  FigureBase,
+  PointStatus,
+  SmoothPoint,
+  SpecOptions,
+  SubjectRef,
+} from "./shared/types";
 
 export interface ResidualsCovariateRow extends SubjectRef {
   /** Covariate value (continuous) or level (categorical). */
@@ -46,7 +81,11 @@ export function residualsCovariateSpec(d: ResidualsCovariateData, opts: SpecOpti
       title: title(
         `Do residuals stay level and even across ${d.term}?`,
         "an even band around zero with a flat smoother; a curve suggests the wrong functional form.",
-        ["Brass line: loess smoother (span 0.5), of every subject. Dashed: zero.", ...denseLine(d, "shading counts the subjects in each cell"), ...extra],
+        [
+          "Brass line: loess smoother (span 0.5), of every subject. Dashed: zero.",
+          ...denseLine(d, "shading counts the subjects in each cell"),
+          ...extra,
+        ],
         width,
       ),
       ...dataOf(d.rows, opts),
@@ -55,20 +94,40 @@ export function residualsCovariateSpec(d: ResidualsCovariateData, opts: SpecOpti
         zeroRule("y"),
         {
           mark: pointMark(),
-          encoding: { x: { field: "x", type: "quantitative", title: `${d.term} (${d.termUnit})`, scale: { zero: false } }, y: yAxis, ...statusEncoding(d), tooltip: tip },
+          encoding: {
+            x: {
+              field: "x",
+              type: "quantitative",
+              title: `${d.term} (${d.termUnit})`,
+              scale: { zero: false },
+            },
+            y: yAxis,
+            ...statusEncoding(d),
+            tooltip: tip,
+          },
         },
         loessLayer(d.smooth ?? []),
       ],
     });
   }
-  const x = { field: "x", type: "nominal", title: `${d.term} (level)`, sort: d.levels, axis: { labelAngle: 0 } };
+  const x = {
+    field: "x",
+    type: "nominal",
+    title: `${d.term} (level)`,
+    sort: d.levels,
+    axis: { labelAngle: 0 },
+  };
   return asSpec({
     $schema: SCHEMA,
     ...frame(d, opts),
     title: title(
       `Are residuals centred and equally spread at every level of ${d.term}?`,
       "boxes centred on zero with similar heights at every level.",
-      ["Boxes: quartiles and median of every subject; whiskers to 1.5 × IQR. Dashed: zero.", ...denseLine(d, "the boxes summarise them all"), ...extra],
+      [
+        "Boxes: quartiles and median of every subject; whiskers to 1.5 × IQR. Dashed: zero.",
+        ...denseLine(d, "the boxes summarise them all"),
+        ...extra,
+      ],
       width,
     ),
     ...dataOf(d.rows, opts),
@@ -77,7 +136,13 @@ export function residualsCovariateSpec(d: ResidualsCovariateData, opts: SpecOpti
       ...boxLayers(d.boxes ?? [], x, yAxis.title, 36),
       {
         mark: pointMark(),
-        encoding: { x, xOffset: { field: "jitter", type: "quantitative", scale: { domain: [-2.2, 2.2] } }, y: yAxis, ...statusEncoding(d), tooltip: tip },
+        encoding: {
+          x,
+          xOffset: { field: "jitter", type: "quantitative", scale: { domain: [-2.2, 2.2] } },
+          y: yAxis,
+          ...statusEncoding(d),
+          tooltip: tip,
+        },
       },
     ],
   });
@@ -89,7 +154,11 @@ export const residualsCovariate = defineFigure<ResidualsCovariateData>({
   perTerm: "continuous",
   needsTable: true,
   data(source, opts) {
-    const { r, obs, n, b, influential, statusOf, residuals } = subjectsOf(source, "residuals_covariate", opts);
+    const { r, obs, n, b, influential, statusOf, residuals } = subjectsOf(
+      source,
+      "residuals_covariate",
+      opts,
+    );
     const t = requireTerm(r, opts.term, false);
     const cells = cellsFor(r, opts.table, t.name, "residuals_covariate");
     const continuous = t.kind === "continuous";
@@ -102,11 +171,29 @@ export const residualsCovariate = defineFigure<ResidualsCovariateData>({
       jitter: round(jitterOf(obs.row[i])),
       status: statusOf(i),
     }));
-    const common = { figure: "residuals_covariate" as const, ...b, term: t.name, termUnit: continuous ? unitOf(t.name, opts) : "level", kind: t.kind, note: interactionNote(r, t.name), rows, ...(dense ? { dense: dense.summary } : {}) };
-    if (continuous) return { ...common, ...(dense ? { cells: cellsOf(values, residuals, dense) } : {}), smooth: smoothOf(values, residuals) };
+    const common = {
+      figure: "residuals_covariate" as const,
+      ...b,
+      term: t.name,
+      termUnit: continuous ? unitOf(t.name, opts) : "level",
+      kind: t.kind,
+      note: interactionNote(r, t.name),
+      rows,
+      ...(dense ? { dense: dense.summary } : {}),
+    };
+    if (continuous)
+      return {
+        ...common,
+        ...(dense ? { cells: cellsOf(values, residuals, dense) } : {}),
+        smooth: smoothOf(values, residuals),
+      };
     return { ...common, levels: t.levels ?? [], boxes: boxSummaries(t.levels ?? [], cells, residuals) };
   },
   spec: residualsCovariateSpec,
-  words: { caption: "Level and spread of the residuals across a covariate", shows: "each subject's residual against the covariate", healthy: "an even band around zero" },
+  words: {
+    caption: "Level and spread of the residuals across a covariate",
+    shows: "each subject's residual against the covariate",
+    healthy: "an even band around zero",
+  },
   marked: (d) => markedSubjects(d.rows),
 });

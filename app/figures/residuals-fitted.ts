@@ -1,11 +1,32 @@
 /** Residuals against fitted values: does the spread stay level and even (constant variance, no missed curve)? */
 import type { TopLevelSpec } from "vega-lite";
-import { asSpec, cellsLayer, dataOf, denseLine, frame, loessLayer, markedSubjects, pointMark, SCHEMA, statusEncoding, title, tooltip, zeroRule } from "./shared/look";
+import {
+  asSpec,
+  cellsLayer,
+  dataOf,
+  denseLine,
+  frame,
+  loessLayer,
+  markedSubjects,
+  pointMark,
+  SCHEMA,
+  statusEncoding,
+  title,
+  tooltip,
+  zeroRule,
+} from "./shared/look";
 import { defineFigure } from "./shared/module";
 import { fittedAxis, residualAxis, residualName } from "./shared/residual-words";
 import { cellsOf, denseSelection, drawnIndices, smoothOf, subjectsOf, who } from "./shared/source";
 import { round } from "./shared/summaries";
-import type { DensityCell, FigureBase, PointStatus, SmoothPoint, SpecOptions, SubjectRef } from "./shared/types";
+import type {
+  DensityCell,
+  FigureBase,
+  PointStatus,
+  SmoothPoint,
+  SpecOptions,
+  SubjectRef,
+} from "./shared/types";
 
 export interface ResidualsFittedRow extends SubjectRef {
   fitted: number;
@@ -29,7 +50,11 @@ export function residualsFittedSpec(d: ResidualsFittedData, opts: SpecOptions = 
     title: title(
       "Do residuals stay level and even across fitted values?",
       "an even band around zero with a flat smoother; no funnel, no curve.",
-      ["Brass line: loess smoother (span 0.5), of every subject. Dashed: zero.", ...denseLine(d, "shading counts the subjects in each cell"), ...(d.note ? [d.note] : [])],
+      [
+        "Brass line: loess smoother (span 0.5), of every subject. Dashed: zero.",
+        ...denseLine(d, "shading counts the subjects in each cell"),
+        ...(d.note ? [d.note] : []),
+      ],
       width,
     ),
     ...dataOf(d.rows, opts),
@@ -59,14 +84,26 @@ export const residualsFitted = defineFigure<ResidualsFittedData>({
   data(source, opts) {
     const { r, obs, n, b, influential, statusOf, residuals } = subjectsOf(source, "residuals_fitted", opts);
     const dense = denseSelection(r, influential);
-    const rows = drawnIndices(n, dense).map((i) => ({ ...who(r, i, opts.withSubjectIds), fitted: round(obs.fitted[i]), residual: round(residuals[i]), status: statusOf(i) }));
+    const rows = drawnIndices(n, dense).map((i) => ({
+      ...who(r, i, opts.withSubjectIds),
+      fitted: round(obs.fitted[i]),
+      residual: round(residuals[i]),
+      status: statusOf(i),
+    }));
     const cells = cellsOf(obs.fitted, residuals, dense);
-    return { figure: "residuals_fitted", ...b, ...(dense ? { dense: dense.summary, cells } : {}), rows, smooth: smoothOf(obs.fitted, residuals) };
+    return {
+      figure: "residuals_fitted",
+      ...b,
+      ...(dense ? { dense: dense.summary, cells } : {}),
+      rows,
+      smooth: smoothOf(obs.fitted, residuals),
+    };
   },
   spec: residualsFittedSpec,
   words: {
     caption: "Level and spread of the residuals across fitted values",
-    shows: "a scatter plot of each subject's residual against the fitted value, with a loess smoother and a dashed line at zero",
+    shows:
+      "a scatter plot of each subject's residual against the fitted value, with a loess smoother and a dashed line at zero",
     healthy: "an even band around zero with a flat smoother, no funnel and no curve",
   },
   marked: (d) => markedSubjects(d.rows),

@@ -8,7 +8,18 @@
  */
 import { INTERACTION_JOIN } from "~/engine/coefficient-names";
 import type { TopLevelSpec } from "vega-lite";
-import { asSpec, dataOf, frame, NO_ARIA, PALETTE, pText, SCHEMA, title, tooltip, type Json } from "./shared/look";
+import {
+  asSpec,
+  dataOf,
+  frame,
+  NO_ARIA,
+  PALETTE,
+  pText,
+  SCHEMA,
+  title,
+  tooltip,
+  type Json,
+} from "./shared/look";
 import { defineFigure } from "./shared/module";
 import { linkScale, linkUnit } from "./shared/residual-words";
 import { cellsFor, FigureUnavailableError, requireTerm, subjectsOf, unitOf, who } from "./shared/source";
@@ -50,10 +61,19 @@ export interface SlopesByArmData extends FigureBase {
 
 const ARM_COLOURS = [PALETTE.ink, PALETTE.accent, "#3d7a8a", "#7a5c99", "#8a8f9c"];
 const ARM_SHAPES = ["circle", "square", "diamond", "triangle-down", "cross"];
-const ARM_DASHES = [[1, 0], [6, 3], [2, 2], [8, 2, 2, 2], [4, 4]];
+const ARM_DASHES = [
+  [1, 0],
+  [6, 3],
+  [2, 2],
+  [8, 2, 2, 2],
+  [4, 4],
+];
 
 /** Least-squares line of y on x: slope and the line's value at the ends of x. */
-function leastSquares(x: readonly number[], y: readonly number[]): { slope: number; ends: { x: number; y: number }[] } | null {
+function leastSquares(
+  x: readonly number[],
+  y: readonly number[],
+): { slope: number; ends: { x: number; y: number }[] } | null {
   const n = x.length;
   if (n < 2) return null;
   const mx = x.reduce((a, b) => a + b, 0) / n;
@@ -74,14 +94,35 @@ function leastSquares(x: readonly number[], y: readonly number[]): { slope: numb
 export function slopesByArmSpec(d: SlopesByArmData, opts: SpecOptions = {}): TopLevelSpec {
   const width = opts.width ?? 560;
   const x = { field: "x", type: "quantitative", title: `${d.term} (${d.termUnit})`, scale: { zero: false } };
-  const yTitle = d.glm ? `Component + working residual (${linkUnit(d)})` : `Component plus residual (${d.responseUnit})`;
-  const y = { field: "partial", type: "quantitative", title: yTitle, ...(d.window ? { scale: { domain: d.window.domain, nice: false } } : {}) };
+  const yTitle = d.glm
+    ? `Component + working residual (${linkUnit(d)})`
+    : `Component plus residual (${d.responseUnit})`;
+  const y = {
+    field: "partial",
+    type: "quantitative",
+    title: yTitle,
+    ...(d.window ? { scale: { domain: d.window.domain, nice: false } } : {}),
+  };
   const arms = d.arms;
-  const colour = { field: "arm", type: "nominal", scale: { domain: arms, range: ARM_COLOURS.slice(0, arms.length) }, legend: { title: `Arm (${d.treatment})` } };
+  const colour = {
+    field: "arm",
+    type: "nominal",
+    scale: { domain: arms, range: ARM_COLOURS.slice(0, arms.length) },
+    legend: { title: `Arm (${d.treatment})` },
+  };
   const lines: Json[] = d.slopes.map((s) => ({
     data: { values: s.ends.map((e) => ({ ...e, arm: s.arm })) },
-    mark: { type: "line", strokeWidth: 2.8, strokeDash: ARM_DASHES[arms.indexOf(s.arm) % ARM_DASHES.length], ...NO_ARIA },
-    encoding: { x: { field: "x", type: "quantitative" }, y: { field: "y", type: "quantitative" }, color: colour },
+    mark: {
+      type: "line",
+      strokeWidth: 2.8,
+      strokeDash: ARM_DASHES[arms.indexOf(s.arm) % ARM_DASHES.length],
+      ...NO_ARIA,
+    },
+    encoding: {
+      x: { field: "x", type: "quantitative" },
+      y: { field: "y", type: "quantitative" },
+      color: colour,
+    },
   }));
   const slopeWords = d.slopes.map((s) => `${s.arm} ${s.slope.toPrecision(3)}`).join(", ");
   return asSpec({
@@ -92,8 +133,14 @@ export function slopesByArmSpec(d: SlopesByArmData, opts: SpecOptions = {}): Top
       "the arms' lines run parallel to each other and to the model's common slope.",
       [
         `Lines: each arm's own least-squares slope (${slopeWords}); grey: the model's common slope ${d.common.slope.toPrecision(3)}.${d.glm ? ` On the link scale, ${linkScale(d)}.` : ""}`,
-        d.test ? `${d.test.name}: p ${pText(d.test.p)}.` : `No test of ${d.treatment} × ${d.term} was computed.`,
-        ...(d.window ? [`The axis shows the middle 90% of the subjects; ${d.window.outside} beyond it are not drawn (the lines use every subject).`] : []),
+        d.test
+          ? `${d.test.name}: p ${pText(d.test.p)}.`
+          : `No test of ${d.treatment} × ${d.term} was computed.`,
+        ...(d.window
+          ? [
+              `The axis shows the middle 90% of the subjects; ${d.window.outside} beyond it are not drawn (the lines use every subject).`,
+            ]
+          : []),
         ...(d.note ? [d.note] : []),
       ],
       width,
@@ -106,7 +153,12 @@ export function slopesByArmSpec(d: SlopesByArmData, opts: SpecOptions = {}): Top
           x,
           y,
           color: colour,
-          shape: { field: "arm", type: "nominal", scale: { domain: arms, range: ARM_SHAPES.slice(0, arms.length) }, legend: { title: `Arm (${d.treatment})` } },
+          shape: {
+            field: "arm",
+            type: "nominal",
+            scale: { domain: arms, range: ARM_SHAPES.slice(0, arms.length) },
+            legend: { title: `Arm (${d.treatment})` },
+          },
           tooltip: tooltip(d, [
             { field: "arm", title: "Arm", type: "nominal" },
             { field: "x", title: d.term },
@@ -114,7 +166,11 @@ export function slopesByArmSpec(d: SlopesByArmData, opts: SpecOptions = {}): Top
           ]),
         },
       },
-      { data: { values: d.common.ends }, mark: { type: "line", color: PALETTE.inkSoft, strokeWidth: 1.4, opacity: 0.8, ...NO_ARIA }, encoding: { x: { field: "x", type: "quantitative" }, y: { field: "y", type: "quantitative" } } },
+      {
+        data: { values: d.common.ends },
+        mark: { type: "line", color: PALETTE.inkSoft, strokeWidth: 1.4, opacity: 0.8, ...NO_ARIA },
+        encoding: { x: { field: "x", type: "quantitative" }, y: { field: "y", type: "quantitative" } },
+      },
       ...lines,
     ],
   });
@@ -132,17 +188,25 @@ export const slopesByArm = defineFigure<SlopesByArmData>({
       r.kind === "linear"
         ? (r.tests.homogeneityOfSlopes?.byCovariate ?? []).map((c) => ({ term: c.covariate, p: c.p }))
         : r.kind === "glm"
-          ? (r.checks.homogeneityOfTreatmentEffect?.byCovariate ?? []).map((c) => ({ term: c.term.split(INTERACTION_JOIN).pop() ?? c.term, p: c.p }))
+          ? (r.checks.homogeneityOfTreatmentEffect?.byCovariate ?? []).map((c) => ({
+              term: c.term.split(INTERACTION_JOIN).pop() ?? c.term,
+              p: c.p,
+            }))
           : [];
     // slopes are drawn for continuous covariates only
-    const continuous = new Set(r.kind === "cox" ? [] : r.variables.filter((v) => v.kind === "continuous").map((v) => v.name));
-    const ranked = tests.filter((t) => continuous.has(t.term) && t.p !== null && Number.isFinite(t.p)).sort((a, c) => (a.p ?? 1) - (c.p ?? 1));
+    const continuous = new Set(
+      r.kind === "cox" ? [] : r.variables.filter((v) => v.kind === "continuous").map((v) => v.name),
+    );
+    const ranked = tests
+      .filter((t) => continuous.has(t.term) && t.p !== null && Number.isFinite(t.p))
+      .sort((a, c) => (a.p ?? 1) - (c.p ?? 1));
     return ranked[0]?.term;
   },
   data(source, opts) {
     const { r, b, statusOf } = subjectsOf(source, "slopes_by_arm", opts);
     const treatment = r.spec.treatment;
-    if (!treatment) throw new FigureUnavailableError("the model names no treatment, so there are no arms to compare");
+    if (!treatment)
+      throw new FigureUnavailableError("the model names no treatment, so there are no arms to compare");
     const t = requireTerm(r, opts.term, true);
     const partial = r.observations.partialResiduals.find((p) => p.term === t.name);
     if (!partial) throw new FigureUnavailableError(`the rerun stored no partial residuals for "${t.name}"`);
@@ -153,45 +217,87 @@ export const slopesByArm = defineFigure<SlopesByArmData>({
     const ok = x.map((_, i) => i).filter((i) => Number.isFinite(x[i]) && Number.isFinite(partial.values[i]));
     const slopes = arms.flatMap((a) => {
       const idx = ok.filter((i) => armOf[i] === a);
-      const fit = leastSquares(idx.map((i) => x[i]), idx.map((i) => partial.values[i]));
+      const fit = leastSquares(
+        idx.map((i) => x[i]),
+        idx.map((i) => partial.values[i]),
+      );
       return fit ? [{ arm: a, ...fit, slope: round(fit.slope) }] : [];
     });
-    const all = leastSquares(ok.map((i) => x[i]), ok.map((i) => partial.values[i]));
+    const all = leastSquares(
+      ok.map((i) => x[i]),
+      ok.map((i) => partial.values[i]),
+    );
     const coef = r.coefficients.find((c) => c.term === t.name)?.estimate ?? all?.slope ?? NaN;
     // the common line: the model's coefficient through the centre of every subject
     const mx = ok.reduce((s, i) => s + x[i], 0) / Math.max(1, ok.length);
     const my = ok.reduce((s, i) => s + partial.values[i], 0) / Math.max(1, ok.length);
     const lo = Math.min(...ok.map((i) => x[i]));
     const hi = Math.max(...ok.map((i) => x[i]));
-    const common = { slope: round(coef), ends: [lo, hi].map((v) => ({ x: round(v), y: round(my + coef * (v - mx)) })) };
+    const common = {
+      slope: round(coef),
+      ends: [lo, hi].map((v) => ({ x: round(v), y: round(my + coef * (v - mx)) })),
+    };
     // the test of this covariate's slopes by arm, as the rerun computed it (the check itself tests them jointly)
-    const lin = r.kind === "linear" ? r.tests.homogeneityOfSlopes?.byCovariate.find((c) => c.covariate === t.name) : undefined;
-    const glm = r.kind === "glm" ? r.checks.homogeneityOfTreatmentEffect?.byCovariate.find((c) => c.term === `${treatment} by ${t.name}`) : undefined;
+    const lin =
+      r.kind === "linear"
+        ? r.tests.homogeneityOfSlopes?.byCovariate.find((c) => c.covariate === t.name)
+        : undefined;
+    const glm =
+      r.kind === "glm"
+        ? r.checks.homogeneityOfTreatmentEffect?.byCovariate.find(
+            (c) => c.term === `${treatment} by ${t.name}`,
+          )
+        : undefined;
     const test =
       lin && lin.p !== null
         ? { name: `F test of the ${treatment} × ${t.name} slopes`, p: lin.p }
         : glm && glm.p !== null && Number.isFinite(glm.p)
           ? { name: `Likelihood-ratio test of ${treatment} × ${t.name}`, p: glm.p }
           : null;
-    const rows = ok.map((i) => ({ ...who(r, i, opts.withSubjectIds), arm: armOf[i], x: round(x[i]), partial: round(partial.values[i]), status: statusOf(i) }));
+    const rows = ok.map((i) => ({
+      ...who(r, i, opts.withSubjectIds),
+      arm: armOf[i],
+      x: round(x[i]),
+      partial: round(partial.values[i]),
+      status: statusOf(i),
+    }));
     let window: SlopesByArmData["window"];
     if (r.kind === "glm") {
       const sorted = ok.map((i) => partial.values[i]).sort((a, c) => a - c);
-      const q = (p: number) => sorted[Math.min(sorted.length - 1, Math.max(0, Math.round(p * (sorted.length - 1))))];
+      const q = (p: number) =>
+        sorted[Math.min(sorted.length - 1, Math.max(0, Math.round(p * (sorted.length - 1))))];
       const ends = [...slopes.flatMap((s) => s.ends.map((e) => e.y)), ...common.ends.map((e) => e.y)];
       const lo = Math.min(q(0.05), ...ends);
       const hi = Math.max(q(0.95), ...ends);
       const pad = (hi - lo) * 0.08 || 1;
       const domain: [number, number] = [round(lo - pad), round(hi + pad)];
-      window = { domain, outside: ok.filter((i) => partial.values[i] < domain[0] || partial.values[i] > domain[1]).length };
+      window = {
+        domain,
+        outside: ok.filter((i) => partial.values[i] < domain[0] || partial.values[i] > domain[1]).length,
+      };
     }
-    const shown = window ? rows.filter((row) => row.partial >= window.domain[0] && row.partial <= window.domain[1]) : rows;
-    return { figure: "slopes_by_arm", ...b, treatment, term: t.name, termUnit: unitOf(t.name, opts), arms, slopes, common, test, rows: shown, ...(window ? { window } : {}) };
+    const shown = window
+      ? rows.filter((row) => row.partial >= window.domain[0] && row.partial <= window.domain[1])
+      : rows;
+    return {
+      figure: "slopes_by_arm",
+      ...b,
+      treatment,
+      term: t.name,
+      termUnit: unitOf(t.name, opts),
+      arms,
+      slopes,
+      common,
+      test,
+      rows: shown,
+      ...(window ? { window } : {}),
+    };
   },
   spec: slopesByArmSpec,
   words: {
     caption: "Covariate slopes by treatment arm",
-    shows: "each subject's component plus residual for the covariate, by arm, with each arm's own least-squares slope and the model's common slope",
+    shows:
+      "each subject's component plus residual for the covariate, by arm, with each arm's own least-squares slope and the model's common slope",
     healthy: "the arms' lines parallel to each other and to the common slope",
   },
   marked(d) {

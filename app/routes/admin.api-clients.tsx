@@ -39,7 +39,9 @@ export async function action({ request }: Route.ActionArgs) {
   const parsed = Revoke.safeParse(Object.fromEntries(await request.formData()));
   if (!parsed.success) return data({ ok: false, message: "Choose a token to revoke." }, { status: 400 });
   const r = await revokeToken(actorOf(admin), parsed.data.tokenId, "administrator");
-  return r.ok ? { ok: true, message: "Token revoked." } : data({ ok: false, message: r.message }, { status: 404 });
+  return r.ok
+    ? { ok: true, message: "Token revoked." }
+    : data({ ok: false, message: r.message }, { status: 404 });
 }
 
 export default function ApiClients({ loaderData, actionData }: Route.ComponentProps) {
@@ -50,11 +52,15 @@ export default function ApiClients({ loaderData, actionData }: Route.ComponentPr
     <main>
       <PageHeader eyebrow="Administration" title="API clients" />
       <p className="mb-4 max-w-prose text-sm text-ink-soft">
-        Every API token people have created on their profile page. A token acts with its owner's study roles, never more, and may
-        make {perMinute} requests a minute. Revoke a token that should no longer be used; its owner can create a new one.
+        Every API token people have created on their profile page. A token acts with its owner's study roles,
+        never more, and may make {perMinute} requests a minute. Revoke a token that should no longer be used;
+        its owner can create a new one.
       </p>
       {actionData ? (
-        <p className={`mb-3 text-sm font-medium ${actionData.ok ? "text-within" : "text-finding"}`} role={actionData.ok ? "status" : "alert"}>
+        <p
+          className={`mb-3 text-sm font-medium ${actionData.ok ? "text-within" : "text-finding"}`}
+          role={actionData.ok ? "status" : "alert"}
+        >
           {actionData.message}
         </p>
       ) : null}

@@ -14,7 +14,11 @@ export function meta() {
 export async function loader({ request }: Route.LoaderArgs) {
   const admin = await requireAdmin(request, "audit.read");
   const query = readAuditQuery(new URL(request.url));
-  const [{ events, paging }, verdict, studies] = await Promise.all([auditPage(query), verifyAuditChain(), listStudiesFor(admin)]);
+  const [{ events, paging }, verdict, studies] = await Promise.all([
+    auditPage(query),
+    verifyAuditChain(),
+    listStudiesFor(admin),
+  ]);
   const codeOf = new Map(studies.map((s) => [s.id, s.code]));
   const { page: _page, size: _size, ...filter } = query;
   return {
@@ -29,15 +33,30 @@ export async function loader({ request }: Route.LoaderArgs) {
 }
 
 /** The query string of the page with these filters, page and size (empty values left out). */
-function hrefOf(filter: Record<string, string | undefined>, extra: Record<string, string | number>, path = "/admin/audit"): string {
+function hrefOf(
+  filter: Record<string, string | undefined>,
+  extra: Record<string, string | number>,
+  path = "/admin/audit",
+): string {
   const params = new URLSearchParams();
-  for (const [k, v] of Object.entries({ ...filter, ...extra })) if (v !== undefined && v !== "") params.set(k, String(v));
+  for (const [k, v] of Object.entries({ ...filter, ...extra }))
+    if (v !== undefined && v !== "") params.set(k, String(v));
   const qs = params.toString();
   return qs ? `${path}?${qs}` : path;
 }
 
 /** Links to the first, previous, next and last page, and the page size; the current page is marked for assistive technology. */
-function Pager({ filter, paging, sizes, position }: { filter: Record<string, string | undefined>; sizes: number[]; paging: { page: number; pages: number; size: number; total: number; first: number; last: number }; position: "top" | "bottom" }) {
+function Pager({
+  filter,
+  paging,
+  sizes,
+  position,
+}: {
+  filter: Record<string, string | undefined>;
+  sizes: number[];
+  paging: { page: number; pages: number; size: number; total: number; first: number; last: number };
+  position: "top" | "bottom";
+}) {
   const { page, pages, size } = paging;
   const link = (to: number, label: string, rel?: string) =>
     to < 1 || to > pages || to === page ? (
@@ -50,7 +69,10 @@ function Pager({ filter, paging, sizes, position }: { filter: Record<string, str
       </Link>
     );
   return (
-    <nav aria-label={`Audit trail pages${position === "bottom" ? " (end of the list)" : ""}`} className="my-3 flex flex-wrap items-center justify-between gap-3 text-sm">
+    <nav
+      aria-label={`Audit trail pages${position === "bottom" ? " (end of the list)" : ""}`}
+      className="my-3 flex flex-wrap items-center justify-between gap-3 text-sm"
+    >
       <p className="num" aria-live={position === "top" ? "polite" : undefined}>
         {`${paging.total === 0 ? "No events" : `Events ${paging.first}–${paging.last} of ${paging.total}`} · page ${page} of ${pages}`}
       </p>
@@ -74,7 +96,12 @@ function Pager({ filter, paging, sizes, position }: { filter: Record<string, str
                 {n}
               </span>
             ) : (
-              <Link key={n} to={hrefOf(filter, { size: n })} className="num px-1" aria-label={`${n} events per page`}>
+              <Link
+                key={n}
+                to={hrefOf(filter, { size: n })}
+                className="num px-1"
+                aria-label={`${n} events per page`}
+              >
                 {n}
               </Link>
             ),
@@ -121,8 +148,9 @@ export default function AuditTrail({ loaderData }: Route.ComponentProps) {
           <>
             <StatusLabel status="finding" word="Chain broken" />
             <span className="text-sm">
-              The first broken link is event <span className="num font-semibold">{verdict.brokenAtSeq}</span>: {verdict.reason}. Every
-              event from there on can no longer be trusted as recorded; keep the database file for investigation.
+              The first broken link is event <span className="num font-semibold">{verdict.brokenAtSeq}</span>:{" "}
+              {verdict.reason}. Every event from there on can no longer be trusted as recorded; keep the
+              database file for investigation.
             </span>
           </>
         )}
@@ -133,8 +161,9 @@ export default function AuditTrail({ loaderData }: Route.ComponentProps) {
             Head of the chain
           </h2>
           <p className="mb-2">
-            Record this keyed hash with its time somewhere outside Plumbline (a signed e-mail, the study file). A later check that no longer reaches this head
-            means the trail was cut short or rewritten after it.
+            Record this keyed hash with its time somewhere outside Plumbline (a signed e-mail, the study
+            file). A later check that no longer reaches this head means the trail was cut short or rewritten
+            after it.
           </p>
           <dl className="grid grid-cols-[max-content_1fr] gap-x-4 gap-y-1">
             <dt className="font-semibold">Event</dt>
@@ -172,7 +201,13 @@ export default function AuditTrail({ loaderData }: Route.ComponentProps) {
           <label htmlFor="f-action" className="label">
             Action starts with
           </label>
-          <input id="f-action" name="action" defaultValue={filter.action ?? ""} className="field w-44" placeholder="auth." />
+          <input
+            id="f-action"
+            name="action"
+            defaultValue={filter.action ?? ""}
+            className="field w-44"
+            placeholder="auth."
+          />
         </div>
         <div>
           <label htmlFor="f-actor" className="label">
@@ -184,7 +219,13 @@ export default function AuditTrail({ loaderData }: Route.ComponentProps) {
           <label htmlFor="f-from" className="label">
             From (UTC date)
           </label>
-          <input id="f-from" name="from" type="date" defaultValue={filter.from ?? ""} className="field w-40" />
+          <input
+            id="f-from"
+            name="from"
+            type="date"
+            defaultValue={filter.from ?? ""}
+            className="field w-40"
+          />
         </div>
         <div>
           <label htmlFor="f-to" className="label">
@@ -197,7 +238,11 @@ export default function AuditTrail({ loaderData }: Route.ComponentProps) {
           Filter
         </button>
         {/* a plain link: the export is a file download, audited on the server */}
-        <a href={hrefOf(filter, {}, "/admin/audit/export.csv")} className="btn-quiet no-underline hover:no-underline" download>
+        <a
+          href={hrefOf(filter, {}, "/admin/audit/export.csv")}
+          className="btn-quiet no-underline hover:no-underline"
+          download
+        >
           Export as CSV ({paging.total} events, with chain hashes)
         </a>
       </Form>
@@ -227,10 +272,14 @@ export default function AuditTrail({ loaderData }: Route.ComponentProps) {
                 <td className="font-mono text-xs">{e.action}</td>
                 <td className="text-xs">
                   {e.entityType}
-                  {e.entityId ? <span className="block font-mono text-ink-soft">{e.entityId.slice(0, 8)}</span> : null}
+                  {e.entityId ? (
+                    <span className="block font-mono text-ink-soft">{e.entityId.slice(0, 8)}</span>
+                  ) : null}
                 </td>
                 <td>{e.studyCode ?? "—"}</td>
-                <td className="max-w-xs break-words font-mono text-xs">{change(e.beforeJson, e.afterJson)}</td>
+                <td className="max-w-xs break-words font-mono text-xs">
+                  {change(e.beforeJson, e.afterJson)}
+                </td>
                 <td className="text-xs">{e.detail}</td>
               </tr>
             ))}

@@ -3,7 +3,13 @@ import { utc } from "~/shared/format";
 import { EmptyState, PageHeader } from "~/components/page";
 import { StatusLabel, type Status } from "~/components/status";
 import { fakeInbox } from "~/.server/mail/fake-inbox.server";
-import { listOutbox, MAIL_KINDS, MAX_MAIL_ATTEMPTS, outboxCounts, type MailKind } from "~/.server/mail/outbox.server";
+import {
+  listOutbox,
+  MAIL_KINDS,
+  MAX_MAIL_ATTEMPTS,
+  outboxCounts,
+  type MailKind,
+} from "~/.server/mail/outbox.server";
 import { requireAdmin } from "~/.server/permissions.server";
 
 export function meta() {
@@ -47,16 +53,20 @@ export default function Outbox({ loaderData }: Route.ComponentProps) {
     <main>
       <PageHeader eyebrow="Administration" title="E-mail outbox" />
       <p className="mb-4 max-w-prose text-sm text-ink-soft">
-        Notifications are queued here with the event they announce and sent in the background. When the mail server cannot take a
-        message it stays queued and is tried again, waiting longer each time; after {maxAttempts} tries it is marked failed with the
-        server&apos;s reason. Messages carry study-level facts and a link only, never subject-level data.
+        Notifications are queued here with the event they announce and sent in the background. When the mail
+        server cannot take a message it stays queued and is tried again, waiting longer each time; after{" "}
+        {maxAttempts} tries it is marked failed with the server&apos;s reason. Messages carry study-level
+        facts and a link only, never subject-level data.
       </p>
       <p className="num mb-4 text-sm">
         {counts.queued} queued · {counts.sent} sent · {counts.failed} failed
       </p>
       {messages.length === 0 ? (
         <EmptyState title="No messages yet">
-          <p>A message is queued when a plan version is submitted for approval, a rerun awaits sign-off, a report is published or an appendix is exported.</p>
+          <p>
+            A message is queued when a plan version is submitted for approval, a rerun awaits sign-off, a
+            report is published or an appendix is exported.
+          </p>
         </EmptyState>
       ) : (
         <div className="mb-8 overflow-x-auto">
@@ -95,7 +105,9 @@ export default function Outbox({ loaderData }: Route.ComponentProps) {
                   <td className="num text-right">{m.attempts}</td>
                   <td className="num whitespace-nowrap text-xs">
                     {m.status === "sent" ? `sent ${utc(m.sentAt)}` : utc(m.lastAttemptAt)}
-                    {m.nextAttemptAt ? <span className="block text-ink-soft">next {utc(m.nextAttemptAt)}</span> : null}
+                    {m.nextAttemptAt ? (
+                      <span className="block text-ink-soft">next {utc(m.nextAttemptAt)}</span>
+                    ) : null}
                   </td>
                   <td className="max-w-xs break-words text-xs">{m.lastError ?? ""}</td>
                 </tr>
@@ -110,8 +122,8 @@ export default function Outbox({ loaderData }: Route.ComponentProps) {
             Received by the local SMTP fake
           </h2>
           <p className="mb-3 max-w-prose text-sm text-ink-soft">
-            This installation sends to the local stand-in mail server of the demo and the tests; these are the messages it received, newest
-            first.
+            This installation sends to the local stand-in mail server of the demo and the tests; these are the
+            messages it received, newest first.
           </p>
           {inbox.messages.length === 0 ? (
             <p className="text-sm">Nothing received yet.</p>
@@ -133,7 +145,9 @@ export default function Outbox({ loaderData }: Route.ComponentProps) {
                       <td className="max-w-2xl text-xs">
                         <details>
                           <summary className="cursor-pointer">{m.subject}</summary>
-                          <pre className="mt-2 whitespace-pre-wrap break-words font-mono text-xs">{m.text}</pre>
+                          <pre className="mt-2 whitespace-pre-wrap break-words font-mono text-xs">
+                            {m.text}
+                          </pre>
                         </details>
                       </td>
                     </tr>

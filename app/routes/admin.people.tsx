@@ -2,7 +2,13 @@ import { data, useFetcher } from "react-router";
 import { z } from "zod";
 import type { Route } from "./+types/admin.people";
 import { PageHeader } from "~/components/page";
-import { actorOf, listMemberships, listPeople, RoleChangeRefused, setStudyRole } from "~/.server/people.server";
+import {
+  actorOf,
+  listMemberships,
+  listPeople,
+  RoleChangeRefused,
+  setStudyRole,
+} from "~/.server/people.server";
 import { requireAdmin, ROLE_LABELS, STUDY_ROLES } from "~/.server/permissions.server";
 import { listStudiesFor } from "~/.server/studies.server";
 
@@ -12,7 +18,11 @@ export function meta() {
 
 export async function loader({ request }: Route.LoaderArgs) {
   const admin = await requireAdmin(request, "people.manage");
-  const [people, studies, memberships] = await Promise.all([listPeople(), listStudiesFor(admin), listMemberships()]);
+  const [people, studies, memberships] = await Promise.all([
+    listPeople(),
+    listStudiesFor(admin),
+    listMemberships(),
+  ]);
   const roleOf: Record<string, string> = {};
   for (const m of memberships) roleOf[`${m.personId}:${m.studyId}`] = m.role;
   return {
@@ -39,12 +49,14 @@ const SetRole = z.object({
 export async function action({ request }: Route.ActionArgs) {
   const admin = await requireAdmin(request, "people.manage");
   const parsed = SetRole.safeParse(Object.fromEntries(await request.formData()));
-  if (!parsed.success) return data({ ok: false as const, message: "Choose a person, a study and a role." }, { status: 400 });
+  if (!parsed.success)
+    return data({ ok: false as const, message: "Choose a person, a study and a role." }, { status: 400 });
   const { personId, studyId, role } = parsed.data;
   try {
     await setStudyRole(actorOf(admin), studyId, personId, role === "" ? null : role);
   } catch (e) {
-    if (e instanceof RoleChangeRefused) return data({ ok: false as const, message: e.message }, { status: e.status });
+    if (e instanceof RoleChangeRefused)
+      return data({ ok: false as const, message: e.message }, { status: e.status });
     throw e;
   }
   return { ok: true as const, message: "Saved." };
@@ -52,7 +64,17 @@ export async function action({ request }: Route.ActionArgs) {
 
 type Data = Route.ComponentProps["loaderData"];
 
-function RoleCell({ person, study, current, roles }: { person: Data["people"][number]; study: Data["studies"][number]; current: string; roles: Data["roles"] }) {
+function RoleCell({
+  person,
+  study,
+  current,
+  roles,
+}: {
+  person: Data["people"][number];
+  study: Data["studies"][number];
+  current: string;
+  roles: Data["roles"];
+}) {
   const fetcher = useFetcher<typeof action>();
   const id = `role-${person.id}-${study.id}`;
   const busy = fetcher.state !== "idle";
@@ -71,7 +93,12 @@ function RoleCell({ person, study, current, roles }: { person: Data["people"][nu
           </option>
         ))}
       </select>
-      <button type="submit" className="btn-quiet py-1" disabled={busy} aria-label={`Save role of ${person.displayName} on ${study.code}`}>
+      <button
+        type="submit"
+        className="btn-quiet py-1"
+        disabled={busy}
+        aria-label={`Save role of ${person.displayName} on ${study.code}`}
+      >
         {busy ? "Saving" : "Save"}
       </button>
       <span className="w-12 text-xs text-within" role="status">
@@ -92,9 +119,9 @@ export default function AdminPeople({ loaderData }: Route.ComponentProps) {
     <main>
       <PageHeader eyebrow="Administration" title="People and roles" />
       <p className="mb-4 max-w-prose text-sm text-ink-soft">
-        People appear here after their first sign-in. Roles are per study: choose one for each study a person works on. The
-        administrator flag comes from the identity provider's groups and cannot be set here. Nobody gives themselves a
-        role: another administrator grants yours.
+        People appear here after their first sign-in. Roles are per study: choose one for each study a person
+        works on. The administrator flag comes from the identity provider's groups and cannot be set here.
+        Nobody gives themselves a role: another administrator grants yours.
       </p>
       <div className="overflow-x-auto">
         <table className="data-table panel">
@@ -116,12 +143,16 @@ export default function AdminPeople({ loaderData }: Route.ComponentProps) {
                 <td>
                   <div className="font-medium">
                     {p.displayName}
-                    {p.isAdmin ? <span className="ml-1 text-xs font-normal text-ink-soft">administrator</span> : null}
+                    {p.isAdmin ? (
+                      <span className="ml-1 text-xs font-normal text-ink-soft">administrator</span>
+                    ) : null}
                   </div>
                   <div className="text-xs text-ink-soft">{p.email}</div>
                 </td>
                 <td>{p.organisation ?? "—"}</td>
-                <td className="num whitespace-nowrap">{p.lastSignInAt ? p.lastSignInAt.slice(0, 16).replace("T", " ") : "never"}</td>
+                <td className="num whitespace-nowrap">
+                  {p.lastSignInAt ? p.lastSignInAt.slice(0, 16).replace("T", " ") : "never"}
+                </td>
                 {studies.map((s) => (
                   <td key={s.id}>
                     <RoleCell person={p} study={s} current={roleOf[`${p.id}:${s.id}`] ?? ""} roles={roles} />

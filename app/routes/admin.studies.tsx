@@ -12,7 +12,15 @@ export function meta() {
 export async function loader({ request }: Route.LoaderArgs) {
   const admin = await requireAdmin(request, "studies.manage");
   const studies = await listStudiesFor(admin);
-  return { studies: studies.map((s) => ({ id: s.id, code: s.code, title: s.title, sponsor: s.sponsor, members: s.members })) };
+  return {
+    studies: studies.map((s) => ({
+      id: s.id,
+      code: s.code,
+      title: s.title,
+      sponsor: s.sponsor,
+      members: s.members,
+    })),
+  };
 }
 
 export async function action({ request }: Route.ActionArgs) {
@@ -26,7 +34,10 @@ export async function action({ request }: Route.ActionArgs) {
   }
   const result = await createStudy(actorOf(admin), parsed.data);
   if (!result.ok) return { fieldErrors: result.fieldErrors, created: null };
-  return { fieldErrors: {} as Record<string, string>, created: { id: result.study.id, code: result.study.code } };
+  return {
+    fieldErrors: {} as Record<string, string>,
+    created: { id: result.study.id, code: result.study.code },
+  };
 }
 
 const FIELDS = [

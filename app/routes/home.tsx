@@ -44,18 +44,18 @@ export default function Home({ loaderData }: Route.ComponentProps) {
         <EmptyState title="You have no studies yet">
           {isAdmin ? (
             <p>
-              Create a study on <Link to="/admin/studies">Manage studies</Link>, then give people their roles on{" "}
-              <Link to="/admin/people">People and roles</Link>.
+              Create a study on <Link to="/admin/studies">Manage studies</Link>, then give people their roles
+              on <Link to="/admin/people">People and roles</Link>.
             </p>
           ) : sponsorOrganisation ? (
             <p>
-              No study is shared with {sponsorOrganisation} yet. When a study team shares a study with your organisation, its
-              published reports appear here.
+              No study is shared with {sponsorOrganisation} yet. When a study team shares a study with your
+              organisation, its published reports appear here.
             </p>
           ) : (
             <p>
-              Nobody has given you a role on a study yet. Ask your Plumbline administrator to add you to the study you
-              work on, with the role you hold there.
+              Nobody has given you a role on a study yet. Ask your Plumbline administrator to add you to the
+              study you work on, with the role you hold there.
             </p>
           )}
         </EmptyState>

@@ -5,7 +5,14 @@ import { TokenTable } from "~/components/token-table";
 import type { Route } from "./+types/profile";
 import { utc } from "~/shared/format";
 import { FieldError, PageHeader } from "~/components/page";
-import { createToken, EXPIRY_DAYS, NewToken, revokeToken, statusOf, tokensOf } from "~/.server/api/tokens.server";
+import {
+  createToken,
+  EXPIRY_DAYS,
+  NewToken,
+  revokeToken,
+  statusOf,
+  tokensOf,
+} from "~/.server/api/tokens.server";
 import { REQUESTS_PER_MINUTE } from "~/.server/api/rate-limit.server";
 import { actorOf } from "~/.server/people.server";
 import { ROLE_LABELS } from "~/.server/permissions.server";
@@ -18,12 +25,31 @@ export function meta() {
 
 export async function loader({ request }: Route.LoaderArgs) {
   const user = await requireUser(request);
-  const [studies, tokens] = await Promise.all([listStudiesFor({ id: user.id, isAdmin: false }), tokensOf(user.id)]);
+  const [studies, tokens] = await Promise.all([
+    listStudiesFor({ id: user.id, isAdmin: false }),
+    tokensOf(user.id),
+  ]);
   const now = Date.now();
   return {
-    person: { displayName: user.displayName, email: user.email, organisation: user.organisation, isAdmin: user.isAdmin },
-    roles: studies.filter((s) => s.role).map((s) => ({ code: s.code, title: s.title, role: ROLE_LABELS[s.role!] })),
-    tokens: tokens.map((k) => ({ id: k.id, name: k.name, prefix: k.prefix, createdAt: k.createdAt, expiresAt: k.expiresAt, lastUsedAt: k.lastUsedAt, revokedAt: k.revokedAt, status: statusOf(k, now) })),
+    person: {
+      displayName: user.displayName,
+      email: user.email,
+      organisation: user.organisation,
+      isAdmin: user.isAdmin,
+    },
+    roles: studies
+      .filter((s) => s.role)
+      .map((s) => ({ code: s.code, title: s.title, role: ROLE_LABELS[s.role!] })),
+    tokens: tokens.map((k) => ({
+      id: k.id,
+      name: k.name,
+      prefix: k.prefix,
+      createdAt: k.createdAt,
+      expiresAt: k.expiresAt,
+      lastUsedAt: k.lastUsedAt,
+      revokedAt: k.revokedAt,
+      status: statusOf(k, now),
+    })),
     expiryDays: [...EXPIRY_DAYS],
     perMinute: REQUESTS_PER_MINUTE,
   };
@@ -42,21 +68,41 @@ type ActionData =
 export async function action({ request }: Route.ActionArgs) {
   const user = await requireUser(request);
   const parsed = Intent.safeParse(Object.fromEntries(await request.formData()));
-  if (!parsed.success) return data<ActionData>({ kind: "error", message: "That request was not understood; reload the page and try again.", fieldErrors: {} }, { status: 400 });
+  if (!parsed.success)
+    return data<ActionData>(
+      {
+        kind: "error",
+        message: "That request was not understood; reload the page and try again.",
+        fieldErrors: {},
+      },
+      { status: 400 },
+    );
   if (parsed.data.intent === "revoke") {
     const r = await revokeToken(actorOf(user), parsed.data.tokenId, "owner");
-    return r.ok ? data<ActionData>({ kind: "revoked" }) : data<ActionData>({ kind: "error", message: r.message, fieldErrors: {} }, { status: 404 });
+    return r.ok
+      ? data<ActionData>({ kind: "revoked" })
+      : data<ActionData>({ kind: "error", message: r.message, fieldErrors: {} }, { status: 404 });
   }
   const input = NewToken.safeParse(parsed.data);
   if (!input.success) {
     const fieldErrors = Object.fromEntries(input.error.issues.map((i) => [String(i.path[0]), i.message]));
-    return data<ActionData>({ kind: "error", message: "Fix the fields below.", fieldErrors }, { status: 400 });
+    return data<ActionData>(
+      { kind: "error", message: "Fix the fields below.", fieldErrors },
+      { status: 400 },
+    );
   }
   const created = await createToken(actorOf(user), input.data);
-  if (!created.ok) return data<ActionData>({ kind: "error", message: created.message, fieldErrors: {} }, { status: 409 });
+  if (!created.ok)
+    return data<ActionData>({ kind: "error", message: created.message, fieldErrors: {} }, { status: 409 });
   // The token itself is in this one answer only; keep it out of every cache.
   return data<ActionData>(
-    { kind: "created", token: created.token, name: created.row.name, prefix: created.row.prefix, expiresAt: created.row.expiresAt },
+    {
+      kind: "created",
+      token: created.token,
+      name: created.row.name,
+      prefix: created.row.prefix,
+      expiresAt: created.row.expiresAt,
+    },
     { headers: { "Cache-Control": "no-store" } },
   );
 }
@@ -76,13 +122,26 @@ function NewTokenShown({ token, name, expiresAt }: { token: string; name: string
         Your new API token
       </label>
       <div className="flex gap-2">
-        <input id="new-token" ref={field} readOnly value={token} className="field font-mono" spellCheck={false} autoComplete="off" />
-        <button type="button" className="btn-quiet whitespace-nowrap" onClick={() => void navigator.clipboard?.writeText(token)}>
+        <input
+          id="new-token"
+          ref={field}
+          readOnly
+          value={token}
+          className="field font-mono"
+          spellCheck={false}
+          autoComplete="off"
+        />
+        <button
+          type="button"
+          className="btn-quiet whitespace-nowrap"
+          onClick={() => void navigator.clipboard?.writeText(token)}
+        >
           Copy
         </button>
       </div>
       <p className="mt-2 text-xs text-ink-soft">
-        Send it as <code>Authorization: Bearer {token.slice(0, 12)}…</code> to <code>/api/v1/</code>. The API is described in <a href="/api/v1/openapi.json">/api/v1/openapi.json</a>.
+        Send it as <code>Authorization: Bearer {token.slice(0, 12)}…</code> to <code>/api/v1/</code>. The API
+        is described in <a href="/api/v1/openapi.json">/api/v1/openapi.json</a>.
       </p>
     </section>
   );
@@ -98,7 +157,9 @@ export default function Profile({ loaderData, actionData }: Route.ComponentProps
       <PageHeader eyebrow="Your profile" title={person.displayName} />
       <div className="grid gap-8 lg:grid-cols-[1fr_22rem]">
         <div className="min-w-0 space-y-6">
-          {actionData?.kind === "created" ? <NewTokenShown token={actionData.token} name={actionData.name} expiresAt={actionData.expiresAt} /> : null}
+          {actionData?.kind === "created" ? (
+            <NewTokenShown token={actionData.token} name={actionData.name} expiresAt={actionData.expiresAt} />
+          ) : null}
           {actionData?.kind === "error" && Object.keys(errors).length === 0 ? (
             <p className="text-sm font-medium text-finding" role="alert">
               {actionData.message}
@@ -107,15 +168,18 @@ export default function Profile({ loaderData, actionData }: Route.ComponentProps
           <section>
             <h2 className="mb-2">API tokens</h2>
             <p className="mb-3 max-w-prose text-sm text-ink-soft">
-              A token lets a program read what you may read in Plumbline, through the API, with your study roles and never more. Each
-              token may make {perMinute} requests a minute. Revoke a token as soon as nothing uses it.
+              A token lets a program read what you may read in Plumbline, through the API, with your study
+              roles and never more. Each token may make {perMinute} requests a minute. Revoke a token as soon
+              as nothing uses it.
             </p>
             <TokenTable tokens={tokens} busy={busy} revokeIntent="revoke" empty="You have no API tokens." />
           </section>
           <section>
             <h2 className="mb-2">Your study roles</h2>
             {roles.length === 0 ? (
-              <p className="text-sm text-ink-soft">You hold no role on any study yet; a Plumbline administrator gives roles per study.</p>
+              <p className="text-sm text-ink-soft">
+                You hold no role on any study yet; a Plumbline administrator gives roles per study.
+              </p>
             ) : (
               <ul className="space-y-1 text-sm">
                 {roles.map((r) => (
@@ -154,7 +218,13 @@ export default function Profile({ loaderData, actionData }: Route.ComponentProps
               <label htmlFor="token-days" className="label">
                 Expires after
               </label>
-              <select id="token-days" name="days" className="field" defaultValue="30" aria-describedby={errors.days ? "token-days-error" : undefined}>
+              <select
+                id="token-days"
+                name="days"
+                className="field"
+                defaultValue="30"
+                aria-describedby={errors.days ? "token-days-error" : undefined}
+              >
                 {expiryDays.map((d) => (
                   <option key={d} value={d}>
                     {d} days

@@ -20,18 +20,29 @@ type Tone = "finding" | "pending" | "within";
 function Shape({ tone }: { tone: Tone }) {
   return (
     <svg width="12" height="12" viewBox="0 0 12 12" aria-hidden="true" className="mt-1 shrink-0">
-      {tone === "finding" ? <path d="M6 1.5 11 10.5H1z" fill="none" stroke="#b4442a" strokeWidth="1.5" /> : null}
-      {tone === "pending" ? <circle cx="6" cy="6" r="4.5" fill="none" stroke="#5b6478" strokeWidth="1.5" /> : null}
+      {tone === "finding" ? (
+        <path d="M6 1.5 11 10.5H1z" fill="none" stroke="#b4442a" strokeWidth="1.5" />
+      ) : null}
+      {tone === "pending" ? (
+        <circle cx="6" cy="6" r="4.5" fill="none" stroke="#5b6478" strokeWidth="1.5" />
+      ) : null}
       {tone === "within" ? <rect x="1.5" y="1.5" width="9" height="9" fill="#2e6f5e" /> : null}
     </svg>
   );
 }
 
-const BORDER: Record<Tone, string> = { finding: "border-l-finding", pending: "border-l-pending", within: "border-l-within" };
+const BORDER: Record<Tone, string> = {
+  finding: "border-l-finding",
+  pending: "border-l-pending",
+  within: "border-l-within",
+};
 
 function Notice({ tone, title, children }: { tone: Tone; title: string; children: React.ReactNode }) {
   return (
-    <div role={tone === "within" ? "status" : "alert"} className={`panel flex gap-2.5 border-l-4 px-3 py-2.5 text-sm ${BORDER[tone]}`}>
+    <div
+      role={tone === "within" ? "status" : "alert"}
+      className={`panel flex gap-2.5 border-l-4 px-3 py-2.5 text-sm ${BORDER[tone]}`}
+    >
       <Shape tone={tone} />
       <div>
         <p className="font-semibold">{title}</p>
@@ -57,9 +68,10 @@ export default function SignIn({ loaderData }: Route.ComponentProps) {
         <div className="space-y-3">
           <h1>Sign in</h1>
           <p className="text-ink-soft">
-            Plumbline checks whether the regression models pre-specified in a study's statistical analysis plan still hold
-            up on the locked data: it reruns each planned model, runs every diagnostic check the plan commits to, keeps a
-            signed record of each deviation, and exports the appendix for the clinical study report.
+            Plumbline checks whether the regression models pre-specified in a study's statistical analysis
+            plan still hold up on the locked data: it reruns each planned model, runs every diagnostic check
+            the plan commits to, keeps a signed record of each deviation, and exports the appendix for the
+            clinical study report.
           </p>
         </div>
 
@@ -77,8 +89,8 @@ export default function SignIn({ loaderData }: Route.ComponentProps) {
 
         {!idp.answering ? (
           <Notice tone="pending" title="Single sign-on unavailable">
-            The sign-in service at {idp.origin} is not answering; single sign-on is unavailable until it is back. Try again
-            shortly or tell your administrator.
+            The sign-in service at {idp.origin} is not answering; single sign-on is unavailable until it is
+            back. Try again shortly or tell your administrator.
           </Notice>
         ) : null}
 
@@ -93,17 +105,26 @@ export default function SignIn({ loaderData }: Route.ComponentProps) {
               </button>
             </form>
             {!idp.answering ? (
-              <a href={`/sign-in${returnTo === "/" ? "" : `?returnTo=${encodeURIComponent(returnTo)}`}`} className="btn-quiet no-underline hover:no-underline">
+              <a
+                href={`/sign-in${returnTo === "/" ? "" : `?returnTo=${encodeURIComponent(returnTo)}`}`}
+                className="btn-quiet no-underline hover:no-underline"
+              >
                 Check again
               </a>
             ) : null}
           </div>
         </div>
-        <div className="panel space-y-3 border-l-4 border-l-accent px-4 py-4" aria-labelledby="sponsor-sign-in">
+        <div
+          className="panel space-y-3 border-l-4 border-l-accent px-4 py-4"
+          aria-labelledby="sponsor-sign-in"
+        >
           <h2 id="sponsor-sign-in" className="text-base font-semibold">
             Sponsor sign-in
           </h2>
-          <p className="text-sm">Readers at a sponsor organisation sign in with their own organisation's account to read the published reports of the studies shared with it.</p>
+          <p className="text-sm">
+            Readers at a sponsor organisation sign in with their own organisation's account to read the
+            published reports of the studies shared with it.
+          </p>
           <form method="get" action="/auth/oidc/login">
             <input type="hidden" name="returnTo" value={returnTo} />
             <button type="submit" className="btn-quiet">

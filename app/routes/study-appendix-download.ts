@@ -14,10 +14,14 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const { study, allowed } = await requireStudy(request, params.studyId, "report.view");
   const url = new URL(request.url);
   const q = Query.safeParse(Object.fromEntries(url.searchParams));
-  if (!q.success) throw Response.json({ message: "Name the appendix with ?id=APPENDIX or ?rerun=RERUN." }, { status: 400 });
+  if (!q.success)
+    throw Response.json({ message: "Name the appendix with ?id=APPENDIX or ?rerun=RERUN." }, { status: 400 });
   const a = await findAppendix(study.id, "id" in q.data ? { id: q.data.id } : { rerunId: q.data.rerun });
   if (!allowed.has("rerun.view") && !(await appendixIsPublished(a))) {
-    throw Response.json({ message: "This appendix covers a rerun that is not published to sponsor readers." }, { status: 404 });
+    throw Response.json(
+      { message: "This appendix covers a rerun that is not published to sponsor readers." },
+      { status: 404 },
+    );
   }
   return appendixDownload(a, study.code);
 }

@@ -18,7 +18,11 @@ const Query = z.object({
 export async function loader({ request, params }: Route.LoaderArgs) {
   const { study } = await requireStudy(request, params.studyId, "dataset.rows");
   const q = Query.safeParse(Object.fromEntries(new URL(request.url).searchParams));
-  if (!q.success) throw data({ message: "Ask for rows with offset, limit (at most 1000), and optionally sort and desc." }, { status: 400 });
+  if (!q.success)
+    throw data(
+      { message: "Ask for rows with offset, limit (at most 1000), and optionally sort and desc." },
+      { status: 400 },
+    );
   const window = await readRowsWindow(study.id, params.versionId, {
     offset: q.data.offset,
     limit: q.data.limit,

@@ -9,22 +9,45 @@ import { ReadWarnings } from "~/components/datasets/read-warnings";
 import { ScreenHits } from "~/components/datasets/screen-hits";
 import { VersionStatus } from "~/components/datasets/version-status";
 import { PageHeader } from "~/components/page";
-import { lockVersion, purgeRefusal, purgeVersion, recordNotIdentifier, removeFlaggedColumn } from "~/.server/datasets/dataset-decisions.server";
+import {
+  lockVersion,
+  purgeRefusal,
+  purgeVersion,
+  recordNotIdentifier,
+  removeFlaggedColumn,
+} from "~/.server/datasets/dataset-decisions.server";
 import { getVersionDetail } from "~/.server/datasets/dataset-reads.server";
 import { PurgeVersion } from "~/components/datasets/purge-version";
 import { actorOf } from "~/.server/people.server";
 import { requireStudy } from "~/.server/study-access.server";
-import { freshness, reauthenticationPath, reauthNotice, recordedSignature, SIGNATURE_MEANINGS, SignatureRefused } from "~/.server/signatures.server";
+import {
+  freshness,
+  reauthenticationPath,
+  reauthNotice,
+  recordedSignature,
+  SIGNATURE_MEANINGS,
+  SignatureRefused,
+} from "~/.server/signatures.server";
 import { ReauthNotice, SigningExplainer } from "~/components/signing";
 
 export function meta({ loaderData }: Route.MetaArgs) {
-  return [{ title: loaderData ? `${loaderData.detail.datasetName} v${loaderData.detail.version.version} · ${loaderData.code} · Plumbline` : "Dataset · Plumbline" }];
+  return [
+    {
+      title: loaderData
+        ? `${loaderData.detail.datasetName} v${loaderData.detail.version.version} · ${loaderData.code} · Plumbline`
+        : "Dataset · Plumbline",
+    },
+  ];
 }
 
 export async function loader({ request, params }: Route.LoaderArgs) {
   const { study, allowed, user } = await requireStudy(request, params.studyId, "dataset.view");
   const detail = await getVersionDetail(study.id, params.versionId);
-  if (!detail) throw data({ message: `There is no dataset version "${params.versionId}" in this study.` }, { status: 404 });
+  if (!detail)
+    throw data(
+      { message: `There is no dataset version "${params.versionId}" in this study.` },
+      { status: 404 },
+    );
   return {
     studyId: study.id,
     code: study.code,
@@ -32,14 +55,24 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     canRows: allowed.has("dataset.rows"),
     canScreen: allowed.has("dataset.screen"),
     canLock: allowed.has("dataset.lock"),
-    signing: { meaning: SIGNATURE_MEANINGS.dataset, fresh: freshness(user).ok, notice: reauthNotice(request) },
-    lockSignature: detail.version.lockedAt ? await recordedSignature("dataset.lock", detail.version.id) : null,
+    signing: {
+      meaning: SIGNATURE_MEANINGS.dataset,
+      fresh: freshness(user).ok,
+      notice: reauthNotice(request),
+    },
+    lockSignature: detail.version.lockedAt
+      ? await recordedSignature("dataset.lock", detail.version.id)
+      : null,
     canPurge: allowed.has("dataset.purge") && purgeRefusal(detail.version) === null,
   };
 }
 
 const Intent = z.discriminatedUnion("intent", [
-  z.object({ intent: z.literal("not_identifier"), hitId: z.string().min(1), rationale: z.string().max(2000) }),
+  z.object({
+    intent: z.literal("not_identifier"),
+    hitId: z.string().min(1),
+    rationale: z.string().max(2000),
+  }),
   z.object({ intent: z.literal("remove_column"), hitId: z.string().min(1) }),
   z.object({ intent: z.literal("lock") }),
   z.object({ intent: z.literal("purge"), confirm: z.literal("yes").optional() }),
@@ -47,9 +80,14 @@ const Intent = z.discriminatedUnion("intent", [
 
 export async function action({ request, params }: Route.ActionArgs) {
   const form = Intent.safeParse(Object.fromEntries(await request.formData()));
-  if (!form.success) throw data({ message: "Unknown request: choose one of the buttons on the page." }, { status: 400 });
+  if (!form.success)
+    throw data({ message: "Unknown request: choose one of the buttons on the page." }, { status: 400 });
   const f = form.data;
-  const { user, study } = await requireStudy(request, params.studyId, f.intent === "lock" ? "dataset.lock" : f.intent === "purge" ? "dataset.purge" : "dataset.screen");
+  const { user, study } = await requireStudy(
+    request,
+    params.studyId,
+    f.intent === "lock" ? "dataset.lock" : f.intent === "purge" ? "dataset.purge" : "dataset.screen",
+  );
   const actor = actorOf(user);
   if (f.intent === "purge") {
     const r = await purgeVersion(actor, study.id, params.versionId, f.confirm === "yes");
@@ -57,7 +95,9 @@ export async function action({ request, params }: Route.ActionArgs) {
   }
   if (f.intent === "not_identifier") {
     const r = await recordNotIdentifier(actor, study.id, f.hitId, f.rationale);
-    return r.ok ? { errors: {} as Record<string, string>, message: null } : { errors: { [f.hitId]: r.message }, message: null };
+    return r.ok
+      ? { errors: {} as Record<string, string>, message: null }
+      : { errors: { [f.hitId]: r.message }, message: null };
   }
   if (f.intent === "remove_column") {
     const r = await removeFlaggedColumn(actor, study.id, f.hitId);
@@ -68,7 +108,8 @@ export async function action({ request, params }: Route.ActionArgs) {
     const r = await lockVersion({ ...actor, signedInAt: user.signedInAt }, study.id, params.versionId);
     return { errors: {} as Record<string, string>, message: r.ok ? null : r.message };
   } catch (e) {
-    if (e instanceof SignatureRefused && e.reauthenticate) return redirect(reauthenticationPath(`/studies/${study.id}/datasets/${params.versionId}#lock`));
+    if (e instanceof SignatureRefused && e.reauthenticate)
+      return redirect(reauthenticationPath(`/studies/${study.id}/datasets/${params.versionId}#lock`));
     throw e;
   }
 }
@@ -97,7 +138,8 @@ export default function Page({ loaderData, actionData }: Route.ComponentProps) {
           <div>
             <dt className="label">File</dt>
             <dd>
-              {v.fileName} ({v.format === "csv" ? "CSV" : v.format === "xpt" ? "XPORT" : "Dataset-JSON"}, {formatBytes(v.byteSize)})
+              {v.fileName} ({v.format === "csv" ? "CSV" : v.format === "xpt" ? "XPORT" : "Dataset-JSON"},{" "}
+              {formatBytes(v.byteSize)})
             </dd>
           </div>
           <div>
@@ -123,19 +165,34 @@ export default function Page({ loaderData, actionData }: Route.ComponentProps) {
           <div>
             <dt className="label">Locked</dt>
             <dd className="text-xs" data-testid="dataset-lock">
-              {v.lockedAt ? `${loaderData.lockSignature?.signedBy ?? v.lockedBy ?? "–"}, ${formatTime(v.lockedAt)}${loaderData.lockSignature ? ` · “${loaderData.lockSignature.meaning}”` : ""}` : "not yet"}
+              {v.lockedAt
+                ? `${loaderData.lockSignature?.signedBy ?? v.lockedBy ?? "–"}, ${formatTime(v.lockedAt)}${loaderData.lockSignature ? ` · “${loaderData.lockSignature.meaning}”` : ""}`
+                : "not yet"}
             </dd>
           </div>
         </dl>
         {canLock && v.status === "draft" ? (
           <Form method="post" className="self-start" id="lock">
             <ReauthNotice notice={loaderData.signing.notice} />
-            <SigningExplainer act="Locking" meaning={loaderData.signing.meaning} fresh={loaderData.signing.fresh} />
-            <button type="submit" name="intent" value="lock" className="btn" disabled={v.unresolvedHits > 0 || navigation.state !== "idle"} aria-describedby="lock-hint">
+            <SigningExplainer
+              act="Locking"
+              meaning={loaderData.signing.meaning}
+              fresh={loaderData.signing.fresh}
+            />
+            <button
+              type="submit"
+              name="intent"
+              value="lock"
+              className="btn"
+              disabled={v.unresolvedHits > 0 || navigation.state !== "idle"}
+              aria-describedby="lock-hint"
+            >
               Lock version {v.version}
             </button>
             <p id="lock-hint" className="mt-1 max-w-[16rem] text-xs text-ink-soft">
-              {v.unresolvedHits > 0 ? "Resolve every identifier screen hit first." : "Freezes these exact bytes; a changed file becomes a new version."}
+              {v.unresolvedHits > 0
+                ? "Resolve every identifier screen hit first."
+                : "Freezes these exact bytes; a changed file becomes a new version."}
             </p>
           </Form>
         ) : null}
@@ -147,29 +204,46 @@ export default function Page({ loaderData, actionData }: Route.ComponentProps) {
       ) : null}
       {v.status === "superseded" ? (
         <p className="mb-4 text-sm" role="status">
-          This version was superseded by version {detail.latestVersion}; it can no longer be screened or locked.
-          {v.purgedAt ? ` Its stored file and parsed columns were purged by ${v.purgedBy ?? "–"}, ${formatTime(v.purgedAt)}; the record of the version stays.` : ""}
+          This version was superseded by version {detail.latestVersion}; it can no longer be screened or
+          locked.
+          {v.purgedAt
+            ? ` Its stored file and parsed columns were purged by ${v.purgedBy ?? "–"}, ${formatTime(v.purgedAt)}; the record of the version stays.`
+            : ""}
         </p>
       ) : null}
       {canPurge ? <PurgeVersion version={v.version} error={actionData?.errors?.purge} /> : null}
       <div className="space-y-6">
         {v.derivedFromVersion ? (
           <p className="text-sm">
-            Derived from version {v.derivedFromVersion} by removing {v.removedColumns.map((c) => `“${c}”`).join(", ")} (identifier screen).
+            Derived from version {v.derivedFromVersion} by removing{" "}
+            {v.removedColumns.map((c) => `“${c}”`).join(", ")} (identifier screen).
           </p>
         ) : null}
         <ReadWarnings columns={detail.columns} />
         {v.changes ? <ChangeSummaryPanel changes={v.changes} version={v.version} /> : null}
-        <ScreenHits hits={detail.hits} canDecide={canScreen && v.status === "draft"} errors={actionData?.errors ?? {}} keyColumns={detail.keyColumns} />
+        <ScreenHits
+          hits={detail.hits}
+          canDecide={canScreen && v.status === "draft"}
+          errors={actionData?.errors ?? {}}
+          keyColumns={detail.keyColumns}
+        />
         <div className="grid gap-4 xl:grid-cols-[1fr_18rem]">
           <section aria-labelledby="preview" className="min-w-0">
             <h2 id="preview" className="mb-2">
-              Preview <span className="num text-sm font-normal text-ink-soft">({formatCount(v.rowCount)} rows; select a column heading to sort)</span>
+              Preview{" "}
+              <span className="num text-sm font-normal text-ink-soft">
+                ({formatCount(v.rowCount)} rows; select a column heading to sort)
+              </span>
             </h2>
             {v.purgedAt ? (
               <p className="text-sm text-ink-soft">The rows of this version were purged.</p>
             ) : canRows ? (
-              <PreviewTable rowsUrl={`${base}/${v.id}/rows`} columns={detail.columns} total={v.rowCount} masked={detail.maskedColumns} />
+              <PreviewTable
+                rowsUrl={`${base}/${v.id}/rows`}
+                columns={detail.columns}
+                total={v.rowCount}
+                masked={detail.maskedColumns}
+              />
             ) : (
               <p className="text-sm text-ink-soft">Your role does not show subject-level rows.</p>
             )}

@@ -25,11 +25,22 @@ export async function loader({ request, params }: Route.LoaderArgs) {
 const nameList = z
   .string()
   .optional()
-  .transform((v) => (v ?? "").split(/[,;\s]+/).map((s) => s.trim()).filter(Boolean));
+  .transform((v) =>
+    (v ?? "")
+      .split(/[,;\s]+/)
+      .map((s) => s.trim())
+      .filter(Boolean),
+  );
 
 const Fields = z
   .object({
-    datasetName: z.string().trim().regex(DATASET_NAME, "Name the dataset with a letter followed by letters, digits or underscores (at most 32), for example adeff."),
+    datasetName: z
+      .string()
+      .trim()
+      .regex(
+        DATASET_NAME,
+        "Name the dataset with a letter followed by letters, digits or underscores (at most 32), for example adeff.",
+      ),
     // An empty key field names no key: the file's declared key (or a detected one) applies.
     keyColumns: nameList.transform((v) => (v.length > 0 ? v : undefined)),
     numericColumns: nameList,
@@ -37,7 +48,8 @@ const Fields = z
     readByValuesReason: z.string().trim().max(2000, "Keep the reason under 2,000 characters.").optional(),
   })
   .refine((f) => f.readByValues.length === 0 || (f.readByValuesReason ?? "").length >= 10, {
-    message: "Say why the columns named under \"Read by their values\" should be read that way (at least 10 characters); the reason goes into the audit trail.",
+    message:
+      'Say why the columns named under "Read by their values" should be read that way (at least 10 characters); the reason goes into the audit trail.',
   });
 
 function refusal(problems: string[], status: number): Response {
@@ -59,7 +71,14 @@ export async function action({ request, params }: Route.ActionArgs) {
   const fields = Fields.safeParse(received.fields);
   if (!file || !fields.success) {
     await removeQuietly(file?.workPath);
-    return refusal([!file ? "Choose a CSV, Dataset-JSON or XPORT (.xpt) file to upload." : fields.error!.issues[0].message], 400);
+    return refusal(
+      [
+        !file
+          ? "Choose a CSV, Dataset-JSON or XPORT (.xpt) file to upload."
+          : fields.error!.issues[0].message,
+      ],
+      400,
+    );
   }
   const actor = actorOf(user);
   const run = (progress?: (e: UploadEvent) => void) =>
@@ -71,7 +90,10 @@ export async function action({ request, params }: Route.ActionArgs) {
         ...file,
         keyColumns: fields.data.keyColumns,
         numericColumns: fields.data.numericColumns,
-        readByValues: fields.data.readByValues.length > 0 ? { columns: fields.data.readByValues, reason: fields.data.readByValuesReason ?? "" } : undefined,
+        readByValues:
+          fields.data.readByValues.length > 0
+            ? { columns: fields.data.readByValues, reason: fields.data.readByValuesReason ?? "" }
+            : undefined,
       },
       (phase, fraction) => progress?.({ type: "progress", phase, fraction }),
     );
@@ -95,11 +117,24 @@ export async function action({ request, params }: Route.ActionArgs) {
         send({ type: "result", result: await run(send) });
       } catch (e) {
         console.error(e);
-        send({ type: "result", result: { ok: false, problems: ["Plumbline could not store the file because of an internal error; nothing was stored. Try again, and tell an administrator if it happens again."] } });
+        send({
+          type: "result",
+          result: {
+            ok: false,
+            problems: [
+              "Plumbline could not store the file because of an internal error; nothing was stored. Try again, and tell an administrator if it happens again.",
+            ],
+          },
+        });
       }
       controller.close();
     },
   });
   // no-transform keeps the compression layer from holding progress lines back.
-  return new Response(body, { headers: { "Content-Type": "application/x-ndjson; charset=utf-8", "Cache-Control": "no-store, no-transform" } });
+  return new Response(body, {
+    headers: {
+      "Content-Type": "application/x-ndjson; charset=utf-8",
+      "Cache-Control": "no-store, no-transform",
+    },
+  });
 }

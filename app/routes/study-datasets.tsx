@@ -34,8 +34,9 @@ export default function Page({ loaderData }: Route.ComponentProps) {
           {datasets.length === 0 ? (
             <EmptyState title="No datasets loaded yet">
               <p>
-                The data manager loads the study's locked, de-identified analysis dataset here (CSV or CDISC Dataset-JSON). Plumbline checks its types and screens it for direct identifiers
-                before the version can be locked.
+                The data manager loads the study's locked, de-identified analysis dataset here (CSV or CDISC
+                Dataset-JSON). Plumbline checks its types and screens it for direct identifiers before the
+                version can be locked.
               </p>
             </EmptyState>
           ) : null}
@@ -68,10 +69,15 @@ export default function Page({ loaderData }: Route.ComponentProps) {
                         <Link to={`${base}/${v.id}`}>v{v.version}</Link>
                       </td>
                       <td>
-                        <VersionStatus status={v.status} unresolved={v.unresolvedHits} purged={Boolean(v.purgedAt)} />
+                        <VersionStatus
+                          status={v.status}
+                          unresolved={v.unresolvedHits}
+                          purged={Boolean(v.purgedAt)}
+                        />
                       </td>
                       <td>
-                        {v.fileName} <span className="num text-xs text-ink-soft">{formatBytes(v.byteSize)}</span>
+                        {v.fileName}{" "}
+                        <span className="num text-xs text-ink-soft">{formatBytes(v.byteSize)}</span>
                       </td>
                       <td className="num text-right">{formatCount(v.rowCount)}</td>
                       <td className="num text-right">{v.columnCount}</td>
@@ -84,11 +90,15 @@ export default function Page({ loaderData }: Route.ComponentProps) {
                         <span className="num text-ink-soft">{formatTime(v.uploadedAt)}</span>
                       </td>
                       <td className="num text-xs">
-                        {v.derivedFromVersion ? `v${v.derivedFromVersion} without ${v.removedColumns.join(", ")}` : null}
+                        {v.derivedFromVersion
+                          ? `v${v.derivedFromVersion} without ${v.removedColumns.join(", ")}`
+                          : null}
                         {!v.derivedFromVersion && v.changes
                           ? `vs v${v.changes.againstVersion}: +${v.changes.rowsAdded} −${v.changes.rowsRemoved} ~${v.changes.rowsChanged} rows`
                           : null}
-                        {!v.derivedFromVersion && !v.changes ? <span className="text-ink-soft">first version</span> : null}
+                        {!v.derivedFromVersion && !v.changes ? (
+                          <span className="text-ink-soft">first version</span>
+                        ) : null}
                       </td>
                     </tr>
                   ))}
@@ -102,7 +112,12 @@ export default function Page({ loaderData }: Route.ComponentProps) {
             <h2 id="upload-title" className="mb-3">
               Upload a dataset
             </h2>
-            <UploadForm action={`${base}/upload`} maxBytes={maxBytes} datasetNames={datasets.map((d) => d.name)} versionUrl={(id) => `${base}/${id}`} />
+            <UploadForm
+              action={`${base}/upload`}
+              maxBytes={maxBytes}
+              datasetNames={datasets.map((d) => d.name)}
+              versionUrl={(id) => `${base}/${id}`}
+            />
           </aside>
         ) : null}
       </div>

@@ -24,7 +24,10 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   };
   const all = await deviationLog(study.id);
   const entries = await deviationLog(study.id, filter);
-  const redact = await redactionForReruns(seesSubjects(access), entries.flatMap((d) => (d.rerun ? [d.rerun.id] : [])));
+  const redact = await redactionForReruns(
+    seesSubjects(access),
+    entries.flatMap((d) => (d.rerun ? [d.rerun.id] : [])),
+  );
   const answer = {
     studyId: study.id,
     code: study.code,
@@ -40,7 +43,13 @@ export async function loader({ request, params }: Route.LoaderArgs) {
       rationale: redact.text(d.rationale, d.finding?.checkKey),
       by: d.recordedByName,
       at: d.recordedAt,
-      finding: d.finding ? { ...d.finding, summary: redact.text(d.finding.summary, d.finding.checkKey), statistic: redact.maybe(d.finding.statistic, d.finding.checkKey) } : null,
+      finding: d.finding
+        ? {
+            ...d.finding,
+            summary: redact.text(d.finding.summary, d.finding.checkKey),
+            statistic: redact.maybe(d.finding.statistic, d.finding.checkKey),
+          }
+        : null,
       rerun: d.rerun ? { ...d.rerun, label: redact.maybe(d.rerun.label) } : null,
       model: d.model,
     })),
@@ -55,11 +64,18 @@ export default function DeviationLog({ loaderData }: Route.ComponentProps) {
       <PageHeader eyebrow={code} title="Deviation log" />
       {total === 0 ? (
         <EmptyState title="No deviations recorded">
-          <p>Every finding a biostatistician assesses, and every departure from the plan, is logged here with its impact on the treatment conclusion and the action taken.</p>
+          <p>
+            Every finding a biostatistician assesses, and every departure from the plan, is logged here with
+            its impact on the treatment conclusion and the action taken.
+          </p>
         </EmptyState>
       ) : (
         <>
-          <Form method="get" className="mb-4 flex flex-wrap items-end gap-3" aria-label="Filter the deviation log">
+          <Form
+            method="get"
+            className="mb-4 flex flex-wrap items-end gap-3"
+            aria-label="Filter the deviation log"
+          >
             <div>
               <label htmlFor="d-model" className="label">
                 Planned model
@@ -75,7 +91,12 @@ export default function DeviationLog({ loaderData }: Route.ComponentProps) {
               <label htmlFor="d-category" className="label">
                 Category
               </label>
-              <select id="d-category" name="category" defaultValue={filter.category ?? ""} className="field w-48">
+              <select
+                id="d-category"
+                name="category"
+                defaultValue={filter.category ?? ""}
+                className="field w-48"
+              >
                 <option value="">Any</option>
                 {Object.entries(CATEGORIES).map(([v, l]) => (
                   <option key={v} value={v}>
@@ -124,16 +145,30 @@ export default function DeviationLog({ loaderData }: Route.ComponentProps) {
                         {d.model.key} · {d.model.title}
                       </span>
                     ) : null}
-                    <span className="block text-xs">{d.finding ? d.finding.summary : "Deviation without a finding"}</span>
+                    <span className="block text-xs">
+                      {d.finding ? d.finding.summary : "Deviation without a finding"}
+                    </span>
                     {d.rerun ? (
-                      <Link to={`/studies/${studyId}/reruns/${d.rerun.id}${d.finding ? "#findings" : ""}`} className="text-xs">
+                      <Link
+                        to={`/studies/${studyId}/reruns/${d.rerun.id}${d.finding ? "#findings" : ""}`}
+                        className="text-xs"
+                      >
                         Open the rerun{d.rerun.signedAt ? " (signed)" : ""}
                       </Link>
                     ) : null}
                   </td>
                   <td>{d.category}</td>
                   <td>
-                    <StatusLabel status={d.impact === "changes_conclusion" ? "finding" : d.impact === "minor" ? "pending" : "within"} word={d.impactLabel} />
+                    <StatusLabel
+                      status={
+                        d.impact === "changes_conclusion"
+                          ? "finding"
+                          : d.impact === "minor"
+                            ? "pending"
+                            : "within"
+                      }
+                      word={d.impactLabel}
+                    />
                   </td>
                   <td>{d.action}</td>
                   <td className="max-w-md text-sm">{d.rationale}</td>

@@ -43,7 +43,9 @@ export default function StudyLayout({ loaderData }: Route.ComponentProps) {
                   end
                   className={({ isActive }) =>
                     `-ml-px block border-l-2 px-3 py-1.5 text-sm no-underline hover:no-underline ${
-                      isActive ? "border-accent font-semibold text-ink" : "border-transparent text-ink-soft hover:text-ink"
+                      isActive
+                        ? "border-accent font-semibold text-ink"
+                        : "border-transparent text-ink-soft hover:text-ink"
                     }`
                   }
                 >

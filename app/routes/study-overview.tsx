@@ -10,10 +10,12 @@ export function meta({ loaderData }: Route.MetaArgs) {
 
 /** What each role does in a study, in the words of the people who hold it. */
 const ROLE_DUTIES: Record<StudyRole, string> = {
-  data_manager: "Load the locked, de-identified analysis datasets, resolve the identifier screen and lock each version.",
+  data_manager:
+    "Load the locked, de-identified analysis datasets, resolve the identifier screen and lock each version.",
   biostatistician:
     "Write and approve the analysis plan, rerun its planned models on the locked data, assess every finding and sign reruns.",
-  medical_writer: "Read signed reruns, write the appendix narrative and export the Word appendix for the clinical study report.",
+  medical_writer:
+    "Read signed reruns, write the appendix narrative and export the Word appendix for the clinical study report.",
   sponsor_reader: "Read the signed, published reports and appendices of this study.",
 };
 

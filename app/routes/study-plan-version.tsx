@@ -21,11 +21,20 @@ import {
   updatePlanHeader,
 } from "~/.server/plans/plans.server";
 import { requireStudy } from "~/.server/study-access.server";
-import { freshness, reauthenticationPath, reauthNotice, recordedSignature, SIGNATURE_MEANINGS, SignatureRefused } from "~/.server/signatures.server";
+import {
+  freshness,
+  reauthenticationPath,
+  reauthNotice,
+  recordedSignature,
+  SIGNATURE_MEANINGS,
+  SignatureRefused,
+} from "~/.server/signatures.server";
 import { ReauthNotice, SigningExplainer } from "~/components/signing";
 
 export function meta({ loaderData }: Route.MetaArgs) {
-  return [{ title: `${loaderData?.version.title ?? "Plan"} v${loaderData?.version.version ?? ""} · Plumbline` }];
+  return [
+    { title: `${loaderData?.version.title ?? "Plan"} v${loaderData?.version.version ?? ""} · Plumbline` },
+  ];
 }
 
 export async function loader({ request, params }: Route.LoaderArgs) {
@@ -35,7 +44,10 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const prev = prevId ? await getPlanVersion(study.id, prevId) : null;
   const editors = JSON.parse(pv.version.editorIdsJson) as string[];
   const changes = prev
-    ? comparePlanVersions({ header: prev.version, models: prev.models }, { header: pv.version, models: pv.models })
+    ? comparePlanVersions(
+        { header: prev.version, models: prev.models },
+        { header: pv.version, models: pv.models },
+      )
     : null;
   return {
     studyId: study.id,
@@ -64,14 +76,21 @@ const Intent = z.discriminatedUnion("intent", [
   z.object({ intent: z.literal("submit"), revision: z.coerce.number().int() }),
   z.object({ intent: z.literal("remove"), revision: z.coerce.number().int(), modelId: z.string().min(1) }),
   z.object({ intent: z.literal("approve") }),
-  z.object({ intent: z.literal("return"), note: z.string().trim().min(5, "Say what the author should change.").max(2000) }),
+  z.object({
+    intent: z.literal("return"),
+    note: z.string().trim().min(5, "Say what the author should change.").max(2000),
+  }),
   z.object({ intent: z.literal("next") }),
 ]);
 
 export async function action({ request, params }: Route.ActionArgs) {
   const form = Object.fromEntries(await request.formData());
   const parsed = Intent.safeParse(form);
-  if (!parsed.success) return { error: parsed.error.issues[0]?.message ?? "That request was not understood.", fieldErrors: {} as Record<string, string> };
+  if (!parsed.success)
+    return {
+      error: parsed.error.issues[0]?.message ?? "That request was not understood.",
+      fieldErrors: {} as Record<string, string>,
+    };
   const input = parsed.data;
   const needed = input.intent === "approve" || input.intent === "return" ? "plan.approve" : "plan.author";
   const { study, user } = await requireStudy(request, params.studyId, needed);
@@ -107,7 +126,8 @@ export async function action({ request, params }: Route.ActionArgs) {
     }
   } catch (e) {
     if (e instanceof PlanConflict) return { error: e.message, fieldErrors: {} as Record<string, string> };
-    if (e instanceof SignatureRefused && e.reauthenticate) return redirect(reauthenticationPath(`/studies/${study.id}/plans/${params.versionId}#approval`));
+    if (e instanceof SignatureRefused && e.reauthenticate)
+      return redirect(reauthenticationPath(`/studies/${study.id}/plans/${params.versionId}#approval`));
     throw e;
   }
   return { error: null, fieldErrors: {} as Record<string, string> };
@@ -159,14 +179,18 @@ export default function PlanVersionPage({ loaderData, actionData }: Route.Compon
           <div className="flex items-center justify-between">
             <h2>Planned models</h2>
             {can.edit ? (
-              <Link to={`/studies/${studyId}/plans/${v.id}/models/new`} className="btn no-underline hover:no-underline">
+              <Link
+                to={`/studies/${studyId}/plans/${v.id}/models/new`}
+                className="btn no-underline hover:no-underline"
+              >
                 Add a planned model
               </Link>
             ) : null}
           </div>
           {models.length === 0 ? (
             <p className="panel p-4 text-sm text-ink-soft">
-              No planned models yet. {can.edit ? "Add the SAP's first model: its endpoint, treatment, covariates and checks." : ""}
+              No planned models yet.{" "}
+              {can.edit ? "Add the SAP's first model: its endpoint, treatment, covariates and checks." : ""}
             </p>
           ) : (
             models.map((m) => (
@@ -176,7 +200,10 @@ export default function PlanVersionPage({ loaderData, actionData }: Route.Compon
                 actions={
                   can.edit ? (
                     <div className="flex items-center gap-2">
-                      <Link to={`/studies/${studyId}/plans/${v.id}/models/${m.id}`} className="btn-quiet no-underline hover:no-underline">
+                      <Link
+                        to={`/studies/${studyId}/plans/${v.id}/models/${m.id}`}
+                        className="btn-quiet no-underline hover:no-underline"
+                      >
                         Edit
                       </Link>
                       <Form method="post">
@@ -227,7 +254,8 @@ export default function PlanVersionPage({ loaderData, actionData }: Route.Compon
               <section className="panel p-4">
                 <h2 className="mb-2 text-base">Ready for review?</h2>
                 <p className="mb-3 text-sm text-ink-soft">
-                  Submitting asks a second biostatistician, who has not edited this version, to approve it. Approval freezes it.
+                  Submitting asks a second biostatistician, who has not edited this version, to approve it.
+                  Approval freezes it.
                 </p>
                 <Form method="post">
                   <input type="hidden" name="intent" value="submit" />
@@ -254,7 +282,14 @@ export default function PlanVersionPage({ loaderData, actionData }: Route.Compon
                       <label htmlFor={`h-${name}`} className="label">
                         {label}
                       </label>
-                      <input id={`h-${name}`} name={name} type={type} defaultValue={value} className="field" aria-invalid={fieldErrors[name] ? true : undefined} />
+                      <input
+                        id={`h-${name}`}
+                        name={name}
+                        type={type}
+                        defaultValue={value}
+                        className="field"
+                        aria-invalid={fieldErrors[name] ? true : undefined}
+                      />
                       <FieldError id={`h-${name}-error`} message={fieldErrors[name]} />
                     </div>
                   ))}
@@ -270,11 +305,18 @@ export default function PlanVersionPage({ loaderData, actionData }: Route.Compon
               <h2 className="mb-2 text-base">Approval</h2>
               <ReauthNotice notice={loaderData.signing.notice} />
               {can.approveBlocked ? (
-                <p className="text-sm">You wrote or edited this version, so a second biostatistician must approve it (two-person rule).</p>
+                <p className="text-sm">
+                  You wrote or edited this version, so a second biostatistician must approve it (two-person
+                  rule).
+                </p>
               ) : (
                 <>
                   <Form method="post" className="mb-4">
-                    <SigningExplainer act="Approving" meaning={loaderData.signing.meaning} fresh={loaderData.signing.fresh} />
+                    <SigningExplainer
+                      act="Approving"
+                      meaning={loaderData.signing.meaning}
+                      fresh={loaderData.signing.fresh}
+                    />
                     <input type="hidden" name="intent" value="approve" />
                     <button type="submit" className="btn" disabled={busy}>
                       Approve version {v.version}
@@ -285,7 +327,14 @@ export default function PlanVersionPage({ loaderData, actionData }: Route.Compon
                     <label htmlFor="return-note" className="label">
                       Or return it to the author with a note
                     </label>
-                    <textarea id="return-note" name="note" rows={3} className="field" required minLength={5} />
+                    <textarea
+                      id="return-note"
+                      name="note"
+                      rows={3}
+                      className="field"
+                      required
+                      minLength={5}
+                    />
                     <button type="submit" className="btn-quiet" disabled={busy}>
                       Return to author
                     </button>
@@ -297,7 +346,10 @@ export default function PlanVersionPage({ loaderData, actionData }: Route.Compon
           {can.nextVersion ? (
             <section className="panel p-4">
               <h2 className="mb-2 text-base">Change the plan</h2>
-              <p className="mb-3 text-sm text-ink-soft">An approved version never changes. Start version {v.version + 1} as a copy, edit it and have it approved.</p>
+              <p className="mb-3 text-sm text-ink-soft">
+                An approved version never changes. Start version {v.version + 1} as a copy, edit it and have
+                it approved.
+              </p>
               <Form method="post">
                 <input type="hidden" name="intent" value="next" />
                 <button type="submit" className="btn-quiet" disabled={busy}>

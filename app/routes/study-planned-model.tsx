@@ -6,7 +6,12 @@ import { CHECKS, defaultChecks } from "~/engine/checks";
 import { listLockedVersions } from "~/.server/datasets/catalog.server";
 import { withCategoricalHints } from "~/.server/datasets/categorical-hint";
 import { actorOf } from "~/.server/people.server";
-import { readPlannedModelForm, toForm, validatePlannedModel, type PlannedModelForm } from "~/.server/plans/planned-model";
+import {
+  readPlannedModelForm,
+  toForm,
+  validatePlannedModel,
+  type PlannedModelForm,
+} from "~/.server/plans/planned-model";
 import { getPlanVersion, PlanConflict, savePlannedModel } from "~/.server/plans/plans.server";
 import { requireStudy } from "~/.server/study-access.server";
 
@@ -18,8 +23,14 @@ export function meta() {
 async function datasetChoices(studyId: string) {
   const locked = await listLockedVersions(studyId);
   const latest = new Map<string, (typeof locked)[number]>();
-  for (const v of locked) if ((latest.get(v.datasetName)?.version ?? 0) < v.version) latest.set(v.datasetName, v);
-  return [...latest.values()].map((v) => ({ name: v.datasetName, version: v.version, rowCount: v.rowCount, columns: withCategoricalHints(v.columns) }));
+  for (const v of locked)
+    if ((latest.get(v.datasetName)?.version ?? 0) < v.version) latest.set(v.datasetName, v);
+  return [...latest.values()].map((v) => ({
+    name: v.datasetName,
+    version: v.version,
+    rowCount: v.rowCount,
+    columns: withCategoricalHints(v.columns),
+  }));
 }
 
 function blankForm(): PlannedModelForm {
@@ -52,7 +63,8 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   const pv = await getPlanVersion(study.id, params.versionId);
   if (pv.version.status !== "draft") throw redirect(`/studies/${study.id}/plans/${pv.version.id}`);
   const existing = params.modelId === "new" ? null : pv.models.find((m) => m.id === params.modelId);
-  if (params.modelId !== "new" && !existing) throw new Response("There is no such planned model in this version.", { status: 404 });
+  if (params.modelId !== "new" && !existing)
+    throw new Response("There is no such planned model in this version.", { status: 404 });
   return {
     studyId: study.id,
     code: study.code,
@@ -63,7 +75,15 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     isNew: !existing,
     form: existing ? toForm(existing) : blankForm(),
     datasets: await datasetChoices(study.id),
-    checkCatalogue: CHECKS.map((c) => ({ key: c.key, models: c.models, label: c.label, rule: c.rule, source: c.source, defaultThreshold: c.defaultThreshold, defaultRemedy: c.defaultRemedy })),
+    checkCatalogue: CHECKS.map((c) => ({
+      key: c.key,
+      models: c.models,
+      label: c.label,
+      rule: c.rule,
+      source: c.source,
+      defaultThreshold: c.defaultThreshold,
+      defaultRemedy: c.defaultRemedy,
+    })),
   };
 }
 
@@ -77,7 +97,14 @@ export async function action({ request, params }: Route.ActionArgs) {
   const result = validatePlannedModel(form, await datasetChoices(study.id), taken);
   if (!result.ok) return { errors: result.errors, form, conflict: null };
   try {
-    await savePlannedModel(actorOf(user), study.id, pv.version.id, revision, params.modelId === "new" ? null : params.modelId, result.model);
+    await savePlannedModel(
+      actorOf(user),
+      study.id,
+      pv.version.id,
+      revision,
+      params.modelId === "new" ? null : params.modelId,
+      result.model,
+    );
   } catch (e) {
     if (e instanceof PlanConflict) return { errors: {} as Record<string, string>, form, conflict: e.message };
     throw e;
@@ -92,7 +119,10 @@ export default function PlannedModelPage({ loaderData, actionData }: Route.Compo
   const errorCount = Object.keys(errors).length;
   return (
     <>
-      <PageHeader eyebrow={`${loaderData.planTitle} · version ${loaderData.versionNumber}`} title={loaderData.isNew ? "New planned model" : `Planned model ${form.key}`}>
+      <PageHeader
+        eyebrow={`${loaderData.planTitle} · version ${loaderData.versionNumber}`}
+        title={loaderData.isNew ? "New planned model" : `Planned model ${form.key}`}
+      >
         <Link to={`/studies/${loaderData.studyId}/plans/${loaderData.versionId}`}>Back to the plan</Link>
       </PageHeader>
       {actionData?.conflict ? (
@@ -102,22 +132,34 @@ export default function PlannedModelPage({ loaderData, actionData }: Route.Compo
       ) : null}
       {errorCount > 0 ? (
         <p role="alert" className="mb-4 rounded-sm border border-finding bg-sheet p-3 text-sm text-finding">
-          The planned model was not saved: {errorCount === 1 ? "one field needs" : `${errorCount} fields need`} attention (marked below).
+          The planned model was not saved:{" "}
+          {errorCount === 1 ? "one field needs" : `${errorCount} fields need`} attention (marked below).
         </p>
       ) : null}
       {loaderData.datasets.length === 0 ? (
         <p className="panel p-4 text-sm">
-          No dataset of this study is locked yet. A planned model reads a locked dataset, so a data manager must upload and lock one first.
+          No dataset of this study is locked yet. A planned model reads a locked dataset, so a data manager
+          must upload and lock one first.
         </p>
       ) : (
         <Form method="post" noValidate>
           <input type="hidden" name="revision" value={loaderData.revision} />
-          <PlannedModelEditor key={JSON.stringify(form)} isNew={loaderData.isNew && !actionData} initial={form} errors={errors} datasets={loaderData.datasets} checkCatalogue={loaderData.checkCatalogue} />
+          <PlannedModelEditor
+            key={JSON.stringify(form)}
+            isNew={loaderData.isNew && !actionData}
+            initial={form}
+            errors={errors}
+            datasets={loaderData.datasets}
+            checkCatalogue={loaderData.checkCatalogue}
+          />
           <div className="mt-6 flex gap-3">
             <button type="submit" className="btn" disabled={navigation.state === "submitting"}>
               {navigation.state === "submitting" ? "Saving…" : "Save planned model"}
             </button>
-            <Link to={`/studies/${loaderData.studyId}/plans/${loaderData.versionId}`} className="btn-quiet no-underline hover:no-underline">
+            <Link
+              to={`/studies/${loaderData.studyId}/plans/${loaderData.versionId}`}
+              className="btn-quiet no-underline hover:no-underline"
+            >
               Cancel
             </Link>
           </div>

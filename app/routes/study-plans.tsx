@@ -19,7 +19,16 @@ export async function loader({ request, params }: Route.LoaderArgs) {
     plans: plans.map((p) => ({
       id: p.id,
       name: p.name,
-      versions: p.versions.map((v) => ({ id: v.id, version: v.version, status: v.status, statusLabel: STATUS_LABELS[v.status], title: v.title, sap: `${v.sapName ?? ""} ${v.sapVersion ?? ""}`.trim(), authorName: v.authorName, updatedAt: v.updatedAt })),
+      versions: p.versions.map((v) => ({
+        id: v.id,
+        version: v.version,
+        status: v.status,
+        statusLabel: STATUS_LABELS[v.status],
+        title: v.title,
+        sap: `${v.sapName ?? ""} ${v.sapVersion ?? ""}`.trim(),
+        authorName: v.authorName,
+        updatedAt: v.updatedAt,
+      })),
     })),
   };
 }
@@ -48,8 +57,9 @@ export default function Plans({ loaderData, actionData }: Route.ComponentProps) 
           {plans.length === 0 ? (
             <EmptyState title="No analysis plan yet">
               <p>
-                A biostatistician writes the analysis plan here: the planned models of the SAP and, for each, the diagnostic checks
-                with their thresholds. A second biostatistician approves it, which freezes that version.
+                A biostatistician writes the analysis plan here: the planned models of the SAP and, for each,
+                the diagnostic checks with their thresholds. A second biostatistician approves it, which
+                freezes that version.
               </p>
             </EmptyState>
           ) : (

@@ -7,7 +7,14 @@ import { ACTIONS, CATEGORIES, IMPACTS } from "~/shared/assessment-terms";
 import { Caution } from "~/components/caution";
 import { fmt, utc } from "~/shared/format";
 import { PageHeader } from "~/components/page";
-import { AdjustedMeansTable, CheckFormulaNote, checkTally, CoefficientTable, ContrastsTable, SensitivityTable } from "~/components/rerun-results";
+import {
+  AdjustedMeansTable,
+  CheckFormulaNote,
+  checkTally,
+  CoefficientTable,
+  ContrastsTable,
+  SensitivityTable,
+} from "~/components/rerun-results";
 import { ReproductionCard } from "~/components/reproduction-results";
 import { StatusLabel } from "~/components/status";
 import { CHECK_OUTCOME } from "~/shared/status-words";
@@ -27,12 +34,18 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   return { studyId: study.id, code: study.code, ...report };
 }
 
-const wordOf = <T extends Record<string, string>>(words: T, key: string): string => (key in words ? words[key as keyof T] : key);
+const wordOf = <T extends Record<string, string>>(words: T, key: string): string =>
+  key in words ? words[key as keyof T] : key;
 
-function Assessment({ a }: { a: { category: string; impact: string; action: string; rationale: string; by: string | null; at: string } }) {
+function Assessment({
+  a,
+}: {
+  a: { category: string; impact: string; action: string; rationale: string; by: string | null; at: string };
+}) {
   return (
     <p className="text-sm">
-      {wordOf(CATEGORIES, a.category)} · impact: {wordOf(IMPACTS, a.impact).toLowerCase()} · action: {wordOf(ACTIONS, a.action).toLowerCase()} — {a.rationale}{" "}
+      {wordOf(CATEGORIES, a.category)} · impact: {wordOf(IMPACTS, a.impact).toLowerCase()} · action:{" "}
+      {wordOf(ACTIONS, a.action).toLowerCase()} — {a.rationale}{" "}
       <span className="text-xs text-ink-soft">
         ({a.by ?? "unknown"}, {utc(a.at)})
       </span>
@@ -41,23 +54,39 @@ function Assessment({ a }: { a: { category: string; impact: string; action: stri
 }
 
 export default function ReportPage({ loaderData }: Route.ComponentProps) {
-  const { rerun, results, checks, findings, otherDeviations, comparison, signatures, appendix, studyId, reproduction } = loaderData;
+  const {
+    rerun,
+    results,
+    checks,
+    findings,
+    otherDeviations,
+    comparison,
+    signatures,
+    appendix,
+    studyId,
+    reproduction,
+  } = loaderData;
   const appendixUrl = `/studies/${studyId}/appendix/download?rerun=${rerun.primaryId}`;
   return (
     <>
-      <PageHeader eyebrow={`${loaderData.code} · report${rerun.kind === "sensitivity" ? " · sensitivity analysis" : ""}`} title={`${loaderData.model.key} · ${loaderData.model.title}`}>
+      <PageHeader
+        eyebrow={`${loaderData.code} · report${rerun.kind === "sensitivity" ? " · sensitivity analysis" : ""}`}
+        title={`${loaderData.model.key} · ${loaderData.model.title}`}
+      >
         <StatusLabel status="within" word="Signed and published" />
       </PageHeader>
       {rerun.kind === "sensitivity" ? (
         <p className="mb-4 text-sm">
-          {rerun.label} · <Link to={`/studies/${studyId}/reports/${rerun.primaryId}`}>the primary report</Link>
+          {rerun.label} ·{" "}
+          <Link to={`/studies/${studyId}/reports/${rerun.primaryId}`}>the primary report</Link>
         </p>
       ) : null}
 
       <section className="panel mb-6 grid gap-x-6 gap-y-1 p-4 text-sm md:grid-cols-2" aria-label="Provenance">
         <p>
           <span className="font-semibold text-ink-soft">Dataset </span>
-          {loaderData.dataset.name} v{loaderData.dataset.version} · SHA-256 <span className="font-mono text-xs break-all">{loaderData.dataset.sha256}</span>
+          {loaderData.dataset.name} v{loaderData.dataset.version} · SHA-256{" "}
+          <span className="font-mono text-xs break-all">{loaderData.dataset.sha256}</span>
         </p>
         <p>
           <span className="font-semibold text-ink-soft">Plan </span>
@@ -80,7 +109,8 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
                 Download the Word appendix
               </a>{" "}
               <span className="text-xs text-ink-soft">
-                (exported {utc(appendix.exportedAt)} · SHA-256 <span className="font-mono">{appendix.sha256.slice(0, 16)}…</span>)
+                (exported {utc(appendix.exportedAt)} · SHA-256{" "}
+                <span className="font-mono">{appendix.sha256.slice(0, 16)}…</span>)
               </span>
             </>
           ) : (
@@ -96,8 +126,9 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
           </h2>
           <p className="text-sm">{results.description}</p>
           <p className="num text-sm">
-            {results.rows.inFile} rows in the file · {results.rows.outsidePopulation} outside the population · {results.rows.excludedByOption} excluded by this analysis ·{" "}
-            {results.rows.missingCells} left out for missing cells · <span className="font-semibold">{results.rows.used} used</span>
+            {results.rows.inFile} rows in the file · {results.rows.outsidePopulation} outside the population ·{" "}
+            {results.rows.excludedByOption} excluded by this analysis · {results.rows.missingCells} left out
+            for missing cells · <span className="font-semibold">{results.rows.used} used</span>
           </p>
           {results.fitStatistics ? (
             <div className="mt-3 overflow-x-auto">
@@ -110,7 +141,11 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
             <h2 id="effect-h" className="mb-2">
               Treatment effect
             </h2>
-            <ContrastsTable rows={results.contrasts} kind={results.kind === "glm" ? "glm" : "linear"} plan={results.treatmentEffect ?? undefined} />
+            <ContrastsTable
+              rows={results.contrasts}
+              kind={results.kind === "glm" ? "glm" : "linear"}
+              plan={results.treatmentEffect ?? undefined}
+            />
             {results.treatmentEffect ? <TreatmentEffectNote plan={results.treatmentEffect} /> : null}
             {results.adjustedMeans ? (
               <div className="mt-4">
@@ -123,7 +158,12 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
           <h2 id="coef-h" className="mb-2">
             Coefficients
           </h2>
-          <CoefficientTable rows={results.coefficients} covarianceType={results.covarianceType} df={results.dfResidual ?? 0} statisticName={results.statisticName} />
+          <CoefficientTable
+            rows={results.coefficients}
+            covarianceType={results.covarianceType}
+            df={results.dfResidual ?? 0}
+            statisticName={results.statisticName}
+          />
         </section>
         {results.cox ? (
           <section className="panel p-4" aria-labelledby="hr-h">
@@ -137,52 +177,61 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
         <section aria-labelledby="checks-h" className="space-y-3">
           <h2 id="checks-h">Checks of the plan</h2>
           <p className="text-sm text-ink-soft">
-            {checkTally([...checks, ...(reproduction ? [{ outcome: reproduction.checkOutcome }] : [])])}. Subjects are named by rank only.
+            {checkTally([...checks, ...(reproduction ? [{ outcome: reproduction.checkOutcome }] : [])])}.
+            Subjects are named by rank only.
           </p>
           <div className="panel p-4">
             <TableScroll label="Checks of the plan">
-            <table className="data-table">
-              <caption className="mb-1 text-left text-xs text-ink-soft">Each check the plan commits to, with its statistic, the threshold as applied and its outcome.</caption>
-              <thead>
-                <tr>
-                  <th scope="col">Check</th>
-                  <th scope="col">Outcome</th>
-                  <th scope="col">Statistic</th>
-                  <th scope="col">Threshold</th>
-                  <th scope="col">Reading</th>
-                  <th scope="col">Flagged (rank: value)</th>
-                </tr>
-              </thead>
-              <tbody>
-                {checks.map((c) => (
-                  <tr key={c.key} className="align-top">
-                    <th scope="row" className="text-left font-medium">
-                      {c.label}
-                    </th>
-                    <td className="whitespace-nowrap">
-                      <StatusLabel status={CHECK_OUTCOME[c.outcome].status} word={CHECK_OUTCOME[c.outcome].word} />
-                    </td>
-                    <td className="num">{c.statistic}</td>
-                    <td className="num whitespace-nowrap">{c.threshold}</td>
-                    <td>
-                      {c.summary}
-                      {c.formula ? <CheckFormulaNote formula={c.formula} /> : null}
-                      <span className="block text-xs text-ink-soft">Planned remedy: {c.remedy}</span>
-                    </td>
-                    <td className="num">
-                      {c.flaggedCount > 0 ? (
-                        <>
-                          {c.flaggedCount} flagged
-                          <span className="block text-xs text-ink-soft">{c.flagged.map((f) => `${f.rank}: ${fmt(f.value)}`).join(" · ")}</span>
-                        </>
-                      ) : (
-                        "—"
-                      )}
-                    </td>
+              <table className="data-table">
+                <caption className="mb-1 text-left text-xs text-ink-soft">
+                  Each check the plan commits to, with its statistic, the threshold as applied and its
+                  outcome.
+                </caption>
+                <thead>
+                  <tr>
+                    <th scope="col">Check</th>
+                    <th scope="col">Outcome</th>
+                    <th scope="col">Statistic</th>
+                    <th scope="col">Threshold</th>
+                    <th scope="col">Reading</th>
+                    <th scope="col">Flagged (rank: value)</th>
                   </tr>
-                ))}
-              </tbody>
-            </table>
+                </thead>
+                <tbody>
+                  {checks.map((c) => (
+                    <tr key={c.key} className="align-top">
+                      <th scope="row" className="text-left font-medium">
+                        {c.label}
+                      </th>
+                      <td className="whitespace-nowrap">
+                        <StatusLabel
+                          status={CHECK_OUTCOME[c.outcome].status}
+                          word={CHECK_OUTCOME[c.outcome].word}
+                        />
+                      </td>
+                      <td className="num">{c.statistic}</td>
+                      <td className="num whitespace-nowrap">{c.threshold}</td>
+                      <td>
+                        {c.summary}
+                        {c.formula ? <CheckFormulaNote formula={c.formula} /> : null}
+                        <span className="block text-xs text-ink-soft">Planned remedy: {c.remedy}</span>
+                      </td>
+                      <td className="num">
+                        {c.flaggedCount > 0 ? (
+                          <>
+                            {c.flaggedCount} flagged
+                            <span className="block text-xs text-ink-soft">
+                              {c.flagged.map((f) => `${f.rank}: ${fmt(f.value)}`).join(" · ")}
+                            </span>
+                          </>
+                        ) : (
+                          "—"
+                        )}
+                      </td>
+                    </tr>
+                  ))}
+                </tbody>
+              </table>
             </TableScroll>
           </div>
           {reproduction ? <ReproductionCard check={reproduction} /> : null}
@@ -191,14 +240,18 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
         {loaderData.figures.length > 0 ? (
           <section className="space-y-3" aria-labelledby="figures-h">
             <h2 id="figures-h">Diagnostic figures</h2>
-            <p className="text-sm text-ink-soft">Influential subjects are shown by rank, never by identifier.</p>
+            <p className="text-sm text-ink-soft">
+              Influential subjects are shown by rank, never by identifier.
+            </p>
             <ReportFigures figures={loaderData.figures} />
           </section>
         ) : null}
 
         <section className="space-y-3" aria-labelledby="findings-h">
           <h2 id="findings-h">Findings and their assessment</h2>
-          {findings.length === 0 ? <p className="text-sm text-ink-soft">Every check ended within plan.</p> : null}
+          {findings.length === 0 ? (
+            <p className="text-sm text-ink-soft">Every check ended within plan.</p>
+          ) : null}
           {findings.map((f) => (
             <article key={f.id} className="panel p-4">
               <p className="mb-1 font-medium">{f.summary}</p>
@@ -207,7 +260,11 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
                   {f.statistic} · threshold {f.threshold}
                 </p>
               ) : null}
-              {f.assessment ? <Assessment a={f.assessment} /> : <p className="text-sm text-ink-soft">No assessment recorded.</p>}
+              {f.assessment ? (
+                <Assessment a={f.assessment} />
+              ) : (
+                <p className="text-sm text-ink-soft">No assessment recorded.</p>
+              )}
             </article>
           ))}
           {otherDeviations.length > 0 ? (

@@ -22,11 +22,16 @@ export default function Page({ loaderData }: Route.ComponentProps) {
       <PageHeader eyebrow={code} title="Reports" />
       {reports.length === 0 ? (
         <EmptyState title="No published reports">
-          <p>A report appears here when a second biostatistician signs a rerun. Sponsor readers see the signed results, the checks, the deviations and the appendix; never subject-level rows.</p>
+          <p>
+            A report appears here when a second biostatistician signs a rerun. Sponsor readers see the signed
+            results, the checks, the deviations and the appendix; never subject-level rows.
+          </p>
         </EmptyState>
       ) : (
         <table className="data-table panel">
-          <caption className="mb-1 text-left text-xs text-ink-soft">Signed reruns published to the study's readers, newest first.</caption>
+          <caption className="mb-1 text-left text-xs text-ink-soft">
+            Signed reruns published to the study's readers, newest first.
+          </caption>
           <thead>
             <tr>
               <th scope="col">Planned model</th>

@@ -30,15 +30,35 @@ function refuse(status: number, message: string): Response {
 export async function loader({ request, params }: Route.LoaderArgs) {
   const access = await requireStudy(request, params.studyId, "rerun.view");
   const figure = figureSchema.safeParse(params.figure);
-  if (!figure.success) return refuse(404, `There is no figure "${params.figure}". Figures: ${FIGURE_KEYS.join(", ")}.`);
+  if (!figure.success)
+    return refuse(404, `There is no figure "${params.figure}". Figures: ${FIGURE_KEYS.join(", ")}.`);
   const term = new URL(request.url).searchParams.get("term") ?? undefined;
   const { rerun, doc } = await getRerun(params.studyId, params.rerunId);
-  if (!doc) return refuse(409, rerun.status === "failed" ? `This rerun failed (${rerun.failureReason ?? "no reason recorded"}); it has no figures.` : "This rerun has not finished yet; its figures appear when it completes.");
+  if (!doc)
+    return refuse(
+      409,
+      rerun.status === "failed"
+        ? `This rerun failed (${rerun.failureReason ?? "no reason recorded"}); it has no figures.`
+        : "This rerun has not finished yet; its figures appear when it completes.",
+    );
   // figures that plot covariate values or arms read the rerun's rows from the locked dataset
-  const table = async () => (figureModule(figure.data).needsTable ? rerunTable(doc, (await loadLockedTable(rerun.datasetVersionId)).table) : undefined);
+  const table = async () =>
+    figureModule(figure.data).needsTable
+      ? rerunTable(doc, (await loadLockedTable(rerun.datasetVersionId)).table)
+      : undefined;
   try {
     // who each point is, only for people who may see subjects (the one decision, permissions.server.ts)
-    const body = await figureAnswer({ rerunId: rerun.id, resultSha256: rerun.resultSha256, figure: figure.data, term, withSubjectIds: seesSubjects(access) }, doc, table);
+    const body = await figureAnswer(
+      {
+        rerunId: rerun.id,
+        resultSha256: rerun.resultSha256,
+        figure: figure.data,
+        term,
+        withSubjectIds: seesSubjects(access),
+      },
+      doc,
+      table,
+    );
     return new Response(body, { headers: { ...headers, "Content-Type": "application/json; charset=utf-8" } });
   } catch (e) {
     if (e instanceof FigureUnavailableError) return refuse(400, `This figure cannot be drawn: ${e.message}.`);

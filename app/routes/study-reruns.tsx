@@ -17,22 +17,41 @@ export function meta({ loaderData }: Route.MetaArgs) {
 
 export async function loader({ request, params }: Route.LoaderArgs) {
   const { study, allowed } = await requireStudy(request, params.studyId, "rerun.view");
-  const [reruns, models, locked] = await Promise.all([listReruns(study.id), approvedModels(study.id), listLockedVersions(study.id)]);
+  const [reruns, models, locked] = await Promise.all([
+    listReruns(study.id),
+    approvedModels(study.id),
+    listLockedVersions(study.id),
+  ]);
   return {
     studyId: study.id,
     code: study.code,
     canStart: allowed.has("rerun.start"),
     reruns: reruns.filter((r) => r.kind === "primary"),
-    sensitivityCount: Object.fromEntries(reruns.filter((r) => r.parentRerunId).reduce((m, r) => m.set(r.parentRerunId!, (m.get(r.parentRerunId!) ?? 0) + 1), new Map<string, number>())),
+    sensitivityCount: Object.fromEntries(
+      reruns
+        .filter((r) => r.parentRerunId)
+        .reduce(
+          (m, r) => m.set(r.parentRerunId!, (m.get(r.parentRerunId!) ?? 0) + 1),
+          new Map<string, number>(),
+        ),
+    ),
     choices: models.map((m) => ({
       id: m.id,
       label: `${m.key} · ${m.title} (plan v${m.planVersion})`,
-      versions: locked.filter((v) => v.datasetName === m.datasetName).map((v) => ({ id: v.versionId, label: `${v.datasetName} v${v.version} · ${v.sha256.slice(0, 12)}…` })),
+      versions: locked
+        .filter((v) => v.datasetName === m.datasetName)
+        .map((v) => ({
+          id: v.versionId,
+          label: `${v.datasetName} v${v.version} · ${v.sha256.slice(0, 12)}…`,
+        })),
     })),
   };
 }
 
-const Start = z.object({ plannedModelId: z.string().min(1, "Choose a planned model."), datasetVersionId: z.string().min(1, "Choose a locked dataset version.") });
+const Start = z.object({
+  plannedModelId: z.string().min(1, "Choose a planned model."),
+  datasetVersionId: z.string().min(1, "Choose a locked dataset version."),
+});
 
 export async function action({ request, params }: Route.ActionArgs) {
   const { study, user } = await requireStudy(request, params.studyId, "rerun.start");
@@ -55,8 +74,8 @@ export default function Reruns({ loaderData, actionData }: Route.ComponentProps)
           {reruns.length === 0 ? (
             <EmptyState title="No reruns yet">
               <p>
-                Once a plan version is approved and a dataset version is locked, a biostatistician reruns each planned model here and sees
-                every check end as within plan or as a finding.
+                Once a plan version is approved and a dataset version is locked, a biostatistician reruns each
+                planned model here and sees every check end as within plan or as a finding.
               </p>
             </EmptyState>
           ) : (
@@ -91,9 +110,13 @@ export default function Reruns({ loaderData, actionData }: Route.ComponentProps)
                     <td>
                       <StatusLabel status={STATUS[r.status].status} word={STATUS[r.status].word} />
                     </td>
-                    <td className="num text-right">{r.status === "completed" || r.status === "failed" ? r.findings : "—"}</td>
+                    <td className="num text-right">
+                      {r.status === "completed" || r.status === "failed" ? r.findings : "—"}
+                    </td>
                     <td className="num text-right">{loaderData.sensitivityCount[r.id] ?? 0}</td>
-                    <td className="text-xs">{r.signedAt ? r.signedAt.slice(0, 16).replace("T", " ") : "not yet"}</td>
+                    <td className="text-xs">
+                      {r.signedAt ? r.signedAt.slice(0, 16).replace("T", " ") : "not yet"}
+                    </td>
                     <td className="num text-xs whitespace-nowrap">
                       {r.createdAt.slice(0, 16).replace("T", " ")}
                       <span className="block text-ink-soft">{r.startedBy}</span>
@@ -108,7 +131,9 @@ export default function Reruns({ loaderData, actionData }: Route.ComponentProps)
           <section className="panel p-4">
             <h2 className="mb-3">Start a rerun</h2>
             {choices.length === 0 ? (
-              <p className="text-sm text-ink-soft">There is no approved planned model yet. Approve a plan version first.</p>
+              <p className="text-sm text-ink-soft">
+                There is no approved planned model yet. Approve a plan version first.
+              </p>
             ) : (
               <Form method="post" className="space-y-3">
                 <StartFields choices={choices} />
@@ -129,8 +154,11 @@ export default function Reruns({ loaderData, actionData }: Route.ComponentProps)
   );
 }
 
-
-function StartFields({ choices }: { choices: { id: string; label: string; versions: { id: string; label: string }[] }[] }) {
+function StartFields({
+  choices,
+}: {
+  choices: { id: string; label: string; versions: { id: string; label: string }[] }[];
+}) {
   const [modelId, setModelId] = useState(choices[0]?.id ?? "");
   const versions = choices.find((c) => c.id === modelId)?.versions ?? [];
   return (
@@ -139,7 +167,13 @@ function StartFields({ choices }: { choices: { id: string; label: string; versio
         <label htmlFor="rr-model" className="label">
           Approved planned model
         </label>
-        <select id="rr-model" name="plannedModelId" className="field" value={modelId} onChange={(e) => setModelId(e.target.value)}>
+        <select
+          id="rr-model"
+          name="plannedModelId"
+          className="field"
+          value={modelId}
+          onChange={(e) => setModelId(e.target.value)}
+        >
           {choices.map((c) => (
             <option key={c.id} value={c.id}>
               {c.label}
@@ -151,14 +185,22 @@ function StartFields({ choices }: { choices: { id: string; label: string; versio
         <label htmlFor="rr-data" className="label">
           Locked dataset version
         </label>
-        <select id="rr-data" name="datasetVersionId" className="field" key={modelId} defaultValue={versions[versions.length - 1]?.id}>
+        <select
+          id="rr-data"
+          name="datasetVersionId"
+          className="field"
+          key={modelId}
+          defaultValue={versions[versions.length - 1]?.id}
+        >
           {versions.map((v) => (
             <option key={v.id} value={v.id}>
               {v.label}
             </option>
           ))}
         </select>
-        {versions.length === 0 ? <p className="mt-1 text-xs text-finding">No locked version of this model's dataset.</p> : null}
+        {versions.length === 0 ? (
+          <p className="mt-1 text-xs text-finding">No locked version of this model's dataset.</p>
+        ) : null}
       </div>
     </>
   );

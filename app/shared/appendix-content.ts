@@ -6,7 +6,15 @@
  */
 
 /** Sections a medical writer may add narrative paragraphs to, in document order. */
-export const NARRATIVE_SECTIONS = ["introduction", "methods", "results", "checks", "figures", "deviations", "sensitivity"] as const;
+export const NARRATIVE_SECTIONS = [
+  "introduction",
+  "methods",
+  "results",
+  "checks",
+  "figures",
+  "deviations",
+  "sensitivity",
+] as const;
 export type NarrativeSection = (typeof NARRATIVE_SECTIONS)[number];
 
 export const SECTION_TITLES: Record<NarrativeSection, string> = {
@@ -32,7 +40,14 @@ export type Block =
   | { kind: "paragraph"; text: string }
   | { kind: "bullets"; items: string[] }
   | { kind: "caution"; text: string }
-  | { kind: "narrative"; section: NarrativeSection; paragraphs: string[]; version: number; author: string | null; at: string }
+  | {
+      kind: "narrative";
+      section: NarrativeSection;
+      paragraphs: string[];
+      version: number;
+      author: string | null;
+      at: string;
+    }
   | {
       kind: "table";
       /** Stable key naming what the table holds, e.g. "coefficients:<rerunId>" (tests find tables by it). */
@@ -86,7 +101,15 @@ export interface AppendixContent {
 
 /** Every piece of text in the content, for subsetting the embedded font. */
 export function allText(c: AppendixContent): string {
-  const parts: string[] = [c.title, c.runningHeader, c.caution, c.titlePage.studyCode, c.titlePage.studyTitle, c.titlePage.sponsor, c.titlePage.planVersion];
+  const parts: string[] = [
+    c.title,
+    c.runningHeader,
+    c.caution,
+    c.titlePage.studyCode,
+    c.titlePage.studyTitle,
+    c.titlePage.sponsor,
+    c.titlePage.planVersion,
+  ];
   for (const f of c.titlePage.facts) parts.push(f.label, f.value);
   for (const s of c.sections) {
     parts.push(s.title);

@@ -15,4 +15,5 @@ export function fmtCi(lower: number, upper: number, digits = 3): string {
   return `${fmt(lower, digits)} to ${fmt(upper, digits)}`;
 }
 
-export const utc = (iso: string | null | undefined): string => (iso ? `${iso.slice(0, 16).replace("T", " ")} UTC` : "—");
+export const utc = (iso: string | null | undefined): string =>
+  iso ? `${iso.slice(0, 16).replace("T", " ")} UTC` : "—";

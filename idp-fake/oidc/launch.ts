@@ -52,10 +52,14 @@ export async function startOidcFake(opts: StartOidcFakeOptions): Promise<Running
   const logFile = path.join(stateDir, "oidc-fake.log");
   const log = createWriteStream(logFile, { flags: "a" });
   const tsx = pathToFileURL(require.resolve("tsx")).href;
-  const child = spawn(process.execPath, ["--import", tsx, path.join(here, "child.ts"), JSON.stringify(options)], {
-    stdio: ["pipe", "pipe", "pipe"],
-    env: { ...process.env, FORCE_COLOR: "0" },
-  });
+  const child = spawn(
+    process.execPath,
+    ["--import", tsx, path.join(here, "child.ts"), JSON.stringify(options)],
+    {
+      stdio: ["pipe", "pipe", "pipe"],
+      env: { ...process.env, FORCE_COLOR: "0" },
+    },
+  );
   child.stdout?.pipe(log);
   child.stderr?.pipe(log);
   const owned = ownChild(child);
@@ -66,17 +70,23 @@ export async function startOidcFake(opts: StartOidcFakeOptions): Promise<Running
     if (child.exitCode !== null) {
       await new Promise((r) => log.end(r));
       const tail = readFileSync(logFile, "utf8").trim().split("\n").slice(-3).join(" ");
-      throw new Error(`The fake OpenID Connect provider exited with code ${child.exitCode}: ${tail} (log: ${logFile}).`);
+      throw new Error(
+        `The fake OpenID Connect provider exited with code ${child.exitCode}: ${tail} (log: ${logFile}).`,
+      );
     }
     try {
-      const res = await fetch(`${issuerUrl}/.well-known/openid-configuration`, { signal: AbortSignal.timeout(1000) });
+      const res = await fetch(`${issuerUrl}/.well-known/openid-configuration`, {
+        signal: AbortSignal.timeout(1000),
+      });
       if (res.ok) break;
     } catch {
       // not listening yet
     }
     if (Date.now() > deadline) {
       owned.kill();
-      throw new Error(`The fake OpenID Connect provider did not answer at ${issuerUrl} within 20 s; see ${logFile}.`);
+      throw new Error(
+        `The fake OpenID Connect provider did not answer at ${issuerUrl} within 20 s; see ${logFile}.`,
+      );
     }
     await new Promise((r) => setTimeout(r, 150));
   }

@@ -24,7 +24,10 @@ export function oidcPeople(file: string): OidcPerson[] {
 export const subjectOf = (p: OidcPerson): string => `sponsor-${p.key}`;
 
 const esc = (s: string): string =>
-  s.replace(/[&<>"']/g, (c) => ({ "&": "&amp;", "<": "&lt;", ">": "&gt;", '"': "&quot;", "'": "&#39;" })[c] ?? c);
+  s.replace(
+    /[&<>"']/g,
+    (c) => ({ "&": "&amp;", "<": "&lt;", ">": "&gt;", '"': "&quot;", "'": "&#39;" })[c] ?? c,
+  );
 
 export function pickerPage(o: { people: OidcPerson[]; query: URLSearchParams; issuer: string }): string {
   const hidden = [...o.query]
@@ -33,7 +36,9 @@ export function pickerPage(o: { people: OidcPerson[]; query: URLSearchParams; is
     .join("");
   const rows = o.people
     .map(
-      (p) => `<li><form method="get" action="/authorize" data-person="${esc(p.key)}">${hidden}<input type="hidden" name="demo_person" value="${esc(p.key)}">
+      (
+        p,
+      ) => `<li><form method="get" action="/authorize" data-person="${esc(p.key)}">${hidden}<input type="hidden" name="demo_person" value="${esc(p.key)}">
 <button type="submit" aria-label="Continue as ${esc(p.displayName)}"><strong>${esc(p.displayName)}</strong>
 <span>Sponsor reader · ${esc(p.organisation)}</span><span class="mail">${esc(p.email)}</span></button></form></li>`,
     )

@@ -16,7 +16,14 @@ import { existsSync, mkdirSync, readFileSync, writeFileSync } from "node:fs";
 import http from "node:http";
 import path from "node:path";
 import { fileURLToPath } from "node:url";
-import { OAuth2Issuer, OAuth2Service, type MutableRedirectUri, type MutableResponse, type MutableToken, type TokenRequestIncomingMessage } from "oauth2-mock-server";
+import {
+  OAuth2Issuer,
+  OAuth2Service,
+  type MutableRedirectUri,
+  type MutableResponse,
+  type MutableToken,
+  type TokenRequestIncomingMessage,
+} from "oauth2-mock-server";
 import { errorPage, oidcPeople, pickerPage, subjectOf, type OidcPerson } from "./picker";
 
 export interface OidcFakeOptions {
@@ -56,7 +63,9 @@ async function loadOrMakeKey(issuer: OAuth2Issuer, stateDir: string): Promise<vo
   writeFileSync(file, JSON.stringify(jwk), { mode: 0o600 });
 }
 
-export async function runOidcFake(o: OidcFakeOptions): Promise<{ issuerUrl: string; close(): Promise<void> }> {
+export async function runOidcFake(
+  o: OidcFakeOptions,
+): Promise<{ issuerUrl: string; close(): Promise<void> }> {
   mkdirSync(o.stateDir, { recursive: true });
   const people = oidcPeople(path.join(here, "..", "demo-people.json"));
   const issuerUrl = `http://${o.host.includes(":") ? `[${o.host}]` : o.host}:${o.port}`;
@@ -79,7 +88,12 @@ export async function runOidcFake(o: OidcFakeOptions): Promise<{ issuerUrl: stri
     if (!person) return;
     token.payload.sub = subjectOf(person);
     if (token.payload.aud === o.clientId) {
-      Object.assign(token.payload, { email: person.email, email_verified: true, name: person.displayName, organisation: person.organisation });
+      Object.assign(token.payload, {
+        email: person.email,
+        email_verified: true,
+        name: person.displayName,
+        organisation: person.organisation,
+      });
     }
   });
 
@@ -88,13 +102,19 @@ export async function runOidcFake(o: OidcFakeOptions): Promise<{ issuerUrl: stri
     const credentials = basicCredentials(req.headers.authorization);
     if (!credentials || credentials.id !== o.clientId || credentials.secret !== o.clientSecret) {
       response.statusCode = 401;
-      response.body = { error: "invalid_client", error_description: "Unknown client or wrong client secret." };
+      response.body = {
+        error: "invalid_client",
+        error_description: "Unknown client or wrong client secret.",
+      };
       return;
     }
     const code = req.body.code ?? "";
     if (!codes.has(code)) {
       response.statusCode = 400;
-      response.body = { error: "invalid_grant", error_description: "The authorization code is unknown or was already used." };
+      response.body = {
+        error: "invalid_grant",
+        error_description: "The authorization code is unknown or was already used.",
+      };
       return;
     }
     codes.delete(code);
@@ -114,17 +134,24 @@ export async function runOidcFake(o: OidcFakeOptions): Promise<{ issuerUrl: stri
         res.writeHead(400, { "Content-Type": "text/html; charset=utf-8" });
         res.end(errorPage(title, message));
       };
-      if (q.get("client_id") !== o.clientId) return refuse("Unknown client", "This provider has no client with that client_id.");
+      if (q.get("client_id") !== o.clientId)
+        return refuse("Unknown client", "This provider has no client with that client_id.");
       const redirectUri = q.get("redirect_uri") ?? "";
-      if (o.redirectUris.length > 0 ? !o.redirectUris.includes(redirectUri) : !/^https?:\/\//.test(redirectUri)) {
-        return refuse("Redirect URI not registered", `The client did not register ${redirectUri || "an empty redirect URI"}.`);
+      if (
+        o.redirectUris.length > 0 ? !o.redirectUris.includes(redirectUri) : !/^https?:\/\//.test(redirectUri)
+      ) {
+        return refuse(
+          "Redirect URI not registered",
+          `The client did not register ${redirectUri || "an empty redirect URI"}.`,
+        );
       }
       if (!q.has("demo_person")) {
         res.writeHead(200, { "Content-Type": "text/html; charset=utf-8", "Cache-Control": "no-store" });
         res.end(pickerPage({ people, query: q, issuer: issuerUrl }));
         return;
       }
-      if (!people.some((p) => p.key === q.get("demo_person"))) return refuse("Unknown person", "Choose a person from the list.");
+      if (!people.some((p) => p.key === q.get("demo_person")))
+        return refuse("Unknown person", "Choose a person from the list.");
     }
     handler(req, res);
   });

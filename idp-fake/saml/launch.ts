@@ -59,8 +59,21 @@ export function ensureKeyPair(stateDir: string): { certFile: string; keyFile: st
     try {
       execFileSync(
         "openssl",
-        ["req", "-x509", "-newkey", "rsa:2048", "-nodes", "-subj", "/CN=Plumbline fake identity provider",
-          "-keyout", keyFile, "-out", certFile, "-days", "3650"],
+        [
+          "req",
+          "-x509",
+          "-newkey",
+          "rsa:2048",
+          "-nodes",
+          "-subj",
+          "/CN=Plumbline fake identity provider",
+          "-keyout",
+          keyFile,
+          "-out",
+          certFile,
+          "-days",
+          "3650",
+        ],
         { stdio: "ignore" },
       );
     } catch (error) {
@@ -74,10 +87,34 @@ export function ensureKeyPair(stateDir: string): { certFile: string; keyFile: st
 
 /** The attributes every assertion carries; `groups` is multi-valued (comma-separated in the form). */
 export const ATTRIBUTES = [
-  { id: "email", optional: false, displayName: "E-mail address", description: "Work e-mail address", multiValue: false },
-  { id: "displayName", optional: false, displayName: "Display name", description: "Name shown in Plumbline", multiValue: false },
-  { id: "organisation", optional: true, displayName: "Organisation", description: "Employer or sponsor", multiValue: false },
-  { id: "groups", optional: true, displayName: "Groups", description: "Directory groups; plumbline-admins makes an administrator", multiValue: true },
+  {
+    id: "email",
+    optional: false,
+    displayName: "E-mail address",
+    description: "Work e-mail address",
+    multiValue: false,
+  },
+  {
+    id: "displayName",
+    optional: false,
+    displayName: "Display name",
+    description: "Name shown in Plumbline",
+    multiValue: false,
+  },
+  {
+    id: "organisation",
+    optional: true,
+    displayName: "Organisation",
+    description: "Employer or sponsor",
+    multiValue: false,
+  },
+  {
+    id: "groups",
+    optional: true,
+    displayName: "Groups",
+    description: "Directory groups; plumbline-admins makes an administrator",
+    multiValue: true,
+  },
 ] as const;
 
 /** The form's starting values (saml-idp needs a default for every multi-valued attribute). */
@@ -95,7 +132,8 @@ function defaultUser(people: DemoPerson[]): Record<string, string> {
 
 function writeAttributeConfig(stateDir: string, people: DemoPerson[]): string {
   const file = path.resolve(stateDir, "saml-idp-config.cjs");
-  const body = `// Written by idp-fake/saml/launch.ts; attribute set of the fake identity provider.\n` +
+  const body =
+    `// Written by idp-fake/saml/launch.ts; attribute set of the fake identity provider.\n` +
     `module.exports = ${JSON.stringify({ user: defaultUser(people), metadata: ATTRIBUTES }, null, 2)};\n`;
   writeFileSync(file, body);
   return file;
@@ -112,7 +150,12 @@ function freePort(host: string): Promise<number> {
   });
 }
 
-async function waitUntilAnswering(url: string, child: ChildProcess, logFile: string, timeoutMs = 20_000): Promise<void> {
+async function waitUntilAnswering(
+  url: string,
+  child: ChildProcess,
+  logFile: string,
+  timeoutMs = 20_000,
+): Promise<void> {
   const deadline = Date.now() + timeoutMs;
   while (Date.now() < deadline) {
     if (child.exitCode !== null) {
@@ -126,7 +169,9 @@ async function waitUntilAnswering(url: string, child: ChildProcess, logFile: str
     }
     await new Promise((r) => setTimeout(r, 150));
   }
-  throw new Error(`The fake identity provider did not answer at ${url} within ${timeoutMs} ms; see ${logFile}.`);
+  throw new Error(
+    `The fake identity provider did not answer at ${url} within ${timeoutMs} ms; see ${logFile}.`,
+  );
 }
 
 /**
@@ -135,7 +180,12 @@ async function waitUntilAnswering(url: string, child: ChildProcess, logFile: str
  * someone else who signed in earlier fails), the browser is sent back to `logoutFailed`
  * instead of being left on saml-idp's error page.
  */
-function passThrough(req: http.IncomingMessage, res: http.ServerResponse, upstreamPort: number, logoutFailed: string): void {
+function passThrough(
+  req: http.IncomingMessage,
+  res: http.ServerResponse,
+  upstreamPort: number,
+  logoutFailed: string,
+): void {
   const isLogout = new URL(req.url ?? "/", "http://front").pathname === "/saml/slo";
   const upstream = http.request(
     { host: "127.0.0.1", port: upstreamPort, method: req.method, path: req.url, headers: req.headers },
@@ -158,12 +208,17 @@ function passThrough(req: http.IncomingMessage, res: http.ServerResponse, upstre
 }
 
 /** The hidden `_authnRequest` value saml-idp puts in its form: its own reading of the AuthnRequest. */
-async function authnRequestField(upstreamPort: number, search: string): Promise<{ field: string | null; html: string; status: number }> {
+async function authnRequestField(
+  upstreamPort: number,
+  search: string,
+): Promise<{ field: string | null; html: string; status: number }> {
   const res = await fetch(`http://127.0.0.1:${upstreamPort}/saml/sso${search}`);
   const html = await res.text();
   // The template HTML-escapes the value (base64 "=" arrives as "&#x3D;").
   const match = /name="_authnRequest"\s+type='hidden'\s+value='([^']+)'/.exec(html);
-  const field = match ? match[1].replace(/&#x([0-9a-f]+);/gi, (_m, h: string) => String.fromCharCode(parseInt(h, 16))) : null;
+  const field = match
+    ? match[1].replace(/&#x([0-9a-f]+);/gi, (_m, h: string) => String.fromCharCode(parseInt(h, 16)))
+    : null;
   return { field: field && /^[A-Za-z0-9+/]+=*$/.test(field) ? field : null, html, status: res.status };
 }
 
@@ -185,9 +240,27 @@ export async function startSamlIdp(opts: SamlIdpOptions): Promise<RunningSamlIdp
   );
   const child = spawn(
     process.execPath,
-    [path.join(here, "child.cjs"), "--host", "127.0.0.1", "--port", String(upstreamPort), "--issuer", opts.issuer,
-      "--acsUrl", opts.acsUrl, "--sloUrl", opts.sloUrl, "--audience", opts.audience,
-      "--cert", certFile, "--key", keyFile, "--configFile", configFile],
+    [
+      path.join(here, "child.cjs"),
+      "--host",
+      "127.0.0.1",
+      "--port",
+      String(upstreamPort),
+      "--issuer",
+      opts.issuer,
+      "--acsUrl",
+      opts.acsUrl,
+      "--sloUrl",
+      opts.sloUrl,
+      "--audience",
+      opts.audience,
+      "--cert",
+      certFile,
+      "--key",
+      keyFile,
+      "--configFile",
+      configFile,
+    ],
     { stdio: ["pipe", "pipe", "pipe"], env: { ...process.env, FORCE_COLOR: "0", HOST: "", PORT: "" } },
   );
   child.stdout?.pipe(log);
@@ -208,7 +281,8 @@ export async function startSamlIdp(opts: SamlIdpOptions): Promise<RunningSamlIdp
       res.end(stylesheet);
       return;
     }
-    const isPicker = req.method === "GET" && url.pathname === "/saml/sso" && url.searchParams.get("form") !== "full";
+    const isPicker =
+      req.method === "GET" && url.pathname === "/saml/sso" && url.searchParams.get("form") !== "full";
     if (!isPicker) return passThrough(req, res, upstreamPort, `${appOrigin}/sign-in?signedOut=partial`);
     void (async () => {
       try {
@@ -216,13 +290,23 @@ export async function startSamlIdp(opts: SamlIdpOptions): Promise<RunningSamlIdp
         const parsed = hasRequest ? await authnRequestField(upstreamPort, url.search) : null;
         if (parsed && !parsed.field) {
           // saml-idp could not read the request: show its own error page.
-          res.writeHead(parsed.status === 200 ? 400 : parsed.status, { "Content-Type": "text/html; charset=utf-8" });
+          res.writeHead(parsed.status === 200 ? 400 : parsed.status, {
+            "Content-Type": "text/html; charset=utf-8",
+          });
           res.end(parsed.html);
           return;
         }
         const fullForm = `/saml/sso?${new URLSearchParams([...url.searchParams, ["form", "full"]]).toString()}`;
         res.writeHead(200, { "Content-Type": "text/html; charset=utf-8", "Cache-Control": "no-store" });
-        res.end(pickerPage({ people, authnRequest: parsed?.field ?? null, fullFormUrl: fullForm, appOrigin, issuer: opts.issuer }));
+        res.end(
+          pickerPage({
+            people,
+            authnRequest: parsed?.field ?? null,
+            fullFormUrl: fullForm,
+            appOrigin,
+            issuer: opts.issuer,
+          }),
+        );
       } catch {
         res.writeHead(502, { "Content-Type": "text/plain; charset=utf-8" });
         res.end("The fake identity provider behind this front is not answering.");

@@ -22,7 +22,10 @@ export function demoPeople(file: string): DemoPerson[] {
 }
 
 const esc = (s: string): string =>
-  s.replace(/[&<>"']/g, (c) => ({ "&": "&amp;", "<": "&lt;", ">": "&gt;", '"': "&quot;", "'": "&#39;" })[c] ?? c);
+  s.replace(
+    /[&<>"']/g,
+    (c) => ({ "&": "&amp;", "<": "&lt;", ">": "&gt;", '"': "&quot;", "'": "&#39;" })[c] ?? c,
+  );
 
 /** The fields saml-idp's form posts to /signin for one person. */
 export function signInFields(p: DemoPerson): Record<string, string> {
@@ -60,7 +63,9 @@ export function pickerPage(o: {
       const hidden = Object.entries(signInFields(p))
         .map(([k, v]) => `<input type="hidden" name="${esc(k)}" value="${esc(v)}">`)
         .join("");
-      const request = o.authnRequest ? `<input type="hidden" name="_authnRequest" value="${esc(o.authnRequest)}">` : "";
+      const request = o.authnRequest
+        ? `<input type="hidden" name="_authnRequest" value="${esc(o.authnRequest)}">`
+        : "";
       return `<li><form method="post" action="/signin" data-person="${esc(p.key)}">${hidden}${request}
 <button type="submit" aria-label="Sign in as ${esc(p.displayName)}"><strong>${esc(p.displayName)}</strong>
 <span>${esc(roleOf(p))} · ${esc(p.organisation)}</span><span class="mail">${esc(p.email)} · groups: ${esc(p.groups.join(", "))}</span></button></form></li>`;

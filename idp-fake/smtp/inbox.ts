@@ -46,7 +46,9 @@ export async function waitForMessage(
     if (found) return found;
     if (Date.now() > deadline) {
       const seen = readInbox(stateDir).map((m) => `${m.envelopeTo.join(",")}: ${m.subject}`);
-      throw new Error(`No matching message reached the SMTP fake within ${timeoutMs} ms; it has ${seen.length ? seen.join(" | ") : "none"}.`);
+      throw new Error(
+        `No matching message reached the SMTP fake within ${timeoutMs} ms; it has ${seen.length ? seen.join(" | ") : "none"}.`,
+      );
     }
     await new Promise((r) => setTimeout(r, 100));
   }

@@ -37,10 +37,22 @@ export async function startSmtpFake(opts: SmtpFakeOptions): Promise<RunningSmtpF
   const stateDir = path.resolve(opts.stateDir);
   mkdirSync(stateDir, { recursive: true });
   // tsx's loader by absolute URL, so the child runs whatever the current folder is.
-  const tsx = pathToFileURL(path.join(path.dirname(require.resolve("tsx/package.json")), "dist", "loader.mjs")).href;
+  const tsx = pathToFileURL(
+    path.join(path.dirname(require.resolve("tsx/package.json")), "dist", "loader.mjs"),
+  ).href;
   const child = spawn(
     process.execPath,
-    ["--import", tsx, path.join(here, "child.ts"), "--port", String(opts.port), "--host", host, "--state-dir", stateDir],
+    [
+      "--import",
+      tsx,
+      path.join(here, "child.ts"),
+      "--port",
+      String(opts.port),
+      "--host",
+      host,
+      "--state-dir",
+      stateDir,
+    ],
     { stdio: ["pipe", "pipe", "pipe"], env: { ...process.env, FORCE_COLOR: "0" } },
   );
   let stderr = "";

@@ -14,7 +14,11 @@ const { values } = parseArgs({
   },
 });
 
-const smtp = await startSmtpFake({ port: Number(values.port), host: values.host, stateDir: values["state-dir"] });
+const smtp = await startSmtpFake({
+  port: Number(values.port),
+  host: values.host,
+  stateDir: values["state-dir"],
+});
 
 console.log(`Fake SMTP server ready at ${smtp.smtpHost}:${smtp.smtpPort}`);
 console.log(`  SMTP_HOST=${smtp.smtpHost}`);

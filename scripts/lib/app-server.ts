@@ -24,18 +24,23 @@ export async function startAppServer(opts: {
 }): Promise<RunningApp> {
   const root = opts.root ?? process.cwd();
   const host = opts.host ?? "127.0.0.1";
-  const child = spawn(process.execPath, [path.join(root, "server.mjs"), path.join(root, "build/server/index.js")], {
-    cwd: root,
-    env: { ...process.env, NODE_ENV: "production", ...opts.env, PORT: String(opts.port), HOST: host },
-    stdio: opts.output === "inherit" ? "inherit" : ["ignore", "pipe", "pipe"],
-  });
+  const child = spawn(
+    process.execPath,
+    [path.join(root, "server.mjs"), path.join(root, "build/server/index.js")],
+    {
+      cwd: root,
+      env: { ...process.env, NODE_ENV: "production", ...opts.env, PORT: String(opts.port), HOST: host },
+      stdio: opts.output === "inherit" ? "inherit" : ["ignore", "pipe", "pipe"],
+    },
+  );
   let log = "";
   child.stdout?.on("data", (d: Buffer) => (log = (log + d.toString()).slice(-8000)));
   child.stderr?.on("data", (d: Buffer) => (log = (log + d.toString()).slice(-8000)));
   const url = `http://${host}:${opts.port}`;
   const deadline = Date.now() + 60_000;
   for (;;) {
-    if (child.exitCode !== null) throw new Error(`The Plumbline server exited with code ${child.exitCode} while starting:\n${log}`);
+    if (child.exitCode !== null)
+      throw new Error(`The Plumbline server exited with code ${child.exitCode} while starting:\n${log}`);
     try {
       const res = await fetch(`${url}/healthz`);
       if (res.ok) break;

@@ -44,7 +44,19 @@ export interface LargeStudy {
 const RESPONSE = "chg";
 const TREATMENT = "arm";
 const COVARIATES = ["base", "stratum", "region", "sex", "age"];
-const CHECKS = ["cooks_distance", "leverage", "deletion_residual", "dfbetas_treatment", "dffits", "shapiro_wilk", "breusch_pagan", "brown_forsythe", "homogeneity_of_slopes", "reset", "gvif"];
+const CHECKS = [
+  "cooks_distance",
+  "leverage",
+  "deletion_residual",
+  "dfbetas_treatment",
+  "dffits",
+  "shapiro_wilk",
+  "breusch_pagan",
+  "brown_forsythe",
+  "homogeneity_of_slopes",
+  "reset",
+  "gvif",
+];
 
 export interface LargeStudyOptions {
   /** Subjects in the large dataset (10 000 unless told otherwise). */
@@ -66,7 +78,8 @@ export async function buildLargeStudy(opts: LargeStudyOptions = {}): Promise<Lar
   const datasets = await import("../../app/.server/datasets/datasets.server");
   const { listLockedVersions } = await import("../../app/.server/datasets/catalog.server");
   const plans = await import("../../app/.server/plans/plans.server");
-  const { readPlannedModelForm, validatePlannedModel } = await import("../../app/.server/plans/planned-model");
+  const { readPlannedModelForm, validatePlannedModel } =
+    await import("../../app/.server/plans/planned-model");
   const reruns = await import("../../app/.server/reruns/reruns.server");
   const { runOneJob } = await import("../../app/.server/jobs/jobs.server");
   (await import("../../app/.server/background.server")).registerJobHandlers();
@@ -90,7 +103,8 @@ export async function buildLargeStudy(opts: LargeStudyOptions = {}): Promise<Lar
     const first = generateDemoDataset(1);
     const lines = [first.columns.join(",")];
     const q = (v: string) => (/[",\n]/.test(v) ? `"${v.replace(/"/g, '""')}"` : v);
-    const analysed = (row: Record<string, string>) => row.fasfl === "Y" && [RESPONSE, TREATMENT, ...COVARIATES].every((c) => row[c] !== "");
+    const analysed = (row: Record<string, string>) =>
+      row.fasfl === "Y" && [RESPONSE, TREATMENT, ...COVARIATES].every((c) => row[c] !== "");
     for (let seed = 1; lines.length - 1 < target; seed++) {
       for (const row of generateDemoDataset(seed).rows) {
         if (lines.length - 1 >= target) break;
@@ -101,11 +115,26 @@ export async function buildLargeStudy(opts: LargeStudyOptions = {}): Promise<Lar
     return `${lines.join("\n")}\n`;
   };
 
-  const up = await datasets.uploadBytes(people.dana, { studyId, datasetName: "adeff10k", fileName: "adeff10k.csv", bytes: largeCsv(subjects) });
+  const up = await datasets.uploadBytes(people.dana, {
+    studyId,
+    datasetName: "adeff10k",
+    fileName: "adeff10k.csv",
+    bytes: largeCsv(subjects),
+  });
   if (!up.ok) throw new Error(`The large dataset was refused: ${up.problems.join(" ")}`);
   const detail = await datasets.getVersionDetail(studyId, up.versionId);
-  for (const hit of detail?.hits ?? []) await datasets.recordNotIdentifier(people.dana, studyId, hit.id, "Pseudonymous subject code for the benchmark.");
-  const locked = await datasets.lockVersion({ ...people.dana, signedInAt: new Date().toISOString() }, studyId, up.versionId);
+  for (const hit of detail?.hits ?? [])
+    await datasets.recordNotIdentifier(
+      people.dana,
+      studyId,
+      hit.id,
+      "Pseudonymous subject code for the benchmark.",
+    );
+  const locked = await datasets.lockVersion(
+    { ...people.dana, signedInAt: new Date().toISOString() },
+    studyId,
+    up.versionId,
+  );
   if (!locked.ok) throw new Error(`The large dataset could not be locked: ${locked.message}`);
 
   const versions = await listLockedVersions(studyId);
@@ -117,23 +146,56 @@ export async function buildLargeStudy(opts: LargeStudyOptions = {}): Promise<Lar
   const datasetVersionIds = { adeff: versionOf("adeff"), adeff10k: versionOf("adeff10k") };
 
   const catalogue = versions.map((v) => ({ name: v.datasetName, columns: v.columns }));
-  const { versionId } = await plans.createPlan(people.priya, studyId, { title: "Benchmark", sapName: "SAP", sapVersion: "1", sapDate: "2026-12-01" });
+  const { versionId } = await plans.createPlan(people.priya, studyId, {
+    title: "Benchmark",
+    sapName: "SAP",
+    sapVersion: "1",
+    sapDate: "2026-12-01",
+  });
   let revision = 1;
   const plannedModelIds = { adeff: "", adeff10k: "" };
   for (const name of BENCH_DATASETS) {
     const f = new FormData();
-    for (const [k, v] of Object.entries({ key: name, title: `Primary on ${name}`, datasetName: name, populationColumn: "fasfl", populationValue: "Y", response: RESPONSE, family: "gaussian", treatment: TREATMENT, treatmentReference: "Placebo", id: "subjid" })) f.set(k, v);
+    for (const [k, v] of Object.entries({
+      key: name,
+      title: `Primary on ${name}`,
+      datasetName: name,
+      populationColumn: "fasfl",
+      populationValue: "Y",
+      response: RESPONSE,
+      family: "gaussian",
+      treatment: TREATMENT,
+      treatmentReference: "Placebo",
+      id: "subjid",
+    }))
+      f.set(k, v);
     for (const c of COVARIATES) f.append("covariate", c);
     for (const c of CHECKS) f.set(`check:${c}:enabled`, "on");
     const v = validatePlannedModel(readPlannedModelForm(f), catalogue, []);
-    if (!v.ok) throw new Error(`The benchmark's planned model does not validate: ${JSON.stringify(v.errors)}`);
-    plannedModelIds[name] = await plans.savePlannedModel(people.priya, studyId, versionId, revision++, null, v.model);
+    if (!v.ok)
+      throw new Error(`The benchmark's planned model does not validate: ${JSON.stringify(v.errors)}`);
+    plannedModelIds[name] = await plans.savePlannedModel(
+      people.priya,
+      studyId,
+      versionId,
+      revision++,
+      null,
+      v.model,
+    );
   }
   await plans.submitForApproval(people.priya, studyId, versionId, revision);
-  await plans.approvePlanVersion({ ...people.tomas, signedInAt: new Date().toISOString() }, studyId, versionId);
+  await plans.approvePlanVersion(
+    { ...people.tomas, signedInAt: new Date().toISOString() },
+    studyId,
+    versionId,
+  );
 
   const rerun = async (name: BenchDataset): Promise<string> => {
-    const id = await reruns.startRerun(people.priya, studyId, { plannedModelId: plannedModelIds[name], datasetVersionId: datasetVersionIds[name], options: { variant: "planned" } });
+    const id = await reruns.startRerun(people.priya, studyId, {
+      plannedModelId: plannedModelIds[name],
+      datasetVersionId: datasetVersionIds[name],
+      options: { variant: "planned" },
+    });
     while (await runOneJob()) {
       // run every queued job
     }

@@ -26,7 +26,10 @@ const grant = (fields: Record<string, string>) =>
 
 describe("audit filter", () => {
   it("a filter longer than its limit answers 400 naming the field, not 500", async () => {
-    const res = await fetch(`${stack.appUrl}/admin/audit?action=${"a".repeat(5000)}&actor=${"b".repeat(5000)}`, { headers: { Cookie: cookie } });
+    const res = await fetch(
+      `${stack.appUrl}/admin/audit?action=${"a".repeat(5000)}&actor=${"b".repeat(5000)}`,
+      { headers: { Cookie: cookie } },
+    );
     expect(res.status).toBe(400);
     const html = await res.text();
     expect(html).toContain("The audit filter was not applied");
@@ -39,7 +42,11 @@ describe("role grants", () => {
     const noPerson = await grant({ personId: "no-such-person", studyId, role: "biostatistician" });
     expect(noPerson.status).toBe(404);
     expect(await noPerson.text()).toContain("There is no person with id no-such-person");
-    const noStudy = await grant({ personId: await personId(stack, "helen.achter@plumbline.example"), studyId: "no-such-study", role: "biostatistician" });
+    const noStudy = await grant({
+      personId: await personId(stack, "helen.achter@plumbline.example"),
+      studyId: "no-such-study",
+      role: "biostatistician",
+    });
     expect(noStudy.status).toBe(404);
     expect(await noStudy.text()).toContain("There is no study with id no-such-study");
   });
@@ -49,9 +56,15 @@ describe("role grants", () => {
     const res = await grant({ personId: morgan, studyId, role: "biostatistician" });
     expect(res.status).toBe(403);
     expect(await res.text()).toContain("another administrator must grant it");
-    const role = await testDb(stack).execute({ sql: "SELECT count(*) AS n FROM study_memberships WHERE person_id = ? AND study_id = ?", args: [morgan, studyId] });
+    const role = await testDb(stack).execute({
+      sql: "SELECT count(*) AS n FROM study_memberships WHERE person_id = ? AND study_id = ?",
+      args: [morgan, studyId],
+    });
     expect(Number(role.rows[0].n)).toBe(0);
-    const audited = await testDb(stack).execute({ sql: "SELECT count(*) AS n FROM audit_events WHERE action = 'membership.self_grant_refused' AND actor_id = ?", args: [morgan] });
+    const audited = await testDb(stack).execute({
+      sql: "SELECT count(*) AS n FROM audit_events WHERE action = 'membership.self_grant_refused' AND actor_id = ?",
+      args: [morgan],
+    });
     expect(Number(audited.rows[0].n)).toBeGreaterThan(0);
   });
 });

@@ -42,7 +42,10 @@ describe("audit trail page", () => {
     const row = (await db.execute("SELECT seq, detail FROM audit_events WHERE seq = 2")).rows[0];
     await db.execute("DROP TRIGGER audit_events_no_update");
     try {
-      await db.execute({ sql: "UPDATE audit_events SET detail = ? WHERE seq = 2", args: ["edited behind the app's back"] });
+      await db.execute({
+        sql: "UPDATE audit_events SET detail = ? WHERE seq = 2",
+        args: ["edited behind the app's back"],
+      });
       const html = await auditPage();
       expect(html).toContain("Chain broken");
       expect(html).toMatch(/first broken link is event <span[^>]*>2<\/span>/);
@@ -56,13 +59,18 @@ describe("audit trail page", () => {
   });
 });
 
-const rowsOf = (html: string) => [...html.matchAll(/<tr><td class="num text-right">(\d+)<\/td>/g)].map((m) => Number(m[1]));
+const rowsOf = (html: string) =>
+  [...html.matchAll(/<tr><td class="num text-right">(\d+)<\/td>/g)].map((m) => Number(m[1]));
 
 describe("audit trail paging", () => {
   it("shows one page of the newest events with links to the others, the current page marked", async () => {
-    const count = async () => Number((await testDb(stack).execute("SELECT count(*) AS n FROM audit_events")).rows[0].n);
+    const count = async () =>
+      Number((await testDb(stack).execute("SELECT count(*) AS n FROM audit_events")).rows[0].n);
     // more than one page of 50: each export is an audited event of its own
-    while ((await count()) <= 60) await (await fetch(`${stack.appUrl}/admin/audit/export.csv?action=none.`, { headers: { Cookie: cookie } })).text();
+    while ((await count()) <= 60)
+      await (
+        await fetch(`${stack.appUrl}/admin/audit/export.csv?action=none.`, { headers: { Cookie: cookie } })
+      ).text();
     const total = await count();
     const first = await auditPage();
     const seqs = rowsOf(first);
@@ -91,12 +99,29 @@ describe("audit trail export", () => {
     const res = await fetch(`${stack.appUrl}/admin/audit/export.csv`, { headers: { Cookie: cookie } });
     expect(res.status).toBe(200);
     expect(res.headers.get("content-type")).toMatch(/^text\/csv; charset=utf-8/);
-    expect(res.headers.get("content-disposition")).toMatch(/attachment; filename="plumbline-audit-trail-\d{8}T\d{6}Z\.csv"/);
+    expect(res.headers.get("content-disposition")).toMatch(
+      /attachment; filename="plumbline-audit-trail-\d{8}T\d{6}Z\.csv"/,
+    );
     expect(res.headers.get("x-caution")).toMatch(/Results support, but do not replace/);
     const text = await res.text();
     expect(createHash("sha256").update(text).digest("hex")).toBe(res.headers.get("x-content-sha256"));
     const rows = parse(text, { columns: true }) as Record<string, string>[];
-    expect(Object.keys(rows[0])).toEqual(["seq", "at", "actor_id", "actor_name", "action", "entity_type", "entity_id", "study_id", "before_json", "after_json", "detail", "prev_hash", "hash", "mac"]);
+    expect(Object.keys(rows[0])).toEqual([
+      "seq",
+      "at",
+      "actor_id",
+      "actor_name",
+      "action",
+      "entity_type",
+      "entity_id",
+      "study_id",
+      "before_json",
+      "after_json",
+      "detail",
+      "prev_hash",
+      "hash",
+      "mac",
+    ]);
     const db = testDb(stack);
     const stored = (await db.execute("SELECT seq, hash, mac FROM audit_events ORDER BY seq")).rows;
     const exported = rows.map((r) => Number(r.seq));
@@ -106,21 +131,40 @@ describe("audit trail export", () => {
     for (const r of rows) {
       expect(r.prev_hash).toBe(prev);
       const content = JSON.stringify({
-        action: r.action, actorId: cell(r.actor_id), actorName: r.actor_name, afterJson: cell(r.after_json), at: r.at, beforeJson: cell(r.before_json),
-        detail: cell(r.detail), entityId: cell(r.entity_id), entityType: r.entity_type, seq: Number(r.seq), studyId: cell(r.study_id),
+        action: r.action,
+        actorId: cell(r.actor_id),
+        actorName: r.actor_name,
+        afterJson: cell(r.after_json),
+        at: r.at,
+        beforeJson: cell(r.before_json),
+        detail: cell(r.detail),
+        entityId: cell(r.entity_id),
+        entityType: r.entity_type,
+        seq: Number(r.seq),
+        studyId: cell(r.study_id),
       });
       expect(createHash("sha256").update(`${prev}\n${content}`).digest("hex")).toBe(r.hash);
       expect(r.mac).toBe(stored.find((s) => Number(s.seq) === Number(r.seq))!.mac);
       prev = r.hash;
     }
-    const audit = (await db.execute("SELECT actor_name, after_json FROM audit_events WHERE action = 'audit.export' ORDER BY seq DESC LIMIT 1")).rows[0];
+    const audit = (
+      await db.execute(
+        "SELECT actor_name, after_json FROM audit_events WHERE action = 'audit.export' ORDER BY seq DESC LIMIT 1",
+      )
+    ).rows[0];
     expect(audit.actor_name).toBe("Morgan Reyes");
     const after = JSON.parse(String(audit.after_json));
-    expect(after).toMatchObject({ events: rows.length, lastSeq: exported.at(-1), sha256: res.headers.get("x-content-sha256") });
+    expect(after).toMatchObject({
+      events: rows.length,
+      lastSeq: exported.at(-1),
+      sha256: res.headers.get("x-content-sha256"),
+    });
   });
 
   it("honours the page's filters", async () => {
-    const res = await fetch(`${stack.appUrl}/admin/audit/export.csv?action=study.`, { headers: { Cookie: cookie } });
+    const res = await fetch(`${stack.appUrl}/admin/audit/export.csv?action=study.`, {
+      headers: { Cookie: cookie },
+    });
     const rows = parse(await res.text(), { columns: true }) as Record<string, string>[];
     expect(rows.length).toBeGreaterThan(0);
     expect(rows.every((r) => r.action.startsWith("study."))).toBe(true);

@@ -17,7 +17,14 @@ const PEOPLE = {
   sponsor_reader: "sam.quill@quillmoor.example",
 } as const;
 type Who = "anonymous" | keyof typeof PEOPLE;
-const WHO: Who[] = ["anonymous", "admin", "data_manager", "biostatistician", "medical_writer", "sponsor_reader"];
+const WHO: Who[] = [
+  "anonymous",
+  "admin",
+  "data_manager",
+  "biostatistician",
+  "medical_writer",
+  "sponsor_reader",
+];
 
 // 200 allowed, 403 forbidden, 404 not found, "in" = redirected to sign-in, "home" = redirected to /.
 // 401: the API's answer without a bearer token (session cookies never authenticate API requests).
@@ -27,49 +34,166 @@ const MATRIX: { file: string; path: string; expect: Outcome[]; resource?: true }
   { file: "home.tsx", path: "/", expect: ["in", 200, 200, 200, 200, 200] },
   { file: "study-overview.tsx", path: "/studies/:s", expect: ["in", 403, 200, 200, 200, 200] },
   { file: "study-datasets.tsx", path: "/studies/:s/datasets", expect: ["in", 403, 200, 200, 403, 403] },
-  { file: "study-datasets-upload.ts", path: "/studies/:s/datasets/upload", expect: ["in", 403, 200, 403, 403, 403], resource: true },
-  { file: "study-dataset-version.tsx", path: "/studies/:s/datasets/:v", expect: ["in", 403, 200, 200, 403, 403] },
-  { file: "study-dataset-rows.ts", path: "/studies/:s/datasets/:v/rows", expect: ["in", 403, 200, 200, 403, 403], resource: true },
+  {
+    file: "study-datasets-upload.ts",
+    path: "/studies/:s/datasets/upload",
+    expect: ["in", 403, 200, 403, 403, 403],
+    resource: true,
+  },
+  {
+    file: "study-dataset-version.tsx",
+    path: "/studies/:s/datasets/:v",
+    expect: ["in", 403, 200, 200, 403, 403],
+  },
+  {
+    file: "study-dataset-rows.ts",
+    path: "/studies/:s/datasets/:v/rows",
+    expect: ["in", 403, 200, 200, 403, 403],
+    resource: true,
+  },
   { file: "study-plans.tsx", path: "/studies/:s/plans", expect: ["in", 403, 403, 200, 200, 403] },
   { file: "study-reruns.tsx", path: "/studies/:s/reruns", expect: ["in", 403, 403, 200, 200, 403] },
-  { file: "study-plan-version.tsx", path: "/studies/:s/plans/no-such-version", expect: ["in", 403, 403, 404, 404, 403] },
-  { file: "study-planned-model.tsx", path: "/studies/:s/plans/no-such-version/models/new", expect: ["in", 403, 403, 404, 403, 403] },
-  { file: "study-rerun.tsx", path: "/studies/:s/reruns/no-such-rerun", expect: ["in", 403, 403, 404, 404, 403] },
-  { file: "study-rerun-figures.ts", path: "/studies/:s/reruns/no-such-rerun/figures/qq", expect: ["in", 403, 403, 404, 404, 403] },
+  {
+    file: "study-plan-version.tsx",
+    path: "/studies/:s/plans/no-such-version",
+    expect: ["in", 403, 403, 404, 404, 403],
+  },
+  {
+    file: "study-planned-model.tsx",
+    path: "/studies/:s/plans/no-such-version/models/new",
+    expect: ["in", 403, 403, 404, 403, 403],
+  },
+  {
+    file: "study-rerun.tsx",
+    path: "/studies/:s/reruns/no-such-rerun",
+    expect: ["in", 403, 403, 404, 404, 403],
+  },
+  {
+    file: "study-rerun-figures.ts",
+    path: "/studies/:s/reruns/no-such-rerun/figures/qq",
+    expect: ["in", 403, 403, 404, 404, 403],
+  },
   { file: "study-deviations.tsx", path: "/studies/:s/deviations", expect: ["in", 403, 403, 200, 200, 403] },
   { file: "study-appendix.tsx", path: "/studies/:s/appendix", expect: ["in", 403, 403, 403, 200, 403] },
-  { file: "study-appendix-download.ts", path: "/studies/:s/appendix/download?id=no-such-appendix", expect: ["in", 403, 403, 404, 404, 404], resource: true },
+  {
+    file: "study-appendix-download.ts",
+    path: "/studies/:s/appendix/download?id=no-such-appendix",
+    expect: ["in", 403, 403, 404, 404, 404],
+    resource: true,
+  },
   { file: "study-reports.tsx", path: "/studies/:s/reports", expect: ["in", 403, 403, 200, 200, 200] },
-  { file: "study-report.tsx", path: "/studies/:s/reports/no-such-rerun", expect: ["in", 403, 403, 404, 404, 404] },
+  {
+    file: "study-report.tsx",
+    path: "/studies/:s/reports/no-such-rerun",
+    expect: ["in", 403, 403, 404, 404, 404],
+  },
   { file: "study-layout.tsx", path: "/studies/no-such-study", expect: ["in", 404, 404, 404, 404, 404] },
   { file: "admin.studies.tsx", path: "/admin/studies", expect: ["in", 200, 403, 403, 403, 403] },
   { file: "admin.people.tsx", path: "/admin/people", expect: ["in", 200, 403, 403, 403, 403] },
   { file: "admin.audit.tsx", path: "/admin/audit", expect: ["in", 200, 403, 403, 403, 403] },
-  { file: "admin.audit-export.ts", path: "/admin/audit/export.csv", expect: ["in", 200, 403, 403, 403, 403], resource: true },
+  {
+    file: "admin.audit-export.ts",
+    path: "/admin/audit/export.csv",
+    expect: ["in", 200, 403, 403, 403, 403],
+    resource: true,
+  },
   { file: "admin.outbox.tsx", path: "/admin/outbox", expect: ["in", 200, 403, 403, 403, 403] },
   { file: "profile.tsx", path: "/profile", expect: ["in", 200, 200, 200, 200, 200] },
   { file: "admin.api-clients.tsx", path: "/admin/api-clients", expect: ["in", 200, 403, 403, 403, 403] },
   // The API: a browser session is no credential there, so every role's cookie gets 401 like anonymous.
-  { file: "api.v1.openapi.ts", path: "/api/v1/openapi.json", expect: [200, 200, 200, 200, 200, 200], resource: true },
-  { file: "api.v1.studies.ts", path: "/api/v1/studies", expect: [401, 401, 401, 401, 401, 401], resource: true },
-  { file: "api.v1.study.ts", path: "/api/v1/studies/:s", expect: [401, 401, 401, 401, 401, 401], resource: true },
-  { file: "api.v1.datasets.ts", path: "/api/v1/studies/:s/datasets", expect: [401, 401, 401, 401, 401, 401], resource: true },
-  { file: "api.v1.dataset-version.ts", path: "/api/v1/studies/:s/datasets/x/versions/:v", expect: [401, 401, 401, 401, 401, 401], resource: true },
-  { file: "api.v1.plan-versions.ts", path: "/api/v1/studies/:s/plan-versions", expect: [401, 401, 401, 401, 401, 401], resource: true },
-  { file: "api.v1.plan-version.ts", path: "/api/v1/studies/:s/plan-versions/x", expect: [401, 401, 401, 401, 401, 401], resource: true },
-  { file: "api.v1.reruns.ts", path: "/api/v1/studies/:s/reruns", expect: [401, 401, 401, 401, 401, 401], resource: true },
-  { file: "api.v1.rerun.ts", path: "/api/v1/studies/:s/reruns/x", expect: [401, 401, 401, 401, 401, 401], resource: true },
-  { file: "api.v1.deviations.ts", path: "/api/v1/studies/:s/deviations", expect: [401, 401, 401, 401, 401, 401], resource: true },
-  { file: "api.v1.appendices.ts", path: "/api/v1/studies/:s/appendices", expect: [401, 401, 401, 401, 401, 401], resource: true },
-  { file: "api.v1.appendix-file.ts", path: "/api/v1/studies/:s/appendices/x/file", expect: [401, 401, 401, 401, 401, 401], resource: true },
-  { file: "api.v1.not-found.ts", path: "/api/v1/no/such/endpoint", expect: [404, 404, 404, 404, 404, 404], resource: true },
+  {
+    file: "api.v1.openapi.ts",
+    path: "/api/v1/openapi.json",
+    expect: [200, 200, 200, 200, 200, 200],
+    resource: true,
+  },
+  {
+    file: "api.v1.studies.ts",
+    path: "/api/v1/studies",
+    expect: [401, 401, 401, 401, 401, 401],
+    resource: true,
+  },
+  {
+    file: "api.v1.study.ts",
+    path: "/api/v1/studies/:s",
+    expect: [401, 401, 401, 401, 401, 401],
+    resource: true,
+  },
+  {
+    file: "api.v1.datasets.ts",
+    path: "/api/v1/studies/:s/datasets",
+    expect: [401, 401, 401, 401, 401, 401],
+    resource: true,
+  },
+  {
+    file: "api.v1.dataset-version.ts",
+    path: "/api/v1/studies/:s/datasets/x/versions/:v",
+    expect: [401, 401, 401, 401, 401, 401],
+    resource: true,
+  },
+  {
+    file: "api.v1.plan-versions.ts",
+    path: "/api/v1/studies/:s/plan-versions",
+    expect: [401, 401, 401, 401, 401, 401],
+    resource: true,
+  },
+  {
+    file: "api.v1.plan-version.ts",
+    path: "/api/v1/studies/:s/plan-versions/x",
+    expect: [401, 401, 401, 401, 401, 401],
+    resource: true,
+  },
+  {
+    file: "api.v1.reruns.ts",
+    path: "/api/v1/studies/:s/reruns",
+    expect: [401, 401, 401, 401, 401, 401],
+    resource: true,
+  },
+  {
+    file: "api.v1.rerun.ts",
+    path: "/api/v1/studies/:s/reruns/x",
+    expect: [401, 401, 401, 401, 401, 401],
+    resource: true,
+  },
+  {
+    file: "api.v1.deviations.ts",
+    path: "/api/v1/studies/:s/deviations",
+    expect: [401, 401, 401, 401, 401, 401],
+    resource: true,
+  },
+  {
+    file: "api.v1.appendices.ts",
+    path: "/api/v1/studies/:s/appendices",
+    expect: [401, 401, 401, 401, 401, 401],
+    resource: true,
+  },
+  {
+    file: "api.v1.appendix-file.ts",
+    path: "/api/v1/studies/:s/appendices/x/file",
+    expect: [401, 401, 401, 401, 401, 401],
+    resource: true,
+  },
+  {
+    file: "api.v1.not-found.ts",
+    path: "/api/v1/no/such/endpoint",
+    expect: [404, 404, 404, 404, 404, 404],
+    resource: true,
+  },
   { file: "sign-in.tsx", path: "/sign-in", expect: [200, "home", "home", "home", "home", "home"] },
   { file: "healthz.ts", path: "/healthz", expect: [200, 200, 200, 200, 200, 200] },
   { file: "not-found.tsx", path: "/no/such/page", expect: [404, 404, 404, 404, 404, 404] },
 ];
 
 /** Routes that are not pages a role opens; each is tested on its own below or in tests/auth. */
-const COVERED_ELSEWHERE = ["shell.tsx", "auth.saml.login.ts", "auth.saml.acs.ts", "auth.saml.logout.ts", "auth.oidc.login.ts", "auth.oidc.callback.ts", "sign-out.ts"];
+const COVERED_ELSEWHERE = [
+  "shell.tsx",
+  "auth.saml.login.ts",
+  "auth.saml.acs.ts",
+  "auth.saml.logout.ts",
+  "auth.oidc.login.ts",
+  "auth.oidc.callback.ts",
+  "sign-out.ts",
+];
 
 const cookies = new Map<Who, string>();
 let studyId = "";
@@ -79,9 +203,11 @@ const pathOf = (p: string) => p.replace(":s", studyId).replace(":v", versionId);
 
 beforeAll(async () => {
   studyId = await studyIdByCode(stack, "QMT-301");
-  const adeff = "SELECT v.id FROM dataset_versions v JOIN datasets d ON d.id = v.dataset_id WHERE d.name = 'adeff' AND v.version = 1";
+  const adeff =
+    "SELECT v.id FROM dataset_versions v JOIN datasets d ON d.id = v.dataset_id WHERE d.name = 'adeff' AND v.version = 1";
   versionId = String((await testDb(stack).execute(adeff)).rows[0]?.id ?? "");
-  for (const [who, email] of Object.entries(PEOPLE)) cookies.set(who as Who, await sessionCookieFor(stack, email));
+  for (const [who, email] of Object.entries(PEOPLE))
+    cookies.set(who as Who, await sessionCookieFor(stack, email));
 });
 
 async function get(path: string, who: Who, data = false): Promise<Response> {
@@ -100,7 +226,11 @@ function outcomeOf(res: Response, data: boolean, body = ""): Outcome {
   }
   if (res.status === 302 || res.status === 303) {
     const location = new URL(res.headers.get("Location") ?? "", stack.appUrl);
-    return location.pathname === "/sign-in" ? "in" : location.pathname === "/" ? "home" : (location.pathname as never);
+    return location.pathname === "/sign-in"
+      ? "in"
+      : location.pathname === "/"
+        ? "home"
+        : (location.pathname as never);
   }
   return res.status as Outcome;
 }
@@ -129,8 +259,11 @@ describe("every page route answers each role as DESIGN.md says", () => {
       for (const [i, who] of WHO.entries()) {
         const res = await get(pathOf(row.path), who, true);
         const body = await res.text();
-        expect(`${row.path} ${who} ${outcomeOf(res, true, body)}`).toBe(`${row.path} ${who} ${row.expect[i]}`);
-        if (row.expect[i] === "in") expect(body).toContain(`returnTo=${encodeURIComponent(pathOf(row.path))}"`);
+        expect(`${row.path} ${who} ${outcomeOf(res, true, body)}`).toBe(
+          `${row.path} ${who} ${row.expect[i]}`,
+        );
+        if (row.expect[i] === "in")
+          expect(body).toContain(`returnTo=${encodeURIComponent(pathOf(row.path))}"`);
       }
     }
   });
@@ -141,7 +274,11 @@ describe("mutations are refused to everyone but the role that may make them", ()
     fetch(`${stack.appUrl}${path}`, {
       method: "POST",
       redirect: "manual",
-      headers: { Cookie: cookies.get(who) ?? "", Origin: origin, "Content-Type": "application/x-www-form-urlencoded" },
+      headers: {
+        Cookie: cookies.get(who) ?? "",
+        Origin: origin,
+        "Content-Type": "application/x-www-form-urlencoded",
+      },
       body: new URLSearchParams(body),
     });
 
@@ -164,21 +301,36 @@ describe("mutations are refused to everyone but the role that may make them", ()
   it("a form posted from another site is refused (CSRF) and changes nothing", async () => {
     // The framework refuses cross-origin actions itself (400); our middleware refuses any
     // other state-changing request from another site (403). Either way nothing is stored.
-    const res = await post("/admin/studies", "admin", { code: "EVIL-1", title: "Cross-site", sponsor: "y" }, "http://evil.example");
+    const res = await post(
+      "/admin/studies",
+      "admin",
+      { code: "EVIL-1", title: "Cross-site", sponsor: "y" },
+      "http://evil.example",
+    );
     expect([400, 403]).toContain(res.status);
     const rs = await testDb(stack).execute("SELECT count(*) AS n FROM studies WHERE code = 'EVIL-1'");
     expect(rs.rows[0].n).toBe(0);
     const viaData = await fetch(`${stack.appUrl}/admin/studies.data`, {
       method: "POST",
-      headers: { Cookie: cookies.get("admin") ?? "", Origin: "http://evil.example", "Content-Type": "application/x-www-form-urlencoded" },
+      headers: {
+        Cookie: cookies.get("admin") ?? "",
+        Origin: "http://evil.example",
+        "Content-Type": "application/x-www-form-urlencoded",
+      },
       body: new URLSearchParams({ code: "EVIL-2", title: "Cross-site", sponsor: "y" }),
     });
     expect([400, 403]).toContain(viaData.status);
-    expect((await testDb(stack).execute("SELECT count(*) AS n FROM studies WHERE code LIKE 'EVIL-%'")).rows[0].n).toBe(0);
+    expect(
+      (await testDb(stack).execute("SELECT count(*) AS n FROM studies WHERE code LIKE 'EVIL-%'")).rows[0].n,
+    ).toBe(0);
   });
 
   it("a body over the limit is refused with 413", async () => {
-    const res = await post("/admin/studies", "admin", { code: "BIG", title: "x".repeat(1_100_000), sponsor: "y" });
+    const res = await post("/admin/studies", "admin", {
+      code: "BIG",
+      title: "x".repeat(1_100_000),
+      sponsor: "y",
+    });
     expect(res.status).toBe(413);
   });
 });

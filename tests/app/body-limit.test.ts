@@ -23,7 +23,13 @@ function postChunked(path: string, total: number): Promise<Answer> {
   return new Promise((resolve, reject) => {
     let sent = 0;
     let answered = false;
-    const req = http.request({ host: url.hostname, port: url.port, path: url.pathname, method: "POST", headers: { "Content-Type": "application/x-www-form-urlencoded", Origin: stack.appUrl } });
+    const req = http.request({
+      host: url.hostname,
+      port: url.port,
+      path: url.pathname,
+      method: "POST",
+      headers: { "Content-Type": "application/x-www-form-urlencoded", Origin: stack.appUrl },
+    });
     req.on("response", (res) => {
       answered = true;
       const sentWhenAnswered = sent;
@@ -65,17 +71,31 @@ describe("a body sent without a Content-Length", () => {
     const url = new URL("/auth/saml/acs", stack.appUrl);
     // Two writes and no Content-Length: Node sends it chunked.
     const viaChunks = await new Promise<{ status: number; body: string }>((resolve, reject) => {
-      const req = http.request({ host: url.hostname, port: url.port, path: url.pathname, method: "POST", headers: { "Content-Type": "application/x-www-form-urlencoded" } }, (res) => {
-        let body = "";
-        res.setEncoding("utf8");
-        res.on("data", (d: string) => (body += d));
-        res.on("end", () => resolve({ status: res.statusCode ?? 0, body }));
-      });
+      const req = http.request(
+        {
+          host: url.hostname,
+          port: url.port,
+          path: url.pathname,
+          method: "POST",
+          headers: { "Content-Type": "application/x-www-form-urlencoded" },
+        },
+        (res) => {
+          let body = "";
+          res.setEncoding("utf8");
+          res.on("data", (d: string) => (body += d));
+          res.on("end", () => resolve({ status: res.statusCode ?? 0, body }));
+        },
+      );
       req.on("error", reject);
       req.write(form.slice(0, 500));
       req.end(form.slice(500));
     });
-    const viaLength = await fetch(url, { method: "POST", redirect: "manual", headers: { "Content-Type": "application/x-www-form-urlencoded" }, body: form });
+    const viaLength = await fetch(url, {
+      method: "POST",
+      redirect: "manual",
+      headers: { "Content-Type": "application/x-www-form-urlencoded" },
+      body: form,
+    });
     expect(viaChunks.status).not.toBe(413);
     expect(viaChunks.status).toBe(viaLength.status);
     expect(viaChunks.body).toBe(await viaLength.text());

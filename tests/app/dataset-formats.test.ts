@@ -24,36 +24,68 @@ beforeAll(async () => {
 const base = () => `${stack.appUrl}/studies/${studyId}/datasets`;
 type Result = { ok: true; versionId: string; version: number } | { ok: false; problems: string[] };
 
-async function upload(fileName: string, content: Buffer | string, fields: Record<string, string>): Promise<{ status: number; result: Result }> {
+async function upload(
+  fileName: string,
+  content: Buffer | string,
+  fields: Record<string, string>,
+): Promise<{ status: number; result: Result }> {
   const form = new FormData();
   for (const [k, v] of Object.entries(fields)) form.append(k, v);
   form.append("file", new File([typeof content === "string" ? content : new Uint8Array(content)], fileName));
-  const res = await fetch(`${base()}/upload`, { method: "POST", body: form, headers: { Cookie: cookie, Origin: stack.appUrl, Accept: "application/x-ndjson" } });
+  const res = await fetch(`${base()}/upload`, {
+    method: "POST",
+    body: form,
+    headers: { Cookie: cookie, Origin: stack.appUrl, Accept: "application/x-ndjson" },
+  });
   const text = await res.text();
   const last = JSON.parse(text.trim().split("\n").pop() as string) as { result: Result };
   return { status: res.status, result: last.result };
 }
-const rows = async (sql: string, args: (string | number)[] = []) => (await testDb(stack).execute({ sql, args })).rows;
+const rows = async (sql: string, args: (string | number)[] = []) =>
+  (await testDb(stack).execute({ sql, args })).rows;
 const tmpFiles = () => {
   const tmp = path.join(stack.dataDir, "datasets", "tmp");
   return existsSync(tmp) ? readdirSync(tmp) : [];
 };
 const lastRefusal = async (fileName: string) =>
-  (await rows("SELECT detail, after_json FROM audit_events WHERE action = 'dataset.upload_refused' AND after_json LIKE ? ORDER BY seq DESC LIMIT 1", [`%${fileName}%`]))[0];
+  (
+    await rows(
+      "SELECT detail, after_json FROM audit_events WHERE action = 'dataset.upload_refused' AND after_json LIKE ? ORDER BY seq DESC LIMIT 1",
+      [`%${fileName}%`],
+    )
+  )[0];
 
 describe("formats through the web upload", () => {
   it("stores CDISC's adsl.xpt with its labels, ISO dates and key, and shows the labels on the version page", async () => {
-    const { result } = await upload("adsl.xpt", readFileSync(path.join(CDISC, "adsl.xpt")), { datasetName: "adslxpt", keyColumns: "" });
+    const { result } = await upload("adsl.xpt", readFileSync(path.join(CDISC, "adsl.xpt")), {
+      datasetName: "adslxpt",
+      keyColumns: "",
+    });
     expect(result.ok, JSON.stringify(result)).toBe(true);
     if (!result.ok) return;
-    const [v] = await rows("SELECT format, row_count, key_columns_json, columns_json, dataset_label FROM dataset_versions WHERE id = ?", [result.versionId]);
+    const [v] = await rows(
+      "SELECT format, row_count, key_columns_json, columns_json, dataset_label FROM dataset_versions WHERE id = ?",
+      [result.versionId],
+    );
     expect(v.format).toBe("xpt");
     // The dataset label as R's haven::read_xpt reads it (tests/fixtures/cdisc/xpt-reference/adsl.json).
     expect(v.dataset_label).toBe("Subject-Level Analysis Dataset");
     expect(v.row_count).toBe(254);
     expect(JSON.parse(String(v.key_columns_json))).toEqual(["USUBJID"]);
-    const columns = JSON.parse(String(v.columns_json)) as { name: string; label: string; type: string; format?: string; declaredType?: string }[];
-    expect(columns.find((c) => c.name === "TRTSDT")).toMatchObject({ label: "Date of First Exposure to Treatment", type: "date", format: "DATE9.", declaredType: "Num", earliest: "2012-07-09" });
+    const columns = JSON.parse(String(v.columns_json)) as {
+      name: string;
+      label: string;
+      type: string;
+      format?: string;
+      declaredType?: string;
+    }[];
+    expect(columns.find((c) => c.name === "TRTSDT")).toMatchObject({
+      label: "Date of First Exposure to Treatment",
+      type: "date",
+      format: "DATE9.",
+      declaredType: "Num",
+      earliest: "2012-07-09",
+    });
     const page = await fetch(`${base()}/${result.versionId}`, { headers: { Cookie: cookie } });
     const html = await page.text();
     expect(html).toContain("Unique Subject Identifier");
@@ -62,7 +94,11 @@ describe("formats through the web upload", () => {
   });
 
   it("keeps the key dm.json declares (STUDYID, USUBJID) when the key field is left empty", async () => {
-    const { result } = await upload("dm.json", readFileSync(path.join(CDISC, "dm.json")), { datasetName: "dmjson", keyColumns: "", numericColumns: "" });
+    const { result } = await upload("dm.json", readFileSync(path.join(CDISC, "dm.json")), {
+      datasetName: "dmjson",
+      keyColumns: "",
+      numericColumns: "",
+    });
     expect(result.ok, JSON.stringify(result)).toBe(true);
     if (!result.ok) return;
     const [v] = await rows("SELECT key_columns_json FROM dataset_versions WHERE id = ?", [result.versionId]);
@@ -75,14 +111,20 @@ describe("formats through the web upload", () => {
     const { result } = await upload("notes.csv", lines.join("\n") + "\n", { datasetName: "adnotes" });
     expect(result.ok, JSON.stringify(result)).toBe(true);
     if (!result.ok) return;
-    const html = (await (await fetch(`${base()}/${result.versionId}`, { headers: { Cookie: cookie } })).text()).replaceAll("<!-- -->", "");
+    const html = (
+      await (await fetch(`${base()}/${result.versionId}`, { headers: { Cookie: cookie } })).text()
+    ).replaceAll("<!-- -->", "");
     expect(html).toContain("Reading notes");
-    expect(html).toContain("notes.csv: column &quot;crp&quot; is mostly numbers, but 1 cell holds text, so it was read as text: row 12 &quot;ND&quot;.");
+    expect(html).toContain(
+      "notes.csv: column &quot;crp&quot; is mostly numbers, but 1 cell holds text, so it was read as text: row 12 &quot;ND&quot;.",
+    );
     expect(html).toContain("Decimal commas read as decimal points: aval.");
   });
 
   it("reads the NDJSON form of Dataset-JSON v1.1", async () => {
-    const { result } = await upload("adsl.ndjson", readFileSync(path.join(CDISC, "adsl.ndjson")), { datasetName: "adslnd" });
+    const { result } = await upload("adsl.ndjson", readFileSync(path.join(CDISC, "adsl.ndjson")), {
+      datasetName: "adslnd",
+    });
     expect(result.ok, JSON.stringify(result)).toBe(true);
   });
 });
@@ -103,7 +145,10 @@ describe("hostile files through the web upload", () => {
     const deep = '{"rows":' + "[".repeat(100_000) + "]".repeat(100_000) + "}";
     const { status, result } = await upload("deep.json", deep, { datasetName: "addeep" });
     expect(status).toBe(200);
-    expect(result).toEqual({ ok: false, problems: [expect.stringMatching(/^deep\.json nests arrays or objects more than 32 levels deep/)] });
+    expect(result).toEqual({
+      ok: false,
+      problems: [expect.stringMatching(/^deep\.json nests arrays or objects more than 32 levels deep/)],
+    });
     const audit = await lastRefusal("deep.json");
     expect(String(audit.detail)).toMatch(/more than 32 levels deep/);
     expect(tmpFiles()).toEqual([]);
@@ -115,7 +160,14 @@ describe("hostile files through the web upload", () => {
     const started = performance.now();
     const { result } = await upload("wide.csv", text, { datasetName: "adwide" });
     expect(performance.now() - started).toBeLessThan(10_000);
-    expect(result).toEqual({ ok: false, problems: [expect.stringMatching(/^wide\.csv: the header line is longer than 1,048,576 bytes, the limit\..*DATASET_MAX_HEADER_BYTES\.$/)] });
+    expect(result).toEqual({
+      ok: false,
+      problems: [
+        expect.stringMatching(
+          /^wide\.csv: the header line is longer than 1,048,576 bytes, the limit\..*DATASET_MAX_HEADER_BYTES\.$/,
+        ),
+      ],
+    });
     expect(await rows("SELECT id FROM datasets WHERE name = 'adwide'")).toHaveLength(0);
     expect(tmpFiles()).toEqual([]);
     // The server is still answering.
@@ -128,7 +180,10 @@ describe("hostile files through the web upload", () => {
   });
 
   it("reading a column by its values needs a reason, and the reason is in the audit trail", async () => {
-    const doc = JSON.parse(readFileSync(path.join(CDISC, "dm.json"), "utf8")) as { columns: { name: string; dataType: string }[]; rows: unknown[][] };
+    const doc = JSON.parse(readFileSync(path.join(CDISC, "dm.json"), "utf8")) as {
+      columns: { name: string; dataType: string }[];
+      rows: unknown[][];
+    };
     const age = doc.columns.findIndex((c) => c.name === "AGE");
     doc.rows[2][age] = 71.5;
     doc.rows[5][age] = 64.25;
@@ -142,12 +197,21 @@ describe("hostile files through the web upload", () => {
     }
     const noReason = await upload("dm-ages.json", bytes, { datasetName: "dmages", readByValues: "AGE" });
     expect(noReason.status).toBe(400);
-    expect(noReason.result.ok ? "" : noReason.result.problems[0]).toMatch(/Say why the columns named under "Read by their values"/);
+    expect(noReason.result.ok ? "" : noReason.result.problems[0]).toMatch(
+      /Say why the columns named under "Read by their values"/,
+    );
     const reason = "Ages at consent were derived to the day; the sponsor's export declared them integer.";
-    const ok = await upload("dm-ages.json", bytes, { datasetName: "dmages", readByValues: "AGE", readByValuesReason: reason });
+    const ok = await upload("dm-ages.json", bytes, {
+      datasetName: "dmages",
+      readByValues: "AGE",
+      readByValuesReason: reason,
+    });
     expect(ok.result.ok, JSON.stringify(ok.result)).toBe(true);
     if (!ok.result.ok) return;
-    const [event] = await rows("SELECT after_json FROM audit_events WHERE action = 'dataset.upload' AND entity_id = ?", [ok.result.versionId]);
+    const [event] = await rows(
+      "SELECT after_json FROM audit_events WHERE action = 'dataset.upload' AND entity_id = ?",
+      [ok.result.versionId],
+    );
     expect(JSON.parse(String(event.after_json)).readByValues).toEqual({ columns: ["AGE"], reason });
   });
 });

@@ -23,21 +23,38 @@ let versionId = "";
 
 beforeAll(async () => {
   studyId = await studyIdByCode(stack, "QMT-301");
-  const rs = await testDb(stack).execute("SELECT v.id FROM dataset_versions v JOIN datasets d ON d.id = v.dataset_id WHERE d.name = 'adeff' AND v.version = 1");
+  const rs = await testDb(stack).execute(
+    "SELECT v.id FROM dataset_versions v JOIN datasets d ON d.id = v.dataset_id WHERE d.name = 'adeff' AND v.version = 1",
+  );
   versionId = String(rs.rows[0].id);
-  for (const [role, email] of Object.entries(EMAIL)) cookie[role as Role] = await sessionCookieFor(stack, email);
+  for (const [role, email] of Object.entries(EMAIL))
+    cookie[role as Role] = await sessionCookieFor(stack, email);
 });
 
 const base = () => `${stack.appUrl}/studies/${studyId}/datasets`;
-const get = (url: string, role: Role) => fetch(url, { headers: { Cookie: cookie[role] ?? "" }, redirect: "manual" });
+const get = (url: string, role: Role) =>
+  fetch(url, { headers: { Cookie: cookie[role] ?? "" }, redirect: "manual" });
 const upload = (role: Role, name: string, content: string, fileName = "adx.csv") => {
   const form = new FormData();
   form.append("datasetName", name);
   form.append("file", new File([content], fileName, { type: "text/csv" }));
-  return fetch(`${base()}/upload`, { method: "POST", body: form, headers: { Cookie: cookie[role] ?? "", Origin: stack.appUrl, Accept: "application/x-ndjson" } });
+  return fetch(`${base()}/upload`, {
+    method: "POST",
+    body: form,
+    headers: { Cookie: cookie[role] ?? "", Origin: stack.appUrl, Accept: "application/x-ndjson" },
+  });
 };
 const post = (url: string, role: Role, body: Record<string, string>) =>
-  fetch(url, { method: "POST", redirect: "manual", headers: { Cookie: cookie[role] ?? "", Origin: stack.appUrl, "Content-Type": "application/x-www-form-urlencoded" }, body: new URLSearchParams(body) });
+  fetch(url, {
+    method: "POST",
+    redirect: "manual",
+    headers: {
+      Cookie: cookie[role] ?? "",
+      Origin: stack.appUrl,
+      "Content-Type": "application/x-www-form-urlencoded",
+    },
+    body: new URLSearchParams(body),
+  });
 const count = async (sql: string) => Number((await testDb(stack).execute(sql)).rows[0].n);
 const tmpFiles = () => {
   const tmp = path.join(stack.dataDir, "datasets", "tmp");
@@ -78,13 +95,25 @@ describe("only data managers upload, screen and lock", () => {
   });
 
   it("refuses screen decisions and locks from a biostatistician", async () => {
-    const hit = (await testDb(stack).execute({ sql: "SELECT id FROM identifier_screen_hits WHERE dataset_version_id = ?", args: [versionId] })).rows[0].id as string;
-    const decide = await post(`${base()}/${versionId}`, "biostatistician", { intent: "not_identifier", hitId: hit, rationale: "a pseudonymous code" });
+    const hit = (
+      await testDb(stack).execute({
+        sql: "SELECT id FROM identifier_screen_hits WHERE dataset_version_id = ?",
+        args: [versionId],
+      })
+    ).rows[0].id as string;
+    const decide = await post(`${base()}/${versionId}`, "biostatistician", {
+      intent: "not_identifier",
+      hitId: hit,
+      rationale: "a pseudonymous code",
+    });
     expect(decide.status).toBe(403);
     const lock = await post(`${base()}/${versionId}`, "biostatistician", { intent: "lock" });
     expect(lock.status).toBe(403);
     expect(await lock.text()).toMatch(/To lock a dataset version you need the data manager role/);
-    const purge = await post(`${base()}/${versionId}`, "biostatistician", { intent: "purge", confirm: "yes" });
+    const purge = await post(`${base()}/${versionId}`, "biostatistician", {
+      intent: "purge",
+      confirm: "yes",
+    });
     expect(purge.status).toBe(403);
     expect(await purge.text()).toMatch(/To purge superseded dataset versions you need the data manager role/);
   });
@@ -97,7 +126,17 @@ describe("uploading over HTTP", () => {
     const res = await upload("data_manager", "adhttp", lines.join("\n") + "\n");
     expect(res.status).toBe(200);
     expect(res.headers.get("Content-Type")).toContain("application/x-ndjson");
-    const events = (await res.text()).trim().split("\n").map((l) => JSON.parse(l) as { type: string; phase?: string; result?: { ok: boolean; version: number; versionId: string } });
+    const events = (await res.text())
+      .trim()
+      .split("\n")
+      .map(
+        (l) =>
+          JSON.parse(l) as {
+            type: string;
+            phase?: string;
+            result?: { ok: boolean; version: number; versionId: string };
+          },
+      );
     expect(events.some((e) => e.type === "progress" && e.phase === "parse")).toBe(true);
     const last = events[events.length - 1];
     expect(last.type).toBe("result");
@@ -108,7 +147,10 @@ describe("uploading over HTTP", () => {
     expect(html).toContain("adhttp · version 1");
     expect(html).toContain("Unique identifying number or code");
     // The flagged subject code reaches the preview masked, and sorting by it is not offered.
-    const rows = await get(`${base()}/${last.result?.versionId}/rows?offset=0&limit=3&sort=usubjid&desc=1`, "data_manager");
+    const rows = await get(
+      `${base()}/${last.result?.versionId}/rows?offset=0&limit=3&sort=usubjid&desc=1`,
+      "data_manager",
+    );
     const w = (await rows.json()) as { masked: string[]; rows: string[][] };
     expect(w.masked).toEqual(["usubjid"]);
     expect(w.rows.map((r) => r[0])).toEqual(["S-#", "S-#", "S-#"]);
@@ -116,9 +158,14 @@ describe("uploading over HTTP", () => {
 
   it("shows a numeric-coded site group as looking categorical on the version page", async () => {
     const lines = ["usubjid,sitegr1,base"];
-    for (let i = 1; i <= 40; i++) lines.push(`01-${[701, 703, 704, 708][i % 4]}-${1000 + i},${[701, 703, 704, 708][i % 4]},${(40 + i * 0.7).toFixed(1)}`);
+    for (let i = 1; i <= 40; i++)
+      lines.push(
+        `01-${[701, 703, 704, 708][i % 4]}-${1000 + i},${[701, 703, 704, 708][i % 4]},${(40 + i * 0.7).toFixed(1)}`,
+      );
     const res = await upload("data_manager", "adsite", lines.join("\n") + "\n");
-    const last = JSON.parse((await res.text()).trim().split("\n").pop() as string) as { result: { ok: boolean; versionId: string } };
+    const last = JSON.parse((await res.text()).trim().split("\n").pop() as string) as {
+      result: { ok: boolean; versionId: string };
+    };
     expect(last.result.ok).toBe(true);
     const html = await (await get(`${base()}/${last.result.versionId}`, "data_manager")).text();
     expect(html).toContain("Looks categorical: <!-- -->4 distinct whole-number values");
@@ -126,13 +173,28 @@ describe("uploading over HTTP", () => {
   });
 
   it("refuses a ragged file with its message, storing no dataset, version or file", async () => {
-    const before = [await count("SELECT count(*) AS n FROM datasets"), await count("SELECT count(*) AS n FROM dataset_versions")];
+    const before = [
+      await count("SELECT count(*) AS n FROM datasets"),
+      await count("SELECT count(*) AS n FROM dataset_versions"),
+    ];
     const res = await upload("data_manager", "adbad", "usubjid,age\nS1,40\nS2\n", "adbad.csv");
-    const last = JSON.parse((await res.text()).trim().split("\n").pop() as string) as { result: { ok: boolean; problems: string[] } };
-    expect(last.result).toEqual({ ok: false, problems: ["adbad.csv: row 2 has 1 field where the header has 2 columns. Check its quotes and separators."] });
-    expect([await count("SELECT count(*) AS n FROM datasets"), await count("SELECT count(*) AS n FROM dataset_versions")]).toEqual(before);
+    const last = JSON.parse((await res.text()).trim().split("\n").pop() as string) as {
+      result: { ok: boolean; problems: string[] };
+    };
+    expect(last.result).toEqual({
+      ok: false,
+      problems: [
+        "adbad.csv: row 2 has 1 field where the header has 2 columns. Check its quotes and separators.",
+      ],
+    });
+    expect([
+      await count("SELECT count(*) AS n FROM datasets"),
+      await count("SELECT count(*) AS n FROM dataset_versions"),
+    ]).toEqual(before);
     expect(tmpFiles()).toEqual([]);
-    expect(await count("SELECT count(*) AS n FROM audit_events WHERE action = 'dataset.upload_refused'")).toBeGreaterThan(0);
+    expect(
+      await count("SELECT count(*) AS n FROM audit_events WHERE action = 'dataset.upload_refused'"),
+    ).toBeGreaterThan(0);
   });
 
   it("leaves nothing behind when the connection is cut half-way through the file", async () => {
@@ -146,7 +208,12 @@ describe("uploading over HTTP", () => {
         port: url.port,
         path: url.pathname,
         method: "POST",
-        headers: { Cookie: cookie.data_manager, Origin: stack.appUrl, "Content-Type": `multipart/form-data; boundary=${boundary}`, "Content-Length": String(10_000_000) },
+        headers: {
+          Cookie: cookie.data_manager,
+          Origin: stack.appUrl,
+          "Content-Type": `multipart/form-data; boundary=${boundary}`,
+          "Content-Length": String(10_000_000),
+        },
       });
       req.on("error", () => resolve());
       req.write(head);

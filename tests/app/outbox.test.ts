@@ -22,9 +22,20 @@ describe("administrator's e-mail outbox", () => {
       [
         {
           sql: "INSERT INTO mail_outbox (id, recipient, subject, text_body, html_body, kind, study_id, link_path) VALUES (?, ?, ?, ?, ?, 'plan_awaits_approval', ?, ?)",
-          args: [id, "tomas.berg@plumbline.example", subject, text, `<p>${text}</p>`, studyId, `/studies/${studyId}`],
+          args: [
+            id,
+            "tomas.berg@plumbline.example",
+            subject,
+            text,
+            `<p>${text}</p>`,
+            studyId,
+            `/studies/${studyId}`,
+          ],
         },
-        { sql: "INSERT INTO jobs (id, kind, payload_json) VALUES (?, 'mail.send', ?)", args: [randomUUID(), JSON.stringify({ outboxId: id })] },
+        {
+          sql: "INSERT INTO jobs (id, kind, payload_json) VALUES (?, 'mail.send', ?)",
+          args: [randomUUID(), JSON.stringify({ outboxId: id })],
+        },
       ],
       "write",
     );
@@ -33,13 +44,17 @@ describe("administrator's e-mail outbox", () => {
     expect(got.envelopeTo).toEqual(["tomas.berg@plumbline.example"]);
     expect(got.text).toContain(`${stack.appUrl}/studies/${studyId}`);
 
-    const res = await fetch(`${stack.appUrl}/admin/outbox`, { headers: { Cookie: await sessionCookieFor(stack, "morgan.reyes@plumbline.example") } });
+    const res = await fetch(`${stack.appUrl}/admin/outbox`, {
+      headers: { Cookie: await sessionCookieFor(stack, "morgan.reyes@plumbline.example") },
+    });
     expect(res.status).toBe(200);
     const html = await res.text();
     expect(html).toContain("Received by the local SMTP fake");
     // Once in the outbox table, once in the fake's list.
     expect(html.split(subject).length - 1).toBeGreaterThanOrEqual(2);
-    const row = (await db.execute({ sql: "SELECT status, attempts FROM mail_outbox WHERE id = ?", args: [id] })).rows[0];
+    const row = (
+      await db.execute({ sql: "SELECT status, attempts FROM mail_outbox WHERE id = ?", args: [id] })
+    ).rows[0];
     expect(row).toMatchObject({ status: "sent", attempts: 1 });
   });
 });

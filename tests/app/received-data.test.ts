@@ -45,10 +45,32 @@ const token: Partial<Record<Who, string>> = {};
 
 function primaryForm(): FormData {
   const f = new FormData();
-  const fields = { key: "primary", title: "Primary efficacy: change from baseline at week 12", datasetName: "adeff", populationColumn: "fasfl", populationValue: "Y", response: "chg", family: "gaussian", treatment: "arm", treatmentReference: "Placebo", id: "subjid" };
+  const fields = {
+    key: "primary",
+    title: "Primary efficacy: change from baseline at week 12",
+    datasetName: "adeff",
+    populationColumn: "fasfl",
+    populationValue: "Y",
+    response: "chg",
+    family: "gaussian",
+    treatment: "arm",
+    treatmentReference: "Placebo",
+    id: "subjid",
+  };
   for (const [k, v] of Object.entries(fields)) f.set(k, v);
   for (const c of ["base", "stratum", "region", "sex", "age"]) f.append("covariate", c);
-  for (const c of ["cooks_distance", "leverage", "deletion_residual", "dfbetas_treatment", "dffits", "shapiro_wilk", "breusch_pagan", "brown_forsythe", "gvif"]) f.set(`check:${c}:enabled`, "on");
+  for (const c of [
+    "cooks_distance",
+    "leverage",
+    "deletion_residual",
+    "dfbetas_treatment",
+    "dffits",
+    "shapiro_wilk",
+    "breusch_pagan",
+    "brown_forsythe",
+    "gvif",
+  ])
+    f.set(`check:${c}:enabled`, "on");
   f.set("sensitivity:robust_hc3", "on");
   return f;
 }
@@ -72,26 +94,61 @@ beforeAll(async () => {
     const [p] = await db.select().from(t.people).where(eq(t.people.email, email));
     return { id: p.id, name: p.displayName, organisation: p.organisation };
   };
-  const who = Object.fromEntries(await Promise.all(Object.entries(EMAIL).map(async ([k, e]) => [k, await person(e)]))) as Record<Who, { id: string; name: string; organisation: string | null }>;
-  const created = await createStudy(who.admin, { code: "PRV-301", title: "Study read by every role", sponsor: "Quillmoor Therapeutics", compound: null, indication: null, phase: "3" });
+  const who = Object.fromEntries(
+    await Promise.all(Object.entries(EMAIL).map(async ([k, e]) => [k, await person(e)])),
+  ) as Record<Who, { id: string; name: string; organisation: string | null }>;
+  const created = await createStudy(who.admin, {
+    code: "PRV-301",
+    title: "Study read by every role",
+    sponsor: "Quillmoor Therapeutics",
+    compound: null,
+    indication: null,
+    phase: "3",
+  });
   if (!created.ok) throw new Error(JSON.stringify(created.fieldErrors));
   studyId = created.study.id;
-  const roles = { data_manager: "data_manager", biostatistician: "biostatistician", second_biostatistician: "biostatistician", medical_writer: "medical_writer", sponsor_reader: "sponsor_reader" } as const;
-  for (const [k, role] of Object.entries(roles)) await setStudyRole(who.admin, studyId, who[k as Who].id, role);
-  await db.insert(t.studyShares).values({ id: crypto.randomUUID(), studyId, organisation: who.sponsor_reader.organisation ?? "" });
+  const roles = {
+    data_manager: "data_manager",
+    biostatistician: "biostatistician",
+    second_biostatistician: "biostatistician",
+    medical_writer: "medical_writer",
+    sponsor_reader: "sponsor_reader",
+  } as const;
+  for (const [k, role] of Object.entries(roles))
+    await setStudyRole(who.admin, studyId, who[k as Who].id, role);
+  await db
+    .insert(t.studyShares)
+    .values({ id: crypto.randomUUID(), studyId, organisation: who.sponsor_reader.organisation ?? "" });
   datasetVersionId = (await seedDemoDataset(studyId)).versionId;
   const locked = await listLockedVersions(studyId);
   const { table } = await loadLockedTable(datasetVersionId);
-  subjectIds = [...new Set(table.columns.subjid ?? [])].filter((s) => s.length > 0).sort((a, b) => b.length - a.length);
+  subjectIds = [...new Set(table.columns.subjid ?? [])]
+    .filter((s) => s.length > 0)
+    .sort((a, b) => b.length - a.length);
   if (subjectIds.length < 100) throw new Error("The demo dataset has no subject id column (subjid).");
 
   const priya = who.biostatistician;
-  planVersionId = (await plans.createPlan(priya, studyId, { title: "Efficacy models", sapName: "Statistical analysis plan", sapVersion: "2.0", sapDate: "2026-10-01" })).versionId;
-  const v = validatePlannedModel(readPlannedModelForm(primaryForm()), locked.map((x) => ({ name: x.datasetName, columns: x.columns })), []);
+  planVersionId = (
+    await plans.createPlan(priya, studyId, {
+      title: "Efficacy models",
+      sapName: "Statistical analysis plan",
+      sapVersion: "2.0",
+      sapDate: "2026-10-01",
+    })
+  ).versionId;
+  const v = validatePlannedModel(
+    readPlannedModelForm(primaryForm()),
+    locked.map((x) => ({ name: x.datasetName, columns: x.columns })),
+    [],
+  );
   if (!v.ok) throw new Error(JSON.stringify(v.errors));
   plannedModelId = await plans.savePlannedModel(priya, studyId, planVersionId, 1, null, v.model);
   await plans.submitForApproval(priya, studyId, planVersionId, 2);
-  await plans.approvePlanVersion({ ...who.second_biostatistician, signedInAt: new Date().toISOString() }, studyId, planVersionId);
+  await plans.approvePlanVersion(
+    { ...who.second_biostatistician, signedInAt: new Date().toISOString() },
+    studyId,
+    planVersionId,
+  );
 
   const finish = async (id: string) => {
     for (let i = 0; i < 600; i++) {
@@ -102,25 +159,58 @@ beforeAll(async () => {
     }
     throw new Error(`rerun ${id} did not finish`);
   };
-  signedRerunId = await reruns.startRerun(priya, studyId, { plannedModelId, datasetVersionId, options: { variant: "planned" } });
+  signedRerunId = await reruns.startRerun(priya, studyId, {
+    plannedModelId,
+    datasetVersionId,
+    options: { variant: "planned" },
+  });
   const primary = await finish(signedRerunId);
   const cooks = primary.doc!.checks.find((c) => c.key === "cooks_distance")!;
   const named = cooks.flagged?.[0]?.id ?? "";
   const other = subjectIds.find((s) => s !== named) ?? "";
   // What a biostatistician may type: the subject named in prose, in a rationale and a recorded deviation.
   const rationale = `Source records of subject ${named} and of ${other} were checked; both values are genuine.`;
-  childRerunId = await reruns.startRerun(priya, studyId, { plannedModelId, datasetVersionId, options: { variant: "robust_hc3" }, parentRerunId: signedRerunId });
+  childRerunId = await reruns.startRerun(priya, studyId, {
+    plannedModelId,
+    datasetVersionId,
+    options: { variant: "robust_hc3" },
+    parentRerunId: signedRerunId,
+  });
   await finish(childRerunId);
   for (const f of await findings.findingsOf(signedRerunId)) {
-    await findings.assessFinding(priya, studyId, f.id, { category: "model_assumption", impact: "none", action: "planned_sensitivity", rationale });
+    await findings.assessFinding(priya, studyId, f.id, {
+      category: "model_assumption",
+      impact: "none",
+      action: "planned_sensitivity",
+      rationale,
+    });
   }
-  await findings.recordDeviation(priya, studyId, signedRerunId, { category: "data", impact: "none", action: "none", rationale: `Subject ${other} has a late visit; kept as planned.` });
-  await findings.signRerun({ ...who.second_biostatistician, signedInAt: new Date().toISOString() }, studyId, signedRerunId);
-  appendixId = (await exportAppendix(who.medical_writer, studyId, { kind: "rerun", rerunId: signedRerunId })).id;
-  unsignedRerunId = await reruns.startRerun(priya, studyId, { plannedModelId, datasetVersionId, options: { variant: "planned" } });
+  await findings.recordDeviation(priya, studyId, signedRerunId, {
+    category: "data",
+    impact: "none",
+    action: "none",
+    rationale: `Subject ${other} has a late visit; kept as planned.`,
+  });
+  await findings.signRerun(
+    { ...who.second_biostatistician, signedInAt: new Date().toISOString() },
+    studyId,
+    signedRerunId,
+  );
+  appendixId = (await exportAppendix(who.medical_writer, studyId, { kind: "rerun", rerunId: signedRerunId }))
+    .id;
+  unsignedRerunId = await reruns.startRerun(priya, studyId, {
+    plannedModelId,
+    datasetVersionId,
+    options: { variant: "planned" },
+  });
   await finish(unsignedRerunId);
   for (const f of await findings.findingsOf(unsignedRerunId)) {
-    await findings.assessFinding(priya, studyId, f.id, { category: "model_assumption", impact: "none", action: "planned_sensitivity", rationale });
+    await findings.assessFinding(priya, studyId, f.id, {
+      category: "model_assumption",
+      impact: "none",
+      action: "planned_sensitivity",
+      rationale,
+    });
   }
 
   for (const k of ["biostatistician", "medical_writer", "sponsor_reader"] as const) {
@@ -151,7 +241,12 @@ function subjectRowsIn(value: unknown): unknown[] {
     if (Array.isArray(v)) stack.push(...v);
     else if (v && typeof v === "object") {
       const o = v as Record<string, unknown>;
-      if ((typeof o.subject === "string" && o.subject !== "") || typeof o.row === "number" || typeof o.subjectId === "string") found.push(o);
+      if (
+        (typeof o.subject === "string" && o.subject !== "") ||
+        typeof o.row === "number" ||
+        typeof o.subjectId === "string"
+      )
+        found.push(o);
       stack.push(...Object.values(o));
     }
   }
@@ -159,21 +254,30 @@ function subjectRowsIn(value: unknown): unknown[] {
 }
 
 async function get(url: string, who: Who, api = false): Promise<Response> {
-  const headers: Record<string, string> = api ? { Authorization: `Bearer ${token[who]}` } : { Cookie: cookie[who] ?? "" };
+  const headers: Record<string, string> = api
+    ? { Authorization: `Bearer ${token[who]}` }
+    : { Cookie: cookie[who] ?? "" };
   return fetch(`${stack.appUrl}${url}`, { headers, redirect: "manual" });
 }
 
 /** The text of a .docx package: every XML part, with tags removed. */
 async function docxText(bytes: ArrayBuffer): Promise<string> {
   const zip = await JSZip.loadAsync(bytes);
-  const parts = await Promise.all(Object.values(zip.files).filter((f) => f.name.endsWith(".xml")).map((f) => f.async("string")));
+  const parts = await Promise.all(
+    Object.values(zip.files)
+      .filter((f) => f.name.endsWith(".xml"))
+      .map((f) => f.async("string")),
+  );
   return parts.join("\n").replace(/<[^>]+>/g, "");
 }
 
 /** The figure addresses a results page asks for (the worker's list and every frame). */
 function figureUrlsOf(html: string): string[] {
   const urls = new Set<string>();
-  for (const m of html.matchAll(/\/studies\/[^"'\s\\]+?\/reruns\/[^"'\s\\/]+\/figures\/[a-z_]+(?:\?term=[^"'\s\\&]+)?/g)) urls.add(m[0].replace(/&amp;/g, "&"));
+  for (const m of html.matchAll(
+    /\/studies\/[^"'\s\\]+?\/reruns\/[^"'\s\\/]+\/figures\/[a-z_]+(?:\?term=[^"'\s\\&]+)?/g,
+  ))
+    urls.add(m[0].replace(/&amp;/g, "&"));
   return [...urls];
 }
 
@@ -214,10 +318,20 @@ describe("the data behind the answers names subjects (so the checks below can fa
     expect(namedIn(page).length).toBeGreaterThan(0);
     const figures = figureUrlsOf(page);
     expect(figures.length).toBeGreaterThanOrEqual(5);
-    const withIds = await Promise.all(figures.map(async (u) => namedIn(await (await get(u, "biostatistician")).text()).length > 0));
+    const withIds = await Promise.all(
+      figures.map(async (u) => namedIn(await (await get(u, "biostatistician")).text()).length > 0),
+    );
     expect(withIds.filter(Boolean).length).toBeGreaterThanOrEqual(5);
-    expect(namedIn(await (await get(`${s()}/deviations`, "biostatistician")).text()).length).toBeGreaterThan(0);
-    expect(namedIn(await (await get(`/api/v1/studies/${studyId}/reruns/${signedRerunId}`, "biostatistician", true)).text()).length).toBeGreaterThan(0);
+    expect(namedIn(await (await get(`${s()}/deviations`, "biostatistician")).text()).length).toBeGreaterThan(
+      0,
+    );
+    expect(
+      namedIn(
+        await (
+          await get(`/api/v1/studies/${studyId}/reruns/${signedRerunId}`, "biostatistician", true)
+        ).text(),
+      ).length,
+    ).toBeGreaterThan(0);
   }, 120_000);
 });
 
@@ -240,7 +354,8 @@ describe("roles without dataset.rows receive no subject id and no subject-level 
   it("medical_writer: every figure answer of every rerun has no subject id and no data row", async () => {
     const urls = new Set<string>();
     for (const r of [signedRerunId, childRerunId, unsignedRerunId]) {
-      for (const u of figureUrlsOf(await (await get(`${s()}/reruns/${r}`, "medical_writer")).text())) urls.add(u);
+      for (const u of figureUrlsOf(await (await get(`${s()}/reruns/${r}`, "medical_writer")).text()))
+        urls.add(u);
     }
     expect(urls.size).toBeGreaterThanOrEqual(15);
     for (const url of urls) {
@@ -265,7 +380,10 @@ describe("roles without dataset.rows receive no subject id and no subject-level 
     }, 120_000);
 
     it(`${who}: the exported Word appendix, from the page and from the API`, async () => {
-      for (const [url, api] of [[`${s()}/appendix/download?id=${appendixId}`, false], [`/api/v1/studies/${studyId}/appendices/${appendixId}/file`, true]] as const) {
+      for (const [url, api] of [
+        [`${s()}/appendix/download?id=${appendixId}`, false],
+        [`/api/v1/studies/${studyId}/appendices/${appendixId}/file`, true],
+      ] as const) {
         const res = await get(url, who, api);
         expect(`${url} ${res.status}`).toBe(`${url} 200`);
         const text = await docxText(await res.arrayBuffer());
@@ -276,7 +394,10 @@ describe("roles without dataset.rows receive no subject id and no subject-level 
   }
 
   it("the stored notifications name no subject", async () => {
-    const rs = await testDb(stack).execute({ sql: "SELECT subject, text_body AS body_text, html_body AS body_html FROM mail_outbox WHERE study_id = ?", args: [studyId] });
+    const rs = await testDb(stack).execute({
+      sql: "SELECT subject, text_body AS body_text, html_body AS body_html FROM mail_outbox WHERE study_id = ?",
+      args: [studyId],
+    });
     expect(rs.rows.length).toBeGreaterThan(0);
     for (const m of rs.rows) expect(namedIn(`${m.subject}\n${m.body_text}\n${m.body_html}`)).toEqual([]);
   });
@@ -285,7 +406,11 @@ describe("roles without dataset.rows receive no subject id and no subject-level 
 describe("caching and content sniffing", () => {
   it("answers with subject rows are never stored: dataset preview and rows, the results page for people who see subjects, figure answers", async () => {
     const dm = await sessionCookieFor(stack, EMAIL.data_manager);
-    for (const url of [`${s()}/datasets/${datasetVersionId}`, `${s()}/datasets/${datasetVersionId}.data`, `${s()}/datasets/${datasetVersionId}/rows`]) {
+    for (const url of [
+      `${s()}/datasets/${datasetVersionId}`,
+      `${s()}/datasets/${datasetVersionId}.data`,
+      `${s()}/datasets/${datasetVersionId}/rows`,
+    ]) {
       const res = await fetch(`${stack.appUrl}${url}`, { headers: { Cookie: dm } });
       expect(`${url} ${res.status}`).toBe(`${url} 200`);
       expect(res.headers.get("Cache-Control"), url).toMatch(/no-store/);

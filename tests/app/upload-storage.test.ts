@@ -27,21 +27,33 @@ describe("an upload the data folder cannot take", () => {
     mkdirSync(path.dirname(tmp), { recursive: true });
     // A file where the work folder should be (a read-only folder does not stop a server running as root).
     writeFileSync(tmp, "not a folder");
-    const refusedBefore = await count("SELECT count(*) AS n FROM audit_events WHERE action = 'dataset.upload_refused'");
+    const refusedBefore = await count(
+      "SELECT count(*) AS n FROM audit_events WHERE action = 'dataset.upload_refused'",
+    );
     try {
       const form = new FormData();
       form.append("datasetName", "adnospace");
       form.append("file", new File(["usubjid,age\nS1,40\n"], "adnospace.csv", { type: "text/csv" }));
-      const res = await fetch(`${stack.appUrl}/studies/${studyId}/datasets/upload`, { method: "POST", body: form, headers: { Cookie: cookie, Origin: stack.appUrl, Accept: "application/x-ndjson" } });
+      const res = await fetch(`${stack.appUrl}/studies/${studyId}/datasets/upload`, {
+        method: "POST",
+        body: form,
+        headers: { Cookie: cookie, Origin: stack.appUrl, Accept: "application/x-ndjson" },
+      });
       expect(res.status).toBe(507);
-      const last = JSON.parse((await res.text()).trim().split("\n").pop() as string) as { result: { ok: boolean; problems: string[] } };
+      const last = JSON.parse((await res.text()).trim().split("\n").pop() as string) as {
+        result: { ok: boolean; problems: string[] };
+      };
       expect(last.result.ok).toBe(false);
-      expect(last.result.problems[0]).toMatch(/^Plumbline could not store the uploaded file: a folder inside the data folder is missing or is not a folder \(E[A-Z]+\)\. Nothing was stored\./);
+      expect(last.result.problems[0]).toMatch(
+        /^Plumbline could not store the uploaded file: a folder inside the data folder is missing or is not a folder \(E[A-Z]+\)\. Nothing was stored\./,
+      );
     } finally {
       rmSync(tmp, { force: true });
       if (existsSync(aside)) renameSync(aside, tmp);
     }
-    expect(await count("SELECT count(*) AS n FROM audit_events WHERE action = 'dataset.upload_refused'")).toBe(refusedBefore + 1);
+    expect(
+      await count("SELECT count(*) AS n FROM audit_events WHERE action = 'dataset.upload_refused'"),
+    ).toBe(refusedBefore + 1);
     expect(await count("SELECT count(*) AS n FROM datasets WHERE name = 'adnospace'")).toBe(0);
     expect((await fetch(`${stack.appUrl}/healthz`)).status).toBe(200);
   });

@@ -25,7 +25,10 @@ interface SamlpConfig {
   digestAlgorithm: string;
   sessionIndex?: string;
   includeAttributeNameFormat: boolean;
-  profileMapper: (user: TestUser) => { getClaims(): Record<string, string | string[]>; getNameIdentifier(): { nameIdentifier: string; nameIdentifierFormat: string } };
+  profileMapper: (user: TestUser) => {
+    getClaims(): Record<string, string | string[]>;
+    getNameIdentifier(): { nameIdentifier: string; nameIdentifierFormat: string };
+  };
 }
 const samlp = require("samlp") as {
   getSamlResponse(config: SamlpConfig, user: TestUser, cb: (err: Error | null, xml?: string) => void): void;
@@ -41,9 +44,27 @@ export interface KeyPair {
 export function makeKeyPair(dir: string, name: string): KeyPair {
   const certFile = path.join(dir, `${name}-cert.pem`);
   const keyFile = path.join(dir, `${name}-key.pem`);
-  execFileSync("openssl", ["req", "-x509", "-newkey", "rsa:2048", "-nodes", "-subj", `/CN=${name}`, "-keyout", keyFile, "-out", certFile, "-days", "30"], {
-    stdio: "ignore",
-  });
+  execFileSync(
+    "openssl",
+    [
+      "req",
+      "-x509",
+      "-newkey",
+      "rsa:2048",
+      "-nodes",
+      "-subj",
+      `/CN=${name}`,
+      "-keyout",
+      keyFile,
+      "-out",
+      certFile,
+      "-days",
+      "30",
+    ],
+    {
+      stdio: "ignore",
+    },
+  );
   return { certFile, keyFile, cert: readFileSync(certFile, "utf8"), key: readFileSync(keyFile, "utf8") };
 }
 
@@ -94,7 +115,9 @@ export function signedResponse(o: ResponseOptions): Promise<string> {
     }),
   };
   return new Promise((resolve, reject) =>
-    samlp.getSamlResponse(config, o.user, (err, xml) => (err || !xml ? reject(err ?? new Error("no response")) : resolve(Buffer.from(xml).toString("base64")))),
+    samlp.getSamlResponse(config, o.user, (err, xml) =>
+      err || !xml ? reject(err ?? new Error("no response")) : resolve(Buffer.from(xml).toString("base64")),
+    ),
   );
 }
 

@@ -18,16 +18,31 @@ Object.assign(process.env, {
   SAML_SP_ISSUER: "urn:plumbline:sp",
   SAML_IDP_CERT_FILE: trusted.certFile,
 });
-const { bindRequest, finishSamlSignIn, handleSamlLogout } = await import("../../app/.server/auth/sign-in.server");
+const { bindRequest, finishSamlSignIn, handleSamlLogout } =
+  await import("../../app/.server/auth/sign-in.server");
 const { samlSetup } = await import("../../app/.server/auth/saml-setup.server");
 const { getCurrentUser } = await import("../../app/.server/session.server");
 const { listAuditEvents } = await import("../../app/.server/audit.server");
 
-const dana = { email: "dana.okafor@plumbline.example", displayName: "Dana Okafor", organisation: "Plumbline demo CRO", groups: ["staff"] };
+const dana = {
+  email: "dana.okafor@plumbline.example",
+  displayName: "Dana Okafor",
+  organisation: "Plumbline demo CRO",
+  groups: ["staff"],
+};
 
 async function signedInCookie(): Promise<string> {
-  const inResponseTo = authnRequestId(await samlSetup().signIn.getAuthorizeUrlAsync("/", "127.0.0.1:5997", {}));
-  const response = await signedResponse({ signer: trusted, issuer: "urn:plumbline:idp-fake", audience: "urn:plumbline:sp", acsUrl: `${APP}/auth/saml/acs`, inResponseTo, user: dana });
+  const inResponseTo = authnRequestId(
+    await samlSetup().signIn.getAuthorizeUrlAsync("/", "127.0.0.1:5997", {}),
+  );
+  const response = await signedResponse({
+    signer: trusted,
+    issuer: "urn:plumbline:idp-fake",
+    audience: "urn:plumbline:sp",
+    acsUrl: `${APP}/auth/saml/acs`,
+    inResponseTo,
+    user: dana,
+  });
   const bound = cookiePair(await bindRequest({ id: inResponseTo, reauth: null }));
   return cookiePair((await finishSamlSignIn(acsPost(APP, response, "/", bound))).headers.get("Set-Cookie"));
 }
@@ -43,7 +58,12 @@ function idpLogoutUrl(sign: boolean): Promise<string> {
     ...(sign ? { privateKey: trusted.key, signatureAlgorithm: "sha256" as const } : {}),
   });
   return idp.getLogoutUrlAsync(
-    { issuer: "urn:plumbline:idp-fake", nameID: dana.email, nameIDFormat: "urn:oasis:names:tc:SAML:1.1:nameid-format:emailAddress", sessionIndex: "4242" },
+    {
+      issuer: "urn:plumbline:idp-fake",
+      nameID: dana.email,
+      nameIDFormat: "urn:oasis:names:tc:SAML:1.1:nameid-format:emailAddress",
+      sessionIndex: "4242",
+    },
     "",
     {},
   );

@@ -24,5 +24,8 @@ it("a response cannot be checked without the certificate: refused as misconfigur
   const [event] = await listAuditEvents({ action: "auth.sign_in_refused", limit: 1 });
   expect(event.detail).toMatch(/^misconfigured: .*SAML_IDP_CERT_FILE/);
   const page = await signInPage(new Request("http://127.0.0.1:5996/sign-in?error=misconfigured"));
-  expect(page).toMatchObject({ signedIn: false, error: { code: "misconfigured", message: REFUSAL_MESSAGES.misconfigured } });
+  expect(page).toMatchObject({
+    signedIn: false,
+    error: { code: "misconfigured", message: REFUSAL_MESSAGES.misconfigured },
+  });
 });

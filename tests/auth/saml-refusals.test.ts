@@ -6,7 +6,14 @@
  */
 import { afterEach, describe, expect, it, vi } from "vitest";
 import { useTempDatabase } from "../support/temp-db";
-import { acsPost, authnRequestId, cookiePair, makeKeyPair, signedResponse, type TestUser } from "./saml-fixtures";
+import {
+  acsPost,
+  authnRequestId,
+  cookiePair,
+  makeKeyPair,
+  signedResponse,
+  type TestUser,
+} from "./saml-fixtures";
 
 const { dir } = useTempDatabase();
 const trusted = makeKeyPair(dir, "trusted-idp");
@@ -25,7 +32,8 @@ Object.assign(process.env, {
   SAML_CLOCK_SKEW_MS: "2000",
 });
 
-const { bindRequest, finishSamlSignIn, signInPage, startSamlSignIn } = await import("../../app/.server/auth/sign-in.server");
+const { bindRequest, finishSamlSignIn, signInPage, startSamlSignIn } =
+  await import("../../app/.server/auth/sign-in.server");
 const { samlSetup } = await import("../../app/.server/auth/saml-setup.server");
 const { REFUSAL_MESSAGES } = await import("../../app/.server/auth/refusal.server");
 const { listAuditEvents } = await import("../../app/.server/audit.server");
@@ -57,7 +65,8 @@ async function freshRequestId(): Promise<string> {
 }
 
 /** The browser's post of a response to our ACS, with its cookie. */
-const acs = (samlResponse: string, relayState = "/"): Request => acsPost(APP, samlResponse, relayState, boundCookie);
+const acs = (samlResponse: string, relayState = "/"): Request =>
+  acsPost(APP, samlResponse, relayState, boundCookie);
 
 async function goodResponse(user: TestUser, inResponseTo?: string): Promise<string> {
   return signedResponse({
@@ -70,7 +79,11 @@ async function goodResponse(user: TestUser, inResponseTo?: string): Promise<stri
   });
 }
 
-async function expectRefused(response: Response, code: keyof typeof REFUSAL_MESSAGES, reason: RegExp): Promise<void> {
+async function expectRefused(
+  response: Response,
+  code: keyof typeof REFUSAL_MESSAGES,
+  reason: RegExp,
+): Promise<void> {
   expect(response.status).toBe(302);
   const location = response.headers.get("Location");
   expect(location).toBe(`/sign-in?error=${code}`);
@@ -92,10 +105,18 @@ afterEach(() => {
 describe("a response this browser did not ask for (login CSRF)", () => {
   it("is refused without the cookie of the browser that started the sign-in, or with another request's", async () => {
     const samlResponse = await goodResponse(priya);
-    await expectRefused(await finishSamlSignIn(acsPost(APP, samlResponse)), "not-this-browser", /which this browser did not start/);
+    await expectRefused(
+      await finishSamlSignIn(acsPost(APP, samlResponse)),
+      "not-this-browser",
+      /which this browser did not start/,
+    );
     const otherBrowser = cookiePair(await bindRequest({ id: "_another-request", reauth: null }));
     const samlResponse2 = await goodResponse(priya);
-    await expectRefused(await finishSamlSignIn(acsPost(APP, samlResponse2, "/", otherBrowser)), "not-this-browser", /which this browser did not start/);
+    await expectRefused(
+      await finishSamlSignIn(acsPost(APP, samlResponse2, "/", otherBrowser)),
+      "not-this-browser",
+      /which this browser did not start/,
+    );
   });
 });
 
@@ -124,7 +145,9 @@ describe("a good response", () => {
   it("a single group arrives as one value; without plumbline-admins there is no administrator flag", async () => {
     const response = await finishSamlSignIn(acs(await goodResponse(priya), "//elsewhere.example/"));
     expect(response.headers.get("Location")).toBe("/");
-    const user = await getCurrentUser(new Request(`${APP}/`, { headers: { Cookie: cookiePair(response.headers.get("Set-Cookie")) } }));
+    const user = await getCurrentUser(
+      new Request(`${APP}/`, { headers: { Cookie: cookiePair(response.headers.get("Set-Cookie")) } }),
+    );
     expect(user).toMatchObject({ email: priya.email, displayName: "Priya Lindqvist", isAdmin: false });
   });
 });
@@ -170,7 +193,13 @@ describe("refused responses", () => {
   });
 
   it("replayed: a response that answers no request made here", async () => {
-    const unsolicited = await signedResponse({ signer: trusted, issuer: IDP_ISSUER, audience: SP, acsUrl: `${APP}/auth/saml/acs`, user: priya });
+    const unsolicited = await signedResponse({
+      signer: trusted,
+      issuer: IDP_ISSUER,
+      audience: SP,
+      acsUrl: `${APP}/auth/saml/acs`,
+      user: priya,
+    });
     await expectRefused(await finishSamlSignIn(acs(unsolicited)), "replayed", /InResponseTo is missing/);
   });
 
@@ -216,7 +245,11 @@ describe("refused responses", () => {
   });
 
   it("other: a post without any SAMLResponse", async () => {
-    const empty = new Request(`${APP}/auth/saml/acs`, { method: "POST", headers: { "Content-Type": "application/x-www-form-urlencoded" }, body: "" });
+    const empty = new Request(`${APP}/auth/saml/acs`, {
+      method: "POST",
+      headers: { "Content-Type": "application/x-www-form-urlencoded" },
+      body: "",
+    });
     await expectRefused(await finishSamlSignIn(empty), "other", /no SAMLResponse/);
   });
 });
@@ -224,7 +257,11 @@ describe("refused responses", () => {
 describe("an identity provider that is not answering", () => {
   it("the sign-in page says so, naming its address", async () => {
     const page = await signInPage(new Request(`${APP}/sign-in`));
-    expect(page).toMatchObject({ signedIn: false, idp: { answering: false, origin: "http://127.0.0.1:9" }, error: null });
+    expect(page).toMatchObject({
+      signedIn: false,
+      idp: { answering: false, origin: "http://127.0.0.1:9" },
+      error: null,
+    });
   });
 
   it("starting single sign-on returns to the sign-in page with the reason", async () => {

@@ -40,7 +40,8 @@ Object.assign(process.env, {
   SAML_SP_ISSUER: "urn:plumbline:sp",
   SAML_IDP_CERT_FILE: idp.certFile,
 });
-const { finishSamlSignIn, handleSamlLogout, signInPage, signOut, startSamlSignIn } = await import("../../app/.server/auth/sign-in.server");
+const { finishSamlSignIn, handleSamlLogout, signInPage, signOut, startSamlSignIn } =
+  await import("../../app/.server/auth/sign-in.server");
 const { getCurrentUser } = await import("../../app/.server/session.server");
 const { listAuditEvents } = await import("../../app/.server/audit.server");
 
@@ -74,7 +75,9 @@ const decodeEntities = (s: string): string =>
 
 /** Name and value of every input and select in one HTML form (the first whose action matches). */
 function formFields(html: string, action: string): { action: string; fields: Map<string, string> } {
-  const form = new RegExp(`<form[^>]*action="(${action.replace(/[/.?]/g, "\\$&")}[^"]*)"[^>]*>([\\s\\S]*?)</form>`).exec(html);
+  const form = new RegExp(
+    `<form[^>]*action="(${action.replace(/[/.?]/g, "\\$&")}[^"]*)"[^>]*>([\\s\\S]*?)</form>`,
+  ).exec(html);
   if (!form) throw new Error(`no form posting to ${action} in:\n${html.slice(0, 2000)}`);
   const fields = new Map<string, string>();
   for (const m of form[2].matchAll(/<(input|select)\b([^>]*)>/g)) {
@@ -86,11 +89,18 @@ function formFields(html: string, action: string): { action: string; fields: Map
   return { action: decodeEntities(form[1]), fields };
 }
 
-const post = (url: string, fields: Map<string, string> | Record<string, string>, jar?: CookieJar): Promise<Response> =>
+const post = (
+  url: string,
+  fields: Map<string, string> | Record<string, string>,
+  jar?: CookieJar,
+): Promise<Response> =>
   fetch(url, {
     method: "POST",
     redirect: "manual",
-    headers: { "Content-Type": "application/x-www-form-urlencoded", ...(jar ? { Cookie: jar.header() } : {}) },
+    headers: {
+      "Content-Type": "application/x-www-form-urlencoded",
+      ...(jar ? { Cookie: jar.header() } : {}),
+    },
     body: new URLSearchParams(fields instanceof Map ? [...fields] : Object.entries(fields)).toString(),
   });
 
@@ -124,7 +134,17 @@ describe("round trip through the fake identity provider", () => {
     const formPage = await fetch(`${location}&form=full`, { headers: { Cookie: jar.header() } });
     jar.take(formPage);
     const { fields } = formFields(await formPage.text(), "/signin");
-    expect([...fields.keys()]).toEqual(expect.arrayContaining(["userName", "nameIdFormat", "email", "displayName", "organisation", "groups", "_authnRequest"]));
+    expect([...fields.keys()]).toEqual(
+      expect.arrayContaining([
+        "userName",
+        "nameIdFormat",
+        "email",
+        "displayName",
+        "organisation",
+        "groups",
+        "_authnRequest",
+      ]),
+    );
     const person = {
       userName: "tomas.berg@plumbline.example",
       nameIdFormat: "urn:oasis:names:tc:SAML:1.1:nameid-format:emailAddress",
@@ -142,11 +162,19 @@ describe("round trip through the fake identity provider", () => {
     expect(acs.headers.get("Location")).toBe("/studies");
     const appCookie = cookiePair(acs.headers.get("Set-Cookie"));
     const user = await getCurrentUser(new Request(`${APP}/`, { headers: { Cookie: appCookie } }));
-    expect(user).toMatchObject({ email: person.email, displayName: "Tomas Berg", organisation: "Plumbline demo CRO", isAdmin: false, nameId: person.email });
+    expect(user).toMatchObject({
+      email: person.email,
+      displayName: "Tomas Berg",
+      organisation: "Plumbline demo CRO",
+      isAdmin: false,
+      nameId: person.email,
+    });
     expect(user?.sessionIndex).toMatch(/^\d+$/);
 
     // Single logout: our LogoutRequest to the identity provider, its signed LogoutResponse back.
-    const out = await signOut(new Request(`${APP}/sign-out`, { method: "POST", headers: { Cookie: appCookie } }));
+    const out = await signOut(
+      new Request(`${APP}/sign-out`, { method: "POST", headers: { Cookie: appCookie } }),
+    );
     expect(await getCurrentUser(new Request(`${APP}/`, { headers: { Cookie: appCookie } }))).toBeNull();
     const sloLocation = out.headers.get("Location") ?? "";
     expect(sloLocation.startsWith(`${idp.sloUrl}?SAMLRequest=`)).toBe(true);
@@ -173,36 +201,58 @@ describe("round trip through the fake identity provider", () => {
     jar.take(picker);
     const html = await picker.text();
     expect(html).toContain('aria-label="Sign in as Morgan Reyes"');
-    const adminForm = /<form method="post" action="\/signin" data-person="admin">([\s\S]*?)<\/form>/.exec(html)?.[0] ?? "";
+    const adminForm =
+      /<form method="post" action="\/signin" data-person="admin">([\s\S]*?)<\/form>/.exec(html)?.[0] ?? "";
     const { fields } = formFields(adminForm, "/signin");
     expect(fields.get("groups")).toContain("plumbline-admins");
     const signedIn = await post(`${idp.baseUrl}/signin`, fields, jar);
     const acs = await deliverToAcs(await signedIn.text(), cookiePair(start.headers.get("Set-Cookie")));
     expect(acs.headers.get("Location")).toBe("/");
-    const user = await getCurrentUser(new Request(`${APP}/`, { headers: { Cookie: cookiePair(acs.headers.get("Set-Cookie")) } }));
-    expect(user).toMatchObject({ email: "morgan.reyes@plumbline.example", displayName: "Morgan Reyes", isAdmin: true });
+    const user = await getCurrentUser(
+      new Request(`${APP}/`, { headers: { Cookie: cookiePair(acs.headers.get("Set-Cookie")) } }),
+    );
+    expect(user).toMatchObject({
+      email: "morgan.reyes@plumbline.example",
+      displayName: "Morgan Reyes",
+      isAdmin: true,
+    });
   });
 
   /** Login through the picker as the person with this key; `cookie` is what the browser holds for the app. */
-  async function pickerSignIn(personKey: string, opts: { fresh?: boolean; appCookie?: string; returnTo?: string } = {}): Promise<{ acs: Response; bound: string }> {
+  async function pickerSignIn(
+    personKey: string,
+    opts: { fresh?: boolean; appCookie?: string; returnTo?: string } = {},
+  ): Promise<{ acs: Response; bound: string }> {
     const returnTo = opts.returnTo ?? "/";
     const start = await startSamlSignIn(
-      new Request(`${APP}/auth/saml/login?returnTo=${encodeURIComponent(returnTo)}${opts.fresh ? "&fresh=1" : ""}`, { headers: opts.appCookie ? { Cookie: opts.appCookie } : {} }),
+      new Request(
+        `${APP}/auth/saml/login?returnTo=${encodeURIComponent(returnTo)}${opts.fresh ? "&fresh=1" : ""}`,
+        { headers: opts.appCookie ? { Cookie: opts.appCookie } : {} },
+      ),
     );
     const bound = cookiePair(start.headers.get("Set-Cookie"));
     expect(bound).toMatch(/^plumbline_saml_request=/);
     const picker = await fetch(start.headers.get("Location") ?? "");
     const html = await picker.text();
-    const form = new RegExp(`<form method="post" action="/signin" data-person="${personKey}">([\\s\\S]*?)</form>`).exec(html)?.[0] ?? "";
+    const form =
+      new RegExp(`<form method="post" action="/signin" data-person="${personKey}">([\\s\\S]*?)</form>`).exec(
+        html,
+      )?.[0] ?? "";
     const { fields } = formFields(form, "/signin");
     const signedIn = await post(`${idp.baseUrl}/signin`, fields);
-    return { acs: await deliverToAcs(await signedIn.text(), [opts.appCookie, bound].filter(Boolean).join("; ")), bound };
+    return {
+      acs: await deliverToAcs(await signedIn.text(), [opts.appCookie, bound].filter(Boolean).join("; ")),
+      bound,
+    };
   }
 
   it("a response delivered to a browser that did not start its sign-in is refused (login CSRF)", async () => {
     const start = await startSamlSignIn(new Request(`${APP}/auth/saml/login?returnTo=/`));
     const picker = await (await fetch(start.headers.get("Location") ?? "")).text();
-    const form = /<form method="post" action="\/signin" data-person="data-manager">([\s\S]*?)<\/form>/.exec(picker)?.[0] ?? "";
+    const form =
+      /<form method="post" action="\/signin" data-person="data-manager">([\s\S]*?)<\/form>/.exec(
+        picker,
+      )?.[0] ?? "";
     const signedIn = await post(`${idp.baseUrl}/signin`, formFields(form, "/signin").fields);
     // The attacker's own response, posted from the victim's browser: no binding cookie there.
     const html = await signedIn.text();
@@ -222,17 +272,32 @@ describe("round trip through the fake identity provider", () => {
     expect(before?.email).toBe("tomas.berg@plumbline.example");
 
     const back = "/studies/s1/reruns/r1#sign-off";
-    const refused = await pickerSignIn("biostatistician", { fresh: true, appCookie: tomasCookie, returnTo: back });
-    expect(refused.acs.headers.get("Location")).toBe("/studies/s1/reruns/r1?reauth=different-person#sign-off");
+    const refused = await pickerSignIn("biostatistician", {
+      fresh: true,
+      appCookie: tomasCookie,
+      returnTo: back,
+    });
+    expect(refused.acs.headers.get("Location")).toBe(
+      "/studies/s1/reruns/r1?reauth=different-person#sign-off",
+    );
     expect(refused.acs.headers.getSetCookie().some((c) => c.startsWith("plumbline_session="))).toBe(false);
     const after = await getCurrentUser(new Request(`${APP}/`, { headers: { Cookie: tomasCookie } }));
-    expect(after).toMatchObject({ id: before?.id, email: "tomas.berg@plumbline.example", sessionId: before?.sessionId, signedInAt: before?.signedInAt });
+    expect(after).toMatchObject({
+      id: before?.id,
+      email: "tomas.berg@plumbline.example",
+      sessionId: before?.sessionId,
+      signedInAt: before?.signedInAt,
+    });
     const [event] = await listAuditEvents({ action: "auth.reauth_refused", limit: 1 });
     expect(event).toMatchObject({ actorId: before?.id, entityId: before?.id });
     expect(event.detail).toMatch(/priya\.lindqvist@plumbline\.example, not the person signed in/);
 
     await new Promise((r) => setTimeout(r, 5));
-    const confirmed = await pickerSignIn("second-biostatistician", { fresh: true, appCookie: tomasCookie, returnTo: back });
+    const confirmed = await pickerSignIn("second-biostatistician", {
+      fresh: true,
+      appCookie: tomasCookie,
+      returnTo: back,
+    });
     expect(confirmed.acs.headers.get("Location")).toBe("/studies/s1/reruns/r1?reauth=done#sign-off");
     const fresh = await getCurrentUser(new Request(`${APP}/`, { headers: { Cookie: tomasCookie } }));
     expect(fresh).toMatchObject({ id: before?.id, sessionId: before?.sessionId });

@@ -61,8 +61,22 @@ describe("from plan to signature", { timeout: 90_000 }, () => {
     await page.getByRole("heading", { name: /primary\s*Primary efficacy/ }).waitFor();
     // The two secondary endpoints: responders (logistic) and flare counts (Poisson with log exposure).
     for (const m of [
-      { key: "responder", title: "Responders at week 12", response: "resp", family: "binomial", covariates: ["base", "stratum", "region", "sex", "age"], offset: "" },
-      { key: "flares", title: "Flare rate over the treatment period", response: "flares", family: "poisson", covariates: ["stratum", "region"], offset: "logexp" },
+      {
+        key: "responder",
+        title: "Responders at week 12",
+        response: "resp",
+        family: "binomial",
+        covariates: ["base", "stratum", "region", "sex", "age"],
+        offset: "",
+      },
+      {
+        key: "flares",
+        title: "Flare rate over the treatment period",
+        response: "flares",
+        family: "poisson",
+        covariates: ["stratum", "region"],
+        offset: "logexp",
+      },
     ]) {
       await page.getByRole("link", { name: "Add a planned model" }).click();
       await page.getByLabel("Key").fill(m.key);
@@ -105,13 +119,20 @@ describe("from plan to signature", { timeout: 90_000 }, () => {
     await page.getByRole("link", { name: "Reruns" }).click();
     // This plan's primary model: other test files may have approved plans with a model of the same key.
     const planVersionId = new URL(planUrl).pathname.split("/").pop() ?? "";
-    const rs = await testDb(stack).execute({ sql: "SELECT id FROM planned_models WHERE plan_version_id = ? AND key = 'primary'", args: [planVersionId] });
+    const rs = await testDb(stack).execute({
+      sql: "SELECT id FROM planned_models WHERE plan_version_id = ? AND key = 'primary'",
+      args: [planVersionId],
+    });
     await page.getByLabel("Approved planned model").selectOption(String(rs.rows[0]?.[0] ?? ""));
     await page.getByRole("button", { name: "Rerun" }).click();
     await page.getByRole("heading", { name: "Checks of the plan" }).waitFor({ timeout: 10_000 });
     rerunUrl = page.url().split("#")[0];
     await screenshot(page, "rerun-results");
-    for (const check of ["Cook's distance", "Constant variance (Breusch–Pagan)", "Equal spread across arms (Brown–Forsythe)"]) {
+    for (const check of [
+      "Cook's distance",
+      "Constant variance (Breusch–Pagan)",
+      "Equal spread across arms (Brown–Forsythe)",
+    ]) {
       const card = page.locator("article", { has: page.getByRole("heading", { name: check, exact: true }) });
       expect(await card.getByText("Finding", { exact: true }).count()).toBe(1);
     }
@@ -121,7 +142,11 @@ describe("from plan to signature", { timeout: 90_000 }, () => {
     expect(states.length).toBeGreaterThanOrEqual(10);
     expect(states.every((s) => s === "ready")).toBe(true);
     // drawn off the main thread, by the figure worker the page's HTML starts (figure-worker-start.tsx)
-    expect(await page.evaluate(() => performance.getEntriesByType("resource").some((r) => /\/figure-worker-[\w-]+\.js$/.test(r.name)))).toBe(true);
+    expect(
+      await page.evaluate(() =>
+        performance.getEntriesByType("resource").some((r) => /\/figure-worker-[\w-]+\.js$/.test(r.name)),
+      ),
+    ).toBe(true);
     // a linear model has no binomial fit figures
     expect(await page.getByRole("region", { name: "Fit of the binomial model" }).count()).toBe(0);
     const tip = await hoverForSubject(page, "residuals_fitted");
@@ -134,22 +159,35 @@ describe("from plan to signature", { timeout: 90_000 }, () => {
     await whatIf.getByLabel(/QMT301-0217/).check();
     await whatIf.getByRole("columnheader", { name: "Without 1 ticked" }).waitFor();
     await whatIf.scrollIntoViewIfNeeded();
-    await page.screenshot({ path: "test-results/screenshots/what-if.png", clip: (await whatIf.boundingBox()) ?? undefined });
+    await page.screenshot({
+      path: "test-results/screenshots/what-if.png",
+      clip: (await whatIf.boundingBox()) ?? undefined,
+    });
     await whatIf.getByRole("button", { name: "Keep as a sensitivity rerun" }).click();
-    await page.getByRole("link", { name: /Excluding 1 subject/ }).first().waitFor({ timeout: 10_000 });
+    await page
+      .getByRole("link", { name: /Excluding 1 subject/ })
+      .first()
+      .waitFor({ timeout: 10_000 });
     expect(await page.getByText("(not pre-specified)").count()).toBeGreaterThan(0);
     // the planned sensitivity analyses ran with the primary, without a click; the page shows their progress
     expect(await page.getByRole("button", { name: "Run it" }).count()).toBe(0);
-    await page.getByRole("link", { name: /Excluding \d+ subjects/ }).first().waitFor({ timeout: 30_000 });
+    await page
+      .getByRole("link", { name: /Excluding \d+ subjects/ })
+      .first()
+      .waitFor({ timeout: 30_000 });
     const open = () => page.getByRole("button", { name: "Record the assessment" }).count();
     expect(await open()).toBeGreaterThan(2);
     for (let guard = 0; guard < 20 && (await open()) > 0; guard++) {
       const before = await open();
-      const form = page.locator("form", { has: page.getByRole("button", { name: "Record the assessment" }) }).first();
+      const form = page
+        .locator("form", { has: page.getByRole("button", { name: "Record the assessment" }) })
+        .first();
       await form.getByLabel("Category").selectOption("model_assumption");
       await form.getByLabel("Impact on the treatment conclusion").selectOption("none");
       await form.getByLabel("Action taken").selectOption("planned_sensitivity");
-      await form.getByLabel("Rationale").fill("The planned sensitivity analyses leave the treatment conclusion unchanged.");
+      await form
+        .getByLabel("Rationale")
+        .fill("The planned sensitivity analyses leave the treatment conclusion unchanged.");
       await form.getByRole("button", { name: "Record the assessment" }).click();
       await expect.poll(open, { timeout: 30_000 }).toBeLessThan(before); // the server may be running the planned sensitivity analyses meanwhile
     }
@@ -174,28 +212,47 @@ describe("from plan to signature", { timeout: 90_000 }, () => {
           await frame.scrollIntoViewIfNeeded();
           await expect.poll(() => frame.getAttribute("data-state"), { timeout: 20_000 }).toBe("ready");
         }
-        expect(await fit.locator('[data-figure="binned_residuals"] [role="img"]').getAttribute("aria-label")).toMatch(/^Do observed proportions follow the fitted probabilities\?\. Healthy: about 95% of bins inside the band.* \d+ of \d+ bins lie outside their band/);
-        expect(await fit.locator('[data-figure="calibration"] [role="img"]').getAttribute("aria-label")).toMatch(/Hosmer–Lemeshow statistic [\d.]+ on 8 degrees of freedom/);
+        expect(
+          await fit.locator('[data-figure="binned_residuals"] [role="img"]').getAttribute("aria-label"),
+        ).toMatch(
+          /^Do observed proportions follow the fitted probabilities\?\. Healthy: about 95% of bins inside the band.* \d+ of \d+ bins lie outside their band/,
+        );
+        expect(
+          await fit.locator('[data-figure="calibration"] [role="img"]').getAttribute("aria-label"),
+        ).toMatch(/Hosmer–Lemeshow statistic [\d.]+ on 8 degrees of freedom/);
         // the groups behind the calibration figure, as a table beside it
         expect(await fit.getByRole("table").locator("tbody tr").count()).toBe(10);
         const tip = await hoverForSubject(page, "binned_residuals");
         expect(tip).toMatch(/Mean residual\s+−?\d/);
         await page.mouse.move(0, 0);
         await fit.scrollIntoViewIfNeeded();
-        await page.screenshot({ path: "test-results/screenshots/rerun-results-binomial-fit.png", clip: (await fit.boundingBox()) ?? undefined });
+        await page.screenshot({
+          path: "test-results/screenshots/rerun-results-binomial-fit.png",
+          clip: (await fit.boundingBox()) ?? undefined,
+        });
         expect((await drawAllFigures(page)).every((s) => s === "ready")).toBe(true);
         await screenshot(page, "rerun-results-binomial");
       } else {
         expect(await fit.count()).toBe(0);
-        expect(await page.locator('[data-figure="binned_residuals"], [data-figure="calibration"]').count()).toBe(0);
+        expect(
+          await page.locator('[data-figure="binned_residuals"], [data-figure="calibration"]').count(),
+        ).toBe(0);
       }
       if (key === "flares") {
-        const card = page.locator("article", { has: page.getByRole("heading", { name: "Overdispersion", exact: true }) });
+        const card = page.locator("article", {
+          has: page.getByRole("heading", { name: "Overdispersion", exact: true }),
+        });
         expect(await card.getByText("Finding", { exact: true }).count()).toBe(1);
         // every figure of the count model draws, each check with its own figure or none
         await drawAllFigures(page);
         await screenshot(page, "rerun-results-counts");
-        const notDrawn = await page.locator("[data-figure]").evaluateAll((els) => els.filter((el) => (el as HTMLElement).dataset.state !== "ready").map((el) => `${(el as HTMLElement).dataset.figure}: ${el.textContent}`));
+        const notDrawn = await page
+          .locator("[data-figure]")
+          .evaluateAll((els) =>
+            els
+              .filter((el) => (el as HTMLElement).dataset.state !== "ready")
+              .map((el) => `${(el as HTMLElement).dataset.figure}: ${el.textContent}`),
+          );
         expect(notDrawn).toEqual([]);
       }
     }

@@ -25,8 +25,19 @@ const STUDY = "TTE-301";
 async function timeToEventStudy(): Promise<void> {
   const { createStudy } = await import("~/.server/studies.server");
   const { setStudyRole } = await import("~/.server/people.server");
-  const admin = { id: await personId(stack, "morgan.reyes@plumbline.example"), name: "Morgan Reyes", organisation: null };
-  const created = await createStudy(admin, { code: STUDY, title: "Time-to-event endpoints", sponsor: "Quillmoor Therapeutics", compound: null, indication: null, phase: "3" });
+  const admin = {
+    id: await personId(stack, "morgan.reyes@plumbline.example"),
+    name: "Morgan Reyes",
+    organisation: null,
+  };
+  const created = await createStudy(admin, {
+    code: STUDY,
+    title: "Time-to-event endpoints",
+    sponsor: "Quillmoor Therapeutics",
+    compound: null,
+    indication: null,
+    phase: "3",
+  });
   if (!created.ok) throw new Error(JSON.stringify(created.fieldErrors));
   const roles = [
     ["dana.okafor@plumbline.example", "data_manager"],
@@ -34,7 +45,8 @@ async function timeToEventStudy(): Promise<void> {
     ["tomas.berg@plumbline.example", "biostatistician"],
     ["helen.achter@plumbline.example", "medical_writer"],
   ] as const;
-  for (const [email, role] of roles) await setStudyRole(admin, created.study.id, await personId(stack, email), role);
+  for (const [email, role] of roles)
+    await setStudyRole(admin, created.study.id, await personId(stack, email), role);
 }
 let browser: Browser;
 const dir = mkdtempSync(path.join(os.tmpdir(), "plumbline-cox-"));
@@ -49,7 +61,8 @@ afterAll(async () => {
 });
 let current: Page | null = null;
 afterEach(async (ctx) => {
-  if (ctx.task.result?.state === "fail" && current && !current.isClosed()) await screenshot(current, `cox-failed-${ctx.task.name.slice(0, 30).replace(/\W+/g, "-")}`);
+  if (ctx.task.result?.state === "fail" && current && !current.isClosed())
+    await screenshot(current, `cox-failed-${ctx.task.name.slice(0, 30).replace(/\W+/g, "-")}`);
 });
 
 async function as(name: string): Promise<Page> {
@@ -69,7 +82,10 @@ describe("a stratified Cox model from plan to appendix", () => {
 
   it("the data manager uploads and locks the time-to-event dataset", async () => {
     const page = await as("Dana Okafor");
-    await page.getByRole("navigation", { name: "Study sections" }).getByRole("link", { name: "Datasets" }).click();
+    await page
+      .getByRole("navigation", { name: "Study sections" })
+      .getByRole("link", { name: "Datasets" })
+      .click();
     await page.getByLabel("File").setInputFiles(path.join(dir, "adtte.csv"));
     await page.getByRole("button", { name: "Upload and check" }).click();
     await page.getByRole("heading", { name: "adtte · version 1" }).waitFor({ timeout: 30_000 });
@@ -84,7 +100,10 @@ describe("a stratified Cox model from plan to appendix", () => {
     }
     await page.getByRole("button", { name: "Lock version 1" }).click();
     await page.getByRole("button", { name: "Lock version 1" }).waitFor({ state: "detached" });
-    await page.getByRole("definition").filter({ hasText: /^Locked$/ }).waitFor();
+    await page
+      .getByRole("definition")
+      .filter({ hasText: /^Locked$/ })
+      .waitFor();
     await page.context().close();
   });
 
@@ -108,7 +127,10 @@ describe("a stratified Cox model from plan to appendix", () => {
     for (const c of ["AGE", "BASE", "STRAT2"]) await page.locator(`#cov-${c}`).check();
     // no status column yet: the error stands beside the field
     await page.getByRole("button", { name: "Save planned model" }).click();
-    await page.getByText(/needs? attention/).first().waitFor();
+    await page
+      .getByText(/needs? attention/)
+      .first()
+      .waitFor();
     await page.getByText("Choose the column that says whether the event happened (e.g. CNSR).").waitFor();
     await page.getByLabel("Status column").selectOption("CNSR");
     await page.locator('input[name="eventValue"][value="0"]').check();
@@ -117,7 +139,13 @@ describe("a stratified Cox model from plan to appendix", () => {
     // a planned sensitivity analysis of time-to-event models only: the restricted mean to τ = 180
     await page.locator('input[name="sensitivity:cox_rmst"]').check();
     await page.getByLabel("Horizon τ of the restricted mean, in the units of the follow-up time").fill("180");
-    for (const key of ["proportional_hazards", "functional_form_cox", "dfbetas_treatment_cox", "events_per_coefficient"]) expect(await page.locator(`#chk-${key}`).isChecked()).toBe(true);
+    for (const key of [
+      "proportional_hazards",
+      "functional_form_cox",
+      "dfbetas_treatment_cox",
+      "events_per_coefficient",
+    ])
+      expect(await page.locator(`#chk-${key}`).isChecked()).toBe(true);
     // checks of linear and generalized linear models are not offered for a time-to-event model (family-applicability.ts)
     expect(await page.locator("#chk-cooks_distance").count()).toBe(0);
     await screenshot(page, "cox-plan-editor");
@@ -147,14 +175,24 @@ describe("a stratified Cox model from plan to appendix", () => {
     await page.getByRole("heading", { name: "Checks of the plan" }).waitFor({ timeout: 30_000 });
     rerunUrl = page.url().split("#")[0];
     await page.getByRole("heading", { name: "Hazard ratios", exact: true }).waitFor();
-    const ph = page.getByRole("table").filter({ hasText: "Test of proportional hazards per term and global" });
+    const ph = page
+      .getByRole("table")
+      .filter({ hasText: "Test of proportional hazards per term and global" });
     expect(await ph.getByRole("rowheader", { name: "Global" }).count()).toBe(1);
     expect(await ph.getByRole("rowheader", { name: "TRTP" }).count()).toBe(1);
     await page.getByRole("heading", { name: "Proportional hazards (Grambsch–Therneau)" }).waitFor();
     await screenshot(page, "cox-rerun-results");
     const top = await page.getByRole("region", { name: "Hazard ratios", exact: true }).boundingBox();
-    const phCard = await page.locator("article", { has: page.getByRole("heading", { name: "Proportional hazards (Grambsch–Therneau)" }) }).boundingBox();
-    if (top && phCard) await page.screenshot({ path: "test-results/screenshots/cox-tables.png", clip: { x: top.x, y: top.y, width: top.width, height: phCard.y + phCard.height - top.y } });
+    const phCard = await page
+      .locator("article", {
+        has: page.getByRole("heading", { name: "Proportional hazards (Grambsch–Therneau)" }),
+      })
+      .boundingBox();
+    if (top && phCard)
+      await page.screenshot({
+        path: "test-results/screenshots/cox-tables.png",
+        clip: { x: top.x, y: top.y, width: top.width, height: phCard.y + phCard.height - top.y },
+      });
     const states = await drawAllFigures(page);
     expect(states.length).toBeGreaterThanOrEqual(9);
     expect(states.every((s) => s === "ready")).toBe(true);
@@ -162,28 +200,45 @@ describe("a stratified Cox model from plan to appendix", () => {
     expect(await km.getAttribute("aria-label")).toMatch(/Kaplan–Meier/);
     const figures = page.getByRole("region", { name: "Survival by arm and the model's residuals" });
     await figures.scrollIntoViewIfNeeded();
-    await page.screenshot({ path: "test-results/screenshots/cox-figures.png", clip: (await figures.boundingBox()) ?? undefined });
+    await page.screenshot({
+      path: "test-results/screenshots/cox-figures.png",
+      clip: (await figures.boundingBox()) ?? undefined,
+    });
     await screenshot(page, "cox-rerun-results-figures");
     const open = () => page.getByRole("button", { name: "Record the assessment" }).count();
     for (let guard = 0; guard < 10 && (await open()) > 0; guard++) {
       const before = await open();
-      const form = page.locator("form", { has: page.getByRole("button", { name: "Record the assessment" }) }).first();
+      const form = page
+        .locator("form", { has: page.getByRole("button", { name: "Record the assessment" }) })
+        .first();
       await form.getByLabel("Category").selectOption("model_assumption");
       await form.getByLabel("Impact on the treatment conclusion").selectOption("none");
       await form.getByLabel("Action taken").selectOption("none");
-      await form.getByLabel("Rationale").fill("Judged on the scaled Schoenfeld and DFBETAS figures; the treatment conclusion is unchanged.");
+      await form
+        .getByLabel("Rationale")
+        .fill("Judged on the scaled Schoenfeld and DFBETAS figures; the treatment conclusion is unchanged.");
       await form.getByRole("button", { name: "Record the assessment" }).click();
       await expect.poll(open, { timeout: 30_000 }).toBeLessThan(before); // the server may be running the planned sensitivity analyses meanwhile
     }
     expect(await open()).toBe(0);
     // the planned restricted-mean analysis runs by itself, as a rerun of its own, and shows its table, with the caution
-    const rmst = page.getByRole("listitem").filter({ hasText: "Restricted mean survival time difference between arms to τ = 180" });
+    const rmst = page
+      .getByRole("listitem")
+      .filter({ hasText: "Restricted mean survival time difference between arms to τ = 180" });
     // queued by itself when the primary completed; the list follows its progress
     await rmst.getByText("Completed", { exact: true }).waitFor({ timeout: 30_000 });
-    await page.getByRole("link", { name: "Restricted mean survival time difference between arms to τ = 180" }).first().click();
-    await page.getByRole("heading", { name: "Restricted mean survival time", exact: true }).waitFor({ timeout: 30_000 });
+    await page
+      .getByRole("link", { name: "Restricted mean survival time difference between arms to τ = 180" })
+      .first()
+      .click();
+    await page
+      .getByRole("heading", { name: "Restricted mean survival time", exact: true })
+      .waitFor({ timeout: 30_000 });
     expect(await page.getByRole("rowheader", { name: "Active vs Placebo" }).count()).toBe(1);
-    await page.getByText(/do not replace/).first().waitFor();
+    await page
+      .getByText(/do not replace/)
+      .first()
+      .waitFor();
     await screenshot(page, "cox-rmst-results");
     await page.context().close();
   }, 120_000);
@@ -199,14 +254,28 @@ describe("a stratified Cox model from plan to appendix", () => {
     await writer.goto(`${rerunUrl.split("/reruns/")[0]}/appendix?rerun=${encodeURIComponent(rerunId)}`);
     await writer.getByRole("article", { name: "Preview of the appendix" }).waitFor({ timeout: 60_000 });
     expect(await writer.locator(`[data-table-key="cox-tests:${rerunId}"]`).count()).toBe(1);
-    expect(await writer.locator(`[data-table-key="checks:${rerunId}"]`).getByText("Proportional hazards (Grambsch–Therneau)").count()).toBe(1);
-    for (const key of ["kaplan_meier", "log_minus_log", "schoenfeld", "martingale_covariate", "cox_influence"]) {
+    expect(
+      await writer
+        .locator(`[data-table-key="checks:${rerunId}"]`)
+        .getByText("Proportional hazards (Grambsch–Therneau)")
+        .count(),
+    ).toBe(1);
+    for (const key of [
+      "kaplan_meier",
+      "log_minus_log",
+      "schoenfeld",
+      "martingale_covariate",
+      "cox_influence",
+    ]) {
       expect(await writer.locator(`[data-figure-key^="${key}:"] img`).count(), key).toBeGreaterThan(0);
     }
     expect(await writer.getByText(/INV-\d{4}/).count()).toBe(0);
     const km = writer.locator('[data-figure-key^="kaplan_meier:"]').first();
     await km.scrollIntoViewIfNeeded();
-    await writer.screenshot({ path: "test-results/screenshots/cox-appendix-km.png", clip: (await km.boundingBox()) ?? undefined });
+    await writer.screenshot({
+      path: "test-results/screenshots/cox-appendix-km.png",
+      clip: (await km.boundingBox()) ?? undefined,
+    });
     await screenshot(writer, "cox-appendix");
     await writer.context().close();
   }, 120_000);

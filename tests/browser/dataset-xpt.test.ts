@@ -25,7 +25,8 @@ beforeAll(async () => {
   await signInAs(page, stack.appUrl, "Dana Okafor");
 });
 afterEach(async (ctx) => {
-  if (ctx.task.result?.state === "fail") await screenshot(page, `dataset-xpt-failed-${ctx.task.name.slice(0, 30).replace(/\W+/g, "-")}`);
+  if (ctx.task.result?.state === "fail")
+    await screenshot(page, `dataset-xpt-failed-${ctx.task.name.slice(0, 30).replace(/\W+/g, "-")}`);
 });
 afterAll(async () => {
   await browser?.close();
@@ -52,7 +53,9 @@ describe("transport files in the browser", () => {
 
   it("an empty file is named as empty (not 'choose a file')", async () => {
     await page.goto(`${stack.appUrl}/studies/${studyId}/datasets`);
-    await page.getByLabel("File").setInputFiles({ name: "empty.csv", mimeType: "text/csv", buffer: Buffer.alloc(0) });
+    await page
+      .getByLabel("File")
+      .setInputFiles({ name: "empty.csv", mimeType: "text/csv", buffer: Buffer.alloc(0) });
     await page.getByRole("button", { name: "Upload and check" }).click();
     const alert = page.getByRole("alert").filter({ hasText: "Nothing was stored" });
     await alert.waitFor();
@@ -64,7 +67,12 @@ describe("transport files in the browser", () => {
       { file: "adsl.json", name: "cdadsljson", label: "Subject Reference Start Date/Time", key: "USUBJID" },
       { file: "adsl.ndjson", name: "cdadslnd", label: "Date of First Exposure to Treatment", key: "USUBJID" },
       { file: "dm.json", name: "cddm", label: "Date/Time of Birth", key: "STUDYID, USUBJID" },
-      { file: "ae.json", name: "cdae", label: "Start Date/Time of Adverse Event", key: "STUDYID, USUBJID, AEDECOD, AESTDTC, AELNKID" },
+      {
+        file: "ae.json",
+        name: "cdae",
+        label: "Start Date/Time of Adverse Event",
+        key: "STUDYID, USUBJID, AEDECOD, AESTDTC, AELNKID",
+      },
       { file: "adae.xpt", name: "cdadae", label: "Analysis Start Date", key: "USUBJID, AESEQ" },
       { file: "dm.xpt", name: "cddmxpt", label: "Date/Time of Birth", key: "USUBJID" },
     ];
@@ -90,4 +98,3 @@ describe("transport files in the browser", () => {
     await screenshot(page, "dataset-cdisc-v1.0-refused");
   });
 });
-

@@ -43,12 +43,23 @@ function demoDatasetJson(): string {
     name: "ADSL",
     label: "Subject-level analysis dataset",
     columns: [
-      { itemOID: "IT.ADSL.USUBJID", name: "USUBJID", label: "Unique subject identifier", dataType: "string", keySequence: 1 },
+      {
+        itemOID: "IT.ADSL.USUBJID",
+        name: "USUBJID",
+        label: "Unique subject identifier",
+        dataType: "string",
+        keySequence: 1,
+      },
       { itemOID: "IT.ADSL.ARM", name: "ARM", label: "Randomised arm", dataType: "string" },
       { itemOID: "IT.ADSL.AGE", name: "AGE", label: "Age at randomisation", dataType: "integer" },
       { itemOID: "IT.ADSL.BRTHDT", name: "BRTHDT", label: "Date of birth", dataType: "date" },
     ],
-    rows: subset.map((r, k) => [r.subjid, r.arm, r.age === "" ? null : Number(r.age), `19${50 + (k % 40)}-0${1 + (k % 9)}-1${k % 10}`]),
+    rows: subset.map((r, k) => [
+      r.subjid,
+      r.arm,
+      r.age === "" ? null : Number(r.age),
+      `19${50 + (k % 40)}-0${1 + (k % 9)}-1${k % 10}`,
+    ]),
   });
 }
 
@@ -66,7 +77,8 @@ beforeAll(async () => {
   await signInAs(page, stack.appUrl, "Dana Okafor");
 });
 afterEach(async (ctx) => {
-  if (ctx.task.result?.state === "fail") await screenshot(page, `datasets-failed-${ctx.task.name.slice(0, 30).replace(/\W+/g, "-")}`);
+  if (ctx.task.result?.state === "fail")
+    await screenshot(page, `datasets-failed-${ctx.task.name.slice(0, 30).replace(/\W+/g, "-")}`);
 });
 afterAll(async () => {
   await browser?.close();
@@ -87,7 +99,9 @@ async function waitForVersionPage(title: string) {
   } catch (e) {
     await screenshot(page, `datasets-failed-${title.replace(/\W+/g, "-")}`);
     const alerts = await page.getByRole("alert").allTextContents();
-    throw new Error(`"${title}" did not appear (at ${page.url()}; alerts: ${alerts.join(" | ")}): ${(e as Error).message}`);
+    throw new Error(
+      `"${title}" did not appear (at ${page.url()}; alerts: ${alerts.join(" | ")}): ${(e as Error).message}`,
+    );
   }
 }
 
@@ -115,25 +129,39 @@ describe("the data manager's datasets", () => {
     expect(await preview.getByRole("cell", { name: "QMT301-0001" }).count()).toBe(0);
     await screenshot(page, "datasets-json-screen");
     const usubjid = page.locator("li", { hasText: "USUBJID" }).filter({ hasText: "Unique identifying" });
-    await usubjid.getByLabel("Why it is not an identifier").fill("Pseudonymous subject code assigned by the study");
+    await usubjid
+      .getByLabel("Why it is not an identifier")
+      .fill("Pseudonymous subject code assigned by the study");
     await usubjid.getByRole("button", { name: "Record: not an identifier" }).click();
     await page.getByText("“Pseudonymous subject code assigned by the study”").waitFor();
     await preview.getByRole("cell", { name: "QMT301-0001" }).waitFor();
-    await page.locator("li", { hasText: "BRTHDT" }).first().getByRole("button", { name: "Remove column BRTHDT" }).click();
+    await page
+      .locator("li", { hasText: "BRTHDT" })
+      .first()
+      .getByRole("button", { name: "Remove column BRTHDT" })
+      .click();
     await waitForVersionPage("adsl · version 2");
     await page.getByText("Derived from version 1 by removing “BRTHDT”").waitFor();
     await page.getByRole("button", { name: "Lock version 2" }).click();
     await page.getByRole("button", { name: "Lock version 2" }).waitFor({ state: "detached" });
-    await page.getByRole("definition").filter({ hasText: /^Locked$/ }).waitFor();
+    await page
+      .getByRole("definition")
+      .filter({ hasText: /^Locked$/ })
+      .waitFor();
     await screenshot(page, "datasets-json-locked");
   });
 
   it("purges the superseded, never-locked version 1 only after the confirmation box is ticked", async () => {
-    const rs = await testDb(stack).execute("SELECT v.id FROM dataset_versions v JOIN datasets d ON d.id = v.dataset_id WHERE d.name = 'adsl' AND v.version = 1");
+    const rs = await testDb(stack).execute(
+      "SELECT v.id FROM dataset_versions v JOIN datasets d ON d.id = v.dataset_id WHERE d.name = 'adsl' AND v.version = 1",
+    );
     await page.goto(`${datasetsUrl()}/${String(rs.rows[0].id)}`);
     const purge = page.getByRole("region", { name: "Purge version 1" });
     await purge.getByRole("button", { name: "Purge version 1" }).click();
-    await purge.getByRole("alert").filter({ hasText: "Confirm that version 1 of adsl and its stored file are to be removed for good" }).waitFor();
+    await purge
+      .getByRole("alert")
+      .filter({ hasText: "Confirm that version 1 of adsl and its stored file are to be removed for good" })
+      .waitFor();
     await purge.getByLabel("I understand that the file of version 1 is removed for good.").check();
     await purge.getByRole("button", { name: "Purge version 1" }).click();
     await page.getByText(/Its stored file and parsed columns were purged by Dana Okafor/).waitFor();
@@ -155,13 +183,26 @@ describe("the data manager's datasets", () => {
     await ageHeader.getByRole("button").click();
     await expect.poll(() => ageHeader.getAttribute("aria-sort")).toBe("ascending");
     // Ascending age: the youngest demo subjects are 18 (the generator's lower bound).
-    await expect.poll(() => page.getByRole("table", { name: "Preview rows" }).getByRole("row").nth(1).getByRole("cell").nth(6).textContent()).toBe("18");
+    await expect
+      .poll(() =>
+        page
+          .getByRole("table", { name: "Preview rows" })
+          .getByRole("row")
+          .nth(1)
+          .getByRole("cell")
+          .nth(6)
+          .textContent(),
+      )
+      .toBe("18");
     // The rationale recorded on version 1 is carried forward: same column, same category.
     const subjid = page.locator("li", { hasText: "subjid" }).filter({ hasText: "Unique identifying" });
     await subjid.getByText(/Dana Okafor, .* carried forward from version 1/).waitFor();
     await page.getByRole("button", { name: "Lock version 2" }).click();
     await page.getByRole("button", { name: "Lock version 2" }).waitFor({ state: "detached" });
-    await page.getByRole("definition").filter({ hasText: /^Locked$/ }).waitFor();
+    await page
+      .getByRole("definition")
+      .filter({ hasText: /^Locked$/ })
+      .waitFor();
     await screenshot(page, "datasets-adeff-v2-locked");
     await page.goto(datasetsUrl());
     await page.getByText("vs v1: +1 −1 ~1 rows").waitFor();

@@ -46,38 +46,94 @@ beforeAll(async () => {
   const reruns = await import("~/.server/reruns/reruns.server");
   const findings = await import("~/.server/reruns/findings.server");
   const person = async (email: string) => {
-    const [p] = await db.select().from(t.people).where(eq(t.people.id, await personId(stack, email)));
+    const [p] = await db
+      .select()
+      .from(t.people)
+      .where(eq(t.people.id, await personId(stack, email)));
     return { id: p.id, name: p.displayName, organisation: p.organisation };
   };
-  const who = { admin: await person(EMAIL.admin), priya: await person(EMAIL.priya), tomas: await person(EMAIL.tomas), helen: await person(EMAIL.helen), sam: await person(EMAIL.sam) };
-  const created = await createStudy(who.admin, { code: "PHN-301", title: "Tables on a phone", sponsor: "Quillmoor Therapeutics", compound: null, indication: null, phase: "3" });
+  const who = {
+    admin: await person(EMAIL.admin),
+    priya: await person(EMAIL.priya),
+    tomas: await person(EMAIL.tomas),
+    helen: await person(EMAIL.helen),
+    sam: await person(EMAIL.sam),
+  };
+  const created = await createStudy(who.admin, {
+    code: "PHN-301",
+    title: "Tables on a phone",
+    sponsor: "Quillmoor Therapeutics",
+    compound: null,
+    indication: null,
+    phase: "3",
+  });
   if (!created.ok) throw new Error(JSON.stringify(created.fieldErrors));
   studyId = created.study.id;
-  for (const [p, role] of [[who.priya, "biostatistician"], [who.tomas, "biostatistician"], [who.helen, "medical_writer"], [who.sam, "sponsor_reader"]] as const) await setStudyRole(who.admin, studyId, p.id, role);
-  await db.insert(t.studyShares).values({ id: crypto.randomUUID(), studyId, organisation: who.sam.organisation ?? "" });
+  for (const [p, role] of [
+    [who.priya, "biostatistician"],
+    [who.tomas, "biostatistician"],
+    [who.helen, "medical_writer"],
+    [who.sam, "sponsor_reader"],
+  ] as const)
+    await setStudyRole(who.admin, studyId, p.id, role);
+  await db
+    .insert(t.studyShares)
+    .values({ id: crypto.randomUUID(), studyId, organisation: who.sam.organisation ?? "" });
   const datasetVersionId = (await seedDemoDataset(studyId)).versionId;
   const locked = await listLockedVersions(studyId);
-  const { versionId } = await plans.createPlan(who.priya, studyId, { title: "Efficacy models", sapName: "Statistical analysis plan", sapVersion: "2.0", sapDate: "2026-10-01" });
-  const v = validatePlannedModel(readPlannedModelForm(demoPrimaryForm()), locked.map((x) => ({ name: x.datasetName, columns: x.columns })), []);
+  const { versionId } = await plans.createPlan(who.priya, studyId, {
+    title: "Efficacy models",
+    sapName: "Statistical analysis plan",
+    sapVersion: "2.0",
+    sapDate: "2026-10-01",
+  });
+  const v = validatePlannedModel(
+    readPlannedModelForm(demoPrimaryForm()),
+    locked.map((x) => ({ name: x.datasetName, columns: x.columns })),
+    [],
+  );
   if (!v.ok) throw new Error(JSON.stringify(v.errors));
   const plannedModelId = await plans.savePlannedModel(who.priya, studyId, versionId, 1, null, v.model);
   await plans.submitForApproval(who.priya, studyId, versionId, 2);
   await plans.approvePlanVersion({ ...who.tomas, signedInAt: new Date().toISOString() }, studyId, versionId);
   // the server's worker runs the primary, then the planned sensitivity analyses it queues
-  rerunId = await reruns.startRerun(who.priya, studyId, { plannedModelId, datasetVersionId, options: { variant: "planned" } });
+  rerunId = await reruns.startRerun(who.priya, studyId, {
+    plannedModelId,
+    datasetVersionId,
+    options: { variant: "planned" },
+  });
   for (let i = 0; i < 900; i++) {
     const children = await reruns.sensitivityReruns(rerunId);
     const primary = await reruns.getRerun(studyId, rerunId);
-    if (primary.rerun.status === "failed") throw new Error(primary.rerun.failureReason ?? "the primary failed");
-    if (primary.rerun.status === "completed" && children.length === 3 && children.every((c) => c.status === "completed")) break;
+    if (primary.rerun.status === "failed")
+      throw new Error(primary.rerun.failureReason ?? "the primary failed");
+    if (
+      primary.rerun.status === "completed" &&
+      children.length === 3 &&
+      children.every((c) => c.status === "completed")
+    )
+      break;
     await new Promise((ok) => setTimeout(ok, 200));
   }
   for (const f of await findings.findingsOf(rerunId)) {
-    await findings.assessFinding(who.priya, studyId, f.id, { category: "model_assumption", impact: "none", action: "planned_sensitivity", rationale: "The planned sensitivity analyses leave the treatment conclusion unchanged; judged on the figures." });
+    await findings.assessFinding(who.priya, studyId, f.id, {
+      category: "model_assumption",
+      impact: "none",
+      action: "planned_sensitivity",
+      rationale:
+        "The planned sensitivity analyses leave the treatment conclusion unchanged; judged on the figures.",
+    });
   }
   await findings.signRerun({ ...who.tomas, signedInAt: new Date().toISOString() }, studyId, rerunId);
   // a draft plan version for the editor's check
-  draftVersionId = (await plans.createPlan(who.priya, studyId, { title: "Secondary models", sapName: "Statistical analysis plan", sapVersion: "2.0", sapDate: "2026-10-01" })).versionId;
+  draftVersionId = (
+    await plans.createPlan(who.priya, studyId, {
+      title: "Secondary models",
+      sapName: "Statistical analysis plan",
+      sapVersion: "2.0",
+      sapDate: "2026-10-01",
+    })
+  ).versionId;
 }, 240_000);
 
 afterAll(async () => {
@@ -98,9 +154,17 @@ async function tablesFit(page: Page): Promise<number> {
     return {
       pageWidth: document.documentElement.scrollWidth,
       wide: [...document.querySelectorAll("body *")]
-        .filter((e) => (e.getBoundingClientRect().right > window.innerWidth + 1 || (e.getAttribute("role") !== "region" && e.scrollWidth > window.innerWidth + 1)) && !e.parentElement?.closest('[role="region"]'))
+        .filter(
+          (e) =>
+            (e.getBoundingClientRect().right > window.innerWidth + 1 ||
+              (e.getAttribute("role") !== "region" && e.scrollWidth > window.innerWidth + 1)) &&
+            !e.parentElement?.closest('[role="region"]'),
+        )
         .slice(-6)
-        .map((e) => `${e.tagName.toLowerCase()}.${String(e.className).slice(0, 40)} ${e.scrollWidth}/${Math.round(e.getBoundingClientRect().right)} "${(e.textContent ?? "").slice(0, 30)}"`),
+        .map(
+          (e) =>
+            `${e.tagName.toLowerCase()}.${String(e.className).slice(0, 40)} ${e.scrollWidth}/${Math.round(e.getBoundingClientRect().right)} "${(e.textContent ?? "").slice(0, 30)}"`,
+        ),
       screen: window.innerWidth,
       tables: tables.map((t) => {
         const region = t.closest('[role="region"]') as HTMLElement | null;
@@ -116,7 +180,10 @@ async function tablesFit(page: Page): Promise<number> {
       }),
     };
   });
-  expect(report.pageWidth, `the page is no wider than the screen; wider: ${report.wide.join(", ")}`).toBeLessThanOrEqual(report.screen);
+  expect(
+    report.pageWidth,
+    `the page is no wider than the screen; wider: ${report.wide.join(", ")}`,
+  ).toBeLessThanOrEqual(report.screen);
   expect(report.tables.length).toBeGreaterThan(0);
   for (const t of report.tables) {
     expect(t.region, `each table scrolls within a region (${t.caption})`).toBe(true);
@@ -132,7 +199,10 @@ describe("tables on a phone, 390 px wide", () => {
     const page = await phone(EMAIL.priya);
     await page.goto(`${stack.appUrl}/studies/${studyId}/reruns/${rerunId}`);
     await page.getByRole("heading", { name: "Sensitivity analyses" }).waitFor();
-    const planned = page.getByRole("heading", { name: "Sensitivity analyses" }).locator("xpath=..").getByRole("listitem");
+    const planned = page
+      .getByRole("heading", { name: "Sensitivity analyses" })
+      .locator("xpath=..")
+      .getByRole("listitem");
     expect(await planned.count()).toBe(3);
     expect(await planned.getByText("Completed", { exact: true }).count()).toBe(3);
     expect(await page.getByRole("button", { name: "Run it" }).count()).toBe(0);
@@ -157,7 +227,10 @@ describe("tables on a phone, 390 px wide", () => {
     await page.goto(`${stack.appUrl}/studies/${studyId}/appendix?rerun=${encodeURIComponent(rerunId)}`);
     await page.getByRole("article", { name: "Preview of the appendix" }).waitFor({ timeout: 60_000 });
     expect(await tablesFit(page)).toBeGreaterThan(0);
-    await page.getByText(/Deviation log with assessments/).first().scrollIntoViewIfNeeded();
+    await page
+      .getByText(/Deviation log with assessments/)
+      .first()
+      .scrollIntoViewIfNeeded();
     await screenshot(page, "phone-appendix-preview");
     await page.screenshot({ path: "test-results/screenshots/phone-appendix-preview-view.png" });
     await page.context().close();
@@ -178,12 +251,21 @@ describe("tables on a phone, 390 px wide", () => {
     const page = await phone(EMAIL.admin);
     // more than one page of 50 events: each export is an audited event of its own
     const cookie = await sessionCookieFor(stack, EMAIL.admin);
-    for (let i = 0; i < 60; i++) await (await fetch(`${stack.appUrl}/admin/audit/export.csv?action=none.`, { headers: { Cookie: cookie } })).text();
+    for (let i = 0; i < 60; i++)
+      await (
+        await fetch(`${stack.appUrl}/admin/audit/export.csv?action=none.`, { headers: { Cookie: cookie } })
+      ).text();
     await page.goto(`${stack.appUrl}/admin/audit?size=50`);
     await page.getByRole("navigation", { name: "Audit trail pages", exact: true }).waitFor();
     expect(await tablesFit(page)).toBe(1);
-    await page.getByRole("navigation", { name: "Audit trail pages", exact: true }).getByRole("link", { name: "Next" }).click();
-    await page.getByText(/page 2 of \d+/).first().waitFor();
+    await page
+      .getByRole("navigation", { name: "Audit trail pages", exact: true })
+      .getByRole("link", { name: "Next" })
+      .click();
+    await page
+      .getByText(/page 2 of \d+/)
+      .first()
+      .waitFor();
     await screenshot(page, "phone-audit-trail");
     await page.getByRole("navigation", { name: "Audit trail pages", exact: true }).scrollIntoViewIfNeeded();
     await page.screenshot({ path: "test-results/screenshots/phone-audit-trail-pager-view.png" });
@@ -211,7 +293,9 @@ describe("the plan editor offers what applies to the family", () => {
     expect(await offered("check:shapiro_wilk:enabled")).toBe(0);
     expect(await offered("sensitivity:robust_hc3")).toBe(1);
     expect(await offered("sensitivity:quasi_poisson")).toBe(0);
-    await page.getByRole("group", { name: "Planned sensitivity analyses" }).screenshot({ path: "test-results/screenshots/editor-binomial-sensitivity.png" });
+    await page
+      .getByRole("group", { name: "Planned sensitivity analyses" })
+      .screenshot({ path: "test-results/screenshots/editor-binomial-sensitivity.png" });
     await page.getByLabel("Family").selectOption("poisson");
     await expect.poll(() => offered("check:overdispersion:enabled")).toBe(1);
     expect(await page.locator('input[name="check:overdispersion:enabled"]').isChecked()).toBe(true);

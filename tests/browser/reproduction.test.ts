@@ -46,7 +46,8 @@ async function post(cookie: string, where: string, fields: [string, string][]): 
     headers: { Cookie: cookie, Origin: stack.appUrl, "Content-Type": "application/x-www-form-urlencoded" },
     body: new URLSearchParams(fields),
   });
-  if (res.status >= 400) throw new Error(`POST ${where} answered ${res.status}: ${(await res.text()).slice(0, 300)}`);
+  if (res.status >= 400)
+    throw new Error(`POST ${where} answered ${res.status}: ${(await res.text()).slice(0, 300)}`);
   await res.body?.cancel();
   return res.headers.get("Location") ?? "";
 }
@@ -59,27 +60,67 @@ async function reproductionStudy(): Promise<void> {
   const { loadLockedTable } = await import("~/.server/datasets/catalog.server");
   const { fitLinear } = await import("~/engine");
   const { roundHalfAwayFromZero } = await import("~/engine/reproduction");
-  const admin = { id: await personId(stack, "morgan.reyes@plumbline.example"), name: "Morgan Reyes", organisation: null };
-  const created = await createStudy(admin, { code: STUDY, title: "Reproduction of published values", sponsor: "Quillmoor Therapeutics", compound: null, indication: null, phase: "3" });
+  const admin = {
+    id: await personId(stack, "morgan.reyes@plumbline.example"),
+    name: "Morgan Reyes",
+    organisation: null,
+  };
+  const created = await createStudy(admin, {
+    code: STUDY,
+    title: "Reproduction of published values",
+    sponsor: "Quillmoor Therapeutics",
+    compound: null,
+    indication: null,
+    phase: "3",
+  });
   if (!created.ok) throw new Error(JSON.stringify(created.fieldErrors));
   studyId = created.study.id;
-  for (const [email, role] of [[PRIYA, "biostatistician"], [TOMAS, "biostatistician"]] as const) await setStudyRole(admin, studyId, await personId(stack, email), role);
+  for (const [email, role] of [
+    [PRIYA, "biostatistician"],
+    [TOMAS, "biostatistician"],
+  ] as const)
+    await setStudyRole(admin, studyId, await personId(stack, email), role);
   const { versionId } = await seedDemoDataset(studyId);
   const { table } = await loadLockedTable(versionId);
   const keep = table.columns.fasfl.map((v, i) => (v === "Y" ? i : -1)).filter((i) => i >= 0);
-  const columns = Object.fromEntries(Object.entries(table.columns).map(([k, v]) => [k, keep.map((i) => v[i])]));
-  const fit = fitLinear({ response: "chg", terms: [{ variable: "arm", categorical: true, reference: "Placebo" }, { variable: "base" }], treatment: "arm", id: "subjid" }, { columns, rowNumbers: keep.map((i) => table.rowNumbers[i]) });
+  const columns = Object.fromEntries(
+    Object.entries(table.columns).map(([k, v]) => [k, keep.map((i) => v[i])]),
+  );
+  const fit = fitLinear(
+    {
+      response: "chg",
+      terms: [{ variable: "arm", categorical: true, reference: "Placebo" }, { variable: "base" }],
+      treatment: "arm",
+      id: "subjid",
+    },
+    { columns, rowNumbers: keep.map((i) => table.rowNumbers[i]) },
+  );
   const high = fit.contrasts?.find((c) => c.level === HIGH);
   if (!high) throw new Error("The demo fit has no High vs Placebo contrast");
   printedHigh = roundHalfAwayFromZero(high.estimate, 2);
 
   const priya = await sessionCookieFor(stack, PRIYA);
   const base = `/studies/${studyId}`;
-  const planUrl = await post(priya, `${base}/plans`, [["title", "Reproduction test plan"], ["sapName", "SAP RPR-301"], ["sapVersion", "1.0"], ["sapDate", "2026-11-20"]]);
+  const planUrl = await post(priya, `${base}/plans`, [
+    ["title", "Reproduction test plan"],
+    ["sapName", "SAP RPR-301"],
+    ["sapVersion", "1.0"],
+    ["sapDate", "2026-11-20"],
+  ]);
   const planVersionId = planUrl.split("/").pop() ?? "";
   await post(priya, `${base}/plans/${planVersionId}/models/new`, [
-    ["revision", "1"], ["key", "primary"], ["title", "Primary efficacy"], ["datasetName", "adeff"], ["populationColumn", "fasfl"], ["populationValue", "Y"],
-    ["response", "chg"], ["family", "gaussian"], ["treatment", "arm"], ["treatmentReference", "Placebo"], ["id", "subjid"], ["covariate", "base"],
+    ["revision", "1"],
+    ["key", "primary"],
+    ["title", "Primary efficacy"],
+    ["datasetName", "adeff"],
+    ["populationColumn", "fasfl"],
+    ["populationValue", "Y"],
+    ["response", "chg"],
+    ["family", "gaussian"],
+    ["treatment", "arm"],
+    ["treatmentReference", "Placebo"],
+    ["id", "subjid"],
+    ["covariate", "base"],
   ]);
   planPath = `${base}/plans/${planVersionId}`;
 }
@@ -93,7 +134,8 @@ afterAll(async () => {
 });
 let current: Page | null = null;
 afterEach(async (ctx) => {
-  if (ctx.task.result?.state === "fail" && current && !current.isClosed()) await screenshot(current, `reproduction-failed-${ctx.task.name.slice(0, 30).replace(/\W+/g, "-")}`);
+  if (ctx.task.result?.state === "fail" && current && !current.isClosed())
+    await screenshot(current, `reproduction-failed-${ctx.task.name.slice(0, 30).replace(/\W+/g, "-")}`);
 });
 
 async function as(name: string): Promise<Page> {
@@ -119,7 +161,10 @@ describe("published values reproduced, or not, by the rerun", () => {
     await first.getByLabel("Number printed").selectOption("estimate");
     // saved without a value: the error stands beside the field and the field says so
     await page.getByRole("button", { name: "Save planned model" }).click();
-    await page.getByText(/needs? attention/).first().waitFor();
+    await page
+      .getByText(/needs? attention/)
+      .first()
+      .waitFor();
     const value1 = page.getByRole("group", { name: "Published value 1" }).getByLabel("Value as printed");
     expect(await value1.getAttribute("aria-invalid")).toBe("true");
     await page.getByText("Give the value exactly as the report printed it, e.g. -2.35 or <0.001.").waitFor();
@@ -145,7 +190,9 @@ describe("published values reproduced, or not, by the rerun", () => {
     await page.context().close();
     // the second biostatistician approves (a fresh sign-in: the signature needs no new round trip)
     await post(await sessionCookieFor(stack, TOMAS), planPath, [["intent", "approve"]]);
-    expect(await one("SELECT status FROM plan_versions WHERE id = ?", [planPath.split("/").pop() ?? ""])).toBe("approved");
+    expect(
+      await one("SELECT status FROM plan_versions WHERE id = ?", [planPath.split("/").pop() ?? ""]),
+    ).toBe("approved");
   }, 120_000);
 
   it("the rerun states each value reproduced or not, among the checks of the plan, and the failure awaits assessment", async () => {
@@ -159,33 +206,59 @@ describe("published values reproduced, or not, by the rerun", () => {
     const card = page.getByRole("article", { name: "Reproduction of the published values" });
     await card.waitFor();
     await card.getByText("1 of 2 published values reproduced.").waitFor();
-    await card.getByText(/half away from zero/).first().waitFor();
+    await card
+      .getByText(/half away from zero/)
+      .first()
+      .waitFor();
     const rows = card.getByRole("row");
     const high = rows.filter({ hasText: HIGH });
     const low = rows.filter({ hasText: LOW });
     expect(await high.getByText("Reproduced", { exact: true }).count()).toBe(1);
-    expect(await high.getByText(`rounds to ${printedHigh.replace(/^-/, "−")}`, { exact: true }).count()).toBe(1); // a true minus sign on the page
+    expect(await high.getByText(`rounds to ${printedHigh.replace(/^-/, "−")}`, { exact: true }).count()).toBe(
+      1,
+    ); // a true minus sign on the page
     expect(await low.getByText("Not reproduced", { exact: true }).count()).toBe(1);
     expect(await low.getByText(/printed 99\.99$/).count()).toBe(1);
     // the check's own outcome, in word and shape, and counted among the checks
     expect(await card.locator("header").getByText("Not reproduced", { exact: true }).count()).toBe(1);
-    await page.getByText(/· [1-9]\d* findings ·/).first().waitFor();
+    await page
+      .getByText(/· [1-9]\d* findings ·/)
+      .first()
+      .waitFor();
     // a failed reproduction is a finding to assess like any other
-    const finding = page.locator("#findings article").filter({ hasText: "Reproduction of the published values: Not reproduced" });
+    const finding = page
+      .locator("#findings article")
+      .filter({ hasText: "Reproduction of the published values: Not reproduced" });
     await finding.getByText("Awaiting assessment").waitFor();
     await card.scrollIntoViewIfNeeded();
-    await page.screenshot({ path: "test-results/screenshots/reproduction-card.png", clip: (await card.boundingBox()) ?? undefined });
+    await page.screenshot({
+      path: "test-results/screenshots/reproduction-card.png",
+      clip: (await card.boundingBox()) ?? undefined,
+    });
     await screenshot(page, "reproduction-rerun");
     await page.context().close();
   }, 120_000);
 
   it("assessed and signed, the appendix and the API answer carry the check and its values", async () => {
     const rerunId = rerunPath.split("/").pop() ?? "";
-    const rs = await testDb(stack).execute({ sql: "SELECT id, check_key FROM findings WHERE rerun_id = ?", args: [rerunId] });
+    const rs = await testDb(stack).execute({
+      sql: "SELECT id, check_key FROM findings WHERE rerun_id = ?",
+      args: [rerunId],
+    });
     expect(rs.rows.map((r) => r.check_key)).toContain("reproduction");
     const priya = await sessionCookieFor(stack, PRIYA);
     for (const r of rs.rows) {
-      await post(priya, rerunPath, [["intent", "assess"], ["findingId", String(r.id)], ["category", "data"], ["impact", "none"], ["action", "none"], ["rationale", "The report's 40 mg estimate was mistyped; the rerun agrees with the analysis datasets."]]);
+      await post(priya, rerunPath, [
+        ["intent", "assess"],
+        ["findingId", String(r.id)],
+        ["category", "data"],
+        ["impact", "none"],
+        ["action", "none"],
+        [
+          "rationale",
+          "The report's 40 mg estimate was mistyped; the rerun agrees with the analysis datasets.",
+        ],
+      ]);
     }
     await post(await sessionCookieFor(stack, TOMAS), rerunPath, [["intent", "sign"]]);
     expect(await one("SELECT signed_at IS NOT NULL FROM reruns WHERE id = ?", [rerunId])).toBe("1");
@@ -200,11 +273,17 @@ describe("published values reproduced, or not, by the rerun", () => {
 
     const { buildAppendixContent } = await import("~/.server/appendix/build-content.server");
     const content = await buildAppendixContent(studyId, { kind: "rerun", rerunId });
-    const paragraphs = content.sections.flatMap((s) => s.blocks).flatMap((b) => (b.kind === "paragraph" ? [b.text] : []));
-    expect(paragraphs.some((t) => t.startsWith("The plan listed 2 values printed in the clinical study report"))).toBe(true);
+    const paragraphs = content.sections
+      .flatMap((s) => s.blocks)
+      .flatMap((b) => (b.kind === "paragraph" ? [b.text] : []));
+    expect(
+      paragraphs.some((t) => t.startsWith("The plan listed 2 values printed in the clinical study report")),
+    ).toBe(true);
     const tables = content.sections.flatMap((s) => s.blocks).filter((b) => b.kind === "table");
     const checks = tables.find((b) => b.key === `checks:${rerunId}`);
-    expect(checks?.rows.find((r) => r[0] === "Reproduction of the published values")?.[3]).toBe("Not reproduced (finding)");
+    expect(checks?.rows.find((r) => r[0] === "Reproduction of the published values")?.[3]).toBe(
+      "Not reproduced (finding)",
+    );
     const values = tables.find((b) => b.key === `reproduction:${rerunId}`);
     expect(values?.rows.map((r) => [r[1], r[3], r[4].split(":")[0]])).toEqual([
       [printedHigh, printedHigh, "Reproduced"],
@@ -216,9 +295,17 @@ describe("published values reproduced, or not, by the rerun", () => {
 
     const { getStudyRerun } = await import("~/.server/api/reruns.server");
     const { RerunAnswer } = await import("~/.server/api/schemas");
-    const person = { id: await personId(stack, PRIYA), displayName: "Priya Lindqvist", email: PRIYA, organisation: null };
+    const person = {
+      id: await personId(stack, PRIYA),
+      displayName: "Priya Lindqvist",
+      email: PRIYA,
+      organisation: null,
+    };
     const body = await getStudyRerun({ tokenId: "test", person }, studyId, rerunId);
-    expect(body.checks.find((c) => c.key === "reproduction")).toMatchObject({ outcome: "finding", statistic: "1 of 2 published values reproduced" });
+    expect(body.checks.find((c) => c.key === "reproduction")).toMatchObject({
+      outcome: "finding",
+      statistic: "1 of 2 published values reproduced",
+    });
     expect(body.reproduction?.values.map((v) => [v.published.value, v.outcome])).toEqual([
       [printedHigh, "reproduced"],
       ["99.99", "not_reproduced"],
@@ -232,7 +319,9 @@ describe("published values reproduced, or not, by the rerun", () => {
     const ajv = new Ajv2020({ strict: false, allErrors: true });
     addFormats(ajv);
     ajv.addSchema(document, "openapi.json");
-    const validate = ajv.compile({ $ref: "openapi.json#/paths/~1api~1v1~1studies~1{studyId}~1reruns~1{rerunId}/get/responses/200/content/application~1json/schema" });
+    const validate = ajv.compile({
+      $ref: "openapi.json#/paths/~1api~1v1~1studies~1{studyId}~1reruns~1{rerunId}/get/responses/200/content/application~1json/schema",
+    });
     expect(validate(JSON.parse(JSON.stringify(answer))), JSON.stringify(validate.errors)).toBe(true);
   }, 120_000);
 });

@@ -51,15 +51,27 @@ const R = planned.model;
 async function sapStudy(): Promise<void> {
   const { createStudy } = await import("~/.server/studies.server");
   const { setStudyRole } = await import("~/.server/people.server");
-  const admin = { id: await personId(stack, "morgan.reyes@plumbline.example"), name: "Morgan Reyes", organisation: null };
-  const created = await createStudy(admin, { code: STUDY, title: "A long dataset analysed as the SAP states it", sponsor: "Quillmoor Therapeutics", compound: null, indication: null, phase: "3" });
+  const admin = {
+    id: await personId(stack, "morgan.reyes@plumbline.example"),
+    name: "Morgan Reyes",
+    organisation: null,
+  };
+  const created = await createStudy(admin, {
+    code: STUDY,
+    title: "A long dataset analysed as the SAP states it",
+    sponsor: "Quillmoor Therapeutics",
+    compound: null,
+    indication: null,
+    phase: "3",
+  });
   if (!created.ok) throw new Error(JSON.stringify(created.fieldErrors));
   const roles = [
     ["dana.okafor@plumbline.example", "data_manager"],
     ["priya.lindqvist@plumbline.example", "biostatistician"],
     ["tomas.berg@plumbline.example", "biostatistician"],
   ] as const;
-  for (const [email, role] of roles) await setStudyRole(admin, created.study.id, await personId(stack, email), role);
+  for (const [email, role] of roles)
+    await setStudyRole(admin, created.study.id, await personId(stack, email), role);
 }
 
 let browser: Browser;
@@ -75,7 +87,8 @@ afterAll(async () => {
 });
 let current: Page | null = null;
 afterEach(async (ctx) => {
-  if (ctx.task.result?.state === "fail" && current && !current.isClosed()) await screenshot(current, `sap-failed-${ctx.task.name.slice(0, 30).replace(/\W+/g, "-")}`);
+  if (ctx.task.result?.state === "fail" && current && !current.isClosed())
+    await screenshot(current, `sap-failed-${ctx.task.name.slice(0, 30).replace(/\W+/g, "-")}`);
 });
 
 async function as(name: string): Promise<Page> {
@@ -91,9 +104,14 @@ async function as(name: string): Promise<Page> {
 
 function runCli(args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
   return new Promise((resolve) => {
-    execFile(path.resolve("node_modules/.bin/tsx"), [path.resolve("app/cli.ts"), ...args], { cwd: path.resolve(".") }, (err, stdout, stderr) => {
-      resolve({ code: err ? (typeof err.code === "number" ? err.code : 1) : 0, stdout, stderr });
-    });
+    execFile(
+      path.resolve("node_modules/.bin/tsx"),
+      [path.resolve("app/cli.ts"), ...args],
+      { cwd: path.resolve(".") },
+      (err, stdout, stderr) => {
+        resolve({ code: err ? (typeof err.code === "number" ? err.code : 1) : 0, stdout, stderr });
+      },
+    );
   });
 }
 
@@ -105,7 +123,10 @@ describe("a long dataset's primary analysis as the SAP states it", () => {
 
   it("the data manager uploads and locks the long dataset", async () => {
     const page = await as("Dana Okafor");
-    await page.getByRole("navigation", { name: "Study sections" }).getByRole("link", { name: "Datasets" }).click();
+    await page
+      .getByRole("navigation", { name: "Study sections" })
+      .getByRole("link", { name: "Datasets" })
+      .click();
     await page.getByLabel("File").setInputFiles(path.join(dir, "adqs.csv"));
     await page.getByRole("button", { name: "Upload and check" }).click();
     await page.getByRole("heading", { name: "adqs · version 1" }).waitFor({ timeout: 30_000 });
@@ -118,7 +139,10 @@ describe("a long dataset's primary analysis as the SAP states it", () => {
     }
     await page.getByRole("button", { name: "Lock version 1" }).click();
     await page.getByRole("button", { name: "Lock version 1" }).waitFor({ state: "detached" });
-    await page.getByRole("definition").filter({ hasText: /^Locked$/ }).waitFor();
+    await page
+      .getByRole("definition")
+      .filter({ hasText: /^Locked$/ })
+      .waitFor();
     await page.context().close();
   }, 90_000);
 
@@ -160,7 +184,10 @@ describe("a long dataset's primary analysis as the SAP states it", () => {
     await page.getByLabel("Holm (step-down)").check();
     // the limits are the wrong way round: the error stands beside the field
     await page.getByRole("button", { name: "Save planned model" }).click();
-    await page.getByText(/needs? attention/).first().waitFor();
+    await page
+      .getByText(/needs? attention/)
+      .first()
+      .waitFor();
     await page.getByText("The lowest value (75) is above the highest (18).").waitFor();
     expect(await page.locator("#pm-pop-3-min").getAttribute("aria-invalid")).toBe("true");
     await page.getByLabel("From (lowest value kept)").fill("18");
@@ -171,7 +198,9 @@ describe("a long dataset's primary analysis as the SAP states it", () => {
     await screenshot(page, "sap-plan-editor");
     await page.getByRole("button", { name: "Save planned model" }).click();
     await page.getByRole("heading", { name: /primary\s*Change in the total score at week 24/ }).waitFor();
-    await page.getByText("EFFFL in Y; PARAMCD in ACTOT; AVISITN in 24; AGE from 18 to 75; SITEID not in 999").waitFor();
+    await page
+      .getByText("EFFFL in Y; PARAMCD in ACTOT; AVISITN in 24; AGE from 18 to 75; SITEID not in 999")
+      .waitFor();
     await page.getByText("every pair of arms").first().waitFor();
     await page.getByText("Holm (step-down)").first().waitFor();
     await page.getByRole("button", { name: "Submit for approval" }).click();
@@ -196,14 +225,24 @@ describe("a long dataset's primary analysis as the SAP states it", () => {
     await page.getByRole("button", { name: "Rerun" }).click();
     await page.getByRole("heading", { name: "Checks of the plan" }).waitFor({ timeout: 60_000 });
     rerunUrl = page.url().split("#")[0];
-    const table = page.getByRole("table").filter({ hasText: "Treatment contrasts between every pair of arms" });
+    const table = page
+      .getByRole("table")
+      .filter({ hasText: "Treatment contrasts between every pair of arms" });
     await table.waitFor();
     expect(await table.getByRole("columnheader", { name: "p adjusted (Holm)", exact: true }).count()).toBe(1);
     for (let k = 0; k < R.label.length; k++) {
-      const row = table.getByRole("row").filter({ has: page.getByRole("rowheader", { name: R.label[k], exact: true }) });
+      const row = table
+        .getByRole("row")
+        .filter({ has: page.getByRole("rowheader", { name: R.label[k], exact: true }) });
       const cells = (await row.getByRole("cell").allInnerTexts()).map((s) => s.trim());
       // Difference, SE, 95% CI, p, p adjusted (Holm): emmeans with weights = "proportional", p.adjust(method = "holm")
-      expect(cells.slice(0, 5), R.label[k]).toEqual([fmt(R.estimate[k]), fmt(R.se[k]), fmtCi(R.lower[k], R.upper[k]), fmtP(R.p[k]), fmtP(R.pAdjusted.holm[k])]);
+      expect(cells.slice(0, 5), R.label[k]).toEqual([
+        fmt(R.estimate[k]),
+        fmt(R.se[k]),
+        fmtCi(R.lower[k], R.upper[k]),
+        fmtP(R.p[k]),
+        fmtP(R.pAdjusted.holm[k]),
+      ]);
       pageValues.push({ label: R.label[k], cells });
     }
     // car::Anova(type = 2): the overall F of the treatment term
@@ -211,16 +250,26 @@ describe("a long dataset's primary analysis as the SAP states it", () => {
     await page.getByText(pageTest).waitFor();
     await page.getByText(`${ref.n} used`).waitFor();
     await page.getByText(`EFFFL in Y: ${ref.population.removed[0]} removed`).waitFor();
-    await page.getByText(/do not replace/).first().waitFor();
+    await page
+      .getByText(/do not replace/)
+      .first()
+      .waitFor();
     const effect = page.getByRole("region", { name: "Treatment effect", exact: true });
-    await page.screenshot({ path: "test-results/screenshots/sap-treatment-effect.png", clip: (await effect.boundingBox()) ?? undefined });
+    await page.screenshot({
+      path: "test-results/screenshots/sap-treatment-effect.png",
+      clip: (await effect.boundingBox()) ?? undefined,
+    });
     await screenshot(page, "sap-rerun-results");
     await page.context().close();
   }, 120_000);
 
   it("the page, the API answer and the headless command fed the planned model's specification agree", async () => {
     const { createToken } = await import("~/.server/api/tokens.server");
-    const priya = { id: await personId(stack, "priya.lindqvist@plumbline.example"), name: "Priya Lindqvist", organisation: null };
+    const priya = {
+      id: await personId(stack, "priya.lindqvist@plumbline.example"),
+      name: "Priya Lindqvist",
+      organisation: null,
+    };
     const made = await createToken(priya, { name: "validation script", days: 7 });
     if (!made.ok) throw new Error(made.message);
     const get = async (p: string) => {
@@ -253,20 +302,57 @@ describe("a long dataset's primary analysis as the SAP states it", () => {
     expect(api.results.treatmentEffect.test.df2).toBe(cli.tests.treatment.df2);
     expect(api.results.contrasts.map((c: { label: string }) => c.label)).toEqual(R.label);
     expect(cli.contrasts.map((c: { label: string }) => c.label)).toEqual(R.label);
-    api.results.contrasts.forEach((c: { estimate: number; se: number; lower: number; upper: number; statistic: number; p: number; pAdjusted: number }, k: number) => {
-      const x = cli.contrasts[k];
-      // the same numbers, bit for bit: one engine, one specification
-      expect([c.estimate, c.se, c.lower, c.upper, c.statistic, c.p, c.pAdjusted]).toEqual([x.estimate, x.se, x.lower, x.upper, x.statistic, x.p, x.pAdjusted]);
-      const shown = pageValues[k].cells.slice(0, 5);
-      expect(shown).toEqual([fmt(c.estimate), fmt(c.se), fmtCi(c.lower, c.upper), fmtP(c.p), fmtP(c.pAdjusted)]);
-    });
+    api.results.contrasts.forEach(
+      (
+        c: {
+          estimate: number;
+          se: number;
+          lower: number;
+          upper: number;
+          statistic: number;
+          p: number;
+          pAdjusted: number;
+        },
+        k: number,
+      ) => {
+        const x = cli.contrasts[k];
+        // the same numbers, bit for bit: one engine, one specification
+        expect([c.estimate, c.se, c.lower, c.upper, c.statistic, c.p, c.pAdjusted]).toEqual([
+          x.estimate,
+          x.se,
+          x.lower,
+          x.upper,
+          x.statistic,
+          x.p,
+          x.pAdjusted,
+        ]);
+        const shown = pageValues[k].cells.slice(0, 5);
+        expect(shown).toEqual([
+          fmt(c.estimate),
+          fmt(c.se),
+          fmtCi(c.lower, c.upper),
+          fmtP(c.p),
+          fmtP(c.pAdjusted),
+        ]);
+      },
+    );
 
     // the Word appendix of the signed rerun: the same contrasts, the method named
     const findings = await import("~/.server/reruns/findings.server");
     for (const f of await findings.findingsOf(rerunId)) {
-      await findings.assessFinding(priya, studyId, f.id, { category: "model_assumption", impact: "none", action: "none", rationale: "Invented data; the treatment conclusion is unchanged." });
+      await findings.assessFinding(priya, studyId, f.id, {
+        category: "model_assumption",
+        impact: "none",
+        action: "none",
+        rationale: "Invented data; the treatment conclusion is unchanged.",
+      });
     }
-    const tomas = { id: await personId(stack, "tomas.berg@plumbline.example"), name: "Tomas Berg", organisation: null, signedInAt: new Date().toISOString() };
+    const tomas = {
+      id: await personId(stack, "tomas.berg@plumbline.example"),
+      name: "Tomas Berg",
+      organisation: null,
+      signedInAt: new Date().toISOString(),
+    };
     await findings.signRerun(tomas, studyId, rerunId);
     const { buildAppendixContent } = await import("~/.server/appendix/build-content.server");
     const content = await buildAppendixContent(studyId, { kind: "rerun", rerunId });
@@ -281,7 +367,10 @@ describe("a long dataset's primary analysis as the SAP states it", () => {
       expect(row[0]).toBe(R.label[k]);
       expect([row[1], row[2], row[3], row[5], row[6]]).toEqual(pageValues[k].cells.slice(0, 5));
     });
-    const methods = blocks.filter((b) => b.kind === "paragraph").map((b) => (b.kind === "paragraph" ? b.text : "")).join(" ");
+    const methods = blocks
+      .filter((b) => b.kind === "paragraph")
+      .map((b) => (b.kind === "paragraph" ? b.text : ""))
+      .join(" ");
     expect(methods).toMatch(/Holm \(step-down\) method \(Holm 1979\)/);
     expect(methods).toContain("AGE from 18 to 75");
   }, 120_000);

@@ -16,14 +16,38 @@ afterAll(async () => {
   await browser?.close();
 });
 
-const STUDY_SECTIONS = ["Overview", "Datasets", "Analysis plans", "Reruns", "Deviation log", "Appendix", "Reports"];
+const STUDY_SECTIONS = [
+  "Overview",
+  "Datasets",
+  "Analysis plans",
+  "Reruns",
+  "Deviation log",
+  "Appendix",
+  "Reports",
+];
 
 const CASES: { who: string; name: string; admin: boolean; sections: string[] | null; sponsor?: true }[] = [
   { who: "administrator", name: "Morgan Reyes", admin: true, sections: null },
   { who: "data manager", name: "Dana Okafor", admin: false, sections: ["Overview", "Datasets"] },
-  { who: "biostatistician", name: "Priya Lindqvist", admin: false, sections: ["Overview", "Datasets", "Analysis plans", "Reruns", "Deviation log", "Reports"] },
-  { who: "medical writer", name: "Helen Achter", admin: false, sections: ["Overview", "Analysis plans", "Reruns", "Deviation log", "Appendix", "Reports"] },
-  { who: "sponsor reader", name: "Sam Quill", admin: false, sections: ["Overview", "Reports"], sponsor: true },
+  {
+    who: "biostatistician",
+    name: "Priya Lindqvist",
+    admin: false,
+    sections: ["Overview", "Datasets", "Analysis plans", "Reruns", "Deviation log", "Reports"],
+  },
+  {
+    who: "medical writer",
+    name: "Helen Achter",
+    admin: false,
+    sections: ["Overview", "Analysis plans", "Reruns", "Deviation log", "Appendix", "Reports"],
+  },
+  {
+    who: "sponsor reader",
+    name: "Sam Quill",
+    admin: false,
+    sections: ["Overview", "Reports"],
+    sponsor: true,
+  },
 ];
 
 describe("signing in through the fake identity provider", () => {
@@ -56,7 +80,12 @@ describe("signing in through the fake identity provider", () => {
         await screenshot(page, "audit-trail");
       }
       await page.getByRole("button", { name: "Sign out" }).click();
-      await page.waitForURL((url) => url.pathname.startsWith("/sign-in") || url.pathname.startsWith("/signed-out") || url.origin !== new URL(stack.appUrl).origin);
+      await page.waitForURL(
+        (url) =>
+          url.pathname.startsWith("/sign-in") ||
+          url.pathname.startsWith("/signed-out") ||
+          url.origin !== new URL(stack.appUrl).origin,
+      );
       await context.close();
     });
   }

@@ -61,13 +61,21 @@ describe("a sponsor reads the published report", () => {
     const html = await page.content();
     expect(html).not.toMatch(/QMT301-/);
     expect(html).toContain("subject ranked 1");
-    expect(await page.getByText("Results support, but do not replace, qualified statistical and medical review.").count()).toBeGreaterThan(0);
+    expect(
+      await page
+        .getByText("Results support, but do not replace, qualified statistical and medical review.")
+        .count(),
+    ).toBeGreaterThan(0);
     for (const forbidden of ["Rerun again with the same inputs", "Sign this rerun", "Upload", "Run it"]) {
       expect(await page.getByRole("button", { name: forbidden }).count()).toBe(0);
     }
     await screenshot(page, "sponsor-report");
 
-    for (const path of [`/studies/${studyId}/reruns/${published}`, `/studies/${studyId}/datasets`, `/studies/${studyId}/plans`]) {
+    for (const path of [
+      `/studies/${studyId}/reruns/${published}`,
+      `/studies/${studyId}/datasets`,
+      `/studies/${studyId}/plans`,
+    ]) {
       const res = await page.goto(`${stack.appUrl}${path}`);
       expect(`${path} ${res?.status()}`).toBe(`${path} 403`);
     }

@@ -20,10 +20,16 @@ let ids: string[] = [];
 beforeAll(async () => {
   browser = await launchBrowser();
   ({ studyId, rerunId } = await ensurePublishedRerun(stack));
-  const rs = await testDb(stack).execute({ sql: "SELECT result_json FROM reruns WHERE id = ?", args: [rerunId] });
-  const doc = JSON.parse(String(rs.rows[0]?.result_json ?? "{}")) as { result: { observations: { id: (string | null)[] } } };
+  const rs = await testDb(stack).execute({
+    sql: "SELECT result_json FROM reruns WHERE id = ?",
+    args: [rerunId],
+  });
+  const doc = JSON.parse(String(rs.rows[0]?.result_json ?? "{}")) as {
+    result: { observations: { id: (string | null)[] } };
+  };
   ids = doc.result.observations.id.filter((x): x is string => Boolean(x));
-  if (ids.length < 100) throw new Error("The signed rerun names no subjects: the demo data should have subjid.");
+  if (ids.length < 100)
+    throw new Error("The signed rerun names no subjects: the demo data should have subjid.");
 }, 180_000);
 afterAll(async () => {
   await browser?.close();
@@ -32,14 +38,21 @@ afterAll(async () => {
 const namedIn = (text: string) => ids.filter((id) => text.includes(id)).slice(0, 3);
 
 /** Opens the results page signed in as this person; collects every figure answer the browser (page or figure worker) receives. */
-async function openResults(name: string): Promise<{ context: BrowserContext; html: string; figureBodies: Map<string, string> }> {
+async function openResults(
+  name: string,
+): Promise<{ context: BrowserContext; html: string; figureBodies: Map<string, string> }> {
   const context = await browser.newContext({ viewport: { width: 1360, height: 900 } });
   const page = await context.newPage();
   const figureBodies = new Map<string, string>();
   const pending: Promise<void>[] = [];
   const keep = (res: Response) => {
     if (!/\/figures\/[a-z_]+/.test(new URL(res.url()).pathname)) return;
-    pending.push(res.text().then((t) => void figureBodies.set(res.url(), t), () => undefined));
+    pending.push(
+      res.text().then(
+        (t) => void figureBodies.set(res.url(), t),
+        () => undefined,
+      ),
+    );
   };
   context.on("response", keep);
   await signInAs(page, stack.appUrl, name);
@@ -50,7 +63,11 @@ async function openResults(name: string): Promise<{ context: BrowserContext; htm
   await Promise.all(pending);
   if (figureBodies.size === 0) {
     // Responses from the figure worker are not reported in every Chromium: fetch them as the browser.
-    const urls = await page.locator("[data-figure]").evaluateAll((els) => [...new Set(els.map((el) => (el as HTMLElement).dataset.figureUrl ?? ""))].filter(Boolean));
+    const urls = await page
+      .locator("[data-figure]")
+      .evaluateAll((els) =>
+        [...new Set(els.map((el) => (el as HTMLElement).dataset.figureUrl ?? ""))].filter(Boolean),
+      );
     for (const u of urls) figureBodies.set(u, await page.evaluate(async (x) => (await fetch(x)).text(), u));
   }
   const html = await page.content();

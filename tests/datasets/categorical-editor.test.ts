@@ -38,23 +38,51 @@ const datasets = [
     version: 1,
     rowCount: 96,
     columns: [
-      { name: "arm", label: null, type: "text" as const, levels: [{ value: "Active", count: 48 }, { value: "Placebo", count: 48 }] },
-      { name: "sitegr1", label: "Pooled site group 1", type: "number" as const, levels: [{ value: "701", count: 50 }, { value: "703", count: 46 }], looksCategorical: "2 distinct whole-number values" },
+      {
+        name: "arm",
+        label: null,
+        type: "text" as const,
+        levels: [
+          { value: "Active", count: 48 },
+          { value: "Placebo", count: 48 },
+        ],
+      },
+      {
+        name: "sitegr1",
+        label: "Pooled site group 1",
+        type: "number" as const,
+        levels: [
+          { value: "701", count: 50 },
+          { value: "703", count: 46 },
+        ],
+        looksCategorical: "2 distinct whole-number values",
+      },
       { name: "base", label: null, type: "number" as const },
       { name: "chg", label: null, type: "number" as const },
     ],
   },
 ];
-const message = "sitegr1 looks categorical (2 distinct whole-number values): choose whether it enters the model as categorical or continuous.";
+const message =
+  "sitegr1 looks categorical (2 distinct whole-number values): choose whether it enters the model as categorical or continuous.";
 
 describe("plan editor: covariate that looks categorical", () => {
-  const html = renderToString(createElement(PlannedModelEditor, { initial: form, errors: { "covariate:sitegr1": message }, datasets, checkCatalogue: [], isNew: false }));
+  const html = renderToString(
+    createElement(PlannedModelEditor, {
+      initial: form,
+      errors: { "covariate:sitegr1": message },
+      datasets,
+      checkCatalogue: [],
+      isNew: false,
+    }),
+  );
 
   it("offers an explicit choice with nothing chosen, and shows the refusal beside the field", () => {
     expect(html).toContain("looks categorical (2 distinct whole-number values)");
     expect(html).toMatch(/<select[^>]*aria-label="How sitegr1 enters the model"[^>]*name="as:sitegr1"/);
     expect(html).toMatch(/<option value="" selected="">Choose…<\/option>/);
-    expect(html).toContain(`id="cov-sitegr1-error" class="mt-1 text-xs font-medium text-finding" role="alert">${message}`);
+    expect(html).toContain(
+      `id="cov-sitegr1-error" class="mt-1 text-xs font-medium text-finding" role="alert">${message}`,
+    );
   });
 
   it("keeps the plain categorical box for a numeric column that does not look categorical", () => {

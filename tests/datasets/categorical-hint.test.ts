@@ -11,10 +11,15 @@ import { inferType, summariseColumn, type ColumnMeta } from "~/.server/datasets/
 import { readPlannedModelForm, validatePlannedModel } from "~/.server/plans/planned-model";
 import { readCsvText } from "~/engine-io/read-csv";
 
-const table = readCsvText(readFileSync(join(import.meta.dirname, "..", "engine", "coded-site-group", "data.csv"), "utf8"));
-const columns: ColumnMeta[] = Object.entries(table.columns).map(([name, cells]) => summariseColumn(name, null, inferType(cells), cells));
+const table = readCsvText(
+  readFileSync(join(import.meta.dirname, "..", "engine", "coded-site-group", "data.csv"), "utf8"),
+);
+const columns: ColumnMeta[] = Object.entries(table.columns).map(([name, cells]) =>
+  summariseColumn(name, null, inferType(cells), cells),
+);
 
-const meta = (name: string, cells: string[], label: string | null = null) => summariseColumn(name, label, inferType(cells), cells);
+const meta = (name: string, cells: string[], label: string | null = null) =>
+  summariseColumn(name, label, inferType(cells), cells);
 const spread = (k: number) => Array.from({ length: k }, (_, i) => String(i * 3 + 1));
 
 describe("columns that look categorical", () => {
@@ -44,7 +49,15 @@ describe("columns that look categorical", () => {
       meta("WEIGHT", spread(20), "Weight (kg)"),
     ];
     const hints = categoricalHints(cols);
-    expect([...hints.keys()]).toEqual(["score12", "SAFFL", "AGEGR1N", "ARMCD", "site_group", "AVISITN", "REGION1"]);
+    expect([...hints.keys()]).toEqual([
+      "score12",
+      "SAFFL",
+      "AGEGR1N",
+      "ARMCD",
+      "site_group",
+      "AVISITN",
+      "REGION1",
+    ]);
     expect(hints.get("AVISITN")).toBe("numeric codes of AVISIT");
     expect(hints.get("REGION1")).toBe("its label says group");
   });
@@ -54,7 +67,17 @@ describe("plan editor: a column that looks categorical needs an explicit choice"
   const datasets = [{ name: "adeff", columns }];
   const form = (extra: Record<string, string> = {}) => {
     const f = new FormData();
-    for (const [k, v] of Object.entries({ key: "primary", title: "Primary efficacy", datasetName: "adeff", response: "chg", family: "gaussian", treatment: "arm", treatmentReference: "Placebo", ...extra })) f.set(k, v);
+    for (const [k, v] of Object.entries({
+      key: "primary",
+      title: "Primary efficacy",
+      datasetName: "adeff",
+      response: "chg",
+      family: "gaussian",
+      treatment: "arm",
+      treatmentReference: "Placebo",
+      ...extra,
+    }))
+      f.set(k, v);
     f.append("covariate", "base");
     f.append("covariate", "sitegr1");
     return readPlannedModelForm(f);
@@ -64,26 +87,52 @@ describe("plan editor: a column that looks categorical needs an explicit choice"
     const result = validatePlannedModel(form(), datasets, []);
     expect(result.ok).toBe(false);
     if (result.ok) return;
-    expect(result.errors["covariate:sitegr1"]).toBe("sitegr1 looks categorical (6 distinct whole-number values): choose whether it enters the model as categorical or continuous.");
+    expect(result.errors["covariate:sitegr1"]).toBe(
+      "sitegr1 looks categorical (6 distinct whole-number values): choose whether it enters the model as categorical or continuous.",
+    );
     expect(result.errors["covariate:base"]).toBeUndefined();
   });
 
   it("refuses an alternative covariate set that would bring in such a column with no choice made", () => {
     const f = new FormData();
-    for (const [k, v] of Object.entries({ key: "primary", title: "Primary efficacy", datasetName: "adeff", response: "chg", family: "gaussian", treatment: "arm", treatmentReference: "Placebo" })) f.set(k, v);
+    for (const [k, v] of Object.entries({
+      key: "primary",
+      title: "Primary efficacy",
+      datasetName: "adeff",
+      response: "chg",
+      family: "gaussian",
+      treatment: "arm",
+      treatmentReference: "Placebo",
+    }))
+      f.set(k, v);
     f.append("covariate", "base");
     f.set("sensitivity:alternative_covariates", "on");
     f.append("sensitivity:covariate", "sitegr1");
     const result = validatePlannedModel(readPlannedModelForm(f), datasets, []);
     expect(result.ok).toBe(false);
-    if (!result.ok) expect(result.errors["sensitivity:covariate"]).toMatch(/^sitegr1 looks categorical and is not in the main model/);
+    if (!result.ok)
+      expect(result.errors["sensitivity:covariate"]).toMatch(
+        /^sitegr1 looks categorical and is not in the main model/,
+      );
   });
 
   it("keeps the explicit choice in the stored terms", () => {
-    const asCategorical = validatePlannedModel(form({ "as:sitegr1": "categorical", "reference:sitegr1": "703" }), datasets, []);
-    expect(asCategorical.ok && asCategorical.model.spec.terms.find((t) => "variable" in t && t.variable === "sitegr1")).toEqual({ variable: "sitegr1", categorical: true, reference: "703" });
+    const asCategorical = validatePlannedModel(
+      form({ "as:sitegr1": "categorical", "reference:sitegr1": "703" }),
+      datasets,
+      [],
+    );
+    expect(
+      asCategorical.ok &&
+        asCategorical.model.spec.terms.find((t) => "variable" in t && t.variable === "sitegr1"),
+    ).toEqual({ variable: "sitegr1", categorical: true, reference: "703" });
     const asContinuous = validatePlannedModel(form({ "as:sitegr1": "continuous" }), datasets, []);
-    expect(asContinuous.ok && asContinuous.model.spec.terms.find((t) => "variable" in t && t.variable === "sitegr1")).toEqual({ variable: "sitegr1", categorical: false });
-    expect(asContinuous.ok && asContinuous.model.spec.terms.find((t) => "variable" in t && t.variable === "base")).toEqual({ variable: "base" });
+    expect(
+      asContinuous.ok &&
+        asContinuous.model.spec.terms.find((t) => "variable" in t && t.variable === "sitegr1"),
+    ).toEqual({ variable: "sitegr1", categorical: false });
+    expect(
+      asContinuous.ok && asContinuous.model.spec.terms.find((t) => "variable" in t && t.variable === "base"),
+    ).toEqual({ variable: "base" });
   });
 });

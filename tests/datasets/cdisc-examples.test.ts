@@ -52,11 +52,17 @@ describe("CDISC Dataset-JSON v1.1 examples through the parse step", () => {
     expect(d.format).toBe("dataset-json");
     expect(d.rowNumbers).toHaveLength(254);
     expect(d.datasetLabel).toBe("Subject-Level Analysis");
-    expect(d.columns.map((c) => [c.name, c.label, c.declaredType])).toEqual(file.columns.map((c) => [c.name, c.label, c.dataType]));
+    expect(d.columns.map((c) => [c.name, c.label, c.declaredType])).toEqual(
+      file.columns.map((c) => [c.name, c.label, c.dataType]),
+    );
     expect(d.keyColumns).toEqual(["USUBJID"]);
     expect(d.keySource).toBe("file");
     // RFSTDTC is declared datetime and holds dates only (CDISC's file): kept as text, typed datetime, precision day.
-    expect(col(d, "RFSTDTC")).toMatchObject({ type: "datetime", valueType: "datetime", precision: { day: 254 } });
+    expect(col(d, "RFSTDTC")).toMatchObject({
+      type: "datetime",
+      valueType: "datetime",
+      precision: { day: 254 },
+    });
     expect(cells(d, "RFSTDTC")[0]).toBe("2014-01-02");
     expect(col(d, "TRTSDT")).toMatchObject({ type: "date", declaredType: "date", format: "DATE9." });
     expect(col(d, "AGE")).toMatchObject({ type: "number", valueType: "integer", label: "Age" });
@@ -74,7 +80,11 @@ describe("CDISC Dataset-JSON v1.1 examples through the parse step", () => {
   it("dm.json: year-only birth dates are valid partial dates; composite key STUDYID, USUBJID", async () => {
     const d = await parse("dm.json");
     expect(d.keyColumns).toEqual(["STUDYID", "USUBJID"]);
-    expect(col(d, "BRTHDTC")).toMatchObject({ label: "Date/Time of Birth", type: "date", precision: { year: 18 } });
+    expect(col(d, "BRTHDTC")).toMatchObject({
+      label: "Date/Time of Birth",
+      type: "date",
+      precision: { year: 18 },
+    });
     expect(cells(d, "BRTHDTC")[0]).toBe("1928");
     expect(col(d, "RFSTDTC").missing).toBe(cells(d, "RFSTDTC").filter((c) => c === "").length);
   });
@@ -82,7 +92,10 @@ describe("CDISC Dataset-JSON v1.1 examples through the parse step", () => {
   it("ae.json: the declared five-column key holds, although AEDECOD is empty in every record", async () => {
     const d = await parse("ae.json");
     const file = declared("ae.json");
-    const key = file.columns.filter((c) => c.keySequence !== undefined).sort((a, b) => (a.keySequence as number) - (b.keySequence as number)).map((c) => c.name);
+    const key = file.columns
+      .filter((c) => c.keySequence !== undefined)
+      .sort((a, b) => (a.keySequence as number) - (b.keySequence as number))
+      .map((c) => c.name);
     expect(key).toEqual(["STUDYID", "USUBJID", "AEDECOD", "AESTDTC", "AELNKID"]);
     expect(d.keyColumns).toEqual(key);
     expect(d.rowNumbers).toHaveLength(74);
@@ -110,14 +123,20 @@ interface HavenColumn {
 describe("CDISC transport files (.xpt) against R's haven::read_xpt", () => {
   for (const name of ["adsl", "adae", "dm"]) {
     it(`${name}.xpt: names, labels, formats, dataset label and every cell as haven reads them`, async () => {
-      const ref = JSON.parse(readFileSync(join(CDISC, "xpt-reference", `${name}.json`), "utf8")) as { label: string | null; rows: number; columns: HavenColumn[] };
+      const ref = JSON.parse(readFileSync(join(CDISC, "xpt-reference", `${name}.json`), "utf8")) as {
+        label: string | null;
+        rows: number;
+        columns: HavenColumn[];
+      };
       const d = await parse(`${name}.xpt`);
       expect(d.format).toBe("xpt");
       expect(d.rowNumbers).toHaveLength(ref.rows);
       if (ref.label !== null) expect(d.datasetLabel).toBe(ref.label);
       expect(d.names).toEqual(ref.columns.map((c) => c.name));
       expect(d.columns.map((c) => c.label)).toEqual(ref.columns.map((c) => c.label));
-      expect(d.columns.map((c) => c.format?.replace(/\.$/, "") ?? null)).toEqual(ref.columns.map((c) => c.format));
+      expect(d.columns.map((c) => c.format?.replace(/\.$/, "") ?? null)).toEqual(
+        ref.columns.map((c) => c.format),
+      );
       expect(d.columns.map((c) => c.declaredType)).toEqual(ref.columns.map((c) => c.type));
       let compared = 0;
       ref.columns.forEach((rc, j) => {
@@ -136,7 +155,12 @@ describe("CDISC transport files (.xpt) against R's haven::read_xpt", () => {
 
   it("adsl.xpt: DATE9. numbers become ISO 8601 dates, the key is detected, labels kept", async () => {
     const d = await parse("adsl.xpt");
-    expect(col(d, "TRTSDT")).toMatchObject({ type: "date", valueType: "date", format: "DATE9.", label: "Date of First Exposure to Treatment" });
+    expect(col(d, "TRTSDT")).toMatchObject({
+      type: "date",
+      valueType: "date",
+      format: "DATE9.",
+      label: "Date of First Exposure to Treatment",
+    });
     // Same subject, same date as CDISC's Dataset-JSON file of the same dataset.
     const json = await parse("adsl.json");
     expect(cells(d, "TRTSDT")).toEqual(cells(json, "TRTSDT"));
@@ -151,14 +175,62 @@ describe("CDISC transport files (.xpt) against R's haven::read_xpt", () => {
 });
 
 describe("inspect on every example file", () => {
-  const files: { file: string; format: string; rows: number; key: string[]; dateColumn: [string, string, string] }[] = [
-    { file: "adsl.json", format: "dataset-json", rows: 254, key: ["USUBJID"], dateColumn: ["RFSTDTC", "Subject Reference Start Date/Time", "datetime"] },
-    { file: "adsl.ndjson", format: "dataset-json", rows: 254, key: ["USUBJID"], dateColumn: ["TRTSDT", "Date of First Exposure to Treatment", "date"] },
-    { file: "dm.json", format: "dataset-json", rows: 18, key: ["STUDYID", "USUBJID"], dateColumn: ["BRTHDTC", "Date/Time of Birth", "date"] },
-    { file: "ae.json", format: "dataset-json", rows: 74, key: ["STUDYID", "USUBJID", "AEDECOD", "AESTDTC", "AELNKID"], dateColumn: ["AESTDTC", "Start Date/Time of Adverse Event", "date"] },
-    { file: "adsl.xpt", format: "xpt", rows: 254, key: ["USUBJID"], dateColumn: ["TRTSDT", "Date of First Exposure to Treatment", "date"] },
-    { file: "adae.xpt", format: "xpt", rows: 1191, key: ["USUBJID", "AESEQ"], dateColumn: ["ASTDT", "Analysis Start Date", "date"] },
-    { file: "dm.xpt", format: "xpt", rows: 18, key: ["USUBJID"], dateColumn: ["BRTHDTC", "Date/Time of Birth", "date"] },
+  const files: {
+    file: string;
+    format: string;
+    rows: number;
+    key: string[];
+    dateColumn: [string, string, string];
+  }[] = [
+    {
+      file: "adsl.json",
+      format: "dataset-json",
+      rows: 254,
+      key: ["USUBJID"],
+      dateColumn: ["RFSTDTC", "Subject Reference Start Date/Time", "datetime"],
+    },
+    {
+      file: "adsl.ndjson",
+      format: "dataset-json",
+      rows: 254,
+      key: ["USUBJID"],
+      dateColumn: ["TRTSDT", "Date of First Exposure to Treatment", "date"],
+    },
+    {
+      file: "dm.json",
+      format: "dataset-json",
+      rows: 18,
+      key: ["STUDYID", "USUBJID"],
+      dateColumn: ["BRTHDTC", "Date/Time of Birth", "date"],
+    },
+    {
+      file: "ae.json",
+      format: "dataset-json",
+      rows: 74,
+      key: ["STUDYID", "USUBJID", "AEDECOD", "AESTDTC", "AELNKID"],
+      dateColumn: ["AESTDTC", "Start Date/Time of Adverse Event", "date"],
+    },
+    {
+      file: "adsl.xpt",
+      format: "xpt",
+      rows: 254,
+      key: ["USUBJID"],
+      dateColumn: ["TRTSDT", "Date of First Exposure to Treatment", "date"],
+    },
+    {
+      file: "adae.xpt",
+      format: "xpt",
+      rows: 1191,
+      key: ["USUBJID", "AESEQ"],
+      dateColumn: ["ASTDT", "Analysis Start Date", "date"],
+    },
+    {
+      file: "dm.xpt",
+      format: "xpt",
+      rows: 18,
+      key: ["USUBJID"],
+      dateColumn: ["BRTHDTC", "Date/Time of Birth", "date"],
+    },
   ];
 
   it("prints one JSON object with format, rows, labelled and typed columns and the key; exit 0", async () => {
@@ -167,12 +239,19 @@ describe("inspect on every example file", () => {
       const f = files[k];
       expect(run.code, run.stderr).toBe(0);
       expect(run.stdout.trim().split("\n")).toHaveLength(1);
-      const out = JSON.parse(run.stdout) as { format: string; rows: number; columns: { name: string; label: string | null; type: string }[]; key: string[]; problems: unknown[] };
+      const out = JSON.parse(run.stdout) as {
+        format: string;
+        rows: number;
+        columns: { name: string; label: string | null; type: string }[];
+        key: string[];
+        problems: unknown[];
+      };
       expect(Object.keys(out)).toEqual(["format", "rows", "columns", "key", "problems"]);
       expect(out).toMatchObject({ format: f.format, rows: f.rows, key: f.key });
       const [name, label, type] = f.dateColumn;
       expect(out.columns.find((c) => c.name === name)).toEqual({ name, label, type });
-      for (const c of out.columns) expect(["number", "integer", "text", "date", "datetime", "time"]).toContain(c.type);
+      for (const c of out.columns)
+        expect(["number", "integer", "text", "date", "datetime", "time"]).toContain(c.type);
       expect(out.columns.find((c) => c.name === "USUBJID")?.label).toBe("Unique Subject Identifier");
     });
   });
@@ -182,7 +261,9 @@ describe("inspect on every example file", () => {
     expect(run.code).toBe(2);
     expect(run.stdout).toBe("");
     expect(run.stderr.trim().split("\n")).toHaveLength(1);
-    expect(run.stderr).toMatch(/^error: adsl\.json is Dataset-JSON version 1\.0\.0; .*Convert the file to Dataset-JSON v1\.1/);
+    expect(run.stderr).toMatch(
+      /^error: adsl\.json is Dataset-JSON version 1\.0\.0; .*Convert the file to Dataset-JSON v1\.1/,
+    );
   });
 });
 
@@ -190,10 +271,28 @@ describe("fit on the example files", () => {
   it("fits the same model to adsl.xpt, adsl.json and adsl.ndjson with identical results (one typing for every format)", async () => {
     const scratch = mkdtempSync(join(tmpdir(), "plumbline-cdisc-"));
     const model = join(scratch, "adsl-weight-model.json");
-    writeFileSync(model, JSON.stringify({ response: "WEIGHTBL", terms: [{ variable: "HEIGHTBL" }, { variable: "SEX", reference: "F" }, { variable: "AGE" }], id: "USUBJID" }));
-    const runs = await Promise.all(["adsl.xpt", "adsl.json", "adsl.ndjson"].map((f) => runCli(["fit", "--data", join(CDISC, f), "--model", model])));
+    writeFileSync(
+      model,
+      JSON.stringify({
+        response: "WEIGHTBL",
+        terms: [{ variable: "HEIGHTBL" }, { variable: "SEX", reference: "F" }, { variable: "AGE" }],
+        id: "USUBJID",
+      }),
+    );
+    const runs = await Promise.all(
+      ["adsl.xpt", "adsl.json", "adsl.ndjson"].map((f) =>
+        runCli(["fit", "--data", join(CDISC, f), "--model", model]),
+      ),
+    );
     for (const run of runs) expect(run.code, run.stderr).toBe(0);
-    const [xpt, json, nd] = runs.map((r) => JSON.parse(r.stdout) as { n: number; excluded: number; coefficients: { name: string; estimate: number }[] });
+    const [xpt, json, nd] = runs.map(
+      (r) =>
+        JSON.parse(r.stdout) as {
+          n: number;
+          excluded: number;
+          coefficients: { name: string; estimate: number }[];
+        },
+    );
     // 254 subjects, one without a baseline weight (CDISC's file).
     expect(xpt.n).toBe(253);
     expect(xpt.coefficients.map((c) => c.name)).toEqual(json.coefficients.map((c) => c.name));
@@ -201,4 +300,3 @@ describe("fit on the example files", () => {
     expect(nd.coefficients).toEqual(json.coefficients);
   });
 });
-

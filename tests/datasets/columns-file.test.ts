@@ -16,7 +16,13 @@ import os from "node:os";
 import path from "node:path";
 import { Type, tableFromIPC, type Dictionary } from "apache-arrow";
 import { describe, expect, it } from "vitest";
-import { readArrowColumns, textOf, typedColumnOf, writeArrowColumns, type StoredColumns } from "~/.server/datasets/arrow-columns.server";
+import {
+  readArrowColumns,
+  textOf,
+  typedColumnOf,
+  writeArrowColumns,
+  type StoredColumns,
+} from "~/.server/datasets/arrow-columns.server";
 import { storedColumnsFromParsed } from "~/.server/datasets/stored-columns.server";
 
 const n = 1000;
@@ -58,14 +64,32 @@ describe("Arrow columns file", () => {
     expect(back.rowNumbers).toEqual(parsed.rowNumbers);
     const dose = back.columns[1];
     expect(dose).toBeInstanceOf(Float64Array);
-    expect(Array.from((dose as Float64Array).slice(0, 7))).toEqual([1.5, Number.NaN, Number.NaN, Number.NaN, -0.002, 1.5, 12345678.125]);
+    expect(Array.from((dose as Float64Array).slice(0, 7))).toEqual([
+      1.5,
+      Number.NaN,
+      Number.NaN,
+      Number.NaN,
+      -0.002,
+      1.5,
+      12345678.125,
+    ]);
     expect(Array.from(back.columns[5] as Float64Array).slice(398, 402)).toEqual([398, 399, 0, 1]);
     expect((back.columns[2] as (string | null)[]).slice(0, 3)).toEqual(["Placebo", "Dose 1", null]);
     expect(back.columns[0]).toEqual(parsed.cells[0]);
     expect(back.columns[3]).toEqual(parsed.cells[3]);
-    expect((back.columns[4] as (string | null)[]).slice(0, 5)).toEqual(["2024-03-05", "2024", "2024-03", null, "2024-03-05T10:15"]);
+    expect((back.columns[4] as (string | null)[]).slice(0, 5)).toEqual([
+      "2024-03-05",
+      "2024",
+      "2024-03",
+      null,
+      "2024-03-05T10:15",
+    ]);
     expect(back.columnMeta).toEqual(parsed.columns);
-    expect(back.dataset).toEqual({ format: "dataset-json", label: "Efficacy analysis dataset (invented)", keyColumns: ["id"] });
+    expect(back.dataset).toEqual({
+      format: "dataset-json",
+      label: "Efficacy analysis dataset (invented)",
+      keyColumns: ["id"],
+    });
     // The text the engine reads today: numbers in their shortest round-trip form, missing as "".
     expect(textOf(dose).slice(0, 7)).toEqual(["1.5", "", "", "", "-0.002", "1.5", "12345678.125"]);
     expect(textOf(back.columns[2]).slice(0, 3)).toEqual(["Placebo", "Dose 1", ""]);
@@ -74,12 +98,16 @@ describe("Arrow columns file", () => {
   it("keeps a numeric column as text when a number would lose a cell: a text cell, or a zero-padded code", () => {
     expect(typedColumnOf(["1", "two", ""], { type: "number" })).toEqual(["1", "two", null]);
     expect(typedColumnOf(["0012", "0105", "NA"], { type: "number" })).toEqual(["0012", "0105", null]);
-    expect(typedColumnOf(["0.5", "-0.25", "10"], { type: "number" })).toEqual(new Float64Array([0.5, -0.25, 10]));
+    expect(typedColumnOf(["0.5", "-0.25", "10"], { type: "number" })).toEqual(
+      new Float64Array([0.5, -0.25, 10]),
+    );
     expect(typedColumnOf(["1", "2", ""], { type: "text" })).toEqual(["1", "2", null]);
   });
 
   it("is a standard Arrow IPC file: Float64 numbers, dictionary-encoded UTF-8 text, metadata a generic reader sees", async () => {
-    const file = await written(storedColumnsFromParsed({ ...parsed, rowNumbers: Array.from({ length: n }, (_, i) => i + 1) }));
+    const file = await written(
+      storedColumnsFromParsed({ ...parsed, rowNumbers: Array.from({ length: n }, (_, i) => i + 1) }),
+    );
     const bytes = readFileSync(file);
     // Arrow columnar format, IPC File Format: "ARROW1" + 2 bytes padding ... footer, int32 footer length, "ARROW1".
     expect(bytes.subarray(0, 8)).toEqual(Buffer.from("ARROW1\0\0", "latin1"));
@@ -91,8 +119,19 @@ describe("Arrow columns file", () => {
     const table = tableFromIPC(bytes);
     expect(table.numRows).toBe(n);
     expect(table.schema.fields.map((f) => f.name)).toEqual(parsed.names);
-    const types = table.schema.fields.map((f) => (f.type.typeId === Type.Dictionary ? `dictionary<${String((f.type as Dictionary).dictionary)}, ${String((f.type as Dictionary).indices)}>` : String(f.type)));
-    expect(types).toEqual(["dictionary<Utf8, Int32>", "Float64", "dictionary<Utf8, Int32>", "dictionary<Utf8, Int32>", "dictionary<Utf8, Int32>", "Float64"]);
+    const types = table.schema.fields.map((f) =>
+      f.type.typeId === Type.Dictionary
+        ? `dictionary<${String((f.type as Dictionary).dictionary)}, ${String((f.type as Dictionary).indices)}>`
+        : String(f.type),
+    );
+    expect(types).toEqual([
+      "dictionary<Utf8, Int32>",
+      "Float64",
+      "dictionary<Utf8, Int32>",
+      "dictionary<Utf8, Int32>",
+      "dictionary<Utf8, Int32>",
+      "Float64",
+    ]);
     const dose = table.getChild("dose")!;
     expect([0, 1, 2, 3, 4].map((i) => dose.get(i))).toEqual([1.5, null, null, null, -0.002]);
     expect(dose.nullCount).toBe(parsed.cells[1].filter((c) => c === "" || c === "NA" || c === ".").length);
@@ -102,7 +141,11 @@ describe("Arrow columns file", () => {
     expect(visit.get("label")).toBe("Visit date");
     expect(JSON.parse(visit.get("plumbline:column")!)).toEqual(parsed.columns[4]);
     expect(table.schema.fields[3].metadata.has("label")).toBe(false);
-    expect(JSON.parse(table.schema.metadata.get("plumbline:dataset")!)).toMatchObject({ label: "Efficacy analysis dataset (invented)", keyColumns: ["id"], format: "dataset-json" });
+    expect(JSON.parse(table.schema.metadata.get("plumbline:dataset")!)).toMatchObject({
+      label: "Efficacy analysis dataset (invented)",
+      keyColumns: ["id"],
+      format: "dataset-json",
+    });
     // Row numbers 1..n are implied, not stored.
     expect(table.schema.metadata.has("plumbline:row-numbers")).toBe(false);
   });
@@ -110,9 +153,13 @@ describe("Arrow columns file", () => {
   const python = spawnSync("python3", ["-c", "import pyarrow"], { encoding: "utf8" });
   it.runIf(python.status === 0)("is read by Python's pyarrow with the same values", async () => {
     const file = await written(storedColumnsFromParsed(parsed));
-    const script = "import sys, json, pyarrow.ipc as ipc\nt = ipc.open_file(sys.argv[1]).read_all()\nprint(json.dumps({'dose': t.column('dose').to_pylist()[:5], 'arm': t.column('arm').to_pylist()[:3]}))";
+    const script =
+      "import sys, json, pyarrow.ipc as ipc\nt = ipc.open_file(sys.argv[1]).read_all()\nprint(json.dumps({'dose': t.column('dose').to_pylist()[:5], 'arm': t.column('arm').to_pylist()[:3]}))";
     const out = spawnSync("python3", ["-c", script, file], { encoding: "utf8" });
     expect(out.status).toBe(0);
-    expect(JSON.parse(out.stdout)).toEqual({ dose: [1.5, null, null, null, -0.002], arm: ["Placebo", "Dose 1", null] });
+    expect(JSON.parse(out.stdout)).toEqual({
+      dose: [1.5, null, null, null, -0.002],
+      arm: ["Placebo", "Dose 1", null],
+    });
   });
 });

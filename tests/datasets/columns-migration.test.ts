@@ -24,7 +24,8 @@ const { runOneJob } = await import("~/.server/jobs/jobs.server");
 (await import("~/.server/background.server")).registerJobHandlers();
 const { canonicalJson } = await import("~/.server/audit.server");
 const { parseDatasetFile } = await import("~/.server/datasets/parse.server");
-const { readLegacyColumnsFile, writeLegacyColumnsFile } = await import("~/.server/datasets/columns-file.server");
+const { readLegacyColumnsFile, writeLegacyColumnsFile } =
+  await import("~/.server/datasets/columns-file.server");
 const { migrateStoredColumns } = await import("~/.server/datasets/stored-columns.server");
 const { columnsRelativePath, legacyColumnsRelativePath } = await import("~/.server/datasets/store.server");
 const { eq } = await import("drizzle-orm");
@@ -49,7 +50,9 @@ async function version() {
 /** Turns the store back into the former format: `.cols` from the original file (unless told not to), no Arrow file. */
 async function formerStore(opts: { withCols: boolean }): Promise<void> {
   const v = await version();
-  const parsed = await parseDatasetFile(path.join(dataDir, v.storedPath), v.fileName, v.format, { keyColumns: JSON.parse(v.keyColumnsJson) as string[] });
+  const parsed = await parseDatasetFile(path.join(dataDir, v.storedPath), v.fileName, v.format, {
+    keyColumns: JSON.parse(v.keyColumnsJson) as string[],
+  });
   if (!parsed.ok) throw new Error(parsed.problems.join(" "));
   const cols = legacyColumnsRelativePath(v.sha256);
   if (opts.withCols) await writeLegacyColumnsFile(path.join(dataDir, cols), parsed.dataset);
@@ -58,7 +61,11 @@ async function formerStore(opts: { withCols: boolean }): Promise<void> {
 }
 
 async function rerunResult(): Promise<string> {
-  const id = await reruns.startRerun(priya, studyId, { plannedModelId: modelId, datasetVersionId: versionId, options: { variant: "planned" } });
+  const id = await reruns.startRerun(priya, studyId, {
+    plannedModelId: modelId,
+    datasetVersionId: versionId,
+    options: { variant: "planned" },
+  });
   while (await runOneJob()) {
     // run every queued job
   }
@@ -78,8 +85,17 @@ beforeAll(async () => {
   const locked = (await catalog.listLockedVersions(studyId))[0];
   versionId = locked.versionId;
   sha256 = locked.sha256;
-  const { versionId: planVersion } = await plans.createPlan(priya, studyId, { title: "Efficacy models", sapName: "Statistical analysis plan", sapVersion: "2.0", sapDate: "2026-10-01" });
-  const v = validatePlannedModel(readPlannedModelForm(demoPrimaryForm()), [{ name: locked.datasetName, columns: locked.columns }], []);
+  const { versionId: planVersion } = await plans.createPlan(priya, studyId, {
+    title: "Efficacy models",
+    sapName: "Statistical analysis plan",
+    sapVersion: "2.0",
+    sapDate: "2026-10-01",
+  });
+  const v = validatePlannedModel(
+    readPlannedModelForm(demoPrimaryForm()),
+    [{ name: locked.datasetName, columns: locked.columns }],
+    [],
+  );
   if (!v.ok) throw new Error(JSON.stringify(v.errors));
   modelId = await plans.savePlannedModel(priya, studyId, planVersion, 1, null, v.model);
   await plans.submitForApproval(priya, studyId, planVersion, 2);
@@ -98,7 +114,14 @@ describe("migration of the former columns files", () => {
     const columns: Record<string, string[]> = {};
     cols.names.forEach((name, j) => (columns[name] = cols.cells[j]));
     const model = await plans.getPlannedModel(modelId);
-    const formerResult = canonicalJson(reruns.computeRerun(model, { columns, rowNumbers: cols.rowNumbers }, { variant: "planned" }, { datasetSha256: v.sha256, planVersionId: model.planVersionId }));
+    const formerResult = canonicalJson(
+      reruns.computeRerun(
+        model,
+        { columns, rowNumbers: cols.rowNumbers },
+        { variant: "planned" },
+        { datasetSha256: v.sha256, planVersionId: model.planVersionId },
+      ),
+    );
 
     expect(await migrateStoredColumns()).toEqual({ migrated: 1, failed: [] });
     const after = await version();

@@ -20,8 +20,14 @@ const studyId = "study-f";
 const dana = { id: "p-dana", name: "Dana Okafor" };
 
 beforeAll(async () => {
-  await db.insert(t.people).values([{ id: dana.id, email: "dana.okafor@plumbline.example", displayName: dana.name, externalId: "dana" }]);
-  await db.insert(t.studies).values({ id: studyId, code: "T-F", title: "Formats study", sponsor: "Test sponsor" });
+  await db
+    .insert(t.people)
+    .values([
+      { id: dana.id, email: "dana.okafor@plumbline.example", displayName: dana.name, externalId: "dana" },
+    ]);
+  await db
+    .insert(t.studies)
+    .values({ id: studyId, code: "T-F", title: "Formats study", sponsor: "Test sponsor" });
 });
 
 async function removeOneFlagged(versionId: string) {
@@ -31,18 +37,34 @@ async function removeOneFlagged(versionId: string) {
   const removed = await svc.removeFlaggedColumn(dana, studyId, hit?.id ?? "");
   expect(removed.ok, JSON.stringify(removed)).toBe(true);
   if (!removed.ok) throw new Error("not removed");
-  const [v] = await dbClient.execute({ sql: "SELECT format, file_name, stored_path, columns_json FROM dataset_versions WHERE id = ?", args: [removed.versionId] }).then((r) => r.rows);
+  const [v] = await dbClient
+    .execute({
+      sql: "SELECT format, file_name, stored_path, columns_json FROM dataset_versions WHERE id = ?",
+      args: [removed.versionId],
+    })
+    .then((r) => r.rows);
   return { column: hit?.column as string, v };
 }
 
 describe("formats in the service", () => {
   it("stores adsl.xpt with labels, formats and declared types, and a removal gives a CSV version that reads back", async () => {
-    const up = await svc.uploadBytes(dana, { studyId, datasetName: "adsl", fileName: "adsl.xpt", bytes: readFileSync(path.join(CDISC, "adsl.xpt")) });
+    const up = await svc.uploadBytes(dana, {
+      studyId,
+      datasetName: "adsl",
+      fileName: "adsl.xpt",
+      bytes: readFileSync(path.join(CDISC, "adsl.xpt")),
+    });
     expect(up.ok, JSON.stringify(up)).toBe(true);
     if (!up.ok) return;
     const detail = await svc.getVersionDetail(studyId, up.versionId);
     expect(detail?.version.format).toBe("xpt");
-    expect(detail?.columns.find((c) => c.name === "AGE")).toMatchObject({ label: "Age", type: "number", valueType: "integer", declaredType: "Num", length: 8 });
+    expect(detail?.columns.find((c) => c.name === "AGE")).toMatchObject({
+      label: "Age",
+      type: "number",
+      valueType: "integer",
+      declaredType: "Num",
+      length: 8,
+    });
     const { column, v } = await removeOneFlagged(up.versionId);
     expect(v.format).toBe("csv");
     expect(v.file_name).toBe("adsl.csv");
@@ -55,13 +77,22 @@ describe("formats in the service", () => {
   });
 
   it("a removal from adsl.ndjson keeps the NDJSON form, which reads back", async () => {
-    const up = await svc.uploadBytes(dana, { studyId, datasetName: "adslnd", fileName: "adsl.ndjson", bytes: readFileSync(path.join(CDISC, "adsl.ndjson")) });
+    const up = await svc.uploadBytes(dana, {
+      studyId,
+      datasetName: "adslnd",
+      fileName: "adsl.ndjson",
+      bytes: readFileSync(path.join(CDISC, "adsl.ndjson")),
+    });
     expect(up.ok, JSON.stringify(up)).toBe(true);
     if (!up.ok) return;
     const { column, v } = await removeOneFlagged(up.versionId);
     expect(v.format).toBe("dataset-json");
     expect(v.file_name).toBe("adsl.ndjson");
-    const reread = await parseDatasetFile(absoluteStorePath(String(v.stored_path)), "adsl.ndjson", "dataset-json");
+    const reread = await parseDatasetFile(
+      absoluteStorePath(String(v.stored_path)),
+      "adsl.ndjson",
+      "dataset-json",
+    );
     expect(reread.ok, reread.ok ? "" : reread.problems.join("\n")).toBe(true);
     if (!reread.ok) return;
     expect(reread.dataset.names).not.toContain(column);
@@ -70,7 +101,13 @@ describe("formats in the service", () => {
   });
 
   it("an upload that names no key keeps the key dm.json declares", async () => {
-    const up = await svc.uploadBytes(dana, { studyId, datasetName: "dm", fileName: "dm.json", bytes: readFileSync(path.join(CDISC, "dm.json")), keyColumns: [] });
+    const up = await svc.uploadBytes(dana, {
+      studyId,
+      datasetName: "dm",
+      fileName: "dm.json",
+      bytes: readFileSync(path.join(CDISC, "dm.json")),
+      keyColumns: [],
+    });
     expect(up.ok, JSON.stringify(up)).toBe(true);
     if (!up.ok) return;
     expect((await svc.getVersionDetail(studyId, up.versionId))?.keyColumns).toEqual(["STUDYID", "USUBJID"]);

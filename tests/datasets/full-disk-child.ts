@@ -11,7 +11,12 @@ const { receiveUpload, UploadRefused } = await import("~/.server/datasets/upload
 
 const form = new FormData();
 form.append("datasetName", "adfull");
-form.append("file", new File([Buffer.alloc(Number(process.env.UPLOAD_BYTES ?? 3_000_000), 0x61)], "adfull.csv", { type: "text/csv" }));
+form.append(
+  "file",
+  new File([Buffer.alloc(Number(process.env.UPLOAD_BYTES ?? 3_000_000), 0x61)], "adfull.csv", {
+    type: "text/csv",
+  }),
+);
 const request = new Request("http://localhost/studies/s/datasets/upload", { method: "POST", body: form });
 let status = 0;
 let message = "";
@@ -25,4 +30,6 @@ try {
 // Give a stray error event a moment to surface (it would end the process before the report).
 await new Promise((r) => setTimeout(r, 200));
 const tmp = path.join(process.env.DATA_DIR as string, "datasets", "tmp");
-process.stdout.write(JSON.stringify({ status, message, tmp: existsSync(tmp) ? readdirSync(tmp) : [], alive: true }) + "\n");
+process.stdout.write(
+  JSON.stringify({ status, message, tmp: existsSync(tmp) ? readdirSync(tmp) : [], alive: true }) + "\n",
+);

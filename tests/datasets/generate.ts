@@ -5,9 +5,31 @@
 import { mulberry32 } from "~/engine/seeded-uniform";
 
 export const WIDE_COLUMNS = [
-  "usubjid", "arm", "sex", "region", "age", "base", "wk4", "wk8", "wk12", "chg",
-  "resp", "flares", "expdays", "weight", "height", "bmi", "crp", "alt", "ast", "egfr",
-  "visitdt", "fasfl", "saffl", "site", "comment",
+  "usubjid",
+  "arm",
+  "sex",
+  "region",
+  "age",
+  "base",
+  "wk4",
+  "wk8",
+  "wk12",
+  "chg",
+  "resp",
+  "flares",
+  "expdays",
+  "weight",
+  "height",
+  "bmi",
+  "crp",
+  "alt",
+  "ast",
+  "egfr",
+  "visitdt",
+  "fasfl",
+  "saffl",
+  "site",
+  "comment",
 ] as const;
 
 /** CSV lines of a subject-level dataset with `rows` rows and the 25 columns above. */

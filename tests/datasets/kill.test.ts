@@ -16,7 +16,9 @@ const { sweepLeftovers } = await import("~/.server/datasets/datasets.server");
 const files = (sub: string): string[] => {
   const base = path.join(dir, "data", "datasets", sub);
   if (!existsSync(base)) return [];
-  return readdirSync(base, { recursive: true, withFileTypes: true }).filter((e) => e.isFile()).map((e) => e.name);
+  return readdirSync(base, { recursive: true, withFileTypes: true })
+    .filter((e) => e.isFile())
+    .map((e) => e.name);
 };
 
 describe("killing an upload half-way", () => {
@@ -43,7 +45,8 @@ describe("killing an upload half-way", () => {
     expect(killedAt).toMatch(/^parse [3-9]$/);
     expect(out).not.toContain("finished");
 
-    const count = async (table: string) => Number((await dbClient.execute(`SELECT count(*) AS n FROM ${table}`)).rows[0].n);
+    const count = async (table: string) =>
+      Number((await dbClient.execute(`SELECT count(*) AS n FROM ${table}`)).rows[0].n);
     expect(await count("datasets")).toBe(0);
     expect(await count("dataset_versions")).toBe(0);
     expect(await count("identifier_screen_hits")).toBe(0);

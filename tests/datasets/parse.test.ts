@@ -7,7 +7,12 @@ import { mkdtempSync, writeFileSync } from "node:fs";
 import os from "node:os";
 import path from "node:path";
 import { describe, expect, it } from "vitest";
-import { detectDelimiter, parseCsv, parseDatasetJson, type ParseOutcome } from "~/.server/datasets/parse.server";
+import {
+  detectDelimiter,
+  parseCsv,
+  parseDatasetJson,
+  type ParseOutcome,
+} from "~/.server/datasets/parse.server";
 
 const dir = mkdtempSync(path.join(os.tmpdir(), "plumbline-parse-"));
 let n = 0;
@@ -16,7 +21,8 @@ function file(content: string | Buffer, name = `f${++n}.csv`): string {
   writeFileSync(p, content);
   return p;
 }
-const csv = async (text: string | Buffer, options = {}) => parseCsv(file(text, "adeff.csv"), "adeff.csv", options);
+const csv = async (text: string | Buffer, options = {}) =>
+  parseCsv(file(text, "adeff.csv"), "adeff.csv", options);
 const problems = (o: ParseOutcome) => (o.ok ? [] : o.problems);
 
 describe("CSV reading", () => {
@@ -28,7 +34,7 @@ describe("CSV reading", () => {
   });
 
   it("reads semicolon and tab files, a UTF-8 byte-order mark and RFC 4180 quotes", async () => {
-    const semi = await csv("\uFEFFsubjid;arm;note\nS1;A;\"two; parts\"\nS2;B;\"say \"\"hi\"\"\nnext line\"\n");
+    const semi = await csv('\uFEFFsubjid;arm;note\nS1;A;"two; parts"\nS2;B;"say ""hi""\nnext line"\n');
     expect(semi.ok).toBe(true);
     if (!semi.ok) return;
     expect(semi.dataset.names).toEqual(["subjid", "arm", "note"]);
@@ -49,7 +55,13 @@ describe("CSV reading", () => {
     // age 40 and 50: mean 45, SD sqrt(50) = 7.0711 (sample SD, n - 1 divisor), worked by hand.
     expect(age).toMatchObject({ type: "number", nonMissing: 2, missing: 2, min: 40, max: 50, mean: 45 });
     expect(age.sd).toBeCloseTo(Math.sqrt(50), 12);
-    expect(dt).toMatchObject({ type: "date", nonMissing: 3, missing: 1, earliest: "2025-01-02", latest: "2025-03-04" });
+    expect(dt).toMatchObject({
+      type: "date",
+      nonMissing: 3,
+      missing: 1,
+      earliest: "2025-01-02",
+      latest: "2025-03-04",
+    });
     expect(seen.type).toBe("datetime");
     expect(arm.levels).toEqual([
       { value: "A", count: 3 },
@@ -78,8 +90,14 @@ describe("CSV refusals name the file, column and row", () => {
   });
 
   it("invalid UTF-8", async () => {
-    const bytes = Buffer.concat([Buffer.from("id,name\nS1,ok\nS2,"), Buffer.from([0xc3, 0x28]), Buffer.from("\n")]);
-    expect(problems(await csv(bytes))).toEqual(["adeff.csv: line 3 (byte 18) is not valid UTF-8. Save the file as UTF-8 and upload it again."]);
+    const bytes = Buffer.concat([
+      Buffer.from("id,name\nS1,ok\nS2,"),
+      Buffer.from([0xc3, 0x28]),
+      Buffer.from("\n"),
+    ]);
+    expect(problems(await csv(bytes))).toEqual([
+      "adeff.csv: line 3 (byte 18) is not valid UTF-8. Save the file as UTF-8 and upload it again.",
+    ]);
   });
 
   it("duplicate column names", async () => {
@@ -89,11 +107,15 @@ describe("CSV refusals name the file, column and row", () => {
   });
 
   it("empty column names", async () => {
-    expect(problems(await csv("id,,age\nS1,1,2\n"))).toEqual(["adeff.csv: column 2 has no name in the header row. Give every column a name."]);
+    expect(problems(await csv("id,,age\nS1,1,2\n"))).toEqual([
+      "adeff.csv: column 2 has no name in the header row. Give every column a name.",
+    ]);
   });
 
   it("no data rows", async () => {
-    expect(problems(await csv("id,age\n"))).toEqual(["adeff.csv has a header row but no data rows. Upload the file with its data."]);
+    expect(problems(await csv("id,age\n"))).toEqual([
+      "adeff.csv has a header row but no data rows. Upload the file with its data.",
+    ]);
     expect(problems(await csv(""))).toEqual(["The file adeff.csv is empty."]);
   });
 
@@ -125,7 +147,13 @@ describe("CSV refusals name the file, column and row", () => {
   });
 });
 
-function datasetJson(over: Record<string, unknown> = {}, rows: unknown[][] = [["S1", 40, "1.5", "2025-01-02"], ["S2", null, "2.25", null]]) {
+function datasetJson(
+  over: Record<string, unknown> = {},
+  rows: unknown[][] = [
+    ["S1", 40, "1.5", "2025-01-02"],
+    ["S2", null, "2.25", null],
+  ],
+) {
   return JSON.stringify({
     datasetJSONCreationDateTime: "2026-11-30T10:00:00",
     datasetJSONVersion: "1.1.0",
@@ -134,7 +162,13 @@ function datasetJson(over: Record<string, unknown> = {}, rows: unknown[][] = [["
     name: "ADSL",
     label: "Subject-level analysis dataset",
     columns: [
-      { itemOID: "IT.ADSL.USUBJID", name: "USUBJID", label: "Unique subject identifier", dataType: "string", keySequence: 1 },
+      {
+        itemOID: "IT.ADSL.USUBJID",
+        name: "USUBJID",
+        label: "Unique subject identifier",
+        dataType: "string",
+        keySequence: 1,
+      },
       { itemOID: "IT.ADSL.AGE", name: "AGE", label: "Age", dataType: "integer" },
       { itemOID: "IT.ADSL.BMI", name: "BMI", label: "Body-mass index", dataType: "decimal" },
       { itemOID: "IT.ADSL.RANDDT", name: "RANDDT", label: "Date of randomisation", dataType: "date" },
@@ -164,17 +198,29 @@ describe("Dataset-JSON v1.1", () => {
   it("refuses a file that does not follow the standard's structure", async () => {
     const noRows = JSON.parse(datasetJson()) as Record<string, unknown>;
     delete noRows.rows;
-    expect(problems(await dj(JSON.stringify(noRows)))).toEqual(['adsl.json does not follow Dataset-JSON v1.1: the required attribute "rows" is missing.']);
+    expect(problems(await dj(JSON.stringify(noRows)))).toEqual([
+      'adsl.json does not follow Dataset-JSON v1.1: the required attribute "rows" is missing.',
+    ]);
     expect(problems(await dj(datasetJson({ datasetJSONVersion: "1.0.0" })))).toEqual([
       "adsl.json is Dataset-JSON version 1.0.0; Plumbline reads version 1.1, whose structure differs. Convert the file to Dataset-JSON v1.1 (or export the dataset again as v1.1) and upload that.",
     ]);
     expect(problems(await dj(datasetJson({ datasetJSONVersion: "2.0" })))).toEqual([
       'adsl.json does not follow Dataset-JSON v1.1: "datasetJSONVersion" is "2.0"; Plumbline reads version 1.1.',
     ]);
-    expect(problems(await dj(datasetJson({ records: 5 })))).toEqual(['adsl.json does not follow Dataset-JSON v1.1: "records" says 5 rows but "rows" holds 2.']);
-    expect(problems(await dj("[1,2]"))).toEqual(["adsl.json does not follow Dataset-JSON v1.1: the file must hold one JSON object."]);
-    expect(problems(await dj("{ not json"))[0]).toMatch(/^adsl\.json is not valid JSON \(.+\)\. Export it again as Dataset-JSON\.$/);
-    const badType = datasetJson({ columns: [{ itemOID: "IT.X", name: "X", label: "X", dataType: "number" }], rows: [[1]], records: 1 });
+    expect(problems(await dj(datasetJson({ records: 5 })))).toEqual([
+      'adsl.json does not follow Dataset-JSON v1.1: "records" says 5 rows but "rows" holds 2.',
+    ]);
+    expect(problems(await dj("[1,2]"))).toEqual([
+      "adsl.json does not follow Dataset-JSON v1.1: the file must hold one JSON object.",
+    ]);
+    expect(problems(await dj("{ not json"))[0]).toMatch(
+      /^adsl\.json is not valid JSON \(.+\)\. Export it again as Dataset-JSON\.$/,
+    );
+    const badType = datasetJson({
+      columns: [{ itemOID: "IT.X", name: "X", label: "X", dataType: "number" }],
+      rows: [[1]],
+      records: 1,
+    });
     expect(problems(await dj(badType))[0]).toBe(
       'adsl.json does not follow Dataset-JSON v1.1: columns[0] ("X") has dataType "number"; allowed are string, integer, decimal, float, double, boolean, datetime, date, time, URI.',
     );
@@ -184,8 +230,19 @@ describe("Dataset-JSON v1.1", () => {
     expect(problems(await dj(datasetJson({}, [["S1", "forty", "1.5", null]])))).toEqual([
       `adsl.json: 1 cell in column "AGE" declared integer is not a number; first: row 1 'forty'. Correct the file, or read this column by its values (upload option, with a reason for the audit trail).`,
     ]);
-    expect(problems(await dj(datasetJson({}, [["S1", 40, "1.5"]])))).toEqual(['adsl.json: row 1 has 3 values where "columns" lists 4. Export the file again.']);
-    expect(problems(await dj(datasetJson({}, [["S1", 40, "1.5", null], ["S1", 41, "1.5", null]])))).toEqual([
+    expect(problems(await dj(datasetJson({}, [["S1", 40, "1.5"]])))).toEqual([
+      'adsl.json: row 1 has 3 values where "columns" lists 4. Export the file again.',
+    ]);
+    expect(
+      problems(
+        await dj(
+          datasetJson({}, [
+            ["S1", 40, "1.5", null],
+            ["S1", 41, "1.5", null],
+          ]),
+        ),
+      ),
+    ).toEqual([
       'adsl.json: duplicate key: rows 1 and 2 both have USUBJID = "S1". Each record must have its own key; remove the repeated record or name more key columns.',
     ]);
   });

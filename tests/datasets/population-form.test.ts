@@ -6,7 +6,12 @@
 import { describe, expect, it } from "vitest";
 import type { ColumnMeta } from "~/.server/datasets/catalog.server";
 import { populationFormOf, readPopulationForm, validatePopulation } from "~/.server/plans/population-form";
-import { legacyPopulationSchema, plannedModelSchema, populationOf, withLegacyPopulation } from "~/.server/plans/planned-model";
+import {
+  legacyPopulationSchema,
+  plannedModelSchema,
+  populationOf,
+  withLegacyPopulation,
+} from "~/.server/plans/planned-model";
 
 const col = (name: string, type: ColumnMeta["type"], levels?: string[]): ColumnMeta => ({
   name,
@@ -18,7 +23,13 @@ const col = (name: string, type: ColumnMeta["type"], levels?: string[]): ColumnM
 });
 const dataset = {
   name: "adqs",
-  columns: [col("EFFFL", "text", ["Y"]), col("PARAMCD", "text", ["ACTOT", "PAIN"]), col("AVISITN", "number", ["0", "12", "24"]), col("AGE", "number"), col("USUBJID", "text")],
+  columns: [
+    col("EFFFL", "text", ["Y"]),
+    col("PARAMCD", "text", ["ACTOT", "PAIN"]),
+    col("AVISITN", "number", ["0", "12", "24"]),
+    col("AGE", "number"),
+    col("USUBJID", "text"),
+  ],
 };
 
 function form(fields: [string, string][]): FormData {
@@ -31,16 +42,30 @@ describe("population conditions from the editor", () => {
   it("builds in, not-in and range conditions; numbers as numbers on numeric columns; typed values on a column without levels", () => {
     const rows = readPopulationForm(
       form([
-        ["population:0:column", "EFFFL"], ["population:0:kind", "in"], ["population:0:value", "Y"],
-        ["population:1:column", "AVISITN"], ["population:1:kind", "in"], ["population:1:value", "24"],
-        ["population:2:column", "AGE"], ["population:2:kind", "range"], ["population:2:min", "18"], ["population:2:max", ""],
-        ["population:3:column", "USUBJID"], ["population:3:kind", "notIn"], ["population:3:text", "A-1, A-2"],
+        ["population:0:column", "EFFFL"],
+        ["population:0:kind", "in"],
+        ["population:0:value", "Y"],
+        ["population:1:column", "AVISITN"],
+        ["population:1:kind", "in"],
+        ["population:1:value", "24"],
+        ["population:2:column", "AGE"],
+        ["population:2:kind", "range"],
+        ["population:2:min", "18"],
+        ["population:2:max", ""],
+        ["population:3:column", "USUBJID"],
+        ["population:3:kind", "notIn"],
+        ["population:3:text", "A-1, A-2"],
       ]),
     );
     const errors: Record<string, string> = {};
     const conditions = validatePopulation(rows, dataset, errors);
     expect(errors).toEqual({});
-    expect(conditions).toEqual([{ column: "EFFFL", in: ["Y"] }, { column: "AVISITN", in: [24] }, { column: "AGE", min: 18 }, { column: "USUBJID", notIn: ["A-1", "A-2"] }]);
+    expect(conditions).toEqual([
+      { column: "EFFFL", in: ["Y"] },
+      { column: "AVISITN", in: [24] },
+      { column: "AGE", min: 18 },
+      { column: "USUBJID", notIn: ["A-1", "A-2"] },
+    ]);
     expect(validatePopulation(populationFormOf(conditions), dataset, {})).toEqual(conditions);
   });
 
@@ -61,7 +86,8 @@ describe("population conditions from the editor", () => {
     expect(errors).toEqual({
       "population:0:column": 'Column "VISIT" is not in adqs.',
       "population:1:values": 'PARAMCD has no value "QOL"; its values are ACTOT, PAIN.',
-      "population:2:range": "PARAMCD is text, not numeric: a range needs a numeric column; choose values instead.",
+      "population:2:range":
+        "PARAMCD is text, not numeric: a range needs a numeric column; choose values instead.",
       "population:3:range": "The lowest value (65) is above the highest (18).",
       "population:4:values": 'AVISITN is numeric; "week 4" is not a number.',
       "population:5:values": "Choose or type the values of EFFFL that define the population.",
@@ -69,24 +95,42 @@ describe("population conditions from the editor", () => {
   });
 
   it("reads the single flag = value fields of older scripts as one condition", () => {
-    expect(readPopulationForm(form([["populationColumn", "EFFFL"], ["populationValue", "Y"]]))).toEqual([{ column: "EFFFL", kind: "in", values: ["Y"], min: "", max: "" }]);
+    expect(
+      readPopulationForm(
+        form([
+          ["populationColumn", "EFFFL"],
+          ["populationValue", "Y"],
+        ]),
+      ),
+    ).toEqual([{ column: "EFFFL", kind: "in", values: ["Y"], min: "", max: "" }]);
   });
 });
 
 describe("plans stored before population conditions", () => {
   it("carry their one column = value into the specification as an in condition, as plans.server.ts reads them", () => {
-    const spec = { response: "chg", family: "gaussian", terms: [{ variable: "arm", categorical: true }], treatment: "arm" };
+    const spec = {
+      response: "chg",
+      family: "gaussian",
+      terms: [{ variable: "arm", categorical: true }],
+      treatment: "arm",
+    };
     const stored = plannedModelSchema.parse({
       key: "primary",
       title: "Primary",
       datasetName: "adeff",
-      spec: withLegacyPopulation(spec as never, legacyPopulationSchema.parse({ column: "fasfl", value: "Y" })),
+      spec: withLegacyPopulation(
+        spec as never,
+        legacyPopulationSchema.parse({ column: "fasfl", value: "Y" }),
+      ),
       checks: [],
       sensitivity: [],
     });
     expect(populationOf(stored)).toEqual([{ column: "fasfl", in: ["Y"] }]);
     // a specification that already states its population keeps it
-    expect(withLegacyPopulation({ population: [{ column: "EFFFL", in: ["Y"] }] }, { column: "fasfl", value: "Y" }).population).toEqual([{ column: "EFFFL", in: ["Y"] }]);
+    expect(
+      withLegacyPopulation({ population: [{ column: "EFFFL", in: ["Y"] }] }, { column: "fasfl", value: "Y" })
+        .population,
+    ).toEqual([{ column: "EFFFL", in: ["Y"] }]);
     expect(withLegacyPopulation({}, null)).toEqual({});
   });
 });

@@ -9,7 +9,12 @@ import { mkdtempSync, writeFileSync } from "node:fs";
 import os from "node:os";
 import path from "node:path";
 import { describe, expect, it } from "vitest";
-import { parseCsv, parseDatasetFile, parseDatasetJson, type ParseOutcome } from "~/.server/datasets/parse.server";
+import {
+  parseCsv,
+  parseDatasetFile,
+  parseDatasetJson,
+  type ParseOutcome,
+} from "~/.server/datasets/parse.server";
 import { readCsv } from "~/engine-io/dataset/csv";
 import { isoPrecision } from "~/engine-io/dataset/typing";
 
@@ -25,7 +30,10 @@ const problems = (o: ParseOutcome) => (o.ok ? [] : o.problems);
 
 /** Fails the test instead of hanging when a read never finishes. */
 function within<T>(ms: number, p: Promise<T>): Promise<T> {
-  return Promise.race([p, new Promise<T>((_, reject) => setTimeout(() => reject(new Error(`no answer within ${ms} ms`)), ms))]);
+  return Promise.race([
+    p,
+    new Promise<T>((_, reject) => setTimeout(() => reject(new Error(`no answer within ${ms} ms`)), ms)),
+  ]);
 }
 
 describe("upload hardening", () => {
@@ -51,15 +59,36 @@ describe("upload hardening", () => {
     expect(problems(o)).toEqual([
       "adeff.csv: the header line is longer than 1,048,576 bytes, the limit. Upload only the columns the analysis needs, or ask an administrator to raise DATASET_MAX_HEADER_BYTES.",
     ]);
-    const narrow = await readCsv((async function* () { yield Buffer.from("a,b,c,d\n1,2,3,4\n"); })(), 16, "wide.csv", { limits: { maxColumns: 3 } });
+    const narrow = await readCsv(
+      (async function* () {
+        yield Buffer.from("a,b,c,d\n1,2,3,4\n");
+      })(),
+      16,
+      "wide.csv",
+      { limits: { maxColumns: 3 } },
+    );
     expect(narrow.ok ? [] : narrow.problems).toEqual([
       "wide.csv has 4 columns; the limit is 3. Upload only the columns the analysis needs, or ask an administrator to raise DATASET_MAX_COLUMNS.",
     ]);
   });
 
   it("more columns than the limit in Dataset-JSON are refused too", async () => {
-    const columns = Array.from({ length: 2001 }, (_, i) => ({ itemOID: `IT.C${i}`, name: `C${i}`, label: `C${i}`, dataType: "integer" }));
-    const doc = { datasetJSONCreationDateTime: "2026-01-01T00:00:00", datasetJSONVersion: "1.1.0", itemGroupOID: "IG.X", records: 1, name: "X", label: "X", columns, rows: [columns.map(() => 1)] };
+    const columns = Array.from({ length: 2001 }, (_, i) => ({
+      itemOID: `IT.C${i}`,
+      name: `C${i}`,
+      label: `C${i}`,
+      dataType: "integer",
+    }));
+    const doc = {
+      datasetJSONCreationDateTime: "2026-01-01T00:00:00",
+      datasetJSONVersion: "1.1.0",
+      itemGroupOID: "IG.X",
+      records: 1,
+      name: "X",
+      label: "X",
+      columns,
+      rows: [columns.map(() => 1)],
+    };
     expect(problems(await parseDatasetJson(file(JSON.stringify(doc), "wide.json"), "wide.json"))).toEqual([
       "wide.json has 2,001 columns; the limit is 2,000. Upload only the columns the analysis needs, or ask an administrator to raise DATASET_MAX_COLUMNS.",
     ]);
@@ -73,7 +102,10 @@ describe("upload hardening", () => {
   });
 
   it("two byte-order marks are refused instead of entering the first column's name", async () => {
-    const bytes = Buffer.concat([Buffer.from([0xef, 0xbb, 0xbf, 0xef, 0xbb, 0xbf]), Buffer.from("subjid,age\nS1,40\n")]);
+    const bytes = Buffer.concat([
+      Buffer.from([0xef, 0xbb, 0xbf, 0xef, 0xbb, 0xbf]),
+      Buffer.from("subjid,age\nS1,40\n"),
+    ]);
     expect(problems(await csv(bytes))).toEqual([
       "adeff.csv: the name of column 1 holds a byte-order mark (U+FEFF): the file starts with two byte-order marks. Save the file again as UTF-8 with at most one byte-order mark.",
     ]);
@@ -90,16 +122,29 @@ describe("upload hardening", () => {
   });
 
   it("an empty file gets 'The file … is empty' in every format", async () => {
-    for (const [name, format] of [["a.csv", "csv"], ["a.json", "dataset-json"], ["a.xpt", "xpt"]] as const) {
-      expect(problems(await parseDatasetFile(file("", name), name, format))).toEqual([`The file ${name} is empty.`]);
+    for (const [name, format] of [
+      ["a.csv", "csv"],
+      ["a.json", "dataset-json"],
+      ["a.xpt", "xpt"],
+    ] as const) {
+      expect(problems(await parseDatasetFile(file("", name), name, format))).toEqual([
+        `The file ${name} is empty.`,
+      ]);
     }
   });
 
   it("a file named .xpt that is not a transport file, and an XPORT version 8 file, get clear messages", async () => {
     const notXpt = await parseDatasetFile(file("subjid,age\nS1,4\n", "adsl.xpt"), "adsl.xpt", "xpt");
-    expect(problems(notXpt)[0]).toMatch(/^adsl\.xpt is not an XPORT transport file: it does not start with the XPORT library header\./);
-    const v8 = Buffer.from("HEADER RECORD*******LIBV8   HEADER RECORD!!!!!!!000000000000000000000000000000  ".padEnd(320, " "), "latin1");
-    expect(problems(await parseDatasetFile(file(v8, "v8.xpt"), "v8.xpt", "xpt"))[0]).toMatch(/^v8\.xpt is an XPORT version 8 transport file; Plumbline reads version 5/);
+    expect(problems(notXpt)[0]).toMatch(
+      /^adsl\.xpt is not an XPORT transport file: it does not start with the XPORT library header\./,
+    );
+    const v8 = Buffer.from(
+      "HEADER RECORD*******LIBV8   HEADER RECORD!!!!!!!000000000000000000000000000000  ".padEnd(320, " "),
+      "latin1",
+    );
+    expect(problems(await parseDatasetFile(file(v8, "v8.xpt"), "v8.xpt", "xpt"))[0]).toMatch(
+      /^v8\.xpt is an XPORT version 8 transport file; Plumbline reads version 5/,
+    );
   });
 });
 
@@ -110,7 +155,12 @@ describe("CSV typing", () => {
     if (!o.ok) return;
     expect(o.dataset.cells[1]).toEqual(["1.5", "2", ""]);
     expect(o.dataset.cells[2]).toEqual(["-0.25", "0.5", "1.75"]);
-    expect(o.dataset.columns[1]).toMatchObject({ type: "number", valueType: "number", decimalComma: true, mean: 1.75 });
+    expect(o.dataset.columns[1]).toMatchObject({
+      type: "number",
+      valueType: "number",
+      decimalComma: true,
+      mean: 1.75,
+    });
     expect(o.dataset.columns[3]).toMatchObject({ type: "number", valueType: "integer" });
     expect(o.dataset.columns[3].decimalComma).toBeUndefined();
     // With commas as separators, nothing is reinterpreted.
@@ -120,7 +170,8 @@ describe("CSV typing", () => {
 
   it("warns about a column of numbers with a few text cells, naming column, rows and values", async () => {
     const rows = ["subjid,crp"];
-    for (let i = 1; i <= 40; i++) rows.push(`S${i},${i === 4 ? "<5" : i === 19 ? "n/a" : (i * 1.5).toFixed(1)}`);
+    for (let i = 1; i <= 40; i++)
+      rows.push(`S${i},${i === 4 ? "<5" : i === 19 ? "n/a" : (i * 1.5).toFixed(1)}`);
     const o = await csv(rows.join("\n") + "\n");
     expect(o.ok).toBe(true);
     if (!o.ok) return;
@@ -142,14 +193,25 @@ describe("Dataset-JSON declared types", () => {
       name: "ADLB",
       label: "Laboratory analysis dataset",
       columns: [
-        { itemOID: "IT.USUBJID", name: "USUBJID", label: "Unique subject identifier", dataType: "string", keySequence: 1 },
+        {
+          itemOID: "IT.USUBJID",
+          name: "USUBJID",
+          label: "Unique subject identifier",
+          dataType: "string",
+          keySequence: 1,
+        },
         { itemOID: "IT.AVAL", name: "AVAL", label: "Analysis value", dataType: "integer" },
         { itemOID: "IT.ADT", name: "ADT", label: "Analysis date", dataType: "date" },
         { itemOID: "IT.ADTM", name: "ADTM", label: "Analysis datetime", dataType: "datetime" },
       ],
       rows,
     });
-  const rows = Array.from({ length: 3000 }, (_, i) => [`S${i + 1}`, i % 7 === 3 ? i + 0.5 : i, "2025-03", "2025-03-04T10:15"]);
+  const rows = Array.from({ length: 3000 }, (_, i) => [
+    `S${i + 1}`,
+    i % 7 === 3 ? i + 0.5 : i,
+    "2025-03",
+    "2025-03-04T10:15",
+  ]);
   const decimals = rows.filter((r) => !Number.isInteger(r[1])).length;
 
   it("counts every cell that breaks its declared type and names the first ones", async () => {
@@ -164,23 +226,54 @@ describe("Dataset-JSON declared types", () => {
     const o = await parseDatasetJson(file(doc(rows), "adlb.json"), "adlb.json", { readByValues: ["AVAL"] });
     expect(o.ok).toBe(true);
     if (!o.ok) return;
-    expect(o.dataset.columns[1]).toMatchObject({ name: "AVAL", declaredType: "integer", valueType: "number", readByValues: true, type: "number" });
+    expect(o.dataset.columns[1]).toMatchObject({
+      name: "AVAL",
+      declaredType: "integer",
+      valueType: "number",
+      readByValues: true,
+      type: "number",
+    });
     expect(o.dataset.cells[1][3]).toBe("3.5");
     expect(o.dataset.keyColumns).toEqual(["USUBJID"]);
     const csvFile = await parseCsv(file("subjid,age\nS1,40\n", "a.csv"), "a.csv", { readByValues: ["age"] });
-    expect(problems(csvFile)[0]).toMatch(/^a\.csv: reading columns by their values applies to Dataset-JSON files/);
-    const unknown = await parseDatasetJson(file(doc(rows), "adlb.json"), "adlb.json", { readByValues: ["AVALX"] });
-    expect(problems(unknown)[0]).toMatch(/^adlb\.json: the column "AVALX" to read by its values is not in the file\./);
+    expect(problems(csvFile)[0]).toMatch(
+      /^a\.csv: reading columns by their values applies to Dataset-JSON files/,
+    );
+    const unknown = await parseDatasetJson(file(doc(rows), "adlb.json"), "adlb.json", {
+      readByValues: ["AVALX"],
+    });
+    expect(problems(unknown)[0]).toMatch(
+      /^adlb\.json: the column "AVALX" to read by its values is not in the file\./,
+    );
   });
 
   it("keeps partial ISO 8601 dates as text, typed date or datetime, with their precision", async () => {
-    const o = await parseDatasetJson(file(doc([["S1", 1, "2025-03", "2025-03-04"], ["S2", 2, "2025", "2025-03-04T10:15"], ["S3", 3, "2025-03-31", null]]), "adlb.json"), "adlb.json");
+    const o = await parseDatasetJson(
+      file(
+        doc([
+          ["S1", 1, "2025-03", "2025-03-04"],
+          ["S2", 2, "2025", "2025-03-04T10:15"],
+          ["S3", 3, "2025-03-31", null],
+        ]),
+        "adlb.json",
+      ),
+      "adlb.json",
+    );
     expect(o.ok).toBe(true);
     if (!o.ok) return;
     expect(o.dataset.columns[2]).toMatchObject({ type: "date", precision: { month: 1, year: 1, day: 1 } });
     expect(o.dataset.columns[3]).toMatchObject({ type: "datetime", precision: { day: 1, minute: 1 } });
     expect(o.dataset.cells[2]).toEqual(["2025-03", "2025", "2025-03-31"]);
-    const bad = await parseDatasetJson(file(doc([["S1", 1, "2025-02-30", null], ["S2", 2, "03/04/2025", null]]), "adlb.json"), "adlb.json");
+    const bad = await parseDatasetJson(
+      file(
+        doc([
+          ["S1", 1, "2025-02-30", null],
+          ["S2", 2, "03/04/2025", null],
+        ]),
+        "adlb.json",
+      ),
+      "adlb.json",
+    );
     expect(problems(bad)[0]).toBe(
       `adlb.json: 2 cells in column "ADT" declared date are not ISO 8601 dates; first: row 1 '2025-02-30', row 2 '03/04/2025'. Correct the file, or read this column by its values (upload option, with a reason for the audit trail).`,
     );

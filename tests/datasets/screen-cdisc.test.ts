@@ -15,11 +15,18 @@ const svc = await import("~/.server/datasets/datasets.server");
 
 const studyId = "study-cdisc";
 const dana = { id: "p-dana", name: "Dana Okafor" };
-const fixture = (name: string) => readFileSync(path.join(import.meta.dirname, "..", "fixtures", "cdisc", name));
+const fixture = (name: string) =>
+  readFileSync(path.join(import.meta.dirname, "..", "fixtures", "cdisc", name));
 
 beforeAll(async () => {
-  await db.insert(t.people).values([{ id: dana.id, email: "dana.okafor@plumbline.example", displayName: dana.name, externalId: "dana" }]);
-  await db.insert(t.studies).values({ id: studyId, code: "CDISC-1", title: "Public examples", sponsor: "Test sponsor" });
+  await db
+    .insert(t.people)
+    .values([
+      { id: dana.id, email: "dana.okafor@plumbline.example", displayName: dana.name, externalId: "dana" },
+    ]);
+  await db
+    .insert(t.studies)
+    .values({ id: studyId, code: "CDISC-1", title: "Public examples", sponsor: "Test sponsor" });
 });
 
 async function hitsOf(datasetName: string, fileName: string): Promise<string[]> {

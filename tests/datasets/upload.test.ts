@@ -42,7 +42,9 @@ describe("receiving an upload", () => {
     const err = await receiveUpload(formRequest("x".repeat(5000)), 1000).catch((e: unknown) => e);
     expect(err).toBeInstanceOf(UploadRefused);
     expect((err as InstanceType<typeof UploadRefused>).status).toBe(413);
-    expect((err as Error).message).toBe("adeff.csv is larger than the limit of 1 kB. Split the dataset or ask an administrator to raise DATASET_MAX_BYTES.");
+    expect((err as Error).message).toBe(
+      "adeff.csv is larger than the limit of 1 kB. Split the dataset or ask an administrator to raise DATASET_MAX_BYTES.",
+    );
     expect(tmpFiles().length).toBe(before);
   });
 
@@ -68,7 +70,9 @@ describe("receiving an upload", () => {
       const err = await receiveUpload(formRequest("subjid,age\nS1,40\n"), 1000).catch((e: unknown) => e);
       expect(err).toBeInstanceOf(UploadRefused);
       expect((err as InstanceType<typeof UploadRefused>).status).toBe(507);
-      expect((err as Error).message).toMatch(/^Plumbline could not store the uploaded file: a folder inside the data folder is missing or is not a folder \(E[A-Z]+\)\. Nothing was stored\./);
+      expect((err as Error).message).toMatch(
+        /^Plumbline could not store the uploaded file: a folder inside the data folder is missing or is not a folder \(E[A-Z]+\)\. Nothing was stored\./,
+      );
     } finally {
       rmSync(tmp, { force: true });
     }
@@ -82,7 +86,8 @@ describe("receiving an upload", () => {
     // The file part starts and the body stays open: the refusal destroys the parser in the middle
     // of the part, whose stream then errors (busboy: "Unexpected end of file"). Unheard, that error
     // ended the server process.
-    const head = '--XX\r\nContent-Disposition: form-data; name="file"; filename="adeff.csv"\r\nContent-Type: text/csv\r\n\r\nsubjid,age\n';
+    const head =
+      '--XX\r\nContent-Disposition: form-data; name="file"; filename="adeff.csv"\r\nContent-Type: text/csv\r\n\r\nsubjid,age\n';
     const body = new ReadableStream<Uint8Array>({ start: (c) => c.enqueue(new TextEncoder().encode(head)) });
     const request = new Request("http://localhost/studies/s/datasets/upload", {
       method: "POST",
@@ -107,16 +112,32 @@ describe("receiving an upload", () => {
   it("survives a full disk: the upload is refused, the process lives on and no work file is left", () => {
     const data = path.join(dir, "full-disk");
     // The kernel's file-size limit (RLIMIT_FSIZE) makes every write past 1 MB fail with EFBIG, as a full disk fails with ENOSPC.
-    const child = spawnSync("prlimit", ["--fsize=1000000", process.execPath, "--import", "tsx", "tests/datasets/full-disk-child.ts"], {
-      env: { ...process.env, DATA_DIR: data, DATABASE_URL: `file:${path.join(dir, "full-disk.db")}`, UPLOAD_BYTES: "3000000" },
-      encoding: "utf8",
-      timeout: 60_000,
-    });
+    const child = spawnSync(
+      "prlimit",
+      ["--fsize=1000000", process.execPath, "--import", "tsx", "tests/datasets/full-disk-child.ts"],
+      {
+        env: {
+          ...process.env,
+          DATA_DIR: data,
+          DATABASE_URL: `file:${path.join(dir, "full-disk.db")}`,
+          UPLOAD_BYTES: "3000000",
+        },
+        encoding: "utf8",
+        timeout: 60_000,
+      },
+    );
     expect(child.stderr).not.toMatch(/Unhandled|uncaught/i);
     expect(child.status).toBe(0);
-    const report = JSON.parse(child.stdout.trim().split("\n").pop() as string) as { status: number; message: string; tmp: string[]; alive: boolean };
+    const report = JSON.parse(child.stdout.trim().split("\n").pop() as string) as {
+      status: number;
+      message: string;
+      tmp: string[];
+      alive: boolean;
+    };
     expect(report.status).toBe(507);
-    expect(report.message).toMatch(/^Plumbline could not store the uploaded file: the data folder is full \(EFBIG\)\. Nothing was stored\./);
+    expect(report.message).toMatch(
+      /^Plumbline could not store the uploaded file: the data folder is full \(EFBIG\)\. Nothing was stored\./,
+    );
     expect(report.tmp).toEqual([]);
     expect(report.alive).toBe(true);
   }, 90_000);

@@ -10,11 +10,16 @@ import { describe, expect, it } from "vitest";
 import { parseDatasetFile } from "~/.server/datasets/parse.server";
 
 const DIR = path.join(import.meta.dirname, "..", "fixtures", "xpt");
-const ref = JSON.parse(readFileSync(path.join(DIR, "datetimes.json"), "utf8")) as Record<string, (string | number | null)[]> & { label: string; formats: (string | null)[] };
+const ref = JSON.parse(readFileSync(path.join(DIR, "datetimes.json"), "utf8")) as Record<
+  string,
+  (string | number | null)[]
+> & { label: string; formats: (string | null)[] };
 
 describe("XPORT dates, datetimes and times", () => {
   it("turns day and second counts into ISO 8601 as R reads them, keeping labels and formats", async () => {
-    const o = await parseDatasetFile(path.join(DIR, "datetimes.xpt"), "datetimes.xpt", "xpt", { keyColumns: ["SUBJ"] });
+    const o = await parseDatasetFile(path.join(DIR, "datetimes.xpt"), "datetimes.xpt", "xpt", {
+      keyColumns: ["SUBJ"],
+    });
     expect(o.ok, o.ok ? "" : o.problems.join("\n")).toBe(true);
     if (!o.ok) return;
     const d = o.dataset;
@@ -27,12 +32,25 @@ describe("XPORT dates, datetimes and times", () => {
       ["VISTM", "time"],
       ["DOSE", "number"],
     ]);
-    expect(d.columns.map((c) => c.label)).toEqual(["Invented subject code", "Visit date", "Visit date and time", "Visit time", "Dose (mg)"]);
+    expect(d.columns.map((c) => c.label)).toEqual([
+      "Invented subject code",
+      "Visit date",
+      "Visit date and time",
+      "Visit time",
+      "Dose (mg)",
+    ]);
     for (const name of ["SUBJ", "VISDT", "VISDTM", "VISTM"]) {
-      expect(d.cells[d.names.indexOf(name)], name).toEqual(ref[name].map((v) => (v === null ? "" : String(v))));
+      expect(d.cells[d.names.indexOf(name)], name).toEqual(
+        ref[name].map((v) => (v === null ? "" : String(v))),
+      );
     }
     expect(d.cells[d.names.indexOf("DOSE")].map((c) => (c === "" ? null : Number(c)))).toEqual(ref.DOSE);
-    expect(d.columns[2]).toMatchObject({ type: "datetime", precision: { second: 3 }, earliest: "1960-01-01T00:00:00", latest: "2024-02-29T23:59:59" });
+    expect(d.columns[2]).toMatchObject({
+      type: "datetime",
+      precision: { second: 3 },
+      earliest: "1960-01-01T00:00:00",
+      latest: "2024-02-29T23:59:59",
+    });
   });
 
   it("refuses a version 8 transport file with one message saying what to do", async () => {

@@ -13,11 +13,7 @@ import { mkdtempSync, readFileSync, rmSync, writeFileSync } from "node:fs";
 import { tmpdir } from "node:os";
 import { join } from "node:path";
 import { describe, expect, it } from "vitest";
-import {
-  DEMO_DEFAULT_SEED,
-  demoDatasetCsv,
-  generateDemoDataset,
-} from "../../app/.server/demo/demo-dataset";
+import { DEMO_DEFAULT_SEED, demoDatasetCsv, generateDemoDataset } from "../../app/.server/demo/demo-dataset";
 import {
   DEMO_ARMS,
   DEMO_DATA_DICTIONARY,

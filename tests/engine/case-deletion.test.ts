@@ -44,7 +44,12 @@ function inventedTable(n: number, seed: number): ColumnTable {
   return { columns: cols, rowNumbers: Array.from({ length: n }, (_, i) => i + 1) };
 }
 
-const SPEC: ModelSpecInput = { response: "y", terms: [{ variable: "arm" }, { variable: "base" }, { variable: "age" }, { variable: "sex" }], id: "id", treatment: "arm" };
+const SPEC: ModelSpecInput = {
+  response: "y",
+  terms: [{ variable: "arm" }, { variable: "base" }, { variable: "age" }, { variable: "sex" }],
+  id: "id",
+  treatment: "arm",
+};
 
 /** The full fit and every row's deletion case, built the way what-if.server.ts builds them. */
 function prepared(table: ColumnTable, weighted: boolean) {
@@ -52,16 +57,32 @@ function prepared(table: ColumnTable, weighted: boolean) {
   const data = prepareData(spec, toDataTable(table));
   const design = buildDesign(spec, data);
   const { n, p } = design;
-  const outcome = leastSquares({ x: design.x, n, p, y: data.response, weights: data.weights, offset: data.offset });
+  const outcome = leastSquares({
+    x: design.x,
+    n,
+    p,
+    y: data.response,
+    weights: data.weights,
+    offset: data.offset,
+  });
   if (!outcome.ok) throw new Error("aliased");
   const fit = outcome.fit;
   const c: number[] = [];
   for (let a = 0; a < p; a++) for (let b = 0; b < p; b++) c.push(fit.unscaledCovariance[b * p + a]);
-  const full: FullFit = { n, p, coefficients: Array.from(fit.coefficients), unscaledCovariance: c, rss: fit.rss };
+  const full: FullFit = {
+    n,
+    p,
+    coefficients: Array.from(fit.coefficients),
+    unscaledCovariance: c,
+    rss: fit.rss,
+  };
   const caseOf = (row: number): DeletedCase => {
     const k = data.used.findIndex((u) => data.rowNumbers[u] === row);
     const sw = data.weights ? Math.sqrt(data.weights[k]) : 1;
-    return { x: Array.from({ length: p }, (_, j) => design.x[j * n + k] * sw), residual: fit.weightedResiduals[k] };
+    return {
+      x: Array.from({ length: p }, (_, j) => design.x[j * n + k] * sw),
+      residual: fit.weightedResiduals[k],
+    };
   };
   return { spec, full, caseOf, names: design.names };
 }
@@ -88,10 +109,14 @@ describe("closed-form case deletion equals an explicit refit without the rows", 
         if (!out.ok) return;
         const refit = fitLinear(spec, without(table, rows));
         expect(out.dfResidual).toBe(refit.dfResidual);
-        refit.coefficients.forEach((c, j) => close(out.coefficients[j], c.estimate, 1e-9, `coefficient ${c.name}`));
+        refit.coefficients.forEach((c, j) =>
+          close(out.coefficients[j], c.estimate, 1e-9, `coefficient ${c.name}`),
+        );
         close(out.rss, refit.fit.rss, 1e-9, "RSS");
         close(out.sigma, refit.fit.sigma, 1e-9, "sigma");
-        refit.coefficients.forEach((c, j) => close(out.sigma * Math.sqrt(out.unscaledCovariance[j * full.p + j]), c.se, 1e-9, `SE ${c.name}`));
+        refit.coefficients.forEach((c, j) =>
+          close(out.sigma * Math.sqrt(out.unscaledCovariance[j * full.p + j]), c.se, 1e-9, `SE ${c.name}`),
+        );
         for (const stored of refit.contrasts ?? []) {
           const j = refit.coefficients.findIndex((c) => c.name.includes(stored.level));
           const l = Array.from({ length: full.p }, (_, k) => (k === j ? 1 : 0));
@@ -114,7 +139,9 @@ describe("closed-form case deletion equals an explicit refit without the rows", 
         const out = deleteCases(full, [caseOf(r.observations.row[i])]);
         if (!out.ok) throw new Error(out.reason);
         for (let j = 0; j < full.p; j++) {
-          const dfbetas = (full.coefficients[j] - out.coefficients[j]) / (out.sigma * Math.sqrt(full.unscaledCovariance[j * full.p + j]));
+          const dfbetas =
+            (full.coefficients[j] - out.coefficients[j]) /
+            (out.sigma * Math.sqrt(full.unscaledCovariance[j * full.p + j]));
           close(dfbetas, r.observations.dfbetas[j][i], 1e-9, `DFBETAS row ${i + 1} coefficient ${j}`);
         }
       }
@@ -150,9 +177,23 @@ interface RCase {
 }
 
 describe("closed-form case deletion agrees with R's lm refits (tests/reference/case-deletion/values.json)", () => {
-  const ref = JSON.parse(readFileSync(join(import.meta.dirname, "../reference/case-deletion/values.json"), "utf8")) as { source: string; cases: RCase[] };
-  const table = readCsvText(readFileSync(join(import.meta.dirname, "../reference/data/trial-ancova.csv"), "utf8"));
-  const spec: ModelSpecInput = { response: "chg", terms: [{ variable: "arm", reference: "Placebo" }, { variable: "base" }, { variable: "age" }, { variable: "sex" }], id: "subject", treatment: "arm" };
+  const ref = JSON.parse(
+    readFileSync(join(import.meta.dirname, "../reference/case-deletion/values.json"), "utf8"),
+  ) as { source: string; cases: RCase[] };
+  const table = readCsvText(
+    readFileSync(join(import.meta.dirname, "../reference/data/trial-ancova.csv"), "utf8"),
+  );
+  const spec: ModelSpecInput = {
+    response: "chg",
+    terms: [
+      { variable: "arm", reference: "Placebo" },
+      { variable: "base" },
+      { variable: "age" },
+      { variable: "sex" },
+    ],
+    id: "subject",
+    treatment: "arm",
+  };
   for (const c of ref.cases) {
     it(`${c.case} (${ref.source})`, () => {
       const s = c.weighted ? { ...spec, weights: "w" } : spec;
@@ -165,19 +206,30 @@ describe("closed-form case deletion agrees with R's lm refits (tests/reference/c
       const cm: number[] = [];
       for (let a = 0; a < p; a++) for (let b = 0; b < p; b++) cm.push(o.fit.unscaledCovariance[b * p + a]);
       // a dropped row with a missing cell (data row 99) is not in the fit to begin with
-      const cases = c.drop.filter((row) => r.observations.row.includes(row)).map((row) => {
-        const k = r.observations.row.indexOf(row);
-        const sw = data.weights ? Math.sqrt(data.weights[k]) : 1;
-        return { x: Array.from({ length: p }, (_, j) => design.x[j * n + k] * sw), residual: o.fit.weightedResiduals[k] };
-      });
-      const out = deleteCases({ n, p, coefficients: Array.from(o.fit.coefficients), unscaledCovariance: cm, rss: o.fit.rss }, cases);
+      const cases = c.drop
+        .filter((row) => r.observations.row.includes(row))
+        .map((row) => {
+          const k = r.observations.row.indexOf(row);
+          const sw = data.weights ? Math.sqrt(data.weights[k]) : 1;
+          return {
+            x: Array.from({ length: p }, (_, j) => design.x[j * n + k] * sw),
+            residual: o.fit.weightedResiduals[k],
+          };
+        });
+      const out = deleteCases(
+        { n, p, coefficients: Array.from(o.fit.coefficients), unscaledCovariance: cm, rss: o.fit.rss },
+        cases,
+      );
       if (!out.ok) throw new Error(out.reason);
       expect(out.dfResidual).toBe(c.df);
       c.coefficients.forEach((v, j) => close(out.coefficients[j], v, 1e-9, `coefficient ${j}`));
       close(out.sigma, c.sigma, 1e-9, "sigma");
       for (const rc of c.contrasts) {
         const j = design.names.findIndex((nm) => nm.includes(rc.label.replace(" vs Placebo", "")));
-        const est = contrastOf(out, Array.from({ length: p }, (_, k) => (k === j ? 1 : 0)));
+        const est = contrastOf(
+          out,
+          Array.from({ length: p }, (_, k) => (k === j ? 1 : 0)),
+        );
         close(est.estimate, rc.estimate, 1e-9, `${rc.label} estimate`);
         close(est.se, rc.se, 1e-9, `${rc.label} SE`);
         close(est.lower, rc.lower, 1e-9, `${rc.label} lower`);
@@ -205,7 +257,9 @@ describe("what-if inputs from a stored rerun", () => {
     const inputs = whatIfInputs(d, rerunTable(d, table), { prespecifiedExclusion: false });
     expect(inputs.available).toBe(true);
     if (!inputs.available) return;
-    expect(inputs.caution).toBe("Results support, but do not replace, qualified statistical and medical review.");
+    expect(inputs.caution).toBe(
+      "Results support, but do not replace, qualified statistical and medical review.",
+    );
     expect(inputs.candidates[0].row).toBe(8); // the planted outlier
     expect(inputs.candidates.length).toBeLessThanOrEqual(30);
     const cooks = inputs.candidates.map((c) => c.cooks);
@@ -213,7 +267,13 @@ describe("what-if inputs from a stored rerun", () => {
     const chosen = inputs.candidates.slice(0, 2);
     const out = deleteCases(inputs.full, chosen);
     if (!out.ok) throw new Error(out.reason);
-    const refit = fitLinear(SPEC, without(table, chosen.map((c) => c.row)));
+    const refit = fitLinear(
+      SPEC,
+      without(
+        table,
+        chosen.map((c) => c.row),
+      ),
+    );
     for (const [k, con] of inputs.contrasts.entries()) {
       const est = contrastOf(out, con.l);
       const stored = refit.contrasts?.[k];

@@ -11,7 +11,12 @@ import { expectClose } from "../reference/compare";
 
 const DIR = join(import.meta.dirname, "coded-site-group");
 const table = readCsvText(readFileSync(join(DIR, "data.csv"), "utf8"));
-interface RRow { estimate: number; se: number; statistic: number; p: number }
+interface RRow {
+  estimate: number;
+  se: number;
+  statistic: number;
+  p: number;
+}
 const r = JSON.parse(readFileSync(join(DIR, "values.json"), "utf8")) as {
   categorical: { treatment: RRow; dfResidual: number; rank: number };
   continuous: { treatment: RRow; site: RRow; dfResidual: number; rank: number };
@@ -21,7 +26,11 @@ const spec = (categorical: boolean) => ({
   response: "chg",
   family: "gaussian" as const,
   treatment: "arm",
-  terms: [{ variable: "arm", categorical: true, reference: "Placebo" }, { variable: "base" }, categorical ? { variable: "sitegr1", categorical: true } : { variable: "sitegr1" }],
+  terms: [
+    { variable: "arm", categorical: true, reference: "Placebo" },
+    { variable: "base" },
+    categorical ? { variable: "sitegr1", categorical: true } : { variable: "sitegr1" },
+  ],
 });
 
 function treatmentRow(categorical: boolean) {

@@ -48,8 +48,12 @@ describe("time-to-event specification and data checks", () => {
   });
 
   it("names a missing status or strata column", () => {
-    expect(message(() => fitCoxModel({ ...base, status: { column: "EVNT", event: [1] } }, table()))).toMatch(/column "EVNT" is missing/);
-    expect(message(() => fitCoxModel({ ...base, strata: ["SITE"] }, table()))).toMatch(/column "SITE" is missing/);
+    expect(message(() => fitCoxModel({ ...base, status: { column: "EVNT", event: [1] } }, table()))).toMatch(
+      /column "EVNT" is missing/,
+    );
+    expect(message(() => fitCoxModel({ ...base, strata: ["SITE"] }, table()))).toMatch(
+      /column "SITE" is missing/,
+    );
   });
 
   it("names the row of a negative time and of a non-numeric time", () => {
@@ -62,16 +66,26 @@ describe("time-to-event specification and data checks", () => {
   });
 
   it("refuses a status column without any event value", () => {
-    expect(message(() => fitCoxModel({ ...base, status: { column: "CNSR", event: [9] } }, table()))).toMatch(/no events to model/);
+    expect(message(() => fitCoxModel({ ...base, status: { column: "CNSR", event: [9] } }, table()))).toMatch(
+      /no events to model/,
+    );
   });
 
   it("refuses a stratum that is also a term", () => {
-    expect(message(() => fitCoxModel({ ...base, terms: [...base.terms, { variable: "S" }], strata: ["S"] }, table()))).toMatch(/strata column "S" is also listed as a term/);
+    expect(
+      message(() =>
+        fitCoxModel({ ...base, terms: [...base.terms, { variable: "S" }], strata: ["S"] }, table()),
+      ),
+    ).toMatch(/strata column "S" is also listed as a term/);
   });
 
   it("names aliased columns", () => {
-    const t = table({ AGE2: ["120", "110", "140", "96", "132", "118", "142", "104", "126", "116", "98", "134"] });
-    expect(message(() => fitCoxModel({ ...base, terms: [...base.terms, { variable: "AGE2" }] }, t))).toMatch(/aliased: "AGE2"/);
+    const t = table({
+      AGE2: ["120", "110", "140", "96", "132", "118", "142", "104", "126", "116", "98", "134"],
+    });
+    expect(message(() => fitCoxModel({ ...base, terms: [...base.terms, { variable: "AGE2" }] }, t))).toMatch(
+      /aliased: "AGE2"/,
+    );
   });
 
   it("leaves out rows with a missing status or stratum and counts them", () => {
@@ -88,7 +102,10 @@ describe("time-to-event specification and data checks", () => {
 
   it("reads event values written as text or numbers alike", () => {
     const a = fitCoxModel({ ...base, status: { column: "CNSR", event: ["0"] } }, table());
-    const b = fitCoxModel(base, table({ CNSR: ["0.0", "1", "0", "0", "1", "0", "0", "1", "0", "0", "1", "0"] }));
+    const b = fitCoxModel(
+      base,
+      table({ CNSR: ["0.0", "1", "0", "0", "1", "0", "0", "1", "0", "0", "1", "0"] }),
+    );
     expect(a.fit.events).toBe(8);
     expect(b.fit.events).toBe(8);
     expect(b.coefficients[0].estimate).toBeCloseTo(a.coefficients[0].estimate, 12);
@@ -96,7 +113,9 @@ describe("time-to-event specification and data checks", () => {
 
   it("names the row of an event at time 0 when the plan asks for the log time transform", () => {
     const t = table({ AVAL: ["0", "8", "8", "12", "15", "20", "22", "30", "31", "40", "41", "50"] });
-    expect(message(() => fitCoxModel({ ...base, proportionalHazards: { transform: "log" } }, t))).toMatch(/data row 1 has an event at time 0/);
+    expect(message(() => fitCoxModel({ ...base, proportionalHazards: { transform: "log" } }, t))).toMatch(
+      /data row 1 has an event at time 0/,
+    );
     expect(fitCoxModel(base, t).fit.events).toBe(8);
   });
 

@@ -5,9 +5,20 @@
 // to 1e-300 (the old tails were one minus a number near one and gave 0 below about 1e-16).
 import { readFileSync } from "node:fs";
 import { describe, expect, it } from "vitest";
-import { chiSquareUpper, fUpper, normalCdf, normalUpper, tCdf, tTwoSided, tUpper } from "~/engine/distributions";
+import {
+  chiSquareUpper,
+  fUpper,
+  normalCdf,
+  normalUpper,
+  tCdf,
+  tTwoSided,
+  tUpper,
+} from "~/engine/distributions";
 
-interface Case { r: number; mp: number }
+interface Case {
+  r: number;
+  mp: number;
+}
 interface Tails {
   source: string;
   t: (Case & { t: number; df: number })[];
@@ -18,7 +29,6 @@ interface Tails {
 
 const tails = JSON.parse(readFileSync("tests/reference/tails/distribution-tails.json", "utf8")) as Tails;
 const TOLERANCE = 1e-12;
-
 
 function rel(a: number, b: number): number {
   return Math.abs(a - b) / Math.abs(b);

@@ -1,7 +1,15 @@
 // Distribution functions against R 4.2.2 (pt, pf, pchisq, pnorm, qt, qnorm), values printed by R
 // with options(digits = 17) and typed in here.
 import { describe, expect, it } from "vitest";
-import { chiSquareUpper, fUpper, normalCdf, normalQuantile, tCdf, tQuantile, tTwoSided } from "~/engine/distributions";
+import {
+  chiSquareUpper,
+  fUpper,
+  normalCdf,
+  normalQuantile,
+  tCdf,
+  tQuantile,
+  tTwoSided,
+} from "~/engine/distributions";
 
 function rel(a: number, b: number): number {
   return Math.abs(a - b) / Math.abs(b);

@@ -24,7 +24,11 @@ function message(fn: () => unknown): string {
 }
 
 // invented: x separates the outcome completely above 5
-const separated = Array.from({ length: 20 }, (_, i) => ({ y: i >= 10 ? "1" : "0", x: String(i), z: String((i * 7) % 5) }));
+const separated = Array.from({ length: 20 }, (_, i) => ({
+  y: i >= 10 ? "1" : "0",
+  x: String(i),
+  z: String((i * 7) % 5),
+}));
 // invented: arm B has only events (quasi-complete separation by a level)
 const quasi = Array.from({ length: 30 }, (_, i) => ({
   y: i % 3 === 0 ? "1" : i >= 20 ? "1" : "0",
@@ -69,30 +73,42 @@ describe("GLM input errors", () => {
     { y: "0", c: "4", g: "b", arm: "yes", off: "0.2" },
   ];
   it("a binary response with more than two levels lists them", () => {
-    expect(message(() => glm({ response: "arm", family: "binomial", terms: [{ variable: "g" }] }, rows))).toBe(
-      'binary response "arm" has more than two levels: maybe, no, yes',
-    );
+    expect(
+      message(() => glm({ response: "arm", family: "binomial", terms: [{ variable: "g" }] }, rows)),
+    ).toBe('binary response "arm" has more than two levels: maybe, no, yes');
   });
   it("negative or non-integer counts name the row", () => {
     const bad = rows.map((r, i) => (i === 2 ? { ...r, c: "2.5" } : r));
-    expect(message(() => glm({ response: "c", family: "poisson", terms: [{ variable: "g" }] }, bad))).toMatch(/non-negative integer: data row 3 has 2.5/);
+    expect(message(() => glm({ response: "c", family: "poisson", terms: [{ variable: "g" }] }, bad))).toMatch(
+      /non-negative integer: data row 3 has 2.5/,
+    );
     const neg = rows.map((r, i) => (i === 4 ? { ...r, c: "-1" } : r));
-    expect(message(() => glm({ response: "c", family: "poisson", terms: [{ variable: "g" }] }, neg))).toMatch(/data row 5 has -1/);
+    expect(message(() => glm({ response: "c", family: "poisson", terms: [{ variable: "g" }] }, neg))).toMatch(
+      /data row 5 has -1/,
+    );
   });
   it("a non-finite offset names the row", () => {
-    expect(message(() => glm({ response: "c", family: "poisson", terms: [{ variable: "g" }], offset: "off" }, rows))).toBe(
-      'offset column "off" has a non-finite value ("-Inf") at data row 4',
-    );
+    expect(
+      message(() =>
+        glm({ response: "c", family: "poisson", terms: [{ variable: "g" }], offset: "off" }, rows),
+      ),
+    ).toBe('offset column "off" has a non-finite value ("-Inf") at data row 4');
   });
   it("no events or all events", () => {
     const none = rows.map((r) => ({ ...r, y: "0" }));
-    expect(message(() => glm({ response: "y", family: "binomial", terms: [{ variable: "g" }] }, none))).toMatch(/has no events/);
+    expect(
+      message(() => glm({ response: "y", family: "binomial", terms: [{ variable: "g" }] }, none)),
+    ).toMatch(/has no events/);
     const all = rows.map((r) => ({ ...r, y: "1" }));
-    expect(message(() => glm({ response: "y", family: "binomial", terms: [{ variable: "g" }] }, all))).toMatch(/event in every row/);
+    expect(
+      message(() => glm({ response: "y", family: "binomial", terms: [{ variable: "g" }] }, all)),
+    ).toMatch(/event in every row/);
   });
   it("a two-level text response needs its event level", () => {
     const two = rows.filter((r) => r.arm !== "maybe");
-    expect(message(() => glm({ response: "arm", family: "binomial", terms: [{ variable: "g" }] }, two))).toMatch(/name the level counted as the event/);
+    expect(
+      message(() => glm({ response: "arm", family: "binomial", terms: [{ variable: "g" }] }, two)),
+    ).toMatch(/name the level counted as the event/);
   });
 });
 
@@ -102,7 +118,9 @@ describe("randomized quantile residuals (Dunn and Smyth 1996)", () => {
     const mu = Float64Array.from([0.5, 1.2, 2.2, 2.9, 4.1, 0.3, 3.3]);
     const r = quantileResiduals(y, mu, poissonFamily);
     y.forEach((yi, i) => {
-      expect(r[i]).toBeGreaterThanOrEqual(normalQuantile(Math.max(1e-300, poissonFamily.cdf(yi - 1, mu[i]))) - 1e-12);
+      expect(r[i]).toBeGreaterThanOrEqual(
+        normalQuantile(Math.max(1e-300, poissonFamily.cdf(yi - 1, mu[i]))) - 1e-12,
+      );
       expect(r[i]).toBeLessThanOrEqual(normalQuantile(poissonFamily.cdf(yi, mu[i])) + 1e-12);
     });
     expect(Array.from(quantileResiduals(y, mu, poissonFamily))).toEqual(Array.from(r));
@@ -123,8 +141,17 @@ describe("overdispersion in words", () => {
 describe("GLM determinism", () => {
   it("gives byte-identical output for the same input (quantile residuals included)", async () => {
     const { stringifyResult } = await import("~/engine");
-    const rows = Array.from({ length: 40 }, (_, i) => ({ c: String((i * 7) % 9), g: i % 3 === 0 ? "a" : "b", x: String(i / 10) }));
-    const spec = { response: "c", family: "negative-binomial", terms: [{ variable: "g" }, { variable: "x" }], treatment: "g" };
+    const rows = Array.from({ length: 40 }, (_, i) => ({
+      c: String((i * 7) % 9),
+      g: i % 3 === 0 ? "a" : "b",
+      x: String(i / 10),
+    }));
+    const spec = {
+      response: "c",
+      family: "negative-binomial",
+      terms: [{ variable: "g" }, { variable: "x" }],
+      treatment: "g",
+    };
     expect(stringifyResult(fitModel(spec, rows))).toBe(stringifyResult(fitModel(spec, rows)));
   });
 });

@@ -41,7 +41,10 @@ describe("invariants of the linear fit", () => {
     const p = result.rank;
     const sigma = result.fit.sigma;
     for (let i = 0; i < n; i++) {
-      const loo = fitModel(spec, rows.filter((_, k) => k !== i));
+      const loo = fitModel(
+        spec,
+        rows.filter((_, k) => k !== i),
+      );
       const sigmaI = loo.fit.sigma;
       // prediction of the left-out row from the refit
       const x = Number(rows[i].x);
@@ -74,7 +77,9 @@ describe("invariants of the linear fit", () => {
   });
 
   it("carries the caution", () => {
-    expect(result.caution).toBe("Results support, but do not replace, qualified statistical and medical review.");
+    expect(result.caution).toBe(
+      "Results support, but do not replace, qualified statistical and medical review.",
+    );
   });
 });
 
@@ -119,7 +124,8 @@ describe("Householder QR", () => {
 
 describe("large-data mode (design storage reused for Q)", () => {
   it("gives the same fit, diagnostics and partial residuals as the standard mode", async () => {
-    const { leastSquares, observationDiagnostics, partialResiduals, partialResidualsFromQR } = await import("~/engine");
+    const { leastSquares, observationDiagnostics, partialResiduals, partialResidualsFromQR } =
+      await import("~/engine");
     const n = 300;
     const p = 5;
     const x = new Float64Array(n * p);
@@ -133,13 +139,16 @@ describe("large-data mode (design storage reused for Q)", () => {
     }
     const terms = [[1], [2, 3], [4]];
     const standard = leastSquares({ x, n, p, y, weights: w });
-    const lean = leastSquares({ x: new Float64Array(x), n, p, y, weights: w }, undefined, { overwriteDesign: true });
+    const lean = leastSquares({ x: new Float64Array(x), n, p, y, weights: w }, undefined, {
+      overwriteDesign: true,
+    });
     if (!standard.ok || !lean.ok) throw new Error("aliased");
     const a = observationDiagnostics(standard.fit);
     const b = observationDiagnostics(lean.fit);
     const pa = partialResiduals(x, n, terms, standard.fit.coefficients, standard.fit.residuals);
     const pb = partialResidualsFromQR(lean.fit, terms);
-    for (let j = 0; j < p; j++) expect(lean.fit.coefficients[j]).toBeCloseTo(standard.fit.coefficients[j], 11);
+    for (let j = 0; j < p; j++)
+      expect(lean.fit.coefficients[j]).toBeCloseTo(standard.fit.coefficients[j], 11);
     for (let i = 0; i < n; i++) {
       expect(b.leverage[i]).toBeCloseTo(a.leverage[i], 12);
       expect(b.cooksDistance[i]).toBeCloseTo(a.cooksDistance[i], 11);

@@ -31,8 +31,14 @@ const LONGLEY = [
 
 // Certified values, NIST StRD Longley.dat
 const LONGLEY_CERTIFIED = {
-  estimate: [-3482258.63459582, 15.0618722713733, -0.358191792925910e-1, -2.02022980381683, -1.03322686717359, -0.511041056535807e-1, 1829.15146461355],
-  se: [890420.383607373, 84.9149257747669, 0.334910077722432e-1, 0.488399681651699, 0.214274163161675, 0.22607320006937, 455.478499142212],
+  estimate: [
+    -3482258.63459582, 15.0618722713733, -0.35819179292591e-1, -2.02022980381683, -1.03322686717359,
+    -0.511041056535807e-1, 1829.15146461355,
+  ],
+  se: [
+    890420.383607373, 84.9149257747669, 0.334910077722432e-1, 0.488399681651699, 0.214274163161675,
+    0.22607320006937, 455.478499142212,
+  ],
   sigma: 304.854073561965,
   rSquared: 0.995479004577296,
 };
@@ -65,10 +71,15 @@ describe("NIST StRD linear least squares", () => {
   it("Longley: every coefficient and standard error to at least 10 digits", () => {
     const names = ["y", "x1", "x2", "x3", "x4", "x5", "x6"];
     const columns = Object.fromEntries(names.map((n, j) => [n, LONGLEY.map((r) => String(r[j]))]));
-    const result = fitModel({ response: "y", terms: names.slice(1).map((variable) => ({ variable })) }, { columns });
+    const result = fitModel(
+      { response: "y", terms: names.slice(1).map((variable) => ({ variable })) },
+      { columns },
+    );
     const est = result.coefficients.map((c, j) => lre(c.estimate, LONGLEY_CERTIFIED.estimate[j]));
     const se = result.coefficients.map((c, j) => lre(c.se, LONGLEY_CERTIFIED.se[j]));
-    figures.push(`Longley   min LRE estimates ${Math.min(...est).toFixed(1)}, standard errors ${Math.min(...se).toFixed(1)}, residual SD ${lre(result.fit.sigma, LONGLEY_CERTIFIED.sigma).toFixed(1)}, R² ${lre(result.fit.rSquared, LONGLEY_CERTIFIED.rSquared).toFixed(1)}`);
+    figures.push(
+      `Longley   min LRE estimates ${Math.min(...est).toFixed(1)}, standard errors ${Math.min(...se).toFixed(1)}, residual SD ${lre(result.fit.sigma, LONGLEY_CERTIFIED.sigma).toFixed(1)}, R² ${lre(result.fit.rSquared, LONGLEY_CERTIFIED.rSquared).toFixed(1)}`,
+    );
     for (const v of [...est, ...se]) expect(v).toBeGreaterThanOrEqual(10);
     expect(lre(result.fit.sigma, LONGLEY_CERTIFIED.sigma)).toBeGreaterThanOrEqual(10);
     expect(lre(result.fit.rSquared, LONGLEY_CERTIFIED.rSquared)).toBeGreaterThanOrEqual(10);
@@ -78,7 +89,9 @@ describe("NIST StRD linear least squares", () => {
     const { result, certified } = polynomialCase(0);
     const est = result.coefficients.map((c, j) => lre(c.estimate, certified[j]));
     const se = result.coefficients.map((c) => lre(c.se, 0));
-    figures.push(`Wampler1  min LRE estimates ${Math.min(...est).toFixed(1)}, standard errors ${Math.min(...se).toFixed(1)} (certified 0)`);
+    figures.push(
+      `Wampler1  min LRE estimates ${Math.min(...est).toFixed(1)}, standard errors ${Math.min(...se).toFixed(1)} (certified 0)`,
+    );
     for (const v of [...est, ...se]) expect(v).toBeGreaterThanOrEqual(8);
   });
 
@@ -86,7 +99,9 @@ describe("NIST StRD linear least squares", () => {
     const { result, certified } = polynomialCase(1);
     const est = result.coefficients.map((c, j) => lre(c.estimate, certified[j]));
     const se = result.coefficients.map((c) => lre(c.se, 0));
-    figures.push(`Wampler2  min LRE estimates ${Math.min(...est).toFixed(1)}, standard errors ${Math.min(...se).toFixed(1)} (certified 0)`);
+    figures.push(
+      `Wampler2  min LRE estimates ${Math.min(...est).toFixed(1)}, standard errors ${Math.min(...se).toFixed(1)} (certified 0)`,
+    );
     for (const v of [...est, ...se]) expect(v).toBeGreaterThanOrEqual(10);
     console.info(figures.join("\n"));
   });

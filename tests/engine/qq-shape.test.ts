@@ -12,9 +12,16 @@
  */
 import { describe, expect, it } from "vitest";
 import { normalQuantile, tQuantile } from "~/engine/distributions";
-import { kellySkewness, moorsTailWeight, NORMAL_TAIL_WEIGHT, quantileMeasureStandardErrors, readQqShape } from "~/engine/qq-shape";
+import {
+  kellySkewness,
+  moorsTailWeight,
+  NORMAL_TAIL_WEIGHT,
+  quantileMeasureStandardErrors,
+  readQqShape,
+} from "~/engine/qq-shape";
 
-const blom = (n: number, q: (p: number) => number) => Array.from({ length: n }, (_, i) => q((i + 1 - 0.375) / (n + 0.25)));
+const blom = (n: number, q: (p: number) => number) =>
+  Array.from({ length: n }, (_, i) => q((i + 1 - 0.375) / (n + 0.25)));
 const sorted = (v: number[]) => Float64Array.from(v).sort();
 const exponential = (p: number) => -Math.log(1 - p);
 
@@ -86,7 +93,9 @@ describe("the Q-Q reading", () => {
     const r = readQqShape(values);
     expect(r.skewness).toBeGreaterThan(0.3);
     expect(r.reading).toBe("heavier tails");
-    expect(r.summary).toMatch(/The skewness of 0\.\d\d comes from one residual \(9\.00\): −?0\.\d\d without it\./);
+    expect(r.summary).toMatch(
+      /The skewness of 0\.\d\d comes from one residual \(9\.00\): −?0\.\d\d without it\./,
+    );
   });
 
   it("reads exponential scores as right-skewed and their mirror image as left-skewed, with or without the most extreme", () => {

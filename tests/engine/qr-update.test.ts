@@ -36,7 +36,10 @@ describe("columns appended to a fitted factorization", () => {
       const n = 400;
       const p = 6;
       const x = design(n, p, next);
-      const y = Float64Array.from({ length: n }, (_, i) => x[n + i] * 0.5 - x[2 * n + i] + x[n + i] * x[3 * n + i] * 0.2 + next());
+      const y = Float64Array.from(
+        { length: n },
+        (_, i) => x[n + i] * 0.5 - x[2 * n + i] + x[n + i] * x[3 * n + i] * 0.2 + next(),
+      );
       const weights = weighted ? Float64Array.from({ length: n }, () => 0.5 + next()) : null;
       const outcome = leastSquares({ x, n, p, y, weights });
       if (!outcome.ok) throw new Error("the test design is aliased");
@@ -63,7 +66,15 @@ describe("columns appended to a fitted factorization", () => {
     const table = readCsvText(readFileSync(join(REF, "data", "trial-ancova.csv"), "utf8"));
     const spec = JSON.parse(readFileSync(join(REF, "models", "trial-ancova.json"), "utf8")) as unknown;
     const r = JSON.parse(readFileSync(join(REF, "values", "trial-ancova.json"), "utf8")) as {
-      tests: { homogeneityOfSlopes: { statistic: number; df1: number; df2: number; p: number; byCovariate: { covariate: string; statistic: number; df1: number; df2: number; p: number }[] } };
+      tests: {
+        homogeneityOfSlopes: {
+          statistic: number;
+          df1: number;
+          df2: number;
+          p: number;
+          byCovariate: { covariate: string; statistic: number; df1: number; df2: number; p: number }[];
+        };
+      };
     };
     const hos = fitLinear(spec, table).tests.homogeneityOfSlopes;
     const expected = r.tests.homogeneityOfSlopes;
@@ -88,7 +99,9 @@ describe("columns appended to a fitted factorization", () => {
       columns: Object.fromEntries(
         Object.entries(table.columns).map(([name, cells]) => [
           name,
-          cells.every((c) => c === "" || Number.isFinite(Number(c))) ? Float64Array.from(cells, (c) => (c === "" ? Number.NaN : Number(c))) : cells.map((c) => (c === "" ? null : c)),
+          cells.every((c) => c === "" || Number.isFinite(Number(c)))
+            ? Float64Array.from(cells, (c) => (c === "" ? Number.NaN : Number(c)))
+            : cells.map((c) => (c === "" ? null : c)),
         ]),
       ),
     };

@@ -1,7 +1,14 @@
 // Remedies return full results beside the planned fit; their numbers follow from the primary
 // definitions (weights column = prior weights; robust = HC covariance in the coefficient table).
 import { describe, expect, it } from "vitest";
-import { fitModel, fitWithEstimatedVariance, fitWithRobustErrors, fitWithWeightsColumn, toDataTable, parseModelSpec } from "~/engine";
+import {
+  fitModel,
+  fitWithEstimatedVariance,
+  fitWithRobustErrors,
+  fitWithWeightsColumn,
+  toDataTable,
+  parseModelSpec,
+} from "~/engine";
 import { readCsvText } from "~/engine-io/read-csv";
 import { readFileSync } from "node:fs";
 import { join } from "node:path";
@@ -43,6 +50,13 @@ describe("remedies", () => {
   });
 
   it("Q-Q reading is one of the plain-words shapes", () => {
-    expect(["close to normal", "one extreme residual", "right-skewed", "left-skewed", "heavier tails", "lighter tails"]).toContain(planned.qqShape.reading);
+    expect([
+      "close to normal",
+      "one extreme residual",
+      "right-skewed",
+      "left-skewed",
+      "heavier tails",
+      "lighter tails",
+    ]).toContain(planned.qqShape.reading);
   });
 });

@@ -20,8 +20,12 @@ import { chiSquareUpper } from "~/engine/distributions";
 const REF = join(import.meta.dirname, "..", "reference", "repeated");
 const trial = readCsvText(readFileSync(join(REF, "data", "trial.csv"), "utf8"));
 const orthodont = readCsvText(readFileSync(join(REF, "data", "orthodont.csv"), "utf8"));
-const model = (name: string) => JSON.parse(readFileSync(join(REF, "models", `${name}.json`), "utf8")) as Record<string, unknown> & { repeated: Record<string, unknown> };
-const values = (name: string) => JSON.parse(readFileSync(join(REF, "values", `${name}.json`), "utf8")) as { logLik: number };
+const model = (name: string) =>
+  JSON.parse(readFileSync(join(REF, "models", `${name}.json`), "utf8")) as Record<string, unknown> & {
+    repeated: Record<string, unknown>;
+  };
+const values = (name: string) =>
+  JSON.parse(readFileSync(join(REF, "values", `${name}.json`), "utf8")) as { logLik: number };
 
 function withRepeated(name: string, changes: Record<string, unknown>) {
   const m = model(name);
@@ -43,12 +47,23 @@ function filterRows(table: ColumnTable, keep: (row: Record<string, string>) => b
 describe("fallback structures", () => {
   // visits 2 and 8 are never observed in one subject: their covariance (unstructured) and the
   // lag-2 correlation (Toeplitz) are not estimable; AR(1) ties lag 2 to lag 1
-  const early = filterRows(trial, (r) => ["Week 2", "Week 4", "Week 8"].includes(r.AVISIT) && (Number(r.USUBJID.slice(2)) % 2 === 1 ? r.AVISIT !== "Week 8" : r.AVISIT !== "Week 2"));
+  const early = filterRows(
+    trial,
+    (r) =>
+      ["Week 2", "Week 4", "Week 8"].includes(r.AVISIT) &&
+      (Number(r.USUBJID.slice(2)) % 2 === 1 ? r.AVISIT !== "Week 8" : r.AVISIT !== "Week 2"),
+  );
   const spec = {
     response: "CHG",
     terms: [{ variable: "ARM", reference: "Placebo" }, { variable: "AVISIT" }, { variable: "BASE" }],
     treatment: "ARM",
-    repeated: { subject: "USUBJID", visit: "AVISIT", visitOrder: "AVISITN", covariance: "unstructured", fallback: ["toeplitz", "ar1"] },
+    repeated: {
+      subject: "USUBJID",
+      visit: "AVISIT",
+      visitOrder: "AVISITN",
+      covariance: "unstructured",
+      fallback: ["toeplitz", "ar1"],
+    },
   };
 
   it("uses the first fallback that converges and says why the others were not used", () => {
@@ -64,9 +79,9 @@ describe("fallback structures", () => {
   });
 
   it("names every attempt when none converges", () => {
-    expect(() => fitRepeatedModel({ ...spec, repeated: { ...spec.repeated, fallback: ["toeplitz"] } }, early)).toThrow(
-      /no covariance structure could be fitted: unstructured \(.+\); toeplitz \(.+\)/,
-    );
+    expect(() =>
+      fitRepeatedModel({ ...spec, repeated: { ...spec.repeated, fallback: ["toeplitz"] } }, early),
+    ).toThrow(/no covariance structure could be fitted: unstructured \(.+\); toeplitz \(.+\)/);
   });
 });
 
@@ -101,13 +116,17 @@ describe("subject influence", () => {
       );
       const d = without.beta.map((v, j) => v - beta[j]);
       // Cook's distance uses X'V⁻¹X, the inverse of the full-data coefficient covariance
-      const dc = numericInverse(a).reduce((acc, row, i) => acc + row.reduce((x, v, j) => x + d[i] * v * d[j], 0), 0) / p;
+      const dc =
+        numericInverse(a).reduce((acc, row, i) => acc + row.reduce((x, v, j) => x + d[i] * v * d[j], 0), 0) /
+        p;
       expect(r.subjects[s].cooksDistance).toBeCloseTo(dc, 8);
       // change in the contrast "Dose 10 mg vs Placebo" at the primary visit: the mean difference's
       // coefficients are the arm and arm-by-visit columns at Week 16
       const change = r.subjects[s].treatmentChange[0];
       const names = r.coefficients.map((c) => c.name);
-      const l: number[] = names.map((nm) => (nm === "ARM: Dose 10 mg" || nm === "ARM: Dose 10 mg × AVISIT: Week 16" ? 1 : 0));
+      const l: number[] = names.map((nm) =>
+        nm === "ARM: Dose 10 mg" || nm === "ARM: Dose 10 mg × AVISIT: Week 16" ? 1 : 0,
+      );
       const expected = l.reduce((acc, v, j) => acc + v * d[j], 0);
       expect(change).toBeCloseTo(expected, 8);
     }
@@ -163,15 +182,23 @@ describe("input errors", () => {
   it("names a subject with two records at one visit", () => {
     const dup = { columns: { ...trial.columns } };
     const cols = Object.fromEntries(Object.entries(dup.columns).map(([k, v]) => [k, [...v, v[0]]]));
-    expect(() => fitRepeatedModel(model("trial-unstructured-reml"), { columns: cols })).toThrow(/subject "S-001" has two records at visit "Week 2" \(data rows 1 and \d+\)/);
+    expect(() => fitRepeatedModel(model("trial-unstructured-reml"), { columns: cols })).toThrow(
+      /subject "S-001" has two records at visit "Week 2" \(data rows 1 and \d+\)/,
+    );
   });
   it("asks for the visit as a main term", () => {
     const m = model("trial-unstructured-reml");
-    expect(() => fitRepeatedModel({ ...m, terms: [{ variable: "ARM" }, { variable: "BASE" }] }, trial)).toThrow(/visit column "AVISIT" must also be a main term/);
+    expect(() =>
+      fitRepeatedModel({ ...m, terms: [{ variable: "ARM" }, { variable: "BASE" }] }, trial),
+    ).toThrow(/visit column "AVISIT" must also be a main term/);
   });
   it("asks for REML with Kenward–Roger", () => {
-    expect(() => fitRepeatedModel(withRepeated("trial-unstructured-ml", { df: "kenward-roger" }), trial)).toThrow(EngineError);
-    expect(() => fitRepeatedModel(withRepeated("trial-unstructured-ml", { df: "kenward-roger" }), trial)).toThrow(/need a REML fit/);
+    expect(() =>
+      fitRepeatedModel(withRepeated("trial-unstructured-ml", { df: "kenward-roger" }), trial),
+    ).toThrow(EngineError);
+    expect(() =>
+      fitRepeatedModel(withRepeated("trial-unstructured-ml", { df: "kenward-roger" }), trial),
+    ).toThrow(/need a REML fit/);
   });
 });
 
@@ -181,13 +208,23 @@ describe("likelihood sums", () => {
     const rd = prepareRepeatedData(parseRepeatedSpec(spec), toDataTable(trial));
     const sigma = Float64Array.from(fitRepeatedModel(spec, trial).covariance.matrix.flat());
     for (const method of ["reml", "ml"] as const) {
-      const base = { t: 5, n: rd.design.n, p: rd.design.p, x: rd.design.x, y: rd.data.response, subjects: rd.subjects, method };
+      const base = {
+        t: 5,
+        n: rd.design.n,
+        p: rd.design.p,
+        x: rd.design.x,
+        y: rd.data.response,
+        subjects: rd.subjects,
+        method,
+      };
       // a slightly different Σ, so the gradient is not near zero
       const s2 = sigma.map((v, i) => v * (i % 6 === 0 ? 1.1 : 1));
       const grouped = evaluateLikelihood(base, s2, true);
       const single = evaluateLikelihood({ ...base, groupSums: false }, s2, true);
       expect(Math.abs(grouped.logLik - single.logLik)).toBeLessThan(1e-9 * Math.abs(single.logLik));
-      grouped.beta.forEach((b, j) => expect(Math.abs(b - single.beta[j])).toBeLessThan(1e-9 * (1 + Math.abs(b))));
+      grouped.beta.forEach((b, j) =>
+        expect(Math.abs(b - single.beta[j])).toBeLessThan(1e-9 * (1 + Math.abs(b))),
+      );
       const g1 = grouped.gradientSigma as Float64Array;
       const g2 = single.gradientSigma as Float64Array;
       const scale = Math.max(...Array.from(g2, Math.abs));
@@ -201,11 +238,16 @@ describe("normalized residuals by visit and arm", () => {
     const r = fitRepeatedModel(model("trial-unstructured-reml"), trial);
     const o = r.observations;
     for (const cell of r.residualsByCell) {
-      const values = o.normalizedResidual.filter((_, i) => o.visit[i] === cell.visit && trial.columns.ARM[o.row[i] - 1] === cell.level);
+      const values = o.normalizedResidual.filter(
+        (_, i) => o.visit[i] === cell.visit && trial.columns.ARM[o.row[i] - 1] === cell.level,
+      );
       expect(cell.records).toBe(values.length);
       const mean = values.reduce((s, v) => s + v, 0) / values.length;
       expect(cell.mean).toBeCloseTo(mean, 12);
-      expect(cell.sd).toBeCloseTo(Math.sqrt(values.reduce((s, v) => s + (v - mean) ** 2, 0) / (values.length - 1)), 12);
+      expect(cell.sd).toBeCloseTo(
+        Math.sqrt(values.reduce((s, v) => s + (v - mean) ** 2, 0) / (values.length - 1)),
+        12,
+      );
     }
     expect(r.residualsByCell.length).toBe(15);
   });
@@ -223,8 +265,13 @@ describe("determinism and visit order", () => {
   it("orders visits by the order column, and names a visit with two order values", () => {
     const r = fitRepeatedModel(model("trial-ar1-reml"), trial);
     expect(r.covariance.visits).toEqual(["Week 2", "Week 4", "Week 8", "Week 12", "Week 16"]);
-    const cols = { ...trial.columns, AVISITN: trial.columns.AVISITN.map((v, i) => (i === 6 && v === "4" ? "5" : v)) };
+    const cols = {
+      ...trial.columns,
+      AVISITN: trial.columns.AVISITN.map((v, i) => (i === 6 && v === "4" ? "5" : v)),
+    };
     expect(trial.columns.AVISITN[6]).toBe("4");
-    expect(() => fitRepeatedModel(model("trial-ar1-reml"), { columns: cols })).toThrow(/visit "Week 4" has two values of "AVISITN" \(4 and 5; data row 7\)/);
+    expect(() => fitRepeatedModel(model("trial-ar1-reml"), { columns: cols })).toThrow(
+      /visit "Week 4" has two values of "AVISITN" \(4 and 5; data row 7\)/,
+    );
   });
 });

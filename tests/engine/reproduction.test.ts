@@ -49,14 +49,25 @@ describe("printed numbers", () => {
 
   it.each(["", "abc", "1,5", "1e-5", "--1", "p=0.04", "."])("refuses %j", (text) => {
     expect(parsePrinted(text)).toBeNull();
-    expect(publishedValueSchema.safeParse({ quantity: "contrast", level: "A", statistic: "p", value: text }).success).toBe(false);
+    expect(
+      publishedValueSchema.safeParse({ quantity: "contrast", level: "A", statistic: "p", value: text })
+        .success,
+    ).toBe(false);
   });
 
   it("allows a bound only for a p-value", () => {
-    const r = publishedValueSchema.safeParse({ quantity: "contrast", level: "A", statistic: "estimate", value: "<0.001" });
+    const r = publishedValueSchema.safeParse({
+      quantity: "contrast",
+      level: "A",
+      statistic: "estimate",
+      value: "<0.001",
+    });
     expect(r.success).toBe(false);
     expect(r.error?.issues[0].message).toMatch(/Only a p-value may be printed as a bound/);
-    expect(publishedValueSchema.safeParse({ quantity: "contrast", level: "A", statistic: "p", value: "<0.001" }).success).toBe(true);
+    expect(
+      publishedValueSchema.safeParse({ quantity: "contrast", level: "A", statistic: "p", value: "<0.001" })
+        .success,
+    ).toBe(true);
   });
 });
 
@@ -65,7 +76,11 @@ describe("a printed value against the rerun's", () => {
     expect(compareToPrinted("-2.35", -2.3456)).toMatchObject({ outcome: "reproduced", rounded: "-2.35" });
     expect(compareToPrinted("-2.3", -2.3456)).toMatchObject({ outcome: "reproduced", rounded: "-2.3" });
     expect(compareToPrinted("-2.346", -2.3456)).toMatchObject({ outcome: "reproduced", rounded: "-2.346" });
-    expect(compareToPrinted("-2.34", -2.3456)).toMatchObject({ outcome: "not_reproduced", rounded: "-2.35", reason: "rounds to -2.35, printed -2.34" });
+    expect(compareToPrinted("-2.34", -2.3456)).toMatchObject({
+      outcome: "not_reproduced",
+      rounded: "-2.35",
+      reason: "rounds to -2.35, printed -2.34",
+    });
     expect(compareToPrinted("2.35", -2.3456)).toMatchObject({ outcome: "not_reproduced" }); // sign dropped
     expect(compareToPrinted("0.00", -0.004)).toMatchObject({ outcome: "reproduced" });
     expect(compareToPrinted("-0.00", -0.004)).toMatchObject({ outcome: "reproduced" }); // -0.00 and 0.00 are the same number
@@ -81,7 +96,10 @@ describe("a printed value against the rerun's", () => {
     expect(compareToPrinted("<0.001", 0.000999).outcome).toBe("reproduced");
     expect(compareToPrinted("<0.001", 1e-300).outcome).toBe("reproduced");
     expect(compareToPrinted("<0.001", 0.001).outcome).toBe("not_reproduced");
-    expect(compareToPrinted("<0.001", 0.0012)).toMatchObject({ outcome: "not_reproduced", reason: "the rerun's value 0.0012 is not below 0.001" });
+    expect(compareToPrinted("<0.001", 0.0012)).toMatchObject({
+      outcome: "not_reproduced",
+      reason: "the rerun's value 0.0012 is not below 0.001",
+    });
     expect(compareToPrinted(">0.999", 0.9995).outcome).toBe("reproduced");
     // a printed 0.000 means p rounds to zero at three decimals: below 0.0005
     expect(compareToPrinted("0.000", 0.00049).outcome).toBe("reproduced");
@@ -89,6 +107,9 @@ describe("a printed value against the rerun's", () => {
   });
 
   it("a value the rerun could not compute is not reproduced", () => {
-    expect(compareToPrinted("1.00", Number.NaN)).toMatchObject({ outcome: "not_reproduced", reason: "the rerun could not compute this value" });
+    expect(compareToPrinted("1.00", Number.NaN)).toMatchObject({
+      outcome: "not_reproduced",
+      reason: "the rerun could not compute this value",
+    });
   });
 });

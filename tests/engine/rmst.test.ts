@@ -18,8 +18,12 @@ const TOL = 1e-6;
 function trial() {
   const [head, ...lines] = readFileSync(COX_DATA_FILE, "utf8").trim().split("\n");
   const names = head.split(",").map((h) => h.replaceAll('"', ""));
-  const rows = lines.map((l) => Object.fromEntries(l.split(",").map((v, j) => [names[j], v.replaceAll('"', "")])));
-  const used = rows.filter((r) => ["AVAL", "CNSR", "TRTP", "AGE", "BASE", "STRAT1", "STRAT2", "USUBJID"].every((c) => r[c] !== ""));
+  const rows = lines.map((l) =>
+    Object.fromEntries(l.split(",").map((v, j) => [names[j], v.replaceAll('"', "")])),
+  );
+  const used = rows.filter((r) =>
+    ["AVAL", "CNSR", "TRTP", "AGE", "BASE", "STRAT1", "STRAT2", "USUBJID"].every((c) => r[c] !== ""),
+  );
   return {
     time: used.map((r) => Number(r.AVAL)),
     status: used.map((r) => (Number(r.CNSR) === 0 ? 1 : 0)),
@@ -41,7 +45,13 @@ describe("restricted mean survival time", () => {
   it("the difference between arms has SE √(SE₁² + SE₂²), a Wald interval and p", () => {
     const active = R.rmst.arms.find((a) => a.level === "Active")!;
     const placebo = R.rmst.arms.find((a) => a.level === "Placebo")!;
-    const diff = restrictedMeanDifference({ level: "Active", rows: d.arm("Active") }, { level: "Placebo", rows: d.arm("Placebo") }, d.time, d.status, R.rmst.tau);
+    const diff = restrictedMeanDifference(
+      { level: "Active", rows: d.arm("Active") },
+      { level: "Placebo", rows: d.arm("Placebo") },
+      d.time,
+      d.status,
+      R.rmst.tau,
+    );
     expectClose(diff.difference, active.rmean - placebo.rmean, TOL, "difference in restricted means");
     const se = Math.hypot(active.se, placebo.se);
     expectClose(diff.se, se, TOL, "SE of the difference");

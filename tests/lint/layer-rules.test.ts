@@ -130,7 +130,10 @@ describe("components import no .server module", () => {
       ),
     ).toEqual(["import-x/no-restricted-paths"]);
     expect(
-      await ruleIds(file, `import type { ColumnMeta } from "~/shared/datasets";\nexport type C = ColumnMeta;\n`),
+      await ruleIds(
+        file,
+        `import type { ColumnMeta } from "~/shared/datasets";\nexport type C = ColumnMeta;\n`,
+      ),
     ).toEqual([]);
   });
 });

@@ -5,16 +5,31 @@ import { expect } from "vitest";
  * Relative agreement |a − b| ≤ tol · max(|b|, floor). `floor` keeps values that are zero in exact
  * arithmetic (a residual of 1e-15) from demanding more digits than the data carry.
  */
-export function expectClose(actual: number | null | undefined, expected: number | null | undefined, tol: number, label: string, floor = 0): void {
+export function expectClose(
+  actual: number | null | undefined,
+  expected: number | null | undefined,
+  tol: number,
+  label: string,
+  floor = 0,
+): void {
   if (expected === null || expected === undefined || Number.isNaN(expected)) {
-    expect(actual === null || actual === undefined || Number.isNaN(actual), `${label}: expected no value, got ${actual}`).toBe(true);
+    expect(
+      actual === null || actual === undefined || Number.isNaN(actual),
+      `${label}: expected no value, got ${actual}`,
+    ).toBe(true);
     return;
   }
-  expect(typeof actual === "number" && Number.isFinite(actual), `${label}: expected ${expected}, got ${actual}`).toBe(true);
+  expect(
+    typeof actual === "number" && Number.isFinite(actual),
+    `${label}: expected ${expected}, got ${actual}`,
+  ).toBe(true);
   const a = actual as number;
   const scale = Math.max(Math.abs(expected), floor);
   const err = Math.abs(a - expected);
-  expect(err <= tol * scale || err === 0, `${label}: ${a} vs R ${expected} (relative error ${(err / scale).toExponential(2)}, tolerance ${tol})`).toBe(true);
+  expect(
+    err <= tol * scale || err === 0,
+    `${label}: ${a} vs R ${expected} (relative error ${(err / scale).toExponential(2)}, tolerance ${tol})`,
+  ).toBe(true);
 }
 
 /** Elementwise agreement of two arrays; the floor is `floorFraction` (default 1e-4) of the array's largest magnitude. */

@@ -27,12 +27,35 @@ interface RGlmCase {
   n: number;
   rank: number;
   excluded: number;
-  coefficients: { rName: string; estimate: number; se: number; statistic: number; p: number; lower: number; upper: number; profileLower: number | null; profileUpper: number | null }[];
+  coefficients: {
+    rName: string;
+    estimate: number;
+    se: number;
+    statistic: number;
+    p: number;
+    lower: number;
+    upper: number;
+    profileLower: number | null;
+    profileUpper: number | null;
+  }[];
   robustSE: Record<"HC0" | "HC1" | "HC2" | "HC3", number[]>;
-  fit: { deviance: number; nullDeviance: number; logLik: number | null; aic: number | null; dispersion: number; pearsonChiSquare: number; dfResidual: number; theta: number | null; thetaSE: number | null };
+  fit: {
+    deviance: number;
+    nullDeviance: number;
+    logLik: number | null;
+    aic: number | null;
+    dispersion: number;
+    pearsonChiSquare: number;
+    dfResidual: number;
+    theta: number | null;
+    thetaSE: number | null;
+  };
   observations: Record<string, number[]> & { dfbetas: number[][]; partialResiduals: number[][] };
   linearity: { term: string; statistic: number; df: number; p: number }[] | null;
-  homogeneity: { joint: { statistic: number; df: number; p: number }; byCovariate: { term: string; statistic: number; df: number; p: number }[] } | null;
+  homogeneity: {
+    joint: { statistic: number; df: number; p: number };
+    byCovariate: { term: string; statistic: number; df: number; p: number }[];
+  } | null;
   vif: { term: string; gvif: number; df: number; adjusted: number }[] | null;
   /** stats::vcov (summary.glm's dispersion), by rows. */
   vcov: number[][];
@@ -41,7 +64,14 @@ interface RGlmCase {
   marginal: {
     logRatio: { estimate: number; se: number }[];
     logOddsRatio: { estimate: number; se: number }[] | null;
-    means: { level: string; estimate: number; se: number; lower: number; upper: number; robustSe: number | null }[];
+    means: {
+      level: string;
+      estimate: number;
+      se: number;
+      lower: number;
+      upper: number;
+      robustSe: number | null;
+    }[];
     differences: { label: string; estimate: number; se: number; p: number }[];
     /** False where the script judged the variance of Ye et al. not to apply (non-canonical link, weights). */
     robustApplies: boolean;
@@ -97,7 +127,8 @@ describe.each(cases.map((c) => [c.case, c] as const))("GLM reference case %s", (
   });
 
   it("sandwich standard errors HC0–HC3 (sandwich::vcovHC)", () => {
-    for (const t of ["HC0", "HC1", "HC2", "HC3"] as const) expectAllClose(result.robustSE[t], c.robustSE[t], TOL, t);
+    for (const t of ["HC0", "HC1", "HC2", "HC3"] as const)
+      expectAllClose(result.robustSE[t], c.robustSE[t], TOL, t);
   });
 
   it("deviance, null deviance, log-likelihood, AIC, dispersion, θ", () => {
@@ -116,11 +147,24 @@ describe.each(cases.map((c) => [c.case, c] as const))("GLM reference case %s", (
   it("observation-level diagnostics (residuals(), hatvalues, rstandard, likelihood residual, cooks.distance, dfbetas)", () => {
     const o = result.observations;
     const r = c.observations;
-    for (const key of ["fitted", "residual", "pearson", "devianceResidual", "leverage", "studentizedInternal", "studentizedExternal", "cooksDistance"] as const) {
+    for (const key of [
+      "fitted",
+      "residual",
+      "pearson",
+      "devianceResidual",
+      "leverage",
+      "studentizedInternal",
+      "studentizedExternal",
+      "cooksDistance",
+    ] as const) {
       expectAllClose(o[key], r[key], TOL, key, FLOOR);
     }
-    r.dfbetas.forEach((col, j) => expectAllClose(o.dfbetas[j], col, TOL, `DFBETAS ${result.coefficients[j].name}`, FLOOR));
-    r.partialResiduals.forEach((col, j) => expectAllClose(o.partialResiduals[j].values, col, TOL, `partial ${o.partialResiduals[j].term}`, FLOOR));
+    r.dfbetas.forEach((col, j) =>
+      expectAllClose(o.dfbetas[j], col, TOL, `DFBETAS ${result.coefficients[j].name}`, FLOOR),
+    );
+    r.partialResiduals.forEach((col, j) =>
+      expectAllClose(o.partialResiduals[j].values, col, TOL, `partial ${o.partialResiduals[j].term}`, FLOOR),
+    );
   });
 
   it("likelihood-ratio checks: linearity (quadratic term) and homogeneity of the treatment effect (anova.glm)", () => {
@@ -174,7 +218,9 @@ describe.each(cases.map((c) => [c.case, c] as const))("GLM reference case %s", (
     if (!ours) return;
     expect(ours.robustVariance.applies).toBe(m.robustApplies);
     if (!m.robustApplies) {
-      expect(ours.means.every((mm) => mm.robustSe === null) && ours.contrasts.every((k) => k.robust === null)).toBe(true);
+      expect(
+        ours.means.every((mm) => mm.robustSe === null) && ours.contrasts.every((k) => k.robust === null),
+      ).toBe(true);
     }
     m.means.forEach((mm, a) => {
       expect(ours.means[a].level).toBe(mm.level);
@@ -190,10 +236,13 @@ describe.each(cases.map((c) => [c.case, c] as const))("GLM reference case %s", (
         expectClose(first[i].estimate, d.estimate, TOL, `difference ${d.label}`);
         expectClose(first[i].se, d.se, TOL, `difference SE ${d.label}`);
         expectClose(first[i].p, d.p, PVAL, `difference p ${d.label}`);
-        if (m.robustDifferenceSe) expectClose(first[i].robust?.se, m.robustDifferenceSe[i], TOL, `difference Ye SE ${d.label}`);
+        if (m.robustDifferenceSe)
+          expectClose(first[i].robust?.se, m.robustDifferenceSe[i], TOL, `difference Ye SE ${d.label}`);
       });
     }
-    (m.robustLogRatioSe ?? []).forEach((se, i) => expectClose(ratios[i].robust?.se, se, TOL, `log ratio Ye SE ${i}`));
+    (m.robustLogRatioSe ?? []).forEach((se, i) =>
+      expectClose(ratios[i].robust?.se, se, TOL, `log ratio Ye SE ${i}`),
+    );
     m.logRatio.forEach((lr, i) => {
       expectClose(Math.log(ratios[i].estimate), lr.estimate, TOL, `log ratio ${i}`);
       expectClose(ratios[i].se, lr.se, TOL, `log ratio SE ${i}`);

@@ -15,7 +15,13 @@ const ROOT = join(import.meta.dirname, ".");
 const EST = 1e-8;
 const PVAL = 1e-6;
 
-interface RTest { statistic: number; p: number; df?: number; df1?: number; df2?: number }
+interface RTest {
+  statistic: number;
+  p: number;
+  df?: number;
+  df1?: number;
+  df2?: number;
+}
 interface RCase {
   case: string;
   source: string;
@@ -26,9 +32,25 @@ interface RCase {
   rank: number;
   dfResidual: number;
   excluded: number;
-  coefficients: { rName: string; estimate: number; se: number; statistic: number; p: number; lower: number; upper: number }[];
+  coefficients: {
+    rName: string;
+    estimate: number;
+    se: number;
+    statistic: number;
+    p: number;
+    lower: number;
+    upper: number;
+  }[];
   robustSE: Record<"HC0" | "HC1" | "HC2" | "HC3", number[]>;
-  fit: { sigma: number; rSquared: number; adjRSquared: number; fStatistic: number; fP: number; logLik: number; aic: number };
+  fit: {
+    sigma: number;
+    rSquared: number;
+    adjRSquared: number;
+    fStatistic: number;
+    fP: number;
+    logLik: number;
+    aic: number;
+  };
   observations: {
     row: number[];
     fitted: number[];
@@ -48,11 +70,31 @@ interface RCase {
   vcov: number[][];
   adjustedMeans: {
     means: { level: string; estimate: number; se: number; lower: number; upper: number }[];
-    contrasts: { label: string; estimate: number; se: number; statistic: number; p: number; lower: number; upper: number }[];
+    contrasts: {
+      label: string;
+      estimate: number;
+      se: number;
+      statistic: number;
+      p: number;
+      lower: number;
+      upper: number;
+    }[];
     hc3Means: { level: string; estimate: number; se: number; lower: number; upper: number }[];
-    hc3Contrasts: { label: string; estimate: number; se: number; statistic: number; p: number; lower: number; upper: number }[];
+    hc3Contrasts: {
+      label: string;
+      estimate: number;
+      se: number;
+      statistic: number;
+      p: number;
+      lower: number;
+      upper: number;
+    }[];
     /** emmeans::ref_grid: covariate values and the weights of the other factors' cells. */
-    grid: { covariates: { variable: string; value: number }[]; factors: string[]; cells: { levels: string[]; weight: number }[] };
+    grid: {
+      covariates: { variable: string; value: number }[];
+      factors: string[];
+      cells: { levels: string[]; weight: number }[];
+    };
   } | null;
 }
 
@@ -67,7 +109,19 @@ function rerun(c: RCase): LinearModelResult {
   return fitModel(spec, table, { meansWeighting: c.meansWeighting });
 }
 
-function expectTest(actual: { statistic: number | null; p: number | null; df?: number | null; df1?: number | null; df2?: number | null } | undefined, expected: RTest, label: string): void {
+function expectTest(
+  actual:
+    | {
+        statistic: number | null;
+        p: number | null;
+        df?: number | null;
+        df1?: number | null;
+        df2?: number | null;
+      }
+    | undefined,
+  expected: RTest,
+  label: string,
+): void {
   expect(actual, label).toBeDefined();
   if (!actual) return;
   expectClose(actual.statistic, expected.statistic, EST, `${label} statistic`);
@@ -129,13 +183,17 @@ describe.each(cases.map((c) => [c.case, c] as const))("reference case %s", (_nam
     expectAllClose(o.cooksDistance, r.cooksDistance, EST, "Cook's distance");
     expectAllClose(o.dffits, r.dffits, EST, "DFFITS");
     expect(o.dfbetas.length).toBe(r.dfbetas.length);
-    r.dfbetas.forEach((col, j) => expectAllClose(o.dfbetas[j], col, EST, `DFBETAS ${result.coefficients[j].name}`));
+    r.dfbetas.forEach((col, j) =>
+      expectAllClose(o.dfbetas[j], col, EST, `DFBETAS ${result.coefficients[j].name}`),
+    );
   });
 
-  it("partial residuals per term (residuals(type = \"partial\"))", () => {
+  it('partial residuals per term (residuals(type = "partial"))', () => {
     const o = result.observations;
     expect(o.partialResiduals.length).toBe(c.observations.partialResiduals.length);
-    c.observations.partialResiduals.forEach((col, j) => expectAllClose(o.partialResiduals[j].values, col, EST, `partial ${o.partialResiduals[j].term}`));
+    c.observations.partialResiduals.forEach((col, j) =>
+      expectAllClose(o.partialResiduals[j].values, col, EST, `partial ${o.partialResiduals[j].term}`),
+    );
   });
 
   it("tests of assumptions (shapiro.test, nortest, lmtest, car::leveneTest, nested F)", () => {
@@ -172,9 +230,16 @@ describe.each(cases.map((c) => [c.case, c] as const))("reference case %s", (_nam
     c.vifByPredictor.forEach((v, i) => {
       expectClose(result.vifByPredictor[i].gvif, v.gvif, EST, `predictor GVIF ${v.predictor}`);
       expect(result.vifByPredictor[i].df).toBe(v.df);
-      expectClose(result.vifByPredictor[i].adjusted, v.adjusted, EST, `predictor GVIF^(1/2df) ${v.predictor}`);
+      expectClose(
+        result.vifByPredictor[i].adjusted,
+        v.adjusted,
+        EST,
+        `predictor GVIF^(1/2df) ${v.predictor}`,
+      );
     });
-    const gvif = evaluateChecks(result, defaultChecks(result.spec.treatment !== undefined)).find((k) => k.key === "gvif");
+    const gvif = evaluateChecks(result, defaultChecks(result.spec.treatment !== undefined)).find(
+      (k) => k.key === "gvif",
+    );
     const threshold = Math.sqrt(5);
     expect(gvif?.outcome).toBe(c.vifByPredictor.some((v) => v.adjusted > threshold) ? "finding" : "within");
   });
@@ -191,11 +256,22 @@ describe.each(cases.map((c) => [c.case, c] as const))("reference case %s", (_nam
     expect(ours).toBeTruthy();
     if (!ours) return;
     expect(ours.covariates.map((v) => v.variable)).toEqual(g.covariates.map((v) => v.variable));
-    g.covariates.forEach((v, i) => expectClose(ours.covariates[i].value, v.value, EST, `grid value of ${v.variable}`));
+    g.covariates.forEach((v, i) =>
+      expectClose(ours.covariates[i].value, v.value, EST, `grid value of ${v.variable}`),
+    );
     expect(ours.factors).toEqual(g.factors);
     const weightOf = new Map(ours.cells.map((cell) => [cell.levels.join("|"), cell.weight]));
-    expect(ours.cells.filter((cell) => cell.weight > 0).length).toBe(g.cells.filter((cell) => cell.weight > 0).length);
-    g.cells.forEach((cell) => expectClose(weightOf.get(cell.levels.join("|")), cell.weight, EST, `weight of cell ${cell.levels.join(", ")}`));
+    expect(ours.cells.filter((cell) => cell.weight > 0).length).toBe(
+      g.cells.filter((cell) => cell.weight > 0).length,
+    );
+    g.cells.forEach((cell) =>
+      expectClose(
+        weightOf.get(cell.levels.join("|")),
+        cell.weight,
+        EST,
+        `weight of cell ${cell.levels.join(", ")}`,
+      ),
+    );
   });
 
   it("adjusted means and contrasts against the reference arm, model-based and HC3 (emmeans)", () => {
@@ -219,7 +295,10 @@ describe.each(cases.map((c) => [c.case, c] as const))("reference case %s", (_nam
     am.contrasts.forEach((k, i) => {
       const ours = contrasts[i];
       const arm = result.spec.treatment ?? "";
-      expect([`${ours.level} - ${ours.reference}`, `${arm}${ours.level} - ${arm}${ours.reference}`]).toContain(k.label.replace(/[()]/g, ""));
+      expect([
+        `${ours.level} - ${ours.reference}`,
+        `${arm}${ours.level} - ${arm}${ours.reference}`,
+      ]).toContain(k.label.replace(/[()]/g, ""));
       expectClose(ours.estimate, k.estimate, EST, `contrast ${k.label}`);
       expectClose(ours.se, k.se, EST, `contrast se ${k.label}`);
       expectClose(ours.statistic, k.statistic, EST, `contrast t ${k.label}`);

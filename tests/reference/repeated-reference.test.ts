@@ -86,65 +86,102 @@ describe.each(names)("nlme::gls reference %s", (name) => {
   it("fitted values, residuals and normalized residuals", () => {
     expectAllClose(result.observations.fitted, values.fitted, TOL, "fitted");
     expectAllClose(result.observations.residual, values.residual, TOL, "residual");
-    expectAllClose(result.observations.normalizedResidual, values.normalizedResidual, TOL, "normalized residual");
+    expectAllClose(
+      result.observations.normalizedResidual,
+      values.normalizedResidual,
+      TOL,
+      "normalized residual",
+    );
   });
 
-  it.runIf(values.means !== undefined)("adjusted means and contrasts per visit with Satterthwaite df (emmeans)", () => {
-    const am = result.adjustedMeans;
-    expect(am).not.toBeNull();
-    for (const m of values.means ?? []) {
-      const ours = am?.means.find((x) => x.level === m.level && x.visit === m.visit);
-      expect(ours, `${m.level} at ${m.visit}`).toBeDefined();
-      expectClose(ours?.estimate, m.estimate, TOL, `mean ${m.level} ${m.visit}`);
-      expectClose(ours?.se, m.se, TOL, `mean SE ${m.level} ${m.visit}`);
-      expectClose(ours?.df, m.df, DF_TOL, `mean df ${m.level} ${m.visit}`);
-      expectClose(ours?.df, m.emmeansDf, EMMEANS_DF_TOL, `mean df ${m.level} ${m.visit} (emmeans)`);
-    }
-    for (const c of values.contrasts ?? []) {
-      const label = c.label.replace(" - ", " vs ");
-      const ours = am?.contrasts.find((x) => x.label === label && x.visit === c.visit);
-      expect(ours, `${label} at ${c.visit}`).toBeDefined();
-      expectClose(ours?.estimate, c.estimate, TOL, `contrast ${label} ${c.visit}`, 1e-3);
-      expectClose(ours?.se, c.se, TOL, `contrast SE ${label} ${c.visit}`);
-      expectClose(ours?.df, c.df, DF_TOL, `contrast df ${label} ${c.visit}`);
-      expectClose(ours?.df, c.emmeansDf, EMMEANS_DF_TOL, `contrast df ${label} ${c.visit} (emmeans)`);
-    }
-    // emmeans' revpairwise: every pair, later level minus earlier; the engine's pairwise list
-    // holds the pairs without the reference arm
-    const between = (values.pairwise ?? []).filter((x) => !x.label.includes(" - Placebo") && !x.label.includes(" - Male") && !x.label.startsWith("Male"));
-    expect(between.length).toBe(name.startsWith("trial") ? 5 : 0);
-    expect(am?.pairwise.length).toBe(between.length);
-    for (const c of between) {
-      const label = c.label.replace(" - ", " vs ");
-      const ours = am?.pairwise.find((x) => x.label === label && x.visit === c.visit);
-      expect(ours, `${label} at ${c.visit}`).toBeDefined();
-      expectClose(ours?.estimate, c.estimate, TOL, `pairwise ${label} ${c.visit}`, 1e-3);
-      expectClose(ours?.se, c.se, TOL, `pairwise SE ${label} ${c.visit}`);
-      expectClose(ours?.df, c.df, DF_TOL, `pairwise df ${label} ${c.visit}`);
-    }
-  });
+  it.runIf(values.means !== undefined)(
+    "adjusted means and contrasts per visit with Satterthwaite df (emmeans)",
+    () => {
+      const am = result.adjustedMeans;
+      expect(am).not.toBeNull();
+      for (const m of values.means ?? []) {
+        const ours = am?.means.find((x) => x.level === m.level && x.visit === m.visit);
+        expect(ours, `${m.level} at ${m.visit}`).toBeDefined();
+        expectClose(ours?.estimate, m.estimate, TOL, `mean ${m.level} ${m.visit}`);
+        expectClose(ours?.se, m.se, TOL, `mean SE ${m.level} ${m.visit}`);
+        expectClose(ours?.df, m.df, DF_TOL, `mean df ${m.level} ${m.visit}`);
+        expectClose(ours?.df, m.emmeansDf, EMMEANS_DF_TOL, `mean df ${m.level} ${m.visit} (emmeans)`);
+      }
+      for (const c of values.contrasts ?? []) {
+        const label = c.label.replace(" - ", " vs ");
+        const ours = am?.contrasts.find((x) => x.label === label && x.visit === c.visit);
+        expect(ours, `${label} at ${c.visit}`).toBeDefined();
+        expectClose(ours?.estimate, c.estimate, TOL, `contrast ${label} ${c.visit}`, 1e-3);
+        expectClose(ours?.se, c.se, TOL, `contrast SE ${label} ${c.visit}`);
+        expectClose(ours?.df, c.df, DF_TOL, `contrast df ${label} ${c.visit}`);
+        expectClose(ours?.df, c.emmeansDf, EMMEANS_DF_TOL, `contrast df ${label} ${c.visit} (emmeans)`);
+      }
+      // emmeans' revpairwise: every pair, later level minus earlier; the engine's pairwise list
+      // holds the pairs without the reference arm
+      const between = (values.pairwise ?? []).filter(
+        (x) => !x.label.includes(" - Placebo") && !x.label.includes(" - Male") && !x.label.startsWith("Male"),
+      );
+      expect(between.length).toBe(name.startsWith("trial") ? 5 : 0);
+      expect(am?.pairwise.length).toBe(between.length);
+      for (const c of between) {
+        const label = c.label.replace(" - ", " vs ");
+        const ours = am?.pairwise.find((x) => x.label === label && x.visit === c.visit);
+        expect(ours, `${label} at ${c.visit}`).toBeDefined();
+        expectClose(ours?.estimate, c.estimate, TOL, `pairwise ${label} ${c.visit}`, 1e-3);
+        expectClose(ours?.se, c.se, TOL, `pairwise SE ${label} ${c.visit}`);
+        expectClose(ours?.df, c.df, DF_TOL, `pairwise df ${label} ${c.visit}`);
+      }
+    },
+  );
 });
 
 describe("headless command with a repeated-measures model", () => {
   const ROOT_DIR = join(import.meta.dirname, "..", "..");
   const run = (args: string[]) =>
     new Promise<{ code: number; stdout: string; stderr: string }>((resolve) => {
-      execFile(join(ROOT_DIR, "node_modules", ".bin", "tsx"), [join(ROOT_DIR, "app", "cli.ts"), ...args], { cwd: ROOT_DIR }, (err, stdout, stderr) => {
-        resolve({ code: err ? (typeof err.code === "number" ? err.code : 1) : 0, stdout, stderr });
-      });
+      execFile(
+        join(ROOT_DIR, "node_modules", ".bin", "tsx"),
+        [join(ROOT_DIR, "app", "cli.ts"), ...args],
+        { cwd: ROOT_DIR },
+        (err, stdout, stderr) => {
+          resolve({ code: err ? (typeof err.code === "number" ? err.code : 1) : 0, stdout, stderr });
+        },
+      );
     });
 
   it("prints the documented keys with R's values (fixture tests/fixtures/mmrm-trial.csv)", async () => {
     const name = "trial-unstructured-reml";
     const { values } = load(name);
-    const out = await run(["fit", "--data", join(ROOT_DIR, "tests", "fixtures", "mmrm-trial.csv"), "--model", join(ROOT, "models", `${name}.json`)]);
+    const out = await run([
+      "fit",
+      "--data",
+      join(ROOT_DIR, "tests", "fixtures", "mmrm-trial.csv"),
+      "--model",
+      join(ROOT, "models", `${name}.json`),
+    ]);
     expect(out.code, out.stderr).toBe(0);
     const answer = JSON.parse(out.stdout) as {
       caution: string;
-      covariance: { structure: string; converged: boolean; iterations: number; logLik: number; aic: number; matrix: number[][]; correlation: number[][]; visits: string[] };
+      covariance: {
+        structure: string;
+        converged: boolean;
+        iterations: number;
+        logLik: number;
+        aic: number;
+        matrix: number[][];
+        correlation: number[][];
+        visits: string[];
+      };
       coefficients: { name: string; estimate: number; se: number; df: number }[];
       adjustedMeans: { means: { level: string; visit: string }[]; contrasts: { visit: string }[] };
-      observations: { row: number; id: string; visit: string; fitted: number; residual: number; normalizedResidual: number }[];
+      observations: {
+        row: number;
+        id: string;
+        visit: string;
+        fitted: number;
+        residual: number;
+        normalizedResidual: number;
+      }[];
       subjects: { id: string; cooksDistance: number; treatmentChange: number[] }[];
     };
     expect(answer.caution).toMatch(/qualified statistical and medical review/);
@@ -160,16 +197,36 @@ describe("headless command with a repeated-measures model", () => {
     });
     expect(answer.adjustedMeans.means.length).toBe(15);
     expect(answer.adjustedMeans.contrasts.every((c) => typeof c.visit === "string")).toBe(true);
-    expect(Object.keys(answer.observations[0])).toEqual(["row", "id", "visit", "fitted", "residual", "normalizedResidual"]);
-    expectAllClose(answer.observations.map((o) => o.normalizedResidual), values.normalizedResidual, TOL, "normalized residual");
+    expect(Object.keys(answer.observations[0])).toEqual([
+      "row",
+      "id",
+      "visit",
+      "fitted",
+      "residual",
+      "normalizedResidual",
+    ]);
+    expectAllClose(
+      answer.observations.map((o) => o.normalizedResidual),
+      values.normalizedResidual,
+      TOL,
+      "normalized residual",
+    );
     expect(Object.keys(answer.subjects[0])).toEqual(["id", "cooksDistance", "treatmentChange"]);
     expect(answer.subjects[0].treatmentChange.length).toBe(2);
   });
 
   it("refuses a bad repeated key with one error line and exit 2", async () => {
-    const out = await run(["fit", "--data", join(ROOT_DIR, "tests", "fixtures", "mmrm-trial.csv"), "--model", join(ROOT_DIR, "tests", "fixtures", "mmrm-bad-structure.json")]);
+    const out = await run([
+      "fit",
+      "--data",
+      join(ROOT_DIR, "tests", "fixtures", "mmrm-trial.csv"),
+      "--model",
+      join(ROOT_DIR, "tests", "fixtures", "mmrm-bad-structure.json"),
+    ]);
     expect(out.code).toBe(2);
-    expect(out.stderr).toMatch(/^error: repeated-measures model specification is not valid at "repeated.covariance"/);
+    expect(out.stderr).toMatch(
+      /^error: repeated-measures model specification is not valid at "repeated.covariance"/,
+    );
   });
 });
 
@@ -180,7 +237,9 @@ describe("headless command with a repeated-measures model", () => {
 // The Satterthwaite F test of several rows against lmerTest's contestMD on the same fit (its
 // Hessian by numDeriv, ours by finite differences: df at 1e-4).
 describe("lme4 random-intercept fit (compound symmetry): Kenward–Roger (pbkrtest) and Satterthwaite F (lmerTest)", () => {
-  const kr = JSON.parse(readFileSync(join(ROOT, "values-lmer", "trial-compound-symmetry-reml.json"), "utf8")) as {
+  const kr = JSON.parse(
+    readFileSync(join(ROOT, "values-lmer", "trial-compound-symmetry-reml.json"), "utf8"),
+  ) as {
     coefficients: { name: string; estimate: number; se: number; df: number }[];
     treatmentByVisit: { statistic: number; numeratorDf: number; denominatorDf: number };
     satterthwaiteTreatmentByVisit: { statistic: number; numeratorDf: number; denominatorDf: number };
@@ -188,7 +247,10 @@ describe("lme4 random-intercept fit (compound symmetry): Kenward–Roger (pbkrte
     contrasts: { label: string; visit: string; estimate: number; se: number; df: number }[];
   };
   const { spec, table } = load("trial-compound-symmetry-reml");
-  const withKr = { ...(spec as { repeated: object }), repeated: { ...(spec as { repeated: object }).repeated, df: "kenward-roger" } };
+  const withKr = {
+    ...(spec as { repeated: object }),
+    repeated: { ...(spec as { repeated: object }).repeated, df: "kenward-roger" },
+  };
   const result = fitRepeatedModel(withKr, table);
 
   it("adjusted covariance and df of every coefficient", () => {
@@ -233,7 +295,12 @@ describe("lme4 random-intercept fit (compound symmetry): Kenward–Roger (pbkrte
 
   it("is refused for a structure that is not linear in its parameters", () => {
     const { spec: ar1 } = load("trial-ar1-reml");
-    const s = { ...(ar1 as { repeated: object }), repeated: { ...(ar1 as { repeated: object }).repeated, df: "kenward-roger" } };
-    expect(() => fitRepeatedModel(s, table)).toThrow(/Kenward–Roger degrees of freedom are available for the unstructured, compound-symmetry and Toeplitz structures, not for "ar1"/);
+    const s = {
+      ...(ar1 as { repeated: object }),
+      repeated: { ...(ar1 as { repeated: object }).repeated, df: "kenward-roger" },
+    };
+    expect(() => fitRepeatedModel(s, table)).toThrow(
+      /Kenward–Roger degrees of freedom are available for the unstructured, compound-symmetry and Toeplitz structures, not for "ar1"/,
+    );
   });
 });

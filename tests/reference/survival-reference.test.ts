@@ -20,9 +20,14 @@ const REPO = join(import.meta.dirname, "..", "..");
 
 function runCli(args: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
   return new Promise((resolve) => {
-    execFile(join(REPO, "node_modules", ".bin", "tsx"), [join(REPO, "app", "cli.ts"), ...args], { cwd: REPO }, (err, stdout, stderr) => {
-      resolve({ code: err ? (typeof err.code === "number" ? err.code : 1) : 0, stdout, stderr });
-    });
+    execFile(
+      join(REPO, "node_modules", ".bin", "tsx"),
+      [join(REPO, "app", "cli.ts"), ...args],
+      { cwd: REPO },
+      (err, stdout, stderr) => {
+        resolve({ code: err ? (typeof err.code === "number" ? err.code : 1) : 0, stdout, stderr });
+      },
+    );
   });
 }
 const TOL = 1e-6;
@@ -39,7 +44,17 @@ interface RCoxCase {
   model: string;
   n: number;
   events: number;
-  coefficients: { rName: string; estimate: number; se: number; robustSe: number | null; statistic: number; p: number; ratio: number; ratioLower: number; ratioUpper: number }[];
+  coefficients: {
+    rName: string;
+    estimate: number;
+    se: number;
+    robustSe: number | null;
+    statistic: number;
+    p: number;
+    ratio: number;
+    ratioLower: number;
+    ratioUpper: number;
+  }[];
   fit: { logLik: number; logLikNull: number; concordance: number };
   tests: {
     likelihoodRatio: RTest;
@@ -49,9 +64,24 @@ interface RCoxCase {
     logRank: RTest | null;
     proportionalHazards: { transform: string; terms: (RTest & { term: string })[]; global: RTest };
   };
-  observations: { row: number[]; martingale: number[]; deviance: number[]; score: number[][]; dfbeta: number[][]; dfbetas: number[][] };
+  observations: {
+    row: number[];
+    martingale: number[];
+    deviance: number[];
+    score: number[][];
+    dfbeta: number[][];
+    dfbetas: number[][];
+  };
   schoenfeld: { row: number[]; time: number[]; residual: number[][]; scaled: number[][] };
-  survival: { level: string; stratum: string | null; time: number[]; estimate: number[]; lower: (number | null)[]; upper: (number | null)[]; atRisk: number[] }[];
+  survival: {
+    level: string;
+    stratum: string | null;
+    time: number[];
+    estimate: number[];
+    lower: (number | null)[];
+    upper: (number | null)[];
+    atRisk: number[];
+  }[];
 }
 
 const cases: RCoxCase[] = readdirSync(join(ROOT, "values"))
@@ -81,7 +111,11 @@ function rerun(c: RCoxCase): CoxResult {
   return fitCoxModel(JSON.parse(read(c.model)), readCsvText(read(c.data)));
 }
 
-function expectTest(actual: { statistic: number; df: number; p: number } | null, expected: RTest, label: string): void {
+function expectTest(
+  actual: { statistic: number; df: number; p: number } | null,
+  expected: RTest,
+  label: string,
+): void {
   expect(actual, label).not.toBeNull();
   const a = actual as RTest;
   expectClose(a.statistic, expected.statistic, TOL, `${label} statistic`);
@@ -144,9 +178,28 @@ describe.each(cases.map((c) => [c.case, c] as const))("Cox model %s against R's 
     expect(result.schoenfeld.length).toBe(c.schoenfeld.row.length);
     const rows = c.schoenfeld.row.map((r) => byRow.get(r));
     expect(rows.every((s) => s !== undefined)).toBe(true);
-    expectAllClose(rows.map((s) => s?.time ?? null), c.schoenfeld.time, TOL, "event time");
-    c.schoenfeld.residual.forEach((col, j) => expectAllClose(rows.map((s) => s?.residual[j] ?? null), col, TOL, `schoenfeld[${j}]`));
-    c.schoenfeld.scaled.forEach((col, j) => expectAllClose(rows.map((s) => s?.scaled[j] ?? null), col, TOL, `scaled schoenfeld[${j}]`));
+    expectAllClose(
+      rows.map((s) => s?.time ?? null),
+      c.schoenfeld.time,
+      TOL,
+      "event time",
+    );
+    c.schoenfeld.residual.forEach((col, j) =>
+      expectAllClose(
+        rows.map((s) => s?.residual[j] ?? null),
+        col,
+        TOL,
+        `schoenfeld[${j}]`,
+      ),
+    );
+    c.schoenfeld.scaled.forEach((col, j) =>
+      expectAllClose(
+        rows.map((s) => s?.scaled[j] ?? null),
+        col,
+        TOL,
+        `scaled schoenfeld[${j}]`,
+      ),
+    );
   });
 
   it("Kaplan–Meier per arm and per arm within stratum with Greenwood log intervals (survfit) and the stratified log-rank test (survdiff)", () => {
@@ -177,7 +230,10 @@ describe("Cox model: monotone likelihood and the headless answer", () => {
   }
 
   it("reports a treatment arm without events as monotone likelihood instead of fitting it (R's coxph: 'coefficient may be infinite', estimate near −28)", () => {
-    const r = JSON.parse(read("values/monotone-no-events-in-arm.json")) as { rWarning: string; rEstimate: number[] };
+    const r = JSON.parse(read("values/monotone-no-events-in-arm.json")) as {
+      rWarning: string;
+      rEstimate: number[];
+    };
     expect(r.rWarning).toMatch(/infinite/);
     expect(r.rEstimate[0]).toBeLessThan(-15);
     const error = attempt("monotone-no-events-in-arm");
@@ -189,7 +245,10 @@ describe("Cox model: monotone likelihood and the headless answer", () => {
   });
 
   it("reports a continuous covariate that ranks every event first in its risk set (R's coxph does not converge, estimate near +19)", () => {
-    const r = JSON.parse(read("values/monotone-marker-ordering.json")) as { rWarning: string; rEstimate: number[] };
+    const r = JSON.parse(read("values/monotone-marker-ordering.json")) as {
+      rWarning: string;
+      rEstimate: number[];
+    };
     expect(r.rWarning).toMatch(/converge/);
     expect(r.rEstimate[1]).toBeGreaterThan(10);
     const error = attempt("monotone-marker-ordering");
@@ -201,16 +260,41 @@ describe("Cox model: monotone likelihood and the headless answer", () => {
 
   it("answers with the documented keys and the caution", () => {
     const c = cases.find((k) => k.case === "trial-breslow-cluster") as RCoxCase;
-    const answer = JSON.parse(coxCliAnswer(JSON.parse(read(c.model)), readCsvText(read(c.data)))) as Record<string, unknown>;
-    for (const key of ["caution", "coefficients", "ratios", "fit", "tests", "observations", "schoenfeld", "survival"]) expect(answer).toHaveProperty(key);
+    const answer = JSON.parse(coxCliAnswer(JSON.parse(read(c.model)), readCsvText(read(c.data)))) as Record<
+      string,
+      unknown
+    >;
+    for (const key of [
+      "caution",
+      "coefficients",
+      "ratios",
+      "fit",
+      "tests",
+      "observations",
+      "schoenfeld",
+      "survival",
+    ])
+      expect(answer).toHaveProperty(key);
     expect(answer.caution).toMatch(/do not replace, qualified statistical and medical review/);
     const first = (answer.coefficients as Record<string, unknown>[])[0];
-    expect(Object.keys(first)).toEqual(["name", "estimate", "se", "robustSe", "statistic", "p", "lower", "upper"]);
+    expect(Object.keys(first)).toEqual([
+      "name",
+      "estimate",
+      "se",
+      "robustSe",
+      "statistic",
+      "p",
+      "lower",
+      "upper",
+    ]);
     expectClose(first.robustSe as number, c.coefficients[0].robustSe, TOL, "robust se in the answer");
     const tests = answer.tests as Record<string, unknown>;
-    for (const key of ["likelihoodRatio", "wald", "score", "logRank", "proportionalHazards"]) expect(tests).toHaveProperty(key);
+    for (const key of ["likelihoodRatio", "wald", "score", "logRank", "proportionalHazards"])
+      expect(tests).toHaveProperty(key);
     const fit = answer.fit as Record<string, unknown>;
-    expect(Object.keys(fit)).toEqual(expect.arrayContaining(["logLik", "logLikNull", "events", "concordance", "iterations"]));
+    expect(Object.keys(fit)).toEqual(
+      expect.arrayContaining(["logLik", "logLikNull", "events", "concordance", "iterations"]),
+    );
     const obs = (answer.observations as Record<string, unknown>[])[0];
     expect(Object.keys(obs)).toEqual(["row", "id", "martingale", "deviance", "score", "dfbeta", "dfbetas"]);
   });
@@ -219,11 +303,22 @@ describe("Cox model: monotone likelihood and the headless answer", () => {
     const c = cases.find((k) => k.case === "ovarian-strata-identity") as RCoxCase;
     const [ok, bad] = await Promise.all([
       runCli(["fit", "--data", join(ROOT, c.data), "--model", join(ROOT, c.model)]),
-      runCli(["fit", "--data", join(ROOT, "data/monotone-no-events-in-arm.csv"), "--model", join(ROOT, "models/monotone-no-events-in-arm.json")]),
+      runCli([
+        "fit",
+        "--data",
+        join(ROOT, "data/monotone-no-events-in-arm.csv"),
+        "--model",
+        join(ROOT, "models/monotone-no-events-in-arm.json"),
+      ]),
     ]);
     expect(ok.code, ok.stderr).toBe(0);
-    const answer = JSON.parse(ok.stdout) as { coefficients: { estimate: number }[]; tests: { proportionalHazards: { global: RTest } } };
-    c.coefficients.forEach((r, j) => expectClose(answer.coefficients[j].estimate, r.estimate, TOL, `CLI ${r.rName}`));
+    const answer = JSON.parse(ok.stdout) as {
+      coefficients: { estimate: number }[];
+      tests: { proportionalHazards: { global: RTest } };
+    };
+    c.coefficients.forEach((r, j) =>
+      expectClose(answer.coefficients[j].estimate, r.estimate, TOL, `CLI ${r.rName}`),
+    );
     expectTest(answer.tests.proportionalHazards.global, c.tests.proportionalHazards.global, "CLI PH global");
     expect(bad.code).toBe(2);
     expect(bad.stdout).toBe("");

@@ -30,24 +30,54 @@ const refusal = (e: unknown) => {
 describe("a what-if exclusion", () => {
   for (const row of [0, 999_999]) {
     it(`of row ${row} is refused before queuing, naming the row`, async () => {
-      const before = { reruns: await count("SELECT count(*) AS n FROM reruns"), jobs: await count("SELECT count(*) AS n FROM jobs") };
+      const before = {
+        reruns: await count("SELECT count(*) AS n FROM reruns"),
+        jobs: await count("SELECT count(*) AS n FROM jobs"),
+      };
       const err = await reruns
-        .startRerun(s.people.priya, s.studyId, { plannedModelId: s.plannedModelId, datasetVersionId: s.datasetVersionId, options: { variant: "exclude_rows", rows: [row], reason: "chosen in the what-if, not pre-specified" }, parentRerunId: s.rerunId, prespecified: false })
-        .then(() => null, (e: unknown) => e);
+        .startRerun(s.people.priya, s.studyId, {
+          plannedModelId: s.plannedModelId,
+          datasetVersionId: s.datasetVersionId,
+          options: {
+            variant: "exclude_rows",
+            rows: [row],
+            reason: "chosen in the what-if, not pre-specified",
+          },
+          parentRerunId: s.rerunId,
+          prespecified: false,
+        })
+        .then(
+          () => null,
+          (e: unknown) => e,
+        );
       expect(err).not.toBeNull();
       const r = refusal(err);
       expect(r.status).toBe(400);
-      expect(r.message).toMatch(row === 0 ? /^The rerun's options are not valid \(rows\.0: .*\)\. Nothing was started\.$/ : /^Row 999999 is not one of the \d+ subjects this rerun analysed .*Nothing was started\.$/);
+      expect(r.message).toMatch(
+        row === 0
+          ? /^The rerun's options are not valid \(rows\.0: .*\)\. Nothing was started\.$/
+          : /^Row 999999 is not one of the \d+ subjects this rerun analysed .*Nothing was started\.$/,
+      );
       expect(await count("SELECT count(*) AS n FROM reruns")).toBe(before.reruns);
       expect(await count("SELECT count(*) AS n FROM jobs")).toBe(before.jobs);
-      expect(await count("SELECT count(*) AS n FROM reruns WHERE label LIKE 'Excluding 1 subject %' AND status <> 'completed'")).toBe(0);
+      expect(
+        await count(
+          "SELECT count(*) AS n FROM reruns WHERE label LIKE 'Excluding 1 subject %' AND status <> 'completed'",
+        ),
+      ).toBe(0);
     });
   }
 
   it("of subjects the rerun analysed is queued and labelled by their number", async () => {
     const doc = (await reruns.getRerun(s.studyId, s.rerunId)).doc!;
     const rows = doc.result.observations.row.slice(0, 2);
-    const id = await reruns.startRerun(s.people.priya, s.studyId, { plannedModelId: s.plannedModelId, datasetVersionId: s.datasetVersionId, options: { variant: "exclude_rows", rows, reason: "chosen in the what-if, not pre-specified" }, parentRerunId: s.rerunId, prespecified: false });
+    const id = await reruns.startRerun(s.people.priya, s.studyId, {
+      plannedModelId: s.plannedModelId,
+      datasetVersionId: s.datasetVersionId,
+      options: { variant: "exclude_rows", rows, reason: "chosen in the what-if, not pre-specified" },
+      parentRerunId: s.rerunId,
+      prespecified: false,
+    });
     while (await runOneJob()) {
       // run it
     }
@@ -86,9 +116,15 @@ describe("a rerun whose job fails outside the engine", () => {
     }
     const [row] = await db.select().from(t.reruns).where(eq(t.reruns.id, id));
     expect(row.status).toBe("failed");
-    expect(row.failureReason).toMatch(/^The rerun could not be completed: its options are not valid \(rows\.0: /);
+    expect(row.failureReason).toMatch(
+      /^The rerun could not be completed: its options are not valid \(rows\.0: /,
+    );
     // The results page reads the rerun through getRerun and shows failureReason when it failed.
     expect((await reruns.getRerun(s.studyId, id)).rerun.failureReason).toBe(row.failureReason);
-    expect(await count(`SELECT count(*) AS n FROM audit_events WHERE action = 'rerun.fail' AND entity_id = '${id}'`)).toBe(1);
+    expect(
+      await count(
+        `SELECT count(*) AS n FROM audit_events WHERE action = 'rerun.fail' AND entity_id = '${id}'`,
+      ),
+    ).toBe(1);
   });
 });

@@ -20,7 +20,10 @@ afterAll(() => {
 });
 
 function startWorker(): Promise<ChildProcess> {
-  const child = spawn(process.execPath, ["--import", "tsx", "tests/reruns/worker-child.ts"], { env: process.env, stdio: ["ignore", "pipe", "pipe"] });
+  const child = spawn(process.execPath, ["--import", "tsx", "tests/reruns/worker-child.ts"], {
+    env: process.env,
+    stdio: ["ignore", "pipe", "pipe"],
+  });
   children.push(child);
   let out = "";
   return new Promise((resolve, reject) => {
@@ -34,7 +37,10 @@ function startWorker(): Promise<ChildProcess> {
 }
 
 const statusOf = async (rerunId: string) => {
-  const rs = await dbClient.execute({ sql: "SELECT status, failure_reason FROM reruns WHERE id = ?", args: [rerunId] });
+  const rs = await dbClient.execute({
+    sql: "SELECT status, failure_reason FROM reruns WHERE id = ?",
+    args: [rerunId],
+  });
   return { status: String(rs.rows[0].status), reason: rs.rows[0].failure_reason as string | null };
 };
 
@@ -49,7 +55,11 @@ describe("a rerun whose server is killed half-way", () => {
     let rerunId = "";
     // Catch a rerun while it runs; a rerun that finished before the kill does not count, so try again.
     for (let attempt = 0; attempt < 3 && !rerunId; attempt++) {
-      const id = await reruns.startRerun(study.people.priya, study.studyId, { plannedModelId: study.plannedModelIds.adeff10k, datasetVersionId: study.datasetVersionIds.adeff10k, options: { variant: "planned" } });
+      const id = await reruns.startRerun(study.people.priya, study.studyId, {
+        plannedModelId: study.plannedModelIds.adeff10k,
+        datasetVersionId: study.datasetVersionIds.adeff10k,
+        options: { variant: "planned" },
+      });
       const worker = await startWorker();
       for (let i = 0; i < 2000; i++) {
         const s = (await statusOf(id)).status;
@@ -62,7 +72,9 @@ describe("a rerun whose server is killed half-way", () => {
         await new Promise((r) => setTimeout(r, 5));
       }
       if (worker.exitCode === null) worker.kill("SIGKILL");
-      await new Promise((r) => (worker.exitCode !== null || worker.signalCode !== null ? r(null) : worker.once("exit", r)));
+      await new Promise((r) =>
+        worker.exitCode !== null || worker.signalCode !== null ? r(null) : worker.once("exit", r),
+      );
     }
     expect(rerunId, "no rerun was caught running").not.toBe("");
     expect((await statusOf(rerunId)).status).toBe("running");
@@ -71,10 +83,20 @@ describe("a rerun whose server is killed half-way", () => {
     await startWorker();
     const period = STALE_MS + RECOVER_EVERY_MS + 5_000;
     const jobRunning = async () =>
-      Number((await dbClient.execute({ sql: "SELECT count(*) AS n FROM jobs WHERE status = 'running' AND payload_json LIKE ?", args: [`%${rerunId}%`] })).rows[0].n);
+      Number(
+        (
+          await dbClient.execute({
+            sql: "SELECT count(*) AS n FROM jobs WHERE status = 'running' AND payload_json LIKE ?",
+            args: [`%${rerunId}%`],
+          })
+        ).rows[0].n,
+      );
     let ended = await statusOf(rerunId);
     // The rerun's row ends first, its job a moment later: wait for both.
-    while ((ended.status === "running" || ended.status === "queued" || (await jobRunning()) > 0) && Date.now() - restartedAt < period) {
+    while (
+      (ended.status === "running" || ended.status === "queued" || (await jobRunning()) > 0) &&
+      Date.now() - restartedAt < period
+    ) {
       await new Promise((r) => setTimeout(r, 100));
       ended = await statusOf(rerunId);
     }

@@ -38,7 +38,9 @@ export async function signInAs(page: Page, appUrl: string, displayName: string):
   await page.goto(`${appUrl}/sign-in`);
   await page.getByRole("button", { name: /sign in with single sign-on/i }).click();
   await page.getByRole("button", { name: `Sign in as ${displayName}` }).click();
-  await page.waitForURL((url) => url.origin === new URL(appUrl).origin && url.pathname === "/", { timeout: 20_000 });
+  await page.waitForURL((url) => url.origin === new URL(appUrl).origin && url.pathname === "/", {
+    timeout: 20_000,
+  });
 }
 
 /** Signs a sponsor reader in through the OpenID Connect round trip: "Sponsor sign-in", the fake provider's picker, back. */
@@ -46,7 +48,9 @@ export async function signInAsSponsor(page: Page, appUrl: string, displayName: s
   await page.goto(`${appUrl}/sign-in`);
   await page.getByRole("button", { name: "Sponsor sign-in" }).click();
   await page.getByRole("button", { name: `Continue as ${displayName}` }).click();
-  await page.waitForURL((url) => url.origin === new URL(appUrl).origin && url.pathname === "/", { timeout: 20_000 });
+  await page.waitForURL((url) => url.origin === new URL(appUrl).origin && url.pathname === "/", {
+    timeout: 20_000,
+  });
 }
 
 /**
@@ -58,7 +62,11 @@ export async function drawAllFigures(page: Page): Promise<string[]> {
   const count = await frames.count();
   for (let i = 0; i < count; i++) {
     await frames.nth(i).scrollIntoViewIfNeeded();
-    await page.waitForFunction((k) => document.querySelectorAll<HTMLElement>("[data-figure]")[k]?.dataset.state !== "loading", i, { timeout: 20_000 });
+    await page.waitForFunction(
+      (k) => document.querySelectorAll<HTMLElement>("[data-figure]")[k]?.dataset.state !== "loading",
+      i,
+      { timeout: 20_000 },
+    );
   }
   return frames.evaluateAll((els) => els.map((el) => (el as HTMLElement).dataset.state ?? "?"));
 }
@@ -77,7 +85,9 @@ export async function hoverForSubject(page: Page, figure: string): Promise<strin
       await page.mouse.move(box.x + (box.width * col) / 48, box.y + (box.height * row) / 24);
       const text = await page.evaluate(() => {
         const tip = document.getElementById("vg-tooltip-element");
-        return tip?.classList.contains("visible") && /Subject/.test(tip.textContent ?? "") ? (tip.innerText ?? null) : null;
+        return tip?.classList.contains("visible") && /Subject/.test(tip.textContent ?? "")
+          ? (tip.innerText ?? null)
+          : null;
       });
       if (text) return text;
     }

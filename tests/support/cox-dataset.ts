@@ -15,22 +15,51 @@ export const coxCsv = (): string => readFileSync(COX_DATA_FILE, "utf8");
 export const coxReference = () =>
   JSON.parse(readFileSync(COX_VALUES_FILE, "utf8")) as {
     oracle: string;
-    coefficients: { rName: string; estimate: number; ratio: number; ratioLower: number; ratioUpper: number }[];
-    survival: { level: string; stratum: string | null; time: number[]; estimate: number[]; lower: (number | null)[]; upper: (number | null)[]; atRisk: number[] }[];
+    coefficients: {
+      rName: string;
+      estimate: number;
+      ratio: number;
+      ratioLower: number;
+      ratioUpper: number;
+    }[];
+    survival: {
+      level: string;
+      stratum: string | null;
+      time: number[];
+      estimate: number[];
+      lower: (number | null)[];
+      upper: (number | null)[];
+      atRisk: number[];
+    }[];
   };
 
-type TreatmentReference = { estimate: number; se: number; ratio: number; ratioLower: number; ratioUpper: number; p: number; naiveSe?: number };
+type TreatmentReference = {
+  estimate: number;
+  se: number;
+  ratio: number;
+  ratioLower: number;
+  ratioUpper: number;
+  p: number;
+  naiveSe?: number;
+};
 
 /** R's answers for the Cox sensitivity analyses of the same data (tests/reference/survival/generate-sensitivity.R). */
 export const coxSensitivityReference = () =>
-  JSON.parse(readFileSync(path.resolve("tests/reference/survival/sensitivity/trial-breslow-cluster.json"), "utf8")) as {
+  JSON.parse(
+    readFileSync(path.resolve("tests/reference/survival/sensitivity/trial-breslow-cluster.json"), "utf8"),
+  ) as {
     oracle: string;
     robustSubject: TreatmentReference & { naiveSe: number };
     unstratified: TreatmentReference;
     rmst: { tau: number; arms: { level: string; rmean: number; se: number }[] };
   };
 
-export const COX_CHECK_KEYS = ["proportional_hazards", "functional_form_cox", "dfbetas_treatment_cox", "events_per_coefficient"];
+export const COX_CHECK_KEYS = [
+  "proportional_hazards",
+  "functional_form_cox",
+  "dfbetas_treatment_cox",
+  "events_per_coefficient",
+];
 
 /** Time to event AVAL (CNSR = 0 an event), treatment TRTP against Placebo, AGE, BASE and STRAT2, stratified by STRAT1, Breslow ties. */
 export function coxForm(): FormData {

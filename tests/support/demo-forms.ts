@@ -1,5 +1,17 @@
 /** The plan editor's form for the demo study's primary model, as a biostatistician fills it in. */
-export const ALL_LINEAR_CHECKS = ["cooks_distance", "leverage", "deletion_residual", "dfbetas_treatment", "dffits", "shapiro_wilk", "breusch_pagan", "brown_forsythe", "homogeneity_of_slopes", "reset", "gvif"];
+export const ALL_LINEAR_CHECKS = [
+  "cooks_distance",
+  "leverage",
+  "deletion_residual",
+  "dfbetas_treatment",
+  "dffits",
+  "shapiro_wilk",
+  "breusch_pagan",
+  "brown_forsythe",
+  "homogeneity_of_slopes",
+  "reset",
+  "gvif",
+];
 
 export function demoPrimaryForm(opts: { checks?: readonly string[]; sensitivity?: boolean } = {}): FormData {
   const f = new FormData();

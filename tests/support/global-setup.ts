@@ -33,7 +33,9 @@ declare module "vitest" {
 export default async function setup(project: TestProject): Promise<() => Promise<void>> {
   const root = process.cwd();
   if (!existsSync(path.join(root, "build/server/index.js"))) {
-    throw new Error("The app tests need the built server: run `npm run build` first (npm run test:all does).");
+    throw new Error(
+      "The app tests need the built server: run `npm run build` first (npm run test:all does).",
+    );
   }
   const dir = mkdtempSync(path.join(os.tmpdir(), "plumbline-test-"));
   const [appPort, idpPort] = [await freePort(), await freePort()];
@@ -73,7 +75,15 @@ export default async function setup(project: TestProject): Promise<() => Promise
   const { seedDemoStudy } = await import("../../app/.server/demo/seed.server");
   await seedDemoStudy();
   const app = await startAppServer({ port: appPort, env });
-  project.provide("stack", { appUrl, idpUrl: idp.baseUrl, oidcUrl: oidc.issuerUrl, dbFile, dataDir: env.DATA_DIR, sessionSecret, smtpStateDir });
+  project.provide("stack", {
+    appUrl,
+    idpUrl: idp.baseUrl,
+    oidcUrl: oidc.issuerUrl,
+    dbFile,
+    dataDir: env.DATA_DIR,
+    sessionSecret,
+    smtpStateDir,
+  });
   return async () => {
     await Promise.allSettled([app.stop(), idp.stop(), oidc.stop(), smtp.stop()]);
     rmSync(dir, { recursive: true, force: true });

@@ -28,7 +28,14 @@ export async function sessionCookieFor(stack: Stack, email: string): Promise<str
   const now = new Date();
   await testDb(stack).execute({
     sql: "INSERT INTO sessions (id, person_id, data_json, created_at, last_seen_at, expires_at) VALUES (?, ?, ?, ?, ?, ?)",
-    args: [id, pid, JSON.stringify({ signedInAt: now.toISOString() }), now.toISOString(), now.toISOString(), new Date(now.getTime() + 3600_000).toISOString()],
+    args: [
+      id,
+      pid,
+      JSON.stringify({ signedInAt: now.toISOString() }),
+      now.toISOString(),
+      now.toISOString(),
+      new Date(now.getTime() + 3600_000).toISOString(),
+    ],
   });
   const cookie = createCookie("plumbline_session", { secrets: [stack.sessionSecret] });
   return (await cookie.serialize(id)).split(";")[0];

@@ -50,23 +50,55 @@ export async function makeSignedRerun(): Promise<SignedRerun> {
   };
   const locked = await listLockedVersions(studyId);
   const datasetVersionId = locked[0].versionId;
-  const { versionId } = await plans.createPlan(people.priya, studyId, { title: "Efficacy models", sapName: "Statistical analysis plan", sapVersion: "2.0", sapDate: "2026-10-01" });
-  const v = validatePlannedModel(readPlannedModelForm(demoPrimaryForm()), locked.map((x) => ({ name: x.datasetName, columns: x.columns })), []);
+  const { versionId } = await plans.createPlan(people.priya, studyId, {
+    title: "Efficacy models",
+    sapName: "Statistical analysis plan",
+    sapVersion: "2.0",
+    sapDate: "2026-10-01",
+  });
+  const v = validatePlannedModel(
+    readPlannedModelForm(demoPrimaryForm()),
+    locked.map((x) => ({ name: x.datasetName, columns: x.columns })),
+    [],
+  );
   if (!v.ok) throw new Error(`The planned model does not validate: ${JSON.stringify(v.errors)}`);
   const plannedModelId = await plans.savePlannedModel(people.priya, studyId, versionId, 1, null, v.model);
   await plans.submitForApproval(people.priya, studyId, versionId, 2);
-  await plans.approvePlanVersion({ ...people.tomas, signedInAt: new Date().toISOString() }, studyId, versionId);
+  await plans.approvePlanVersion(
+    { ...people.tomas, signedInAt: new Date().toISOString() },
+    studyId,
+    versionId,
+  );
 
-  const rerunId = await reruns.startRerun(people.priya, studyId, { plannedModelId, datasetVersionId, options: { variant: "planned" } });
+  const rerunId = await reruns.startRerun(people.priya, studyId, {
+    plannedModelId,
+    datasetVersionId,
+    options: { variant: "planned" },
+  });
   await drain();
   const primary = await reruns.getRerun(studyId, rerunId);
-  if (primary.rerun.status !== "completed" || !primary.doc) throw new Error(`The primary rerun did not complete: ${primary.rerun.failureReason}`);
+  if (primary.rerun.status !== "completed" || !primary.doc)
+    throw new Error(`The primary rerun did not complete: ${primary.rerun.failureReason}`);
   // the plan's sensitivity analyses were queued when the primary completed, and ran in the same drain
   const sensitivityIds = (await reruns.sensitivityReruns(rerunId)).map((r) => r.id);
-  if (sensitivityIds.length === 0) throw new Error("The planned sensitivity analyses were not queued with the primary rerun.");
+  if (sensitivityIds.length === 0)
+    throw new Error("The planned sensitivity analyses were not queued with the primary rerun.");
   for (const f of await findings.findingsOf(rerunId)) {
-    await findings.assessFinding(people.priya, studyId, f.id, { category: "model_assumption", impact: "none", action: "planned_sensitivity", rationale: "The planned sensitivity analyses leave the treatment conclusion unchanged." });
+    await findings.assessFinding(people.priya, studyId, f.id, {
+      category: "model_assumption",
+      impact: "none",
+      action: "planned_sensitivity",
+      rationale: "The planned sensitivity analyses leave the treatment conclusion unchanged.",
+    });
   }
   await findings.signRerun({ ...people.tomas, signedInAt: new Date().toISOString() }, studyId, rerunId);
-  return { studyId, planVersionId: versionId, plannedModelId, datasetVersionId, rerunId, sensitivityIds, people };
+  return {
+    studyId,
+    planVersionId: versionId,
+    plannedModelId,
+    datasetVersionId,
+    rerunId,
+    sensitivityIds,
+    people,
+  };
 }

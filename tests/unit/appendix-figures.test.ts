@@ -10,7 +10,9 @@ import { forestSpec } from "~/figures/forest";
 
 /** Dark pixels (ink) in the top `rows` rows of an RGBA image on a light background. */
 function inkInTopRows(svg: string, rows: number, withFonts: boolean): number {
-  const options = withFonts ? resvgOptions(1) : { fitTo: { mode: "zoom" as const, value: 1 }, font: { loadSystemFonts: false, fontFiles: [] } };
+  const options = withFonts
+    ? resvgOptions(1)
+    : { fitTo: { mode: "zoom" as const, value: 1 }, font: { loadSystemFonts: false, fontFiles: [] } };
   const image = new Resvg(svg, options).render();
   const px = image.pixels;
   let ink = 0;
@@ -26,8 +28,22 @@ function inkInTopRows(svg: string, rows: number, withFonts: boolean): number {
 describe("server-rendered figures", () => {
   const spec = forestSpec(
     [
-      { label: "Primary analysis as planned", estimate: -9.67, lower: -12.13, upper: -7.21, prespecified: true, primary: true },
-      { label: "Robust (HC3) standard errors", estimate: -9.67, lower: -12.15, upper: -7.19, prespecified: true, primary: false },
+      {
+        label: "Primary analysis as planned",
+        estimate: -9.67,
+        lower: -12.13,
+        upper: -7.21,
+        prespecified: true,
+        primary: true,
+      },
+      {
+        label: "Robust (HC3) standard errors",
+        estimate: -9.67,
+        lower: -12.15,
+        upper: -7.19,
+        prespecified: true,
+        primary: false,
+      },
     ],
     "Lorvanitide 120 mg vs Placebo",
     { width: 330, forPrint: true },

@@ -9,7 +9,10 @@ const { exportAppendix, AppendixRefused } = await import("~/.server/appendix/app
 let status = 0;
 let message = "";
 try {
-  await exportAppendix(JSON.parse(process.env.ACTOR as string), process.env.STUDY_ID as string, { kind: "rerun", rerunId: process.env.RERUN_ID as string });
+  await exportAppendix(JSON.parse(process.env.ACTOR as string), process.env.STUDY_ID as string, {
+    kind: "rerun",
+    rerunId: process.env.RERUN_ID as string,
+  });
   message = "stored";
 } catch (e) {
   status = e instanceof AppendixRefused ? e.status : -1;

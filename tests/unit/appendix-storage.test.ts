@@ -14,10 +14,16 @@ import { makeSignedRerun, type SignedRerun } from "../support/signed-rerun";
 
 const { dir, dbFile } = useTempDatabase();
 const { dbClient } = await import("~/.server/db/index.server");
-const { exportAppendix, renderAppendix, AppendixRefused } = await import("~/.server/appendix/appendix.server");
+const { exportAppendix, renderAppendix, AppendixRefused } =
+  await import("~/.server/appendix/appendix.server");
 
 const appendices = path.join(dir, "data", "appendices");
-const filesUnder = (base: string): string[] => (existsSync(base) ? readdirSync(base, { recursive: true, withFileTypes: true }).filter((e) => e.isFile()).map((e) => e.name) : []);
+const filesUnder = (base: string): string[] =>
+  existsSync(base)
+    ? readdirSync(base, { recursive: true, withFileTypes: true })
+        .filter((e) => e.isFile())
+        .map((e) => e.name)
+    : [];
 const count = async (sql: string) => Number((await dbClient.execute(sql)).rows[0].n);
 
 let s: SignedRerun;
@@ -30,12 +36,19 @@ describe("an appendix export that cannot be stored", () => {
     rmSync(appendices, { recursive: true, force: true });
     writeFileSync(appendices, "not a folder");
     try {
-      const err = await exportAppendix(s.people.helen, s.studyId, { kind: "rerun", rerunId: s.rerunId }).catch((e: unknown) => e);
+      const err = await exportAppendix(s.people.helen, s.studyId, {
+        kind: "rerun",
+        rerunId: s.rerunId,
+      }).catch((e: unknown) => e);
       expect(err).toBeInstanceOf(AppendixRefused);
       expect((err as InstanceType<typeof AppendixRefused>).status).toBe(507);
-      expect((err as Error).message).toMatch(/^The appendix could not be stored: a folder inside the data folder is missing or is not a folder \(E[A-Z]+\)\. Nothing was stored\./);
+      expect((err as Error).message).toMatch(
+        /^The appendix could not be stored: a folder inside the data folder is missing or is not a folder \(E[A-Z]+\)\. Nothing was stored\./,
+      );
       expect(await count("SELECT count(*) AS n FROM appendices")).toBe(0);
-      expect(await count("SELECT count(*) AS n FROM audit_events WHERE action = 'appendix.export_refused'")).toBe(1);
+      expect(
+        await count("SELECT count(*) AS n FROM audit_events WHERE action = 'appendix.export_refused'"),
+      ).toBe(1);
     } finally {
       rmSync(appendices, { force: true });
     }
@@ -47,20 +60,38 @@ describe("an appendix export that cannot be stored", () => {
     expect(limit).toBeGreaterThan(64 * 1024);
     // The child's own database writes start from an empty write-ahead log, well under the limit.
     await dbClient.execute("PRAGMA wal_checkpoint(TRUNCATE)");
-    const child = spawnSync("prlimit", [`--fsize=${limit}`, process.execPath, "--import", "tsx", "tests/unit/appendix-full-disk-child.ts"], {
-      env: { ...process.env, DATABASE_URL: `file:${dbFile}`, ACTOR: JSON.stringify(s.people.helen), STUDY_ID: s.studyId, RERUN_ID: s.rerunId },
-      encoding: "utf8",
-      timeout: 90_000,
-    });
+    const child = spawnSync(
+      "prlimit",
+      [`--fsize=${limit}`, process.execPath, "--import", "tsx", "tests/unit/appendix-full-disk-child.ts"],
+      {
+        env: {
+          ...process.env,
+          DATABASE_URL: `file:${dbFile}`,
+          ACTOR: JSON.stringify(s.people.helen),
+          STUDY_ID: s.studyId,
+          RERUN_ID: s.rerunId,
+        },
+        encoding: "utf8",
+        timeout: 90_000,
+      },
+    );
     expect(child.stderr).not.toMatch(/Unhandled|uncaught/i);
     expect(child.status).toBe(0);
-    const report = JSON.parse(child.stdout.trim().split("\n").pop() as string) as { status: number; message: string; alive: boolean };
+    const report = JSON.parse(child.stdout.trim().split("\n").pop() as string) as {
+      status: number;
+      message: string;
+      alive: boolean;
+    };
     expect(report.status).toBe(507);
-    expect(report.message).toMatch(/^The appendix could not be stored: the data folder is full \(EFBIG\)\. Nothing was stored\./);
+    expect(report.message).toMatch(
+      /^The appendix could not be stored: the data folder is full \(EFBIG\)\. Nothing was stored\./,
+    );
     expect(report.alive).toBe(true);
     expect(filesUnder(appendices)).toEqual([]);
     expect(await count("SELECT count(*) AS n FROM appendices")).toBe(0);
-    expect(await count("SELECT count(*) AS n FROM audit_events WHERE action = 'appendix.export_refused'")).toBe(2);
+    expect(
+      await count("SELECT count(*) AS n FROM audit_events WHERE action = 'appendix.export_refused'"),
+    ).toBe(2);
   }, 120_000);
 
   it("is stored as before when the disk has room", async () => {

@@ -20,8 +20,15 @@ const { fmt, fmtCi, fmtP } = await import("~/shared/format");
 
 type Content = Awaited<ReturnType<typeof buildAppendixContent>>;
 
-const cellText = (xml: string) => [...xml.matchAll(/<w:t(?:\s[^>]*)?>([^<]*)<\/w:t>/g)].map((m) => m[1]).join("");
-const decode = (x: string) => x.replace(/&amp;/g, "&").replace(/&lt;/g, "<").replace(/&gt;/g, ">").replace(/&quot;/g, '"').replace(/&apos;/g, "'");
+const cellText = (xml: string) =>
+  [...xml.matchAll(/<w:t(?:\s[^>]*)?>([^<]*)<\/w:t>/g)].map((m) => m[1]).join("");
+const decode = (x: string) =>
+  x
+    .replace(/&amp;/g, "&")
+    .replace(/&lt;/g, "<")
+    .replace(/&gt;/g, ">")
+    .replace(/&quot;/g, '"')
+    .replace(/&apos;/g, "'");
 
 /** Each table of document.xml: the caption before it, its grid column widths (twips) and its rows of cell texts. */
 function tables(xml: string): { caption: string; grid: number[]; rows: string[][] }[] {
@@ -32,7 +39,9 @@ function tables(xml: string): { caption: string; grid: number[]; rows: string[][
     const before = xml.slice(0, m.index);
     const lastP = before.lastIndexOf("<w:p>") >= 0 ? before.slice(before.lastIndexOf("<w:p>")) : "";
     const grid = [...m[1].matchAll(/<w:gridCol w:w="(\d+)"\/>/g)].map((g) => Number(g[1]));
-    const rows = [...m[1].matchAll(/<w:tr>([\s\S]*?)<\/w:tr>/g)].map((r) => [...r[1].matchAll(/<w:tc>([\s\S]*?)<\/w:tc>/g)].map((c) => decode(cellText(c[1]))));
+    const rows = [...m[1].matchAll(/<w:tr>([\s\S]*?)<\/w:tr>/g)].map((r) =>
+      [...r[1].matchAll(/<w:tc>([\s\S]*?)<\/w:tc>/g)].map((c) => decode(cellText(c[1]))),
+    );
     out.push({ caption: decode(cellText(lastP)), grid, rows });
   }
   return out;
@@ -40,7 +49,10 @@ function tables(xml: string): { caption: string; grid: number[]; rows: string[][
 
 /** The generated document of the content, without its figures (rendering them is appendix.test.ts's job). */
 async function documentXml(content: Content): Promise<string> {
-  const tablesOnly = { ...content, sections: content.sections.map((s) => ({ ...s, blocks: s.blocks.filter((b) => b.kind !== "figure") })) };
+  const tablesOnly = {
+    ...content,
+    sections: content.sections.map((s) => ({ ...s, blocks: s.blocks.filter((b) => b.kind !== "figure") })),
+  };
   const zip = await JSZip.loadAsync(await renderDocx(tablesOnly));
   return zip.file("word/document.xml")!.async("string");
 }
@@ -73,14 +85,32 @@ describe("HC3 columns in the Word appendix", () => {
     const doc = (await getRerun(s.studyId, s.rerunId)).doc!;
     const r = doc.result;
     if (r.kind !== "linear") throw new Error("the demo's primary model is linear");
-    const contrasts = tables(xml).find((x) => /Treatment contrasts against the reference arm/.test(x.caption))!;
-    expect(contrasts.rows[0]).toEqual(["Comparison", "Difference", "SE", "95% CI", "t", "p", "HC3 SE", "HC3 95% CI", "HC3 p"]);
+    const contrasts = tables(xml).find((x) =>
+      /Treatment contrasts against the reference arm/.test(x.caption),
+    )!;
+    expect(contrasts.rows[0]).toEqual([
+      "Comparison",
+      "Difference",
+      "SE",
+      "95% CI",
+      "t",
+      "p",
+      "HC3 SE",
+      "HC3 95% CI",
+      "HC3 p",
+    ]);
     contrastsOf(doc).forEach((c, i) => {
-      expect(contrasts.rows[i + 1].slice(6)).toEqual([fmt(c.hc3!.se), fmtCi(c.hc3!.lower, c.hc3!.upper), fmtP(c.hc3!.p)]);
+      expect(contrasts.rows[i + 1].slice(6)).toEqual([
+        fmt(c.hc3!.se),
+        fmtCi(c.hc3!.lower, c.hc3!.upper),
+        fmtP(c.hc3!.p),
+      ]);
     });
     const means = tables(xml).find((x) => /Adjusted means/.test(x.caption))!;
     expect(means.rows[0].at(-1)).toBe("HC3 95% CI");
-    r.adjustedMeans!.forEach((m, i) => expect(means.rows[i + 1].at(-1)).toBe(fmtCi(m.hc3.lower, m.hc3.upper)));
+    r.adjustedMeans!.forEach((m, i) =>
+      expect(means.rows[i + 1].at(-1)).toBe(fmtCi(m.hc3.lower, m.hc3.upper)),
+    );
   });
 });
 
@@ -94,15 +124,43 @@ describe("the conditional odds ratios of a logistic model in the Word appendix",
     const v2 = await plans.getPlanVersion(s.studyId, next);
     const linear = v2.models[0];
     if (linear.spec.family === "cox") throw new Error("the demo's first planned model is linear");
-    const responder = { ...linear, key: "responder", title: "Responders at week 12", spec: { ...linear.spec, response: "resp", family: "binomial" as const }, checks: linear.checks.filter((c) => ["cooks_distance", "leverage"].includes(c.key)), sensitivity: [] };
-    const modelId = await plans.savePlannedModel(s.people.priya, s.studyId, next, v2.version.revision, null, responder);
+    const responder = {
+      ...linear,
+      key: "responder",
+      title: "Responders at week 12",
+      spec: { ...linear.spec, response: "resp", family: "binomial" as const },
+      checks: linear.checks.filter((c) => ["cooks_distance", "leverage"].includes(c.key)),
+      sensitivity: [],
+    };
+    const modelId = await plans.savePlannedModel(
+      s.people.priya,
+      s.studyId,
+      next,
+      v2.version.revision,
+      null,
+      responder,
+    );
     await plans.submitForApproval(s.people.priya, s.studyId, next, v2.version.revision + 1);
-    await plans.approvePlanVersion({ ...s.people.tomas, signedInAt: new Date().toISOString() }, s.studyId, next);
-    const id = await reruns.startRerun(s.people.priya, s.studyId, { plannedModelId: modelId, datasetVersionId: s.datasetVersionId, options: { variant: "planned" } });
+    await plans.approvePlanVersion(
+      { ...s.people.tomas, signedInAt: new Date().toISOString() },
+      s.studyId,
+      next,
+    );
+    const id = await reruns.startRerun(s.people.priya, s.studyId, {
+      plannedModelId: modelId,
+      datasetVersionId: s.datasetVersionId,
+      options: { variant: "planned" },
+    });
     while (await runOneJob()) {
       // the rerun
     }
-    for (const f of await findings.findingsOf(id)) await findings.assessFinding(s.people.priya, s.studyId, f.id, { category: "model_assumption", impact: "none", action: "none", rationale: "Reviewed; the treatment conclusion is unchanged." });
+    for (const f of await findings.findingsOf(id))
+      await findings.assessFinding(s.people.priya, s.studyId, f.id, {
+        category: "model_assumption",
+        impact: "none",
+        action: "none",
+        rationale: "Reviewed; the treatment conclusion is unchanged.",
+      });
     await findings.signRerun({ ...s.people.tomas, signedInAt: new Date().toISOString() }, s.studyId, id);
     const doc = (await reruns.getRerun(s.studyId, id)).doc!;
     if (doc.result.kind !== "glm") throw new Error("expected a GLM");
@@ -111,10 +169,17 @@ describe("the conditional odds ratios of a logistic model in the Word appendix",
     expect(ratios).toBeDefined();
     expect(ratios.rows[0]).toEqual(["Coefficient", "Odds ratio", "Wald 95% CI", "Profile 95% CI"]);
     expect(ratios.rows.slice(1)).toEqual(
-      doc.result.ratios!.map((r) => [r.name, fmt(r.ratio), fmtCi(r.lower, r.upper), r.profileLower == null || r.profileUpper == null ? "—" : fmtCi(r.profileLower, r.profileUpper)]),
+      doc.result.ratios!.map((r) => [
+        r.name,
+        fmt(r.ratio),
+        fmtCi(r.lower, r.upper),
+        r.profileLower == null || r.profileUpper == null ? "—" : fmtCi(r.profileLower, r.profileUpper),
+      ]),
     );
     // the marginal contrasts carry the robust (Ye et al.) columns the page shows
-    const contrasts = tables(glmXml).find((x) => /Treatment contrasts against the reference arm/.test(x.caption))!;
+    const contrasts = tables(glmXml).find((x) =>
+      /Treatment contrasts against the reference arm/.test(x.caption),
+    )!;
     expect(contrasts.rows[0].slice(-3)).toEqual(["Robust SE", "Robust 95% CI", "Robust p"]);
   }, 120_000);
 });

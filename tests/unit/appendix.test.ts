@@ -31,8 +31,15 @@ let doc: NonNullable<Awaited<ReturnType<typeof getRerun>>["doc"]>;
 let content: Awaited<ReturnType<typeof buildAppendixContent>>;
 
 /** The text of a cell: every w:t run joined. */
-const cellText = (xml: string) => [...xml.matchAll(/<w:t(?:\s[^>]*)?>([^<]*)<\/w:t>/g)].map((m) => m[1]).join("");
-const decode = (x: string) => x.replace(/&amp;/g, "&").replace(/&lt;/g, "<").replace(/&gt;/g, ">").replace(/&quot;/g, '"').replace(/&apos;/g, "'");
+const cellText = (xml: string) =>
+  [...xml.matchAll(/<w:t(?:\s[^>]*)?>([^<]*)<\/w:t>/g)].map((m) => m[1]).join("");
+const decode = (x: string) =>
+  x
+    .replace(/&amp;/g, "&")
+    .replace(/&lt;/g, "<")
+    .replace(/&gt;/g, ">")
+    .replace(/&quot;/g, '"')
+    .replace(/&apos;/g, "'");
 
 /** The tables of document.xml as rows of cell texts, each with the caption paragraph before it. */
 function tables(xml: string): { caption: string; rows: string[][] }[] {
@@ -42,7 +49,9 @@ function tables(xml: string): { caption: string; rows: string[][] }[] {
   while ((m = re.exec(xml))) {
     const before = xml.slice(0, m.index);
     const lastP = before.lastIndexOf("<w:p>") >= 0 ? before.slice(before.lastIndexOf("<w:p>")) : "";
-    const rows = [...m[1].matchAll(/<w:tr>([\s\S]*?)<\/w:tr>/g)].map((r) => [...r[1].matchAll(/<w:tc>([\s\S]*?)<\/w:tc>/g)].map((c) => decode(cellText(c[1]))));
+    const rows = [...m[1].matchAll(/<w:tr>([\s\S]*?)<\/w:tr>/g)].map((r) =>
+      [...r[1].matchAll(/<w:tc>([\s\S]*?)<\/w:tc>/g)].map((c) => decode(cellText(c[1]))),
+    );
     out.push({ caption: decode(cellText(lastP)), rows });
   }
   return out;
@@ -55,7 +64,13 @@ const ci = (cell: string) => cell.split(" to ").map(num);
 beforeAll(async () => {
   s = await makeSignedRerun();
   doc = (await getRerun(s.studyId, s.rerunId)).doc!;
-  await narratives.saveNarrative(s.people.helen, s.studyId, s.planVersionId, "results", "The adjusted difference favours the higher dose.\n\nNo check changes this reading.");
+  await narratives.saveNarrative(
+    s.people.helen,
+    s.studyId,
+    s.planVersionId,
+    "results",
+    "The adjusted difference favours the higher dose.\n\nNo check changes this reading.",
+  );
   content = await buildAppendixContent(s.studyId, { kind: "rerun", rerunId: s.rerunId });
   const row = await appendix.exportAppendix(s.people.helen, s.studyId, { kind: "rerun", rerunId: s.rerunId });
   bytes = await appendix.appendixBytes(row);
@@ -101,8 +116,16 @@ describe("the Word appendix of a signed rerun", () => {
     expect(fit.rows[0]).toEqual(["Quantity", "Value"]);
     expect(fit.rows[1][0]).toBe("Distribution and link");
     expect(fit.rows[1][1]).toMatch(/^Normal \(identity link\), (ordinary|weighted) least squares$/);
-    expect(fit.rows.map((row) => row[0])).toEqual(expect.arrayContaining(["Residual standard deviation", "Log-likelihood", "Akaike information criterion"]));
-    const contrasts = tables(documentXml).find((x) => /Treatment contrasts against the reference arm/.test(x.caption))!;
+    expect(fit.rows.map((row) => row[0])).toEqual(
+      expect.arrayContaining([
+        "Residual standard deviation",
+        "Log-likelihood",
+        "Akaike information criterion",
+      ]),
+    );
+    const contrasts = tables(documentXml).find((x) =>
+      /Treatment contrasts against the reference arm/.test(x.caption),
+    )!;
     expect(contrasts.rows.slice(1)).toHaveLength(r.contrasts!.length);
     contrasts.rows.slice(1).forEach((row, i) => {
       const c = r.contrasts![i];
@@ -124,15 +147,20 @@ describe("the Word appendix of a signed rerun", () => {
       const c = doc.checks[i];
       expect(row[0]).toBe(c.label);
       expect(row[2]).toBe(c.threshold);
-      expect(row[3]).toMatch(c.outcome === "finding" ? /^Finding/ : c.outcome === "within" ? /^Within plan/ : /^Not computed/);
+      expect(row[3]).toMatch(
+        c.outcome === "finding" ? /^Finding/ : c.outcome === "within" ? /^Within plan/ : /^Not computed/,
+      );
       if (c.value !== null && c.value !== undefined && Number.isFinite(c.value)) {
         // observation checks print the largest value to 3 decimals; tests print the p-value to 4
         const pTest = /, p [=<]/.test(row[1]);
-        const printed = pTest ? /, p (?:= )?([<\d.]+)/.exec(row[1])?.[1] : /(-?\d+\.\d+(?:e[-+]?\d+)?)/.exec(row[1])?.[1];
+        const printed = pTest
+          ? /, p (?:= )?([<\d.]+)/.exec(row[1])?.[1]
+          : /(-?\d+\.\d+(?:e[-+]?\d+)?)/.exec(row[1])?.[1];
         expect(printed, `${c.label}: ${row[1]}`).toBeDefined();
         // an absolute value ("largest absolute deletion residual") is printed as one
         const shown = pTest ? c.value : (c.numbers?.statistic ?? c.value);
-        if (printed && !printed.startsWith("<")) expect(Math.abs(Number(printed) - shown)).toBeLessThan(pTest ? 0.00006 : 0.0006);
+        if (printed && !printed.startsWith("<"))
+          expect(Math.abs(Number(printed) - shown)).toBeLessThan(pTest ? 0.00006 : 0.0006);
       }
       if (c.flagged?.length) expect(row[3]).toContain(`${c.flagged.length} of ${doc.result.n} subjects`);
       // each test by its name with its statistic in words, never a program's "W = …" or bars around a signed number
@@ -183,10 +211,18 @@ describe("the Word appendix of a signed rerun", () => {
   });
 
   it("has page numbers, a running header with the study code and Word's heading styles", async () => {
-    const footers = await Promise.all(Object.keys(zip.files).filter((f) => /^word\/footer\d+\.xml$/.test(f)).map((f) => zip.file(f)!.async("string")));
+    const footers = await Promise.all(
+      Object.keys(zip.files)
+        .filter((f) => /^word\/footer\d+\.xml$/.test(f))
+        .map((f) => zip.file(f)!.async("string")),
+    );
     expect(footers.join("")).toMatch(/PAGE/);
     expect(footers.join("")).toMatch(/NUMPAGES/);
-    const headers = await Promise.all(Object.keys(zip.files).filter((f) => /^word\/header\d+\.xml$/.test(f)).map((f) => zip.file(f)!.async("string")));
+    const headers = await Promise.all(
+      Object.keys(zip.files)
+        .filter((f) => /^word\/header\d+\.xml$/.test(f))
+        .map((f) => zip.file(f)!.async("string")),
+    );
     expect(headers.join("")).toContain("QMT-301");
     expect(documentXml).toMatch(/<w:pStyle w:val="Heading1"\/>/);
     expect(documentXml).toMatch(/<w:tblHeader\/>/);
@@ -203,7 +239,9 @@ describe("the Word appendix of a signed rerun", () => {
     expect(fontTable).toMatch(/<w:embedBold /);
     const fonts = Object.keys(zip.files).filter((f) => f.startsWith("word/fonts/") && f.endsWith(".odttf"));
     expect(fonts).toHaveLength(2);
-    const full = readFileSync(path.resolve("node_modules/@expo-google-fonts/noto-sans/400Regular/NotoSans_400Regular.ttf")).length;
+    const full = readFileSync(
+      path.resolve("node_modules/@expo-google-fonts/noto-sans/400Regular/NotoSans_400Regular.ttf"),
+    ).length;
     for (const f of fonts) expect((await zip.file(f)!.async("uint8array")).length).toBeLessThan(full / 3);
     const settings = await zip.file("word/settings.xml")!.async("string");
     expect(settings).toMatch(/embedTrueTypeFonts/);
@@ -211,7 +249,10 @@ describe("the Word appendix of a signed rerun", () => {
 
   it("gives the same bytes, hence the same SHA-256, when the same signed rerun is exported again", async () => {
     const first = await db.select().from(t.appendices).where(eq(t.appendices.studyId, s.studyId));
-    const again = await appendix.exportAppendix(s.people.helen, s.studyId, { kind: "rerun", rerunId: s.rerunId });
+    const again = await appendix.exportAppendix(s.people.helen, s.studyId, {
+      kind: "rerun",
+      rerunId: s.rerunId,
+    });
     expect(again.sha256).toBe(first[0].sha256);
     expect(again.storedPath).toBe(first[0].storedPath);
     const core = await zip.file("docProps/core.xml")!.async("string");
@@ -221,13 +262,21 @@ describe("the Word appendix of a signed rerun", () => {
     expect(audit).toHaveLength(2);
     expect(audit[0].afterJson).toContain(first[0].sha256);
     // the e-mail notice is queued in the export's own transaction, naming the study, never a subject
-    const mail = (await db.select().from(t.mailOutbox)).filter((m) => /Word appendix exported/.test(m.subject));
+    const mail = (await db.select().from(t.mailOutbox)).filter((m) =>
+      /Word appendix exported/.test(m.subject),
+    );
     expect(mail.length).toBeGreaterThanOrEqual(2);
     expect(mail[0].textBody).toContain(first[0].sha256);
   });
 
   it("changes when the narrative changes, and keeps every narrative version", async () => {
-    await narratives.saveNarrative(s.people.helen, s.studyId, s.planVersionId, "results", "A second reading of the results.");
+    await narratives.saveNarrative(
+      s.people.helen,
+      s.studyId,
+      s.planVersionId,
+      "results",
+      "A second reading of the results.",
+    );
     const history = await narratives.narrativeHistory(s.studyId, s.planVersionId);
     expect(history.results.map((n) => n.version)).toEqual([2, 1]);
     const changed = await appendix.renderAppendix(s.studyId, { kind: "rerun", rerunId: s.rerunId });
@@ -244,18 +293,49 @@ describe("the Word appendix of a signed rerun", () => {
     const v2 = await plans.getPlanVersion(s.studyId, next);
     const linear = v2.models[0];
     if (linear.spec.family === "cox") throw new Error("the demo's first planned model is linear");
-    const responder = { ...linear, key: "responder", title: "Responders at week 12", spec: { ...linear.spec, response: "resp", family: "binomial" as const }, checks: linear.checks.filter((c) => ["cooks_distance", "leverage"].includes(c.key)), sensitivity: [] };
-    const modelId = await plans.savePlannedModel(s.people.priya, s.studyId, next, v2.version.revision, null, responder);
+    const responder = {
+      ...linear,
+      key: "responder",
+      title: "Responders at week 12",
+      spec: { ...linear.spec, response: "resp", family: "binomial" as const },
+      checks: linear.checks.filter((c) => ["cooks_distance", "leverage"].includes(c.key)),
+      sensitivity: [],
+    };
+    const modelId = await plans.savePlannedModel(
+      s.people.priya,
+      s.studyId,
+      next,
+      v2.version.revision,
+      null,
+      responder,
+    );
     await plans.submitForApproval(s.people.priya, s.studyId, next, v2.version.revision + 1);
-    await plans.approvePlanVersion({ ...s.people.tomas, signedInAt: new Date().toISOString() }, s.studyId, next);
+    await plans.approvePlanVersion(
+      { ...s.people.tomas, signedInAt: new Date().toISOString() },
+      s.studyId,
+      next,
+    );
     const ids: string[] = [];
-    for (const plannedModelId of [linear.id, modelId]) ids.push(await reruns.startRerun(s.people.priya, s.studyId, { plannedModelId, datasetVersionId: s.datasetVersionId, options: { variant: "planned" } }));
+    for (const plannedModelId of [linear.id, modelId])
+      ids.push(
+        await reruns.startRerun(s.people.priya, s.studyId, {
+          plannedModelId,
+          datasetVersionId: s.datasetVersionId,
+          options: { variant: "planned" },
+        }),
+      );
     while (await runOneJob()) {
       // run the queued reruns
     }
     for (const id of ids) {
       expect((await reruns.getRerun(s.studyId, id)).rerun.status).toBe("completed");
-      for (const f of await findings.findingsOf(id)) await findings.assessFinding(s.people.priya, s.studyId, f.id, { category: "model_assumption", impact: "none", action: "none", rationale: "Reviewed; the treatment conclusion is unchanged." });
+      for (const f of await findings.findingsOf(id))
+        await findings.assessFinding(s.people.priya, s.studyId, f.id, {
+          category: "model_assumption",
+          impact: "none",
+          action: "none",
+          rationale: "Reviewed; the treatment conclusion is unchanged.",
+        });
       await findings.signRerun({ ...s.people.tomas, signedInAt: new Date().toISOString() }, s.studyId, id);
     }
     const both = await appendix.renderAppendix(s.studyId, { kind: "plan_version", planVersionId: next });
@@ -267,12 +347,24 @@ describe("the Word appendix of a signed rerun", () => {
     expect(captions.some((c) => /Estimated coefficients, Responders at week 12/.test(c))).toBe(true);
     expect(decode(cellText(xml))).toMatch(/generalized linear model \(binomial distribution, logit link\)/);
     const binomialFit = tables(xml).find((x) => /Fit of the model, Responders at week 12/.test(x.caption))!;
-    expect(binomialFit.rows[1]).toEqual(["Distribution and link", "Binomial (logit link), maximum likelihood"]);
-    expect(binomialFit.rows.map((row) => row.join(" ")).join(" ")).not.toMatch(/binomial, logit|Residual deviance|Null deviance/);
+    expect(binomialFit.rows[1]).toEqual([
+      "Distribution and link",
+      "Binomial (logit link), maximum likelihood",
+    ]);
+    expect(binomialFit.rows.map((row) => row.join(" ")).join(" ")).not.toMatch(
+      /binomial, logit|Residual deviance|Null deviance/,
+    );
     // the binomial model's fit figures, for the logistic model only, with their counts in the alt text
-    const figures = both.content.sections.flatMap((x) => x.blocks).flatMap((b) => (b.kind === "figure" ? [b] : []));
-    const fitFigures = figures.filter((f) => /^(Binned residuals|Calibration by group of predicted risk),/.test(f.caption));
-    expect(fitFigures.map((f) => f.caption)).toEqual(["Binned residuals, Responders at week 12", "Calibration by group of predicted risk, Responders at week 12"]);
+    const figures = both.content.sections
+      .flatMap((x) => x.blocks)
+      .flatMap((b) => (b.kind === "figure" ? [b] : []));
+    const fitFigures = figures.filter((f) =>
+      /^(Binned residuals|Calibration by group of predicted risk),/.test(f.caption),
+    );
+    expect(fitFigures.map((f) => f.caption)).toEqual([
+      "Binned residuals, Responders at week 12",
+      "Calibration by group of predicted risk, Responders at week 12",
+    ]);
     expect(fitFigures[0].alt).toMatch(/\d+ of \d+ bins lie outside their band/);
     expect(fitFigures[1].alt).toMatch(/Hosmer–Lemeshow statistic [\d.]+ on 8 degrees of freedom, p [=<] /);
     const pictures = [...xml.matchAll(/<wp:docPr ([^>]*)\/?>/g)];
@@ -280,19 +372,37 @@ describe("the Word appendix of a signed rerun", () => {
   }, 120_000);
 
   it("refuses a rerun that is not signed", async () => {
-    await expect(buildAppendixContent(s.studyId, { kind: "rerun", rerunId: s.sensitivityIds[0] })).rejects.toMatchObject({ init: { status: 409 } });
+    await expect(
+      buildAppendixContent(s.studyId, { kind: "rerun", rerunId: s.sensitivityIds[0] }),
+    ).rejects.toMatchObject({ init: { status: 409 } });
   });
 
   const soffice = spawnSync("which", ["soffice"]).status === 0;
-  it.skipIf(!soffice)("converts to PDF with LibreOffice with a sensible number of pages", () => {
-    const out = mkdtempSync(path.join(os.tmpdir(), "plumbline-appendix-pdf-"));
-    const file = path.join(out, "appendix.docx");
-    writeFileSync(file, bytes);
-    execFileSync("soffice", ["--headless", `-env:UserInstallation=file://${out}/profile`, "--convert-to", "pdf", "--outdir", out, file], { timeout: 180_000, stdio: "pipe" });
-    const pdf = readFileSync(path.join(out, "appendix.pdf"));
-    writeFileSync(path.resolve("test-results", "appendix", "appendix.pdf"), pdf);
-    const pages = (pdf.toString("latin1").match(/\/Type\s*\/Page[^s]/g) ?? []).length;
-    expect(pages).toBeGreaterThanOrEqual(5);
-    expect(pages).toBeLessThanOrEqual(40);
-  }, 200_000);
+  it.skipIf(!soffice)(
+    "converts to PDF with LibreOffice with a sensible number of pages",
+    () => {
+      const out = mkdtempSync(path.join(os.tmpdir(), "plumbline-appendix-pdf-"));
+      const file = path.join(out, "appendix.docx");
+      writeFileSync(file, bytes);
+      execFileSync(
+        "soffice",
+        [
+          "--headless",
+          `-env:UserInstallation=file://${out}/profile`,
+          "--convert-to",
+          "pdf",
+          "--outdir",
+          out,
+          file,
+        ],
+        { timeout: 180_000, stdio: "pipe" },
+      );
+      const pdf = readFileSync(path.join(out, "appendix.pdf"));
+      writeFileSync(path.resolve("test-results", "appendix", "appendix.pdf"), pdf);
+      const pages = (pdf.toString("latin1").match(/\/Type\s*\/Page[^s]/g) ?? []).length;
+      expect(pages).toBeGreaterThanOrEqual(5);
+      expect(pages).toBeLessThanOrEqual(40);
+    },
+    200_000,
+  );
 });

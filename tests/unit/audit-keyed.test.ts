@@ -23,10 +23,22 @@ let file: Client;
 type Row = Record<string, unknown>;
 const contentOf = (e: Row) =>
   audit.canonicalJson({
-    seq: e.seq, at: e.at, actorId: e.actor_id, actorName: e.actor_name, action: e.action, entityType: e.entity_type,
-    entityId: e.entity_id, studyId: e.study_id, beforeJson: e.before_json, afterJson: e.after_json, detail: e.detail,
+    seq: e.seq,
+    at: e.at,
+    actorId: e.actor_id,
+    actorName: e.actor_name,
+    action: e.action,
+    entityType: e.entity_type,
+    entityId: e.entity_id,
+    studyId: e.study_id,
+    beforeJson: e.before_json,
+    afterJson: e.after_json,
+    detail: e.detail,
   });
-const sha = (prev: string, e: Row) => createHash("sha256").update(`${prev}\n${contentOf(e)}`).digest("hex");
+const sha = (prev: string, e: Row) =>
+  createHash("sha256")
+    .update(`${prev}\n${contentOf(e)}`)
+    .digest("hex");
 
 /** Edits one event's detail and recomputes every plain hash from there on, as a forger without the key would. */
 async function rewrite(seq: number, detail: string): Promise<void> {
@@ -36,13 +48,23 @@ async function rewrite(seq: number, detail: string): Promise<void> {
   let prev = audit.GENESIS_HASH;
   for (const e of rows) {
     const hash = sha(prev, e);
-    await file.execute({ sql: "UPDATE audit_events SET prev_hash = ?, hash = ? WHERE seq = ?", args: [prev, hash, e.seq as number] });
+    await file.execute({
+      sql: "UPDATE audit_events SET prev_hash = ?, hash = ? WHERE seq = ?",
+      args: [prev, hash, e.seq as number],
+    });
     prev = hash;
   }
 }
 
 beforeAll(async () => {
-  for (let i = 0; i < 8; i++) await audit.appendAudit({ actor, action: "test.step", entityType: "thing", entityId: `t${i}`, after: { n: i } });
+  for (let i = 0; i < 8; i++)
+    await audit.appendAudit({
+      actor,
+      action: "test.step",
+      entityType: "thing",
+      entityId: `t${i}`,
+      after: { n: i },
+    });
   file = createClient({ url: `file:${dbFile}` });
 });
 afterAll(() => file.close());
@@ -54,7 +76,9 @@ describe("keyed audit chain", () => {
     expect(statSync(keyFile).mode & 0o077).toBe(0);
     const key = readFileSync(keyFile, "utf8").trim();
     expect(key).toMatch(/^[0-9a-f]{64}$/);
-    const dump = (await file.execute("SELECT * FROM audit_events")).rows.map((r) => JSON.stringify(r)).join("\n");
+    const dump = (await file.execute("SELECT * FROM audit_events")).rows
+      .map((r) => JSON.stringify(r))
+      .join("\n");
     expect(dump).not.toContain(key);
     // each keyed hash is HMAC-SHA256(key, previous mac + "\n" + seq + "\n" + hash), from zeros at the start
     const rows = (await file.execute("SELECT seq, hash, mac FROM audit_events ORDER BY seq")).rows;
@@ -63,7 +87,11 @@ describe("keyed audit chain", () => {
       expect(r.mac).toBe(createHmac("sha256", key).update(`${prev}\n${r.seq}\n${r.hash}`).digest("hex"));
       prev = String(r.mac);
     }
-    expect(await audit.verifyAuditChain()).toMatchObject({ intact: true, events: 8, head: { seq: 8, mac: prev } });
+    expect(await audit.verifyAuditChain()).toMatchObject({
+      intact: true,
+      events: 8,
+      head: { seq: 8, mac: prev },
+    });
   });
 
   it("does not verify after an edit with every plain hash recomputed, and names the edited event", async () => {

@@ -35,20 +35,39 @@ const [version] = await listLockedVersions(seeded.studyId);
 const locked = await loadLockedTable(version.versionId);
 
 const COVARIATES = ["base", "stratum", "region", "sex", "age"];
-function plannedModel(key: string, response: string, family: "binomial" | "poisson" | "gaussian", extra: Record<string, unknown> = {}) {
+function plannedModel(
+  key: string,
+  response: string,
+  family: "binomial" | "poisson" | "gaussian",
+  extra: Record<string, unknown> = {},
+) {
   return {
     id: key,
     position: 0,
     key,
     title: key,
     datasetName: "adeff",
-    spec: { population: [{ column: "fasfl", in: ["Y"] }], response, family, intercept: true, id: "subjid", treatment: "arm", terms: [{ variable: "arm", reference: "Placebo" }, ...COVARIATES.map((variable) => ({ variable }))], ...extra },
+    spec: {
+      population: [{ column: "fasfl", in: ["Y"] }],
+      response,
+      family,
+      intercept: true,
+      id: "subjid",
+      treatment: "arm",
+      terms: [{ variable: "arm", reference: "Placebo" }, ...COVARIATES.map((variable) => ({ variable }))],
+      ...extra,
+    },
     checks: defaultChecks(true, family),
     sensitivity: [],
   };
 }
 const meta = { datasetSha256: locked.sha256, planVersionId: "p" };
-const doc = computeRerun(plannedModel("responder", "resp", "binomial"), locked.table, { variant: "planned" }, meta);
+const doc = computeRerun(
+  plannedModel("responder", "resp", "binomial"),
+  locked.table,
+  { variant: "planned" },
+  meta,
+);
 const table = rerunTable(doc, locked.table);
 const binned = figureData(doc, "binned_residuals", { withSubjectIds: true, table }) as BinnedResidualsData;
 const calibration = figureData(doc, "calibration", { withSubjectIds: true, table }) as CalibrationData;
@@ -93,14 +112,26 @@ interface FromR {
 }
 
 function fromR(): FromR {
-  const out = execFileSync("Rscript", ["--vanilla", "-e", R_SCRIPT], { input: demoDatasetCsv(), encoding: "utf8" });
-  const lines = out.trim().split("\n").map((line) => line.trim().split(/\s+/));
+  const out = execFileSync("Rscript", ["--vanilla", "-e", R_SCRIPT], {
+    input: demoDatasetCsv(),
+    encoding: "utf8",
+  });
+  const lines = out
+    .trim()
+    .split("\n")
+    .map((line) => line.trim().split(/\s+/));
   const nums = (line: string[]) => line.slice(1).map(Number);
   const hl = nums(lines.find((l) => l[0] === "hl")!);
   return {
     n: nums(lines.find((l) => l[0] === "n")!)[0],
-    bins: lines.filter((l) => l[0] === "bin").map(nums).map(([n, meanFitted, meanResidual, bound]) => ({ n, meanFitted, meanResidual, bound })),
-    groups: lines.filter((l) => l[0] === "group").map(nums).map(([n, meanPredicted, observed, expected]) => ({ n, meanPredicted, observed, expected })),
+    bins: lines
+      .filter((l) => l[0] === "bin")
+      .map(nums)
+      .map(([n, meanFitted, meanResidual, bound]) => ({ n, meanFitted, meanResidual, bound })),
+    groups: lines
+      .filter((l) => l[0] === "group")
+      .map(nums)
+      .map(([n, meanPredicted, observed, expected]) => ({ n, meanPredicted, observed, expected })),
     hl: { statistic: hl[0], df: hl[1], p: hl[2] },
   };
 }
@@ -125,46 +156,56 @@ describe("fit figures of a binomial rerun", () => {
     expect(FIGURE_KEYS).toContain("calibration");
   });
 
-  it.skipIf(!hasR)("binned residuals are R's: same bins by sorted fitted value, mean fitted, mean residual and ±2 SE band", () => {
-    // Source: R stats::glm(family = binomial) fitted values, binned as Gelman and Hill (2007, section 5.6) describe
-    const R = fromR();
-    expect(doc.result.n).toBe(R.n);
-    expect(binned.rows).toHaveLength(R.bins.length);
-    expect(R.bins.length).toBe(Math.round(Math.sqrt(R.n)));
-    binned.rows.forEach((row, k) => {
-      const r = R.bins[k];
-      expect(row.bin).toBe(k + 1);
-      expect(row.n, `bin ${k + 1} size`).toBe(r.n);
-      expectSix(row.meanFitted, r.meanFitted, `bin ${k + 1} mean fitted`);
-      expectSix(row.meanResidual, r.meanResidual, `bin ${k + 1} mean residual`);
-      expectSix(row.bound, r.bound, `bin ${k + 1} bound`);
-      expect(row.lower).toBe(-row.bound);
-      expect(row.status).toBe(Math.abs(r.meanResidual) > r.bound ? OUTSIDE_BAND : INSIDE_BAND);
-    });
-    // the subtitle counts the bins outside their band as R does
-    const outside = R.bins.filter((b) => Math.abs(b.meanResidual) > b.bound).length;
-    expect(titleOf(figureSpec(binned)).subtitle.join(" ")).toContain(`${outside} of ${R.bins.length} bins lie outside their band`);
-  });
+  it.skipIf(!hasR)(
+    "binned residuals are R's: same bins by sorted fitted value, mean fitted, mean residual and ±2 SE band",
+    () => {
+      // Source: R stats::glm(family = binomial) fitted values, binned as Gelman and Hill (2007, section 5.6) describe
+      const R = fromR();
+      expect(doc.result.n).toBe(R.n);
+      expect(binned.rows).toHaveLength(R.bins.length);
+      expect(R.bins.length).toBe(Math.round(Math.sqrt(R.n)));
+      binned.rows.forEach((row, k) => {
+        const r = R.bins[k];
+        expect(row.bin).toBe(k + 1);
+        expect(row.n, `bin ${k + 1} size`).toBe(r.n);
+        expectSix(row.meanFitted, r.meanFitted, `bin ${k + 1} mean fitted`);
+        expectSix(row.meanResidual, r.meanResidual, `bin ${k + 1} mean residual`);
+        expectSix(row.bound, r.bound, `bin ${k + 1} bound`);
+        expect(row.lower).toBe(-row.bound);
+        expect(row.status).toBe(Math.abs(r.meanResidual) > r.bound ? OUTSIDE_BAND : INSIDE_BAND);
+      });
+      // the subtitle counts the bins outside their band as R does
+      const outside = R.bins.filter((b) => Math.abs(b.meanResidual) > b.bound).length;
+      expect(titleOf(figureSpec(binned)).subtitle.join(" ")).toContain(
+        `${outside} of ${R.bins.length} bins lie outside their band`,
+      );
+    },
+  );
 
-  it.skipIf(!hasR)("calibration groups and the Hosmer–Lemeshow statistic are R's, recomputed from the same tenths of predicted risk", () => {
-    // Source: R stats::glm(family = binomial) fitted values; statistic Σ (O − E)² / (E (1 − E/n)) on g − 2 df, stats::pchisq
-    const R = fromR();
-    expect(calibration.rows).toHaveLength(10);
-    calibration.rows.forEach((row, k) => {
-      const r = R.groups[k];
-      expect(row.n, `group ${k + 1} size`).toBe(r.n);
-      expect(row.observed, `group ${k + 1} events`).toBe(r.observed);
-      expectSix(row.meanPredicted, r.meanPredicted, `group ${k + 1} mean predicted`);
-      expectSix(row.expected, r.expected, `group ${k + 1} expected events`);
-      expectSix(row.observedProportion, r.observed / r.n, `group ${k + 1} observed proportion`);
-    });
-    expect(calibration.test.df).toBe(R.hl.df);
-    expect(calibration.test.statistic!).toBeCloseTo(R.hl.statistic, 6);
-    expect(calibration.test.p!).toBeCloseTo(R.hl.p, 6);
-    const subtitle = titleOf(figureSpec(calibration)).subtitle.join(" ");
-    expect(subtitle).toContain(`Hosmer–Lemeshow statistic ${R.hl.statistic.toFixed(2)} on ${R.hl.df} degrees of freedom`);
-    expect(subtitle).toContain("little power in small samples");
-  });
+  it.skipIf(!hasR)(
+    "calibration groups and the Hosmer–Lemeshow statistic are R's, recomputed from the same tenths of predicted risk",
+    () => {
+      // Source: R stats::glm(family = binomial) fitted values; statistic Σ (O − E)² / (E (1 − E/n)) on g − 2 df, stats::pchisq
+      const R = fromR();
+      expect(calibration.rows).toHaveLength(10);
+      calibration.rows.forEach((row, k) => {
+        const r = R.groups[k];
+        expect(row.n, `group ${k + 1} size`).toBe(r.n);
+        expect(row.observed, `group ${k + 1} events`).toBe(r.observed);
+        expectSix(row.meanPredicted, r.meanPredicted, `group ${k + 1} mean predicted`);
+        expectSix(row.expected, r.expected, `group ${k + 1} expected events`);
+        expectSix(row.observedProportion, r.observed / r.n, `group ${k + 1} observed proportion`);
+      });
+      expect(calibration.test.df).toBe(R.hl.df);
+      expect(calibration.test.statistic!).toBeCloseTo(R.hl.statistic, 6);
+      expect(calibration.test.p!).toBeCloseTo(R.hl.p, 6);
+      const subtitle = titleOf(figureSpec(calibration)).subtitle.join(" ");
+      expect(subtitle).toContain(
+        `Hosmer–Lemeshow statistic ${R.hl.statistic.toFixed(2)} on ${R.hl.df} degrees of freedom`,
+      );
+      expect(subtitle).toContain("little power in small samples");
+    },
+  );
 
   for (const d of [binned, calibration]) {
     it(`${d.figure}: the specification compiles (Vega-Lite compile()), says what healthy looks like and has axis titles with units in brackets`, () => {
@@ -175,7 +216,9 @@ describe("fit figures of a binomial rerun", () => {
   }
 
   it("the binned plot says what healthy looks like in the words of its method", () => {
-    expect(titleOf(figureSpec(binned)).subtitle.join(" ")).toMatch(/^Healthy: about 95% of bins inside the band, no pattern/);
+    expect(titleOf(figureSpec(binned)).subtitle.join(" ")).toMatch(
+      /^Healthy: about 95% of bins inside the band, no pattern/,
+    );
   });
 
   it("groups of subjects name no one, whoever looks", () => {
@@ -184,12 +227,26 @@ describe("fit figures of a binomial rerun", () => {
   });
 
   it("a linear or count rerun has neither figure, and the refusal says why", () => {
-    const linear = computeRerun(plannedModel("primary", "chg", "gaussian"), locked.table, { variant: "planned" }, meta);
-    const counts = computeRerun(plannedModel("flares", "flares", "poisson", { offset: "logexp" }), locked.table, { variant: "planned" }, meta);
+    const linear = computeRerun(
+      plannedModel("primary", "chg", "gaussian"),
+      locked.table,
+      { variant: "planned" },
+      meta,
+    );
+    const counts = computeRerun(
+      plannedModel("flares", "flares", "poisson", { offset: "logexp" }),
+      locked.table,
+      { variant: "planned" },
+      meta,
+    );
     for (const figure of ["binned_residuals", "calibration"] as const) {
       expect(() => figureData(linear, figure, { withSubjectIds: true })).toThrow(FigureUnavailableError);
-      expect(() => figureData(linear, figure, { withSubjectIds: true })).toThrow(/binomial models of a 0\/1 response only, and this rerun fits a linear model/);
-      expect(() => figureData(counts, figure, { withSubjectIds: true })).toThrow(/binomial models of a 0\/1 response only, and this rerun fits a Poisson model/);
+      expect(() => figureData(linear, figure, { withSubjectIds: true })).toThrow(
+        /binomial models of a 0\/1 response only, and this rerun fits a linear model/,
+      );
+      expect(() => figureData(counts, figure, { withSubjectIds: true })).toThrow(
+        /binomial models of a 0\/1 response only, and this rerun fits a Poisson model/,
+      );
     }
   });
 });

@@ -29,14 +29,28 @@ const R = JSON.parse(readFileSync(join(REF, "figures/slopes-by-arm.json"), "utf8
   dffitsBound: number;
 };
 
-function load(name: string): { result: ModelResult; checks: CheckOutcome[]; table: { columns: Record<string, string[]>; rowNumbers: number[] } } {
-  const spec = JSON.parse(readFileSync(join(REF, "models", `${name}.json`), "utf8")) as { family: string; treatment?: string };
+function load(name: string): {
+  result: ModelResult;
+  checks: CheckOutcome[];
+  table: { columns: Record<string, string[]>; rowNumbers: number[] };
+} {
+  const spec = JSON.parse(readFileSync(join(REF, "models", `${name}.json`), "utf8")) as {
+    family: string;
+    treatment?: string;
+  };
   const csv = readCsvText(readFileSync(join(REF, "data", `${name}.csv`), "utf8"));
   const columns = Object.fromEntries(Object.entries(csv.columns).map(([k, v]) => [k, [...v]]));
   const n = Object.values(columns)[0].length;
-  const table = { columns, rowNumbers: csv.rowNumbers ? [...csv.rowNumbers] : Array.from({ length: n }, (_, i) => i + 1) };
+  const table = {
+    columns,
+    rowNumbers: csv.rowNumbers ? [...csv.rowNumbers] : Array.from({ length: n }, (_, i) => i + 1),
+  };
   const result = fitModel(spec, table);
-  return { result, checks: evaluateChecks(result, defaultChecks(Boolean(spec.treatment), spec.family)), table };
+  return {
+    result,
+    checks: evaluateChecks(result, defaultChecks(Boolean(spec.treatment), spec.family)),
+    table,
+  };
 }
 
 const linear = load("trial-ancova");
@@ -79,7 +93,9 @@ describe("the checks' own figures (trial-ancova, R's lm)", () => {
     const first = d.rows.filter((r) => r.series === d.series[0]);
     expect(first.length).toBe(linear.result.n);
     first.forEach((r, i) => expect(r.value).toBeCloseTo(linear.result.observations.dfbetas[j][i], 5));
-    const flagged = new Set((linear.checks.find((c) => c.key === "dfbetas_treatment")?.flagged ?? []).map((f) => f.row));
+    const flagged = new Set(
+      (linear.checks.find((c) => c.key === "dfbetas_treatment")?.flagged ?? []).map((f) => f.row),
+    );
     const beyond = new Set(d.rows.filter((r) => r.status === BEYOND).map((r) => r.row));
     expect(beyond).toEqual(flagged);
     const t = expectWellFormedFigure(figureSpec(d));
@@ -107,7 +123,11 @@ describe("the checks' own figures (trial-ancova, R's lm)", () => {
   });
 
   it("slopes by arm: each arm's slope of the partial residuals is R's, the common slope the model's, the F test of arm × base R's", () => {
-    const d = figureData(linear, "slopes_by_arm", { term: "base", withSubjectIds: false, table: linear.table });
+    const d = figureData(linear, "slopes_by_arm", {
+      term: "base",
+      withSubjectIds: false,
+      table: linear.table,
+    });
     if (d.figure !== "slopes_by_arm") throw new Error("unexpected");
     expect(d.arms).toEqual(R.arms);
     for (const s of d.slopes) expect(s.slope).toBeCloseTo(R.slopes[s.arm], 5);
@@ -126,9 +146,17 @@ describe("residual figures of a binary GLM (glm-trial-responder)", () => {
     expect(fitted.join(" ")).not.toMatch(/− fitted/);
     const qq = figureSpec(figureData(binary, "qq", { withSubjectIds: false }));
     expect(axisTitles(qq)).toContain("Randomized quantile residual (z)");
-    const partial = axisTitles(figureSpec(figureData(binary, "partial_residuals", { term: "base", withSubjectIds: false, table: binary.table })));
+    const partial = axisTitles(
+      figureSpec(
+        figureData(binary, "partial_residuals", { term: "base", withSubjectIds: false, table: binary.table }),
+      ),
+    );
     expect(partial).toContain("Component + working residual (log odds)");
-    const title = JSON.stringify(figureSpec(figureData(binary, "partial_residuals", { term: "base", withSubjectIds: false, table: binary.table })));
+    const title = JSON.stringify(
+      figureSpec(
+        figureData(binary, "partial_residuals", { term: "base", withSubjectIds: false, table: binary.table }),
+      ),
+    );
     expect(title).toMatch(/on the link scale\?/);
     expect(title).toMatch(/log odds \(logit link\)/);
   });
@@ -136,8 +164,22 @@ describe("residual figures of a binary GLM (glm-trial-responder)", () => {
 
 describe("sensitivity forest of a ratio", () => {
   const rows = [
-    { label: "Primary analysis as planned", estimate: 0.62, lower: 0.45, upper: 0.85, prespecified: true, primary: true },
-    { label: "Excluding the subjects beyond the planned Cook's distance threshold", estimate: 0.58, lower: 0.41, upper: 0.82, prespecified: true, primary: false },
+    {
+      label: "Primary analysis as planned",
+      estimate: 0.62,
+      lower: 0.45,
+      upper: 0.85,
+      prespecified: true,
+      primary: true,
+    },
+    {
+      label: "Excluding the subjects beyond the planned Cook's distance threshold",
+      estimate: 0.58,
+      lower: 0.41,
+      upper: 0.82,
+      prespecified: true,
+      primary: false,
+    },
   ];
   it("draws a rate ratio on a log axis with the reference at 1, in the words of a ratio", () => {
     const spec = forestSpec(rows, "arm: Active (rate ratio)");
@@ -150,7 +192,9 @@ describe("sensitivity forest of a ratio", () => {
   });
   it("wraps long analysis labels instead of cutting them", () => {
     const spec = forestSpec(rows, "arm: Active (rate ratio)", { width: 360, forPrint: true });
-    const labels = (spec as unknown as { datasets: { rows: { axisLabel: string }[] } }).datasets.rows.map((r) => r.axisLabel);
+    const labels = (spec as unknown as { datasets: { rows: { axisLabel: string }[] } }).datasets.rows.map(
+      (r) => r.axisLabel,
+    );
     expect(labels[1].split("\n").length).toBeGreaterThan(1);
     expect(labels[1].replace(/\n/g, " ")).toBe(rows[1].label);
   });

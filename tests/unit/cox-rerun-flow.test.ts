@@ -9,7 +9,13 @@
  * the sensitivity analyses with R's answers written by tests/reference/survival/generate-sensitivity.R.
  */
 import { beforeAll, describe, expect, it } from "vitest";
-import { COX_CHECK_KEYS, coxCsv, coxForm, coxReference, coxSensitivityReference } from "../support/cox-dataset";
+import {
+  COX_CHECK_KEYS,
+  coxCsv,
+  coxForm,
+  coxReference,
+  coxSensitivityReference,
+} from "../support/cox-dataset";
 import { useTempDatabase } from "../support/temp-db";
 import { expectClose } from "../reference/compare";
 import { expectWellFormedFigure } from "../support/figure-checks";
@@ -72,14 +78,28 @@ beforeAll(async () => {
   priya = { id: p.id, name: p.displayName };
   tomas = { id: q.id, name: q.displayName };
   const dana = actorOf(await person("dana.okafor@plumbline.example"));
-  const up = await datasets.uploadBytes(dana, { studyId, datasetName: "adtte", fileName: "adtte.csv", bytes: coxCsv() });
+  const up = await datasets.uploadBytes(dana, {
+    studyId,
+    datasetName: "adtte",
+    fileName: "adtte.csv",
+    bytes: coxCsv(),
+  });
   if (!up.ok) throw new Error(up.problems.join(" "));
   const detail = await datasets.getVersionDetail(studyId, up.versionId);
   for (const hit of detail?.hits ?? []) {
-    const done = await datasets.recordNotIdentifier(dana, studyId, hit.id, "Invented subject and site codes of generated test data.");
+    const done = await datasets.recordNotIdentifier(
+      dana,
+      studyId,
+      hit.id,
+      "Invented subject and site codes of generated test data.",
+    );
     if (!done.ok) throw new Error(done.message);
   }
-  const locked = await datasets.lockVersion({ ...dana, signedInAt: new Date().toISOString() }, studyId, up.versionId);
+  const locked = await datasets.lockVersion(
+    { ...dana, signedInAt: new Date().toISOString() },
+    studyId,
+    up.versionId,
+  );
   if (!locked.ok) throw new Error(locked.message);
   tteVersionId = up.versionId;
 });
@@ -97,7 +117,9 @@ describe("planning a time-to-event model", () => {
     const result = validatePlannedModel(readPlannedModelForm(bad), await lockedColumns(), []);
     expect(result.ok).toBe(false);
     if (result.ok) return;
-    expect(result.errors.response).toMatch(/TRTP is text, not numeric: a time-to-event model needs the follow-up time/);
+    expect(result.errors.response).toMatch(
+      /TRTP is text, not numeric: a time-to-event model needs the follow-up time/,
+    );
     expect(result.errors.eventValue).toMatch(/CNSR has no value "7"; its values are 0, 1/);
     expect(result.errors.ties).toMatch(/Efron or Breslow/);
     expect(result.errors.stratum).toMatch(/AGE is already in the model/);
@@ -113,7 +135,8 @@ describe("planning a time-to-event model", () => {
     none.set("statusColumn", "");
     const r2 = validatePlannedModel(readPlannedModelForm(none), await lockedColumns(), []);
     expect(r2.ok).toBe(false);
-    if (!r2.ok) expect(r2.errors.statusColumn).toMatch(/Choose the column that says whether the event happened/);
+    if (!r2.ok)
+      expect(r2.errors.statusColumn).toMatch(/Choose the column that says whether the event happened/);
   });
 
   it("stores the engine's Cox specification with the Cox checks only", async () => {
@@ -123,7 +146,12 @@ describe("planning a time-to-event model", () => {
       family: "cox",
       response: "AVAL",
       status: { column: "CNSR", event: [0] },
-      terms: [{ variable: "TRTP", categorical: true, reference: "Placebo" }, { variable: "AGE" }, { variable: "BASE" }, { variable: "STRAT2", categorical: true }],
+      terms: [
+        { variable: "TRTP", categorical: true, reference: "Placebo" },
+        { variable: "AGE" },
+        { variable: "BASE" },
+        { variable: "STRAT2", categorical: true },
+      ],
       treatment: "TRTP",
       strata: ["STRAT1"],
       ties: "breslow",
@@ -139,13 +167,26 @@ describe("rerunning a stratified Cox model", () => {
   let doc: NonNullable<Awaited<ReturnType<typeof reruns.getRerun>>["doc"]>;
 
   beforeAll(async () => {
-    const created = await plans.createPlan(priya, studyId, { title: "Time-to-event models", sapName: "SAP", sapVersion: "1.0", sapDate: "2026-10-01" });
+    const created = await plans.createPlan(priya, studyId, {
+      title: "Time-to-event models",
+      sapName: "SAP",
+      sapVersion: "1.0",
+      sapDate: "2026-10-01",
+    });
     const v = validatePlannedModel(readPlannedModelForm(coxForm()), await lockedColumns(), []);
     if (!v.ok) throw new Error(JSON.stringify(v.errors));
     const modelId = await plans.savePlannedModel(priya, studyId, created.versionId, 1, null, v.model);
     await plans.submitForApproval(priya, studyId, created.versionId, 2);
-    await plans.approvePlanVersion({ ...tomas, signedInAt: new Date().toISOString() }, studyId, created.versionId);
-    rerunId = await reruns.startRerun(priya, studyId, { plannedModelId: modelId, datasetVersionId: tteVersionId, options: { variant: "planned" } });
+    await plans.approvePlanVersion(
+      { ...tomas, signedInAt: new Date().toISOString() },
+      studyId,
+      created.versionId,
+    );
+    rerunId = await reruns.startRerun(priya, studyId, {
+      plannedModelId: modelId,
+      datasetVersionId: tteVersionId,
+      options: { variant: "planned" },
+    });
     await drain();
     const got = await reruns.getRerun(studyId, rerunId);
     expect(got.rerun.status, got.rerun.failureReason ?? "").toBe("completed");
@@ -155,8 +196,16 @@ describe("rerunning a stratified Cox model", () => {
   it("estimates the log hazard ratios and hazard ratios of R's coxph", () => {
     const r = doc.result;
     if (r.kind !== "cox") throw new Error("not a Cox result");
-    expect(r.coefficients.map((c) => c.name)).toEqual(["TRTP: Active", "AGE", "BASE", "STRAT2: R2", "STRAT2: R3"]);
-    r.coefficients.forEach((c, j) => expectClose(c.estimate, R.coefficients[j].estimate, TOL, `${c.name} (R ${R.coefficients[j].rName})`));
+    expect(r.coefficients.map((c) => c.name)).toEqual([
+      "TRTP: Active",
+      "AGE",
+      "BASE",
+      "STRAT2: R2",
+      "STRAT2: R3",
+    ]);
+    r.coefficients.forEach((c, j) =>
+      expectClose(c.estimate, R.coefficients[j].estimate, TOL, `${c.name} (R ${R.coefficients[j].rName})`),
+    );
     r.ratios.forEach((h, j) => expectClose(h.ratio, R.coefficients[j].ratio, TOL, `${h.name} hazard ratio`));
   });
 
@@ -168,7 +217,12 @@ describe("rerunning a stratified Cox model", () => {
     const influence = doc.checks.find((c) => c.key === "dfbetas_treatment_cox")!;
     expect(influence.threshold).toMatch(/^2\/√n = /);
     const stored = await db.select().from(t.findings).where(eq(t.findings.rerunId, rerunId));
-    expect(stored.map((f) => f.checkKey).sort()).toEqual(doc.checks.filter((c) => c.outcome === "finding").map((c) => c.key).sort());
+    expect(stored.map((f) => f.checkKey).sort()).toEqual(
+      doc.checks
+        .filter((c) => c.outcome === "finding")
+        .map((c) => c.key)
+        .sort(),
+    );
     const ff = doc.checks.find((c) => c.key === "functional_form_cox")!;
     expect(ff.statistic).toMatch(/likelihood-ratio statistic \d+\.\d{2} \(χ² with 1 degree of freedom\)/);
     expect(influence.statistic).toMatch(/^largest absolute DFBETAS on the treatment effect \d/);
@@ -177,7 +231,11 @@ describe("rerunning a stratified Cox model", () => {
 
   it("stores the same bytes when rerun with the same inputs", async () => {
     const got = await reruns.getRerun(studyId, rerunId);
-    const again = await reruns.startRerun(priya, studyId, { plannedModelId: got.rerun.plannedModelId, datasetVersionId: tteVersionId, options: { variant: "planned" } });
+    const again = await reruns.startRerun(priya, studyId, {
+      plannedModelId: got.rerun.plannedModelId,
+      datasetVersionId: tteVersionId,
+      options: { variant: "planned" },
+    });
     await drain();
     const twin = await reruns.getRerun(studyId, again);
     expect(twin.rerun.resultSha256).toBe(got.rerun.resultSha256);
@@ -211,7 +269,9 @@ describe("rerunning a stratified Cox model", () => {
         expectClose(s.upper, theirs.upper[k], TOL, `${arm} upper(${s.time})`);
       });
     }
-    expect(d.atRisk.filter((a) => a.time === 0).map((a) => a.atRisk)).toEqual(d.arms.map((arm) => R.survival.find((s) => s.level === arm && s.stratum === null)!.atRisk[0]));
+    expect(d.atRisk.filter((a) => a.time === 0).map((a) => a.atRisk)).toEqual(
+      d.arms.map((arm) => R.survival.find((s) => s.level === arm && s.stratum === null)!.atRisk[0]),
+    );
     expect(d.logRank?.stratified).toBe(true);
   });
 
@@ -243,9 +303,18 @@ describe("rerunning a stratified Cox model", () => {
     if (doc.result.kind !== "cox") throw new Error("not a Cox result");
     const table = rerunTable(doc, (await loadLockedTable(tteVersionId)).table);
     const list = coxFigureList(doc.result);
-    expect(list.map((f) => f.figure)).toEqual(["kaplan_meier", "log_minus_log", ...doc.result.coefficients.map(() => "schoenfeld"), "martingale_covariate", "martingale_covariate", "cox_influence"]);
+    expect(list.map((f) => f.figure)).toEqual([
+      "kaplan_meier",
+      "log_minus_log",
+      ...doc.result.coefficients.map(() => "schoenfeld"),
+      "martingale_covariate",
+      "martingale_covariate",
+      "cox_influence",
+    ]);
     for (const f of list) {
-      const spec = figureSpec(figureData(doc, f.figure, { term: f.term, withSubjectIds: false, table }), { forPrint: true });
+      const spec = figureSpec(figureData(doc, f.figure, { term: f.term, withSubjectIds: false, table }), {
+        forPrint: true,
+      });
       const t = expectWellFormedFigure(spec);
       expect(t.text).toMatch(/\?/);
       expect(() => toVega(spec)).not.toThrow();
@@ -254,7 +323,12 @@ describe("rerunning a stratified Cox model", () => {
 
   it("after assessment and a second biostatistician's signature, the appendix carries the Cox tables, checks and figures without subject ids", async () => {
     for (const f of await findings.findingsOf(rerunId)) {
-      await findings.assessFinding(priya, studyId, f.id, { category: "model_assumption", impact: "none", action: "none", rationale: "Judged on the figure; the treatment conclusion is unchanged." });
+      await findings.assessFinding(priya, studyId, f.id, {
+        category: "model_assumption",
+        impact: "none",
+        action: "none",
+        rationale: "Judged on the figure; the treatment conclusion is unchanged.",
+      });
     }
     await findings.signRerun({ ...tomas, signedInAt: new Date().toISOString() }, studyId, rerunId);
     const content = await buildAppendixContent(studyId, { kind: "rerun", rerunId });
@@ -271,9 +345,22 @@ describe("rerunning a stratified Cox model", () => {
     const checks = table(`checks:${rerunId}`);
     if (checks?.kind !== "table") throw new Error("no checks table");
     expect(checks.rows.map((r) => r[0])).toEqual(doc.checks.map((c) => c.label));
-    const figures = blocks.filter((b) => b.kind === "figure").map((b) => (b.kind === "figure" ? b.key.split(":")[0] : ""));
-    expect(figures).toEqual(expect.arrayContaining(["kaplan_meier", "log_minus_log", "schoenfeld", "martingale_covariate", "cox_influence"]));
-    const methods = content.sections.find((x) => x.key === "methods")!.blocks.map((b) => (b.kind === "paragraph" ? b.text : "")).join(" ");
+    const figures = blocks
+      .filter((b) => b.kind === "figure")
+      .map((b) => (b.kind === "figure" ? b.key.split(":")[0] : ""));
+    expect(figures).toEqual(
+      expect.arrayContaining([
+        "kaplan_meier",
+        "log_minus_log",
+        "schoenfeld",
+        "martingale_covariate",
+        "cox_influence",
+      ]),
+    );
+    const methods = content.sections
+      .find((x) => x.key === "methods")!
+      .blocks.map((b) => (b.kind === "paragraph" ? b.text : ""))
+      .join(" ");
     expect(methods).toMatch(/Cox proportional hazards model .*Breslow's method .*stratified by STRAT1/);
     expect(JSON.stringify(content)).not.toMatch(/INV-\d{4}/);
   });
@@ -303,20 +390,48 @@ describe("the Cox model's planned sensitivity analyses", () => {
   };
 
   beforeAll(async () => {
-    const created = await plans.createPlan(priya, studyId, { title: "Time-to-event sensitivity", sapName: "SAP", sapVersion: "1.1", sapDate: "2026-10-02" });
+    const created = await plans.createPlan(priya, studyId, {
+      title: "Time-to-event sensitivity",
+      sapName: "SAP",
+      sapVersion: "1.1",
+      sapDate: "2026-10-02",
+    });
     const v = validatePlannedModel(readPlannedModelForm(sensitivityForm()), await lockedColumns(), []);
     if (!v.ok) throw new Error(JSON.stringify(v.errors));
-    expect(v.model.sensitivity.map((s) => s.kind)).toEqual(["cox_robust_subject", "cox_unstratified", "cox_rmst"]);
+    expect(v.model.sensitivity.map((s) => s.kind)).toEqual([
+      "cox_robust_subject",
+      "cox_unstratified",
+      "cox_rmst",
+    ]);
     expect(v.model.sensitivity[2].tau).toBe(S.rmst.tau);
     modelId = await plans.savePlannedModel(priya, studyId, created.versionId, 1, null, v.model);
     await plans.submitForApproval(priya, studyId, created.versionId, 2);
-    await plans.approvePlanVersion({ ...tomas, signedInAt: new Date().toISOString() }, studyId, created.versionId);
-    primaryId = await reruns.startRerun(priya, studyId, { plannedModelId: modelId, datasetVersionId: tteVersionId, options: { variant: "planned" } });
+    await plans.approvePlanVersion(
+      { ...tomas, signedInAt: new Date().toISOString() },
+      studyId,
+      created.versionId,
+    );
+    primaryId = await reruns.startRerun(priya, studyId, {
+      plannedModelId: modelId,
+      datasetVersionId: tteVersionId,
+      options: { variant: "planned" },
+    });
     await drain();
   });
 
-  async function runVariant(options: { variant: "cox_robust_subject" } | { variant: "cox_unstratified" } | { variant: "cox_rmst"; tau: number }) {
-    const id = await reruns.startRerun(priya, studyId, { plannedModelId: modelId, datasetVersionId: tteVersionId, options, parentRerunId: primaryId, prespecified: true });
+  async function runVariant(
+    options:
+      | { variant: "cox_robust_subject" }
+      | { variant: "cox_unstratified" }
+      | { variant: "cox_rmst"; tau: number },
+  ) {
+    const id = await reruns.startRerun(priya, studyId, {
+      plannedModelId: modelId,
+      datasetVersionId: tteVersionId,
+      options,
+      parentRerunId: primaryId,
+      prespecified: true,
+    });
     await drain();
     const got = await reruns.getRerun(studyId, id);
     expect(got.rerun.status, got.rerun.failureReason ?? "").toBe("completed");
@@ -347,7 +462,10 @@ describe("the Cox model's planned sensitivity analyses", () => {
     farHorizon.set("sensitivity:tau", "5000");
     const r4 = validatePlannedModel(readPlannedModelForm(farHorizon), await lockedColumns(), []);
     expect(r4.ok).toBe(false);
-    if (!r4.ok) expect(r4.errors["sensitivity:tau"]).toMatch(/τ = 5000 is beyond the longest follow-up time in adtte \(392\)/);
+    if (!r4.ok)
+      expect(r4.errors["sensitivity:tau"]).toMatch(
+        /τ = 5000 is beyond the longest follow-up time in adtte \(392\)/,
+      );
     const noHorizon = sensitivityForm();
     noHorizon.set("sensitivity:tau", "");
     const r5 = validatePlannedModel(readPlannedModelForm(noHorizon), await lockedColumns(), []);
@@ -360,7 +478,9 @@ describe("the Cox model's planned sensitivity analyses", () => {
     const b = validatePlannedModel(readPlannedModelForm(shorter), await lockedColumns(), []);
     if (!a.ok || !b.ok) throw new Error("valid forms refused");
     const header = { title: "T", sapName: null, sapVersion: null, sapDate: null };
-    expect(comparePlanVersions({ header, models: [a.model] }, { header, models: [b.model] }).map((c) => c.what)).toEqual([`Restricted mean survival time difference between arms: horizon τ ${S.rmst.tau} → 120`]);
+    expect(
+      comparePlanVersions({ header, models: [a.model] }, { header, models: [b.model] }).map((c) => c.what),
+    ).toEqual([`Restricted mean survival time difference between arms: horizon τ ${S.rmst.tau} → 120`]);
   });
 
   it("robust errors clustered by subject: the treatment's robust SE of R's coxph(..., cluster = USUBJID), same estimate", async () => {
@@ -389,16 +509,44 @@ describe("the Cox model's planned sensitivity analyses", () => {
     expectClose(trt.se, S.unstratified.se, TOL, "SE without strata");
     expectClose(result.ratios[0].ratio, S.unstratified.ratio, TOL, "hazard ratio without strata");
     const children = (await reruns.sensitivityReruns(primaryId)).slice(0, 2);
-    expect(children.map((c) => c.label)).toEqual(["Robust (sandwich) standard errors, clustered by subject", "Unstratified (one baseline hazard for all subjects)"]);
+    expect(children.map((c) => c.label)).toEqual([
+      "Robust (sandwich) standard errors, clustered by subject",
+      "Unstratified (one baseline hazard for all subjects)",
+    ]);
     const contrasts = children.map((c) => {
       const d = reruns.rerunDocumentOf(c);
       if (!d) throw new Error(`${c.label} has no result`);
       return reportedContrasts(d);
     });
-    expect(contrasts.map((c) => c[0].label)).toEqual(["TRTP: Active (hazard ratio)", "TRTP: Active (hazard ratio)"]);
-    expectClose(contrasts[0][0].upper, S.robustSubject.ratioUpper, TOL, "compared interval of the robust analysis");
-    expectClose(contrasts[1][0].estimate, S.unstratified.ratio, TOL, "compared hazard ratio of the unstratified analysis");
-    const spec = JSON.stringify(forestSpec(contrasts.map((c, i) => ({ label: children[i].label ?? "", estimate: c[0].estimate, lower: c[0].lower, upper: c[0].upper, prespecified: true, primary: false })), contrasts[0][0].label));
+    expect(contrasts.map((c) => c[0].label)).toEqual([
+      "TRTP: Active (hazard ratio)",
+      "TRTP: Active (hazard ratio)",
+    ]);
+    expectClose(
+      contrasts[0][0].upper,
+      S.robustSubject.ratioUpper,
+      TOL,
+      "compared interval of the robust analysis",
+    );
+    expectClose(
+      contrasts[1][0].estimate,
+      S.unstratified.ratio,
+      TOL,
+      "compared hazard ratio of the unstratified analysis",
+    );
+    const spec = JSON.stringify(
+      forestSpec(
+        contrasts.map((c, i) => ({
+          label: children[i].label ?? "",
+          estimate: c[0].estimate,
+          lower: c[0].lower,
+          upper: c[0].upper,
+          prespecified: true,
+          primary: false,
+        })),
+        contrasts[0][0].label,
+      ),
+    );
     expect(spec).toMatch(/"type":"log"/);
     expect(spec).toMatch(/same side of 1/);
   });

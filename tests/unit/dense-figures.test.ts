@@ -34,22 +34,55 @@ function largeDoc(): RerunDocument {
       n++;
     }
   }
-  const partial = { population: { column: "fasfl", value: "Y" }, options: { variant: "planned" } } as unknown as RerunDocument;
+  const partial = {
+    population: { column: "fasfl", value: "Y" },
+    options: { variant: "planned" },
+  } as unknown as RerunDocument;
   const table = rerunTable(partial, { columns, rowNumbers: columns.subjid.map((_, i) => i + 1) });
   const result = fitLinear(
-    { response: "chg", terms: [{ variable: "arm", reference: "Placebo" }, { variable: "base" }, { variable: "stratum" }, { variable: "region" }, { variable: "sex" }, { variable: "age" }], id: "subjid", treatment: "arm" },
+    {
+      response: "chg",
+      terms: [
+        { variable: "arm", reference: "Placebo" },
+        { variable: "base" },
+        { variable: "stratum" },
+        { variable: "region" },
+        { variable: "sex" },
+        { variable: "age" },
+      ],
+      id: "subjid",
+      treatment: "arm",
+    },
     table,
   );
-  return { ...partial, result, checks: evaluateChecks(result, defaultChecks(true)), table } as unknown as RerunDocument & { table: typeof table };
+  return {
+    ...partial,
+    result,
+    checks: evaluateChecks(result, defaultChecks(true)),
+    table,
+  } as unknown as RerunDocument & { table: typeof table };
 }
 
-const doc = largeDoc() as RerunDocument & { table: { columns: Record<string, string[]>; rowNumbers: number[] } };
+const doc = largeDoc() as RerunDocument & {
+  table: { columns: Record<string, string[]>; rowNumbers: number[] };
+};
 const table = doc.table;
-const r = doc.result.kind === "linear" ? doc.result : (() => { throw new Error("the dense test document is a linear rerun"); })();
+const r =
+  doc.result.kind === "linear"
+    ? doc.result
+    : (() => {
+        throw new Error("the dense test document is a linear rerun");
+      })();
 const opts = { withSubjectIds: true, table };
 
 /** Data rows flagged by any influence check: what the scatter figures mark as beyond a threshold. */
-const influential = new Set(doc.checks.filter((c) => ["cooks_distance", "leverage", "deletion_residual", "dfbetas_treatment", "dffits"].includes(c.key)).flatMap((c) => (c.flagged ?? []).map((f) => f.row)));
+const influential = new Set(
+  doc.checks
+    .filter((c) =>
+      ["cooks_distance", "leverage", "deletion_residual", "dfbetas_treatment", "dffits"].includes(c.key),
+    )
+    .flatMap((c) => (c.flagged ?? []).map((f) => f.row)),
+);
 const cooksByRow = new Map(r.observations.row.map((row, i) => [row, r.observations.cooksDistance[i]]));
 
 describe("figures of many subjects", () => {
@@ -68,7 +101,9 @@ describe("figures of many subjects", () => {
     // nobody left in the cells beyond a threshold has a larger Cook's distance than a subject drawn
     const drawn = new Set(d.rows.map((p) => p.row));
     const smallestDrawn = Math.min(...d.rows.map((p) => cooksByRow.get(p.row!)!));
-    const largestLeft = Math.max(...[...influential].filter((row) => !drawn.has(row)).map((row) => cooksByRow.get(row)!));
+    const largestLeft = Math.max(
+      ...[...influential].filter((row) => !drawn.has(row)).map((row) => cooksByRow.get(row)!),
+    );
     expect(smallestDrawn).toBeGreaterThanOrEqual(largestLeft);
     // the smoother is of every subject, not only the drawn ones
     expect(d.smooth.length).toBeGreaterThan(50);
@@ -86,7 +121,9 @@ describe("figures of many subjects", () => {
     }
     const leverage = r.observations.leverage;
     expect(x0).toBeLessThanOrEqual(Math.min(...leverage));
-    expect(x1).toBeGreaterThanOrEqual(Math.max(...leverage.filter((_, i) => !d.rows.some((p) => p.row === r.observations.row[i]))) - 1e-12);
+    expect(x1).toBeGreaterThanOrEqual(
+      Math.max(...leverage.filter((_, i) => !d.rows.some((p) => p.row === r.observations.row[i]))) - 1e-12,
+    );
   });
 
   it("influence: the block maxima and the drawn subjects keep the largest Cook's distance, and the labelled subjects are drawn", () => {
@@ -109,7 +146,8 @@ describe("figures of many subjects", () => {
     expect(d.rows[0].sample).toBeCloseTo(sorted[0], 4);
     expect(d.rows[99].sample).toBeCloseTo(sorted[99], 4);
     expect(d.rows[d.rows.length - 1].sample).toBeCloseTo(sorted[sorted.length - 1], 4);
-    for (let k = 1; k < d.rows.length; k++) expect(d.rows[k].theoretical).toBeGreaterThan(d.rows[k - 1].theoretical);
+    for (let k = 1; k < d.rows.length; k++)
+      expect(d.rows[k].theoretical).toBeGreaterThan(d.rows[k - 1].theoretical);
     const fitted = figureData(doc, "residuals_fitted", opts) as ResidualsFittedData;
     const qqRows = new Set(d.rows.map((p) => p.row));
     for (const p of fitted.rows) expect(qqRows.has(p.row)).toBe(true);
@@ -132,7 +170,16 @@ describe("figures of many subjects", () => {
   });
 
   it("every dense specification compiles, says what is drawn, and sends a small answer", () => {
-    for (const [figure, term] of [["residuals_fitted"], ["residuals_covariate", "base"], ["residuals_covariate", "region"], ["partial_residuals", "age"], ["qq"], ["influence"], ["leverage_residual"], ["spread_by_arm"]] as const) {
+    for (const [figure, term] of [
+      ["residuals_fitted"],
+      ["residuals_covariate", "base"],
+      ["residuals_covariate", "region"],
+      ["partial_residuals", "age"],
+      ["qq"],
+      ["influence"],
+      ["leverage_residual"],
+      ["spread_by_arm"],
+    ] as const) {
       const d = figureData(doc, figure, { ...opts, term });
       const spec = figureSpec(d);
       expect(compile(spec).spec.marks?.length ?? 0).toBeGreaterThan(0);
@@ -149,14 +196,25 @@ describe("the summaries", () => {
     const ages = Array.from({ length: 68 }, (_, k) => 18 + k);
     const bins = axisBins(ages, 48);
     expect(bins).toEqual({ origin: 17.5, width: 2, count: 34 });
-    const cells = densityCells(ages, ages.map(() => 0), ages.keys(), { x: bins, y: axisBins([0], 1) });
+    const cells = densityCells(
+      ages,
+      ages.map(() => 0),
+      ages.keys(),
+      { x: bins, y: axisBins([0], 1) },
+    );
     expect(cells.every((c) => c.count === 2)).toBe(true);
   });
 
   it("counts each point once, in the cell that holds it", () => {
     const x = [0, 0.5, 1, 1, 2.99, 3];
     const y = [0, 0, 0, 1, 1, 1];
-    const cells = densityCells(x, y, x.keys(), { x: axisBins(x.map((v) => v + 0.001), 3), y: axisBins(y, 1) });
+    const cells = densityCells(x, y, x.keys(), {
+      x: axisBins(
+        x.map((v) => v + 0.001),
+        3,
+      ),
+      y: axisBins(y, 1),
+    });
     expect(cells.reduce((s, c) => s + c.count, 0)).toBe(6);
   });
 
@@ -171,15 +229,17 @@ describe("the summaries", () => {
   });
 
   const hasR = spawnSync("Rscript", ["--version"], { stdio: "ignore" }).status === 0;
-  it.skipIf(!hasR)("box summaries are R's quartiles (quantile, type 7) with whiskers to the last values within 1.5 × IQR", () => {
-    const d = figureData(doc, "spread_by_arm", opts) as SpreadByArmData;
-    const position = new Map(table.rowNumbers.map((row, k) => [row, k]));
-    const arms = table.columns.arm;
-    const armOf = (row: number) => arms[position.get(row)!];
-    const residuals = r.observations.residual;
-    const levels = d.levels;
-    const ours = boxSummaries(levels, r.observations.row.map(armOf), residuals);
-    const script = `
+  it.skipIf(!hasR)(
+    "box summaries are R's quartiles (quantile, type 7) with whiskers to the last values within 1.5 × IQR",
+    () => {
+      const d = figureData(doc, "spread_by_arm", opts) as SpreadByArmData;
+      const position = new Map(table.rowNumbers.map((row, k) => [row, k]));
+      const arms = table.columns.arm;
+      const armOf = (row: number) => arms[position.get(row)!];
+      const residuals = r.observations.residual;
+      const levels = d.levels;
+      const ours = boxSummaries(levels, r.observations.row.map(armOf), residuals);
+      const script = `
       d <- read.csv(file("stdin"))
       for (l in strsplit(Sys.getenv("LEVELS"), "|", fixed = TRUE)[[1]]) {
         x <- d$residual[d$arm == l]
@@ -187,21 +247,30 @@ describe("the summaries", () => {
         iqr <- q[3] - q[1]
         cat(sprintf("%.10g %.10g %.10g %.10g %.10g %d\\n", q[1], q[2], q[3], min(x[x >= q[1] - 1.5 * iqr]), max(x[x <= q[3] + 1.5 * iqr]), length(x)))
       }`;
-    const csv = `arm,residual\n${r.observations.row.map((row, i) => `"${armOf(row)}",${residuals[i].toPrecision(17)}`).join("\n")}\n`;
-    const out = execFileSync("Rscript", ["-e", script], { input: csv, encoding: "utf8", env: { ...process.env, LEVELS: levels.join("|") } });
-    const fromR = out.trim().split("\n").map((line) => line.split(" ").map(Number));
-    expect(fromR).toHaveLength(levels.length);
-    ours.forEach((b, k) => {
-      const [q1, median, q3, lower, upper, n] = fromR[k];
-      expect(b.n).toBe(n);
-      // six significant digits are kept for drawing
-      for (const [got, want] of [
-        [b.q1, q1],
-        [b.median, median],
-        [b.q3, q3],
-        [b.lower, lower],
-        [b.upper, upper],
-      ]) expect(Math.abs(got - want)).toBeLessThanOrEqual(5e-6 * Math.max(1, Math.abs(want)));
-    });
-  });
+      const csv = `arm,residual\n${r.observations.row.map((row, i) => `"${armOf(row)}",${residuals[i].toPrecision(17)}`).join("\n")}\n`;
+      const out = execFileSync("Rscript", ["-e", script], {
+        input: csv,
+        encoding: "utf8",
+        env: { ...process.env, LEVELS: levels.join("|") },
+      });
+      const fromR = out
+        .trim()
+        .split("\n")
+        .map((line) => line.split(" ").map(Number));
+      expect(fromR).toHaveLength(levels.length);
+      ours.forEach((b, k) => {
+        const [q1, median, q3, lower, upper, n] = fromR[k];
+        expect(b.n).toBe(n);
+        // six significant digits are kept for drawing
+        for (const [got, want] of [
+          [b.q1, q1],
+          [b.median, median],
+          [b.q3, q3],
+          [b.lower, lower],
+          [b.upper, upper],
+        ])
+          expect(Math.abs(got - want)).toBeLessThanOrEqual(5e-6 * Math.max(1, Math.abs(want)));
+      });
+    },
+  );
 });

@@ -18,12 +18,18 @@ const { CHECKS, defaultChecks } = await import("~/engine/checks");
 const { checkApplies, sensitivityApplies, SENSITIVITY_KINDS } = await import("~/engine/family-applicability");
 const { readCsvText } = await import("~/engine-io/read-csv");
 
-let catalogue: { name: string; columns: Awaited<ReturnType<typeof listLockedVersions>>[number]["columns"] }[] = [];
+let catalogue: {
+  name: string;
+  columns: Awaited<ReturnType<typeof listLockedVersions>>[number]["columns"];
+}[] = [];
 
 beforeAll(async () => {
   const seeded = await seedDemoStudy();
   if (!seeded.seeded) throw new Error("seed failed");
-  catalogue = (await listLockedVersions(seeded.studyId)).map((v) => ({ name: v.datasetName, columns: v.columns }));
+  catalogue = (await listLockedVersions(seeded.studyId)).map((v) => ({
+    name: v.datasetName,
+    columns: v.columns,
+  }));
 });
 
 const def = (key: string) => CHECKS.find((c) => c.key === key)!;
@@ -31,7 +37,17 @@ const def = (key: string) => CHECKS.find((c) => c.key === key)!;
 /** A responder model of the demo dataset with every check of the catalogue ticked, as a crafted post could. */
 function responderForm(sensitivity: string[]): FormData {
   const f = new FormData();
-  for (const [k, v] of Object.entries({ key: "responder", title: "Responders at week 12", datasetName: "adeff", response: "resp", family: "binomial", treatment: "arm", treatmentReference: "Placebo", id: "subjid" })) f.set(k, v);
+  for (const [k, v] of Object.entries({
+    key: "responder",
+    title: "Responders at week 12",
+    datasetName: "adeff",
+    response: "resp",
+    family: "binomial",
+    treatment: "arm",
+    treatmentReference: "Placebo",
+    id: "subjid",
+  }))
+    f.set(k, v);
   for (const c of ["base", "stratum"]) f.append("covariate", c);
   for (const c of CHECKS) f.set(`check:${c.key}:enabled`, "on");
   for (const s of sensitivity) f.set(`sensitivity:${s}`, "on");
@@ -52,11 +68,17 @@ describe("the family-applicability rule", () => {
   });
 
   it("offers robust (sandwich) errors for linear and generalized linear models, the variance function for linear ones only", () => {
-    for (const f of ["gaussian", "binomial", "poisson"]) expect(sensitivityApplies("robust_hc3", f)).toBe(true);
+    for (const f of ["gaussian", "binomial", "poisson"])
+      expect(sensitivityApplies("robust_hc3", f)).toBe(true);
     expect(sensitivityApplies("robust_hc3", "cox")).toBe(false);
     expect(sensitivityApplies("variance_function", "binomial")).toBe(false);
     expect(sensitivityApplies("quasi_poisson", "binomial")).toBe(false);
-    expect(SENSITIVITY_KINDS.filter((k) => sensitivityApplies(k, "cox"))).toEqual(["alternative_covariates", "cox_robust_subject", "cox_unstratified", "cox_rmst"]);
+    expect(SENSITIVITY_KINDS.filter((k) => sensitivityApplies(k, "cox"))).toEqual([
+      "alternative_covariates",
+      "cox_robust_subject",
+      "cox_unstratified",
+      "cox_rmst",
+    ]);
   });
 });
 
@@ -73,20 +95,42 @@ describe("the plan's validation", () => {
   });
 
   it("refuses, beside the field, an analysis that does not apply to the family", () => {
-    const v = validatePlannedModel(readPlannedModelForm(responderForm(["variance_function", "quasi_poisson"])), catalogue, []);
+    const v = validatePlannedModel(
+      readPlannedModelForm(responderForm(["variance_function", "quasi_poisson"])),
+      catalogue,
+      [],
+    );
     expect(v.ok).toBe(false);
     if (v.ok) return;
-    expect(v.errors["sensitivity:variance_function"]).toMatch(/applies to a linear model.*robust \(sandwich\) standard errors instead/);
+    expect(v.errors["sensitivity:variance_function"]).toMatch(
+      /applies to a linear model.*robust \(sandwich\) standard errors instead/,
+    );
     expect(v.errors["sensitivity:quasi_poisson"]).toMatch(/Poisson model of counts/);
   });
 });
 
 describe("the rerun", () => {
-  const R = JSON.parse(readFileSync("tests/reference/values/glm-birthwt-logit.json", "utf8")) as { robustSE: { HC3: number[] }; coefficients: { estimate: number }[] };
+  const R = JSON.parse(readFileSync("tests/reference/values/glm-birthwt-logit.json", "utf8")) as {
+    robustSE: { HC3: number[] };
+    coefficients: { estimate: number }[];
+  };
   const spec = JSON.parse(readFileSync("tests/reference/models/glm-birthwt-logit.json", "utf8"));
   const cells = readCsvText(readFileSync("tests/reference/data/glm-birthwt-logit.csv", "utf8"));
-  const table = { columns: cells.columns as Record<string, string[]>, rowNumbers: [...(cells.rowNumbers ?? cells.columns[Object.keys(cells.columns)[0]].map((_, i) => i + 1))] };
-  const model = (checks: ReturnType<typeof defaultChecks>) => ({ id: "m", position: 0, key: "birthwt", title: "Low birth weight", datasetName: "birthwt", population: null, spec, checks, sensitivity: [] });
+  const table = {
+    columns: cells.columns as Record<string, string[]>,
+    rowNumbers: [...(cells.rowNumbers ?? cells.columns[Object.keys(cells.columns)[0]].map((_, i) => i + 1))],
+  };
+  const model = (checks: ReturnType<typeof defaultChecks>) => ({
+    id: "m",
+    position: 0,
+    key: "birthwt",
+    title: "Low birth weight",
+    datasetName: "birthwt",
+    population: null,
+    spec,
+    checks,
+    sensitivity: [],
+  });
   const meta = { datasetSha256: "0".repeat(64), planVersionId: "pv" };
 
   it("reads a logistic model with sandwich HC3 standard errors as sandwich::vcovHC does", () => {
@@ -106,7 +150,12 @@ describe("the rerun", () => {
   });
 
   it("does not evaluate a check the family cannot have, even when an older plan ticked it", () => {
-    const all = CHECKS.map((c) => ({ key: c.key, enabled: true, threshold: c.defaultThreshold, remedy: c.defaultRemedy }));
+    const all = CHECKS.map((c) => ({
+      key: c.key,
+      enabled: true,
+      threshold: c.defaultThreshold,
+      remedy: c.defaultRemedy,
+    }));
     const doc = computeRerun(model(all), table, { variant: "planned" }, meta);
     const keys = doc.checks.map((c) => c.key);
     expect(keys).not.toContain("overdispersion");

@@ -20,10 +20,25 @@ const ds = generateDemoDataset();
 const columns: Record<string, string[]> = {};
 for (const c of ds.columns) columns[c] = ds.rows.map((r) => r[c]);
 const locked = { columns, rowNumbers: ds.rows.map((_, i) => i + 1) };
-const partial = { population: { column: "fasfl", value: "Y" }, options: { variant: "planned" } } as unknown as RerunDocument;
+const partial = {
+  population: { column: "fasfl", value: "Y" },
+  options: { variant: "planned" },
+} as unknown as RerunDocument;
 const table = rerunTable(partial, locked);
 const result = fitLinear(
-  { response: "chg", terms: [{ variable: "arm", reference: "Placebo" }, { variable: "base" }, { variable: "stratum" }, { variable: "region" }, { variable: "sex" }, { variable: "age" }], id: "subjid", treatment: "arm" },
+  {
+    response: "chg",
+    terms: [
+      { variable: "arm", reference: "Placebo" },
+      { variable: "base" },
+      { variable: "stratum" },
+      { variable: "region" },
+      { variable: "sex" },
+      { variable: "age" },
+    ],
+    id: "subjid",
+    treatment: "arm",
+  },
   table,
 );
 const doc = { ...partial, result, checks: evaluateChecks(result, defaultChecks(true)) } as RerunDocument;
@@ -42,7 +57,10 @@ const FIGURES: [FigureKey, string?][] = [
 interface Layer {
   data?: unknown;
   mark?: unknown;
-  encoding?: Record<string, { title?: unknown; field?: string; value?: unknown } | Record<string, unknown>[] | undefined>;
+  encoding?: Record<
+    string,
+    { title?: unknown; field?: string; value?: unknown } | Record<string, unknown>[] | undefined
+  >;
 }
 
 function layersOf(spec: TopLevelSpec): Layer[] {
@@ -52,7 +70,9 @@ function layersOf(spec: TopLevelSpec): Layer[] {
 /** A layer's hover table: deferred to usermeta.tooltips under the key the layer names (specs.ts, deferTooltips). */
 function tooltipOf(spec: TopLevelSpec, layer: Layer): { field: string; title: string }[] {
   const key = (layer.encoding?.tooltip as unknown as { value?: string } | undefined)?.value;
-  const tips = (spec as unknown as { usermeta?: { tooltips: Record<string, { field: string; title: string }[]> } }).usermeta?.tooltips ?? {};
+  const tips =
+    (spec as unknown as { usermeta?: { tooltips: Record<string, { field: string; title: string }[]> } })
+      .usermeta?.tooltips ?? {};
   return key ? (tips[key] ?? []) : [];
 }
 
@@ -109,23 +129,37 @@ describe("diagnostic figure specifications", () => {
   });
 
   it("says what to do when a figure cannot be drawn", () => {
-    expect(() => figureData(doc, "partial_residuals", { term: "region", withSubjectIds: true, table })).toThrow(FigureUnavailableError);
-    expect(() => figureData(doc, "residuals_covariate", { withSubjectIds: true, table })).toThrow(/choose a covariate/);
+    expect(() =>
+      figureData(doc, "partial_residuals", { term: "region", withSubjectIds: true, table }),
+    ).toThrow(FigureUnavailableError);
+    expect(() => figureData(doc, "residuals_covariate", { withSubjectIds: true, table })).toThrow(
+      /choose a covariate/,
+    );
     expect(() => figureData(doc, "spread_by_arm", { withSubjectIds: true })).toThrow(/table rows/);
   });
 
   it("the Q-Q plot's theoretical quantiles are Blom's, qnorm((i − 0.375)/(n + 0.25))", () => {
     // Blom 1958, Statistical Estimates and Transformed Beta-Variables; values from R 4.2.2:
     // qnorm(((1:10) - 0.375)/10.25), and for n = 422 at i = 1, 2, 211, 421, 422.
-    const r10 = [-1.54663527139923, -1.000490545619315, -0.6554235052344267, -0.3754617702355184, -0.1225808438888024, 0.1225808438888025, 0.3754617702355184, 0.6554235052344267, 1.000490545619315, 1.54663527139923];
+    const r10 = [
+      -1.54663527139923, -1.000490545619315, -0.6554235052344267, -0.3754617702355184, -0.1225808438888024,
+      0.1225808438888025, 0.3754617702355184, 0.6554235052344267, 1.000490545619315, 1.54663527139923,
+    ];
     blomQuantiles(10).forEach((q, i) => expect(q).toBeCloseTo(r10[i], 12));
     expect(result.n).toBe(422);
     const qq = figureData(doc, "qq", { withSubjectIds: true, table }) as QqData;
     const at = (i: number) => qq.rows[i - 1].theoretical;
-    const r422: [number, number][] = [[1, -2.971827295584534], [2, -2.665086070635915], [211, -0.002968184671696452], [421, 2.665086070635918], [422, 2.971827295584525]];
+    const r422: [number, number][] = [
+      [1, -2.971827295584534],
+      [2, -2.665086070635915],
+      [211, -0.002968184671696452],
+      [421, 2.665086070635918],
+      [422, 2.971827295584525],
+    ];
     for (const [i, v] of r422) expect(Math.abs(at(i) - v)).toBeLessThan(1e-5); // rows are rounded to six significant digits
     // sorted residuals, and the title carries the engine's plain-words reading
-    for (let i = 1; i < qq.rows.length; i++) expect(qq.rows[i].sample).toBeGreaterThanOrEqual(qq.rows[i - 1].sample);
+    for (let i = 1; i < qq.rows.length; i++)
+      expect(qq.rows[i].sample).toBeGreaterThanOrEqual(qq.rows[i - 1].sample);
     const spec = figureSpec(qq);
     expect(titleOf(spec).text).toContain(result.qqShape.reading);
     expect(titleOf(spec).subtitle.join(" ")).toContain(result.qqShape.summary.slice(0, 30));
@@ -136,9 +170,30 @@ describe("sensitivity comparison (forest-style)", () => {
   const c = result.contrasts?.find((x) => x.level === "Lorvanitide 120 mg");
   if (!c) throw new Error("no contrast");
   const rows = [
-    { label: "Excluding 1 subject", estimate: c.estimate + 0.5, lower: c.lower + 0.5, upper: c.upper + 0.5, prespecified: false, primary: false },
-    { label: "Robust (HC3) standard errors", estimate: c.estimate, lower: c.hc3.lower, upper: c.hc3.upper, prespecified: true, primary: false },
-    { label: "Primary analysis as planned", estimate: c.estimate, lower: c.lower, upper: c.upper, prespecified: true, primary: true },
+    {
+      label: "Excluding 1 subject",
+      estimate: c.estimate + 0.5,
+      lower: c.lower + 0.5,
+      upper: c.upper + 0.5,
+      prespecified: false,
+      primary: false,
+    },
+    {
+      label: "Robust (HC3) standard errors",
+      estimate: c.estimate,
+      lower: c.hc3.lower,
+      upper: c.hc3.upper,
+      prespecified: true,
+      primary: false,
+    },
+    {
+      label: "Primary analysis as planned",
+      estimate: c.estimate,
+      lower: c.lower,
+      upper: c.upper,
+      prespecified: true,
+      primary: true,
+    },
   ];
 
   it("puts the primary first and says 'primary' and 'not pre-specified' in words", () => {
@@ -153,7 +208,10 @@ describe("sensitivity comparison (forest-style)", () => {
     const vg = compile(spec).spec;
     expect(vg.marks?.length ?? 0).toBeGreaterThan(0);
     expect(titleOf(spec).subtitle.join(" ")).toMatch(/^Healthy: /);
-    const axisTitles = (vg.axes ?? []).map((a) => a.title).filter(Boolean).map(String);
+    const axisTitles = (vg.axes ?? [])
+      .map((a) => a.title)
+      .filter(Boolean)
+      .map(String);
     expect(axisTitles.some((t) => t.includes(c.label) && t.includes("(points)"))).toBe(true);
     const tip = layersOf(spec).flatMap((l) => tooltipOf(spec, l).map((f) => f.field));
     expect(tip).toEqual(expect.arrayContaining(["label", "estimate", "lower", "upper"]));

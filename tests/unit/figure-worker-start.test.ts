@@ -24,7 +24,10 @@ class FakeWorker {
 
 function frame(url: string, width: number, height: number) {
   const target = { clientWidth: width, clientHeight: height };
-  return { getAttribute: (name: string) => (name === FRAME_URL_ATTRIBUTE ? url : null), querySelector: (sel: string) => (sel === `[${TARGET_ATTRIBUTE}]` ? target : null) };
+  return {
+    getAttribute: (name: string) => (name === FRAME_URL_ATTRIBUTE ? url : null),
+    querySelector: (sel: string) => (sel === `[${TARGET_ATTRIBUTE}]` ? target : null),
+  };
 }
 
 afterEach(() => {
@@ -34,13 +37,20 @@ afterEach(() => {
 
 describe("the results page's early figure start", () => {
   it("prefetches every figure, then asks for each frame under the key the page waits for, once per address and size", () => {
-    const frames = [frame("/f/influence", 900, 416), frame("/f/influence", 900, 416), frame("/f/qq", 900, 416), frame("/f/qq", 440, 416)];
+    const frames = [
+      frame("/f/influence", 900, 416),
+      frame("/f/influence", 900, 416),
+      frame("/f/qq", 900, 416),
+      frame("/f/qq", 440, 416),
+    ];
     const win: { devicePixelRatio: number; plumblineFigures?: unknown } = { devicePixelRatio: 2 };
     vi.stubGlobal("window", win);
     vi.stubGlobal("OffscreenCanvas", class {});
     vi.stubGlobal("FontFace", class {});
     vi.stubGlobal("Worker", FakeWorker);
-    vi.stubGlobal("document", { querySelectorAll: (sel: string) => (sel === `[${FRAME_URL_ATTRIBUTE}]` ? frames : []) });
+    vi.stubGlobal("document", {
+      querySelectorAll: (sel: string) => (sel === `[${FRAME_URL_ATTRIBUTE}]` ? frames : []),
+    });
 
     startWorker("/assets/figure-worker.js", ["/f/influence", "/f/qq"]);
     askForFrames(FRAME_URL_ATTRIBUTE, TARGET_ATTRIBUTE);
@@ -55,7 +65,11 @@ describe("the results page's early figure start", () => {
       { key: bitmapKey("/f/qq", 900, 416, 2), url: "/f/qq", width: 900, height: 416, scale: 2 },
       { key: bitmapKey("/f/qq", 440, 416, 2), url: "/f/qq", width: 440, height: 416, scale: 2 },
     ]);
-    expect((win.plumblineFigures as { sent: string[] }).sent).toEqual([bitmapKey("/f/influence", 900, 416, 2), bitmapKey("/f/qq", 900, 416, 2), bitmapKey("/f/qq", 440, 416, 2)]);
+    expect((win.plumblineFigures as { sent: string[] }).sent).toEqual([
+      bitmapKey("/f/influence", 900, 416, 2),
+      bitmapKey("/f/qq", 900, 416, 2),
+      bitmapKey("/f/qq", 440, 416, 2),
+    ]);
   });
 
   it("starts nothing where the browser cannot draw off the page, and the page then draws its figures itself", () => {

@@ -24,7 +24,14 @@ const spec = {
   intercept: true,
   id: "subjid",
   treatment: "arm",
-  terms: [{ variable: "arm", categorical: true, reference: "Placebo" }, { variable: "base" }, { variable: "stratum" }, { variable: "region" }, { variable: "sex" }, { variable: "age" }],
+  terms: [
+    { variable: "arm", categorical: true, reference: "Placebo" },
+    { variable: "base" },
+    { variable: "stratum" },
+    { variable: "region" },
+    { variable: "sex" },
+    { variable: "age" },
+  ],
 };
 
 describe("figures and the headless command agree", () => {
@@ -33,8 +40,22 @@ describe("figures and the headless command agree", () => {
     if (!seeded.seeded) throw new Error(seeded.reason);
     const [v] = await listLockedVersions(seeded.studyId);
     const locked = await loadLockedTable(v.versionId);
-    const model = { id: "m", position: 0, key: "primary", title: "Primary", datasetName: "adeff", spec: { ...spec, population: [{ column: "fasfl", in: ["Y"] }] }, checks: defaultChecks(true), sensitivity: [] };
-    const doc = computeRerun(model, locked.table, { variant: "planned" }, { datasetSha256: locked.sha256, planVersionId: "p" });
+    const model = {
+      id: "m",
+      position: 0,
+      key: "primary",
+      title: "Primary",
+      datasetName: "adeff",
+      spec: { ...spec, population: [{ column: "fasfl", in: ["Y"] }] },
+      checks: defaultChecks(true),
+      sensitivity: [],
+    };
+    const doc = computeRerun(
+      model,
+      locked.table,
+      { variant: "planned" },
+      { datasetSha256: locked.sha256, planVersionId: "p" },
+    );
     const table = rerunTable(doc, locked.table);
     const influence = figureData(doc, "influence", { withSubjectIds: true, table });
     const fitted = figureData(doc, "residuals_fitted", { withSubjectIds: true, table });
@@ -42,16 +63,42 @@ describe("figures and the headless command agree", () => {
     // The same population, written as a file for the command.
     const { columns, rows } = generateDemoDataset();
     const dir = mkdtempSync(path.join(os.tmpdir(), "plumbline-cli-"));
-    const csv = [columns.join(","), ...rows.filter((r) => r.fasfl === "Y").map((r) => columns.map((c) => r[c]).join(","))].join("\n");
+    const csv = [
+      columns.join(","),
+      ...rows.filter((r) => r.fasfl === "Y").map((r) => columns.map((c) => r[c]).join(",")),
+    ].join("\n");
     writeFileSync(path.join(dir, "fas.csv"), `${csv}\n`);
     writeFileSync(path.join(dir, "model.json"), JSON.stringify(spec));
     const out = JSON.parse(
-      execFileSync(process.execPath, [path.resolve("node_modules/tsx/dist/cli.mjs"), "app/cli.ts", "fit", "--data", path.join(dir, "fas.csv"), "--model", path.join(dir, "model.json")], { encoding: "utf8" }),
-    ) as { n: number; observations: { id: string; fitted: number; residual: number; leverage: number; cooksDistance: number }[] };
+      execFileSync(
+        process.execPath,
+        [
+          path.resolve("node_modules/tsx/dist/cli.mjs"),
+          "app/cli.ts",
+          "fit",
+          "--data",
+          path.join(dir, "fas.csv"),
+          "--model",
+          path.join(dir, "model.json"),
+        ],
+        { encoding: "utf8" },
+      ),
+    ) as {
+      n: number;
+      observations: {
+        id: string;
+        fitted: number;
+        residual: number;
+        leverage: number;
+        cooksDistance: number;
+      }[];
+    };
     expect(out.n).toBe(doc.result.n);
     const cli = new Map(out.observations.map((o) => [o.id, o]));
-    const close = (a: number, b: number) => expect(Math.abs(a - b)).toBeLessThanOrEqual(1e-5 * Math.max(1, Math.abs(b)));
-    if (influence.figure !== "influence" || fitted.figure !== "residuals_fitted") throw new Error("unexpected figure data");
+    const close = (a: number, b: number) =>
+      expect(Math.abs(a - b)).toBeLessThanOrEqual(1e-5 * Math.max(1, Math.abs(b)));
+    if (influence.figure !== "influence" || fitted.figure !== "residuals_fitted")
+      throw new Error("unexpected figure data");
     for (const row of influence.rows) {
       const o = cli.get(row.subject!)!;
       close(row.cooks, o.cooksDistance);

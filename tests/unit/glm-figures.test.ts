@@ -27,14 +27,40 @@ describe("figures of a generalized linear model", () => {
       key: "flares",
       title: "Flare rate",
       datasetName: "adeff",
-      spec: { population: [{ column: "fasfl", in: ["Y"] }], response: "flares", family: "poisson" as const, intercept: true, offset: "logexp", id: "subjid", treatment: "arm", terms: [{ variable: "arm", categorical: true, reference: "Placebo" }, { variable: "stratum" }, { variable: "age" }] },
+      spec: {
+        population: [{ column: "fasfl", in: ["Y"] }],
+        response: "flares",
+        family: "poisson" as const,
+        intercept: true,
+        offset: "logexp",
+        id: "subjid",
+        treatment: "arm",
+        terms: [
+          { variable: "arm", categorical: true, reference: "Placebo" },
+          { variable: "stratum" },
+          { variable: "age" },
+        ],
+      },
       checks: defaultChecks(true, "poisson"),
       sensitivity: [],
     };
-    const doc = computeRerun(model, locked.table, { variant: "planned" }, { datasetSha256: locked.sha256, planVersionId: "p" });
+    const doc = computeRerun(
+      model,
+      locked.table,
+      { variant: "planned" },
+      { datasetSha256: locked.sha256, planVersionId: "p" },
+    );
     expect(doc.result.kind).toBe("glm");
     const table = rerunTable(doc, locked.table);
-    for (const figure of ["influence", "leverage_residual", "qq", "residuals_fitted", "spread_by_arm", "residuals_covariate", "partial_residuals"] as const) {
+    for (const figure of [
+      "influence",
+      "leverage_residual",
+      "qq",
+      "residuals_fitted",
+      "spread_by_arm",
+      "residuals_covariate",
+      "partial_residuals",
+    ] as const) {
       const data = figureData(doc, figure, { term: "age", withSubjectIds: false, table });
       expect(data.rows.length).toBe(doc.result.n);
       const spec = figureSpec(data, {});

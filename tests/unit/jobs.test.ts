@@ -42,7 +42,10 @@ describe("jobs", () => {
   it("keeps the reason when a job fails", async () => {
     const id = await enqueue("test.fail", {});
     await jobs.runOneJob();
-    expect(await jobs.getJob(id)).toMatchObject({ status: "failed", error: "the handler gave up: column base is missing" });
+    expect(await jobs.getJob(id)).toMatchObject({
+      status: "failed",
+      error: "the handler gave up: column base is missing",
+    });
   });
 
   it("picks up a job orphaned by a restart, and fails one orphaned three times", async () => {
@@ -50,12 +53,21 @@ describe("jobs", () => {
     const again = await enqueue("test.ok", { n: "orphan" });
     const dead = await enqueue("test.ok", { n: "dead" });
     await writeTransaction(async (tx) => {
-      await tx.update(t.jobs).set({ status: "running", heartbeatAt: stale, attempts: 1 }).where(eq(t.jobs.id, again));
-      await tx.update(t.jobs).set({ status: "running", heartbeatAt: stale, attempts: 3 }).where(eq(t.jobs.id, dead));
+      await tx
+        .update(t.jobs)
+        .set({ status: "running", heartbeatAt: stale, attempts: 1 })
+        .where(eq(t.jobs.id, again));
+      await tx
+        .update(t.jobs)
+        .set({ status: "running", heartbeatAt: stale, attempts: 3 })
+        .where(eq(t.jobs.id, dead));
     });
     const failed = await jobs.recoverInterruptedJobs();
     expect(failed.map((j) => j.id)).toEqual([dead]);
-    expect(await jobs.getJob(dead)).toMatchObject({ status: "failed", error: expect.stringMatching(/server stopped while this job ran, 3 times/) });
+    expect(await jobs.getJob(dead)).toMatchObject({
+      status: "failed",
+      error: expect.stringMatching(/server stopped while this job ran, 3 times/),
+    });
     expect((await jobs.getJob(again))?.status).toBe("queued");
     await jobs.runOneJob();
     expect(ran).toContain("orphan");
@@ -65,7 +77,8 @@ describe("jobs", () => {
 
   it("tells the failure hook of every failed job: a throwing handler, invalid input, no handler", async () => {
     const told: { kind: string; reason: string }[] = [];
-    for (const kind of ["test.fail", "test.ok", "test.unknown"]) jobs.registerJobFailureHook(kind, async (job, reason) => void told.push({ kind: job.kind, reason }));
+    for (const kind of ["test.fail", "test.ok", "test.unknown"])
+      jobs.registerJobFailureHook(kind, async (job, reason) => void told.push({ kind: job.kind, reason }));
     const thrown = await enqueue("test.fail", {});
     const invalid = await writeTransaction(async (tx) => {
       const id = await jobs.enqueueJob(tx, "test.ok", {});
@@ -85,11 +98,21 @@ describe("jobs", () => {
   });
 
   it("recovers at once a job whose worker process on this host is gone, though its heartbeat is fresh", async () => {
-    const gone = spawnSync(process.execPath, ["-e", "process.stdout.write(String(process.pid))"], { encoding: "utf8" });
+    const gone = spawnSync(process.execPath, ["-e", "process.stdout.write(String(process.pid))"], {
+      encoding: "utf8",
+    });
     const deadPid = Number(gone.stdout);
     const id = await enqueue("test.ok", { n: "killed" });
     await writeTransaction((tx) =>
-      tx.update(t.jobs).set({ status: "running", heartbeatAt: new Date().toISOString(), attempts: 1, lockedBy: `${os.hostname()}/${deadPid}/0000abcd` }).where(eq(t.jobs.id, id)),
+      tx
+        .update(t.jobs)
+        .set({
+          status: "running",
+          heartbeatAt: new Date().toISOString(),
+          attempts: 1,
+          lockedBy: `${os.hostname()}/${deadPid}/0000abcd`,
+        })
+        .where(eq(t.jobs.id, id)),
     );
     await jobs.recoverInterruptedJobs();
     expect((await jobs.getJob(id))?.status).toBe("queued");
@@ -100,11 +123,21 @@ describe("jobs", () => {
   it("keeps a job of a live worker elsewhere until its heartbeat is stale", async () => {
     const id = await enqueue("test.ok", { n: "elsewhere" });
     await writeTransaction((tx) =>
-      tx.update(t.jobs).set({ status: "running", heartbeatAt: new Date().toISOString(), attempts: 1, lockedBy: "another-host/4242/0000abcd" }).where(eq(t.jobs.id, id)),
+      tx
+        .update(t.jobs)
+        .set({
+          status: "running",
+          heartbeatAt: new Date().toISOString(),
+          attempts: 1,
+          lockedBy: "another-host/4242/0000abcd",
+        })
+        .where(eq(t.jobs.id, id)),
     );
     await jobs.recoverInterruptedJobs();
     expect((await jobs.getJob(id))?.status).toBe("running");
-    await writeTransaction((tx) => tx.update(t.jobs).set({ status: "done", lockedBy: null }).where(eq(t.jobs.id, id)));
+    await writeTransaction((tx) =>
+      tx.update(t.jobs).set({ status: "done", lockedBy: null }).where(eq(t.jobs.id, id)),
+    );
   });
 
   it("recovers an orphaned job while the worker runs, not only at its start", async () => {
@@ -112,12 +145,22 @@ describe("jobs", () => {
     // Let the start-up recovery pass first: this job is orphaned afterwards.
     await new Promise((r) => setTimeout(r, 500));
     const id = await enqueue("test.ok", { n: "later" });
-    for (let i = 0; i < 50 && (await jobs.getJob(id))?.status !== "done"; i++) await new Promise((r) => setTimeout(r, 20));
+    for (let i = 0; i < 50 && (await jobs.getJob(id))?.status !== "done"; i++)
+      await new Promise((r) => setTimeout(r, 20));
     const stale = new Date(Date.now() - jobs.STALE_MS - 1_000).toISOString();
     const orphan = await enqueue("test.ok", { n: "orphan-later" });
-    await writeTransaction((tx) => tx.update(t.jobs).set({ status: "running", heartbeatAt: stale, attempts: 1, lockedBy: "another-host/4242/0000abcd" }).where(eq(t.jobs.id, orphan)));
+    await writeTransaction((tx) =>
+      tx
+        .update(t.jobs)
+        .set({ status: "running", heartbeatAt: stale, attempts: 1, lockedBy: "another-host/4242/0000abcd" })
+        .where(eq(t.jobs.id, orphan)),
+    );
     const started = Date.now();
-    while ((await jobs.getJob(orphan))?.status !== "done" && Date.now() - started < jobs.RECOVER_EVERY_MS + 3_000) await new Promise((r) => setTimeout(r, 100));
+    while (
+      (await jobs.getJob(orphan))?.status !== "done" &&
+      Date.now() - started < jobs.RECOVER_EVERY_MS + 3_000
+    )
+      await new Promise((r) => setTimeout(r, 100));
     expect((await jobs.getJob(orphan))?.status).toBe("done");
     expect(ran).toContain("orphan-later");
   }, 30_000);

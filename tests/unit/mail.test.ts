@@ -72,17 +72,30 @@ afterAll(async () => {
 
 describe("notification e-mail", () => {
   it("arrives over SMTP at the fake, for the biostatistician who may approve, with a link to the plan version", async () => {
-    const created = await plans.createPlan(priya, studyId, { title: "Efficacy models", sapName: "Statistical analysis plan", sapVersion: "2.0", sapDate: "2026-10-01" });
+    const created = await plans.createPlan(priya, studyId, {
+      title: "Efficacy models",
+      sapName: "Statistical analysis plan",
+      sapVersion: "2.0",
+      sapDate: "2026-10-01",
+    });
     versionId = created.versionId;
     const locked = await listLockedVersions(studyId);
-    const v = validatePlannedModel(readPlannedModelForm(demoPrimaryForm({ checks: ["cooks_distance", "shapiro_wilk", "breusch_pagan"], sensitivity: false })), locked.map((x) => ({ name: x.datasetName, columns: x.columns })), []);
+    const v = validatePlannedModel(
+      readPlannedModelForm(
+        demoPrimaryForm({ checks: ["cooks_distance", "shapiro_wilk", "breusch_pagan"], sensitivity: false }),
+      ),
+      locked.map((x) => ({ name: x.datasetName, columns: x.columns })),
+      [],
+    );
     if (!v.ok) throw new Error(JSON.stringify(v.errors));
     await plans.savePlannedModel(priya, studyId, versionId, 1, null, v.model);
     await plans.submitForApproval(priya, studyId, versionId, 2);
 
     // Queued with the submission, for the other biostatistician only (the author cannot approve).
     const queued = await outbox();
-    expect(queued.map((m) => [m.recipient, m.status, m.kind])).toEqual([["tomas.berg@plumbline.example", "queued", "plan_awaits_approval"]]);
+    expect(queued.map((m) => [m.recipient, m.status, m.kind])).toEqual([
+      ["tomas.berg@plumbline.example", "queued", "plan_awaits_approval"],
+    ]);
     await drain();
 
     const link = `${APP_URL}/studies/${studyId}/plans/${versionId}`;
@@ -105,7 +118,11 @@ describe("notification e-mail", () => {
     await plans.approvePlanVersion({ ...tomas, signedInAt: new Date().toISOString() }, studyId, versionId);
     const datasetVersionId = (await listLockedVersions(studyId))[0].versionId;
     const model = (await plans.getPlanVersion(studyId, versionId)).models[0];
-    rerunId = await reruns.startRerun(priya, studyId, { plannedModelId: model.id, datasetVersionId, options: { variant: "planned" } });
+    rerunId = await reruns.startRerun(priya, studyId, {
+      plannedModelId: model.id,
+      datasetVersionId,
+      options: { variant: "planned" },
+    });
     await drain();
     const open = await findings.findingsOf(rerunId);
     expect(open.length).toBeGreaterThan(0);
@@ -113,7 +130,12 @@ describe("notification e-mail", () => {
     const port = smtp.smtpPort;
     await smtp.stop();
     for (const f of open) {
-      await findings.assessFinding(priya, studyId, f.id, { category: "model_assumption", impact: "none", action: "planned_sensitivity", rationale: "The planned sensitivity analyses leave the treatment conclusion unchanged." });
+      await findings.assessFinding(priya, studyId, f.id, {
+        category: "model_assumption",
+        impact: "none",
+        action: "planned_sensitivity",
+        rationale: "The planned sensitivity analyses leave the treatment conclusion unchanged.",
+      });
     }
     // The assessments are stored although no mail server answers.
     expect((await findings.findingsOf(rerunId)).every((f) => f.assessment)).toBe(true);
@@ -140,7 +162,10 @@ describe("notification e-mail", () => {
     await drain();
     const [done] = (await outbox()).filter((m) => m.id === w.id);
     expect(done).toMatchObject({ status: "sent", attempts: 3, lastError: null });
-    const got = await waitForMessage(smtpStateDir, (m) => to("tomas.berg@plumbline.example")(m) && /awaits sign-off/.test(m.subject));
+    const got = await waitForMessage(
+      smtpStateDir,
+      (m) => to("tomas.berg@plumbline.example")(m) && /awaits sign-off/.test(m.subject),
+    );
     expect(got.text).toContain(`${APP_URL}/studies/${studyId}/reruns/${rerunId}`);
   });
 
@@ -154,13 +179,29 @@ describe("notification e-mail", () => {
 
     const appendixId = newId();
     await writeTransaction(async (tx) => {
-      await tx.insert(t.appendices).values({ id: appendixId, studyId, planVersionId: versionId, rerunIdsJson: JSON.stringify([rerunId]), sha256: "a".repeat(64), storedPath: "appendices/x.docx", byteSize: 1, exportedBy: helen.id });
+      await tx.insert(t.appendices).values({
+        id: appendixId,
+        studyId,
+        planVersionId: versionId,
+        rerunIdsJson: JSON.stringify([rerunId]),
+        sha256: "a".repeat(64),
+        storedPath: "appendices/x.docx",
+        byteSize: 1,
+        exportedBy: helen.id,
+      });
       await notifyAppendixExported(tx, { studyId, appendixId, rerunIds: [rerunId] });
     });
     await drain();
     const recipients = (await outbox()).filter((m) => m.kind === "appendix_exported").map((m) => m.recipient);
-    expect(recipients).toEqual(["helen.achter@plumbline.example", "priya.lindqvist@plumbline.example", "tomas.berg@plumbline.example"]);
-    const got = await waitForMessage(smtpStateDir, (m) => to("helen.achter@plumbline.example")(m) && /appendix/i.test(m.subject));
+    expect(recipients).toEqual([
+      "helen.achter@plumbline.example",
+      "priya.lindqvist@plumbline.example",
+      "tomas.berg@plumbline.example",
+    ]);
+    const got = await waitForMessage(
+      smtpStateDir,
+      (m) => to("helen.achter@plumbline.example")(m) && /appendix/i.test(m.subject),
+    );
     expect(got.text).toContain(`${APP_URL}/studies/${studyId}/appendix`);
     expect((await outbox()).every((m) => m.status === "sent")).toBe(true);
   });
@@ -175,7 +216,9 @@ describe("notification e-mail", () => {
     ];
     expect(bodies.length).toBeGreaterThanOrEqual(3 * 6);
     // The flagged subjects are named on the rerun's page; they must not reach an inbox.
-    const flagged = (await reruns.getRerun(studyId, rerunId)).doc!.checks.flatMap((c) => (c.flagged ?? []).map((f) => String(f.id)));
+    const flagged = (await reruns.getRerun(studyId, rerunId)).doc!.checks.flatMap((c) =>
+      (c.flagged ?? []).map((f) => String(f.id)),
+    );
     expect(flagged.length).toBeGreaterThan(0);
     for (const body of bodies) {
       expect(body).not.toMatch(/QMT301-\d+/);

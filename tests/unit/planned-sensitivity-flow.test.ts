@@ -37,31 +37,56 @@ beforeAll(async () => {
   priya = await person("priya.lindqvist@plumbline.example");
   const tomas = await person("tomas.berg@plumbline.example");
   const locked = await listLockedVersions(studyId);
-  const { versionId } = await plans.createPlan(priya, studyId, { title: "Efficacy models", sapName: "Statistical analysis plan", sapVersion: "2.0", sapDate: "2026-10-01" });
-  const v = validatePlannedModel(readPlannedModelForm(demoPrimaryForm()), locked.map((x) => ({ name: x.datasetName, columns: x.columns })), []);
+  const { versionId } = await plans.createPlan(priya, studyId, {
+    title: "Efficacy models",
+    sapName: "Statistical analysis plan",
+    sapVersion: "2.0",
+    sapDate: "2026-10-01",
+  });
+  const v = validatePlannedModel(
+    readPlannedModelForm(demoPrimaryForm()),
+    locked.map((x) => ({ name: x.datasetName, columns: x.columns })),
+    [],
+  );
   if (!v.ok) throw new Error(JSON.stringify(v.errors));
   const modelId = await plans.savePlannedModel(priya, studyId, versionId, 1, null, v.model);
   await plans.submitForApproval(priya, studyId, versionId, 2);
   await plans.approvePlanVersion({ ...tomas, signedInAt: new Date().toISOString() }, studyId, versionId);
-  primaryId = await reruns.startRerun(priya, studyId, { plannedModelId: modelId, datasetVersionId: locked[0].versionId, options: { variant: "planned" } });
+  primaryId = await reruns.startRerun(priya, studyId, {
+    plannedModelId: modelId,
+    datasetVersionId: locked[0].versionId,
+    options: { variant: "planned" },
+  });
 });
 
 describe("planned sensitivity analyses", () => {
   it("are not queued before the primary has completed", async () => {
     expect(await reruns.sensitivityReruns(primaryId)).toHaveLength(0);
     // one job at a time (others, such as e-mail, may be queued before it) until the primary has completed
-    while ((await reruns.getRerun(studyId, primaryId)).rerun.status !== "completed") expect(await runOneJob()).toBe(true);
+    while ((await reruns.getRerun(studyId, primaryId)).rerun.status !== "completed")
+      expect(await runOneJob()).toBe(true);
     const queued = await reruns.sensitivityReruns(primaryId);
     expect(queued.map((r) => r.status)).toEqual(["queued", "queued", "queued"]);
   });
 
   it("are queued, in the plan's order, as pre-specified reruns of their own with a job and an audit event each", async () => {
     const queued = await reruns.sensitivityReruns(primaryId);
-    expect(queued.map((r) => JSON.parse(r.optionsJson).variant)).toEqual(["robust_hc3", "variance_function", "exclude_rows"]);
-    expect(queued.every((r) => r.prespecified && r.kind === "sensitivity" && r.startedBy === priya.id)).toBe(true);
+    expect(queued.map((r) => JSON.parse(r.optionsJson).variant)).toEqual([
+      "robust_hc3",
+      "variance_function",
+      "exclude_rows",
+    ]);
+    expect(queued.every((r) => r.prespecified && r.kind === "sensitivity" && r.startedBy === priya.id)).toBe(
+      true,
+    );
     const exclusion = JSON.parse(queued[2].optionsJson) as { rows: number[]; reason: string };
     const primary = (await reruns.getRerun(studyId, primaryId)).doc!;
-    expect(exclusion.rows).toEqual(primary.checks.find((c) => c.key === "cooks_distance")!.flagged!.map((f) => f.row).sort((a, b) => a - b));
+    expect(exclusion.rows).toEqual(
+      primary.checks
+        .find((c) => c.key === "cooks_distance")!
+        .flagged!.map((f) => f.row)
+        .sort((a, b) => a - b),
+    );
     expect(exclusion.reason).toBe("flagged by the Cook's distance check");
     const jobs = await db.select().from(t.jobs);
     for (const r of queued) expect(jobs.some((j) => j.payloadJson.includes(r.id))).toBe(true);
@@ -86,11 +111,16 @@ describe("planned sensitivity analyses", () => {
 
   it("are queued again with a new primary, never for a sensitivity rerun itself", async () => {
     const again = await reruns.getRerun(studyId, primaryId);
-    const secondId = await reruns.startRerun(priya, studyId, { plannedModelId: again.rerun.plannedModelId, datasetVersionId: again.rerun.datasetVersionId, options: { variant: "planned" } });
+    const secondId = await reruns.startRerun(priya, studyId, {
+      plannedModelId: again.rerun.plannedModelId,
+      datasetVersionId: again.rerun.datasetVersionId,
+      options: { variant: "planned" },
+    });
     while (await runOneJob()) {
       // the second primary and its analyses
     }
     expect(await reruns.sensitivityReruns(secondId)).toHaveLength(3);
-    for (const r of await reruns.sensitivityReruns(primaryId)) expect(await reruns.sensitivityReruns(r.id)).toHaveLength(0);
+    for (const r of await reruns.sensitivityReruns(primaryId))
+      expect(await reruns.sensitivityReruns(r.id)).toHaveLength(0);
   });
 });

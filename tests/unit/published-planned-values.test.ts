@@ -14,17 +14,41 @@ const dataset = {
   columns: [
     { name: "chg", label: null, type: "number" as const, nonMissing: 9, missing: 0, min: -9, max: 5 },
     { name: "base", label: null, type: "number" as const, nonMissing: 9, missing: 0, min: 10, max: 30 },
-    { name: "arm", label: null, type: "text" as const, nonMissing: 9, missing: 0, levels: ["High", "Low", "Placebo"].map((value) => ({ value, count: 3 })) },
-    { name: "sex", label: null, type: "text" as const, nonMissing: 9, missing: 0, levels: ["F", "M"].map((value) => ({ value, count: 5 })) },
+    {
+      name: "arm",
+      label: null,
+      type: "text" as const,
+      nonMissing: 9,
+      missing: 0,
+      levels: ["High", "Low", "Placebo"].map((value) => ({ value, count: 3 })),
+    },
+    {
+      name: "sex",
+      label: null,
+      type: "text" as const,
+      nonMissing: 9,
+      missing: 0,
+      levels: ["F", "M"].map((value) => ({ value, count: 5 })),
+    },
   ],
 };
 
 function form(rows: Record<number, Record<string, string>>, family = "gaussian") {
   const f = new FormData();
-  for (const [k, v] of Object.entries({ key: "primary", title: "Primary model", datasetName: "adeff", response: "chg", family, treatment: "arm", treatmentReference: "Placebo" })) f.set(k, v);
+  for (const [k, v] of Object.entries({
+    key: "primary",
+    title: "Primary model",
+    datasetName: "adeff",
+    response: "chg",
+    family,
+    treatment: "arm",
+    treatmentReference: "Placebo",
+  }))
+    f.set(k, v);
   f.append("covariate", "base");
   f.append("covariate", "sex");
-  for (const [i, row] of Object.entries(rows)) for (const [k, v] of Object.entries(row)) f.set(`published:${i}:${k}`, v);
+  for (const [i, row] of Object.entries(rows))
+    for (const [k, v] of Object.entries(row)) f.set(`published:${i}:${k}`, v);
   return readPlannedModelForm(f);
 }
 
@@ -93,18 +117,32 @@ describe("published values in the plan editor", () => {
   });
 
   it("a generalized linear model's contrast names its measure", () => {
-    const v = validatePlannedModel(form({ 0: { quantity: "contrast", level: "High", statistic: "estimate", value: "0.12" } }, "poisson"), [dataset], []);
-    expect(v.ok ? {} : v.errors).toMatchObject({ "published:0:measure": "Choose the measure printed: rate ratio." });
+    const v = validatePlannedModel(
+      form({ 0: { quantity: "contrast", level: "High", statistic: "estimate", value: "0.12" } }, "poisson"),
+      [dataset],
+      [],
+    );
+    expect(v.ok ? {} : v.errors).toMatchObject({
+      "published:0:measure": "Choose the measure printed: rate ratio.",
+    });
   });
 
   it("a changed value is a change of the plan, named in the version comparison", () => {
     const model = (value: string) => {
-      const v = validatePlannedModel(form({ 0: { quantity: "contrast", level: "High", statistic: "estimate", value } }), [dataset], []);
+      const v = validatePlannedModel(
+        form({ 0: { quantity: "contrast", level: "High", statistic: "estimate", value } }),
+        [dataset],
+        [],
+      );
       if (!v.ok) throw new Error(JSON.stringify(v.errors));
       return v.model;
     };
     const header = { title: "Plan", sapName: null, sapVersion: null, sapDate: null };
-    expect(comparePlanVersions({ header, models: [model("-2.35")] }, { header, models: [model("-2.53")] }).map((c) => c.what)).toEqual([
+    expect(
+      comparePlanVersions({ header, models: [model("-2.35")] }, { header, models: [model("-2.53")] }).map(
+        (c) => c.what,
+      ),
+    ).toEqual([
       "Published value added: contrast High vs the reference arm, estimate printed as -2.53",
       "Published value removed: contrast High vs the reference arm, estimate printed as -2.35",
     ]);

@@ -30,30 +30,54 @@ describe("who sees subjects", () => {
 });
 
 describe("subject redaction", () => {
-  const doc = docWith(["QMT301-0217", "QMT301-0021", "QMT301-0002"], [{ id: "QMT301-0217", row: 1, rank: 1 }, { id: "QMT301-0021", row: 2, rank: 2 }]);
+  const doc = docWith(
+    ["QMT301-0217", "QMT301-0021", "QMT301-0002"],
+    [
+      { id: "QMT301-0217", row: 1, rank: 1 },
+      { id: "QMT301-0021", row: 2, rank: 2 },
+    ],
+  );
   const r = redaction(false, [doc]);
 
   it("names flagged subjects by rank within their check and others as a subject", () => {
-    expect(r.text("largest Cook's distance 0.322 (subject QMT301-0217)", "cooks_distance")).toBe("largest Cook's distance 0.322 (the subject ranked 1)");
-    expect(r.text("2 of 300 subjects exceed the threshold; the most extreme is subject QMT301-0021.", "cooks_distance")).toBe("2 of 300 subjects exceed the threshold; the most extreme is the subject ranked 2.");
-    expect(r.text("largest leverage 0.1 (subject QMT301-0002)", "leverage")).toBe("largest leverage 0.1 (a subject)");
+    expect(r.text("largest Cook's distance 0.322 (subject QMT301-0217)", "cooks_distance")).toBe(
+      "largest Cook's distance 0.322 (the subject ranked 1)",
+    );
+    expect(
+      r.text(
+        "2 of 300 subjects exceed the threshold; the most extreme is subject QMT301-0021.",
+        "cooks_distance",
+      ),
+    ).toBe("2 of 300 subjects exceed the threshold; the most extreme is the subject ranked 2.");
+    expect(r.text("largest leverage 0.1 (subject QMT301-0002)", "leverage")).toBe(
+      "largest leverage 0.1 (a subject)",
+    );
     expect(r.text("the most extreme is row 7.", "leverage")).toBe("the most extreme is a subject.");
   });
 
   it("withholds a subject the engine names in quotes, even one of a failed rerun whose ids were never stored", () => {
     const failed = redaction(false, [null]);
-    const reason = 'subject "LNG-017" (USUBJID) appears in 3 analysed rows, but this model analyses one row per subject: add population conditions on the columns that separate its records, AVISITN (0, 12, 24)';
-    expect(failed.text(reason)).toBe("a subject (USUBJID) appears in 3 analysed rows, but this model analyses one row per subject: add population conditions on the columns that separate its records, AVISITN (0, 12, 24)");
+    const reason =
+      'subject "LNG-017" (USUBJID) appears in 3 analysed rows, but this model analyses one row per subject: add population conditions on the columns that separate its records, AVISITN (0, 12, 24)';
+    expect(failed.text(reason)).toBe(
+      "a subject (USUBJID) appears in 3 analysed rows, but this model analyses one row per subject: add population conditions on the columns that separate its records, AVISITN (0, 12, 24)",
+    );
     expect(redaction(true, [null]).text(reason)).toBe(reason);
   });
 
   it("drops the naming clauses for the appendix's count-only wording", () => {
-    expect(r.countOnly("largest Cook's distance 0.322 (subject QMT301-0217)")).toBe("largest Cook's distance 0.322");
-    expect(r.countOnly("2 of 300 subjects exceed the threshold; the most extreme is subject QMT301-0021.")).toBe("2 of 300 subjects exceed the threshold.");
+    expect(r.countOnly("largest Cook's distance 0.322 (subject QMT301-0217)")).toBe(
+      "largest Cook's distance 0.322",
+    );
+    expect(
+      r.countOnly("2 of 300 subjects exceed the threshold; the most extreme is subject QMT301-0021."),
+    ).toBe("2 of 300 subjects exceed the threshold.");
   });
 
   it("takes bare identifiers out of free text and finds any that remain, also in subject fields", () => {
-    expect(r.text("QMT301-0217 had a data entry query; QMT301-02170 is no subject of this rerun")).toBe("(id withheld) had a data entry query; QMT301-02170 is no subject of this rerun");
+    expect(r.text("QMT301-0217 had a data entry query; QMT301-02170 is no subject of this rerun")).toBe(
+      "(id withheld) had a data entry query; QMT301-02170 is no subject of this rerun",
+    );
     expect(r.leak({ a: ["fine", { b: "see QMT301-0002" }] })).toBe("see QMT301-0002");
     expect(r.leak({ a: "nothing here", n: 217 })).toBeNull();
     const numeric = redaction(false, [docWith(["217", "12"], [])]);

@@ -24,9 +24,22 @@ const { verifyAuditChain } = await import("~/.server/audit.server");
 const { eq, inArray } = await import("drizzle-orm");
 
 const R = JSON.parse(readFileSync("tests/demo/demo-findings.json", "utf8")) as {
-  flares: { n: number; poissonPearsonChi2PerDf: number; negativeBinomialTheta: number; highVsPlaceboRateRatio: number };
+  flares: {
+    n: number;
+    poissonPearsonChi2PerDf: number;
+    negativeBinomialTheta: number;
+    highVsPlaceboRateRatio: number;
+  };
   responder: { n: number; events: number; eventsPerVariable: number };
-  ancova: { n: number; highVsPlacebo: { estimate: number; p: number }; lowVsPlacebo: { estimate: number; p: number }; breuschPaganModelP: number; brownForsytheArmP: number; shapiroWilkP: number; cooksMax: { subjid: string; cooksD: number } };
+  ancova: {
+    n: number;
+    highVsPlacebo: { estimate: number; p: number };
+    lowVsPlacebo: { estimate: number; p: number };
+    breuschPaganModelP: number;
+    brownForsytheArmP: number;
+    shapiroWilkP: number;
+    cooksMax: { subjid: string; cooksD: number };
+  };
 };
 
 type Actor = { id: string; name: string };
@@ -74,21 +87,36 @@ describe("analysis plan", () => {
   });
 
   it("is written by one biostatistician and approved only by another", async () => {
-    const created = await plans.createPlan(priya, studyId, { title: "Efficacy models", sapName: "Statistical analysis plan", sapVersion: "2.0", sapDate: "2026-10-01" });
+    const created = await plans.createPlan(priya, studyId, {
+      title: "Efficacy models",
+      sapName: "Statistical analysis plan",
+      sapVersion: "2.0",
+      sapDate: "2026-10-01",
+    });
     versionId = created.versionId;
     const locked = await listLockedVersions(studyId);
-    const v = validatePlannedModel(readPlannedModelForm(demoPrimaryForm()), locked.map((x) => ({ name: x.datasetName, columns: x.columns })), []);
+    const v = validatePlannedModel(
+      readPlannedModelForm(demoPrimaryForm()),
+      locked.map((x) => ({ name: x.datasetName, columns: x.columns })),
+      [],
+    );
     if (!v.ok) throw new Error(JSON.stringify(v.errors));
     modelId = await plans.savePlannedModel(priya, studyId, versionId, 1, null, v.model);
     // A second editor working from the old revision is refused, not silently overwritten.
-    await expect(plans.savePlannedModel(tomas, studyId, versionId, 1, modelId, { ...v.model, title: "Overwritten" })).rejects.toThrow(/Someone else saved this plan version/);
+    await expect(
+      plans.savePlannedModel(tomas, studyId, versionId, 1, modelId, { ...v.model, title: "Overwritten" }),
+    ).rejects.toThrow(/Someone else saved this plan version/);
     await plans.submitForApproval(priya, studyId, versionId, 2);
-    await expect(plans.approvePlanVersion({ ...priya, signedInAt: new Date().toISOString() }, studyId, versionId)).rejects.toThrow(/two-person rule/);
+    await expect(
+      plans.approvePlanVersion({ ...priya, signedInAt: new Date().toISOString() }, studyId, versionId),
+    ).rejects.toThrow(/two-person rule/);
     await plans.approvePlanVersion({ ...tomas, signedInAt: new Date().toISOString() }, studyId, versionId);
     const { version } = await plans.getPlanVersion(studyId, versionId);
     expect(version.status).toBe("approved");
     expect(version.approvedBy).toBe(tomas.id);
-    await expect(plans.savePlannedModel(priya, studyId, versionId, version.revision, modelId, v.model)).rejects.toThrow();
+    await expect(
+      plans.savePlannedModel(priya, studyId, versionId, version.revision, modelId, v.model),
+    ).rejects.toThrow();
   });
 });
 
@@ -97,7 +125,11 @@ describe("rerun of the primary model", () => {
   let doc: import("~/.server/reruns/reruns.server").RerunDocument;
 
   beforeAll(async () => {
-    rerunId = await reruns.startRerun(priya, studyId, { plannedModelId: modelId, datasetVersionId, options: { variant: "planned" } });
+    rerunId = await reruns.startRerun(priya, studyId, {
+      plannedModelId: modelId,
+      datasetVersionId,
+      options: { variant: "planned" },
+    });
     await drain();
     const r = await reruns.getRerun(studyId, rerunId);
     expect(r.rerun.status).toBe("completed");
@@ -129,18 +161,30 @@ describe("rerun of the primary model", () => {
   });
 
   it("is deterministic: rerunning gives a byte-identical result and the same hash", async () => {
-    const again = await reruns.startRerun(priya, studyId, { plannedModelId: modelId, datasetVersionId, options: { variant: "planned" } });
+    const again = await reruns.startRerun(priya, studyId, {
+      plannedModelId: modelId,
+      datasetVersionId,
+      options: { variant: "planned" },
+    });
     await drain();
     const [a, b] = await Promise.all([reruns.getRerun(studyId, rerunId), reruns.getRerun(studyId, again)]);
     expect(b.rerun.resultSha256).toBe(a.rerun.resultSha256);
-    const stored = await db.select({ id: t.reruns.id, json: t.reruns.resultJson }).from(t.reruns).where(inArray(t.reruns.id, [rerunId, again]));
+    const stored = await db
+      .select({ id: t.reruns.id, json: t.reruns.resultJson })
+      .from(t.reruns)
+      .where(inArray(t.reruns.id, [rerunId, again]));
     expect(stored).toHaveLength(2);
     expect(stored[0].json).toBe(stored[1].json);
   });
 
   it("runs the planned exclusion of influential subjects beside the primary", async () => {
     const rows = doc.checks.find((c) => c.key === "cooks_distance")!.flagged!.map((f) => f.row);
-    const id = await reruns.startRerun(priya, studyId, { plannedModelId: modelId, datasetVersionId, options: { variant: "exclude_rows", rows, reason: "flagged" }, parentRerunId: rerunId });
+    const id = await reruns.startRerun(priya, studyId, {
+      plannedModelId: modelId,
+      datasetVersionId,
+      options: { variant: "exclude_rows", rows, reason: "flagged" },
+      parentRerunId: rerunId,
+    });
     await drain();
     const s = await reruns.getRerun(studyId, id);
     expect(s.rerun.status).toBe("completed");
@@ -153,16 +197,37 @@ describe("rerun of the primary model", () => {
     const fresh = new Date().toISOString();
     expect((await findings.canSign({ id: tomas.id, signedInAt: fresh }, rerunId)).ok).toBe(false);
     for (const f of await findings.findingsOf(rerunId)) {
-      await findings.assessFinding(priya, studyId, f.id, { category: "model_assumption", impact: "none", action: "planned_sensitivity", rationale: "The planned sensitivity analyses leave the treatment conclusion unchanged." });
+      await findings.assessFinding(priya, studyId, f.id, {
+        category: "model_assumption",
+        impact: "none",
+        action: "planned_sensitivity",
+        rationale: "The planned sensitivity analyses leave the treatment conclusion unchanged.",
+      });
     }
-    expect(await findings.canSign({ id: priya.id, signedInAt: fresh }, rerunId)).toMatchObject({ ok: false, reason: expect.stringMatching(/two-person rule/) });
+    expect(await findings.canSign({ id: priya.id, signedInAt: fresh }, rerunId)).toMatchObject({
+      ok: false,
+      reason: expect.stringMatching(/two-person rule/),
+    });
     const stale = new Date(Date.now() - 6 * 60 * 1000).toISOString();
-    expect(await findings.canSign({ id: tomas.id, signedInAt: stale }, rerunId)).toMatchObject({ ok: false, reauthenticate: true });
+    expect(await findings.canSign({ id: tomas.id, signedInAt: stale }, rerunId)).toMatchObject({
+      ok: false,
+      reauthenticate: true,
+    });
     await findings.signRerun({ ...tomas, signedInAt: fresh }, studyId, rerunId);
     const r = await reruns.getRerun(studyId, rerunId);
     expect(r.rerun.signedAt).not.toBeNull();
-    expect((await findings.signaturesOf(rerunId))[0]).toMatchObject({ signerName: "Tomas Berg", meaning: "Reviewed and approved" });
-    await expect(findings.recordDeviation(priya, studyId, rerunId, { category: "data", impact: "none", action: "none", rationale: "Too late to add anything now." })).rejects.toThrow(/signed/);
+    expect((await findings.signaturesOf(rerunId))[0]).toMatchObject({
+      signerName: "Tomas Berg",
+      meaning: "Reviewed and approved",
+    });
+    await expect(
+      findings.recordDeviation(priya, studyId, rerunId, {
+        category: "data",
+        impact: "none",
+        action: "none",
+        rationale: "Too late to add anything now.",
+      }),
+    ).rejects.toThrow(/signed/);
     expect((await findings.deviationLog(studyId)).length).toBeGreaterThanOrEqual(4);
   });
 });
@@ -175,25 +240,72 @@ describe("generalized linear planned models on the demo study", () => {
   beforeAll(async () => {
     const locked = await listLockedVersions(studyId);
     const catalogue = locked.map((x) => ({ name: x.datasetName, columns: x.columns }));
-    const { versionId: v } = await plans.createPlan(priya, studyId, { title: "Secondary endpoints", sapName: "Statistical analysis plan", sapVersion: "2.0", sapDate: "2026-10-01" });
+    const { versionId: v } = await plans.createPlan(priya, studyId, {
+      title: "Secondary endpoints",
+      sapName: "Statistical analysis plan",
+      sapVersion: "2.0",
+      sapDate: "2026-10-01",
+    });
     const form = (fields: Record<string, string>, covariates: string[], sensitivity: string[]) => {
       const f = new FormData();
-      for (const [k, val] of Object.entries({ datasetName: "adeff", populationColumn: "fasfl", populationValue: "Y", treatment: "arm", treatmentReference: "Placebo", id: "subjid", ...fields })) f.set(k, val);
+      for (const [k, val] of Object.entries({
+        datasetName: "adeff",
+        populationColumn: "fasfl",
+        populationValue: "Y",
+        treatment: "arm",
+        treatmentReference: "Placebo",
+        id: "subjid",
+        ...fields,
+      }))
+        f.set(k, val);
       for (const c of covariates) f.append("covariate", c);
-      for (const c of ["cooks_distance", "leverage", "overdispersion", "events_per_variable", "linearity_glm"]) f.set(`check:${c}:enabled`, "on");
+      for (const c of [
+        "cooks_distance",
+        "leverage",
+        "overdispersion",
+        "events_per_variable",
+        "linearity_glm",
+      ])
+        f.set(`check:${c}:enabled`, "on");
       for (const k of sensitivity) f.set(`sensitivity:${k}`, "on");
       const parsed = validatePlannedModel(readPlannedModelForm(f), catalogue, []);
       if (!parsed.ok) throw new Error(JSON.stringify(parsed.errors));
       return parsed.model;
     };
-    countsId = await plans.savePlannedModel(priya, studyId, v, 1, null, form({ key: "flares", title: "Flare rate", response: "flares", family: "poisson", offset: "logexp" }, ["stratum", "region"], ["negative_binomial", "quasi_poisson"]));
-    responderId = await plans.savePlannedModel(priya, studyId, v, 2, null, form({ key: "responder", title: "Responders at week 12", response: "resp", family: "binomial" }, ["base", "stratum", "region", "sex", "age"], []));
+    countsId = await plans.savePlannedModel(
+      priya,
+      studyId,
+      v,
+      1,
+      null,
+      form(
+        { key: "flares", title: "Flare rate", response: "flares", family: "poisson", offset: "logexp" },
+        ["stratum", "region"],
+        ["negative_binomial", "quasi_poisson"],
+      ),
+    );
+    responderId = await plans.savePlannedModel(
+      priya,
+      studyId,
+      v,
+      2,
+      null,
+      form(
+        { key: "responder", title: "Responders at week 12", response: "resp", family: "binomial" },
+        ["base", "stratum", "region", "sex", "age"],
+        [],
+      ),
+    );
     await plans.submitForApproval(priya, studyId, v, 3);
     await plans.approvePlanVersion({ ...tomas, signedInAt: new Date().toISOString() }, studyId, v);
   });
 
   it("reports the planted overdispersion of the flare counts as a finding, at R's Pearson χ²/df", async () => {
-    const id = await reruns.startRerun(priya, studyId, { plannedModelId: countsId, datasetVersionId, options: { variant: "planned" } });
+    const id = await reruns.startRerun(priya, studyId, {
+      plannedModelId: countsId,
+      datasetVersionId,
+      options: { variant: "planned" },
+    });
     await drain();
     const r = await reruns.getRerun(studyId, id);
     expect(r.rerun.status).toBe("completed");
@@ -208,7 +320,12 @@ describe("generalized linear planned models on the demo study", () => {
     expect(stored.summary).not.toMatch(/Overdispersion: Overdispersion/);
     expect(r.doc!.rows.used).toBe(R.flares.n);
     // The planned negative binomial analysis, beside the primary: θ and the rate ratio as MASS::glm.nb finds them.
-    const nbId = await reruns.startRerun(priya, studyId, { plannedModelId: countsId, datasetVersionId, options: { variant: "family", family: "negative-binomial" }, parentRerunId: id });
+    const nbId = await reruns.startRerun(priya, studyId, {
+      plannedModelId: countsId,
+      datasetVersionId,
+      options: { variant: "family", family: "negative-binomial" },
+      parentRerunId: id,
+    });
     await drain();
     const nb = (await reruns.getRerun(studyId, nbId)).doc!.result;
     if (nb.kind !== "glm") throw new Error("expected a GLM");
@@ -218,7 +335,11 @@ describe("generalized linear planned models on the demo study", () => {
   });
 
   it("counts the responder events per variable as R does, within plan", async () => {
-    const id = await reruns.startRerun(priya, studyId, { plannedModelId: responderId, datasetVersionId, options: { variant: "planned" } });
+    const id = await reruns.startRerun(priya, studyId, {
+      plannedModelId: responderId,
+      datasetVersionId,
+      options: { variant: "planned" },
+    });
     await drain();
     const r = await reruns.getRerun(studyId, id);
     expect(r.rerun.status).toBe("completed");
@@ -242,14 +363,21 @@ describe("a planned model that cannot be estimated as planned", () => {
     await plans.savePlannedModel(priya, studyId, next, pv.version.revision, m.id, broken);
     await plans.submitForApproval(priya, studyId, next, pv.version.revision + 1);
     await plans.approvePlanVersion({ ...tomas, signedInAt: new Date().toISOString() }, studyId, next);
-    const id = await reruns.startRerun(priya, studyId, { plannedModelId: m.id, datasetVersionId, options: { variant: "planned" } });
+    const id = await reruns.startRerun(priya, studyId, {
+      plannedModelId: m.id,
+      datasetVersionId,
+      options: { variant: "planned" },
+    });
     await drain();
     const r = await reruns.getRerun(studyId, id);
     expect(r.rerun.status).toBe("failed");
     expect(r.rerun.failureReason).toMatch(/visit_week/);
     const fs = await findings.findingsOf(id);
     expect(fs).toHaveLength(1);
-    expect(fs[0]).toMatchObject({ kind: "not_estimable", summary: expect.stringMatching(/^Not estimable as planned: .*visit_week/) });
+    expect(fs[0]).toMatchObject({
+      kind: "not_estimable",
+      summary: expect.stringMatching(/^Not estimable as planned: .*visit_week/),
+    });
   });
 
   it("leaves an intact audit chain behind all of this", async () => {
@@ -262,7 +390,9 @@ describe("what a viewer without access to subjects reads", () => {
     const { rerunView } = await import("~/.server/reruns/rerun-view.server");
     const { redaction } = await import("~/.server/redaction.server");
     const all = await reruns.listReruns(studyId);
-    const primary = all.find((r) => r.kind === "primary" && r.status === "completed" && r.modelKey === "primary")!;
+    const primary = all.find(
+      (r) => r.kind === "primary" && r.status === "completed" && r.modelKey === "primary",
+    )!;
     const { doc } = await reruns.getRerun(studyId, primary.id);
     const hidden = JSON.stringify(rerunView(doc!, redaction(false, [doc])));
     expect(hidden).not.toMatch(/QMT301-\d{4}/);
@@ -274,8 +404,18 @@ describe("finding texts for the deviation log", () => {
   it("name subjects by rank instead of by code for viewers without access to subjects", async () => {
     const { redactionForReruns } = await import("~/.server/redaction.server");
     const log = await findings.deviationLog(studyId);
-    const redact = await redactionForReruns(false, log.flatMap((d) => (d.rerun ? [d.rerun.id] : [])));
-    const texts = log.flatMap((d) => (d.finding ? [{ key: d.finding.checkKey, text: d.finding.summary }, { key: d.finding.checkKey, text: d.finding.statistic ?? "" }] : []));
+    const redact = await redactionForReruns(
+      false,
+      log.flatMap((d) => (d.rerun ? [d.rerun.id] : [])),
+    );
+    const texts = log.flatMap((d) =>
+      d.finding
+        ? [
+            { key: d.finding.checkKey, text: d.finding.summary },
+            { key: d.finding.checkKey, text: d.finding.statistic ?? "" },
+          ]
+        : [],
+    );
     expect(texts.some((t) => /QMT301-\d{4}/.test(t.text))).toBe(true);
     for (const t of texts) expect(redact.text(t.text, t.key)).not.toMatch(/QMT301-\d{4}/);
     expect(texts.some((t) => /ranked 1/.test(redact.text(t.text, t.key)))).toBe(true);

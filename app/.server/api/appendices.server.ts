@@ -4,7 +4,12 @@
  * read every rerun get every export; readers of published reports only exports whose reruns
  * are all published.
  */
-import { appendixDownload, appendixIsPublished, findAppendix, listAppendices as storedAppendices } from "../appendix/appendix.server";
+import {
+  appendixDownload,
+  appendixIsPublished,
+  findAppendix,
+  listAppendices as storedAppendices,
+} from "../appendix/appendix.server";
 import { requireStudyForPrincipal } from "../study-access.server";
 import { ApiError } from "./respond.server";
 import type { AppendicesAnswer, Body } from "./schemas";
@@ -12,7 +17,10 @@ import type { ApiPrincipal } from "./tokens.server";
 
 const NOT_PUBLISHED = "There is no such appendix export in this study.";
 
-export async function listAppendices(p: ApiPrincipal, studyId: string): Promise<Body<typeof AppendicesAnswer>> {
+export async function listAppendices(
+  p: ApiPrincipal,
+  studyId: string,
+): Promise<Body<typeof AppendicesAnswer>> {
   const { study, allowed } = await requireStudyForPrincipal(p, studyId, "report.view");
   const all = await storedAppendices(study.id);
   const shown = [];
@@ -36,6 +44,7 @@ export async function appendixFile(p: ApiPrincipal, studyId: string, appendixId:
   const { study, allowed } = await requireStudyForPrincipal(p, studyId, "report.view");
   const a = await findAppendix(study.id, { id: appendixId });
   // An export of an unpublished rerun does not exist for a reader who may see only published ones.
-  if (!allowed.has("rerun.view") && !(await appendixIsPublished(a))) throw new ApiError("not_found", NOT_PUBLISHED);
+  if (!allowed.has("rerun.view") && !(await appendixIsPublished(a)))
+    throw new ApiError("not_found", NOT_PUBLISHED);
   return appendixDownload(a, study.code);
 }

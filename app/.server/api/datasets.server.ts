@@ -27,18 +27,30 @@ function versionOut(v: VersionSummary): VersionOut {
   };
 }
 
-const finiteOrNull = (x: number | undefined): number | null | undefined => (x === undefined ? undefined : Number.isFinite(x) ? x : null);
+const finiteOrNull = (x: number | undefined): number | null | undefined =>
+  x === undefined ? undefined : Number.isFinite(x) ? x : null;
 
-export async function listStudyDatasets(p: ApiPrincipal, studyId: string): Promise<Body<typeof DatasetsAnswer>> {
+export async function listStudyDatasets(
+  p: ApiPrincipal,
+  studyId: string,
+): Promise<Body<typeof DatasetsAnswer>> {
   const { study } = await requireStudyForPrincipal(p, studyId, "dataset.view");
   const datasets = await listDatasets(study.id);
-  return { datasets: datasets.map((d) => ({ id: d.id, name: d.name, versions: d.versions.map(versionOut) })) };
+  return {
+    datasets: datasets.map((d) => ({ id: d.id, name: d.name, versions: d.versions.map(versionOut) })),
+  };
 }
 
-export async function getDatasetVersion(p: ApiPrincipal, studyId: string, datasetId: string, versionId: string): Promise<Body<typeof DatasetVersionAnswer>> {
+export async function getDatasetVersion(
+  p: ApiPrincipal,
+  studyId: string,
+  datasetId: string,
+  versionId: string,
+): Promise<Body<typeof DatasetVersionAnswer>> {
   const { study } = await requireStudyForPrincipal(p, studyId, "dataset.view");
   const detail = await getVersionDetail(study.id, versionId);
-  if (!detail || detail.datasetId !== datasetId) throw new ApiError("not_found", "There is no such version of this dataset in this study.");
+  if (!detail || detail.datasetId !== datasetId)
+    throw new ApiError("not_found", "There is no such version of this dataset in this study.");
   const keys = new Set(detail.keyColumns);
   return {
     dataset: { id: detail.datasetId, name: detail.datasetName },

@@ -25,7 +25,8 @@ import {
 const bearer = registry.registerComponent("securitySchemes", "bearerToken", {
   type: "http",
   scheme: "bearer",
-  description: "A personal API token (plb_…) created on the Plumbline profile page. It acts with its person's study roles.",
+  description:
+    "A personal API token (plb_…) created on the Plumbline profile page. It acts with its person's study roles.",
 });
 
 const id = (description: string) => z.string().min(1).describe(description);
@@ -33,9 +34,18 @@ const studyParams = { studyId: id("The study's id (GET /api/v1/studies lists the
 
 const errorContent = { "application/json": { schema: ErrorAnswer } };
 const errors = {
-  401: { description: "No token, or the token is unknown, revoked or expired (code unauthorized)", content: errorContent },
-  403: { description: "The token's person has no role on the study that allows this (code forbidden)", content: errorContent },
-  404: { description: "No such study or item, or not visible to this role (code not_found)", content: errorContent },
+  401: {
+    description: "No token, or the token is unknown, revoked or expired (code unauthorized)",
+    content: errorContent,
+  },
+  403: {
+    description: "The token's person has no role on the study that allows this (code forbidden)",
+    content: errorContent,
+  },
+  404: {
+    description: "No such study or item, or not visible to this role (code not_found)",
+    content: errorContent,
+  },
   429: {
     description: `More than ${REQUESTS_PER_MINUTE} requests a minute with this token (code rate_limited); wait the seconds in Retry-After`,
     headers: { "Retry-After": { schema: { type: "integer" as const }, description: "Seconds to wait" } },
@@ -43,7 +53,13 @@ const errors = {
   },
 };
 
-function get(path: string, summary: string, schema: z.ZodType, params: Record<string, z.ZodString>, description?: string): void {
+function get(
+  path: string,
+  summary: string,
+  schema: z.ZodType,
+  params: Record<string, z.ZodString>,
+  description?: string,
+): void {
   const route: RouteConfig = {
     method: "get",
     path,
@@ -58,7 +74,13 @@ function get(path: string, summary: string, schema: z.ZodType, params: Record<st
 
 get("/api/v1/studies", "The studies the token's person holds a role on", StudiesAnswer, {});
 get("/api/v1/studies/{studyId}", "One study", StudyAnswer, studyParams);
-get("/api/v1/studies/{studyId}/datasets", "The study's datasets with every version's metadata and SHA-256 (never rows)", DatasetsAnswer, studyParams, "Data managers and biostatisticians.");
+get(
+  "/api/v1/studies/{studyId}/datasets",
+  "The study's datasets with every version's metadata and SHA-256 (never rows)",
+  DatasetsAnswer,
+  studyParams,
+  "Data managers and biostatisticians.",
+);
 get(
   "/api/v1/studies/{studyId}/datasets/{datasetId}/versions/{versionId}",
   "One dataset version: metadata, hash and column summaries (never rows)",
@@ -66,7 +88,13 @@ get(
   { ...studyParams, datasetId: id("The dataset's id"), versionId: id("The version's id") },
   "Data managers and biostatisticians.",
 );
-get("/api/v1/studies/{studyId}/plan-versions", "The study's analysis plan versions", PlanVersionsAnswer, studyParams, "Biostatisticians and medical writers.");
+get(
+  "/api/v1/studies/{studyId}/plan-versions",
+  "The study's analysis plan versions",
+  PlanVersionsAnswer,
+  studyParams,
+  "Biostatisticians and medical writers.",
+);
 get(
   "/api/v1/studies/{studyId}/plan-versions/{versionId}",
   "One plan version with its planned models (model specification, checks, sensitivity analyses)",
@@ -95,7 +123,12 @@ get(
   studyParams,
   "Biostatisticians and medical writers see the whole log; sponsor readers see the deviations of published reruns.",
 );
-get("/api/v1/studies/{studyId}/appendices", "The study's exported Word appendices with their SHA-256", AppendicesAnswer, studyParams);
+get(
+  "/api/v1/studies/{studyId}/appendices",
+  "The study's exported Word appendices with their SHA-256",
+  AppendicesAnswer,
+  studyParams,
+);
 
 registry.registerPath({
   method: "get",
@@ -105,9 +138,20 @@ registry.registerPath({
   request: { params: z.object({ ...studyParams, appendixId: id("The appendix export's id") }) },
   responses: {
     200: {
-      description: "The exact stored file (its SHA-256 is the listing's sha256); the caution travels in the X-Caution header and is printed in the document",
-      headers: { "X-Caution": { schema: { type: "string" as const }, description: "The caution" }, "X-Content-SHA256": { schema: { type: "string" as const }, description: "SHA-256 of the file" } },
-      content: { "application/vnd.openxmlformats-officedocument.wordprocessingml.document": { schema: { type: "string", contentMediaType: "application/vnd.openxmlformats-officedocument.wordprocessingml.document" } } },
+      description:
+        "The exact stored file (its SHA-256 is the listing's sha256); the caution travels in the X-Caution header and is printed in the document",
+      headers: {
+        "X-Caution": { schema: { type: "string" as const }, description: "The caution" },
+        "X-Content-SHA256": { schema: { type: "string" as const }, description: "SHA-256 of the file" },
+      },
+      content: {
+        "application/vnd.openxmlformats-officedocument.wordprocessingml.document": {
+          schema: {
+            type: "string",
+            contentMediaType: "application/vnd.openxmlformats-officedocument.wordprocessingml.document",
+          },
+        },
+      },
     },
     ...errors,
   },
@@ -117,7 +161,12 @@ registry.registerPath({
   method: "get",
   path: "/api/v1/openapi.json",
   summary: "This document",
-  responses: { 200: { description: "The OpenAPI 3.1 document of the Plumbline API", content: { "application/json": { schema: { type: "object" } } } } },
+  responses: {
+    200: {
+      description: "The OpenAPI 3.1 document of the Plumbline API",
+      content: { "application/json": { schema: { type: "object" } } },
+    },
+  },
 });
 
 let cached: object | null = null;

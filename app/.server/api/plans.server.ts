@@ -6,7 +6,12 @@ import type { ApiPrincipal } from "./tokens.server";
 
 type PlanVersionOut = Body<typeof PlanVersionsAnswer>["planVersions"][number];
 
-function versionOut(v: PlanVersion, planName: string, author: string | null, approver: string | null): PlanVersionOut {
+function versionOut(
+  v: PlanVersion,
+  planName: string,
+  author: string | null,
+  approver: string | null,
+): PlanVersionOut {
   return {
     id: v.id,
     planId: v.planId,
@@ -25,7 +30,10 @@ function versionOut(v: PlanVersion, planName: string, author: string | null, app
   };
 }
 
-export async function listPlanVersions(p: ApiPrincipal, studyId: string): Promise<Body<typeof PlanVersionsAnswer>> {
+export async function listPlanVersions(
+  p: ApiPrincipal,
+  studyId: string,
+): Promise<Body<typeof PlanVersionsAnswer>> {
   const { study } = await requireStudyForPrincipal(p, studyId, "plan.view");
   const plans = await listPlans(study.id);
   const planVersions: PlanVersionOut[] = [];
@@ -38,11 +46,18 @@ export async function listPlanVersions(p: ApiPrincipal, studyId: string): Promis
   return { planVersions };
 }
 
-export async function getPlanVersionWithModels(p: ApiPrincipal, studyId: string, versionId: string): Promise<Body<typeof PlanVersionAnswer>> {
+export async function getPlanVersionWithModels(
+  p: ApiPrincipal,
+  studyId: string,
+  versionId: string,
+): Promise<Body<typeof PlanVersionAnswer>> {
   const { study } = await requireStudyForPrincipal(p, studyId, "plan.view");
   const pv = await getPlanVersion(study.id, versionId);
   return {
-    planVersion: { ...versionOut(pv.version, pv.plan.name, pv.authorName, pv.approverName), editors: pv.editors },
+    planVersion: {
+      ...versionOut(pv.version, pv.plan.name, pv.authorName, pv.approverName),
+      editors: pv.editors,
+    },
     plannedModels: pv.models.map((m) => ({
       id: m.id,
       key: m.key,

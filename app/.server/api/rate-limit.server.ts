@@ -50,16 +50,29 @@ export class TokenBuckets {
       b.tokens -= 1;
       return { allowed: true, limit: this.capacity, remaining: Math.floor(b.tokens), retryAfter: 0 };
     }
-    return { allowed: false, limit: this.capacity, remaining: 0, retryAfter: Math.max(1, Math.ceil((1 - b.tokens) / this.refillPerMs / 1000)) };
+    return {
+      allowed: false,
+      limit: this.capacity,
+      remaining: 0,
+      retryAfter: Math.max(1, Math.ceil((1 - b.tokens) / this.refillPerMs / 1000)),
+    };
   }
 
   /** What `take` would decide now, without taking anything. */
   peek(key: string): RateDecision {
     const now = this.clock();
     const b = this.buckets.get(key);
-    const tokens = b ? Math.min(this.capacity, b.tokens + (now - b.updatedAt) * this.refillPerMs) : this.capacity;
-    if (tokens >= 1) return { allowed: true, limit: this.capacity, remaining: Math.floor(tokens), retryAfter: 0 };
-    return { allowed: false, limit: this.capacity, remaining: 0, retryAfter: Math.max(1, Math.ceil((1 - tokens) / this.refillPerMs / 1000)) };
+    const tokens = b
+      ? Math.min(this.capacity, b.tokens + (now - b.updatedAt) * this.refillPerMs)
+      : this.capacity;
+    if (tokens >= 1)
+      return { allowed: true, limit: this.capacity, remaining: Math.floor(tokens), retryAfter: 0 };
+    return {
+      allowed: false,
+      limit: this.capacity,
+      remaining: 0,
+      retryAfter: Math.max(1, Math.ceil((1 - tokens) / this.refillPerMs / 1000)),
+    };
   }
 
   /** Forgets buckets that have refilled completely: they behave exactly like a new one. */

@@ -12,7 +12,12 @@ import { db, t } from "../db/index.server";
 import { findingsOf, signaturesOf } from "../reruns/findings.server";
 import { checkView, reportedContrasts, treatmentEffectOf } from "../reruns/rerun-view.server";
 import { rerunRows, storedRerunDocument, type RerunRow } from "../reruns/rerun-rows.server";
-import { reproductionCheckOf, sensitivityReruns, type Rerun, type RerunDocument } from "../reruns/reruns.server";
+import {
+  reproductionCheckOf,
+  sensitivityReruns,
+  type Rerun,
+  type RerunDocument,
+} from "../reruns/reruns.server";
 import { requireStudyForPrincipal } from "../study-access.server";
 import { seesSubjects } from "../permissions.server";
 import { redactionFor, type Redaction } from "../redaction.server";
@@ -22,18 +27,31 @@ import type { ApiPrincipal } from "./tokens.server";
 
 type RerunOut = Body<typeof RerunAnswer>["rerun"];
 
-const finite = (x: number | null | undefined): number | null => (typeof x === "number" && Number.isFinite(x) ? x : null);
+const finite = (x: number | null | undefined): number | null =>
+  typeof x === "number" && Number.isFinite(x) ? x : null;
 
 /** Who may see what of a study's reruns, by the permission table. */
 async function rerunAccess(p: ApiPrincipal, studyId: string) {
   const access = await requireStudyForPrincipal(p, studyId, "report.view");
-  return { study: access.study, everyRerun: access.allowed.has("rerun.view"), withSubjectIds: seesSubjects(access) };
+  return {
+    study: access.study,
+    everyRerun: access.allowed.has("rerun.view"),
+    withSubjectIds: seesSubjects(access),
+  };
 }
 
 async function rerunsOfStudy(studyId: string, only?: string) {
-  const rows = await rerunRows(only ? and(eq(t.reruns.studyId, studyId), eq(t.reruns.id, only)) : eq(t.reruns.studyId, studyId), desc(t.reruns.createdAt));
+  const rows = await rerunRows(
+    only ? and(eq(t.reruns.studyId, studyId), eq(t.reruns.id, only)) : eq(t.reruns.studyId, studyId),
+    desc(t.reruns.createdAt),
+  );
   const ids = rows.map((r) => r.r.id);
-  const findingRows = ids.length ? await db.select({ rerunId: t.findings.rerunId }).from(t.findings).where(inArray(t.findings.rerunId, ids)) : [];
+  const findingRows = ids.length
+    ? await db
+        .select({ rerunId: t.findings.rerunId })
+        .from(t.findings)
+        .where(inArray(t.findings.rerunId, ids))
+    : [];
   const counts = new Map<string, number>();
   for (const f of findingRows) counts.set(f.rerunId, (counts.get(f.rerunId) ?? 0) + 1);
   return rows.map((row) => ({ row: row.r, out: rerunOut(row, counts.get(row.r.id) ?? 0) }));
@@ -71,7 +89,16 @@ function resultsOut(doc: RerunDocument): NonNullable<Body<typeof RerunAnswer>["r
   if (doc.result.kind === "cox") {
     // Cox models: log hazard ratios (robust SE when the fit is robust); the full answer is the headless command's
     const c = doc.result;
-    const nothing = { sigma: null, rSquared: null, adjRSquared: null, fStatistic: null, fP: null, aic: null, deviance: null, dispersion: null };
+    const nothing = {
+      sigma: null,
+      rSquared: null,
+      adjRSquared: null,
+      fStatistic: null,
+      fP: null,
+      aic: null,
+      deviance: null,
+      dispersion: null,
+    };
     return {
       description: doc.description,
       method: `Cox proportional hazards (partial likelihood, ${c.ties} ties${c.strata.length ? `, ${c.strata.length} strata` : ""})`,
@@ -83,7 +110,16 @@ function resultsOut(doc: RerunDocument): NonNullable<Body<typeof RerunAnswer>["r
       rank: c.coefficients.length,
       dfResidual: null,
       rows: doc.rows,
-      coefficients: c.coefficients.map((x) => ({ name: x.name, term: x.term, estimate: finite(x.estimate), se: finite(c.robust ? x.robustSe : x.se), statistic: finite(x.statistic), p: finite(x.p), lower: finite(x.lower), upper: finite(x.upper) })),
+      coefficients: c.coefficients.map((x) => ({
+        name: x.name,
+        term: x.term,
+        estimate: finite(x.estimate),
+        se: finite(c.robust ? x.robustSe : x.se),
+        statistic: finite(x.statistic),
+        p: finite(x.p),
+        lower: finite(x.lower),
+        upper: finite(x.upper),
+      })),
       fit: nothing,
       population: populationStepsOf(doc),
       treatmentEffect: null,
@@ -120,7 +156,16 @@ function resultsOut(doc: RerunDocument): NonNullable<Body<typeof RerunAnswer>["r
     return {
       ...common,
       covarianceType: null,
-      fit: { sigma: null, rSquared: null, adjRSquared: null, fStatistic: null, fP: null, aic: finite(r.fit.aic), deviance: finite(r.fit.deviance), dispersion: finite(r.fit.dispersion) },
+      fit: {
+        sigma: null,
+        rSquared: null,
+        adjRSquared: null,
+        fStatistic: null,
+        fP: null,
+        aic: finite(r.fit.aic),
+        deviance: finite(r.fit.deviance),
+        dispersion: finite(r.fit.dispersion),
+      },
       adjustedMeans: null,
       contrasts:
         r.marginalEffects?.contrasts.map((c) => ({
@@ -168,7 +213,14 @@ function resultsOut(doc: RerunDocument): NonNullable<Body<typeof RerunAnswer>["r
 }
 
 /** A contrast's interval, statistic and p (adjusted p when the plan names a method). */
-function contrastNumbers(c: { se: number; statistic: number; p: number; pAdjusted?: number; lower: number; upper: number }) {
+function contrastNumbers(c: {
+  se: number;
+  statistic: number;
+  p: number;
+  pAdjusted?: number;
+  lower: number;
+  upper: number;
+}) {
   return {
     se: finite(c.se),
     statistic: finite(c.statistic),
@@ -182,47 +234,78 @@ function contrastNumbers(c: { se: number; statistic: number; p: number; pAdjuste
 function checksOut(doc: RerunDocument, redact: Redaction): Body<typeof RerunAnswer>["checks"] {
   const reproduction = reproductionCheckOf(doc);
   const extra = reproduction ? [{ ...reproduction, numbers: null, flaggedCount: 0, flagged: [] }] : [];
-  return [...extra, ...doc.checks.map((c) => {
-    const v = checkView(c, redact);
-    return {
-      key: c.key,
-      label: c.label,
-      outcome: c.outcome,
-      statistic: v.statistic,
-      threshold: c.threshold,
-      numbers: c.numbers ? { ...c.numbers, statistic: finite(c.numbers.statistic), df: c.numbers.df?.map((d) => finite(d)) ?? null, p: finite(c.numbers.p) } : null,
-      summary: v.summary,
-      remedy: v.remedy,
-      flaggedCount: v.flaggedCount,
-      flagged: v.flagged.map((f) => ({ rank: f.rank, value: finite(f.value), ...(redact.seesSubjects ? { subjectId: f.who } : {}) })),
-    };
-  })];
+  return [
+    ...extra,
+    ...doc.checks.map((c) => {
+      const v = checkView(c, redact);
+      return {
+        key: c.key,
+        label: c.label,
+        outcome: c.outcome,
+        statistic: v.statistic,
+        threshold: c.threshold,
+        numbers: c.numbers
+          ? {
+              ...c.numbers,
+              statistic: finite(c.numbers.statistic),
+              df: c.numbers.df?.map((d) => finite(d)) ?? null,
+              p: finite(c.numbers.p),
+            }
+          : null,
+        summary: v.summary,
+        remedy: v.remedy,
+        flaggedCount: v.flaggedCount,
+        flagged: v.flagged.map((f) => ({
+          rank: f.rank,
+          value: finite(f.value),
+          ...(redact.seesSubjects ? { subjectId: f.who } : {}),
+        })),
+      };
+    }),
+  ];
 }
 
-const parseDoc = (r: Rerun): RerunDocument | null => (r.resultJson ? (JSON.parse(r.resultJson) as RerunDocument) : null);
+const parseDoc = (r: Rerun): RerunDocument | null =>
+  r.resultJson ? (JSON.parse(r.resultJson) as RerunDocument) : null;
 
-export async function getStudyRerun(p: ApiPrincipal, studyId: string, rerunId: string): Promise<Body<typeof RerunAnswer>> {
+export async function getStudyRerun(
+  p: ApiPrincipal,
+  studyId: string,
+  rerunId: string,
+): Promise<Body<typeof RerunAnswer>> {
   const { study, everyRerun, withSubjectIds } = await rerunAccess(p, studyId);
   const [found] = await rerunsOfStudy(study.id, rerunId);
   // An unpublished rerun does not exist for a reader who may see only published ones.
-  if (!found || (!everyRerun && found.row.publishedAt === null)) throw new ApiError("not_found", "There is no such rerun in this study.");
+  if (!found || (!everyRerun && found.row.publishedAt === null))
+    throw new ApiError("not_found", "There is no such rerun in this study.");
   const doc = await storedRerunDocument(found.row);
   const [findings, signatures, children] = await Promise.all([
     findingsOf(rerunId),
     signaturesOf(rerunId),
     found.row.kind === "primary" ? sensitivityReruns(rerunId) : Promise.resolve([]),
   ]);
-  const shownChildren = children.filter((c) => everyRerun || c.publishedAt !== null).map((c) => ({ row: c, doc: parseDoc(c) }));
+  const shownChildren = children
+    .filter((c) => everyRerun || c.publishedAt !== null)
+    .map((c) => ({ row: c, doc: parseDoc(c) }));
   const redact = await redactionFor(withSubjectIds, [
     { doc, datasetVersionId: found.row.datasetVersionId },
     ...shownChildren.map((c) => ({ doc: c.doc, datasetVersionId: c.row.datasetVersionId })),
   ]);
   const txt = (s: string, key?: string | null) => redact.text(s, key);
   const body: Body<typeof RerunAnswer> = {
-    rerun: { ...found.out, label: found.out.label === null ? null : txt(found.out.label), failureReason: found.out.failureReason === null ? null : txt(found.out.failureReason) },
+    rerun: {
+      ...found.out,
+      label: found.out.label === null ? null : txt(found.out.label),
+      failureReason: found.out.failureReason === null ? null : txt(found.out.failureReason),
+    },
     results: doc ? resultsOut(doc) : null,
     checks: doc ? checksOut(doc, redact) : [],
-    reproduction: doc?.reproduction ? { ...doc.reproduction, values: doc.reproduction.values.map((v) => ({ ...v, rerunValue: finite(v.rerunValue) })) } : null,
+    reproduction: doc?.reproduction
+      ? {
+          ...doc.reproduction,
+          values: doc.reproduction.values.map((v) => ({ ...v, rerunValue: finite(v.rerunValue) })),
+        }
+      : null,
     findings: findings.map((f) => ({
       id: f.id,
       kind: f.kind,
@@ -241,16 +324,26 @@ export async function getStudyRerun(p: ApiPrincipal, studyId: string, rerunId: s
           }
         : null,
     })),
-    signatures: signatures.map((s) => ({ signerName: s.signerName, meaning: s.meaning, signedAt: s.signedAt })),
+    signatures: signatures.map((s) => ({
+      signerName: s.signerName,
+      meaning: s.meaning,
+      signedAt: s.signedAt,
+    })),
     sensitivity: shownChildren.map(({ row, doc: d }) => ({
       id: row.id,
       label: row.label === null ? null : txt(row.label),
       status: row.status,
       prespecified: row.prespecified,
-      contrasts: d ? reportedContrasts(d).map((c) => ({ label: c.label, estimate: finite(c.estimate), lower: finite(c.lower), upper: finite(c.upper), p: finite(c.p) })) : [],
+      contrasts: d
+        ? reportedContrasts(d).map((c) => ({
+            label: c.label,
+            estimate: finite(c.estimate),
+            lower: finite(c.lower),
+            upper: finite(c.upper),
+            p: finite(c.p),
+          }))
+        : [],
     })),
   };
   return redact.assertClean(body, "A rerun answer");
 }
-
-

@@ -22,12 +22,19 @@ export const registry = new OpenAPIRegistry();
 
 const STUDY_ACTIONS_LIST = Object.keys(STUDY_PERMISSIONS) as [StudyAction, ...StudyAction[]];
 
-const Caution = z.literal(CAUTION).describe("Shown with every answer: results support, but do not replace, qualified statistical and medical review.");
+const Caution = z
+  .literal(CAUTION)
+  .describe(
+    "Shown with every answer: results support, but do not replace, qualified statistical and medical review.",
+  );
 /** A number from a stored result; null where it is not defined (e.g. a p-value of an aliased coefficient). */
 const Num = z.number().nullable();
 const Time = z.string().describe("ISO 8601 UTC time");
 const TimeOrNull = Time.nullable();
-const Sha256 = z.string().regex(/^[0-9a-f]{64}$/).describe("SHA-256, lowercase hex");
+const Sha256 = z
+  .string()
+  .regex(/^[0-9a-f]{64}$/)
+  .describe("SHA-256, lowercase hex");
 
 /** An answer: the caution plus the endpoint's own fields. */
 function answer<S extends z.ZodRawShape>(name: string, shape: S) {
@@ -79,7 +86,10 @@ const DatasetVersion = registry.register(
     uploadedAt: Time,
     lockedBy: z.string().nullable(),
     lockedAt: TimeOrNull,
-    derivedFromVersion: z.int().nullable().describe("Set when this version was made from another by removing identifier columns"),
+    derivedFromVersion: z
+      .int()
+      .nullable()
+      .describe("Set when this version was made from another by removing identifier columns"),
     removedColumns: z.array(z.string()),
   }),
 );
@@ -101,7 +111,9 @@ const Column = registry.register(
     levels: z
       .array(z.strictObject({ value: z.string(), count: z.int() }))
       .optional()
-      .describe("Level counts of a text column with few distinct values; never given for subject identifier columns"),
+      .describe(
+        "Level counts of a text column with few distinct values; never given for subject identifier columns",
+      ),
   }),
 );
 
@@ -119,20 +131,20 @@ export const DatasetVersionAnswer = answer("DatasetVersionAnswer", {
 // Analysis plans ------------------------------------------------------------------------------
 
 const planVersionShape = {
-    id: z.string(),
-    planId: z.string(),
-    planName: z.string(),
-    version: z.int(),
-    title: z.string(),
-    status: z.enum(["draft", "awaiting_approval", "approved", "superseded"]),
-    sapName: z.string().nullable(),
-    sapVersion: z.string().nullable(),
-    sapDate: z.string().nullable(),
-    author: z.string().nullable(),
-    approvedBy: z.string().nullable(),
-    approvedAt: TimeOrNull,
-    createdAt: Time,
-    updatedAt: Time,
+  id: z.string(),
+  planId: z.string(),
+  planName: z.string(),
+  version: z.int(),
+  title: z.string(),
+  status: z.enum(["draft", "awaiting_approval", "approved", "superseded"]),
+  sapName: z.string().nullable(),
+  sapVersion: z.string().nullable(),
+  sapDate: z.string().nullable(),
+  author: z.string().nullable(),
+  approvedBy: z.string().nullable(),
+  approvedAt: TimeOrNull,
+  createdAt: Time,
+  updatedAt: Time,
 };
 const PlanVersion = registry.register("PlanVersion", z.strictObject(planVersionShape));
 
@@ -143,7 +155,9 @@ const PlannedModel = registry.register(
     key: z.string(),
     title: z.string(),
     datasetName: z.string(),
-    spec: z.union([modelSpecSchema, coxSpecSchema]).describe("The model specification: the same object the headless rerun command reads"),
+    spec: z
+      .union([modelSpecSchema, coxSpecSchema])
+      .describe("The model specification: the same object the headless rerun command reads"),
     checks: z.array(plannedCheckSchema),
     sensitivity: z.array(sensitivitySchema),
   }),
@@ -151,7 +165,13 @@ const PlannedModel = registry.register(
 
 export const PlanVersionsAnswer = answer("PlanVersionsAnswer", { planVersions: z.array(PlanVersion) });
 export const PlanVersionAnswer = answer("PlanVersionAnswer", {
-  planVersion: registry.register("PlanVersionDetail", z.strictObject({ ...planVersionShape, editors: z.array(z.string()).describe("Everyone who saved a change to this version") })),
+  planVersion: registry.register(
+    "PlanVersionDetail",
+    z.strictObject({
+      ...planVersionShape,
+      editors: z.array(z.string()).describe("Everyone who saved a change to this version"),
+    }),
+  ),
   plannedModels: z.array(PlannedModel),
 });
 
@@ -171,7 +191,9 @@ const Rerun = registry.register(
     planVersion: z.strictObject({ id: z.string(), version: z.int() }),
     dataset: z.strictObject({ versionId: z.string(), name: z.string(), version: z.int(), sha256: Sha256 }),
     engineVersion: z.string().nullable(),
-    resultSha256: Sha256.nullable().describe("SHA-256 of the stored result; the same inputs always give the same hash"),
+    resultSha256: Sha256.nullable().describe(
+      "SHA-256 of the stored result; the same inputs always give the same hash",
+    ),
     parentRerunId: z.string().nullable(),
     prespecified: z.boolean(),
     findings: z.int(),
@@ -189,34 +211,82 @@ const Results = registry.register(
   z.strictObject({
     description: z.string(),
     method: z.string(),
-    family: z.string().describe("gaussian, binomial, poisson, quasipoisson, negative-binomial or cox (time to event)"),
+    family: z
+      .string()
+      .describe("gaussian, binomial, poisson, quasipoisson, negative-binomial or cox (time to event)"),
     link: z.string(),
-    familyLabel: z.string().describe('The family and link in words: "Normal (identity link)", "Binomial (logit link)", "Cox proportional hazards"'),
-    covarianceType: z.enum(["model", "HC0", "HC1", "HC2", "HC3"]).nullable().describe("Linear models: the coefficient table's standard errors"),
+    familyLabel: z
+      .string()
+      .describe(
+        'The family and link in words: "Normal (identity link)", "Binomial (logit link)", "Cox proportional hazards"',
+      ),
+    covarianceType: z
+      .enum(["model", "HC0", "HC1", "HC2", "HC3"])
+      .nullable()
+      .describe("Linear models: the coefficient table's standard errors"),
     n: z.int(),
     rank: z.int(),
     dfResidual: Num,
-    rows: z.strictObject({ inFile: z.int(), outsidePopulation: z.int(), excludedByOption: z.int(), missingCells: z.int(), used: z.int() }),
+    rows: z.strictObject({
+      inFile: z.int(),
+      outsidePopulation: z.int(),
+      excludedByOption: z.int(),
+      missingCells: z.int(),
+      used: z.int(),
+    }),
     population: z
-      .array(z.strictObject({ condition: z.string(), removed: z.int().nullable().describe("Null for reruns stored before rows were counted per condition") }))
-      .describe("The population conditions in the plan's order, each with the rows it removed (a row is counted by the first condition it fails); empty: every row"),
+      .array(
+        z.strictObject({
+          condition: z.string(),
+          removed: z
+            .int()
+            .nullable()
+            .describe("Null for reruns stored before rows were counted per condition"),
+        }),
+      )
+      .describe(
+        "The population conditions in the plan's order, each with the rows it removed (a row is counted by the first condition it fails); empty: every row",
+      ),
     treatmentEffect: z
       .strictObject({
         contrastSet: z.enum(["reference", "pairwise"]),
         multiplicity: z.enum(["none", "bonferroni", "holm", "hochberg"]),
         test: z
           .union([
-            z.strictObject({ name: z.literal("F"), term: z.string(), statistic: Num, df1: z.int(), df2: z.int(), p: Num, reason: z.string().optional() }),
-            z.strictObject({ name: z.literal("χ²"), term: z.string(), statistic: Num, df: z.int(), p: Num, reason: z.string().optional() }),
+            z.strictObject({
+              name: z.literal("F"),
+              term: z.string(),
+              statistic: Num,
+              df1: z.int(),
+              df2: z.int(),
+              p: Num,
+              reason: z.string().optional(),
+            }),
+            z.strictObject({
+              name: z.literal("χ²"),
+              term: z.string(),
+              statistic: Num,
+              df: z.int(),
+              p: Num,
+              reason: z.string().optional(),
+            }),
           ])
           .nullable()
-          .describe("Overall test of the treatment term: F for linear models, likelihood-ratio χ² for generalized linear models"),
+          .describe(
+            "Overall test of the treatment term: F for linear models, likelihood-ratio χ² for generalized linear models",
+          ),
       })
       .nullable()
-      .describe("The plan's contrasts and multiplicity method with the overall treatment test; null for time-to-event models"),
+      .describe(
+        "The plan's contrasts and multiplicity method with the overall treatment test; null for time-to-event models",
+      ),
     coefficients: z.array(
       z.strictObject({
-        name: z.string().describe('"Intercept", a variable, "VAR: LEVEL" for a level of a factor; interaction parts joined by " × " ("arm: High dose × base")'),
+        name: z
+          .string()
+          .describe(
+            '"Intercept", a variable, "VAR: LEVEL" for a level of a factor; interaction parts joined by " × " ("arm: High dose × base")',
+          ),
         term: z.string().nullable(),
         estimate: Num,
         statistic: Num,
@@ -225,7 +295,16 @@ const Results = registry.register(
       }),
     ),
     fit: z
-      .strictObject({ sigma: Num, rSquared: Num, adjRSquared: Num, fStatistic: Num, fP: Num, aic: Num, deviance: Num, dispersion: Num })
+      .strictObject({
+        sigma: Num,
+        rSquared: Num,
+        adjRSquared: Num,
+        fStatistic: Num,
+        fP: Num,
+        aic: Num,
+        deviance: Num,
+        dispersion: Num,
+      })
       .describe("Linear models fill sigma to fP; generalized linear models deviance and dispersion"),
     adjustedMeans: z
       .array(z.strictObject({ level: z.string(), estimate: Num, ...Interval, hc3: z.strictObject(Interval) }))
@@ -240,16 +319,22 @@ const Results = registry.register(
           estimate: Num,
           statistic: Num,
           p: Num,
-          pAdjusted: Num.optional().describe("p adjusted for multiplicity by the plan's method; absent when the plan names none"),
+          pAdjusted: Num.optional().describe(
+            "p adjusted for multiplicity by the plan's method; absent when the plan names none",
+          ),
           ...Interval,
           hc3: z
             .strictObject({ statistic: Num, p: Num, pAdjusted: Num.optional(), ...Interval })
             .nullable()
-            .describe("Linear models: HC3 errors; generalized linear models: the variance of Ye et al. (2023), null where it does not apply"),
+            .describe(
+              "Linear models: HC3 errors; generalized linear models: the variance of Ye et al. (2023), null where it does not apply",
+            ),
         }),
       )
       .nullable()
-      .describe("Treatment contrasts (against the reference arm or between every pair of arms, as planned), model-based and with robust errors; generalized linear models give marginal contrasts labelled with their measure"),
+      .describe(
+        "Treatment contrasts (against the reference arm or between every pair of arms, as planned), model-based and with robust errors; generalized linear models give marginal contrasts labelled with their measure",
+      ),
   }),
 );
 
@@ -258,18 +343,28 @@ const checkKeys = CHECKS.map((c) => c.key) as [CheckKey, ...CheckKey[]];
 const Check = registry.register(
   "CheckOutcome",
   z.strictObject({
-    key: z.enum([...checkKeys, "reproduction"]).describe('"reproduction": the reproduction check of the published values (its values in the answer\'s `reproduction`)'),
+    key: z
+      .enum([...checkKeys, "reproduction"])
+      .describe(
+        '"reproduction": the reproduction check of the published values (its values in the answer\'s `reproduction`)',
+      ),
     label: z.string(),
     outcome: z.enum(["within", "finding", "not_computed"]),
     statistic: z.string(),
     threshold: z.string(),
     numbers: z
       .strictObject({
-        measure: z.string().describe('What `statistic` is: "Shapiro–Wilk statistic", "largest Cook\'s distance"'),
+        measure: z
+          .string()
+          .describe('What `statistic` is: "Shapiro–Wilk statistic", "largest Cook\'s distance"'),
         statistic: Num,
         df: z.array(Num).nullable().describe("Degrees of freedom of a test statistic: one for χ², two for F"),
-        threshold: z.number().describe("The bound as applied (4/n worked out), or the planned level for a p-value"),
-        compares: z.enum(["statistic above", "statistic below", "p below"]).describe("What is compared with the threshold, and which side is a finding"),
+        threshold: z
+          .number()
+          .describe("The bound as applied (4/n worked out), or the planned level for a p-value"),
+        compares: z
+          .enum(["statistic above", "statistic below", "p below"])
+          .describe("What is compared with the threshold, and which side is a finding"),
         p: Num,
       })
       .nullable()
@@ -329,7 +424,10 @@ const Reproduction = z.strictObject({
       printed: z.string().describe("The value as the study report printed it"),
       decimals: z.int(),
       rerunValue: Num.describe("As computed; null when the rerun has no such quantity"),
-      rerunRounded: z.string().nullable().describe("The rerun's value rounded to the printed decimals, half away from zero"),
+      rerunRounded: z
+        .string()
+        .nullable()
+        .describe("The rerun's value rounded to the printed decimals, half away from zero"),
       outcome: z.enum(["reproduced", "not_reproduced"]),
       reason: z.string(),
     }),
@@ -339,8 +437,14 @@ const Reproduction = z.strictObject({
 export const RerunAnswer = answer("RerunAnswer", {
   rerun: Rerun,
   results: Results.nullable().describe("Null until the rerun has completed"),
-  checks: z.array(Check).describe('The checks of the plan; the reproduction check ("reproduction") is among them when the plan gives published values'),
-  reproduction: Reproduction.nullable().describe("Each published value against the rerun; null when the plan gives none or the rerun has not completed"),
+  checks: z
+    .array(Check)
+    .describe(
+      'The checks of the plan; the reproduction check ("reproduction") is among them when the plan gives published values',
+    ),
+  reproduction: Reproduction.nullable().describe(
+    "Each published value against the rerun; null when the plan gives none or the rerun has not completed",
+  ),
   findings: z.array(Finding),
   signatures: z.array(z.strictObject({ signerName: z.string(), meaning: z.string(), signedAt: Time })),
   sensitivity: z
@@ -350,7 +454,11 @@ export const RerunAnswer = answer("RerunAnswer", {
         label: z.string().nullable(),
         status: RerunStatus,
         prespecified: z.boolean(),
-        contrasts: z.array(ReportedContrast).describe("As the analysis reports them: HC3 intervals for the robust-errors analysis, sandwich intervals for the Cox analysis clustered by subject"),
+        contrasts: z
+          .array(ReportedContrast)
+          .describe(
+            "As the analysis reports them: HC3 intervals for the robust-errors analysis, sandwich intervals for the Cox analysis clustered by subject",
+          ),
       }),
     )
     .describe("Sensitivity reruns beside a primary rerun, with their treatment contrasts"),
@@ -370,10 +478,18 @@ export const DeviationsAnswer = answer("DeviationsAnswer", {
         rationale: z.string(),
         recordedBy: z.string().nullable(),
         recordedAt: Time,
-        rerun: z.strictObject({ id: z.string(), label: z.string().nullable(), signedAt: TimeOrNull }).nullable(),
+        rerun: z
+          .strictObject({ id: z.string(), label: z.string().nullable(), signedAt: TimeOrNull })
+          .nullable(),
         plannedModel: z.strictObject({ key: z.string(), title: z.string() }).nullable(),
         finding: z
-          .strictObject({ id: z.string(), checkKey: z.string(), summary: z.string(), statistic: z.string().nullable(), threshold: z.string().nullable() })
+          .strictObject({
+            id: z.string(),
+            checkKey: z.string(),
+            summary: z.string(),
+            statistic: z.string().nullable(),
+            threshold: z.string().nullable(),
+          })
           .nullable(),
       }),
     ),

@@ -25,10 +25,17 @@ export const MAX_ACTIVE_TOKENS = 10;
 const TOUCH_AFTER_MS = 60 * 1000;
 
 export const NewToken = z.object({
-  name: z.string().trim().min(2, "Name the token after what will use it, e.g. nightly report pipeline.").max(80, "Keep the name under 80 characters."),
+  name: z
+    .string()
+    .trim()
+    .min(2, "Name the token after what will use it, e.g. nightly report pipeline.")
+    .max(80, "Keep the name under 80 characters."),
   days: z.coerce
     .number()
-    .refine((d): d is (typeof EXPIRY_DAYS)[number] => (EXPIRY_DAYS as readonly number[]).includes(d), "Choose an expiry of 7, 30 or 90 days."),
+    .refine(
+      (d): d is (typeof EXPIRY_DAYS)[number] => (EXPIRY_DAYS as readonly number[]).includes(d),
+      "Choose an expiry of 7, 30 or 90 days.",
+    ),
 });
 export type NewToken = z.infer<typeof NewToken>;
 
@@ -43,10 +50,14 @@ export function statusOf(row: Pick<ApiTokenRow, "revokedAt" | "expiresAt">, now 
   return Date.parse(row.expiresAt) <= now ? "expired" : "active";
 }
 
-export type CreateTokenResult = { ok: true; token: string; row: ApiTokenRow } | { ok: false; message: string };
+export type CreateTokenResult =
+  { ok: true; token: string; row: ApiTokenRow } | { ok: false; message: string };
 
 /** Creates a token for the person; the returned plain token is never stored and cannot be shown again. */
-export async function createToken(person: Actor & { id: string }, input: NewToken): Promise<CreateTokenResult> {
+export async function createToken(
+  person: Actor & { id: string },
+  input: NewToken,
+): Promise<CreateTokenResult> {
   const token = `${TOKEN_PREFIX}${randomBytes(32).toString("base64url")}`;
   const at = new Date();
   const row: ApiTokenRow = {
@@ -64,13 +75,28 @@ export async function createToken(person: Actor & { id: string }, input: NewToke
     const active = await tx
       .select({ id: t.apiTokens.id })
       .from(t.apiTokens)
-      .where(and(eq(t.apiTokens.personId, person.id), isNull(t.apiTokens.revokedAt), gt(t.apiTokens.expiresAt, row.createdAt)));
+      .where(
+        and(
+          eq(t.apiTokens.personId, person.id),
+          isNull(t.apiTokens.revokedAt),
+          gt(t.apiTokens.expiresAt, row.createdAt),
+        ),
+      );
     if (active.length >= MAX_ACTIVE_TOKENS) {
-      return { ok: false, message: `You already have ${active.length} active tokens, the most one person may hold. Revoke one you no longer use first.` };
+      return {
+        ok: false,
+        message: `You already have ${active.length} active tokens, the most one person may hold. Revoke one you no longer use first.`,
+      };
     }
     await tx.insert(t.apiTokens).values(row);
     await appendAudit(
-      { actor: person, action: "token.create", entityType: "api_token", entityId: row.id, after: { name: row.name, prefix: row.prefix, expiresAt: row.expiresAt } },
+      {
+        actor: person,
+        action: "token.create",
+        entityType: "api_token",
+        entityId: row.id,
+        after: { name: row.name, prefix: row.prefix, expiresAt: row.expiresAt },
+      },
       tx,
     );
     return { ok: true, token, row };
@@ -79,7 +105,11 @@ export async function createToken(person: Actor & { id: string }, input: NewToke
 
 /** A person's own tokens, newest first. */
 export async function tokensOf(personId: string): Promise<ApiTokenRow[]> {
-  return db.select().from(t.apiTokens).where(eq(t.apiTokens.personId, personId)).orderBy(desc(t.apiTokens.createdAt));
+  return db
+    .select()
+    .from(t.apiTokens)
+    .where(eq(t.apiTokens.personId, personId))
+    .orderBy(desc(t.apiTokens.createdAt));
 }
 
 export interface TokenListing extends ApiTokenRow {
@@ -103,10 +133,15 @@ export type RevokeResult = { ok: true } | { ok: false; message: string };
  * Revokes a token. `as: "owner"` revokes only the actor's own token; `as: "administrator"`
  * any token (the caller has checked the administrator permission).
  */
-export async function revokeToken(actor: Actor & { id: string }, tokenId: string, as: "owner" | "administrator"): Promise<RevokeResult> {
+export async function revokeToken(
+  actor: Actor & { id: string },
+  tokenId: string,
+  as: "owner" | "administrator",
+): Promise<RevokeResult> {
   return writeTransaction(async (tx): Promise<RevokeResult> => {
     const [row] = await tx.select().from(t.apiTokens).where(eq(t.apiTokens.id, tokenId)).limit(1);
-    if (!row || (as === "owner" && row.personId !== actor.id)) return { ok: false, message: "There is no such token among yours." };
+    if (!row || (as === "owner" && row.personId !== actor.id))
+      return { ok: false, message: "There is no such token among yours." };
     if (row.revokedAt) return { ok: true };
     const at = isoNow();
     await tx.update(t.apiTokens).set({ revokedAt: at }).where(eq(t.apiTokens.id, tokenId));
@@ -118,7 +153,10 @@ export async function revokeToken(actor: Actor & { id: string }, tokenId: string
         entityId: tokenId,
         before: { status: statusOf(row) },
         after: { status: "revoked", revokedAt: at },
-        detail: as === "owner" ? `"${row.name}" (${row.prefix}…) revoked by its owner` : `"${row.name}" (${row.prefix}…) revoked by an administrator`,
+        detail:
+          as === "owner"
+            ? `"${row.name}" (${row.prefix}…) revoked by its owner`
+            : `"${row.name}" (${row.prefix}…) revoked by an administrator`,
       },
       tx,
     );
@@ -142,15 +180,38 @@ export async function verifyToken(token: string): Promise<TokenCheck> {
     .innerJoin(t.people, eq(t.people.id, t.apiTokens.personId))
     .where(eq(t.apiTokens.tokenHash, hashToken(token)))
     .limit(1);
-  if (!row) return { ok: false, message: "This API token is not known to Plumbline. Check that it was copied whole, or create a new one on your profile page." };
+  if (!row)
+    return {
+      ok: false,
+      message:
+        "This API token is not known to Plumbline. Check that it was copied whole, or create a new one on your profile page.",
+    };
   const status = statusOf(row.k);
-  if (status === "revoked") return { ok: false, message: `This API token ("${row.k.name}") was revoked on ${row.k.revokedAt}. Create a new one on your profile page.` };
-  if (status === "expired") return { ok: false, message: `This API token ("${row.k.name}") expired on ${row.k.expiresAt}. Create a new one on your profile page.` };
+  if (status === "revoked")
+    return {
+      ok: false,
+      message: `This API token ("${row.k.name}") was revoked on ${row.k.revokedAt}. Create a new one on your profile page.`,
+    };
+  if (status === "expired")
+    return {
+      ok: false,
+      message: `This API token ("${row.k.name}") expired on ${row.k.expiresAt}. Create a new one on your profile page.`,
+    };
   if (!row.k.lastUsedAt || Date.now() - Date.parse(row.k.lastUsedAt) > TOUCH_AFTER_MS) {
-    await writeTransaction((tx) => tx.update(t.apiTokens).set({ lastUsedAt: isoNow() }).where(eq(t.apiTokens.id, row.k.id)));
+    await writeTransaction((tx) =>
+      tx.update(t.apiTokens).set({ lastUsedAt: isoNow() }).where(eq(t.apiTokens.id, row.k.id)),
+    );
   }
   return {
     ok: true,
-    principal: { tokenId: row.k.id, person: { id: row.p.id, displayName: row.p.displayName, email: row.p.email, organisation: row.p.organisation } },
+    principal: {
+      tokenId: row.k.id,
+      person: {
+        id: row.p.id,
+        displayName: row.p.displayName,
+        email: row.p.email,
+        organisation: row.p.organisation,
+      },
+    },
   };
 }

@@ -55,9 +55,24 @@ async function storeBytes(bytes: Buffer, relative: string): Promise<boolean> {
 }
 
 /** Records a refused export in the audit trail; a failure to record it (full disk) is only logged. */
-async function auditRefusal(actor: PersonActor, studyId: string, scope: AppendixScope, reason: string): Promise<void> {
-  await appendAudit({ actor, action: "appendix.export_refused", entityType: "appendix", studyId, after: { scope: scope.kind }, detail: reason }).catch((e: unknown) =>
-    console.error("Could not record a refused appendix export in the audit trail:", e instanceof Error ? e.message : e),
+async function auditRefusal(
+  actor: PersonActor,
+  studyId: string,
+  scope: AppendixScope,
+  reason: string,
+): Promise<void> {
+  await appendAudit({
+    actor,
+    action: "appendix.export_refused",
+    entityType: "appendix",
+    studyId,
+    after: { scope: scope.kind },
+    detail: reason,
+  }).catch((e: unknown) =>
+    console.error(
+      "Could not record a refused appendix export in the audit trail:",
+      e instanceof Error ? e.message : e,
+    ),
   );
 }
 
@@ -74,7 +89,11 @@ export async function renderAppendix(studyId: string, scope: AppendixScope) {
  * cannot be written (full or read-only data folder) it throws AppendixRefused, having removed
  * what it wrote: no file without its record, no record without its file.
  */
-export async function exportAppendix(actor: PersonActor, studyId: string, scope: AppendixScope): Promise<StoredAppendix> {
+export async function exportAppendix(
+  actor: PersonActor,
+  studyId: string,
+  scope: AppendixScope,
+): Promise<StoredAppendix> {
   const { content, bytes, sha256 } = await renderAppendix(studyId, scope);
   const storedPath = appendixRelativePath(sha256);
   let placed = false;
@@ -100,7 +119,13 @@ export async function exportAppendix(actor: PersonActor, studyId: string, scope:
           entityType: "appendix",
           entityId: row.id,
           studyId,
-          after: { sha256, byteSize: row.byteSize, planVersionId: row.planVersionId, rerunIds: content.rerunIds, scope: content.scope.kind },
+          after: {
+            sha256,
+            byteSize: row.byteSize,
+            planVersionId: row.planVersionId,
+            rerunIds: content.rerunIds,
+            scope: content.scope.kind,
+          },
         },
         tx,
       );
@@ -110,12 +135,23 @@ export async function exportAppendix(actor: PersonActor, studyId: string, scope:
   } catch (e) {
     if (placed) {
       // Keep a file an earlier export's record points to; drop one only this export wrote.
-      const [other] = await db.select({ id: t.appendices.id }).from(t.appendices).where(eq(t.appendices.storedPath, storedPath)).limit(1).catch(() => [{ id: "unknown" }]);
+      const [other] = await db
+        .select({ id: t.appendices.id })
+        .from(t.appendices)
+        .where(eq(t.appendices.storedPath, storedPath))
+        .limit(1)
+        .catch(() => [{ id: "unknown" }]);
       if (!other) await rm(path.resolve(config.DATA_DIR, storedPath), { force: true }).catch(() => undefined);
     }
     const reason = `The appendix could not be stored: ${isStorageError(e) ? describeStorageError(e) : e instanceof Error ? e.message : String(e)}. ${STORAGE_ADVICE}`;
     await auditRefusal(actor, studyId, scope, reason);
-    if (isStorageError(e) || /SQLITE_(FULL|IOERR|READONLY|CANTOPEN)/.test(String((e as { code?: unknown })?.code ?? (e as Error)?.message))) throw new AppendixRefused(reason);
+    if (
+      isStorageError(e) ||
+      /SQLITE_(FULL|IOERR|READONLY|CANTOPEN)/.test(
+        String((e as { code?: unknown })?.code ?? (e as Error)?.message),
+      )
+    )
+      throw new AppendixRefused(reason);
     throw e;
   }
 }
@@ -132,15 +168,30 @@ export async function listAppendices(studyId: string): Promise<AppendixListing[]
     .leftJoin(t.people, eq(t.people.id, t.appendices.exportedBy))
     .where(eq(t.appendices.studyId, studyId))
     .orderBy(desc(t.appendices.exportedAt));
-  return rows.map(({ a, who }) => ({ ...a, rerunIds: JSON.parse(a.rerunIdsJson) as string[], exportedByName: who }));
+  return rows.map(({ a, who }) => ({
+    ...a,
+    rerunIds: JSON.parse(a.rerunIdsJson) as string[],
+    exportedByName: who,
+  }));
 }
 
-const notFound = () => data({ message: "There is no such appendix in this study. Export one from the appendix page first." }, { status: 404 });
+const notFound = () =>
+  data(
+    { message: "There is no such appendix in this study. Export one from the appendix page first." },
+    { status: 404 },
+  );
 
 /** A stored export by id, or the newest export that contains the given rerun. */
-export async function findAppendix(studyId: string, by: { id: string } | { rerunId: string }): Promise<StoredAppendix> {
+export async function findAppendix(
+  studyId: string,
+  by: { id: string } | { rerunId: string },
+): Promise<StoredAppendix> {
   if ("id" in by) {
-    const [row] = await db.select().from(t.appendices).where(and(eq(t.appendices.id, by.id), eq(t.appendices.studyId, studyId))).limit(1);
+    const [row] = await db
+      .select()
+      .from(t.appendices)
+      .where(and(eq(t.appendices.id, by.id), eq(t.appendices.studyId, studyId)))
+      .limit(1);
     if (!row) throw notFound();
     return row;
   }
@@ -154,7 +205,11 @@ export async function findAppendix(studyId: string, by: { id: string } | { rerun
 export async function appendixIsPublished(a: StoredAppendix): Promise<boolean> {
   const ids = JSON.parse(a.rerunIdsJson) as string[];
   for (const id of ids) {
-    const [r] = await db.select({ publishedAt: t.reruns.publishedAt, studyId: t.reruns.studyId }).from(t.reruns).where(eq(t.reruns.id, id)).limit(1);
+    const [r] = await db
+      .select({ publishedAt: t.reruns.publishedAt, studyId: t.reruns.studyId })
+      .from(t.reruns)
+      .where(eq(t.reruns.id, id))
+      .limit(1);
     if (!r || !r.publishedAt || r.studyId !== a.studyId) return false;
   }
   return ids.length > 0;
@@ -164,7 +219,10 @@ export async function appendixIsPublished(a: StoredAppendix): Promise<boolean> {
 export async function appendixBytes(a: StoredAppendix): Promise<Buffer> {
   const bytes = await readFile(path.resolve(config.DATA_DIR, a.storedPath));
   const sha = createHash("sha256").update(bytes).digest("hex");
-  if (sha !== a.sha256) throw new Error(`The stored appendix ${a.id} no longer matches its recorded SHA-256; restore it from backup or export it again.`);
+  if (sha !== a.sha256)
+    throw new Error(
+      `The stored appendix ${a.id} no longer matches its recorded SHA-256; restore it from backup or export it again.`,
+    );
   return bytes;
 }
 

@@ -9,10 +9,20 @@ import type { CoxResult } from "~/engine/survival/cox-model";
 import { coxModelTests } from "../reruns/cox-rerun-view.server";
 
 /** The results tables of a Cox rerun, numbered by `next`. */
-export function coxResultBlocks(r: CoxResult, rerunId: string, modelTitle: string, next: { table: () => number }): Block[] {
+export function coxResultBlocks(
+  r: CoxResult,
+  rerunId: string,
+  modelTitle: string,
+  next: { table: () => number },
+): Block[] {
   const se = r.robust ? "robust (sandwich)" : "model-based";
   const t = r.tests;
-  const chi = (name: string, x: { statistic: number; df: number; p: number }) => [name, fmt(x.statistic, 2), String(x.df), fmtP(x.p)];
+  const chi = (name: string, x: { statistic: number; df: number; p: number }) => [
+    name,
+    fmt(x.statistic, 2),
+    String(x.df),
+    fmtP(x.p),
+  ];
   return [
     {
       kind: "paragraph",
@@ -24,8 +34,24 @@ export function coxResultBlocks(r: CoxResult, rerunId: string, modelTitle: strin
       key: `coefficients:${rerunId}`,
       number: next.table(),
       caption: `Estimated log hazard ratios and hazard ratios, ${modelTitle}`,
-      columns: [{ label: "Coefficient" }, { label: "log HR", numeric: true }, { label: "SE", numeric: true }, { label: "z", numeric: true }, { label: "p", numeric: true }, { label: "Hazard ratio", numeric: true }, { label: "95% CI", numeric: true }],
-      rows: r.coefficients.map((c, j) => [c.name, fmt(c.estimate), fmt(r.robust ? c.robustSe : c.se), fmt(c.statistic, 2), fmtP(c.p), fmt(r.ratios[j].ratio), fmtCi(r.ratios[j].lower, r.ratios[j].upper)]),
+      columns: [
+        { label: "Coefficient" },
+        { label: "log HR", numeric: true },
+        { label: "SE", numeric: true },
+        { label: "z", numeric: true },
+        { label: "p", numeric: true },
+        { label: "Hazard ratio", numeric: true },
+        { label: "95% CI", numeric: true },
+      ],
+      rows: r.coefficients.map((c, j) => [
+        c.name,
+        fmt(c.estimate),
+        fmt(r.robust ? c.robustSe : c.se),
+        fmt(c.statistic, 2),
+        fmtP(c.p),
+        fmt(r.ratios[j].ratio),
+        fmtCi(r.ratios[j].lower, r.ratios[j].upper),
+      ]),
       note: `Wald z and 95% intervals on ${se} standard errors; hazard ratios are exp(log HR).`,
     },
     {
@@ -33,7 +59,12 @@ export function coxResultBlocks(r: CoxResult, rerunId: string, modelTitle: strin
       key: `cox-tests:${rerunId}`,
       number: next.table(),
       caption: `Tests of the model and of proportional hazards, ${modelTitle}`,
-      columns: [{ label: "Test" }, { label: "Statistic (χ²)", numeric: true }, { label: "Degrees of freedom", numeric: true }, { label: "p", numeric: true }],
+      columns: [
+        { label: "Test" },
+        { label: "Statistic (χ²)", numeric: true },
+        { label: "Degrees of freedom", numeric: true },
+        { label: "p", numeric: true },
+      ],
       rows: [
         ...coxModelTests(r).map((x) => chi(x.name, x)),
         ...t.proportionalHazards.terms.map((x) => chi(`Proportional hazards: ${x.term}`, x)),

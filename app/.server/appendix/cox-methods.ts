@@ -2,10 +2,21 @@
 import { interactionName } from "~/engine/coefficient-names";
 import type { CoxSpec } from "~/engine/survival/cox-spec";
 
-const TIME_SCALE = { km: "the Kaplan–Meier transform of time", rank: "the rank of time", identity: "time itself", log: "log time" } as const;
+const TIME_SCALE = {
+  km: "the Kaplan–Meier transform of time",
+  rank: "the rank of time",
+  identity: "time itself",
+  log: "log time",
+} as const;
 
-export function coxMethodsParagraphs(s: CoxSpec, named: (col: string) => string, list: (items: string[]) => string): string[] {
-  const main = s.terms.filter((t): t is { variable: string; categorical?: boolean; reference?: string } => "variable" in t);
+export function coxMethodsParagraphs(
+  s: CoxSpec,
+  named: (col: string) => string,
+  list: (items: string[]) => string,
+): string[] {
+  const main = s.terms.filter(
+    (t): t is { variable: string; categorical?: boolean; reference?: string } => "variable" in t,
+  );
   const treatment = main.find((t) => t.variable === s.treatment);
   const covariates = main.filter((t) => t.variable !== s.treatment);
   const interactions = s.terms.flatMap((t) => ("interaction" in t ? [interactionName(t.interaction)] : []));
@@ -13,7 +24,9 @@ export function coxMethodsParagraphs(s: CoxSpec, named: (col: string) => string,
   out.push(
     `The endpoint was the time to event ${named(s.response)}, with ${named(s.status.column)} equal to ${list(s.status.event.map((v) => `"${v}"`))} marking an event and every other value a censored time. ` +
       `It was analysed with a Cox proportional hazards model estimated by maximum partial likelihood (${s.ties === "efron" ? "Efron's" : "Breslow's"} method for tied event times)` +
-      (s.strata.length ? `, stratified by ${list(s.strata.map(named))} (a separate baseline hazard in each stratum)` : "") +
+      (s.strata.length
+        ? `, stratified by ${list(s.strata.map(named))} (a separate baseline hazard in each stratum)`
+        : "") +
       `${s.weights ? `, with case weights from ${s.weights}` : ""}${s.offset ? `, with ${s.offset} entered as an offset` : ""}${s.cluster ? `, with robust standard errors clustered by ${s.cluster}` : ""}. ` +
       "Records with a missing value in the time, the status or any model term were left out (complete-case analysis).",
   );
@@ -26,7 +39,9 @@ export function coxMethodsParagraphs(s: CoxSpec, named: (col: string) => string,
         adjusted +
         (interactions.length ? ` Interactions pre-specified: ${list(interactions)}.` : ""),
     );
-    out.push(`Kaplan–Meier estimates with Greenwood 95% intervals (log scale) describe each arm, and the arms were compared by the log-rank test${s.strata.length ? " stratified as the model" : ""}.`);
+    out.push(
+      `Kaplan–Meier estimates with Greenwood 95% intervals (log scale) describe each arm, and the arms were compared by the log-rank test${s.strata.length ? " stratified as the model" : ""}.`,
+    );
   } else out.push(`The model's terms were ${list(main.map((c) => named(c.variable)))}.`);
   out.push(
     `Proportional hazards were examined with the Grambsch and Therneau (1994) score test per term and globally, on ${TIME_SCALE[s.proportionalHazards.transform]}, read together with the scaled Schoenfeld residuals; the functional form of continuous covariates with martingale residuals (Therneau, Grambsch and Fleming 1990).`,

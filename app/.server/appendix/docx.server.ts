@@ -97,7 +97,8 @@ function withFixedClockAndSeed<T>(at: Date, seed: number, work: () => T): T {
 
 // docx numbers pictures from a counter shared by every document of the process; each picture
 // gets its figure number as id instead (unique within the document, the same on every export).
-const text = (t: string, opts: { bold?: boolean; italics?: boolean; size?: number; color?: string } = {}) => new TextRun({ text: t, ...opts });
+const text = (t: string, opts: { bold?: boolean; italics?: boolean; size?: number; color?: string } = {}) =>
+  new TextRun({ text: t, ...opts });
 
 const cellBorders = {
   top: { style: BorderStyle.SINGLE, size: 4, color: RULE },
@@ -110,7 +111,12 @@ function caption(kind: "Table" | "Figure", number: number, words: string): Parag
   return new Paragraph({
     style: "Caption",
     keepNext: kind === "Table",
-    children: [text(`${kind} `, { bold: true }), new SimpleField(`SEQ ${kind} \\* ARABIC`, String(number)), text(". ", { bold: true }), text(words)],
+    children: [
+      text(`${kind} `, { bold: true }),
+      new SimpleField(`SEQ ${kind} \\* ARABIC`, String(number)),
+      text(". ", { bold: true }),
+      text(words),
+    ],
   });
 }
 
@@ -149,14 +155,21 @@ export function columnWidths(b: Pick<Extract<Block, { kind: "table" }>, "columns
     const cells = [c.label, ...b.rows.map((r) => r[i] ?? "")];
     const longest = Math.max(c.label.length * 0.8, ...cells.slice(1).map((x) => x.length));
     const longestWord = Math.max(...cells.flatMap((x) => x.split(/\s+/).map((w) => w.length)));
-    return { prose: Boolean(c.prose), longest, min: width(longestWord), weight: Math.sqrt(Math.max(longest, 6)) };
+    return {
+      prose: Boolean(c.prose),
+      longest,
+      min: width(longestWord),
+      weight: Math.sqrt(Math.max(longest, 6)),
+    };
   });
   const fit = (mins: number[]) => {
     const total = mins.reduce((a, m) => a + m, 0);
     return mins.map((m) => Math.floor((m / total) * TEXT_WIDTH_TWIPS));
   };
   if (cols.some((c) => c.prose)) {
-    const short = cols.map((c) => (c.prose ? 0 : Math.max(c.min, width(Math.min(c.longest, SHORT_MAX_CHARS)))));
+    const short = cols.map((c) =>
+      c.prose ? 0 : Math.max(c.min, width(Math.min(c.longest, SHORT_MAX_CHARS))),
+    );
     const proseMin = cols.map((c) => (c.prose ? Math.max(c.min, width(PROSE_MIN_CHARS)) : 0));
     const shortTotal = short.reduce((a, w) => a + w, 0);
     const proseTotal = proseMin.reduce((a, w) => a + w, 0);
@@ -171,7 +184,9 @@ export function columnWidths(b: Pick<Extract<Block, { kind: "table" }>, "columns
     }
     const rest = TEXT_WIDTH_TWIPS - shortTotal - proseTotal;
     const proseWeights = cols.reduce((a, c) => a + (c.prose ? c.weight : 0), 0);
-    return cols.map((c, i) => (c.prose ? Math.floor(proseMin[i] + (rest * c.weight) / proseWeights) : short[i]));
+    return cols.map((c, i) =>
+      c.prose ? Math.floor(proseMin[i] + (rest * c.weight) / proseWeights) : short[i],
+    );
   }
   const minTotal = cols.reduce((a, c) => a + c.min, 0);
   if (minTotal >= TEXT_WIDTH_TWIPS) return fit(cols.map((c) => c.min));
@@ -188,7 +203,13 @@ function tableOf(b: Extract<Block, { kind: "table" }>): (Paragraph | Table)[] {
       width: { size: widths[i], type: WidthType.DXA },
       shading: header ? { type: ShadingType.CLEAR, color: "auto", fill: HEAD_FILL } : undefined,
       margins: { top: 40, bottom: 40, left: 80, right: 80 },
-      children: [new Paragraph({ alignment: numeric[i] ? AlignmentType.RIGHT : AlignmentType.LEFT, style: "TableText", children: [text(value, { bold: header })] })],
+      children: [
+        new Paragraph({
+          alignment: numeric[i] ? AlignmentType.RIGHT : AlignmentType.LEFT,
+          style: "TableText",
+          children: [text(value, { bold: header })],
+        }),
+      ],
     });
   const table = new Table({
     style: "TableGrid",
@@ -196,11 +217,21 @@ function tableOf(b: Extract<Block, { kind: "table" }>): (Paragraph | Table)[] {
     columnWidths: widths,
     layout: TableLayoutType.FIXED,
     rows: [
-      new TableRow({ tableHeader: true, cantSplit: true, children: b.columns.map((c, i) => cell(c.label, i, true)) }),
+      new TableRow({
+        tableHeader: true,
+        cantSplit: true,
+        children: b.columns.map((c, i) => cell(c.label, i, true)),
+      }),
       ...b.rows.map((r) => new TableRow({ cantSplit: true, children: r.map((v, i) => cell(v, i, false)) })),
     ],
   });
-  return [caption("Table", b.number, b.caption), table, ...(b.note ? [new Paragraph({ style: "TableNote", children: [text(b.note)] })] : [new Paragraph({ style: "TableNote", children: [] })])];
+  return [
+    caption("Table", b.number, b.caption),
+    table,
+    ...(b.note
+      ? [new Paragraph({ style: "TableNote", children: [text(b.note)] })]
+      : [new Paragraph({ style: "TableNote", children: [] })]),
+  ];
 }
 
 async function figureOf(b: Extract<Block, { kind: "figure" }>): Promise<Paragraph[]> {
@@ -212,7 +243,14 @@ async function figureOf(b: Extract<Block, { kind: "figure" }>): Promise<Paragrap
       keepNext: true,
       alignment: AlignmentType.CENTER,
       spacing: { before: 240, after: 0, line: 240, lineRule: LineRuleType.AUTO },
-      children: [new ImageRun({ type: "png", data: rendered.png, transformation: { width, height }, altText: { id: String(b.number), name: `Figure ${b.number}`, title: b.caption, description: b.alt } })],
+      children: [
+        new ImageRun({
+          type: "png",
+          data: rendered.png,
+          transformation: { width, height },
+          altText: { id: String(b.number), name: `Figure ${b.number}`, title: b.caption, description: b.alt },
+        }),
+      ],
     }),
     caption("Figure", b.number, b.caption),
   ];
@@ -229,14 +267,22 @@ async function blockOf(b: Block): Promise<(Paragraph | Table)[]> {
     case "caution":
       return [
         new Paragraph({
-          border: { top: { style: BorderStyle.SINGLE, size: 8, color: "9A6B1F", space: 6 }, bottom: { style: BorderStyle.SINGLE, size: 8, color: "9A6B1F", space: 6 } },
+          border: {
+            top: { style: BorderStyle.SINGLE, size: 8, color: "9A6B1F", space: 6 },
+            bottom: { style: BorderStyle.SINGLE, size: 8, color: "9A6B1F", space: 6 },
+          },
           spacing: { before: 120, after: 240 },
           children: [text("Caution. ", { bold: true }), text(b.text)],
         }),
       ];
     case "narrative":
       return [
-        new Paragraph({ style: "NarrativeLabel", children: [text(`Medical writer's narrative, version ${b.version}${b.author ? `, ${b.author}` : ""}`)] }),
+        new Paragraph({
+          style: "NarrativeLabel",
+          children: [
+            text(`Medical writer's narrative, version ${b.version}${b.author ? `, ${b.author}` : ""}`),
+          ],
+        }),
         ...b.paragraphs.map((p) => new Paragraph({ children: [text(p)] })),
       ];
     case "table":
@@ -253,8 +299,18 @@ function titlePage(c: AppendixContent): (Paragraph | Table)[] {
       new TableRow({
         cantSplit: true,
         children: [
-          new TableCell({ borders: cellBorders, width: { size: 30, type: WidthType.PERCENTAGE }, margins: { top: 40, bottom: 40, left: 80, right: 80 }, children: [new Paragraph({ style: "TableText", children: [text(f.label, { bold: true })] })] }),
-          new TableCell({ borders: cellBorders, width: { size: 70, type: WidthType.PERCENTAGE }, margins: { top: 40, bottom: 40, left: 80, right: 80 }, children: [new Paragraph({ style: "TableText", children: [text(f.value)] })] }),
+          new TableCell({
+            borders: cellBorders,
+            width: { size: 30, type: WidthType.PERCENTAGE },
+            margins: { top: 40, bottom: 40, left: 80, right: 80 },
+            children: [new Paragraph({ style: "TableText", children: [text(f.label, { bold: true })] })],
+          }),
+          new TableCell({
+            borders: cellBorders,
+            width: { size: 70, type: WidthType.PERCENTAGE },
+            margins: { top: 40, bottom: 40, left: 80, right: 80 },
+            children: [new Paragraph({ style: "TableText", children: [text(f.value)] })],
+          }),
         ],
       }),
   );
@@ -263,7 +319,10 @@ function titlePage(c: AppendixContent): (Paragraph | Table)[] {
     new Paragraph({ heading: HeadingLevel.TITLE, children: [text(c.title)] }),
     new Paragraph({ spacing: { after: 360 }, children: [text(tp.studyTitle, { color: SOFT })] }),
     new Table({ style: "TableGrid", width: { size: 100, type: WidthType.PERCENTAGE }, rows: factRows }),
-    new Paragraph({ spacing: { before: 360 }, children: [text("Caution. ", { bold: true }), text(c.caution)] }),
+    new Paragraph({
+      spacing: { before: 360 },
+      children: [text("Caution. ", { bold: true }), text(c.caution)],
+    }),
     new Paragraph({ children: [new PageBreak()] }),
   ];
 }
@@ -280,17 +339,47 @@ export async function renderDocx(c: AppendixContent): Promise<Buffer> {
   const seed = createHash("sha256").update(JSON.stringify(c)).digest().readUInt32BE(0);
   const small = { size: 16, color: SOFT };
   const section: ISectionOptions = {
-    properties: { titlePage: true, page: { size: { width: 11906, height: 16838 }, margin: { top: MARGIN_TWIPS, bottom: MARGIN_TWIPS, left: MARGIN_TWIPS, right: MARGIN_TWIPS, header: 600, footer: 600 } } },
+    properties: {
+      titlePage: true,
+      page: {
+        size: { width: 11906, height: 16838 },
+        margin: {
+          top: MARGIN_TWIPS,
+          bottom: MARGIN_TWIPS,
+          left: MARGIN_TWIPS,
+          right: MARGIN_TWIPS,
+          header: 600,
+          footer: 600,
+        },
+      },
+    },
     headers: {
       first: new Header({ children: [new Paragraph({ children: [] })] }),
-      default: new Header({ children: [new Paragraph({ alignment: AlignmentType.RIGHT, style: "Header", children: [text(c.runningHeader, small)] })] }),
+      default: new Header({
+        children: [
+          new Paragraph({
+            alignment: AlignmentType.RIGHT,
+            style: "Header",
+            children: [text(c.runningHeader, small)],
+          }),
+        ],
+      }),
     },
     footers: {
       first: new Footer({ children: [new Paragraph({ children: [] })] }),
       default: new Footer({
         children: [
           new Paragraph({ style: "Footer", children: [text(c.caution, small)] }),
-          new Paragraph({ alignment: AlignmentType.RIGHT, style: "Footer", children: [new TextRun({ children: ["Page ", PageNumber.CURRENT, " of ", PageNumber.TOTAL_PAGES], ...small })] }),
+          new Paragraph({
+            alignment: AlignmentType.RIGHT,
+            style: "Footer",
+            children: [
+              new TextRun({
+                children: ["Page ", PageNumber.CURRENT, " of ", PageNumber.TOTAL_PAGES],
+                ...small,
+              }),
+            ],
+          }),
         ],
       }),
     },
@@ -318,19 +407,76 @@ export async function renderDocx(c: AppendixContent): Promise<Buffer> {
       externalStyles: TABLE_GRID_STYLES,
       styles: {
         default: {
-          document: { run: { font: FONT_FAMILY, size: 20, color: INK }, paragraph: { spacing: { after: 120, line: 276, lineRule: LineRuleType.AUTO } } },
+          document: {
+            run: { font: FONT_FAMILY, size: 20, color: INK },
+            paragraph: { spacing: { after: 120, line: 276, lineRule: LineRuleType.AUTO } },
+          },
         },
         paragraphStyles: [
-          { id: "Title", name: "Title", basedOn: "Normal", next: "Normal", quickFormat: true, run: { font: FONT_FAMILY, size: 40, bold: true, color: INK }, paragraph: { spacing: { after: 200 } } },
-          { id: "Subtitle", name: "Subtitle", basedOn: "Normal", next: "Normal", quickFormat: true, run: { font: FONT_FAMILY, size: 24, bold: true, color: "9A6B1F" } },
+          {
+            id: "Title",
+            name: "Title",
+            basedOn: "Normal",
+            next: "Normal",
+            quickFormat: true,
+            run: { font: FONT_FAMILY, size: 40, bold: true, color: INK },
+            paragraph: { spacing: { after: 200 } },
+          },
+          {
+            id: "Subtitle",
+            name: "Subtitle",
+            basedOn: "Normal",
+            next: "Normal",
+            quickFormat: true,
+            run: { font: FONT_FAMILY, size: 24, bold: true, color: "9A6B1F" },
+          },
           heading("Heading1", "heading 1", 30, 360),
           heading("Heading2", "heading 2", 24, 240),
-          { id: "Caption", name: "caption", basedOn: "Normal", next: "Normal", quickFormat: true, run: { font: FONT_FAMILY, size: 18, color: INK }, paragraph: { spacing: { before: 120, after: 80 } } },
-          { id: "TableText", name: "Table Text", basedOn: "Normal", run: { font: FONT_FAMILY, size: 17 }, paragraph: { spacing: { after: 0, line: 240, lineRule: LineRuleType.AUTO } } },
-          { id: "TableNote", name: "Table Note", basedOn: "Normal", run: { font: FONT_FAMILY, size: 16, color: SOFT }, paragraph: { spacing: { before: 60, after: 240 } } },
-          { id: "NarrativeLabel", name: "Narrative Label", basedOn: "Normal", next: "Normal", run: { font: FONT_FAMILY, size: 16, italics: true, color: SOFT }, paragraph: { spacing: { before: 200, after: 60 } } },
-          { id: "Header", name: "header", basedOn: "Normal", run: { font: FONT_FAMILY, size: 16 }, paragraph: { spacing: { after: 0 } } },
-          { id: "Footer", name: "footer", basedOn: "Normal", run: { font: FONT_FAMILY, size: 16 }, paragraph: { spacing: { after: 0 } } },
+          {
+            id: "Caption",
+            name: "caption",
+            basedOn: "Normal",
+            next: "Normal",
+            quickFormat: true,
+            run: { font: FONT_FAMILY, size: 18, color: INK },
+            paragraph: { spacing: { before: 120, after: 80 } },
+          },
+          {
+            id: "TableText",
+            name: "Table Text",
+            basedOn: "Normal",
+            run: { font: FONT_FAMILY, size: 17 },
+            paragraph: { spacing: { after: 0, line: 240, lineRule: LineRuleType.AUTO } },
+          },
+          {
+            id: "TableNote",
+            name: "Table Note",
+            basedOn: "Normal",
+            run: { font: FONT_FAMILY, size: 16, color: SOFT },
+            paragraph: { spacing: { before: 60, after: 240 } },
+          },
+          {
+            id: "NarrativeLabel",
+            name: "Narrative Label",
+            basedOn: "Normal",
+            next: "Normal",
+            run: { font: FONT_FAMILY, size: 16, italics: true, color: SOFT },
+            paragraph: { spacing: { before: 200, after: 60 } },
+          },
+          {
+            id: "Header",
+            name: "header",
+            basedOn: "Normal",
+            run: { font: FONT_FAMILY, size: 16 },
+            paragraph: { spacing: { after: 0 } },
+          },
+          {
+            id: "Footer",
+            name: "footer",
+            basedOn: "Normal",
+            run: { font: FONT_FAMILY, size: 16 },
+            paragraph: { spacing: { after: 0 } },
+          },
         ],
       },
       sections: [section],

@@ -25,7 +25,10 @@ export const PNG_SCALE = 2;
 
 /** Vega-Lite to SVG. aria off (smaller SVG; the appendix carries its own alt text). */
 export async function specToSvg(spec: TopLevelSpec): Promise<string> {
-  const withFont = { ...spec, config: { ...(spec.config ?? {}), font: FONT_FAMILY, aria: false } } as TopLevelSpec;
+  const withFont = {
+    ...spec,
+    config: { ...(spec.config ?? {}), font: FONT_FAMILY, aria: false },
+  } as TopLevelSpec;
   const compiled = toVega(withFont);
   const view = new vega.View(vega.parse(compiled), { renderer: "none" });
   try {
@@ -40,7 +43,12 @@ export function resvgOptions(scale = PNG_SCALE): ResvgRenderOptions {
   const fonts = notoSans();
   return {
     fitTo: { mode: "zoom", value: scale },
-    font: { loadSystemFonts: false, fontFiles: [fonts.regularPath, fonts.boldPath], defaultFontFamily: FONT_FAMILY, sansSerifFamily: FONT_FAMILY },
+    font: {
+      loadSystemFonts: false,
+      fontFiles: [fonts.regularPath, fonts.boldPath],
+      defaultFontFamily: FONT_FAMILY,
+      sansSerifFamily: FONT_FAMILY,
+    },
   };
 }
 

@@ -41,6 +41,9 @@ function characterSet(text: string): string {
 export async function subsetNotoSans(text: string): Promise<{ regular: Buffer; bold: Buffer }> {
   const { regular, bold } = notoSans();
   const chars = characterSet(text);
-  const [r, b] = await Promise.all([subsetFont(regular, chars, { targetFormat: "truetype" }), subsetFont(bold, chars, { targetFormat: "truetype" })]);
+  const [r, b] = await Promise.all([
+    subsetFont(regular, chars, { targetFormat: "truetype" }),
+    subsetFont(bold, chars, { targetFormat: "truetype" }),
+  ]);
   return { regular: r, bold: b };
 }

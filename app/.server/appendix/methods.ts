@@ -44,15 +44,23 @@ function list(items: string[]): string {
 }
 
 /** Paragraphs and bullet lists of the methods section, in reading order. */
-export function methodsProse(m: MethodsInput): { paragraphs: string[]; checks: string[]; sensitivity: string[] } {
+export function methodsProse(m: MethodsInput): {
+  paragraphs: string[];
+  checks: string[];
+  sensitivity: string[];
+} {
   const s = m.spec;
-  const main = s.terms.filter((t): t is { variable: string; categorical?: boolean; reference?: string } => "variable" in t);
+  const main = s.terms.filter(
+    (t): t is { variable: string; categorical?: boolean; reference?: string } => "variable" in t,
+  );
   const treatment = main.find((t) => t.variable === s.treatment);
   const covariates = main.filter((t) => t.variable !== s.treatment);
   const interactions = s.terms.flatMap((t) => ("interaction" in t ? [interactionName(t.interaction)] : []));
   const paragraphs: string[] = [];
 
-  const sap = m.sap.name ? ` as pre-specified in ${m.sap.name}${m.sap.version ? ` version ${m.sap.version}` : ""}${m.sap.date ? ` (${m.sap.date})` : ""}` : "";
+  const sap = m.sap.name
+    ? ` as pre-specified in ${m.sap.name}${m.sap.version ? ` version ${m.sap.version}` : ""}${m.sap.date ? ` (${m.sap.date})` : ""}`
+    : "";
   paragraphs.push(
     `The planned model "${m.title}" was fitted to the locked dataset ${m.datasetName}${sap}. ` +
       (m.population.length > 0
@@ -78,7 +86,9 @@ export function methodsProse(m: MethodsInput): { paragraphs: string[]; checks: s
           (interactions.length ? ` Interactions pre-specified: ${list(interactions)}.` : ""),
       );
       const pairwise = s.contrasts === "pairwise";
-      const compared = pairwise ? "Every pair of arms was compared" : "Each arm was compared with the reference arm";
+      const compared = pairwise
+        ? "Every pair of arms was compared"
+        : "Each arm was compared with the reference arm";
       const multiplicity = s.multiplicity ?? "none";
       const adjustment =
         multiplicity === "none"
@@ -91,15 +101,20 @@ export function methodsProse(m: MethodsInput): { paragraphs: string[]; checks: s
           : " The treatment term as a whole was tested by the likelihood-ratio χ² test of the model against the model without it.";
       if (s.family !== "gaussian") {
         paragraphs.push(
-          `${compared} by marginal (standardized) contrasts: the model's predicted response for every analysed subject was averaged with the subject assigned to each arm in turn, and the arms' averages were compared as differences and ratios with two-sided 95% confidence intervals.` + overall + adjustment,
+          `${compared} by marginal (standardized) contrasts: the model's predicted response for every analysed subject was averaged with the subject assigned to each arm in turn, and the arms' averages were compared as differences and ratios with two-sided 95% confidence intervals.` +
+            overall +
+            adjustment,
         );
-      } else paragraphs.push(
-        "Adjusted means of the endpoint per arm were computed from the fitted model with continuous covariates held at their mean over the records analysed" +
-          (m.meansWeighting === "proportional" ? " and categorical covariates averaged in proportion to their observed frequencies" : " and categorical covariates averaged with equal weight over their levels") +
-          ` (population marginal means, Searle, Speed and Milliken 1980). ${compared} by the difference in adjusted means with a two-sided 95% confidence interval and p-value from the t distribution on the residual degrees of freedom.` +
-          overall +
-          adjustment,
-      );
+      } else
+        paragraphs.push(
+          "Adjusted means of the endpoint per arm were computed from the fitted model with continuous covariates held at their mean over the records analysed" +
+            (m.meansWeighting === "proportional"
+              ? " and categorical covariates averaged in proportion to their observed frequencies"
+              : " and categorical covariates averaged with equal weight over their levels") +
+            ` (population marginal means, Searle, Speed and Milliken 1980). ${compared} by the difference in adjusted means with a two-sided 95% confidence interval and p-value from the t distribution on the residual degrees of freedom.` +
+            overall +
+            adjustment,
+        );
     } else if (covariates.length) {
       paragraphs.push(`The model's terms were ${list(covariates.map((c) => named(c.variable, m.labels)))}.`);
     }

@@ -13,11 +13,23 @@ const WORD = { reproduced: "Reproduced", not_reproduced: "Not reproduced" } as c
 export function reproductionCheckRows(doc: RerunDocument): string[][] {
   if (!doc.reproduction) return [];
   const c = reproductionAsCheck(doc.reproduction);
-  return [[c.label, c.statistic, c.threshold, `${WORD[doc.reproduction.outcome]}${c.outcome === "finding" ? " (finding)" : ""}`]];
+  return [
+    [
+      c.label,
+      c.statistic,
+      c.threshold,
+      `${WORD[doc.reproduction.outcome]}${c.outcome === "finding" ? " (finding)" : ""}`,
+    ],
+  ];
 }
 
 /** The table of published values against the rerun, numbered after the checks table. */
-export function reproductionBlocks(doc: RerunDocument, rerunId: string, modelTitle: string, nextTable: () => number): Block[] {
+export function reproductionBlocks(
+  doc: RerunDocument,
+  rerunId: string,
+  modelTitle: string,
+  nextTable: () => number,
+): Block[] {
   if (!doc.reproduction) return [];
   return [
     {
@@ -25,8 +37,20 @@ export function reproductionBlocks(doc: RerunDocument, rerunId: string, modelTit
       key: `reproduction:${rerunId}`,
       number: nextTable(),
       caption: `Published values against the rerun, ${modelTitle}`,
-      columns: [{ label: "Quantity" }, { label: "Printed", numeric: true }, { label: "Rerun value", numeric: true }, { label: "Rerun, rounded", numeric: true }, { label: "Outcome" }],
-      rows: doc.reproduction.values.map((v) => [v.quantity, v.printed, v.rerunValue === null ? "—" : fmt(v.rerunValue, Math.min(Math.max(v.decimals + 3, 4), 12)), v.rerunRounded ?? "—", `${WORD[v.outcome]}: ${v.reason}`]),
+      columns: [
+        { label: "Quantity" },
+        { label: "Printed", numeric: true },
+        { label: "Rerun value", numeric: true },
+        { label: "Rerun, rounded", numeric: true },
+        { label: "Outcome" },
+      ],
+      rows: doc.reproduction.values.map((v) => [
+        v.quantity,
+        v.printed,
+        v.rerunValue === null ? "—" : fmt(v.rerunValue, Math.min(Math.max(v.decimals + 3, 4), 12)),
+        v.rerunRounded ?? "—",
+        `${WORD[v.outcome]}: ${v.reason}`,
+      ]),
       note: doc.reproduction.rule,
     },
   ];

@@ -50,16 +50,26 @@ async function discover(): Promise<Discovery> {
   const url = `${trimSlash(config.OIDC_ISSUER)}/.well-known/openid-configuration`;
   let doc: Record<string, unknown>;
   try {
-    const res = await fetch(url, { headers: { Accept: "application/json" }, signal: AbortSignal.timeout(3000) });
+    const res = await fetch(url, {
+      headers: { Accept: "application/json" },
+      signal: AbortSignal.timeout(3000),
+    });
     if (!res.ok) throw new Error(`HTTP ${res.status}`);
     doc = (await res.json()) as Record<string, unknown>;
   } catch (error) {
-    throw new ProviderProblem("unavailable", `sponsor sign-in: the provider's discovery document at ${url} did not answer (${(error as Error).message})`);
+    throw new ProviderProblem(
+      "unavailable",
+      `sponsor sign-in: the provider's discovery document at ${url} did not answer (${(error as Error).message})`,
+    );
   }
   const issuer = doc.issuer;
   const endpoints = [doc.authorization_endpoint, doc.token_endpoint, doc.jwks_uri];
   // OpenID Connect Discovery 1.0, section 4.3: the issuer in the document must be the one we asked.
-  if (typeof issuer !== "string" || trimSlash(issuer) !== trimSlash(config.OIDC_ISSUER) || !endpoints.every((e) => typeof e === "string")) {
+  if (
+    typeof issuer !== "string" ||
+    trimSlash(issuer) !== trimSlash(config.OIDC_ISSUER) ||
+    !endpoints.every((e) => typeof e === "string")
+  ) {
     throw new ProviderProblem(
       "misconfigured",
       `sponsor sign-in: the discovery document at ${url} names issuer ${String(issuer)} or lacks its endpoints; set OIDC_ISSUER to the provider's issuer exactly`,
@@ -99,7 +109,13 @@ async function auth(): Promise<Authenticator<JWTPayload>> {
   if (authenticator?.for === d) return authenticator.auth;
   const strategy = new OidcStrategy(
     {
-      cookie: { name: STATE_COOKIE, path: COOKIE_PATH, sameSite: "Lax", maxAge: 600, ...(servedOverHttps ? { secure: true as const } : {}) },
+      cookie: {
+        name: STATE_COOKIE,
+        path: COOKIE_PATH,
+        sameSite: "Lax",
+        maxAge: 600,
+        ...(servedOverHttps ? { secure: true as const } : {}),
+      },
       clientId: config.OIDC_CLIENT_ID,
       clientSecret: config.OIDC_CLIENT_SECRET,
       authorizationEndpoint: d.authorizationEndpoint,
@@ -115,7 +131,12 @@ async function auth(): Promise<Authenticator<JWTPayload>> {
       } catch {
         throw new SignInRefused("other", "the token response carried no ID token");
       }
-      return verifyIdToken(idToken, { issuer: d.issuer, clientId: config.OIDC_CLIENT_ID, keys: d.keys, nonce: nonceFor(state, config.SESSION_SECRET) });
+      return verifyIdToken(idToken, {
+        issuer: d.issuer,
+        clientId: config.OIDC_CLIENT_ID,
+        keys: d.keys,
+        nonce: nonceFor(state, config.SESSION_SECRET),
+      });
     },
   );
   authenticator = { for: d, auth: new Authenticator<JWTPayload>().use(strategy) };
@@ -131,10 +152,15 @@ export async function startOidcSignIn(request: Request): Promise<Response> {
   const url = new URL(request.url);
   const returnTo = safeReturnTo(url.searchParams.get("returnTo"));
   try {
-    await (await auth()).authenticate("oidc", new Request(`${url.origin}${url.pathname}`, { headers: request.headers }));
+    await (
+      await auth()
+    ).authenticate("oidc", new Request(`${url.origin}${url.pathname}`, { headers: request.headers }));
   } catch (thrown) {
     if (thrown instanceof Response) {
-      thrown.headers.append("Set-Cookie", `${RETURN_COOKIE}=${encodeURIComponent(returnTo)}; ${cookieAttributes(600)}`);
+      thrown.headers.append(
+        "Set-Cookie",
+        `${RETURN_COOKIE}=${encodeURIComponent(returnTo)}; ${cookieAttributes(600)}`,
+      );
       return thrown;
     }
     if (thrown instanceof ProviderProblem) {
@@ -166,12 +192,18 @@ function refusalOf(error: unknown): SignInRefused {
   if (error instanceof SignInRefused) return error;
   if (error instanceof ProviderProblem) return new SignInRefused(error.code, error.message);
   if (error instanceof OAuth2RequestError) {
-    if (error.code === "invalid_grant") return new SignInRefused("replayed", `token endpoint: ${error.code} ${error.description ?? ""}`.trim());
-    if (error.code === "invalid_client") return new SignInRefused("misconfigured", `token endpoint: invalid_client; check OIDC_CLIENT_ID and OIDC_CLIENT_SECRET`);
+    if (error.code === "invalid_grant")
+      return new SignInRefused("replayed", `token endpoint: ${error.code} ${error.description ?? ""}`.trim());
+    if (error.code === "invalid_client")
+      return new SignInRefused(
+        "misconfigured",
+        `token endpoint: invalid_client; check OIDC_CLIENT_ID and OIDC_CLIENT_SECRET`,
+      );
     return new SignInRefused("other", `provider answered ${error.code} ${error.description ?? ""}`.trim());
   }
   // remix-auth-oauth2: "Missing state on cookie." / "State in URL doesn't match state in cookie."
-  if (error instanceof ReferenceError || error instanceof RangeError) return new SignInRefused("replayed", error.message);
+  if (error instanceof ReferenceError || error instanceof RangeError)
+    return new SignInRefused("replayed", error.message);
   return new SignInRefused("other", error instanceof Error ? error.message : String(error));
 }
 

@@ -11,7 +11,18 @@ import type { VerifiedIdentity } from "../people.server";
 import { SignInRefused } from "./refusal.server";
 
 /** Signature algorithms accepted for ID tokens: asymmetric only (never `none` or HMAC with a shared secret). */
-export const ID_TOKEN_ALGORITHMS = ["RS256", "RS384", "RS512", "PS256", "PS384", "PS512", "ES256", "ES384", "ES512", "EdDSA"];
+export const ID_TOKEN_ALGORITHMS = [
+  "RS256",
+  "RS384",
+  "RS512",
+  "PS256",
+  "PS384",
+  "PS512",
+  "ES256",
+  "ES384",
+  "ES512",
+  "EdDSA",
+];
 /** Allowed clock difference with the provider, in seconds. */
 export const CLOCK_TOLERANCE_S = 5;
 /** An ID token issued longer ago than this is refused even if it has not expired. */
@@ -42,7 +53,9 @@ function sameText(a: string, b: string): boolean {
 
 function claimedEmail(token: string): string | null {
   try {
-    const body = JSON.parse(Buffer.from(token.split(".")[1] ?? "", "base64url").toString("utf8")) as { email?: unknown };
+    const body = JSON.parse(Buffer.from(token.split(".")[1] ?? "", "base64url").toString("utf8")) as {
+      email?: unknown;
+    };
     return typeof body.email === "string" ? body.email.slice(0, 200) : null;
   } catch {
     return null;
@@ -51,7 +64,8 @@ function claimedEmail(token: string): string | null {
 
 export async function verifyIdToken(idToken: string, check: IdTokenCheck): Promise<JWTPayload> {
   const who = claimedEmail(idToken);
-  const refuse = (code: ConstructorParameters<typeof SignInRefused>[0], reason: string) => new SignInRefused(code, `ID token: ${reason}`, who);
+  const refuse = (code: ConstructorParameters<typeof SignInRefused>[0], reason: string) =>
+    new SignInRefused(code, `ID token: ${reason}`, who);
   let payload: JWTPayload;
   try {
     ({ payload } = await jwtVerify(idToken, check.keys, {
@@ -64,9 +78,11 @@ export async function verifyIdToken(idToken: string, check: IdTokenCheck): Promi
     }));
   } catch (error) {
     const message = error instanceof Error ? error.message : String(error);
-    if (error instanceof errors.JWKSNoMatchingKey) throw refuse("foreign-signed", `no key of the provider's JWKS matches (${message})`);
+    if (error instanceof errors.JWKSNoMatchingKey)
+      throw refuse("foreign-signed", `no key of the provider's JWKS matches (${message})`);
     if (error instanceof errors.JWSSignatureVerificationFailed) throw refuse("tampered", message);
-    if (error instanceof errors.JOSEAlgNotAllowed) throw refuse("tampered", `signature algorithm not accepted (${message})`);
+    if (error instanceof errors.JOSEAlgNotAllowed)
+      throw refuse("tampered", `signature algorithm not accepted (${message})`);
     if (error instanceof errors.JWTExpired) throw refuse("expired", message);
     if (error instanceof errors.JWTClaimValidationFailed) {
       if (error.claim === "iss") throw refuse("wrong-issuer", message);
@@ -77,7 +93,8 @@ export async function verifyIdToken(idToken: string, check: IdTokenCheck): Promi
     throw refuse("tampered", message);
   }
   const audiences = Array.isArray(payload.aud) ? payload.aud : [payload.aud];
-  if (audiences.length > 1 && payload.azp !== check.clientId) throw refuse("wrong-audience", "several audiences and the authorized party is not Plumbline");
+  if (audiences.length > 1 && payload.azp !== check.clientId)
+    throw refuse("wrong-audience", "several audiences and the authorized party is not Plumbline");
   if (typeof payload.nonce !== "string" || !sameText(payload.nonce, check.nonce)) {
     throw refuse("replayed", "the nonce does not match the sign-in this browser started");
   }
@@ -89,10 +106,21 @@ const text = (v: unknown): string | null => (typeof v === "string" && v.trim().l
 /** The sponsor reader the verified claims describe. Never an administrator, whatever the token says. */
 export function identityFromClaims(claims: JWTPayload): VerifiedIdentity {
   const email = text(claims.email);
-  if (!email || !claims.sub) throw new SignInRefused("incomplete", "the ID token carried no e-mail address or subject");
-  if (claims.email_verified === false) throw new SignInRefused("incomplete", "the provider says the e-mail address is not verified", email);
+  if (!email || !claims.sub)
+    throw new SignInRefused("incomplete", "the ID token carried no e-mail address or subject");
+  if (claims.email_verified === false)
+    throw new SignInRefused("incomplete", "the provider says the e-mail address is not verified", email);
   const organisation = text(claims.organisation);
-  if (!organisation) throw new SignInRefused("no-organisation", "the ID token carried no organisation claim", email);
+  if (!organisation)
+    throw new SignInRefused("no-organisation", "the ID token carried no organisation claim", email);
   if (!claims.iss) throw new SignInRefused("incomplete", "the ID token carried no issuer", email);
-  return { source: "oidc", externalId: claims.sub, issuer: claims.iss, email, displayName: text(claims.name) ?? email, organisation, isAdmin: false };
+  return {
+    source: "oidc",
+    externalId: claims.sub,
+    issuer: claims.iss,
+    email,
+    displayName: text(claims.name) ?? email,
+    organisation,
+    isAdmin: false,
+  };
 }

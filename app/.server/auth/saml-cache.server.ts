@@ -20,7 +20,11 @@ export class DatabaseCacheProvider implements CacheProvider {
     const now = Date.now();
     const rows = await writeTransaction(async (tx) => {
       await tx.delete(t.samlRequests).where(lt(t.samlRequests.createdAt, now - this.expiryMs));
-      return tx.insert(t.samlRequests).values({ id: key, value, createdAt: now }).onConflictDoNothing().returning();
+      return tx
+        .insert(t.samlRequests)
+        .values({ id: key, value, createdAt: now })
+        .onConflictDoNothing()
+        .returning();
     });
     if (rows.length) saves.getStore()?.add(key);
     return rows.length ? { value: rows[0].value, createdAt: rows[0].createdAt } : null;
@@ -37,7 +41,9 @@ export class DatabaseCacheProvider implements CacheProvider {
 
   async removeAsync(key: string | null): Promise<string | null> {
     if (!key) return null;
-    const rows = await writeTransaction((tx) => tx.delete(t.samlRequests).where(eq(t.samlRequests.id, key)).returning({ value: t.samlRequests.value }));
+    const rows = await writeTransaction((tx) =>
+      tx.delete(t.samlRequests).where(eq(t.samlRequests.id, key)).returning({ value: t.samlRequests.value }),
+    );
     if (rows.length) claims.getStore()?.add(key);
     return rows[0]?.value ?? null;
   }
@@ -55,7 +61,9 @@ export async function withClaims<T>(work: () => Promise<T>): Promise<{ result: T
 }
 
 /** Runs the start of a sign-in and reports the request ids it saved (whether it returned or threw). */
-export async function withSavedIds<T>(work: () => Promise<T>): Promise<{ outcome: { value: T } | { thrown: unknown }; saved: Set<string> }> {
+export async function withSavedIds<T>(
+  work: () => Promise<T>,
+): Promise<{ outcome: { value: T } | { thrown: unknown }; saved: Set<string> }> {
   const saved = new Set<string>();
   try {
     return { outcome: { value: await saves.run(saved, work) }, saved };

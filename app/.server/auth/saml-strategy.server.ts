@@ -44,9 +44,14 @@ interface Peek {
 async function peek(xml: string): Promise<Peek> {
   try {
     const doc = await parseDomFromString(xml);
-    const irt = xpath.selectAttributes(doc, "/*[local-name()='Response']/@InResponseTo")[0]?.nodeValue ?? null;
-    const nameId = xpath.selectElements(doc, "//*[local-name()='Subject']/*[local-name()='NameID']")[0]?.textContent ?? null;
-    const issuer = xpath.selectElements(doc, "/*[local-name()='Response']/*[local-name()='Issuer']")[0]?.textContent ?? null;
+    const irt =
+      xpath.selectAttributes(doc, "/*[local-name()='Response']/@InResponseTo")[0]?.nodeValue ?? null;
+    const nameId =
+      xpath.selectElements(doc, "//*[local-name()='Subject']/*[local-name()='NameID']")[0]?.textContent ??
+      null;
+    const issuer =
+      xpath.selectElements(doc, "/*[local-name()='Response']/*[local-name()='Issuer']")[0]?.textContent ??
+      null;
     return {
       doc,
       inResponseTo: irt?.slice(0, 200) ?? null,
@@ -59,7 +64,10 @@ async function peek(xml: string): Promise<Peek> {
 }
 
 const pemOf = (base64: string): string =>
-  `-----BEGIN CERTIFICATE-----\n${base64.replace(/\s+/g, "").replace(/(.{64})/g, "$1\n").replace(/\n$/, "")}\n-----END CERTIFICATE-----\n`;
+  `-----BEGIN CERTIFICATE-----\n${base64
+    .replace(/\s+/g, "")
+    .replace(/(.{64})/g, "$1\n")
+    .replace(/\n$/, "")}\n-----END CERTIFICATE-----\n`;
 
 const certBody = (pem: string): string => pem.replace(/-----[^-]+-----/g, "").replace(/\s+/g, "");
 
@@ -74,7 +82,10 @@ function signedWithForeignKey(xml: string, doc: Document, trustedCert: string): 
     ...xpath.selectElements(doc, "/*[local-name()='Response']/*[local-name()='Assertion']"),
   ];
   for (const element of signed) {
-    const certs = xpath.selectElements(element, "./*[local-name()='Signature']//*[local-name()='X509Certificate']");
+    const certs = xpath.selectElements(
+      element,
+      "./*[local-name()='Signature']//*[local-name()='X509Certificate']",
+    );
     const embedded = certs[0]?.textContent;
     if (!embedded || certBody(embedded) === certBody(trustedCert)) continue;
     try {
@@ -101,7 +112,10 @@ export class SamlStrategy<User> extends Strategy<User, SamlVerifyParams> {
     if (request.method === "GET" || request.method === "HEAD") {
       const url = new URL(request.url);
       const relayState = url.searchParams.get("returnTo") ?? "/";
-      const saml = url.searchParams.get("fresh") === "1" && this.options.freshSaml ? this.options.freshSaml : this.options.saml;
+      const saml =
+        url.searchParams.get("fresh") === "1" && this.options.freshSaml
+          ? this.options.freshSaml
+          : this.options.saml;
       throw redirect(await saml.getAuthorizeUrlAsync(relayState, url.host, {}));
     }
     const form = await request.formData();
@@ -111,7 +125,12 @@ export class SamlStrategy<User> extends Strategy<User, SamlVerifyParams> {
       throw new SignInRefused("other", "the request carried no SAMLResponse");
     }
     const { profile, requestId } = await this.validate(samlResponse);
-    return this.verify({ profile, requestId, relayState: typeof relayState === "string" ? relayState : null, request });
+    return this.verify({
+      profile,
+      requestId,
+      relayState: typeof relayState === "string" ? relayState : null,
+      request,
+    });
   }
 
   private async validate(samlResponse: string): Promise<{ profile: Profile; requestId: string }> {
@@ -120,15 +139,22 @@ export class SamlStrategy<User> extends Strategy<User, SamlVerifyParams> {
     const refuse = (code: ConstructorParameters<typeof SignInRefused>[0], reason: string): SignInRefused =>
       new SignInRefused(code, reason, seen.nameId, seen.inResponseTo);
 
-    let outcome: Awaited<ReturnType<typeof withClaims<Awaited<ReturnType<SAML["validatePostResponseAsync"]>>>>>;
+    let outcome: Awaited<
+      ReturnType<typeof withClaims<Awaited<ReturnType<SAML["validatePostResponseAsync"]>>>>
+    >;
     try {
-      outcome = await withClaims(() => this.options.saml.validatePostResponseAsync({ SAMLResponse: samlResponse }));
+      outcome = await withClaims(() =>
+        this.options.saml.validatePostResponseAsync({ SAMLResponse: samlResponse }),
+      );
     } catch (error) {
       const message = error instanceof Error ? error.message : String(error);
       const code = codeForValidationError(message);
       if (code !== "signature") throw refuse(code, message);
       const foreign = seen.doc !== null && signedWithForeignKey(xml, seen.doc, this.options.trustedCert);
-      throw refuse(foreign ? "foreign-signed" : "tampered", foreign ? `${message} (signed by an untrusted key)` : message);
+      throw refuse(
+        foreign ? "foreign-signed" : "tampered",
+        foreign ? `${message} (signed by an untrusted key)` : message,
+      );
     }
     const profile = outcome.result.profile;
     if (!profile) throw refuse("other", "the response held no assertion");
@@ -138,7 +164,10 @@ export class SamlStrategy<User> extends Strategy<User, SamlVerifyParams> {
     // The response is signed as a whole (checked above), so its own Issuer is the signed one.
     for (const issuer of [profile.issuer, seen.responseIssuer ?? profile.issuer]) {
       if (issuer !== this.options.idpIssuer) {
-        throw refuse("wrong-issuer", `issuer ${JSON.stringify(issuer)}, expected ${JSON.stringify(this.options.idpIssuer)}`);
+        throw refuse(
+          "wrong-issuer",
+          `issuer ${JSON.stringify(issuer)}, expected ${JSON.stringify(this.options.idpIssuer)}`,
+        );
       }
     }
     return { profile, requestId: seen.inResponseTo };

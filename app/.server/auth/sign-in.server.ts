@@ -59,7 +59,13 @@ function isBinding(value: unknown): value is RequestBinding {
   if (!value || typeof value !== "object") return false;
   const v = value as Record<string, unknown>;
   const reauth = v.reauth as Record<string, unknown> | null | undefined;
-  return typeof v.id === "string" && (reauth === null || (typeof reauth === "object" && typeof reauth?.personId === "string" && typeof reauth?.sessionId === "string"));
+  return (
+    typeof v.id === "string" &&
+    (reauth === null ||
+      (typeof reauth === "object" &&
+        typeof reauth?.personId === "string" &&
+        typeof reauth?.sessionId === "string"))
+  );
 }
 
 /** A fresh sign-in before signing that the identity provider answered for another person. */
@@ -77,14 +83,28 @@ class DifferentPerson extends Error {
 function values(profile: Profile, name: string): string[] {
   const raw = (profile.attributes as Record<string, unknown> | undefined)?.[name] ?? profile[name];
   const list = Array.isArray(raw) ? raw : raw === undefined || raw === null ? [] : [raw];
-  return list.filter((v): v is string => typeof v === "string").map((v) => v.trim()).filter((v) => v.length > 0);
+  return list
+    .filter((v): v is string => typeof v === "string")
+    .map((v) => v.trim())
+    .filter((v) => v.length > 0);
 }
 
 /** The person the verified assertion describes, from its NameID and attributes. */
-export function identityFromProfile(profile: Profile, adminGroup: string, idpIssuer: string): VerifiedIdentity {
-  const email = values(profile, "email")[0] ?? values(profile, "mail")[0] ?? (profile.nameID?.includes("@") ? profile.nameID : undefined);
+export function identityFromProfile(
+  profile: Profile,
+  adminGroup: string,
+  idpIssuer: string,
+): VerifiedIdentity {
+  const email =
+    values(profile, "email")[0] ??
+    values(profile, "mail")[0] ??
+    (profile.nameID?.includes("@") ? profile.nameID : undefined);
   if (!email || !profile.nameID) {
-    throw new SignInRefused("incomplete", "the assertion carried no e-mail address or NameID", profile.nameID ?? null);
+    throw new SignInRefused(
+      "incomplete",
+      "the assertion carried no e-mail address or NameID",
+      profile.nameID ?? null,
+    );
   }
   const groups = values(profile, "groups");
   return {
@@ -105,22 +125,45 @@ function auth(): Authenticator<SamlSignIn> {
   if (authenticator) return authenticator;
   const setup = samlSetup();
   const strategy = new SamlStrategy<SamlSignIn>(
-    { saml: setup.signIn, freshSaml: setup.freshSignIn, trustedCert: setup.trustedCert, idpIssuer: setup.idpIssuer },
+    {
+      saml: setup.signIn,
+      freshSaml: setup.freshSignIn,
+      trustedCert: setup.trustedCert,
+      idpIssuer: setup.idpIssuer,
+    },
     async ({ profile, requestId, relayState, request }) => {
       const bound: unknown = await requestCookie.parse(request.headers.get("Cookie"));
       if (!isBinding(bound) || bound.id !== requestId) {
-        throw new SignInRefused("not-this-browser", `the response answers request ${requestId}, which this browser did not start (or its cookie expired)`, profile.nameID ?? null, requestId);
+        throw new SignInRefused(
+          "not-this-browser",
+          `the response answers request ${requestId}, which this browser did not start (or its cookie expired)`,
+          profile.nameID ?? null,
+          requestId,
+        );
       }
       const identity = identityFromProfile(profile, setup.adminGroup, setup.idpIssuer);
       const returnTo = safeReturnTo(relayState);
       if (bound.reauth) {
         // A fresh sign-in must confirm the person already signed in: same identity provider, same subject.
-        const [signedIn] = await db.select().from(t.people).where(eq(t.people.id, bound.reauth.personId)).limit(1);
-        const same = signedIn?.identitySource === "saml" && signedIn.externalId === identity.externalId && (signedIn.identityIssuer ?? identity.issuer) === identity.issuer;
+        const [signedIn] = await db
+          .select()
+          .from(t.people)
+          .where(eq(t.people.id, bound.reauth.personId))
+          .limit(1);
+        const same =
+          signedIn?.identitySource === "saml" &&
+          signedIn.externalId === identity.externalId &&
+          (signedIn.identityIssuer ?? identity.issuer) === identity.issuer;
         if (!same) throw new DifferentPerson(bound.reauth.personId, identity.externalId, returnTo);
       }
       const person = await recordSignIn(identity);
-      return { person, nameId: profile.nameID, sessionIndex: profile.sessionIndex, returnTo, reauth: bound.reauth ? { sessionId: bound.reauth.sessionId } : null };
+      return {
+        person,
+        nameId: profile.nameID,
+        sessionIndex: profile.sessionIndex,
+        returnTo,
+        reauth: bound.reauth ? { sessionId: bound.reauth.sessionId } : null,
+      };
     },
   );
   authenticator = new Authenticator<SamlSignIn>().use(strategy);
@@ -133,7 +176,10 @@ export type IdpStatus = { answering: true } | { answering: false; origin: string
 export async function identityProviderStatus(timeoutMs = 1500): Promise<IdpStatus> {
   const origin = new URL(config.SAML_IDP_SSO_URL).origin;
   try {
-    const res = await fetch(config.SAML_IDP_SSO_URL, { redirect: "manual", signal: AbortSignal.timeout(timeoutMs) });
+    const res = await fetch(config.SAML_IDP_SSO_URL, {
+      redirect: "manual",
+      signal: AbortSignal.timeout(timeoutMs),
+    });
     await res.body?.cancel();
     return { answering: true };
   } catch {
@@ -162,17 +208,27 @@ export async function startSamlSignIn(request: Request): Promise<Response> {
   const url = new URL(request.url);
   const returnTo = safeReturnTo(url.searchParams.get("returnTo"));
   const status = await identityProviderStatus();
-  if (!status.answering) return redirect(`/sign-in?error=unavailable&returnTo=${encodeURIComponent(returnTo)}`);
+  if (!status.answering)
+    return redirect(`/sign-in?error=unavailable&returnTo=${encodeURIComponent(returnTo)}`);
   const fresh = url.searchParams.get("fresh") === "1";
   // A fresh sign-in of someone signed in confirms that person (before a signature); otherwise it is an ordinary sign-in.
   const current = fresh ? await getCurrentUser(request) : null;
-  const start = new Request(`${url.origin}${url.pathname}?returnTo=${encodeURIComponent(returnTo)}${fresh ? "&fresh=1" : ""}`, { method: "GET" });
+  const start = new Request(
+    `${url.origin}${url.pathname}?returnTo=${encodeURIComponent(returnTo)}${fresh ? "&fresh=1" : ""}`,
+    { method: "GET" },
+  );
   const { outcome, saved } = await withSavedIds(() => auth().authenticate("saml", start));
   const thrown = "thrown" in outcome ? outcome.thrown : null;
   if (thrown instanceof Response) {
     const [id] = saved;
     if (!id) throw new Error("The SAML strategy redirected without saving its request id.");
-    thrown.headers.append("Set-Cookie", await bindRequest({ id, reauth: current ? { personId: current.id, sessionId: current.sessionId } : null }));
+    thrown.headers.append(
+      "Set-Cookie",
+      await bindRequest({
+        id,
+        reauth: current ? { personId: current.id, sessionId: current.sessionId } : null,
+      }),
+    );
     return thrown;
   }
   if (thrown instanceof SamlSetupError) {
@@ -198,7 +254,9 @@ export async function finishSamlSignIn(request: Request): Promise<Response> {
     if (error instanceof Response) throw error;
     const reason = error instanceof Error ? error.message : String(error);
     if (error instanceof SamlSetupError) console.error(reason);
-    return refuseSignIn(new SignInRefused(error instanceof SamlSetupError ? "misconfigured" : "other", reason));
+    return refuseSignIn(
+      new SignInRefused(error instanceof SamlSetupError ? "misconfigured" : "other", reason),
+    );
   }
   // The request is answered: its binding cookie is of no further use (sent after the session cookie).
   const cleared = await requestCookie.serialize("", { maxAge: 0 });
@@ -225,7 +283,11 @@ export async function finishSamlSignIn(request: Request): Promise<Response> {
  * and the existing session stays exactly as it was (still signed in as before, not fresh).
  */
 async function refuseDifferentPerson(refusal: DifferentPerson): Promise<Response> {
-  const [person] = await db.select({ id: t.people.id, displayName: t.people.displayName }).from(t.people).where(eq(t.people.id, refusal.personId)).limit(1);
+  const [person] = await db
+    .select({ id: t.people.id, displayName: t.people.displayName })
+    .from(t.people)
+    .where(eq(t.people.id, refusal.personId))
+    .limit(1);
   await appendAudit({
     actor: person ? actorOf(person) : SYSTEM_ACTOR,
     action: "auth.reauth_refused",
@@ -246,13 +308,24 @@ export async function signOut(request: Request): Promise<Response> {
   const cookie = await endSession(request);
   const headers = { "Set-Cookie": cookie };
   if (!user) return redirect("/sign-in?signedOut=app", { headers });
-  await appendAudit({ actor: actorOf(user), action: "auth.sign_out", entityType: "person", entityId: user.id, detail: user.identitySource });
+  await appendAudit({
+    actor: actorOf(user),
+    action: "auth.sign_out",
+    entityType: "person",
+    entityId: user.id,
+    detail: user.identitySource,
+  });
   if (user.identitySource !== "saml" || !user.nameId) return redirect("/sign-in?signedOut=app", { headers });
   if (!(await identityProviderStatus()).answering) return redirect("/sign-in?signedOut=partial", { headers });
   try {
     const setup = samlSetup();
     const location = await setup.logout.getLogoutUrlAsync(
-      { issuer: setup.idpIssuer, nameID: user.nameId, nameIDFormat: NAME_ID_FORMAT, sessionIndex: user.sessionIndex },
+      {
+        issuer: setup.idpIssuer,
+        nameID: user.nameId,
+        nameIDFormat: NAME_ID_FORMAT,
+        sessionIndex: user.sessionIndex,
+      },
       "signed-out",
       {},
     );
@@ -285,7 +358,9 @@ export async function handleSamlLogout(request: Request): Promise<Response> {
   let container: Record<string, string> = {};
   if (request.method === "POST") {
     const form = await request.formData();
-    container = Object.fromEntries([...form.entries()].filter((e): e is [string, string] => typeof e[1] === "string"));
+    container = Object.fromEntries(
+      [...form.entries()].filter((e): e is [string, string] => typeof e[1] === "string"),
+    );
   } else {
     container = Object.fromEntries(url.searchParams.entries());
   }
@@ -309,7 +384,12 @@ export async function handleSamlLogout(request: Request): Promise<Response> {
           detail: "saml: single logout started by the identity provider",
         });
       }
-      const answer = await logout.getLogoutResponseUrlAsync(result.profile, container.RelayState ?? "", {}, true);
+      const answer = await logout.getLogoutResponseUrlAsync(
+        result.profile,
+        container.RelayState ?? "",
+        {},
+        true,
+      );
       return redirect(answer);
     }
     if (container.SAMLResponse) {

@@ -48,7 +48,9 @@ const pools = new Map<PoolKind, Tinypool | null>();
 function computePool(kind: PoolKind): Tinypool | null {
   if (pools.has(kind)) return pools.get(kind) ?? null;
   const filename = builtWorkerFile();
-  const pool = filename ? new Tinypool({ filename, minThreads: 0, maxThreads: computeThreads(), idleTimeout: 10 * 60_000 }) : null;
+  const pool = filename
+    ? new Tinypool({ filename, minThreads: 0, maxThreads: computeThreads(), idleTimeout: 10 * 60_000 })
+    : null;
   pools.set(kind, pool);
   return pool;
 }

@@ -23,7 +23,14 @@ export interface RerunTaskInput {
 }
 
 export type RerunTaskOutput =
-  | { ok: true; json: string; sha256: string; engineVersion: string; checks: CheckOutcome[]; reproduction?: ReproductionResult }
+  | {
+      ok: true;
+      json: string;
+      sha256: string;
+      engineVersion: string;
+      checks: CheckOutcome[];
+      reproduction?: ReproductionResult;
+    }
   | { ok: false; engineError: string };
 
 export function sha256Hex(text: string): string {
@@ -37,7 +44,14 @@ export async function rerunTask(input: RerunTaskInput): Promise<RerunTaskOutput>
   try {
     const doc = computeRerun(input.model, table, input.options, input.meta);
     const json = canonicalJson(doc);
-    return { ok: true, json, sha256: sha256Hex(json), engineVersion: doc.engineVersion, checks: doc.checks, ...(doc.reproduction ? { reproduction: doc.reproduction } : {}) };
+    return {
+      ok: true,
+      json,
+      sha256: sha256Hex(json),
+      engineVersion: doc.engineVersion,
+      checks: doc.checks,
+      ...(doc.reproduction ? { reproduction: doc.reproduction } : {}),
+    };
   } catch (e) {
     if (e instanceof EngineError) return { ok: false, engineError: e.message };
     throw e;

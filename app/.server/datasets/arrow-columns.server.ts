@@ -126,7 +126,13 @@ function validityOf(n: number, isNull: (i: number) => boolean): { bitmap: Uint8A
 
 function float64Data(values: Float64Array): Data<Float64> {
   const { bitmap, nulls } = validityOf(values.length, (i) => Number.isNaN(values[i]));
-  return makeData({ type: new Float64(), length: values.length, nullCount: nulls, nullBitmap: nulls > 0 ? bitmap : undefined, data: values });
+  return makeData({
+    type: new Float64(),
+    length: values.length,
+    nullCount: nulls,
+    nullBitmap: nulls > 0 ? bitmap : undefined,
+    data: values,
+  });
 }
 
 /** `id`: the dictionary id, the column's position, so that the same columns always give the same bytes. */
@@ -151,8 +157,16 @@ function dictionaryData(cells: readonly (string | null)[], id: number): Data<Dic
   const bytes = Buffer.from(joined, "utf8");
   const ascii = bytes.length === joined.length;
   const offsets = new Int32Array(values.length + 1);
-  for (let k = 0; k < values.length; k++) offsets[k + 1] = offsets[k] + (ascii ? values[k].length : Buffer.byteLength(values[k], "utf8"));
-  const dictionary = makeVector(makeData({ type: new Utf8(), length: values.length, valueOffsets: offsets, data: new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.length) }));
+  for (let k = 0; k < values.length; k++)
+    offsets[k + 1] = offsets[k] + (ascii ? values[k].length : Buffer.byteLength(values[k], "utf8"));
+  const dictionary = makeVector(
+    makeData({
+      type: new Utf8(),
+      length: values.length,
+      valueOffsets: offsets,
+      data: new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.length),
+    }),
+  );
   const { bitmap, nulls } = validityOf(n, (i) => cells[i] === null);
   return makeData({
     type: new Dictionary(new Utf8(), new Int32(), id),
@@ -176,7 +190,10 @@ export function encodeArrowColumns(stored: StoredColumns): Uint8Array {
   const children: Data[] = [];
   stored.names.forEach((name, j) => {
     const column = stored.columns[j];
-    if (column.length !== n) throw new Error(`Column "${name}" has ${column.length} cells, expected ${n}; the columns were not stored.`);
+    if (column.length !== n)
+      throw new Error(
+        `Column "${name}" has ${column.length} cells, expected ${n}; the columns were not stored.`,
+      );
     const data: Data = column instanceof Float64Array ? float64Data(column) : dictionaryData(column, j);
     const meta = stored.columnMeta[j] ?? { name };
     const fieldMeta = new Map<string, string>([[COLUMN_META_KEY, JSON.stringify(meta)]]);
@@ -187,7 +204,10 @@ export function encodeArrowColumns(stored: StoredColumns): Uint8Array {
   const schemaMeta = new Map<string, string>([[DATASET_META_KEY, JSON.stringify(stored.dataset)]]);
   if (!isOneToN(stored.rowNumbers)) schemaMeta.set(ROW_NUMBERS_KEY, JSON.stringify(stored.rowNumbers));
   const schema = new Schema(fields, schemaMeta);
-  const batch = new RecordBatch(schema, makeData({ type: new Struct(fields), length: n, nullCount: 0, children }));
+  const batch = new RecordBatch(
+    schema,
+    makeData({ type: new Struct(fields), length: n, nullCount: 0, children }),
+  );
   return tableToIPC(new Table(schema, [batch]), "file");
 }
 
@@ -218,7 +238,8 @@ function readFloat64(chunks: readonly Data[], n: number): Float64Array {
   for (const data of chunks) {
     const values = data.values as Float64Array;
     out.set(values.subarray(data.offset, data.offset + data.length), at);
-    if (data.nullCount > 0) for (let i = 0; i < data.length; i++) if (!isValid(data, i)) out[at + i] = Number.NaN;
+    if (data.nullCount > 0)
+      for (let i = 0; i < data.length; i++) if (!isValid(data, i)) out[at + i] = Number.NaN;
     at += data.length;
   }
   return out;
@@ -234,9 +255,11 @@ function utf8Strings(data: Data): string[] {
   if (isAscii(buf.subarray(start, end))) {
     const whole = buf.toString("latin1", start, end);
     // ASCII: one decode, then slices (latin1 equals UTF-8 on ASCII bytes).
-    for (let k = 0; k < data.length; k++) out[k] = whole.slice(offsets[data.offset + k] - start, offsets[data.offset + k + 1] - start);
+    for (let k = 0; k < data.length; k++)
+      out[k] = whole.slice(offsets[data.offset + k] - start, offsets[data.offset + k + 1] - start);
   } else {
-    for (let k = 0; k < data.length; k++) out[k] = buf.toString("utf8", offsets[data.offset + k], offsets[data.offset + k + 1]);
+    for (let k = 0; k < data.length; k++)
+      out[k] = buf.toString("utf8", offsets[data.offset + k], offsets[data.offset + k + 1]);
   }
   return out;
 }
@@ -249,7 +272,8 @@ function readStrings(chunks: readonly Data[], n: number): (string | null)[] {
       const dictionary = (data.dictionary as unknown as { data: Data[] }).data.flatMap(utf8Strings);
       const codes = (data.values as Int32Array).subarray(data.offset, data.offset + data.length);
       if (data.nullCount === 0) for (let i = 0; i < codes.length; i++) out[at + i] = dictionary[codes[i]];
-      else for (let i = 0; i < codes.length; i++) out[at + i] = isValid(data, i) ? dictionary[codes[i]] : null;
+      else
+        for (let i = 0; i < codes.length; i++) out[at + i] = isValid(data, i) ? dictionary[codes[i]] : null;
     } else {
       const strings = utf8Strings(data);
       for (let i = 0; i < data.length; i++) out[at + i] = isValid(data, i) ? strings[i] : null;
@@ -260,7 +284,10 @@ function readStrings(chunks: readonly Data[], n: number): (string | null)[] {
 }
 
 function isUtf8Like(type: DataType): boolean {
-  return type.typeId === Type.Utf8 || (type.typeId === Type.Dictionary && (type as Dictionary).dictionary.typeId === Type.Utf8);
+  return (
+    type.typeId === Type.Utf8 ||
+    (type.typeId === Type.Dictionary && (type as Dictionary).dictionary.typeId === Type.Utf8)
+  );
 }
 
 /** Typed columns from Arrow IPC bytes written by `encodeArrowColumns`. */
@@ -274,16 +301,26 @@ export function decodeArrowColumns(bytes: Uint8Array, source = "the columns file
     const vector = table.getChildAt(j);
     const chunks = vector ? (vector.data as Data[]) : [];
     names.push(field.name);
-    if (field.type.typeId === Type.Float && (field.type as Float64).precision === 2) columns.push(readFloat64(chunks, n));
+    if (field.type.typeId === Type.Float && (field.type as Float64).precision === 2)
+      columns.push(readFloat64(chunks, n));
     else if (isUtf8Like(field.type)) columns.push(readStrings(chunks, n));
-    else throw new Error(`${source}: column "${field.name}" is stored as ${String(field.type)}, which Plumbline does not write; the store may be damaged.`);
+    else
+      throw new Error(
+        `${source}: column "${field.name}" is stored as ${String(field.type)}, which Plumbline does not write; the store may be damaged.`,
+      );
     const meta = field.metadata.get(COLUMN_META_KEY);
     columnMeta.push(meta ? (JSON.parse(meta) as Record<string, unknown>) : { name: field.name });
   });
   const datasetJson = table.schema.metadata.get(DATASET_META_KEY);
   const rowJson = table.schema.metadata.get(ROW_NUMBERS_KEY);
   const rowNumbers = rowJson ? (JSON.parse(rowJson) as number[]) : Array.from({ length: n }, (_, i) => i + 1);
-  return { names, columns, rowNumbers, columnMeta, dataset: datasetJson ? (JSON.parse(datasetJson) as Record<string, unknown>) : {} };
+  return {
+    names,
+    columns,
+    rowNumbers,
+    columnMeta,
+    dataset: datasetJson ? (JSON.parse(datasetJson) as Record<string, unknown>) : {},
+  };
 }
 
 /** Reads an Arrow columns file written by `writeArrowColumns`. */

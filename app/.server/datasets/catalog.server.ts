@@ -70,7 +70,9 @@ export class DatasetNotFoundError extends Error {}
 export async function loadLockedTable(versionId: string): Promise<LockedTable> {
   const [v] = await db.select().from(t.datasetVersions).where(eq(t.datasetVersions.id, versionId)).limit(1);
   if (!v || v.status !== "locked") {
-    throw new DatasetNotFoundError(`There is no locked dataset version with the id "${versionId}". Lock the version first, then rerun.`);
+    throw new DatasetNotFoundError(
+      `There is no locked dataset version with the id "${versionId}". Lock the version first, then rerun.`,
+    );
   }
   const stored = await storedColumnsOf(v);
   const typed: Record<string, TypedColumn> = {};
@@ -90,7 +92,9 @@ export async function loadLockedTable(versionId: string): Promise<LockedTable> {
 export async function lockedColumnsFile(versionId: string): Promise<{ file: string; sha256: string }> {
   const [v] = await db.select().from(t.datasetVersions).where(eq(t.datasetVersions.id, versionId)).limit(1);
   if (!v || v.status !== "locked") {
-    throw new DatasetNotFoundError(`There is no locked dataset version with the id "${versionId}". Lock the version first, then rerun.`);
+    throw new DatasetNotFoundError(
+      `There is no locked dataset version with the id "${versionId}". Lock the version first, then rerun.`,
+    );
   }
   return { file: await columnsFileOf(v), sha256: v.sha256 };
 }
@@ -99,7 +103,11 @@ export async function lockedColumnsFile(versionId: string): Promise<{ file: stri
 function textColumns(stored: StoredColumns): Record<string, string[]> {
   const columns: Record<string, string[]> = {};
   stored.names.forEach((name, i) => {
-    Object.defineProperty(columns, name, { enumerable: true, configurable: true, get: () => textOf(stored.columns[i]) });
+    Object.defineProperty(columns, name, {
+      enumerable: true,
+      configurable: true,
+      get: () => textOf(stored.columns[i]),
+    });
   });
   return columns;
 }

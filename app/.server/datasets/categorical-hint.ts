@@ -40,16 +40,20 @@ export function categoricalHints(columns: readonly HintInput[]): Map<string, str
   for (const c of columns) {
     if (!isNumericType(c.type)) continue;
     const twin = /N$/i.test(c.name) && names.has(c.name.slice(0, -1)) ? c.name.slice(0, -1) : null;
-    if (c.levels && c.levels.length >= 2 && c.levels.length <= MAX_CODED_LEVELS) out.set(c.name, `${c.levels.length} distinct whole-number values`);
+    if (c.levels && c.levels.length >= 2 && c.levels.length <= MAX_CODED_LEVELS)
+      out.set(c.name, `${c.levels.length} distinct whole-number values`);
     else if (CODE_NAME.test(c.name)) out.set(c.name, "its name says flag, group or code");
     else if (twin) out.set(c.name, `numeric codes of ${twin}`);
-    else if (c.label && CODE_LABEL.test(c.label)) out.set(c.name, `its label says ${(CODE_LABEL.exec(c.label) as RegExpExecArray)[1].toLowerCase()}`);
+    else if (c.label && CODE_LABEL.test(c.label))
+      out.set(c.name, `its label says ${(CODE_LABEL.exec(c.label) as RegExpExecArray)[1].toLowerCase()}`);
   }
   return out;
 }
 
 /** The columns with `looksCategorical` set to the reason, for pages and the plan editor. */
-export function withCategoricalHints<T extends HintInput>(columns: readonly T[]): (T & { looksCategorical?: string })[] {
+export function withCategoricalHints<T extends HintInput>(
+  columns: readonly T[],
+): (T & { looksCategorical?: string })[] {
   const hints = categoricalHints(columns);
   return columns.map((c) => (hints.has(c.name) ? { ...c, looksCategorical: hints.get(c.name) } : c));
 }

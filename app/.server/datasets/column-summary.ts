@@ -13,7 +13,8 @@ export const MAX_LEVELS = 50;
 /** ISO 8601 calendar date, YYYY-MM-DD. */
 const DATE = /^\d{4}-(0[1-9]|1[0-2])-(0[1-9]|[12]\d|3[01])$/;
 /** ISO 8601 date and time, minutes or seconds (fractions allowed), optional zone. */
-const DATETIME = /^\d{4}-(0[1-9]|1[0-2])-(0[1-9]|[12]\d|3[01])T([01]\d|2[0-3]):[0-5]\d(:[0-5]\d(\.\d+)?)?(Z|[+-]([01]\d|2[0-3]):?[0-5]\d)?$/;
+const DATETIME =
+  /^\d{4}-(0[1-9]|1[0-2])-(0[1-9]|[12]\d|3[01])T([01]\d|2[0-3]):[0-5]\d(:[0-5]\d(\.\d+)?)?(Z|[+-]([01]\d|2[0-3]):?[0-5]\d)?$/;
 
 export function isIsoDate(cell: string): boolean {
   return DATE.test(cell) && !Number.isNaN(Date.parse(cell));
@@ -46,7 +47,12 @@ export function inferType(cells: readonly string[]): ColumnType {
  * Summary of one column. Mean and standard deviation by Welford's one-pass update
  * (Welford 1962, Technometrics 4:419); SD with the n - 1 divisor.
  */
-export function summariseColumn(name: string, label: string | null, type: ColumnType, cells: readonly string[]): ColumnMeta {
+export function summariseColumn(
+  name: string,
+  label: string | null,
+  type: ColumnType,
+  cells: readonly string[],
+): ColumnMeta {
   let missing = 0;
   const meta: ColumnMeta = { name, label, type, nonMissing: 0, missing: 0 };
   if (type === "number") {
@@ -81,7 +87,10 @@ export function summariseColumn(name: string, label: string | null, type: Column
     if (n > 0) Object.assign(meta, { min, max, mean, sd: n > 1 ? Math.sqrt(m2 / (n - 1)) : undefined });
     if (codes && codes.size >= 2) {
       const counted = codes;
-      meta.levels = orderLevels(counted.keys()).map((value) => ({ value, count: counted.get(value) as number }));
+      meta.levels = orderLevels(counted.keys()).map((value) => ({
+        value,
+        count: counted.get(value) as number,
+      }));
     }
   } else {
     const counts = new Map<string, number>();
@@ -106,7 +115,10 @@ export function summariseColumn(name: string, label: string | null, type: Column
       }
     }
     if (type === "text" && !tooMany && counts.size > 0) {
-      meta.levels = orderLevels(counts.keys()).map((value) => ({ value, count: counts.get(value) as number }));
+      meta.levels = orderLevels(counts.keys()).map((value) => ({
+        value,
+        count: counts.get(value) as number,
+      }));
     }
     if (earliest !== undefined) Object.assign(meta, { earliest, latest });
   }

@@ -62,7 +62,10 @@ function encodeColumn(name: string, column: string[]): { entry: ColumnEntry; par
       if (codeBytes === 1) packed[i] = c;
       else packed.writeUInt16LE(c, 2 * i);
     }
-    return { entry: { name, bytes: text.length, encoding: "dict", codeBytes, ascii: isAscii(text) }, parts: [text, packed] };
+    return {
+      entry: { name, bytes: text.length, encoding: "dict", codeBytes, ascii: isAscii(text) },
+      parts: [text, packed],
+    };
   }
   const text = Buffer.from(column.join(CELL_SEPARATOR), "utf8");
   return { entry: { name, bytes: text.length, encoding: "plain", ascii: isAscii(text) }, parts: [text] };

@@ -11,7 +11,12 @@ import type { StoredColumns } from "./arrow-columns.server";
 import type { ChangeSummary } from "./diff";
 import type { DatasetFormat } from "./parse.server";
 import { maskValue } from "./screen";
-import { parsedOf, versionInStudy, type DatasetVersionRow, type ScreenHitRow } from "./dataset-versions.server";
+import {
+  parsedOf,
+  versionInStudy,
+  type DatasetVersionRow,
+  type ScreenHitRow,
+} from "./dataset-versions.server";
 
 export interface VersionSummary {
   id: string;
@@ -47,11 +52,19 @@ export interface DatasetListing {
 async function peopleNames(ids: (string | null)[]): Promise<Map<string, string>> {
   const wanted = [...new Set(ids.filter((x): x is string => Boolean(x)))];
   if (wanted.length === 0) return new Map();
-  const rows = await db.select({ id: t.people.id, name: t.people.displayName }).from(t.people).where(inArray(t.people.id, wanted));
+  const rows = await db
+    .select({ id: t.people.id, name: t.people.displayName })
+    .from(t.people)
+    .where(inArray(t.people.id, wanted));
   return new Map(rows.map((r) => [r.id, r.name]));
 }
 
-function summaryOf(v: DatasetVersionRow, names: Map<string, string>, unresolved: number, byId: Map<string, number>): VersionSummary {
+function summaryOf(
+  v: DatasetVersionRow,
+  names: Map<string, string>,
+  unresolved: number,
+  byId: Map<string, number>,
+): VersionSummary {
   return {
     id: v.id,
     version: v.version,
@@ -81,7 +94,12 @@ async function unresolvedCounts(versionIds: string[]): Promise<Map<string, numbe
   const rows = await db
     .select({ v: t.identifierScreenHits.datasetVersionId })
     .from(t.identifierScreenHits)
-    .where(and(inArray(t.identifierScreenHits.datasetVersionId, versionIds), isNull(t.identifierScreenHits.resolution)));
+    .where(
+      and(
+        inArray(t.identifierScreenHits.datasetVersionId, versionIds),
+        isNull(t.identifierScreenHits.resolution),
+      ),
+    );
   const counts = new Map<string, number>();
   for (const r of rows) counts.set(r.v, (counts.get(r.v) ?? 0) + 1);
   return counts;
@@ -121,8 +139,17 @@ export interface VersionDetail {
   latestVersion: number;
 }
 
-function hitView(h: ScreenHitRow, names: Map<string, string>, originVersions: Map<string, number>): ScreenHitView {
-  const meta = JSON.parse(h.maskedExamplesJson) as { label: string; basis: "name" | "values"; matches: number; examples: string[] };
+function hitView(
+  h: ScreenHitRow,
+  names: Map<string, string>,
+  originVersions: Map<string, number>,
+): ScreenHitView {
+  const meta = JSON.parse(h.maskedExamplesJson) as {
+    label: string;
+    basis: "name" | "values";
+    matches: number;
+    examples: string[];
+  };
   return {
     id: h.id,
     column: h.column,
@@ -156,8 +183,15 @@ export async function getVersionDetail(studyId: string, versionId: string): Prom
   const row = await versionInStudy(studyId, versionId);
   if (!row) return null;
   const { d, v } = row;
-  const hits = await db.select().from(t.identifierScreenHits).where(eq(t.identifierScreenHits.datasetVersionId, v.id)).orderBy(asc(t.identifierScreenHits.column));
-  const all = await db.select({ id: t.datasetVersions.id, version: t.datasetVersions.version }).from(t.datasetVersions).where(eq(t.datasetVersions.datasetId, d.id));
+  const hits = await db
+    .select()
+    .from(t.identifierScreenHits)
+    .where(eq(t.identifierScreenHits.datasetVersionId, v.id))
+    .orderBy(asc(t.identifierScreenHits.column));
+  const all = await db
+    .select({ id: t.datasetVersions.id, version: t.datasetVersions.version })
+    .from(t.datasetVersions)
+    .where(eq(t.datasetVersions.datasetId, d.id));
   const names = await peopleNames([v.uploadedBy, v.lockedBy, v.purgedBy, ...hits.map((h) => h.resolvedBy)]);
   const unresolved = hits.filter((h) => h.resolution === null).length;
   const origins = await originVersionsOf(hits);
@@ -189,13 +223,19 @@ export interface RowsWindow {
  */
 function maskedColumnsOf(hits: Pick<ScreenHitRow, "column" | "resolution">[]): string[] {
   const cleared = new Map<string, boolean>();
-  for (const h of hits) cleared.set(h.column, (cleared.get(h.column) ?? true) && h.resolution === "not_identifier");
+  for (const h of hits)
+    cleared.set(h.column, (cleared.get(h.column) ?? true) && h.resolution === "not_identifier");
   return [...cleared].filter(([, ok]) => !ok).map(([c]) => c);
 }
 
 const sortCache = new Map<string, Uint32Array>();
 
-function sortOrder(versionId: string, parsed: StoredColumns, column: string, descending: boolean): Uint32Array {
+function sortOrder(
+  versionId: string,
+  parsed: StoredColumns,
+  column: string,
+  descending: boolean,
+): Uint32Array {
   const key = `${versionId}\u0000${column}\u0000${descending}`;
   const hit = sortCache.get(key);
   if (hit) return hit;
@@ -244,11 +284,14 @@ export async function readRowsWindow(
   const offset = Math.max(0, Math.min(window.offset, total));
   const end = Math.min(total, offset + Math.max(0, Math.min(window.limit, 1000)));
   // Sorting by a masked column would show the order of its values: it is not offered.
-  const sortable = window.sort && parsed.names.includes(window.sort.column) && !masked.includes(window.sort.column);
-  const order = sortable && window.sort ? sortOrder(row.v.id, parsed, window.sort.column, window.sort.descending) : null;
+  const sortable =
+    window.sort && parsed.names.includes(window.sort.column) && !masked.includes(window.sort.column);
+  const order =
+    sortable && window.sort ? sortOrder(row.v.id, parsed, window.sort.column, window.sort.descending) : null;
   const rows: string[][] = [];
   const rowNumbers: number[] = [];
-  const cell = (c: StoredColumns["columns"][number], i: number): string => (c instanceof Float64Array ? (Number.isNaN(c[i]) ? "" : String(c[i])) : (c[i] ?? ""));
+  const cell = (c: StoredColumns["columns"][number], i: number): string =>
+    c instanceof Float64Array ? (Number.isNaN(c[i]) ? "" : String(c[i])) : (c[i] ?? "");
   for (let k = offset; k < end; k++) {
     const i = order ? order[k] : k;
     rows.push(parsed.columns.map((c, j) => (maskAt[j] ? maskValue(cell(c, i)) : cell(c, i))));

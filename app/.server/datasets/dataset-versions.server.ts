@@ -18,11 +18,15 @@ export async function latestLocked(datasetId: string): Promise<DatasetVersionRow
 }
 
 export function parsedOf(v: DatasetVersionRow): Promise<StoredColumns> {
-  if (v.purgedAt) throw new Error(`Version ${v.version} was purged on ${v.purgedAt}; its files are no longer stored.`);
+  if (v.purgedAt)
+    throw new Error(`Version ${v.version} was purged on ${v.purgedAt}; its files are no longer stored.`);
   return storedColumnsOf(v);
 }
 
-export async function versionInStudy(studyId: string, versionId: string): Promise<{ d: typeof t.datasets.$inferSelect; v: DatasetVersionRow } | null> {
+export async function versionInStudy(
+  studyId: string,
+  versionId: string,
+): Promise<{ d: typeof t.datasets.$inferSelect; v: DatasetVersionRow } | null> {
   const [row] = await db
     .select({ d: t.datasets, v: t.datasetVersions })
     .from(t.datasetVersions)

@@ -12,7 +12,13 @@ import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
 import type { ColumnMeta } from "./column-summary";
 import { primeArrowColumnsCache, textOf, writeArrowColumns } from "./arrow-columns.server";
 import { summariseChanges, type ChangeSummary } from "./diff";
-import { firstBytesOf, formatOf, parseDatasetFile, type DatasetFormat, type ParseOptions } from "./parse.server";
+import {
+  firstBytesOf,
+  formatOf,
+  parseDatasetFile,
+  type DatasetFormat,
+  type ParseOptions,
+} from "./parse.server";
 import { screenColumns } from "./screen";
 import { isStorageError } from "../storage-errors.server";
 import { auditUploadRefusal, storageRefusal } from "./upload.server";
@@ -54,7 +60,14 @@ export interface UploadRequest {
 }
 
 export type UploadResult =
-  | { ok: true; versionId: string; version: number; datasetId: string; hits: number; changes: ChangeSummary | null }
+  | {
+      ok: true;
+      versionId: string;
+      version: number;
+      datasetId: string;
+      hits: number;
+      changes: ChangeSummary | null;
+    }
   | { ok: false; problems: string[] };
 
 export type Progress = (phase: "parse" | "screen" | "store", fraction: number) => void;
@@ -78,7 +91,11 @@ export async function sweepLeftovers(graceMs?: number): Promise<string[]> {
  * named dataset. On any problem nothing is stored: the work file is removed and the problems
  * are returned (and recorded in the audit trail as a refused upload).
  */
-export async function uploadDataset(actor: Actor, req: UploadRequest, progress: Progress = () => undefined): Promise<UploadResult> {
+export async function uploadDataset(
+  actor: Actor,
+  req: UploadRequest,
+  progress: Progress = () => undefined,
+): Promise<UploadResult> {
   let columnsWork: string | null = null;
   const placed: string[] = [];
   try {
@@ -103,7 +120,13 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
       const [same] = await db
         .select({ version: t.datasetVersions.version, status: t.datasetVersions.status })
         .from(t.datasetVersions)
-        .where(and(eq(t.datasetVersions.datasetId, existing.id), eq(t.datasetVersions.sha256, req.sha256), isNull(t.datasetVersions.purgedAt)))
+        .where(
+          and(
+            eq(t.datasetVersions.datasetId, existing.id),
+            eq(t.datasetVersions.sha256, req.sha256),
+            isNull(t.datasetVersions.purgedAt),
+          ),
+        )
         .orderBy(desc(t.datasetVersions.version))
         .limit(1);
       if (same) {
@@ -117,7 +140,13 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
       parsed.names.map((name, j) => {
         // `format` is set by readers of files that declare one (SAS formats of transport files).
         const meta = parsed.columns[j] as ColumnMeta & { format?: string | null };
-        return { name, type: meta.type, cells: parsed.cells[j], label: meta.label, format: meta.format ?? null };
+        return {
+          name,
+          type: meta.type,
+          cells: parsed.cells[j],
+          label: meta.label,
+          format: meta.format ?? null,
+        };
       }),
     );
     const stored = storedColumnsFromParsed(parsed);
@@ -128,7 +157,12 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
       // Both sides as the stored typed columns give them, so "1.50" and "1.5" are the same value.
       const before = await parsedOf(previous);
       changes = summariseChanges(
-        { version: previous.version, names: before.names, cells: before.columns.map(textOf), keyColumns: JSON.parse(previous.keyColumnsJson) as string[] },
+        {
+          version: previous.version,
+          names: before.names,
+          cells: before.columns.map(textOf),
+          keyColumns: JSON.parse(previous.keyColumnsJson) as string[],
+        },
         { names: parsed.names, cells: stored.columns.map(textOf), keyColumns: parsed.keyColumns },
       );
     }
@@ -143,7 +177,9 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
       let datasetId = existing?.id;
       if (!datasetId) {
         datasetId = newId();
-        await tx.insert(t.datasets).values({ id: datasetId, studyId: req.studyId, name: req.datasetName, createdBy: actor.id });
+        await tx
+          .insert(t.datasets)
+          .values({ id: datasetId, studyId: req.studyId, name: req.datasetName, createdBy: actor.id });
       }
       const [last] = await tx
         .select({ version: t.datasetVersions.version })
@@ -185,9 +221,20 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
           datasetVersionId: versionId,
           column: h.column,
           rule: h.rule,
-          maskedExamplesJson: JSON.stringify({ label: h.ruleLabel, basis: h.basis, matches: h.matches, examples: h.maskedExamples }),
+          maskedExamplesJson: JSON.stringify({
+            label: h.ruleLabel,
+            basis: h.basis,
+            matches: h.matches,
+            examples: h.maskedExamples,
+          }),
           ...(earlier
-            ? { resolution: "not_identifier" as const, rationale: earlier.rationale, resolvedBy: earlier.resolvedBy, resolvedAt: earlier.resolvedAt, carriedFromId: earlier.originId }
+            ? {
+                resolution: "not_identifier" as const,
+                rationale: earlier.rationale,
+                resolvedBy: earlier.resolvedBy,
+                resolvedAt: earlier.resolvedAt,
+                carriedFromId: earlier.originId,
+              }
             : {}),
         });
       }
@@ -210,11 +257,21 @@ export async function uploadDataset(actor: Actor, req: UploadRequest, progress: 
             columns: parsed.names.length,
             keyColumns: parsed.keyColumns,
             keySource: parsed.keySource,
-            ...(req.readByValues && req.readByValues.columns.length > 0 ? { readByValues: req.readByValues } : {}),
+            ...(req.readByValues && req.readByValues.columns.length > 0
+              ? { readByValues: req.readByValues }
+              : {}),
             warnings: parsed.columns.flatMap((c) => c.warnings ?? []).slice(0, 20),
             screenHits: hits.map((h) => `${h.column}: ${h.rule}`),
             screenResolutionsCarriedForward: carriedForward,
-            changes: changes ? { rowsAdded: changes.rowsAdded, rowsRemoved: changes.rowsRemoved, rowsChanged: changes.rowsChanged, columnsAdded: changes.columnsAdded, columnsRemoved: changes.columnsRemoved } : null,
+            changes: changes
+              ? {
+                  rowsAdded: changes.rowsAdded,
+                  rowsRemoved: changes.rowsRemoved,
+                  rowsChanged: changes.rowsChanged,
+                  columnsAdded: changes.columnsAdded,
+                  columnsRemoved: changes.columnsRemoved,
+                }
+              : null,
           },
         },
         tx,
@@ -256,19 +313,35 @@ async function resolutionsToCarry(datasetId: string): Promise<Map<string, Carrie
     .select({ h: t.identifierScreenHits, version: t.datasetVersions.version })
     .from(t.identifierScreenHits)
     .innerJoin(t.datasetVersions, eq(t.datasetVersions.id, t.identifierScreenHits.datasetVersionId))
-    .where(and(eq(t.datasetVersions.datasetId, datasetId), eq(t.identifierScreenHits.resolution, "not_identifier")))
+    .where(
+      and(
+        eq(t.datasetVersions.datasetId, datasetId),
+        eq(t.identifierScreenHits.resolution, "not_identifier"),
+      ),
+    )
     .orderBy(desc(t.datasetVersions.version));
   const out = new Map<string, CarriedResolution>();
   for (const { h, version } of rows) {
     const k = carryKey(h.column, h.rule);
     if (out.has(k)) continue;
-    out.set(k, { originId: h.carriedFromId ?? h.id, version, rationale: h.rationale, resolvedBy: h.resolvedBy, resolvedAt: h.resolvedAt });
+    out.set(k, {
+      originId: h.carriedFromId ?? h.id,
+      version,
+      rationale: h.rationale,
+      resolvedBy: h.resolvedBy,
+      resolvedAt: h.resolvedAt,
+    });
   }
   return out;
 }
 
 async function refuse(actor: Actor, req: UploadRequest, problems: string[]): Promise<UploadResult> {
-  await auditUploadRefusal(actor, req.studyId, { dataset: req.datasetName, fileName: req.fileName, sha256: req.sha256, byteSize: req.byteSize }, problems);
+  await auditUploadRefusal(
+    actor,
+    req.studyId,
+    { dataset: req.datasetName, fileName: req.fileName, sha256: req.sha256, byteSize: req.byteSize },
+    problems,
+  );
   return { ok: false, problems };
 }
 
@@ -285,7 +358,8 @@ async function removeUnreferenced(placed: string[]): Promise<void> {
   if (placed.length === 0) return;
   const referenced = await referencedStorePaths().catch(() => null);
   if (!referenced) return; // the sweep removes them later
-  for (const relative of placed) if (!referenced.has(relative)) await removeQuietly(absoluteStorePath(relative));
+  for (const relative of placed)
+    if (!referenced.has(relative)) await removeQuietly(absoluteStorePath(relative));
 }
 
 /**
@@ -301,5 +375,9 @@ export async function uploadBytes(
   const workPath = await newWorkPath("upload");
   await writeFile(workPath, bytes);
   const { bytes: _ignored, ...rest } = input;
-  return uploadDataset(actor, { ...rest, workPath, byteSize: bytes.length, sha256: createHash("sha256").update(bytes).digest("hex") }, progress);
+  return uploadDataset(
+    actor,
+    { ...rest, workPath, byteSize: bytes.length, sha256: createHash("sha256").update(bytes).digest("hex") },
+    progress,
+  );
 }

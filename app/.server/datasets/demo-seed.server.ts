@@ -17,18 +17,33 @@ export const DEMO_SUBJECT_CODE_RATIONALE =
 
 export async function seedDemoDataset(studyId: string): Promise<{ versionId: string; sha256: string }> {
   const [dana] = await db.select().from(t.people).where(eq(t.people.email, DEMO_DATA_MANAGER_EMAIL)).limit(1);
-  if (!dana) throw new Error(`The demo data manager ${DEMO_DATA_MANAGER_EMAIL} is not in the database; seed the demo people first.`);
+  if (!dana)
+    throw new Error(
+      `The demo data manager ${DEMO_DATA_MANAGER_EMAIL} is not in the database; seed the demo people first.`,
+    );
   const actor = actorOf(dana);
-  const uploaded = await uploadBytes(actor, { studyId, datasetName: "adeff", fileName: "adeff.csv", bytes: demoDatasetCsv() });
+  const uploaded = await uploadBytes(actor, {
+    studyId,
+    datasetName: "adeff",
+    fileName: "adeff.csv",
+    bytes: demoDatasetCsv(),
+  });
   if (!uploaded.ok) throw new Error(`The demo dataset was refused: ${uploaded.problems.join(" ")}`);
   const detail = await getVersionDetail(studyId, uploaded.versionId);
   for (const hit of detail?.hits ?? []) {
-    if (hit.rule !== "subject_code") throw new Error(`The demo dataset has an unexpected identifier screen hit: ${hit.column} (${hit.ruleLabel}).`);
+    if (hit.rule !== "subject_code")
+      throw new Error(
+        `The demo dataset has an unexpected identifier screen hit: ${hit.column} (${hit.ruleLabel}).`,
+      );
     const done = await recordNotIdentifier(actor, studyId, hit.id, DEMO_SUBJECT_CODE_RATIONALE);
     if (!done.ok) throw new Error(done.message);
   }
   // The seed acts for the demo data manager when the demo starts, so her lock is signed at that moment.
-  const locked = await lockVersion({ ...actor, signedInAt: new Date().toISOString() }, studyId, uploaded.versionId);
+  const locked = await lockVersion(
+    { ...actor, signedInAt: new Date().toISOString() },
+    studyId,
+    uploaded.versionId,
+  );
   if (!locked.ok) throw new Error(locked.message);
   return { versionId: uploaded.versionId, sha256: locked.sha256 };
 }

@@ -19,12 +19,19 @@ function keyOf(t: Comparable, key: string[]): (i: number) => string {
   return cols.length === 1 ? (i) => cols[0][i] : (i) => cols.map((c) => c[i]).join(" / ");
 }
 
-export function summariseChanges(previous: Comparable & { version: number }, next: Comparable): ChangeSummary {
+export function summariseChanges(
+  previous: Comparable & { version: number },
+  next: Comparable,
+): ChangeSummary {
   const columnsAdded = next.names.filter((n) => !previous.names.includes(n));
   const columnsRemoved = previous.names.filter((n) => !next.names.includes(n));
   const common = next.names.filter((n) => previous.names.includes(n));
   // Match by the new key when the old file has those columns too, else by the old key.
-  const key = next.keyColumns.every((k) => previous.names.includes(k)) ? next.keyColumns : previous.keyColumns.every((k) => next.names.includes(k)) ? previous.keyColumns : [];
+  const key = next.keyColumns.every((k) => previous.names.includes(k))
+    ? next.keyColumns
+    : previous.keyColumns.every((k) => next.names.includes(k))
+      ? previous.keyColumns
+      : [];
   const summary: ChangeSummary = {
     againstVersion: previous.version,
     keyColumns: key,

@@ -7,12 +7,17 @@
 import { isMissingCell } from "../../engine/data";
 
 const SUBJECT_NAMES = /^(usubjid|subjid|subject|subject_?id|subj|patient_?id|pid|id)$/i;
-const TIMING_NAMES = /^(paramcd|param|avisitn|avisit|visitnum|visit|atptn|atpt|adt|adtm|ady|timepoint|week|period|aperiod|seq|.*seq)$/i;
+const TIMING_NAMES =
+  /^(paramcd|param|avisitn|avisit|visitnum|visit|atptn|atpt|adt|adtm|ady|timepoint|week|period|aperiod|seq|.*seq)$/i;
 
 export type KeyOutcome = { ok: true; columns: string[] } | { ok: false; problems: string[] };
 
 /** Rows sharing a key value, as pairs of row numbers (first seen, repeat). */
-export function duplicateKeys(keyCells: string[][], rowNumbers: number[], limit = 5): { value: string[]; rows: [number, number] }[] {
+export function duplicateKeys(
+  keyCells: string[][],
+  rowNumbers: number[],
+  limit = 5,
+): { value: string[]; rows: [number, number] }[] {
   const seen = new Map<string, number>();
   const dups: { value: string[]; rows: [number, number] }[] = [];
   const n = keyCells[0]?.length ?? 0;
@@ -36,17 +41,32 @@ function missingIn(cells: string[]): number {
  * column may be empty in some records (CDISC's own examples declare such keys); only its
  * uniqueness is then required.
  */
-export function findKey(file: string, names: string[], cells: string[][], rowNumbers: number[], explicit: string[] | null, declared = false): KeyOutcome {
+export function findKey(
+  file: string,
+  names: string[],
+  cells: string[][],
+  rowNumbers: number[],
+  explicit: string[] | null,
+  declared = false,
+): KeyOutcome {
   const col = (name: string) => cells[names.indexOf(name)];
   if (explicit && explicit.length > 0) {
     const unknown = explicit.filter((k) => !names.includes(k));
     if (unknown.length > 0) {
-      return { ok: false, problems: [`${file}: the key column${unknown.length > 1 ? "s" : ""} ${unknown.map((k) => `"${k}"`).join(", ")} ${unknown.length > 1 ? "are" : "is"} not in the file. Its columns are: ${names.join(", ")}.`] };
+      return {
+        ok: false,
+        problems: [
+          `${file}: the key column${unknown.length > 1 ? "s" : ""} ${unknown.map((k) => `"${k}"`).join(", ")} ${unknown.length > 1 ? "are" : "is"} not in the file. Its columns are: ${names.join(", ")}.`,
+        ],
+      };
     }
     const problems: string[] = [];
     for (const k of declared ? [] : explicit) {
       const at = missingIn(col(k));
-      if (at !== -1) problems.push(`${file}: key column "${k}", row ${rowNumbers[at]}: the key is missing. Every record needs its key.`);
+      if (at !== -1)
+        problems.push(
+          `${file}: key column "${k}", row ${rowNumbers[at]}: the key is missing. Every record needs its key.`,
+        );
     }
     for (const d of duplicateKeys(explicit.map(col), rowNumbers)) {
       problems.push(
@@ -62,16 +82,20 @@ export function findKey(file: string, names: string[], cells: string[][], rowNum
     const timing = names.filter((n) => TIMING_NAMES.test(n) && n !== subject);
     for (let size = 1; size <= timing.length; size++) {
       const candidate = [subject, ...timing.slice(0, size)];
-      if (duplicateKeys(candidate.map(col), rowNumbers, 1).length === 0) return findKey(file, names, cells, rowNumbers, candidate);
+      if (duplicateKeys(candidate.map(col), rowNumbers, 1).length === 0)
+        return findKey(file, names, cells, rowNumbers, candidate);
     }
     return findKey(file, names, cells, rowNumbers, timing.length > 0 ? [subject, ...timing] : [subject]);
   }
   for (const name of names) {
     const c = col(name);
-    if (missingIn(c) === -1 && duplicateKeys([c], rowNumbers, 1).length === 0) return { ok: true, columns: [name] };
+    if (missingIn(c) === -1 && duplicateKeys([c], rowNumbers, 1).length === 0)
+      return { ok: true, columns: [name] };
   }
   return {
     ok: false,
-    problems: [`${file}: Plumbline found no key: no subject identifier column (such as USUBJID or SUBJID) and no complete column with distinct values. Name the key columns on the upload form.`],
+    problems: [
+      `${file}: Plumbline found no key: no subject identifier column (such as USUBJID or SUBJID) and no complete column with distinct values. Name the key columns on the upload form.`,
+    ],
   };
 }

@@ -7,7 +7,16 @@
  */
 import { config } from "../config.server";
 import { DEFAULT_LIMITS, type ReadLimits } from "../../engine-io/dataset/limits";
-import { firstBytesOf, formatOf, readDatasetFile, type ColumnReadMeta, type DatasetFormat, type ReadOptions, type ReadOutcome, type ReadTable } from "../../engine-io/dataset/read";
+import {
+  firstBytesOf,
+  formatOf,
+  readDatasetFile,
+  type ColumnReadMeta,
+  type DatasetFormat,
+  type ReadOptions,
+  type ReadOutcome,
+  type ReadTable,
+} from "../../engine-io/dataset/read";
 import { summaryType } from "../../engine-io/dataset/typing";
 import { summariseColumn, type ColumnMeta } from "./column-summary";
 import { findKey } from "./keys";
@@ -54,11 +63,20 @@ export type ParseOutcome = { ok: true; dataset: ParsedDataset } | { ok: false; p
 
 /** The reading limits the server is configured with. */
 export function serverLimits(): ReadLimits {
-  return { ...DEFAULT_LIMITS, maxColumns: config.DATASET_MAX_COLUMNS, maxHeaderBytes: config.DATASET_MAX_HEADER_BYTES };
+  return {
+    ...DEFAULT_LIMITS,
+    maxColumns: config.DATASET_MAX_COLUMNS,
+    maxHeaderBytes: config.DATASET_MAX_HEADER_BYTES,
+  };
 }
 
 function readOptions(options: ParseOptions): ReadOptions {
-  return { numericColumns: options.numericColumns, readByValues: options.readByValues, onProgress: options.onProgress, limits: serverLimits() };
+  return {
+    numericColumns: options.numericColumns,
+    readByValues: options.readByValues,
+    onProgress: options.onProgress,
+    limits: serverLimits(),
+  };
 }
 
 /** Adds the key and the column summaries to what a reader gave back. */
@@ -67,7 +85,14 @@ function finish(file: string, read: ReadOutcome, options: ParseOptions): ParseOu
   const table: ReadTable = read.table;
   const named = options.keyColumns && options.keyColumns.length > 0 ? options.keyColumns : null;
   const keySource = named ? "uploader" : table.declaredKey ? "file" : "detected";
-  const key = findKey(file, table.names, table.cells, table.rowNumbers, named ?? table.declaredKey, keySource === "file");
+  const key = findKey(
+    file,
+    table.names,
+    table.cells,
+    table.rowNumbers,
+    named ?? table.declaredKey,
+    keySource === "file",
+  );
   if (!key.ok) return { ok: false, problems: key.problems };
   const columns = table.columns.map((c, j): ParsedColumnMeta => {
     const { name, label, ...read } = c;
@@ -75,7 +100,16 @@ function finish(file: string, read: ReadOutcome, options: ParseOptions): ParseOu
   });
   return {
     ok: true,
-    dataset: { format: table.format, names: table.names, cells: table.cells, rowNumbers: table.rowNumbers, columns, keyColumns: key.columns, datasetLabel: table.datasetLabel, keySource },
+    dataset: {
+      format: table.format,
+      names: table.names,
+      cells: table.cells,
+      rowNumbers: table.rowNumbers,
+      columns,
+      keyColumns: key.columns,
+      datasetLabel: table.datasetLabel,
+      keySource,
+    },
   };
 }
 
@@ -85,27 +119,49 @@ async function guarded(fileName: string, read: () => Promise<ReadOutcome>): Prom
     return await read();
   } catch (e) {
     console.error(e);
-    return { ok: false, problems: [`${fileName} could not be read (${e instanceof Error ? e.message : String(e)}). Check that it is a CSV, Dataset-JSON v1.1 or XPORT file and upload it again.`] };
+    return {
+      ok: false,
+      problems: [
+        `${fileName} could not be read (${e instanceof Error ? e.message : String(e)}). Check that it is a CSV, Dataset-JSON v1.1 or XPORT file and upload it again.`,
+      ],
+    };
   }
 }
 
 /** Reads and checks a CSV file. */
-export function parseCsv(filePath: string, fileName: string, options: ParseOptions = {}): Promise<ParseOutcome> {
+export function parseCsv(
+  filePath: string,
+  fileName: string,
+  options: ParseOptions = {},
+): Promise<ParseOutcome> {
   return parseDatasetFile(filePath, fileName, "csv", options);
 }
 
 /** Reads and checks a CDISC Dataset-JSON v1.1 file (JSON or NDJSON form). */
-export function parseDatasetJson(filePath: string, fileName: string, options: ParseOptions = {}): Promise<ParseOutcome> {
+export function parseDatasetJson(
+  filePath: string,
+  fileName: string,
+  options: ParseOptions = {},
+): Promise<ParseOutcome> {
   return parseDatasetFile(filePath, fileName, "dataset-json", options);
 }
 
-export async function parseDatasetFile(filePath: string, fileName: string, format: DatasetFormat, options: ParseOptions = {}): Promise<ParseOutcome> {
+export async function parseDatasetFile(
+  filePath: string,
+  fileName: string,
+  format: DatasetFormat,
+  options: ParseOptions = {},
+): Promise<ParseOutcome> {
   if (format !== "dataset-json" && (options.readByValues?.length ?? 0) > 0) {
     return {
       ok: false,
-      problems: [`${fileName}: reading columns by their values applies to Dataset-JSON files, whose columns declare a data type; ${format === "csv" ? "CSV" : "XPORT"} columns are read by their values already. Leave "Read by their values" empty.`],
+      problems: [
+        `${fileName}: reading columns by their values applies to Dataset-JSON files, whose columns declare a data type; ${format === "csv" ? "CSV" : "XPORT"} columns are read by their values already. Leave "Read by their values" empty.`,
+      ],
     };
   }
-  const read = await guarded(fileName, () => readDatasetFile(filePath, fileName, format, readOptions(options)));
+  const read = await guarded(fileName, () =>
+    readDatasetFile(filePath, fileName, format, readOptions(options)),
+  );
   return finish(fileName, read, options);
 }

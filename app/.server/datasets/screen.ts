@@ -34,22 +34,27 @@ export const SCREEN_RULES: ScreenRule[] = [
   {
     id: "name",
     label: "Person's name",
-    byName: /^(.*_)?(first_?name|last_?name|given_?name|family_?name|surname|full_?name|patient_?name|name|initials|fname|lname)$/i,
+    byName:
+      /^(.*_)?(first_?name|last_?name|given_?name|family_?name|surname|full_?name|patient_?name|name|initials|fname|lname)$/i,
     byValue: /\b(Mr|Mrs|Ms|Miss|Dr|Prof)\.?\s+[A-Z][a-z]+/,
     hint: (v) => /[A-Z]/.test(v),
   },
   {
     id: "address",
     label: "Street address or place smaller than a state",
-    byName: /^(?!.*(ip|mail|web|mac)_?addr)(.*_)?(address|addr|street|street_?address|city|town|county|zip|zip_?code|postcode|postal_?code)$/i,
-    byValue: /\b\d{1,5}\s+([A-Z][a-z]+\s+){1,3}(Street|St|Avenue|Ave|Road|Rd|Lane|Ln|Drive|Dr|Boulevard|Blvd|Way|Court|Ct|Place|Pl)\b\.?/,
+    byName:
+      /^(?!.*(ip|mail|web|mac)_?addr)(.*_)?(address|addr|street|street_?address|city|town|county|zip|zip_?code|postcode|postal_?code)$/i,
+    byValue:
+      /\b\d{1,5}\s+([A-Z][a-z]+\s+){1,3}(Street|St|Avenue|Ave|Road|Rd|Lane|Ln|Drive|Dr|Boulevard|Blvd|Way|Court|Ct|Place|Pl)\b\.?/,
     hint: hasDigit,
   },
   {
     id: "date",
     label: "Full date tied to a person (day, month and year)",
-    byName: /^(.*_)?(dob|birth_?date|date_?of_?birth|birth_?dt|brthdt|brthdtc|birthday|death_?date|dthdt|dthdtc)$/i,
-    byValue: /^(\d{4}-\d{2}-\d{2}([T ]\d{2}:\d{2}.*)?|\d{1,2}[/.]\d{1,2}[/.]\d{4}|\d{1,2}\s+(Jan|Feb|Mar|Apr|May|Jun|Jul|Aug|Sep|Oct|Nov|Dec)[a-z]*\s+\d{4})$/i,
+    byName:
+      /^(.*_)?(dob|birth_?date|date_?of_?birth|birth_?dt|brthdt|brthdtc|birthday|death_?date|dthdt|dthdtc)$/i,
+    byValue:
+      /^(\d{4}-\d{2}-\d{2}([T ]\d{2}:\d{2}.*)?|\d{1,2}[/.]\d{1,2}[/.]\d{4}|\d{1,2}\s+(Jan|Feb|Mar|Apr|May|Jun|Jul|Aug|Sep|Oct|Nov|Dec)[a-z]*\s+\d{4})$/i,
     hint: hasDigit,
   },
   {
@@ -61,7 +66,8 @@ export const SCREEN_RULES: ScreenRule[] = [
     // 15; national numbers with their area code have at least 10). A study's subject identifier
     // (01-701-1015: study, site, subject) has fewer digits, and a column is flagged only when most
     // of its values are numbers like this, so one odd code does not make a column a phone column.
-    byValue: /^(tel:\s*)?(\+|00)?\(?\d{1,5}\)?([\s.\-/]*\(?\d{1,8}\)?)+(\s*(x|ext\.?|extension)\s*\d{1,5})?$/i,
+    byValue:
+      /^(tel:\s*)?(\+|00)?\(?\d{1,5}\)?([\s.\-/]*\(?\d{1,8}\)?)+(\s*(x|ext\.?|extension)\s*\d{1,5})?$/i,
     hint: (v) => {
       if (v.length < 10 || v.length > 40) return false;
       const main = /[xtn]\.?\s*\d{1,5}$/i.test(v) ? v.replace(/(x|ext\.?|extension)\s*\d{1,5}$/i, "") : v;
@@ -84,14 +90,16 @@ export const SCREEN_RULES: ScreenRule[] = [
   {
     id: "national_id",
     label: "Social security or other national identification number",
-    byName: /^(.*_)?(ssn|social_?security.*|national_?id|nin|nino|passport.*|nhs_?(no|number)|tax_?id|insurance_?number)$/i,
+    byName:
+      /^(.*_)?(ssn|social_?security.*|national_?id|nin|nino|passport.*|nhs_?(no|number)|tax_?id|insurance_?number)$/i,
     byValue: /(^|[^\d])\d{3}-\d{2}-\d{4}($|[^\d])/,
     hint: hasDigit,
   },
   {
     id: "record_number",
     label: "Medical record, health plan or account number",
-    byName: /^(.*_)?(mrn|medical_?record.*|record_?(no|number)|chart_?(no|number)|account.*|acct.*|iban|health_?plan.*|beneficiary.*|member_?id)$/i,
+    byName:
+      /^(.*_)?(mrn|medical_?record.*|record_?(no|number)|chart_?(no|number)|account.*|acct.*|iban|health_?plan.*|beneficiary.*|member_?id)$/i,
     byValue: /\b(MRN|Acct|Account)[\s#:.-]*\d{4,}|\b[A-Z]{2}\d{2}[A-Z0-9]{11,30}\b/i,
     hint: hasDigit,
   },
@@ -112,7 +120,8 @@ export const SCREEN_RULES: ScreenRule[] = [
   {
     id: "subject_code",
     label: "Unique identifying number or code (subject or patient identifier)",
-    byName: /^(usubjid|subjid|subject|subject_?(id|code|no|number)|patient|patient_?(id|code|no|number)|pid|screening_?(id|no|number)|randomi[sz]ation_?(id|no|number)|rand_?no)$/i,
+    byName:
+      /^(usubjid|subjid|subject|subject_?(id|code|no|number)|patient|patient_?(id|code|no|number)|pid|screening_?(id|no|number)|randomi[sz]ation_?(id|no|number)|rand_?no)$/i,
   },
 ];
 
@@ -153,7 +162,10 @@ export function maskValue(value: string): string {
 const MAX_EXAMPLES = 3;
 
 /** The rule for ages over 89 (Safe Harbor aggregates them into "90 or older"). */
-export const AGE_RULE = { id: "age_over_89", label: "Age over 89 (Safe Harbor: ages over 89 are identifiers)" } as const;
+export const AGE_RULE = {
+  id: "age_over_89",
+  label: "Age over 89 (Safe Harbor: ages over 89 are identifiers)",
+} as const;
 export const OLDEST_SHOWN_AGE = 89;
 /** An age by its name (AGE, age_years, age_at_consent) or its label ("Age", "Age at baseline (years)"). */
 const AGE_NAME = /^(.*_)?age(_?(yrs?|years?|at_?\w+))?$/i;
@@ -161,7 +173,8 @@ const AGE_LABEL = /^\s*age\b(?!.*\b(group|grouping|category|unit|units|band|rang
 
 /** SAS formats that make a number a date (days since 1960-01-01) or a date-time (seconds since then). */
 const SAS_DATETIME_FORMAT = /^(DATETIME|E8601DT|IS8601DT|B8601DT|DTDATE|DTYYMMDD|NLDATM|MDYAMPM)/i;
-const SAS_DATE_FORMAT = /^(DATE|DAY|DDMMYY|MMDDYY|YYMMDD|YYMMN|YYMON|YYQ|MONYY|MONNAME|WEEKDATE|WEEKDATX|WORDDATE|WORDDATX|NLDATE|EURDF|E8601DA|IS8601DA|B8601DA|JULIAN|MMYY|YYMM)/i;
+const SAS_DATE_FORMAT =
+  /^(DATE|DAY|DDMMYY|MMDDYY|YYMMDD|YYMMN|YYMON|YYQ|MONYY|MONNAME|WEEKDATE|WEEKDATX|WORDDATE|WORDDATX|NLDATE|EURDF|E8601DA|IS8601DA|B8601DA|JULIAN|MMYY|YYMM)/i;
 const SAS_EPOCH_MS = Date.UTC(1960, 0, 1);
 
 /** How a numeric column's cells should be read for the screen: as SAS dates, date-times, or numbers. */
@@ -205,7 +218,16 @@ function ageHit(col: ScreenColumn): ScreenHit | null {
     matches++;
     if (examples.length < MAX_EXAMPLES) examples.push(maskValue(cell.trim()));
   }
-  return matches === 0 ? null : { column: col.name, rule: AGE_RULE.id, ruleLabel: AGE_RULE.label, basis: "values", matches, maskedExamples: examples };
+  return matches === 0
+    ? null
+    : {
+        column: col.name,
+        rule: AGE_RULE.id,
+        ruleLabel: AGE_RULE.label,
+        basis: "values",
+        matches,
+        maskedExamples: examples,
+      };
 }
 
 /**
@@ -253,7 +275,14 @@ export function screenColumns(columns: ScreenColumn[]): ScreenHit[] {
           examples.push(maskValue(value));
         }
       }
-      hits.push({ column: col.name, rule: rule.id, ruleLabel: rule.label, basis: nameHit ? "name" : "values", matches, maskedExamples: examples });
+      hits.push({
+        column: col.name,
+        rule: rule.id,
+        ruleLabel: rule.label,
+        basis: nameHit ? "name" : "values",
+        matches,
+        maskedExamples: examples,
+      });
     }
     const age = ageHit(col);
     if (age) hits.push(age);

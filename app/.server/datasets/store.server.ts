@@ -29,7 +29,8 @@ export function absoluteStorePath(relative: string): string {
 /** SHA-256 of a file, streamed. */
 export async function sha256OfFile(file: string): Promise<string> {
   const hash = createHash("sha256");
-  for await (const chunk of createReadStream(file, { highWaterMark: 1 << 20 }) as AsyncIterable<Buffer>) hash.update(chunk);
+  for await (const chunk of createReadStream(file, { highWaterMark: 1 << 20 }) as AsyncIterable<Buffer>)
+    hash.update(chunk);
   return hash.digest("hex");
 }
 
@@ -78,8 +79,19 @@ export async function removeQuietly(file: string | null | undefined): Promise<vo
  * former format if still there). The store is content-addressed, so the caller makes sure no
  * other version refers to the same SHA-256 before calling this.
  */
-export async function deleteVersionFiles(v: { sha256: string; storedPath: string; parsedPath: string | null }): Promise<void> {
-  const files = new Set([v.storedPath, v.parsedPath ?? "", columnsRelativePath(v.sha256), legacyColumnsRelativePath(v.sha256)].filter(Boolean));
+export async function deleteVersionFiles(v: {
+  sha256: string;
+  storedPath: string;
+  parsedPath: string | null;
+}): Promise<void> {
+  const files = new Set(
+    [
+      v.storedPath,
+      v.parsedPath ?? "",
+      columnsRelativePath(v.sha256),
+      legacyColumnsRelativePath(v.sha256),
+    ].filter(Boolean),
+  );
   for (const relative of files) await rm(absoluteStorePath(relative), { force: true });
 }
 
@@ -98,7 +110,10 @@ function processAlive(pid: number): boolean {
  * than a day), and store files that no dataset version refers to and that are older than
  * `graceMs` (a younger one may belong to an upload that is committing right now).
  */
-export async function sweepDatasetLeftovers(referenced: Set<string>, graceMs = 10 * 60_000): Promise<string[]> {
+export async function sweepDatasetLeftovers(
+  referenced: Set<string>,
+  graceMs = 10 * 60_000,
+): Promise<string[]> {
   const removed: string[] = [];
   const root = datasetsRoot();
   const tmp = path.join(root, "tmp");

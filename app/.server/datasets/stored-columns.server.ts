@@ -14,10 +14,23 @@
 import { existsSync } from "node:fs";
 import { eq, isNull, like, or } from "drizzle-orm";
 import { db, t, writeTransaction } from "../db/index.server";
-import { readArrowColumnsCached, typedColumnOf, writeArrowColumns, type StoredColumns } from "./arrow-columns.server";
+import {
+  readArrowColumnsCached,
+  typedColumnOf,
+  writeArrowColumns,
+  type StoredColumns,
+} from "./arrow-columns.server";
 import { readLegacyColumnsFile } from "./columns-file.server";
 import { parseDatasetFile } from "./parse.server";
-import { absoluteStorePath, columnsRelativePath, legacyColumnsRelativePath, moveIntoStore, newWorkPath, removeQuietly, sha256OfFile } from "./store.server";
+import {
+  absoluteStorePath,
+  columnsRelativePath,
+  legacyColumnsRelativePath,
+  moveIntoStore,
+  newWorkPath,
+  removeQuietly,
+  sha256OfFile,
+} from "./store.server";
 
 type VersionRow = typeof t.datasetVersions.$inferSelect;
 
@@ -36,25 +49,51 @@ export interface ParsedForStore {
  */
 export function storedColumnsFromParsed<P extends ParsedForStore>(parsed: P): StoredColumns {
   const { names, cells, rowNumbers, columns, ...dataset } = parsed;
-  const columnMeta = names.map((name, j) => ({ ...(columns[j] as Record<string, unknown> | undefined), name }));
-  return { names, columns: cells.map((c, j) => typedColumnOf(c, columnMeta[j])), rowNumbers, columnMeta, dataset: dataset as Record<string, unknown> };
+  const columnMeta = names.map((name, j) => ({
+    ...(columns[j] as Record<string, unknown> | undefined),
+    name,
+  }));
+  return {
+    names,
+    columns: cells.map((c, j) => typedColumnOf(c, columnMeta[j])),
+    rowNumbers,
+    columnMeta,
+    dataset: dataset as Record<string, unknown>,
+  };
 }
 
 /** True when the version's Arrow file is still to be written: a former `.cols` path, or none in place. */
 function needsArrow(v: VersionRow): boolean {
-  return v.parsedPath === null || !v.parsedPath.endsWith(".arrow") || !existsSync(absoluteStorePath(v.parsedPath));
+  return (
+    v.parsedPath === null || !v.parsedPath.endsWith(".arrow") || !existsSync(absoluteStorePath(v.parsedPath))
+  );
 }
 
 /** The cell text of a version in the former store: its `.cols` file, else its original bytes parsed again. */
-async function legacyCells(v: VersionRow): Promise<{ names: string[]; cells: string[][]; rowNumbers: number[] }> {
-  const cols = [v.parsedPath, legacyColumnsRelativePath(v.sha256)].find((p): p is string => Boolean(p) && existsSync(absoluteStorePath(p as string)));
+async function legacyCells(
+  v: VersionRow,
+): Promise<{ names: string[]; cells: string[][]; rowNumbers: number[] }> {
+  const cols = [v.parsedPath, legacyColumnsRelativePath(v.sha256)].find(
+    (p): p is string => Boolean(p) && existsSync(absoluteStorePath(p as string)),
+  );
   if (cols) return readLegacyColumnsFile(absoluteStorePath(cols));
   const original = absoluteStorePath(v.storedPath);
-  if (!existsSync(original)) throw new Error(`Dataset version ${v.version} (${v.fileName}) has neither columns nor its original file in the store; upload the file again.`);
+  if (!existsSync(original))
+    throw new Error(
+      `Dataset version ${v.version} (${v.fileName}) has neither columns nor its original file in the store; upload the file again.`,
+    );
   const actual = await sha256OfFile(original);
-  if (actual !== v.sha256) throw new Error(`The stored file of dataset version ${v.version} (${v.fileName}) no longer matches its SHA-256 ${v.sha256}; its columns were not rebuilt. Upload the file again.`);
-  const outcome = await parseDatasetFile(original, v.fileName, v.format, { keyColumns: JSON.parse(v.keyColumnsJson) as string[] });
-  if (!outcome.ok) throw new Error(`Dataset version ${v.version} (${v.fileName}) could not be read again to rebuild its columns: ${outcome.problems.join(" ")}`);
+  if (actual !== v.sha256)
+    throw new Error(
+      `The stored file of dataset version ${v.version} (${v.fileName}) no longer matches its SHA-256 ${v.sha256}; its columns were not rebuilt. Upload the file again.`,
+    );
+  const outcome = await parseDatasetFile(original, v.fileName, v.format, {
+    keyColumns: JSON.parse(v.keyColumnsJson) as string[],
+  });
+  if (!outcome.ok)
+    throw new Error(
+      `Dataset version ${v.version} (${v.fileName}) could not be read again to rebuild its columns: ${outcome.problems.join(" ")}`,
+    );
   return outcome.dataset;
 }
 
@@ -75,7 +114,10 @@ export function migrateVersionColumns(v: VersionRow): Promise<string> {
         names: legacy.names,
         cells: legacy.cells,
         rowNumbers: legacy.rowNumbers,
-        columns: legacy.names.map((name) => (JSON.parse(v.columnsJson) as { name: string }[]).find((c) => c.name === name) ?? { name }),
+        columns: legacy.names.map(
+          (name) =>
+            (JSON.parse(v.columnsJson) as { name: string }[]).find((c) => c.name === name) ?? { name },
+        ),
         format: v.format,
         keyColumns: JSON.parse(v.keyColumnsJson) as string[],
       });
@@ -87,11 +129,15 @@ export function migrateVersionColumns(v: VersionRow): Promise<string> {
         await removeQuietly(workPath);
       }
     }
-    await writeTransaction((tx) => tx.update(t.datasetVersions).set({ parsedPath: arrow }).where(eq(t.datasetVersions.id, v.id)));
+    await writeTransaction((tx) =>
+      tx.update(t.datasetVersions).set({ parsedPath: arrow }).where(eq(t.datasetVersions.id, v.id)),
+    );
     for (const old of new Set([v.parsedPath, legacyColumnsRelativePath(v.sha256)])) {
       if (old && old !== arrow) await removeQuietly(absoluteStorePath(old));
     }
-    console.info(`Dataset columns: version ${v.version} (${v.fileName}, SHA-256 ${v.sha256.slice(0, 12)}…) now stored as Arrow IPC (${arrow}).`);
+    console.info(
+      `Dataset columns: version ${v.version} (${v.fileName}, SHA-256 ${v.sha256.slice(0, 12)}…) now stored as Arrow IPC (${arrow}).`,
+    );
     return arrow;
   })();
   inFlight.set(v.id, work);
@@ -109,7 +155,10 @@ export async function migrateStoredColumns(): Promise<{ migrated: number; failed
     .from(t.datasetVersions)
     .where(or(like(t.datasetVersions.parsedPath, "%.cols"), isNull(t.datasetVersions.parsedPath)));
   const all = pending.sort((a, b) => Number(b.status === "locked") - Number(a.status === "locked"));
-  if (all.length > 0) console.info(`Dataset columns: ${all.length} stored version(s) in the former columns format; writing Arrow IPC files.`);
+  if (all.length > 0)
+    console.info(
+      `Dataset columns: ${all.length} stored version(s) in the former columns format; writing Arrow IPC files.`,
+    );
   let migrated = 0;
   const failed: string[] = [];
   for (const v of all) {

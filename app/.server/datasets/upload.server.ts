@@ -55,12 +55,18 @@ function discardRest(body: Readable): void {
 
 /** The refusal of a file over the limit; exactly `maxBytes` bytes is still within it. */
 function tooLarge(fileName: string, maxBytes: number): UploadRefused {
-  return new UploadRefused(`${fileName} is larger than the limit of ${formatBytes(maxBytes)}. Split the dataset or ask an administrator to raise DATASET_MAX_BYTES.`, 413);
+  return new UploadRefused(
+    `${fileName} is larger than the limit of ${formatBytes(maxBytes)}. Split the dataset or ask an administrator to raise DATASET_MAX_BYTES.`,
+    413,
+  );
 }
 
 /** A write to the work file (or its folder) failed: the disk, not the file, is the problem. */
 export function storageRefusal(e: unknown, what = "the uploaded file"): UploadRefused {
-  return new UploadRefused(`Plumbline could not store ${what}: ${describeStorageError(e)}. ${STORAGE_ADVICE}`, 507);
+  return new UploadRefused(
+    `Plumbline could not store ${what}: ${describeStorageError(e)}. ${STORAGE_ADVICE}`,
+    507,
+  );
 }
 
 /** Records a refused upload in the audit trail; a failure to record it (full disk) is only logged. */
@@ -70,8 +76,18 @@ export async function auditUploadRefusal(
   after: { dataset?: string; fileName?: string; sha256?: string; byteSize?: number },
   problems: string[],
 ): Promise<void> {
-  await appendAudit({ actor, action: "dataset.upload_refused", entityType: "dataset", studyId, after, detail: problems.slice(0, 5).join("\n") }).catch((e: unknown) =>
-    console.error("Could not record a refused upload in the audit trail:", e instanceof Error ? e.message : e),
+  await appendAudit({
+    actor,
+    action: "dataset.upload_refused",
+    entityType: "dataset",
+    studyId,
+    after,
+    detail: problems.slice(0, 5).join("\n"),
+  }).catch((e: unknown) =>
+    console.error(
+      "Could not record a refused upload in the audit trail:",
+      e instanceof Error ? e.message : e,
+    ),
   );
 }
 
@@ -80,7 +96,10 @@ export async function auditUploadRefusal(
  * failure (too large, cut off, a write error of the disk) is an UploadRefused, and by then
  * the work file is gone.
  */
-export async function receiveUpload(request: Request, maxBytes = config.DATASET_MAX_BYTES): Promise<ReceivedUpload> {
+export async function receiveUpload(
+  request: Request,
+  maxBytes = config.DATASET_MAX_BYTES,
+): Promise<ReceivedUpload> {
   const type = request.headers.get("Content-Type") ?? "";
   if (!type.startsWith("multipart/form-data") || !request.body) {
     throw new UploadRefused("Send the dataset as a multipart form (the upload form does this).", 400);
@@ -91,7 +110,10 @@ export async function receiveUpload(request: Request, maxBytes = config.DATASET_
   let file: ReceivedUpload["file"] = null;
   let workPath: string | null = null;
   // One byte over the limit: busboy marks a part truncated when it reaches `fileSize` exactly.
-  const parser = busboy({ headers: { "content-type": type }, limits: { files: 1, fileSize: maxBytes + 1, fields: 20, fieldSize: 10_000 } });
+  const parser = busboy({
+    headers: { "content-type": type },
+    limits: { files: 1, fileSize: maxBytes + 1, fields: 20, fieldSize: 10_000 },
+  });
   const writes: Promise<void>[] = [];
   const done = new Promise<void>((resolve, reject) => {
     parser.on("field", (name, value) => (fields[name] = value));
@@ -153,7 +175,10 @@ export async function receiveUpload(request: Request, maxBytes = config.DATASET_
     await Promise.allSettled(writes);
     await removeQuietly(workPath);
     if (e instanceof UploadRefused) throw e;
-    throw new UploadRefused("The upload was interrupted before the whole file arrived. Nothing was stored; upload the file again.", 400);
+    throw new UploadRefused(
+      "The upload was interrupted before the whole file arrived. Nothing was stored; upload the file again.",
+      400,
+    );
   }
   return { fields, file };
 }

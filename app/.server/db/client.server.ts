@@ -20,7 +20,10 @@ function localFilePath(url: string): string | null {
  * File databases get WAL mode and a busy timeout so concurrent requests wait for the writer
  * instead of failing with "database is locked".
  */
-export async function openDatabase(url: string, authToken?: string): Promise<{ client: Client; db: Database }> {
+export async function openDatabase(
+  url: string,
+  authToken?: string,
+): Promise<{ client: Client; db: Database }> {
   const file = localFilePath(url);
   if (file) mkdirSync(path.dirname(path.resolve(file)), { recursive: true });
   // The busy timeout must be a client option so every pooled connection gets it (a PRAGMA

@@ -13,26 +13,32 @@ const now = sql`(strftime('%Y-%m-%dT%H:%M:%fZ', 'now'))`;
 export const STUDY_ROLES = ["data_manager", "biostatistician", "medical_writer", "sponsor_reader"] as const;
 export type StudyRole = (typeof STUDY_ROLES)[number];
 
-export const people = sqliteTable("people", {
-  id: text("id").primaryKey(),
-  email: text("email").notNull().unique(),
-  displayName: text("display_name").notNull(),
-  organisation: text("organisation"),
-  /** Global administrator flag, taken from the identity provider's group attribute at each sign-in. */
-  isAdmin: integer("is_admin", { mode: "boolean" }).notNull().default(false),
-  /** Where the person signs in: the staff SAML provider or a sponsor's OpenID Connect provider. */
-  identitySource: text("identity_source", { enum: ["saml", "oidc"] }).notNull().default("saml"),
-  /** The subject at the identity provider (SAML NameID or OpenID Connect `sub`). */
-  externalId: text("external_id").notNull(),
-  /**
-   * The identity provider that vouches for `externalId` (SAML IdP entity id or OpenID Connect
-   * issuer). A person is the pair (issuer, subject); null only for accounts made before it was
-   * recorded, bound at their next sign-in when the subject matches.
-   */
-  identityIssuer: text("identity_issuer"),
-  createdAt: text("created_at").notNull().default(now),
-  lastSignInAt: text("last_sign_in_at"),
-}, (t) => [uniqueIndex("people_identity").on(t.identityIssuer, t.externalId)]);
+export const people = sqliteTable(
+  "people",
+  {
+    id: text("id").primaryKey(),
+    email: text("email").notNull().unique(),
+    displayName: text("display_name").notNull(),
+    organisation: text("organisation"),
+    /** Global administrator flag, taken from the identity provider's group attribute at each sign-in. */
+    isAdmin: integer("is_admin", { mode: "boolean" }).notNull().default(false),
+    /** Where the person signs in: the staff SAML provider or a sponsor's OpenID Connect provider. */
+    identitySource: text("identity_source", { enum: ["saml", "oidc"] })
+      .notNull()
+      .default("saml"),
+    /** The subject at the identity provider (SAML NameID or OpenID Connect `sub`). */
+    externalId: text("external_id").notNull(),
+    /**
+     * The identity provider that vouches for `externalId` (SAML IdP entity id or OpenID Connect
+     * issuer). A person is the pair (issuer, subject); null only for accounts made before it was
+     * recorded, bound at their next sign-in when the subject matches.
+     */
+    identityIssuer: text("identity_issuer"),
+    createdAt: text("created_at").notNull().default(now),
+    lastSignInAt: text("last_sign_in_at"),
+  },
+  (t) => [uniqueIndex("people_identity").on(t.identityIssuer, t.externalId)],
+);
 
 export const sessions = sqliteTable("sessions", {
   id: text("id").primaryKey(),
@@ -66,8 +72,12 @@ export const studyMemberships = sqliteTable(
   "study_memberships",
   {
     id: text("id").primaryKey(),
-    studyId: text("study_id").notNull().references(() => studies.id),
-    personId: text("person_id").notNull().references(() => people.id),
+    studyId: text("study_id")
+      .notNull()
+      .references(() => studies.id),
+    personId: text("person_id")
+      .notNull()
+      .references(() => people.id),
     role: text("role", { enum: STUDY_ROLES }).notNull(),
     grantedBy: text("granted_by").references(() => people.id),
     grantedAt: text("granted_at").notNull().default(now),
@@ -80,7 +90,9 @@ export const studyShares = sqliteTable(
   "study_shares",
   {
     id: text("id").primaryKey(),
-    studyId: text("study_id").notNull().references(() => studies.id),
+    studyId: text("study_id")
+      .notNull()
+      .references(() => studies.id),
     organisation: text("organisation").notNull(),
     sharedBy: text("shared_by").references(() => people.id),
     sharedAt: text("shared_at").notNull().default(now),
@@ -92,7 +104,9 @@ export const datasets = sqliteTable(
   "datasets",
   {
     id: text("id").primaryKey(),
-    studyId: text("study_id").notNull().references(() => studies.id),
+    studyId: text("study_id")
+      .notNull()
+      .references(() => studies.id),
     name: text("name").notNull(),
     description: text("description"),
     createdBy: text("created_by").references(() => people.id),
@@ -105,9 +119,13 @@ export const datasetVersions = sqliteTable(
   "dataset_versions",
   {
     id: text("id").primaryKey(),
-    datasetId: text("dataset_id").notNull().references(() => datasets.id),
+    datasetId: text("dataset_id")
+      .notNull()
+      .references(() => datasets.id),
     version: integer("version").notNull(),
-    status: text("status", { enum: ["draft", "locked", "superseded"] }).notNull().default("draft"),
+    status: text("status", { enum: ["draft", "locked", "superseded"] })
+      .notNull()
+      .default("draft"),
     format: text("format", { enum: ["csv", "dataset-json", "xpt"] }).notNull(),
     fileName: text("file_name").notNull(),
     byteSize: integer("byte_size").notNull(),
@@ -138,7 +156,9 @@ export const datasetVersions = sqliteTable(
 
 export const identifierScreenHits = sqliteTable("identifier_screen_hits", {
   id: text("id").primaryKey(),
-  datasetVersionId: text("dataset_version_id").notNull().references(() => datasetVersions.id),
+  datasetVersionId: text("dataset_version_id")
+    .notNull()
+    .references(() => datasetVersions.id),
   column: text("column").notNull(),
   rule: text("rule").notNull(),
   maskedExamplesJson: text("masked_examples_json").notNull().default("[]"),
@@ -152,7 +172,9 @@ export const identifierScreenHits = sqliteTable("identifier_screen_hits", {
 
 export const analysisPlans = sqliteTable("analysis_plans", {
   id: text("id").primaryKey(),
-  studyId: text("study_id").notNull().references(() => studies.id),
+  studyId: text("study_id")
+    .notNull()
+    .references(() => studies.id),
   name: text("name").notNull(),
   createdBy: text("created_by").references(() => people.id),
   createdAt: text("created_at").notNull().default(now),
@@ -162,7 +184,9 @@ export const planVersions = sqliteTable(
   "plan_versions",
   {
     id: text("id").primaryKey(),
-    planId: text("plan_id").notNull().references(() => analysisPlans.id),
+    planId: text("plan_id")
+      .notNull()
+      .references(() => analysisPlans.id),
     version: integer("version").notNull(),
     title: text("title").notNull(),
     sapName: text("sap_name"),
@@ -188,7 +212,9 @@ export const planVersions = sqliteTable(
 
 export const plannedModels = sqliteTable("planned_models", {
   id: text("id").primaryKey(),
-  planVersionId: text("plan_version_id").notNull().references(() => planVersions.id),
+  planVersionId: text("plan_version_id")
+    .notNull()
+    .references(() => planVersions.id),
   key: text("key").notNull(),
   title: text("title").notNull(),
   datasetName: text("dataset_name").notNull(),
@@ -204,18 +230,30 @@ export const reruns = sqliteTable(
   "reruns",
   {
     id: text("id").primaryKey(),
-    studyId: text("study_id").notNull().references(() => studies.id),
-    plannedModelId: text("planned_model_id").notNull().references(() => plannedModels.id),
-    planVersionId: text("plan_version_id").notNull().references(() => planVersions.id),
-    datasetVersionId: text("dataset_version_id").notNull().references(() => datasetVersions.id),
-    kind: text("kind", { enum: ["primary", "sensitivity"] }).notNull().default("primary"),
+    studyId: text("study_id")
+      .notNull()
+      .references(() => studies.id),
+    plannedModelId: text("planned_model_id")
+      .notNull()
+      .references(() => plannedModels.id),
+    planVersionId: text("plan_version_id")
+      .notNull()
+      .references(() => planVersions.id),
+    datasetVersionId: text("dataset_version_id")
+      .notNull()
+      .references(() => datasetVersions.id),
+    kind: text("kind", { enum: ["primary", "sensitivity"] })
+      .notNull()
+      .default("primary"),
     sensitivityKey: text("sensitivity_key"),
     parentRerunId: text("parent_rerun_id"),
     prespecified: integer("prespecified", { mode: "boolean" }).notNull().default(true),
     /** How a sensitivity rerun differs from its primary: remedy, excluded rows, covariate set. */
     optionsJson: text("options_json").notNull().default("{}"),
     label: text("label"),
-    status: text("status", { enum: ["queued", "running", "completed", "failed"] }).notNull().default("queued"),
+    status: text("status", { enum: ["queued", "running", "completed", "failed"] })
+      .notNull()
+      .default("queued"),
     failureReason: text("failure_reason"),
     datasetSha256: text("dataset_sha256").notNull(),
     engineVersion: text("engine_version"),
@@ -233,9 +271,13 @@ export const reruns = sqliteTable(
 
 export const findings = sqliteTable("findings", {
   id: text("id").primaryKey(),
-  rerunId: text("rerun_id").notNull().references(() => reruns.id),
+  rerunId: text("rerun_id")
+    .notNull()
+    .references(() => reruns.id),
   checkKey: text("check_key").notNull(),
-  kind: text("kind", { enum: ["check", "not_estimable"] }).notNull().default("check"),
+  kind: text("kind", { enum: ["check", "not_estimable"] })
+    .notNull()
+    .default("check"),
   statistic: text("statistic"),
   threshold: text("threshold"),
   summary: text("summary").notNull(),
@@ -245,7 +287,9 @@ export const findings = sqliteTable("findings", {
 
 export const deviations = sqliteTable("deviations", {
   id: text("id").primaryKey(),
-  studyId: text("study_id").notNull().references(() => studies.id),
+  studyId: text("study_id")
+    .notNull()
+    .references(() => studies.id),
   rerunId: text("rerun_id").references(() => reruns.id),
   findingId: text("finding_id").references(() => findings.id),
   category: text("category", { enum: ["model_assumption", "data", "specification"] }).notNull(),
@@ -259,8 +303,12 @@ export const deviations = sqliteTable("deviations", {
 /** Electronic signature records: who signed, when, what the signature means. */
 export const signatures = sqliteTable("signatures", {
   id: text("id").primaryKey(),
-  rerunId: text("rerun_id").notNull().references(() => reruns.id),
-  signerId: text("signer_id").notNull().references(() => people.id),
+  rerunId: text("rerun_id")
+    .notNull()
+    .references(() => reruns.id),
+  signerId: text("signer_id")
+    .notNull()
+    .references(() => people.id),
   signerName: text("signer_name").notNull(),
   meaning: text("meaning").notNull(),
   signedAt: text("signed_at").notNull(),
@@ -269,7 +317,9 @@ export const signatures = sqliteTable("signatures", {
 
 export const appendices = sqliteTable("appendices", {
   id: text("id").primaryKey(),
-  studyId: text("study_id").notNull().references(() => studies.id),
+  studyId: text("study_id")
+    .notNull()
+    .references(() => studies.id),
   planVersionId: text("plan_version_id").references(() => planVersions.id),
   rerunIdsJson: text("rerun_ids_json").notNull(),
   sha256: text("sha256").notNull(),
@@ -281,7 +331,9 @@ export const appendices = sqliteTable("appendices", {
 
 export const appendixNarratives = sqliteTable("appendix_narratives", {
   id: text("id").primaryKey(),
-  studyId: text("study_id").notNull().references(() => studies.id),
+  studyId: text("study_id")
+    .notNull()
+    .references(() => studies.id),
   planVersionId: text("plan_version_id").references(() => planVersions.id),
   section: text("section").notNull(),
   version: integer("version").notNull(),
@@ -318,7 +370,9 @@ export const auditEvents = sqliteTable(
 
 export const apiTokens = sqliteTable("api_tokens", {
   id: text("id").primaryKey(),
-  personId: text("person_id").notNull().references(() => people.id),
+  personId: text("person_id")
+    .notNull()
+    .references(() => people.id),
   name: text("name").notNull(),
   /** SHA-256 of the token; the token itself is shown once and never stored. */
   tokenHash: text("token_hash").notNull().unique(),
@@ -335,7 +389,9 @@ export const jobs = sqliteTable(
     id: text("id").primaryKey(),
     kind: text("kind").notNull(),
     payloadJson: text("payload_json").notNull(),
-    status: text("status", { enum: ["queued", "running", "done", "failed"] }).notNull().default("queued"),
+    status: text("status", { enum: ["queued", "running", "done", "failed"] })
+      .notNull()
+      .default("queued"),
     attempts: integer("attempts").notNull().default(0),
     progress: text("progress"),
     error: text("error"),
@@ -360,7 +416,9 @@ export const mailOutbox = sqliteTable(
     subject: text("subject").notNull(),
     textBody: text("text_body").notNull(),
     htmlBody: text("html_body").notNull(),
-    status: text("status", { enum: ["queued", "sent", "failed"] }).notNull().default("queued"),
+    status: text("status", { enum: ["queued", "sent", "failed"] })
+      .notNull()
+      .default("queued"),
     attempts: integer("attempts").notNull().default(0),
     lastError: text("last_error"),
     createdAt: text("created_at").notNull().default(now),

@@ -11,7 +11,13 @@ import { appendAudit, SYSTEM_ACTOR } from "../audit.server";
 import { db, newId, t, writeTransaction } from "../db/index.server";
 import { STUDY_ROLES } from "../db/schema";
 import { seedDemoDataset } from "../datasets/demo-seed.server";
-import { DEMO_COMPOUND, DEMO_INDICATION, DEMO_SPONSOR, DEMO_STUDY_CODE, DEMO_STUDY_TITLE } from "./demo-study";
+import {
+  DEMO_COMPOUND,
+  DEMO_INDICATION,
+  DEMO_SPONSOR,
+  DEMO_STUDY_CODE,
+  DEMO_STUDY_TITLE,
+} from "./demo-study";
 
 const DemoPeopleFile = z.object({
   people: z.array(
@@ -39,7 +45,11 @@ export type SeedOutcome = { seeded: true; studyId: string } | { seeded: false; r
 
 export async function seedDemoStudy(people: DemoPerson[] = readDemoPeople()): Promise<SeedOutcome> {
   const [{ studies }] = await db.select({ studies: count() }).from(t.studies);
-  if (studies > 0) return { seeded: false, reason: `the database already holds ${studies} stud${studies === 1 ? "y" : "ies"}` };
+  if (studies > 0)
+    return {
+      seeded: false,
+      reason: `the database already holds ${studies} stud${studies === 1 ? "y" : "ies"}`,
+    };
   const outcome = await writeTransaction(async (tx): Promise<SeedOutcome> => {
     const studyId = newId();
     const study = {
@@ -52,7 +62,18 @@ export async function seedDemoStudy(people: DemoPerson[] = readDemoPeople()): Pr
       phase: "3",
     };
     await tx.insert(t.studies).values(study);
-    await appendAudit({ actor: SYSTEM_ACTOR, action: "study.create", entityType: "study", entityId: studyId, studyId, after: study, detail: "demo seed" }, tx);
+    await appendAudit(
+      {
+        actor: SYSTEM_ACTOR,
+        action: "study.create",
+        entityType: "study",
+        entityId: studyId,
+        studyId,
+        after: study,
+        detail: "demo seed",
+      },
+      tx,
+    );
     for (const p of people) {
       const personId = newId();
       await tx.insert(t.people).values({
@@ -64,11 +85,30 @@ export async function seedDemoStudy(people: DemoPerson[] = readDemoPeople()): Pr
         identitySource: p.signIn,
         externalId: p.email,
       });
-      await appendAudit({ actor: SYSTEM_ACTOR, action: "person.create", entityType: "person", entityId: personId, after: { email: p.email }, detail: "demo seed" }, tx);
+      await appendAudit(
+        {
+          actor: SYSTEM_ACTOR,
+          action: "person.create",
+          entityType: "person",
+          entityId: personId,
+          after: { email: p.email },
+          detail: "demo seed",
+        },
+        tx,
+      );
       if (p.studyRole) {
         await tx.insert(t.studyMemberships).values({ id: newId(), studyId, personId, role: p.studyRole });
         await appendAudit(
-          { actor: SYSTEM_ACTOR, action: "membership.grant", entityType: "person", entityId: personId, studyId, before: { role: null }, after: { role: p.studyRole }, detail: "demo seed" },
+          {
+            actor: SYSTEM_ACTOR,
+            action: "membership.grant",
+            entityType: "person",
+            entityId: personId,
+            studyId,
+            before: { role: null },
+            after: { role: p.studyRole },
+            detail: "demo seed",
+          },
           tx,
         );
       }
@@ -76,7 +116,18 @@ export async function seedDemoStudy(people: DemoPerson[] = readDemoPeople()): Pr
     const sponsorOrg = people.find((p) => p.studyRole === "sponsor_reader")?.organisation;
     if (sponsorOrg) {
       await tx.insert(t.studyShares).values({ id: newId(), studyId, organisation: sponsorOrg });
-      await appendAudit({ actor: SYSTEM_ACTOR, action: "study.share", entityType: "study", entityId: studyId, studyId, after: { organisation: sponsorOrg }, detail: "demo seed" }, tx);
+      await appendAudit(
+        {
+          actor: SYSTEM_ACTOR,
+          action: "study.share",
+          entityType: "study",
+          entityId: studyId,
+          studyId,
+          after: { organisation: sponsorOrg },
+          detail: "demo seed",
+        },
+        tx,
+      );
     }
     return { seeded: true, studyId };
   });

@@ -55,11 +55,21 @@ export async function enqueueJob(tx: DbOrTx, kind: string, payload: unknown): Pr
 
 async function claimNext(): Promise<Job | null> {
   return writeTransaction(async (tx) => {
-    const [next] = await tx.select().from(t.jobs).where(eq(t.jobs.status, "queued")).orderBy(asc(t.jobs.createdAt)).limit(1);
+    const [next] = await tx
+      .select()
+      .from(t.jobs)
+      .where(eq(t.jobs.status, "queued"))
+      .orderBy(asc(t.jobs.createdAt))
+      .limit(1);
     if (!next) return null;
     const [claimed] = await tx
       .update(t.jobs)
-      .set({ status: "running", lockedBy: WORKER_ID, heartbeatAt: isoNow(), attempts: sql`${t.jobs.attempts} + 1` })
+      .set({
+        status: "running",
+        lockedBy: WORKER_ID,
+        heartbeatAt: isoNow(),
+        attempts: sql`${t.jobs.attempts} + 1`,
+      })
       .where(and(eq(t.jobs.id, next.id), eq(t.jobs.status, "queued")))
       .returning();
     return claimed ?? null;
@@ -114,10 +124,16 @@ export async function recoverInterruptedJobs(): Promise<Job[]> {
     for (const j of stale) {
       if (j.attempts >= MAX_ATTEMPTS) {
         const error = `The server stopped while this job ran, ${j.attempts} times; it was not tried again.`;
-        await tx.update(t.jobs).set({ status: "failed", error, finishedAt: isoNow(), lockedBy: null }).where(eq(t.jobs.id, j.id));
+        await tx
+          .update(t.jobs)
+          .set({ status: "failed", error, finishedAt: isoNow(), lockedBy: null })
+          .where(eq(t.jobs.id, j.id));
         out.push({ ...j, status: "failed", error });
       } else {
-        await tx.update(t.jobs).set({ status: "queued", lockedBy: null, progress: "picked up again after its server stopped" }).where(eq(t.jobs.id, j.id));
+        await tx
+          .update(t.jobs)
+          .set({ status: "queued", lockedBy: null, progress: "picked up again after its server stopped" })
+          .where(eq(t.jobs.id, j.id));
       }
     }
     return out;
@@ -132,7 +148,10 @@ async function tellFailure(job: Job, reason: string): Promise<void> {
   try {
     await hook(job, reason);
   } catch (e) {
-    console.error(`Could not record the failure of job ${job.id} (${job.kind}):`, e instanceof Error ? e.message : e);
+    console.error(
+      `Could not record the failure of job ${job.id} (${job.kind}):`,
+      e instanceof Error ? e.message : e,
+    );
   }
 }
 

@@ -26,7 +26,12 @@ export interface ComposedMessage {
 }
 
 const escapeHtml = (s: string): string =>
-  s.replace(/&/g, "&amp;").replace(/</g, "&lt;").replace(/>/g, "&gt;").replace(/"/g, "&quot;").replace(/'/g, "&#39;");
+  s
+    .replace(/&/g, "&amp;")
+    .replace(/</g, "&lt;")
+    .replace(/>/g, "&gt;")
+    .replace(/"/g, "&quot;")
+    .replace(/'/g, "&#39;");
 
 /** Subject lines are one line: no line breaks from titles. */
 const oneLine = (s: string): string => s.replace(/\s+/g, " ").trim();

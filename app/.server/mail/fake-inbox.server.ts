@@ -23,7 +23,11 @@ export async function fakeInbox(limit = 100): Promise<{ dir: string; messages: R
   const dir = config.SMTP_FAKE_INBOX_DIR;
   if (!dir) return null;
   if (!existsSync(dir)) return { dir, messages: [] };
-  const files = (await readdir(dir)).filter((f) => f.endsWith(".json")).sort().reverse().slice(0, limit);
+  const files = (await readdir(dir))
+    .filter((f) => f.endsWith(".json"))
+    .sort()
+    .reverse()
+    .slice(0, limit);
   const messages: ReceivedByFake[] = [];
   for (const f of files) {
     const parsed = Received.safeParse(JSON.parse(await readFile(path.join(dir, f), "utf8")));

@@ -43,7 +43,10 @@ async function members(tx: DbOrTx, studyId: string, roles: StudyRole[]): Promise
  */
 async function sponsorReaders(tx: DbOrTx, studyId: string): Promise<Recipient[]> {
   const named = await members(tx, studyId, ["sponsor_reader"]);
-  const shares = await tx.select({ organisation: t.studyShares.organisation }).from(t.studyShares).where(eq(t.studyShares.studyId, studyId));
+  const shares = await tx
+    .select({ organisation: t.studyShares.organisation })
+    .from(t.studyShares)
+    .where(eq(t.studyShares.studyId, studyId));
   const organisations = shares.map((s) => s.organisation);
   const fromShares = organisations.length
     ? await tx
@@ -56,7 +59,11 @@ async function sponsorReaders(tx: DbOrTx, studyId: string): Promise<Recipient[]>
 
 async function nameOf(tx: DbOrTx, personId: string | null): Promise<string> {
   if (!personId) return "Someone";
-  const [p] = await tx.select({ name: t.people.displayName }).from(t.people).where(eq(t.people.id, personId)).limit(1);
+  const [p] = await tx
+    .select({ name: t.people.displayName })
+    .from(t.people)
+    .where(eq(t.people.id, personId))
+    .limit(1);
   return p?.name ?? "Someone";
 }
 
@@ -78,7 +85,10 @@ export const notificationPaths = {
 };
 
 /** A plan version was submitted: tell the study's biostatisticians who may approve it (not its author, editors or submitter). */
-export async function notifyPlanAwaitsApproval(tx: DbOrTx, input: { studyId: string; versionId: string; submittedBy: string }): Promise<void> {
+export async function notifyPlanAwaitsApproval(
+  tx: DbOrTx,
+  input: { studyId: string; versionId: string; submittedBy: string },
+): Promise<void> {
   const study = await studyOf(tx, input.studyId);
   const [row] = await tx
     .select({ v: t.planVersions, plan: t.analysisPlans })
@@ -87,9 +97,18 @@ export async function notifyPlanAwaitsApproval(tx: DbOrTx, input: { studyId: str
     .where(eq(t.planVersions.id, input.versionId))
     .limit(1);
   if (!row) throw new Error(`No plan version ${input.versionId} to notify about.`);
-  const models = await tx.select({ id: t.plannedModels.id }).from(t.plannedModels).where(eq(t.plannedModels.planVersionId, row.v.id));
-  const cannotApprove = new Set([input.submittedBy, row.v.authorId, ...(JSON.parse(row.v.editorIdsJson) as string[])]);
-  const recipients = (await members(tx, input.studyId, ["biostatistician"])).filter((p) => !cannotApprove.has(p.id));
+  const models = await tx
+    .select({ id: t.plannedModels.id })
+    .from(t.plannedModels)
+    .where(eq(t.plannedModels.planVersionId, row.v.id));
+  const cannotApprove = new Set([
+    input.submittedBy,
+    row.v.authorId,
+    ...(JSON.parse(row.v.editorIdsJson) as string[]),
+  ]);
+  const recipients = (await members(tx, input.studyId, ["biostatistician"])).filter(
+    (p) => !cannotApprove.has(p.id),
+  );
   const submitter = await nameOf(tx, input.submittedBy);
   const linkPath = notificationPaths.planVersion(input.studyId, row.v.id);
   await queueMail(tx, {
@@ -107,7 +126,12 @@ export async function notifyPlanAwaitsApproval(tx: DbOrTx, input: { studyId: str
       facts: [
         studyFact(study),
         ["Plan", `${row.plan.name}, version ${row.v.version}`],
-        ["SAP", [row.v.sapName, row.v.sapVersion && `version ${row.v.sapVersion}`, row.v.sapDate].filter(Boolean).join(", ") || "not named"],
+        [
+          "SAP",
+          [row.v.sapName, row.v.sapVersion && `version ${row.v.sapVersion}`, row.v.sapDate]
+            .filter(Boolean)
+            .join(", ") || "not named",
+        ],
         ["Planned models", String(models.length)],
         ["Submitted by", submitter],
       ],
@@ -121,7 +145,10 @@ export async function notifyPlanAwaitsApproval(tx: DbOrTx, input: { studyId: str
  * The last open finding of a primary rerun was assessed: tell the study's biostatisticians who
  * may sign it (neither its starter nor any assessor). Call only on that transition.
  */
-export async function notifyRerunAwaitsSignOff(tx: DbOrTx, input: { studyId: string; rerunId: string }): Promise<void> {
+export async function notifyRerunAwaitsSignOff(
+  tx: DbOrTx,
+  input: { studyId: string; rerunId: string },
+): Promise<void> {
   const study = await studyOf(tx, input.studyId);
   const [row] = await tx
     .select({ r: t.reruns, m: t.plannedModels, v: t.planVersions })
@@ -131,38 +158,51 @@ export async function notifyRerunAwaitsSignOff(tx: DbOrTx, input: { studyId: str
     .where(eq(t.reruns.id, input.rerunId))
     .limit(1);
   if (!row) throw new Error(`No rerun ${input.rerunId} to notify about.`);
-  const assessed = await tx.select({ by: t.deviations.recordedBy }).from(t.deviations).where(and(eq(t.deviations.rerunId, row.r.id)));
-  const findingCount = (await tx.select({ id: t.findings.id }).from(t.findings).where(eq(t.findings.rerunId, row.r.id))).length;
+  const assessed = await tx
+    .select({ by: t.deviations.recordedBy })
+    .from(t.deviations)
+    .where(and(eq(t.deviations.rerunId, row.r.id)));
+  const findingCount = (
+    await tx.select({ id: t.findings.id }).from(t.findings).where(eq(t.findings.rerunId, row.r.id))
+  ).length;
   const cannotSign = new Set([row.r.startedBy, ...assessed.map((a) => a.by)]);
-  const recipients = (await members(tx, input.studyId, ["biostatistician"])).filter((p) => !cannotSign.has(p.id));
+  const recipients = (await members(tx, input.studyId, ["biostatistician"])).filter(
+    (p) => !cannotSign.has(p.id),
+  );
   const linkPath = notificationPaths.rerun(input.studyId, row.r.id);
   await queueMail(tx, {
     kind: "rerun_awaits_signoff",
     studyId: input.studyId,
     linkPath,
     recipients,
-    message: checkedForSubjects(composeMessage({
-      subject: `${study.code}: rerun of “${row.m.title}” awaits sign-off`,
-      heading: `A rerun of “${row.m.title}” awaits sign-off`,
-      paragraphs: [
-        `Every finding of this primary rerun has an assessment (${plural(findingCount, "finding")}).`,
-        "A biostatistician who neither started the rerun nor assessed its findings signs it; the signature publishes it to the study's sponsor readers.",
-      ],
-      facts: [
-        studyFact(study),
-        ["Planned model", row.m.title],
-        ["Plan version", String(row.v.version)],
-        ["Findings assessed", String(findingCount)],
-        ["Started by", await nameOf(tx, row.r.startedBy)],
-      ],
-      link: { url: appLink(linkPath), label: "Open the rerun" },
-      reason: `You receive this as a biostatistician on ${study.code} who may sign this rerun.`,
-    }), row.r.resultJson),
+    message: checkedForSubjects(
+      composeMessage({
+        subject: `${study.code}: rerun of “${row.m.title}” awaits sign-off`,
+        heading: `A rerun of “${row.m.title}” awaits sign-off`,
+        paragraphs: [
+          `Every finding of this primary rerun has an assessment (${plural(findingCount, "finding")}).`,
+          "A biostatistician who neither started the rerun nor assessed its findings signs it; the signature publishes it to the study's sponsor readers.",
+        ],
+        facts: [
+          studyFact(study),
+          ["Planned model", row.m.title],
+          ["Plan version", String(row.v.version)],
+          ["Findings assessed", String(findingCount)],
+          ["Started by", await nameOf(tx, row.r.startedBy)],
+        ],
+        link: { url: appLink(linkPath), label: "Open the rerun" },
+        reason: `You receive this as a biostatistician on ${study.code} who may sign this rerun.`,
+      }),
+      row.r.resultJson,
+    ),
   });
 }
 
 /** A rerun was signed and published: tell the study's sponsor readers. */
-export async function notifyReportPublished(tx: DbOrTx, input: { studyId: string; rerunId: string }): Promise<void> {
+export async function notifyReportPublished(
+  tx: DbOrTx,
+  input: { studyId: string; rerunId: string },
+): Promise<void> {
   const study = await studyOf(tx, input.studyId);
   const [row] = await tx
     .select({ r: t.reruns, m: t.plannedModels, v: t.planVersions })
@@ -179,22 +219,28 @@ export async function notifyReportPublished(tx: DbOrTx, input: { studyId: string
     studyId: input.studyId,
     linkPath,
     recipients: await sponsorReaders(tx, input.studyId),
-    message: checkedForSubjects(composeMessage({
-      subject: `${study.code}: a signed report is published`,
-      heading: `The report of “${row.m.title}” is published`,
-      paragraphs: [
-        "A second biostatistician signed this rerun, which publishes its report: the results, the check outcomes, the deviations with their assessments and the sensitivity comparison.",
-      ],
-      facts: [
-        studyFact(study),
-        ["Planned model", row.m.title],
-        ["Plan version", String(row.v.version)],
-        ["Signed by", signature ? `${signature.signerName} (${signature.meaning.toLowerCase()})` : "not recorded"],
-        ["Signed", row.r.signedAt ? utc(row.r.signedAt) : "not recorded"],
-      ],
-      link: { url: appLink(linkPath), label: "Read the report" },
-      reason: `You receive this as a sponsor reader of ${study.code}.`,
-    }), row.r.resultJson),
+    message: checkedForSubjects(
+      composeMessage({
+        subject: `${study.code}: a signed report is published`,
+        heading: `The report of “${row.m.title}” is published`,
+        paragraphs: [
+          "A second biostatistician signed this rerun, which publishes its report: the results, the check outcomes, the deviations with their assessments and the sensitivity comparison.",
+        ],
+        facts: [
+          studyFact(study),
+          ["Planned model", row.m.title],
+          ["Plan version", String(row.v.version)],
+          [
+            "Signed by",
+            signature ? `${signature.signerName} (${signature.meaning.toLowerCase()})` : "not recorded",
+          ],
+          ["Signed", row.r.signedAt ? utc(row.r.signedAt) : "not recorded"],
+        ],
+        link: { url: appLink(linkPath), label: "Read the report" },
+        reason: `You receive this as a sponsor reader of ${study.code}.`,
+      }),
+      row.r.resultJson,
+    ),
   });
 }
 
@@ -202,9 +248,16 @@ export async function notifyReportPublished(tx: DbOrTx, input: { studyId: string
  * A Word appendix was exported: tell the study's biostatisticians and medical writers. Call in
  * the transaction that stores the appendix row.
  */
-export async function notifyAppendixExported(tx: DbOrTx, input: { studyId: string; appendixId: string; rerunIds: string[] }): Promise<void> {
+export async function notifyAppendixExported(
+  tx: DbOrTx,
+  input: { studyId: string; appendixId: string; rerunIds: string[] },
+): Promise<void> {
   const study = await studyOf(tx, input.studyId);
-  const [appendix] = await tx.select().from(t.appendices).where(eq(t.appendices.id, input.appendixId)).limit(1);
+  const [appendix] = await tx
+    .select()
+    .from(t.appendices)
+    .where(eq(t.appendices.id, input.appendixId))
+    .limit(1);
   if (!appendix) throw new Error(`No appendix ${input.appendixId} to notify about.`);
   const models = input.rerunIds.length
     ? await tx
@@ -214,7 +267,11 @@ export async function notifyAppendixExported(tx: DbOrTx, input: { studyId: strin
         .where(inArray(t.reruns.id, input.rerunIds))
     : [];
   const [version] = appendix.planVersionId
-    ? await tx.select({ version: t.planVersions.version }).from(t.planVersions).where(eq(t.planVersions.id, appendix.planVersionId)).limit(1)
+    ? await tx
+        .select({ version: t.planVersions.version })
+        .from(t.planVersions)
+        .where(eq(t.planVersions.id, appendix.planVersionId))
+        .limit(1)
     : [];
   const exporter = await nameOf(tx, appendix.exportedBy);
   const linkPath = notificationPaths.appendix(input.studyId);
@@ -226,7 +283,9 @@ export async function notifyAppendixExported(tx: DbOrTx, input: { studyId: strin
     message: composeMessage({
       subject: `${study.code}: Word appendix exported`,
       heading: `${exporter} exported the Word appendix of ${study.code}`,
-      paragraphs: [`The appendix covers ${plural(input.rerunIds.length, "signed rerun")}. It is stored with its SHA-256, so a copy can be checked against it.`],
+      paragraphs: [
+        `The appendix covers ${plural(input.rerunIds.length, "signed rerun")}. It is stored with its SHA-256, so a copy can be checked against it.`,
+      ],
       facts: [
         studyFact(study),
         ...(version ? [["Plan version", String(version.version)] as [string, string]] : []),

@@ -51,7 +51,9 @@ export const appLink = (linkPath: string): string => new URL(linkPath, config.AP
 
 /** Writes one outbox row per distinct recipient and a send job for each, in the caller's transaction. */
 export async function queueMail(tx: DbOrTx, mail: QueuedMail): Promise<string[]> {
-  const emails = [...new Set(mail.recipients.map((r) => r.email.trim().toLowerCase()).filter(Boolean))].sort();
+  const emails = [
+    ...new Set(mail.recipients.map((r) => r.email.trim().toLowerCase()).filter(Boolean)),
+  ].sort();
   const ids: string[] = [];
   for (const recipient of emails) {
     const id = newId();
@@ -73,7 +75,10 @@ export async function queueMail(tx: DbOrTx, mail: QueuedMail): Promise<string[]>
 }
 
 /** Tries to send one queued message now and records the outcome on its row. */
-export async function deliverQueued(outboxId: string, now: () => Date = () => new Date()): Promise<OutboxMessage["status"] | null> {
+export async function deliverQueued(
+  outboxId: string,
+  now: () => Date = () => new Date(),
+): Promise<OutboxMessage["status"] | null> {
   const [m] = await db.select().from(t.mailOutbox).where(eq(t.mailOutbox.id, outboxId)).limit(1);
   if (!m || m.status !== "queued") return m?.status ?? null;
   const attempts = m.attempts + 1;
@@ -94,7 +99,8 @@ export async function deliverQueued(outboxId: string, now: () => Date = () => ne
         lastAttemptAt: at.toISOString(),
         lastError: error,
         sentAt: status === "sent" ? at.toISOString() : null,
-        nextAttemptAt: status === "queued" ? new Date(at.getTime() + retryDelayMs(attempts)).toISOString() : null,
+        nextAttemptAt:
+          status === "queued" ? new Date(at.getTime() + retryDelayMs(attempts)).toISOString() : null,
       })
       .where(and(eq(t.mailOutbox.id, m.id), eq(t.mailOutbox.status, "queued"))),
   );
@@ -137,7 +143,9 @@ export function startMailRetries(intervalMs = 5_000): void {
   if (retrying) return;
   retrying = true;
   setInterval(() => {
-    queueDueRetries().catch((e: unknown) => console.error("Mail retries:", e instanceof Error ? e.message : e));
+    queueDueRetries().catch((e: unknown) =>
+      console.error("Mail retries:", e instanceof Error ? e.message : e),
+    );
   }, intervalMs).unref();
 }
 

@@ -29,5 +29,11 @@ export interface OutgoingMail {
 
 /** Hands one message to the SMTP server; throws with the server's or the network's reason. */
 export async function sendMail(m: OutgoingMail): Promise<void> {
-  await transport().sendMail({ from: config.MAIL_FROM, to: m.to, subject: m.subject, text: m.text, html: m.html });
+  await transport().sendMail({
+    from: config.MAIL_FROM,
+    to: m.to,
+    subject: m.subject,
+    text: m.text,
+    html: m.html,
+  });
 }

@@ -43,7 +43,11 @@ function termText(m: PlannedModel): Map<string, string> {
   const out = new Map<string, string>();
   for (const t of m.spec.terms) {
     if ("interaction" in t) out.set(interactionName(t.interaction), "interaction");
-    else out.set(t.variable, t.categorical ? `categorical${t.reference ? `, reference ${t.reference}` : ""}` : "continuous");
+    else
+      out.set(
+        t.variable,
+        t.categorical ? `categorical${t.reference ? `, reference ${t.reference}` : ""}` : "continuous",
+      );
   }
   return out;
 }
@@ -58,14 +62,24 @@ function compareModel(a: PlannedModel, b: PlannedModel): string[] {
   field("Title", a.title, b.title);
   field("Dataset", a.datasetName, b.datasetName);
   field("Population", describePopulation(a.spec.population), describePopulation(b.spec.population));
-  const analysis = (s: PlannedModel["spec"]) => (s.family === "cox" ? { means: undefined, contrasts: undefined, multiplicity: undefined } : s);
+  const analysis = (s: PlannedModel["spec"]) =>
+    s.family === "cox" ? { means: undefined, contrasts: undefined, multiplicity: undefined } : s;
   field("Adjusted-means weighting", analysis(a.spec).means ?? "equal", analysis(b.spec).means ?? "equal");
-  field("Treatment contrasts", analysis(a.spec).contrasts ?? "reference", analysis(b.spec).contrasts ?? "reference");
-  field("Multiplicity adjustment", analysis(a.spec).multiplicity ?? "none", analysis(b.spec).multiplicity ?? "none");
+  field(
+    "Treatment contrasts",
+    analysis(a.spec).contrasts ?? "reference",
+    analysis(b.spec).contrasts ?? "reference",
+  );
+  field(
+    "Multiplicity adjustment",
+    analysis(a.spec).multiplicity ?? "none",
+    analysis(b.spec).multiplicity ?? "none",
+  );
   field("Endpoint", a.spec.response, b.spec.response);
   field("Family", a.spec.family, b.spec.family);
   field("Link", "link" in a.spec ? a.spec.link : undefined, "link" in b.spec ? b.spec.link : undefined);
-  if (a.spec.family === "cox" || b.spec.family === "cox") for (const line of survivalDiff(a.spec, b.spec)) out.push(line);
+  if (a.spec.family === "cox" || b.spec.family === "cox")
+    for (const line of survivalDiff(a.spec, b.spec)) out.push(line);
   field("Treatment", a.spec.treatment, b.spec.treatment);
   field("Weights", a.spec.weights, b.spec.weights);
   field("Offset", a.spec.offset, b.spec.offset);
@@ -80,8 +94,12 @@ function compareModel(a: PlannedModel, b: PlannedModel): string[] {
     const label = CHECK_BY_KEY.get(cb.key)?.label ?? cb.key;
     if (!ca) out.push(`Check added: ${label}`);
     else {
-      if (ca.enabled !== cb.enabled) out.push(`Check ${label}: ${ca.enabled ? "planned" : "not planned"} → ${cb.enabled ? "planned" : "not planned"}`);
-      if (ca.threshold !== cb.threshold) out.push(`Check ${label}: threshold ${ca.threshold} → ${cb.threshold}`);
+      if (ca.enabled !== cb.enabled)
+        out.push(
+          `Check ${label}: ${ca.enabled ? "planned" : "not planned"} → ${cb.enabled ? "planned" : "not planned"}`,
+        );
+      if (ca.threshold !== cb.threshold)
+        out.push(`Check ${label}: threshold ${ca.threshold} → ${cb.threshold}`);
       if (ca.remedy !== cb.remedy) out.push(`Check ${label}: planned remedy changed`);
     }
   }
@@ -91,8 +109,10 @@ function compareModel(a: PlannedModel, b: PlannedModel): string[] {
   for (const k of sa) if (!sb.has(k)) out.push(`Sensitivity analysis removed: ${SENSITIVITY_LABELS[k]}`);
   const tauA = a.sensitivity.find((s) => s.kind === "cox_rmst")?.tau;
   const tauB = b.sensitivity.find((s) => s.kind === "cox_rmst")?.tau;
-  if (tauA !== undefined && tauB !== undefined && tauA !== tauB) out.push(`${SENSITIVITY_LABELS.cox_rmst}: horizon τ ${tauA} → ${tauB}`);
-  const published = (m: PlannedModel) => (m.spec.family === "cox" ? [] : (m.spec.published ?? []).map((v) => publishedInWords(v)));
+  if (tauA !== undefined && tauB !== undefined && tauA !== tauB)
+    out.push(`${SENSITIVITY_LABELS.cox_rmst}: horizon τ ${tauA} → ${tauB}`);
+  const published = (m: PlannedModel) =>
+    m.spec.family === "cox" ? [] : (m.spec.published ?? []).map((v) => publishedInWords(v));
   const pa = published(a);
   const pb = published(b);
   for (const v of pb) if (!pa.includes(v)) out.push(`Published value added: ${v}`);
@@ -106,7 +126,8 @@ export function comparePlanVersions(
 ): PlanChange[] {
   const changes: PlanChange[] = [];
   const h = (label: string, x: string | null, y: string | null) => {
-    if ((x ?? "") !== (y ?? "")) changes.push({ where: "Plan", what: `${label}: ${x || "none"} → ${y || "none"}` });
+    if ((x ?? "") !== (y ?? ""))
+      changes.push({ where: "Plan", what: `${label}: ${x || "none"} → ${y || "none"}` });
   };
   h("Title", before.header.title, after.header.title);
   h("SAP document", before.header.sapName, after.header.sapName);
@@ -118,6 +139,8 @@ export function comparePlanVersions(
     if (!old) changes.push({ where, what: "Planned model added" });
     else for (const what of compareModel(old, m)) changes.push({ where, what });
   }
-  for (const o of before.models) if (!after.models.some((m) => m.key === o.key)) changes.push({ where: `${o.key} · ${o.title}`, what: "Planned model removed" });
+  for (const o of before.models)
+    if (!after.models.some((m) => m.key === o.key))
+      changes.push({ where: `${o.key} · ${o.title}`, what: "Planned model removed" });
   return changes;
 }

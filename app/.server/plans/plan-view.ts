@@ -16,12 +16,19 @@ function survivalWords(s: CoxSpec): [string, string][] {
     ["Status", `${s.status.column}; event when ${s.status.event.join(" or ")}`],
     ["Strata", s.strata.length ? s.strata.join(", ") : "none"],
     ["Ties", s.ties === "efron" ? "Efron" : "Breslow"],
-    ["PH test time scale", { km: "Kaplan–Meier", rank: "rank", identity: "time", log: "log time" }[s.proportionalHazards.transform]],
+    [
+      "PH test time scale",
+      { km: "Kaplan–Meier", rank: "rank", identity: "time", log: "log time" }[
+        s.proportionalHazards.transform
+      ],
+    ],
   ];
 }
 
 export function plannedModelView(m: StoredPlannedModel): PlannedModelView {
-  const main = m.spec.terms.filter((t): t is { variable: string; categorical?: boolean; reference?: string } => "variable" in t);
+  const main = m.spec.terms.filter(
+    (t): t is { variable: string; categorical?: boolean; reference?: string } => "variable" in t,
+  );
   const treatment = main.find((t) => t.variable === m.spec.treatment);
   return {
     id: m.id,
@@ -40,13 +47,20 @@ export function plannedModelView(m: StoredPlannedModel): PlannedModelView {
       : {}),
     response: m.spec.response,
     family: m.spec.family,
-    link: m.spec.family === "cox" ? "log hazard ratio (partial likelihood)" : (m.spec.link ?? CANONICAL_LINK[m.spec.family]),
+    link:
+      m.spec.family === "cox"
+        ? "log hazard ratio (partial likelihood)"
+        : (m.spec.link ?? CANONICAL_LINK[m.spec.family]),
     ...(m.spec.family === "cox" ? { survival: survivalWords(m.spec) } : {}),
     treatment: m.spec.treatment ?? null,
     reference: treatment?.reference ?? null,
     covariates: main
       .filter((t) => t.variable !== m.spec.treatment)
-      .map((t) => (t.categorical ? `${t.variable} (categorical${t.reference ? `, reference ${t.reference}` : ""})` : t.variable)),
+      .map((t) =>
+        t.categorical
+          ? `${t.variable} (categorical${t.reference ? `, reference ${t.reference}` : ""})`
+          : t.variable,
+      ),
     interactions: m.spec.terms.flatMap((t) => ("interaction" in t ? [interactionName(t.interaction)] : [])),
     weights: m.spec.weights ?? null,
     offset: m.spec.offset ?? null,
@@ -55,7 +69,13 @@ export function plannedModelView(m: StoredPlannedModel): PlannedModelView {
       .filter((c) => c.enabled)
       .map((c) => {
         const def = CHECK_BY_KEY.get(c.key);
-        return { key: c.key, label: def?.label ?? c.key, threshold: c.threshold, remedy: c.remedy, source: def?.source ?? "" };
+        return {
+          key: c.key,
+          label: def?.label ?? c.key,
+          threshold: c.threshold,
+          remedy: c.remedy,
+          source: def?.source ?? "",
+        };
       }),
     sensitivity: m.sensitivity.map((s) =>
       s.kind === "alternative_covariates"
@@ -66,6 +86,9 @@ export function plannedModelView(m: StoredPlannedModel): PlannedModelView {
             ? `${SENSITIVITY_LABELS[s.kind]} to τ = ${s.tau}`
             : SENSITIVITY_LABELS[s.kind],
     ),
-    published: m.spec.family === "cox" ? [] : (m.spec.published ?? []).map((v) => publishedInWords(v, treatment?.reference)),
+    published:
+      m.spec.family === "cox"
+        ? []
+        : (m.spec.published ?? []).map((v) => publishedInWords(v, treatment?.reference)),
   };
 }

@@ -6,18 +6,39 @@
  */
 import { z } from "zod";
 import { CHECKS, type CheckKey, type PlannedCheck } from "~/engine/checks";
-import { contrastsSchema, meansWeightingSchema, modelSpecSchema, type ModelSpec, type Term } from "~/engine/model-spec";
+import {
+  contrastsSchema,
+  meansWeightingSchema,
+  modelSpecSchema,
+  type ModelSpec,
+  type Term,
+} from "~/engine/model-spec";
 import { multiplicitySchema } from "~/engine/multiplicity";
 import { populationFromLegacy, type PopulationCondition } from "~/engine/population";
-import { populationFormOf, readPopulationForm, validatePopulation, type PopulationConditionForm } from "./population-form";
+import {
+  populationFormOf,
+  readPopulationForm,
+  validatePopulation,
+  type PopulationConditionForm,
+} from "./population-form";
 import { interactionName } from "~/engine/coefficient-names";
 import type { ColumnMeta } from "../datasets/catalog.server";
 import { categoricalHints, isNumericType } from "../datasets/categorical-hint";
 import { coxSpecSchema } from "~/engine/survival/cox-spec";
 import { readSurvivalForm, survivalFormOf, validateSurvival, type SurvivalForm } from "./cox-planned-model";
-import { publishedFormOf, readPublishedForm, validatePublished, type PublishedRowForm } from "./published-planned-values";
+import {
+  publishedFormOf,
+  readPublishedForm,
+  validatePublished,
+  type PublishedRowForm,
+} from "./published-planned-values";
 
-import { checkApplies, SENSITIVITY_KINDS, sensitivityProblem, type SensitivityKind } from "~/engine/family-applicability";
+import {
+  checkApplies,
+  SENSITIVITY_KINDS,
+  sensitivityProblem,
+  type SensitivityKind,
+} from "~/engine/family-applicability";
 
 export { SENSITIVITY_KINDS, type SensitivityKind };
 
@@ -32,7 +53,6 @@ export const SENSITIVITY_LABELS: Record<SensitivityKind, string> = {
   cox_unstratified: "Unstratified (one baseline hazard for all subjects)",
   cox_rmst: "Restricted mean survival time difference between arms",
 };
-
 
 export const sensitivitySchema = z.object({
   kind: z.enum(SENSITIVITY_KINDS),
@@ -55,7 +75,9 @@ export const plannedCheckSchema = z.object({
 });
 
 /** The population of plans stored before conditions (one column equal to one value); translated on read. */
-export const legacyPopulationSchema = z.object({ column: z.string().min(1), value: z.string().min(1) }).nullable();
+export const legacyPopulationSchema = z
+  .object({ column: z.string().min(1), value: z.string().min(1) })
+  .nullable();
 export type LegacyPopulation = z.infer<typeof legacyPopulationSchema>;
 
 /** The model's population conditions (empty: every row). They live in the specification, as the headless command reads them. */
@@ -64,7 +86,10 @@ export function populationOf(m: { spec: { population?: PopulationCondition[] } }
 }
 
 /** A stored planned model's specification with an old single-condition population carried into it. */
-export function withLegacyPopulation<S extends { population?: PopulationCondition[] }>(spec: S, legacy: LegacyPopulation): S {
+export function withLegacyPopulation<S extends { population?: PopulationCondition[] }>(
+  spec: S,
+  legacy: LegacyPopulation,
+): S {
   return legacy && !spec.population ? { ...spec, population: populationFromLegacy(legacy) } : spec;
 }
 
@@ -173,9 +198,17 @@ export function readPlannedModelForm(f: FormData): PlannedModelForm {
     published: readPublishedForm(f),
     sensitivity: SENSITIVITY_KINDS.filter((k) => f.get(`sensitivity:${k}`) === "on").map((kind) => ({
       kind,
-      ...(kind === "variance_function" ? { varianceBy: str(f, "sensitivity:varianceBy") === "treatment" ? ("treatment" as const) : ("fitted" as const) } : {}),
+      ...(kind === "variance_function"
+        ? {
+            varianceBy:
+              str(f, "sensitivity:varianceBy") === "treatment" ? ("treatment" as const) : ("fitted" as const),
+          }
+        : {}),
       ...(kind === "alternative_covariates"
-        ? { covariates: f.getAll("sensitivity:covariate").map(String).filter(Boolean), label: str(f, "sensitivity:label") || "Alternative covariate set" }
+        ? {
+            covariates: f.getAll("sensitivity:covariate").map(String).filter(Boolean),
+            label: str(f, "sensitivity:label") || "Alternative covariate set",
+          }
         : {}),
       ...(kind === "cox_rmst" ? { tau: Number(str(f, "sensitivity:tau") || Number.NaN) } : {}),
     })),
@@ -194,12 +227,18 @@ export function validatePlannedModel(
   takenKeys: string[],
 ): { ok: true; model: PlannedModel } | { ok: false; errors: FieldErrors } {
   const errors: FieldErrors = {};
-  if (!KEY_RE.test(form.key)) errors.key = "Use 1–40 lower-case letters, digits, - or _, starting with a letter or digit (e.g. primary).";
-  else if (takenKeys.includes(form.key)) errors.key = `Another planned model in this version already uses the key "${form.key}".`;
+  if (!KEY_RE.test(form.key))
+    errors.key =
+      "Use 1–40 lower-case letters, digits, - or _, starting with a letter or digit (e.g. primary).";
+  else if (takenKeys.includes(form.key))
+    errors.key = `Another planned model in this version already uses the key "${form.key}".`;
   if (form.title.length < 3) errors.title = "Give the planned model a title, e.g. Primary efficacy.";
   const dataset = datasets.find((d) => d.name === form.datasetName);
   if (!dataset) {
-    errors.datasetName = datasets.length === 0 ? "No dataset of this study is locked yet: a data manager must lock one first." : "Choose the locked dataset this model reads.";
+    errors.datasetName =
+      datasets.length === 0
+        ? "No dataset of this study is locked yet: a data manager must lock one first."
+        : "Choose the locked dataset this model reads.";
     return { ok: false, errors };
   }
   const col = new Map(dataset.columns.map((c) => [c.name, c]));
@@ -222,9 +261,16 @@ export function validatePlannedModel(
     errors.family = `"${form.family.slice(0, 40)}" is not a model family Plumbline fits; choose ${MODEL_FAMILIES.join(", ")}.`;
   }
   const response = need("response", form.response, "endpoint (response) column");
-  if (response && family === "gaussian" && response.type !== "number") errors.response = `${response.name} is ${response.type}, not numeric: a linear model needs a numeric endpoint.`;
-  if (response && family === "poisson" && response.type !== "number") errors.response = `${response.name} must hold counts for a Poisson model.`;
-  const zeroOne = response?.type === "number" && response.min !== undefined && response.max !== undefined && response.min >= 0 && response.max <= 1;
+  if (response && family === "gaussian" && response.type !== "number")
+    errors.response = `${response.name} is ${response.type}, not numeric: a linear model needs a numeric endpoint.`;
+  if (response && family === "poisson" && response.type !== "number")
+    errors.response = `${response.name} must hold counts for a Poisson model.`;
+  const zeroOne =
+    response?.type === "number" &&
+    response.min !== undefined &&
+    response.max !== undefined &&
+    response.min >= 0 &&
+    response.max <= 1;
   if (response && family === "binomial" && !zeroOne && !(response.levels && response.levels.length === 2))
     errors.response = `${response.name} must be 0/1 or have exactly two values for a binomial model${response.levels ? ` (it has ${response.levels.length})` : ""}.`;
 
@@ -237,7 +283,8 @@ export function validatePlannedModel(
       if (levels.length < 2) errors.treatment = `${t.name} needs at least two arms; it has ${levels.length}.`;
       else if (form.treatmentReference && !levels.includes(form.treatmentReference))
         errors.treatmentReference = `"${form.treatmentReference}" is not an arm of ${t.name}; the arms are ${levels.join(", ")}.`;
-      else if (!form.treatmentReference) errors.treatmentReference = "Choose the reference arm (usually placebo).";
+      else if (!form.treatmentReference)
+        errors.treatmentReference = "Choose the reference arm (usually placebo).";
       terms.push({ variable: t.name, categorical: true, reference: form.treatmentReference || undefined });
       mainVariables.add(t.name);
     }
@@ -253,11 +300,13 @@ export function validatePlannedModel(
     const hint = looksCategorical.get(c.name); // numeric columns only
     if (hint && cv.categorical === null) {
       // Reported beside the field; the term still counts as a main term for the interactions.
-      errors[field] = `${c.name} looks categorical (${hint}): choose whether it enters the model as categorical or continuous.`;
+      errors[field] =
+        `${c.name} looks categorical (${hint}): choose whether it enters the model as categorical or continuous.`;
     }
     const categorical = cv.categorical === true || !isNumericType(c.type);
     if (categorical && cv.reference && c.levels && !levelsOf(c.name).includes(cv.reference))
-      errors[field] = `"${cv.reference}" is not a value of ${c.name}; its values are ${levelsOf(c.name).join(", ")}.`;
+      errors[field] =
+        `"${cv.reference}" is not a value of ${c.name}; its values are ${levelsOf(c.name).join(", ")}.`;
     // An explicit "continuous" is kept as categorical: false, so the plan says it was chosen.
     terms.push(
       categorical
@@ -287,28 +336,41 @@ export function validatePlannedModel(
   if (form.id) need("id", form.id, "subject identifier column");
 
   for (const ch of form.checks) {
-    if (!Number.isFinite(ch.threshold) || ch.threshold <= 0) errors[`check:${ch.key}:threshold`] = "Give a positive number.";
+    if (!Number.isFinite(ch.threshold) || ch.threshold <= 0)
+      errors[`check:${ch.key}:threshold`] = "Give a positive number.";
   }
   for (const s of form.sensitivity) {
     const problem = sensitivityProblem(s.kind, family);
     if (problem) errors[`sensitivity:${s.kind}`] = problem;
     if (s.kind === "cox_robust_subject" && family === "cox" && !form.id)
-      errors[`sensitivity:${s.kind}`] = "Robust errors clustered by subject need the subject identifier column: choose it above.";
+      errors[`sensitivity:${s.kind}`] =
+        "Robust errors clustered by subject need the subject identifier column: choose it above.";
     if (s.kind === "cox_unstratified" && family === "cox" && (form.survival?.strata.length ?? 0) === 0)
-      errors[`sensitivity:${s.kind}`] = "The model has no strata, so an unstratified analysis would repeat the primary one: add the strata or untick this.";
+      errors[`sensitivity:${s.kind}`] =
+        "The model has no strata, so an unstratified analysis would repeat the primary one: add the strata or untick this.";
     if (s.kind === "cox_rmst" && family === "cox") {
       const time = dataset.columns.find((c) => c.name === form.response);
-      if (!form.treatment) errors["sensitivity:tau"] = "A restricted mean survival time difference compares the treatment arms: choose the treatment above.";
-      else if (!Number.isFinite(s.tau) || (s.tau ?? 0) <= 0) errors["sensitivity:tau"] = "Give the horizon τ of the restricted mean as a positive number in the units of the follow-up time.";
-      else if (time?.max !== undefined && (s.tau ?? 0) > time.max) errors["sensitivity:tau"] = `The horizon τ = ${s.tau} is beyond the longest follow-up time in ${dataset.name} (${time.max}); choose a horizon within follow-up.`;
+      if (!form.treatment)
+        errors["sensitivity:tau"] =
+          "A restricted mean survival time difference compares the treatment arms: choose the treatment above.";
+      else if (!Number.isFinite(s.tau) || (s.tau ?? 0) <= 0)
+        errors["sensitivity:tau"] =
+          "Give the horizon τ of the restricted mean as a positive number in the units of the follow-up time.";
+      else if (time?.max !== undefined && (s.tau ?? 0) > time.max)
+        errors["sensitivity:tau"] =
+          `The horizon τ = ${s.tau} is beyond the longest follow-up time in ${dataset.name} (${time.max}); choose a horizon within follow-up.`;
     }
     if (s.kind === "alternative_covariates" && (!s.covariates || s.covariates.length === 0))
       errors["sensitivity:covariate"] = "Choose the covariates of the alternative set.";
     // An alternative covariate outside the main model enters as the column's type; for a column
     // that looks categorical that would be a silent choice, so the main model must make it.
-    const unchosen = s.kind === "alternative_covariates" ? (s.covariates ?? []).filter((v) => looksCategorical.has(v) && !mainVariables.has(v)) : [];
+    const unchosen =
+      s.kind === "alternative_covariates"
+        ? (s.covariates ?? []).filter((v) => looksCategorical.has(v) && !mainVariables.has(v))
+        : [];
     if (unchosen.length > 0)
-      errors["sensitivity:covariate"] = `${unchosen.join(", ")} ${unchosen.length === 1 ? "looks" : "look"} categorical and ${unchosen.length === 1 ? "is" : "are"} not in the main model, so nothing says categorical or continuous: add ${unchosen.length === 1 ? "it" : "them"} as a covariate with that choice, or leave ${unchosen.length === 1 ? "it" : "them"} out of the alternative set.`;
+      errors["sensitivity:covariate"] =
+        `${unchosen.join(", ")} ${unchosen.length === 1 ? "looks" : "look"} categorical and ${unchosen.length === 1 ? "is" : "are"} not in the main model, so nothing says categorical or continuous: add ${unchosen.length === 1 ? "it" : "them"} as a covariate with that choice, or leave ${unchosen.length === 1 ? "it" : "them"} out of the alternative set.`;
     if (s.kind === "variance_function" && s.varianceBy === "treatment" && !form.treatment)
       errors["sensitivity:varianceBy"] = "Variance per arm needs a treatment variable.";
   }
@@ -319,7 +381,9 @@ export function validatePlannedModel(
       family,
       treatment: form.treatment,
       reference: form.treatmentReference,
-      mainTerms: terms.flatMap((t) => ("variable" in t ? [{ variable: t.variable, categorical: t.categorical === true }] : [])),
+      mainTerms: terms.flatMap((t) =>
+        "variable" in t ? [{ variable: t.variable, categorical: t.categorical === true }] : [],
+      ),
       columns: col,
     },
     errors,
@@ -329,16 +393,33 @@ export function validatePlannedModel(
     const cox = validateSurvival(form, terms, dataset, errors);
     if (!cox || Object.keys(errors).length > 0) return { ok: false, errors };
     const spec = population.length > 0 ? { ...cox, population } : cox;
-    return { ok: true, model: { key: form.key, title: form.title, datasetName: dataset.name, spec, checks: applicableChecks(form.checks, "cox", Boolean(form.treatment)), sensitivity: form.sensitivity } };
+    return {
+      ok: true,
+      model: {
+        key: form.key,
+        title: form.title,
+        datasetName: dataset.name,
+        spec,
+        checks: applicableChecks(form.checks, "cox", Boolean(form.treatment)),
+        sensitivity: form.sensitivity,
+      },
+    };
   }
   const means = meansWeightingSchema.safeParse(form.means);
   const contrasts = contrastsSchema.safeParse(form.contrasts);
   const multiplicity = multiplicitySchema.safeParse(form.multiplicity);
-  if (!means.success) errors.means = `Choose how adjusted means are weighted: ${ANALYSIS_CHOICES.means.join(" or ")}.`;
-  if (!contrasts.success) errors.contrasts = `Choose the treatment contrasts: ${ANALYSIS_CHOICES.contrasts.join(" or ")}.`;
-  if (!multiplicity.success) errors.multiplicity = `Choose the multiplicity adjustment: ${ANALYSIS_CHOICES.multiplicity.join(", ")}.`;
-  if (!form.treatment && contrasts.success && contrasts.data === "pairwise") errors.contrasts = "Contrasts between arms need a treatment variable: choose it above, or keep contrasts against the reference arm.";
-  if (!form.treatment && multiplicity.success && multiplicity.data !== "none") errors.multiplicity = "A multiplicity adjustment applies to the treatment contrasts: choose the treatment above, or choose no adjustment.";
+  if (!means.success)
+    errors.means = `Choose how adjusted means are weighted: ${ANALYSIS_CHOICES.means.join(" or ")}.`;
+  if (!contrasts.success)
+    errors.contrasts = `Choose the treatment contrasts: ${ANALYSIS_CHOICES.contrasts.join(" or ")}.`;
+  if (!multiplicity.success)
+    errors.multiplicity = `Choose the multiplicity adjustment: ${ANALYSIS_CHOICES.multiplicity.join(", ")}.`;
+  if (!form.treatment && contrasts.success && contrasts.data === "pairwise")
+    errors.contrasts =
+      "Contrasts between arms need a treatment variable: choose it above, or keep contrasts against the reference arm.";
+  if (!form.treatment && multiplicity.success && multiplicity.data !== "none")
+    errors.multiplicity =
+      "A multiplicity adjustment applies to the treatment contrasts: choose the treatment above, or choose no adjustment.";
   if (Object.keys(errors).length > 0) return { ok: false, errors };
   const spec: ModelSpec = modelSpecSchema.parse({
     response: form.response,
@@ -359,7 +440,14 @@ export function validatePlannedModel(
   });
   return {
     ok: true,
-    model: { key: form.key, title: form.title, datasetName: dataset.name, spec, checks: applicableChecks(form.checks, family, Boolean(form.treatment)), sensitivity: form.sensitivity },
+    model: {
+      key: form.key,
+      title: form.title,
+      datasetName: dataset.name,
+      spec,
+      checks: applicableChecks(form.checks, family, Boolean(form.treatment)),
+      sensitivity: form.sensitivity,
+    },
   };
 }
 
@@ -386,7 +474,11 @@ export function toForm(m: PlannedModel): PlannedModelForm {
     treatmentReference: treatmentTerm?.reference ?? "",
     covariates: main
       .filter((t) => t.variable !== spec.treatment)
-      .map((t) => ({ variable: t.variable, categorical: t.categorical ?? null, reference: t.reference ?? "" })),
+      .map((t) => ({
+        variable: t.variable,
+        categorical: t.categorical ?? null,
+        reference: t.reference ?? "",
+      })),
     interactions: spec.terms.flatMap((t) => ("interaction" in t ? [t.interaction] : [])),
     weights: spec.weights ?? "",
     offset: spec.offset ?? "",
@@ -396,6 +488,21 @@ export function toForm(m: PlannedModel): PlannedModelForm {
     published: spec.family === "cox" ? [] : publishedFormOf(spec.published),
   };
   return spec.family === "cox"
-    ? { ...shared, family: "cox", link: "", means: "equal", contrasts: "reference", multiplicity: "none", survival: survivalFormOf(spec) }
-    : { ...shared, family: spec.family, link: spec.link ?? "", means: spec.means ?? "equal", contrasts: spec.contrasts ?? "reference", multiplicity: spec.multiplicity ?? "none" };
+    ? {
+        ...shared,
+        family: "cox",
+        link: "",
+        means: "equal",
+        contrasts: "reference",
+        multiplicity: "none",
+        survival: survivalFormOf(spec),
+      }
+    : {
+        ...shared,
+        family: spec.family,
+        link: spec.link ?? "",
+        means: spec.means ?? "equal",
+        contrasts: spec.contrasts ?? "reference",
+        multiplicity: spec.multiplicity ?? "none",
+      };
 }

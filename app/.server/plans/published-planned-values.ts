@@ -78,7 +78,11 @@ interface ModelContext {
  * Checks each row against the planned model and builds the stored values; errors go into
  * `errors` beside the row's field.
  */
-export function validatePublished(rows: readonly PublishedRowForm[], m: ModelContext, errors: Record<string, string>): PublishedValue[] {
+export function validatePublished(
+  rows: readonly PublishedRowForm[],
+  m: ModelContext,
+  errors: Record<string, string>,
+): PublishedValue[] {
   const out: PublishedValue[] = [];
   const arms = m.treatment ? (m.columns.get(m.treatment)?.levels ?? []).map((l) => l.value) : [];
   rows.forEach((r, i) => {
@@ -86,38 +90,76 @@ export function validatePublished(rows: readonly PublishedRowForm[], m: ModelCon
       errors[`published:${i}:${field}`] ??= message;
     };
     if (m.family === "cox") {
-      err("quantity", "Published values are compared for linear and generalized linear models; remove this row for a time-to-event model.");
+      err(
+        "quantity",
+        "Published values are compared for linear and generalized linear models; remove this row for a time-to-event model.",
+      );
       return;
     }
-    if (!(PUBLISHED_STATISTICS as readonly string[]).includes(r.statistic)) err("statistic", "Choose which number was printed: estimate, SE, a 95% CI bound or p.");
-    if (r.quantity === "mean" && r.statistic === "p") err("statistic", "An adjusted mean has no p-value: choose the estimate, its SE or a CI bound.");
-    if (r.value === "") err("value", "Give the value exactly as the report printed it, e.g. -2.35 or <0.001.");
+    if (!(PUBLISHED_STATISTICS as readonly string[]).includes(r.statistic))
+      err("statistic", "Choose which number was printed: estimate, SE, a 95% CI bound or p.");
+    if (r.quantity === "mean" && r.statistic === "p")
+      err("statistic", "An adjusted mean has no p-value: choose the estimate, its SE or a CI bound.");
+    if (r.value === "")
+      err("value", "Give the value exactly as the report printed it, e.g. -2.35 or <0.001.");
     let candidate: unknown;
     if (r.quantity === "contrast" || r.quantity === "mean") {
       if (!m.treatment) {
-        err("quantity", `A ${r.quantity === "contrast" ? "treatment contrast" : "adjusted mean"} needs the treatment variable: choose it above.`);
+        err(
+          "quantity",
+          `A ${r.quantity === "contrast" ? "treatment contrast" : "adjusted mean"} needs the treatment variable: choose it above.`,
+        );
         return;
       }
-      if (!arms.includes(r.level)) err("level", r.level ? `"${r.level}" is not an arm of ${m.treatment}; the arms are ${arms.join(", ")}.` : `Choose the arm (${arms.join(", ")}).`);
-      else if (r.quantity === "contrast" && r.level === (r.reference || m.reference)) err("level", "Choose an arm other than the one it is compared with.");
-      if (r.quantity === "contrast" && r.reference && !arms.includes(r.reference)) err("reference", `"${r.reference}" is not an arm of ${m.treatment}.`);
+      if (!arms.includes(r.level))
+        err(
+          "level",
+          r.level
+            ? `"${r.level}" is not an arm of ${m.treatment}; the arms are ${arms.join(", ")}.`
+            : `Choose the arm (${arms.join(", ")}).`,
+        );
+      else if (r.quantity === "contrast" && r.level === (r.reference || m.reference))
+        err("level", "Choose an arm other than the one it is compared with.");
+      if (r.quantity === "contrast" && r.reference && !arms.includes(r.reference))
+        err("reference", `"${r.reference}" is not an arm of ${m.treatment}.`);
       const measures = MEASURES_BY_FAMILY[m.family];
-      if (r.quantity === "contrast" && measures && !measures.includes(r.measure)) err("measure", `Choose the measure printed: ${measures.join(", ")}.`);
+      if (r.quantity === "contrast" && measures && !measures.includes(r.measure))
+        err("measure", `Choose the measure printed: ${measures.join(", ")}.`);
       candidate =
         r.quantity === "contrast"
-          ? { quantity: "contrast", level: r.level, ...(r.reference ? { reference: r.reference } : {}), ...(measures ? { measure: r.measure } : {}), statistic: r.statistic, value: r.value }
+          ? {
+              quantity: "contrast",
+              level: r.level,
+              ...(r.reference ? { reference: r.reference } : {}),
+              ...(measures ? { measure: r.measure } : {}),
+              statistic: r.statistic,
+              value: r.value,
+            }
           : { quantity: "mean", level: r.level, statistic: r.statistic, value: r.value };
     } else if (r.quantity === "coefficient") {
       const term = m.mainTerms.find((t) => t.variable === r.variable);
       if (!term) {
-        err("variable", r.variable ? `${r.variable} is not a term of this model.` : "Choose the term whose coefficient was printed.");
+        err(
+          "variable",
+          r.variable
+            ? `${r.variable} is not a term of this model.`
+            : "Choose the term whose coefficient was printed.",
+        );
         return;
       }
       const levels = (m.columns.get(term.variable)?.levels ?? []).map((l) => l.value);
-      if (term.categorical && !r.level) err("level", `${term.variable} is categorical: give the level whose coefficient was printed.`);
-      else if (term.categorical && levels.length > 0 && !levels.includes(r.level)) err("level", `${term.variable} has no value "${r.level}"; its values are ${levels.join(", ")}.`);
-      else if (!term.categorical && r.level) err("level", `${term.variable} is continuous: leave the level empty.`);
-      candidate = { quantity: "coefficient", term: [{ variable: term.variable, ...(term.categorical && r.level ? { level: r.level } : {}) }], statistic: r.statistic, value: r.value };
+      if (term.categorical && !r.level)
+        err("level", `${term.variable} is categorical: give the level whose coefficient was printed.`);
+      else if (term.categorical && levels.length > 0 && !levels.includes(r.level))
+        err("level", `${term.variable} has no value "${r.level}"; its values are ${levels.join(", ")}.`);
+      else if (!term.categorical && r.level)
+        err("level", `${term.variable} is continuous: leave the level empty.`);
+      candidate = {
+        quantity: "coefficient",
+        term: [{ variable: term.variable, ...(term.categorical && r.level ? { level: r.level } : {}) }],
+        statistic: r.statistic,
+        value: r.value,
+      };
     } else {
       err("quantity", "Choose what was printed: a treatment contrast, an adjusted mean or a coefficient.");
       return;

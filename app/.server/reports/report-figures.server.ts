@@ -28,17 +28,33 @@ export interface ReportFigure {
 }
 
 /** About 24 MB of pictures (string length counts UTF-16 units; close enough for a bound). */
-const kept = new LRUCache<string, ReportFigure[]>({ maxSize: 24 * 1024 * 1024, sizeCalculation: (f) => Math.max(1, f.reduce((n, x) => n + (x.src?.length ?? 0), 0)) });
+const kept = new LRUCache<string, ReportFigure[]>({
+  maxSize: 24 * 1024 * 1024,
+  sizeCalculation: (f) =>
+    Math.max(
+      1,
+      f.reduce((n, x) => n + (x.src?.length ?? 0), 0),
+    ),
+});
 
 /** Lets the server answer other requests between two figures (drawing one takes a moment of the event loop). */
 const yieldToOthers = () => new Promise<void>((resolve) => setImmediate(resolve));
 
-export async function reportFigures(rerunId: string, resultSha256: string | null, doc: RerunDocument, datasetVersionId: string, modelTitle: string, redaction: Redaction): Promise<ReportFigure[]> {
+export async function reportFigures(
+  rerunId: string,
+  resultSha256: string | null,
+  doc: RerunDocument,
+  datasetVersionId: string,
+  modelTitle: string,
+  redaction: Redaction,
+): Promise<ReportFigure[]> {
   const cacheKey = `${rerunId} ${resultSha256 ?? ""}`;
   const hit = kept.get(cacheKey);
   if (hit) return hit;
   const list = figureListOf(doc);
-  const table = list.some((w) => figureModule(w.figure).needsTable) ? rerunTable(doc, (await loadLockedTable(datasetVersionId)).table) : undefined;
+  const table = list.some((w) => figureModule(w.figure).needsTable)
+    ? rerunTable(doc, (await loadLockedTable(datasetVersionId)).table)
+    : undefined;
   const out: ReportFigure[] = [];
   for (const w of list) {
     await yieldToOthers();
@@ -52,7 +68,15 @@ export async function reportFigures(rerunId: string, resultSha256: string | null
       // one pixel per CSS pixel: a report holds a dozen figures, and the page carries them inline
       const picture = svgToPng(svg, 1);
       const alt = `${caption}: ${m.words.shows}, for ${doc.result.n} subjects. A healthy picture shows ${m.words.healthy}. ${m.marked(d)}`;
-      out.push({ key, caption, alt, src: `data:image/png;base64,${picture.png.toString("base64")}`, width: picture.width, height: picture.height, reason: null });
+      out.push({
+        key,
+        caption,
+        alt,
+        src: `data:image/png;base64,${picture.png.toString("base64")}`,
+        width: picture.width,
+        height: picture.height,
+        reason: null,
+      });
     } catch (e) {
       if (!(e instanceof FigureUnavailableError)) throw e;
       out.push({ key, caption, alt: caption, src: null, width: 0, height: 0, reason: e.message });

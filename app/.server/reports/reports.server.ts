@@ -32,12 +32,21 @@ export interface ReportListing {
 /** The study's published primary reruns, newest first. */
 export async function listReports(studyId: string): Promise<ReportListing[]> {
   const rows = await rerunRows(
-    and(eq(t.reruns.studyId, studyId), eq(t.reruns.kind, "primary"), isNotNull(t.reruns.publishedAt), isNull(t.reruns.parentRerunId)),
+    and(
+      eq(t.reruns.studyId, studyId),
+      eq(t.reruns.kind, "primary"),
+      isNotNull(t.reruns.publishedAt),
+      isNull(t.reruns.parentRerunId),
+    ),
     desc(t.reruns.publishedAt),
   );
   return Promise.all(
     rows.map(async ({ r, m, dv, d, pv }) => {
-      const [signatures, findings, children] = await Promise.all([signaturesOf(r.id), findingsOf(r.id), sensitivityReruns(r.id)]);
+      const [signatures, findings, children] = await Promise.all([
+        signaturesOf(r.id),
+        findingsOf(r.id),
+        sensitivityReruns(r.id),
+      ]);
       return {
         id: r.id,
         modelKey: m.key,
@@ -55,7 +64,8 @@ export async function listReports(studyId: string): Promise<ReportListing[]> {
 }
 
 export async function getReport(studyId: string, rerunId: string) {
-  const notFound = () => data({ message: "There is no published report with this id in this study." }, { status: 404 });
+  const notFound = () =>
+    data({ message: "There is no published report with this id in this study." }, { status: 404 });
   let r: Awaited<ReturnType<typeof getRerun>>;
   try {
     r = await getRerun(studyId, rerunId);
@@ -74,13 +84,32 @@ export async function getReport(studyId: string, rerunId: string) {
   ]);
   const published = children.filter((c) => c.publishedAt && c.resultJson);
   // A report is for sponsor readers, whoever opens it: it never names a subject.
-  const redaction = await redactionFor(false, [{ doc, datasetVersionId: r.dataset.versionId }, ...published.map((c) => ({ doc: rerunDocumentOf(c), datasetVersionId: c.datasetVersionId }))]);
+  const redaction = await redactionFor(false, [
+    { doc, datasetVersionId: r.dataset.versionId },
+    ...published.map((c) => ({ doc: rerunDocumentOf(c), datasetVersionId: c.datasetVersionId })),
+  ]);
   const redact = (s: string) => redaction.text(s);
   // the diagnostic figures, influential subjects by rank (each figure's text checked for ids before it becomes a picture)
-  const figures = await reportFigures(r.rerun.id, r.rerun.resultSha256, doc, r.dataset.versionId, r.model.title, redaction);
+  const figures = await reportFigures(
+    r.rerun.id,
+    r.rerun.resultSha256,
+    doc,
+    r.dataset.versionId,
+    r.model.title,
+    redaction,
+  );
   const view = rerunView(doc, redaction);
   const comparison = [
-    { id: r.rerun.id, label: r.rerun.kind === "primary" ? "Primary analysis as planned" : redact(r.rerun.label ?? "Sensitivity analysis"), prespecified: true, primary: true, contrasts: reportedContrasts(doc) },
+    {
+      id: r.rerun.id,
+      label:
+        r.rerun.kind === "primary"
+          ? "Primary analysis as planned"
+          : redact(r.rerun.label ?? "Sensitivity analysis"),
+      prespecified: true,
+      primary: true,
+      contrasts: reportedContrasts(doc),
+    },
     ...published.map((c) => ({
       id: c.id,
       label: redact(c.label ?? "Sensitivity analysis"),
@@ -112,16 +141,35 @@ export async function getReport(studyId: string, rerunId: string) {
       covarianceType: "covarianceType" in view ? view.covarianceType : "model",
       /** "linear", "glm" or "cox": which words the tables use (t or z, differences or ratios). */
       kind: view.kind,
-      statisticName: view.kind === "glm" ? view.statisticName : view.kind === "cox" ? ("z" as const) : ("t" as const),
+      statisticName:
+        view.kind === "glm" ? view.statisticName : view.kind === "cox" ? ("z" as const) : ("t" as const),
       /** The fit statistics as labelled rows; null for a Cox model (its tests are in `cox`). */
       fitStatistics: "fitStatistics" in view ? view.fitStatistics : null,
-      coefficients: view.coefficients.map((c) => ({ name: c.name, estimate: c.estimate, se: c.se, statistic: c.statistic, p: c.p, lower: c.lower, upper: c.upper })),
+      coefficients: view.coefficients.map((c) => ({
+        name: c.name,
+        estimate: c.estimate,
+        se: c.se,
+        statistic: c.statistic,
+        p: c.p,
+        lower: c.lower,
+        upper: c.upper,
+      })),
       adjustedMeans: "adjustedMeans" in view && view.adjustedMeans ? view.adjustedMeans : null,
       adjustedMeansWeighting: "adjustedMeansWeighting" in view ? view.adjustedMeansWeighting : null,
       contrasts: "contrasts" in view ? view.contrasts : [],
       treatmentEffect: "treatmentEffect" in view ? view.treatmentEffect : null,
       /** Time-to-event models: hazard ratios, the model's tests and the proportional-hazards test (no subject-level data). */
-      cox: view.kind === "cox" ? { robust: view.robust, ratios: view.ratios, tests: view.tests, proportionalHazards: view.proportionalHazards, events: view.fit.events, concordance: view.fit.concordance } : null,
+      cox:
+        view.kind === "cox"
+          ? {
+              robust: view.robust,
+              ratios: view.ratios,
+              tests: view.tests,
+              proportionalHazards: view.proportionalHazards,
+              events: view.fit.events,
+              concordance: view.fit.concordance,
+            }
+          : null,
     },
     /** The reproduction check of the published values, when the plan gives them (reproduction-results.tsx). */
     reproduction: "reproduction" in view ? view.reproduction : null,
@@ -143,12 +191,27 @@ export async function getReport(studyId: string, rerunId: string) {
       statistic: redaction.maybe(f.statistic, f.checkKey),
       threshold: f.threshold,
       assessment: f.assessment
-        ? { category: f.assessment.category, impact: f.assessment.impact, action: f.assessment.action, rationale: redaction.text(f.assessment.rationale, f.checkKey), by: f.assessment.recordedByName, at: f.assessment.recordedAt }
+        ? {
+            category: f.assessment.category,
+            impact: f.assessment.impact,
+            action: f.assessment.action,
+            rationale: redaction.text(f.assessment.rationale, f.checkKey),
+            by: f.assessment.recordedByName,
+            at: f.assessment.recordedAt,
+          }
         : null,
     })),
     otherDeviations: deviations
       .filter((d) => d.finding === null && d.rerun?.id === primaryId)
-      .map((d) => ({ id: d.id, category: d.category, impact: d.impact, action: d.action, rationale: redact(d.rationale), by: d.recordedByName, at: d.recordedAt })),
+      .map((d) => ({
+        id: d.id,
+        category: d.category,
+        impact: d.impact,
+        action: d.action,
+        rationale: redact(d.rationale),
+        by: d.recordedByName,
+        at: d.recordedAt,
+      })),
     comparison,
     figures,
     signatures: signatures.map((s) => ({ name: s.signerName, meaning: s.meaning, at: s.signedAt })),
@@ -161,9 +224,16 @@ export async function getReport(studyId: string, rerunId: string) {
 export type Report = Awaited<ReturnType<typeof getReport>>;
 
 /** The latest exported appendix that holds this rerun, if any. */
-async function latestAppendix(studyId: string, rerunId: string): Promise<{ exportedAt: string; sha256: string } | null> {
+async function latestAppendix(
+  studyId: string,
+  rerunId: string,
+): Promise<{ exportedAt: string; sha256: string } | null> {
   const rows = await db
-    .select({ exportedAt: t.appendices.exportedAt, sha256: t.appendices.sha256, rerunIdsJson: t.appendices.rerunIdsJson })
+    .select({
+      exportedAt: t.appendices.exportedAt,
+      sha256: t.appendices.sha256,
+      rerunIdsJson: t.appendices.rerunIdsJson,
+    })
     .from(t.appendices)
     .where(eq(t.appendices.studyId, studyId))
     .orderBy(desc(t.appendices.exportedAt));

@@ -14,7 +14,17 @@ import { fitCoxModel, type CoxResult } from "~/engine/survival/cox-model";
 import type { CoxSpec } from "~/engine/survival/cox-spec";
 import { restrictedMeanByArm, type RestrictedMeanDifference } from "~/engine/survival/rmst";
 import { coxFunctionalForm, type FunctionalFormTest } from "~/engine/survival/functional-form";
-import { EngineError, ENGINE_VERSION, fitModel, fitWithEstimatedVariance, fitWithRobustErrors, RESULTS_CAUTION, type ModelResult, type ModelSpec, type Term } from "~/engine";
+import {
+  EngineError,
+  ENGINE_VERSION,
+  fitModel,
+  fitWithEstimatedVariance,
+  fitWithRobustErrors,
+  RESULTS_CAUTION,
+  type ModelResult,
+  type ModelSpec,
+  type Term,
+} from "~/engine";
 import { populationOf } from "../plans/planned-model";
 import type { StoredPlannedModel } from "../plans/plans.server";
 import type { DocumentPopulation } from "./rerun-population";
@@ -29,7 +39,13 @@ export interface RerunDocument {
   plannedModel: { key: string; title: string };
   options: RerunOptions;
   description: string;
-  rows: { inFile: number; outsidePopulation: number; excludedByOption: number; missingCells: number; used: number };
+  rows: {
+    inFile: number;
+    outsidePopulation: number;
+    excludedByOption: number;
+    missingCells: number;
+    used: number;
+  };
   /** The population conditions (documents stored before conditions hold one column = value, or null). */
   population: DocumentPopulation;
   /** Rows removed by each population condition, in the plan's order (absent in older documents). */
@@ -71,7 +87,10 @@ function alternativeSpec<S extends Pick<ModelSpec, "terms" | "treatment">>(spec:
   const terms: Term[] = [
     ...main.filter((t) => keep.has(t.variable)),
     ...covariates.filter((c) => !main.some((t) => t.variable === c)).map((variable) => ({ variable })),
-    ...spec.terms.filter((t): t is Extract<Term, { interaction: string[] }> => "interaction" in t && t.interaction.every((v) => keep.has(v))),
+    ...spec.terms.filter(
+      (t): t is Extract<Term, { interaction: string[] }> =>
+        "interaction" in t && t.interaction.every((v) => keep.has(v)),
+    ),
   ];
   return { ...spec, terms };
 }
@@ -86,30 +105,55 @@ function coxVariantSpec(planned: CoxSpec, options: RerunOptions): CoxSpec {
     case "alternative_covariates":
       return alternativeSpec(planned, options.covariates);
     case "cox_robust_subject":
-      if (!planned.id) throw new EngineError("robust errors clustered by subject need the subject identifier column in the planned model");
+      if (!planned.id)
+        throw new EngineError(
+          "robust errors clustered by subject need the subject identifier column in the planned model",
+        );
       return { ...planned, cluster: planned.id };
     case "cox_unstratified":
       return { ...planned, strata: [] };
     default:
-      throw new EngineError(`the ${describeOptions(options).toLowerCase()} analysis does not apply to a time-to-event (Cox) model`);
+      throw new EngineError(
+        `the ${describeOptions(options).toLowerCase()} analysis does not apply to a time-to-event (Cox) model`,
+      );
   }
 }
 
 /** The restricted mean survival time difference by arm, on the subjects the Cox model used. */
-function restrictedMeanOf(spec: CoxSpec, working: RerunTable, result: CoxResult, tau: number): RestrictedMeanDifference[] {
+function restrictedMeanOf(
+  spec: CoxSpec,
+  working: RerunTable,
+  result: CoxResult,
+  tau: number,
+): RestrictedMeanDifference[] {
   const treatment = spec.treatment;
   const cells = treatment ? working.columns[treatment] : undefined;
-  if (!treatment || !cells) throw new EngineError("a restricted mean survival time difference needs the treatment column");
+  if (!treatment || !cells)
+    throw new EngineError("a restricted mean survival time difference needs the treatment column");
   const indexOf = new Map(working.rowNumbers.map((r, i) => [r, i]));
   const arm = result.observations.row.map((r) => cellText(cells, indexOf.get(r) as number).trim());
-  const levels = result.survival.filter((s) => s.stratum === null && s.level !== null).map((s) => s.level as string);
+  const levels = result.survival
+    .filter((s) => s.stratum === null && s.level !== null)
+    .map((s) => s.level as string);
   const term = spec.terms.find((x) => "variable" in x && x.variable === treatment);
   const reference = (term && "reference" in term && term.reference) || levels[0];
-  return restrictedMeanByArm(result.observations.time, result.observations.status, arm, levels, reference, tau);
+  return restrictedMeanByArm(
+    result.observations.time,
+    result.observations.status,
+    arm,
+    levels,
+    reference,
+    tau,
+  );
 }
 
 /** Fits the planned model (or its sensitivity variant) and evaluates the plan's checks. Pure apart from the inputs given. */
-export function computeRerun(model: StoredPlannedModel, table: RerunTable, options: RerunOptions, meta: { datasetSha256: string; planVersionId: string }): RerunDocument {
+export function computeRerun(
+  model: StoredPlannedModel,
+  table: RerunTable,
+  options: RerunOptions,
+  meta: { datasetSha256: string; planVersionId: string },
+): RerunDocument {
   const inFile = table.rowNumbers.length;
   const population = selectPopulation(table, populationOf(model));
   let working = population.table;
@@ -127,7 +171,13 @@ export function computeRerun(model: StoredPlannedModel, table: RerunTable, optio
     plannedModel: { key: model.key, title: model.title },
     options,
     description: describeOptions(options),
-    rows: { inFile, outsidePopulation: inFile - inPopulation, excludedByOption, missingCells: result.excluded, used: result.n },
+    rows: {
+      inFile,
+      outsidePopulation: inFile - inPopulation,
+      excludedByOption,
+      missingCells: result.excluded,
+      used: result.n,
+    },
     population: populationOf(model),
     populationSteps: [...population.byCondition],
     result,
@@ -137,17 +187,28 @@ export function computeRerun(model: StoredPlannedModel, table: RerunTable, optio
     const coxSpec = coxVariantSpec(model.spec, options);
     const result = fitCoxModel(coxSpec, working);
     const functionalForm = coxFunctionalForm(coxSpec, working, result);
-    const restrictedMean = options.variant === "cox_rmst" ? restrictedMeanOf(coxSpec, working, result, options.tau) : undefined;
-    return { ...doc(result, evaluateCoxChecks(result, model.checks, functionalForm)), coxFunctionalForm: functionalForm, ...(restrictedMean ? { restrictedMean } : {}) };
+    const restrictedMean =
+      options.variant === "cox_rmst" ? restrictedMeanOf(coxSpec, working, result, options.tau) : undefined;
+    return {
+      ...doc(result, evaluateCoxChecks(result, model.checks, functionalForm)),
+      coxFunctionalForm: functionalForm,
+      ...(restrictedMean ? { restrictedMean } : {}),
+    };
   }
   const planned = model.spec;
-  let spec = options.variant === "alternative_covariates" ? alternativeSpec(planned, options.covariates) : planned;
+  let spec =
+    options.variant === "alternative_covariates" ? alternativeSpec(planned, options.covariates) : planned;
   if (options.variant === "family") {
-    if (spec.family !== "poisson") throw new EngineError(`a ${options.family} analysis applies to a Poisson model of counts, not to a ${spec.family} model`);
+    if (spec.family !== "poisson")
+      throw new EngineError(
+        `a ${options.family} analysis applies to a Poisson model of counts, not to a ${spec.family} model`,
+      );
     spec = { ...spec, family: options.family };
   }
   if (options.variant === "variance_function" && spec.family !== "gaussian") {
-    throw new EngineError(`the ${describeOptions(options).toLowerCase()} remedy applies to linear models, not to a ${spec.family} model`);
+    throw new EngineError(
+      `the ${describeOptions(options).toLowerCase()} remedy applies to linear models, not to a ${spec.family} model`,
+    );
   }
   let result: ModelResult;
   switch (options.variant) {
@@ -156,7 +217,8 @@ export function computeRerun(model: StoredPlannedModel, table: RerunTable, optio
         result = fitWithRobustErrors(spec, working, "HC3");
       } else {
         const glm = fitModel(spec, working);
-        if (glm.kind !== "glm") throw new EngineError("robust errors of a generalized linear model need its fit");
+        if (glm.kind !== "glm")
+          throw new EngineError("robust errors of a generalized linear model need its fit");
         result = withSandwichErrors(glm, "HC3");
       }
       break;
@@ -167,5 +229,8 @@ export function computeRerun(model: StoredPlannedModel, table: RerunTable, optio
       result = fitModel(spec, working);
   }
   const published = options.variant === "planned" ? (spec.published ?? []) : [];
-  return { ...doc(result, evaluateChecks(result, model.checks)), ...(published.length > 0 ? { reproduction: checkReproduction(result, published) } : {}) };
+  return {
+    ...doc(result, evaluateChecks(result, model.checks)),
+    ...(published.length > 0 ? { reproduction: checkReproduction(result, published) } : {}),
+  };
 }

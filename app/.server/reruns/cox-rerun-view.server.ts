@@ -22,7 +22,16 @@ export function coxModelTests(r: CoxResult): { name: string; statistic: number; 
     { name: r.robust ? "Wald test, robust (sandwich) covariance" : "Wald test", ...t.wald },
     { name: "Score test", ...t.score },
     ...(t.robustScore ? [{ name: "Score test, robust (sandwich) covariance", ...t.robustScore }] : []),
-    ...(t.logRank ? [{ name: r.strata.length ? "Log-rank test of the arms, stratified" : "Log-rank test of the arms", statistic: t.logRank.statistic, df: t.logRank.df, p: t.logRank.p }] : []),
+    ...(t.logRank
+      ? [
+          {
+            name: r.strata.length ? "Log-rank test of the arms, stratified" : "Log-rank test of the arms",
+            statistic: t.logRank.statistic,
+            df: t.logRank.df,
+            p: t.logRank.p,
+          },
+        ]
+      : []),
   ];
 }
 
@@ -38,13 +47,30 @@ export function coxRerunView(doc: RerunDocument, r: CoxResult, redact: Redaction
     treatment: r.spec.treatment ?? null,
     strata: r.strata,
     robust: r.robust,
-    coefficients: r.coefficients.map((c) => ({ name: c.name, term: c.term, estimate: c.estimate, se: r.robust ? c.robustSe : c.se, statistic: c.statistic, p: c.p, lower: c.lower, upper: c.upper })),
+    coefficients: r.coefficients.map((c) => ({
+      name: c.name,
+      term: c.term,
+      estimate: c.estimate,
+      se: r.robust ? c.robustSe : c.se,
+      statistic: c.statistic,
+      p: c.p,
+      lower: c.lower,
+      upper: c.upper,
+    })),
     ratios: r.ratios,
     fit: r.fit,
     tests: coxModelTests(r),
     proportionalHazards: {
       transform: TRANSFORM_WORDS[t.proportionalHazards.transform],
-      rows: [...t.proportionalHazards.terms.map((x) => ({ term: x.term, statistic: x.statistic, df: x.df, p: x.p })), { term: "Global", ...t.proportionalHazards.global }],
+      rows: [
+        ...t.proportionalHazards.terms.map((x) => ({
+          term: x.term,
+          statistic: x.statistic,
+          df: x.df,
+          p: x.p,
+        })),
+        { term: "Global", ...t.proportionalHazards.global },
+      ],
     },
     notes: r.notes,
     restrictedMean: doc.restrictedMean ?? null,
@@ -58,12 +84,34 @@ export function coxRerunView(doc: RerunDocument, r: CoxResult, redact: Redaction
 export type CoxRerunView = ReturnType<typeof coxRerunView>;
 
 /** The treatment hazard ratios a Cox analysis reports (for the comparison of analyses). */
-export function coxReportedContrasts(r: CoxResult): { label: string; estimate: number; lower: number; upper: number; p: number }[] {
+export function coxReportedContrasts(
+  r: CoxResult,
+): { label: string; estimate: number; lower: number; upper: number; p: number }[] {
   const t = r.spec.treatment;
-  return r.coefficients.flatMap((c, j) => (c.term === t ? [{ label: `${c.name} (hazard ratio)`, estimate: r.ratios[j].ratio, lower: r.ratios[j].lower, upper: r.ratios[j].upper, p: c.p }] : []));
+  return r.coefficients.flatMap((c, j) =>
+    c.term === t
+      ? [
+          {
+            label: `${c.name} (hazard ratio)`,
+            estimate: r.ratios[j].ratio,
+            lower: r.ratios[j].lower,
+            upper: r.ratios[j].upper,
+            p: c.p,
+          },
+        ]
+      : [],
+  );
 }
 
 /** The restricted mean survival time differences of the restricted-mean analysis (for the comparison of analyses). */
-export function restrictedMeanContrasts(rm: readonly RestrictedMeanDifference[]): { label: string; estimate: number; lower: number; upper: number; p: number }[] {
-  return rm.map((d) => ({ label: `${d.level} vs ${d.reference} (restricted mean survival difference to τ = ${d.tau})`, estimate: d.difference, lower: d.lower, upper: d.upper, p: d.p }));
+export function restrictedMeanContrasts(
+  rm: readonly RestrictedMeanDifference[],
+): { label: string; estimate: number; lower: number; upper: number; p: number }[] {
+  return rm.map((d) => ({
+    label: `${d.level} vs ${d.reference} (restricted mean survival difference to τ = ${d.tau})`,
+    estimate: d.difference,
+    lower: d.lower,
+    upper: d.upper,
+    p: d.p,
+  }));
 }

@@ -13,7 +13,9 @@ export const COOKS_EXCLUSION_REASON = "flagged by the Cook's distance check";
 
 /** The rows the primary rerun's Cook's distance check flagged, ascending. */
 function cooksFlaggedRows(primary: Pick<RerunDocument, "checks"> | null): number[] {
-  return (primary?.checks.find((c) => c.key === "cooks_distance")?.flagged ?? []).map((f) => f.row).sort((a, b) => a - b);
+  return (primary?.checks.find((c) => c.key === "cooks_distance")?.flagged ?? [])
+    .map((f) => f.row)
+    .sort((a, b) => a - b);
 }
 
 /** Whether the plan names the exclusion of influential subjects among a model's sensitivity analyses. */
@@ -22,14 +24,21 @@ export function plansInfluentialExclusion(model: Pick<PlannedModel, "sensitivity
 }
 
 /** The options of a planned sensitivity analysis, given the primary rerun's result; null when there is nothing to run. */
-export function optionsFor(s: PlannedSensitivity, primary: Pick<RerunDocument, "checks"> | null): RerunOptions | null {
+export function optionsFor(
+  s: PlannedSensitivity,
+  primary: Pick<RerunDocument, "checks"> | null,
+): RerunOptions | null {
   switch (s.kind) {
     case "robust_hc3":
       return { variant: "robust_hc3" };
     case "variance_function":
       return { variant: "variance_function", varianceBy: s.varianceBy ?? "fitted" };
     case "alternative_covariates":
-      return { variant: "alternative_covariates", covariates: s.covariates ?? [], label: s.label ?? "Alternative covariate set" };
+      return {
+        variant: "alternative_covariates",
+        covariates: s.covariates ?? [],
+        label: s.label ?? "Alternative covariate set",
+      };
     case "exclude_influential": {
       const rows = cooksFlaggedRows(primary);
       return rows.length ? { variant: "exclude_rows", rows, reason: COOKS_EXCLUSION_REASON } : null;
@@ -51,7 +60,10 @@ export function optionsFor(s: PlannedSensitivity, primary: Pick<RerunDocument, "
  * those that apply to the model's family and have something to run. What-if analyses that are
  * not pre-specified stay manual.
  */
-export function plannedSensitivityOptions(model: Pick<PlannedModel, "spec" | "sensitivity">, primary: Pick<RerunDocument, "checks">): RerunOptions[] {
+export function plannedSensitivityOptions(
+  model: Pick<PlannedModel, "spec" | "sensitivity">,
+  primary: Pick<RerunDocument, "checks">,
+): RerunOptions[] {
   return model.sensitivity.flatMap((s) => {
     if (!sensitivityApplies(s.kind, model.spec.family)) return [];
     const options = optionsFor(s, primary);
@@ -71,7 +83,19 @@ export function sensitivityLabel(s: PlannedSensitivity, options: RerunOptions | 
  * influential subjects and the rows chosen are exactly those the Cook's distance check flagged.
  * `rows` sorted ascending.
  */
-export function whatIfExclusion(model: Pick<PlannedModel, "sensitivity">, primary: Pick<RerunDocument, "checks"> | null, rows: number[]): { options: RerunOptions; prespecified: boolean } {
-  const prespecified = plansInfluentialExclusion(model) && JSON.stringify(rows) === JSON.stringify(cooksFlaggedRows(primary));
-  return { options: { variant: "exclude_rows", rows, reason: prespecified ? COOKS_EXCLUSION_REASON : "chosen in the what-if, not pre-specified" }, prespecified };
+export function whatIfExclusion(
+  model: Pick<PlannedModel, "sensitivity">,
+  primary: Pick<RerunDocument, "checks"> | null,
+  rows: number[],
+): { options: RerunOptions; prespecified: boolean } {
+  const prespecified =
+    plansInfluentialExclusion(model) && JSON.stringify(rows) === JSON.stringify(cooksFlaggedRows(primary));
+  return {
+    options: {
+      variant: "exclude_rows",
+      rows,
+      reason: prespecified ? COOKS_EXCLUSION_REASON : "chosen in the what-if, not pre-specified",
+    },
+    prespecified,
+  };
 }

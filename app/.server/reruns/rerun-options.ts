@@ -7,8 +7,16 @@ export const rerunOptionsSchema = z.discriminatedUnion("variant", [
   z.object({ variant: z.literal("robust_hc3") }),
   z.object({ variant: z.literal("variance_function"), varianceBy: z.enum(["fitted", "treatment"]) }),
   /** Subjects left out by row number (1-based data rows of the locked file). */
-  z.object({ variant: z.literal("exclude_rows"), rows: z.array(z.number().int().positive()).min(1), reason: z.string() }),
-  z.object({ variant: z.literal("alternative_covariates"), covariates: z.array(z.string()), label: z.string() }),
+  z.object({
+    variant: z.literal("exclude_rows"),
+    rows: z.array(z.number().int().positive()).min(1),
+    reason: z.string(),
+  }),
+  z.object({
+    variant: z.literal("alternative_covariates"),
+    covariates: z.array(z.string()),
+    label: z.string(),
+  }),
   /** Counts: the planned Poisson model refitted with another family for overdispersion. */
   z.object({ variant: z.literal("family"), family: z.enum(["quasipoisson", "negative-binomial"]) }),
   /** Time to event: the planned Cox model with the robust (sandwich) variance, clustered by the subject id. */
@@ -27,13 +35,17 @@ export function describeOptions(o: RerunOptions): string {
     case "robust_hc3":
       return "Robust (HC3) standard errors";
     case "variance_function":
-      return o.varianceBy === "treatment" ? "Weighted fit, variance per arm" : "Weighted fit, variance depending on the fitted values";
+      return o.varianceBy === "treatment"
+        ? "Weighted fit, variance per arm"
+        : "Weighted fit, variance depending on the fitted values";
     case "exclude_rows":
       return `Excluding ${o.rows.length} subject${o.rows.length === 1 ? "" : "s"} (${o.reason})`;
     case "alternative_covariates":
       return `${o.label}: ${o.covariates.join(", ") || "treatment only"}`;
     case "family":
-      return o.family === "quasipoisson" ? "Quasi-Poisson (dispersion estimated)" : "Negative binomial (NB2, θ by maximum likelihood)";
+      return o.family === "quasipoisson"
+        ? "Quasi-Poisson (dispersion estimated)"
+        : "Negative binomial (NB2, θ by maximum likelihood)";
     case "cox_robust_subject":
       return SENSITIVITY_LABELS.cox_robust_subject;
     case "cox_unstratified":

@@ -3,7 +3,12 @@
  * stored before conditions one column = value (or null for every row). Read through
  * `conditionsOfDocument`, so old documents are filtered and described as before.
  */
-import { describeCondition, populationFromLegacy, type PopulationCondition, type PopulationStep } from "~/engine/population";
+import {
+  describeCondition,
+  populationFromLegacy,
+  type PopulationCondition,
+  type PopulationStep,
+} from "~/engine/population";
 import type { LegacyPopulation } from "../plans/planned-model";
 
 export type DocumentPopulation = PopulationCondition[] | LegacyPopulation;
@@ -13,7 +18,14 @@ export function conditionsOfDocument(population: DocumentPopulation | undefined)
 }
 
 /** The population as results show it: each condition with the rows it removed (null in documents stored before counts per condition). */
-export function populationStepsOf(doc: { population: DocumentPopulation; populationSteps?: readonly PopulationStep[] }): { condition: string; removed: number | null }[] {
-  if (doc.populationSteps) return doc.populationSteps.map((s) => ({ condition: s.condition, removed: s.removed }));
-  return conditionsOfDocument(doc.population).map((c) => ({ condition: describeCondition(c), removed: null }));
+export function populationStepsOf(doc: {
+  population: DocumentPopulation;
+  populationSteps?: readonly PopulationStep[];
+}): { condition: string; removed: number | null }[] {
+  if (doc.populationSteps)
+    return doc.populationSteps.map((s) => ({ condition: s.condition, removed: s.removed }));
+  return conditionsOfDocument(doc.population).map((c) => ({
+    condition: describeCondition(c),
+    removed: null,
+  }));
 }

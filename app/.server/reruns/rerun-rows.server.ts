@@ -19,7 +19,14 @@ const { resultJson: _resultJson, ...rerunWithoutResult } = getTableColumns(t.rer
  */
 export function rerunRows(where: SQL | undefined, ...order: SQL[]) {
   return db
-    .select({ r: rerunWithoutResult, m: t.plannedModels, dv: t.datasetVersions, d: t.datasets, pv: t.planVersions, who: t.people.displayName })
+    .select({
+      r: rerunWithoutResult,
+      m: t.plannedModels,
+      dv: t.datasetVersions,
+      d: t.datasets,
+      pv: t.planVersions,
+      who: t.people.displayName,
+    })
     .from(t.reruns)
     .innerJoin(t.plannedModels, eq(t.plannedModels.id, t.reruns.plannedModelId))
     .innerJoin(t.datasetVersions, eq(t.datasetVersions.id, t.reruns.datasetVersionId))
@@ -50,7 +57,11 @@ function deepFreeze<T>(value: T): T {
 }
 
 /** The stored result of a rerun row, parsed once per result hash (read-only). */
-export function rerunDocumentOf(row: { id: string; resultJson: string | null; resultSha256: string | null }): RerunDocument | null {
+export function rerunDocumentOf(row: {
+  id: string;
+  resultJson: string | null;
+  resultSha256: string | null;
+}): RerunDocument | null {
   if (!row.resultJson) return null;
   const key = resultKey(row.id, row.resultSha256);
   const cached = parsedResults.get(key);
@@ -61,13 +72,23 @@ export function rerunDocumentOf(row: { id: string; resultJson: string | null; re
 }
 
 /** The stored result of a rerun read without it (`rerunRows`): from the cache, or read and parsed once. */
-export async function storedRerunDocument(row: { id: string; resultSha256: string | null }): Promise<RerunDocument | null> {
+export async function storedRerunDocument(row: {
+  id: string;
+  resultSha256: string | null;
+}): Promise<RerunDocument | null> {
   if (!row.resultSha256) return null;
   const cached = parsedResults.get(resultKey(row.id, row.resultSha256));
   if (cached) return cached;
   // a 10 000-subject result is several MB: read it only when it is not parsed yet
-  const [stored] = await db.select({ resultJson: t.reruns.resultJson }).from(t.reruns).where(eq(t.reruns.id, row.id));
-  return rerunDocumentOf({ id: row.id, resultSha256: row.resultSha256, resultJson: stored?.resultJson ?? null });
+  const [stored] = await db
+    .select({ resultJson: t.reruns.resultJson })
+    .from(t.reruns)
+    .where(eq(t.reruns.id, row.id));
+  return rerunDocumentOf({
+    id: row.id,
+    resultSha256: row.resultSha256,
+    resultJson: stored?.resultJson ?? null,
+  });
 }
 
 /** A rerun, its model, dataset version, plan version and who started it, with its parsed result (read-only; null until completed). */

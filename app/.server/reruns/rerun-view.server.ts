@@ -64,7 +64,14 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
       statistic: c.statistic,
       p: c.p,
       ...(c.pAdjusted !== undefined ? { pAdjusted: c.pAdjusted } : {}),
-      hc3: { se: c.hc3.se, lower: c.hc3.lower, upper: c.hc3.upper, statistic: c.hc3.statistic, p: c.hc3.p, ...(c.hc3.pAdjusted !== undefined ? { pAdjusted: c.hc3.pAdjusted } : {}) },
+      hc3: {
+        se: c.hc3.se,
+        lower: c.hc3.lower,
+        upper: c.hc3.upper,
+        statistic: c.hc3.statistic,
+        p: c.hc3.p,
+        ...(c.hc3.pAdjusted !== undefined ? { pAdjusted: c.hc3.pAdjusted } : {}),
+      },
       seScale: "response" as const,
     }));
   }
@@ -78,7 +85,14 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
     p: c.p,
     ...(c.pAdjusted !== undefined ? { pAdjusted: c.pAdjusted } : {}),
     hc3: c.robust
-      ? { se: c.robust.se, lower: c.robust.lower, upper: c.robust.upper, statistic: c.robust.statistic, p: c.robust.p, ...(c.robust.pAdjusted !== undefined ? { pAdjusted: c.robust.pAdjusted } : {}) }
+      ? {
+          se: c.robust.se,
+          lower: c.robust.lower,
+          upper: c.robust.upper,
+          statistic: c.robust.statistic,
+          p: c.robust.p,
+          ...(c.robust.pAdjusted !== undefined ? { pAdjusted: c.robust.pAdjusted } : {}),
+        }
       : null,
     seScale: c.measure === "risk difference" ? ("response" as const) : ("log" as const),
   }));
@@ -88,12 +102,26 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
  * The contrast interval an analysis reports: HC3 for the robust-errors analysis, model-based
  * otherwise. For binary endpoints the risk difference is the headline measure.
  */
-export function reportedContrasts(doc: RerunDocument): { label: string; estimate: number; lower: number; upper: number; p: number }[] {
-  if (doc.result.kind === "cox") return doc.restrictedMean ? restrictedMeanContrasts(doc.restrictedMean) : coxReportedContrasts(doc.result);
+export function reportedContrasts(
+  doc: RerunDocument,
+): { label: string; estimate: number; lower: number; upper: number; p: number }[] {
+  if (doc.result.kind === "cox")
+    return doc.restrictedMean
+      ? restrictedMeanContrasts(doc.restrictedMean)
+      : coxReportedContrasts(doc.result);
   const robust = doc.options.variant === "robust_hc3";
   const all = contrastsOf(doc);
-  const headline = doc.result.kind === "glm" && doc.result.family === "binomial" ? all.filter((c) => c.label.endsWith("(risk difference)")) : all;
-  return headline.map((c) => ({ label: c.label, estimate: c.estimate, ...(robust && c.hc3 ? { lower: c.hc3.lower, upper: c.hc3.upper, p: c.hc3.p } : { lower: c.lower, upper: c.upper, p: c.p }) }));
+  const headline =
+    doc.result.kind === "glm" && doc.result.family === "binomial"
+      ? all.filter((c) => c.label.endsWith("(risk difference)"))
+      : all;
+  return headline.map((c) => ({
+    label: c.label,
+    estimate: c.estimate,
+    ...(robust && c.hc3
+      ? { lower: c.hc3.lower, upper: c.hc3.upper, p: c.hc3.p }
+      : { lower: c.lower, upper: c.upper, p: c.p }),
+  }));
 }
 
 /** A check as a results page shows it: texts and flagged subjects through the viewer's redaction. */
@@ -128,7 +156,9 @@ export function reproductionView(doc: RerunDocument) {
 export function rerunView(doc: RerunDocument, redact: Redaction) {
   if (doc.result.kind === "cox") return coxRerunView(doc, doc.result, redact);
   const r = doc.result;
-  const continuousTerms = r.variables.filter((v) => v.kind === "continuous" && v.name !== r.spec.response).map((v) => v.name);
+  const continuousTerms = r.variables
+    .filter((v) => v.kind === "continuous" && v.name !== r.spec.response)
+    .map((v) => v.name);
   const common = {
     description: redact.text(doc.description),
     rows: doc.rows,
@@ -156,7 +186,8 @@ export function rerunView(doc: RerunDocument, redact: Redaction) {
       // (none when the model has no continuous covariate: then the check has no figure)
       const m = v.figure ? figureModule(v.figure) : null;
       if (m?.perTerm !== "continuous") return { ...v, figureTerm: undefined };
-      const figureTerm = m.defaultTerm?.(doc) ?? continuousTerms.find((t) => t !== r.spec.offset && t !== r.spec.weights);
+      const figureTerm =
+        m.defaultTerm?.(doc) ?? continuousTerms.find((t) => t !== r.spec.offset && t !== r.spec.weights);
       return { ...v, figure: figureTerm ? v.figure : null, figureTerm };
     }),
     reproduction: reproductionView(doc),

@@ -39,7 +39,9 @@ export function hashDocument(json: string): string {
 export async function executeRerun(rerunId: string): Promise<void> {
   const [rerun] = await db.select().from(t.reruns).where(eq(t.reruns.id, rerunId)).limit(1);
   if (!rerun || rerun.status === "completed") return;
-  await writeTransaction((tx) => tx.update(t.reruns).set({ status: "running", startedAt: isoNow() }).where(eq(t.reruns.id, rerunId)));
+  await writeTransaction((tx) =>
+    tx.update(t.reruns).set({ status: "running", startedAt: isoNow() }).where(eq(t.reruns.id, rerunId)),
+  );
   const model = await getPlannedModel(rerun.plannedModelId);
   const parsedOptions = rerunOptionsSchema.safeParse(JSON.parse(rerun.optionsJson));
   if (!parsedOptions.success) {
@@ -51,8 +53,16 @@ export async function executeRerun(rerunId: string): Promise<void> {
   let outcome: Awaited<ReturnType<typeof runRerunTask>>;
   try {
     const locked = await lockedColumnsFile(rerun.datasetVersionId);
-    if (locked.sha256 !== rerun.datasetSha256) throw new EngineError("the locked dataset's hash differs from the one recorded when the rerun was started");
-    outcome = await runRerunTask({ model, columnsFile: locked.file, options, meta: { datasetSha256: locked.sha256, planVersionId: rerun.planVersionId } });
+    if (locked.sha256 !== rerun.datasetSha256)
+      throw new EngineError(
+        "the locked dataset's hash differs from the one recorded when the rerun was started",
+      );
+    outcome = await runRerunTask({
+      model,
+      columnsFile: locked.file,
+      options,
+      meta: { datasetSha256: locked.sha256, planVersionId: rerun.planVersionId },
+    });
   } catch (e) {
     if (!(e instanceof EngineError)) throw e;
     outcome = { ok: false, engineError: e.message };
@@ -60,7 +70,10 @@ export async function executeRerun(rerunId: string): Promise<void> {
   if (!outcome.ok) {
     const reason = outcome.engineError;
     await writeTransaction(async (tx) => {
-      await tx.update(t.reruns).set({ status: "failed", failureReason: reason, engineVersion: ENGINE_VERSION, finishedAt: isoNow() }).where(eq(t.reruns.id, rerunId));
+      await tx
+        .update(t.reruns)
+        .set({ status: "failed", failureReason: reason, engineVersion: ENGINE_VERSION, finishedAt: isoNow() })
+        .where(eq(t.reruns.id, rerunId));
       await tx.insert(t.findings).values({
         id: newId(),
         rerunId,
@@ -68,22 +81,43 @@ export async function executeRerun(rerunId: string): Promise<void> {
         kind: "not_estimable",
         summary: `Not estimable as planned: ${reason}.`,
       });
-      await appendAudit({ actor: SYSTEM_ACTOR, action: "rerun.fail", entityType: "rerun", entityId: rerunId, studyId: rerun.studyId, detail: reason }, tx);
+      await appendAudit(
+        {
+          actor: SYSTEM_ACTOR,
+          action: "rerun.fail",
+          entityType: "rerun",
+          entityId: rerunId,
+          studyId: rerun.studyId,
+          detail: reason,
+        },
+        tx,
+      );
     });
     return;
   }
   const { json, sha256: hash } = outcome;
-  const doc = { engineVersion: outcome.engineVersion, checks: outcome.checks, reproduction: outcome.reproduction };
+  const doc = {
+    engineVersion: outcome.engineVersion,
+    checks: outcome.checks,
+    reproduction: outcome.reproduction,
+  };
   await writeTransaction(async (tx) => {
     await tx
       .update(t.reruns)
-      .set({ status: "completed", resultJson: json, resultSha256: hash, engineVersion: doc.engineVersion, finishedAt: isoNow() })
+      .set({
+        status: "completed",
+        resultJson: json,
+        resultSha256: hash,
+        engineVersion: doc.engineVersion,
+        finishedAt: isoNow(),
+      })
       .where(eq(t.reruns.id, rerunId));
     if (rerun.kind === "primary") {
       const found = doc.checks.filter((c) => c.outcome === "finding");
       const notReproduced = reproductionCheckOf(doc)?.outcome === "finding";
       // Nothing to assess: the rerun awaits sign-off as soon as it completes.
-      if (found.length === 0 && !notReproduced) await notifyRerunAwaitsSignOff(tx, { studyId: rerun.studyId, rerunId });
+      if (found.length === 0 && !notReproduced)
+        await notifyRerunAwaitsSignOff(tx, { studyId: rerun.studyId, rerunId });
       for (const c of found) {
         await tx.insert(t.findings).values({
           id: newId(),
@@ -98,7 +132,16 @@ export async function executeRerun(rerunId: string): Promise<void> {
       }
       const reproduction = reproductionCheckOf(doc);
       if (reproduction?.outcome === "finding") {
-        await tx.insert(t.findings).values({ id: newId(), rerunId, checkKey: reproduction.key, kind: "check", statistic: reproduction.statistic, threshold: reproduction.threshold, summary: `${reproduction.label}: ${reproduction.summary}`, detailJson: canonicalJson({ flaggedCount: 0 }) });
+        await tx.insert(t.findings).values({
+          id: newId(),
+          rerunId,
+          checkKey: reproduction.key,
+          kind: "check",
+          statistic: reproduction.statistic,
+          threshold: reproduction.threshold,
+          summary: `${reproduction.label}: ${reproduction.summary}`,
+          detailJson: canonicalJson({ flaggedCount: 0 }),
+        });
       }
     }
     await appendAudit(
@@ -108,7 +151,12 @@ export async function executeRerun(rerunId: string): Promise<void> {
         entityType: "rerun",
         entityId: rerunId,
         studyId: rerun.studyId,
-        after: { resultSha256: hash, findings: doc.checks.filter((c) => c.outcome === "finding").length + (reproductionCheckOf(doc)?.outcome === "finding" ? 1 : 0) },
+        after: {
+          resultSha256: hash,
+          findings:
+            doc.checks.filter((c) => c.outcome === "finding").length +
+            (reproductionCheckOf(doc)?.outcome === "finding" ? 1 : 0),
+        },
       },
       tx,
     );
@@ -138,7 +186,18 @@ type Tx = Parameters<Parameters<typeof writeTransaction>[0]>[0];
 async function insertRerun(
   tx: Tx,
   actor: PersonActor | typeof SYSTEM_ACTOR,
-  r: { studyId: string; plannedModelId: string; planVersionId: string; datasetVersionId: string; datasetSha256: string; startedBy: string | null; options: RerunOptions; parentRerunId: string | null; prespecified: boolean; audit: Record<string, unknown> },
+  r: {
+    studyId: string;
+    plannedModelId: string;
+    planVersionId: string;
+    datasetVersionId: string;
+    datasetSha256: string;
+    startedBy: string | null;
+    options: RerunOptions;
+    parentRerunId: string | null;
+    prespecified: boolean;
+    audit: Record<string, unknown>;
+  },
 ): Promise<string> {
   const id = newId();
   const kind = r.options.variant === "planned" ? "primary" : "sensitivity";
@@ -159,7 +218,14 @@ async function insertRerun(
   });
   await enqueueJob(tx, RERUN_JOB, { rerunId: id });
   await appendAudit(
-    { actor, action: "rerun.start", entityType: "rerun", entityId: id, studyId: r.studyId, after: { ...r.audit, datasetSha256: r.datasetSha256, options: r.options, prespecified: r.prespecified } },
+    {
+      actor,
+      action: "rerun.start",
+      entityType: "rerun",
+      entityId: id,
+      studyId: r.studyId,
+      after: { ...r.audit, datasetSha256: r.datasetSha256, options: r.options, prespecified: r.prespecified },
+    },
     tx,
   );
   return id;
@@ -175,10 +241,27 @@ export async function failRerunOfJob(job: Job, reason: string): Promise<void> {
   if (typeof rerunId !== "string") return;
   const failureReason = `The rerun could not be completed: ${reason}`;
   await writeTransaction(async (tx) => {
-    const [r] = await tx.select({ status: t.reruns.status, studyId: t.reruns.studyId }).from(t.reruns).where(eq(t.reruns.id, rerunId)).limit(1);
+    const [r] = await tx
+      .select({ status: t.reruns.status, studyId: t.reruns.studyId })
+      .from(t.reruns)
+      .where(eq(t.reruns.id, rerunId))
+      .limit(1);
     if (!r || r.status === "completed" || r.status === "failed") return;
-    await tx.update(t.reruns).set({ status: "failed", failureReason, finishedAt: isoNow() }).where(eq(t.reruns.id, rerunId));
-    await appendAudit({ actor: SYSTEM_ACTOR, action: "rerun.fail", entityType: "rerun", entityId: rerunId, studyId: r.studyId, detail: failureReason }, tx);
+    await tx
+      .update(t.reruns)
+      .set({ status: "failed", failureReason, finishedAt: isoNow() })
+      .where(eq(t.reruns.id, rerunId));
+    await appendAudit(
+      {
+        actor: SYSTEM_ACTOR,
+        action: "rerun.fail",
+        entityType: "rerun",
+        entityId: rerunId,
+        studyId: r.studyId,
+        detail: failureReason,
+      },
+      tx,
+    );
   });
 }
 
@@ -208,15 +291,31 @@ async function refuseInvalidOptions(studyId: string, input: StartRerun): Promise
   const parsed = rerunOptionsSchema.safeParse(input.options);
   if (!parsed.success) {
     const issue = parsed.error.issues[0];
-    throw data({ message: `The rerun's options are not valid (${issue.path.join(".") || "options"}: ${issue.message}). Nothing was started.` }, { status: 400 });
+    throw data(
+      {
+        message: `The rerun's options are not valid (${issue.path.join(".") || "options"}: ${issue.message}). Nothing was started.`,
+      },
+      { status: 400 },
+    );
   }
   const options = parsed.data;
   if (options.variant === "exclude_rows") {
     const [parent] = input.parentRerunId
-      ? await db.select().from(t.reruns).where(and(eq(t.reruns.id, input.parentRerunId), eq(t.reruns.studyId, studyId))).limit(1)
+      ? await db
+          .select()
+          .from(t.reruns)
+          .where(and(eq(t.reruns.id, input.parentRerunId), eq(t.reruns.studyId, studyId)))
+          .limit(1)
       : [];
     const doc = parent ? rerunDocumentOf(parent) : null;
-    if (!doc) throw data({ message: "Subjects are excluded from a completed primary rerun; start the exclusion from its results page." }, { status: 400 });
+    if (!doc)
+      throw data(
+        {
+          message:
+            "Subjects are excluded from a completed primary rerun; start the exclusion from its results page.",
+        },
+        { status: 400 },
+      );
     const problem = exclusionProblem(doc, options.rows);
     if (problem) throw data({ message: `${problem} Nothing was started.` }, { status: 400 });
   }
@@ -232,16 +331,23 @@ export async function startRerun(actor: PersonActor, studyId: string, input: Sta
     .innerJoin(t.analysisPlans, eq(t.analysisPlans.id, t.planVersions.planId))
     .where(eq(t.planVersions.id, model.planVersionId))
     .limit(1);
-  if (!pv || pv.studyId !== studyId) throw data({ message: "That planned model is not part of this study." }, { status: 404 });
-  if (pv.v.status !== "approved") throw data({ message: "Only planned models of an approved plan version can be rerun." }, { status: 409 });
+  if (!pv || pv.studyId !== studyId)
+    throw data({ message: "That planned model is not part of this study." }, { status: 404 });
+  if (pv.v.status !== "approved")
+    throw data({ message: "Only planned models of an approved plan version can be rerun." }, { status: 409 });
   const [dv] = await db
     .select({ v: t.datasetVersions, d: t.datasets })
     .from(t.datasetVersions)
     .innerJoin(t.datasets, eq(t.datasets.id, t.datasetVersions.datasetId))
     .where(eq(t.datasetVersions.id, input.datasetVersionId))
     .limit(1);
-  if (!dv || dv.d.studyId !== studyId || dv.v.status !== "locked") throw data({ message: "Choose a locked version of this study's dataset." }, { status: 409 });
-  if (dv.d.name !== model.datasetName) throw data({ message: `The planned model reads ${model.datasetName}, not ${dv.d.name}.` }, { status: 409 });
+  if (!dv || dv.d.studyId !== studyId || dv.v.status !== "locked")
+    throw data({ message: "Choose a locked version of this study's dataset." }, { status: 409 });
+  if (dv.d.name !== model.datasetName)
+    throw data(
+      { message: `The planned model reads ${model.datasetName}, not ${dv.d.name}.` },
+      { status: 409 },
+    );
   return writeTransaction((tx) =>
     insertRerun(tx, actor, {
       studyId,
@@ -282,7 +388,10 @@ export async function listReruns(studyId: string): Promise<RerunListing[]> {
   const rows = await rerunRows(eq(t.reruns.studyId, studyId), desc(t.reruns.createdAt));
   const ids = rows.map((r) => r.r.id);
   const counts = ids.length
-    ? await db.select({ rerunId: t.findings.rerunId }).from(t.findings).where(inArray(t.findings.rerunId, ids))
+    ? await db
+        .select({ rerunId: t.findings.rerunId })
+        .from(t.findings)
+        .where(inArray(t.findings.rerunId, ids))
     : [];
   return rows.map(({ r, m, dv, d, pv, who }) => ({
     id: r.id,
@@ -306,14 +415,28 @@ export async function listReruns(studyId: string): Promise<RerunListing[]> {
 
 /** The sensitivity reruns started from a primary rerun, oldest first. */
 export async function sensitivityReruns(primaryId: string): Promise<Rerun[]> {
-  return db.select().from(t.reruns).where(eq(t.reruns.parentRerunId, primaryId)).orderBy(asc(t.reruns.createdAt));
+  return db
+    .select()
+    .from(t.reruns)
+    .where(eq(t.reruns.parentRerunId, primaryId))
+    .orderBy(asc(t.reruns.createdAt));
 }
 
 /** Other completed reruns with the same inputs: "rerun again" proves the same hash. */
-export async function sameInputReruns(r: Pick<Rerun, "id" | "plannedModelId" | "datasetVersionId" | "optionsJson">): Promise<{ id: string; resultSha256: string | null; createdAt: string }[]> {
+export async function sameInputReruns(
+  r: Pick<Rerun, "id" | "plannedModelId" | "datasetVersionId" | "optionsJson">,
+): Promise<{ id: string; resultSha256: string | null; createdAt: string }[]> {
   const rows = await db
-    .select({ id: t.reruns.id, resultSha256: t.reruns.resultSha256, createdAt: t.reruns.createdAt, optionsJson: t.reruns.optionsJson, status: t.reruns.status })
+    .select({
+      id: t.reruns.id,
+      resultSha256: t.reruns.resultSha256,
+      createdAt: t.reruns.createdAt,
+      optionsJson: t.reruns.optionsJson,
+      status: t.reruns.status,
+    })
     .from(t.reruns)
-    .where(and(eq(t.reruns.plannedModelId, r.plannedModelId), eq(t.reruns.datasetVersionId, r.datasetVersionId)));
+    .where(
+      and(eq(t.reruns.plannedModelId, r.plannedModelId), eq(t.reruns.datasetVersionId, r.datasetVersionId)),
+    );
   return rows.filter((x) => x.id !== r.id && x.optionsJson === r.optionsJson && x.status === "completed");
 }

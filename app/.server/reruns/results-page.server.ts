@@ -33,25 +33,80 @@ export async function resultsPage(request: Request, access: StudyAccess & { stud
     allowed.has("rerun.sign") ? canSign(user, r.rerun.id) : Promise.resolve(null),
   ]);
   const childDocs = children.map((c) => ({ row: c, doc: rerunDocumentOf(c) }));
-  const redact = await redactionFor(withIds, [{ doc: r.doc, datasetVersionId: r.rerun.datasetVersionId }, ...childDocs.map((c) => ({ doc: c.doc, datasetVersionId: c.row.datasetVersionId }))]);
+  const redact = await redactionFor(withIds, [
+    { doc: r.doc, datasetVersionId: r.rerun.datasetVersionId },
+    ...childDocs.map((c) => ({ doc: c.doc, datasetVersionId: c.row.datasetVersionId })),
+  ]);
   const comparison = r.doc
     ? [
-        { id: r.rerun.id, label: "Primary analysis as planned", prespecified: true, primary: true, status: r.rerun.status, contrasts: reportedContrasts(r.doc) },
-        ...childDocs.map(({ row, doc }) => ({ id: row.id, label: redact.text(row.label ?? "Sensitivity analysis"), prespecified: row.prespecified, primary: false, status: row.status, contrasts: doc ? reportedContrasts(doc) : [], failure: redact.maybe(row.failureReason) })),
+        {
+          id: r.rerun.id,
+          label: "Primary analysis as planned",
+          prespecified: true,
+          primary: true,
+          status: r.rerun.status,
+          contrasts: reportedContrasts(r.doc),
+        },
+        ...childDocs.map(({ row, doc }) => ({
+          id: row.id,
+          label: redact.text(row.label ?? "Sensitivity analysis"),
+          prespecified: row.prespecified,
+          primary: false,
+          status: row.status,
+          contrasts: doc ? reportedContrasts(doc) : [],
+          failure: redact.maybe(row.failureReason),
+        })),
       ]
     : [];
   // one forest chart per treatment contrast, compiled here so the browser needs only Vega's runtime
   const byContrast = new Map<string, ForestRow[]>();
-  for (const a of comparison) for (const c of a.contrasts) byContrast.set(c.label, [...(byContrast.get(c.label) ?? []), { label: a.label, estimate: c.estimate, lower: c.lower, upper: c.upper, prespecified: a.prespecified, primary: a.primary }]);
-  const forests = comparison.length > 1 ? [...byContrast].map(([label, rows]) => ({ label, rows, spec: toVega(forestSpec(rows, label, { width: "container" })) })) : [];
+  for (const a of comparison)
+    for (const c of a.contrasts)
+      byContrast.set(c.label, [
+        ...(byContrast.get(c.label) ?? []),
+        {
+          label: a.label,
+          estimate: c.estimate,
+          lower: c.lower,
+          upper: c.upper,
+          prespecified: a.prespecified,
+          primary: a.primary,
+        },
+      ]);
+  const forests =
+    comparison.length > 1
+      ? [...byContrast].map(([label, rows]) => ({
+          label,
+          rows,
+          spec: toVega(forestSpec(rows, label, { width: "container" })),
+        }))
+      : [];
   const plannedSensitivity = planned.sensitivity.map((s) => {
     const options = optionsFor(s, r.doc);
     // queued with the primary when it completed (reruns.server.ts); the newest run of these options shows its progress
-    const child = options ? children.filter((c) => c.optionsJson === canonicalJson(options)).at(-1) : undefined;
-    const note = options ? null : s.kind === "exclude_influential" ? "No subject was flagged, so there is nothing to exclude." : "Nothing to run for this analysis.";
-    return { kind: s.kind, label: sensitivityLabel(s, options), runnable: Boolean(options) && r.rerun.status === "completed" && !r.rerun.signedAt, done: Boolean(child), status: child?.status ?? null, childId: child?.id ?? null, note };
+    const child = options
+      ? children.filter((c) => c.optionsJson === canonicalJson(options)).at(-1)
+      : undefined;
+    const note = options
+      ? null
+      : s.kind === "exclude_influential"
+        ? "No subject was flagged, so there is nothing to exclude."
+        : "Nothing to run for this analysis.";
+    return {
+      kind: s.kind,
+      label: sensitivityLabel(s, options),
+      runnable: Boolean(options) && r.rerun.status === "completed" && !r.rerun.signedAt,
+      done: Boolean(child),
+      status: child?.status ?? null,
+      childId: child?.id ?? null,
+      note,
+    };
   });
-  let whatIf: WhatIfInputs = { available: false, reason: "The what-if opens when the rerun has completed.", caution: CAUTION };
+  let whatIf: WhatIfInputs = {
+    available: false,
+    reason: "The what-if opens when the rerun has completed.",
+    caution: CAUTION,
+  };
   if (r.doc && r.rerun.kind === "primary" && allowed.has("rerun.start") && !r.rerun.signedAt) {
     const doc = r.doc;
     whatIf = await keptWhatIfInputsOf(r.rerun, doc, {
@@ -83,12 +138,32 @@ export async function resultsPage(request: Request, access: StudyAccess & { stud
     planVersion: r.planVersion,
     startedBy: r.startedBy,
     view: r.doc ? rerunView(r.doc, redact) : null,
-    findings: findings.map((f) => ({ id: f.id, kind: f.kind, summary: redact.text(f.summary, f.checkKey), statistic: redact.maybe(f.statistic, f.checkKey), threshold: f.threshold, assessment: f.assessment ? { category: f.assessment.category, impact: f.assessment.impact, action: f.assessment.action, rationale: redact.text(f.assessment.rationale, f.checkKey), by: f.assessment.recordedByName, at: f.assessment.recordedAt } : null })),
+    findings: findings.map((f) => ({
+      id: f.id,
+      kind: f.kind,
+      summary: redact.text(f.summary, f.checkKey),
+      statistic: redact.maybe(f.statistic, f.checkKey),
+      threshold: f.threshold,
+      assessment: f.assessment
+        ? {
+            category: f.assessment.category,
+            impact: f.assessment.impact,
+            action: f.assessment.action,
+            rationale: redact.text(f.assessment.rationale, f.checkKey),
+            by: f.assessment.recordedByName,
+            at: f.assessment.recordedAt,
+          }
+        : null,
+    })),
     signatures: signatures.map((s) => ({ name: s.signerName, meaning: s.meaning, at: s.signedAt })),
     comparison,
     forests,
     plannedSensitivity,
-    twins: twins.map((tw) => ({ id: tw.id, same: tw.resultSha256 === r.rerun.resultSha256, at: tw.createdAt })),
+    twins: twins.map((tw) => ({
+      id: tw.id,
+      same: tw.resultSha256 === r.rerun.resultSha256,
+      at: tw.createdAt,
+    })),
     can: {
       start: allowed.has("rerun.start") && !r.rerun.signedAt,
       assess: allowed.has("finding.assess") && !r.rerun.signedAt,

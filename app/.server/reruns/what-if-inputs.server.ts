@@ -13,5 +13,7 @@ export function keptWhatIfInputsOf(
   doc: RerunDocument,
   options: WhatIfOptions = {},
 ): Promise<WhatIfInputs> {
-  return keptOrBuilt(rerun, options, async () => runWhatIfTask({ doc, columnsFile: (await lockedColumnsFile(rerun.datasetVersionId)).file, options }));
+  return keptOrBuilt(rerun, options, async () =>
+    runWhatIfTask({ doc, columnsFile: (await lockedColumnsFile(rerun.datasetVersionId)).file, options }),
+  );
 }

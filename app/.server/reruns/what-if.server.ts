@@ -24,7 +24,13 @@ export interface RerunTable<C extends TypedColumn = string[]> {
 /** Candidates shown in the panel: the most influential flagged subjects by Cook's distance. */
 export const WHAT_IF_CANDIDATES = 30;
 
-const INFLUENCE_CHECKS: readonly CheckKey[] = ["cooks_distance", "leverage", "deletion_residual", "dfbetas_treatment", "dffits"];
+const INFLUENCE_CHECKS: readonly CheckKey[] = [
+  "cooks_distance",
+  "leverage",
+  "deletion_residual",
+  "dfbetas_treatment",
+  "dffits",
+];
 
 function keepRows<C extends TypedColumn>(table: RerunTable<C>, keep: (i: number) => boolean): RerunTable<C> {
   const idx: number[] = [];
@@ -39,7 +45,10 @@ function keepRows<C extends TypedColumn>(table: RerunTable<C>, keep: (i: number)
  * options excluded (the same steps as computeRerun in reruns.server.ts). Rows with a missing
  * cell stay; the engine leaves them out itself, as in the rerun.
  */
-export function rerunTable<C extends TypedColumn = string[]>(doc: RerunDocument, table: RerunTable<C>): RerunTable<C> {
+export function rerunTable<C extends TypedColumn = string[]>(
+  doc: RerunDocument,
+  table: RerunTable<C>,
+): RerunTable<C> {
   let working = selectPopulation(table, conditionsOfDocument(doc.population)).table;
   if (doc.options.variant === "exclude_rows") {
     const drop = new Set(doc.options.rows);
@@ -66,7 +75,8 @@ export function exclusionProblem(doc: RerunDocument, rows: readonly number[]): s
     if (seen.has(row)) return `Row ${row} is named twice; name each subject once.`;
     seen.add(row);
   }
-  if (seen.size >= analysed.size) return "Excluding every subject leaves nothing to fit; keep at least one subject.";
+  if (seen.size >= analysed.size)
+    return "Excluding every subject leaves nothing to fit; keep at least one subject.";
   return null;
 }
 
@@ -74,7 +84,8 @@ function unavailable(reason: string): WhatIfInputs {
   return { available: false, reason, caution: RESULTS_CAUTION };
 }
 
-const relClose = (a: number, b: number, tol: number) => Math.abs(a - b) <= tol * Math.max(1, Math.abs(a), Math.abs(b));
+const relClose = (a: number, b: number, tol: number) =>
+  Math.abs(a - b) <= tol * Math.max(1, Math.abs(a), Math.abs(b));
 
 export interface WhatIfOptions {
   /** The plan names exclusion of influential subjects among its sensitivity analyses. */
@@ -92,13 +103,28 @@ const kept = new LRUCache<string, WhatIfInputs>({ max: 32 });
  * The what-if inputs of a completed rerun, built once per result hash and options; `table` is
  * asked for only when they are not kept yet (it reads the locked dataset).
  */
-export async function keptWhatIfInputs(rerun: { id: string; resultSha256: string | null }, doc: RerunDocument, table: () => Promise<RerunTable>, options: WhatIfOptions = {}): Promise<WhatIfInputs> {
+export async function keptWhatIfInputs(
+  rerun: { id: string; resultSha256: string | null },
+  doc: RerunDocument,
+  table: () => Promise<RerunTable>,
+  options: WhatIfOptions = {},
+): Promise<WhatIfInputs> {
   return keptOrBuilt(rerun, options, async () => whatIfInputs(doc, await table(), options));
 }
 
 /** What-if inputs kept by result hash and options, else made by `build` (here, or in a compute thread) and kept. */
-export async function keptOrBuilt(rerun: { id: string; resultSha256: string | null }, options: WhatIfOptions, build: () => Promise<WhatIfInputs>): Promise<WhatIfInputs> {
-  const key = JSON.stringify([rerun.id, rerun.resultSha256, options.prespecifiedExclusion ?? false, options.withSubjectIds ?? true, options.canSave ?? true]);
+export async function keptOrBuilt(
+  rerun: { id: string; resultSha256: string | null },
+  options: WhatIfOptions,
+  build: () => Promise<WhatIfInputs>,
+): Promise<WhatIfInputs> {
+  const key = JSON.stringify([
+    rerun.id,
+    rerun.resultSha256,
+    options.prespecifiedExclusion ?? false,
+    options.withSubjectIds ?? true,
+    options.canSave ?? true,
+  ]);
   const hit = kept.get(key);
   if (hit) return hit;
   const inputs = await build();
@@ -112,13 +138,24 @@ export async function keptOrBuilt(rerun: { id: string; resultSha256: string | nu
  * the treatment coefficient itself, so its vector L does not move when subjects are left out
  * (with interactions it depends on covariate means, which do).
  */
-export function whatIfInputs(doc: RerunDocument, table: ColumnTable, options: WhatIfOptions = {}): WhatIfInputs {
-  if (doc.result.kind === "cox") return unavailable("The closed-form what-if is offered for linear models; this rerun is a time-to-event (Cox) model. Use a sensitivity rerun excluding the subjects.");
-  if (doc.result.kind !== "linear") return unavailable("The closed-form what-if is offered for linear models; this rerun is a generalized linear model. Use a sensitivity rerun excluding the subjects.");
+export function whatIfInputs(
+  doc: RerunDocument,
+  table: ColumnTable,
+  options: WhatIfOptions = {},
+): WhatIfInputs {
+  if (doc.result.kind === "cox")
+    return unavailable(
+      "The closed-form what-if is offered for linear models; this rerun is a time-to-event (Cox) model. Use a sensitivity rerun excluding the subjects.",
+    );
+  if (doc.result.kind !== "linear")
+    return unavailable(
+      "The closed-form what-if is offered for linear models; this rerun is a generalized linear model. Use a sensitivity rerun excluding the subjects.",
+    );
   const r = doc.result;
   const spec = r.spec;
   const treatment = spec.treatment;
-  if (!treatment) return unavailable("The model names no treatment, so there is no treatment contrast to follow.");
+  if (!treatment)
+    return unavailable("The model names no treatment, so there is no treatment contrast to follow.");
   if (spec.terms.some((t) => "interaction" in t && t.interaction.includes(treatment))) {
     return unavailable(
       "The model has treatment interactions: its adjusted-mean contrast depends on covariate means that change when subjects are left out, so the closed-form what-if is not offered. Use a sensitivity rerun excluding the subjects.",
@@ -133,30 +170,39 @@ export function whatIfInputs(doc: RerunDocument, table: ColumnTable, options: Wh
     data = prepareData(spec, toDataTable(table));
     design = buildDesign(spec, data);
   } catch (e) {
-    if (e instanceof EngineError) return unavailable(`The rerun's rows could not be read again: ${e.message}.`);
+    if (e instanceof EngineError)
+      return unavailable(`The rerun's rows could not be read again: ${e.message}.`);
     throw e;
   }
   const rows = data.used.length;
   if (rows !== r.n || Array.from(data.used).some((u, k) => data.rowNumbers[u] !== r.observations.row[k])) {
-    return unavailable("The rows given do not match the rerun's rows; build them with rerunTable from the rerun's locked dataset version.");
+    return unavailable(
+      "The rows given do not match the rerun's rows; build them with rerunTable from the rerun's locked dataset version.",
+    );
   }
   const { n, p } = design;
   const weights = r.observations.weight ? Float64Array.from(r.observations.weight) : null;
   const outcome = leastSquares({ x: design.x, n, p, y: data.response, weights, offset: data.offset });
-  if (!outcome.ok) return unavailable("The design's columns are aliased; the what-if needs an estimable model.");
+  if (!outcome.ok)
+    return unavailable("The design's columns are aliased; the what-if needs an estimable model.");
   const fit = outcome.fit;
   for (let j = 0; j < p; j++) {
     if (!relClose(fit.coefficients[j], r.coefficients[j].estimate, 1e-8)) {
-      return unavailable("Refitting the rerun's rows does not reproduce its stored coefficients; the what-if is not offered.");
+      return unavailable(
+        "Refitting the rerun's rows does not reproduce its stored coefficients; the what-if is not offered.",
+      );
     }
   }
 
   // contrast vectors: unit vectors on the treatment's indicator columns (no treatment interactions)
   const tv = data.variables.get(treatment);
-  if (!tv || tv.kind !== "categorical") return unavailable(`The treatment "${treatment}" is not categorical.`);
+  if (!tv || tv.kind !== "categorical")
+    return unavailable(`The treatment "${treatment}" is not categorical.`);
   const contrasts = tv.levels.flatMap((level, li) => {
     if (li === tv.referenceIndex) return [];
-    const j = design.columnFactors.findIndex((fs) => fs.length === 1 && fs[0].variable === treatment && fs[0].level === li);
+    const j = design.columnFactors.findIndex(
+      (fs) => fs.length === 1 && fs[0].variable === treatment && fs[0].level === li,
+    );
     if (j < 0) return [];
     const l = Array.from({ length: p }, (_, k) => (k === j ? 1 : 0));
     return [{ label: `${level} vs ${tv.reference}`, l }];
@@ -165,7 +211,9 @@ export function whatIfInputs(doc: RerunDocument, table: ColumnTable, options: Wh
     const stored = r.contrasts?.find((s) => s.label === c.label);
     const est = c.l.reduce((s: number, v: number, k: number) => s + v * fit.coefficients[k], 0);
     if (stored && !relClose(stored.estimate, est, 1e-8)) {
-      return unavailable(`The stored contrast ${c.label} is not the treatment coefficient; the closed-form what-if does not apply.`);
+      return unavailable(
+        `The stored contrast ${c.label} is not the treatment coefficient; the closed-form what-if does not apply.`,
+      );
     }
   }
 
@@ -190,9 +238,17 @@ export function whatIfInputs(doc: RerunDocument, table: ColumnTable, options: Wh
         : "Prior weights enter as √w-scaled rows.",
     );
   }
-  if (r.covarianceType !== "model") notes.push(`Standard errors here are model-based; the rerun reports ${r.covarianceType} errors.`);
-  const flaggedCount = new Set(doc.checks.filter((c) => INFLUENCE_CHECKS.includes(c.key)).flatMap((c) => (c.flagged ?? []).map((f) => f.row))).size;
-  if (flaggedCount > shaped.length) notes.push(`${flaggedCount} subjects were flagged; the ${shaped.length} with the largest Cook's distance are offered.`);
+  if (r.covarianceType !== "model")
+    notes.push(`Standard errors here are model-based; the rerun reports ${r.covarianceType} errors.`);
+  const flaggedCount = new Set(
+    doc.checks
+      .filter((c) => INFLUENCE_CHECKS.includes(c.key))
+      .flatMap((c) => (c.flagged ?? []).map((f) => f.row)),
+  ).size;
+  if (flaggedCount > shaped.length)
+    notes.push(
+      `${flaggedCount} subjects were flagged; the ${shaped.length} with the largest Cook's distance are offered.`,
+    );
 
   return {
     available: true,
@@ -203,14 +259,19 @@ export function whatIfInputs(doc: RerunDocument, table: ColumnTable, options: Wh
     candidates: shaped,
     flaggedCount,
     prespecifiedExclusion: options.prespecifiedExclusion ?? false,
-    prespecifiedRows: (doc.checks.find((c) => c.key === "cooks_distance")?.flagged ?? []).map((f) => f.row).sort((a, b) => a - b),
+    prespecifiedRows: (doc.checks.find((c) => c.key === "cooks_distance")?.flagged ?? [])
+      .map((f) => f.row)
+      .sort((a, b) => a - b),
     canSave: options.canSave ?? true,
     notes,
   };
 }
 
 /** Subjects flagged by any influence check, by Cook's distance, at most WHAT_IF_CANDIDATES. */
-function candidateRows(doc: RerunDocument & { result: LinearModelResult }, withIds: boolean): Omit<WhatIfCandidate, "x" | "residual">[] {
+function candidateRows(
+  doc: RerunDocument & { result: LinearModelResult },
+  withIds: boolean,
+): Omit<WhatIfCandidate, "x" | "residual">[] {
   const obs = doc.result.observations;
   const byRow = new Map<number, string[]>();
   for (const c of doc.checks) {

@@ -16,7 +16,8 @@ export function ChooseAndExport({
   planVersions: readonly { id: string; version: number; count: number }[];
   selected: string;
   exportScope: { kind: "rerun" | "plan_version"; id: string };
-  result: { ok: boolean; message: string; section?: string; exported?: { id: string; sha256: string } } | undefined;
+  result:
+    { ok: boolean; message: string; section?: string; exported?: { id: string; sha256: string } } | undefined;
   downloadHref: (id: string) => string;
   busy: boolean;
   exporting: boolean;

@@ -11,7 +11,21 @@ export interface NarrativeResult {
 }
 
 /** The medical writer's narrative of one section: each save a new version. */
-export function NarrativeEditor({ section, planVersionId, body, versions, result, busy }: { section: NarrativeSection; planVersionId: string; body: string; versions: number; result: NarrativeResult | undefined; busy: boolean }) {
+export function NarrativeEditor({
+  section,
+  planVersionId,
+  body,
+  versions,
+  result,
+  busy,
+}: {
+  section: NarrativeSection;
+  planVersionId: string;
+  body: string;
+  versions: number;
+  result: NarrativeResult | undefined;
+  busy: boolean;
+}) {
   const mine = result?.section === section ? result : undefined;
   const id = `narrative-${section}`;
   return (
@@ -22,9 +36,17 @@ export function NarrativeEditor({ section, planVersionId, body, versions, result
       <label htmlFor={id} className="label">
         Narrative for “{SECTION_TITLES[section]}” {versions ? `(version ${versions} is shown)` : "(none yet)"}
       </label>
-      <textarea id={id} name="body" defaultValue={body} rows={4} className="field w-full" aria-describedby={`${id}-help ${id}-error`} />
+      <textarea
+        id={id}
+        name="body"
+        defaultValue={body}
+        rows={4}
+        className="field w-full"
+        aria-describedby={`${id}-help ${id}-error`}
+      />
       <p id={`${id}-help`} className="text-xs text-ink-soft">
-        Separate paragraphs with an empty line. Each save keeps a new version; everything else in the appendix comes from the signed results.
+        Separate paragraphs with an empty line. Each save keeps a new version; everything else in the appendix
+        comes from the signed results.
       </p>
       <FieldError id={`${id}-error`} message={mine?.fieldError} />
       <div className="flex items-center gap-3">

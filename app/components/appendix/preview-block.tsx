@@ -56,7 +56,16 @@ export function PreviewBlock({ b, images }: { b: Block; images: Record<string, s
               {b.rows.map((r, i) => (
                 <tr key={i}>
                   {r.map((v, j) => (
-                    <td key={j} className={b.columns[j]?.numeric ? "num whitespace-nowrap text-right" : b.columns[j]?.prose ? "min-w-64" : ""}>
+                    <td
+                      key={j}
+                      className={
+                        b.columns[j]?.numeric
+                          ? "num whitespace-nowrap text-right"
+                          : b.columns[j]?.prose
+                            ? "min-w-64"
+                            : ""
+                      }
+                    >
                       {v}
                     </td>
                   ))}

@@ -6,7 +6,11 @@ export function ChangeSummaryPanel({ changes, version }: { changes: ChangeSummar
   const rows: [string, number, string[]][] = [
     ["Rows added", changes.rowsAdded, changes.examples.added],
     ["Rows removed", changes.rowsRemoved, changes.examples.removed],
-    ["Rows changed", changes.rowsChanged, changes.examples.changed.map((c) => `${c.key} (${c.columns.join(", ")})`)],
+    [
+      "Rows changed",
+      changes.rowsChanged,
+      changes.examples.changed.map((c) => `${c.key} (${c.columns.join(", ")})`),
+    ],
     ["Rows unchanged", changes.rowsUnchanged, []],
   ];
   return (
@@ -15,7 +19,9 @@ export function ChangeSummaryPanel({ changes, version }: { changes: ChangeSummar
         Changes in version {version} against locked version {changes.againstVersion}
       </h2>
       <p className="mb-2 text-xs text-ink-soft">
-        {changes.keyColumns.length > 0 ? `Rows matched by the key ${changes.keyColumns.join(", ")}.` : "No shared key: rows matched by position."}
+        {changes.keyColumns.length > 0
+          ? `Rows matched by the key ${changes.keyColumns.join(", ")}.`
+          : "No shared key: rows matched by position."}
       </p>
       <table className="data-table">
         <tbody>
@@ -25,7 +31,9 @@ export function ChangeSummaryPanel({ changes, version }: { changes: ChangeSummar
                 {label}
               </th>
               <td className="num w-24 text-right">{formatCount(n)}</td>
-              <td className="text-xs text-ink-soft">{examples.length > 0 ? `e.g. ${examples.join("; ")}` : ""}</td>
+              <td className="text-xs text-ink-soft">
+                {examples.length > 0 ? `e.g. ${examples.join("; ")}` : ""}
+              </td>
             </tr>
           ))}
           <tr>

@@ -1,10 +1,21 @@
 import type { ColumnMeta } from "~/shared/datasets";
 import { formatCount, formatStat } from "./format";
 
-const TYPE_WORD: Record<ColumnMeta["type"], string> = { number: "number", text: "text", date: "date", datetime: "date-time" };
+const TYPE_WORD: Record<ColumnMeta["type"], string> = {
+  number: "number",
+  text: "text",
+  date: "date",
+  datetime: "date-time",
+};
 
 /** One compact block per column: type, counts, then the range or the levels. */
-export function ColumnSummaries({ columns, keyColumns }: { columns: (ColumnMeta & { looksCategorical?: string })[]; keyColumns: string[] }) {
+export function ColumnSummaries({
+  columns,
+  keyColumns,
+}: {
+  columns: (ColumnMeta & { looksCategorical?: string })[];
+  keyColumns: string[];
+}) {
   return (
     <section aria-labelledby="column-summaries" className="panel">
       <h2 id="column-summaries" className="border-b border-rule px-3 py-2 text-base">
@@ -16,13 +27,18 @@ export function ColumnSummaries({ columns, keyColumns }: { columns: (ColumnMeta 
             <div className="flex items-baseline justify-between gap-2">
               <span className="font-semibold">
                 {c.name}
-                {keyColumns.includes(c.name) ? <span className="ml-1.5 text-xs font-medium uppercase tracking-wide text-accent-dark">key</span> : null}
+                {keyColumns.includes(c.name) ? (
+                  <span className="ml-1.5 text-xs font-medium uppercase tracking-wide text-accent-dark">
+                    key
+                  </span>
+                ) : null}
               </span>
               <span className="text-xs text-ink-soft">{TYPE_WORD[c.type] ?? c.type}</span>
             </div>
             {c.looksCategorical ? (
               <p className="text-xs font-medium text-accent-dark">
-                Looks categorical: {c.looksCategorical}. A plan using it as a term must say categorical or continuous.
+                Looks categorical: {c.looksCategorical}. A plan using it as a term must say categorical or
+                continuous.
               </p>
             ) : null}
             {c.label ? <p className="text-xs text-ink-soft">{c.label}</p> : null}
@@ -62,7 +78,9 @@ export function ColumnSummaries({ columns, keyColumns }: { columns: (ColumnMeta 
                     {l.value} <span className="text-ink-soft">{formatCount(l.count)}</span>
                   </span>
                 ))}
-                {c.levels.length > 8 ? <span className="text-ink-soft"> · {c.levels.length - 8} more levels</span> : null}
+                {c.levels.length > 8 ? (
+                  <span className="text-ink-soft"> · {c.levels.length - 8} more levels</span>
+                ) : null}
               </p>
             ) : c.type === "text" && c.nonMissing > 0 ? (
               <p className="text-xs text-ink-soft">more than 50 distinct values</p>

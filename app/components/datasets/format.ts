@@ -4,7 +4,10 @@ export function formatStat(x: number | undefined): string {
   if (Number.isInteger(x) && Math.abs(x) < 1e9) return String(x);
   const abs = Math.abs(x);
   if (abs !== 0 && (abs < 1e-3 || abs >= 1e7)) return x.toExponential(3);
-  return x.toPrecision(5).replace(/(\.\d*?)0+$/, "$1").replace(/\.$/, "");
+  return x
+    .toPrecision(5)
+    .replace(/(\.\d*?)0+$/, "$1")
+    .replace(/\.$/, "");
 }
 
 export function formatBytes(n: number): string {

@@ -1,5 +1,11 @@
 import { useCallback, useEffect, useMemo, useReducer, useRef, useState } from "react";
-import { flexRender, getCoreRowModel, useReactTable, type ColumnDef, type SortingState } from "@tanstack/react-table";
+import {
+  flexRender,
+  getCoreRowModel,
+  useReactTable,
+  type ColumnDef,
+  type SortingState,
+} from "@tanstack/react-table";
 import { useVirtualizer } from "@tanstack/react-virtual";
 import type { ColumnMeta } from "~/shared/datasets";
 
@@ -20,12 +26,24 @@ type Row = { n: number; cells: string[] | null };
  * in windows of 200 as they scroll into view; sorting (one column, missing values last) is done
  * on the server, so 200 000 rows stay smooth.
  */
-export function PreviewTable({ rowsUrl, columns, total, masked = [] }: { rowsUrl: string; columns: ColumnMeta[]; total: number; masked?: string[] }) {
+export function PreviewTable({
+  rowsUrl,
+  columns,
+  total,
+  masked = [],
+}: {
+  rowsUrl: string;
+  columns: ColumnMeta[];
+  total: number;
+  masked?: string[];
+}) {
   const [sorting, setSorting] = useState<SortingState>([]);
   const pages = useRef(new Map<number, Window | "loading">());
   const [tick, refresh] = useReducer((n: number) => n + 1, 0);
   const [error, setError] = useState<string | null>(null);
-  const sortKey = sorting[0] ? `&sort=${encodeURIComponent(sorting[0].id)}&desc=${sorting[0].desc ? 1 : 0}` : "";
+  const sortKey = sorting[0]
+    ? `&sort=${encodeURIComponent(sorting[0].id)}&desc=${sorting[0].desc ? 1 : 0}`
+    : "";
   const parentRef = useRef<HTMLDivElement>(null);
 
   // Rows are fetched again when the sort changes or when a screen decision unmasks a column.
@@ -40,7 +58,9 @@ export function PreviewTable({ rowsUrl, columns, total, masked = [] }: { rowsUrl
       if (pages.current.has(page)) return;
       pages.current.set(page, "loading");
       const map = pages.current;
-      fetch(`${rowsUrl}?offset=${page * PAGE}&limit=${PAGE}${sortKey}`, { headers: { Accept: "application/json" } })
+      fetch(`${rowsUrl}?offset=${page * PAGE}&limit=${PAGE}${sortKey}`, {
+        headers: { Accept: "application/json" },
+      })
         .then(async (res) => {
           if (!res.ok) throw new Error(`The rows could not be loaded (${res.status}).`);
           const w = (await res.json()) as Window;
@@ -59,7 +79,12 @@ export function PreviewTable({ rowsUrl, columns, total, masked = [] }: { rowsUrl
     [rowsUrl, sortKey, maskKey],
   );
 
-  const virtualizer = useVirtualizer({ count: total, getScrollElement: () => parentRef.current, estimateSize: () => ROW_HEIGHT, overscan: 20 });
+  const virtualizer = useVirtualizer({
+    count: total,
+    getScrollElement: () => parentRef.current,
+    estimateSize: () => ROW_HEIGHT,
+    overscan: 20,
+  });
   const items = virtualizer.getVirtualItems();
   const firstPage = items.length > 0 ? Math.floor(items[0].index / PAGE) : 0;
   const lastPage = items.length > 0 ? Math.floor(items[items.length - 1].index / PAGE) : 0;
@@ -95,7 +120,11 @@ export function PreviewTable({ rowsUrl, columns, total, masked = [] }: { rowsUrl
         header: () => (
           <span className="block" title={c.label ?? undefined}>
             {masked.includes(c.name) ? `${c.name} (masked)` : c.name}
-            {c.label ? <span className="block truncate text-[0.7rem] font-normal normal-case tracking-normal">{c.label}</span> : null}
+            {c.label ? (
+              <span className="block truncate text-[0.7rem] font-normal normal-case tracking-normal">
+                {c.label}
+              </span>
+            ) : null}
           </span>
         ),
         meta: { numeric: c.type === "number" && !masked.includes(c.name) },
@@ -115,7 +144,10 @@ export function PreviewTable({ rowsUrl, columns, total, masked = [] }: { rowsUrl
     sortDescFirst: false,
     getCoreRowModel: getCoreRowModel(),
   });
-  const widths = useMemo(() => ["4.5rem", ...columns.map((c) => (c.type === "number" ? "6.5rem" : "9rem"))], [columns]);
+  const widths = useMemo(
+    () => ["4.5rem", ...columns.map((c) => (c.type === "number" ? "6.5rem" : "9rem"))],
+    [columns],
+  );
   const gridTemplate = widths.join(" ");
   const rows = table.getRowModel().rows;
 
@@ -126,26 +158,55 @@ export function PreviewTable({ rowsUrl, columns, total, masked = [] }: { rowsUrl
           {error}
         </p>
       ) : null}
-      <div ref={parentRef} className="h-[34rem] overflow-auto" tabIndex={0} aria-label="Rows of this dataset version; scroll to see more">
-        <div role="table" aria-label="Preview rows" aria-rowcount={total + 1} aria-colcount={columns.length + 1} className="min-w-max text-sm" style={{ fontVariantNumeric: "tabular-nums" }}>
+      <div
+        ref={parentRef}
+        className="h-[34rem] overflow-auto"
+        tabIndex={0}
+        aria-label="Rows of this dataset version; scroll to see more"
+      >
+        <div
+          role="table"
+          aria-label="Preview rows"
+          aria-rowcount={total + 1}
+          aria-colcount={columns.length + 1}
+          className="min-w-max text-sm"
+          style={{ fontVariantNumeric: "tabular-nums" }}
+        >
           <div role="rowgroup" className="sticky top-0 z-10 bg-sheet">
             {table.getHeaderGroups().map((group) => (
-              <div role="row" key={group.id} className="grid border-b border-ink/60" style={{ gridTemplateColumns: gridTemplate }}>
+              <div
+                role="row"
+                key={group.id}
+                className="grid border-b border-ink/60"
+                style={{ gridTemplateColumns: gridTemplate }}
+              >
                 {group.headers.map((header) => {
                   const sorted = header.column.getIsSorted();
-                  const numeric = (header.column.columnDef.meta as { numeric?: boolean } | undefined)?.numeric;
+                  const numeric = (header.column.columnDef.meta as { numeric?: boolean } | undefined)
+                    ?.numeric;
                   return (
                     <div
                       role="columnheader"
                       key={header.id}
                       aria-sort={sorted === "asc" ? "ascending" : sorted === "desc" ? "descending" : "none"}
                       className={`truncate px-2 py-1.5 text-xs font-semibold uppercase tracking-wide text-ink-soft ${numeric ? "text-right" : ""}`}
-                      title={masked.includes(header.column.id) ? "Masked until the identifier screen's hit on this column is resolved as not an identifier" : undefined}
+                      title={
+                        masked.includes(header.column.id)
+                          ? "Masked until the identifier screen's hit on this column is resolved as not an identifier"
+                          : undefined
+                      }
                     >
                       {header.column.getCanSort() ? (
-                        <button type="button" onClick={header.column.getToggleSortingHandler()} className="uppercase hover:text-ink" title={`Sort by ${header.column.id}`}>
+                        <button
+                          type="button"
+                          onClick={header.column.getToggleSortingHandler()}
+                          className="uppercase hover:text-ink"
+                          title={`Sort by ${header.column.id}`}
+                        >
                           {flexRender(header.column.columnDef.header, header.getContext())}
-                          <span aria-hidden="true">{sorted === "asc" ? " ▲" : sorted === "desc" ? " ▼" : ""}</span>
+                          <span aria-hidden="true">
+                            {sorted === "asc" ? " ▲" : sorted === "desc" ? " ▼" : ""}
+                          </span>
                         </button>
                       ) : (
                         flexRender(header.column.columnDef.header, header.getContext())
@@ -165,12 +226,21 @@ export function PreviewTable({ rowsUrl, columns, total, masked = [] }: { rowsUrl
                   aria-rowindex={item.index + 2}
                   key={item.key}
                   className="absolute left-0 grid w-full border-b border-rule"
-                  style={{ gridTemplateColumns: gridTemplate, height: ROW_HEIGHT, transform: `translateY(${item.start}px)` }}
+                  style={{
+                    gridTemplateColumns: gridTemplate,
+                    height: ROW_HEIGHT,
+                    transform: `translateY(${item.start}px)`,
+                  }}
                 >
                   {row.getVisibleCells().map((cell) => {
-                    const numeric = (cell.column.columnDef.meta as { numeric?: boolean } | undefined)?.numeric;
+                    const numeric = (cell.column.columnDef.meta as { numeric?: boolean } | undefined)
+                      ?.numeric;
                     return (
-                      <div role="cell" key={cell.id} className={`truncate px-2 py-1 ${numeric || cell.column.id === "__row" ? "text-right" : ""} ${cell.column.id === "__row" ? "text-ink-soft" : ""}`}>
+                      <div
+                        role="cell"
+                        key={cell.id}
+                        className={`truncate px-2 py-1 ${numeric || cell.column.id === "__row" ? "text-right" : ""} ${cell.column.id === "__row" ? "text-ink-soft" : ""}`}
+                      >
                         {flexRender(cell.column.columnDef.cell, cell.getContext())}
                       </div>
                     );

@@ -13,15 +13,27 @@ export function PurgeVersion({ version, error }: { version: number; error?: stri
         Purge version {version}
       </h2>
       <p className="mb-2 text-xs text-ink-soft">
-        This version was superseded and never locked. Purging removes its stored file and parsed columns (unless another version holds the same bytes); its record,
-        screen results and audit history stay.
+        This version was superseded and never locked. Purging removes its stored file and parsed columns
+        (unless another version holds the same bytes); its record, screen results and audit history stay.
       </p>
       <Form method="post" className="space-y-2">
         <label className="flex items-center gap-2 text-sm">
-          <input type="checkbox" name="confirm" value="yes" aria-describedby={error ? "purge-error" : undefined} />I understand that the file of version {version} is removed for good.
+          <input
+            type="checkbox"
+            name="confirm"
+            value="yes"
+            aria-describedby={error ? "purge-error" : undefined}
+          />
+          I understand that the file of version {version} is removed for good.
         </label>
         <FieldError id="purge-error" message={error} />
-        <button type="submit" name="intent" value="purge" className="btn-quiet" disabled={navigation.state !== "idle"}>
+        <button
+          type="submit"
+          name="intent"
+          value="purge"
+          className="btn-quiet"
+          disabled={navigation.state !== "idle"}
+        >
           Purge version {version}
         </button>
       </Form>

@@ -19,8 +19,15 @@ export function ReadWarnings({ columns }: { columns: (ColumnMeta & Partial<Colum
         {warnings.map((w) => (
           <li key={w}>{w}</li>
         ))}
-        {byValues.length > 0 ? <li>Read by their values rather than their declared type, as the data manager chose: {byValues.join(", ")}.</li> : null}
-        {decimalComma.length > 0 ? <li>Decimal commas read as decimal points: {decimalComma.join(", ")}.</li> : null}
+        {byValues.length > 0 ? (
+          <li>
+            Read by their values rather than their declared type, as the data manager chose:{" "}
+            {byValues.join(", ")}.
+          </li>
+        ) : null}
+        {decimalComma.length > 0 ? (
+          <li>Decimal commas read as decimal points: {decimalComma.join(", ")}.</li>
+        ) : null}
       </ul>
     </section>
   );

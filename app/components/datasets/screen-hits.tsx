@@ -7,7 +7,17 @@ import { formatTime } from "./format";
  * The identifier screen's hits. On a draft the data manager removes each flagged column or
  * records why it is not an identifier; locking waits until every hit is resolved.
  */
-export function ScreenHits({ hits, canDecide, errors, keyColumns }: { hits: ScreenHitView[]; canDecide: boolean; errors: Record<string, string>; keyColumns: string[] }) {
+export function ScreenHits({
+  hits,
+  canDecide,
+  errors,
+  keyColumns,
+}: {
+  hits: ScreenHitView[];
+  canDecide: boolean;
+  errors: Record<string, string>;
+  keyColumns: string[];
+}) {
   const navigation = useNavigation();
   const busy = navigation.state !== "idle";
   if (hits.length === 0) {
@@ -17,14 +27,19 @@ export function ScreenHits({ hits, canDecide, errors, keyColumns }: { hits: Scre
           Identifier screen
         </h2>
         <StatusLabel status="within" word="No direct identifiers found" />
-        <p className="mt-1 text-xs text-ink-soft">Every column's name and all of its values were checked against the Safe Harbor categories.</p>
+        <p className="mt-1 text-xs text-ink-soft">
+          Every column's name and all of its values were checked against the Safe Harbor categories.
+        </p>
       </section>
     );
   }
   return (
     <section aria-labelledby="screen" className="panel">
       <h2 id="screen" className="border-b border-rule px-4 py-2">
-        Identifier screen <span className="num text-sm font-normal text-ink-soft">({hits.filter((h) => !h.resolution).length} open of {hits.length})</span>
+        Identifier screen{" "}
+        <span className="num text-sm font-normal text-ink-soft">
+          ({hits.filter((h) => !h.resolution).length} open of {hits.length})
+        </span>
       </h2>
       <ul className="divide-y divide-rule">
         {hits.map((h) => (
@@ -34,7 +49,9 @@ export function ScreenHits({ hits, canDecide, errors, keyColumns }: { hits: Scre
                 {h.column} <span className="font-normal text-ink-soft">· {h.ruleLabel}</span>
               </p>
               <p className="text-xs text-ink-soft">
-                {h.basis === "name" ? "Flagged by the column name" : `Flagged by its values: ${h.matches} cell${h.matches === 1 ? "" : "s"} match`}
+                {h.basis === "name"
+                  ? "Flagged by the column name"
+                  : `Flagged by its values: ${h.matches} cell${h.matches === 1 ? "" : "s"} match`}
                 {h.maskedExamples.length > 0 ? "; masked examples:" : ""}
               </p>
               {h.maskedExamples.length > 0 ? (
@@ -48,7 +65,9 @@ export function ScreenHits({ hits, canDecide, errors, keyColumns }: { hits: Scre
                   <p className="mt-0.5 text-xs">“{h.rationale}”</p>
                   <p className="text-xs text-ink-soft">
                     {h.resolvedBy ?? "–"}, {formatTime(h.resolvedAt)}
-                    {h.carriedFromVersion !== null ? ` · carried forward from version ${h.carriedFromVersion} (same column and category)` : ""}
+                    {h.carriedFromVersion !== null
+                      ? ` · carried forward from version ${h.carriedFromVersion} (same column and category)`
+                      : ""}
                   </p>
                 </div>
               ) : h.resolution === "removed" ? (
@@ -69,18 +88,36 @@ export function ScreenHits({ hits, canDecide, errors, keyColumns }: { hits: Scre
                     placeholder="e.g. pseudonymous subject code assigned by the study"
                   />
                   {errors[h.id] ? (
-                    <p id={`rationale-${h.id}-error`} className="text-xs font-medium text-finding" role="alert">
+                    <p
+                      id={`rationale-${h.id}-error`}
+                      className="text-xs font-medium text-finding"
+                      role="alert"
+                    >
                       {errors[h.id]}
                     </p>
                   ) : null}
                   <div className="flex flex-wrap gap-2">
-                    <button type="submit" name="intent" value="not_identifier" className="btn" disabled={busy}>
+                    <button
+                      type="submit"
+                      name="intent"
+                      value="not_identifier"
+                      className="btn"
+                      disabled={busy}
+                    >
                       Record: not an identifier
                     </button>
                     {keyColumns.includes(h.column) ? (
-                      <span className="self-center text-xs text-ink-soft">Key column: it cannot be removed.</span>
+                      <span className="self-center text-xs text-ink-soft">
+                        Key column: it cannot be removed.
+                      </span>
                     ) : (
-                      <button type="submit" name="intent" value="remove_column" className="btn-quiet" disabled={busy}>
+                      <button
+                        type="submit"
+                        name="intent"
+                        value="remove_column"
+                        className="btn-quiet"
+                        disabled={busy}
+                      >
                         Remove column {h.column}
                       </button>
                     )}

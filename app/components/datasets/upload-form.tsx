@@ -11,7 +11,11 @@ interface UploadEventLine {
   result?: { ok: true; versionId: string; version: number } | { ok: false; problems: string[] };
 }
 
-const STEP_WORDS = { parse: "Reading and checking the file", screen: "Screening for identifiers and comparing versions", store: "Storing" } as const;
+const STEP_WORDS = {
+  parse: "Reading and checking the file",
+  screen: "Screening for identifiers and comparing versions",
+  store: "Storing",
+} as const;
 
 function Bar({ label, value }: { label: string; value: number }) {
   const pct = Math.round(value * 100);
@@ -21,7 +25,14 @@ function Bar({ label, value }: { label: string; value: number }) {
         <span>{label}</span>
         <span className="num">{pct}%</span>
       </div>
-      <div role="progressbar" aria-label={label} aria-valuemin={0} aria-valuemax={100} aria-valuenow={pct} className="h-2 w-full rounded-sm border border-rule bg-white">
+      <div
+        role="progressbar"
+        aria-label={label}
+        aria-valuemin={0}
+        aria-valuemax={100}
+        aria-valuenow={pct}
+        className="h-2 w-full rounded-sm border border-rule bg-white"
+      >
         <div className="h-full bg-accent" style={{ width: `${pct}%` }} />
       </div>
     </div>
@@ -32,10 +43,23 @@ function Bar({ label, value }: { label: string; value: number }) {
  * The data manager's upload form. The file goes up with XMLHttpRequest (the one browser API
  * that reports upload progress); the server's answer streams the parse progress line by line.
  */
-export function UploadForm({ action, maxBytes, datasetNames, versionUrl }: { action: string; maxBytes: number; datasetNames: string[]; versionUrl: (versionId: string) => string }) {
+export function UploadForm({
+  action,
+  maxBytes,
+  datasetNames,
+  versionUrl,
+}: {
+  action: string;
+  maxBytes: number;
+  datasetNames: string[];
+  versionUrl: (versionId: string) => string;
+}) {
   const [phase, setPhase] = useState<Phase>("idle");
   const [sent, setSent] = useState(0);
-  const [step, setStep] = useState<{ phase: keyof typeof STEP_WORDS; fraction: number }>({ phase: "parse", fraction: 0 });
+  const [step, setStep] = useState<{ phase: keyof typeof STEP_WORDS; fraction: number }>({
+    phase: "parse",
+    fraction: 0,
+  });
   const [problems, setProblems] = useState<string[]>([]);
   const [name, setName] = useState("");
   const nameTouched = useRef(false);
@@ -44,7 +68,10 @@ export function UploadForm({ action, maxBytes, datasetNames, versionUrl }: { act
 
   function onFile(file: File | undefined) {
     if (!file || nameTouched.current) return;
-    const base = file.name.replace(/\.[^.]+$/, "").replace(/[^A-Za-z0-9_]/g, "_").replace(/^[^A-Za-z]+/, "");
+    const base = file.name
+      .replace(/\.[^.]+$/, "")
+      .replace(/[^A-Za-z0-9_]/g, "_")
+      .replace(/^[^A-Za-z]+/, "");
     setName(base.slice(0, 32).toLowerCase());
   }
 
@@ -102,7 +129,10 @@ export function UploadForm({ action, maxBytes, datasetNames, versionUrl }: { act
         try {
           result = (JSON.parse(xhr.responseText) as UploadEventLine).result ?? null;
         } catch {
-          result = { ok: false, problems: [xhr.responseText.slice(0, 300) || `The upload failed (${xhr.status}).`] };
+          result = {
+            ok: false,
+            problems: [xhr.responseText.slice(0, 300) || `The upload failed (${xhr.status}).`],
+          };
         }
       } else readLines();
       const r = result as UploadEventLine["result"] | null;
@@ -112,7 +142,9 @@ export function UploadForm({ action, maxBytes, datasetNames, versionUrl }: { act
         revalidator.revalidate();
         navigate(versionUrl(r.versionId));
       } else {
-        setProblems(r && !r.ok ? r.problems : [`The upload failed (${xhr.status}). Nothing was stored; try again.`]);
+        setProblems(
+          r && !r.ok ? r.problems : [`The upload failed (${xhr.status}). Nothing was stored; try again.`],
+        );
         setPhase("failed");
       }
     };
@@ -127,14 +159,32 @@ export function UploadForm({ action, maxBytes, datasetNames, versionUrl }: { act
 
   const busy = phase === "uploading" || phase === "checking";
   return (
-    <form method="post" encType="multipart/form-data" action={action} onSubmit={onSubmit} className="space-y-3" noValidate>
+    <form
+      method="post"
+      encType="multipart/form-data"
+      action={action}
+      onSubmit={onSubmit}
+      className="space-y-3"
+      noValidate
+    >
       <div>
         <label htmlFor="file" className="label">
           File
         </label>
-        <input id="file" name="file" type="file" required accept=".xpt,.json,.ndjson,.csv,.tsv,.txt,text/csv,application/json" className="field" aria-describedby="file-hint" onChange={(e) => onFile(e.currentTarget.files?.[0])} disabled={busy} />
+        <input
+          id="file"
+          name="file"
+          type="file"
+          required
+          accept=".xpt,.json,.ndjson,.csv,.tsv,.txt,text/csv,application/json"
+          className="field"
+          aria-describedby="file-hint"
+          onChange={(e) => onFile(e.currentTarget.files?.[0])}
+          disabled={busy}
+        />
         <p id="file-hint" className="mt-1 text-xs text-ink-soft">
-          XPORT transport file (.xpt, version 5), CDISC Dataset-JSON 1.1 (.json or .ndjson) or CSV (comma, semicolon or tab; UTF-8); at most {formatBytes(maxBytes)}.
+          XPORT transport file (.xpt, version 5), CDISC Dataset-JSON 1.1 (.json or .ndjson) or CSV (comma,
+          semicolon or tab; UTF-8); at most {formatBytes(maxBytes)}.
         </p>
       </div>
       <div>
@@ -165,34 +215,62 @@ export function UploadForm({ action, maxBytes, datasetNames, versionUrl }: { act
         </p>
       </div>
       <details className="text-sm">
-        <summary className="cursor-pointer text-xs font-semibold uppercase tracking-wide text-ink-soft">Key and types (optional)</summary>
+        <summary className="cursor-pointer text-xs font-semibold uppercase tracking-wide text-ink-soft">
+          Key and types (optional)
+        </summary>
         <div className="mt-2 space-y-3">
           <div>
             <label htmlFor="keyColumns" className="label">
               Key columns
             </label>
-            <input id="keyColumns" name="keyColumns" className="field" placeholder="when empty: the key the file declares, else detected; e.g. usubjid" disabled={busy} />
+            <input
+              id="keyColumns"
+              name="keyColumns"
+              className="field"
+              placeholder="when empty: the key the file declares, else detected; e.g. usubjid"
+              disabled={busy}
+            />
           </div>
           <div>
             <label htmlFor="numericColumns" className="label">
               Columns that must be numeric (CSV)
             </label>
-            <input id="numericColumns" name="numericColumns" className="field" placeholder="e.g. age, base, chg" disabled={busy} />
+            <input
+              id="numericColumns"
+              name="numericColumns"
+              className="field"
+              placeholder="e.g. age, base, chg"
+              disabled={busy}
+            />
           </div>
           <div>
             <label htmlFor="readByValues" className="label">
               Read by their values, not their declared type (Dataset-JSON)
             </label>
-            <input id="readByValues" name="readByValues" className="field" placeholder="e.g. avgdd" aria-describedby="readByValues-hint" disabled={busy} />
+            <input
+              id="readByValues"
+              name="readByValues"
+              className="field"
+              placeholder="e.g. avgdd"
+              aria-describedby="readByValues-hint"
+              disabled={busy}
+            />
             <p id="readByValues-hint" className="mt-1 text-xs text-ink-soft">
-              For a column whose values do not match its declared type, e.g. decimals in a column declared integer.
+              For a column whose values do not match its declared type, e.g. decimals in a column declared
+              integer.
             </p>
           </div>
           <div>
             <label htmlFor="readByValuesReason" className="label">
               Reason for reading them by their values (recorded in the audit trail)
             </label>
-            <textarea id="readByValuesReason" name="readByValuesReason" rows={2} className="field" disabled={busy} />
+            <textarea
+              id="readByValuesReason"
+              name="readByValuesReason"
+              rows={2}
+              className="field"
+              disabled={busy}
+            />
           </div>
         </div>
       </details>
@@ -202,7 +280,12 @@ export function UploadForm({ action, maxBytes, datasetNames, versionUrl }: { act
       {phase === "uploading" || phase === "checking" ? (
         <div className="space-y-2" aria-live="polite">
           <Bar label="Uploading" value={sent} />
-          {phase === "checking" ? <Bar label={STEP_WORDS[step.phase]} value={step.phase === "parse" ? step.fraction : step.phase === "screen" ? 1 : 1} /> : null}
+          {phase === "checking" ? (
+            <Bar
+              label={STEP_WORDS[step.phase]}
+              value={step.phase === "parse" ? step.fraction : step.phase === "screen" ? 1 : 1}
+            />
+          ) : null}
         </div>
       ) : null}
       {phase === "failed" && problems.length > 0 ? (

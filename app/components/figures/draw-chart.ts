@@ -43,12 +43,21 @@ export function loadChartLibrary(): Promise<Library> {
  * The hover table of a datum from a figure's deferred tooltip fields (specs.ts, deferTooltips),
  * formatted as Vega-Lite would have: d3-format patterns through Vega's number locale.
  */
-function tooltipContent(fields: readonly TooltipField[], datum: Record<string, unknown>, format: (pattern: string) => (v: number) => string): Record<string, string> {
+function tooltipContent(
+  fields: readonly TooltipField[],
+  datum: Record<string, unknown>,
+  format: (pattern: string) => (v: number) => string,
+): Record<string, string> {
   const out: Record<string, string> = {};
   for (const f of fields) {
     const v = datum[f.field];
     if (v === null || v === undefined) continue;
-    out[f.title] = typeof v === "number" && f.type !== "nominal" ? (Number.isFinite(v) ? format(f.format ?? ".4~g")(v) : "not computed") : String(v);
+    out[f.title] =
+      typeof v === "number" && f.type !== "nominal"
+        ? Number.isFinite(v)
+          ? format(f.format ?? ".4~g")(v)
+          : "not computed"
+        : String(v);
   }
   return out;
 }
@@ -89,7 +98,9 @@ async function drawNow(container: HTMLElement, spec: Spec, renderer: Renderers):
   const show = new Handler({ theme: "light" }).call;
   const deferred = (spec.usermeta as FigureUsermeta | undefined)?.tooltips ?? {};
   // Vega's own number locale (memoized d3-format), which its typings do not declare
-  const locale = (vega as unknown as { defaultLocale(): { format(pattern: string): (v: number) => string } }).defaultLocale();
+  const locale = (
+    vega as unknown as { defaultLocale(): { format(pattern: string): (v: number) => string } }
+  ).defaultLocale();
   const format = (pattern: string) => locale.format(pattern);
   view.tooltip(function (this: unknown, handler, event, item, value) {
     const fields = typeof value === "string" ? deferred[value] : undefined;

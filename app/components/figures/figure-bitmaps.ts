@@ -11,7 +11,14 @@
  * (rerun-figure.tsx).
  */
 import workerUrl from "./figure-worker.ts?worker&url";
-import { bitmapKey, keptAnswer, type DrawAnswer, type DrawRequest, type FigureAnswer, type FigureRefusal } from "./frame-spec";
+import {
+  bitmapKey,
+  keptAnswer,
+  type DrawAnswer,
+  type DrawRequest,
+  type FigureAnswer,
+  type FigureRefusal,
+} from "./frame-spec";
 
 /** One request per figure address for the page's lifetime, for the live views (the worker fetches its own). */
 const answers = new Map<string, Promise<FigureAnswer | FigureRefusal>>();
@@ -44,8 +51,10 @@ function settle(answer: DrawAnswer): void {
   const w = waiting.get(answer.key);
   waiting.delete(answer.key);
   if (w) {
-    if ("error" in answer) w.reject(answer.refused ? new FigureRefused(answer.error) : new DrawingUnavailable(answer.error));
-    else w.resolve({ bitmap: answer.bitmap, width: answer.width, height: answer.height, label: answer.label });
+    if ("error" in answer)
+      w.reject(answer.refused ? new FigureRefused(answer.error) : new DrawingUnavailable(answer.error));
+    else
+      w.resolve({ bitmap: answer.bitmap, width: answer.width, height: answer.height, label: answer.label });
   }
   if (waiting.size === 0) for (const fn of allDrawn.splice(0)) fn();
 }
@@ -85,7 +94,12 @@ function drawingWorker(): Worker | null {
     for (const key of early.sent) void expect(key).catch(() => undefined);
     for (const answer of early.answers) settle(answer);
   } else {
-    if (typeof Worker === "undefined" || typeof OffscreenCanvas === "undefined" || typeof FontFace === "undefined") return null;
+    if (
+      typeof Worker === "undefined" ||
+      typeof OffscreenCanvas === "undefined" ||
+      typeof FontFace === "undefined"
+    )
+      return null;
     try {
       worker = new Worker(workerUrl, { type: "module", name: "figures" });
     } catch {
@@ -128,7 +142,6 @@ export function showBitmap(container: HTMLElement, drawn: FigureBitmap): void {
   canvas.getContext("2d")?.drawImage(drawn.bitmap, 0, 0);
   container.replaceChildren(canvas);
 }
-
 
 // take over the worker the page's HTML started as soon as this module runs, so its pictures are not held in a queue
 if (typeof window !== "undefined" && window.plumblineFigures) drawingWorker();

@@ -25,7 +25,12 @@ declare global {
  */
 export function startWorker(url: string, figures: string[]): void {
   try {
-    if (typeof OffscreenCanvas === "undefined" || typeof FontFace === "undefined" || typeof Worker === "undefined") return;
+    if (
+      typeof OffscreenCanvas === "undefined" ||
+      typeof FontFace === "undefined" ||
+      typeof Worker === "undefined"
+    )
+      return;
     const worker = new Worker(url, { type: "module", name: "figures" });
     const early: EarlyFigures = { worker, sent: [], answers: [], failed: false };
     worker.onmessage = (e: MessageEvent<DrawAnswer>) => early.answers.push(e.data);
@@ -54,7 +59,13 @@ export function askForFrames(frameAttribute: string, targetAttribute: string): v
     const key = figure + " " + target.clientWidth + "x" + target.clientHeight + "@" + scale;
     if (early.sent.indexOf(key) >= 0) return;
     early.sent.push(key);
-    early.worker.postMessage({ key, url: figure, width: target.clientWidth, height: target.clientHeight, scale });
+    early.worker.postMessage({
+      key,
+      url: figure,
+      width: target.clientWidth,
+      height: target.clientHeight,
+      scale,
+    });
   });
 }
 
@@ -69,7 +80,11 @@ function InlineScript({ source }: { source: string }) {
  * ready about 0.5 s later than figures started from the HTML.
  */
 export function FigureWorkerStart({ figures }: { figures: string[] }) {
-  return <InlineScript source={`(${startWorker.toString()})(${JSON.stringify(workerUrl)}, ${JSON.stringify(figures)});`} />;
+  return (
+    <InlineScript
+      source={`(${startWorker.toString()})(${JSON.stringify(workerUrl)}, ${JSON.stringify(figures)});`}
+    />
+  );
 }
 
 const FRAMES_READY = `(${askForFrames.toString()})(${JSON.stringify(FRAME_URL_ATTRIBUTE)}, ${JSON.stringify(TARGET_ATTRIBUTE)});`;

@@ -20,7 +20,16 @@ import type { Spec } from "vega";
 import regular from "@fontsource/noto-sans/files/noto-sans-latin-400-normal.woff2?url";
 import semibold from "@fontsource/noto-sans/files/noto-sans-latin-600-normal.woff2?url";
 import bold from "@fontsource/noto-sans/files/noto-sans-latin-700-normal.woff2?url";
-import { figureLabel, keptAnswer, specForFrame, type DrawAnswer, type DrawRequest, type FigureAnswer, type FigureRefusal, type PrefetchRequest } from "./frame-spec";
+import {
+  figureLabel,
+  keptAnswer,
+  specForFrame,
+  type DrawAnswer,
+  type DrawRequest,
+  type FigureAnswer,
+  type FigureRefusal,
+  type PrefetchRequest,
+} from "./frame-spec";
 
 interface WorkerScope {
   document?: unknown;
@@ -34,7 +43,11 @@ scope.document ??= { createElement: (tag: string) => (tag === "canvas" ? new Off
 
 /** The faces the figures draw in (specs.ts: text 400, titles 600, Vega's axis titles bold). */
 async function loadFonts(): Promise<void> {
-  const faces = [new FontFace("Noto Sans", `url(${regular})`, { weight: "400" }), new FontFace("Noto Sans", `url(${semibold})`, { weight: "600" }), new FontFace("Noto Sans", `url(${bold})`, { weight: "700" })];
+  const faces = [
+    new FontFace("Noto Sans", `url(${regular})`, { weight: "400" }),
+    new FontFace("Noto Sans", `url(${semibold})`, { weight: "600" }),
+    new FontFace("Noto Sans", `url(${bold})`, { weight: "700" }),
+  ];
   await Promise.all(
     faces.map(async (face) => {
       scope.fonts?.add(await face.load());
@@ -50,7 +63,10 @@ const answers = new Map<string, Promise<FigureAnswer | FigureRefusal>>();
 /** The figure at a fixed size: the page's figures take the size of their frame (Vega's containerSize), which a worker has not got. */
 function sized(spec: Spec, width: number, height: number): Spec {
   const fixed: Record<string, number> = { width, height };
-  return { ...spec, signals: (spec.signals ?? []).map((s) => (s.name in fixed ? { name: s.name, value: fixed[s.name] } : s)) } as Spec;
+  return {
+    ...spec,
+    signals: (spec.signals ?? []).map((s) => (s.name in fixed ? { name: s.name, value: fixed[s.name] } : s)),
+  } as Spec;
 }
 
 async function draw(req: DrawRequest): Promise<void> {
@@ -58,11 +74,23 @@ async function draw(req: DrawRequest): Promise<void> {
   if (!("spec" in answer)) return scope.postMessage({ key: req.key, error: answer.message, refused: true });
   const spec = specForFrame(answer, req.width);
   const [vega, { expressionInterpreter }] = await library;
-  const view = new vega.View(vega.parse(sized(spec, req.width, req.height), undefined, { ast: true }), { renderer: "none", expr: expressionInterpreter as never });
+  const view = new vega.View(vega.parse(sized(spec, req.width, req.height), undefined, { ast: true }), {
+    renderer: "none",
+    expr: expressionInterpreter as never,
+  });
   try {
     const canvas = (await view.toCanvas(req.scale)) as unknown as OffscreenCanvas;
     const bitmap = canvas.transferToImageBitmap();
-    scope.postMessage({ key: req.key, bitmap, width: bitmap.width / req.scale, height: bitmap.height / req.scale, label: figureLabel(spec) }, [bitmap]);
+    scope.postMessage(
+      {
+        key: req.key,
+        bitmap,
+        width: bitmap.width / req.scale,
+        height: bitmap.height / req.scale,
+        label: figureLabel(spec),
+      },
+      [bitmap],
+    );
   } finally {
     view.finalize();
   }
@@ -75,5 +103,9 @@ let turn: Promise<unknown> = Promise.resolve();
 scope.onmessage = ({ data }) => {
   if ("prefetch" in data) return void keptAnswer(answers, data.prefetch);
   void keptAnswer(answers, data.url);
-  turn = turn.then(() => draw(data).catch((e: unknown) => scope.postMessage({ key: data.key, error: e instanceof Error ? e.message : String(e), refused: false })));
+  turn = turn.then(() =>
+    draw(data).catch((e: unknown) =>
+      scope.postMessage({ key: data.key, error: e instanceof Error ? e.message : String(e), refused: false }),
+    ),
+  );
 };

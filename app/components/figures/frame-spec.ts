@@ -16,7 +16,10 @@ export type FigureRefusal = { caution: string; message: string };
  * or a failed request is not kept, so the next ask (after the reader fixes the cause) tries again.
  * Never rejects; a failure is a refusal in words.
  */
-export function keptAnswer(kept: Map<string, Promise<FigureAnswer | FigureRefusal>>, url: string): Promise<FigureAnswer | FigureRefusal> {
+export function keptAnswer(
+  kept: Map<string, Promise<FigureAnswer | FigureRefusal>>,
+  url: string,
+): Promise<FigureAnswer | FigureRefusal> {
   let pending = kept.get(url);
   if (!pending) {
     pending = fetch(url)
@@ -24,11 +27,20 @@ export function keptAnswer(kept: Map<string, Promise<FigureAnswer | FigureRefusa
         const body = (await res.json().catch(() => null)) as FigureAnswer | FigureRefusal | null;
         if (res.ok && body && "spec" in body) return body;
         kept.delete(url);
-        return { caution: body?.caution ?? "", message: body && "message" in body ? body.message : `The figure could not be loaded (HTTP ${res.status}). Reload the page to try again.` };
+        return {
+          caution: body?.caution ?? "",
+          message:
+            body && "message" in body
+              ? body.message
+              : `The figure could not be loaded (HTTP ${res.status}). Reload the page to try again.`,
+        };
       })
       .catch(() => {
         kept.delete(url);
-        return { caution: "", message: "The figure could not be loaded. Check the connection and reload the page." };
+        return {
+          caution: "",
+          message: "The figure could not be loaded. Check the connection and reload the page.",
+        };
       });
     kept.set(url, pending);
   }
@@ -37,7 +49,10 @@ export function keptAnswer(kept: Map<string, Promise<FigureAnswer | FigureRefusa
 
 /** Replaces the values of the named dataset of a compiled specification (the rows travel apart from the spec). */
 export function withDataset(spec: Spec, name: string, values: readonly object[]): Spec {
-  return { ...spec, data: (spec.data ?? []).map((d) => (d.name === name ? { ...d, values: values as object[] } : d)) } as Spec;
+  return {
+    ...spec,
+    data: (spec.data ?? []).map((d) => (d.name === name ? { ...d, values: values as object[] } : d)),
+  } as Spec;
 }
 
 /** The specification to draw in a frame `width` px wide: the subtitle wrapped again for it, the rows in place. */

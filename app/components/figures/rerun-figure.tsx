@@ -38,7 +38,17 @@ function replayPointer(container: HTMLElement, at: { x: number; y: number } | nu
  * frame carries the figure's title and healthy-picture sentence as its accessible name; the
  * check card beside it states the numbers in words.
  */
-export function RerunFigure({ studyId, rerunId, figure, term }: { studyId: string; rerunId: string; figure: FigureKey; term?: string }) {
+export function RerunFigure({
+  studyId,
+  rerunId,
+  figure,
+  term,
+}: {
+  studyId: string;
+  rerunId: string;
+  figure: FigureKey;
+  term?: string;
+}) {
   const url = figureUrl(studyId, rerunId, figure, term);
   const target = useRef<HTMLDivElement>(null);
   const pointer = useRef<{ x: number; y: number } | null>(null);
@@ -50,7 +60,12 @@ export function RerunFigure({ studyId, rerunId, figure, term }: { studyId: strin
   useEffect(() => {
     const el = target.current;
     if (!el) return;
-    const measure = () => setSize((s) => (s && s.width === el.clientWidth && s.height === el.clientHeight ? s : { width: el.clientWidth, height: el.clientHeight }));
+    const measure = () =>
+      setSize((s) =>
+        s && s.width === el.clientWidth && s.height === el.clientHeight
+          ? s
+          : { width: el.clientWidth, height: el.clientHeight },
+      );
     measure();
     if (typeof ResizeObserver === "undefined") return;
     let timer: ReturnType<typeof setTimeout> | undefined;
@@ -111,7 +126,14 @@ export function RerunFigure({ studyId, rerunId, figure, term }: { studyId: strin
       setState({ kind: "ready", label: figureLabel(spec) });
       replayPointer(host, pointer.current);
     })().catch((e: unknown) => {
-      if (!cancelled) setState({ kind: "error", message: e instanceof Error ? `The figure could not be drawn: ${e.message}` : "The figure could not be drawn." });
+      if (!cancelled)
+        setState({
+          kind: "error",
+          message:
+            e instanceof Error
+              ? `The figure could not be drawn: ${e.message}`
+              : "The figure could not be drawn.",
+        });
     });
     return () => {
       cancelled = true;
@@ -136,7 +158,11 @@ export function RerunFigure({ studyId, rerunId, figure, term }: { studyId: strin
       onPointerEnter={pointerCame}
       onPointerMove={pointerCame}
     >
-      <div className="h-full w-full" role="img" aria-label={state.kind === "ready" ? state.label : "Diagnostic figure, loading"}>
+      <div
+        className="h-full w-full"
+        role="img"
+        aria-label={state.kind === "ready" ? state.label : "Diagnostic figure, loading"}
+      >
         <div ref={target} className="relative h-full w-full" {...{ [TARGET_ATTRIBUTE]: "" }} />
       </div>
       {state.kind === "loading" ? (
@@ -145,7 +171,10 @@ export function RerunFigure({ studyId, rerunId, figure, term }: { studyId: strin
         </p>
       ) : null}
       {state.kind === "error" ? (
-        <p className="absolute inset-0 flex items-center justify-center px-6 text-center text-sm text-ink-soft" role="alert">
+        <p
+          className="absolute inset-0 flex items-center justify-center px-6 text-center text-sm text-ink-soft"
+          role="alert"
+        >
           {state.message}
         </p>
       ) : null}

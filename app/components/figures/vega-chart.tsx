@@ -9,7 +9,17 @@ export type VegaSpecJson = object;
  * A chart drawn in the browser only, from a specification compiled to Vega on the server
  * (draw-chart.ts). The frame keeps its height while the chart loads.
  */
-export function VegaChart({ spec, height, renderer = "svg", label }: { spec: VegaSpecJson; height: number; renderer?: "svg" | "canvas"; label: string }) {
+export function VegaChart({
+  spec,
+  height,
+  renderer = "svg",
+  label,
+}: {
+  spec: VegaSpecJson;
+  height: number;
+  renderer?: "svg" | "canvas";
+  label: string;
+}) {
   const target = useRef<HTMLDivElement>(null);
   const [failed, setFailed] = useState<string | null>(null);
   useEffect(() => {
@@ -32,7 +42,11 @@ export function VegaChart({ spec, height, renderer = "svg", label }: { spec: Veg
   return (
     <div className="relative w-full" style={{ minHeight: height }} role="img" aria-label={label}>
       <div ref={target} className="w-full" />
-      {failed ? <p className="text-sm text-ink-soft">The chart could not be drawn ({failed}); the table beside it has the same numbers.</p> : null}
+      {failed ? (
+        <p className="text-sm text-ink-soft">
+          The chart could not be drawn ({failed}); the table beside it has the same numbers.
+        </p>
+      ) : null}
     </div>
   );
 }

@@ -9,7 +9,8 @@ import type { WhatIfCandidate, WhatIfInputs } from "./what-if-inputs";
 export type { WhatIfCandidate, WhatIfContrast, WhatIfInputs } from "./what-if-inputs";
 
 const num = (v: number, digits = 2) => (Number.isFinite(v) ? v.toFixed(digits) : "—");
-const signed = (v: number, digits = 2) => (Number.isFinite(v) ? `${v > 0 ? "+" : v < 0 ? "−" : "±"}${Math.abs(v).toFixed(digits)}` : "—");
+const signed = (v: number, digits = 2) =>
+  Number.isFinite(v) ? `${v > 0 ? "+" : v < 0 ? "−" : "±"}${Math.abs(v).toFixed(digits)}` : "—";
 
 function who(c: WhatIfCandidate): string {
   return c.subject ?? `Subject ranked ${c.rank}`;
@@ -34,7 +35,11 @@ export function WhatIfPanel({ inputs }: { inputs: WhatIfInputs }) {
       n: inputs.full.n,
       chosen,
       after,
-      rows: inputs.contrasts.map((c) => ({ label: c.label, before: contrastOf(full, c.l), after: after.ok ? contrastOf(after, c.l) : null })),
+      rows: inputs.contrasts.map((c) => ({
+        label: c.label,
+        before: contrastOf(full, c.l),
+        after: after.ok ? contrastOf(after, c.l) : null,
+      })),
     };
   }, [inputs, selected]);
 
@@ -57,18 +62,27 @@ export function WhatIfPanel({ inputs }: { inputs: WhatIfInputs }) {
   const rowsField = [...selected].sort((a, b) => a - b).join(",");
   // planned exclusion leaves out exactly the subjects the Cook's distance check flagged
   const planned = inputs.prespecifiedRows;
-  const isPlanned = inputs.prespecifiedExclusion && planned.length > 0 && planned.length === selected.size && planned.every((r) => selected.has(r));
-  const plannedSelectable = planned.length > 0 && planned.every((r) => inputs.candidates.some((c) => c.row === r));
+  const isPlanned =
+    inputs.prespecifiedExclusion &&
+    planned.length > 0 &&
+    planned.length === selected.size &&
+    planned.every((r) => selected.has(r));
+  const plannedSelectable =
+    planned.length > 0 && planned.every((r) => inputs.candidates.some((c) => c.row === r));
 
   return (
     <section className="panel p-4" aria-label="What-if for influential subjects">
       <div className="flex flex-wrap items-baseline justify-between gap-2">
         <h3 className="text-base font-semibold">What-if for influential subjects</h3>
-        <p className="text-xs text-ink-soft">Exact closed-form case deletion (Cook and Weisberg 1982, section 3.6); no refit, nothing saved.</p>
+        <p className="text-xs text-ink-soft">
+          Exact closed-form case deletion (Cook and Weisberg 1982, section 3.6); no refit, nothing saved.
+        </p>
       </div>
       <p className="mt-1 text-sm text-ink-soft">
         Tick subjects flagged by the influence checks to see the treatment contrast without them.
-        {inputs.flaggedCount > inputs.candidates.length ? ` The ${inputs.candidates.length} with the largest Cook's distance of ${inputs.flaggedCount} flagged are listed.` : ""}
+        {inputs.flaggedCount > inputs.candidates.length
+          ? ` The ${inputs.candidates.length} with the largest Cook's distance of ${inputs.flaggedCount} flagged are listed.`
+          : ""}
       </p>
 
       <div className="mt-3 grid gap-4 xl:grid-cols-[minmax(0,5fr)_minmax(0,6fr)]">
@@ -98,7 +112,13 @@ export function WhatIfPanel({ inputs }: { inputs: WhatIfInputs }) {
                 return (
                   <tr key={c.row} className={selected.has(c.row) ? "bg-paper" : ""}>
                     <td>
-                      <input id={id} type="checkbox" checked={selected.has(c.row)} onChange={() => toggle(c.row)} className="accent-accent" />
+                      <input
+                        id={id}
+                        type="checkbox"
+                        checked={selected.has(c.row)}
+                        onChange={() => toggle(c.row)}
+                        className="accent-accent"
+                      />
                     </td>
                     <td>
                       <label htmlFor={id} className="cursor-pointer">
@@ -140,7 +160,12 @@ export function WhatIfPanel({ inputs }: { inputs: WhatIfInputs }) {
             </thead>
             <tbody>
               {computed?.rows.map((r) => (
-                <ContrastRows key={r.label} label={r.label} before={r.before} after={selected.size > 0 ? r.after : r.before} />
+                <ContrastRows
+                  key={r.label}
+                  label={r.label}
+                  before={r.before}
+                  after={selected.size > 0 ? r.after : r.before}
+                />
               ))}
             </tbody>
           </table>
@@ -162,7 +187,9 @@ export function WhatIfPanel({ inputs }: { inputs: WhatIfInputs }) {
               {isPlanned ? (
                 <span className="inline-flex items-center gap-1.5 text-xs">
                   <StatusLabel status="within" word="Pre-specified" />
-                  <span className="text-ink-soft">these are the subjects the plan's exclusion of influential subjects names.</span>
+                  <span className="text-ink-soft">
+                    these are the subjects the plan's exclusion of influential subjects names.
+                  </span>
                 </span>
               ) : (
                 <span className="inline-flex items-center gap-1.5 text-xs">
@@ -188,7 +215,15 @@ export function WhatIfPanel({ inputs }: { inputs: WhatIfInputs }) {
   );
 }
 
-function ContrastRows({ label, before, after }: { label: string; before: ContrastEstimate; after: ContrastEstimate | null }) {
+function ContrastRows({
+  label,
+  before,
+  after,
+}: {
+  label: string;
+  before: ContrastEstimate;
+  after: ContrastEstimate | null;
+}) {
   const cell = (e: ContrastEstimate | null) =>
     e ? (
       <>
@@ -203,7 +238,11 @@ function ContrastRows({ label, before, after }: { label: string; before: Contras
   return (
     <>
       <tr>
-        <th scope="row" rowSpan={3} className="align-top text-left text-sm font-medium normal-case tracking-normal text-ink">
+        <th
+          scope="row"
+          rowSpan={3}
+          className="align-top text-left text-sm font-medium normal-case tracking-normal text-ink"
+        >
           {label}
         </th>
         <td className="num text-right">{cell(before)}</td>

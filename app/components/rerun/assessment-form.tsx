@@ -3,7 +3,17 @@ import { ACTIONS, CATEGORIES, IMPACTS } from "~/shared/assessment-terms";
 import { FieldError } from "../page";
 
 /** The form that assesses a finding (`findingId`) or records a deviation no check produced. */
-export function AssessmentForm({ intent, findingId, errors, busy }: { intent: "assess" | "deviation"; findingId?: string; errors: Record<string, string>; busy: boolean }) {
+export function AssessmentForm({
+  intent,
+  findingId,
+  errors,
+  busy,
+}: {
+  intent: "assess" | "deviation";
+  findingId?: string;
+  errors: Record<string, string>;
+  busy: boolean;
+}) {
   const id = findingId ?? "deviation";
   return (
     <Form method="post" className="grid gap-2 md:grid-cols-3" preventScrollReset>
@@ -20,7 +30,13 @@ export function AssessmentForm({ intent, findingId, errors, busy }: { intent: "a
           <label htmlFor={`${id}-${name}`} className="label">
             {label}
           </label>
-          <select id={`${id}-${name}`} name={name} className="field" defaultValue="" aria-invalid={errors[name] ? true : undefined}>
+          <select
+            id={`${id}-${name}`}
+            name={name}
+            className="field"
+            defaultValue=""
+            aria-invalid={errors[name] ? true : undefined}
+          >
             <option value="" disabled>
               Choose…
             </option>
@@ -37,7 +53,13 @@ export function AssessmentForm({ intent, findingId, errors, busy }: { intent: "a
         <label htmlFor={`${id}-rationale`} className="label">
           Rationale
         </label>
-        <textarea id={`${id}-rationale`} name="rationale" rows={2} className="field" aria-invalid={errors.rationale ? true : undefined} />
+        <textarea
+          id={`${id}-rationale`}
+          name="rationale"
+          rows={2}
+          className="field"
+          aria-invalid={errors.rationale ? true : undefined}
+        />
         <FieldError id={`${id}-rationale-error`} message={errors.rationale} />
       </div>
       <div>

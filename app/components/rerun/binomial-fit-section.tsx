@@ -3,7 +3,15 @@ import { CalibrationTable } from "../rerun-results";
 import type { ModelResultsView } from "./results-view";
 
 /** A binomial GLM's fit: binned residuals, calibration and the Hosmer–Lemeshow groups; nothing for other models. */
-export function BinomialFitSection({ view, studyId, rerunId }: { view: ModelResultsView; studyId: string; rerunId: string }) {
+export function BinomialFitSection({
+  view,
+  studyId,
+  rerunId,
+}: {
+  view: ModelResultsView;
+  studyId: string;
+  rerunId: string;
+}) {
   if (view.kind !== "glm" || view.family !== "binomial") return null;
   return (
     <section className="panel p-4" aria-labelledby="binomial-fit-h">
@@ -11,8 +19,9 @@ export function BinomialFitSection({ view, studyId, rerunId }: { view: ModelResu
         Fit of the binomial model
       </h2>
       <p className="mb-2 text-xs text-ink-soft">
-        Whether the predicted probabilities match what happened: the mean residual of subjects with similar fitted probabilities, and the observed against the predicted
-        proportion in ten groups of equal size by predicted risk (the Hosmer–Lemeshow groups).
+        Whether the predicted probabilities match what happened: the mean residual of subjects with similar
+        fitted probabilities, and the observed against the predicted proportion in ten groups of equal size by
+        predicted risk (the Hosmer–Lemeshow groups).
       </p>
       <div className="grid gap-4 lg:grid-cols-2">
         <RerunFigure studyId={studyId} rerunId={rerunId} figure="binned_residuals" />

@@ -8,7 +8,12 @@ export function CoefficientsSection({ view }: { view: ModelResultsView }) {
       <h2 id="coef-h" className="mb-2">
         Coefficients
       </h2>
-      <CoefficientTable rows={view.coefficients} covarianceType={view.covarianceType} df={view.dfResidual} statisticName={view.statisticName} />
+      <CoefficientTable
+        rows={view.coefficients}
+        covarianceType={view.covarianceType}
+        df={view.dfResidual}
+        statisticName={view.statisticName}
+      />
       {view.kind === "glm" && view.ratios && view.ratioName ? (
         <div className="mt-4">
           <RatioTable rows={view.ratios} ratioName={view.ratioName} />

@@ -9,7 +9,15 @@ import { RowsAndFit } from "./rows-and-fit";
 import { TreatmentEffectSection } from "./treatment-effect-section";
 
 /** A completed rerun's results: a Cox model's, or a linear model's or GLM's sections in page order. */
-export function ModelResults({ view, studyId, rerunId }: { view: ModelResultsView | CoxView; studyId: string; rerunId: string }) {
+export function ModelResults({
+  view,
+  studyId,
+  rerunId,
+}: {
+  view: ModelResultsView | CoxView;
+  studyId: string;
+  rerunId: string;
+}) {
   if (view.kind === "cox") {
     return (
       <div className="space-y-6">

@@ -14,7 +14,12 @@ export function Provenance({
   busy,
 }: {
   studyId: string;
-  rerun: { datasetSha256: string; engineVersion: string | null; createdAt: string; resultSha256: string | null };
+  rerun: {
+    datasetSha256: string;
+    engineVersion: string | null;
+    createdAt: string;
+    resultSha256: string | null;
+  };
   dataset: { name: string; version: number };
   planVersion: { id: string; title: string; version: number };
   startedBy: string | null;
@@ -26,7 +31,8 @@ export function Provenance({
     <section className="panel mb-6 grid gap-x-6 gap-y-1 p-4 text-sm md:grid-cols-2" aria-label="Provenance">
       <p>
         <span className="font-semibold text-ink-soft">Dataset </span>
-        {dataset.name} v{dataset.version} · SHA-256 <span className="font-mono text-xs break-all">{rerun.datasetSha256}</span>
+        {dataset.name} v{dataset.version} · SHA-256{" "}
+        <span className="font-mono text-xs break-all">{rerun.datasetSha256}</span>
       </p>
       <p>
         <span className="font-semibold text-ink-soft">Plan </span>
@@ -47,7 +53,10 @@ export function Provenance({
         <p className="md:col-span-2">
           {twins.map((tw) => (
             <span key={tw.id} className="mr-3 inline-flex items-center gap-1">
-              <StatusLabel status={tw.same ? "within" : "finding"} word={tw.same ? "Same result hash" : "Different result hash"} />
+              <StatusLabel
+                status={tw.same ? "within" : "finding"}
+                word={tw.same ? "Same result hash" : "Different result hash"}
+              />
               <Link to={`/studies/${studyId}/reruns/${tw.id}`} className="text-xs">
                 rerun of {utc(tw.at)}
               </Link>

@@ -7,11 +7,25 @@ import type { FigureKey } from "~/engine/checks";
 import type { FitStatisticRow } from "../fit-statistics";
 import type { PopulationStepView } from "../population-note";
 import type { ReproductionCardData } from "../reproduction-results";
-import type { AdjustedMeansTable, CalibrationTable, CheckCardData, CoefficientTable, ContrastsTable, MarginalMeansTable, RatioTable } from "../rerun-results";
+import type {
+  AdjustedMeansTable,
+  CalibrationTable,
+  CheckCardData,
+  CoefficientTable,
+  ContrastsTable,
+  MarginalMeansTable,
+  RatioTable,
+} from "../rerun-results";
 import type { TreatmentEffectPlan } from "../treatment-effect";
 
 interface CommonView {
-  rows: { inFile: number; outsidePopulation: number; excludedByOption: number; missingCells: number; used: number };
+  rows: {
+    inFile: number;
+    outsidePopulation: number;
+    excludedByOption: number;
+    missingCells: number;
+    used: number;
+  };
   population: readonly PopulationStepView[];
   rank: number;
   fitStatistics: FitStatisticRow[];

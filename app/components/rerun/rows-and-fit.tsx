@@ -12,7 +12,8 @@ export function RowsAndFit({ view }: { view: ModelResultsView }) {
       <p className="num text-sm">
         {view.rows.inFile} rows in the file · {view.rows.outsidePopulation} outside the population
         {populationNote(view.population)} · {view.rows.excludedByOption} excluded by this analysis ·{" "}
-        {view.rows.missingCells} left out for missing cells · <span className="font-semibold">{view.rows.used} used</span> · {view.rank} coefficients estimated
+        {view.rows.missingCells} left out for missing cells ·{" "}
+        <span className="font-semibold">{view.rows.used} used</span> · {view.rank} coefficients estimated
       </p>
       <div className="mt-3 overflow-x-auto">
         <FitStatisticsTable rows={view.fitStatistics} />

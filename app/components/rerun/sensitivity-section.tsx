@@ -43,13 +43,17 @@ export function SensitivitySection({
       <h2 id="sens-h">Sensitivity analyses</h2>
       <div className="panel p-4">
         {planned.length > 0 ? (
-          <p className="mb-2 text-xs text-ink-soft">The plan's sensitivity analyses run by themselves once the primary analysis has completed, each as a rerun of its own.</p>
+          <p className="mb-2 text-xs text-ink-soft">
+            The plan's sensitivity analyses run by themselves once the primary analysis has completed, each as
+            a rerun of its own.
+          </p>
         ) : null}
         <ul className="space-y-2 text-sm" aria-live="polite">
           {planned.map((s) => (
             <li key={s.kind} className="flex flex-wrap items-center justify-between gap-2">
               <span>
-                {s.childId ? <Link to={`/studies/${studyId}/reruns/${s.childId}`}>{s.label}</Link> : s.label} <span className="text-xs text-ink-soft">(planned)</span>
+                {s.childId ? <Link to={`/studies/${studyId}/reruns/${s.childId}`}>{s.label}</Link> : s.label}{" "}
+                <span className="text-xs text-ink-soft">(planned)</span>
                 {s.note ? <span className="block text-xs text-ink-soft">{s.note}</span> : null}
               </span>
               {s.status && !(s.status === "failed" && canStart && s.runnable) ? (
@@ -67,7 +71,9 @@ export function SensitivitySection({
               ) : null}
             </li>
           ))}
-          {planned.length === 0 ? <li className="text-ink-soft">The plan names no sensitivity analysis for this model.</li> : null}
+          {planned.length === 0 ? (
+            <li className="text-ink-soft">The plan names no sensitivity analysis for this model.</li>
+          ) : null}
         </ul>
       </div>
       {comparison.length > 1 ? (

@@ -25,11 +25,14 @@ export function SignOff({
       <h2 id="sign-h" className="mb-2">
         Sign-off
       </h2>
-      {signatures.length === 0 && !verdict?.ok && !verdict?.reauthenticate ? <ReauthNotice notice={signing.notice} /> : null}
+      {signatures.length === 0 && !verdict?.ok && !verdict?.reauthenticate ? (
+        <ReauthNotice notice={signing.notice} />
+      ) : null}
       {signatures.length > 0 ? (
         signatures.map((s) => (
           <p key={s.at} className="text-sm">
-            <StatusLabel status="within" word="Signed" /> {s.name} · “{s.meaning}” · {utc(s.at)}. Published to the study's sponsor readers.
+            <StatusLabel status="within" word="Signed" /> {s.name} · “{s.meaning}” · {utc(s.at)}. Published to
+            the study's sponsor readers.
           </p>
         ))
       ) : verdict ? (
@@ -38,7 +41,9 @@ export function SignOff({
             <input type="hidden" name="intent" value="sign" />
             <ReauthNotice notice={signing.notice} />
             <SigningExplainer act="Signing" meaning={signing.meaning} fresh={verdict.ok} />
-            <p className="text-sm">Signing makes this rerun unchangeable and publishes it to the sponsor readers.</p>
+            <p className="text-sm">
+              Signing makes this rerun unchangeable and publishes it to the sponsor readers.
+            </p>
             <button type="submit" className="btn" disabled={busy}>
               Sign this rerun
             </button>
@@ -47,7 +52,9 @@ export function SignOff({
           <p className="text-sm">{verdict.reason}</p>
         )
       ) : (
-        <p className="text-sm text-ink-soft">{open > 0 ? `${open} findings await assessment.` : "Awaiting a biostatistician's signature."}</p>
+        <p className="text-sm text-ink-soft">
+          {open > 0 ? `${open} findings await assessment.` : "Awaiting a biostatistician's signature."}
+        </p>
       )}
     </section>
   );

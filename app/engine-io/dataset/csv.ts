@@ -9,7 +9,14 @@ import { parse as csvParser } from "csv-parse";
 import { isMissingCell, parseNumber } from "../../engine/data";
 import { DEFAULT_LIMITS, type ReadLimits } from "./limits";
 import { count, Problems } from "./problems";
-import { checkCell, checkNames, trimName, type ReadColumn, type ReadOptions, type ReadOutcome } from "./table";
+import {
+  checkCell,
+  checkNames,
+  trimName,
+  type ReadColumn,
+  type ReadOptions,
+  type ReadOutcome,
+} from "./table";
 import { decimalCommaCells, inferValueType, mostlyNumbersWarning } from "./typing";
 
 /** Which of comma, semicolon and tab separates the header line's fields (outside quotes). */
@@ -42,7 +49,8 @@ export function locateBadUtf8(bytes: Buffer, startLine: number): { line: number;
   let i = 0;
   while (i < bytes.length) {
     const b = bytes[i];
-    const len = b < 0x80 ? 1 : b >= 0xc2 && b < 0xe0 ? 2 : b >= 0xe0 && b < 0xf0 ? 3 : b >= 0xf0 && b < 0xf5 ? 4 : 0;
+    const len =
+      b < 0x80 ? 1 : b >= 0xc2 && b < 0xe0 ? 2 : b >= 0xe0 && b < 0xf0 ? 3 : b >= 0xf0 && b < 0xf5 ? 4 : 0;
     if (len === 0 || i + len > bytes.length) return { line, offset: i };
     try {
       new TextDecoder("utf-8", { fatal: true }).decode(bytes.subarray(i, i + len));
@@ -56,7 +64,12 @@ export function locateBadUtf8(bytes: Buffer, startLine: number): { line: number;
 }
 
 /** Reads and checks CSV bytes as they arrive from `source` (totalBytes only drives progress). */
-export async function readCsv(source: AsyncIterable<Buffer>, totalBytes: number, fileName: string, options: ReadOptions = {}): Promise<ReadOutcome> {
+export async function readCsv(
+  source: AsyncIterable<Buffer>,
+  totalBytes: number,
+  fileName: string,
+  options: ReadOptions = {},
+): Promise<ReadOutcome> {
   const limits: ReadLimits = { ...DEFAULT_LIMITS, ...options.limits };
   const problems = new Problems();
   let names: string[] | null = null;
@@ -78,12 +91,15 @@ export async function readCsv(source: AsyncIterable<Buffer>, totalBytes: number,
     }
     const row = rowNumbers.length + 1;
     if (record.length !== names.length) {
-      problems.add(`${fileName}: row ${row} has ${record.length} field${record.length === 1 ? "" : "s"} where the header has ${names.length} columns. Check its quotes and separators.`);
+      problems.add(
+        `${fileName}: row ${row} has ${record.length} field${record.length === 1 ? "" : "s"} where the header has ${names.length} columns. Check its quotes and separators.`,
+      );
     }
     rowNumbers.push(row);
     for (let j = 0; j < names.length; j++) {
       const cell = record[j] ?? "";
-      if (cell.length > limits.maxCellChars || cell.includes("\u0000")) checkCell(fileName, names[j] || `#${j + 1}`, row, cell, limits, problems);
+      if (cell.length > limits.maxCellChars || cell.includes("\u0000"))
+        checkCell(fileName, names[j] || `#${j + 1}`, row, cell, limits, problems);
       cells[j].push(cell);
     }
   };
@@ -92,7 +108,9 @@ export async function readCsv(source: AsyncIterable<Buffer>, totalBytes: number,
     delimiter = detectDelimiter(headerLine);
     const fields = fieldsIn(headerLine, delimiter);
     if (fields > limits.maxColumns) {
-      problems.add(`${fileName} has ${fields.toLocaleString("en-US")} columns; the limit is ${limits.maxColumns.toLocaleString("en-US")}. Upload only the columns the analysis needs, or ask an administrator to raise DATASET_MAX_COLUMNS.`);
+      problems.add(
+        `${fileName} has ${fields.toLocaleString("en-US")} columns; the limit is ${limits.maxColumns.toLocaleString("en-US")}. Upload only the columns the analysis needs, or ask an administrator to raise DATASET_MAX_COLUMNS.`,
+      );
       return false;
     }
     const p = csvParser({ delimiter, relax_column_count: true, skip_empty_lines: true, bom: true });
@@ -147,7 +165,9 @@ export async function readCsv(source: AsyncIterable<Buffer>, totalBytes: number,
       chunk = chunk.subarray(0, cut);
       if (!isUtf8(chunk)) {
         const where = locateBadUtf8(chunk, linesSeen);
-        problems.add(`${fileName}: line ${where.line} (byte ${read + where.offset + 1}) is not valid UTF-8. Save the file as UTF-8 and upload it again.`);
+        problems.add(
+          `${fileName}: line ${where.line} (byte ${read + where.offset + 1}) is not valid UTF-8. Save the file as UTF-8 and upload it again.`,
+        );
         stop = true;
         break;
       }
@@ -161,7 +181,9 @@ export async function readCsv(source: AsyncIterable<Buffer>, totalBytes: number,
         const first = Buffer.concat(head);
         const end = first.indexOf(10);
         if (end === -1 || end > limits.maxHeaderBytes) {
-          problems.add(`${fileName}: the header line is longer than ${limits.maxHeaderBytes.toLocaleString("en-US")} bytes, the limit. Upload only the columns the analysis needs, or ask an administrator to raise DATASET_MAX_HEADER_BYTES.`);
+          problems.add(
+            `${fileName}: the header line is longer than ${limits.maxHeaderBytes.toLocaleString("en-US")} bytes, the limit. Upload only the columns the analysis needs, or ask an administrator to raise DATASET_MAX_HEADER_BYTES.`,
+          );
           stop = true;
           break;
         }
@@ -181,7 +203,9 @@ export async function readCsv(source: AsyncIterable<Buffer>, totalBytes: number,
   }
   if (!stop && !parseError) {
     if (carry.length > 0) {
-      problems.add(`${fileName}: the file ends inside a UTF-8 character (line ${linesSeen}). Save the file as UTF-8 and upload it again.`);
+      problems.add(
+        `${fileName}: the file ends inside a UTF-8 character (line ${linesSeen}). Save the file as UTF-8 and upload it again.`,
+      );
       stop = true;
     } else {
       if (!parser && head.length > 0) {
@@ -204,12 +228,20 @@ export async function readCsv(source: AsyncIterable<Buffer>, totalBytes: number,
   if (parseError) problems.add(parseError);
   if (stop || problems.any) return { ok: false, problems: problems.result() };
   const header = names as string[] | null;
-  if (!header) return { ok: false, problems: [`The file ${fileName} is empty: it has no header row and no data rows.`] };
-  if (rowNumbers.length === 0) return { ok: false, problems: [`${fileName} has a header row but no data rows. Upload the file with its data.`] };
+  if (!header)
+    return { ok: false, problems: [`The file ${fileName} is empty: it has no header row and no data rows.`] };
+  if (rowNumbers.length === 0)
+    return {
+      ok: false,
+      problems: [`${fileName} has a header row but no data rows. Upload the file with its data.`],
+    };
 
   const numeric = new Set(options.numericColumns ?? []);
   for (const declared of numeric) {
-    if (!header.includes(declared)) problems.add(`${fileName}: the column "${declared}" declared numeric is not in the file. Its columns are: ${header.join(", ")}.`);
+    if (!header.includes(declared))
+      problems.add(
+        `${fileName}: the column "${declared}" declared numeric is not in the file. Its columns are: ${header.join(", ")}.`,
+      );
   }
   const columns: ReadColumn[] = header.map((name, j) => {
     const column: ReadColumn = { name, label: null, valueType: "text" };
@@ -223,13 +255,18 @@ export async function readCsv(source: AsyncIterable<Buffer>, totalBytes: number,
     if (numeric.has(name)) {
       column.declaredType = "number";
       const bad: number[] = [];
-      for (let i = 0; i < cells[j].length; i++) if (!isMissingCell(cells[j][i]) && parseNumber(cells[j][i]) === null) bad.push(i);
+      for (let i = 0; i < cells[j].length; i++)
+        if (!isMissingCell(cells[j][i]) && parseNumber(cells[j][i]) === null) bad.push(i);
       if (bad.length > 0) {
         if (bad.length === 1) {
-          problems.add(`${fileName}: column "${name}", row ${rowNumbers[bad[0]]}: "${cells[j][bad[0]].slice(0, 40)}" is text, but the column is declared numeric. Correct the value or leave the cell empty for missing.`);
+          problems.add(
+            `${fileName}: column "${name}", row ${rowNumbers[bad[0]]}: "${cells[j][bad[0]].slice(0, 40)}" is text, but the column is declared numeric. Correct the value or leave the cell empty for missing.`,
+          );
         } else {
           const first = bad.slice(0, 3).map((i) => `row ${rowNumbers[i]} "${cells[j][i].slice(0, 40)}"`);
-          problems.add(`${fileName}: ${count(bad.length, "cell")} in column "${name}", declared numeric, hold text; first: ${first.join(", ")}${bad.length > 3 ? ", …" : ""}. Correct them or leave the cells empty for missing.`);
+          problems.add(
+            `${fileName}: ${count(bad.length, "cell")} in column "${name}", declared numeric, hold text; first: ${first.join(", ")}${bad.length > 3 ? ", …" : ""}. Correct them or leave the cells empty for missing.`,
+          );
         }
       }
       const t = inferValueType(cells[j]);
@@ -244,5 +281,17 @@ export async function readCsv(source: AsyncIterable<Buffer>, totalBytes: number,
     return column;
   });
   if (problems.any) return { ok: false, problems: problems.result() };
-  return { ok: true, table: { format: "csv", datasetName: null, datasetLabel: null, names: header, cells, rowNumbers, columns, declaredKey: null } };
+  return {
+    ok: true,
+    table: {
+      format: "csv",
+      datasetName: null,
+      datasetLabel: null,
+      names: header,
+      cells,
+      rowNumbers,
+      columns,
+      declaredKey: null,
+    },
+  };
 }

@@ -10,15 +10,28 @@ import { readDatasetJsonText } from "./dataset-json";
 import type { DatasetFormat, ReadOptions, ReadOutcome } from "./table";
 import { readXport } from "./xport";
 
-export type { DatasetFormat, ReadOptions, ReadOutcome, ReadTable, ReadColumn, ColumnReadMeta, ValueType, DatePrecision } from "./table";
+export type {
+  DatasetFormat,
+  ReadOptions,
+  ReadOutcome,
+  ReadTable,
+  ReadColumn,
+  ColumnReadMeta,
+  ValueType,
+  DatePrecision,
+} from "./table";
 
 const XPORT_START = "HEADER RECORD*******";
 
 /** The format of a file, from its name and first bytes. */
 export function formatOf(fileName: string, firstBytes: Buffer): DatasetFormat {
-  if (/\.xpt$/i.test(fileName) || firstBytes.toString("latin1", 0, XPORT_START.length) === XPORT_START) return "xpt";
+  if (/\.xpt$/i.test(fileName) || firstBytes.toString("latin1", 0, XPORT_START.length) === XPORT_START)
+    return "xpt";
   if (/\.(json|ndjson)$/i.test(fileName)) return "dataset-json";
-  const start = firstBytes.toString("utf8").replace(/^\uFEFF/, "").trimStart();
+  const start = firstBytes
+    .toString("utf8")
+    .replace(/^\uFEFF/, "")
+    .trimStart();
   return start.startsWith("{") ? "dataset-json" : "csv";
 }
 
@@ -31,18 +44,29 @@ export async function firstBytesOf(filePath: string, n = 80): Promise<Buffer> {
 }
 
 /** Reads and checks one dataset file; every problem names the file (and the column and row). */
-export async function readDatasetFile(filePath: string, fileName: string, format: DatasetFormat, options: ReadOptions = {}): Promise<ReadOutcome> {
+export async function readDatasetFile(
+  filePath: string,
+  fileName: string,
+  format: DatasetFormat,
+  options: ReadOptions = {},
+): Promise<ReadOutcome> {
   const size = (await stat(filePath)).size;
   if (size === 0) return { ok: false, problems: [`The file ${fileName} is empty.`] };
   if (format === "xpt") return readXport(filePath, fileName, options);
-  if (format === "csv") return readCsv(createReadStream(filePath, { highWaterMark: 1 << 20 }), size, fileName, options);
+  if (format === "csv")
+    return readCsv(createReadStream(filePath, { highWaterMark: 1 << 20 }), size, fileName, options);
   const bytes = await readFile(filePath);
   let text: string;
   try {
     text = new TextDecoder("utf-8", { fatal: true }).decode(bytes);
   } catch {
     const where = locateBadUtf8(bytes, 1);
-    return { ok: false, problems: [`${fileName}: line ${where.line} (byte ${where.offset + 1}) is not valid UTF-8. Save the file as UTF-8 and upload it again.`] };
+    return {
+      ok: false,
+      problems: [
+        `${fileName}: line ${where.line} (byte ${where.offset + 1}) is not valid UTF-8. Save the file as UTF-8 and upload it again.`,
+      ],
+    };
   }
   options.onProgress?.(0.2);
   return readDatasetJsonText(text, fileName, options);

@@ -80,7 +80,9 @@ export function trimName(name: string): string {
  */
 export function checkNames(file: string, names: string[], limits: ReadLimits, problems: Problems): void {
   if (names.length > limits.maxColumns) {
-    problems.add(`${file} has ${names.length.toLocaleString("en-US")} columns; the limit is ${limits.maxColumns.toLocaleString("en-US")}. Upload only the columns the analysis needs, or ask an administrator to raise DATASET_MAX_COLUMNS.`);
+    problems.add(
+      `${file} has ${names.length.toLocaleString("en-US")} columns; the limit is ${limits.maxColumns.toLocaleString("en-US")}. Upload only the columns the analysis needs, or ask an administrator to raise DATASET_MAX_COLUMNS.`,
+    );
     return;
   }
   const seen = new Map<string, number>();
@@ -91,29 +93,53 @@ export function checkNames(file: string, names: string[], limits: ReadLimits, pr
       return;
     }
     if (name.includes("\uFEFF")) {
-      problems.add(`${file}: the name of column ${i + 1} holds a byte-order mark (U+FEFF)${i === 0 ? ": the file starts with two byte-order marks" : ""}. Save the file again as UTF-8 with at most one byte-order mark.`);
+      problems.add(
+        `${file}: the name of column ${i + 1} holds a byte-order mark (U+FEFF)${i === 0 ? ": the file starts with two byte-order marks" : ""}. Save the file again as UTF-8 with at most one byte-order mark.`,
+      );
       return;
     }
     if (/[\u0000-\u001f\u007f]/.test(name)) {
-      problems.add(`${file}: the name of column ${i + 1} ("${shown.replace(/[\u0000-\u001f\u007f]/g, "?")}") holds a control character. Rename the column.`);
+      problems.add(
+        `${file}: the name of column ${i + 1} ("${shown.replace(/[\u0000-\u001f\u007f]/g, "?")}") holds a control character. Rename the column.`,
+      );
       return;
     }
     if (name.length > limits.maxNameChars) {
-      problems.add(`${file}: the name of column ${i + 1} ("${shown}") has ${name.length.toLocaleString("en-US")} characters; the limit is ${limits.maxNameChars}. Give it a shorter name.`);
+      problems.add(
+        `${file}: the name of column ${i + 1} ("${shown}") has ${name.length.toLocaleString("en-US")} characters; the limit is ${limits.maxNameChars}. Give it a shorter name.`,
+      );
       return;
     }
     const folded = name.toLowerCase();
     const first = seen.get(folded);
     if (first === undefined) seen.set(folded, i);
-    else if (names[first] === name) problems.add(`${file}: the column name "${name}" is used twice (columns ${first + 1} and ${i + 1}). Column names must be unique.`);
-    else problems.add(`${file}: the column names "${names[first]}" (column ${first + 1}) and "${name}" (column ${i + 1}) differ only in upper and lower case. Column names must be unique regardless of case; rename one.`);
+    else if (names[first] === name)
+      problems.add(
+        `${file}: the column name "${name}" is used twice (columns ${first + 1} and ${i + 1}). Column names must be unique.`,
+      );
+    else
+      problems.add(
+        `${file}: the column names "${names[first]}" (column ${first + 1}) and "${name}" (column ${i + 1}) differ only in upper and lower case. Column names must be unique regardless of case; rename one.`,
+      );
   });
 }
 
 /** Checks one cell's length and characters. */
-export function checkCell(file: string, column: string, row: number, cell: string, limits: ReadLimits, problems: Problems): void {
+export function checkCell(
+  file: string,
+  column: string,
+  row: number,
+  cell: string,
+  limits: ReadLimits,
+  problems: Problems,
+): void {
   if (cell.length > limits.maxCellChars) {
-    problems.add(`${file}: column "${column}", row ${row}: the cell has ${cell.length} characters; the limit is ${limits.maxCellChars}. Shorten it or leave free text out of the analysis dataset.`);
+    problems.add(
+      `${file}: column "${column}", row ${row}: the cell has ${cell.length} characters; the limit is ${limits.maxCellChars}. Shorten it or leave free text out of the analysis dataset.`,
+    );
   }
-  if (cell.includes("\u0000")) problems.add(`${file}: column "${column}", row ${row}: the cell contains a NUL character (U+0000). Remove it and upload again.`);
+  if (cell.includes("\u0000"))
+    problems.add(
+      `${file}: column "${column}", row ${row}: the cell contains a NUL character (U+0000). Remove it and upload again.`,
+    );
 }

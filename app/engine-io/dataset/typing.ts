@@ -21,7 +21,11 @@ function validDate(y: number, m?: number, d?: number): boolean {
 function timePrecision(text: string): DatePrecision | null {
   const t = TIME_PART.exec(text);
   if (!t) return null;
-  const [h, mi, s] = [Number(t[1]), t[2] === undefined ? undefined : Number(t[2]), t[3] === undefined ? undefined : Number(t[3])];
+  const [h, mi, s] = [
+    Number(t[1]),
+    t[2] === undefined ? undefined : Number(t[2]),
+    t[3] === undefined ? undefined : Number(t[3]),
+  ];
   if (h > 24 || (mi !== undefined && mi > 59) || (s !== undefined && s > 60)) return null;
   return s !== undefined ? "second" : mi !== undefined ? "minute" : "hour";
 }
@@ -51,7 +55,10 @@ export function isIsoTime(text: string): boolean {
 }
 
 /** How many values of each precision a date or datetime column holds. */
-export function precisionCounts(cells: readonly string[], kind: "date" | "datetime"): Partial<Record<DatePrecision, number>> {
+export function precisionCounts(
+  cells: readonly string[],
+  kind: "date" | "datetime",
+): Partial<Record<DatePrecision, number>> {
   const counts: Partial<Record<DatePrecision, number>> = {};
   for (const cell of cells) {
     if (cell === "") continue;
@@ -91,7 +98,17 @@ export function inferValueType(cells: readonly string[]): ValueType {
     if (!number && !date && !datetime && !time) return "text";
   }
   if (seen === 0) return "text";
-  return integer ? "integer" : number ? "number" : date ? "date" : datetime ? "datetime" : time ? "time" : "text";
+  return integer
+    ? "integer"
+    : number
+      ? "number"
+      : date
+        ? "date"
+        : datetime
+          ? "datetime"
+          : time
+            ? "time"
+            : "text";
 }
 
 /** The type the stored summaries know (integers are numbers, times are text). */
@@ -125,7 +142,12 @@ const MOSTLY = 0.1;
  * A warning for a column read as text although nearly all its cells are numbers: names the
  * text cells (row and value), so the data manager can correct them. Null for other columns.
  */
-export function mostlyNumbersWarning(file: string, column: string, cells: readonly string[], rowNumbers: readonly number[]): string | null {
+export function mostlyNumbersWarning(
+  file: string,
+  column: string,
+  cells: readonly string[],
+  rowNumbers: readonly number[],
+): string | null {
   let numbers = 0;
   const text: number[] = [];
   for (let i = 0; i < cells.length; i++) {

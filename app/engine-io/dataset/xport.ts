@@ -15,7 +15,9 @@ import { isoTextType, precisionCounts } from "./typing";
 
 // From an ES module the package's class is its `default` export (the CommonJS build's exports object).
 type XportLibrary = import("xport-js").default;
-const Library = ((XportModule as unknown as { default?: unknown }).default ?? XportModule) as new (path: string) => XportLibrary;
+const Library = ((XportModule as unknown as { default?: unknown }).default ?? XportModule) as new (
+  path: string,
+) => XportLibrary;
 
 const LIBRARY_V5 = "HEADER RECORD*******LIBRARY HEADER RECORD!!!!!!!";
 const LIBRARY_V8 = "HEADER RECORD*******LIBV8   HEADER RECORD!!!!!!!";
@@ -23,11 +25,14 @@ const MEMBER = "HEADER RECORD*******MEMBER  HEADER RECORD!!!!!!!";
 const MEMBER_V8 = "HEADER RECORD*******MEMBV8  HEADER RECORD!!!!!!!";
 
 /** Formats whose numbers count days since 1960-01-01. */
-const DATE_FORMATS = /^(DATE|DAY|DDMMYY[BCDNPS]?|MMDDYY[BCDNPS]?|YYMMDD[BCDNPS]?|E8601DA|IS8601DA|B8601DA|ND8601DA|WEEKDATE|WEEKDATX|WORDDATE|WORDDATX|MONYY|MMYY[CDNPS]?|YYMM[CDNPS]?|YYMON|YYQ[CDNPS]?|JULIAN|NLDATE[A-Z]*|EURDFDE|MINGUO|YEAR)$/;
+const DATE_FORMATS =
+  /^(DATE|DAY|DDMMYY[BCDNPS]?|MMDDYY[BCDNPS]?|YYMMDD[BCDNPS]?|E8601DA|IS8601DA|B8601DA|ND8601DA|WEEKDATE|WEEKDATX|WORDDATE|WORDDATX|MONYY|MMYY[CDNPS]?|YYMM[CDNPS]?|YYMON|YYQ[CDNPS]?|JULIAN|NLDATE[A-Z]*|EURDFDE|MINGUO|YEAR)$/;
 /** Formats whose numbers count seconds since 1960-01-01 00:00. */
-const DATETIME_FORMATS = /^(DATETIME|DATEAMPM|E8601DT|IS8601DT|B8601DT|E8601DZ|IS8601DZ|B8601DZ|E8601DN|MDYAMPM|NLDATM[A-Z]*|DTDATE|DTMONYY|DTWKDATX|DTYEAR|DTYYQC)$/;
+const DATETIME_FORMATS =
+  /^(DATETIME|DATEAMPM|E8601DT|IS8601DT|B8601DT|E8601DZ|IS8601DZ|B8601DZ|E8601DN|MDYAMPM|NLDATM[A-Z]*|DTDATE|DTMONYY|DTWKDATX|DTYEAR|DTYYQC)$/;
 /** Formats whose numbers count seconds since midnight. */
-const TIME_FORMATS = /^(TIME|TIMEAMPM|TOD|HHMM|HOUR|MMSS|E8601TM|IS8601TM|B8601TM|E8601TZ|IS8601TZ|NLTIME[A-Z]*)$/;
+const TIME_FORMATS =
+  /^(TIME|TIMEAMPM|TOD|HHMM|HOUR|MMSS|E8601TM|IS8601TM|B8601TM|E8601TZ|IS8601TZ|NLTIME[A-Z]*)$/;
 
 const EPOCH_1960 = Date.UTC(1960, 0, 1);
 
@@ -62,7 +67,11 @@ async function countMembers(path: string): Promise<number> {
 }
 
 /** Reads and checks an XPORT file. */
-export async function readXport(path: string, fileName: string, options: ReadOptions = {}): Promise<ReadOutcome> {
+export async function readXport(
+  path: string,
+  fileName: string,
+  options: ReadOptions = {},
+): Promise<ReadOutcome> {
   const limits: ReadLimits = { ...DEFAULT_LIMITS, ...options.limits };
   const problems = new Problems();
   const head = Buffer.alloc(80 * 4);
@@ -70,14 +79,31 @@ export async function readXport(path: string, fileName: string, options: ReadOpt
   const { bytesRead } = await fh.read(head, 0, head.length, 0).finally(() => fh.close());
   const start = head.toString("latin1", 0, bytesRead);
   if (start.startsWith(LIBRARY_V8) || start.includes(MEMBER_V8)) {
-    return { ok: false, problems: [`${fileName} is an XPORT version 8 transport file; Plumbline reads version 5, the version submitted datasets use. Export the dataset again as XPORT version 5 (or as Dataset-JSON v1.1) and upload that.`] };
+    return {
+      ok: false,
+      problems: [
+        `${fileName} is an XPORT version 8 transport file; Plumbline reads version 5, the version submitted datasets use. Export the dataset again as XPORT version 5 (or as Dataset-JSON v1.1) and upload that.`,
+      ],
+    };
   }
   if (!start.startsWith(LIBRARY_V5)) {
-    return { ok: false, problems: [`${fileName} is not an XPORT transport file: it does not start with the XPORT library header. Upload the .xpt file as it was exported, or a CSV or Dataset-JSON file.`] };
+    return {
+      ok: false,
+      problems: [
+        `${fileName} is not an XPORT transport file: it does not start with the XPORT library header. Upload the .xpt file as it was exported, or a CSV or Dataset-JSON file.`,
+      ],
+    };
   }
   const members = await countMembers(path);
   if (members !== 1) {
-    return { ok: false, problems: [members === 0 ? `${fileName} holds no dataset. Export the dataset again as XPORT version 5.` : `${fileName} holds ${members} datasets; upload one dataset per file.`] };
+    return {
+      ok: false,
+      problems: [
+        members === 0
+          ? `${fileName} holds no dataset. Export the dataset again as XPORT version 5.`
+          : `${fileName} holds ${members} datasets; upload one dataset per file.`,
+      ],
+    };
   }
   const lib = new Library(path);
   let columns: ReadColumn[];
@@ -90,27 +116,49 @@ export async function readXport(path: string, fileName: string, options: ReadOpt
     datasetLabel = member.label || null;
     columns = member.variableOrder.map((key) => {
       const v = member.variables[key];
-      const column: ReadColumn = { name: v.name, label: v.label || null, valueType: v.type === "Num" ? "number" : "text", declaredType: v.type, length: v.length };
-      if (v.formatName) column.format = `${v.formatName}${v.formatW !== "0" ? v.formatW : ""}.${v.formatD !== "0" ? v.formatD : ""}`;
+      const column: ReadColumn = {
+        name: v.name,
+        label: v.label || null,
+        valueType: v.type === "Num" ? "number" : "text",
+        declaredType: v.type,
+        length: v.length,
+      };
+      if (v.formatName)
+        column.format = `${v.formatName}${v.formatW !== "0" ? v.formatW : ""}.${v.formatD !== "0" ? v.formatD : ""}`;
       if (v.type === "Num" && DATE_FORMATS.test(v.formatName)) column.valueType = "date";
       else if (v.type === "Num" && DATETIME_FORMATS.test(v.formatName)) column.valueType = "datetime";
       else if (v.type === "Num" && TIME_FORMATS.test(v.formatName)) column.valueType = "time";
       return column;
     });
   } catch (e) {
-    return { ok: false, problems: [`${fileName} is not a readable XPORT file (${e instanceof Error ? e.message : String(e)}). Export the dataset again as XPORT version 5.`] };
+    return {
+      ok: false,
+      problems: [
+        `${fileName} is not a readable XPORT file (${e instanceof Error ? e.message : String(e)}). Export the dataset again as XPORT version 5.`,
+      ],
+    };
   }
   const names = columns.map((c) => c.name);
   checkNames(fileName, names, limits, problems);
   if (problems.any) return { ok: false, problems: problems.result() };
   const cells: string[][] = names.map(() => []);
   const convert = columns.map((c): ((v: number) => string) =>
-    c.valueType === "date" ? isoDate : c.valueType === "datetime" ? isoDateTime : c.valueType === "time" ? isoTime : String,
+    c.valueType === "date"
+      ? isoDate
+      : c.valueType === "datetime"
+        ? isoDateTime
+        : c.valueType === "time"
+          ? isoTime
+          : String,
   );
   const integer = columns.map((c) => c.valueType === "number");
   let n = 0;
   try {
-    for await (const obs of lib.read({ rowFormat: "array", encoding: "latin1", skipHeader: true }) as AsyncIterable<(number | string | null)[]>) {
+    for await (const obs of lib.read({
+      rowFormat: "array",
+      encoding: "latin1",
+      skipHeader: true,
+    }) as AsyncIterable<(number | string | null)[]>) {
       n++;
       for (let j = 0; j < names.length; j++) {
         const v = obs[j];
@@ -120,21 +168,35 @@ export async function readXport(path: string, fileName: string, options: ReadOpt
           if (integer[j] && !Number.isInteger(v)) integer[j] = false;
           cell = convert[j](v);
         } else cell = v;
-        if (cell.length > limits.maxCellChars || cell.includes("\u0000")) checkCell(fileName, names[j], n, cell, limits, problems);
+        if (cell.length > limits.maxCellChars || cell.includes("\u0000"))
+          checkCell(fileName, names[j], n, cell, limits, problems);
         cells[j].push(cell);
       }
       if (problems.full) break;
     }
   } catch (e) {
-    return { ok: false, problems: [`${fileName}: record ${n + 1} could not be read (${e instanceof Error ? e.message : String(e)}). Export the dataset again as XPORT version 5.`] };
+    return {
+      ok: false,
+      problems: [
+        `${fileName}: record ${n + 1} could not be read (${e instanceof Error ? e.message : String(e)}). Export the dataset again as XPORT version 5.`,
+      ],
+    };
   }
   if (problems.any) return { ok: false, problems: problems.result() };
-  if (n === 0) return { ok: false, problems: [`${fileName} has its variables but no records. Upload the file with its data.`] };
+  if (n === 0)
+    return {
+      ok: false,
+      problems: [`${fileName} has its variables but no records. Upload the file with its data.`],
+    };
   columns.forEach((c, j) => {
     if (c.valueType === "number" && integer[j]) c.valueType = "integer";
     if (c.declaredType === "Char") c.valueType = isoTextType(c.name, cells[j]) ?? "text";
-    if (c.valueType === "date" || c.valueType === "datetime") c.precision = precisionCounts(cells[j], c.valueType);
+    if (c.valueType === "date" || c.valueType === "datetime")
+      c.precision = precisionCounts(cells[j], c.valueType);
   });
   const rowNumbers = Array.from({ length: n }, (_, i) => i + 1);
-  return { ok: true, table: { format: "xpt", datasetName, datasetLabel, names, cells, rowNumbers, columns, declaredKey: null } };
+  return {
+    ok: true,
+    table: { format: "xpt", datasetName, datasetLabel, names, cells, rowNumbers, columns, declaredKey: null },
+  };
 }

@@ -142,7 +142,11 @@ export function negativeBinomialFamily(theta: number): GlmFamily {
       2 * w * (y * Math.log(Math.max(1, y) / mu) - (y + theta) * Math.log((y + theta) / (mu + theta))),
     logLikelihood: (y, mu, w) =>
       w *
-      (lgamma(theta + y) - lgamma(theta) - lgamma(y + 1) + theta * Math.log(theta) + y * Math.log(mu) -
+      (lgamma(theta + y) -
+        lgamma(theta) -
+        lgamma(y + 1) +
+        theta * Math.log(theta) +
+        y * Math.log(mu) -
         (theta + y) * Math.log(theta + mu)),
     start: (y) => y + 0.1,
     // P(Y ≤ y) = I_{θ/(θ+μ)}(θ, y + 1)

@@ -47,11 +47,7 @@ export interface BinnedResidual {
 }
 
 /** Pearson χ²/df and its χ² test; not meaningful for 0/1 responses. */
-export function overdispersion(
-  pearsonChiSquare: number,
-  df: number,
-  family: string,
-): OverdispersionCheck {
+export function overdispersion(pearsonChiSquare: number, df: number, family: string): OverdispersionCheck {
   if (family === "binomial") {
     return {
       statistic: null,
@@ -79,10 +75,28 @@ export function overdispersion(
 }
 
 /** Deviance goodness of fit, χ² on the residual df (counts only). */
-export function devianceGoodnessOfFit(deviance: number, df: number, family: string, meanCount: number): ChiSquareCheck {
-  if (family === "binomial") return { statistic: null, df: null, p: null, reason: "not meaningful for ungrouped 0/1 responses" };
-  if (family === "quasipoisson") return { statistic: null, df: null, p: null, reason: "the dispersion is estimated, so the deviance has no reference distribution" };
-  if (meanCount < 1) return { statistic: deviance, df, p: null, reason: "counts are too small for the χ² approximation (mean fitted count below 1)" };
+export function devianceGoodnessOfFit(
+  deviance: number,
+  df: number,
+  family: string,
+  meanCount: number,
+): ChiSquareCheck {
+  if (family === "binomial")
+    return { statistic: null, df: null, p: null, reason: "not meaningful for ungrouped 0/1 responses" };
+  if (family === "quasipoisson")
+    return {
+      statistic: null,
+      df: null,
+      p: null,
+      reason: "the dispersion is estimated, so the deviance has no reference distribution",
+    };
+  if (meanCount < 1)
+    return {
+      statistic: deviance,
+      df,
+      p: null,
+      reason: "counts are too small for the χ² approximation (mean fitted count below 1)",
+    };
   return { statistic: deviance, df, p: chiSquareUpper(deviance, df) };
 }
 
@@ -99,7 +113,14 @@ export function likelihoodRatio(
   dispersion: number | null,
   dfResidualLarge: number,
 ): LikelihoodRatioTest {
-  if (df < 1) return { term, statistic: null, df: null, p: null, reason: "the added columns are aliased with the model" };
+  if (df < 1)
+    return {
+      term,
+      statistic: null,
+      df: null,
+      p: null,
+      reason: "the added columns are aliased with the model",
+    };
   const statistic = devSmall - devLarge;
   if (dispersion !== null) {
     const f = statistic / df / dispersion;
@@ -156,8 +177,12 @@ export function binnedResiduals(y: Float64Array, mu: Float64Array): BinnedResidu
       r += y[order[t]] - mu[order[t]];
     }
     const meanFitted = f / m;
-    out.push({ n: m, meanFitted, meanResidual: r / m, bound: 2 * Math.sqrt((meanFitted * (1 - meanFitted)) / m) });
+    out.push({
+      n: m,
+      meanFitted,
+      meanResidual: r / m,
+      bound: 2 * Math.sqrt((meanFitted * (1 - meanFitted)) / m),
+    });
   }
   return out;
 }
-

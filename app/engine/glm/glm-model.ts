@@ -138,7 +138,10 @@ export interface GlmChecks {
    */
   readonly linearitySmooth: readonly { readonly term: string; readonly x: number[]; readonly y: number[] }[];
   /** Likelihood-ratio tests of treatment-by-covariate interactions, per covariate and jointly. */
-  readonly homogeneityOfTreatmentEffect?: { readonly joint: LikelihoodRatioTest; readonly byCovariate: readonly LikelihoodRatioTest[] };
+  readonly homogeneityOfTreatmentEffect?: {
+    readonly joint: LikelihoodRatioTest;
+    readonly byCovariate: readonly LikelihoodRatioTest[];
+  };
   readonly calibration?: Calibration;
   /** Likelihood-ratio χ² of the treatment term (treatment-test.ts). */
   readonly treatment?: TreatmentChiSquareTest;
@@ -162,7 +165,12 @@ export interface GlmResult {
   readonly coefficients: GlmCoefficientRow[];
   readonly statisticName: "z" | "t";
   readonly covariance: number[][];
-  readonly robustSE: { readonly HC0: number[]; readonly HC1: number[]; readonly HC2: number[]; readonly HC3: number[] };
+  readonly robustSE: {
+    readonly HC0: number[];
+    readonly HC1: number[];
+    readonly HC2: number[];
+    readonly HC3: number[];
+  };
   readonly profileIntervals: ProfileInterval[] | null;
   readonly ratioName: "odds ratio" | "rate ratio" | null;
   readonly ratios: RatioRow[] | null;
@@ -261,18 +269,30 @@ function familyAndLink(spec: ModelSpec): { familyName: GlmFamilyName; linkName: 
     "negative-binomial": ["log"],
   };
   if (!allowed[familyName].includes(linkName)) {
-    throw new EngineError(`link "${linkName}" is not available for the ${familyName} family; use ${allowed[familyName].join(", ")}`);
+    throw new EngineError(
+      `link "${linkName}" is not available for the ${familyName} family; use ${allowed[familyName].join(", ")}`,
+    );
   }
   return { familyName, linkName, link: linkFunctions(linkName) };
 }
 
 /** Refuses a binomial fit whose estimates diverge (complete or quasi-complete separation). */
-function refuseSeparation(fit: IrlsFit, design: Design, data: PreparedData, family: GlmFamily, link: LinkFunctions): void {
+function refuseSeparation(
+  fit: IrlsFit,
+  design: Design,
+  data: PreparedData,
+  family: GlmFamily,
+  link: LinkFunctions,
+): void {
   const { n, p } = design;
   const sep = detectSeparation(fit, design.x, n, p, data.response, data.offset, family, link);
   if (sep) {
     const names = sep.coefficients.filter((j) => !(design.intercept && j === 0)).map((j) => design.names[j]);
-    const termLabels = [...new Set(design.terms.filter((t) => t.columns.some((c) => sep.coefficients.includes(c))).map((t) => t.label))];
+    const termLabels = [
+      ...new Set(
+        design.terms.filter((t) => t.columns.some((c) => sep.coefficients.includes(c))).map((t) => t.label),
+      ),
+    ];
     throw new SeparationError(
       `${sep.kind} separation: ${termLabels.length > 0 ? `the estimates for ${termLabels.map((t) => `"${t}"`).join(", ")}` : "the estimates"} diverge (${sep.boundaryRows} rows have fitted probability 0 or 1), so the planned model has no finite maximum-likelihood estimate; consider a penalized (Firth) fit or merging levels as a documented deviation`,
       sep.kind,
@@ -299,7 +319,13 @@ function residualsOf(y: Float64Array, mu: Float64Array, pw: Float64Array | null,
 }
 
 /** Wald rows: t tests with an estimated dispersion, z tests otherwise; 95% intervals on the normal quantile. */
-function waldRows(design: Design, estimates: ArrayLike<number>, cov: ArrayLike<number>, estimatedPhi: boolean, dfResidual: number): GlmCoefficientRow[] {
+function waldRows(
+  design: Design,
+  estimates: ArrayLike<number>,
+  cov: ArrayLike<number>,
+  estimatedPhi: boolean,
+  dfResidual: number,
+): GlmCoefficientRow[] {
   const p = design.p;
   const q = normalQuantile(0.975);
   const termOf = new Map<number, string>();
@@ -309,7 +335,16 @@ function waldRows(design: Design, estimates: ArrayLike<number>, cov: ArrayLike<n
     const se = Math.sqrt(cov[j * p + j]);
     const statistic = estimate / se;
     const pv = estimatedPhi ? tTwoSided(statistic, dfResidual) : 2 * normalUpper(Math.abs(statistic));
-    return { name, term: termOf.get(j) ?? null, estimate, se, statistic, p: pv, lower: estimate - q * se, upper: estimate + q * se };
+    return {
+      name,
+      term: termOf.get(j) ?? null,
+      estimate,
+      se,
+      statistic,
+      p: pv,
+      lower: estimate - q * se,
+      upper: estimate + q * se,
+    };
   });
 }
 
@@ -319,12 +354,23 @@ function waldRows(design: Design, estimates: ArrayLike<number>, cov: ArrayLike<n
  * the deviance residual as its weighted residual, scaled by the leave-one-out σ computed from
  * those residuals.
  */
-function influenceOf(wfit: IrlsFit["weighted"], devRes: Float64Array, pearson: Float64Array, dispersion: number, estimatedPhi: boolean, p: number) {
+function influenceOf(
+  wfit: IrlsFit["weighted"],
+  devRes: Float64Array,
+  pearson: Float64Array,
+  dispersion: number,
+  estimatedPhi: boolean,
+  p: number,
+) {
   const n = devRes.length;
   const dfResidual = n - p;
   let devSs = 0;
   for (let i = 0; i < n; i++) devSs += devRes[i] * devRes[i];
-  const lsDiag = observationDiagnostics({ ...wfit, weightedResiduals: devRes, sigma: Math.sqrt(devSs / dfResidual) });
+  const lsDiag = observationDiagnostics({
+    ...wfit,
+    weightedResiduals: devRes,
+    sigma: Math.sqrt(devSs / dfResidual),
+  });
   const h = lsDiag.leverage;
   const internal = new Float64Array(n);
   const external = new Float64Array(n);
@@ -340,8 +386,13 @@ function influenceOf(wfit: IrlsFit["weighted"], devRes: Float64Array, pearson: F
 }
 
 /** Odds ratios (logit) or rate ratios (log) of the terms' coefficients, with Wald and profile intervals. */
-function ratioRows(linkName: Link, coefficients: readonly GlmCoefficientRow[], profile: ReturnType<typeof profileIntervals> | null) {
-  const ratioName: GlmResult["ratioName"] = linkName === "logit" ? "odds ratio" : linkName === "log" ? "rate ratio" : null;
+function ratioRows(
+  linkName: Link,
+  coefficients: readonly GlmCoefficientRow[],
+  profile: ReturnType<typeof profileIntervals> | null,
+) {
+  const ratioName: GlmResult["ratioName"] =
+    linkName === "logit" ? "odds ratio" : linkName === "log" ? "rate ratio" : null;
   const expOrNull = (v: number | null | undefined) => (v === null || v === undefined ? null : Math.exp(v));
   const ratios = ratioName
     ? coefficients
@@ -360,14 +411,29 @@ function ratioRows(linkName: Link, coefficients: readonly GlmCoefficientRow[], p
 }
 
 /** Notes on the fit: IRLS stopped at its limit, too few events per coefficient. */
-function fitNotes(fit: IrlsFit, familyName: GlmFamilyName, n: number, events: number, eventsPerVariable: number): string[] {
+function fitNotes(
+  fit: IrlsFit,
+  familyName: GlmFamilyName,
+  n: number,
+  events: number,
+  eventsPerVariable: number,
+): string[] {
   const notes: string[] = [];
   if (!fit.converged) {
-    notes.push(`IRLS stopped at its limit of ${fit.iterations} iterations before the deviance settled; the estimates may not be the maximum-likelihood estimates.`);
+    notes.push(
+      `IRLS stopped at its limit of ${fit.iterations} iterations before the deviance settled; the estimates may not be the maximum-likelihood estimates.`,
+    );
   }
   if (eventsPerVariable < 10) {
-    const smaller = familyName === "binomial" && n - events < events ? "non-events (the smaller class)" : familyName === "binomial" ? "events (the smaller class)" : "events";
-    notes.push(`Only ${eventsPerVariable.toFixed(1)} ${smaller} per estimated coefficient (fewer than 10): estimates may be biased away from zero and intervals too narrow.`);
+    const smaller =
+      familyName === "binomial" && n - events < events
+        ? "non-events (the smaller class)"
+        : familyName === "binomial"
+          ? "events (the smaller class)"
+          : "events";
+    notes.push(
+      `Only ${eventsPerVariable.toFixed(1)} ${smaller} per estimated coefficient (fewer than 10): estimates may be biased away from zero and intervals too narrow.`,
+    );
   }
   return notes;
 }
@@ -388,7 +454,18 @@ interface CheckInputs {
 
 /** The checks of a GLM fit: overdispersion, deviance goodness of fit, linearity, homogeneity of the treatment effect, the treatment test, calibration. */
 function glmChecks(inputs: CheckInputs): GlmChecks {
-  const { spec, data, design, core, familyName, link, estimatedPhi, dispersion, pearsonChiSquare, partialResiduals } = inputs;
+  const {
+    spec,
+    data,
+    design,
+    core,
+    familyName,
+    link,
+    estimatedPhi,
+    dispersion,
+    pearsonChiSquare,
+    partialResiduals,
+  } = inputs;
   const { n, p } = design;
   const { fit } = core;
   const y = data.response;
@@ -407,13 +484,17 @@ function glmChecks(inputs: CheckInputs): GlmChecks {
     return -2 * ll;
   };
   const smallCriterion = isNegBin ? minusTwoLogLik(core) : fit.deviance;
-  const larger = (x: Float64Array, columns: number): { criterion: number; rank: number; dispersion: number | null } => {
+  const larger = (
+    x: Float64Array,
+    columns: number,
+  ): { criterion: number; rank: number; dispersion: number | null } => {
     const r = fitCore(x, n, columns, data, familyName, link, data.offset);
     const rank = columns - r.fit.aliased.length;
     let largerDispersion: number | null = null;
     if (estimatedPhi) {
       let chi = 0;
-      for (let i = 0; i < n; i++) chi += ((pw ? pw[i] : 1) * (y[i] - r.fit.mu[i]) ** 2) / r.family.variance(r.fit.mu[i]);
+      for (let i = 0; i < n; i++)
+        chi += ((pw ? pw[i] : 1) * (y[i] - r.fit.mu[i]) ** 2) / r.family.variance(r.fit.mu[i]);
       largerDispersion = chi / (n - rank);
     }
     return { criterion: isNegBin ? minusTwoLogLik(r) : r.fit.deviance, rank, dispersion: largerDispersion };
@@ -440,14 +521,19 @@ function glmChecks(inputs: CheckInputs): GlmChecks {
   const treatmentLikelihoodRatio = (arm: string): TreatmentChiSquareTest | undefined => {
     const term = design.terms.find((t) => t.kind !== "interaction" && t.variables[0] === arm);
     if (!term) return undefined;
-    const problem = treatmentTestProblem(arm, design.terms.filter((t) => t.kind === "interaction").map((t) => t.variables));
+    const problem = treatmentTestProblem(
+      arm,
+      design.terms.filter((t) => t.kind === "interaction").map((t) => t.variables),
+    );
     const df = term.columns.length;
     if (problem) return { term: term.label, statistic: null, df, p: null, reason: problem };
     const keep = Array.from({ length: p }, (_, j) => j).filter((j) => !term.columns.includes(j));
     const xr = new Float64Array(n * keep.length);
     keep.forEach((j, k) => xr.set(design.x.subarray(j * n, (j + 1) * n), k * n));
     const reduced = fitCore(xr, n, keep.length, data, familyName, link, data.offset);
-    const difference = isNegBin ? minusTwoLogLik(reduced) - smallCriterion : reduced.fit.deviance - fit.deviance;
+    const difference = isNegBin
+      ? minusTwoLogLik(reduced) - smallCriterion
+      : reduced.fit.deviance - fit.deviance;
     const statistic = estimatedPhi ? difference / dispersion : difference;
     return { term: term.label, statistic, df, p: chiSquareUpper(statistic, df) };
   };
@@ -457,12 +543,24 @@ function glmChecks(inputs: CheckInputs): GlmChecks {
     const others = design.terms
       .filter((t) => t.kind !== "interaction" && t.variables[0] !== arm)
       .map((t) => t.variables[0])
-      .filter((c) => !design.terms.some((t) => t.kind === "interaction" && t.variables.length === 2 && t.variables.includes(c) && t.variables.includes(arm)));
+      .filter(
+        (c) =>
+          !design.terms.some(
+            (t) =>
+              t.kind === "interaction" &&
+              t.variables.length === 2 &&
+              t.variables.includes(c) &&
+              t.variables.includes(arm),
+          ),
+      );
     if (others.length > 0) {
       const byCovariate = others.map((c) => {
         return nested(interactionName([arm, c]), refit([[arm, c]]));
       });
-      homogeneity = { joint: nested("all treatment interactions", refit(others.map((c) => [arm, c]))), byCovariate };
+      homogeneity = {
+        joint: nested("all treatment interactions", refit(others.map((c) => [arm, c]))),
+        byCovariate,
+      };
     }
   }
   const treatmentTest = spec.treatment ? treatmentLikelihoodRatio(spec.treatment) : undefined;
@@ -495,7 +593,9 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
   const design = buildDesign(spec, data);
   const { n, p } = design;
   if (n <= p) {
-    throw new EngineError(`${n} usable rows for ${p} coefficients: the model needs more usable rows than coefficients`);
+    throw new EngineError(
+      `${n} usable rows for ${p} coefficients: the model needs more usable rows than coefficients`,
+    );
   }
   checkGlmResponse(spec, data);
   const core = fitCore(design.x, n, p, data, familyName, link);
@@ -523,7 +623,8 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     nullDeviance = nullFit.fit.deviance;
   } else {
     nullDeviance = 0;
-    for (let i = 0; i < n; i++) nullDeviance += family.deviance(y[i], link.inverse(data.offset ? data.offset[i] : 0), pw ? pw[i] : 1);
+    for (let i = 0; i < n; i++)
+      nullDeviance += family.deviance(y[i], link.inverse(data.offset ? data.offset[i] : 0), pw ? pw[i] : 1);
   }
   let logLik: number | null = null;
   if (!estimatedPhi) {
@@ -532,13 +633,21 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
   }
   const aic = logLik === null ? null : -2 * logLik + 2 * (p + (core.theta ? 1 : 0));
 
-  const { lsDiag, h, internal, external, cook } = influenceOf(wfit, devRes, pearson, dispersion, estimatedPhi, p);
+  const { lsDiag, h, internal, external, cook } = influenceOf(
+    wfit,
+    devRes,
+    pearson,
+    dispersion,
+    estimatedPhi,
+    p,
+  );
   const robust = robustCovariances(wfit, h);
   const working = new Float64Array(n);
   for (let i = 0; i < n; i++) working[i] = (y[i] - mu[i]) / link.derivative(fit.eta[i]);
   const partialResiduals = design.terms.map((t) => {
     const values = new Float64Array(n);
-    for (const c of t.columns) for (let i = 0; i < n; i++) values[i] += fit.coefficients[c] * design.x[c * n + i];
+    for (const c of t.columns)
+      for (let i = 0; i < n; i++) values[i] += fit.coefficients[c] * design.x[c * n + i];
     const mean = values.reduce((s, v) => s + v, 0) / n;
     return { term: t.label, values: Array.from(values, (v, i) => v - mean + working[i]) };
   });
@@ -547,15 +656,36 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
   // checks
   const events = y.reduce((s, v) => s + v, 0);
   const freeParameters = Math.max(1, p - (design.intercept ? 1 : 0));
-  const eventsPerVariable = (familyName === "binomial" ? Math.min(events, n - events) : events) / freeParameters;
-  const checks = glmChecks({ spec, data, design, core, familyName, link, estimatedPhi, dispersion, pearsonChiSquare, partialResiduals });
+  const eventsPerVariable =
+    (familyName === "binomial" ? Math.min(events, n - events) : events) / freeParameters;
+  const checks = glmChecks({
+    spec,
+    data,
+    design,
+    core,
+    familyName,
+    link,
+    estimatedPhi,
+    dispersion,
+    pearsonChiSquare,
+    partialResiduals,
+  });
 
   const wantProfile = options.profile ?? n * p <= 200_000;
   const profile = wantProfile
-    ? profileIntervals(design, data, fit, (off, k) => {
-        const r = fitCore(k.x, n, k.p, data, familyName, link, off, core.theta?.theta);
-        return r.fit.deviance;
-      }, coefficients, dispersion, estimatedPhi, dfResidual)
+    ? profileIntervals(
+        design,
+        data,
+        fit,
+        (off, k) => {
+          const r = fitCore(k.x, n, k.p, data, familyName, link, off, core.theta?.theta);
+          return r.fit.deviance;
+        },
+        coefficients,
+        dispersion,
+        estimatedPhi,
+        dfResidual,
+      )
     : null;
 
   const { ratioName, ratios } = ratioRows(linkName, coefficients, profile);
@@ -586,7 +716,10 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     kind: "glm",
     engineVersion: ENGINE_VERSION,
     caution: RESULTS_CAUTION,
-    method: { kind: "planned", description: `planned model, ${familyName} family with ${linkName} link, maximum likelihood by IRLS` },
+    method: {
+      kind: "planned",
+      description: `planned model, ${familyName} family with ${linkName} link, maximum likelihood by IRLS`,
+    },
     spec,
     family: familyName,
     link: linkName,
@@ -596,7 +729,11 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     rank: p,
     dfResidual,
     variables: [...data.variables.values()].map(summarize),
-    terms: design.terms.map((t) => ({ label: t.label, kind: t.kind, coefficients: t.columns.map((c) => design.names[c]) })),
+    terms: design.terms.map((t) => ({
+      label: t.label,
+      kind: t.kind,
+      coefficients: t.columns.map((c) => design.names[c]),
+    })),
     coefficients,
     statisticName: estimatedPhi ? "t" : "z",
     covariance: Array.from({ length: p }, (_, i) => Array.from({ length: p }, (_, j) => cov[j * p + i])),
@@ -645,4 +782,3 @@ export function fitGlmModel(spec: ModelSpec, tableIn: DataTable, options: GlmOpt
     notes,
   };
 }
-

@@ -46,7 +46,8 @@ export const IRLS_MAX_ITERATIONS = 100;
 
 function deviance(input: IrlsInput, mu: Float64Array): number {
   let d = 0;
-  for (let i = 0; i < input.n; i++) d += input.family.deviance(input.y[i], mu[i], input.weights ? input.weights[i] : 1);
+  for (let i = 0; i < input.n; i++)
+    d += input.family.deviance(input.y[i], mu[i], input.weights ? input.weights[i] : 1);
   return d;
 }
 
@@ -116,7 +117,11 @@ export function irls(input: IrlsInput): IrlsFit {
     let muNew = etaNew.map((e) => link.inverse(e));
     let dev = deviance(input, muNew);
     // step-halving while the deviance is not finite or rises (after the first step)
-    for (let halving = 0; haveB && (!Number.isFinite(dev) || dev > devOld + 1e-12 * Math.abs(devOld)) && halving < 30; halving++) {
+    for (
+      let halving = 0;
+      haveB && (!Number.isFinite(dev) || dev > devOld + 1e-12 * Math.abs(devOld)) && halving < 30;
+      halving++
+    ) {
       bNew = bNew.map((v, j) => (v + b[j]) / 2);
       etaNew = linearPredictor(input, bNew);
       muNew = etaNew.map((e) => link.inverse(e));
@@ -136,7 +141,10 @@ export function irls(input: IrlsInput): IrlsFit {
       stepMax = Math.max(stepMax, Math.abs(b[j] - bOld[j]));
       sizeMax = Math.max(sizeMax, Math.abs(b[j]));
     }
-    if (Math.abs(dev - devOld) / (Math.abs(dev) + 0.1) < tol && (stepMax <= 1e-11 * (sizeMax + 0.1) || iter === maxIter)) {
+    if (
+      Math.abs(dev - devOld) / (Math.abs(dev) + 0.1) < tol &&
+      (stepMax <= 1e-11 * (sizeMax + 0.1) || iter === maxIter)
+    ) {
       devOld = dev;
       converged = true;
       break;

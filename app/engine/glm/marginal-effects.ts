@@ -22,7 +22,13 @@
  * for counts; ratios on the log scale by the delta method. A multiplicity method adjusts the
  * p-values within each measure's family of contrasts.
  */
-import { designRow, type CategoricalVariable, type Design, type PreparedData, type Variable } from "../design";
+import {
+  designRow,
+  type CategoricalVariable,
+  type Design,
+  type PreparedData,
+  type Variable,
+} from "../design";
 import { normalQuantile, normalUpper } from "../distributions";
 import type { LinkFunctions } from "./families";
 import { contrastPairs, type ContrastPlan } from "../adjusted-means";
@@ -59,15 +65,23 @@ export interface MarginalContrast extends MarginalInterval {
 }
 
 /** Whether the variance of Ye et al. applies to this fit, and if not, why. */
-export type RobustVarianceApplicability = { readonly applies: true } | { readonly applies: false; readonly reason: string };
+export type RobustVarianceApplicability =
+  { readonly applies: true } | { readonly applies: false; readonly reason: string };
 
 /**
  * The variance of Ye et al. needs residuals that average to zero within each arm: a canonical
  * link with an intercept (the treatment term is in every model that has a treatment) and no
  * prior weights.
  */
-export function robustVarianceApplicability(family: string, link: string, intercept: boolean, weighted: boolean): RobustVarianceApplicability {
-  const canonical = (family === "binomial" && link === "logit") || ((family === "poisson" || family === "quasipoisson") && link === "log");
+export function robustVarianceApplicability(
+  family: string,
+  link: string,
+  intercept: boolean,
+  weighted: boolean,
+): RobustVarianceApplicability {
+  const canonical =
+    (family === "binomial" && link === "logit") ||
+    ((family === "poisson" || family === "quasipoisson") && link === "log");
   const why = !canonical
     ? family === "negative-binomial"
       ? "the negative binomial's log link is not its canonical link"
@@ -140,7 +154,8 @@ export function marginalEffects(
   for (let a = 0; a < K; a++) {
     for (let b = 0; b < K; b++) {
       let s = 0;
-      for (let r = 0; r < p; r++) for (let c = 0; c < p; c++) s += grads[a][r] * covariance[c * p + r] * grads[b][c];
+      for (let r = 0; r < p; r++)
+        for (let c = 0; c < p; c++) s += grads[a][r] * covariance[c * p + r] * grads[b][c];
       ge[a * K + b] = s;
     }
   }
@@ -169,7 +184,8 @@ export function marginalEffects(
     const pi = ia.length / n;
     const resid = new Float64Array(n);
     for (const i of ia) resid[i] = y[i] - preds[a][i];
-    ye[a * K + a] = (cov(resid, resid, ia) / pi + 2 * cov(y, preds[a], ia) - cov(preds[a], preds[a], all)) / n;
+    ye[a * K + a] =
+      (cov(resid, resid, ia) / pi + 2 * cov(y, preds[a], ia) - cov(preds[a], preds[a], all)) / n;
     for (let b = 0; b < K; b++) {
       if (b === a) continue;
       const ib = inArm(b);
@@ -184,7 +200,14 @@ export function marginalEffects(
   const meanRows: MarginalMean[] = treatment.levels.map((level, a) => {
     const unit = Array.from({ length: K }, (_, b) => (b === a ? 1 : 0));
     const se = quad(ge, unit);
-    return { level, estimate: means[a], se, lower: means[a] - Z * se, upper: means[a] + Z * se, robustSe: robustVariance.applies ? quad(ye, unit) : null };
+    return {
+      level,
+      estimate: means[a],
+      se,
+      lower: means[a] - Z * se,
+      upper: means[a] + Z * se,
+      robustSe: robustVariance.applies ? quad(ye, unit) : null,
+    };
   });
   const raw: MarginalContrast[] = [];
   const interval = (estimate: number, se: number, log: boolean): MarginalInterval => {
@@ -192,14 +215,26 @@ export function marginalEffects(
     const statistic = centre / se;
     const lower = centre - Z * se;
     const upper = centre + Z * se;
-    return { se, statistic, p: 2 * normalUpper(Math.abs(statistic)), lower: log ? Math.exp(lower) : lower, upper: log ? Math.exp(upper) : upper };
+    return {
+      se,
+      statistic,
+      p: 2 * normalUpper(Math.abs(statistic)),
+      lower: log ? Math.exp(lower) : lower,
+      upper: log ? Math.exp(upper) : upper,
+    };
   };
   for (const [a, ref] of contrastPairs(K, treatment.referenceIndex, plan.set)) {
     const level = treatment.levels[a];
     const ma = means[a];
     const mr = means[ref];
-    const measures: { measure: MarginalContrast["measure"]; estimate: number; grad: number[]; log: boolean }[] = [];
-    const basis = (ga: number, gr: number) => Array.from({ length: K }, (_, b) => (b === a ? ga : b === ref ? gr : 0));
+    const measures: {
+      measure: MarginalContrast["measure"];
+      estimate: number;
+      grad: number[];
+      log: boolean;
+    }[] = [];
+    const basis = (ga: number, gr: number) =>
+      Array.from({ length: K }, (_, b) => (b === a ? ga : b === ref ? gr : 0));
     if (binary) {
       measures.push({ measure: "risk difference", estimate: ma - mr, grad: basis(1, -1), log: false });
       measures.push({ measure: "risk ratio", estimate: ma / mr, grad: basis(1 / ma, -1 / mr), log: true });
@@ -225,7 +260,14 @@ export function marginalEffects(
     }
   }
   const contrasts = plan.multiplicity === "none" ? raw : adjustByMeasure(raw, plan.multiplicity);
-  return { treatment: treatmentName, robustVariance, means: meanRows, contrasts, contrastSet: plan.set, multiplicity: plan.multiplicity };
+  return {
+    treatment: treatmentName,
+    robustVariance,
+    means: meanRows,
+    contrasts,
+    contrastSet: plan.set,
+    multiplicity: plan.multiplicity,
+  };
 }
 
 /** Adjusted p-values within each measure's family (model-based and robust separately). */
@@ -233,9 +275,17 @@ function adjustByMeasure(raw: MarginalContrast[], method: ContrastPlan["multipli
   const out = [...raw];
   for (const measure of new Set(raw.map((c) => c.measure))) {
     const idx = raw.map((c, i) => (c.measure === measure ? i : -1)).filter((i) => i >= 0);
-    const model = adjustPValues(idx.map((i) => raw[i].p), method);
+    const model = adjustPValues(
+      idx.map((i) => raw[i].p),
+      method,
+    );
     const robustRows = idx.map((i) => raw[i].robust);
-    const robust = robustRows.every((r) => r !== null) ? adjustPValues(robustRows.map((r) => (r as MarginalInterval).p), method) : null;
+    const robust = robustRows.every((r) => r !== null)
+      ? adjustPValues(
+          robustRows.map((r) => (r as MarginalInterval).p),
+          method,
+        )
+      : null;
     idx.forEach((i, k) => {
       const r = raw[i].robust;
       out[i] = { ...raw[i], pAdjusted: model[k], robust: r && robust ? { ...r, pAdjusted: robust[k] } : r };

@@ -50,8 +50,21 @@ export function thetaMaximumLikelihood(
       const w = weights ? weights[i] : 1;
       const yi = y[i];
       const mi = mu[i];
-      score += w * (digamma(theta + yi) - digamma(theta) + Math.log(theta) + 1 - Math.log(theta + mi) - (yi + theta) / (mi + theta));
-      info += w * (-trigamma(theta + yi) + trigamma(theta) - 1 / theta + 2 / (mi + theta) - (yi + theta) / (mi + theta) ** 2);
+      score +=
+        w *
+        (digamma(theta + yi) -
+          digamma(theta) +
+          Math.log(theta) +
+          1 -
+          Math.log(theta + mi) -
+          (yi + theta) / (mi + theta));
+      info +=
+        w *
+        (-trigamma(theta + yi) +
+          trigamma(theta) -
+          1 / theta +
+          2 / (mi + theta) -
+          (yi + theta) / (mi + theta) ** 2);
     }
     let step = score / info;
     // keep θ positive

@@ -12,7 +12,12 @@ import type { GlmFamily } from "./families";
 export const QUANTILE_RESIDUAL_SEED = 20261202;
 
 /** One randomized quantile residual per observation. */
-export function quantileResiduals(y: Float64Array, mu: Float64Array, family: GlmFamily, seed = QUANTILE_RESIDUAL_SEED): Float64Array {
+export function quantileResiduals(
+  y: Float64Array,
+  mu: Float64Array,
+  family: GlmFamily,
+  seed = QUANTILE_RESIDUAL_SEED,
+): Float64Array {
   const next = mulberry32(seed);
   const out = new Float64Array(y.length);
   for (let i = 0; i < y.length; i++) {

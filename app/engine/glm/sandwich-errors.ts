@@ -17,18 +17,36 @@ export function withSandwichErrors(fit: GlmResult, type: SandwichType = "HC3"): 
   const coefficients = fit.coefficients.map((c, j) => {
     const s = se[j];
     const statistic = c.estimate / s;
-    return { ...c, se: s, statistic, p: 2 * normalUpper(Math.abs(statistic)), lower: c.estimate - q * s, upper: c.estimate + q * s };
+    return {
+      ...c,
+      se: s,
+      statistic,
+      p: 2 * normalUpper(Math.abs(statistic)),
+      lower: c.estimate - q * s,
+      upper: c.estimate + q * s,
+    };
   });
   const byName = new Map(coefficients.map((c) => [c.name, c]));
   const ratios = fit.ratios
     ? fit.ratios.map((r) => {
         const c = byName.get(r.name);
-        return c ? { ...r, lower: Math.exp(c.lower), upper: Math.exp(c.upper), profileLower: null, profileUpper: null } : r;
+        return c
+          ? {
+              ...r,
+              lower: Math.exp(c.lower),
+              upper: Math.exp(c.upper),
+              profileLower: null,
+              profileUpper: null,
+            }
+          : r;
       })
     : null;
   return {
     ...fit,
-    method: { kind: "robust", description: `${fit.method.description.replace(/^planned model, /, "")}, with ${type} heteroscedasticity-consistent (sandwich) standard errors` },
+    method: {
+      kind: "robust",
+      description: `${fit.method.description.replace(/^planned model, /, "")}, with ${type} heteroscedasticity-consistent (sandwich) standard errors`,
+    },
     coefficients,
     statisticName: "z",
     ratios,

@@ -66,12 +66,16 @@ export function startingCovariance(problem: LikelihoodProblem): Float64Array {
   for (let i = 0; i < n; i++) pooled += r[i] * r[i];
   pooled = Math.max(pooled / Math.max(1, n - p), 1e-12);
   const s0 = new Float64Array(t * t);
-  for (let a = 0; a < t; a++) s0[a * t + a] = count[a * t + a] > 1 ? Math.max(sum[a * t + a] / count[a * t + a], 1e-3 * pooled) : pooled;
+  for (let a = 0; a < t; a++)
+    s0[a * t + a] =
+      count[a * t + a] > 1 ? Math.max(sum[a * t + a] / count[a * t + a], 1e-3 * pooled) : pooled;
   for (let a = 0; a < t; a++) {
     for (let b = 0; b < t; b++) {
       if (a === b) continue;
       const c = count[a * t + b] > 2 ? sum[a * t + b] / count[a * t + b] : 0;
-      s0[a * t + b] = Math.max(-0.9, Math.min(0.9, c / Math.sqrt(s0[a * t + a] * s0[b * t + b]))) * Math.sqrt(s0[a * t + a] * s0[b * t + b]);
+      s0[a * t + b] =
+        Math.max(-0.9, Math.min(0.9, c / Math.sqrt(s0[a * t + a] * s0[b * t + b]))) *
+        Math.sqrt(s0[a * t + a] * s0[b * t + b]);
     }
   }
   if ("l" in cholesky(s0, t, 1e-10)) return s0;
@@ -99,7 +103,11 @@ export function structureObjective(problem: LikelihoodProblem, structure: Covari
 }
 
 /** Fits a structure; throws when no step from the start is possible (the caller tries the next one). */
-export function fitCovariance(problem: LikelihoodProblem, name: CovarianceStructureName, sigma0: Float64Array): CovarianceFit {
+export function fitCovariance(
+  problem: LikelihoodProblem,
+  name: CovarianceStructureName,
+  sigma0: Float64Array,
+): CovarianceFit {
   const structure = STRUCTURES[name];
   const t = problem.t;
   const objective = structureObjective(problem, structure);

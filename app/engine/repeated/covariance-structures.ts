@@ -42,10 +42,16 @@ function logVariances(s: Float64Array, t: number, heterogeneous: boolean): numbe
 }
 
 /** Σ from standard deviations per visit and a correlation function of two positions. */
-function scaled(theta: Float64Array, t: number, heterogeneous: boolean, corr: (a: number, b: number) => number): Float64Array {
+function scaled(
+  theta: Float64Array,
+  t: number,
+  heterogeneous: boolean,
+  corr: (a: number, b: number) => number,
+): Float64Array {
   const sd = Array.from({ length: t }, (_, a) => Math.exp(0.5 * theta[heterogeneous ? a : 0]));
   const s = new Float64Array(t * t);
-  for (let a = 0; a < t; a++) for (let b = 0; b < t; b++) s[a * t + b] = sd[a] * sd[b] * (a === b ? 1 : corr(a, b));
+  for (let a = 0; a < t; a++)
+    for (let b = 0; b < t; b++) s[a * t + b] = sd[a] * sd[b] * (a === b ? 1 : corr(a, b));
   return s;
 }
 
@@ -55,7 +61,8 @@ const unstructured: CovarianceStructure = {
   sigma(theta, t) {
     const l = new Float64Array(t * t);
     let k = 0;
-    for (let i = 0; i < t; i++) for (let j = 0; j <= i; j++) l[i * t + j] = i === j ? Math.exp(theta[k++]) : theta[k++];
+    for (let i = 0; i < t; i++)
+      for (let j = 0; j <= i; j++) l[i * t + j] = i === j ? Math.exp(theta[k++]) : theta[k++];
     const s = new Float64Array(t * t);
     for (let i = 0; i < t; i++) {
       for (let j = 0; j <= i; j++) {
@@ -81,7 +88,8 @@ const unstructured: CovarianceStructure = {
       }
     }
     const theta: number[] = [];
-    for (let i = 0; i < t; i++) for (let j = 0; j <= i; j++) theta.push(i === j ? Math.log(l[i * t + j]) : l[i * t + j]);
+    for (let i = 0; i < t; i++)
+      for (let j = 0; j <= i; j++) theta.push(i === j ? Math.log(l[i * t + j]) : l[i * t + j]);
     return Float64Array.from(theta);
   },
 };
@@ -98,7 +106,10 @@ function compoundSymmetry(heterogeneous: boolean): CovarianceStructure {
     },
     start(s0, t) {
       const rho = clamp(meanCorrelation(s0, t, null), -0.5 / Math.max(1, t - 1), 0.9);
-      return Float64Array.from([...logVariances(s0, t, heterogeneous), Math.log((1 + (t - 1) * rho) / (1 - rho))]);
+      return Float64Array.from([
+        ...logVariances(s0, t, heterogeneous),
+        Math.log((1 + (t - 1) * rho) / (1 - rho)),
+      ]);
     },
   };
 }
@@ -113,7 +124,10 @@ function ar1(heterogeneous: boolean): CovarianceStructure {
       return scaled(theta, t, heterogeneous, (a, b) => rho ** Math.abs(a - b));
     },
     start(s0, t) {
-      return Float64Array.from([...logVariances(s0, t, heterogeneous), Math.atanh(clamp(meanCorrelation(s0, t, 1), -0.9, 0.9))]);
+      return Float64Array.from([
+        ...logVariances(s0, t, heterogeneous),
+        Math.atanh(clamp(meanCorrelation(s0, t, 1), -0.9, 0.9)),
+      ]);
     },
   };
 }
@@ -151,7 +165,10 @@ function toeplitz(heterogeneous: boolean): CovarianceStructure {
     },
     start(s0, t) {
       const first = Math.atanh(clamp(meanCorrelation(s0, t, 1), -0.9, 0.9));
-      return Float64Array.from([...logVariances(s0, t, heterogeneous), ...Array.from({ length: t - 1 }, (_, k) => (k === 0 ? first : 0))]);
+      return Float64Array.from([
+        ...logVariances(s0, t, heterogeneous),
+        ...Array.from({ length: t - 1 }, (_, k) => (k === 0 ? first : 0)),
+      ]);
     },
   };
 }
@@ -167,7 +184,11 @@ export const STRUCTURES: Readonly<Record<CovarianceStructureName, CovarianceStru
 };
 
 /** dΣ/dθₖ for every k, by central differences of the (cheap, smooth) map θ → Σ. */
-export function sigmaDerivatives(structure: CovarianceStructure, theta: Float64Array, t: number): Float64Array[] {
+export function sigmaDerivatives(
+  structure: CovarianceStructure,
+  theta: Float64Array,
+  t: number,
+): Float64Array[] {
   return Array.from(theta, (value, k) => {
     const h = 1e-6 * Math.max(1, Math.abs(value));
     const up = Float64Array.from(theta);

@@ -52,7 +52,10 @@ export function numericHessian(objective: Objective, theta: Float64Array): Float
   return h;
 }
 
-function tryEvaluate(objective: Objective, theta: Float64Array): { value: number; gradient: Float64Array } | null {
+function tryEvaluate(
+  objective: Objective,
+  theta: Float64Array,
+): { value: number; gradient: Float64Array } | null {
   try {
     const out = objective.evaluate(theta);
     return Number.isFinite(out.value) ? out : null;
@@ -62,7 +65,11 @@ function tryEvaluate(objective: Objective, theta: Float64Array): { value: number
 }
 
 /** Newton direction d solving (−H + λI) d = g, with λ raised until −H + λI is positive definite. */
-function direction(hessian: Float64Array, gradient: Float64Array, lambda: number): { d: Float64Array; lambda: number } {
+function direction(
+  hessian: Float64Array,
+  gradient: Float64Array,
+  lambda: number,
+): { d: Float64Array; lambda: number } {
   const k = gradient.length;
   let scale = 0;
   for (let i = 0; i < k; i++) scale = Math.max(scale, Math.abs(hessian[i * k + i]));
@@ -78,7 +85,11 @@ function direction(hessian: Float64Array, gradient: Float64Array, lambda: number
   return { d: Float64Array.from(gradient), lambda: lam };
 }
 
-export function maximizeByNewton(objective: Objective, start: Float64Array, maxIterations = 200): NewtonOutcome {
+export function maximizeByNewton(
+  objective: Objective,
+  start: Float64Array,
+  maxIterations = 200,
+): NewtonOutcome {
   let theta = Float64Array.from(start);
   const first = tryEvaluate(objective, theta);
   if (!first) throw new Error("the starting values are outside the domain");
@@ -88,7 +99,10 @@ export function maximizeByNewton(objective: Objective, start: Float64Array, maxI
   for (let iteration = 1; iteration <= maxIterations; iteration++) {
     history.push(current.value);
     // ten steps that together gain nothing: a direction the data do not inform
-    if (history.length > 10 && current.value - history[history.length - 11] <= 1e-10 * Math.max(1, Math.abs(current.value))) {
+    if (
+      history.length > 10 &&
+      current.value - history[history.length - 11] <= 1e-10 * Math.max(1, Math.abs(current.value))
+    ) {
       return {
         theta,
         value: current.value,
@@ -96,7 +110,8 @@ export function maximizeByNewton(objective: Objective, start: Float64Array, maxI
         hessian: numericHessian(objective, theta),
         iterations: iteration - 1,
         converged: false,
-        reason: "the likelihood stopped rising without converging (some covariance parameter is not estimable)",
+        reason:
+          "the likelihood stopped rising without converging (some covariance parameter is not estimable)",
       };
     }
     const hessian = numericHessian(objective, theta);
@@ -117,7 +132,15 @@ export function maximizeByNewton(objective: Objective, start: Float64Array, maxI
           current = trial;
         }
         const final = numericHessian(objective, theta);
-        return { theta, value: current.value, gradient: current.gradient, hessian: final, iterations: iteration, converged: true, reason: null };
+        return {
+          theta,
+          value: current.value,
+          gradient: current.gradient,
+          hessian: final,
+          iterations: iteration,
+          converged: true,
+          reason: null,
+        };
       }
       let big = 0;
       for (let i = 0; i < k; i++) big = Math.max(big, Math.abs(d[i]));

@@ -53,11 +53,12 @@ export interface KenwardRoger {
 
 const mul = (a: Float64Array, b: Float64Array, r: number, k: number, c: number) => {
   const out = new Float64Array(r * c);
-  for (let i = 0; i < r; i++) for (let l = 0; l < k; l++) {
-    const v = a[i * k + l];
-    if (v === 0) continue;
-    for (let j = 0; j < c; j++) out[i * c + j] += v * b[l * c + j];
-  }
+  for (let i = 0; i < r; i++)
+    for (let l = 0; l < k; l++) {
+      const v = a[i * k + l];
+      if (v === 0) continue;
+      for (let j = 0; j < c; j++) out[i * c + j] += v * b[l * c + j];
+    }
   return out;
 };
 const transpose = (a: Float64Array, r: number, c: number) => {
@@ -71,7 +72,11 @@ const trace = (a: Float64Array, n: number) => {
   return s;
 };
 
-export function kenwardRoger(problem: LikelihoodProblem, fit: CovarianceFit, basis: readonly Float64Array[]): KenwardRoger {
+export function kenwardRoger(
+  problem: LikelihoodProblem,
+  fit: CovarianceFit,
+  basis: readonly Float64Array[],
+): KenwardRoger {
   const { t, p } = problem;
   const k = basis.length;
   const phi = fit.likelihood.betaCovariance;
@@ -84,7 +89,8 @@ export function kenwardRoger(problem: LikelihoodProblem, fit: CovarianceFit, bas
     const u = whitenedDesign(problem, subject.rows, f);
     const sub = basis.map((bk) => {
       const s = new Float64Array(m * m);
-      for (let a = 0; a < m; a++) for (let b = 0; b < m; b++) s[a * m + b] = bk[subject.positions[a] * t + subject.positions[b]];
+      for (let a = 0; a < m; a++)
+        for (let b = 0; b < m; b++) s[a * m + b] = bk[subject.positions[a] * t + subject.positions[b]];
       return s;
     });
     const h = sub.map((s) => mul(s, f.inverse, m, m, m)); // Bₖ V⁻¹
@@ -125,7 +131,9 @@ export function kenwardRoger(problem: LikelihoodProblem, fit: CovarianceFit, bas
     }
   }
   const adjusted = mul(mul(phi, uu, p, p, p), phi, p, p, p).map((v, x) => phi[x] + 2 * v);
-  for (let i = 0; i < p; i++) for (let j = 0; j < i; j++) adjusted[i * p + j] = adjusted[j * p + i] = 0.5 * (adjusted[i * p + j] + adjusted[j * p + i]);
+  for (let i = 0; i < p; i++)
+    for (let j = 0; j < i; j++)
+      adjusted[i * p + j] = adjusted[j * p + i] = 0.5 * (adjusted[i * p + j] + adjusted[j * p + i]);
 
   const lMatrix = (rows: readonly Float64Array[]) => {
     const l = new Float64Array(rows.length * p);

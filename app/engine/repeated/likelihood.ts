@@ -55,7 +55,8 @@ const LOG_2PI = Math.log(2 * Math.PI);
 function patternFactor(sigma: Float64Array, t: number, positions: Int32Array): PatternFactor {
   const m = positions.length;
   const v = new Float64Array(m * m);
-  for (let a = 0; a < m; a++) for (let b = 0; b < m; b++) v[a * m + b] = sigma[positions[a] * t + positions[b]];
+  for (let a = 0; a < m; a++)
+    for (let b = 0; b < m; b++) v[a * m + b] = sigma[positions[a] * t + positions[b]];
   const f = cholesky(v, m, 1e-13);
   if (!("l" in f)) throw new NotPositiveDefinite("the visits' covariance is not positive definite");
   let logDet = 0;
@@ -111,7 +112,8 @@ function patternGroups(problem: LikelihoodProblem): PatternGroup[] {
     const positions = problem.subjects[members[0]].positions;
     const m = positions.length;
     const cells = m * m * (p * p + p + 1);
-    if (problem.groupSums === false || members.length < m || cells > budget) return { positions, members, sums: null };
+    if (problem.groupSums === false || members.length < m || cells > budget)
+      return { positions, members, sums: null };
     budget -= cells;
     const xx = new Float64Array(m * m * p * p);
     const xy = new Float64Array(m * m * p);
@@ -141,7 +143,11 @@ function patternGroups(problem: LikelihoodProblem): PatternGroup[] {
 }
 
 /** ℓ at Σ, with β̂, its covariance and (when asked) the gradient with respect to Σ. */
-export function evaluateLikelihood(problem: LikelihoodProblem, sigma: Float64Array, withGradient: boolean): LikelihoodValue {
+export function evaluateLikelihood(
+  problem: LikelihoodProblem,
+  sigma: Float64Array,
+  withGradient: boolean,
+): LikelihoodValue {
   const { t, n, p, x, y, subjects, method } = problem;
   const groups = patternGroups(problem);
   const groupFactors = groups.map((g) => patternFactor(sigma, t, g.positions));
@@ -219,7 +225,8 @@ export function evaluateLikelihood(problem: LikelihoodProblem, sigma: Float64Arr
           for (let k = 0; k < p; k++) row += xx[base + j * p + k] * beta[k];
           xb[j] = row;
           v += beta[j] * row;
-          if (method === "reml") for (let k = 0; k < p; k++) trace += betaCovariance[j * p + k] * xx[base + j * p + k];
+          if (method === "reml")
+            for (let k = 0; k < p; k++) trace += betaCovariance[j * p + k] * xx[base + j * p + k];
         }
         r[ab] = v;
         tt[ab] = trace;
@@ -284,6 +291,7 @@ export function evaluateLikelihood(problem: LikelihoodProblem, sigma: Float64Arr
 
 function multiplySquare(a: Float64Array, b: Float64Array, m: number): Float64Array {
   const out = new Float64Array(m * m);
-  for (let i = 0; i < m; i++) for (let k = 0; k < m; k++) for (let j = 0; j < m; j++) out[i * m + j] += a[i * m + k] * b[k * m + j];
+  for (let i = 0; i < m; i++)
+    for (let k = 0; k < m; k++) for (let j = 0; j < m; j++) out[i * m + j] += a[i * m + k] * b[k * m + j];
   return out;
 }

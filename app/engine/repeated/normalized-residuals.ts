@@ -11,7 +11,11 @@ export interface ResidualColumns {
   readonly normalizedResidual: Float64Array;
 }
 
-export function residualColumns(problem: LikelihoodProblem, beta: Float64Array, factors: readonly PatternFactor[]): ResidualColumns {
+export function residualColumns(
+  problem: LikelihoodProblem,
+  beta: Float64Array,
+  factors: readonly PatternFactor[],
+): ResidualColumns {
   const { n, p, x, y } = problem;
   const fitted = new Float64Array(n);
   const residual = new Float64Array(n);

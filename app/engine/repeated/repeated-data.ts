@@ -6,7 +6,13 @@
  */
 import { EngineError } from "../errors";
 import { cellText, isMissingAt, orderLevels, parseNumber, type DataTable } from "../data";
-import { buildDesign, prepareData, type CategoricalVariable, type Design, type PreparedData } from "../design";
+import {
+  buildDesign,
+  prepareData,
+  type CategoricalVariable,
+  type Design,
+  type PreparedData,
+} from "../design";
 import { isInteraction, type ModelSpec } from "../model-spec";
 import type { RepeatedSpec } from "./repeated-spec";
 
@@ -39,7 +45,8 @@ export interface RepeatedData {
 export function prepareRepeatedData(spec: RepeatedSpec, table: DataTable): RepeatedData {
   const { repeated, ...rest } = spec;
   const visitTerm = spec.terms.find((t) => !isInteraction(t) && t.variable === repeated.visit);
-  if (!visitTerm) throw new EngineError(`visit column "${repeated.visit}" must also be a main term of the model`);
+  if (!visitTerm)
+    throw new EngineError(`visit column "${repeated.visit}" must also be a main term of the model`);
   if (repeated.subject === repeated.visit) throw new EngineError("the subject and visit columns must differ");
   for (const name of [repeated.subject, repeated.visitOrder].filter((c): c is string => c !== undefined)) {
     if (!(name in table.columns)) throw new EngineError(`column "${name}" is missing from the data`);
@@ -47,7 +54,9 @@ export function prepareRepeatedData(spec: RepeatedSpec, table: DataTable): Repea
   const linearSpec: ModelSpec = {
     ...rest,
     id: repeated.subject,
-    terms: spec.terms.map((t) => (!isInteraction(t) && t.variable === repeated.visit ? { ...t, categorical: true } : t)),
+    terms: spec.terms.map((t) =>
+      !isInteraction(t) && t.variable === repeated.visit ? { ...t, categorical: true } : t,
+    ),
   };
   // several records per subject, one per visit: the point of the model
   const data = prepareData(linearSpec, table, { oneRowPerSubject: false });
@@ -63,20 +72,31 @@ export function prepareRepeatedData(spec: RepeatedSpec, table: DataTable): Repea
     for (let k = 0; k < n; k++) {
       const i = data.used[k];
       const level = visitVariable.levels[visitVariable.codes[k]];
-      const v = cells instanceof Float64Array ? (Number.isNaN(cells[i]) ? null : cells[i]) : parseNumber(cellText(cells, i));
+      const v =
+        cells instanceof Float64Array
+          ? Number.isNaN(cells[i])
+            ? null
+            : cells[i]
+          : parseNumber(cellText(cells, i));
       if (v === null) {
-        throw new EngineError(`visit order column "${repeated.visitOrder}" is not numeric: data row ${table.rowNumbers[i]} has "${cellText(cells, i)}"`);
+        throw new EngineError(
+          `visit order column "${repeated.visitOrder}" is not numeric: data row ${table.rowNumbers[i]} has "${cellText(cells, i)}"`,
+        );
       }
       const seen = valueOf.get(level);
       if (seen !== undefined && seen !== v) {
-        throw new EngineError(`visit "${level}" has two values of "${repeated.visitOrder}" (${seen} and ${v}; data row ${table.rowNumbers[i]})`);
+        throw new EngineError(
+          `visit "${level}" has two values of "${repeated.visitOrder}" (${seen} and ${v}; data row ${table.rowNumbers[i]})`,
+        );
       }
       valueOf.set(level, v);
     }
     order = [...visitVariable.levels].sort((a, b) => (valueOf.get(a) as number) - (valueOf.get(b) as number));
     for (let j = 1; j < order.length; j++) {
       if (valueOf.get(order[j]) === valueOf.get(order[j - 1])) {
-        throw new EngineError(`visits "${order[j - 1]}" and "${order[j]}" share the order value ${valueOf.get(order[j])}`);
+        throw new EngineError(
+          `visits "${order[j - 1]}" and "${order[j]}" share the order value ${valueOf.get(order[j])}`,
+        );
       }
     }
   } else {
@@ -93,7 +113,10 @@ export function prepareRepeatedData(spec: RepeatedSpec, table: DataTable): Repea
   for (let k = 0; k < n; k++) {
     const i = data.used[k];
     const cell = cellText(subjectCells, i);
-    if (isMissingAt(subjectCells, i)) throw new EngineError(`subject column "${repeated.subject}" is empty at data row ${table.rowNumbers[i]}`);
+    if (isMissingAt(subjectCells, i))
+      throw new EngineError(
+        `subject column "${repeated.subject}" is empty at data row ${table.rowNumbers[i]}`,
+      );
     let s = subjectIndex.get(cell);
     if (s === undefined) {
       s = members.length;
@@ -114,8 +137,23 @@ export function prepareRepeatedData(spec: RepeatedSpec, table: DataTable): Repea
         );
       }
     }
-    return { id: ids[s], rows: Int32Array.from(rows), positions: Int32Array.from(rows, (r) => rowPosition[r]) };
+    return {
+      id: ids[s],
+      rows: Int32Array.from(rows),
+      positions: Int32Array.from(rows, (r) => rowPosition[r]),
+    };
   });
   const design = buildDesign(linearSpec, data);
-  return { spec, linearSpec, data, design, visits: order, visitVariable, positionOfLevel, subjects, rowPosition, rowSubject };
+  return {
+    spec,
+    linearSpec,
+    data,
+    design,
+    visits: order,
+    visitVariable,
+    positionOfLevel,
+    subjects,
+    rowPosition,
+    rowSubject,
+  };
 }

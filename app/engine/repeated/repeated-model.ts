@@ -15,7 +15,13 @@ import { fitCovariance, startingCovariance, type CovarianceFit } from "./covaria
 import { NotPositiveDefinite, type LikelihoodProblem } from "./likelihood";
 import { residualColumns, residualsByCell, type ResidualCell } from "./normalized-residuals";
 import { prepareRepeatedData, type RepeatedData } from "./repeated-data";
-import { parseRepeatedSpec, type CovarianceStructureName, type RepeatedDf, type RepeatedMethod, type RepeatedSpec } from "./repeated-spec";
+import {
+  parseRepeatedSpec,
+  type CovarianceStructureName,
+  type RepeatedDf,
+  type RepeatedMethod,
+  type RepeatedSpec,
+} from "./repeated-spec";
 import { fTest, satterthwaite, type DenominatorDf, type FTestResult } from "./satterthwaite";
 import { subjectInfluence } from "./subject-influence";
 import { kenwardRoger, linearBasis, type KenwardRoger } from "./kenward-roger";
@@ -133,7 +139,11 @@ export interface RepeatedResult {
     readonly contrasts: VisitContrast[];
     readonly pairwise: VisitContrast[];
   } | null;
-  readonly tests: { readonly treatment: RepeatedTest | null; readonly treatmentByVisit: RepeatedTest | null; readonly notes: string[] };
+  readonly tests: {
+    readonly treatment: RepeatedTest | null;
+    readonly treatmentByVisit: RepeatedTest | null;
+    readonly notes: string[];
+  };
   readonly structureTest: StructureTest | null;
   readonly counts: { readonly visit: string; readonly level: string | null; readonly subjects: number }[];
   /** Normalized residuals per visit and arm. */
@@ -163,26 +173,50 @@ function problemOf(rd: RepeatedData, method: RepeatedMethod): LikelihoodProblem 
   };
 }
 
-function attemptFit(problem: LikelihoodProblem, name: CovarianceStructureName, sigma0: Float64Array): { fit: CovarianceFit | null; reason: string | null; iterations: number } {
+function attemptFit(
+  problem: LikelihoodProblem,
+  name: CovarianceStructureName,
+  sigma0: Float64Array,
+): { fit: CovarianceFit | null; reason: string | null; iterations: number } {
   try {
     const fit = fitCovariance(problem, name, sigma0);
     if (!fit.converged) return { fit, reason: fit.reason ?? "did not converge", iterations: fit.iterations };
     const k = fit.theta.length;
     // a flat direction (a parameter the data cannot inform) leaves a pivot at rounding level
-    if (!("l" in cholesky(fit.hessian.map((v) => -v), k, 1e-7))) {
-      return { fit, reason: "the information matrix is singular at the estimate (some covariance parameter is not estimable)", iterations: fit.iterations };
+    if (
+      !(
+        "l" in
+        cholesky(
+          fit.hessian.map((v) => -v),
+          k,
+          1e-7,
+        )
+      )
+    ) {
+      return {
+        fit,
+        reason:
+          "the information matrix is singular at the estimate (some covariance parameter is not estimable)",
+        iterations: fit.iterations,
+      };
     }
     return { fit, reason: null, iterations: fit.iterations };
   } catch (err) {
     if (err instanceof NotPositiveDefinite) return { fit: null, reason: err.message, iterations: 0 };
-    if (err instanceof Error && /starting values/.test(err.message)) return { fit: null, reason: err.message, iterations: 0 };
+    if (err instanceof Error && /starting values/.test(err.message))
+      return { fit: null, reason: err.message, iterations: 0 };
     throw err;
   }
 }
 
-const rows = (m: Float64Array, t: number) => Array.from({ length: t }, (_, a) => Array.from(m.subarray(a * t, (a + 1) * t)));
+const rows = (m: Float64Array, t: number) =>
+  Array.from({ length: t }, (_, a) => Array.from(m.subarray(a * t, (a + 1) * t)));
 
-export function fitRepeatedModel(specInput: unknown, table: TableInput, options: RepeatedOptions = {}): RepeatedResult {
+export function fitRepeatedModel(
+  specInput: unknown,
+  table: TableInput,
+  options: RepeatedOptions = {},
+): RepeatedResult {
   const spec = parseRepeatedSpec(specInput);
   const dataTable = toDataTable(table);
   if (dataTable.nRows === 0) throw new EngineError("the data has no rows");
@@ -191,16 +225,25 @@ export function fitRepeatedModel(specInput: unknown, table: TableInput, options:
   const method = spec.repeated.method;
   const problem = problemOf(rd, method);
   const t = problem.t;
-  if (design.n <= design.p) throw new EngineError(`${design.n} records are too few for ${design.p} coefficients`);
+  if (design.n <= design.p)
+    throw new EngineError(`${design.n} records are too few for ${design.p} coefficients`);
   const sigma0 = startingCovariance(problem);
 
   // planned structure, then the fallbacks in order
-  const order = [spec.repeated.covariance, ...spec.repeated.fallback.filter((s) => s !== spec.repeated.covariance)];
+  const order = [
+    spec.repeated.covariance,
+    ...spec.repeated.fallback.filter((s) => s !== spec.repeated.covariance),
+  ];
   const attempts: StructureAttempt[] = [];
   let used: CovarianceFit | null = null;
   for (const name of order) {
     const a = attemptFit(problem, name, sigma0);
-    attempts.push({ structure: name, converged: a.reason === null, iterations: a.iterations, reason: a.reason });
+    attempts.push({
+      structure: name,
+      converged: a.reason === null,
+      iterations: a.iterations,
+      reason: a.reason,
+    });
     if (a.reason === null && a.fit) {
       used = a.fit;
       break;
@@ -231,8 +274,11 @@ export function fitRepeatedModel(specInput: unknown, table: TableInput, options:
   const sat = spec.repeated.df === "satterthwaite" ? satterthwaite(problem, fit) : null;
   const residualDf = design.n - p;
   const dfOf = (l: Float64Array) => (kr ? kr.df([l]) : sat ? sat.df(l) : residualDf);
-  const denominator: DenominatorDf = sat ? { kind: "satterthwaite", df: sat.df } : { kind: "residual", df: residualDf };
-  const runTest = (rows: readonly Float64Array[]) => (kr ? kr.fTest(rows, beta) : fTest(rows, beta, betaCovariance, denominator));
+  const denominator: DenominatorDf = sat
+    ? { kind: "satterthwaite", df: sat.df }
+    : { kind: "residual", df: residualDf };
+  const runTest = (rows: readonly Float64Array[]) =>
+    kr ? kr.fTest(rows, beta) : fTest(rows, beta, betaCovariance, denominator);
   /** Covariance behind every SE: Kenward–Roger's adjusted one when asked for, else (X'V⁻¹X)⁻¹. */
   const inferenceCovariance = kr ? kr.adjustedCovariance : betaCovariance;
   const seOf = (l: Float64Array) => {
@@ -254,7 +300,9 @@ export function fitRepeatedModel(specInput: unknown, table: TableInput, options:
     return { ...iv, statistic, p: tTwoSided(statistic, iv.df) };
   };
 
-  const termOf = design.names.map((_, j) => design.terms.find((tm) => tm.columns.includes(j))?.label ?? "Intercept");
+  const termOf = design.names.map(
+    (_, j) => design.terms.find((tm) => tm.columns.includes(j))?.label ?? "Intercept",
+  );
   const coefficients: RepeatedCoefficient[] = design.names.map((name, j) => {
     const l = new Float64Array(p);
     l[j] = 1;
@@ -269,8 +317,20 @@ export function fitRepeatedModel(specInput: unknown, table: TableInput, options:
         weighting,
         grid: vectors.grid,
         means: vectors.means.map((m) => ({ level: m.arm, visit: m.visit, ...interval(m.l) })),
-        contrasts: vectors.contrasts.map((c) => ({ label: c.label, level: c.level, reference: c.reference, visit: c.visit, ...withTest(c.l) })),
-        pairwise: vectors.pairwise.map((c) => ({ label: c.label, level: c.level, reference: c.reference, visit: c.visit, ...withTest(c.l) })),
+        contrasts: vectors.contrasts.map((c) => ({
+          label: c.label,
+          level: c.level,
+          reference: c.reference,
+          visit: c.visit,
+          ...withTest(c.l),
+        })),
+        pairwise: vectors.pairwise.map((c) => ({
+          label: c.label,
+          level: c.level,
+          reference: c.reference,
+          visit: c.visit,
+          ...withTest(c.l),
+        })),
       }
     : null;
 
@@ -278,16 +338,29 @@ export function fitRepeatedModel(specInput: unknown, table: TableInput, options:
   const interactionRows = treatmentByVisitRows(rd);
   const treatmentTest: RepeatedTest | null =
     vectors && vectors.treatmentRows.length > 0
-      ? { hypothesis: "treatment differences averaged over visits (equal weight per visit) are all zero", ...runTest(vectors.treatmentRows) }
+      ? {
+          hypothesis: "treatment differences averaged over visits (equal weight per visit) are all zero",
+          ...runTest(vectors.treatmentRows),
+        }
       : null;
   const interactionTest: RepeatedTest | null = interactionRows
-    ? { hypothesis: "treatment differences are the same at every visit (treatment-by-visit coefficients all zero)", ...runTest(interactionRows) }
+    ? {
+        hypothesis:
+          "treatment differences are the same at every visit (treatment-by-visit coefficients all zero)",
+        ...runTest(interactionRows),
+      }
     : null;
   if (!spec.treatment) testNotes.push("no treatment is named, so there are no treatment tests");
-  else if (!interactionRows) testNotes.push("the model has no treatment-by-visit term, so there is no treatment-by-visit test");
-  if (kr) testNotes.push("F tests are Kenward–Roger's scaled Wald tests on the adjusted covariance, with their denominator df");
+  else if (!interactionRows)
+    testNotes.push("the model has no treatment-by-visit term, so there is no treatment-by-visit test");
+  if (kr)
+    testNotes.push(
+      "F tests are Kenward–Roger's scaled Wald tests on the adjusted covariance, with their denominator df",
+    );
   if (spec.repeated.df === "satterthwaite") {
-    testNotes.push("F tests with more than one numerator df take the denominator df of Fai and Cornelius (1996) from the Satterthwaite df of the eigen-directions");
+    testNotes.push(
+      "F tests with more than one numerator df take the denominator df of Fai and Cornelius (1996) from the Satterthwaite df of the eigen-directions",
+    );
   }
 
   // structure against unstructured
@@ -297,9 +370,21 @@ export function fitRepeatedModel(specInput: unknown, table: TableInput, options:
     if (un.reason === null && un.fit) {
       const stat = Math.max(0, 2 * (un.fit.likelihood.logLik - logLik));
       const df = un.fit.parameterCount - fit.parameterCount;
-      structureTest = { against: "unstructured", statistic: stat, df, p: df > 0 ? chiSquareUpper(stat, df) : null, reason: df > 0 ? null : "the structures have the same number of parameters" };
+      structureTest = {
+        against: "unstructured",
+        statistic: stat,
+        df,
+        p: df > 0 ? chiSquareUpper(stat, df) : null,
+        reason: df > 0 ? null : "the structures have the same number of parameters",
+      };
     } else {
-      structureTest = { against: "unstructured", statistic: null, df: null, p: null, reason: `the unstructured fit did not succeed: ${un.reason}` };
+      structureTest = {
+        against: "unstructured",
+        statistic: null,
+        df: null,
+        p: null,
+        reason: `the unstructured fit did not succeed: ${un.reason}`,
+      };
     }
   }
 
@@ -308,10 +393,18 @@ export function fitRepeatedModel(specInput: unknown, table: TableInput, options:
   const visitLevels = rd.visits;
   const primaryVisit = spec.repeated.primaryVisit ?? visitLevels[visitLevels.length - 1];
   if (!visitLevels.includes(primaryVisit)) {
-    throw new EngineError(`primary visit "${primaryVisit}" is not among the visits of the records used: ${visitLevels.join(", ")}`);
+    throw new EngineError(
+      `primary visit "${primaryVisit}" is not among the visits of the records used: ${visitLevels.join(", ")}`,
+    );
   }
   const primaryContrasts = vectors ? vectors.contrasts.filter((c) => c.visit === primaryVisit) : [];
-  const influence = subjectInfluence(problem, beta, betaCovariance, fit.likelihood.factors, primaryContrasts.map((c) => c.l));
+  const influence = subjectInfluence(
+    problem,
+    beta,
+    betaCovariance,
+    fit.likelihood.factors,
+    primaryContrasts.map((c) => c.l),
+  );
 
   // counts per visit and arm
   const treatmentVariable = spec.treatment ? rd.data.variables.get(spec.treatment) : undefined;
@@ -321,14 +414,16 @@ export function fitRepeatedModel(specInput: unknown, table: TableInput, options:
     const levels = arms ? arms.levels.map((_, a) => a) : [null];
     for (const a of levels) {
       let c = 0;
-      for (let i = 0; i < design.n; i++) if (rd.rowPosition[i] === vi && (a === null || (arms as { codes: Int32Array }).codes[i] === a)) c++;
+      for (let i = 0; i < design.n; i++)
+        if (rd.rowPosition[i] === vi && (a === null || (arms as { codes: Int32Array }).codes[i] === a)) c++;
       counts.push({ visit, level: a === null || !arms ? null : arms.levels[a], subjects: c });
     }
   });
 
   const sd = Array.from({ length: t }, (_, a) => Math.sqrt(fit.sigma[a * t + a]));
   const correlation = new Float64Array(t * t);
-  for (let a = 0; a < t; a++) for (let b = 0; b < t; b++) correlation[a * t + b] = fit.sigma[a * t + b] / (sd[a] * sd[b]);
+  for (let a = 0; a < t; a++)
+    for (let b = 0; b < t; b++) correlation[a * t + b] = fit.sigma[a * t + b] / (sd[a] * sd[b]);
 
   return {
     kind: "repeated",
@@ -372,7 +467,8 @@ export function fitRepeatedModel(specInput: unknown, table: TableInput, options:
       normalizedResidual: Array.from(res.normalizedResidual),
     },
     influence: {
-      method: "exact deletion of the subject's records with the covariance parameters held at the full-data estimate (not refitted)",
+      method:
+        "exact deletion of the subject's records with the covariance parameters held at the full-data estimate (not refitted)",
       primaryVisit,
       contrasts: primaryContrasts.map((c) => c.label),
     },

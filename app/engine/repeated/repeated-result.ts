@@ -22,7 +22,15 @@ const interval = (x: { estimate: number; se: number; df: number; lower: number; 
 });
 
 const test = (t: RepeatedResult["tests"]["treatment"]) =>
-  t === null ? null : { hypothesis: t.hypothesis, statistic: num(t.statistic), numeratorDf: t.numeratorDf, denominatorDf: num(t.denominatorDf), p: num(t.p) };
+  t === null
+    ? null
+    : {
+        hypothesis: t.hypothesis,
+        statistic: num(t.statistic),
+        numeratorDf: t.numeratorDf,
+        denominatorDf: num(t.denominatorDf),
+        p: num(t.p),
+      };
 
 export function toRepeatedCliResult(result: RepeatedResult): Record<string, unknown> {
   const o = result.observations;
@@ -61,7 +69,12 @@ export function toRepeatedCliResult(result: RepeatedResult): Record<string, unkn
       matrix: c.matrix.map((row) => row.map(num)),
       correlation: c.correlation.map((row) => row.map(num)),
     },
-    coefficients: result.coefficients.map((x) => ({ name: x.name, ...interval(x), statistic: num(x.statistic), p: num(x.p) })),
+    coefficients: result.coefficients.map((x) => ({
+      name: x.name,
+      ...interval(x),
+      statistic: num(x.statistic),
+      p: num(x.p),
+    })),
     coefficientCovariance: {
       type: result.coefficientCovarianceType,
       names: result.coefficients.map((x) => x.name),
@@ -77,7 +90,11 @@ export function toRepeatedCliResult(result: RepeatedResult): Record<string, unkn
           pairwise: am.pairwise.map(contrast),
         }
       : null,
-    tests: { treatment: test(result.tests.treatment), treatmentByVisit: test(result.tests.treatmentByVisit), notes: result.tests.notes },
+    tests: {
+      treatment: test(result.tests.treatment),
+      treatmentByVisit: test(result.tests.treatmentByVisit),
+      notes: result.tests.notes,
+    },
     structureTest: result.structureTest,
     counts: result.counts,
     residualsByCell: result.residualsByCell.map((c) => ({ ...c, mean: num(c.mean), sd: num(c.sd) })),
@@ -90,7 +107,11 @@ export function toRepeatedCliResult(result: RepeatedResult): Record<string, unkn
       normalizedResidual: num(o.normalizedResidual[i]),
     })),
     influence: result.influence,
-    subjects: result.subjects.map((s) => ({ id: s.id, cooksDistance: num(s.cooksDistance), treatmentChange: s.treatmentChange.map(num) })),
+    subjects: result.subjects.map((s) => ({
+      id: s.id,
+      cooksDistance: num(s.cooksDistance),
+      treatmentChange: s.treatmentChange.map(num),
+    })),
   };
 }
 

@@ -60,12 +60,14 @@ export function parseRepeatedSpec(value: unknown): RepeatedSpec {
     throw new EngineError(`repeated-measures model specification is not valid${where}: ${issue.message}`);
   }
   const spec = parsed.data;
-  if (spec.family !== "gaussian") throw new EngineError(`a repeated-measures model needs the gaussian family, not "${spec.family}"`);
-  if (spec.link !== undefined && spec.link !== "identity") throw new EngineError(`a repeated-measures model needs the identity link, not "${spec.link}"`);
+  if (spec.family !== "gaussian")
+    throw new EngineError(`a repeated-measures model needs the gaussian family, not "${spec.family}"`);
+  if (spec.link !== undefined && spec.link !== "identity")
+    throw new EngineError(`a repeated-measures model needs the identity link, not "${spec.link}"`);
   if (spec.weights) throw new EngineError("a repeated-measures model does not take prior weights");
   if (spec.offset) throw new EngineError("a repeated-measures model does not take an offset");
   if (spec.repeated.df === "kenward-roger" && spec.repeated.method !== "reml") {
-    throw new EngineError("Kenward–Roger degrees of freedom need a REML fit (\"method\": \"reml\")");
+    throw new EngineError('Kenward–Roger degrees of freedom need a REML fit ("method": "reml")');
   }
   return spec;
 }

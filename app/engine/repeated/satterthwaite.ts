@@ -101,10 +101,17 @@ function multiply(a: Float64Array, b: Float64Array, p: number): Float64Array {
 }
 
 /** How the denominator df of an F test is found: Satterthwaite per direction, or one fixed df. */
-export type DenominatorDf = { readonly kind: "satterthwaite"; readonly df: (l: Float64Array) => number } | { readonly kind: "residual"; readonly df: number };
+export type DenominatorDf =
+  | { readonly kind: "satterthwaite"; readonly df: (l: Float64Array) => number }
+  | { readonly kind: "residual"; readonly df: number };
 
 /** F test of Lβ = 0 (rows of L). */
-export function fTest(rows: readonly Float64Array[], beta: Float64Array, c: Float64Array, method: DenominatorDf): FTestResult {
+export function fTest(
+  rows: readonly Float64Array[],
+  beta: Float64Array,
+  c: Float64Array,
+  method: DenominatorDf,
+): FTestResult {
   const p = beta.length;
   const q = rows.length;
   const m = new Float64Array(q * q);
@@ -132,6 +139,13 @@ export function fTest(rows: readonly Float64Array[], beta: Float64Array, c: Floa
     }
   }
   statistic /= q;
-  const denominatorDf = method.kind === "residual" ? method.df : q === 1 ? method.df(rows[0]) : allAbove && e > q ? (2 * e) / (e - q) : NaN;
+  const denominatorDf =
+    method.kind === "residual"
+      ? method.df
+      : q === 1
+        ? method.df(rows[0])
+        : allAbove && e > q
+          ? (2 * e) / (e - q)
+          : NaN;
   return { statistic, numeratorDf: q, denominatorDf, p: fUpper(statistic, q, denominatorDf) };
 }

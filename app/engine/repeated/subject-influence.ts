@@ -57,7 +57,8 @@ export function subjectInfluence(
         for (let k = 0; k < p; k++) ai[j * p + k] -= xj * u[c * p + k];
       }
     }
-    for (let j = 0; j < p; j++) for (let k = 0; k < j; k++) ai[j * p + k] = ai[k * p + j] = 0.5 * (ai[j * p + k] + ai[k * p + j]);
+    for (let j = 0; j < p; j++)
+      for (let k = 0; k < j; k++) ai[j * p + k] = ai[k * p + j] = 0.5 * (ai[j * p + k] + ai[k * p + j]);
     const fi = cholesky(ai, p, 1e-10);
     if (!("l" in fi)) {
       cooksDistance[si] = NaN;

@@ -47,12 +47,14 @@ export function visitMeanVectors(rd: RepeatedData, weighting: MeansWeighting): V
   if (!spec.treatment) return null;
   const treatment = data.variables.get(spec.treatment) as CategoricalVariable;
   const others = [...data.variables.values()].filter(
-    (v): v is CategoricalVariable => v.kind === "categorical" && v.name !== treatment.name && v.name !== visitVariable.name,
+    (v): v is CategoricalVariable =>
+      v.kind === "categorical" && v.name !== treatment.name && v.name !== visitVariable.name,
   );
   let cells: { levels: number[]; weight: number }[] = [{ levels: [], weight: 1 }];
   for (const f of others) {
     const next: typeof cells = [];
-    for (let l = 0; l < f.levels.length; l++) for (const c of cells) next.push({ levels: [...c.levels, l], weight: 1 });
+    for (let l = 0; l < f.levels.length; l++)
+      for (const c of cells) next.push({ levels: [...c.levels, l], weight: 1 });
     cells = next;
   }
   if (weighting === "proportional" && others.length > 0) {
@@ -70,7 +72,8 @@ export function visitMeanVectors(rd: RepeatedData, weighting: MeansWeighting): V
     for (const cell of cells) {
       if (cell.weight === 0) continue;
       const point = new Map<string, number>();
-      for (const v of data.variables.values() as Iterable<Variable>) if (v.kind === "continuous") point.set(v.name, v.mean);
+      for (const v of data.variables.values() as Iterable<Variable>)
+        if (v.kind === "continuous") point.set(v.name, v.mean);
       point.set(treatment.name, arm);
       point.set(visitVariable.name, visitLevel);
       others.forEach((f, i) => point.set(f.name, cell.levels[i]));
@@ -96,12 +99,24 @@ export function visitMeanVectors(rd: RepeatedData, weighting: MeansWeighting): V
   rd.visits.forEach((visit, vi) => {
     treatment.levels.forEach((level, a) => {
       if (a === ref) return;
-      contrasts.push({ label: `${level} vs ${treatment.reference}`, level, reference: treatment.reference, visit, l: diff(byArm[a][vi], byArm[ref][vi]) });
+      contrasts.push({
+        label: `${level} vs ${treatment.reference}`,
+        level,
+        reference: treatment.reference,
+        visit,
+        l: diff(byArm[a][vi], byArm[ref][vi]),
+      });
     });
     treatment.levels.forEach((level, a) => {
       treatment.levels.forEach((other, b) => {
         if (a === ref || b === ref || b <= a) return;
-        pairwise.push({ label: `${other} vs ${level}`, level: other, reference: level, visit, l: diff(byArm[b][vi], byArm[a][vi]) });
+        pairwise.push({
+          label: `${other} vs ${level}`,
+          level: other,
+          reference: level,
+          visit,
+          l: diff(byArm[b][vi], byArm[a][vi]),
+        });
       });
     });
   });
@@ -118,7 +133,10 @@ export function visitMeanVectors(rd: RepeatedData, weighting: MeansWeighting): V
       .filter((v): v is Extract<Variable, { kind: "continuous" }> => v.kind === "continuous")
       .map((v) => ({ variable: v.name, value: v.mean })),
     factors: others.map((f) => f.name),
-    cells: cells.map((c) => ({ levels: c.levels.map((l, i) => others[i].levels[l]), weight: c.weight / total })),
+    cells: cells.map((c) => ({
+      levels: c.levels.map((l, i) => others[i].levels[l]),
+      weight: c.weight / total,
+    })),
   };
   return { treatment: treatment.name, grid, means, contrasts, pairwise, treatmentRows };
 }
@@ -128,7 +146,10 @@ export function treatmentByVisitRows(rd: RepeatedData): Float64Array[] | null {
   const treatment = rd.spec.treatment;
   if (!treatment) return null;
   const term = rd.design.terms.find(
-    (t) => t.variables.length === 2 && t.variables.includes(treatment) && t.variables.includes(rd.visitVariable.name),
+    (t) =>
+      t.variables.length === 2 &&
+      t.variables.includes(treatment) &&
+      t.variables.includes(rd.visitVariable.name),
   );
   if (!term || term.columns.length === 0) return null;
   return term.columns.map((j) => {

@@ -33,13 +33,15 @@ export function concordance(
     return s;
   };
 
-  const idx = Array.from({ length: n }, (_, i) => i).sort((a, b) => stratum[a] - stratum[b] || time[b] - time[a]);
+  const idx = Array.from({ length: n }, (_, i) => i).sort(
+    (a, b) => stratum[a] - stratum[b] || time[b] - time[a],
+  );
   let concordant = 0;
   let discordant = 0;
   let tied = 0;
   let inserted: number[] = [];
   let total = 0;
-  for (let s = 0; s < n; ) {
+  for (let s = 0; s < n;) {
     if (s === 0 || stratum[idx[s]] !== stratum[idx[s - 1]]) {
       for (const i of inserted) add(rank[i], -weight[i]);
       inserted = [];

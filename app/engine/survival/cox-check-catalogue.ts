@@ -12,7 +12,8 @@ export const COX_CHECKS: readonly CheckDefinition[] = [
     rule: "finding when the global test or any term's test of proportional hazards has p below k; read with the scaled Schoenfeld residual plot, since large trials reject trivial departures",
     defaultThreshold: 0.05,
     source: "p < 0.05 with the scaled Schoenfeld residuals (Grambsch and Therneau 1994)",
-    defaultRemedy: "Judge the scaled Schoenfeld plots; if the departure matters, a stratified or time-varying treatment effect as a sensitivity analysis",
+    defaultRemedy:
+      "Judge the scaled Schoenfeld plots; if the departure matters, a stratified or time-varying treatment effect as a sensitivity analysis",
     figure: "schoenfeld",
   },
   {
@@ -21,8 +22,10 @@ export const COX_CHECKS: readonly CheckDefinition[] = [
     label: "Functional form of continuous covariates",
     rule: "finding when a likelihood-ratio test of an added squared term has p below k for any continuous covariate; read with the martingale residuals against the covariate",
     defaultThreshold: 0.05,
-    source: "martingale residuals against the covariate with a smoother (Therneau, Grambsch and Fleming 1990); likelihood-ratio test of a quadratic term",
-    defaultRemedy: "Inspect the martingale residual plot; consider a spline or transformation of the covariate",
+    source:
+      "martingale residuals against the covariate with a smoother (Therneau, Grambsch and Fleming 1990); likelihood-ratio test of a quadratic term",
+    defaultRemedy:
+      "Inspect the martingale residual plot; consider a spline or transformation of the covariate",
     figure: "martingale_covariate",
   },
   {

@@ -3,7 +3,15 @@
  * functional form of continuous covariates, influence on the treatment log hazard ratio, and
  * events per coefficient. Each ends as within plan, finding or not computed. Pure: no I/O.
  */
-import { CHECK_BY_KEY, distributionWords, formatP, type CheckDefinition, type CheckOutcome, type FlaggedObservation, type PlannedCheck } from "../checks";
+import {
+  CHECK_BY_KEY,
+  distributionWords,
+  formatP,
+  type CheckDefinition,
+  type CheckOutcome,
+  type FlaggedObservation,
+  type PlannedCheck,
+} from "../checks";
 import type { CoxResult } from "./cox-model";
 import type { FunctionalFormTest } from "./functional-form";
 
@@ -16,8 +24,23 @@ const fmt = (x: number, digits = 3): string => {
 const kText = (k: number): string => String(Number(k.toPrecision(4)));
 const pText = (p: number): string => (p < 0.0001 ? "p < 0.0001" : `p = ${p.toFixed(4)}`);
 
-function notComputed(def: CheckDefinition, pc: PlannedCheck, threshold: string, summary: string): CheckOutcome {
-  return { key: def.key, label: def.label, outcome: "not_computed", statistic: "not computed", threshold, summary, remedy: pc.remedy, figure: def.figure, value: null };
+function notComputed(
+  def: CheckDefinition,
+  pc: PlannedCheck,
+  threshold: string,
+  summary: string,
+): CheckOutcome {
+  return {
+    key: def.key,
+    label: def.label,
+    outcome: "not_computed",
+    statistic: "not computed",
+    threshold,
+    summary,
+    remedy: pc.remedy,
+    figure: def.figure,
+    value: null,
+  };
 }
 
 /** The coefficient indices of the treatment term. */
@@ -30,7 +53,13 @@ function proportionalHazards(def: CheckDefinition, pc: PlannedCheck, r: CoxResul
   const k = pc.threshold;
   const ph = r.tests.proportionalHazards;
   const g = ph.global;
-  if (!Number.isFinite(g.p)) return notComputed(def, pc, `p < ${kText(k)}`, "Not computed: the test statistic is undefined for this fit.");
+  if (!Number.isFinite(g.p))
+    return notComputed(
+      def,
+      pc,
+      `p < ${kText(k)}`,
+      "Not computed: the test statistic is undefined for this fit.",
+    );
   const rejected = ph.terms.filter((t) => t.p < k);
   const worst = ph.terms.reduce((a, b) => (b.p < a.p ? b : a), ph.terms[0]);
   const finding = g.p < k || rejected.length > 0;
@@ -46,16 +75,34 @@ function proportionalHazards(def: CheckDefinition, pc: PlannedCheck, r: CoxResul
     remedy: pc.remedy,
     figure: def.figure,
     value: g.p,
-    numbers: { measure: "global Grambsch–Therneau statistic", statistic: g.statistic, df: [g.df], threshold: k, compares: "p below", p: g.p },
+    numbers: {
+      measure: "global Grambsch–Therneau statistic",
+      statistic: g.statistic,
+      df: [g.df],
+      threshold: k,
+      compares: "p below",
+      p: g.p,
+    },
   };
 }
 
-function functionalForm(def: CheckDefinition, pc: PlannedCheck, tests: readonly FunctionalFormTest[]): CheckOutcome {
+function functionalForm(
+  def: CheckDefinition,
+  pc: PlannedCheck,
+  tests: readonly FunctionalFormTest[],
+): CheckOutcome {
   const k = pc.threshold;
-  const done = tests.filter((t): t is FunctionalFormTest & { p: number; statistic: number } => t.p !== null && t.statistic !== null);
+  const done = tests.filter(
+    (t): t is FunctionalFormTest & { p: number; statistic: number } => t.p !== null && t.statistic !== null,
+  );
   if (done.length === 0) {
     const reason = tests.find((t) => t.reason)?.reason;
-    return notComputed(def, pc, `p < ${kText(k)}`, reason ? `Not computed: ${reason}.` : "Not computed: the model has no continuous covariate.");
+    return notComputed(
+      def,
+      pc,
+      `p < ${kText(k)}`,
+      reason ? `Not computed: ${reason}.` : "Not computed: the model has no continuous covariate.",
+    );
   }
   const worst = done.reduce((a, b) => (b.p < a.p ? b : a));
   const over = done.filter((t) => t.p < k);
@@ -71,7 +118,14 @@ function functionalForm(def: CheckDefinition, pc: PlannedCheck, tests: readonly 
     remedy: pc.remedy,
     figure: def.figure,
     value: worst.p,
-    numbers: { measure: `likelihood-ratio statistic of the squared term, ${worst.term}`, statistic: worst.statistic, df: [1], threshold: k, compares: "p below", p: worst.p },
+    numbers: {
+      measure: `likelihood-ratio statistic of the squared term, ${worst.term}`,
+      statistic: worst.statistic,
+      df: [1],
+      threshold: k,
+      compares: "p below",
+      p: worst.p,
+    },
   };
 }
 
@@ -81,7 +135,8 @@ function influence(def: CheckDefinition, pc: PlannedCheck, r: CoxResult): CheckO
   const bound = k / Math.sqrt(n);
   const threshold = `${kText(k)}/√n = ${fmt(bound, 4)}`;
   const idx = treatmentCoefficients(r);
-  if (idx.length === 0) return notComputed(def, pc, `${kText(k)}/√n`, "Not computed: the model names no treatment.");
+  if (idx.length === 0)
+    return notComputed(def, pc, `${kText(k)}/√n`, "Not computed: the model names no treatment.");
   const obs = r.observations;
   const worst = obs.row.map((_, i) => {
     let m = 0;
@@ -108,12 +163,21 @@ function influence(def: CheckDefinition, pc: PlannedCheck, r: CoxResult): CheckO
         ? `largest absolute DFBETAS on the treatment effect ${fmt(Math.abs(worst[maxIndex]))}${worst[maxIndex] < 0 ? ", negative" : worst[maxIndex] > 0 ? ", positive" : ""} (${who({ id: obs.id[maxIndex], row: obs.row[maxIndex] })})`
         : "largest absolute DFBETAS on the treatment effect —",
     threshold,
-    summary: flagged.length ? `${flagged.length} of ${n} subjects exceed the threshold; the most extreme is ${who(flagged[0])}.` : "No subject exceeds the threshold.",
+    summary: flagged.length
+      ? `${flagged.length} of ${n} subjects exceed the threshold; the most extreme is ${who(flagged[0])}.`
+      : "No subject exceeds the threshold.",
     remedy: pc.remedy,
     figure: def.figure,
     flagged,
     value: maxIndex >= 0 ? worst[maxIndex] : null,
-    numbers: { measure: "largest absolute DFBETAS on the treatment effect", statistic: maxIndex >= 0 ? Math.abs(worst[maxIndex]) : null, df: null, threshold: bound, compares: "statistic above", p: null },
+    numbers: {
+      measure: "largest absolute DFBETAS on the treatment effect",
+      statistic: maxIndex >= 0 ? Math.abs(worst[maxIndex]) : null,
+      df: null,
+      threshold: bound,
+      compares: "statistic above",
+      p: null,
+    },
   };
 }
 
@@ -127,16 +191,29 @@ function eventsPerCoefficient(def: CheckDefinition, pc: PlannedCheck, r: CoxResu
     outcome: finding ? "finding" : "within",
     statistic: `${fmt(epc, 1)} events per estimated coefficient (${r.fit.events} events, ${r.coefficients.length} coefficients)`,
     threshold: `< ${kText(k)}`,
-    summary: finding ? "Fewer events per coefficient than planned: log hazard ratios may be biased away from zero and intervals too narrow." : "Enough events per estimated coefficient.",
+    summary: finding
+      ? "Fewer events per coefficient than planned: log hazard ratios may be biased away from zero and intervals too narrow."
+      : "Enough events per estimated coefficient.",
     remedy: pc.remedy,
     figure: def.figure,
     value: epc,
-    numbers: { measure: "events per estimated coefficient", statistic: epc, df: null, threshold: k, compares: "statistic below", p: null },
+    numbers: {
+      measure: "events per estimated coefficient",
+      statistic: epc,
+      df: null,
+      threshold: k,
+      compares: "statistic below",
+      p: null,
+    },
   };
 }
 
 /** Every enabled check of the plan on a Cox rerun; checks of other model kinds end as not computed. */
-export function evaluateCoxChecks(r: CoxResult, planned: readonly PlannedCheck[], functionalFormTests: readonly FunctionalFormTest[]): CheckOutcome[] {
+export function evaluateCoxChecks(
+  r: CoxResult,
+  planned: readonly PlannedCheck[],
+  functionalFormTests: readonly FunctionalFormTest[],
+): CheckOutcome[] {
   const out: CheckOutcome[] = [];
   for (const pc of planned) {
     if (!pc.enabled) continue;
@@ -156,7 +233,14 @@ export function evaluateCoxChecks(r: CoxResult, planned: readonly PlannedCheck[]
         out.push(eventsPerCoefficient(def, pc, r));
         break;
       default:
-        out.push(notComputed(def, pc, String(pc.threshold), "Not computed: this check applies to linear and generalized linear models; the model is a Cox model."));
+        out.push(
+          notComputed(
+            def,
+            pc,
+            String(pc.threshold),
+            "Not computed: this check applies to linear and generalized linear models; the model is a Cox model.",
+          ),
+        );
     }
   }
   return out;

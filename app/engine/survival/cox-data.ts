@@ -54,7 +54,9 @@ export interface PreparedCox {
 
 function statusMatcher(spec: CoxSpec, column: TypedColumn): (i: number) => boolean {
   const texts = new Set(spec.status.event.map((v) => String(v).trim()));
-  const numbers = spec.status.event.map((v) => (typeof v === "number" ? v : parseNumber(v))).filter((v): v is number => v !== null);
+  const numbers = spec.status.event
+    .map((v) => (typeof v === "number" ? v : parseNumber(v)))
+    .filter((v): v is number => v !== null);
   if (column instanceof Float64Array) {
     // a typed number is its own value; its text is the shortest round-trip form
     return (i) => numbers.includes(column[i]) || texts.has(String(column[i]));
@@ -100,7 +102,9 @@ export function prepareCoxData(spec: CoxSpec, table: DataTable): PreparedCox {
   for (const s of spec.strata) {
     if (s === spec.response) throw new EngineError(`strata column "${s}" is the time column`);
     if (spec.terms.some((t) => "variable" in t && t.variable === s)) {
-      throw new EngineError(`strata column "${s}" is also listed as a term; a stratified variable has no coefficient`);
+      throw new EngineError(
+        `strata column "${s}" is also listed as a term; a stratified variable has no coefficient`,
+      );
     }
   }
   // rows missing status, a stratum or the cluster are left out before the design reads the rest
@@ -111,8 +115,14 @@ export function prepareCoxData(spec: CoxSpec, table: DataTable): PreparedCox {
     else keep.push(i);
   }
   const columns: Record<string, TypedColumn> = {};
-  for (const name of table.names) columns[name] = keep.length === table.nRows ? table.columns[name] : selectRows(table.columns[name], keep);
-  const kept: DataTable = { names: table.names, columns, nRows: keep.length, rowNumbers: keep.map((i) => table.rowNumbers[i]) };
+  for (const name of table.names)
+    columns[name] = keep.length === table.nRows ? table.columns[name] : selectRows(table.columns[name], keep);
+  const kept: DataTable = {
+    names: table.names,
+    columns,
+    nRows: keep.length,
+    rowNumbers: keep.map((i) => table.rowNumbers[i]),
+  };
 
   const designSpec: ModelSpec = {
     response: spec.response,
@@ -133,7 +143,10 @@ export function prepareCoxData(spec: CoxSpec, table: DataTable): PreparedCox {
 
   const time = mergeNearTies(prepared.response);
   for (let k = 0; k < n; k++) {
-    if (time[k] < 0) throw new EngineError(`time column "${spec.response}" has a negative time (${time[k]}) at data row ${rowOf(k)}`);
+    if (time[k] < 0)
+      throw new EngineError(
+        `time column "${spec.response}" has a negative time (${time[k]}) at data row ${rowOf(k)}`,
+      );
   }
   const isEvent = statusMatcher(spec, kept.columns[spec.status.column]);
   const status = new Uint8Array(n);
@@ -148,7 +161,8 @@ export function prepareCoxData(spec: CoxSpec, table: DataTable): PreparedCox {
     );
   }
 
-  const labelOf = (k: number) => spec.strata.map((s) => levelName(s, cellText(kept.columns[s], prepared.used[k]).trim())).join(", ");
+  const labelOf = (k: number) =>
+    spec.strata.map((s) => levelName(s, cellText(kept.columns[s], prepared.used[k]).trim())).join(", ");
   const labels = [...new Set(Array.from({ length: n }, (_, k) => labelOf(k)))].sort();
   const labelIndex = new Map(labels.map((l, i) => [l, i]));
   const stratum = Int32Array.from({ length: n }, (_, k) => labelIndex.get(labelOf(k)) as number);
@@ -166,7 +180,7 @@ export function prepareCoxData(spec: CoxSpec, table: DataTable): PreparedCox {
     (a, b) => stratum[a] - stratum[b] || time[a] - time[b] || status[b] - status[a] || a - b,
   );
   const blocks: TimeBlock[] = [];
-  for (let s = 0; s < n; ) {
+  for (let s = 0; s < n;) {
     let e = s + 1;
     while (e < n && stratum[order[e]] === stratum[order[s]] && time[order[e]] === time[order[s]]) e++;
     const deaths: number[] = [];
@@ -174,7 +188,9 @@ export function prepareCoxData(spec: CoxSpec, table: DataTable): PreparedCox {
     blocks.push({ stratum: stratum[order[s]], time: time[order[s]], start: s, end: e, deaths });
     s = e;
   }
-  const cluster = spec.cluster ? Array.from(prepared.used, (i) => cellText(kept.columns[spec.cluster as string], i).trim()) : null;
+  const cluster = spec.cluster
+    ? Array.from(prepared.used, (i) => cellText(kept.columns[spec.cluster as string], i).trim())
+    : null;
 
   return {
     data: {

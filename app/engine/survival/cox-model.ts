@@ -18,7 +18,11 @@ import { logRank, type LogRankTest } from "./log-rank";
 import { detectMonotoneLikelihood } from "./monotone-likelihood";
 import { newtonRaphson } from "./newton-raphson";
 import { linearPredictor, sweep } from "./partial-likelihood";
-import { proportionalHazardsTest, type ChiSquareTest, type ProportionalHazardsTest } from "./proportional-hazards";
+import {
+  proportionalHazardsTest,
+  type ChiSquareTest,
+  type ProportionalHazardsTest,
+} from "./proportional-hazards";
 import { cholesky, choleskyInverse, inverseQuadraticForm } from "./symmetric";
 
 /** Raised when the partial likelihood rises without bound: the planned model has no finite estimate. */
@@ -167,7 +171,12 @@ function crossProduct(columns: readonly Float64Array[]): Float64Array {
 }
 
 /** Score residuals times a p×p matrix, each multiplied by the row weight when `weighted`. */
-function timesMatrix(score: readonly Float64Array[], m: Float64Array, data: CoxData, weighted: boolean): Float64Array[] {
+function timesMatrix(
+  score: readonly Float64Array[],
+  m: Float64Array,
+  data: CoxData,
+  weighted: boolean,
+): Float64Array[] {
   const { n, p } = data;
   return Array.from({ length: p }, (_, j) => {
     const out = new Float64Array(n);
@@ -187,13 +196,20 @@ export function fitCoxModel(specInput: CoxSpec | unknown, tableInput: TableInput
   if (table.nRows === 0) throw new EngineError("the data has no rows");
   const { data, prepared, design, excludedRows } = prepareCoxData(spec, table);
   const { n, p } = data;
-  if (p === 0) throw new EngineError("the time-to-event model has no terms; list at least one covariate or the treatment");
+  if (p === 0)
+    throw new EngineError(
+      "the time-to-event model has no terms; list at least one covariate or the treatment",
+    );
   const events = data.status.reduce((s, v) => s + v, 0);
   const termOf = new Map<number, string>();
   for (const t of design.terms) for (const c of t.columns) termOf.set(c, t.label);
 
   // aliased columns make the information singular at every β
-  const start = cholesky(sweep(data, linearPredictor(data, new Float64Array(p)), spec.ties, false).info, p, 1e-10);
+  const start = cholesky(
+    sweep(data, linearPredictor(data, new Float64Array(p)), spec.ties, false).info,
+    p,
+    1e-10,
+  );
   if (!("l" in start)) {
     throw new EngineError(
       `the design's columns are aliased: "${design.names[start.failedColumn]}" cannot be estimated apart from earlier columns (or never varies within a risk set); a planned model must be estimable as written`,
@@ -212,7 +228,9 @@ export function fitCoxModel(specInput: CoxSpec | unknown, tableInput: TableInput
     if (found) {
       const names = found.coefficients.map((j) => design.names[j]);
       const termLabels = [...new Set(found.coefficients.map((j) => termOf.get(j) as string))];
-      const described = found.coefficients.map((j, k) => `"${design.names[j]}" towards ${found.signs[k] > 0 ? "+" : "−"}∞`).join(", ");
+      const described = found.coefficients
+        .map((j, k) => `"${design.names[j]}" towards ${found.signs[k] > 0 ? "+" : "−"}∞`)
+        .join(", ");
       throw new MonotoneLikelihoodError(
         `monotone likelihood: the partial likelihood keeps rising as ${described} (every event ranks highest in its risk set along that direction, for example a group with no events), so the planned model has no finite maximum-likelihood estimate; consider a penalized (Firth) fit or merging levels as a documented deviation`,
         names,
@@ -220,14 +238,19 @@ export function fitCoxModel(specInput: CoxSpec | unknown, tableInput: TableInput
       );
     }
     if (nr.singularColumn !== null) {
-      throw new EngineError(`the information matrix became singular at "${design.names[nr.singularColumn]}" during the fit; the model cannot be estimated as written`);
+      throw new EngineError(
+        `the information matrix became singular at "${design.names[nr.singularColumn]}" during the fit; the model cannot be estimated as written`,
+      );
     }
   }
 
   const beta = nr.beta;
   const fitSweep = nr.final;
   const factor = cholesky(fitSweep.info, p, 0);
-  if (!("l" in factor)) throw new EngineError(`the information matrix is singular at the estimate ("${design.names[factor.failedColumn]}")`);
+  if (!("l" in factor))
+    throw new EngineError(
+      `the information matrix is singular at the estimate ("${design.names[factor.failedColumn]}")`,
+    );
   const variance = choleskyInverse(factor.l, p);
 
   const res = coxResiduals(data, fitSweep);
@@ -247,9 +270,24 @@ export function fitCoxModel(specInput: CoxSpec | unknown, tableInput: TableInput
     const se = seModel[j];
     const used = robust ? robustSe : se;
     const statistic = estimate / used;
-    return { name, term: termOf.get(j) as string, estimate, se, robustSe, statistic, p: 2 * normalUpper(Math.abs(statistic)), lower: estimate - q * used, upper: estimate + q * used };
+    return {
+      name,
+      term: termOf.get(j) as string,
+      estimate,
+      se,
+      robustSe,
+      statistic,
+      p: 2 * normalUpper(Math.abs(statistic)),
+      lower: estimate - q * used,
+      upper: estimate + q * used,
+    };
   });
-  const ratios = coefficients.map((c) => ({ name: c.name, ratio: Math.exp(c.estimate), lower: Math.exp(c.lower), upper: Math.exp(c.upper) }));
+  const ratios = coefficients.map((c) => ({
+    name: c.name,
+    ratio: Math.exp(c.estimate),
+    lower: Math.exp(c.lower),
+    upper: Math.exp(c.upper),
+  }));
 
   const logLikNull = nr.initial.logLik;
   const likelihoodRatio = chiSquare(2 * (nr.logLik - logLikNull), p);
@@ -288,23 +326,38 @@ export function fitCoxModel(specInput: CoxSpec | unknown, tableInput: TableInput
   const armLevels = treatment && treatment.kind === "categorical" ? treatment.levels : [null];
   const all = Array.from({ length: n }, (_, i) => i);
   armLevels.forEach((level, a) => {
-    survival.push({ level, stratum: null, ...kaplanMeier(all.filter((i) => armOf[i] === a), data.time, data.status) });
+    survival.push({
+      level,
+      stratum: null,
+      ...kaplanMeier(
+        all.filter((i) => armOf[i] === a),
+        data.time,
+        data.status,
+      ),
+    });
   });
   if (spec.strata.length > 0) {
     data.strataLabels.forEach((label, s) => {
       armLevels.forEach((level, a) => {
         const rows = all.filter((i) => armOf[i] === a && data.stratum[i] === s);
-        if (rows.length > 0) survival.push({ level, stratum: label, ...kaplanMeier(rows, data.time, data.status) });
+        if (rows.length > 0)
+          survival.push({ level, stratum: label, ...kaplanMeier(rows, data.time, data.status) });
       });
     });
   }
-  if (armLevels.length > 1) logRankTest = logRank(armOf, armLevels.length, data.stratum, data.time, data.status);
+  if (armLevels.length > 1)
+    logRankTest = logRank(armOf, armLevels.length, data.stratum, data.time, data.status);
 
   const eventsPerCoefficient = events / p;
   const notes: string[] = [];
-  if (!nr.converged) notes.push(`Newton–Raphson stopped after ${nr.iterations} iterations without meeting the convergence rule; read the estimates with care.`);
+  if (!nr.converged)
+    notes.push(
+      `Newton–Raphson stopped after ${nr.iterations} iterations without meeting the convergence rule; read the estimates with care.`,
+    );
   if (eventsPerCoefficient < 10) {
-    notes.push(`Only ${eventsPerCoefficient.toFixed(1)} events per estimated coefficient (fewer than 10): estimates may be biased away from zero and intervals too narrow.`);
+    notes.push(
+      `Only ${eventsPerCoefficient.toFixed(1)} events per estimated coefficient (fewer than 10): estimates may be biased away from zero and intervals too narrow.`,
+    );
   }
 
   const scaledFactor = res.eventRows.length;
@@ -315,7 +368,13 @@ export function fitCoxModel(specInput: CoxSpec | unknown, tableInput: TableInput
       for (let l = 0; l < p; l++) s += residual[l] * variance[l * p + j];
       return s * scaledFactor + beta[j];
     });
-    return { row: prepared.rowNumbers[prepared.used[i]], time: data.time[i], stratum: data.strataLabels[data.stratum[i]], residual, scaled };
+    return {
+      row: prepared.rowNumbers[prepared.used[i]],
+      time: data.time[i],
+      stratum: data.strataLabels[data.stratum[i]],
+      residual,
+      scaled,
+    };
   });
 
   return {
@@ -328,13 +387,25 @@ export function fitCoxModel(specInput: CoxSpec | unknown, tableInput: TableInput
     excluded: excludedRows.length,
     excludedRows,
     strata: spec.strata.length > 0 ? data.strataLabels : [],
-    terms: design.terms.map((t) => ({ label: t.label, kind: t.kind, coefficients: t.columns.map((c) => design.names[c]) })),
+    terms: design.terms.map((t) => ({
+      label: t.label,
+      kind: t.kind,
+      coefficients: t.columns.map((c) => design.names[c]),
+    })),
     coefficients,
     ratios,
     covariance: rowsOf(variance, p),
     robustCovariance: rowsOf(robustVar, p),
     robust,
-    fit: { logLik: nr.logLik, logLikNull, events, eventsPerCoefficient, concordance: conc, iterations: nr.iterations, converged: nr.converged },
+    fit: {
+      logLik: nr.logLik,
+      logLikNull,
+      events,
+      eventsPerCoefficient,
+      concordance: conc,
+      iterations: nr.iterations,
+      converged: nr.converged,
+    },
     tests: {
       likelihoodRatio,
       wald: chiSquare(waldStatistic, p),

@@ -33,7 +33,12 @@ export function toCoxCliResult(result: CoxResult): Record<string, unknown> {
       lower: num(c.lower),
       upper: num(c.upper),
     })),
-    ratios: result.ratios.map((r) => ({ name: r.name, ratio: num(r.ratio), lower: num(r.lower), upper: num(r.upper) })),
+    ratios: result.ratios.map((r) => ({
+      name: r.name,
+      ratio: num(r.ratio),
+      lower: num(r.lower),
+      upper: num(r.upper),
+    })),
     fit: {
       logLik: num(result.fit.logLik),
       logLikNull: num(result.fit.logLikNull),
@@ -65,7 +70,12 @@ export function toCoxCliResult(result: CoxResult): Record<string, unknown> {
       dfbeta: o.dfbeta.map((c) => num(c[i])),
       dfbetas: o.dfbetas.map((c) => num(c[i])),
     })),
-    schoenfeld: result.schoenfeld.map((s) => ({ row: s.row, time: s.time, residual: s.residual.map(num), scaled: s.scaled.map(num) })),
+    schoenfeld: result.schoenfeld.map((s) => ({
+      row: s.row,
+      time: s.time,
+      residual: s.residual.map(num),
+      scaled: s.scaled.map(num),
+    })),
     survival: result.survival.map((s) => ({
       level: s.level,
       stratum: s.stratum,

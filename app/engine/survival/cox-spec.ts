@@ -40,7 +40,10 @@ export const coxSpecSchema = z
     id: z.string().min(1).optional(),
     /** The analysis population: conditions every analysed row meets (population.ts). */
     population: populationSchema.optional(),
-    proportionalHazards: z.object({ transform: timeTransformSchema.default("km") }).strict().default({ transform: "km" }),
+    proportionalHazards: z
+      .object({ transform: timeTransformSchema.default("km") })
+      .strict()
+      .default({ transform: "km" }),
   })
   .strict();
 

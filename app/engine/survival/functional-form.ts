@@ -34,14 +34,21 @@ function squareColumn(cells: TypedColumn): TypedColumn {
 }
 
 /** One test per continuous main term (in model order). */
-export function coxFunctionalForm(spec: CoxSpec, table: ColumnTable, fitted: CoxResult): FunctionalFormTest[] {
+export function coxFunctionalForm(
+  spec: CoxSpec,
+  table: ColumnTable,
+  fitted: CoxResult,
+): FunctionalFormTest[] {
   return continuousCoxTerms(fitted).map((term) => {
     const cells = table.columns[term];
     let name = `${term} squared`;
     while (name in table.columns) name = `${name}_`;
     const squared = squareColumn(cells);
     try {
-      const bigger = fitCoxModel({ ...spec, terms: [...spec.terms, { variable: name }] }, { columns: { ...table.columns, [name]: squared }, rowNumbers: table.rowNumbers });
+      const bigger = fitCoxModel(
+        { ...spec, terms: [...spec.terms, { variable: name }] },
+        { columns: { ...table.columns, [name]: squared }, rowNumbers: table.rowNumbers },
+      );
       const statistic = Math.max(0, 2 * (bigger.fit.logLik - fitted.fit.logLik));
       return { term, statistic, p: chiSquareUpper(statistic, 1) };
     } catch (e) {

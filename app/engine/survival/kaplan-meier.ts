@@ -16,10 +16,22 @@ export interface SurvivalCurve {
 }
 
 /** The curve of the given rows (indices into time and status). */
-export function kaplanMeier(rows: readonly number[], time: ArrayLike<number>, status: ArrayLike<number>, level = 0.95): SurvivalCurve {
+export function kaplanMeier(
+  rows: readonly number[],
+  time: ArrayLike<number>,
+  status: ArrayLike<number>,
+  level = 0.95,
+): SurvivalCurve {
   const z = normalQuantile(1 - (1 - level) / 2);
   const idx = [...rows].sort((a, b) => time[a] - time[b]);
-  const out: { time: number[]; estimate: number[]; lower: (number | null)[]; upper: (number | null)[]; atRisk: number[]; events: number[] } = {
+  const out: {
+    time: number[];
+    estimate: number[];
+    lower: (number | null)[];
+    upper: (number | null)[];
+    atRisk: number[];
+    events: number[];
+  } = {
     time: [],
     estimate: [],
     lower: [],
@@ -30,7 +42,7 @@ export function kaplanMeier(rows: readonly number[], time: ArrayLike<number>, st
   let atRisk = idx.length;
   let surv = 1;
   let greenwood = 0;
-  for (let s = 0; s < idx.length; ) {
+  for (let s = 0; s < idx.length;) {
     let e = s + 1;
     while (e < idx.length && time[idx[e]] === time[idx[s]]) e++;
     let d = 0;

@@ -24,14 +24,16 @@ export function logRank(
   const observed = new Array<number>(groups).fill(0);
   const expected = new Array<number>(groups).fill(0);
   const v = new Float64Array(groups * groups);
-  const idx = Array.from({ length: n }, (_, i) => i).sort((a, b) => stratum[a] - stratum[b] || time[a] - time[b]);
-  for (let s0 = 0; s0 < n; ) {
+  const idx = Array.from({ length: n }, (_, i) => i).sort(
+    (a, b) => stratum[a] - stratum[b] || time[a] - time[b],
+  );
+  for (let s0 = 0; s0 < n;) {
     let s1 = s0;
     while (s1 < n && stratum[idx[s1]] === stratum[idx[s0]]) s1++;
     const atRisk = new Array<number>(groups).fill(0);
     for (let q = s0; q < s1; q++) atRisk[group[idx[q]]]++;
     let total = s1 - s0;
-    for (let s = s0; s < s1; ) {
+    for (let s = s0; s < s1;) {
       let e = s + 1;
       while (e < s1 && time[idx[e]] === time[idx[s]]) e++;
       const deaths = new Array<number>(groups).fill(0);

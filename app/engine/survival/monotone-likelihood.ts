@@ -64,7 +64,16 @@ export function detectMonotoneLikelihood(
     if (!(size > 0) || !Number.isFinite(size)) continue;
     const d = candidate.map((v) => v / size);
     if (!ranksEventsFirst(data, d)) continue;
-    const at = (t: number) => sweep(data, linearPredictor(data, beta.map((b, j) => b + t * d[j])), ties, false).logLik;
+    const at = (t: number) =>
+      sweep(
+        data,
+        linearPredictor(
+          data,
+          beta.map((b, j) => b + t * d[j]),
+        ),
+        ties,
+        false,
+      ).logLik;
     const here = at(0);
     const further = at(8);
     if (!(further >= here - 1e-9 * (1 + Math.abs(here)))) continue;

@@ -38,7 +38,7 @@ export function transformTimes(data: CoxData, transform: TimeTransform): Float64
     case "rank": {
       const idx = Array.from({ length: n }, (_, i) => i).sort((a, b) => time[a] - time[b]);
       const r = new Float64Array(n);
-      for (let s = 0; s < n; ) {
+      for (let s = 0; s < n;) {
         let e = s + 1;
         while (e < n && time[idx[e]] === time[idx[s]]) e++;
         const avg = (s + 1 + e) / 2;
@@ -53,7 +53,7 @@ export function transformTimes(data: CoxData, transform: TimeTransform): Float64
       const g = new Float64Array(n);
       let atRisk = n;
       let surv = 1;
-      for (let s = 0; s < n; ) {
+      for (let s = 0; s < n;) {
         let e = s + 1;
         while (e < n && time[idx[e]] === time[idx[s]]) e++;
         let deaths = 0;
@@ -106,7 +106,11 @@ export function proportionalHazardsTest(
   const test = (gamma: readonly number[]): ChiSquareTest => {
     const idx = [...Array.from({ length: p }, (_, j) => j), ...gamma.map((j) => p + j)];
     const sub = subMatrix(imat, m, idx);
-    const statistic = inverseQuadraticForm(sub, idx.length, idx.map((k) => u[k]));
+    const statistic = inverseQuadraticForm(
+      sub,
+      idx.length,
+      idx.map((k) => u[k]),
+    );
     return { statistic, df: gamma.length, p: chiSquareUpper(statistic, gamma.length) };
   };
   return {

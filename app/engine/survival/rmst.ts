@@ -35,9 +35,16 @@ export interface RestrictedMeanDifference {
 }
 
 /** The restricted mean of the given rows (indices into time and status; status 1 = event). */
-export function restrictedMean(rows: readonly number[], time: ArrayLike<number>, status: ArrayLike<number>, tau: number): RestrictedMean {
-  if (!(tau > 0) || !Number.isFinite(tau)) throw new EngineError(`the horizon τ of the restricted mean must be a positive number, not ${tau}`);
-  if (rows.length === 0) throw new EngineError("an arm has no subjects, so its restricted mean survival time cannot be computed");
+export function restrictedMean(
+  rows: readonly number[],
+  time: ArrayLike<number>,
+  status: ArrayLike<number>,
+  tau: number,
+): RestrictedMean {
+  if (!(tau > 0) || !Number.isFinite(tau))
+    throw new EngineError(`the horizon τ of the restricted mean must be a positive number, not ${tau}`);
+  if (rows.length === 0)
+    throw new EngineError("an arm has no subjects, so its restricted mean survival time cannot be computed");
   const km = kaplanMeier(rows, time, status);
   // step function: Ŝ = 1 before the first time, km.estimate[k] from km.time[k] on
   const starts = [0];
@@ -79,7 +86,18 @@ export function restrictedMeanDifference(
   const se = Math.sqrt(a.se ** 2 + r.se ** 2);
   const z = normalQuantile(1 - (1 - confidence) / 2);
   const p = se > 0 ? 2 * normalUpper(Math.abs(difference) / se) : difference === 0 ? 1 : 0;
-  return { tau, level: arms.level, reference: reference.level, arm: a, referenceArm: r, difference, se, lower: difference - z * se, upper: difference + z * se, p: Math.min(1, p) };
+  return {
+    tau,
+    level: arms.level,
+    reference: reference.level,
+    arm: a,
+    referenceArm: r,
+    difference,
+    se,
+    lower: difference - z * se,
+    upper: difference + z * se,
+    p: Math.min(1, p),
+  };
 }
 
 /**
@@ -94,8 +112,13 @@ export function restrictedMeanByArm(
   reference: string,
   tau: number,
 ): RestrictedMeanDifference[] {
-  if (!levels.includes(reference)) throw new EngineError(`the reference arm "${reference}" is not among the treatment's levels (${levels.join(", ")})`);
+  if (!levels.includes(reference))
+    throw new EngineError(
+      `the reference arm "${reference}" is not among the treatment's levels (${levels.join(", ")})`,
+    );
   const rowsOf = (level: string) => arm.flatMap((a, i) => (a === level ? [i] : []));
   const ref = { level: reference, rows: rowsOf(reference) };
-  return levels.filter((l) => l !== reference).map((level) => restrictedMeanDifference({ level, rows: rowsOf(level) }, ref, time, status, tau));
+  return levels
+    .filter((l) => l !== reference)
+    .map((level) => restrictedMeanDifference({ level, rows: rowsOf(level) }, ref, time, status, tau));
 }

@@ -4,7 +4,11 @@
  */
 
 /** Cholesky factor L (lower, row-major) of A, or the index of the first column whose pivot is not positive. */
-export function cholesky(a: Float64Array, p: number, tolerance = 1e-12): { l: Float64Array } | { failedColumn: number } {
+export function cholesky(
+  a: Float64Array,
+  p: number,
+  tolerance = 1e-12,
+): { l: Float64Array } | { failedColumn: number } {
   const l = new Float64Array(p * p);
   for (let j = 0; j < p; j++) {
     let s = a[j * p + j];

@@ -9,11 +9,13 @@ import { coxInfluenceSpec } from "./cox-residual-figures";
 export const coxDfbetas = defineFigure<CoxInfluenceData>({
   key: "cox_influence",
   checks: ["dfbetas_treatment_cox"],
-  data: (source, opts) => coxFigureData(source, coxResult(source, "cox_influence"), "cox_influence", opts) as CoxInfluenceData,
+  data: (source, opts) =>
+    coxFigureData(source, coxResult(source, "cox_influence"), "cox_influence", opts) as CoxInfluenceData,
   spec: coxInfluenceSpec,
   words: {
     caption: "DFBETAS on the treatment log hazard ratio by subject",
-    shows: "each subject's DFBETAS on the treatment coefficient in data order, with the planned threshold as dashed lines",
+    shows:
+      "each subject's DFBETAS on the treatment coefficient in data order, with the planned threshold as dashed lines",
     healthy: "every subject inside the dashed lines",
   },
   marked: (d) => markedSubjects(d.rows),

@@ -94,7 +94,8 @@ export interface CoxInfluenceData extends FigureBase {
   rows: CoxInfluenceRow[];
 }
 
-export type CoxFigureData = KaplanMeierData | LogMinusLogData | SchoenfeldData | MartingaleCovariateData | CoxInfluenceData;
+export type CoxFigureData =
+  KaplanMeierData | LogMinusLogData | SchoenfeldData | MartingaleCovariateData | CoxInfluenceData;
 
 /** The Cox figures whose rows are subjects (their hover names the subject when the viewer may see it). */
 export type CoxSubjectFigureData = SchoenfeldData | MartingaleCovariateData | CoxInfluenceData;

@@ -9,7 +9,8 @@ export const logMinusLog = defineFigure<LogMinusLogData>({
   key: "log_minus_log",
   checks: [],
   informs: ["proportional_hazards"],
-  data: (source, opts) => coxFigureData(source, coxResult(source, "log_minus_log"), "log_minus_log", opts) as LogMinusLogData,
+  data: (source, opts) =>
+    coxFigureData(source, coxResult(source, "log_minus_log"), "log_minus_log", opts) as LogMinusLogData,
   spec: logMinusLogSpec,
   words: {
     caption: "log(−log S) against log time by arm",

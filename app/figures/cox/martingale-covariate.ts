@@ -11,11 +11,18 @@ export const martingaleCovariate = defineFigure<MartingaleCovariateData>({
   checks: ["functional_form_cox"],
   perTerm: "continuous",
   needsTable: true,
-  data: (source, opts) => coxFigureData(source, coxResult(source, "martingale_covariate"), "martingale_covariate", opts) as MartingaleCovariateData,
+  data: (source, opts) =>
+    coxFigureData(
+      source,
+      coxResult(source, "martingale_covariate"),
+      "martingale_covariate",
+      opts,
+    ) as MartingaleCovariateData,
   spec: martingaleCovariateSpec,
   words: {
     caption: "Martingale residuals against the covariate",
-    shows: "each subject's martingale residual against the covariate, with a loess smoother and a dashed line at zero",
+    shows:
+      "each subject's martingale residual against the covariate, with a loess smoother and a dashed line at zero",
     healthy: "a smoother flat around zero across the covariate's range",
   },
   marked: (d) => markedSubjects(d.rows),

@@ -84,7 +84,16 @@ export function baseConfig(forPrint = false): Json {
     background: PALETTE.sheet,
     ...(forPrint ? { aria: false } : {}),
     view: { stroke: PALETTE.rule },
-    title: { anchor: "start", color: PALETTE.ink, fontSize: 13, fontWeight: 600, subtitleColor: PALETTE.inkSoft, subtitleFontSize: 11, subtitlePadding: 3, offset: 8 },
+    title: {
+      anchor: "start",
+      color: PALETTE.ink,
+      fontSize: 13,
+      fontWeight: 600,
+      subtitleColor: PALETTE.inkSoft,
+      subtitleFontSize: 11,
+      subtitlePadding: 3,
+      offset: 8,
+    },
     axis: {
       labelColor: PALETTE.inkSoft,
       titleColor: PALETTE.ink,
@@ -95,7 +104,15 @@ export function baseConfig(forPrint = false): Json {
       tickColor: PALETTE.rule,
       gridColor: "#ece8dd",
     },
-    legend: { labelColor: PALETTE.ink, titleColor: PALETTE.ink, labelFontSize: 10, titleFontSize: 10, labelLimit: 320, orient: "top", direction: "horizontal" },
+    legend: {
+      labelColor: PALETTE.ink,
+      titleColor: PALETTE.ink,
+      labelFontSize: 10,
+      titleFontSize: 10,
+      labelLimit: 320,
+      orient: "top",
+      direction: "horizontal",
+    },
     point: { strokeWidth: 1 },
   };
 }
@@ -134,7 +151,10 @@ export function rewrapTitle<S extends object>(spec: S, width: number): S {
 
 export function title(name: string, healthy: string, extra: string[], width: number | "container"): Json {
   const chars = width === "container" ? 90 : Math.max(40, Math.floor(width / 6.2));
-  return { text: name, subtitle: [...wrapWords(`Healthy: ${healthy}`, chars), ...extra.flatMap((e) => wrapWords(e, chars))] };
+  return {
+    text: name,
+    subtitle: [...wrapWords(`Healthy: ${healthy}`, chars), ...extra.flatMap((e) => wrapWords(e, chars))],
+  };
 }
 
 export function frame(d: { n: number }, opts: SpecOptions): Json {
@@ -142,11 +162,16 @@ export function frame(d: { n: number }, opts: SpecOptions): Json {
 }
 
 export function dataOf(rows: readonly object[], opts: SpecOptions): Json {
-  return opts.inlineRows === false ? { data: { name: "rows" } } : { datasets: { rows }, data: { name: "rows" } };
+  return opts.inlineRows === false
+    ? { data: { name: "rows" } }
+    : { datasets: { rows }, data: { name: "rows" } };
 }
 
 /** Hover details: the subject first (when it may be shown), then the plotted values. */
-export function tooltip(d: FigureBase, fields: { field: string; title: string; format?: string; type?: "quantitative" | "nominal" }[]): Json[] {
+export function tooltip(
+  d: FigureBase,
+  fields: { field: string; title: string; format?: string; type?: "quantitative" | "nominal" }[],
+): Json[] {
   const who: Json[] = d.withSubjectIds
     ? [
         { field: "subject", type: "nominal", title: "Subject" },
@@ -155,7 +180,12 @@ export function tooltip(d: FigureBase, fields: { field: string; title: string; f
     : [];
   return [
     ...who,
-    ...fields.map((f) => ({ field: f.field, type: f.type ?? "quantitative", title: f.title, ...(f.type === "nominal" ? {} : { format: f.format ?? ".4~g" }) })),
+    ...fields.map((f) => ({
+      field: f.field,
+      type: f.type ?? "quantitative",
+      title: f.title,
+      ...(f.type === "nominal" ? {} : { format: f.format ?? ".4~g" }),
+    })),
     { field: "status", type: "nominal", title: "Status" },
   ];
 }
@@ -175,11 +205,25 @@ export function statusEncoding(d: FigureBase, beyondOnly = Boolean(d.dense)): Js
   const pick = (within: unknown, beyond: unknown) => (beyondOnly ? [beyond] : [within, beyond]);
   const legend = { title: beyondOnly ? "Drawn one by one" : "Subjects" };
   return {
-    shape: { field: "status", type: "nominal", scale: { domain, range: pick("circle", "triangle-up") }, legend },
-    color: { field: "status", type: "nominal", scale: { domain, range: pick(PALETTE.pending, PALETTE.finding) }, legend },
+    shape: {
+      field: "status",
+      type: "nominal",
+      scale: { domain, range: pick("circle", "triangle-up") },
+      legend,
+    },
+    color: {
+      field: "status",
+      type: "nominal",
+      scale: { domain, range: pick(PALETTE.pending, PALETTE.finding) },
+      legend,
+    },
     // ordinal scales, not conditions: no expression evaluated per point (Vega's CSP-safe interpreter is slow with many points)
-    size: beyondOnly ? { value: 48 } : { field: "status", type: "ordinal", scale: { domain, range: [crowded(d) ? 8 : 16, 48] }, legend },
-    opacity: beyondOnly ? { value: 1 } : { field: "status", type: "ordinal", scale: { domain, range: [crowded(d) ? 0.45 : 0.7, 1] }, legend },
+    size: beyondOnly
+      ? { value: 48 }
+      : { field: "status", type: "ordinal", scale: { domain, range: [crowded(d) ? 8 : 16, 48] }, legend },
+    opacity: beyondOnly
+      ? { value: 1 }
+      : { field: "status", type: "ordinal", scale: { domain, range: [crowded(d) ? 0.45 : 0.7, 1] }, legend },
   };
 }
 
@@ -220,7 +264,12 @@ export function cellsLayer(cells: readonly DensityCell[], xName: string, yName: 
         field: "count",
         type: "quantitative",
         scale: { type: "sqrt", zero: true, range: ["#ebe6da", PALETTE.pending] },
-        legend: { title: "Subjects per cell", gradientLength: 110, values: [1, Math.max(1, ...cells.map((c) => c.count))], format: "d" },
+        legend: {
+          title: "Subjects per cell",
+          gradientLength: 110,
+          values: [1, Math.max(1, ...cells.map((c) => c.count))],
+          format: "d",
+        },
       },
       tooltip: [
         { field: "count", type: "quantitative", title: "Subjects in this cell", format: "d" },
@@ -244,9 +293,21 @@ export function boxLayers(boxes: readonly BoxSummary[], x: Json, yTitle: string,
   // the boxes carry the level under the points' field name, so both layers share one sorted x domain
   const values = boxes.map((b) => ({ ...b, [String(x.field)]: b.level }));
   return [
-    { data: { values }, mark: { type: "rule", color: PALETTE.ink }, encoding: { x, y: y("lower"), y2: { field: "upper" } } },
-    { data: { values }, mark: { type: "bar", size, fill: "#efeadf", stroke: PALETTE.ink, strokeWidth: 0.8 }, encoding: { x, y: y("q1"), y2: { field: "q3" }, tooltip: tip } },
-    { data: { values }, mark: { type: "tick", size, thickness: 1.5, color: PALETTE.ink }, encoding: { x, y: y("median") } },
+    {
+      data: { values },
+      mark: { type: "rule", color: PALETTE.ink },
+      encoding: { x, y: y("lower"), y2: { field: "upper" } },
+    },
+    {
+      data: { values },
+      mark: { type: "bar", size, fill: "#efeadf", stroke: PALETTE.ink, strokeWidth: 0.8 },
+      encoding: { x, y: y("q1"), y2: { field: "q3" }, tooltip: tip },
+    },
+    {
+      data: { values },
+      mark: { type: "tick", size, thickness: 1.5, color: PALETTE.ink },
+      encoding: { x, y: y("median") },
+    },
   ];
 }
 
@@ -266,17 +327,46 @@ export function pointMark(): Json {
 export const ONE = { values: [{}] };
 
 export function zeroRule(axis: "x" | "y"): Json {
-  return { data: ONE, mark: { type: "rule", color: PALETTE.inkSoft, strokeDash: [4, 3], strokeWidth: 1 }, encoding: { [axis]: { datum: 0 } } };
+  return {
+    data: ONE,
+    mark: { type: "rule", color: PALETTE.inkSoft, strokeDash: [4, 3], strokeWidth: 1 },
+    encoding: { [axis]: { datum: 0 } },
+  };
 }
 
 export function thresholdRule(axis: "x" | "y", t: Threshold, text: string): Json[] {
   const label =
     axis === "y"
-      ? { type: "text", color: PALETTE.finding, fontSize: 10, align: "right", baseline: "bottom", x: "width", dy: -3 }
-      : { type: "text", color: PALETTE.finding, fontSize: 10, align: "left", baseline: "top", y: 0, dx: 4, dy: 3 };
+      ? {
+          type: "text",
+          color: PALETTE.finding,
+          fontSize: 10,
+          align: "right",
+          baseline: "bottom",
+          x: "width",
+          dy: -3,
+        }
+      : {
+          type: "text",
+          color: PALETTE.finding,
+          fontSize: 10,
+          align: "left",
+          baseline: "top",
+          y: 0,
+          dx: 4,
+          dy: 3,
+        };
   return [
-    { data: ONE, mark: { type: "rule", color: PALETTE.finding, strokeDash: [6, 3], strokeWidth: 1.2 }, encoding: { [axis]: { datum: t.value } } },
-    { data: ONE, mark: label, encoding: { [axis]: { datum: t.value }, text: { value: `${text} ${t.label}` } } },
+    {
+      data: ONE,
+      mark: { type: "rule", color: PALETTE.finding, strokeDash: [6, 3], strokeWidth: 1.2 },
+      encoding: { [axis]: { datum: t.value } },
+    },
+    {
+      data: ONE,
+      mark: label,
+      encoding: { [axis]: { datum: t.value }, text: { value: `${text} ${t.label}` } },
+    },
   ];
 }
 
@@ -288,7 +378,6 @@ export function loessLayer(smooth: readonly SmoothPoint[]): Json {
     encoding: { x: { field: "x", type: "quantitative" }, y: { field: "y", type: "quantitative" } },
   };
 }
-
 
 /** The Vega-Lite schema every figure names. */
 export const SCHEMA = "https://vega.github.io/schema/vega-lite/v6.json";
@@ -313,7 +402,16 @@ export function rankMarks(x: Json, y: Json, n: number): Json[] {
   const cut = Math.round(n * 0.8);
   return (["left", "right"] as const).map((align) => ({
     transform: [{ filter: `datum.labelRank != null && datum.order ${align === "left" ? "<=" : ">"} ${cut}` }],
-    mark: { type: "text", align, dx: align === "left" ? 6 : -6, dy: -6, fontSize: 10, fontWeight: 600, color: PALETTE.finding, ...NO_ARIA },
+    mark: {
+      type: "text",
+      align,
+      dx: align === "left" ? 6 : -6,
+      dy: -6,
+      fontSize: 10,
+      fontWeight: 600,
+      color: PALETTE.finding,
+      ...NO_ARIA,
+    },
     encoding: { x, y, text: { field: "labelRank", type: "nominal" } },
   }));
 }
@@ -326,7 +424,17 @@ export function rankedList(heading: [string, string], entries: readonly string[]
   const list = entries.length ? [...heading, ...entries.map((e, k) => `${k + 1}. ${e}`)] : [empty];
   return {
     data: { values: [{ list }] },
-    mark: { type: "text", align: "left", baseline: "top", x: { expr: "width + 14" }, y: 0, fontSize: 10, lineHeight: 14, color: PALETTE.ink, ...NO_ARIA },
+    mark: {
+      type: "text",
+      align: "left",
+      baseline: "top",
+      x: { expr: "width + 14" },
+      y: 0,
+      fontSize: 10,
+      lineHeight: 14,
+      color: PALETTE.ink,
+      ...NO_ARIA,
+    },
     encoding: { text: { field: "list", type: "nominal" } },
   };
 }

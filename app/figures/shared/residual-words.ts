@@ -21,7 +21,13 @@ export function residualName(d: FigureBase): string {
   return d.glm ? "Randomized quantile residual" : d.weighted ? "Weighted residual" : "Residual";
 }
 
-const LINK_UNITS: Record<string, string> = { logit: "log odds", log: "log of the mean", probit: "probit of the probability", cloglog: "complementary log-log", identity: "response scale" };
+const LINK_UNITS: Record<string, string> = {
+  logit: "log odds",
+  log: "log of the mean",
+  probit: "probit of the probability",
+  cloglog: "complementary log-log",
+  identity: "response scale",
+};
 
 /** The link scale's unit, short enough for an axis: "log odds", "log of the mean". */
 export function linkUnit(d: FigureBase): string {

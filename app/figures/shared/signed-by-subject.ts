@@ -4,8 +4,32 @@
  * a bound as open triangles and the most extreme of them numbered and named in a list beside the plot.
  */
 import type { TopLevelSpec } from "vega-lite";
-import { rankedList, rankMarks, asSpec, dataOf, denseLine, frame, NO_ARIA, PALETTE, pointMark, SCHEMA, statusEncoding, title, tooltip, zeroRule, type Json } from "./look";
-import { BEYOND, WITHIN, type FigureBase, type PointStatus, type SpecOptions, type SubjectRef, type Threshold } from "./types";
+import {
+  rankedList,
+  rankMarks,
+  asSpec,
+  dataOf,
+  denseLine,
+  frame,
+  NO_ARIA,
+  PALETTE,
+  pointMark,
+  SCHEMA,
+  statusEncoding,
+  title,
+  tooltip,
+  zeroRule,
+  type Json,
+} from "./look";
+import {
+  BEYOND,
+  WITHIN,
+  type FigureBase,
+  type PointStatus,
+  type SpecOptions,
+  type SubjectRef,
+  type Threshold,
+} from "./types";
 import type { ModelResult } from "~/engine";
 import { drawnIndices, denseSelection, LABELLED, labelOf, topBy, who, type FigureOptions } from "./source";
 import { round } from "./summaries";
@@ -32,9 +56,16 @@ export interface SignedBySubject extends FigureBase {
 }
 
 /** Rows of a signed measure per subject and series; subjects beyond ±bound are BEYOND, the LABELLED most extreme named. */
-export function signedRows(r: ModelResult, values: { series: string; values: readonly number[] }[], threshold: Threshold | null, opts: FigureOptions): SignedRow[] {
+export function signedRows(
+  r: ModelResult,
+  values: { series: string; values: readonly number[] }[],
+  threshold: Threshold | null,
+  opts: FigureOptions,
+): SignedRow[] {
   const obs = r.observations;
-  const worst = obs.row.map((_, i) => Math.max(...values.map((s) => Math.abs(s.values[i])).filter(Number.isFinite), 0));
+  const worst = obs.row.map((_, i) =>
+    Math.max(...values.map((s) => Math.abs(s.values[i])).filter(Number.isFinite), 0),
+  );
   const beyond = (i: number) => threshold !== null && worst[i] > threshold.value;
   const top = topBy(worst, LABELLED, beyond);
   const dense = denseSelection(r, new Set(obs.row.filter((_, i) => beyond(i))));
@@ -68,16 +99,40 @@ function boundWords(t: Threshold): string {
   return words.includes("√") ? String(value) : `${value} (${words})`;
 }
 
-export function signedBySubjectSpec(d: SignedBySubject, question: string, healthy: string, extra: string[], opts: SpecOptions = {}): TopLevelSpec {
+export function signedBySubjectSpec(
+  d: SignedBySubject,
+  question: string,
+  healthy: string,
+  extra: string[],
+  opts: SpecOptions = {},
+): TopLevelSpec {
   const width = opts.width ?? 560;
   const values = d.rows.map((r) => Math.abs(r.value)).filter(Number.isFinite);
   const top = Math.max(d.threshold?.value ?? 0, ...values) * 1.2 || 1;
-  const x = { field: "order", type: "quantitative", title: "Subject, in data order (position 1 to n)", scale: { domain: [0, d.n + 1], nice: false } };
-  const y = { field: "value", type: "quantitative", title: `${d.measure} (no unit)`, scale: { domain: [-top, top], nice: false } };
+  const x = {
+    field: "order",
+    type: "quantitative",
+    title: "Subject, in data order (position 1 to n)",
+    scale: { domain: [0, d.n + 1], nice: false },
+  };
+  const y = {
+    field: "value",
+    type: "quantitative",
+    title: `${d.measure} (no unit)`,
+    scale: { domain: [-top, top], nice: false },
+  };
   const band: Json[] = d.threshold
     ? [
-        { data: { values: [{ lo: -d.threshold.value, hi: d.threshold.value }] }, mark: { type: "rect", color: PALETTE.within, opacity: 0.07, ...NO_ARIA }, encoding: { y: { field: "lo", type: "quantitative", scale: y.scale }, y2: { field: "hi" } } },
-        ...[d.threshold.value, -d.threshold.value].map((v) => ({ data: { values: [{}] }, mark: { type: "rule", color: PALETTE.finding, strokeDash: [6, 3], strokeWidth: 1.2 }, encoding: { y: { datum: v } } })),
+        {
+          data: { values: [{ lo: -d.threshold.value, hi: d.threshold.value }] },
+          mark: { type: "rect", color: PALETTE.within, opacity: 0.07, ...NO_ARIA },
+          encoding: { y: { field: "lo", type: "quantitative", scale: y.scale }, y2: { field: "hi" } },
+        },
+        ...[d.threshold.value, -d.threshold.value].map((v) => ({
+          data: { values: [{}] },
+          mark: { type: "rule", color: PALETTE.finding, strokeDash: [6, 3], strokeWidth: 1.2 },
+          encoding: { y: { datum: v } },
+        })),
       ]
     : [];
   const several = d.series.length > 1;
@@ -88,7 +143,9 @@ export function signedBySubjectSpec(d: SignedBySubject, question: string, health
       question,
       healthy,
       [
-        d.threshold ? `Dashed lines: the plan's bound ±${boundWords(d.threshold)}; shaded between them. Numbered: the most extreme subjects beyond it, listed beside the plot.` : "The check was not computed, so no bound is drawn.",
+        d.threshold
+          ? `Dashed lines: the plan's bound ±${boundWords(d.threshold)}; shaded between them. Numbered: the most extreme subjects beyond it, listed beside the plot.`
+          : "The check was not computed, so no bound is drawn.",
         ...(several ? [`One point per subject and coefficient: ${d.series.join(", ")}.`] : []),
         ...extra,
         ...denseLine(d, "only the subjects beyond a bound are drawn"),

@@ -12,7 +12,17 @@ import { loessCurve, type SmoothPoint } from "~/engine/loess";
 import type { CoxResult } from "~/engine/survival/cox-model";
 import type { FunctionalFormTest } from "~/engine/survival/functional-form";
 import { axisBins, densityCells } from "./summaries";
-import { BEYOND, DENSE_FROM, DENSE_POINTS, WITHIN, type DenseSummary, type DensityCell, type PointStatus, type SubjectRef, type Threshold } from "./types";
+import {
+  BEYOND,
+  DENSE_FROM,
+  DENSE_POINTS,
+  WITHIN,
+  type DenseSummary,
+  type DensityCell,
+  type PointStatus,
+  type SubjectRef,
+  type Threshold,
+} from "./types";
 import { round } from "./summaries";
 
 /** What a figure reads of a rerun: its stored result and check outcomes (a stored rerun document is one). */
@@ -46,7 +56,6 @@ export interface FigureOptions {
 /** A figure that cannot be drawn for this rerun; the message says why. */
 export class FigureUnavailableError extends Error {}
 
-
 /** A deterministic offset in [−1, 1] from the data row (strips must not move between renders). */
 export function jitterOf(row: number): number {
   let h = Math.imul(row ^ 0x9e3779b9, 0x85ebca6b);
@@ -57,7 +66,13 @@ export function jitterOf(row: number): number {
 }
 
 /** The checks whose flagged subjects a figure of residuals marks as beyond a threshold. */
-export const INFLUENCE_CHECKS: readonly CheckKey[] = ["cooks_distance", "leverage", "deletion_residual", "dfbetas_treatment", "dffits"];
+export const INFLUENCE_CHECKS: readonly CheckKey[] = [
+  "cooks_distance",
+  "leverage",
+  "deletion_residual",
+  "dfbetas_treatment",
+  "dffits",
+];
 
 /** Data rows flagged by any of the given checks. */
 export function flaggedRows(doc: FigureSource, keys: readonly CheckKey[]): Set<number> {
@@ -80,7 +95,8 @@ export function appliedThreshold(doc: FigureSource, key: CheckKey): Threshold | 
   if (!c) return null;
   const label = c.threshold.replace(/(\d+)\.00(?=\D|$)/g, "$1");
   // the bound as applied, recorded with the check (engine 1.2.0 on); older results give it only in words
-  if (c.numbers && c.numbers.compares === "statistic above" && Number.isFinite(c.numbers.threshold)) return { value: c.numbers.threshold, label };
+  if (c.numbers && c.numbers.compares === "statistic above" && Number.isFinite(c.numbers.threshold))
+    return { value: c.numbers.threshold, label };
   const m = /(?:=|>)\s*(-?[\d.]+(?:e[-+]?\d+)?)\s*$/i.exec(c.threshold);
   if (!m) return null;
   const value = Number(m[1]);
@@ -88,11 +104,9 @@ export function appliedThreshold(doc: FigureSource, key: CheckKey): Threshold | 
   return { value, label };
 }
 
-
 export function unitOf(name: string, opts: FigureOptions): string {
   return opts.units?.[name] ?? `units of ${name}`;
 }
-
 
 /** The shared part of a linear or generalized linear figure's data. */
 export function base(r: ModelResult, opts: FigureOptions) {
@@ -112,7 +126,6 @@ export function who(r: ModelResult, i: number, withIds: boolean): SubjectRef {
   return { subject: r.observations.id[i] ?? `row ${row}`, row };
 }
 
-
 /**
  * The residual the figures plot: √w·e with weights, e otherwise, for a linear model; for a GLM
  * the randomized quantile residual (Dunn and Smyth 1996), which is standard normal under the
@@ -128,7 +141,12 @@ export function qqValues(r: ModelResult): number[] {
 }
 
 /** Cells of a column for each used observation, matched by data row number. */
-export function cellsFor(r: ModelResult, table: FigureTable | undefined, column: string, figure: FigureKey): string[] {
+export function cellsFor(
+  r: ModelResult,
+  table: FigureTable | undefined,
+  column: string,
+  figure: FigureKey,
+): string[] {
   if (!table) throw new FigureUnavailableError(`the ${figure} figure needs the rerun's table rows`);
   const cells = table.columns[column];
   if (!cells) throw new FigureUnavailableError(`column "${column}" is not in the rerun's data`);
@@ -136,7 +154,10 @@ export function cellsFor(r: ModelResult, table: FigureTable | undefined, column:
   table.rowNumbers.forEach((row, i) => index.set(row, i));
   return r.observations.row.map((row) => {
     const i = index.get(row);
-    if (i === undefined) throw new FigureUnavailableError(`data row ${row} of the rerun is missing from the table given; build it with rerunTable`);
+    if (i === undefined)
+      throw new FigureUnavailableError(
+        `data row ${row} of the rerun is missing from the table given; build it with rerunTable`,
+      );
     return cells[i].trim();
   });
 }
@@ -145,23 +166,39 @@ export function mainTermNames(r: ModelResult): string[] {
   return r.spec.terms.flatMap((t) => ("variable" in t ? [t.variable] : []));
 }
 
-export function requireTerm(r: ModelResult, term: string | undefined, continuousOnly: boolean): { name: string; kind: "continuous" | "categorical"; levels?: string[] } {
+export function requireTerm(
+  r: ModelResult,
+  term: string | undefined,
+  continuousOnly: boolean,
+): { name: string; kind: "continuous" | "categorical"; levels?: string[] } {
   const names = mainTermNames(r);
   if (!term) throw new FigureUnavailableError(`choose a covariate with ?term= (one of ${names.join(", ")})`);
   const v = r.variables.find((x) => x.name === term);
-  if (!v || !names.includes(term)) throw new FigureUnavailableError(`"${term}" is not a main term of this model (terms: ${names.join(", ")})`);
-  if (continuousOnly && v.kind !== "continuous") throw new FigureUnavailableError(`partial residuals are drawn for continuous covariates; "${term}" is categorical`);
+  if (!v || !names.includes(term))
+    throw new FigureUnavailableError(
+      `"${term}" is not a main term of this model (terms: ${names.join(", ")})`,
+    );
+  if (continuousOnly && v.kind !== "continuous")
+    throw new FigureUnavailableError(
+      `partial residuals are drawn for continuous covariates; "${term}" is categorical`,
+    );
   if (v.kind === "categorical") {
     const levels = [...(v.levels ?? [])];
     const ref = v.reference;
-    return { name: term, kind: "categorical", levels: ref ? [ref, ...levels.filter((l) => l !== ref)] : levels };
+    return {
+      name: term,
+      kind: "categorical",
+      levels: ref ? [ref, ...levels.filter((l) => l !== ref)] : levels,
+    };
   }
   return { name: term, kind: "continuous" };
 }
 
 export function interactionNote(r: ModelResult, term: string): string | undefined {
   const inInteraction = r.spec.terms.some((t) => "interaction" in t && t.interaction.includes(term));
-  return inInteraction ? `${term} also enters an interaction; this plot shows its main-effect part only.` : undefined;
+  return inInteraction
+    ? `${term} also enters an interaction; this plot shows its main-effect part only.`
+    : undefined;
 }
 
 /** Blom plotting positions, Φ⁻¹((i − 0.375)/(n + 0.25)) for i = 1..n (Blom 1958, Statistical Estimates and Transformed Beta-Variables). */
@@ -185,13 +222,15 @@ export const LABELLED = 3;
 /** The density grid of dense scatter figures: cells of about 12 × 10 pixels in a 560 × 230 plot. */
 const GRID = { nx: 48, ny: 24 };
 
-
 /**
  * Who a dense figure draws one by one: the subjects in `beyond` (by data row), largest Cook's
  * distance first, at most DENSE_POINTS; the rest are summarised. Null below DENSE_FROM subjects,
  * where every subject is drawn.
  */
-export function denseSelection(r: ModelResult, beyond: ReadonlySet<number>): { drawn: Set<number>; summary: DenseSummary } | null {
+export function denseSelection(
+  r: ModelResult,
+  beyond: ReadonlySet<number>,
+): { drawn: Set<number>; summary: DenseSummary } | null {
   const n = r.n;
   if (n < DENSE_FROM) return null;
   const obs = r.observations;
@@ -208,7 +247,11 @@ export function drawnIndices(n: number, dense: { drawn: Set<number> } | null): n
 }
 
 /** The density cells of the subjects a dense scatter figure does not draw one by one. */
-export function cellsOf(x: readonly number[], y: readonly number[], dense: { drawn: Set<number> } | null): DensityCell[] | undefined {
+export function cellsOf(
+  x: readonly number[],
+  y: readonly number[],
+  dense: { drawn: Set<number> } | null,
+): DensityCell[] | undefined {
   if (!dense) return undefined;
   const rest = x.map((_, i) => i).filter((i) => !dense.drawn.has(i));
   return densityCells(x, y, rest, { x: axisBins(x, GRID.nx), y: axisBins(y, GRID.ny) });
@@ -224,7 +267,10 @@ export const FAMILY_WORDS: Record<GlmResult["family"], string> = {
 /** The result of a binomial GLM rerun; otherwise FigureUnavailableError saying why `what` needs one. */
 export function binomialResult(r: ModelResult, what: string): GlmResult {
   const fits = r.kind === "linear" ? "a linear model" : `a ${FAMILY_WORDS[r.family]} model`;
-  if (r.kind !== "glm" || r.family !== "binomial") throw new FigureUnavailableError(`${what} is drawn for binomial models of a 0/1 response only, and this rerun fits ${fits}`);
+  if (r.kind !== "glm" || r.family !== "binomial")
+    throw new FigureUnavailableError(
+      `${what} is drawn for binomial models of a 0/1 response only, and this rerun fits ${fits}`,
+    );
   return r;
 }
 
@@ -234,7 +280,11 @@ export function eventOf(r: GlmResult): string {
 }
 
 /** Indices of the `k` largest values among those passing `eligible`. */
-export function topBy(values: readonly number[], k: number, eligible: (i: number) => boolean): Map<number, number> {
+export function topBy(
+  values: readonly number[],
+  k: number,
+  eligible: (i: number) => boolean,
+): Map<number, number> {
   const idx = values.map((_, i) => i).filter((i) => eligible(i) && Number.isFinite(values[i]));
   idx.sort((a, b) => values[b] - values[a] || a - b);
   return new Map(idx.slice(0, k).map((i, rank) => [i, rank + 1]));
@@ -255,7 +305,10 @@ export function figureTerms(doc: FigureSource): { covariates: string[]; continuo
 
 /** The linear or generalized linear result of a rerun; a Cox rerun has figures of its own. */
 export function modelResult(doc: FigureSource, figure: FigureKey): ModelResult {
-  if (doc.result.kind === "cox") throw new FigureUnavailableError(`the ${figure} figure is drawn for linear and generalized linear models; this rerun fits a Cox model`);
+  if (doc.result.kind === "cox")
+    throw new FigureUnavailableError(
+      `the ${figure} figure is drawn for linear and generalized linear models; this rerun fits a Cox model`,
+    );
   return doc.result;
 }
 
@@ -264,7 +317,8 @@ export function subjectsOf(doc: FigureSource, figure: FigureKey, opts: FigureOpt
   const r = modelResult(doc, figure);
   const obs = r.observations;
   const influential = flaggedRows(doc, INFLUENCE_CHECKS);
-  const statusOf = (i: number, keys: ReadonlySet<number> = influential): PointStatus => (keys.has(obs.row[i]) ? BEYOND : WITHIN);
+  const statusOf = (i: number, keys: ReadonlySet<number> = influential): PointStatus =>
+    keys.has(obs.row[i]) ? BEYOND : WITHIN;
   const residuals = obs.row.map((_, i) => residualOf(r, i));
   return { r, obs, n: r.n, b: base(r, opts), influential, statusOf, residuals };
 }

@@ -43,7 +43,12 @@ export function axisBins(values: readonly number[], target: number): AxisBins {
  * over every point of the figure, so the cells line up with the axes). Only cells holding at
  * least one point are returned.
  */
-export function densityCells(x: readonly number[], y: readonly number[], indices: Iterable<number>, grid: { x: AxisBins; y: AxisBins }): DensityCell[] {
+export function densityCells(
+  x: readonly number[],
+  y: readonly number[],
+  indices: Iterable<number>,
+  grid: { x: AxisBins; y: AxisBins },
+): DensityCell[] {
   const { x: bx, y: by } = grid;
   const counts = new Map<number, number>();
   for (const i of indices) {
@@ -58,8 +63,18 @@ export function densityCells(x: readonly number[], y: readonly number[], indices
     .map(([key, count]) => {
       const cx = Math.floor(key / by.count);
       const cy = key % by.count;
-      const cell = { x0: round(bx.origin + cx * bx.width), x1: round(bx.origin + (cx + 1) * bx.width), y0: round(by.origin + cy * by.width), y1: round(by.origin + (cy + 1) * by.width) };
-      return { ...cell, count, xRange: `${formatEdge(cell.x0)} to ${formatEdge(cell.x1)}`, yRange: `${formatEdge(cell.y0)} to ${formatEdge(cell.y1)}` };
+      const cell = {
+        x0: round(bx.origin + cx * bx.width),
+        x1: round(bx.origin + (cx + 1) * bx.width),
+        y0: round(by.origin + cy * by.width),
+        y1: round(by.origin + (cy + 1) * by.width),
+      };
+      return {
+        ...cell,
+        count,
+        xRange: `${formatEdge(cell.x0)} to ${formatEdge(cell.x1)}`,
+        yRange: `${formatEdge(cell.y0)} to ${formatEdge(cell.y1)}`,
+      };
     });
 }
 
@@ -74,7 +89,11 @@ export function finiteExtent(values: readonly number[]): [number, number] {
  * linear interpolation between order statistics (Hyndman and Fan type 7, as d3-array's
  * quantileSorted), whiskers to the most extreme values within 1.5 × IQR of the box.
  */
-export function boxSummaries(levels: readonly string[], levelOf: readonly string[], values: readonly number[]): BoxSummary[] {
+export function boxSummaries(
+  levels: readonly string[],
+  levelOf: readonly string[],
+  values: readonly number[],
+): BoxSummary[] {
   const byLevel = new Map<string, number[]>(levels.map((l) => [l, []]));
   levelOf.forEach((level, i) => {
     if (Number.isFinite(values[i])) byLevel.get(level)?.push(values[i]);
@@ -88,7 +107,17 @@ export function boxSummaries(levels: readonly string[], levelOf: readonly string
     const reach = 1.5 * (q3 - q1);
     const lower = v.find((x) => x >= q1 - reach) ?? q1;
     const upper = [...v].reverse().find((x) => x <= q3 + reach) ?? q3;
-    return [{ level, n: v.length, q1: round(q1), median: round(median), q3: round(q3), lower: round(lower), upper: round(upper) }];
+    return [
+      {
+        level,
+        n: v.length,
+        q1: round(q1),
+        median: round(median),
+        q3: round(q3),
+        lower: round(lower),
+        upper: round(upper),
+      },
+    ];
   });
 }
 
@@ -96,7 +125,12 @@ export function boxSummaries(levels: readonly string[], levelOf: readonly string
  * The largest value in each block of consecutive positions (1-based, as the influence figure's
  * x axis), among the indices given: `blocks` blocks of equal length over 1..n.
  */
-export function blockMaxima(values: readonly number[], indices: Iterable<number>, n: number, blocks: number): InfluenceBlock[] {
+export function blockMaxima(
+  values: readonly number[],
+  indices: Iterable<number>,
+  n: number,
+  blocks: number,
+): InfluenceBlock[] {
   const size = Math.max(1, Math.ceil(n / blocks));
   const max = new Map<number, number>();
   for (const i of indices) {
@@ -113,10 +147,16 @@ export function blockMaxima(values: readonly number[], indices: Iterable<number>
  * Which positions of a sorted sample of size m a Q-Q plot keeps: the `tail` smallest and largest
  * (where departures from normality show), every `step`-th in between, and any in `always`.
  */
-export function qqKept(m: number, tail: number, middle: number, always: ReadonlySet<number>): { kept: number[]; step: number } {
+export function qqKept(
+  m: number,
+  tail: number,
+  middle: number,
+  always: ReadonlySet<number>,
+): { kept: number[]; step: number } {
   const inner = Math.max(0, m - 2 * tail);
   const step = Math.max(1, Math.ceil(inner / Math.max(1, middle)));
   const kept: number[] = [];
-  for (let k = 0; k < m; k++) if (k < tail || k >= m - tail || (k - tail) % step === 0 || always.has(k)) kept.push(k);
+  for (let k = 0; k < m; k++)
+    if (k < tail || k >= m - tail || (k - tail) % step === 0 || always.has(k)) kept.push(k);
   return { kept, step };
 }

@@ -98,7 +98,6 @@ export const OUTSIDE_BAND = "outside its band";
 export const INSIDE_BAND = "inside its band";
 export type BinStatus = typeof OUTSIDE_BAND | typeof INSIDE_BAND;
 
-
 export interface SpecOptions {
   /** Pixel width, or "container" to follow the frame (browser). Default 560. */
   width?: number | "container";
