@@ -35,7 +35,7 @@ describe("the engine imports nothing outside app/engine", () => {
   it("refuses a server module, a component, the dataset readers and other packages", async () => {
     for (const source of [
       "~/.server/db/index.server",
-      "~/components/format",
+      "~/components/status",
       "../engine-io/read-csv",
       "~/engine-io/read-csv",
       "react",
@@ -88,7 +88,7 @@ describe("the engine imports nothing outside app/engine", () => {
 describe("the dataset readers import only the engine of the app", () => {
   it("refuses the server and components, allows the engine, Node and packages", async () => {
     const file = "app/engine-io/lint-fixture.ts";
-    for (const source of ["~/.server/db/index.server", "~/components/format", "../routes/study-rerun"]) {
+    for (const source of ["~/.server/db/index.server", "~/components/status", "../routes/study-rerun"]) {
       expect(await ruleIds(file, `import * as m from "${source}";\nexport const x = m;\n`), source).toEqual([
         "import-x/no-restricted-paths",
       ]);
