@@ -1,4 +1,4 @@
-/** Residuals against fitted values: does the spread stay level and even (constant variance, no missed curve)? */
+/** Level and spread of the residuals across fitted values: do they stay level and even (constant variance, no missed curve)? */
 import type { TopLevelSpec } from "vega-lite";
 import {
   asSpec,

@@ -112,9 +112,12 @@ export async function executeRerun(rerunId: string): Promise<void> {
         finishedAt: isoNow(),
       })
       .where(eq(t.reruns.id, rerunId));
+    // the reproduction check, when the plan gives published values, counts as one of the checks
+    const reproduction = reproductionCheckOf(doc);
+    const notReproduced = reproduction?.outcome === "finding";
+    const findingCount = doc.checks.filter((c) => c.outcome === "finding").length + (notReproduced ? 1 : 0);
     if (rerun.kind === "primary") {
       const found = doc.checks.filter((c) => c.outcome === "finding");
-      const notReproduced = reproductionCheckOf(doc)?.outcome === "finding";
       // Nothing to assess: the rerun awaits sign-off as soon as it completes.
       if (found.length === 0 && !notReproduced)
         await notifyRerunAwaitsSignOff(tx, { studyId: rerun.studyId, rerunId });
@@ -130,8 +133,7 @@ export async function executeRerun(rerunId: string): Promise<void> {
           detailJson: canonicalJson({ flaggedCount: c.flagged?.length ?? 0 }),
         });
       }
-      const reproduction = reproductionCheckOf(doc);
-      if (reproduction?.outcome === "finding") {
+      if (reproduction && notReproduced) {
         await tx.insert(t.findings).values({
           id: newId(),
           rerunId,
@@ -139,7 +141,7 @@ export async function executeRerun(rerunId: string): Promise<void> {
           kind: "check",
           statistic: reproduction.statistic,
           threshold: reproduction.threshold,
-          summary: `${reproduction.label}: ${reproduction.summary}`,
+          summary: findingSummary(reproduction.label, reproduction.summary),
           detailJson: canonicalJson({ flaggedCount: 0 }),
         });
       }
@@ -153,9 +155,7 @@ export async function executeRerun(rerunId: string): Promise<void> {
         studyId: rerun.studyId,
         after: {
           resultSha256: hash,
-          findings:
-            doc.checks.filter((c) => c.outcome === "finding").length +
-            (reproductionCheckOf(doc)?.outcome === "finding" ? 1 : 0),
+          findings: findingCount,
         },
       },
       tx,
