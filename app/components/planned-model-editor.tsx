@@ -26,7 +26,7 @@ interface EditorDataset {
 
 interface CheckInfo {
   key: Parameters<typeof checkApplies>[0]["key"];
-  models: "linear" | "glm" | "both" | "cox";
+  models: "linear" | "glm" | "both" | "cox" | "repeated";
   label: string;
   rule: string;
   source: string;
@@ -574,7 +574,9 @@ export function PlannedModelEditor({
                             ? " Linear models."
                             : c.models === "cox"
                               ? " Time-to-event (Cox) models."
-                              : " Generalized linear models."}
+                              : c.models === "repeated"
+                                ? " Repeated-measures (MMRM) models."
+                                : " Generalized linear models."}
                       </span>
                     </td>
                     <td>

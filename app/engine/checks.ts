@@ -7,6 +7,7 @@ import type { GlmResult } from "./glm/glm-model";
 import type { LinearModelResult } from "./linear-model";
 import { INTERCEPT_NAME } from "./coefficient-names";
 import { COX_CHECKS } from "./survival/cox-check-catalogue";
+import { REPEATED_CHECKS } from "./repeated/repeated-check-catalogue";
 import { checkApplies } from "./family-applicability";
 
 type ModelResult = LinearModelResult | GlmResult;
@@ -31,7 +32,13 @@ export type CheckKey =
   | "proportional_hazards"
   | "functional_form_cox"
   | "dfbetas_treatment_cox"
-  | "events_per_coefficient";
+  | "events_per_coefficient"
+  // repeated-measures (MMRM) models: app/engine/repeated/repeated-check-catalogue.ts
+  | "repeated_convergence"
+  | "repeated_normality"
+  | "repeated_spread"
+  | "repeated_influence"
+  | "repeated_primary_visit";
 
 export interface CheckDefinition {
   key: CheckKey;
@@ -45,8 +52,8 @@ export interface CheckDefinition {
   /** The figure that supports the check on the results page (its module in app/figures lists the check), or none. */
   figure: FigureKey | null;
   needsTreatment?: boolean;
-  /** Which models the check applies to ("both": linear and generalized linear). */
-  models: "linear" | "glm" | "both" | "cox";
+  /** Which models the check applies to ("both": linear and generalized linear; "repeated": MMRM). */
+  models: "linear" | "glm" | "both" | "cox" | "repeated";
   /** The statistic's formula where its name alone does not say it: a symbol raised to a power, and the same in words. */
   formula?: CheckFormula;
 }
@@ -78,7 +85,12 @@ export type FigureKey =
   | "martingale_covariate"
   | "kaplan_meier"
   | "log_minus_log"
-  | "cox_influence";
+  | "cox_influence"
+  // repeated-measures (MMRM) figures: app/figures/repeated/
+  | "repeated_residuals_fitted"
+  | "repeated_qq"
+  | "repeated_means"
+  | "repeated_influence";
 
 export const CHECKS: readonly CheckDefinition[] = [
   {
@@ -247,6 +259,7 @@ export const CHECKS: readonly CheckDefinition[] = [
     models: "glm",
   },
   ...COX_CHECKS,
+  ...REPEATED_CHECKS,
 ];
 
 export const CHECK_BY_KEY: ReadonlyMap<CheckKey, CheckDefinition> = new Map(CHECKS.map((c) => [c.key, c]));

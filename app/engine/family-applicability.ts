@@ -16,6 +16,7 @@ export const SENSITIVITY_KINDS = [
   "cox_robust_subject",
   "cox_unstratified",
   "cox_rmst",
+  "repeated_structure",
 ] as const;
 export type SensitivityKind = (typeof SENSITIVITY_KINDS)[number];
 
@@ -23,12 +24,14 @@ export type SensitivityKind = (typeof SENSITIVITY_KINDS)[number];
  * A family as a plan or a fitted result names it: the editor's gaussian, binomial, poisson or
  * cox, and the count families a sensitivity analysis refits a Poisson model with.
  */
-export type AnyFamily = "gaussian" | "binomial" | "poisson" | "quasipoisson" | "negative-binomial" | "cox";
+export type AnyFamily =
+  "gaussian" | "binomial" | "poisson" | "quasipoisson" | "negative-binomial" | "cox" | "repeated";
 
-type ModelKind = "linear" | "glm" | "cox";
+type ModelKind = "linear" | "glm" | "cox" | "repeated";
 
+/** "repeated" stands for a repeated-measures (MMRM) model: normal responses, correlated within a subject. */
 const kindOf = (family: string): ModelKind =>
-  family === "gaussian" ? "linear" : family === "cox" ? "cox" : "glm";
+  family === "gaussian" ? "linear" : family === "cox" ? "cox" : family === "repeated" ? "repeated" : "glm";
 
 const COUNT_FAMILIES: readonly string[] = ["poisson", "quasipoisson", "negative-binomial"];
 
@@ -48,7 +51,10 @@ export function checkApplies(
 ): boolean {
   const kind = kindOf(family);
   if (def.needsTreatment && !hasTreatment) return false;
-  const byKind = kind === "cox" ? def.models === "cox" : def.models === "both" || def.models === kind;
+  const byKind =
+    kind === "cox" || kind === "repeated"
+      ? def.models === kind
+      : def.models === "both" || def.models === kind;
   const families = CHECK_FAMILIES[def.key];
   return byKind && (!families || families.includes(family));
 }
@@ -58,13 +64,15 @@ const SENSITIVITY_FAMILIES: Record<SensitivityKind, readonly AnyFamily[]> = {
   // HC3 for a linear model; for a GLM the sandwich (HC3) covariance of the coefficients, as sandwich::vcovHC
   robust_hc3: ["gaussian", "binomial", "poisson"],
   variance_function: ["gaussian"],
-  exclude_influential: ["gaussian", "binomial", "poisson"],
-  alternative_covariates: ["gaussian", "binomial", "poisson", "cox"],
+  exclude_influential: ["gaussian", "binomial", "poisson", "repeated"],
+  alternative_covariates: ["gaussian", "binomial", "poisson", "cox", "repeated"],
   quasi_poisson: ["poisson"],
   negative_binomial: ["poisson"],
   cox_robust_subject: ["cox"],
   cox_unstratified: ["cox"],
   cox_rmst: ["cox"],
+  // a repeated-measures model refitted with another covariance structure of the visits
+  repeated_structure: ["repeated"],
 };
 
 export function sensitivityApplies(kind: SensitivityKind, family: string): boolean {
@@ -87,7 +95,9 @@ export function sensitivityProblem(kind: SensitivityKind, family: string): strin
     case "robust_hc3":
       return "Robust (HC3) standard errors apply to linear and generalized linear models; for a time-to-event model plan robust errors clustered by subject.";
     case "exclude_influential":
-      return "Excluding subjects flagged by Cook's distance applies to linear and generalized linear models.";
+      return "Excluding subjects flagged by Cook's distance applies to linear, generalized linear and repeated-measures models.";
+    case "repeated_structure":
+      return "Another covariance structure of the visits applies to a repeated-measures (MMRM) model.";
     case "alternative_covariates":
       return "An alternative covariate set does not apply to this model.";
   }

@@ -195,7 +195,9 @@ export const slopesByArm = defineFigure<SlopesByArmData>({
           : [];
     // slopes are drawn for continuous covariates only
     const continuous = new Set(
-      r.kind === "cox" ? [] : r.variables.filter((v) => v.kind === "continuous").map((v) => v.name),
+      r.kind === "cox" || r.kind === "repeated"
+        ? []
+        : r.variables.filter((v) => v.kind === "continuous").map((v) => v.name),
     );
     const ranked = tests
       .filter((t) => continuous.has(t.term) && t.p !== null && Number.isFinite(t.p))

@@ -202,7 +202,9 @@ async function makeApiStudy(): Promise<void> {
     options: { variant: "planned" },
   });
   const primary = await finish(signedRerunId);
-  subjectIds = primary.doc!.result.observations.id.filter((x): x is string => x !== null);
+  subjectIds = (primary.doc!.result.observations.id as readonly (string | null)[]).filter(
+    (x): x is string => x !== null,
+  );
   // the planned robust-errors analysis was queued when the primary completed
   const [child] = await reruns.sensitivityReruns(signedRerunId);
   await finish(child.id);

@@ -166,7 +166,9 @@ describe("the Word appendix of a signed rerun", () => {
       // each test by its name with its statistic in words, never a program's "W = …" or bars around a signed number
       expect(row[1]).not.toMatch(/\b(W|BP|F) = |\|[^|]*\|/);
     });
-    const ids = doc.result.observations.id.filter((x): x is string => Boolean(x));
+    const ids = (doc.result.observations.id as readonly (string | null)[]).filter((x): x is string =>
+      Boolean(x),
+    );
     expect(ids.length).toBeGreaterThan(0);
     for (const id of ids) expect(documentXml.includes(id), `subject ${id} named in the appendix`).toBe(false);
   });

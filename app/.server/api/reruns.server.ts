@@ -127,6 +127,11 @@ function resultsOut(doc: RerunDocument): NonNullable<Body<typeof RerunAnswer>["r
       contrasts: null,
     };
   }
+  if (doc.result.kind === "repeated")
+    throw new ApiError(
+      "bad_request",
+      "Repeated-measures results are not yet answered here; use the headless command's fit",
+    );
   const r = doc.result;
   const common = {
     description: doc.description,

@@ -369,6 +369,14 @@ export async function buildAppendixContent(
       results.push(...modelHeading(p, many), ...coxResultBlocks(p.doc.result, p.rerunId, p.modelTitle, next));
       continue;
     }
+    if (p.doc.result.kind === "repeated") {
+      // repeated-measures (MMRM) results: their own section lands with the appendix's repeated-measures part
+      results.push(...modelHeading(p, many), {
+        kind: "paragraph",
+        text: `${p.doc.result.n} records of ${p.doc.result.subjectCount} subjects analysed by a mixed model for repeated measures.`,
+      });
+      continue;
+    }
     const r = p.doc.result;
     results.push(
       ...modelHeading(p, many),

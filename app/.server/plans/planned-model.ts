@@ -24,6 +24,7 @@ import {
 import { interactionName } from "~/engine/coefficient-names";
 import type { ColumnMeta } from "../datasets/catalog.server";
 import { categoricalHints, isNumericType } from "../datasets/categorical-hint";
+import { repeatedSpecSchema } from "~/engine/repeated/repeated-spec";
 import { coxSpecSchema } from "~/engine/survival/cox-spec";
 import { readSurvivalForm, survivalFormOf, validateSurvival, type SurvivalForm } from "./cox-planned-model";
 import {
@@ -52,6 +53,7 @@ export const SENSITIVITY_LABELS: Record<SensitivityKind, string> = {
   cox_robust_subject: "Robust (sandwich) standard errors, clustered by subject",
   cox_unstratified: "Unstratified (one baseline hazard for all subjects)",
   cox_rmst: "Restricted mean survival time difference between arms",
+  repeated_structure: "Another covariance structure of the visits",
 };
 
 export const sensitivitySchema = z.object({
@@ -103,8 +105,12 @@ export const plannedModelSchema = z.object({
   key: z.string(),
   title: z.string(),
   datasetName: z.string(),
-  /** A linear or generalized linear model, or a time-to-event (Cox) model: narrow on `spec.family === "cox"`. */
-  spec: z.union([modelSpecSchema, coxSpecSchema]),
+  /**
+   * A repeated-measures (MMRM) model (narrow on `"repeated" in spec`; tried first, since it is a
+   * linear specification plus `repeated`), a time-to-event (Cox) model (`spec.family === "cox"`),
+   * or a linear or generalized linear model.
+   */
+  spec: z.union([repeatedSpecSchema, modelSpecSchema, coxSpecSchema]),
   checks: z.array(plannedCheckSchema),
   sensitivity: z.array(sensitivitySchema),
 });

@@ -9,6 +9,7 @@ import { cellText, selectRows, type TypedColumn } from "~/engine/data";
 import { withSandwichErrors } from "~/engine/glm/sandwich-errors";
 import { selectPopulation, type PopulationStep } from "~/engine/population";
 import { checkReproduction, reproductionAsCheck, type ReproductionResult } from "~/engine/reproduction";
+import type { RepeatedResult } from "~/engine/repeated/repeated-model";
 import { evaluateCoxChecks } from "~/engine/survival/cox-checks";
 import { fitCoxModel, type CoxResult } from "~/engine/survival/cox-model";
 import type { CoxSpec } from "~/engine/survival/cox-spec";
@@ -50,8 +51,8 @@ export interface RerunDocument {
   population: DocumentPopulation;
   /** Rows removed by each population condition, in the plan's order (absent in older documents). */
   populationSteps?: PopulationStep[];
-  /** Linear, generalized linear or Cox (`kind` "cox"): narrow on `result.kind`. */
-  result: ModelResult | CoxResult;
+  /** Linear, generalized linear, Cox (`kind` "cox") or repeated measures (`kind` "repeated"): narrow on `result.kind`. */
+  result: ModelResult | CoxResult | RepeatedResult;
   checks: CheckOutcome[];
   /** Cox reruns: the likelihood-ratio test of an added square per continuous covariate (the functional-form check and figures read it). */
   coxFunctionalForm?: FunctionalFormTest[];
@@ -183,6 +184,10 @@ export function computeRerun(
     result,
     checks,
   });
+  if ("repeated" in model.spec)
+    throw new EngineError(
+      "repeated-measures reruns are not yet run by the product; use the headless command's fit",
+    );
   if (model.spec.family === "cox") {
     const coxSpec = coxVariantSpec(model.spec, options);
     const result = fitCoxModel(coxSpec, working);

@@ -52,6 +52,8 @@ export function optionsFor(
       return { variant: s.kind };
     case "cox_rmst":
       return s.tau ? { variant: "cox_rmst", tau: s.tau } : null;
+    case "repeated_structure":
+      return null; // not yet run: the repeated-measures rerun path lands separately
   }
 }
 

@@ -35,6 +35,23 @@ export interface ContrastView {
 export function treatmentEffectOf(doc: RerunDocument): TreatmentEffectPlan {
   const r = doc.result;
   if (r.kind === "cox") return { contrastSet: "reference", multiplicity: "none", test: null };
+  if (r.kind === "repeated") {
+    const t = r.tests.treatment;
+    return {
+      contrastSet: r.spec.contrasts ?? "reference",
+      multiplicity: r.spec.multiplicity ?? "none",
+      test: t
+        ? {
+            name: "F",
+            term: r.adjustedMeans?.treatment ?? r.spec.treatment ?? "treatment",
+            statistic: t.statistic,
+            df1: t.numeratorDf,
+            df2: t.denominatorDf,
+            p: t.p,
+          }
+        : null,
+    };
+  }
   const contrastSet = r.spec.contrasts ?? "reference";
   const multiplicity = r.spec.multiplicity ?? "none";
   if (r.kind === "linear") {
@@ -54,6 +71,22 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
   const r = doc.result;
   // a Cox model reports hazard ratios instead (coxRerunView, coxReportedContrasts)
   if (r.kind === "cox") return [];
+  // a repeated-measures model reports its contrasts at the primary visit (no HC3 beside them)
+  if (r.kind === "repeated") {
+    return (r.adjustedMeans?.contrasts ?? [])
+      .filter((c) => c.visit === r.influence.primaryVisit)
+      .map((c) => ({
+        label: `${c.label}, ${c.visit}`,
+        estimate: c.estimate,
+        se: c.se,
+        lower: c.lower,
+        upper: c.upper,
+        statistic: c.statistic,
+        p: c.p,
+        hc3: null,
+        seScale: "response" as const,
+      }));
+  }
   if (r.kind === "linear") {
     return (r.contrasts ?? []).map((c) => ({
       label: c.label,
@@ -155,6 +188,8 @@ export function reproductionView(doc: RerunDocument) {
 
 export function rerunView(doc: RerunDocument, redact: Redaction) {
   if (doc.result.kind === "cox") return coxRerunView(doc, doc.result, redact);
+  if (doc.result.kind === "repeated")
+    throw new Error("the results page of a repeated-measures rerun lands with its own view");
   const r = doc.result;
   const continuousTerms = r.variables
     .filter((v) => v.kind === "continuous" && v.name !== r.spec.response)

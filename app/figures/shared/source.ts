@@ -10,6 +10,7 @@ import type { CheckKey, CheckOutcome, FigureKey } from "~/engine/checks";
 import { normalQuantile } from "~/engine/distributions";
 import { loessCurve, type SmoothPoint } from "~/engine/loess";
 import type { CoxResult } from "~/engine/survival/cox-model";
+import type { RepeatedResult } from "~/engine/repeated/repeated-model";
 import type { FunctionalFormTest } from "~/engine/survival/functional-form";
 import { axisBins, densityCells } from "./summaries";
 import {
@@ -27,7 +28,7 @@ import { round } from "./summaries";
 
 /** What a figure reads of a rerun: its stored result and check outcomes (a stored rerun document is one). */
 export interface FigureSource {
-  result: ModelResult | CoxResult;
+  result: ModelResult | CoxResult | RepeatedResult;
   checks: readonly CheckOutcome[];
   /** Cox reruns: the functional-form test per continuous covariate. */
   coxFunctionalForm?: readonly FunctionalFormTest[];
@@ -303,11 +304,11 @@ export function figureTerms(doc: FigureSource): { covariates: string[]; continuo
   return { covariates: names.filter((name) => name !== r.spec.treatment), continuous };
 }
 
-/** The linear or generalized linear result of a rerun; a Cox rerun has figures of its own. */
+/** The linear or generalized linear result of a rerun; Cox and repeated-measures reruns have figures of their own. */
 export function modelResult(doc: FigureSource, figure: FigureKey): ModelResult {
-  if (doc.result.kind === "cox")
+  if (doc.result.kind === "cox" || doc.result.kind === "repeated")
     throw new FigureUnavailableError(
-      `the ${figure} figure is drawn for linear and generalized linear models; this rerun fits a Cox model`,
+      `the ${figure} figure is drawn for linear and generalized linear models; this rerun fits a ${doc.result.kind === "cox" ? "Cox" : "repeated-measures"} model`,
     );
   return doc.result;
 }
