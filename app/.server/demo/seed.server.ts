@@ -10,7 +10,7 @@ import { z } from "zod";
 import { appendAudit, SYSTEM_ACTOR } from "../audit.server";
 import { db, newId, t, writeTransaction } from "../db/index.server";
 import { STUDY_ROLES } from "../db/schema";
-import { seedDemoDataset } from "../datasets/demo-seed.server";
+import { seedDemoDataset, seedDemoVisitsDataset } from "../datasets/demo-seed.server";
 import {
   DEMO_COMPOUND,
   DEMO_INDICATION,
@@ -132,6 +132,9 @@ export async function seedDemoStudy(people: DemoPerson[] = readDemoPeople()): Pr
     return { seeded: true, studyId };
   });
   // The data manager uploads and locks the demo dataset through the datasets service.
-  if (outcome.seeded) await seedDemoDataset(outcome.studyId);
+  if (outcome.seeded) {
+    await seedDemoDataset(outcome.studyId);
+    await seedDemoVisitsDataset(outcome.studyId);
+  }
   return outcome;
 }
