@@ -3,6 +3,7 @@
  * (the week-12 change is adeff's, no visit after a subject's last day on treatment), and fitted
  * by the demo's planned repeated-measures model with the planned unstructured covariance.
  */
+import { readFileSync } from "node:fs";
 import { describe, expect, it } from "vitest";
 import { generateDemoDataset } from "~/.server/demo/demo-dataset";
 import { DEMO_VISITS, demoVisitsCsv, generateDemoVisits } from "~/.server/demo/demo-visits";
@@ -12,8 +13,9 @@ describe("the demo's visit-level dataset", () => {
   const subjects = generateDemoDataset().rows;
   const { rows } = generateDemoVisits();
 
-  it("gives the same bytes on every run", () => {
+  it("gives the same bytes on every run, those R's reference values were computed from", () => {
     expect(demoVisitsCsv()).toBe(demoVisitsCsv());
+    expect(demoVisitsCsv()).toBe(readFileSync("tests/reference/repeated/data/demo-advisits.csv", "utf8"));
     expect(rows).toHaveLength(1740);
   });
 
@@ -68,5 +70,21 @@ describe("the demo's visit-level dataset", () => {
       (c) => c.visit === "Week 12" && c.level === "Lorvanitide 120 mg",
     )!;
     expect(high.upper).toBeLessThan(0);
+    // R nlme::gls (REML, corSymm + varIdent) with emmeans contrasts: tests/reference/repeated/generate-demo.R
+    const r = JSON.parse(readFileSync("tests/reference/repeated/values/demo-advisits.json", "utf8")) as {
+      logLik: number;
+      subjects: number;
+      contrasts: { label: string; visit: string; estimate: number; se: number }[];
+    };
+    expect(result.subjectCount).toBe(r.subjects);
+    expect(result.covariance.logLik).toBeCloseTo(r.logLik, 5);
+    for (const c of r.contrasts) {
+      const level = c.label.split(" - ")[0];
+      const ours = result.adjustedMeans!.contrasts.find((x) => x.visit === c.visit && x.level === level)!;
+      expect(Math.abs(ours.estimate - c.estimate) / Math.abs(c.se), `${c.label} at ${c.visit}`).toBeLessThan(
+        1e-5,
+      );
+      expect(Math.abs(ours.se / c.se - 1), `SE of ${c.label} at ${c.visit}`).toBeLessThan(1e-5);
+    }
   });
 });
