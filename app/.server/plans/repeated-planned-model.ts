@@ -85,6 +85,10 @@ export function repeatedFormOf(spec: RepeatedSpec): RepeatedForm {
   };
 }
 
+/** Visit names as a person reads them ("Week 2" before "Week 12"), for messages only; the order the model uses is the plan's. */
+const naturalOrder = (names: readonly string[]) =>
+  [...names].sort((a, b) => a.localeCompare(b, "en", { numeric: true }));
+
 const words = (s: CovarianceStructureName) => COVARIANCE_STRUCTURE_WORDS[s];
 const structureLabel = (s: CovarianceStructureName) => sentenceCase(COVARIANCE_STRUCTURE_WORDS[s]);
 
@@ -222,7 +226,7 @@ export function validateRepeated(
   }
 
   if (r.primaryVisit && visit && !errors.visit && !visitLevels.includes(r.primaryVisit))
-    errors.primaryVisit = `"${r.primaryVisit.slice(0, 40)}" is not a visit of ${visit.name}; its visits are ${visitLevels.join(", ")}.`;
+    errors.primaryVisit = `"${r.primaryVisit.slice(0, 40)}" is not a visit of ${visit.name}; its visits are ${naturalOrder(visitLevels).join(", ")}.`;
 
   if (Object.keys(errors).length > 0) return null;
   return repeatedSpecSchema.parse({
