@@ -208,6 +208,12 @@ export function PlannedModelEditor({
     else next.delete(name);
     setCovariates(next);
   };
+  /**
+   * The interaction of two main terms as the plan holds it, in either order: the choices list pairs
+   * in the order the terms were ticked, which need not be the order a stored plan names them.
+   */
+  const chosenInteraction = (a: string, b: string): string | undefined =>
+    [`${a}|${b}`, `${b}|${a}`].find((k) => interactions.has(k));
   /** The repeated-measures section's one-press terms: a categorical covariate, an interaction of two main terms. */
   const interactionKey = (a: string, b: string) =>
     (interactionChoices.find((p) => p.includes(a) && p.includes(b)) ?? [a, b]).join("|");
@@ -217,7 +223,7 @@ export function PlannedModelEditor({
       variable: v,
       categorical: covariates.get(v)?.categorical === true || col(v)?.type !== "number",
     })),
-    hasInteraction: (a: string, b: string) => interactions.has(interactionKey(a, b)),
+    hasInteraction: (a: string, b: string) => chosenInteraction(a, b) !== undefined,
     addCategorical: (name: string) => {
       const next = new Map(covariates);
       next.set(name, { variable: name, categorical: true, reference: next.get(name)?.reference ?? "" });
@@ -521,21 +527,22 @@ export function PlannedModelEditor({
             <div className="flex flex-wrap gap-x-5 gap-y-1">
               {interactionChoices.map((pair) => {
                 const k = pair.join("|");
+                const chosen = chosenInteraction(pair[0], pair[1]);
                 return (
                   <label key={k} className="inline-flex items-center gap-1.5 text-sm">
                     <input
                       type="checkbox"
                       name="interaction"
-                      value={k}
-                      checked={interactions.has(k)}
+                      value={chosen ?? k}
+                      checked={chosen !== undefined}
                       onChange={(e) => {
                         const next = new Set(interactions);
                         if (e.target.checked) next.add(k);
-                        else next.delete(k);
+                        else next.delete(chosen ?? k);
                         setInteractions(next);
                       }}
                     />
-                    {interactionName(pair)}
+                    {interactionName(chosen?.split("|") ?? pair)}
                   </label>
                 );
               })}
