@@ -136,7 +136,6 @@ export type FieldErrors = Record<string, string>;
 export const MODEL_FAMILIES = ["gaussian", "binomial", "poisson", "cox", "repeated"] as const;
 
 /** The editor's fields, as posted. */
-
 export interface PlannedModelForm {
   key: string;
   title: string;
