@@ -1,11 +1,13 @@
 import { useMemo, useState } from "react";
 import { FieldError } from "./page";
 import { SurvivalSection, type SurvivalFields } from "./planned-model-survival";
+import { RepeatedSection, type RepeatedFields } from "./planned-model-repeated";
 import { PopulationSection, type PopulationConditionFields } from "./planned-model-population";
 import { TreatmentEffectSection } from "./planned-model-analysis";
 import { PublishedValuesSection, type PublishedFields } from "./planned-model-published";
 import { interactionName } from "~/engine/coefficient-names";
 import { linkWords } from "~/engine/family-names";
+import { COVARIANCE_STRUCTURES, COVARIANCE_STRUCTURE_WORDS } from "~/engine/repeated/repeated-names";
 import { checkApplies, sensitivityApplies, type SensitivityKind } from "~/engine/family-applicability";
 
 export interface EditorColumn {
@@ -51,13 +53,22 @@ export interface EditorForm {
   offset: string;
   id: string;
   checks: { key: string; enabled: boolean; threshold: number; remedy: string }[];
-  sensitivity: { kind: string; varianceBy?: string; covariates?: string[]; label?: string; tau?: number }[];
+  sensitivity: {
+    kind: string;
+    varianceBy?: string;
+    covariates?: string[];
+    label?: string;
+    tau?: number;
+    structure?: string;
+  }[];
   /** Adjusted-means weighting, contrasts and multiplicity (linear and generalized linear models). */
   means: string;
   contrasts: string;
   multiplicity: string;
   /** Time-to-event fields (family "cox"). */
   survival?: SurvivalFields;
+  /** Repeated-measures fields (family "repeated"). */
+  repeated?: RepeatedFields;
   /** Values the study report printed, for the reproduction check (linear and generalized linear models). */
   published?: PublishedFields[];
 }
@@ -197,6 +208,31 @@ export function PlannedModelEditor({
     else next.delete(name);
     setCovariates(next);
   };
+  /**
+   * The interaction of two main terms as the plan holds it, in either order: the choices list pairs
+   * in the order the terms were ticked, which need not be the order a stored plan names them.
+   */
+  const chosenInteraction = (a: string, b: string): string | undefined =>
+    [`${a}|${b}`, `${b}|${a}`].find((k) => interactions.has(k));
+  /** The repeated-measures section's one-press terms: a categorical covariate, an interaction of two main terms. */
+  const interactionKey = (a: string, b: string) =>
+    (interactionChoices.find((p) => p.includes(a) && p.includes(b)) ?? [a, b]).join("|");
+  const repeatedTerms = {
+    treatment,
+    covariates: included.map((v) => ({
+      variable: v,
+      categorical: covariates.get(v)?.categorical === true || col(v)?.type !== "number",
+    })),
+    hasInteraction: (a: string, b: string) => chosenInteraction(a, b) !== undefined,
+    addCategorical: (name: string) => {
+      const next = new Map(covariates);
+      next.set(name, { variable: name, categorical: true, reference: next.get(name)?.reference ?? "" });
+      setCovariates(next);
+    },
+    addInteraction: (a: string, b: string) =>
+      setInteractions(new Set(interactions).add(interactionKey(a, b))),
+  };
+  const repeated = family === "repeated";
   const setCovariate = (name: string, patch: Partial<{ categorical: boolean | null; reference: string }>) => {
     const next = new Map(covariates);
     const c = next.get(name);
@@ -270,7 +306,13 @@ export function PlannedModelEditor({
           <Select
             id="pm-response"
             name="response"
-            label={family === "cox" ? "Follow-up time (event or censoring)" : "Endpoint (response)"}
+            label={
+              family === "cox"
+                ? "Follow-up time (event or censoring)"
+                : repeated
+                  ? "Endpoint (change from baseline at each visit)"
+                  : "Endpoint (response)"
+            }
             value={response}
             onChange={setResponse}
             options={colOptions()}
@@ -289,11 +331,16 @@ export function PlannedModelEditor({
               { value: "binomial", label: "Binomial (responder)" },
               { value: "poisson", label: "Poisson (counts)" },
               { value: "cox", label: "Time to event (Cox proportional hazards)" },
+              { value: "repeated", label: "Repeated measures (MMRM)" },
             ]}
           />
           {family === "cox" ? (
             <p className="self-end pb-2 text-xs text-ink-soft">
               Log hazard ratios by partial likelihood; no link to choose.
+            </p>
+          ) : repeated ? (
+            <p className="self-end pb-2 text-xs text-ink-soft">
+              Normal errors, identity link; the visits of a subject correlated as chosen below.
             </p>
           ) : (
             <Select
@@ -330,16 +377,18 @@ export function PlannedModelEditor({
             placeholder={treatment ? "Choose the reference arm" : "—"}
             error={errors.treatmentReference}
           />
-          <Select
-            id="pm-id"
-            name="id"
-            label="Subject identifier"
-            value={initial.id}
-            options={colOptions()}
-            placeholder="None"
-            error={errors.id}
-            hint="Shown beside influential subjects; a subject in two analysed rows is refused."
-          />
+          {repeated ? null : (
+            <Select
+              id="pm-id"
+              name="id"
+              label="Subject identifier"
+              value={initial.id}
+              options={colOptions()}
+              placeholder="None"
+              error={errors.id}
+              hint="Shown beside influential subjects; a subject in two analysed rows is refused."
+            />
+          )}
         </div>
         {family === "cox" ? null : <TreatmentEffectSection initial={initial} errors={errors} />}
       </Section>
@@ -349,6 +398,16 @@ export function PlannedModelEditor({
           initial={initial.survival}
           columns={columns}
           exclude={[response, treatment]}
+          errors={errors}
+        />
+      ) : null}
+
+      {repeated ? (
+        <RepeatedSection
+          initial={initial.repeated}
+          columns={columns}
+          response={response}
+          terms={repeatedTerms}
           errors={errors}
         />
       ) : null}
@@ -468,21 +527,22 @@ export function PlannedModelEditor({
             <div className="flex flex-wrap gap-x-5 gap-y-1">
               {interactionChoices.map((pair) => {
                 const k = pair.join("|");
+                const chosen = chosenInteraction(pair[0], pair[1]);
                 return (
                   <label key={k} className="inline-flex items-center gap-1.5 text-sm">
                     <input
                       type="checkbox"
                       name="interaction"
-                      value={k}
-                      checked={interactions.has(k)}
+                      value={chosen ?? k}
+                      checked={chosen !== undefined}
                       onChange={(e) => {
                         const next = new Set(interactions);
                         if (e.target.checked) next.add(k);
-                        else next.delete(k);
+                        else next.delete(chosen ?? k);
                         setInteractions(next);
                       }}
                     />
-                    {interactionName(pair)}
+                    {interactionName(chosen?.split("|") ?? pair)}
                   </label>
                 );
               })}
@@ -490,30 +550,40 @@ export function PlannedModelEditor({
           )}
           <FieldError id="pm-interactions-error" message={errors.interactions} />
         </div>
-        <div className="mt-4 grid gap-3 md:grid-cols-2">
-          <Select
-            id="pm-weights"
-            name="weights"
-            label="Prior weights"
-            value={initial.weights}
-            options={colOptions((c) => c.type === "number")}
-            placeholder="None"
-            error={errors.weights}
-          />
-          <Select
-            id="pm-offset"
-            name="offset"
-            label="Offset"
-            value={initial.offset}
-            options={colOptions((c) => c.type === "number")}
-            placeholder="None"
-            error={errors.offset}
-            hint="For counts: the log of exposure time."
-          />
-        </div>
+        {repeated ? (
+          <div className="mt-4">
+            <p className="text-xs text-ink-soft">
+              A repeated-measures model takes no prior weights or offset: the covariance of the visits weighs
+              the records.
+            </p>
+            <FieldError id="pm-weights-error" message={errors.weights ?? errors.offset} />
+          </div>
+        ) : (
+          <div className="mt-4 grid gap-3 md:grid-cols-2">
+            <Select
+              id="pm-weights"
+              name="weights"
+              label="Prior weights"
+              value={initial.weights}
+              options={colOptions((c) => c.type === "number")}
+              placeholder="None"
+              error={errors.weights}
+            />
+            <Select
+              id="pm-offset"
+              name="offset"
+              label="Offset"
+              value={initial.offset}
+              options={colOptions((c) => c.type === "number")}
+              placeholder="None"
+              error={errors.offset}
+              hint="For counts: the log of exposure time."
+            />
+          </div>
+        )}
       </Section>
 
-      {family === "cox" ? null : (
+      {family === "cox" || repeated ? null : (
         <PublishedValuesSection
           initial={initial.published ?? []}
           family={family}
@@ -707,6 +777,33 @@ export function PlannedModelEditor({
               </div>
             </>
           ) : null}
+          {offered("repeated_structure") ? (
+            <div className="flex flex-wrap items-center gap-2">
+              <label className="flex items-center gap-2">
+                <input
+                  type="checkbox"
+                  name="sensitivity:repeated_structure"
+                  defaultChecked={sens.has("repeated_structure")}
+                />{" "}
+                Repeated measures: refitted with another covariance structure of the visits,
+              </label>
+              <select
+                aria-label="Covariance structure of the sensitivity analysis"
+                name="sensitivity:structure"
+                className="field w-auto py-1"
+                defaultValue={sens.get("repeated_structure")?.structure ?? "compound-symmetry"}
+                aria-invalid={errors["sensitivity:structure"] ? true : undefined}
+                aria-describedby={errors["sensitivity:structure"] ? "sens-structure-error" : undefined}
+              >
+                {COVARIANCE_STRUCTURES.map((s) => (
+                  <option key={s} value={s}>
+                    {COVARIANCE_STRUCTURE_WORDS[s]}
+                  </option>
+                ))}
+              </select>
+              <FieldError id="sens-structure-error" message={errors["sensitivity:structure"]} />
+            </div>
+          ) : null}
           <FieldError
             id="sens-family-error"
             message={
@@ -716,7 +813,8 @@ export function PlannedModelEditor({
               errors["sensitivity:variance_function"] ??
               errors["sensitivity:cox_robust_subject"] ??
               errors["sensitivity:cox_unstratified"] ??
-              errors["sensitivity:exclude_influential"]
+              errors["sensitivity:exclude_influential"] ??
+              errors["sensitivity:repeated_structure"]
             }
           />
           <div>

@@ -20,6 +20,8 @@ export interface PlannedModelView {
   id_: string | null;
   checks: { key: string; label: string; threshold: number; remedy: string; source: string }[];
   sensitivity: string[];
+  /** Repeated-measures models: subject, visits and their order, covariance and fallbacks, df, REML or ML, primary visit, in words. */
+  repeated?: [string, string][];
   /** Time-to-event models: status, strata, ties and the PH test time scale, in words. */
   survival?: [string, string][];
   /** Values the study report printed, which a rerun must reproduce, in words. */
@@ -36,16 +38,26 @@ export function PlannedModelSummary({ m, actions }: { m: PlannedModelView; actio
     ["Endpoint", m.response],
     [
       "Distribution and link",
-      m.family === "cox" ? `${familyWords("cox")}: ${m.link}` : familyWithLink(m.family, m.link),
+      m.family === "cox"
+        ? `${familyWords("cox")}: ${m.link}`
+        : m.family === "repeated"
+          ? `Repeated measures (MMRM): ${familyWithLink("gaussian", m.link)}, visits correlated within a subject`
+          : familyWithLink(m.family, m.link),
     ],
     ["Treatment", m.treatment ? `${m.treatment} (reference ${m.reference ?? "first level"})` : "none"],
     ["Covariates", m.covariates.length ? m.covariates.join("; ") : "none"],
     ["Interactions", m.interactions.length ? m.interactions.join("; ") : "none"],
-    ["Weights", m.weights ?? "none"],
-    ["Offset", m.offset ?? "none"],
-    ["Subject id", m.id_ ?? "none"],
+    // a repeated-measures model takes no weights or offset and names its subject below
+    ...((m.family === "repeated"
+      ? []
+      : [
+          ["Weights", m.weights ?? "none"],
+          ["Offset", m.offset ?? "none"],
+          ["Subject id", m.id_ ?? "none"],
+        ]) satisfies [string, string][]),
     ...(m.analysis ?? []),
     ...(m.survival ?? []),
+    ...(m.repeated ?? []),
   ];
   return (
     <article className="panel" aria-labelledby={`model-${m.id}`}>

@@ -10,6 +10,7 @@ import { CAUTION } from "~/shared/caution";
 import { CHECKS, type CheckKey } from "~/engine/checks";
 import { modelSpecSchema } from "~/engine/model-spec";
 import { publishedValueSchema } from "~/engine/published-values";
+import { repeatedSpecSchema } from "~/engine/repeated/repeated-spec";
 import { coxSpecSchema } from "~/engine/survival/cox-spec";
 import { STUDY_ROLES } from "../db/schema";
 import { STUDY_PERMISSIONS, type StudyAction } from "../permissions.server";
@@ -156,8 +157,11 @@ const PlannedModel = registry.register(
     title: z.string(),
     datasetName: z.string(),
     spec: z
-      .union([modelSpecSchema, coxSpecSchema])
-      .describe("The model specification: the same object the headless rerun command reads"),
+      // a repeated-measures (MMRM) model first: it is a linear specification with a `repeated` part
+      .union([repeatedSpecSchema, modelSpecSchema, coxSpecSchema])
+      .describe(
+        "The model specification: the same object the headless rerun command reads (linear or generalized linear; repeated measures with `repeated`; time to event with family cox)",
+      ),
     checks: z.array(plannedCheckSchema),
     sensitivity: z.array(sensitivitySchema),
   }),

@@ -8,6 +8,8 @@ import { CHECK_BY_KEY } from "~/engine/checks";
 import { publishedInWords } from "~/engine/published-values";
 import type { PlannedModel } from "./planned-model";
 import { SENSITIVITY_LABELS } from "./planned-model";
+import { repeatedWords } from "./repeated-planned-model";
+import { COVARIANCE_STRUCTURE_WORDS } from "~/engine/repeated/repeated-names";
 
 export interface PlanChange {
   /** Where: "Plan" or the planned model's key and title. */
@@ -36,6 +38,17 @@ function survivalDiff(a: PlannedModel["spec"], b: PlannedModel["spec"]): string[
   const wa = new Map(words(a));
   const out: string[] = [];
   for (const [k, v] of words(b)) if (wa.get(k) !== v) out.push(`${k}: ${wa.get(k) ?? "none"} → ${v}`);
+  return out;
+}
+
+/** Repeated-measures fields in reviewers' words (subject, visit and order, covariance and fallbacks, df, likelihood, primary visit). */
+function repeatedDiff(a: PlannedModel["spec"], b: PlannedModel["spec"]): string[] {
+  const words = (s: PlannedModel["spec"]) => ("repeated" in s ? repeatedWords(s) : []);
+  const wa = new Map(words(a));
+  const wb = new Map(words(b));
+  const out: string[] = [];
+  for (const [k, v] of words(b)) if (wa.get(k) !== v) out.push(`${k}: ${wa.get(k) ?? "none"} → ${v}`);
+  for (const [k, v] of words(a)) if (!wb.has(k)) out.push(`${k}: ${v} → none`);
   return out;
 }
 
@@ -76,10 +89,13 @@ function compareModel(a: PlannedModel, b: PlannedModel): string[] {
     analysis(b.spec).multiplicity ?? "none",
   );
   field("Endpoint", a.spec.response, b.spec.response);
-  field("Family", a.spec.family, b.spec.family);
+  const familyOf = (s: PlannedModel["spec"]) => ("repeated" in s ? "repeated measures (MMRM)" : s.family);
+  field("Family", familyOf(a.spec), familyOf(b.spec));
   field("Link", "link" in a.spec ? a.spec.link : undefined, "link" in b.spec ? b.spec.link : undefined);
   if (a.spec.family === "cox" || b.spec.family === "cox")
     for (const line of survivalDiff(a.spec, b.spec)) out.push(line);
+  if ("repeated" in a.spec || "repeated" in b.spec)
+    for (const line of repeatedDiff(a.spec, b.spec)) out.push(line);
   field("Treatment", a.spec.treatment, b.spec.treatment);
   field("Weights", a.spec.weights, b.spec.weights);
   field("Offset", a.spec.offset, b.spec.offset);
@@ -111,6 +127,12 @@ function compareModel(a: PlannedModel, b: PlannedModel): string[] {
   const tauB = b.sensitivity.find((s) => s.kind === "cox_rmst")?.tau;
   if (tauA !== undefined && tauB !== undefined && tauA !== tauB)
     out.push(`${SENSITIVITY_LABELS.cox_rmst}: horizon τ ${tauA} → ${tauB}`);
+  const structureA = a.sensitivity.find((s) => s.kind === "repeated_structure")?.structure;
+  const structureB = b.sensitivity.find((s) => s.kind === "repeated_structure")?.structure;
+  if (structureA && structureB && structureA !== structureB)
+    out.push(
+      `${SENSITIVITY_LABELS.repeated_structure}: ${COVARIANCE_STRUCTURE_WORDS[structureA]} → ${COVARIANCE_STRUCTURE_WORDS[structureB]}`,
+    );
   const published = (m: PlannedModel) =>
     m.spec.family === "cox" ? [] : (m.spec.published ?? []).map((v) => publishedInWords(v));
   const pa = published(a);

@@ -2,12 +2,14 @@
 import { interactionName } from "~/engine/coefficient-names";
 import { CANONICAL_LINK } from "~/engine/model-spec";
 import type { CoxSpec } from "~/engine/survival/cox-spec";
+import { COVARIANCE_STRUCTURE_WORDS } from "~/engine/repeated/repeated-names";
 import { CHECK_BY_KEY } from "~/engine/checks";
 import { CONTRAST_SET_NAMES, MEANS_WEIGHTING_NAMES, MULTIPLICITY_NAMES } from "~/engine/multiplicity";
 import { describePopulation } from "~/engine/population";
 import { publishedInWords } from "~/engine/published-values";
 import type { PlannedModelView } from "~/components/planned-model-summary";
 import { SENSITIVITY_LABELS } from "./planned-model";
+import { repeatedWords } from "./repeated-planned-model";
 import type { StoredPlannedModel } from "./plans.server";
 
 /** A time-to-event model's own fields in words. */
@@ -46,12 +48,13 @@ export function plannedModelView(m: StoredPlannedModel): PlannedModelView {
         }
       : {}),
     response: m.spec.response,
-    family: m.spec.family,
+    family: "repeated" in m.spec ? "repeated" : m.spec.family,
     link:
       m.spec.family === "cox"
         ? "log hazard ratio (partial likelihood)"
         : (m.spec.link ?? CANONICAL_LINK[m.spec.family]),
     ...(m.spec.family === "cox" ? { survival: survivalWords(m.spec) } : {}),
+    ...("repeated" in m.spec ? { repeated: repeatedWords(m.spec) } : {}),
     treatment: m.spec.treatment ?? null,
     reference: treatment?.reference ?? null,
     covariates: main
@@ -84,10 +87,12 @@ export function plannedModelView(m: StoredPlannedModel): PlannedModelView {
           ? `${SENSITIVITY_LABELS[s.kind]} (${s.varianceBy === "treatment" ? "variance per arm" : "variance depending on the fitted values"})`
           : s.kind === "cox_rmst"
             ? `${SENSITIVITY_LABELS[s.kind]} to τ = ${s.tau}`
-            : SENSITIVITY_LABELS[s.kind],
+            : s.kind === "repeated_structure" && s.structure
+              ? `${SENSITIVITY_LABELS[s.kind]}: ${COVARIANCE_STRUCTURE_WORDS[s.structure]}`
+              : SENSITIVITY_LABELS[s.kind],
     ),
     published:
-      m.spec.family === "cox"
+      m.spec.family === "cox" || "repeated" in m.spec
         ? []
         : (m.spec.published ?? []).map((v) => publishedInWords(v, treatment?.reference)),
   };

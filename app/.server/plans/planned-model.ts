@@ -24,9 +24,17 @@ import {
 import { interactionName } from "~/engine/coefficient-names";
 import type { ColumnMeta } from "../datasets/catalog.server";
 import { categoricalHints, isNumericType } from "../datasets/categorical-hint";
-import { repeatedSpecSchema } from "~/engine/repeated/repeated-spec";
+import { covarianceStructureSchema, repeatedSpecSchema } from "~/engine/repeated/repeated-spec";
 import { coxSpecSchema } from "~/engine/survival/cox-spec";
 import { readSurvivalForm, survivalFormOf, validateSurvival, type SurvivalForm } from "./cox-planned-model";
+import {
+  readRepeatedForm,
+  repeatedFormOf,
+  structureSensitivityProblem,
+  validateRepeated,
+  EMPTY_REPEATED_FORM,
+  type RepeatedForm,
+} from "./repeated-planned-model";
 import {
   publishedFormOf,
   readPublishedForm,
@@ -64,6 +72,8 @@ export const sensitivitySchema = z.object({
   covariates: z.array(z.string()).optional(),
   /** cox_rmst: the horizon τ of the restricted mean, in the time column's units. */
   tau: z.number().positive().optional(),
+  /** repeated_structure: the covariance structure of the visits the analysis refits with. */
+  structure: covarianceStructureSchema.optional(),
   label: z.string().optional(),
 });
 export type PlannedSensitivity = z.infer<typeof sensitivitySchema>;
@@ -118,10 +128,14 @@ export type PlannedModel = z.infer<typeof plannedModelSchema>;
 
 export type FieldErrors = Record<string, string>;
 
-/** The editor's fields, as posted. */
-/** The model families the editor offers; anything else is refused, never stored as another family. */
-export const MODEL_FAMILIES = ["gaussian", "binomial", "poisson", "cox"] as const;
+/**
+ * The model families the editor offers; anything else is refused, never stored as another family.
+ * "repeated" is a repeated-measures (MMRM) model: a normal linear model with correlated visits,
+ * stored as a linear specification with a `repeated` part (repeated-planned-model.ts).
+ */
+export const MODEL_FAMILIES = ["gaussian", "binomial", "poisson", "cox", "repeated"] as const;
 
+/** The editor's fields, as posted. */
 export interface PlannedModelForm {
   key: string;
   title: string;
@@ -147,6 +161,8 @@ export interface PlannedModelForm {
   multiplicity: string;
   /** Time-to-event fields, read when the family is "cox" (cox-planned-model.ts). */
   survival?: SurvivalForm;
+  /** Repeated-measures fields, read when the family is "repeated" (repeated-planned-model.ts). */
+  repeated?: RepeatedForm;
   /** Values the study report printed, for the reproduction check (published-planned-values.ts). */
   published: PublishedRowForm[];
 }
@@ -201,6 +217,7 @@ export function readPlannedModelForm(f: FormData): PlannedModelForm {
       remedy: str(f, `check:${c.key}:remedy`) || c.defaultRemedy,
     })),
     ...(str(f, "family") === "cox" ? { survival: readSurvivalForm(f) } : {}),
+    ...(str(f, "family") === "repeated" ? { repeated: readRepeatedForm(f) } : {}),
     published: readPublishedForm(f),
     sensitivity: SENSITIVITY_KINDS.filter((k) => f.get(`sensitivity:${k}`) === "on").map((kind) => ({
       kind,
@@ -217,6 +234,10 @@ export function readPlannedModelForm(f: FormData): PlannedModelForm {
           }
         : {}),
       ...(kind === "cox_rmst" ? { tau: Number(str(f, "sensitivity:tau") || Number.NaN) } : {}),
+      // an unknown structure is left out, and the validation asks for one
+      ...(kind === "repeated_structure"
+        ? { structure: covarianceStructureSchema.safeParse(str(f, "sensitivity:structure")).data }
+        : {}),
     })),
   };
 }
@@ -339,7 +360,8 @@ export function validatePlannedModel(
     const c = need(field, name, `${label} column`);
     if (c && c.type !== "number") errors[field] = `${c.name} must be numeric to serve as ${label}.`;
   }
-  if (form.id) need("id", form.id, "subject identifier column");
+  // a repeated-measures model names its subject column in its own fields
+  if (form.id && family !== "repeated") need("id", form.id, "subject identifier column");
 
   for (const ch of form.checks) {
     if (!Number.isFinite(ch.threshold) || ch.threshold <= 0)
@@ -365,6 +387,10 @@ export function validatePlannedModel(
       else if (time?.max !== undefined && (s.tau ?? 0) > time.max)
         errors["sensitivity:tau"] =
           `The horizon τ = ${s.tau} is beyond the longest follow-up time in ${dataset.name} (${time.max}); choose a horizon within follow-up.`;
+    }
+    if (s.kind === "repeated_structure" && family === "repeated") {
+      const problem = structureSensitivityProblem(s.structure, form.repeated ?? EMPTY_REPEATED_FORM);
+      if (problem) errors["sensitivity:structure"] = problem;
     }
     if (s.kind === "alternative_covariates" && (!s.covariates || s.covariates.length === 0))
       errors["sensitivity:covariate"] = "Choose the covariates of the alternative set.";
@@ -426,6 +452,27 @@ export function validatePlannedModel(
   if (!form.treatment && multiplicity.success && multiplicity.data !== "none")
     errors.multiplicity =
       "A multiplicity adjustment applies to the treatment contrasts: choose the treatment above, or choose no adjustment.";
+  if (family === "repeated") {
+    const repeated = validateRepeated(
+      form,
+      terms,
+      { population, means: means.data, contrasts: contrasts.data, multiplicity: multiplicity.data },
+      dataset,
+      errors,
+    );
+    if (!repeated || Object.keys(errors).length > 0) return { ok: false, errors };
+    return {
+      ok: true,
+      model: {
+        key: form.key,
+        title: form.title,
+        datasetName: dataset.name,
+        spec: repeated,
+        checks: applicableChecks(form.checks, "repeated", Boolean(form.treatment)),
+        sensitivity: form.sensitivity,
+      },
+    };
+  }
   if (Object.keys(errors).length > 0) return { ok: false, errors };
   const spec: ModelSpec = modelSpecSchema.parse({
     response: form.response,
@@ -493,6 +540,16 @@ export function toForm(m: PlannedModel): PlannedModelForm {
     sensitivity: m.sensitivity,
     published: spec.family === "cox" ? [] : publishedFormOf(spec.published),
   };
+  if ("repeated" in spec)
+    return {
+      ...shared,
+      family: "repeated",
+      link: "",
+      means: spec.means ?? "equal",
+      contrasts: spec.contrasts ?? "reference",
+      multiplicity: spec.multiplicity ?? "none",
+      repeated: repeatedFormOf(spec),
+    };
   return spec.family === "cox"
     ? {
         ...shared,

@@ -89,10 +89,10 @@ export function validatePublished(
     const err = (field: string, message: string) => {
       errors[`published:${i}:${field}`] ??= message;
     };
-    if (m.family === "cox") {
+    if (m.family === "cox" || m.family === "repeated") {
       err(
         "quantity",
-        "Published values are compared for linear and generalized linear models; remove this row for a time-to-event model.",
+        `Published values are compared for linear and generalized linear models; remove this row for a ${m.family === "cox" ? "time-to-event" : "repeated-measures"} model.`,
       );
       return;
     }
