@@ -16,6 +16,8 @@ import {
 import { shapiroWilk } from "../normality";
 import { brownForsythe } from "../spread";
 import type { RepeatedResult } from "./repeated-model";
+import type { CovarianceStructureName } from "./repeated-spec";
+import { STRUCTURE_WORDS } from "./structure-names";
 
 const fmt = (x: number, digits = 3): string => {
   if (!Number.isFinite(x)) return "—";
@@ -48,7 +50,7 @@ function notComputed(
 }
 
 /** The plan's structures in the order the fit tries them: the planned one, then each fallback once. */
-function plannedOrder(r: RepeatedResult): string[] {
+function plannedOrder(r: RepeatedResult): CovarianceStructureName[] {
   const { covariance, fallback } = r.spec.repeated;
   return [covariance, ...fallback.filter((s, i) => s !== covariance && fallback.indexOf(s) === i)];
 }
@@ -63,24 +65,26 @@ function convergence(def: CheckDefinition, pc: PlannedCheck, r: RepeatedResult):
       def,
       pc,
       threshold,
-      `Not computed: the structure used (${c.structure}) is not in the plan's list.`,
+      `Not computed: the structure used (${STRUCTURE_WORDS[c.structure]}) is not in the plan's list.`,
     );
   const passedOver = c.attempts.filter((a) => a.reason !== null);
   const finding = !c.converged || position > k;
-  const why = passedOver.map((a) => `${a.structure}: ${a.reason}`).join("; ");
+  const why = passedOver.map((a) => `${STRUCTURE_WORDS[a.structure]}: ${a.reason}`).join("; ");
+  const used = STRUCTURE_WORDS[c.structure];
+  const plannedWords = STRUCTURE_WORDS[c.planned];
   return {
     key: def.key,
     label: def.label,
     outcome: finding ? "finding" : "within",
-    statistic: `${c.converged ? "converged" : "did not converge"} with the ${c.structure} structure, position ${position} of ${plannedOrder(r).length} in the plan's list (planned: ${c.planned})`,
+    statistic: `${c.converged ? "converged" : "did not converge"} with the ${used} structure, position ${position} of ${plannedOrder(r).length} in the plan's list (planned: ${plannedWords})`,
     threshold,
     summary: !c.converged
       ? "The fit did not converge; its estimates are not those of the plan."
       : position > k
-        ? `The fit used the ${c.structure} structure, not ${k === 1 ? `the planned ${c.planned} structure` : `one of the first ${kText(k)} of the plan's list`}${why ? ` (${why})` : ""}.`
+        ? `The fit used the ${used} structure, not ${k === 1 ? `the planned ${plannedWords} structure` : `one of the first ${kText(k)} of the plan's list`}${why ? ` (${why})` : ""}.`
         : position === 1
           ? "The planned structure converged and was used."
-          : `The fit used the plan's fallback ${c.structure}, within the first ${kText(k)} of its list${why ? ` (${why})` : ""}.`,
+          : `The fit used the plan's fallback ${used} structure, within the first ${kText(k)} of its list${why ? ` (${why})` : ""}.`,
     remedy: pc.remedy,
     figure: def.figure,
     value: position,
