@@ -24,7 +24,7 @@ import {
 import { interactionName } from "~/engine/coefficient-names";
 import type { ColumnMeta } from "../datasets/catalog.server";
 import { categoricalHints, isNumericType } from "../datasets/categorical-hint";
-import { repeatedSpecSchema } from "~/engine/repeated/repeated-spec";
+import { covarianceStructureSchema, repeatedSpecSchema } from "~/engine/repeated/repeated-spec";
 import { coxSpecSchema } from "~/engine/survival/cox-spec";
 import { readSurvivalForm, survivalFormOf, validateSurvival, type SurvivalForm } from "./cox-planned-model";
 import {
@@ -64,6 +64,8 @@ export const sensitivitySchema = z.object({
   covariates: z.array(z.string()).optional(),
   /** cox_rmst: the horizon τ of the restricted mean, in the time column's units. */
   tau: z.number().positive().optional(),
+  /** repeated_structure: the covariance structure of the visits refitted (read by planned-sensitivity.ts). */
+  structure: covarianceStructureSchema.optional(),
   label: z.string().optional(),
 });
 export type PlannedSensitivity = z.infer<typeof sensitivitySchema>;
