@@ -116,7 +116,7 @@ function normality(def: CheckDefinition, pc: PlannedCheck, r: RepeatedResult): C
     key: def.key,
     label: def.label,
     outcome: finding ? "finding" : "within",
-    statistic: `${measure} ${fmt(test.statistic, 4)} (${plural(residuals.length, "record")}), ${pWords(test.p)}`,
+    statistic: `Shapiro–Wilk statistic ${fmt(test.statistic)}, ${pWords(test.p)} (${plural(residuals.length, "normalized residual")})`,
     threshold: `p < ${kText(k)}`,
     summary: finding
       ? "The normalized residuals depart from normality at the planned level; judge the size of the departure on the Q-Q plot, since large samples reject small departures."
@@ -171,7 +171,7 @@ function spread(def: CheckDefinition, pc: PlannedCheck, r: RepeatedResult): Chec
     key: def.key,
     label: def.label,
     outcome: finding ? "finding" : "within",
-    statistic: `${measure} ${fmt(test.statistic)} ${distributionWords("F", [test.df1, test.df2])}, ${pWords(test.p)}`,
+    statistic: `Brown–Forsythe statistic ${fmt(test.statistic)} ${distributionWords("F", [test.df1, test.df2])}, ${pWords(test.p)} (normalized residuals across ${count} ${cellWords})`,
     threshold: `p < ${kText(k)}`,
     summary: finding
       ? `The spread of the normalized residuals differs across the ${cellWords} at the planned level; judge the residual plot by visit.`
