@@ -28,6 +28,7 @@ const { runOneJob } = await import("~/.server/jobs/jobs.server");
 (await import("~/.server/background.server")).registerJobHandlers();
 const { actorOf } = await import("~/.server/people.server");
 const { CHECK_BY_KEY, defaultChecks } = await import("~/engine/checks");
+const { plannedModelSchema } = await import("~/.server/plans/planned-model");
 const { eq } = await import("drizzle-orm");
 
 const ROOT = join(import.meta.dirname, "..", "reference", "repeated");
@@ -77,12 +78,12 @@ function plannedMmrm() {
     // the plan's own number: 3/m, so that some subjects of the invented trial are flagged
     c.key === "repeated_influence" ? { ...c, threshold: 3 } : c,
   );
-  return {
+  return plannedModelSchema.parse({
     key: "chg-mmrm",
     title: "Change from baseline by visit (MMRM)",
     datasetName: "adqs",
     spec: {
-      family: "gaussian" as const,
+      family: "gaussian",
       response: "CHG",
       terms: [
         { variable: "ARM", reference: "Placebo" },
@@ -95,15 +96,15 @@ function plannedMmrm() {
       // R's estimates printed to two decimals: the Dose 20 mg contrast at Week 16, and the ARM coefficient (Week 12, the reference visit)
       published: [
         {
-          quantity: "contrast" as const,
+          quantity: "contrast",
           level: "Dose 20 mg",
-          statistic: "estimate" as const,
+          statistic: "estimate",
           value: "-5.22",
         },
         {
-          quantity: "coefficient" as const,
+          quantity: "coefficient",
           term: [{ variable: "ARM", level: "Dose 20 mg" }],
-          statistic: "estimate" as const,
+          statistic: "estimate",
           value: "-2.70",
         },
       ],
@@ -111,19 +112,16 @@ function plannedMmrm() {
         subject: "USUBJID",
         visit: "AVISIT",
         visitOrder: "AVISITN",
-        covariance: "unstructured" as const,
-        fallback: ["toeplitz" as const],
-        df: "satterthwaite" as const,
-        method: "reml" as const,
+        covariance: "unstructured",
+        fallback: ["toeplitz"],
+        df: "satterthwaite",
+        method: "reml",
         primaryVisit: "Week 16",
       },
     },
     checks,
-    sensitivity: [
-      { kind: "repeated_structure" as const, structure: "toeplitz" as const },
-      { kind: "exclude_influential" as const },
-    ],
-  };
+    sensitivity: [{ kind: "repeated_structure", structure: "toeplitz" }, { kind: "exclude_influential" }],
+  });
 }
 
 beforeAll(async () => {
@@ -332,6 +330,26 @@ describe("rerunning an MMRM with its planned sensitivity analyses", () => {
     const w = whatIfInputs(doc, { columns: {}, rowNumbers: [] });
     expect(w.available).toBe(false);
     if (!w.available) expect(w.reason).toMatch(/repeated-measures \(MMRM\) model/);
+  });
+
+  it("refits an alternative covariate set keeping the visit and the treatment-by-visit term", async () => {
+    const id = await reruns.startRerun(priya, studyId, {
+      plannedModelId: modelId,
+      datasetVersionId: versionId,
+      options: { variant: "alternative_covariates", covariates: [], label: "Unadjusted" },
+      parentRerunId: primaryId,
+    });
+    await drain();
+    const got = await reruns.getRerun(studyId, id);
+    expect(got.rerun.status, got.rerun.failureReason ?? "").toBe("completed");
+    const r = got.doc!.result;
+    if (r.kind !== "repeated") throw new Error("not a repeated-measures result");
+    expect(r.spec.terms).toEqual([
+      { variable: "ARM", reference: "Placebo" },
+      { variable: "AVISIT" },
+      { interaction: ["ARM", "AVISIT"] },
+    ]);
+    expect(r.n).toBe(523);
   });
 
   it("keeps an analysis that does not apply to an MMRM as a failed rerun saying why", async () => {
