@@ -24,6 +24,7 @@ const datasets = await import("~/.server/datasets/datasets.server");
 const reruns = await import("~/.server/reruns/reruns.server");
 const { redaction } = await import("~/.server/redaction.server");
 const { whatIfInputs, exclusionProblem } = await import("~/.server/reruns/what-if.server");
+const { optionsFor } = await import("~/.server/reruns/planned-sensitivity");
 const { runOneJob } = await import("~/.server/jobs/jobs.server");
 (await import("~/.server/background.server")).registerJobHandlers();
 const { actorOf } = await import("~/.server/people.server");
@@ -318,6 +319,14 @@ describe("rerunning an MMRM with its planned sensitivity analyses", () => {
     expect(r.subjectCount).toBe(120 - n);
     expect(r.n).toBe(523 - theirRows.length);
     expect(r.observations.id.some((id) => flaggedIds.includes(id))).toBe(false);
+  });
+
+  it("runs another structure only when the plan names one", () => {
+    expect(optionsFor({ kind: "repeated_structure" }, doc)).toBeNull();
+    expect(optionsFor({ kind: "repeated_structure", structure: "ar1" }, doc)).toEqual({
+      variant: "repeated_structure",
+      structure: "ar1",
+    });
   });
 
   it("refuses an exclusion of part of a subject's records, and the closed-form what-if", () => {
