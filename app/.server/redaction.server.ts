@@ -192,9 +192,10 @@ export function redaction(
   };
 }
 
-/** Every id of the id column of a locked dataset version, or none when the rerun names no id column. */
+/** Every id of the id column (a repeated-measures model's subject column) of a locked dataset version, or none when the rerun names none. */
 async function datasetIds(doc: RerunDocument, datasetVersionId: string): Promise<string[]> {
-  const idColumn = doc.result.spec.id;
+  const r = doc.result;
+  const idColumn = r.kind === "repeated" ? r.spec.repeated.subject : r.spec.id;
   if (!idColumn) return [];
   try {
     const { table } = await loadLockedTable(datasetVersionId);

@@ -285,9 +285,12 @@ export function defaultChecks(hasTreatment: boolean, family = "gaussian"): Plann
 /** One flagged subject: rank 1 is the most extreme. */
 export interface FlaggedObservation {
   rank: number;
+  /** The subject's data row (1-based); for a subject with several records, its first. */
   row: number;
   id: string | null;
   value: number;
+  /** A subject with several records (repeated measures): the data rows of all of them, ascending. */
+  rows?: number[];
 }
 
 /** A check's numbers, for machines: what the statistic is, its value, the threshold as applied, and the p-value of a test. */

@@ -29,6 +29,11 @@ export type AnyFamily =
 
 type ModelKind = "linear" | "glm" | "cox" | "repeated";
 
+/** The family a stored specification stands for here: "repeated" for a repeated-measures one (gaussian with a `repeated` key). */
+export function familyOfSpec(spec: { family?: string }): string {
+  return "repeated" in spec ? "repeated" : (spec.family ?? "gaussian");
+}
+
 /** "repeated" stands for a repeated-measures (MMRM) model: normal responses, correlated within a subject. */
 const kindOf = (family: string): ModelKind =>
   family === "gaussian" ? "linear" : family === "cox" ? "cox" : family === "repeated" ? "repeated" : "glm";

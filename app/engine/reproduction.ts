@@ -10,6 +10,8 @@ import { termVariables } from "./design";
 import type { GlmResult } from "./glm/glm-model";
 import type { LinearModelResult } from "./linear-model";
 import { describePublished, type PublishedValue } from "./published-values";
+import { interactionName, levelName } from "./coefficient-names";
+import type { RepeatedResult } from "./repeated/repeated-model";
 
 type ModelResult = LinearModelResult | GlmResult;
 
@@ -188,7 +190,65 @@ function coefficientOf(r: ModelResult, v: Extract<PublishedValue, { quantity: "c
     : { missing: `the rerun has no estimate for ${what}` };
 }
 
-function valueOf(r: ModelResult, v: PublishedValue): Found {
+/** The treatment's reference arm of a repeated-measures fit: the plan's, else the one its contrasts use. */
+function repeatedReference(r: RepeatedResult): string | undefined {
+  const term = r.spec.terms.find((t) => "variable" in t && t.variable === r.spec.treatment);
+  return (term && "reference" in term && term.reference) || r.adjustedMeans?.contrasts[0]?.reference;
+}
+
+/**
+ * A published value of a repeated-measures (MMRM) fit. A study report prints the contrast and the
+ * adjusted means at the primary visit, so a contrast or mean is the one at `influence.primaryVisit`
+ * (the plan's primary visit, else the last); a coefficient is found by its term's variables, its
+ * name built from the parts in the term's order (coefficient-names.ts).
+ */
+function repeatedValueOf(r: RepeatedResult, v: PublishedValue): Found {
+  const visit = r.influence.primaryVisit;
+  const am = r.adjustedMeans;
+  switch (v.quantity) {
+    case "contrast": {
+      const reference = v.reference ?? repeatedReference(r);
+      const what = `${describePublished(v, reference)} at ${visit}`;
+      if (v.measure)
+        return {
+          missing: `${what}: a measure applies to generalized linear models; a repeated-measures contrast is a difference in adjusted means`,
+        };
+      const c = am?.contrasts.find(
+        (x) => x.level === v.level && x.reference === reference && x.visit === visit,
+      );
+      return c
+        ? { value: c[STAT_OF[v.statistic]], name: `${c.label} at ${visit}` }
+        : { missing: `the rerun reports no ${what}` };
+    }
+    case "mean": {
+      const m = am?.means.find((x) => x.level === v.level && x.visit === visit);
+      return m
+        ? { value: m[v.statistic], name: `adjusted mean ${m.level} at ${visit}` }
+        : { missing: `the rerun reports no ${describePublished(v)} at ${visit}` };
+    }
+    case "coefficient": {
+      const what = describePublished(v);
+      const wanted = v.term.map((p) => p.variable);
+      const term = termVariables(r.spec).find(
+        (vars) => vars.length === wanted.length && vars.every((x) => wanted.includes(x)),
+      );
+      if (!term) return { missing: `the model has no term ${wanted.join(" × ")}` };
+      const name = interactionName(
+        term.map((variable) => {
+          const part = v.term.find((p) => p.variable === variable)!;
+          return part.level === undefined ? variable : levelName(variable, part.level);
+        }),
+      );
+      const row = r.coefficients.find((c) => c.name === name);
+      return row
+        ? { value: row[STAT_OF[v.statistic]], name: `coefficient ${row.name}` }
+        : { missing: `the rerun has no estimate for ${what}` };
+    }
+  }
+}
+
+function valueOf(r: ModelResult | RepeatedResult, v: PublishedValue): Found {
+  if (r.kind === "repeated") return repeatedValueOf(r, v);
   switch (v.quantity) {
     case "contrast":
       return contrastOf(r, v);
@@ -200,14 +260,18 @@ function valueOf(r: ModelResult, v: PublishedValue): Found {
 }
 
 /** Compares every published value with the rerun's result. */
-export function checkReproduction(r: ModelResult, published: readonly PublishedValue[]): ReproductionResult {
+export function checkReproduction(
+  r: ModelResult | RepeatedResult,
+  published: readonly PublishedValue[],
+): ReproductionResult {
+  const reference = r.kind === "repeated" ? repeatedReference(r) : treatmentReference(r);
   const values = published.map((v): ReproducedValue => {
     const found = valueOf(r, v);
     const decimals = parsePrinted(v.value)?.decimals ?? 0;
     if ("missing" in found) {
       return {
         published: v,
-        quantity: describePublished(v, treatmentReference(r)),
+        quantity: describePublished(v, reference),
         printed: v.value,
         decimals,
         rerunValue: null,

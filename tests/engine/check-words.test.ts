@@ -25,6 +25,8 @@ import { familyWithLink } from "~/engine/family-names";
 import { interactionName, levelName } from "~/engine/coefficient-names";
 import { readCsvText } from "~/engine-io/read-csv";
 import { fitFactsOf, fitStatisticRows } from "~/components/fit-statistics";
+import { evaluateRepeatedChecks } from "~/engine/repeated/repeated-checks";
+import { fitRepeatedModel } from "~/engine/repeated/repeated-model";
 
 const REF = join(import.meta.dirname, "..", "reference");
 const load = (name: string, change: Record<string, unknown> = {}) => {
@@ -206,5 +208,41 @@ describe("names and summaries", () => {
     expect(summaryAfterLabel("", "Not estimable as planned: the design is singular.")).toBe(
       "Not estimable as planned: the design is singular.",
     );
+  });
+});
+
+describe("repeated-measures checks (the invented MMRM trial of tests/reference/repeated)", () => {
+  const dir = join(REF, "repeated");
+  const r = fitRepeatedModel(
+    JSON.parse(readFileSync(join(dir, "models", "trial-unstructured-reml.json"), "utf8")),
+    readCsvText(readFileSync(join(dir, "data", "trial.csv"), "utf8")),
+  );
+  const checks = byKey(evaluateRepeatedChecks(r, defaultChecks(true, "repeated")));
+
+  it("names each test and its statistic in words, with the reference distribution and what it was computed on", () => {
+    expect(checks.get("repeated_normality")!.statistic).toMatch(
+      /^Shapiro–Wilk statistic 0\.\d{3}, p [=<] 0\.\d{4} \(523 normalized residuals\)$/,
+    );
+    expect(checks.get("repeated_spread")!.statistic).toMatch(
+      /^Brown–Forsythe statistic \d+\.\d{3} \(F with 14 and 508 degrees of freedom\), p [=<] 0\.\d{4} \(normalized residuals across 15 visit-by-arm cells\)$/,
+    );
+    for (const c of checks.values()) expect(c.statistic, c.key).not.toMatch(/\b(W|F) = /);
+  });
+
+  it("names the structure in words, the largest subject influence with its subject, and the arm with the fewest subjects at the primary visit", () => {
+    expect(checks.get("repeated_convergence")!.statistic).toBe(
+      "converged with the unstructured structure, position 1 of 1 in the plan's list (planned: unstructured)",
+    );
+    expect(checks.get("repeated_influence")!.statistic).toMatch(
+      /^largest subject Cook's distance 0\.\d{3} \(subject S-\d{3}, \d records\)$/,
+    );
+    expect(checks.get("repeated_influence")!.threshold).toBe("4/m = 4/120 = 0.0333");
+    expect(checks.get("repeated_primary_visit")!.statistic).toMatch(
+      /\(Week 16\) 0\.725 \(Dose 10 mg: 29 of 40 subjects\)$/,
+    );
+  });
+
+  it("carries the numbers behind every text", () => {
+    for (const c of checks.values()) expect(c.numbers, c.key).toBeDefined();
   });
 });

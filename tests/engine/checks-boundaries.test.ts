@@ -1,5 +1,6 @@
 // The rule book (app/engine/checks.ts, app/engine/survival/cox-check-catalogue.ts and
-// cox-checks.ts), one worked boundary case per check: the statistic exactly at the published
+// cox-checks.ts, app/engine/repeated/repeated-check-catalogue.ts and repeated-checks.ts), one
+// worked boundary case per check: the statistic exactly at the published
 // threshold stays within plan (every rule is strict: "exceeds", "below", "fewer than"), and the
 // next step past it is a finding. Each case names the threshold's published source (cited from
 // memory, as the catalogue cites it). The cases start from real fits of invented data and set the
@@ -15,6 +16,11 @@ import {
   type CheckOutcome,
   type PlannedCheck,
 } from "~/engine/checks";
+import { readFileSync } from "node:fs";
+import { join } from "node:path";
+import { readCsvText } from "~/engine-io/read-csv";
+import { evaluateRepeatedChecks } from "~/engine/repeated/repeated-checks";
+import { fitRepeatedModel, type RepeatedResult } from "~/engine/repeated/repeated-model";
 import { evaluateCoxChecks } from "~/engine/survival/cox-checks";
 import { fitCoxModel, type CoxResult } from "~/engine/survival/cox-model";
 import type { FunctionalFormTest } from "~/engine/survival/functional-form";
@@ -139,8 +145,7 @@ describe("the fits the cases start from", () => {
   });
 
   it("every check in the catalogue has a case below", () => {
-    // PENDING(repeated-checks): the repeated-measures checks' cases land with repeated-checks.ts
-    const keys = CHECKS.filter((c) => c.models !== "repeated").map((c) => c.key);
+    const keys = CHECKS.map((c) => c.key);
     expect(keys.sort()).toEqual([...COVERED].sort());
   });
 });
@@ -366,5 +371,100 @@ describe("checks of Cox models", () => {
       fit: { ...cox.fit, eventsPerCoefficient },
     });
     expectBoundary(coxCheck("events_per_coefficient", at(10)), coxCheck("events_per_coefficient", at(9.99)));
+  });
+});
+
+describe("checks of repeated-measures (MMRM) models", () => {
+  // The invented three-arm trial with dropout of tests/reference/repeated/generate.R (120 subjects,
+  // 40 per arm, visits Week 2 to Week 16), fitted with an unstructured covariance by REML.
+  const reference = join(import.meta.dirname, "..", "reference", "repeated");
+  const repeated = fitRepeatedModel(
+    JSON.parse(readFileSync(join(reference, "models", "trial-unstructured-reml.json"), "utf8")),
+    readCsvText(readFileSync(join(reference, "data", "trial.csv"), "utf8")),
+  );
+  const repeatedCheck = (key: CheckKey, r: RepeatedResult, threshold?: number) =>
+    only(evaluateRepeatedChecks(r, [planned(key, threshold)]));
+
+  it(`${covers("repeated_convergence")}: the structure used is not the first k = 1 of the plan's list (the analysis as pre-specified, ICH E9 section 5.1)`, () => {
+    expect(CHECK_BY_KEY.get("repeated_convergence")!.defaultThreshold).toBe(1);
+    const usedAt = (structure: "unstructured" | "toeplitz"): RepeatedResult => ({
+      ...repeated,
+      spec: { ...repeated.spec, repeated: { ...repeated.spec.repeated, fallback: ["toeplitz"] } },
+      covariance: { ...repeated.covariance, structure },
+    });
+    const inside = repeatedCheck("repeated_convergence", usedAt("unstructured"));
+    const outside = repeatedCheck("repeated_convergence", usedAt("toeplitz"));
+    expectBoundary(inside, outside);
+    expect([inside.numbers?.statistic, outside.numbers?.statistic]).toEqual([1, 2]);
+    // the plan's own number: the first fallback is within plan at k = 2
+    expect(repeatedCheck("repeated_convergence", usedAt("toeplitz"), 2).outcome).toBe("within");
+    // a fit that did not converge is a finding wherever its structure stands
+    const unconverged = { ...repeated, covariance: { ...repeated.covariance, converged: false } };
+    expect(repeatedCheck("repeated_convergence", unconverged).outcome).toBe("finding");
+  });
+
+  // The two tests of the normalized residuals compute their p from the residuals; the plan's level
+  // is set exactly at that p (within plan: the rule is strict) and just above it (a finding).
+  const justAbove = (p: number) => p * (1 + 1e-9);
+
+  it(`${covers("repeated_normality")}: Shapiro–Wilk p < 0.05 on the normalized residuals (Shapiro and Wilk 1965)`, () => {
+    expect(CHECK_BY_KEY.get("repeated_normality")!.defaultThreshold).toBe(0.05);
+    const p = repeatedCheck("repeated_normality", repeated).numbers!.p!;
+    expectBoundary(
+      repeatedCheck("repeated_normality", repeated, p),
+      repeatedCheck("repeated_normality", repeated, justAbove(p)),
+    );
+  });
+
+  it(`${covers("repeated_spread")}: Brown–Forsythe p < 0.05 across the visit-by-arm cells (Brown and Forsythe 1974)`, () => {
+    expect(CHECK_BY_KEY.get("repeated_spread")!.defaultThreshold).toBe(0.05);
+    const p = repeatedCheck("repeated_spread", repeated).numbers!.p!;
+    expectBoundary(
+      repeatedCheck("repeated_spread", repeated, p),
+      repeatedCheck("repeated_spread", repeated, justAbove(p)),
+    );
+  });
+
+  it(`${covers("repeated_influence")}: a subject's Cook's distance exceeds 4/m = 4/120 (Christensen, Pearson and Johnson 1992; Bollen and Jackman 1990)`, () => {
+    expect(CHECK_BY_KEY.get("repeated_influence")!.defaultThreshold).toBe(4);
+    const m = repeated.subjects.length;
+    expect(m).toBe(120);
+    const target = repeated.subjects[5];
+    const at = (value: number): RepeatedResult => ({
+      ...repeated,
+      subjects: repeated.subjects.map((s) => ({ ...s, cooksDistance: s === target ? value : 0 })),
+    });
+    const inside = repeatedCheck("repeated_influence", at(4 / m));
+    const outside = repeatedCheck("repeated_influence", at(4 / m + 1e-6));
+    expectBoundary(inside, outside);
+    expect(inside.numbers?.threshold).toBe(4 / m);
+    // the flagged subject by id, its first data row, and every row of its records
+    const rows = repeated.observations.row.filter((_, i) => repeated.observations.id[i] === target.id);
+    expect(outside.flagged).toEqual([
+      {
+        rank: 1,
+        row: Math.min(...rows),
+        id: target.id,
+        value: 4 / m + 1e-6,
+        rows: [...rows].sort((a, b) => a - b),
+      },
+    ]);
+    expect(rows.length).toBe(target.records);
+  });
+
+  it(`${covers("repeated_primary_visit")}: fewer than 0.8 of an arm's analysed subjects have a record at the primary visit (the 5-and-20 rule, Schulz and Grimes 2002)`, () => {
+    expect(CHECK_BY_KEY.get("repeated_primary_visit")!.defaultThreshold).toBe(0.8);
+    const visit = repeated.influence.primaryVisit;
+    // 40 subjects per arm: 32 of 40 is 0.8 exactly, 31 of 40 the next step below
+    const at = (subjects: number): RepeatedResult => ({
+      ...repeated,
+      counts: repeated.counts.map((c) =>
+        c.visit !== visit ? c : { ...c, subjects: c.level === "Dose 20 mg" ? subjects : 40 },
+      ),
+    });
+    const inside = repeatedCheck("repeated_primary_visit", at(32));
+    const outside = repeatedCheck("repeated_primary_visit", at(31));
+    expectBoundary(inside, outside);
+    expect([inside.value, outside.value]).toEqual([0.8, 0.775]);
   });
 });

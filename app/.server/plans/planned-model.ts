@@ -72,7 +72,7 @@ export const sensitivitySchema = z.object({
   covariates: z.array(z.string()).optional(),
   /** cox_rmst: the horizon τ of the restricted mean, in the time column's units. */
   tau: z.number().positive().optional(),
-  /** repeated_structure: the covariance structure of the visits the analysis refits with. */
+  /** repeated_structure: the covariance structure of the visits refitted (read by planned-sensitivity.ts). */
   structure: covarianceStructureSchema.optional(),
   label: z.string().optional(),
 });

@@ -9,7 +9,9 @@ import { cellText, selectRows, type TypedColumn } from "~/engine/data";
 import { withSandwichErrors } from "~/engine/glm/sandwich-errors";
 import { selectPopulation, type PopulationStep } from "~/engine/population";
 import { checkReproduction, reproductionAsCheck, type ReproductionResult } from "~/engine/reproduction";
-import type { RepeatedResult } from "~/engine/repeated/repeated-model";
+import { evaluateRepeatedChecks } from "~/engine/repeated/repeated-checks";
+import { fitRepeatedModel, type RepeatedResult } from "~/engine/repeated/repeated-model";
+import type { RepeatedSpec } from "~/engine/repeated/repeated-spec";
 import { evaluateCoxChecks } from "~/engine/survival/cox-checks";
 import { fitCoxModel, type CoxResult } from "~/engine/survival/cox-model";
 import type { CoxSpec } from "~/engine/survival/cox-spec";
@@ -120,6 +122,31 @@ function coxVariantSpec(planned: CoxSpec, options: RerunOptions): CoxSpec {
   }
 }
 
+/**
+ * The repeated-measures specification a rerun fits: the planned one, or its sensitivity variant.
+ * The alternative covariate set keeps the visit (the model's time axis) and its interactions among
+ * the kept variables; another structure is fitted alone, without the plan's fallbacks (a fallback
+ * that converged would refit a structure already reported).
+ */
+function repeatedVariantSpec(planned: RepeatedSpec, options: RerunOptions): RepeatedSpec {
+  switch (options.variant) {
+    case "planned":
+    case "exclude_rows":
+      return planned;
+    case "alternative_covariates":
+      return alternativeSpec(planned, [
+        planned.repeated.visit,
+        ...options.covariates.filter((c) => c !== planned.repeated.visit),
+      ]);
+    case "repeated_structure":
+      return { ...planned, repeated: { ...planned.repeated, covariance: options.structure, fallback: [] } };
+    default:
+      throw new EngineError(
+        `the ${describeOptions(options).toLowerCase()} analysis does not apply to a repeated-measures (MMRM) model`,
+      );
+  }
+}
+
 /** The restricted mean survival time difference by arm, on the subjects the Cox model used. */
 function restrictedMeanOf(
   spec: CoxSpec,
@@ -164,7 +191,7 @@ export function computeRerun(
     working = filterRows(working, (i) => !drop.has(working.rowNumbers[i]));
   }
   const excludedByOption = inPopulation - working.rowNumbers.length;
-  const doc = (result: ModelResult | CoxResult, checks: CheckOutcome[]): RerunDocument => ({
+  const doc = (result: RerunDocument["result"], checks: CheckOutcome[]): RerunDocument => ({
     engineVersion: ENGINE_VERSION,
     caution: RESULTS_CAUTION,
     datasetSha256: meta.datasetSha256,
@@ -184,10 +211,16 @@ export function computeRerun(
     result,
     checks,
   });
-  if ("repeated" in model.spec)
-    throw new EngineError(
-      "repeated-measures reruns are not yet run by the product; use the headless command's fit",
-    );
+  if ("repeated" in model.spec) {
+    const spec = repeatedVariantSpec(model.spec, options);
+    // the plan's adjusted-means weighting, as the linear fit reads it from its specification
+    const result = fitRepeatedModel(spec, working, { meansWeighting: spec.means ?? "equal" });
+    const published = options.variant === "planned" ? (spec.published ?? []) : [];
+    return {
+      ...doc(result, evaluateRepeatedChecks(result, model.checks)),
+      ...(published.length > 0 ? { reproduction: checkReproduction(result, published) } : {}),
+    };
+  }
   if (model.spec.family === "cox") {
     const coxSpec = coxVariantSpec(model.spec, options);
     const result = fitCoxModel(coxSpec, working);

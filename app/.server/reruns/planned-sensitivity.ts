@@ -3,13 +3,37 @@
  * primary rerun's result (the exclusion of influential subjects needs its flagged rows). Read by
  * the rerun job, which queues them when the primary completes, and by the results page.
  */
-import { sensitivityApplies } from "~/engine/family-applicability";
+import { familyOfSpec, sensitivityApplies } from "~/engine/family-applicability";
+import { covarianceStructureSchema, type CovarianceStructureName } from "~/engine/repeated/repeated-spec";
 import { SENSITIVITY_LABELS, type PlannedModel, type PlannedSensitivity } from "../plans/planned-model";
 import { describeOptions, type RerunOptions } from "./rerun-options";
 import type { RerunDocument } from "./reruns.server";
 
 /** Why the pre-specified exclusion leaves its rows out (the planned analysis, or a what-if choosing exactly its rows). */
 export const COOKS_EXCLUSION_REASON = "flagged by the Cook's distance check";
+
+/** Why the pre-specified exclusion of a repeated-measures model leaves out its subjects' records. */
+export const SUBJECT_INFLUENCE_EXCLUSION_REASON = "flagged by the subject influence check";
+
+/**
+ * The subjects the primary rerun's repeated-measures influence check flagged, with every data row
+ * of their records (ascending); null when the rerun has no such check (not a repeated-measures model).
+ */
+function influentialSubjects(
+  primary: Pick<RerunDocument, "checks"> | null,
+): { subjects: number; rows: number[] } | null {
+  const check = primary?.checks.find((c) => c.key === "repeated_influence");
+  if (!check) return null;
+  const flagged = check.flagged ?? [];
+  const rows = [...new Set(flagged.flatMap((f) => f.rows ?? [f.row]))].sort((a, b) => a - b);
+  return { subjects: flagged.length, rows };
+}
+
+/** The covariance structure a plan's `repeated_structure` analysis names; undefined when it names none (read defensively: plans store it as text). */
+export function plannedStructureOf(s: PlannedSensitivity): CovarianceStructureName | undefined {
+  const parsed = covarianceStructureSchema.safeParse((s as { structure?: unknown }).structure);
+  return parsed.success ? parsed.data : undefined;
+}
 
 /** The rows the primary rerun's Cook's distance check flagged, ascending. */
 function cooksFlaggedRows(primary: Pick<RerunDocument, "checks"> | null): number[] {
@@ -40,6 +64,17 @@ export function optionsFor(
         label: s.label ?? "Alternative covariate set",
       };
     case "exclude_influential": {
+      // a repeated-measures model leaves out every record of each flagged subject
+      const subjects = influentialSubjects(primary);
+      if (subjects)
+        return subjects.subjects > 0
+          ? {
+              variant: "exclude_rows",
+              rows: subjects.rows,
+              subjects: subjects.subjects,
+              reason: SUBJECT_INFLUENCE_EXCLUSION_REASON,
+            }
+          : null;
       const rows = cooksFlaggedRows(primary);
       return rows.length ? { variant: "exclude_rows", rows, reason: COOKS_EXCLUSION_REASON } : null;
     }
@@ -52,8 +87,10 @@ export function optionsFor(
       return { variant: s.kind };
     case "cox_rmst":
       return s.tau ? { variant: "cox_rmst", tau: s.tau } : null;
-    case "repeated_structure":
-      return null; // not yet run: the repeated-measures rerun path lands separately
+    case "repeated_structure": {
+      const structure = plannedStructureOf(s);
+      return structure ? { variant: "repeated_structure", structure } : null;
+    }
   }
 }
 
@@ -67,7 +104,7 @@ export function plannedSensitivityOptions(
   primary: Pick<RerunDocument, "checks">,
 ): RerunOptions[] {
   return model.sensitivity.flatMap((s) => {
-    if (!sensitivityApplies(s.kind, model.spec.family)) return [];
+    if (!sensitivityApplies(s.kind, familyOfSpec(model.spec))) return [];
     const options = optionsFor(s, primary);
     return options ? [options] : [];
   });
@@ -77,7 +114,9 @@ export function plannedSensitivityOptions(
 export function sensitivityLabel(s: PlannedSensitivity, options: RerunOptions | null): string {
   if (!options) return SENSITIVITY_LABELS[s.kind];
   if (s.kind === "alternative_covariates") return `${s.label}: ${(s.covariates ?? []).join(", ")}`;
-  return options.variant === "cox_rmst" ? describeOptions(options) : SENSITIVITY_LABELS[s.kind];
+  return options.variant === "cox_rmst" || options.variant === "repeated_structure"
+    ? describeOptions(options)
+    : SENSITIVITY_LABELS[s.kind];
 }
 
 /**

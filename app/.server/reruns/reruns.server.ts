@@ -316,7 +316,7 @@ async function refuseInvalidOptions(studyId: string, input: StartRerun): Promise
         },
         { status: 400 },
       );
-    const problem = exclusionProblem(doc, options.rows);
+    const problem = exclusionProblem(doc, options.rows, options.subjects);
     if (problem) throw data({ message: `${problem} Nothing was started.` }, { status: 400 });
   }
   return options;

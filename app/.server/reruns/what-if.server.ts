@@ -9,6 +9,7 @@ import { CHECK_BY_KEY, type CheckKey } from "~/engine/checks";
 import { selectRows, toDataTable, type ColumnTable, type TypedColumn } from "~/engine/data";
 import { buildDesign, prepareData } from "~/engine/design";
 import { EngineError, RESULTS_CAUTION, type LinearModelResult } from "~/engine";
+import type { RepeatedResult } from "~/engine/repeated/repeated-model";
 import { leastSquares } from "~/engine/least-squares";
 import { LRUCache } from "lru-cache";
 import type { RerunDocument } from "./reruns.server";
@@ -64,8 +65,13 @@ export function rerunTable<C extends TypedColumn = string[]>(
  * and at least one must stay. Checked before a sensitivity rerun is queued, so an exclusion
  * never names rows that would change nothing (and is never labelled by a wrong count).
  */
-export function exclusionProblem(doc: RerunDocument, rows: readonly number[]): string | null {
+export function exclusionProblem(
+  doc: RerunDocument,
+  rows: readonly number[],
+  subjects?: number,
+): string | null {
   if (rows.length === 0) return "Choose at least one subject to exclude.";
+  if (doc.result.kind === "repeated") return repeatedExclusionProblem(doc.result, rows, subjects);
   const analysed = new Set(doc.result.observations.row);
   const seen = new Set<number>();
   for (const row of rows) {
@@ -76,6 +82,46 @@ export function exclusionProblem(doc: RerunDocument, rows: readonly number[]): s
     seen.add(row);
   }
   if (seen.size >= analysed.size)
+    return "Excluding every subject leaves nothing to fit; keep at least one subject.";
+  return null;
+}
+
+/**
+ * The same for a repeated-measures rerun, whose subjects have several records: every row must be
+ * a record it analysed, each subject is left out with all of its records, `subjects` counts them,
+ * and at least one subject stays.
+ */
+function repeatedExclusionProblem(
+  r: RepeatedResult,
+  rows: readonly number[],
+  subjects: number | undefined,
+): string | null {
+  if (subjects === undefined)
+    return "A repeated-measures model leaves out subjects with all of their records, through the plan's exclusion of influential subjects; rows chosen one by one do not apply.";
+  const subjectOf = new Map<number, string>();
+  const recordsOf = new Map<string, number>();
+  r.observations.row.forEach((row, i) => {
+    const id = r.observations.id[i];
+    subjectOf.set(row, id);
+    recordsOf.set(id, (recordsOf.get(id) ?? 0) + 1);
+  });
+  const seen = new Set<number>();
+  const named = new Map<string, number>();
+  for (const row of rows) {
+    const id = subjectOf.get(row);
+    if (!Number.isInteger(row) || id === undefined)
+      return `Row ${row} is not one of the ${subjectOf.size} records this rerun analysed (rows are numbered from 1 in the locked file).`;
+    if (seen.has(row)) return `Row ${row} is named twice; name each record once.`;
+    seen.add(row);
+    named.set(id, (named.get(id) ?? 0) + 1);
+  }
+  for (const [id, count] of named) {
+    if (count !== recordsOf.get(id))
+      return `Row ${rows.find((row) => subjectOf.get(row) === id)} is one of ${recordsOf.get(id)} records of a subject, of which ${count} are named; a subject is left out with all of its records.`;
+  }
+  if (named.size !== subjects)
+    return `The rows are the records of ${named.size} subject${named.size === 1 ? "" : "s"}, not ${subjects}.`;
+  if (named.size >= recordsOf.size)
     return "Excluding every subject leaves nothing to fit; keep at least one subject.";
   return null;
 }
@@ -146,6 +192,10 @@ export function whatIfInputs(
   if (doc.result.kind === "cox")
     return unavailable(
       "The closed-form what-if is offered for linear models; this rerun is a time-to-event (Cox) model. Use a sensitivity rerun excluding the subjects.",
+    );
+  if (doc.result.kind === "repeated")
+    return unavailable(
+      "The closed-form what-if is offered for linear models; this rerun is a repeated-measures (MMRM) model, whose subjects have several correlated records. Use the plan's exclusion of influential subjects, a sensitivity rerun leaving out all of their records.",
     );
   if (doc.result.kind !== "linear")
     return unavailable(

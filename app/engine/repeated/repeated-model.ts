@@ -101,6 +101,8 @@ export interface RepeatedObservationColumns {
   readonly row: number[];
   readonly id: string[];
   readonly visit: string[];
+  /** Treatment arm of each record (null when the model names no categorical treatment). */
+  readonly level: (string | null)[];
   readonly fitted: number[];
   readonly residual: number[];
   readonly normalizedResidual: number[];
@@ -462,6 +464,7 @@ export function fitRepeatedModel(
       row: Array.from(rd.data.used, (i) => rd.data.rowNumbers[i]),
       id: Array.from(rd.rowSubject, (s) => rd.subjects[s].id),
       visit: Array.from(rd.rowPosition, (v) => visitLevels[v]),
+      level: Array.from(rd.rowPosition, (_, i) => (arms ? arms.levels[arms.codes[i]] : null)),
       fitted: Array.from(res.fitted),
       residual: Array.from(res.residual),
       normalizedResidual: Array.from(res.normalizedResidual),
