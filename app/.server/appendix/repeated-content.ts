@@ -17,6 +17,12 @@ const DF_NAMES = {
   residual: "residual",
 } as const;
 
+/** The method in words: "Mixed model for repeated measures, REML, unstructured covariance, Satterthwaite df" (the API's and the report's method). */
+export function repeatedMethodWords(r: RepeatedResult): string {
+  const df = DF_NAMES[r.dfMethod];
+  return `Mixed model for repeated measures, ${r.method === "reml" ? "REML" : "ML"}, ${structureName(r.covariance.structure)} covariance of the visits, ${df} df`;
+}
+
 /** Degrees of freedom as printed: whole numbers as such, approximations to one decimal. */
 export const fmtDf = (df: number | null | undefined): string =>
   df === null || df === undefined || !Number.isFinite(df)
