@@ -263,7 +263,11 @@ export function repeatedResultBlocks(
         ? `${r.tests.notes.map((n) => `${n[0].toUpperCase()}${n.slice(1)}`).join(". ")}.`
         : `Denominator degrees of freedom by the ${df} method.`,
     });
-  const levels = [...new Set(r.counts.map((x) => x.level))];
+  // the reference arm first, then the others in the model's order
+  const reference = am?.contrasts[0]?.reference ?? null;
+  const levels = [...new Set(r.counts.map((x) => x.level))].sort(
+    (x, y) => Number(y === reference) - Number(x === reference),
+  );
   blocks.push({
     kind: "table",
     key: `visit-counts:${rerunId}`,
