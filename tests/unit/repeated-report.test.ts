@@ -15,6 +15,8 @@ import path from "node:path";
 import Ajv2020 from "ajv/dist/2020.js";
 import addFormats from "ajv-formats";
 import JSZip from "jszip";
+import { createElement } from "react";
+import { renderToStaticMarkup } from "react-dom/server";
 import { beforeAll, describe, expect, it } from "vitest";
 import { useTempDatabase } from "../support/temp-db";
 
@@ -28,11 +30,13 @@ const findings = await import("~/.server/reruns/findings.server");
 const { actorOf } = await import("~/.server/people.server");
 const { canonicalJson } = await import("~/.server/canonical-json");
 const { buildAppendixContent } = await import("~/.server/appendix/build-content.server");
+const { repeatedResultBlocks } = await import("~/.server/appendix/repeated-content");
 const appendix = await import("~/.server/appendix/appendix.server");
 const { getReport } = await import("~/.server/reports/reports.server");
 const { getStudyRerun } = await import("~/.server/api/reruns.server");
 const { openApiDocument } = await import("~/.server/api/openapi");
 const { fitRepeatedModel } = await import("~/engine/repeated/repeated-model");
+const { RepeatedReportSections } = await import("~/components/repeated-report");
 const { REPEATED_CHECKS } = await import("~/engine/repeated/repeated-check-catalogue");
 const { ENGINE_VERSION, RESULTS_CAUTION } = await import("~/engine/version");
 const { eq } = await import("drizzle-orm");
@@ -340,6 +344,28 @@ describe("the Word appendix of a signed repeated-measures rerun", () => {
     );
   });
 
+  it("says which structure was used instead of the planned one, and why", () => {
+    const fellBack: RepeatedResult = {
+      ...result,
+      covariance: {
+        ...result.covariance,
+        structure: "toeplitz",
+        attempts: [
+          { structure: "unstructured", converged: false, iterations: 200, reason: "did not converge" },
+          { structure: "toeplitz", converged: true, iterations: 7, reason: null },
+        ],
+      },
+    };
+    const blocks = repeatedResultBlocks(fellBack, "x", "Model", { table: () => 1 });
+    expect(blocks[0].kind === "paragraph" && blocks[0].text).toMatch(
+      /The Toeplitz covariance structure was used instead of the planned unstructured\. Not used: unstructured \(did not converge\)\./,
+    );
+    const fit = blocks.find((b) => b.kind === "table" && b.key === "fit:x");
+    expect(fit?.kind === "table" && fit.rows.find((r) => r[0] === "Structures tried, in order")?.[1]).toBe(
+      "unstructured: did not converge; Toeplitz: converged (7 iterations)",
+    );
+  });
+
   it("writes the methods of an MMRM: REML, structure and fallbacks, df method, missing at random, normalized residuals, subject influence", () => {
     const methods = content.sections.find((s) => s.key === "methods")!;
     const text = methods.blocks.flatMap((b) => (b.kind === "paragraph" ? [b.text] : [])).join(" ");
@@ -395,6 +421,12 @@ describe("the sponsor report of a repeated-measures rerun", () => {
     const text = JSON.stringify(report);
     for (const id of ids) expect(text.includes(id), id).toBe(false);
     expect(report.caution).toBe(CAUTION);
+    // the page's sections: the headline, then every table with its caption and header row
+    const html = renderToStaticMarkup(createElement(RepeatedReportSections, { part }));
+    expect(html).toContain("Treatment effect at the primary visit");
+    expect((html.match(/<table /g) ?? []).length).toBe(part.tables.length);
+    expect(html).toContain("Week 12 (primary)");
+    for (const id of ids) expect(html.includes(id), id).toBe(false);
   });
 });
 

@@ -9,6 +9,7 @@
 import type { Block } from "~/shared/appendix-content";
 import { fmt, fmtCi, fmtP } from "~/shared/format";
 import type { RepeatedResult, RepeatedTest, VisitContrast } from "~/engine/repeated/repeated-model";
+import { MULTIPLICITY_NAMES } from "~/engine/multiplicity";
 import { DF_WORDS, structureName } from "./repeated-methods";
 
 const DF_NAMES = {
@@ -50,9 +51,8 @@ export function structureSentence(r: RepeatedResult): string {
   if (c.structure === c.planned)
     return `The planned ${structureName(c.planned)} covariance structure was used (converged in ${c.iterations} iterations).`;
   return (
-    `The ${structureName(c.structure)} covariance structure was used instead of the planned ${structureName(c.planned)}: ` +
-    failed.map((a) => `${structureName(a.structure)} was not used because ${a.reason}`).join("; ") +
-    "."
+    `The ${structureName(c.structure)} covariance structure was used instead of the planned ${structureName(c.planned)}. ` +
+    `Not used: ${failed.map((a) => `${structureName(a.structure)} (${a.reason})`).join("; ")}.`
   );
 }
 
@@ -238,7 +238,11 @@ export function repeatedResultBlocks(
           fmtP(x.p),
           fmtCi(x.lower, x.upper),
         ]),
-        note: `Differences in adjusted means; degrees of freedom by the ${df} method. The primary visit is marked. p-values are not adjusted for multiplicity.`,
+        note:
+          `Differences in adjusted means; degrees of freedom by the ${df} method. The primary visit is marked. p-values are not adjusted for multiplicity` +
+          (r.spec.multiplicity && r.spec.multiplicity !== "none"
+            ? ` (the plan's ${MULTIPLICITY_NAMES[r.spec.multiplicity]} adjustment is not applied to the contrasts by visit).`
+            : "."),
       });
   }
   const tests = [
