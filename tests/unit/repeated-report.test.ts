@@ -10,7 +10,7 @@
  * carries the records and subject influence. API answers are validated against the OpenAPI document.
  */
 import { createHash } from "node:crypto";
-import { readFileSync } from "node:fs";
+import { mkdirSync, readFileSync, writeFileSync } from "node:fs";
 import path from "node:path";
 import Ajv2020 from "ajv/dist/2020.js";
 import addFormats from "ajv-formats";
@@ -229,6 +229,8 @@ beforeAll(async () => {
   content = await buildAppendixContent(studyId, { kind: "rerun", rerunId });
   const rendered = await appendix.renderAppendix(studyId, { kind: "rerun", rerunId });
   documentXml = await (await JSZip.loadAsync(rendered.bytes)).file("word/document.xml")!.async("string");
+  mkdirSync(path.resolve("test-results", "appendix"), { recursive: true });
+  writeFileSync(path.resolve("test-results", "appendix", "appendix-repeated.docx"), rendered.bytes);
 }, 240_000);
 
 describe("the Word appendix of a signed repeated-measures rerun", () => {
