@@ -192,10 +192,15 @@ export function redaction(
   };
 }
 
-/** Every id of the id column (a repeated-measures model's subject column) of a locked dataset version, or none when the rerun names none. */
+/** The column of a rerun's subject ids: the model's id column, or a repeated-measures model's subject column. */
+export function subjectColumnOf(doc: RerunDocument): string | undefined {
+  const spec = doc.result.spec;
+  return spec.id ?? ("repeated" in spec ? spec.repeated.subject : undefined);
+}
+
+/** Every id of the id column of a locked dataset version, or none when the rerun names no id column. */
 async function datasetIds(doc: RerunDocument, datasetVersionId: string): Promise<string[]> {
-  const r = doc.result;
-  const idColumn = r.kind === "repeated" ? r.spec.repeated.subject : r.spec.id;
+  const idColumn = subjectColumnOf(doc);
   if (!idColumn) return [];
   try {
     const { table } = await loadLockedTable(datasetVersionId);

@@ -107,6 +107,14 @@ export function plotsSubjects(d: FigureData): d is SubjectFigureData | CoxSubjec
   return !["binned_residuals", "calibration", "gvif", "kaplan_meier", "log_minus_log"].includes(d.figure);
 }
 
+/** A repeated-measures rerun's figures in reading order: residuals, Q-Q, means over visits, subject influence. */
+const REPEATED_FIGURE_ORDER: readonly FigureKey[] = [
+  "repeated_residuals_fitted",
+  "repeated_qq",
+  "repeated_means",
+  "repeated_influence",
+];
+
 /**
  * The figures of a rerun in reading order, for the appendix and the sponsor report: the residual
  * and influence views, each computed check's own figure (drawn for the covariate its module picks),
@@ -115,6 +123,9 @@ export function plotsSubjects(d: FigureData): d is SubjectFigureData | CoxSubjec
 export function figureListOf(source: FigureSource): { figure: FigureKey; term?: string }[] {
   const r = source.result;
   if (r.kind === "cox") return coxFigureList(r);
+  // a repeated-measures rerun: its figures in reading order, those whose module is registered
+  if (r.kind === "repeated")
+    return REPEATED_FIGURE_ORDER.filter((figure) => BY_KEY.has(figure)).map((figure) => ({ figure }));
   const { continuous } = figureTerms(source);
   const covariates = continuous.filter((c) => c !== r.spec.treatment);
   const first: FigureKey[] = ["residuals_fitted", "qq", "influence", "leverage_residual"];

@@ -1,6 +1,7 @@
 import { Link } from "react-router";
 import { TreatmentEffectNote } from "~/components/treatment-effect";
 import { CoxReportTables } from "~/components/cox-results";
+import { RepeatedReportSections } from "~/components/repeated-report";
 import { FitStatisticsTable } from "~/components/fit-statistics-table";
 import type { Route } from "./+types/study-report";
 import { ACTIONS, CATEGORIES, IMPACTS } from "~/shared/assessment-terms";
@@ -136,6 +137,7 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
             </div>
           ) : null}
         </section>
+        {results.repeated ? <RepeatedReportSections part={results.repeated} /> : null}
         {results.contrasts.length > 0 ? (
           <section className="panel p-4" aria-labelledby="effect-h">
             <h2 id="effect-h" className="mb-2">
@@ -154,17 +156,19 @@ export default function ReportPage({ loaderData }: Route.ComponentProps) {
             ) : null}
           </section>
         ) : null}
-        <section className="panel p-4" aria-labelledby="coef-h">
-          <h2 id="coef-h" className="mb-2">
-            Coefficients
-          </h2>
-          <CoefficientTable
-            rows={results.coefficients}
-            covarianceType={results.covarianceType}
-            df={results.dfResidual ?? 0}
-            statisticName={results.statisticName}
-          />
-        </section>
+        {results.repeated ? null : (
+          <section className="panel p-4" aria-labelledby="coef-h">
+            <h2 id="coef-h" className="mb-2">
+              Coefficients
+            </h2>
+            <CoefficientTable
+              rows={results.coefficients}
+              covarianceType={results.covarianceType}
+              df={results.dfResidual ?? 0}
+              statisticName={results.statisticName}
+            />
+          </section>
+        )}
         {results.cox ? (
           <section className="panel p-4" aria-labelledby="hr-h">
             <h2 id="hr-h" className="mb-2">

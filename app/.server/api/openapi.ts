@@ -114,7 +114,7 @@ get(
   "One rerun: status, results summary, checks, findings with assessments, signatures and sensitivity comparison",
   RerunAnswer,
   { ...studyParams, rerunId: id("The rerun's id") },
-  "Subject identifiers appear only for roles that may see subject-level data; others read ranks and counts. Sponsor readers get 404 for a rerun that is not published.",
+  "Subject identifiers appear only for roles that may see subject-level data; others read ranks and counts. A repeated-measures rerun's per-record residuals and per-subject influence (`results.repeated.observations`, `subjects`) are given to those roles only. Sponsor readers get 404 for a rerun that is not published.",
 );
 get(
   "/api/v1/studies/{studyId}/deviations",

@@ -22,6 +22,7 @@ import { requireStudyForPrincipal } from "../study-access.server";
 import { seesSubjects } from "../permissions.server";
 import { redactionFor, type Redaction } from "../redaction.server";
 import { ApiError } from "./respond.server";
+import { repeatedResultsOut } from "./repeated-results.server";
 import type { Body, RerunAnswer, RerunsAnswer } from "./schemas";
 import type { ApiPrincipal } from "./tokens.server";
 
@@ -85,7 +86,8 @@ export async function listStudyReruns(p: ApiPrincipal, studyId: string): Promise
   return { reruns: rows.filter((r) => everyRerun || r.row.publishedAt !== null).map((r) => r.out) };
 }
 
-function resultsOut(doc: RerunDocument): NonNullable<Body<typeof RerunAnswer>["results"]> {
+/** The results summary of a rerun; a repeated-measures model's subject-level parts only when `redact` lets subjects through. */
+function resultsOut(doc: RerunDocument, redact: Redaction): NonNullable<Body<typeof RerunAnswer>["results"]> {
   if (doc.result.kind === "cox") {
     // Cox models: log hazard ratios (robust SE when the fit is robust); the full answer is the headless command's
     const c = doc.result;
@@ -125,13 +127,10 @@ function resultsOut(doc: RerunDocument): NonNullable<Body<typeof RerunAnswer>["r
       treatmentEffect: null,
       adjustedMeans: null,
       contrasts: null,
+      repeated: null,
     };
   }
-  if (doc.result.kind === "repeated")
-    throw new ApiError(
-      "bad_request",
-      "Repeated-measures results are not yet answered here; use the headless command's fit",
-    );
+  if (doc.result.kind === "repeated") return repeatedResultsOut(doc, doc.result, redact);
   const r = doc.result;
   const common = {
     description: doc.description,
@@ -181,6 +180,7 @@ function resultsOut(doc: RerunDocument): NonNullable<Body<typeof RerunAnswer>["r
           ...contrastNumbers(c),
           hc3: c.robust ? contrastNumbers(c.robust) : null,
         })) ?? null,
+      repeated: null,
     };
   }
   return {
@@ -214,6 +214,7 @@ function resultsOut(doc: RerunDocument): NonNullable<Body<typeof RerunAnswer>["r
         ...contrastNumbers(c),
         hc3: contrastNumbers(c.hc3),
       })) ?? null,
+    repeated: null,
   };
 }
 
@@ -303,7 +304,7 @@ export async function getStudyRerun(
       label: found.out.label === null ? null : txt(found.out.label),
       failureReason: found.out.failureReason === null ? null : txt(found.out.failureReason),
     },
-    results: doc ? resultsOut(doc) : null,
+    results: doc ? resultsOut(doc, redact) : null,
     checks: doc ? checksOut(doc, redact) : [],
     reproduction: doc?.reproduction
       ? {

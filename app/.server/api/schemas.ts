@@ -12,6 +12,11 @@ import { modelSpecSchema } from "~/engine/model-spec";
 import { publishedValueSchema } from "~/engine/published-values";
 import { repeatedSpecSchema } from "~/engine/repeated/repeated-spec";
 import { coxSpecSchema } from "~/engine/survival/cox-spec";
+import {
+  covarianceStructureSchema,
+  repeatedDfSchema,
+  repeatedMethodSchema,
+} from "~/engine/repeated/repeated-spec";
 import { STUDY_ROLES } from "../db/schema";
 import { STUDY_PERMISSIONS, type StudyAction } from "../permissions.server";
 import { plannedCheckSchema, sensitivitySchema } from "../plans/planned-model";
@@ -210,6 +215,154 @@ const Rerun = registry.register(
 
 const Interval = { se: Num, lower: Num, upper: Num };
 
+/** An estimate at a visit with its interval and degrees of freedom (repeated measures). */
+const DfInterval = {
+  estimate: Num,
+  se: Num,
+  df: Num.describe("Degrees of freedom by the plan's method (Satterthwaite, Kenward–Roger or residual)"),
+  lower: Num,
+  upper: Num,
+  seScale: z.literal("response"),
+};
+const VisitContrast = z.strictObject({
+  label: z.string(),
+  level: z.string(),
+  reference: z.string(),
+  visit: z.string(),
+  ...DfInterval,
+  statistic: Num,
+  p: Num,
+});
+const RepeatedFTest = z
+  .strictObject({
+    hypothesis: z.string(),
+    statistic: Num,
+    numeratorDf: z.number(),
+    denominatorDf: Num,
+    p: Num,
+  })
+  .nullable();
+
+// Inlined, not registered (it is nullable in RerunResults): the headless command's answer for a
+// repeated-measures model (app/engine/repeated/repeated-result.ts), subject-level parts only for
+// roles that see subjects.
+const RepeatedResults = z.strictObject({
+  method: repeatedMethodSchema.describe("reml or ml"),
+  dfMethod: repeatedDfSchema,
+  n: z.int().describe("Records analysed"),
+  excluded: z.int().describe("Records left out for a missing value"),
+  subjectCount: z.int().describe("Subjects analysed"),
+  covariance: z.strictObject({
+    structure: covarianceStructureSchema.describe("The covariance structure of the visits used"),
+    planned: covarianceStructureSchema.describe("The structure the plan names first"),
+    attempts: z
+      .array(
+        z.strictObject({
+          structure: covarianceStructureSchema,
+          converged: z.boolean(),
+          iterations: z.int(),
+          reason: z.string().nullable().describe("Why it was not used; null for the one used"),
+        }),
+      )
+      .describe("Every structure tried, in the plan's order, the used one last"),
+    converged: z.boolean(),
+    iterations: z.int(),
+    logLik: Num.describe("REML or ML log-likelihood"),
+    aic: Num,
+    bic: Num,
+    parameterCount: z.int().describe("Coefficients and covariance parameters"),
+    visits: z.array(z.string()).describe("The visits in order: rows and columns of the matrices"),
+    matrix: z.array(z.array(Num)).describe("Estimated covariance of one subject's errors across the visits"),
+    correlation: z.array(z.array(Num)),
+  }),
+  coefficients: z.array(z.strictObject({ name: z.string(), ...DfInterval, statistic: Num, p: Num })),
+  coefficientCovariance: z.strictObject({
+    type: z.enum(["model-based", "Kenward–Roger adjusted"]),
+    names: z.array(z.string()),
+    matrix: z.array(z.array(Num)),
+  }),
+  adjustedMeans: z
+    .strictObject({
+      treatment: z.string(),
+      weighting: z.enum(["equal", "proportional"]),
+      grid: z.strictObject({
+        covariates: z.array(z.strictObject({ variable: z.string(), value: z.number() })),
+        factors: z.array(z.string()),
+        cells: z.array(z.strictObject({ levels: z.array(z.string()), weight: z.number() })),
+      }),
+      means: z.array(z.strictObject({ level: z.string(), visit: z.string(), ...DfInterval })),
+      contrasts: z.array(VisitContrast).describe("Each arm against the reference arm at each visit"),
+      pairwise: z.array(VisitContrast).describe("Every pair of arms at each visit"),
+    })
+    .nullable()
+    .describe("Adjusted means by arm and visit; null when the model names no treatment"),
+  tests: z.strictObject({
+    treatment: RepeatedFTest.describe("F test of the treatment differences averaged over the visits"),
+    treatmentByVisit: RepeatedFTest.describe(
+      "F test that the treatment differences are the same at every visit",
+    ),
+    notes: z.array(z.string()),
+  }),
+  structureTest: z
+    .strictObject({
+      against: z.literal("unstructured"),
+      statistic: Num,
+      df: Num,
+      p: Num,
+      reason: z.string().nullable(),
+    })
+    .nullable()
+    .describe(
+      "Likelihood-ratio test of the structure used against the unstructured one; null when unstructured was used",
+    ),
+  counts: z
+    .array(z.strictObject({ visit: z.string(), level: z.string().nullable(), subjects: z.int() }))
+    .describe("Subjects with a record at each visit, by arm"),
+  residualsByCell: z
+    .array(
+      z.strictObject({
+        visit: z.string(),
+        level: z.string().nullable(),
+        records: z.int(),
+        mean: Num,
+        sd: Num,
+      }),
+    )
+    .describe("Normalized residuals summarized by visit and arm"),
+  influence: z.strictObject({
+    method: z.string(),
+    primaryVisit: z.string(),
+    contrasts: z
+      .array(z.string())
+      .describe("The treatment contrasts at the primary visit whose change each subject's deletion gives"),
+  }),
+  observations: z
+    .array(
+      z.strictObject({
+        row: z.int().describe("1-based data row of the locked file"),
+        subjectId: z.string(),
+        visit: z.string(),
+        fitted: Num,
+        residual: Num,
+        normalizedResidual: Num,
+      }),
+    )
+    .optional()
+    .describe("Per record; only for roles that may see subject-level data"),
+  subjects: z
+    .array(
+      z.strictObject({
+        subjectId: z.string(),
+        cooksDistance: Num,
+        treatmentChange: z
+          .array(Num)
+          .describe("Change in each contrast of `influence.contrasts` without the subject"),
+      }),
+    )
+    .optional()
+    .describe("Per subject influence; only for roles that may see subject-level data"),
+});
+
 const Results = registry.register(
   "RerunResults",
   z.strictObject({
@@ -217,7 +370,9 @@ const Results = registry.register(
     method: z.string(),
     family: z
       .string()
-      .describe("gaussian, binomial, poisson, quasipoisson, negative-binomial or cox (time to event)"),
+      .describe(
+        "gaussian (also for repeated measures), binomial, poisson, quasipoisson, negative-binomial or cox (time to event)",
+      ),
     link: z.string(),
     familyLabel: z
       .string()
@@ -262,7 +417,11 @@ const Results = registry.register(
               term: z.string(),
               statistic: Num,
               df1: z.int(),
-              df2: z.int(),
+              df2: z
+                .number()
+                .describe(
+                  "Whole for linear models; Satterthwaite or Kenward–Roger (fractional) for repeated measures",
+                ),
               p: Num,
               reason: z.string().optional(),
             }),
@@ -277,7 +436,7 @@ const Results = registry.register(
           ])
           .nullable()
           .describe(
-            "Overall test of the treatment term: F for linear models, likelihood-ratio χ² for generalized linear models",
+            "Overall test of the treatment term: F for linear and repeated-measures models, likelihood-ratio χ² for generalized linear models",
           ),
       })
       .nullable()
@@ -337,8 +496,11 @@ const Results = registry.register(
       )
       .nullable()
       .describe(
-        "Treatment contrasts (against the reference arm or between every pair of arms, as planned), model-based and with robust errors; generalized linear models give marginal contrasts labelled with their measure",
+        "Treatment contrasts (against the reference arm or between every pair of arms, as planned), model-based and with robust errors; generalized linear models give marginal contrasts labelled with their measure; repeated-measures models the contrasts at the primary visit (every visit in `repeated`)",
       ),
+    repeated: RepeatedResults.nullable().describe(
+      "Repeated-measures (MMRM) models: the covariance of the visits, coefficients with df, means and contrasts by visit, F tests, subjects per visit, and (for roles that see subjects) records and subject influence; null for other models",
+    ),
   }),
 );
 

@@ -42,9 +42,10 @@ import {
   type Block,
   type NarrativeSection,
 } from "~/shared/appendix-content";
-import { redaction, type Redaction } from "../redaction.server";
+import { redaction, subjectColumnOf, type Redaction } from "../redaction.server";
 import { methodsProse } from "./methods";
 import { coxResultBlocks } from "./cox-content";
+import { analysedWords, repeatedResultBlocks, subjectsAnalysed } from "./repeated-content";
 import { currentNarratives, type Narrative } from "./narratives.server";
 import {
   REPRODUCTION_FINDING_LABEL,
@@ -156,7 +157,7 @@ async function loadPart(studyId: string, rerunId: string): Promise<RerunPart> {
       prespecified: c.prespecified,
       doc: JSON.parse(c.resultJson!) as RerunDocument,
     }));
-  const idColumn = r.doc.result.spec.id;
+  const idColumn = subjectColumnOf(r.doc);
   const redact = redaction(
     false,
     [r.doc, ...sensitivity.map((x) => x.doc)],
@@ -204,25 +205,27 @@ const modelHeading = (p: RerunPart, many: boolean): Block[] =>
 function figureBlocks(p: RerunPart, next: ReturnType<typeof counter>): Block[] {
   const blocks: Block[] = [];
   for (const w of figureListOf(p.doc)) {
-    const m = figureModule(w.figure);
+    let m: ReturnType<typeof figureModule> | null = null;
     let d: FigureData;
     try {
+      // a figure whose module is not registered is unavailable too (figureModule says so)
+      m = figureModule(w.figure);
       d = figureData(p.doc, w.figure, { term: w.term, withSubjectIds: false, table: p.table });
     } catch (e) {
       if (!(e instanceof FigureUnavailableError)) throw e;
       blocks.push({
         kind: "paragraph",
-        text: `${m.words.caption}${w.term ? ` for ${w.term}` : ""}: not drawn, because ${e.message}.`,
+        text: `${m?.words.caption ?? `The ${w.figure} figure`}${w.term ? ` for ${w.term}` : ""}: not drawn, because ${e.message}.`,
       });
       continue;
     }
     const related = p.doc.checks.filter((c) => checksOfFigure(w.figure).includes(c.key));
     const checkWords = related
-      .map((c) => `${c.label}: ${outcomeInWords(c, p.doc.result.n, p.redact).toLowerCase()}`)
+      .map((c) => `${c.label}: ${outcomeInWords(c, subjectsAnalysed(p.doc.result), p.redact).toLowerCase()}`)
       .join("; ");
     const caption = `${m.words.caption}${w.term ? ` for ${p.labels[w.term] ? `${p.labels[w.term]} (${w.term})` : w.term}` : ""}, ${p.modelTitle}`;
     const alt =
-      `${caption}: ${m.words.shows}, for ${p.doc.result.n} subjects. A healthy picture shows ${m.words.healthy}. ` +
+      `${caption}: ${m.words.shows}, for ${analysedWords(p.doc.result)}. A healthy picture shows ${m.words.healthy}. ` +
       m.marked(d) +
       (checkWords ? ` Related checks: ${checkWords}.` : "");
     blocks.push({
@@ -370,11 +373,10 @@ export async function buildAppendixContent(
       continue;
     }
     if (p.doc.result.kind === "repeated") {
-      // repeated-measures (MMRM) results: their own section lands with the appendix's repeated-measures part
-      results.push(...modelHeading(p, many), {
-        kind: "paragraph",
-        text: `${p.doc.result.n} records of ${p.doc.result.subjectCount} subjects analysed by a mixed model for repeated measures.`,
-      });
+      results.push(
+        ...modelHeading(p, many),
+        ...repeatedResultBlocks(p.doc.result, p.rerunId, p.modelTitle, next),
+      );
       continue;
     }
     const r = p.doc.result;
@@ -528,7 +530,7 @@ export async function buildAppendixContent(
             c.label,
             p.redact.countOnly(c.statistic),
             c.threshold,
-            outcomeInWords(c, p.doc.result.n, p.redact),
+            outcomeInWords(c, subjectsAnalysed(p.doc.result), p.redact),
           ]),
           ...reproductionCheckRows(p.doc),
         ],

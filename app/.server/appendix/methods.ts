@@ -7,7 +7,9 @@ import { familyWords, linkWords } from "~/engine/family-names";
 import { CHECK_BY_KEY, type PlannedCheck } from "~/engine/checks";
 import { CANONICAL_LINK, type ModelSpec } from "~/engine/model-spec";
 import type { CoxSpec } from "~/engine/survival/cox-spec";
+import type { RepeatedSpec } from "~/engine/repeated/repeated-spec";
 import { coxMethodsParagraphs } from "./cox-methods";
+import { repeatedMethodsParagraphs } from "./repeated-methods";
 import { MULTIPLICITY_NAMES } from "~/engine/multiplicity";
 import { describeCondition, type PopulationCondition } from "~/engine/population";
 import { SENSITIVITY_LABELS, type PlannedSensitivity } from "../plans/planned-model";
@@ -17,7 +19,7 @@ export interface MethodsInput {
   datasetName: string;
   /** The population conditions (empty: every record). */
   population: readonly PopulationCondition[];
-  spec: ModelSpec | CoxSpec;
+  spec: ModelSpec | CoxSpec | RepeatedSpec;
   checks: PlannedCheck[];
   sensitivity: PlannedSensitivity[];
   /** Column labels of the locked dataset, by column name. */
@@ -42,6 +44,8 @@ function list(items: string[]): string {
   if (items.length <= 1) return items.join("");
   return `${items.slice(0, -1).join(", ")} and ${items[items.length - 1]}`;
 }
+
+const isRepeated = (s: MethodsInput["spec"]): s is RepeatedSpec => "repeated" in s;
 
 /** Paragraphs and bullet lists of the methods section, in reading order. */
 export function methodsProse(m: MethodsInput): {
@@ -68,6 +72,8 @@ export function methodsProse(m: MethodsInput): {
         : "All records of the dataset formed the analysis population."),
   );
   if (s.family === "cox") paragraphs.push(...coxMethodsParagraphs(s, (col) => named(col, m.labels), list));
+  else if (isRepeated(s))
+    paragraphs.push(...repeatedMethodsParagraphs(s, (col) => named(col, m.labels), list));
   else {
     paragraphs.push(
       `The endpoint was ${named(s.response, m.labels)}. ` +
@@ -148,6 +154,8 @@ export function methodsProse(m: MethodsInput): {
         return `${SENSITIVITY_LABELS[x.kind]}: the same log hazard ratios with the sandwich variance summed over each subject's rows (Lin and Wei 1989).`;
       case "cox_rmst":
         return `${SENSITIVITY_LABELS[x.kind]} up to τ = ${x.tau}: the area under each arm's Kaplan–Meier curve to τ, the difference with the Greenwood-type variance of each area and a Wald 95% interval.`;
+      case "repeated_structure":
+        return `${SENSITIVITY_LABELS[x.kind]}: the repeated-measures model refitted with another covariance structure of the visits, its treatment contrasts beside the primary ones.`;
       case "cox_unstratified":
         return `${SENSITIVITY_LABELS[x.kind]}: the Cox model refitted without its strata.`;
       default:

@@ -11,6 +11,7 @@ import { figureData, figureListOf, figureModule, figureSpec } from "~/figures/re
 import { FigureUnavailableError } from "~/figures/shared/source";
 import { specToSvg, svgToPng } from "../appendix/figures.server";
 import { loadLockedTable } from "../datasets/catalog.server";
+import { analysedWords } from "../appendix/repeated-content";
 import type { Redaction } from "../redaction.server";
 import type { RerunDocument } from "../reruns/reruns.server";
 import { rerunTable } from "../reruns/what-if.server";
@@ -67,7 +68,7 @@ export async function reportFigures(
       redaction.assertClean(svg, `The ${w.figure} figure of a report`);
       // one pixel per CSS pixel: a report holds a dozen figures, and the page carries them inline
       const picture = svgToPng(svg, 1);
-      const alt = `${caption}: ${m.words.shows}, for ${doc.result.n} subjects. A healthy picture shows ${m.words.healthy}. ${m.marked(d)}`;
+      const alt = `${caption}: ${m.words.shows}, for ${analysedWords(doc.result)}. A healthy picture shows ${m.words.healthy}. ${m.marked(d)}`;
       out.push({
         key,
         caption,

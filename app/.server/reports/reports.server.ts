@@ -10,11 +10,12 @@ import { and, desc, eq, isNotNull, isNull } from "drizzle-orm";
 import { data } from "react-router";
 import { db, t } from "../db/index.server";
 import { deviationLog, findingsOf, signaturesOf } from "../reruns/findings.server";
-import { reportedContrasts, rerunView } from "../reruns/rerun-view.server";
+import { reportedContrasts, rerunView, type RerunView } from "../reruns/rerun-view.server";
 import { redactionFor } from "../redaction.server";
 import { rerunRows } from "../reruns/rerun-rows.server";
 import { getRerun, rerunDocumentOf, sensitivityReruns, type RerunDocument } from "../reruns/reruns.server";
 import { reportFigures } from "./report-figures.server";
+import { repeatedReportView } from "./repeated-report.server";
 
 export interface ReportListing {
   id: string;
@@ -98,7 +99,11 @@ export async function getReport(studyId: string, rerunId: string) {
     r.model.title,
     redaction,
   );
-  const view = rerunView(doc, redaction);
+  // a repeated-measures rerun has its own report part (the results tables in the appendix's words)
+  const part =
+    doc.result.kind === "repeated"
+      ? repeatedReportView(doc, doc.result, redaction, r.rerun.id)
+      : reportViewOf(rerunView(doc, redaction), redact);
   const comparison = [
     {
       id: r.rerun.id,
@@ -132,48 +137,10 @@ export async function getReport(studyId: string, rerunId: string) {
     model: { key: r.model.key, title: r.model.title },
     dataset: { name: r.dataset.name, version: r.dataset.version, sha256: r.dataset.sha256 },
     planVersion: { title: r.planVersion.title, version: r.planVersion.version },
-    results: {
-      description: redact(view.description),
-      method: view.method,
-      rows: view.rows,
-      n: view.n,
-      dfResidual: "dfResidual" in view ? view.dfResidual : null,
-      covarianceType: "covarianceType" in view ? view.covarianceType : "model",
-      /** "linear", "glm" or "cox": which words the tables use (t or z, differences or ratios). */
-      kind: view.kind,
-      statisticName:
-        view.kind === "glm" ? view.statisticName : view.kind === "cox" ? ("z" as const) : ("t" as const),
-      /** The fit statistics as labelled rows; null for a Cox model (its tests are in `cox`). */
-      fitStatistics: "fitStatistics" in view ? view.fitStatistics : null,
-      coefficients: view.coefficients.map((c) => ({
-        name: c.name,
-        estimate: c.estimate,
-        se: c.se,
-        statistic: c.statistic,
-        p: c.p,
-        lower: c.lower,
-        upper: c.upper,
-      })),
-      adjustedMeans: "adjustedMeans" in view && view.adjustedMeans ? view.adjustedMeans : null,
-      adjustedMeansWeighting: "adjustedMeansWeighting" in view ? view.adjustedMeansWeighting : null,
-      contrasts: "contrasts" in view ? view.contrasts : [],
-      treatmentEffect: "treatmentEffect" in view ? view.treatmentEffect : null,
-      /** Time-to-event models: hazard ratios, the model's tests and the proportional-hazards test (no subject-level data). */
-      cox:
-        view.kind === "cox"
-          ? {
-              robust: view.robust,
-              ratios: view.ratios,
-              tests: view.tests,
-              proportionalHazards: view.proportionalHazards,
-              events: view.fit.events,
-              concordance: view.fit.concordance,
-            }
-          : null,
-    },
+    results: part.results,
     /** The reproduction check of the published values, when the plan gives them (reproduction-results.tsx). */
-    reproduction: "reproduction" in view ? view.reproduction : null,
-    checks: view.checks.map((c) => ({
+    reproduction: part.reproduction,
+    checks: part.checks.map((c) => ({
       key: c.key,
       label: c.label,
       outcome: c.outcome,
@@ -222,6 +189,55 @@ export async function getReport(studyId: string, rerunId: string) {
 }
 
 export type Report = Awaited<ReturnType<typeof getReport>>;
+
+/** The results part of a report of a linear, generalized linear or Cox rerun, from its results view. */
+function reportViewOf(view: RerunView, redact: (s: string) => string) {
+  return {
+    results: {
+      description: redact(view.description),
+      method: view.method,
+      rows: view.rows,
+      n: view.n,
+      dfResidual: "dfResidual" in view ? view.dfResidual : null,
+      covarianceType: "covarianceType" in view ? view.covarianceType : "model",
+      /** "linear", "glm" or "cox": which words the tables use (t or z, differences or ratios). */
+      kind: view.kind,
+      statisticName:
+        view.kind === "glm" ? view.statisticName : view.kind === "cox" ? ("z" as const) : ("t" as const),
+      /** The fit statistics as labelled rows; null for a Cox model (its tests are in `cox`). */
+      fitStatistics: "fitStatistics" in view ? view.fitStatistics : null,
+      coefficients: view.coefficients.map((c) => ({
+        name: c.name,
+        estimate: c.estimate,
+        se: c.se,
+        statistic: c.statistic,
+        p: c.p,
+        lower: c.lower,
+        upper: c.upper,
+      })),
+      adjustedMeans: "adjustedMeans" in view && view.adjustedMeans ? view.adjustedMeans : null,
+      adjustedMeansWeighting: "adjustedMeansWeighting" in view ? view.adjustedMeansWeighting : null,
+      contrasts: "contrasts" in view ? view.contrasts : [],
+      treatmentEffect: "treatmentEffect" in view ? view.treatmentEffect : null,
+      /** Time-to-event models: hazard ratios, the model's tests and the proportional-hazards test (no subject-level data). */
+      cox:
+        view.kind === "cox"
+          ? {
+              robust: view.robust,
+              ratios: view.ratios,
+              tests: view.tests,
+              proportionalHazards: view.proportionalHazards,
+              events: view.fit.events,
+              concordance: view.fit.concordance,
+            }
+          : null,
+      repeated: null,
+    },
+    /** The reproduction check of the published values, when the plan gives them (reproduction-results.tsx). */
+    reproduction: "reproduction" in view ? view.reproduction : null,
+    checks: view.checks,
+  };
+}
 
 /** The latest exported appendix that holds this rerun, if any. */
 async function latestAppendix(

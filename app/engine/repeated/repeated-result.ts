@@ -18,7 +18,7 @@ const interval = (x: { estimate: number; se: number; df: number; lower: number; 
   df: num(x.df),
   lower: num(x.lower),
   upper: num(x.upper),
-  seScale: "response",
+  seScale: "response" as const,
 });
 
 const test = (t: RepeatedResult["tests"]["treatment"]) =>
@@ -32,7 +32,10 @@ const test = (t: RepeatedResult["tests"]["treatment"]) =>
         p: num(t.p),
       };
 
-export function toRepeatedCliResult(result: RepeatedResult): Record<string, unknown> {
+/** The command's answer, typed: the API answers the same projection (app/.server/api/reruns.server.ts). */
+export type RepeatedCliResult = ReturnType<typeof toRepeatedCliResult>;
+
+export function toRepeatedCliResult(result: RepeatedResult) {
   const o = result.observations;
   const c = result.covariance;
   const am = result.adjustedMeans;
@@ -48,8 +51,8 @@ export function toRepeatedCliResult(result: RepeatedResult): Record<string, unkn
   return {
     engineVersion: result.engineVersion,
     caution: result.caution,
-    family: "gaussian",
-    model: "repeated measures",
+    family: "gaussian" as const,
+    model: "repeated measures" as const,
     method: result.method,
     dfMethod: result.dfMethod,
     n: result.n,
