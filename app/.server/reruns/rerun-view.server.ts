@@ -14,6 +14,7 @@ import { figureModule, figureOfCheck } from "~/figures/registry";
 import type { Redaction } from "../redaction.server";
 import type { RerunDocument } from "./reruns.server";
 import { coxReportedContrasts, coxRerunView, restrictedMeanContrasts } from "./cox-rerun-view.server";
+import { repeatedRerunView } from "./repeated-rerun-view.server";
 
 export interface ContrastView {
   label: string;
@@ -188,8 +189,7 @@ export function reproductionView(doc: RerunDocument) {
 
 export function rerunView(doc: RerunDocument, redact: Redaction) {
   if (doc.result.kind === "cox") return coxRerunView(doc, doc.result, redact);
-  if (doc.result.kind === "repeated")
-    throw new Error("the results page of a repeated-measures rerun lands with its own view");
+  if (doc.result.kind === "repeated") return repeatedRerunView(doc, doc.result, redact);
   const r = doc.result;
   const continuousTerms = r.variables
     .filter((v) => v.kind === "continuous" && v.name !== r.spec.response)
