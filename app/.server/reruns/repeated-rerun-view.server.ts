@@ -13,7 +13,8 @@ import { DF_METHOD_WORDS, METHOD_WORDS, STRUCTURE_WORDS } from "~/engine/repeate
 import { repeatedFigureList } from "~/figures/repeated/repeated-figure-list";
 import type { Redaction } from "../redaction.server";
 import { populationStepsOf } from "./rerun-population";
-import { checkView, reproductionView, treatmentEffectOf } from "./rerun-view.server";
+import { checkView, reproductionView } from "./check-view.server";
+import { treatmentEffectOf } from "./treatment-effect-of";
 import type { RerunDocument } from "./reruns.server";
 
 const test = (name: string, t: RepeatedTest | null) =>

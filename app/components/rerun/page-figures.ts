@@ -1,7 +1,7 @@
 import type { FigureKey } from "~/engine/checks";
 import { coxPageFigures, type CoxView } from "../cox-results";
 import { figureUrl } from "../figures/rerun-figure";
-import { repeatedPageFigures, type RepeatedView } from "../repeated-results";
+import { repeatedPageFigures, type RepeatedView } from "./repeated-view";
 import type { ModelResultsView } from "./results-view";
 
 /** The results page's figure addresses in page order (keep in step with the figures of model-results.tsx), for the figure worker to fetch early. */

@@ -1,5 +1,5 @@
 import { RerunFigure } from "../figures/rerun-figure";
-import { repeatedPageFigures, type RepeatedView } from "../repeated-results";
+import { repeatedPageFigures, type RepeatedView } from "./repeated-view";
 import { ReproductionCard } from "../reproduction-results";
 import { CheckCard, checkTally } from "../rerun-results";
 

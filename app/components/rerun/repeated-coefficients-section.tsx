@@ -1,5 +1,5 @@
 import { fmt, fmtCi, fmtP } from "~/shared/format";
-import type { RepeatedView } from "../repeated-results";
+import type { RepeatedView } from "./repeated-view";
 import { TableScroll } from "../table-scroll";
 
 /** The coefficients of a repeated-measures rerun, each with its own degrees of freedom. */

@@ -1,5 +1,5 @@
 import { fmt } from "~/shared/format";
-import type { RepeatedView } from "../repeated-results";
+import type { RepeatedView } from "./repeated-view";
 import { TableScroll } from "../table-scroll";
 
 /** One visit-by-visit matrix, rows and columns labelled by visit. */

@@ -1,6 +1,6 @@
 import { CONTRAST_SET_NAMES } from "~/engine/multiplicity";
 import { fmt, fmtCi, fmtP } from "~/shared/format";
-import type { RepeatedView } from "../repeated-results";
+import type { RepeatedView } from "./repeated-view";
 import { TableScroll } from "../table-scroll";
 import { MULTIPLICITY_WORDS } from "../treatment-effect";
 

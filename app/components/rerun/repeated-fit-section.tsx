@@ -1,7 +1,7 @@
 import { fmt, fmtP } from "~/shared/format";
 import { FitStatisticsTable } from "../fit-statistics-table";
 import { populationNote } from "../population-note";
-import type { RepeatedView } from "../repeated-results";
+import type { RepeatedView } from "./repeated-view";
 import { TableScroll } from "../table-scroll";
 
 /** The fit statistics of a repeated-measures rerun as labelled rows (the shared two-column table). */

@@ -1,5 +1,5 @@
 import { fmt, fmtCi } from "~/shared/format";
-import type { RepeatedView } from "../repeated-results";
+import type { RepeatedView } from "./repeated-view";
 import { TableScroll } from "../table-scroll";
 
 /** Adjusted means by visit and arm with their df and intervals, and the subjects with a record at each visit. */
