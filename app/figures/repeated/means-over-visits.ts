@@ -39,6 +39,8 @@ export interface MeansOverVisitsData extends FigureBase {
   counts: { arm: string; visit: string; x: number; y: number; subjects: number }[];
   /** The y axis: its domain (the counts' bands included) and tick values (the means' range only). */
   yDomain: [number, number];
+  /** Where the means' range ends and the counts' bands begin (a rule is drawn there). */
+  countsFrom: number;
   yTicks: number[];
   /** The primary-visit check in words, when it was computed. */
   primaryCheck: string | null;
@@ -79,7 +81,12 @@ export function meansOverVisitsSpec(d: MeansOverVisitsData, opts: SpecOptions = 
     type: "quantitative",
     title: "Visit (in visit order)",
     scale: { domain: [-0.5, d.visits.length - 0.5], nice: false, zero: false },
-    axis: { values: d.visits.map((_, k) => k), labelExpr: `${names}[round(datum.value)]`, grid: false },
+    axis: {
+      values: d.visits.map((_, k) => k),
+      labelExpr: `${names}[round(datum.value)]`,
+      labelOverlap: false,
+      grid: false,
+    },
   };
   const y = {
     field: "estimate",
@@ -93,7 +100,7 @@ export function meansOverVisitsSpec(d: MeansOverVisitsData, opts: SpecOptions = 
     $schema: SCHEMA,
     ...frame(d, opts),
     title: title(
-      `How do the arms' adjusted means move over the visits, and how many subjects stay behind them?`,
+      "How far apart are the arms at each visit, and on how many subjects?",
       "intervals that narrow little over time and numbers below that fall only slowly; the arms' separation at the primary visit read with the subjects still contributing there.",
       [
         `Adjusted means with 95% confidence intervals at each visit; numbers below: subjects of each arm with a record at the visit. Dashed: the primary visit (${d.primaryVisit}).`,
@@ -108,14 +115,19 @@ export function meansOverVisitsSpec(d: MeansOverVisitsData, opts: SpecOptions = 
             {
               data: ONE,
               mark: { type: "rule", color: PALETTE.inkSoft, strokeDash: [4, 3], strokeWidth: 1, ...NO_ARIA },
-              encoding: { x: { datum: primaryAt } },
+              // over the means only, not through the counts below them
+              encoding: {
+                x: { datum: primaryAt },
+                y: { datum: d.countsFrom, type: "quantitative" },
+                y2: { datum: d.yDomain[1] },
+              },
             },
           ]
         : []),
       {
         data: ONE,
         mark: { type: "rule", color: PALETTE.rule, strokeWidth: 1, ...NO_ARIA },
-        encoding: { y: { datum: d.yTicks[0] ?? d.yDomain[0] } },
+        encoding: { y: { datum: d.countsFrom } },
       },
       {
         mark: { type: "rule", strokeWidth: 1.2 },
@@ -222,6 +234,7 @@ export const meansOverVisits = defineFigure<MeansOverVisitsData>({
       rows,
       counts,
       yDomain: [round(bottom - band * (arms.length + 0.6)), round(top + band * 0.3)],
+      countsFrom: round(bottom - band * 0.4),
       yTicks: yTicks.map(round),
       primaryCheck: primary ? primary.statistic : null,
     };

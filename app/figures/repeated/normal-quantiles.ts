@@ -81,7 +81,7 @@ export function repeatedQqSpec(d: RepeatedQqData, opts: SpecOptions = {}): TopLe
     $schema: SCHEMA,
     ...frame(d, opts),
     title: title(
-      `Do the normalized residuals follow the normal line? Reading: ${d.reading}`,
+      `Do the residuals follow the normal line? Reading: ${d.reading}`,
       "the points lie along the line from end to end, the line close to slope 1 through zero.",
       [
         d.summary,
