@@ -228,4 +228,20 @@ describe("the results page's repeated-measures sections", () => {
     expect(page).toContain("a fallback of the plan");
     expect(page).toMatch(/no test: the unstructured fit did not succeed/);
   });
+
+  it("renders a model that names no treatment: subjects per visit for all, no means, no means figure", () => {
+    const { treatment: _treatment, ...spec } = MMRM_MODEL;
+    const plain = mmrmDocument({ spec });
+    const v = rerunView(plain, redaction(false, [plain]));
+    if (v.kind !== "repeated") throw new Error("unexpected");
+    expect(v.visitMeans).toEqual([]);
+    expect(v.visitContrasts).toEqual([]);
+    expect(v.tests).toEqual([]);
+    expect(v.counts.every((c) => c.byArm.length === 1)).toBe(true);
+    expect(v.checks.find((c) => c.key === "repeated_primary_visit")?.figure).toBeNull();
+    const page = renderToStaticMarkup(createElement(ModelResults, { view: v, studyId: "st", rerunId: "rr" }));
+    expect(page).toContain("All subjects");
+    expect(page).not.toContain("Treatment effect by visit");
+    expect(pageFigureUrls(v, "st", "rr").some((u) => u.endsWith("/repeated_means"))).toBe(false);
+  });
 });

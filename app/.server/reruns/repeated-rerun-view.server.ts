@@ -45,6 +45,7 @@ export function repeatedRerunView(doc: RerunDocument, r: RepeatedResult, redact:
   const arms = armsOf(r);
   const byVisit = (a: { visit: string }, b: { visit: string }) =>
     visits.indexOf(a.visit) - visits.indexOf(b.visit);
+  const figures = repeatedFigureList(r);
   const contrasts = am ? (effect.contrastSet === "pairwise" ? am.pairwise : am.contrasts) : [];
   return {
     kind: "repeated" as const,
@@ -128,8 +129,12 @@ export function repeatedRerunView(doc: RerunDocument, r: RepeatedResult, redact:
       ),
     })),
     influenceMethod: r.influence.method,
-    figures: repeatedFigureList(r),
-    checks: doc.checks.map((x) => checkView(x, redact)),
+    figures,
+    // a check's figure that this rerun cannot draw (the means of a model without a treatment) is not offered
+    checks: doc.checks.map((x) => {
+      const v = checkView(x, redact);
+      return { ...v, figure: v.figure && figures.some((f) => f.figure === v.figure) ? v.figure : null };
+    }),
     reproduction: reproductionView(doc),
     engineVersion: doc.engineVersion,
     caution: doc.caution,

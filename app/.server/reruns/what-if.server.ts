@@ -147,6 +147,10 @@ export function whatIfInputs(
     return unavailable(
       "The closed-form what-if is offered for linear models; this rerun is a time-to-event (Cox) model. Use a sensitivity rerun excluding the subjects.",
     );
+  if (doc.result.kind === "repeated")
+    return unavailable(
+      "The closed-form what-if is offered for linear models; this rerun is a repeated-measures model. Use a sensitivity rerun excluding the subjects.",
+    );
   if (doc.result.kind !== "linear")
     return unavailable(
       "The closed-form what-if is offered for linear models; this rerun is a generalized linear model. Use a sensitivity rerun excluding the subjects.",
