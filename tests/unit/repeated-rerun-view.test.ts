@@ -21,6 +21,7 @@ const { seesSubjects } = await import("~/.server/permissions.server");
 const { rerunView } = await import("~/.server/reruns/rerun-view.server");
 const { ModelResults } = await import("~/components/rerun/model-results");
 const { pageFigureUrls } = await import("~/components/rerun/page-figures");
+const { figureAnswer } = await import("~/.server/reruns/figure-answers.server");
 type RepeatedResult = import("~/engine/repeated/repeated-model").RepeatedResult;
 
 const doc = mmrmDocument({ outlier: "S-007" });
@@ -243,5 +244,28 @@ describe("the results page's repeated-measures sections", () => {
     expect(page).toContain("All subjects");
     expect(page).not.toContain("Treatment effect by visit");
     expect(pageFigureUrls(v, "st", "rr").some((u) => u.endsWith("/repeated_means"))).toBe(false);
+  });
+
+  it("answers each figure from the figures route compiled to Vega, clean of subject ids for a sponsor reader", async () => {
+    for (const url of pageFigureUrls(view, "st", "rr")) {
+      const figure = url.split("/").pop() as Parameters<typeof figureAnswer>[0]["figure"];
+      for (const withSubjectIds of [false, true]) {
+        const body = await figureAnswer(
+          { rerunId: "rr", resultSha256: "hash", figure, withSubjectIds },
+          doc,
+          async () => undefined,
+        );
+        const answer = JSON.parse(body) as {
+          caution: string;
+          spec: { marks?: unknown[] };
+          data: { rows: unknown[] };
+        };
+        expect(answer.caution).toMatch(/support, but do not replace/);
+        expect(answer.spec.marks?.length ?? 0, figure).toBeGreaterThan(0);
+        expect(answer.data.rows.length, figure).toBeGreaterThan(0);
+        if (!withSubjectIds) expect(body, figure).not.toMatch(/S-\d{3}/);
+        else if (figure === "repeated_influence") expect(body).toMatch(/S-007/);
+      }
+    }
   });
 });
