@@ -16,7 +16,7 @@ import { mmrmDocument } from "../support/mmrm-document";
 import { expectAllClose, expectClose } from "../reference/compare";
 import { figureData, figureListOf, figureOfCheck, figureSpec, plotsSubjects } from "~/figures/registry";
 import { ppoints } from "~/figures/repeated/normal-quantiles";
-import { BEYOND } from "~/figures/shared/types";
+import { BEYOND, DENSE_FROM, DENSE_POINTS } from "~/figures/shared/types";
 import type { RepeatedResult } from "~/engine/repeated/repeated-model";
 import { normalQuantile } from "~/engine/distributions";
 
@@ -208,5 +208,84 @@ describe("subject influence", () => {
     expect(d.defaultThreshold).toBe(true);
     expectClose(d.threshold.value, R.cooksLine, 1e-12, "default 4/m");
     expect(compile(figureSpec(d)).spec.marks?.length).toBeGreaterThan(0);
+  });
+});
+
+describe("many records and subjects: thinned as the other figures are (DENSE_FROM)", () => {
+  // the trial's records and subjects copied under new ids until the figures are dense; the
+  // figures read only the stored columns, so no refit is needed
+  const copies = Math.ceil(DENSE_FROM / result.subjects.length);
+  const tag = (id: string, k: number) => `${id}-${k}`;
+  const o = result.observations;
+  const big: RepeatedResult = {
+    ...result,
+    n: o.row.length * copies,
+    subjectCount: result.subjects.length * copies,
+    observations: {
+      row: Array.from({ length: copies }, (_, k) => o.row.map((r) => r + k * 1000)).flat(),
+      id: Array.from({ length: copies }, (_, k) => o.id.map((id) => tag(id, k))).flat(),
+      visit: Array.from({ length: copies }, () => o.visit).flat(),
+      fitted: Array.from({ length: copies }, () => o.fitted).flat(),
+      residual: Array.from({ length: copies }, () => o.residual).flat(),
+      normalizedResidual: Array.from({ length: copies }, () => o.normalizedResidual).flat(),
+    },
+    subjects: Array.from({ length: copies }, (_, k) =>
+      result.subjects.map((s) => ({ ...s, id: tag(s.id, k) })),
+    ).flat(),
+  };
+  const flaggedIds = big.subjects.filter((s) => s.cooksDistance > 0.02).map((s) => s.id);
+  const source = {
+    result: big,
+    checks: [
+      {
+        ...doc.checks.find((c) => c.key === "repeated_influence")!,
+        outcome: "finding" as const,
+        threshold: "4/m = 0.02",
+        numbers: {
+          measure: "largest",
+          statistic: 0.03,
+          df: null,
+          threshold: 0.02,
+          compares: "statistic above" as const,
+          p: null,
+        },
+        flagged: flaggedIds.map((id, k) => ({ rank: k + 1, row: 0, id, value: 0.03 })),
+      },
+    ],
+  };
+
+  it("draws the flagged subjects' records one by one and counts the rest in cells", () => {
+    const d = figureData(source, "repeated_residuals_fitted", { withSubjectIds: false });
+    if (d.figure !== "repeated_residuals_fitted") throw new Error("unexpected");
+    expect(d.dense?.total).toBe(big.n);
+    expect(d.rows.length).toBeLessThanOrEqual(DENSE_POINTS);
+    expect(d.rows.every((r) => r.status === BEYOND)).toBe(true);
+    expect((d.cells ?? []).reduce((s, c) => s + c.count, 0)).toBe(big.n - d.rows.length);
+    expectWellFormedFigure(figureSpec(d));
+  });
+
+  it("keeps the Q-Q plot's tails whole and thins its middle", () => {
+    const d = figureData(source, "repeated_qq", { withSubjectIds: false });
+    if (d.figure !== "repeated_qq") throw new Error("unexpected");
+    expect(d.thinning?.tail).toBe(100);
+    expect(d.rows.length).toBeLessThan(big.n);
+    const sorted = [...big.observations.normalizedResidual].sort((a, b) => a - b);
+    expectAllClose(
+      d.rows.slice(0, 100).map((r) => r.sample),
+      sorted.slice(0, 100),
+      ROUNDED,
+      "lower tail",
+    );
+    expectWellFormedFigure(figureSpec(d));
+  });
+
+  it("draws the most influential subjects one by one and the others as block maxima", () => {
+    const d = figureData(source, "repeated_influence", { withSubjectIds: false });
+    if (d.figure !== "repeated_influence") throw new Error("unexpected");
+    expect(d.subjects).toBe(big.subjects.length);
+    expect(d.dense?.beyond).toBe(flaggedIds.length);
+    expect(d.rows.length).toBe(Math.min(DENSE_POINTS, flaggedIds.length));
+    expect(d.blocks?.length).toBeGreaterThan(0);
+    expectWellFormedFigure(figureSpec(d));
   });
 });
