@@ -205,6 +205,8 @@ export const subjectInfluence = defineFigure<SubjectInfluenceData>({
     return {
       figure: "repeated_influence",
       ...repeatedBase(r, opts),
+      // the points are subjects, not records
+      n: m,
       subjects: m,
       threshold,
       defaultThreshold: !applied,
