@@ -243,7 +243,7 @@ export function RepeatedSection({
           >
             {Object.entries(REPEATED_DF_WORDS).map(([value, words]) => (
               <option key={value} value={value}>
-                {words}
+                {sentenceCase(words)}
                 {value === "satterthwaite" ? " (default)" : ""}
               </option>
             ))}
@@ -261,7 +261,7 @@ export function RepeatedSection({
                   value={value}
                   defaultChecked={(initial.method || "reml") === value}
                 />
-                {words}
+                {sentenceCase(words)}
                 {value === "reml" ? " (default)" : ""}
               </label>
             ))}

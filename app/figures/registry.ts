@@ -20,6 +20,11 @@ import { gvif, type GvifData } from "./gvif";
 import { leverageResidual, type LeverageResidualData } from "./leverage-residual";
 import { partialResiduals, type PartialResidualsData } from "./partial-residuals";
 import { qq, type QqData } from "./qq";
+import { meansOverVisits, type MeansOverVisitsData } from "./repeated/means-over-visits";
+import { repeatedQq, type RepeatedQqData } from "./repeated/normal-quantiles";
+import { repeatedFigureList } from "./repeated/repeated-figure-list";
+import { residualsByVisit, type ResidualsByVisitData } from "./repeated/residuals-by-visit";
+import { subjectInfluence, type SubjectInfluenceData } from "./repeated/subject-influence";
 import { residualsCovariate, type ResidualsCovariateData } from "./residuals-covariate";
 import { residualsFitted, type ResidualsFittedData } from "./residuals-fitted";
 import type { FigureModule } from "./shared/module";
@@ -40,10 +45,14 @@ export type SubjectFigureData =
   | SpreadByArmData
   | DfbetasData
   | DffitsData
-  | SlopesByArmData;
+  | SlopesByArmData
+  | RepeatedSubjectFigureData;
+
+/** The repeated-measures figures whose rows are records or subjects (the adjusted means name no one). */
+export type RepeatedSubjectFigureData = ResidualsByVisitData | RepeatedQqData | SubjectInfluenceData;
 
 /** Figures drawn from groups of subjects or from variables: their rows name no one. */
-export type GroupFigureData = BinnedResidualsData | CalibrationData | GvifData;
+export type GroupFigureData = BinnedResidualsData | CalibrationData | GvifData | MeansOverVisitsData;
 
 export type FigureData = SubjectFigureData | GroupFigureData | CoxFigureData;
 
@@ -67,6 +76,10 @@ export const FIGURES: readonly FigureModule<FigureData>[] = [
   schoenfeld,
   martingaleCovariate,
   coxDfbetas,
+  meansOverVisits,
+  residualsByVisit,
+  repeatedQq,
+  subjectInfluence,
 ] as readonly FigureModule[] as readonly FigureModule<FigureData>[];
 
 const BY_KEY = new Map<FigureKey, FigureModule<FigureData>>(FIGURES.map((m) => [m.key, m]));
@@ -104,16 +117,15 @@ export function figureSpec(d: FigureData, opts: SpecOptions = {}): TopLevelSpec 
 
 /** True when the figure's rows are subjects (not bins, groups, curves or variables). */
 export function plotsSubjects(d: FigureData): d is SubjectFigureData | CoxSubjectFigureData {
-  return !["binned_residuals", "calibration", "gvif", "kaplan_meier", "log_minus_log"].includes(d.figure);
+  return ![
+    "binned_residuals",
+    "calibration",
+    "gvif",
+    "kaplan_meier",
+    "log_minus_log",
+    "repeated_means",
+  ].includes(d.figure);
 }
-
-/** A repeated-measures rerun's figures in reading order: residuals, Q-Q, means over visits, subject influence. */
-const REPEATED_FIGURE_ORDER: readonly FigureKey[] = [
-  "repeated_residuals_fitted",
-  "repeated_qq",
-  "repeated_means",
-  "repeated_influence",
-];
 
 /**
  * The figures of a rerun in reading order, for the appendix and the sponsor report: the residual
@@ -123,9 +135,7 @@ const REPEATED_FIGURE_ORDER: readonly FigureKey[] = [
 export function figureListOf(source: FigureSource): { figure: FigureKey; term?: string }[] {
   const r = source.result;
   if (r.kind === "cox") return coxFigureList(r);
-  // a repeated-measures rerun: its figures in reading order, those whose module is registered
-  if (r.kind === "repeated")
-    return REPEATED_FIGURE_ORDER.filter((figure) => BY_KEY.has(figure)).map((figure) => ({ figure }));
+  if (r.kind === "repeated") return repeatedFigureList(r);
   const { continuous } = figureTerms(source);
   const covariates = continuous.filter((c) => c !== r.spec.treatment);
   const first: FigureKey[] = ["residuals_fitted", "qq", "influence", "leverage_residual"];

@@ -62,8 +62,7 @@ function axisTitles(spec: TopLevelSpec): string[] {
 
 describe("which figure each check shows", () => {
   it("the engine's figure key of every check is the one whose module lists it (one figure a check at most)", () => {
-    // PENDING(repeated-figures): the repeated-measures figure modules land in app/figures/repeated/
-    for (const def of CHECKS.filter((c) => c.models !== "repeated")) {
+    for (const def of CHECKS) {
       const modules = FIGURES.filter((m) => m.checks.includes(def.key));
       expect(modules.length, def.key).toBeLessThanOrEqual(1);
       expect(figureOfCheck({ key: def.key, outcome: "within" }), def.key).toBe(def.figure);

@@ -374,7 +374,7 @@ describe("the Word appendix of a signed repeated-measures rerun", () => {
     expect(text).toMatch(/mixed model for repeated measures/);
     expect(text).toMatch(/restricted maximum likelihood \(REML/);
     expect(text).toMatch(/planned covariance structure .* was unstructured/);
-    expect(text).toMatch(/Toeplitz and first-order autoregressive/);
+    expect(text).toMatch(/Toeplitz and AR\(1\)/);
     expect(text).toMatch(/Satterthwaite/);
     expect(text).toMatch(/missing at random/);
     expect(text).toMatch(/Cholesky/);

@@ -5,41 +5,35 @@
  * the subject influence. Also the structures' names in words, for the methods and the results. Pure.
  */
 import { interactionName } from "~/engine/coefficient-names";
+import { COVARIANCE_STRUCTURE_WORDS } from "~/engine/repeated/repeated-names";
 import type { CovarianceStructureName, RepeatedDf, RepeatedSpec } from "~/engine/repeated/repeated-spec";
 
-/** Each covariance structure's name, and what it assumes, in words. */
-export const STRUCTURE_WORDS: Record<CovarianceStructureName, { name: string; assumes: string }> = {
+/** What each covariance structure assumes, in words (its name: repeated-names.ts). */
+const STRUCTURE_ASSUMES: Record<CovarianceStructureName, { assumes: string }> = {
   unstructured: {
-    name: "unstructured",
     assumes: "a variance for every visit and a covariance for every pair of visits",
   },
   toeplitz: {
-    name: "Toeplitz",
     assumes: "one variance, and one correlation for each distance between visits",
   },
   "toeplitz-heterogeneous": {
-    name: "heterogeneous Toeplitz",
     assumes: "a variance for every visit, and one correlation for each distance between visits",
   },
   ar1: {
-    name: "first-order autoregressive",
     assumes: "one variance, and a correlation ρ that falls to ρ^k for visits k positions apart",
   },
   "ar1-heterogeneous": {
-    name: "heterogeneous first-order autoregressive",
     assumes: "a variance for every visit, and a correlation ρ^k for visits k positions apart",
   },
   "compound-symmetry": {
-    name: "compound symmetry",
     assumes: "one variance and one correlation shared by every pair of visits",
   },
   "compound-symmetry-heterogeneous": {
-    name: "heterogeneous compound symmetry",
     assumes: "a variance for every visit and one correlation shared by every pair of visits",
   },
 };
 
-export const structureName = (s: CovarianceStructureName): string => STRUCTURE_WORDS[s].name;
+export const structureName = (s: CovarianceStructureName): string => COVARIANCE_STRUCTURE_WORDS[s];
 
 /** The degrees-of-freedom method in words, with its source. */
 export const DF_WORDS: Record<RepeatedDf, string> = {
@@ -74,7 +68,7 @@ export function repeatedMethodsParagraphs(
       `It was analysed with a mixed model for repeated measures (MMRM): a linear model for the mean at each visit whose errors are correlated within a subject (${named(rp.subject)}) across visits, with no random effects, estimated by ${METHOD_WORDS[rp.method]}${s.intercept === false ? ", without an intercept" : ""}.`,
   );
   out.push(
-    `The planned covariance structure of the visits within a subject was ${structureName(rp.covariance)} (${STRUCTURE_WORDS[rp.covariance].assumes}). ` +
+    `The planned covariance structure of the visits within a subject was ${structureName(rp.covariance)} (${STRUCTURE_ASSUMES[rp.covariance].assumes}). ` +
       (fallback.length
         ? `Should its fit not converge, the plan listed the structures to try in turn: ${list(fallback.map(structureName))}; the first whose fit converged with a non-singular information matrix was used, and the results name the structure used and why the ones before it were not.`
         : "The plan listed no fallback structure: a fit that did not converge would leave the model not estimable."),

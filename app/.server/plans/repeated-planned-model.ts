@@ -283,8 +283,8 @@ export function repeatedWords(s: RepeatedSpec): [string, string][] {
         ? `${structureLabel(r.covariance)}; if it does not converge, ${r.fallback.map(words).join(", then ")}`
         : `${structureLabel(r.covariance)}; no fallback`,
     ],
-    ["Degrees of freedom", REPEATED_DF_WORDS[r.df]],
-    ["Estimation", REPEATED_METHOD_WORDS[r.method]],
+    ["Degrees of freedom", sentenceCase(REPEATED_DF_WORDS[r.df])],
+    ["Estimation", sentenceCase(REPEATED_METHOD_WORDS[r.method])],
     ["Primary visit", r.primaryVisit ?? "the last visit by order"],
   ];
 }

@@ -5,15 +5,18 @@
  * people who may see subject-level data, ranks and counts for the others.
  */
 import { populationStepsOf } from "./rerun-population";
-import type { TreatmentEffectPlan } from "~/components/treatment-effect";
-import { reproductionAsCheck } from "~/engine/reproduction";
-import { CHECK_BY_KEY, type CheckOutcome } from "~/engine/checks";
 import { familyWithLink } from "~/engine/family-names";
 import { fitFactsOf, fitStatisticRows } from "~/components/fit-statistics";
-import { figureModule, figureOfCheck } from "~/figures/registry";
+import { figureModule } from "~/figures/registry";
+import { checkView, reproductionView } from "./check-view.server";
+import { treatmentEffectOf } from "./treatment-effect-of";
 import type { Redaction } from "../redaction.server";
 import type { RerunDocument } from "./reruns.server";
 import { coxReportedContrasts, coxRerunView, restrictedMeanContrasts } from "./cox-rerun-view.server";
+import { repeatedRerunView } from "./repeated-rerun-view.server";
+
+// said once in their own modules (so the views of other model types import them without a cycle), read here as before
+export { checkView, reproductionView, treatmentEffectOf };
 
 export interface ContrastView {
   label: string;
@@ -29,37 +32,6 @@ export interface ContrastView {
   hc3: { se: number; lower: number; upper: number; statistic: number; p: number; pAdjusted?: number } | null;
   /** "log" for a ratio: its SEs are those of the log ratio (the estimate and interval are ratios). */
   seScale: "response" | "log";
-}
-
-/** The plan's contrast set and multiplicity method, and the overall test of the treatment term. */
-export function treatmentEffectOf(doc: RerunDocument): TreatmentEffectPlan {
-  const r = doc.result;
-  if (r.kind === "cox") return { contrastSet: "reference", multiplicity: "none", test: null };
-  if (r.kind === "repeated") {
-    const t = r.tests.treatment;
-    return {
-      contrastSet: r.spec.contrasts ?? "reference",
-      multiplicity: r.spec.multiplicity ?? "none",
-      test: t
-        ? {
-            name: "F",
-            term: r.adjustedMeans?.treatment ?? r.spec.treatment ?? "treatment",
-            statistic: t.statistic,
-            df1: t.numeratorDf,
-            df2: t.denominatorDf,
-            p: t.p,
-          }
-        : null,
-    };
-  }
-  const contrastSet = r.spec.contrasts ?? "reference";
-  const multiplicity = r.spec.multiplicity ?? "none";
-  if (r.kind === "linear") {
-    const t = r.tests.treatment;
-    return { contrastSet, multiplicity, test: t ? { name: "F", ...t } : null };
-  }
-  const t = r.checks.treatment;
-  return { contrastSet, multiplicity, test: t ? { name: "χ²", ...t } : null };
 }
 
 /**
@@ -157,39 +129,9 @@ export function reportedContrasts(
   }));
 }
 
-/** A check as a results page shows it: texts and flagged subjects through the viewer's redaction. */
-export function checkView(c: CheckOutcome, redact: Redaction) {
-  return {
-    ...c,
-    statistic: redact.text(c.statistic, c.key),
-    summary: redact.text(c.summary, c.key),
-    remedy: redact.text(c.remedy, c.key),
-    flagged: redact.flagged(c),
-    flaggedCount: c.flagged?.length ?? 0,
-    // the figure's module decides which check it supports; a check not computed has none
-    figure: figureOfCheck(c),
-    formula: CHECK_BY_KEY.get(c.key)?.formula ?? null,
-  };
-}
-
-/** The reproduction check as the results page shows it (reproduction-results.tsx); null when the plan gives no published values. */
-export function reproductionView(doc: RerunDocument) {
-  if (!doc.reproduction) return null;
-  const check = reproductionAsCheck(doc.reproduction);
-  return {
-    outcome: doc.reproduction.outcome,
-    rule: doc.reproduction.rule,
-    label: check.label,
-    statistic: check.statistic,
-    checkOutcome: check.outcome,
-    values: doc.reproduction.values.map(({ published: _published, ...v }) => v),
-  };
-}
-
 export function rerunView(doc: RerunDocument, redact: Redaction) {
   if (doc.result.kind === "cox") return coxRerunView(doc, doc.result, redact);
-  if (doc.result.kind === "repeated")
-    throw new Error("the results page of a repeated-measures rerun lands with its own view");
+  if (doc.result.kind === "repeated") return repeatedRerunView(doc, doc.result, redact);
   const r = doc.result;
   const continuousTerms = r.variables
     .filter((v) => v.kind === "continuous" && v.name !== r.spec.response)

@@ -1,4 +1,5 @@
 import { CoxResults, type CoxView } from "../cox-results";
+import { RepeatedResults, type RepeatedView } from "../repeated-results";
 import { FigureFramesReady, FigureWorkerStart } from "../figures/figure-worker-start";
 import { BinomialFitSection } from "./binomial-fit-section";
 import { ChecksSection } from "./checks-section";
@@ -8,16 +9,25 @@ import type { ModelResultsView } from "./results-view";
 import { RowsAndFit } from "./rows-and-fit";
 import { TreatmentEffectSection } from "./treatment-effect-section";
 
-/** A completed rerun's results: a Cox model's, or a linear model's or GLM's sections in page order. */
+/** A completed rerun's results: a Cox model's, a repeated-measures model's, or a linear model's or GLM's sections in page order. */
 export function ModelResults({
   view,
   studyId,
   rerunId,
 }: {
-  view: ModelResultsView | CoxView;
+  view: ModelResultsView | CoxView | RepeatedView;
   studyId: string;
   rerunId: string;
 }) {
+  if (view.kind === "repeated") {
+    return (
+      <div className="space-y-6">
+        <FigureWorkerStart figures={pageFigureUrls(view, studyId, rerunId)} />
+        <RepeatedResults view={view} studyId={studyId} rerunId={rerunId} />
+        <FigureFramesReady />
+      </div>
+    );
+  }
   if (view.kind === "cox") {
     return (
       <div className="space-y-6">

@@ -19,15 +19,28 @@ export const COVARIANCE_STRUCTURE_WORDS: Record<CovarianceStructureName, string>
 
 export const sentenceCase = (words: string): string => words.charAt(0).toUpperCase() + words.slice(1);
 
+/** A structure described for a results page or report: what it assumes of variances and correlations. */
+export const COVARIANCE_STRUCTURE_DESCRIPTIONS: Record<CovarianceStructureName, string> = {
+  unstructured: "Unstructured",
+  toeplitz: "Toeplitz (one variance, a correlation per lag)",
+  "toeplitz-heterogeneous": "Toeplitz with a variance per visit",
+  ar1: "First-order autoregressive (one variance)",
+  "ar1-heterogeneous": "First-order autoregressive with a variance per visit",
+  "compound-symmetry": "Compound symmetry (one variance, one correlation)",
+  "compound-symmetry-heterogeneous": "Compound symmetry with a variance per visit",
+};
+
+/** In running text; `sentenceCase` for a label. */
 export const REPEATED_DF_WORDS: Record<RepeatedDf, string> = {
   satterthwaite: "Satterthwaite",
   "kenward-roger": "Kenward–Roger",
-  residual: "Residual (records less coefficients)",
+  residual: "residual (records less coefficients)",
 };
 
+/** In running text; `sentenceCase` for a label. */
 export const REPEATED_METHOD_WORDS: Record<RepeatedMethod, string> = {
-  reml: "Restricted maximum likelihood (REML)",
-  ml: "Maximum likelihood (ML)",
+  reml: "restricted maximum likelihood (REML)",
+  ml: "maximum likelihood (ML)",
 };
 
 /** The structures in the order the plan editor offers them (the specification's order). */
