@@ -270,8 +270,6 @@ function checksOut(doc: RerunDocument, redact: Redaction): Body<typeof RerunAnsw
   ];
 }
 
-const parseDoc = (r: Rerun): RerunDocument | null =>
-  r.resultJson ? (JSON.parse(r.resultJson) as RerunDocument) : null;
 
 export async function getStudyRerun(
   p: ApiPrincipal,
@@ -289,9 +287,11 @@ export async function getStudyRerun(
     signaturesOf(rerunId),
     found.row.kind === "primary" ? sensitivityReruns(rerunId) : Promise.resolve([]),
   ]);
-  const shownChildren = children
-    .filter((c) => everyRerun || c.publishedAt !== null)
-    .map((c) => ({ row: c, doc: parseDoc(c) }));
+  const shownChildren = await Promise.all(
+    children
+      .filter((c) => everyRerun || c.publishedAt !== null)
+      .map(async (c) => ({ row: c, doc: await storedRerunDocument(c) })),
+  );
   const redact = await redactionFor(withSubjectIds, [
     { doc, datasetVersionId: found.row.datasetVersionId },
     ...shownChildren.map((c) => ({ doc: c.doc, datasetVersionId: c.row.datasetVersionId })),
