@@ -27,7 +27,9 @@ export function startBackgroundWork(): void {
   migrateStoredResults()
     .then(({ refused }) => {
       if (refused.length)
-        console.error(`Rerun results not moved, their bytes differ from their recorded SHA-256: ${refused.join(", ")}`);
+        console.error(
+          `Rerun results not moved, their bytes differ from their recorded SHA-256: ${refused.join(", ")}`,
+        );
     })
     .catch((e: unknown) => console.error("Rerun results migration:", e instanceof Error ? e.message : e));
   startJobWorker();

@@ -12,12 +12,7 @@ import { db, t } from "../db/index.server";
 import { findingsOf, signaturesOf } from "../reruns/findings.server";
 import { checkView, reportedContrasts, treatmentEffectOf } from "../reruns/rerun-view.server";
 import { rerunRows, storedRerunDocument, type RerunRow } from "../reruns/rerun-rows.server";
-import {
-  reproductionCheckOf,
-  sensitivityReruns,
-  type Rerun,
-  type RerunDocument,
-} from "../reruns/reruns.server";
+import { reproductionCheckOf, sensitivityReruns, type RerunDocument } from "../reruns/reruns.server";
 import { requireStudyForPrincipal } from "../study-access.server";
 import { seesSubjects } from "../permissions.server";
 import { redactionFor, type Redaction } from "../redaction.server";
@@ -269,7 +264,6 @@ function checksOut(doc: RerunDocument, redact: Redaction): Body<typeof RerunAnsw
     }),
   ];
 }
-
 
 export async function getStudyRerun(
   p: ApiPrincipal,

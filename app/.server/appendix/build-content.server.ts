@@ -31,7 +31,12 @@ import { contrastsOf, reportedContrasts, treatmentEffectOf } from "../reruns/rer
 import { populationStepsOf } from "../reruns/rerun-population";
 import { populationNote } from "~/components/population-note";
 import { MULTIPLICITY_WORDS, treatmentTestWords } from "~/components/treatment-effect";
-import { getRerun, sensitivityReruns, storedRerunDocument, type RerunDocument } from "../reruns/reruns.server";
+import {
+  getRerun,
+  sensitivityReruns,
+  storedRerunDocument,
+  type RerunDocument,
+} from "../reruns/reruns.server";
 import { rerunTable } from "../reruns/what-if.server";
 import { getStudyOr404 } from "../studies.server";
 import {

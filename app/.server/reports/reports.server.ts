@@ -13,7 +13,12 @@ import { deviationLog, findingsOf, signaturesOf } from "../reruns/findings.serve
 import { reportedContrasts, rerunView } from "../reruns/rerun-view.server";
 import { redactionFor } from "../redaction.server";
 import { rerunRows } from "../reruns/rerun-rows.server";
-import { getRerun, sensitivityReruns, storedRerunDocument, type RerunDocument } from "../reruns/reruns.server";
+import {
+  getRerun,
+  sensitivityReruns,
+  storedRerunDocument,
+  type RerunDocument,
+} from "../reruns/reruns.server";
 import { reportFigures } from "./report-figures.server";
 
 export interface ReportListing {

@@ -11,7 +11,7 @@
  * both and moves the old ones here. No database in this module: the compute threads import it.
  */
 import { randomBytes } from "node:crypto";
-import { mkdir, rename, rm, writeFile } from "node:fs/promises";
+import { mkdir, readdir, rename, rm, writeFile } from "node:fs/promises";
 import path from "node:path";
 
 /** The result file's path relative to DATA_DIR. */
@@ -39,4 +39,24 @@ export async function writeResultFile(dataDir: string, sha256: string, json: str
     throw e;
   }
   return relative;
+}
+
+const alive = (pid: number) => {
+  try {
+    process.kill(pid, 0);
+    return true;
+  } catch (e) {
+    return (e as NodeJS.ErrnoException).code === "EPERM";
+  }
+};
+
+/** Removes work files in results/tmp/ left by processes that no longer run (their name starts with the pid). */
+export async function sweepResultWorkFiles(dataDir: string): Promise<void> {
+  const tmpDir = path.resolve(dataDir, "results", "tmp");
+  const names = await readdir(tmpDir).catch(() => [] as string[]);
+  for (const name of names) {
+    const pid = Number(name.split("-")[0]);
+    if (!Number.isInteger(pid) || pid <= 0 || !alive(pid))
+      await rm(path.join(tmpDir, name), { force: true }).catch(() => undefined);
+  }
 }

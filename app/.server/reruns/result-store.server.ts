@@ -19,7 +19,7 @@ import path from "node:path";
 import { and, eq, isNotNull } from "drizzle-orm";
 import { config } from "../config.server";
 import { db, t, writeTransaction } from "../db/index.server";
-import { resultRelativePath, writeResultFile } from "./result-files";
+import { resultRelativePath, sweepResultWorkFiles, writeResultFile } from "./result-files";
 
 /** A stored result whose bytes differ from the SHA-256 recorded with its rerun. */
 export class StoredResultMismatch extends Error {}
@@ -54,7 +54,10 @@ async function rowResultJson(id: string): Promise<string | null> {
 const sha256Of = (text: string) => createHash("sha256").update(text).digest("hex");
 
 /** The canonical JSON of a completed rerun's result, checked against its recorded SHA-256; null without one. */
-export async function storedResultJson(row: { id: string; resultSha256: string | null }): Promise<string | null> {
+export async function storedResultJson(row: {
+  id: string;
+  resultSha256: string | null;
+}): Promise<string | null> {
   if (!row.resultSha256) return null;
   const relative = resultRelativePath(row.resultSha256);
   const file = await readHashed(path.resolve(config.DATA_DIR, relative));
@@ -69,10 +72,12 @@ export async function storedResultJson(row: { id: string; resultSha256: string |
 }
 
 /**
- * Moves every result still stored in its row to its file (see above). Safe to interrupt and to
- * repeat; a row whose bytes do not match its hash is left as it is and reported.
+ * Moves every result still stored in its row to its file (see above), after removing work files
+ * of processes that stopped half-way. Safe to interrupt and to repeat; a row whose bytes do not
+ * match its hash is left as it is and reported.
  */
 export async function migrateStoredResults(): Promise<{ moved: number; refused: string[] }> {
+  await sweepResultWorkFiles(path.resolve(config.DATA_DIR));
   const rows = await db
     .select({ id: t.reruns.id, sha256: t.reruns.resultSha256 })
     .from(t.reruns)
