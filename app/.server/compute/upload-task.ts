@@ -14,7 +14,12 @@ import type { MessagePort } from "node:worker_threads";
 import type { ChangeSummary } from "~/shared/datasets";
 import { readArrowColumnsCached, textOf, writeArrowColumns } from "../datasets/arrow-columns.server";
 import { summariseChanges } from "../datasets/diff";
-import { parseDatasetFile, type DatasetFormat, type ParseOptions, type ParsedDataset } from "../datasets/parse.server";
+import {
+  parseDatasetFile,
+  type DatasetFormat,
+  type ParseOptions,
+  type ParsedDataset,
+} from "../datasets/parse.server";
 import { storedColumnsFromParsed } from "../datasets/parsed-columns";
 import { screenColumns, type ScreenHit } from "../datasets/screen";
 import type { ColumnMeta } from "../datasets/column-summary";

@@ -14,11 +14,7 @@
 import { existsSync } from "node:fs";
 import { eq, isNull, like, or } from "drizzle-orm";
 import { db, t, writeTransaction } from "../db/index.server";
-import {
-  readArrowColumnsCached,
-  writeArrowColumns,
-  type StoredColumns,
-} from "./arrow-columns.server";
+import { readArrowColumnsCached, writeArrowColumns, type StoredColumns } from "./arrow-columns.server";
 import { readLegacyColumnsFile } from "./columns-file.server";
 import { parseDatasetFile } from "./parse.server";
 import {
