@@ -16,7 +16,8 @@ import type { CheckOutcome } from "~/engine/checks";
 import { loadLockedTable } from "./datasets/catalog.server";
 import { db, t } from "./db/index.server";
 import type { RerunDocument } from "./reruns/compute-rerun";
-import { rerunDocumentOf } from "./reruns/rerun-rows.server";
+import { subjectIdsOf } from "./reruns/document-subjects";
+import { storedRerunDocument } from "./reruns/rerun-rows.server";
 
 export const WITHHELD = "(id withheld)";
 
@@ -96,13 +97,10 @@ export function redaction(
   const rankOf = new Map<string, Map<string, number>>();
   for (const doc of docs) {
     if (!doc) continue;
-    for (const id of doc.result.observations.id) if (id) ids.add(id);
+    for (const id of subjectIdsOf(doc)) ids.add(id);
     for (const c of doc.checks) {
       const ranks = rankOf.get(c.key) ?? new Map<string, number>();
-      for (const f of c.flagged ?? []) {
-        if (f.id) ids.add(f.id);
-        ranks.set(f.id ?? `row ${f.row}`, f.rank);
-      }
+      for (const f of c.flagged ?? []) ranks.set(f.id ?? `row ${f.row}`, f.rank);
       rankOf.set(c.key, ranks);
     }
   }
@@ -242,7 +240,6 @@ export async function redactionForReruns(
     ? await db
         .select({
           id: t.reruns.id,
-          resultJson: t.reruns.resultJson,
           resultSha256: t.reruns.resultSha256,
           datasetVersionId: t.reruns.datasetVersionId,
         })
@@ -251,6 +248,8 @@ export async function redactionForReruns(
     : [];
   return redactionFor(
     false,
-    rows.map((r) => ({ doc: rerunDocumentOf(r), datasetVersionId: r.datasetVersionId })),
+    await Promise.all(
+      rows.map(async (r) => ({ doc: await storedRerunDocument(r), datasetVersionId: r.datasetVersionId })),
+    ),
   );
 }

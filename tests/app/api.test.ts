@@ -18,6 +18,7 @@ import addFormats from "ajv-formats";
 import { afterAll, beforeAll, describe, expect, inject, it } from "vitest";
 import routes from "../../app/routes";
 import { sessionCookieFor, testDb } from "../support/sessions";
+import { storedResultOnStack } from "../support/stored-result";
 
 const stack = inject("stack");
 process.env.DATABASE_URL = `file:${stack.dbFile}`;
@@ -369,11 +370,7 @@ describe("a token acts with its person's study roles, never more", () => {
   });
 
   it("the rerun's numbers are the stored result's", async () => {
-    const rs = await testDb(stack).execute({
-      sql: "SELECT result_json FROM reruns WHERE id = ?",
-      args: [signedRerunId],
-    });
-    const stored = JSON.parse(String(rs.rows[0].result_json)) as {
+    const stored = JSON.parse(await storedResultOnStack(stack, signedRerunId)) as {
       result: {
         contrasts: { label: string; estimate: number; p: number }[];
         coefficients: { name: string; estimate: number }[];

@@ -9,7 +9,7 @@ import type { Browser, BrowserContext, Response } from "playwright-core";
 import { afterAll, beforeAll, describe, expect, inject, it } from "vitest";
 import { drawAllFigures, hoverForSubject, launchBrowser, screenshot, signInAs } from "../support/browser";
 import { ensurePublishedRerun } from "../support/published-rerun-http";
-import { testDb } from "../support/sessions";
+import { storedResultOnStack } from "../support/stored-result";
 
 const stack = inject("stack");
 let browser: Browser;
@@ -20,11 +20,7 @@ let ids: string[] = [];
 beforeAll(async () => {
   browser = await launchBrowser();
   ({ studyId, rerunId } = await ensurePublishedRerun(stack));
-  const rs = await testDb(stack).execute({
-    sql: "SELECT result_json FROM reruns WHERE id = ?",
-    args: [rerunId],
-  });
-  const doc = JSON.parse(String(rs.rows[0]?.result_json ?? "{}")) as {
+  const doc = JSON.parse(await storedResultOnStack(stack, rerunId)) as {
     result: { observations: { id: (string | null)[] } };
   };
   ids = doc.result.observations.id.filter((x): x is string => Boolean(x));

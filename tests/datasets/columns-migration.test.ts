@@ -20,6 +20,7 @@ const plans = await import("~/.server/plans/plans.server");
 const { validatePlannedModel, readPlannedModelForm } = await import("~/.server/plans/planned-model");
 const catalog = await import("~/.server/datasets/catalog.server");
 const reruns = await import("~/.server/reruns/reruns.server");
+const { storedResultJson } = await import("~/.server/reruns/result-store.server");
 const { runOneJob } = await import("~/.server/jobs/jobs.server");
 (await import("~/.server/background.server")).registerJobHandlers();
 const { canonicalJson } = await import("~/.server/audit.server");
@@ -71,7 +72,7 @@ async function rerunResult(): Promise<string> {
   }
   const [r] = await db.select().from(t.reruns).where(eq(t.reruns.id, id));
   expect(r.status).toBe("completed");
-  return r.resultJson as string;
+  return (await storedResultJson(r)) as string;
 }
 
 const sha = (file: string) => createHash("sha256").update(readFileSync(file)).digest("hex");

@@ -513,11 +513,13 @@ describe("the Cox model's planned sensitivity analyses", () => {
       "Robust (sandwich) standard errors, clustered by subject",
       "Unstratified (one baseline hazard for all subjects)",
     ]);
-    const contrasts = children.map((c) => {
-      const d = reruns.rerunDocumentOf(c);
-      if (!d) throw new Error(`${c.label} has no result`);
-      return reportedContrasts(d);
-    });
+    const contrasts = await Promise.all(
+      children.map(async (c) => {
+        const d = await reruns.storedRerunDocument(c);
+        if (!d) throw new Error(`${c.label} has no result`);
+        return reportedContrasts(d);
+      }),
+    );
     expect(contrasts.map((c) => c[0].label)).toEqual([
       "TRTP: Active (hazard ratio)",
       "TRTP: Active (hazard ratio)",

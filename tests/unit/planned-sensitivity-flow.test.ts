@@ -101,7 +101,7 @@ describe("planned sensitivity analyses", () => {
     const done = await reruns.sensitivityReruns(primaryId);
     expect(done.map((r) => r.status)).toEqual(["completed", "completed", "completed"]);
     const primary = (await reruns.getRerun(studyId, primaryId)).doc!;
-    const robust = reruns.rerunDocumentOf(done[0])!;
+    const robust = (await reruns.storedRerunDocument(done[0]))!;
     const hc3 = contrastsOf(primary).map((c) => c.hc3!);
     reportedContrasts(robust).forEach((c, i) => {
       expect(c.lower).toBeCloseTo(hc3[i].lower, 10);

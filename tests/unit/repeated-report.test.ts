@@ -27,6 +27,8 @@ const plans = await import("~/.server/plans/plans.server");
 const datasets = await import("~/.server/datasets/datasets.server");
 const { loadLockedTable } = await import("~/.server/datasets/catalog.server");
 const findings = await import("~/.server/reruns/findings.server");
+const { writeResultFile } = await import("~/.server/reruns/result-files");
+const { config } = await import("~/.server/config.server");
 const { actorOf } = await import("~/.server/people.server");
 const { canonicalJson } = await import("~/.server/canonical-json");
 const { buildAppendixContent } = await import("~/.server/appendix/build-content.server");
@@ -201,6 +203,9 @@ beforeAll(async () => {
     ],
   };
   const json = canonicalJson(doc);
+  const resultSha256 = createHash("sha256").update(json).digest("hex");
+  // stored as the compute thread stores a result: its file named by its hash (result-files.ts)
+  await writeResultFile(path.resolve(config.DATA_DIR), resultSha256, json);
   rerunId = newId();
   await db.insert(t.reruns).values({
     id: rerunId,
@@ -214,8 +219,7 @@ beforeAll(async () => {
     status: "completed",
     datasetSha256: version.sha256,
     engineVersion: ENGINE_VERSION,
-    resultSha256: createHash("sha256").update(json).digest("hex"),
-    resultJson: json,
+    resultSha256,
     startedBy: people.priya.id,
     startedAt: new Date().toISOString(),
     finishedAt: new Date().toISOString(),

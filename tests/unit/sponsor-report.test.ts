@@ -16,6 +16,7 @@ const { recordSponsorSignIn } = await import("~/.server/auth/oidc-sign-in.server
 const { db, t } = await import("~/.server/db/index.server");
 const { eq } = await import("drizzle-orm");
 const reruns = await import("~/.server/reruns/reruns.server");
+const { storedResultJson } = await import("~/.server/reruns/result-store.server");
 const { runOneJob } = await import("~/.server/jobs/jobs.server");
 (await import("~/.server/background.server")).registerJobHandlers();
 
@@ -208,8 +209,8 @@ describe("a sponsor reader is refused everything but reports", () => {
     } as never);
     const json = JSON.stringify(report);
     // The demo subject ids look like QMT301-0217; the stored rerun names them in its check texts.
-    const stored =
-      (await db.select().from(t.reruns).where(eq(t.reruns.id, signed.rerunId)))[0].resultJson ?? "";
+    const [row] = await db.select().from(t.reruns).where(eq(t.reruns.id, signed.rerunId));
+    const stored = (await storedResultJson(row)) ?? "";
     expect(stored).toMatch(/QMT301-\d{4}/);
     expect(json).not.toMatch(/QMT301-/);
     expect(json).toContain("the subject ranked 1");

@@ -12,12 +12,7 @@ import { db, t } from "../db/index.server";
 import { findingsOf, signaturesOf } from "../reruns/findings.server";
 import { checkView, reportedContrasts, treatmentEffectOf } from "../reruns/rerun-view.server";
 import { rerunRows, storedRerunDocument, type RerunRow } from "../reruns/rerun-rows.server";
-import {
-  reproductionCheckOf,
-  sensitivityReruns,
-  type Rerun,
-  type RerunDocument,
-} from "../reruns/reruns.server";
+import { reproductionCheckOf, sensitivityReruns, type RerunDocument } from "../reruns/reruns.server";
 import { requireStudyForPrincipal } from "../study-access.server";
 import { seesSubjects } from "../permissions.server";
 import { redactionFor, type Redaction } from "../redaction.server";
@@ -271,9 +266,6 @@ function checksOut(doc: RerunDocument, redact: Redaction): Body<typeof RerunAnsw
   ];
 }
 
-const parseDoc = (r: Rerun): RerunDocument | null =>
-  r.resultJson ? (JSON.parse(r.resultJson) as RerunDocument) : null;
-
 export async function getStudyRerun(
   p: ApiPrincipal,
   studyId: string,
@@ -290,9 +282,11 @@ export async function getStudyRerun(
     signaturesOf(rerunId),
     found.row.kind === "primary" ? sensitivityReruns(rerunId) : Promise.resolve([]),
   ]);
-  const shownChildren = children
-    .filter((c) => everyRerun || c.publishedAt !== null)
-    .map((c) => ({ row: c, doc: parseDoc(c) }));
+  const shownChildren = await Promise.all(
+    children
+      .filter((c) => everyRerun || c.publishedAt !== null)
+      .map(async (c) => ({ row: c, doc: await storedRerunDocument(c) })),
+  );
   const redact = await redactionFor(withSubjectIds, [
     { doc, datasetVersionId: found.row.datasetVersionId },
     ...shownChildren.map((c) => ({ doc: c.doc, datasetVersionId: c.row.datasetVersionId })),

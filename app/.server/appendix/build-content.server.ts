@@ -31,7 +31,12 @@ import { contrastsOf, reportedContrasts, treatmentEffectOf } from "../reruns/rer
 import { populationStepsOf } from "../reruns/rerun-population";
 import { populationNote } from "~/components/population-note";
 import { MULTIPLICITY_WORDS, treatmentTestWords } from "~/components/treatment-effect";
-import { getRerun, sensitivityReruns, type RerunDocument } from "../reruns/reruns.server";
+import {
+  getRerun,
+  sensitivityReruns,
+  storedRerunDocument,
+  type RerunDocument,
+} from "../reruns/reruns.server";
 import { rerunTable } from "../reruns/what-if.server";
 import { getStudyOr404 } from "../studies.server";
 import {
@@ -150,13 +155,15 @@ async function loadPart(studyId: string, rerunId: string): Promise<RerunPart> {
     loadLockedTable(r.dataset.versionId),
   ]);
   const labels = Object.fromEntries((locked.columns as ColumnMeta[]).map((c) => [c.name, c.label]));
-  const sensitivity = children
-    .filter((c) => c.status === "completed" && c.resultJson && c.publishedAt)
-    .map((c) => ({
-      label: c.label ?? "Sensitivity analysis",
-      prespecified: c.prespecified,
-      doc: JSON.parse(c.resultJson!) as RerunDocument,
-    }));
+  const sensitivity = await Promise.all(
+    children
+      .filter((c) => c.status === "completed" && c.resultSha256 && c.publishedAt)
+      .map(async (c) => ({
+        label: c.label ?? "Sensitivity analysis",
+        prespecified: c.prespecified,
+        doc: (await storedRerunDocument(c)) as RerunDocument,
+      })),
+  );
   const idColumn = subjectColumnOf(r.doc);
   const redact = redaction(
     false,

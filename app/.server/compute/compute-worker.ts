@@ -6,3 +6,4 @@
 export { rerunTask as rerun } from "./rerun-task";
 export { renderDocx as appendix } from "../appendix/docx.server";
 export { whatIfTask as whatIf } from "./what-if-task";
+export { uploadTask as upload } from "./upload-task";

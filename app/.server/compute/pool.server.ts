@@ -1,6 +1,7 @@
 /**
  * Compute threads: work that would hold the web process's event loop for long (reruns and
- * their sensitivity variants, the what-if's refit, rendering the Word appendix) runs in worker threads through tinypool, one fewer than the
+ * their sensitivity variants, the what-if's refit, rendering the Word appendix, reading an
+ * upload) runs in worker threads through tinypool, one fewer than the
  * machine's cores (at least one), so requests, the job heartbeat and the rest keep being
  * served while a large model is fitted.
  *
@@ -17,7 +18,9 @@ import Tinypool from "tinypool";
 import type { AppendixContent } from "~/shared/appendix-content";
 import { renderDocx } from "../appendix/docx.server";
 import type { WhatIfInputs } from "~/components/figures/what-if-inputs";
+import { MessageChannel } from "node:worker_threads";
 import { rerunTask, type RerunTaskInput, type RerunTaskOutput } from "./rerun-task";
+import { uploadTask, type UploadTaskInput, type UploadTaskOutput } from "./upload-task";
 import { whatIfTask, type WhatIfTaskInput } from "./what-if-task";
 
 const WORKER_FILE = "compute-worker.js";
@@ -38,11 +41,11 @@ export function computeThreads(): number {
 }
 
 /**
- * Two pools: reruns (background jobs, which may take minutes) and requests that someone waits
+ * Three pools: reruns (background jobs, which may take minutes), requests that someone waits
  * for (the what-if on the results page, the appendix export), so that those never queue behind
- * a large rerun.
+ * a large rerun, and uploads being read (a large one takes a minute; it holds up neither).
  */
-type PoolKind = "jobs" | "requests";
+type PoolKind = "jobs" | "requests" | "uploads";
 const pools = new Map<PoolKind, Tinypool | null>();
 
 function computePool(kind: PoolKind): Tinypool | null {
@@ -59,6 +62,28 @@ function computePool(kind: PoolKind): Tinypool | null {
 export function runRerunTask(input: RerunTaskInput): Promise<RerunTaskOutput> {
   const p = computePool("jobs");
   return p ? (p.run(input, { name: "rerun" }) as Promise<RerunTaskOutput>) : rerunTask(input);
+}
+
+/**
+ * Reads, checks, screens and stores the columns of an upload in a compute thread (or here, from
+ * source), its reading's progress reported to `onProgress` as it goes.
+ */
+export async function runUploadTask(
+  input: Omit<UploadTaskInput, "progressPort">,
+  onProgress: (fraction: number) => void,
+): Promise<UploadTaskOutput> {
+  const p = computePool("uploads");
+  if (!p) return uploadTask(input, onProgress);
+  const { port1, port2 } = new MessageChannel();
+  port1.on("message", (f: number) => onProgress(f));
+  try {
+    return (await p.run(
+      { ...input, progressPort: port2 },
+      { name: "upload", transferList: [port2] },
+    )) as UploadTaskOutput;
+  } finally {
+    port1.close();
+  }
 }
 
 /** Builds a rerun's what-if inputs in a compute thread (or here, from source). */

@@ -9,21 +9,13 @@ import { writeFile } from "node:fs/promises";
 import { and, desc, eq, isNull } from "drizzle-orm";
 import { appendAudit, type Actor } from "../audit.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
-import type { ColumnMeta } from "./column-summary";
-import { primeArrowColumnsCache, textOf, writeArrowColumns } from "./arrow-columns.server";
-import { summariseChanges, type ChangeSummary } from "./diff";
-import {
-  firstBytesOf,
-  formatOf,
-  parseDatasetFile,
-  type DatasetFormat,
-  type ParseOptions,
-} from "./parse.server";
-import { screenColumns } from "./screen";
+import type { ChangeSummary } from "./diff";
+import { firstBytesOf, formatOf, type DatasetFormat } from "./parse.server";
 import { isStorageError } from "../storage-errors.server";
 import { auditUploadRefusal, storageRefusal } from "./upload.server";
-import { storedColumnsFromParsed } from "./stored-columns.server";
-import { latestLocked, parsedOf } from "./dataset-versions.server";
+import { columnsFileOf } from "./stored-columns.server";
+import { runUploadTask } from "../compute/pool.server";
+import { latestLocked } from "./dataset-versions.server";
 import {
   absoluteStorePath,
   blobRelativePath,
@@ -101,78 +93,66 @@ export async function uploadDataset(
   try {
     await sweepLeftovers().catch(() => undefined);
     const format: DatasetFormat = formatOf(req.fileName, await firstBytesOf(req.workPath));
-    const options: ParseOptions = {
+    const options = {
       keyColumns: req.keyColumns,
       numericColumns: req.numericColumns,
       readByValues: req.readByValues?.columns,
-      onProgress: (f) => progress("parse", f),
     };
-    const outcome = await parseDatasetFile(req.workPath, req.fileName, format, options);
-    if (!outcome.ok) return await refuse(actor, req, outcome.problems);
-    const parsed = outcome.dataset;
-
     const [existing] = await db
       .select()
       .from(t.datasets)
       .where(and(eq(t.datasets.studyId, req.studyId), eq(t.datasets.name, req.datasetName)))
       .limit(1);
-    if (existing) {
-      const [same] = await db
-        .select({ version: t.datasetVersions.version, status: t.datasetVersions.status })
-        .from(t.datasetVersions)
-        .where(
-          and(
-            eq(t.datasetVersions.datasetId, existing.id),
-            eq(t.datasetVersions.sha256, req.sha256),
-            isNull(t.datasetVersions.purgedAt),
-          ),
-        )
-        .orderBy(desc(t.datasetVersions.version))
-        .limit(1);
-      if (same) {
-        return await refuse(actor, req, [
-          `${req.fileName} is byte for byte the same as version ${same.version} of ${req.datasetName} (${same.status}). Nothing changed, so no new version was made.`,
-        ]);
-      }
-    }
-    progress("screen", 0);
-    const hits = screenColumns(
-      parsed.names.map((name, j) => {
-        // `format` is set by readers of files that declare one (SAS formats of transport files).
-        const meta = parsed.columns[j] as ColumnMeta & { format?: string | null };
-        return {
-          name,
-          type: meta.type,
-          cells: parsed.cells[j],
-          label: meta.label,
-          format: meta.format ?? null,
-        };
-      }),
+    const [same] = existing
+      ? await db
+          .select({ version: t.datasetVersions.version, status: t.datasetVersions.status })
+          .from(t.datasetVersions)
+          .where(
+            and(
+              eq(t.datasetVersions.datasetId, existing.id),
+              eq(t.datasetVersions.sha256, req.sha256),
+              isNull(t.datasetVersions.purgedAt),
+            ),
+          )
+          .orderBy(desc(t.datasetVersions.version))
+          .limit(1)
+      : [];
+    const previous = existing && !same ? await latestLocked(existing.id) : null;
+    if (!same) columnsWork = await newWorkPath("arrow");
+    // Reading, checking, screening and the typed columns run in a compute thread (upload-task.ts).
+    const outcome = await runUploadTask(
+      {
+        workPath: req.workPath,
+        fileName: req.fileName,
+        format,
+        options,
+        columnsWork,
+        previous: previous
+          ? {
+              version: previous.version,
+              columnsFile: await columnsFileOf(previous),
+              keyColumns: JSON.parse(previous.keyColumnsJson) as string[],
+            }
+          : null,
+      },
+      (f: number) => progress("parse", f),
     );
-    const stored = storedColumnsFromParsed(parsed);
-    const carried = existing ? await resolutionsToCarry(existing.id) : new Map<string, CarriedResolution>();
-    const previous = existing ? await latestLocked(existing.id) : null;
-    let changes: ChangeSummary | null = null;
-    if (previous) {
-      // Both sides as the stored typed columns give them, so "1.50" and "1.5" are the same value.
-      const before = await parsedOf(previous);
-      changes = summariseChanges(
-        {
-          version: previous.version,
-          names: before.names,
-          cells: before.columns.map(textOf),
-          keyColumns: JSON.parse(previous.keyColumnsJson) as string[],
-        },
-        { names: parsed.names, cells: stored.columns.map(textOf), keyColumns: parsed.keyColumns },
-      );
+    if (!outcome.ok && "problems" in outcome) return await refuse(actor, req, outcome.problems);
+    if (!outcome.ok) throw Object.assign(new Error(outcome.error.message), { code: outcome.error.code });
+    const { dataset: parsed, hits, changes } = outcome;
+    if (same) {
+      return await refuse(actor, req, [
+        `${req.fileName} is byte for byte the same as version ${same.version} of ${req.datasetName} (${same.status}). Nothing changed, so no new version was made.`,
+      ]);
     }
+    // screened and compared in the same task, after the reading
+    progress("screen", 1);
+    const carried = existing ? await resolutionsToCarry(existing.id) : new Map<string, CarriedResolution>();
     progress("store", 0);
-    columnsWork = await newWorkPath("arrow");
-    await writeArrowColumns(columnsWork, stored);
     const storedPath = blobRelativePath(req.sha256);
     const parsedPath = columnsRelativePath(req.sha256);
     if (await moveIntoStore(req.workPath, storedPath)) placed.push(storedPath);
-    if (await moveIntoStore(columnsWork, parsedPath)) placed.push(parsedPath);
+    if (await moveIntoStore(columnsWork as string, parsedPath)) placed.push(parsedPath);
     const saved = await writeTransaction(async (tx) => {
       let datasetId = existing?.id;
       if (!datasetId) {
@@ -278,8 +258,6 @@ export async function uploadDataset(
       );
       return { versionId, version, datasetId };
     });
-    // The preview opens next: serve it from the columns already in memory.
-    primeArrowColumnsCache(absoluteStorePath(parsedPath), stored);
     progress("store", 1);
     return { ok: true, ...saved, hits: hits.length, changes };
   } catch (e) {

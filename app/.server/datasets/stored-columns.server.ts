@@ -14,12 +14,7 @@
 import { existsSync } from "node:fs";
 import { eq, isNull, like, or } from "drizzle-orm";
 import { db, t, writeTransaction } from "../db/index.server";
-import {
-  readArrowColumnsCached,
-  typedColumnOf,
-  writeArrowColumns,
-  type StoredColumns,
-} from "./arrow-columns.server";
+import { readArrowColumnsCached, writeArrowColumns, type StoredColumns } from "./arrow-columns.server";
 import { readLegacyColumnsFile } from "./columns-file.server";
 import { parseDatasetFile } from "./parse.server";
 import {
@@ -34,33 +29,9 @@ import {
 
 type VersionRow = typeof t.datasetVersions.$inferSelect;
 
-/** What a parse gives: names, cell text, row numbers, column metadata, and dataset-level facts besides. */
-export interface ParsedForStore {
-  names: string[];
-  cells: string[][];
-  rowNumbers: number[];
-  columns: readonly object[];
-}
+import { storedColumnsFromParsed } from "./parsed-columns";
 
-/**
- * The typed columns of a parsed file: numbers as Float64Array, text as strings (see
- * arrow-columns.server.ts). Every field of the parse other than the columns themselves (source
- * format, key columns, dataset label, ...) is kept as dataset metadata.
- */
-export function storedColumnsFromParsed<P extends ParsedForStore>(parsed: P): StoredColumns {
-  const { names, cells, rowNumbers, columns, ...dataset } = parsed;
-  const columnMeta = names.map((name, j) => ({
-    ...(columns[j] as Record<string, unknown> | undefined),
-    name,
-  }));
-  return {
-    names,
-    columns: cells.map((c, j) => typedColumnOf(c, columnMeta[j])),
-    rowNumbers,
-    columnMeta,
-    dataset: dataset as Record<string, unknown>,
-  };
-}
+export { storedColumnsFromParsed, type ParsedForStore } from "./parsed-columns";
 
 /** True when the version's Arrow file is still to be written: a former `.cols` path, or none in place. */
 function needsArrow(v: VersionRow): boolean {

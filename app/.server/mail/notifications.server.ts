@@ -11,7 +11,7 @@ import { and, eq, inArray } from "drizzle-orm";
 import { t, type DbOrTx } from "../db/index.server";
 import type { StudyRole } from "../db/schema";
 import { redaction } from "../redaction.server";
-import type { RerunDocument } from "../reruns/reruns.server";
+import { rerunColumns, storedRerunDocument } from "../reruns/rerun-rows.server";
 import { composeMessage } from "./compose";
 import { appLink, queueMail } from "./outbox.server";
 
@@ -67,10 +67,21 @@ async function nameOf(tx: DbOrTx, personId: string | null): Promise<string> {
   return p?.name ?? "Someone";
 }
 
-/** Refuses a message about a rerun that names one of its subjects. */
-function checkedForSubjects<T>(message: T, resultJson: string | null): T {
-  const doc = resultJson ? (JSON.parse(resultJson) as RerunDocument) : null;
-  return redaction(false, [doc]).assertClean(message, "A notification");
+/**
+ * Refuses a message about a rerun that names one of its subjects: the subjects its stored result
+ * names (read, or as the compute thread answered them when the rerun has just completed, one a
+ * line, so that completing a large rerun never reads its result back).
+ */
+async function checkedForSubjects<T>(
+  message: T,
+  rerun: { id: string; resultSha256: string | null },
+  subjectIds?: string,
+): Promise<T> {
+  const check =
+    subjectIds !== undefined
+      ? redaction(false, [], subjectIds.split("\n"))
+      : redaction(false, [await storedRerunDocument(rerun)]);
+  return check.assertClean(message, "A notification");
 }
 
 const utc = (iso: string): string => `${iso.slice(0, 16).replace("T", " ")} UTC`;
@@ -147,11 +158,11 @@ export async function notifyPlanAwaitsApproval(
  */
 export async function notifyRerunAwaitsSignOff(
   tx: DbOrTx,
-  input: { studyId: string; rerunId: string },
+  input: { studyId: string; rerunId: string; subjectIds?: string },
 ): Promise<void> {
   const study = await studyOf(tx, input.studyId);
   const [row] = await tx
-    .select({ r: t.reruns, m: t.plannedModels, v: t.planVersions })
+    .select({ r: rerunColumns, m: t.plannedModels, v: t.planVersions })
     .from(t.reruns)
     .innerJoin(t.plannedModels, eq(t.plannedModels.id, t.reruns.plannedModelId))
     .innerJoin(t.planVersions, eq(t.planVersions.id, t.reruns.planVersionId))
@@ -175,7 +186,7 @@ export async function notifyRerunAwaitsSignOff(
     studyId: input.studyId,
     linkPath,
     recipients,
-    message: checkedForSubjects(
+    message: await checkedForSubjects(
       composeMessage({
         subject: `${study.code}: rerun of “${row.m.title}” awaits sign-off`,
         heading: `A rerun of “${row.m.title}” awaits sign-off`,
@@ -193,7 +204,8 @@ export async function notifyRerunAwaitsSignOff(
         link: { url: appLink(linkPath), label: "Open the rerun" },
         reason: `You receive this as a biostatistician on ${study.code} who may sign this rerun.`,
       }),
-      row.r.resultJson,
+      row.r,
+      input.subjectIds,
     ),
   });
 }
@@ -201,11 +213,11 @@ export async function notifyRerunAwaitsSignOff(
 /** A rerun was signed and published: tell the study's sponsor readers. */
 export async function notifyReportPublished(
   tx: DbOrTx,
-  input: { studyId: string; rerunId: string },
+  input: { studyId: string; rerunId: string; subjectIds?: string },
 ): Promise<void> {
   const study = await studyOf(tx, input.studyId);
   const [row] = await tx
-    .select({ r: t.reruns, m: t.plannedModels, v: t.planVersions })
+    .select({ r: rerunColumns, m: t.plannedModels, v: t.planVersions })
     .from(t.reruns)
     .innerJoin(t.plannedModels, eq(t.plannedModels.id, t.reruns.plannedModelId))
     .innerJoin(t.planVersions, eq(t.planVersions.id, t.reruns.planVersionId))
@@ -219,7 +231,7 @@ export async function notifyReportPublished(
     studyId: input.studyId,
     linkPath,
     recipients: await sponsorReaders(tx, input.studyId),
-    message: checkedForSubjects(
+    message: await checkedForSubjects(
       composeMessage({
         subject: `${study.code}: a signed report is published`,
         heading: `The report of “${row.m.title}” is published`,
@@ -239,7 +251,7 @@ export async function notifyReportPublished(
         link: { url: appLink(linkPath), label: "Read the report" },
         reason: `You receive this as a sponsor reader of ${study.code}.`,
       }),
-      row.r.resultJson,
+      row.r,
     ),
   });
 }

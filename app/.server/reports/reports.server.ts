@@ -13,7 +13,12 @@ import { deviationLog, findingsOf, signaturesOf } from "../reruns/findings.serve
 import { reportedContrasts, rerunView, type RerunView } from "../reruns/rerun-view.server";
 import { redactionFor } from "../redaction.server";
 import { rerunRows } from "../reruns/rerun-rows.server";
-import { getRerun, rerunDocumentOf, sensitivityReruns, type RerunDocument } from "../reruns/reruns.server";
+import {
+  getRerun,
+  sensitivityReruns,
+  storedRerunDocument,
+  type RerunDocument,
+} from "../reruns/reruns.server";
 import { reportFigures } from "./report-figures.server";
 import { repeatedReportView } from "./repeated-report.server";
 
@@ -83,11 +88,15 @@ export async function getReport(studyId: string, rerunId: string) {
     deviationLog(studyId),
     latestAppendix(studyId, primaryId),
   ]);
-  const published = children.filter((c) => c.publishedAt && c.resultJson);
+  const published = await Promise.all(
+    children
+      .filter((c) => c.publishedAt && c.resultSha256)
+      .map(async (c) => ({ ...c, doc: (await storedRerunDocument(c)) as RerunDocument })),
+  );
   // A report is for sponsor readers, whoever opens it: it never names a subject.
   const redaction = await redactionFor(false, [
     { doc, datasetVersionId: r.dataset.versionId },
-    ...published.map((c) => ({ doc: rerunDocumentOf(c), datasetVersionId: c.datasetVersionId })),
+    ...published.map((c) => ({ doc: c.doc, datasetVersionId: c.datasetVersionId })),
   ]);
   const redact = (s: string) => redaction.text(s);
   // the diagnostic figures, influential subjects by rank (each figure's text checked for ids before it becomes a picture)
@@ -120,7 +129,7 @@ export async function getReport(studyId: string, rerunId: string) {
       label: redact(c.label ?? "Sensitivity analysis"),
       prespecified: c.prespecified,
       primary: false,
-      contrasts: reportedContrasts(rerunDocumentOf(c) as RerunDocument),
+      contrasts: reportedContrasts(c.doc),
     })),
   ];
   const report = {

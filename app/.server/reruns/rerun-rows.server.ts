@@ -8,9 +8,18 @@ import { LRUCache } from "lru-cache";
 import { data } from "react-router";
 import { db, t } from "../db/index.server";
 import type { RerunDocument } from "./compute-rerun";
+import { storedResultJson } from "./result-store.server";
 
-/** Every column of a rerun but its stored result (one of a large rerun is hundreds of MB). */
+/**
+ * Every column of a rerun but `result_json`, where results were stored before they moved to
+ * files (one of a large rerun is hundreds of MB): select these, and read the result with
+ * `storedRerunDocument`.
+ */
 const { resultJson: _resultJson, ...rerunWithoutResult } = getTableColumns(t.reruns);
+export const rerunColumns = rerunWithoutResult;
+
+/** A rerun row as read (without the former result column). */
+export type RerunRecord = Omit<typeof t.reruns.$inferSelect, "resultJson">;
 
 /**
  * The reruns that meet `where` (on the five tables), in `order`, each with its planned model
@@ -56,39 +65,24 @@ function deepFreeze<T>(value: T): T {
   return value;
 }
 
-/** The stored result of a rerun row, parsed once per result hash (read-only). */
-export function rerunDocumentOf(row: {
-  id: string;
-  resultJson: string | null;
-  resultSha256: string | null;
-}): RerunDocument | null {
-  if (!row.resultJson) return null;
-  const key = resultKey(row.id, row.resultSha256);
-  const cached = parsedResults.get(key);
-  if (cached) return cached;
-  const doc = deepFreeze(JSON.parse(row.resultJson) as RerunDocument);
-  parsedResults.set(key, doc);
-  return doc;
-}
-
-/** The stored result of a rerun read without it (`rerunRows`): from the cache, or read and parsed once. */
+/**
+ * The stored result of a completed rerun (its file, or its row for results stored before;
+ * `result-store.server.ts`), checked against its SHA-256 and parsed once per result hash
+ * (read-only; null without a result).
+ */
 export async function storedRerunDocument(row: {
   id: string;
   resultSha256: string | null;
 }): Promise<RerunDocument | null> {
   if (!row.resultSha256) return null;
-  const cached = parsedResults.get(resultKey(row.id, row.resultSha256));
+  const key = resultKey(row.id, row.resultSha256);
+  const cached = parsedResults.get(key);
   if (cached) return cached;
-  // a 10 000-subject result is several MB: read it only when it is not parsed yet
-  const [stored] = await db
-    .select({ resultJson: t.reruns.resultJson })
-    .from(t.reruns)
-    .where(eq(t.reruns.id, row.id));
-  return rerunDocumentOf({
-    id: row.id,
-    resultSha256: row.resultSha256,
-    resultJson: stored?.resultJson ?? null,
-  });
+  const json = await storedResultJson(row);
+  if (json === null) return null;
+  const doc = deepFreeze(JSON.parse(json) as RerunDocument);
+  parsedResults.set(key, doc);
+  return doc;
 }
 
 /** A rerun, its model, dataset version, plan version and who started it, with its parsed result (read-only; null until completed). */

@@ -1,17 +1,21 @@
 /**
  * Reruns: an approved planned model fitted to a locked dataset version by the engine, off the
- * request in a background job. The stored result is canonical JSON; its SHA-256 is recorded,
+ * request in a background job. The stored result is canonical JSON in a content-addressed file
+ * written by the compute thread (`result-files.ts`); its SHA-256 is recorded in the row,
  * and because the input (dataset bytes, plan version, engine version, options) fully
  * determines it, rerunning yields the same hash. A model that cannot be estimated as planned
  * is kept as a failed rerun with the engine's reason and a finding of that kind.
  */
+import path from "node:path";
 import { and, asc, desc, eq, inArray } from "drizzle-orm";
 import { data } from "react-router";
 import { findingSummary } from "~/engine/checks";
 import { EngineError, ENGINE_VERSION } from "~/engine";
 import { appendAudit, canonicalJson, SYSTEM_ACTOR } from "../audit.server";
 import { runRerunTask } from "../compute/pool.server";
+import { config } from "../config.server";
 import { sha256Hex } from "../compute/rerun-task";
+import { traceStep } from "../diagnostics/event-loop-trace.server";
 import { lockedColumnsFile } from "../datasets/catalog.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
 import { enqueueJob, registerJobFailureHook, registerJobHandler, type Job } from "../jobs/jobs.server";
@@ -22,14 +26,15 @@ import { reproductionCheckOf } from "./compute-rerun";
 import { describeOptions, rerunOptionsSchema, type RerunOptions } from "./rerun-options";
 import { exclusionProblem } from "./what-if.server";
 import { plannedSensitivityOptions } from "./planned-sensitivity";
-import { rerunDocumentOf, rerunRows } from "./rerun-rows.server";
+import { rerunColumns, rerunRows, storedRerunDocument, type RerunRecord } from "./rerun-rows.server";
 
 export { computeRerun, reproductionCheckOf, type RerunDocument, type RerunTable } from "./compute-rerun";
-export { getRerun, rerunDocumentOf } from "./rerun-rows.server";
+export { getRerun, storedRerunDocument } from "./rerun-rows.server";
 
 export const RERUN_JOB = "rerun";
 
-export type Rerun = typeof t.reruns.$inferSelect;
+/** A rerun row (its result is read with `storedRerunDocument`). */
+export type Rerun = RerunRecord;
 
 export function hashDocument(json: string): string {
   return sha256Hex(json);
@@ -37,7 +42,8 @@ export function hashDocument(json: string): string {
 
 /** Job handler: runs the rerun and stores its result, its findings, or why it failed. */
 export async function executeRerun(rerunId: string): Promise<void> {
-  const [rerun] = await db.select().from(t.reruns).where(eq(t.reruns.id, rerunId)).limit(1);
+  const since = performance.now();
+  const [rerun] = await db.select(rerunColumns).from(t.reruns).where(eq(t.reruns.id, rerunId)).limit(1);
   if (!rerun || rerun.status === "completed") return;
   await writeTransaction((tx) =>
     tx.update(t.reruns).set({ status: "running", startedAt: isoNow() }).where(eq(t.reruns.id, rerunId)),
@@ -62,11 +68,13 @@ export async function executeRerun(rerunId: string): Promise<void> {
       columnsFile: locked.file,
       options,
       meta: { datasetSha256: locked.sha256, planVersionId: rerun.planVersionId },
+      dataDir: path.resolve(config.DATA_DIR),
     });
   } catch (e) {
     if (!(e instanceof EngineError)) throw e;
     outcome = { ok: false, engineError: e.message };
   }
+  traceStep(`rerun ${rerunId}`, "computed", since);
   if (!outcome.ok) {
     const reason = outcome.engineError;
     await writeTransaction(async (tx) => {
@@ -93,9 +101,11 @@ export async function executeRerun(rerunId: string): Promise<void> {
         tx,
       );
     });
+    traceStep(`rerun ${rerunId}`, "failure stored", since);
     return;
   }
-  const { json, sha256: hash } = outcome;
+  // the compute thread wrote the result file (result-files.ts); the row records its hash
+  const { sha256: hash, subjectIds } = outcome;
   const doc = {
     engineVersion: outcome.engineVersion,
     checks: outcome.checks,
@@ -106,12 +116,12 @@ export async function executeRerun(rerunId: string): Promise<void> {
       .update(t.reruns)
       .set({
         status: "completed",
-        resultJson: json,
         resultSha256: hash,
         engineVersion: doc.engineVersion,
         finishedAt: isoNow(),
       })
       .where(eq(t.reruns.id, rerunId));
+    traceStep(`rerun ${rerunId}`, "result row written", since);
     // the reproduction check, when the plan gives published values, counts as one of the checks
     const reproduction = reproductionCheckOf(doc);
     const notReproduced = reproduction?.outcome === "finding";
@@ -120,7 +130,7 @@ export async function executeRerun(rerunId: string): Promise<void> {
       const found = doc.checks.filter((c) => c.outcome === "finding");
       // Nothing to assess: the rerun awaits sign-off as soon as it completes.
       if (found.length === 0 && !notReproduced)
-        await notifyRerunAwaitsSignOff(tx, { studyId: rerun.studyId, rerunId });
+        await notifyRerunAwaitsSignOff(tx, { studyId: rerun.studyId, rerunId, subjectIds });
       for (const c of found) {
         await tx.insert(t.findings).values({
           id: newId(),
@@ -178,6 +188,7 @@ export async function executeRerun(rerunId: string): Promise<void> {
       }
     }
   });
+  traceStep(`rerun ${rerunId}`, "result stored", since);
 }
 
 type Tx = Parameters<Parameters<typeof writeTransaction>[0]>[0];
@@ -302,12 +313,12 @@ async function refuseInvalidOptions(studyId: string, input: StartRerun): Promise
   if (options.variant === "exclude_rows") {
     const [parent] = input.parentRerunId
       ? await db
-          .select()
+          .select({ id: t.reruns.id, resultSha256: t.reruns.resultSha256 })
           .from(t.reruns)
           .where(and(eq(t.reruns.id, input.parentRerunId), eq(t.reruns.studyId, studyId)))
           .limit(1)
       : [];
-    const doc = parent ? rerunDocumentOf(parent) : null;
+    const doc = parent ? await storedRerunDocument(parent) : null;
     if (!doc)
       throw data(
         {
@@ -414,9 +425,9 @@ export async function listReruns(studyId: string): Promise<RerunListing[]> {
 }
 
 /** The sensitivity reruns started from a primary rerun, oldest first. */
-export async function sensitivityReruns(primaryId: string): Promise<Rerun[]> {
+export async function sensitivityReruns(primaryId: string): Promise<RerunRecord[]> {
   return db
-    .select()
+    .select(rerunColumns)
     .from(t.reruns)
     .where(eq(t.reruns.parentRerunId, primaryId))
     .orderBy(asc(t.reruns.createdAt));

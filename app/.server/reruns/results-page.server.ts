@@ -17,7 +17,7 @@ import type { Study } from "../studies.server";
 import { canSign, findingsOf, signaturesOf } from "./findings.server";
 import { optionsFor, plansInfluentialExclusion, sensitivityLabel } from "./planned-sensitivity";
 import { reportedContrasts, rerunView } from "./rerun-view.server";
-import { getRerun, rerunDocumentOf, sameInputReruns, sensitivityReruns } from "./reruns.server";
+import { getRerun, sameInputReruns, sensitivityReruns, storedRerunDocument } from "./reruns.server";
 import { keptWhatIfInputsOf } from "./what-if-inputs.server";
 
 export async function resultsPage(request: Request, access: StudyAccess & { study: Study }, rerunId: string) {
@@ -32,7 +32,9 @@ export async function resultsPage(request: Request, access: StudyAccess & { stud
     sameInputReruns(r.rerun),
     allowed.has("rerun.sign") ? canSign(user, r.rerun.id) : Promise.resolve(null),
   ]);
-  const childDocs = children.map((c) => ({ row: c, doc: rerunDocumentOf(c) }));
+  const childDocs = await Promise.all(
+    children.map(async (c) => ({ row: c, doc: await storedRerunDocument(c) })),
+  );
   const redact = await redactionFor(withIds, [
     { doc: r.doc, datasetVersionId: r.rerun.datasetVersionId },
     ...childDocs.map((c) => ({ doc: c.doc, datasetVersionId: c.row.datasetVersionId })),
