@@ -23,6 +23,7 @@ import { describeOptions, rerunOptionsSchema, type RerunOptions } from "./rerun-
 import { exclusionProblem } from "./what-if.server";
 import { plannedSensitivityOptions } from "./planned-sensitivity";
 import { rerunDocumentOf, rerunRows } from "./rerun-rows.server";
+import { prewarmResults } from "./results-prewarm.server";
 
 export { computeRerun, reproductionCheckOf, type RerunDocument, type RerunTable } from "./compute-rerun";
 export { getRerun, rerunDocumentOf } from "./rerun-rows.server";
@@ -101,6 +102,18 @@ export async function executeRerun(rerunId: string): Promise<void> {
     checks: outcome.checks,
     reproduction: outcome.reproduction,
   };
+  // the results page's answers are made before the rerun shows as completed, so its first reader waits for none
+  await prewarmResults(
+    {
+      id: rerunId,
+      kind: rerun.kind,
+      studyId: rerun.studyId,
+      datasetVersionId: rerun.datasetVersionId,
+      resultJson: json,
+      resultSha256: hash,
+    },
+    model,
+  );
   await writeTransaction(async (tx) => {
     await tx
       .update(t.reruns)
