@@ -4,8 +4,9 @@
  * checks can show the same figure (the leverage and deletion-residual checks both show leverage
  * against deletion residual); it is drawn once and copied into each frame.
  *
- * The worker is usually started by the page's HTML (figure-worker-start.tsx) and taken over
- * here; on a page reached without a server render, the first figure starts it. Where the browser
+ * The workers (FIGURE_WORKERS, each figure address drawn by one of them, dealt out in page order)
+ * are usually started by the page's HTML (figure-worker-start.tsx) and taken over here; on a page
+ * reached without a server render, the first figure starts them. Where the browser
  * has no OffscreenCanvas or module workers, or the worker fails, figureBitmap rejects with a
  * DrawingUnavailable error and the figure is drawn on the page as a live Vega view instead
  * (rerun-figure.tsx).
@@ -13,6 +14,7 @@
 import workerUrl from "./figure-worker.ts?worker&url";
 import {
   bitmapKey,
+  FIGURE_WORKERS,
   keptAnswer,
   type DrawAnswer,
   type DrawRequest,
@@ -81,19 +83,30 @@ function expect(key: string): Promise<FigureBitmap> {
   return pending;
 }
 
-let worker: Worker | null | undefined;
+let workers: Worker[] | null | undefined;
+/** Figure addresses in the order they were dealt out: the one at index i goes to workers[i % workers.length]. */
+let dealt: string[] = [];
 
-/** The worker the page's HTML started, taken over, or a new one; null where there can be none. */
-function drawingWorker(): Worker | null {
-  if (worker !== undefined) return worker;
-  worker = null;
+function workerFor(url: string, pool: Worker[]): Worker {
+  let index = dealt.indexOf(url);
+  if (index < 0) index = dealt.push(url) - 1;
+  return pool[index % pool.length];
+}
+
+/** The workers the page's HTML started, taken over, or new ones; null where there can be none. */
+function drawingWorkers(): Worker[] | null {
+  if (workers !== undefined) return workers;
+  workers = null;
   const early = window.plumblineFigures;
   window.plumblineFigures = undefined;
+  let pool: Worker[];
   if (early && !early.failed) {
-    worker = early.worker;
+    pool = early.workers;
+    dealt = early.figures;
     for (const key of early.sent) void expect(key).catch(() => undefined);
     for (const answer of early.answers) settle(answer);
   } else {
+    for (const w of early?.workers ?? []) w.terminate();
     if (
       typeof Worker === "undefined" ||
       typeof OffscreenCanvas === "undefined" ||
@@ -101,33 +114,38 @@ function drawingWorker(): Worker | null {
     )
       return null;
     try {
-      worker = new Worker(workerUrl, { type: "module", name: "figures" });
+      const n = Math.max(1, Math.min(FIGURE_WORKERS, navigator.hardwareConcurrency || 1));
+      pool = Array.from({ length: n }, () => new Worker(workerUrl, { type: "module", name: "figures" }));
     } catch {
       return null;
     }
   }
-  worker.onmessage = ({ data }: MessageEvent<DrawAnswer>) => settle(data);
-  worker.onerror = () => {
-    // the worker could not start, or stopped: every figure still waiting is drawn on the page
-    for (const w of waiting.values()) w.reject(new DrawingUnavailable("The figure worker stopped."));
-    waiting.clear();
-    worker?.terminate();
-    worker = null; // later figures are drawn on the page too
-  };
-  return worker;
+  for (const w of pool) {
+    w.onmessage = ({ data }: MessageEvent<DrawAnswer>) => settle(data);
+    w.onerror = () => {
+      // a worker could not start, or stopped: every figure still waiting is drawn on the page
+      for (const waiter of waiting.values())
+        waiter.reject(new DrawingUnavailable("The figure worker stopped."));
+      waiting.clear();
+      for (const other of pool) other.terminate();
+      workers = null; // later figures are drawn on the page too
+    };
+  }
+  workers = pool;
+  return workers;
 }
 
 /** The figure at `url` drawn `width` × `height` CSS px for this screen, once per address and size. */
 export function figureBitmap(url: string, width: number, height: number): Promise<FigureBitmap> {
   const scale = window.devicePixelRatio || 1;
   const key = bitmapKey(url, width, height, scale);
-  const w = drawingWorker();
+  const pool = drawingWorkers();
   const kept = bitmaps.get(key);
   if (kept) return kept;
-  if (!w) return Promise.reject(new DrawingUnavailable("This browser cannot draw figures off the page."));
+  if (!pool) return Promise.reject(new DrawingUnavailable("This browser cannot draw figures off the page."));
   const pending = expect(key);
   const request: DrawRequest = { key, url, width, height, scale };
-  w.postMessage(request);
+  workerFor(url, pool).postMessage(request);
   return pending;
 }
 
@@ -143,5 +161,5 @@ export function showBitmap(container: HTMLElement, drawn: FigureBitmap): void {
   container.replaceChildren(canvas);
 }
 
-// take over the worker the page's HTML started as soon as this module runs, so its pictures are not held in a queue
-if (typeof window !== "undefined" && window.plumblineFigures) drawingWorker();
+// take over the workers the page's HTML started as soon as this module runs, so their pictures are not held in a queue
+if (typeof window !== "undefined" && window.plumblineFigures) drawingWorkers();
