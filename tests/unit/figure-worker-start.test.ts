@@ -1,6 +1,6 @@
 /**
  * The results page's inline scripts (figure-worker-start.tsx) ask the figure worker for each
- * frame under a key they write out themselves, from the worker the figure was dealt to, because they are sent as their own source text;
+ * frame under a key they write out themselves, because they are sent as their own source text;
  * the page's scripts later wait for the same pictures under frame-spec.ts's bitmapKey. If the two
  * drifted apart, every figure would be drawn twice and the early start would be wasted without
  * any failure to see: this pins them together. Invented frames; no source other than the code.
@@ -36,7 +36,7 @@ afterEach(() => {
 });
 
 describe("the results page's early figure start", () => {
-  it("deals the figures out to the workers, prefetches each, then asks for each frame under the key the page waits for, once per address and size", () => {
+  it("prefetches every figure, then asks for each frame under the key the page waits for, once per address and size", () => {
     const frames = [
       frame("/f/influence", 900, 416),
       frame("/f/influence", 900, 416),
@@ -48,23 +48,20 @@ describe("the results page's early figure start", () => {
     vi.stubGlobal("OffscreenCanvas", class {});
     vi.stubGlobal("FontFace", class {});
     vi.stubGlobal("Worker", FakeWorker);
-    vi.stubGlobal("navigator", { hardwareConcurrency: 4 });
     vi.stubGlobal("document", {
       querySelectorAll: (sel: string) => (sel === `[${FRAME_URL_ATTRIBUTE}]` ? frames : []),
     });
 
-    startWorker("/assets/figure-worker.js", ["/f/influence", "/f/qq"], 2);
+    startWorker("/assets/figure-worker.js", ["/f/influence", "/f/qq"]);
     askForFrames(FRAME_URL_ATTRIBUTE, TARGET_ATTRIBUTE);
 
-    expect(FakeWorker.made).toHaveLength(2);
-    const [first, second] = FakeWorker.made;
-    expect(first.url).toBe("/assets/figure-worker.js");
-    expect(first.posted).toEqual([
+    expect(FakeWorker.made).toHaveLength(1);
+    const [worker] = FakeWorker.made;
+    expect(worker.url).toBe("/assets/figure-worker.js");
+    expect(worker.posted).toEqual([
       { prefetch: "/f/influence" },
-      { key: bitmapKey("/f/influence", 900, 416, 2), url: "/f/influence", width: 900, height: 416, scale: 2 },
-    ]);
-    expect(second.posted).toEqual([
       { prefetch: "/f/qq" },
+      { key: bitmapKey("/f/influence", 900, 416, 2), url: "/f/influence", width: 900, height: 416, scale: 2 },
       { key: bitmapKey("/f/qq", 900, 416, 2), url: "/f/qq", width: 900, height: 416, scale: 2 },
       { key: bitmapKey("/f/qq", 440, 416, 2), url: "/f/qq", width: 440, height: 416, scale: 2 },
     ]);
@@ -75,24 +72,12 @@ describe("the results page's early figure start", () => {
     ]);
   });
 
-  it("starts no more workers than the machine has cores", () => {
-    const win: { devicePixelRatio: number; plumblineFigures?: unknown } = { devicePixelRatio: 1 };
-    vi.stubGlobal("window", win);
-    vi.stubGlobal("OffscreenCanvas", class {});
-    vi.stubGlobal("FontFace", class {});
-    vi.stubGlobal("Worker", FakeWorker);
-    vi.stubGlobal("navigator", { hardwareConcurrency: 1 });
-    startWorker("/assets/figure-worker.js", ["/f/influence", "/f/qq"], 2);
-    expect(FakeWorker.made).toHaveLength(1);
-    expect(FakeWorker.made[0].posted).toEqual([{ prefetch: "/f/influence" }, { prefetch: "/f/qq" }]);
-  });
-
   it("starts nothing where the browser cannot draw off the page, and the page then draws its figures itself", () => {
     const win: { devicePixelRatio: number; plumblineFigures?: unknown } = { devicePixelRatio: 1 };
     vi.stubGlobal("window", win);
     vi.stubGlobal("Worker", FakeWorker);
     vi.stubGlobal("OffscreenCanvas", undefined);
-    startWorker("/assets/figure-worker.js", ["/f/qq"], 2);
+    startWorker("/assets/figure-worker.js", ["/f/qq"]);
     askForFrames(FRAME_URL_ATTRIBUTE, TARGET_ATTRIBUTE);
     expect(FakeWorker.made).toHaveLength(0);
     expect(win.plumblineFigures).toBeUndefined();

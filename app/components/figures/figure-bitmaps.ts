@@ -4,9 +4,8 @@
  * checks can show the same figure (the leverage and deletion-residual checks both show leverage
  * against deletion residual); it is drawn once and copied into each frame.
  *
- * The workers (FIGURE_WORKERS, each figure address drawn by one of them, dealt out in page order)
- * are usually started by the page's HTML (figure-worker-start.tsx) and taken over here; on a page
- * reached without a server render, the first figure starts them. Where the browser
+ * The worker is usually started by the page's HTML (figure-worker-start.tsx) and taken over
+ * here; on a page reached without a server render, the first figure starts it. Where the browser
  * has no OffscreenCanvas or module workers, or the worker fails, figureBitmap rejects with a
  * DrawingUnavailable error and the figure is drawn on the page as a live Vega view instead
  * (rerun-figure.tsx).
@@ -14,7 +13,6 @@
 import workerUrl from "./figure-worker.ts?worker&url";
 import {
   bitmapKey,
-  FIGURE_WORKERS,
   keptAnswer,
   type DrawAnswer,
   type DrawRequest,
@@ -83,30 +81,19 @@ function expect(key: string): Promise<FigureBitmap> {
   return pending;
 }
 
-let workers: Worker[] | null | undefined;
-/** Figure addresses in the order they were dealt out: the one at index i goes to workers[i % workers.length]. */
-let dealt: string[] = [];
+let worker: Worker | null | undefined;
 
-function workerFor(url: string, pool: Worker[]): Worker {
-  let index = dealt.indexOf(url);
-  if (index < 0) index = dealt.push(url) - 1;
-  return pool[index % pool.length];
-}
-
-/** The workers the page's HTML started, taken over, or new ones; null where there can be none. */
-function drawingWorkers(): Worker[] | null {
-  if (workers !== undefined) return workers;
-  workers = null;
+/** The worker the page's HTML started, taken over, or a new one; null where there can be none. */
+function drawingWorker(): Worker | null {
+  if (worker !== undefined) return worker;
+  worker = null;
   const early = window.plumblineFigures;
   window.plumblineFigures = undefined;
-  let pool: Worker[];
   if (early && !early.failed) {
-    pool = early.workers;
-    dealt = early.figures;
+    worker = early.worker;
     for (const key of early.sent) void expect(key).catch(() => undefined);
     for (const answer of early.answers) settle(answer);
   } else {
-    for (const w of early?.workers ?? []) w.terminate();
     if (
       typeof Worker === "undefined" ||
       typeof OffscreenCanvas === "undefined" ||
@@ -114,38 +101,33 @@ function drawingWorkers(): Worker[] | null {
     )
       return null;
     try {
-      const n = Math.max(1, Math.min(FIGURE_WORKERS, navigator.hardwareConcurrency || 1));
-      pool = Array.from({ length: n }, () => new Worker(workerUrl, { type: "module", name: "figures" }));
+      worker = new Worker(workerUrl, { type: "module", name: "figures" });
     } catch {
       return null;
     }
   }
-  for (const w of pool) {
-    w.onmessage = ({ data }: MessageEvent<DrawAnswer>) => settle(data);
-    w.onerror = () => {
-      // a worker could not start, or stopped: every figure still waiting is drawn on the page
-      for (const waiter of waiting.values())
-        waiter.reject(new DrawingUnavailable("The figure worker stopped."));
-      waiting.clear();
-      for (const other of pool) other.terminate();
-      workers = null; // later figures are drawn on the page too
-    };
-  }
-  workers = pool;
-  return workers;
+  worker.onmessage = ({ data }: MessageEvent<DrawAnswer>) => settle(data);
+  worker.onerror = () => {
+    // the worker could not start, or stopped: every figure still waiting is drawn on the page
+    for (const w of waiting.values()) w.reject(new DrawingUnavailable("The figure worker stopped."));
+    waiting.clear();
+    worker?.terminate();
+    worker = null; // later figures are drawn on the page too
+  };
+  return worker;
 }
 
 /** The figure at `url` drawn `width` × `height` CSS px for this screen, once per address and size. */
 export function figureBitmap(url: string, width: number, height: number): Promise<FigureBitmap> {
   const scale = window.devicePixelRatio || 1;
   const key = bitmapKey(url, width, height, scale);
-  const pool = drawingWorkers();
+  const w = drawingWorker();
   const kept = bitmaps.get(key);
   if (kept) return kept;
-  if (!pool) return Promise.reject(new DrawingUnavailable("This browser cannot draw figures off the page."));
+  if (!w) return Promise.reject(new DrawingUnavailable("This browser cannot draw figures off the page."));
   const pending = expect(key);
   const request: DrawRequest = { key, url, width, height, scale };
-  workerFor(url, pool).postMessage(request);
+  w.postMessage(request);
   return pending;
 }
 
@@ -161,5 +143,5 @@ export function showBitmap(container: HTMLElement, drawn: FigureBitmap): void {
   container.replaceChildren(canvas);
 }
 
-// take over the workers the page's HTML started as soon as this module runs, so their pictures are not held in a queue
-if (typeof window !== "undefined" && window.plumblineFigures) drawingWorkers();
+// take over the worker the page's HTML started as soon as this module runs, so its pictures are not held in a queue
+if (typeof window !== "undefined" && window.plumblineFigures) drawingWorker();

@@ -1,12 +1,10 @@
 import workerUrl from "./figure-worker.ts?worker&url";
 import { useNonce } from "../nonce";
-import { FIGURE_WORKERS, FRAME_URL_ATTRIBUTE, TARGET_ATTRIBUTE, type DrawAnswer } from "./frame-spec";
+import { FRAME_URL_ATTRIBUTE, TARGET_ATTRIBUTE, type DrawAnswer } from "./frame-spec";
 
 /** What the early start leaves for figure-bitmaps.ts, which takes the worker over. */
 export interface EarlyFigures {
-  workers: Worker[];
-  /** The figure addresses in page order: the figure at index i is fetched and drawn by workers[i % workers.length]. */
-  figures: string[];
+  worker: Worker;
   /** Keys already asked for. */
   sent: string[];
   /** Answers that came before the page's scripts took over. */
@@ -22,11 +20,10 @@ declare global {
 
 /**
  * The two inline scripts below are sent as their own source text, so they use no outside names.
- * The first runs where the results page begins: it starts the figure workers (up to `count`, no
- * more than the machine's cores), which load Vega and fetch every figure while the page's HTML
- * is still being read; the figures are dealt out to them in page order.
+ * The first runs where the results page begins: it starts the figure worker, which loads Vega
+ * and fetches every figure while the page's HTML is still being read.
  */
-export function startWorker(url: string, figures: string[], count: number): void {
+export function startWorker(url: string, figures: string[]): void {
   try {
     if (
       typeof OffscreenCanvas === "undefined" ||
@@ -34,23 +31,13 @@ export function startWorker(url: string, figures: string[], count: number): void
       typeof Worker === "undefined"
     )
       return;
-    const early: EarlyFigures = {
-      workers: [],
-      figures: figures.slice(),
-      sent: [],
-      answers: [],
-      failed: false,
+    const worker = new Worker(url, { type: "module", name: "figures" });
+    const early: EarlyFigures = { worker, sent: [], answers: [], failed: false };
+    worker.onmessage = (e: MessageEvent<DrawAnswer>) => early.answers.push(e.data);
+    worker.onerror = () => {
+      early.failed = true;
     };
-    const n = Math.max(1, Math.min(count, navigator.hardwareConcurrency || 1));
-    for (let i = 0; i < n; i++) {
-      const worker = new Worker(url, { type: "module", name: "figures" });
-      worker.onmessage = (e: MessageEvent<DrawAnswer>) => early.answers.push(e.data);
-      worker.onerror = () => {
-        early.failed = true;
-      };
-      early.workers.push(worker);
-    }
-    figures.forEach((figure, i) => early.workers[i % n].postMessage({ prefetch: figure }));
+    for (const figure of figures) worker.postMessage({ prefetch: figure });
     window.plumblineFigures = early;
   } catch {
     // the page's scripts draw the figures themselves
@@ -72,9 +59,7 @@ export function askForFrames(frameAttribute: string, targetAttribute: string): v
     const key = figure + " " + target.clientWidth + "x" + target.clientHeight + "@" + scale;
     if (early.sent.indexOf(key) >= 0) return;
     early.sent.push(key);
-    let index = early.figures.indexOf(figure);
-    if (index < 0) index = early.figures.push(figure) - 1;
-    early.workers[index % early.workers.length].postMessage({
+    early.worker.postMessage({
       key,
       url: figure,
       width: target.clientWidth,
@@ -97,7 +82,7 @@ function InlineScript({ source }: { source: string }) {
 export function FigureWorkerStart({ figures }: { figures: string[] }) {
   return (
     <InlineScript
-      source={`(${startWorker.toString()})(${JSON.stringify(workerUrl)}, ${JSON.stringify(figures)}, ${FIGURE_WORKERS});`}
+      source={`(${startWorker.toString()})(${JSON.stringify(workerUrl)}, ${JSON.stringify(figures)});`}
     />
   );
 }

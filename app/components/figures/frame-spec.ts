@@ -76,14 +76,6 @@ export function bitmapKey(url: string, width: number, height: number, scale: num
   return `${url} ${width}x${height}@${scale}`;
 }
 
-/**
- * How many figure workers a page runs (fewer on a machine with fewer cores). Measured with
- * `npm run bench:figures` on 2 cores: one worker drew the twelve figures of a 10 000-subject
- * rerun one after another while the page's main thread was mostly idle; two draw them about
- * twice as fast (DEVELOPERS.md has the numbers).
- */
-export const FIGURE_WORKERS = 2;
-
 /** Page to worker: draw the figure at `url` for a frame of this size. */
 export interface DrawRequest {
   key: string;
