@@ -9,12 +9,10 @@
 import { z } from "zod";
 import type { Route } from "./+types/study-rerun-figures";
 import { CAUTION } from "~/shared/caution";
-import { FIGURE_KEYS, figureModule } from "~/figures/registry";
+import { FIGURE_KEYS } from "~/figures/registry";
 import { FigureUnavailableError } from "~/figures/shared/source";
-import { loadLockedTable } from "~/.server/datasets/catalog.server";
-import { figureAnswer } from "~/.server/reruns/figure-answers.server";
+import { figureAnswer, figureTableOf } from "~/.server/reruns/figure-answers.server";
 import { getRerun } from "~/.server/reruns/reruns.server";
-import { rerunTable } from "~/.server/reruns/what-if.server";
 import { seesSubjects } from "~/.server/permissions.server";
 import { requireStudy } from "~/.server/study-access.server";
 import type { FigureKey } from "~/engine/checks";
@@ -41,11 +39,6 @@ export async function loader({ request, params }: Route.LoaderArgs) {
         ? `This rerun failed (${rerun.failureReason ?? "no reason recorded"}); it has no figures.`
         : "This rerun has not finished yet; its figures appear when it completes.",
     );
-  // figures that plot covariate values or arms read the rerun's rows from the locked dataset
-  const table = async () =>
-    figureModule(figure.data).needsTable
-      ? rerunTable(doc, (await loadLockedTable(rerun.datasetVersionId)).table)
-      : undefined;
   try {
     // who each point is, only for people who may see subjects (the one decision, permissions.server.ts)
     const body = await figureAnswer(
@@ -57,7 +50,8 @@ export async function loader({ request, params }: Route.LoaderArgs) {
         withSubjectIds: seesSubjects(access),
       },
       doc,
-      table,
+      // figures that plot covariate values or arms read the rerun's rows from the locked dataset
+      figureTableOf(figure.data, doc, rerun.datasetVersionId),
     );
     return new Response(body, { headers: { ...headers, "Content-Type": "application/json; charset=utf-8" } });
   } catch (e) {

@@ -205,7 +205,17 @@ export async function canSign(
   person: { id: string; signedInAt: string },
   rerunId: string,
 ): Promise<SignBlock> {
-  const [r] = await db.select().from(t.reruns).where(eq(t.reruns.id, rerunId)).limit(1);
+  // not the stored result: the results page asks this on every load, and a large one is many MB
+  const [r] = await db
+    .select({
+      signedAt: t.reruns.signedAt,
+      status: t.reruns.status,
+      kind: t.reruns.kind,
+      startedBy: t.reruns.startedBy,
+    })
+    .from(t.reruns)
+    .where(eq(t.reruns.id, rerunId))
+    .limit(1);
   if (!r) return { ok: false, reason: "There is no such rerun." };
   if (r.signedAt) return { ok: false, reason: "This rerun is already signed." };
   if (r.status !== "completed") return { ok: false, reason: "Only a completed rerun can be signed." };
