@@ -13,8 +13,9 @@ import { buildDesign, prepareData, type Design, type PreparedData, type Variable
 import {
   observationDiagnostics,
   partialResiduals,
-  robustCovariances,
   type ObservationDiagnostics,
+  type RobustCovarianceParts,
+  type RobustType,
 } from "./diagnostics";
 import { fUpper, tQuantile, tTwoSided } from "./distributions";
 import { EngineError } from "./errors";
@@ -31,7 +32,13 @@ import {
 } from "./normality";
 import { readQqShape, type QqShape } from "./qq-shape";
 import { homogeneityOfSlopes, resetTest, type HomogeneityOfSlopes } from "./specification-tests";
-import { breuschPagan, brownForsythe, type BreuschPaganTest, type FTest } from "./spread";
+import {
+  breuschPagan,
+  breuschPaganOnBasis,
+  brownForsythe,
+  type BreuschPaganTest,
+  type FTest,
+} from "./spread";
 import { ENGINE_VERSION, RESULTS_CAUTION } from "./version";
 import { predictorVarianceInflation, varianceInflation, type PredictorVifRow, type VifRow } from "./vif";
 import { toNumbers, type DataTable } from "./data";
@@ -179,6 +186,10 @@ function diagonalRoots(m: Float64Array, p: number): number[] {
   return Array.from({ length: p }, (_, j) => Math.sqrt(m[j * p + j]));
 }
 
+function roots(diagonal: Float64Array): number[] {
+  return Array.from(diagonal, (v) => Math.sqrt(v));
+}
+
 function summarizeVariable(v: Variable): VariableSummary {
   return v.kind === "continuous"
     ? { name: v.name, kind: v.kind, mean: v.mean }
@@ -232,13 +243,20 @@ export function fitLinearModel(
   }
   const fit = outcome.fit;
   const ctx: LinearFitContext = { spec, data, design, fit, weights };
-  const diag = observationDiagnostics(fit);
-  return assembleResult(ctx, diag, options);
+  // full robust matrices only where read: the coefficient table's type, and HC3 for the adjusted means
+  const covarianceType = options.covariance ?? "model";
+  const full: RobustType[] = [
+    ...(covarianceType === "model" ? [] : [covarianceType]),
+    ...(spec.treatment && covarianceType !== "HC3" ? (["HC3"] as const) : []),
+  ];
+  const diag = observationDiagnostics(fit, { robust: { full } });
+  return assembleResult(ctx, diag, diag.robust as RobustCovarianceParts, options);
 }
 
 function assembleResult(
   ctx: LinearFitContext,
   diag: ObservationDiagnostics,
+  robust: RobustCovarianceParts,
   options: FitOptions,
 ): LinearModelResult {
   const { spec, data, design, fit, weights } = ctx;
@@ -246,9 +264,8 @@ function assembleResult(
   const df = fit.dfResidual;
   const sigma2 = fit.sigma * fit.sigma;
   const modelCov = fit.unscaledCovariance.map((v) => v * sigma2);
-  const robust = robustCovariances(fit, diag.leverage);
   const covarianceType = options.covariance ?? "model";
-  const cov = covarianceType === "model" ? modelCov : robust[covarianceType];
+  const cov = covarianceType === "model" ? modelCov : (robust.full[covarianceType] as Float64Array);
   const q = tQuantile(0.975, df);
   const termOf = new Map<number, string>();
   for (const t of design.terms) for (const c of t.columns) termOf.set(c, t.label);
@@ -297,7 +314,8 @@ function assembleResult(
     shapiroWilk: shapiroWilk(scaled),
     andersonDarling: andersonDarling(scaled),
     lilliefors: lilliefors(scaled),
-    breuschPagan: breuschPagan(scaled, design.x, n, p),
+    // unweighted, the fit's Q spans the regressors: no second factorization
+    breuschPagan: weights ? breuschPagan(scaled, design.x, n, p) : breuschPaganOnBasis(scaled, fit.q, n, p),
     reset: resetTest(ctx),
   };
   const hos = homogeneityOfSlopes(ctx);
@@ -332,10 +350,16 @@ function assembleResult(
           ...(treatmentTest ? { treatment: treatmentTest } : {}),
         }
       : tests;
-  const means = adjustedMeans(ctx, cov, robust.HC3, options.meansWeighting ?? spec.means ?? "equal", {
-    set: spec.contrasts ?? "reference",
-    multiplicity: spec.multiplicity ?? "none",
-  });
+  const means = adjustedMeans(
+    ctx,
+    cov,
+    robust.full.HC3 ?? new Float64Array(p * p).fill(NaN),
+    options.meansWeighting ?? spec.means ?? "equal",
+    {
+      set: spec.contrasts ?? "reference",
+      multiplicity: spec.multiplicity ?? "none",
+    },
+  );
 
   const partial = partialResiduals(
     design.x,
@@ -376,10 +400,10 @@ function assembleResult(
     covarianceType,
     modelSE: diagonalRoots(modelCov, p),
     robustSE: {
-      HC0: diagonalRoots(robust.HC0, p),
-      HC1: diagonalRoots(robust.HC1, p),
-      HC2: diagonalRoots(robust.HC2, p),
-      HC3: diagonalRoots(robust.HC3, p),
+      HC0: roots(robust.diagonal.HC0),
+      HC1: roots(robust.diagonal.HC1),
+      HC2: roots(robust.diagonal.HC2),
+      HC3: roots(robust.diagonal.HC3),
     },
     fit: {
       sigma: fit.sigma,
