@@ -18,8 +18,11 @@ export interface ObservationDiagnostics {
   readonly cooksDistance: Float64Array;
   /** DFFITS = t √(h/(1−h)). */
   readonly dffits: Float64Array;
-  /** DFBETAS per coefficient: (R⁻¹qᵢ)ⱼ √w e/(1−h) / (σ̂₍ᵢ₎ √((X'WX)⁻¹)ⱼⱼ). */
-  readonly dfbetas: readonly Float64Array[];
+  /**
+   * DFBETAS per coefficient: (R⁻¹qᵢ)ⱼ √w e/(1−h) / (σ̂₍ᵢ₎ √((X'WX)⁻¹)ⱼⱼ). Plain arrays, as the
+   * result holds them: p·n numbers are the largest part of a result, made once, never copied.
+   */
+  readonly dfbetas: readonly number[][];
 }
 
 /** Leverages above this are treated as 1 (the point fixes its own fitted value). */
@@ -101,8 +104,8 @@ export function observationDiagnostics(
     dffits[i] = t * Math.sqrt(h[i] / oneMinusH);
     rowFactor[i] = e[i] / (oneMinusH * si);
   }
-  const dfbetas: Float64Array[] = [];
-  for (let j = 0; j < p; j++) dfbetas.push(new Float64Array(n));
+  const dfbetas: number[][] = [];
+  for (let j = 0; j < p; j++) dfbetas.push(new Array<number>(n));
   const scale = new Float64Array(p);
   for (let j = 0; j < p; j++) scale[j] = 1 / Math.sqrt(unscaledCovariance[j * p + j]);
   const robust = options.robust;
@@ -379,6 +382,45 @@ export function partialResiduals(
     const mean = sum / n;
     for (let i = 0; i < n; i++) values[i] += residuals[i] - mean;
     return values;
+  });
+}
+
+/**
+ * Partial residuals per term as `partialResiduals` computes them, with the design's columns
+ * written again by `column` (the design's storage held Q), as plain arrays for the result.
+ */
+export function partialResidualsOfColumns(
+  column: (j: number, out: Float64Array) => void,
+  n: number,
+  termColumns: readonly (readonly number[])[],
+  coefficients: Float64Array,
+  residuals: Float64Array,
+): number[][] {
+  const x = new Float64Array(n);
+  const values = new Float64Array(n);
+  return termColumns.map((cols) => {
+    let sum = 0;
+    if (cols.length === 1) {
+      const b = coefficients[cols[0]];
+      column(cols[0], x);
+      for (let i = 0; i < n; i++) {
+        const v = b * x[i];
+        values[i] = v;
+        sum += v;
+      }
+    } else {
+      values.fill(0);
+      for (const c of cols) {
+        const b = coefficients[c];
+        column(c, x);
+        for (let i = 0; i < n; i++) values[i] += b * x[i];
+      }
+      for (let i = 0; i < n; i++) sum += values[i];
+    }
+    const mean = sum / n;
+    const out = new Array<number>(n);
+    for (let i = 0; i < n; i++) out[i] = values[i] + (residuals[i] - mean);
+    return out;
   });
 }
 

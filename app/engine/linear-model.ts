@@ -9,17 +9,24 @@ import {
   type Contrast,
   type MeansWeighting,
 } from "./adjusted-means";
-import { buildDesign, prepareData, type Design, type PreparedData, type Variable } from "./design";
+import {
+  buildDesign,
+  fillDesignColumn,
+  prepareData,
+  type Design,
+  type PreparedData,
+  type Variable,
+} from "./design";
 import {
   observationDiagnostics,
-  partialResiduals,
+  partialResidualsOfColumns,
   type ObservationDiagnostics,
   type RobustCovarianceParts,
   type RobustType,
 } from "./diagnostics";
 import { fUpper, tQuantile, tTwoSided } from "./distributions";
 import { EngineError } from "./errors";
-import { leastSquares } from "./least-squares";
+import { leastSquares, type DesignColumnSource } from "./least-squares";
 import type { LinearFitContext } from "./linear-fit-context";
 import type { ContrastSet, ModelSpec } from "./model-spec";
 import type { Multiplicity } from "./multiplicity";
@@ -223,18 +230,39 @@ export function fitLinearModel(
   if (spec.link !== undefined && spec.link !== "identity") {
     throw new EngineError(`link "${spec.link}" is not available for the gaussian family; use "identity"`);
   }
-  const data = prepareData(spec, table);
+  return assembleResult(fitWithQ(spec, table, options), options);
+}
+
+/** What the steps that read Q hand on: the fit without Q, its diagnostics and the tests made from Q. */
+interface FittedWithoutQ {
+  readonly ctx: LinearFitContext;
+  readonly diag: ObservationDiagnostics;
+  readonly robust: RobustCovarianceParts;
+  readonly breuschPagan: BreuschPaganTest;
+  readonly reset: FTest;
+  readonly homogeneityOfSlopes: HomogeneityOfSlopes | null;
+}
+
+/** Stands in for the n×p storage once it is no longer read. */
+const RELEASED = new Float64Array(0);
+
+/**
+ * The fit and every step that reads its Q. The design's own storage is factored and becomes Q
+ * (the design's columns are written again from the variables wherever they are read later), and
+ * Q is let go when this returns, before the per-term columns of the result are made: at
+ * 1 000 000 × 50 each n×p array is 400 MB.
+ */
+function fitWithQ(spec: ModelSpec, table: DataTable, options: FitOptions): FittedWithoutQ {
+  const data = prepareData(spec, table, { shareColumns: true });
   const design = buildDesign(spec, data);
   checkEstimable(spec, data, design);
   const weights = options.weightsOverride ?? data.weights;
-  const outcome = leastSquares({
-    x: design.x,
-    n: design.n,
-    p: design.p,
-    y: data.response,
-    weights,
-    offset: data.offset,
-  });
+  const column = designColumnSource(design, data);
+  const outcome = leastSquares(
+    { x: design.x, n: design.n, p: design.p, y: data.response, weights, offset: data.offset },
+    undefined,
+    { overwriteDesign: true, designColumns: column },
+  );
   if (!outcome.ok) {
     const names = outcome.aliased.map((j) => `"${design.names[j]}"`).join(", ");
     throw new EngineError(
@@ -250,15 +278,37 @@ export function fitLinearModel(
     ...(spec.treatment && covarianceType !== "HC3" ? (["HC3"] as const) : []),
   ];
   const diag = observationDiagnostics(fit, { robust: { full } });
-  return assembleResult(ctx, diag, diag.robust as RobustCovarianceParts, options);
+  const { n, p } = design;
+  const scaled = fit.weightedResiduals;
+  // unweighted, the fit's Q spans the regressors: no second factorization; weighted, the
+  // regressors are the unweighted design, written again
+  const bp = weights
+    ? breuschPagan(scaled, designColumns(column, n, p), n, p)
+    : breuschPaganOnBasis(scaled, fit.q, n, p);
+  return {
+    ctx: { ...ctx, design: { ...design, x: RELEASED }, fit: { ...fit, q: RELEASED } },
+    diag,
+    robust: diag.robust as RobustCovarianceParts,
+    breuschPagan: bp,
+    reset: resetTest(ctx),
+    homogeneityOfSlopes: homogeneityOfSlopes(ctx),
+  };
 }
 
-function assembleResult(
-  ctx: LinearFitContext,
-  diag: ObservationDiagnostics,
-  robust: RobustCovarianceParts,
-  options: FitOptions,
-): LinearModelResult {
+/** Writes design column j from the variables (its factors' product), as buildDesign did. */
+function designColumnSource(design: Design, data: PreparedData): DesignColumnSource {
+  return (j, out) => fillDesignColumn(out, design.columnFactors[j], data.variables);
+}
+
+/** The whole design (column-major n×p) written again from the variables. */
+function designColumns(column: DesignColumnSource, n: number, p: number): Float64Array {
+  const x = new Float64Array(n * p);
+  for (let j = 0; j < p; j++) column(j, x.subarray(j * n, (j + 1) * n));
+  return x;
+}
+
+function assembleResult(fitted: FittedWithoutQ, options: FitOptions): LinearModelResult {
+  const { ctx, diag, robust } = fitted;
   const { spec, data, design, fit, weights } = ctx;
   const { n, p } = design;
   const df = fit.dfResidual;
@@ -314,11 +364,10 @@ function assembleResult(
     shapiroWilk: shapiroWilk(scaled),
     andersonDarling: andersonDarling(scaled),
     lilliefors: lilliefors(scaled),
-    // unweighted, the fit's Q spans the regressors: no second factorization
-    breuschPagan: weights ? breuschPagan(scaled, design.x, n, p) : breuschPaganOnBasis(scaled, fit.q, n, p),
-    reset: resetTest(ctx),
+    breuschPagan: fitted.breuschPagan,
+    reset: fitted.reset,
   };
-  const hos = homogeneityOfSlopes(ctx);
+  const hos = fitted.homogeneityOfSlopes;
   const treatment = spec.treatment ? data.variables.get(spec.treatment) : undefined;
   const treatmentTerm = spec.treatment
     ? design.terms.find((t) => t.kind !== "interaction" && t.variables[0] === spec.treatment)
@@ -361,17 +410,14 @@ function assembleResult(
     },
   );
 
-  const partial = partialResiduals(
-    design.x,
+  const partial = partialResidualsOfColumns(
+    designColumnSource(design, data),
     n,
     design.terms.map((t) => t.columns),
     fit.coefficients,
     fit.residuals,
   );
-  const partialResidualColumns = design.terms.map((t, k) => ({
-    term: t.label,
-    values: toNumbers(partial[k]),
-  }));
+  const partialResidualColumns = design.terms.map((t, k) => ({ term: t.label, values: partial[k] }));
 
   return {
     kind: "linear",
@@ -430,7 +476,7 @@ function assembleResult(
       studentizedExternal: toNumbers(diag.studentizedExternal),
       cooksDistance: toNumbers(diag.cooksDistance),
       dffits: toNumbers(diag.dffits),
-      dfbetas: diag.dfbetas.map((c) => toNumbers(c)),
+      dfbetas: [...diag.dfbetas],
       partialResiduals: partialResidualColumns,
     },
     tests: fullTests,
