@@ -30,13 +30,7 @@ import { leastSquares, type DesignColumnSource } from "./least-squares";
 import type { LinearFitContext } from "./linear-fit-context";
 import type { ContrastSet, ModelSpec } from "./model-spec";
 import type { Multiplicity } from "./multiplicity";
-import {
-  andersonDarling,
-  lilliefors,
-  shapiroWilk,
-  type AndersonDarlingTest,
-  type NormalityTest,
-} from "./normality";
+import { normalityTests, type AndersonDarlingTest, type NormalityTest } from "./normality";
 import { readQqShape, type QqShape } from "./qq-shape";
 import { homogeneityOfSlopes, resetTest, type HomogeneityOfSlopes } from "./specification-tests";
 import {
@@ -361,9 +355,7 @@ function assembleResult(fitted: FittedWithoutQ, options: FitOptions): LinearMode
 
   const scaled = fit.weightedResiduals;
   const tests: AssumptionTests = {
-    shapiroWilk: shapiroWilk(scaled),
-    andersonDarling: andersonDarling(scaled),
-    lilliefors: lilliefors(scaled),
+    ...normalityTests(scaled),
     breuschPagan: fitted.breuschPagan,
     reset: fitted.reset,
   };
