@@ -240,13 +240,8 @@ interface FittedWithoutQ {
 /** Stands in for the n×p storage once it is no longer read. */
 const RELEASED = new Float64Array(0);
 
-/**
- * The fit and every step that reads its Q. The design's own storage is factored and becomes Q
- * (the design's columns are written again from the variables wherever they are read later), and
- * Q is let go when this returns, before the per-term columns of the result are made: at
- * 1 000 000 × 50 each n×p array is 400 MB.
- */
-function fitWithQ(spec: ModelSpec, table: DataTable, options: FitOptions): FittedWithoutQ {
+/** The least-squares fit in the design's own storage (it holds Q afterwards), with what it was made from. */
+function leastSquaresFit(spec: ModelSpec, table: DataTable, options: FitOptions) {
   const data = prepareData(spec, table, { shareColumns: true });
   const design = buildDesign(spec, data);
   checkEstimable(spec, data, design);
@@ -263,7 +258,46 @@ function fitWithQ(spec: ModelSpec, table: DataTable, options: FitOptions): Fitte
       `the design's columns are aliased: ${names} cannot be estimated apart from earlier columns; a planned model must be estimable as written`,
     );
   }
-  const fit = outcome.fit;
+  return { data, design, fit: outcome.fit, weights, column };
+}
+
+/** What a remedy reads of the planned fit: the rows used, fitted values, √w·e and the weights. */
+export interface PlannedResiduals {
+  readonly n: number;
+  /** 1-based data row of each used row. */
+  readonly row: readonly number[];
+  readonly fitted: Float64Array;
+  readonly scaledResidual: Float64Array;
+  readonly weight: Float64Array | null;
+}
+
+/**
+ * The planned fit's residuals alone (the same bits as the full result's), for a remedy that
+ * refits from them: no diagnostics, tests or means are made.
+ */
+export function plannedResiduals(
+  spec: ModelSpec,
+  table: DataTable,
+  options: FitOptions = {},
+): PlannedResiduals {
+  const { data, fit, weights } = leastSquaresFit(spec, table, options);
+  return {
+    n: fit.n,
+    row: Array.from(data.used, (i) => data.rowNumbers[i]),
+    fitted: fit.fitted,
+    scaledResidual: fit.weightedResiduals,
+    weight: weights,
+  };
+}
+
+/**
+ * The fit and every step that reads its Q. The design's own storage is factored and becomes Q
+ * (the design's columns are written again from the variables wherever they are read later), and
+ * Q is let go when this returns, before the per-term columns of the result are made: at
+ * 1 000 000 × 50 each n×p array is 400 MB.
+ */
+function fitWithQ(spec: ModelSpec, table: DataTable, options: FitOptions): FittedWithoutQ {
+  const { data, design, fit, weights, column } = leastSquaresFit(spec, table, options);
   const ctx: LinearFitContext = { spec, data, design, fit, weights };
   // full robust matrices only where read: the coefficient table's type, and HC3 for the adjusted means
   const covarianceType = options.covariance ?? "model";
