@@ -436,6 +436,24 @@ function assembleResult(fitted: FittedWithoutQ, options: FitOptions): LinearMode
     },
   );
 
+  // the per-row columns as plain arrays first, the per-term ones last: the more is allocated
+  // after Q was let go, the likelier its 400 MB (at 1 000 000 × 50) are collected before the
+  // per-term columns are made
+  const columns = {
+    row: Array.from(data.used, (i) => data.rowNumbers[i]),
+    id: [...data.ids],
+    response: toNumbers(data.response),
+    weight: w ? toNumbers(w) : null,
+    fitted: toNumbers(fit.fitted),
+    residual: toNumbers(fit.residuals),
+    scaledResidual: toNumbers(scaled),
+    leverage: toNumbers(diag.leverage),
+    studentizedInternal: toNumbers(diag.studentizedInternal),
+    studentizedExternal: toNumbers(diag.studentizedExternal),
+    cooksDistance: toNumbers(diag.cooksDistance),
+    dffits: toNumbers(diag.dffits),
+  };
+  const qqShape = readQqShape(diag.studentizedInternal);
   const partial = partialResidualsOfColumns(
     designColumnSource(design, data),
     n,
@@ -489,26 +507,11 @@ function assembleResult(fitted: FittedWithoutQ, options: FitOptions): LinearMode
       logLikelihood,
       aic: -2 * logLikelihood + 2 * (p + 1),
     },
-    observations: {
-      row: Array.from(data.used, (i) => data.rowNumbers[i]),
-      id: [...data.ids],
-      response: toNumbers(data.response),
-      weight: w ? toNumbers(w) : null,
-      fitted: toNumbers(fit.fitted),
-      residual: toNumbers(fit.residuals),
-      scaledResidual: toNumbers(scaled),
-      leverage: toNumbers(diag.leverage),
-      studentizedInternal: toNumbers(diag.studentizedInternal),
-      studentizedExternal: toNumbers(diag.studentizedExternal),
-      cooksDistance: toNumbers(diag.cooksDistance),
-      dffits: toNumbers(diag.dffits),
-      dfbetas: [...diag.dfbetas],
-      partialResiduals: partialResidualColumns,
-    },
+    observations: { ...columns, dfbetas: [...diag.dfbetas], partialResiduals: partialResidualColumns },
     tests: fullTests,
     vif: varianceInflation(design, fit.unscaledCovariance),
     vifByPredictor: predictorVarianceInflation(design, fit.unscaledCovariance),
-    qqShape: readQqShape(diag.studentizedInternal),
+    qqShape,
     adjustedMeans: means ? [...means.means] : null,
     contrasts: means ? [...means.contrasts] : null,
     adjustedMeansWeighting: means ? means.weighting : null,
