@@ -8,6 +8,7 @@
  *
  *   npm run bench:engine             every case
  *   npm run bench:engine -- --quick  the 10 000-row case only
+ *   npm run bench:engine -- --rerun  the whole-rerun line only
  *
  * Cases (invented data, seeded; a three-level arm and normal covariates):
  *   n = 10 000, 200 000 and 1 000 000 with p = 25 (the arm as a factor and 22 covariates),
@@ -18,7 +19,8 @@
  * best of three up to 200 000 rows and one run above, for both. The engine also computes what R
  * is not asked for here (normality tests, robust standard errors, adjusted means, partial
  * residuals): the ratio is conservative.
- * Then one line each for a Cox model (bench-cox.ts) and a repeated-measures model (bench-mmrm.ts:
+ * Then the whole rerun of a large trial (bench-rerun-compute.ts: computeRerun at 10 000 × 10 with
+ * the plan's checks and its planned sensitivity analyses), and one line each for a Cox model (bench-cox.ts) and a repeated-measures model (bench-mmrm.ts:
  * 2 000 subjects × 6 visits, unstructured, Satterthwaite, every diagnostic, beside nlme::gls,
  * which takes minutes).
  */
@@ -30,6 +32,7 @@ import { fileURLToPath } from "node:url";
 import { fitModel, type ModelSpecInput } from "../app/engine";
 import { benchCox } from "./bench-cox";
 import { benchMmrm } from "./bench-mmrm";
+import { benchWholeRerun } from "./bench-rerun-compute";
 
 interface Case {
   readonly n: number;
@@ -194,6 +197,10 @@ function main(): void {
     process.stdout.write(JSON.stringify(timeEngine(c, Number(args[4]))) + "\n");
     return;
   }
+  if (args[0] === "--rerun") {
+    benchWholeRerun();
+    return;
+  }
   if (args[0] === "--write") {
     writeNumbers({ n: Number(args[1]), covariates: Number(args[2]), treatment: false }, args[3]);
     return;
@@ -271,6 +278,8 @@ function main(): void {
   console.log(
     "targets: engine/R at most 0.5 at n = 200 000 (p = 25, and treatment + 8 covariates); peak RSS within 1536 MiB at n = 1 000 000, p = 50",
   );
+  benchWholeRerun();
+  console.log(`load average: ${load()}`);
   benchCox(withR);
   benchMmrm(withR);
 }

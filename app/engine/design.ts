@@ -90,7 +90,14 @@ function mainTerms(spec: ModelSpec): { variable: string; categorical?: boolean; 
 export function prepareData(
   spec: ModelSpec,
   table: DataTable,
-  options: { readonly oneRowPerSubject?: boolean } = {},
+  options: {
+    readonly oneRowPerSubject?: boolean;
+    /**
+     * When every row is used, hand out a typed numeric column itself instead of a copy (the
+     * caller promises never to write into the response, weights, offset or a variable's values).
+     */
+    readonly shareColumns?: boolean;
+  } = {},
 ): PreparedData {
   const mains = mainTerms(spec);
   const seenTerms = new Set<string>();
@@ -144,8 +151,10 @@ export function prepareData(
   // single-record models (the default); the Cox model checks its own rows
   if (spec.id && (options.oneRowPerSubject ?? true)) refuseRepeatedSubjects(table, spec.id, used);
 
+  const everyRow = used.length === table.nRows;
   const readNumeric = (name: string, role: string): Float64Array => {
     const cells = table.columns[name];
+    if (cells instanceof Float64Array && everyRow && options.shareColumns) return cells;
     const out = new Float64Array(used.length);
     if (cells instanceof Float64Array) {
       for (let k = 0; k < used.length; k++) out[k] = cells[used[k]];

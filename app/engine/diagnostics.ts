@@ -18,8 +18,11 @@ export interface ObservationDiagnostics {
   readonly cooksDistance: Float64Array;
   /** DFFITS = t √(h/(1−h)). */
   readonly dffits: Float64Array;
-  /** DFBETAS per coefficient: (R⁻¹qᵢ)ⱼ √w e/(1−h) / (σ̂₍ᵢ₎ √((X'WX)⁻¹)ⱼⱼ). */
-  readonly dfbetas: readonly Float64Array[];
+  /**
+   * DFBETAS per coefficient: (R⁻¹qᵢ)ⱼ √w e/(1−h) / (σ̂₍ᵢ₎ √((X'WX)⁻¹)ⱼⱼ). Plain arrays, as the
+   * result holds them: p·n numbers are the largest part of a result, made once, never copied.
+   */
+  readonly dfbetas: readonly number[][];
 }
 
 /** Leverages above this are treated as 1 (the point fixes its own fitted value). */
@@ -50,8 +53,29 @@ export function leverages(q: Float64Array, n: number, p: number): Float64Array {
   return h;
 }
 
-/** Every observation-level diagnostic of a least-squares fit. */
-export function observationDiagnostics(fit: LeastSquaresFit): ObservationDiagnostics {
+/** The heteroscedasticity-consistent covariance types. */
+export type RobustType = "HC0" | "HC1" | "HC2" | "HC3";
+
+/** Robust covariances: every type's diagonal, and the full matrix of the types asked for. */
+export interface RobustCovarianceParts {
+  /** Diagonal of each type (length p). */
+  readonly diagonal: Readonly<Record<RobustType, Float64Array>>;
+  /** Full p×p matrices (column-major) of the types asked for. */
+  readonly full: Partial<Record<RobustType, Float64Array>>;
+}
+
+/**
+ * Every observation-level diagnostic of a least-squares fit, and with `robust` the
+ * heteroscedasticity-consistent covariances (White 1980; MacKinnon and White 1985; Long and
+ * Ervin 2000) from the same pass over Q: with U = Q R⁻ᵀ, HC = U' Ω U for ωᵢ = ẽᵢ²,
+ * ẽᵢ²·n/(n−p), ẽᵢ²/(1−hᵢ), ẽᵢ²/(1−hᵢ)², ẽ = √w e. U is what DFBETAS scales, so it is made once,
+ * a chunk of rows at a time (never as an n×p array); only the diagonals are summed for the types
+ * whose full matrix is not asked for (the standard errors read no more).
+ */
+export function observationDiagnostics(
+  fit: LeastSquaresFit,
+  options: { readonly robust?: { readonly full: readonly RobustType[] } } = {},
+): ObservationDiagnostics & { readonly robust?: RobustCovarianceParts } {
   const { n, p, q, rInverse, unscaledCovariance, sigma, dfResidual } = fit;
   const e = fit.weightedResiduals;
   const h = leverages(q, n, p);
@@ -80,15 +104,30 @@ export function observationDiagnostics(fit: LeastSquaresFit): ObservationDiagnos
     dffits[i] = t * Math.sqrt(h[i] / oneMinusH);
     rowFactor[i] = e[i] / (oneMinusH * si);
   }
-  // DFBETAS column j = (Q R⁻ᵀ)[:, j] · rowFactor / √Cⱼⱼ, with (Q R⁻ᵀ)[:, j] = Σ_{k≥j} Q[:, k] R⁻¹[j, k];
-  // rows in chunks so the chunk of Q stays in cache, four columns of Q per pass
-  const dfbetas: Float64Array[] = [];
-  for (let j = 0; j < p; j++) dfbetas.push(new Float64Array(n));
-  const CHUNK = 512;
+  const dfbetas: number[][] = [];
+  for (let j = 0; j < p; j++) dfbetas.push(new Array<number>(n));
+  const scale = new Float64Array(p);
+  for (let j = 0; j < p; j++) scale[j] = 1 / Math.sqrt(unscaledCovariance[j * p + j]);
+  const robust = options.robust;
+  // ω of HC0, HC2 and HC3 per row; HC1 is HC0 times n/(n − p)
+  const fullTypes = robust
+    ? (["HC0", "HC2", "HC3"] as const).filter(
+        (t) => robust.full.includes(t) || (t === "HC0" && robust.full.includes("HC1")),
+      )
+    : [];
+  const diag = robust ? [new Float64Array(p), new Float64Array(p), new Float64Array(p)] : [];
+  const gram = fullTypes.map(() => new Float64Array(p * p));
+  const omega = [new Float64Array(CHUNK), new Float64Array(CHUNK), new Float64Array(CHUNK)];
+  // U = Q R⁻ᵀ for a chunk of rows, column j at j·CHUNK: U[:, j] = Σ_{k≥j} Q[:, k] R⁻¹[j, k],
+  // four columns of Q per pass; the chunk of Q stays in cache while every column of U is made
+  const u = new Float64Array(p * CHUNK);
+  const weighted = new Float64Array(p * CHUNK);
   for (let r0 = 0; r0 < n; r0 += CHUNK) {
     const r1 = Math.min(n, r0 + CHUNK);
+    const len = r1 - r0;
+    u.fill(0);
     for (let j = 0; j < p; j++) {
-      const col = dfbetas[j];
+      const uo = j * CHUNK - r0;
       let k = j;
       for (; k + 3 < p; k += 4) {
         const c0 = rInverse[k * p + j];
@@ -100,16 +139,49 @@ export function observationDiagnostics(fit: LeastSquaresFit): ObservationDiagnos
         const o2 = o1 + n;
         const o3 = o2 + n;
         for (let i = r0; i < r1; i++)
-          col[i] += q[o0 + i] * c0 + q[o1 + i] * c1 + q[o2 + i] * c2 + q[o3 + i] * c3;
+          u[uo + i] += q[o0 + i] * c0 + q[o1 + i] * c1 + q[o2 + i] * c2 + q[o3 + i] * c3;
       }
       for (; k < p; k++) {
         const c = rInverse[k * p + j];
         const off = k * n;
-        for (let i = r0; i < r1; i++) col[i] += q[off + i] * c;
+        for (let i = r0; i < r1; i++) u[uo + i] += q[off + i] * c;
       }
-      const scale = 1 / Math.sqrt(unscaledCovariance[j * p + j]);
-      for (let i = r0; i < r1; i++) col[i] *= rowFactor[i] * scale;
+      // DFBETAS column j = U[:, j] · rowFactor / √Cⱼⱼ
+      const col = dfbetas[j];
+      const sj = scale[j];
+      for (let i = r0; i < r1; i++) col[i] = u[uo + i] * (rowFactor[i] * sj);
     }
+    if (!robust) continue;
+    for (let i = r0; i < r1; i++) {
+      const e2 = e[i] * e[i];
+      const m = 1 - h[i];
+      omega[0][i - r0] = e2;
+      omega[1][i - r0] = e2 / m;
+      omega[2][i - r0] = e2 / (m * m);
+    }
+    for (let j = 0; j < p; j++) {
+      const uo = j * CHUNK;
+      let d0 = 0;
+      let d2 = 0;
+      let d3 = 0;
+      for (let i = 0; i < len; i++) {
+        const v = u[uo + i] * u[uo + i];
+        d0 += v * omega[0][i];
+        d2 += v * omega[1][i];
+        d3 += v * omega[2][i];
+      }
+      diag[0][j] += d0;
+      diag[1][j] += d2;
+      diag[2][j] += d3;
+    }
+    fullTypes.forEach((type, t) => {
+      const w = omega[type === "HC0" ? 0 : type === "HC2" ? 1 : 2];
+      for (let j = 0; j < p; j++) {
+        const uo = j * CHUNK;
+        for (let i = 0; i < len; i++) weighted[uo + i] = u[uo + i] * w[i];
+      }
+      addCrossProducts(weighted, u, p, len, gram[t]);
+    });
   }
   return {
     leverage: h,
@@ -119,6 +191,80 @@ export function observationDiagnostics(fit: LeastSquaresFit): ObservationDiagnos
     cooksDistance: cook,
     dffits,
     dfbetas,
+    ...(robust ? { robust: robustParts(diag, fullTypes, gram, n, p) } : {}),
+  };
+}
+
+/** Rows per chunk of the pass that makes U = Q R⁻ᵀ (p columns of it stay in cache). */
+const CHUNK = 256;
+
+/** G[a, b] += Σᵢ A[i, a] B[i, b] for b ≥ a over a chunk (columns at a·CHUNK), four columns of B at a time. */
+function addCrossProducts(a: Float64Array, b: Float64Array, p: number, len: number, g: Float64Array): void {
+  for (let x = 0; x < p; x++) {
+    const ao = x * CHUNK;
+    let y = x;
+    for (; y + 3 < p; y += 4) {
+      const b0 = y * CHUNK;
+      const b1 = b0 + CHUNK;
+      const b2 = b1 + CHUNK;
+      const b3 = b2 + CHUNK;
+      let s0 = 0;
+      let s1 = 0;
+      let s2 = 0;
+      let s3 = 0;
+      for (let i = 0; i < len; i++) {
+        const v = a[ao + i];
+        s0 += v * b[b0 + i];
+        s1 += v * b[b1 + i];
+        s2 += v * b[b2 + i];
+        s3 += v * b[b3 + i];
+      }
+      g[y * p + x] += s0;
+      g[(y + 1) * p + x] += s1;
+      g[(y + 2) * p + x] += s2;
+      g[(y + 3) * p + x] += s3;
+    }
+    for (; y < p; y++) {
+      const bo = y * CHUNK;
+      let s = 0;
+      for (let i = 0; i < len; i++) s += a[ao + i] * b[bo + i];
+      g[y * p + x] += s;
+    }
+  }
+}
+
+/** The diagonals and asked-for full matrices (upper triangles mirrored) as RobustCovarianceParts. */
+function robustParts(
+  diag: readonly Float64Array[],
+  fullTypes: readonly ("HC0" | "HC2" | "HC3")[],
+  gram: readonly Float64Array[],
+  n: number,
+  p: number,
+): RobustCovarianceParts {
+  const full: Partial<Record<RobustType, Float64Array>> = {};
+  fullTypes.forEach((type, t) => {
+    const g = gram[t];
+    for (let a = 0; a < p; a++) for (let b = a + 1; b < p; b++) g[a * p + b] = g[b * p + a];
+    full[type] = g;
+  });
+  const hc1Factor = n / (n - p);
+  if (full.HC0) full.HC1 = full.HC0.map((v) => v * hc1Factor);
+  // a full matrix's own diagonal, so that its standard errors and the table's agree to the bit
+  const diagonalOf = (type: RobustType, fallback: Float64Array): Float64Array => {
+    const m = full[type];
+    return m ? Float64Array.from({ length: p }, (_, j) => m[j * p + j]) : fallback;
+  };
+  return {
+    diagonal: {
+      HC0: diagonalOf("HC0", diag[0]),
+      HC1: diagonalOf(
+        "HC1",
+        diag[0].map((v) => v * hc1Factor),
+      ),
+      HC2: diagonalOf("HC2", diag[1]),
+      HC3: diagonalOf("HC3", diag[2]),
+    },
+    full,
   };
 }
 
@@ -236,6 +382,45 @@ export function partialResiduals(
     const mean = sum / n;
     for (let i = 0; i < n; i++) values[i] += residuals[i] - mean;
     return values;
+  });
+}
+
+/**
+ * Partial residuals per term as `partialResiduals` computes them, with the design's columns
+ * written again by `column` (the design's storage held Q), as plain arrays for the result.
+ */
+export function partialResidualsOfColumns(
+  column: (j: number, out: Float64Array) => void,
+  n: number,
+  termColumns: readonly (readonly number[])[],
+  coefficients: Float64Array,
+  residuals: Float64Array,
+): number[][] {
+  const x = new Float64Array(n);
+  const values = new Float64Array(n);
+  return termColumns.map((cols) => {
+    let sum = 0;
+    if (cols.length === 1) {
+      const b = coefficients[cols[0]];
+      column(cols[0], x);
+      for (let i = 0; i < n; i++) {
+        const v = b * x[i];
+        values[i] = v;
+        sum += v;
+      }
+    } else {
+      values.fill(0);
+      for (const c of cols) {
+        const b = coefficients[c];
+        column(c, x);
+        for (let i = 0; i < n; i++) values[i] += b * x[i];
+      }
+      for (let i = 0; i < n; i++) sum += values[i];
+    }
+    const mean = sum / n;
+    const out = new Array<number>(n);
+    for (let i = 0; i < n; i++) out[i] = values[i] + (residuals[i] - mean);
+    return out;
   });
 }
 

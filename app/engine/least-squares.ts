@@ -4,8 +4,10 @@
  * coefficients on the residual (Björck 1996, Numerical Methods for Least Squares Problems, 2.9).
  * The n×n hat matrix is never formed and X'X is never inverted.
  *
- * With `overwriteDesign` (large-data mode) the design's own storage becomes Q: one n×p array
- * less at peak, at the cost of the refinement step.
+ * With `overwriteDesign` the design's own storage becomes Q: one n×p array less at peak. Given
+ * `designColumns`, which writes the design's columns again on demand, the refinement step and the
+ * fitted values read the columns from it (the same arithmetic, so the same bits as with the
+ * design kept); without it (large-data mode) the refinement step is left out.
  */
 import {
   applyQt,
@@ -78,6 +80,38 @@ export function multiply(x: Float64Array, n: number, p: number, b: ArrayLike<num
   return out;
 }
 
+/** Writes design column j (unweighted, length n) into `out`. */
+export type DesignColumnSource = (j: number, out: Float64Array) => void;
+
+/** X b with X's columns written by `column`, four at a time into a scratch block: the arithmetic of `multiply`. */
+export function multiplyColumns(
+  column: DesignColumnSource,
+  n: number,
+  p: number,
+  b: ArrayLike<number>,
+): Float64Array {
+  const out = new Float64Array(n);
+  const x = new Float64Array(n * Math.min(p, 4));
+  let j = 0;
+  for (; j + 3 < p; j += 4) {
+    for (let t = 0; t < 4; t++) column(j + t, x.subarray(t * n, (t + 1) * n));
+    const b0 = b[j],
+      b1 = b[j + 1],
+      b2 = b[j + 2],
+      b3 = b[j + 3];
+    const o1 = n,
+      o2 = o1 + n,
+      o3 = o2 + n;
+    for (let i = 0; i < n; i++) out[i] += x[i] * b0 + x[o1 + i] * b1 + x[o2 + i] * b2 + x[o3 + i] * b3;
+  }
+  for (; j < p; j++) {
+    column(j, x.subarray(0, n));
+    const bj = b[j];
+    for (let i = 0; i < n; i++) out[i] += x[i] * bj;
+  }
+  return out;
+}
+
 export type LeastSquaresOutcome =
   | { readonly ok: true; readonly fit: LeastSquaresFit }
   | { readonly ok: false; readonly aliased: readonly number[] };
@@ -86,10 +120,11 @@ export type LeastSquaresOutcome =
 export function leastSquares(
   input: LeastSquaresInput,
   tolerance?: number,
-  options: { overwriteDesign?: boolean } = {},
+  options: { overwriteDesign?: boolean; designColumns?: DesignColumnSource } = {},
 ): LeastSquaresOutcome {
   const { x, n, p, y } = input;
   const overwrite = options.overwriteDesign === true;
+  const regenerate = overwrite ? options.designColumns : undefined;
   const sw = input.weights ? input.weights.map(Math.sqrt) : null;
   const xw = overwrite ? x : new Float64Array(x);
   if (sw) for (let j = 0; j < p; j++) for (let i = 0; i < n; i++) xw[j * n + i] *= sw[i];
@@ -105,7 +140,7 @@ export function leastSquares(
   const q = formThinQ(f, true);
 
   let fitted: Float64Array;
-  if (overwrite) {
+  if (overwrite && !regenerate) {
     // large-data mode: √W X b = Q R b
     const rb = new Float64Array(p);
     for (let i = 0; i < p; i++) {
@@ -117,10 +152,12 @@ export function leastSquares(
     if (sw) for (let i = 0; i < n; i++) fitted[i] /= sw[i];
   } else {
     // one refinement step: b += R⁻¹ Q' (z − √W X b)
-    const delta = thinQtVector(q, n, p, weightedResidual(x, n, p, b, z, sw));
+    const times = (v: Float64Array) =>
+      regenerate ? multiplyColumns(regenerate, n, p, v) : multiply(x, n, p, v);
+    const delta = thinQtVector(q, n, p, weightedResidual(times(b), n, z, sw));
     solveUpper(r, p, delta);
     for (let j = 0; j < p; j++) b[j] += delta[j];
-    fitted = multiply(x, n, p, b);
+    fitted = times(b);
   }
   const residuals = new Float64Array(n);
   const weighted = new Float64Array(n);
@@ -156,15 +193,14 @@ export function leastSquares(
   };
 }
 
+/** z − √W (X b), written over X b. */
 function weightedResidual(
-  x: Float64Array,
+  xb: Float64Array,
   n: number,
-  p: number,
-  b: Float64Array,
   z: Float64Array,
   sw: Float64Array | null,
 ): Float64Array {
-  const out = multiply(x, n, p, b);
+  const out = xb;
   if (sw) for (let i = 0; i < n; i++) out[i] = z[i] - sw[i] * out[i];
   else for (let i = 0; i < n; i++) out[i] = z[i] - out[i];
   return out;

@@ -9,29 +9,37 @@ import {
   type Contrast,
   type MeansWeighting,
 } from "./adjusted-means";
-import { buildDesign, prepareData, type Design, type PreparedData, type Variable } from "./design";
+import {
+  buildDesign,
+  fillDesignColumn,
+  prepareData,
+  type Design,
+  type PreparedData,
+  type Variable,
+} from "./design";
 import {
   observationDiagnostics,
-  partialResiduals,
-  robustCovariances,
+  partialResidualsOfColumns,
   type ObservationDiagnostics,
+  type RobustCovarianceParts,
+  type RobustType,
 } from "./diagnostics";
 import { fUpper, tQuantile, tTwoSided } from "./distributions";
 import { EngineError } from "./errors";
-import { leastSquares } from "./least-squares";
+import { leastSquares, type DesignColumnSource } from "./least-squares";
 import type { LinearFitContext } from "./linear-fit-context";
 import type { ContrastSet, ModelSpec } from "./model-spec";
 import type { Multiplicity } from "./multiplicity";
-import {
-  andersonDarling,
-  lilliefors,
-  shapiroWilk,
-  type AndersonDarlingTest,
-  type NormalityTest,
-} from "./normality";
+import { normalityTests, type AndersonDarlingTest, type NormalityTest } from "./normality";
 import { readQqShape, type QqShape } from "./qq-shape";
 import { homogeneityOfSlopes, resetTest, type HomogeneityOfSlopes } from "./specification-tests";
-import { breuschPagan, brownForsythe, type BreuschPaganTest, type FTest } from "./spread";
+import {
+  breuschPagan,
+  breuschPaganOnBasis,
+  brownForsythe,
+  type BreuschPaganTest,
+  type FTest,
+} from "./spread";
 import { ENGINE_VERSION, RESULTS_CAUTION } from "./version";
 import { predictorVarianceInflation, varianceInflation, type PredictorVifRow, type VifRow } from "./vif";
 import { toNumbers, type DataTable } from "./data";
@@ -179,6 +187,10 @@ function diagonalRoots(m: Float64Array, p: number): number[] {
   return Array.from({ length: p }, (_, j) => Math.sqrt(m[j * p + j]));
 }
 
+function roots(diagonal: Float64Array): number[] {
+  return Array.from(diagonal, (v) => Math.sqrt(v));
+}
+
 function summarizeVariable(v: Variable): VariableSummary {
   return v.kind === "continuous"
     ? { name: v.name, kind: v.kind, mean: v.mean }
@@ -212,43 +224,126 @@ export function fitLinearModel(
   if (spec.link !== undefined && spec.link !== "identity") {
     throw new EngineError(`link "${spec.link}" is not available for the gaussian family; use "identity"`);
   }
-  const data = prepareData(spec, table);
+  return assembleResult(fitWithQ(spec, table, options), options);
+}
+
+/** What the steps that read Q hand on: the fit without Q, its diagnostics and the tests made from Q. */
+interface FittedWithoutQ {
+  readonly ctx: LinearFitContext;
+  readonly diag: ObservationDiagnostics;
+  readonly robust: RobustCovarianceParts;
+  readonly breuschPagan: BreuschPaganTest;
+  readonly reset: FTest;
+  readonly homogeneityOfSlopes: HomogeneityOfSlopes | null;
+}
+
+/** Stands in for the n×p storage once it is no longer read. */
+const RELEASED = new Float64Array(0);
+
+/** The least-squares fit in the design's own storage (it holds Q afterwards), with what it was made from. */
+function leastSquaresFit(spec: ModelSpec, table: DataTable, options: FitOptions) {
+  const data = prepareData(spec, table, { shareColumns: true });
   const design = buildDesign(spec, data);
   checkEstimable(spec, data, design);
   const weights = options.weightsOverride ?? data.weights;
-  const outcome = leastSquares({
-    x: design.x,
-    n: design.n,
-    p: design.p,
-    y: data.response,
-    weights,
-    offset: data.offset,
-  });
+  const column = designColumnSource(design, data);
+  const outcome = leastSquares(
+    { x: design.x, n: design.n, p: design.p, y: data.response, weights, offset: data.offset },
+    undefined,
+    { overwriteDesign: true, designColumns: column },
+  );
   if (!outcome.ok) {
     const names = outcome.aliased.map((j) => `"${design.names[j]}"`).join(", ");
     throw new EngineError(
       `the design's columns are aliased: ${names} cannot be estimated apart from earlier columns; a planned model must be estimable as written`,
     );
   }
-  const fit = outcome.fit;
-  const ctx: LinearFitContext = { spec, data, design, fit, weights };
-  const diag = observationDiagnostics(fit);
-  return assembleResult(ctx, diag, options);
+  return { data, design, fit: outcome.fit, weights, column };
 }
 
-function assembleResult(
-  ctx: LinearFitContext,
-  diag: ObservationDiagnostics,
-  options: FitOptions,
-): LinearModelResult {
+/** What a remedy reads of the planned fit: the rows used, fitted values, √w·e and the weights. */
+export interface PlannedResiduals {
+  readonly n: number;
+  /** 1-based data row of each used row. */
+  readonly row: readonly number[];
+  readonly fitted: Float64Array;
+  readonly scaledResidual: Float64Array;
+  readonly weight: Float64Array | null;
+}
+
+/**
+ * The planned fit's residuals alone (the same bits as the full result's), for a remedy that
+ * refits from them: no diagnostics, tests or means are made.
+ */
+export function plannedResiduals(
+  spec: ModelSpec,
+  table: DataTable,
+  options: FitOptions = {},
+): PlannedResiduals {
+  const { data, fit, weights } = leastSquaresFit(spec, table, options);
+  return {
+    n: fit.n,
+    row: Array.from(data.used, (i) => data.rowNumbers[i]),
+    fitted: fit.fitted,
+    scaledResidual: fit.weightedResiduals,
+    weight: weights,
+  };
+}
+
+/**
+ * The fit and every step that reads its Q. The design's own storage is factored and becomes Q
+ * (the design's columns are written again from the variables wherever they are read later), and
+ * Q is let go when this returns, before the per-term columns of the result are made: at
+ * 1 000 000 × 50 each n×p array is 400 MB.
+ */
+function fitWithQ(spec: ModelSpec, table: DataTable, options: FitOptions): FittedWithoutQ {
+  const { data, design, fit, weights, column } = leastSquaresFit(spec, table, options);
+  const ctx: LinearFitContext = { spec, data, design, fit, weights };
+  // full robust matrices only where read: the coefficient table's type, and HC3 for the adjusted means
+  const covarianceType = options.covariance ?? "model";
+  const full: RobustType[] = [
+    ...(covarianceType === "model" ? [] : [covarianceType]),
+    ...(spec.treatment && covarianceType !== "HC3" ? (["HC3"] as const) : []),
+  ];
+  const diag = observationDiagnostics(fit, { robust: { full } });
+  const { n, p } = design;
+  const scaled = fit.weightedResiduals;
+  // unweighted, the fit's Q spans the regressors: no second factorization; weighted, the
+  // regressors are the unweighted design, written again
+  const bp = weights
+    ? breuschPagan(scaled, designColumns(column, n, p), n, p)
+    : breuschPaganOnBasis(scaled, fit.q, n, p);
+  return {
+    ctx: { ...ctx, design: { ...design, x: RELEASED }, fit: { ...fit, q: RELEASED } },
+    diag,
+    robust: diag.robust as RobustCovarianceParts,
+    breuschPagan: bp,
+    reset: resetTest(ctx),
+    homogeneityOfSlopes: homogeneityOfSlopes(ctx),
+  };
+}
+
+/** Writes design column j from the variables (its factors' product), as buildDesign did. */
+function designColumnSource(design: Design, data: PreparedData): DesignColumnSource {
+  return (j, out) => fillDesignColumn(out, design.columnFactors[j], data.variables);
+}
+
+/** The whole design (column-major n×p) written again from the variables. */
+function designColumns(column: DesignColumnSource, n: number, p: number): Float64Array {
+  const x = new Float64Array(n * p);
+  for (let j = 0; j < p; j++) column(j, x.subarray(j * n, (j + 1) * n));
+  return x;
+}
+
+function assembleResult(fitted: FittedWithoutQ, options: FitOptions): LinearModelResult {
+  const { ctx, diag, robust } = fitted;
   const { spec, data, design, fit, weights } = ctx;
   const { n, p } = design;
   const df = fit.dfResidual;
   const sigma2 = fit.sigma * fit.sigma;
   const modelCov = fit.unscaledCovariance.map((v) => v * sigma2);
-  const robust = robustCovariances(fit, diag.leverage);
   const covarianceType = options.covariance ?? "model";
-  const cov = covarianceType === "model" ? modelCov : robust[covarianceType];
+  const cov = covarianceType === "model" ? modelCov : (robust.full[covarianceType] as Float64Array);
   const q = tQuantile(0.975, df);
   const termOf = new Map<number, string>();
   for (const t of design.terms) for (const c of t.columns) termOf.set(c, t.label);
@@ -294,13 +389,11 @@ function assembleResult(
 
   const scaled = fit.weightedResiduals;
   const tests: AssumptionTests = {
-    shapiroWilk: shapiroWilk(scaled),
-    andersonDarling: andersonDarling(scaled),
-    lilliefors: lilliefors(scaled),
-    breuschPagan: breuschPagan(scaled, design.x, n, p),
-    reset: resetTest(ctx),
+    ...normalityTests(scaled),
+    breuschPagan: fitted.breuschPagan,
+    reset: fitted.reset,
   };
-  const hos = homogeneityOfSlopes(ctx);
+  const hos = fitted.homogeneityOfSlopes;
   const treatment = spec.treatment ? data.variables.get(spec.treatment) : undefined;
   const treatmentTerm = spec.treatment
     ? design.terms.find((t) => t.kind !== "interaction" && t.variables[0] === spec.treatment)
@@ -332,22 +425,43 @@ function assembleResult(
           ...(treatmentTest ? { treatment: treatmentTest } : {}),
         }
       : tests;
-  const means = adjustedMeans(ctx, cov, robust.HC3, options.meansWeighting ?? spec.means ?? "equal", {
-    set: spec.contrasts ?? "reference",
-    multiplicity: spec.multiplicity ?? "none",
-  });
+  const means = adjustedMeans(
+    ctx,
+    cov,
+    robust.full.HC3 ?? new Float64Array(p * p).fill(NaN),
+    options.meansWeighting ?? spec.means ?? "equal",
+    {
+      set: spec.contrasts ?? "reference",
+      multiplicity: spec.multiplicity ?? "none",
+    },
+  );
 
-  const partial = partialResiduals(
-    design.x,
+  // the per-row columns as plain arrays first, the per-term ones last: the more is allocated
+  // after Q was let go, the likelier its 400 MB (at 1 000 000 × 50) are collected before the
+  // per-term columns are made
+  const columns = {
+    row: Array.from(data.used, (i) => data.rowNumbers[i]),
+    id: [...data.ids],
+    response: toNumbers(data.response),
+    weight: w ? toNumbers(w) : null,
+    fitted: toNumbers(fit.fitted),
+    residual: toNumbers(fit.residuals),
+    scaledResidual: toNumbers(scaled),
+    leverage: toNumbers(diag.leverage),
+    studentizedInternal: toNumbers(diag.studentizedInternal),
+    studentizedExternal: toNumbers(diag.studentizedExternal),
+    cooksDistance: toNumbers(diag.cooksDistance),
+    dffits: toNumbers(diag.dffits),
+  };
+  const qqShape = readQqShape(diag.studentizedInternal);
+  const partial = partialResidualsOfColumns(
+    designColumnSource(design, data),
     n,
     design.terms.map((t) => t.columns),
     fit.coefficients,
     fit.residuals,
   );
-  const partialResidualColumns = design.terms.map((t, k) => ({
-    term: t.label,
-    values: toNumbers(partial[k]),
-  }));
+  const partialResidualColumns = design.terms.map((t, k) => ({ term: t.label, values: partial[k] }));
 
   return {
     kind: "linear",
@@ -376,10 +490,10 @@ function assembleResult(
     covarianceType,
     modelSE: diagonalRoots(modelCov, p),
     robustSE: {
-      HC0: diagonalRoots(robust.HC0, p),
-      HC1: diagonalRoots(robust.HC1, p),
-      HC2: diagonalRoots(robust.HC2, p),
-      HC3: diagonalRoots(robust.HC3, p),
+      HC0: roots(robust.diagonal.HC0),
+      HC1: roots(robust.diagonal.HC1),
+      HC2: roots(robust.diagonal.HC2),
+      HC3: roots(robust.diagonal.HC3),
     },
     fit: {
       sigma: fit.sigma,
@@ -393,26 +507,11 @@ function assembleResult(
       logLikelihood,
       aic: -2 * logLikelihood + 2 * (p + 1),
     },
-    observations: {
-      row: Array.from(data.used, (i) => data.rowNumbers[i]),
-      id: [...data.ids],
-      response: toNumbers(data.response),
-      weight: w ? toNumbers(w) : null,
-      fitted: toNumbers(fit.fitted),
-      residual: toNumbers(fit.residuals),
-      scaledResidual: toNumbers(scaled),
-      leverage: toNumbers(diag.leverage),
-      studentizedInternal: toNumbers(diag.studentizedInternal),
-      studentizedExternal: toNumbers(diag.studentizedExternal),
-      cooksDistance: toNumbers(diag.cooksDistance),
-      dffits: toNumbers(diag.dffits),
-      dfbetas: diag.dfbetas.map((c) => toNumbers(c)),
-      partialResiduals: partialResidualColumns,
-    },
+    observations: { ...columns, dfbetas: [...diag.dfbetas], partialResiduals: partialResidualColumns },
     tests: fullTests,
     vif: varianceInflation(design, fit.unscaledCovariance),
     vifByPredictor: predictorVarianceInflation(design, fit.unscaledCovariance),
-    qqShape: readQqShape(diag.studentizedInternal),
+    qqShape,
     adjustedMeans: means ? [...means.means] : null,
     contrasts: means ? [...means.contrasts] : null,
     adjustedMeansWeighting: means ? means.weighting : null,

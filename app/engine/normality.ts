@@ -5,7 +5,7 @@
  * the Lilliefors correction (Lilliefors 1967; p-value by Dallal and Wilkinson 1986, and Stephens
  * 1974's modified statistic above p = 0.1).
  */
-import { normalCdf, normalQuantile, normalUpper } from "./distributions";
+import { normalQuantile, normalUpper } from "./distributions";
 
 export interface NormalityTest {
   readonly statistic: number | null;
@@ -25,6 +25,54 @@ function notComputed(reason: string): NormalityTest {
 
 function sorted(values: ArrayLike<number>): Float64Array {
   return Float64Array.from(values).sort();
+}
+
+/**
+ * The residuals sorted once for the three tests, with their mean and SD, and Φ(z) and Φ(−z) of
+ * each standardized value from one evaluation of the normal tail (normalUpper(t) for t < 0 is
+ * 1 − normalUpper(−t), so both come out with the bits two separate calls give). Anderson–Darling
+ * and Lilliefors read the same values.
+ */
+class SortedSample {
+  readonly x: Float64Array;
+  private moments?: { mean: number; sd: number };
+  private tails?: { lower: Float64Array; upper: Float64Array };
+  constructor(values: ArrayLike<number>) {
+    this.x = sorted(values);
+  }
+  get meanSd(): { mean: number; sd: number } {
+    return (this.moments ??= meanSd(this.x));
+  }
+  /** Φ(zᵢ) and Φ(−zᵢ) for zᵢ = (xᵢ − mean)/sd. */
+  get normalTails(): { lower: Float64Array; upper: Float64Array } {
+    if (this.tails) return this.tails;
+    const { mean, sd } = this.meanSd;
+    const n = this.x.length;
+    const lower = new Float64Array(n);
+    const upper = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      const z = (this.x[i] - mean) / sd;
+      const g = normalUpper(Math.abs(z));
+      lower[i] = z > 0 ? 1 - g : g;
+      upper[i] = z < 0 ? 1 - g : g;
+    }
+    return (this.tails = { lower, upper });
+  }
+}
+
+/** Shapiro–Wilk, Anderson–Darling and Lilliefors on the same residuals, sorting them once. */
+export function normalityTests(values: ArrayLike<number>): {
+  shapiroWilk: NormalityTest;
+  andersonDarling: AndersonDarlingTest;
+  lilliefors: NormalityTest;
+} {
+  let sample: SortedSample | undefined;
+  const shared = () => (sample ??= new SortedSample(values));
+  return {
+    shapiroWilk: shapiroWilkOf(values.length, shared),
+    andersonDarling: andersonDarlingOf(values.length, shared),
+    lilliefors: lillieforsOf(values.length, shared),
+  };
 }
 
 function meanSd(x: Float64Array): { mean: number; sd: number } {
@@ -54,10 +102,13 @@ const G = [-2.273, 0.459];
 
 /** Shapiro–Wilk W and p-value, AS R94, for 3 ≤ n ≤ 5000. */
 export function shapiroWilk(values: ArrayLike<number>): NormalityTest {
-  const n = values.length;
+  return shapiroWilkOf(values.length, () => new SortedSample(values));
+}
+
+function shapiroWilkOf(n: number, sample: () => SortedSample): NormalityTest {
   if (n < 3) return notComputed(`Shapiro–Wilk needs at least 3 residuals (there are ${n})`);
   if (n > 5000) return notComputed(`Shapiro–Wilk is defined for at most 5000 residuals (there are ${n})`);
-  const x = sorted(values);
+  const x = sample().x;
   const range = x[n - 1] - x[0];
   if (range < 1e-10) return notComputed("the residuals are all equal");
   const half = Math.floor(n / 2);
@@ -138,29 +189,34 @@ export function shapiroWilk(values: ArrayLike<number>): NormalityTest {
   return { statistic: w, p: normalUpper((y - mu) / sigma) };
 }
 
-/** log Φ(z), kept accurate far in the lower tail by the asymptotic series of Mills' ratio. */
-function logNormalCdf(z: number): number {
-  if (z > -30) return Math.log(normalCdf(z));
+/** log Φ(z) given Φ(z), kept accurate far in the lower tail by the asymptotic series of Mills' ratio. */
+function logNormalCdf(z: number, cdf: number): number {
+  if (z > -30) return Math.log(cdf);
   const z2 = z * z;
   return -0.5 * z2 - Math.log(-z) - 0.5 * Math.log(2 * Math.PI) + Math.log(1 - 1 / z2 + 3 / (z2 * z2));
 }
 
 /** Anderson–Darling test of normality with estimated mean and variance, n ≥ 8. */
 export function andersonDarling(values: ArrayLike<number>): AndersonDarlingTest {
-  const n = values.length;
+  return andersonDarlingOf(values.length, () => new SortedSample(values));
+}
+
+function andersonDarlingOf(n: number, sample: () => SortedSample): AndersonDarlingTest {
   if (n < 8)
     return {
       ...notComputed(`Anderson–Darling needs at least 8 residuals (there are ${n})`),
       modifiedStatistic: null,
     };
-  const x = sorted(values);
-  const { mean, sd } = meanSd(x);
+  const shared = sample();
+  const x = shared.x;
+  const { mean, sd } = shared.meanSd;
   if (!(sd > 0)) return { ...notComputed("the residuals are all equal"), modifiedStatistic: null };
+  const { lower, upper } = shared.normalTails;
   let s = 0;
   for (let i = 0; i < n; i++) {
     const zi = (x[i] - mean) / sd;
     const zj = (x[n - 1 - i] - mean) / sd;
-    s += (2 * i + 1) * (logNormalCdf(zi) + logNormalCdf(-zj));
+    s += (2 * i + 1) * (logNormalCdf(zi, lower[i]) + logNormalCdf(-zj, upper[n - 1 - i]));
   }
   const a2 = -n - s / n;
   const aa = a2 * (1 + 0.75 / n + 2.25 / (n * n));
@@ -175,15 +231,18 @@ export function andersonDarling(values: ArrayLike<number>): AndersonDarlingTest 
 
 /** Kolmogorov–Smirnov distance to the fitted normal with the Lilliefors p-value, n ≥ 5. */
 export function lilliefors(values: ArrayLike<number>): NormalityTest {
-  const n = values.length;
+  return lillieforsOf(values.length, () => new SortedSample(values));
+}
+
+function lillieforsOf(n: number, sample: () => SortedSample): NormalityTest {
   if (n < 5) return notComputed(`the Lilliefors test needs at least 5 residuals (there are ${n})`);
-  const x = sorted(values);
-  const { mean, sd } = meanSd(x);
-  if (!(sd > 0)) return notComputed("the residuals are all equal");
+  const shared = sample();
+  if (!(shared.meanSd.sd > 0)) return notComputed("the residuals are all equal");
+  const lower = shared.normalTails.lower;
   let dPlus = -Infinity;
   let dMinus = -Infinity;
   for (let i = 0; i < n; i++) {
-    const f = normalCdf((x[i] - mean) / sd);
+    const f = lower[i];
     dPlus = Math.max(dPlus, (i + 1) / n - f);
     dMinus = Math.max(dMinus, f - i / n);
   }

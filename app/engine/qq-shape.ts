@@ -196,15 +196,21 @@ export function readQqShape(residuals: ArrayLike<number>): QqShape {
   const kelly = n > 0 ? kellySkewness(values) : NaN;
   const moors = n > 0 ? moorsTailWeight(values) : NaN;
 
+  // Blom's positions, only in the three stretches the slopes read (a normal quantile each)
   const theoretical = new Float64Array(n);
-  for (let i = 0; i < n; i++) theoretical[i] = normalQuantile((i + 1 - 0.375) / (n + 0.25));
   const tail = Math.max(2, Math.floor(n / 10));
-  const middle = slope(
-    theoretical,
-    values,
-    Math.floor(n / 4),
-    Math.max(Math.floor(n / 4) + 2, Math.ceil((3 * n) / 4)),
-  );
+  const middleFrom = Math.floor(n / 4);
+  const middleTo = Math.max(Math.floor(n / 4) + 2, Math.ceil((3 * n) / 4));
+  const blom = (from: number, to: number) => {
+    for (let i = Math.max(0, from); i < Math.min(n, to); i++)
+      theoretical[i] = normalQuantile((i + 1 - 0.375) / (n + 0.25));
+  };
+  if (n >= 8) {
+    blom(0, tail);
+    blom(n - tail, n);
+  }
+  blom(middleFrom, middleTo);
+  const middle = slope(theoretical, values, middleFrom, middleTo);
   const lowerTailRatio = n >= 8 ? slope(theoretical, values, 0, tail) / middle : NaN;
   const upperTailRatio = n >= 8 ? slope(theoretical, values, n - tail, n) / middle : NaN;
 

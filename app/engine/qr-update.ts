@@ -68,6 +68,19 @@ export interface ReducedColumns {
   readonly residuals: Float64Array;
 }
 
+/** The planned fit's residuals, kept exactly orthogonal to Q as well: made once per fit (RESET and the slopes share them; never written). */
+const orthogonalResiduals = new WeakMap<LeastSquaresFit, Float64Array>();
+
+function residualsOrthogonalToQ(fit: LeastSquaresFit): Float64Array {
+  let e = orthogonalResiduals.get(fit);
+  if (!e) {
+    e = new Float64Array(fit.weightedResiduals);
+    projectOut(fit.q, fit.n, fit.p, e, [0]);
+    orthogonalResiduals.set(fit, e);
+  }
+  return e;
+}
+
 /** Weights and reduces the k columns of `z` (column-major n×k, unweighted; overwritten) against the fit. */
 export function reduceColumns(fit: LeastSquaresFit, z: Float64Array, k: number): ReducedColumns {
   const { n, p, q } = fit;
@@ -84,10 +97,7 @@ export function reduceColumns(fit: LeastSquaresFit, z: Float64Array, k: number):
   // them measurably off orthogonal (the criterion of Daniel, Gragg, Kaufman and Stewart 1976)
   const again = every.filter((c) => columnNorm(work, n, c * n, 0) < Math.SQRT1_2 * norms[c]);
   if (again.length > 0) projectOut(q, n, p, work, again);
-  // the planned fit's residuals, kept exactly orthogonal to Q as well
-  const e = new Float64Array(fit.weightedResiduals);
-  projectOut(q, n, p, e, [0]);
-  return { n, p, z: work, k, norms, residuals: e };
+  return { n, p, z: work, k, norms, residuals: residualsOrthogonalToQ(fit) };
 }
 
 /**

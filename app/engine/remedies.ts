@@ -7,7 +7,13 @@
  */
 import { cellText, toDataTable, type DataTable, type TableInput } from "./data";
 import { EngineError } from "./errors";
-import { fitLinearModel, type CovarianceType, type FitOptions, type LinearModelResult } from "./linear-model";
+import {
+  fitLinearModel,
+  plannedResiduals,
+  type CovarianceType,
+  type FitOptions,
+  type LinearModelResult,
+} from "./linear-model";
 import { parseModelSpec, type ModelSpec, type ModelSpecInput } from "./model-spec";
 
 function inputs(
@@ -46,10 +52,10 @@ export function fitWithEstimatedVariance(
   options: FitOptions = {},
 ): LinearModelResult {
   const { spec, table } = inputs(specInput, tableInput);
-  const planned = fitLinearModel(spec, table, options);
-  const obs = planned.observations;
-  const n = planned.n;
-  const e2 = obs.scaledResidual.map((e) => e * e);
+  // the planned fit's residuals only: its diagnostics and tests are not read here
+  const obs = plannedResiduals(spec, table, options);
+  const n = obs.n;
+  const e2 = Array.from(obs.scaledResidual, (e) => e * e);
   const meanE2 = e2.reduce((s, v) => s + v, 0) / n;
   const variance = new Float64Array(n);
   let description: string;

@@ -5,6 +5,7 @@
  */
 import { chiSquareUpper, fUpper } from "./distributions";
 import { residualSumOfSquares } from "./least-squares";
+import { thinQtVector } from "./qr";
 
 export interface BreuschPaganTest {
   readonly statistic: number | null;
@@ -31,6 +32,38 @@ export function breuschPagan(
   n: number,
   k: number,
 ): BreuschPaganTest {
+  return koenker(residuals, n, k, (u, total) => {
+    const { rss, rank } = residualSumOfSquares({ x: z, n, p: k, y: u });
+    return { explained: total - rss, rank };
+  });
+}
+
+/**
+ * The same statistic when an orthonormal basis of the regressors' column space is at hand (the
+ * thin Q of an unweighted fit's design, n×rank column-major): the explained sum of squares is
+ * ‖Q'u‖², so no second factorization of the design is made.
+ */
+export function breuschPaganOnBasis(
+  residuals: ArrayLike<number>,
+  q: Float64Array,
+  n: number,
+  rank: number,
+): BreuschPaganTest {
+  return koenker(residuals, n, rank, (u) => {
+    const c = thinQtVector(q, n, rank, u);
+    let explained = 0;
+    for (let j = 0; j < rank; j++) explained += c[j] * c[j];
+    return { explained, rank };
+  });
+}
+
+function koenker(
+  residuals: ArrayLike<number>,
+  n: number,
+  k: number,
+  /** The explained sum of squares of the regression of the centred u on the regressors, and their rank. */
+  regress: (u: Float64Array, total: number) => { explained: number; rank: number },
+): BreuschPaganTest {
   if (k < 2) {
     return { statistic: null, df: null, p: null, reason: "the model has no regressor besides the intercept" };
   }
@@ -48,14 +81,15 @@ export function breuschPagan(
   }
   if (!(total > 0))
     return { statistic: null, df: null, p: null, reason: "the squared residuals do not vary" };
-  const { rss, rank } = residualSumOfSquares({ x: z, n, p: k, y: u });
-  const statistic = (n * (total - rss)) / total;
+  const { explained, rank } = regress(u, total);
+  const statistic = (n * explained) / total;
   const df = rank - 1;
   return { statistic, df, p: chiSquareUpper(statistic, df) };
 }
 
 function median(values: number[]): number {
-  const s = [...values].sort((a, b) => a - b);
+  // a typed copy sorts numerically without a comparator call per pair (same order for numbers)
+  const s = Float64Array.from(values).sort();
   const m = s.length >> 1;
   return s.length % 2 === 1 ? s[m] : (s[m - 1] + s[m]) / 2;
 }
