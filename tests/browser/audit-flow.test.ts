@@ -109,7 +109,8 @@ describe("from plan to signature", { timeout: 90_000 }, () => {
     const page = await as("Tomas Berg");
     await page.goto(planUrl);
     await page.getByRole("button", { name: "Approve version 1" }).click();
-    await page.getByText("Approved", { exact: true }).first().waitFor();
+    // the approval row reads "not yet" until the approval is recorded
+    await expect.poll(() => page.getByTestId("plan-approval").innerText()).not.toBe("not yet");
     await screenshot(page, "plan-approved");
     await page.context().close();
   });

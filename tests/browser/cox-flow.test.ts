@@ -162,7 +162,8 @@ describe("a stratified Cox model from plan to appendix", () => {
     const page = await as("Tomas Berg");
     await page.goto(planUrl);
     await page.getByRole("button", { name: /Approve version/ }).click();
-    await page.getByText("Approved", { exact: true }).first().waitFor();
+    // the approval row reads "not yet" until the approval is recorded
+    await expect.poll(() => page.getByTestId("plan-approval").innerText()).not.toBe("not yet");
     await page.context().close();
   });
 

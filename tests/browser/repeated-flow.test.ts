@@ -25,7 +25,7 @@ process.env.MIGRATIONS_DIR = path.resolve("drizzle");
 const STUDY = "MMR-301";
 
 /** R's nlme::gls (REML, corSymm + varIdent) and emmeans contrasts on the same file: tests/reference/repeated/generate-demo.R. */
-const R = JSON.parse(readFileSync("tests/reference/repeated/values/demo-advisits.json", "utf8")) as {
+const R = JSON.parse(readFileSync("tests/reference/repeated/values-demo/advisits.json", "utf8")) as {
   contrasts: { label: string; visit: string; estimate: number; se: number; lower: number; upper: number }[];
 };
 const minus = (s: string) => s.replace(/^-/, "−");
@@ -157,7 +157,8 @@ describe("a mixed model for repeated measures from plan to appendix", () => {
     const second = await as("Tomas Berg");
     await second.goto(planUrl);
     await second.getByRole("button", { name: /Approve version/ }).click();
-    await second.getByText("Approved", { exact: true }).first().waitFor();
+    // the approval row reads "not yet" until the approval is recorded
+    await expect.poll(() => second.getByTestId("plan-approval").innerText()).not.toBe("not yet");
     await second.context().close();
   }, 120_000);
 

@@ -213,7 +213,8 @@ describe("a long dataset's primary analysis as the SAP states it", () => {
     const page = await as("Tomas Berg");
     await page.goto(planUrl);
     await page.getByRole("button", { name: /Approve version/ }).click();
-    await page.getByText("Approved", { exact: true }).first().waitFor();
+    // the approval row reads "not yet" until the approval is recorded
+    await expect.poll(() => page.getByTestId("plan-approval").innerText()).not.toBe("not yet");
     await page.context().close();
   });
 

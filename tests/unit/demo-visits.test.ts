@@ -71,7 +71,7 @@ describe("the demo's visit-level dataset", () => {
     )!;
     expect(high.upper).toBeLessThan(0);
     // R nlme::gls (REML, corSymm + varIdent) with emmeans contrasts: tests/reference/repeated/generate-demo.R
-    const r = JSON.parse(readFileSync("tests/reference/repeated/values/demo-advisits.json", "utf8")) as {
+    const r = JSON.parse(readFileSync("tests/reference/repeated/values-demo/advisits.json", "utf8")) as {
       logLik: number;
       subjects: number;
       contrasts: { label: string; visit: string; estimate: number; se: number }[];

@@ -3,7 +3,7 @@
 #
 # Run from the repository root:  Rscript tests/reference/repeated/generate-demo.R
 # Reads data/demo-advisits.csv (the demo's advisits.csv, kept equal to the generator's bytes by
-# tests/unit/demo-visits.test.ts) and writes values/demo-advisits.json: the treatment contrasts
+# tests/unit/demo-visits.test.ts) and writes values-demo/advisits.json: the treatment contrasts
 # at each visit of chg ~ arm * avisit + base * avisit + stratum in the full analysis set, with an
 # unstructured covariance of the visits within a subject (corSymm + varIdent by visit), REML;
 # intervals unadjusted for multiplicity (emmeans adjusts treatment-vs-control intervals by default).
@@ -35,5 +35,5 @@ out <- list(
     estimate = ct$estimate[i], se = ct$SE[i], lower = ct$lower.CL[i], upper = ct$upper.CL[i]
   ))
 )
-dir.create(file.path(root, "values"), showWarnings = FALSE)
-writeLines(toJSON(out, auto_unbox = TRUE, digits = NA, pretty = TRUE), file.path(root, "values", "demo-advisits.json"))
+dir.create(file.path(root, "values-demo"), showWarnings = FALSE)
+writeLines(toJSON(out, auto_unbox = TRUE, digits = NA, pretty = TRUE), file.path(root, "values-demo", "advisits.json"))
