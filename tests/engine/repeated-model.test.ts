@@ -275,3 +275,38 @@ describe("determinism and visit order", () => {
     );
   });
 });
+
+describe("multiplicity of the contrasts by visit", () => {
+  // Holm (1979) and Bonferroni written out by hand for the comparisons at one visit: sort the m
+  // p-values, multiply the k-th smallest by m − k + 1, carry the running maximum, cap at 1
+  const holm = (p: number[]): number[] => {
+    const order = p.map((_, i) => i).sort((a, b) => p[a] - p[b]);
+    const out = new Array<number>(p.length);
+    let running = 0;
+    order.forEach((i, k) => {
+      running = Math.max(running, Math.min(1, (p.length - k) * p[i]));
+      out[i] = running;
+    });
+    return out;
+  };
+
+  it("adjusts the planned set within each visit, and leaves the other set unadjusted", () => {
+    const reference = fitRepeatedModel({ ...model("trial-unstructured-reml"), multiplicity: "holm" }, trial);
+    const am = reference.adjustedMeans!;
+    for (const visit of new Set(am.contrasts.map((c) => c.visit))) {
+      const at = am.contrasts.filter((c) => c.visit === visit);
+      expect(at.length).toBe(2);
+      const expected = holm(at.map((c) => c.p));
+      at.forEach((c, k) => expect(c.pAdjusted, `${c.label} at ${visit}`).toBeCloseTo(expected[k], 14));
+    }
+    expect(am.pairwise.every((c) => c.pAdjusted === undefined)).toBe(true);
+
+    const pairwise = fitRepeatedModel(
+      { ...model("trial-unstructured-reml"), contrasts: "pairwise", multiplicity: "bonferroni" },
+      trial,
+    ).adjustedMeans!;
+    // every pair of the three arms at a visit: the two against the reference and the one between the doses
+    for (const c of [...pairwise.contrasts, ...pairwise.pairwise])
+      expect(c.pAdjusted, `${c.label} at ${c.visit}`).toBeCloseTo(Math.min(1, 3 * c.p), 14);
+  });
+});

@@ -124,6 +124,26 @@ describe("the repeated-measures results view", () => {
   });
 });
 
+describe("a plan with every pair of arms and a multiplicity method", () => {
+  it("shows every pair at each visit with p adjusted within the visit, beside the unadjusted", () => {
+    const pairwise = mmrmDocument({ spec: { ...MMRM_MODEL, contrasts: "pairwise", multiplicity: "holm" } });
+    const view = rerunView(pairwise, redaction(true, [pairwise]));
+    if (view.kind !== "repeated") throw new Error("expected a repeated-measures view");
+    const visits = [...new Set(view.visitContrasts.map((c) => c.visit))];
+    for (const visit of visits) {
+      const at = view.visitContrasts.filter((c) => c.visit === visit);
+      // three arms: two comparisons with the reference and one between the other two
+      expect(at).toHaveLength(3);
+      // Holm (1979): the smallest p times 3, then the running maximum of (3 − k) p(k)
+      const sorted = [...at].sort((a, b) => a.p - b.p);
+      expect(sorted[0].pAdjusted).toBeCloseTo(Math.min(1, 3 * sorted[0].p), 14);
+      expect(sorted[2].pAdjusted).toBeGreaterThanOrEqual(sorted[1].pAdjusted ?? 0);
+    }
+    const html = renderToStaticMarkup(createElement(ModelResults, { view, studyId: "s", rerunId: "r" }));
+    expect(html).toMatch(/p, Holm/);
+  });
+});
+
 describe("a viewer without subject-level access", () => {
   for (const role of ["sponsor_reader", "medical_writer"] as const) {
     it(`${role}: no subject id anywhere in the view, flagged subjects by rank`, () => {

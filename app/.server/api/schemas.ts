@@ -232,6 +232,9 @@ const VisitContrast = z.strictObject({
   ...DfInterval,
   statistic: Num,
   p: Num,
+  pAdjusted: Num.optional().describe(
+    "p adjusted for multiplicity by the plan's method within the contrasts at the same visit; absent when the plan names none",
+  ),
 });
 const RepeatedFTest = z
   .strictObject({

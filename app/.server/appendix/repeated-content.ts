@@ -6,6 +6,7 @@
  * subjects per visit and arm. Model-level numbers only: no subject id, no record. The words of
  * each repeated-measures figure live in its module (app/figures/repeated/). Pure.
  */
+import { plannedVisitContrasts } from "~/engine/repeated/repeated-model";
 import type { Block } from "~/shared/appendix-content";
 import { fmt, fmtCi, fmtP } from "~/shared/format";
 import type { RepeatedResult, RepeatedTest, VisitContrast } from "~/engine/repeated/repeated-model";
@@ -211,7 +212,8 @@ export function repeatedResultBlocks(
         `categorical covariates weighted ${am.weighting === "proportional" ? "in proportion to their frequencies" : "equally"}.`,
     });
     const pairwise = r.spec.contrasts === "pairwise" && am.pairwise.length > 0;
-    const contrasts: VisitContrast[] = pairwise ? am.pairwise : am.contrasts;
+    const contrasts: VisitContrast[] = plannedVisitContrasts(r);
+    const method = r.spec.multiplicity && r.spec.multiplicity !== "none" ? r.spec.multiplicity : null;
     if (contrasts.length)
       blocks.push({
         kind: "table",
@@ -226,6 +228,7 @@ export function repeatedResultBlocks(
           { label: "df", numeric: true },
           { label: "t", numeric: true },
           { label: "p", numeric: true },
+          ...(method ? [{ label: `p, ${MULTIPLICITY_NAMES[method]}`, numeric: true }] : []),
           { label: "95% CI", numeric: true },
         ],
         rows: contrasts.map((x) => [
@@ -236,13 +239,14 @@ export function repeatedResultBlocks(
           fmtDf(x.df),
           fmt(x.statistic, 2),
           fmtP(x.p),
+          ...(method ? [fmtP(x.pAdjusted)] : []),
           fmtCi(x.lower, x.upper),
         ]),
         note:
-          `Differences in adjusted means; degrees of freedom by the ${df} method. The primary visit is marked. p-values are not adjusted for multiplicity` +
-          (r.spec.multiplicity && r.spec.multiplicity !== "none"
-            ? ` (the plan's ${MULTIPLICITY_NAMES[r.spec.multiplicity]} adjustment is not applied to the contrasts by visit).`
-            : "."),
+          `Differences in adjusted means; degrees of freedom by the ${df} method. The primary visit is marked. ` +
+          (method
+            ? `p adjusted for multiplicity by the ${MULTIPLICITY_NAMES[method]} method within the comparisons at each visit, beside the unadjusted p.`
+            : "p-values are not adjusted for multiplicity."),
       });
   }
   const tests = [

@@ -8,6 +8,7 @@
  * their rows from their own route); subject ids in check texts only for people who may see
  * subject-level data (checkView, as for the other kinds).
  */
+import { plannedVisitContrasts } from "~/engine/repeated/repeated-model";
 import type { RepeatedResult, RepeatedTest } from "~/engine/repeated/repeated-model";
 import {
   COVARIANCE_STRUCTURE_DESCRIPTIONS as STRUCTURE_WORDS,
@@ -50,7 +51,7 @@ export function repeatedRerunView(doc: RerunDocument, r: RepeatedResult, redact:
   const byVisit = (a: { visit: string }, b: { visit: string }) =>
     visits.indexOf(a.visit) - visits.indexOf(b.visit);
   const figures = repeatedFigureList(r);
-  const contrasts = am ? (effect.contrastSet === "pairwise" ? am.pairwise : am.contrasts) : [];
+  const contrasts = plannedVisitContrasts(r);
   return {
     kind: "repeated" as const,
     description: redact.text(doc.description),
@@ -117,6 +118,7 @@ export function repeatedRerunView(doc: RerunDocument, r: RepeatedResult, redact:
       upper: x.upper,
       statistic: x.statistic,
       p: x.p,
+      pAdjusted: x.pAdjusted ?? null,
     })),
     primaryVisit: r.influence.primaryVisit,
     treatmentEffect: effect,

@@ -4,6 +4,7 @@
  * flagged subjects go through the viewer's redaction (redaction.server.ts): subject ids only for
  * people who may see subject-level data, ranks and counts for the others.
  */
+import { plannedVisitContrasts } from "~/engine/repeated/repeated-model";
 import { populationStepsOf } from "./rerun-population";
 import { familyWithLink } from "~/engine/family-names";
 import { fitFactsOf, fitStatisticRows } from "~/components/fit-statistics";
@@ -45,7 +46,7 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
   if (r.kind === "cox") return [];
   // a repeated-measures model reports its contrasts at the primary visit (no HC3 beside them)
   if (r.kind === "repeated") {
-    return (r.adjustedMeans?.contrasts ?? [])
+    return plannedVisitContrasts(r)
       .filter((c) => c.visit === r.influence.primaryVisit)
       .map((c) => ({
         label: `${c.label}, ${c.visit}`,
@@ -55,6 +56,7 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
         upper: c.upper,
         statistic: c.statistic,
         p: c.p,
+        ...(c.pAdjusted !== undefined ? { pAdjusted: c.pAdjusted } : {}),
         hc3: null,
         seScale: "response" as const,
       }));

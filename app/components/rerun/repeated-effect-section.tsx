@@ -51,6 +51,7 @@ function FTestTable({ view }: { view: RepeatedView }) {
 
 /** The plan's treatment contrasts at every visit, the primary visit marked. */
 function VisitContrastsTable({ view }: { view: RepeatedView }) {
+  const adjusted = view.treatmentEffect.multiplicity !== "none";
   return (
     <TableScroll label="Treatment contrasts by visit">
       <table className="data-table">
@@ -81,6 +82,11 @@ function VisitContrastsTable({ view }: { view: RepeatedView }) {
             <th scope="col" className="text-right">
               p
             </th>
+            {adjusted ? (
+              <th scope="col" className="text-right">
+                p, {MULTIPLICITY_WORDS[view.treatmentEffect.multiplicity]}
+              </th>
+            ) : null}
           </tr>
         </thead>
         <tbody>
@@ -101,6 +107,7 @@ function VisitContrastsTable({ view }: { view: RepeatedView }) {
                 <td className="num text-right whitespace-nowrap">{fmtCi(c.lower, c.upper)}</td>
                 <td className="num text-right">{fmt(c.statistic, 2)}</td>
                 <td className="num text-right">{fmtP(c.p)}</td>
+                {adjusted ? <td className="num text-right">{fmtP(c.pAdjusted)}</td> : null}
               </tr>
             );
           })}
@@ -137,7 +144,7 @@ export function RepeatedEffectSection({ view }: { view: RepeatedView }) {
         Multiplicity adjustment:{" "}
         {m === "none"
           ? "none (p-values unadjusted)"
-          : `${MULTIPLICITY_WORDS[m]} planned; the repeated-measures rerun reports unadjusted p-values, so apply it to the family the plan names`}
+          : `${MULTIPLICITY_WORDS[m]}, within the comparisons at each visit (adjusted p beside the unadjusted)`}
         .
       </p>
     </section>

@@ -80,7 +80,13 @@ export interface RepeatedView {
   arms: readonly string[];
   meansWeighting: string | null;
   visitMeans: readonly (Interval & { level: string; visit: string })[];
-  visitContrasts: readonly (Interval & { label: string; visit: string; statistic: number; p: number })[];
+  visitContrasts: readonly (Interval & {
+    label: string;
+    visit: string;
+    statistic: number;
+    p: number;
+    pAdjusted: number | null;
+  })[];
   primaryVisit: string;
   treatmentEffect: TreatmentEffectPlan;
   tests: readonly RepeatedFTest[];

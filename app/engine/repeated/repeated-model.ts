@@ -8,6 +8,7 @@
 import { toDataTable, type TableInput } from "../data";
 import { EngineError } from "../errors";
 import { chiSquareUpper, tQuantile, tTwoSided } from "../distributions";
+import { adjustPValues, type Multiplicity } from "../multiplicity";
 import type { MeansWeighting } from "../adjusted-means";
 import { ENGINE_VERSION, RESULTS_CAUTION } from "../version";
 import { cholesky } from "../survival/symmetric";
@@ -82,6 +83,11 @@ export interface VisitContrast extends VisitMean {
   readonly reference: string;
   readonly statistic: number;
   readonly p: number;
+  /**
+   * p adjusted for multiplicity by the plan's method within the family of the plan's contrasts at
+   * the same visit (absent without a method, and on the contrast set the plan did not choose).
+   */
+  readonly pAdjusted?: number;
 }
 
 export interface RepeatedTest extends FTestResult {
@@ -161,6 +167,79 @@ export interface RepeatedResult {
 
 export interface RepeatedOptions {
   readonly meansWeighting?: MeansWeighting;
+}
+
+/**
+ * Adjusted means and contrasts at each visit; the plan's multiplicity method adjusts the plan's
+ * set (against the reference, or every pair: `contrasts` with `pairwise`) within each visit.
+ */
+function visitEffects(
+  vectors: NonNullable<ReturnType<typeof visitMeanVectors>>,
+  weighting: MeansWeighting,
+  spec: RepeatedSpec,
+  interval: (l: Float64Array) => { estimate: number; se: number; df: number; lower: number; upper: number },
+  withTest: (l: Float64Array) => {
+    estimate: number;
+    se: number;
+    df: number;
+    lower: number;
+    upper: number;
+    statistic: number;
+    p: number;
+  },
+): NonNullable<RepeatedResult["adjustedMeans"]> {
+  const contrastOf = (c: (typeof vectors.contrasts)[number]): VisitContrast => ({
+    label: c.label,
+    level: c.level,
+    reference: c.reference,
+    visit: c.visit,
+    ...withTest(c.l),
+  });
+  const contrasts = vectors.contrasts.map(contrastOf);
+  const pairwise = vectors.pairwise.map(contrastOf);
+  const method = spec.multiplicity ?? "none";
+  const everyPair = spec.contrasts === "pairwise";
+  const family = adjustedByVisit(everyPair ? [...contrasts, ...pairwise] : contrasts, method);
+  return {
+    treatment: vectors.treatment,
+    weighting,
+    grid: vectors.grid,
+    means: vectors.means.map((m) => ({ level: m.arm, visit: m.visit, ...interval(m.l) })),
+    contrasts: family.slice(0, contrasts.length),
+    pairwise: everyPair ? family.slice(contrasts.length) : pairwise,
+  };
+}
+
+/** The plan's set of contrasts (against the reference arm, or every pair of arms), visit by visit in visit order. */
+export function plannedVisitContrasts(
+  r: Pick<RepeatedResult, "spec" | "adjustedMeans" | "covariance">,
+): VisitContrast[] {
+  const am = r.adjustedMeans;
+  if (!am) return [];
+  const set = r.spec.contrasts === "pairwise" ? [...am.contrasts, ...am.pairwise] : [...am.contrasts];
+  const position = new Map(r.covariance.visits.map((v, i) => [v, i]));
+  return set.sort((a, b) => (position.get(a.visit) ?? 0) - (position.get(b.visit) ?? 0));
+}
+
+/**
+ * The plan's multiplicity adjustment of the contrasts, applied within each visit: the family is
+ * the treatment comparisons at one visit (the arms against the reference, or every pair), as a
+ * SAP controls the comparisons of the arms at its primary visit (multiplicity.ts: Bonferroni,
+ * Holm 1979, Hochberg 1988).
+ */
+function adjustedByVisit(contrasts: VisitContrast[], method: Multiplicity): VisitContrast[] {
+  if (method === "none") return contrasts;
+  const out = contrasts.slice();
+  const visits = [...new Set(contrasts.map((c) => c.visit))];
+  for (const visit of visits) {
+    const at = contrasts.flatMap((c, i) => (c.visit === visit ? [i] : []));
+    const adjusted = adjustPValues(
+      at.map((i) => contrasts[i].p),
+      method,
+    );
+    at.forEach((i, k) => (out[i] = { ...contrasts[i], pAdjusted: adjusted[k] }));
+  }
+  return out;
 }
 
 function problemOf(rd: RepeatedData, method: RepeatedMethod): LikelihoodProblem {
@@ -313,28 +392,7 @@ export function fitRepeatedModel(
 
   const weighting = options.meansWeighting ?? "equal";
   const vectors = visitMeanVectors(rd, weighting);
-  const adjustedMeans = vectors
-    ? {
-        treatment: vectors.treatment,
-        weighting,
-        grid: vectors.grid,
-        means: vectors.means.map((m) => ({ level: m.arm, visit: m.visit, ...interval(m.l) })),
-        contrasts: vectors.contrasts.map((c) => ({
-          label: c.label,
-          level: c.level,
-          reference: c.reference,
-          visit: c.visit,
-          ...withTest(c.l),
-        })),
-        pairwise: vectors.pairwise.map((c) => ({
-          label: c.label,
-          level: c.level,
-          reference: c.reference,
-          visit: c.visit,
-          ...withTest(c.l),
-        })),
-      }
-    : null;
+  const adjustedMeans = vectors ? visitEffects(vectors, weighting, spec, interval, withTest) : null;
 
   const testNotes: string[] = [];
   const interactionRows = treatmentByVisitRows(rd);

@@ -47,6 +47,7 @@ export function toRepeatedCliResult(result: RepeatedResult) {
     ...interval(x),
     statistic: num(x.statistic),
     p: num(x.p),
+    ...(x.pAdjusted !== undefined ? { pAdjusted: num(x.pAdjusted) } : {}),
   });
   return {
     engineVersion: result.engineVersion,
