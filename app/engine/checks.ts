@@ -324,7 +324,8 @@ export interface CheckOutcome {
   numbers?: CheckNumbers;
 }
 
-const fmt = (x: number, digits = 3): string => {
+/** A check's number in words: fixed decimals, exponent form when very small or large, "—" when undefined. */
+export const fmt = (x: number, digits = 3): string => {
   if (!Number.isFinite(x)) return "—";
   const a = Math.abs(x);
   if (a !== 0 && (a < 0.001 || a >= 1e5)) return x.toExponential(2);
@@ -332,7 +333,27 @@ const fmt = (x: number, digits = 3): string => {
 };
 
 /** A plan's threshold number as written: 4, 2, 0.05, 2.236. */
-const kText = (k: number): string => String(Number(k.toPrecision(4)));
+export const kText = (k: number): string => String(Number(k.toPrecision(4)));
+
+/** A planned check that could not be computed on this rerun, with the reason in `summary`. */
+export function notComputed(
+  def: CheckDefinition,
+  pc: PlannedCheck,
+  threshold: string,
+  summary: string,
+): CheckOutcome {
+  return {
+    key: def.key,
+    label: def.label,
+    outcome: "not_computed",
+    statistic: "not computed",
+    threshold,
+    summary,
+    remedy: pc.remedy,
+    figure: def.figure,
+    value: null,
+  };
+}
 
 export const formatP = (p: number | null | undefined): string =>
   p === null || p === undefined || !Number.isFinite(p) ? "—" : p < 0.0001 ? "< 0.0001" : p.toFixed(4);

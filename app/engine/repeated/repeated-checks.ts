@@ -6,6 +6,9 @@
  */
 import {
   CHECK_BY_KEY,
+  fmt,
+  kText,
+  notComputed,
   distributionWords,
   pWords,
   type CheckDefinition,
@@ -19,35 +22,9 @@ import type { RepeatedResult } from "./repeated-model";
 import type { CovarianceStructureName } from "./repeated-spec";
 import { COVARIANCE_STRUCTURE_WORDS } from "./repeated-names";
 
-const fmt = (x: number, digits = 3): string => {
-  if (!Number.isFinite(x)) return "—";
-  const a = Math.abs(x);
-  if (a !== 0 && (a < 0.001 || a >= 1e5)) return x.toExponential(2);
-  return x.toFixed(digits);
-};
-const kText = (k: number): string => String(Number(k.toPrecision(4)));
 const plural = (n: number, word: string) => `${n} ${word}${n === 1 ? "" : "s"}`;
 const listWords = (xs: string[]) =>
   xs.length < 2 ? xs.join("") : `${xs.slice(0, -1).join(", ")} and ${xs.at(-1)}`;
-
-function notComputed(
-  def: CheckDefinition,
-  pc: PlannedCheck,
-  threshold: string,
-  summary: string,
-): CheckOutcome {
-  return {
-    key: def.key,
-    label: def.label,
-    outcome: "not_computed",
-    statistic: "not computed",
-    threshold,
-    summary,
-    remedy: pc.remedy,
-    figure: def.figure,
-    value: null,
-  };
-}
 
 /** The plan's structures in the order the fit tries them: the planned one, then each fallback once. */
 function plannedOrder(r: RepeatedResult): CovarianceStructureName[] {

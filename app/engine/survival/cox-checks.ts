@@ -5,6 +5,9 @@
  */
 import {
   CHECK_BY_KEY,
+  fmt,
+  kText,
+  notComputed,
   distributionWords,
   formatP,
   type CheckDefinition,
@@ -15,33 +18,7 @@ import {
 import type { CoxResult } from "./cox-model";
 import type { FunctionalFormTest } from "./functional-form";
 
-const fmt = (x: number, digits = 3): string => {
-  if (!Number.isFinite(x)) return "—";
-  const a = Math.abs(x);
-  if (a !== 0 && (a < 0.001 || a >= 1e5)) return x.toExponential(2);
-  return x.toFixed(digits);
-};
-const kText = (k: number): string => String(Number(k.toPrecision(4)));
 const pText = (p: number): string => (p < 0.0001 ? "p < 0.0001" : `p = ${p.toFixed(4)}`);
-
-function notComputed(
-  def: CheckDefinition,
-  pc: PlannedCheck,
-  threshold: string,
-  summary: string,
-): CheckOutcome {
-  return {
-    key: def.key,
-    label: def.label,
-    outcome: "not_computed",
-    statistic: "not computed",
-    threshold,
-    summary,
-    remedy: pc.remedy,
-    figure: def.figure,
-    value: null,
-  };
-}
 
 /** The coefficient indices of the treatment term. */
 function treatmentCoefficients(r: CoxResult): number[] {
