@@ -40,7 +40,7 @@ type Uniform = () => number;
  * It needs only log and sqrt; values are rounded before they are written, so last-bit
  * differences in Math.log could not change the file.
  */
-function normalSource(u: Uniform): () => number {
+export function normalSource(u: Uniform): () => number {
   let spare: number | null = null;
   return () => {
     if (spare !== null) {
@@ -95,7 +95,7 @@ function clamp(x: number, lo: number, hi: number): number {
 }
 
 /** Writes an integer count of tenths as a decimal with one place, without floating point. */
-function formatTenths(tenths: number): string {
+export function formatTenths(tenths: number): string {
   const sign = tenths < 0 ? "-" : "";
   const abs = Math.abs(tenths);
   return `${sign}${Math.floor(abs / 10)}.${abs % 10}`;
@@ -207,7 +207,7 @@ export function generateDemoDataset(seed: number = DEMO_DEFAULT_SEED): DemoDatas
 }
 
 /** Quotes a CSV field when RFC 4180 requires it (comma, quote, CR or LF). */
-function csvField(value: string): string {
+export function csvField(value: string): string {
   return /[",\r\n]/.test(value) ? `"${value.replace(/"/g, '""')}"` : value;
 }
 

@@ -12,7 +12,14 @@
  * of adeff.csv keeps its extreme week-12 value, which a subject-influence check should single out.
  */
 import { mulberry32 } from "../../engine/seeded-uniform";
-import { DEMO_DEFAULT_SEED, generateDemoDataset, type DemoDataset } from "./demo-dataset";
+import {
+  csvField,
+  DEMO_DEFAULT_SEED,
+  formatTenths,
+  generateDemoDataset,
+  normalSource,
+  type DemoDataset,
+} from "./demo-dataset";
 import { DEMO_ARMS, type DemoColumn } from "./demo-study";
 
 /** The scheduled post-baseline visits: label, week (the order column) and study day. */
@@ -55,35 +62,7 @@ export const DEMO_VISITS_DICTIONARY: readonly DemoColumn[] = [
   { name: "chg", label: "Change from baseline at the visit (aval - base)", type: "decimal", unit: "points" },
 ];
 
-/** A standard normal source (Box–Muller, polar form) on its own uniform stream. */
-function normalSource(u: () => number): () => number {
-  let spare: number | null = null;
-  return () => {
-    if (spare !== null) {
-      const z = spare;
-      spare = null;
-      return z;
-    }
-    for (;;) {
-      const x = 2 * u() - 1;
-      const y = 2 * u() - 1;
-      const s = x * x + y * y;
-      if (s > 0 && s < 1) {
-        const f = Math.sqrt((-2 * Math.log(s)) / s);
-        spare = y * f;
-        return x * f;
-      }
-    }
-  };
-}
-
 const tenthsOf = (text: string): number => Math.round(Number(text) * 10);
-
-function formatTenths(tenths: number): string {
-  const sign = tenths < 0 ? "-" : "";
-  const abs = Math.abs(tenths);
-  return `${sign}${Math.floor(abs / 10)}.${abs % 10}`;
-}
 
 /** Generates advisits.csv's rows from adeff.csv's (same seed). Pure: the same seed gives the same rows. */
 export function generateDemoVisits(seed: number = DEMO_DEFAULT_SEED): DemoDataset {
@@ -129,10 +108,6 @@ export function generateDemoVisits(seed: number = DEMO_DEFAULT_SEED): DemoDatase
     });
   }
   return { columns, rows };
-}
-
-function csvField(value: string): string {
-  return /[",\r\n]/.test(value) ? `"${value.replace(/"/g, '""')}"` : value;
 }
 
 /** advisits.csv as RFC 4180 CSV: header row, "\n" line endings, trailing newline. */

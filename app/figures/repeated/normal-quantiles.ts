@@ -138,7 +138,7 @@ export const repeatedQq = defineFigure<RepeatedQqData>({
     order.sort((a, b) => values[a] - values[b] || obs.row[a] - obs.row[b]);
     const sorted = order.map((i) => values[i]);
     const positions = ppoints(order.length);
-    // qqline: the line through the sample's and the normal's first and third quartiles (type 7 quantiles)
+    // reference line through the sample's and the normal's first and third quartiles (type 7 quantiles)
     const q1 = quantileSorted(sorted, 0.25) ?? NaN;
     const q3 = quantileSorted(sorted, 0.75) ?? NaN;
     const z1 = normalQuantile(0.25);
