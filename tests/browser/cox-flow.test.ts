@@ -12,7 +12,7 @@ import type { Browser, Page } from "playwright-core";
 import { afterAll, afterEach, beforeAll, describe, expect, inject, it } from "vitest";
 import { drawAllFigures, launchBrowser, screenshot, signInAs } from "../support/browser";
 import { COX_DATA_FILE } from "../support/cox-dataset";
-import { personId } from "../support/sessions";
+import { createStudyWithTeam } from "../support/study-team";
 
 const stack = inject("stack");
 // The study of this file (TTE-301) is made through the services on the stack's database, so its
@@ -23,30 +23,12 @@ process.env.MIGRATIONS_DIR = path.resolve("drizzle");
 const STUDY = "TTE-301";
 
 async function timeToEventStudy(): Promise<void> {
-  const { createStudy } = await import("~/.server/studies.server");
-  const { setStudyRole } = await import("~/.server/people.server");
-  const admin = {
-    id: await personId(stack, "morgan.reyes@plumbline.example"),
-    name: "Morgan Reyes",
-    organisation: null,
-  };
-  const created = await createStudy(admin, {
-    code: STUDY,
-    title: "Time-to-event endpoints",
-    sponsor: "Quillmoor Therapeutics",
-    compound: null,
-    indication: null,
-    phase: "3",
-  });
-  if (!created.ok) throw new Error(JSON.stringify(created.fieldErrors));
-  const roles = [
+  await createStudyWithTeam(stack, { code: STUDY, title: "Time-to-event endpoints" }, [
     ["dana.okafor@plumbline.example", "data_manager"],
     ["priya.lindqvist@plumbline.example", "biostatistician"],
     ["tomas.berg@plumbline.example", "biostatistician"],
     ["helen.achter@plumbline.example", "medical_writer"],
-  ] as const;
-  for (const [email, role] of roles)
-    await setStudyRole(admin, created.study.id, await personId(stack, email), role);
+  ]);
 }
 let browser: Browser;
 const dir = mkdtempSync(path.join(os.tmpdir(), "plumbline-cox-"));

@@ -11,7 +11,7 @@ import path from "node:path";
 import type { Browser, Page } from "playwright-core";
 import { afterAll, afterEach, beforeAll, describe, expect, inject, it } from "vitest";
 import { launchBrowser, screenshot, signInAs } from "../support/browser";
-import { personId } from "../support/sessions";
+import { createStudyWithTeam } from "../support/study-team";
 
 const stack = inject("stack");
 // The study of this file (MMP-301) is made through the services on the stack's database, so its
@@ -22,28 +22,10 @@ process.env.MIGRATIONS_DIR = path.resolve("drizzle");
 const STUDY = "MMP-301";
 
 async function repeatedMeasuresStudy(): Promise<void> {
-  const { createStudy } = await import("~/.server/studies.server");
-  const { setStudyRole } = await import("~/.server/people.server");
-  const admin = {
-    id: await personId(stack, "morgan.reyes@plumbline.example"),
-    name: "Morgan Reyes",
-    organisation: null,
-  };
-  const created = await createStudy(admin, {
-    code: STUDY,
-    title: "Repeated-measures endpoints",
-    sponsor: "Quillmoor Therapeutics",
-    compound: null,
-    indication: null,
-    phase: "3",
-  });
-  if (!created.ok) throw new Error(JSON.stringify(created.fieldErrors));
-  const roles = [
+  await createStudyWithTeam(stack, { code: STUDY, title: "Repeated-measures endpoints" }, [
     ["dana.okafor@plumbline.example", "data_manager"],
     ["priya.lindqvist@plumbline.example", "biostatistician"],
-  ] as const;
-  for (const [email, role] of roles)
-    await setStudyRole(admin, created.study.id, await personId(stack, email), role);
+  ]);
 }
 
 let browser: Browser;
