@@ -20,7 +20,7 @@ const ARMS = ["Placebo", "Low dose", "High dose"] as const;
 const COVARIATES = 8;
 
 /** Invented trial data, seeded (xorshift32 and Box–Muller); a few subjects far from the rest. */
-function inventedTrial(n: number): RerunTable {
+export function inventedTrial(n: number): RerunTable {
   let s = 20261205;
   const uniform = () => {
     s ^= s << 13;
@@ -44,7 +44,7 @@ function inventedTrial(n: number): RerunTable {
   return { columns, rowNumbers: Array.from({ length: n }, (_, i) => i + 1) };
 }
 
-const MODEL: StoredPlannedModel = {
+export const MODEL: StoredPlannedModel = {
   id: "bench",
   position: 0,
   key: "primary",
@@ -73,7 +73,7 @@ const MODEL: StoredPlannedModel = {
   ],
 };
 
-const META = { datasetSha256: "0".repeat(64), planVersionId: "bench" };
+export const META = { datasetSha256: "0".repeat(64), planVersionId: "bench" };
 
 /** One rerun as a compute thread does it: `computeRerun`, then the document's canonical JSON and SHA-256 (timed apart). */
 function oneRerun(

@@ -1,11 +1,44 @@
-/** JSON with object keys sorted at every depth: the same content always gives the same text. */
+/**
+ * JSON with object keys sorted at every depth: the same content always gives the same text.
+ *
+ * The text is exactly that of `JSON.stringify(value, replacer)` with a replacer answering every
+ * non-array object as `Object.fromEntries` of its entries sorted by key (stored result hashes,
+ * signatures and audit events name these bytes, so they must not change). A replacer makes
+ * `JSON.stringify` call back into JavaScript for every value, hundreds of thousands of times for
+ * a 10 000-subject rerun's per-subject arrays, and leaves its fast path; instead the value is
+ * copied first with its objects rebuilt in that same key order (arrays of plain values are kept
+ * as they are, not copied), and the copy is serialized without a replacer. Both call `toJSON`
+ * with the property's key before the object is sorted, and both put integer-like keys first in
+ * ascending order (`Object.fromEntries` builds the object either way).
+ */
 export function canonicalJson(value: unknown): string {
-  return JSON.stringify(value, (_key, v: unknown) => {
-    if (v && typeof v === "object" && !Array.isArray(v)) {
-      return Object.fromEntries(
-        Object.entries(v as Record<string, unknown>).sort(([a], [b]) => (a < b ? -1 : a > b ? 1 : 0)),
-      );
+  return JSON.stringify(sortedCopy(value, ""));
+}
+
+const byCodeUnit = (a: [string, unknown], b: [string, unknown]) => (a[0] < b[0] ? -1 : a[0] > b[0] ? 1 : 0);
+
+type WithToJson = { toJSON: (key: string) => unknown };
+
+function sortedCopy(value: unknown, key: string): unknown {
+  let v = value;
+  if (v !== null && typeof v === "object" && typeof (v as Partial<WithToJson>).toJSON === "function")
+    v = (v as WithToJson).toJSON(key);
+  if (v === null || typeof v !== "object") return v;
+  if (Array.isArray(v)) {
+    // arrays pass through unchanged unless an element is an object to rebuild
+    let copy: unknown[] | null = null;
+    for (let i = 0; i < v.length; i++) {
+      const e: unknown = v[i];
+      if (e !== null && typeof e === "object") {
+        copy ??= v.slice(0, i);
+        copy.push(sortedCopy(e, String(i)));
+      } else if (copy) {
+        copy.push(e);
+      }
     }
-    return v;
-  });
+    return copy ?? v;
+  }
+  const entries = Object.entries(v as Record<string, unknown>).sort(byCodeUnit);
+  for (const entry of entries) entry[1] = sortedCopy(entry[1], entry[0]);
+  return Object.fromEntries(entries);
 }
