@@ -38,7 +38,14 @@ function sortedCopy(value: unknown, key: string): unknown {
     }
     return copy ?? v;
   }
-  const entries = Object.entries(v as Record<string, unknown>).sort(byCodeUnit);
-  for (const entry of entries) entry[1] = sortedCopy(entry[1], entry[0]);
-  return Object.fromEntries(entries);
+  const keys = Object.keys(v).sort(); // code-unit order, as the comparator of the definition
+  if (keys.includes("__proto__")) {
+    // assignment would set the prototype: build it as the definition does
+    const entries = Object.entries(v as Record<string, unknown>).sort(byCodeUnit);
+    for (const entry of entries) entry[1] = sortedCopy(entry[1], entry[0]);
+    return Object.fromEntries(entries);
+  }
+  const out: Record<string, unknown> = {};
+  for (const k of keys) out[k] = sortedCopy((v as Record<string, unknown>)[k], k);
+  return out;
 }
