@@ -10,9 +10,10 @@
  * Results stored before lived in the row (`reruns.result_json`); `result-store.server.ts` reads
  * both and moves the old ones here. No database in this module: the compute threads import it.
  */
-import { randomBytes } from "node:crypto";
+import { createHash, randomBytes } from "node:crypto";
 import { mkdir, readdir, rename, rm, writeFile } from "node:fs/promises";
 import path from "node:path";
+import { canonicalJson } from "../canonical-json";
 
 /** The result file's path relative to DATA_DIR. */
 export function resultRelativePath(sha256: string): string {
@@ -20,11 +21,25 @@ export function resultRelativePath(sha256: string): string {
 }
 
 /**
+ * A document's stored form: the UTF-8 bytes of its canonical JSON and their SHA-256. The text is
+ * encoded once, and the hash, the file and the size read the same bytes (hashing the text and
+ * writing it encoded it twice more: about 8 ms each for a 10 000-subject result's 6 MB).
+ */
+export function encodeResult(doc: unknown): { bytes: Buffer; sha256: string } {
+  const bytes = Buffer.from(canonicalJson(doc), "utf8");
+  return { bytes, sha256: createHash("sha256").update(bytes).digest("hex") };
+}
+
+/**
  * Writes a result's bytes to its place (a work file in results/tmp/, then renamed, so a reader
  * never sees half a file). The same hash is the same bytes, so an existing file is replaced by
  * an identical one. Answers the path relative to DATA_DIR.
  */
-export async function writeResultFile(dataDir: string, sha256: string, json: string): Promise<string> {
+export async function writeResultFile(
+  dataDir: string,
+  sha256: string,
+  json: string | Uint8Array,
+): Promise<string> {
   const relative = resultRelativePath(sha256);
   const target = path.resolve(dataDir, relative);
   const tmpDir = path.resolve(dataDir, "results", "tmp");
@@ -32,7 +47,7 @@ export async function writeResultFile(dataDir: string, sha256: string, json: str
   await mkdir(path.dirname(target), { recursive: true });
   const work = path.join(tmpDir, `${process.pid}-${Date.now()}-${randomBytes(6).toString("hex")}.json`);
   try {
-    await writeFile(work, json, "utf8");
+    await writeFile(work, json);
     await rename(work, target);
   } catch (e) {
     await rm(work, { force: true }).catch(() => undefined);
