@@ -64,3 +64,19 @@ describe("canonicalJson", () => {
     }
   });
 });
+
+describe("encodeResult", () => {
+  it("stores the UTF-8 bytes of the canonical JSON and their SHA-256, ASCII or not", async () => {
+    const { createHash } = await import("node:crypto");
+    const { encodeResult } = await import("~/.server/reruns/result-files");
+    for (const doc of [
+      { b: "plain", a: [1.5, null] },
+      { b: "Zoë, 東京, \u2028", a: ["\ud83d\ude00", "lone \ud800 surrogate"] },
+    ]) {
+      const json = canonicalJson(doc);
+      const { bytes, sha256 } = encodeResult(doc);
+      expect(bytes.equals(Buffer.from(json, "utf8"))).toBe(true);
+      expect(sha256).toBe(createHash("sha256").update(json).digest("hex"));
+    }
+  });
+});

@@ -20,13 +20,18 @@ export function resultRelativePath(sha256: string): string {
   return path.join("results", sha256.slice(0, 2), `${sha256}.json`);
 }
 
+const NOT_ASCII = /[^\x00-\x7f]/;
+
 /**
  * A document's stored form: the UTF-8 bytes of its canonical JSON and their SHA-256. The text is
  * encoded once, and the hash, the file and the size read the same bytes (hashing the text and
- * writing it encoded it twice more: about 8 ms each for a 10 000-subject result's 6 MB).
+ * writing it encoded it twice more). Text that is all ASCII is the same bytes in Latin-1, which
+ * Node copies without the UTF-8 encoder's work: about 6 ms instead of 15 ms for a 10 000-subject
+ * result's 6 MB (the first read of the serializer's text joins its pieces either way).
  */
 export function encodeResult(doc: unknown): { bytes: Buffer; sha256: string } {
-  const bytes = Buffer.from(canonicalJson(doc), "utf8");
+  const json = canonicalJson(doc);
+  const bytes = NOT_ASCII.test(json) ? Buffer.from(json, "utf8") : Buffer.from(json, "latin1");
   return { bytes, sha256: createHash("sha256").update(bytes).digest("hex") };
 }
 
