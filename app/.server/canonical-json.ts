@@ -45,6 +45,22 @@ function firstObjectOtherwise(v: readonly unknown[]): number {
   return -1;
 }
 
+/** Arrays of numbers at least this long are serialized from a packed copy (see `packed`). */
+const PACK_FROM = 64;
+
+/**
+ * A copy of an array of plain values without holes in its storage. The per-subject arrays of a
+ * result are made as `new Array(n)` and filled, which V8 keeps as "holey" arrays; its serializer
+ * reads those one element at a time through the generic path, boxing every number, and a packed
+ * copy serializes about 10% faster (4–8 ms of a 10 000-subject result's 45) for well under
+ * 1 ms of copying. A hole reads as undefined, written as null either way: the same text.
+ */
+function packed(v: readonly unknown[]): unknown[] {
+  const out: unknown[] = [];
+  for (let i = 0; i < v.length; i++) out.push(v[i]);
+  return out;
+}
+
 function sortedCopy(value: unknown, key: string): unknown {
   let v = value;
   if (v !== null && typeof v === "object" && typeof (v as Partial<WithToJson>).toJSON === "function")
@@ -53,7 +69,7 @@ function sortedCopy(value: unknown, key: string): unknown {
   if (Array.isArray(v)) {
     // arrays pass through unchanged unless an element is an object to rebuild
     const first = firstObject(v);
-    if (first < 0) return v;
+    if (first < 0) return typeof v[0] === "number" && v.length >= PACK_FROM ? packed(v) : v;
     const copy = v.slice(0, first);
     for (let i = first; i < v.length; i++) {
       const e: unknown = v[i];
