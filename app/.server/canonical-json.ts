@@ -7,7 +7,8 @@
  * `JSON.stringify` call back into JavaScript for every value, hundreds of thousands of times for
  * a 10 000-subject rerun's per-subject arrays, and leaves its fast path; instead the value is
  * copied first with its objects rebuilt in that same key order (arrays of plain values are kept
- * as they are, not copied), and the copy is serialized without a replacer. Both call `toJSON`
+ * as they are, or copied packed when they hold numbers: `packed`), and the copy is serialized
+ * without a replacer. Both call `toJSON`
  * with the property's key before the object is sorted, and both put integer-like keys first in
  * ascending order (`Object.fromEntries` builds the object either way).
  */
