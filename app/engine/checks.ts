@@ -366,10 +366,12 @@ function flagged(
   useAbs: boolean,
 ): FlaggedObservation[] {
   const out: { row: number; id: string | null; value: number }[] = [];
-  values.forEach((v, i) => {
+  // plain loops over the per-subject values (a callback per element boxed each number read)
+  for (let i = 0; i < values.length; i++) {
+    const v = values[i];
     const m = useAbs ? Math.abs(v) : v;
     if (Number.isFinite(m) && m > bound) out.push({ row: rows[i], id: ids[i], value: v });
-  });
+  }
   out.sort((a, b) => (useAbs ? Math.abs(b.value) - Math.abs(a.value) : b.value - a.value) || a.row - b.row);
   return out.map((o, i) => ({ rank: i + 1, ...o }));
 }
@@ -405,11 +407,12 @@ function observationCheck(
   const obs = r.observations;
   const list = flagged(values, obs.row, obs.id, bound, useAbs);
   let maxIndex = -1;
-  values.forEach((v, i) => {
+  for (let i = 0; i < values.length; i++) {
+    const v = values[i];
     const m = useAbs ? Math.abs(v) : v;
     if (Number.isFinite(m) && (maxIndex < 0 || m > (useAbs ? Math.abs(values[maxIndex]) : values[maxIndex])))
       maxIndex = i;
-  });
+  }
   const max = maxIndex >= 0 ? values[maxIndex] : NaN;
   const who = maxIndex >= 0 ? subject({ id: obs.id[maxIndex], row: obs.row[maxIndex] }) : "";
   const measure = `largest ${useAbs ? "absolute " : ""}${what}`;
@@ -644,11 +647,12 @@ export function evaluateChecks(r: ModelResult, planned: readonly PlannedCheck[])
           break;
         }
         // Per subject, the largest |DFBETAS| over the treatment coefficients.
-        const worst = obs.row.map((_, i) => {
-          let m = 0;
-          for (const j of idx) if (Math.abs(obs.dfbetas[j][i]) > Math.abs(m)) m = obs.dfbetas[j][i];
-          return m;
-        });
+        const worst = new Array<number>(obs.row.length).fill(0);
+        for (const j of idx) {
+          const column = obs.dfbetas[j];
+          for (let i = 0; i < worst.length; i++)
+            if (Math.abs(column[i]) > Math.abs(worst[i])) worst[i] = column[i];
+        }
         out.push(
           observationCheck(
             def,

@@ -13,12 +13,11 @@ import { createHash } from "node:crypto";
 import type { CheckOutcome } from "~/engine/checks";
 import type { ReproductionResult } from "~/engine/reproduction";
 import { EngineError } from "~/engine/errors";
-import { canonicalJson } from "../canonical-json";
 import { readArrowColumnsCached } from "../datasets/arrow-columns.server";
 import type { StoredPlannedModel } from "../plans/plans.server";
 import { computeRerun, type RerunTable } from "../reruns/compute-rerun";
 import { subjectIdsOf } from "../reruns/document-subjects";
-import { writeResultFile } from "../reruns/result-files";
+import { encodeResult, writeResultFile } from "../reruns/result-files";
 import type { RerunOptions } from "../reruns/rerun-options";
 
 export interface RerunTaskInput {
@@ -55,13 +54,12 @@ export async function rerunTask(input: RerunTaskInput): Promise<RerunTaskOutput>
   stored.names.forEach((name, i) => (table.columns[name] = stored.columns[i]));
   try {
     const doc = computeRerun(input.model, table, input.options, input.meta);
-    const json = canonicalJson(doc);
-    const sha256 = sha256Hex(json);
-    await writeResultFile(input.dataDir, sha256, json);
+    const { bytes, sha256 } = encodeResult(doc);
+    await writeResultFile(input.dataDir, sha256, bytes);
     return {
       ok: true,
       sha256,
-      bytes: Buffer.byteLength(json, "utf8"),
+      bytes: bytes.length,
       engineVersion: doc.engineVersion,
       checks: doc.checks,
       ...(doc.reproduction ? { reproduction: doc.reproduction } : {}),
