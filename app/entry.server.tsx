@@ -6,10 +6,13 @@ import { renderToPipeableStream } from "react-dom/server";
 import { ServerRouter, type EntryContext } from "react-router";
 import { NonceContext } from "./components/nonce";
 import { startBackgroundWork } from "./.server/background.server";
+import { startCpuProfile } from "./.server/diagnostics/cpu-profile.server";
 import { contentSecurityPolicy } from "./.server/security.server";
 
 // Reruns and other jobs run in this process, off the request that queued them.
 startBackgroundWork();
+// Off unless PLUMBLINE_CPU_PROFILE_DIR is set (a benchmark measuring).
+startCpuProfile();
 
 export const streamTimeout = 10_000;
 
