@@ -22,6 +22,7 @@
  *
  * Per phase it also prints each page's figures and the server's CPU time (from
  * /proc/<pid>/task/<tid>/stat, Linux): its main thread (requests, the job worker) per request,
+ * with the time it was ready to run but waited for a core (schedstat),
  * and all its other threads (compute threads, libSQL, GC helpers), beside this benchmark's own
  * CPU (the 20 clients share the cores), so a change can be judged on a shared machine where
  * latency moves with the load.
@@ -107,7 +108,7 @@ if (cpuProfileDir) mkdirSync(cpuProfileDir, { recursive: true });
 
 /** CPU seconds used so far by a process's main thread and by all its other threads (Linux). */
 const CLOCK_TICKS = 100;
-const cpuOf = (pid: number): { main: number; others: number; bench: number } => {
+const cpuOf = (pid: number): { main: number; mainWaited: number; others: number; bench: number } => {
   const own = process.cpuUsage();
   const bench = (own.user + own.system) / 1e6;
   const ticks = (tid: string) => {
@@ -123,9 +124,11 @@ const cpuOf = (pid: number): { main: number; others: number; bench: number } => 
     const tids = readdirSync(`/proc/${pid}/task`);
     const main = ticks(String(pid));
     const all = tids.reduce((sum, tid) => sum + ticks(tid), 0);
-    return { main, others: all - main, bench };
+    // the seconds the main thread was ready to run but waited for a core (schedstat's 2nd field, ns)
+    const mainWaited = Number(readFileSync(`/proc/${pid}/task/${pid}/schedstat`, "utf8").split(" ")[1]) / 1e9;
+    return { main, mainWaited, others: all - main, bench };
   } catch {
-    return { main: NaN, others: NaN, bench };
+    return { main: NaN, mainWaited: NaN, others: NaN, bench };
   }
 };
 Object.assign(process.env, env);
@@ -260,7 +263,7 @@ try {
     seconds: number,
   ) =>
     console.log(
-      `  ${label.padEnd(16)} server CPU: main thread ${(((to.main - from.main) / seconds) * 100).toFixed(0)}% of a core, ${(((to.main - from.main) * 1000) / requests).toFixed(1)} ms a request; other threads ${(((to.others - from.others) / seconds) * 100).toFixed(0)}% of a core; this benchmark's own process ${(((to.bench - from.bench) / seconds) * 100).toFixed(0)}% (${seconds.toFixed(1)} s)`,
+      `  ${label.padEnd(16)} server CPU: main thread ${(((to.main - from.main) / seconds) * 100).toFixed(0)}% of a core, ${(((to.main - from.main) * 1000) / requests).toFixed(1)} ms a request, ${(((to.mainWaited - from.mainWaited) * 1000) / requests).toFixed(1)} ms a request waiting for a core; other threads ${(((to.others - from.others) / seconds) * 100).toFixed(0)}% of a core; this benchmark's own process ${(((to.bench - from.bench) / seconds) * 100).toFixed(0)}% (${seconds.toFixed(1)} s)`,
     );
   const serverPid = app.process.pid ?? 0;
   const profileCut = async () => {

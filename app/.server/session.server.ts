@@ -58,6 +58,7 @@ export async function startSession(
   personId: string,
   saml?: { nameId?: string; sessionIndex?: string },
 ): Promise<string> {
+  userOfRequest.delete(request);
   const previous = await readSessionId(request);
   const id = randomBytes(32).toString("base64url");
   const at = new Date();
@@ -102,8 +103,26 @@ export async function confirmSignIn(
   return rows.length === 1;
 }
 
+/**
+ * The session looked up for each page request: a page's loaders (the shell, the study layout,
+ * the page) run in parallel on one request and each asks for the signed-in person, so the
+ * cookie is verified and the session read once per request, not once per loader. Only reads
+ * (GET, HEAD) are remembered; starting or ending a session forgets its request.
+ */
+const userOfRequest = new WeakMap<Request, Promise<CurrentUser | null>>();
+
 /** The signed-in person, or null when there is no live session (expired sessions are ended). */
-export async function getCurrentUser(request: Request): Promise<CurrentUser | null> {
+export function getCurrentUser(request: Request): Promise<CurrentUser | null> {
+  if (request.method !== "GET" && request.method !== "HEAD") return lookUpUser(request);
+  let user = userOfRequest.get(request);
+  if (!user) {
+    user = lookUpUser(request);
+    userOfRequest.set(request, user);
+  }
+  return user;
+}
+
+async function lookUpUser(request: Request): Promise<CurrentUser | null> {
   const id = await readSessionId(request);
   if (!id) return null;
   const [row] = await db
@@ -152,6 +171,7 @@ export async function requireUser(request: Request): Promise<CurrentUser> {
 
 /** Ends the browser's session; returns the Set-Cookie header value that clears the cookie. */
 export async function endSession(request: Request): Promise<string> {
+  userOfRequest.delete(request);
   const id = await readSessionId(request);
   if (id) await writeTransaction((tx) => tx.delete(t.sessions).where(eq(t.sessions.id, id)));
   return sessionCookie.serialize("", { maxAge: 0 });

@@ -3,7 +3,7 @@
  * plan version and who started it, and the stored result parsed once per result hash. The
  * listings, the results and report pages, the API and the redaction read reruns through here.
  */
-import { and, eq, getTableColumns, type SQL } from "drizzle-orm";
+import { and, count, eq, getTableColumns, inArray, type SQL } from "drizzle-orm";
 import { LRUCache } from "lru-cache";
 import { data } from "react-router";
 import { db, t } from "../db/index.server";
@@ -47,6 +47,45 @@ export function rerunRows(where: SQL | undefined, ...order: SQL[]) {
 }
 
 export type RerunRow = Awaited<ReturnType<typeof rerunRows>>[number];
+
+/**
+ * The same reruns for lists (the reruns page, the API's list): each rerun's own columns, and of
+ * its planned model, plan version, dataset and version only what a list names (ids, key, title,
+ * name, version numbers, hash). Lists are read many times a minute; the model's specification,
+ * the version's column descriptions and the plan are most of the bytes `rerunRows` reads.
+ */
+export function rerunListRows(where: SQL | undefined, ...order: SQL[]) {
+  return db
+    .select({
+      r: rerunWithoutResult,
+      m: { id: t.plannedModels.id, key: t.plannedModels.key, title: t.plannedModels.title },
+      dv: { id: t.datasetVersions.id, version: t.datasetVersions.version, sha256: t.datasetVersions.sha256 },
+      d: { name: t.datasets.name },
+      pv: { id: t.planVersions.id, version: t.planVersions.version },
+      who: t.people.displayName,
+    })
+    .from(t.reruns)
+    .innerJoin(t.plannedModels, eq(t.plannedModels.id, t.reruns.plannedModelId))
+    .innerJoin(t.datasetVersions, eq(t.datasetVersions.id, t.reruns.datasetVersionId))
+    .innerJoin(t.datasets, eq(t.datasets.id, t.datasetVersions.datasetId))
+    .innerJoin(t.planVersions, eq(t.planVersions.id, t.reruns.planVersionId))
+    .leftJoin(t.people, eq(t.people.id, t.reruns.startedBy))
+    .where(where)
+    .orderBy(...order);
+}
+
+export type RerunListRow = Awaited<ReturnType<typeof rerunListRows>>[number];
+
+/** How many findings each of these reruns has (absent: none). */
+export async function findingCounts(rerunIds: string[]): Promise<Map<string, number>> {
+  if (rerunIds.length === 0) return new Map();
+  const rows = await db
+    .select({ rerunId: t.findings.rerunId, n: count() })
+    .from(t.findings)
+    .where(inArray(t.findings.rerunId, rerunIds))
+    .groupBy(t.findings.rerunId);
+  return new Map(rows.map((r) => [r.rerunId, r.n]));
+}
 
 /**
  * Parsed results of completed reruns, keyed by rerun id and result hash: a stored result never

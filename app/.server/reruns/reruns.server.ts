@@ -26,7 +26,13 @@ import { reproductionCheckOf } from "./compute-rerun";
 import { describeOptions, rerunOptionsSchema, type RerunOptions } from "./rerun-options";
 import { exclusionProblem } from "./what-if.server";
 import { plannedSensitivityOptions } from "./planned-sensitivity";
-import { rerunColumns, rerunRows, storedRerunDocument, type RerunRecord } from "./rerun-rows.server";
+import {
+  findingCounts,
+  rerunColumns,
+  rerunListRows,
+  storedRerunDocument,
+  type RerunRecord,
+} from "./rerun-rows.server";
 
 export { computeRerun, reproductionCheckOf, type RerunDocument, type RerunTable } from "./compute-rerun";
 export { getRerun, storedRerunDocument } from "./rerun-rows.server";
@@ -396,14 +402,8 @@ export interface RerunListing {
 
 /** The study's reruns for listing (never their stored results: one of a large rerun is hundreds of MB). */
 export async function listReruns(studyId: string): Promise<RerunListing[]> {
-  const rows = await rerunRows(eq(t.reruns.studyId, studyId), desc(t.reruns.createdAt));
-  const ids = rows.map((r) => r.r.id);
-  const counts = ids.length
-    ? await db
-        .select({ rerunId: t.findings.rerunId })
-        .from(t.findings)
-        .where(inArray(t.findings.rerunId, ids))
-    : [];
+  const rows = await rerunListRows(eq(t.reruns.studyId, studyId), desc(t.reruns.createdAt));
+  const counts = await findingCounts(rows.map((r) => r.r.id));
   return rows.map(({ r, m, dv, d, pv, who }) => ({
     id: r.id,
     kind: r.kind,
@@ -416,7 +416,7 @@ export async function listReruns(studyId: string): Promise<RerunListing[]> {
     planVersion: pv.version,
     createdAt: r.createdAt,
     startedBy: who,
-    findings: counts.filter((c) => c.rerunId === r.id).length,
+    findings: counts.get(r.id) ?? 0,
     signedAt: r.signedAt,
     parentRerunId: r.parentRerunId,
     prespecified: r.prespecified,
