@@ -24,8 +24,9 @@
  * /proc/<pid>/task/<tid>/stat, Linux): its main thread (requests, the job worker) per request,
  * with the time it was ready to run but waited for a core (schedstat),
  * and all its other threads (compute threads, libSQL, GC helpers), beside this benchmark's own
- * CPU (the 20 clients share the cores), so a change can be judged on a shared machine where
- * latency moves with the load.
+ * CPU and wait for a core (the 20 clients share the cores), so a change can be judged on a
+ * shared machine where latency moves with the load; and the time until each answer's headers
+ * arrived beside the whole answer's.
  *
  *   npm run bench:server -- --cpu-profile <dir>   also writes the server main thread's CPU
  *                                            profile of each phase (warm-up, baseline, rerun)
@@ -108,9 +109,12 @@ if (cpuProfileDir) mkdirSync(cpuProfileDir, { recursive: true });
 
 /** CPU seconds used so far by a process's main thread and by all its other threads (Linux). */
 const CLOCK_TICKS = 100;
-const cpuOf = (pid: number): { main: number; mainWaited: number; others: number; bench: number } => {
+const cpuOf = (
+  pid: number,
+): { main: number; mainWaited: number; others: number; bench: number; benchWaited: number } => {
   const own = process.cpuUsage();
   const bench = (own.user + own.system) / 1e6;
+  const benchWaited = Number(readFileSync(`/proc/self/schedstat`, "utf8").split(" ")[1]) / 1e9;
   const ticks = (tid: string) => {
     try {
       // fields after the command's closing parenthesis: utime and stime are the 12th and 13th
@@ -126,9 +130,9 @@ const cpuOf = (pid: number): { main: number; mainWaited: number; others: number;
     const all = tids.reduce((sum, tid) => sum + ticks(tid), 0);
     // the seconds the main thread was ready to run but waited for a core (schedstat's 2nd field, ns)
     const mainWaited = Number(readFileSync(`/proc/${pid}/task/${pid}/schedstat`, "utf8").split(" ")[1]) / 1e9;
-    return { main, mainWaited, others: all - main, bench };
+    return { main, mainWaited, others: all - main, bench, benchWaited };
   } catch {
-    return { main: NaN, mainWaited: NaN, others: NaN, bench };
+    return { main: NaN, mainWaited: NaN, others: NaN, bench, benchWaited };
   }
 };
 Object.assign(process.env, env);
@@ -183,6 +187,8 @@ try {
     kind: "page" | "api";
     url: string;
     ms: number;
+    /** Until the answer's headers arrived (the rest is its body streaming). */
+    headersMs: number;
     status: number;
   }
   const timed = async (
@@ -193,11 +199,13 @@ try {
     const start = performance.now();
     try {
       const res = await fetch(base + url, { headers });
+      const headersMs = performance.now() - start;
       await res.arrayBuffer();
-      return { kind, url, ms: performance.now() - start, status: res.status };
+      return { kind, url, ms: performance.now() - start, headersMs, status: res.status };
     } catch {
       // a connection the server closed or reset (as after a long stall) counts as a failed request
-      return { kind, url, ms: performance.now() - start, status: 0 };
+      const ms = performance.now() - start;
+      return { kind, url, ms, headersMs: ms, status: 0 };
     }
   };
   const drive = async (until: () => boolean): Promise<Sample[]> => {
@@ -225,13 +233,16 @@ try {
   };
   const line = (label: string, what: string, samples: Sample[]) => {
     const xs = samples.map((s) => s.ms);
+    const heads = samples.map((s) => s.headersMs);
     const bad = samples.filter((s) => s.status !== 200).length;
     console.log(
       `  ${label.padEnd(16)} ${what.padEnd(12)} ${String(xs.length).padStart(6)} requests   p50 ${quantile(xs, 0.5).toFixed(0).padStart(5)} ms   p95 ${quantile(xs, 0.95).toFixed(0).padStart(5)} ms   max ${Math.max(
         ...xs,
       )
         .toFixed(0)
-        .padStart(6)} ms${bad ? `   (${bad} not 200)` : ""}`,
+        .padStart(
+          6,
+        )} ms   (headers p50 ${quantile(heads, 0.5).toFixed(0)}, p95 ${quantile(heads, 0.95).toFixed(0)} ms)${bad ? `   (${bad} not 200)` : ""}`,
     );
   };
   const pageNames = ["overview", "rerun list"];
@@ -263,7 +274,7 @@ try {
     seconds: number,
   ) =>
     console.log(
-      `  ${label.padEnd(16)} server CPU: main thread ${(((to.main - from.main) / seconds) * 100).toFixed(0)}% of a core, ${(((to.main - from.main) * 1000) / requests).toFixed(1)} ms a request, ${(((to.mainWaited - from.mainWaited) * 1000) / requests).toFixed(1)} ms a request waiting for a core; other threads ${(((to.others - from.others) / seconds) * 100).toFixed(0)}% of a core; this benchmark's own process ${(((to.bench - from.bench) / seconds) * 100).toFixed(0)}% (${seconds.toFixed(1)} s)`,
+      `  ${label.padEnd(16)} server CPU: main thread ${(((to.main - from.main) / seconds) * 100).toFixed(0)}% of a core, ${(((to.main - from.main) * 1000) / requests).toFixed(1)} ms a request, ${(((to.mainWaited - from.mainWaited) * 1000) / requests).toFixed(1)} ms a request waiting for a core; other threads ${(((to.others - from.others) / seconds) * 100).toFixed(0)}% of a core; this benchmark's own process ${(((to.bench - from.bench) / seconds) * 100).toFixed(0)}%, its main thread waited for a core ${(((to.benchWaited - from.benchWaited) * 1000) / requests).toFixed(1)} ms a request (${seconds.toFixed(1)} s)`,
     );
   const serverPid = app.process.pid ?? 0;
   const profileCut = async () => {
