@@ -28,6 +28,8 @@
  * shared machine where latency moves with the load; and the time until each answer's headers
  * arrived beside the whole answer's.
  *
+ *   npm run bench:server -- --compute-priority normal   compute threads keep the web process's
+ *                                            priority (compute-worker.ts), to measure what lowering it gives
  *   npm run bench:server -- --cpu-profile <dir>   also writes the server main thread's CPU
  *                                            profile of each phase (warm-up, baseline, rerun)
  *                                            to <dir> (diagnostics/cpu-profile.server.ts)
@@ -55,6 +57,7 @@ const subjects = Number(arg("--subjects") ?? 1_000_000);
 const fixedPort = arg("--port");
 const fakePorts = arg("--fake-ports");
 const cpuProfileDir = arg("--cpu-profile");
+const computePriority = arg("--compute-priority");
 
 const root = process.cwd();
 if (!existsSync(path.join(root, "build/server/index.js")))
@@ -104,6 +107,7 @@ const env: Record<string, string> = {
   DATASET_MAX_BYTES: String(2_000_000_000),
   PLUMBLINE_TRACE_EVENT_LOOP: "1",
   ...(cpuProfileDir ? { PLUMBLINE_CPU_PROFILE_DIR: path.resolve(cpuProfileDir) } : {}),
+  ...(computePriority ? { PLUMBLINE_COMPUTE_PRIORITY: computePriority } : {}),
 };
 if (cpuProfileDir) mkdirSync(cpuProfileDir, { recursive: true });
 
@@ -111,28 +115,40 @@ if (cpuProfileDir) mkdirSync(cpuProfileDir, { recursive: true });
 const CLOCK_TICKS = 100;
 const cpuOf = (
   pid: number,
-): { main: number; mainWaited: number; others: number; bench: number; benchWaited: number } => {
+): {
+  main: number;
+  mainWaited: number;
+  lowered: number;
+  others: number;
+  bench: number;
+  benchWaited: number;
+} => {
   const own = process.cpuUsage();
   const bench = (own.user + own.system) / 1e6;
   const benchWaited = Number(readFileSync(`/proc/self/schedstat`, "utf8").split(" ")[1]) / 1e9;
-  const ticks = (tid: string) => {
+  const thread = (tid: string) => {
     try {
-      // fields after the command's closing parenthesis: utime and stime are the 12th and 13th
+      // fields after the command's closing parenthesis: utime and stime are the 12th and 13th,
+      // the nice value the 17th
       const f = readFileSync(`/proc/${pid}/task/${tid}/stat`, "utf8").split(") ")[1].split(" ");
-      return (Number(f[11]) + Number(f[12])) / CLOCK_TICKS;
+      return { cpu: (Number(f[11]) + Number(f[12])) / CLOCK_TICKS, nice: Number(f[16]) };
     } catch {
-      return 0;
+      return { cpu: 0, nice: 0 };
     }
   };
   try {
     const tids = readdirSync(`/proc/${pid}/task`);
-    const main = ticks(String(pid));
-    const all = tids.reduce((sum, tid) => sum + ticks(tid), 0);
+    const threads = tids.map(thread);
+    const main = thread(String(pid)).cpu;
+    const all = threads.reduce((sum, t) => sum + t.cpu, 0);
+    // compute threads lower their priority (compute-worker.ts); the rest is the thread pool
+    // (compression, Web Crypto, files) and V8's helper threads (garbage collection, compiling)
+    const lowered = threads.filter((t) => t.nice > 0).reduce((sum, t) => sum + t.cpu, 0);
     // the seconds the main thread was ready to run but waited for a core (schedstat's 2nd field, ns)
     const mainWaited = Number(readFileSync(`/proc/${pid}/task/${pid}/schedstat`, "utf8").split(" ")[1]) / 1e9;
-    return { main, mainWaited, others: all - main, bench, benchWaited };
+    return { main, mainWaited, lowered, others: all - main - lowered, bench, benchWaited };
   } catch {
-    return { main: NaN, mainWaited: NaN, others: NaN, bench, benchWaited };
+    return { main: NaN, mainWaited: NaN, lowered: NaN, others: NaN, bench, benchWaited };
   }
 };
 Object.assign(process.env, env);
@@ -274,7 +290,7 @@ try {
     seconds: number,
   ) =>
     console.log(
-      `  ${label.padEnd(16)} server CPU: main thread ${(((to.main - from.main) / seconds) * 100).toFixed(0)}% of a core, ${(((to.main - from.main) * 1000) / requests).toFixed(1)} ms a request, ${(((to.mainWaited - from.mainWaited) * 1000) / requests).toFixed(1)} ms a request waiting for a core; other threads ${(((to.others - from.others) / seconds) * 100).toFixed(0)}% of a core; this benchmark's own process ${(((to.bench - from.bench) / seconds) * 100).toFixed(0)}%, its main thread waited for a core ${(((to.benchWaited - from.benchWaited) * 1000) / requests).toFixed(1)} ms a request (${seconds.toFixed(1)} s)`,
+      `  ${label.padEnd(16)} server CPU: main thread ${(((to.main - from.main) / seconds) * 100).toFixed(0)}% of a core, ${(((to.main - from.main) * 1000) / requests).toFixed(1)} ms a request, ${(((to.mainWaited - from.mainWaited) * 1000) / requests).toFixed(1)} ms a request waiting for a core; compute threads (lowered priority) ${(((to.lowered - from.lowered) / seconds) * 100).toFixed(0)}%, other threads ${(((to.others - from.others) / seconds) * 100).toFixed(0)}% of a core; this benchmark's own process ${(((to.bench - from.bench) / seconds) * 100).toFixed(0)}%, its main thread waited for a core ${(((to.benchWaited - from.benchWaited) * 1000) / requests).toFixed(1)} ms a request (${seconds.toFixed(1)} s)`,
     );
   const serverPid = app.process.pid ?? 0;
   const profileCut = async () => {

@@ -21,10 +21,13 @@ import { whatIfTask } from "./what-if-task";
 
 const { PRIORITY_LOW, PRIORITY_BELOW_NORMAL } = constants.priority;
 
+/** `PLUMBLINE_COMPUTE_PRIORITY=normal` leaves them as they are, to measure the difference. */
+const keepPriority = process.env.PLUMBLINE_COMPUTE_PRIORITY === "normal";
+
 function atPriority<A extends unknown[], R>(nice: number, task: (...args: A) => R): (...args: A) => R {
   return (...args) => {
     try {
-      setPriority(nice);
+      if (!keepPriority) setPriority(nice);
     } catch {
       // not permitted here (some sandboxes): the task runs at the process's priority
     }
