@@ -6,9 +6,9 @@
  * (`seesSubjects`); everyone else reads ranks and counts (redaction.server.ts).
  */
 import { populationStepsOf } from "../reruns/rerun-population";
-import { and, desc, eq, inArray } from "drizzle-orm";
+import { and, desc, eq } from "drizzle-orm";
 import { familyWithLink } from "~/engine/family-names";
-import { db, t } from "../db/index.server";
+import { t } from "../db/index.server";
 import { findingsOf, signaturesOf } from "../reruns/findings.server";
 import { checkView, reportedContrasts, treatmentEffectOf } from "../reruns/rerun-view.server";
 import {

@@ -7,7 +7,7 @@
  * is kept as a failed rerun with the engine's reason and a finding of that kind.
  */
 import path from "node:path";
-import { and, asc, desc, eq, inArray } from "drizzle-orm";
+import { and, asc, desc, eq } from "drizzle-orm";
 import { data } from "react-router";
 import { findingSummary } from "~/engine/checks";
 import { EngineError, ENGINE_VERSION } from "~/engine";
