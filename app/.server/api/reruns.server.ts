@@ -14,6 +14,7 @@ import { checkView, reportedContrasts, treatmentEffectOf } from "../reruns/rerun
 import {
   findingCounts,
   rerunListRows,
+  studyRerunListRows,
   storedRerunDocument,
   type RerunListRow,
 } from "../reruns/rerun-rows.server";
@@ -42,10 +43,9 @@ async function rerunAccess(p: ApiPrincipal, studyId: string) {
 }
 
 async function rerunsOfStudy(studyId: string, only?: string) {
-  const rows = await rerunListRows(
-    only ? and(eq(t.reruns.studyId, studyId), eq(t.reruns.id, only)) : eq(t.reruns.studyId, studyId),
-    desc(t.reruns.createdAt),
-  );
+  const rows = only
+    ? await rerunListRows(and(eq(t.reruns.studyId, studyId), eq(t.reruns.id, only)), desc(t.reruns.createdAt))
+    : await studyRerunListRows(studyId);
   const counts = await findingCounts(rows.map((r) => r.r.id));
   return rows.map((row) => ({ row: row.r, out: rerunOut(row, counts.get(row.r.id) ?? 0) }));
 }

@@ -3,7 +3,7 @@
  * plan version and who started it, and the stored result parsed once per result hash. The
  * listings, the results and report pages, the API and the redaction read reruns through here.
  */
-import { and, count, eq, getTableColumns, inArray, type SQL } from "drizzle-orm";
+import { and, count, desc, eq, getTableColumns, inArray, sql, type SQL } from "drizzle-orm";
 import { LRUCache } from "lru-cache";
 import { data } from "react-router";
 import { db, t } from "../db/index.server";
@@ -75,6 +75,16 @@ export function rerunListRows(where: SQL | undefined, ...order: SQL[]) {
 }
 
 export type RerunListRow = Awaited<ReturnType<typeof rerunListRows>>[number];
+
+/** A study's reruns for its lists, newest first: the query is built once (prepared). */
+const studyRerunList = rerunListRows(
+  eq(t.reruns.studyId, sql.placeholder("studyId")),
+  desc(t.reruns.createdAt),
+).prepare();
+
+export function studyRerunListRows(studyId: string): Promise<RerunListRow[]> {
+  return studyRerunList.all({ studyId });
+}
 
 /** How many findings each of these reruns has (absent: none). */
 export async function findingCounts(rerunIds: string[]): Promise<Map<string, number>> {

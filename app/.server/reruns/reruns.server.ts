@@ -7,7 +7,7 @@
  * is kept as a failed rerun with the engine's reason and a finding of that kind.
  */
 import path from "node:path";
-import { and, asc, desc, eq } from "drizzle-orm";
+import { and, asc, eq } from "drizzle-orm";
 import { data } from "react-router";
 import { findingSummary } from "~/engine/checks";
 import { EngineError, ENGINE_VERSION } from "~/engine";
@@ -29,7 +29,7 @@ import { plannedSensitivityOptions } from "./planned-sensitivity";
 import {
   findingCounts,
   rerunColumns,
-  rerunListRows,
+  studyRerunListRows,
   storedRerunDocument,
   type RerunRecord,
 } from "./rerun-rows.server";
@@ -402,7 +402,7 @@ export interface RerunListing {
 
 /** The study's reruns for listing (never their stored results: one of a large rerun is hundreds of MB). */
 export async function listReruns(studyId: string): Promise<RerunListing[]> {
-  const rows = await rerunListRows(eq(t.reruns.studyId, studyId), desc(t.reruns.createdAt));
+  const rows = await studyRerunListRows(studyId);
   const counts = await findingCounts(rows.map((r) => r.r.id));
   return rows.map(({ r, m, dv, d, pv, who }) => ({
     id: r.id,
