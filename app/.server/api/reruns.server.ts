@@ -12,7 +12,6 @@ import { t } from "../db/index.server";
 import { findingsOf, signaturesOf } from "../reruns/findings.server";
 import { checkView, reportedContrasts, treatmentEffectOf } from "../reruns/rerun-view.server";
 import {
-  findingCounts,
   rerunListRows,
   studyRerunListRows,
   storedRerunDocument,
@@ -46,11 +45,10 @@ async function rerunsOfStudy(studyId: string, only?: string) {
   const rows = only
     ? await rerunListRows(and(eq(t.reruns.studyId, studyId), eq(t.reruns.id, only)), desc(t.reruns.createdAt))
     : await studyRerunListRows(studyId);
-  const counts = await findingCounts(rows.map((r) => r.r.id));
-  return rows.map((row) => ({ row: row.r, out: rerunOut(row, counts.get(row.r.id) ?? 0) }));
+  return rows.map((row) => ({ row: row.r, out: rerunOut(row) }));
 }
 
-function rerunOut({ r, m, dv, d, pv }: RerunListRow, findings: number): RerunOut {
+function rerunOut({ r, m, dv, d, pv, findings }: RerunListRow): RerunOut {
   return {
     id: r.id,
     kind: r.kind,

@@ -26,13 +26,7 @@ import { reproductionCheckOf } from "./compute-rerun";
 import { describeOptions, rerunOptionsSchema, type RerunOptions } from "./rerun-options";
 import { exclusionProblem } from "./what-if.server";
 import { plannedSensitivityOptions } from "./planned-sensitivity";
-import {
-  findingCounts,
-  rerunColumns,
-  studyRerunListRows,
-  storedRerunDocument,
-  type RerunRecord,
-} from "./rerun-rows.server";
+import { rerunColumns, studyRerunListRows, storedRerunDocument, type RerunRecord } from "./rerun-rows.server";
 
 export { computeRerun, reproductionCheckOf, type RerunDocument, type RerunTable } from "./compute-rerun";
 export { getRerun, storedRerunDocument } from "./rerun-rows.server";
@@ -403,8 +397,7 @@ export interface RerunListing {
 /** The study's reruns for listing (never their stored results: one of a large rerun is hundreds of MB). */
 export async function listReruns(studyId: string): Promise<RerunListing[]> {
   const rows = await studyRerunListRows(studyId);
-  const counts = await findingCounts(rows.map((r) => r.r.id));
-  return rows.map(({ r, m, dv, d, pv, who }) => ({
+  return rows.map(({ r, m, dv, d, pv, who, findings }) => ({
     id: r.id,
     kind: r.kind,
     label: r.label,
@@ -416,7 +409,7 @@ export async function listReruns(studyId: string): Promise<RerunListing[]> {
     planVersion: pv.version,
     createdAt: r.createdAt,
     startedBy: who,
-    findings: counts.get(r.id) ?? 0,
+    findings,
     signedAt: r.signedAt,
     parentRerunId: r.parentRerunId,
     prespecified: r.prespecified,
