@@ -20,10 +20,24 @@
  * The server runs with `PLUMBLINE_TRACE_EVENT_LOOP=1`: the seconds in which its event loop was
  * held over 50 ms and the steps of the rerun's completion are printed after the figures.
  *
+ * Per phase it also prints each page's figures and the server's CPU time (from
+ * /proc/<pid>/task/<tid>/stat, Linux): its main thread (requests, the job worker) per request,
+ * with the time it was ready to run but waited for a core (schedstat),
+ * and all its other threads (compute threads, libSQL, GC helpers), beside this benchmark's own
+ * CPU and wait for a core (the 20 clients share the cores), so a change can be judged on a
+ * shared machine where latency moves with the load; and the time until each answer's headers
+ * arrived beside the whole answer's.
+ *
+ *   npm run bench:server -- --compute-priority normal   compute threads keep the web process's
+ *                                            priority (compute-worker.ts), to measure what lowering it gives
+ *   npm run bench:server -- --cpu-profile <dir>   also writes the server main thread's CPU
+ *                                            profile of each phase (warm-up, baseline, rerun)
+ *                                            to <dir> (diagnostics/cpu-profile.server.ts)
+ *
  * Target (issue): p95 under 200 ms during the rerun, 20 sessions on loopback.
  */
 import { randomBytes } from "node:crypto";
-import { existsSync, mkdirSync } from "node:fs";
+import { existsSync, mkdirSync, readdirSync, readFileSync } from "node:fs";
 import os from "node:os";
 import path from "node:path";
 import { startOidcFake } from "../idp-fake/oidc/launch";
@@ -42,6 +56,8 @@ const arg = (name: string) => {
 const subjects = Number(arg("--subjects") ?? 1_000_000);
 const fixedPort = arg("--port");
 const fakePorts = arg("--fake-ports");
+const cpuProfileDir = arg("--cpu-profile");
+const computePriority = arg("--compute-priority");
 
 const root = process.cwd();
 if (!existsSync(path.join(root, "build/server/index.js")))
@@ -90,6 +106,50 @@ const env: Record<string, string> = {
   SMTP_FAKE_INBOX_DIR: smtp.inboxDir,
   DATASET_MAX_BYTES: String(2_000_000_000),
   PLUMBLINE_TRACE_EVENT_LOOP: "1",
+  ...(cpuProfileDir ? { PLUMBLINE_CPU_PROFILE_DIR: path.resolve(cpuProfileDir) } : {}),
+  ...(computePriority ? { PLUMBLINE_COMPUTE_PRIORITY: computePriority } : {}),
+};
+if (cpuProfileDir) mkdirSync(cpuProfileDir, { recursive: true });
+
+/** CPU seconds used so far by a process's main thread and by all its other threads (Linux). */
+const CLOCK_TICKS = 100;
+const cpuOf = (
+  pid: number,
+): {
+  main: number;
+  mainWaited: number;
+  lowered: number;
+  others: number;
+  bench: number;
+  benchWaited: number;
+} => {
+  const own = process.cpuUsage();
+  const bench = (own.user + own.system) / 1e6;
+  const benchWaited = Number(readFileSync(`/proc/self/schedstat`, "utf8").split(" ")[1]) / 1e9;
+  const thread = (tid: string) => {
+    try {
+      // fields after the command's closing parenthesis: utime and stime are the 12th and 13th,
+      // the nice value the 17th
+      const f = readFileSync(`/proc/${pid}/task/${tid}/stat`, "utf8").split(") ")[1].split(" ");
+      return { cpu: (Number(f[11]) + Number(f[12])) / CLOCK_TICKS, nice: Number(f[16]) };
+    } catch {
+      return { cpu: 0, nice: 0 };
+    }
+  };
+  try {
+    const tids = readdirSync(`/proc/${pid}/task`);
+    const threads = tids.map(thread);
+    const main = thread(String(pid)).cpu;
+    const all = threads.reduce((sum, t) => sum + t.cpu, 0);
+    // compute threads lower their priority (compute-worker.ts); the rest is the thread pool
+    // (compression, Web Crypto, files) and V8's helper threads (garbage collection, compiling)
+    const lowered = threads.filter((t) => t.nice > 0).reduce((sum, t) => sum + t.cpu, 0);
+    // the seconds the main thread was ready to run but waited for a core (schedstat's 2nd field, ns)
+    const mainWaited = Number(readFileSync(`/proc/${pid}/task/${pid}/schedstat`, "utf8").split(" ")[1]) / 1e9;
+    return { main, mainWaited, lowered, others: all - main - lowered, bench, benchWaited };
+  } catch {
+    return { main: NaN, mainWaited: NaN, lowered: NaN, others: NaN, bench, benchWaited };
+  }
 };
 Object.assign(process.env, env);
 
@@ -141,7 +201,10 @@ try {
 
   interface Sample {
     kind: "page" | "api";
+    url: string;
     ms: number;
+    /** Until the answer's headers arrived (the rest is its body streaming). */
+    headersMs: number;
     status: number;
   }
   const timed = async (
@@ -152,11 +215,13 @@ try {
     const start = performance.now();
     try {
       const res = await fetch(base + url, { headers });
+      const headersMs = performance.now() - start;
       await res.arrayBuffer();
-      return { kind, ms: performance.now() - start, status: res.status };
+      return { kind, url, ms: performance.now() - start, headersMs, status: res.status };
     } catch {
       // a connection the server closed or reset (as after a long stall) counts as a failed request
-      return { kind, ms: performance.now() - start, status: 0 };
+      const ms = performance.now() - start;
+      return { kind, url, ms, headersMs: ms, status: 0 };
     }
   };
   const drive = async (until: () => boolean): Promise<Sample[]> => {
@@ -182,18 +247,56 @@ try {
     const s = [...xs].sort((a, b) => a - b);
     return s.length === 0 ? NaN : s[Math.min(s.length - 1, Math.ceil(q * s.length) - 1)];
   };
+  const line = (label: string, what: string, samples: Sample[]) => {
+    const xs = samples.map((s) => s.ms);
+    const heads = samples.map((s) => s.headersMs);
+    const bad = samples.filter((s) => s.status !== 200).length;
+    console.log(
+      `  ${label.padEnd(16)} ${what.padEnd(12)} ${String(xs.length).padStart(6)} requests   p50 ${quantile(xs, 0.5).toFixed(0).padStart(5)} ms   p95 ${quantile(xs, 0.95).toFixed(0).padStart(5)} ms   max ${Math.max(
+        ...xs,
+      )
+        .toFixed(0)
+        .padStart(
+          6,
+        )} ms   (headers p50 ${quantile(heads, 0.5).toFixed(0)}, p95 ${quantile(heads, 0.95).toFixed(0)} ms)${bad ? `   (${bad} not 200)` : ""}`,
+    );
+  };
+  const pageNames = ["overview", "rerun list"];
   const report = (label: string, samples: Sample[]) => {
-    for (const kind of ["page", "api"] as const) {
-      const xs = samples.filter((s) => s.kind === kind).map((s) => s.ms);
-      const bad = samples.filter((s) => s.kind === kind && s.status !== 200).length;
-      console.log(
-        `  ${label.padEnd(16)} ${kind.padEnd(5)} ${String(xs.length).padStart(6)} requests   p50 ${quantile(xs, 0.5).toFixed(0).padStart(5)} ms   p95 ${quantile(xs, 0.95).toFixed(0).padStart(5)} ms   max ${Math.max(
-          ...xs,
-        )
-          .toFixed(0)
-          .padStart(6)} ms${bad ? `   (${bad} not 200)` : ""}`,
-      );
-    }
+    line(
+      label,
+      "page",
+      samples.filter((s) => s.kind === "page"),
+    );
+    pages.forEach((url, i) =>
+      line(
+        "",
+        `  ${pageNames[i]}`,
+        samples.filter((s) => s.url === url),
+      ),
+    );
+    line(
+      "",
+      "api",
+      samples.filter((s) => s.kind === "api"),
+    );
+  };
+  /** The server's CPU time over a phase: main thread per request, and its other threads. */
+  const cpuReport = (
+    label: string,
+    from: ReturnType<typeof cpuOf>,
+    to: ReturnType<typeof cpuOf>,
+    requests: number,
+    seconds: number,
+  ) =>
+    console.log(
+      `  ${label.padEnd(16)} server CPU: main thread ${(((to.main - from.main) / seconds) * 100).toFixed(0)}% of a core, ${(((to.main - from.main) * 1000) / requests).toFixed(1)} ms a request, ${(((to.mainWaited - from.mainWaited) * 1000) / requests).toFixed(1)} ms a request waiting for a core; compute threads (lowered priority) ${(((to.lowered - from.lowered) / seconds) * 100).toFixed(0)}%, other threads ${(((to.others - from.others) / seconds) * 100).toFixed(0)}% of a core; this benchmark's own process ${(((to.bench - from.bench) / seconds) * 100).toFixed(0)}%, its main thread waited for a core ${(((to.benchWaited - from.benchWaited) * 1000) / requests).toFixed(1)} ms a request (${seconds.toFixed(1)} s)`,
+    );
+  const serverPid = app.process.pid ?? 0;
+  const profileCut = async () => {
+    if (!cpuProfileDir) return;
+    app?.process.kill("SIGUSR2");
+    await new Promise((r) => setTimeout(r, 500));
   };
 
   // warm the server's routes once, then the baseline
@@ -203,9 +306,16 @@ try {
         performance.now() > end
     )(performance.now() + 2000),
   );
+  await profileCut();
   const baselineEnd = performance.now() + BASELINE_MS;
   console.log(`load average before: ${load()}`);
+  const cpuBefore = cpuOf(serverPid);
+  const baselineStart = performance.now();
   const baseline = await drive(() => performance.now() > baselineEnd);
+  const cpuBaseline = cpuOf(serverPid);
+  const baselineSeconds = (performance.now() - baselineStart) / 1000;
+  await profileCut();
+  const cpuRerunFrom = cpuOf(serverPid);
 
   const rerunId = await reruns.startRerun(person, study.studyId, {
     plannedModelId: study.plannedModelIds.adeff10k,
@@ -246,6 +356,9 @@ try {
     );
   });
   clearInterval(poll);
+  const cpuRerun = cpuOf(serverPid);
+  const duringSeconds = (performance.now() - started) / 1000;
+  await profileCut();
   const [row] = await db
     .select({ status: t.reruns.status, failureReason: t.reruns.failureReason })
     .from(t.reruns)
@@ -257,6 +370,8 @@ try {
   );
   report("baseline", baseline);
   report("during rerun", during);
+  cpuReport("baseline", cpuBefore, cpuBaseline, baseline.length, baselineSeconds);
+  cpuReport("during rerun", cpuRerunFrom, cpuRerun, during.length, duringSeconds);
   console.log(
     `job heartbeat: longest age seen while the rerun ran ${(heartbeatGapMs / 1000).toFixed(1)} s (renewed every 5 s; orphaned after 30 s)`,
   );

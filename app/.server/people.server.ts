@@ -2,7 +2,7 @@
  * People and their study roles. A person is created on first sign-in from the identity
  * provider's attributes; an administrator then gives them roles per study.
  */
-import { and, asc, eq } from "drizzle-orm";
+import { and, asc, eq, sql } from "drizzle-orm";
 import { appendAudit, type Actor } from "./audit.server";
 import { SignInRefused } from "./auth/refusal.server";
 import { db, isoNow, newId, t, writeTransaction, type DbOrTx } from "./db/index.server";
@@ -195,30 +195,39 @@ export async function listMemberships(): Promise<Membership[]> {
     .orderBy(asc(t.studies.code));
 }
 
+/** Every study page and API request reads the role: the query is built once (prepared). */
+const membershipOf = db
+  .select({
+    role: t.studyMemberships.role,
+    source: t.people.identitySource,
+    organisation: t.people.organisation,
+    sharedWith: t.studyShares.organisation,
+  })
+  .from(t.studyMemberships)
+  .innerJoin(t.people, eq(t.people.id, t.studyMemberships.personId))
+  .leftJoin(
+    t.studyShares,
+    and(
+      eq(t.studyShares.studyId, t.studyMemberships.studyId),
+      eq(t.studyShares.organisation, t.people.organisation),
+    ),
+  )
+  .where(
+    and(
+      eq(t.studyMemberships.personId, sql.placeholder("personId")),
+      eq(t.studyMemberships.studyId, sql.placeholder("studyId")),
+    ),
+  )
+  .limit(1)
+  .prepare();
+
 /**
  * The person's role on one study, or null. A sponsor account (signed in through OpenID Connect)
  * holds at most the sponsor reader role, and only while the study is shared with its
  * organisation, whatever the membership table says.
  */
 export async function studyRoleOf(personId: string, studyId: string): Promise<StudyRole | null> {
-  const [row] = await db
-    .select({
-      role: t.studyMemberships.role,
-      source: t.people.identitySource,
-      organisation: t.people.organisation,
-      sharedWith: t.studyShares.organisation,
-    })
-    .from(t.studyMemberships)
-    .innerJoin(t.people, eq(t.people.id, t.studyMemberships.personId))
-    .leftJoin(
-      t.studyShares,
-      and(
-        eq(t.studyShares.studyId, t.studyMemberships.studyId),
-        eq(t.studyShares.organisation, t.people.organisation),
-      ),
-    )
-    .where(and(eq(t.studyMemberships.personId, personId), eq(t.studyMemberships.studyId, studyId)))
-    .limit(1);
+  const [row] = await membershipOf.all({ personId, studyId });
   if (!row) return null;
   if (row.source !== "oidc") return row.role;
   return row.role === "sponsor_reader" && row.organisation !== null && row.sharedWith === row.organisation
@@ -322,17 +331,21 @@ export async function setStudyRole(
 }
 
 /** Who works on a study, by role. */
+/** The study overview reads its team on every visit: the query is built once (prepared). */
+const teamOf = db
+  .select({
+    displayName: t.people.displayName,
+    organisation: t.people.organisation,
+    role: t.studyMemberships.role,
+  })
+  .from(t.studyMemberships)
+  .innerJoin(t.people, eq(t.people.id, t.studyMemberships.personId))
+  .where(eq(t.studyMemberships.studyId, sql.placeholder("studyId")))
+  .orderBy(asc(t.studyMemberships.role), asc(t.people.displayName))
+  .prepare();
+
 export async function listStudyTeam(
   studyId: string,
 ): Promise<{ displayName: string; organisation: string | null; role: StudyRole }[]> {
-  return db
-    .select({
-      displayName: t.people.displayName,
-      organisation: t.people.organisation,
-      role: t.studyMemberships.role,
-    })
-    .from(t.studyMemberships)
-    .innerJoin(t.people, eq(t.people.id, t.studyMemberships.personId))
-    .where(eq(t.studyMemberships.studyId, studyId))
-    .orderBy(asc(t.studyMemberships.role), asc(t.people.displayName));
+  return teamOf.all({ studyId });
 }

@@ -153,7 +153,17 @@ export async function requirePersonStudyPermission(
   studyId: string,
   action: StudyAction,
 ): Promise<{ role: StudyRole | null; allowed: Set<StudyAction> }> {
-  const role = await studyRoleOf(person.id, studyId);
+  return requireRolePermits(await studyRoleOf(person.id, studyId), action);
+}
+
+/**
+ * The same check for a role already read with `studyRoleOf` (the guard reads it once per
+ * request for all of a page's loaders): throws a 403 naming the needed role.
+ */
+export function requireRolePermits(
+  role: StudyRole | null,
+  action: StudyAction,
+): { role: StudyRole | null; allowed: Set<StudyAction> } {
   if (!roleMay(role, action)) forbidden(action, neededRoles(action));
   return { role, allowed: allowedActions(role) };
 }

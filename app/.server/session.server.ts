@@ -5,7 +5,8 @@
  * (rotation). Sessions end after 30 minutes without a request or 12 hours after sign-in.
  */
 import { randomBytes } from "node:crypto";
-import { and, eq, gt, lt } from "drizzle-orm";
+import { and, eq, gt, lt, sql } from "drizzle-orm";
+import { LRUCache } from "lru-cache";
 import { createCookie, redirect } from "react-router";
 import { config, servedOverHttps } from "./config.server";
 import { db, isoNow, t, writeTransaction } from "./db/index.server";
@@ -44,9 +45,25 @@ export interface CurrentUser {
   sessionIndex?: string;
 }
 
+/**
+ * Cookie headers whose session cookie has been verified, with the id it carries. Verifying the
+ * signature goes through Web Crypto (a key import and an HMAC check, each a round trip through
+ * the thread pool that puts the request at the back of the event loop's queue); a browser sends
+ * the same header on every request of its session. Only headers that verified are kept, so a
+ * forged or altered cookie is always checked in full; the session itself is read from the
+ * database on every request as before (signing out anywhere still ends it at once).
+ */
+const verifiedCookieHeaders = new LRUCache<string, string>({ max: 2_000 });
+const MAX_REMEMBERED_HEADER = 4_096;
+
 async function readSessionId(request: Request): Promise<string | null> {
-  const value: unknown = await sessionCookie.parse(request.headers.get("Cookie"));
-  return typeof value === "string" && value.length > 0 ? value : null;
+  const header = request.headers.get("Cookie");
+  const known = header ? verifiedCookieHeaders.get(header) : undefined;
+  if (known) return known;
+  const value: unknown = await sessionCookie.parse(header);
+  if (typeof value !== "string" || value.length === 0) return null;
+  if (header && header.length <= MAX_REMEMBERED_HEADER) verifiedCookieHeaders.set(header, value);
+  return value;
 }
 
 /**
@@ -58,6 +75,7 @@ export async function startSession(
   personId: string,
   saml?: { nameId?: string; sessionIndex?: string },
 ): Promise<string> {
+  userOfRequest.delete(request);
   const previous = await readSessionId(request);
   const id = randomBytes(32).toString("base64url");
   const at = new Date();
@@ -102,16 +120,38 @@ export async function confirmSignIn(
   return rows.length === 1;
 }
 
+/**
+ * The session looked up for each page request: a page's loaders (the shell, the study layout,
+ * the page) run in parallel on one request and each asks for the signed-in person, so the
+ * cookie is verified and the session read once per request, not once per loader. Only reads
+ * (GET, HEAD) are remembered; starting or ending a session forgets its request.
+ */
+const userOfRequest = new WeakMap<Request, Promise<CurrentUser | null>>();
+
 /** The signed-in person, or null when there is no live session (expired sessions are ended). */
-export async function getCurrentUser(request: Request): Promise<CurrentUser | null> {
+export function getCurrentUser(request: Request): Promise<CurrentUser | null> {
+  if (request.method !== "GET" && request.method !== "HEAD") return lookUpUser(request);
+  let user = userOfRequest.get(request);
+  if (!user) {
+    user = lookUpUser(request);
+    userOfRequest.set(request, user);
+  }
+  return user;
+}
+
+/** Every request reads its session: the query is built once (prepared), not per request. */
+const sessionById = db
+  .select({ session: t.sessions, person: t.people })
+  .from(t.sessions)
+  .innerJoin(t.people, eq(t.people.id, t.sessions.personId))
+  .where(eq(t.sessions.id, sql.placeholder("id")))
+  .limit(1)
+  .prepare();
+
+async function lookUpUser(request: Request): Promise<CurrentUser | null> {
   const id = await readSessionId(request);
   if (!id) return null;
-  const [row] = await db
-    .select({ session: t.sessions, person: t.people })
-    .from(t.sessions)
-    .innerJoin(t.people, eq(t.people.id, t.sessions.personId))
-    .where(eq(t.sessions.id, id))
-    .limit(1);
+  const [row] = await sessionById.all({ id });
   if (!row) return null;
   const now = Date.now();
   const idleFor = now - Date.parse(row.session.lastSeenAt);
@@ -152,6 +192,7 @@ export async function requireUser(request: Request): Promise<CurrentUser> {
 
 /** Ends the browser's session; returns the Set-Cookie header value that clears the cookie. */
 export async function endSession(request: Request): Promise<string> {
+  userOfRequest.delete(request);
   const id = await readSessionId(request);
   if (id) await writeTransaction((tx) => tx.delete(t.sessions).where(eq(t.sessions.id, id)));
   return sessionCookie.serialize("", { maxAge: 0 });

@@ -1,5 +1,5 @@
 /** Studies: created by administrators, opened by the people who hold a role on them. */
-import { and, asc, count, eq } from "drizzle-orm";
+import { and, asc, count, eq, sql } from "drizzle-orm";
 import { data } from "react-router";
 import { z } from "zod";
 import { appendAudit, type Actor } from "./audit.server";
@@ -35,8 +35,16 @@ export async function listStudiesFor(person: { id: string; isAdmin: boolean }): 
 }
 
 /** The study, or a 404 that says so. */
+/** Every study page reads its study: the query is built once (prepared), not per request. */
+const studyById = db
+  .select()
+  .from(t.studies)
+  .where(eq(t.studies.id, sql.placeholder("id")))
+  .limit(1)
+  .prepare();
+
 export async function getStudyOr404(studyId: string): Promise<Study> {
-  const [study] = await db.select().from(t.studies).where(eq(t.studies.id, studyId)).limit(1);
+  const [study] = await studyById.all({ id: studyId });
   if (!study) throw data({ message: `There is no study with the id "${studyId}".` }, { status: 404 });
   return study;
 }

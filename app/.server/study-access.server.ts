@@ -2,13 +2,15 @@
  * The guard every study page and study resource route starts with: signed in (else to
  * sign-in), the study exists (else 404), the person's role allows the action (else 403).
  */
+import { studyRoleOf } from "./people.server";
 import {
   requirePersonStudyPermission,
-  requireStudyPermission,
+  requireRolePermits,
   type StudyAccess,
   type StudyAction,
+  type StudyRole,
 } from "./permissions.server";
-import { requireUser } from "./session.server";
+import { requireUser, type CurrentUser } from "./session.server";
 import { getStudyOr404, type Study } from "./studies.server";
 
 export async function requireStudy(
@@ -17,9 +19,33 @@ export async function requireStudy(
   action: StudyAction,
 ): Promise<StudyAccess & { study: Study }> {
   const user = await requireUser(request);
-  const study = await getStudyOr404(studyId);
-  const access = await requireStudyPermission(request, study.id, action, user);
-  return { ...access, study };
+  const { study, role } = await studyAndRole(request, user, studyId);
+  return { user, ...requireRolePermits(role, action), study };
+}
+
+/**
+ * The study and the person's role on it, read once per page request: the study layout's
+ * loader and the page's run in parallel on the same request, each with its own action to
+ * check (checked each time, from the role). Only reads (GET, HEAD) are remembered.
+ */
+const studyOfRequest = new WeakMap<Request, Map<string, Promise<{ study: Study; role: StudyRole | null }>>>();
+
+function studyAndRole(
+  request: Request,
+  user: CurrentUser,
+  studyId: string,
+): Promise<{ study: Study; role: StudyRole | null }> {
+  const read = async () => {
+    const study = await getStudyOr404(studyId);
+    return { study, role: await studyRoleOf(user.id, study.id) };
+  };
+  if (request.method !== "GET" && request.method !== "HEAD") return read();
+  let byStudy = studyOfRequest.get(request);
+  if (!byStudy) studyOfRequest.set(request, (byStudy = new Map()));
+  const key = `${user.id}:${studyId}`;
+  let found = byStudy.get(key);
+  if (!found) byStudy.set(key, (found = read()));
+  return found;
 }
 
 /**

@@ -5,9 +5,8 @@ import type { Route } from "./+types/study-reruns";
 import { EmptyState, PageHeader } from "~/components/page";
 import { StatusLabel } from "~/components/status";
 import { RERUN_STATUS, type StatusWord } from "~/shared/status-words";
-import { listLockedVersions } from "~/.server/datasets/catalog.server";
 import { actorOf } from "~/.server/people.server";
-import { approvedModels } from "~/.server/plans/plans.server";
+import { rerunChoices } from "~/.server/reruns/rerun-choices.server";
 import { listReruns, startRerun } from "~/.server/reruns/reruns.server";
 import { requireStudy } from "~/.server/study-access.server";
 
@@ -17,11 +16,7 @@ export function meta({ loaderData }: Route.MetaArgs) {
 
 export async function loader({ request, params }: Route.LoaderArgs) {
   const { study, allowed } = await requireStudy(request, params.studyId, "rerun.view");
-  const [reruns, models, locked] = await Promise.all([
-    listReruns(study.id),
-    approvedModels(study.id),
-    listLockedVersions(study.id),
-  ]);
+  const [reruns, choices] = await Promise.all([listReruns(study.id), rerunChoices(study.id)]);
   return {
     studyId: study.id,
     code: study.code,
@@ -35,16 +30,7 @@ export async function loader({ request, params }: Route.LoaderArgs) {
           new Map<string, number>(),
         ),
     ),
-    choices: models.map((m) => ({
-      id: m.id,
-      label: `${m.key} · ${m.title} (plan v${m.planVersion})`,
-      versions: locked
-        .filter((v) => v.datasetName === m.datasetName)
-        .map((v) => ({
-          id: v.versionId,
-          label: `${v.datasetName} v${v.version} · ${v.sha256.slice(0, 12)}…`,
-        })),
-    })),
+    choices,
   };
 }
 

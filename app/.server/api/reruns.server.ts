@@ -6,12 +6,17 @@
  * (`seesSubjects`); everyone else reads ranks and counts (redaction.server.ts).
  */
 import { populationStepsOf } from "../reruns/rerun-population";
-import { and, desc, eq, inArray } from "drizzle-orm";
+import { and, desc, eq } from "drizzle-orm";
 import { familyWithLink } from "~/engine/family-names";
-import { db, t } from "../db/index.server";
+import { t } from "../db/index.server";
 import { findingsOf, signaturesOf } from "../reruns/findings.server";
 import { checkView, reportedContrasts, treatmentEffectOf } from "../reruns/rerun-view.server";
-import { rerunRows, storedRerunDocument, type RerunRow } from "../reruns/rerun-rows.server";
+import {
+  rerunListRows,
+  studyRerunListRows,
+  storedRerunDocument,
+  type RerunListRow,
+} from "../reruns/rerun-rows.server";
 import { reproductionCheckOf, sensitivityReruns, type RerunDocument } from "../reruns/reruns.server";
 import { requireStudyForPrincipal } from "../study-access.server";
 import { seesSubjects } from "../permissions.server";
@@ -37,23 +42,13 @@ async function rerunAccess(p: ApiPrincipal, studyId: string) {
 }
 
 async function rerunsOfStudy(studyId: string, only?: string) {
-  const rows = await rerunRows(
-    only ? and(eq(t.reruns.studyId, studyId), eq(t.reruns.id, only)) : eq(t.reruns.studyId, studyId),
-    desc(t.reruns.createdAt),
-  );
-  const ids = rows.map((r) => r.r.id);
-  const findingRows = ids.length
-    ? await db
-        .select({ rerunId: t.findings.rerunId })
-        .from(t.findings)
-        .where(inArray(t.findings.rerunId, ids))
-    : [];
-  const counts = new Map<string, number>();
-  for (const f of findingRows) counts.set(f.rerunId, (counts.get(f.rerunId) ?? 0) + 1);
-  return rows.map((row) => ({ row: row.r, out: rerunOut(row, counts.get(row.r.id) ?? 0) }));
+  const rows = only
+    ? await rerunListRows(and(eq(t.reruns.studyId, studyId), eq(t.reruns.id, only)), desc(t.reruns.createdAt))
+    : await studyRerunListRows(studyId);
+  return rows.map((row) => ({ row: row.r, out: rerunOut(row) }));
 }
 
-function rerunOut({ r, m, dv, d, pv }: RerunRow, findings: number): RerunOut {
+function rerunOut({ r, m, dv, d, pv, findings }: RerunListRow): RerunOut {
   return {
     id: r.id,
     kind: r.kind,

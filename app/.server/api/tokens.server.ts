@@ -5,7 +5,7 @@
  * by its person or by an administrator. Creation and revocation are audited.
  */
 import { createHash, randomBytes } from "node:crypto";
-import { and, desc, eq, gt, isNull } from "drizzle-orm";
+import { and, desc, eq, gt, isNull, sql } from "drizzle-orm";
 import { z } from "zod";
 import { appendAudit, type Actor } from "../audit.server";
 import { db, isoNow, newId, t, writeTransaction } from "../db/index.server";
@@ -173,13 +173,17 @@ export interface ApiPrincipal {
 export type TokenCheck = { ok: true; principal: ApiPrincipal } | { ok: false; message: string };
 
 /** Checks a presented token: known, not revoked, not expired. Records when it was last used. */
+/** Every API request reads its token: the query is built once (prepared), not per request. */
+const tokenByHash = db
+  .select({ k: t.apiTokens, p: t.people })
+  .from(t.apiTokens)
+  .innerJoin(t.people, eq(t.people.id, t.apiTokens.personId))
+  .where(eq(t.apiTokens.tokenHash, sql.placeholder("hash")))
+  .limit(1)
+  .prepare();
+
 export async function verifyToken(token: string): Promise<TokenCheck> {
-  const [row] = await db
-    .select({ k: t.apiTokens, p: t.people })
-    .from(t.apiTokens)
-    .innerJoin(t.people, eq(t.people.id, t.apiTokens.personId))
-    .where(eq(t.apiTokens.tokenHash, hashToken(token)))
-    .limit(1);
+  const [row] = await tokenByHash.all({ hash: hashToken(token) });
   if (!row)
     return {
       ok: false,

@@ -210,21 +210,26 @@ export const planVersions = sqliteTable(
   (t) => [uniqueIndex("plan_versions_plan_version").on(t.planId, t.version)],
 );
 
-export const plannedModels = sqliteTable("planned_models", {
-  id: text("id").primaryKey(),
-  planVersionId: text("plan_version_id")
-    .notNull()
-    .references(() => planVersions.id),
-  key: text("key").notNull(),
-  title: text("title").notNull(),
-  datasetName: text("dataset_name").notNull(),
-  populationJson: text("population_json"),
-  /** The model specification object, the same JSON the headless rerun command reads. */
-  specJson: text("spec_json").notNull(),
-  checksJson: text("checks_json").notNull().default("[]"),
-  sensitivityJson: text("sensitivity_json").notNull().default("[]"),
-  position: integer("position").notNull().default(0),
-});
+export const plannedModels = sqliteTable(
+  "planned_models",
+  {
+    id: text("id").primaryKey(),
+    planVersionId: text("plan_version_id")
+      .notNull()
+      .references(() => planVersions.id),
+    key: text("key").notNull(),
+    title: text("title").notNull(),
+    datasetName: text("dataset_name").notNull(),
+    populationJson: text("population_json"),
+    /** The model specification object, the same JSON the headless rerun command reads. */
+    specJson: text("spec_json").notNull(),
+    checksJson: text("checks_json").notNull().default("[]"),
+    sensitivityJson: text("sensitivity_json").notNull().default("[]"),
+    position: integer("position").notNull().default(0),
+  },
+  // the approved models of a study are read through their plan version (the reruns page)
+  (t) => [index("planned_models_plan_version").on(t.planVersionId)],
+);
 
 export const reruns = sqliteTable(
   "reruns",
@@ -269,21 +274,26 @@ export const reruns = sqliteTable(
   (t) => [index("reruns_study").on(t.studyId)],
 );
 
-export const findings = sqliteTable("findings", {
-  id: text("id").primaryKey(),
-  rerunId: text("rerun_id")
-    .notNull()
-    .references(() => reruns.id),
-  checkKey: text("check_key").notNull(),
-  kind: text("kind", { enum: ["check", "not_estimable"] })
-    .notNull()
-    .default("check"),
-  statistic: text("statistic"),
-  threshold: text("threshold"),
-  summary: text("summary").notNull(),
-  detailJson: text("detail_json"),
-  createdAt: text("created_at").notNull().default(now),
-});
+export const findings = sqliteTable(
+  "findings",
+  {
+    id: text("id").primaryKey(),
+    rerunId: text("rerun_id")
+      .notNull()
+      .references(() => reruns.id),
+    checkKey: text("check_key").notNull(),
+    kind: text("kind", { enum: ["check", "not_estimable"] })
+      .notNull()
+      .default("check"),
+    statistic: text("statistic"),
+    threshold: text("threshold"),
+    summary: text("summary").notNull(),
+    detailJson: text("detail_json"),
+    createdAt: text("created_at").notNull().default(now),
+  },
+  // rerun lists count each rerun's findings and the results page reads them, by rerun
+  (t) => [index("findings_rerun").on(t.rerunId)],
+);
 
 export const deviations = sqliteTable("deviations", {
   id: text("id").primaryKey(),

@@ -3,7 +3,7 @@
  * plan version and who started it, and the stored result parsed once per result hash. The
  * listings, the results and report pages, the API and the redaction read reruns through here.
  */
-import { and, eq, getTableColumns, type SQL } from "drizzle-orm";
+import { and, desc, eq, getTableColumns, sql, type SQL } from "drizzle-orm";
 import { LRUCache } from "lru-cache";
 import { data } from "react-router";
 import { db, t } from "../db/index.server";
@@ -47,6 +47,49 @@ export function rerunRows(where: SQL | undefined, ...order: SQL[]) {
 }
 
 export type RerunRow = Awaited<ReturnType<typeof rerunRows>>[number];
+
+/**
+ * The same reruns for lists (the reruns page, the API's list): each rerun's own columns, and of
+ * its planned model, plan version, dataset and version only what a list names (ids, key, title,
+ * name, version numbers, hash), and its number of findings. Lists are read many times a minute; the model's specification,
+ * the version's column descriptions and the plan are most of the bytes `rerunRows` reads.
+ */
+export function rerunListRows(where: SQL | undefined, ...order: SQL[]) {
+  return db
+    .select({
+      r: rerunWithoutResult,
+      m: { id: t.plannedModels.id, key: t.plannedModels.key, title: t.plannedModels.title },
+      dv: { id: t.datasetVersions.id, version: t.datasetVersions.version, sha256: t.datasetVersions.sha256 },
+      d: { name: t.datasets.name },
+      pv: { id: t.planVersions.id, version: t.planVersions.version },
+      who: t.people.displayName,
+      // counted in the same statement (index findings_rerun)
+      findings:
+        sql<number>`(select count(*) from ${t.findings} where ${t.findings.rerunId} = ${t.reruns.id})`.mapWith(
+          Number,
+        ),
+    })
+    .from(t.reruns)
+    .innerJoin(t.plannedModels, eq(t.plannedModels.id, t.reruns.plannedModelId))
+    .innerJoin(t.datasetVersions, eq(t.datasetVersions.id, t.reruns.datasetVersionId))
+    .innerJoin(t.datasets, eq(t.datasets.id, t.datasetVersions.datasetId))
+    .innerJoin(t.planVersions, eq(t.planVersions.id, t.reruns.planVersionId))
+    .leftJoin(t.people, eq(t.people.id, t.reruns.startedBy))
+    .where(where)
+    .orderBy(...order);
+}
+
+export type RerunListRow = Awaited<ReturnType<typeof rerunListRows>>[number];
+
+/** A study's reruns for its lists, newest first: the query is built once (prepared). */
+const studyRerunList = rerunListRows(
+  eq(t.reruns.studyId, sql.placeholder("studyId")),
+  desc(t.reruns.createdAt),
+).prepare();
+
+export function studyRerunListRows(studyId: string): Promise<RerunListRow[]> {
+  return studyRerunList.all({ studyId });
+}
 
 /**
  * Parsed results of completed reruns, keyed by rerun id and result hash: a stored result never

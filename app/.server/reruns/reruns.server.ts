@@ -7,7 +7,7 @@
  * is kept as a failed rerun with the engine's reason and a finding of that kind.
  */
 import path from "node:path";
-import { and, asc, desc, eq, inArray } from "drizzle-orm";
+import { and, asc, eq } from "drizzle-orm";
 import { data } from "react-router";
 import { findingSummary } from "~/engine/checks";
 import { EngineError, ENGINE_VERSION } from "~/engine";
@@ -26,7 +26,7 @@ import { reproductionCheckOf } from "./compute-rerun";
 import { describeOptions, rerunOptionsSchema, type RerunOptions } from "./rerun-options";
 import { exclusionProblem } from "./what-if.server";
 import { plannedSensitivityOptions } from "./planned-sensitivity";
-import { rerunColumns, rerunRows, storedRerunDocument, type RerunRecord } from "./rerun-rows.server";
+import { rerunColumns, studyRerunListRows, storedRerunDocument, type RerunRecord } from "./rerun-rows.server";
 
 export { computeRerun, reproductionCheckOf, type RerunDocument, type RerunTable } from "./compute-rerun";
 export { getRerun, storedRerunDocument } from "./rerun-rows.server";
@@ -396,15 +396,8 @@ export interface RerunListing {
 
 /** The study's reruns for listing (never their stored results: one of a large rerun is hundreds of MB). */
 export async function listReruns(studyId: string): Promise<RerunListing[]> {
-  const rows = await rerunRows(eq(t.reruns.studyId, studyId), desc(t.reruns.createdAt));
-  const ids = rows.map((r) => r.r.id);
-  const counts = ids.length
-    ? await db
-        .select({ rerunId: t.findings.rerunId })
-        .from(t.findings)
-        .where(inArray(t.findings.rerunId, ids))
-    : [];
-  return rows.map(({ r, m, dv, d, pv, who }) => ({
+  const rows = await studyRerunListRows(studyId);
+  return rows.map(({ r, m, dv, d, pv, who, findings }) => ({
     id: r.id,
     kind: r.kind,
     label: r.label,
@@ -416,7 +409,7 @@ export async function listReruns(studyId: string): Promise<RerunListing[]> {
     planVersion: pv.version,
     createdAt: r.createdAt,
     startedBy: who,
-    findings: counts.filter((c) => c.rerunId === r.id).length,
+    findings,
     signedAt: r.signedAt,
     parentRerunId: r.parentRerunId,
     prespecified: r.prespecified,
