@@ -386,23 +386,23 @@ export function partialResiduals(
 }
 
 /**
- * Partial residuals per term as `partialResiduals` computes them, with the design's columns
- * written again by `column` (the design's storage held Q), as plain arrays for the result.
+ * Partial residuals per term as `partialResiduals` computes them, with the design's columns read
+ * from `column` (the design's storage held Q), as plain arrays for the result.
  */
 export function partialResidualsOfColumns(
-  column: (j: number, out: Float64Array) => void,
+  column: (j: number, scratch: Float64Array) => Float64Array,
   n: number,
   termColumns: readonly (readonly number[])[],
   coefficients: Float64Array,
   residuals: Float64Array,
 ): number[][] {
-  const x = new Float64Array(n);
+  const scratch = new Float64Array(n);
   const values = new Float64Array(n);
   return termColumns.map((cols) => {
     let sum = 0;
     if (cols.length === 1) {
       const b = coefficients[cols[0]];
-      column(cols[0], x);
+      const x = column(cols[0], scratch);
       for (let i = 0; i < n; i++) {
         const v = b * x[i];
         values[i] = v;
@@ -412,7 +412,7 @@ export function partialResidualsOfColumns(
       values.fill(0);
       for (const c of cols) {
         const b = coefficients[c];
-        column(c, x);
+        const x = column(c, scratch);
         for (let i = 0; i < n; i++) values[i] += b * x[i];
       }
       for (let i = 0; i < n; i++) sum += values[i];

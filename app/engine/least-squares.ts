@@ -80,10 +80,13 @@ export function multiply(x: Float64Array, n: number, p: number, b: ArrayLike<num
   return out;
 }
 
-/** Writes design column j (unweighted, length n) into `out`. */
-export type DesignColumnSource = (j: number, out: Float64Array) => void;
+/**
+ * Design column j (unweighted, length n): either an array that already holds it (a variable's
+ * values) or `scratch` with the column written into it. The returned array is only read.
+ */
+export type DesignColumnSource = (j: number, scratch: Float64Array) => Float64Array;
 
-/** X b with X's columns written by `column`, four at a time into a scratch block: the arithmetic of `multiply`. */
+/** X b with X's columns read from `column`, four at a time: the arithmetic of `multiply`. */
 export function multiplyColumns(
   column: DesignColumnSource,
   n: number,
@@ -91,21 +94,22 @@ export function multiplyColumns(
   b: ArrayLike<number>,
 ): Float64Array {
   const out = new Float64Array(n);
-  const x = new Float64Array(n * Math.min(p, 4));
+  const scratch = new Float64Array(n * Math.min(p, 4));
+  const part = (t: number) => scratch.subarray(t * n, (t + 1) * n);
   let j = 0;
   for (; j + 3 < p; j += 4) {
-    for (let t = 0; t < 4; t++) column(j + t, x.subarray(t * n, (t + 1) * n));
+    const x0 = column(j, part(0)),
+      x1 = column(j + 1, part(1)),
+      x2 = column(j + 2, part(2)),
+      x3 = column(j + 3, part(3));
     const b0 = b[j],
       b1 = b[j + 1],
       b2 = b[j + 2],
       b3 = b[j + 3];
-    const o1 = n,
-      o2 = o1 + n,
-      o3 = o2 + n;
-    for (let i = 0; i < n; i++) out[i] += x[i] * b0 + x[o1 + i] * b1 + x[o2 + i] * b2 + x[o3 + i] * b3;
+    for (let i = 0; i < n; i++) out[i] += x0[i] * b0 + x1[i] * b1 + x2[i] * b2 + x3[i] * b3;
   }
   for (; j < p; j++) {
-    column(j, x.subarray(0, n));
+    const x = column(j, part(0));
     const bj = b[j];
     for (let i = 0; i < n; i++) out[i] += x[i] * bj;
   }

@@ -11,7 +11,7 @@ import {
 } from "./adjusted-means";
 import {
   buildDesign,
-  fillDesignColumn,
+  designColumn,
   prepareData,
   type Design,
   type PreparedData,
@@ -197,6 +197,13 @@ function summarizeVariable(v: Variable): VariableSummary {
     : { name: v.name, kind: v.kind, levels: v.levels, reference: v.reference, counts: v.counts };
 }
 
+/** The 1-based data row of each used row (a counted loop, not Array.from over the typed index). */
+function usedRowNumbers(data: PreparedData): number[] {
+  const out = new Array<number>(data.used.length);
+  for (let k = 0; k < out.length; k++) out[k] = data.rowNumbers[data.used[k]];
+  return out;
+}
+
 /** Checks run before the fit: enough rows, a response that varies. */
 function checkEstimable(spec: ModelSpec, data: PreparedData, design: Design): void {
   const n = design.n;
@@ -283,7 +290,7 @@ export function plannedResiduals(
   const { data, fit, weights } = leastSquaresFit(spec, table, options);
   return {
     n: fit.n,
-    row: Array.from(data.used, (i) => data.rowNumbers[i]),
+    row: usedRowNumbers(data),
     fitted: fit.fitted,
     scaledResidual: fit.weightedResiduals,
     weight: weights,
@@ -323,15 +330,19 @@ function fitWithQ(spec: ModelSpec, table: DataTable, options: FitOptions): Fitte
   };
 }
 
-/** Writes design column j from the variables (its factors' product), as buildDesign did. */
+/** Design column j from the variables (its factors' product), as buildDesign wrote it. */
 function designColumnSource(design: Design, data: PreparedData): DesignColumnSource {
-  return (j, out) => fillDesignColumn(out, design.columnFactors[j], data.variables);
+  return (j, scratch) => designColumn(design.columnFactors[j], data.variables, scratch);
 }
 
 /** The whole design (column-major n×p) written again from the variables. */
 function designColumns(column: DesignColumnSource, n: number, p: number): Float64Array {
   const x = new Float64Array(n * p);
-  for (let j = 0; j < p; j++) column(j, x.subarray(j * n, (j + 1) * n));
+  for (let j = 0; j < p; j++) {
+    const target = x.subarray(j * n, (j + 1) * n);
+    const values = column(j, target);
+    if (values !== target) target.set(values);
+  }
   return x;
 }
 
@@ -440,7 +451,7 @@ function assembleResult(fitted: FittedWithoutQ, options: FitOptions): LinearMode
   // after Q was let go, the likelier its 400 MB (at 1 000 000 × 50) are collected before the
   // per-term columns are made
   const columns = {
-    row: Array.from(data.used, (i) => data.rowNumbers[i]),
+    row: usedRowNumbers(data),
     id: [...data.ids],
     response: toNumbers(data.response),
     weight: w ? toNumbers(w) : null,
