@@ -346,6 +346,39 @@ function designColumns(column: DesignColumnSource, n: number, p: number): Float6
   return x;
 }
 
+/**
+ * Σ w (η − η̄)² of the linear predictor η = ŷ − offset, centred on its weighted mean when the
+ * model has an intercept (a small function of its own, so that it is compiled once and kept).
+ */
+function modelSumOfSquares(
+  n: number,
+  fitted: Float64Array,
+  offset: Float64Array | null,
+  w: Float64Array | null,
+  intercept: boolean,
+): number {
+  let sw = 0;
+  let swf = 0;
+  const eta = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    eta[i] = fitted[i] - (offset ? offset[i] : 0);
+    const wi = w ? w[i] : 1;
+    sw += wi;
+    swf += wi * eta[i];
+  }
+  const center = intercept ? swf / sw : 0;
+  let mss = 0;
+  for (let i = 0; i < n; i++) mss += (w ? w[i] : 1) * (eta[i] - center) ** 2;
+  return mss;
+}
+
+/** Σ log wᵢ. */
+function sumOfLogs(n: number, w: Float64Array): number {
+  let s = 0;
+  for (let i = 0; i < n; i++) s += Math.log(w[i]);
+  return s;
+}
+
 function assembleResult(fitted: FittedWithoutQ, options: FitOptions): LinearModelResult {
   const { ctx, diag, robust } = fitted;
   const { spec, data, design, fit, weights } = ctx;
@@ -376,26 +409,14 @@ function assembleResult(fitted: FittedWithoutQ, options: FitOptions): LinearMode
 
   // R², F (weighted sums of squares of the fitted linear predictor, as is usual for weighted fits)
   const w = weights;
-  let sw = 0;
-  let swf = 0;
-  const eta = new Float64Array(n);
-  for (let i = 0; i < n; i++) {
-    eta[i] = fit.fitted[i] - (data.offset ? data.offset[i] : 0);
-    const wi = w ? w[i] : 1;
-    sw += wi;
-    swf += wi * eta[i];
-  }
-  const center = design.intercept ? swf / sw : 0;
-  let mss = 0;
-  for (let i = 0; i < n; i++) mss += (w ? w[i] : 1) * (eta[i] - center) ** 2;
+  const mss = modelSumOfSquares(n, fit.fitted, data.offset, w, design.intercept);
   const rss = fit.rss;
   const dfInt = design.intercept ? 1 : 0;
   const rSquared = mss / (mss + rss);
   const adjRSquared = 1 - ((1 - rSquared) * (n - dfInt)) / df;
   const fDf1 = p - dfInt;
   const fStatistic = fDf1 > 0 ? mss / fDf1 / sigma2 : null;
-  let sumLogW = 0;
-  if (w) for (let i = 0; i < n; i++) sumLogW += Math.log(w[i]);
+  const sumLogW = w ? sumOfLogs(n, w) : 0;
   const logLikelihood = 0.5 * (sumLogW - n * (Math.log(2 * Math.PI) + 1 - Math.log(n) + Math.log(rss)));
 
   const scaled = fit.weightedResiduals;

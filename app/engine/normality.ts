@@ -76,12 +76,13 @@ export function normalityTests(values: ArrayLike<number>): {
 }
 
 function meanSd(x: Float64Array): { mean: number; sd: number } {
+  const n = x.length;
   let s = 0;
-  for (const v of x) s += v;
-  const mean = s / x.length;
+  for (let i = 0; i < n; i++) s += x[i];
+  const mean = s / n;
   let ss = 0;
-  for (const v of x) ss += (v - mean) * (v - mean);
-  return { mean, sd: Math.sqrt(ss / (x.length - 1)) };
+  for (let i = 0; i < n; i++) ss += (x[i] - mean) * (x[i] - mean);
+  return { mean, sd: Math.sqrt(ss / (n - 1)) };
 }
 
 /** Horner evaluation of c[0] + c[1] x + … */
