@@ -3,6 +3,7 @@
  * (Belsley, Kuh and Welsch 1980, Regression Diagnostics, chapter 2; Cook 1977).
  * With prior weights the scaled quantities use the weighted residual √w·e.
  */
+import { numberArray } from "./data";
 import type { LeastSquaresFit } from "./least-squares";
 
 export interface ObservationDiagnostics {
@@ -94,7 +95,7 @@ export function observationDiagnostics(
     rowFactor: new Float64Array(n),
   };
   const dfbetas: number[][] = [];
-  for (let j = 0; j < p; j++) dfbetas.push(new Array<number>(n));
+  for (let j = 0; j < p; j++) dfbetas.push(numberArray(n));
   const scale = new Float64Array(p);
   for (let j = 0; j < p; j++) scale[j] = 1 / Math.sqrt(unscaledCovariance[j * p + j]);
   const robust = options.robust;
@@ -512,7 +513,7 @@ export function partialResidualsOfColumns(
       for (let i = 0; i < n; i++) sum += values[i];
     }
     const mean = sum / n;
-    const out = new Array<number>(n);
+    const out = numberArray(n);
     for (let i = 0; i < n; i++) out[i] = values[i] + (residuals[i] - mean);
     return out;
   });

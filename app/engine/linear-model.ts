@@ -320,14 +320,29 @@ function fitWithQ(spec: ModelSpec, table: DataTable, options: FitOptions): Fitte
   const bp = weights
     ? breuschPagan(scaled, designColumns(column, n, p), n, p)
     : breuschPaganOnBasis(scaled, fit.q, n, p);
+  const reset = resetTest(ctx);
+  const slopes = homogeneityOfSlopes(ctx);
+  // nothing reads Q (the design's storage) from here on: its memory is given back now, not at
+  // the next full collection, before the result's per-term columns are made
+  releaseNow(design.x);
   return {
     ctx: { ...ctx, design: { ...design, x: RELEASED }, fit: { ...fit, q: RELEASED } },
     diag,
     robust: diag.robust as RobustCovarianceParts,
     breuschPagan: bp,
-    reset: resetTest(ctx),
-    homogeneityOfSlopes: homogeneityOfSlopes(ctx),
+    reset,
+    homogeneityOfSlopes: slopes,
   };
+}
+
+/**
+ * Hands an array's buffer to a clone that nothing keeps: the array reads as empty from then on,
+ * and its memory goes with the clone at the next minor collection instead of waiting for a full
+ * one (the buffer, made early in the fit, is old by then). At 1 000 000 × 50 this is 400 MB.
+ */
+function releaseNow(x: Float64Array): void {
+  if (x.byteLength > 0 && typeof structuredClone === "function")
+    structuredClone(x.buffer, { transfer: [x.buffer] });
 }
 
 /** Design column j from the variables (its factors' product), as buildDesign wrote it. */
