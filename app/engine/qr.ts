@@ -101,12 +101,37 @@ export function householderQR(
  * with the implied unit diagonal and the zeros above it written out; missing reflectors are zero.
  */
 function loadBlock(qr: Float64Array, n: number, k0: number, k1: number, vbuf: Float64Array): void {
-  vbuf.fill(0, 0, (n - k0) * BLOCK);
-  for (let m = 0; m < k1 - k0; m++) {
+  const count = k1 - k0;
+  // the block's own rows: unit diagonal, zeros above it, reflector entries below
+  const top = Math.min(n, k0 + BLOCK);
+  vbuf.fill(0, 0, (top - k0) * BLOCK);
+  for (let m = 0; m < count; m++) {
     const col = (k0 + m) * n;
-    const diag = k0 + m;
     vbuf[m * BLOCK + m] = 1;
-    for (let i = diag + 1; i < n; i++) vbuf[(i - k0) * BLOCK + m] = qr[col + i];
+    for (let i = k0 + m + 1; i < top; i++) vbuf[(i - k0) * BLOCK + m] = qr[col + i];
+  }
+  // the rows below, four reflectors per row in one pass
+  if (count === BLOCK) interleaveRows(qr, n, k0, top, vbuf);
+  else {
+    vbuf.fill(0, (top - k0) * BLOCK, (n - k0) * BLOCK);
+    for (let m = 0; m < count; m++) {
+      const col = (k0 + m) * n;
+      for (let i = top; i < n; i++) vbuf[(i - k0) * BLOCK + m] = qr[col + i];
+    }
+  }
+}
+
+/** vbuf row (i − k0) = the four reflectors k0..k0+3 at row i, for rows from..n−1. */
+function interleaveRows(qr: Float64Array, n: number, k0: number, from: number, vbuf: Float64Array): void {
+  const c0 = k0 * n,
+    c1 = c0 + n,
+    c2 = c1 + n,
+    c3 = c2 + n;
+  for (let i = from, r = (from - k0) * BLOCK; i < n; i++, r += BLOCK) {
+    vbuf[r] = qr[c0 + i];
+    vbuf[r + 1] = qr[c1 + i];
+    vbuf[r + 2] = qr[c2 + i];
+    vbuf[r + 3] = qr[c3 + i];
   }
 }
 
