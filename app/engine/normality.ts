@@ -6,6 +6,7 @@
  * 1974's modified statistic above p = 0.1).
  */
 import { normalQuantile, normalUpper } from "./distributions";
+import { sortNumbers } from "./sort-numbers";
 
 export interface NormalityTest {
   readonly statistic: number | null;
@@ -24,7 +25,7 @@ function notComputed(reason: string): NormalityTest {
 }
 
 function sorted(values: ArrayLike<number>): Float64Array {
-  return Float64Array.from(values).sort();
+  return sortNumbers(Float64Array.from(values));
 }
 
 /**

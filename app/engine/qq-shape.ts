@@ -26,6 +26,7 @@
  */
 import { quantileSorted } from "d3-array";
 import { normalDensity, normalQuantile } from "./distributions";
+import { sortNumbers } from "./sort-numbers";
 
 export type QqReading =
   | "close to normal"
@@ -187,7 +188,7 @@ function finiteSorted(residuals: ArrayLike<number>): Float64Array {
   const out = new Float64Array(count);
   for (let i = 0, k = 0; i < residuals.length; i++)
     if (Number.isFinite(residuals[i])) out[k++] = residuals[i];
-  return out.sort();
+  return sortNumbers(out);
 }
 
 /** Reads the Q-Q shape of a set of residuals (at least 8 for a reading other than "close to normal"). */
