@@ -20,6 +20,9 @@ const ENGINE_PACKAGES = [
   "d3-array",
   "jstat",
   "@stdlib/math-base-special-betainc",
+  // the normal quantile: accurate to 4e-16 and seven times faster than jstat's value polished by
+  // Newton steps on Φ (distributions.ts); the Q-Q reading takes one per residual
+  "@stdlib/math-base-special-erfcinv",
   "@stdlib/math-base-special-gammainc",
   "@stdlib/stats-lowess",
 ];

@@ -9,6 +9,8 @@
  *   npm run bench:engine             every case
  *   npm run bench:engine -- --quick  the 10 000-row case only
  *   npm run bench:engine -- --rerun  the whole-rerun line only
+ *   npm run bench:engine -- --case 200000 22 [--treatment]
+ *                                    one case beside R (n, covariates), no further lines
  *
  * Cases (invented data, seeded; a three-level arm and normal covariates):
  *   n = 10 000, 200 000 and 1 000 000 with p = 25 (the arm as a factor and 22 covariates),
@@ -205,15 +207,18 @@ function main(): void {
     writeNumbers({ n: Number(args[1]), covariates: Number(args[2]), treatment: false }, args[3]);
     return;
   }
-  const cases: Case[] = args.includes("--quick")
-    ? [{ n: 10_000, covariates: 22, treatment: false }]
-    : [
-        { n: 10_000, covariates: 22, treatment: false },
-        { n: 200_000, covariates: 22, treatment: false },
-        { n: 1_000_000, covariates: 22, treatment: false },
-        { n: 1_000_000, covariates: 47, treatment: false },
-        { n: 200_000, covariates: 8, treatment: true },
-      ];
+  const only = args[0] === "--case";
+  const cases: Case[] = only
+    ? [{ n: Number(args[1]), covariates: Number(args[2]), treatment: args.includes("--treatment") }]
+    : args.includes("--quick")
+      ? [{ n: 10_000, covariates: 22, treatment: false }]
+      : [
+          { n: 10_000, covariates: 22, treatment: false },
+          { n: 200_000, covariates: 22, treatment: false },
+          { n: 1_000_000, covariates: 22, treatment: false },
+          { n: 1_000_000, covariates: 47, treatment: false },
+          { n: 200_000, covariates: 8, treatment: true },
+        ];
   const withR = haveR();
   const dir = mkdtempSync(join(tmpdir(), "plumbline-bench-"));
   const rScript = join(dir, "bench.R");
@@ -278,6 +283,7 @@ function main(): void {
   console.log(
     "targets: engine/R at most 0.5 at n = 200 000 (p = 25, and treatment + 8 covariates); peak RSS within 1536 MiB at n = 1 000 000, p = 50",
   );
+  if (only) return;
   benchWholeRerun();
   console.log(`load average: ${load()}`);
   benchCox(withR);

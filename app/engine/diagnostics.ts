@@ -3,6 +3,7 @@
  * (Belsley, Kuh and Welsch 1980, Regression Diagnostics, chapter 2; Cook 1977).
  * With prior weights the scaled quantities use the weighted residual √w·e.
  */
+import { numberArray } from "./data";
 import type { LeastSquaresFit } from "./least-squares";
 
 export interface ObservationDiagnostics {
@@ -28,16 +29,18 @@ export interface ObservationDiagnostics {
 /** Leverages above this are treated as 1 (the point fixes its own fitted value). */
 const LEVERAGE_ONE = 1 - 10 * Number.EPSILON;
 
-/** Hat-matrix diagonal from the thin Q (n×p column-major). */
-export function leverages(q: Float64Array, n: number, p: number): Float64Array {
-  const h = new Float64Array(n);
+/**
+ * Hat-matrix diagonal hᵢ = Σₖ Q²ᵢₖ of rows r0..r1−1 from the thin Q (n×p column-major), four
+ * columns of Q per pass over the rows.
+ */
+function leverageRows(q: Float64Array, n: number, p: number, r0: number, r1: number, h: Float64Array): void {
   let k = 0;
   for (; k + 3 < p; k += 4) {
     const o0 = k * n,
       o1 = o0 + n,
       o2 = o1 + n,
       o3 = o2 + n;
-    for (let i = 0; i < n; i++) {
+    for (let i = r0; i < r1; i++) {
       const a = q[o0 + i],
         b = q[o1 + i],
         c = q[o2 + i],
@@ -47,10 +50,9 @@ export function leverages(q: Float64Array, n: number, p: number): Float64Array {
   }
   for (; k < p; k++) {
     const off = k * n;
-    for (let i = 0; i < n; i++) h[i] += q[off + i] * q[off + i];
+    for (let i = r0; i < r1; i++) h[i] += q[off + i] * q[off + i];
   }
-  for (let i = 0; i < n; i++) if (h[i] > LEVERAGE_ONE) h[i] = 1;
-  return h;
+  for (let i = r0; i < r1; i++) if (h[i] > LEVERAGE_ONE) h[i] = 1;
 }
 
 /** The heteroscedasticity-consistent covariance types. */
@@ -71,6 +73,11 @@ export interface RobustCovarianceParts {
  * ẽᵢ²·n/(n−p), ẽᵢ²/(1−hᵢ), ẽᵢ²/(1−hᵢ)², ẽ = √w e. U is what DFBETAS scales, so it is made once,
  * a chunk of rows at a time (never as an n×p array); only the diagonals are summed for the types
  * whose full matrix is not asked for (the standard errors read no more).
+ *
+ * Q is read from memory once: each chunk of rows makes its leverages, then the per-row
+ * quantities, U, DFBETAS and the robust sums while the chunk of Q is in cache. Each step is a
+ * small function of its own, which the JavaScript engine optimizes once and keeps (the same
+ * loops inside one long function were recompiled and ran unoptimized for part of every fit).
  */
 export function observationDiagnostics(
   fit: LeastSquaresFit,
@@ -78,15 +85,88 @@ export function observationDiagnostics(
 ): ObservationDiagnostics & { readonly robust?: RobustCovarianceParts } {
   const { n, p, q, rInverse, unscaledCovariance, sigma, dfResidual } = fit;
   const e = fit.weightedResiduals;
-  const h = leverages(q, n, p);
-  const internal = new Float64Array(n);
-  const external = new Float64Array(n);
-  const deletionSigma = new Float64Array(n);
-  const cook = new Float64Array(n);
-  const dffits = new Float64Array(n);
-  const rowFactor = new Float64Array(n);
+  const rows: RowDiagnostics = {
+    h: new Float64Array(n),
+    internal: new Float64Array(n),
+    external: new Float64Array(n),
+    deletionSigma: new Float64Array(n),
+    cook: new Float64Array(n),
+    dffits: new Float64Array(n),
+    rowFactor: new Float64Array(n),
+  };
+  const dfbetas: number[][] = [];
+  for (let j = 0; j < p; j++) dfbetas.push(numberArray(n));
+  const scale = new Float64Array(p);
+  for (let j = 0; j < p; j++) scale[j] = 1 / Math.sqrt(unscaledCovariance[j * p + j]);
+  const robust = options.robust;
+  // ω of HC0, HC2 and HC3 per row; HC1 is HC0 times n/(n − p)
+  const fullTypes = robust
+    ? (["HC0", "HC2", "HC3"] as const).filter(
+        (t) => robust.full.includes(t) || (t === "HC0" && robust.full.includes("HC1")),
+      )
+    : [];
+  const diag = robust ? [new Float64Array(p), new Float64Array(p), new Float64Array(p)] : [];
+  const gram = fullTypes.map(() => new Float64Array(p * p));
+  const omega = [new Float64Array(CHUNK), new Float64Array(CHUNK), new Float64Array(CHUNK)];
+  // U = Q R⁻ᵀ for a chunk of rows, column j at j·CHUNK
+  const u = new Float64Array(p * CHUNK);
+  const weighted = new Float64Array(p * CHUNK);
+  for (let r0 = 0; r0 < n; r0 += CHUNK) {
+    const r1 = Math.min(n, r0 + CHUNK);
+    const len = r1 - r0;
+    leverageRows(q, n, p, r0, r1, rows.h);
+    rowDiagnostics(e, sigma, dfResidual, p, r0, r1, rows);
+    influenceRows(q, n, p, rInverse, r0, r1, u);
+    // DFBETAS column j = U[:, j] · rowFactor / √Cⱼⱼ
+    for (let j = 0; j < p; j++) scaleRows(u, j * CHUNK, rows.rowFactor, scale[j], r0, r1, dfbetas[j]);
+    if (!robust) continue;
+    robustWeights(e, rows.h, r0, r1, omega[0], omega[1], omega[2]);
+    addWeightedSquares(u, p, len, omega[0], omega[1], omega[2], diag[0], diag[1], diag[2]);
+    fullTypes.forEach((type, t) => {
+      const w = omega[type === "HC0" ? 0 : type === "HC2" ? 1 : 2];
+      weightRows(u, p, len, w, weighted);
+      addCrossProducts(weighted, u, p, len, gram[t]);
+    });
+  }
+  return {
+    leverage: rows.h,
+    studentizedInternal: rows.internal,
+    studentizedExternal: rows.external,
+    deletionSigma: rows.deletionSigma,
+    cooksDistance: rows.cook,
+    dffits: rows.dffits,
+    dfbetas,
+    ...(robust ? { robust: robustParts(diag, fullTypes, gram, n, p) } : {}),
+  };
+}
+
+/** Rows per chunk of the pass that makes U = Q R⁻ᵀ (p columns of it stay in cache). */
+const CHUNK = 256;
+
+/** The per-row arrays of observationDiagnostics, and DFBETAS' row factor √w e / ((1 − h) σ̂₍ᵢ₎). */
+interface RowDiagnostics {
+  readonly h: Float64Array;
+  readonly internal: Float64Array;
+  readonly external: Float64Array;
+  readonly deletionSigma: Float64Array;
+  readonly cook: Float64Array;
+  readonly dffits: Float64Array;
+  readonly rowFactor: Float64Array;
+}
+
+/** Studentized residuals, deletion σ̂, Cook's distance, DFFITS and DFBETAS' row factor for rows r0..r1−1 (h made). */
+function rowDiagnostics(
+  e: Float64Array,
+  sigma: number,
+  dfResidual: number,
+  p: number,
+  r0: number,
+  r1: number,
+  out: RowDiagnostics,
+): void {
+  const { h, internal, external, deletionSigma, cook, dffits, rowFactor } = out;
   const rssTotal = dfResidual * sigma * sigma;
-  for (let i = 0; i < n; i++) {
+  for (let i = r0; i < r1; i++) {
     const oneMinusH = 1 - h[i];
     if (oneMinusH <= 0) {
       internal[i] = external[i] = cook[i] = dffits[i] = rowFactor[i] = NaN;
@@ -104,99 +184,114 @@ export function observationDiagnostics(
     dffits[i] = t * Math.sqrt(h[i] / oneMinusH);
     rowFactor[i] = e[i] / (oneMinusH * si);
   }
-  const dfbetas: number[][] = [];
-  for (let j = 0; j < p; j++) dfbetas.push(new Array<number>(n));
-  const scale = new Float64Array(p);
-  for (let j = 0; j < p; j++) scale[j] = 1 / Math.sqrt(unscaledCovariance[j * p + j]);
-  const robust = options.robust;
-  // ω of HC0, HC2 and HC3 per row; HC1 is HC0 times n/(n − p)
-  const fullTypes = robust
-    ? (["HC0", "HC2", "HC3"] as const).filter(
-        (t) => robust.full.includes(t) || (t === "HC0" && robust.full.includes("HC1")),
-      )
-    : [];
-  const diag = robust ? [new Float64Array(p), new Float64Array(p), new Float64Array(p)] : [];
-  const gram = fullTypes.map(() => new Float64Array(p * p));
-  const omega = [new Float64Array(CHUNK), new Float64Array(CHUNK), new Float64Array(CHUNK)];
-  // U = Q R⁻ᵀ for a chunk of rows, column j at j·CHUNK: U[:, j] = Σ_{k≥j} Q[:, k] R⁻¹[j, k],
-  // four columns of Q per pass; the chunk of Q stays in cache while every column of U is made
-  const u = new Float64Array(p * CHUNK);
-  const weighted = new Float64Array(p * CHUNK);
-  for (let r0 = 0; r0 < n; r0 += CHUNK) {
-    const r1 = Math.min(n, r0 + CHUNK);
-    const len = r1 - r0;
-    u.fill(0);
-    for (let j = 0; j < p; j++) {
-      const uo = j * CHUNK - r0;
-      let k = j;
-      for (; k + 3 < p; k += 4) {
-        const c0 = rInverse[k * p + j];
-        const c1 = rInverse[(k + 1) * p + j];
-        const c2 = rInverse[(k + 2) * p + j];
-        const c3 = rInverse[(k + 3) * p + j];
-        const o0 = k * n;
-        const o1 = o0 + n;
-        const o2 = o1 + n;
-        const o3 = o2 + n;
-        for (let i = r0; i < r1; i++)
-          u[uo + i] += q[o0 + i] * c0 + q[o1 + i] * c1 + q[o2 + i] * c2 + q[o3 + i] * c3;
-      }
-      for (; k < p; k++) {
-        const c = rInverse[k * p + j];
-        const off = k * n;
-        for (let i = r0; i < r1; i++) u[uo + i] += q[off + i] * c;
-      }
-      // DFBETAS column j = U[:, j] · rowFactor / √Cⱼⱼ
-      const col = dfbetas[j];
-      const sj = scale[j];
-      for (let i = r0; i < r1; i++) col[i] = u[uo + i] * (rowFactor[i] * sj);
-    }
-    if (!robust) continue;
-    for (let i = r0; i < r1; i++) {
-      const e2 = e[i] * e[i];
-      const m = 1 - h[i];
-      omega[0][i - r0] = e2;
-      omega[1][i - r0] = e2 / m;
-      omega[2][i - r0] = e2 / (m * m);
-    }
-    for (let j = 0; j < p; j++) {
-      const uo = j * CHUNK;
-      let d0 = 0;
-      let d2 = 0;
-      let d3 = 0;
-      for (let i = 0; i < len; i++) {
-        const v = u[uo + i] * u[uo + i];
-        d0 += v * omega[0][i];
-        d2 += v * omega[1][i];
-        d3 += v * omega[2][i];
-      }
-      diag[0][j] += d0;
-      diag[1][j] += d2;
-      diag[2][j] += d3;
-    }
-    fullTypes.forEach((type, t) => {
-      const w = omega[type === "HC0" ? 0 : type === "HC2" ? 1 : 2];
-      for (let j = 0; j < p; j++) {
-        const uo = j * CHUNK;
-        for (let i = 0; i < len; i++) weighted[uo + i] = u[uo + i] * w[i];
-      }
-      addCrossProducts(weighted, u, p, len, gram[t]);
-    });
-  }
-  return {
-    leverage: h,
-    studentizedInternal: internal,
-    studentizedExternal: external,
-    deletionSigma,
-    cooksDistance: cook,
-    dffits,
-    dfbetas,
-    ...(robust ? { robust: robustParts(diag, fullTypes, gram, n, p) } : {}),
-  };
 }
 
-/** Rows per chunk of the pass that makes U = Q R⁻ᵀ (p columns of it stay in cache). */
-const CHUNK = 256;
+/**
+ * U = Q R⁻ᵀ for rows r0..r1−1, column j at j·CHUNK: U[:, j] = Σ_{k≥j} Q[:, k] R⁻¹[j, k], four
+ * columns of Q per pass; the chunk of Q stays in cache while every column of U is made.
+ */
+function influenceRows(
+  q: Float64Array,
+  n: number,
+  p: number,
+  rInverse: Float64Array,
+  r0: number,
+  r1: number,
+  u: Float64Array,
+): void {
+  u.fill(0);
+  for (let j = 0; j < p; j++) {
+    const uo = j * CHUNK - r0;
+    let k = j;
+    for (; k + 3 < p; k += 4) {
+      const c0 = rInverse[k * p + j];
+      const c1 = rInverse[(k + 1) * p + j];
+      const c2 = rInverse[(k + 2) * p + j];
+      const c3 = rInverse[(k + 3) * p + j];
+      const o0 = k * n;
+      const o1 = o0 + n;
+      const o2 = o1 + n;
+      const o3 = o2 + n;
+      for (let i = r0; i < r1; i++)
+        u[uo + i] += q[o0 + i] * c0 + q[o1 + i] * c1 + q[o2 + i] * c2 + q[o3 + i] * c3;
+    }
+    for (; k < p; k++) {
+      const c = rInverse[k * p + j];
+      const off = k * n;
+      for (let i = r0; i < r1; i++) u[uo + i] += q[off + i] * c;
+    }
+  }
+}
+
+/** out[i] = U[i, ·] at `uo` · (rowFactor[i] · s) for rows r0..r1−1. */
+function scaleRows(
+  u: Float64Array,
+  uo: number,
+  rowFactor: Float64Array,
+  s: number,
+  r0: number,
+  r1: number,
+  out: number[],
+): void {
+  const shift = uo - r0;
+  for (let i = r0; i < r1; i++) out[i] = u[shift + i] * (rowFactor[i] * s);
+}
+
+/** ω of HC0, HC2 and HC3 for rows r0..r1−1, from the chunk's start. */
+function robustWeights(
+  e: Float64Array,
+  h: Float64Array,
+  r0: number,
+  r1: number,
+  w0: Float64Array,
+  w2: Float64Array,
+  w3: Float64Array,
+): void {
+  for (let i = r0; i < r1; i++) {
+    const e2 = e[i] * e[i];
+    const m = 1 - h[i];
+    w0[i - r0] = e2;
+    w2[i - r0] = e2 / m;
+    w3[i - r0] = e2 / (m * m);
+  }
+}
+
+/** dₜ[j] += Σᵢ U[i, j]² ωₜ[i] over a chunk, for the three weightings. */
+function addWeightedSquares(
+  u: Float64Array,
+  p: number,
+  len: number,
+  w0: Float64Array,
+  w2: Float64Array,
+  w3: Float64Array,
+  diag0: Float64Array,
+  diag2: Float64Array,
+  diag3: Float64Array,
+): void {
+  for (let j = 0; j < p; j++) {
+    const uo = j * CHUNK;
+    let d0 = 0;
+    let d2 = 0;
+    let d3 = 0;
+    for (let i = 0; i < len; i++) {
+      const v = u[uo + i] * u[uo + i];
+      d0 += v * w0[i];
+      d2 += v * w2[i];
+      d3 += v * w3[i];
+    }
+    diag0[j] += d0;
+    diag2[j] += d2;
+    diag3[j] += d3;
+  }
+}
+
+/** out[i, j] = U[i, j] ω[i] over a chunk. */
+function weightRows(u: Float64Array, p: number, len: number, w: Float64Array, out: Float64Array): void {
+  for (let j = 0; j < p; j++) {
+    const uo = j * CHUNK;
+    for (let i = 0; i < len; i++) out[uo + i] = u[uo + i] * w[i];
+  }
+}
 
 /** G[a, b] += Σᵢ A[i, a] B[i, b] for b ≥ a over a chunk (columns at a·CHUNK), four columns of B at a time. */
 function addCrossProducts(a: Float64Array, b: Float64Array, p: number, len: number, g: Float64Array): void {
@@ -386,23 +481,23 @@ export function partialResiduals(
 }
 
 /**
- * Partial residuals per term as `partialResiduals` computes them, with the design's columns
- * written again by `column` (the design's storage held Q), as plain arrays for the result.
+ * Partial residuals per term as `partialResiduals` computes them, with the design's columns read
+ * from `column` (the design's storage held Q), as plain arrays for the result.
  */
 export function partialResidualsOfColumns(
-  column: (j: number, out: Float64Array) => void,
+  column: (j: number, scratch: Float64Array) => Float64Array,
   n: number,
   termColumns: readonly (readonly number[])[],
   coefficients: Float64Array,
   residuals: Float64Array,
 ): number[][] {
-  const x = new Float64Array(n);
+  const scratch = new Float64Array(n);
   const values = new Float64Array(n);
   return termColumns.map((cols) => {
     let sum = 0;
     if (cols.length === 1) {
       const b = coefficients[cols[0]];
-      column(cols[0], x);
+      const x = column(cols[0], scratch);
       for (let i = 0; i < n; i++) {
         const v = b * x[i];
         values[i] = v;
@@ -412,13 +507,13 @@ export function partialResidualsOfColumns(
       values.fill(0);
       for (const c of cols) {
         const b = coefficients[c];
-        column(c, x);
+        const x = column(c, scratch);
         for (let i = 0; i < n; i++) values[i] += b * x[i];
       }
       for (let i = 0; i < n; i++) sum += values[i];
     }
     const mean = sum / n;
-    const out = new Array<number>(n);
+    const out = numberArray(n);
     for (let i = 0; i < n; i++) out[i] = values[i] + (residuals[i] - mean);
     return out;
   });

@@ -8,11 +8,16 @@
  * 5e-14 (chi-square) and 9e-14 (normal) (tests/engine/distribution-tails.test.ts).
  * jstat's own tails are 1 - cdf (1 - F cdf at F = 200 on 3 and 40 df gives 0; R: 4.1e-24) and
  * its continued fraction stops at 3e-7 relative change, so it is used only for the log-gamma
- * function and for starting values of quantiles. Its t and normal quantiles were off by 7e-9 and
- * 5e-10 relative (qt(0.975, 7), qnorm(1e-10)); they are polished here by Newton steps on the
- * accurate distribution functions.
+ * function and for starting values of t quantiles. Its t quantiles were off by 7e-9 relative
+ * (qt(0.975, 7)); they are polished here by Newton steps on the accurate distribution function.
+ * The normal quantile is @stdlib's inverse complementary error function (Boost's rational
+ * approximations): against 50-digit mpmath values at about 2 400 probabilities from 1e-300 to 0.5 its
+ * largest relative error was 4e-16 above 1e-15 and 7e-14 below; jstat's value polished by Newton
+ * steps on Φ, used before, was off by up to 1e-12 near 0.5 and 4e-8 near 1e-18, and took seven
+ * times as long (the Q-Q reading evaluates one per residual).
  */
 import betainc from "@stdlib/math-base-special-betainc";
+import erfcinv from "@stdlib/math-base-special-erfcinv";
 import gammainc from "@stdlib/math-base-special-gammainc";
 import jStat from "jstat";
 
@@ -57,18 +62,13 @@ export function normalDensity(z: number): number {
   return Math.exp(-0.5 * z * z) / Math.sqrt(2 * Math.PI);
 }
 
-/** Standard normal quantile Φ⁻¹(p): jstat's value polished by Newton steps on Φ. */
+/** Standard normal quantile Φ⁻¹(p) = −√2 erfc⁻¹(2p). */
 export function normalQuantile(p: number): number {
+  if (Number.isNaN(p)) return NaN;
   if (p <= 0) return -Infinity;
   if (p >= 1) return Infinity;
   if (p > 0.5) return -normalQuantile(1 - p);
-  let x = jStat.normal.inv(p, 0, 1);
-  for (let i = 0; i < 4; i++) {
-    const step = (normalCdf(x) - p) / normalDensity(x);
-    x -= step;
-    if (Math.abs(step) <= Math.abs(x) * 1e-16) break;
-  }
-  return x;
+  return -Math.SQRT2 * erfcinv(2 * p);
 }
 
 /** Upper tail P(T > t) of Student's t on df degrees of freedom, accurate down to about 1e-300. */

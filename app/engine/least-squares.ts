@@ -80,10 +80,13 @@ export function multiply(x: Float64Array, n: number, p: number, b: ArrayLike<num
   return out;
 }
 
-/** Writes design column j (unweighted, length n) into `out`. */
-export type DesignColumnSource = (j: number, out: Float64Array) => void;
+/**
+ * Design column j (unweighted, length n): either an array that already holds it (a variable's
+ * values) or `scratch` with the column written into it. The returned array is only read.
+ */
+export type DesignColumnSource = (j: number, scratch: Float64Array) => Float64Array;
 
-/** X b with X's columns written by `column`, four at a time into a scratch block: the arithmetic of `multiply`. */
+/** X b with X's columns read from `column`, four at a time: the arithmetic of `multiply`. */
 export function multiplyColumns(
   column: DesignColumnSource,
   n: number,
@@ -91,21 +94,22 @@ export function multiplyColumns(
   b: ArrayLike<number>,
 ): Float64Array {
   const out = new Float64Array(n);
-  const x = new Float64Array(n * Math.min(p, 4));
+  const scratch = new Float64Array(n * Math.min(p, 4));
+  const part = (t: number) => scratch.subarray(t * n, (t + 1) * n);
   let j = 0;
   for (; j + 3 < p; j += 4) {
-    for (let t = 0; t < 4; t++) column(j + t, x.subarray(t * n, (t + 1) * n));
+    const x0 = column(j, part(0)),
+      x1 = column(j + 1, part(1)),
+      x2 = column(j + 2, part(2)),
+      x3 = column(j + 3, part(3));
     const b0 = b[j],
       b1 = b[j + 1],
       b2 = b[j + 2],
       b3 = b[j + 3];
-    const o1 = n,
-      o2 = o1 + n,
-      o3 = o2 + n;
-    for (let i = 0; i < n; i++) out[i] += x[i] * b0 + x[o1 + i] * b1 + x[o2 + i] * b2 + x[o3 + i] * b3;
+    for (let i = 0; i < n; i++) out[i] += x0[i] * b0 + x1[i] * b1 + x2[i] * b2 + x3[i] * b3;
   }
   for (; j < p; j++) {
-    column(j, x.subarray(0, n));
+    const x = column(j, part(0));
     const bj = b[j];
     for (let i = 0; i < n; i++) out[i] += x[i] * bj;
   }
@@ -127,9 +131,8 @@ export function leastSquares(
   const regenerate = overwrite ? options.designColumns : undefined;
   const sw = input.weights ? input.weights.map(Math.sqrt) : null;
   const xw = overwrite ? x : new Float64Array(x);
-  if (sw) for (let j = 0; j < p; j++) for (let i = 0; i < n; i++) xw[j * n + i] *= sw[i];
-  const z = new Float64Array(n);
-  for (let i = 0; i < n; i++) z[i] = (y[i] - (input.offset ? input.offset[i] : 0)) * (sw ? sw[i] : 1);
+  if (sw) for (let j = 0; j < p; j++) scaleRows(xw, j * n, n, sw);
+  const z = workingResponse(n, y, input.offset ?? null, sw);
 
   const qty = new Float64Array(z);
   const f = householderQR(xw, n, p, { inPlace: true, tolerance, rhs: qty });
@@ -149,7 +152,7 @@ export function leastSquares(
       rb[i] = s;
     }
     fitted = multiply(q, n, p, rb);
-    if (sw) for (let i = 0; i < n; i++) fitted[i] /= sw[i];
+    if (sw) divideRows(fitted, n, sw);
   } else {
     // one refinement step: b += R⁻¹ Q' (z − √W X b)
     const times = (v: Float64Array) =>
@@ -161,13 +164,7 @@ export function leastSquares(
   }
   const residuals = new Float64Array(n);
   const weighted = new Float64Array(n);
-  let rss = 0;
-  for (let i = 0; i < n; i++) {
-    if (input.offset) fitted[i] += input.offset[i];
-    residuals[i] = y[i] - fitted[i];
-    weighted[i] = sw ? residuals[i] * sw[i] : residuals[i];
-    rss += weighted[i] * weighted[i];
-  }
+  const rss = residualRows(n, y, input.offset ?? null, sw, fitted, residuals, weighted);
   const rInverse = invertUpper(r, p);
   const unscaledCovariance = crossInverse(rInverse, p);
   const dfResidual = n - p;
@@ -191,6 +188,51 @@ export function leastSquares(
       designOverwritten: overwrite,
     },
   };
+}
+
+// The loops over rows below are small functions of their own, which the JavaScript engine
+// optimizes once and keeps (inside leastSquares they were recompiled during every fit).
+
+/** x[off + i] *= s[i] for the n rows of one column. */
+function scaleRows(x: Float64Array, off: number, n: number, s: Float64Array): void {
+  for (let i = 0; i < n; i++) x[off + i] *= s[i];
+}
+
+/** x[i] /= s[i]. */
+function divideRows(x: Float64Array, n: number, s: Float64Array): void {
+  for (let i = 0; i < n; i++) x[i] /= s[i];
+}
+
+/** z = √w (y − offset). */
+function workingResponse(
+  n: number,
+  y: Float64Array,
+  offset: Float64Array | null,
+  sw: Float64Array | null,
+): Float64Array {
+  const z = new Float64Array(n);
+  for (let i = 0; i < n; i++) z[i] = (y[i] - (offset ? offset[i] : 0)) * (sw ? sw[i] : 1);
+  return z;
+}
+
+/** Adds the offset to the fitted values, writes e = y − ŷ and √w e; returns Σ w e². */
+function residualRows(
+  n: number,
+  y: Float64Array,
+  offset: Float64Array | null,
+  sw: Float64Array | null,
+  fitted: Float64Array,
+  residuals: Float64Array,
+  weighted: Float64Array,
+): number {
+  let rss = 0;
+  for (let i = 0; i < n; i++) {
+    if (offset) fitted[i] += offset[i];
+    residuals[i] = y[i] - fitted[i];
+    weighted[i] = sw ? residuals[i] * sw[i] : residuals[i];
+    rss += weighted[i] * weighted[i];
+  }
+  return rss;
 }
 
 /** z − √W (X b), written over X b. */

@@ -11,7 +11,7 @@ import {
 } from "./adjusted-means";
 import {
   buildDesign,
-  fillDesignColumn,
+  designColumn,
   prepareData,
   type Design,
   type PreparedData,
@@ -197,6 +197,13 @@ function summarizeVariable(v: Variable): VariableSummary {
     : { name: v.name, kind: v.kind, levels: v.levels, reference: v.reference, counts: v.counts };
 }
 
+/** The 1-based data row of each used row (a counted loop, not Array.from over the typed index). */
+function usedRowNumbers(data: PreparedData): number[] {
+  const out = new Array<number>(data.used.length);
+  for (let k = 0; k < out.length; k++) out[k] = data.rowNumbers[data.used[k]];
+  return out;
+}
+
 /** Checks run before the fit: enough rows, a response that varies. */
 function checkEstimable(spec: ModelSpec, data: PreparedData, design: Design): void {
   const n = design.n;
@@ -283,7 +290,7 @@ export function plannedResiduals(
   const { data, fit, weights } = leastSquaresFit(spec, table, options);
   return {
     n: fit.n,
-    row: Array.from(data.used, (i) => data.rowNumbers[i]),
+    row: usedRowNumbers(data),
     fitted: fit.fitted,
     scaledResidual: fit.weightedResiduals,
     weight: weights,
@@ -313,26 +320,78 @@ function fitWithQ(spec: ModelSpec, table: DataTable, options: FitOptions): Fitte
   const bp = weights
     ? breuschPagan(scaled, designColumns(column, n, p), n, p)
     : breuschPaganOnBasis(scaled, fit.q, n, p);
+  const reset = resetTest(ctx);
+  const slopes = homogeneityOfSlopes(ctx);
+  // nothing reads Q (the design's storage) from here on: its memory is given back now, not at
+  // the next full collection, before the result's per-term columns are made
+  releaseNow(design.x);
   return {
     ctx: { ...ctx, design: { ...design, x: RELEASED }, fit: { ...fit, q: RELEASED } },
     diag,
     robust: diag.robust as RobustCovarianceParts,
     breuschPagan: bp,
-    reset: resetTest(ctx),
-    homogeneityOfSlopes: homogeneityOfSlopes(ctx),
+    reset,
+    homogeneityOfSlopes: slopes,
   };
 }
 
-/** Writes design column j from the variables (its factors' product), as buildDesign did. */
+/**
+ * Hands an array's buffer to a clone that nothing keeps: the array reads as empty from then on,
+ * and its memory goes with the clone at the next minor collection instead of waiting for a full
+ * one (the buffer, made early in the fit, is old by then). At 1 000 000 × 50 this is 400 MB.
+ */
+function releaseNow(x: Float64Array): void {
+  if (x.byteLength > 0 && typeof structuredClone === "function")
+    structuredClone(x.buffer, { transfer: [x.buffer] });
+}
+
+/** Design column j from the variables (its factors' product), as buildDesign wrote it. */
 function designColumnSource(design: Design, data: PreparedData): DesignColumnSource {
-  return (j, out) => fillDesignColumn(out, design.columnFactors[j], data.variables);
+  return (j, scratch) => designColumn(design.columnFactors[j], data.variables, scratch);
 }
 
 /** The whole design (column-major n×p) written again from the variables. */
 function designColumns(column: DesignColumnSource, n: number, p: number): Float64Array {
   const x = new Float64Array(n * p);
-  for (let j = 0; j < p; j++) column(j, x.subarray(j * n, (j + 1) * n));
+  for (let j = 0; j < p; j++) {
+    const target = x.subarray(j * n, (j + 1) * n);
+    const values = column(j, target);
+    if (values !== target) target.set(values);
+  }
   return x;
+}
+
+/**
+ * Σ w (η − η̄)² of the linear predictor η = ŷ − offset, centred on its weighted mean when the
+ * model has an intercept (a small function of its own, so that it is compiled once and kept).
+ */
+function modelSumOfSquares(
+  n: number,
+  fitted: Float64Array,
+  offset: Float64Array | null,
+  w: Float64Array | null,
+  intercept: boolean,
+): number {
+  let sw = 0;
+  let swf = 0;
+  const eta = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    eta[i] = fitted[i] - (offset ? offset[i] : 0);
+    const wi = w ? w[i] : 1;
+    sw += wi;
+    swf += wi * eta[i];
+  }
+  const center = intercept ? swf / sw : 0;
+  let mss = 0;
+  for (let i = 0; i < n; i++) mss += (w ? w[i] : 1) * (eta[i] - center) ** 2;
+  return mss;
+}
+
+/** Σ log wᵢ. */
+function sumOfLogs(n: number, w: Float64Array): number {
+  let s = 0;
+  for (let i = 0; i < n; i++) s += Math.log(w[i]);
+  return s;
 }
 
 function assembleResult(fitted: FittedWithoutQ, options: FitOptions): LinearModelResult {
@@ -365,26 +424,14 @@ function assembleResult(fitted: FittedWithoutQ, options: FitOptions): LinearMode
 
   // R², F (weighted sums of squares of the fitted linear predictor, as is usual for weighted fits)
   const w = weights;
-  let sw = 0;
-  let swf = 0;
-  const eta = new Float64Array(n);
-  for (let i = 0; i < n; i++) {
-    eta[i] = fit.fitted[i] - (data.offset ? data.offset[i] : 0);
-    const wi = w ? w[i] : 1;
-    sw += wi;
-    swf += wi * eta[i];
-  }
-  const center = design.intercept ? swf / sw : 0;
-  let mss = 0;
-  for (let i = 0; i < n; i++) mss += (w ? w[i] : 1) * (eta[i] - center) ** 2;
+  const mss = modelSumOfSquares(n, fit.fitted, data.offset, w, design.intercept);
   const rss = fit.rss;
   const dfInt = design.intercept ? 1 : 0;
   const rSquared = mss / (mss + rss);
   const adjRSquared = 1 - ((1 - rSquared) * (n - dfInt)) / df;
   const fDf1 = p - dfInt;
   const fStatistic = fDf1 > 0 ? mss / fDf1 / sigma2 : null;
-  let sumLogW = 0;
-  if (w) for (let i = 0; i < n; i++) sumLogW += Math.log(w[i]);
+  const sumLogW = w ? sumOfLogs(n, w) : 0;
   const logLikelihood = 0.5 * (sumLogW - n * (Math.log(2 * Math.PI) + 1 - Math.log(n) + Math.log(rss)));
 
   const scaled = fit.weightedResiduals;
@@ -440,7 +487,7 @@ function assembleResult(fitted: FittedWithoutQ, options: FitOptions): LinearMode
   // after Q was let go, the likelier its 400 MB (at 1 000 000 × 50) are collected before the
   // per-term columns are made
   const columns = {
-    row: Array.from(data.used, (i) => data.rowNumbers[i]),
+    row: usedRowNumbers(data),
     id: [...data.ids],
     response: toNumbers(data.response),
     weight: w ? toNumbers(w) : null,

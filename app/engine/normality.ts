@@ -6,6 +6,7 @@
  * 1974's modified statistic above p = 0.1).
  */
 import { normalQuantile, normalUpper } from "./distributions";
+import { sortNumbers } from "./sort-numbers";
 
 export interface NormalityTest {
   readonly statistic: number | null;
@@ -24,7 +25,7 @@ function notComputed(reason: string): NormalityTest {
 }
 
 function sorted(values: ArrayLike<number>): Float64Array {
-  return Float64Array.from(values).sort();
+  return sortNumbers(Float64Array.from(values));
 }
 
 /**
@@ -76,12 +77,13 @@ export function normalityTests(values: ArrayLike<number>): {
 }
 
 function meanSd(x: Float64Array): { mean: number; sd: number } {
+  const n = x.length;
   let s = 0;
-  for (const v of x) s += v;
-  const mean = s / x.length;
+  for (let i = 0; i < n; i++) s += x[i];
+  const mean = s / n;
   let ss = 0;
-  for (const v of x) ss += (v - mean) * (v - mean);
-  return { mean, sd: Math.sqrt(ss / (x.length - 1)) };
+  for (let i = 0; i < n; i++) ss += (x[i] - mean) * (x[i] - mean);
+  return { mean, sd: Math.sqrt(ss / (n - 1)) };
 }
 
 /** Horner evaluation of c[0] + c[1] x + … */

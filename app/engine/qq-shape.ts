@@ -26,6 +26,7 @@
  */
 import { quantileSorted } from "d3-array";
 import { normalDensity, normalQuantile } from "./distributions";
+import { sortNumbers } from "./sort-numbers";
 
 export type QqReading =
   | "close to normal"
@@ -180,11 +181,19 @@ function quantileShape(kelly: number, moors: number, n: number): Shape {
   return "close to normal";
 }
 
+/** The finite values, sorted (a counted copy: `filter` calls a function per value and took longer than the sort). */
+function finiteSorted(residuals: ArrayLike<number>): Float64Array {
+  let count = 0;
+  for (let i = 0; i < residuals.length; i++) if (Number.isFinite(residuals[i])) count++;
+  const out = new Float64Array(count);
+  for (let i = 0, k = 0; i < residuals.length; i++)
+    if (Number.isFinite(residuals[i])) out[k++] = residuals[i];
+  return sortNumbers(out);
+}
+
 /** Reads the Q-Q shape of a set of residuals (at least 8 for a reading other than "close to normal"). */
 export function readQqShape(residuals: ArrayLike<number>): QqShape {
-  const values = Float64Array.from(residuals)
-    .filter((v) => Number.isFinite(v))
-    .sort();
+  const values = finiteSorted(residuals);
   const n = values.length;
   const all = moments(values);
   const median = n > 0 ? (quantileSorted(values as unknown as number[], 0.5) as number) : NaN;

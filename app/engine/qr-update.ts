@@ -26,78 +26,100 @@ const CHUNK = 256;
 
 /**
  * Removes from the columns `cols` of z (n rows) their projection on the columns of q (n×p): C = Q'Z,
- * a chunk of rows at a time (a chunk of Q stays in cache while four added columns read it), then
- * Z −= Q C, four columns of Q at a time into one pass over each added column. Each sum and each
- * subtraction is made in the same order as one column at a time would make it: the same bits,
- * with fewer loads and stores.
+ * then Z −= Q C, a chunk of rows at a time (Q is read from memory once per pass, not once per
+ * added column). Four columns of Q share each pass over a chunk, each sum and each row's
+ * subtractions kept in their order (the same bits as one column at a time).
  */
 function projectOut(q: Float64Array, n: number, p: number, z: Float64Array, cols: readonly number[]): void {
   const k = cols.length;
   const c = new Float64Array(p * k);
   for (let r0 = 0; r0 < n; r0 += CHUNK) {
     const r1 = Math.min(n, r0 + CHUNK);
-    let a = 0;
-    for (; a + 4 <= k; a += 4) {
-      const z0 = cols[a] * n;
-      const z1 = cols[a + 1] * n;
-      const z2 = cols[a + 2] * n;
-      const z3 = cols[a + 3] * n;
-      for (let j = 0; j < p; j++) {
-        const qj = j * n;
-        let s0 = 0;
-        let s1 = 0;
-        let s2 = 0;
-        let s3 = 0;
-        for (let i = r0; i < r1; i++) {
-          const qi = q[qj + i];
-          s0 += qi * z[z0 + i];
-          s1 += qi * z[z1 + i];
-          s2 += qi * z[z2 + i];
-          s3 += qi * z[z3 + i];
-        }
-        c[a * p + j] += s0;
-        c[(a + 1) * p + j] += s1;
-        c[(a + 2) * p + j] += s2;
-        c[(a + 3) * p + j] += s3;
-      }
+    for (let a = 0; a < k; a++) addProducts(q, n, p, z, cols[a] * n, r0, r1, c, a * p);
+  }
+  for (let r0 = 0; r0 < n; r0 += CHUNK) {
+    const r1 = Math.min(n, r0 + CHUNK);
+    for (let a = 0; a < k; a++) subtractCombination(q, n, p, z, cols[a] * n, r0, r1, c, a * p);
+  }
+}
+
+/** c[co + j] += Σ_{r0 ≤ i < r1} Q[i, j] z[za + i] for every j. */
+function addProducts(
+  q: Float64Array,
+  n: number,
+  p: number,
+  z: Float64Array,
+  za: number,
+  r0: number,
+  r1: number,
+  c: Float64Array,
+  co: number,
+): void {
+  let j = 0;
+  for (; j + 3 < p; j += 4) {
+    const q0 = j * n,
+      q1 = q0 + n,
+      q2 = q1 + n,
+      q3 = q2 + n;
+    let s0 = 0,
+      s1 = 0,
+      s2 = 0,
+      s3 = 0;
+    for (let i = r0; i < r1; i++) {
+      const zi = z[za + i];
+      s0 += q[q0 + i] * zi;
+      s1 += q[q1 + i] * zi;
+      s2 += q[q2 + i] * zi;
+      s3 += q[q3 + i] * zi;
     }
-    for (; a < k; a++) {
-      const za = cols[a] * n;
-      for (let j = 0; j < p; j++) {
-        const qj = j * n;
-        let s = 0;
-        for (let i = r0; i < r1; i++) s += q[qj + i] * z[za + i];
-        c[a * p + j] += s;
-      }
+    c[co + j] += s0;
+    c[co + j + 1] += s1;
+    c[co + j + 2] += s2;
+    c[co + j + 3] += s3;
+  }
+  for (; j < p; j++) {
+    const qj = j * n;
+    let s = 0;
+    for (let i = r0; i < r1; i++) s += q[qj + i] * z[za + i];
+    c[co + j] += s;
+  }
+}
+
+/** z[za + i] −= Q[i, j] c[co + j] for j = 0, 1, … in turn, rows r0..r1−1. */
+function subtractCombination(
+  q: Float64Array,
+  n: number,
+  p: number,
+  z: Float64Array,
+  za: number,
+  r0: number,
+  r1: number,
+  c: Float64Array,
+  co: number,
+): void {
+  let j = 0;
+  for (; j + 3 < p; j += 4) {
+    const q0 = j * n,
+      q1 = q0 + n,
+      q2 = q1 + n,
+      q3 = q2 + n;
+    const c0 = c[co + j],
+      c1 = c[co + j + 1],
+      c2 = c[co + j + 2],
+      c3 = c[co + j + 3];
+    for (let i = r0; i < r1; i++) {
+      let v = z[za + i];
+      v -= q[q0 + i] * c0;
+      v -= q[q1 + i] * c1;
+      v -= q[q2 + i] * c2;
+      v -= q[q3 + i] * c3;
+      z[za + i] = v;
     }
   }
-  for (let a = 0; a < k; a++) {
-    const za = cols[a] * n;
-    const ca = a * p;
-    let j = 0;
-    for (; j + 4 <= p; j += 4) {
-      const q0 = j * n;
-      const q1 = q0 + n;
-      const q2 = q1 + n;
-      const q3 = q2 + n;
-      const c0 = c[ca + j];
-      const c1 = c[ca + j + 1];
-      const c2 = c[ca + j + 2];
-      const c3 = c[ca + j + 3];
-      for (let i = 0; i < n; i++) {
-        let v = z[za + i];
-        v -= q[q0 + i] * c0;
-        v -= q[q1 + i] * c1;
-        v -= q[q2 + i] * c2;
-        v -= q[q3 + i] * c3;
-        z[za + i] = v;
-      }
-    }
-    for (; j < p; j++) {
-      const qj = j * n;
-      const cj = c[ca + j];
-      for (let i = 0; i < n; i++) z[za + i] -= q[qj + i] * cj;
-    }
+  for (; j < p; j++) {
+    const qj = j * n;
+    const cj = c[co + j];
+    for (let i = r0; i < r1; i++) z[za + i] -= q[qj + i] * cj;
   }
 }
 

@@ -79,7 +79,7 @@ export function householderQR(
       const alpha = w[dst + k];
       const beta = alpha >= 0 ? -remaining : remaining;
       const scale = 1 / (alpha - beta);
-      for (let i = k + 1; i < n; i++) w[dst + i] *= scale;
+      scaleRange(w, dst + k + 1, dst + n, scale);
       w[dst + k] = beta;
       tau[k] = (beta - alpha) / beta;
       kept.push(j);
@@ -101,12 +101,37 @@ export function householderQR(
  * with the implied unit diagonal and the zeros above it written out; missing reflectors are zero.
  */
 function loadBlock(qr: Float64Array, n: number, k0: number, k1: number, vbuf: Float64Array): void {
-  vbuf.fill(0, 0, (n - k0) * BLOCK);
-  for (let m = 0; m < k1 - k0; m++) {
+  const count = k1 - k0;
+  // the block's own rows: unit diagonal, zeros above it, reflector entries below
+  const top = Math.min(n, k0 + BLOCK);
+  vbuf.fill(0, 0, (top - k0) * BLOCK);
+  for (let m = 0; m < count; m++) {
     const col = (k0 + m) * n;
-    const diag = k0 + m;
     vbuf[m * BLOCK + m] = 1;
-    for (let i = diag + 1; i < n; i++) vbuf[(i - k0) * BLOCK + m] = qr[col + i];
+    for (let i = k0 + m + 1; i < top; i++) vbuf[(i - k0) * BLOCK + m] = qr[col + i];
+  }
+  // the rows below, four reflectors per row in one pass
+  if (count === BLOCK) interleaveRows(qr, n, k0, top, vbuf);
+  else {
+    vbuf.fill(0, (top - k0) * BLOCK, (n - k0) * BLOCK);
+    for (let m = 0; m < count; m++) {
+      const col = (k0 + m) * n;
+      for (let i = top; i < n; i++) vbuf[(i - k0) * BLOCK + m] = qr[col + i];
+    }
+  }
+}
+
+/** vbuf row (i − k0) = the four reflectors k0..k0+3 at row i, for rows from..n−1. */
+function interleaveRows(qr: Float64Array, n: number, k0: number, from: number, vbuf: Float64Array): void {
+  const c0 = k0 * n,
+    c1 = c0 + n,
+    c2 = c1 + n,
+    c3 = c2 + n;
+  for (let i = from, r = (from - k0) * BLOCK; i < n; i++, r += BLOCK) {
+    vbuf[r] = qr[c0 + i];
+    vbuf[r + 1] = qr[c1 + i];
+    vbuf[r + 2] = qr[c2 + i];
+    vbuf[r + 3] = qr[c3 + i];
   }
 }
 
@@ -168,7 +193,8 @@ const ROW_CHUNK = 1024;
 /**
  * target[k0:, from:to] ← (I − V T V')ᵀ target (transpose = true, applying Q' in the factorization)
  * or (I − V T V') target (transpose = false, forming Q). Rows are taken in chunks and two target
- * columns share each pass over a chunk of V.
+ * columns share each pass over a chunk of V. The loops over rows are small functions of their
+ * own, which the JavaScript engine optimizes once and keeps.
  */
 function applyBlock(
   vbuf: Float64Array,
@@ -182,56 +208,15 @@ function applyBlock(
 ): void {
   const count = to - from;
   if (count <= 0) return;
-  // W = V' target (4 per column)
   const w = new Float64Array(4 * count);
-  for (let r0 = k0; r0 < n; r0 += ROW_CHUNK) {
-    const r1 = Math.min(n, r0 + ROW_CHUNK);
-    for (let c = 0; c < count; c += 2) {
-      const two = c + 1 < count;
-      const a = (from + c) * n;
-      const b = two ? a + n : a;
-      let a0 = 0,
-        a1 = 0,
-        a2 = 0,
-        a3 = 0,
-        b0 = 0,
-        b1 = 0,
-        b2 = 0,
-        b3 = 0;
-      for (let i = r0, r = (r0 - k0) * 4; i < r1; i++, r += 4) {
-        const v0 = vbuf[r],
-          v1 = vbuf[r + 1],
-          v2 = vbuf[r + 2],
-          v3 = vbuf[r + 3];
-        const xa = target[a + i];
-        const xb = target[b + i];
-        a0 += v0 * xa;
-        a1 += v1 * xa;
-        a2 += v2 * xa;
-        a3 += v3 * xa;
-        b0 += v0 * xb;
-        b1 += v1 * xb;
-        b2 += v2 * xb;
-        b3 += v3 * xb;
-      }
-      const o = c * 4;
-      w[o] += a0;
-      w[o + 1] += a1;
-      w[o + 2] += a2;
-      w[o + 3] += a3;
-      if (two) {
-        w[o + 4] += b0;
-        w[o + 5] += b1;
-        w[o + 6] += b2;
-        w[o + 7] += b3;
-      }
-    }
-  }
-  // U = M W with M = Tᵀ or T
+  const u = new Float64Array(4 * count);
   const m = new Float64Array(16);
+  // W = V' target (4 per column)
+  for (let r0 = k0; r0 < n; r0 += ROW_CHUNK)
+    blockProducts(vbuf, k0, target, n, from, count, r0, Math.min(n, r0 + ROW_CHUNK), w);
+  // U = M W with M = Tᵀ or T
   for (let r = 0; r < 4; r++)
     for (let c = 0; c < 4; c++) m[r * 4 + c] = transpose ? t[c * 4 + r] : t[r * 4 + c];
-  const u = new Float64Array(4 * count);
   for (let c = 0; c < count; c++) {
     const o = c * 4;
     for (let r = 0; r < 4; r++) {
@@ -240,33 +225,100 @@ function applyBlock(
     }
   }
   // target −= V U
-  for (let r0 = k0; r0 < n; r0 += ROW_CHUNK) {
-    const r1 = Math.min(n, r0 + ROW_CHUNK);
-    for (let c = 0; c < count; c += 2) {
-      const o = c * 4;
-      const a = (from + c) * n;
-      const ua0 = u[o],
-        ua1 = u[o + 1],
-        ua2 = u[o + 2],
-        ua3 = u[o + 3];
-      if (c + 1 < count) {
-        const b = a + n;
-        const ub0 = u[o + 4],
-          ub1 = u[o + 5],
-          ub2 = u[o + 6],
-          ub3 = u[o + 7];
-        for (let i = r0, r = (r0 - k0) * 4; i < r1; i++, r += 4) {
-          const v0 = vbuf[r],
-            v1 = vbuf[r + 1],
-            v2 = vbuf[r + 2],
-            v3 = vbuf[r + 3];
-          target[a + i] -= v0 * ua0 + v1 * ua1 + v2 * ua2 + v3 * ua3;
-          target[b + i] -= v0 * ub0 + v1 * ub1 + v2 * ub2 + v3 * ub3;
-        }
-      } else {
-        for (let i = r0, r = (r0 - k0) * 4; i < r1; i++, r += 4) {
-          target[a + i] -= vbuf[r] * ua0 + vbuf[r + 1] * ua1 + vbuf[r + 2] * ua2 + vbuf[r + 3] * ua3;
-        }
+  for (let r0 = k0; r0 < n; r0 += ROW_CHUNK)
+    blockUpdate(vbuf, k0, target, n, from, count, r0, Math.min(n, r0 + ROW_CHUNK), u);
+}
+
+/** W[:, c] += V' target[r0:r1, from + c] over one chunk of rows, two target columns at a time. */
+function blockProducts(
+  vbuf: Float64Array,
+  k0: number,
+  target: Float64Array,
+  n: number,
+  from: number,
+  count: number,
+  r0: number,
+  r1: number,
+  w: Float64Array,
+): void {
+  for (let c = 0; c < count; c += 2) {
+    const two = c + 1 < count;
+    const a = (from + c) * n;
+    const b = two ? a + n : a;
+    let a0 = 0,
+      a1 = 0,
+      a2 = 0,
+      a3 = 0,
+      b0 = 0,
+      b1 = 0,
+      b2 = 0,
+      b3 = 0;
+    for (let i = r0, r = (r0 - k0) * 4; i < r1; i++, r += 4) {
+      const v0 = vbuf[r],
+        v1 = vbuf[r + 1],
+        v2 = vbuf[r + 2],
+        v3 = vbuf[r + 3];
+      const xa = target[a + i];
+      const xb = target[b + i];
+      a0 += v0 * xa;
+      a1 += v1 * xa;
+      a2 += v2 * xa;
+      a3 += v3 * xa;
+      b0 += v0 * xb;
+      b1 += v1 * xb;
+      b2 += v2 * xb;
+      b3 += v3 * xb;
+    }
+    const o = c * 4;
+    w[o] += a0;
+    w[o + 1] += a1;
+    w[o + 2] += a2;
+    w[o + 3] += a3;
+    if (two) {
+      w[o + 4] += b0;
+      w[o + 5] += b1;
+      w[o + 6] += b2;
+      w[o + 7] += b3;
+    }
+  }
+}
+
+/** target[r0:r1, from + c] −= V U[:, c] over one chunk of rows, two target columns at a time. */
+function blockUpdate(
+  vbuf: Float64Array,
+  k0: number,
+  target: Float64Array,
+  n: number,
+  from: number,
+  count: number,
+  r0: number,
+  r1: number,
+  u: Float64Array,
+): void {
+  for (let c = 0; c < count; c += 2) {
+    const o = c * 4;
+    const a = (from + c) * n;
+    const ua0 = u[o],
+      ua1 = u[o + 1],
+      ua2 = u[o + 2],
+      ua3 = u[o + 3];
+    if (c + 1 < count) {
+      const b = a + n;
+      const ub0 = u[o + 4],
+        ub1 = u[o + 5],
+        ub2 = u[o + 6],
+        ub3 = u[o + 7];
+      for (let i = r0, r = (r0 - k0) * 4; i < r1; i++, r += 4) {
+        const v0 = vbuf[r],
+          v1 = vbuf[r + 1],
+          v2 = vbuf[r + 2],
+          v3 = vbuf[r + 3];
+        target[a + i] -= v0 * ua0 + v1 * ua1 + v2 * ua2 + v3 * ua3;
+        target[b + i] -= v0 * ub0 + v1 * ub1 + v2 * ub2 + v3 * ub3;
+      }
+    } else {
+      for (let i = r0, r = (r0 - k0) * 4; i < r1; i++, r += 4) {
+        target[a + i] -= vbuf[r] * ua0 + vbuf[r + 1] * ua1 + vbuf[r + 2] * ua2 + vbuf[r + 3] * ua3;
       }
     }
   }
@@ -361,14 +413,33 @@ export function formThinQ(f: HouseholderQR, inPlace = false): Float64Array {
         u[i] = s;
       }
       const col = c * n;
-      for (let i = 0; i < k0; i++) a[col + i] = 0;
-      for (let i = k0, rr = 0; i < n; i++, rr += BLOCK) {
-        a[col + i] = -(vbuf[rr] * u[0] + vbuf[rr + 1] * u[1] + vbuf[rr + 2] * u[2] + vbuf[rr + 3] * u[3]);
-      }
+      a.fill(0, col, col + k0);
+      ownColumn(vbuf, a, col + k0, col + n, u[0], u[1], u[2], u[3]);
       a[col + c] += 1;
     }
   }
   return a;
+}
+
+/** x[from:to] *= s. */
+function scaleRange(x: Float64Array, from: number, to: number, s: number): void {
+  for (let i = from; i < to; i++) x[i] *= s;
+}
+
+/** a[from + r] = −(V[r, :] · u) for the rows of V (BLOCK per row) from the block's first row. */
+function ownColumn(
+  vbuf: Float64Array,
+  a: Float64Array,
+  from: number,
+  to: number,
+  u0: number,
+  u1: number,
+  u2: number,
+  u3: number,
+): void {
+  for (let i = from, rr = 0; i < to; i++, rr += BLOCK) {
+    a[i] = -(vbuf[rr] * u0 + vbuf[rr + 1] * u1 + vbuf[rr + 2] * u2 + vbuf[rr + 3] * u3);
+  }
 }
 
 /** Q'v for the thin Q (n×r, column-major): r dot products, four columns per pass. */
