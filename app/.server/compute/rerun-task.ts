@@ -19,6 +19,7 @@ import type { StoredPlannedModel } from "../plans/plans.server";
 import { computeRerun, type RerunTable } from "../reruns/compute-rerun";
 import { subjectIdsOf } from "../reruns/document-subjects";
 import { writeResultFile } from "../reruns/result-files";
+import { storePageDerived } from "../reruns/derive-page";
 import type { RerunOptions } from "../reruns/rerun-options";
 
 export interface RerunTaskInput {
@@ -58,6 +59,8 @@ export async function rerunTask(input: RerunTaskInput): Promise<RerunTaskOutput>
     const json = canonicalJson(doc);
     const sha256 = sha256Hex(json);
     await writeResultFile(input.dataDir, sha256, json);
+    // what the results page reads, beside the result, so its first load need not parse the whole document
+    await storePageDerived(input.dataDir, sha256, doc, table);
     return {
       ok: true,
       sha256,
