@@ -17,6 +17,7 @@ import { loadLockedTable } from "./datasets/catalog.server";
 import { db, t } from "./db/index.server";
 import type { ViewDocument } from "./reruns/page-document";
 import { subjectIdsOf } from "./reruns/document-subjects";
+import { IDENTITY } from "./redaction-identity";
 import { storedRerunDocument } from "./reruns/rerun-rows.server";
 
 export const WITHHELD = "(id withheld)";
@@ -68,17 +69,6 @@ function withoutNamingClauses(text: string): string {
     .replace(/\s*\((subject [^)]*|row \d+)\)/g, "")
     .trim();
 }
-
-const IDENTITY: Redaction = {
-  seesSubjects: true,
-  text: (v) => v,
-  maybe: (v) => v,
-  countOnly: (v) => v,
-  flagged: (c) =>
-    (c.flagged ?? []).slice(0, 5).map((f) => ({ rank: f.rank, value: f.value, who: f.id ?? `row ${f.row}` })),
-  leak: () => null,
-  assertClean: (v) => v,
-};
 
 /**
  * The redaction for one viewer: `seesSubjects` from permissions.server.ts, the reruns whose

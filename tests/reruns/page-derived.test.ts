@@ -1,7 +1,7 @@
 /**
  * What the compute thread stores beside a result for its results page (derive-page.ts): the page
- * document (the result without its per-observation arrays) and the what-if inputs. The page
- * reads the same view and what-if from them as from the whole document; a derived file that is
+ * document (the result without its per-observation arrays), the what-if inputs and the figure
+ * answers. The page reads the same view, what-if and figures from them as from the whole document; a derived file that is
  * missing, names another result or was changed is ignored (the page reads the result itself);
  * a result file that no longer matches its SHA-256 is refused even when its page file is intact.
  */
@@ -21,7 +21,10 @@ const { rerunView } = await import("~/.server/reruns/rerun-view.server");
 const { redaction } = await import("~/.server/redaction.server");
 const { whatIfInputs, whatIfFor, rerunTable } = await import("~/.server/reruns/what-if.server");
 const { loadLockedTable } = await import("~/.server/datasets/catalog.server");
+const { figureAnswerBody } = await import("~/.server/figures/figure-answer");
+const { figureModule } = await import("~/figures/registry");
 const { eq } = await import("drizzle-orm");
+type FigureKey = import("~/engine/checks").FigureKey;
 
 let s: SignedRerun;
 const rowOf = async (id: string) =>
@@ -63,6 +66,26 @@ describe("a results page's data derived in the compute thread", () => {
       { withSubjectIds: false, canSave: false, prespecifiedExclusion: true },
     ])
       expect(whatIfFor(derived.whatIf!, options)).toEqual(whatIfInputs(full, table, options));
+  });
+
+  it("holds the answers of the page's figures, the same as made on request, with and without subject ids", async () => {
+    const row = await rowOf(s.rerunId);
+    const full = (await storedRerunDocument(row))!;
+    const stored = (await readDerivedFile<Record<string, string>>(
+      path.join(dir, "data"),
+      row.resultSha256!,
+      "figures",
+    ))!;
+    const keys = Object.keys(stored);
+    expect(keys.length).toBeGreaterThan(10);
+    const locked = (await loadLockedTable(s.datasetVersionId)).table;
+    for (const key of keys) {
+      const [figure, term, withSubjectIds] = JSON.parse(key) as [FigureKey, string | null, boolean];
+      const table = figureModule(figure).needsTable ? rerunTable(full, locked) : undefined;
+      const made = figureAnswerBody(full, figure, { term: term ?? undefined, withSubjectIds, table });
+      expect(stored[key], key).toBe(made);
+      if (!withSubjectIds) expect(redaction(false, [full]).leak(JSON.parse(made)), key).toBeNull();
+    }
   });
 
   it("is ignored when missing, changed or of another result: the page reads the result itself", async () => {
