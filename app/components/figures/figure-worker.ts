@@ -55,7 +55,11 @@ async function loadFonts(): Promise<void> {
   );
 }
 
-const library = Promise.all([import("vega"), import("vega-interpreter"), loadFonts()]);
+// Vega's module (half a MB) is evaluated on this thread: started a turn later, after the page's
+// first messages, so the figure data is already being fetched while it evaluates
+const library = new Promise<void>((resolve) => setTimeout(resolve, 0)).then(() =>
+  Promise.all([import("vega"), import("vega-interpreter"), loadFonts()]),
+);
 
 /** Each figure address is fetched once (two frames may show one figure at different sizes). */
 const answers = new Map<string, Promise<FigureAnswer | FigureRefusal>>();
