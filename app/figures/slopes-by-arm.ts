@@ -154,7 +154,11 @@ export function slopesByArmSpec(d: SlopesByArmData, opts: SpecOptions = {}): Top
               `The axis shows the middle 90% of the subjects; ${d.window.outside} beyond it are not drawn (the lines use every subject).`,
             ]
           : []),
-        ...denseLine(d, "shading counts the subjects of every arm in each cell; the lines use every subject"),
+        ...denseLine(
+          d,
+          "shading counts the subjects of every arm in each cell; the lines use every subject",
+          "points",
+        ),
         ...(d.note ? [d.note] : []),
       ],
       width,
