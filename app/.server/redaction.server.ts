@@ -15,8 +15,9 @@ import { inArray } from "drizzle-orm";
 import type { CheckOutcome } from "~/engine/checks";
 import { loadLockedTable } from "./datasets/catalog.server";
 import { db, t } from "./db/index.server";
-import type { RerunDocument } from "./reruns/compute-rerun";
+import type { ViewDocument } from "./reruns/page-document";
 import { subjectIdsOf } from "./reruns/document-subjects";
+import { IDENTITY } from "./redaction-identity";
 import { storedRerunDocument } from "./reruns/rerun-rows.server";
 
 export const WITHHELD = "(id withheld)";
@@ -69,17 +70,6 @@ function withoutNamingClauses(text: string): string {
     .trim();
 }
 
-const IDENTITY: Redaction = {
-  seesSubjects: true,
-  text: (v) => v,
-  maybe: (v) => v,
-  countOnly: (v) => v,
-  flagged: (c) =>
-    (c.flagged ?? []).slice(0, 5).map((f) => ({ rank: f.rank, value: f.value, who: f.id ?? `row ${f.row}` })),
-  leak: () => null,
-  assertClean: (v) => v,
-};
-
 /**
  * The redaction for one viewer: `seesSubjects` from permissions.server.ts, the reruns whose
  * subjects the answer may mention, and further ids (the locked dataset's id column).
@@ -89,7 +79,7 @@ const QUOTED_SUBJECT = /\b([Ss])ubject "[^"]*"/g;
 
 export function redaction(
   seesSubjects: boolean,
-  docs: readonly (RerunDocument | null)[],
+  docs: readonly (ViewDocument | null)[],
   moreIds: Iterable<string> = [],
 ): Redaction {
   if (seesSubjects) return IDENTITY;
@@ -191,13 +181,13 @@ export function redaction(
 }
 
 /** The column of a rerun's subject ids: the model's id column, or a repeated-measures model's subject column. */
-export function subjectColumnOf(doc: RerunDocument): string | undefined {
+export function subjectColumnOf(doc: ViewDocument): string | undefined {
   const spec = doc.result.spec;
   return spec.id ?? ("repeated" in spec ? spec.repeated.subject : undefined);
 }
 
 /** Every id of the id column of a locked dataset version, or none when the rerun names no id column. */
-async function datasetIds(doc: RerunDocument, datasetVersionId: string): Promise<string[]> {
+async function datasetIds(doc: ViewDocument, datasetVersionId: string): Promise<string[]> {
   const idColumn = subjectColumnOf(doc);
   if (!idColumn) return [];
   try {
@@ -212,7 +202,7 @@ async function datasetIds(doc: RerunDocument, datasetVersionId: string): Promise
 /** A redaction for answers about these reruns, with every id of their locked datasets. */
 export async function redactionFor(
   seesSubjects: boolean,
-  reruns: readonly { doc: RerunDocument | null; datasetVersionId: string }[],
+  reruns: readonly { doc: ViewDocument | null; datasetVersionId: string }[],
 ): Promise<Redaction> {
   if (seesSubjects) return IDENTITY;
   const more: string[] = [];

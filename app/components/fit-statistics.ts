@@ -125,7 +125,9 @@ export function fitStatisticRows(f: LinearFitFacts | GlmFitFacts): FitStatisticR
 }
 
 /** The facts the table reads from a stored linear or generalized linear result. */
-export function fitFactsOf(r: LinearModelResult | GlmResult): LinearFitFacts | GlmFitFacts {
+export function fitFactsOf(
+  r: Omit<LinearModelResult, "observations"> | Omit<GlmResult, "observations">,
+): LinearFitFacts | GlmFitFacts {
   if (r.kind === "linear") {
     const f = r.fit;
     return {

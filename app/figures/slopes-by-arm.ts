@@ -10,7 +10,9 @@ import { INTERACTION_JOIN } from "~/engine/coefficient-names";
 import type { TopLevelSpec } from "vega-lite";
 import {
   asSpec,
+  cellsLayer,
   dataOf,
+  denseLine,
   frame,
   NO_ARIA,
   PALETTE,
@@ -22,9 +24,18 @@ import {
 } from "./shared/look";
 import { defineFigure } from "./shared/module";
 import { linkScale, linkUnit } from "./shared/residual-words";
-import { cellsFor, FigureUnavailableError, requireTerm, subjectsOf, unitOf, who } from "./shared/source";
+import {
+  cellsFor,
+  cellsOf,
+  denseSelection,
+  FigureUnavailableError,
+  requireTerm,
+  subjectsOf,
+  unitOf,
+  who,
+} from "./shared/source";
 import { round } from "./shared/summaries";
-import type { FigureBase, PointStatus, SpecOptions, SubjectRef } from "./shared/types";
+import type { DensityCell, FigureBase, PointStatus, SpecOptions, SubjectRef } from "./shared/types";
 
 export interface SlopeRow extends SubjectRef {
   arm: string;
@@ -57,6 +68,8 @@ export interface SlopesByArmData extends FigureBase {
   /** The test of this covariate's interaction with the treatment, as the rerun computed it. */
   test: { name: string; p: number } | null;
   rows: SlopeRow[];
+  /** Dense figures: the subjects of every arm not drawn one by one (the lines still use every subject). */
+  cells?: DensityCell[];
 }
 
 const ARM_COLOURS = [PALETTE.ink, PALETTE.accent, "#3d7a8a", "#7a5c99", "#8a8f9c"];
@@ -141,14 +154,28 @@ export function slopesByArmSpec(d: SlopesByArmData, opts: SpecOptions = {}): Top
               `The axis shows the middle 90% of the subjects; ${d.window.outside} beyond it are not drawn (the lines use every subject).`,
             ]
           : []),
+        ...denseLine(
+          d,
+          "shading counts the subjects of every arm in each cell; the lines use every subject",
+          "points",
+        ),
         ...(d.note ? [d.note] : []),
       ],
       width,
     ),
     ...dataOf(d.rows, opts),
     layer: [
+      ...(d.cells ? [cellsLayer(d.cells, d.term, "Component + residual")] : []),
       {
-        mark: { type: "point", filled: false, strokeWidth: 1, opacity: 0.4, size: 16, ...NO_ARIA },
+        mark: {
+          type: "point",
+          filled: false,
+          strokeWidth: 1,
+          // a dense figure draws only the subjects beyond a threshold one by one: they stand out
+          opacity: d.dense ? 0.9 : 0.4,
+          size: d.dense ? 24 : 16,
+          ...NO_ARIA,
+        },
         encoding: {
           x,
           y,
@@ -205,7 +232,7 @@ export const slopesByArm = defineFigure<SlopesByArmData>({
     return ranked[0]?.term;
   },
   data(source, opts) {
-    const { r, b, statusOf } = subjectsOf(source, "slopes_by_arm", opts);
+    const { r, b, influential, statusOf } = subjectsOf(source, "slopes_by_arm", opts);
     const treatment = r.spec.treatment;
     if (!treatment)
       throw new FigureUnavailableError("the model names no treatment, so there are no arms to compare");
@@ -256,13 +283,17 @@ export const slopesByArm = defineFigure<SlopesByArmData>({
         : glm && glm.p !== null && Number.isFinite(glm.p)
           ? { name: `Likelihood-ratio test of ${treatment} × ${t.name}`, p: glm.p }
           : null;
-    const rows = ok.map((i) => ({
-      ...who(r, i, opts.withSubjectIds),
-      arm: armOf[i],
-      x: round(x[i]),
-      partial: round(partial.values[i]),
-      status: statusOf(i),
-    }));
+    // from DENSE_FROM subjects: the subjects beyond a threshold one by one, the others as cell counts
+    const dense = denseSelection(r, influential);
+    const rows = ok
+      .filter((i) => !dense || dense.drawn.has(i))
+      .map((i) => ({
+        ...who(r, i, opts.withSubjectIds),
+        arm: armOf[i],
+        x: round(x[i]),
+        partial: round(partial.values[i]),
+        status: statusOf(i),
+      }));
     let window: SlopesByArmData["window"];
     if (r.kind === "glm") {
       const sorted = ok.map((i) => partial.values[i]).sort((a, c) => a - c);
@@ -293,6 +324,19 @@ export const slopesByArm = defineFigure<SlopesByArmData>({
       test,
       rows: shown,
       ...(window ? { window } : {}),
+      ...(dense
+        ? {
+            dense: dense.summary,
+            // counted within the axis window of a GLM, as the points are shown
+            cells: cellsOf(
+              x,
+              partial.values.map((v) =>
+                !window || (v >= window.domain[0] && v <= window.domain[1]) ? v : NaN,
+              ),
+              dense,
+            ),
+          }
+        : {}),
     };
   },
   spec: slopesByArmSpec,

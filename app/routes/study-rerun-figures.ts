@@ -12,7 +12,7 @@ import { CAUTION } from "~/shared/caution";
 import { FIGURE_KEYS } from "~/figures/registry";
 import { FigureUnavailableError } from "~/figures/shared/source";
 import { figureAnswer, figureTableOf } from "~/.server/reruns/figure-answers.server";
-import { getRerun } from "~/.server/reruns/reruns.server";
+import { getRerunPage, storedRerunDocument } from "~/.server/reruns/rerun-rows.server";
 import { seesSubjects } from "~/.server/permissions.server";
 import { requireStudy } from "~/.server/study-access.server";
 import type { FigureKey } from "~/engine/checks";
@@ -31,7 +31,8 @@ export async function loader({ request, params }: Route.LoaderArgs) {
   if (!figure.success)
     return refuse(404, `There is no figure "${params.figure}". Figures: ${FIGURE_KEYS.join(", ")}.`);
   const term = new URL(request.url).searchParams.get("term") ?? undefined;
-  const { rerun, doc } = await getRerun(params.studyId, params.rerunId);
+  // the result as its page reads it; the whole document only when an answer must be made here
+  const { rerun, doc } = await getRerunPage(params.studyId, params.rerunId);
   if (!doc)
     return refuse(
       409,
@@ -50,8 +51,13 @@ export async function loader({ request, params }: Route.LoaderArgs) {
         withSubjectIds: seesSubjects(access),
       },
       doc,
+      async () => {
+        const whole = await storedRerunDocument(rerun);
+        if (!whole) throw new Error(`The stored result of rerun ${rerun.id} could not be read.`);
+        return whole;
+      },
       // figures that plot covariate values or arms read the rerun's rows from the locked dataset
-      figureTableOf(figure.data, doc, rerun.datasetVersionId),
+      figureTableOf(figure.data, rerun.datasetVersionId),
     );
     return new Response(body, { headers: { ...headers, "Content-Type": "application/json; charset=utf-8" } });
   } catch (e) {

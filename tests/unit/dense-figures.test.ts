@@ -18,6 +18,7 @@ import type { PartialResidualsData } from "~/figures/partial-residuals";
 import type { QqData } from "~/figures/qq";
 import type { ResidualsFittedData } from "~/figures/residuals-fitted";
 import type { SpreadByArmData } from "~/figures/spread-by-arm";
+import type { SlopesByArmData } from "~/figures/slopes-by-arm";
 import { fitLinear } from "~/engine";
 import { defaultChecks, evaluateChecks } from "~/engine/checks";
 
@@ -169,6 +170,21 @@ describe("figures of many subjects", () => {
     expect(d.boxes.map((b) => b.level)).toEqual(d.levels);
   });
 
+  it("slopes by arm: every subject is in a cell or drawn, and the arms' lines are fitted to every subject", () => {
+    const d = figureData(doc, "slopes_by_arm", { ...opts, term: "base" }) as SlopesByArmData;
+    const all = figureData({ ...doc, result: { ...r, n: DENSE_FROM - 1 } }, "slopes_by_arm", {
+      ...opts,
+      term: "base",
+    }) as SlopesByArmData;
+    expect(all.dense).toBeUndefined();
+    expect(all.rows.length).toBe(r.n);
+    expect(d.rows.length + (d.cells ?? []).reduce((s, c) => s + c.count, 0)).toBe(r.n);
+    expect(d.rows.length).toBeLessThanOrEqual(DENSE_POINTS);
+    expect(d.rows.every((p) => p.status === BEYOND)).toBe(true);
+    expect(d.slopes).toEqual(all.slopes);
+    expect(d.common).toEqual(all.common);
+  });
+
   it("every dense specification compiles, says what is drawn, and sends a small answer", () => {
     for (const [figure, term] of [
       ["residuals_fitted"],
@@ -179,6 +195,7 @@ describe("figures of many subjects", () => {
       ["influence"],
       ["leverage_residual"],
       ["spread_by_arm"],
+      ["slopes_by_arm", "base"],
     ] as const) {
       const d = figureData(doc, figure, { ...opts, term });
       const spec = figureSpec(d);

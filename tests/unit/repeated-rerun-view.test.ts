@@ -273,6 +273,7 @@ describe("the results page's repeated-measures sections", () => {
         const body = await figureAnswer(
           { rerunId: "rr", resultSha256: "hash", figure, withSubjectIds },
           doc,
+          async () => doc,
           async () => undefined,
         );
         const answer = JSON.parse(body) as {

@@ -18,6 +18,7 @@ import type { StoredPlannedModel } from "../plans/plans.server";
 import { computeRerun, type RerunTable } from "../reruns/compute-rerun";
 import { subjectIdsOf } from "../reruns/document-subjects";
 import { encodeResult, writeResultFile } from "../reruns/result-files";
+import { storePageDerived } from "../reruns/derive-page";
 import type { RerunOptions } from "../reruns/rerun-options";
 
 export interface RerunTaskInput {
@@ -56,6 +57,8 @@ export async function rerunTask(input: RerunTaskInput): Promise<RerunTaskOutput>
     const doc = computeRerun(input.model, table, input.options, input.meta);
     const { bytes, sha256 } = encodeResult(doc);
     await writeResultFile(input.dataDir, sha256, bytes);
+    // what the results page reads, beside the result, so its first load need not parse the whole document
+    await storePageDerived(input.dataDir, sha256, doc, table);
     return {
       ok: true,
       sha256,

@@ -24,7 +24,7 @@ export function checkView(c: CheckOutcome, redact: Redaction) {
 }
 
 /** The reproduction check as the results page shows it (reproduction-results.tsx); null when the plan gives no published values. */
-export function reproductionView(doc: RerunDocument) {
+export function reproductionView(doc: Pick<RerunDocument, "reproduction">) {
   if (!doc.reproduction) return null;
   const check = reproductionAsCheck(doc.reproduction);
   return {

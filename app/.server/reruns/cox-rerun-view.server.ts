@@ -10,7 +10,7 @@ import type { RestrictedMeanDifference } from "~/engine/survival/rmst";
 import type { Redaction } from "../redaction.server";
 import { coxFigureList } from "~/figures/cox/cox-figure-data";
 import { checkView } from "./rerun-view.server";
-import type { RerunDocument } from "./reruns.server";
+import type { ViewDocument } from "./page-document";
 
 const TRANSFORM_WORDS = { km: "Kaplan–Meier", rank: "rank", identity: "time", log: "log time" } as const;
 
@@ -35,7 +35,7 @@ export function coxModelTests(r: CoxResult): { name: string; statistic: number; 
   ];
 }
 
-export function coxRerunView(doc: RerunDocument, r: CoxResult, redact: Redaction) {
+export function coxRerunView(doc: ViewDocument, r: CoxResult, redact: Redaction) {
   const t = r.tests;
   return {
     kind: "cox" as const,

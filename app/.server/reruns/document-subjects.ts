@@ -4,9 +4,9 @@
  * compute thread answers them with a completed rerun so its notification is checked without
  * reading the document back. No database: the compute threads import it.
  */
-import type { RerunDocument } from "./compute-rerun";
+import type { ViewDocument } from "./page-document";
 
-export function* subjectIdsOf(doc: Pick<RerunDocument, "result" | "checks">): Generator<string> {
+export function* subjectIdsOf(doc: Pick<ViewDocument, "result" | "checks">): Generator<string> {
   const seen = new Set<string>();
   for (const id of doc.result.observations.id)
     if (id && !seen.has(id)) {

@@ -20,7 +20,7 @@ import type { Redaction } from "../redaction.server";
 import { populationStepsOf } from "./rerun-population";
 import { checkView, reproductionView } from "./check-view.server";
 import { treatmentEffectOf } from "./treatment-effect-of";
-import type { RerunDocument } from "./reruns.server";
+import type { ViewDocument } from "./page-document";
 
 const test = (name: string, t: RepeatedTest | null) =>
   t
@@ -42,7 +42,7 @@ function armsOf(r: RepeatedResult): string[] {
   return ref && levels.includes(ref) ? [ref, ...levels.filter((l) => l !== ref)] : levels;
 }
 
-export function repeatedRerunView(doc: RerunDocument, r: RepeatedResult, redact: Redaction) {
+export function repeatedRerunView(doc: ViewDocument, r: RepeatedResult, redact: Redaction) {
   const c = r.covariance;
   const am = r.adjustedMeans;
   const effect = treatmentEffectOf(doc);

@@ -7,8 +7,13 @@ import { and, desc, eq, getTableColumns, sql, type SQL } from "drizzle-orm";
 import { LRUCache } from "lru-cache";
 import { data } from "react-router";
 import { db, t } from "../db/index.server";
+import type { WhatIfInputs } from "~/components/figures/what-if-inputs";
+import { config } from "../config.server";
 import type { RerunDocument } from "./compute-rerun";
-import { storedResultJson } from "./result-store.server";
+import type { PageDerived } from "./derive-page";
+import { readDerivedFile } from "./derived-files";
+import type { ViewDocument } from "./page-document";
+import { storedResultJson, verifyStoredResult } from "./result-store.server";
 
 /**
  * Every column of a rerun but `result_json`, where results were stored before they moved to
@@ -128,17 +133,71 @@ export async function storedRerunDocument(row: {
   return doc;
 }
 
-/** A rerun, its model, dataset version, plan version and who started it, with its parsed result (read-only; null until completed). */
-export async function getRerun(studyId: string, rerunId: string) {
+/** Page data read from its derived file, by rerun id and result hash (a few hundred kB each). */
+const pageData = new LRUCache<string, { doc: ViewDocument; whatIf: WhatIfInputs }>({ max: 32 });
+
+/**
+ * What a results page reads of a completed rerun (read-only; null without a result): the page
+ * document and what-if inputs the compute thread stored beside the result (`derive-page.ts`),
+ * once the result file is checked against its SHA-256, or else the whole parsed document (the
+ * what-if inputs then null: made on request). A document already parsed is used as it is.
+ */
+export async function storedPageData(row: {
+  id: string;
+  resultSha256: string | null;
+}): Promise<{ doc: ViewDocument; whatIf: WhatIfInputs | null } | null> {
+  if (!row.resultSha256) return null;
+  const key = resultKey(row.id, row.resultSha256);
+  const kept = pageData.get(key);
+  if (kept) return kept;
+  const parsed = parsedResults.get(key);
+  if (!parsed) {
+    const derived = await readDerivedFile<PageDerived>(config.DATA_DIR, row.resultSha256, "page");
+    if (derived?.page && (await verifyStoredResult(row))) {
+      const page = deepFreeze({ doc: derived.page, whatIf: derived.whatIf });
+      pageData.set(key, page);
+      return page;
+    }
+  }
+  const doc = parsed ?? (await storedRerunDocument(row));
+  return doc ? { doc, whatIf: null } : null;
+}
+
+/** The result as its results page reads it (`storedPageData`), without the what-if inputs. */
+export async function storedViewDocument(row: {
+  id: string;
+  resultSha256: string | null;
+}): Promise<ViewDocument | null> {
+  return (await storedPageData(row))?.doc ?? null;
+}
+
+/** The rerun's row with its planned model, dataset (version), plan version and starter, or a 404. */
+async function rerunRow(studyId: string, rerunId: string) {
   const [row] = await rerunRows(and(eq(t.reruns.id, rerunId), eq(t.reruns.studyId, studyId))).limit(1);
   if (!row) throw data({ message: "There is no such rerun in this study." }, { status: 404 });
-  const doc = row.r.status === "completed" ? await storedRerunDocument(row.r) : null;
+  return row;
+}
+
+function described(row: RerunRow) {
   return {
     rerun: row.r,
     model: { id: row.m.id, key: row.m.key, title: row.m.title },
     dataset: { name: row.d.name, version: row.dv.version, sha256: row.dv.sha256, versionId: row.dv.id },
     planVersion: { id: row.pv.id, version: row.pv.version, title: row.pv.title },
     startedBy: row.who,
-    doc,
   };
+}
+
+/** A rerun as its results page reads it: `getRerun` with `storedPageData` in place of the parsed result. */
+export async function getRerunPage(studyId: string, rerunId: string) {
+  const row = await rerunRow(studyId, rerunId);
+  const page = row.r.status === "completed" ? await storedPageData(row.r) : null;
+  return { ...described(row), doc: page?.doc ?? null, whatIf: page?.whatIf ?? null };
+}
+
+/** A rerun, its model, dataset version, plan version and who started it, with its parsed result (read-only; null until completed). */
+export async function getRerun(studyId: string, rerunId: string) {
+  const row = await rerunRow(studyId, rerunId);
+  const doc = row.r.status === "completed" ? await storedRerunDocument(row.r) : null;
+  return { ...described(row), doc };
 }

@@ -12,7 +12,7 @@ import { figureModule } from "~/figures/registry";
 import { checkView, reproductionView } from "./check-view.server";
 import { treatmentEffectOf } from "./treatment-effect-of";
 import type { Redaction } from "../redaction.server";
-import type { RerunDocument } from "./reruns.server";
+import type { ViewDocument } from "./page-document";
 import { coxReportedContrasts, coxRerunView, restrictedMeanContrasts } from "./cox-rerun-view.server";
 import { repeatedRerunView } from "./repeated-rerun-view.server";
 
@@ -40,7 +40,7 @@ export interface ContrastView {
  * (with HC3 beside them), marginal (standardized) contrasts for a GLM (with the variance of
  * Ye et al. 2023 beside them, in the same "hc3" slot: the robust alternative).
  */
-export function contrastsOf(doc: RerunDocument): ContrastView[] {
+export function contrastsOf(doc: ViewDocument): ContrastView[] {
   const r = doc.result;
   // a Cox model reports hazard ratios instead (coxRerunView, coxReportedContrasts)
   if (r.kind === "cox") return [];
@@ -110,7 +110,7 @@ export function contrastsOf(doc: RerunDocument): ContrastView[] {
  * otherwise. For binary endpoints the risk difference is the headline measure.
  */
 export function reportedContrasts(
-  doc: RerunDocument,
+  doc: ViewDocument,
 ): { label: string; estimate: number; lower: number; upper: number; p: number }[] {
   if (doc.result.kind === "cox")
     return doc.restrictedMean
@@ -131,7 +131,7 @@ export function reportedContrasts(
   }));
 }
 
-export function rerunView(doc: RerunDocument, redact: Redaction) {
+export function rerunView(doc: ViewDocument, redact: Redaction) {
   if (doc.result.kind === "cox") return coxRerunView(doc, doc.result, redact);
   if (doc.result.kind === "repeated") return repeatedRerunView(doc, doc.result, redact);
   const r = doc.result;

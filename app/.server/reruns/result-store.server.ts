@@ -45,6 +45,28 @@ async function readHashed(file: string): Promise<{ text: string; sha256: string 
   return { text: Buffer.concat(chunks).toString("utf8"), sha256: hash.digest("hex") };
 }
 
+/**
+ * Checks a completed rerun's result file against its recorded SHA-256 without keeping its bytes
+ * (for readers of data derived from it, `derived-files.ts`): true when it matches, false when
+ * there is no file; throws StoredResultMismatch when it no longer matches.
+ */
+export async function verifyStoredResult(row: { id: string; resultSha256: string | null }): Promise<boolean> {
+  if (!row.resultSha256) return false;
+  const relative = resultRelativePath(row.resultSha256);
+  const hash = createHash("sha256");
+  try {
+    for await (const chunk of createReadStream(path.resolve(config.DATA_DIR, relative), {
+      highWaterMark: 1 << 22,
+    }) as AsyncIterable<Buffer>)
+      hash.update(chunk);
+  } catch (e) {
+    if ((e as NodeJS.ErrnoException).code === "ENOENT") return false;
+    throw e;
+  }
+  if (hash.digest("hex") !== row.resultSha256) throw mismatch(row.id, relative);
+  return true;
+}
+
 /** The result as stored before it moved to files (the row's column), or null. */
 async function rowResultJson(id: string): Promise<string | null> {
   const [row] = await db.select({ json: t.reruns.resultJson }).from(t.reruns).where(eq(t.reruns.id, id));

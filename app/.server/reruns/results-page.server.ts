@@ -17,12 +17,13 @@ import type { Study } from "../studies.server";
 import { canSign, findingsOf, signaturesOf } from "./findings.server";
 import { optionsFor, plansInfluentialExclusion, sensitivityLabel } from "./planned-sensitivity";
 import { reportedContrasts, rerunView } from "./rerun-view.server";
-import { getRerun, sameInputReruns, sensitivityReruns, storedRerunDocument } from "./reruns.server";
+import { getRerunPage, storedViewDocument } from "./rerun-rows.server";
+import { sameInputReruns, sensitivityReruns } from "./reruns.server";
 import { keptWhatIfInputsOf } from "./what-if-inputs.server";
 
 export async function resultsPage(request: Request, access: StudyAccess & { study: Study }, rerunId: string) {
   const { study, user, allowed } = access;
-  const r = await getRerun(study.id, rerunId);
+  const r = await getRerunPage(study.id, rerunId);
   const withIds = seesSubjects(access);
   const planned = await getPlannedModel(r.rerun.plannedModelId);
   const [findings, signatures, children, twins, verdict] = await Promise.all([
@@ -33,7 +34,7 @@ export async function resultsPage(request: Request, access: StudyAccess & { stud
     allowed.has("rerun.sign") ? canSign(user, r.rerun.id) : Promise.resolve(null),
   ]);
   const childDocs = await Promise.all(
-    children.map(async (c) => ({ row: c, doc: await storedRerunDocument(c) })),
+    children.map(async (c) => ({ row: c, doc: await storedViewDocument(c) })),
   );
   const redact = await redactionFor(withIds, [
     { doc: r.doc, datasetVersionId: r.rerun.datasetVersionId },
@@ -110,8 +111,7 @@ export async function resultsPage(request: Request, access: StudyAccess & { stud
     caution: CAUTION,
   };
   if (r.doc && r.rerun.kind === "primary" && allowed.has("rerun.start") && !r.rerun.signedAt) {
-    const doc = r.doc;
-    whatIf = await keptWhatIfInputsOf(r.rerun, doc, {
+    whatIf = await keptWhatIfInputsOf(r.rerun, r.whatIf, {
       prespecifiedExclusion: plansInfluentialExclusion(planned),
       withSubjectIds: withIds,
       canSave: true,

@@ -1,9 +1,9 @@
 /** What a rerun's treatment effect is, as the plan states it (shared by the views of every model type, the API and the appendix). */
 import type { TreatmentEffectPlan } from "~/components/treatment-effect";
-import type { RerunDocument } from "./reruns.server";
+import type { ViewDocument } from "./page-document";
 
 /** The plan's contrast set and multiplicity method, and the overall test of the treatment term. */
-export function treatmentEffectOf(doc: RerunDocument): TreatmentEffectPlan {
+export function treatmentEffectOf(doc: ViewDocument): TreatmentEffectPlan {
   const r = doc.result;
   if (r.kind === "cox") return { contrastSet: "reference", multiplicity: "none", test: null };
   if (r.kind === "repeated") {

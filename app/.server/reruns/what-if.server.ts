@@ -158,6 +158,22 @@ export async function keptWhatIfInputs(
   return keptOrBuilt(rerun, options, async () => whatIfInputs(doc, await table(), options));
 }
 
+/**
+ * What-if inputs made for a viewer who sees subjects and may start reruns (as the compute thread
+ * stores them, derive-page.ts), shaped for this viewer: candidates by rank only without subjects,
+ * and the plan's and viewer's flags. The same as `whatIfInputs` with these options.
+ */
+export function whatIfFor(inputs: WhatIfInputs, options: WhatIfOptions): WhatIfInputs {
+  if (!inputs.available) return inputs;
+  const withIds = options.withSubjectIds ?? true;
+  return {
+    ...inputs,
+    candidates: withIds ? inputs.candidates : inputs.candidates.map((c) => ({ ...c, subject: null })),
+    prespecifiedExclusion: options.prespecifiedExclusion ?? false,
+    canSave: options.canSave ?? true,
+  };
+}
+
 /** What-if inputs kept by result hash and options, else made by `build` (here, or in a compute thread) and kept. */
 export async function keptOrBuilt(
   rerun: { id: string; resultSha256: string | null },

@@ -31,7 +31,12 @@ export function startWorker(url: string, figures: string[]): void {
       typeof Worker === "undefined"
     )
       return;
-    const worker = new Worker(url, { type: "module", name: "figures" });
+    // the addresses also ride in the worker's own address, so it fetches them as its module first
+    // runs: messages posted now reach it only when this busy main thread passes them on
+    const worker = new Worker(url + "#" + encodeURIComponent(JSON.stringify(figures)), {
+      type: "module",
+      name: "figures",
+    });
     const early: EarlyFigures = { worker, sent: [], answers: [], failed: false };
     worker.onmessage = (e: MessageEvent<DrawAnswer>) => early.answers.push(e.data);
     worker.onerror = () => {

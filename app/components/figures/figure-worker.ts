@@ -55,10 +55,26 @@ async function loadFonts(): Promise<void> {
   );
 }
 
-const library = Promise.all([import("vega"), import("vega-interpreter"), loadFonts()]);
+// Vega's module (half a MB) is evaluated on this thread: started a turn later, after the page's
+// first messages, so the figure data is already being fetched while it evaluates
+const library = new Promise<void>((resolve) => setTimeout(resolve, 0)).then(() =>
+  Promise.all([import("vega"), import("vega-interpreter"), loadFonts()]),
+);
 
 /** Each figure address is fetched once (two frames may show one figure at different sizes). */
 const answers = new Map<string, Promise<FigureAnswer | FigureRefusal>>();
+
+/** The figure addresses written in the worker's address after "#", as a JSON list; none when absent or unreadable. */
+function addressesOf(hash: string): string[] {
+  try {
+    const list: unknown = JSON.parse(decodeURIComponent(hash.slice(1)) || "[]");
+    return Array.isArray(list)
+      ? list.filter((u): u is string => typeof u === "string" && /^\/(?!\/)/.test(u))
+      : [];
+  } catch {
+    return [];
+  }
+}
 
 /** The figure at a fixed size: the page's figures take the size of their frame (Vega's containerSize), which a worker has not got. */
 function sized(spec: Spec, width: number, height: number): Spec {
@@ -100,6 +116,8 @@ async function draw(req: DrawRequest): Promise<void> {
 // the data of all of them is asked for at once
 let turn: Promise<unknown> = Promise.resolve();
 
+// the figure addresses the page's early start put in this worker's address (figure-worker-start.tsx)
+for (const url of addressesOf(location.hash)) void keptAnswer(answers, url);
 scope.onmessage = ({ data }) => {
   if ("prefetch" in data) return void keptAnswer(answers, data.prefetch);
   void keptAnswer(answers, data.url);

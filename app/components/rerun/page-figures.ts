@@ -1,6 +1,6 @@
-import type { FigureKey } from "~/engine/checks";
 import { coxPageFigures, type CoxView } from "../cox-results";
 import { figureUrl } from "../figures/rerun-figure";
+import { modelPageFigures } from "./model-page-figures";
 import { repeatedPageFigures, type RepeatedView } from "./repeated-view";
 import type { ModelResultsView } from "./results-view";
 
@@ -14,12 +14,5 @@ export function pageFigureUrls(
     return [...new Set(repeatedPageFigures(view).map((f) => figureUrl(studyId, rerunId, f.figure)))];
   if (view.kind === "cox")
     return [...new Set(coxPageFigures(view).map((f) => figureUrl(studyId, rerunId, f.figure, f.term)))];
-  const figures: { figure: FigureKey; term?: string }[] = [
-    ...view.checks.flatMap((c) => (c.figure ? [{ figure: c.figure, term: c.figureTerm }] : [])),
-    ...view.continuousTerms.map((term) => ({ figure: "partial_residuals" as const, term })),
-    ...(view.kind === "glm" && view.family === "binomial"
-      ? [{ figure: "binned_residuals" as const }, { figure: "calibration" as const }]
-      : []),
-  ];
-  return [...new Set(figures.map((f) => figureUrl(studyId, rerunId, f.figure, f.term)))];
+  return [...new Set(modelPageFigures(view).map((f) => figureUrl(studyId, rerunId, f.figure, f.term)))];
 }

@@ -228,15 +228,15 @@ export function statusEncoding(d: FigureBase, beyondOnly = Boolean(d.dense)): Js
 }
 
 /** The subtitle line of a dense figure: what the shading counts and who is drawn one by one. */
-export function denseLine(d: FigureBase, what: string): string[] {
+export function denseLine(d: FigureBase, what: string, marks = "triangles"): string[] {
   if (!d.dense) return [];
   const { total, beyond, drawn } = d.dense;
   const points =
     beyond === 0
       ? "no subject is beyond a planned threshold"
       : drawn < beyond
-        ? `triangles: the ${count(drawn)} with the largest Cook's distance of the ${count(beyond)} subjects beyond a planned threshold`
-        : `triangles: the ${count(beyond)} subjects beyond a planned threshold`;
+        ? `${marks}: the ${count(drawn)} with the largest Cook's distance of the ${count(beyond)} subjects beyond a planned threshold`
+        : `${marks}: the ${count(beyond)} subjects beyond a planned threshold`;
   return [`${count(total)} subjects: ${what}; ${points}.`];
 }
 

@@ -6,7 +6,7 @@
  */
 import type { TopLevelSpec } from "vega-lite";
 import type { CheckKey, FigureKey } from "~/engine/checks";
-import type { FigureOptions, FigureSource } from "./source";
+import type { FigureOptions, FigureSource, FigureSummarySource } from "./source";
 import type { SpecOptions } from "./types";
 
 export interface FigureWords {
@@ -27,7 +27,7 @@ export interface FigureModule<D extends { figure: FigureKey } = { figure: Figure
   /** "continuous": drawn per continuous covariate chosen with ?term=; "coefficient": per coefficient. */
   perTerm?: "continuous" | "coefficient";
   /** The covariate a check's card shows when the figure is drawn per covariate (default: the first continuous one). */
-  defaultTerm?(source: FigureSource): string | undefined;
+  defaultTerm?(source: FigureSummarySource): string | undefined;
   /** Reads covariate values or arms from the rerun's rows (the locked dataset). */
   needsTable?: boolean;
   /** The figure's rows from a rerun; throws FigureUnavailableError (with a reason) when it cannot be drawn. */

@@ -34,6 +34,15 @@ export interface FigureSource {
   coxFunctionalForm?: readonly FunctionalFormTest[];
 }
 
+/** A result without its per-observation arrays (what a results page reads, page-document.ts). */
+type WithoutObservations<R> = R extends unknown ? Omit<R, "observations"> : never;
+
+/** What a figure module reads to choose its covariate: the result's tests and the checks, no observations. */
+export interface FigureSummarySource {
+  result: WithoutObservations<FigureSource["result"]>;
+  checks: readonly CheckOutcome[];
+}
+
 /** Cells as text by column, with the 1-based data row of each row (the engine's table input). */
 export interface FigureTable {
   columns: Record<string, string[]>;
