@@ -97,6 +97,45 @@ interface AllFiguresLoad {
   dataRequests: { count: number; firstStartMs: number; lastEndMs: number; longestWaitMs: number } | null;
   /** When the largest script (the charting library) finished loading. */
   chartScriptEndMs: number | null;
+  /** The figure worker's timeline, in the page's clock (figure-worker.ts's marks); null without a worker. */
+  worker: WorkerTimeline | null;
+}
+
+interface WorkerTimeline {
+  startMs: number;
+  /** Vega's modules and the fonts loaded. */
+  libraryMs: number | null;
+  /** The figure data: last answer received, and the answers' bytes (decoded). */
+  lastFetchMs: number | null;
+  fetchedBytes: number;
+  /** Each drawing in order: what, when it began and how long it took. */
+  draws: { name: string; startMs: number; ms: number }[];
+}
+
+/** What the figure worker recorded (figure-worker.ts marks "figures:library" and measures "figures:draw <key>"). */
+async function workerTimeline(page: Page): Promise<WorkerTimeline | null> {
+  const worker = page.workers().find((w) => /figure-worker/.test(w.url()));
+  if (!worker) return null;
+  const pageOrigin = await page.evaluate(() => performance.timeOrigin);
+  const w = await worker.evaluate(() => ({
+    origin: performance.timeOrigin,
+    library: performance.getEntriesByName("figures:library")[0]?.startTime ?? null,
+    draws: performance
+      .getEntriesByType("measure")
+      .filter((e) => e.name.startsWith("figures:draw "))
+      .map((e) => ({ name: e.name.slice("figures:draw ".length), startMs: e.startTime, ms: e.duration })),
+    fetches: (performance.getEntriesByType("resource") as PerformanceResourceTiming[])
+      .filter((r) => /\/figures\//.test(r.name))
+      .map((r) => ({ end: r.responseEnd, bytes: r.decodedBodySize })),
+  }));
+  const shift = w.origin - pageOrigin;
+  return {
+    startMs: shift,
+    libraryMs: w.library === null ? null : w.library + shift,
+    lastFetchMs: w.fetches.length ? Math.max(...w.fetches.map((f) => f.end)) + shift : null,
+    fetchedBytes: w.fetches.reduce((a, f) => a + f.bytes, 0),
+    draws: w.draws.map((d) => ({ ...d, startMs: d.startMs + shift })),
+  };
 }
 
 interface ReaderLoad {
@@ -176,7 +215,8 @@ async function loadAllFigures(context: BrowserContext, url: string): Promise<All
         })(),
       };
     });
-    return { allReadyMs: done.at, figures: done.figures, errors: done.errors, ...facts };
+    const worker = await workerTimeline(page).catch(() => null);
+    return { allReadyMs: done.at, figures: done.figures, errors: done.errors, ...facts, worker };
   } finally {
     await page.close();
   }
@@ -312,6 +352,21 @@ async function hover(context: BrowserContext, url: string): Promise<HoverResult>
   }
 }
 
+/** The figure worker's timeline, medians over the loads, and the last load's drawings one by one. */
+function workerLines(loads: AllFiguresLoad[]): string[] {
+  const timed = loads.map((l) => l.worker).filter((w): w is WorkerTimeline => w !== null);
+  if (!timed.length) return ["    figure worker: no timeline (no worker, or its marks were not found)"];
+  const med = (f: (w: WorkerTimeline) => number | null) => {
+    const xs = timed.map(f).filter((x): x is number => x !== null);
+    return xs.length ? median(xs) : null;
+  };
+  const last = timed[timed.length - 1];
+  return [
+    `    figure worker (medians): started ${ms(med((w) => w.startMs))}, Vega and fonts loaded ${ms(med((w) => w.libraryMs))}, last figure data ${ms(med((w) => w.lastFetchMs))} (${Math.round(last.fetchedBytes / 1024)} kB), first drawing began ${ms(med((w) => w.draws[0]?.startMs ?? null))}, last ended ${ms(med((w) => (w.draws.length ? Math.max(...w.draws.map((d) => d.startMs + d.ms)) : null)))}, ${last.draws.length} drawings taking ${ms(med((w) => w.draws.reduce((a, d) => a + d.ms, 0)))} in all`,
+    `    drawings of the last load: ${last.draws.map((d) => `${d.name.replace(/^.*\/figures\//, "")} ${Math.round(d.ms)}`).join(", ")} ms`,
+  ];
+}
+
 /** Every measurement for one rerun's page: the time until all figures are ready, and the printed lines. */
 async function measure(
   browser: Browser,
@@ -347,6 +402,7 @@ async function measure(
       `    figure data: ${last.dataRequests ? `${last.dataRequests.count} requests from the page, first sent at ${ms(last.dataRequests.firstStartMs)}, last answered at ${ms(last.dataRequests.lastEndMs)}, longest wait for the server ${ms(last.dataRequests.longestWaitMs)}` : "fetched by the figure worker (its requests are not in the page's resource timing)"}; largest script loaded at ${ms(last.chartScriptEndMs)}`,
       `    longest main-thread task: ${ms(maybeMedian(all.map((l) => l.longestTaskMs)))} (median of the loads' longest; longest of all ${ms(nums(all.map((l) => l.longestTaskMs)).length ? Math.max(...nums(all.map((l) => l.longestTaskMs))) : null)})`,
     ];
+    lines.push(...workerLines(all));
     if (last.lastFigureBottom > TALL.height)
       lines.push(
         `    note: figures end below the viewport, so a reader could not see them all at once; make TALL taller`,
@@ -414,6 +470,7 @@ async function measureJustFinished(
       // the compute thread makes the page's data and figure answers before the rerun completes
       `    rerun queued to completed (server's job worker): ${ms(maybeMedian(completedIn))}   (reruns: ${completedIn.map(ms).join(", ")})`,
     ];
+    lines.push(...workerLines(loads));
     const errors = [...new Set(loads.flatMap((l) => l.errors))];
     if (errors.length) lines.push(`    figures that ended in an error: ${errors.join("; ")}`);
     return lines;

@@ -57,9 +57,13 @@ async function loadFonts(): Promise<void> {
 
 // Vega's module (half a MB) is evaluated on this thread: started a turn later, after the page's
 // first messages, so the figure data is already being fetched while it evaluates
-const library = new Promise<void>((resolve) => setTimeout(resolve, 0)).then(() =>
-  Promise.all([import("vega"), import("vega-interpreter"), loadFonts()]),
-);
+const library = new Promise<void>((resolve) => setTimeout(resolve, 0))
+  .then(() => Promise.all([import("vega"), import("vega-interpreter"), loadFonts()]))
+  .then((loaded) => {
+    // read by `npm run bench:figures` (the worker's timeline)
+    performance.mark("figures:library");
+    return loaded;
+  });
 
 /** Each figure address is fetched once (two frames may show one figure at different sizes). */
 const answers = new Map<string, Promise<FigureAnswer | FigureRefusal>>();
@@ -90,6 +94,7 @@ async function draw(req: DrawRequest): Promise<void> {
   if (!("spec" in answer)) return scope.postMessage({ key: req.key, error: answer.message, refused: true });
   const spec = specForFrame(answer, req.width);
   const [vega, { expressionInterpreter }] = await library;
+  const start = performance.now();
   const view = new vega.View(vega.parse(sized(spec, req.width, req.height), undefined, { ast: true }), {
     renderer: "none",
     expr: expressionInterpreter as never,
@@ -107,6 +112,7 @@ async function draw(req: DrawRequest): Promise<void> {
       },
       [bitmap],
     );
+    performance.measure(`figures:draw ${req.key}`, { start });
   } finally {
     view.finalize();
   }
