@@ -10,7 +10,9 @@
  * the median of 3 page loads, each in a fresh page of a browser warmed by one untimed load, read
  * in the page's clock (performance.now(), from navigation start). Targets (issue 16 item 4): every
  * figure within 1.0 s, within 1.5 s for a rerun just finished, the HTML's first byte within 200 ms.
- * BENCH_PORT gives the app a port of one's own (a free one otherwise).
+ * BENCH_PORT gives the app a port of one's own (a free one otherwise); BENCH_QUICK=1 times only
+ * n = 10 000's all-figures loads and a rerun just finished (no reader, no hover, no n = 422);
+ * BENCH_LOADS sets the number of timed loads (3).
  *  - HTML first byte: the navigation's responseStart;
  *  - all figures: a 1280×12000 viewport, so every figure is in view at once; time until
  *    every figure is ready (polled each animation frame), the first figure, DOMContentLoaded,
@@ -38,7 +40,9 @@ const TARGET_MS = 1000;
 /** ...and within this for a rerun just finished; the page's HTML answered within HTML_TARGET_MS. */
 const JUST_FINISHED_TARGET_MS = 1500;
 const HTML_TARGET_MS = 200;
-const LOADS = 3;
+const LOADS = Number(process.env.BENCH_LOADS) || 3;
+/** Only the all-figures loads and the just-finished reruns of n = 10 000 (BENCH_QUICK=1). */
+const QUICK = process.env.BENCH_QUICK === "1";
 const TALL = { width: 1280, height: 12_000 };
 const READER = { width: 1280, height: 900 };
 /** Longest wait for one figure or one page (the open target is several seconds at 10 000). */
@@ -385,9 +389,11 @@ async function measure(
     await loadAllFigures(tall, url); // untimed: warms the browser
     const all: AllFiguresLoad[] = [];
     for (let i = 0; i < LOADS; i++) all.push(await loadAllFigures(tall, url));
-    await loadAsReader(reader, url); // untimed
     const read: ReaderLoad[] = [];
-    for (let i = 0; i < LOADS; i++) read.push(await loadAsReader(reader, url));
+    if (!QUICK) {
+      await loadAsReader(reader, url); // untimed
+      for (let i = 0; i < LOADS; i++) read.push(await loadAsReader(reader, url));
+    }
 
     const nums = (xs: (number | null)[]) => xs.filter((x): x is number => x !== null);
     const maybeMedian = (xs: (number | null)[]) => (nums(xs).length ? median(nums(xs)) : null);
@@ -410,6 +416,7 @@ async function measure(
     const errors = [...new Set(all.flatMap((l) => l.errors))];
     if (errors.length) lines.push(`    figures that ended in an error: ${errors.join("; ")}`);
 
+    if (QUICK) return { allMs, lines };
     const labels = read[0].afterScrollMs.map((f) => f.label);
     const perFigure = labels.map((label, i) => ({
       label,
@@ -569,7 +576,7 @@ try {
     `  each time is the median of ${LOADS} page loads in a fresh page (browser warm after one untimed load), from navigation start`,
   ];
   console.log(out.join("\n"));
-  for (const name of ["adeff10k", "adeff"] as const) {
+  for (const name of QUICK ? (["adeff10k"] as const) : (["adeff10k", "adeff"] as const)) {
     const url = `${appUrl}/studies/${study.studyId}/reruns/${rerunIds[name]}`;
     const { allMs, lines } = await measure(browser, cookie, appUrl, url, name === "adeff10k");
     const verdict =
