@@ -58,7 +58,7 @@ async function loadFonts(): Promise<void> {
 // Vega's module (half a MB) is evaluated on this thread: started a turn later, after the page's
 // first messages, so the figure data is already being fetched while it evaluates
 const library = new Promise<void>((resolve) => setTimeout(resolve, 0))
-  .then(() => Promise.all([import("vega"), import("vega-interpreter"), loadFonts()]))
+  .then(() => Promise.all([import("./vega-drawing"), import("vega-interpreter"), loadFonts()]))
   .then((loaded) => {
     // read by `npm run bench:figures` (the worker's timeline)
     performance.mark("figures:library");
