@@ -101,6 +101,14 @@ interface AllFiguresLoad {
   dataRequests: { count: number; firstStartMs: number; lastEndMs: number; longestWaitMs: number } | null;
   /** When the largest script (the charting library) finished loading. */
   chartScriptEndMs: number | null;
+  /** The page's HTML: last byte, size, when it was parsed, and when the figure worker's start script ran. */
+  html: {
+    endMs: number;
+    kB: number;
+    interactiveMs: number;
+    startScriptMs: number | null;
+    cssEndMs: number;
+  } | null;
   /** The figure worker's timeline, in the page's clock (figure-worker.ts's marks); null without a worker. */
   worker: WorkerTimeline | null;
 }
@@ -192,6 +200,20 @@ async function loadAllFigures(context: BrowserContext, url: string): Promise<All
         longestTaskMs: probe && probe.longTasks.length > 0 ? Math.max(...probe.longTasks) : null,
         domContentLoadedMs: nav ? nav.domContentLoadedEventEnd : null,
         htmlFirstByteMs: nav ? nav.responseStart : null,
+        html: nav
+          ? {
+              endMs: nav.responseEnd,
+              kB: nav.decodedBodySize / 1024,
+              interactiveMs: nav.domInteractive,
+              startScriptMs: performance.getEntriesByName("figures:start")[0]?.startTime ?? null,
+              cssEndMs: Math.max(
+                0,
+                ...(performance.getEntriesByType("resource") as PerformanceResourceTiming[])
+                  .filter((r) => /\.css(\?|$)/.test(r.name))
+                  .map((r) => r.responseEnd),
+              ),
+            }
+          : null,
         firstPaintMs: paint ? paint.startTime : null,
         renderer: first ? (first.tagName.toLowerCase() === "canvas" ? "canvas" : "svg") : "none",
         lastFigureBottom: Math.max(
@@ -365,7 +387,13 @@ function workerLines(loads: AllFiguresLoad[]): string[] {
     return xs.length ? median(xs) : null;
   };
   const last = timed[timed.length - 1];
+  const html = loads.map((l) => l.html).filter((h) => h !== null);
+  const hmed = (f: (h: NonNullable<AllFiguresLoad["html"]>) => number | null) => {
+    const xs = html.map(f).filter((x): x is number => x !== null);
+    return xs.length ? median(xs) : null;
+  };
   return [
+    `    page (medians): HTML ${Math.round(html[html.length - 1]?.kB ?? 0)} kB, last byte ${ms(hmed((h) => h.endMs))}, stylesheet ${ms(hmed((h) => h.cssEndMs))}, the worker's start script ran ${ms(hmed((h) => h.startScriptMs))}, DOM interactive ${ms(hmed((h) => h.interactiveMs))}`,
     `    figure worker (medians): started ${ms(med((w) => w.startMs))}, Vega and fonts loaded ${ms(med((w) => w.libraryMs))}, last figure data ${ms(med((w) => w.lastFetchMs))} (${Math.round(last.fetchedBytes / 1024)} kB), first drawing began ${ms(med((w) => w.draws[0]?.startMs ?? null))}, last ended ${ms(med((w) => (w.draws.length ? Math.max(...w.draws.map((d) => d.startMs + d.ms)) : null)))}, ${last.draws.length} drawings taking ${ms(med((w) => w.draws.reduce((a, d) => a + d.ms, 0)))} in all`,
     `    drawings of the last load: ${last.draws.map((d) => `${d.name.replace(/^.*\/figures\//, "")} ${Math.round(d.ms)}`).join(", ")} ms`,
   ];
