@@ -502,7 +502,7 @@ async function measureJustFinished(
       `    first figure ready:   ${ms(maybeMedian(loads.map((l) => l.firstReadyMs)))}`,
       `    HTML first byte:      ${ms(maybeMedian(loads.map((l) => l.htmlFirstByteMs)))}   (loads: ${loads.map((l) => ms(l.htmlFirstByteMs)).join(", ")})`,
       `    DOMContentLoaded:     ${ms(maybeMedian(loads.map((l) => l.domContentLoadedMs)))}`,
-      // the compute thread stores the page's data before the rerun completes, its figure answers right after
+      // the compute thread makes the page's data and figure answers before the rerun completes
       `    rerun queued to completed (server's job worker): ${ms(maybeMedian(completedIn))}   (reruns: ${completedIn.map(ms).join(", ")})`,
     ];
     lines.push(...workerLines(loads));

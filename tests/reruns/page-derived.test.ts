@@ -14,16 +14,14 @@ import { makeSignedRerun, type SignedRerun } from "../support/signed-rerun";
 const { dir } = useTempDatabase();
 const { db, t } = await import("~/.server/db/index.server");
 const { storedRerunDocument, storedPageData } = await import("~/.server/reruns/rerun-rows.server");
-const { clearBeingMade, derivedRelativePath, isBeingMade, markBeingMade, readDerivedFile, writeDerivedFile } =
-  await import("~/.server/reruns/derived-files");
-const { figureAnswer } = await import("~/.server/reruns/figure-answers.server");
+const { derivedRelativePath, readDerivedFile } = await import("~/.server/reruns/derived-files");
 const { resultRelativePath } = await import("~/.server/reruns/result-files");
 const { StoredResultMismatch } = await import("~/.server/reruns/result-store.server");
 const { rerunView } = await import("~/.server/reruns/rerun-view.server");
 const { redaction } = await import("~/.server/redaction.server");
 const { whatIfInputs, whatIfFor, rerunTable } = await import("~/.server/reruns/what-if.server");
 const { loadLockedTable } = await import("~/.server/datasets/catalog.server");
-const { figureAnswerBody, figureAnswerKey } = await import("~/.server/figures/figure-answer");
+const { figureAnswerBody } = await import("~/.server/figures/figure-answer");
 const { figureModule } = await import("~/figures/registry");
 const { eq } = await import("drizzle-orm");
 type FigureKey = import("~/engine/checks").FigureKey;
@@ -37,16 +35,6 @@ const rowOf = async (id: string) =>
       .where(eq(t.reruns.id, id))
   )[0];
 const dataFile = (relative: string) => path.join(dir, "data", relative);
-
-/** The figure answers are made right after the rerun completes (derive-page.ts): wait for them, at most 20 s. */
-async function storedFigures(sha: string): Promise<Record<string, string> | null> {
-  const until = Date.now() + 20_000;
-  for (;;) {
-    const stored = await readDerivedFile<Record<string, string>>(path.join(dir, "data"), sha, "figures");
-    if (stored || Date.now() > until) return stored;
-    await new Promise((resolve) => setTimeout(resolve, 50));
-  }
-}
 
 beforeAll(async () => {
   s = await makeSignedRerun();
@@ -83,7 +71,11 @@ describe("a results page's data derived in the compute thread", () => {
   it("holds the answers of the page's figures, the same as made on request, with and without subject ids", async () => {
     const row = await rowOf(s.rerunId);
     const full = (await storedRerunDocument(row))!;
-    const stored = (await storedFigures(row.resultSha256!))!;
+    const stored = (await readDerivedFile<Record<string, string>>(
+      path.join(dir, "data"),
+      row.resultSha256!,
+      "figures",
+    ))!;
     const keys = Object.keys(stored);
     expect(keys.length).toBeGreaterThan(10);
     const locked = (await loadLockedTable(s.datasetVersionId)).table;
@@ -94,37 +86,6 @@ describe("a results page's data derived in the compute thread", () => {
       expect(stored[key], key).toBe(made);
       if (!withSubjectIds) expect(redaction(false, [full]).leak(JSON.parse(made)), key).toBeNull();
     }
-  });
-
-  it("while the compute thread is still making the answers, a figure request waits for them rather than making them", async () => {
-    const data = path.join(dir, "data");
-    const sha = "ab".repeat(32);
-    const key = figureAnswerKey("gvif", undefined, true);
-    const body = JSON.stringify({ caution: "c", spec: {}, data: { rows: [] } });
-    await markBeingMade(data, sha, "figures");
-    const asked = figureAnswer(
-      { rerunId: "waiting", resultSha256: sha, figure: "gvif", withSubjectIds: true },
-      {} as never,
-      () => Promise.reject(new Error("made on the web process")),
-      () => Promise.resolve(undefined),
-    );
-    await new Promise((resolve) => setTimeout(resolve, 150));
-    await writeDerivedFile(data, sha, "figures", { [key]: body });
-    await clearBeingMade(data, sha, "figures");
-    expect(await asked).toBe(body);
-  });
-
-  it("a marker of answers being made counts only while its process runs", async () => {
-    const data = path.join(dir, "data");
-    const sha = "cd".repeat(32);
-    await markBeingMade(data, sha, "figures");
-    expect(await isBeingMade(data, sha, "figures", 60_000)).toBe(true);
-    expect(await isBeingMade(data, sha, "figures", 0)).toBe(false);
-    // a process id above Linux's largest (2^22): no such process
-    writeFileSync(`${dataFile(derivedRelativePath(sha, "figures"))}.making`, "2147483646");
-    expect(await isBeingMade(data, sha, "figures", 60_000)).toBe(false);
-    await clearBeingMade(data, sha, "figures");
-    expect(await isBeingMade(data, sha, "figures", 60_000)).toBe(false);
   });
 
   it("is ignored when missing, changed or of another result: the page reads the result itself", async () => {

@@ -18,7 +18,7 @@ import type { StoredPlannedModel } from "../plans/plans.server";
 import { computeRerun, type RerunTable } from "../reruns/compute-rerun";
 import { subjectIdsOf } from "../reruns/document-subjects";
 import { encodeResult, writeResultFile } from "../reruns/result-files";
-import { figuresToStore, storePageDerived } from "../reruns/derive-page";
+import { storePageDerived } from "../reruns/derive-page";
 import type { RerunOptions } from "../reruns/rerun-options";
 
 export interface RerunTaskInput {
@@ -59,9 +59,6 @@ export async function rerunTask(input: RerunTaskInput): Promise<RerunTaskOutput>
     await writeResultFile(input.dataDir, sha256, bytes);
     // what the results page reads, beside the result, so its first load need not parse the whole document
     await storePageDerived(input.dataDir, sha256, doc, table);
-    // the figure answers right after this task answers, in this thread: the rerun completes first
-    const figures = await figuresToStore(input.dataDir, sha256, doc, table);
-    if (figures) setImmediate(() => void figures());
     return {
       ok: true,
       sha256,

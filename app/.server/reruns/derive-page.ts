@@ -15,7 +15,7 @@ import { textOf } from "../datasets/arrow-columns.server";
 import { figureAnswerBody, figureAnswerKey } from "../figures/figure-answer";
 import { IDENTITY } from "../redaction-identity";
 import type { RerunDocument, RerunTable } from "./compute-rerun";
-import { clearBeingMade, markBeingMade, writeDerivedFile } from "./derived-files";
+import { writeDerivedFile } from "./derived-files";
 import { pageDocumentOf, type ViewDocument } from "./page-document";
 import { rerunView } from "./rerun-view.server";
 import { rerunTable, whatIfInputs } from "./what-if.server";
@@ -84,39 +84,12 @@ export async function storePageDerived(
 ): Promise<void> {
   try {
     await writeDerivedFile(dataDir, resultSha256, "page", derivePage(doc, table));
+    // the figures of a planned analysis (its page is the one opened as it completes; making them
+    // takes about half the rerun's own time at 10 000 subjects): a sensitivity analysis's page
+    // makes them on request
+    if (doc.options.variant === "planned")
+      await writeDerivedFile(dataDir, resultSha256, "figures", deriveFigures(doc, table));
   } catch (e) {
     console.error(`The page data of result ${resultSha256} was not stored: ${String(e)}`);
   }
-}
-
-/**
- * For a planned analysis (its page is the one opened as it completes; a sensitivity analysis's
- * page makes its figures on request): marks its figure answers as being made, and returns the
- * work that makes and stores them, for the compute thread to run once it has answered the result,
- * so the rerun completes without waiting for them (they take about half the rerun's own time at
- * 10 000 subjects). Meanwhile the figures route waits for them (figure-answers.server.ts). A
- * failure is reported and left: the route then makes them on request.
- */
-export async function figuresToStore(
-  dataDir: string,
-  resultSha256: string,
-  doc: RerunDocument,
-  table: RerunTable,
-): Promise<(() => Promise<void>) | null> {
-  if (doc.options.variant !== "planned") return null;
-  try {
-    await markBeingMade(dataDir, resultSha256, "figures");
-  } catch (e) {
-    console.error(`The figure answers of result ${resultSha256} will be made on request: ${String(e)}`);
-    return null;
-  }
-  return async () => {
-    try {
-      await writeDerivedFile(dataDir, resultSha256, "figures", deriveFigures(doc, table));
-    } catch (e) {
-      console.error(`The figure answers of result ${resultSha256} were not stored: ${String(e)}`);
-    } finally {
-      await clearBeingMade(dataDir, resultSha256, "figures").catch(() => undefined);
-    }
-  };
 }

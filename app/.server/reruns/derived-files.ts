@@ -12,7 +12,7 @@
  * database: the compute threads import it.
  */
 import { createHash, randomBytes } from "node:crypto";
-import { mkdir, readFile, rename, rm, stat, writeFile } from "node:fs/promises";
+import { mkdir, readFile, rename, rm, writeFile } from "node:fs/promises";
 import path from "node:path";
 
 export type DerivedPart = "page" | "figures";
@@ -72,55 +72,5 @@ export async function readDerivedFile<T>(
     return JSON.parse(body) as T;
   } catch {
     return null;
-  }
-}
-
-/**
- * A part being made after its result was answered (the figure answers, `derive-page.ts`): a file
- * `<sha256>.<part>.making` beside the result naming the process whose thread makes it, so readers
- * wait for the part rather than make it themselves. Removed when the part is written or given up;
- * one left by a process that has stopped (or older than the reader's bound) is ignored.
- */
-function makingPath(dataDir: string, resultSha256: string, part: DerivedPart): string {
-  return path.resolve(dataDir, `${derivedRelativePath(resultSha256, part)}.making`);
-}
-
-export async function markBeingMade(dataDir: string, resultSha256: string, part: DerivedPart): Promise<void> {
-  const file = makingPath(dataDir, resultSha256, part);
-  await mkdir(path.dirname(file), { recursive: true });
-  await writeFile(file, String(process.pid));
-}
-
-export async function clearBeingMade(
-  dataDir: string,
-  resultSha256: string,
-  part: DerivedPart,
-): Promise<void> {
-  await rm(makingPath(dataDir, resultSha256, part), { force: true });
-}
-
-function isRunning(pid: number): boolean {
-  try {
-    process.kill(pid, 0);
-    return true;
-  } catch (e) {
-    return (e as NodeJS.ErrnoException).code === "EPERM";
-  }
-}
-
-/** True while the part is being made: its marker is younger than `maxAgeMs` and its process runs. */
-export async function isBeingMade(
-  dataDir: string,
-  resultSha256: string,
-  part: DerivedPart,
-  maxAgeMs: number,
-): Promise<boolean> {
-  const file = makingPath(dataDir, resultSha256, part);
-  try {
-    if (Date.now() - (await stat(file)).mtimeMs >= maxAgeMs) return false;
-    const pid = Number(await readFile(file, "utf8"));
-    return Number.isInteger(pid) && pid > 0 && isRunning(pid);
-  } catch {
-    return false;
   }
 }

@@ -19,7 +19,7 @@ import { loadLockedTable } from "../datasets/catalog.server";
 import { figureAnswerBody, figureAnswerKey } from "../figures/figure-answer";
 import { redaction } from "../redaction.server";
 import type { FiguresDerived } from "./derive-page";
-import { isBeingMade, readDerivedFile } from "./derived-files";
+import { readDerivedFile } from "./derived-files";
 import type { ViewDocument } from "./page-document";
 import type { RerunDocument } from "./reruns.server";
 import { rerunTable } from "./what-if.server";
@@ -42,32 +42,11 @@ export interface FigureRequest {
   withSubjectIds: boolean;
 }
 
-/**
- * Longest wait for answers a compute thread is still making (seconds at 10 000 subjects, longer
- * for the largest reruns); past it, or when the process making them has stopped, they are made here.
- */
-const MAKING_WAIT_MS = 5 * 60_000;
-
-/**
- * The answers the compute thread stored beside the result (derive-page.ts), or null. A planned
- * rerun completes before its thread has made them: while they are being made, this waits for them
- * rather than making them on this process.
- */
-async function readStoredAnswers(resultSha256: string): Promise<FiguresDerived | null> {
-  const until = Date.now() + MAKING_WAIT_MS;
-  for (;;) {
-    // the marker first: the thread writes the answers before it removes the marker
-    const making = await isBeingMade(config.DATA_DIR, resultSha256, "figures", MAKING_WAIT_MS);
-    const stored = await readDerivedFile<FiguresDerived>(config.DATA_DIR, resultSha256, "figures");
-    if (stored || !making || Date.now() > until) return stored;
-    await new Promise((resolve) => setTimeout(resolve, 25));
-  }
-}
-
+/** The answers the compute thread stored beside the result (derive-page.ts), or null. */
 function storedAnswers(resultSha256: string): Promise<FiguresDerived | null> {
   let kept = storedFigures.get(resultSha256);
   if (!kept) {
-    kept = readStoredAnswers(resultSha256).catch(() => null);
+    kept = readDerivedFile<FiguresDerived>(config.DATA_DIR, resultSha256, "figures").catch(() => null);
     storedFigures.set(resultSha256, kept);
   }
   return kept;
