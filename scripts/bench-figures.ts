@@ -10,7 +10,9 @@
  * the median of 3 page loads, each in a fresh page of a browser warmed by one untimed load, read
  * in the page's clock (performance.now(), from navigation start). Targets (issue 16 item 4): every
  * figure within 1.0 s, within 1.5 s for a rerun just finished, the HTML's first byte within 200 ms.
- * BENCH_PORT gives the app a port of one's own (a free one otherwise).
+ * BENCH_PORT gives the app a port of one's own (a free one otherwise); BENCH_QUICK=1 times only
+ * n = 10 000's all-figures loads and a rerun just finished (no reader, no hover, no n = 422);
+ * BENCH_LOADS sets the number of timed loads (3).
  *  - HTML first byte: the navigation's responseStart;
  *  - all figures: a 1280×12000 viewport, so every figure is in view at once; time until
  *    every figure is ready (polled each animation frame), the first figure, DOMContentLoaded,
@@ -38,7 +40,9 @@ const TARGET_MS = 1000;
 /** ...and within this for a rerun just finished; the page's HTML answered within HTML_TARGET_MS. */
 const JUST_FINISHED_TARGET_MS = 1500;
 const HTML_TARGET_MS = 200;
-const LOADS = 3;
+const LOADS = Number(process.env.BENCH_LOADS) || 3;
+/** Only the all-figures loads and the just-finished reruns of n = 10 000 (BENCH_QUICK=1). */
+const QUICK = process.env.BENCH_QUICK === "1";
 const TALL = { width: 1280, height: 12_000 };
 const READER = { width: 1280, height: 900 };
 /** Longest wait for one figure or one page (the open target is several seconds at 10 000). */
@@ -97,6 +101,53 @@ interface AllFiguresLoad {
   dataRequests: { count: number; firstStartMs: number; lastEndMs: number; longestWaitMs: number } | null;
   /** When the largest script (the charting library) finished loading. */
   chartScriptEndMs: number | null;
+  /** The page's HTML: last byte, size, when it was parsed, and when the figure worker's start script ran. */
+  html: {
+    endMs: number;
+    kB: number;
+    interactiveMs: number;
+    startScriptMs: number | null;
+    cssEndMs: number;
+  } | null;
+  /** The figure worker's timeline, in the page's clock (figure-worker.ts's marks); null without a worker. */
+  worker: WorkerTimeline | null;
+}
+
+interface WorkerTimeline {
+  startMs: number;
+  /** Vega's modules and the fonts loaded. */
+  libraryMs: number | null;
+  /** The figure data: last answer received, and the answers' bytes (decoded). */
+  lastFetchMs: number | null;
+  fetchedBytes: number;
+  /** Each drawing in order: what, when it began and how long it took. */
+  draws: { name: string; startMs: number; ms: number }[];
+}
+
+/** What the figure worker recorded (figure-worker.ts marks "figures:library" and measures "figures:draw <key>"). */
+async function workerTimeline(page: Page): Promise<WorkerTimeline | null> {
+  const worker = page.workers().find((w) => /figure-worker/.test(w.url()));
+  if (!worker) return null;
+  const pageOrigin = await page.evaluate(() => performance.timeOrigin);
+  const w = await worker.evaluate(() => ({
+    origin: performance.timeOrigin,
+    library: performance.getEntriesByName("figures:library")[0]?.startTime ?? null,
+    draws: performance
+      .getEntriesByType("measure")
+      .filter((e) => e.name.startsWith("figures:draw "))
+      .map((e) => ({ name: e.name.slice("figures:draw ".length), startMs: e.startTime, ms: e.duration })),
+    fetches: (performance.getEntriesByType("resource") as PerformanceResourceTiming[])
+      .filter((r) => /\/figures\//.test(r.name))
+      .map((r) => ({ end: r.responseEnd, bytes: r.decodedBodySize })),
+  }));
+  const shift = w.origin - pageOrigin;
+  return {
+    startMs: shift,
+    libraryMs: w.library === null ? null : w.library + shift,
+    lastFetchMs: w.fetches.length ? Math.max(...w.fetches.map((f) => f.end)) + shift : null,
+    fetchedBytes: w.fetches.reduce((a, f) => a + f.bytes, 0),
+    draws: w.draws.map((d) => ({ ...d, startMs: d.startMs + shift })),
+  };
 }
 
 interface ReaderLoad {
@@ -149,6 +200,20 @@ async function loadAllFigures(context: BrowserContext, url: string): Promise<All
         longestTaskMs: probe && probe.longTasks.length > 0 ? Math.max(...probe.longTasks) : null,
         domContentLoadedMs: nav ? nav.domContentLoadedEventEnd : null,
         htmlFirstByteMs: nav ? nav.responseStart : null,
+        html: nav
+          ? {
+              endMs: nav.responseEnd,
+              kB: nav.decodedBodySize / 1024,
+              interactiveMs: nav.domInteractive,
+              startScriptMs: performance.getEntriesByName("figures:start")[0]?.startTime ?? null,
+              cssEndMs: Math.max(
+                0,
+                ...(performance.getEntriesByType("resource") as PerformanceResourceTiming[])
+                  .filter((r) => /\.css(\?|$)/.test(r.name))
+                  .map((r) => r.responseEnd),
+              ),
+            }
+          : null,
         firstPaintMs: paint ? paint.startTime : null,
         renderer: first ? (first.tagName.toLowerCase() === "canvas" ? "canvas" : "svg") : "none",
         lastFigureBottom: Math.max(
@@ -176,7 +241,8 @@ async function loadAllFigures(context: BrowserContext, url: string): Promise<All
         })(),
       };
     });
-    return { allReadyMs: done.at, figures: done.figures, errors: done.errors, ...facts };
+    const worker = await workerTimeline(page).catch(() => null);
+    return { allReadyMs: done.at, figures: done.figures, errors: done.errors, ...facts, worker };
   } finally {
     await page.close();
   }
@@ -312,6 +378,27 @@ async function hover(context: BrowserContext, url: string): Promise<HoverResult>
   }
 }
 
+/** The figure worker's timeline, medians over the loads, and the last load's drawings one by one. */
+function workerLines(loads: AllFiguresLoad[]): string[] {
+  const timed = loads.map((l) => l.worker).filter((w): w is WorkerTimeline => w !== null);
+  if (!timed.length) return ["    figure worker: no timeline (no worker, or its marks were not found)"];
+  const med = (f: (w: WorkerTimeline) => number | null) => {
+    const xs = timed.map(f).filter((x): x is number => x !== null);
+    return xs.length ? median(xs) : null;
+  };
+  const last = timed[timed.length - 1];
+  const html = loads.map((l) => l.html).filter((h) => h !== null);
+  const hmed = (f: (h: NonNullable<AllFiguresLoad["html"]>) => number | null) => {
+    const xs = html.map(f).filter((x): x is number => x !== null);
+    return xs.length ? median(xs) : null;
+  };
+  return [
+    `    page (medians): HTML ${Math.round(html[html.length - 1]?.kB ?? 0)} kB, last byte ${ms(hmed((h) => h.endMs))}, stylesheet ${ms(hmed((h) => h.cssEndMs))}, the worker's start script ran ${ms(hmed((h) => h.startScriptMs))}, DOM interactive ${ms(hmed((h) => h.interactiveMs))}`,
+    `    figure worker (medians): started ${ms(med((w) => w.startMs))}, Vega and fonts loaded ${ms(med((w) => w.libraryMs))}, last figure data ${ms(med((w) => w.lastFetchMs))} (${Math.round(last.fetchedBytes / 1024)} kB), first drawing began ${ms(med((w) => w.draws[0]?.startMs ?? null))}, last ended ${ms(med((w) => (w.draws.length ? Math.max(...w.draws.map((d) => d.startMs + d.ms)) : null)))}, ${last.draws.length} drawings taking ${ms(med((w) => w.draws.reduce((a, d) => a + d.ms, 0)))} in all`,
+    `    drawings of the last load: ${last.draws.map((d) => `${d.name.replace(/^.*\/figures\//, "")} ${Math.round(d.ms)}`).join(", ")} ms`,
+  ];
+}
+
 /** Every measurement for one rerun's page: the time until all figures are ready, and the printed lines. */
 async function measure(
   browser: Browser,
@@ -330,9 +417,11 @@ async function measure(
     await loadAllFigures(tall, url); // untimed: warms the browser
     const all: AllFiguresLoad[] = [];
     for (let i = 0; i < LOADS; i++) all.push(await loadAllFigures(tall, url));
-    await loadAsReader(reader, url); // untimed
     const read: ReaderLoad[] = [];
-    for (let i = 0; i < LOADS; i++) read.push(await loadAsReader(reader, url));
+    if (!QUICK) {
+      await loadAsReader(reader, url); // untimed
+      for (let i = 0; i < LOADS; i++) read.push(await loadAsReader(reader, url));
+    }
 
     const nums = (xs: (number | null)[]) => xs.filter((x): x is number => x !== null);
     const maybeMedian = (xs: (number | null)[]) => (nums(xs).length ? median(nums(xs)) : null);
@@ -347,6 +436,7 @@ async function measure(
       `    figure data: ${last.dataRequests ? `${last.dataRequests.count} requests from the page, first sent at ${ms(last.dataRequests.firstStartMs)}, last answered at ${ms(last.dataRequests.lastEndMs)}, longest wait for the server ${ms(last.dataRequests.longestWaitMs)}` : "fetched by the figure worker (its requests are not in the page's resource timing)"}; largest script loaded at ${ms(last.chartScriptEndMs)}`,
       `    longest main-thread task: ${ms(maybeMedian(all.map((l) => l.longestTaskMs)))} (median of the loads' longest; longest of all ${ms(nums(all.map((l) => l.longestTaskMs)).length ? Math.max(...nums(all.map((l) => l.longestTaskMs))) : null)})`,
     ];
+    lines.push(...workerLines(all));
     if (last.lastFigureBottom > TALL.height)
       lines.push(
         `    note: figures end below the viewport, so a reader could not see them all at once; make TALL taller`,
@@ -354,6 +444,7 @@ async function measure(
     const errors = [...new Set(all.flatMap((l) => l.errors))];
     if (errors.length) lines.push(`    figures that ended in an error: ${errors.join("; ")}`);
 
+    if (QUICK) return { allMs, lines };
     const labels = read[0].afterScrollMs.map((f) => f.label);
     const perFigure = labels.map((label, i) => ({
       label,
@@ -414,6 +505,7 @@ async function measureJustFinished(
       // the compute thread makes the page's data and figure answers before the rerun completes
       `    rerun queued to completed (server's job worker): ${ms(maybeMedian(completedIn))}   (reruns: ${completedIn.map(ms).join(", ")})`,
     ];
+    lines.push(...workerLines(loads));
     const errors = [...new Set(loads.flatMap((l) => l.errors))];
     if (errors.length) lines.push(`    figures that ended in an error: ${errors.join("; ")}`);
     return lines;
@@ -512,7 +604,7 @@ try {
     `  each time is the median of ${LOADS} page loads in a fresh page (browser warm after one untimed load), from navigation start`,
   ];
   console.log(out.join("\n"));
-  for (const name of ["adeff10k", "adeff"] as const) {
+  for (const name of QUICK ? (["adeff10k"] as const) : (["adeff10k", "adeff"] as const)) {
     const url = `${appUrl}/studies/${study.studyId}/reruns/${rerunIds[name]}`;
     const { allMs, lines } = await measure(browser, cookie, appUrl, url, name === "adeff10k");
     const verdict =

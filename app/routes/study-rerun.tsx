@@ -3,10 +3,12 @@ import { Link, useNavigation, useRevalidator } from "react-router";
 import { z } from "zod";
 import type { Route } from "./+types/study-rerun";
 import { Caution } from "~/components/caution";
+import { FigureWorkerStart } from "~/components/figures/figure-worker-start";
 import { PageHeader } from "~/components/page";
 import { StatusLabel } from "~/components/status";
 import { FindingsSection } from "~/components/rerun/findings-section";
 import { ModelResults } from "~/components/rerun/model-results";
+import { pageFigureUrls } from "~/components/rerun/page-figures";
 import { Provenance } from "~/components/rerun/provenance";
 import { RunFailure } from "~/components/rerun/run-failure";
 import { RunProgress } from "~/components/rerun/run-progress";
@@ -102,6 +104,8 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
 
   return (
     <>
+      {/* first in the page, so the figure worker starts (and fetches every figure) as the HTML begins */}
+      {view ? <FigureWorkerStart figures={pageFigureUrls(view, studyId, rerun.id)} /> : null}
       <PageHeader
         eyebrow={`${loaderData.code} · rerun${rerun.kind === "sensitivity" ? " · sensitivity analysis" : ""}`}
         title={`${loaderData.model.key} · ${loaderData.model.title}`}

@@ -25,6 +25,7 @@ declare global {
  */
 export function startWorker(url: string, figures: string[]): void {
   try {
+    performance.mark("figures:start"); // read by `npm run bench:figures`
     if (
       typeof OffscreenCanvas === "undefined" ||
       typeof FontFace === "undefined" ||

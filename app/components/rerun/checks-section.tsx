@@ -1,6 +1,7 @@
 import { RerunFigure } from "../figures/rerun-figure";
 import { ReproductionCard } from "../reproduction-results";
 import { CheckCard, checkTally } from "../rerun-results";
+import { partialResidualTerms } from "./model-page-figures";
 import type { ModelResultsView } from "./results-view";
 
 /** The plan's checks with their figures, the reproduction check, and the partial residuals of the continuous covariates. */
@@ -13,6 +14,7 @@ export function ChecksSection({
   studyId: string;
   rerunId: string;
 }) {
+  const partial = partialResidualTerms(view);
   return (
     <section aria-labelledby="checks-h" className="space-y-3">
       <h2 id="checks-h">Checks of the plan</h2>
@@ -41,17 +43,24 @@ export function ChecksSection({
             Linearity of each continuous covariate's effect: the points should follow the straight line
             without a bend.
           </p>
-          <div className="grid gap-4 lg:grid-cols-2">
-            {view.continuousTerms.map((term) => (
-              <RerunFigure
-                key={term}
-                studyId={studyId}
-                rerunId={rerunId}
-                figure="partial_residuals"
-                term={term}
-              />
-            ))}
-          </div>
+          {partial.withChecks.map((w) => (
+            <p key={w.term} className="mb-2 text-xs text-ink-soft">
+              {w.term}: shown with the check “{w.check}” above.
+            </p>
+          ))}
+          {partial.inPanel.length > 0 ? (
+            <div className="grid gap-4 lg:grid-cols-2">
+              {partial.inPanel.map((term) => (
+                <RerunFigure
+                  key={term}
+                  studyId={studyId}
+                  rerunId={rerunId}
+                  figure="partial_residuals"
+                  term={term}
+                />
+              ))}
+            </div>
+          ) : null}
         </article>
       ) : null}
     </section>

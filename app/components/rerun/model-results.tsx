@@ -1,10 +1,9 @@
 import { CoxResults, type CoxView } from "../cox-results";
 import { RepeatedResults, type RepeatedView } from "../repeated-results";
-import { FigureFramesReady, FigureWorkerStart } from "../figures/figure-worker-start";
+import { FigureFramesReady } from "../figures/figure-worker-start";
 import { BinomialFitSection } from "./binomial-fit-section";
 import { ChecksSection } from "./checks-section";
 import { CoefficientsSection } from "./coefficients-section";
-import { pageFigureUrls } from "./page-figures";
 import type { ModelResultsView } from "./results-view";
 import { RowsAndFit } from "./rows-and-fit";
 import { TreatmentEffectSection } from "./treatment-effect-section";
@@ -22,7 +21,6 @@ export function ModelResults({
   if (view.kind === "repeated") {
     return (
       <div className="space-y-6">
-        <FigureWorkerStart figures={pageFigureUrls(view, studyId, rerunId)} />
         <RepeatedResults view={view} studyId={studyId} rerunId={rerunId} />
         <FigureFramesReady />
       </div>
@@ -31,7 +29,6 @@ export function ModelResults({
   if (view.kind === "cox") {
     return (
       <div className="space-y-6">
-        <FigureWorkerStart figures={pageFigureUrls(view, studyId, rerunId)} />
         <CoxResults view={view} studyId={studyId} rerunId={rerunId} />
         <FigureFramesReady />
       </div>
@@ -39,13 +36,12 @@ export function ModelResults({
   }
   return (
     <div className="space-y-6">
-      <FigureWorkerStart figures={pageFigureUrls(view, studyId, rerunId)} />
       <RowsAndFit view={view} />
       <TreatmentEffectSection view={view} />
       <CoefficientsSection view={view} />
       <ChecksSection view={view} studyId={studyId} rerunId={rerunId} />
       <BinomialFitSection view={view} studyId={studyId} rerunId={rerunId} />
-      {/* after the last figure frame: the worker started above draws them while the page's scripts load */}
+      {/* after the last figure frame: the worker the page started at its top (FigureWorkerStart) draws them while the page's scripts load */}
       <FigureFramesReady />
     </div>
   );
