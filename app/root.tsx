@@ -5,13 +5,16 @@ import {
   Outlet,
   Scripts,
   ScrollRestoration,
+  useMatches,
   useNavigation,
   useRouteError,
 } from "react-router";
+import { Fragment } from "react";
 import type { Route } from "./+types/root";
 import "./app.css";
 import { ErrorPage } from "./components/error-page";
 import { useNonce } from "./components/nonce";
+import { headStartOf } from "./components/head-start";
 import { securityMiddleware } from "./.server/security.server";
 
 export const middleware: Route.MiddlewareFunction[] = [securityMiddleware];
@@ -29,11 +32,16 @@ export function meta(): Route.MetaDescriptors {
 
 export function Layout({ children }: { children: React.ReactNode }) {
   const nonce = useNonce();
+  const matches = useMatches();
   return (
     <html lang="en">
       <head>
         <meta charSet="utf-8" />
         <meta name="viewport" content="width=device-width, initial-scale=1" />
+        {/* before the stylesheet: an inline script after it would wait until the stylesheet arrives */}
+        {matches.map((m) => (
+          <Fragment key={m.id}>{headStartOf(m.handle, m.data)}</Fragment>
+        ))}
         <Meta />
         <Links />
       </head>

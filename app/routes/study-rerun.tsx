@@ -4,6 +4,7 @@ import { z } from "zod";
 import type { Route } from "./+types/study-rerun";
 import { Caution } from "~/components/caution";
 import { FigureWorkerStart } from "~/components/figures/figure-worker-start";
+import type { HeadStartHandle } from "~/components/head-start";
 import { PageHeader } from "~/components/page";
 import { StatusLabel } from "~/components/status";
 import { FindingsSection } from "~/components/rerun/findings-section";
@@ -30,6 +31,14 @@ import { requireStudy } from "~/.server/study-access.server";
 export function meta({ loaderData }: Route.MetaArgs) {
   return [{ title: `Rerun ${loaderData?.model.key ?? ""} · ${loaderData?.code ?? ""} · Plumbline` }];
 }
+
+/** The figure worker starts in the head, so it fetches every figure as the HTML begins to arrive. */
+export const handle: HeadStartHandle = {
+  headStart: (data) => {
+    const { view, studyId, rerun } = data as Route.ComponentProps["loaderData"];
+    return view ? <FigureWorkerStart figures={pageFigureUrls(view, studyId, rerun.id)} /> : null;
+  },
+};
 
 export async function loader({ request, params }: Route.LoaderArgs) {
   const access = await requireStudy(request, params.studyId, "rerun.view");
@@ -104,8 +113,6 @@ export default function RerunPage({ loaderData, actionData }: Route.ComponentPro
 
   return (
     <>
-      {/* first in the page, so the figure worker starts (and fetches every figure) as the HTML begins */}
-      {view ? <FigureWorkerStart figures={pageFigureUrls(view, studyId, rerun.id)} /> : null}
       <PageHeader
         eyebrow={`${loaderData.code} · rerun${rerun.kind === "sensitivity" ? " · sensitivity analysis" : ""}`}
         title={`${loaderData.model.key} · ${loaderData.model.title}`}
