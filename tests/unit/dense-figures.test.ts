@@ -9,7 +9,6 @@ import { compile } from "vega-lite";
 import { generateDemoDataset } from "~/.server/demo/demo-dataset";
 import { axisBins, boxSummaries, densityCells, qqKept } from "~/figures/shared/summaries";
 import type { RerunDocument } from "~/.server/reruns/reruns.server";
-import { rerunTable } from "~/.server/reruns/what-if.server";
 import { figureData, figureSpec } from "~/figures/registry";
 import { BEYOND, DENSE_FROM, DENSE_POINTS } from "~/figures/shared/types";
 import type { InfluenceData } from "~/figures/cooks-distance";
@@ -19,8 +18,7 @@ import type { QqData } from "~/figures/qq";
 import type { ResidualsFittedData } from "~/figures/residuals-fitted";
 import type { SpreadByArmData } from "~/figures/spread-by-arm";
 import type { SlopesByArmData } from "~/figures/slopes-by-arm";
-import { fitLinear } from "~/engine";
-import { defaultChecks, evaluateChecks } from "~/engine/checks";
+import { demoPrimaryRerun } from "../support/demo-primary-rerun";
 
 const TARGET = 6_000;
 
@@ -35,33 +33,8 @@ function largeDoc(): RerunDocument {
       n++;
     }
   }
-  const partial = {
-    population: { column: "fasfl", value: "Y" },
-    options: { variant: "planned" },
-  } as unknown as RerunDocument;
-  const table = rerunTable(partial, { columns, rowNumbers: columns.subjid.map((_, i) => i + 1) });
-  const result = fitLinear(
-    {
-      response: "chg",
-      terms: [
-        { variable: "arm", reference: "Placebo" },
-        { variable: "base" },
-        { variable: "stratum" },
-        { variable: "region" },
-        { variable: "sex" },
-        { variable: "age" },
-      ],
-      id: "subjid",
-      treatment: "arm",
-    },
-    table,
-  );
-  return {
-    ...partial,
-    result,
-    checks: evaluateChecks(result, defaultChecks(true)),
-    table,
-  } as unknown as RerunDocument & { table: typeof table };
+  const { doc, table } = demoPrimaryRerun(columns);
+  return { ...doc, table } as RerunDocument & { table: typeof table };
 }
 
 const doc = largeDoc() as RerunDocument & {

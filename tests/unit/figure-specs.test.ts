@@ -7,41 +7,17 @@ import { expectWellFormedFigure, titleOf } from "../support/figure-checks";
 import { compile, type TopLevelSpec } from "vega-lite";
 import { generateDemoDataset } from "~/.server/demo/demo-dataset";
 import { blomQuantiles, FigureUnavailableError } from "~/figures/shared/source";
-import type { RerunDocument } from "~/.server/reruns/reruns.server";
-import { rerunTable } from "~/.server/reruns/what-if.server";
 import { figureData, figureSpec, plotsSubjects, type FigureData } from "~/figures/registry";
 import { forestPoints, forestSpec } from "~/figures/forest";
 import { rewrapTitle } from "~/figures/shared/look";
 import type { QqData } from "~/figures/qq";
-import { fitLinear } from "~/engine";
-import { defaultChecks, evaluateChecks, type FigureKey } from "~/engine/checks";
+import type { FigureKey } from "~/engine/checks";
+import { demoPrimaryRerun } from "../support/demo-primary-rerun";
 
 const ds = generateDemoDataset();
 const columns: Record<string, string[]> = {};
 for (const c of ds.columns) columns[c] = ds.rows.map((r) => r[c]);
-const locked = { columns, rowNumbers: ds.rows.map((_, i) => i + 1) };
-const partial = {
-  population: { column: "fasfl", value: "Y" },
-  options: { variant: "planned" },
-} as unknown as RerunDocument;
-const table = rerunTable(partial, locked);
-const result = fitLinear(
-  {
-    response: "chg",
-    terms: [
-      { variable: "arm", reference: "Placebo" },
-      { variable: "base" },
-      { variable: "stratum" },
-      { variable: "region" },
-      { variable: "sex" },
-      { variable: "age" },
-    ],
-    id: "subjid",
-    treatment: "arm",
-  },
-  table,
-);
-const doc = { ...partial, result, checks: evaluateChecks(result, defaultChecks(true)) } as RerunDocument;
+const { doc, table, result } = demoPrimaryRerun(columns);
 
 const FIGURES: [FigureKey, string?][] = [
   ["residuals_fitted"],

@@ -16,38 +16,14 @@ const registered = new Set(Object.keys(transforms).map((k) => k.toLowerCase()));
 
 const { compile } = await import("vega-lite");
 const { generateDemoDataset } = await import("~/.server/demo/demo-dataset");
-const { rerunTable } = await import("~/.server/reruns/what-if.server");
 const { figureData, figureSpec, FIGURE_KEYS } = await import("~/figures/registry");
 const { FigureUnavailableError } = await import("~/figures/shared/source");
-const { fitLinear } = await import("~/engine");
-const { defaultChecks, evaluateChecks } = await import("~/engine/checks");
-type RerunDocument = import("~/.server/reruns/reruns.server").RerunDocument;
+const { demoPrimaryRerun } = await import("../support/demo-primary-rerun");
 
 const ds = generateDemoDataset();
 const columns: Record<string, string[]> = {};
 for (const c of ds.columns) columns[c] = ds.rows.map((r) => r[c]);
-const partial = {
-  population: { column: "fasfl", value: "Y" },
-  options: { variant: "planned" },
-} as unknown as RerunDocument;
-const table = rerunTable(partial, { columns, rowNumbers: ds.rows.map((_, i) => i + 1) });
-const result = fitLinear(
-  {
-    response: "chg",
-    terms: [
-      { variable: "arm", reference: "Placebo" },
-      { variable: "base" },
-      { variable: "stratum" },
-      { variable: "region" },
-      { variable: "sex" },
-      { variable: "age" },
-    ],
-    id: "subjid",
-    treatment: "arm",
-  },
-  table,
-);
-const doc = { ...partial, result, checks: evaluateChecks(result, defaultChecks(true)) } as RerunDocument;
+const { doc, table } = demoPrimaryRerun(columns);
 
 /** Every transform type a compiled Vega specification names, in its data and its (nested) marks. */
 function transformTypes(node: unknown, out = new Set<string>()): Set<string> {
