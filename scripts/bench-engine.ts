@@ -35,6 +35,7 @@ import { fitModel, type ModelSpecInput } from "../app/engine";
 import { benchCox } from "./bench-cox";
 import { benchMmrm } from "./bench-mmrm";
 import { benchWholeRerun } from "./bench-rerun-compute";
+import { ARMS, normalStream } from "./lib/normal-stream";
 
 interface Case {
   readonly n: number;
@@ -46,22 +47,6 @@ interface Case {
 interface Measurement {
   seconds: number;
   peakMiB: number;
-}
-
-const ARMS = ["Placebo", "Low dose", "High dose"] as const;
-
-/** Deterministic standard normal draws (xorshift32 and Box–Muller). */
-function normalStream(seed: number): () => number {
-  let s = seed >>> 0 || 1;
-  const uniform = () => {
-    s ^= s << 13;
-    s >>>= 0;
-    s ^= s >>> 17;
-    s ^= s << 5;
-    s >>>= 0;
-    return (s + 0.5) / 4294967296;
-  };
-  return () => Math.sqrt(-2 * Math.log(uniform())) * Math.cos(2 * Math.PI * uniform());
 }
 
 interface Invented {

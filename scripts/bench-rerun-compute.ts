@@ -16,22 +16,13 @@ import { plannedSensitivityOptions } from "../app/.server/reruns/planned-sensiti
 import { encodeResult } from "../app/.server/reruns/result-files";
 import type { RerunOptions } from "../app/.server/reruns/rerun-options";
 import { defaultChecks } from "../app/engine/checks";
+import { ARMS, normalStream } from "./lib/normal-stream";
 
-const ARMS = ["Placebo", "Low dose", "High dose"] as const;
 const COVARIATES = 8;
 
 /** Invented trial data, seeded (xorshift32 and Box–Muller); a few subjects far from the rest. */
 export function inventedTrial(n: number): RerunTable {
-  let s = 20261205;
-  const uniform = () => {
-    s ^= s << 13;
-    s >>>= 0;
-    s ^= s >>> 17;
-    s ^= s << 5;
-    s >>>= 0;
-    return (s + 0.5) / 4294967296;
-  };
-  const normal = () => Math.sqrt(-2 * Math.log(uniform())) * Math.cos(2 * Math.PI * uniform());
+  const normal = normalStream(20261205);
   const arm = Array.from({ length: n }, (_, i) => ARMS[i % 3]);
   const xs = Array.from({ length: COVARIATES }, () => Float64Array.from({ length: n }, normal));
   const y = new Float64Array(n);
