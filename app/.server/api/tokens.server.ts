@@ -172,7 +172,6 @@ export interface ApiPrincipal {
 
 export type TokenCheck = { ok: true; principal: ApiPrincipal } | { ok: false; message: string };
 
-/** Checks a presented token: known, not revoked, not expired. Records when it was last used. */
 /** Every API request reads its token: the query is built once (prepared), not per request. */
 const tokenByHash = db
   .select({ k: t.apiTokens, p: t.people })
@@ -182,6 +181,7 @@ const tokenByHash = db
   .limit(1)
   .prepare();
 
+/** Checks a presented token: known, not revoked, not expired. Records when it was last used. */
 export async function verifyToken(token: string): Promise<TokenCheck> {
   const [row] = await tokenByHash.all({ hash: hashToken(token) });
   if (!row)
