@@ -129,21 +129,6 @@ export interface StudyAccess {
 }
 
 /**
- * Signs-in check plus study permission check; throws a redirect to sign-in for anonymous
- * requests and a 403 naming the needed role otherwise. Does not check that the study exists:
- * callers load it and answer 404 when it does not.
- */
-export async function requireStudyPermission(
-  request: Request,
-  studyId: string,
-  action: StudyAction,
-  signedIn?: CurrentUser,
-): Promise<StudyAccess> {
-  const user = signedIn ?? (await requireUser(request));
-  return { user, ...(await requirePersonStudyPermission(user, studyId, action)) };
-}
-
-/**
  * The study permission check for a person known other than by a browser session (an API
  * token acts for its person): the same rule, from the same table, never more. Throws a 403
  * naming the needed role.

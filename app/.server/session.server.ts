@@ -10,6 +10,7 @@ import { LRUCache } from "lru-cache";
 import { createCookie, redirect } from "react-router";
 import { config, servedOverHttps } from "./config.server";
 import { db, isoNow, t, writeTransaction } from "./db/index.server";
+import { forgetRequestReads, oncePerRequest } from "./request-reads.server";
 
 export const IDLE_TIMEOUT_MS = 30 * 60 * 1000;
 export const ABSOLUTE_TIMEOUT_MS = 12 * 60 * 60 * 1000;
@@ -75,7 +76,7 @@ export async function startSession(
   personId: string,
   saml?: { nameId?: string; sessionIndex?: string },
 ): Promise<string> {
-  userOfRequest.delete(request);
+  forgetRequestReads(request);
   const previous = await readSessionId(request);
   const id = randomBytes(32).toString("base64url");
   const at = new Date();
@@ -121,22 +122,12 @@ export async function confirmSignIn(
 }
 
 /**
- * The session looked up for each page request: a page's loaders (the shell, the study layout,
- * the page) run in parallel on one request and each asks for the signed-in person, so the
- * cookie is verified and the session read once per request, not once per loader. Only reads
- * (GET, HEAD) are remembered; starting or ending a session forgets its request.
+ * The signed-in person, or null when there is no live session (expired sessions are ended).
+ * Read once per request (`oncePerRequest`): the cookie verified and the session read once, not
+ * once per loader.
  */
-const userOfRequest = new WeakMap<Request, Promise<CurrentUser | null>>();
-
-/** The signed-in person, or null when there is no live session (expired sessions are ended). */
 export function getCurrentUser(request: Request): Promise<CurrentUser | null> {
-  if (request.method !== "GET" && request.method !== "HEAD") return lookUpUser(request);
-  let user = userOfRequest.get(request);
-  if (!user) {
-    user = lookUpUser(request);
-    userOfRequest.set(request, user);
-  }
-  return user;
+  return oncePerRequest(request, "user", () => lookUpUser(request));
 }
 
 /** Every request reads its session: the query is built once (prepared), not per request. */
@@ -192,7 +183,7 @@ export async function requireUser(request: Request): Promise<CurrentUser> {
 
 /** Ends the browser's session; returns the Set-Cookie header value that clears the cookie. */
 export async function endSession(request: Request): Promise<string> {
-  userOfRequest.delete(request);
+  forgetRequestReads(request);
   const id = await readSessionId(request);
   if (id) await writeTransaction((tx) => tx.delete(t.sessions).where(eq(t.sessions.id, id)));
   return sessionCookie.serialize("", { maxAge: 0 });

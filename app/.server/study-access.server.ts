@@ -3,6 +3,7 @@
  * sign-in), the study exists (else 404), the person's role allows the action (else 403).
  */
 import { studyRoleOf } from "./people.server";
+import { oncePerRequest } from "./request-reads.server";
 import {
   requirePersonStudyPermission,
   requireRolePermits,
@@ -24,28 +25,19 @@ export async function requireStudy(
 }
 
 /**
- * The study and the person's role on it, read once per page request: the study layout's
- * loader and the page's run in parallel on the same request, each with its own action to
- * check (checked each time, from the role). Only reads (GET, HEAD) are remembered.
+ * The study and the person's role on it, read once per request (`oncePerRequest`): the study
+ * layout's loader and the page's run in parallel, each with its own action to check (checked
+ * each time, from the role).
  */
-const studyOfRequest = new WeakMap<Request, Map<string, Promise<{ study: Study; role: StudyRole | null }>>>();
-
 function studyAndRole(
   request: Request,
   user: CurrentUser,
   studyId: string,
 ): Promise<{ study: Study; role: StudyRole | null }> {
-  const read = async () => {
+  return oncePerRequest(request, `study:${user.id}:${studyId}`, async () => {
     const study = await getStudyOr404(studyId);
     return { study, role: await studyRoleOf(user.id, study.id) };
-  };
-  if (request.method !== "GET" && request.method !== "HEAD") return read();
-  let byStudy = studyOfRequest.get(request);
-  if (!byStudy) studyOfRequest.set(request, (byStudy = new Map()));
-  const key = `${user.id}:${studyId}`;
-  let found = byStudy.get(key);
-  if (!found) byStudy.set(key, (found = read()));
-  return found;
+  });
 }
 
 /**
